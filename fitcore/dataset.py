@@ -1,0 +1,133 @@
+"""The engine's input: every series' rows as contiguous float64 arrays."""
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass, field
+from functools import cached_property
+
+import numpy as np
+import pandas as pd
+
+
+def _readonly(array: np.ndarray) -> np.ndarray:
+    array.flags.writeable = False
+    return array
+
+
+@dataclass(frozen=True, eq=False)
+class Dataset:
+    """Observations grouped by series.
+
+    Rows of series ``s`` are ``offsets[s]:offsets[s + 1]``, in the order the
+    input file gave them.  ``S`` series, ``N`` rows in all.
+
+    - ``key_names``: the key columns (product first, then segments).
+    - ``keys``: column name → (S,) array of strings.
+    - ``offsets``: (S + 1,) int64.
+    - ``price``, ``volume``: (N,) float64.
+    - ``weight``: (N,) float64 or None (every row weighs 1).
+    - ``date``: (N,) datetime64[ns] or None.
+    - ``line``: (N,) int64, the row's line in the input file (header = line 1).
+    - ``source``: where the rows came from (path, sha256, rows read, rows rejected).
+    """
+
+    key_names: tuple[str, ...]
+    keys: dict[str, np.ndarray]
+    offsets: np.ndarray
+    price: np.ndarray
+    volume: np.ndarray
+    weight: np.ndarray | None = None
+    date: np.ndarray | None = None
+    line: np.ndarray | None = None
+    source: dict = field(default_factory=dict)
+
+    @property
+    def n_series(self) -> int:
+        return len(self.offsets) - 1
+
+    @property
+    def n_rows(self) -> int:
+        return len(self.price)
+
+    @cached_property
+    def counts(self) -> np.ndarray:
+        """(S,) observations per series."""
+        return _readonly(np.diff(self.offsets))
+
+    def key_of(self, s: int) -> dict[str, str]:
+        return {name: str(self.keys[name][s]) for name in self.key_names}
+
+    @cached_property
+    def key_hash(self) -> np.ndarray:
+        """(S,) uint64 hash of each series' key, the same on every machine.
+
+        Seeds each series' fold shuffle, so fold assignment depends on the
+        series itself and never on which other series share the file.
+        """
+        frame = pd.DataFrame({name: self.keys[name].astype(str) for name in self.key_names})
+        return _readonly(pd.util.hash_pandas_object(frame, index=False).to_numpy(np.uint64))
+
+    @cached_property
+    def fingerprints(self) -> list[str]:
+        """SHA-256 of each series' rows (price, volume, and weight and date where given)."""
+        columns = [self.price, self.volume]
+        if self.weight is not None:
+            columns.append(self.weight)
+        if self.date is not None:
+            columns.append(self.date.view(np.int64))
+        table = np.ascontiguousarray(np.column_stack(columns)).view(np.uint8)
+        width = table.shape[1]
+        flat = table.reshape(-1)
+        return [hashlib.sha256(flat[lo * width:hi * width]).hexdigest()
+                for lo, hi in zip(self.offsets[:-1].tolist(), self.offsets[1:].tolist())]
+
+    def take_series(self, index: np.ndarray) -> "Dataset":
+        """A dataset of the series ``index`` (in that order)."""
+        index = np.asarray(index, dtype=np.int64)
+        counts = self.counts[index]
+        starts = self.offsets[:-1][index]
+        rows = np.repeat(starts - np.concatenate(([0], np.cumsum(counts)[:-1])), counts) + np.arange(counts.sum())
+        offsets = np.concatenate(([0], np.cumsum(counts))).astype(np.int64)
+        pick = lambda a: None if a is None else _readonly(a[rows])  # noqa: E731
+        return Dataset(self.key_names, {k: v[index] for k, v in self.keys.items()}, _readonly(offsets),
+                       pick(self.price), pick(self.volume), pick(self.weight), pick(self.date),
+                       pick(self.line), dict(self.source))
+
+
+def from_columns(keys: dict[str, np.ndarray], price, volume, *, weight=None, date=None,
+                 line=None, source: dict | None = None) -> Dataset:
+    """Group rows into series by their key columns (first appearance order).
+
+    Rows of one series keep their input order; rows need not arrive grouped.
+    """
+    key_names = tuple(keys)
+    codes = _series_codes([np.asarray(keys[name]) for name in key_names])
+    n = len(codes)
+    if n and np.all(codes[1:] >= codes[:-1]):
+        order = None
+    else:
+        order = np.argsort(codes, kind="stable")
+        codes = codes[order]
+    first = np.flatnonzero(np.concatenate(([True], codes[1:] != codes[:-1]))) if n else np.zeros(0, np.int64)
+    offsets = np.append(first, n).astype(np.int64)
+    take = (lambda a: None if a is None else np.ascontiguousarray(np.asarray(a) if order is None else np.asarray(a)[order]))
+    rows_of_first = first if order is None else order[first]
+    key_values = {name: np.asarray(keys[name], dtype=object)[rows_of_first] for name in key_names}
+    price = take(np.asarray(price, dtype=np.float64))
+    volume = take(np.asarray(volume, dtype=np.float64))
+    return Dataset(
+        key_names, key_values, _readonly(offsets), _readonly(price), _readonly(volume),
+        None if weight is None else _readonly(take(np.asarray(weight, dtype=np.float64))),
+        None if date is None else _readonly(take(np.asarray(date, dtype="datetime64[ns]"))),
+        _readonly(take(np.arange(2, n + 2, dtype=np.int64) if line is None else np.asarray(line, np.int64))),
+        dict(source or {}))
+
+
+def _series_codes(columns: list[np.ndarray]) -> np.ndarray:
+    """One int64 code per row, equal for rows of one series, numbered by first appearance."""
+    codes, _ = pd.factorize(columns[0], sort=False)
+    for column in columns[1:]:
+        column_codes, uniques = pd.factorize(column, sort=False)
+        # Re-number after each column so the combined code never overflows.
+        codes, _ = pd.factorize(codes.astype(np.int64) * len(uniques) + column_codes, sort=False)
+    return codes.astype(np.int64)

@@ -1,0 +1,37 @@
+"""Errors raised by pricefold.
+
+Hierarchy::
+
+    PricefoldError                      base of everything pricefold raises on purpose
+    ├── SettingsError(…, ValueError)    an option or setting out of range, or settings that clash
+    └── DataError(…, ValueError)        an input file that cannot be used; carries file, row, column
+
+Numerical trouble inside a series (too few points, a flat price, rank
+deficiency) is never an exception: it is recorded in that series' result.
+"""
+from __future__ import annotations
+
+
+class PricefoldError(Exception):
+    """Base class: the command line prints these as one line, without a traceback."""
+
+
+class SettingsError(PricefoldError, ValueError):
+    """A setting is out of range or contradicts another one."""
+
+
+class DataError(PricefoldError, ValueError):
+    """An input file cannot be used as given.
+
+    ``path``, ``line`` (1-based, the header is line 1) and ``column`` say where,
+    when known; the message says what was expected and what was found.
+    """
+
+    def __init__(self, message: str, *, path: str | None = None,
+                 line: int | None = None, column: str | None = None) -> None:
+        self.path, self.line, self.column = path, line, column
+        where = ", ".join(part for part in (
+            str(path) if path else None,
+            f"line {line}" if line is not None else None,
+            f"column {column!r}" if column else None) if part)
+        super().__init__(f"{where}: {message}" if where else message)

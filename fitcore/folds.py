@@ -1,0 +1,129 @@
+"""How each series' rows are dealt into cross-validation folds.
+
+Every series is cut into contiguous *blocks* of a working row order:
+
+- ``given``: file order; K blocks with scikit-learn ``KFold(shuffle=False)``
+  sizes (the first ``n mod K`` blocks hold ``n // K + 1`` rows, the rest
+  ``n // K``).  Fold f holds out block f and trains on the others.
+- ``shuffled``: the same blocks over a seeded permutation of the series'
+  rows.  The permutation depends only on the seed, the series key and the
+  rows' positions within the series, so it is the same on every machine and
+  whatever other series share the file or the partition.
+- ``time``: rows sorted by date; K + 1 blocks as scikit-learn
+  ``TimeSeriesSplit(n_splits=K)`` (each test block ``n // (K + 1)`` rows, the
+  remainder goes to the first training block).  Fold f trains on blocks
+  0..f and holds out block f + 1 (rolling origin).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .settings import FitSettings
+
+
+@dataclass(frozen=True, eq=False)
+class FoldLayout:
+    """Row order and block boundaries for a set of series.
+
+    - ``order``: (N,) int64 dataset row of each working position, or None when
+      the working order is the dataset order.
+    - ``bounds``: (S, B + 1) int64 working positions; block b of series s is
+      ``bounds[s, b]:bounds[s, b + 1]``.
+    - ``held_out``: (K,) the block each fold holds out.
+    - ``cumulative``: False → fold f trains on every block but its own;
+      True → on the blocks before the one it holds out.
+    - ``usable``: (S,) bool, every fold has rows to train on and to test.
+    """
+
+    order: np.ndarray | None
+    bounds: np.ndarray
+    held_out: np.ndarray
+    cumulative: bool
+    usable: np.ndarray
+
+    @property
+    def n_folds(self) -> int:
+        return len(self.held_out)
+
+
+def kfold_bounds(counts: np.ndarray, k: int) -> np.ndarray:
+    """(S, k + 1) block starts within each series, ``KFold`` sizes."""
+    q, r = np.divmod(counts, k)
+    b = np.arange(k + 1)
+    return b * q[:, None] + np.minimum(b, r[:, None])
+
+
+def time_bounds(counts: np.ndarray, k: int) -> np.ndarray:
+    """(S, k + 2) block starts within each series, ``TimeSeriesSplit`` sizes."""
+    size = counts // (k + 1)
+    first = counts - k * size
+    b = np.arange(k + 2)
+    return np.where(b == 0, 0, first[:, None] + (b - 1) * size[:, None])
+
+
+def splitmix64(x: np.ndarray) -> np.ndarray:
+    """The SplitMix64 finaliser: a well-mixed 64-bit hash of each uint64."""
+    with np.errstate(over="ignore"):
+        z = x + np.uint64(0x9E3779B97F4A7C15)
+        z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+        z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+        return z ^ (z >> np.uint64(31))
+
+
+def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int) -> np.ndarray:
+    """(N,) a seeded permutation of each series' rows, series kept contiguous."""
+    counts = np.diff(offsets)
+    n = int(offsets[-1])
+    series = np.repeat(np.arange(len(counts), dtype=np.int64), counts)
+    position = np.arange(n, dtype=np.int64) - np.repeat(offsets[:-1], counts)
+    with np.errstate(over="ignore"):
+        stream = splitmix64(key_hash ^ splitmix64(np.uint64(seed) + np.zeros(1, np.uint64)))
+        draw = splitmix64(np.repeat(stream, counts) + position.astype(np.uint64))
+    if len(counts) < 2 ** 23 and (n == 0 or counts.max() < 2 ** 20):
+        # One sort of packed keys: series (23 bits) | random (20 bits) | position (20 bits).
+        packed = (series << 40) | ((draw >> np.uint64(44)).astype(np.int64) << 20) | position
+        packed.sort()
+        return np.repeat(offsets[:-1], counts) + (packed & (2 ** 20 - 1))
+    return np.lexsort((position, draw, series))
+
+
+def layout(offsets: np.ndarray, settings: FitSettings, *, key_hash: np.ndarray | None = None,
+           date: np.ndarray | None = None) -> FoldLayout:
+    """The fold layout of the series whose rows are ``offsets`` apart."""
+    counts = np.diff(offsets)
+    k = int(settings.folds)
+    if settings.fold_order == "time":
+        if date is None:
+            raise ValueError("time-ordered folds need a date column")
+        series = np.repeat(np.arange(len(counts)), counts)
+        order = np.lexsort((np.arange(len(series)), date.view(np.int64), series))
+        inner = time_bounds(counts, k)
+        return FoldLayout(order, inner + offsets[:-1, None], np.arange(1, k + 1), True, counts >= k + 1)
+    order = shuffle_order(offsets, key_hash, settings.seed) if settings.fold_order == "shuffled" else None
+    inner = kfold_bounds(counts, k)
+    return FoldLayout(order, inner + offsets[:-1, None], np.arange(k), False, counts >= k)
+
+
+def fold_ids(offsets: np.ndarray, settings: FitSettings, *, key_hash: np.ndarray | None = None,
+             date: np.ndarray | None = None) -> np.ndarray:
+    """(N,) the fold that holds out each dataset row; -1 for rows never held out."""
+    lay = layout(offsets, settings, key_hash=key_hash, date=date)
+    block = np.repeat(np.tile(np.arange(lay.bounds.shape[1] - 1), len(lay.bounds)), np.diff(lay.bounds, axis=1).ravel())
+    fold_of_block = np.full(lay.bounds.shape[1] - 1, -1)
+    fold_of_block[lay.held_out] = np.arange(lay.n_folds)
+    ids = np.empty(int(offsets[-1]), dtype=np.int64)
+    ids[lay.order if lay.order is not None else slice(None)] = fold_of_block[block]
+    return ids
+
+
+def split_indices(offsets: np.ndarray, settings: FitSettings, series: int, **kwargs):
+    """Yield ``(train, test)`` dataset-row index arrays for one series, fold by fold."""
+    lo, hi = int(offsets[series]), int(offsets[series + 1])
+    ids = fold_ids(offsets, settings, **kwargs)[lo:hi]
+    rows = np.arange(lo, hi)
+    cumulative = settings.fold_order == "time"
+    for f in range(int(settings.folds)):
+        # Rows of block 0 of a time layout carry id -1: always in training.
+        yield (rows[ids < f] if cumulative else rows[ids != f]), rows[ids == f]

@@ -1,0 +1,39 @@
+"""Why a candidate is unavailable for a series: codes kept as int8, sentences made on output."""
+from __future__ import annotations
+
+import numpy as np
+
+NONE = 0
+TOO_FEW_FOR_FOLDS = 1
+FLAT_PRICE = 2
+TOO_FEW_POINTS = 3
+RANK_ALL = 4
+RANK_FOLD = 5
+LEVERAGE_ONE = 6
+NOT_POSITIVE = 7
+
+
+def sentence(code: int, *, n: int, folds: int | str, coefficients: int, distinct: int) -> str | None:
+    """The plain-language reason for ``code``, with the series' numbers."""
+    if code == NONE:
+        return None
+    if code == TOO_FEW_FOR_FOLDS:
+        need = 2 if folds == "loo" else int(folds)
+        return f"{n} observations cannot be split into {need} folds"
+    if code == FLAT_PRICE:
+        return "every observation has the same price, so no curve in price can be estimated"
+    if code == TOO_FEW_POINTS:
+        return f"{coefficients} coefficients need more than {coefficients} observations; the series has {n}"
+    if code == RANK_ALL:
+        return f"{distinct} distinct prices cannot determine {coefficients} coefficients"
+    if code == RANK_FOLD:
+        return f"some fold's training rows have fewer than {coefficients} distinct prices ({distinct} in all)"
+    if code == LEVERAGE_ONE:
+        return "an observation alone determines a coefficient, so leaving it out leaves the curve undefined"
+    if code == NOT_POSITIVE:
+        return "a log-log curve needs every price and volume above zero"
+    raise ValueError(f"unknown reason code {code}")
+
+
+def distinct_count(values: np.ndarray) -> int:
+    return int(len(np.unique(values)))

@@ -1,0 +1,121 @@
+"""Results of a batch fit: frozen arrays over series × candidates."""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import reasons
+from .basis import power_coefficients
+from .candidates import Candidate
+from .dataset import Dataset
+from .settings import FitSettings
+
+SCHEMA = "pricefold-results/1"
+
+
+@dataclass(frozen=True, eq=False)
+class Results:
+    """Everything ``fit_batch`` computed.  S series, C candidates, P = max degree + 1.
+
+    Per series × candidate (S, C): ``available``, ``reason`` (int8 codes, see
+    ``reasons``), ``cv_mse``, ``cv_se``, ``r2``, ``q2``, ``sigma2`` (residual
+    variance; log scale for loglog), ``df`` and the plan-price columns
+    ``plan_volume``, ``plan_lo``, ``plan_hi``, ``plan_elasticity``.
+    ``fold_err``: (F, C) held-out MSE of each fold, series s owning rows
+    ``fold_start[s]:fold_start[s + 1]`` (K folds, or one per observation for
+    leave-one-out).  ``coef``: (S, C, P) coefficients in the series' window:
+    poly in t = (price − mid)/half, loglog [a, e] of ln volume in
+    u = (ln price − log_mid)/log_half.  Per series (S,): ``chosen`` (-1 when
+    nothing is available), ``price_lo``, ``price_hi``, ``mid``, ``half``,
+    ``log_mid``, ``log_half``, ``smear``, ``plan_price``, ``revenue_price``.
+    """
+
+    data: Dataset
+    settings: FitSettings
+    candidates: tuple[Candidate, ...]
+    available: np.ndarray
+    reason: np.ndarray
+    cv_mse: np.ndarray
+    cv_se: np.ndarray
+    r2: np.ndarray
+    q2: np.ndarray
+    fold_err: np.ndarray
+    fold_start: np.ndarray
+    coef: np.ndarray
+    sigma2: np.ndarray
+    df: np.ndarray
+    chosen: np.ndarray
+    price_lo: np.ndarray
+    price_hi: np.ndarray
+    mid: np.ndarray
+    half: np.ndarray
+    log_mid: np.ndarray
+    log_half: np.ndarray
+    smear: np.ndarray
+    plan_price: np.ndarray
+    plan_volume: np.ndarray
+    plan_lo: np.ndarray
+    plan_hi: np.ndarray
+    plan_elasticity: np.ndarray
+    revenue_price: np.ndarray
+
+    @classmethod
+    def build(cls, data: Dataset, settings: FitSettings, candidates, plan_price, parts: dict | None) -> "Results":
+        n_c = len(candidates)
+        if parts is None:  # no series at all
+            parts = _empty(n_c, max(settings.degrees) + 1)
+        n_folds = parts.pop("n_folds")
+        fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
+        fields = dict(parts, fold_start=fold_start, plan_price=plan_price)
+        for array in fields.values():
+            if isinstance(array, np.ndarray):
+                array.flags.writeable = False
+        return cls(data=data, settings=settings, candidates=tuple(candidates), **fields)
+
+    @property
+    def n_series(self) -> int:
+        return self.data.n_series
+
+    @property
+    def names(self) -> list[str]:
+        return [c.name for c in self.candidates]
+
+    @property
+    def score(self) -> np.ndarray:
+        """(S,) Q² of the chosen candidate (NaN where none was chosen)."""
+        picked = np.take_along_axis(self.q2, np.maximum(self.chosen, 0)[:, None], axis=1)[:, 0]
+        return np.where(self.chosen >= 0, picked, np.nan)
+
+    def power_coef(self, s: int, c: int) -> list[float]:
+        """Coefficients in plain units: poly Σ cᵢ·priceⁱ; loglog [a, e] of ln volume = a + e·ln price."""
+        cand = self.candidates[c]
+        if cand.family == "poly":
+            return power_coefficients(self.coef[s, c, :cand.degree + 1], self.mid[s], self.half[s]).tolist()
+        a, e = self.coef[s, c, :2]
+        width = self.log_half[s] if self.log_half[s] > 0 else 1.0
+        return [float(a - e * self.log_mid[s] / width), float(e / width)]
+
+    def folds_of(self, s: int) -> np.ndarray:
+        """(K, C) held-out MSE per fold of series ``s``."""
+        return self.fold_err[self.fold_start[s]:self.fold_start[s + 1]]
+
+    def reason_text(self, s: int, c: int) -> str | None:
+        code = int(self.reason[s, c])
+        if code == reasons.NONE:
+            return None
+        rows = slice(self.data.offsets[s], self.data.offsets[s + 1])
+        return reasons.sentence(code, n=int(self.data.counts[s]), folds=self.settings.folds,
+                                coefficients=self.candidates[c].complexity,
+                                distinct=reasons.distinct_count(self.data.price[rows]))
+
+
+def _empty(n_c: int, p: int) -> dict:
+    z = lambda *shape, dtype=float: np.zeros(shape, dtype=dtype)  # noqa: E731
+    parts = {name: z(0, n_c) for name in ("cv_mse", "cv_se", "r2", "q2", "sigma2", "plan_volume",
+                                          "plan_lo", "plan_hi", "plan_elasticity")}
+    parts.update(available=z(0, n_c, dtype=bool), reason=z(0, n_c, dtype=np.int8), df=z(0, n_c, dtype=np.int64),
+                 fold_err=z(0, n_c), coef=z(0, n_c, p), chosen=z(0, dtype=np.int64), n_folds=z(0, dtype=np.int64))
+    parts.update({name: z(0) for name in ("price_lo", "price_hi", "mid", "half", "log_mid", "log_half",
+                                          "smear", "revenue_price")})
+    return parts

@@ -1,0 +1,188 @@
+"""Writing results files: JSON for small runs, Parquet for large ones.
+
+Both carry ``pricefold-results/1``; the README documents the fields.  Files
+are written to a temporary name and renamed, so an interrupted run never
+leaves a half-written results file.
+"""
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+
+from .basis import power_coefficients
+from .errors import DataError
+from .results import SCHEMA, Results
+
+
+def power_coef_table(results: Results) -> np.ndarray:
+    """(S, C, P) every candidate's coefficients in plain price units (NaN-padded)."""
+    out = np.full(results.coef.shape, np.nan)
+    for c, cand in enumerate(results.candidates):
+        if cand.family == "poly":
+            size = cand.degree + 1
+            out[:, c, :size] = power_coefficients(results.coef[:, c, :size], results.mid, results.half)
+        else:
+            width = np.where(results.log_half > 0, results.log_half, 1.0)
+            e = results.coef[:, c, 1] / width
+            out[:, c, 0] = results.coef[:, c, 0] - e * results.log_mid
+            out[:, c, 1] = e
+    return out
+
+
+def header(results: Results) -> dict:
+    return {"schema": SCHEMA, "settings": results.settings.as_dict(), "input": dict(results.data.source)}
+
+
+def _num(value) -> float | None:
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def series_records(results: Results, flags: list[list[dict]] | None = None) -> list[dict]:
+    """One JSON-ready dict per series (the ``series`` list of a results file)."""
+    data, names = results.data, results.names
+    coef = power_coef_table(results)
+    fingerprints = data.fingerprints
+    score = results.score
+    records = []
+    for s in range(results.n_series):
+        folds = results.folds_of(s)
+        candidates = []
+        for c, cand in enumerate(results.candidates):
+            ok = bool(results.available[s, c])
+            size = cand.complexity
+            entry = {"name": cand.name, "family": cand.family, "degree": cand.degree, "available": ok,
+                     "reason": results.reason_text(s, c),
+                     "cv_mse": _num(results.cv_mse[s, c]) if ok else None,
+                     "cv_se": _num(results.cv_se[s, c]) if ok else None,
+                     "fold_mse": [_num(v) for v in folds[:, c]] if ok else [],
+                     "r2": _num(results.r2[s, c]) if ok else None,
+                     "q2": _num(results.q2[s, c]) if ok else None,
+                     "coef": [_num(v) for v in coef[s, c, :size]] if ok else None}
+            if cand.family == "loglog":
+                entry["smearing"] = _num(results.smear[s]) if ok else None
+            if ok and math.isfinite(results.plan_price[s]):
+                entry["plan_volume"] = _num(results.plan_volume[s, c])
+            candidates.append(entry)
+        chosen = int(results.chosen[s])
+        records.append({
+            "key": data.key_of(s), "n": int(data.counts[s]),
+            "price_range": [_num(results.price_lo[s]), _num(results.price_hi[s])],
+            "candidates": candidates,
+            "chosen": names[chosen] if chosen >= 0 else None,
+            "rule": results.settings.rule,
+            "score": _num(score[s]),
+            "flags": flags[s] if flags is not None else [],
+            "revenue_price": _num(results.revenue_price[s]),
+            "plan": _plan_record(results, s, chosen),
+            "fingerprint": fingerprints[s],
+        })
+    return records
+
+
+def _plan_record(results: Results, s: int, chosen: int) -> dict | None:
+    price = results.plan_price[s]
+    if not math.isfinite(price) or chosen < 0:
+        return None
+    return {"price": _num(price), "volume": _num(results.plan_volume[s, chosen]),
+            "lo": _num(results.plan_lo[s, chosen]), "hi": _num(results.plan_hi[s, chosen]),
+            "level": results.settings.level, "elasticity": _num(results.plan_elasticity[s, chosen]),
+            "inside_range": bool(results.price_lo[s] <= price <= results.price_hi[s])}
+
+
+def write_results(results: Results, path: str | Path, flags: list[list[dict]] | None = None) -> Path:
+    """Write ``results`` as JSON or Parquet, chosen by the file name's ending."""
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix == ".json":
+        document = header(results) | {"series": series_records(results, flags)}
+        payload = json.dumps(document, ensure_ascii=False, allow_nan=False, indent=None, separators=(",", ":"))
+        _atomic_write(path, lambda handle: handle.write(payload.encode("utf-8")))
+    elif suffix in (".parquet", ".pq"):
+        import pyarrow.parquet as pq
+        table = results_table(results, flags)
+        _atomic_write(path, lambda handle: pq.write_table(table, handle, compression="zstd"))
+    else:
+        raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
+    return path
+
+
+def results_table(results: Results, flags: list[list[dict]] | None = None):
+    """The Parquet layout: one row per series × candidate; the header in the schema metadata."""
+    import pyarrow as pa
+    n_s, n_c = results.available.shape
+    data = results.data
+    repeat = lambda a: np.repeat(np.asarray(a), n_c)  # noqa: E731
+    tile = lambda a: np.tile(np.asarray(a), n_s)  # noqa: E731
+    coef = power_coef_table(results)
+    sizes = np.array([c.complexity for c in results.candidates])
+    ok = results.available.ravel()
+    lengths = np.where(ok, tile(sizes), 0)
+    coef_lists = pa.ListArray.from_arrays(
+        np.concatenate(([0], np.cumsum(lengths))).astype(np.int32),
+        pa.array(coef.reshape(n_s * n_c, -1)[np.arange(coef.shape[-1])[None, :] < lengths[:, None]], type=pa.float64()))
+    fold_lists = _ragged(results.fold_err, results.fold_start, ok)
+    chosen = results.chosen
+    names = np.array(results.names, dtype=object)
+    columns = {name: repeat(data.keys[name].astype(str)) for name in data.key_names}
+    columns.update(
+        n=repeat(data.counts), price_lo=repeat(results.price_lo), price_hi=repeat(results.price_hi),
+        candidate=tile(names), family=tile([c.family for c in results.candidates]),
+        degree=pa.array(tile([c.degree if c.degree is not None else -1 for c in results.candidates]),
+                        mask=tile([c.degree is None for c in results.candidates])),
+        available=ok,
+        reason=[results.reason_text(s, c) if not ok[s * n_c + c] else None for s in range(n_s) for c in range(n_c)]
+        if (~ok).any() else pa.nulls(n_s * n_c, pa.string()),
+        cv_mse=results.cv_mse.ravel(), cv_se=results.cv_se.ravel(), fold_mse=fold_lists,
+        r2=results.r2.ravel(), q2=results.q2.ravel(), coef=coef_lists,
+        smearing=np.where(tile([c.family == "loglog" for c in results.candidates]), repeat(results.smear), np.nan),
+        is_chosen=(np.arange(n_c)[None, :] == chosen[:, None]).ravel(),
+        chosen=repeat(np.where(chosen >= 0, names[np.maximum(chosen, 0)], None)),
+        score=repeat(results.score), revenue_price=repeat(results.revenue_price),
+        plan_price=repeat(results.plan_price), plan_volume=results.plan_volume.ravel(),
+        plan_lo=results.plan_lo.ravel(), plan_hi=results.plan_hi.ravel(),
+        plan_elasticity=results.plan_elasticity.ravel(),
+        flags=repeat([json.dumps(f) for f in flags] if flags is not None else ["[]"] * n_s),
+        fingerprint=repeat(data.fingerprints),
+    )
+    table = pa.table({name: pa.array(value, from_pandas=True) if not isinstance(value, pa.Array) else value
+                      for name, value in columns.items()})
+    meta = json.dumps(header(results) | {"rule": results.settings.rule, "key_columns": list(data.key_names)})
+    return table.replace_schema_metadata({b"pricefold": meta.encode()})
+
+
+def _ragged(values, starts, keep):
+    """A list per (series, candidate) cell: ``values[starts[s]:starts[s + 1], c]``, empty where not ``keep``."""
+    import pyarrow as pa
+    n_c = values.shape[1]
+    lengths = np.repeat(np.diff(starts), n_c) * keep
+    bounds = np.concatenate(([0], np.cumsum(lengths)))
+    cell = np.repeat(np.arange(len(lengths)), lengths)
+    within = np.arange(bounds[-1]) - bounds[:-1][cell]
+    flat = (starts[cell // n_c] + within) * n_c + cell % n_c
+    return pa.ListArray.from_arrays(bounds.astype(np.int32), pa.array(values.reshape(-1)[flat], type=pa.float64()))
+
+
+def _atomic_write(path: Path, write) -> None:
+    directory = path.resolve().parent
+    try:
+        directory.mkdir(parents=True, exist_ok=True)
+        fd, temp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
+    except OSError as exc:
+        raise DataError(f"cannot write here ({exc.strerror})", path=str(path)) from None
+    try:
+        with os.fdopen(fd, "wb") as handle:
+            write(handle)
+            handle.flush()
+            os.fsync(handle.fileno())
+        os.replace(temp, path)
+    except BaseException as exc:
+        Path(temp).unlink(missing_ok=True)
+        if isinstance(exc, OSError):
+            raise DataError(f"cannot write the results ({exc.strerror})", path=str(path)) from None
+        raise

@@ -1,0 +1,1 @@
+"""The ``pricefold`` command line (fitcore for the numbers, tui for the screen)."""

@@ -1,0 +1,123 @@
+"""``pricefold``: fit demand curves for every series and choose one each by cross-validation.
+
+Each subcommand is a function ``run_<name>(args)`` returning an exit status.
+Errors pricefold anticipates (``PricefoldError``) print as one line on stderr
+and exit 2; nothing is left half-written.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from collections import Counter
+from pathlib import Path
+
+CAUTION = ("Curves fitted to observational sales data confound price with promotions, seasons and "
+           "stock-outs; predictions outside the observed price range are extrapolations. "
+           "pricefold proposes; the analyst decides.")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="pricefold", description="Fit and cross-validate a demand curve for every price–volume series.",
+        epilog=CAUTION)
+    commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    fit = commands.add_parser("fit", help="fit every series of a data file and write a results file",
+                              description="Fit every candidate curve to every series, cross-validate, "
+                                          "choose one per series and predict at the plan price.",
+                              epilog=CAUTION)
+    fit.add_argument("data", type=Path, metavar="DATA", help="CSV/TSV (optionally .gz) or Parquet file or folder")
+    fit.add_argument("-o", "--output", type=Path, required=True, metavar="OUT",
+                     help="results file: .json (small runs) or .parquet (large ones)")
+    add_column_options(fit)
+    add_fit_options(fit)
+    fit.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
+    return parser
+
+
+def add_column_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("columns")
+    group.add_argument("--product", default="product", metavar="COL", help="product column (default: product)")
+    group.add_argument("--segment", action="append", default=[], metavar="COL",
+                       help="a column that splits a product into series (repeatable), e.g. region")
+    group.add_argument("--price", default="price", metavar="COL", help="price column (default: price)")
+    group.add_argument("--volume", default="volume", metavar="COL", help="volume column (default: volume)")
+    group.add_argument("--date", default=None, metavar="COL", help="date column (needed by --fold-order time)")
+    group.add_argument("--sep", default=None, metavar="CHAR", help="field separator (default: from the file)")
+
+
+def add_fit_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("fitting")
+    group.add_argument("--degrees", default="0-5", metavar="A-B", help="polynomial degrees to try (default: 0-5)")
+    group.add_argument("--no-loglog", dest="loglog", action="store_false",
+                       help="leave out the constant-elasticity curve ln volume = a + e·ln price")
+    group.add_argument("--folds", default="5", metavar="K|loo", help="number of folds, or loo (default: 5)")
+    group.add_argument("--fold-order", default="shuffled", choices=("shuffled", "given", "time"),
+                       help="deal rows into folds shuffled (seeded), in file order, or by date (default: shuffled)")
+    group.add_argument("--seed", type=int, default=0, help="seed of the fold shuffle (default: 0)")
+    group.add_argument("--rule", default="one-se", choices=("one-se", "lowest"),
+                       help="one-se: simplest within one standard error of the best; lowest: lowest CV error")
+    plan = group.add_mutually_exclusive_group()
+    plan.add_argument("--plan-price", type=float, default=None, metavar="P", help="one plan price for every series")
+    plan.add_argument("--plan", type=Path, default=None, metavar="FILE",
+                      help="plan prices per series: the key columns and plan_price")
+
+
+def settings_from(args):
+    from fitcore.settings import FitSettings, parse_degrees, parse_folds
+    return FitSettings(degrees=parse_degrees(args.degrees), loglog=args.loglog, folds=parse_folds(args.folds),
+                       fold_order=args.fold_order, seed=args.seed, rule=args.rule)
+
+
+def run_fit(args) -> int:
+    from fitcore import fit_batch
+    from fitcore.errors import SettingsError
+    from fitcore.loader import Columns, load
+    from fitcore.plan import plan_prices
+    from fitcore.results_io import write_results
+
+    from .progress import ProgressLine
+
+    settings = settings_from(args)
+    if settings.fold_order == "time" and not args.date:
+        raise SettingsError("--fold-order time needs the date column: add --date COLUMN")
+    if args.plan_price is not None and not args.plan_price > 0:
+        raise SettingsError(f"expected --plan-price above zero, got {args.plan_price}")
+    started = time.perf_counter()
+    columns = Columns(product=args.product, segments=tuple(args.segment), price=args.price,
+                      volume=args.volume, date=args.date)
+    data = load(args.data, columns, sep=args.sep)
+    plan = plan_prices(data, args.plan, args.sep) if args.plan else args.plan_price
+    bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
+    try:
+        results = fit_batch(data, settings, plan_price=plan, progress=bar)
+    finally:
+        bar.close()
+    write_results(results, args.output)
+    if not args.quiet:
+        print(summary(results, time.perf_counter() - started, args.output), file=sys.stderr)
+    return 0
+
+
+def summary(results, seconds: float, output: Path) -> str:
+    names = results.names
+    chosen = Counter(names[c] if c >= 0 else "none" for c in results.chosen.tolist())
+    parts = " · ".join(f"{name} {chosen[name]:,}" for name in [*names, "none"] if chosen[name])
+    return (f"fitted {results.n_series:,} series ({results.data.n_rows:,} rows) in {seconds:.2f} s; "
+            f"chosen: {parts} → {output}")
+
+
+COMMANDS = {"fit": run_fit}
+
+
+def main(argv: list[str] | None = None) -> int:
+    from fitcore.errors import PricefoldError
+    args = build_parser().parse_args(argv)
+    try:
+        return COMMANDS[args.command](args)
+    except PricefoldError as exc:
+        print(f"pricefold {args.command}: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"pricefold {args.command}: interrupted; nothing was written", file=sys.stderr)
+        return 130
