@@ -16,6 +16,11 @@ import numpy as np
 # from data anyway.
 RANK_TOL = 1e-10
 
+# Above this condition number of the scaled Gram matrix a solve through it
+# keeps fewer than 8 significant digits (error ≈ condition × 1.1e-16); such
+# a fit is too unstable to trust and is marked unavailable instead.
+COND_LIMIT = 1e8
+
 
 def scaled_cholesky(gram: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Cholesky factor of ``D G D`` with ``D = diag(G)^-1/2`` (Jacobi scaling).
@@ -64,3 +69,18 @@ def back_solve(lower: np.ndarray, z: np.ndarray, size: int) -> np.ndarray:
         tail = np.einsum("...j,...j->...", lower[..., i + 1:size, i], beta[..., i + 1:size])
         beta[..., i] = (z[..., i] - tail) / lower[..., i, i]
     return beta
+
+
+def gram_condition(gram_scaled: np.ndarray, lower: np.ndarray, sizes) -> np.ndarray:
+    """(…, len(sizes)) Frobenius-norm condition bound ‖G‖·‖G⁻¹‖ of each leading block.
+
+    ``G⁻¹ = L⁻ᵀL⁻¹`` and the inverse of a leading block of ``L`` is the leading
+    block of ``L⁻¹``, so one triangular inverse serves every size.
+    """
+    p = lower.shape[-1]
+    inverse = forward_solve(lower[..., None, :, :], np.eye(p)).swapaxes(-1, -2)
+    out = []
+    for size in sizes:
+        g = np.sqrt(np.sum(gram_scaled[..., :size, :size] ** 2, axis=(-1, -2)))
+        out.append(g * np.sum(inverse[..., :size, :size] ** 2, axis=(-1, -2)))
+    return np.stack(out, axis=-1)

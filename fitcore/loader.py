@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
@@ -96,12 +97,28 @@ def read_table(path: Path, columns: Columns, sep: str | None = None) -> pa.Table
         types[columns.weight] = pa.float64()
     if columns.date:
         types[columns.date] = pa.string()
+    parse = csv.ParseOptions(delimiter=delimiter)
     try:
-        return csv.read_csv(path, parse_options=csv.ParseOptions(delimiter=delimiter),
-                            convert_options=csv.ConvertOptions(include_columns=columns.needed, column_types=types,
-                                                               strings_can_be_null=True))
+        return csv.read_csv(path, parse_options=parse, convert_options=csv.ConvertOptions(
+            include_columns=columns.needed, column_types=types, strings_can_be_null=True))
     except (pa.ArrowInvalid, UnicodeDecodeError) as exc:
-        raise DataError(_arrow_message(exc, header), path=str(path)) from None
+        first_error = exc
+    # Slow path, only on failure: read every column as text to say which cell is bad.
+    try:
+        text = csv.read_csv(path, parse_options=parse, convert_options=csv.ConvertOptions(
+            include_columns=columns.needed, column_types={name: pa.string() for name in columns.needed}))
+    except (pa.ArrowInvalid, UnicodeDecodeError) as exc:
+        raise DataError(f"expected UTF-8 text with the same number of fields on every line ({_first_line(exc)})",
+                        path=str(path)) from None
+    for name, kind in types.items():
+        if kind == pa.float64():
+            raw = text.column(name).to_pandas()
+            numbers = pd.to_numeric(raw, errors="coerce")
+            bad = (numbers.isna() & raw.notna() & (raw.str.strip() != "")).to_numpy()
+            if bad.any():
+                row = int(np.argmax(bad))
+                raise DataError(f"expected a number, got {raw.iloc[row]!r}", path=str(path), line=row + 2, column=name)
+    raise DataError(_first_line(first_error), path=str(path))
 
 
 def load(path: str | Path, columns: Columns = Columns(), *, sep: str | None = None) -> Dataset:
@@ -182,13 +199,3 @@ def _first_line(exc: Exception) -> str:
     return str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
 
 
-def _arrow_message(exc: Exception, header: list[str]) -> str:
-    """pyarrow's 'In CSV column #1: Row #5: …' in our words."""
-    import re
-    text = _first_line(exc)
-    match = re.search(r"column #(\d+): Row #(\d+): CSV conversion error to (\w+): invalid value '(.*)'", text)
-    if match:
-        col, row, kind, value = match.groups()
-        return (f"line {int(row)}, column {header[int(col)]!r}: expected a number, got {value!r}"
-                if kind in ("double", "float") else f"line {int(row)}, column {header[int(col)]!r}: got {value!r}")
-    return text

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .folds import FoldLayout
-from .linalg import back_solve, forward_solve, scaled_cholesky
+from .linalg import COND_LIMIT, back_solve, forward_solve, gram_condition, scaled_cholesky
 from .segments import segment_sums
 
 CANCEL_RATIO = 1e-7
@@ -103,6 +103,8 @@ def fit_family(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, lay: FoldLayo
     yy_test = yy[:, lay.held_out]
     gram = _hankel(xs_train, p)
     lower, scale, rank_ok = scaled_cholesky(gram)
+    steady = gram_condition(gram * scale[..., :, None] * scale[..., None, :], lower,
+                            [d + 1 for d in degrees]) <= COND_LIMIT
     z = forward_solve(lower, xys_train * scale)
     gram_test = _hankel(xs_test, p) * scale[:, :-1, :, None] * scale[:, :-1, None, :]
     xy_test = xys_test * scale[:, :-1]
@@ -117,7 +119,7 @@ def fit_family(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, lay: FoldLayo
     train_rows = _train_rows(lay, counts)
     for j, d in enumerate(degrees):
         beta = back_solve(lower, z, d + 1)
-        ok[..., j] = rank_ok[..., d] & (train_rows > d)
+        ok[..., j] = rank_ok[..., d] & steady[..., j] & (train_rows > d)
         ok[:, -1, j] &= counts > d + 1
         coef[..., j, :d + 1] = beta * scale[..., :d + 1]
         b = beta[:, :-1]

@@ -25,9 +25,10 @@ def sentence(code: int, *, n: int, folds: int | str, coefficients: int, distinct
     if code == TOO_FEW_POINTS:
         return f"{coefficients} coefficients need more than {coefficients} observations; the series has {n}"
     if code == RANK_ALL:
-        return f"{distinct} distinct prices cannot determine {coefficients} coefficients"
+        return f"{distinct} distinct prices cannot pin down {coefficients} coefficients (too few, or too close together)"
     if code == RANK_FOLD:
-        return f"some fold's training rows have fewer than {coefficients} distinct prices ({distinct} in all)"
+        return (f"the training rows of some fold cannot pin down {coefficients} coefficients "
+                f"(too few distinct prices, or too close together; {distinct} in all)")
     if code == LEVERAGE_ONE:
         return "an observation alone determines a coefficient, so leaving it out leaves the curve undefined"
     if code == NOT_POSITIVE:

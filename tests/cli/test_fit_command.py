@@ -1,0 +1,161 @@
+"""The ``pricefold fit`` command: results format, plan prices and one-line errors."""
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pyarrow.parquet as pq
+import pytest
+
+from pricefold.cli import main
+
+SAMPLE = Path(__file__).parents[2] / "sample"
+
+
+@pytest.fixture(scope="module")
+def sample_json(tmp_path_factory):
+    out = tmp_path_factory.mktemp("fit") / "results.json"
+    code = main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week",
+                 "--plan", str(SAMPLE / "plan.csv"), "-o", str(out), "--quiet"])
+    assert code == 0
+    return json.loads(out.read_text())
+
+
+def test_results_carry_the_documented_fields(sample_json):
+    doc = sample_json
+    assert doc["schema"] == "pricefold-results/1"
+    assert doc["settings"]["folds"] == 5 and doc["settings"]["rule"] == "one-se"
+    assert doc["input"]["rows"] == 18625 and doc["input"]["rejected"] == 0 and len(doc["input"]["sha256"]) == 64
+    assert len(doc["series"]) == 180
+    series = doc["series"][0]
+    assert set(series) >= {"key", "n", "price_range", "candidates", "chosen", "rule", "score", "flags",
+                           "plan", "fingerprint"}
+    assert series["key"] == {"product": "apples 1 kg", "region": "North"}
+    names = [c["name"] for c in series["candidates"]]
+    assert names == ["poly0", "poly1", "poly2", "poly3", "poly4", "poly5", "loglog"]
+    for cand in series["candidates"]:
+        assert set(cand) >= {"name", "family", "degree", "available", "reason", "cv_mse", "cv_se", "fold_mse",
+                             "r2", "q2", "coef"}
+        if cand["available"] and cand["family"] == "poly":
+            assert len(cand["coef"]) == cand["degree"] + 1 and len(cand["fold_mse"]) == 5
+            np.testing.assert_allclose(np.mean(cand["fold_mse"]), cand["cv_mse"], rtol=1e-12)
+
+
+def test_power_basis_coefficients_reproduce_the_plan_volume(sample_json):
+    """volume = Σ coef[i]·priceⁱ (poly) and a + e·ln price (loglog), as the README says."""
+    checked = 0
+    for series in sample_json["series"]:
+        plan = series["plan"]
+        chosen = next((c for c in series["candidates"] if c["name"] == series["chosen"]), None)
+        if plan is None or chosen is None:
+            continue
+        p = plan["price"]
+        if chosen["family"] == "poly":
+            volume = sum(c * p ** i for i, c in enumerate(chosen["coef"]))
+        else:
+            a, e = chosen["coef"]
+            volume = np.exp(a + e * np.log(p)) * chosen["smearing"]
+        np.testing.assert_allclose(volume, plan["volume"], rtol=1e-8)
+        assert plan["lo"] <= plan["volume"] <= plan["hi"]
+        checked += 1
+    assert checked > 150
+
+
+def test_awkward_sample_series_are_marked(sample_json):
+    by_key = {(s["key"]["product"], s["key"]["region"]): s for s in sample_json["series"]}
+    figs = by_key[("fresh figs 500 g", "North")]
+    loglog = figs["candidates"][-1]
+    assert not loglog["available"] and "above zero" in loglog["reason"]
+    flour = by_key[("flour 1 kg", "South")]
+    assert [c["available"] for c in flour["candidates"][2:6]] == [False] * 4
+    assert "2 distinct prices" in flour["candidates"][2]["reason"]
+    apricots = by_key[("dried apricots 500 g", "East")]
+    assert apricots["plan"]["inside_range"] is False
+
+
+def test_parquet_results_hold_the_same_numbers(tmp_path, sample_json):
+    out = tmp_path / "results.parquet"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week",
+                 "--plan", str(SAMPLE / "plan.csv"), "-o", str(out), "--quiet"]) == 0
+    table = pq.read_table(out)
+    meta = json.loads(table.schema.metadata[b"pricefold"])
+    assert meta["schema"] == "pricefold-results/1" and meta["key_columns"] == ["product", "region"]
+    assert table.num_rows == 180 * 7
+    rows = table.to_pylist()
+    for s, series in enumerate(sample_json["series"][:20]):
+        for c, cand in enumerate(series["candidates"]):
+            row = rows[s * 7 + c]
+            assert (row["product"], row["region"], row["candidate"]) == (series["key"]["product"],
+                                                                         series["key"]["region"], cand["name"])
+            assert row["available"] == cand["available"] and row["chosen"] == series["chosen"]
+            if cand["available"]:
+                np.testing.assert_allclose(row["coef"], cand["coef"], rtol=1e-15)
+                np.testing.assert_allclose(row["fold_mse"], cand["fold_mse"], rtol=1e-15)
+            else:
+                assert row["coef"] == [] and row["reason"] == cand["reason"]
+
+
+def test_same_seed_same_results_other_seed_other_folds(tmp_path):
+    args = ["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--quiet"]
+    outs = []
+    for seed, name in ((0, "a"), (0, "b"), (1, "c")):
+        out = tmp_path / f"{name}.json"
+        assert main([*args, "--seed", str(seed), "-o", str(out)]) == 0
+        outs.append(json.loads(out.read_text())["series"])
+    assert outs[0] == outs[1]
+    assert outs[0][0]["candidates"][1]["fold_mse"] != outs[2][0]["candidates"][1]["fold_mse"]
+
+
+def run_cli(*args, cwd=None):
+    return subprocess.run([sys.executable, "-m", "pricefold", *args], capture_output=True, text=True, cwd=cwd)
+
+
+def test_header_typo_is_one_line_naming_file_column_and_suggestion(tmp_path):
+    bad = tmp_path / "typo.csv"
+    bad.write_text("product,prcie,volume\na,1.0,3\n")
+    out = tmp_path / "r.json"
+    done = run_cli("fit", str(bad), "-o", str(out))
+    assert done.returncode == 2
+    assert done.stderr.count("\n") == 1 and "Traceback" not in done.stderr
+    assert "typo.csv" in done.stderr and "'price'" in done.stderr and "did you mean 'prcie'" in done.stderr
+    assert not out.exists()
+
+
+def test_non_numeric_cell_names_line_and_column(tmp_path):
+    bad = tmp_path / "junk.csv"
+    bad.write_text("product,price,volume\na,1.0,3\na,2.0,lots\n")
+    done = run_cli("fit", str(bad), "-o", str(tmp_path / "r.json"))
+    assert done.returncode == 2 and "Traceback" not in done.stderr
+    assert "line 3" in done.stderr and "'volume'" in done.stderr and "'lots'" in done.stderr
+
+
+@pytest.mark.parametrize("args, message", [
+    (["--folds", "1"], "expected --folds to be a whole number of at least 2 or 'loo', got 1"),
+    (["--degrees", "2-9"], "expected degrees between 0 and 5"),
+    (["--fold-order", "time"], "needs the date column"),
+    (["--plan-price", "-3"], "expected --plan-price above zero, got -3.0"),
+])
+def test_bad_settings_are_one_line(tmp_path, args, message):
+    done = run_cli("fit", str(SAMPLE / "wholesale.csv"), "-o", str(tmp_path / "r.json"), *args)
+    assert done.returncode == 2 and message in done.stderr and "Traceback" not in done.stderr
+
+
+def test_missing_file_and_unknown_extension(tmp_path):
+    done = run_cli("fit", str(tmp_path / "nope.csv"), "-o", str(tmp_path / "r.json"))
+    assert done.returncode == 2 and "nope.csv: file not found" in done.stderr
+    odd = tmp_path / "data.xlsx"
+    odd.write_bytes(b"PK\x03\x04")
+    done = run_cli("fit", str(odd), "-o", str(tmp_path / "r.json"))
+    assert done.returncode == 2 and "expected a .csv" in done.stderr
+
+
+def test_a_failed_run_keeps_the_previous_results(tmp_path):
+    out = tmp_path / "r.json"
+    out.write_text('{"kept": true}')
+    bad = tmp_path / "bad.csv"
+    bad.write_text("product,price,volume\na,1.0,-3\n")
+    assert run_cli("fit", str(bad), "-o", str(out)).returncode == 2
+    assert out.read_text() == '{"kept": true}'

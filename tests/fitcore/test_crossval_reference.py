@@ -1,0 +1,117 @@
+"""Cross-validation errors checked against scikit-learn and a brute-force loop.
+
+Reference: scikit-learn's ``KFold(shuffle=False)``, ``LeaveOneOut`` and
+``TimeSeriesSplit`` with ``cross_val_score(scoring="neg_mean_squared_error")``.
+The polynomial pipeline scales price into [-1, 1] before building powers:
+scikit-learn's ``LinearRegression`` on raw powers of price drops terms above
+degree 2 (its singular-value cutoff), which would make the reference itself wrong.
+"""
+from __future__ import annotations
+
+import warnings
+
+import numpy as np
+import pytest
+from sklearn.linear_model import LinearRegression
+from sklearn.model_selection import KFold, LeaveOneOut, TimeSeriesSplit, cross_val_score
+from sklearn.pipeline import make_pipeline
+from sklearn.preprocessing import MinMaxScaler, PolynomialFeatures
+
+import fitcore
+from tests.conftest import random_dataset, series_arrays
+
+
+def scaled_poly(degree: int):
+    return make_pipeline(MinMaxScaler((-1, 1)), PolynomialFeatures(degree), LinearRegression())
+
+
+def reference_scores(x, y, degree, splitter):
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        scores = -cross_val_score(scaled_poly(degree), x[:, None], y, cv=splitter, scoring="neg_mean_squared_error")
+    return scores.mean(), scores.std(ddof=1) / np.sqrt(len(scores)), scores
+
+
+def check_against(results, data, splitter_for, rtol):
+    compared = 0
+    for s in range(data.n_series):
+        x, y = series_arrays(data, s)
+        order = np.argsort(data.date[data.offsets[s]:data.offsets[s + 1]], kind="stable") if data.date is not None else None
+        if order is not None:
+            x, y = x[order], y[order]
+        for c, cand in enumerate(results.candidates):
+            if cand.family != "poly" or not results.available[s, c]:
+                continue
+            mean, se, per_fold = reference_scores(x, y, cand.degree, splitter_for(len(x)))
+            np.testing.assert_allclose(results.cv_mse[s, c], mean, rtol=rtol)
+            np.testing.assert_allclose(results.cv_se[s, c], se, rtol=rtol)
+            np.testing.assert_allclose(results.folds_of(s)[:, c], per_fold, rtol=rtol)
+            compared += 1
+    return compared
+
+
+def test_kfold_in_file_order_matches_scikit_learn(shared_dataset):
+    settings = fitcore.FitSettings(folds=5, fold_order="given", loglog=False)
+    results = fitcore.fit_batch(shared_dataset, settings)
+    compared = check_against(results, shared_dataset, lambda n: KFold(5, shuffle=False), rtol=1e-8)
+    assert compared > 0.95 * 6 * shared_dataset.n_series
+
+
+def test_kfold_with_three_folds_matches_scikit_learn():
+    data = random_dataset(11, n_series=60, n_range=(7, 25))
+    results = fitcore.fit_batch(data, fitcore.FitSettings(folds=3, fold_order="given", loglog=False))
+    assert check_against(results, data, lambda n: KFold(3, shuffle=False), rtol=1e-8) > 100
+
+
+def test_leave_one_out_matches_scikit_learn():
+    data = random_dataset(12, n_series=40, n_range=(8, 30))
+    results = fitcore.fit_batch(data, fitcore.FitSettings(folds="loo", loglog=False))
+    assert check_against(results, data, lambda n: LeaveOneOut(), rtol=1e-8) > 150
+
+
+def test_time_ordered_folds_match_time_series_split():
+    data = random_dataset(13, n_series=40, n_range=(15, 50), with_date=True)
+    results = fitcore.fit_batch(data, fitcore.FitSettings(folds=4, fold_order="time", loglog=False))
+    assert check_against(results, data, lambda n: TimeSeriesSplit(4), rtol=1e-8) > 150
+
+
+def brute_force_press(x, y, degree, w=None):
+    """Σ (yᵢ − ŷ₍₋ᵢ₎)², refitting without each row (numpy lstsq on a scaled Vandermonde)."""
+    t = (x - (x.min() + x.max()) / 2) / ((x.max() - x.min()) / 2)
+    w = np.ones_like(y) if w is None else w
+    total = 0.0
+    for i in range(len(x)):
+        keep = np.arange(len(x)) != i
+        basis = np.vander(t[keep], degree + 1, increasing=True) * np.sqrt(w[keep])[:, None]
+        beta = np.linalg.lstsq(basis, y[keep] * np.sqrt(w[keep]), rcond=None)[0]
+        total += w[i] * (y[i] - np.vander(t[i:i + 1], degree + 1, increasing=True) @ beta)[0] ** 2
+    return total
+
+
+@pytest.mark.parametrize("weighted", [False, True])
+def test_leave_one_out_press_matches_refitting_every_row(weighted):
+    data = random_dataset(14, n_series=25, n_range=(8, 40), with_weight=weighted)
+    results = fitcore.fit_batch(data, fitcore.FitSettings(folds="loo", loglog=False))
+    for s in range(data.n_series):
+        x, y = series_arrays(data, s)
+        w = None if data.weight is None else data.weight[data.offsets[s]:data.offsets[s + 1]]
+        tss = np.sum((y - np.average(y, weights=w)) ** 2 * (1 if w is None else w))
+        for c, cand in enumerate(results.candidates):
+            if results.available[s, c]:
+                press = brute_force_press(x, y, cand.degree, w)
+                np.testing.assert_allclose(1 - results.q2[s, c], press / tss, rtol=1e-9)
+
+
+def test_shuffled_folds_match_scikit_learn_given_the_same_assignment(shared_dataset):
+    """With shuffled folds, per-fold errors equal scikit-learn's on the same index sets."""
+    from fitcore.folds import split_indices
+    settings = fitcore.FitSettings(folds=5, fold_order="shuffled", seed=3, loglog=False)
+    results = fitcore.fit_batch(shared_dataset, settings)
+    for s in range(0, shared_dataset.n_series, 15):
+        splits = [(train - shared_dataset.offsets[s], test - shared_dataset.offsets[s])
+                  for train, test in split_indices(shared_dataset.offsets, settings, s, key_hash=shared_dataset.key_hash)]
+        x, y = series_arrays(shared_dataset, s)
+        for c, cand in enumerate(results.candidates):
+            if results.available[s, c]:
+                mean, se, per_fold = reference_scores(x, y, cand.degree, splits)
+                np.testing.assert_allclose(results.folds_of(s)[:, c], per_fold, rtol=1e-8)
