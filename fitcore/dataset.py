@@ -101,7 +101,7 @@ def from_columns(keys: dict[str, np.ndarray], price, volume, *, weight=None, dat
     Rows of one series keep their input order; rows need not arrive grouped.
     """
     key_names = tuple(keys)
-    codes = _series_codes([np.asarray(keys[name]) for name in key_names])
+    codes = _series_codes([keys[name] for name in key_names])
     n = len(codes)
     if n and np.all(codes[1:] >= codes[:-1]):
         order = None
@@ -112,7 +112,7 @@ def from_columns(keys: dict[str, np.ndarray], price, volume, *, weight=None, dat
     offsets = np.append(first, n).astype(np.int64)
     take = (lambda a: None if a is None else np.ascontiguousarray(np.asarray(a) if order is None else np.asarray(a)[order]))
     rows_of_first = first if order is None else order[first]
-    key_values = {name: np.asarray(keys[name], dtype=object)[rows_of_first] for name in key_names}
+    key_values = {name: _strings(keys[name], rows_of_first) for name in key_names}
     price = take(np.asarray(price, dtype=np.float64))
     volume = take(np.asarray(volume, dtype=np.float64))
     return Dataset(
@@ -121,6 +121,13 @@ def from_columns(keys: dict[str, np.ndarray], price, volume, *, weight=None, dat
         None if date is None else _readonly(take(np.asarray(date, dtype="datetime64[ns]"))),
         _readonly(take(np.arange(2, n + 2, dtype=np.int64) if line is None else np.asarray(line, np.int64))),
         dict(source or {}))
+
+
+def _strings(column, rows: np.ndarray) -> np.ndarray:
+    """(len(rows),) object array of the key column's values at ``rows``, as text."""
+    if isinstance(column, pd.Categorical):
+        return np.asarray(column.categories.astype(str), dtype=object)[column.codes[rows]]
+    return np.array([str(v) for v in np.asarray(column, dtype=object)[rows]], dtype=object)
 
 
 def _series_codes(columns: list[np.ndarray]) -> np.ndarray:

@@ -14,6 +14,7 @@ from . import reasons as R
 from .basis import to_window, window
 from .candidates import candidates_for, complexity
 from .dataset import Dataset
+from .errors import SettingsError
 from .folds import FoldLayout, layout
 from .loglog import fit_loglog
 from .loo import loo_residuals
@@ -24,7 +25,7 @@ from .segments import segment_sums
 from .selection import choose
 from .settings import FitSettings
 
-CHUNK_ROWS = 1 << 17
+CHUNK_ROWS = 1 << 18
 
 
 def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_price=None,
@@ -36,7 +37,6 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
     each chunk with counts of series.
     """
     if settings.fold_order == "time" and data.date is None:
-        from .errors import SettingsError
         raise SettingsError("--fold-order time needs a date column (--date COLUMN)")
     n_series = data.n_series
     plan = np.full(n_series, np.nan) if plan_price is None else np.broadcast_to(
@@ -48,7 +48,7 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
         parts.append(_fit_chunk(data, lo, hi, settings, cands, plan[lo:hi]))
         if progress is not None:
             progress(hi, n_series)
-    merged = {name: np.concatenate([part[name] for part in parts]) if parts else None for name in (parts[0] if parts else {})}
+    merged = {name: np.concatenate([part[name] for part in parts]) for name in parts[0]} if parts else None
     return Results.build(data, settings, cands, plan, merged)
 
 
@@ -60,152 +60,189 @@ def _chunk_cuts(offsets: np.ndarray) -> list[int]:
     return sorted({0, n_series, *np.clip(marks, 1, n_series).tolist()})
 
 
-def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, plan) -> dict:
-    r0, r1 = int(data.offsets[s0]), int(data.offsets[s1])
-    offsets = data.offsets[s0:s1 + 1] - r0
-    counts = np.diff(offsets)
-    loo = settings.folds == "loo"
-    if loo:
-        lay = FoldLayout(None, np.stack([offsets[:-1], offsets[1:]], axis=1), np.zeros(0, np.int64), False, counts >= 2)
-    else:
-        lay = layout(offsets, settings, key_hash=data.key_hash[s0:s1],
-                     date=None if data.date is None else data.date[r0:r1])
-    rows = slice(r0, r1)
-    take = (lambda a: None if a is None else a[rows]) if lay.order is None else (lambda a: None if a is None else a[rows][lay.order])
-    price, volume, weight = take(data.price), take(data.volume), take(data.weight)
-    whole = np.stack([offsets[:-1], offsets[1:]], axis=1)
+class _Chunk:
+    """Working arrays of one chunk of whole series, rows in fold (working) order."""
 
-    lo = np.minimum.reduceat(price, offsets[:-1]) if len(price) else np.zeros(0)
-    hi = np.maximum.reduceat(price, offsets[:-1]) if len(price) else np.zeros(0)
-    mid, half = window(lo, hi)
-    t = to_window(price, np.repeat(mid, counts), np.repeat(half, counts))
-    w_sum = counts.astype(float) if weight is None else segment_sums(weight, whole)[:, 0]
-    safe_w = np.where(w_sum > 0, w_sum, 1.0)
-    ybar = segment_sums(volume if weight is None else weight * volume, whole)[:, 0] / safe_w
-    y = volume - np.repeat(ybar, counts)
-    poly = fit_family(t, y, weight, lay, settings.degrees)
-
-    n_c, n_p = len(cands), len(settings.degrees)
-    out_shape = (len(counts), n_c)
-    sse_full = np.zeros(out_shape)
-    sse_full[:, :n_p] = poly.sse_full
-    tss = poly.tss
-    reason = np.zeros(out_shape, dtype=np.int8)
-    fit_ok = np.zeros(out_shape, dtype=bool)
-    fit_ok[:, :n_p] = poly.ok[:, -1]
-    fold_ok = np.ones(out_shape, dtype=bool)
-    fold_ok[:, :n_p] = poly.ok[:, :-1].all(axis=1)
-    coef = np.zeros((len(counts), n_c, max(settings.degrees) + 1))
-    coef[:, :n_p] = poly.coef[:, -1]
-    coef[:, :n_p, 0] += ybar[:, None]
-
-    if settings.loglog:
-        positive = (np.minimum.reduceat(volume, offsets[:-1]) > 0) & (lo > 0) if len(price) else np.zeros(0, bool)
-        pos_rows = np.repeat(positive, counts)
-        log_price = np.log(np.where(pos_rows, price, 1.0))
-        log_volume = np.log(np.where(pos_rows, volume, 1.0))
-        lmid, lhalf = window(np.log(np.where(positive, lo, 1.0)), np.log(np.where(positive, hi, 1.0)))
-        u = to_window(log_price, np.repeat(lmid, counts), np.repeat(lhalf, counts))
-        zbar = segment_sums(log_volume if weight is None else weight * log_volume, whole)[:, 0] / safe_w
-        ll = fit_loglog(u, log_volume - np.repeat(zbar, counts), volume, weight, lay, loo)
-        sse_full[:, -1] = ll.sse_full
-        fit_ok[:, -1] = ll.log.ok[:, -1, 0] & positive
-        fold_ok[:, -1] = ll.log.ok[:, :-1, 0].all(axis=1)
-        coef[:, -1, :2] = ll.log.coef[:, -1, 0, :2]
-        coef[:, -1, 0] += zbar
-        reason[:, -1] = np.where(positive, 0, R.NOT_POSITIVE)
-    else:
-        ll, positive = None, np.zeros(len(counts), bool)
-
-    if loo:
-        series = np.repeat(np.arange(len(counts)), counts)
-        resid, defined = loo_residuals(t, y, weight, series, poly)
-        per_row = np.empty((len(t), n_c))
-        per_row[:, :n_p] = resid ** 2
-        fold_ok[:, :n_p] &= defined
-        if ll is not None:
-            per_row[:, -1] = ll.sse_test
-            fold_ok[:, -1] &= ll.defined
-        fold_err = per_row
-        n_folds = counts.astype(float)
-        w_rows = np.ones_like(t) if weight is None else weight
-        bounds = _tile_bounds(offsets, n_c)
-        per_series = lambda values: segment_sums(values.T.ravel(), bounds).reshape(n_c, -1).T  # noqa: E731
-        cv_mse = per_series(per_row) / np.maximum(n_folds, 1)[:, None]
-        spread = per_series((per_row - np.repeat(cv_mse, counts, axis=0)) ** 2)
-        cv_se = np.sqrt(spread / np.maximum(n_folds - 1, 1)[:, None] / np.maximum(n_folds, 1)[:, None])
-        press = per_series(per_row * w_rows[:, None])
-        tss_test = tss
-    else:
-        sse_test = np.zeros((len(counts), lay.n_folds, n_c))
-        sse_test[..., :n_p] = poly.sse_test
-        if ll is not None:
-            sse_test[..., -1] = ll.sse_test
-        w_test = poly.w_test
-        with np.errstate(invalid="ignore", divide="ignore"):
-            fold_err = sse_test / w_test[..., None]
-        cv_mse = fold_err.mean(axis=1)
-        cv_se = fold_err.std(axis=1, ddof=1) / np.sqrt(lay.n_folds)
-        press = sse_test.sum(axis=1)
-        tss_test = poly.tss_test
-
-    usable = lay.usable
-    flat = half <= 0
-    degrees = np.array([c.degree if c.family == "poly" else 1 for c in cands])
-    n_coef = complexity(cands)
-    reason = np.where(reason != 0, reason, np.where(~usable[:, None], R.TOO_FEW_FOR_FOLDS, 0))
-    reason = np.where(reason != 0, reason, np.where(flat[:, None] & (degrees > 0)[None, :], R.FLAT_PRICE, 0))
-    reason = np.where(reason != 0, reason, np.where(counts[:, None] <= n_coef[None, :], R.TOO_FEW_POINTS, 0))
-    reason = np.where(reason != 0, reason, np.where(~fit_ok, R.RANK_ALL, 0))
-    reason = np.where(reason != 0, reason, np.where(~fold_ok, R.LEVERAGE_ONE if loo else R.RANK_FOLD, 0))
-    available = reason == 0
-
-    with np.errstate(invalid="ignore", divide="ignore"):
-        q2 = 1 - press / tss_test[:, None]
-        r2 = 1 - sse_full / tss[:, None]
-    nan = np.nan
-    cv_mse = np.where(available, cv_mse, nan)
-    cv_se = np.where(available, cv_se, nan)
-    q2, r2 = np.where(available, q2, nan), np.where(available, r2, nan)
-    variance = tss / safe_w
-    chosen = choose(settings.rule, cv_mse, cv_se, available, n_coef, variance)
-
-    df = counts[:, None] - n_coef[None, :]
-    sigma2 = np.zeros(out_shape)
-    sigma2[:, :n_p] = sse_full[:, :n_p] / np.maximum(df[:, :n_p], 1)
-    plan_cols = [np.full(out_shape, nan) for _ in range(4)]
-    for j, cand in enumerate(cands):
-        if cand.family == "poly":
-            values = poly_at(coef[:, j], mid, half, poly.lower, poly.scale, cand.degree + 1,
-                             sigma2[:, j], df[:, j], plan, settings.level)
+    def __init__(self, data: Dataset, s0: int, s1: int, settings: FitSettings) -> None:
+        r0, r1 = int(data.offsets[s0]), int(data.offsets[s1])
+        self.offsets = data.offsets[s0:s1 + 1] - r0
+        self.counts = np.diff(self.offsets)
+        self.loo = settings.folds == "loo"
+        if self.loo:
+            self.lay = FoldLayout(None, np.stack([self.offsets[:-1], self.offsets[1:]], axis=1),
+                                  np.zeros(0, np.int64), False, self.counts >= 2)
         else:
-            sigma2[:, j] = ll.log.sse_full[:, 0] / np.maximum(df[:, j], 1)
-            values = loglog_at(coef[:, j], lmid, lhalf, ll.log.lower, ll.log.scale, ll.smear,
-                               sigma2[:, j], df[:, j], plan, settings.level)
-        for col, value in zip(plan_cols, values):
-            col[:, j] = np.where(available[:, j], value, nan)
+            self.lay = layout(self.offsets, settings, key_hash=data.key_hash[s0:s1],
+                              date=None if data.date is None else data.date[r0:r1])
+        order = self.lay.order
 
-    revenue_price = np.full(len(counts), nan)
-    has = chosen >= 0
-    picked = np.where(has, chosen, 0)
-    is_poly = has & (picked < n_p)
-    if is_poly.any():
-        idx = np.flatnonzero(is_poly)
-        revenue_price[idx] = best_revenue_poly(coef[idx, picked[idx]], mid[idx], half[idx])
+        def take(array):
+            if array is None:
+                return None
+            return array[r0:r1] if order is None else array[r0:r1][order]
+
+        self.price, self.volume, self.weight = take(data.price), take(data.volume), take(data.weight)
+        self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
+        w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)
+        self.w_sum = np.where(w_sum > 0, w_sum, 1.0)
+        self.lo = self.reduce(np.minimum, self.price)
+        self.hi = self.reduce(np.maximum, self.price)
+
+    def per_row(self, values: np.ndarray) -> np.ndarray:
+        return np.repeat(values, self.counts)
+
+    def sums(self, values: np.ndarray) -> np.ndarray:
+        return segment_sums(values, self.whole)[:, 0]
+
+    def mean(self, values: np.ndarray) -> np.ndarray:
+        return self.sums(values if self.weight is None else self.weight * values) / self.w_sum
+
+    def reduce(self, ufunc, values: np.ndarray) -> np.ndarray:
+        return ufunc.reduceat(values, self.offsets[:-1]) if len(values) else np.zeros(0)
+
+
+def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, plan) -> dict:
+    ch = _Chunk(data, s0, s1, settings)
+    n_s, n_c, n_p = len(ch.counts), len(cands), len(settings.degrees)
+    mid, half = window(ch.lo, ch.hi)
+    t = to_window(ch.price, ch.per_row(mid), ch.per_row(half))
+    ybar = ch.mean(ch.volume)
+    y = ch.volume - ch.per_row(ybar)
+    poly = fit_family(t, y, ch.weight, ch.lay, settings.degrees)
+
+    coef = np.zeros((n_s, n_c, max(settings.degrees) + 1))
+    coef[:, :n_p] = poly.coef[:, :, -1].transpose(2, 0, 1)
+    coef[:, :n_p, 0] += ybar[:, None]
+    fit_ok = np.ones((n_s, n_c), dtype=bool)
+    fit_ok[:, :n_p] = poly.ok[:, -1].T
+    fold_ok = np.ones((n_s, n_c), dtype=bool)
+    fold_ok[:, :n_p] = poly.ok[:, :-1].all(axis=1).T
+    sse_full = np.zeros((n_s, n_c))
+    sse_full[:, :n_p] = poly.sse_full.T
+    not_positive = np.zeros(n_s, dtype=bool)
+
+    ll = None
+    if settings.loglog:
+        positive = (ch.reduce(np.minimum, ch.volume) > 0) & (ch.lo > 0)
+        not_positive = ~positive
+        pos_rows = ch.per_row(positive)
+        log_price = np.log(np.where(pos_rows, ch.price, 1.0))
+        log_volume = np.log(np.where(pos_rows, ch.volume, 1.0))
+        log_mid, log_half = window(np.log(np.where(positive, ch.lo, 1.0)), np.log(np.where(positive, ch.hi, 1.0)))
+        u = to_window(log_price, ch.per_row(log_mid), ch.per_row(log_half))
+        zbar = ch.mean(log_volume)
+        ll = fit_loglog(u, log_volume - ch.per_row(zbar), ch.volume, ch.weight, ch.lay, ch.loo)
+        coef[:, -1, :2] = ll.log.coef[0, :, -1].T
+        coef[:, -1, 0] += zbar
+        fit_ok[:, -1] = ll.log.ok[0, -1]
+        fold_ok[:, -1] = ll.log.ok[0, :-1].all(axis=0)
+        sse_full[:, -1] = ll.sse_full
+    else:
+        log_mid = log_half = np.zeros(n_s)
+
+    if ch.loo:
+        series = ch.per_row(np.arange(n_s))
+        resid, defined = loo_residuals(t, y, ch.weight, series, poly)
+        fold_err = np.empty((len(t), n_c))
+        fold_err[:, :n_p] = resid.T ** 2
+        fold_ok[:, :n_p] &= defined.T
+        if ll is not None:
+            fold_err[:, -1] = ll.sse_test
+            fold_ok[:, -1] &= ll.defined
+        cv_mse, cv_se, press = _loo_summary(ch, fold_err)
+    else:
+        sse_test = np.zeros((n_s, ch.lay.n_folds, n_c))
+        sse_test[..., :n_p] = poly.sse_test.transpose(2, 1, 0)
+        if ll is not None:
+            sse_test[..., -1] = ll.sse_test.T
+        with np.errstate(invalid="ignore", divide="ignore"):
+            fold_err = sse_test / poly.w_test.T[..., None]
+        cv_mse = fold_err.mean(axis=1)
+        cv_se = fold_err.std(axis=1, ddof=1) / np.sqrt(ch.lay.n_folds)
+        press = sse_test.sum(axis=1)
+
+    n_coef = complexity(cands)
+    reason = _reasons(ch, cands, n_coef, half, not_positive, fit_ok, fold_ok)
+    available = reason == R.NONE
+    nan = np.nan
+    with np.errstate(invalid="ignore", divide="ignore"):
+        held_out_tss = poly.tss if ch.loo else poly.tss_test  # leave-one-out holds out every row
+        q2 = np.where(available, 1 - press / held_out_tss[:, None], nan)
+        r2 = np.where(available, 1 - sse_full / poly.tss[:, None], nan)
+    cv_mse, cv_se = np.where(available, cv_mse, nan), np.where(available, cv_se, nan)
+    chosen = choose(settings.rule, cv_mse, cv_se, available, n_coef, poly.tss / ch.w_sum)
+
+    df = ch.counts[:, None] - n_coef[None, :]
+    sigma2 = sse_full / np.maximum(df, 1)
+    plan_cols = [np.full((n_s, n_c), nan) for _ in range(4)]
     if ll is not None:
-        idx = np.flatnonzero(has & (picked == n_c - 1))
-        revenue_price[idx] = best_revenue_loglog(coef[idx, -1, 1] / np.where(lhalf[idx] > 0, lhalf[idx], 1), lo[idx], hi[idx])
+        sigma2[:, -1] = ll.log.sse_full[0] / np.maximum(df[:, -1], 1)
+    planned = np.flatnonzero(np.isfinite(plan))
+    if len(planned):
+        at = planned
+        for j, cand in enumerate(cands):
+            if cand.family == "poly":
+                values = poly_at(coef[at, j].T, mid[at], half[at], poly.lower[..., at], poly.scale[:, at],
+                                 cand.degree + 1, sigma2[at, j], df[at, j], plan[at], settings.level)
+            else:
+                values = loglog_at(coef[at, j, :2].T, log_mid[at], log_half[at], ll.log.lower[..., at],
+                                   ll.log.scale[:, at], ll.smear[at], sigma2[at, j], df[at, j], plan[at],
+                                   settings.level)
+            for column, value in zip(plan_cols, values):
+                column[at, j] = np.where(available[at, j], value, nan)
+
+    revenue_price = np.full(n_s, nan)
+    poly_rows = np.flatnonzero((chosen >= 0) & (chosen < n_p))
+    if len(poly_rows):
+        revenue_price[poly_rows] = best_revenue_poly(coef[poly_rows, chosen[poly_rows]].T, mid[poly_rows], half[poly_rows])
+    if ll is not None:
+        rows = np.flatnonzero(chosen == n_c - 1)
+        elasticity = coef[rows, -1, 1] / np.where(log_half[rows] > 0, log_half[rows], 1.0)
+        revenue_price[rows] = best_revenue_loglog(elasticity, ch.lo[rows], ch.hi[rows])
+    keep = np.repeat(available, ch.counts, axis=0) if ch.loo else available[:, None, :]
     return dict(
         available=available, reason=reason, cv_mse=cv_mse, cv_se=cv_se, r2=r2, q2=q2,
-        fold_err=np.where(available[:, None, :] if not loo else np.repeat(available, counts, axis=0), fold_err, nan).reshape(-1, n_c),
-        n_folds=(counts if loo else np.full(len(counts), lay.n_folds)).astype(np.int64),
-        price_lo=lo, price_hi=hi, mid=mid, half=half,
-        log_mid=lmid if ll is not None else np.zeros(len(counts)), log_half=lhalf if ll is not None else np.zeros(len(counts)),
-        coef=coef, smear=ll.smear if ll is not None else np.ones(len(counts)),
-        sigma2=sigma2, df=df, chosen=chosen,
+        fold_err=np.where(keep, fold_err, nan).reshape(-1, n_c),
+        n_folds=(ch.counts if ch.loo else np.full(n_s, ch.lay.n_folds)).astype(np.int64),
+        price_lo=ch.lo, price_hi=ch.hi, mid=mid, half=half, log_mid=log_mid, log_half=log_half,
+        coef=coef, smear=ll.smear if ll is not None else np.ones(n_s), sigma2=sigma2, df=df, chosen=chosen,
         plan_volume=plan_cols[0], plan_lo=plan_cols[1], plan_hi=plan_cols[2], plan_elasticity=plan_cols[3],
         revenue_price=revenue_price,
     )
+
+
+def _loo_summary(ch: _Chunk, fold_err: np.ndarray):
+    """Mean, standard error and weighted sum of per-row leave-one-out squared errors, per series × candidate."""
+    n_c = fold_err.shape[1]
+    bounds = _tile_bounds(ch.offsets, n_c)
+
+    def per_series(values):
+        return segment_sums(values.T.ravel(), bounds).reshape(n_c, -1).T
+
+    n = np.maximum(ch.counts, 1)[:, None].astype(float)
+    mean = per_series(fold_err) / n
+    spread = per_series((fold_err - np.repeat(mean, ch.counts, axis=0)) ** 2)
+    se = np.sqrt(spread / np.maximum(n - 1, 1) / n)
+    press = per_series(fold_err if ch.weight is None else fold_err * ch.weight[:, None])
+    return mean, se, press
+
+
+def _reasons(ch: _Chunk, cands, n_coef, half, not_positive, fit_ok, fold_ok) -> np.ndarray:
+    """(S, C) int8 reason codes, the first that applies in this order."""
+    degrees = np.array([c.degree if c.family == "poly" else 1 for c in cands])
+    is_loglog = np.array([c.family == "loglog" for c in cands])
+    rules = [
+        (not_positive[:, None] & is_loglog[None, :], R.NOT_POSITIVE),
+        (~ch.lay.usable[:, None], R.TOO_FEW_FOR_FOLDS),
+        ((half <= 0)[:, None] & (degrees > 0)[None, :], R.FLAT_PRICE),
+        (ch.counts[:, None] <= n_coef[None, :], R.TOO_FEW_POINTS),
+        (~fit_ok, R.RANK_ALL),
+        (~fold_ok, R.LEVERAGE_ONE if ch.loo else R.RANK_FOLD),
+    ]
+    reason = np.zeros(fit_ok.shape, dtype=np.int8)
+    for applies, code in reversed(rules):
+        reason[np.broadcast_to(applies, reason.shape)] = code
+    return reason
 
 
 def _tile_bounds(offsets: np.ndarray, copies: int) -> np.ndarray:

@@ -149,7 +149,10 @@ def _key_column(table: pa.Table, name: str, path: Path) -> np.ndarray:
     column = table.column(name)
     bad = pc.or_(pc.is_null(column), pc.equal(pc.utf8_trim_whitespace(column), ""))
     _fail_first(bad, path, name, "expected a non-empty key")
-    return column.to_numpy(zero_copy_only=False)
+    # Dictionary-encoded: grouping works on integer codes, not millions of Python strings.
+    encoded = column.dictionary_encode().combine_chunks()
+    return pd.Categorical.from_codes(encoded.indices.to_numpy(zero_copy_only=False),
+                                     encoded.dictionary.to_pandas().astype(str))
 
 
 def _number_column(table: pa.Table, name: str, path: Path) -> np.ndarray:

@@ -17,23 +17,31 @@ from .polyfit import FamilyFit, horner
 LEVERAGE_LIMIT = 1 - 1e-8
 
 
+def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray) -> np.ndarray:
+    """(P, N) xᵀ(XᵀWX)⁻¹x of the leading 1, 2, …, P coefficients at points ``x`` (N,).
+
+    ``lower`` (P, P, N) and ``scale`` (P, N): each point's series' scaled Cholesky factor.
+    """
+    basis = x[None, :] ** np.arange(lower.shape[0])[:, None] * scale
+    v = forward_solve(lower, basis)
+    return np.cumsum(v * v, axis=0)
+
+
 def loo_residuals(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, series: np.ndarray,
                   fit: FamilyFit) -> tuple[np.ndarray, np.ndarray]:
-    """Leave-one-out residuals (N, D) and whether each (series, degree) has them all (S, D).
+    """Leave-one-out residuals (D, N) and whether each (degree, series) has them all (D, S).
 
     ``series``: (N,) the chunk-local series of each row.
     """
-    p = fit.lower.shape[-1]
-    basis = x[:, None] ** np.arange(p) * fit.scale[series]
-    v = forward_solve(fit.lower[series], basis)
-    cumulative = np.cumsum(v * v, axis=1)
-    weight = 1.0 if w is None else w[:, None]
-    resid = np.empty((len(x), len(fit.degrees)))
-    defined = np.ones((len(fit.lower), len(fit.degrees)), dtype=bool)
+    h_all = leverages(x, fit.lower[:, :, series], fit.scale[:, series])
+    if w is not None:
+        h_all = h_all * w
+    resid = np.empty((len(fit.degrees), len(x)))
+    defined = np.ones((len(fit.degrees), fit.lower.shape[-1]), dtype=bool)
     for j, d in enumerate(fit.degrees):
-        h = (weight * cumulative[:, d:d + 1])[:, 0]
+        h = h_all[d]
         high = h >= LEVERAGE_LIMIT
-        defined[np.unique(series[high]), j] = False
-        e = y - horner(fit.coef[series, -1, j], x)
-        resid[:, j] = e / np.where(high, 1.0, 1.0 - h)
+        defined[j, np.unique(series[high])] = False
+        e = y - horner(fit.coef[j][:, -1, series], x)
+        resid[j] = e / np.where(high, 1.0, 1.0 - h)
     return resid, defined

@@ -3,40 +3,37 @@
 Intervals are the ordinary least-squares t-intervals for a new observation:
 ŷ ± t(1 − α/2, n − p)·σ̂·√(1 + xᵀ(XᵀWX)⁻¹x).  For the log-log curve the
 interval is built on the log scale and exponentiated; its point prediction
-carries Duan's smearing factor.
+carries Duan's smearing factor.  Coefficient arrays are entry-first: (P, S).
 """
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import stdtrit
 
-from .linalg import forward_solve
+from .loo import leverages
 from .polyfit import horner
 
 
-def leverage_at(x: np.ndarray, lower: np.ndarray, scale: np.ndarray, size: int) -> np.ndarray:
-    """xᵀ(XᵀWX)⁻¹x at mapped points ``x`` (S,) for the leading ``size`` coefficients."""
-    basis = x[:, None] ** np.arange(lower.shape[-1]) * scale
-    v = forward_solve(lower, basis)[:, :size]
-    return np.einsum("si,si->s", v, v)
-
-
 def t_quantile(level: float, df: np.ndarray) -> np.ndarray:
-    return stdtrit(np.maximum(df, 1), 1 - (1 - level) / 2)
+    """Student-t quantile at (1 + level)/2 for each df (computed once per distinct df)."""
+    from scipy.special import stdtrit  # imported on first use: scipy costs 0.2 s to import
+
+    distinct, index = np.unique(np.maximum(df, 1), return_inverse=True)
+    return stdtrit(distinct, 1 - (1 - level) / 2)[index.reshape(np.shape(df))]
 
 
 def derivative(coef: np.ndarray) -> np.ndarray:
-    """Coefficients of d/dt Σ coef[k]·tᵏ (same length, last zero)."""
-    k = np.arange(1, coef.shape[-1])
-    return np.concatenate([coef[..., 1:] * k, np.zeros(coef.shape[:-1] + (1,))], axis=-1)
+    """Coefficients (P, …) of d/dt Σ coef[k]·tᵏ (last one zero)."""
+    k = np.arange(1, coef.shape[0]).reshape((-1,) + (1,) * (coef.ndim - 1))
+    return np.concatenate([coef[1:] * k, np.zeros((1,) + coef.shape[1:])])
 
 
 def poly_at(coef, mid, half, lower, scale, size, sigma2, df, price, level):
-    """Volume, interval and elasticity of polynomial curves at ``price`` (all (S,))."""
+    """Volume, interval bounds and elasticity of polynomial curves at ``price`` (each (S,))."""
     width = np.where(half > 0, half, 1.0)
     t = (price - mid) / width
     volume = horner(coef, t)
-    spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverage_at(t, lower, scale, size)))
+    with np.errstate(invalid="ignore"):
+        spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverages(t, lower, scale)[size - 1]))
     slope = horner(derivative(coef), t) / width
     with np.errstate(divide="ignore", invalid="ignore"):
         elasticity = slope * price / volume
@@ -44,17 +41,17 @@ def poly_at(coef, mid, half, lower, scale, size, sigma2, df, price, level):
 
 
 def loglog_at(coef, mid, half, lower, scale, smear, sigma2, df, price, level):
-    """The same for log-log curves; ``coef`` (S, 2) in mapped ln price, ln volume not centred."""
+    """The same for log-log curves; ``coef`` (2, S) in mapped ln price, ln volume not centred."""
     width = np.where(half > 0, half, 1.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         u = (np.log(price) - mid) / width
-        log_volume = coef[:, 0] + coef[:, 1] * u
-        spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverage_at(u, lower, scale, 2)))
+        log_volume = coef[0] + coef[1] * u
+        spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverages(u, lower, scale)[1]))
         return (np.exp(log_volume) * smear, np.exp(log_volume - spread), np.exp(log_volume + spread),
-                coef[:, 1] / width)
+                coef[1] / width)
 
 
-def best_revenue_poly(coef: np.ndarray, mid: np.ndarray, half: np.ndarray, grid: int = 257) -> np.ndarray:
+def best_revenue_poly(coef: np.ndarray, mid: np.ndarray, half: np.ndarray, grid: int = 65) -> np.ndarray:
     """(S,) the price in [mid − half, mid + half] maximising price × volume.
 
     A grid finds the best cell; Newton steps on d(revenue)/dt, kept inside
@@ -62,23 +59,21 @@ def best_revenue_poly(coef: np.ndarray, mid: np.ndarray, half: np.ndarray, grid:
     (linear demand) and accurate to round-off for smooth ones.
     """
     t_grid = np.linspace(-1.0, 1.0, grid)
-    price = mid[:, None] + half[:, None] * t_grid
-    revenue = price * horner(coef[:, None, :], t_grid[None, :])
-    best = np.argmax(revenue, axis=1)
+    revenue = (mid + half * t_grid[:, None]) * horner(coef[:, None, :], t_grid[:, None])
+    t = t_grid[np.argmax(revenue, axis=0)]
     step = 2.0 / (grid - 1)
-    t = t_grid[best]
     lo, hi = np.maximum(t - step, -1.0), np.minimum(t + step, 1.0)
-    d1, d2 = derivative(coef), derivative(derivative(coef))
+    d1 = derivative(coef)
+    d2 = derivative(d1)
     for _ in range(8):
         p = mid + half * t
         v, v1, v2 = horner(coef, t), horner(d1, t), horner(d2, t)
         grad, curv = half * v + p * v1, 2 * half * v1 + p * v2
         with np.errstate(divide="ignore", invalid="ignore"):
             candidate = np.clip(t - grad / curv, lo, hi)
-        better = (curv < 0) & np.isfinite(candidate)
-        t_new = np.where(better, candidate, t)
-        gain = (mid + half * t_new) * horner(coef, t_new) >= p * v
-        t = np.where(gain, t_new, t)
+        step_ok = (curv < 0) & np.isfinite(candidate)
+        t_new = np.where(step_ok, candidate, t)
+        t = np.where((mid + half * t_new) * horner(coef, t_new) >= p * v, t_new, t)
     return mid + half * t
 
 

@@ -106,7 +106,7 @@ def write_results(results: Results, path: str | Path, flags: list[list[dict]] | 
     elif suffix in (".parquet", ".pq"):
         import pyarrow.parquet as pq
         table = results_table(results, flags)
-        _atomic_write(path, lambda handle: pq.write_table(table, handle, compression="zstd"))
+        _atomic_write(path, lambda handle: pq.write_table(table, handle, compression="snappy"))
     else:
         raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
     return path
@@ -129,10 +129,17 @@ def results_table(results: Results, flags: list[list[dict]] | None = None):
     fold_lists = _ragged(results.fold_err, results.fold_start, ok)
     chosen = results.chosen
     names = np.array(results.names, dtype=object)
-    columns = {name: repeat(data.keys[name].astype(str)) for name in data.key_names}
+    per_series = np.repeat(np.arange(n_s, dtype=np.int32), n_c)
+
+    def repeat_text(values):  # one dictionary entry per series, not one Python string per row
+        return pa.DictionaryArray.from_arrays(per_series, pa.array(np.asarray(values, dtype=object), pa.string()))
+
+    columns = {name: repeat_text(data.keys[name]) for name in data.key_names}
     columns.update(
         n=repeat(data.counts), price_lo=repeat(results.price_lo), price_hi=repeat(results.price_hi),
-        candidate=tile(names), family=tile([c.family for c in results.candidates]),
+        candidate=pa.DictionaryArray.from_arrays(tile(np.arange(n_c, dtype=np.int32)), pa.array(results.names)),
+        family=pa.DictionaryArray.from_arrays(tile(np.arange(n_c, dtype=np.int32)),
+                                              pa.array([c.family for c in results.candidates])),
         degree=pa.array(tile([c.degree if c.degree is not None else -1 for c in results.candidates]),
                         mask=tile([c.degree is None for c in results.candidates])),
         available=ok,
@@ -142,13 +149,13 @@ def results_table(results: Results, flags: list[list[dict]] | None = None):
         r2=results.r2.ravel(), q2=results.q2.ravel(), coef=coef_lists,
         smearing=np.where(tile([c.family == "loglog" for c in results.candidates]), repeat(results.smear), np.nan),
         is_chosen=(np.arange(n_c)[None, :] == chosen[:, None]).ravel(),
-        chosen=repeat(np.where(chosen >= 0, names[np.maximum(chosen, 0)], None)),
+        chosen=repeat_text(np.where(chosen >= 0, names[np.maximum(chosen, 0)], None)),
         score=repeat(results.score), revenue_price=repeat(results.revenue_price),
         plan_price=repeat(results.plan_price), plan_volume=results.plan_volume.ravel(),
         plan_lo=results.plan_lo.ravel(), plan_hi=results.plan_hi.ravel(),
         plan_elasticity=results.plan_elasticity.ravel(),
-        flags=repeat([json.dumps(f) for f in flags] if flags is not None else ["[]"] * n_s),
-        fingerprint=repeat(data.fingerprints),
+        flags=repeat_text([json.dumps(f) for f in flags] if flags is not None else ["[]"] * n_s),
+        fingerprint=repeat_text(data.fingerprints),
     )
     table = pa.table({name: pa.array(value, from_pandas=True) if not isinstance(value, pa.Array) else value
                       for name, value in columns.items()})

@@ -115,3 +115,49 @@ def test_shuffled_folds_match_scikit_learn_given_the_same_assignment(shared_data
             if results.available[s, c]:
                 mean, se, per_fold = reference_scores(x, y, cand.degree, splits)
                 np.testing.assert_allclose(results.folds_of(s)[:, c], per_fold, rtol=1e-8)
+
+
+def brute_force_loglog_folds(x, y, splits):
+    """Per-fold MSE in volume units of ln y = a + e·ln x refitted on each training set, Duan-smeared."""
+    out = []
+    for train, test in splits:
+        design = np.column_stack([np.ones(len(train)), np.log(x[train])])
+        beta = np.linalg.lstsq(design, np.log(y[train]), rcond=None)[0]
+        smear = np.mean(np.exp(np.log(y[train]) - design @ beta))
+        predicted = np.exp(beta[0] + beta[1] * np.log(x[test])) * smear
+        out.append(np.mean((y[test] - predicted) ** 2))
+    return np.array(out)
+
+
+@pytest.mark.parametrize("order", ["given", "shuffled"])
+def test_loglog_fold_errors_match_refitting_each_fold(shared_dataset, order):
+    from fitcore.folds import split_indices
+    settings = fitcore.FitSettings(degrees=(1,), folds=5, fold_order=order)
+    results = fitcore.fit_batch(shared_dataset, settings)
+    c = results.names.index("loglog")
+    for s in range(0, shared_dataset.n_series, 7):
+        lo = shared_dataset.offsets[s]
+        splits = [(train - lo, test - lo) for train, test in
+                  split_indices(shared_dataset.offsets, settings, s, key_hash=shared_dataset.key_hash)]
+        x, y = series_arrays(shared_dataset, s)
+        per_fold = brute_force_loglog_folds(x, y, splits)
+        np.testing.assert_allclose(results.folds_of(s)[:, c], per_fold, rtol=1e-9)
+        np.testing.assert_allclose(results.cv_mse[s, c], per_fold.mean(), rtol=1e-9)
+
+
+def test_loglog_leave_one_out_log_scale_residuals_are_exact():
+    """Leave-one-out volume errors: exact log-scale refits; smearing from the other rows' full-fit residuals."""
+    data = random_dataset(15, n_series=20, n_range=(8, 30))
+    results = fitcore.fit_batch(data, fitcore.FitSettings(degrees=(1,), folds="loo"))
+    c = results.names.index("loglog")
+    for s in range(data.n_series):
+        x, y = series_arrays(data, s)
+        design = np.column_stack([np.ones(len(x)), np.log(x)])
+        full = np.linalg.lstsq(design, np.log(y), rcond=None)[0]
+        full_exp = np.exp(np.log(y) - design @ full)
+        errors = []
+        for i in range(len(x)):
+            keep = np.arange(len(x)) != i
+            beta = np.linalg.lstsq(design[keep], np.log(y[keep]), rcond=None)[0]
+            errors.append((y[i] - np.exp(design[i] @ beta) * full_exp[keep].mean()) ** 2)
+        np.testing.assert_allclose(results.folds_of(s)[:, c], errors, rtol=1e-9)
