@@ -16,9 +16,10 @@ from .candidates import candidates_for, complexity
 from .dataset import Dataset
 from .errors import SettingsError
 from .folds import FoldLayout, layout
+from .influence import cook_distance
 from .loglog import fit_loglog
 from .loo import loo_residuals
-from .polyfit import fit_family
+from .polyfit import fit_family, horner
 from .prediction import best_revenue_loglog, best_revenue_poly, loglog_at, poly_at
 from .results import Results
 from .segments import segment_sums
@@ -199,6 +200,8 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         rows = np.flatnonzero(chosen == n_c - 1)
         elasticity = coef[rows, -1, 1] / np.where(log_half[rows] > 0, log_half[rows], 1.0)
         revenue_price[rows] = best_revenue_loglog(elasticity, ch.lo[rows], ch.hi[rows])
+    log_part = (u, log_volume - ch.per_row(zbar), ll) if ll is not None else None
+    influence = _influence(ch, chosen, cands, coef, sigma2, t, poly, log_part)
     keep = np.repeat(available, ch.counts, axis=0) if ch.loo else available[:, None, :]
     return dict(
         available=available, reason=reason, cv_mse=cv_mse, cv_se=cv_se, r2=r2, q2=q2,
@@ -207,8 +210,39 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         price_lo=ch.lo, price_hi=ch.hi, mid=mid, half=half, log_mid=log_mid, log_half=log_half,
         coef=coef, smear=ll.smear if ll is not None else np.ones(n_s), sigma2=sigma2, df=df, chosen=chosen,
         plan_volume=plan_cols[0], plan_lo=plan_cols[1], plan_hi=plan_cols[2], plan_elasticity=plan_cols[3],
-        revenue_price=revenue_price,
+        revenue_price=revenue_price, cook=influence[0], leverage=influence[1],
     )
+
+
+def _influence(ch: _Chunk, chosen, cands, coef, sigma2, t, poly, log_part):
+    """(N,) Cook's distance and leverage of each row under its series' chosen curve, in dataset order."""
+    n_rows = len(t)
+    cook, lev = np.full(n_rows, np.nan), np.full(n_rows, np.nan)
+    series = ch.per_row(np.arange(len(ch.counts)))
+    picked = ch.per_row(chosen)
+    sizes = np.array([c.complexity for c in cands])
+    is_poly = np.array([c.family == "poly" for c in cands])
+    size = np.where(chosen >= 0, sizes[np.maximum(chosen, 0)], 1)
+    rows = np.flatnonzero((picked >= 0) & is_poly[np.maximum(picked, 0)])
+    if len(rows):
+        s = series[rows]
+        resid = ch.volume[rows] - horner(coef[s, picked[rows]].T, t[rows])
+        sig = sigma2[np.arange(len(chosen)), np.maximum(chosen, 0)]
+        cook[rows], lev[rows] = cook_distance(t[rows], resid, None if ch.weight is None else ch.weight[rows], s,
+                                              poly.lower, poly.scale, size, sig)
+    if log_part is not None:
+        u, z, ll = log_part
+        rows = np.flatnonzero(picked == len(cands) - 1)
+        if len(rows):
+            s = series[rows]
+            a, e = ll.log.coef[0, 0, -1], ll.log.coef[0, 1, -1]
+            resid = z[rows] - (a[s] + e[s] * u[rows])
+            sig = sigma2[:, -1]
+            cook[rows], lev[rows] = cook_distance(u[rows], resid, None if ch.weight is None else ch.weight[rows], s,
+                                                  ll.log.lower, ll.log.scale, size, sig)
+    if ch.lay.order is not None:
+        cook[ch.lay.order], lev[ch.lay.order] = cook.copy(), lev.copy()
+    return cook, lev
 
 
 def _loo_summary(ch: _Chunk, fold_err: np.ndarray):

@@ -29,6 +29,8 @@ class Results:
     u = (ln price − log_mid)/log_half.  Per series (S,): ``chosen`` (-1 when
     nothing is available), ``price_lo``, ``price_hi``, ``mid``, ``half``,
     ``log_mid``, ``log_half``, ``smear``, ``plan_price``, ``revenue_price``.
+    Per observation (N,), in dataset row order, under the chosen curve:
+    ``cook`` (Cook's distance) and ``leverage`` (NaN where nothing was chosen).
     """
 
     data: Dataset
@@ -59,6 +61,8 @@ class Results:
     plan_hi: np.ndarray
     plan_elasticity: np.ndarray
     revenue_price: np.ndarray
+    cook: np.ndarray
+    leverage: np.ndarray
 
     @classmethod
     def build(cls, data: Dataset, settings: FitSettings, candidates, plan_price, parts: dict | None) -> "Results":
@@ -117,5 +121,5 @@ def _empty(n_c: int, p: int) -> dict:
     parts.update(available=z(0, n_c, dtype=bool), reason=z(0, n_c, dtype=np.int8), df=z(0, n_c, dtype=np.int64),
                  fold_err=z(0, n_c), coef=z(0, n_c, p), chosen=z(0, dtype=np.int64), n_folds=z(0, dtype=np.int64))
     parts.update({name: z(0) for name in ("price_lo", "price_hi", "mid", "half", "log_mid", "log_half",
-                                          "smear", "revenue_price")})
+                                          "smear", "revenue_price", "cook", "leverage")})
     return parts

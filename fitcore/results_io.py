@@ -34,8 +34,18 @@ def power_coef_table(results: Results) -> np.ndarray:
     return out
 
 
-def header(results: Results) -> dict:
-    return {"schema": SCHEMA, "settings": results.settings.as_dict(), "input": dict(results.data.source)}
+def header(results: Results, diagnosis=None) -> dict:
+    settings = results.settings.as_dict()
+    if diagnosis is not None:
+        settings["thresholds"] = diagnosis.thresholds.as_dict()
+    return {"schema": SCHEMA, "settings": settings, "input": dict(results.data.source)}
+
+
+def _flag_lists(results: Results, diagnosis) -> list[list[dict]]:
+    if diagnosis is None:
+        return [[] for _ in range(results.n_series)]
+    any_flag = diagnosis.raised.any(axis=1)
+    return [diagnosis.flags_of(s) if any_flag[s] else [] for s in range(results.n_series)]
 
 
 def _num(value) -> float | None:
@@ -43,12 +53,13 @@ def _num(value) -> float | None:
     return value if math.isfinite(value) else None
 
 
-def series_records(results: Results, flags: list[list[dict]] | None = None) -> list[dict]:
+def series_records(results: Results, diagnosis=None) -> list[dict]:
     """One JSON-ready dict per series (the ``series`` list of a results file)."""
     data, names = results.data, results.names
     coef = power_coef_table(results)
     fingerprints = data.fingerprints
     score = results.score
+    flags = _flag_lists(results, diagnosis)
     records = []
     for s in range(results.n_series):
         folds = results.folds_of(s)
@@ -77,7 +88,7 @@ def series_records(results: Results, flags: list[list[dict]] | None = None) -> l
             "chosen": names[chosen] if chosen >= 0 else None,
             "rule": results.settings.rule,
             "score": _num(score[s]),
-            "flags": flags[s] if flags is not None else [],
+            "flags": flags[s],
             "revenue_price": _num(results.revenue_price[s]),
             "plan": _plan_record(results, s, chosen),
             "fingerprint": fingerprints[s],
@@ -95,24 +106,24 @@ def _plan_record(results: Results, s: int, chosen: int) -> dict | None:
             "inside_range": bool(results.price_lo[s] <= price <= results.price_hi[s])}
 
 
-def write_results(results: Results, path: str | Path, flags: list[list[dict]] | None = None) -> Path:
-    """Write ``results`` as JSON or Parquet, chosen by the file name's ending."""
+def write_results(results: Results, path: str | Path, diagnosis=None) -> Path:
+    """Write ``results`` (and the flags of ``diagnosis``) as JSON or Parquet, by the file name's ending."""
     path = Path(path)
     suffix = path.suffix.lower()
     if suffix == ".json":
-        document = header(results) | {"series": series_records(results, flags)}
+        document = header(results, diagnosis) | {"series": series_records(results, diagnosis)}
         payload = json.dumps(document, ensure_ascii=False, allow_nan=False, indent=None, separators=(",", ":"))
         _atomic_write(path, lambda handle: handle.write(payload.encode("utf-8")))
     elif suffix in (".parquet", ".pq"):
         import pyarrow.parquet as pq
-        table = results_table(results, flags)
+        table = results_table(results, diagnosis)
         _atomic_write(path, lambda handle: pq.write_table(table, handle, compression="snappy"))
     else:
         raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
     return path
 
 
-def results_table(results: Results, flags: list[list[dict]] | None = None):
+def results_table(results: Results, diagnosis=None):
     """The Parquet layout: one row per series × candidate; the header in the schema metadata."""
     import pyarrow as pa
     n_s, n_c = results.available.shape
@@ -154,12 +165,12 @@ def results_table(results: Results, flags: list[list[dict]] | None = None):
         plan_price=repeat(results.plan_price), plan_volume=results.plan_volume.ravel(),
         plan_lo=results.plan_lo.ravel(), plan_hi=results.plan_hi.ravel(),
         plan_elasticity=results.plan_elasticity.ravel(),
-        flags=repeat_text([json.dumps(f) for f in flags] if flags is not None else ["[]"] * n_s),
+        flags=repeat_text([json.dumps(f, ensure_ascii=False) for f in _flag_lists(results, diagnosis)]),
         fingerprint=repeat_text(data.fingerprints),
     )
     table = pa.table({name: pa.array(value, from_pandas=True) if not isinstance(value, pa.Array) else value
                       for name, value in columns.items()})
-    meta = json.dumps(header(results) | {"rule": results.settings.rule, "key_columns": list(data.key_names)})
+    meta = json.dumps(header(results, diagnosis) | {"key_columns": list(data.key_names)})
     return table.replace_schema_metadata({b"pricefold": meta.encode()})
 
 

@@ -31,7 +31,18 @@ def build_parser() -> argparse.ArgumentParser:
                      help="results file: .json (small runs) or .parquet (large ones)")
     add_column_options(fit)
     add_fit_options(fit)
+    fit.add_argument("--threshold", action="append", default=[], metavar="NAME=VALUE",
+                     help="override a flag threshold, e.g. min_points=8 (repeatable)")
     fit.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
+
+    show = commands.add_parser("show", help="print a results file as text: one series, or a filtered list",
+                               description="Print one series in full (candidates, choice, flags, plan) or, when "
+                                           "several match, a list ordered by need of attention.", epilog=CAUTION)
+    show.add_argument("results", type=Path, metavar="RESULTS", help="a .json or .parquet results file")
+    show.add_argument("--product", action="append", default=[], metavar="P", help="only this product (repeatable)")
+    show.add_argument("--key", action="append", default=[], metavar="COL=VALUE",
+                      help="only series whose key column COL is VALUE, e.g. region=North (repeatable)")
+    show.add_argument("--flag", metavar="CODE", help="only series carrying this flag")
     return parser
 
 
@@ -71,7 +82,9 @@ def settings_from(args):
 
 def run_fit(args) -> int:
     from fitcore import fit_batch
+    from fitcore.diagnostics import diagnose
     from fitcore.errors import SettingsError
+    from fitcore.thresholds import Thresholds, parse_threshold_options
     from fitcore.loader import Columns, load
     from fitcore.plan import plan_prices
     from fitcore.results_io import write_results
@@ -79,6 +92,7 @@ def run_fit(args) -> int:
     from .progress import ProgressLine
 
     settings = settings_from(args)
+    thresholds = Thresholds().with_overrides(parse_threshold_options(args.threshold))
     if settings.fold_order == "time" and not args.date:
         raise SettingsError("--fold-order time needs the date column: add --date COLUMN")
     if args.plan_price is not None and not args.plan_price > 0:
@@ -93,21 +107,47 @@ def run_fit(args) -> int:
         results = fit_batch(data, settings, plan_price=plan, progress=bar)
     finally:
         bar.close()
-    write_results(results, args.output)
+    diagnosis = diagnose(results, thresholds)
+    write_results(results, args.output, diagnosis)
     if not args.quiet:
-        print(summary(results, time.perf_counter() - started, args.output), file=sys.stderr)
+        print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)
     return 0
 
 
-def summary(results, seconds: float, output: Path) -> str:
+def summary(results, diagnosis, seconds: float, output: Path) -> str:
     names = results.names
     chosen = Counter(names[c] if c >= 0 else "none" for c in results.chosen.tolist())
     parts = " · ".join(f"{name} {chosen[name]:,}" for name in [*names, "none"] if chosen[name])
+    clean = int((~diagnosis.raised.any(axis=1)).sum())
+    flags = " · ".join(f"{code} {count:,}" for code, count in diagnosis.counts().items()) or "none"
+    share = clean / results.n_series if results.n_series else 1.0
     return (f"fitted {results.n_series:,} series ({results.data.n_rows:,} rows) in {seconds:.2f} s; "
-            f"chosen: {parts} → {output}")
+            f"chosen: {parts}\nflags: {flags}; {clean:,} series ({share:.0%}) carry none → {output}")
 
 
-COMMANDS = {"fit": run_fit}
+def run_show(args) -> int:
+    from fitcore.errors import SettingsError
+    from fitcore.results_read import read_results
+
+    from .show import detail, select, table
+    keys = {}
+    for item in args.key:
+        name, sep, value = item.partition("=")
+        if not sep:
+            raise SettingsError(f"expected --key COL=VALUE, got {item!r}")
+        keys[name] = value
+    header, series = read_results(args.results)
+    picked = select(series, args.product, keys, args.flag)
+    if not picked:
+        print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
+        return 1
+    print(detail(picked[0]) if len(picked) == 1 else table(picked))
+    if len(picked) == 1 and picked[0].get("plan"):
+        print(f"\n{CAUTION}")
+    return 0
+
+
+COMMANDS = {"fit": run_fit, "show": run_show}
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -16,6 +16,8 @@ raise has a live example:
 - ``cherry tomatoes 250 g`` (South): one week with a bulk order 6× normal;
 - ``fresh figs 500 g``: weeks with zero sales (out of stock);
 - ``dried apricots 500 g`` (East): a plan price far above anything charged;
+- ``lemons 500 g`` (East): straight-line demand and a plan so far above history
+  that the line predicts negative volume there;
 - ``flour 1 kg`` (South): price moved in only two steps.
 """
 from __future__ import annotations
@@ -68,17 +70,17 @@ FIRST_WEEK = date(2024, 12, 2)
 
 def price_path(rng: np.random.Generator, base: float, weeks: int) -> np.ndarray:
     """List price with occasional changes, plus promotion weeks at 10–30% off."""
-    level = base * np.exp(np.cumsum(np.where(rng.random(weeks) < 0.06, rng.normal(0, 0.06, weeks), 0.0)))
-    promo = rng.random(weeks) < 0.18
+    level = base * np.exp(np.cumsum(np.where(rng.random(weeks) < 0.08, rng.normal(0, 0.06, weeks), 0.0)))
+    promo = rng.random(weeks) < 0.25
     return np.round(level * np.where(promo, 1 - rng.uniform(0.1, 0.3, weeks), 1.0), 2)
 
 
 def demand(rng, price, base, volume, elasticity, curvature, weeks):
     """Constant-elasticity demand, bent by ``curvature``, with seasonality and noise."""
     x = np.log(price / base)
-    season = 1 + 0.12 * np.sin(2 * np.pi * np.arange(weeks) / 52 + rng.uniform(0, 2 * np.pi))
+    season = 1 + 0.04 * np.sin(2 * np.pi * np.arange(weeks) / 52 + rng.uniform(0, 2 * np.pi))
     mean = volume * np.exp(elasticity * x - curvature * x * x) * season
-    return np.maximum(np.round(mean * rng.lognormal(0, 0.12, weeks)), 0)
+    return np.maximum(np.round(mean * rng.lognormal(0, 0.07, weeks)), 0)
 
 
 def series_rows(rng, name, region, base, volume, elasticity, curvature):
@@ -93,6 +95,9 @@ def series_rows(rng, name, region, base, volume, elasticity, curvature):
         # Promotions were pulled in busy weeks: observed volume rises with price.
         vol = np.round(volume * REGION_SCALE[region] * (0.6 + 0.5 * (price / base - 0.8) / 0.4)
                        * rng.lognormal(0, 0.08, weeks))
+    if name == "lemons 500 g" and region == "East":
+        # Straight-line demand: a plan far above history sends the line below zero.
+        vol = np.round(volume * REGION_SCALE[region] * (1 - 1.6 * (price / base - 1)) * rng.lognormal(0, 0.05, weeks))
     if name == "cherry tomatoes 250 g" and region == "South":
         vol[70] = vol[70] * 6
     if name == "fresh figs 500 g":
@@ -109,11 +114,14 @@ def main(folder: Path = Path(__file__).parent) -> None:
     rows, plan = [], []
     for name, base, volume, elasticity, curvature in PRODUCTS:
         for region in REGIONS:
-            rows += series_rows(rng, name, region, base, volume, elasticity, curvature)
-            change = 1.0 if rng.random() < 0.5 else 1 + rng.choice([-0.05, 0.03, 0.05])
-            if name == "dried apricots 500 g" and region == "East":
-                change = 1.9
-            plan.append((name, region, f"{base * change:.2f}"))
+            series = series_rows(rng, name, region, base, volume, elasticity, curvature)
+            rows += series
+            # Plans mostly stay near the usual price; two deliberately leave history far behind.
+            usual = float(np.median([float(row[3]) for row in series]))
+            planned = usual * rng.choice([1.0, 0.97, 1.03])
+            if (name, region) in (("dried apricots 500 g", "East"), ("lemons 500 g", "East")):
+                planned = base * (1.9 if name.startswith("dried") else 2.2)
+            plan.append((name, region, f"{planned:.2f}"))
     with open(folder / "wholesale.csv", "w", newline="", encoding="utf-8") as handle:
         writer = csv.writer(handle)
         writer.writerow(["product", "region", "week", "price", "volume"])

@@ -1,0 +1,238 @@
+"""Flags: why a series needs a human, computed for all series at once.
+
+``diagnose`` returns a ``Diagnosis``: a boolean (S, flags) matrix plus the
+numbers each flag's sentence quotes.  Sentences are written on demand
+(``flag_sentences``), since only flagged series need them.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import reasons as R
+from .results import Results
+from .thresholds import Thresholds
+
+# code, severity, meaning.  "stop": the proposed curve should not go into a plan
+# unseen; "warn": worth a look.  Codes are pricefold's own.
+FLAGS = (
+    ("few-points", "stop", "too few observations to trust a cross-validated choice"),
+    ("flat-price", "stop", "price barely moved, so the data say little about response to price"),
+    ("rising", "stop", "the chosen curve has volume rising with price over part of the range"),
+    ("below-zero", "stop", "the chosen curve predicts negative volume in range or at the plan price"),
+    ("outside-range", "stop", "the plan price lies outside the prices observed: an extrapolation"),
+    ("near-tie", "warn", "another candidate is about as good but predicts a materially different volume"),
+    ("unsteady-folds", "warn", "one fold's held-out error dominates the others"),
+    ("weak-fit", "warn", "low cross-validated R² (Q²)"),
+    ("influential-point", "warn", "one observation has a large influence on the chosen curve"),
+    ("stale", "stop", "the data changed since the last sign-off"),
+)
+CODES = tuple(code for code, _, _ in FLAGS)
+SEVERITY = {code: severity for code, severity, _ in FLAGS}
+GRID = 101  # points over the observed price range for shape checks
+BLOCK = 16384  # series per block of the grid evaluation (bounds its memory)
+
+
+@dataclass(frozen=True, eq=False)
+class Diagnosis:
+    """Flags of S series.  ``raised``: (S, len(CODES)) bool; ``numbers``: name → (S,) array."""
+
+    results: Results
+    thresholds: Thresholds
+    raised: np.ndarray
+    numbers: dict
+
+    def flagged(self, code: str) -> np.ndarray:
+        return self.raised[:, CODES.index(code)]
+
+    def counts(self) -> dict[str, int]:
+        totals = self.raised.sum(axis=0)
+        return {code: int(totals[i]) for i, code in enumerate(CODES) if totals[i]}
+
+    def n_stop(self) -> np.ndarray:
+        return self.raised[:, [SEVERITY[c] == "stop" for c in CODES]].sum(axis=1)
+
+    def n_warn(self) -> np.ndarray:
+        return self.raised[:, [SEVERITY[c] == "warn" for c in CODES]].sum(axis=1)
+
+    def attention_order(self) -> np.ndarray:
+        """Series indices, most in need of a human first: stop flags, then warn flags, then lowest score."""
+        score = self.results.score
+        score_key = np.where(np.isnan(score), -np.inf, score)
+        return np.lexsort((np.arange(len(score)), score_key, -self.n_warn(), -self.n_stop()))
+
+    def flags_of(self, s: int) -> list[dict]:
+        from .flag_sentences import sentence
+        return [{"code": code, "severity": SEVERITY[code], "message": sentence(self, s, code)}
+                for i, code in enumerate(CODES) if self.raised[s, i]]
+
+
+def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnosis:
+    """Raise every flag that applies to every series of ``results``."""
+    data = results.data
+    n_s = results.n_series
+    counts = data.counts.astype(float)
+    chosen = results.chosen
+    has = chosen >= 0
+    pick = np.maximum(chosen, 0)
+    rows = np.arange(n_s)
+    raised = np.zeros((n_s, len(CODES)), dtype=bool)
+    numbers: dict[str, np.ndarray] = {}
+
+    def flag(code, mask):
+        raised[:, CODES.index(code)] = mask
+
+    starved = ~has & np.isin(results.reason, [R.TOO_FEW_FOR_FOLDS, R.TOO_FEW_POINTS]).all(axis=1)
+    flag("few-points", (counts < thresholds.min_points) | starved)
+
+    distinct, price_cv = _price_spread(results)
+    numbers.update(distinct=distinct, price_cv=price_cv)
+    flag("flat-price", (distinct < thresholds.min_distinct_prices) | (price_cv < thresholds.min_price_cv))
+
+    shape = _shape(results)
+    numbers.update(shape)
+    flag("rising", has & (shape["rising_share"] > thresholds.rising_share))
+    plan = results.plan_price
+    planned = np.isfinite(plan)
+    plan_volume = np.where(has, results.plan_volume[rows, pick], np.nan)
+    flag("below-zero", has & ((shape["lowest_volume"] < 0) | (planned & (plan_volume < 0))))
+
+    flag("outside-range", has & planned & ((plan < results.price_lo) | (plan > results.price_hi)))
+
+    rival, rival_change = _near_tie(results)
+    numbers.update(rival=rival, rival_change=rival_change)
+    flag("near-tie", has & (rival >= 0) & (np.abs(rival_change) > thresholds.near_tie_change))
+
+    worst_fold, fold_ratio = _fold_spread(results)
+    numbers.update(worst_fold=worst_fold, fold_ratio=fold_ratio)
+    flag("unsteady-folds", has & (fold_ratio > thresholds.unsteady_ratio))
+
+    flag("weak-fit", has & (results.score < thresholds.weak_score))
+
+    top_row, top_cook = _most_influential(results)
+    cook_limit = np.maximum(4.0 / np.maximum(counts, 1), thresholds.cook_floor)
+    numbers.update(top_row=top_row, top_cook=top_cook, cook_limit=cook_limit)
+    flag("influential-point", has & (top_cook > cook_limit))
+    raised.flags.writeable = False
+    return Diagnosis(results, thresholds, raised, numbers)
+
+
+def _price_spread(results: Results):
+    """(S,) distinct prices, capped at 3 (1, 2 or "3 or more"), and the price coefficient of variation."""
+    data = results.data
+    starts = data.offsets[:-1]
+    if data.n_rows == 0:
+        return np.zeros(0), np.zeros(0)
+    lo, hi = np.repeat(results.price_lo, data.counts), np.repeat(results.price_hi, data.counts)
+    inner = np.add.reduceat(((data.price > lo) & (data.price < hi)).astype(np.int64), starts)
+    distinct = np.where(results.price_hi > results.price_lo, np.where(inner > 0, 3, 2), 1)
+    mean = np.add.reduceat(data.price, starts) / data.counts
+    var = np.add.reduceat((data.price - np.repeat(mean, data.counts)) ** 2, starts) / data.counts
+    with np.errstate(divide="ignore", invalid="ignore"):
+        cv = np.where(mean > 0, np.sqrt(var) / mean, 0.0)
+    return distinct, cv
+
+
+def _shape(results: Results) -> dict:
+    """Where the chosen curve rises and how low it goes, on a grid over the observed prices."""
+    n_s = results.n_series
+    out = {name: np.full(n_s, np.nan) for name in
+           ("rising_share", "rising_from", "rising_to", "rising_slope", "lowest_volume", "lowest_at")}
+    t = np.linspace(-1.0, 1.0, GRID)
+    step = 2.0 / (GRID - 1)
+    for lo in range(0, n_s, BLOCK):
+        idx = np.arange(lo, min(lo + BLOCK, n_s))
+        chosen = results.chosen[idx]
+        ok = chosen >= 0
+        idx, chosen = idx[ok], chosen[ok]
+        fam = np.array([results.candidates[c].family == "poly" for c in range(len(results.candidates))])
+        poly = fam[chosen]
+        price = results.mid[idx] + results.half[idx] * t[:, None]  # (G, n)
+        coef = results.coef[idx, chosen].T  # (P, n)
+        volume = np.empty_like(price)
+        slope = np.empty_like(price)
+        from .polyfit import horner
+        from .prediction import derivative
+        volume[:, poly] = horner(coef[:, None, poly], t[:, None])
+        width = np.where(results.half[idx] > 0, results.half[idx], 1.0)
+        slope[:, poly] = horner(derivative(coef[:, poly])[:, None, :], t[:, None]) / width[poly]
+        ll = ~poly
+        if ll.any():
+            lwidth = np.where(results.log_half[idx[ll]] > 0, results.log_half[idx[ll]], 1.0)
+            e = coef[1, ll] / lwidth
+            with np.errstate(divide="ignore", invalid="ignore"):
+                u = (np.log(price[:, ll]) - results.log_mid[idx[ll]]) / lwidth
+            volume[:, ll] = np.exp(coef[0, ll] + coef[1, ll] * u) * results.smear[idx[ll]]
+            slope[:, ll] = e * volume[:, ll] / price[:, ll]
+        flat = results.half[idx] <= 0
+        rising = (slope > 0) & ~flat
+        # Share of the range: count grid intervals whose both ends rise.
+        share = (rising[1:] & rising[:-1]).sum(axis=0) * step / 2
+        first = np.argmax(rising, axis=0)
+        last = GRID - 1 - np.argmax(rising[::-1], axis=0)
+        out["rising_share"][idx] = share
+        out["rising_from"][idx] = price[first, np.arange(len(idx))]
+        out["rising_to"][idx] = price[last, np.arange(len(idx))]
+        out["rising_slope"][idx] = np.max(np.where(rising, slope, -np.inf), axis=0)
+        low = np.argmin(volume, axis=0)
+        out["lowest_volume"][idx] = volume[low, np.arange(len(idx))]
+        out["lowest_at"][idx] = price[low, np.arange(len(idx))]
+    return out
+
+
+def _near_tie(results: Results):
+    """(S,) the candidate within one SE of the chosen one whose volume differs most, and by what share."""
+    n_s = results.n_series
+    rows = np.arange(n_s)
+    pick = np.maximum(results.chosen, 0)
+    volume = np.where(np.isfinite(results.plan_price)[:, None], results.plan_volume, _mid_volumes(results))
+    base = volume[rows, pick]
+    band = results.cv_mse[rows, pick] + results.cv_se[rows, pick]
+    close = results.available & (results.cv_mse <= band[:, None])
+    close[rows, pick] = False
+    with np.errstate(divide="ignore", invalid="ignore"):
+        change = np.where(close, (volume - base[:, None]) / np.abs(base)[:, None], 0.0)
+    change = np.where(np.isfinite(change), change, 0.0)
+    rival = np.argmax(np.abs(change), axis=1)
+    has_rival = close.any(axis=1) & (results.chosen >= 0)
+    return np.where(has_rival, rival, -1), np.where(has_rival, change[rows, rival], 0.0)
+
+
+def _mid_volumes(results: Results) -> np.ndarray:
+    """(S, C) each candidate's fitted volume at the middle of the observed prices."""
+    out = results.coef[:, :, 0].copy()  # poly at t = 0
+    for c, cand in enumerate(results.candidates):
+        if cand.family == "loglog":
+            width = np.where(results.log_half > 0, results.log_half, 1.0)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                u = (np.log(results.mid) - results.log_mid) / width
+            out[:, c] = np.exp(results.coef[:, c, 0] + results.coef[:, c, 1] * u) * results.smear
+    return out
+
+
+def _fold_spread(results: Results):
+    """(S,) the fold with the largest held-out error of the chosen curve, and that error over the median."""
+    n_s = results.n_series
+    n_folds = np.diff(results.fold_start)
+    if n_s == 0 or results.settings.folds == "loo":
+        return np.full(n_s, -1), np.zeros(n_s)
+    k = int(n_folds[0])
+    errors = results.fold_err.reshape(n_s, k, -1)[np.arange(n_s), :, np.maximum(results.chosen, 0)]
+    median = np.median(errors, axis=1)
+    worst = np.argmax(np.nan_to_num(errors, nan=-np.inf), axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(median > 0, errors[np.arange(n_s), worst] / median, 0.0)
+    return worst, np.nan_to_num(ratio)
+
+
+def _most_influential(results: Results):
+    """(S,) dataset row with the largest Cook's distance in each series, and that distance."""
+    data = results.data
+    if data.n_rows == 0:
+        return np.zeros(0, np.int64), np.zeros(0)
+    cook = np.nan_to_num(results.cook, nan=-1.0)
+    top = np.maximum.reduceat(cook, data.offsets[:-1])
+    hit = cook == np.repeat(top, data.counts)
+    first = np.minimum.reduceat(np.where(hit, np.arange(data.n_rows), data.n_rows), data.offsets[:-1])
+    return first, top

@@ -1,0 +1,135 @@
+"""Plain-language sentences for flags, quoting the numbers behind them."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+
+def fmt(x: float) -> str:
+    """A quantity as an analyst reads it: 3,912 · 41.5 · 4.38 · 0.0372 · 0."""
+    if x is None or not math.isfinite(x):
+        return "n/a"
+    if x == int(x) or abs(x) >= 1000:
+        return f"{x:,.0f}"
+    if abs(x) >= 100:
+        return f"{x:,.1f}"
+    if abs(x) >= 1:
+        return f"{x:.2f}"
+    return f"{x:.3g}"
+
+
+def money(x: float) -> str:
+    """A price: two decimals (three significant digits below 0.10)."""
+    if x is None or not math.isfinite(x):
+        return "n/a"
+    return f"{x:,.2f}" if abs(x) >= 0.1 else f"{x:.3g}"
+
+
+def signed(x: float) -> str:
+    return ("+" if x > 0 else "−" if x < 0 else "") + fmt(abs(x))
+
+
+def pct(share: float) -> str:
+    return f"{share * 100:.0f}%"
+
+
+def sentence(diag, s: int, code: str) -> str:
+    return SENTENCES[code](diag, s)
+
+
+def _few_points(diag, s):
+    n = int(diag.results.data.counts[s])
+    wanted = diag.thresholds.min_points
+    if diag.results.chosen[s] < 0:
+        return f"Only {n} observations: too few to cross-validate any candidate (at least {wanted} wanted)."
+    return f"Only {n} observations; at least {wanted} are wanted to trust a cross-validated choice."
+
+
+def _flat_price(diag, s):
+    r = diag.results
+    distinct = int(diag.numbers["distinct"][s])
+    if distinct == 1:
+        return f"Every observation has the same price ({money(r.price_lo[s])}): the data say nothing about price response."
+    if distinct < diag.thresholds.min_distinct_prices:
+        return (f"Only {distinct} distinct prices ({money(r.price_lo[s])} and {money(r.price_hi[s])}): "
+                f"a curve's shape between them is a guess.")
+    return (f"Price varied by only {pct(diag.numbers['price_cv'][s])} (coefficient of variation; "
+            f"{pct(diag.thresholds.min_price_cv)} wanted), between {money(r.price_lo[s])} and {money(r.price_hi[s])}.")
+
+
+def _rising(diag, s):
+    n = diag.numbers
+    return (f"Fitted volume rises with price over {pct(n['rising_share'][s])} of the observed range, "
+            f"within {money(n['rising_from'][s])}–{money(n['rising_to'][s])} (slope up to "
+            f"{signed(n['rising_slope'][s])} units per 1.00 of price); often promotions or stock-outs "
+            f"moving with price.")
+
+
+def _below_zero(diag, s):
+    r, n = diag.results, diag.numbers
+    parts = []
+    if n["lowest_volume"][s] < 0:
+        parts.append(f"{signed(n['lowest_volume'][s])} at price {money(n['lowest_at'][s])}")
+    c = r.chosen[s]
+    if math.isfinite(r.plan_price[s]) and r.plan_volume[s, c] < 0:
+        parts.append(f"{signed(r.plan_volume[s, c])} at the plan price {money(r.plan_price[s])}")
+    return "The chosen curve predicts negative volume: " + "; ".join(parts) + "."
+
+
+def _outside_range(diag, s):
+    r = diag.results
+    plan, lo, hi = r.plan_price[s], r.price_lo[s], r.price_hi[s]
+    width = hi - lo
+    beyond = plan - hi if plan > hi else lo - plan
+    side, edge = ("above the highest", hi) if plan > hi else ("below the lowest", lo)
+    size = f"{pct(beyond / width)} of the observed range" if width > 0 else f"{pct(beyond / edge)} of that price"
+    return (f"Plan price {money(plan)} is {money(beyond)} ({size}) {side} price observed ({money(edge)}); "
+            f"the prediction there is an extrapolation.")
+
+
+def _near_tie(diag, s):
+    r, n = diag.results, diag.numbers
+    c, other = int(r.chosen[s]), int(n["rival"][s])
+    where = f"at the plan price {money(r.plan_price[s])}" if math.isfinite(r.plan_price[s]) else "at mid-range price"
+    names = r.names
+    change = n["rival_change"][s]
+    return (f"{names[other]} is within one standard error (CV MSE {fmt(r.cv_mse[s, other])} vs "
+            f"{fmt(r.cv_mse[s, c])} ± {fmt(r.cv_se[s, c])}) and predicts {pct(abs(change))} "
+            f"{'more' if change > 0 else 'less'} volume than {names[c]} {where}.")
+
+
+def _unsteady(diag, s):
+    r, n = diag.results, diag.numbers
+    k = int(n["worst_fold"][s])
+    errors = r.folds_of(s)[:, r.chosen[s]]
+    return (f"Fold {k + 1} of {len(errors)} has {n['fold_ratio'][s]:.1f}× the median held-out error "
+            f"(MSE {fmt(errors[k])} vs {fmt(float(np.median(errors)))}).")
+
+
+def _weak_fit(diag, s):
+    return (f"Cross-validated R² (Q²) is {pct(diag.results.score[s])}, below {pct(diag.thresholds.weak_score)}: "
+            f"price explains little of the volume's variation.")
+
+
+def _influential(diag, s):
+    r, n = diag.results, diag.numbers
+    data = r.data
+    row = int(n["top_row"][s])
+    where = f"line {int(data.line[row])}" if data.line is not None else f"row {row + 1}"
+    if data.date is not None:
+        where += f", {np.datetime_as_string(data.date[row], unit='D')}"
+    return (f"The observation on {where} (price {money(data.price[row])}, volume {fmt(data.volume[row])}) has "
+            f"Cook's distance {n['top_cook'][s]:.2f}, above max(4/n, {diag.thresholds.cook_floor:g}) = "
+            f"{n['cook_limit'][s]:.2f} (a common rule of thumb).")
+
+
+def _stale(diag, s):
+    return "The data behind the last sign-off have changed."
+
+
+SENTENCES = {
+    "few-points": _few_points, "flat-price": _flat_price, "rising": _rising, "below-zero": _below_zero,
+    "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
+    "weak-fit": _weak_fit, "influential-point": _influential, "stale": _stale,
+}

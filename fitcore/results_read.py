@@ -1,0 +1,72 @@
+"""Reading results files back as plain records (the JSON layout), from JSON or Parquet."""
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from .errors import DataError
+from .results import SCHEMA
+
+SERIES_FIELDS = ("n", "price_lo", "price_hi", "chosen", "score", "revenue_price", "plan_price", "flags", "fingerprint")
+
+
+def read_results(path: str | Path) -> tuple[dict, list[dict]]:
+    """``(header, series)`` of a results file; ``series`` as in the JSON layout."""
+    path = Path(path)
+    if not path.exists():
+        raise DataError("file not found", path=str(path))
+    suffix = path.suffix.lower()
+    if suffix == ".json":
+        try:
+            document = json.loads(path.read_text(encoding="utf-8"))
+        except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+            raise DataError(f"expected a pricefold results file, could not read it as JSON ({exc})",
+                            path=str(path)) from None
+        _check_schema(path, document)
+        series = document.pop("series", [])
+        return document, series
+    if suffix in (".parquet", ".pq"):
+        return _read_parquet(path)
+    raise DataError(f"expected a results file ending in .json or .parquet, got {path.name!r}", path=str(path))
+
+
+def _check_schema(path: Path, document) -> None:
+    if not isinstance(document, dict) or document.get("schema") != SCHEMA:
+        found = document.get("schema") if isinstance(document, dict) else type(document).__name__
+        raise DataError(f"expected schema {SCHEMA!r}, found {found!r}", path=str(path))
+
+
+def _read_parquet(path: Path) -> tuple[dict, list[dict]]:
+    import pyarrow.parquet as pq
+    try:
+        table = pq.read_table(path)
+        meta = json.loads((table.schema.metadata or {}).get(b"pricefold", b"null"))
+    except Exception as exc:  # pyarrow raises several unrelated types for a bad file
+        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
+    _check_schema(path, meta)
+    keys = meta["key_columns"]
+    rows = table.to_pylist()
+    series, current = [], None
+    for row in rows:
+        key = {k: row[k] for k in keys}
+        if current is None or current["key"] != key:
+            current = {"key": key, "n": row["n"], "price_range": [row["price_lo"], row["price_hi"]],
+                       "candidates": [], "chosen": row["chosen"], "rule": meta["settings"]["rule"],
+                       "score": row["score"], "flags": json.loads(row["flags"]), "revenue_price": row["revenue_price"],
+                       "plan": None, "fingerprint": row["fingerprint"]}
+            series.append(current)
+        cand = {name: row[name] for name in ("candidate", "family", "degree", "available", "reason", "cv_mse", "cv_se",
+                                             "fold_mse", "r2", "q2", "coef")}
+        cand["name"] = cand.pop("candidate")
+        if cand["family"] == "loglog":
+            cand["smearing"] = row["smearing"]
+        if row["plan_price"] is not None and cand["available"]:
+            cand["plan_volume"] = row["plan_volume"]
+        current["candidates"].append(cand)
+        if row["is_chosen"] and row["plan_price"] is not None:
+            current["plan"] = {"price": row["plan_price"], "volume": row["plan_volume"], "lo": row["plan_lo"],
+                               "hi": row["plan_hi"], "level": meta["settings"]["level"],
+                               "elasticity": row["plan_elasticity"],
+                               "inside_range": row["price_lo"] <= row["plan_price"] <= row["price_hi"]}
+    meta.pop("key_columns", None)
+    return meta, series

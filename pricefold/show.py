@@ -1,0 +1,87 @@
+"""``pricefold show``: a results file as plain text, for scripts and plain SSH sessions."""
+from __future__ import annotations
+
+import math
+
+from fitcore.flag_sentences import fmt, money
+
+from .text import clean
+
+SEVERITY_ORDER = {"stop": 0, "warn": 1}
+
+
+def select(series: list[dict], products: list[str], keys: dict[str, str], flag: str | None) -> list[dict]:
+    out = []
+    for record in series:
+        if products and record["key"].get(next(iter(record["key"]))) not in products:
+            continue
+        if any(record["key"].get(k) != v for k, v in keys.items()):
+            continue
+        if flag and flag not in {f["code"] for f in record["flags"]}:
+            continue
+        out.append(record)
+    return out
+
+
+def attention_key(record: dict):
+    stops = sum(f["severity"] == "stop" for f in record["flags"])
+    warns = len(record["flags"]) - stops
+    score = record["score"] if record["score"] is not None else -math.inf
+    return (-stops, -warns, score)
+
+
+def key_text(record: dict) -> str:
+    return " · ".join(clean(str(v)) for v in record["key"].values())
+
+
+def table(records: list[dict]) -> str:
+    lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'score':>6}  flags"]
+    for r in sorted(records, key=attention_key):
+        score = f"{r['score'] * 100:.0f}%" if r["score"] is not None else "—"
+        flags = " ".join(f["code"] for f in r["flags"]) or "—"
+        lines.append(f"{key_text(r)[:40]:<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  {flags}")
+    return "\n".join(lines)
+
+
+def why_chosen(record: dict) -> str:
+    cands = {c["name"]: c for c in record["candidates"] if c["available"]}
+    if not record["chosen"]:
+        return "no candidate could be fitted and cross-validated"
+    best = min(cands.values(), key=lambda c: c["cv_mse"])
+    chosen = cands[record["chosen"]]
+    if record["rule"] == "lowest" or best["name"] == chosen["name"]:
+        return f"lowest mean CV error ({fmt(best['cv_mse'])})"
+    limit = best["cv_mse"] + best["cv_se"]
+    return (f"simplest candidate within one standard error of the lowest CV error "
+            f"({best['name']} {fmt(best['cv_mse'])} ± {fmt(best['cv_se'])}; {chosen['name']} {fmt(chosen['cv_mse'])} "
+            f"≤ {fmt(limit)})")
+
+
+def detail(record: dict) -> str:
+    lo, hi = record["price_range"]
+    out = [f"{key_text(record)} — {record['n']} observations, prices {money(lo)}–{money(hi)}",
+           f"chosen: {record['chosen'] or 'none'} ({record['rule']}): {why_chosen(record)}", "",
+           f"  {'candidate':<10} {'CV MSE':>12} {'± SE':>10} {'Q²':>6} {'R²':>6}"]
+    for c in record["candidates"]:
+        mark = "✓" if c["name"] == record["chosen"] else " "
+        if not c["available"]:
+            out.append(f"{mark} {c['name']:<10} unavailable: {c['reason']}")
+            continue
+        out.append(f"{mark} {c['name']:<10} {fmt(c['cv_mse']):>12} {fmt(c['cv_se']):>10} "
+                   f"{c['q2'] * 100:>5.0f}% {c['r2'] * 100:>5.0f}%")
+    out.append("")
+    if record["flags"]:
+        out.append("flags:")
+        for f in sorted(record["flags"], key=lambda f: SEVERITY_ORDER[f["severity"]]):
+            out.append(f"  [{f['severity']}] {f['code']}: {f['message']}")
+    else:
+        out.append("flags: none")
+    plan = record.get("plan")
+    if plan:
+        where = "" if plan["inside_range"] else " — outside the observed prices: an extrapolation"
+        out.append(f"plan price {money(plan['price'])}: volume {fmt(plan['volume'])} "
+                   f"({plan['level'] * 100:.0f}% prediction interval {fmt(plan['lo'])} to {fmt(plan['hi'])}), "
+                   f"elasticity {plan['elasticity']:.2f}{where}")
+    if record.get("revenue_price") is not None:
+        out.append(f"revenue-maximising price within the observed range: {money(record['revenue_price'])}")
+    return "\n".join(out)

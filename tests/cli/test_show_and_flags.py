@@ -1,0 +1,102 @@
+"""Flags on the sample scenario, the fit summary, and ``pricefold show``."""
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from fitcore.diagnostics import CODES
+
+SAMPLE = Path(__file__).parents[2] / "sample"
+
+
+def run_cli(*args):
+    return subprocess.run([sys.executable, "-m", "pricefold", *args], capture_output=True, text=True)
+
+
+@pytest.fixture(scope="module")
+def fitted(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("flags")
+    out = {}
+    for suffix in ("json", "parquet"):
+        path = folder / f"results.{suffix}"
+        done = run_cli("fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week",
+                       "--plan", str(SAMPLE / "plan.csv"), "-o", str(path))
+        assert done.returncode == 0, done.stderr
+        out[suffix] = (path, done.stderr)
+    return out
+
+
+def test_sample_shows_every_flag_and_mostly_clean_series(fitted):
+    path, _ = fitted["json"]
+    series = json.loads(path.read_text())["series"]
+    seen = {f["code"] for s in series for f in s["flags"]}
+    assert seen == set(CODES) - {"stale"}  # stale comes from the ledger, not from a fit
+    clean = sum(not s["flags"] for s in series)
+    assert clean / len(series) >= 0.60
+    for s in series:
+        for f in s["flags"]:
+            assert f["severity"] in ("stop", "warn") and f["message"].endswith(".")
+
+
+def test_thresholds_are_written_into_the_results(fitted):
+    path, _ = fitted["json"]
+    settings = json.loads(path.read_text())["settings"]
+    assert settings["thresholds"]["min_points"] == 12 and settings["thresholds"]["cook_floor"] == 0.5
+
+
+def test_summary_counts_series_by_flag(fitted):
+    path, stderr = fitted["json"]
+    series = json.loads(path.read_text())["series"]
+    rising = sum(any(f["code"] == "rising" for f in s["flags"]) for s in series)
+    clean = sum(not s["flags"] for s in series)
+    assert f"rising {rising}" in stderr and f"{clean} series" in stderr and "carry none" in stderr
+
+
+def test_threshold_option_changes_the_flags(tmp_path):
+    out = tmp_path / "r.json"
+    done = run_cli("fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "-o", str(out),
+                   "--threshold", "min_points=5", "--quiet")
+    assert done.returncode == 0
+    series = json.loads(out.read_text())["series"]
+    assert not any(f["code"] == "few-points" for s in series for f in s["flags"])
+    bad = run_cli("fit", str(SAMPLE / "wholesale.csv"), "-o", str(out), "--threshold", "min_points")
+    assert bad.returncode == 2 and "expected --threshold NAME=VALUE, got 'min_points'" in bad.stderr
+
+
+@pytest.mark.parametrize("suffix", ["json", "parquet"])
+def test_show_one_series_in_full(fitted, suffix):
+    path, _ = fitted[suffix]
+    done = run_cli("show", str(path), "--product", "lemons 500 g", "--key", "region=East")
+    assert done.returncode == 0, done.stderr
+    text = done.stdout
+    assert text.startswith("lemons 500 g · East — 104 observations")
+    assert "✓ poly1" in text and "[stop] below-zero" in text and "[stop] outside-range" in text
+    assert "an extrapolation" in text and "the analyst decides" in text
+
+
+def test_show_lists_flagged_series_in_order_of_attention(fitted):
+    path, _ = fitted["json"]
+    done = run_cli("show", str(path), "--flag", "flat-price")
+    lines = done.stdout.strip().splitlines()
+    assert lines[0].startswith("series") and len(lines) == 5
+    assert all("flat-price" in line for line in lines[1:])
+
+
+def test_show_with_no_match_says_so(fitted):
+    path, _ = fitted["json"]
+    done = run_cli("show", str(path), "--product", "no such thing")
+    assert done.returncode == 1 and "no series" in done.stderr
+
+
+def test_show_prints_control_characters_harmlessly(tmp_path):
+    data = tmp_path / "odd.csv"
+    rows = "\n".join(f"\"bad\x1b[2Jname\",{1 + i % 7 / 10},{100 - i}" for i in range(30))
+    data.write_text("product,price,volume\n" + rows + "\n")
+    out = tmp_path / "odd.json"
+    assert run_cli("fit", str(data), "-o", str(out), "--quiet").returncode == 0
+    done = run_cli("show", str(out))
+    assert "\x1b" not in done.stdout and "bad?[2Jname" in done.stdout

@@ -1,0 +1,164 @@
+"""Flags: each built series raises its flag and nothing else; sentences quote the right numbers.
+
+The series here are constructed to trigger one flag each (the flags and their
+thresholds are pricefold's own rules); the numbers quoted are checked against
+values recomputed independently from the data or the fitted curve.
+"""
+from __future__ import annotations
+
+import re
+
+import numpy as np
+import pytest
+
+import fitcore
+from fitcore.diagnostics import CODES, diagnose
+from fitcore.errors import SettingsError
+from fitcore.thresholds import Thresholds
+
+P = np.linspace(2, 4, 60)
+
+
+def wiggle(n, amp=1.0):
+    """Deterministic, balanced stand-in for noise (±2% × amp)."""
+    return 1 + amp * 0.02 * np.sin(np.arange(n) * 2.3)
+
+
+def run(price, volume, plan=None, thresholds=Thresholds()):
+    n = len(price)
+    data = fitcore.from_columns({"product": np.array(["x"] * n, dtype=object)}, np.asarray(price, float),
+                                np.asarray(volume, float))
+    results = fitcore.fit_batch(data, plan_price=plan)
+    diagnosis = diagnose(results, thresholds)
+    flags = diagnosis.flags_of(0)
+    return results, {f["code"]: f["message"] for f in flags}
+
+
+def number_after(text, prefix):
+    match = re.search(re.escape(prefix) + r"\s*([+−-]?[\d,]*\.?\d+)", text)
+    return float(match.group(1).replace(",", "").replace("−", "-"))
+
+
+def test_a_clean_series_raises_nothing():
+    _, flags = run(P, (1000 - 150 * P) * wiggle(60), 3.0)
+    assert flags == {}
+
+
+def test_few_points():
+    p = np.linspace(2, 4, 10)
+    _, flags = run(p, (1000 - 150 * p) * wiggle(10), 3.0)
+    assert set(flags) == {"few-points"}
+    assert "Only 10 observations" in flags["few-points"] and "at least 12" in flags["few-points"]
+    _, relaxed = run(p, (1000 - 150 * p) * wiggle(10), 3.0, Thresholds(min_points=8))
+    assert relaxed == {}
+
+
+def test_flat_price_two_distinct_prices():
+    p = np.where(np.arange(40) % 2 == 0, 2.0, 3.0)
+    _, flags = run(p, (1000 - 150 * p) * wiggle(40), 2.5)
+    assert set(flags) == {"flat-price"}
+    assert "Only 2 distinct prices (2.00 and 3.00)" in flags["flat-price"]
+
+
+def test_flat_price_small_variation():
+    p = 3 + 0.01 * np.sin(np.arange(40))
+    _, flags = run(p, (1000 - 150 * p) * wiggle(40, 0.02), 3.0)
+    assert set(flags) == {"flat-price"}
+    cv = np.std(p) / np.mean(p)
+    assert f"Price varied by only {cv * 100:.0f}%" in flags["flat-price"]
+
+
+def test_rising():
+    results, flags = run(P, (200 + 100 * P) * wiggle(60), 3.0)
+    assert set(flags) == {"rising"}
+    assert "over 100% of the observed range" in flags["rising"]
+    slope = results.power_coef(0, results.chosen[0])[1]
+    assert number_after(flags["rising"], "slope up to") == pytest.approx(slope, rel=1e-3)
+
+
+def test_below_zero_inside_the_range():
+    p = np.linspace(1, 3, 50)
+    v = np.maximum(0, 1000 - 350 * p) + 5 * (1 + np.sin(np.arange(50)))
+    results, flags = run(p, v, 2.0)
+    assert set(flags) == {"below-zero"}
+    grid = np.linspace(1, 3, 101)
+    curve = np.polynomial.polynomial.polyval(grid, results.power_coef(0, results.chosen[0]))
+    assert number_after(flags["below-zero"], "negative volume:") == pytest.approx(curve.min(), rel=1e-3)
+
+
+def test_outside_range():
+    _, flags = run(P, (1000 - 150 * P) * wiggle(60), 5.0)
+    assert set(flags) == {"outside-range"}
+    assert ("Plan price 5.00 is 1.00 (50% of the observed range) above the highest price observed (4.00)"
+            in flags["outside-range"])
+
+
+def test_near_tie():
+    p = np.r_[np.linspace(2, 2.2, 30), np.linspace(3.8, 4, 30)]
+    results, flags = run(p, 1000 * p ** -2 * wiggle(60, 8), 3.0)
+    assert set(flags) == {"near-tie"}
+    rival = flags["near-tie"].split()[0]
+    c, r = results.chosen[0], results.names.index(rival)
+    assert results.cv_mse[0, r] <= results.cv_mse[0, c] + results.cv_se[0, c]
+    change = abs(results.plan_volume[0, r] / results.plan_volume[0, c] - 1)
+    assert change > 0.10 and f"predicts {change * 100:.0f}%" in flags["near-tie"]
+
+
+def test_unsteady_folds():
+    v = (1000 - 150 * P) * wiggle(60)
+    v[31] += 200
+    results, flags = run(P, v, 3.0)
+    assert set(flags) == {"unsteady-folds"}
+    errors = results.folds_of(0)[:, results.chosen[0]]
+    ratio = errors.max() / np.median(errors)
+    assert f"has {ratio:.1f}× the median held-out error" in flags["unsteady-folds"]
+
+
+def test_weak_fit():
+    v = (1000 - 10 * P) * (wiggle(60, 2.5) + 0.03 * np.cos(np.arange(60) * 1.1))
+    results, flags = run(P, v)
+    assert set(flags) == {"weak-fit"}
+    assert f"(Q²) is {results.score[0] * 100:.0f}%" in flags["weak-fit"]
+
+
+def test_influential_point_names_its_line_and_values():
+    p = np.r_[np.linspace(2, 4, 59), 5.0]
+    v = (1000 - 150 * p) * np.r_[wiggle(59), 1.0]
+    v[-1] = 400
+    results, flags = run(p, v, 3.0)
+    assert set(flags) == {"influential-point"}
+    # Row 60 of the data is line 61 of its file (the header is line 1).
+    assert "line 61 (price 5.00, volume 400)" in flags["influential-point"]
+    assert number_after(flags["influential-point"], "Cook's distance") == pytest.approx(results.cook[-1], abs=0.005)
+
+
+def test_attention_puts_stop_flags_first_then_warnings_then_low_scores():
+    parts = [
+        ("clean", P, (1000 - 150 * P) * wiggle(60)),
+        ("rising", P, (200 + 100 * P) * wiggle(60)),
+        ("weak", P, (1000 - 10 * P) * (wiggle(60, 2.5) + 0.03 * np.cos(np.arange(60) * 1.1))),
+        ("clean-noisier", P, (1000 - 150 * P) * wiggle(60, 4)),
+    ]
+    keys = np.concatenate([[name] * len(p) for name, p, _ in parts]).astype(object)
+    data = fitcore.from_columns({"product": keys}, np.concatenate([p for _, p, _ in parts]),
+                                np.concatenate([v for _, _, v in parts]))
+    diagnosis = diagnose(fitcore.fit_batch(data))
+    order = [data.keys["product"][s] for s in diagnosis.attention_order()]
+    assert order == ["rising", "weak", "clean-noisier", "clean"]
+
+
+def test_every_flag_has_a_sentence_and_a_severity():
+    from fitcore.flag_sentences import SENTENCES
+    from fitcore.diagnostics import SEVERITY
+    assert set(SENTENCES) == set(CODES) == set(SEVERITY)
+    assert set(SEVERITY.values()) == {"stop", "warn"}
+
+
+@pytest.mark.parametrize("pairs, message", [
+    ({"min_pointz": "3"}, "unknown threshold 'min_pointz'; expected one of min_points"),
+    ({"min_points": "many"}, "expected a whole number for threshold min_points, got 'many'"),
+    ({"unsteady_ratio": "0.5"}, "threshold unsteady_ratio is out of range: got 0.5"),
+])
+def test_threshold_overrides_are_checked(pairs, message):
+    with pytest.raises(SettingsError, match=re.escape(message)):
+        Thresholds().with_overrides(pairs)
