@@ -18,9 +18,9 @@ from .errors import SettingsError
 from .folds import FoldLayout, layout
 from .influence import cook_distance
 from .loglog import fit_loglog
-from .loo import loo_residuals
+from .loo import leverages, loo_residuals
 from .polyfit import fit_family, horner
-from .prediction import best_revenue_loglog, best_revenue_poly, loglog_at, poly_at
+from .prediction import best_revenue_loglog, best_revenue_poly, loglog_at, mapped, poly_at
 from .results import Results
 from .segments import segment_sums
 from .selection import choose
@@ -43,14 +43,35 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
     plan = np.full(n_series, np.nan) if plan_price is None else np.broadcast_to(
         np.asarray(plan_price, dtype=np.float64), (n_series,)).copy()
     cands = candidates_for(settings)
-    parts = []
+    merged = None
     cuts = _chunk_cuts(data.offsets)
+    fold_rows = data.counts if settings.folds == "loo" else np.full(n_series, int(settings.folds))
+    fold_start = np.concatenate(([0], np.cumsum(fold_rows))).astype(np.int64)
     for lo, hi in zip(cuts[:-1], cuts[1:]):
-        parts.append(_fit_chunk(data, lo, hi, settings, cands, plan[lo:hi]))
+        part = _fit_chunk(data, lo, hi, settings, cands, plan[lo:hi])
+        if merged is None:  # one allocation per output, filled chunk by chunk
+            merged = {name: np.empty((_total(name, n_series, data.n_rows, int(fold_start[-1])),) + value.shape[1:],
+                                     dtype=value.dtype) for name, value in part.items()}
+        for name, value in part.items():
+            merged[name][_span(name, lo, hi, data.offsets, fold_start)] = value
         if progress is not None:
             progress(hi, n_series)
-    merged = {name: np.concatenate([part[name] for part in parts]) for name in parts[0]} if parts else None
     return Results.build(data, settings, cands, plan, merged)
+
+
+ROW_FIELDS = ("cook", "leverage")
+
+
+def _total(name: str, n_series: int, n_rows: int, n_folds: int) -> int:
+    return n_rows if name in ROW_FIELDS else n_folds if name == "fold_err" else n_series
+
+
+def _span(name: str, lo: int, hi: int, offsets: np.ndarray, fold_start: np.ndarray) -> slice:
+    if name in ROW_FIELDS:
+        return slice(int(offsets[lo]), int(offsets[hi]))
+    if name == "fold_err":
+        return slice(int(fold_start[lo]), int(fold_start[hi]))
+    return slice(lo, hi)
 
 
 def _chunk_cuts(offsets: np.ndarray) -> list[int]:
@@ -178,17 +199,20 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
     plan_cols = [np.full((n_s, n_c), nan) for _ in range(4)]
     if ll is not None:
         sigma2[:, -1] = ll.log.sse_full[0] / np.maximum(df[:, -1], 1)
-    planned = np.flatnonzero(np.isfinite(plan))
-    if len(planned):
-        at = planned
+    at = np.flatnonzero(np.isfinite(plan))
+    if len(at):
+        with np.errstate(divide="ignore", invalid="ignore"):
+            lev = leverages(mapped(plan[at], mid[at], half[at]), poly.lower[..., at], poly.scale[:, at])
+            if ll is not None:
+                log_lev = leverages(mapped(np.log(plan[at]), log_mid[at], log_half[at]),
+                                    ll.log.lower[..., at], ll.log.scale[:, at])[1]
         for j, cand in enumerate(cands):
             if cand.family == "poly":
-                values = poly_at(coef[at, j].T, mid[at], half[at], poly.lower[..., at], poly.scale[:, at],
-                                 cand.degree + 1, sigma2[at, j], df[at, j], plan[at], settings.level)
+                values = poly_at(coef[at, j].T, mid[at], half[at], lev[cand.degree], sigma2[at, j], df[at, j],
+                                 plan[at], settings.level)
             else:
-                values = loglog_at(coef[at, j, :2].T, log_mid[at], log_half[at], ll.log.lower[..., at],
-                                   ll.log.scale[:, at], ll.smear[at], sigma2[at, j], df[at, j], plan[at],
-                                   settings.level)
+                values = loglog_at(coef[at, j, :2].T, log_mid[at], log_half[at], log_lev, ll.smear[at],
+                                   sigma2[at, j], df[at, j], plan[at], settings.level)
             for column, value in zip(plan_cols, values):
                 column[at, j] = np.where(available[at, j], value, nan)
 

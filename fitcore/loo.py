@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import numpy as np
 
-from .linalg import forward_solve
 from .polyfit import FamilyFit, horner
 
 # hᵢᵢ this close to 1 means row i alone pins down a coefficient: its
@@ -17,13 +16,23 @@ from .polyfit import FamilyFit, horner
 LEVERAGE_LIMIT = 1 - 1e-8
 
 
-def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray) -> np.ndarray:
+def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray, series: np.ndarray | None = None) -> np.ndarray:
     """(P, N) xᵀ(XᵀWX)⁻¹x of the leading 1, 2, …, P coefficients at points ``x`` (N,).
 
-    ``lower`` (P, P, N) and ``scale`` (P, N): each point's series' scaled Cholesky factor.
+    ``lower`` (P, P, S) and ``scale`` (P, S): scaled Cholesky factors; point i
+    belongs to series ``series[i]`` (default: point i to series i).  Entries are
+    gathered one at a time, so no (P, P, N) copy is made.
     """
-    basis = x[None, :] ** np.arange(lower.shape[0])[:, None] * scale
-    v = forward_solve(lower, basis)
+    p = lower.shape[0]
+    pick = (lambda a: a) if series is None else (lambda a: a[series])
+    v = np.empty((p, len(x)))
+    power = np.ones_like(x)
+    for i in range(p):
+        acc = power * pick(scale[i])
+        for j in range(i):
+            acc -= pick(lower[i, j]) * v[j]
+        v[i] = acc / pick(lower[i, i])
+        power = power * x
     return np.cumsum(v * v, axis=0)
 
 
@@ -33,7 +42,7 @@ def loo_residuals(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, series: np
 
     ``series``: (N,) the chunk-local series of each row.
     """
-    h_all = leverages(x, fit.lower[:, :, series], fit.scale[:, series])
+    h_all = leverages(x, fit.lower, fit.scale, series)
     if w is not None:
         h_all = h_all * w
     resid = np.empty((len(fit.degrees), len(x)))

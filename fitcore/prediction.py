@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import numpy as np
 
-from .loo import leverages
 from .polyfit import horner
 
 
@@ -17,7 +16,10 @@ def t_quantile(level: float, df: np.ndarray) -> np.ndarray:
     """Student-t quantile at (1 + level)/2 for each df (computed once per distinct df)."""
     from scipy.special import stdtrit  # imported on first use: scipy costs 0.2 s to import
 
-    distinct, index = np.unique(np.maximum(df, 1), return_inverse=True)
+    df = np.maximum(np.asarray(df), 1)
+    if df.size and df.max() <= 4096:  # a lookup table beats sorting for the usual sizes
+        return stdtrit(np.arange(1, df.max() + 1), 1 - (1 - level) / 2)[df - 1]
+    distinct, index = np.unique(df, return_inverse=True)
     return stdtrit(distinct, 1 - (1 - level) / 2)[index.reshape(np.shape(df))]
 
 
@@ -27,26 +29,33 @@ def derivative(coef: np.ndarray) -> np.ndarray:
     return np.concatenate([coef[1:] * k, np.zeros((1,) + coef.shape[1:])])
 
 
-def poly_at(coef, mid, half, lower, scale, size, sigma2, df, price, level):
-    """Volume, interval bounds and elasticity of polynomial curves at ``price`` (each (S,))."""
+def mapped(price, mid, half):
+    return (price - mid) / np.where(half > 0, half, 1.0)
+
+
+def poly_at(coef, mid, half, leverage, sigma2, df, price, level):
+    """Volume, interval bounds and elasticity of polynomial curves at ``price`` (each (S,)).
+
+    ``leverage``: (S,) xᵀ(XᵀWX)⁻¹x at the price for this degree (``loo.leverages``).
+    """
     width = np.where(half > 0, half, 1.0)
     t = (price - mid) / width
     volume = horner(coef, t)
     with np.errstate(invalid="ignore"):
-        spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverages(t, lower, scale)[size - 1]))
+        spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverage))
     slope = horner(derivative(coef), t) / width
     with np.errstate(divide="ignore", invalid="ignore"):
         elasticity = slope * price / volume
     return volume, volume - spread, volume + spread, elasticity
 
 
-def loglog_at(coef, mid, half, lower, scale, smear, sigma2, df, price, level):
+def loglog_at(coef, mid, half, leverage, smear, sigma2, df, price, level):
     """The same for log-log curves; ``coef`` (2, S) in mapped ln price, ln volume not centred."""
     width = np.where(half > 0, half, 1.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         u = (np.log(price) - mid) / width
         log_volume = coef[0] + coef[1] * u
-        spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverages(u, lower, scale)[1]))
+        spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverage))
         return (np.exp(log_volume) * smear, np.exp(log_volume - spread), np.exp(log_volume + spread),
                 coef[1] / width)
 

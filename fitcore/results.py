@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -81,15 +82,17 @@ class Results:
     def n_series(self) -> int:
         return self.data.n_series
 
-    @property
+    @cached_property
     def names(self) -> list[str]:
         return [c.name for c in self.candidates]
 
-    @property
+    @cached_property
     def score(self) -> np.ndarray:
         """(S,) Q² of the chosen candidate (NaN where none was chosen)."""
         picked = np.take_along_axis(self.q2, np.maximum(self.chosen, 0)[:, None], axis=1)[:, 0]
-        return np.where(self.chosen >= 0, picked, np.nan)
+        score = np.where(self.chosen >= 0, picked, np.nan)
+        score.flags.writeable = False
+        return score
 
     def power_coef(self, s: int, c: int) -> list[float]:
         """Coefficients in plain units: poly Σ cᵢ·priceⁱ; loglog [a, e] of ln volume = a + e·ln price."""
