@@ -68,6 +68,14 @@ class Diagnosis:
                 for i, code in enumerate(CODES) if self.raised[s, i]]
 
 
+def mark_stale(diagnosis: Diagnosis, stale: np.ndarray) -> Diagnosis:
+    """A copy of ``diagnosis`` with the ``stale`` flag raised where ``stale`` (S,) is True (from the ledger)."""
+    raised = diagnosis.raised.copy()
+    raised[:, CODES.index("stale")] = stale
+    raised.flags.writeable = False
+    return Diagnosis(diagnosis.results, diagnosis.thresholds, raised, diagnosis.numbers)
+
+
 def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnosis:
     """Raise every flag that applies to every series of ``results``."""
     data = results.data

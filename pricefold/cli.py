@@ -43,6 +43,9 @@ def build_parser() -> argparse.ArgumentParser:
     show.add_argument("--key", action="append", default=[], metavar="COL=VALUE",
                       help="only series whose key column COL is VALUE, e.g. region=North (repeatable)")
     show.add_argument("--flag", metavar="CODE", help="only series carrying this flag")
+
+    from .ledger_cli import add_parser as add_ledger_parser
+    add_ledger_parser(commands)
     return parser
 
 
@@ -147,7 +150,12 @@ def run_show(args) -> int:
     return 0
 
 
-COMMANDS = {"fit": run_fit, "show": run_show}
+def run_ledger(args) -> int:
+    from .ledger_cli import run
+    return run(args)
+
+
+COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger}
 
 
 def main(argv: list[str] | None = None) -> int:
