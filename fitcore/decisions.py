@@ -36,7 +36,11 @@ class SeriesHistory:
 def replay(records: list[dict]) -> dict[str, SeriesHistory]:
     """series id → history.  The latest standing decision wins; ``revoke`` withdraws the
     revoking analyst's own latest standing decision on that series; ``note`` changes nothing."""
-    histories: dict[str, SeriesHistory] = {}
+    return apply({}, records)
+
+
+def apply(histories: dict[str, SeriesHistory], records: list[dict]) -> dict[str, SeriesHistory]:
+    """Replay further ``records`` onto ``histories`` (in place); returns it."""
     for record in records:
         history = histories.setdefault(series_id(record["series"]), SeriesHistory())
         history.records.append(record)

@@ -37,6 +37,15 @@ class Columns:
     def keys(self) -> tuple[str, ...]:
         return (self.product, *self.segments)
 
+    def as_dict(self) -> dict:
+        return {"product": self.product, "segments": list(self.segments), "price": self.price,
+                "volume": self.volume, "date": self.date, "weight": self.weight}
+
+    @classmethod
+    def from_dict(cls, values: dict) -> "Columns":
+        return cls(product=values["product"], segments=tuple(values.get("segments", ())), price=values["price"],
+                   volume=values["volume"], date=values.get("date"), weight=values.get("weight"))
+
     @property
     def needed(self) -> list[str]:
         extra = [c for c in (self.date, self.weight) if c]
@@ -132,7 +141,7 @@ def load(path: str | Path, columns: Columns = Columns(), *, sep: str | None = No
     volume = _number_column(table, columns.volume, path)
     weight = _number_column(table, columns.weight, path) if columns.weight else None
     date = _date_column(table, columns.date, path) if columns.date else None
-    source = {"path": str(path), "sha256": file_sha256(path), "rows": table.num_rows, "rejected": 0}
+    source = {"path": str(path.resolve()), "sha256": file_sha256(path), "rows": table.num_rows, "rejected": 0}
     return from_columns(keys, price, volume, weight=weight, date=date, source=source)
 
 

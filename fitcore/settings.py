@@ -57,6 +57,20 @@ class FitSettings:
         return out | dict(self.extra)
 
 
+def provenance(columns: dict, plan_file: str | None, plan_price: float | None) -> dict:
+    """What a results file records beyond the fit settings, so the same fit can be made again."""
+    plan = {"file": plan_file} if plan_file else {"price": plan_price} if plan_price is not None else None
+    return {"columns": columns, "plan": plan}
+
+
+def settings_from_dict(values: dict) -> FitSettings:
+    """The ``FitSettings`` recorded in a results file (extra entries kept in ``extra``)."""
+    known = {"degrees", "loglog", "folds", "fold_order", "seed", "rule", "level"}
+    return FitSettings(degrees=tuple(values["degrees"]), loglog=values["loglog"], folds=values["folds"],
+                       fold_order=values["fold_order"], seed=values["seed"], rule=values["rule"],
+                       level=values["level"], extra={k: v for k, v in values.items() if k not in known})
+
+
 def parse_degrees(text: str) -> tuple[int, ...]:
     """``"0-5"`` → (0, …, 5); ``"1,3"`` → (1, 3)."""
     try:

@@ -44,9 +44,34 @@ def build_parser() -> argparse.ArgumentParser:
                       help="only series whose key column COL is VALUE, e.g. region=North (repeatable)")
     show.add_argument("--flag", metavar="CODE", help="only series carrying this flag")
 
+    triage = commands.add_parser("triage", help="the keyboard-driven triage screen",
+                                 description="Work through the series that need a human and sign off decisions. "
+                                             "Given a data file, it fits first; given a results file, it refits "
+                                             "the data that file names, the same way.", epilog=CAUTION)
+    triage.add_argument("source", type=Path, metavar="RESULTS_OR_DATA")
+    add_session_options(triage)
+    add_column_options(triage)
+    add_fit_options(triage)
+    triage.add_argument("--threshold", action="append", default=[], metavar="NAME=VALUE",
+                        help="override a flag threshold (repeatable)")
+
+    demo = commands.add_parser("demo", help="the whole job on the bundled invented sample, ending in triage",
+                               description="Fit the bundled sample scenario (an invented wholesaler), write "
+                                           "results and a ledger under DIR, and open the triage screen.",
+                               epilog=CAUTION)
+    demo.add_argument("--dir", type=Path, default=Path("pricefold-demo"), metavar="DIR",
+                      help="where to write results.json and ledger.jsonl (default: ./pricefold-demo)")
+    demo.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
+
     from .ledger_cli import add_parser as add_ledger_parser
     add_ledger_parser(commands)
     return parser
+
+
+def add_session_options(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--ledger", type=Path, default=None, metavar="FILE",
+                        help="the sign-off ledger (default: <results or data name>.ledger.jsonl beside it)")
+    parser.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
 
 
 def add_column_options(parser: argparse.ArgumentParser) -> None:
@@ -77,10 +102,17 @@ def add_fit_options(parser: argparse.ArgumentParser) -> None:
                       help="plan prices per series: the key columns and plan_price")
 
 
+def columns_from(args):
+    from fitcore.loader import Columns
+    return Columns(product=args.product, segments=tuple(args.segment), price=args.price, volume=args.volume,
+                   date=args.date)
+
+
 def settings_from(args):
-    from fitcore.settings import FitSettings, parse_degrees, parse_folds
+    from fitcore.settings import FitSettings, parse_degrees, parse_folds, provenance
+    extra = provenance(columns_from(args).as_dict(), str(args.plan.resolve()) if args.plan else None, args.plan_price)
     return FitSettings(degrees=parse_degrees(args.degrees), loglog=args.loglog, folds=parse_folds(args.folds),
-                       fold_order=args.fold_order, seed=args.seed, rule=args.rule)
+                       fold_order=args.fold_order, seed=args.seed, rule=args.rule, extra=extra)
 
 
 def run_fit(args) -> int:
@@ -88,7 +120,7 @@ def run_fit(args) -> int:
     from fitcore.diagnostics import diagnose
     from fitcore.errors import SettingsError
     from fitcore.thresholds import Thresholds, parse_threshold_options
-    from fitcore.loader import Columns, load
+    from fitcore.loader import load
     from fitcore.plan import plan_prices
     from fitcore.results_io import write_results
 
@@ -101,9 +133,7 @@ def run_fit(args) -> int:
     if args.plan_price is not None and not args.plan_price > 0:
         raise SettingsError(f"expected --plan-price above zero, got {args.plan_price}")
     started = time.perf_counter()
-    columns = Columns(product=args.product, segments=tuple(args.segment), price=args.price,
-                      volume=args.volume, date=args.date)
-    data = load(args.data, columns, sep=args.sep)
+    data = load(args.data, columns_from(args), sep=args.sep)
     plan = plan_prices(data, args.plan, args.sep) if args.plan else args.plan_price
     bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
     try:
@@ -150,12 +180,74 @@ def run_show(args) -> int:
     return 0
 
 
+def is_results(path: Path) -> bool:
+    if path.suffix.lower() == ".json":
+        return True
+    if path.suffix.lower() in (".parquet", ".pq") and path.is_file():
+        import pyarrow.parquet as pq
+        try:
+            return b"pricefold" in (pq.read_schema(path).metadata or {})
+        except Exception:  # not a readable Parquet file: the loader will say so
+            return False
+    return False
+
+
+def run_triage(args) -> int:
+    from fitcore.thresholds import Thresholds, parse_threshold_options
+    from tui.factory import Source, default_ledger, source_from_results
+
+    if is_results(args.source):
+        source = source_from_results(args.source)
+    else:
+        if not args.source.exists():
+            from fitcore.errors import DataError
+            raise DataError("file not found", path=str(args.source))
+        source = Source(data=args.source, columns=columns_from(args), settings=settings_from(args),
+                        plan_file=args.plan, plan_price=args.plan_price,
+                        thresholds=Thresholds().with_overrides(parse_threshold_options(args.threshold)))
+    return open_triage(source, args.ledger or default_ledger(args.source), args.analyst)
+
+
+def open_triage(source, ledger_path: Path, analyst: str | None) -> int:
+    from tui.app import TriageApp
+    from tui.factory import open_session
+
+    from .ledger_cli import identity, ledger_key
+    who, key = identity(analyst), ledger_key()
+    app = TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
+    app.run()
+    print(f"decisions are in {ledger_path}", file=sys.stderr)
+    return app.return_code or 0
+
+
+def run_demo(args) -> int:
+    from fitcore import fit_batch
+    from fitcore.diagnostics import diagnose
+    from fitcore.results_io import write_results
+    from fitcore.settings import FitSettings, provenance
+    from tui.factory import sample_source, source_from_results
+
+    from fitcore.loader import load
+    from fitcore.plan import plan_prices
+
+    sample = sample_source()
+    folder = args.dir
+    folder.mkdir(parents=True, exist_ok=True)
+    data = load(sample.data, sample.columns)
+    settings = FitSettings(extra=provenance(sample.columns.as_dict(), str(sample.plan_file), None))
+    results = fit_batch(data, settings, plan_price=plan_prices(data, sample.plan_file))
+    results_path = folder / "results.json"
+    write_results(results, results_path, diagnose(results))
+    print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
+    return open_triage(source_from_results(results_path), folder / "ledger.jsonl", args.analyst)
+
+
 def run_ledger(args) -> int:
     from .ledger_cli import run
     return run(args)
 
 
-COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger}
+COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger, "triage": run_triage, "demo": run_demo}
 
 
 def main(argv: list[str] | None = None) -> int:

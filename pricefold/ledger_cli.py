@@ -15,7 +15,7 @@ from fitcore.decisions import replay, series_id
 from fitcore.errors import DataError
 from fitcore.results_read import read_results
 
-from .text import clean
+from fitcore.text import clean
 
 KEY_VARIABLE = "PRICEFOLD_LEDGER_KEY"
 

@@ -5,7 +5,7 @@ import math
 
 from fitcore.flag_sentences import fmt, money
 
-from .text import clean
+from fitcore.text import clean
 
 SEVERITY_ORDER = {"stop": 0, "warn": 1}
 

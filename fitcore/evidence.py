@@ -1,0 +1,70 @@
+"""Curves and prediction bands of one series over a grid of prices, for charts.
+
+Refits only the series being looked at (a QR factorisation of its own small
+design matrix), so nothing beyond ``Results`` needs to be kept per series.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from .prediction import t_quantile
+from .polyfit import horner
+from .results import Results
+
+
+def series_rows(results: Results, s: int) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    data = results.data
+    rows = slice(data.offsets[s], data.offsets[s + 1])
+    return data.price[rows], data.volume[rows], None if data.weight is None else data.weight[rows]
+
+
+def _mapped(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
+    if results.candidates[c].family == "poly":
+        half = results.half[s] if results.half[s] > 0 else 1.0
+        return (prices - results.mid[s]) / half
+    half = results.log_half[s] if results.log_half[s] > 0 else 1.0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return (np.log(prices) - results.log_mid[s]) / half
+
+
+def curve(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
+    """Volume of candidate ``c`` of series ``s`` at ``prices`` (point prediction)."""
+    cand = results.candidates[c]
+    x = _mapped(results, s, c, np.asarray(prices, dtype=float))
+    if cand.family == "poly":
+        return horner(results.coef[s, c, :cand.degree + 1][:, None], x)
+    a, e = results.coef[s, c, :2]
+    return np.exp(a + e * x) * results.smear[s]
+
+
+def band(results: Results, s: int, c: int, prices: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Lower and upper prediction-interval bounds (``results.settings.level``) at ``prices``."""
+    from scipy.linalg import solve_triangular
+
+    cand = results.candidates[c]
+    size = cand.complexity
+    price, volume, weight = series_rows(results, s)
+    x_rows = _mapped(results, s, c, price)
+    x_grid = _mapped(results, s, c, np.asarray(prices, dtype=float))
+    root_w = np.ones_like(x_rows) if weight is None else np.sqrt(weight)
+    design = np.vander(x_rows, size, increasing=True) * root_w[:, None]
+    r = np.linalg.qr(design, mode="r")
+    z = solve_triangular(r, np.vander(x_grid, size, increasing=True).T, trans="T")
+    leverage = np.sum(z * z, axis=0)
+    spread = t_quantile(results.settings.level, np.array([results.df[s, c]]))[0] * np.sqrt(
+        results.sigma2[s, c] * (1 + leverage))
+    if cand.family == "poly":
+        centre = curve(results, s, c, prices)
+        return centre - spread, centre + spread
+    log_centre = results.coef[s, c, 0] + results.coef[s, c, 1] * x_grid
+    return np.exp(log_centre - spread), np.exp(log_centre + spread)
+
+
+def runner_up(results: Results, s: int) -> int:
+    """The available candidate with the lowest CV error other than the chosen one (-1 if none)."""
+    chosen = results.chosen[s]
+    errors = np.where(results.available[s], results.cv_mse[s], np.inf)
+    if chosen >= 0:
+        errors[chosen] = np.inf
+    best = int(np.argmin(errors))
+    return best if np.isfinite(errors[best]) else -1

@@ -1,0 +1,34 @@
+"""Drive the real triage app on the bundled sample (or a small hostile data set)."""
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from fitcore.ledger import Identity
+from tui.app import TriageApp
+from tui.factory import Source, open_session, sample_source
+
+ANA = Identity("ana", "ana", "test-host")
+
+
+def screen_text(app) -> str:
+    """What the terminal shows now, as plain text (one line per row)."""
+    return "\n".join(strip.text for strip in app.screen._compositor.render_strips())
+
+
+def make_app(ledger_path: Path, source: Source | None = None, who: Identity = ANA) -> TriageApp:
+    source = source or sample_source()
+    return TriageApp(lambda progress: open_session(source, ledger_path, who, None, progress))
+
+
+async def started(app, pilot):
+    await app.workers.wait_for_complete()
+    await pilot.pause()
+    await pilot.pause()
+    return app.session
+
+
+@pytest.fixture
+def ledger_path(tmp_path):
+    return tmp_path / "ledger.jsonl"

@@ -1,0 +1,71 @@
+"""Names from users' files appear literally; failures reach the analyst as a dialog, not a crash."""
+from __future__ import annotations
+
+import csv
+
+import numpy as np
+
+from fitcore.errors import DataError
+from fitcore.loader import Columns
+from tests.tui.conftest import make_app, screen_text, started
+from tui.app import TriageApp
+from tui.factory import Source
+
+HOSTILE = ["[/]", "[bold]x", "\x1b[2Jwipe", "L" * 500, "מוצר ירוק", "[@click=app.quit]y"]
+
+
+def hostile_source(tmp_path) -> Source:
+    path = tmp_path / "hostile.csv"
+    rng = np.random.default_rng(0)
+    with open(path, "w", newline="", encoding="utf-8") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(["product", "price", "volume"])
+        for name in HOSTILE:
+            for _ in range(30):
+                price = round(rng.uniform(1, 3), 2)
+                writer.writerow([name, price, round(500 - 100 * price + rng.normal(0, 5))])
+    return Source(data=path, columns=Columns())
+
+
+async def test_hostile_names_are_shown_literally(tmp_path):
+    app = make_app(tmp_path / "ledger.jsonl", hostile_source(tmp_path))
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        await pilot.press("f", "home", "down", "enter")  # all series
+        await pilot.pause()
+        text = screen_text(app)
+        assert "\x1b" not in text
+        for shown in ("[/]", "[bold]x", "?[2Jwipe", "LLLL…", "מוצר ירוק", "[@click=app.quit]y"):
+            assert shown in text, shown
+        for _ in range(len(HOSTILE)):  # the evidence title of each shows the name too
+            label = session.labels[session.current]
+            assert label[:60] in screen_text(app)
+            await pilot.press("down")
+            await pilot.pause()
+        await pilot.press("a")
+        await pilot.pause()
+        assert app.is_running  # nothing was interpreted as an action
+
+
+async def test_a_failed_open_is_a_dialog_and_a_clean_exit(tmp_path):
+    def opener(progress):
+        raise DataError("expected a column 'price', found 'prcie'", path="data.csv", line=1)
+    app = TriageApp(opener)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        text = screen_text(app)
+        assert "Could not open the triage" in text and "data.csv, line 1" in text
+        await pilot.press("enter")
+        await pilot.pause()
+    assert app.return_code == 2
+
+
+async def test_an_unexpected_failure_also_becomes_a_dialog(tmp_path):
+    def opener(progress):
+        raise RuntimeError("disk on fire")
+    app = TriageApp(opener)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        assert "RuntimeError: disk on fire" in screen_text(app)

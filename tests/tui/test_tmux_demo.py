@@ -1,0 +1,51 @@
+"""The installed ``pricefold demo`` in a real terminal (tmux): keys in, screen and ledger out."""
+from __future__ import annotations
+
+import json
+import shutil
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+TMUX = shutil.which("tmux")
+pytestmark = pytest.mark.skipif(TMUX is None, reason="tmux is not installed (.ci/run installs it)")
+
+
+def wait_for(read, check, seconds=20.0):
+    deadline = time.monotonic() + seconds
+    while time.monotonic() < deadline:
+        value = read()
+        if check(value):
+            return value
+        time.sleep(0.05)
+    raise AssertionError(f"timed out; last seen:\n{value}")
+
+
+def test_demo_in_tmux_records_an_accept(tmp_path):
+    command = Path(sys.executable).parent / "pricefold"
+    socket = tmp_path / "tmux.sock"
+    folder = tmp_path / "demo"
+    tmux = [TMUX, "-S", str(socket), "-f", "/dev/null"]
+    shell = f"TERM=xterm-256color {command} demo --dir {folder} --analyst tmuxer; echo EXITED rc=$?; sleep 30"
+    subprocess.run([*tmux, "new-session", "-d", "-x", "80", "-y", "24", shell], check=True)
+    try:
+        def screen():
+            return subprocess.run([*tmux, "capture-pane", "-p"], capture_output=True, text=True).stdout
+
+        first = wait_for(screen, lambda text: "listed (needs attention" in text and "a accept" in text)
+        assert "table salt 1 kg · South" in first
+        subprocess.run([*tmux, "send-keys", "a"], check=True)
+        ledger = folder / "ledger.jsonl"
+        wait_for(lambda: ledger.read_text() if ledger.exists() else "", lambda text: text.count("\n") == 1)
+        after = wait_for(screen, lambda text: "accept recorded" in text or "listed" in text)
+        assert "listed" in after
+        subprocess.run([*tmux, "send-keys", "q"], check=True)
+        wait_for(screen, lambda text: "EXITED rc=0" in text)
+        [record] = [json.loads(line) for line in ledger.read_text().splitlines()]
+        assert record["action"] == "accept" and record["analyst"] == "tmuxer"
+        assert (folder / "results.json").exists()
+    finally:
+        subprocess.run([*tmux, "kill-server"], capture_output=True)

@@ -1,0 +1,31 @@
+"""Messages the whole app hears, named for what happened."""
+from __future__ import annotations
+
+from textual.message import Message
+
+
+class FitProgressed(Message):
+    """Series fitted so far; frequent, so a newer one replaces an unprocessed older one."""
+
+    def __init__(self, done: int, total: int) -> None:
+        super().__init__()
+        self.done, self.total = done, total
+
+    def can_replace(self, message: Message) -> bool:
+        return isinstance(message, FitProgressed)
+
+
+class SessionReady(Message):
+    """Results are fitted and diagnosed and the ledger is read: triage can start."""
+
+    def __init__(self, session) -> None:
+        super().__init__()
+        self.session = session
+
+
+class LoadFailed(Message):
+    """Opening the data, results or ledger failed; ``reason`` is one line for the analyst."""
+
+    def __init__(self, reason: str) -> None:
+        super().__init__()
+        self.reason = reason

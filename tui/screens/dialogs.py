@@ -1,0 +1,86 @@
+"""Small modal dialogs: pick a candidate and write a note, type text, choose one of a few options, help, errors."""
+from __future__ import annotations
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical, VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Input, OptionList, Static
+from textual.widgets.option_list import Option
+
+from ..text import literal
+
+
+class TextDialog(ModalScreen[str | None]):
+    """One line of text; Enter returns it, Escape cancels.  ``required`` refuses an empty answer."""
+
+    BINDINGS = [Binding("escape", "cancel", "cancel")]
+
+    def __init__(self, title: str, placeholder: str = "", required: bool = False, value: str = "") -> None:
+        super().__init__()
+        self.title_text, self.placeholder, self.required, self.value = title, placeholder, required, value
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog"):
+            yield Static(literal(self.title_text, "bold"), markup=False)
+            yield Input(value=self.value, placeholder=self.placeholder, id="dialog-input")
+            yield Static(Text("Enter to confirm · Esc to cancel", style="dim"), id="dialog-hint", markup=False)
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        if self.required and not event.value.strip():
+            self.query_one("#dialog-hint", Static).update(Text("A note is required here.", style="bold #ff875f"))
+            return
+        self.dismiss(event.value)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
+
+
+class ChoiceDialog(ModalScreen[str | None]):
+    """Pick one option by arrow keys and Enter; returns its id."""
+
+    BINDINGS = [Binding("escape", "cancel", "cancel")]
+
+    def __init__(self, title: str, options: list[tuple[str, str]], current: str | None = None) -> None:
+        super().__init__()
+        self.title_text, self.options, self.current = title, options, current
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog"):
+            yield Static(literal(self.title_text, "bold"), markup=False)
+            yield OptionList(*[Option(Text(label), id=key) for key, label in self.options], id="dialog-options")
+            yield Static(Text("↑↓ to move · Enter to choose · Esc to cancel", style="dim"), markup=False)
+
+    def on_mount(self) -> None:
+        options = self.query_one(OptionList)
+        keys = [key for key, _ in self.options]
+        if self.current in keys:
+            options.highlighted = keys.index(self.current)
+
+    def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
+        self.dismiss(event.option.id)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
+
+
+class MessageDialog(ModalScreen[None]):
+    """Text to read (help, an error); any of Enter, Escape or q closes it."""
+
+    BINDINGS = [Binding("escape,enter,q,question_mark", "close", "close")]
+
+    def __init__(self, body: Text, classes: str = "") -> None:
+        super().__init__(classes=classes)
+        self.body = body
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(classes="dialog wide", id="message-scroll"):
+            yield Static(self.body, markup=False, id="message-body")
+            yield Static(Text("↑↓ to scroll · Esc or Enter to close", style="dim"), markup=False)
+
+    def on_mount(self) -> None:
+        self.query_one("#message-scroll").focus()
+
+    def action_close(self) -> None:
+        self.dismiss(None)

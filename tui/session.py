@@ -1,0 +1,222 @@
+"""The triage session: what the screen shows and records, without any widget.
+
+Holds the fitted series (``Results`` + ``Diagnosis``), the ledger and its
+replayed statuses, and the list the analyst works through (a filtered,
+sorted view of series indices).  Every decision is appended to the ledger at
+once.  Pure Python and numpy, so it is tested without a terminal.
+"""
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from fitcore import ledger
+from fitcore.decisions import SeriesHistory, apply, own_standing, series_id
+from fitcore.diagnostics import CODES, SEVERITY, Diagnosis, mark_stale
+from fitcore.results import Results
+
+from .text import clean
+
+FILTERS = ("attention", "all", "pending", "decided")
+FILTER_TITLES = {"attention": "needs attention, pending", "all": "all series", "pending": "pending",
+                 "decided": "decided"}
+SORTS = ("attention", "key", "score", "n")
+SORT_TITLES = {"attention": "attention", "key": "key", "score": "lowest score", "n": "fewest observations"}
+STATUS_MARK = {"pending": "·", "accepted": "✓", "overridden": "↺", "held": "‖", "stale": "!"}
+
+
+@dataclass(frozen=True)
+class Recorded:
+    series: int
+    action: str
+
+
+class TriageSession:
+    """State of one analyst's triage of one set of results."""
+
+    def __init__(self, results: Results, diagnosis: Diagnosis, ledger_path: Path, who: ledger.Identity,
+                 results_digest: str, key: bytes | None = None) -> None:
+        self.results, self.base_diagnosis = results, diagnosis
+        self.ledger_path, self.who, self.key, self.results_digest = Path(ledger_path), who, key, results_digest
+        self.warnings: list[str] = []
+        data = results.data
+        self.labels = [clean(" · ".join(str(data.keys[k][s]) for k in data.key_names)) for s in range(data.n_series)]
+        self._ids = [series_id(data.key_of(s)) for s in range(data.n_series)]
+        self._lookup = {sid: s for s, sid in enumerate(self._ids)}
+        self.histories: dict[str, SeriesHistory] = {}
+        self._ledger_state: tuple[int, int] | None = None
+        self._offset = 0
+        self.status = np.array(["pending"] * data.n_series, dtype=object)
+        self.diagnosis = diagnosis
+        self.filter, self.sort, self.flag_filter = "attention", "attention", None
+        self.view = np.arange(data.n_series)
+        self.cursor = 0
+        self.reload_ledger(force=True)
+
+    # -- the ledger ------------------------------------------------------------------------
+    def reload_ledger(self, force: bool = False) -> bool:
+        """Read decisions recorded since the last look (by anyone); True when something changed."""
+        try:
+            stat = os.stat(self.ledger_path)
+            state = (stat.st_size, stat.st_mtime_ns)
+        except FileNotFoundError:
+            state = (0, 0)
+        if not force and state == self._ledger_state:
+            return False
+        self._ledger_state = state
+        if state[0] < self._offset:  # the file shrank (a torn tail moved aside): start over
+            self.histories, self._offset = {}, 0
+        new = b""
+        if state[0] > self._offset:
+            with open(self.ledger_path, "rb") as handle:
+                handle.seek(self._offset)
+                new = handle.read(state[0] - self._offset)
+        whole = new[:new.rfind(b"\n") + 1]
+        self._offset += len(whole)
+        records, _ = ledger.parse(whole)
+        touched = {series_id(r["series"]) for r in records}
+        apply(self.histories, records)
+        for sid in touched:
+            if sid in self._lookup:
+                self._refresh_status(self._lookup[sid])
+        if records or force:
+            stale = self.status == "stale"
+            self.diagnosis = mark_stale(self.base_diagnosis, stale.astype(bool))
+            self.rebuild_view()
+        return bool(records)
+
+    def _refresh_status(self, s: int) -> None:
+        history = self.histories.get(self._ids[s])
+        self.status[s] = history.status(self.results.data.fingerprints[s]) if history else "pending"
+
+    def history(self, s: int) -> list[dict]:
+        history = self.histories.get(self._ids[s])
+        return history.records if history else []
+
+    def can_withdraw(self, s: int) -> bool:
+        return own_standing(self.histories.get(self._ids[s]), self.who.analyst) is not None
+
+    def record(self, s: int, action: str, model: str | None = None, note: str = "") -> Recorded:
+        """Append one decision on series ``s`` to the ledger (raises ``LedgerError`` with a one-line reason)."""
+        chosen = self.results.chosen[s]
+        proposed = self.results.names[chosen] if chosen >= 0 else None
+        if action == "accept":
+            model = proposed
+        entry = ledger.Entry(series=self.results.data.key_of(s), action=action,
+                             fingerprint=self.results.data.fingerprints[s], results=self.results_digest,
+                             model=model, proposed=proposed, note=note)
+        ledger.append(self.ledger_path, [entry], self.who, key=self.key)
+        self.reload_ledger()
+        return Recorded(s, action)
+
+    # -- the list --------------------------------------------------------------------------
+    @property
+    def current(self) -> int | None:
+        return int(self.view[self.cursor]) if len(self.view) else None
+
+    def needs_attention(self) -> np.ndarray:
+        undecided = np.isin(self.status, ["pending", "stale"])
+        return self.diagnosis.raised.any(axis=1) & undecided
+
+    def rebuild_view(self, keep: int | None = None) -> None:
+        """Re-filter and re-sort; keep the cursor on series ``keep`` (default: the current one) if still listed."""
+        keep = self.current if keep is None else keep
+        n_series = self.results.n_series
+        if self.filter == "attention":
+            mask = self.needs_attention()
+        elif self.filter == "pending":
+            mask = np.isin(self.status, ["pending", "stale"])
+        elif self.filter == "decided":
+            mask = ~np.isin(self.status, ["pending", "stale"])
+        else:
+            mask = np.ones(n_series, dtype=bool)
+        if self.flag_filter:
+            mask &= self.diagnosis.flagged(self.flag_filter)
+        order = self._order()
+        self.view = order[mask[order]]
+        where = np.flatnonzero(self.view == keep) if keep is not None else []
+        self.cursor = int(where[0]) if len(where) else min(self.cursor, max(len(self.view) - 1, 0))
+
+    def _order(self) -> np.ndarray:
+        if self.sort == "key":
+            return np.argsort(np.array(self.labels, dtype=object), kind="stable")
+        if self.sort == "score":
+            score = np.where(np.isnan(self.results.score), -np.inf, self.results.score)
+            return np.argsort(score, kind="stable")
+        if self.sort == "n":
+            return np.argsort(self.results.data.counts, kind="stable")
+        return self.diagnosis.attention_order()
+
+    def set_filter(self, name: str, flag: str | None = None) -> None:
+        if name not in FILTERS:
+            raise ValueError(f"expected a filter among {FILTERS}, got {name!r}")
+        if flag is not None and flag not in CODES:
+            raise ValueError(f"expected a flag among {CODES}, got {flag!r}")
+        self.filter, self.flag_filter = name, flag
+        self.rebuild_view()
+
+    def set_sort(self, name: str) -> None:
+        if name not in SORTS:
+            raise ValueError(f"expected a sort among {SORTS}, got {name!r}")
+        self.sort = name
+        self.rebuild_view()
+
+    def move(self, step: int) -> None:
+        if len(self.view):
+            self.cursor = int(np.clip(self.cursor + step, 0, len(self.view) - 1))
+
+    def jump_attention(self, step: int) -> bool:
+        """Move to the next (step 1) or previous (-1) listed series that needs attention."""
+        attention = self.needs_attention()[self.view]
+        positions = np.flatnonzero(attention)
+        if not len(positions):
+            return False
+        later = positions[positions > self.cursor] if step > 0 else positions[positions < self.cursor][::-1]
+        target = later[0] if len(later) else positions[0] if step > 0 else positions[-1]
+        self.cursor = int(target)
+        return True
+
+    def after_decision(self, s: int) -> None:
+        """Rebuild the list and put the cursor on the next series needing attention after ``s``."""
+        position = self.cursor
+        self.rebuild_view(keep=-1)
+        self.cursor = min(position, max(len(self.view) - 1, 0))
+        if len(self.view) and self.view[self.cursor] == s:
+            self.move(1)
+        attention = self.needs_attention()[self.view]
+        if len(self.view) and not attention[self.cursor]:
+            self.jump_attention(1)
+
+    def search(self, text: str, start_after: bool = True) -> bool:
+        """Move to the next listed series whose key contains ``text`` (case-insensitive)."""
+        needle = text.casefold().strip()
+        if not needle or not len(self.view):
+            return False
+        n = len(self.view)
+        begin = self.cursor + 1 if start_after else self.cursor
+        for offset in range(n):
+            position = (begin + offset) % n
+            if needle in self.labels[self.view[position]].casefold():
+                self.cursor = position
+                return True
+        return False
+
+    # -- one line of the list ------------------------------------------------------------
+    def flag_codes(self, s: int) -> list[str]:
+        return [code for i, code in enumerate(CODES) if self.diagnosis.raised[s, i]]
+
+    def severity(self, s: int) -> str | None:
+        codes = self.flag_codes(s)
+        if any(SEVERITY[c] == "stop" for c in codes):
+            return "stop"
+        return "warn" if codes else None
+
+    def counts(self) -> dict[str, int]:
+        values, counts = np.unique(self.status, return_counts=True)
+        out = {name: 0 for name in STATUS_MARK}
+        out.update(dict(zip(values.tolist(), counts.tolist())))
+        out["attention"] = int(self.needs_attention().sum())
+        return out

@@ -1,0 +1,86 @@
+"""In-terminal charts of one series, drawn with plotext and shown as plain ``Text``.
+
+plotext keeps one global figure, so charts are only ever built on the UI
+thread.  Every label drawn here comes from numbers or candidate names, never
+from users' text.
+"""
+from __future__ import annotations
+
+import numpy as np
+import plotext as plt
+from rich.text import Text
+
+from fitcore.evidence import band, curve, runner_up, series_rows
+from fitcore.results import Results
+
+MARKER = "braille"  # renders in a plain xterm-256color; sextant markers often do not
+
+
+def _start(width: int, height: int) -> None:
+    plt.clf()
+    plt.plotsize(max(width, 20), max(height, 6))
+    plt.theme("clear")
+    plt.frame(True)
+
+
+def _finish() -> Text:
+    return Text.from_ansi(plt.build())
+
+
+def curve_chart(results: Results, s: int, width: int, height: int) -> Text:
+    """Observations, the chosen curve, the runner-up, the 95% band and the plan price."""
+    price, volume, _ = series_rows(results, s)
+    _start(width, height)
+    plt.scatter(price.tolist(), volume.tolist(), marker="dot", color="gray", label="observed")
+    chosen = int(results.chosen[s])
+    plan = results.plan_price[s]
+    lo_p, hi_p = float(price.min()), float(price.max())
+    if np.isfinite(plan):
+        lo_p, hi_p = min(lo_p, plan), max(hi_p, plan)
+    pad = (hi_p - lo_p) * 0.03 or max(abs(hi_p) * 0.05, 0.01)
+    grid = np.linspace(max(lo_p - pad, 1e-9 if results.price_lo[s] > 0 else lo_p - pad), hi_p + pad, 80)
+    names = results.names
+    if chosen >= 0:
+        lower, upper = band(results, s, chosen, grid)
+        plt.plot(grid.tolist(), lower.tolist(), marker=MARKER, color="orange+", label="95% band")
+        plt.plot(grid.tolist(), upper.tolist(), marker=MARKER, color="orange+")
+        other = runner_up(results, s)
+        if other >= 0:
+            plt.plot(grid.tolist(), curve(results, s, other, grid).tolist(), marker=MARKER, color="cyan",
+                     label=f"{names[other]} (runner-up)")
+        plt.plot(grid.tolist(), curve(results, s, chosen, grid).tolist(), marker=MARKER, color="green+",
+                 label=f"{names[chosen]} (chosen)")
+    if np.isfinite(plan):
+        plt.vline(float(plan), "magenta")
+    plt.xlabel("price" + (" (│ plan)" if np.isfinite(plan) else ""))
+    return _finish()
+
+
+def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
+    """Each available candidate's CV error: mean ± SE, the per-fold errors, the one-SE line."""
+    _start(width, height)
+    available = np.flatnonzero(results.available[s])
+    if not len(available):
+        plt.title("no candidate could be cross-validated")
+        return _finish()
+    folds = results.folds_of(s)
+    positions = list(range(1, len(available) + 1))
+    for x, c in zip(positions, available):
+        errors = folds[:, c]
+        if len(errors) <= 12:  # per-fold dots (leave-one-out has too many to read)
+            plt.scatter([x] * len(errors), errors.tolist(), marker="dot", color="gray")
+    means = results.cv_mse[s, available]
+    ses = results.cv_se[s, available]
+    for x, m, e in zip(positions, means, ses):
+        plt.plot([x, x], [float(m - e), float(m + e)], marker=MARKER, color="cyan")
+    plt.scatter(positions, means.tolist(), marker="●", color="cyan", label="CV mean ± SE")
+    best = int(np.argmin(means))
+    plt.hline(float(means[best] + ses[best]), "orange")
+    chosen = int(results.chosen[s])
+    if chosen in available:
+        x = positions[list(available).index(chosen)]
+        plt.scatter([x], [float(results.cv_mse[s, chosen])], marker="◆", color="green+", label="chosen")
+    plt.xticks(positions, [results.names[c] for c in available])
+    plt.xlim(0.5, len(available) + 0.5)
+    plt.ylabel("held-out MSE (── one-SE line)")
+    return _finish()

@@ -1,0 +1,125 @@
+"""The series list: one line per series, drawn only for the rows on screen (Line API)."""
+from __future__ import annotations
+
+from rich.segment import Segment
+from rich.style import Style
+from textual.binding import Binding
+from textual.geometry import Size
+from textual.message import Message
+from textual.scroll_view import ScrollView
+from textual.strip import Strip
+
+from ..session import STATUS_MARK, TriageSession
+
+STOP = Style(color="#ff875f")
+WARN = Style(color="#d7af5f")
+DONE = Style(color="#87af87")
+DIM = Style(dim=True)
+CURSOR = Style(reverse=True)
+
+
+def short_flags(codes: list[str], width: int) -> str:
+    text = " ".join(codes)
+    return text if len(text) <= width else text[:max(width - 1, 0)] + "…"
+
+
+class SeriesList(ScrollView, can_focus=True):
+    """Virtualised list of the session's view; posts ``Highlighted`` when the cursor moves."""
+
+    BINDINGS = [
+        Binding("up", "cursor(-1)", "up", show=False),
+        Binding("down", "cursor(1)", "down", show=False),
+        Binding("pageup", "page(-1)", "page up", show=False),
+        Binding("pagedown", "page(1)", "page down", show=False),
+        Binding("home", "edge(-1)", "first", show=False),
+        Binding("end", "edge(1)", "last", show=False),
+    ]
+
+    class Highlighted(Message):
+        def __init__(self, series: int | None) -> None:
+            super().__init__()
+            self.series = series
+
+    def __init__(self, session: TriageSession, **kwargs) -> None:
+        super().__init__(**kwargs)
+        self.session = session
+
+    def on_mount(self) -> None:
+        self.reload()
+
+    def reload(self) -> None:
+        """The view changed (filter, sort, decisions): resize, redraw, keep the cursor visible."""
+        self.virtual_size = Size(self.size.width or 80, len(self.session.view) + 1)
+        self.refresh()
+        self.show_cursor()
+        self.post_message(self.Highlighted(self.session.current))
+
+    def show_cursor(self) -> None:
+        height = max(self.scrollable_content_region.height - 1, 1)
+        row = self.session.cursor
+        if row < self.scroll_y:
+            self.scroll_to(y=row, animate=False, immediate=True)
+        elif row >= self.scroll_y + height:
+            self.scroll_to(y=row - height + 1, animate=False, immediate=True)
+        self.refresh()
+
+    def action_cursor(self, step: int) -> None:
+        self._moved(lambda: self.session.move(step))
+
+    def action_page(self, step: int) -> None:
+        page = max(self.scrollable_content_region.height - 2, 1)
+        self._moved(lambda: self.session.move(step * page))
+
+    def action_edge(self, step: int) -> None:
+        self._moved(lambda: self.session.move(step * len(self.session.view)))
+
+    def _moved(self, change) -> None:
+        before = self.session.current
+        change()
+        self.show_cursor()
+        if self.session.current != before:
+            self.post_message(self.Highlighted(self.session.current))
+
+    def columns(self, width: int) -> tuple[int, int]:
+        """Widths of the key and flags columns for a line ``width`` wide."""
+        fixed = 2 + 1 + 5 + 1 + 7 + 1 + 5 + 2
+        key = max(12, min(40, (width - fixed) * 3 // 5))
+        return key, max(width - fixed - key, 0)
+
+    def render_line(self, y: int) -> Strip:
+        width = self.scrollable_content_region.width
+        key_w, flags_w = self.columns(width)
+        if y == 0:
+            head = f"  {'series':<{key_w}} {'n':>5} {'chosen':<7} {'score':>5}  {'flags':<{flags_w}}"
+            return Strip([Segment(head[:width].ljust(width), Style(bold=True, underline=True))])
+        row = y - 1 + int(self.scroll_y)
+        session = self.session
+        if row >= len(session.view):
+            return Strip.blank(width)
+        s = int(session.view[row])
+        results = session.results
+        status = session.status[s]
+        chosen = results.chosen[s]
+        name = results.names[chosen] if chosen >= 0 else "—"
+        score = results.score[s]
+        score_text = f"{score * 100:.0f}%" if score == score else "—"
+        label = session.labels[s]
+        label = label if len(label) <= key_w else label[:key_w - 1] + "…"
+        severity = session.severity(s)
+        flag_style = STOP if severity == "stop" else WARN if severity else DIM
+        mark_style = DONE if status in ("accepted", "overridden") else STOP if status == "stale" else DIM
+        segments = [
+            Segment(f"{STATUS_MARK[status]} ", mark_style),
+            Segment(f"{label:<{key_w}} {results.data.counts[s]:>5} {name:<7} {score_text:>5}  "),
+            Segment(f"{short_flags(session.flag_codes(s), flags_w) or '—':<{flags_w}}", flag_style),
+        ]
+        strip = Strip(segments).crop(0, width).extend_cell_length(width)
+        if row == session.cursor:
+            strip = strip.apply_style(CURSOR if self.has_focus else Style(bgcolor="#303030"))
+        return strip
+
+    def on_focus(self) -> None:
+        self.refresh()
+
+    def on_blur(self) -> None:
+        self.refresh()
