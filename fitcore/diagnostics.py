@@ -7,6 +7,7 @@ numbers each flag's sentence quotes.  Sentences are written on demand
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -56,11 +57,17 @@ class Diagnosis:
     def n_warn(self) -> np.ndarray:
         return self.raised[:, [SEVERITY[c] == "warn" for c in CODES]].sum(axis=1)
 
-    def attention_order(self) -> np.ndarray:
-        """Series indices, most in need of a human first: stop flags, then warn flags, then lowest score."""
+    @cached_property
+    def _attention(self) -> np.ndarray:
         score = self.results.score
         score_key = np.where(np.isnan(score), -np.inf, score)
-        return np.lexsort((np.arange(len(score)), score_key, -self.n_warn(), -self.n_stop()))
+        order = np.lexsort((np.arange(len(score)), score_key, -self.n_warn(), -self.n_stop()))
+        order.flags.writeable = False
+        return order
+
+    def attention_order(self) -> np.ndarray:
+        """Series indices, most in need of a human first: stop flags, then warn flags, then lowest score."""
+        return self._attention
 
     def flags_of(self, s: int) -> list[dict]:
         from .flag_sentences import sentence

@@ -45,12 +45,15 @@ class TriageSession:
         data = results.data
         self.labels = [clean(" · ".join(str(data.keys[k][s]) for k in data.key_names)) for s in range(data.n_series)]
         self._ids = [series_id(data.key_of(s)) for s in range(data.n_series)]
+        _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
         self._lookup = {sid: s for s, sid in enumerate(self._ids)}
         self.histories: dict[str, SeriesHistory] = {}
         self._ledger_state: tuple[int, int] | None = None
         self._offset = 0
         self.status = np.array(["pending"] * data.n_series, dtype=object)
+        self.undecided = np.ones(data.n_series, dtype=bool)  # pending or stale, kept beside ``status``
         self.diagnosis = diagnosis
+        self._flagged = diagnosis.raised.any(axis=1)
         self.filter, self.sort, self.flag_filter = "attention", "attention", None
         self.view = np.arange(data.n_series)
         self.cursor = 0
@@ -84,13 +87,16 @@ class TriageSession:
                 self._refresh_status(self._lookup[sid])
         if records or force:
             stale = self.status == "stale"
-            self.diagnosis = mark_stale(self.base_diagnosis, stale.astype(bool))
+            if force or not np.array_equal(stale, self.diagnosis.flagged("stale")):
+                self.diagnosis = mark_stale(self.base_diagnosis, stale)
+                self._flagged = self.diagnosis.raised.any(axis=1)
             self.rebuild_view()
         return bool(records)
 
     def _refresh_status(self, s: int) -> None:
         history = self.histories.get(self._ids[s])
         self.status[s] = history.status(self.results.data.fingerprints[s]) if history else "pending"
+        self.undecided[s] = self.status[s] in ("pending", "stale")
 
     def history(self, s: int) -> list[dict]:
         history = self.histories.get(self._ids[s])
@@ -118,8 +124,7 @@ class TriageSession:
         return int(self.view[self.cursor]) if len(self.view) else None
 
     def needs_attention(self) -> np.ndarray:
-        undecided = np.isin(self.status, ["pending", "stale"])
-        return self.diagnosis.raised.any(axis=1) & undecided
+        return self._flagged & self.undecided
 
     def rebuild_view(self, keep: int | None = None) -> None:
         """Re-filter and re-sort; keep the cursor on series ``keep`` (default: the current one) if still listed."""
@@ -128,9 +133,9 @@ class TriageSession:
         if self.filter == "attention":
             mask = self.needs_attention()
         elif self.filter == "pending":
-            mask = np.isin(self.status, ["pending", "stale"])
+            mask = self.undecided.copy()
         elif self.filter == "decided":
-            mask = ~np.isin(self.status, ["pending", "stale"])
+            mask = ~self.undecided
         else:
             mask = np.ones(n_series, dtype=bool)
         if self.flag_filter:

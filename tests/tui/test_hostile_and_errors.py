@@ -41,7 +41,7 @@ async def test_hostile_names_are_shown_literally(tmp_path):
             label = session.labels[session.current]
             assert label[:60] in screen_text(app)
             await pilot.press("down")
-            await pilot.pause()
+            await pilot.pause(0.3)  # the evidence follows once the cursor rests
         await pilot.press("a")
         await pilot.pause()
         assert app.is_running  # nothing was interpreted as an action

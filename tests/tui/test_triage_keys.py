@@ -192,8 +192,8 @@ async def test_tab_switches_to_the_evidence_when_narrow(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(80, 24)) as pilot:
         session = await started(app, pilot)
-        await pilot.press("tab")
-        await pilot.pause()
+        await pilot.press("down", "tab")
+        await pilot.pause(0.3)  # the evidence follows once the cursor rests
         text = screen_text(app)
         assert session.labels[session.current] in text and "observed" in text
         await pilot.press("tab")

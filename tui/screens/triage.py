@@ -21,6 +21,7 @@ from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
 POLL_SECONDS = 2.0
+EVIDENCE_DELAY = 0.12  # redraw the charts once the cursor rests, not on every key of a fast scroll
 
 
 class TriageScreen(Screen):
@@ -45,6 +46,7 @@ class TriageScreen(Screen):
     def __init__(self, session: TriageSession) -> None:
         super().__init__()
         self.session = session
+        self._evidence_timer = None
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -73,8 +75,12 @@ class TriageScreen(Screen):
 
     @on(SeriesList.Highlighted)
     def highlighted(self, event: SeriesList.Highlighted) -> None:
-        self.evidence.show(event.series)
-        self.update_status()
+        if self._evidence_timer is not None:
+            self._evidence_timer.stop()
+        if self.evidence.series is None:
+            self.evidence.show(event.series)
+        else:
+            self._evidence_timer = self.set_timer(EVIDENCE_DELAY, lambda: self.evidence.show(self.session.current))
         self.refresh_bindings()
 
     def update_status(self) -> None:
@@ -166,9 +172,7 @@ class TriageScreen(Screen):
     def action_attention(self, step: int) -> None:
         if self.session.jump_attention(step):
             self.series_list.show_cursor()
-            self.evidence.show(self.session.current)
-            self.update_status()
-            self.refresh_bindings()
+            self.series_list.post_message(SeriesList.Highlighted(self.session.current))
 
     def action_search(self) -> None:
         def found(text: str | None) -> None:
