@@ -8,36 +8,37 @@ import pandas as pd
 
 from .dataset import Dataset
 from .errors import DataError
-from .loader import Columns, read_table
+from .loader import Columns, read_rows
 
 
 def plan_prices(data: Dataset, path: str | Path, sep: str | None = None) -> np.ndarray:
     """(S,) the plan price of each series, NaN where the file names none.
 
-    Every row must name a series of ``data`` with a positive price, once.
+    Every row must name a series of ``data`` with a price above zero, once.
     """
     path = Path(path)
-    columns = Columns(product=data.key_names[0], segments=data.key_names[1:], price="plan_price", volume="plan_price")
-    table = read_table(path, columns, sep).to_pandas()
     keys = list(data.key_names)
-    price = table["plan_price"].to_numpy(np.float64)
-    bad = ~np.isfinite(price) | (price <= 0)
+    columns = Columns(product=keys[0], segments=tuple(keys[1:]), price="plan_price", volume="plan_price")
+    rows, _, _ = read_rows(path, columns, sep)
+    price, not_number, _ = rows.numbers["plan_price"]
+    bad = not_number | ~np.isfinite(price) | (price <= 0)
     if bad.any():
-        line = int(np.argmax(bad)) + 2
-        raise DataError(f"expected a price above zero, got {table['plan_price'].iloc[line - 2]!r}",
-                        path=str(path), line=line, column="plan_price")
-    dup = table.duplicated(keys)
+        first = int(np.argmax(bad))
+        raise DataError("expected a price above zero", path=str(path), line=int(rows.line[first]), column="plan_price")
+    table = pd.DataFrame({name: np.asarray(rows.keys[name], dtype=object).astype(str) for name in keys})
+    dup = table.duplicated().to_numpy()
     if dup.any():
-        line = int(np.argmax(dup.to_numpy())) + 2
-        raise DataError("this series already has a plan price on an earlier line", path=str(path), line=line)
+        first = int(np.argmax(dup))
+        raise DataError("this series already has a plan price on an earlier line", path=str(path),
+                        line=int(rows.line[first]))
     series = pd.DataFrame({name: data.keys[name].astype(str) for name in keys})
     series["_s"] = np.arange(data.n_series)
-    merged = table.astype({name: str for name in keys}).merge(series, on=keys, how="left")
+    merged = table.merge(series, on=keys, how="left")
     unknown = merged["_s"].isna().to_numpy()
     if unknown.any():
-        line = int(np.argmax(unknown)) + 2
-        raise DataError(f"no series in the data has this key ({', '.join(f'{k}={merged[k].iloc[line - 2]!r}' for k in keys)})",
-                        path=str(path), line=line)
+        first = int(np.argmax(unknown))
+        names = ", ".join(f"{k}={merged[k].iloc[first]!r}" for k in keys)
+        raise DataError(f"no series in the data has this key ({names})", path=str(path), line=int(rows.line[first]))
     out = np.full(data.n_series, np.nan)
-    out[merged["_s"].to_numpy(np.int64)] = merged["plan_price"].to_numpy(np.float64)
+    out[merged["_s"].to_numpy(np.int64)] = price
     return out

@@ -33,6 +33,8 @@ def build_parser() -> argparse.ArgumentParser:
     add_fit_options(fit)
     fit.add_argument("--threshold", action="append", default=[], metavar="NAME=VALUE",
                      help="override a flag threshold, e.g. min_points=8 (repeatable)")
+    fit.add_argument("--strict", action="store_true",
+                     help="fail (exit 2) if any row is rejected, instead of fitting the usable rows")
     fit.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
 
     show = commands.add_parser("show", help="print a results file as text: one series, or a filtered list",
@@ -76,25 +78,30 @@ def add_session_options(parser: argparse.ArgumentParser) -> None:
 
 def add_column_options(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("columns")
-    group.add_argument("--product", default="product", metavar="COL", help="product column (default: product)")
-    group.add_argument("--segment", action="append", default=[], metavar="COL",
+    group.add_argument("--product", default=None, metavar="COL", help="product column (default: product)")
+    group.add_argument("--segment", action="append", default=None, metavar="COL",
                        help="a column that splits a product into series (repeatable), e.g. region")
-    group.add_argument("--price", default="price", metavar="COL", help="price column (default: price)")
-    group.add_argument("--volume", default="volume", metavar="COL", help="volume column (default: volume)")
-    group.add_argument("--date", default=None, metavar="COL", help="date column (needed by --fold-order time)")
+    group.add_argument("--price", default=None, metavar="COL", help="price column (default: price)")
+    group.add_argument("--volume", default=None, metavar="COL", help="volume column (default: volume)")
+    group.add_argument("--date", default=None, metavar="COL",
+                       help="date column, ISO dates (needed by --fold-order time; repeats of a series and date are rejected)")
+    group.add_argument("--weight", default=None, metavar="COL",
+                       help="observation weights ≥ 0: weighted least squares throughout")
     group.add_argument("--sep", default=None, metavar="CHAR", help="field separator (default: from the file)")
 
 
 def add_fit_options(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("fitting")
-    group.add_argument("--degrees", default="0-5", metavar="A-B", help="polynomial degrees to try (default: 0-5)")
-    group.add_argument("--no-loglog", dest="loglog", action="store_false",
+    group.add_argument("--config", type=Path, default=None, metavar="FILE",
+                       help="settings file (default: pricefold.toml in the current folder, if there is one)")
+    group.add_argument("--degrees", default=None, metavar="A-B", help="polynomial degrees to try (default: 0-5)")
+    group.add_argument("--no-loglog", dest="loglog", action="store_const", const=False, default=None,
                        help="leave out the constant-elasticity curve ln volume = a + e·ln price")
-    group.add_argument("--folds", default="5", metavar="K|loo", help="number of folds, or loo (default: 5)")
-    group.add_argument("--fold-order", default="shuffled", choices=("shuffled", "given", "time"),
+    group.add_argument("--folds", default=None, metavar="K|loo", help="number of folds, or loo (default: 5)")
+    group.add_argument("--fold-order", default=None, choices=("shuffled", "given", "time"),
                        help="deal rows into folds shuffled (seeded), in file order, or by date (default: shuffled)")
-    group.add_argument("--seed", type=int, default=0, help="seed of the fold shuffle (default: 0)")
-    group.add_argument("--rule", default="one-se", choices=("one-se", "lowest"),
+    group.add_argument("--seed", type=int, default=None, help="seed of the fold shuffle (default: 0)")
+    group.add_argument("--rule", default=None, choices=("one-se", "lowest"),
                        help="one-se: simplest within one standard error of the best; lowest: lowest CV error")
     plan = group.add_mutually_exclusive_group()
     plan.add_argument("--plan-price", type=float, default=None, metavar="P", help="one plan price for every series")
@@ -102,17 +109,43 @@ def add_fit_options(parser: argparse.ArgumentParser) -> None:
                       help="plan prices per series: the key columns and plan_price")
 
 
+def resolve(args) -> None:
+    """Fill every option not given on the command line from the settings file, then the defaults."""
+    from fitcore.config import load_config, pick
+    config = load_config(args.config)
+    for option, table, key, default in (
+            ("product", "columns", "product", "product"), ("segment", "columns", "segments", []),
+            ("price", "columns", "price", "price"), ("volume", "columns", "volume", "volume"),
+            ("date", "columns", "date", None), ("weight", "columns", "weight", None), ("sep", "columns", "sep", None),
+            ("degrees", "fit", "degrees", "0-5"), ("loglog", "fit", "loglog", True), ("folds", "fit", "folds", "5"),
+            ("fold_order", "fit", "fold_order", "shuffled"), ("seed", "fit", "seed", 0), ("rule", "fit", "rule", "one-se")):
+        setattr(args, option, pick(getattr(args, option), config, table, key, default))
+    if args.plan is None and args.plan_price is None:
+        args.plan_price = config.get("fit", {}).get("plan_price")
+        plan = config.get("fit", {}).get("plan")
+        args.plan = Path(plan) if plan else None
+    if isinstance(args.degrees, list):
+        args.degrees = ",".join(str(d) for d in args.degrees)
+    args.folds, args.seed = str(args.folds), args.seed
+    file_thresholds = [f"{k}={v}" for k, v in config.get("thresholds", {}).items()]
+    args.threshold = file_thresholds + list(getattr(args, "threshold", []) or [])
+    args.config_path = config.get("_path")
+
+
 def columns_from(args):
     from fitcore.loader import Columns
     return Columns(product=args.product, segments=tuple(args.segment), price=args.price, volume=args.volume,
-                   date=args.date)
+                   date=args.date, weight=args.weight)
 
 
 def settings_from(args):
     from fitcore.settings import FitSettings, parse_degrees, parse_folds, provenance
     extra = provenance(columns_from(args).as_dict(), str(args.plan.resolve()) if args.plan else None, args.plan_price)
-    return FitSettings(degrees=parse_degrees(args.degrees), loglog=args.loglog, folds=parse_folds(args.folds),
-                       fold_order=args.fold_order, seed=args.seed, rule=args.rule, extra=extra)
+    if args.config_path:
+        extra["config"] = args.config_path
+    return FitSettings(degrees=parse_degrees(str(args.degrees)), loglog=bool(args.loglog),
+                       folds=parse_folds(args.folds), fold_order=args.fold_order, seed=int(args.seed), rule=args.rule,
+                       extra=extra)
 
 
 def run_fit(args) -> int:
@@ -120,12 +153,13 @@ def run_fit(args) -> int:
     from fitcore.diagnostics import diagnose
     from fitcore.errors import SettingsError
     from fitcore.thresholds import Thresholds, parse_threshold_options
-    from fitcore.loader import load
+    from fitcore.loader import load_with_rejects
     from fitcore.plan import plan_prices
     from fitcore.results_io import write_results
 
     from .progress import ProgressLine
 
+    resolve(args)
     settings = settings_from(args)
     thresholds = Thresholds().with_overrides(parse_threshold_options(args.threshold))
     if settings.fold_order == "time" and not args.date:
@@ -133,7 +167,8 @@ def run_fit(args) -> int:
     if args.plan_price is not None and not args.plan_price > 0:
         raise SettingsError(f"expected --plan-price above zero, got {args.plan_price}")
     started = time.perf_counter()
-    data = load(args.data, columns_from(args), sep=args.sep)
+    data, rejects = load_with_rejects(args.data, columns_from(args), sep=args.sep)
+    report_rejects(rejects, args.output, strict=args.strict, quiet=args.quiet)
     plan = plan_prices(data, args.plan, args.sep) if args.plan else args.plan_price
     bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
     try:
@@ -145,6 +180,28 @@ def run_fit(args) -> int:
     if not args.quiet:
         print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)
     return 0
+
+
+def rejects_path(output: Path) -> Path:
+    return output.with_name(output.name.split(".")[0] + ".rejects.csv")
+
+
+def report_rejects(rejects, output: Path, *, strict: bool, quiet: bool) -> None:
+    """Write the rejected rows beside the results and say so in one line; with ``strict``, fail."""
+    from fitcore.errors import DataError
+    from fitcore.loader import write_rejects
+    from fitcore.validation import summary as rejects_summary
+
+    target = rejects_path(output)
+    if not len(rejects):
+        target.unlink(missing_ok=True)  # an older run's rejects would now mislead
+        return
+    write_rejects(rejects, target)
+    if strict:
+        raise DataError(f"{rejects.reasons[0]} ({rejects_summary(rejects.reasons)}; --strict; see {target})",
+                        path=str(rejects.path), line=int(rejects.lines[0]))
+    if not quiet:
+        print(f"{rejects_summary(rejects.reasons)} — see {target}", file=sys.stderr)
 
 
 def summary(results, diagnosis, seconds: float, output: Path) -> str:
@@ -199,6 +256,7 @@ def run_triage(args) -> int:
     if is_results(args.source):
         source = source_from_results(args.source)
     else:
+        resolve(args)
         if not args.source.exists():
             from fitcore.errors import DataError
             raise DataError("file not found", path=str(args.source))
@@ -223,12 +281,11 @@ def open_triage(source, ledger_path: Path, analyst: str | None) -> int:
 def run_demo(args) -> int:
     from fitcore import fit_batch
     from fitcore.diagnostics import diagnose
+    from fitcore.loader import load
+    from fitcore.plan import plan_prices
     from fitcore.results_io import write_results
     from fitcore.settings import FitSettings, provenance
     from tui.factory import sample_source, source_from_results
-
-    from fitcore.loader import load
-    from fitcore.plan import plan_prices
 
     sample = sample_source()
     folder = args.dir

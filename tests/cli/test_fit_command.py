@@ -124,12 +124,16 @@ def test_header_typo_is_one_line_naming_file_column_and_suggestion(tmp_path):
     assert not out.exists()
 
 
-def test_non_numeric_cell_names_line_and_column(tmp_path):
+def test_non_numeric_cell_is_rejected_with_its_line_or_fails_when_strict(tmp_path):
     bad = tmp_path / "junk.csv"
-    bad.write_text("product,price,volume\na,1.0,3\na,2.0,lots\n")
+    bad.write_text("product,price,volume\n" + "".join(f"a,{1 + i / 10},{30 - i}\n" for i in range(12)) + "a,2.0,lots\n")
     done = run_cli("fit", str(bad), "-o", str(tmp_path / "r.json"))
-    assert done.returncode == 2 and "Traceback" not in done.stderr
-    assert "line 3" in done.stderr and "'volume'" in done.stderr and "'lots'" in done.stderr
+    assert done.returncode == 0, done.stderr
+    assert f"1 row rejected: 1 non-numeric volume — see {tmp_path / 'r.rejects.csv'}" in done.stderr
+    assert (tmp_path / "r.rejects.csv").read_text() == "product,price,volume,line,reason\na,2.0,lots,14,non-numeric volume\n"
+    strict = run_cli("fit", str(bad), "-o", str(tmp_path / "s.json"), "--strict")
+    assert strict.returncode == 2 and "Traceback" not in strict.stderr and strict.stderr.count("\n") == 1
+    assert "junk.csv, line 14: non-numeric volume" in strict.stderr and not (tmp_path / "s.json").exists()
 
 
 @pytest.mark.parametrize("args, message", [
