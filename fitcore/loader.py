@@ -114,10 +114,10 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
 
     path = Path(path)
     rows, kind, delimiter = read_rows(path, columns, sep)
-    why = reasons(rows, columns.price, columns.volume, columns.weight, columns.date)
-    bad = np.flatnonzero(why != None)  # noqa: E711 - elementwise on an object array
+    why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date)
+    bad = np.flatnonzero(~usable)
     rejects = Rejects(path, kind, delimiter, rows.line[bad], why[bad].tolist())
-    keep = np.flatnonzero(why == None)  # noqa: E711
+    keep = np.flatnonzero(usable)
     if not len(keep):
         from .validation import summary
         raise DataError(f"no usable rows ({summary(rejects.reasons)})", path=str(path))

@@ -38,17 +38,22 @@ class RawRows:
         return len(self.line)
 
 
-def reasons(rows: RawRows, price: str, volume: str, weight: str | None, date: str | None) -> np.ndarray:
-    """(N,) object array: the reason each row is rejected, or None for a usable row."""
+def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
+            date: str | None) -> tuple[np.ndarray, np.ndarray]:
+    """``(why, usable)``: (N,) the reason each row is rejected (None for a usable row), and (N,) bool usable."""
     n = rows.n_rows
     out = np.full(n, None, dtype=object)
+    open_rows = np.ones(n, dtype=bool)  # no reason given yet
 
     def mark(mask, text):
-        mask = np.asarray(mask, dtype=bool) & (out == None)  # noqa: E711 - elementwise on an object array
-        out[mask] = text
+        mask = np.asarray(mask, dtype=bool) & open_rows
+        if mask.any():
+            out[mask] = text
+            open_rows[mask] = False
 
     for index, why in rows.broken.items():
         out[index] = why
+        open_rows[index] = False
     empties = [_empty(values) for values in rows.keys.values()]
     all_empty = np.logical_and.reduce(empties) if empties else np.zeros(n, bool)
     for name in (price, volume, weight):
@@ -64,8 +69,8 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None, date: st
         values, unreadable = rows.date
         mark(unreadable, f"unparseable {date}")
         mark(np.isnat(values), f"missing {date}")
-        _duplicates(mark, rows, values, out)
-    return out
+        _duplicates(rows, values, out, open_rows)
+    return out, open_rows
 
 
 def _empty(values: pd.Categorical) -> np.ndarray:
@@ -81,9 +86,9 @@ def _number_reasons(mark, name, values, not_number, missing):
     mark(values < 0, f"negative {name}")
 
 
-def _duplicates(mark, rows: RawRows, dates: np.ndarray, out: np.ndarray) -> None:
+def _duplicates(rows: RawRows, dates: np.ndarray, out: np.ndarray, open_rows: np.ndarray) -> None:
     """Rows repeating the series and date of an earlier usable row."""
-    usable = np.flatnonzero(out == None)  # noqa: E711
+    usable = np.flatnonzero(open_rows)
     if not len(usable):
         return
     frame = pd.DataFrame({name: values.codes[usable] for name, values in rows.keys.items()})
@@ -94,6 +99,7 @@ def _duplicates(mark, rows: RawRows, dates: np.ndarray, out: np.ndarray) -> None
     first_line = pd.Series(rows.line[usable]).groupby([frame[c] for c in frame.columns], sort=False).transform("first")
     for index, earlier in zip(usable[repeated], first_line.to_numpy()[repeated]):
         out[index] = f"duplicate of line {earlier} (same series and date)"
+        open_rows[index] = False
 
 
 def summary(reasons_of_rejected: list[str] | np.ndarray) -> str:

@@ -125,15 +125,20 @@ def _append_many(path, name, count):
         ledger.append(path, [entry(f"{name}-{i}")], who)
 
 
-def test_concurrent_writers_lose_nothing(tmp_path):
-    path = tmp_path / "ledger.jsonl"
+def run_together(target, arguments):
+    """Start one forked process per argument tuple at once; all must finish cleanly."""
     context = multiprocessing.get_context("fork")
-    workers = [context.Process(target=_append_many, args=(path, f"w{k}", 150)) for k in range(4)]
+    workers = [context.Process(target=target, args=args) for args in arguments]
     for w in workers:
         w.start()
     for w in workers:
         w.join(60)
         assert w.exitcode == 0
+
+
+def test_concurrent_writers_lose_nothing(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    run_together(_append_many, [(path, f"w{k}", 150) for k in range(4)])
     records, problems = ledger.read(path)
     assert problems == [] and ledger.verify(path) == []
     assert [r["seq"] for r in records] == list(range(1, 601))
@@ -151,13 +156,7 @@ def _accept_all(path, results, name):
 def test_concurrent_bulk_accepts_record_each_series_once(tmp_path):
     path = tmp_path / "ledger.jsonl"
     products = [f"p{i}" for i in range(300)]
-    context = multiprocessing.get_context("fork")
-    workers = [context.Process(target=_accept_all, args=(path, products, f"a{k}")) for k in range(4)]
-    for w in workers:
-        w.start()
-    for w in workers:
-        w.join(60)
-        assert w.exitcode == 0
+    run_together(_accept_all, [(path, products, f"a{k}") for k in range(4)])
     records, _ = ledger.read(path)
     assert sorted(r["series"]["product"] for r in records) == sorted(products)
     assert ledger.verify(path) == []
