@@ -278,8 +278,9 @@ def _loo_summary(ch: _Chunk, fold_err: np.ndarray):
         return segment_sums(values.T.ravel(), bounds).reshape(n_c, -1).T
 
     n = np.maximum(ch.counts, 1)[:, None].astype(float)
-    mean = per_series(fold_err) / n
-    spread = per_series((fold_err - np.repeat(mean, ch.counts, axis=0)) ** 2)
+    with np.errstate(invalid="ignore", over="ignore"):  # unavailable cells may hold inf; they are masked later
+        mean = per_series(fold_err) / n
+        spread = per_series((fold_err - np.repeat(mean, ch.counts, axis=0)) ** 2)
     se = np.sqrt(spread / np.maximum(n - 1, 1) / n)
     press = per_series(fold_err if ch.weight is None else fold_err * ch.weight[:, None])
     return mean, se, press
