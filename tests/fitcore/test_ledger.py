@@ -193,3 +193,29 @@ def test_killed_writers_never_damage_what_was_recorded(tmp_path):
     assert ledger.verify(path) == []
     assert len(list(tmp_path.glob("ledger.jsonl.torn-*"))) == torn_seen
     print(f"torn tails left by 100 kills: {torn_seen}; records: {len(before)}")
+
+
+def test_a_failed_write_is_one_line_and_leaves_earlier_records_intact(tmp_path, monkeypatch):
+    import errno
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a"), entry("b")], ANA)
+    before = path.read_bytes()
+    real_write = os.write
+
+    def full_disk(fd, data):
+        real_write(fd, bytes(data)[:10])  # part of the line lands, then the disk is full
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(os, "write", full_disk)
+    with pytest.raises(ledger.LedgerError, match="the decision was not recorded \\(No space left on device\\); "
+                                                 "earlier records are intact") as info:
+        ledger.append(path, [entry("c")], ANA)
+    assert "\n" not in str(info.value)
+    monkeypatch.setattr(os, "write", real_write)
+    assert path.read_bytes() == before and ledger.verify(path) == []
+
+
+def test_an_unwritable_ledger_is_one_line(tmp_path):
+    folder = tmp_path / "no-such-folder" / "ledger.jsonl"
+    with pytest.raises(ledger.LedgerError, match="cannot open the ledger for writing"):
+        ledger.append(folder, [entry("a")], ANA)
