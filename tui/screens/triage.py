@@ -47,6 +47,7 @@ class TriageScreen(Screen):
         super().__init__()
         self.session = session
         self._evidence_timer = None
+        self._actions_shown: tuple | None = None
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -81,7 +82,15 @@ class TriageScreen(Screen):
             self.evidence.show(event.series)
         else:
             self._evidence_timer = self.set_timer(EVIDENCE_DELAY, lambda: self.evidence.show(self.session.current))
-        self.refresh_bindings()
+        self.refresh_footer()
+
+    def refresh_footer(self) -> None:
+        """Redraw the footer only when the keys that can act have changed (it is slow to redraw)."""
+        shown = tuple(bool(self.check_action(name, args)) for name, args in (
+            ("decide", ("accept",)), ("override", ()), ("note", ()), ("withdraw", ()), ("attention", ())))
+        if shown != self._actions_shown:
+            self._actions_shown = shown
+            self.refresh_bindings()
 
     def update_status(self) -> None:
         counts = self.session.counts()
@@ -98,7 +107,7 @@ class TriageScreen(Screen):
     def refresh_all(self) -> None:
         self.series_list.reload()
         self.update_status()
-        self.refresh_bindings()
+        self.refresh_footer()
 
     def poll_ledger(self) -> None:
         """Show other analysts' decisions that reached the ledger since the last look."""
