@@ -31,7 +31,6 @@ def curve_chart(results: Results, s: int, width: int, height: int) -> Text:
     """Observations, the chosen curve, the runner-up, the 95% band and the plan price."""
     price, volume, _ = series_rows(results, s)
     _start(width, height)
-    plt.scatter(price.tolist(), volume.tolist(), marker="dot", color="gray", label="observed")
     chosen = int(results.chosen[s])
     plan = results.plan_price[s]
     lo_p, hi_p = float(price.min()), float(price.max())
@@ -42,18 +41,29 @@ def curve_chart(results: Results, s: int, width: int, height: int) -> Text:
     names = results.names
     if chosen >= 0:
         lower, upper = band(results, s, chosen, grid)
-        plt.plot(grid.tolist(), lower.tolist(), marker=MARKER, color="orange+", label="95% band")
+        plt.plot(grid.tolist(), lower.tolist(), marker=MARKER, color="orange+")
         plt.plot(grid.tolist(), upper.tolist(), marker=MARKER, color="orange+")
         other = runner_up(results, s)
         if other >= 0:
-            plt.plot(grid.tolist(), curve(results, s, other, grid).tolist(), marker=MARKER, color="cyan",
-                     label=f"{names[other]} (runner-up)")
-        plt.plot(grid.tolist(), curve(results, s, chosen, grid).tolist(), marker=MARKER, color="green+",
-                 label=f"{names[chosen]} (chosen)")
+            plt.plot(grid.tolist(), curve(results, s, other, grid).tolist(), marker=MARKER, color="cyan")
+        plt.plot(grid.tolist(), curve(results, s, chosen, grid).tolist(), marker=MARKER, color="green+")
     if np.isfinite(plan):
         plt.vline(float(plan), "magenta")
-    plt.xlabel("price" + (" (│ plan)" if np.isfinite(plan) else ""))
-    return _finish()
+    # Observations last, so that curves through them do not hide them.
+    plt.scatter(price.tolist(), volume.tolist(), marker="dot", color="gray")
+    plt.xlabel("price")
+    chart = _finish()
+    # The legend goes under the chart, where it cannot cover the data.
+    legend = Text("• observed", style="grey62")
+    if chosen >= 0:
+        legend.append(f"   ── {names[chosen]} (chosen)", style="green")
+        other = runner_up(results, s)
+        if other >= 0:
+            legend.append(f"   ── {names[other]} (runner-up)", style="cyan")
+        legend.append("   ── 95% prediction band", style="orange1")
+    if np.isfinite(plan):
+        legend.append(f"   │ plan price", style="magenta")
+    return Text("\n").join([chart, legend])
 
 
 def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
@@ -73,14 +83,17 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
     ses = results.cv_se[s, available]
     for x, m, e in zip(positions, means, ses):
         plt.plot([x, x], [float(m - e), float(m + e)], marker=MARKER, color="cyan")
-    plt.scatter(positions, means.tolist(), marker="●", color="cyan", label="CV mean ± SE")
+    plt.scatter(positions, means.tolist(), marker="●", color="cyan")
     best = int(np.argmin(means))
     plt.hline(float(means[best] + ses[best]), "orange")
     chosen = int(results.chosen[s])
     if chosen in available:
         x = positions[list(available).index(chosen)]
-        plt.scatter([x], [float(results.cv_mse[s, chosen])], marker="◆", color="green+", label="chosen")
+        plt.scatter([x], [float(results.cv_mse[s, chosen])], marker="◆", color="green+")
     plt.xticks(positions, [results.names[c] for c in available])
     plt.xlim(0.5, len(available) + 0.5)
-    plt.ylabel("held-out MSE (── one-SE line)")
-    return _finish()
+    plt.ylabel("held-out MSE")
+    legend = Text("● CV mean ± SE   • each fold", style="cyan")
+    legend.append("   ◆ chosen", style="green")
+    legend.append("   ── one-SE line", style="orange1")
+    return Text("\n").join([_finish(), legend])
