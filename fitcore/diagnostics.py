@@ -31,7 +31,7 @@ FLAGS = (
 )
 CODES = tuple(code for code, _, _ in FLAGS)
 SEVERITY = {code: severity for code, severity, _ in FLAGS}
-GRID = 101  # points over the observed price range for shape checks
+GRID = 41  # points over the observed price range for shape checks (the lowest point is refined)
 BLOCK = 16384  # series per block of the grid evaluation (bounds its memory)
 
 
@@ -125,7 +125,7 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
 
     flag("weak-fit", has & (results.score < thresholds.weak_score))
 
-    top_row, top_cook = _most_influential(results)
+    top_row, top_cook = results.top_row, results.top_cook
     cook_limit = np.maximum(4.0 / np.maximum(counts, 1), thresholds.cook_floor)
     numbers.update(top_row=top_row, top_cook=top_cook, cook_limit=cook_limit)
     flag("influential-point", has & (top_cook > cook_limit))
@@ -191,8 +191,7 @@ def _shape(results: Results) -> dict:
         out["rising_to"][idx] = price[last, np.arange(len(idx))]
         out["rising_slope"][idx] = np.max(np.where(rising, slope, -np.inf), axis=0)
         low = np.argmin(volume, axis=0)
-        out["lowest_volume"][idx] = volume[low, np.arange(len(idx))]
-        out["lowest_at"][idx] = price[low, np.arange(len(idx))]
+        out["lowest_volume"][idx], out["lowest_at"][idx] = _refined_minimum(volume, price, low)
     return out
 
 
@@ -241,13 +240,16 @@ def _fold_spread(results: Results):
     return worst, np.nan_to_num(ratio)
 
 
-def _most_influential(results: Results):
-    """(S,) dataset row with the largest Cook's distance in each series, and that distance."""
-    data = results.data
-    if data.n_rows == 0:
-        return np.zeros(0, np.int64), np.zeros(0)
-    cook = np.nan_to_num(results.cook, nan=-1.0)
-    top = np.maximum.reduceat(cook, data.offsets[:-1])
-    hit = cook == np.repeat(top, data.counts)
-    first = np.minimum.reduceat(np.where(hit, np.arange(data.n_rows), data.n_rows), data.offsets[:-1])
-    return first, top
+def _refined_minimum(volume: np.ndarray, price: np.ndarray, low: np.ndarray):
+    """Lowest value and its price, refined by a parabola through the grid minimum and its neighbours."""
+    cols = np.arange(volume.shape[1])
+    mid = np.clip(low, 1, volume.shape[0] - 2)
+    left, centre, right = volume[mid - 1, cols], volume[mid, cols], volume[mid + 1, cols]
+    curvature = left - 2 * centre + right
+    interior = (low == mid) & (curvature > 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        shift = np.where(interior, (left - right) / (2 * curvature), 0.0)
+    value = np.where(interior, centre - (left - right) * shift / 4, volume[low, cols])
+    step = price[1] - price[0]
+    where = np.where(interior, price[mid, cols] + shift * step, price[low, cols])
+    return value, where

@@ -235,11 +235,13 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         coef=coef, smear=ll.smear if ll is not None else np.ones(n_s), sigma2=sigma2, df=df, chosen=chosen,
         plan_volume=plan_cols[0], plan_lo=plan_cols[1], plan_hi=plan_cols[2], plan_elasticity=plan_cols[3],
         revenue_price=revenue_price, cook=influence[0], leverage=influence[1],
+        top_cook=influence[2], top_row=influence[3] + int(data.offsets[s0]),
     )
 
 
 def _influence(ch: _Chunk, chosen, cands, coef, sigma2, t, poly, log_part):
-    """(N,) Cook's distance and leverage of each row under its series' chosen curve, in dataset order."""
+    """Cook's distance and leverage of each row under its series' chosen curve (N,), in dataset order;
+    and per series (S,) the largest Cook's distance (-1 when none) and its chunk-relative row."""
     n_rows = len(t)
     cook, lev = np.full(n_rows, np.nan), np.full(n_rows, np.nan)
     series = ch.per_row(np.arange(len(ch.counts)))
@@ -266,7 +268,12 @@ def _influence(ch: _Chunk, chosen, cands, coef, sigma2, t, poly, log_part):
                                                   ll.log.lower, ll.log.scale, size, sig)
     if ch.lay.order is not None:
         cook[ch.lay.order], lev[ch.lay.order] = cook.copy(), lev.copy()
-    return cook, lev
+    # The most influential row of each series, while the chunk is in cache.
+    filled = np.where(np.isnan(cook), -1.0, cook)
+    top = ch.reduce(np.maximum, filled)
+    hit = filled == ch.per_row(top)
+    first = ch.reduce(np.minimum, np.where(hit, np.arange(n_rows), n_rows))
+    return cook, lev, top, first
 
 
 def _loo_summary(ch: _Chunk, fold_err: np.ndarray):

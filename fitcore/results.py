@@ -31,7 +31,8 @@ class Results:
     nothing is available), ``price_lo``, ``price_hi``, ``mid``, ``half``,
     ``log_mid``, ``log_half``, ``smear``, ``plan_price``, ``revenue_price``.
     Per observation (N,), in dataset row order, under the chosen curve:
-    ``cook`` (Cook's distance) and ``leverage`` (NaN where nothing was chosen).
+    ``cook`` (Cook's distance) and ``leverage`` (NaN where nothing was chosen); per series,
+    ``top_cook`` (the largest, -1 where none) and ``top_row`` (its dataset row).
     """
 
     data: Dataset
@@ -64,6 +65,8 @@ class Results:
     revenue_price: np.ndarray
     cook: np.ndarray
     leverage: np.ndarray
+    top_cook: np.ndarray
+    top_row: np.ndarray
 
     @classmethod
     def build(cls, data: Dataset, settings: FitSettings, candidates, plan_price, parts: dict | None) -> "Results":
@@ -122,7 +125,8 @@ def _empty(n_c: int, p: int) -> dict:
     parts = {name: z(0, n_c) for name in ("cv_mse", "cv_se", "r2", "q2", "sigma2", "plan_volume",
                                           "plan_lo", "plan_hi", "plan_elasticity")}
     parts.update(available=z(0, n_c, dtype=bool), reason=z(0, n_c, dtype=np.int8), df=z(0, n_c, dtype=np.int64),
-                 fold_err=z(0, n_c), coef=z(0, n_c, p), chosen=z(0, dtype=np.int64), n_folds=z(0, dtype=np.int64))
+                 fold_err=z(0, n_c), coef=z(0, n_c, p), chosen=z(0, dtype=np.int64), n_folds=z(0, dtype=np.int64),
+                 top_row=z(0, dtype=np.int64))
     parts.update({name: z(0) for name in ("price_lo", "price_hi", "mid", "half", "log_mid", "log_half",
-                                          "smear", "revenue_price", "cook", "leverage")})
+                                          "smear", "revenue_price", "cook", "leverage", "top_cook")})
     return parts
