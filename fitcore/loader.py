@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import difflib
 import hashlib
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np

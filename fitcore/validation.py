@@ -60,7 +60,7 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
         if name:
             all_empty &= rows.numbers[name][2]
     mark(all_empty, "empty line")
-    for (name, values), empty in zip(rows.keys.items(), empties):
+    for name, empty in zip(rows.keys, empties):
         mark(empty, f"empty {name}")
     for name in (price, volume, weight):
         if name:

@@ -9,7 +9,6 @@ bare ``pandas.read_csv`` of the same file.  Not a test: machines are noisy.
 from __future__ import annotations
 
 import argparse
-import resource
 import subprocess
 import sys
 import tempfile

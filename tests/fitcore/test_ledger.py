@@ -7,7 +7,6 @@ import os
 import random
 import signal
 import time
-from pathlib import Path
 
 import pytest
 

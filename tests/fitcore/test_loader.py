@@ -7,7 +7,6 @@ import io
 import math
 import re
 
-import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest

@@ -7,7 +7,7 @@ import pytest
 
 from fitcore import ledger as fledger
 from fitcore.diagnostics import CODES
-from tests.tui.conftest import ANA, make_app, screen_text, started
+from tests.tui.conftest import make_app, screen_text, started
 
 SIZES = [(80, 24), (160, 50)]
 
@@ -145,7 +145,7 @@ async def test_search_filter_and_sort(ledger_path):
         await pilot.pause()
         labels = [session.labels[s] for s in session.view]
         assert len(labels) == 180 and labels == sorted(labels)
-        assert f"180 listed (all series; by key)" in screen_text(app)
+        assert "180 listed (all series; by key)" in screen_text(app)
 
 
 async def test_help_shows_keys_flags_and_cautions(ledger_path):

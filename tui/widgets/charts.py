@@ -62,7 +62,7 @@ def curve_chart(results: Results, s: int, width: int, height: int) -> Text:
             legend.append(f"   ── {names[other]} (runner-up)", style="cyan")
         legend.append("   ── 95% prediction band", style="orange1")
     if np.isfinite(plan):
-        legend.append(f"   │ plan price", style="magenta")
+        legend.append("   │ plan price", style="magenta")
     return Text("\n").join([chart, legend])
 
 
