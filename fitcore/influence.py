@@ -22,8 +22,7 @@ def cook_distance(x: np.ndarray, resid: np.ndarray, weight: np.ndarray | None, s
     """
     if len(x) == 0:
         return np.zeros(0), np.zeros(0)
-    h = leverages(x, lower, scale, series)
-    h = h[size[series] - 1, np.arange(len(x))]
+    h = leverages(x, lower, scale, series, sizes=size[series])
     w = 1.0 if weight is None else weight
     h = h * w
     with np.errstate(divide="ignore", invalid="ignore"):

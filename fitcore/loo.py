@@ -16,24 +16,29 @@ from .polyfit import FamilyFit, horner
 LEVERAGE_LIMIT = 1 - 1e-8
 
 
-def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray, series: np.ndarray | None = None) -> np.ndarray:
-    """(P, N) xᵀ(XᵀWX)⁻¹x of the leading 1, 2, …, P coefficients at points ``x`` (N,).
+def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray, series: np.ndarray | None = None,
+              sizes: np.ndarray | None = None) -> np.ndarray:
+    """xᵀ(XᵀWX)⁻¹x at points ``x`` (N,): (P, N) for the leading 1, 2, …, P coefficients,
+    or (N,) for each point's own number of coefficients ``sizes`` (N,).
 
     ``lower`` (P, P, S) and ``scale`` (P, S): scaled Cholesky factors; point i
     belongs to series ``series[i]`` (default: point i to series i).  Entries are
     gathered one at a time, so no (P, P, N) copy is made.
     """
-    p = lower.shape[0]
+    p = lower.shape[0] if sizes is None or not len(sizes) else min(lower.shape[0], int(sizes.max()))
     pick = (lambda a: a) if series is None else (lambda a: a[series])
     v = np.empty((p, len(x)))
     power = np.ones_like(x)
+    own = np.zeros(len(x)) if sizes is not None else None
     for i in range(p):
         acc = power * pick(scale[i])
         for j in range(i):
             acc -= pick(lower[i, j]) * v[j]
         v[i] = acc / pick(lower[i, i])
         power = power * x
-    return np.cumsum(v * v, axis=0)
+        if own is not None:
+            own += np.where(sizes > i, v[i] * v[i], 0.0)
+    return own if own is not None else np.cumsum(v * v, axis=0)
 
 
 def loo_residuals(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, series: np.ndarray,
