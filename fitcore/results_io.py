@@ -165,7 +165,7 @@ def results_table(results: Results, diagnosis=None):
         plan_price=repeat(results.plan_price), plan_volume=results.plan_volume.ravel(),
         plan_lo=results.plan_lo.ravel(), plan_hi=results.plan_hi.ravel(),
         plan_elasticity=results.plan_elasticity.ravel(),
-        flags=repeat_text([json.dumps(f, ensure_ascii=False) for f in _flag_lists(results, diagnosis)]),
+        flags=repeat_text([json.dumps(f, ensure_ascii=False) if f else "[]" for f in _flag_lists(results, diagnosis)]),
         fingerprint=repeat_text(data.fingerprints),
     )
     table = pa.table({name: pa.array(value, from_pandas=True) if not isinstance(value, pa.Array) else value
