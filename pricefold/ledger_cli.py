@@ -17,6 +17,8 @@ from fitcore.results_read import read_results
 
 from fitcore.text import clean
 
+from .show import key_text
+
 KEY_VARIABLE = "PRICEFOLD_LEDGER_KEY"
 
 
@@ -69,10 +71,6 @@ def run_verify(args) -> int:
         kind = "keyed (HMAC-SHA-256)" if ledger_key() else "SHA-256"
         print(f"{args.ledger}: intact, {len(records)} records, {kind} chain")
     return 1 if problems else 0
-
-
-def key_text(key: dict) -> str:
-    return " · ".join(clean(str(v)) for v in key.values())
 
 
 def run_show(args) -> int:

@@ -30,8 +30,9 @@ def attention_key(record: dict):
     return (-stops, -warns, score)
 
 
-def key_text(record: dict) -> str:
-    return " · ".join(clean(str(v)) for v in record["key"].values())
+def key_text(key: dict) -> str:
+    """A series key as one line of text, control characters replaced."""
+    return " · ".join(clean(str(v)) for v in key.values())
 
 
 def table(records: list[dict]) -> str:
@@ -39,7 +40,7 @@ def table(records: list[dict]) -> str:
     for r in sorted(records, key=attention_key):
         score = f"{r['score'] * 100:.0f}%" if r["score"] is not None else "—"
         flags = " ".join(f["code"] for f in r["flags"]) or "—"
-        lines.append(f"{key_text(r)[:40]:<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  {flags}")
+        lines.append(f"{key_text(r['key'])[:40]:<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  {flags}")
     return "\n".join(lines)
 
 
@@ -59,7 +60,7 @@ def why_chosen(record: dict) -> str:
 
 def detail(record: dict) -> str:
     lo, hi = record["price_range"]
-    out = [f"{key_text(record)} — {record['n']} observations, prices {money(lo)}–{money(hi)}",
+    out = [f"{key_text(record['key'])} — {record['n']} observations, prices {money(lo)}–{money(hi)}",
            f"chosen: {record['chosen'] or 'none'} ({record['rule']}): {why_chosen(record)}", "",
            f"  {'candidate':<10} {'CV MSE':>12} {'± SE':>10} {'Q²':>6} {'R²':>6}"]
     for c in record["candidates"]:

@@ -8,7 +8,6 @@ once.  Pure Python and numpy, so it is tested without a terminal.
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -26,12 +25,6 @@ FILTER_TITLES = {"attention": "needs attention, pending", "all": "all series", "
 SORTS = ("attention", "key", "score", "n")
 SORT_TITLES = {"attention": "attention", "key": "key", "score": "lowest score", "n": "fewest observations"}
 STATUS_MARK = {"pending": "·", "accepted": "✓", "overridden": "↺", "held": "‖", "stale": "!"}
-
-
-@dataclass(frozen=True)
-class Recorded:
-    series: int
-    action: str
 
 
 class TriageSession:
@@ -105,7 +98,7 @@ class TriageSession:
     def can_withdraw(self, s: int) -> bool:
         return own_standing(self.histories.get(self._ids[s]), self.who.analyst) is not None
 
-    def record(self, s: int, action: str, model: str | None = None, note: str = "") -> Recorded:
+    def record(self, s: int, action: str, model: str | None = None, note: str = "") -> None:
         """Append one decision on series ``s`` to the ledger (raises ``LedgerError`` with a one-line reason)."""
         chosen = self.results.chosen[s]
         proposed = self.results.names[chosen] if chosen >= 0 else None
@@ -116,7 +109,6 @@ class TriageSession:
                              model=model, proposed=proposed, note=note)
         ledger.append(self.ledger_path, [entry], self.who, key=self.key)
         self.reload_ledger()
-        return Recorded(s, action)
 
     # -- the list --------------------------------------------------------------------------
     @property
