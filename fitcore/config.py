@@ -35,11 +35,15 @@ from .errors import SettingsError
 from .thresholds import Thresholds
 
 DEFAULT_NAME = "pricefold.toml"
+TEXT, NUMBER = (str,), (int, float)
 KEYS = {
-    "columns": {"product", "segments", "price", "volume", "date", "weight", "sep"},
-    "fit": {"degrees", "loglog", "folds", "fold_order", "seed", "rule", "plan_price", "plan"},
-    "thresholds": set(Thresholds.names()),
+    "columns": {"product": TEXT, "segments": (list,), "price": TEXT, "volume": TEXT, "date": TEXT, "weight": TEXT,
+                "sep": TEXT},
+    "fit": {"degrees": (str, list), "loglog": (bool,), "folds": (int, str), "fold_order": TEXT, "seed": (int,),
+            "rule": TEXT, "plan_price": NUMBER, "plan": TEXT},
+    "thresholds": {name: NUMBER for name in Thresholds.names()},
 }
+KIND_NAMES = {str: "text", list: "a list", bool: "true or false", int: "a whole number", float: "a number"}
 
 
 def load_config(path: Path | None, *, cwd: Path | None = None) -> dict:
@@ -60,10 +64,14 @@ def load_config(path: Path | None, *, cwd: Path | None = None) -> dict:
                                 f"{', '.join(f'[{t}]' for t in KEYS)}")
         if not isinstance(values, dict):
             raise SettingsError(f"{path}: {table} must be a table, like [{table}]")
-        for key in values:
+        for key, value in values.items():
             if key not in KEYS[table]:
                 raise SettingsError(f"{path}: unknown key {key!r} in [{table}]; expected one of "
                                     f"{', '.join(sorted(KEYS[table]))}")
+            kinds = KEYS[table][key]
+            if isinstance(value, bool) and bool not in kinds or not isinstance(value, kinds):
+                wanted = " or ".join(KIND_NAMES[k] for k in kinds)
+                raise SettingsError(f"{path}: [{table}] {key} should be {wanted}, got {value!r}")
     document["_path"] = str(path)
     return document
 

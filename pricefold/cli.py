@@ -126,7 +126,7 @@ def resolve(args) -> None:
         args.plan = Path(plan) if plan else None
     if isinstance(args.degrees, list):
         args.degrees = ",".join(str(d) for d in args.degrees)
-    args.folds, args.seed = str(args.folds), args.seed
+    args.folds = str(args.folds)
     file_thresholds = [f"{k}={v}" for k, v in config.get("thresholds", {}).items()]
     args.threshold = file_thresholds + list(getattr(args, "threshold", []) or [])
     args.config_path = config.get("_path")

@@ -37,6 +37,9 @@ def test_settings_file_fills_in_and_the_command_line_wins(tmp_path):
     ("[fit]\nfoldz = 3\n", "unknown key 'foldz' in [fit]; expected one of degrees, fold_order, folds"),
     ("[colums]\nprice = 'p'\n", "unknown table [colums]; expected one of [columns], [fit], [thresholds]"),
     ("[fit\n", "not valid TOML"),
+    ("[fit]\nseed = 'seven'\n", "[fit] seed should be a whole number, got 'seven'"),
+    ("[fit]\nloglog = 'no'\n", "[fit] loglog should be true or false, got 'no'"),
+    ("[thresholds]\nmin_points = true\n", "[thresholds] min_points should be a whole number or a number, got True"),
 ])
 def test_settings_file_mistakes_are_one_line(tmp_path, text, message):
     config = tmp_path / "settings.toml"
