@@ -92,7 +92,11 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
         plt.scatter([x], [float(results.cv_mse[s, chosen])], marker="◆", color="green+")
     plt.xticks(positions, [results.names[c] for c in available])
     plt.xlim(0.5, len(available) + 0.5)
-    plt.ylabel("held-out MSE")
+    shown = folds[:, available][np.isfinite(folds[:, available]) & (folds[:, available] > 0)]
+    log_scale = len(shown) and shown.max() > 30 * max(float(means.min()), 1e-300)
+    if log_scale:  # one poor candidate would otherwise flatten all the others against the axis
+        plt.yscale("log")
+    plt.ylabel("held-out MSE" + (" (log scale)" if log_scale else ""))
     legend = Text("● CV mean ± SE   • each fold", style="cyan")
     legend.append("   ◆ chosen", style="green")
     legend.append("   ── one-SE line", style="orange1")
