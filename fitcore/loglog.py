@@ -62,7 +62,8 @@ def fit_loglog(u: np.ndarray, z: np.ndarray, volume: np.ndarray, w: np.ndarray |
         resid, defined = loo_residuals(u, z, w, series, log)
         others_w = np.repeat(total_w, counts) - weight
         smear_without = (np.repeat(smear * total_w, counts) - weighted_exp) / np.where(others_w > 0, others_w, 1.0)
-        held = volume * np.exp(-resid[0]) * smear_without
+        with np.errstate(over="ignore", invalid="ignore"):  # rows of leverage 1: marked undefined below
+            held = volume * np.exp(-resid[0]) * smear_without
         return LoglogFit(log, (volume - held) ** 2, sse_full, smear, defined[0])
 
     w_train, _ = train_and_test(segment_sums(weight, lay.bounds), lay)
