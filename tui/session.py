@@ -25,6 +25,7 @@ FILTER_TITLES = {"attention": "needs attention, pending", "all": "all series", "
 SORTS = ("attention", "key", "score", "n")
 SORT_TITLES = {"attention": "attention", "key": "key", "score": "lowest score", "n": "fewest observations"}
 STATUS_MARK = {"pending": "·", "accepted": "✓", "overridden": "↺", "held": "‖", "stale": "!"}
+STATUSES = tuple(STATUS_MARK)
 
 
 class TriageSession:
@@ -45,6 +46,7 @@ class TriageSession:
         self._offset = 0
         self.status = np.array(["pending"] * data.n_series, dtype=object)
         self.undecided = np.ones(data.n_series, dtype=bool)  # pending or stale, kept beside ``status``
+        self.status_code = np.zeros(data.n_series, dtype=np.int8)  # index into STATUSES, for fast counts
         self.diagnosis = diagnosis
         self._flagged = diagnosis.raised.any(axis=1)
         self.filter, self.sort, self.flag_filter = "attention", "attention", None
@@ -79,7 +81,7 @@ class TriageSession:
             if sid in self._lookup:
                 self._refresh_status(self._lookup[sid])
         if records or force:
-            stale = self.status == "stale"
+            stale = self.status_code == STATUSES.index("stale")
             if force or not np.array_equal(stale, self.diagnosis.flagged("stale")):
                 self.diagnosis = mark_stale(self.base_diagnosis, stale)
                 self._flagged = self.diagnosis.raised.any(axis=1)
@@ -90,6 +92,7 @@ class TriageSession:
         history = self.histories.get(self._ids[s])
         self.status[s] = history.status(self.results.data.fingerprints[s]) if history else "pending"
         self.undecided[s] = self.status[s] in ("pending", "stale")
+        self.status_code[s] = STATUSES.index(self.status[s])
 
     def history(self, s: int) -> list[dict]:
         history = self.histories.get(self._ids[s])
@@ -212,8 +215,7 @@ class TriageSession:
         return "warn" if codes else None
 
     def counts(self) -> dict[str, int]:
-        values, counts = np.unique(self.status, return_counts=True)
-        out = {name: 0 for name in STATUS_MARK}
-        out.update(dict(zip(values.tolist(), counts.tolist())))
+        tally = np.bincount(self.status_code, minlength=len(STATUSES))
+        out = dict(zip(STATUSES, tally.tolist()))
         out["attention"] = int(self.needs_attention().sum())
         return out
