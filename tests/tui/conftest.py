@@ -32,3 +32,13 @@ async def started(app, pilot):
 @pytest.fixture
 def ledger_path(tmp_path):
     return tmp_path / "ledger.jsonl"
+
+
+async def until(pilot, check, seconds: float = 8.0) -> None:
+    """Let the app run until ``check()`` holds (timers and polls fire late on a busy machine)."""
+    import time
+    deadline = time.monotonic() + seconds
+    while not check():
+        if time.monotonic() > deadline:
+            raise AssertionError("the screen did not get there in time")
+        await pilot.pause(0.05)

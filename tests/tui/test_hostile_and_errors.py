@@ -7,7 +7,7 @@ import numpy as np
 
 from fitcore.errors import DataError
 from fitcore.loader import Columns
-from tests.tui.conftest import make_app, screen_text, started
+from tests.tui.conftest import make_app, screen_text, started, until
 from tui.app import TriageApp
 from tui.factory import Source
 
@@ -38,10 +38,11 @@ async def test_hostile_names_are_shown_literally(tmp_path):
         for shown in ("[/]", "[bold]x", "?[2Jwipe", "LLLL…", "מוצר ירוק", "[@click=app.quit]y"):
             assert shown in text, shown
         for _ in range(len(HOSTILE)):  # the evidence title of each shows the name too
+            await until(pilot, lambda: app.screen.evidence.series == session.current)
+            await pilot.pause()
             label = session.labels[session.current]
             assert label[:60] in screen_text(app)
             await pilot.press("down")
-            await pilot.pause(0.3)  # the evidence follows once the cursor rests
         await pilot.press("a")
         await pilot.pause()
         assert app.is_running  # nothing was interpreted as an action

@@ -7,7 +7,7 @@ import pytest
 
 from fitcore import ledger as fledger
 from fitcore.diagnostics import CODES
-from tests.tui.conftest import make_app, screen_text, started
+from tests.tui.conftest import make_app, screen_text, started, until
 
 SIZES = [(80, 24), (160, 50)]
 
@@ -183,8 +183,9 @@ async def test_another_analysts_decision_shows_up(ledger_path):
         fledger.append(ledger_path, [fledger.Entry(series=session.results.data.key_of(s), action="accept",
                                                     fingerprint=session.results.data.fingerprints[s],
                                                     results=session.results_digest, model="poly0", proposed="poly0")], bo)
-        await pilot.pause(2.5)  # the screen looks at the ledger every 2 s
-        assert session.status[s] == "accepted" and len(session.view) == before - 1
+        await until(pilot, lambda: session.status[s] == "accepted")  # the screen looks every 2 s
+        await pilot.pause()
+        assert len(session.view) == before - 1
         assert f"{before - 1} listed" in screen_text(app)
 
 
@@ -193,7 +194,8 @@ async def test_tab_switches_to_the_evidence_when_narrow(ledger_path):
     async with app.run_test(size=(80, 24)) as pilot:
         session = await started(app, pilot)
         await pilot.press("down", "tab")
-        await pilot.pause(0.3)  # the evidence follows once the cursor rests
+        await until(pilot, lambda: app.screen.evidence.series == session.current)  # follows once the cursor rests
+        await pilot.pause()
         text = screen_text(app)
         assert session.labels[session.current] in text and "observed" in text
         await pilot.press("tab")
