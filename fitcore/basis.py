@@ -16,9 +16,25 @@ def window(lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return (lo + hi) / 2, (hi - lo) / 2
 
 
+def width(half: np.ndarray) -> np.ndarray:
+    """The half-width to divide by: 1 where the window has no width (a single price)."""
+    return np.where(half > 0, half, 1.0)
+
+
+def mapped(x: np.ndarray, mid: np.ndarray, half: np.ndarray) -> np.ndarray:
+    """x in the coordinate of its window: (x − mid) / half (half taken as 1 for a single price)."""
+    return (x - mid) / width(half)
+
+
 def to_window(x: np.ndarray, mid: np.ndarray, half: np.ndarray) -> np.ndarray:
     """Map x into [-1, 1] of its window (0 where the window has no width)."""
-    return np.where(half > 0, (x - mid) / np.where(half > 0, half, 1.0), 0.0)
+    return np.where(half > 0, mapped(x, mid, half), 0.0)
+
+
+def plain_loglog(a: np.ndarray, e: np.ndarray, log_mid: np.ndarray, log_half: np.ndarray):
+    """(a, e) of ln volume = a + e·ln price, from coefficients in u = (ln price − log_mid)/log_half."""
+    slope = e / width(log_half)
+    return a - slope * log_mid, slope
 
 
 def power_coefficients(coef: np.ndarray, mid: np.ndarray, half: np.ndarray) -> np.ndarray:

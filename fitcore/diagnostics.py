@@ -12,6 +12,9 @@ from functools import cached_property
 import numpy as np
 
 from . import reasons as R
+from .basis import mapped, plain_loglog, width
+from .polyfit import horner
+from .prediction import derivative
 from .results import Results
 from .thresholds import Thresholds
 
@@ -156,29 +159,25 @@ def _shape(results: Results) -> dict:
            ("rising_share", "rising_from", "rising_to", "rising_slope", "lowest_volume", "lowest_at")}
     t = np.linspace(-1.0, 1.0, GRID)
     step = 2.0 / (GRID - 1)
+    is_poly = np.array([c.family == "poly" for c in results.candidates])
     for lo in range(0, n_s, BLOCK):
         idx = np.arange(lo, min(lo + BLOCK, n_s))
         chosen = results.chosen[idx]
         ok = chosen >= 0
         idx, chosen = idx[ok], chosen[ok]
-        fam = np.array([results.candidates[c].family == "poly" for c in range(len(results.candidates))])
-        poly = fam[chosen]
+        poly = is_poly[chosen]
         price = results.mid[idx] + results.half[idx] * t[:, None]  # (G, n)
         coef = results.coef[idx, chosen].T  # (P, n)
         volume = np.empty_like(price)
         slope = np.empty_like(price)
-        from .polyfit import horner
-        from .prediction import derivative
         volume[:, poly] = horner(coef[:, None, poly], t[:, None])
-        width = np.where(results.half[idx] > 0, results.half[idx], 1.0)
-        slope[:, poly] = horner(derivative(coef[:, poly])[:, None, :], t[:, None]) / width[poly]
+        slope[:, poly] = horner(derivative(coef[:, poly])[:, None, :], t[:, None]) / width(results.half[idx[poly]])
         ll = ~poly
         if ll.any():
-            lwidth = np.where(results.log_half[idx[ll]] > 0, results.log_half[idx[ll]], 1.0)
-            e = coef[1, ll] / lwidth
+            at = idx[ll]
+            a, e = plain_loglog(coef[0, ll], coef[1, ll], results.log_mid[at], results.log_half[at])
             with np.errstate(divide="ignore", invalid="ignore"):
-                u = (np.log(price[:, ll]) - results.log_mid[idx[ll]]) / lwidth
-            volume[:, ll] = np.exp(coef[0, ll] + coef[1, ll] * u) * results.smear[idx[ll]]
+                volume[:, ll] = np.exp(a + e * np.log(price[:, ll])) * results.smear[at]
             slope[:, ll] = e * volume[:, ll] / price[:, ll]
         flat = results.half[idx] <= 0
         rising = (slope > 0) & ~flat
@@ -218,9 +217,8 @@ def _mid_volumes(results: Results) -> np.ndarray:
     out = results.coef[:, :, 0].copy()  # poly at t = 0
     for c, cand in enumerate(results.candidates):
         if cand.family == "loglog":
-            width = np.where(results.log_half > 0, results.log_half, 1.0)
             with np.errstate(divide="ignore", invalid="ignore"):
-                u = (np.log(results.mid) - results.log_mid) / width
+                u = mapped(np.log(results.mid), results.log_mid, results.log_half)
             out[:, c] = np.exp(results.coef[:, c, 0] + results.coef[:, c, 1] * u) * results.smear
     return out
 

@@ -11,7 +11,7 @@ from typing import Callable
 import numpy as np
 
 from . import reasons as R
-from .basis import to_window, window
+from .basis import mapped, plain_loglog, to_window, window
 from .candidates import candidates_for, complexity
 from .dataset import Dataset
 from .errors import SettingsError
@@ -20,7 +20,7 @@ from .influence import cook_distance
 from .loglog import fit_loglog
 from .loo import leverages, loo_residuals
 from .polyfit import fit_family, horner
-from .prediction import best_revenue_loglog, best_revenue_poly, loglog_at, mapped, poly_at
+from .prediction import best_revenue_loglog, best_revenue_poly, loglog_at, poly_at
 from .results import Results
 from .segments import segment_sums
 from .selection import choose
@@ -222,7 +222,7 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         revenue_price[poly_rows] = best_revenue_poly(coef[poly_rows, chosen[poly_rows]].T, mid[poly_rows], half[poly_rows])
     if ll is not None:
         rows = np.flatnonzero(chosen == n_c - 1)
-        elasticity = coef[rows, -1, 1] / np.where(log_half[rows] > 0, log_half[rows], 1.0)
+        _, elasticity = plain_loglog(coef[rows, -1, 0], coef[rows, -1, 1], log_mid[rows], log_half[rows])
         revenue_price[rows] = best_revenue_loglog(elasticity, ch.lo[rows], ch.hi[rows])
     log_part = (u, log_volume - ch.per_row(zbar), ll) if ll is not None else None
     influence = _influence(ch, chosen, cands, coef, sigma2, t, poly, log_part)

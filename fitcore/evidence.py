@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .basis import mapped
 from .prediction import t_quantile
 from .polyfit import horner
 from .results import Results
@@ -20,11 +21,9 @@ def series_rows(results: Results, s: int) -> tuple[np.ndarray, np.ndarray, np.nd
 
 def _mapped(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
     if results.candidates[c].family == "poly":
-        half = results.half[s] if results.half[s] > 0 else 1.0
-        return (prices - results.mid[s]) / half
-    half = results.log_half[s] if results.log_half[s] > 0 else 1.0
+        return mapped(prices, results.mid[s], results.half[s])
     with np.errstate(divide="ignore", invalid="ignore"):
-        return (np.log(prices) - results.log_mid[s]) / half
+        return mapped(np.log(prices), results.log_mid[s], results.log_half[s])
 
 
 def curve(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:

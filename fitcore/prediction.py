@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .basis import mapped, width
 from .polyfit import horner
 
 
@@ -29,21 +30,16 @@ def derivative(coef: np.ndarray) -> np.ndarray:
     return np.concatenate([coef[1:] * k, np.zeros((1,) + coef.shape[1:])])
 
 
-def mapped(price, mid, half):
-    return (price - mid) / np.where(half > 0, half, 1.0)
-
-
 def poly_at(coef, mid, half, leverage, sigma2, df, price, level):
     """Volume, interval bounds and elasticity of polynomial curves at ``price`` (each (S,)).
 
     ``leverage``: (S,) xᵀ(XᵀWX)⁻¹x at the price for this degree (``loo.leverages``).
     """
-    width = np.where(half > 0, half, 1.0)
-    t = (price - mid) / width
+    t = mapped(price, mid, half)
     volume = horner(coef, t)
     with np.errstate(invalid="ignore"):
         spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverage))
-    slope = horner(derivative(coef), t) / width
+    slope = horner(derivative(coef), t) / width(half)
     with np.errstate(divide="ignore", invalid="ignore"):
         elasticity = slope * price / volume
     return volume, volume - spread, volume + spread, elasticity
@@ -51,13 +47,11 @@ def poly_at(coef, mid, half, leverage, sigma2, df, price, level):
 
 def loglog_at(coef, mid, half, leverage, smear, sigma2, df, price, level):
     """The same for log-log curves; ``coef`` (2, S) in mapped ln price, ln volume not centred."""
-    width = np.where(half > 0, half, 1.0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        u = (np.log(price) - mid) / width
-        log_volume = coef[0] + coef[1] * u
+        log_volume = coef[0] + coef[1] * mapped(np.log(price), mid, half)
         spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverage))
         return (np.exp(log_volume) * smear, np.exp(log_volume - spread), np.exp(log_volume + spread),
-                coef[1] / width)
+                coef[1] / width(half))
 
 
 def best_revenue_poly(coef: np.ndarray, mid: np.ndarray, half: np.ndarray, grid: int = 65) -> np.ndarray:

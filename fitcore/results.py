@@ -7,7 +7,7 @@ from functools import cached_property
 import numpy as np
 
 from . import reasons
-from .basis import power_coefficients
+from .basis import plain_loglog, power_coefficients
 from .candidates import Candidate
 from .dataset import Dataset
 from .settings import FitSettings
@@ -102,9 +102,8 @@ class Results:
         cand = self.candidates[c]
         if cand.family == "poly":
             return power_coefficients(self.coef[s, c, :cand.degree + 1], self.mid[s], self.half[s]).tolist()
-        a, e = self.coef[s, c, :2]
-        width = self.log_half[s] if self.log_half[s] > 0 else 1.0
-        return [float(a - e * self.log_mid[s] / width), float(e / width)]
+        a, e = plain_loglog(self.coef[s, c, 0], self.coef[s, c, 1], self.log_mid[s], self.log_half[s])
+        return [float(a), float(e)]
 
     def folds_of(self, s: int) -> np.ndarray:
         """(K, C) held-out MSE per fold of series ``s``."""

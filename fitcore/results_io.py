@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .basis import power_coefficients
+from .basis import plain_loglog, power_coefficients
 from .errors import DataError
 from .results import SCHEMA, Results
 
@@ -27,10 +27,8 @@ def power_coef_table(results: Results) -> np.ndarray:
             size = cand.degree + 1
             out[:, c, :size] = power_coefficients(results.coef[:, c, :size], results.mid, results.half)
         else:
-            width = np.where(results.log_half > 0, results.log_half, 1.0)
-            e = results.coef[:, c, 1] / width
-            out[:, c, 0] = results.coef[:, c, 0] - e * results.log_mid
-            out[:, c, 1] = e
+            out[:, c, 0], out[:, c, 1] = plain_loglog(results.coef[:, c, 0], results.coef[:, c, 1],
+                                                      results.log_mid, results.log_half)
     return out
 
 
