@@ -45,8 +45,7 @@ class TriageSession:
         self._ledger_state: tuple[int, int] | None = None
         self._offset = 0
         self.status = np.array(["pending"] * data.n_series, dtype=object)
-        self.undecided = np.ones(data.n_series, dtype=bool)  # pending or stale, kept beside ``status``
-        self.status_code = np.zeros(data.n_series, dtype=np.int8)  # index into STATUSES, for fast counts
+        self.status_code = np.zeros(data.n_series, dtype=np.int8)  # index into STATUSES, for fast masks and counts
         self.diagnosis = diagnosis
         self._flagged = diagnosis.raised.any(axis=1)
         self.filter, self.sort, self.flag_filter = "attention", "attention", None
@@ -91,7 +90,6 @@ class TriageSession:
     def _refresh_status(self, s: int) -> None:
         history = self.histories.get(self._ids[s])
         self.status[s] = history.status(self.results.data.fingerprints[s]) if history else "pending"
-        self.undecided[s] = self.status[s] in ("pending", "stale")
         self.status_code[s] = STATUSES.index(self.status[s])
 
     def history(self, s: int) -> list[dict]:
@@ -118,6 +116,11 @@ class TriageSession:
     def current(self) -> int | None:
         return int(self.view[self.cursor]) if len(self.view) else None
 
+    @property
+    def undecided(self) -> np.ndarray:
+        """(S,) pending or stale: no decision stands on the current data."""
+        return (self.status_code == STATUSES.index("pending")) | (self.status_code == STATUSES.index("stale"))
+
     def needs_attention(self) -> np.ndarray:
         return self._flagged & self.undecided
 
@@ -128,7 +131,7 @@ class TriageSession:
         if self.filter == "attention":
             mask = self.needs_attention()
         elif self.filter == "pending":
-            mask = self.undecided.copy()
+            mask = self.undecided
         elif self.filter == "decided":
             mask = ~self.undecided
         else:
