@@ -279,22 +279,14 @@ def open_triage(source, ledger_path: Path, analyst: str | None) -> int:
 
 
 def run_demo(args) -> int:
-    from fitcore import fit_batch
-    from fitcore.diagnostics import diagnose
-    from fitcore.loader import load
-    from fitcore.plan import plan_prices
     from fitcore.results_io import write_results
-    from fitcore.settings import FitSettings, provenance
-    from tui.factory import sample_source, source_from_results
+    from tui.factory import fit_source, sample_source, source_from_results
 
-    sample = sample_source()
     folder = args.dir
     folder.mkdir(parents=True, exist_ok=True)
-    data = load(sample.data, sample.columns)
-    settings = FitSettings(extra=provenance(sample.columns.as_dict(), str(sample.plan_file), None))
-    results = fit_batch(data, settings, plan_price=plan_prices(data, sample.plan_file))
+    results, diagnosis = fit_source(sample_source())
     results_path = folder / "results.json"
-    write_results(results, results_path, diagnose(results))
+    write_results(results, results_path, diagnosis)
     print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
     return open_triage(source_from_results(results_path), folder / "ledger.jsonl", args.analyst)
 

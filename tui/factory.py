@@ -4,7 +4,7 @@ Used by the command line and by the tests alike, so both drive the same app.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
@@ -50,7 +50,7 @@ def source_from_results(path: Path) -> Source:
         raise DataError(f"the data it was fitted from is not at {data}", path=str(path))
     plan = extra.get("plan") or {}
     source = Source(data=data, columns=Columns.from_dict(extra["columns"]),
-                    settings=FitSettings(**{**settings.__dict__, "extra": {}}),
+                    settings=replace(settings, extra={}),
                     plan_file=Path(plan["file"]) if plan.get("file") else None, plan_price=plan.get("price"),
                     thresholds=Thresholds(**extra.get("thresholds", {})))
     if file_sha256(data) != head["input"]["sha256"]:
@@ -59,15 +59,19 @@ def source_from_results(path: Path) -> Source:
     return source
 
 
-def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | None = None,
-                 progress: Callable[[int, int], None] | None = None) -> TriageSession:
+def fit_source(source: Source, progress: Callable[[int, int], None] | None = None):
+    """``(results, diagnosis)`` of the source, its settings recording how to fit it again."""
     data = load(source.data, source.columns)
     plan = plan_prices(data, source.plan_file) if source.plan_file else source.plan_price
     extra = provenance(source.columns.as_dict(), str(source.plan_file) if source.plan_file else None,
                        source.plan_price)
-    settings = FitSettings(**{**source.settings.__dict__, "extra": extra})
-    results = fit_batch(data, settings, plan_price=plan, progress=progress)
-    diagnosis = diagnose(results, source.thresholds)
+    results = fit_batch(data, replace(source.settings, extra=extra), plan_price=plan, progress=progress)
+    return results, diagnose(results, source.thresholds)
+
+
+def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | None = None,
+                 progress: Callable[[int, int], None] | None = None) -> TriageSession:
+    results, diagnosis = fit_source(source, progress)
     session = TriageSession(results, diagnosis, ledger_path, who, results_digest(header(results, diagnosis)), key)
     session.warnings.extend(source.warnings)
     return session
