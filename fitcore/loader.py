@@ -138,16 +138,10 @@ def check_file(path: Path) -> None:
     if path.is_dir():
         return
     try:
-        with open(path, "rb") as handle:
-            head = handle.read(2)
-            if head == b"\x1f\x8b":  # gzip: look at what it holds
-                import gzip
-                with gzip.open(path, "rb") as inner:
-                    head = inner.read(8192)
-            else:
-                head += handle.read(8190)
-    except OSError as exc:
-        raise DataError(f"cannot read the file ({exc.strerror or exc})", path=str(path)) from None
+        with _open_bytes(path) as handle:  # for gzip, what it holds
+            head = handle.read(8192)
+    except (OSError, EOFError) as exc:  # EOFError: a gzip file cut short
+        raise DataError(f"cannot read the file ({getattr(exc, 'strerror', None) or exc})", path=str(path)) from None
     if not head:
         raise DataError("the file is empty; expected a header line and observations", path=str(path))
     if file_kind(path)[0] == "csv":
@@ -275,11 +269,19 @@ def _dates(column) -> tuple[np.ndarray, np.ndarray]:
     return values, np.isnat(values) & present
 
 
+def _is_gzip(path: Path) -> bool:
+    with open(path, "rb") as handle:
+        return handle.read(2) == b"\x1f\x8b"
+
+
+def _open_bytes(path: Path):
+    import gzip
+    return gzip.open(path, "rb") if _is_gzip(path) else open(path, "rb")
+
+
 def _open_text(path: Path):
     import gzip
-    with open(path, "rb") as handle:
-        gz = handle.read(2) == b"\x1f\x8b"
-    if gz:
+    if _is_gzip(path):
         return gzip.open(path, "rt", encoding="utf-8", newline="")
     return open(path, encoding="utf-8", newline="")
 
