@@ -81,18 +81,6 @@ class Dataset:
         return [hashlib.sha256(flat[lo * width:hi * width]).hexdigest()
                 for lo, hi in zip(self.offsets[:-1].tolist(), self.offsets[1:].tolist())]
 
-    def take_series(self, index: np.ndarray) -> "Dataset":
-        """A dataset of the series ``index`` (in that order)."""
-        index = np.asarray(index, dtype=np.int64)
-        counts = self.counts[index]
-        starts = self.offsets[:-1][index]
-        rows = np.repeat(starts - np.concatenate(([0], np.cumsum(counts)[:-1])), counts) + np.arange(counts.sum())
-        offsets = np.concatenate(([0], np.cumsum(counts))).astype(np.int64)
-        pick = lambda a: None if a is None else _readonly(a[rows])  # noqa: E731
-        return Dataset(self.key_names, {k: v[index] for k, v in self.keys.items()}, _readonly(offsets),
-                       pick(self.price), pick(self.volume), pick(self.weight), pick(self.date),
-                       pick(self.line), dict(self.source))
-
 
 def from_columns(keys: dict[str, np.ndarray], price, volume, *, weight=None, date=None,
                  line=None, source: dict | None = None) -> Dataset:

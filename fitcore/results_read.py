@@ -7,9 +7,6 @@ from pathlib import Path
 from .errors import DataError
 from .results import SCHEMA
 
-SERIES_FIELDS = ("n", "price_lo", "price_hi", "chosen", "score", "revenue_price", "plan_price", "flags", "fingerprint")
-
-
 def read_results(path: str | Path) -> tuple[dict, list[dict]]:
     """``(header, series)`` of a results file; ``series`` as in the JSON layout."""
     path = Path(path)
