@@ -10,16 +10,16 @@ from typing import Callable
 
 import numpy as np
 
+from . import kernels
 from . import reasons as R
-from .basis import mapped, plain_loglog, to_window, window
+from .basis import mapped, plain_loglog, window
 from .candidates import candidates_for, complexity
 from .dataset import Dataset
 from .errors import SettingsError
 from .folds import FoldLayout, layout
-from .influence import cook_distance
 from .loglog import fit_loglog
 from .loo import leverages, loo_residuals
-from .polyfit import fit_family, horner
+from .polyfit import fit_family
 from .prediction import best_revenue_loglog, best_revenue_poly, loglog_at, poly_at
 from .results import Results
 from .segments import segment_sums
@@ -59,16 +59,11 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
     return Results.build(data, settings, cands, plan, merged)
 
 
-ROW_FIELDS = ("cook", "leverage")
-
-
 def _total(name: str, n_series: int, n_rows: int, n_folds: int) -> int:
-    return n_rows if name in ROW_FIELDS else n_folds if name == "fold_err" else n_series
+    return n_folds if name == "fold_err" else n_series
 
 
 def _span(name: str, lo: int, hi: int, offsets: np.ndarray, fold_start: np.ndarray) -> slice:
-    if name in ROW_FIELDS:
-        return slice(int(offsets[lo]), int(offsets[hi]))
     if name == "fold_err":
         return slice(int(fold_start[lo]), int(fold_start[hi]))
     return slice(lo, hi)
@@ -107,8 +102,16 @@ class _Chunk:
         self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
         w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)
         self.w_sum = np.where(w_sum > 0, w_sum, 1.0)
-        self.lo = self.reduce(np.minimum, self.price)
-        self.hi = self.reduce(np.maximum, self.price)
+        # Price mapped onto each series' window, volume centred (``kernels.window_rows``).
+        self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
+
+    def windowed(self, x: np.ndarray, y: np.ndarray, use: np.ndarray | None = None):
+        """(t, centred y, lo, hi, mean y, least y); series outside ``use`` get zeros."""
+        t, centred = np.empty(len(x)), np.empty(len(x))
+        lo, hi, mean, least = (np.empty(len(self.counts)) for _ in range(4))
+        kernels.window_rows(x, y, np.empty(0) if self.weight is None else self.weight, self.offsets,
+                            np.empty(0, bool) if use is None else use, t, centred, lo, hi, mean, least)
+        return t, centred, lo, hi, mean, least
 
     def per_row(self, values: np.ndarray) -> np.ndarray:
         return np.repeat(values, self.counts)
@@ -116,48 +119,37 @@ class _Chunk:
     def sums(self, values: np.ndarray) -> np.ndarray:
         return segment_sums(values, self.whole)[:, 0]
 
-    def mean(self, values: np.ndarray) -> np.ndarray:
-        return self.sums(values if self.weight is None else self.weight * values) / self.w_sum
-
-    def reduce(self, ufunc, values: np.ndarray) -> np.ndarray:
-        return ufunc.reduceat(values, self.offsets[:-1]) if len(values) else np.zeros(0)
-
 
 def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, plan) -> dict:
     ch = _Chunk(data, s0, s1, settings)
     n_s, n_c, n_p = len(ch.counts), len(cands), len(settings.degrees)
     mid, half = window(ch.lo, ch.hi)
-    t = to_window(ch.price, ch.per_row(mid), ch.per_row(half))
-    ybar = ch.mean(ch.volume)
-    y = ch.volume - ch.per_row(ybar)
+    t, y, ybar = ch.t, ch.y, ch.ybar
     poly = fit_family(t, y, ch.weight, ch.lay, settings.degrees)
 
     coef = np.zeros((n_s, n_c, max(settings.degrees) + 1))
-    coef[:, :n_p] = poly.coef[:, :, -1].transpose(2, 0, 1)
+    coef[:, :n_p] = poly.coef[:, -1]
     coef[:, :n_p, 0] += ybar[:, None]
     fit_ok = np.ones((n_s, n_c), dtype=bool)
-    fit_ok[:, :n_p] = poly.ok[:, -1].T
+    fit_ok[:, :n_p] = poly.ok[:, -1]
     fold_ok = np.ones((n_s, n_c), dtype=bool)
-    fold_ok[:, :n_p] = poly.ok[:, :-1].all(axis=1).T
+    fold_ok[:, :n_p] = poly.ok[:, :-1].all(axis=1)
     sse_full = np.zeros((n_s, n_c))
-    sse_full[:, :n_p] = poly.sse_full.T
+    sse_full[:, :n_p] = poly.sse_full
     not_positive = np.zeros(n_s, dtype=bool)
 
     ll = None
     if settings.loglog:
-        positive = (ch.reduce(np.minimum, ch.volume) > 0) & (ch.lo > 0)
+        positive = (ch.v_low > 0) & (ch.lo > 0)
         not_positive = ~positive
-        pos_rows = ch.per_row(positive)
-        log_price = np.log(np.where(pos_rows, ch.price, 1.0))
-        log_volume = np.log(np.where(pos_rows, ch.volume, 1.0))
-        log_mid, log_half = window(np.log(np.where(positive, ch.lo, 1.0)), np.log(np.where(positive, ch.hi, 1.0)))
-        u = to_window(log_price, ch.per_row(log_mid), ch.per_row(log_half))
-        zbar = ch.mean(log_volume)
-        ll = fit_loglog(u, log_volume - ch.per_row(zbar), ch.volume, ch.weight, ch.lay, ch.loo)
-        coef[:, -1, :2] = ll.log.coef[0, :, -1].T
+        with np.errstate(divide="ignore", invalid="ignore"):  # rows of series not all positive: skipped
+            u, z, log_lo, log_hi, zbar, _ = ch.windowed(np.log(ch.price), np.log(ch.volume), positive)
+        log_mid, log_half = window(log_lo, log_hi)
+        ll = fit_loglog(u, z, ch.volume, ch.weight, ch.lay, ch.loo)
+        coef[:, -1, :2] = ll.log.coef[:, -1, 0]
         coef[:, -1, 0] += zbar
-        fit_ok[:, -1] = ll.log.ok[0, -1]
-        fold_ok[:, -1] = ll.log.ok[0, :-1].all(axis=0)
+        fit_ok[:, -1] = ll.log.ok[:, -1, 0]
+        fold_ok[:, -1] = ll.log.ok[:, :-1, 0].all(axis=1)
         sse_full[:, -1] = ll.sse_full
     else:
         log_mid = log_half = np.zeros(n_s)
@@ -174,13 +166,13 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         cv_mse, cv_se, press = _loo_summary(ch, fold_err)
     else:
         sse_test = np.zeros((n_s, ch.lay.n_folds, n_c))
-        sse_test[..., :n_p] = poly.sse_test.transpose(2, 1, 0)
+        sse_test[..., :n_p] = poly.sse_test
         if ll is not None:
             sse_test[..., -1] = ll.sse_test.T
-        with np.errstate(invalid="ignore", divide="ignore"):
-            fold_err = sse_test / poly.w_test.T[..., None]
-        cv_mse = fold_err.mean(axis=1)
-        cv_se = fold_err.std(axis=1, ddof=1) / np.sqrt(ch.lay.n_folds)
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):  # unavailable cells: masked below
+            fold_err = sse_test / poly.w_test[..., None]
+            cv_mse = fold_err.mean(axis=1)
+            cv_se = fold_err.std(axis=1, ddof=1) / np.sqrt(ch.lay.n_folds)
         press = sse_test.sum(axis=1)
 
     n_coef = complexity(cands)
@@ -198,14 +190,14 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
     sigma2 = sse_full / np.maximum(df, 1)
     plan_cols = [np.full((n_s, n_c), nan) for _ in range(4)]
     if ll is not None:
-        sigma2[:, -1] = ll.log.sse_full[0] / np.maximum(df[:, -1], 1)
+        sigma2[:, -1] = ll.log.sse_full[:, 0] / np.maximum(df[:, -1], 1)
     at = np.flatnonzero(np.isfinite(plan))
     if len(at):
         with np.errstate(divide="ignore", invalid="ignore"):
-            lev = leverages(mapped(plan[at], mid[at], half[at]), poly.lower[..., at], poly.scale[:, at])
+            lev = leverages(mapped(plan[at], mid[at], half[at]), poly.lower[at], poly.scale[at])
             if ll is not None:
                 log_lev = leverages(mapped(np.log(plan[at]), log_mid[at], log_half[at]),
-                                    ll.log.lower[..., at], ll.log.scale[:, at])[1]
+                                    ll.log.lower[at], ll.log.scale[at])[1]
         for j, cand in enumerate(cands):
             if cand.family == "poly":
                 values = poly_at(coef[at, j].T, mid[at], half[at], lev[cand.degree], sigma2[at, j], df[at, j],
@@ -224,8 +216,8 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         rows = np.flatnonzero(chosen == n_c - 1)
         _, elasticity = plain_loglog(coef[rows, -1, 0], coef[rows, -1, 1], log_mid[rows], log_half[rows])
         revenue_price[rows] = best_revenue_loglog(elasticity, ch.lo[rows], ch.hi[rows])
-    log_part = (u, log_volume - ch.per_row(zbar), ll) if ll is not None else None
-    influence = _influence(ch, chosen, cands, coef, sigma2, t, poly, log_part)
+    log_part = (u, z, ll) if ll is not None else None
+    top_cook, top_row = _top_influence(ch, chosen, cands, coef, sigma2, t, poly, log_part)
     keep = np.repeat(available, ch.counts, axis=0) if ch.loo else available[:, None, :]
     return dict(
         available=available, reason=reason, cv_mse=cv_mse, cv_se=cv_se, r2=r2, q2=q2,
@@ -234,46 +226,33 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         price_lo=ch.lo, price_hi=ch.hi, mid=mid, half=half, log_mid=log_mid, log_half=log_half,
         coef=coef, smear=ll.smear if ll is not None else np.ones(n_s), sigma2=sigma2, df=df, chosen=chosen,
         plan_volume=plan_cols[0], plan_lo=plan_cols[1], plan_hi=plan_cols[2], plan_elasticity=plan_cols[3],
-        revenue_price=revenue_price, cook=influence[0], leverage=influence[1],
-        top_cook=influence[2], top_row=influence[3] + int(data.offsets[s0]),
+        revenue_price=revenue_price, top_cook=top_cook,
+        top_row=np.where(top_row >= 0, top_row + int(data.offsets[s0]), -1),
     )
 
 
-def _influence(ch: _Chunk, chosen, cands, coef, sigma2, t, poly, log_part):
-    """Cook's distance and leverage of each row under its series' chosen curve (N,), in dataset order;
-    and per series (S,) the largest Cook's distance (-1 when none) and its chunk-relative row."""
-    n_rows = len(t)
-    cook, lev = np.full(n_rows, np.nan), np.full(n_rows, np.nan)
-    series = ch.per_row(np.arange(len(ch.counts)))
-    picked = ch.per_row(chosen)
+def _top_influence(ch: _Chunk, chosen, cands, coef, sigma2, t, poly, log_part):
+    """Per series (S,): the largest Cook's distance of a row under the chosen curve (-1 when none)
+    and the first chunk-relative dataset row holding it (-1 when none)."""
+    n_s = len(ch.counts)
+    top, first = np.full(n_s, -1.0), np.full(n_s, -1, dtype=np.int64)
     sizes = np.array([c.complexity for c in cands])
     is_poly = np.array([c.family == "poly" for c in cands])
-    size = np.where(chosen >= 0, sizes[np.maximum(chosen, 0)], 1)
-    rows = np.flatnonzero((picked >= 0) & is_poly[np.maximum(picked, 0)])
-    if len(rows):
-        s = series[rows]
-        resid = ch.volume[rows] - horner(coef[s, picked[rows]].T, t[rows])
-        sig = sigma2[np.arange(len(chosen)), np.maximum(chosen, 0)]
-        cook[rows], lev[rows] = cook_distance(t[rows], resid, None if ch.weight is None else ch.weight[rows], s,
-                                              poly.lower, poly.scale, size, sig)
+    picked = np.maximum(chosen, 0)
+    size = np.where(chosen >= 0, sizes[picked], 0)
+    order = np.arange(len(t)) if ch.lay.order is None else ch.lay.order  # chunk-relative dataset rows
+    weight = np.empty(0) if ch.weight is None else ch.weight
+    offsets = ch.offsets.astype(np.int64)
+    every = np.arange(n_s)
+    kernels.influence_rows(t, ch.volume, weight, offsets, order, np.ascontiguousarray(coef[every, picked]),
+                           np.where(is_poly[picked], size, 0), poly.lower, poly.scale,
+                           sigma2[every, picked], top, first)
     if log_part is not None:
         u, z, ll = log_part
-        rows = np.flatnonzero(picked == len(cands) - 1)
-        if len(rows):
-            s = series[rows]
-            a, e = ll.log.coef[0, 0, -1], ll.log.coef[0, 1, -1]
-            resid = z[rows] - (a[s] + e[s] * u[rows])
-            sig = sigma2[:, -1]
-            cook[rows], lev[rows] = cook_distance(u[rows], resid, None if ch.weight is None else ch.weight[rows], s,
-                                                  ll.log.lower, ll.log.scale, size, sig)
-    if ch.lay.order is not None:
-        cook[ch.lay.order], lev[ch.lay.order] = cook.copy(), lev.copy()
-    # The most influential row of each series, while the chunk is in cache.
-    filled = np.where(np.isnan(cook), -1.0, cook)
-    top = ch.reduce(np.maximum, filled)
-    hit = filled == ch.per_row(top)
-    first = ch.reduce(np.minimum, np.where(hit, np.arange(n_rows), n_rows))
-    return cook, lev, top, first
+        kernels.influence_rows(u, z, weight, offsets, order, np.ascontiguousarray(ll.log.coef[:, -1, 0]),
+                               np.where(chosen == len(cands) - 1, size, 0), ll.log.lower, ll.log.scale,
+                               sigma2[:, -1], top, first)
+    return top, first
 
 
 def _loo_summary(ch: _Chunk, fold_err: np.ndarray):

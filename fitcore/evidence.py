@@ -8,8 +8,8 @@ from __future__ import annotations
 import numpy as np
 
 from .basis import mapped
-from .prediction import t_quantile
 from .polyfit import horner
+from .prediction import t_quantile
 from .results import Results
 
 
@@ -19,7 +19,7 @@ def series_rows(results: Results, s: int) -> tuple[np.ndarray, np.ndarray, np.nd
     return data.price[rows], data.volume[rows], None if data.weight is None else data.weight[rows]
 
 
-def _mapped(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
+def mapped_rows(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
     if results.candidates[c].family == "poly":
         return mapped(prices, results.mid[s], results.half[s])
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -29,27 +29,35 @@ def _mapped(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
 def curve(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
     """Volume of candidate ``c`` of series ``s`` at ``prices`` (point prediction)."""
     cand = results.candidates[c]
-    x = _mapped(results, s, c, np.asarray(prices, dtype=float))
+    x = mapped_rows(results, s, c, np.asarray(prices, dtype=float))
     if cand.family == "poly":
         return horner(results.coef[s, c, :cand.degree + 1][:, None], x)
     a, e = results.coef[s, c, :2]
     return np.exp(a + e * x) * results.smear[s]
 
 
-def band(results: Results, s: int, c: int, prices: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Lower and upper prediction-interval bounds (``results.settings.level``) at ``prices``."""
+def design_factor(results: Results, s: int, c: int) -> np.ndarray:
+    """R of the QR factorisation of candidate ``c``'s weighted design matrix on series ``s``'s rows."""
+    price, _, weight = series_rows(results, s)
+    x_rows = mapped_rows(results, s, c, price)
+    root_w = np.ones_like(x_rows) if weight is None else np.sqrt(weight)
+    design = np.vander(x_rows, results.candidates[c].complexity, increasing=True) * root_w[:, None]
+    return np.linalg.qr(design, mode="r")
+
+
+def leverage_at(r: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """xᵀ(XᵀWX)⁻¹x at mapped points ``x``, from the design's R."""
     from scipy.linalg import solve_triangular
 
+    z = solve_triangular(r, np.vander(x, r.shape[0], increasing=True).T, trans="T")
+    return np.sum(z * z, axis=0)
+
+
+def band(results: Results, s: int, c: int, prices: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Lower and upper prediction-interval bounds (``results.settings.level``) at ``prices``."""
     cand = results.candidates[c]
-    size = cand.complexity
-    price, volume, weight = series_rows(results, s)
-    x_rows = _mapped(results, s, c, price)
-    x_grid = _mapped(results, s, c, np.asarray(prices, dtype=float))
-    root_w = np.ones_like(x_rows) if weight is None else np.sqrt(weight)
-    design = np.vander(x_rows, size, increasing=True) * root_w[:, None]
-    r = np.linalg.qr(design, mode="r")
-    z = solve_triangular(r, np.vander(x_grid, size, increasing=True).T, trans="T")
-    leverage = np.sum(z * z, axis=0)
+    x_grid = mapped_rows(results, s, c, np.asarray(prices, dtype=float))
+    leverage = leverage_at(design_factor(results, s, c), x_grid)
     spread = t_quantile(results.settings.level, np.array([results.df[s, c]]))[0] * np.sqrt(
         results.sigma2[s, c] * (1 + leverage))
     if cand.family == "poly":

@@ -20,6 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import kernels
 from .settings import FitSettings
 
 
@@ -63,30 +64,26 @@ def time_bounds(counts: np.ndarray, k: int) -> np.ndarray:
     return np.where(b == 0, 0, first[:, None] + (b - 1) * size[:, None])
 
 
-def splitmix64(x: np.ndarray) -> np.ndarray:
-    """The SplitMix64 finaliser: a well-mixed 64-bit hash of each uint64."""
-    with np.errstate(over="ignore"):
-        z = x + np.uint64(0x9E3779B97F4A7C15)
-        z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
-        z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
-        return z ^ (z >> np.uint64(31))
-
-
 def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int) -> np.ndarray:
-    """(N,) a seeded permutation of each series' rows, series kept contiguous."""
+    """(N,) a seeded permutation of each series' rows, series kept contiguous.
+
+    Rows are ordered by the top 20 bits of their draw (``kernels.shuffle_draws``),
+    then by position; one numpy sort of packed keys does every series at once.
+    """
+    offsets = offsets.astype(np.int64)
     counts = np.diff(offsets)
     n = int(offsets[-1])
-    series = np.repeat(np.arange(len(counts), dtype=np.int64), counts)
-    position = np.arange(n, dtype=np.int64) - np.repeat(offsets[:-1], counts)
-    with np.errstate(over="ignore"):
-        stream = splitmix64(key_hash ^ splitmix64(np.uint64(seed) + np.zeros(1, np.uint64)))
-        draw = splitmix64(np.repeat(stream, counts) + position.astype(np.uint64))
+    seed = np.uint64(int(seed) % 2 ** 64)
     if len(counts) < 2 ** 23 and (n == 0 or counts.max() < 2 ** 20):
-        # One sort of packed keys: series (23 bits) | random (20 bits) | position (20 bits).
-        packed = (series << 40) | ((draw >> np.uint64(44)).astype(np.int64) << 20) | position
+        packed = np.empty(n, dtype=np.int64)
+        kernels.shuffle_draws(offsets, key_hash.astype(np.uint64), seed, packed, np.empty(0, np.uint64))
         packed.sort()
-        return np.repeat(offsets[:-1], counts) + (packed & (2 ** 20 - 1))
-    return np.lexsort((position, draw, series))
+        return offsets[packed >> 40] + (packed & (2 ** 20 - 1))
+    # Too many rows or series to pack: order by the whole draw, then position.
+    draws = np.empty(n, dtype=np.uint64)
+    kernels.shuffle_draws(offsets, key_hash.astype(np.uint64), seed, np.empty(0, np.int64), draws)
+    series = np.repeat(np.arange(len(counts)), counts)
+    return np.lexsort((np.arange(n) - offsets[series], draws, series))
 
 
 def layout(offsets: np.ndarray, settings: FitSettings, *, key_hash: np.ndarray | None = None,

@@ -1,30 +1,37 @@
-"""Leverage and Cook's distance of every observation under its series' chosen curve.
+"""Leverage and Cook's distance of one series' observations under its chosen curve.
 
 Cook's distance Dᵢ = wᵢeᵢ²·hᵢᵢ / (p·s²·(1 − hᵢᵢ)²) (Cook 1977, Technometrics
 19:15–18), with hᵢᵢ the leverage, eᵢ the residual, p the number of
 coefficients and s² the residual variance.  For the log-log curve both are
 on the log scale, where that curve is fitted.
+
+The engine keeps only each series' largest distance (``Results.top_cook``,
+computed in ``kernels.influence_rows``); this recomputes one series' rows on
+demand, for evidence and for checking.
 """
 from __future__ import annotations
 
 import numpy as np
 
-from .loo import leverages
+from .evidence import design_factor, leverage_at, mapped_rows, series_rows
+from .polyfit import horner
+from .results import Results
 
 
-def cook_distance(x: np.ndarray, resid: np.ndarray, weight: np.ndarray | None, series: np.ndarray,
-                  lower: np.ndarray, scale: np.ndarray, size: np.ndarray, sigma2: np.ndarray):
-    """(N,) Cook's distances and (N,) leverages.
-
-    ``x``: mapped regressor per row; ``resid``: residual per row; ``series``:
-    each row's series (indexes ``lower`` (P, P, S), ``scale`` (P, S),
-    ``sigma2`` (S,)); ``size``: (S,) coefficients of each series' curve.
-    """
-    if len(x) == 0:
-        return np.zeros(0), np.zeros(0)
-    h = leverages(x, lower, scale, series, sizes=size[series])
-    w = 1.0 if weight is None else weight
-    h = h * w
+def series_influence(results: Results, s: int) -> tuple[np.ndarray, np.ndarray]:
+    """(n,) leverages and (n,) Cook's distances of series ``s``'s rows; NaN when nothing was chosen."""
+    price, volume, weight = series_rows(results, s)
+    c = int(results.chosen[s])
+    if c < 0:
+        return np.full(len(price), np.nan), np.full(len(price), np.nan)
+    cand = results.candidates[c]
+    x = mapped_rows(results, s, c, price)
+    w = np.ones_like(x) if weight is None else weight
+    h = w * leverage_at(design_factor(results, s, c), x)
+    if cand.family == "poly":
+        resid = volume - horner(results.coef[s, c, :cand.degree + 1][:, None], x)
+    else:
+        resid = np.log(volume) - (results.coef[s, c, 0] + results.coef[s, c, 1] * x)
     with np.errstate(divide="ignore", invalid="ignore"):
-        cook = w * resid ** 2 * h / (size[series] * sigma2[series] * (1 - h) ** 2)
-    return cook, h
+        cook = w * resid ** 2 * h / (cand.complexity * results.sigma2[s, c] * (1 - h) ** 2)
+    return h, cook

@@ -12,9 +12,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import kernels
 from .folds import FoldLayout
 from .loo import loo_residuals
-from .polyfit import FamilyFit, fit_family, row_blocks, train_and_test
+from .polyfit import FamilyFit, fit_family
 from .segments import segment_sums
 
 
@@ -45,37 +46,32 @@ def fit_loglog(u: np.ndarray, z: np.ndarray, volume: np.ndarray, w: np.ndarray |
     """
     log = fit_family(u, z, w, lay, (1,))
     counts = np.diff(lay.bounds[:, [0, -1]], axis=1)[:, 0]
-    weight = np.ones_like(volume) if w is None else w
-    a, e = log.coef[0, 0], log.coef[0, 1]  # (F + 1, S)
-    whole = lay.bounds[:, [0, -1]]
+    a, e = log.coef[:, :, 0, 0], log.coef[:, :, 0, 1]  # (S, F + 1)
+    if loo:
+        return _leave_one_out(u, z, volume, w, lay, log, counts, a[:, -1], e[:, -1])
+    growth = np.empty((lay.n_folds + 1, len(u)))  # exp(log residual) of every row under every fit
+    kernels.loglog_residuals(u, z, lay.bounds, a, e, growth)
+    np.exp(growth, out=growth)  # numpy's vectorised exp: ~4× a compiled scalar loop here
+    sse_test = np.empty((len(counts), lay.n_folds))
+    smear, sse_full = np.empty(len(counts)), np.empty(len(counts))
+    kernels.loglog_volume_errors(volume, np.empty(0) if w is None else w, lay.bounds, lay.held_out.astype(np.int64),
+                                 lay.cumulative, growth, smear, sse_full, sse_test)
+    return LoglogFit(log, sse_test.T, sse_full, smear, np.ones(len(counts), dtype=bool))
 
-    # exp(residual) of the full fit; a fold's is this × exp(−Δa − Δe·u), Δ = fold − full.
-    full_exp = np.exp(z - np.repeat(a[-1], counts) - np.repeat(e[-1], counts) * u)
+
+def _leave_one_out(u, z, volume, w, lay: FoldLayout, log: FamilyFit, counts, a, e) -> LoglogFit:
+    weight = np.ones_like(volume) if w is None else w
+    whole = lay.bounds[:, [0, -1]]
+    full_exp = np.exp(z - np.repeat(a, counts) - np.repeat(e, counts) * u)  # exp(residual) of the full fit
     weighted_exp = weight * full_exp
     total_w = segment_sums(weight, whole)[:, 0]
     smear = segment_sums(weighted_exp, whole)[:, 0] / np.where(total_w > 0, total_w, 1.0)
     fitted = volume / full_exp
     sse_full = segment_sums(weight * (volume - fitted * np.repeat(smear, counts)) ** 2, whole)[:, 0]
-
-    if loo:
-        series = np.repeat(np.arange(len(counts)), counts)
-        resid, defined = loo_residuals(u, z, w, series, log)
-        others_w = np.repeat(total_w, counts) - weight
-        smear_without = (np.repeat(smear * total_w, counts) - weighted_exp) / np.where(others_w > 0, others_w, 1.0)
-        with np.errstate(over="ignore", invalid="ignore"):  # rows of leverage 1: marked undefined below
-            held = volume * np.exp(-resid[0]) * smear_without
-        return LoglogFit(log, (volume - held) ** 2, sse_full, smear, defined[0])
-
-    w_train, _ = train_and_test(segment_sums(weight, lay.bounds), lay)
-    _, block = row_blocks(lay.bounds)
-    sse_test = np.zeros((lay.n_folds, len(counts)))
-    for f in range(lay.n_folds):
-        shift = np.exp(-(np.repeat(e[f] - e[-1], counts) * u))  # per-series factor exp(−Δa) applied below
-        train_sum, _ = train_and_test(segment_sums(weighted_exp * shift, lay.bounds), lay)
-        smear_f = train_sum[f] * np.exp(-(a[f] - a[-1])) / np.where(w_train[f] > 0, w_train[f], 1.0)
-        rows = np.flatnonzero(block == lay.held_out[f])
-        series = np.repeat(np.arange(len(counts)), np.diff(lay.bounds[:, lay.held_out[f]:lay.held_out[f] + 2], axis=1)[:, 0])
-        # Held-out prediction exp(fitted ln volume)·smear = fitted × exp(Δa + Δe·u) × smear.
-        predicted = fitted[rows] * np.exp((a[f] - a[-1])[series]) / shift[rows] * smear_f[series]
-        sse_test[f] = np.bincount(series, weight[rows] * (volume[rows] - predicted) ** 2, minlength=len(counts))
-    return LoglogFit(log, sse_test, sse_full, smear, np.ones(len(counts), dtype=bool))
+    series = np.repeat(np.arange(len(counts)), counts)
+    resid, defined = loo_residuals(u, z, w, series, log)
+    others_w = np.repeat(total_w, counts) - weight
+    smear_without = (np.repeat(smear * total_w, counts) - weighted_exp) / np.where(others_w > 0, others_w, 1.0)
+    with np.errstate(over="ignore", invalid="ignore"):  # rows of leverage 1: marked undefined later
+        held = volume * np.exp(-resid[0]) * smear_without
+    return LoglogFit(log, (volume - held) ** 2, sse_full, smear, defined[0])

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import kernels
 from .polyfit import FamilyFit, horner
 
 # hᵢᵢ this close to 1 means row i alone pins down a coefficient: its
@@ -21,24 +22,16 @@ def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray, series: np.nd
     """xᵀ(XᵀWX)⁻¹x at points ``x`` (N,): (P, N) for the leading 1, 2, …, P coefficients,
     or (N,) for each point's own number of coefficients ``sizes`` (N,).
 
-    ``lower`` (P, P, S) and ``scale`` (P, S): scaled Cholesky factors; point i
-    belongs to series ``series[i]`` (default: point i to series i).  Entries are
-    gathered one at a time, so no (P, P, N) copy is made.
+    ``lower`` (S, P, P) and ``scale`` (S, P): scaled Cholesky factors; point i
+    belongs to series ``series[i]`` (default: point i to series i).
     """
-    p = lower.shape[0] if sizes is None or not len(sizes) else min(lower.shape[0], int(sizes.max()))
-    pick = (lambda a: a) if series is None else (lambda a: a[series])
-    v = np.empty((p, len(x)))
-    power = np.ones_like(x)
-    own = np.zeros(len(x)) if sizes is not None else None
-    for i in range(p):
-        acc = power * pick(scale[i])
-        for j in range(i):
-            acc -= pick(lower[i, j]) * v[j]
-        v[i] = acc / pick(lower[i, i])
-        power = power * x
-        if own is not None:
-            own += np.where(sizes > i, v[i] * v[i], 0.0)
-    return own if own is not None else np.cumsum(v * v, axis=0)
+    x = np.ascontiguousarray(x, dtype=np.float64)
+    series = np.arange(len(x)) if series is None else series
+    own = sizes is not None
+    out = np.empty((1 if own else lower.shape[1], len(x)))
+    kernels.leverage_rows(x, np.ascontiguousarray(lower), np.ascontiguousarray(scale), series.astype(np.int64),
+                          np.empty(0, np.int64) if not own else sizes.astype(np.int64), out)
+    return out[0] if own else out
 
 
 def loo_residuals(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, series: np.ndarray,
@@ -51,11 +44,11 @@ def loo_residuals(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, series: np
     if w is not None:
         h_all = h_all * w
     resid = np.empty((len(fit.degrees), len(x)))
-    defined = np.ones((len(fit.degrees), fit.lower.shape[-1]), dtype=bool)
+    defined = np.ones((len(fit.degrees), fit.lower.shape[0]), dtype=bool)
     for j, d in enumerate(fit.degrees):
         h = h_all[d]
         high = h >= LEVERAGE_LIMIT
         defined[j, np.unique(series[high])] = False
-        e = y - horner(fit.coef[j][:, -1, series], x)
+        e = y - horner(fit.coef[series, -1, j].T, x)
         resid[j] = e / np.where(high, 1.0, 1.0 - h)
     return resid, defined

@@ -30,9 +30,9 @@ class Results:
     u = (ln price − log_mid)/log_half.  Per series (S,): ``chosen`` (-1 when
     nothing is available), ``price_lo``, ``price_hi``, ``mid``, ``half``,
     ``log_mid``, ``log_half``, ``smear``, ``plan_price``, ``revenue_price``.
-    Per observation (N,), in dataset row order, under the chosen curve:
-    ``cook`` (Cook's distance) and ``leverage`` (NaN where nothing was chosen); per series,
-    ``top_cook`` (the largest, -1 where none) and ``top_row`` (its dataset row).
+    Under the chosen curve, per series: ``top_cook``, the largest Cook's
+    distance of its rows (-1 where none), and ``top_row``, the dataset row
+    holding it (-1 where none); ``influence.series_influence`` gives every row's.
     """
 
     data: Dataset
@@ -63,8 +63,6 @@ class Results:
     plan_hi: np.ndarray
     plan_elasticity: np.ndarray
     revenue_price: np.ndarray
-    cook: np.ndarray
-    leverage: np.ndarray
     top_cook: np.ndarray
     top_row: np.ndarray
 
@@ -127,5 +125,5 @@ def _empty(n_c: int, p: int) -> dict:
                  fold_err=z(0, n_c), coef=z(0, n_c, p), chosen=z(0, dtype=np.int64), n_folds=z(0, dtype=np.int64),
                  top_row=z(0, dtype=np.int64))
     parts.update({name: z(0) for name in ("price_lo", "price_hi", "mid", "half", "log_mid", "log_half",
-                                          "smear", "revenue_price", "cook", "leverage", "top_cook")})
+                                          "smear", "revenue_price", "top_cook")})
     return parts

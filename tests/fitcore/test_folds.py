@@ -6,7 +6,7 @@ from hypothesis import given, settings as hsettings, strategies as st
 from sklearn.model_selection import KFold, TimeSeriesSplit
 
 import fitcore
-from fitcore.folds import fold_ids, split_indices
+from fitcore.folds import fold_ids, shuffle_order, split_indices
 
 
 def offsets_of(counts):
@@ -80,3 +80,27 @@ def test_shuffle_is_pinned_across_versions_and_machines():
 
 # Recorded from this implementation (not an outside reference): a regression pin.
 PINNED = [2, 0, 1, 1, 2, 0, 1, 1, 2, 0, 0, 2]
+
+
+def _splitmix64(x: int) -> int:
+    """SplitMix64's output function (Steele, Lea & Flood 2014; constants as in Vigna's splitmix64.c)."""
+    mask = 2 ** 64 - 1
+    z = (x + 0x9E3779B97F4A7C15) & mask
+    z = ((z ^ (z >> 30)) * 0xBF58476D1CE4E5B9) & mask
+    z = ((z ^ (z >> 27)) * 0x94D049BB133111EB) & mask
+    return z ^ (z >> 31)
+
+
+def test_shuffle_follows_its_documented_definition():
+    """Rows ordered by the top 20 bits of splitmix64(stream + position), then position (folds.py)."""
+    rng = np.random.default_rng(7)
+    counts = rng.integers(1, 90, 40)
+    hashes = rng.integers(0, 2 ** 63, 40).astype(np.uint64) * np.uint64(2) + np.uint64(1)
+    seed = 2 ** 40 + 3
+    got = shuffle_order(offsets_of(counts), hashes, seed)
+    start = 0
+    for n, key in zip(counts.tolist(), hashes.tolist()):
+        stream = _splitmix64(key ^ _splitmix64(seed))
+        ranked = sorted(range(n), key=lambda j: (_splitmix64((stream + j) % 2 ** 64) >> 44, j))
+        assert got[start:start + n].tolist() == [start + j for j in ranked]
+        start += n

@@ -6,9 +6,11 @@ Reference: statsmodels ``OLSResults.get_influence()``: ``hat_matrix_diag`` and
 from __future__ import annotations
 
 import numpy as np
+import pytest
 import statsmodels.api as sm
 
 import fitcore
+from fitcore.influence import series_influence
 from tests.conftest import random_dataset, series_arrays
 
 
@@ -28,8 +30,11 @@ def test_cook_and_leverage_match_statsmodels_for_the_chosen_curve():
         else:
             fit = sm.OLS(np.log(y), sm.add_constant(np.log(x))).fit()
         influence = fit.get_influence()
-        rows = slice(data.offsets[s], data.offsets[s + 1])
-        np.testing.assert_allclose(results.leverage[rows], influence.hat_matrix_diag, rtol=1e-8)
-        np.testing.assert_allclose(results.cook[rows], influence.cooks_distance[0], rtol=1e-8)
+        leverage, cook = series_influence(results, s)
+        np.testing.assert_allclose(leverage, influence.hat_matrix_diag, rtol=1e-8)
+        np.testing.assert_allclose(cook, influence.cooks_distance[0], rtol=1e-8)
+        # The engine keeps only the largest distance and its row, from its own (Cholesky) computation.
+        assert results.top_cook[s] == pytest.approx(influence.cooks_distance[0].max(), rel=1e-8)
+        assert results.top_row[s] == data.offsets[s] + int(np.argmax(influence.cooks_distance[0]))
         checked[cand.family] += 1
     assert checked["poly"] >= 10 and checked["loglog"] >= 10, checked
