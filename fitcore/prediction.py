@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import kernels
 from .basis import mapped, width
 from .polyfit import horner
 
@@ -55,28 +56,11 @@ def loglog_at(coef, mid, half, leverage, smear, sigma2, df, price, level):
 
 
 def best_revenue_poly(coef: np.ndarray, mid: np.ndarray, half: np.ndarray, grid: int = 65) -> np.ndarray:
-    """(S,) the price in [mid − half, mid + half] maximising price × volume.
-
-    A grid finds the best cell; Newton steps on d(revenue)/dt, kept inside
-    the neighbouring cells, make the optimum exact for a quadratic revenue
-    (linear demand) and accurate to round-off for smooth ones.
-    """
-    t_grid = np.linspace(-1.0, 1.0, grid)
-    revenue = (mid + half * t_grid[:, None]) * horner(coef[:, None, :], t_grid[:, None])
-    t = t_grid[np.argmax(revenue, axis=0)]
-    step = 2.0 / (grid - 1)
-    lo, hi = np.maximum(t - step, -1.0), np.minimum(t + step, 1.0)
-    d1 = derivative(coef)
-    d2 = derivative(d1)
-    for _ in range(8):
-        p = mid + half * t
-        v, v1, v2 = horner(coef, t), horner(d1, t), horner(d2, t)
-        grad, curv = half * v + p * v1, 2 * half * v1 + p * v2
-        with np.errstate(divide="ignore", invalid="ignore"):
-            candidate = np.clip(t - grad / curv, lo, hi)
-        step_ok = (curv < 0) & np.isfinite(candidate)
-        t_new = np.where(step_ok, candidate, t)
-        t = np.where((mid + half * t_new) * horner(coef, t_new) >= p * v, t_new, t)
+    """(S,) the price in [mid − half, mid + half] maximising price × volume; ``coef`` (P, S) in t
+    (grid search, then safeguarded Newton steps: ``kernels.revenue_peak_poly``)."""
+    t = np.empty(len(mid))
+    kernels.revenue_peak_poly(np.ascontiguousarray(np.asarray(coef, dtype=np.float64).T), mid.astype(np.float64),
+                              half.astype(np.float64), grid, t)
     return mid + half * t
 
 
