@@ -6,7 +6,6 @@ from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
-import pandas as pd
 
 
 def _readonly(array: np.ndarray) -> np.ndarray:
@@ -64,6 +63,7 @@ class Dataset:
         Seeds each series' fold shuffle, so fold assignment depends on the
         series itself and never on which other series share the file.
         """
+        import pandas as pd
         frame = pd.DataFrame({name: self.keys[name].astype(str) for name in self.key_names})
         return _readonly(pd.util.hash_pandas_object(frame, index=False).to_numpy(np.uint64))
 
@@ -113,6 +113,7 @@ def from_columns(keys: dict[str, np.ndarray], price, volume, *, weight=None, dat
 
 def _strings(column, rows: np.ndarray) -> np.ndarray:
     """(len(rows),) object array of the key column's values at ``rows``, as text."""
+    import pandas as pd
     if isinstance(column, pd.Categorical):
         return np.asarray(column.categories.astype(str), dtype=object)[column.codes[rows]]
     return np.array([str(v) for v in np.asarray(column, dtype=object)[rows]], dtype=object)
@@ -120,6 +121,7 @@ def _strings(column, rows: np.ndarray) -> np.ndarray:
 
 def _series_codes(columns: list[np.ndarray]) -> np.ndarray:
     """One int64 code per row, equal for rows of one series, numbered by first appearance."""
+    import pandas as pd
     codes, _ = pd.factorize(columns[0], sort=False)
     for column in columns[1:]:
         column_codes, uniques = pd.factorize(column, sort=False)

@@ -6,7 +6,7 @@ numbers each flag's sentence quotes.  Sentences are written on demand
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cached_property
 
 import numpy as np
@@ -83,7 +83,7 @@ def mark_stale(diagnosis: Diagnosis, stale: np.ndarray) -> Diagnosis:
     raised = diagnosis.raised.copy()
     raised[:, CODES.index("stale")] = stale
     raised.flags.writeable = False
-    return Diagnosis(diagnosis.results, diagnosis.thresholds, raised, diagnosis.numbers)
+    return replace(diagnosis, raised=raised)
 
 
 def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnosis:

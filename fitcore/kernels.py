@@ -12,8 +12,37 @@ numpy, for the caller to mask, instead of raising.
 """
 from __future__ import annotations
 
+import functools
+
 import numpy as np
-from numba import njit
+
+_PLAIN = {}  # name → the Python function, compiled on the first call of any kernel
+
+
+def njit(**options):
+    """``numba.njit(**options)``, applied when a kernel is first called.
+
+    Importing ``fitcore`` (say, to open a results file) then costs no numba
+    import (~0.2 s).  On that first call every kernel here is compiled (or
+    loaded from the cache) and bound in this module, so compiled kernels
+    call one another directly.
+    """
+    def register(fn):
+        _PLAIN[fn.__name__] = (fn, options)
+
+        @functools.wraps(fn)
+        def first_call(*args):
+            _compile_all()
+            return globals()[fn.__name__](*args)
+        return first_call
+    return register
+
+
+def _compile_all() -> None:
+    import numba
+    for name, (fn, options) in _PLAIN.items():
+        if not isinstance(globals()[name], numba.core.registry.CPUDispatcher):
+            globals()[name] = numba.njit(**options)(fn)
 
 # A squared Cholesky pivot below this (on a unit-diagonal Gram matrix) means
 # the column adds nothing the earlier ones do not already span.  Exactly

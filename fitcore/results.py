@@ -66,6 +66,8 @@ class Results:
     top_cook: np.ndarray
     top_row: np.ndarray
 
+    rows_loaded = True  # the observations are in ``data`` (False for results read back from a file)
+
     @classmethod
     def build(cls, data: Dataset, settings: FitSettings, candidates, plan_price, parts: dict | None) -> "Results":
         n_c = len(candidates)

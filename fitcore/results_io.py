@@ -132,9 +132,7 @@ def results_table(results: Results, diagnosis=None):
     sizes = np.array([c.complexity for c in results.candidates])
     ok = results.available.ravel()
     lengths = np.where(ok, tile(sizes), 0)
-    coef_lists = pa.ListArray.from_arrays(
-        np.concatenate(([0], np.cumsum(lengths))).astype(np.int32),
-        pa.array(coef.reshape(n_s * n_c, -1)[np.arange(coef.shape[-1])[None, :] < lengths[:, None]], type=pa.float64()))
+    coef_lists = _cell_lists(coef, lengths)
     fold_lists = _ragged(results.fold_err, results.fold_start, ok)
     chosen = results.chosen
     names = np.array(results.names, dtype=object)
@@ -156,9 +154,12 @@ def results_table(results: Results, diagnosis=None):
         if (~ok).any() else pa.nulls(n_s * n_c, pa.string()),
         cv_mse=results.cv_mse.ravel(), cv_se=results.cv_se.ravel(), fold_mse=fold_lists,
         r2=results.r2.ravel(), q2=results.q2.ravel(), coef=coef_lists,
+        window_coef=pa.FixedSizeListArray.from_arrays(  # for pricefold itself: triage opens results without a refit
+            pa.array(np.where(ok[:, None], results.coef.reshape(n_s * n_c, -1), np.nan).ravel()), results.coef.shape[-1]),
         smearing=np.where(tile([c.family == "loglog" for c in results.candidates]), repeat(results.smear), np.nan),
         is_chosen=(np.arange(n_c)[None, :] == chosen[:, None]).ravel(),
-        chosen=repeat_text(np.where(chosen >= 0, names[np.maximum(chosen, 0)], None)),
+        chosen=pa.DictionaryArray.from_arrays(  # null where no candidate is available
+            pa.array(repeat(chosen).astype(np.int32), mask=repeat(chosen < 0)), pa.array(results.names)),
         score=repeat(results.score), revenue_price=repeat(results.revenue_price),
         plan_price=repeat(results.plan_price), plan_volume=results.plan_volume.ravel(),
         plan_lo=results.plan_lo.ravel(), plan_hi=results.plan_hi.ravel(),
@@ -170,6 +171,14 @@ def results_table(results: Results, diagnosis=None):
                       for name, value in columns.items()})
     meta = json.dumps(header(results, diagnosis) | {"key_columns": list(data.key_names)})
     return table.replace_schema_metadata({b"pricefold": meta.encode()})
+
+
+def _cell_lists(values, lengths):
+    """A list per (series, candidate) cell: the first ``lengths`` entries of ``values`` (S, C, P)."""
+    import pyarrow as pa
+    flat = values.reshape(len(lengths), -1)[np.arange(values.shape[-1])[None, :] < lengths[:, None]]
+    return pa.ListArray.from_arrays(np.concatenate(([0], np.cumsum(lengths))).astype(np.int32),
+                                    pa.array(flat, type=pa.float64()))
 
 
 def _ragged(values, starts, keep):

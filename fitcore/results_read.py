@@ -19,7 +19,7 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
         except (UnicodeDecodeError, json.JSONDecodeError) as exc:
             raise DataError(f"expected a pricefold results file, could not read it as JSON ({exc})",
                             path=str(path)) from None
-        _check_schema(path, document)
+        check_schema(path, document)
         series = document.pop("series", [])
         return document, series
     if suffix in (".parquet", ".pq"):
@@ -27,7 +27,7 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
     raise DataError(f"expected a results file ending in .json or .parquet, got {path.name!r}", path=str(path))
 
 
-def _check_schema(path: Path, document) -> None:
+def check_schema(path: Path, document) -> None:
     if not isinstance(document, dict) or document.get("schema") != SCHEMA:
         found = document.get("schema") if isinstance(document, dict) else type(document).__name__
         raise DataError(f"expected schema {SCHEMA!r}, found {found!r}", path=str(path))
@@ -40,7 +40,7 @@ def _read_parquet(path: Path) -> tuple[dict, list[dict]]:
         meta = json.loads((table.schema.metadata or {}).get(b"pricefold", b"null"))
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
         raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
-    _check_schema(path, meta)
+    check_schema(path, meta)
     keys = meta["key_columns"]
     rows = table.to_pylist()
     series, current = [], None

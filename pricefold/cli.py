@@ -251,8 +251,12 @@ def is_results(path: Path) -> bool:
 
 def run_triage(args) -> int:
     from fitcore.thresholds import Thresholds, parse_threshold_options
-    from tui.factory import Source, default_ledger, source_from_results
+    from tui.factory import Source, default_ledger, is_stored, source_from_results
 
+    ledger_path = args.ledger or default_ledger(args.source)
+    if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen
+        return open_triage(source_from_results(args.source, check_data=False), ledger_path, args.analyst,
+                           stored=args.source)
     if is_results(args.source):
         source = source_from_results(args.source)
     else:
@@ -263,16 +267,21 @@ def run_triage(args) -> int:
         source = Source(data=args.source, columns=columns_from(args), settings=settings_from(args),
                         plan_file=args.plan, plan_price=args.plan_price,
                         thresholds=Thresholds().with_overrides(parse_threshold_options(args.threshold)))
-    return open_triage(source, args.ledger or default_ledger(args.source), args.analyst)
+    return open_triage(source, ledger_path, args.analyst)
 
 
-def open_triage(source, ledger_path: Path, analyst: str | None) -> int:
+def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | None = None) -> int:
+    """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen)."""
     from tui.app import TriageApp
-    from tui.factory import open_session
+    from tui.factory import open_session, open_stored_session, refit_stored
 
     from .ledger_cli import identity, ledger_key
     who, key = identity(analyst), ledger_key()
-    app = TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
+    if stored is not None:
+        app = TriageApp(lambda progress: open_stored_session(stored, ledger_path, who, key, progress),
+                        observer=lambda progress: refit_stored(source, progress))
+    else:
+        app = TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
     app.run()
     print(f"decisions are in {ledger_path}", file=sys.stderr)
     return app.return_code or 0

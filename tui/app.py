@@ -11,7 +11,7 @@ from textual.widgets import Static
 
 from fitcore.errors import PricefoldError
 
-from .messages import FitProgressed, LoadFailed, SessionReady
+from .messages import FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
 from .screens.dialogs import MessageDialog
 from .screens.triage import TriageScreen
 from .session import TriageSession
@@ -32,15 +32,19 @@ class LoadingScreen(Screen):
 
 
 class TriageApp(App):
-    """``opener(progress)`` builds the ``TriageSession``; it runs in a thread worker."""
+    """``opener(progress)`` builds the ``TriageSession``; it runs in a thread worker.
+
+    ``observer(progress)``, when given, runs in a second worker once the session is up and returns
+    ``(results, diagnosis)`` with the observations, for a session opened from a results file.
+    """
 
     CSS_PATH = ["styles/base.tcss", "styles/triage.tcss"]
     TITLE = "pricefold triage"
     ENABLE_COMMAND_PALETTE = False
 
-    def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession]) -> None:
+    def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession], observer=None) -> None:
         super().__init__()
-        self.opener = opener
+        self.opener, self.observer = opener, observer
         self.session: TriageSession | None = None
 
     def on_mount(self) -> None:
@@ -65,6 +69,29 @@ class TriageApp(App):
         self.switch_screen(TriageScreen(message.session))
         for warning in message.session.warnings:
             self.notify(clean(warning), severity="warning", timeout=10, markup=False)
+        if self.observer is not None:
+            self.read_observations()
+
+    @work(thread=True, exclusive=True, exit_on_error=False, group="observations")
+    def read_observations(self) -> None:
+        try:
+            results, diagnosis = self.observer(lambda done, total: None)
+        except (PricefoldError, OSError) as exc:
+            self.post_message(RowsFailed(str(exc)))
+            return
+        self.post_message(RowsLoaded(results, diagnosis))
+
+    def on_rows_loaded(self, message: RowsLoaded) -> None:
+        if self.session is not None and self.session.upgrade(message.results, message.diagnosis):
+            if isinstance(self.screen, TriageScreen):
+                self.screen.refresh_all()
+                self.screen.evidence.redraw()
+        else:
+            self.notify("The data no longer match the results file: observations are not shown.",
+                        severity="warning", timeout=10, markup=False)
+
+    def on_rows_failed(self, message: RowsFailed) -> None:
+        self.notify(clean(message.reason), severity="warning", timeout=10, markup=False)
 
     def on_load_failed(self, message: LoadFailed) -> None:
         body = Text("Could not open the triage:\n\n", style="bold")

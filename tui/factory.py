@@ -8,14 +8,11 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
-from fitcore import fit_batch
-from fitcore.diagnostics import diagnose
+from fitcore.columns import Columns, file_sha256
 from fitcore.errors import DataError
 from fitcore.ledger import Identity, results_digest
-from fitcore.loader import Columns, file_sha256, load
-from fitcore.plan import plan_prices
-from fitcore.results_io import header
 from fitcore.results_read import read_results
+from fitcore.results_stored import read_header, stored_results
 from fitcore.settings import FitSettings, provenance, settings_from_dict
 from fitcore.thresholds import Thresholds
 
@@ -35,11 +32,16 @@ class Source:
     plan_price: float | None = None
     thresholds: Thresholds = Thresholds()
     warnings: list[str] = field(default_factory=list)
+    expected_sha256: str | None = None  # the data's digest when the results were written, checked before a refit
 
 
-def source_from_results(path: Path) -> Source:
-    """The source a results file was fitted from (its settings name the data, columns and plan)."""
-    head, _ = read_results(path)
+def source_from_results(path: Path, check_data: bool = True) -> Source:
+    """The source a results file was fitted from (its settings name the data, columns and plan).
+
+    ``check_data``: compare the data file with the digest the results recorded now (a warning when it
+    changed); otherwise leave that to ``refit_stored``.
+    """
+    head = read_header(path) if is_stored(path) else read_results(path)[0]
     settings = settings_from_dict(head["settings"])
     extra = settings.extra
     if not extra.get("columns"):
@@ -53,7 +55,9 @@ def source_from_results(path: Path) -> Source:
                     settings=replace(settings, extra={}),
                     plan_file=Path(plan["file"]) if plan.get("file") else None, plan_price=plan.get("price"),
                     thresholds=Thresholds(**extra.get("thresholds", {})))
-    if file_sha256(data) != head["input"]["sha256"]:
+    if not check_data:
+        source.expected_sha256 = head["input"]["sha256"]
+    elif file_sha256(data) != head["input"]["sha256"]:
         source.warnings.append(f"{data} changed since {path.name} was written: showing a fresh fit of the data "
                                "as it is now (decisions made on the old data show as stale)")
     return source
@@ -61,6 +65,10 @@ def source_from_results(path: Path) -> Source:
 
 def fit_source(source: Source, progress: Callable[[int, int], None] | None = None):
     """``(results, diagnosis)`` of the source, its settings recording how to fit it again."""
+    from fitcore import fit_batch
+    from fitcore.diagnostics import diagnose
+    from fitcore.loader import load
+    from fitcore.plan import plan_prices
     data = load(source.data, source.columns)
     plan = plan_prices(data, source.plan_file) if source.plan_file else source.plan_price
     extra = provenance(source.columns.as_dict(), str(source.plan_file) if source.plan_file else None,
@@ -71,10 +79,38 @@ def fit_source(source: Source, progress: Callable[[int, int], None] | None = Non
 
 def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | None = None,
                  progress: Callable[[int, int], None] | None = None) -> TriageSession:
+    from fitcore.results_io import header
     results, diagnosis = fit_source(source, progress)
     session = TriageSession(results, diagnosis, ledger_path, who, results_digest(header(results, diagnosis)), key)
     session.warnings.extend(source.warnings)
     return session
+
+
+def is_stored(path: Path) -> bool:
+    """A Parquet results file that triage can open without refitting (it has the window coefficients)."""
+    import pyarrow.parquet as pq
+    if Path(path).suffix.lower() not in (".parquet", ".pq"):
+        return False
+    try:
+        return "window_coef" in pq.read_schema(path).names
+    except Exception:  # not readable: the refit path reports it
+        return False
+
+
+def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes | None = None,
+                        progress: Callable[[int, int], None] | None = None) -> TriageSession:
+    """A session on the results as the file holds them: no refit, no observations yet."""
+    results, diagnosis = stored_results(path)
+    head = {k: v for k, v in read_header(path).items() if k != "key_columns"}
+    return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key)
+
+
+def refit_stored(source: Source, progress: Callable[[int, int], None] | None = None):
+    """The fit that brings observations to a stored session: only if the data are what the results were fitted on."""
+    if source.expected_sha256 and file_sha256(source.data) != source.expected_sha256:
+        raise DataError("changed since the results were written: showing the results without observations; "
+                        "run 'pricefold triage' on the data file for a fresh fit", path=str(source.data))
+    return fit_source(source, progress)
 
 
 def sample_source() -> Source:

@@ -29,3 +29,19 @@ class LoadFailed(Message):
     def __init__(self, reason: str) -> None:
         super().__init__()
         self.reason = reason
+
+
+class RowsLoaded(Message):
+    """A fit of the data arrived for a session opened from a results file: observations can be drawn."""
+
+    def __init__(self, results, diagnosis) -> None:
+        super().__init__()
+        self.results, self.diagnosis = results, diagnosis
+
+
+class RowsFailed(Message):
+    """The data behind a results file could not be read or had changed; ``reason`` is one line."""
+
+    def __init__(self, reason: str) -> None:
+        super().__init__()
+        self.reason = reason

@@ -37,10 +37,11 @@ class TriageSession:
         self.ledger_path, self.who, self.key, self.results_digest = Path(ledger_path), who, key, results_digest
         self.warnings: list[str] = []
         data = results.data
-        self.labels = [clean(" · ".join(str(data.keys[k][s]) for k in data.key_names)) for s in range(data.n_series)]
-        self._ids = [series_id(data.key_of(s)) for s in range(data.n_series)]
+        columns = [data.keys[k] for k in data.key_names]
+        self.labels = [clean(" · ".join(map(str, parts))) for parts in zip(*columns)]
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
-        self._lookup = {sid: s for s, sid in enumerate(self._ids)}
+        self._series_of: dict[str, int] | None = None  # series id → index, built when the ledger names a series
+        self._known: dict[str, int] = {}  # the same for series decided here (no need to build the whole map)
         self.histories: dict[str, SeriesHistory] = {}
         self._ledger_state: tuple[int, int] | None = None
         self._offset = 0
@@ -76,9 +77,10 @@ class TriageSession:
         records, _ = ledger.parse(whole)
         touched = {series_id(r["series"]) for r in records}
         apply(self.histories, records)
+        lookup = self._known if touched <= self._known.keys() else self._lookup()
         for sid in touched:
-            if sid in self._lookup:
-                self._refresh_status(self._lookup[sid])
+            if sid in lookup:
+                self._refresh_status(lookup[sid])
         if records or force:
             stale = self.status_code == STATUSES.index("stale")
             if force or not np.array_equal(stale, self.diagnosis.flagged("stale")):
@@ -87,17 +89,37 @@ class TriageSession:
             self.rebuild_view()
         return bool(records)
 
+    def upgrade(self, results: Results, diagnosis: Diagnosis) -> bool:
+        """Swap in a fit of the data for results read back from a file (observations, bands).
+
+        Only when it is the same series with the same rows (fingerprints equal, in order); False otherwise.
+        """
+        if results.data.fingerprints != self.results.data.fingerprints:
+            return False
+        self.results, self.base_diagnosis = results, diagnosis
+        self.reload_ledger(force=True)
+        return True
+
+    def _lookup(self) -> dict[str, int]:
+        if self._series_of is None:
+            data = self.results.data
+            self._series_of = {series_id(data.key_of(s)): s for s in range(data.n_series)}
+        return self._series_of
+
+    def _id(self, s: int) -> str:
+        return series_id(self.results.data.key_of(s))
+
     def _refresh_status(self, s: int) -> None:
-        history = self.histories.get(self._ids[s])
+        history = self.histories.get(self._id(s))
         self.status[s] = history.status(self.results.data.fingerprints[s]) if history else "pending"
         self.status_code[s] = STATUSES.index(self.status[s])
 
     def history(self, s: int) -> list[dict]:
-        history = self.histories.get(self._ids[s])
+        history = self.histories.get(self._id(s))
         return history.records if history else []
 
     def can_withdraw(self, s: int) -> bool:
-        return own_standing(self.histories.get(self._ids[s]), self.who.analyst) is not None
+        return own_standing(self.histories.get(self._id(s)), self.who.analyst) is not None
 
     def record(self, s: int, action: str, model: str | None = None, note: str = "") -> None:
         """Append one decision on series ``s`` to the ledger (raises ``LedgerError`` with a one-line reason)."""
@@ -109,6 +131,7 @@ class TriageSession:
                              fingerprint=self.results.data.fingerprints[s], results=self.results_digest,
                              model=model, proposed=proposed, note=note)
         ledger.append(self.ledger_path, [entry], self.who, key=self.key)
+        self._known[self._id(s)] = s
         self.reload_ledger()
 
     # -- the list --------------------------------------------------------------------------

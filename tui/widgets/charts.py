@@ -33,16 +33,17 @@ def curve_chart(results: Results, s: int, width: int, height: int) -> Text:
     _start(width, height)
     chosen = int(results.chosen[s])
     plan = results.plan_price[s]
-    lo_p, hi_p = float(price.min()), float(price.max())
+    lo_p, hi_p = float(results.price_lo[s]), float(results.price_hi[s])
     if np.isfinite(plan):
         lo_p, hi_p = min(lo_p, plan), max(hi_p, plan)
     pad = (hi_p - lo_p) * 0.03 or max(abs(hi_p) * 0.05, 0.01)
     grid = np.linspace(max(lo_p - pad, 1e-9 if results.price_lo[s] > 0 else lo_p - pad), hi_p + pad, 80)
     names = results.names
-    if chosen >= 0:
+    if chosen >= 0 and results.rows_loaded:
         lower, upper = band(results, s, chosen, grid)
         plt.plot(grid.tolist(), lower.tolist(), marker=MARKER, color="orange+")
         plt.plot(grid.tolist(), upper.tolist(), marker=MARKER, color="orange+")
+    if chosen >= 0:
         other = runner_up(results, s)
         if other >= 0:
             plt.plot(grid.tolist(), curve(results, s, other, grid).tolist(), marker=MARKER, color="cyan")
@@ -50,17 +51,20 @@ def curve_chart(results: Results, s: int, width: int, height: int) -> Text:
     if np.isfinite(plan):
         plt.vline(float(plan), "magenta")
     # Observations last, so that curves through them do not hide them.
-    plt.scatter(price.tolist(), volume.tolist(), marker="dot", color="gray")
+    if len(price):
+        plt.scatter(price.tolist(), volume.tolist(), marker="dot", color="gray")
     plt.xlabel("price")
     chart = _finish()
     # The legend goes under the chart, where it cannot cover the data.
-    legend = Text("• observed", style="grey62")
+    legend = Text("• observed" if results.rows_loaded else "observations and band: reading the data …",
+                  style="grey62")
     if chosen >= 0:
         legend.append(f"   ── {names[chosen]} (chosen)", style="green")
         other = runner_up(results, s)
         if other >= 0:
             legend.append(f"   ── {names[other]} (runner-up)", style="cyan")
-        legend.append("   ── 95% prediction band", style="orange1")
+        if results.rows_loaded:
+            legend.append("   ── 95% prediction band", style="orange1")
     if np.isfinite(plan):
         legend.append("   │ plan price", style="magenta")
     return Text("\n").join([chart, legend])

@@ -1,0 +1,238 @@
+"""A Parquet results file opened as ``Results`` and ``Diagnosis`` arrays, without refitting.
+
+Column by column through Arrow into numpy, so opening 100k series costs a
+fraction of a second and no Python object per candidate.  The observations
+themselves are not in a results file: ``rows_loaded`` is False, the dataset
+has each series' count but no rows, and what needs the rows (the points on
+a chart, the prediction band) waits for a fit of the data file.
+"""
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from functools import cached_property
+from pathlib import Path
+
+import numpy as np
+
+from . import reasons
+from .basis import window
+from .candidates import candidates_for
+from .dataset import Dataset
+from .diagnostics import CODES, SEVERITY, Diagnosis
+from .errors import DataError
+from .results import Results
+from .results_read import check_schema
+from .settings import settings_from_dict
+from .thresholds import Thresholds
+
+
+# The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
+NEEDED = ("n", "price_lo", "price_hi", "candidate", "available", "reason", "cv_mse", "cv_se", "fold_mse", "r2", "q2",
+          "window_coef", "smearing", "is_chosen", "score", "revenue_price", "plan_price", "plan_volume", "plan_lo",
+          "plan_hi", "plan_elasticity", "flags", "fingerprint")
+
+
+@dataclass(frozen=True, eq=False)
+class StoredDataset(Dataset):
+    """Keys and counts of the series of a results file; ``stored_fingerprints`` as written."""
+
+    stored_fingerprints: list = field(default_factory=list)
+
+    @cached_property
+    def fingerprints(self) -> list[str]:
+        return self.stored_fingerprints
+
+
+@dataclass(frozen=True, eq=False)
+class StoredResults(Results):
+    """``Results`` read back from a file; reasons are the sentences the file holds (an Arrow column)."""
+
+    reasons: object = None
+
+    rows_loaded = False
+
+    def reason_text(self, s: int, c: int) -> str | None:
+        return self.reasons[s * len(self.candidates) + c].as_py()
+
+
+@dataclass(frozen=True, eq=False)
+class StoredDiagnosis(Diagnosis):
+    """Flags as the file recorded them (sentences included); ``stale`` still comes from the ledger."""
+
+    sentences: dict = field(default_factory=dict)  # series → {code: message}
+
+    def flags_of(self, s: int) -> list[dict]:
+        from .flag_sentences import sentence
+        out = []
+        for i, code in enumerate(CODES):
+            if self.raised[s, i]:
+                message = self.sentences.get(s, {}).get(code) if code != "stale" else sentence(self, s, code)
+                out.append({"code": code, "severity": SEVERITY[code], "message": message or ""})
+        return out
+
+
+def read_header(path: str | Path) -> dict:
+    """The header of a Parquet results file (schema metadata only: no rows are read)."""
+    import pyarrow.parquet as pq
+    try:
+        meta = json.loads((pq.read_schema(path).metadata or {}).get(b"pricefold", b"null"))
+    except Exception as exc:  # pyarrow raises several unrelated types for a bad file
+        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
+    check_schema(Path(path), meta)
+    return meta
+
+
+def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
+    """Open a Parquet results file; a ``DataError`` if it lacks what triage needs (written by an older pricefold)."""
+    import pyarrow.parquet as pq
+    path = Path(path)
+    meta = read_header(path)
+    settings = settings_from_dict(meta["settings"])
+    wanted = [*meta["key_columns"], *NEEDED]
+    reader = pq.ParquetFile(path)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
+    missing = [name for name in wanted if name not in reader.schema_arrow.names]
+    if missing:
+        raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(path))
+    table = reader.read(columns=wanted)
+    cands = candidates_for(settings)
+    n_c = len(cands)
+    if table.num_rows % max(n_c, 1):
+        raise DataError(f"expected {n_c} rows per series, found {table.num_rows} rows", path=str(path))
+    n_s = table.num_rows // n_c if n_c else 0
+    names = [str(v) for v in _column(table, "candidate")[:n_c]]
+    if names != [c.name for c in cands]:
+        raise DataError(f"expected candidates {[c.name for c in cands]}, found {names}", path=str(path))
+
+    def cells(name):
+        return _column(table, name).astype(np.float64).reshape(n_s, n_c)
+
+    def per_series(name):
+        return _column(table, name)[::n_c] if n_c else np.zeros(0)
+
+    key_names = tuple(meta["key_columns"])
+    counts = per_series("n").astype(np.int64)
+    data = StoredDataset(key_names, {k: per_series(k).astype(object) for k in key_names},
+                         np.concatenate(([0], np.cumsum(counts))).astype(np.int64), np.zeros(0), np.zeros(0),
+                         source=dict(meta.get("input", {})),
+                         stored_fingerprints=[str(v) for v in per_series("fingerprint")])
+    available = _column(table, "available").astype(bool).reshape(n_s, n_c)
+    lo, hi = per_series("price_lo").astype(float), per_series("price_hi").astype(float)
+    mid, half = window(lo, hi)
+    positive = (lo > 0) & available[:, -1] if settings.loglog else np.zeros(n_s, bool)  # the log window serves loglog only
+    with np.errstate(divide="ignore", invalid="ignore"):
+        log_mid, log_half = window(np.where(positive, np.log(lo), 0.0), np.where(positive, np.log(hi), 0.0))
+    is_chosen = _column(table, "is_chosen").astype(bool).reshape(n_s, n_c)
+    chosen = np.where(is_chosen.any(axis=1), is_chosen.argmax(axis=1), -1)
+    p = max(settings.degrees) + 1
+    fold_err, fold_start = _fold_table(table, settings, counts, n_c)
+    smear = cells("smearing")[:, -1] if settings.loglog else np.ones(n_s)
+    nan = np.full((n_s, n_c), np.nan)
+    results = StoredResults(
+        data=data, settings=settings, candidates=cands,
+        available=available, reason=np.where(available, reasons.NONE, reasons.RANK_ALL).astype(np.int8),
+        cv_mse=cells("cv_mse"), cv_se=cells("cv_se"), r2=cells("r2"), q2=cells("q2"),
+        fold_err=fold_err, fold_start=fold_start, price_lo=lo, price_hi=hi, mid=mid, half=half,
+        log_mid=log_mid, log_half=log_half, coef=_fixed_cells(table, "window_coef", n_s, n_c, p),
+        smear=np.where(np.isfinite(smear), smear, 1.0), sigma2=nan, df=np.zeros((n_s, n_c), np.int64),
+        chosen=chosen, plan_price=per_series("plan_price").astype(float), plan_volume=cells("plan_volume"),
+        plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"), plan_elasticity=cells("plan_elasticity"),
+        revenue_price=per_series("revenue_price").astype(float),
+        top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=table.column("reason"))
+    thresholds = Thresholds(**settings.extra.get("thresholds", {}))
+    raised, sentences = _flags(table, n_s, n_c)
+    return results, StoredDiagnosis(results, thresholds, raised, {}, sentences)
+
+
+def _column(table, name: str) -> np.ndarray:
+    """A column as numpy; text as an object array (a dictionary column through its dictionary)."""
+    import pyarrow as pa
+    column = table.column(name).combine_chunks()
+    if pa.types.is_dictionary(column.type) and not column.null_count:
+        values = np.array(column.dictionary.to_pylist() + [None], dtype=object)[:-1]
+        return values[_numbers(column.indices)]
+    if pa.types.is_dictionary(column.type) or pa.types.is_string(column.type):
+        return np.array(column.to_pylist() + [None], dtype=object)[:-1]
+    return _numbers(column)
+
+
+def _numbers(array) -> np.ndarray:
+    """A numeric or boolean Arrow array as numpy, straight from its buffers (nulls → NaN).
+
+    Not ``Array.to_numpy``: that imports pandas (0.3 s), most of opening a results file.
+    """
+    import pyarrow as pa
+    n, start = len(array), array.offset
+    validity, data = array.buffers()[:2]
+
+    def bits(buffer):
+        return np.unpackbits(np.frombuffer(buffer, np.uint8), bitorder="little")[start:start + n].astype(bool)
+
+    if pa.types.is_boolean(array.type):
+        values = bits(data)
+    else:
+        dtype = np.dtype({"double": "float64", "float": "float32"}.get(str(array.type), str(array.type)))
+        values = np.frombuffer(data, dtype, count=n, offset=start * dtype.itemsize)
+    if array.null_count:
+        values = np.where(bits(validity), values, np.nan)
+    return values
+
+
+def _list_cells(table, name: str, n_s: int, n_c: int, width: int) -> np.ndarray:
+    """(S, C, width) a list column, NaN-padded (null or short lists)."""
+    column = table.column(name).combine_chunks()
+    out = np.full((n_s * n_c, width), np.nan)
+    offsets = _numbers(column.offsets)
+    lengths = np.diff(offsets) * ~_numbers(column.is_null())
+    values = _numbers(column.values)
+    cell = np.repeat(np.arange(n_s * n_c), lengths)
+    within = np.arange(len(cell)) - np.repeat(np.cumsum(lengths) - lengths, lengths)
+    out[cell, within] = values[np.repeat(offsets[:-1], lengths) + within]
+    return out.reshape(n_s, n_c, width)
+
+
+def _fixed_cells(table, name: str, n_s: int, n_c: int, width: int) -> np.ndarray:
+    """(S, C, width) a fixed-size list column."""
+    column = table.column(name).combine_chunks()
+    return _numbers(column.flatten()).astype(np.float64).reshape(n_s, n_c, width)
+
+
+def _fold_table(table, settings, counts: np.ndarray, n_c: int):
+    """``fold_err`` (F, C) and ``fold_start`` (S + 1,) from the ``fold_mse`` lists (NaN where unavailable)."""
+    n_folds = counts if settings.folds == "loo" else np.full(len(counts), int(settings.folds))
+    fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
+    width = int(n_folds.max(initial=0))
+    column = table.column("fold_mse").combine_chunks()
+    lengths = np.diff(_numbers(column.offsets))
+    if settings.folds != "loo" and np.all((lengths == 0) | (lengths == width)):  # K folds: every list full or empty
+        wide = np.full((len(counts) * n_c, width), np.nan)
+        wide[lengths == width] = _numbers(column.flatten()).reshape(-1, width)
+        wide = wide.reshape(len(counts), n_c, width)
+    else:
+        wide = _list_cells(table, "fold_mse", len(counts), n_c, width)  # (S, C, K)
+    if settings.folds != "loo":  # the same K for every series: a transpose, no gather
+        return np.ascontiguousarray(wide.transpose(0, 2, 1)).reshape(-1, n_c), fold_start
+    series = np.repeat(np.arange(len(counts)), n_folds)
+    return wide[series, :, np.arange(len(series)) - fold_start[series]], fold_start
+
+
+def _flags(table, n_s: int, n_c: int):
+    """(S, flags) raised, and the recorded sentences of each flagged series (each distinct list parsed once)."""
+    import pyarrow as pa
+    column = table.column("flags").combine_chunks()
+    if pa.types.is_dictionary(column.type):
+        texts = column.dictionary.to_pylist()
+        index = _numbers(column.indices)[::n_c]
+    else:
+        texts, index = np.unique(np.array(column.to_pylist(), dtype=object)[::n_c], return_inverse=True)
+        texts = texts.tolist()
+    raised_of = np.zeros((len(texts), len(CODES)), dtype=bool)
+    parsed = []
+    for i, text in enumerate(texts):
+        entries = json.loads(text) if text else []
+        parsed.append({e["code"]: e["message"] for e in entries if e.get("code") in CODES})
+        raised_of[i, [CODES.index(code) for code in parsed[-1]]] = True
+    raised = raised_of[index] if n_s else np.zeros((0, len(CODES)), dtype=bool)
+    raised.flags.writeable = False
+    flagged = np.flatnonzero(raised.any(axis=1))
+    return raised, {int(s): parsed[index[s]] for s in flagged}

@@ -1,0 +1,70 @@
+"""A Parquet results file opened without a refit: the same arrays as the fit that wrote it.
+
+The reference here is the fit itself (``fit_batch`` + ``diagnose``) written through
+``write_results``: every array triage reads must come back bit for bit.
+"""
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import numpy as np
+import pyarrow.parquet as pq
+import pytest
+
+import fitcore
+from fitcore.diagnostics import diagnose
+from fitcore.errors import DataError
+from fitcore.results_io import write_results
+from fitcore.results_stored import stored_results
+from tests.conftest import random_dataset
+
+ARRAYS = ("available", "cv_mse", "cv_se", "r2", "q2", "fold_err", "fold_start", "chosen", "price_lo", "price_hi",
+          "mid", "half", "plan_price", "plan_volume", "plan_lo", "plan_hi", "plan_elasticity", "revenue_price")
+
+
+@pytest.mark.parametrize("folds", [5, "loo"])
+def test_stored_results_equal_the_fit_that_wrote_them(tmp_path, folds):
+    data = random_dataset(41, n_series=120, n_range=(3, 40))
+    plan = np.where(np.arange(data.n_series) % 3 == 0, np.nan, data.price[data.offsets[:-1]] * 1.1)
+    results = fitcore.fit_batch(data, fitcore.FitSettings(folds=folds), plan_price=plan)
+    diagnosis = diagnose(results)
+    write_results(results, tmp_path / "r.parquet", diagnosis)
+    stored, flags = stored_results(tmp_path / "r.parquet")
+    assert not stored.rows_loaded and results.rows_loaded
+    for name in ARRAYS:
+        np.testing.assert_array_equal(getattr(stored, name), getattr(results, name), err_msg=name)
+    ok = results.available
+    np.testing.assert_array_equal(stored.coef[ok], results.coef[ok])
+    loglog = ok[:, -1]  # the log window only serves the log-log curve
+    np.testing.assert_array_equal(stored.log_mid[loglog], results.log_mid[loglog])
+    np.testing.assert_array_equal(stored.smear[loglog], results.smear[loglog])
+    assert stored.data.fingerprints == results.data.fingerprints
+    assert stored.data.counts.tolist() == results.data.counts.tolist()
+    assert stored.data.keys["product"].tolist() == results.data.keys["product"].tolist()
+    assert [stored.reason_text(s, c) for s in range(5) for c in range(7)] == \
+        [results.reason_text(s, c) for s in range(5) for c in range(7)]
+    np.testing.assert_array_equal(flags.raised, diagnosis.raised)
+    np.testing.assert_array_equal(flags.attention_order(), diagnosis.attention_order())
+    assert all(flags.flags_of(s) == diagnosis.flags_of(s) for s in range(data.n_series))
+    assert (~ok).any() and diagnosis.raised.any()  # the comparison covered unavailable cells and flags
+
+
+def test_a_results_file_without_the_window_coefficients_is_refused(tmp_path):
+    results = fitcore.fit_batch(random_dataset(3, n_series=5))
+    write_results(results, tmp_path / "r.parquet")
+    table = pq.read_table(tmp_path / "r.parquet")
+    pq.write_table(table.drop_columns(["window_coef"]), tmp_path / "old.parquet")
+    with pytest.raises(DataError, match="older pricefold"):
+        stored_results(tmp_path / "old.parquet")
+
+
+def test_opening_results_imports_neither_pandas_nor_numba(tmp_path):
+    """Both cost ~0.2–0.3 s at start-up; opening results needs neither."""
+    results = fitcore.fit_batch(random_dataset(4, n_series=5))
+    write_results(results, tmp_path / "r.parquet")
+    code = ("import sys; from fitcore.results_stored import stored_results; "
+            f"stored_results({str(tmp_path / 'r.parquet')!r}); "
+            "print(sorted(m for m in ('pandas', 'numba') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip() == "[]"

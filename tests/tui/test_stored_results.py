@@ -1,0 +1,66 @@
+"""Triage opened on a Parquet results file: the list at once, the observations when the data are read."""
+from __future__ import annotations
+
+import json
+import shutil
+import threading
+from pathlib import Path
+
+from pricefold.cli import main
+from tests.tui.conftest import ANA, screen_text, until
+from tui.app import TriageApp
+from tui.factory import open_stored_session, refit_stored, source_from_results
+from tui.screens.triage import TriageScreen
+
+SAMPLE = Path(__file__).parents[2] / "sample"
+
+
+def fit_to_parquet(tmp_path: Path) -> tuple[Path, Path]:
+    data = tmp_path / "wholesale.csv"
+    shutil.copy(SAMPLE / "wholesale.csv", data)
+    out = tmp_path / "results.parquet"
+    assert main(["fit", str(data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
+                 "-o", str(out), "--quiet"]) == 0
+    return data, out
+
+
+def stored_app(out: Path, ledger_path: Path, gate: threading.Event) -> TriageApp:
+    source = source_from_results(out, check_data=False)
+
+    def observer(progress):
+        gate.wait(20)  # the test decides when the data "arrive"
+        return refit_stored(source, progress)
+    return TriageApp(lambda progress: open_stored_session(out, ledger_path, ANA, None, progress), observer=observer)
+
+
+async def test_the_list_and_decisions_work_before_the_observations_arrive(tmp_path):
+    _, out = fit_to_parquet(tmp_path)
+    ledger_path, gate = tmp_path / "ledger.jsonl", threading.Event()
+    app = stored_app(out, ledger_path, gate)
+    async with app.run_test(size=(160, 50)) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        await until(pilot, lambda: "reading the data" in screen_text(app))
+        assert "• observed" not in screen_text(app)
+        first = app.session.current
+        fingerprint = app.session.results.data.fingerprints[first]
+        await pilot.press("a")
+        await until(pilot, lambda: ledger_path.exists() and ledger_path.read_text().strip())
+        gate.set()
+        await until(pilot, lambda: "• observed" in screen_text(app), seconds=30)
+        assert app.session.results.rows_loaded and app.session.status[first] == "accepted"
+    record = json.loads(ledger_path.read_text().splitlines()[0])
+    assert record["action"] == "accept" and record["fingerprint"] == fingerprint
+
+
+async def test_changed_data_keep_the_stored_results_and_say_so(tmp_path):
+    data, out = fit_to_parquet(tmp_path)
+    with data.open("a") as handle:
+        handle.write(data.read_text().splitlines()[-1] + "\n")  # the data file no longer matches
+    gate = threading.Event()
+    gate.set()
+    app = stored_app(out, tmp_path / "ledger.jsonl", gate)
+    async with app.run_test(size=(160, 50), notifications=True) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        await until(pilot, lambda: any("changed since the results were written" in note.message
+                                       for note in app._notifications), seconds=30)
+        assert not app.session.results.rows_loaded
