@@ -12,7 +12,6 @@ silently: rows read = rows kept + rows rejected.
 from __future__ import annotations
 
 import difflib
-import hashlib
 from dataclasses import dataclass
 from pathlib import Path
 
