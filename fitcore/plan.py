@@ -11,10 +11,12 @@ from .errors import DataError
 from .loader import Columns, read_rows
 
 
-def plan_prices(data: Dataset, path: str | Path, sep: str | None = None) -> np.ndarray:
+def plan_prices(data: Dataset, path: str | Path, sep: str | None = None, *, partial: bool = False) -> np.ndarray:
     """(S,) the plan price of each series, NaN where the file names none.
 
     Every row must name a series of ``data`` with a price above zero, once.
+    ``partial``: ``data`` holds only some of the series (one partition), so rows naming
+    other series are passed over rather than refused.
     """
     path = Path(path)
     keys = list(data.key_names)
@@ -35,7 +37,9 @@ def plan_prices(data: Dataset, path: str | Path, sep: str | None = None) -> np.n
     series["_s"] = np.arange(data.n_series)
     merged = table.merge(series, on=keys, how="left")
     unknown = merged["_s"].isna().to_numpy()
-    if unknown.any():
+    if partial:
+        merged, price = merged[~unknown], price[~unknown]
+    elif unknown.any():
         first = int(np.argmax(unknown))
         names = ", ".join(f"{k}={merged[k].iloc[first]!r}" for k in keys)
         raise DataError(f"no series in the data has this key ({names})", path=str(path), line=int(rows.line[first]))

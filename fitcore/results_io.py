@@ -135,7 +135,6 @@ def results_table(results: Results, diagnosis=None):
     coef_lists = _cell_lists(coef, lengths)
     fold_lists = _ragged(results.fold_err, results.fold_start, ok)
     chosen = results.chosen
-    names = np.array(results.names, dtype=object)
     per_series = np.repeat(np.arange(n_s, dtype=np.int32), n_c)
 
     def repeat_text(values):  # one dictionary entry per series, not one Python string per row

@@ -7,11 +7,29 @@ from pathlib import Path
 from .errors import DataError
 from .results import SCHEMA
 
+RUN_SUMMARY = "_summary.json"
+
+
+def result_parts(path: str | Path) -> list[Path] | None:
+    """The part files of a results folder (written by ``fit --engine dask``), or None if ``path`` is not one."""
+    path = Path(path)
+    if not path.is_dir() or not (path / RUN_SUMMARY).exists():
+        return None
+    parts = sorted(path.glob("part-*.parquet"))
+    if not parts:
+        raise DataError("this results folder holds no part files", path=str(path))
+    return parts
+
+
 def read_results(path: str | Path) -> tuple[dict, list[dict]]:
-    """``(header, series)`` of a results file; ``series`` as in the JSON layout."""
+    """``(header, series)`` of a results file or folder; ``series`` as in the JSON layout."""
     path = Path(path)
     if not path.exists():
         raise DataError("file not found", path=str(path))
+    parts = result_parts(path)
+    if parts is not None:
+        read = [_read_parquet(part) for part in parts]
+        return read[0][0], [record for _, records in read for record in records]
     suffix = path.suffix.lower()
     if suffix == ".json":
         try:

@@ -1,4 +1,4 @@
-"""A Parquet results file opened as ``Results`` and ``Diagnosis`` arrays, without refitting.
+"""A Parquet results file (or a folder of parts) opened as ``Results`` and ``Diagnosis`` arrays, without refitting.
 
 Column by column through Arrow into numpy, so opening 100k series costs a
 fraction of a second and no Python object per candidate.  The observations
@@ -22,7 +22,7 @@ from .dataset import Dataset
 from .diagnostics import CODES, SEVERITY, Diagnosis
 from .errors import DataError
 from .results import Results
-from .results_read import check_schema
+from .results_read import check_schema, result_parts
 from .settings import settings_from_dict
 from .thresholds import Thresholds
 
@@ -73,8 +73,9 @@ class StoredDiagnosis(Diagnosis):
 
 
 def read_header(path: str | Path) -> dict:
-    """The header of a Parquet results file (schema metadata only: no rows are read)."""
+    """The header of a Parquet results file or folder (schema metadata only: no rows are read)."""
     import pyarrow.parquet as pq
+    path = (result_parts(path) or [path])[0]
     try:
         meta = json.loads((pq.read_schema(path).metadata or {}).get(b"pricefold", b"null"))
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
@@ -85,16 +86,20 @@ def read_header(path: str | Path) -> dict:
 
 def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
     """Open a Parquet results file; a ``DataError`` if it lacks what triage needs (written by an older pricefold)."""
+    import pyarrow as pa
     import pyarrow.parquet as pq
     path = Path(path)
     meta = read_header(path)
     settings = settings_from_dict(meta["settings"])
     wanted = [*meta["key_columns"], *NEEDED]
-    reader = pq.ParquetFile(path)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
-    missing = [name for name in wanted if name not in reader.schema_arrow.names]
-    if missing:
-        raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(path))
-    table = reader.read(columns=wanted)
+    tables = []
+    for part in result_parts(path) or [path]:
+        reader = pq.ParquetFile(part)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
+        missing = [name for name in wanted if name not in reader.schema_arrow.names]
+        if missing:
+            raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
+        tables.append(reader.read(columns=wanted))
+    table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
     cands = candidates_for(settings)
     n_c = len(cands)
     if table.num_rows % max(n_c, 1):

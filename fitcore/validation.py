@@ -39,8 +39,12 @@ class RawRows:
 
 
 def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
-            date: str | None) -> tuple[np.ndarray, np.ndarray]:
-    """``(why, usable)``: (N,) the reason each row is rejected (None for a usable row), and (N,) bool usable."""
+            date: str | None, duplicates: bool = True) -> tuple[np.ndarray, np.ndarray]:
+    """``(why, usable)``: (N,) the reason each row is rejected (None for a usable row), and (N,) bool usable.
+
+    ``duplicates=False`` leaves the repeated series-and-date check to the caller (``duplicate_rows``), for
+    rows read in pieces whose repeats may lie in another piece.
+    """
     n = rows.n_rows
     out = np.full(n, None, dtype=object)
     open_rows = np.ones(n, dtype=bool)  # no reason given yet
@@ -69,7 +73,8 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
         values, unreadable = rows.date
         mark(unreadable, f"unparseable {date}")
         mark(np.isnat(values), f"missing {date}")
-        _duplicates(rows, values, out, open_rows)
+        if duplicates:
+            _duplicates(rows, values, out, open_rows)
     return out, open_rows
 
 
@@ -91,15 +96,26 @@ def _duplicates(rows: RawRows, dates: np.ndarray, out: np.ndarray, open_rows: np
     usable = np.flatnonzero(open_rows)
     if not len(usable):
         return
-    frame = pd.DataFrame({name: values.codes[usable] for name, values in rows.keys.items()})
-    frame["_date"] = dates[usable].view(np.int64)
+    repeated, earlier = duplicate_rows([values.codes[usable] for values in rows.keys.values()], dates[usable],
+                                       rows.line[usable])
+    for index, line in zip(usable[repeated], earlier):
+        out[index] = duplicate_reason(line)
+        open_rows[index] = False
+
+
+def duplicate_rows(keys: list[np.ndarray], dates: np.ndarray, lines: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Rows (in line order) repeating the key and date of an earlier row: their indices, and that row's line."""
+    frame = pd.DataFrame({f"k{i}": values for i, values in enumerate(keys)})
+    frame["_date"] = dates.view(np.int64)
     repeated = frame.duplicated(keep="first").to_numpy()
     if not repeated.any():
-        return
-    first_line = pd.Series(rows.line[usable]).groupby([frame[c] for c in frame.columns], sort=False).transform("first")
-    for index, earlier in zip(usable[repeated], first_line.to_numpy()[repeated]):
-        out[index] = f"duplicate of line {earlier} (same series and date)"
-        open_rows[index] = False
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    first_line = pd.Series(lines).groupby([frame[c] for c in frame.columns], sort=False).transform("first")
+    return np.flatnonzero(repeated), first_line.to_numpy()[repeated]
+
+
+def duplicate_reason(line: int) -> str:
+    return f"duplicate of line {line} (same series and date)"
 
 
 def summary(reasons_of_rejected: list[str] | np.ndarray) -> str:

@@ -36,6 +36,15 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--strict", action="store_true",
                      help="fail (exit 2) if any row is rejected, instead of fitting the usable rows")
     fit.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
+    scale = fit.add_argument_group("engine")
+    scale.add_argument("--engine", choices=("local", "dask"), default="local",
+                       help="local (default): this process; dask: a Dask cluster, results as a folder of parts")
+    scale.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                       help="with --engine dask: an existing cluster's scheduler (default: start a local one)")
+    scale.add_argument("--workers", type=int, default=2, metavar="N",
+                       help="with --engine dask and no scheduler: worker processes to start (default: 2)")
+    scale.add_argument("--partitions", type=int, default=None, metavar="P",
+                       help="with --engine dask: partitions of the series (default: 4 per worker)")
 
     show = commands.add_parser("show", help="print a results file as text: one series, or a filtered list",
                                description="Print one series in full (candidates, choice, flags, plan) or, when "
@@ -166,6 +175,8 @@ def run_fit(args) -> int:
         raise SettingsError("--fold-order time needs the date column: add --date COLUMN")
     if args.plan_price is not None and not args.plan_price > 0:
         raise SettingsError(f"expected --plan-price above zero, got {args.plan_price}")
+    if args.engine == "dask":
+        return run_fit_dask(args, settings, thresholds)
     started = time.perf_counter()
     data, rejects = load_with_rejects(args.data, columns_from(args), sep=args.sep)
     report_rejects(rejects, args.output, strict=args.strict, quiet=args.quiet)
@@ -180,6 +191,65 @@ def run_fit(args) -> int:
     if not args.quiet:
         print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)
     return 0
+
+
+def run_fit_dask(args, settings, thresholds) -> int:
+    """``fit --engine dask``: the results as a folder of Parquet parts with ``_summary.json``."""
+    from fitcore.errors import DataError, SettingsError
+    from fitcore.loader import Rejects, file_kind, write_rejects
+    from fitcore.scale import connect, fit_on_dask
+    from fitcore.validation import summary as rejects_summary
+
+    from .progress import ProgressLine
+
+    import numpy as np
+    if args.output.suffix.lower() == ".json" or args.output.is_file():
+        raise SettingsError(f"--engine dask writes a folder of Parquet parts: give -o a folder name, "
+                            f"not {args.output.name!r}")
+    if args.workers < 1 or (args.partitions is not None and args.partitions < 1):
+        raise SettingsError("expected --workers and --partitions of at least 1")
+    started = time.perf_counter()
+    client = connect(args.scheduler, args.workers)
+    bar = ProgressLine("fitting partitions", enabled=None if not args.quiet else False)
+    try:
+        total = fit_on_dask(args.data, columns_from(args), settings, thresholds, args.output, plan_file=args.plan,
+                            plan_price=args.plan_price, sep=args.sep, client=client, partitions=args.partitions,
+                            progress=bar)
+    finally:
+        bar.close()
+        client.close()
+    rejected = total["rejected"]
+    target = args.output / "rejects.csv"
+    target.unlink(missing_ok=True)
+    if rejected["lines"]:
+        kind = "parquet" if args.data.is_dir() else file_kind(args.data)[0]
+        delimiter = None if kind == "parquet" else args.sep or _delimiter_of(args.data)
+        write_rejects(Rejects(args.data, kind, delimiter, np.array(rejected["lines"]), rejected["reasons"]), target)
+        if args.strict:
+            raise DataError(f"{rejected['reasons'][0]} (--strict; see {target})", path=str(args.data),
+                            line=int(rejected["lines"][0]))
+        if not args.quiet:
+            print(f"{rejects_summary(rejected['reasons'])} — see {target}", file=sys.stderr)
+    if args.plan and total["plan_matched"] < _plan_rows(args.plan):
+        print(f"warning: {args.plan} names series that are not in the data", file=sys.stderr)
+    if not args.quiet:
+        chosen = " · ".join(f"{k} {v:,}" for k, v in total["chosen"].items())
+        flags = " · ".join(f"{k} {v:,}" for k, v in total["flags"].items()) or "none"
+        share = total["clean"] / total["series"] if total["series"] else 1.0
+        print(f"fitted {total['series']:,} series ({total['rows']:,} rows) on {total['workers']} Dask workers in "
+              f"{time.perf_counter() - started:.2f} s; chosen: {chosen}\nflags: {flags}; {total['clean']:,} series "
+              f"({share:.0%}) carry none → {args.output}/ ({total['partitions']} parts)", file=sys.stderr)
+    return 0
+
+
+def _delimiter_of(path: Path) -> str:
+    from fitcore.loader import _sniff, file_kind
+    return file_kind(path)[1] or _sniff(path)
+
+
+def _plan_rows(path: Path) -> int:
+    with open(path, encoding="utf-8", errors="replace") as handle:
+        return max(sum(1 for line in handle if line.strip()) - 1, 0)
 
 
 def rejects_path(output: Path) -> Path:
@@ -238,6 +308,9 @@ def run_show(args) -> int:
 
 
 def is_results(path: Path) -> bool:
+    from fitcore.results_read import result_parts
+    if result_parts(path) is not None:
+        return True
     if path.suffix.lower() == ".json":
         return True
     if path.suffix.lower() in (".parquet", ".pq") and path.is_file():

@@ -89,10 +89,13 @@ def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | 
 def is_stored(path: Path) -> bool:
     """A Parquet results file that triage can open without refitting (it has the window coefficients)."""
     import pyarrow.parquet as pq
-    if Path(path).suffix.lower() not in (".parquet", ".pq"):
-        return False
+
+    from fitcore.results_read import result_parts
     try:
-        return "window_coef" in pq.read_schema(path).names
+        parts = result_parts(path)
+        if parts is None and Path(path).suffix.lower() not in (".parquet", ".pq"):
+            return False
+        return "window_coef" in pq.read_schema((parts or [path])[0]).names
     except Exception:  # not readable: the refit path reports it
         return False
 

@@ -1,0 +1,262 @@
+"""The batch engine on a Dask cluster, for inputs too big for one machine.
+
+``fit_batch`` is a pure function of whole series, so the work is: read the
+input in pieces (a CSV file, or each row group of each Parquet file), check
+every row as the local loader does, send each usable row to the partition
+its series' key hash picks, then fit, diagnose and write each partition on
+its own.  Every series lands whole in exactly one partition; fold shuffles
+are keyed by the series, and rows are put back in input order before
+fitting, so the numbers equal the local engine's whatever the number of
+workers or partitions.  Repeated series-and-date rows are found after the
+shuffle, where all rows of a series meet.
+
+Only the coordinating functions import dask; the pieces run in workers.
+"""
+from __future__ import annotations
+
+import json
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from .columns import Columns, file_sha256
+from .errors import DataError, SettingsError
+
+SUMMARY = "_summary.json"  # beside the part files; Parquet readers skip names starting with "_"
+
+
+@dataclass(frozen=True)
+class Piece:
+    """A slice of the input read by one task: a whole CSV file, or one row group of a Parquet file."""
+
+    path: str
+    row_group: int | None
+    first_line: int  # line (CSV, header = 1) or row number (Parquet, from 1) of the piece's first row
+
+
+def pieces_of(path: Path, columns: Columns) -> list[Piece]:
+    """The pieces of ``path``, in the order the local loader reads its rows (so line numbers agree)."""
+    import pyarrow.parquet as pq
+
+    from .loader import _check_columns, check_file, file_kind
+    check_file(path)
+    if not path.is_dir() and file_kind(path)[0] == "csv":
+        return [Piece(str(path), None, 2)]
+    files = pq.ParquetDataset(path).files if path.is_dir() else [str(path)]
+    out, line = [], 1
+    for name in files:
+        meta = pq.ParquetFile(name).metadata
+        _check_columns(Path(name), meta.schema.to_arrow_schema().names, columns)
+        for group in range(meta.num_row_groups):
+            out.append(Piece(name, group, line))
+            line += meta.row_group(group).num_rows
+    if line == 1:
+        raise DataError("expected at least one observation, found none", path=str(path))
+    return out
+
+
+def read_piece(piece: Piece, columns: Columns, n_parts: int, sep: str | None = None):
+    """``(tables, lines, reasons, n_rows)``: the piece's usable rows as one Arrow table per partition,
+    and the lines and reasons of its rejected rows."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    from .loader import _raw_from_table, read_rows
+    from .validation import reasons
+    if piece.row_group is None:
+        rows, _, _ = read_rows(Path(piece.path), columns, sep)
+    else:
+        table = pq.ParquetFile(piece.path).read_row_group(piece.row_group, columns=columns.needed)
+        rows = _raw_from_table(table, columns, piece.first_line + np.arange(table.num_rows, dtype=np.int64))
+    why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date, duplicates=False)
+    keep = np.flatnonzero(usable)
+    keys = {name: np.asarray(rows.keys[name], dtype=object)[keep].astype(str) for name in columns.keys}
+    part = partition_of(keys, n_parts)
+    fields = {**keys, "_price": rows.numbers[columns.price][0][keep], "_volume": rows.numbers[columns.volume][0][keep],
+              "_line": rows.line[keep]}
+    if columns.weight:
+        fields["_weight"] = rows.numbers[columns.weight][0][keep]
+    if columns.date:
+        fields["_date"] = rows.date[0][keep]
+    table = pa.table(fields)
+    order = np.argsort(part, kind="stable")
+    bounds = np.searchsorted(part[order], np.arange(n_parts + 1))
+    tables = [table.take(order[bounds[p]:bounds[p + 1]]) for p in range(n_parts)]
+    bad = np.flatnonzero(~usable)
+    return tables, rows.line[bad], why[bad].tolist(), rows.n_rows
+
+
+def partition_of(keys: dict[str, np.ndarray], n_parts: int) -> np.ndarray:
+    """(N,) the partition of each row: its series' key hash (as ``Dataset.key_hash``) modulo ``n_parts``."""
+    import pandas as pd
+    frame = pd.DataFrame({name: values.astype(str) for name, values in keys.items()})
+    return (pd.util.hash_pandas_object(frame, index=False).to_numpy(np.uint64) % np.uint64(n_parts)).astype(np.int64)
+
+
+@dataclass(frozen=True)
+class PartJob:
+    """What every partition's task needs besides its rows."""
+
+    columns: Columns
+    settings: object  # FitSettings
+    thresholds: object  # Thresholds
+    plan_file: str | None
+    plan_price: float | None
+    source: dict  # the input as the results header records it
+    out: str  # the results folder
+    sep: str | None = None
+
+
+def gather_part(tables: list, columns: Columns):
+    """Partition rows from every piece, back in input order, less rows repeating an earlier row's series
+    and date: ``(table, lines, reasons)`` of what remains and of what was set aside."""
+    import pyarrow as pa
+
+    from .validation import duplicate_reason, duplicate_rows
+    table = pa.concat_tables(tables)
+    table = table.take(np.argsort(table.column("_line").to_numpy(), kind="stable"))
+    if not columns.date or table.num_rows == 0:
+        return table, [], []
+    lines = table.column("_line").to_numpy()
+    codes = [np.unique(table.column(name).to_numpy(zero_copy_only=False).astype(str), return_inverse=True)[1]
+             for name in columns.keys]
+    dates = table.column("_date").to_numpy(zero_copy_only=False).astype("datetime64[ns]")
+    dropped, earlier = duplicate_rows(codes, dates, lines)
+    keep = np.setdiff1d(np.arange(table.num_rows), dropped)
+    return table.take(keep), lines[dropped].tolist(), [duplicate_reason(int(line)) for line in earlier]
+
+
+def fit_part(p: int, table, job: PartJob) -> dict:
+    """Fit, diagnose and write partition ``p`` (``part-p.parquet``); a small summary for the client."""
+    import pyarrow.parquet as pq
+
+    from .dataset import from_columns
+    from .diagnostics import diagnose
+    from .engine import fit_batch
+    from .plan import plan_prices
+    from .results_io import results_table
+    if table.num_rows == 0:
+        return {"series": 0, "rows": 0, "none": 0, "clean": 0, "chosen": {}, "flags": {}, "plan_matched": 0}
+
+    def column(name):
+        return table.column(name).to_numpy(zero_copy_only=False) if name in table.column_names else None
+
+    data = from_columns({name: column(name).astype(object) for name in job.columns.keys}, column("_price"),
+                        column("_volume"), weight=column("_weight"), date=column("_date"), line=column("_line"),
+                        source=job.source)
+    plan = plan_prices(data, job.plan_file, job.sep, partial=True) if job.plan_file else job.plan_price
+    results = fit_batch(data, job.settings, plan_price=plan)
+    diagnosis = diagnose(results, job.thresholds)
+    pq.write_table(results_table(results, diagnosis), Path(job.out) / f"part-{p:05d}.parquet", compression="snappy")
+    chosen = np.bincount(results.chosen[results.chosen >= 0], minlength=len(results.names))
+    return {"series": results.n_series, "rows": data.n_rows, "none": int((results.chosen < 0).sum()),
+            "clean": int((~diagnosis.raised.any(axis=1)).sum()), "flags": diagnosis.counts(),
+            "chosen": {name: int(n) for name, n in zip(results.names, chosen) if n},
+            "plan_matched": int(np.isfinite(results.plan_price).sum()) if job.plan_file else 0}
+
+
+def worker_environment() -> dict[str, str]:
+    """Environment for worker processes this module starts.
+
+    Dask sets ``MALLOC_TRIM_THRESHOLD_=65536`` in workers by default; measured here it made
+    numpy 1.8× slower (large arrays given back to the system and faulted in again on every chunk),
+    so it is raised to glibc's own ceiling.  One thread per worker process: the engine is
+    single-threaded and several BLAS or numba threads per process only compete for the cores.
+    """
+    return {"MALLOC_TRIM_THRESHOLD_": str(32 * 2 ** 20), "OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1",
+            "MKL_NUM_THREADS": "1", "NUMBA_NUM_THREADS": "1"}
+
+
+def connect(scheduler: str | None, workers: int):
+    """A Dask client: to ``scheduler`` if given, else to a new local cluster of ``workers`` processes."""
+    try:
+        import dask
+        from distributed import Client, LocalCluster
+    except ImportError:
+        raise SettingsError("--engine dask needs Dask: pip install 'pricefold[scale]'") from None
+    if scheduler:
+        try:
+            return Client(scheduler, timeout="20s")
+        except OSError as exc:
+            raise SettingsError(f"cannot reach the Dask scheduler at {scheduler} ({exc})") from None
+    environ = worker_environment()
+    dask.config.set({f"distributed.nanny.pre-spawn-environ.{k}": v for k, v in environ.items()})
+    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None,
+                           env=environ)
+    return Client(cluster)
+
+
+def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *, plan_file: Path | None = None,
+                plan_price: float | None = None, sep: str | None = None, client=None, partitions: int | None = None,
+                progress=None) -> dict:
+    """Fit ``path`` on the cluster behind ``client`` into the results folder ``out`` (part files + summary).
+
+    Returns the summary (also written as ``out/_summary.json``), which holds the rejected rows' lines
+    and reasons.  ``partitions``: output partitions (default: 4 per worker, at least 1).
+    """
+    from distributed import wait
+
+    started = time.perf_counter()
+    pieces = pieces_of(path, columns)
+    n_workers = max(len(client.scheduler_info()["workers"]), 1)
+    n_parts = partitions or 4 * n_workers
+    out.mkdir(parents=True, exist_ok=True)
+    for old in out.glob("part-*.parquet"):
+        old.unlink()  # an earlier run's parts would mix with this one's
+    read = [client.submit(read_piece, piece, columns, n_parts, sep, pure=False) for piece in pieces]
+    gathered = [client.submit(gather_part, [client.submit(_table_of, f, p) for f in read], columns, pure=False)
+                for p in range(n_parts)]
+    wait(gathered)
+    # Rows read and rows set aside are known before any part is written, so every part's header is final.
+    found = client.gather([client.submit(_rejects_of, f) for f in read])
+    repeats = client.gather([client.submit(_repeats_of, f) for f in gathered])
+    lines = [x for piece in found for x in piece[0]] + [x for part in repeats for x in part[0]]
+    reasons = [x for piece in found for x in piece[1]] + [x for part in repeats for x in part[1]]
+    source = {"path": str(path.resolve()), "sha256": file_sha256(path), "rows": sum(piece[2] for piece in found),
+              "rejected": len(lines)}
+    del read
+    job = PartJob(columns, settings, thresholds, str(plan_file) if plan_file else None, plan_price, source,
+                  str(out), sep)
+    parts = [client.submit(fit_part, p, client.submit(_table_only, f), job, pure=False) for p, f in enumerate(gathered)]
+    summaries = []
+    for future in parts:
+        summaries.append(future.result())
+        if progress is not None:
+            progress(len(summaries), n_parts)
+    order = np.argsort(lines, kind="stable")
+    total = {"schema": "pricefold-run/1", "engine": "dask", "workers": n_workers, "partitions": n_parts,
+             "pieces": len(pieces), "input": source,
+             "series": sum(s["series"] for s in summaries), "rows": sum(s["rows"] for s in summaries),
+             "none": sum(s["none"] for s in summaries), "clean": sum(s["clean"] for s in summaries),
+             "chosen": _add(s["chosen"] for s in summaries), "flags": _add(s["flags"] for s in summaries),
+             "plan_matched": sum(s["plan_matched"] for s in summaries),
+             "seconds": round(time.perf_counter() - started, 3),
+             "rejected": {"lines": [int(lines[i]) for i in order], "reasons": [reasons[i] for i in order]}}
+    (out / SUMMARY).write_text(json.dumps(total, ensure_ascii=False, indent=1))
+    return total
+
+
+def _table_of(piece_result, p: int):
+    return piece_result[0][p]
+
+
+def _rejects_of(piece_result):
+    return piece_result[1].tolist(), piece_result[2], piece_result[3]
+
+
+def _repeats_of(part_result):
+    return part_result[1], part_result[2]
+
+
+def _table_only(part_result):
+    return part_result[0]
+
+
+def _add(dicts) -> dict[str, int]:
+    out: dict[str, int] = {}
+    for d in dicts:
+        for k, v in d.items():
+            out[k] = out.get(k, 0) + v
+    return out

@@ -1,0 +1,134 @@
+"""``fit --engine dask`` gives the local engine's results, whatever the workers and partitions.
+
+The reference is the local engine (itself checked against outside references elsewhere): the
+results tables must agree cell for cell once both are sorted by series and candidate.
+"""
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+from fitcore.columns import Columns
+from fitcore.errors import SettingsError
+from fitcore.results_read import read_results
+from fitcore.settings import FitSettings, provenance
+from fitcore.thresholds import Thresholds
+from pricefold.cli import main
+from tests.bench.invented import invented_arrays
+
+pytest.importorskip("distributed")
+SAMPLE = Path(__file__).parents[2] / "sample"
+
+
+@pytest.fixture(scope="module")
+def client():
+    from fitcore.scale import connect
+    client = connect(None, 2)
+    yield client
+    client.close()
+
+
+def canonical(table: pa.Table, keys: list[str]) -> dict:
+    """Columns as plain lists, rows sorted by series key and candidate, NaN and null alike."""
+    rows = table.to_pylist()
+    rows.sort(key=lambda r: (*[r[k] for k in keys], r["candidate"]))
+
+    def plain(v):
+        if isinstance(v, float) and math.isnan(v):
+            return None
+        return [plain(x) for x in v] if isinstance(v, list) else v
+    return {name: [plain(r[name]) for r in rows] for name in table.column_names}
+
+
+def parts_table(folder: Path) -> pa.Table:
+    return pa.concat_tables([pq.read_table(p) for p in sorted(folder.glob("part-*.parquet"))],
+                            promote_options="permissive")
+
+
+def assert_same_results(local: Path, folder: Path, keys: list[str]) -> None:
+    ours, theirs = pq.read_table(local), parts_table(folder)
+    assert theirs.num_rows == ours.num_rows
+    assert canonical(theirs, keys) == canonical(ours, keys)
+    header = json.loads(pq.read_schema(local).metadata[b"pricefold"])
+    for part in folder.glob("part-*.parquet"):
+        assert json.loads(pq.read_schema(part).metadata[b"pricefold"]) == header
+
+
+def test_the_sample_gives_the_local_results(tmp_path, client):
+    from fitcore.scale import fit_on_dask
+    local = tmp_path / "local.parquet"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week",
+                 "--plan", str(SAMPLE / "plan.csv"), "-o", str(local), "--quiet"]) == 0
+    columns = Columns(segments=("region",), date="week")
+    settings = FitSettings(extra=provenance(columns.as_dict(), str((SAMPLE / "plan.csv").resolve()), None))
+    for partitions in (3, 7):
+        out = tmp_path / f"dask-{partitions}"
+        total = fit_on_dask(SAMPLE / "wholesale.csv", columns, settings, Thresholds(), out,
+                            plan_file=SAMPLE / "plan.csv", client=client, partitions=partitions)
+        assert total["series"] == 180 and len(list(out.glob("part-*.parquet"))) == partitions
+        assert_same_results(local, out, ["product", "region"])
+
+
+def test_5000_series_in_7_shuffled_files_give_the_local_results(tmp_path, client):
+    """Interleaved input: rows of every series spread over all 7 files, in random order."""
+    product, price, volume = invented_arrays(5000, rows_per_series=20, seed=11)
+    rng = np.random.default_rng(5)
+    order = rng.permutation(len(price))
+    folder = tmp_path / "data"
+    folder.mkdir()
+    names = np.char.add("item-", product.astype(str))[order]
+    for i, rows in enumerate(np.array_split(np.arange(len(order)), 7)):
+        pq.write_table(pa.table({"product": names[rows], "price": price[order][rows], "volume": volume[order][rows]}),
+                       folder / f"f{i}.parquet", row_group_size=9000)
+    local = tmp_path / "local.parquet"
+    assert main(["fit", str(folder), "-o", str(local), "--quiet", "--plan-price", "150"]) == 0
+    out = tmp_path / "dask.parquet"
+    assert main(["fit", str(folder), "-o", str(out), "--quiet", "--plan-price", "150", "--engine", "dask",
+                 "--scheduler", client.scheduler.address, "--partitions", "5"]) == 0
+    assert_same_results(local, out, ["product"])
+    summary = json.loads((out / "_summary.json").read_text())
+    assert summary["series"] == 5000 and summary["pieces"] > 7  # several row groups a file
+
+
+def test_repeated_rows_across_files_are_rejected_as_locally(tmp_path, client):
+    folder = tmp_path / "data"
+    folder.mkdir()
+    weeks = np.arange("2025-01-06", "2025-06-30", 7, dtype="datetime64[D]")
+    first = pa.table({"product": ["a"] * len(weeks), "week": weeks.astype(str), "price": np.linspace(1, 2, len(weeks)),
+                      "volume": np.linspace(90, 50, len(weeks))})
+    pq.write_table(first, folder / "f0.parquet")
+    pq.write_table(first.slice(3, 2), folder / "f1.parquet")  # two weeks again, in another file
+    local, out = tmp_path / "local.parquet", tmp_path / "dask"
+    assert main(["fit", str(folder), "--date", "week", "-o", str(local), "--quiet"]) == 0
+    assert main(["fit", str(folder), "--date", "week", "-o", str(out), "--quiet", "--engine", "dask",
+                 "--scheduler", client.scheduler.address]) == 0
+    assert_same_results(local, out, ["product"])
+    local_rejects = (tmp_path / "local.rejects.csv").read_text()
+    assert (out / "rejects.csv").read_text() == local_rejects
+    assert "duplicate of line 4" in local_rejects
+
+
+def test_show_reads_a_results_folder(tmp_path, client, capsys):
+    out = tmp_path / "dask"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "-o", str(out), "--quiet",
+                 "--engine", "dask", "--scheduler", client.scheduler.address]) == 0
+    head, series = read_results(out)
+    assert len(series) == 180 and head["input"]["rows"] == 18625
+    capsys.readouterr()
+    assert main(["show", str(out), "--product", "lemons 500 g"]) == 0
+    assert "lemons 500 g · East" in capsys.readouterr().out
+
+
+def test_dask_missing_is_one_line_telling_what_to_install(monkeypatch):
+    import sys
+
+    from fitcore.scale import connect
+    monkeypatch.setitem(sys.modules, "distributed", None)
+    with pytest.raises(SettingsError, match=r"pip install 'pricefold\[scale\]'"):
+        connect(None, 1)
