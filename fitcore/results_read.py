@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+from collections.abc import Iterator
 from pathlib import Path
 
 from .errors import DataError
@@ -43,6 +44,24 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
     if suffix in (".parquet", ".pq"):
         return _read_parquet(path)
     raise DataError(f"expected a results file ending in .json or .parquet, got {path.name!r}", path=str(path))
+
+
+def results_in_parts(path: str | Path) -> tuple[dict, Iterator[list[dict]]]:
+    """``(header, parts)``: the series one part at a time (a single file is one part), so a
+    results folder of any size is read with the memory of one part."""
+    path = Path(path)
+    parts = result_parts(path)
+    if parts is None:
+        head, series = read_results(path)
+        return head, iter([series])
+    import pyarrow.parquet as pq
+    try:
+        meta = json.loads((pq.read_schema(parts[0]).metadata or {}).get(b"pricefold", b"null"))
+    except Exception as exc:  # pyarrow raises several unrelated types for a bad file
+        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(parts[0])) from None
+    check_schema(parts[0], meta)
+    meta.pop("key_columns", None)
+    return meta, (_read_parquet(part)[1] for part in parts)
 
 
 def check_schema(path: Path, document) -> None:

@@ -183,7 +183,7 @@ def connect(scheduler: str | None, workers: int):
             raise SettingsError(f"cannot reach the Dask scheduler at {scheduler} ({exc})") from None
     environ = worker_environment()
     dask.config.set({f"distributed.nanny.pre-spawn-environ.{k}": v for k, v in environ.items()})
-    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None,
+    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0",
                            env=environ)
     return Client(cluster)
 

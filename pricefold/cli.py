@@ -287,7 +287,7 @@ def summary(results, diagnosis, seconds: float, output: Path) -> str:
 
 def run_show(args) -> int:
     from fitcore.errors import SettingsError
-    from fitcore.results_read import read_results
+    from fitcore.results_read import results_in_parts
 
     from .show import detail, select, table
     keys = {}
@@ -296,8 +296,8 @@ def run_show(args) -> int:
         if not sep:
             raise SettingsError(f"expected --key COL=VALUE, got {item!r}")
         keys[name] = value
-    header, series = read_results(args.results)
-    picked = select(series, args.product, keys, args.flag)
+    header, parts = results_in_parts(args.results)
+    picked = [record for series in parts for record in select(series, args.product, keys, args.flag)]
     if not picked:
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
         return 1

@@ -13,7 +13,7 @@ from pathlib import Path
 from fitcore import ledger
 from fitcore.decisions import replay, series_id
 from fitcore.errors import DataError
-from fitcore.results_read import read_results
+from fitcore.results_read import results_in_parts
 
 from fitcore.text import clean
 
@@ -90,18 +90,19 @@ def run_show(args) -> int:
 
 
 def run_export(args) -> int:
-    header, series = read_results(args.results)
+    header, parts = results_in_parts(args.results)
     records, problems = ledger.read(args.ledger)
     if problems:
         print(f"{args.ledger}: {problems[0]} (exported from the whole records before it)", file=sys.stderr)
     histories = replay(records)
-    key_columns = list(series[0]["key"]) if series else []
-    columns = [*key_columns, "status", "model", "family", "coef", "analyst", "at", "note", "plan_price",
-               "plan_volume", "plan_lo", "plan_hi"]
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(columns)
-    for record in series:
+    count = 0
+    for record in (record for series in parts for record in series):
+        if count == 0:
+            writer.writerow([*record["key"], "status", "model", "family", "coef", "analyst", "at", "note",
+                             "plan_price", "plan_volume", "plan_lo", "plan_hi"])
+        count += 1
         history = histories.get(series_id(record["key"]))
         status = history.status(record["fingerprint"]) if history else "pending"
         current = history.current if history else None
@@ -116,17 +117,17 @@ def run_export(args) -> int:
                          (plan.get("volume") if same else (cand or {}).get("plan_volume", "")) or "",
                          plan.get("lo", "") if same else "", plan.get("hi", "") if same else ""])
     _atomic_text(args.output, buffer.getvalue())
-    print(f"{len(series):,} series written to {args.output}", file=sys.stderr)
+    print(f"{count:,} series written to {args.output}", file=sys.stderr)
     return 0
 
 
 def run_accept_unflagged(args) -> int:
-    header, series = read_results(args.results)
+    header, parts = results_in_parts(args.results)
     digest = ledger.results_digest(header)
 
     def decide(records):
         histories = replay(records)
-        for record in series:
+        for record in (record for series in parts for record in series):
             if record["flags"] or not record["chosen"]:
                 continue
             history = histories.get(series_id(record["key"]))

@@ -92,10 +92,27 @@ class TriageSession:
     def upgrade(self, results: Results, diagnosis: Diagnosis) -> bool:
         """Swap in a fit of the data for results read back from a file (observations, bands).
 
-        Only when it is the same series with the same rows (fingerprints equal, in order); False otherwise.
+        The fit may list the series in another order (a results folder is written partition by
+        partition): statuses, the list and the cursor follow each series.  Only when it holds the same
+        series with the same rows (fingerprints equal); False otherwise, and nothing changes.
         """
-        if results.data.fingerprints != self.results.data.fingerprints:
+        old, new = self.results.data, results.data
+        if old.n_series != new.n_series:
             return False
+        if old.fingerprints == new.fingerprints:
+            perm = np.arange(old.n_series)
+        else:
+            where = {key: i for i, key in enumerate(zip(*(new.keys[k] for k in new.key_names)))}
+            perm = np.array([where.get(key, -1) for key in zip(*(old.keys[k] for k in old.key_names))])
+            if (perm < 0).any() or any(old.fingerprints[i] != new.fingerprints[j] for i, j in enumerate(perm)):
+                return False
+        inverse = np.empty_like(perm)
+        inverse[perm] = np.arange(len(perm))
+        self.status, self.status_code = self.status[inverse], self.status_code[inverse]
+        self.labels = [self.labels[i] for i in inverse]
+        self.view = perm[self.view]
+        self._known = {sid: int(perm[s]) for sid, s in self._known.items()}
+        self._series_of = None
         self.results, self.base_diagnosis = results, diagnosis
         self.reload_ledger(force=True)
         return True

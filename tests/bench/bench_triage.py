@@ -95,33 +95,38 @@ async def measure(n_series: int) -> None:
     with tempfile.TemporaryDirectory() as name:
         folder = Path(name)
         start = time.perf_counter()
-        data, results_path = write_inputs(n_series, folder)
+        _, results_path = write_inputs(n_series, folder)
         print(f"{n_series:,} series ({n_series * 70:,} rows): pricefold fit (whole process) "
               f"{time.perf_counter() - start:.2f} s")
-        listed, observed = launch_to_screen(results_path, folder)
-        print(f"  pricefold triage RESULTS, launch to first usable screen: {listed:.2f} s "
-              f"(observations drawn after {observed:.2f} s, read and fitted behind the screen)")
-        who = Identity("bench", "bench", "h")
-        start = time.perf_counter()
-        session = open_stored_session(results_path, folder / "ledger.jsonl", who)
-        opened = time.perf_counter() - start
-        source = source_from_results(results_path, check_data=False)
-        app = TriageApp(lambda progress: session, observer=lambda progress: refit_stored(source, progress))
-        async with app.run_test(size=(160, 50)) as pilot:
-            while not app.screen.__class__.__name__ == "TriageScreen":
-                await pilot.pause(0.01)
-            await app.workers.wait_for_complete()  # the observations are in
-            await pilot.pause()
-            clock = RepaintClock(app)
-            moves, pages, decisions = [], [], []
-            for i in range(200):
-                (moves if i % 4 else pages).append(await clock.press(pilot, "down" if i % 4 else "pagedown"))
-                await asyncio.sleep(0.03)  # a fast typist; the charts catch up when the cursor rests
-            for _ in range(50):
-                decisions.append(await clock.press(pilot, "a"))
-                await asyncio.sleep(0.03)
+        await measure_triage(results_path, folder)
+
+
+async def measure_triage(results_path: Path, folder: Path) -> None:
+    """Launch to first screen (tmux), then key-to-repaint (Pilot), on a results file or folder."""
+    listed, observed = launch_to_screen(results_path, folder)
+    print(f"  pricefold triage RESULTS, launch to first usable screen: {listed:.2f} s "
+          f"(observations drawn after {observed:.2f} s, read and fitted behind the screen)")
+    who = Identity("bench", "bench", "h")
+    start = time.perf_counter()
+    session = open_stored_session(results_path, folder / "ledger.jsonl", who)
+    opened = time.perf_counter() - start
+    source = source_from_results(results_path, check_data=False)
+    app = TriageApp(lambda progress: session, observer=lambda progress: refit_stored(source, progress))
+    async with app.run_test(size=(160, 50)) as pilot:
+        while not app.screen.__class__.__name__ == "TriageScreen":
+            await pilot.pause(0.01)
+        await app.workers.wait_for_complete()  # the observations are in
+        await pilot.pause()
+        clock = RepaintClock(app)
+        moves, pages, decisions = [], [], []
+        for i in range(200):
+            (moves if i % 4 else pages).append(await clock.press(pilot, "down" if i % 4 else "pagedown"))
+            await asyncio.sleep(0.03)  # a fast typist; the charts catch up when the cursor rests
+        for _ in range(50):
+            decisions.append(await clock.press(pilot, "a"))
+            await asyncio.sleep(0.03)
     every = moves + pages
-    print(f"  opening the results file as a session (in process): {opened:.2f} s")
+    print(f"  opening the results as a session (in process): {opened:.2f} s")
     print(f"  key-to-repaint, 200 cursor moves: median {statistics.median(every) * 1e3:.0f} ms, "
           f"p95 {p95(every) * 1e3:.0f} ms (down p95 {p95(moves) * 1e3:.0f} ms, page down p95 {p95(pages) * 1e3:.0f} ms)")
     print(f"  key-to-repaint, 50 decisions (ledger append + fsync): median "

@@ -125,6 +125,20 @@ def test_show_reads_a_results_folder(tmp_path, client, capsys):
     assert "lemons 500 g · East" in capsys.readouterr().out
 
 
+def test_ledger_signs_off_and_exports_a_results_folder(tmp_path, client):
+    import csv
+    out, ledger_path, export = tmp_path / "dask", tmp_path / "ledger.jsonl", tmp_path / "export.csv"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "-o", str(out), "--quiet",
+                 "--engine", "dask", "--scheduler", client.scheduler.address]) == 0
+    _, series = read_results(out)
+    unflagged = sum(1 for record in series if not record["flags"] and record["chosen"])
+    assert main(["ledger", "accept-unflagged", str(out), "--ledger", str(ledger_path), "--analyst", "ana"]) == 0
+    assert len(ledger_path.read_text().splitlines()) == unflagged
+    assert main(["ledger", "export", str(ledger_path), "--results", str(out), "-o", str(export)]) == 0
+    rows = list(csv.DictReader(export.open()))
+    assert len(rows) == 180 and sum(row["status"] == "accepted" for row in rows) == unflagged
+
+
 def test_dask_missing_is_one_line_telling_what_to_install(monkeypatch):
     import sys
 

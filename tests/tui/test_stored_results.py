@@ -64,3 +64,32 @@ async def test_changed_data_keep_the_stored_results_and_say_so(tmp_path):
         await until(pilot, lambda: any("changed since the results were written" in note.message
                                        for note in app._notifications), seconds=30)
         assert not app.session.results.rows_loaded
+
+
+def test_observations_in_another_series_order_keep_each_series_status(tmp_path):
+    """A results folder lists series partition by partition; the fit that brings the observations
+    lists them in input order.  Statuses, labels and the cursor must follow the series."""
+    import numpy as np
+
+    import fitcore
+    from fitcore.diagnostics import diagnose
+    from fitcore.loader import load
+    _, out = fit_to_parquet(tmp_path)
+    session = open_stored_session(out, tmp_path / "ledger.jsonl", ANA)
+    s = int(session.view[2])
+    held = session.results.data.key_of(s)
+    session.record(s, "hold")
+    source = source_from_results(out, check_data=False)
+    data = load(source.data, source.columns)
+    # every series' rows, last series first
+    rows = np.concatenate([np.arange(data.offsets[i], data.offsets[i + 1]) for i in range(data.n_series)[::-1]])
+    flipped = fitcore.from_columns({k: data.keys[k][np.repeat(np.arange(data.n_series), data.counts)][rows]
+                                    for k in data.key_names}, data.price[rows], data.volume[rows],
+                                   date=data.date[rows], line=data.line[rows])
+    results = fitcore.fit_batch(flipped, source.settings)
+    current = session.results.data.key_of(session.current)
+    assert session.upgrade(results, diagnose(results))
+    t = next(i for i in range(results.n_series) if results.data.key_of(i) == held)
+    assert t != s and session.status[t] == "held" and session.results.rows_loaded
+    assert session.labels[t].startswith(held["product"])
+    assert session.results.data.key_of(session.current) == current
