@@ -56,6 +56,9 @@ class Dataset:
     def key_of(self, s: int) -> dict[str, str]:
         return {name: str(self.keys[name][s]) for name in self.key_names}
 
+    def fingerprint_of(self, s: int) -> str:
+        return self.fingerprints[s]
+
     @cached_property
     def key_hash(self) -> np.ndarray:
         """(S,) uint64 hash of each series' key, the same on every machine.

@@ -16,6 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from . import reasons
+from .arrays import integers, numbers
 from .basis import window
 from .candidates import candidates_for
 from .dataset import Dataset
@@ -35,13 +36,19 @@ NEEDED = ("n", "price_lo", "price_hi", "candidate", "available", "reason", "cv_m
 
 @dataclass(frozen=True, eq=False)
 class StoredDataset(Dataset):
-    """Keys and counts of the series of a results file; ``stored_fingerprints`` as written."""
+    """Counts of the series of a results file; keys and fingerprints as Arrow text (no string per series)."""
 
-    stored_fingerprints: list = field(default_factory=list)
+    stored_fingerprints: object = None  # (S,) Arrow text
 
     @cached_property
-    def fingerprints(self) -> list[str]:
+    def fingerprints(self):
         return self.stored_fingerprints
+
+    def fingerprint_of(self, s: int) -> str:
+        return self.stored_fingerprints[s].as_py()
+
+    def key_of(self, s: int) -> dict[str, str]:
+        return {name: self.keys[name][s].as_py() for name in self.key_names}
 
 
 @dataclass(frozen=True, eq=False)
@@ -115,12 +122,18 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
     def per_series(name):
         return _column(table, name)[::n_c] if n_c else np.zeros(0)
 
+    every = integers(np.arange(0, table.num_rows, max(n_c, 1)))
+
+    def per_series_text(name):  # Arrow text, decoded from its dictionary
+        import pyarrow.compute as pc
+        column = table.column(name).combine_chunks().take(every)
+        return column if pa.types.is_string(column.type) else pc.cast(column, pa.string())
+
     key_names = tuple(meta["key_columns"])
     counts = per_series("n").astype(np.int64)
-    data = StoredDataset(key_names, {k: per_series(k).astype(object) for k in key_names},
+    data = StoredDataset(key_names, {k: per_series_text(k) for k in key_names},
                          np.concatenate(([0], np.cumsum(counts))).astype(np.int64), np.zeros(0), np.zeros(0),
-                         source=dict(meta.get("input", {})),
-                         stored_fingerprints=[str(v) for v in per_series("fingerprint")])
+                         source=dict(meta.get("input", {})), stored_fingerprints=per_series_text("fingerprint"))
     available = _column(table, "available").astype(bool).reshape(n_s, n_c)
     lo, hi = per_series("price_lo").astype(float), per_series("price_hi").astype(float)
     mid, half = window(lo, hi)
@@ -155,41 +168,19 @@ def _column(table, name: str) -> np.ndarray:
     column = table.column(name).combine_chunks()
     if pa.types.is_dictionary(column.type) and not column.null_count:
         values = np.array(column.dictionary.to_pylist() + [None], dtype=object)[:-1]
-        return values[_numbers(column.indices)]
+        return values[numbers(column.indices)]
     if pa.types.is_dictionary(column.type) or pa.types.is_string(column.type):
         return np.array(column.to_pylist() + [None], dtype=object)[:-1]
-    return _numbers(column)
-
-
-def _numbers(array) -> np.ndarray:
-    """A numeric or boolean Arrow array as numpy, straight from its buffers (nulls → NaN).
-
-    Not ``Array.to_numpy``: that imports pandas (0.3 s), most of opening a results file.
-    """
-    import pyarrow as pa
-    n, start = len(array), array.offset
-    validity, data = array.buffers()[:2]
-
-    def bits(buffer):
-        return np.unpackbits(np.frombuffer(buffer, np.uint8), bitorder="little")[start:start + n].astype(bool)
-
-    if pa.types.is_boolean(array.type):
-        values = bits(data)
-    else:
-        dtype = np.dtype({"double": "float64", "float": "float32"}.get(str(array.type), str(array.type)))
-        values = np.frombuffer(data, dtype, count=n, offset=start * dtype.itemsize)
-    if array.null_count:
-        values = np.where(bits(validity), values, np.nan)
-    return values
+    return numbers(column)
 
 
 def _list_cells(table, name: str, n_s: int, n_c: int, width: int) -> np.ndarray:
     """(S, C, width) a list column, NaN-padded (null or short lists)."""
     column = table.column(name).combine_chunks()
     out = np.full((n_s * n_c, width), np.nan)
-    offsets = _numbers(column.offsets)
-    lengths = np.diff(offsets) * ~_numbers(column.is_null())
-    values = _numbers(column.values)
+    offsets = numbers(column.offsets)
+    lengths = np.diff(offsets) * ~numbers(column.is_null())
+    values = numbers(column.values)
     cell = np.repeat(np.arange(n_s * n_c), lengths)
     within = np.arange(len(cell)) - np.repeat(np.cumsum(lengths) - lengths, lengths)
     out[cell, within] = values[np.repeat(offsets[:-1], lengths) + within]
@@ -199,7 +190,7 @@ def _list_cells(table, name: str, n_s: int, n_c: int, width: int) -> np.ndarray:
 def _fixed_cells(table, name: str, n_s: int, n_c: int, width: int) -> np.ndarray:
     """(S, C, width) a fixed-size list column."""
     column = table.column(name).combine_chunks()
-    return _numbers(column.flatten()).astype(np.float64).reshape(n_s, n_c, width)
+    return numbers(column.flatten()).astype(np.float64).reshape(n_s, n_c, width)
 
 
 def _fold_table(table, settings, counts: np.ndarray, n_c: int):
@@ -208,10 +199,10 @@ def _fold_table(table, settings, counts: np.ndarray, n_c: int):
     fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
     width = int(n_folds.max(initial=0))
     column = table.column("fold_mse").combine_chunks()
-    lengths = np.diff(_numbers(column.offsets))
+    lengths = np.diff(numbers(column.offsets))
     if settings.folds != "loo" and np.all((lengths == 0) | (lengths == width)):  # K folds: every list full or empty
         wide = np.full((len(counts) * n_c, width), np.nan)
-        wide[lengths == width] = _numbers(column.flatten()).reshape(-1, width)
+        wide[lengths == width] = numbers(column.flatten()).reshape(-1, width)
         wide = wide.reshape(len(counts), n_c, width)
     else:
         wide = _list_cells(table, "fold_mse", len(counts), n_c, width)  # (S, C, K)
@@ -227,7 +218,7 @@ def _flags(table, n_s: int, n_c: int):
     column = table.column("flags").combine_chunks()
     if pa.types.is_dictionary(column.type):
         texts = column.dictionary.to_pylist()
-        index = _numbers(column.indices)[::n_c]
+        index = numbers(column.indices)[::n_c]
     else:
         texts, index = np.unique(np.array(column.to_pylist(), dtype=object)[::n_c], return_inverse=True)
         texts = texts.tolist()

@@ -15,6 +15,7 @@ import numpy as np
 from fitcore import ledger
 from fitcore.decisions import SeriesHistory, apply, own_standing, series_id
 from fitcore.diagnostics import CODES, SEVERITY, Diagnosis, mark_stale
+from fitcore.keys import SeriesKeys
 from fitcore.results import Results
 
 from .text import clean
@@ -37,11 +38,11 @@ class TriageSession:
         self.ledger_path, self.who, self.key, self.results_digest = Path(ledger_path), who, key, results_digest
         self.warnings: list[str] = []
         data = results.data
-        columns = [data.keys[k] for k in data.key_names]
-        self.labels = [clean(" · ".join(map(str, parts))) for parts in zip(*columns)]
+        self.keys = SeriesKeys.of(data)  # Arrow columns: no Python object per series
+        self._labels: dict[int, str] = {}
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
-        self._series_of: dict[str, int] | None = None  # series id → index, built when the ledger names a series
-        self._known: dict[str, int] = {}  # the same for series decided here (no need to build the whole map)
+        self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
+        self._search: tuple[str, np.ndarray] | None = None
         self.histories: dict[str, SeriesHistory] = {}
         self._ledger_state: tuple[int, int] | None = None
         self._offset = 0
@@ -75,12 +76,14 @@ class TriageSession:
         whole = new[:new.rfind(b"\n") + 1]
         self._offset += len(whole)
         records, _ = ledger.parse(whole)
-        touched = {series_id(r["series"]) for r in records}
+        touched = {series_id(r["series"]): r["series"] for r in records}
         apply(self.histories, records)
-        lookup = self._known if touched <= self._known.keys() else self._lookup()
+        new = [sid for sid in touched if sid not in self._known]
+        for sid, s in zip(new, self.keys.indices_of([touched[sid] for sid in new])):
+            self._known[sid] = int(s)
         for sid in touched:
-            if sid in lookup:
-                self._refresh_status(lookup[sid])
+            if self._known[sid] >= 0:
+                self._refresh_status(self._known[sid])
         if records or force:
             stale = self.status_code == STATUSES.index("stale")
             if force or not np.array_equal(stale, self.diagnosis.flagged("stale")):
@@ -99,36 +102,35 @@ class TriageSession:
         old, new = self.results.data, results.data
         if old.n_series != new.n_series:
             return False
-        if old.fingerprints == new.fingerprints:
-            perm = np.arange(old.n_series)
-        else:
-            where = {key: i for i, key in enumerate(zip(*(new.keys[k] for k in new.key_names)))}
-            perm = np.array([where.get(key, -1) for key in zip(*(old.keys[k] for k in old.key_names))])
-            if (perm < 0).any() or any(old.fingerprints[i] != new.fingerprints[j] for i, j in enumerate(perm)):
-                return False
+        fresh = SeriesKeys.of(new)
+        perm = fresh.indices_of([self.keys.key_of(s) for s in range(old.n_series)])  # old index → new index
+        if (perm < 0).any() or any(old.fingerprint_of(i) != new.fingerprint_of(j) for i, j in enumerate(perm)):
+            return False
         inverse = np.empty_like(perm)
         inverse[perm] = np.arange(len(perm))
         self.status, self.status_code = self.status[inverse], self.status_code[inverse]
-        self.labels = [self.labels[i] for i in inverse]
         self.view = perm[self.view]
-        self._known = {sid: int(perm[s]) for sid, s in self._known.items()}
-        self._series_of = None
+        self._known = {sid: int(perm[s]) if s >= 0 else -1 for sid, s in self._known.items()}
+        self.keys, self._labels, self._search = fresh, {}, None
         self.results, self.base_diagnosis = results, diagnosis
         self.reload_ledger(force=True)
         return True
 
-    def _lookup(self) -> dict[str, int]:
-        if self._series_of is None:
-            data = self.results.data
-            self._series_of = {series_id(data.key_of(s)): s for s in range(data.n_series)}
-        return self._series_of
-
     def _id(self, s: int) -> str:
-        return series_id(self.results.data.key_of(s))
+        return series_id(self.keys.key_of(s))
+
+    def label(self, s: int) -> str:
+        """Series ``s``'s key as one line, safe to print (made on demand: the list draws a screenful)."""
+        text = self._labels.get(s)
+        if text is None:
+            if len(self._labels) > 4096:
+                self._labels.clear()
+            text = self._labels[s] = clean(self.keys.label(s))
+        return text
 
     def _refresh_status(self, s: int) -> None:
         history = self.histories.get(self._id(s))
-        self.status[s] = history.status(self.results.data.fingerprints[s]) if history else "pending"
+        self.status[s] = history.status(self.results.data.fingerprint_of(s)) if history else "pending"
         self.status_code[s] = STATUSES.index(self.status[s])
 
     def history(self, s: int) -> list[dict]:
@@ -144,8 +146,8 @@ class TriageSession:
         proposed = self.results.names[chosen] if chosen >= 0 else None
         if action == "accept":
             model = proposed
-        entry = ledger.Entry(series=self.results.data.key_of(s), action=action,
-                             fingerprint=self.results.data.fingerprints[s], results=self.results_digest,
+        entry = ledger.Entry(series=self.keys.key_of(s), action=action,
+                             fingerprint=self.results.data.fingerprint_of(s), results=self.results_digest,
                              model=model, proposed=proposed, note=note)
         ledger.append(self.ledger_path, [entry], self.who, key=self.key)
         self._known[self._id(s)] = s
@@ -185,7 +187,7 @@ class TriageSession:
 
     def _order(self) -> np.ndarray:
         if self.sort == "key":
-            return np.argsort(np.array(self.labels, dtype=object), kind="stable")
+            return self.keys.sorted_order()
         if self.sort == "score":
             score = np.where(np.isnan(self.results.score), -np.inf, self.results.score)
             return np.argsort(score, kind="stable")
@@ -235,17 +237,18 @@ class TriageSession:
 
     def search(self, text: str, start_after: bool = True) -> bool:
         """Move to the next listed series whose key contains ``text`` (case-insensitive)."""
-        needle = text.casefold().strip()
+        needle = text.strip()
         if not needle or not len(self.view):
             return False
-        n = len(self.view)
+        if self._search is None or self._search[0] != needle.casefold():
+            self._search = (needle.casefold(), self.keys.matching(needle))
+        positions = np.flatnonzero(self._search[1][self.view])
+        if not len(positions):
+            return False
         begin = self.cursor + 1 if start_after else self.cursor
-        for offset in range(n):
-            position = (begin + offset) % n
-            if needle in self.labels[self.view[position]].casefold():
-                self.cursor = position
-                return True
-        return False
+        later = positions[positions >= begin]
+        self.cursor = int(later[0] if len(later) else positions[0])
+        return True
 
     # -- one line of the list ------------------------------------------------------------
     def flag_codes(self, s: int) -> list[str]:

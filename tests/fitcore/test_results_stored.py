@@ -39,9 +39,10 @@ def test_stored_results_equal_the_fit_that_wrote_them(tmp_path, folds):
     loglog = ok[:, -1]  # the log window only serves the log-log curve
     np.testing.assert_array_equal(stored.log_mid[loglog], results.log_mid[loglog])
     np.testing.assert_array_equal(stored.smear[loglog], results.smear[loglog])
-    assert stored.data.fingerprints == results.data.fingerprints
+    assert stored.data.fingerprints.to_pylist() == results.data.fingerprints
     assert stored.data.counts.tolist() == results.data.counts.tolist()
-    assert stored.data.keys["product"].tolist() == results.data.keys["product"].tolist()
+    assert stored.data.keys["product"].to_pylist() == results.data.keys["product"].tolist()
+    assert [stored.data.key_of(s) for s in range(3)] == [results.data.key_of(s) for s in range(3)]
     assert [stored.reason_text(s, c) for s in range(5) for c in range(7)] == \
         [results.reason_text(s, c) for s in range(5) for c in range(7)]
     np.testing.assert_array_equal(flags.raised, diagnosis.raised)

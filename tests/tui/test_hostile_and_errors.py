@@ -40,7 +40,7 @@ async def test_hostile_names_are_shown_literally(tmp_path):
         for _ in range(len(HOSTILE)):  # the evidence title of each shows the name too
             await until(pilot, lambda: app.screen.evidence.series == session.current)
             await pilot.pause()
-            label = session.labels[session.current]
+            label = session.label(session.current)
             assert label[:60] in screen_text(app)
             await pilot.press("down")
         await pilot.press("a")

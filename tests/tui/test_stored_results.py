@@ -42,7 +42,7 @@ async def test_the_list_and_decisions_work_before_the_observations_arrive(tmp_pa
         await until(pilot, lambda: "reading the data" in screen_text(app))
         assert "• observed" not in screen_text(app)
         first = app.session.current
-        fingerprint = app.session.results.data.fingerprints[first]
+        fingerprint = app.session.results.data.fingerprint_of(first)
         await pilot.press("a")
         await until(pilot, lambda: ledger_path.exists() and ledger_path.read_text().strip())
         gate.set()
@@ -91,5 +91,5 @@ def test_observations_in_another_series_order_keep_each_series_status(tmp_path):
     assert session.upgrade(results, diagnose(results))
     t = next(i for i in range(results.n_series) if results.data.key_of(i) == held)
     assert t != s and session.status[t] == "held" and session.results.rows_loaded
-    assert session.labels[t].startswith(held["product"])
+    assert session.label(t).startswith(held["product"])
     assert session.results.data.key_of(session.current) == current

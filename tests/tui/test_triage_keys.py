@@ -24,7 +24,7 @@ async def test_first_screen_lists_the_series_needing_attention(ledger_path, size
         text = screen_text(app)
         attention = int(session.needs_attention().sum())
         assert f"{attention} listed (needs attention, pending; by attention)" in text
-        first = session.labels[session.view[0]]
+        first = session.label(session.view[0])
         assert first in text and session.flag_codes(session.view[0])[0] in text
         assert "a accept" in text and "q quit" in text
         assert "u withdraw" not in text  # nothing of ana's to withdraw yet: the key is hidden
@@ -122,7 +122,7 @@ async def test_next_and_previous_attention(ledger_path):
         assert attention[second] and second != first
         await pilot.press("left_square_bracket")
         assert session.current == first
-        assert session.labels[first] in screen_text(app)
+        assert session.label(first) in screen_text(app)
 
 
 async def test_search_filter_and_sort(ledger_path):
@@ -131,7 +131,7 @@ async def test_search_filter_and_sort(ledger_path):
         session = await started(app, pilot)
         await pilot.press("slash", *"lemons", "enter")
         await pilot.pause()
-        assert session.labels[session.current] == "lemons 500 g · East"
+        assert session.label(session.current) == "lemons 500 g · East"
         await pilot.press("f")
         await pilot.pause()
         assert "flag rising" in screen_text(app)
@@ -143,7 +143,7 @@ async def test_search_filter_and_sort(ledger_path):
         assert all("rising" in session.flag_codes(s) for s in session.view)
         await pilot.press("f", "home", "down", "enter", "s", "home", "down", "enter")  # all series, by key
         await pilot.pause()
-        labels = [session.labels[s] for s in session.view]
+        labels = [session.label(s) for s in session.view]
         assert len(labels) == 180 and labels == sorted(labels)
         assert "180 listed (all series; by key)" in screen_text(app)
 
@@ -197,7 +197,7 @@ async def test_tab_switches_to_the_evidence_when_narrow(ledger_path):
         await until(pilot, lambda: app.screen.evidence.series == session.current)  # follows once the cursor rests
         await pilot.pause()
         text = screen_text(app)
-        assert session.labels[session.current] in text and "observed" in text
+        assert session.label(session.current) in text and "observed" in text
         await pilot.press("tab")
         await pilot.pause()
         assert "series" in screen_text(app).splitlines()[1]

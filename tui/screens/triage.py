@@ -145,7 +145,7 @@ class TriageScreen(Screen):
         except PricefoldError as exc:
             self.app.push_screen(MessageDialog(Text(f"Not recorded: {clean(str(exc))}", style="bold")))
             return
-        self.notify(f"{action} recorded for {self.session.labels[s]}", markup=False, timeout=3)
+        self.notify(f"{action} recorded for {self.session.label(s)}", markup=False, timeout=3)
         if action in ("accept", "override", "hold"):
             self.session.after_decision(s)
         else:

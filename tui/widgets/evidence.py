@@ -68,7 +68,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
 
     def title_text(self, s: int) -> Text:
         results, session = self.session.results, self.session
-        text = literal(session.labels[s], "bold")
+        text = literal(session.label(s), "bold")
         text.append(f"  {results.data.counts[s]} obs, prices {money(results.price_lo[s])}–"
                     f"{money(results.price_hi[s])}  · status {session.status[s]}", style="dim")
         return text

@@ -103,7 +103,7 @@ class SeriesList(ScrollView, can_focus=True):
         name = results.names[chosen] if chosen >= 0 else "—"
         score = results.score[s]
         score_text = f"{score * 100:.0f}%" if score == score else "—"
-        label = session.labels[s]
+        label = session.label(s)
         label = label if len(label) <= key_w else label[:key_w - 1] + "…"
         severity = session.severity(s)
         flag_style = STOP if severity == "stop" else WARN if severity else DIM

@@ -1,0 +1,42 @@
+"""Arrow arrays to numpy without pandas (``Array.to_numpy`` imports it: 0.3 s at start-up)."""
+from __future__ import annotations
+
+import numpy as np
+
+
+def numbers(array) -> np.ndarray:
+    """A numeric or boolean Arrow array as numpy, straight from its buffers (nulls → NaN).
+
+    Not ``Array.to_numpy``: that imports pandas (0.3 s), most of opening a results file.
+    """
+    import pyarrow as pa
+    n, start = len(array), array.offset
+    validity, data = array.buffers()[:2]
+
+    def bits(buffer):
+        return np.unpackbits(np.frombuffer(buffer, np.uint8), bitorder="little")[start:start + n].astype(bool)
+
+    if pa.types.is_boolean(array.type):
+        values = bits(data)
+    else:
+        dtype = np.dtype({"double": "float64", "float": "float32"}.get(str(array.type), str(array.type)))
+        values = np.frombuffer(data, dtype, count=n, offset=start * dtype.itemsize)
+    if array.null_count:
+        values = np.where(bits(validity), values, np.nan)
+    return values
+
+
+def integers(values: np.ndarray):
+    """An Arrow int64 array over a numpy array's memory (``pa.array`` would import pandas)."""
+    import pyarrow as pa
+    values = np.ascontiguousarray(values, dtype=np.int64)
+    return pa.Array.from_buffers(pa.int64(), len(values), [None, pa.py_buffer(values)])
+
+
+def texts(values: list[str]):
+    """An Arrow string array of Python strings, built from its buffers (``pa.array`` would import pandas)."""
+    import pyarrow as pa
+    encoded = [v.encode("utf-8") for v in values]
+    offsets = np.zeros(len(encoded) + 1, dtype=np.int32)
+    np.cumsum([len(v) for v in encoded], out=offsets[1:])
+    return pa.Array.from_buffers(pa.string(), len(encoded), [None, pa.py_buffer(offsets), pa.py_buffer(b"".join(encoded))])

@@ -1,0 +1,81 @@
+"""Series keys as Arrow text columns: labels, search, sort and lookup without a Python object per series.
+
+A triage list of millions of series draws a few dozen labels at a time; the
+rest of the work (find a text, sort by key, find the series a ledger record
+names) runs as Arrow compute over whole columns.
+"""
+from __future__ import annotations
+
+from functools import cached_property
+
+import numpy as np
+
+from .arrays import integers, numbers, texts
+
+SEPARATOR = " · "
+
+
+class SeriesKeys:
+    """The key columns of S series (product first, then segments)."""
+
+    def __init__(self, names: tuple[str, ...], columns: dict) -> None:
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        def text(values):
+            array = values if isinstance(values, (pa.Array, pa.ChunkedArray)) else pa.array(values, pa.string())
+            if isinstance(array, pa.ChunkedArray):
+                array = array.combine_chunks()
+            return array if pa.types.is_string(array.type) else pc.cast(array, pa.string())
+        self.names = tuple(names)
+        self.columns = {name: text(columns[name]) for name in self.names}
+
+    @classmethod
+    def of(cls, data) -> SeriesKeys:
+        return cls(data.key_names, data.keys)
+
+    def __len__(self) -> int:
+        return len(self.columns[self.names[0]]) if self.names else 0
+
+    def key_of(self, s: int) -> dict[str, str]:
+        return {name: self.columns[name][s].as_py() for name in self.names}
+
+    def label(self, s: int) -> str:
+        """The series' key as one line of text, as the data hold it (not yet made safe to print)."""
+        return SEPARATOR.join(self.columns[name][s].as_py() for name in self.names)
+
+    @cached_property
+    def labels(self):
+        """(S,) Arrow text: every label (built once, on the first search or sort by key)."""
+        import pyarrow.compute as pc
+        columns = [self.columns[name] for name in self.names]
+        return columns[0] if len(columns) == 1 else pc.binary_join_element_wise(*columns, SEPARATOR)
+
+    def matching(self, needle: str) -> np.ndarray:
+        """(S,) bool: the label contains ``needle``, ignoring case."""
+        import pyarrow.compute as pc
+        return numbers(pc.fill_null(pc.match_substring(self.labels, needle, ignore_case=True), False))
+
+    def sorted_order(self) -> np.ndarray:
+        """Series indices by label (ties in index order)."""
+        import pyarrow as pa
+        import pyarrow.compute as pc
+        table = pa.table({"label": self.labels, "at": integers(np.arange(len(self)))})
+        return numbers(pc.sort_indices(table, sort_keys=[("label", "ascending"), ("at", "ascending")])).astype(np.int64)
+
+    def indices_of(self, keys: list[dict]) -> np.ndarray:
+        """(len(keys),) the series each key names, -1 where none (a hash join, not a scan per key)."""
+        import pyarrow as pa
+        if not keys:
+            return np.zeros(0, np.int64)
+        ours = pa.table({**{f"k{i}": self.columns[name] for i, name in enumerate(self.names)},
+                         "_s": integers(np.arange(len(self)))})
+        wanted = pa.table({**{f"k{i}": texts([str(key.get(name, "")) for key in keys]) for i, name in enumerate(self.names)},
+                           "_at": integers(np.arange(len(keys)))})
+        joined = wanted.join(ours, [f"k{i}" for i in range(len(self.names))], join_type="left outer")
+        out = np.full(len(keys), -1, dtype=np.int64)
+        at = numbers(joined.column("_at").combine_chunks())
+        found = numbers(joined.column("_s").combine_chunks()).astype(float)  # NaN where no series matched
+        ok = ~np.isnan(found)
+        out[at[ok]] = found[ok].astype(np.int64)
+        return out
