@@ -9,7 +9,7 @@ a chart, the prediction band) waits for a fit of the data file.
 from __future__ import annotations
 
 import json
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
 
@@ -67,16 +67,14 @@ class StoredResults(Results):
 class StoredDiagnosis(Diagnosis):
     """Flags as the file recorded them (sentences included); ``stale`` still comes from the ledger."""
 
-    sentences: dict = field(default_factory=dict)  # series → {code: message}
+    texts: object = None  # (S,) Arrow text: each series' flags as the file holds them (JSON), parsed on demand
 
     def flags_of(self, s: int) -> list[dict]:
         from .flag_sentences import sentence
-        out = []
-        for i, code in enumerate(CODES):
-            if self.raised[s, i]:
-                message = self.sentences.get(s, {}).get(code) if code != "stale" else sentence(self, s, code)
-                out.append({"code": code, "severity": SEVERITY[code], "message": message or ""})
-        return out
+        recorded = {e["code"]: e["message"] for e in json.loads(self.texts[s].as_py() or "[]")}
+        return [{"code": code, "severity": SEVERITY[code],
+                 "message": sentence(self, s, code) if code == "stale" else recorded.get(code, "")}
+                for i, code in enumerate(CODES) if self.raised[s, i]]
 
 
 def read_header(path: str | Path) -> dict:
@@ -158,8 +156,7 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
         revenue_price=per_series("revenue_price").astype(float),
         top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=table.column("reason"))
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
-    raised, sentences = _flags(table, n_s, n_c)
-    return results, StoredDiagnosis(results, thresholds, raised, {}, sentences)
+    return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
 
 
 def _column(table, name: str) -> np.ndarray:
@@ -212,23 +209,21 @@ def _fold_table(table, settings, counts: np.ndarray, n_c: int):
     return wide[series, :, np.arange(len(series)) - fold_start[series]], fold_start
 
 
-def _flags(table, n_s: int, n_c: int):
-    """(S, flags) raised, and the recorded sentences of each flagged series (each distinct list parsed once)."""
+def _raised(table, n_s: int, n_c: int) -> np.ndarray:
+    """(S, flags): the flag codes each series' recorded list names (each distinct list parsed once, the
+    sentences not kept: a dict per flagged series would slow every full garbage collection)."""
     import pyarrow as pa
     column = table.column("flags").combine_chunks()
     if pa.types.is_dictionary(column.type):
-        texts = column.dictionary.to_pylist()
-        index = numbers(column.indices)[::n_c]
+        texts, index = column.dictionary.to_pylist(), numbers(column.indices)[::n_c]
     else:
         texts, index = np.unique(np.array(column.to_pylist(), dtype=object)[::n_c], return_inverse=True)
         texts = texts.tolist()
     raised_of = np.zeros((len(texts), len(CODES)), dtype=bool)
-    parsed = []
     for i, text in enumerate(texts):
-        entries = json.loads(text) if text else []
-        parsed.append({e["code"]: e["message"] for e in entries if e.get("code") in CODES})
-        raised_of[i, [CODES.index(code) for code in parsed[-1]]] = True
+        for entry in json.loads(text) if text else []:
+            if entry.get("code") in CODES:
+                raised_of[i, CODES.index(entry["code"])] = True
     raised = raised_of[index] if n_s else np.zeros((0, len(CODES)), dtype=bool)
     raised.flags.writeable = False
-    flagged = np.flatnonzero(raised.any(axis=1))
-    return raised, {int(s): parsed[index[s]] for s in flagged}
+    return raised
