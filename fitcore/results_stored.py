@@ -53,11 +53,24 @@ class StoredDataset(Dataset):
 
 @dataclass(frozen=True, eq=False)
 class StoredResults(Results):
-    """``Results`` read back from a file; reasons are the sentences the file holds (an Arrow column)."""
+    """``Results`` read back from a file; reasons are the sentences the file holds (an Arrow column).
+
+    ``fold_err`` is empty: the fold errors stay in the file's lists and ``folds_of`` reads one series'.
+    """
 
     reasons: object = None
+    fold_lists: object = None  # (S × C,) Arrow lists: each cell's per-fold errors, read per series on demand
 
     rows_loaded = False
+
+    def folds_of(self, s: int) -> np.ndarray:
+        """(K, C) held-out MSE per fold of series ``s`` (NaN where a candidate is unavailable)."""
+        n_c = len(self.candidates)
+        out = np.full((int(self.fold_start[s + 1] - self.fold_start[s]), n_c), np.nan)
+        for c, values in enumerate(self.fold_lists[s * n_c:(s + 1) * n_c].to_pylist()):
+            if values:
+                out[:len(values), c] = values
+        return out
 
     def reason_text(self, s: int, c: int) -> str | None:
         return self.reasons[s * len(self.candidates) + c].as_py()
@@ -115,7 +128,7 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
         raise DataError(f"expected candidates {[c.name for c in cands]}, found {names}", path=str(path))
 
     def cells(name):
-        return _column(table, name).astype(np.float64).reshape(n_s, n_c)
+        return _column(table, name).astype(np.float64, copy=False).reshape(n_s, n_c)
 
     def per_series(name):
         return _column(table, name)[::n_c] if n_c else np.zeros(0)
@@ -133,7 +146,7 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
                          np.concatenate(([0], np.cumsum(counts))).astype(np.int64), np.zeros(0), np.zeros(0),
                          source=dict(meta.get("input", {})), stored_fingerprints=per_series_text("fingerprint"))
     available = _column(table, "available").astype(bool).reshape(n_s, n_c)
-    lo, hi = per_series("price_lo").astype(float), per_series("price_hi").astype(float)
+    lo, hi = per_series("price_lo").astype(float, copy=False), per_series("price_hi").astype(float, copy=False)
     mid, half = window(lo, hi)
     positive = (lo > 0) & available[:, -1] if settings.loglog else np.zeros(n_s, bool)  # the log window serves loglog only
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -141,20 +154,22 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
     is_chosen = _column(table, "is_chosen").astype(bool).reshape(n_s, n_c)
     chosen = np.where(is_chosen.any(axis=1), is_chosen.argmax(axis=1), -1)
     p = max(settings.degrees) + 1
-    fold_err, fold_start = _fold_table(table, settings, counts, n_c)
+    n_folds = counts if settings.folds == "loo" else np.full(n_s, int(settings.folds))
+    fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
     smear = cells("smearing")[:, -1] if settings.loglog else np.ones(n_s)
     nan = np.full((n_s, n_c), np.nan)
     results = StoredResults(
         data=data, settings=settings, candidates=cands,
         available=available, reason=np.where(available, reasons.NONE, reasons.RANK_ALL).astype(np.int8),
         cv_mse=cells("cv_mse"), cv_se=cells("cv_se"), r2=cells("r2"), q2=cells("q2"),
-        fold_err=fold_err, fold_start=fold_start, price_lo=lo, price_hi=hi, mid=mid, half=half,
+        fold_err=np.zeros((0, n_c)), fold_start=fold_start, price_lo=lo, price_hi=hi, mid=mid, half=half,
         log_mid=log_mid, log_half=log_half, coef=_fixed_cells(table, "window_coef", n_s, n_c, p),
         smear=np.where(np.isfinite(smear), smear, 1.0), sigma2=nan, df=np.zeros((n_s, n_c), np.int64),
         chosen=chosen, plan_price=per_series("plan_price").astype(float), plan_volume=cells("plan_volume"),
         plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"), plan_elasticity=cells("plan_elasticity"),
         revenue_price=per_series("revenue_price").astype(float),
-        top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=table.column("reason"))
+        top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=table.column("reason"),
+        fold_lists=table.column("fold_mse"))
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
 
@@ -171,42 +186,10 @@ def _column(table, name: str) -> np.ndarray:
     return numbers(column)
 
 
-def _list_cells(table, name: str, n_s: int, n_c: int, width: int) -> np.ndarray:
-    """(S, C, width) a list column, NaN-padded (null or short lists)."""
-    column = table.column(name).combine_chunks()
-    out = np.full((n_s * n_c, width), np.nan)
-    offsets = numbers(column.offsets)
-    lengths = np.diff(offsets) * ~numbers(column.is_null())
-    values = numbers(column.values)
-    cell = np.repeat(np.arange(n_s * n_c), lengths)
-    within = np.arange(len(cell)) - np.repeat(np.cumsum(lengths) - lengths, lengths)
-    out[cell, within] = values[np.repeat(offsets[:-1], lengths) + within]
-    return out.reshape(n_s, n_c, width)
-
-
 def _fixed_cells(table, name: str, n_s: int, n_c: int, width: int) -> np.ndarray:
-    """(S, C, width) a fixed-size list column."""
+    """(S, C, width) a fixed-size list column (a view of its Arrow buffer)."""
     column = table.column(name).combine_chunks()
-    return numbers(column.flatten()).astype(np.float64).reshape(n_s, n_c, width)
-
-
-def _fold_table(table, settings, counts: np.ndarray, n_c: int):
-    """``fold_err`` (F, C) and ``fold_start`` (S + 1,) from the ``fold_mse`` lists (NaN where unavailable)."""
-    n_folds = counts if settings.folds == "loo" else np.full(len(counts), int(settings.folds))
-    fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
-    width = int(n_folds.max(initial=0))
-    column = table.column("fold_mse").combine_chunks()
-    lengths = np.diff(numbers(column.offsets))
-    if settings.folds != "loo" and np.all((lengths == 0) | (lengths == width)):  # K folds: every list full or empty
-        wide = np.full((len(counts) * n_c, width), np.nan)
-        wide[lengths == width] = numbers(column.flatten()).reshape(-1, width)
-        wide = wide.reshape(len(counts), n_c, width)
-    else:
-        wide = _list_cells(table, "fold_mse", len(counts), n_c, width)  # (S, C, K)
-    if settings.folds != "loo":  # the same K for every series: a transpose, no gather
-        return np.ascontiguousarray(wide.transpose(0, 2, 1)).reshape(-1, n_c), fold_start
-    series = np.repeat(np.arange(len(counts)), n_folds)
-    return wide[series, :, np.arange(len(series)) - fold_start[series]], fold_start
+    return numbers(column.flatten()).astype(np.float64, copy=False).reshape(n_s, n_c, width)
 
 
 def _raised(table, n_s: int, n_c: int) -> np.ndarray:

@@ -188,6 +188,14 @@ def connect(scheduler: str | None, workers: int):
     return Client(cluster)
 
 
+def disconnect(client) -> None:
+    """Close the client, and the local cluster if ``connect`` started one."""
+    cluster = getattr(client, "cluster", None)
+    client.close()
+    if cluster is not None:
+        cluster.close()
+
+
 def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *, plan_file: Path | None = None,
                 plan_price: float | None = None, sep: str | None = None, client=None, partitions: int | None = None,
                 progress=None) -> dict:

@@ -197,7 +197,7 @@ def run_fit_dask(args, settings, thresholds) -> int:
     """``fit --engine dask``: the results as a folder of Parquet parts with ``_summary.json``."""
     from fitcore.errors import DataError, SettingsError
     from fitcore.loader import Rejects, file_kind, write_rejects
-    from fitcore.scale import connect, fit_on_dask
+    from fitcore.scale import connect, disconnect, fit_on_dask
     from fitcore.validation import summary as rejects_summary
 
     from .progress import ProgressLine
@@ -217,7 +217,7 @@ def run_fit_dask(args, settings, thresholds) -> int:
                             progress=bar)
     finally:
         bar.close()
-        client.close()
+        disconnect(client)
     rejected = total["rejected"]
     target = args.output / "rejects.csv"
     target.unlink(missing_ok=True)
@@ -343,16 +343,30 @@ def run_triage(args) -> int:
     return open_triage(source, ledger_path, args.analyst)
 
 
+# Above this many input rows, triage on stored results does not refit the data for the observations
+# (the local engine needs ~150 bytes a row).
+REFIT_ROWS = 50_000_000
+
+
 def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | None = None) -> int:
     """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen)."""
     from tui.app import TriageApp
+    from fitcore.results_stored import read_header
     from tui.factory import open_session, open_stored_session, refit_stored
 
     from .ledger_cli import identity, ledger_key
     who, key = identity(analyst), ledger_key()
     if stored is not None:
-        app = TriageApp(lambda progress: open_stored_session(stored, ledger_path, who, key, progress),
-                        observer=lambda progress: refit_stored(source, progress))
+        rows = read_header(stored).get("input", {}).get("rows") or 0
+        observer = (lambda progress: refit_stored(source, progress)) if rows <= REFIT_ROWS else None
+
+        def opener(progress):
+            session = open_stored_session(stored, ledger_path, who, key, progress)
+            if observer is None:
+                session.warnings.append(f"The data behind these results have {rows:,} rows, too many to read here: "
+                                        "the evidence shows the fitted curves without the observations.")
+            return session
+        app = TriageApp(opener, observer=observer)
     else:
         app = TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
     app.run()

@@ -82,8 +82,8 @@ class TriageApp(App):
         self.switch_screen(TriageScreen(message.session))
         for warning in message.session.warnings:
             self.notify(clean(warning), severity="warning", timeout=10, markup=False)
-        if self.observer is not None:
-            self.read_observations()
+        if self.observer is not None:  # once the first screen is drawn: the fit competes for the interpreter
+            self.call_after_refresh(lambda: self.set_timer(0.2, self.read_observations))
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="observations")
     def read_observations(self) -> None:

@@ -26,7 +26,7 @@ import pyarrow.parquet as pq
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from fitcore.scale import connect  # noqa: E402
+from fitcore.scale import connect, disconnect  # noqa: E402
 from tests.bench.bench_triage import measure_triage  # noqa: E402
 from tests.bench.invented import invented_arrays  # noqa: E402
 
@@ -86,7 +86,7 @@ def main() -> None:
         out = folder / "dask.parquet"
         t_dask, m_client = run(fit + ["-o", str(out), "--engine", "dask", "--scheduler", client.scheduler.address])
         peaks = sorted(client.run(worker_peak).values())
-        client.close()
+        disconnect(client)
         summary = json.loads((out / "_summary.json").read_text())
         print(f"  Dask, {args.workers} workers: {t_dask:6.1f} s wall (+ {t_cluster:.1f} s to start the cluster), "
               f"command peak {m_client:,.0f} MiB, worker peaks {', '.join(f'{m:,.0f}' for m in peaks)} MiB, "

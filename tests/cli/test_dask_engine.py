@@ -31,7 +31,8 @@ def client():
     from fitcore.scale import connect
     client = connect(None, 2)
     yield client
-    client.close()
+    from fitcore.scale import disconnect
+    disconnect(client)
 
 
 def canonical(table: pa.Table, keys: list[str]) -> dict:

@@ -19,7 +19,7 @@ from fitcore.results_io import write_results
 from fitcore.results_stored import stored_results
 from tests.conftest import random_dataset
 
-ARRAYS = ("available", "cv_mse", "cv_se", "r2", "q2", "fold_err", "fold_start", "chosen", "price_lo", "price_hi",
+ARRAYS = ("available", "cv_mse", "cv_se", "r2", "q2", "fold_start", "chosen", "price_lo", "price_hi",
           "mid", "half", "plan_price", "plan_volume", "plan_lo", "plan_hi", "plan_elasticity", "revenue_price")
 
 
@@ -35,6 +35,8 @@ def test_stored_results_equal_the_fit_that_wrote_them(tmp_path, folds):
     for name in ARRAYS:
         np.testing.assert_array_equal(getattr(stored, name), getattr(results, name), err_msg=name)
     ok = results.available
+    for s in range(data.n_series):
+        np.testing.assert_array_equal(stored.folds_of(s), np.where(ok[s], results.folds_of(s), np.nan))
     np.testing.assert_array_equal(stored.coef[ok], results.coef[ok])
     loglog = ok[:, -1]  # the log window only serves the log-log curve
     np.testing.assert_array_equal(stored.log_mid[loglog], results.log_mid[loglog])
