@@ -380,6 +380,8 @@ def run_demo(args) -> int:
 
     folder = args.dir
     folder.mkdir(parents=True, exist_ok=True)
+    print("fitting the invented sample (the first run after an install also compiles the engine: ~6 s) …",
+          file=sys.stderr)
     results, diagnosis = fit_source(sample_source())
     results_path = folder / "results.json"
     write_results(results, results_path, diagnosis)
