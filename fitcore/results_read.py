@@ -46,22 +46,36 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
     raise DataError(f"expected a results file ending in .json or .parquet, got {path.name!r}", path=str(path))
 
 
-def results_in_parts(path: str | Path) -> tuple[dict, Iterator[list[dict]]]:
+def results_in_parts(path: str | Path, products: list[str] = (), keys: dict | None = None
+                     ) -> tuple[dict, Iterator[list[dict]]]:
     """``(header, parts)``: the series one part at a time (a single file is one part), so a
-    results folder of any size is read with the memory of one part."""
+    results folder of any size is read with the memory of one part.  ``products`` and ``keys``
+    (column → value) keep only matching series; in Parquet they filter rows as they are read."""
     path = Path(path)
     parts = result_parts(path)
-    if parts is None:
+    if parts is None and path.suffix.lower() not in (".parquet", ".pq"):
         head, series = read_results(path)
-        return head, iter([series])
+        return head, iter([[r for r in series if _matches(r["key"], products, keys or {})]])
     import pyarrow.parquet as pq
+    first = (parts or [path])[0]
+    if not first.exists():
+        raise DataError("file not found", path=str(first))
     try:
-        meta = json.loads((pq.read_schema(parts[0]).metadata or {}).get(b"pricefold", b"null"))
+        meta = json.loads((pq.read_schema(first).metadata or {}).get(b"pricefold", b"null"))
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
-        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(parts[0])) from None
-    check_schema(parts[0], meta)
-    meta.pop("key_columns", None)
-    return meta, (_read_parquet(part)[1] for part in parts)
+        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(first)) from None
+    check_schema(first, meta)
+    names = meta.pop("key_columns", [])
+    wanted = ([(names[0], "in", list(products))] if products and names else []) + \
+        [(name, "==", value) for name, value in (keys or {}).items() if name in names]
+    if keys and any(name not in names for name in keys):
+        return meta, iter([])  # a key column these results do not have matches nothing
+    return meta, (_read_parquet(part, wanted or None)[1] for part in parts or [path])
+
+
+def _matches(key: dict, products, keys: dict) -> bool:
+    return (not products or next(iter(key.values()), None) in products) and \
+        all(key.get(name) == value for name, value in keys.items())
 
 
 def check_schema(path: Path, document) -> None:
@@ -70,11 +84,11 @@ def check_schema(path: Path, document) -> None:
         raise DataError(f"expected schema {SCHEMA!r}, found {found!r}", path=str(path))
 
 
-def _read_parquet(path: Path) -> tuple[dict, list[dict]]:
+def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
     import pyarrow.parquet as pq
     try:
-        table = pq.read_table(path)
-        meta = json.loads((table.schema.metadata or {}).get(b"pricefold", b"null"))
+        table = pq.read_table(path, filters=filters)
+        meta = json.loads((pq.read_schema(path).metadata or {}).get(b"pricefold", b"null"))
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
         raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
     check_schema(path, meta)

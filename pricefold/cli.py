@@ -296,7 +296,7 @@ def run_show(args) -> int:
         if not sep:
             raise SettingsError(f"expected --key COL=VALUE, got {item!r}")
         keys[name] = value
-    header, parts = results_in_parts(args.results)
+    header, parts = results_in_parts(args.results, args.product, keys)  # filtered as read: big folders stay cheap
     picked = [record for series in parts for record in select(series, args.product, keys, args.flag)]
     if not picked:
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
@@ -408,3 +408,7 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print(f"pricefold {args.command}: interrupted; nothing was written", file=sys.stderr)
         return 130
+    except BrokenPipeError:  # the reader went away (``| head``): stop quietly, as other tools do
+        import os
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0

@@ -100,3 +100,19 @@ def test_show_prints_control_characters_harmlessly(tmp_path):
     assert run_cli("fit", str(data), "-o", str(out), "--quiet").returncode == 0
     done = run_cli("show", str(out))
     assert "\x1b" not in done.stdout and "bad?[2Jname" in done.stdout
+
+
+def test_show_filters_a_parquet_results_file_as_it_reads_it(tmp_path, capsys):
+    """Only the named series are read into records; the answer equals the JSON file's."""
+    from pricefold.cli import main
+    sample = Path(__file__).parents[2] / "sample"
+    for name in ("r.json", "r.parquet"):
+        assert main(["fit", str(sample / "wholesale.csv"), "--segment", "region", "-o", str(tmp_path / name),
+                     "--quiet"]) == 0
+    capsys.readouterr()
+    shown = []
+    for name in ("r.json", "r.parquet"):
+        assert main(["show", str(tmp_path / name), "--product", "lemons 500 g", "--key", "region=East"]) == 0
+        shown.append(capsys.readouterr().out)
+    assert shown[0] == shown[1] and shown[0].startswith("lemons 500 g · East")
+    assert main(["show", str(tmp_path / "r.parquet"), "--key", "aisle=3"]) == 1
