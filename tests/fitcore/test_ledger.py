@@ -174,7 +174,7 @@ def test_killed_writers_never_damage_what_was_recorded(tmp_path):
     context = multiprocessing.get_context("fork")
     rng = random.Random(0)
     before: list[bytes] = []
-    torn_seen: set[bytes] = set()  # a torn tail can outlive the next kill, so count each one once
+    torn_seen, last, tails = 0, None, []  # a torn tail can outlive the next kill (file untouched): count it once
     for _ in range(100):
         child = context.Process(target=_write_forever, args=(path,))
         child.start()
@@ -183,16 +183,23 @@ def test_killed_writers_never_damage_what_was_recorded(tmp_path):
         child.join()
         problems = ledger.verify(path) if path.exists() else []
         assert all("torn last line" in p.message for p in problems), problems
+        state = path.read_bytes() if path.exists() else b""
+        torn_seen += bool(problems) and state != last
         if problems:
-            torn_seen.add(path.read_bytes().rsplit(b"\n", 1)[-1])
+            tails.append(state.rsplit(b"\n", 1)[-1])
+        last = state
         now = [line for line in lines(path) if line.endswith(b"\n")] if path.exists() else []
         assert now[:len(before)] == before  # every whole record written before the kill is intact
         before = now
     # The next append sets any torn tail aside and chains on.
     ledger.append(path, [entry("after")], ANA)
     assert ledger.verify(path) == []
-    assert len(list(tmp_path.glob("ledger.jsonl.torn-*"))) == len(torn_seen)
-    print(f"torn tails left by 100 kills: {len(torn_seen)}; records: {len(before)}")
+    # Each torn tail is set aside whole (a writer killed between saving it and cutting it from the
+    # ledger leaves a second copy of the same tail, never a loss).
+    aside = [side.read_bytes() for side in tmp_path.glob("ledger.jsonl.torn-*")]
+    assert len(aside) >= torn_seen and all(any(tail.startswith(part) for tail in tails) for part in aside)
+    assert {part for part in aside if part} >= {tail for tail in tails[-1:]}
+    print(f"torn tails left by 100 kills: {torn_seen}; records: {len(before)}")
 
 
 def test_a_failed_write_is_one_line_and_leaves_earlier_records_intact(tmp_path, monkeypatch):
