@@ -97,11 +97,11 @@ def run_export(args) -> int:
     histories = replay(records)
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
+    columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
+    writer.writerow([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
+                     "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi"])
     count = 0
     for record in (record for series in parts for record in series):
-        if count == 0:
-            writer.writerow([*record["key"], "status", "model", "family", "coef", "analyst", "at", "note",
-                             "plan_price", "plan_volume", "plan_lo", "plan_hi"])
         count += 1
         history = histories.get(series_id(record["key"]))
         status = history.status(record["fingerprint"]) if history else "pending"
