@@ -65,15 +65,22 @@ class SeriesKeys:
 
     def indices_of(self, keys: list[dict]) -> np.ndarray:
         """(len(keys),) the series each key names, -1 where none (a hash join, not a scan per key)."""
-        import pyarrow as pa
         if not keys:
             return np.zeros(0, np.int64)
+        return self._join({name: texts([str(key.get(name, "")) for key in keys]) for name in self.names}, len(keys))
+
+    def positions_of(self, other: SeriesKeys) -> np.ndarray:
+        """(len(other),) where each of ``other``'s series is here, -1 where it is not."""
+        return self._join(other.columns, len(other))
+
+    def _join(self, columns: dict, n: int) -> np.ndarray:
+        import pyarrow as pa
         ours = pa.table({**{f"k{i}": self.columns[name] for i, name in enumerate(self.names)},
                          "_s": integers(np.arange(len(self)))})
-        wanted = pa.table({**{f"k{i}": texts([str(key.get(name, "")) for key in keys]) for i, name in enumerate(self.names)},
-                           "_at": integers(np.arange(len(keys)))})
+        wanted = pa.table({**{f"k{i}": columns[name] for i, name in enumerate(self.names)},
+                           "_at": integers(np.arange(n))})
         joined = wanted.join(ours, [f"k{i}" for i in range(len(self.names))], join_type="left outer")
-        out = np.full(len(keys), -1, dtype=np.int64)
+        out = np.full(n, -1, dtype=np.int64)
         at = numbers(joined.column("_at").combine_chunks())
         found = numbers(joined.column("_s").combine_chunks()).astype(float)  # NaN where no series matched
         ok = ~np.isnan(found)

@@ -15,6 +15,7 @@ import numpy as np
 from fitcore import ledger
 from fitcore.decisions import SeriesHistory, apply, own_standing, series_id
 from fitcore.diagnostics import CODES, SEVERITY, Diagnosis, mark_stale
+from fitcore.arrays import integers, texts
 from fitcore.keys import SeriesKeys
 from fitcore.results import Results
 
@@ -103,8 +104,8 @@ class TriageSession:
         if old.n_series != new.n_series:
             return False
         fresh = SeriesKeys.of(new)
-        perm = fresh.indices_of([self.keys.key_of(s) for s in range(old.n_series)])  # old index → new index
-        if (perm < 0).any() or any(old.fingerprint_of(i) != new.fingerprint_of(j) for i, j in enumerate(perm)):
+        perm = fresh.positions_of(self.keys)  # old index → new index
+        if (perm < 0).any() or not _same_text(fingerprint_array(old), fingerprint_array(new).take(integers(perm))):
             return False
         inverse = np.empty_like(perm)
         inverse[perm] = np.arange(len(perm))
@@ -265,3 +266,13 @@ class TriageSession:
         out = dict(zip(STATUSES, tally.tolist()))
         out["attention"] = int(self.needs_attention().sum())
         return out
+
+
+def fingerprint_array(data):
+    """A dataset's fingerprints as Arrow text (results read back from a file already hold them so)."""
+    return data.fingerprints if not isinstance(data.fingerprints, list) else texts(data.fingerprints)
+
+
+def _same_text(a, b) -> bool:
+    import pyarrow.compute as pc
+    return len(a) == len(b) and bool(pc.all(pc.equal(a, b)).as_py() if len(a) else True)
