@@ -224,6 +224,9 @@ def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *
     reasons = [x for piece in found for x in piece[1]] + [x for part in repeats for x in part[1]]
     source = {"path": str(path.resolve()), "sha256": file_sha256(path), "rows": sum(piece[2] for piece in found),
               "rejected": len(lines)}
+    if source["rows"] == source["rejected"]:
+        from .validation import summary
+        raise DataError(f"no usable rows ({summary(reasons)})", path=str(path))
     del read
     job = PartJob(columns, settings, thresholds, str(plan_file) if plan_file else None, plan_price, source,
                   str(out), sep)

@@ -140,6 +140,16 @@ def test_ledger_signs_off_and_exports_a_results_folder(tmp_path, client):
     assert len(rows) == 180 and sum(row["status"] == "accepted" for row in rows) == unflagged
 
 
+def test_no_usable_row_is_the_same_one_line_error_as_locally(tmp_path, client, capsys):
+    data = tmp_path / "bad.csv"
+    data.write_text("product,price,volume\na,-1,5\nb,x,7\n")
+    errors = []
+    for extra in ([], ["--engine", "dask", "--scheduler", client.scheduler.address]):
+        assert main(["fit", str(data), "-o", str(tmp_path / "out.parquet"), "--quiet", *extra]) == 2
+        errors.append(capsys.readouterr().err.strip())
+    assert errors[0] == errors[1] and "no usable rows" in errors[0] and "\n" not in errors[0]
+
+
 def test_dask_missing_is_one_line_telling_what_to_install(monkeypatch):
     import sys
 
