@@ -15,6 +15,8 @@ Only the coordinating functions import dask; the pieces run in workers.
 from __future__ import annotations
 
 import json
+import os
+import shutil
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -204,15 +206,33 @@ def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *
     Returns the summary (also written as ``out/_summary.json``), which holds the rejected rows' lines
     and reasons.  ``partitions``: output partitions (default: 4 per worker, at least 1).
     """
-    from distributed import wait
-
     started = time.perf_counter()
     pieces = pieces_of(path, columns)
     n_workers = max(len(client.scheduler_info()["workers"]), 1)
     n_parts = partitions or 4 * n_workers
-    out.mkdir(parents=True, exist_ok=True)
-    for old in out.glob("part-*.parquet"):
-        old.unlink()  # an earlier run's parts would mix with this one's
+    # Parts are written to a fresh folder beside ``out`` and swapped in at the end, so a failed run
+    # leaves an earlier run's results whole.
+    staging = out.with_name(f".{out.name}.writing-{os.getpid()}")
+    shutil.rmtree(staging, ignore_errors=True)
+    staging.mkdir(parents=True)
+    try:
+        total = _fit_into(staging, pieces, path, columns, settings, thresholds, plan_file, plan_price, sep, client,
+                          n_workers, n_parts, started, progress)
+    except BaseException:
+        shutil.rmtree(staging, ignore_errors=True)
+        raise
+    retired = out.with_name(f".{out.name}.old-{os.getpid()}")
+    if out.exists():
+        out.rename(retired)
+    staging.rename(out)
+    shutil.rmtree(retired, ignore_errors=True)
+    return total
+
+
+def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file, plan_price, sep, client,
+              n_workers: int, n_parts: int, started: float, progress) -> dict:
+    from distributed import wait
+
     read = [client.submit(read_piece, piece, columns, n_parts, sep, pure=False) for piece in pieces]
     gathered = [client.submit(gather_part, [client.submit(_table_of, f, p) for f in read], columns, pure=False)
                 for p in range(n_parts)]

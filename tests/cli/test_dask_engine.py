@@ -150,6 +150,20 @@ def test_no_usable_row_is_the_same_one_line_error_as_locally(tmp_path, client, c
     assert errors[0] == errors[1] and "no usable rows" in errors[0] and "\n" not in errors[0]
 
 
+def test_a_failed_run_leaves_the_earlier_results_whole(tmp_path, client, capsys):
+    out = tmp_path / "dask"
+    common = ["--segment", "region", "-o", str(out), "--quiet", "--engine", "dask", "--scheduler",
+              client.scheduler.address]
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), *common]) == 0
+    before = {p.name: p.read_bytes() for p in out.iterdir()}
+    plan = tmp_path / "plan.csv"
+    plan.write_text("product,region,plan_price\napples 1 kg,North,-2\n")  # fails inside the workers
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--plan", str(plan), *common]) == 2
+    assert "expected a price above zero" in capsys.readouterr().err
+    assert {p.name: p.read_bytes() for p in out.iterdir()} == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["dask", "plan.csv"]  # no staging folder left
+
+
 def test_dask_missing_is_one_line_telling_what_to_install(monkeypatch):
     import sys
 
