@@ -91,10 +91,11 @@ def test_5000_series_in_7_shuffled_files_give_the_local_results(tmp_path, client
     assert main(["fit", str(folder), "-o", str(local), "--quiet", "--plan-price", "150"]) == 0
     out = tmp_path / "dask.parquet"
     assert main(["fit", str(folder), "-o", str(out), "--quiet", "--plan-price", "150", "--engine", "dask",
-                 "--scheduler", client.scheduler.address, "--partitions", "5"]) == 0
+                 "--scheduler", client.scheduler.address, "--partitions", "7"]) == 0
     assert_same_results(local, out, ["product"])
     summary = json.loads((out / "_summary.json").read_text())
-    assert summary["series"] == 5000 and summary["pieces"] > 7  # several row groups a file
+    assert summary["series"] == 5000 and summary["pieces"] > 7 and summary["partitions"] == 7  # row groups a file
+    assert len(list(out.glob("part-*.parquet"))) == 7
 
 
 def test_repeated_rows_across_files_are_rejected_as_locally(tmp_path, client):
