@@ -51,6 +51,53 @@ class StoredDataset(Dataset):
         return {name: self.keys[name][s].as_py() for name in self.key_names}
 
 
+class CellColumn:
+    """(S, C) or (S, C, P) values of a per-candidate column, read from the Arrow table one series at a time.
+
+    ``column[s]``, ``column[s, c]``, ``column[s, cs]``, ``column[s, c, :k]`` read series ``s``'s cells only;
+    any other index (or ``np.asarray(column)``) reads the whole column.  So opening millions of series
+    converts nothing per candidate until a series is looked at.
+    """
+
+    def __init__(self, column, n_s: int, n_c: int, width: int | None = None) -> None:
+        self.column, self.n_c, self.width = column, n_c, width
+        self.shape = (n_s, n_c) if width is None else (n_s, n_c, width)
+
+    def __len__(self) -> int:
+        return self.shape[0]
+
+    def _block(self, s: int) -> np.ndarray:
+        part = self.column.slice(s * self.n_c, self.n_c).combine_chunks()
+        if self.width is not None:
+            part = part.flatten()
+        return numbers(part).astype(np.float64, copy=False).reshape(self.shape[1:])
+
+    def __getitem__(self, index):
+        s, rest = (index[0], index[1:]) if isinstance(index, tuple) else (index, ())
+        if isinstance(s, (int, np.integer)) and 0 <= s < self.shape[0]:
+            block = self._block(int(s))
+            return block[rest] if rest else block
+        return np.asarray(self)[index]
+
+    def __array__(self, dtype=None, copy=None):
+        values = numbers(self.column.combine_chunks().flatten() if self.width is not None
+                         else self.column.combine_chunks()).astype(np.float64, copy=False).reshape(self.shape)
+        return values if dtype is None else values.astype(dtype)
+
+
+class Unknown:
+    """(S, C) values a results file does not hold: NaN wherever read."""
+
+    def __init__(self, shape) -> None:
+        self.shape = shape
+
+    def __getitem__(self, index):
+        return np.nan
+
+    def __array__(self, dtype=None, copy=None):
+        return np.full(self.shape, np.nan, dtype=dtype)
+
+
 @dataclass(frozen=True, eq=False)
 class StoredResults(Results):
     """``Results`` read back from a file; reasons are the sentences the file holds (an Arrow column).
@@ -59,9 +106,14 @@ class StoredResults(Results):
     """
 
     reasons: object = None
-    fold_lists: object = None  # (S × C,) Arrow lists: each cell's per-fold errors, read per series on demand
+    fold_lists: object = None
+    stored_score: np.ndarray = None  # (S × C,) Arrow lists: each cell's per-fold errors, read per series on demand
 
     rows_loaded = False
+
+    @cached_property
+    def score(self) -> np.ndarray:
+        return self.stored_score
 
     def folds_of(self, s: int) -> np.ndarray:
         """(K, C) held-out MSE per fold of series ``s`` (NaN where a candidate is unavailable)."""
@@ -127,17 +179,18 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
     if names != [c.name for c in cands]:
         raise DataError(f"expected candidates {[c.name for c in cands]}, found {names}", path=str(path))
 
-    def cells(name):
-        return _column(table, name).astype(np.float64, copy=False).reshape(n_s, n_c)
-
-    def per_series(name):
-        return _column(table, name)[::n_c] if n_c else np.zeros(0)
-
     every = integers(np.arange(0, table.num_rows, max(n_c, 1)))
+
+    def cells(name):
+        return CellColumn(table.column(name), n_s, n_c)
+
+    def per_series(name, c: int = 0):  # one value a series: that of its row for candidate ``c``
+        rows = every if not c else integers(np.arange(c, table.num_rows, max(n_c, 1)))
+        return _column(pa.table({name: table.column(name).take(rows)}), name)
 
     def per_series_text(name):  # Arrow text, decoded from its dictionary
         import pyarrow.compute as pc
-        column = table.column(name).combine_chunks().take(every)
+        column = table.column(name).take(every).combine_chunks()
         return column if pa.types.is_string(column.type) else pc.cast(column, pa.string())
 
     key_names = tuple(meta["key_columns"])
@@ -156,20 +209,20 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
     p = max(settings.degrees) + 1
     n_folds = counts if settings.folds == "loo" else np.full(n_s, int(settings.folds))
     fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
-    smear = cells("smearing")[:, -1] if settings.loglog else np.ones(n_s)
-    nan = np.full((n_s, n_c), np.nan)
+    smear = per_series("smearing", n_c - 1).astype(float, copy=False) if settings.loglog else np.ones(n_s)
+    unknown = Unknown((n_s, n_c))  # residual variance and degrees of freedom need the rows
     results = StoredResults(
         data=data, settings=settings, candidates=cands,
         available=available, reason=np.where(available, reasons.NONE, reasons.RANK_ALL).astype(np.int8),
         cv_mse=cells("cv_mse"), cv_se=cells("cv_se"), r2=cells("r2"), q2=cells("q2"),
         fold_err=np.zeros((0, n_c)), fold_start=fold_start, price_lo=lo, price_hi=hi, mid=mid, half=half,
-        log_mid=log_mid, log_half=log_half, coef=_fixed_cells(table, "window_coef", n_s, n_c, p),
-        smear=np.where(np.isfinite(smear), smear, 1.0), sigma2=nan, df=np.zeros((n_s, n_c), np.int64),
+        log_mid=log_mid, log_half=log_half, coef=CellColumn(table.column("window_coef"), n_s, n_c, p),
+        smear=np.where(np.isfinite(smear), smear, 1.0), sigma2=unknown, df=unknown,
         chosen=chosen, plan_price=per_series("plan_price").astype(float), plan_volume=cells("plan_volume"),
         plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"), plan_elasticity=cells("plan_elasticity"),
         revenue_price=per_series("revenue_price").astype(float),
         top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=table.column("reason"),
-        fold_lists=table.column("fold_mse"))
+        fold_lists=table.column("fold_mse"), stored_score=per_series("score").astype(float, copy=False))
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
 
@@ -184,12 +237,6 @@ def _column(table, name: str) -> np.ndarray:
     if pa.types.is_dictionary(column.type) or pa.types.is_string(column.type):
         return np.array(column.to_pylist() + [None], dtype=object)[:-1]
     return numbers(column)
-
-
-def _fixed_cells(table, name: str, n_s: int, n_c: int, width: int) -> np.ndarray:
-    """(S, C, width) a fixed-size list column (a view of its Arrow buffer)."""
-    column = table.column(name).combine_chunks()
-    return numbers(column.flatten()).astype(np.float64, copy=False).reshape(n_s, n_c, width)
 
 
 def _raised(table, n_s: int, n_c: int) -> np.ndarray:

@@ -20,7 +20,8 @@ from fitcore.results_stored import stored_results
 from tests.conftest import random_dataset
 
 ARRAYS = ("available", "cv_mse", "cv_se", "r2", "q2", "fold_start", "chosen", "price_lo", "price_hi",
-          "mid", "half", "plan_price", "plan_volume", "plan_lo", "plan_hi", "plan_elasticity", "revenue_price")
+          "mid", "half", "plan_price", "plan_volume", "plan_lo", "plan_hi", "plan_elasticity", "revenue_price",
+          "score")
 
 
 @pytest.mark.parametrize("folds", [5, "loo"])
