@@ -10,6 +10,8 @@ from math import comb
 
 import numpy as np
 
+from .compiled import compiled
+
 
 def window(lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(mid, half) of each [lo, hi]; half is 0 for a single price."""
@@ -53,3 +55,42 @@ def power_coefficients(coef: np.ndarray, mid: np.ndarray, half: np.ndarray) -> n
         for j in range(k + 1):
             out[..., j] += scaled[..., k] * comb(k, j) * (-mid[..., 0]) ** (k - j)
     return out
+
+
+@compiled
+def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low):
+    """Per series: price window [lo, hi], x mapped onto [-1, 1] (0 for a single price), y less its
+    weighted ``mean``, and the smallest y.  Series with ``use[s]`` False (when ``use`` is not
+    empty) get zeros throughout."""
+    weighted = len(w) > 0
+    restricted = len(use) > 0
+    for s in range(len(offsets) - 1):
+        start, stop = offsets[s], offsets[s + 1]
+        if restricted and not use[s]:
+            for i in range(start, stop):
+                t[i] = 0.0
+                centred[i] = 0.0
+            lo[s] = hi[s] = mean[s] = y_low[s] = 0.0
+            continue
+        small = np.inf
+        large = -np.inf
+        least = np.inf
+        total_w = 0.0
+        total_wy = 0.0
+        for i in range(start, stop):
+            wi = w[i] if weighted else 1.0
+            small = min(small, x[i])
+            large = max(large, x[i])
+            least = min(least, y[i])
+            total_w += wi
+            total_wy += wi * y[i]
+        mid = (small + large) / 2
+        half = (large - small) / 2
+        average = total_wy / (total_w if total_w > 0 else 1.0)
+        for i in range(start, stop):
+            t[i] = (x[i] - mid) / half if half > 0 else 0.0
+            centred[i] = y[i] - average
+        lo[s] = small
+        hi[s] = large
+        mean[s] = average
+        y_low[s] = least

@@ -12,7 +12,7 @@ import numpy as np
 
 from . import kernels
 from . import reasons as R
-from .basis import mapped, plain_loglog, window
+from .basis import mapped, plain_loglog, window, window_rows
 from .candidates import candidates_for, complexity
 from .dataset import Dataset
 from .errors import SettingsError
@@ -102,14 +102,14 @@ class _Chunk:
         self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
         w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)
         self.w_sum = np.where(w_sum > 0, w_sum, 1.0)
-        # Price mapped onto each series' window, volume centred (``kernels.window_rows``).
+        # Price mapped onto each series' window, volume centred (``basis.window_rows``).
         self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
 
     def windowed(self, x: np.ndarray, y: np.ndarray, use: np.ndarray | None = None):
         """(t, centred y, lo, hi, mean y, least y); series outside ``use`` get zeros."""
         t, centred = np.empty(len(x)), np.empty(len(x))
         lo, hi, mean, least = (np.empty(len(self.counts)) for _ in range(4))
-        kernels.window_rows(x, y, np.empty(0) if self.weight is None else self.weight, self.offsets,
+        window_rows(x, y, np.empty(0) if self.weight is None else self.weight, self.offsets,
                             np.empty(0, bool) if use is None else use, t, centred, lo, hi, mean, least)
         return t, centred, lo, hi, mean, least
 

@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import kernels
+from .compiled import compiled
 from .settings import FitSettings
 
 
@@ -67,7 +67,7 @@ def time_bounds(counts: np.ndarray, k: int) -> np.ndarray:
 def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int) -> np.ndarray:
     """(N,) a seeded permutation of each series' rows, series kept contiguous.
 
-    Rows are ordered by the top 20 bits of their draw (``kernels.shuffle_draws``),
+    Rows are ordered by the top 20 bits of their draw (``shuffle_draws``),
     then by position; one numpy sort of packed keys does every series at once.
     """
     offsets = offsets.astype(np.int64)
@@ -76,12 +76,12 @@ def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int) -> np.nd
     seed = np.uint64(int(seed) % 2 ** 64)
     if len(counts) < 2 ** 23 and (n == 0 or counts.max() < 2 ** 20):
         packed = np.empty(n, dtype=np.int64)
-        kernels.shuffle_draws(offsets, key_hash.astype(np.uint64), seed, packed, np.empty(0, np.uint64))
+        shuffle_draws(offsets, key_hash.astype(np.uint64), seed, packed, np.empty(0, np.uint64))
         packed.sort()
         return offsets[packed >> 40] + (packed & (2 ** 20 - 1))
     # Too many rows or series to pack: order by the whole draw, then position.
     draws = np.empty(n, dtype=np.uint64)
-    kernels.shuffle_draws(offsets, key_hash.astype(np.uint64), seed, np.empty(0, np.int64), draws)
+    shuffle_draws(offsets, key_hash.astype(np.uint64), seed, np.empty(0, np.int64), draws)
     series = np.repeat(np.arange(len(counts)), counts)
     return np.lexsort((np.arange(n) - offsets[series], draws, series))
 
@@ -124,3 +124,32 @@ def split_indices(offsets: np.ndarray, settings: FitSettings, series: int, **kwa
     for f in range(int(settings.folds)):
         # Rows of block 0 of a time layout carry id -1: always in training.
         yield (rows[ids < f] if cumulative else rows[ids != f]), rows[ids == f]
+
+
+@compiled
+def _splitmix64(x):
+    z = x + np.uint64(0x9E3779B97F4A7C15)
+    z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+    z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+    return z ^ (z >> np.uint64(31))
+
+
+@compiled
+def shuffle_draws(offsets, key_hash, seed, packed, draws):
+    """Row j of series s draws splitmix64(stream_s + j), stream_s = splitmix64(key_hash_s ^ splitmix64(seed)).
+
+    Fills ``draws`` with the whole draws when it is not empty; otherwise
+    ``packed`` with series (23 bits) | the draw's top 20 bits | j (20 bits),
+    whose ascending order is the shuffled order of every series at once.
+    """
+    salt = _splitmix64(np.uint64(seed))
+    whole = len(draws) > 0
+    for s in range(len(offsets) - 1):
+        start = offsets[s]
+        stream = _splitmix64(key_hash[s] ^ salt)
+        for j in range(offsets[s + 1] - start):
+            draw = _splitmix64(stream + np.uint64(j))
+            if whole:
+                draws[start + j] = draw
+            else:
+                packed[start + j] = (s << 40) | (np.int64(draw >> np.uint64(44)) << 20) | j

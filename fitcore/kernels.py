@@ -1,48 +1,13 @@
-"""Compiled per-series loops (numba) for the work numpy cannot batch cheaply.
+"""The compiled least-squares loops: fold moments, scaled Cholesky, solves, held-out errors, leverages.
 
-A series' rows, its fold moments and its ≤ 6 × 6 Gram matrices fit in
-registers and L1 cache, so one compiled pass per series replaces dozens of
-numpy passes over the chunk.  Elementwise transcendental functions stay in
-numpy, whose SIMD ``exp``/``log`` run ~4× faster than scalar calls here.
-
-Compiled on first use and cached beside this file (or in the user's cache
-when that is read-only): the first run after an install takes a few seconds
-longer.  ``error_model="numpy"``: a division by zero gives inf or NaN, as in
-numpy, for the caller to mask, instead of raising.
+One pass per series (see ``compiled``): its rows, its fold moments and its
+≤ 6 × 6 Gram matrices stay in registers and L1 cache.
 """
 from __future__ import annotations
 
-import functools
-
 import numpy as np
 
-_PLAIN = {}  # name → the Python function, compiled on the first call of any kernel
-
-
-def njit(**options):
-    """``numba.njit(**options)``, applied when a kernel is first called.
-
-    Importing ``fitcore`` (say, to open a results file) then costs no numba
-    import (~0.2 s).  On that first call every kernel here is compiled (or
-    loaded from the cache) and bound in this module, so compiled kernels
-    call one another directly.
-    """
-    def register(fn):
-        _PLAIN[fn.__name__] = (fn, options)
-
-        @functools.wraps(fn)
-        def first_call(*args):
-            _compile_all()
-            return globals()[fn.__name__](*args)
-        return first_call
-    return register
-
-
-def _compile_all() -> None:
-    import numba
-    for name, (fn, options) in _PLAIN.items():
-        if not isinstance(globals()[name], numba.core.registry.CPUDispatcher):
-            globals()[name] = numba.njit(**options)(fn)
+from .compiled import compiled
 
 # A squared Cholesky pivot below this (on a unit-diagonal Gram matrix) means
 # the column adds nothing the earlier ones do not already span.  Exactly
@@ -59,7 +24,7 @@ COND_LIMIT = 1e8
 CANCEL_RATIO = 1e-7
 
 
-@njit(cache=True, nogil=True, error_model="numpy")
+@compiled
 def _block_moments(x, y, w, weighted, start, stop, m, p, sums, cross, squares, b):
     """Σw·xᵏ (k < m) into ``sums``, Σw·xᵏ·y (k < p) into ``cross``, Σw·y² into ``squares[b]``.
 
@@ -125,7 +90,7 @@ def _block_moments(x, y, w, weighted, start, stop, m, p, sums, cross, squares, b
     squares[b] = yy
 
 
-@njit(cache=True, nogil=True, error_model="numpy")
+@compiled
 def _row_errors(x, y, w, weighted, bounds, fold_of_block, degrees, coef, power, acc):
     """One series' weighted squared errors from its rows: ``acc[f, j]`` held out in fold f,
     ``acc[F, j]`` in sample; ``coef`` (F + 1, D, P) as ``family_fit`` writes it."""
@@ -153,7 +118,7 @@ def _row_errors(x, y, w, weighted, bounds, fold_of_block, degrees, coef, power, 
                     acc[f, j] += wi * r * r
 
 
-@njit(cache=True, nogil=True, error_model="numpy")
+@compiled
 def _factor(sums, p, lower, scale, good, cond, inverse, recip):
     """Cholesky of the Jacobi-scaled Hankel Gram G[i, j] = sums[i + j] (Σw·xᵏ).
 
@@ -203,7 +168,15 @@ def _factor(sums, p, lower, scale, good, cond, inverse, recip):
         cond[i] = np.sqrt(gram_sq) * inv_sq
 
 
-@njit(cache=True, nogil=True, error_model="numpy")
+@compiled
+def trains_on(f, b, held_out, cumulative):
+    """Whether fit ``f`` (``len(held_out)`` = the fit on all rows) trains on block ``b``."""
+    if f == len(held_out):
+        return True
+    return b != held_out[f] and not (cumulative and b > held_out[f])
+
+
+@compiled
 def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
                coef, ok, sse_test, w_test, sse_full, w_full, tss, tss_test, lower_full, scale_full):
     """Every degree on every fold of every series; outputs as ``polyfit.FamilyFit`` (series first).
@@ -250,7 +223,7 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
             txy[:] = 0.0
             train_rows = 0.0
             for b in range(n_blocks):
-                if f < n_folds and (b == held_out[f] or (cumulative and b > held_out[f])):
+                if not trains_on(f, b, held_out, cumulative):
                     continue
                 train_rows += rows[b]
                 for k in range(m):
@@ -333,7 +306,7 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
         tss_test[s] = held_yy
 
 
-@njit(cache=True, nogil=True, error_model="numpy")
+@compiled
 def leverage_rows(x, lower, scale, series, sizes, out):
     """xᵢᵀ(XᵀWX)⁻¹xᵢ = ‖L⁻¹Dxᵢ‖² at each point, from scaled Cholesky factors (S, P, P), (S, P).
 
@@ -361,65 +334,7 @@ def leverage_rows(x, lower, scale, series, sizes, out):
             out[0, i] = total
 
 
-@njit(cache=True, nogil=True, error_model="numpy")
-def _trains_on(f, b, held_out, cumulative):
-    """Whether fit ``f`` (``len(held_out)`` = the fit on all rows) trains on block ``b``."""
-    if f == len(held_out):
-        return True
-    return b != held_out[f] and not (cumulative and b > held_out[f])
-
-
-@njit(cache=True, nogil=True, error_model="numpy")
-def loglog_residuals(u, z, bounds, a, e, out):
-    """``out[f, i]`` = zᵢ − a[s, f] − e[s, f]·uᵢ: the log-scale residual of row i under fit f of its series."""
-    for s in range(bounds.shape[0]):
-        for i in range(bounds[s, 0], bounds[s, -1]):
-            for f in range(out.shape[0]):
-                out[f, i] = z[i] - a[s, f] - e[s, f] * u[i]
-
-
-@njit(cache=True, nogil=True, error_model="numpy")
-def loglog_volume_errors(volume, w, bounds, held_out, cumulative, growth, smear, sse_full, sse_test):
-    """Volume-scale errors of the log-log fits, with Duan's smearing factor per fit.
-
-    ``growth[f, i]`` = exp(log residual of row i under fit f).  A fit's
-    smearing factor is the weighted mean of its growths over its training rows;
-    its prediction at row i is volumeᵢ / growth[f, i] × smear.
-    """
-    n_folds = len(held_out)
-    weighted = len(w) > 0
-    spread = np.zeros(n_folds + 1)
-    weight = np.zeros(n_folds + 1)
-    for s in range(bounds.shape[0]):
-        spread[:] = 0.0
-        weight[:] = 0.0
-        for b in range(bounds.shape[1] - 1):
-            for f in range(n_folds + 1):
-                if _trains_on(f, b, held_out, cumulative):
-                    for i in range(bounds[s, b], bounds[s, b + 1]):
-                        wi = w[i] if weighted else 1.0
-                        spread[f] += wi * growth[f, i]
-                        weight[f] += wi
-        for f in range(n_folds + 1):
-            spread[f] = spread[f] / weight[f] if weight[f] > 0 else 1.0
-        smear[s] = spread[n_folds]
-        total = 0.0
-        for i in range(bounds[s, 0], bounds[s, -1]):
-            wi = w[i] if weighted else 1.0
-            r = volume[i] - volume[i] / growth[n_folds, i] * spread[n_folds]
-            total += wi * r * r
-        sse_full[s] = total
-        for f in range(n_folds):
-            hb = held_out[f]
-            total = 0.0
-            for i in range(bounds[s, hb], bounds[s, hb + 1]):
-                wi = w[i] if weighted else 1.0
-                r = volume[i] - volume[i] / growth[f, i] * spread[f]
-                total += wi * r * r
-            sse_test[s, f] = total
-
-
-@njit(cache=True, nogil=True, error_model="numpy")
+@compiled
 def influence_rows(x, target, w, offsets, order, coef, size, lower, scale, sigma2, top, first):
     """The largest Cook's distance among the rows of each series with ``size[s] > 0``.
 
@@ -459,119 +374,3 @@ def influence_rows(x, target, w, offsets, order, coef, size, lower, scale, sigma
                 where = at
         top[s] = best
         first[s] = where
-
-
-@njit(cache=True, nogil=True, error_model="numpy")
-def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low):
-    """Per series: price window [lo, hi], x mapped onto [-1, 1] (0 for a single price), y less its
-    weighted ``mean``, and the smallest y.  Series with ``use[s]`` False (when ``use`` is not
-    empty) get zeros throughout."""
-    weighted = len(w) > 0
-    restricted = len(use) > 0
-    for s in range(len(offsets) - 1):
-        start, stop = offsets[s], offsets[s + 1]
-        if restricted and not use[s]:
-            for i in range(start, stop):
-                t[i] = 0.0
-                centred[i] = 0.0
-            lo[s] = hi[s] = mean[s] = y_low[s] = 0.0
-            continue
-        small = np.inf
-        large = -np.inf
-        least = np.inf
-        total_w = 0.0
-        total_wy = 0.0
-        for i in range(start, stop):
-            wi = w[i] if weighted else 1.0
-            small = min(small, x[i])
-            large = max(large, x[i])
-            least = min(least, y[i])
-            total_w += wi
-            total_wy += wi * y[i]
-        mid = (small + large) / 2
-        half = (large - small) / 2
-        average = total_wy / (total_w if total_w > 0 else 1.0)
-        for i in range(start, stop):
-            t[i] = (x[i] - mid) / half if half > 0 else 0.0
-            centred[i] = y[i] - average
-        lo[s] = small
-        hi[s] = large
-        mean[s] = average
-        y_low[s] = least
-
-
-@njit(cache=True, nogil=True)
-def _splitmix64(x):
-    z = x + np.uint64(0x9E3779B97F4A7C15)
-    z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
-    z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
-    return z ^ (z >> np.uint64(31))
-
-
-@njit(cache=True, nogil=True)
-def shuffle_draws(offsets, key_hash, seed, packed, draws):
-    """Row j of series s draws splitmix64(stream_s + j), stream_s = splitmix64(key_hash_s ^ splitmix64(seed)).
-
-    Fills ``draws`` with the whole draws when it is not empty; otherwise
-    ``packed`` with series (23 bits) | the draw's top 20 bits | j (20 bits),
-    whose ascending order is the shuffled order of every series at once.
-    """
-    salt = _splitmix64(np.uint64(seed))
-    whole = len(draws) > 0
-    for s in range(len(offsets) - 1):
-        start = offsets[s]
-        stream = _splitmix64(key_hash[s] ^ salt)
-        for j in range(offsets[s + 1] - start):
-            draw = _splitmix64(stream + np.uint64(j))
-            if whole:
-                draws[start + j] = draw
-            else:
-                packed[start + j] = (s << 40) | (np.int64(draw >> np.uint64(44)) << 20) | j
-
-
-@njit(cache=True, nogil=True, error_model="numpy")
-def _poly_value(coef, s, t, order):
-    """The ``order``-th derivative (0, 1 or 2) at t of Σ coef[s, k]·tᵏ."""
-    p = coef.shape[1]
-    value = 0.0
-    for k in range(p - 1, order - 1, -1):
-        factor = 1.0
-        for m in range(order):
-            factor *= k - m
-        value = value * t + coef[s, k] * factor
-    return value
-
-
-@njit(cache=True, nogil=True, error_model="numpy")
-def revenue_peak_poly(coef, mid, half, grid, out):
-    """``out[s]``: the t in [-1, 1] maximising (mid + half·t) × Σ coef[s, k]·tᵏ.
-
-    A grid of ``grid`` points finds the best cell (first maximum); Newton steps
-    on d(revenue)/dt, kept inside the neighbouring cells and taken only when
-    they raise revenue, make the optimum exact for a quadratic revenue
-    (linear demand) and accurate to round-off for smooth ones.
-    """
-    step = 2.0 / (grid - 1)
-    for s in range(coef.shape[0]):
-        best = -np.inf
-        t = -1.0
-        for g in range(grid):
-            tg = -1.0 + g * step if g < grid - 1 else 1.0
-            revenue = (mid[s] + half[s] * tg) * _poly_value(coef, s, tg, 0)
-            if revenue > best:
-                best = revenue
-                t = tg
-        lo = max(t - step, -1.0)
-        hi = min(t + step, 1.0)
-        for _ in range(8):
-            p = mid[s] + half[s] * t
-            v = _poly_value(coef, s, t, 0)
-            v1 = _poly_value(coef, s, t, 1)
-            v2 = _poly_value(coef, s, t, 2)
-            grad = half[s] * v + p * v1
-            curv = 2 * half[s] * v1 + p * v2
-            candidate = min(max(t - grad / curv, lo), hi)
-            if curv < 0 and np.isfinite(candidate):
-                if (mid[s] + half[s] * candidate) * _poly_value(coef, s, candidate, 0) >= p * v:
-                    t = candidate
-        out[s] = t

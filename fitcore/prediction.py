@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import kernels
 from .basis import mapped, width
+from .compiled import compiled
 from .polyfit import horner
 
 
@@ -57,9 +57,9 @@ def loglog_at(coef, mid, half, leverage, smear, sigma2, df, price, level):
 
 def best_revenue_poly(coef: np.ndarray, mid: np.ndarray, half: np.ndarray, grid: int = 65) -> np.ndarray:
     """(S,) the price in [mid − half, mid + half] maximising price × volume; ``coef`` (P, S) in t
-    (grid search, then safeguarded Newton steps: ``kernels.revenue_peak_poly``)."""
+    (grid search, then safeguarded Newton steps: ``revenue_peak_poly``)."""
     t = np.empty(len(mid))
-    kernels.revenue_peak_poly(np.ascontiguousarray(np.asarray(coef, dtype=np.float64).T), mid.astype(np.float64),
+    revenue_peak_poly(np.ascontiguousarray(np.asarray(coef, dtype=np.float64).T), mid.astype(np.float64),
                               half.astype(np.float64), grid, t)
     return mid + half * t
 
@@ -67,3 +67,51 @@ def best_revenue_poly(coef: np.ndarray, mid: np.ndarray, half: np.ndarray, grid:
 def best_revenue_loglog(elasticity: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
     """Revenue ∝ price^(1 + e): highest at the top of the range when e > −1, else at the bottom."""
     return np.where(elasticity > -1, hi, lo)
+
+
+@compiled
+def _poly_value(coef, s, t, order):
+    """The ``order``-th derivative (0, 1 or 2) at t of Σ coef[s, k]·tᵏ."""
+    p = coef.shape[1]
+    value = 0.0
+    for k in range(p - 1, order - 1, -1):
+        factor = 1.0
+        for m in range(order):
+            factor *= k - m
+        value = value * t + coef[s, k] * factor
+    return value
+
+
+@compiled
+def revenue_peak_poly(coef, mid, half, grid, out):
+    """``out[s]``: the t in [-1, 1] maximising (mid + half·t) × Σ coef[s, k]·tᵏ.
+
+    A grid of ``grid`` points finds the best cell (first maximum); Newton steps
+    on d(revenue)/dt, kept inside the neighbouring cells and taken only when
+    they raise revenue, make the optimum exact for a quadratic revenue
+    (linear demand) and accurate to round-off for smooth ones.
+    """
+    step = 2.0 / (grid - 1)
+    for s in range(coef.shape[0]):
+        best = -np.inf
+        t = -1.0
+        for g in range(grid):
+            tg = -1.0 + g * step if g < grid - 1 else 1.0
+            revenue = (mid[s] + half[s] * tg) * _poly_value(coef, s, tg, 0)
+            if revenue > best:
+                best = revenue
+                t = tg
+        lo = max(t - step, -1.0)
+        hi = min(t + step, 1.0)
+        for _ in range(8):
+            p = mid[s] + half[s] * t
+            v = _poly_value(coef, s, t, 0)
+            v1 = _poly_value(coef, s, t, 1)
+            v2 = _poly_value(coef, s, t, 2)
+            grad = half[s] * v + p * v1
+            curv = 2 * half[s] * v1 + p * v2
+            candidate = min(max(t - grad / curv, lo), hi)
+            if curv < 0 and np.isfinite(candidate):
+                if (mid[s] + half[s] * candidate) * _poly_value(coef, s, candidate, 0) >= p * v:
+                    t = candidate
+        out[s] = t

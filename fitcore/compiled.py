@@ -1,0 +1,49 @@
+"""Compiled per-series loops (numba), compiled on first use.
+
+A series' rows, its fold moments and its ≤ 6 × 6 Gram matrices fit in
+registers and L1 cache, so one compiled pass per series replaces dozens of
+numpy passes over a chunk.  Each loop lives beside the numpy code that calls
+it (``kernels`` for the least-squares fits, ``loglog``, ``folds``,
+``prediction``, ``basis``); this module only defers the compiling.
+
+Importing ``fitcore`` (say, to open a results file) then costs no numba
+import (~0.2 s).  On the first call of any loop, every registered loop is
+compiled (or loaded from the cache beside its file, or the user's cache
+when that is read-only: the first run after an install takes a few seconds
+longer) and bound wherever it was imported, so compiled loops call one
+another directly.
+
+Every loop uses ``error_model="numpy"`` (a division by zero gives inf or NaN,
+as in numpy, for the caller to mask) and no ``fastmath``, so results are
+plain IEEE arithmetic, the same on every machine.
+"""
+from __future__ import annotations
+
+import functools
+import sys
+
+OPTIONS = {"cache": True, "nogil": True, "error_model": "numpy"}
+
+_LOOPS: list = []  # (Python function, its first-call wrapper)
+
+
+def compiled(fn):
+    """Mark ``fn`` as a loop to compile with ``OPTIONS`` when any loop is first called."""
+    @functools.wraps(fn)
+    def first_call(*args):
+        compile_all()
+        return getattr(sys.modules[fn.__module__], fn.__name__)(*args)
+    _LOOPS.append((fn, first_call))
+    return first_call
+
+
+def compile_all() -> None:
+    """Compile every registered loop and put it where its wrapper was: its module and any importer."""
+    import numba
+    done = {id(wrapper): numba.njit(**OPTIONS)(fn) for fn, wrapper in _LOOPS}
+    for name, module in list(sys.modules.items()):
+        if name == "fitcore" or name.startswith("fitcore."):
+            for attribute, value in list(vars(module).items()):
+                if id(value) in done:
+                    setattr(module, attribute, done[id(value)])
+    _LOOPS.clear()
