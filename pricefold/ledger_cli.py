@@ -14,7 +14,6 @@ from fitcore import ledger
 from fitcore.decisions import replay, series_id
 from fitcore.errors import DataError
 from fitcore.results_read import results_in_parts
-
 from fitcore.text import clean
 
 from .show import key_text

@@ -4,7 +4,6 @@ from __future__ import annotations
 import math
 
 from fitcore.flag_sentences import fmt, money
-
 from fitcore.text import clean
 
 SEVERITY_ORDER = {"stop": 0, "warn": 1}
