@@ -66,9 +66,7 @@ class Dataset:
         Seeds each series' fold shuffle, so fold assignment depends on the
         series itself and never on which other series share the file.
         """
-        import pandas as pd
-        frame = pd.DataFrame({name: self.keys[name].astype(str) for name in self.key_names})
-        return _readonly(pd.util.hash_pandas_object(frame, index=False).to_numpy(np.uint64))
+        return _readonly(hash_keys({name: self.keys[name] for name in self.key_names}))
 
     @cached_property
     def fingerprints(self) -> list[str]:
@@ -131,3 +129,10 @@ def _series_codes(columns: list[np.ndarray]) -> np.ndarray:
         # Re-number after each column so the combined code never overflows.
         codes, _ = pd.factorize(codes.astype(np.int64) * len(uniques) + column_codes, sort=False)
     return codes.astype(np.int64)
+
+
+def hash_keys(keys: dict[str, np.ndarray]) -> np.ndarray:
+    """(N,) uint64 hash of each row's key text (one value per row of the key columns)."""
+    import pandas as pd
+    frame = pd.DataFrame({name: np.asarray(values).astype(str) for name, values in keys.items()})
+    return pd.util.hash_pandas_object(frame, index=False).to_numpy(np.uint64)

@@ -56,15 +56,7 @@ def results_in_parts(path: str | Path, products: list[str] = (), keys: dict | No
     if parts is None and path.suffix.lower() not in (".parquet", ".pq"):
         head, series = read_results(path)
         return head, iter([[r for r in series if _matches(r["key"], products, keys or {})]])
-    import pyarrow.parquet as pq
-    first = (parts or [path])[0]
-    if not first.exists():
-        raise DataError("file not found", path=str(first))
-    try:
-        meta = json.loads((pq.read_schema(first).metadata or {}).get(b"pricefold", b"null"))
-    except Exception as exc:  # pyarrow raises several unrelated types for a bad file
-        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(first)) from None
-    check_schema(first, meta)
+    meta = read_header(path)
     names = meta.pop("key_columns", [])
     wanted = ([(names[0], "in", list(products))] if products and names else []) + \
         [(name, "==", value) for name, value in (keys or {}).items() if name in names]
@@ -78,6 +70,20 @@ def _matches(key: dict, products, keys: dict) -> bool:
         all(key.get(name) == value for name, value in keys.items())
 
 
+def read_header(path: str | Path) -> dict:
+    """The header of a Parquet results file or folder, ``key_columns`` included (schema metadata only)."""
+    import pyarrow.parquet as pq
+    path = (result_parts(path) or [Path(path)])[0]
+    if not path.exists():
+        raise DataError("file not found", path=str(path))
+    try:
+        meta = json.loads((pq.read_schema(path).metadata or {}).get(b"pricefold", b"null"))
+    except Exception as exc:  # pyarrow raises several unrelated types for a bad file
+        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
+    check_schema(path, meta)
+    return meta
+
+
 def check_schema(path: Path, document) -> None:
     if not isinstance(document, dict) or document.get("schema") != SCHEMA:
         found = document.get("schema") if isinstance(document, dict) else type(document).__name__
@@ -86,12 +92,11 @@ def check_schema(path: Path, document) -> None:
 
 def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
     import pyarrow.parquet as pq
+    meta = read_header(path)
     try:
         table = pq.read_table(path, filters=filters)
-        meta = json.loads((pq.read_schema(path).metadata or {}).get(b"pricefold", b"null"))
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
         raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
-    check_schema(path, meta)
     keys = meta["key_columns"]
     rows = table.to_pylist()
     series, current = [], None

@@ -23,10 +23,9 @@ from .dataset import Dataset
 from .diagnostics import CODES, SEVERITY, Diagnosis
 from .errors import DataError
 from .results import Results
-from .results_read import check_schema, result_parts
+from .results_read import read_header, result_parts
 from .settings import settings_from_dict
 from .thresholds import Thresholds
-
 
 # The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
 NEEDED = ("n", "price_lo", "price_hi", "candidate", "available", "reason", "cv_mse", "cv_se", "fold_mse", "r2", "q2",
@@ -140,18 +139,6 @@ class StoredDiagnosis(Diagnosis):
         return [{"code": code, "severity": SEVERITY[code],
                  "message": sentence(self, s, code) if code == "stale" else recorded.get(code, "")}
                 for i, code in enumerate(CODES) if self.raised[s, i]]
-
-
-def read_header(path: str | Path) -> dict:
-    """The header of a Parquet results file or folder (schema metadata only: no rows are read)."""
-    import pyarrow.parquet as pq
-    path = (result_parts(path) or [path])[0]
-    try:
-        meta = json.loads((pq.read_schema(path).metadata or {}).get(b"pricefold", b"null"))
-    except Exception as exc:  # pyarrow raises several unrelated types for a bad file
-        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
-    check_schema(Path(path), meta)
-    return meta
 
 
 def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:

@@ -91,10 +91,9 @@ def read_piece(piece: Piece, columns: Columns, n_parts: int, sep: str | None = N
 
 
 def partition_of(keys: dict[str, np.ndarray], n_parts: int) -> np.ndarray:
-    """(N,) the partition of each row: its series' key hash (as ``Dataset.key_hash``) modulo ``n_parts``."""
-    import pandas as pd
-    frame = pd.DataFrame({name: values.astype(str) for name, values in keys.items()})
-    return (pd.util.hash_pandas_object(frame, index=False).to_numpy(np.uint64) % np.uint64(n_parts)).astype(np.int64)
+    """(N,) the partition of each row: its series' key hash (``Dataset.key_hash``) modulo ``n_parts``."""
+    from .dataset import hash_keys
+    return (hash_keys(keys) % np.uint64(n_parts)).astype(np.int64)
 
 
 @dataclass(frozen=True)

@@ -8,8 +8,8 @@ of an earlier row.  The first reason that applies is the one reported.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
 from collections import Counter
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd

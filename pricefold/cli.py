@@ -297,7 +297,7 @@ REFIT_ROWS = 50_000_000
 
 def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | None = None) -> int:
     """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen)."""
-    from fitcore.results_stored import read_header
+    from fitcore.results_read import read_header
     from tui.app import TriageApp
     from tui.factory import open_session, open_stored_session, refit_stored
 

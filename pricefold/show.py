@@ -4,6 +4,7 @@ from __future__ import annotations
 import math
 
 from fitcore.flag_sentences import fmt, money
+from fitcore.keys import SEPARATOR
 from fitcore.text import clean
 
 SEVERITY_ORDER = {"stop": 0, "warn": 1}
@@ -31,7 +32,7 @@ def attention_key(record: dict):
 
 def key_text(key: dict) -> str:
     """A series key as one line of text, control characters replaced."""
-    return " · ".join(clean(str(v)) for v in key.values())
+    return SEPARATOR.join(clean(str(v)) for v in key.values())
 
 
 def table(records: list[dict]) -> str:

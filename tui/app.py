@@ -78,10 +78,10 @@ class TriageApp(App):
 
     def on_session_ready(self, message: SessionReady) -> None:
         self.session = message.session
-        settle()
         self.switch_screen(TriageScreen(message.session))
         for warning in message.session.warnings:
             self.notify(clean(warning), severity="warning", timeout=10, markup=False)
+        self.call_after_refresh(settle)  # after the first screen is drawn, not before it
         if self.observer is not None:  # once the first screen is drawn: the fit competes for the interpreter
             self.call_after_refresh(lambda: self.set_timer(0.2, self.read_observations))
 

@@ -11,8 +11,8 @@ from typing import Callable
 from fitcore.columns import Columns, file_sha256
 from fitcore.errors import DataError
 from fitcore.ledger import Identity, results_digest
-from fitcore.results_read import read_results
-from fitcore.results_stored import read_header, stored_results
+from fitcore.results_read import read_header, read_results
+from fitcore.results_stored import stored_results
 from fitcore.settings import FitSettings, provenance, settings_from_dict
 from fitcore.thresholds import Thresholds
 

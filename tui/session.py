@@ -13,9 +13,9 @@ from pathlib import Path
 import numpy as np
 
 from fitcore import ledger
+from fitcore.arrays import integers, texts
 from fitcore.decisions import SeriesHistory, apply, own_standing, series_id
 from fitcore.diagnostics import CODES, SEVERITY, Diagnosis, mark_stale
-from fitcore.arrays import integers, texts
 from fitcore.keys import SeriesKeys
 from fitcore.results import Results
 
