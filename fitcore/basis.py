@@ -28,11 +28,6 @@ def mapped(x: np.ndarray, mid: np.ndarray, half: np.ndarray) -> np.ndarray:
     return (x - mid) / width(half)
 
 
-def to_window(x: np.ndarray, mid: np.ndarray, half: np.ndarray) -> np.ndarray:
-    """Map x into [-1, 1] of its window (0 where the window has no width)."""
-    return np.where(half > 0, mapped(x, mid, half), 0.0)
-
-
 def plain_loglog(a: np.ndarray, e: np.ndarray, log_mid: np.ndarray, log_half: np.ndarray):
     """(a, e) of ln volume = a + e·ln price, from coefficients in u = (ln price − log_mid)/log_half."""
     slope = e / width(log_half)
