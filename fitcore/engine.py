@@ -26,7 +26,7 @@ from .segments import segment_sums
 from .selection import choose
 from .settings import FitSettings
 
-CHUNK_ROWS = 1 << 18
+CHUNK_ROWS = 1 << 17
 
 
 def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_price=None,
@@ -133,7 +133,7 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
     fit_ok = np.ones((n_s, n_c), dtype=bool)
     fit_ok[:, :n_p] = poly.ok[:, -1]
     fold_ok = np.ones((n_s, n_c), dtype=bool)
-    fold_ok[:, :n_p] = poly.ok[:, :-1].all(axis=1)
+    fold_ok[:, :n_p] = _along_folds(poly.ok[:, :-1], np.logical_and)
     sse_full = np.zeros((n_s, n_c))
     sse_full[:, :n_p] = poly.sse_full
     not_positive = np.zeros(n_s, dtype=bool)
@@ -171,9 +171,8 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
             sse_test[..., -1] = ll.sse_test.T
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):  # unavailable cells: masked below
             fold_err = sse_test / poly.w_test[..., None]
-            cv_mse = fold_err.mean(axis=1)
-            cv_se = fold_err.std(axis=1, ddof=1) / np.sqrt(ch.lay.n_folds)
-        press = sse_test.sum(axis=1)
+            cv_mse, cv_se = _fold_mean_se(fold_err)
+        press = _along_folds(sse_test)
 
     n_coef = complexity(cands)
     reason = _reasons(ch, cands, n_coef, half, not_positive, fit_ok, fold_ok)
@@ -253,6 +252,28 @@ def _top_influence(ch: _Chunk, chosen, cands, coef, sigma2, t, poly, log_part):
                                np.where(chosen == len(cands) - 1, size, 0), ll.log.lower, ll.log.scale,
                                sigma2[:, -1], top, first)
     return top, first
+
+
+def _along_folds(values: np.ndarray, ufunc=np.add) -> np.ndarray:
+    """``ufunc`` reduced along axis 1 of (S, K, …) ``values``, a fold at a time.
+
+    A loop over the few folds on contiguous (S, …) slices: numpy's reductions along a short
+    middle axis cost several times more here.
+    """
+    if values.shape[1] == 0:
+        return ufunc.reduce(values, axis=1)  # the identity: 0 for sums, True for "all"
+    out = values[:, 0].copy()
+    for f in range(1, values.shape[1]):
+        ufunc(out, values[:, f], out=out)
+    return out
+
+
+def _fold_mean_se(fold_err: np.ndarray):
+    """Mean and standard error (sample SD, ddof = 1, over √K) of (S, K, C) fold errors along K."""
+    n_folds = fold_err.shape[1]
+    mean = _along_folds(fold_err) / n_folds
+    spread = _along_folds((fold_err - mean[:, None]) ** 2)
+    return mean, np.sqrt(spread / (n_folds - 1)) / np.sqrt(n_folds)
 
 
 def _loo_summary(ch: _Chunk, fold_err: np.ndarray):

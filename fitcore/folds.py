@@ -78,7 +78,8 @@ def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int) -> np.nd
         packed = np.empty(n, dtype=np.int64)
         shuffle_draws(offsets, key_hash.astype(np.uint64), seed, packed, np.empty(0, np.uint64))
         packed.sort()
-        return offsets[packed >> 40] + (packed & (2 ** 20 - 1))
+        unpack_rows(packed, offsets)
+        return packed
     # Too many rows or series to pack: order by the whole draw, then position.
     draws = np.empty(n, dtype=np.uint64)
     shuffle_draws(offsets, key_hash.astype(np.uint64), seed, np.empty(0, np.int64), draws)
@@ -132,6 +133,13 @@ def _splitmix64(x):
     z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
     z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
     return z ^ (z >> np.uint64(31))
+
+
+@compiled
+def unpack_rows(packed, offsets):
+    """Sorted packed keys (series | draw | j, as ``shuffle_draws`` makes them) → dataset rows, in place."""
+    for i in range(len(packed)):
+        packed[i] = offsets[packed[i] >> 40] + (packed[i] & (2 ** 20 - 1))
 
 
 @compiled

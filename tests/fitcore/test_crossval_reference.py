@@ -161,3 +161,54 @@ def test_loglog_leave_one_out_log_scale_residuals_are_exact():
             beta = np.linalg.lstsq(design[keep], np.log(y[keep]), rcond=None)[0]
             errors.append((y[i] - np.exp(design[i] @ beta) * full_exp[keep].mean()) ** 2)
         np.testing.assert_allclose(results.folds_of(s)[:, c], errors, rtol=1e-9)
+
+
+def brute_force_weighted_loglog_folds(x, y, w, splits):
+    """Weighted version of ``brute_force_loglog_folds``: WLS on the log scale, weighted smearing and errors."""
+    out = []
+    for train, test in splits:
+        design = np.column_stack([np.ones(len(train)), np.log(x[train])])
+        root = np.sqrt(w[train])
+        beta = np.linalg.lstsq(design * root[:, None], np.log(y[train]) * root, rcond=None)[0]
+        smear = np.average(np.exp(np.log(y[train]) - design @ beta), weights=w[train])
+        predicted = np.exp(beta[0] + beta[1] * np.log(x[test])) * smear
+        out.append(np.average((y[test] - predicted) ** 2, weights=w[test]))
+    return np.array(out)
+
+
+@pytest.mark.parametrize("order", ["shuffled", "time"])
+def test_loglog_smearing_is_exact_for_folds_near_and_far_from_the_full_fit(order):
+    """A fold's smearing sum comes from a series in its slope gap δ when |δ| ≤ TAYLOR_REACH (mapped units),
+    from the rows otherwise; both regimes must equal brute-force refits (numpy lstsq)."""
+    from fitcore.folds import split_indices
+    from fitcore.loglog import TAYLOR_REACH
+    rng = np.random.default_rng(11)
+    counts = rng.integers(7, 16, 150)
+    total = int(counts.sum())
+    price = np.round(np.repeat(rng.uniform(1, 50, len(counts)), counts) * rng.uniform(0.5, 1.5, total), 2)
+    noise = np.repeat(rng.uniform(0.05, 1.5, len(counts)), counts)  # some series very noisy: far folds
+    volume = 300 * price ** -1.5 * rng.lognormal(0, noise)
+    weight = rng.uniform(0.3, 3.0, total)
+    date = np.concatenate([np.datetime64("2024-01-01") + rng.permutation(c).astype("timedelta64[D]") for c in counts])
+    keys = {"product": np.repeat(np.array([f"item {i}" for i in range(len(counts))], dtype=object), counts)}
+    data = fitcore.from_columns(keys, price, volume, weight=weight, date=date)
+    settings = fitcore.FitSettings(degrees=(1,), folds=3, fold_order=order)
+    results = fitcore.fit_batch(data, settings)
+    c = results.names.index("loglog")
+    tilts = []
+    for s in range(data.n_series):
+        if not results.available[s, c]:
+            continue
+        lo, hi = data.offsets[s], data.offsets[s + 1]
+        splits = [(train - lo, test - lo) for train, test in
+                  split_indices(data.offsets, settings, s, key_hash=data.key_hash, date=data.date)]
+        x, y = series_arrays(data, s)
+        w = data.weight[lo:hi]
+        np.testing.assert_allclose(results.folds_of(s)[:, c], brute_force_weighted_loglog_folds(x, y, w, splits),
+                                   rtol=1e-9)
+        # The slope gap in the engine's mapped ln price (the series' ln price range onto [-1, 1]).
+        half = (np.log(x.max()) - np.log(x.min())) / 2
+        full = np.polyfit(np.log(x), np.log(y), 1, w=np.sqrt(w))[0]
+        tilts += [abs(np.polyfit(np.log(x[t]), np.log(y[t]), 1, w=np.sqrt(w[t]))[0] - full) * half for t, _ in splits]
+    tilts = np.array(tilts)
+    assert (tilts > TAYLOR_REACH * 1.01).sum() >= 5 and (tilts < TAYLOR_REACH * 0.99).sum() >= 50
