@@ -7,87 +7,85 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import lanes
 from .compiled import compiled
-
-# A squared Cholesky pivot below this (on a unit-diagonal Gram matrix) means
-# the column adds nothing the earlier ones do not already span.  Exactly
-# singular matrices leave pivots near 1e-13 after rounding.
-RANK_TOL = 1e-10
 
 # Above this condition number of the scaled Gram matrix a solve through it
 # keeps fewer than 8 significant digits (error ≈ condition × 1.1e-16); such
 # a fit is too unstable to trust and is marked unavailable instead.
 COND_LIMIT = 1e8
 
-# A held-out error below this fraction of the terms it is computed from has
-# lost most of its digits to cancellation: recompute it from the rows.
-CANCEL_RATIO = 1e-7
+# Fits solved together, one lane each (``lanes``): enough for long vector
+# loops, few enough that a group's work arrays stay in the core's caches.
+LANE_TARGET = 512
 
 
 @compiled
-def _block_moments(x, y, w, weighted, start, stop, m, p, sums, cross, squares, b):
-    """Σw·xᵏ (k < m) into ``sums``, Σw·xᵏ·y (k < p) into ``cross``, Σw·y² into ``squares[b]``.
+def _block_moments(x, y, w, weighted, bounds, m, p, sums, cross, squares):
+    """Per block b of one series (rows ``bounds[b]:bounds[b + 1]``): Σw·xᵏ (k < m) into
+    ``sums[b]``, Σw·xᵏ·y (k < p) into ``cross[b]``, Σw·y² into ``squares[b]``.
 
     Scalar accumulators keep the loop in registers: a straight line (p = 2,
     the log-log fit) has its own short loop; otherwise every power up to 10
     (degree 5) is summed and those past what the caller asked for dropped.
     """
-    if p <= 2:
-        s0 = s1 = s2 = t0 = t1 = yy = 0.0
-        for i in range(start, stop):
+    for b in range(len(bounds) - 1):
+        if p <= 2:
+            s0 = s1 = s2 = t0 = t1 = yy = 0.0
+            for i in range(bounds[b], bounds[b + 1]):
+                wi = w[i] if weighted else 1.0
+                xi = x[i]
+                wy = wi * y[i]
+                s0 += wi
+                s1 += wi * xi
+                s2 += wi * (xi * xi)
+                t0 += wy
+                t1 += wy * xi
+                yy += wy * y[i]
+            line = (s0, s1, s2)
+            for k in range(m):
+                sums[b, k] = line[k]
+            first = (t0, t1)
+            for k in range(p):
+                cross[b, k] = first[k]
+            squares[b] = yy
+            continue
+        s0 = s1 = s2 = s3 = s4 = s5 = s6 = s7 = s8 = s9 = s10 = 0.0
+        t0 = t1 = t2 = t3 = t4 = t5 = 0.0
+        yy = 0.0
+        for i in range(bounds[b], bounds[b + 1]):
             wi = w[i] if weighted else 1.0
             xi = x[i]
+            x2 = xi * xi
+            x3 = x2 * xi
+            x4 = x2 * x2
+            x5 = x4 * xi
             wy = wi * y[i]
             s0 += wi
             s1 += wi * xi
-            s2 += wi * (xi * xi)
+            s2 += wi * x2
+            s3 += wi * x3
+            s4 += wi * x4
+            s5 += wi * x5
+            s6 += wi * (x3 * x3)
+            s7 += wi * (x4 * x3)
+            s8 += wi * (x4 * x4)
+            s9 += wi * (x5 * x4)
+            s10 += wi * (x5 * x5)
             t0 += wy
             t1 += wy * xi
+            t2 += wy * x2
+            t3 += wy * x3
+            t4 += wy * x4
+            t5 += wy * x5
             yy += wy * y[i]
-        line = (s0, s1, s2)
+        everything = (s0, s1, s2, s3, s4, s5, s6, s7, s8, s9, s10)
         for k in range(m):
-            sums[k] = line[k]
-        first = (t0, t1)
+            sums[b, k] = everything[k]
+        crossed = (t0, t1, t2, t3, t4, t5)
         for k in range(p):
-            cross[k] = first[k]
+            cross[b, k] = crossed[k]
         squares[b] = yy
-        return
-    s0 = s1 = s2 = s3 = s4 = s5 = s6 = s7 = s8 = s9 = s10 = 0.0
-    t0 = t1 = t2 = t3 = t4 = t5 = 0.0
-    yy = 0.0
-    for i in range(start, stop):
-        wi = w[i] if weighted else 1.0
-        xi = x[i]
-        x2 = xi * xi
-        x3 = x2 * xi
-        x4 = x2 * x2
-        x5 = x4 * xi
-        wy = wi * y[i]
-        s0 += wi
-        s1 += wi * xi
-        s2 += wi * x2
-        s3 += wi * x3
-        s4 += wi * x4
-        s5 += wi * x5
-        s6 += wi * (x3 * x3)
-        s7 += wi * (x4 * x3)
-        s8 += wi * (x4 * x4)
-        s9 += wi * (x5 * x4)
-        s10 += wi * (x5 * x5)
-        t0 += wy
-        t1 += wy * xi
-        t2 += wy * x2
-        t3 += wy * x3
-        t4 += wy * x4
-        t5 += wy * x5
-        yy += wy * y[i]
-    everything = (s0, s1, s2, s3, s4, s5, s6, s7, s8, s9, s10)
-    for k in range(m):
-        sums[k] = everything[k]
-    crossed = (t0, t1, t2, t3, t4, t5)
-    for k in range(p):
-        cross[k] = crossed[k]
-    squares[b] = yy
 
 
 @compiled
@@ -119,56 +117,6 @@ def _row_errors(x, y, w, weighted, bounds, fold_of_block, degrees, coef, power, 
 
 
 @compiled
-def _factor(sums, p, lower, scale, good, cond, inverse, recip):
-    """Cholesky of the Jacobi-scaled Hankel Gram G[i, j] = sums[i + j] (Σw·xᵏ).
-
-    Fills ``lower`` (L Lᵀ = D G D, D = diag(G)^-½), ``scale`` (diag of D),
-    ``recip`` (1 / diagonal of L), ``good[k]`` (column k and all before it are independent) and ``cond[k]``
-    (‖G‖_F·‖L⁻¹‖_F² of the leading (k + 1) block, a bound on its condition).
-    A failed column is dropped (unit pivot, zeros below), so every leading
-    block before the first failure is exact.
-    """
-    for k in range(p):
-        d = sums[2 * k]
-        scale[k] = 1.0 / np.sqrt(d) if d > 0 else 0.0
-    for k in range(p):
-        pivot = sums[2 * k] * scale[k] * scale[k]
-        for m in range(k):
-            pivot -= lower[k, m] * lower[k, m]
-        ok = sums[2 * k] > 0 and pivot > RANK_TOL and (k == 0 or good[k - 1])
-        good[k] = ok
-        root = np.sqrt(pivot) if ok else 1.0
-        lower[k, k] = root
-        recip[k] = 1.0 / root
-        for i in range(k + 1, p):
-            if ok:
-                value = sums[i + k] * scale[i] * scale[k]
-                for m in range(k):
-                    value -= lower[i, m] * lower[k, m]
-                lower[i, k] = value * recip[k]
-            else:
-                lower[i, k] = 0.0
-        for i in range(k):
-            lower[i, k] = 0.0
-    # Frobenius norms of the leading blocks of G and of L⁻¹, a row at a time.
-    gram_sq = 0.0
-    inv_sq = 0.0
-    inverse[:] = 0.0
-    for i in range(p):
-        inverse[i, i] = recip[i]
-        for j in range(i):
-            acc = 0.0
-            for m in range(j, i):
-                acc += lower[i, m] * inverse[m, j]
-            inverse[i, j] = -acc * inverse[i, i]
-        for j in range(i + 1):
-            g = sums[i + j] * scale[i] * scale[j]
-            gram_sq += g * g if j == i else 2.0 * g * g
-            inv_sq += inverse[i, j] * inverse[i, j]
-        cond[i] = np.sqrt(gram_sq) * inv_sq
-
-
-@compiled
 def trains_on(f, b, held_out, cumulative):
     """Whether fit ``f`` (``len(held_out)`` = the fit on all rows) trains on block ``b``."""
     if f == len(held_out):
@@ -181,129 +129,138 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
                coef, ok, sse_test, w_test, sse_full, w_full, tss, tss_test, lower_full, scale_full):
     """Every degree on every fold of every series; outputs as ``polyfit.FamilyFit`` (series first).
 
-    ``w``: weights, or an empty array for unit weights.
+    ``w``: weights, or an empty array for unit weights.  Series go in groups;
+    each fit of a group (a series and a fold, or all its rows) is one lane of
+    ``lanes``: its training moments are summed from the series' block
+    moments, then every lane is factored and solved at once.
     """
     n_series = bounds.shape[0]
     n_blocks = bounds.shape[1] - 1
     n_folds = len(held_out)
+    n_fits = n_folds + 1
     n_deg = len(degrees)
     m = 2 * p - 1
     weighted = len(w) > 0
-    blk = np.zeros((n_blocks, m))
-    bxy = np.zeros((n_blocks, p))
-    byy = np.zeros(n_blocks)
-    rows = np.zeros(n_blocks)
+    group = max(1, LANE_TARGET // n_fits)
+    n_lanes = group * n_fits
+    blk = np.zeros((group, n_blocks, m))
+    bxy = np.zeros((group, n_blocks, p))
+    byy = np.zeros((group, n_blocks))
+    train = np.zeros((m, n_lanes))
+    txy = np.zeros((p, n_lanes))
+    train_rows = np.zeros(n_lanes)
+    held = np.zeros((m, n_lanes))
+    hxy = np.zeros((p, n_lanes))
+    hyy = np.zeros(n_lanes)
+    lower = np.zeros((p, p, n_lanes))
+    inverse = np.zeros((p, p, n_lanes))
+    scale = np.zeros((p, n_lanes))
+    recip = np.ones((p, n_lanes))
+    good = np.zeros((p, n_lanes), dtype=np.bool_)
+    cond = np.zeros((p, n_lanes))
+    z = np.zeros((p, n_lanes))
+    beta = np.zeros((p, n_lanes))
+    err = np.zeros(n_lanes)
+    loose = np.zeros(n_lanes, dtype=np.bool_)
+    work = np.zeros((3, n_lanes))
+    total_yy = np.zeros(group)
+    suspect = np.zeros(group, dtype=np.bool_)
     power = np.zeros(m)
-    train = np.zeros(m)
-    txy = np.zeros(p)
-    lower = np.zeros((p, p))
-    scale = np.zeros(p)
-    good = np.zeros(p, dtype=np.bool_)
-    cond = np.zeros(p)
-    z = np.zeros(p)
-    beta = np.zeros(p)
-    inverse = np.zeros((p, p))
-    recip = np.zeros(p)
     fold_of_block = np.full(n_blocks, -1)
     for f in range(n_folds):
         fold_of_block[held_out[f]] = f
+    member = np.zeros((n_fits, n_blocks), dtype=np.bool_)
+    held_block = np.zeros(n_fits, dtype=np.int64)  # the full fit's held-out error is never used
+    for f in range(n_fits):
+        for b in range(n_blocks):
+            member[f, b] = trains_on(f, b, held_out, cumulative)
+        if f < n_folds:
+            held_block[f] = held_out[f]
     acc = np.zeros((n_folds + 1, n_deg))
-    for s in range(n_series):
-        blk[:] = 0.0
-        bxy[:] = 0.0
-        byy[:] = 0.0
-        for b in range(n_blocks):
-            rows[b] = bounds[s, b + 1] - bounds[s, b]
-            _block_moments(x, y, w, weighted, bounds[s, b], bounds[s, b + 1], m, p, blk[b], bxy[b], byy, b)
-        total_rows = 0.0
-        for b in range(n_blocks):
-            total_rows += rows[b]
-        for f in range(n_folds + 1):
-            train[:] = 0.0
-            txy[:] = 0.0
-            train_rows = 0.0
+    for s0 in range(0, n_series, group):
+        count = min(group, n_series - s0)
+        for q in range(count):
+            s = s0 + q
+            _block_moments(x, y, w, weighted, bounds[s], m, p, blk[q], bxy[q], byy[q])
+            total_yy[q] = 0.0
             for b in range(n_blocks):
-                if not trains_on(f, b, held_out, cumulative):
-                    continue
-                train_rows += rows[b]
-                for k in range(m):
-                    train[k] += blk[b, k]
-                for k in range(p):
-                    txy[k] += bxy[b, k]
-            _factor(train, p, lower, scale, good, cond, inverse, recip)
-            for i in range(p):
-                value = txy[i] * scale[i]
-                for k in range(i):
-                    value -= lower[i, k] * z[k]
-                z[i] = value * recip[i]
-            for j in range(n_deg):
-                size = degrees[j] + 1
-                for i in range(size - 1, -1, -1):
-                    value = z[i]
-                    for k in range(i + 1, size):
-                        value -= lower[k, i] * beta[k]
-                    beta[i] = value * recip[i]
-                for k in range(p):
-                    coef[s, f, j, k] = beta[k] * scale[k] if k < size else 0.0
-                fine = good[size - 1] and cond[size - 1] <= COND_LIMIT and train_rows > size - 1
-                if f == n_folds:
-                    fine = fine and total_rows > size
-                ok[s, f, j] = fine
-        for i in range(p):
-            scale_full[s, i] = scale[i]
+                total_yy[q] += byy[q, b]
+            first = q * n_fits
+            for k in range(m):
+                for f in range(n_fits):
+                    total = 0.0
+                    for b in range(n_blocks):
+                        if member[f, b]:
+                            total += blk[q, b, k]
+                    train[k, first + f] = total
+                    held[k, first + f] = blk[q, held_block[f], k]
             for k in range(p):
-                lower_full[s, i, k] = lower[i, k]
-        # Errors from the moments: yᵀy − 2bᵀXᵀy + bᵀXᵀXb on each fold's held-out block.  That
-        # cancels when a fit is nearly exact; such a series has its errors summed from its rows.
-        suspect = False
-        total_yy = 0.0
-        for b in range(n_blocks):
-            total_yy += byy[b]
-        for f in range(n_folds + 1):
-            for j in range(n_deg):
-                size = degrees[j] + 1
-                if f < n_folds and not ok[s, f, j]:
-                    sse_test[s, f, j] = np.nan  # never used: the candidate is unavailable
-                elif f < n_folds:
-                    hb = held_out[f]
-                    yy = byy[hb]
-                    cross = 0.0
-                    quad = 0.0
-                    for k in range(size):
-                        bk = coef[s, f, j, k]
-                        cross += bk * bxy[hb, k]
-                        inner = 0.5 * bk * blk[hb, 2 * k]
-                        for l in range(k + 1, size):
-                            inner += coef[s, f, j, l] * blk[hb, k + l]
-                        quad += 2.0 * bk * inner
-                    sse = yy - 2.0 * cross + quad
-                    if sse < CANCEL_RATIO * (yy + 2.0 * abs(cross) + quad):
-                        suspect = True
-                    sse_test[s, f, j] = max(sse, 0.0)
-                else:
-                    fitted = 0.0
-                    for k in range(size):
-                        fitted += z[k] * z[k]  # z of the full fit, the last one solved
-                    sse = total_yy - fitted
-                    if ok[s, f, j] and sse < CANCEL_RATIO * total_yy:
-                        suspect = True
-                    sse_full[s, j] = max(sse, 0.0)
-        if suspect:
-            _row_errors(x, y, w, weighted, bounds[s], fold_of_block, degrees, coef[s], power, acc)
-            for j in range(n_deg):
-                sse_full[s, j] = acc[n_folds, j]
-                for f in range(n_folds):
-                    sse_test[s, f, j] = acc[f, j]
-        total_w = 0.0
-        held_yy = 0.0
-        for b in range(n_blocks):
-            total_w += blk[b, 0]
-        for f in range(n_folds):
-            w_test[s, f] = blk[held_out[f], 0]
-            held_yy += byy[held_out[f]]
-        w_full[s] = total_w
-        tss[s] = total_yy
-        tss_test[s] = held_yy
+                for f in range(n_fits):
+                    total = 0.0
+                    for b in range(n_blocks):
+                        if member[f, b]:
+                            total += bxy[q, b, k]
+                    txy[k, first + f] = total
+                    hxy[k, first + f] = bxy[q, held_block[f], k]
+            for f in range(n_fits):
+                total = 0.0
+                for b in range(n_blocks):
+                    if member[f, b]:
+                        total += bounds[s, b + 1] - bounds[s, b]
+                train_rows[first + f] = total
+                hyy[first + f] = byy[q, held_block[f]]
+        lanes.factor(train, p, lower, scale, good, cond, recip, inverse, work)
+        lanes.forward(txy, p, lower, scale, recip, z)
+        suspect[:] = False
+        for j in range(n_deg):
+            size = degrees[j] + 1
+            lanes.back(z, size, lower, scale, recip, beta)
+            lanes.squared_error(beta, size, held, hxy, hyy, err, loose, work)
+            for q in range(count):
+                s = s0 + q
+                for f in range(n_fits):
+                    lane = q * n_fits + f
+                    for k in range(p):
+                        coef[s, f, j, k] = beta[k, lane]
+                    fine = good[size - 1, lane] and cond[size - 1, lane] <= COND_LIMIT and train_rows[lane] > size - 1
+                    if f < n_folds:
+                        ok[s, f, j] = fine
+                        # Errors from the moments cancel when a fit is nearly exact: such a
+                        # series has its errors summed from its rows below.
+                        sse_test[s, f, j] = err[lane] if fine else np.nan  # NaN: never used, unavailable
+                        suspect[q] = suspect[q] or (fine and loose[lane])
+                    else:
+                        fine = fine and train_rows[lane] > size
+                        ok[s, f, j] = fine
+                        fitted = 0.0
+                        for k in range(size):
+                            fitted += z[k, lane] * z[k, lane]
+                        sse = total_yy[q] - fitted
+                        suspect[q] = suspect[q] or (fine and sse < lanes.CANCEL_RATIO * total_yy[q])
+                        sse_full[s, j] = max(sse, 0.0)
+        for q in range(count):
+            s = s0 + q
+            full = q * n_fits + n_folds
+            for i in range(p):
+                scale_full[s, i] = scale[i, full]
+                for k in range(p):
+                    lower_full[s, i, k] = lower[i, k, full]
+            if suspect[q]:
+                _row_errors(x, y, w, weighted, bounds[s], fold_of_block, degrees, coef[s], power, acc)
+                for j in range(n_deg):
+                    sse_full[s, j] = acc[n_folds, j]
+                    for f in range(n_folds):
+                        sse_test[s, f, j] = acc[f, j]
+            total_w = 0.0
+            held_yy = 0.0
+            for b in range(n_blocks):
+                total_w += blk[q, b, 0]
+            for f in range(n_folds):
+                w_test[s, f] = blk[q, held_out[f], 0]
+                held_yy += byy[q, held_out[f]]
+            w_full[s] = total_w
+            tss[s] = total_yy[q]
+            tss_test[s] = held_yy
 
 
 @compiled

@@ -89,42 +89,48 @@ TAYLOR_REACH = 0.75
 
 
 @compiled
-def _growth_moments(u, g, w, weighted, start, stop, out):
-    """``out[k]`` = Σ wᵢ·gᵢ·uᵢᵏ over rows start..stop, k ≤ 16, in scalar accumulators (registers)."""
-    m0 = m1 = m2 = m3 = m4 = m5 = m6 = m7 = m8 = m9 = m10 = m11 = m12 = m13 = m14 = m15 = m16 = 0.0
-    for i in range(start, stop):
-        t0 = (w[i] if weighted else 1.0) * g[i]
-        u1 = u[i]
-        u2 = u1 * u1
-        u4 = u2 * u2
-        u8 = u4 * u4
-        t1 = t0 * u1
-        t2 = t0 * u2
-        t3 = t1 * u2
-        t4 = t0 * u4
-        t5 = t1 * u4
-        t6 = t2 * u4
-        t7 = t3 * u4
-        m0 += t0
-        m1 += t1
-        m2 += t2
-        m3 += t3
-        m4 += t4
-        m5 += t5
-        m6 += t6
-        m7 += t7
-        m8 += t0 * u8
-        m9 += t1 * u8
-        m10 += t2 * u8
-        m11 += t3 * u8
-        m12 += t4 * u8
-        m13 += t5 * u8
-        m14 += t6 * u8
-        m15 += t7 * u8
-        m16 += t4 * (u4 * u8)
-    sums = (m0, m1, m2, m3, m4, m5, m6, m7, m8, m9, m10, m11, m12, m13, m14, m15, m16)
-    for k in range(TAYLOR_TERMS + 1):
-        out[k] = sums[k]
+def _growth_moments(u, g, w, weighted, bounds, out, block_w):
+    """Per block b of one series (rows ``bounds[b]:bounds[b + 1]``): ``out[b, k]`` = Σ wᵢ·gᵢ·uᵢᵏ,
+    k ≤ 16, in scalar accumulators (registers), and ``block_w[b]`` = Σ wᵢ."""
+    for b in range(len(bounds) - 1):
+        m0 = m1 = m2 = m3 = m4 = m5 = m6 = m7 = m8 = m9 = m10 = m11 = m12 = m13 = m14 = m15 = m16 = 0.0
+        total_w = 0.0
+        for i in range(bounds[b], bounds[b + 1]):
+            wi = w[i] if weighted else 1.0
+            total_w += wi
+            t0 = wi * g[i]
+            u1 = u[i]
+            u2 = u1 * u1
+            u4 = u2 * u2
+            u8 = u4 * u4
+            t1 = t0 * u1
+            t2 = t0 * u2
+            t3 = t1 * u2
+            t4 = t0 * u4
+            t5 = t1 * u4
+            t6 = t2 * u4
+            t7 = t3 * u4
+            m0 += t0
+            m1 += t1
+            m2 += t2
+            m3 += t3
+            m4 += t4
+            m5 += t5
+            m6 += t6
+            m7 += t7
+            m8 += t0 * u8
+            m9 += t1 * u8
+            m10 += t2 * u8
+            m11 += t3 * u8
+            m12 += t4 * u8
+            m13 += t5 * u8
+            m14 += t6 * u8
+            m15 += t7 * u8
+            m16 += t4 * (u4 * u8)
+        sums = (m0, m1, m2, m3, m4, m5, m6, m7, m8, m9, m10, m11, m12, m13, m14, m15, m16)
+        for k in range(TAYLOR_TERMS + 1):
+            out[b, k] = sums[k]
+        block_w[b] = total_w
 
 
 @compiled
@@ -159,12 +165,7 @@ def loglog_volume_errors(u, z, volume, w, bounds, held_out, cumulative, a, e, gr
     block_w = np.zeros(n_blocks)
     train = np.zeros(TAYLOR_TERMS + 1)
     for s in range(bounds.shape[0]):
-        for b in range(n_blocks):
-            _growth_moments(u, growth[0], w, weighted, bounds[s, b], bounds[s, b + 1], moments[b])
-            total_w = 0.0
-            for i in range(bounds[s, b], bounds[s, b + 1]):
-                total_w += w[i] if weighted else 1.0
-            block_w[b] = total_w
+        _growth_moments(u, growth[0], w, weighted, bounds[s], moments, block_w)
         spread = 0.0
         weight = 0.0
         for b in range(n_blocks):
