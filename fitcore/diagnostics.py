@@ -12,9 +12,8 @@ from functools import cached_property
 import numpy as np
 
 from . import reasons as R
-from .basis import mapped, plain_loglog, width
-from .polyfit import horner
-from .prediction import derivative
+from .basis import mapped
+from .compiled import compiled
 from .results import Results
 from .thresholds import Thresholds
 
@@ -35,7 +34,6 @@ FLAGS = (
 CODES = tuple(code for code, _, _ in FLAGS)
 SEVERITY = {code: severity for code, severity, _ in FLAGS}
 GRID = 41  # points over the observed price range for shape checks (the lowest point is refined)
-BLOCK = 16384  # series per block of the grid evaluation (bounds its memory)
 
 
 @dataclass(frozen=True, eq=False)
@@ -139,59 +137,116 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
 def _price_spread(results: Results):
     """(S,) distinct prices, capped at 3 (1, 2 or "3 or more"), and the price coefficient of variation."""
     data = results.data
-    starts = data.offsets[:-1]
-    if data.n_rows == 0:
-        return np.zeros(0), np.zeros(0)
-    lo, hi = np.repeat(results.price_lo, data.counts), np.repeat(results.price_hi, data.counts)
-    inner = np.add.reduceat(((data.price > lo) & (data.price < hi)).astype(np.int64), starts)
+    n_s = results.n_series
+    inner, mean, var = np.zeros(n_s, np.int64), np.zeros(n_s), np.zeros(n_s)
+    price_moments(data.price, data.offsets.astype(np.int64), results.price_lo, results.price_hi, inner, mean, var)
     distinct = np.where(results.price_hi > results.price_lo, np.where(inner > 0, 3, 2), 1)
-    mean = np.add.reduceat(data.price, starts) / data.counts
-    var = np.add.reduceat((data.price - np.repeat(mean, data.counts)) ** 2, starts) / data.counts
     with np.errstate(divide="ignore", invalid="ignore"):
         cv = np.where(mean > 0, np.sqrt(var) / mean, 0.0)
     return distinct, cv
 
 
+@compiled
+def price_moments(price, offsets, lo, hi, inner, mean, var):
+    """Per series: how many prices lie strictly inside (lo, hi), their mean and (population) variance."""
+    for s in range(len(offsets) - 1):
+        start, stop = offsets[s], offsets[s + 1]
+        if stop == start:
+            continue
+        count = 0
+        total = 0.0
+        for i in range(start, stop):
+            count += lo[s] < price[i] < hi[s]
+            total += price[i]
+        average = total / (stop - start)
+        spread = 0.0
+        for i in range(start, stop):
+            spread += (price[i] - average) ** 2
+        inner[s] = count
+        mean[s] = average
+        var[s] = spread / (stop - start)
+
+
 def _shape(results: Results) -> dict:
     """Where the chosen curve rises and how low it goes, on a grid over the observed prices."""
-    n_s = results.n_series
-    out = {name: np.full(n_s, np.nan) for name in
-           ("rising_share", "rising_from", "rising_to", "rising_slope", "lowest_volume", "lowest_at")}
-    t = np.linspace(-1.0, 1.0, GRID)
-    step = 2.0 / (GRID - 1)
+    names = ("rising_share", "rising_from", "rising_to", "rising_slope", "lowest_volume", "lowest_at")
+    out = {name: np.full(results.n_series, np.nan) for name in names}
     is_poly = np.array([c.family == "poly" for c in results.candidates])
-    for lo in range(0, n_s, BLOCK):
-        idx = np.arange(lo, min(lo + BLOCK, n_s))
-        chosen = results.chosen[idx]
-        ok = chosen >= 0
-        idx, chosen = idx[ok], chosen[ok]
-        poly = is_poly[chosen]
-        price = results.mid[idx] + results.half[idx] * t[:, None]  # (G, n)
-        coef = results.coef[idx, chosen].T  # (P, n)
-        volume = np.empty_like(price)
-        slope = np.empty_like(price)
-        volume[:, poly] = horner(coef[:, None, poly], t[:, None])
-        slope[:, poly] = horner(derivative(coef[:, poly])[:, None, :], t[:, None]) / width(results.half[idx[poly]])
-        ll = ~poly
-        if ll.any():
-            at = idx[ll]
-            a, e = plain_loglog(coef[0, ll], coef[1, ll], results.log_mid[at], results.log_half[at])
-            with np.errstate(divide="ignore", invalid="ignore"):
-                volume[:, ll] = np.exp(a + e * np.log(price[:, ll])) * results.smear[at]
-            slope[:, ll] = e * volume[:, ll] / price[:, ll]
-        flat = results.half[idx] <= 0
-        rising = (slope > 0) & ~flat
-        # Share of the range: count grid intervals whose both ends rise.
-        share = (rising[1:] & rising[:-1]).sum(axis=0) * step / 2
-        first = np.argmax(rising, axis=0)
-        last = GRID - 1 - np.argmax(rising[::-1], axis=0)
-        out["rising_share"][idx] = share
-        out["rising_from"][idx] = price[first, np.arange(len(idx))]
-        out["rising_to"][idx] = price[last, np.arange(len(idx))]
-        out["rising_slope"][idx] = np.max(np.where(rising, slope, -np.inf), axis=0)
-        low = np.argmin(volume, axis=0)
-        out["lowest_volume"][idx], out["lowest_at"][idx] = _refined_minimum(volume, price, low)
+    shape_scan(results.coef, results.chosen.astype(np.int64), is_poly, results.mid, results.half, results.log_mid,
+               results.log_half, results.smear, np.linspace(-1.0, 1.0, GRID), *(out[name] for name in names))
     return out
+
+
+@compiled
+def shape_scan(coef, chosen, is_poly, mid, half, log_mid, log_half, smear, t,
+               share, rising_from, rising_to, rising_slope, lowest_volume, lowest_at):
+    """Per series with a chosen curve, on the grid ``t`` over its price window: the share of the
+    range where volume rises with price (grid intervals rising at both ends), the first and last
+    rising price, the steepest rise, and the lowest volume and its price (refined by a parabola
+    through the grid minimum and its neighbours)."""
+    n_grid = len(t)
+    p = coef.shape[2]
+    price = np.empty(n_grid)
+    volume = np.empty(n_grid)
+    slope = np.empty(n_grid)
+    for s in range(len(chosen)):
+        c = chosen[s]
+        if c < 0:
+            continue
+        for g in range(n_grid):
+            price[g] = mid[s] + half[s] * t[g]
+        if is_poly[c]:
+            across = half[s] if half[s] > 0 else 1.0
+            for g in range(n_grid):
+                value = 0.0
+                rate = 0.0
+                for k in range(p - 1, -1, -1):
+                    value = value * t[g] + coef[s, c, k]
+                    rate = rate * t[g] + (coef[s, c, k + 1] * (k + 1) if k + 1 < p else 0.0)
+                volume[g] = value
+                slope[g] = rate / across
+        else:
+            e = coef[s, c, 1] / (log_half[s] if log_half[s] > 0 else 1.0)
+            a = coef[s, c, 0] - e * log_mid[s]
+            for g in range(n_grid):
+                volume[g] = np.exp(a + e * np.log(price[g])) * smear[s]
+                slope[g] = e * volume[g] / price[g]
+        flat = half[s] <= 0
+        count = 0
+        first = -1
+        last = -1
+        steepest = -np.inf
+        before = False
+        for g in range(n_grid):
+            rising = slope[g] > 0 and not flat
+            if rising:
+                if first < 0:
+                    first = g
+                last = g
+                steepest = max(steepest, slope[g])
+                count += before
+            before = rising
+        share[s] = count * (2.0 / (n_grid - 1)) / 2
+        rising_from[s] = price[max(first, 0)]
+        rising_to[s] = price[last if last >= 0 else n_grid - 1]
+        rising_slope[s] = steepest
+        low = 0  # as numpy's argmin: the first NaN, else the first smallest
+        for g in range(n_grid):
+            if np.isnan(volume[g]):
+                low = g
+                break
+            if volume[g] < volume[low]:
+                low = g
+        centre_at = min(max(low, 1), n_grid - 2)
+        left, centre, right = volume[centre_at - 1], volume[centre_at], volume[centre_at + 1]
+        curvature = left - 2 * centre + right
+        if low == centre_at and curvature > 0:
+            shift = (left - right) / (2 * curvature)
+            lowest_volume[s] = centre - (left - right) * shift / 4
+            lowest_at[s] = price[centre_at] + shift * (price[1] - price[0])
+        else:
+            lowest_volume[s] = volume[low]
+            lowest_at[s] = price[low]
 
 
 def _near_tie(results: Results):
@@ -238,16 +293,3 @@ def _fold_spread(results: Results):
     return worst, np.nan_to_num(ratio)
 
 
-def _refined_minimum(volume: np.ndarray, price: np.ndarray, low: np.ndarray):
-    """Lowest value and its price, refined by a parabola through the grid minimum and its neighbours."""
-    cols = np.arange(volume.shape[1])
-    mid = np.clip(low, 1, volume.shape[0] - 2)
-    left, centre, right = volume[mid - 1, cols], volume[mid, cols], volume[mid + 1, cols]
-    curvature = left - 2 * centre + right
-    interior = (low == mid) & (curvature > 0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        shift = np.where(interior, (left - right) / (2 * curvature), 0.0)
-    value = np.where(interior, centre - (left - right) * shift / 4, volume[low, cols])
-    step = price[1] - price[0]
-    where = np.where(interior, price[mid, cols] + shift * step, price[low, cols])
-    return value, where

@@ -129,7 +129,8 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
                coef, ok, sse_test, w_test, sse_full, w_full, tss, tss_test, lower_full, scale_full):
     """Every degree on every fold of every series; outputs as ``polyfit.FamilyFit`` (series first).
 
-    ``w``: weights, or an empty array for unit weights.  Series go in groups;
+    ``w``: weights, or an empty array for unit weights.  ``coef`` holds every
+    fit (S, F + 1, D, P) or the fit on all rows only (S, 1, D, P).  Series go in groups;
     each fit of a group (a series and a fold, or all its rows) is one lane of
     ``lanes``: its training moments are summed from the series' block
     moments, then every lane is factored and solved at once.
@@ -177,6 +178,8 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
         if f < n_folds:
             held_block[f] = held_out[f]
     acc = np.zeros((n_folds + 1, n_deg))
+    group_coef = np.zeros((group, n_fits, n_deg, p))
+    every_fit = coef.shape[1] == n_fits
     for s0 in range(0, n_series, group):
         count = min(group, n_series - s0)
         for q in range(count):
@@ -221,7 +224,7 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
                 for f in range(n_fits):
                     lane = q * n_fits + f
                     for k in range(p):
-                        coef[s, f, j, k] = beta[k, lane]
+                        group_coef[q, f, j, k] = beta[k, lane]
                     fine = good[size - 1, lane] and cond[size - 1, lane] <= COND_LIMIT and train_rows[lane] > size - 1
                     if f < n_folds:
                         ok[s, f, j] = fine
@@ -245,8 +248,13 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
                 scale_full[s, i] = scale[i, full]
                 for k in range(p):
                     lower_full[s, i, k] = lower[i, k, full]
+            for f in range(n_fits):
+                if every_fit or f == n_folds:
+                    for j in range(n_deg):
+                        for k in range(p):
+                            coef[s, f if every_fit else 0, j, k] = group_coef[q, f, j, k]
             if suspect[q]:
-                _row_errors(x, y, w, weighted, bounds[s], fold_of_block, degrees, coef[s], power, acc)
+                _row_errors(x, y, w, weighted, bounds[s], fold_of_block, degrees, group_coef[q], power, acc)
                 for j in range(n_deg):
                     sse_full[s, j] = acc[n_folds, j]
                     for f in range(n_folds):
@@ -302,30 +310,46 @@ def influence_rows(x, target, w, offsets, order, coef, size, lower, scale, sigma
     """
     weighted = len(w) > 0
     p = lower.shape[1]
-    v = np.zeros(p)
+    longest = 0
+    for s in range(len(size)):
+        longest = max(longest, offsets[s + 1] - offsets[s])
+    # A series' rows are the lanes: each step of the triangular solve runs over all its rows at once.
+    v = np.zeros((p, longest))
+    power = np.zeros(longest)
+    fitted = np.zeros(longest)
+    h = np.zeros(longest)
     for s in range(len(size)):
         k_size = size[s]
         if k_size <= 0:
             continue
+        start = offsets[s]
+        n = offsets[s + 1] - start
+        for i in range(n):
+            power[i] = 1.0
+            fitted[i] = 0.0
+            h[i] = 0.0
+        for r in range(k_size):
+            b_r, d_r, l_rr = coef[s, r], scale[s, r], lower[s, r, r]
+            vr = v[r]
+            for i in range(n):
+                fitted[i] += b_r * power[i]
+                vr[i] = power[i] * d_r
+            for c in range(r):
+                l_rc, vc = lower[s, r, c], v[c]
+                for i in range(n):
+                    vr[i] -= l_rc * vc[i]
+            for i in range(n):
+                vr[i] = vr[i] / l_rr
+                h[i] += vr[i] * vr[i]
+                power[i] *= x[start + i]
         best = -1.0
         where = -1
-        for i in range(offsets[s], offsets[s + 1]):
-            wi = w[i] if weighted else 1.0
-            power = 1.0
-            fitted = 0.0
-            h = 0.0
-            for r in range(k_size):
-                fitted += coef[s, r] * power
-                value = power * scale[s, r]
-                for c in range(r):
-                    value -= lower[s, r, c] * v[c]
-                v[r] = value / lower[s, r, r]
-                h += v[r] * v[r]
-                power *= x[i]
-            h *= wi
-            e = target[i] - fitted
-            d = wi * e * e * h / (k_size * sigma2[s] * (1.0 - h) ** 2)
-            at = order[i]
+        for i in range(n):
+            wi = w[start + i] if weighted else 1.0
+            hi = h[i] * wi
+            e = target[start + i] - fitted[i]
+            d = wi * e * e * hi / (k_size * sigma2[s] * (1.0 - hi) ** 2)
+            at = order[start + i]
             if not np.isnan(d) and (d > best or (d == best and at < where)):
                 best = d
                 where = at

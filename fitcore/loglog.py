@@ -45,7 +45,7 @@ def fit_loglog(u: np.ndarray, z: np.ndarray, volume: np.ndarray, w: np.ndarray |
     With leave-one-out, the held-out ln volume is exact (hat matrix) and the
     smearing factor is the full fit's without the held-out row's own term.
     """
-    log = fit_family(u, z, w, lay, (1,))
+    log = fit_family(u, z, w, lay, (1,), fold_coefficients=True)
     counts = np.diff(lay.bounds[:, [0, -1]], axis=1)[:, 0]
     a, e = log.coef[:, :, 0, 0], log.coef[:, :, 0, 1]  # (S, F + 1)
     if loo:

@@ -27,6 +27,7 @@ class FamilyFit:
 
     - ``coef``: (S, F + 1, D, P) coefficients of powers of the mapped
       variable (zero past each degree), response centred; fold F = all rows.
+      Without ``fold_coefficients``: (S, 1, D, P), the fit on all rows only.
     - ``ok``: (S, F + 1, D) the fit is determined and steady (full rank,
       condition under the limit; for the full fit, more rows than coefficients).
     - ``sse_test``: (S, F, D) weighted squared error on each fold's held-out rows.
@@ -51,16 +52,18 @@ class FamilyFit:
 
 
 def fit_family(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, lay: FoldLayout,
-               degrees: tuple[int, ...]) -> FamilyFit:
+               degrees: tuple[int, ...], *, fold_coefficients: bool = False) -> FamilyFit:
     """Fit every degree on every fold of every series in ``lay``.
 
     ``x``, ``y``, ``w``: (N,) rows in working order (``lay.bounds`` positions,
     starting at 0); ``x`` mapped into [-1, 1], ``y`` centred per series.
+    ``fold_coefficients``: keep each fold's coefficients too (the engine
+    needs only the fit on all rows; writing every fold's is ~170 bytes a row).
     """
     p = max(degrees) + 1
     n_series, n_folds, n_deg = len(lay.bounds), lay.n_folds, len(degrees)
     fit = FamilyFit(
-        degrees, coef=np.empty((n_series, n_folds + 1, n_deg, p)), ok=np.empty((n_series, n_folds + 1, n_deg), bool),
+        degrees, coef=np.empty((n_series, n_folds + 1 if fold_coefficients else 1, n_deg, p)), ok=np.empty((n_series, n_folds + 1, n_deg), bool),
         sse_test=np.empty((n_series, n_folds, n_deg)), w_test=np.empty((n_series, n_folds)),
         sse_full=np.empty((n_series, n_deg)), w_full=np.empty(n_series), tss=np.empty(n_series),
         tss_test=np.empty(n_series), lower=np.empty((n_series, p, p)), scale=np.empty((n_series, p)))
