@@ -113,12 +113,20 @@ def write_results(results: Results, path: str | Path, diagnosis=None) -> Path:
         payload = json.dumps(document, ensure_ascii=False, allow_nan=False, indent=None, separators=(",", ":"))
         _atomic_write(path, lambda handle: handle.write(payload.encode("utf-8")))
     elif suffix in (".parquet", ".pq"):
-        import pyarrow.parquet as pq
         table = results_table(results, diagnosis)
-        _atomic_write(path, lambda handle: pq.write_table(table, handle, compression="snappy"))
+        _atomic_write(path, lambda handle: write_parquet(table, handle))
     else:
         raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
     return path
+
+
+def write_parquet(table, where) -> None:
+    """Write a results table (``results_table``) to a path or an open binary file."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+    # Dictionary pages only for text: on numbers they cost half the write time and save nothing.
+    text = [field.name for field in table.schema if pa.types.is_dictionary(field.type) or pa.types.is_string(field.type)]
+    pq.write_table(table, where, compression="snappy", use_dictionary=text)
 
 
 def results_table(results: Results, diagnosis=None):
@@ -149,8 +157,7 @@ def results_table(results: Results, diagnosis=None):
         degree=pa.array(tile([c.degree if c.degree is not None else -1 for c in results.candidates]),
                         mask=tile([c.degree is None for c in results.candidates])),
         available=ok,
-        reason=[results.reason_text(s, c) if not ok[s * n_c + c] else None for s in range(n_s) for c in range(n_c)]
-        if (~ok).any() else pa.nulls(n_s * n_c, pa.string()),
+        reason=_reason_texts(results, ok),
         cv_mse=results.cv_mse.ravel(), cv_se=results.cv_se.ravel(), fold_mse=fold_lists,
         r2=results.r2.ravel(), q2=results.q2.ravel(), coef=coef_lists,
         window_coef=pa.FixedSizeListArray.from_arrays(  # for pricefold itself: triage opens results without a refit
@@ -170,6 +177,16 @@ def results_table(results: Results, diagnosis=None):
                       for name, value in columns.items()})
     meta = json.dumps(header(results, diagnosis) | {"key_columns": list(data.key_names)})
     return table.replace_schema_metadata({b"pricefold": meta.encode()})
+
+
+def _reason_texts(results: Results, ok: np.ndarray):
+    """Why each unavailable (series, candidate) cell is unavailable; null where available."""
+    import pyarrow as pa
+    n_c = results.available.shape[1]
+    texts = np.full(len(ok), None, dtype=object)
+    for cell in np.flatnonzero(~ok).tolist():
+        texts[cell] = results.reason_text(*divmod(cell, n_c))
+    return pa.array(texts, pa.string())
 
 
 def _cell_lists(values, lengths):

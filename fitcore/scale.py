@@ -131,13 +131,11 @@ def gather_part(tables: list, columns: Columns):
 
 def fit_part(p: int, table, job: PartJob) -> dict:
     """Fit, diagnose and write partition ``p`` (``part-p.parquet``); a small summary for the client."""
-    import pyarrow.parquet as pq
-
     from .dataset import from_columns
     from .diagnostics import diagnose
     from .engine import fit_batch
     from .plan import plan_prices
-    from .results_io import results_table
+    from .results_io import results_table, write_parquet
     if table.num_rows == 0:
         return {"series": 0, "rows": 0, "none": 0, "clean": 0, "chosen": {}, "flags": {}, "plan_matched": 0}
 
@@ -150,7 +148,7 @@ def fit_part(p: int, table, job: PartJob) -> dict:
     plan = plan_prices(data, job.plan_file, job.sep, partial=True) if job.plan_file else job.plan_price
     results = fit_batch(data, job.settings, plan_price=plan)
     diagnosis = diagnose(results, job.thresholds)
-    pq.write_table(results_table(results, diagnosis), Path(job.out) / f"part-{p:05d}.parquet", compression="snappy")
+    write_parquet(results_table(results, diagnosis), Path(job.out) / f"part-{p:05d}.parquet")
     chosen = np.bincount(results.chosen[results.chosen >= 0], minlength=len(results.names))
     return {"series": results.n_series, "rows": data.n_rows, "none": int((results.chosen < 0).sum()),
             "clean": int((~diagnosis.raised.any(axis=1)).sum()), "flags": diagnosis.counts(),
