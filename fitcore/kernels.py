@@ -125,6 +125,50 @@ def trains_on(f, b, held_out, cumulative):
 
 
 @compiled
+def _lane_sums(values, member, held_block, first, train, held):
+    """One series' lanes ``first``, ``first + 1``, …, one per fit f: ``train[k, lane]`` = Σ values[b, k]
+    over the blocks b fit f trains on (``member[f, b]``), ``held[k, lane]`` = values[held_block[f], k]."""
+    for k in range(values.shape[1]):
+        for f in range(member.shape[0]):
+            total = 0.0
+            for b in range(member.shape[1]):
+                if member[f, b]:
+                    total += values[b, k]
+            train[k, first + f] = total
+            held[k, first + f] = values[held_block[f], k]
+
+
+@compiled
+def _degree_results(j, size, s0, count, beta, err, loose, good, cond, train_rows, z, total_yy,
+                    group_coef, ok, sse_test, sse_full, suspect):
+    """Degree j (``size`` coefficients) of a group's series s0, s0 + 1, …: coefficients into
+    ``group_coef``, whether each fit is usable, held-out and in-sample errors, and which series'
+    errors lost their digits to cancellation (``suspect``: to be summed from their rows)."""
+    n_fits = group_coef.shape[1]
+    n_folds = n_fits - 1
+    for q in range(count):
+        s = s0 + q
+        for f in range(n_fits):
+            lane = q * n_fits + f
+            for k in range(beta.shape[0]):
+                group_coef[q, f, j, k] = beta[k, lane]
+            fine = good[size - 1, lane] and cond[size - 1, lane] <= COND_LIMIT and train_rows[lane] > size - 1
+            if f < n_folds:
+                ok[s, f, j] = fine
+                sse_test[s, f, j] = err[lane] if fine else np.nan  # NaN: never used, unavailable
+                suspect[q] = suspect[q] or (fine and loose[lane])
+            else:
+                fine = fine and train_rows[lane] > size
+                ok[s, f, j] = fine
+                fitted = 0.0
+                for k in range(size):
+                    fitted += z[k, lane] * z[k, lane]
+                sse = total_yy[q] - fitted
+                suspect[q] = suspect[q] or (fine and sse < lanes.CANCEL_RATIO * total_yy[q])
+                sse_full[s, j] = max(sse, 0.0)
+
+
+@compiled
 def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
                coef, ok, sse_test, w_test, sse_full, w_full, tss, tss_test, lower_full, scale_full):
     """Every degree on every fold of every series; outputs as ``polyfit.FamilyFit`` (series first).
@@ -189,22 +233,8 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
             for b in range(n_blocks):
                 total_yy[q] += byy[q, b]
             first = q * n_fits
-            for k in range(m):
-                for f in range(n_fits):
-                    total = 0.0
-                    for b in range(n_blocks):
-                        if member[f, b]:
-                            total += blk[q, b, k]
-                    train[k, first + f] = total
-                    held[k, first + f] = blk[q, held_block[f], k]
-            for k in range(p):
-                for f in range(n_fits):
-                    total = 0.0
-                    for b in range(n_blocks):
-                        if member[f, b]:
-                            total += bxy[q, b, k]
-                    txy[k, first + f] = total
-                    hxy[k, first + f] = bxy[q, held_block[f], k]
+            _lane_sums(blk[q], member, held_block, first, train, held)
+            _lane_sums(bxy[q], member, held_block, first, txy, hxy)
             for f in range(n_fits):
                 total = 0.0
                 for b in range(n_blocks):
@@ -219,28 +249,8 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
             size = degrees[j] + 1
             lanes.back(z, size, lower, scale, recip, beta)
             lanes.squared_error(beta, size, held, hxy, hyy, err, loose, work)
-            for q in range(count):
-                s = s0 + q
-                for f in range(n_fits):
-                    lane = q * n_fits + f
-                    for k in range(p):
-                        group_coef[q, f, j, k] = beta[k, lane]
-                    fine = good[size - 1, lane] and cond[size - 1, lane] <= COND_LIMIT and train_rows[lane] > size - 1
-                    if f < n_folds:
-                        ok[s, f, j] = fine
-                        # Errors from the moments cancel when a fit is nearly exact: such a
-                        # series has its errors summed from its rows below.
-                        sse_test[s, f, j] = err[lane] if fine else np.nan  # NaN: never used, unavailable
-                        suspect[q] = suspect[q] or (fine and loose[lane])
-                    else:
-                        fine = fine and train_rows[lane] > size
-                        ok[s, f, j] = fine
-                        fitted = 0.0
-                        for k in range(size):
-                            fitted += z[k, lane] * z[k, lane]
-                        sse = total_yy[q] - fitted
-                        suspect[q] = suspect[q] or (fine and sse < lanes.CANCEL_RATIO * total_yy[q])
-                        sse_full[s, j] = max(sse, 0.0)
+            _degree_results(j, size, s0, count, beta, err, loose, good, cond, train_rows, z, total_yy,
+                            group_coef, ok, sse_test, sse_full, suspect)
         for q in range(count):
             s = s0 + q
             full = q * n_fits + n_folds
