@@ -127,8 +127,8 @@ def _series_codes(columns: list[np.ndarray]) -> np.ndarray:
     for column in columns[1:]:
         column_codes, uniques = pd.factorize(column, sort=False)
         # Re-number after each column so the combined code never overflows.
-        codes, _ = pd.factorize(codes.astype(np.int64) * len(uniques) + column_codes, sort=False)
-    return codes.astype(np.int64)
+        codes, _ = pd.factorize(codes.astype(np.int64, copy=False) * len(uniques) + column_codes, sort=False)
+    return codes.astype(np.int64, copy=False)
 
 
 def hash_keys(keys: dict[str, np.ndarray]) -> np.ndarray:

@@ -75,10 +75,10 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
     why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date)
     bad = np.flatnonzero(~usable)
     rejects = Rejects(path, kind, delimiter, rows.line[bad], why[bad].tolist())
-    keep = np.flatnonzero(usable)
-    if not len(keep):
+    if len(bad) == rows.n_rows:
         from .validation import summary
         raise DataError(f"no usable rows ({summary(rejects.reasons)})", path=str(path))
+    keep = np.flatnonzero(usable) if len(bad) else slice(None)  # a clean file is not copied
     keys = {name: values[keep] for name, values in rows.keys.items()}
     number = lambda name: rows.numbers[name][0][keep]  # noqa: E731
     source = {"path": str(path.resolve()), "sha256": file_sha256(path), "rows": rows.n_rows,
@@ -195,7 +195,8 @@ def _categorical(column) -> pd.Categorical:
     encoded = column.combine_chunks().dictionary_encode() if isinstance(column, pa.ChunkedArray) \
         else column.dictionary_encode()
     codes = encoded.indices.to_numpy(zero_copy_only=False)
-    codes = np.where(pd.isna(codes), -1, codes).astype(np.int64) if codes.dtype.kind == "f" else codes.astype(np.int64)
+    # int32 as Arrow gives them (pandas would narrow int64 codes to int32 again); NaN where null.
+    codes = np.where(np.isnan(codes), -1, codes).astype(np.int32) if codes.dtype.kind == "f" else codes.astype(np.int32, copy=False)
     categories = pd.Index(encoded.dictionary.to_pylist(), dtype=object)
     if categories.has_duplicates or categories.hasnans:
         return pd.Categorical(np.asarray(categories, dtype=object)[np.maximum(codes, 0)], categories=None)

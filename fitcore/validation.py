@@ -46,18 +46,23 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
     rows read in pieces whose repeats may lie in another piece.
     """
     n = rows.n_rows
-    out = np.full(n, None, dtype=object)
+    out = None  # the reasons, made at the first rejected row: a clean file needs no N-object array
     open_rows = np.ones(n, dtype=bool)  # no reason given yet
+
+    def reject(index, text):
+        nonlocal out
+        if out is None:
+            out = np.full(n, None, dtype=object)
+        out[index] = text
+        open_rows[index] = False
 
     def mark(mask, text):
         mask = np.asarray(mask, dtype=bool) & open_rows
         if mask.any():
-            out[mask] = text
-            open_rows[mask] = False
+            reject(mask, text)
 
     for index, why in rows.broken.items():
-        out[index] = why
-        open_rows[index] = False
+        reject(index, why)
     empties = [_empty(values) for values in rows.keys.values()]
     all_empty = np.logical_and.reduce(empties) if empties else np.zeros(n, bool)
     for name in (price, volume, weight):
@@ -74,13 +79,17 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
         mark(unreadable, f"unparseable {date}")
         mark(np.isnat(values), f"missing {date}")
         if duplicates:
-            _duplicates(rows, values, out, open_rows)
+            _duplicates(rows, values, reject, open_rows)
+    if out is None:  # every row usable: a read-only view of one None
+        out = np.broadcast_to(np.array(None, dtype=object), (n,))
     return out, open_rows
 
 
 def _empty(values: pd.Categorical) -> np.ndarray:
     blank = np.asarray([str(c).strip() == "" for c in values.categories], dtype=bool)
     codes = values.codes
+    if len(blank) and not blank.any():
+        return codes < 0  # no blank text: only missing cells are empty
     return (codes < 0) | (blank[np.maximum(codes, 0)] if len(blank) else True)
 
 
@@ -91,16 +100,15 @@ def _number_reasons(mark, name, values, not_number, missing):
     mark(values < 0, f"negative {name}")
 
 
-def _duplicates(rows: RawRows, dates: np.ndarray, out: np.ndarray, open_rows: np.ndarray) -> None:
-    """Rows repeating the series and date of an earlier usable row."""
+def _duplicates(rows: RawRows, dates: np.ndarray, reject, open_rows: np.ndarray) -> None:
+    """Rows repeating the series and date of an earlier usable row: ``reject(index, reason)``."""
     usable = np.flatnonzero(open_rows)
     if not len(usable):
         return
     repeated, earlier = duplicate_rows([values.codes[usable] for values in rows.keys.values()], dates[usable],
                                        rows.line[usable])
     for index, line in zip(usable[repeated], earlier):
-        out[index] = duplicate_reason(line)
-        open_rows[index] = False
+        reject(index, duplicate_reason(line))
 
 
 def duplicate_rows(keys: list[np.ndarray], dates: np.ndarray, lines: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
