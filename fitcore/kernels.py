@@ -1,7 +1,8 @@
-"""The compiled least-squares loops: fold moments, scaled Cholesky, solves, held-out errors, leverages.
+"""The compiled least-squares loops: fold moments, fits in lanes, held-out errors, leverages.
 
-One pass per series (see ``compiled``): its rows, its fold moments and its
-≤ 6 × 6 Gram matrices stay in registers and L1 cache.
+One pass over each series' rows sums its blocks' power moments in registers;
+its fits (one a fold, and one on all rows) then become lanes of a group of
+series, factored and solved together (``lanes``).
 """
 from __future__ import annotations
 

@@ -196,7 +196,9 @@ def _categorical(column) -> pd.Categorical:
         else column.dictionary_encode()
     codes = encoded.indices.to_numpy(zero_copy_only=False)
     # int32 as Arrow gives them (pandas would narrow int64 codes to int32 again); NaN where null.
-    codes = np.where(np.isnan(codes), -1, codes).astype(np.int32) if codes.dtype.kind == "f" else codes.astype(np.int32, copy=False)
+    if codes.dtype.kind == "f":
+        codes = np.where(np.isnan(codes), -1, codes)
+    codes = codes.astype(np.int32, copy=False)
     categories = pd.Index(encoded.dictionary.to_pylist(), dtype=object)
     if categories.has_duplicates or categories.hasnans:
         return pd.Categorical(np.asarray(categories, dtype=object)[np.maximum(codes, 0)], categories=None)

@@ -79,12 +79,13 @@ def _leave_one_out(u, z, volume, w, lay: FoldLayout, log: FamilyFit, counts, a, 
 
 
 # A fold's smearing sum Σ wᵢ·exp(rᵢ − Δa − δ·uᵢ) over its training rows (rᵢ the full fit's log
-# residual, Δa and δ how far the fold's intercept and slope are from the full fit's, |uᵢ| ≤ 1)
-# comes from the Taylor series of exp(−δ·uᵢ) over per-block moments Σ wᵢ·exp(rᵢ)·uᵢᵏ, k ≤ TAYLOR_TERMS.
-# For |δ| ≤ TAYLOR_REACH the first term left out is below 1/21! ≈ 2e-20 of the sum, so the sum is
-# exact to rounding (the terms' alternating signs cost at most a factor e^(2|δ|) ≤ 4.5 in rounding);
-# a fold further away than that sums its exponentials row by row.
-TAYLOR_TERMS = 16
+# residual; Δa, δ how far the fold's intercept and slope are from the full fit's; |uᵢ| ≤ 1) comes
+# from the Taylor series of exp(−δ·uᵢ) over per-block moments Σ wᵢ·exp(rᵢ)·uᵢᵏ, k ≤ TAYLOR_TERMS.
+# For |δ| ≤ TAYLOR_REACH the terms left out are below 0.75¹⁷/17!·e^0.75 ≈ 4.5e-17 of Σ wᵢ·exp(rᵢ),
+# and the sum is at least e^-0.75 of that: under 1e-16 relative, i.e. rounding (the terms'
+# alternating signs cost at most a factor e^(2|δ|) ≤ 4.5 in rounding).  A fold further away
+# sums its exponentials row by row.
+TAYLOR_TERMS = 16  # _growth_moments writes out its 17 accumulators: change both together
 TAYLOR_REACH = 0.75
 
 

@@ -62,8 +62,9 @@ def fit_family(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, lay: FoldLayo
     """
     p = max(degrees) + 1
     n_series, n_folds, n_deg = len(lay.bounds), lay.n_folds, len(degrees)
+    kept = n_folds + 1 if fold_coefficients else 1
     fit = FamilyFit(
-        degrees, coef=np.empty((n_series, n_folds + 1 if fold_coefficients else 1, n_deg, p)), ok=np.empty((n_series, n_folds + 1, n_deg), bool),
+        degrees, coef=np.empty((n_series, kept, n_deg, p)), ok=np.empty((n_series, n_folds + 1, n_deg), bool),
         sse_test=np.empty((n_series, n_folds, n_deg)), w_test=np.empty((n_series, n_folds)),
         sse_full=np.empty((n_series, n_deg)), w_full=np.empty(n_series), tss=np.empty(n_series),
         tss_test=np.empty(n_series), lower=np.empty((n_series, p, p)), scale=np.empty((n_series, p)))

@@ -125,7 +125,8 @@ def write_parquet(table, where) -> None:
     import pyarrow as pa
     import pyarrow.parquet as pq
     # Dictionary pages only for text: on numbers they cost half the write time and save nothing.
-    text = [field.name for field in table.schema if pa.types.is_dictionary(field.type) or pa.types.is_string(field.type)]
+    text = [field.name for field in table.schema
+            if pa.types.is_dictionary(field.type) or pa.types.is_string(field.type)]
     pq.write_table(table, where, compression="snappy", use_dictionary=text)
 
 
