@@ -7,10 +7,13 @@ from __future__ import annotations
 
 import numpy as np
 
+from .compiled import compiled
+
 # Differences in mean CV error below this fraction of the series' variance
 # are round-off, not evidence: such candidates count as equal, so the
 # choice does not flip with the units of price or volume.
 ROUND_OFF = 1e-9
+TINY = float(np.finfo(float).tiny)
 
 
 def choose(rule: str, cv_mse: np.ndarray, cv_se: np.ndarray, available: np.ndarray,
@@ -29,28 +32,46 @@ def choose(rule: str, cv_mse: np.ndarray, cv_se: np.ndarray, available: np.ndarr
     """
     if rule not in RULES:
         raise ValueError(f"expected a rule among {sorted(RULES)}, got {rule!r}")
-    mse = np.where(available, cv_mse, np.inf)
-    best = mse.min(axis=1, initial=np.inf)
-    tolerance = ROUND_OFF * np.maximum(variance, np.finfo(float).tiny)
-    slack = RULES[rule](mse, np.where(available, cv_se, 0.0), best)
-    eligible = available & (mse <= (best + np.maximum(slack, tolerance))[:, None])
-    if rule == "lowest":
-        eligible &= mse <= (best + tolerance)[:, None]
-    # Least complex first, then lowest error: one lexicographic key.
-    order = np.where(eligible, complexity[None, :] * 1.0, np.inf)
-    simplest = order.min(axis=1, initial=np.inf)
-    ranked = np.where(eligible & (order == simplest[:, None]), mse, np.inf)
-    chosen = np.argmin(ranked, axis=1)
-    return np.where(np.isfinite(best) & eligible.any(axis=1), chosen, -1)
+    chosen = np.empty(len(cv_mse), dtype=np.int64)
+    choose_rows(rule == "one-se", np.asarray(cv_mse, dtype=np.float64), np.asarray(cv_se, dtype=np.float64),
+                np.asarray(available, dtype=np.bool_), np.asarray(complexity, dtype=np.float64),
+                np.asarray(variance, dtype=np.float64), chosen)
+    return chosen
 
 
-def _one_se(mse, se, best):
-    winner = np.argmin(mse, axis=1)
-    return np.take_along_axis(se, winner[:, None], axis=1)[:, 0]
+RULES = ("one-se", "lowest")
 
 
-def _lowest(mse, se, best):
-    return np.zeros(len(mse))
+@compiled
+def choose_rows(one_se, cv_mse, cv_se, available, complexity, variance, chosen):
+    """``chosen[s]``: the candidate of series s under the rule (one-se or lowest), -1 when none.
 
-
-RULES = {"one-se": _one_se, "lowest": _lowest}
+    The bar is the lowest available mean CV error plus the larger of the
+    round-off tolerance and (one-se) that candidate's standard error; among
+    the candidates under it, the fewest coefficients, then the lowest error,
+    then the first.
+    """
+    for s in range(cv_mse.shape[0]):
+        best = np.inf
+        winner = -1
+        undecidable = False  # an available candidate without a CV error
+        for c in range(cv_mse.shape[1]):
+            if available[s, c]:
+                undecidable = undecidable or np.isnan(cv_mse[s, c])
+                if cv_mse[s, c] < best:
+                    best = cv_mse[s, c]
+                    winner = c
+        if undecidable or winner < 0:
+            chosen[s] = -1
+            continue
+        tolerance = ROUND_OFF * max(variance[s], TINY)
+        slack = max(cv_se[s, winner], tolerance) if one_se else tolerance
+        pick = -1
+        for c in range(cv_mse.shape[1]):
+            error = cv_mse[s, c]
+            if not (available[s, c] and error <= best + slack):
+                continue
+            if pick < 0 or complexity[c] < complexity[pick] or (
+                    complexity[c] == complexity[pick] and error < cv_mse[s, pick]):
+                pick = c
+        chosen[s] = pick

@@ -42,3 +42,26 @@ def test_round_off_differences_count_as_ties():
 def test_unknown_rule_is_refused():
     with pytest.raises(ValueError, match="expected a rule"):
         pick("cheapest", [1, 2, 3, 4], [0, 0, 0, 0])
+
+
+def rule_by_definition(rule, mse, se, available, complexity, tolerance):
+    """One series, written from the rules' wording: the bar, then fewest coefficients, then lowest error."""
+    candidates = [c for c in range(len(mse)) if available[c]]
+    if not candidates:
+        return -1
+    best = min(candidates, key=lambda c: (mse[c], c))
+    bar = mse[best] + (max(se[best], tolerance) if rule == "one-se" else tolerance)
+    under = [c for c in candidates if mse[c] <= bar]
+    return min(under, key=lambda c: (complexity[c], mse[c], c))
+
+
+@pytest.mark.parametrize("rule", ["one-se", "lowest"])
+def test_many_random_series_match_the_rules_written_out(rule):
+    rng = np.random.default_rng(3)
+    n = 2000
+    mse = np.round(rng.uniform(1, 3, (n, 4)), 1)  # rounded: plenty of exact ties
+    se = np.round(rng.uniform(0, 0.6, (n, 4)), 1)
+    available = rng.random((n, 4)) > 0.2
+    chosen = choose(rule, mse, se, available, COMPLEXITY, np.full(n, 100.0))
+    expected = [rule_by_definition(rule, mse[s], se[s], available[s], COMPLEXITY, 1e-9 * 100.0) for s in range(n)]
+    np.testing.assert_array_equal(chosen, expected)
