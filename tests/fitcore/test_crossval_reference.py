@@ -63,6 +63,13 @@ def test_kfold_with_three_folds_matches_scikit_learn():
     assert check_against(results, data, lambda n: KFold(3, shuffle=False), rtol=1e-8) > 100
 
 
+def test_kfold_with_ten_folds_matches_scikit_learn():
+    """Eleven fits a series: the lanes hold 46 series a group instead of 85 (five folds)."""
+    data = random_dataset(9, n_series=12, n_range=(25, 40))
+    results = fitcore.fit_batch(data, fitcore.FitSettings(folds=10, fold_order="given", loglog=False))
+    assert check_against(results, data, lambda n: KFold(10, shuffle=False), rtol=1e-8) > 60
+
+
 def test_leave_one_out_matches_scikit_learn():
     data = random_dataset(12, n_series=40, n_range=(8, 30))
     results = fitcore.fit_batch(data, fitcore.FitSettings(folds="loo", loglog=False))
