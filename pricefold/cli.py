@@ -327,7 +327,7 @@ def run_demo(args) -> int:
 
     folder = args.dir
     folder.mkdir(parents=True, exist_ok=True)
-    print("fitting the invented sample (the first run after an install also compiles the engine: ~6 s) …",
+    print("fitting the invented sample …\n(the first run after an install also compiles the engine: ~10 s, once)",
           file=sys.stderr)
     results, diagnosis = fit_source(sample_source())
     results_path = folder / "results.json"
