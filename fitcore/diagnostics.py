@@ -14,6 +14,7 @@ import numpy as np
 from . import reasons as R
 from .basis import mapped
 from .compiled import compiled
+from .prediction import poly_value
 from .results import Results
 from .thresholds import Thresholds
 
@@ -172,20 +173,22 @@ def _shape(results: Results) -> dict:
     names = ("rising_share", "rising_from", "rising_to", "rising_slope", "lowest_volume", "lowest_at")
     out = {name: np.full(results.n_series, np.nan) for name in names}
     is_poly = np.array([c.family == "poly" for c in results.candidates])
-    shape_scan(results.coef, results.chosen.astype(np.int64), is_poly, results.mid, results.half, results.log_mid,
-               results.log_half, results.smear, np.linspace(-1.0, 1.0, GRID), *(out[name] for name in names))
+    chosen = results.chosen.astype(np.int64)
+    curve = np.ascontiguousarray(results.coef[np.arange(len(chosen)), np.maximum(chosen, 0)])  # (S, P)
+    shape_scan(curve, chosen, is_poly, results.mid, results.half, results.log_mid, results.log_half, results.smear,
+               np.linspace(-1.0, 1.0, GRID), *(out[name] for name in names))
     return out
 
 
 @compiled
-def shape_scan(coef, chosen, is_poly, mid, half, log_mid, log_half, smear, t,
+def shape_scan(curve, chosen, is_poly, mid, half, log_mid, log_half, smear, t,
                share, rising_from, rising_to, rising_slope, lowest_volume, lowest_at):
     """Per series with a chosen curve, on the grid ``t`` over its price window: the share of the
     range where volume rises with price (grid intervals rising at both ends), the first and last
     rising price, the steepest rise, and the lowest volume and its price (refined by a parabola
-    through the grid minimum and its neighbours)."""
+    through the grid minimum and its neighbours).  ``curve`` (S, P): each series' chosen
+    candidate's coefficients, ``chosen`` (S,) which candidate (-1: none)."""
     n_grid = len(t)
-    p = coef.shape[2]
     price = np.empty(n_grid)
     volume = np.empty(n_grid)
     slope = np.empty(n_grid)
@@ -198,16 +201,11 @@ def shape_scan(coef, chosen, is_poly, mid, half, log_mid, log_half, smear, t,
         if is_poly[c]:
             across = half[s] if half[s] > 0 else 1.0
             for g in range(n_grid):
-                value = 0.0
-                rate = 0.0
-                for k in range(p - 1, -1, -1):
-                    value = value * t[g] + coef[s, c, k]
-                    rate = rate * t[g] + (coef[s, c, k + 1] * (k + 1) if k + 1 < p else 0.0)
-                volume[g] = value
-                slope[g] = rate / across
+                volume[g] = poly_value(curve, s, t[g], 0)
+                slope[g] = poly_value(curve, s, t[g], 1) / across
         else:
-            e = coef[s, c, 1] / (log_half[s] if log_half[s] > 0 else 1.0)
-            a = coef[s, c, 0] - e * log_mid[s]
+            e = curve[s, 1] / (log_half[s] if log_half[s] > 0 else 1.0)
+            a = curve[s, 0] - e * log_mid[s]
             for g in range(n_grid):
                 volume[g] = np.exp(a + e * np.log(price[g])) * smear[s]
                 slope[g] = e * volume[g] / price[g]

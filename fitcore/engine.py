@@ -110,7 +110,7 @@ class _Chunk:
         t, centred = np.empty(len(x)), np.empty(len(x))
         lo, hi, mean, least = (np.empty(len(self.counts)) for _ in range(4))
         window_rows(x, y, np.empty(0) if self.weight is None else self.weight, self.offsets,
-                            np.empty(0, bool) if use is None else use, t, centred, lo, hi, mean, least)
+                    np.empty(0, bool) if use is None else use, t, centred, lo, hi, mean, least)
         return t, centred, lo, hi, mean, least
 
     def per_row(self, values: np.ndarray) -> np.ndarray:
@@ -149,7 +149,7 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         coef[:, -1, :2] = ll.log.coef[:, -1, 0]
         coef[:, -1, 0] += zbar
         fit_ok[:, -1] = ll.log.ok[:, -1, 0]
-        fold_ok[:, -1] = ll.log.ok[:, :-1, 0].all(axis=1)
+        fold_ok[:, -1] = _along_folds(ll.log.ok[:, :-1, 0], np.logical_and)
         sse_full[:, -1] = ll.sse_full
     else:
         log_mid = log_half = np.zeros(n_s)

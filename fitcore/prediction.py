@@ -70,7 +70,7 @@ def best_revenue_loglog(elasticity: np.ndarray, lo: np.ndarray, hi: np.ndarray) 
 
 
 @compiled
-def _poly_value(coef, s, t, order):
+def poly_value(coef, s, t, order):
     """The ``order``-th derivative (0, 1 or 2) at t of Σ coef[s, k]·tᵏ."""
     p = coef.shape[1]
     value = 0.0
@@ -97,7 +97,7 @@ def revenue_peak_poly(coef, mid, half, grid, out):
         t = -1.0
         for g in range(grid):
             tg = -1.0 + g * step if g < grid - 1 else 1.0
-            revenue = (mid[s] + half[s] * tg) * _poly_value(coef, s, tg, 0)
+            revenue = (mid[s] + half[s] * tg) * poly_value(coef, s, tg, 0)
             if revenue > best:
                 best = revenue
                 t = tg
@@ -105,13 +105,13 @@ def revenue_peak_poly(coef, mid, half, grid, out):
         hi = min(t + step, 1.0)
         for _ in range(8):
             p = mid[s] + half[s] * t
-            v = _poly_value(coef, s, t, 0)
-            v1 = _poly_value(coef, s, t, 1)
-            v2 = _poly_value(coef, s, t, 2)
+            v = poly_value(coef, s, t, 0)
+            v1 = poly_value(coef, s, t, 1)
+            v2 = poly_value(coef, s, t, 2)
             grad = half[s] * v + p * v1
             curv = 2 * half[s] * v1 + p * v2
             candidate = min(max(t - grad / curv, lo), hi)
             if curv < 0 and np.isfinite(candidate):
-                if (mid[s] + half[s] * candidate) * _poly_value(coef, s, candidate, 0) >= p * v:
+                if (mid[s] + half[s] * candidate) * poly_value(coef, s, candidate, 0) >= p * v:
                     t = candidate
         out[s] = t
