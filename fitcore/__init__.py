@@ -2,15 +2,26 @@
 demand curves for all of them at once, choose one per series, predict at a plan price.
 
 Pure computation and file I/O only: nothing here imports a user interface.
+The rooms, in the order they may import one another (each imports only the
+rooms before it, and the shared modules ``errors``, ``text``, ``compiled``,
+``arrays`` at this level):
+
+    data     columns, readers, row validation, the Dataset, plan prices, the settings file, series keys
+    fit      fit settings, fold layouts, the compiled least-squares loops, curve families,
+             selection, prediction, the engine (``fit_batch``) and its ``Results``
+    review   flag thresholds, flags and their sentences, influence, evidence for charts
+    results  results files: writers, readers, stored (Arrow-backed) results
+    ledger   the chained sign-off ledger and its replay into statuses
+    scale    the batch engine on a Dask cluster
 """
 from .errors import DataError, PricefoldError, SettingsError
-from .settings import FitSettings
+from .fit.settings import FitSettings
 
 __all__ = ["SCHEMA", "DataError", "Dataset", "FitSettings", "PricefoldError", "Results", "SettingsError",
-           "fit_batch", "from_columns"]
+           "diagnose", "fit_batch", "from_columns", "load"]
 
-_LAZY = {"Dataset": "dataset", "from_columns": "dataset", "fit_batch": "engine", "Results": "results",
-         "SCHEMA": "results"}
+_LAZY = {"Dataset": "data.dataset", "from_columns": "data.dataset", "load": "data.loader",
+         "fit_batch": "fit.engine", "Results": "fit.results", "SCHEMA": "fit.results", "diagnose": "review.flags"}
 
 
 def __getattr__(name: str):

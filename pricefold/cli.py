@@ -120,7 +120,7 @@ def add_fit_options(parser: argparse.ArgumentParser) -> None:
 
 def resolve(args) -> None:
     """Fill every option not given on the command line from the settings file, then the defaults."""
-    from fitcore.config import load_config, pick
+    from fitcore.data.config import load_config, pick
     config = load_config(args.config)
     for option, table, key, default in (
             ("product", "columns", "product", "product"), ("segment", "columns", "segments", []),
@@ -142,13 +142,13 @@ def resolve(args) -> None:
 
 
 def columns_from(args):
-    from fitcore.loader import Columns
+    from fitcore.data.loader import Columns
     return Columns(product=args.product, segments=tuple(args.segment), price=args.price, volume=args.volume,
                    date=args.date, weight=args.weight)
 
 
 def settings_from(args):
-    from fitcore.settings import FitSettings, parse_degrees, parse_folds, provenance
+    from fitcore.fit.settings import FitSettings, parse_degrees, parse_folds, provenance
     extra = provenance(columns_from(args).as_dict(), str(args.plan.resolve()) if args.plan else None, args.plan_price)
     if args.config_path:
         extra["config"] = args.config_path
@@ -159,12 +159,12 @@ def settings_from(args):
 
 def run_fit(args) -> int:
     from fitcore import fit_batch
-    from fitcore.diagnostics import diagnose
+    from fitcore.data.loader import load_with_rejects
+    from fitcore.data.plan import plan_prices
     from fitcore.errors import SettingsError
-    from fitcore.loader import load_with_rejects
-    from fitcore.plan import plan_prices
-    from fitcore.results_io import write_results
-    from fitcore.thresholds import Thresholds, parse_threshold_options
+    from fitcore.results.write import write_results
+    from fitcore.review.flags import diagnose
+    from fitcore.review.thresholds import Thresholds, parse_threshold_options
 
     from .progress import ProgressLine
 
@@ -200,9 +200,9 @@ def rejects_path(output: Path) -> Path:
 
 def report_rejects(rejects, target: Path, *, strict: bool, quiet: bool) -> None:
     """Write the rejected rows to ``target`` and say so in one line; with ``strict``, fail."""
+    from fitcore.data.loader import write_rejects
+    from fitcore.data.validation import summary as rejects_summary
     from fitcore.errors import DataError
-    from fitcore.loader import write_rejects
-    from fitcore.validation import summary as rejects_summary
 
     if not len(rejects):
         target.unlink(missing_ok=True)  # an older run's rejects would now mislead
@@ -234,7 +234,7 @@ def summary_line(n_series: int, n_rows: int, chosen: dict, flags: dict, clean: i
 
 def run_show(args) -> int:
     from fitcore.errors import SettingsError
-    from fitcore.results_read import results_in_parts
+    from fitcore.results.read import results_in_parts
 
     from .show import detail, select, table
     keys = {}
@@ -255,7 +255,7 @@ def run_show(args) -> int:
 
 
 def is_results(path: Path) -> bool:
-    from fitcore.results_read import result_parts
+    from fitcore.results.read import result_parts
     if result_parts(path) is not None:
         return True
     if path.suffix.lower() == ".json":
@@ -270,7 +270,7 @@ def is_results(path: Path) -> bool:
 
 
 def run_triage(args) -> int:
-    from fitcore.thresholds import Thresholds, parse_threshold_options
+    from fitcore.review.thresholds import Thresholds, parse_threshold_options
     from tui.factory import Source, default_ledger, is_stored, source_from_results
 
     ledger_path = args.ledger or default_ledger(args.source)
@@ -297,7 +297,7 @@ REFIT_ROWS = 50_000_000
 
 def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | None = None) -> int:
     """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen)."""
-    from fitcore.results_read import read_header
+    from fitcore.results.read import read_header
     from tui.app import TriageApp
     from tui.factory import open_session, open_stored_session, refit_stored
 
@@ -322,7 +322,7 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
 
 
 def run_demo(args) -> int:
-    from fitcore.results_io import write_results
+    from fitcore.results.write import write_results
     from tui.factory import fit_source, sample_source, source_from_results
 
     folder = args.dir

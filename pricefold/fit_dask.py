@@ -11,9 +11,9 @@ from .cli import columns_from, report_rejects, summary_line
 def run_fit_dask(args, settings, thresholds) -> int:
     import numpy as np
 
+    from fitcore.data.loader import Rejects, file_kind
     from fitcore.errors import SettingsError
-    from fitcore.loader import Rejects, file_kind
-    from fitcore.scale import connect, disconnect, fit_on_dask
+    from fitcore.scale.dask_engine import connect, disconnect, fit_on_dask
 
     from .progress import ProgressLine
 
@@ -40,8 +40,8 @@ def run_fit_dask(args, settings, thresholds) -> int:
     if args.plan and total["plan_matched"] < _plan_rows(args.plan):
         print(f"warning: {args.plan} names series that are not in the data", file=sys.stderr)
     if not args.quiet:
-        from fitcore.candidates import candidates_for
-        from fitcore.diagnostics import CODES
+        from fitcore.fit.candidates import candidates_for
+        from fitcore.review.flags import CODES
         chosen = {c.name: total["chosen"].get(c.name, 0) for c in candidates_for(settings)} | {"none": total["none"]}
         flags = {code: total["flags"][code] for code in CODES if code in total["flags"]}
         print(summary_line(total["series"], total["rows"], chosen, flags, total["clean"],
@@ -51,7 +51,7 @@ def run_fit_dask(args, settings, thresholds) -> int:
 
 
 def _delimiter_of(path: Path) -> str:
-    from fitcore.loader import _sniff, file_kind
+    from fitcore.data.loader import _sniff, file_kind
     return file_kind(path)[1] or _sniff(path)
 
 

@@ -11,9 +11,9 @@ import sys
 from pathlib import Path
 
 from fitcore import ledger
-from fitcore.decisions import replay, series_id
 from fitcore.errors import DataError
-from fitcore.results_read import results_in_parts
+from fitcore.ledger.replay import replay, series_id
+from fitcore.results.read import results_in_parts
 from fitcore.text import clean
 
 from .show import key_text

@@ -3,8 +3,8 @@ from __future__ import annotations
 
 import math
 
-from fitcore.flag_sentences import fmt, money
-from fitcore.keys import SEPARATOR
+from fitcore.data.keys import SEPARATOR
+from fitcore.review.sentences import fmt, money
 from fitcore.text import clean
 
 SEVERITY_ORDER = {"stop": 0, "warn": 1}

@@ -6,7 +6,7 @@ import sys
 
 
 def test_importing_fitcore_loads_no_ui_library():
-    code = ("import sys, fitcore, fitcore.loader, fitcore.results_io, fitcore.plan; "
+    code = ("import sys, fitcore, fitcore.data.loader, fitcore.results.write, fitcore.data.plan; "
             "print(sorted(m for m in sys.modules if m.split('.')[0] in ('textual', 'rich', 'tui', 'plotext')))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"

@@ -8,13 +8,13 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
-from fitcore.columns import Columns, file_sha256
+from fitcore.data.columns import Columns, file_sha256
 from fitcore.errors import DataError
+from fitcore.fit.settings import FitSettings, provenance, settings_from_dict
 from fitcore.ledger import Identity, results_digest
-from fitcore.results_read import read_header, read_results
-from fitcore.results_stored import stored_results
-from fitcore.settings import FitSettings, provenance, settings_from_dict
-from fitcore.thresholds import Thresholds
+from fitcore.results.read import read_header, read_results
+from fitcore.results.stored import stored_results
+from fitcore.review.thresholds import Thresholds
 
 from .session import TriageSession
 
@@ -66,9 +66,9 @@ def source_from_results(path: Path, check_data: bool = True) -> Source:
 def fit_source(source: Source, progress: Callable[[int, int], None] | None = None):
     """``(results, diagnosis)`` of the source, its settings recording how to fit it again."""
     from fitcore import fit_batch
-    from fitcore.diagnostics import diagnose
-    from fitcore.loader import load
-    from fitcore.plan import plan_prices
+    from fitcore.data.loader import load
+    from fitcore.data.plan import plan_prices
+    from fitcore.review.flags import diagnose
     data = load(source.data, source.columns)
     plan = plan_prices(data, source.plan_file) if source.plan_file else source.plan_price
     extra = provenance(source.columns.as_dict(), str(source.plan_file) if source.plan_file else None,
@@ -79,7 +79,7 @@ def fit_source(source: Source, progress: Callable[[int, int], None] | None = Non
 
 def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | None = None,
                  progress: Callable[[int, int], None] | None = None) -> TriageSession:
-    from fitcore.results_io import header
+    from fitcore.results.write import header
     results, diagnosis = fit_source(source, progress)
     session = TriageSession(results, diagnosis, ledger_path, who, results_digest(header(results, diagnosis)), key)
     session.warnings.extend(source.warnings)
@@ -90,7 +90,7 @@ def is_stored(path: Path) -> bool:
     """A Parquet results file that triage can open without refitting (it has the window coefficients)."""
     import pyarrow.parquet as pq
 
-    from fitcore.results_read import result_parts
+    from fitcore.results.read import result_parts
     try:
         parts = result_parts(path)
         if parts is None and Path(path).suffix.lower() not in (".parquet", ".pq"):

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from rich.text import Text
 
-from fitcore.diagnostics import FLAGS
+from fitcore.review.flags import FLAGS
 
 KEYS = [
     ("↑ ↓ PgUp PgDn Home End", "move in the list"),

@@ -14,10 +14,10 @@ import numpy as np
 
 from fitcore import ledger
 from fitcore.arrays import integers, texts
-from fitcore.decisions import SeriesHistory, apply, own_standing, series_id
-from fitcore.diagnostics import CODES, SEVERITY, Diagnosis, mark_stale
-from fitcore.keys import SeriesKeys
-from fitcore.results import Results
+from fitcore.data.keys import SeriesKeys
+from fitcore.fit.results import Results
+from fitcore.ledger.replay import SeriesHistory, apply, own_standing, series_id
+from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale
 
 from .text import clean
 

@@ -21,7 +21,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 import fitcore  # noqa: E402
-from fitcore.diagnostics import diagnose  # noqa: E402
+from fitcore.review.flags import diagnose  # noqa: E402
 from tests.bench.invented import invented_arrays, invented_dataset  # noqa: E402
 
 

@@ -26,7 +26,7 @@ import pyarrow.parquet as pq
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from fitcore.scale import connect, disconnect  # noqa: E402
+from fitcore.scale.dask_engine import connect, disconnect  # noqa: E402
 from tests.bench.bench_triage import measure_triage  # noqa: E402
 from tests.bench.invented import invented_arrays  # noqa: E402
 

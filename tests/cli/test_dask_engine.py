@@ -14,11 +14,11 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from fitcore.columns import Columns
+from fitcore.data.columns import Columns
 from fitcore.errors import SettingsError
-from fitcore.results_read import read_results
-from fitcore.settings import FitSettings, provenance
-from fitcore.thresholds import Thresholds
+from fitcore.fit.settings import FitSettings, provenance
+from fitcore.results.read import read_results
+from fitcore.review.thresholds import Thresholds
 from pricefold.cli import main
 from tests.bench.invented import invented_arrays
 
@@ -28,10 +28,10 @@ SAMPLE = Path(__file__).parents[2] / "sample"
 
 @pytest.fixture(scope="module")
 def client():
-    from fitcore.scale import connect
+    from fitcore.scale.dask_engine import connect
     client = connect(None, 2)
     yield client
-    from fitcore.scale import disconnect
+    from fitcore.scale.dask_engine import disconnect
     disconnect(client)
 
 
@@ -62,7 +62,7 @@ def assert_same_results(local: Path, folder: Path, keys: list[str]) -> None:
 
 
 def test_the_sample_gives_the_local_results(tmp_path, client):
-    from fitcore.scale import fit_on_dask
+    from fitcore.scale.dask_engine import fit_on_dask
     local = tmp_path / "local.parquet"
     assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week",
                  "--plan", str(SAMPLE / "plan.csv"), "-o", str(local), "--quiet"]) == 0
@@ -168,7 +168,7 @@ def test_a_failed_run_leaves_the_earlier_results_whole(tmp_path, client, capsys)
 def test_dask_missing_is_one_line_telling_what_to_install(monkeypatch):
     import sys
 
-    from fitcore.scale import connect
+    from fitcore.scale.dask_engine import connect
     monkeypatch.setitem(sys.modules, "distributed", None)
     with pytest.raises(SettingsError, match=r"pip install 'pricefold\[scale\]'"):
         connect(None, 1)

@@ -8,7 +8,14 @@ import numpy as np
 import pytest
 
 from pricefold.cli import main
-from tests.reference.nist_strd import MIN_LRE, WAMPLER1_CERTIFIED, WAMPLER1_Y, WAMPLER2_CERTIFIED, WAMPLER2_Y, X
+from tests.reference.nist_strd import (
+    MIN_LRE,
+    WAMPLER1_CERTIFIED,
+    WAMPLER1_Y,
+    WAMPLER2_CERTIFIED,
+    WAMPLER2_Y,
+    X,
+)
 
 
 def log_relative_error(estimate, certified):

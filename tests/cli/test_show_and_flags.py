@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from fitcore.diagnostics import CODES
+from fitcore.review.flags import CODES
 
 SAMPLE = Path(__file__).parents[2] / "sample"
 

@@ -111,7 +111,7 @@ def test_leave_one_out_press_matches_refitting_every_row(weighted):
 
 def test_shuffled_folds_match_scikit_learn_given_the_same_assignment(shared_dataset):
     """With shuffled folds, per-fold errors equal scikit-learn's on the same index sets."""
-    from fitcore.folds import split_indices
+    from fitcore.fit.folds import split_indices
     settings = fitcore.FitSettings(folds=5, fold_order="shuffled", seed=3, loglog=False)
     results = fitcore.fit_batch(shared_dataset, settings)
     for s in range(0, shared_dataset.n_series, 15):
@@ -138,7 +138,7 @@ def brute_force_loglog_folds(x, y, splits):
 
 @pytest.mark.parametrize("order", ["given", "shuffled"])
 def test_loglog_fold_errors_match_refitting_each_fold(shared_dataset, order):
-    from fitcore.folds import split_indices
+    from fitcore.fit.folds import split_indices
     settings = fitcore.FitSettings(degrees=(1,), folds=5, fold_order=order)
     results = fitcore.fit_batch(shared_dataset, settings)
     c = results.names.index("loglog")
@@ -187,8 +187,8 @@ def brute_force_weighted_loglog_folds(x, y, w, splits):
 def test_loglog_smearing_is_exact_for_folds_near_and_far_from_the_full_fit(order):
     """A fold's smearing sum comes from a series in its slope gap δ when |δ| ≤ TAYLOR_REACH (mapped units),
     from the rows otherwise; both regimes must equal brute-force refits (numpy lstsq)."""
-    from fitcore.folds import split_indices
-    from fitcore.loglog import TAYLOR_REACH
+    from fitcore.fit.folds import split_indices
+    from fitcore.fit.loglog import TAYLOR_REACH
     rng = np.random.default_rng(11)
     counts = rng.integers(7, 16, 150)
     total = int(counts.sum())

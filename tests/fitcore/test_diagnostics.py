@@ -12,10 +12,10 @@ import numpy as np
 import pytest
 
 import fitcore
-from fitcore.diagnostics import CODES, diagnose
 from fitcore.errors import SettingsError
-from fitcore.influence import series_influence
-from fitcore.thresholds import Thresholds
+from fitcore.review.flags import CODES, diagnose
+from fitcore.review.influence import series_influence
+from fitcore.review.thresholds import Thresholds
 
 P = np.linspace(2, 4, 60)
 
@@ -149,8 +149,8 @@ def test_attention_puts_stop_flags_first_then_warnings_then_low_scores():
 
 
 def test_every_flag_has_a_sentence_and_a_severity():
-    from fitcore.flag_sentences import SENTENCES
-    from fitcore.diagnostics import SEVERITY
+    from fitcore.review.flags import SEVERITY
+    from fitcore.review.sentences import SENTENCES
     assert set(SENTENCES) == set(CODES) == set(SEVERITY)
     assert set(SEVERITY.values()) == {"stop", "warn"}
 

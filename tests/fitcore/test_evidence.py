@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 import fitcore
-from fitcore.evidence import band, curve, runner_up
+from fitcore.review.evidence import band, curve, runner_up
 from tests.conftest import random_dataset, series_arrays
 
 

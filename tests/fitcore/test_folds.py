@@ -2,11 +2,13 @@
 from __future__ import annotations
 
 import numpy as np
-from hypothesis import given, settings as hsettings, strategies as st
+from hypothesis import given
+from hypothesis import settings as hsettings
+from hypothesis import strategies as st
 from sklearn.model_selection import KFold, TimeSeriesSplit
 
 import fitcore
-from fitcore.folds import fold_ids, shuffle_order, split_indices
+from fitcore.fit.folds import fold_ids, shuffle_order, split_indices
 
 
 def offsets_of(counts):

@@ -10,7 +10,7 @@ import pytest
 import statsmodels.api as sm
 
 import fitcore
-from fitcore.influence import series_influence
+from fitcore.review.influence import series_influence
 from tests.conftest import random_dataset, series_arrays
 
 

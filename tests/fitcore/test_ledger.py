@@ -11,7 +11,7 @@ import time
 import pytest
 
 from fitcore import ledger
-from fitcore.decisions import replay, series_id
+from fitcore.ledger.replay import replay, series_id
 
 ANA = ledger.Identity("ana", "ana", "server-1")
 BO = ledger.Identity("bo", "bo", "server-1")

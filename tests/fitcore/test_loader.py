@@ -10,10 +10,12 @@ import re
 import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
-from hypothesis import HealthCheck, given, settings as hsettings, strategies as st
+from hypothesis import HealthCheck, given
+from hypothesis import settings as hsettings
+from hypothesis import strategies as st
 
+from fitcore.data.loader import Columns, load, load_with_rejects, write_rejects
 from fitcore.errors import DataError
-from fitcore.loader import Columns, load, load_with_rejects, write_rejects
 
 GOOD = [("a", "1.00", "30", "2025-01-06"), ("a", "1.20", "25", "2025-01-13"), ("b", "2.00", "10", "2025-01-06")]
 

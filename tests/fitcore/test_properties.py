@@ -2,7 +2,9 @@
 from __future__ import annotations
 
 import numpy as np
-from hypothesis import HealthCheck, assume, given, settings as hsettings, strategies as st
+from hypothesis import HealthCheck, assume, given
+from hypothesis import settings as hsettings
+from hypothesis import strategies as st
 
 import fitcore
 

@@ -13,10 +13,10 @@ import pyarrow.parquet as pq
 import pytest
 
 import fitcore
-from fitcore.diagnostics import diagnose
 from fitcore.errors import DataError
-from fitcore.results_io import write_results
-from fitcore.results_stored import stored_results
+from fitcore.results.stored import stored_results
+from fitcore.results.write import write_results
+from fitcore.review.flags import diagnose
 from tests.conftest import random_dataset
 
 ARRAYS = ("available", "cv_mse", "cv_se", "r2", "q2", "fold_start", "chosen", "price_lo", "price_hi",
@@ -67,7 +67,7 @@ def test_opening_results_imports_neither_pandas_nor_numba(tmp_path):
     """Both cost ~0.2–0.3 s at start-up; opening results needs neither."""
     results = fitcore.fit_batch(random_dataset(4, n_series=5))
     write_results(results, tmp_path / "r.parquet")
-    code = ("import sys; from fitcore.results_stored import stored_results; "
+    code = ("import sys; from fitcore.results.stored import stored_results; "
             f"stored_results({str(tmp_path / 'r.parquet')!r}); "
             "print(sorted(m for m in ('pandas', 'numba') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout

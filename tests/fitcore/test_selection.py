@@ -4,7 +4,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from fitcore.selection import choose
+from fitcore.fit.selection import choose
 
 COMPLEXITY = np.array([1, 2, 3, 2])  # poly0, poly1, poly2, loglog
 

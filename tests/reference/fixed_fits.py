@@ -49,7 +49,7 @@ DIGITS = 13  # numbers are kept to this many significant digits (the comparison 
 
 def dataset(name: str):
     import fitcore
-    from fitcore.loader import Columns, load
+    from fitcore.data.loader import Columns, load
     if name == "sample":
         return load(SAMPLE / "wholesale.csv", Columns(segments=("region",), date="week"))
     if name == "random":
@@ -62,7 +62,7 @@ def dataset(name: str):
 
 def plan_for(data, plan):
     if plan == "plan":
-        from fitcore.plan import plan_prices
+        from fitcore.data.plan import plan_prices
         return plan_prices(data, SAMPLE / "plan.csv")
     if plan == "per-series":
         return np.where(np.arange(data.n_series) % 4 == 3, np.nan,
@@ -75,8 +75,8 @@ def outputs(name: str) -> dict:
     import pyarrow.parquet as pq
 
     import fitcore
-    from fitcore.diagnostics import diagnose
-    from fitcore.results_io import write_results
+    from fitcore.results.write import write_results
+    from fitcore.review.flags import diagnose
     which, keywords, plan = FITS[name]
     data = dataset(which)
     results = fitcore.fit_batch(data, fitcore.FitSettings(**keywords), plan_price=plan_for(data, plan))

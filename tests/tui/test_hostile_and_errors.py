@@ -5,8 +5,8 @@ import csv
 
 import numpy as np
 
+from fitcore.data.loader import Columns
 from fitcore.errors import DataError
-from fitcore.loader import Columns
 from tests.tui.conftest import make_app, screen_text, started, until
 from tui.app import TriageApp
 from tui.factory import Source

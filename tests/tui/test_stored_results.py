@@ -72,8 +72,8 @@ def test_observations_in_another_series_order_keep_each_series_status(tmp_path):
     import numpy as np
 
     import fitcore
-    from fitcore.diagnostics import diagnose
-    from fitcore.loader import load
+    from fitcore.data.loader import load
+    from fitcore.review.flags import diagnose
     _, out = fit_to_parquet(tmp_path)
     session = open_stored_session(out, tmp_path / "ledger.jsonl", ANA)
     s = int(session.view[2])

@@ -6,7 +6,7 @@ import json
 import pytest
 
 from fitcore import ledger as fledger
-from fitcore.diagnostics import CODES
+from fitcore.review.flags import CODES
 from tests.tui.conftest import make_app, screen_text, started, until
 
 SIZES = [(80, 24), (160, 50)]

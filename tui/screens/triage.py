@@ -9,8 +9,8 @@ from textual.containers import Horizontal
 from textual.screen import Screen
 from textual.widgets import Footer, Static
 
-from fitcore.diagnostics import CODES
 from fitcore.errors import PricefoldError
+from fitcore.review.flags import CODES
 
 from ..help import help_text
 from ..session import FILTER_TITLES, FILTERS, SORT_TITLES, SORTS, TriageSession

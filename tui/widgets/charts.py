@@ -10,8 +10,8 @@ import numpy as np
 import plotext as plt
 from rich.text import Text
 
-from fitcore.evidence import band, curve, runner_up, series_rows
-from fitcore.results import Results
+from fitcore.fit.results import Results
+from fitcore.review.evidence import band, curve, runner_up, series_rows
 
 MARKER = "braille"  # renders in a plain xterm-256color; sextant markers often do not
 

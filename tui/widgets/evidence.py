@@ -10,7 +10,7 @@ from textual.app import ComposeResult
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
-from fitcore.flag_sentences import fmt, money
+from fitcore.review.sentences import fmt, money
 
 from ..session import TriageSession
 from ..text import clean, literal

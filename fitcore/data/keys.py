@@ -10,7 +10,7 @@ from functools import cached_property
 
 import numpy as np
 
-from .arrays import integers, numbers, texts
+from ..arrays import integers, numbers, texts
 
 SEPARATOR = " · "
 

@@ -6,10 +6,10 @@ from functools import cached_property
 
 import numpy as np
 
+from ..data.dataset import Dataset
 from . import reasons
 from .basis import plain_loglog, power_coefficients
 from .candidates import Candidate
-from .dataset import Dataset
 from .settings import FitSettings
 
 SCHEMA = "pricefold-results/1"

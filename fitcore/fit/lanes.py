@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .compiled import compiled
+from ..compiled import compiled
 
 # A held-out error below this fraction of the terms it is computed from has
 # lost most of its digits to cancellation: recompute it from the rows.

@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .compiled import compiled
+from ..compiled import compiled
 from .settings import FitSettings
 
 

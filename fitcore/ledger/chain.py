@@ -26,7 +26,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Callable, Iterable
 
-from .errors import PricefoldError
+from ..errors import PricefoldError
 
 SCHEMA = "pricefold-ledger/1"
 GENESIS = "0" * 64

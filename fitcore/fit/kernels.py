@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..compiled import compiled
 from . import lanes
-from .compiled import compiled
 
 # Above this condition number of the scaled Gram matrix a solve through it
 # keeps fewer than 8 significant digits (error ≈ condition × 1.1e-16); such

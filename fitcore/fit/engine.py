@@ -10,12 +10,12 @@ from typing import Callable
 
 import numpy as np
 
+from ..data.dataset import Dataset
+from ..errors import SettingsError
 from . import kernels
 from . import reasons as R
 from .basis import mapped, plain_loglog, window, window_rows
 from .candidates import candidates_for, complexity
-from .dataset import Dataset
-from .errors import SettingsError
 from .folds import FoldLayout, layout
 from .loglog import fit_loglog
 from .loo import leverages, loo_residuals

@@ -9,14 +9,16 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..compiled import compiled
 from .basis import mapped, width
-from .compiled import compiled
 from .polyfit import horner
 
 
 def t_quantile(level: float, df: np.ndarray) -> np.ndarray:
     """Student-t quantile at (1 + level)/2 for each df (computed once per distinct df)."""
-    from scipy.special import stdtrit  # imported on first use: scipy costs 0.2 s to import
+    from scipy.special import (
+        stdtrit,  # imported on first use: scipy costs 0.2 s to import
+    )
 
     df = np.maximum(np.asarray(df), 1)
     if df.size and df.max() <= 4096:  # a lookup table beats sorting for the usual sizes

@@ -6,8 +6,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from ..errors import DataError
 from .dataset import Dataset
-from .errors import DataError
 from .loader import Columns, read_rows
 
 

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from dataclasses import asdict, dataclass, field
 
-from .errors import SettingsError
+from ..errors import SettingsError
 
 MAX_DEGREE = 5
 FOLD_ORDERS = ("shuffled", "given", "time")

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from dataclasses import asdict, dataclass, fields
 
-from .errors import SettingsError
+from ..errors import SettingsError
 
 
 @dataclass(frozen=True)

@@ -7,10 +7,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .basis import mapped
-from .polyfit import horner
-from .prediction import t_quantile
-from .results import Results
+from ..fit.basis import mapped
+from ..fit.polyfit import horner
+from ..fit.prediction import t_quantile
+from ..fit.results import Results
 
 
 def series_rows(results: Results, s: int) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:

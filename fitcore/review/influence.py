@@ -13,9 +13,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..fit.polyfit import horner
+from ..fit.results import Results
 from .evidence import design_factor, leverage_at, mapped_rows, series_rows
-from .polyfit import horner
-from .results import Results
 
 
 def series_influence(results: Results, s: int) -> tuple[np.ndarray, np.ndarray]:

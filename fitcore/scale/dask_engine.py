@@ -23,8 +23,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .columns import Columns, file_sha256
-from .errors import DataError, SettingsError
+from ..data.columns import Columns, file_sha256
+from ..errors import DataError, SettingsError
 
 SUMMARY = "_summary.json"  # beside the part files; Parquet readers skip names starting with "_"
 
@@ -42,7 +42,7 @@ def pieces_of(path: Path, columns: Columns) -> list[Piece]:
     """The pieces of ``path``, in the order the local loader reads its rows (so line numbers agree)."""
     import pyarrow.parquet as pq
 
-    from .loader import _check_columns, check_file, file_kind
+    from ..data.loader import _check_columns, check_file, file_kind
     check_file(path)
     if not path.is_dir() and file_kind(path)[0] == "csv":
         return [Piece(str(path), None, 2)]
@@ -65,8 +65,8 @@ def read_piece(piece: Piece, columns: Columns, n_parts: int, sep: str | None = N
     import pyarrow as pa
     import pyarrow.parquet as pq
 
-    from .loader import _raw_from_table, read_rows
-    from .validation import reasons
+    from ..data.loader import _raw_from_table, read_rows
+    from ..data.validation import reasons
     if piece.row_group is None:
         rows, _, _ = read_rows(Path(piece.path), columns, sep)
     else:
@@ -92,7 +92,7 @@ def read_piece(piece: Piece, columns: Columns, n_parts: int, sep: str | None = N
 
 def partition_of(keys: dict[str, np.ndarray], n_parts: int) -> np.ndarray:
     """(N,) the partition of each row: its series' key hash (``Dataset.key_hash``) modulo ``n_parts``."""
-    from .dataset import hash_keys
+    from ..data.dataset import hash_keys
     return (hash_keys(keys) % np.uint64(n_parts)).astype(np.int64)
 
 
@@ -115,7 +115,7 @@ def gather_part(tables: list, columns: Columns):
     and date: ``(table, lines, reasons)`` of what remains and of what was set aside."""
     import pyarrow as pa
 
-    from .validation import duplicate_reason, duplicate_rows
+    from ..data.validation import duplicate_reason, duplicate_rows
     table = pa.concat_tables(tables)
     table = table.take(np.argsort(table.column("_line").to_numpy(), kind="stable"))
     if not columns.date or table.num_rows == 0:
@@ -131,11 +131,11 @@ def gather_part(tables: list, columns: Columns):
 
 def fit_part(p: int, table, job: PartJob) -> dict:
     """Fit, diagnose and write partition ``p`` (``part-p.parquet``); a small summary for the client."""
-    from .dataset import from_columns
-    from .diagnostics import diagnose
-    from .engine import fit_batch
-    from .plan import plan_prices
-    from .results_io import results_table, write_parquet
+    from ..data.dataset import from_columns
+    from ..data.plan import plan_prices
+    from ..fit.engine import fit_batch
+    from ..results.write import results_table, write_parquet
+    from ..review.flags import diagnose
     if table.num_rows == 0:
         return {"series": 0, "rows": 0, "none": 0, "clean": 0, "chosen": {}, "flags": {}, "plan_matched": 0}
 
@@ -242,7 +242,7 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
     source = {"path": str(path.resolve()), "sha256": file_sha256(path), "rows": sum(piece[2] for piece in found),
               "rejected": len(lines)}
     if source["rows"] == source["rejected"]:
-        from .validation import summary
+        from ..data.validation import summary
         raise DataError(f"no usable rows ({summary(reasons)})", path=str(path))
     del read
     job = PartJob(columns, settings, thresholds, str(plan_file) if plan_file else None, plan_price, source,

@@ -14,9 +14,9 @@ from pathlib import Path
 
 import numpy as np
 
-from .basis import plain_loglog, power_coefficients
-from .errors import DataError
-from .results import SCHEMA, Results
+from ..errors import DataError
+from ..fit.basis import plain_loglog, power_coefficients
+from ..fit.results import SCHEMA, Results
 
 
 def power_coef_table(results: Results) -> np.ndarray:

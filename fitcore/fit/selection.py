@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .compiled import compiled
+from ..compiled import compiled
 
 # Differences in mean CV error below this fraction of the series' variance
 # are round-off, not evidence: such candidates count as equal, so the

@@ -5,8 +5,8 @@ import json
 from collections.abc import Iterator
 from pathlib import Path
 
-from .errors import DataError
-from .results import SCHEMA
+from ..errors import DataError
+from ..fit.results import SCHEMA
 
 RUN_SUMMARY = "_summary.json"
 

@@ -10,7 +10,7 @@ from math import comb
 
 import numpy as np
 
-from .compiled import compiled
+from ..compiled import compiled
 
 
 def window(lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

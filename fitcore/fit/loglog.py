@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .compiled import compiled
+from ..compiled import compiled
 from .folds import FoldLayout
 from .kernels import trains_on
 from .loo import loo_residuals

@@ -20,9 +20,9 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from ..errors import DataError
 from .columns import Columns, file_sha256
 from .dataset import Dataset, from_columns
-from .errors import DataError
 
 CSV_SUFFIXES = {".csv": ",", ".tsv": "\t", ".txt": None}
 
@@ -298,7 +298,7 @@ def write_rejects(rejects: Rejects, out: Path) -> Path:
     import csv as stdcsv
     import io
 
-    from .results_io import _atomic_write
+    from ..results.write import _atomic_write
     wanted = dict(zip(rejects.lines.tolist(), rejects.reasons))
     buffer = io.StringIO()
     writer = stdcsv.writer(buffer, lineterminator="\n")

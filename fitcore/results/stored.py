@@ -15,17 +15,17 @@ from pathlib import Path
 
 import numpy as np
 
-from . import reasons
-from .arrays import integers, numbers
-from .basis import window
-from .candidates import candidates_for
-from .dataset import Dataset
-from .diagnostics import CODES, SEVERITY, Diagnosis
-from .errors import DataError
-from .results import Results
-from .results_read import read_header, result_parts
-from .settings import settings_from_dict
-from .thresholds import Thresholds
+from ..arrays import integers, numbers
+from ..data.dataset import Dataset
+from ..errors import DataError
+from ..fit import reasons
+from ..fit.basis import window
+from ..fit.candidates import candidates_for
+from ..fit.results import Results
+from ..fit.settings import settings_from_dict
+from ..review.flags import CODES, SEVERITY, Diagnosis
+from ..review.thresholds import Thresholds
+from .read import read_header, result_parts
 
 # The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
 NEEDED = ("n", "price_lo", "price_hi", "candidate", "available", "reason", "cv_mse", "cv_se", "fold_mse", "r2", "q2",
@@ -134,7 +134,7 @@ class StoredDiagnosis(Diagnosis):
     texts: object = None  # (S,) Arrow text: each series' flags as the file holds them (JSON), parsed on demand
 
     def flags_of(self, s: int) -> list[dict]:
-        from .flag_sentences import sentence
+        from ..review.sentences import sentence
         recorded = {e["code"]: e["message"] for e in json.loads(self.texts[s].as_py() or "[]")}
         return [{"code": code, "severity": SEVERITY[code],
                  "message": sentence(self, s, code) if code == "stale" else recorded.get(code, "")}

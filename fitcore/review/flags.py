@@ -11,11 +11,11 @@ from functools import cached_property
 
 import numpy as np
 
-from . import reasons as R
-from .basis import mapped
-from .compiled import compiled
-from .prediction import poly_value
-from .results import Results
+from ..compiled import compiled
+from ..fit import reasons as R
+from ..fit.basis import mapped
+from ..fit.prediction import poly_value
+from ..fit.results import Results
 from .thresholds import Thresholds
 
 # code, severity, meaning.  "stop": the proposed curve should not go into a plan
@@ -72,7 +72,7 @@ class Diagnosis:
         return self._attention
 
     def flags_of(self, s: int) -> list[dict]:
-        from .flag_sentences import sentence
+        from .sentences import sentence
         return [{"code": code, "severity": SEVERITY[code], "message": sentence(self, s, code)}
                 for i, code in enumerate(CODES) if self.raised[s, i]]
 

@@ -31,8 +31,8 @@ from __future__ import annotations
 import tomllib
 from pathlib import Path
 
-from .errors import SettingsError
-from .thresholds import Thresholds
+from ..errors import SettingsError
+from ..review.thresholds import Thresholds
 
 DEFAULT_NAME = "pricefold.toml"
 TEXT, NUMBER = (str,), (int, float)
