@@ -113,10 +113,10 @@ def recorded() -> dict:
 
 
 def differences(old, new, where: str = "", rtol: float = 1e-11) -> list[str]:
-    """Every place two outputs disagree: numbers beyond ``rtol`` (relative, or absolute near zero), anything else exactly."""
-    if isinstance(old, dict) and isinstance(new, dict):
-        if old.keys() != new.keys():
-            return [f"{where}: keys {sorted(old)} became {sorted(new)}"]
+    """Every place two outputs disagree (fields added to ``new`` are allowed): numbers beyond ``rtol`` (relative, or absolute near zero), anything else exactly."""
+    if isinstance(old, dict) and isinstance(new, dict):  # fields may be added, none lost
+        if old.keys() - new.keys():
+            return [f"{where}: lost {sorted(old.keys() - new.keys())}"]
         return [d for k in old for d in differences(old[k], new[k], f"{where}.{k}", rtol)]
     if isinstance(old, list) and isinstance(new, list):
         if len(old) != len(new):
