@@ -68,7 +68,8 @@ def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int) -> np.nd
     """(N,) a seeded permutation of each series' rows, series kept contiguous.
 
     Rows are ordered by the top 20 bits of their draw (``shuffle_draws``),
-    then by position; one numpy sort of packed keys does every series at once.
+    then by position; one numpy sort of packed keys does every series at once
+    (a lexsort to the same order when a series has 2²⁰ rows or more).
     """
     offsets = offsets.astype(np.int64)
     counts = np.diff(offsets)
@@ -80,11 +81,12 @@ def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int) -> np.nd
         packed.sort()
         unpack_rows(packed, offsets)
         return packed
-    # Too many rows or series to pack: order by the whole draw, then position.
+    # Too many rows or series to pack: the same order (top 20 bits of the draw, then position) by a
+    # lexsort, so a series' folds never depend on which other series share its chunk.
     draws = np.empty(n, dtype=np.uint64)
     shuffle_draws(offsets, key_hash.astype(np.uint64), seed, np.empty(0, np.int64), draws)
     series = np.repeat(np.arange(len(counts)), counts)
-    return np.lexsort((np.arange(n) - offsets[series], draws, series))
+    return np.lexsort((np.arange(n) - offsets[series], draws >> np.uint64(TOP_BITS_SHIFT), series))
 
 
 def layout(offsets: np.ndarray, settings: FitSettings, *, key_hash: np.ndarray | None = None,
@@ -127,6 +129,9 @@ def split_indices(offsets: np.ndarray, settings: FitSettings, series: int, **kwa
         yield (rows[ids < f] if cumulative else rows[ids != f]), rows[ids == f]
 
 
+TOP_BITS_SHIFT = 44  # a row's shuffle key is the top 64 − 44 = 20 bits of its draw
+
+
 @compiled
 def _splitmix64(x):
     z = x + np.uint64(0x9E3779B97F4A7C15)
@@ -160,4 +165,4 @@ def shuffle_draws(offsets, key_hash, seed, packed, draws):
             if whole:
                 draws[start + j] = draw
             else:
-                packed[start + j] = (s << 40) | (np.int64(draw >> np.uint64(44)) << 20) | j
+                packed[start + j] = (s << 40) | (np.int64(draw >> np.uint64(TOP_BITS_SHIFT)) << 20) | j
