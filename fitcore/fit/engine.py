@@ -14,11 +14,11 @@ from ..data.dataset import Dataset
 from ..errors import SettingsError
 from . import kernels
 from . import reasons as R
-from .basis import mapped, plain_loglog, window, window_rows
+from .basis import leverages, mapped, width, window, window_rows
 from .candidates import candidates_for, complexity
 from .folds import FoldLayout, layout
 from .loglog import fit_loglog
-from .loo import leverages, loo_residuals
+from .loo import loo_residuals
 from .polyfit import fit_family
 from .prediction import best_revenue_loglog, best_revenue_poly, loglog_at, poly_at
 from .results import Results
@@ -155,8 +155,7 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         log_mid = log_half = np.zeros(n_s)
 
     if ch.loo:
-        series = ch.per_row(np.arange(n_s))
-        resid, defined = loo_residuals(t, y, ch.weight, series, poly)
+        resid, defined = loo_residuals(t, y, ch.weight, ch.offsets, poly)
         fold_err = np.empty((len(t), n_c))
         fold_err[:, :n_p] = resid.T ** 2
         fold_ok[:, :n_p] &= defined.T
@@ -213,7 +212,7 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, cands, pl
         revenue_price[poly_rows] = best_revenue_poly(coef[poly_rows, chosen[poly_rows]].T, mid[poly_rows], half[poly_rows])
     if ll is not None:
         rows = np.flatnonzero(chosen == n_c - 1)
-        _, elasticity = plain_loglog(coef[rows, -1, 0], coef[rows, -1, 1], log_mid[rows], log_half[rows])
+        elasticity = coef[rows, -1, 1] / width(log_half[rows])
         revenue_price[rows] = best_revenue_loglog(elasticity, ch.lo[rows], ch.hi[rows])
     log_part = (u, z, ll) if ll is not None else None
     top_cook, top_row = _top_influence(ch, chosen, cands, coef, sigma2, t, poly, log_part)

@@ -69,8 +69,7 @@ def _leave_one_out(u, z, volume, w, lay: FoldLayout, log: FamilyFit, counts, a, 
     smear = segment_sums(weighted_exp, whole)[:, 0] / np.where(total_w > 0, total_w, 1.0)
     fitted = volume / full_exp
     sse_full = segment_sums(weight * (volume - fitted * np.repeat(smear, counts)) ** 2, whole)[:, 0]
-    series = np.repeat(np.arange(len(counts)), counts)
-    resid, defined = loo_residuals(u, z, w, series, log)
+    resid, defined = loo_residuals(u, z, w, np.append(whole[:, 0], whole[-1, -1]), log)
     others_w = np.repeat(total_w, counts) - weight
     smear_without = (np.repeat(smear * total_w, counts) - weighted_exp) / np.where(others_w > 0, others_w, 1.0)
     with np.errstate(over="ignore", invalid="ignore"):  # rows of leverage 1: marked undefined later

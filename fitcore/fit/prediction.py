@@ -10,8 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..compiled import compiled
-from .basis import mapped, width
-from .polyfit import horner
+from .basis import evaluate, mapped, polynomial, width
 
 
 def t_quantile(level: float, df: np.ndarray) -> np.ndarray:
@@ -27,22 +26,16 @@ def t_quantile(level: float, df: np.ndarray) -> np.ndarray:
     return stdtrit(distinct, 1 - (1 - level) / 2)[index.reshape(np.shape(df))]
 
 
-def derivative(coef: np.ndarray) -> np.ndarray:
-    """Coefficients (P, …) of d/dt Σ coef[k]·tᵏ (last one zero)."""
-    k = np.arange(1, coef.shape[0]).reshape((-1,) + (1,) * (coef.ndim - 1))
-    return np.concatenate([coef[1:] * k, np.zeros((1,) + coef.shape[1:])])
-
-
 def poly_at(coef, mid, half, leverage, sigma2, df, price, level):
     """Volume, interval bounds and elasticity of polynomial curves at ``price`` (each (S,)).
 
     ``leverage``: (S,) xᵀ(XᵀWX)⁻¹x at the price for this degree (``loo.leverages``).
     """
     t = mapped(price, mid, half)
-    volume = horner(coef, t)
+    volume = polynomial(coef.T, t)
     with np.errstate(invalid="ignore"):
         spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverage))
-    slope = horner(derivative(coef), t) / width(half)
+    slope = polynomial(coef.T, t, 1) / width(half)
     with np.errstate(divide="ignore", invalid="ignore"):
         elasticity = slope * price / volume
     return volume, volume - spread, volume + spread, elasticity
@@ -72,19 +65,6 @@ def best_revenue_loglog(elasticity: np.ndarray, lo: np.ndarray, hi: np.ndarray) 
 
 
 @compiled
-def poly_value(coef, s, t, order):
-    """The ``order``-th derivative (0, 1 or 2) at t of Σ coef[s, k]·tᵏ."""
-    p = coef.shape[1]
-    value = 0.0
-    for k in range(p - 1, order - 1, -1):
-        factor = 1.0
-        for m in range(order):
-            factor *= k - m
-        value = value * t + coef[s, k] * factor
-    return value
-
-
-@compiled
 def revenue_peak_poly(coef, mid, half, grid, out):
     """``out[s]``: the t in [-1, 1] maximising (mid + half·t) × Σ coef[s, k]·tᵏ.
 
@@ -94,26 +74,39 @@ def revenue_peak_poly(coef, mid, half, grid, out):
     (linear demand) and accurate to round-off for smooth ones.
     """
     step = 2.0 / (grid - 1)
+    p = coef.shape[1]
+    ts = np.empty(grid)
+    for g in range(grid):
+        ts[g] = -1.0 + g * step if g < grid - 1 else 1.0
+    values = np.empty(grid)
+    point = np.empty(1)
+    v = np.empty(1)
+    v1 = np.empty(1)
+    v2 = np.empty(1)
+    moved = np.empty(1)
     for s in range(coef.shape[0]):
+        evaluate(coef[s], p, 0, ts, values)
         best = -np.inf
         t = -1.0
         for g in range(grid):
-            tg = -1.0 + g * step if g < grid - 1 else 1.0
-            revenue = (mid[s] + half[s] * tg) * poly_value(coef, s, tg, 0)
+            revenue = (mid[s] + half[s] * ts[g]) * values[g]
             if revenue > best:
                 best = revenue
-                t = tg
+                t = ts[g]
         lo = max(t - step, -1.0)
         hi = min(t + step, 1.0)
         for _ in range(8):
-            p = mid[s] + half[s] * t
-            v = poly_value(coef, s, t, 0)
-            v1 = poly_value(coef, s, t, 1)
-            v2 = poly_value(coef, s, t, 2)
-            grad = half[s] * v + p * v1
-            curv = 2 * half[s] * v1 + p * v2
+            price = mid[s] + half[s] * t
+            point[0] = t
+            evaluate(coef[s], p, 0, point, v)
+            evaluate(coef[s], p, 1, point, v1)
+            evaluate(coef[s], p, 2, point, v2)
+            grad = half[s] * v[0] + price * v1[0]
+            curv = 2 * half[s] * v1[0] + price * v2[0]
             candidate = min(max(t - grad / curv, lo), hi)
             if curv < 0 and np.isfinite(candidate):
-                if (mid[s] + half[s] * candidate) * poly_value(coef, s, candidate, 0) >= p * v:
+                point[0] = candidate
+                evaluate(coef[s], p, 0, point, moved)
+                if (mid[s] + half[s] * candidate) * moved[0] >= price * v[0]:
                     t = candidate
         out[s] = t

@@ -8,7 +8,7 @@ import numpy as np
 
 from ..data.dataset import Dataset
 from . import reasons
-from .basis import plain_loglog, power_coefficients
+from .basis import power_coefficients
 from .candidates import Candidate
 from .settings import FitSettings
 
@@ -102,8 +102,7 @@ class Results:
         cand = self.candidates[c]
         if cand.family == "poly":
             return power_coefficients(self.coef[s, c, :cand.degree + 1], self.mid[s], self.half[s]).tolist()
-        a, e = plain_loglog(self.coef[s, c, 0], self.coef[s, c, 1], self.log_mid[s], self.log_half[s])
-        return [float(a), float(e)]
+        return power_coefficients(self.coef[s, c, :2], self.log_mid[s], self.log_half[s]).tolist()
 
     def folds_of(self, s: int) -> np.ndarray:
         """(K, C) held-out MSE per fold of series ``s``."""

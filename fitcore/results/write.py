@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import DataError
-from ..fit.basis import plain_loglog, power_coefficients
+from ..fit.basis import power_coefficients
 from ..fit.results import SCHEMA, Results
 
 
@@ -27,8 +27,7 @@ def power_coef_table(results: Results) -> np.ndarray:
             size = cand.degree + 1
             out[:, c, :size] = power_coefficients(results.coef[:, c, :size], results.mid, results.half)
         else:
-            out[:, c, 0], out[:, c, 1] = plain_loglog(results.coef[:, c, 0], results.coef[:, c, 1],
-                                                      results.log_mid, results.log_half)
+            out[:, c, :2] = power_coefficients(results.coef[:, c, :2], results.log_mid, results.log_half)
     return out
 
 

@@ -7,8 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..fit.basis import mapped
-from ..fit.polyfit import horner
+from ..fit.basis import leverages, mapped, polynomial, series_factor
 from ..fit.prediction import t_quantile
 from ..fit.results import Results
 
@@ -31,26 +30,22 @@ def curve(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
     cand = results.candidates[c]
     x = mapped_rows(results, s, c, np.asarray(prices, dtype=float))
     if cand.family == "poly":
-        return horner(results.coef[s, c, :cand.degree + 1][:, None], x)
+        return polynomial(results.coef[s, c, :cand.degree + 1], x)
     a, e = results.coef[s, c, :2]
     return np.exp(a + e * x) * results.smear[s]
 
 
-def design_factor(results: Results, s: int, c: int) -> np.ndarray:
-    """R of the QR factorisation of candidate ``c``'s weighted design matrix on series ``s``'s rows."""
+def design_factor(results: Results, s: int, c: int) -> tuple[np.ndarray, np.ndarray]:
+    """The scaled Cholesky factor of candidate ``c``'s weighted design on series ``s``'s rows (``series_factor``)."""
     price, _, weight = series_rows(results, s)
-    x_rows = mapped_rows(results, s, c, price)
-    root_w = np.ones_like(x_rows) if weight is None else np.sqrt(weight)
-    design = np.vander(x_rows, results.candidates[c].complexity, increasing=True) * root_w[:, None]
-    return np.linalg.qr(design, mode="r")
+    return series_factor(mapped_rows(results, s, c, price), weight, results.candidates[c].complexity)
 
 
-def leverage_at(r: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """xᵀ(XᵀWX)⁻¹x at mapped points ``x``, from the design's R."""
-    from scipy.linalg import solve_triangular
-
-    z = solve_triangular(r, np.vander(x, r.shape[0], increasing=True).T, trans="T")
-    return np.sum(z * z, axis=0)
+def leverage_at(factor: tuple[np.ndarray, np.ndarray], x: np.ndarray) -> np.ndarray:
+    """xᵀ(XᵀWX)⁻¹x at mapped points ``x``, under the full design of ``factor``."""
+    lower, scale = factor
+    x = np.asarray(x, dtype=float)
+    return leverages(x, lower[None], scale[None], np.array([0, len(x)]))[-1]
 
 
 def band(results: Results, s: int, c: int, prices: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -13,8 +13,7 @@ import numpy as np
 
 from ..compiled import compiled
 from ..fit import reasons as R
-from ..fit.basis import mapped
-from ..fit.prediction import poly_value
+from ..fit.basis import evaluate, mapped
 from ..fit.results import Results
 from .thresholds import Thresholds
 
@@ -200,9 +199,10 @@ def shape_scan(curve, chosen, is_poly, mid, half, log_mid, log_half, smear, t,
             price[g] = mid[s] + half[s] * t[g]
         if is_poly[c]:
             across = half[s] if half[s] > 0 else 1.0
+            evaluate(curve[s], curve.shape[1], 0, t, volume)
+            evaluate(curve[s], curve.shape[1], 1, t, slope)
             for g in range(n_grid):
-                volume[g] = poly_value(curve, s, t[g], 0)
-                slope[g] = poly_value(curve, s, t[g], 1) / across
+                slope[g] = slope[g] / across
         else:
             e = curve[s, 1] / (log_half[s] if log_half[s] > 0 else 1.0)
             a = curve[s, 0] - e * log_mid[s]

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..fit.polyfit import horner
+from ..fit.basis import polynomial
 from ..fit.results import Results
 from .evidence import design_factor, leverage_at, mapped_rows, series_rows
 
@@ -29,7 +29,7 @@ def series_influence(results: Results, s: int) -> tuple[np.ndarray, np.ndarray]:
     w = np.ones_like(x) if weight is None else weight
     h = w * leverage_at(design_factor(results, s, c), x)
     if cand.family == "poly":
-        resid = volume - horner(results.coef[s, c, :cand.degree + 1][:, None], x)
+        resid = volume - polynomial(results.coef[s, c, :cand.degree + 1], x)
     else:
         resid = np.log(volume) - (results.coef[s, c, 0] + results.coef[s, c, 1] * x)
     with np.errstate(divide="ignore", invalid="ignore"):
