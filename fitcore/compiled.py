@@ -3,9 +3,10 @@
 A series' rows, its fold moments and its ≤ 6 × 6 Gram matrices fit in
 registers and L1 cache, so one compiled pass per series replaces dozens of
 numpy passes over a chunk.  Each loop lives beside the numpy code that calls
-it (``kernels`` and ``lanes`` for the least-squares fits, ``loglog``,
-``folds``, ``prediction``, ``basis``, ``diagnostics``, ``selection``); this
-module only defers the compiling.
+it (``fit.kernels`` and ``fit.lanes`` for the least-squares fits,
+``fit.families.logvolume`` for the smearing, ``fit.families.poly`` for the
+revenue peak, ``fit.basis``, ``fit.scores``, ``fit.shuffle``,
+``fit.selection``, ``review.flags``); this module only defers the compiling.
 
 Importing ``fitcore`` (say, to open a results file) then costs no numba
 import (~0.2 s).  On the first call of any loop, every registered loop is

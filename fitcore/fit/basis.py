@@ -172,16 +172,21 @@ def _bounds(n_points: int, offsets) -> np.ndarray:
 
 
 def polynomial(coef: np.ndarray, t: np.ndarray, order: int = 0, offsets: np.ndarray | None = None) -> np.ndarray:
-    """Values (``order`` 0) or derivatives in t of polynomials at points ``t`` (N,), through ``evaluate``.
+    """Values (``order`` 0) or derivatives in t of polynomials at points ``t``, through ``evaluate``.
 
-    ``coef``: (P,) one polynomial at every point; or (S, P), polynomial s at
-    points ``offsets[s]:offsets[s + 1]`` (default: one point each).
+    ``coef``: (P,) one polynomial at every point of ``t`` (any shape); (S, P)
+    with ``t`` (S,) or (S, G), polynomial s at ``t[s]``; or (S, P) with ``t``
+    (N,), polynomial s at points ``offsets[s]:offsets[s + 1]``.
     """
     t = np.ascontiguousarray(t, dtype=np.float64)
     coef = np.ascontiguousarray(coef, dtype=np.float64)
     out = np.empty(t.shape)
     if coef.ndim == 1:
         evaluate(coef, coef.shape[0], order, t.reshape(-1), out.reshape(-1))
+    elif offsets is None:
+        per_row = t.reshape(len(coef), -1)
+        bounds = np.arange(0, t.size + 1, max(per_row.shape[1], 1), dtype=np.int64)[:len(coef) + 1]
+        _evaluate_segments(coef, bounds, coef.shape[1], order, t.reshape(-1), out.reshape(-1))
     else:
         _evaluate_segments(coef, _bounds(len(t), offsets), coef.shape[1], order, t, out)
     return out

@@ -6,7 +6,6 @@ from dataclasses import asdict, dataclass, field
 from ..errors import SettingsError
 
 MAX_DEGREE = 5
-FOLD_ORDERS = ("shuffled", "given", "time")
 RULES = ("one-se", "lowest")
 
 
@@ -36,13 +35,8 @@ class FitSettings:
             raise SettingsError(f"expected distinct degrees in increasing order, got {list(self.degrees)}")
         if self.degrees[0] < 0 or self.degrees[-1] > MAX_DEGREE:
             raise SettingsError(f"expected degrees between 0 and {MAX_DEGREE}, got {list(self.degrees)}")
-        if self.folds != "loo":
-            if isinstance(self.folds, bool) or not isinstance(self.folds, int) or self.folds < 2:
-                raise SettingsError(f"expected --folds to be a whole number of at least 2 or 'loo', got {self.folds!r}")
-        if self.fold_order not in FOLD_ORDERS:
-            raise SettingsError(f"expected --fold-order to be one of {', '.join(FOLD_ORDERS)}, got {self.fold_order!r}")
-        if self.folds == "loo" and self.fold_order != "shuffled":
-            raise SettingsError("--fold-order does not apply to --folds loo (every point is held out once)")
+        from .folds import fold_scheme
+        fold_scheme(self)  # folds, fold order and seed are checked by the scheme they make
         if self.rule not in RULES:
             raise SettingsError(f"expected --rule to be one of {', '.join(RULES)}, got {self.rule!r}")
         if not 0.5 < self.level < 1:

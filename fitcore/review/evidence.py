@@ -1,14 +1,15 @@
 """Curves and prediction bands of one series over a grid of prices, for charts.
 
-Refits only the series being looked at (a QR factorisation of its own small
-design matrix), so nothing beyond ``Results`` needs to be kept per series.
+Refits only the series being looked at (its own small design, factored
+as the engine factors its fits), so nothing beyond ``Results`` needs to be
+kept per series.  Every family is drawn through its own hooks.
 """
 from __future__ import annotations
 
 import numpy as np
 
-from ..fit.basis import leverages, mapped, polynomial, series_factor
-from ..fit.prediction import t_quantile
+from ..fit.basis import leverages, series_factor
+from ..fit.families.base import t_quantile
 from ..fit.results import Results
 
 
@@ -18,21 +19,22 @@ def series_rows(results: Results, s: int) -> tuple[np.ndarray, np.ndarray, np.nd
     return data.price[rows], data.volume[rows], None if data.weight is None else data.weight[rows]
 
 
+def basis_of(results: Results, s: int, c: int):
+    """Candidate ``c`` of series ``s``: its family, coefficients (size,), window mid and half, smearing."""
+    size = results.candidates[c].complexity
+    return (results.family_of(c), np.asarray(results.coef[s, c, :size], dtype=float),
+            float(results.basis_mid[s, c]), float(results.basis_half[s, c]), float(results.smear[s, c]))
+
+
 def mapped_rows(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
-    if results.candidates[c].family == "poly":
-        return mapped(prices, results.mid[s], results.half[s])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return mapped(np.log(prices), results.log_mid[s], results.log_half[s])
+    family, _, mid, half, _ = basis_of(results, s, c)
+    return family.coordinate(np.asarray(prices, dtype=float), mid, half)
 
 
 def curve(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
     """Volume of candidate ``c`` of series ``s`` at ``prices`` (point prediction)."""
-    cand = results.candidates[c]
-    x = mapped_rows(results, s, c, np.asarray(prices, dtype=float))
-    if cand.family == "poly":
-        return polynomial(results.coef[s, c, :cand.degree + 1], x)
-    a, e = results.coef[s, c, :2]
-    return np.exp(a + e * x) * results.smear[s]
+    family, coef, mid, half, smear = basis_of(results, s, c)
+    return family.curve(coef, mid, half, smear, np.asarray(prices, dtype=float))
 
 
 def design_factor(results: Results, s: int, c: int) -> tuple[np.ndarray, np.ndarray]:
@@ -50,16 +52,12 @@ def leverage_at(factor: tuple[np.ndarray, np.ndarray], x: np.ndarray) -> np.ndar
 
 def band(results: Results, s: int, c: int, prices: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Lower and upper prediction-interval bounds (``results.settings.level``) at ``prices``."""
-    cand = results.candidates[c]
-    x_grid = mapped_rows(results, s, c, np.asarray(prices, dtype=float))
-    leverage = leverage_at(design_factor(results, s, c), x_grid)
-    spread = t_quantile(results.settings.level, np.array([results.df[s, c]]))[0] * np.sqrt(
-        results.sigma2[s, c] * (1 + leverage))
-    if cand.family == "poly":
-        centre = curve(results, s, c, prices)
-        return centre - spread, centre + spread
-    log_centre = results.coef[s, c, 0] + results.coef[s, c, 1] * x_grid
-    return np.exp(log_centre - spread), np.exp(log_centre + spread)
+    family, coef, mid, half, smear = basis_of(results, s, c)
+    prices = np.asarray(prices, dtype=float)
+    leverage = leverage_at(design_factor(results, s, c), family.coordinate(prices, mid, half))
+    _, lower, upper, _ = family.at(coef, mid, half, smear, leverage, results.sigma2[s, c], results.df[s, c],
+                                   prices, results.settings.level)
+    return lower, upper
 
 
 def runner_up(results: Results, s: int) -> int:

@@ -188,7 +188,7 @@ def test_loglog_smearing_is_exact_for_folds_near_and_far_from_the_full_fit(order
     """A fold's smearing sum comes from a series in its slope gap δ when |δ| ≤ TAYLOR_REACH (mapped units),
     from the rows otherwise; both regimes must equal brute-force refits (numpy lstsq)."""
     from fitcore.fit.folds import split_indices
-    from fitcore.fit.loglog import TAYLOR_REACH
+    from fitcore.fit.families.logvolume import TAYLOR_REACH
     rng = np.random.default_rng(11)
     counts = rng.integers(7, 16, 150)
     total = int(counts.sum())
