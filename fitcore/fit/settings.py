@@ -21,6 +21,7 @@ class FitSettings:
 
     degrees: tuple[int, ...] = (0, 1, 2, 3, 4, 5)
     loglog: bool = True
+    semilog: bool = False
     folds: int | str = 5
     fold_order: str = "shuffled"
     seed: int = 0
@@ -59,8 +60,9 @@ def provenance(columns: dict, plan_file: str | None, plan_price: float | None) -
 
 def settings_from_dict(values: dict) -> FitSettings:
     """The ``FitSettings`` recorded in a results file (extra entries kept in ``extra``)."""
-    known = {"degrees", "loglog", "folds", "fold_order", "seed", "rule", "level"}
-    return FitSettings(degrees=tuple(values["degrees"]), loglog=values["loglog"], folds=values["folds"],
+    known = {"degrees", "loglog", "semilog", "folds", "fold_order", "seed", "rule", "level"}
+    return FitSettings(degrees=tuple(values["degrees"]), loglog=values["loglog"],
+                       semilog=values.get("semilog", False), folds=values["folds"],
                        fold_order=values["fold_order"], seed=values["seed"], rule=values["rule"],
                        level=values["level"], extra={k: v for k, v in values.items() if k not in known})
 

@@ -2,6 +2,7 @@
 
     poly       volume = Σ cₖ·tᵏ, t the price mapped onto [-1, 1]; degrees 0–5
     loglog     ln volume = a + e·ln price (constant elasticity)
+    semilog    ln volume = a + b·price (constant semi-elasticity; off unless asked for)
 
 ``FAMILIES`` lists them in the order their candidates appear; a ``Lineup``
 is the families a fit uses, each with the columns of its candidates.
@@ -17,8 +18,9 @@ import numpy as np
 from .base import Candidate, Family, Fitted
 from .loglog import LogLog
 from .poly import Polynomial
+from .semilog import SemiLog
 
-FAMILIES: tuple[Family, ...] = (Polynomial(), LogLog())
+FAMILIES: tuple[Family, ...] = (Polynomial(), LogLog(), SemiLog())
 BY_NAME = {family.name: family for family in FAMILIES}
 
 __all__ = ["BY_NAME", "FAMILIES", "Candidate", "Family", "Fitted", "Lineup", "candidates_for", "lineup_for"]
