@@ -15,6 +15,7 @@ from ..compiled import compiled
 from ..fit import reasons as R
 from ..fit.basis import polynomial
 from ..fit.results import Results
+from .attention import attention_order
 from .thresholds import Thresholds
 
 # code, severity, meaning.  "stop": the proposed curve should not go into a plan
@@ -61,14 +62,12 @@ class Diagnosis:
 
     @cached_property
     def _attention(self) -> np.ndarray:
-        score = self.results.score
-        score_key = np.where(np.isnan(score), -np.inf, score)
-        order = np.lexsort((np.arange(len(score)), score_key, -self.n_warn(), -self.n_stop()))
+        order = attention_order(self.n_stop(), self.n_warn(), self.results.score)
         order.flags.writeable = False
         return order
 
     def attention_order(self) -> np.ndarray:
-        """Series indices, most in need of a human first: stop flags, then warn flags, then lowest score."""
+        """Series indices, most in need of a human first (``attention``: stop flags, warn flags, low score)."""
         return self._attention
 
     def flags_of(self, s: int) -> list[dict]:
