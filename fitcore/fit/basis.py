@@ -4,7 +4,7 @@ A family fits a polynomial in t = (x − mid) / half, where x is its regressor
 (price, or ln price) and [mid − half, mid + half] the series' range of x:
 the regressor mapped onto [-1, 1].  Coefficients of powers of t are what
 the engine keeps.  Here: the window, the mapping, the polynomial's value and
-derivatives (``evaluate``, the one evaluator), the leverage of a point under a
+derivatives (``horner``, the one evaluator), the leverage of a point under a
 fit's scaled Cholesky factor (``leverage``, the one leverage), one series'
 factor computed from its rows, and the re-expansion in powers of x itself
 (plain coefficients) for display and export.
@@ -90,34 +90,26 @@ def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low):
         y_low[s] = least
 
 
-@compiled
-def evaluate(coef, size, order, t, out):
-    """``out[i]`` = the ``order``-th derivative in t of Σ_{k < size} coef[k]·tᵏ at t[i], i < len(t).
+@compiled(inline=True)
+def horner(coef, s, size, order, t):
+    """The ``order``-th derivative in t of Σ_{k < size} coef[s, k]·tᵏ at the point t.
 
     The one polynomial evaluator: curve values, slopes, residuals and revenue
     all go through it (two compiled fit loops in ``kernels`` sum rising powers
-    as they go instead: see there).  Horner's rule from the top coefficient,
-    every step over all points at once (the innermost loop: vector instructions).
+    as they go instead: see there).  Horner's rule from the top coefficient.
     """
-    n = len(t)
     if order >= size:
-        for i in range(n):
-            out[i] = 0.0
-        return
+        return 0.0
+    value = 0.0
     for k in range(size - 1, order - 1, -1):
         factor = 1.0
         for m in range(order):
             factor *= k - m
-        c = coef[k] * factor
-        if k == size - 1:
-            for i in range(n):
-                out[i] = c
-        else:
-            for i in range(n):
-                out[i] = out[i] * t[i] + c
+        value = coef[s, k] * factor if k == size - 1 else value * t + coef[s, k] * factor
+    return value
 
 
-@compiled
+@compiled(inline=True)
 def leverage(x, lower, scale, size, power, v, out, at):
     """``out[r, at + i]`` = xᵢᵀ(XᵀWX)⁻¹xᵢ under the leading r + 1 coefficients (r < size), where
     xᵢ = (1, t, t², …) at t = x[i]: ‖L⁻¹D·xᵢ‖² with L Lᵀ = D XᵀWX D (``lower`` (P, P), D = diag(``scale``)).
@@ -152,7 +144,8 @@ def leverage(x, lower, scale, size, power, v, out, at):
 @compiled
 def _evaluate_segments(coef, bounds, size, order, t, out):
     for s in range(len(bounds) - 1):
-        evaluate(coef[s], size, order, t[bounds[s]:bounds[s + 1]], out[bounds[s]:bounds[s + 1]])
+        for i in range(bounds[s], bounds[s + 1]):
+            out[i] = horner(coef, s, size, order, t[i])
 
 
 @compiled
@@ -167,29 +160,54 @@ def _leverage_segments(x, lower, scale, bounds, out):
         leverage(x[bounds[s]:bounds[s + 1]], lower[s], scale[s], p, power, v, out, bounds[s])
 
 
+@compiled
+def _evaluate_rows(coef, size, order, t, out, slope):
+    both = slope.shape[0] > 0
+    for s in range(t.shape[0]):
+        for g in range(t.shape[1]):
+            out[s, g] = horner(coef, s, size, order, t[s, g])
+            if both:
+                slope[s, g] = horner(coef, s, size, order + 1, t[s, g])
+
+
 def _bounds(n_points: int, offsets) -> np.ndarray:
     return np.arange(n_points + 1, dtype=np.int64) if offsets is None else np.asarray(offsets, dtype=np.int64)
 
 
 def polynomial(coef: np.ndarray, t: np.ndarray, order: int = 0, offsets: np.ndarray | None = None) -> np.ndarray:
-    """Values (``order`` 0) or derivatives in t of polynomials at points ``t``, through ``evaluate``.
+    """Values (``order`` 0) or derivatives in t of polynomials at points ``t``, through ``horner``.
 
     ``coef``: (P,) one polynomial at every point of ``t`` (any shape); (S, P)
     with ``t`` (S,) or (S, G), polynomial s at ``t[s]``; or (S, P) with ``t``
     (N,), polynomial s at points ``offsets[s]:offsets[s + 1]``.
     """
-    t = np.ascontiguousarray(t, dtype=np.float64)
     coef = np.ascontiguousarray(coef, dtype=np.float64)
+    t = np.asarray(t, dtype=np.float64)
     out = np.empty(t.shape)
+    if coef.ndim == 2 and offsets is None:  # any strides (a grid broadcast over the series is not copied)
+        if not len(coef):
+            return out
+        _evaluate_rows(coef, coef.shape[1], order, t.reshape(len(coef), -1), out.reshape(len(coef), -1),
+                       np.empty((0, 0)))
+        return out
+    t = np.ascontiguousarray(t)
     if coef.ndim == 1:
-        evaluate(coef, coef.shape[0], order, t.reshape(-1), out.reshape(-1))
-    elif offsets is None:
-        per_row = t.reshape(len(coef), -1)
-        bounds = np.arange(0, t.size + 1, max(per_row.shape[1], 1), dtype=np.int64)[:len(coef) + 1]
-        _evaluate_segments(coef, bounds, coef.shape[1], order, t.reshape(-1), out.reshape(-1))
+        _evaluate_segments(coef[None], np.array([0, t.size], dtype=np.int64), coef.shape[0], order, t.reshape(-1),
+                           out.reshape(-1))
     else:
         _evaluate_segments(coef, _bounds(len(t), offsets), coef.shape[1], order, t, out)
     return out
+
+
+def values_and_slopes(coef: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Values and first derivatives in t of polynomial s (``coef`` (S, P)) at points ``t[s]`` (S, G), in one
+    pass through ``horner`` (the same numbers as two calls of ``polynomial``)."""
+    coef = np.ascontiguousarray(coef, dtype=np.float64)
+    t = np.asarray(t, dtype=np.float64)
+    value, slope = np.empty(t.shape), np.empty(t.shape)
+    if len(coef):
+        _evaluate_rows(coef, coef.shape[1], 0, t, value, slope)
+    return value, slope
 
 
 def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray, offsets: np.ndarray | None = None) -> np.ndarray:

@@ -95,7 +95,7 @@ def _row_errors(x, y, w, weighted, bounds, fold_of_block, degrees, coef, power, 
     """One series' weighted squared errors from its rows: ``acc[f, j]`` held out in fold f,
     ``acc[F, j]`` in sample; ``coef`` (F + 1, D, P) as ``family_fit`` writes it.
 
-    The fits are summed in rising powers of x (not by ``basis.evaluate``'s Horner rule): the
+    The fits are summed in rising powers of x (not by ``basis.horner``'s rule): the
     errors of near-exact fits recomputed here are round-off, and the recorded fixed fits pin them.
     """
     n_folds = coef.shape[0] - 1

@@ -173,14 +173,16 @@ def _shape(results: Results) -> dict:
     out = {name: np.full(results.n_series, np.nan) for name in names}
     grid = np.linspace(-1.0, 1.0, GRID)
     chosen = results.chosen
+    coef = np.asarray(results.coef)
     for family, cols in results.lineup.groups:
+        width = int(results.lineup.complexity[cols].max())  # the family's widest candidate
         series = np.flatnonzero((chosen >= cols.start) & (chosen < cols.stop))
         for start in range(0, len(series), SHAPE_BLOCK):
             rows = series[start:start + SHAPE_BLOCK]
             c = chosen[rows]
             mid, half = results.mid[rows], results.half[rows]
             price = mid[:, None] + half[:, None] * grid
-            volume, slope = family.on_grid(np.asarray(results.coef)[rows, c], results.basis_mid[rows, c],
+            volume, slope = family.on_grid(coef[rows, c, :width], results.basis_mid[rows, c],
                                            results.basis_half[rows, c], results.smear[rows, c], price,
                                            np.broadcast_to(grid, price.shape))
             found = [np.empty(len(rows)) for _ in names]
@@ -256,14 +258,15 @@ def _near_tie(results: Results):
 def _mid_volumes(results: Results) -> np.ndarray:
     """(S, C) each candidate's fitted volume at the middle of the observed prices."""
     out = np.empty(results.available.shape)
-    middle = np.zeros(results.n_series)  # the price window's own coordinate there
+    n_s = results.n_series
     coef = np.asarray(results.coef)
-    for family, cols in results.lineup.groups:
-        for c in range(cols.start, cols.stop):
-            t = family.grid_coordinate(results.mid, middle, results.basis_mid[:, c], results.basis_half[:, c])
-            with np.errstate(invalid="ignore", over="ignore"):
-                out[:, c] = family.volume(polynomial(coef[:, c, :results.candidates[c].complexity], t),
-                                          results.smear[:, c])
+    for family, cols in results.lineup.groups:  # all of a family's candidates in one pass
+        k, width = cols.stop - cols.start, int(results.lineup.complexity[cols].max())
+        t = family.grid_coordinate(np.repeat(results.mid, k), np.zeros(n_s * k),
+                                   results.basis_mid[:, cols].ravel(), results.basis_half[:, cols].ravel())
+        with np.errstate(invalid="ignore", over="ignore"):
+            fitted = polynomial(coef[:, cols, :width].reshape(n_s * k, width), t)
+            out[:, cols] = family.volume(fitted, results.smear[:, cols].ravel()).reshape(n_s, k)
     return out
 
 

@@ -3,7 +3,7 @@
 A family is a set of candidates that are polynomials in one mapped
 regressor: t = (x − mid)/half, x = price or ln price, [mid − half, mid + half]
 the series' range of x (``basis``).  Shared code maps prices into that
-coordinate, evaluates the polynomial (``basis.evaluate``) and builds the
+coordinate, evaluates the polynomial (``basis.horner``) and builds the
 interval; the family's hooks say what the polynomial means:
 
 - ``candidates(settings)``: its candidates (names, complexity), or none when switched off;
@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..basis import mapped, polynomial, power_coefficients, window
+from ..basis import mapped, polynomial, power_coefficients, values_and_slopes, window
 
 
 @dataclass(frozen=True)
@@ -153,9 +153,10 @@ class Family:
         """Volume and dV/dprice (n, G) of curves ``coef`` (n, P) at prices (n, G) whose coordinate in
         each series' price window is ``t_price``; ``mid``, ``half``, ``smear``: (n,)."""
         t = self.grid_coordinate(price, t_price, mid[:, None], half[:, None])
+        fitted, fitted_t = values_and_slopes(coef, t)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            volume = self.volume(polynomial(coef, t), smear[:, None])
-            return volume, self.slope(polynomial(coef, t, 1), volume, half[:, None], price)
+            volume = self.volume(fitted, smear[:, None])
+            return volume, self.slope(fitted_t, volume, half[:, None], price)
 
     def plain(self, coef, mid, half):
         """Coefficients of powers of the regressor itself (``basis.power_coefficients``)."""

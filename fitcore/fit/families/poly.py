@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ...compiled import compiled
-from ..basis import evaluate, width
+from ..basis import horner, width
 from ..loo import loo_residuals
 from ..polyfit import fit_family
 from ..scores import along_folds
@@ -78,38 +78,26 @@ def revenue_peak(coef, mid, half, grid, out):
     """
     step = 2.0 / (grid - 1)
     p = coef.shape[1]
-    ts = np.empty(grid)
-    for g in range(grid):
-        ts[g] = -1.0 + g * step if g < grid - 1 else 1.0
-    values = np.empty(grid)
-    point = np.empty(1)
-    v = np.empty(1)
-    v1 = np.empty(1)
-    v2 = np.empty(1)
-    moved = np.empty(1)
     for s in range(coef.shape[0]):
-        evaluate(coef[s], p, 0, ts, values)
         best = -np.inf
         t = -1.0
         for g in range(grid):
-            revenue = (mid[s] + half[s] * ts[g]) * values[g]
+            tg = -1.0 + g * step if g < grid - 1 else 1.0
+            revenue = (mid[s] + half[s] * tg) * horner(coef, s, p, 0, tg)
             if revenue > best:
                 best = revenue
-                t = ts[g]
+                t = tg
         lo = max(t - step, -1.0)
         hi = min(t + step, 1.0)
         for _ in range(8):
             price = mid[s] + half[s] * t
-            point[0] = t
-            evaluate(coef[s], p, 0, point, v)
-            evaluate(coef[s], p, 1, point, v1)
-            evaluate(coef[s], p, 2, point, v2)
-            grad = half[s] * v[0] + price * v1[0]
-            curv = 2 * half[s] * v1[0] + price * v2[0]
+            v = horner(coef, s, p, 0, t)
+            v1 = horner(coef, s, p, 1, t)
+            v2 = horner(coef, s, p, 2, t)
+            grad = half[s] * v + price * v1
+            curv = 2 * half[s] * v1 + price * v2
             candidate = min(max(t - grad / curv, lo), hi)
             if curv < 0 and np.isfinite(candidate):
-                point[0] = candidate
-                evaluate(coef[s], p, 0, point, moved)
-                if (mid[s] + half[s] * candidate) * moved[0] >= price * v[0]:
+                if (mid[s] + half[s] * candidate) * horner(coef, s, p, 0, candidate) >= price * v:
                     t = candidate
         out[s] = t
