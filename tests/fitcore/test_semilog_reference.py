@@ -5,8 +5,8 @@ coefficients, ``get_prediction(...).summary_frame(alpha=0.05)`` for the
 log-scale prediction interval (exponentiated), ``get_influence()`` for
 leverage and Cook's distance; Duan's smearing estimate (Duan 1983, J. Am.
 Stat. Assoc. 78:605–610: the mean of exp(residual)); brute-force refits
-(numpy ``lstsq``) on every training set for the cross-validation errors, as
-for the log-log candidate in ``test_crossval_reference.py``.  The
+(numpy ``lstsq``) on every training set for the cross-validation errors, the
+same refits that check the log-log candidate (``test_crossval_reference.py``).  The
 revenue-best price −1/b of price·exp(a + b·price) is calculus (common practice).
 """
 from __future__ import annotations
@@ -16,9 +16,9 @@ import pytest
 import statsmodels.api as sm
 
 import fitcore
-from fitcore.fit.folds import split_indices
 from fitcore.review.influence import series_influence
-from tests.conftest import random_dataset, series_arrays
+from tests.conftest import random_dataset, series_arrays, series_folds
+from tests.fitcore.test_crossval_reference import refit_log_line_folds, refit_log_line_loo
 
 
 def semilog_data(seed: int, n_series: int = 40, with_weight: bool = False, with_date: bool = False):
@@ -64,19 +64,6 @@ def test_coefficients_interval_and_elasticity_match_statsmodels(weighted):
         np.testing.assert_allclose(results.sigma2[s, c], fit.scale, rtol=1e-8)
 
 
-def brute_force_semilog_folds(x, y, w, splits):
-    """Per-fold weighted MSE in volume units of ln y = a + b·x refitted on each training set, Duan-smeared."""
-    out = []
-    for train, test in splits:
-        design = np.column_stack([np.ones(len(train)), x[train]])
-        root = np.sqrt(w[train])
-        beta = np.linalg.lstsq(design * root[:, None], np.log(y[train]) * root, rcond=None)[0]
-        smear = np.average(np.exp(np.log(y[train]) - design @ beta), weights=w[train])
-        predicted = np.exp(beta[0] + beta[1] * x[test]) * smear
-        out.append(np.average((y[test] - predicted) ** 2, weights=w[test]))
-    return np.array(out)
-
-
 @pytest.mark.parametrize("order, weighted", [("given", False), ("shuffled", False), ("shuffled", True),
                                              ("time", True)])
 def test_fold_errors_match_refitting_each_fold(order, weighted):
@@ -88,12 +75,8 @@ def test_fold_errors_match_refitting_each_fold(order, weighted):
     for s in range(data.n_series):
         if not results.available[s, c]:
             continue
-        lo, hi = data.offsets[s], data.offsets[s + 1]
-        splits = [(train - lo, test - lo) for train, test in
-                  split_indices(data.offsets, settings, s, key_hash=data.key_hash, date=data.date)]
-        x, y = series_arrays(data, s)
-        w = np.ones_like(x) if data.weight is None else data.weight[lo:hi]
-        per_fold = brute_force_semilog_folds(x, y, w, splits)
+        x, y, w, splits = series_folds(data, settings, s)
+        per_fold = refit_log_line_folds(x, y, w, splits)
         np.testing.assert_allclose(results.folds_of(s)[:, c], per_fold, rtol=1e-9)
         np.testing.assert_allclose(results.cv_mse[s, c], per_fold.mean(), rtol=1e-9)
         checked += 1
@@ -107,14 +90,7 @@ def test_leave_one_out_errors_are_exact_refits():
     c = results.names.index("semilog")
     for s in range(data.n_series):
         x, y = series_arrays(data, s)
-        design = np.column_stack([np.ones(len(x)), x])
-        full = np.linalg.lstsq(design, np.log(y), rcond=None)[0]
-        full_exp = np.exp(np.log(y) - design @ full)
-        errors = []
-        for i in range(len(x)):
-            keep = np.arange(len(x)) != i
-            beta = np.linalg.lstsq(design[keep], np.log(y[keep]), rcond=None)[0]
-            errors.append((y[i] - np.exp(design[i] @ beta) * full_exp[keep].mean()) ** 2)
+        errors = refit_log_line_loo(x, y)
         np.testing.assert_allclose(results.folds_of(s)[:, c], errors, rtol=1e-9)
         np.testing.assert_allclose(results.cv_mse[s, c], np.mean(errors), rtol=1e-9)
 
