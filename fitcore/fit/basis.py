@@ -220,6 +220,13 @@ def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray, offsets: np.n
     return out
 
 
+def unscaled_covariance(lower: np.ndarray, scale: np.ndarray) -> np.ndarray:
+    """(XᵀWX)⁻¹ (P, P) in the basis, from a fit's scaled Cholesky factor (L Lᵀ = D XᵀWX D):
+    D·L⁻ᵀ·L⁻¹·D.  Times σ², the coefficients' covariance; a new point's leverage is xᵀ·it·x."""
+    inverse = np.linalg.solve(lower, np.eye(len(scale)))
+    return scale[:, None] * (inverse.T @ inverse) * scale[None, :]
+
+
 def series_factor(x: np.ndarray, w: np.ndarray | None, size: int) -> tuple[np.ndarray, np.ndarray]:
     """One series' scaled Cholesky factor (P, P) and scale (P,) of its design in powers of mapped ``x``
     (weights ``w``), as the engine factors its fits (``lanes.factor``): for charts and checks, on demand."""

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..fit.basis import leverages, series_factor
+from ..fit.basis import leverages, series_factor, unscaled_covariance
 from ..fit.families.base import t_quantile
 from ..fit.results import Results
 
@@ -41,6 +41,12 @@ def design_factor(results: Results, s: int, c: int) -> tuple[np.ndarray, np.ndar
     """The scaled Cholesky factor of candidate ``c``'s weighted design on series ``s``'s rows (``series_factor``)."""
     price, _, weight = series_rows(results, s)
     return series_factor(mapped_rows(results, s, c, price), weight, results.candidates[c].complexity)
+
+
+def covariance(results: Results, s: int, c: int) -> np.ndarray:
+    """(XᵀWX)⁻¹ (size, size) of candidate ``c`` on series ``s``'s rows, in its basis (``basis_of``): with
+    σ² (``results.sigma2``) and df, all a signed curve needs for an interval at a new price."""
+    return unscaled_covariance(*design_factor(results, s, c))
 
 
 def leverage_at(factor: tuple[np.ndarray, np.ndarray], x: np.ndarray) -> np.ndarray:
