@@ -153,30 +153,35 @@ class Ledger:
             return self._verify_lines(data, judge)
 
     def _verify_lines(self, data: bytes, judge: bool) -> list[dict]:
+        """Without ``judge`` (no lock held) a problem is not believed: a writer setting an interrupted
+        tail aside may change the bytes being read.  The unit is left for a read under the lock."""
         start, end = self._offset, data.rfind(b"\n") + 1
         lines = data[:end].split(b"\n")[:-1]
         new: list[dict] = []
         unit: list[dict] = []
-        before = (self._chain.copy(), self._line)
-        position = start
+        before = (self._chain.copy(), self._line, self._unverifiable)
+        position, doubt = start, False
         for raw, record in zip(lines, parse_lines(lines)):
             self._line += 1
             position += len(raw) + 1
             if record is None:
-                self.problems.append(Problem(self._line, "not a valid JSON record"))
+                problems, unverifiable, well_formed = ["not a valid JSON record"], False, False
             else:
-                verdict = check(self._chain, record, raw, self.key)
-                self.problems += [Problem(self._line, message) for message in verdict.problems]
-                if verdict.unverifiable and self._unverifiable is None:
-                    self._unverifiable = Problem(self._line, "keyed digest: set PRICEFOLD_LEDGER_KEY to verify it")
-                if verdict.well_formed:
-                    unit.append(record)
+                problems, unverifiable, well_formed = check(self._chain, record, raw, self.key)
+            if problems and not judge:
+                doubt = True
+                break
+            self.problems += [Problem(self._line, message) for message in problems]
+            if unverifiable and self._unverifiable is None:
+                self._unverifiable = Problem(self._line, "keyed digest: set PRICEFOLD_LEDGER_KEY to verify it")
+            if well_formed:
+                unit.append(record)
             if self._chain.batch is None or self.problems:
                 new += self._take(unit, position, raw)
-                unit, before = [], (self._chain.copy(), self._line)
+                unit, before = [], (self._chain.copy(), self._line, self._unverifiable)
         lines_read = self._line
-        if unit:  # an incomplete batch: not counted until its last record is written
-            self._chain, self._line = before
+        if unit or doubt:  # an incomplete batch (counted once whole), or a doubt left for the locked read
+            self._chain, self._line, self._unverifiable = before
         if judge:
             self.notes = self._tail_notes(unit, data[end:], lines_read)
         return new

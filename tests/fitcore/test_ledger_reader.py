@@ -230,3 +230,15 @@ def test_a_polling_reader_never_counts_part_of_a_batch(tmp_path):
     seen = out.get(timeout=5)
     assert seen != "partial" and seen % 25 == 0
     assert len(ledger.Ledger(path).records) == 25 * 61
+
+
+def test_a_problem_seen_without_the_lock_is_judged_under_it(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a")], ANA)
+    book = ledger.Ledger(path)
+    writer = os.open(path, os.O_WRONLY | os.O_APPEND)
+    fcntl.flock(writer, fcntl.LOCK_EX)  # a writer at work (setting a tail aside can change bytes under a reader)
+    os.write(writer, b"not a record\n")
+    assert book.refresh(wait=False) == [] and book.state == "intact"  # not believed without the lock
+    os.close(writer)
+    assert book.refresh() == [] and book.state == "broken" and book.problem.line == 2
