@@ -205,35 +205,24 @@ def test_a_ledger_that_is_not_a_file_is_one_line(tmp_path, results, kind):
 
 def _killable_bulk(results, ledger_path, ready):
     from pricefold.cli import main
-    from tests.fitcore.test_ledger import slow_disk
+    from tests.fitcore.ledger_support import slow_disk
     slow_disk(chunk=1024)
     ready.set()
     main(["ledger", "accept-unflagged", str(results), "--ledger", str(ledger_path), "-q"])
 
 
 def test_accept_unflagged_killed_at_random_moments_lands_whole_or_not_at_all(tmp_path, results):
-    import multiprocessing
-    import os
     import random
-    import signal
-    import time
 
     from fitcore import ledger
     from fitcore.review import flags  # noqa: F401 - loaded before forking, as the command's own imports are
-    from tests.fitcore.test_ledger import whole_batches
-    context = multiprocessing.get_context("fork")
+    from tests.fitcore.ledger_support import kill_at_random, whole_batches
     rng = random.Random(1)
     expected = len(unflagged(results))
     outcomes = {"none": 0, "whole": 0, "interrupted": 0}
     for k in range(40):
         path = tmp_path / f"l{k}.jsonl"
-        ready = context.Event()
-        child = context.Process(target=_killable_bulk, args=(results, path, ready))
-        child.start()
-        assert ready.wait(30)
-        time.sleep(rng.uniform(0.0, 0.12))
-        os.kill(child.pid, signal.SIGKILL)
-        child.join()
+        kill_at_random(_killable_bulk, (results, path), rng, 0.12)
         book = ledger.Ledger(path)
         assert book.state == "intact" and whole_batches(book)
         assert len(book.records) in (0, expected)  # never part of the batch

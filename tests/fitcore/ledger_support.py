@@ -2,6 +2,10 @@
 from __future__ import annotations
 
 import multiprocessing
+import os
+import signal
+import time
+from collections import Counter
 from pathlib import Path
 
 from fitcore import ledger
@@ -37,3 +41,32 @@ def run_together(target, arguments, timeout=60) -> list[int]:
     for w in workers:
         w.join(timeout)
     return [w.exitcode for w in workers]
+
+
+def slow_disk(chunk=4096):
+    """In this process, ``os.write`` lands at most ``chunk`` bytes a call, a little later each time
+    (a slow or network disk): a kill then falls inside an append often, not once in thousands."""
+    real = os.write
+
+    def write(fd, data):
+        time.sleep(0.0002)
+        return real(fd, bytes(data[:chunk]))
+    os.write = write
+
+
+def kill_at_random(target, args, rng, most: float) -> None:
+    """Fork ``target(*args, ready)``, wait until it sets ``ready``, then SIGKILL it within ``most`` seconds."""
+    context = multiprocessing.get_context("fork")
+    ready = context.Event()
+    child = context.Process(target=target, args=(*args, ready))
+    child.start()
+    assert ready.wait(30)
+    time.sleep(rng.uniform(0.0, most))
+    os.kill(child.pid, signal.SIGKILL)
+    child.join()
+
+
+def whole_batches(book: ledger.Ledger) -> bool:
+    """Every batch the reader counts is complete: its records are 1..N of one id, N of them."""
+    sizes = Counter(r["batch"]["id"] for r in book.records if r["batch"])
+    return all(sizes[r["batch"]["id"]] == r["batch"]["size"] for r in book.records if r["batch"])

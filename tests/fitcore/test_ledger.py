@@ -2,19 +2,24 @@
 from __future__ import annotations
 
 import errno
-import multiprocessing
 import os
 import random
-import signal
-import time
-from collections import Counter
 
 import pytest
 
+import fitcore.review.flags  # noqa: F401 - the append rules' flag table, loaded before forking writers
 from fitcore import ledger
 from fitcore.ledger.replay import replay, series_id
-from fitcore.review import flags as _  # noqa: F401 - the append rules' flag table, loaded before forking writers
-from tests.fitcore.ledger_support import ANA, BO, entry, lines, run_together
+from tests.fitcore.ledger_support import (
+                                          ANA,
+                                          BO,
+                                          entry,
+                                          kill_at_random,
+                                          lines,
+                                          run_together,
+                                          slow_disk,
+                                          whole_batches,
+)
 
 
 def test_records_chain_and_verify(tmp_path):
@@ -122,17 +127,6 @@ def test_concurrent_bulk_accepts_record_each_series_once(tmp_path):
     assert book.state == "intact" and len({r["batch"]["id"] for r in book.records}) == 1  # one bulk won
 
 
-def slow_disk(chunk=4096):
-    """In this process, ``os.write`` lands at most ``chunk`` bytes a call, a little later each time
-    (a slow or network disk): a kill then falls inside an append often, not once in thousands."""
-    real = os.write
-
-    def write(fd, data):
-        time.sleep(0.0002)
-        return real(fd, bytes(data[:chunk]))
-    os.write = write
-
-
 def _write_forever(path, ready):
     slow_disk()
     who = ledger.Identity("crash", "crash", "h")
@@ -144,26 +138,13 @@ def _write_forever(path, ready):
         i += 1
 
 
-def whole_batches(book: ledger.Ledger) -> bool:
-    """Every batch the reader counts is complete: its records are 1..N of one id, N of them."""
-    sizes = Counter(r["batch"]["id"] for r in book.records if r["batch"])
-    return all(sizes[r["batch"]["id"]] == r["batch"]["size"] for r in book.records if r["batch"])
-
-
 def test_killed_writers_never_leave_a_partial_batch_counted(tmp_path):
     path = tmp_path / "ledger.jsonl"
-    context = multiprocessing.get_context("fork")
     rng = random.Random(0)
     counted = b""
     interrupted, tails = 0, []
     for _ in range(100):
-        ready = context.Event()
-        child = context.Process(target=_write_forever, args=(path, ready))
-        child.start()
-        assert ready.wait(30)
-        time.sleep(rng.uniform(0.0, 0.03))
-        os.kill(child.pid, signal.SIGKILL)
-        child.join()
+        kill_at_random(_write_forever, (path,), rng, 0.03)
         book = ledger.Ledger(path)
         assert book.state == "intact", book.problem
         assert whole_batches(book) and len(book.records) % 50 == 0
