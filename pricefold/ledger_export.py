@@ -54,15 +54,21 @@ def run_export(args) -> int:
         model = current["model"] if current else record["chosen"]
         cand = next((c for c in record["candidates"] if c["name"] == model), None)
         plan = record.get("plan") or {}
-        same = model == record["chosen"]
+        # The standing model's plan numbers: the proposal's from the plan; another candidate's from its own
+        # fields where the results hold them (its interval only where they do).
+        own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
+        at_plan = plan if model == record["chosen"] else {k: (cand or {}).get(v) for k, v in own.items()}
         row([*(str(value) for value in record["key"].values()), status, model or "", cand["family"] if cand else "",
              json.dumps(cand["coef"]) if cand and cand["coef"] else "", current["analyst"] if current else "",
              current["at"] if current else "", current.get("note", "") if current else "", plan.get("price", ""),
-             (plan.get("volume") if same else (cand or {}).get("plan_volume", "")) or "",
-             plan.get("lo", "") if same else "", plan.get("hi", "") if same else "", head])
+             _number(at_plan.get("volume")), _number(at_plan.get("lo")), _number(at_plan.get("hi")), head])
     write_text(args.output, buffer.getvalue())
     print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
     return 0
+
+
+def _number(value):
+    return "" if value is None else value
 
 
 def write_text(path: Path, text: str) -> None:

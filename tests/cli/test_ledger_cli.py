@@ -235,3 +235,23 @@ def test_accept_unflagged_killed_at_random_moments_lands_whole_or_not_at_all(tmp
             assert again.notes == [] and len(again.records) == expected and whole_batches(again)
     print(f"accept-unflagged killed 40 times: {outcomes}")
     assert outcomes["interrupted"] > 0
+
+
+def test_export_gives_an_overriding_models_own_plan_volume(tmp_path, results, capsys):
+    from fitcore import ledger
+    from pricefold.ledger_cli import identity
+    series = next(s for s in json.loads(results.read_text())["series"]
+                  if s["plan"] and sum(c["available"] for c in s["candidates"]) > 1)
+    other = next(c for c in series["candidates"] if c["available"] and c["name"] != series["chosen"])
+    path = tmp_path / "l.jsonl"
+    ledger.append(path, [ledger.Entry(series=series["key"], action="override", fingerprint=series["fingerprint"],
+                                      results="r", model=other["name"], proposed=series["chosen"], note="promo",
+                                      flags=[f["code"] for f in series["flags"]])], identity(None))
+    out = tmp_path / "out.csv"
+    assert cli("ledger", "export", path, "--results", results, "-o", out, capsys=capsys)[0] == 0
+    row = next(r for r in csv.DictReader(out.open()) if r["product"] == series["key"]["product"]
+               and r["region"] == series["key"]["region"])
+    assert row["status"] == "overridden" and row["model"] == other["name"]
+    assert float(row["plan_volume"]) == pytest.approx(other["plan_volume"])
+    assert other["plan_volume"] != pytest.approx(series["plan"]["volume"])  # not the proposal's
+    assert row["plan_lo"] == row["plan_hi"] == ""  # this results file holds no interval for other candidates
