@@ -71,12 +71,15 @@ def run(args) -> int:
             "accept-unflagged": run_accept_unflagged}[args.ledger_command](args)
 
 
-def open_ledger(path: Path, *, need_intact: bool) -> ledger.Ledger:
-    """The ledger, read and verified; with ``need_intact`` a broken chain is an error (exit 2),
-    otherwise a warning line on stderr.  Interrupted tails are said on stderr."""
+def open_ledger(path: Path, *, refuse: tuple[str, ...] = ()) -> ledger.Ledger:
+    """The ledger, read and verified.  A state in ``refuse`` (``broken``, ``unverifiable``) is an
+    error (exit 2, one line); otherwise a warning line on stderr first.  Interrupted tails are said
+    on stderr."""
     book = ledger.Ledger(path, ledger_key())
-    if book.state == ledger.BROKEN and need_intact:
-        raise ledger.LedgerError(f"{path}: {book.problem}; the chain is broken, so nothing was done "
+    if book.state in refuse:
+        why = ("the chain is broken" if book.state == ledger.BROKEN else
+               f"it cannot be verified without {KEY_VARIABLE}")
+        raise ledger.LedgerError(f"{path}: {book.problem}; {why}, so nothing was done "
                                  "(see 'pricefold ledger verify')")
     if book.state == ledger.BROKEN:
         print(f"{path}: warning: the chain is broken at {book.problem}; shown as written, not verified",
@@ -123,7 +126,7 @@ def run_verify(args) -> int:
 
 
 def run_show(args) -> int:
-    book = open_ledger(args.ledger, need_intact=False)
+    book = open_ledger(args.ledger)
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
     for r in book.records:
         if args.product and next(iter(r["series"].values()), None) not in args.product:
@@ -149,7 +152,7 @@ def run_accept_unflagged(args) -> int:
     # What the results propose, read before taking the lock (a results folder can be large).
     proposals = [(record["key"], record["fingerprint"], record["chosen"]) for part in parts for record in part
                  if not record["flags"] and record["chosen"]]
-    book = open_ledger(args.ledger, need_intact=True)
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
         for key, fingerprint, chosen in proposals:

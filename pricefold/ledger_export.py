@@ -14,6 +14,7 @@ import os
 import sys
 from pathlib import Path
 
+from fitcore import ledger
 from fitcore.errors import DataError
 from fitcore.ledger.replay import series_id
 
@@ -30,7 +31,7 @@ def neutral(text: str) -> str:
 def run_export(args) -> int:
     from fitcore.results.read import results_in_parts
     header, parts = results_in_parts(args.results)
-    book = open_ledger(args.ledger, need_intact=True)
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN,))
     # The output guard (never write over the ledger, the results or another input) goes here,
     # before anything is written: the one shared check of output paths against input paths.
     text = (lambda value: value) if args.raw else neutral
