@@ -156,12 +156,11 @@ class Ledger:
         """Without ``judge`` (no lock held) a problem is not believed: a writer setting an interrupted
         tail aside may change the bytes being read.  The unit is left for a read under the lock."""
         start, end = self._offset, data.rfind(b"\n") + 1
-        lines = data[:end].split(b"\n")[:-1]
         new: list[dict] = []
         unit: list[dict] = []
         before = (self._chain.copy(), self._line, self._unverifiable)
         position, doubt = start, False
-        for raw, record in zip(lines, parse_lines(lines)):
+        for raw, record in parsed_lines(data, end):
             self._line += 1
             position += len(raw) + 1
             if record is None:
@@ -238,6 +237,17 @@ def collector_paused():
     finally:
         if paused:
             gc.enable()
+
+
+def parsed_lines(data: bytes, end: int, chunk: int = 1 << 22):
+    """``(line, record)`` for the whole lines of ``data[:end]``, parsed ~4 MiB at a time (so a large
+    ledger is never held as bytes, lines and one joined array at once)."""
+    position = 0
+    while position < end:
+        cut = data.rfind(b"\n", position, min(position + chunk, end)) + 1 or data.find(b"\n", position) + 1
+        lines = data[position:cut].split(b"\n")[:-1]
+        yield from zip(lines, parse_lines(lines))
+        position = cut
 
 
 def parse_lines(lines: list[bytes]) -> list[dict | None]:
