@@ -120,7 +120,7 @@ class Ledger:
         self.exists = True
         identity = (status.st_dev, status.st_ino)
         if self._identity not in (None, identity) or status.st_size < self._offset or not self._same_last(fd):
-            return self._start_over(fd, judge)
+            return self._start_over(fd) if judge else []  # rewritten: judged only under the lock
         self._identity = identity
         new = self._consume(files.read_from(fd, self.path, self._offset), judge)
         if judge:
@@ -134,11 +134,11 @@ class Ledger:
         size = len(self._last_raw) + 1
         return os.pread(fd, size, self._offset - size) == self._last_raw + b"\n"
 
-    def _start_over(self, fd: int, judge: bool) -> list[dict]:
+    def _start_over(self, fd: int) -> list[dict]:
         seq, digest = self.head
         self._reset()
         self.generation += 1
-        new = self._read(fd, judge)
+        new = self._read(fd, judge=True)
         if seq and not self.problems and not self.holds(seq, digest):
             self._vanished(f"records read earlier are gone: seq {seq} ({digest[:12]}…) is no longer in it")
         return new
