@@ -94,8 +94,16 @@ def digest_of(record: dict, key: bytes | None) -> str:
 
 def sign(body: bytes, key: bytes | None) -> str:
     if key:
-        return hmac.new(key, body, hashlib.sha256).hexdigest()
+        keyed = _KEYED.get(key)
+        if keyed is None:
+            keyed = _KEYED[key] = hmac.new(key, digestmod=hashlib.sha256)
+        keyed = keyed.copy()  # a copy of the keyed state: a third of the cost of a new HMAC a record
+        keyed.update(body)
+        return keyed.hexdigest()
     return hashlib.sha256(body).hexdigest()
+
+
+_KEYED: dict[bytes, hmac.HMAC] = {}
 
 
 def results_digest(header: dict) -> str:
