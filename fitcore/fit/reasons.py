@@ -11,6 +11,11 @@ RANK_ALL = 4
 RANK_FOLD = 5
 LEVERAGE_ONE = 6
 NOT_SERVED = 7  # the family cannot fit the series (e.g. a log of a price or volume ≤ 0)
+CONTROL_TIED = 8  # a price term cannot be told apart from the controls
+
+# Above this variance inflation of price given the controls (their R² above 0.9999), a price term
+# that cannot be fitted is put down to the controls rather than to the prices.
+TIED_VIF = 1e4
 
 
 def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int, unserved: str | None = None
@@ -34,6 +39,8 @@ def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int,
         return "an observation alone determines a coefficient, so leaving it out leaves the curve undefined"
     if code == NOT_SERVED:
         return unserved
+    if code == CONTROL_TIED:
+        return "price moves in step with the controls in this series, so its effect cannot be told apart from theirs"
     raise ValueError(f"unknown reason code {code}")
 
 

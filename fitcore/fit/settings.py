@@ -27,6 +27,7 @@ class FitSettings:
     seed: int = 0
     rule: str = "one-se"
     level: float = 0.95
+    season: int = 0
     extra: dict = field(default_factory=dict, compare=False)
 
     def __post_init__(self) -> None:
@@ -44,6 +45,8 @@ class FitSettings:
             raise SettingsError(f"expected the interval level between 0.5 and 1, got {self.level}")
         if not isinstance(self.seed, int) or self.seed < 0:
             raise SettingsError(f"expected --seed to be a non-negative whole number, got {self.seed!r}")
+        if isinstance(self.season, bool) or not isinstance(self.season, int) or not 0 <= self.season <= 4:
+            raise SettingsError(f"expected --season to be a whole number from 0 to 4, got {self.season!r}")
 
     def as_dict(self) -> dict:
         out = asdict(self)
@@ -60,11 +63,12 @@ def provenance(columns: dict, plan_file: str | None, plan_price: float | None) -
 
 def settings_from_dict(values: dict) -> FitSettings:
     """The ``FitSettings`` recorded in a results file (extra entries kept in ``extra``)."""
-    known = {"degrees", "loglog", "semilog", "folds", "fold_order", "seed", "rule", "level"}
+    known = {"degrees", "loglog", "semilog", "folds", "fold_order", "seed", "rule", "level", "season"}
     return FitSettings(degrees=tuple(values["degrees"]), loglog=values["loglog"],
                        semilog=values.get("semilog", False), folds=values["folds"],
                        fold_order=values["fold_order"], seed=values["seed"], rule=values["rule"],
-                       level=values["level"], extra={k: v for k, v in values.items() if k not in known})
+                       level=values["level"], season=values.get("season", 0),
+                       extra={k: v for k, v in values.items() if k not in known})
 
 
 def parse_degrees(text: str) -> tuple[int, ...]:

@@ -1,0 +1,236 @@
+"""The compiled least-squares fits with controls: every degree on every fold of every series at once.
+
+The design of a fit is [1, controls…, t, t², …] (``gram_lanes``: controls
+first, so they are partialled out of the price terms, Frisch–Waugh–Lovell,
+and one factorisation serves every degree).  One pass over each series' rows
+sums each block's packed moments of those columns and the response; a fit's
+training moments are the sums over its training blocks; its lanes are then
+factored and solved together, and each degree's held-out error comes from
+the held-out block's moments (summed again from the rows where that would
+cancel, as without controls).  Controls reach here centred on their series
+mean (``controls``), so the intercept is the curve at the series' average
+controls.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..compiled import compiled
+from . import gram_lanes as G
+from . import lanes
+from .kernels import COND_LIMIT, _lane_sums, trains_on
+
+# Fits solved together: the packed moments of a 12-column design take 6× the room of a Hankel one,
+# so fewer lanes keep a group's work arrays within a core's L2 cache.
+LANE_TARGET = 128
+
+
+@compiled
+def _design_moments(x, y, z, w, weighted, bounds, p, n_nuis, out, v):
+    """Per block b of one series: ``out[b]`` = Σw·vᵢ·vⱼ (j ≤ i, packed as ``gram_lanes.tri``) over its
+    rows, v = [1, z₀…, x, x², …, x^(p−1), y]; ``v`` is scratch (≥ n_nuis + p)."""
+    m = n_nuis - 1
+    width = n_nuis + p
+    size = width * (width + 1) // 2
+    for b in range(len(bounds) - 1):
+        acc = out[b]
+        for k in range(size):
+            acc[k] = 0.0
+        for i in range(bounds[b], bounds[b + 1]):
+            wi = w[i] if weighted else 1.0
+            v[0] = 1.0
+            for j in range(m):
+                v[1 + j] = z[j, i]
+            power = 1.0
+            for k in range(1, p):
+                power *= x[i]
+                v[m + k] = power
+            v[width - 1] = y[i]
+            at = 0
+            for a in range(width):
+                wa = wi * v[a]
+                for c in range(a + 1):  # contiguous: vector instructions, no reordering of any sum
+                    acc[at + c] += wa * v[c]
+                at += a + 1
+
+
+@compiled
+def _row_errors(x, y, z, w, weighted, bounds, fold_of_block, degrees, coef, gamma, acc):
+    """One series' weighted squared errors summed from its rows: ``acc[f, j]`` held out in fold f,
+    ``acc[F, j]`` in sample; ``coef`` (F + 1, D, P) price part, ``gamma`` (F + 1, D, m) controls."""
+    n_folds = coef.shape[0] - 1
+    m = gamma.shape[2]
+    acc[:] = 0.0
+    for b in range(len(bounds) - 1):
+        f = fold_of_block[b]
+        for i in range(bounds[b], bounds[b + 1]):
+            wi = w[i] if weighted else 1.0
+            for j in range(len(degrees)):
+                full = 0.0
+                held = 0.0
+                power = 1.0
+                for k in range(degrees[j] + 1):
+                    full += coef[n_folds, j, k] * power
+                    if f >= 0:
+                        held += coef[f, j, k] * power
+                    power *= x[i]
+                for c in range(m):
+                    full += gamma[n_folds, j, c] * z[c, i]
+                    if f >= 0:
+                        held += gamma[f, j, c] * z[c, i]
+                r = y[i] - full
+                acc[n_folds, j] += wi * r * r
+                if f >= 0:
+                    r = y[i] - held
+                    acc[f, j] += wi * r * r
+
+
+@compiled
+def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, gamma, ok, sse_test, w_test,
+                   sse_full, w_full, tss, tss_test, lower_full, scale_full, kept_full):
+    """Every degree on every fold of every series with the controls ``z`` (m, N) in the design.
+
+    Outputs as ``polyfit.FamilyFit``: ``coef`` (S, F + 1 or 1, D, P) the price part (intercept at the
+    series' average controls, then powers of x), ``gamma`` (S, ·, D, m) the controls' coefficients (0
+    where a fit dropped one), ``lower_full``, ``scale_full`` (S, Q, Q), (S, Q) the full fit's factor
+    over [1, controls…, x, …] (Q = 1 + m + p − 1), ``kept_full`` (S,) the controls the full fit kept.
+    """
+    m = z.shape[0]
+    n_nuis = 1 + m
+    q = n_nuis + p - 1
+    packed_size = (q + 1) * (q + 2) // 2
+    n_series = bounds.shape[0]
+    n_blocks = bounds.shape[1] - 1
+    n_folds = len(held_out)
+    n_fits = n_folds + 1
+    n_deg = len(degrees)
+    weighted = len(w) > 0
+    group = max(1, LANE_TARGET // n_fits)
+    n_lanes = group * n_fits
+    blk = np.zeros((group, n_blocks, packed_size))
+    train = np.zeros((packed_size, n_lanes))
+    held = np.zeros((packed_size, n_lanes))
+    train_rows = np.zeros(n_lanes)
+    kept = np.zeros(n_lanes)
+    lower = np.zeros((q, q, n_lanes))
+    inverse = np.zeros((q, q, n_lanes))
+    scale = np.zeros((q, n_lanes))
+    recip = np.ones((q, n_lanes))
+    good = np.zeros((q, n_lanes), dtype=np.bool_)
+    cond = np.zeros((q, n_lanes))
+    rhs = np.zeros((q, n_lanes))
+    zz = np.zeros((q, n_lanes))
+    beta = np.zeros((q, n_lanes))
+    err = np.zeros(n_lanes)
+    loose = np.zeros(n_lanes, dtype=np.bool_)
+    work = np.zeros((3, n_lanes))
+    suspect = np.zeros(group, dtype=np.bool_)
+    total_yy = np.zeros(group)
+    v = np.zeros(q + 1)
+    fold_of_block = np.full(n_blocks, -1)
+    for f in range(n_folds):
+        fold_of_block[held_out[f]] = f
+    member = np.zeros((n_fits, n_blocks), dtype=np.bool_)
+    held_block = np.zeros(n_fits, dtype=np.int64)
+    for f in range(n_fits):
+        for b in range(n_blocks):
+            member[f, b] = trains_on(f, b, held_out, cumulative)
+        if f < n_folds:
+            held_block[f] = held_out[f]
+    acc = np.zeros((n_fits, n_deg))
+    group_coef = np.zeros((group, n_fits, n_deg, p))
+    group_gamma = np.zeros((group, n_fits, n_deg, m))
+    every_fit = coef.shape[1] == n_fits
+    at_w, at_yy = G.tri(0, 0), G.tri(q, q)
+    for s0 in range(0, n_series, group):
+        count = min(group, n_series - s0)
+        for qq in range(count):
+            s = s0 + qq
+            _design_moments(x, y, z, w, weighted, bounds[s], p, n_nuis, blk[qq], v)
+            total_yy[qq] = _block_total(blk[qq], at_yy)
+            first = qq * n_fits
+            _lane_sums(blk[qq], member, held_block, first, train, held)
+            for f in range(n_fits):
+                total = 0.0
+                for b in range(n_blocks):
+                    if member[f, b]:
+                        total += bounds[s, b + 1] - bounds[s, b]
+                train_rows[first + f] = total
+        G.factor_gram(train, q, n_nuis, lower, scale, good, cond, recip, inverse, work)
+        G.unpack_cross(train, q, rhs)
+        lanes.forward(rhs, q, lower, scale, recip, zz)
+        for lane in range(n_lanes):
+            total = 0.0
+            for k in range(1, n_nuis):
+                total += scale[k, lane] > 0
+            kept[lane] = total
+        suspect[:] = False
+        for j in range(n_deg):
+            d = degrees[j]
+            size = n_nuis + d
+            lanes.back(zz, size, lower, scale, recip, beta)
+            G.squared_error_gram(beta, size, held, q, err, loose, work)
+            for qq in range(count):
+                s = s0 + qq
+                for f in range(n_fits):
+                    lane = qq * n_fits + f
+                    group_coef[qq, f, j, 0] = beta[0, lane]
+                    for k in range(1, p):
+                        group_coef[qq, f, j, k] = beta[m + k, lane] if k <= d else 0.0
+                    for c in range(m):
+                        group_gamma[qq, f, j, c] = beta[1 + c, lane]
+                    coefficients = 1 + kept[lane] + d
+                    fine = good[size - 1, lane] and cond[size - 1, lane] <= COND_LIMIT \
+                        and train_rows[lane] > coefficients - 1
+                    if f < n_folds:
+                        ok[s, f, j] = fine
+                        sse_test[s, f, j] = err[lane] if fine else np.nan
+                        suspect[qq] = suspect[qq] or (fine and loose[lane])
+                    else:
+                        fine = fine and train_rows[lane] > coefficients
+                        ok[s, f, j] = fine
+                        fitted = 0.0
+                        for k in range(size):
+                            fitted += zz[k, lane] * zz[k, lane]
+                        sse = total_yy[qq] - fitted
+                        suspect[qq] = suspect[qq] or (fine and sse < lanes.CANCEL_RATIO * total_yy[qq])
+                        sse_full[s, j] = max(sse, 0.0)
+        for qq in range(count):
+            s = s0 + qq
+            full = qq * n_fits + n_folds
+            kept_full[s] = kept[full]
+            for i in range(q):
+                scale_full[s, i] = scale[i, full]
+                for k in range(q):
+                    lower_full[s, i, k] = lower[i, k, full]
+            for f in range(n_fits):
+                if every_fit or f == n_folds:
+                    for j in range(n_deg):
+                        for k in range(p):
+                            coef[s, f if every_fit else 0, j, k] = group_coef[qq, f, j, k]
+                        for c in range(m):
+                            gamma[s, f if every_fit else 0, j, c] = group_gamma[qq, f, j, c]
+            if suspect[qq]:
+                _row_errors(x, y, z, w, weighted, bounds[s], fold_of_block, degrees, group_coef[qq],
+                            group_gamma[qq], acc)
+                for j in range(n_deg):
+                    sse_full[s, j] = acc[n_folds, j]
+                    for f in range(n_folds):
+                        if ok[s, f, j]:
+                            sse_test[s, f, j] = acc[f, j]
+            held_yy = 0.0
+            for f in range(n_folds):
+                w_test[s, f] = blk[qq, held_out[f], at_w]
+                held_yy += blk[qq, held_out[f], at_yy]
+            w_full[s] = _block_total(blk[qq], at_w)
+            tss[s] = total_yy[qq]
+            tss_test[s] = held_yy
+
+
+@compiled(inline=True)
+def _block_total(blocks, at):
+    """Σ over blocks of one packed moment."""
+    total = 0.0
+    for b in range(blocks.shape[0]):
+        total += blocks[b, at]
+    return total

@@ -1,0 +1,159 @@
+"""Row by row with controls: leverages of the full design, Cook's distances, the log families' volume errors.
+
+The design of a fit with controls is [1, controls…, t, t², …] (``gram_lanes``);
+a row's leverage under the leading r + 1 columns is ‖L⁻¹D·x‖² over them, for
+every r at once (as ``basis.leverage`` for powers of t alone).  The log
+families' held-out volume errors need each fold's smearing factor from its
+own training rows; with controls a fold's fit differs from the full fit in
+every control too, so the exponentials are summed row by row (one per row
+and fit) rather than from ``logvolume``'s Taylor moments in t.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..compiled import compiled
+from .kernels import trains_on
+
+
+@compiled
+def _design_leverage(t, z, lower, scale, n_nuis, bounds, out):
+    q = lower.shape[1]
+    longest = 0
+    for s in range(len(bounds) - 1):
+        longest = max(longest, bounds[s + 1] - bounds[s])
+    v = np.zeros((q, longest))
+    power = np.zeros(longest)
+    for s in range(len(bounds) - 1):
+        a = bounds[s]
+        n = bounds[s + 1] - a
+        for i in range(n):
+            power[i] = 1.0
+        for r in range(q):
+            d_r, l_rr, vr, orow = scale[s, r], lower[s, r, r], v[r], out[r]
+            if r == 0:
+                for i in range(n):
+                    vr[i] = d_r
+            elif r < n_nuis:
+                for i in range(n):
+                    vr[i] = z[r - 1, a + i] * d_r
+            else:
+                for i in range(n):
+                    power[i] *= t[a + i]
+                    vr[i] = power[i] * d_r
+            for c in range(r):
+                l_rc, vc = lower[s, r, c], v[c]
+                for i in range(n):
+                    vr[i] -= l_rc * vc[i]
+            for i in range(n):
+                vr[i] = vr[i] / l_rr
+            if r == 0:
+                for i in range(n):
+                    orow[a + i] = vr[i] * vr[i]
+            else:
+                before = out[r - 1]
+                for i in range(n):
+                    orow[a + i] = before[a + i] + vr[i] * vr[i]
+
+
+def design_leverages(t: np.ndarray, z: np.ndarray, lower: np.ndarray, scale: np.ndarray,
+                     bounds: np.ndarray | None = None) -> np.ndarray:
+    """(Q, N) xᵀ(XᵀWX)⁻¹x under the leading 1, 2, …, Q columns of [1, z…, t, t², …] at points (``t`` (N,),
+    ``z`` (m, N) centred controls); fit s (``lower`` (S, Q, Q), ``scale`` (S, Q)) serves points
+    ``bounds[s]:bounds[s + 1]`` (default: one point each).  The candidate with k price terms reads
+    row m + k."""
+    t = np.ascontiguousarray(t, dtype=np.float64)
+    bounds = np.arange(len(t) + 1, dtype=np.int64) if bounds is None else np.asarray(bounds, dtype=np.int64)
+    out = np.empty((lower.shape[1], len(t)))
+    _design_leverage(t, np.ascontiguousarray(z, dtype=np.float64), np.ascontiguousarray(lower),
+                     np.ascontiguousarray(scale), len(z) + 1, bounds, out)
+    return out
+
+
+def fitted_controls(gamma: np.ndarray, z: np.ndarray, counts: np.ndarray) -> np.ndarray:
+    """(N,) Σⱼ gamma[s, j]·z[j, i] over each series' rows (``gamma`` (S, m), ``z`` (m, N))."""
+    return np.einsum("jn,nj->n", z, np.repeat(gamma, counts, axis=0)) if len(z) else np.zeros(z.shape[1])
+
+
+@compiled
+def influence_rows(t, target, z, w, offsets, order, coef, gamma, size, lower, scale, sigma2, n_coef, top, first):
+    """``kernels.influence_rows`` with controls: the largest Cook's distance among each series' rows under
+    its chosen curve, the residual less Σγ·z, the leverage of the full design (``size[s]`` leading
+    columns, 0: skip), and ``n_coef[s]`` coefficients in the distance."""
+    weighted = len(w) > 0
+    m = z.shape[0]
+    for s in range(len(size)):
+        if size[s] <= 0:
+            continue
+        a, b = offsets[s], offsets[s + 1]
+        lev = np.empty((lower.shape[1], b - a))
+        _design_leverage(t[a:b], z[:, a:b], lower[s:s + 1], scale[s:s + 1], m + 1, np.array([0, b - a]), lev)
+        best = -1.0
+        where = -1
+        p = coef.shape[1]
+        for i in range(a, b):
+            fitted = 0.0
+            power = 1.0
+            for k in range(p):
+                fitted += coef[s, k] * power
+                power *= t[i]
+            for j in range(m):
+                fitted += gamma[s, j] * z[j, i]
+            wi = w[i] if weighted else 1.0
+            h = lev[size[s] - 1, i - a] * wi
+            e = target[i] - fitted
+            d = wi * e * e * h / (n_coef[s] * sigma2[s] * (1.0 - h) ** 2)
+            at = order[i]
+            if not np.isnan(d) and (d > best or (d == best and at < where)):
+                best = d
+                where = at
+        top[s] = best
+        first[s] = where
+
+
+@compiled
+def log_residuals(u, y, z, bounds, a, e, g, out):
+    """``out[f, i]``: the log-scale residual of row i of series s under fit f (F folds, then the full fit in
+    row F): yᵢ − a[s, f] − e[s, f]·uᵢ − Σⱼ g[s, f, j]·z[j, i]."""
+    m = z.shape[0]
+    for s in range(bounds.shape[0]):
+        for f in range(a.shape[1]):
+            for i in range(bounds[s, 0], bounds[s, -1]):
+                r = y[i] - a[s, f] - e[s, f] * u[i]
+                for j in range(m):
+                    r -= g[s, f, j] * z[j, i]
+                out[f, i] = r
+
+
+@compiled
+def volume_errors(volume, w, bounds, held_out, cumulative, growth, smear, sse_full, sse_test):
+    """``logvolume.volume_errors`` from every fit's growths: ``growth[f, i]`` = exp(log residual of row i
+    under fit f); a fit's smearing factor is the weighted mean of its growths over its training rows."""
+    n_folds = len(held_out)
+    n_blocks = bounds.shape[1] - 1
+    weighted = len(w) > 0
+    for s in range(bounds.shape[0]):
+        for f in range(n_folds + 1):
+            spread = 0.0
+            weight = 0.0
+            for b in range(n_blocks):
+                if trains_on(f, b, held_out, cumulative):
+                    for i in range(bounds[s, b], bounds[s, b + 1]):
+                        wi = w[i] if weighted else 1.0
+                        spread += wi * growth[f, i]
+                        weight += wi
+            fit_smear = spread / weight if weight > 0 else 1.0
+            total = 0.0
+            if f == n_folds:
+                smear[s] = fit_smear
+                rows_from, rows_to = bounds[s, 0], bounds[s, -1]
+            else:
+                rows_from, rows_to = bounds[s, held_out[f]], bounds[s, held_out[f] + 1]
+            for i in range(rows_from, rows_to):
+                wi = w[i] if weighted else 1.0
+                r = volume[i] - volume[i] / growth[f, i] * fit_smear
+                total += wi * r * r
+            if f == n_folds:
+                sse_full[s] = total
+            else:
+                sse_test[s, f] = total
