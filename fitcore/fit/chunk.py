@@ -49,8 +49,8 @@ class Chunk:
         self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
         self.window = window(self.lo, self.hi)
         self.moments = moments(self.y, self.weight, self.lay.bounds, self.lay.held_out)
-        self.controls = None if spec is None else chunk_controls(spec.raw(data, r0, r1, order), self.price,
-                                                                 self.weight, self.offsets, plan)
+        self.controls = None if spec is None else chunk_controls(spec.raw(data, r0, r1, order), self.weight,
+                                                                 self.offsets, plan)
 
     def windowed(self, x: np.ndarray, y: np.ndarray, use: np.ndarray | None = None):
         """(x mapped onto each series' window, y less its weighted mean, lo, hi, mean y, least y);

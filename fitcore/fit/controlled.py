@@ -18,11 +18,11 @@ import numpy as np
 from ..compiled import compiled
 from . import gram_lanes as G
 from . import lanes
-from .kernels import COND_LIMIT, _lane_sums, trains_on
+from .kernels import COND_LIMIT, trains_on
 
 # Fits solved together: the packed moments of a 12-column design take 6× the room of a Hankel one,
 # so fewer lanes keep a group's work arrays within a core's L2 cache.
-LANE_TARGET = 128
+LANE_TARGET = 512
 
 
 @compiled
@@ -52,6 +52,31 @@ def _design_moments(x, y, z, w, weighted, bounds, p, n_nuis, out, v):
                 for c in range(a + 1):  # contiguous: vector instructions, no reordering of any sum
                     acc[at + c] += wa * v[c]
                 at += a + 1
+
+
+@compiled
+def _fit_sums(values, held_out, cumulative, first, train, held):
+    """One series' lanes ``first``, ``first + 1``, …, one per fit f (F folds, then all rows): ``train[k, lane]``
+    its training rows' sum of moment k, ``held[k, lane]`` its held-out block's.  A fold's training sum is
+    the series' total less the held-out block (k-fold), or the blocks before it (time folds)."""
+    n_folds = len(held_out)
+    n_blocks = values.shape[0]
+    for k in range(values.shape[1]):
+        total = 0.0
+        for b in range(n_blocks):
+            total += values[b, k]
+        for f in range(n_folds):
+            hb = held_out[f]
+            if cumulative:
+                before = 0.0
+                for b in range(hb):
+                    before += values[b, k]
+                train[k, first + f] = before
+            else:
+                train[k, first + f] = total - values[hb, k]
+            held[k, first + f] = values[hb, k]
+        train[k, first + n_folds] = total
+        held[k, first + n_folds] = 0.0
 
 
 @compiled
@@ -87,13 +112,14 @@ def _row_errors(x, y, z, w, weighted, bounds, fold_of_block, degrees, coef, gamm
 
 @compiled
 def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, gamma, ok, sse_test, w_test,
-                   sse_full, w_full, tss, tss_test, lower_full, scale_full, kept_full):
+                   sse_full, w_full, tss, tss_test, lower_full, scale_full, kept_full, vif, tied, redundant):
     """Every degree on every fold of every series with the controls ``z`` (m, N) in the design.
 
     Outputs as ``polyfit.FamilyFit``: ``coef`` (S, F + 1 or 1, D, P) the price part (intercept at the
     series' average controls, then powers of x), ``gamma`` (S, ·, D, m) the controls' coefficients (0
     where a fit dropped one), ``lower_full``, ``scale_full`` (S, Q, Q), (S, Q) the full fit's factor
-    over [1, controls…, x, …] (Q = 1 + m + p − 1), ``kept_full`` (S,) the controls the full fit kept.
+    over [1, controls…, x, …] (Q = 1 + m + p − 1), ``kept_full`` (S,) the controls the full fit kept;
+    from the full fit (p ≥ 2): ``vif``, ``tied``, ``redundant`` (S,), (S,), (S, m) as ``_tie``.
     """
     m = z.shape[0]
     n_nuis = 1 + m
@@ -131,12 +157,9 @@ def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, g
     for f in range(n_folds):
         fold_of_block[held_out[f]] = f
     member = np.zeros((n_fits, n_blocks), dtype=np.bool_)
-    held_block = np.zeros(n_fits, dtype=np.int64)
     for f in range(n_fits):
         for b in range(n_blocks):
             member[f, b] = trains_on(f, b, held_out, cumulative)
-        if f < n_folds:
-            held_block[f] = held_out[f]
     acc = np.zeros((n_fits, n_deg))
     group_coef = np.zeros((group, n_fits, n_deg, p))
     group_gamma = np.zeros((group, n_fits, n_deg, m))
@@ -149,7 +172,7 @@ def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, g
             _design_moments(x, y, z, w, weighted, bounds[s], p, n_nuis, blk[qq], v)
             total_yy[qq] = _block_total(blk[qq], at_yy)
             first = qq * n_fits
-            _lane_sums(blk[qq], member, held_block, first, train, held)
+            _fit_sums(blk[qq], held_out, cumulative, first, train, held)
             for f in range(n_fits):
                 total = 0.0
                 for b in range(n_blocks):
@@ -199,6 +222,7 @@ def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, g
             s = s0 + qq
             full = qq * n_fits + n_folds
             kept_full[s] = kept[full]
+            _tie(train, lower, scale, good, full, n_nuis, p, s, vif, tied, redundant)
             for i in range(q):
                 scale_full[s, i] = scale[i, full]
                 for k in range(q):
@@ -234,3 +258,35 @@ def _block_total(blocks, at):
     for b in range(blocks.shape[0]):
         total += blocks[b, at]
     return total
+
+
+@compiled(inline=True)
+def _tie(packed, lower, scale, good, lane, n_nuis, p, s, vif, tied, redundant):
+    """From the fit on all rows of series s (lane ``lane``): ``vif[s]`` the variance inflation of x given
+    the controls kept (Σw(x − x̄)² over what is left of x after them; inf when nothing is, NaN for a
+    constant x or p < 2), ``tied[s]`` the kept control most correlated with x (-1: none),
+    ``redundant[s, j]`` control j was dropped though not constant (a combination of those before it)."""
+    m = n_nuis - 1
+    g00 = packed[G.tri(0, 0), lane]
+    for j in range(m):
+        redundant[s, j] = scale[1 + j, lane] == 0 and packed[G.tri(1 + j, 1 + j), lane] > 0
+    vif[s] = np.nan
+    tied[s] = -1
+    if p < 2 or not g00 > 0:
+        return
+    t = n_nuis
+    gt0 = packed[G.tri(t, 0), lane]
+    spread = packed[G.tri(t, t), lane] - gt0 * gt0 / g00
+    if not spread > 0:
+        return
+    st = scale[t, lane]
+    vif[s] = spread / (lower[t, t, lane] / st) ** 2 if good[t, lane] and st > 0 else np.inf
+    best = -1.0
+    for j in range(m):
+        if scale[1 + j, lane] > 0:
+            gj0 = packed[G.tri(1 + j, 0), lane]
+            own = packed[G.tri(1 + j, 1 + j), lane] - gj0 * gj0 / g00
+            corr = abs(packed[G.tri(t, 1 + j), lane] - gt0 * gj0 / g00) / np.sqrt(spread * own) if own > 0 else 0.0
+            if corr > best:
+                best = corr
+                tied[s] = j

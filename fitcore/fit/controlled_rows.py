@@ -16,44 +16,50 @@ from ..compiled import compiled
 from .kernels import trains_on
 
 
+@compiled(inline=True)
+def _leverage_rows(t, z, lower, scale, n_nuis, a, n, columns, v, power, out, at):
+    """``out[r, at + i]`` = leverage of point a + i under the leading r + 1 columns (r < ``columns``) of one
+    fit's design (``lower`` (Q, Q), ``scale`` (Q,)); points are the lanes.  ``v`` (Q, ≥ n), ``power``
+    (≥ n) scratch."""
+    for i in range(n):
+        power[i] = 1.0
+    for r in range(columns):
+        d_r, l_rr, vr, orow = scale[r], lower[r, r], v[r], out[r]
+        if r == 0:
+            for i in range(n):
+                vr[i] = d_r
+        elif r < n_nuis:
+            for i in range(n):
+                vr[i] = z[r - 1, a + i] * d_r
+        else:
+            for i in range(n):
+                power[i] *= t[a + i]
+                vr[i] = power[i] * d_r
+        for c in range(r):
+            l_rc, vc = lower[r, c], v[c]
+            for i in range(n):
+                vr[i] -= l_rc * vc[i]
+        for i in range(n):
+            vr[i] = vr[i] / l_rr
+        if r == 0:
+            for i in range(n):
+                orow[at + i] = vr[i] * vr[i]
+        else:
+            before = out[r - 1]
+            for i in range(n):
+                orow[at + i] = before[at + i] + vr[i] * vr[i]
+
+
 @compiled
 def _design_leverage(t, z, lower, scale, n_nuis, bounds, out):
-    q = lower.shape[1]
     longest = 0
     for s in range(len(bounds) - 1):
         longest = max(longest, bounds[s + 1] - bounds[s])
-    v = np.zeros((q, longest))
+    v = np.zeros((lower.shape[1], longest))
     power = np.zeros(longest)
     for s in range(len(bounds) - 1):
         a = bounds[s]
-        n = bounds[s + 1] - a
-        for i in range(n):
-            power[i] = 1.0
-        for r in range(q):
-            d_r, l_rr, vr, orow = scale[s, r], lower[s, r, r], v[r], out[r]
-            if r == 0:
-                for i in range(n):
-                    vr[i] = d_r
-            elif r < n_nuis:
-                for i in range(n):
-                    vr[i] = z[r - 1, a + i] * d_r
-            else:
-                for i in range(n):
-                    power[i] *= t[a + i]
-                    vr[i] = power[i] * d_r
-            for c in range(r):
-                l_rc, vc = lower[s, r, c], v[c]
-                for i in range(n):
-                    vr[i] -= l_rc * vc[i]
-            for i in range(n):
-                vr[i] = vr[i] / l_rr
-            if r == 0:
-                for i in range(n):
-                    orow[a + i] = vr[i] * vr[i]
-            else:
-                before = out[r - 1]
-                for i in range(n):
-                    orow[a + i] = before[a + i] + vr[i] * vr[i]
+        _leverage_rows(t, z, lower[s], scale[s], n_nuis, a, bounds[s + 1] - a, lower.shape[1], v, power, out, a)
 
 
 def design_leverages(t: np.ndarray, z: np.ndarray, lower: np.ndarray, scale: np.ndarray,
@@ -82,25 +88,32 @@ def influence_rows(t, target, z, w, offsets, order, coef, gamma, size, lower, sc
     columns, 0: skip), and ``n_coef[s]`` coefficients in the distance."""
     weighted = len(w) > 0
     m = z.shape[0]
+    q = lower.shape[1]
+    longest = 0
+    for s in range(len(size)):
+        longest = max(longest, offsets[s + 1] - offsets[s])
+    lev = np.zeros((q, longest))
+    v = np.zeros((q, longest))
+    power = np.zeros(longest)
+    p = coef.shape[1]
     for s in range(len(size)):
         if size[s] <= 0:
             continue
         a, b = offsets[s], offsets[s + 1]
-        lev = np.empty((lower.shape[1], b - a))
-        _design_leverage(t[a:b], z[:, a:b], lower[s:s + 1], scale[s:s + 1], m + 1, np.array([0, b - a]), lev)
+        _leverage_rows(t, z, lower[s], scale[s], m + 1, a, b - a, size[s], v, power, lev, 0)
+        spread = lev[size[s] - 1]
         best = -1.0
         where = -1
-        p = coef.shape[1]
         for i in range(a, b):
             fitted = 0.0
-            power = 1.0
+            rise = 1.0
             for k in range(p):
-                fitted += coef[s, k] * power
-                power *= t[i]
+                fitted += coef[s, k] * rise
+                rise *= t[i]
             for j in range(m):
                 fitted += gamma[s, j] * z[j, i]
             wi = w[i] if weighted else 1.0
-            h = lev[size[s] - 1, i - a] * wi
+            h = spread[i - a] * wi
             e = target[i] - fitted
             d = wi * e * e * h / (n_coef[s] * sigma2[s] * (1.0 - h) ** 2)
             at = order[i]
@@ -115,14 +128,16 @@ def influence_rows(t, target, z, w, offsets, order, coef, gamma, size, lower, sc
 def log_residuals(u, y, z, bounds, a, e, g, out):
     """``out[f, i]``: the log-scale residual of row i of series s under fit f (F folds, then the full fit in
     row F): yᵢ − a[s, f] − e[s, f]·uᵢ − Σⱼ g[s, f, j]·z[j, i]."""
-    m = z.shape[0]
     for s in range(bounds.shape[0]):
+        start, stop = bounds[s, 0], bounds[s, -1]
         for f in range(a.shape[1]):
-            for i in range(bounds[s, 0], bounds[s, -1]):
-                r = y[i] - a[s, f] - e[s, f] * u[i]
-                for j in range(m):
-                    r -= g[s, f, j] * z[j, i]
-                out[f, i] = r
+            row, level, slope = out[f], a[s, f], e[s, f]
+            for i in range(start, stop):
+                row[i] = y[i] - level - slope * u[i]
+            for j in range(z.shape[0]):
+                gj, zj = g[s, f, j], z[j]
+                for i in range(start, stop):
+                    row[i] -= gj * zj[i]
 
 
 @compiled

@@ -26,13 +26,12 @@ other, and 0 for every season term (their average over a year).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from ..compiled import compiled
 from ..errors import SettingsError
-from .gram_lanes import CONTROL_TOL
 
 SEASON_MAX = 4
 KEPT, CONSTANT, REDUNDANT = 0, 1, 2  # why a control is left out for a series
@@ -43,18 +42,54 @@ def season_names(k: int) -> list[str]:
     return [f"season_{kind}{i}" for i in range(1, k + 1) for kind in ("sin", "cos")]
 
 
-def season_terms(date: np.ndarray, k: int) -> np.ndarray:
-    """(2k, N) sin(2π·i·d), cos(2π·i·d) for i = 1…k, d = (day of the year − 1) / days in that year."""
-    day = np.asarray(date).astype("datetime64[D]")
-    year = day.astype("datetime64[Y]")
-    start = year.astype("datetime64[D]")
-    length = ((year + 1).astype("datetime64[D]") - start).astype(np.int64)
-    angle = 2 * np.pi * (day - start).astype(np.int64) / length
-    out = np.empty((2 * k, len(day)))
+def season_terms(date: np.ndarray, k: int, out: np.ndarray | None = None) -> np.ndarray:
+    """(2k, N) sin(2π·i·d), cos(2π·i·d) for i = 1…k, d = (day of the year − 1) / days in that year.
+
+    Dates are whole days: each row looks its terms up in a table of the 365 + 366 possible days."""
+    days = np.asarray(date).astype("datetime64[ns]", copy=False)
+    slot = np.empty(len(days), dtype=np.int64)
+    day_slots(days.view(np.int64), slot)
+    angle = 2 * np.pi * np.concatenate((np.arange(365) / 365, np.arange(366) / 366))
+    out = np.empty((2 * k, len(days))) if out is None else out
     for i in range(k):
-        out[2 * i] = np.sin((i + 1) * angle)
-        out[2 * i + 1] = np.cos((i + 1) * angle)
+        np.take(np.sin((i + 1) * angle), slot, out=out[2 * i])
+        np.take(np.cos((i + 1) * angle), slot, out=out[2 * i + 1])
     return out
+
+
+@compiled
+def day_slots(ticks, out):
+    """Each date (``ticks`` nanoseconds since 1970-01-01) as its place in a table of a common year's 365
+    days then a leap year's 366: its day of the year from 0, plus 365 in a leap year.  Worked out once
+    per day of the dates' span (datetime64[ns] spans at most 213,000 days), then looked up."""
+    if len(ticks) == 0:
+        return
+    first = ticks[0] // 86_400_000_000_000
+    last = first
+    for i in range(len(ticks)):
+        day = ticks[i] // 86_400_000_000_000
+        first = min(first, day)
+        last = max(last, day)
+    table = np.empty(last - first + 1, dtype=np.int64)
+    for d in range(first, last + 1):
+        table[d - first] = _day_slot(d)
+    for i in range(len(ticks)):
+        out[i] = table[ticks[i] // 86_400_000_000_000 - first]
+
+
+@compiled(inline=True)
+def _day_slot(days):
+    """The table place of the day ``days`` since 1970-01-01 (civil calendar, proleptic Gregorian)."""
+    shifted = days + 719468  # days since 0000-03-01
+    era = (shifted if shifted >= 0 else shifted - 146096) // 146097
+    of_era = shifted - era * 146097
+    year_of_era = (of_era - of_era // 1460 + of_era // 36524 - of_era // 146096) // 365
+    from_march = of_era - (365 * year_of_era + year_of_era // 4 - year_of_era // 100)
+    year = year_of_era + era * 400 + (1 if from_march >= 306 else 0)
+    leap = (year % 4 == 0 and year % 100 != 0) or year % 400 == 0
+    # from_march counts from March 1: January and February close the previous March-year
+    day = from_march - 306 if from_march >= 306 else from_march + 59 + (1 if leap else 0)
+    return day + (365 if leap else 0)
 
 
 def is_binary(values: np.ndarray) -> bool:
@@ -90,11 +125,15 @@ class ControlSpec:
     def raw(self, data, r0: int, r1: int, order: np.ndarray | None) -> np.ndarray:
         """(M, n) every term at dataset rows ``r0:r1``, in the working ``order`` (None: as they are)."""
         out = np.empty((len(self.names), r1 - r0))
+
+        def take(values, into):
+            return np.take(values[r0:r1], order, out=into) if order is not None else np.copyto(into, values[r0:r1])
         for j, name in enumerate(self.columns):
-            out[j] = data.controls[name][r0:r1]
+            take(data.controls[name], out[j])
         if self.season:
-            out[len(self.columns):] = season_terms(data.date[r0:r1], self.season)
-        return out if order is None else out[:, order]
+            date = data.date[r0:r1] if order is None else data.date[r0:r1][order]
+            season_terms(date, self.season, out[len(self.columns):])
+        return out
 
     def plan_values(self, n_series: int, plan_controls: dict | None, plan_date) -> np.ndarray:
         """(S, M) the plan's value of every term; NaN where the series' mean is to be used."""
@@ -122,6 +161,18 @@ class ControlSpec:
 
 
 @dataclass(frozen=True, eq=False)
+class PriceTie:
+    """How price and the controls move together in each series, from its fit on all rows (S series, m
+    controls): ``vif`` (S,) the variance inflation of price given the controls kept, ``tied`` (S,) the
+    kept control most correlated with price (-1: none), ``redundant`` (S, m) controls that add nothing
+    to the ones before them (not constant, but a combination of the others)."""
+
+    vif: np.ndarray
+    tied: np.ndarray
+    redundant: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
 class ChunkControls:
     """One chunk's controls, M terms, S series, n rows in working order.
 
@@ -140,10 +191,10 @@ class ChunkControls:
     left_out: np.ndarray
     lone: np.ndarray
     gap: np.ndarray
-    vif: np.ndarray
-    tied: np.ndarray
     plan: np.ndarray
-    offset: np.ndarray
+    vif: np.ndarray | None = None
+    tied: np.ndarray | None = None
+    offset: np.ndarray | None = None
 
     @property
     def kept(self) -> np.ndarray:
@@ -151,99 +202,70 @@ class ChunkControls:
         return (self.left_out == KEPT).sum(axis=1)
 
 
-def chunk_controls(raw: np.ndarray, price: np.ndarray, weight: np.ndarray | None, offsets: np.ndarray,
-                   plan: np.ndarray) -> ChunkControls:
-    """The controls of one chunk: ``raw`` (M, n) and ``price`` (n,) in working order, series s owning
-    rows ``offsets[s]:offsets[s + 1]``; ``plan`` (S, M) the plan values (NaN: the series' mean)."""
+def chunk_controls(raw: np.ndarray, weight: np.ndarray | None, offsets: np.ndarray, plan: np.ndarray
+                   ) -> ChunkControls:
+    """The controls of one chunk: ``raw`` (M, n) in working order, series s owning rows
+    ``offsets[s]:offsets[s + 1]``; ``plan`` (S, M) the plan values (NaN: the series' mean).  The
+    variance inflation, the tied control and the redundant controls come from the fits (``tied_to_price``)."""
     m, n_s = raw.shape[0], len(offsets) - 1
     z = np.empty_like(raw)
-    mean, gap, vif = np.zeros((n_s, m)), np.zeros((n_s, m)), np.empty(n_s)
-    left_out, lone, tied = np.zeros((n_s, m), np.int8), np.full((n_s, m), -1, np.int64), np.full(n_s, -1, np.int64)
-    centre(np.ascontiguousarray(raw, dtype=np.float64), price, np.empty(0) if weight is None else weight,
-           offsets.astype(np.int64), CONTROL_TOL, z, mean, left_out, lone, gap, vif, tied)
+    mean, gap = np.zeros((n_s, m)), np.zeros((n_s, m))
+    left_out, lone = np.zeros((n_s, m), np.int8), np.full((n_s, m), -1, np.int64)
+    centre(np.ascontiguousarray(raw, dtype=np.float64), np.empty(0) if weight is None else weight,
+           offsets.astype(np.int64), z, mean, left_out, lone, gap)
     plan = np.where(np.isnan(plan), mean, plan)
-    offset = np.where(left_out == KEPT, plan - mean, 0.0)
-    return ChunkControls(z, mean, left_out, lone, gap, vif, tied, plan, offset)
+    return ChunkControls(z, mean, left_out, lone, gap, plan)
+
+
+def tied_to_price(ctl: ChunkControls, tie: PriceTie) -> ChunkControls:
+    """``ctl`` completed from a fit in price: the controls left out as redundant, the variance inflation
+    of price and the control tied to it; the offsets of the plan values from the means, 0 where left out."""
+    left_out = np.where((ctl.left_out == KEPT) & tie.redundant, np.int8(REDUNDANT), ctl.left_out)
+    offset = np.where(left_out == KEPT, ctl.plan - ctl.mean, 0.0)
+    return replace(ctl, left_out=left_out, vif=tie.vif, tied=tie.tied, offset=offset)
 
 
 @compiled
-def centre(raw, price, w, offsets, tol, z, mean, left_out, lone, gap, vif, tied):
-    """Per series: each control's mean, centred column, whether it is constant or redundant, its lone row;
-    the variance inflation of price given the kept controls and the control most correlated with price."""
-    m = raw.shape[0]
+def centre(raw, w, offsets, z, mean, left_out, lone, gap):
+    """Per series and control, a column at a time: its (weighted) mean, its centred column (0 when
+    constant), whether it is constant, and its lone row and gap (see ``ChunkControls``)."""
     weighted = len(w) > 0
-    cross = np.zeros((m + 1, m + 1))
-    lower = np.zeros((m + 1, m + 1))
     for s in range(len(offsets) - 1):
         a, b = offsets[s], offsets[s + 1]
         total_w = 0.0
-        price_sum = 0.0
         for i in range(a, b):
-            wi = w[i] if weighted else 1.0
-            total_w += wi
-            price_sum += wi * price[i]
+            total_w += w[i] if weighted else 1.0
         total_w = total_w if total_w > 0 else 1.0
-        price_mean = price_sum / total_w
-        for j in range(m):
+        for j in range(raw.shape[0]):
+            column, out = raw[j], z[j]
+            acc = 0.0
             low = np.inf
             high = -np.inf
-            acc = 0.0
             for i in range(a, b):
-                wi = w[i] if weighted else 1.0
-                acc += wi * raw[j, i]
-                low = min(low, raw[j, i])
-                high = max(high, raw[j, i])
-            mean[s, j] = acc / total_w
-            left_out[s, j] = 1 if not low < high else 0
+                value = column[i]
+                acc += (w[i] if weighted else 1.0) * value
+                low = min(low, value)
+                high = max(high, value)
+            average = acc / total_w
+            mean[s, j] = average
+            lone[s, j] = -1
+            gap[s, j] = 0.0
+            if not low < high:
+                left_out[s, j] = 1
+                for i in range(a, b):
+                    out[i] = 0.0
+                continue
+            left_out[s, j] = 0
             at_low = 0
             at_high = 0
             for i in range(a, b):
-                at_low += raw[j, i] == low
-                at_high += raw[j, i] == high
-            if low < high and at_low + at_high == b - a and (at_low == 1 or at_high == 1):
+                value = column[i]
+                at_low += value == low
+                at_high += value == high
+                out[i] = value - average
+            if at_low + at_high == b - a and (at_low == 1 or at_high == 1):  # one side on a single row
                 lone_value = low if at_low == 1 else high
-                for i in range(a, b):
-                    if raw[j, i] == lone_value:
-                        lone[s, j] = i
                 gap[s, j] = lone_value - (high if at_low == 1 else low)
-            for i in range(a, b):
-                z[j, i] = raw[j, i] - mean[s, j] if left_out[s, j] == 0 else 0.0
-        # Centred cross products of [controls…, price], unit-diagonal Cholesky in that order.
-        for j in range(m + 1):
-            for k in range(j + 1):
-                acc = 0.0
                 for i in range(a, b):
-                    wi = w[i] if weighted else 1.0
-                    zj = z[j, i] if j < m else price[i] - price_mean
-                    zk = z[k, i] if k < m else price[i] - price_mean
-                    acc += wi * zj * zk
-                cross[j, k] = acc
-        best = -1.0
-        tied[s] = -1
-        for j in range(m + 1):
-            d = cross[j, j]
-            pivot = 1.0 if d > 0 else 0.0
-            for k in range(j):
-                pivot -= lower[j, k] * lower[j, k]
-            usable = d > 0 and (pivot > tol if j < m else pivot > 0)
-            if j < m and left_out[s, j] == 0 and not usable:
-                left_out[s, j] = 2
-                lone[s, j] = -1
-                for i in range(a, b):
-                    z[j, i] = 0.0
-            root = np.sqrt(pivot) if usable else 1.0
-            for i in range(j + 1, m + 1):
-                if usable:
-                    value = cross[i, j] / np.sqrt(cross[i, i] * d) if cross[i, i] > 0 else 0.0
-                    for k in range(j):
-                        value -= lower[i, k] * lower[j, k]
-                    lower[i, j] = value / root
-                else:
-                    lower[i, j] = 0.0
-            if j < m and usable and cross[m, m] > 0:
-                corr = abs(cross[m, j]) / np.sqrt(cross[j, j] * cross[m, m])
-                if corr > best:
-                    best = corr
-                    tied[s] = j
-            if j == m:
-                vif[s] = 1.0 / pivot if d > 0 and pivot > 0 else (np.inf if d > 0 else np.nan)
+                    if column[i] == lone_value:
+                        lone[s, j] = i

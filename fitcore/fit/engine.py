@@ -66,6 +66,8 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, lineup: L
                plan: np.ndarray, spec: ControlSpec | None = None, at_controls: np.ndarray | None = None) -> dict:
     ch = Chunk(data, s0, s1, scheme, spec, at_controls)
     fits = [family.fit(ch, lineup.candidates[cols]) for family, cols in lineup.groups]
+    if ch.controls is not None:
+        stages.hold_controls(ch, lineup, fits)
     cells = stages.gather(ch, lineup, fits)
     scores = scheme.scores(cells.held_out, ch.offsets, ch.weight, ch.moments)
     reason = stages.unavailable(ch, lineup, cells)

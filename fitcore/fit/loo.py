@@ -48,17 +48,17 @@ def loo_residuals(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, offsets: n
             e -= fitted_controls(fit.gamma[:, -1, j], controls.z, counts)
         resid[j] = e / np.where(high, 1.0, 1.0 - h)
         if controls is not None:
-            lone, effect = lone_effect(controls, fit.gamma[:, -1, j], len(x))
+            lone, effect = lone_effect(controls, fit.gamma[:, -1, j], fit.scale[:, 1:len(controls.z) + 1] > 0, len(x))
             resid[j] = np.where(high & lone, effect, resid[j])
             high &= ~lone
         defined[j, np.unique(series[high])] = False
     return resid, defined
 
 
-def lone_effect(controls, gamma: np.ndarray, n_rows: int) -> tuple[np.ndarray, np.ndarray]:
-    """(N,) whether a row is some control's lone row, and Σ γ·gap over the controls it is lone for:
-    its leave-one-out residual under the fit without them (``gamma`` (S, m) the full fit's)."""
-    series, term = np.nonzero(controls.lone >= 0)
+def lone_effect(controls, gamma: np.ndarray, kept: np.ndarray, n_rows: int) -> tuple[np.ndarray, np.ndarray]:
+    """(N,) whether a row is the lone row of a control the full fit kept (``kept`` (S, m)), and Σ γ·gap
+    over those: its leave-one-out residual under the fit without them (``gamma`` (S, m) the full fit's)."""
+    series, term = np.nonzero((controls.lone >= 0) & kept)
     rows = controls.lone[series, term]
     lone = np.zeros(n_rows, dtype=bool)
     lone[rows] = True

@@ -21,6 +21,7 @@ from . import controlled_rows, kernels
 from . import reasons as R
 from .basis import leverages
 from .controlled_rows import design_leverages
+from .controls import tied_to_price
 from .chunk import Chunk
 from .families import Fitted, Lineup
 
@@ -69,6 +70,13 @@ def gather(ch: Chunk, lineup: Lineup, fits: list[Fitted]) -> Cells:
         coef[:, :, 0] += np.einsum("scm,sm->sc", gamma, ch.controls.offset)  # the curves at the plan's controls
     return Cells(coef, mid, half, fit_ok, held_ok, unserved, held_out, sse, fit_sse / np.maximum(df, 1), df, smear,
                  gamma)
+
+
+def hold_controls(ch: Chunk, lineup: Lineup, fits: list[Fitted]) -> None:
+    """Complete the chunk's controls from the first family fitted in price itself: which controls are
+    redundant, how price and the controls move together, the plan values as offsets from the means."""
+    tie = next(fit.tie for (family, _), fit in zip(lineup.groups, fits) if family.regressor == "price")
+    ch.controls = tied_to_price(ch.controls, tie)
 
 
 def unavailable(ch: Chunk, lineup: Lineup, cells: Cells) -> np.ndarray:

@@ -75,6 +75,7 @@ class Fitted:
     target: np.ndarray
     row_coef: np.ndarray
     gamma: np.ndarray | None = None
+    tie: object = None  # with controls: ``controls.PriceTie`` of the family's regressor
 
 
 class Family:

@@ -47,7 +47,7 @@ class LogVolume(Family):
         return Fitted(coef=coef, mid=mid, half=half, fit_ok=log.ok[:, -1], held_ok=held_ok[:, None],
                       held_out=held_out[..., None], sse=sse[:, None], fit_sse=log.sse_full, smear=smear[:, None],
                       unserved=~served, lower=log.lower, scale=log.scale, rows=u, target=z, row_coef=centred,
-                      gamma=None if log.gamma is None else log.gamma[:, -1])
+                      gamma=None if log.gamma is None else log.gamma[:, -1], tie=log.tie)
 
     def fold_errors(self, work):
         """Each fold's volume errors, its smearing factor from its own training rows (``volume_errors``)."""

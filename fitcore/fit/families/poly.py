@@ -35,7 +35,7 @@ class Polynomial(Family):
         return Fitted(coef=coef, mid=mid, half=half, fit_ok=fit.ok[:, -1], held_ok=held_ok, held_out=errors,
                       sse=fit.sse_full, fit_sse=fit.sse_full, smear=no_smear, unserved=None, lower=fit.lower,
                       scale=fit.scale, rows=ch.t, target=ch.volume, row_coef=coef,
-                      gamma=None if fit.gamma is None else fit.gamma[:, -1])
+                      gamma=None if fit.gamma is None else fit.gamma[:, -1], tie=fit.tie)
 
     def fold_errors(self, work):
         ch, fit = work
