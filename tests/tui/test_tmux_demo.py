@@ -37,15 +37,18 @@ def test_demo_in_tmux_records_an_accept(tmp_path):
 
         first = wait_for(screen, lambda text: "listed (needs attention" in text and "a accept" in text)
         assert "table salt 1 kg · South" in first
-        subprocess.run([*tmux, "send-keys", "a"], check=True)
+        subprocess.run([*tmux, "send-keys", "a"], check=True)  # stop flags: the screen asks why first
+        wait_for(screen, lambda text: "Say why" in text)
+        subprocess.run([*tmux, "send-keys", "only two prices seen", "Enter"], check=True)
         ledger = folder / "ledger.jsonl"
         wait_for(lambda: ledger.read_text() if ledger.exists() else "", lambda text: text.count("\n") == 1)
-        after = wait_for(screen, lambda text: "accept recorded" in text or "listed" in text)
-        assert "listed" in after
+        after = wait_for(screen, lambda text: "20 listed" in text)
+        assert "table salt 1 kg · South" not in after  # accepted: off the list of series needing attention
         subprocess.run([*tmux, "send-keys", "q"], check=True)
         wait_for(screen, lambda text: "EXITED rc=0" in text)
         [record] = [json.loads(line) for line in ledger.read_text().splitlines()]
         assert record["action"] == "accept" and record["analyst"] == "tmuxer"
+        assert record["note"] == "only two prices seen"
         assert (folder / "results.json").exists()
     finally:
         subprocess.run([*tmux, "kill-server"], capture_output=True)
