@@ -60,10 +60,11 @@ class Shown:
         return tuple(code for code in self.flags if SEVERITY[code] == "stop")
 
 
-def describe(record: dict) -> str:
+def describe(record: dict, when: bool = True) -> str:
     """'ana accepted poly1 at 14:02:11' — a ledger record in a few words (names made safe to print)."""
     model = f" {record['model']}" if record["action"] in ("accept", "override") and record.get("model") else ""
-    return f"{clean(record['analyst'])} {PAST.get(record['action'], record['action'])}{model} at {record['at'][11:19]}"
+    at = f" at {record['at'][11:19]}" if when else ""
+    return f"{clean(record['analyst'])} {PAST.get(record['action'], record['action'])}{model}{at}"
 
 
 class TriageSession(ListState):

@@ -18,7 +18,8 @@ from fitcore.errors import PricefoldError
 from fitcore.review.flags import CODES
 
 from ..help import help_text
-from ..session import FILTER_TITLES, FILTERS, KEEP, SORT_TITLES, SORTS, Refused, Shown, TriageSession
+from ..session import (FILTER_TITLES, FILTERS, KEEP, SORT_TITLES, SORTS, Refused, Shown, TriageSession,
+                       describe)
 from ..text import clean
 from ..widgets.evidence import EvidencePanel
 from ..widgets.series_list import SeriesList
@@ -56,6 +57,7 @@ class TriageScreen(Screen):
         self.session = session
         self._actions_shown: tuple | None = None
         self._last_search = ""
+        self._told: str | None = None  # the last record by someone else this screen has told about
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -120,6 +122,12 @@ class TriageScreen(Screen):
             return
         if changed:
             self.refresh_all()
+        news = self.session.news
+        if news is not None and news.get("digest") != self._told:
+            self._told = news.get("digest")
+            gone = ": it has left your list, and decision keys wait until you move" if self.session.waiting else ""
+            self.notify(f"{describe(news)} on {self.session.label(self.session.current)}{gone}", markup=False,
+                        timeout=6)
 
     # -- which keys can act now ------------------------------------------------------------
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:

@@ -136,8 +136,8 @@ class SeriesList(ScrollView, can_focus=True):
                     f"{score_text:>5}  "),
         ]
         if s == session.current and session.news is not None:  # someone else just decided it: say who
-            gone = " (left the list)" if session.waiting else ""
-            segments.append(Segment(pad(f"← {describe(session.news)}{gone}", flags_w), NEWS))
+            lead = "left list: " if session.waiting else "← "
+            segments.append(Segment(pad(lead + describe(session.news, when=False), flags_w), NEWS))
         else:
             flag_style = STOP if severity == "stop" else WARN if severity else DIM
             segments.append(Segment(pad(short_flags(session.flag_codes(s), flags_w) or "—", flags_w), flag_style))
