@@ -93,7 +93,7 @@ class TriageScreen(Screen):
         """The highlighted series is what the screen shows now: decisions act on it."""
         s = self.session.current
         self.session.look(s)
-        self.evidence.show(s, charts_now=self.evidence.series is None)
+        self.evidence.show(s, now=self.evidence.series is None)
         self.refresh_footer()
 
     def refresh_footer(self) -> None:

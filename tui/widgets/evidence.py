@@ -1,8 +1,8 @@
 """The evidence for one series: what stands and why, flags, plan, charts, candidates, ledger history.
 
 The words come first (they fit a small terminal), the charts after them.  Every number is of the
-model that now stands: the engine's proposal, or an analyst's override.  The text is drawn as soon
-as the cursor lands; the charts once it rests.
+model that now stands: the engine's proposal, or an analyst's override.  The title (which series,
+its status) is drawn as soon as the cursor lands; the rest once it rests, dimmed until then.
 """
 from __future__ import annotations
 
@@ -27,7 +27,7 @@ from .charts import curve_chart, fold_chart
 SEVERITY_STYLE = {"stop": "#ff875f", "warn": "#d7af5f"}
 NEWS_STYLE = "#5fafff"
 PARTS = ("title", "flags", "why", "plan", "curve", "folds", "candidates", "history")
-CHART_DELAY = 0.12  # draw the charts once the cursor rests, not on every key of a fast scroll
+CHART_DELAY = 0.12  # draw all but the title once the cursor rests, not on every key of a fast scroll
 
 
 def gauge(plan: float, lo: float, hi: float, width: int = 24) -> str:
@@ -56,23 +56,28 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         for name in PARTS:
             yield Static(id=f"ev-{name}", markup=False)
 
-    def show(self, series: int | None, charts_now: bool = False) -> None:
-        """Show ``series``: each new series from the top; the charts follow once the cursor rests."""
-        if series != self.series:
+    def show(self, series: int | None, now: bool = False) -> None:
+        """Show ``series``: each new series from the top, its title at once, the rest once the cursor rests
+        (redrawing the whole panel on every key of a fast scroll would slow the list down)."""
+        moved = series != self.series
+        if moved:
             self.scroll_home(animate=False, immediate=True)
         self.series = series
-        self.redraw_text()
         if self._charts_timer is not None:
             self._charts_timer.stop()
-        if charts_now:
-            self.redraw_charts()
-        else:
-            self._charts_timer = self.set_timer(CHART_DELAY, self.redraw_charts)
+        if now or not moved:
+            self.redraw()
+            return
+        # The title has a fixed height: updating it needs no layout pass (one costs ~10× a repaint here).
+        self._part("title").update(self.title_text(series) if series is not None else "", layout=False)
+        self.set_class(True, "catching-up")
+        self._charts_timer = self.set_timer(CHART_DELAY, self.redraw)
 
     def on_resize(self) -> None:
         self.redraw()
 
     def redraw(self) -> None:
+        self.set_class(False, "catching-up")
         self.redraw_text()
         self.redraw_charts()
 
@@ -88,7 +93,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             for name in PARTS[1:]:
                 self._part(name).update("")
             return
-        for name, text in (("title", self.title_text(s)), ("flags", self.flags_text(s)), ("why", self.why_text(s)),
+        self._part("title").update(self.title_text(s), layout=False)
+        for name, text in (("flags", self.flags_text(s)), ("why", self.why_text(s)),
                            ("plan", self.plan_text(s)), ("history", self.history_text(s))):
             text.rstrip()
             self._part(name).update(text)
@@ -107,8 +113,10 @@ class EvidencePanel(VerticalScroll, can_focus=True):
 
     # -- the parts ----------------------------------------------------------------------------
     def title_text(self, s: int) -> Text:
+        """Three lines at most, each cut to the width: which series, its status, news from another analyst."""
         results, session = self.session.results, self.session
         text = literal(session.label(s), "bold")
+        text.no_wrap, text.overflow = True, "ellipsis"
         text.append(f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
                     f"{self.price(results.price_hi[s])}", style="dim")
         standing = session.standing(s)
@@ -116,8 +124,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if session.news is not None and s == session.current:
             text.append(f"\nJust now: {describe(session.news)}.", style=NEWS_STYLE)
             if session.waiting:
-                text.append(" It has left the list you are working through; decision keys wait until you move.",
-                            style=NEWS_STYLE)
+                text.append(" It has left your list; keys wait until you move.", style=NEWS_STYLE)
         return text
 
     def flags_text(self, s: int) -> Text:
