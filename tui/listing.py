@@ -116,6 +116,10 @@ class ListState:
         self.view = order[mask[order]]
         where = np.flatnonzero(self.view == keep) if keep is not None else []
         self.cursor = int(where[0]) if len(where) else min(self.cursor, max(len(self.view) - 1, 0))
+        self._cursor_changed()
+
+    def _cursor_changed(self) -> None:
+        """Called whenever the cursor may have moved to another series (a session keeps ``shown`` in step)."""
 
     def _order(self) -> np.ndarray:
         if self.sort == "key":
@@ -152,6 +156,7 @@ class ListState:
         self.cursor = int(np.clip(position, 0, len(self.view) - 1))
         if self.pinned is not None and self.current != self.pinned:
             self.rebuild_view(keep=self.current)
+        self._cursor_changed()
 
     def move(self, step: int) -> None:
         self._go(self.cursor + step)
@@ -175,7 +180,7 @@ class ListState:
         """Rebuild the list and put the cursor on the next series needing attention after ``s``."""
         position = self.cursor
         self.rebuild_view(keep=-1)
-        self.cursor = min(position, max(len(self.view) - 1, 0))
+        self._go(min(position, max(len(self.view) - 1, 0)))
         if len(self.view) and self.view[self.cursor] == s:
             self.move(1)
         attention = self.needs_attention()[self.view]

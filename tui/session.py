@@ -94,7 +94,7 @@ class TriageSession(ListState):
         self._mine: list[tuple[str, str]] = []  # (series id, digest) of this screen's decisions, oldest first
         self._init_list(data.n_series)
         self.reload_ledger(force=True, pin=None)
-        self.cursor = 0  # the first screen starts at the top row
+        self._go(0)  # the first screen starts at the top row
 
     # -- the ledger ------------------------------------------------------------------------
     def reload_ledger(self, force: bool = False, pin: str | None = "waits") -> set[int]:
@@ -216,6 +216,12 @@ class TriageSession(ListState):
         return int(self.results.chosen[s])
 
     # -- what the screen shows, and deciding on it -------------------------------------------
+    def _cursor_changed(self) -> None:
+        """The highlighted row is on screen at once (the evidence follows): keys act on it from now."""
+        current = self.current
+        if self.shown is None or self.shown.series != current:
+            self.look(current)
+
     def look(self, s: int | None) -> Shown | None:
         """Record that the screen now shows series ``s`` (None: nothing); decisions act on it."""
         if s is None or s < 0:

@@ -278,3 +278,21 @@ async def test_tab_switches_to_the_evidence_when_narrow(ledger_path):
         await pilot.press("tab")
         await pilot.pause()
         assert "series" in screen_text(app).splitlines()[2]
+
+
+@pytest.mark.parametrize("size", SIZES)
+async def test_keys_typed_ahead_act_on_the_row_the_cursor_reached(ledger_path, size):
+    """Moves and a decision key in one burst: the decision acts on the row the moves reached."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=size) as pilot:
+        session = await started(app, pilot)
+        fourth = int(session.view[3])
+        app.screen.series_list.action_cursor(1)
+        app.screen.series_list.action_cursor(1)
+        app.screen.series_list.action_cursor(1)
+        app.screen.action_hold()  # before any message from the list has been handled
+        await pilot.pause()
+        await pilot.press("enter")
+        await pilot.pause()
+        [record] = records(ledger_path)
+        assert record["series"] == session.results.data.key_of(fourth) and record["action"] == "hold"

@@ -25,7 +25,7 @@ from fitcore.review.thresholds import Thresholds
 
 from ..text import literal
 
-HEAD = ("candidate", "CV MSE", "± SE", "Q²", "plan volume", "95% PI", "elast.")
+HEAD = ("model", "CV MSE", "± SE", "Q²", "volume", "95% PI", "elast.")
 
 
 @dataclass(frozen=True)
@@ -82,21 +82,19 @@ class OverrideDialog(ModalScreen[str | None]):
 
         plan = results.plan_price[s]
         title = literal(f"Override the proposal for {self.label}", "bold")
-        title.append(f"\nPlan price {money(plan)}: volume, its 95% prediction interval and the elasticity there."
-                     if math.isfinite(plan) else "\nNo plan price for this series.", style="")
-        title.append("\nFlags are each candidate's own: ! rising, below-zero, outside-range.", style="dim")
+        title.append(f"\nAt the plan price {money(plan)}: volume, 95% interval, elasticity; below each, its own flags"
+                     if math.isfinite(plan) else "\nNo plan price; below each model, its own flags", style="dim")
         with Vertical(classes="dialog wide override"):
             yield Static(title, markup=False)
             yield Static(Text("  " + line(HEAD), style="bold"), markup=False, id="override-head")
             options = []
             for row in self.rows:
-                prompt = Text(("✓ " if row.proposed else "  ") + line(_cells(row)))
-                if row.proposed:
-                    prompt.append("  proposed", style="dim")
-                elif row.name == self.standing:
-                    prompt.append("  ↺ stands now", style="dim")
-                if row.flags:
-                    prompt.append("\n    ! " + " · ".join(row.flags), style="#ff875f")
+                prompt = Text(("✓ " if row.proposed else "↺ " if row.name == self.standing else "  ")
+                              + line(_cells(row)))
+                role = "proposed · " if row.proposed else "stands now · " if row.name == self.standing else ""
+                prompt.append(f"\n    {role}", style="dim")
+                prompt.append(f"! {' · '.join(row.flags)}" if row.flags else "no shape or range flag",
+                              style="#ff875f" if row.flags else "dim")
                 options.append(Option(prompt, id=row.name, disabled=row.proposed))
             yield OptionList(*options, id="dialog-options")
             yield Static(Text("↑↓ to move · Enter to choose (a note follows) · Esc to cancel", style="dim"),
