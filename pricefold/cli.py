@@ -270,10 +270,9 @@ def is_results(path: Path) -> bool:
 
 
 def run_triage(args) -> int:
+    from fitcore.data.config import load_config
     from fitcore.review.thresholds import Thresholds, parse_threshold_options
     from tui.factory import Source, default_ledger, is_stored, source_from_results
-
-    from fitcore.data.config import load_config
     ledger_path = args.ledger or default_ledger(args.source)
     units = load_config(args.config).get("units", {})
     if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen

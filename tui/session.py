@@ -23,8 +23,17 @@ from fitcore.fit.results import Results
 from fitcore.ledger.replay import SeriesHistory, apply, series_id
 from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale
 
-from .listing import (FILTER_TITLES, FILTERS, KEEP, SORT_TITLES, SORTS, STATUS_MARK, STATUSES, ListState,
-                      SearchHit)
+from .listing import (
+    FILTER_TITLES,
+    FILTERS,
+    KEEP,
+    SORT_TITLES,
+    SORTS,
+    STATUS_MARK,
+    STATUSES,
+    ListState,
+    SearchHit,
+)
 from .text import clean
 
 __all__ = ["FILTERS", "FILTER_TITLES", "KEEP", "SORTS", "SORT_TITLES", "STATUS_MARK", "STATUSES", "SearchHit",

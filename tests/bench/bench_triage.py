@@ -175,7 +175,8 @@ async def measure_keys(results_path: Path, folder: Path, other: bool) -> None:
     title = "while a second analyst decides every 100 ms" if other else "alone"
     print(f"  {title}: opening the results as a session (in process): {opened:.2f} s")
     print(f"    key-to-repaint, 200 cursor moves: median {statistics.median(every) * 1e3:.0f} ms, "
-          f"p95 {p95(every) * 1e3:.0f} ms (down p95 {p95(moves) * 1e3:.0f} ms, page down p95 {p95(pages) * 1e3:.0f} ms)")
+          f"p95 {p95(every) * 1e3:.0f} ms (down p95 {p95(moves) * 1e3:.0f} ms, "
+          f"page down p95 {p95(pages) * 1e3:.0f} ms)")
     print(f"    key-to-repaint, 50 decisions (ledger append + fsync): median "
           f"{statistics.median(decisions) * 1e3:.0f} ms, p95 {p95(decisions) * 1e3:.0f} ms"
           + (f"; the screen had read {seen_other:,} of the other analyst's decisions" if other else ""))

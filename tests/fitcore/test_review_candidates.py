@@ -13,10 +13,10 @@ import numpy as np
 import pytest
 
 import fitcore
-from fitcore.review.candidate_checks import candidate_checks
-from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.data.loader import Columns, load
 from fitcore.data.plan import plan_prices
+from fitcore.review.candidate_checks import candidate_checks
+from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.flags import diagnose
 
 P = np.linspace(1, 2, 40)

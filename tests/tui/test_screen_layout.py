@@ -43,7 +43,8 @@ async def test_rows_stay_distinct_when_names_are_cut(ledger_path):
 
 
 def wide_source(tmp_path) -> Source:
-    names = ["松茸の天ぷら 大盛り", "café crème brûlée", "family pack 👩\u200d👩\u200d👧", "e\u0301clair x\u0308", "plain"]
+    names = ["松茸の天ぷら 大盛り", "café crème brûlée", "family pack 👩\u200d👩\u200d👧", "e\u0301clair x\u0308",
+             "plain"]  # CJK, accents, emoji with joiners, combining marks
     path = tmp_path / "wide.csv"
     rng = np.random.default_rng(1)
     with open(path, "w", newline="", encoding="utf-8") as handle:
@@ -65,7 +66,8 @@ async def test_rows_align_by_display_cells_whatever_the_names_hold(tmp_path, siz
         session.set_filter("all", None)
         app.screen.refresh_all()
         await pilot.pause()
-        rows = [line.split("▕")[0] for line in screen_text(app).splitlines()[3:] if re.search(r" 30 (poly|loglog)", line)]
+        rows = [line.split("▕")[0] for line in screen_text(app).splitlines()[3:]
+                if re.search(r" 30 (poly|loglog)", line)]
         assert len(rows) == 10
         starts = {cell_len(row[:re.search(r" 30 (poly|loglog)", row).start()]) for row in rows}
         assert len(starts) == 1, rows  # the n column starts at the same cell in every row
@@ -134,7 +136,8 @@ def colours_of(text, predicate) -> set[str]:
 
 def test_legend_colours_are_those_of_the_lines_and_the_price_axis_holds_the_plan():
     results, _ = fit_source(sample_source())
-    s = next(i for i in range(results.n_series) if results.data.key_of(i) == {"product": "lemons 500 g", "region": "East"})
+    lemons = {"product": "lemons 500 g", "region": "East"}
+    s = next(i for i in range(results.n_series) if results.data.key_of(i) == lemons)
     chart = curve_chart(results, s, 70, 14, int(results.chosen[s]), {})
     body, legend = chart.plain.rsplit("\n", 1)
     cut = len(body) + 1
@@ -145,7 +148,7 @@ def test_legend_colours_are_those_of_the_lines_and_the_price_axis_holds_the_plan
         chart[cut:], lambda ch: ch == "•")
     assert OBSERVED >= 250  # near white: visible on a dark background
     grid = price_grid(float(results.price_lo[s]), float(results.price_hi[s]), float(results.plan_price[s]), True)
-    plan, lo, hi = results.plan_price[s], results.price_lo[s], results.price_hi[s]
+    plan, lo = results.plan_price[s], results.price_lo[s]
     assert grid[0] < lo and grid[-1] > plan and grid[-1] - plan > 0.05 * (plan - lo)
     ticks = [float(t) for t in re.findall(r"\d+\.\d+", body.splitlines()[-2])]
     assert max(ticks) >= plan
@@ -153,9 +156,23 @@ def test_legend_colours_are_those_of_the_lines_and_the_price_axis_holds_the_plan
 
 def test_the_fold_chart_goes_to_a_log_scale_when_one_error_dwarfs_the_rest():
     results, _ = fit_source(sample_source())
-    ratio = [np.nanmax(results.cv_mse[s][results.available[s]]) / np.nanmin(results.cv_mse[s][results.available[s]])
-             for s in range(results.n_series)]
+    errors = [results.cv_mse[s][results.available[s]] for s in range(results.n_series)]
+    ratio = [np.nanmax(e) / np.nanmin(e) for e in errors]
     big, small = int(np.argmax(ratio)), int(np.argmin(ratio))
     assert ratio[big] > 50 and ratio[small] < 1.1
     assert "(log scale)" in fold_chart(results, big, 70, 12).plain
     assert "(log scale)" not in fold_chart(results, small, 70, 12).plain
+
+
+def test_the_settings_file_names_the_units(tmp_path):
+    from fitcore.data.config import load_config
+    from fitcore.errors import SettingsError
+    path = tmp_path / "pricefold.toml"
+    path.write_text('[units]\nprice = "EUR"\nvolume = "cases/week"\n', encoding="utf-8")
+    assert load_config(path)["units"] == {"price": "EUR", "volume": "cases/week"}
+    path.write_text("[units]\nprice = 3\n", encoding="utf-8")
+    with pytest.raises(SettingsError, match=r"\[units\] price should be text, got 3"):
+        load_config(path)
+    path.write_text('[units]\ncurrency = "EUR"\n', encoding="utf-8")
+    with pytest.raises(SettingsError, match="unknown key 'currency' in \\[units\\]; expected one of price, volume"):
+        load_config(path)

@@ -78,7 +78,8 @@ class OverrideDialog(ModalScreen[str | None]):
         widths = [max(len(h), *(len(_cells(r)[i]) for r in self.rows)) for i, h in enumerate(HEAD)]
 
         def line(cells) -> str:
-            return "  ".join(cell.ljust(w) if i == 0 else cell.rjust(w) for i, (cell, w) in enumerate(zip(cells, widths)))
+            return "  ".join(cell.ljust(w) if i == 0 else cell.rjust(w)
+                             for i, (cell, w) in enumerate(zip(cells, widths)))
 
         plan = results.plan_price[s]
         title = literal(f"Override the proposal for {self.label}", "bold")

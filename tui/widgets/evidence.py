@@ -142,7 +142,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         scored = [(results.names[c], float(results.cv_mse[s, c]), float(results.cv_se[s, c]))
                   for c in range(len(results.names)) if results.available[s, c]]
         name = results.names[chosen] if chosen >= 0 else None
-        text = Text(f"Proposed {name or 'nothing'} ({results.settings.rule}): {why_chosen(scored, name, results.settings.rule)}.\n")
+        rule = results.settings.rule
+        text = Text(f"Proposed {name or 'nothing'} ({rule}): {why_chosen(scored, name, rule)}.\n")
         if chosen >= 0:
             text.append(score_meaning(float(results.q2[s, chosen]), session.diagnosis.thresholds.weak_score) + ".\n")
         if model != chosen and model >= 0:
@@ -151,8 +152,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             text.append(f" ({describe(standing)}): {clean(standing.get('note') or '')}\n")
             text.append(score_meaning(float(results.q2[s, model]), session.diagnosis.thresholds.weak_score) + ".\n")
             checks = candidate_checks(results, s, model, session.diagnosis.thresholds).codes
-            text.append(f"Checks on {results.names[model]}: " + (", ".join(checks) if checks else "none raised") + ".\n",
-                        style=SEVERITY_STYLE["stop"] if checks else "")
+            said = ", ".join(checks) if checks else "none raised"
+            text.append(f"Checks on {results.names[model]}: {said}.\n", style=SEVERITY_STYLE["stop"] if checks else "")
         return text
 
     def plan_text(self, s: int) -> Text:

@@ -115,7 +115,8 @@ class SeriesList(ScrollView, can_focus=True):
         width = self.scrollable_content_region.width
         key_w, flags_w = self.columns(width)
         if y == 0:
-            flags = next(h for h in ("flags (! stop, ? warn)", "flags !stop ?warn", "flags") if len(h) <= flags_w or h == "flags")
+            flags = next(h for h in ("flags (! stop, ? warn)", "flags !stop ?warn", "flags")
+                         if len(h) <= flags_w or h == "flags")
             head = f"  {pad('series', key_w)} {'n':>5} {'model':<7} {'score':>5}  {pad(flags, flags_w)}"
             return Strip([Segment(head, Style(bold=True, underline=True))]).crop(0, width).extend_cell_length(width)
         row = y - 1 + int(self.scroll_y)
