@@ -9,7 +9,6 @@ without a terminal.
 """
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -20,7 +19,8 @@ from fitcore.arrays import integers, texts
 from fitcore.data.keys import SeriesKeys
 from fitcore.errors import PricefoldError
 from fitcore.fit.results import Results
-from fitcore.ledger.replay import SeriesHistory, apply, series_id
+from fitcore.ledger.replay import SeriesHistory, series_id
+from fitcore.ledger.rules import what_happened
 from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale
 
 from .listing import (
@@ -39,7 +39,6 @@ from .text import clean
 __all__ = ["FILTERS", "FILTER_TITLES", "KEEP", "SORTS", "SORT_TITLES", "STATUS_MARK", "STATUSES", "SearchHit",
            "Refused", "Shown", "TriageSession", "describe"]
 DECISIONS = ("accept", "override", "hold")  # what stands until revoked (a note does not)
-PAST = {"accept": "accepted", "override": "overrode", "hold": "held", "note": "noted", "revoke": "revoked"}
 
 
 class Refused(PricefoldError):
@@ -70,10 +69,9 @@ class Shown:
 
 
 def describe(record: dict, when: bool = True) -> str:
-    """'ana accepted poly1 at 14:02:11' — a ledger record in a few words (names made safe to print)."""
-    model = f" {record['model']}" if record["action"] in ("accept", "override") and record.get("model") else ""
-    at = f" at {record['at'][11:19]}" if when else ""
-    return f"{clean(record['analyst'])} {PAST.get(record['action'], record['action'])}{model}{at}"
+    """'ana accepted poly1 at 14:02:11 UTC' (the ledger's own words; without the time when ``when`` is off)."""
+    said = what_happened(record)
+    return said if when else said.rsplit(" at ", 1)[0]
 
 
 class TriageSession(ListState):
@@ -90,9 +88,11 @@ class TriageSession(ListState):
         self._labels: dict[int, tuple[str, ...]] = {}
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
         self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
-        self.histories: dict[str, SeriesHistory] = {}
-        self._ledger_state: tuple[int, int] | None = None
-        self._offset = 0
+        self.book = ledger.Ledger(self.ledger_path, key)  # verified in full here, then only its new tail
+        self._applied, self._generation = 0, self.book.generation
+        if self.book.state != ledger.INTACT:
+            self.warnings.append(f"{self.ledger_path.name}: {self.book.state} ({self.book.problem}); "
+                                 "decisions cannot be recorded")
         self.status = np.array(["pending"] * data.n_series, dtype=object)
         self.status_code = np.zeros(data.n_series, dtype=np.int8)  # index into STATUSES, for fast masks and counts
         self.diagnosis = diagnosis
@@ -106,32 +106,27 @@ class TriageSession(ListState):
         self._go(0)  # the first screen starts at the top row
 
     # -- the ledger ------------------------------------------------------------------------
+    @property
+    def histories(self) -> dict[str, SeriesHistory]:
+        return self.book.histories
+
     def reload_ledger(self, force: bool = False, pin: str | None = "waits") -> set[int]:
         """Read decisions recorded since the last look (by anyone); the series they touched.
 
         The highlighted series stays listed if they take it out of the view (``pin``), and ``news`` keeps
         the latest record someone else made on it.
         """
-        try:
-            stat = os.stat(self.ledger_path)
-            state = (stat.st_size, stat.st_mtime_ns)
-        except FileNotFoundError:
-            state = (0, 0)
-        if not force and state == self._ledger_state:
-            return set()
-        self._ledger_state = state
-        if state[0] < self._offset:  # the file shrank (a torn tail moved aside): start over
-            self.histories, self._offset = {}, 0
-        new = b""
-        if state[0] > self._offset:
-            with open(self.ledger_path, "rb") as handle:
-                handle.seek(self._offset)
-                new = handle.read(state[0] - self._offset)
-        whole = new[:new.rfind(b"\n") + 1]
-        self._offset += len(whole)
-        records, _ = ledger.parse(whole)
+        self.book.refresh(wait=False)  # never blocks the screen: a writer's lock means "next time"
+        return self._catch_up(force, pin)
+
+    def _catch_up(self, force: bool = False, pin: str | None = "waits") -> set[int]:
+        """Statuses for the records the ledger holds that this session has not applied yet."""
+        if self.book.generation != self._generation:  # the file was read again from the start
+            self._applied, self._generation, force = 0, self.book.generation, True
+            self.status[:], self.status_code[:] = "pending", 0
+        records = self.book.records[self._applied:]
+        self._applied = len(self.book.records)
         touched = {series_id(r["series"]): r["series"] for r in records}
-        apply(self.histories, records)
         unknown = [sid for sid in touched if sid not in self._known]
         for sid, s in zip(unknown, self.keys.indices_of([touched[sid] for sid in unknown])):
             self._known[sid] = int(s)
@@ -254,47 +249,35 @@ class TriageSession(ListState):
     def decide(self, shown: Shown, action: str, model: str | None = None, note: str = "") -> dict:
         """Append one decision on the series ``shown`` showed; returns the record written.
 
-        Raises ``Refused`` when the ledger changed on that series since it was shown, or the decision is
-        not allowed as asked; ``LedgerError`` when the ledger cannot be written.
+        The entry ``supersedes`` the ledger record the screen last showed for that series, and carries the
+        flags it showed: the ledger refuses it under its lock (``LedgerConflict``, one sentence) when another
+        decision got there first, and applies its other rules (``LedgerError``).  ``Refused``: the screen
+        will not ask (the series left the list under the cursor, or the ledger takes no appends).
         """
         self.reload_ledger(pin="waits")
+        if self.book.state != ledger.INTACT:
+            raise Refused(f"the ledger is {self.book.state} ({self.book.problem}): nothing can be recorded")
         s = self.index_of(shown)
         if s < 0:
             raise Refused("this series is no longer in the results")
-        records = self.history(s)
-        latest = records[-1] if records else None
-        if (latest.get("digest") if latest else None) != shown.latest:
-            raise Refused(f"{describe(latest)}; look again")
         if self.waiting and s == self.current and action != "revoke":
             raise Refused("this series has left the list you are working through; move on first")
-        standing = self.standing(s)
         if action == "accept":
             model = shown.proposed
-            if self.needs_reason(shown, action) and not note.strip():
-                raise Refused(f"accepting past {', '.join(shown.stops)} needs a note saying why")
-            if standing and standing["action"] == "accept" and standing.get("fingerprint") == shown.fingerprint:
-                raise Refused(f"{describe(standing)}; already accepted on these data")
-        if action == "override" and (not model or model == shown.proposed or not note.strip()):
-            raise Refused("an override needs another candidate than the proposal, and a note")
-        if action == "revoke" and self.own_standing(s) is None:
-            raise Refused("nothing of yours stands on this series")
         entry = ledger.Entry(series=shown.key, action=action, fingerprint=shown.fingerprint,
-                             results=self.results_digest, model=model, proposed=shown.proposed, note=note)
-        [written] = ledger.append(self.ledger_path, [entry], self.who, key=self.key)
+                             results=self.results_digest, model=model, proposed=shown.proposed, note=note,
+                             supersedes=shown.latest, flags=list(shown.flags))
+        self._known[shown.sid] = s
+        try:
+            [written] = self.book.append([entry], self.who)
+        except PricefoldError:
+            self._catch_up(pin="waits")  # a refused decision may still have read other analysts' records
+            raise
         self._written.add(written["digest"])
         if action in DECISIONS:
             self._mine.append((shown.sid, written["digest"]))
-        self._known[shown.sid] = s
-        self.reload_ledger(pin=None)
+        self._catch_up(pin=None)
         return written
-
-    def own_standing(self, s: int) -> dict | None:
-        """This screen's latest decision still standing on series ``s`` (what ``revoke`` withdraws)."""
-        sid = self._id(s)
-        history = self.histories.get(sid)
-        standing = {r.get("digest") for r in history.standing} if history else set()
-        mine = [d for i, d in self._mine if i == sid and d in standing]
-        return next(r for r in history.standing if r.get("digest") == mine[-1]) if mine else None
 
     def undo_target(self) -> tuple[int, dict] | None:
         """The series and record of this screen's latest decision that still stands, wherever it is."""
@@ -306,9 +289,9 @@ class TriageSession(ListState):
         return None
 
     def result_flags(self, s: int) -> tuple[str, ...]:
-        """The flags the results raise on series ``s`` (not ``stale``, which comes from the ledger), stop first."""
+        """The flags the results raise on series ``s`` (not ``stale``, which comes from the ledger)."""
         raised = self.base_diagnosis.raised[s]
-        return tuple(sorted((code for i, code in enumerate(CODES) if raised[i]), key=lambda c: SEVERITY[c] != "stop"))
+        return tuple(code for i, code in enumerate(CODES) if raised[i])
 
     # -- one line of the list ------------------------------------------------------------
     def flag_codes(self, s: int) -> list[str]:

@@ -76,35 +76,33 @@ async def test_while_the_series_waits_no_decision_key_acts_and_moving_lets_it_go
 
 def test_a_decision_on_a_series_changed_since_it_was_shown_is_refused(ledger_path):
     """Case 1 when bo presses before his screen has looked again: the ledger changed on what he saw."""
+    from fitcore.ledger import LedgerConflict, LedgerError
     from tui.factory import open_session, sample_source
-    from tui.session import Refused
     ana = open_session(sample_source(), ledger_path, Identity("ana", "ana", "h"))
     bo = open_session(sample_source(), ledger_path, BO)
     s = next(int(i) for i in bo.view if bo.label(int(i)) == "table salt 1 kg · North")
     seen = bo.look(s)
     written = ana.decide(ana.look(s), "accept", note="checked")
-    with pytest.raises(Refused, match=rf"^ana accepted poly0 at {written['at'][11:19]}; look again$"):
+    with pytest.raises(LedgerConflict, match=rf"^ana accepted poly0 at {written['at'][11:19]} UTC; look again$"):
         bo.decide(seen, "accept", note="fine")
     assert len(records(ledger_path)) == 1
     again = bo.look(s)  # once shown again, a hold is bo's to make; another accept is refused
-    with pytest.raises(Refused, match="already accepted on these data"):
+    with pytest.raises(LedgerError, match="already accepted on this data"):
         bo.decide(again, "accept", note="fine")
     assert bo.decide(again, "hold")["analyst"] == "bo"
 
 
-@pytest.mark.xfail(reason="phase 2: needs the ledger's `supersedes` check under the lock (pricefold-ledger/2); "
-                          "the screen's own check runs before the lock, so a true race still gets through",
-                   strict=False)
 def test_simultaneous_decisions_the_second_is_refused_under_the_lock(ledger_path):
     """Issue case 2: a hold and an accept 20 ms apart, both screens having seen the same state."""
-    from fitcore.errors import PricefoldError
+    from fitcore.ledger import LedgerConflict
     from tui.factory import open_session, sample_source
     ana = open_session(sample_source(), ledger_path, Identity("ana", "ana", "h"))
     bo = open_session(sample_source(), ledger_path, BO)
     s = int(ana.view[0])
     ana_seen, bo_seen = ana.look(s), bo.look(s)
-    bo.reload_ledger = lambda *args, **kwargs: set()  # bo's check has passed; ana appends before bo's append
+    bo.reload_ledger = lambda *args, **kwargs: set()  # bo's screen has not looked since; ana appends first
     ana.decide(ana_seen, "hold")
-    with pytest.raises(PricefoldError):
+    with pytest.raises(LedgerConflict, match="^ana held at .* UTC; look again$"):
         bo.decide(bo_seen, "accept", note="fine")
     assert [r["action"] for r in records(ledger_path)] == ["hold"]
+    assert bo.status[s] == "held"  # the refusal brought bo's screen the hold

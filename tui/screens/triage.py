@@ -18,17 +18,7 @@ from fitcore.errors import PricefoldError
 from fitcore.review.flags import CODES
 
 from ..help import help_text
-from ..session import (
-    FILTER_TITLES,
-    FILTERS,
-    KEEP,
-    SORT_TITLES,
-    SORTS,
-    Refused,
-    Shown,
-    TriageSession,
-    describe,
-)
+from ..session import FILTER_TITLES, FILTERS, KEEP, SORT_TITLES, SORTS, Shown, TriageSession, describe
 from ..text import clean
 from ..widgets.evidence import EvidencePanel
 from ..widgets.series_list import SeriesList
@@ -160,12 +150,9 @@ class TriageScreen(Screen):
         """Record ``action`` on the series ``shown`` showed; say what happened, and move on after a decision."""
         try:
             self.session.decide(shown, action, model=model, note=note)
-        except Refused as exc:
-            self.app.push_screen(MessageDialog(Text(f"Not recorded: {clean(str(exc))}.", style="bold")))
-            self.refresh_all()  # the series as the ledger has it now
-            return
-        except PricefoldError as exc:
+        except PricefoldError as exc:  # refused by the screen or by the ledger's rules, or not written
             self.app.push_screen(MessageDialog(Text(f"Not recorded: {clean(str(exc))}", style="bold")))
+            self.refresh_all()  # the series as the ledger has it now
             return
         s = self.session.index_of(shown)
         what = f" {model}" if action == "override" else ""
@@ -235,7 +222,7 @@ class TriageScreen(Screen):
         try:
             self.session.decide(shown, "revoke")
         except PricefoldError as exc:
-            self.app.push_screen(MessageDialog(Text(f"Not revoked: {clean(str(exc))}.", style="bold")))
+            self.app.push_screen(MessageDialog(Text(f"Not revoked: {clean(str(exc))}", style="bold")))
             self.refresh_all()
             return
         self.notify(f"Revoked your {what} on {self.session.label(s)}", markup=False, timeout=5)
