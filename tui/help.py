@@ -7,6 +7,8 @@ from rich.text import Text
 
 from fitcore.review.flags import FLAGS
 
+from .text import clean
+
 KEYS = [
     ("↑ ↓ PgUp PgDn Home End", "move in the list"),
     ("] [", "next / previous series needing attention"),
@@ -41,7 +43,16 @@ def _grid(rows: list[tuple[str, str]]) -> Table:
     return grid
 
 
-def help_text() -> Group:
+def ledger_text(book) -> Text:
+    """Which ledger, whether its chain verifies, and its head (``SEQ:DIGEST`` of the last whole record)."""
+    text = Text("\nLedger ", style="bold")
+    text.append(clean(str(book.path)))
+    text.append(f"\n  {book.state}" + (f": {clean(str(book.problem))}" if book.problem else "") + "\n")
+    text.append(f"  head {book.head_text}", style="dim")
+    return text
+
+
+def help_text(book=None) -> Group:
     flags = [(f"{'!' if severity == 'stop' else '?'} {code}", f"{severity}: {meaning}")
              for code, severity, meaning in sorted(FLAGS, key=lambda flag: flag[1] != "stop")]
     return Group(
@@ -52,4 +63,5 @@ def help_text() -> Group:
         Text("\nFlags (! stop: do not put the curve into a plan unseen; ? warn: worth a look)", style="bold"),
         _grid(flags),
         Text("\nStatus marks: · pending  ✓ accepted  ↺ overridden  ‖ held  ! stale (data changed since)"),
-        Text("\n" + CAUTIONS, style="italic"))
+        Text("\n" + CAUTIONS, style="italic"),
+        *([ledger_text(book)] if book is not None else []))

@@ -242,6 +242,11 @@ class TriageSession(ListState):
                            proposed=names[chosen] if chosen >= 0 else None, model=names[model] if model >= 0 else None)
         return self.shown
 
+    @property
+    def writable(self) -> bool:
+        """Whether decisions can be recorded: a broken or unverifiable ledger is read-only."""
+        return self.book.state == ledger.INTACT
+
     def needs_reason(self, shown: Shown, action: str) -> bool:
         """An accept past a stop flag needs a note (the trade's usual rule for exceptions)."""
         return action == "accept" and bool(shown.stops)
@@ -255,7 +260,7 @@ class TriageSession(ListState):
         will not ask (the series left the list under the cursor, or the ledger takes no appends).
         """
         self.reload_ledger(pin="waits")
-        if self.book.state != ledger.INTACT:
+        if not self.writable:
             raise Refused(f"the ledger is {self.book.state} ({self.book.problem}): nothing can be recorded")
         s = self.index_of(shown)
         if s < 0:

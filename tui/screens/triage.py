@@ -133,6 +133,8 @@ class TriageScreen(Screen):
         session = self.session
         s = session.current
         results = session.results
+        if action in ("accept", "override", "note", "hold", "revoke") and not session.writable:
+            return False
         if action in ("accept", "override", "note", "hold") and (s is None or session.waiting):
             return False
         if action == "accept":
@@ -300,7 +302,7 @@ class TriageScreen(Screen):
             self.evidence.focus()
 
     def action_help(self) -> None:
-        self.app.push_screen(MessageDialog(help_text(), classes="help"))
+        self.app.push_screen(MessageDialog(help_text(self.session.book), classes="help"))
 
     def action_quit(self) -> None:
         self.app.exit()

@@ -32,7 +32,17 @@ def listed_text(session) -> str:
 
 
 def status_text(session, width: int) -> Text:
-    """The header for a screen ``width`` cells wide (the widget's padding already taken off)."""
+    """The header for a screen ``width`` cells wide (the widget's padding already taken off); a last line
+    in bold when the ledger is broken or unverifiable (the screen is then read-only)."""
+    text = _counts_lines(session, width)
+    if not session.writable:
+        book = session.book
+        said = f"READ-ONLY: the ledger is {book.state} ({clean(str(book.problem))}); nothing can be recorded"
+        text.append("\n" + cut(said, width), style="bold reverse")
+    return text
+
+
+def _counts_lines(session, width: int) -> Text:
     who = clean(session.who.analyst)
     listed = listed_text(session)
     counts = session.counts()
