@@ -232,8 +232,13 @@ async def test_help_shows_keys_flags_and_cautions(ledger_path):
         assert following[column - 1] == " " and following[column] != " "
         await pilot.press("end")
         await pilot.pause()
-        text = screen_text(app)
-        assert "influential-point" in text and "extrapolation" in text and "you decide" in text
+        assert "head 0:" in screen_text(app)  # the ledger (none yet) and its head close the help
+        seen = ""
+        for _ in range(4):  # back up through the cautions and the flags
+            seen += screen_text(app)
+            await pilot.press("pageup")
+            await pilot.pause()
+        assert "influential-point" in seen and "extrapolation" in seen and "you decide" in seen
         await pilot.press("escape")
         await pilot.pause()
         assert "Keys" not in screen_text(app)
