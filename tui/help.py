@@ -48,7 +48,8 @@ def ledger_text(book) -> Text:
     text = Text("\nLedger ", style="bold")
     text.append(clean(str(book.path)))
     text.append(f"\n  {book.state}" + (f": {clean(str(book.problem))}" if book.problem else "") + "\n")
-    text.append(f"  head {book.head_text}", style="dim")
+    text.append("  head (sequence number and digest of its last whole record):\n", style="dim")
+    text.append(f"  {book.head_text}", style="dim")
     return text
 
 

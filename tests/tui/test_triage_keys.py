@@ -232,7 +232,7 @@ async def test_help_shows_keys_flags_and_cautions(ledger_path):
         assert following[column - 1] == " " and following[column] != " "
         await pilot.press("end")
         await pilot.pause()
-        assert "head 0:" in screen_text(app)  # the ledger (none yet) and its head close the help
+        assert "0:" + "0" * 64 in screen_text(app)  # the ledger (none yet) and its head close the help
         seen = ""
         for _ in range(4):  # back up through the cautions and the flags
             seen += screen_text(app)
