@@ -18,7 +18,16 @@ from fitcore.errors import PricefoldError
 from fitcore.review.flags import CODES
 
 from ..help import help_text
-from ..session import FILTER_TITLES, FILTERS, KEEP, SORT_TITLES, SORTS, Shown, TriageSession, describe
+from ..session import (
+    FILTER_TITLES,
+    FILTERS,
+    KEEP,
+    SORT_TITLES,
+    SORTS,
+    Shown,
+    TriageSession,
+    describe,
+)
 from ..text import clean
 from ..widgets.evidence import EvidencePanel
 from ..widgets.series_list import SeriesList

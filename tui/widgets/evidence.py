@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import math
 
+from rich.cells import cell_len
 from rich.console import Group
 from rich.table import Table
 from rich.text import Text
@@ -20,8 +21,9 @@ from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money
 
+from ..cells import cut
 from ..session import TriageSession, describe
-from ..text import clean, literal
+from ..text import clean
 from .charts import curve_chart, fold_chart
 
 SEVERITY_STYLE = {"stop": "#ff875f", "warn": "#d7af5f"}
@@ -115,17 +117,18 @@ class EvidencePanel(VerticalScroll, can_focus=True):
     def title_text(self, s: int) -> Text:
         """Three lines at most, each cut to the width: which series, its status, news from another analyst."""
         results, session = self.session.results, self.session
-        text = literal(session.label(s), "bold")
-        text.no_wrap, text.overflow = True, "ellipsis"
-        text.append(f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
-                    f"{self.price(results.price_hi[s])}", style="dim")
+        width = max(self.scrollable_content_region.width, 20)
+        head = Text(cut(session.label(s), width), style="bold")
+        head.append(cut(f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
+                        f"{self.price(results.price_hi[s])}", max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
-        text.append(f"\nstatus {session.status[s]}" + (f": {describe(standing)}" if standing else ""))
+        lines = [head, Text(cut(f"status {session.status[s]}" + (f": {describe(standing)}" if standing else ""),
+                                width))]
         if session.news is not None and s == session.current:
-            text.append(f"\nJust now: {describe(session.news)}.", style=NEWS_STYLE)
-            if session.waiting:
-                text.append(" It has left your list; keys wait until you move.", style=NEWS_STYLE)
-        return text
+            said = "↑ just now: it has left your list; decision keys wait until you move" if session.waiting \
+                else f"↑ just now: {describe(session.news, when=False)}"
+            lines.append(Text(cut(said, width), style=NEWS_STYLE))
+        return Text("\n").join(lines)
 
     def flags_text(self, s: int) -> Text:
         flags = sorted(self.session.diagnosis.flags_of(s), key=lambda f: SEVERITY[f["code"]] != "stop")
