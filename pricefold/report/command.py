@@ -1,0 +1,200 @@
+"""``pricefold report``: one self-contained HTML page of a sign-off, for people without a terminal.
+
+Reads the results (a JSON or Parquet file, or a Dask results folder), the ledger (default as in
+triage) and, for the charts, the data the results name (refitted as triage does; when the data
+changed or are missing, the charts show the curves without observations).  Writes the page to a
+temporary file and renames it: a failed run leaves an earlier report as it was.
+"""
+from __future__ import annotations
+
+import sys
+from dataclasses import dataclass
+from datetime import datetime, timezone
+from pathlib import Path
+
+from fitcore.errors import DataError, SettingsError
+from fitcore.ledger.signoff import STATUSES, LedgerView, gather
+
+INSTALL_HINT = "the report's charts need matplotlib: pip install 'pricefold[report]'"
+REFIT_ROWS = 50_000_000  # as triage: above this many rows the data are not read for the charts
+
+
+def add_parser(commands) -> None:
+    parser = commands.add_parser(
+        "report", help="write a self-contained HTML sign-off report of results and their ledger",
+        description="One HTML page for the people who approve the plan: the summary, the decisions, and every "
+                    "exception in full with its chart. The page loads nothing from anywhere and prints on A4 or "
+                    "Letter.")
+    parser.add_argument("results", type=Path, metavar="RESULTS", help="a .json or .parquet results file or folder")
+    parser.add_argument("--ledger", type=Path, default=None, metavar="FILE",
+                        help="the sign-off ledger (default: <results name>.ledger.jsonl beside it)")
+    parser.add_argument("-o", "--output", type=Path, required=True, metavar="REPORT.html", help="the page to write")
+    parser.add_argument("--title", default=None, metavar="TEXT", help="the page's title (default: from the results)")
+
+
+def read_ledger(path: Path, key: bytes | None) -> LedgerView:
+    """The ledger as the report reads it: its state, head, first problem and records.
+
+    The one place the report touches the ledger, through today's ``ledger.verify`` and
+    ``ledger.read`` (a verifying reader of ``pricefold-ledger/2`` replaces both here).
+    """
+    from fitcore import ledger
+    if not path.exists():
+        return LedgerView(str(path), "absent")
+    problems = ledger.verify(path, key)
+    records, _ = ledger.read(path)
+    torn = [p for p in problems if p.message.startswith("torn last line")]
+    keyless = [p for p in problems if "set PRICEFOLD_LEDGER_KEY" in p.message]
+    others = [p for p in problems if p not in torn and p not in keyless]
+    whole = [r for r in records if isinstance(r.get("seq"), int) and r.get("digest")]
+    head = f"{whole[-1]['seq']}:{whole[-1]['digest']}" if whole else None
+    kind = next((r.get("digest_kind") for r in reversed(whole)), None)
+    if others:
+        return LedgerView(str(path), "broken", tuple(records), head, str(others[0]), kind)
+    if keyless:
+        return LedgerView(str(path), "unverifiable", tuple(records), head, str(keyless[0]), kind)
+    remark = f"The ledger ends in a torn line ({torn[0]}); it is set aside by the next append." if torn else None
+    return LedgerView(str(path), "intact", tuple(records), head, remark, kind)
+
+
+@dataclass(frozen=True)
+class Book:
+    """The results to report (``results``, ``diagnosis``, ``header``) and, for the charts, a fit of
+    the data (``fit``, None when the data are missing or changed: ``data_note`` says which)."""
+
+    results: object
+    diagnosis: object
+    header: dict
+    fit: object
+    data_note: str | None
+
+
+def open_book(path: Path) -> Book:
+    """Read the results; refit their data for the charts when it is still what they were fitted on."""
+    from fitcore.data.columns import file_sha256
+    from fitcore.results.read import read_header, read_results
+    from fitcore.results.stored import stored_results
+    from tui.factory import fit_source, is_stored, source_from_results
+
+    stored = is_stored(path)
+    header = {k: v for k, v in read_header(path).items() if k != "key_columns"} if stored else read_results(path)[0]
+    data = Path(str(header.get("input", {}).get("path", "")))
+    why = None
+    if not data.exists():
+        why = f"the data file {data} the results were fitted from is missing"
+    elif file_sha256(data) != header.get("input", {}).get("sha256"):
+        why = f"the data file {data} changed since the results were written"
+    elif (header.get("input", {}).get("rows") or 0) > REFIT_ROWS:
+        why = f"the data file {data} is too large to read for the charts"
+    if not stored:  # a JSON results file holds no window coefficients: its numbers come from refitting its data
+        if why:
+            raise DataError(f"{why}; a JSON results file is reported by refitting its data (write Parquet results "
+                            "to report without them)", path=str(path))
+        results, diagnosis = fit_source(source_from_results(path, check_data=False))
+        return Book(results, diagnosis, header, results, None)
+    results, diagnosis = stored_results(path)
+    fit = None if why else fit_source(source_from_results(path, check_data=False))[0]
+    return Book(results, diagnosis, header, fit, why and why[0].upper() + why[1:] + ".")
+
+
+def guard_output(output: Path, inputs: list[Path]) -> None:
+    """Never write over an input, and never over a file this command did not make."""
+    from .page import GENERATOR
+    if output.suffix.lower() not in (".html", ".htm"):
+        raise SettingsError(f"expected -o to name an .html file, got {output.name!r}")
+    target = output.resolve()
+    for item in inputs:
+        item = item.resolve()
+        if target == item or item in target.parents:
+            raise SettingsError(f"-o {output} would write over an input of this report ({item})")
+    if target.exists():
+        with open(target, "rb") as handle:
+            start = handle.read(1024)
+        if f'<meta name="generator" content="{GENERATOR}'.encode() not in start:
+            raise SettingsError(f"{output} exists and was not written by pricefold report; "
+                                "choose another name or move it away")
+
+
+class Charts:
+    """Series index → (inline SVG, caption note), from the fit of the data when it matches the results."""
+
+    def __init__(self, book: Book, signoff) -> None:
+        from fitcore.data.keys import SeriesKeys
+
+        from .charts import ChartMaker
+        self.book, self.signoff, self.maker = book, signoff, ChartMaker()
+        self._keys = SeriesKeys.of(book.fit.data) if book.fit is not None and book.fit is not book.results else None
+
+    def __call__(self, s: int) -> tuple[str, str]:
+        from .charts import ChartInput
+        from .page import esc
+        from .tables import label
+        book, signoff = self.book, self.signoff
+        standing, proposal = signoff.model_index(s), int(book.results.chosen[s])
+        if standing < 0 and proposal < 0:
+            return "", ""
+        fit, at, note = book.results, s, book.data_note or ""
+        if book.fit is book.results:
+            rows = True
+        elif book.fit is not None:
+            found = int(self._keys.indices_of([book.results.data.key_of(s)])[0])
+            same = found >= 0 and book.fit.data.fingerprint_of(found) == book.results.data.fingerprint_of(s)
+            fit, at, rows = (book.fit, found, True) if same else (book.results, s, False)
+            note = "" if same else "This series' rows changed since the results were written."
+        else:
+            rows = False
+        words = {"accepted": "accepted", "overridden": "override", "held": "proposal, held",
+                 "pending": "proposal", "stale": "signed on earlier data"}[STATUSES[signoff.status[s]]]
+        chart = ChartInput(fit, at, rows and bool(fit.rows_loaded), standing, proposal, words)
+        return self.maker.svg(chart, esc(f"Demand curve of {label(book.results, s)}")), note
+
+
+def version() -> str:
+    from importlib.metadata import PackageNotFoundError
+    from importlib.metadata import version as installed
+    try:
+        return installed("pricefold")
+    except PackageNotFoundError:
+        return "(source)"
+
+
+def run(args) -> int:
+    try:
+        import matplotlib  # noqa: F401 - only to say at once what is missing
+    except ImportError:
+        raise SettingsError(INSTALL_HINT) from None
+    from tui.factory import default_ledger
+
+    __version__ = version()
+    from ..ledger_cli import _atomic_text, ledger_key
+    from .exceptions import exceptions
+    from .page import CAUTION, Report, alerts, document, esc, summary
+    from .tables import decisions, people
+
+    if not args.results.exists():
+        raise DataError("file not found", path=str(args.results))
+    ledger_path = args.ledger or default_ledger(args.results)
+    guard_output(args.output, [args.results, ledger_path])
+    book = open_book(args.results)
+    guard_output(args.output, [Path(str(book.header.get("input", {}).get("path", args.results)))])
+    view = read_ledger(ledger_path, ledger_key())
+    signoff = gather(book.results, book.diagnosis, list(view.records))
+    charts = Charts(book, signoff)
+    made = datetime.now(timezone.utc)
+    title = args.title or f"Sign-off report: {args.results.name}"
+    report = Report(title, made, str(args.results), book.header, signoff, view, book.data_note,
+                    charts, __version__)
+    decided, flagged, more = signoff.detailed()
+    detailed = {int(s) for s in decided} | {int(s) for s in flagged}
+    body = (f"<header><h1>{esc(title)}</h1><p class=\"muted\">Made {made.strftime('%Y-%m-%d %H:%M UTC')} by "
+            f"pricefold {esc(__version__)} from <code>{esc(args.results)}</code> and the ledger "
+            f"<code>{esc(ledger_path)}</code>.</p></header>{alerts(report)}{summary(report)}{people(report)}"
+            f"{decisions(report, detailed)}{exceptions(report, decided, flagged, more)}"
+            f"<footer class=\"caution\"><p>{esc(CAUTION)}</p></footer>")
+    page = document(report, body)
+    _atomic_text(args.output, page)
+    counts = signoff.counts()
+    print(f"report of {counts['total']:,} series ({', '.join(f'{counts[s]:,} {s}' for s in STATUSES if counts[s])}; "
+          f"ledger {view.state}) → {args.output} ({len(page.encode('utf-8')) / 1e6:.1f} MB)", file=sys.stderr)
+    return 0
+
