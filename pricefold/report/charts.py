@@ -37,55 +37,98 @@ class ChartInput:
     words: str
 
 
+@dataclass(frozen=True)
+class Drawn:
+    """A chart (``svg``, '' when there is none) and what its key lists: the curves' names, whether the
+    band and the observations are drawn, the plan price, and a ``note`` when they are missing."""
+
+    svg: str
+    standing: str = ""
+    proposal: str = ""
+    band: bool = False
+    plan: str = ""
+    points: bool = False
+    note: str = ""
+
+
 class ChartMaker:
-    """Draws charts on one reused figure (matplotlib is imported on the first chart)."""
+    """Draws every chart on one figure whose artists are made once and given new data each time
+    (clearing the axes made its ticks, lines and texts again: 3× the time a chart)."""
 
     def __init__(self) -> None:
         import matplotlib
         from matplotlib.figure import Figure
+        from matplotlib.ticker import FuncFormatter, MaxNLocator
         self._matplotlib = matplotlib
         with matplotlib.rc_context(RC):
-            self.figure = Figure(figsize=(6.4, 3.3), layout="constrained")
+            # Fixed margins, not a layout engine: constrained layout measured every label again (×6 the time).
+            self.figure = Figure(figsize=(6.4, 3.0))
+            ax = self.axes = self.figure.add_axes((0.11, 0.15, 0.87, 0.82))
+            self.proposal, = ax.plot([], [], color=PROPOSAL, linestyle=(0, (5, 3)), linewidth=1.6)
+            self.standing, = ax.plot([], [], color=STANDING, linewidth=2.0)
+            self.plan = ax.axvline(0.0, color=PLAN, linestyle=(0, (1, 2)), linewidth=1.6)
+            self.points = ax.scatter([], [], s=9, color=POINTS, zorder=3, linewidths=0)
+            self.band = None
+            ax.set_xlabel("price")
+            ax.set_ylabel("volume")
+            ax.grid(True, color="#dddddd", linewidth=0.6)
+            ax.set_axisbelow(True)
+            ax.xaxis.set_major_locator(MaxNLocator(7))
+            ax.yaxis.set_major_locator(MaxNLocator(6))
+            ax.xaxis.set_major_formatter(FuncFormatter(_thousands))
+            ax.yaxis.set_major_formatter(FuncFormatter(_thousands))
         self.count = 0
 
-    def svg(self, chart: ChartInput, label: str) -> str:
-        """The chart as an inline ``<svg>`` element; ``label`` (escaped by the caller) is its accessible name."""
+    def draw(self, chart: ChartInput, label: str, note: str = "") -> Drawn:
+        """The chart as an inline ``<svg>`` element and its key; ``label`` (escaped by the caller) is the
+        chart's accessible name.  The key is written in HTML beside it: a legend drawn by matplotlib
+        cost more than the rest of the chart."""
         self.count += 1
         with self._matplotlib.rc_context({**RC, "svg.hashsalt": f"pf{self.count}"}):
-            self.figure.clear()
-            self._draw(self.figure.add_subplot(), chart)
+            self._draw(chart)
             buffer = io.StringIO()
             self.figure.savefig(buffer, format="svg", metadata={"Date": None})
-        return inline_svg(buffer.getvalue(), label)
+        names, plan = chart.fit.names, float(chart.fit.plan_price[chart.at])
+        return Drawn(inline_svg(buffer.getvalue(), label),
+                     f"{names[chart.standing]} ({chart.words})" if chart.standing >= 0 else "",
+                     f"{names[chart.proposal]} (proposal)" if chart.proposal >= 0 and chart.proposal != chart.standing
+                     else "", chart.rows and chart.standing >= 0, f"{plan:,.2f}" if np.isfinite(plan) else "",
+                     chart.rows, note)
 
-    def _draw(self, ax, chart: ChartInput) -> None:
-        results, s = chart.fit, chart.at
-        names = results.names
+    def _draw(self, chart: ChartInput) -> None:
+        results, s, ax = chart.fit, chart.at, self.axes
         grid = price_grid(results, s)
         plan = float(results.plan_price[s])
+        ys = []
+        if self.band is not None:
+            self.band.remove()
+            self.band = None
         if chart.standing >= 0 and chart.rows:
             lower, upper = band(results, s, chart.standing, grid)
-            ax.fill_between(grid, lower, upper, color=BAND, alpha=0.45, linewidth=0, label="95% prediction band")
-        if chart.proposal >= 0 and chart.proposal != chart.standing:
-            ax.plot(grid, curve(results, s, chart.proposal, grid), color=PROPOSAL, linestyle=(0, (5, 3)),
-                    linewidth=1.6, label=f"{names[chart.proposal]} (proposal)")
-        if chart.standing >= 0:
-            ax.plot(grid, curve(results, s, chart.standing, grid), color=STANDING, linewidth=2.0,
-                    label=f"{names[chart.standing]} ({chart.words})")
+            self.band = ax.fill_between(grid, lower, upper, color=BAND, alpha=0.45, linewidth=0)
+            ys += [lower, upper]
+        for line, c in ((self.proposal, chart.proposal if chart.proposal != chart.standing else -1),
+                        (self.standing, chart.standing)):
+            line.set_visible(c >= 0)
+            if c >= 0:
+                values = curve(results, s, c, grid)
+                line.set_data(grid, values)
+                ys.append(values)
+        self.plan.set_visible(bool(np.isfinite(plan)))
         if np.isfinite(plan):
-            ax.axvline(plan, color=PLAN, linestyle=(0, (1, 2)), linewidth=1.6, label=f"plan price {plan:,.2f}")
+            self.plan.set_xdata([plan, plan])
+        self.points.set_visible(chart.rows)
         if chart.rows:
             from fitcore.review.evidence import series_rows
             price, volume, _ = series_rows(results, s)
-            ax.scatter(price, volume, s=9, color=POINTS, zorder=3, linewidths=0, label="observed")
-        ax.set_xlabel("price")
-        ax.set_ylabel("volume")
-        ax.grid(True, color="#dddddd", linewidth=0.6)
-        ax.set_axisbelow(True)
-        ax.ticklabel_format(axis="both", style="plain", useOffset=False)
-        ax.yaxis.set_major_formatter(_thousands)
-        if ax.get_legend_handles_labels()[0]:
-            ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.2), ncol=3, frameon=False, fontsize=8)
+            self.points.set_offsets(np.column_stack((price, volume)))
+            ys.append(volume)
+        values = np.concatenate([np.asarray(y, dtype=float).ravel() for y in ys]) if ys else np.zeros(1)
+        values = values[np.isfinite(values)]
+        low, high = (float(values.min()), float(values.max())) if len(values) else (0.0, 1.0)
+        pad = (high - low) * 0.05 or max(abs(high) * 0.05, 1.0)
+        ax.set_xlim(grid[0], grid[-1])
+        ax.set_ylim(low - pad, high + pad)
 
 
 def _thousands(value, _position=None) -> str:
@@ -106,6 +149,8 @@ def price_grid(results, s: int, points: int = 120) -> np.ndarray:
 
 _STYLE = re.compile(r' style="([^"]*)"')
 _ID = re.compile(r' id="([^"]*)"')
+_GEOMETRY = re.compile(r'( (?:d|x|y|transform)=")([^"]*)"')
+_DECIMALS = re.compile(r"(\.\d)\d+")  # a tenth of a point is finer than any screen or printer shows
 _REFERENCE = re.compile(r'(?:url\(#|href="#)([^)"]+)')
 
 
@@ -131,6 +176,7 @@ def inline_svg(document: str, label: str) -> str:
     body = re.sub(r"<metadata>.*?</metadata>\s*", "", body, flags=re.S)
     body = re.sub(r"<style[^>]*>.*?</style>\s*", "", body, flags=re.S)
     body = _STYLE.sub(_attributes, body)
+    body = _GEOMETRY.sub(lambda m: m.group(1) + _DECIMALS.sub(r"\1", m.group(2)) + '"', body)
     referenced = set(_REFERENCE.findall(body))
     body = _ID.sub(lambda m: m.group(0) if m.group(1) in referenced else "", body)
     body = re.sub(r'<svg [^>]*?(viewBox="[^"]*")[^>]*>',

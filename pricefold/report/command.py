@@ -116,37 +116,41 @@ def guard_output(output: Path, inputs: list[Path]) -> None:
 
 
 class Charts:
-    """Series index → (inline SVG, caption note), from the fit of the data when it matches the results."""
+    """Series index → its chart (``Drawn``), from the fit of the data where it matches the results."""
 
-    def __init__(self, book: Book, signoff) -> None:
+    def __init__(self, book: Book, signoff, series) -> None:
         from fitcore.data.keys import SeriesKeys
 
         from .charts import ChartMaker
         self.book, self.signoff, self.maker = book, signoff, ChartMaker()
-        self._keys = SeriesKeys.of(book.fit.data) if book.fit is not None and book.fit is not book.results else None
+        self._found = {}
+        if book.fit is not None and book.fit is not book.results:  # one join for every series charted
+            series = [int(s) for s in series]
+            found = SeriesKeys.of(book.fit.data).indices_of([book.results.data.key_of(s) for s in series])
+            self._found = dict(zip(series, found.tolist()))
 
-    def __call__(self, s: int) -> tuple[str, str]:
-        from .charts import ChartInput
+    def __call__(self, s: int):
+        from .charts import ChartInput, Drawn
         from .page import esc
         from .tables import label
         book, signoff = self.book, self.signoff
         standing, proposal = signoff.model_index(s), int(book.results.chosen[s])
         if standing < 0 and proposal < 0:
-            return "", ""
+            return Drawn("")
         fit, at, note = book.results, s, book.data_note or ""
         if book.fit is book.results:
             rows = True
         elif book.fit is not None:
-            found = int(self._keys.indices_of([book.results.data.key_of(s)])[0])
+            found = self._found.get(s, -1)
             same = found >= 0 and book.fit.data.fingerprint_of(found) == book.results.data.fingerprint_of(s)
             fit, at, rows = (book.fit, found, True) if same else (book.results, s, False)
-            note = "" if same else "This series' rows changed since the results were written."
+            note = "" if same else "this series' rows changed since the results were written"
         else:
             rows = False
         words = {"accepted": "accepted", "overridden": "override", "held": "proposal, held",
                  "pending": "proposal", "stale": "signed on earlier data"}[STATUSES[signoff.status[s]]]
         chart = ChartInput(fit, at, rows and bool(fit.rows_loaded), standing, proposal, words)
-        return self.maker.svg(chart, esc(f"Demand curve of {label(book.results, s)}")), note
+        return self.maker.draw(chart, esc(f"Demand curve of {label(book.results, s)}"), note)
 
 
 def version() -> str:
@@ -179,12 +183,12 @@ def run(args) -> int:
     guard_output(args.output, [Path(str(book.header.get("input", {}).get("path", args.results)))])
     view = read_ledger(ledger_path, ledger_key())
     signoff = gather(book.results, book.diagnosis, list(view.records))
-    charts = Charts(book, signoff)
+    decided, flagged, more = signoff.detailed()
+    charts = Charts(book, signoff, [*decided.tolist(), *flagged.tolist()])
     made = datetime.now(timezone.utc)
     title = args.title or f"Sign-off report: {args.results.name}"
     report = Report(title, made, str(args.results), book.header, signoff, view, book.data_note,
                     charts, __version__)
-    decided, flagged, more = signoff.detailed()
     detailed = {int(s) for s in decided} | {int(s) for s in flagged}
     body = (f"<header><h1>{esc(title)}</h1><p class=\"muted\">Made {made.strftime('%Y-%m-%d %H:%M UTC')} by "
             f"pricefold {esc(__version__)} from <code>{esc(args.results)}</code> and the ledger "

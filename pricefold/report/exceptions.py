@@ -73,6 +73,20 @@ def history(signoff: Signoff, s: int) -> str:
     return f"<ol class=\"history\">{''.join(items)}</ol>"
 
 
+def chart_figure(drawn) -> str:
+    """The chart and, under it, its key in HTML (line samples drawn by the style sheet)."""
+    if not drawn.svg:
+        return "<p class=\"muted\">No chart: no candidate could be fitted.</p>"
+    keys = [(kind, text) for kind, text in (
+        ("standing", drawn.standing), ("proposal", drawn.proposal),
+        ("band", "95% prediction band" if drawn.band else ""),
+        ("plan", f"plan price {drawn.plan}" if drawn.plan else ""), ("points", "observed" if drawn.points else ""))
+        if text]
+    key = " ".join(f"<span class=\"legend-item\"><span class=\"swatch {kind}\"></span>{esc(text)}</span>" for kind, text in keys)
+    missing = f" No observations or band: {esc(drawn.note)}." if drawn.note and not drawn.points else ""
+    return f"<figure class=\"chart\">{drawn.svg}<figcaption>{key}{missing}</figcaption></figure>"
+
+
 def section(report: Report, s: int) -> str:
     signoff = report.signoff
     results = signoff.results
@@ -86,13 +100,7 @@ def section(report: Report, s: int) -> str:
                      f"({interval(results.plan_lo[s, c], results.plan_hi[s, c])}) under {esc(results.names[c])}")
         if not results.price_lo[s] <= plan <= results.price_hi[s]:
             facts.append("<span class=\"sev-stop\">outside the observed prices: an extrapolation</span>")
-    chart, note = report.chart(s)
-    shows = ("the 95% prediction band, the plan price (dotted) and the observations" if not note and not
-             report.data_note else "and the plan price (dotted); no observations or band: " +
-             esc(note or "see the note at the top of the page"))
-    figure = (f"<figure class=\"chart\">{chart}<figcaption>Volume against price: the curve that stands (solid), the "
-              f"proposal when it differs (dashed), {shows}.</figcaption></figure>" if chart else
-              "<p class=\"muted\">No chart: no candidate could be fitted.</p>")
+    figure = chart_figure(report.chart(s))
     return (f"<article class=\"exception\" id=\"s{s}\"><h3>{esc(label(results, s))}</h3>"
             f"<p class=\"meta\">{' · '.join(facts)}</p>{figure}<h4>Candidates</h4>{candidates(signoff, s)}"
             f"<h4>Flags</h4>{flags(signoff, s)}<h4>Ledger</h4>{history(signoff, s)}</article>")

@@ -30,9 +30,8 @@ CAUTION = ("Curves fitted to observational sales data confound price with promot
 
 @dataclass(frozen=True)
 class Report:
-    """What the page is made of.  ``chart(s)`` gives series ``s``'s chart as inline SVG ('' when none)
-    and a sentence when that chart lacks its observations; ``data_note`` says why every chart lacks
-    them (None when the data are there)."""
+    """What the page is made of.  ``chart(s)`` gives series ``s``'s chart (``charts.Drawn``);
+    ``data_note`` says why every chart lacks its observations (None when the data are there)."""
 
     title: str
     generated: datetime
@@ -41,7 +40,7 @@ class Report:
     signoff: Signoff
     ledger: LedgerView
     data_note: str | None
-    chart: Callable[[int], tuple[str, str]]
+    chart: Callable[[int], object]
     version: str = ""
 
 

@@ -71,13 +71,18 @@ def decide(results_path: Path, ledger_path: Path, key: bytes | None = None) -> d
     other = next(c["name"] for c in by_key[override]["candidates"]
                  if c["available"] and c["name"] != by_key[override]["chosen"])
     one_by_one = {
-        "override": [override], "hold": [("lemons 500 g", "East")], "note": [("grapes 500 g", "East")],
+        "override": [override], "hold": [("lemons 500 g", "East")],
+        "note": [("grapes 500 g", "East"), (HOSTILE[1], "North"), (HOSTILE[2], "North")],
         "accept": [("rolled oats 1 kg", "East")]}
     ledger.append(ledger_path, [entry(override, "override", other, NOTE)], ben, key=key, now=clock(day + timedelta(hours=2)))
     ledger.append(ledger_path, [entry(("lemons 500 g", "East"), "hold", note="ask the buyer")], ben, key=key,
                   now=clock(day + timedelta(hours=3)))
     ledger.append(ledger_path, [entry(("grapes 500 g", "East"), "note", None, "plan price above any seen")], ana,
                   key=key, now=clock(day + timedelta(hours=4)))
+    ledger.append(ledger_path, [entry((HOSTILE[1], "North"), "note", None, "[red]not markup[/]")], ben,
+                  key=key, now=clock(day + timedelta(hours=4, minutes=20)))
+    ledger.append(ledger_path, [entry((HOSTILE[2], "North"), "note", None, "odd name \x1b[31mred")], ana,
+                  key=key, now=clock(day + timedelta(hours=4, minutes=30)))
     ledger.append(ledger_path, [entry(("rolled oats 1 kg", "East"), "accept", note="rise is a promotion week")], ana,
                   key=key, now=clock(day + timedelta(hours=5)))
     return {"override_model": other, **one_by_one}
