@@ -159,12 +159,14 @@ def gather(results: Results, diagnosis: Diagnosis, records: list[dict] | tuple) 
     noted = np.zeros(n_s, dtype=bool)
     by_index: dict[int, SeriesHistory] = {}
     unmatched = 0
+    prints = results.data.fingerprints  # Arrow text (results read from a file) or a list: one conversion, not S
+    prints = prints.to_pylist() if hasattr(prints, "to_pylist") else prints
     for history, s in zip(histories.values(), where.tolist()):
         if s < 0:
             unmatched += len(history.records)
             continue
         by_index[s] = history
-        word = history.status(results.data.fingerprint_of(s))
+        word = history.status(prints[s])
         status[s] = STATUSES.index(word) if word in STATUSES else STATUSES.index("accepted")
         current = history.current
         carried[s] = word != "stale" and current is not None and current.get("action") == "carry"

@@ -79,12 +79,12 @@ class ChartMaker:
             ax.yaxis.set_major_formatter(FuncFormatter(_thousands))
         self.count = 0
 
-    def draw(self, chart: ChartInput, label: str, note: str = "") -> Drawn:
+    def draw(self, chart: ChartInput, label: str, note: str = "", salt: str = "") -> Drawn:
         """The chart as an inline ``<svg>`` element and its key; ``label`` (escaped by the caller) is the
-        chart's accessible name.  The key is written in HTML beside it: a legend drawn by matplotlib
-        cost more than the rest of the chart."""
+        chart's accessible name; ``salt`` makes its ids unique in the page.  The key is written in HTML
+        beside it: a legend drawn by matplotlib cost more than the rest of the chart."""
         self.count += 1
-        with self._matplotlib.rc_context({**RC, "svg.hashsalt": f"pf{self.count}"}):
+        with self._matplotlib.rc_context({**RC, "svg.hashsalt": salt or f"pf{self.count}"}):
             self._draw(chart)
             buffer = io.StringIO()
             self.figure.savefig(buffer, format="svg", metadata={"Date": None})

@@ -115,24 +115,60 @@ def guard_output(output: Path, inputs: list[Path]) -> None:
                                 "choose another name or move it away")
 
 
+PARALLEL_FROM = 40  # charts: from this many on, two processes draw them (matplotlib spends 30–60 ms a chart)
+_CHARTS = None  # the Charts a forked worker draws from (inherited, not pickled)
+
+
+def _draw_some(series: list[int]) -> list:
+    return [_CHARTS.draw(s) for s in series]
+
+
 class Charts:
-    """Series index → its chart (``Drawn``), from the fit of the data where it matches the results."""
+    """Series index → its chart (``Drawn``), from the fit of the data where it matches the results.
+
+    Every chart is drawn up front (``draw_all``); with many, two forked processes share the work,
+    each on its own matplotlib figure, since one chart is tens of milliseconds of Python.
+    """
 
     def __init__(self, book: Book, signoff, series) -> None:
         from fitcore.data.keys import SeriesKeys
-
-        from .charts import ChartMaker
-        self.book, self.signoff, self.maker = book, signoff, ChartMaker()
-        self._found = {}
+        self.book, self.signoff, self.maker = book, signoff, None
+        self.series = [int(s) for s in series]
+        self._found, self._drawn = {}, {}
         if book.fit is not None and book.fit is not book.results:  # one join for every series charted
-            series = [int(s) for s in series]
-            found = SeriesKeys.of(book.fit.data).indices_of([book.results.data.key_of(s) for s in series])
-            self._found = dict(zip(series, found.tolist()))
+            found = SeriesKeys.of(book.fit.data).indices_of([book.results.data.key_of(s) for s in self.series])
+            self._found = dict(zip(self.series, found.tolist()))
+
+    def draw_all(self) -> None:
+        global _CHARTS
+        import os
+        workers = min(2, len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1)
+        if len(self.series) < PARALLEL_FROM or workers < 2:
+            self._drawn = {s: self.draw(s) for s in self.series}
+            return
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+        from concurrent.futures.process import BrokenProcessPool
+        halves = [self.series[k::workers] for k in range(workers)]
+        _CHARTS = self
+        try:
+            with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
+                for half, drawn in zip(halves, pool.map(_draw_some, halves)):
+                    self._drawn.update(zip(half, drawn))
+        except (BrokenProcessPool, OSError):  # no processes to be had here: draw them all in this one
+            self._drawn = {s: self.draw(s) for s in self.series}
+        finally:
+            _CHARTS = None
 
     def __call__(self, s: int):
-        from .charts import ChartInput, Drawn
+        return self._drawn[s] if s in self._drawn else self.draw(s)
+
+    def draw(self, s: int):
+        from .charts import ChartInput, ChartMaker, Drawn
         from .page import esc
         from .tables import label
+        if self.maker is None:
+            self.maker = ChartMaker()
         book, signoff = self.book, self.signoff
         standing, proposal = signoff.model_index(s), int(book.results.chosen[s])
         if standing < 0 and proposal < 0:
@@ -150,7 +186,7 @@ class Charts:
         words = {"accepted": "accepted", "overridden": "override", "held": "proposal, held",
                  "pending": "proposal", "stale": "signed on earlier data"}[STATUSES[signoff.status[s]]]
         chart = ChartInput(fit, at, rows and bool(fit.rows_loaded), standing, proposal, words)
-        return self.maker.draw(chart, esc(f"Demand curve of {label(book.results, s)}"), note)
+        return self.maker.draw(chart, esc(f"Demand curve of {label(book.results, s)}"), note, salt=f"s{s}")
 
 
 def version() -> str:
@@ -185,6 +221,7 @@ def run(args) -> int:
     signoff = gather(book.results, book.diagnosis, list(view.records))
     decided, flagged, more = signoff.detailed()
     charts = Charts(book, signoff, [*decided.tolist(), *flagged.tolist()])
+    charts.draw_all()
     made = datetime.now(timezone.utc)
     title = args.title or f"Sign-off report: {args.results.name}"
     report = Report(title, made, str(args.results), book.header, signoff, view, book.data_note,

@@ -152,3 +152,15 @@ def test_the_demo_prints_the_command_that_makes_its_report(tmp_path, monkeypatch
     assert command[:2] == ["pricefold", "report"]
     assert cli.main(command[1:]) == 0
     assert "Sign-off report" in (folder / "report.html").read_text()
+
+
+def test_charts_drawn_by_two_processes_are_the_ones_drawn_by_one(signed, tmp_path, monkeypatch):
+    from pricefold import cli
+    from pricefold.report import command
+    pages = []
+    for start in (10**9, 1):  # one process; then two, from the first chart on
+        monkeypatch.setattr(command, "PARALLEL_FROM", start)
+        out = tmp_path / f"report-{start}.html"
+        assert cli.main(["report", str(signed["results"]), "--ledger", str(signed["ledger"]), "-o", str(out)]) == 0
+        pages.append(re.sub(r"Made [^<]* by", "", out.read_text()))
+    assert pages[0] == pages[1] and pages[0].count("<svg ") > 10
