@@ -71,10 +71,10 @@ class ChartMaker:
             self.band = None
             ax.set_xlabel("price")
             ax.set_ylabel("volume")
-            ax.grid(True, color="#dddddd", linewidth=0.6)
+            ax.grid(True, axis="y", color="#dddddd", linewidth=0.6)
             ax.set_axisbelow(True)
-            ax.xaxis.set_major_locator(MaxNLocator(7))
-            ax.yaxis.set_major_locator(MaxNLocator(6))
+            ax.xaxis.set_major_locator(MaxNLocator(5))
+            ax.yaxis.set_major_locator(MaxNLocator(5))
             ax.xaxis.set_major_formatter(FuncFormatter(_thousands))
             ax.yaxis.set_major_formatter(FuncFormatter(_thousands))
         self.count = 0

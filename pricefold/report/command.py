@@ -59,14 +59,44 @@ def read_ledger(path: Path, key: bytes | None) -> LedgerView:
 
 @dataclass(frozen=True)
 class Book:
-    """The results to report (``results``, ``diagnosis``, ``header``) and, for the charts, a fit of
-    the data (``fit``, None when the data are missing or changed: ``data_note`` says which)."""
+    """The results to report (``results``, ``diagnosis``, ``header``) and, for the charts, either a
+    fit of the data (``fit``: JSON results are that fit) or the ``source`` to fit the charted series
+    from; neither when the data are missing or changed (``data_note`` says which)."""
 
     results: object
     diagnosis: object
     header: dict
     fit: object
     data_note: str | None
+    source: object = None
+
+
+def fit_subset(source, keys: list[dict]):
+    """A fit of only the series ``keys`` name, from the source's data.
+
+    Each series is fitted on its own rows alone (folds are dealt per series, whatever else shares
+    the file), so its numbers are those of the whole fit, for a fraction of the time.
+    """
+    import numpy as np
+
+    from fitcore import fit_batch
+    from fitcore.data.dataset import from_columns
+    from fitcore.data.keys import SeriesKeys
+    from fitcore.data.loader import load
+    from fitcore.data.plan import plan_prices
+    data = load(source.data, source.columns)
+    where = SeriesKeys.of(data).indices_of(keys)
+    where = np.unique(where[where >= 0])
+    counts = (data.offsets[where + 1] - data.offsets[where]).astype(np.int64)
+    rows = np.repeat(data.offsets[where] - np.cumsum(np.r_[0, counts[:-1]]), counts) + np.arange(int(counts.sum()))
+
+    def pick(array):
+        return None if array is None else array[rows]
+    subset = from_columns({name: np.repeat(data.keys[name][where], counts) for name in data.key_names},
+                          data.price[rows], data.volume[rows], weight=pick(data.weight), date=pick(data.date),
+                          line=pick(data.line), source=data.source)
+    plan = plan_prices(subset, source.plan_file, partial=True) if source.plan_file else source.plan_price
+    return fit_batch(subset, source.settings, plan_price=plan)
 
 
 def open_book(path: Path) -> Book:
@@ -93,8 +123,8 @@ def open_book(path: Path) -> Book:
         results, diagnosis = fit_source(source_from_results(path, check_data=False))
         return Book(results, diagnosis, header, results, None)
     results, diagnosis = stored_results(path)
-    fit = None if why else fit_source(source_from_results(path, check_data=False))[0]
-    return Book(results, diagnosis, header, fit, why and why[0].upper() + why[1:] + ".")
+    source = None if why else source_from_results(path, check_data=False)
+    return Book(results, diagnosis, header, None, why and why[0].upper() + why[1:] + ".", source)
 
 
 def guard_output(output: Path, inputs: list[Path]) -> None:
@@ -134,10 +164,11 @@ class Charts:
         from fitcore.data.keys import SeriesKeys
         self.book, self.signoff, self.maker = book, signoff, None
         self.series = [int(s) for s in series]
-        self._found, self._drawn = {}, {}
-        if book.fit is not None and book.fit is not book.results:  # one join for every series charted
-            found = SeriesKeys.of(book.fit.data).indices_of([book.results.data.key_of(s) for s in self.series])
-            self._found = dict(zip(self.series, found.tolist()))
+        self._found, self._drawn, self.fit = {}, {}, book.fit
+        if book.source is not None and self.series:  # fit the charted series only; find them in that fit
+            keys = [book.results.data.key_of(s) for s in self.series]
+            self.fit = fit_subset(book.source, keys)
+            self._found = dict(zip(self.series, SeriesKeys.of(self.fit.data).indices_of(keys).tolist()))
 
     def draw_all(self) -> None:
         global _CHARTS
@@ -174,12 +205,12 @@ class Charts:
         if standing < 0 and proposal < 0:
             return Drawn("")
         fit, at, note = book.results, s, book.data_note or ""
-        if book.fit is book.results:
+        if self.fit is book.results:
             rows = True
-        elif book.fit is not None:
+        elif self.fit is not None:
             found = self._found.get(s, -1)
-            same = found >= 0 and book.fit.data.fingerprint_of(found) == book.results.data.fingerprint_of(s)
-            fit, at, rows = (book.fit, found, True) if same else (book.results, s, False)
+            same = found >= 0 and self.fit.data.fingerprint_of(found) == book.results.data.fingerprint_of(s)
+            fit, at, rows = (self.fit, found, True) if same else (book.results, s, False)
             note = "" if same else "this series' rows changed since the results were written"
         else:
             rows = False

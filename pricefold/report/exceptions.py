@@ -10,7 +10,7 @@ import math
 
 from fitcore.ledger.signoff import STATUSES, Signoff
 
-from .page import Report, elasticity, esc, interval, num, price, when
+from .page import Report, cell, elasticity, esc, interval, num, price, when
 from .tables import label
 
 
@@ -27,14 +27,15 @@ def candidates(signoff: Signoff, s: int) -> str:
         volume = (f"{num(results.plan_volume[s, c])} <span class=\"muted\">"
                   f"({interval(results.plan_lo[s, c], results.plan_hi[s, c])})</span>" if planned else "—")
         mark = f" <strong>({', '.join(marks)})</strong>" if marks else ""
-        rows.append(f"<tr><td data-label=\"candidate\">{esc(name)}{mark}</td>"
-                    f"<td class=\"num\" data-label=\"CV MSE ± SE\">{num(results.cv_mse[s, c])} ± "
-                    f"{num(results.cv_se[s, c])}</td><td class=\"num\" data-label=\"Q²\">{_share(results.q2[s, c])}</td>"
-                    f"<td class=\"num\" data-label=\"R²\">{_share(results.r2[s, c])}</td>"
-                    f"<td class=\"num\" data-label=\"plan volume (95% PI)\">{volume}</td><td class=\"num\" "
-                    f"data-label=\"elasticity\">{elasticity(results.plan_elasticity[s, c]) if planned else '—'}</td></tr>")
-    table = ("<div class=\"wide\"><table class=\"cards-small\"><thead><tr><th>candidate</th><th class=\"num\">CV MSE ± SE</th>"
-             "<th class=\"num\">Q²</th><th class=\"num\">R²</th><th class=\"num\">plan volume (95% PI)</th>"
+        rows.append("<tr>" + cell("candidate", esc(name) + mark)
+                    + cell("CV MSE ± SE", f"{num(results.cv_mse[s, c])} ± {num(results.cv_se[s, c])}", "num")
+                    + cell("Q²", _share(results.q2[s, c]), "num") + cell("R²", _share(results.r2[s, c]), "num")
+                    + cell("plan volume (95% PI)", volume, "num")
+                    + cell("elasticity", elasticity(results.plan_elasticity[s, c]) if planned else "—", "num")
+                    + "</tr>")
+    table = ("<div class=\"wide\"><table class=\"cards-small\"><thead><tr><th>candidate</th>"
+             "<th class=\"num\">CV MSE ± SE</th><th class=\"num\">Q²</th><th class=\"num\">R²</th>"
+             "<th class=\"num\">plan volume (95% PI)</th>"
              f"<th class=\"num\">elasticity</th></tr></thead><tbody>{''.join(rows)}</tbody></table></div>")
     if missing:
         table += f"<p class=\"muted\">Not available:</p><ul class=\"muted\">{''.join(missing)}</ul>"
@@ -82,7 +83,8 @@ def chart_figure(drawn) -> str:
         ("band", "95% prediction band" if drawn.band else ""),
         ("plan", f"plan price {drawn.plan}" if drawn.plan else ""), ("points", "observed" if drawn.points else ""))
         if text]
-    key = " ".join(f"<span class=\"legend-item\"><span class=\"swatch {kind}\"></span>{esc(text)}</span>" for kind, text in keys)
+    key = " ".join(f"<span class=\"legend-item\"><span class=\"swatch {kind}\"></span>{esc(text)}</span>"
+                   for kind, text in keys)
     missing = f" No observations or band: {esc(drawn.note)}." if drawn.note and not drawn.points else ""
     return f"<figure class=\"chart\">{drawn.svg}<figcaption>{key}{missing}</figcaption></figure>"
 

@@ -79,6 +79,13 @@ def when(stamp, zone: bool = True) -> str:
     return moment.strftime("%Y-%m-%d %H:%M" + (" UTC" if zone else ""))
 
 
+def cell(label: str, content, kind: str = "", sort: str | None = None) -> str:
+    """One table cell; ``label`` names it when a phone shows the row as a card, ``sort`` is the value
+    the page's script sorts by."""
+    extra = (f" class=\"{kind}\"" if kind else "") + (f" data-sort=\"{sort}\"" if sort is not None else "")
+    return f"<td{extra} data-label=\"{label}\">{content}</td>"
+
+
 def asset(name: str) -> str:
     return resources.files(__package__).joinpath(name).read_text(encoding="utf-8")
 
@@ -183,6 +190,7 @@ def summary(report: Report) -> str:
     clean_count = int((~signoff.diagnosis.raised.any(axis=1)).sum())
     return (f"<section id=\"summary\"><h2>Summary</h2><ul class=\"cards\">{card_html}</ul>"
             f"<p class=\"caution\">{esc(CAUTION)}</p>"
-            f"<div class=\"grid2\"><div><h3>Data and settings</h3>{_facts(_settings(report.header, signoff.results.names))}</div>"
+            f"<div class=\"grid2\"><div><h3>Data and settings</h3>"
+            f"{_facts(_settings(report.header, signoff.results.names))}</div>"
             f"<div><h3>Ledger</h3>{_facts(_ledger_facts(report))}</div></div>"
             f"<h3>Flags</h3><p>{num(clean_count)} series carry no flag.</p>{flag_html}</section>")

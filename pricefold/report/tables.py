@@ -11,7 +11,7 @@ import math
 from fitcore.ledger.signoff import STATUSES, Signoff
 from fitcore.review.flags import CODES, SEVERITY
 
-from .page import Report, elasticity, esc, interval, num, price, when
+from .page import Report, cell, elasticity, esc, interval, num, price, when
 
 ACTIONS = ("accept", "override", "hold", "note", "revoke", "carry")
 COLUMNS = (("Series", ""), ("Status", ""), ("Model", ""), ("Plan price", "num"), ("Volume (95% PI)", "num"),
@@ -28,11 +28,9 @@ def analysts(signoff: Signoff) -> str:
         return "<p>Nobody has recorded a decision yet.</p>"
     shown = [a for a in ACTIONS if any(t.actions.get(a) for t in signoff.analysts)]
     head = "".join(f"<th class=\"num\">{a}</th>" for a in shown)
-    rows = "".join(
-        f"<tr><td data-label=\"Analyst\">{esc(t.analyst)}</td>"
-        + "".join(f"<td class=\"num\" data-label=\"{a}\">{num(t.actions.get(a, 0))}</td>" for a in shown)
-        + f"<td data-label=\"First\">{when(t.first)}</td><td data-label=\"Last\">{when(t.last)}</td></tr>"
-        for t in signoff.analysts)
+    rows = "".join("<tr>" + cell("Analyst", esc(t.analyst)) + "".join(cell(a, num(t.actions.get(a, 0)), "num")
+                                                                    for a in shown)
+                   + cell("First", when(t.first)) + cell("Last", when(t.last)) + "</tr>" for t in signoff.analysts)
     return (f"<div class=\"wide\"><table class=\"cards-small\"><thead><tr><th>analyst</th>{head}<th>first</th>"
             f"<th>last</th></tr></thead><tbody>{rows}</tbody></table></div>")
 
@@ -40,10 +38,9 @@ def analysts(signoff: Signoff) -> str:
 def bulk(signoff: Signoff, ledger_path: str, results_path: str) -> str:
     if not signoff.bulk:
         return "<p>No bulk decisions.</p>"
-    rows = "".join(f"<tr><td data-label=\"Analyst\">{esc(g.analyst)}</td><td data-label=\"Command\">{esc(g.action)}</td>"
-                   f"<td class=\"num\" data-label=\"Series\">{num(g.count)}</td>"
-                   f"<td data-label=\"When\">{when(g.first)}</td><td data-label=\"Note\" class=\"note\">{esc(g.note)}</td></tr>"
-                   for g in signoff.bulk)
+    rows = "".join("<tr>" + cell("Analyst", esc(g.analyst)) + cell("Command", esc(g.action))
+                   + cell("Series", num(g.count), "num") + cell("When", when(g.first))
+                   + cell("Note", esc(g.note), "note") + "</tr>" for g in signoff.bulk)
     return (f"<div class=\"wide\"><table class=\"cards-small\"><thead><tr><th>analyst</th><th>command</th>"
             f"<th class=\"num\">series</th><th>when</th><th>note</th></tr></thead><tbody>{rows}</tbody></table></div>"
             f"<p class=\"muted\">Series decided in bulk appear in the decisions table only when they carry a stop "
@@ -83,19 +80,15 @@ def row(signoff: Signoff, s: int, detailed: set) -> str:
     name = esc(label(results, s))
     key = f"<a href=\"#s{s}\">{name}</a>" if s in detailed else name
     carried = " (carried)" if signoff.carried[s] else ""
-    return (f"<tr data-status=\"{status}\"><td class=\"key\" data-label=\"Series\">{key}</td>"
-            f"<td data-label=\"Status\" class=\"st-{status}\">{status}{carried}</td>"
-            f"<td data-label=\"Model\">{model}</td>"
-            f"<td class=\"num\" data-label=\"Plan price\" data-sort=\"{_sort_value(plan)}\">"
-            f"{price(plan) if math.isfinite(plan) else '—'}</td>"
-            f"<td class=\"num\" data-label=\"Volume (95% PI)\" data-sort=\"{_sort_value(volume)}\">{shown}</td>"
-            f"<td class=\"num\" data-label=\"Elasticity\" data-sort=\"{_sort_value(e)}\">"
-            f"{elasticity(e) if planned else '—'}</td>"
-            f"<td data-label=\"Flags\">{_flag_cell(signoff, s)}</td>"
-            f"<td data-label=\"Analyst\">{esc(latest.get('analyst', ''))}</td>"
-            f"<td class=\"time\" data-label=\"Time\" data-sort=\"{esc(latest.get('at', ''))}\">"
-            f"{when(latest['at'], zone=False) if latest.get('at') else ''}</td>"
-            f"<td data-label=\"Note\" class=\"note\">{esc(signoff.last_note(s))}</td></tr>")
+    time = when(latest["at"], zone=False) if latest.get("at") else ""
+    return (f"<tr data-status=\"{status}\">" + cell("Series", key, "key")
+            + cell("Status", status + carried, f"st-{status}") + cell("Model", model)
+            + cell("Plan price", price(plan) if math.isfinite(plan) else "—", "num", _sort_value(plan))
+            + cell("Volume (95% PI)", shown, "num", _sort_value(volume))
+            + cell("Elasticity", elasticity(e) if planned else "—", "num", _sort_value(e))
+            + cell("Flags", _flag_cell(signoff, s)) + cell("Analyst", esc(latest.get("analyst", "")))
+            + cell("Time", time, "time", esc(latest.get("at", ""))) + cell("Note", esc(signoff.last_note(s)), "note")
+            + "</tr>")
 
 
 def decisions(report: Report, detailed: set) -> str:

@@ -6,11 +6,13 @@ Writes invented data (Parquet, a plan price per series, one in twenty outside th
 prices), fits it (``pricefold fit``), records a bulk accept of every unflagged series and a number
 of one-by-one overrides, holds, notes and accepts past a stop flag, then times the whole
 ``pricefold report`` process (data refitted for the charts included) and prints the page's size,
-its sections and charts, and the process's peak memory.  Not a test: machines are noisy.
+its sections and charts, the CPU time of its processes (less sensitive than the wall time to
+what else the machine runs) and the peak memory.  Not a test: machines are noisy.
 """
 from __future__ import annotations
 
 import argparse
+import os
 import re
 import resource
 import subprocess
@@ -96,10 +98,13 @@ def main() -> None:
         print(f"inputs: {args.series:,} series fitted, {records:,} ledger records "
               f"({time.perf_counter() - started:.1f} s)")
         output = folder / "report.html"
+        before = resource.getrusage(resource.RUSAGE_CHILDREN)
         start = time.perf_counter()
         done = subprocess.run([sys.executable, "-m", "pricefold", "report", str(results), "--ledger",
                                str(ledger_path), "-o", str(output)], capture_output=True, text=True)
         seconds = time.perf_counter() - start
+        after = resource.getrusage(resource.RUSAGE_CHILDREN)
+        cpu = (after.ru_utime + after.ru_stime) - (before.ru_utime + before.ru_stime)
         if done.returncode:
             sys.exit(done.stderr)
         page = output.read_text(encoding="utf-8")
@@ -107,7 +112,9 @@ def main() -> None:
         rows = page.count("<tr data-status=")
         sections = page.count('<article class="exception"')
         more = re.search(r"<strong>([\d,]+) more stop-flagged series", page)
-        print(f"pricefold report: {seconds:.1f} s (bar 30 s), {len(page.encode()) / 1e6:.1f} MB (bar 20 MB); "
+        load = os.getloadavg()[0]
+        print(f"pricefold report: {seconds:.1f} s wall (bar 30 s; CPU {cpu:.1f} s in all its processes; load average "
+              f"{load:.1f} on {os.cpu_count()} cores), {len(page.encode()) / 1e6:.1f} MB (bar 20 MB); "
               f"{rows:,} table rows, {sections:,} detailed sections with {page.count('<svg '):,} charts, "
               f"{more.group(1) if more else 0} more stop-flagged series left out; peak memory of the largest "
               f"child process {peak:,.0f} MiB")

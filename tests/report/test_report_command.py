@@ -164,3 +164,25 @@ def test_charts_drawn_by_two_processes_are_the_ones_drawn_by_one(signed, tmp_pat
         assert cli.main(["report", str(signed["results"]), "--ledger", str(signed["ledger"]), "-o", str(out)]) == 0
         pages.append(re.sub(r"Made [^<]* by", "", out.read_text()))
     assert pages[0] == pages[1] and pages[0].count("<svg ") > 10
+
+
+def test_the_charted_series_fitted_alone_give_the_whole_fit_numbers(signed, tmp_path):
+    import numpy as np
+
+    from fitcore.results.stored import stored_results
+    from fitcore.review.evidence import band
+    from pricefold.report.command import fit_subset
+    from tui.factory import source_from_results
+    results_path = tmp_path / "results.parquet"
+    scenario.fit(signed["data"], signed["plan"], results_path)
+    whole, _ = stored_results(results_path)
+    picked = [0, 7, 90, 181, 182]
+    alone = fit_subset(source_from_results(results_path, check_data=False), [whole.data.key_of(s) for s in picked])
+    assert alone.n_series == len(picked)
+    for s in picked:
+        a = next(i for i in range(alone.n_series) if alone.data.key_of(i) == whole.data.key_of(s))
+        c = int(whole.chosen[s])
+        assert alone.chosen[a] == c and alone.data.fingerprint_of(a) == whole.data.fingerprint_of(s)
+        lo, hi = band(alone, a, c, np.array([whole.plan_price[s]]))
+        np.testing.assert_allclose([alone.plan_volume[a, c], lo[0], hi[0]],
+                                   [whole.plan_volume[s, c], whole.plan_lo[s, c], whole.plan_hi[s, c]], rtol=1e-9)
