@@ -7,6 +7,7 @@ desktop; that the table reads without its script and sorts and filters with it.
 from __future__ import annotations
 
 import json
+import re
 import struct
 
 import pytest
@@ -47,7 +48,9 @@ def test_the_rendered_page_reads_right(browser, opened, signed):
                                     ".find(r => r.dataset.status === 'held').innerText")
     assert row.split("\t")[:3] == ["lemons 500 g · East", "held", "poly1"] and "ask the buyer" in row
     assert f"{HOSTILE[0]} · North" in text  # literally, as text: never run
-    assert "[/] [bold]x · North" in text and "[red]not markup[/]" in text
+    keys = browser.evaluate(session, "[...document.querySelectorAll('#decisions-table td.key')].map(c => c.innerText)")
+    assert {"[/] [bold]x · North", "?[2J?]2;owned? wipe · North", f"{HOSTILE[0]} · North"} <= set(keys)
+    assert "[red]not markup[/]" in text
     assert "?[2J?]2;owned? wipe · North" in text and "\x1b" not in text
     assert browser.evaluate(session, "window.__pwned === undefined && document.title.indexOf('owned') < 0")
     charts = browser.evaluate(session, "[...document.querySelectorAll('article.exception svg')]"
@@ -109,3 +112,25 @@ def test_sorting_and_filtering(browser, opened):
     assert sorted(shown) == ["table salt 1 kg · East", "table salt 1 kg · North", "table salt 1 kg · South"]
     assert browser.evaluate(session, "document.querySelector('#decisions-controls output').textContent").startswith(
         "3 of ")
+
+
+@pytest.mark.parametrize("paper, inches", [("A4", 8.27), ("Letter", 8.5)])
+def test_printed_pages_fit_the_paper_and_break_between_sections(browser, page, paper, inches):
+    import base64
+    path, _ = page
+    width = int((inches - 2 * 14 / 25.4) * 96)  # the printable width at 96 CSS pixels an inch, 14 mm margins
+    session = browser.page(width, 1000)
+    browser.send("Emulation.setEmulatedMedia", {"media": "print"}, session=session)
+    browser.open(session, path.as_uri())
+    table = browser.evaluate(session, "document.getElementById('decisions-table').getBoundingClientRect().right")
+    assert table <= width
+    styles = browser.evaluate(session, "[getComputedStyle(document.getElementById('decisions')).breakBefore, "
+                                       "getComputedStyle(document.querySelector('article.exception')).breakInside, "
+                                       "getComputedStyle(document.getElementById('decisions-controls')).display]")
+    assert styles == ["page", "avoid-page", "none"]
+    pdf = base64.b64decode(browser.send("Page.printToPDF", {"paperWidth": inches, "paperHeight": 11.0},
+                                        session=session)["data"])
+    pages = len(re.findall(rb"/Type\s*/Page[^s]", pdf))
+    # the summary, the decisions and one page at least per exception section (each kept whole)
+    assert pdf.startswith(b"%PDF") and pages >= 2 + browser.evaluate(session, "document.querySelectorAll("
+                                                                           "'article.exception').length")
