@@ -13,7 +13,6 @@ from datetime import datetime, timezone
 from pathlib import Path
 
 from fitcore.errors import DataError, SettingsError
-from fitcore.ledger.signoff import STATUSES, LedgerView, gather
 
 INSTALL_HINT = "the report's charts need matplotlib: pip install 'pricefold[report]'"
 REFIT_ROWS = 50_000_000  # as triage: above this many rows the data are not read for the charts
@@ -32,13 +31,14 @@ def add_parser(commands) -> None:
     parser.add_argument("--title", default=None, metavar="TEXT", help="the page's title (default: from the results)")
 
 
-def read_ledger(path: Path, key: bytes | None) -> LedgerView:
+def read_ledger(path: Path, key: bytes | None):
     """The ledger as the report reads it: its state, head, first problem and records.
 
     The one place the report touches the ledger, through today's ``ledger.verify`` and
     ``ledger.read`` (a verifying reader of ``pricefold-ledger/2`` replaces both here).
     """
     from fitcore import ledger
+    from fitcore.ledger.signoff import LedgerView
     if not path.exists():
         return LedgerView(str(path), "absent")
     problems = ledger.verify(path, key)
@@ -195,6 +195,8 @@ class Charts:
         return self._drawn[s] if s in self._drawn else self.draw(s)
 
     def draw(self, s: int):
+        from fitcore.ledger.signoff import STATUSES
+
         from .charts import ChartInput, ChartMaker, Drawn
         from .page import esc
         from .tables import label
@@ -234,6 +236,7 @@ def run(args) -> int:
         import matplotlib  # noqa: F401 - only to say at once what is missing
     except ImportError:
         raise SettingsError(INSTALL_HINT) from None
+    from fitcore.ledger.signoff import STATUSES, gather
     from tui.factory import default_ledger
 
     __version__ = version()

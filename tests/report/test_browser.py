@@ -80,6 +80,9 @@ def test_the_page_fits_the_screen(browser, page, name, tmp_path_factory):
     wider = browser.evaluate(session, "[...document.querySelectorAll('body *')].filter(e => "
                                       "e.getBoundingClientRect().right > innerWidth + 1 && !e.closest('.wide')).length")
     assert wider == 0
+    tables = browser.evaluate(session, "[...document.querySelectorAll('table.cards-small')]"
+                                       ".filter(t => t.getBoundingClientRect().right > innerWidth + 1).length")
+    assert tables == 0  # no sideways scrolling inside the decisions, people or candidate tables either
     shot = tmp_path_factory.mktemp("shots") / f"{name}.png"
     browser.evaluate(session, "document.querySelector('article.exception').scrollIntoView()")
     browser.screenshot(session, shot)

@@ -81,8 +81,9 @@ def test_a_broken_ledger_is_the_first_thing_on_the_page(signed, tmp_path):
     lines[4] = lines[4].replace('"accept"', '"hold"')
     broken.write_text("".join(lines))
     out = tmp_path / "report.html"
-    done = scenario.report(signed["results"], broken, out)
+    done = scenario.report(signed["results"], broken, out, "--title", "<b>Q1 plan</b>")
     assert done.returncode == 0 and "ledger broken" in done.stderr
+    assert "<title>&lt;b&gt;Q1 plan&lt;/b&gt;</title>" in out.read_text()
     body = out.read_text().split("<body>", 1)[1]
     assert body.index("The ledger's chain is broken:</strong> line 5: record was edited") < body.index("<h2>Summary")
 
