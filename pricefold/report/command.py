@@ -32,29 +32,21 @@ def add_parser(commands) -> None:
 
 
 def read_ledger(path: Path, key: bytes | None):
-    """The ledger as the report reads it: its state, head, first problem and records.
-
-    The one place the report touches the ledger, through today's ``ledger.verify`` and
-    ``ledger.read`` (a verifying reader of ``pricefold-ledger/2`` replaces both here).
-    """
-    from fitcore import ledger
+    """The ledger as the report reads it (``fitcore.ledger.Ledger``, verified as read): its state,
+    head, first problem and records — for a broken ledger, those after the break too."""
+    from fitcore.ledger import Ledger
     from fitcore.ledger.signoff import LedgerView
-    if not path.exists():
+    book = Ledger(path, key)
+    if not book.exists:
         return LedgerView(str(path), "absent")
-    problems = ledger.verify(path, key)
-    records, _ = ledger.read(path)
-    torn = [p for p in problems if p.message.startswith("torn last line")]
-    keyless = [p for p in problems if "set PRICEFOLD_LEDGER_KEY" in p.message]
-    others = [p for p in problems if p not in torn and p not in keyless]
-    whole = [r for r in records if isinstance(r.get("seq"), int) and r.get("digest")]
-    head = f"{whole[-1]['seq']}:{whole[-1]['digest']}" if whole else None
-    kind = next((r.get("digest_kind") for r in reversed(whole)), None)
-    if others:
-        return LedgerView(str(path), "broken", tuple(records), head, str(others[0]), kind)
-    if keyless:
-        return LedgerView(str(path), "unverifiable", tuple(records), head, str(keyless[0]), kind)
-    remark = f"The ledger ends in a torn line ({torn[0]}); it is set aside by the next append." if torn else None
-    return LedgerView(str(path), "intact", tuple(records), head, remark, kind)
+    records = tuple(book.records)
+    kind = next((r.get("digest_kind") for r in reversed(records)), None)
+    if book.problem is not None:
+        return LedgerView(str(path), book.state, records, book.head_text if records else None, str(book.problem),
+                          kind)
+    remark = (f"The ledger ends in an interrupted append ({book.notes[0]}); it is left out, and the next append "
+              "sets it aside." if book.notes else None)
+    return LedgerView(str(path), book.state, records, book.head_text if records else None, remark, kind)
 
 
 @dataclass(frozen=True)
@@ -240,7 +232,8 @@ def run(args) -> int:
     from tui.factory import default_ledger
 
     __version__ = version()
-    from ..ledger_cli import _atomic_text, ledger_key
+    from ..ledger_cli import ledger_key
+    from ..ledger_export import write_text
     from .exceptions import exceptions
     from .page import CAUTION, Report, alerts, document, esc, summary
     from .tables import decisions, people
@@ -267,7 +260,7 @@ def run(args) -> int:
             f"{decisions(report, detailed)}{exceptions(report, decided, flagged, more)}"
             f"<footer class=\"caution\"><p>{esc(CAUTION)}</p></footer>")
     page = document(report, body)
-    _atomic_text(args.output, page)
+    write_text(args.output, page)
     counts = signoff.counts()
     print(f"report of {counts['total']:,} series ({', '.join(f'{counts[s]:,} {s}' for s in STATUSES if counts[s])}; "
           f"ledger {view.state}) → {args.output} ({len(page.encode('utf-8')) / 1e6:.1f} MB)", file=sys.stderr)

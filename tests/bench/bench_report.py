@@ -75,9 +75,10 @@ def decide(results_path: Path, ledger_path: Path, overrides: int, holds: int, no
     one_by_one += [entry(next(picks), "note", note="benchmark note") for _ in range(notes)]
     stopped = [s for s in picks if stop[s]][:past_stop]
     one_by_one += [entry(s, "accept", note="benchmark accept past a stop flag") for s in stopped]
-    ledger.append(ledger_path, bulk, who)
+    book = ledger.Ledger(ledger_path)
+    book.append(bulk, who)
     for item in one_by_one:  # one append each, as from the screen
-        ledger.append(ledger_path, [item], who)
+        book.append([item], who)
     return len(bulk) + len(one_by_one)
 
 

@@ -56,17 +56,22 @@ def decide(results_path: Path, ledger_path: Path, key: bytes | None = None) -> d
     ben = ledger.Identity("ben <i>", "ben", "test-host")
     day = datetime(2026, 12, 1, 9, 0, tzinfo=timezone.utc)
 
-    def entry(key, action, model=None, note=""):
+    book = ledger.Ledger(ledger_path, key)
+
+    def entry(key, action, model=None, note=""):  # as a screen would: naming the flags and the record it saw
         s = by_key[key]
+        seen = book.histories.get(series_id(s["key"]))
         return ledger.Entry(series=s["key"], action=action, fingerprint=s["fingerprint"], results=digest,
-                            model=model or s["chosen"], proposed=s["chosen"], note=note)
+                            model=model or s["chosen"], proposed=s["chosen"], note=note,
+                            supersedes=seen.latest["digest"] if seen else None,
+                            flags=[f["code"] for f in s["flags"]])
 
     def unflagged(records):
         decided = replay(records)
         return [entry((s["key"]["product"], s["key"]["region"]), "accept") for s in series
                 if not s["flags"] and s["chosen"] and series_id(s["key"]) not in decided]
 
-    ledger.append(ledger_path, unflagged, ana, key=key, now=clock(day))
+    book.append(unflagged, ana, now=clock(day))
     override = (HOSTILE[0], "North")
     other = next(c["name"] for c in by_key[override]["candidates"]
                  if c["available"] and c["name"] != by_key[override]["chosen"])
@@ -74,17 +79,17 @@ def decide(results_path: Path, ledger_path: Path, key: bytes | None = None) -> d
         "override": [override], "hold": [("lemons 500 g", "East")],
         "note": [("grapes 500 g", "East"), (HOSTILE[1], "North"), (HOSTILE[2], "North")],
         "accept": [("rolled oats 1 kg", "East")]}
-    ledger.append(ledger_path, [entry(override, "override", other, NOTE)], ben, key=key, now=clock(day + timedelta(hours=2)))
-    ledger.append(ledger_path, [entry(("lemons 500 g", "East"), "hold", note="ask the buyer")], ben, key=key,
-                  now=clock(day + timedelta(hours=3)))
-    ledger.append(ledger_path, [entry(("grapes 500 g", "East"), "note", None, "plan price above any seen")], ana,
-                  key=key, now=clock(day + timedelta(hours=4)))
-    ledger.append(ledger_path, [entry((HOSTILE[1], "North"), "note", None, "[red]not markup[/]")], ben,
-                  key=key, now=clock(day + timedelta(hours=4, minutes=20)))
-    ledger.append(ledger_path, [entry((HOSTILE[2], "North"), "note", None, "odd name \x1b[31mred")], ana,
-                  key=key, now=clock(day + timedelta(hours=4, minutes=30)))
-    ledger.append(ledger_path, [entry(("rolled oats 1 kg", "East"), "accept", note="rise is a promotion week")], ana,
-                  key=key, now=clock(day + timedelta(hours=5)))
+    book.append([entry(override, "override", other, NOTE)], ben, now=clock(day + timedelta(hours=2)))
+    book.append([entry(("lemons 500 g", "East"), "hold", note="ask the buyer")], ben,
+                now=clock(day + timedelta(hours=3)))
+    book.append([entry(("grapes 500 g", "East"), "note", None, "plan price above any seen")], ana,
+                now=clock(day + timedelta(hours=4)))
+    book.append([entry((HOSTILE[1], "North"), "note", None, "[red]not markup[/]")], ben,
+                now=clock(day + timedelta(hours=4, minutes=20)))
+    book.append([entry((HOSTILE[2], "North"), "note", None, "odd name \x1b[31mred")], ana,
+                now=clock(day + timedelta(hours=4, minutes=30)))
+    book.append([entry(("rolled oats 1 kg", "East"), "accept", note="rise is a promotion week")], ana,
+                now=clock(day + timedelta(hours=5)))
     return {"override_model": other, **one_by_one}
 
 
