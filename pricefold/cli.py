@@ -108,6 +108,8 @@ def add_fit_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--degrees", default=None, metavar="A-B", help="polynomial degrees to try (default: 0-5)")
     group.add_argument("--no-loglog", dest="loglog", action="store_const", const=False, default=None,
                        help="leave out the constant-elasticity curve ln volume = a + e·ln price")
+    group.add_argument("--semilog", action="store_const", const=True, default=None,
+                       help="add the constant semi-elasticity curve ln volume = a + b·price")
     group.add_argument("--folds", default=None, metavar="K|loo", help="number of folds, or loo (default: 5)")
     group.add_argument("--fold-order", default=None, choices=("shuffled", "given", "time"),
                        help="deal rows into folds shuffled (seeded), in file order, or by date (default: shuffled)")
@@ -128,7 +130,8 @@ def resolve(args) -> None:
             ("product", "columns", "product", "product"), ("segment", "columns", "segments", []),
             ("price", "columns", "price", "price"), ("volume", "columns", "volume", "volume"),
             ("date", "columns", "date", None), ("weight", "columns", "weight", None), ("sep", "columns", "sep", None),
-            ("degrees", "fit", "degrees", "0-5"), ("loglog", "fit", "loglog", True), ("folds", "fit", "folds", "5"),
+            ("degrees", "fit", "degrees", "0-5"), ("loglog", "fit", "loglog", True),
+            ("semilog", "fit", "semilog", False), ("folds", "fit", "folds", "5"),
             ("fold_order", "fit", "fold_order", "shuffled"), ("seed", "fit", "seed", 0), ("rule", "fit", "rule", "one-se")):
         setattr(args, option, pick(getattr(args, option), config, table, key, default))
     if args.plan is None and args.plan_price is None:
@@ -155,8 +158,8 @@ def settings_from(args):
     if args.config_path:
         extra["config"] = args.config_path
     return FitSettings(degrees=parse_degrees(str(args.degrees)), loglog=bool(args.loglog),
-                       folds=parse_folds(args.folds), fold_order=args.fold_order, seed=int(args.seed), rule=args.rule,
-                       extra=extra)
+                       semilog=bool(args.semilog), folds=parse_folds(args.folds), fold_order=args.fold_order,
+                       seed=int(args.seed), rule=args.rule, extra=extra)
 
 
 def run_fit(args) -> int:

@@ -40,7 +40,7 @@ def run_fit_dask(args, settings, thresholds) -> int:
     if args.plan and total["plan_matched"] < _plan_rows(args.plan):
         print(f"warning: {args.plan} names series that are not in the data", file=sys.stderr)
     if not args.quiet:
-        from fitcore.fit.candidates import candidates_for
+        from fitcore.fit.families import candidates_for
         from fitcore.review.flags import CODES
         chosen = {c.name: total["chosen"].get(c.name, 0) for c in candidates_for(settings)} | {"none": total["none"]}
         flags = {code: total["flags"][code] for code in CODES if code in total["flags"]}

@@ -16,6 +16,7 @@ sep = ";"
 [fit]
 degrees = "0-3"        # or [0, 1, 2, 3]
 loglog = true
+semilog = false
 folds = 5              # or "loo"
 fold_order = "time"
 seed = 0
@@ -39,7 +40,7 @@ TEXT, NUMBER = (str,), (int, float)
 KEYS = {
     "columns": {"product": TEXT, "segments": (list,), "price": TEXT, "volume": TEXT, "date": TEXT, "weight": TEXT,
                 "sep": TEXT},
-    "fit": {"degrees": (str, list), "loglog": (bool,), "folds": (int, str), "fold_order": TEXT, "seed": (int,),
+    "fit": {"degrees": (str, list), "loglog": (bool,), "semilog": (bool,), "folds": (int, str), "fold_order": TEXT, "seed": (int,),
             "rule": TEXT, "plan_price": NUMBER, "plan": TEXT},
     "thresholds": {name: NUMBER for name in Thresholds.names()},
 }

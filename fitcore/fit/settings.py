@@ -6,7 +6,6 @@ from dataclasses import asdict, dataclass, field
 from ..errors import SettingsError
 
 MAX_DEGREE = 5
-FOLD_ORDERS = ("shuffled", "given", "time")
 RULES = ("one-se", "lowest")
 
 
@@ -22,6 +21,7 @@ class FitSettings:
 
     degrees: tuple[int, ...] = (0, 1, 2, 3, 4, 5)
     loglog: bool = True
+    semilog: bool = False
     folds: int | str = 5
     fold_order: str = "shuffled"
     seed: int = 0
@@ -36,13 +36,8 @@ class FitSettings:
             raise SettingsError(f"expected distinct degrees in increasing order, got {list(self.degrees)}")
         if self.degrees[0] < 0 or self.degrees[-1] > MAX_DEGREE:
             raise SettingsError(f"expected degrees between 0 and {MAX_DEGREE}, got {list(self.degrees)}")
-        if self.folds != "loo":
-            if isinstance(self.folds, bool) or not isinstance(self.folds, int) or self.folds < 2:
-                raise SettingsError(f"expected --folds to be a whole number of at least 2 or 'loo', got {self.folds!r}")
-        if self.fold_order not in FOLD_ORDERS:
-            raise SettingsError(f"expected --fold-order to be one of {', '.join(FOLD_ORDERS)}, got {self.fold_order!r}")
-        if self.folds == "loo" and self.fold_order != "shuffled":
-            raise SettingsError("--fold-order does not apply to --folds loo (every point is held out once)")
+        from .folds import fold_scheme
+        fold_scheme(self)  # folds, fold order and seed are checked by the scheme they make
         if self.rule not in RULES:
             raise SettingsError(f"expected --rule to be one of {', '.join(RULES)}, got {self.rule!r}")
         if not 0.5 < self.level < 1:
@@ -65,8 +60,9 @@ def provenance(columns: dict, plan_file: str | None, plan_price: float | None) -
 
 def settings_from_dict(values: dict) -> FitSettings:
     """The ``FitSettings`` recorded in a results file (extra entries kept in ``extra``)."""
-    known = {"degrees", "loglog", "folds", "fold_order", "seed", "rule", "level"}
-    return FitSettings(degrees=tuple(values["degrees"]), loglog=values["loglog"], folds=values["folds"],
+    known = {"degrees", "loglog", "semilog", "folds", "fold_order", "seed", "rule", "level"}
+    return FitSettings(degrees=tuple(values["degrees"]), loglog=values["loglog"],
+                       semilog=values.get("semilog", False), folds=values["folds"],
                        fold_order=values["fold_order"], seed=values["seed"], rule=values["rule"],
                        level=values["level"], extra={k: v for k, v in values.items() if k not in known})
 
