@@ -99,6 +99,9 @@ def add_column_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--weight", default=None, metavar="COL",
                        help="observation weights ≥ 0: weighted least squares throughout")
     group.add_argument("--sep", default=None, metavar="CHAR", help="field separator (default: from the file)")
+    group.add_argument("--control", action="append", default=None, metavar="COL",
+                       help="a numeric or 0/1 column (promotion, holiday, a competitor's price) held fixed while every "
+                            "curve is fitted (repeatable)")
 
 
 def add_fit_options(parser: argparse.ArgumentParser) -> None:
@@ -114,6 +117,8 @@ def add_fit_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--fold-order", default=None, choices=("shuffled", "given", "time"),
                        help="deal rows into folds shuffled (seeded), in file order, or by date (default: shuffled)")
     group.add_argument("--seed", type=int, default=None, help="seed of the fold shuffle (default: 0)")
+    group.add_argument("--season", type=int, default=None, metavar="K",
+                       help="K sine/cosine pairs of the day of the year as controls, 0 to 4 (needs --date; default: 0)")
     group.add_argument("--rule", default=None, choices=("one-se", "lowest"),
                        help="one-se: simplest within one standard error of the best; lowest: lowest CV error")
     plan = group.add_mutually_exclusive_group()
@@ -132,7 +137,8 @@ def resolve(args) -> None:
             ("date", "columns", "date", None), ("weight", "columns", "weight", None), ("sep", "columns", "sep", None),
             ("degrees", "fit", "degrees", "0-5"), ("loglog", "fit", "loglog", True),
             ("semilog", "fit", "semilog", False), ("folds", "fit", "folds", "5"),
-            ("fold_order", "fit", "fold_order", "shuffled"), ("seed", "fit", "seed", 0), ("rule", "fit", "rule", "one-se")):
+            ("fold_order", "fit", "fold_order", "shuffled"), ("seed", "fit", "seed", 0), ("rule", "fit", "rule", "one-se"),
+            ("control", "columns", "controls", []), ("season", "fit", "season", 0)):
         setattr(args, option, pick(getattr(args, option), config, table, key, default))
     if args.plan is None and args.plan_price is None:
         args.plan_price = config.get("fit", {}).get("plan_price")
@@ -148,8 +154,15 @@ def resolve(args) -> None:
 
 def columns_from(args):
     from fitcore.data.loader import Columns
-    return Columns(product=args.product, segments=tuple(args.segment), price=args.price, volume=args.volume,
-                   date=args.date, weight=args.weight)
+    columns = Columns(product=args.product, segments=tuple(args.segment), price=args.price, volume=args.volume,
+                      date=args.date, weight=args.weight, controls=tuple(dict.fromkeys(args.control)))
+    for name in columns.controls:
+        for role, column in (("a key", columns.keys), ("the price", [columns.price]), ("the volume", [columns.volume]),
+                             ("the date", [columns.date]), ("the weight", [columns.weight])):
+            if name in column:
+                from fitcore.errors import SettingsError
+                raise SettingsError(f"--control {name} is already {role} column; a control is another column")
+    return columns
 
 
 def settings_from(args):
@@ -159,13 +172,13 @@ def settings_from(args):
         extra["config"] = args.config_path
     return FitSettings(degrees=parse_degrees(str(args.degrees)), loglog=bool(args.loglog),
                        semilog=bool(args.semilog), folds=parse_folds(args.folds), fold_order=args.fold_order,
-                       seed=int(args.seed), rule=args.rule, extra=extra)
+                       seed=int(args.seed), rule=args.rule, season=args.season, extra=extra)
 
 
 def run_fit(args) -> int:
     from fitcore import fit_batch
     from fitcore.data.loader import load_with_rejects
-    from fitcore.data.plan import plan_prices
+    from fitcore.data.plan import plan_keywords
     from fitcore.errors import SettingsError
     from fitcore.results.write import write_results
     from fitcore.review.flags import diagnose
@@ -178,6 +191,8 @@ def run_fit(args) -> int:
     thresholds = Thresholds().with_overrides(parse_threshold_options(args.threshold))
     if settings.fold_order == "time" and not args.date:
         raise SettingsError("--fold-order time needs the date column: add --date COLUMN")
+    if settings.season and not args.date:
+        raise SettingsError("--season needs the date column: add --date COLUMN")
     if args.plan_price is not None and not args.plan_price > 0:
         raise SettingsError(f"expected --plan-price above zero, got {args.plan_price}")
     if args.engine == "dask":
@@ -186,10 +201,10 @@ def run_fit(args) -> int:
     started = time.perf_counter()
     data, rejects = load_with_rejects(args.data, columns_from(args), sep=args.sep)
     report_rejects(rejects, rejects_path(args.output), strict=args.strict, quiet=args.quiet)
-    plan = plan_prices(data, args.plan, args.sep) if args.plan else args.plan_price
+    plan = plan_keywords(data, args.plan, args.plan_price, args.sep, season=settings.season)
     bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
     try:
-        results = fit_batch(data, settings, plan_price=plan, progress=bar)
+        results = fit_batch(data, settings, **plan, progress=bar)
     finally:
         bar.close()
     diagnosis = diagnose(results, thresholds)
@@ -253,7 +268,8 @@ def run_show(args) -> int:
     if not picked:
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
         return 1
-    print(detail(picked[0]) if len(picked) == 1 else table(picked))
+    binary = (header.get("settings", {}).get("controls") or {}).get("binary", [])
+    print(detail(picked[0], binary) if len(picked) == 1 else table(picked))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     return 0

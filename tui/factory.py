@@ -68,13 +68,13 @@ def fit_source(source: Source, progress: Callable[[int, int], None] | None = Non
     """``(results, diagnosis)`` of the source, its settings recording how to fit it again."""
     from fitcore import fit_batch
     from fitcore.data.loader import load
-    from fitcore.data.plan import plan_prices
+    from fitcore.data.plan import plan_keywords
     from fitcore.review.flags import diagnose
     data = load(source.data, source.columns)
-    plan = plan_prices(data, source.plan_file) if source.plan_file else source.plan_price
+    plan = plan_keywords(data, source.plan_file, source.plan_price, season=source.settings.season)
     extra = provenance(source.columns.as_dict(), str(source.plan_file) if source.plan_file else None,
                        source.plan_price)
-    results = fit_batch(data, replace(source.settings, extra=extra), plan_price=plan, progress=progress)
+    results = fit_batch(data, replace(source.settings, extra=extra), **plan, progress=progress)
     return results, diagnose(results, source.thresholds)
 
 

@@ -12,6 +12,7 @@ volume = "units"
 date = "week"
 weight = "w"
 sep = ";"
+controls = ["promo"]
 
 [fit]
 degrees = "0-3"        # or [0, 1, 2, 3]
@@ -21,6 +22,7 @@ folds = 5              # or "loo"
 fold_order = "time"
 seed = 0
 rule = "one-se"
+season = 2             # sine/cosine pairs of the day of the year, 0-4
 plan_price = 2.5       # or plan = "plan.csv"
 
 [thresholds]
@@ -43,9 +45,9 @@ DEFAULT_NAME = "pricefold.toml"
 TEXT, NUMBER = (str,), (int, float)
 KEYS = {
     "columns": {"product": TEXT, "segments": (list,), "price": TEXT, "volume": TEXT, "date": TEXT, "weight": TEXT,
-                "sep": TEXT},
+                "sep": TEXT, "controls": (list,)},
     "fit": {"degrees": (str, list), "loglog": (bool,), "semilog": (bool,), "folds": (int, str), "fold_order": TEXT, "seed": (int,),
-            "rule": TEXT, "plan_price": NUMBER, "plan": TEXT},
+            "rule": TEXT, "plan_price": NUMBER, "plan": TEXT, "season": (int,)},
     "thresholds": {name: NUMBER for name in Thresholds.names()},
     "units": {"price": TEXT, "volume": TEXT},
 }

@@ -72,7 +72,8 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
 
     path = Path(path)
     rows, kind, delimiter = read_rows(path, columns, sep)
-    why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date)
+    why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date,
+                          controls=columns.controls)
     bad = np.flatnonzero(~usable)
     rejects = Rejects(path, kind, delimiter, rows.line[bad], why[bad].tolist())
     if len(bad) == rows.n_rows:
@@ -85,7 +86,8 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
               "rejected": int(len(bad))}
     dataset = from_columns(keys, number(columns.price), number(columns.volume),
                            weight=number(columns.weight) if columns.weight else None,
-                           date=rows.date[0][keep] if columns.date else None, line=rows.line[keep], source=source)
+                           date=rows.date[0][keep] if columns.date else None, line=rows.line[keep], source=source,
+                           controls={name: number(name) for name in columns.controls})
     return dataset, rejects
 
 
@@ -143,7 +145,8 @@ def _csv_header(path: Path, delimiter: str) -> list[str]:
 
 
 def _number_names(columns: Columns) -> list[str]:
-    return [name for name in (columns.price, columns.volume, columns.weight) if name]
+    return list(dict.fromkeys(name for name in (columns.price, columns.volume, columns.weight, *columns.controls)
+                              if name))
 
 
 def _read_csv_fast(path: Path, columns: Columns, delimiter: str):

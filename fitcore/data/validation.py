@@ -3,7 +3,8 @@
 A row is rejected — never silently dropped — when the line is empty or has
 the wrong number of fields, a key is empty, price or volume is missing,
 non-numeric, NaN or infinite, or negative, the weight is missing, non-numeric
-or negative, the date does not parse, or the row repeats the series and date
+or negative, the date does not parse, a control is missing, non-numeric, NaN
+or infinite (controls may be negative), or the row repeats the series and date
 of an earlier row.  The first reason that applies is the one reported.
 """
 from __future__ import annotations
@@ -39,7 +40,7 @@ class RawRows:
 
 
 def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
-            date: str | None, duplicates: bool = True) -> tuple[np.ndarray, np.ndarray]:
+            date: str | None, duplicates: bool = True, controls: tuple[str, ...] = ()) -> tuple[np.ndarray, np.ndarray]:
     """``(why, usable)``: (N,) the reason each row is rejected (None for a usable row), and (N,) bool usable.
 
     ``duplicates=False`` leaves the repeated series-and-date check to the caller (``duplicate_rows``), for
@@ -74,6 +75,8 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
     for name in (price, volume, weight):
         if name:
             _number_reasons(mark, name, *rows.numbers[name])
+    for name in controls:
+        _number_reasons(mark, name, *rows.numbers[name], signed=True)
     if date and rows.date is not None:
         values, unreadable = rows.date
         mark(unreadable, f"unparseable {date}")
@@ -93,11 +96,12 @@ def _empty(values: pd.Categorical) -> np.ndarray:
     return (codes < 0) | (blank[np.maximum(codes, 0)] if len(blank) else True)
 
 
-def _number_reasons(mark, name, values, not_number, missing):
+def _number_reasons(mark, name, values, not_number, missing, signed: bool = False):
     mark(not_number, f"non-numeric {name}")
     mark(missing, f"missing {name}")
     mark(~np.isfinite(values), f"non-finite {name}")
-    mark(values < 0, f"negative {name}")
+    if not signed:
+        mark(values < 0, f"negative {name}")
 
 
 def _duplicates(rows: RawRows, dates: np.ndarray, reject, open_rows: np.ndarray) -> None:
