@@ -73,6 +73,10 @@ def build_parser() -> argparse.ArgumentParser:
     demo.add_argument("--dir", type=Path, default=Path("pricefold-demo"), metavar="DIR",
                       help="where to write results.json and ledger.jsonl (default: ./pricefold-demo)")
     demo.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
+    demo.add_argument("--control", action="append", default=[], metavar="COL",
+                      help="hold a column of the sample fixed while fitting: promo (the promotion weeks)")
+    demo.add_argument("--season", type=int, default=0, metavar="K",
+                      help="hold K sine/cosine pairs of the season fixed, 0 to 4 (default: 0)")
 
     from .ledger_cli import add_parser as add_ledger_parser
     add_ledger_parser(commands)
@@ -354,7 +358,7 @@ def run_demo(args) -> int:
     folder.mkdir(parents=True, exist_ok=True)
     print("fitting the invented sample …\n(the first run after an install also compiles the engine: ~10 s, once)",
           file=sys.stderr)
-    results, diagnosis = fit_source(sample_source())
+    results, diagnosis = fit_source(sample_source(tuple(args.control), args.season))
     results_path = folder / "results.json"
     write_results(results, results_path, diagnosis)
     print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)

@@ -118,11 +118,12 @@ def refit_stored(source: Source, progress: Callable[[int, int], None] | None = N
     return fit_source(source, progress)
 
 
-def sample_source() -> Source:
+def sample_source(controls: tuple[str, ...] = (), season: int = 0) -> Source:
+    """The bundled sample; ``controls`` (its ``promo`` column) and ``season`` pairs held fixed if asked."""
     if not (SAMPLE / "wholesale.csv").exists():
         raise DataError("the bundled sample is not here; run pricefold from a source checkout", path=str(SAMPLE))
-    return Source(data=SAMPLE / "wholesale.csv", columns=Columns(segments=("region",), date="week"),
-                  plan_file=SAMPLE / "plan.csv")
+    return Source(data=SAMPLE / "wholesale.csv", columns=Columns(segments=("region",), date="week", controls=controls),
+                  settings=FitSettings(season=season), plan_file=SAMPLE / "plan.csv")
 
 
 def default_ledger(results_or_data: Path) -> Path:
