@@ -125,38 +125,64 @@ def influence_rows(t, target, z, w, offsets, order, coef, gamma, size, lower, sc
 
 
 @compiled
-def log_residuals(u, y, z, bounds, a, e, g, out):
-    """``out[f, i]``: the log-scale residual of row i of series s under fit f (F folds, then the full fit in
-    row F): yᵢ − a[s, f] − e[s, f]·uᵢ − Σⱼ g[s, f, j]·z[j, i]."""
+def log_residuals(u, y, z, bounds, a, e, g, out, coef, acc):
+    """``out[i, f]``: the log-scale residual of row i of series s under fit f (F folds, then the full fit in
+    column F; ``out`` (N, 8): up to 7 folds, the fits side by side so each row's run together in vector
+    instructions): yᵢ − a[s, f] − e[s, f]·uᵢ − Σⱼ g[s, f, j]·z[j, i].  ``coef`` (m + 2, 8), ``acc`` (8,)
+    scratch."""
+    m = z.shape[0]
+    n_fits = a.shape[1]
+    lanes = out.shape[1]
     for s in range(bounds.shape[0]):
-        start, stop = bounds[s, 0], bounds[s, -1]
-        for f in range(a.shape[1]):
-            row, level, slope = out[f], a[s, f], e[s, f]
-            for i in range(start, stop):
-                row[i] = y[i] - level - slope * u[i]
-            for j in range(z.shape[0]):
-                gj, zj = g[s, f, j], z[j]
-                for i in range(start, stop):
-                    row[i] -= gj * zj[i]
+        for f in range(lanes):
+            fit = f < n_fits
+            coef[0, f] = a[s, f] if fit else 0.0
+            coef[1, f] = e[s, f] if fit else 0.0
+            for j in range(m):
+                coef[2 + j, f] = g[s, f, j] if fit else 0.0
+        level, slope = coef[0], coef[1]
+        for i in range(bounds[s, 0], bounds[s, -1]):
+            ui = u[i]
+            yi = y[i]
+            for f in range(lanes):
+                acc[f] = yi - level[f] - slope[f] * ui
+            for j in range(m):
+                zji = z[j, i]
+                cj = coef[2 + j]
+                for f in range(lanes):
+                    acc[f] -= cj[f] * zji
+            row = out[i]
+            for f in range(lanes):
+                row[f] = acc[f]
 
 
 @compiled
-def volume_errors(volume, w, bounds, held_out, cumulative, growth, smear, sse_full, sse_test):
-    """``logvolume.volume_errors`` from every fit's growths: ``growth[f, i]`` = exp(log residual of row i
-    under fit f); a fit's smearing factor is the weighted mean of its growths over its training rows."""
+def volume_errors(volume, w, bounds, held_out, cumulative, growth, smear, sse_full, sse_test, block_sums):
+    """``logvolume.volume_errors`` from every fit's growths: ``growth[i, f]`` = exp(log residual of row i
+    under fit f); a fit's smearing factor is the weighted mean of its growths over its training rows.
+    ``block_sums`` (B, 8 + 1) scratch: each block's Σw·growth under every fit, then its Σw."""
     n_folds = len(held_out)
     n_blocks = bounds.shape[1] - 1
     weighted = len(w) > 0
+    lanes = growth.shape[1]
     for s in range(bounds.shape[0]):
+        for b in range(n_blocks):
+            sums = block_sums[b]
+            for f in range(lanes + 1):
+                sums[f] = 0.0
+            for i in range(bounds[s, b], bounds[s, b + 1]):
+                wi = w[i] if weighted else 1.0
+                row = growth[i]
+                for f in range(lanes):
+                    sums[f] += wi * row[f]
+                sums[lanes] += wi
         for f in range(n_folds + 1):
             spread = 0.0
             weight = 0.0
             for b in range(n_blocks):
                 if trains_on(f, b, held_out, cumulative):
-                    for i in range(bounds[s, b], bounds[s, b + 1]):
-                        wi = w[i] if weighted else 1.0
-                        spread += wi * growth[f, i]
-                        weight += wi
+                    spread += block_sums[b, f]
+                    weight += block_sums[b, lanes]
             fit_smear = spread / weight if weight > 0 else 1.0
             total = 0.0
             if f == n_folds:
@@ -166,7 +192,7 @@ def volume_errors(volume, w, bounds, held_out, cumulative, growth, smear, sse_fu
                 rows_from, rows_to = bounds[s, held_out[f]], bounds[s, held_out[f] + 1]
             for i in range(rows_from, rows_to):
                 wi = w[i] if weighted else 1.0
-                r = volume[i] - volume[i] / growth[f, i] * fit_smear
+                r = volume[i] - volume[i] / growth[i, f] * fit_smear
                 total += wi * r * r
             if f == n_folds:
                 sse_full[s] = total

@@ -70,15 +70,19 @@ class LogVolume(Family):
         factors summed from them row by row (``controlled_rows``)."""
         ch, u, z, log = work
         lay = ch.lay
-        growth = np.empty((lay.n_folds + 1, len(u)))
+        n_fits = lay.n_folds + 1
+        lanes = 8 if n_fits <= 8 else n_fits  # the fits side by side, a vector's width when they fit in one
+        growth = np.empty((len(u), lanes))
         controlled_rows.log_residuals(u, z, ch.controls.z, lay.bounds, np.ascontiguousarray(log.coef[:, :, 0, 0]),
                                       np.ascontiguousarray(log.coef[:, :, 0, 1]),
-                                      np.ascontiguousarray(log.gamma[:, :, 0]), growth)
+                                      np.ascontiguousarray(log.gamma[:, :, 0]), growth,
+                                      np.zeros((len(ch.controls.z) + 2, lanes)), np.zeros(lanes))
         np.exp(growth, out=growth)
         n_s = len(ch.counts)
         sse_test, smear, sse_full = np.empty((n_s, lay.n_folds)), np.empty(n_s), np.empty(n_s)
         controlled_rows.volume_errors(ch.volume, np.empty(0) if ch.weight is None else ch.weight, lay.bounds,
-                                      lay.held_out.astype(np.int64), lay.cumulative, growth, smear, sse_full, sse_test)
+                                      lay.held_out.astype(np.int64), lay.cumulative, growth, smear, sse_full, sse_test,
+                                      np.zeros((lay.bounds.shape[1] - 1, lanes + 1)))
         return sse_test, along_folds(log.ok[:, :-1, 0], np.logical_and), smear, sse_full
 
     def row_errors(self, work):
