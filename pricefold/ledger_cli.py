@@ -11,7 +11,6 @@ import sys
 from pathlib import Path
 
 from fitcore import ledger
-from fitcore.errors import DataError
 from fitcore.ledger.replay import replay, series_id
 from fitcore.results.read import results_in_parts
 from fitcore.text import clean
@@ -89,7 +88,11 @@ def run_show(args) -> int:
 
 
 def run_export(args) -> int:
+    from fitcore.outputs import check_outputs
+    from fitcore.results.read import results_inputs
     header, parts = results_in_parts(args.results)
+    check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
+                                              *results_inputs(header)])
     records, problems = ledger.read(args.ledger)
     if problems:
         print(f"{args.ledger}: {problems[0]} (exported from the whole records before it)", file=sys.stderr)
@@ -141,14 +144,5 @@ def run_accept_unflagged(args) -> int:
 
 
 def _atomic_text(path: Path, text: str) -> None:
-    import tempfile
-    directory = path.resolve().parent
-    try:
-        fd, temp = tempfile.mkstemp(prefix=f".{path.name}.", dir=directory)
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as handle:
-            handle.write(text)
-            handle.flush()
-            os.fsync(handle.fileno())
-        os.replace(temp, path)
-    except OSError as exc:
-        raise DataError(f"cannot write ({exc.strerror})", path=str(path)) from None
+    from fitcore.outputs import atomic_write
+    atomic_write(path, lambda handle: handle.write(text.encode("utf-8")))
