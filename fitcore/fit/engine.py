@@ -11,7 +11,6 @@ from typing import Callable
 import numpy as np
 
 from ..data.dataset import Dataset
-from ..errors import SettingsError
 from . import kernels
 from . import reasons as R
 from .basis import mapped, plain_loglog, window, window_rows
@@ -24,7 +23,7 @@ from .prediction import best_revenue_loglog, best_revenue_poly, loglog_at, poly_
 from .results import Results
 from .segments import segment_sums
 from .selection import choose
-from .settings import FitSettings
+from .settings import FitSettings, check_time_order
 
 CHUNK_ROWS = 1 << 17
 
@@ -37,8 +36,7 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
     NaN where a series has no plan.  ``progress(done, total)`` is called after
     each chunk with counts of series.
     """
-    if settings.fold_order == "time" and data.date is None:
-        raise SettingsError("--fold-order time needs a date column (--date COLUMN)")
+    check_time_order(settings.fold_order, data.date is not None)
     n_series = data.n_series
     plan = np.full(n_series, np.nan) if plan_price is None else np.broadcast_to(
         np.asarray(plan_price, dtype=np.float64), (n_series,)).copy()
@@ -102,6 +100,12 @@ class _Chunk:
         self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
         w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)
         self.w_sum = np.where(w_sum > 0, w_sum, 1.0)
+        self.weight_reason = np.zeros(len(self.counts), np.int8)  # a series its weights leave nothing to fit
+        if self.weight is not None:
+            with np.errstate(over="ignore", invalid="ignore"):
+                big = self.sums(self.weight * self.volume * self.volume)  # bounds every weighted sum the fit forms
+            self.weight_reason[~np.isfinite(w_sum) | ~np.isfinite(big)] = R.WEIGHT_OVERFLOW
+            self.weight_reason[w_sum == 0] = R.NO_WEIGHT
         # Price mapped onto each series' window, volume centred (``basis.window_rows``).
         self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
 
@@ -298,6 +302,7 @@ def _reasons(ch: _Chunk, cands, n_coef, half, not_positive, fit_ok, fold_ok) -> 
     degrees = np.array([c.degree if c.family == "poly" else 1 for c in cands])
     is_loglog = np.array([c.family == "loglog" for c in cands])
     rules = [
+        ((ch.weight_reason > 0)[:, None], ch.weight_reason[:, None]),
         (not_positive[:, None] & is_loglog[None, :], R.NOT_POSITIVE),
         (~ch.lay.usable[:, None], R.TOO_FEW_FOR_FOLDS),
         ((half <= 0)[:, None] & (degrees > 0)[None, :], R.FLAT_PRICE),
@@ -307,7 +312,8 @@ def _reasons(ch: _Chunk, cands, n_coef, half, not_positive, fit_ok, fold_ok) -> 
     ]
     reason = np.zeros(fit_ok.shape, dtype=np.int8)
     for applies, code in reversed(rules):
-        reason[np.broadcast_to(applies, reason.shape)] = code
+        mask = np.broadcast_to(applies, reason.shape)
+        reason[mask] = np.broadcast_to(code, reason.shape)[mask]
     return reason
 
 

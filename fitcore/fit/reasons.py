@@ -11,6 +11,8 @@ RANK_ALL = 4
 RANK_FOLD = 5
 LEVERAGE_ONE = 6
 NOT_POSITIVE = 7
+NO_WEIGHT = 8
+WEIGHT_OVERFLOW = 9
 
 
 def sentence(code: int, *, n: int, folds: int | str, coefficients: int, distinct: int) -> str | None:
@@ -33,6 +35,10 @@ def sentence(code: int, *, n: int, folds: int | str, coefficients: int, distinct
         return "an observation alone determines a coefficient, so leaving it out leaves the curve undefined"
     if code == NOT_POSITIVE:
         return "a log-log curve needs every price and volume above zero"
+    if code == NO_WEIGHT:
+        return "every observation of this series weighs zero, so there is nothing to fit"
+    if code == WEIGHT_OVERFLOW:
+        return "the weights are too large: weighted sums of squares overflow (scale the weights down)"
     raise ValueError(f"unknown reason code {code}")
 
 
