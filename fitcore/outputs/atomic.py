@@ -21,12 +21,12 @@ from typing import BinaryIO, Callable
 from ..errors import DataError
 
 _TAG = "pricefold"
-_HOST = re.sub(r"[^A-Za-z0-9_.]", "_", socket.gethostname())[:40] or "host"
+HOST = re.sub(r"[^A-Za-z0-9_.]", "_", socket.gethostname())[:40] or "host"
 
 
 def temp_path(path: Path) -> Path:
     """A fresh name beside ``path`` for this process's temporary copy (``remove_leftovers`` knows it)."""
-    return path.parent / f".{path.name[:120]}.{_TAG}-{_HOST}-{os.getpid()}-{secrets.token_hex(4)}.tmp"
+    return path.parent / f".{path.name[:120]}.{_TAG}-{HOST}-{os.getpid()}-{secrets.token_hex(4)}.tmp"
 
 
 def _alive(pid: int) -> bool:
@@ -43,7 +43,7 @@ def _alive(pid: int) -> bool:
 
 def remove_leftovers(path: Path) -> list[Path]:
     """Remove temporary files and folders that dead writers on this host left for ``path``; return them."""
-    pattern = re.compile(re.escape(f".{path.name[:120]}.{_TAG}-{_HOST}-") + r"(\d+)-[0-9a-f]+\.tmp$")
+    pattern = re.compile(re.escape(f".{path.name[:120]}.{_TAG}-{HOST}-") + r"(\d+)-[0-9a-f]+\.tmp$")
     removed = []
     try:
         entries = list(os.scandir(path.parent))
