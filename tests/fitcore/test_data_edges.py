@@ -105,3 +105,23 @@ def test_a_series_its_weights_leave_nothing_to_fit_gets_a_true_reason_and_a_stop
     assert few and few[0]["severity"] == "stop" and words in few[0]["message"]
     other = 1 - s
     assert results.chosen[other] >= 0 and not diagnosis.flagged("few-points")[other]
+
+
+def test_pyarrows_reader_is_handed_no_python_object(tmp_path, monkeypatch):
+    """A Python callback or file object held by pyarrow's reader threads was released after a failed read,
+    while the interpreter was exiting, and aborted the process (exit 134, about 1 run in 20 under load;
+    ``tests/hostile/repeat_exit.py`` counts it).  Native streams and no row handler leave nothing to release."""
+    from pyarrow import csv as arrow_csv
+    seen = []
+    real = arrow_csv.read_csv
+
+    def watch(source, parse_options=None, **kw):
+        seen.append((source, parse_options))
+        return real(source, parse_options=parse_options, **kw)
+
+    monkeypatch.setattr(arrow_csv, "read_csv", watch)
+    load_with_rejects(csv_file(tmp_path / "d.csv", [*ROWS, "a,2.5,lots,2025-02-01"]), Columns(date="week"))
+    load(csv_file(tmp_path / "e.csv", ROWS), Columns(date="week"))
+    assert len(seen) == 2
+    for source, options in seen:
+        assert isinstance(source, pa.NativeFile) and options.invalid_row_handler is None
