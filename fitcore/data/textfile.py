@@ -26,18 +26,24 @@ BLOCK = 1 << 24
 csv.field_size_limit(min(sys.maxsize, 2 ** 31 - 1))
 
 
-def check_file(path: Path) -> None:
-    """One clear error for a file that is missing, not a regular file or folder, unreadable, empty or not text."""
+def regular_or_folder(path: Path, expected: str) -> bool:
+    """Is ``path`` a folder (True) or a regular file (False)?  One line for anything else: missing,
+    unreadable, or a pipe or device that a read would block on.  ``expected``: e.g. "a data file"."""
     try:
         info = os.stat(path)
     except FileNotFoundError:
         raise DataError("file not found", path=str(path)) from None
     except OSError as exc:
         raise DataError(f"cannot read the file ({exc.strerror})", path=str(path)) from None
-    if stat.S_ISDIR(info.st_mode):
+    if not stat.S_ISDIR(info.st_mode) and not stat.S_ISREG(info.st_mode):
+        raise DataError(f"not a regular file (a pipe or a device); expected {expected}", path=str(path))
+    return stat.S_ISDIR(info.st_mode)
+
+
+def check_file(path: Path) -> None:
+    """One clear error for a file that is missing, not a regular file or folder, unreadable, empty or not text."""
+    if regular_or_folder(path, "a data file"):
         return
-    if not stat.S_ISREG(info.st_mode):
-        raise DataError("not a regular file (a pipe or a device); expected a data file", path=str(path))
     try:
         with open_bytes(path) as handle:
             head = handle.read(8192)

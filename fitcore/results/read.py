@@ -7,12 +7,11 @@ names what is missing or malformed in one line, so a damaged file is an error, n
 from __future__ import annotations
 
 import json
-import os
-import stat
 from collections.abc import Iterator
 from pathlib import Path
 
 from ..data.columns import is_parquet_name
+from ..data.textfile import regular_or_folder
 from ..errors import DataError
 from ..fit.results import SCHEMA
 from .checks import PARQUET_COLUMNS, check_header, check_series
@@ -33,17 +32,9 @@ def result_parts(path: str | Path) -> list[Path] | None:
 
 def _check_file(path: Path) -> None:
     """One line for a results path that is missing, a folder that is not a results folder, or not a file."""
-    try:
-        info = os.stat(path)
-    except FileNotFoundError:
-        raise DataError("file not found", path=str(path)) from None
-    except OSError as exc:
-        raise DataError(f"cannot read ({exc.strerror})", path=str(path)) from None
-    if stat.S_ISDIR(info.st_mode):
+    if regular_or_folder(path, "a results file"):
         raise DataError(f"is a folder without {RUN_SUMMARY}; expected a results file or a results folder",
                         path=str(path))
-    if not stat.S_ISREG(info.st_mode):
-        raise DataError("not a regular file (a pipe or a device); expected a results file", path=str(path))
 
 
 def read_results(path: str | Path) -> tuple[dict, list[dict]]:
