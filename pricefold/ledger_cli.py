@@ -1,23 +1,26 @@
-"""``pricefold ledger …``: verify, show, export and bulk-accept sign-offs."""
+"""``pricefold ledger …``: verify, show, export and bulk-accept sign-offs.
+
+Every command reads the ledger through ``fitcore.ledger.Ledger``, which verifies the chain as it
+reads.  ``export`` and ``accept-unflagged`` refuse a broken chain; ``show`` prints it after a
+warning; an interrupted tail (torn line, incomplete batch) is said once, never a refusal.
+"""
 from __future__ import annotations
 
-import csv
 import getpass
-import io
-import json
 import os
+import re
 import socket
 import sys
 from pathlib import Path
 
 from fitcore import ledger
-from fitcore.ledger.replay import replay, series_id
-from fitcore.results.read import results_in_parts
+from fitcore.ledger.replay import series_id
 from fitcore.text import clean
 
 from .show import key_text
 
 KEY_VARIABLE = "PRICEFOLD_LEDGER_KEY"
+HEAD = re.compile(r"(\d+):([0-9a-f]{64})")
 
 
 def ledger_key() -> bytes | None:
@@ -39,8 +42,11 @@ def add_parser(commands) -> None:
                                  description="The ledger records every sign-off decision, chained so that any "
                                              f"later edit is detected. Set {KEY_VARIABLE} to key the chain.")
     sub = parser.add_subparsers(dest="ledger_command", required=True, metavar="ACTION")
-    verify = sub.add_parser("verify", help="check the chain; exit 1 and one line per problem if it is broken")
+    verify = sub.add_parser("verify", help="check the chain and print its head; exit 1 and one line per problem "
+                                           "if it is broken")
     verify.add_argument("ledger", type=Path, metavar="LEDGER")
+    verify.add_argument("--head", metavar="SEQ:DIGEST", default=None,
+                        help="a head printed earlier: exit 1 unless the ledger still holds exactly that record")
     show = sub.add_parser("show", help="the decisions, oldest first")
     show.add_argument("ledger", type=Path, metavar="LEDGER")
     show.add_argument("--product", action="append", default=[], metavar="P", help="only this product (repeatable)")
@@ -48,101 +54,118 @@ def add_parser(commands) -> None:
     export.add_argument("ledger", type=Path, metavar="LEDGER")
     export.add_argument("--results", type=Path, required=True, metavar="RESULTS")
     export.add_argument("-o", "--output", type=Path, required=True, metavar="CSV")
+    export.add_argument("--raw", action="store_true",
+                        help="write text cells as they are (by default a text cell starting with = + - @, "
+                             "a tab or a carriage return gets a leading ' so spreadsheets do not run it)")
     bulk = sub.add_parser("accept-unflagged", help="accept the proposal for every series with no flag and no decision")
     bulk.add_argument("results", type=Path, metavar="RESULTS")
     bulk.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
     bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     bulk.add_argument("--note", default="", metavar="TEXT")
+    bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
 
 
 def run(args) -> int:
+    from .ledger_export import run_export
     return {"verify": run_verify, "show": run_show, "export": run_export,
             "accept-unflagged": run_accept_unflagged}[args.ledger_command](args)
 
 
+def open_ledger(path: Path, *, refuse: tuple[str, ...] = ()) -> ledger.Ledger:
+    """The ledger, read and verified.  A state in ``refuse`` (``broken``, ``unverifiable``) is an
+    error (exit 2, one line); otherwise a warning line on stderr first.  Interrupted tails are said
+    on stderr."""
+    book = ledger.Ledger(path, ledger_key())
+    if book.state in refuse:
+        why = ("the chain is broken" if book.state == ledger.BROKEN else
+               f"it cannot be verified without {KEY_VARIABLE}")
+        raise ledger.LedgerError(f"{path}: {book.problem}; {why}, so nothing was done "
+                                 "(see 'pricefold ledger verify')")
+    if book.state == ledger.BROKEN:
+        print(f"{path}: warning: the chain is broken at {book.problem}; shown as written, not verified",
+              file=sys.stderr)
+    elif book.state == ledger.UNVERIFIABLE:
+        print(f"{path}: warning: keyed records and no {KEY_VARIABLE}: read unverified, and nothing can be "
+              "recorded", file=sys.stderr)
+    for note in book.notes:
+        print(f"{path}: {note}", file=sys.stderr)
+    return book
+
+
 def run_verify(args) -> int:
-    problems = ledger.verify(args.ledger, ledger_key())
-    for problem in problems:
+    witness = None
+    if args.head is not None:
+        match = HEAD.fullmatch(args.head.strip())
+        if not match:
+            raise ledger.LedgerError(f"expected --head as SEQ:DIGEST (a number, a colon, 64 hex digits), "
+                                     f"got {clean(args.head)!r}")
+        witness = int(match[1]), match[2]
+    book = ledger.Ledger(args.ledger, ledger_key())
+    if not book.exists:
+        raise ledger.LedgerError(f"{args.ledger}: file not found")
+    for problem in book.problems or ([book.problem] if book.problem else []):
         print(f"{args.ledger}: {problem}")
-    if not problems:
-        records, _ = ledger.read(args.ledger)
-        kind = "keyed (HMAC-SHA-256)" if ledger_key() else "SHA-256"
-        print(f"{args.ledger}: intact, {len(records)} records, {kind} chain")
-    return 1 if problems else 0
+    if book.state != ledger.INTACT:
+        return 1
+    kind = "keyed (HMAC-SHA-256)" if ledger_key() else "SHA-256"
+    print(f"{args.ledger}: intact, {len(book.records)} records, {kind} chain")
+    for note in book.notes:
+        print(f"{args.ledger}: {note}")
+    print(f"head {book.head_text}")
+    if witness is None:
+        return 0
+    seq, digest = witness
+    if book.holds(seq, digest):
+        print(f"{args.ledger}: still holds the witnessed record {seq}:{digest[:12]}…")
+        return 0
+    last = book.head[0]
+    why = (f"it ends at seq {last}: records were removed from the end" if seq > last else
+           f"seq {seq} is now a different record ({book.records[seq - 1]['digest'][:12]}…)")
+    print(f"{args.ledger}: does not hold the witnessed record {seq}:{digest[:12]}…; {why}")
+    return 1
 
 
 def run_show(args) -> int:
-    records, problems = ledger.read(args.ledger)
-    for problem in problems:
-        print(f"{args.ledger}: {problem}", file=sys.stderr)
-    for r in records:
-        if args.product and next(iter(r["series"].values())) not in args.product:
+    book = open_ledger(args.ledger)
+    seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
+    for r in book.records:
+        if args.product and next(iter(r["series"].values()), None) not in args.product:
             continue
-        model = r.get("model") or ""
+        model = clean(r.get("model") or "")
         if r["action"] == "override":
-            model = f"{model} instead of {r.get('proposed')}"
+            model = f"{model} instead of {clean(r.get('proposed') or '')}"
+        elif r["action"] == "carry":
+            model = f"{model} from #{seqs.get(r.get('carries'), '?')}"
+        who = clean(r["analyst"])
+        if r.get("os_user") and r["os_user"] != r["analyst"]:
+            who = f"{who} ({clean(r['os_user'])})"
         note = f" — {clean(r['note'])}" if r.get("note") else ""
-        print(f"#{r['seq']:<5} {r['at']}  {clean(r['analyst']):<12} {r['action']:<8} {model:<22} "
+        print(f"#{r['seq']:<5} {clean(r['at'])}  {who:<12} {r['action']:<8} {model:<22} "
               f"{key_text(r['series'])}{note}")
     return 0
 
 
-def run_export(args) -> int:
-    from fitcore.outputs import check_outputs
-    from fitcore.results.read import results_inputs
-    header, parts = results_in_parts(args.results)
-    check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
-                                              *results_inputs(header)])
-    records, problems = ledger.read(args.ledger)
-    if problems:
-        print(f"{args.ledger}: {problems[0]} (exported from the whole records before it)", file=sys.stderr)
-    histories = replay(records)
-    buffer = io.StringIO()
-    writer = csv.writer(buffer, lineterminator="\n")
-    columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
-    writer.writerow([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
-                     "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi"])
-    count = 0
-    for record in (record for series in parts for record in series):
-        count += 1
-        history = histories.get(series_id(record["key"]))
-        status = history.status(record["fingerprint"]) if history else "pending"
-        current = history.current if history else None
-        model = current["model"] if current else record["chosen"]
-        cand = next((c for c in record["candidates"] if c["name"] == model), None)
-        plan = record.get("plan") or {}
-        same = model == record["chosen"]
-        writer.writerow([*record["key"].values(), status, model or "", cand["family"] if cand else "",
-                         json.dumps(cand["coef"]) if cand and cand["coef"] else "",
-                         current["analyst"] if current else "", current["at"] if current else "",
-                         current.get("note", "") if current else "", plan.get("price", ""),
-                         (plan.get("volume") if same else (cand or {}).get("plan_volume", "")) or "",
-                         plan.get("lo", "") if same else "", plan.get("hi", "") if same else ""])
-    _atomic_text(args.output, buffer.getvalue())
-    print(f"{count:,} series written to {args.output}", file=sys.stderr)
-    return 0
-
-
 def run_accept_unflagged(args) -> int:
+    from fitcore.results.read import results_in_parts
     header, parts = results_in_parts(args.results)
     digest = ledger.results_digest(header)
+    # What the results propose, read before taking the lock (a results folder can be large).
+    proposals = [(record["key"], record["fingerprint"], record["chosen"]) for part in parts for record in part
+                 if not record["flags"] and record["chosen"]]
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
 
-    def decide(records):
-        histories = replay(records)
-        for record in (record for series in parts for record in series):
-            if record["flags"] or not record["chosen"]:
-                continue
-            history = histories.get(series_id(record["key"]))
+    def decide(records):  # under the lock: book.histories is what the ledger holds now
+        for key, fingerprint, chosen in proposals:
+            history = book.histories.get(series_id(key))
             if history is not None and history.current is not None:
                 continue
-            yield ledger.Entry(series=record["key"], action="accept", fingerprint=record["fingerprint"],
-                               results=digest, model=record["chosen"], proposed=record["chosen"], note=args.note)
+            latest = history.latest if history is not None else None
+            yield ledger.Entry(series=key, action="accept", fingerprint=fingerprint, results=digest, model=chosen,
+                               proposed=chosen, note=args.note, supersedes=latest["digest"] if latest else None,
+                               flags=())
 
-    written = ledger.append(args.ledger, decide, identity(args.analyst), key=ledger_key())
-    print(f"accepted {len(written):,} unflagged series without a decision → {args.ledger}", file=sys.stderr)
+    written = book.append(decide, identity(args.analyst))
+    if not args.quiet:
+        print(f"accepted {len(written):,} unflagged series without a decision → {args.ledger}", file=sys.stderr)
+        print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0
-
-
-def _atomic_text(path: Path, text: str) -> None:
-    from fitcore.outputs import atomic_write
-    atomic_write(path, lambda handle: handle.write(text.encode("utf-8")))

@@ -7,7 +7,6 @@ once.  Pure Python and numpy, so it is tested without a terminal.
 """
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import numpy as np
@@ -16,7 +15,7 @@ from fitcore import ledger
 from fitcore.arrays import integers, texts
 from fitcore.data.keys import SeriesKeys
 from fitcore.fit.results import Results
-from fitcore.ledger.replay import SeriesHistory, apply, own_standing, series_id
+from fitcore.ledger.replay import SeriesHistory, own_standing, series_id
 from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale
 
 from .text import clean
@@ -44,9 +43,11 @@ class TriageSession:
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
         self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
         self._search: tuple[str, np.ndarray] | None = None
-        self.histories: dict[str, SeriesHistory] = {}
-        self._ledger_state: tuple[int, int] | None = None
-        self._offset = 0
+        self.book = ledger.Ledger(self.ledger_path, key)  # verified in full here, then only its new tail
+        self._applied, self._generation = 0, self.book.generation
+        if self.book.state != ledger.INTACT:
+            self.warnings.append(f"{self.ledger_path.name}: {self.book.state} ({self.book.problem}); "
+                                 "decisions cannot be recorded")
         self.status = np.array(["pending"] * data.n_series, dtype=object)
         self.status_code = np.zeros(data.n_series, dtype=np.int8)  # index into STATUSES, for fast masks and counts
         self.diagnosis = diagnosis
@@ -57,28 +58,23 @@ class TriageSession:
         self.reload_ledger(force=True)
 
     # -- the ledger ------------------------------------------------------------------------
+    @property
+    def histories(self) -> dict[str, SeriesHistory]:
+        return self.book.histories
+
     def reload_ledger(self, force: bool = False) -> bool:
         """Read decisions recorded since the last look (by anyone); True when something changed."""
-        try:
-            stat = os.stat(self.ledger_path)
-            state = (stat.st_size, stat.st_mtime_ns)
-        except FileNotFoundError:
-            state = (0, 0)
-        if not force and state == self._ledger_state:
-            return False
-        self._ledger_state = state
-        if state[0] < self._offset:  # the file shrank (a torn tail moved aside): start over
-            self.histories, self._offset = {}, 0
-        new = b""
-        if state[0] > self._offset:
-            with open(self.ledger_path, "rb") as handle:
-                handle.seek(self._offset)
-                new = handle.read(state[0] - self._offset)
-        whole = new[:new.rfind(b"\n") + 1]
-        self._offset += len(whole)
-        records, _ = ledger.parse(whole)
+        self.book.refresh(wait=False)  # never blocks the screen: a writer's lock means "next time"
+        return self._catch_up(force)
+
+    def _catch_up(self, force: bool = False) -> bool:
+        """Statuses for the records the ledger holds that this session has not applied yet."""
+        if self.book.generation != self._generation:  # the file was read again from the start
+            self._applied, self._generation, force = 0, self.book.generation, True
+            self.status[:], self.status_code[:] = "pending", 0
+        records = self.book.records[self._applied:]
+        self._applied = len(self.book.records)
         touched = {series_id(r["series"]): r["series"] for r in records}
-        apply(self.histories, records)
         new = [sid for sid in touched if sid not in self._known]
         for sid, s in zip(new, self.keys.indices_of([touched[sid] for sid in new])):
             self._known[sid] = int(s)
@@ -139,7 +135,7 @@ class TriageSession:
         return history.records if history else []
 
     def can_withdraw(self, s: int) -> bool:
-        return own_standing(self.histories.get(self._id(s)), self.who.analyst) is not None
+        return own_standing(self.histories.get(self._id(s)), self.who.analyst, self.who.os_user) is not None
 
     def record(self, s: int, action: str, model: str | None = None, note: str = "") -> None:
         """Append one decision on series ``s`` to the ledger (raises ``LedgerError`` with a one-line reason)."""
@@ -147,12 +143,17 @@ class TriageSession:
         proposed = self.results.names[chosen] if chosen >= 0 else None
         if action == "accept":
             model = proposed
+        latest = self.histories[self._id(s)].latest if self._id(s) in self.histories else None
+        flags = [code for i, code in enumerate(CODES) if self.base_diagnosis.raised[s, i]]  # from the results
         entry = ledger.Entry(series=self.keys.key_of(s), action=action,
                              fingerprint=self.results.data.fingerprint_of(s), results=self.results_digest,
-                             model=model, proposed=proposed, note=note)
-        ledger.append(self.ledger_path, [entry], self.who, key=self.key)
+                             model=model, proposed=proposed, note=note,
+                             supersedes=latest["digest"] if latest else None, flags=flags)
         self._known[self._id(s)] = s
-        self.reload_ledger()
+        try:
+            self.book.append([entry], self.who)
+        finally:  # a refused decision may still have read other analysts' records
+            self._catch_up()
 
     # -- the list --------------------------------------------------------------------------
     @property

@@ -4,12 +4,17 @@ from __future__ import annotations
 import json
 from dataclasses import dataclass, field
 
-STATUS_OF = {"accept": "accepted", "override": "overridden", "hold": "held"}
+from .records import SCHEMA
+
+STATUS_OF = {"accept": "accepted", "override": "overridden", "hold": "held", "carry": "accepted"}
+
+
+_CANONICAL = json.JSONEncoder(sort_keys=True, ensure_ascii=False, separators=(",", ":"))
 
 
 def series_id(key: dict) -> str:
-    """A stable text identity for a series key (canonical JSON)."""
-    return json.dumps(key, sort_keys=True, ensure_ascii=False, separators=(",", ":"))
+    """A stable text identity for a series key (canonical JSON; one encoder made once, not per call)."""
+    return _CANONICAL.encode(key)
 
 
 @dataclass
@@ -23,6 +28,11 @@ class SeriesHistory:
     def current(self) -> dict | None:
         return self.standing[-1] if self.standing else None
 
+    @property
+    def latest(self) -> dict | None:
+        """The series' latest record of any action (what a new decision ``supersedes``)."""
+        return self.records[-1] if self.records else None
+
     def status(self, fingerprint: str | None = None) -> str:
         """pending, accepted, overridden, held — or stale when the data changed since the decision."""
         current = self.current
@@ -35,28 +45,44 @@ class SeriesHistory:
 
 def replay(records: list[dict]) -> dict[str, SeriesHistory]:
     """series id → history.  The latest standing decision wins; ``revoke`` withdraws the
-    revoking analyst's own latest standing decision on that series; ``note`` changes nothing."""
+    revoker's own latest standing decision on that series; ``note`` changes nothing; a ``carry``
+    stands as an accept on the data it was carried to."""
     return apply({}, records)
 
 
 def apply(histories: dict[str, SeriesHistory], records: list[dict]) -> dict[str, SeriesHistory]:
     """Replay further ``records`` onto ``histories`` (in place); returns it."""
     for record in records:
-        history = histories.setdefault(series_id(record["series"]), SeriesHistory())
+        sid = series_id(record["series"])
+        history = histories.get(sid)
+        if history is None:
+            history = histories[sid] = SeriesHistory()
         history.records.append(record)
         action = record["action"]
         if action in STATUS_OF:
             history.standing.append(record)
         elif action == "revoke":
-            mine = [i for i, r in enumerate(history.standing) if r["analyst"] == record["analyst"]]
-            if mine:
-                history.standing.pop(mine[-1])
+            mine = _own_index(history.standing, record["analyst"], record.get("os_user"))
+            if mine is not None:
+                del history.standing[mine]
     return histories
 
 
-def own_standing(history: SeriesHistory | None, analyst: str) -> dict | None:
-    """The analyst's latest decision still standing on a series (what ``revoke`` would withdraw)."""
+def made_by(decision: dict, analyst: str, os_user: str | None) -> bool:
+    """Whether a decision is this person's: a /2 decision by its OS user, a /1 decision (which
+    predates the rule) by its display name, as /1 ledgers always replayed."""
+    if decision.get("schema") == SCHEMA and os_user is not None:
+        return decision.get("os_user") == os_user
+    return decision["analyst"] == analyst
+
+
+def own_standing(history: SeriesHistory | None, analyst: str, os_user: str | None = None) -> dict | None:
+    """The person's latest decision still standing on a series (what ``revoke`` would withdraw)."""
     if history is None:
         return None
-    mine = [r for r in history.standing if r["analyst"] == analyst]
-    return mine[-1] if mine else None
+    mine = _own_index(history.standing, analyst, os_user)
+    return None if mine is None else history.standing[mine]
+
+
+def _own_index(standing: list[dict], analyst: str, os_user: str | None) -> int | None:
+    return next((i for i in range(len(standing) - 1, -1, -1) if made_by(standing[i], analyst, os_user)), None)

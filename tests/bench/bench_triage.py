@@ -122,8 +122,8 @@ async def measure_triage(results_path: Path, folder: Path) -> None:
         for i in range(200):
             (moves if i % 4 else pages).append(await clock.press(pilot, "down" if i % 4 else "pagedown"))
             await asyncio.sleep(0.03)  # a fast typist; the charts catch up when the cursor rests
-        for _ in range(50):
-            decisions.append(await clock.press(pilot, "a"))
+        for _ in range(50):  # holds: an accept past a stop flag needs a note, and the list puts those first
+            decisions.append(await clock.press(pilot, "h"))
             await asyncio.sleep(0.03)
     every = moves + pages
     print(f"  opening the results as a session (in process): {opened:.2f} s")

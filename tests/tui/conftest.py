@@ -42,3 +42,11 @@ async def until(pilot, check, seconds: float = 8.0) -> None:
         if time.monotonic() > deadline:
             raise AssertionError("the screen did not get there in time")
         await pilot.pause(0.05)
+
+
+async def past_stop_flags(app, pilot) -> None:
+    """Put the cursor on the first listed series without a stop flag (accepted without a note)."""
+    session = app.session
+    session.cursor = next(i for i, s in enumerate(session.view) if session.severity(int(s)) != "stop")
+    app.screen.refresh_all()
+    await pilot.pause()

@@ -7,7 +7,7 @@ import threading
 from pathlib import Path
 
 from pricefold.cli import main
-from tests.tui.conftest import ANA, screen_text, until
+from tests.tui.conftest import ANA, past_stop_flags, screen_text, until
 from tui.app import TriageApp
 from tui.factory import open_stored_session, refit_stored, source_from_results
 from tui.screens.triage import TriageScreen
@@ -41,6 +41,7 @@ async def test_the_list_and_decisions_work_before_the_observations_arrive(tmp_pa
         await until(pilot, lambda: isinstance(app.screen, TriageScreen))
         await until(pilot, lambda: "reading the data" in screen_text(app))
         assert "• observed" not in screen_text(app)
+        await past_stop_flags(app, pilot)  # accepting past a stop flag needs a note: the ledger refuses it
         first = app.session.current
         fingerprint = app.session.results.data.fingerprint_of(first)
         await pilot.press("a")

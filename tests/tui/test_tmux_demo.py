@@ -37,7 +37,14 @@ def test_demo_in_tmux_records_an_accept(tmp_path):
 
         first = wait_for(screen, lambda text: "listed (needs attention" in text and "a accept" in text)
         assert "table salt 1 kg · South" in first
+        # Its stop flags make a plain accept a refusal (the ledger wants a note) ...
         subprocess.run([*tmux, "send-keys", "a"], check=True)
+        wait_for(screen, lambda text: "needs a note" in text)
+        subprocess.run([*tmux, "send-keys", "Escape"], check=True)
+        # ... so accept the first listed series without one (the list puts stop flags first).
+        series = json.loads((folder / "results.json").read_text())["series"]
+        stopped = sum(any(f["severity"] == "stop" for f in s["flags"]) for s in series)
+        subprocess.run([*tmux, "send-keys", *["Down"] * stopped, "a"], check=True)
         ledger = folder / "ledger.jsonl"
         wait_for(lambda: ledger.read_text() if ledger.exists() else "", lambda text: text.count("\n") == 1)
         after = wait_for(screen, lambda text: "accept recorded" in text or "listed" in text)
@@ -46,6 +53,8 @@ def test_demo_in_tmux_records_an_accept(tmp_path):
         wait_for(screen, lambda text: "EXITED rc=0" in text)
         [record] = [json.loads(line) for line in ledger.read_text().splitlines()]
         assert record["action"] == "accept" and record["analyst"] == "tmuxer"
+        signed = next(s for s in series if s["key"] == record["series"])
+        assert record["flags"] == [f["code"] for f in signed["flags"]] and signed["flags"]  # a warn flag, recorded
         assert (folder / "results.json").exists()
     finally:
         subprocess.run([*tmux, "kill-server"], capture_output=True)

@@ -1,0 +1,136 @@
+"""The ledger's file: opened only when it is a regular file, locked, and its interrupted tail set aside.
+
+The file type is checked before opening (opening a FIFO for reading waits for a writer) and
+again on the open descriptor.  Files are created with mode 0666 less the umask, like any file
+the user makes.
+"""
+from __future__ import annotations
+
+import errno
+import fcntl
+import glob
+import os
+import stat
+from datetime import datetime
+from pathlib import Path
+
+from .records import LedgerError
+
+KINDS = ((stat.S_ISDIR, "a folder"), (stat.S_ISFIFO, "a FIFO (named pipe)"), (stat.S_ISSOCK, "a socket"),
+         (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"))
+MODE = 0o666  # less the umask
+
+
+def check_regular(path: Path, status: os.stat_result) -> None:
+    if not stat.S_ISREG(status.st_mode):
+        kind = next((words for test, words in KINDS if test(status.st_mode)), "not a regular file")
+        raise LedgerError(f"{path}: expected a ledger file, found {kind}")
+
+
+def status_of(path: Path) -> os.stat_result | None:
+    """The file's status (symlinks followed), None when there is no file; a non-regular file is an error."""
+    try:
+        status = os.stat(path)
+    except FileNotFoundError:
+        return None
+    except OSError as exc:
+        raise LedgerError(f"{path}: cannot read the ledger ({exc.strerror})") from None
+    check_regular(path, status)
+    return status
+
+
+def open_ledger(path: Path, *, write: bool) -> int:
+    """A descriptor on the ledger (created when writing); non-blocking open, so a FIFO swapped in
+    after the check cannot hang it, and checked again once open."""
+    status_of(path)
+    flags = (os.O_RDWR | os.O_CREAT | os.O_APPEND if write else os.O_RDONLY) | os.O_NONBLOCK | os.O_CLOEXEC
+    try:
+        fd = os.open(path, flags, MODE)
+    except OSError as exc:
+        doing = "open the ledger for writing" if write else "read the ledger"
+        raise LedgerError(f"{path}: cannot {doing} ({exc.strerror})") from None
+    try:
+        check_regular(path, os.fstat(fd))
+    except LedgerError:
+        os.close(fd)
+        raise
+    return fd
+
+
+def lock(fd: int, kind: int, wait: bool = True) -> bool:
+    """Take a ``flock`` of ``kind``; False when ``wait`` is off and another process holds a clashing lock."""
+    try:
+        fcntl.flock(fd, kind | (0 if wait else fcntl.LOCK_NB))
+        return True
+    except BlockingIOError:
+        return False
+
+
+def read_from(fd: int, path: Path, start: int) -> bytes:
+    chunks, offset = [], start
+    try:
+        while chunk := os.pread(fd, 1 << 24, offset):
+            chunks.append(chunk)
+            offset += len(chunk)
+    except OSError as exc:
+        raise LedgerError(f"{path}: cannot read the ledger ({exc.strerror})") from None
+    return b"".join(chunks)
+
+
+def set_aside(fd: int, path: Path, keep: int, moment: datetime) -> Path:
+    """Move the bytes after ``keep`` (a torn line, an incomplete batch) to ``<ledger>.torn-<UTC time>``
+    beside the real file, then cut them from the ledger.  The side file is written under a temporary
+    name and renamed once whole, so it always holds a whole tail; if it cannot be written (disk full,
+    folder not writable) nothing changes and nothing is left behind.  Called under the exclusive
+    lock, so a temporary side file found then is a killed writer's: it is removed."""
+    real = Path(os.path.realpath(path))
+    name = f"{real.name}.torn-{moment.strftime('%Y%m%dT%H%M%S%fZ')}"
+    side, temp = real.with_name(name), real.with_name(f".{name}.{os.getpid()}.tmp")
+    for stale in real.parent.glob(f".{glob.escape(real.name)}.torn-*.tmp"):
+        _remove(stale)
+    tail = read_from(fd, path, keep)
+    made = None
+    try:
+        side_fd = os.open(temp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | os.O_CLOEXEC, MODE)
+        made = temp
+        try:
+            view = memoryview(tail)
+            while view:
+                view = view[os.write(side_fd, view):]
+            os.fsync(side_fd)
+        finally:
+            os.close(side_fd)
+        os.rename(temp, side)
+        made = side
+        os.ftruncate(fd, keep)
+        os.fsync(fd)
+    except OSError as exc:
+        if made is not None:
+            _remove(made)
+        reason = "the disk is full" if exc.errno in (errno.ENOSPC, errno.EDQUOT) else exc.strerror
+        raise LedgerError(f"{path}: cannot set aside the interrupted tail ({len(tail)} bytes) beside it "
+                          f"({reason}); nothing was recorded") from None
+    return side
+
+
+def _remove(path: Path) -> None:
+    try:
+        os.unlink(path)
+    except OSError:
+        pass
+
+
+def write_all(fd: int, path: Path, size: int, payload: bytes) -> None:
+    """Write ``payload`` at the end and fsync; on failure cut back whatever part landed."""
+    try:
+        view = memoryview(payload)
+        while view:
+            view = view[os.write(fd, view):]
+        os.fsync(fd)
+    except OSError as exc:
+        try:  # earlier records stay as they were
+            os.ftruncate(fd, size)
+            os.fsync(fd)
+        except OSError:
+            pass
+        raise LedgerError(f"{path}: the decision was not recorded ({exc.strerror}); earlier records are intact") from None

@@ -1,0 +1,273 @@
+"""``Ledger``: a ledger file read and verified as it is read — in full once, then only the new tail.
+
+Readers take whole records freely (a record is final once its line and, for a multi-record
+append, its whole batch are written) and judge the rest of the file — a torn last line or an
+incomplete last batch, an interrupted append — under a shared lock, so a live append is never
+mistaken for a crash.  States:
+
+- ``intact``: every record verified;
+- ``broken``: a record is missing, edited, inserted, moved, or not a record (``problem`` names the
+  line); a broken ledger is read once, stays as read, and takes no appends;
+- ``unverifiable``: keyed records read without the key; readable, but takes no appends.
+
+An interrupted tail is not a broken chain: it is left out (``notes`` says so) and the next append
+moves it to a side file.  Appends (``append``) run through the same reader under the exclusive lock.
+"""
+from __future__ import annotations
+
+import fcntl
+import gc
+import json
+import os
+from collections.abc import Callable, Iterable
+from contextlib import contextmanager
+from datetime import datetime
+from pathlib import Path
+
+from . import files
+from .chain import ChainState, check
+from .records import GENESIS, Entry, Identity, Problem
+from .replay import SeriesHistory, apply
+
+INTACT, BROKEN, UNVERIFIABLE = "intact", "broken", "unverifiable"
+
+
+class Ledger:
+    """The verified records of one ledger file and their replay into each series' history.
+
+    ``records`` holds every well-formed record in file order (for a broken ledger, those after the
+    break too, so they can be shown); ``histories`` replays them.  ``refresh()`` reads what was
+    appended since; ``generation`` changes when the file had to be read again from the start.
+    """
+
+    def __init__(self, path: str | Path, key: bytes | None = None, *, wait: bool = True) -> None:
+        self.path, self.key = Path(path), key or None
+        self.generation = 0
+        self._reset()
+        self.refresh(wait=wait)
+
+    def _reset(self) -> None:
+        self.records: list[dict] = []
+        self.histories: dict[str, SeriesHistory] = {}
+        self.problems: list[Problem] = []
+        self.notes: list[Problem] = []
+        self.exists = False
+        self._chain = ChainState()
+        self._unverifiable: Problem | None = None
+        self._offset = self._line = 0
+        self._last_raw = b""
+        self._identity: tuple[int, int] | None = None
+        self._seen: tuple | None = None
+
+    # -- what is known ------------------------------------------------------------------------
+    @property
+    def state(self) -> str:
+        return BROKEN if self.problems else UNVERIFIABLE if self._unverifiable else INTACT
+
+    @property
+    def problem(self) -> Problem | None:
+        """The first problem (broken), or why the records cannot be verified (unverifiable)."""
+        return self.problems[0] if self.problems else self._unverifiable
+
+    @property
+    def head(self) -> tuple[int, str]:
+        """``(seq, digest)`` of the last whole record; ``(0, GENESIS)`` for an empty ledger."""
+        return (self._chain.seq, self._chain.prev) if self.records else (0, GENESIS)
+
+    @property
+    def head_text(self) -> str:
+        seq, digest = self.head
+        return f"{seq}:{digest}"
+
+    def holds(self, seq: int, digest: str) -> bool:
+        """Whether the record at ``seq`` is still the one with ``digest`` (the head witness)."""
+        if seq == 0:
+            return digest == GENESIS
+        return 0 < seq <= len(self.records) and self.records[seq - 1].get("seq") == seq \
+            and self.records[seq - 1].get("digest") == digest
+
+    # -- reading ------------------------------------------------------------------------------
+    def refresh(self, wait: bool = True) -> list[dict]:
+        """Read and verify what was appended since the last look; returns the new records.
+
+        With ``wait`` off (a screen's poll) it never blocks: when a writer holds the lock it takes
+        only the whole records already there and leaves the tail for the next look.
+        """
+        if self.problems:
+            return []
+        status = files.status_of(self.path)
+        if status is None:
+            if self.records:
+                self._vanished("the ledger file is gone")
+            self.exists, self.notes = False, []
+            return []
+        seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
+        if seen == self._seen:
+            return []
+        fd = files.open_ledger(self.path, write=False)
+        try:
+            new = self._read(fd, judge=False)
+            if files.lock(fd, fcntl.LOCK_SH, wait):
+                new += self._read(fd, judge=True)
+        finally:
+            os.close(fd)  # closing releases the lock
+        return new
+
+    def _read(self, fd: int, judge: bool) -> list[dict]:
+        """Take the whole records after the last one read; ``judge``: the caller holds a lock, so
+        whatever follows them is an interrupted append (noted), not one still being written."""
+        status = os.fstat(fd)
+        self.exists = True
+        identity = (status.st_dev, status.st_ino)
+        if self._identity not in (None, identity) or status.st_size < self._offset or not self._same_last(fd):
+            return self._start_over(fd) if judge else []  # rewritten: judged only under the lock
+        self._identity = identity
+        new = self._consume(files.read_from(fd, self.path, self._offset), judge)
+        if judge:
+            self._seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
+        return new
+
+    def _same_last(self, fd: int) -> bool:
+        """The last record read is still where it was (else the file was rewritten: read it all again)."""
+        if not self._offset:
+            return True
+        size = len(self._last_raw) + 1
+        return os.pread(fd, size, self._offset - size) == self._last_raw + b"\n"
+
+    def _start_over(self, fd: int) -> list[dict]:
+        seq, digest = self.head
+        self._reset()
+        self.generation += 1
+        new = self._read(fd, judge=True)
+        if seq and not self.problems and not self.holds(seq, digest):
+            self._vanished(f"records read earlier are gone: seq {seq} ({digest[:12]}…) is no longer in it")
+        return new
+
+    def _vanished(self, message: str) -> None:
+        self.problems.append(Problem(self._line + 1, f"{message} (records were removed or the file replaced)"))
+
+    def _consume(self, data: bytes, judge: bool) -> list[dict]:
+        """Verify the whole lines of ``data`` (the file from ``_offset`` on) and take whole units: a
+        record outside any batch, or a batch once its last record is read."""
+        with collector_paused():
+            return self._verify_lines(data, judge)
+
+    def _verify_lines(self, data: bytes, judge: bool) -> list[dict]:
+        """Without ``judge`` (no lock held) a problem is not believed: a writer setting an interrupted
+        tail aside may change the bytes being read.  The unit is left for a read under the lock."""
+        start, end = self._offset, data.rfind(b"\n") + 1
+        new: list[dict] = []
+        unit: list[dict] = []
+        before = (self._chain.copy(), self._line, self._unverifiable)
+        position, doubt = start, False
+        for raw, record in parsed_lines(data, end):
+            self._line += 1
+            position += len(raw) + 1
+            if record is None:
+                problems, unverifiable, well_formed = ["not a valid JSON record"], False, False
+            else:
+                problems, unverifiable, well_formed = check(self._chain, record, raw, self.key)
+            if problems and not judge:
+                doubt = True
+                break
+            self.problems += [Problem(self._line, message) for message in problems]
+            if unverifiable and self._unverifiable is None:
+                self._unverifiable = Problem(self._line, "keyed digest: set PRICEFOLD_LEDGER_KEY to verify it")
+            if well_formed:
+                unit.append(record)
+            if self._chain.batch is None or self.problems:
+                new += self._take(unit, position, raw)
+                unit, before = [], (self._chain.copy(), self._line, self._unverifiable)
+        lines_read = self._line
+        if unit or doubt:  # an incomplete batch (counted once whole), or a doubt left for the locked read
+            self._chain, self._line, self._unverifiable = before
+        if judge:
+            self.notes = self._tail_notes(unit, data[end:], lines_read)
+        return new
+
+    def _take(self, unit: list[dict], position: int, raw: bytes) -> list[dict]:
+        self.records += unit
+        apply(self.histories, unit)
+        self._offset, self._last_raw = position, raw
+        return unit
+
+    def _tail_notes(self, unit: list[dict], torn: bytes, lines_read: int) -> list[Problem]:
+        notes = []
+        if unit:
+            size = unit[0]["batch"]["size"]
+            notes.append(Problem(self._line + 1, f"incomplete batch ({len(unit)} of {size} records, lines "
+                                                 f"{self._line + 1}–{self._line + len(unit)}: an interrupted "
+                                                 "append), not counted; the next append moves it to a side file"))
+        if torn:
+            notes.append(Problem(lines_read + 1, f"torn last line ({len(torn)} bytes, an interrupted write); "
+                                                 "the next append moves it to a side file"))
+        return notes
+
+    # -- appending ----------------------------------------------------------------------------
+    def append(self, entries: Iterable[Entry] | Callable[[list[dict]], Iterable[Entry]], who: Identity, *,
+               now: Callable[[], datetime] | None = None) -> list[dict]:
+        """Record ``entries`` (or what a function of the records read under the lock returns) as one
+        append: checked against the rules, whole or not at all.  See ``writer.append``."""
+        from .writer import append
+        return append(self, entries, who, now=now)
+
+    def read_locked(self, fd: int) -> None:
+        """Catch up under the writer's exclusive lock (on the writer's own descriptor)."""
+        if not self.problems:
+            self._read(fd, judge=True)
+
+    @property
+    def tail_start(self) -> int:
+        """Where the whole records end: what follows is an interrupted append."""
+        return self._offset
+
+    def take_written(self, fd: int) -> list[dict]:
+        """Read back what this process just appended (still under its lock)."""
+        return self._read(fd, judge=True)
+
+
+@contextmanager
+def collector_paused():
+    """No cyclic garbage collection while records are made: they hold no cycles, and reading a
+    100k-record ledger otherwise triggers hundreds of collections (a third of the time)."""
+    paused = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if paused:
+            gc.enable()
+
+
+def parsed_lines(data: bytes, end: int, chunk: int = 1 << 22):
+    """``(line, record)`` for the whole lines of ``data[:end]``, parsed ~4 MiB at a time (so a large
+    ledger is never held as bytes, lines and one joined array at once)."""
+    position = 0
+    while position < end:
+        cut = data.rfind(b"\n", position, min(position + chunk, end)) + 1 or data.find(b"\n", position) + 1
+        lines = data[position:cut].split(b"\n")[:-1]
+        yield from zip(lines, parse_lines(lines))
+        position = cut
+
+
+def parse_lines(lines: list[bytes]) -> list[dict | None]:
+    """Each line's JSON object, None where a line is not one.
+
+    Parsed as one JSON array when every line is well formed (keys shared across records, and
+    about twice as fast as a parse per line); line by line otherwise.
+    """
+    try:
+        values = json.loads(b"[" + b",".join(lines) + b"]") if lines else []
+        if len(values) == len(lines) and all(type(v) is dict for v in values):
+            return values
+    except ValueError:
+        pass
+    return [_parse_one(line) for line in lines]
+
+
+def _parse_one(line: bytes) -> dict | None:
+    try:
+        value = json.loads(line)
+    except ValueError:
+        return None
+    return value if type(value) is dict else None

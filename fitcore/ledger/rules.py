@@ -1,0 +1,94 @@
+"""The rules every append obeys, checked under the exclusive lock against what the ledger holds
+then (so no path — screen, command, script — can skip them).  Pure: histories in, error out.
+
+- an override needs a note and a model (``records.check_entry``);
+- an accept whose ``flags`` include a stop flag (other than ``stale``) needs a note;
+- an accept on a series whose standing decision is already an accept (or a carry) on the same
+  data fingerprint is refused: there is nothing to add;
+- ``revoke`` withdraws one's own standing decision — a /2 decision only by the OS user who made
+  it, a /1 decision by its display name — and is refused when there is none;
+- ``supersedes`` must still be the series' latest record (else ``LedgerConflict``);
+- at most one ``carry`` per series and data fingerprint, and it must name an accept or override
+  of that series;
+- one append holds at most one record per series (a second could not name the first's digest).
+"""
+from __future__ import annotations
+
+from ..text import clean
+from .records import Entry, Identity, LedgerConflict, LedgerError, check_entry
+from .replay import SeriesHistory, own_standing, series_id
+
+DONE = {"accept": "accepted {model}", "override": "overrode the proposal with {model}", "hold": "held",
+        "note": "added a note", "revoke": "withdrew a decision", "carry": "carried {model} forward"}
+
+
+def check_alone(entries: list[Entry]) -> None:
+    """The rules an append's entries must meet whatever the ledger holds (checked before the
+    file is even opened, so a refused first decision leaves no file behind)."""
+    stops = _stop_codes()
+    seen: set[str] = set()
+    for entry in entries:
+        check_entry(entry)
+        sid = series_id(entry.series)
+        if sid in seen:
+            raise LedgerError(f"{label(entry.series)}: one append records at most one decision per series")
+        seen.add(sid)
+        flagged = [code for code in entry.flags if code in stops]
+        if entry.action == "accept" and flagged and not entry.note.strip():
+            raise LedgerError(f"{label(entry.series)}: accepting past a stop flag ({', '.join(flagged)}) "
+                              "needs a note saying why")
+
+
+def check_against(entries: list[Entry], histories: dict[str, SeriesHistory], who: Identity) -> None:
+    """The rules that depend on what the ledger holds now (under the lock).  Raises ``LedgerError``
+    (``LedgerConflict`` for a stale ``supersedes``) for the first entry it must refuse."""
+    for entry in entries:
+        history = histories.get(series_id(entry.series))
+        latest = history.latest if history else None
+        if entry.supersedes != (latest["digest"] if latest else None):
+            raise LedgerConflict(f"{what_happened(latest)}; look again" if latest else
+                                 f"{label(entry.series)}: the record this decision follows is not in the ledger; "
+                                 "look again", latest)
+        _check_action(entry, history, who)
+
+
+def _check_action(entry: Entry, history: SeriesHistory | None, who: Identity) -> None:
+    current = history.current if history else None
+    if entry.action == "accept":
+        if current and current["action"] in ("accept", "carry") and current["fingerprint"] == entry.fingerprint:
+            raise LedgerError(f"{label(entry.series)}: already accepted on this data "
+                              f"({what_happened(current)}); nothing to add")
+    elif entry.action == "revoke" and own_standing(history, who.analyst, who.os_user) is None:
+        whose = f"; the standing decision is {_person(current)}'s" if current else ""
+        raise LedgerError(f"{label(entry.series)}: no decision of yours ({clean(who.os_user)}) stands "
+                          f"to withdraw{whose}")
+    elif entry.action == "carry":
+        records = history.records if history else []
+        done = next((r for r in records if r["action"] == "carry" and r["fingerprint"] == entry.fingerprint), None)
+        if done is not None:
+            raise LedgerError(f"{label(entry.series)}: already carried to this data ({what_happened(done)})")
+        if not any(r["digest"] == entry.carries and r["action"] in ("accept", "override") for r in records):
+            raise LedgerError(f"{label(entry.series)}: a carry must name an accept or override of this series; "
+                              f"{entry.carries[:12]}… is not one")
+
+
+def what_happened(record: dict) -> str:
+    """One clause for a record: "ana accepted poly1 at 14:02:11 UTC"."""
+    done = DONE.get(record["action"], record["action"]).format(model=clean(str(record.get("model"))))
+    at = record["at"][11:19] if len(record["at"]) >= 19 else record["at"]
+    return f"{_person(record)} {done} at {clean(at)} UTC"
+
+
+def label(key: dict) -> str:
+    return clean(" · ".join(str(value) for value in key.values()))
+
+
+def _person(record: dict) -> str:
+    name, user = clean(record["analyst"]), clean(record.get("os_user") or "")
+    return name if not user or user == name else f"{name} ({user})"
+
+
+def _stop_codes() -> set[str]:
+    from ..review.flags import SEVERITY  # numpy and the fit: only appends pay for the import
+    # "stale" comes from the ledger itself, not the results: a stale series is re-signed normally.
+    return {code for code, severity in SEVERITY.items() if severity == "stop"} - {"stale"}

@@ -1,0 +1,70 @@
+"""Appending decisions: under an exclusive ``flock``, catch up on the tail, check the rules, set an
+interrupted tail aside, write every record of the append in one go, fsync.
+
+A multi-record append carries ``batch`` markers (one id, index 1..N, size N) on every record, so
+a writer killed half-way leaves an incomplete batch that readers leave out and the next append
+moves, whole, to ``<ledger>.torn-<UTC time>`` beside the real file (as it does a torn line).  A
+failed write is cut back off, so nothing recorded earlier is ever touched.
+"""
+from __future__ import annotations
+
+import fcntl
+import os
+import uuid
+from collections.abc import Callable, Iterable
+from datetime import datetime, timezone
+from typing import TYPE_CHECKING
+
+from . import files
+from .records import Entry, Identity, LedgerError, new_record
+from .rules import check_against, check_alone
+
+if TYPE_CHECKING:
+    from .reader import Ledger
+
+
+def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Iterable[Entry]], who: Identity, *,
+           now: Callable[[], datetime] | None = None) -> list[dict]:
+    """Append to ``book``'s file; returns the records written (and ``book`` has read them).
+
+    ``entries`` may be a function of the ledger's records (``book.histories`` is current when it
+    is called): it runs under the lock, so a decision that depends on what is recorded (accept
+    everything not yet decided) is made atomically.  Raises ``LedgerError`` — and writes nothing —
+    when the chain is broken or unverifiable or an entry breaks a rule.
+    """
+    clock = now or (lambda: datetime.now(timezone.utc))
+    path = book.path
+    if not callable(entries):
+        entries = list(entries)
+        check_alone(entries)
+    fd = files.open_ledger(path, write=True)
+    try:
+        files.lock(fd, fcntl.LOCK_EX)
+        book.read_locked(fd)
+        if book.state != "intact":
+            refuse = "the chain is broken" if book.problems else "the records cannot be verified without the key"
+            raise LedgerError(f"{path}: {book.problem}; nothing was recorded ({refuse})")
+        if callable(entries):
+            entries = list(entries(book.records))
+            check_alone(entries)
+        check_against(entries, book.histories, who)
+        if not entries:
+            return []
+        if os.fstat(fd).st_size > book.tail_start:
+            files.set_aside(fd, path, book.tail_start, clock())
+        batch = uuid.uuid4().hex if len(entries) > 1 else None
+        seq, prev = book.head
+        lines = []
+        for index, entry in enumerate(entries, start=1):
+            marker = {"id": batch, "index": index, "size": len(entries)} if batch else None
+            record, line = new_record(entry, who, seq + index, stamp(clock()), prev, marker, book.key)
+            prev = record["digest"]
+            lines.append(line)
+        files.write_all(fd, path, book.tail_start, b"".join(lines))
+        return book.take_written(fd)
+    finally:
+        os.close(fd)  # closing releases the lock
+
+
+def stamp(moment: datetime) -> str:
+    return moment.astimezone(timezone.utc).isoformat(timespec="milliseconds").replace("+00:00", "Z")

@@ -1,0 +1,93 @@
+"""``pricefold ledger export``: formula-like text made inert, the head witness on every row, file modes."""
+from __future__ import annotations
+
+import csv
+import json
+import os
+
+import numpy as np
+import pytest
+
+from fitcore import ledger
+from pricefold.cli import main
+
+# Invented products whose names a spreadsheet would run as formulas (OWASP's CSV-injection list:
+# cells starting with =, +, -, @, tab, carriage return), and one harmless name.
+RISKY = ["=SUM(A1:A9)", "+1 tin", "-5 kg bag", "@home pack", "\tsoap", "\rlime"]
+NAMES = [*RISKY, "plain pears"]
+NOTE = '=HYPERLINK("http://example.invalid","ok")'
+
+
+@pytest.fixture(scope="module")
+def signed(tmp_path_factory):
+    """Results for the invented products and a ledger accepting each, by "@ana" with a formula note."""
+    folder = tmp_path_factory.mktemp("export")
+    rng = np.random.default_rng(3)
+    rows = ["product,@region,price,volume"]
+    for name in NAMES:
+        for price in rng.uniform(1.0, 3.0, 30):
+            volume = 1000 - 200 * price + rng.normal(0, 10)
+            quoted = '"' + name.replace('"', '""') + '"'
+            rows.append(f"{quoted},North,{price:.2f},{volume:.1f}")
+    data = folder / "data.csv"
+    data.write_text("\n".join(rows) + "\n", newline="")
+    results = folder / "results.json"
+    assert main(["fit", str(data), "--segment", "@region", "-o", str(results), "--quiet"]) == 0
+    document = json.loads(results.read_text())
+    path = folder / "ledger.jsonl"
+    entries = [ledger.Entry(series=s["key"], action="accept", fingerprint=s["fingerprint"],
+                            results=ledger.results_digest(document), model=s["chosen"], proposed=s["chosen"],
+                            note=NOTE, flags=[f["code"] for f in s["flags"]]) for s in document["series"]]
+    ledger.append(path, entries, ledger.Identity("@ana", "ana", "h"))
+    return results, path
+
+
+def export(results, path, out, *extra):
+    assert main(["ledger", "export", str(path), "--results", str(results), "-o", str(out), *extra]) == 0
+    with out.open(newline="", encoding="utf-8") as handle:
+        return list(csv.reader(handle))
+
+
+def test_text_cells_that_look_like_formulas_get_a_leading_quote(tmp_path, signed):
+    results, path = signed
+    header, *rows = export(results, path, tmp_path / "out.csv")
+    assert header[:2] == ["product", "'@region"] and header[-1] == "ledger_head"
+    assert sorted(row[0] for row in rows) == sorted(["'" + name for name in RISKY] + ["plain pears"])
+    column = {name: i for i, name in enumerate(header)}
+    for row in rows:
+        assert row[column["status"]] == "accepted"
+        assert row[column["analyst"]] == "'@ana" and row[column["note"]] == "'" + NOTE
+        assert not row[column["coef"]].startswith("'") and json.loads(row[column["coef"]])  # numbers untouched
+        assert row[column["at"]][0].isdigit()
+
+
+def test_raw_writes_text_cells_as_they_are(tmp_path, signed):
+    results, path = signed
+    header, *rows = export(results, path, tmp_path / "raw.csv", "--raw")
+    assert header[1] == "@region" and sorted(row[0] for row in rows) == sorted(NAMES)
+    assert {row[header.index("note")] for row in rows} == {NOTE}
+
+
+def test_every_row_carries_the_ledger_head(tmp_path, signed, capsys):
+    results, path = signed
+    header, *rows = export(results, path, tmp_path / "out.csv")
+    head = ledger.Ledger(path).head_text
+    assert {row[header.index("ledger_head")] for row in rows} == {head} and head.startswith(f"{len(NAMES)}:")
+    assert f"(ledger head {head})" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("umask, existing, expected", [(0o022, None, 0o644), (0o077, None, 0o600),
+                                                       (0o022, 0o640, 0o640), (0o002, 0o664, 0o664)])
+def test_export_files_respect_the_umask_and_keep_an_existing_mode(tmp_path, signed, umask, existing, expected):
+    results, path = signed
+    out = tmp_path / "out.csv"
+    if existing is not None:
+        out.write_text("earlier\n")
+        out.chmod(existing)
+    old = os.umask(umask)
+    try:
+        export(results, path, out)
+    finally:
+        os.umask(old)
+    assert out.stat().st_mode & 0o777 == expected
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out.csv"]  # no temporary left behind

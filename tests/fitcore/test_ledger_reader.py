@@ -1,0 +1,244 @@
+"""``Ledger``, the reader that verifies as it reads: tails, interrupted appends, locks, odd files."""
+from __future__ import annotations
+
+import errno
+import fcntl
+import multiprocessing
+import os
+import signal
+import socket
+import threading
+import time
+from collections import Counter
+
+import pytest
+
+from fitcore import ledger
+from fitcore.ledger import files
+from tests.fitcore.ledger_support import ANA, BO, entry, lines
+
+
+@pytest.fixture
+def alarm():
+    """Fail instead of hanging: a FIFO opened for reading waits for a writer forever."""
+    def expired(signum, frame):
+        raise TimeoutError("the reader hung")
+    old = signal.signal(signal.SIGALRM, expired)
+    signal.alarm(10)
+    yield
+    signal.alarm(0)
+    signal.signal(signal.SIGALRM, old)
+
+
+def test_a_missing_ledger_is_empty_and_intact_until_it_appears(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    book = ledger.Ledger(path)
+    assert (book.exists, book.state, book.records, book.head_text) == (False, "intact", [], f"0:{'0' * 64}")
+    ledger.append(path, [entry("a")], ANA)
+    assert [r["series"]["product"] for r in book.refresh()] == ["a"] and book.exists
+
+
+def test_refresh_reads_and_verifies_only_the_new_tail(tmp_path, monkeypatch):
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry(f"p{i}") for i in range(50)], ANA)
+    book = ledger.Ledger(path)
+    size = path.stat().st_size
+    starts = []
+    real = files.read_from
+    monkeypatch.setattr(files, "read_from", lambda fd, p, start: starts.append(start) or real(fd, p, start))
+    assert book.refresh() == []  # nothing new: not even opened
+    assert starts == []
+    ledger.append(path, [entry("late")], BO)
+    starts.clear()
+    [new] = book.refresh()
+    assert new["series"] == {"product": "late"} and new["seq"] == 51 and book.head == (51, new["digest"])
+    assert starts and min(starts) == size  # read from where the last look ended, never from the start
+
+
+def write_partial_batch(path, count, of, torn=b""):
+    """What a writer killed inside a batch leaves: ``count`` of its ``of`` lines, maybe a torn one."""
+    scratch = path.with_name("scratch.jsonl")
+    scratch.write_bytes(path.read_bytes())
+    ledger.append(scratch, [entry(f"b{i}") for i in range(of)], BO)
+    new = lines(scratch)[len(lines(path)):]
+    tail = b"".join(new[:count]) + torn
+    path.write_bytes(path.read_bytes() + tail)
+    return tail
+
+
+def test_an_incomplete_last_batch_is_left_out_then_set_aside_whole(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a")], ANA)
+    tail = write_partial_batch(path, 3, 5, torn=b'{"schema":"pricefold-led')
+    book = ledger.Ledger(path)
+    assert book.state == "intact" and [r["seq"] for r in book.records] == [1]  # none of the 3 is counted
+    assert [n.line for n in book.notes] == [2, 5]
+    assert "incomplete batch (3 of 5 records, lines 2–4" in book.notes[0].message
+    assert "torn last line" in book.notes[1].message
+    [written] = book.append([entry("c")], ANA)
+    assert written["seq"] == 2 and ledger.Ledger(path).notes == []
+    [side] = tmp_path.glob("ledger.jsonl.torn-*")
+    assert side.read_bytes() == tail  # the whole interrupted append, in one side file
+    assert not list(tmp_path.glob(".ledger.jsonl.torn-*"))  # no temporary left
+
+
+def test_an_incomplete_batch_followed_by_other_records_is_a_broken_chain(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a")], ANA)
+    write_partial_batch(path, 2, 4)
+    assert ledger.Ledger(path).state == "intact"  # so far only an interrupted append
+    # A writer that ignored the interrupted batch and chained on after it:
+    records = ledger.parse(path.read_bytes())[0]
+    record = {**records[-1], "seq": 4, "prev": records[-1]["digest"], "batch": None,
+              "series": {"product": "after"}}
+    record["digest"] = ledger.digest_of(record, None)
+    path.write_bytes(path.read_bytes() + ledger.canonical(record) + b"\n")
+    broken = ledger.Ledger(path)
+    assert broken.state == "broken" and broken.problem.line == 4
+    assert "an incomplete batch (2 of 4 records" in broken.problem.message
+    with pytest.raises(ledger.LedgerError, match="line 4: an incomplete batch"):
+        broken.append([entry("c")], ANA)
+
+
+def test_records_vanishing_under_an_open_reader_break_it(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a")], ANA)
+    ledger.append(path, [entry("b")], ANA)
+    book = ledger.Ledger(path)
+    kept = lines(path)[:1]
+    path.write_bytes(b"".join(kept))  # the last record dropped (valid, shorter chain) ...
+    ledger.append(path, [entry("c")], BO)  # ... and the file grows again past where it was
+    assert book.refresh() and book.state == "broken"
+    assert "records read earlier are gone: seq 2" in book.problem.message
+    assert book.generation == 1
+
+
+def test_non_regular_files_are_one_line_and_never_hang(tmp_path, alarm):
+    fifo = tmp_path / "fifo.jsonl"
+    os.mkfifo(fifo)
+    folder = tmp_path / "folder.jsonl"
+    folder.mkdir()
+    sock = tmp_path / "s.jsonl"
+    server = socket.socket(socket.AF_UNIX)
+    server.bind(str(sock))
+    cases = [(fifo, "a FIFO (named pipe)"), (folder, "a folder"), (sock, "a socket"),
+             ("/dev/null", "a character device")]
+    try:
+        for path, kind in cases:
+            for act in (lambda: ledger.Ledger(path), lambda: ledger.verify(path),
+                        lambda: ledger.append(path, [entry("a")], ANA)):
+                with pytest.raises(ledger.LedgerError) as info:
+                    act()
+                assert str(info.value) == f"{path}: expected a ledger file, found {kind}"
+    finally:
+        server.close()
+
+
+def test_a_symlinked_ledger_sets_its_torn_tail_beside_the_real_file(tmp_path):
+    real_folder, link_folder = tmp_path / "real", tmp_path / "links"
+    real_folder.mkdir(), link_folder.mkdir()
+    real = real_folder / "ledger.jsonl"
+    ledger.append(real, [entry("a")], ANA)
+    real.write_bytes(real.read_bytes() + b'{"torn')
+    link = link_folder / "team.jsonl"
+    link.symlink_to(real)
+    ledger.append(link, [entry("b")], ANA)
+    assert [p.name.startswith("ledger.jsonl.torn-") for p in real_folder.iterdir() if p != real] == [True]
+    assert list(link_folder.iterdir()) == [link] and ledger.verify(link) == []
+
+
+@pytest.mark.parametrize("fault", ["disk full", "folder not writable"])
+def test_a_tail_that_cannot_be_set_aside_is_one_line_and_leaves_nothing(tmp_path, monkeypatch, fault):
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a")], ANA)
+    path.write_bytes(path.read_bytes() + b'{"torn tail')
+    before = path.read_bytes()
+    real_open, real_write = os.open, os.write
+    if fault == "disk full":  # the side file is made, then nothing fits in it
+        def write(fd, data):
+            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+        monkeypatch.setattr(os, "write", write)
+    else:  # running as root ignores folder modes: refuse new files in the folder as the kernel would
+        def refuse(file, flags, mode=0o777, **kw):
+            if flags & os.O_EXCL:
+                raise OSError(errno.EACCES, os.strerror(errno.EACCES))
+            return real_open(file, flags, mode, **kw)
+        monkeypatch.setattr(os, "open", refuse)
+    with pytest.raises(ledger.LedgerError) as info:
+        ledger.append(path, [entry("b")], ANA)
+    monkeypatch.setattr(os, "write", real_write)
+    monkeypatch.setattr(os, "open", real_open)
+    reason = "the disk is full" if fault == "disk full" else "Permission denied"
+    assert str(info.value) == (f"{path}: cannot set aside the interrupted tail (11 bytes) beside it ({reason}); "
+                               "nothing was recorded")
+    assert path.read_bytes() == before and sorted(p.name for p in tmp_path.iterdir()) == ["ledger.jsonl"]
+
+
+def test_readers_judge_the_tail_under_a_shared_lock(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a")], ANA)
+    scratch = tmp_path / "scratch.jsonl"
+    scratch.write_bytes(path.read_bytes())
+    ledger.append(scratch, [entry("b")], ANA)
+    line = lines(scratch)[1]
+    writer = os.open(path, os.O_WRONLY | os.O_APPEND)
+    fcntl.flock(writer, fcntl.LOCK_EX)  # a live append, half-way through its line
+    os.write(writer, line[:30])
+    poll = ledger.Ledger(path, wait=False)  # a screen's poll: does not block, does not cry "torn"
+    assert poll.notes == [] and len(poll.records) == 1
+    seen = {}
+    reader = threading.Thread(target=lambda: seen.update(book=ledger.Ledger(path)))
+    reader.start()
+    time.sleep(0.3)
+    assert reader.is_alive()  # verify waits for the writer ...
+    os.write(writer, line[30:])
+    os.close(writer)  # ... which finishes its line and lets go
+    reader.join(10)
+    assert seen["book"].notes == [] and len(seen["book"].records) == 2
+    assert [r["seq"] for r in poll.refresh()] == [2]
+
+
+def _bulk_writer(path, name):
+    book = ledger.Ledger(path)
+    for i in range(30):
+        book.append([entry(f"{name}-{i}-{j}") for j in range(25)], ledger.Identity(name, name, "h"))
+
+
+def _poller(path, rounds, out):
+    book = ledger.Ledger(path)
+    for _ in range(rounds):
+        book.refresh(wait=False)
+        sizes = Counter(r["batch"]["id"] for r in book.records)
+        if book.state != "intact" or any(n != 25 for n in sizes.values()):
+            out.put("partial")
+            return
+    out.put(len(book.records))
+
+
+def test_a_polling_reader_never_counts_part_of_a_batch(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry(f"seed-{j}") for j in range(25)], ANA)
+    context = multiprocessing.get_context("fork")
+    out = context.Queue()
+    workers = [context.Process(target=_bulk_writer, args=(path, f"w{k}")) for k in range(2)]
+    poller = context.Process(target=_poller, args=(path, 400, out))
+    for w in [*workers, poller]:
+        w.start()
+    for w in [*workers, poller]:
+        w.join(60)
+    assert all(w.exitcode == 0 for w in [*workers, poller])
+    seen = out.get(timeout=5)
+    assert seen != "partial" and seen % 25 == 0
+    assert len(ledger.Ledger(path).records) == 25 * 61
+
+
+def test_a_problem_seen_without_the_lock_is_judged_under_it(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a")], ANA)
+    book = ledger.Ledger(path)
+    writer = os.open(path, os.O_WRONLY | os.O_APPEND)
+    fcntl.flock(writer, fcntl.LOCK_EX)  # a writer at work (setting a tail aside can change bytes under a reader)
+    os.write(writer, b"not a record\n")
+    assert book.refresh(wait=False) == [] and book.state == "intact"  # not believed without the lock
+    os.close(writer)
+    assert book.refresh() == [] and book.state == "broken" and book.problem.line == 2

@@ -1,0 +1,154 @@
+"""The rules every append obeys under its lock: supersedes, stop flags, repeats, revoke, carry."""
+from __future__ import annotations
+
+import math
+import multiprocessing
+from datetime import datetime, timezone
+
+import pytest
+
+from fitcore import ledger
+from fitcore.ledger.replay import series_id
+from tests.fitcore.ledger_support import ANA, BO, after, entry
+
+AT = datetime(2026, 11, 3, 14, 2, 11, 123000, tzinfo=timezone.utc)
+
+
+def clock():
+    return AT
+
+
+def unchanged(path, action):
+    """Run ``action`` (which must raise) and check the file did not change."""
+    before = path.read_bytes() if path.exists() else None
+    with pytest.raises(ledger.LedgerError) as info:
+        action()
+    assert (path.read_bytes() if path.exists() else None) == before
+    assert "\n" not in str(info.value)
+    return info.value
+
+
+def test_a_decision_on_a_series_that_moved_on_is_refused_with_who_did_what(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    mine, theirs = ledger.Ledger(path), ledger.Ledger(path)
+    assert after(mine, "a") is None
+    ledger.append(path, [entry("a")], ANA, now=clock)  # ana decides first
+    error = unchanged(path, lambda: theirs.append([entry("a", "hold", supersedes=None)], BO))
+    assert isinstance(error, ledger.LedgerConflict)
+    assert str(error) == "ana accepted poly1 at 14:02:11 UTC; look again"
+    assert error.latest["analyst"] == "ana" and error.latest["seq"] == 1
+    # Having looked again (the reader now holds ana's record), bo's hold goes through.
+    [hold] = theirs.append([entry("a", "hold", supersedes=after(theirs, "a"))], BO)
+    assert hold["supersedes"] == error.latest["digest"]
+    # A digest the ledger never held on this series is refused too.
+    error = unchanged(path, lambda: theirs.append([entry("b", supersedes="ab" * 32)], BO))
+    assert isinstance(error, ledger.LedgerConflict) and error.latest is None
+
+
+def _race(path, name, barrier, outcomes):
+    book = ledger.Ledger(path)
+    who = ledger.Identity(name, name, "h")
+    barrier.wait()
+    try:
+        book.append([entry("contested", "hold" if name == "bo" else "accept", supersedes=after(book, "contested"))],
+                    who)
+        outcomes.put((name, "recorded"))
+    except ledger.LedgerConflict as exc:
+        outcomes.put((name, str(exc)))
+
+
+def test_two_processes_racing_on_one_series_exactly_one_wins(tmp_path):
+    context = multiprocessing.get_context("fork")
+    for round_ in range(8):
+        path = tmp_path / f"race{round_}.jsonl"
+        ledger.append(path, [entry("contested", "note", note="seen by both")], ANA)
+        barrier, outcomes = context.Barrier(2), context.Queue()
+        workers = [context.Process(target=_race, args=(path, name, barrier, outcomes)) for name in ("ana", "bo")]
+        for w in workers:
+            w.start()
+        for w in workers:
+            w.join(30)
+        results = dict(outcomes.get(timeout=5) for _ in workers)
+        winners = [name for name, outcome in results.items() if outcome == "recorded"]
+        assert len(winners) == 1, results
+        [loser] = set(results) - set(winners)
+        verb = "accepted poly1" if winners[0] == "ana" else "held"
+        assert results[loser].startswith(f"{winners[0]} {verb} at ") and results[loser].endswith("; look again")
+        book = ledger.Ledger(path)
+        assert book.state == "intact" and [r["action"] for r in book.records][1:] == [
+            "accept" if winners[0] == "ana" else "hold"]
+
+
+def test_accepting_past_a_stop_flag_needs_a_note(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    error = unchanged(path, lambda: ledger.append(path, [entry("a", flags=["weak-fit", "rising"])], ANA))
+    assert "accepting past a stop flag (rising) needs a note" in str(error)
+    [ok] = ledger.append(path, [entry("a", flags=["weak-fit", "rising"], note="promo over; checked")], ANA)
+    assert ok["flags"] == ["weak-fit", "rising"]
+    ledger.append(path, [entry("b", flags=["weak-fit"])], ANA)  # a warn flag alone needs no note
+    ledger.append(path, [entry("c", flags=["stale"])], ANA)  # re-signing a stale series is normal
+
+
+def test_an_accept_standing_on_the_same_data_is_not_repeated(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    book = ledger.Ledger(path)
+    book.append([entry("a")], ANA, now=clock)
+    error = unchanged(path, lambda: book.append([entry("a", supersedes=after(book, "a"))], BO))
+    assert "already accepted on this data (ana accepted poly1 at 14:02:11 UTC)" in str(error)
+    book.append([entry("a", fingerprint="f2", supersedes=after(book, "a"))], BO)  # new data: a new sign-off
+    book.append([entry("a", "override", model="poly2", note="x", fingerprint="f2", supersedes=after(book, "a"))], BO)
+    book.append([entry("a", fingerprint="f2", supersedes=after(book, "a"))], ANA)  # accept after an override
+
+
+def test_only_the_os_user_who_decided_withdraws_a_decision(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    book = ledger.Ledger(path)
+    book.append([entry("a")], ledger.Identity("Ana", "ana", "h1"))
+    impostor = ledger.Identity("Ana", "mallory", "h1")
+    error = unchanged(path, lambda: book.append([entry("a", "revoke", supersedes=after(book, "a"))], impostor))
+    assert "no decision of yours (mallory) stands to withdraw; the standing decision is Ana (ana)'s" in str(error)
+    [revoked] = book.append([entry("a", "revoke", supersedes=after(book, "a"))], ledger.Identity("A. N.", "ana", "h2"))
+    assert book.histories[series_id({"product": "a"})].status("f1") == "pending" and revoked["os_user"] == "ana"
+    error = unchanged(path, lambda: book.append([entry("a", "revoke", supersedes=after(book, "a"))], ANA))
+    assert "no decision of yours (ana) stands to withdraw" in str(error)
+
+
+def test_one_carry_per_series_and_data(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    book = ledger.Ledger(path)
+    signed = {"candidate": "poly1", "family": "poly", "coef": [2372.06, -605.05], "controls": None}
+    [accept] = book.append([entry("a", signed=signed)], ANA)
+    assert accept["signed"] == signed
+    carry = entry("a", "carry", fingerprint="f2", carries=accept["digest"], supersedes=accept["digest"])
+    [carried] = book.append([carry], BO)
+    assert carried["carries"] == accept["digest"]
+    assert book.histories[series_id({"product": "a"})].status("f2") == "accepted"
+    again = entry("a", "carry", fingerprint="f2", carries=accept["digest"], supersedes=carried["digest"])
+    assert "already carried to this data (bo carried poly1 forward at" in str(unchanged(path, lambda: book.append(
+        [again], ANA)))
+    wrong = entry("b", "carry", fingerprint="f2", carries=accept["digest"])
+    assert "a carry must name an accept or override of this series" in str(unchanged(path, lambda: book.append(
+        [wrong], ANA)))
+
+
+@pytest.mark.parametrize("bad, words", [
+    (dict(action="note", signed={"candidate": "poly1"}), "only accept, override, carry record a signed model"),
+    (dict(signed=[1, 2]), "expected the signed model as an object or None"),
+    (dict(signed={"coef": [1.0, math.nan]}), "expected finite numbers in the signed model"),
+    (dict(carries="ab" * 32), "a carry names the decision it carries forward"),
+    (dict(action="carry"), "a carry names the decision it carries forward"),
+    (dict(supersedes="latest"), "expected 'supersedes' as a record digest"),
+    (dict(flags="rising"), "expected 'flags' as a list of flag codes"),
+    (dict(action="approve"), "expected an action among accept, override, note, hold, revoke, carry"),
+])
+def test_entries_that_cannot_be_records_are_refused(tmp_path, bad, words):
+    path = tmp_path / "ledger.jsonl"
+    fields = {"action": "accept", **bad}
+    action = fields.pop("action")
+    assert words in str(unchanged(path, lambda: ledger.append(path, [entry("a", action, **fields)], ANA)))
+
+
+def test_one_append_decides_each_series_once(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    error = unchanged(path, lambda: ledger.append(path, [entry("a"), entry("a", "hold")], ANA))
+    assert "one append records at most one decision per series" in str(error)
