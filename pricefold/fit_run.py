@@ -62,7 +62,7 @@ def fit_locally(args, run) -> int:
             data.source.update(rejects_file=target.name, rejects_sha256=staged.sha256)
         else:
             data.source.update(rejects_file=None, rejects_sha256=None)
-        plan = plan_prices(data, run.plan_file, run.sep) if run.plan_file else run.plan_price
+        plan = plan_prices(data, run.plan_file) if run.plan_file else run.plan_price  # the plan's own delimiter
         bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
         try:
             results = fit_batch(data, run.settings, plan_price=plan, progress=bar)

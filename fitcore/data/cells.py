@@ -34,7 +34,8 @@ def raw_from_table(table: pa.Table, columns: Columns, line: np.ndarray):
         column = table.column(name)
         if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
             values = column.to_numpy(zero_copy_only=False).astype(np.float64, copy=False)  # nulls become NaN
-            missing = pc.is_null(column).to_numpy(zero_copy_only=False) if column.null_count else np.zeros(len(values), bool)
+            missing = (pc.is_null(column).to_numpy(zero_copy_only=False) if column.null_count
+                       else np.zeros(len(values), bool))
             numbers[name] = (values, np.zeros(len(values), bool), np.asarray(missing, dtype=bool))
         else:
             numbers[name] = coerce_numbers(column.to_pandas())

@@ -48,8 +48,8 @@ def check_header(path: Path, document: dict, series_key: str | None) -> None:
     _field(path, "settings", settings, "rule", lambda v: isinstance(v, str), "text")
     _field(path, "settings", settings, "level", lambda v: _number(v) and v is not None, "a number")
     source = _field(path, "", document, "input", lambda v: isinstance(v, dict), "an object")
-    _field(path, "input", source, "path", lambda v: isinstance(v, str), "text")
-    _field(path, "input", source, "sha256", lambda v: isinstance(v, str), "text")
+    for name in ("path", "sha256"):  # absent when the data came from Python rather than a file
+        _field(path, "input", source, name, lambda v: isinstance(v, str), "text", optional=True)
     if series_key is not None:
         _field(path, "", document, series_key, lambda v: isinstance(v, list), "a list of series")
 

@@ -152,7 +152,7 @@ def fit_part(p: int, table, job: PartJob) -> dict:
     data = from_columns({name: column(name).astype(object) for name in job.columns.keys}, column("_price"),
                         column("_volume"), weight=column("_weight"), date=column("_date"), line=column("_line"),
                         source=job.source)
-    plan = plan_prices(data, job.plan_file, job.sep, partial=True) if job.plan_file else job.plan_price
+    plan = plan_prices(data, job.plan_file, partial=True) if job.plan_file else job.plan_price  # its own delimiter
     results = fit_batch(data, job.settings, plan_price=plan)
     diagnosis = diagnose(results, job.thresholds)
     write_parquet(results_table(results, diagnosis), Path(job.out) / f"part-{p:05d}.parquet")

@@ -95,6 +95,7 @@ TEXT: dict[str, bytes] = {
     "good_nodate": _rows(date=False).encode(),
     "rejects": (GOOD + BAD_ROW).encode(),
     "bom": b"\xef\xbb\xbf" + GOOD.encode(),
+    "bom_rejects": b"\xef\xbb\xbf" + (GOOD + BAD_ROW).encode(),
     "bom_quoted": b"\xef\xbb\xbf" + GOOD.replace("product,price", '"product","price"', 1).encode(),
     "semicolon": _rows(sep=";").encode(),
     "tab": _rows(sep="\t").encode(),
