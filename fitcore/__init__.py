@@ -7,8 +7,8 @@ rooms before it, and the shared modules ``errors``, ``text``, ``compiled``,
 ``arrays`` at this level):
 
     data     columns, readers, row validation, the Dataset, plan prices, the settings file, series keys
-    fit      fit settings, fold layouts, the compiled least-squares loops, curve families,
-             selection, prediction, the engine (``fit_batch``) and its ``Results``
+    fit      fit settings, fold schemes, curve families (one module each), the compiled
+             least-squares loops, scores, selection, the engine (``fit_batch``) and its ``Results``
     review   flag thresholds, flags and their sentences, influence, evidence for charts
     results  results files: writers, readers, stored (Arrow-backed) results
     ledger   the chained sign-off ledger and its replay into statuses
@@ -17,10 +17,10 @@ rooms before it, and the shared modules ``errors``, ``text``, ``compiled``,
 from .errors import DataError, PricefoldError, SettingsError
 from .fit.settings import FitSettings
 
-__all__ = ["SCHEMA", "DataError", "Dataset", "FitSettings", "PricefoldError", "Results", "SettingsError",
+__all__ = ["SCHEMA", "Columns", "DataError", "Dataset", "FitSettings", "PricefoldError", "Results", "SettingsError",
            "diagnose", "fit_batch", "from_columns", "load"]
 
-_LAZY = {"Dataset": "data.dataset", "from_columns": "data.dataset", "load": "data.loader",
+_LAZY = {"Columns": "data.columns", "Dataset": "data.dataset", "from_columns": "data.dataset", "load": "data.loader",
          "fit_batch": "fit.engine", "Results": "fit.results", "SCHEMA": "fit.results", "diagnose": "review.flags"}
 
 

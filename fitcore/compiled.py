@@ -3,9 +3,10 @@
 A series' rows, its fold moments and its ≤ 6 × 6 Gram matrices fit in
 registers and L1 cache, so one compiled pass per series replaces dozens of
 numpy passes over a chunk.  Each loop lives beside the numpy code that calls
-it (``kernels`` and ``lanes`` for the least-squares fits, ``loglog``,
-``folds``, ``prediction``, ``basis``, ``diagnostics``, ``selection``); this
-module only defers the compiling.
+it (``fit.kernels`` and ``fit.lanes`` for the least-squares fits,
+``fit.families.logvolume`` for the smearing, ``fit.families.poly`` for the
+revenue peak, ``fit.basis``, ``fit.scores``, ``fit.shuffle``,
+``fit.selection``, ``review.flags``); this module only defers the compiling.
 
 Importing ``fitcore`` (say, to open a results file) then costs no numba
 import (~0.2 s).  On the first call of any loop, every registered loop is
@@ -28,20 +29,28 @@ OPTIONS = {"cache": True, "nogil": True, "error_model": "numpy"}
 _LOOPS: list = []  # (Python function, its first-call wrapper)
 
 
-def compiled(fn):
-    """Mark ``fn`` as a loop to compile with ``OPTIONS`` when any loop is first called."""
+def compiled(fn=None, *, inline: bool = False):
+    """Mark ``fn`` as a loop to compile with ``OPTIONS`` when any loop is first called.
+
+    ``inline=True`` (``@compiled(inline=True)``): a small helper that compiled loops call once per
+    series or point; numba inlines its body into theirs, so such calls pay no array-argument
+    reference counts (~0.1 µs each).
+    """
+    if fn is None:
+        return functools.partial(compiled, inline=inline)
+
     @functools.wraps(fn)
     def first_call(*args):
         compile_all()
         return getattr(sys.modules[fn.__module__], fn.__name__)(*args)
-    _LOOPS.append((fn, first_call))
+    _LOOPS.append((fn, first_call, {"inline": "always"} if inline else {}))
     return first_call
 
 
 def compile_all() -> None:
     """Compile every registered loop and put it where its wrapper was: its module and any importer."""
     import numba
-    done = {id(wrapper): numba.njit(**OPTIONS)(fn) for fn, wrapper in _LOOPS}
+    done = {id(wrapper): numba.njit(**OPTIONS, **extra)(fn) for fn, wrapper, extra in _LOOPS}
     for name, module in list(sys.modules.items()):
         if name == "fitcore" or name.startswith("fitcore."):
             for attribute, value in list(vars(module).items()):

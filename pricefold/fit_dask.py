@@ -38,7 +38,7 @@ def run_fit_dask(args, run) -> int:
         return 0
     if total["rejected"]["lines"]:
         print(rejects_line(total["rejected"]["reasons"], args.output / REJECTS), file=sys.stderr)
-    from fitcore.fit.candidates import candidates_for
+    from fitcore.fit.families import candidates_for
     from fitcore.review.flags import CODES
     chosen = {c.name: total["chosen"].get(c.name, 0) for c in candidates_for(run.settings)} | {"none": total["none"]}
     flags = {code: total["flags"][code] for code in CODES if code in total["flags"]}

@@ -72,7 +72,8 @@ def resolve(args) -> Resolved:
     from fitcore.data.columns import Columns
     from fitcore.data.config import load_config
     from fitcore.errors import SettingsError
-    from fitcore.fit.settings import OPTIONS, FitSettings, check_time_order, provenance
+    from fitcore.fit.folds import check_time_order
+    from fitcore.fit.settings import OPTIONS, FitSettings, provenance
     from fitcore.review.thresholds import Thresholds, parse_threshold_options
 
     config = load_config(args.config, settings_file_keys())

@@ -4,6 +4,7 @@ from __future__ import annotations
 import math
 
 from fitcore.data.keys import SEPARATOR
+from fitcore.review.attention import attention_order
 from fitcore.review.sentences import fmt, money
 from fitcore.text import clean
 
@@ -23,11 +24,12 @@ def select(series: list[dict], products: list[str], keys: dict[str, str], flag: 
     return out
 
 
-def attention_key(record: dict):
-    stops = sum(f["severity"] == "stop" for f in record["flags"])
-    warns = len(record["flags"]) - stops
-    score = record["score"] if record["score"] is not None else -math.inf
-    return (-stops, -warns, score)
+def in_attention_order(records: list[dict]) -> list[dict]:
+    """The records as ``fitcore.review.attention`` orders series."""
+    stops = [sum(f["severity"] == "stop" for f in r["flags"]) for r in records]
+    warns = [len(r["flags"]) - n for r, n in zip(records, stops)]
+    scores = [math.nan if r["score"] is None else r["score"] for r in records]
+    return [records[i] for i in attention_order(stops, warns, scores)]
 
 
 def key_text(key: dict) -> str:
@@ -37,7 +39,7 @@ def key_text(key: dict) -> str:
 
 def table(records: list[dict]) -> str:
     lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'score':>6}  flags"]
-    for r in sorted(records, key=attention_key):
+    for r in in_attention_order(records):
         score = f"{r['score'] * 100:.0f}%" if r["score"] is not None else "—"
         flags = " ".join(f["code"] for f in r["flags"]) or "—"
         lines.append(f"{key_text(r['key'])[:40]:<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  {flags}")

@@ -13,9 +13,9 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from .columns import Columns
+from .validation import FIRST_DAY, LAST_DAY, RawRows
 
-# datetime64[ns] holds 1677-09-21 00:12:43 … 2262-04-11 23:47:16; whole days inside that, in microseconds.
-FIRST_DAY, LAST_DAY = "1677-09-22", "2262-04-11"
+# datetime64[ns] holds 1677-09-21 00:12:43 … 2262-04-11 23:47:16: the whole days inside, in microseconds.
 _US_LO = int(np.datetime64(FIRST_DAY, "us").astype(np.int64))
 _US_HI = int(np.datetime64("2262-04-12", "us").astype(np.int64)) - 1
 SPELLED_NONFINITE = ["nan", "inf", "-inf", "+inf", "infinity", "-infinity", "+infinity"]
@@ -27,7 +27,6 @@ def number_names(columns: Columns) -> list[str]:
 
 def raw_from_table(table: pa.Table, columns: Columns, line: np.ndarray):
     """``RawRows`` of an Arrow table holding (at least) the needed columns; ``line`` (N,) each row's line."""
-    from .validation import RawRows
     keys = {name: categorical(table.column(name)) for name in columns.keys}
     numbers = {}
     for name in number_names(columns):

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .cells import FIRST_DAY, LAST_DAY
+FIRST_DAY, LAST_DAY = "1677-09-22", "2262-04-11"  # the whole days datetime64[ns] holds
 
 
 @dataclass

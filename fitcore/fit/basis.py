@@ -1,8 +1,13 @@
-"""The per-series price window and conversion to plain power-basis coefficients.
+"""The basis every curve is fitted in, and the one way to evaluate it.
 
-The engine fits in t = (price − mid) / half, which maps each series'
-observed prices onto [-1, 1]; coefficients of powers of t are what it keeps.
-For display and export they are re-expanded in powers of price itself.
+A family fits a polynomial in t = (x − mid) / half, where x is its regressor
+(price, or ln price) and [mid − half, mid + half] the series' range of x:
+the regressor mapped onto [-1, 1].  Coefficients of powers of t are what
+the engine keeps.  Here: the window, the mapping, the polynomial's value and
+derivatives (``horner``, the one evaluator), the leverage of a point under a
+fit's scaled Cholesky factor (``leverage``, the one leverage), one series'
+factor computed from its rows, and the re-expansion in powers of x itself
+(plain coefficients) for display and export.
 """
 from __future__ import annotations
 
@@ -26,12 +31,6 @@ def width(half: np.ndarray) -> np.ndarray:
 def mapped(x: np.ndarray, mid: np.ndarray, half: np.ndarray) -> np.ndarray:
     """x in the coordinate of its window: (x − mid) / half (half taken as 1 for a single price)."""
     return (x - mid) / width(half)
-
-
-def plain_loglog(a: np.ndarray, e: np.ndarray, log_mid: np.ndarray, log_half: np.ndarray):
-    """(a, e) of ln volume = a + e·ln price, from coefficients in u = (ln price − log_mid)/log_half."""
-    slope = e / width(log_half)
-    return a - slope * log_mid, slope
 
 
 def power_coefficients(coef: np.ndarray, mid: np.ndarray, half: np.ndarray) -> np.ndarray:
@@ -89,3 +88,152 @@ def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low):
         hi[s] = large
         mean[s] = average
         y_low[s] = least
+
+
+@compiled(inline=True)
+def horner(coef, s, size, order, t):
+    """The ``order``-th derivative in t of Σ_{k < size} coef[s, k]·tᵏ at the point t.
+
+    The one polynomial evaluator: curve values, slopes, residuals and revenue
+    all go through it (two compiled fit loops in ``kernels`` sum rising powers
+    as they go instead: see there).  Horner's rule from the top coefficient.
+    """
+    if order >= size:
+        return 0.0
+    value = 0.0
+    for k in range(size - 1, order - 1, -1):
+        factor = 1.0
+        for m in range(order):
+            factor *= k - m
+        value = coef[s, k] * factor if k == size - 1 else value * t + coef[s, k] * factor
+    return value
+
+
+@compiled(inline=True)
+def leverage(x, lower, scale, size, power, v, out, at):
+    """``out[r, at + i]`` = xᵢᵀ(XᵀWX)⁻¹xᵢ under the leading r + 1 coefficients (r < size), where
+    xᵢ = (1, t, t², …) at t = x[i]: ‖L⁻¹D·xᵢ‖² with L Lᵀ = D XᵀWX D (``lower`` (P, P), D = diag(``scale``)).
+
+    The one leverage: plan-price intervals, leave-one-out residuals and Cook's distances all use it.
+    Points are the lanes (innermost loops); ``power`` (≥ len(x)) and ``v`` (≥ size, ≥ len(x)) are scratch.
+    """
+    n = len(x)
+    for i in range(n):
+        power[i] = 1.0
+    for r in range(size):
+        d_r, l_rr, vr, orow = scale[r], lower[r, r], v[r], out[r]
+        for i in range(n):
+            vr[i] = power[i] * d_r
+        for c in range(r):
+            l_rc, vc = lower[r, c], v[c]
+            for i in range(n):
+                vr[i] -= l_rc * vc[i]
+        for i in range(n):
+            vr[i] = vr[i] / l_rr
+        if r == 0:
+            for i in range(n):
+                orow[at + i] = vr[i] * vr[i]
+        else:
+            before = out[r - 1]
+            for i in range(n):
+                orow[at + i] = before[at + i] + vr[i] * vr[i]
+        for i in range(n):
+            power[i] *= x[i]
+
+
+@compiled
+def _evaluate_segments(coef, bounds, size, order, t, out):
+    for s in range(len(bounds) - 1):
+        for i in range(bounds[s], bounds[s + 1]):
+            out[i] = horner(coef, s, size, order, t[i])
+
+
+@compiled
+def _leverage_segments(x, lower, scale, bounds, out):
+    p = lower.shape[1]
+    longest = 0
+    for s in range(len(bounds) - 1):
+        longest = max(longest, bounds[s + 1] - bounds[s])
+    power = np.zeros(longest)
+    v = np.zeros((p, longest))
+    for s in range(len(bounds) - 1):
+        leverage(x[bounds[s]:bounds[s + 1]], lower[s], scale[s], p, power, v, out, bounds[s])
+
+
+@compiled
+def _evaluate_rows(coef, size, order, t, out, slope):
+    both = slope.shape[0] > 0
+    for s in range(t.shape[0]):
+        for g in range(t.shape[1]):
+            out[s, g] = horner(coef, s, size, order, t[s, g])
+            if both:
+                slope[s, g] = horner(coef, s, size, order + 1, t[s, g])
+
+
+def _bounds(n_points: int, offsets) -> np.ndarray:
+    return np.arange(n_points + 1, dtype=np.int64) if offsets is None else np.asarray(offsets, dtype=np.int64)
+
+
+def polynomial(coef: np.ndarray, t: np.ndarray, order: int = 0, offsets: np.ndarray | None = None) -> np.ndarray:
+    """Values (``order`` 0) or derivatives in t of polynomials at points ``t``, through ``horner``.
+
+    ``coef``: (P,) one polynomial at every point of ``t`` (any shape); (S, P)
+    with ``t`` (S,) or (S, G), polynomial s at ``t[s]``; or (S, P) with ``t``
+    (N,), polynomial s at points ``offsets[s]:offsets[s + 1]``.
+    """
+    coef = np.ascontiguousarray(coef, dtype=np.float64)
+    t = np.asarray(t, dtype=np.float64)
+    out = np.empty(t.shape)
+    if coef.ndim == 2 and offsets is None:  # any strides (a grid broadcast over the series is not copied)
+        if not len(coef):
+            return out
+        _evaluate_rows(coef, coef.shape[1], order, t.reshape(len(coef), -1), out.reshape(len(coef), -1),
+                       np.empty((0, 0)))
+        return out
+    t = np.ascontiguousarray(t)
+    if coef.ndim == 1:
+        _evaluate_segments(coef[None], np.array([0, t.size], dtype=np.int64), coef.shape[0], order, t.reshape(-1),
+                           out.reshape(-1))
+    else:
+        _evaluate_segments(coef, _bounds(len(t), offsets), coef.shape[1], order, t, out)
+    return out
+
+
+def values_and_slopes(coef: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Values and first derivatives in t of polynomial s (``coef`` (S, P)) at points ``t[s]`` (S, G), in one
+    pass through ``horner`` (the same numbers as two calls of ``polynomial``)."""
+    coef = np.ascontiguousarray(coef, dtype=np.float64)
+    t = np.asarray(t, dtype=np.float64)
+    value, slope = np.empty(t.shape), np.empty(t.shape)
+    if len(coef):
+        _evaluate_rows(coef, coef.shape[1], 0, t, value, slope)
+    return value, slope
+
+
+def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray, offsets: np.ndarray | None = None) -> np.ndarray:
+    """(P, N) xᵀ(XᵀWX)⁻¹x under the leading 1, 2, …, P coefficients at mapped points ``x`` (N,), through
+    ``leverage``.  Fit s (``lower`` (S, P, P), ``scale`` (S, P)) serves points ``offsets[s]:offsets[s + 1]``
+    (default: one point each)."""
+    x = np.ascontiguousarray(x, dtype=np.float64)
+    out = np.empty((lower.shape[1], len(x)))
+    _leverage_segments(x, np.ascontiguousarray(lower), np.ascontiguousarray(scale), _bounds(len(x), offsets), out)
+    return out
+
+
+def unscaled_covariance(lower: np.ndarray, scale: np.ndarray) -> np.ndarray:
+    """(XᵀWX)⁻¹ (P, P) in the basis, from a fit's scaled Cholesky factor (L Lᵀ = D XᵀWX D):
+    D·L⁻ᵀ·L⁻¹·D.  Times σ², the coefficients' covariance; a new point's leverage is xᵀ·it·x."""
+    inverse = np.linalg.solve(lower, np.eye(len(scale)))
+    return scale[:, None] * (inverse.T @ inverse) * scale[None, :]
+
+
+def series_factor(x: np.ndarray, w: np.ndarray | None, size: int) -> tuple[np.ndarray, np.ndarray]:
+    """One series' scaled Cholesky factor (P, P) and scale (P,) of its design in powers of mapped ``x``
+    (weights ``w``), as the engine factors its fits (``lanes.factor``): for charts and checks, on demand."""
+    from .lanes import factor
+    w = np.ones(len(x)) if w is None else w
+    sums = np.array([np.sum(w * x ** k) for k in range(2 * size - 1)])[:, None]
+    lower, inverse = np.zeros((size, size, 1)), np.zeros((size, size, 1))
+    scale, recip, cond, work = np.zeros((size, 1)), np.ones((size, 1)), np.zeros((size, 1)), np.zeros((3, 1))
+    factor(sums, size, lower, scale, np.zeros((size, 1), dtype=np.bool_), cond, recip, inverse, work)
+    return np.ascontiguousarray(lower[:, :, 0]), np.ascontiguousarray(scale[:, 0])

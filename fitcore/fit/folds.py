@@ -1,18 +1,27 @@
-"""How each series' rows are dealt into cross-validation folds.
+"""How each series' rows are held out: one class per fold scheme, validated where it is built.
 
-Every series is cut into contiguous *blocks* of a working row order:
+Every scheme cuts each series into contiguous *blocks* of a working row
+order (``FoldLayout``); the fits train on blocks, and say how wrong they are
+on the blocks held out:
 
-- ``given``: file order; K blocks with scikit-learn ``KFold(shuffle=False)``
-  sizes (the first ``n mod K`` blocks hold ``n // K + 1`` rows, the rest
-  ``n // K``).  Fold f holds out block f and trains on the others.
-- ``shuffled``: the same blocks over a seeded permutation of the series'
-  rows.  The permutation depends only on the seed, the series key and the
-  rows' positions within the series, so it is the same on every machine and
-  whatever other series share the file or the partition.
-- ``time``: rows sorted by date; K + 1 blocks as scikit-learn
+- ``KFold`` (``--fold-order given``): file order; K blocks with scikit-learn
+  ``KFold(shuffle=False)`` sizes (the first ``n mod K`` blocks hold
+  ``n // K + 1`` rows, the rest ``n // K``).  Fold f holds out block f and
+  trains on the others.
+- ``ShuffledKFold`` (``shuffled``, the default): the same blocks over a
+  seeded permutation of the series' rows (``shuffle``), the same on every
+  machine and whatever other series share the file or the partition.
+- ``TimeFolds`` (``time``): rows sorted by date; K + 1 blocks as scikit-learn
   ``TimeSeriesSplit(n_splits=K)`` (each test block ``n // (K + 1)`` rows, the
   remainder goes to the first training block).  Fold f trains on blocks
   0..f and holds out block f + 1 (rolling origin).
+- ``LeaveOneOut`` (``--folds loo``): one block, the whole series, fitted
+  once; each row's held-out error comes exactly from the hat matrix
+  (PRESS), not from n refits.
+
+A scheme also says which of a family's two ways of computing held-out
+errors applies (``held_out``), how those errors are summarised (``scores``),
+and what a failed fold means (``fold_failure``).
 """
 from __future__ import annotations
 
@@ -20,8 +29,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..compiled import compiled
-from .settings import FitSettings
+from ..errors import SettingsError
+from . import reasons
+from .scores import Moments, Scores, fold_scores, row_scores
+from .shuffle import shuffle_order
+
+ORDERS = ("shuffled", "given", "time")
 
 
 @dataclass(frozen=True, eq=False)
@@ -32,10 +45,10 @@ class FoldLayout:
       the working order is the dataset order.
     - ``bounds``: (S, B + 1) int64 working positions; block b of series s is
       ``bounds[s, b]:bounds[s, b + 1]``.
-    - ``held_out``: (K,) the block each fold holds out.
+    - ``held_out``: (K,) the block each fold holds out (none for leave-one-out).
     - ``cumulative``: False → fold f trains on every block but its own;
       True → on the blocks before the one it holds out.
-    - ``usable``: (S,) bool, every fold has rows to train on and to test.
+    - ``usable``: (S,) bool, the series has enough rows for the scheme.
     """
 
     order: np.ndarray | None
@@ -47,6 +60,180 @@ class FoldLayout:
     @property
     def n_folds(self) -> int:
         return len(self.held_out)
+
+
+class FoldScheme:
+    """One way of holding rows out.  Subclasses supply ``layout`` and the attributes below."""
+
+    fewest_folds: int  # a series must split into at least this many folds (the reason's sentence)
+    fold_failure: int  # the reason code when a held-out fit is undefined
+    comparable_folds: bool  # whether its held-out errors are per fold, so folds can be compared
+    keyed = False  # whether its layout depends on the series' key hashes
+
+    def layout(self, offsets: np.ndarray, *, key_hash: np.ndarray | None = None,
+               date: np.ndarray | None = None) -> FoldLayout:
+        raise NotImplementedError
+
+    def error_counts(self, counts: np.ndarray) -> np.ndarray:
+        """(S,) how many held-out errors each series gets (one per fold, or one per row)."""
+        raise NotImplementedError
+
+    def held_out(self, family, work):
+        """The family's held-out errors for this scheme (``family.fold_errors`` or ``family.row_errors``)."""
+        raise NotImplementedError
+
+    def scores(self, errors: np.ndarray, offsets: np.ndarray, w: np.ndarray | None, mom: Moments) -> Scores:
+        raise NotImplementedError
+
+    def keep(self, available: np.ndarray, counts: np.ndarray) -> np.ndarray:
+        """Which entries of ``Scores.fold_err`` belong to available cells (broadcastable to it)."""
+        raise NotImplementedError
+
+    def fold_ids(self, offsets: np.ndarray, **kwargs) -> np.ndarray:
+        """(N,) the fold that holds out each dataset row; -1 for rows never held out."""
+        lay = self.layout(offsets, **kwargs)
+        widths = np.diff(lay.bounds, axis=1).ravel()
+        block = np.repeat(np.tile(np.arange(lay.bounds.shape[1] - 1), len(lay.bounds)), widths)
+        fold_of_block = np.full(lay.bounds.shape[1] - 1, -1)
+        fold_of_block[lay.held_out] = np.arange(lay.n_folds)
+        ids = np.empty(int(offsets[-1]), dtype=np.int64)
+        ids[lay.order if lay.order is not None else slice(None)] = fold_of_block[block]
+        return ids
+
+    def split(self, offsets: np.ndarray, series: int, **kwargs):
+        """Yield ``(train, test)`` dataset-row index arrays for one series, fold by fold."""
+        lo, hi = int(offsets[series]), int(offsets[series + 1])
+        ids = self.fold_ids(offsets, **kwargs)[lo:hi]
+        rows = np.arange(lo, hi)
+        for f in range(self.fewest_folds):
+            yield rows[ids != f], rows[ids == f]
+
+
+class KFold(FoldScheme):
+    """K contiguous blocks of the rows in file order (scikit-learn ``KFold(shuffle=False)`` sizes)."""
+
+    fold_failure = reasons.RANK_FOLD
+    comparable_folds = True
+
+    def __init__(self, k: int) -> None:
+        if isinstance(k, bool) or not isinstance(k, (int, np.integer)) or k < 2:
+            raise SettingsError(f"expected --folds to be a whole number of at least 2 or 'loo', got {k!r}")
+        self.k = self.fewest_folds = int(k)
+
+    def order(self, offsets: np.ndarray, key_hash) -> np.ndarray | None:
+        return None
+
+    def layout(self, offsets, *, key_hash=None, date=None) -> FoldLayout:
+        counts = np.diff(offsets)
+        inner = kfold_bounds(counts, self.k)
+        return FoldLayout(self.order(offsets, key_hash), inner + offsets[:-1, None], np.arange(self.k), False,
+                          counts >= self.k)
+
+    def error_counts(self, counts):
+        return np.full(len(counts), self.k, dtype=np.int64)
+
+    def held_out(self, family, work):
+        return family.fold_errors(work)
+
+    def scores(self, errors, offsets, w, mom):
+        return fold_scores(errors, mom)
+
+    def keep(self, available, counts):
+        return available[:, None, :]
+
+
+class ShuffledKFold(KFold):
+    """The ``KFold`` blocks over a seeded permutation of each series' rows (``shuffle``)."""
+
+    keyed = True
+
+    def __init__(self, k: int, seed: int) -> None:
+        super().__init__(k)
+        if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
+            raise SettingsError(f"expected --seed to be a non-negative whole number, got {seed!r}")
+        self.seed = int(seed)
+
+    def order(self, offsets, key_hash):
+        return shuffle_order(offsets, key_hash, self.seed)
+
+
+def check_time_order(fold_order: str, has_date: bool) -> None:
+    """Time-ordered folds need a date column: the one place that says so (options and engine alike)."""
+    if fold_order == "time" and not has_date:
+        raise SettingsError("--fold-order time needs the date column: add --date COLUMN (settings file: "
+                            "date in [columns])")
+
+
+class TimeFolds(KFold):
+    """Rolling origin over the rows sorted by date (scikit-learn ``TimeSeriesSplit`` block sizes)."""
+
+    def layout(self, offsets, *, key_hash=None, date=None) -> FoldLayout:
+        check_time_order("time", date is not None)
+        counts = np.diff(offsets)
+        series = np.repeat(np.arange(len(counts)), counts)
+        order = np.lexsort((np.arange(len(series)), date.view(np.int64), series))
+        inner = time_bounds(counts, self.k)
+        return FoldLayout(order, inner + offsets[:-1, None], np.arange(1, self.k + 1), True, counts >= self.k + 1)
+
+    def split(self, offsets, series, **kwargs):
+        lo, hi = int(offsets[series]), int(offsets[series + 1])
+        ids = self.fold_ids(offsets, **kwargs)[lo:hi]
+        rows = np.arange(lo, hi)
+        for f in range(self.k):  # rows of the first block carry id -1: always in training
+            yield rows[ids < f], rows[ids == f]
+
+
+class LeaveOneOut(FoldScheme):
+    """Every row held out once, exactly (hat matrix), from the one fit on all rows."""
+
+    fewest_folds = 2
+    fold_failure = reasons.LEVERAGE_ONE
+    comparable_folds = False
+
+    def layout(self, offsets, *, key_hash=None, date=None) -> FoldLayout:
+        counts = np.diff(offsets)
+        return FoldLayout(None, np.stack([offsets[:-1], offsets[1:]], axis=1), np.zeros(0, np.int64), False,
+                          counts >= 2)
+
+    def error_counts(self, counts):
+        return np.asarray(counts, dtype=np.int64)
+
+    def held_out(self, family, work):
+        return family.row_errors(work)
+
+    def scores(self, errors, offsets, w, mom):
+        return row_scores(errors, offsets, w, mom)
+
+    def keep(self, available, counts):
+        return np.repeat(available, counts, axis=0)
+
+    def fold_ids(self, offsets, **kwargs):
+        """Each row is its own fold: its position within its series."""
+        counts = np.diff(offsets)
+        return np.arange(int(offsets[-1])) - np.repeat(offsets[:-1], counts)
+
+    def split(self, offsets, series, **kwargs):
+        rows = np.arange(int(offsets[series]), int(offsets[series + 1]))
+        for i in range(len(rows)):
+            yield np.delete(rows, i), rows[i:i + 1]
+
+
+def scheme_of(folds: int | str, fold_order: str, seed: int) -> FoldScheme:
+    """The scheme the settings name: ``folds`` K or ``"loo"``, ``fold_order`` one of ``ORDERS``."""
+    if fold_order not in ORDERS:
+        raise SettingsError(f"expected --fold-order to be one of {', '.join(ORDERS)}, got {fold_order!r}")
+    if folds == "loo":
+        if fold_order != "shuffled":
+            raise SettingsError("--fold-order does not apply to --folds loo (every point is held out once)")
+        return LeaveOneOut()
+    if fold_order == "shuffled":
+        return ShuffledKFold(folds, seed)
+    return KFold(folds) if fold_order == "given" else TimeFolds(folds)
+
+
+def fold_scheme(settings) -> FoldScheme:
+    """The scheme of a ``FitSettings``."""
+    return scheme_of(settings.folds, settings.fold_order, settings.seed)
 
 
 def kfold_bounds(counts: np.ndarray, k: int) -> np.ndarray:
@@ -64,100 +251,12 @@ def time_bounds(counts: np.ndarray, k: int) -> np.ndarray:
     return np.where(b == 0, 0, first[:, None] + (b - 1) * size[:, None])
 
 
-def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int) -> np.ndarray:
-    """(N,) a seeded permutation of each series' rows, series kept contiguous.
-
-    Rows are ordered by the top 20 bits of their draw (``shuffle_draws``),
-    then by position; one numpy sort of packed keys does every series at once.
-    """
-    offsets = offsets.astype(np.int64)
-    counts = np.diff(offsets)
-    n = int(offsets[-1])
-    seed = np.uint64(int(seed) % 2 ** 64)
-    if len(counts) < 2 ** 23 and (n == 0 or counts.max() < 2 ** 20):
-        packed = np.empty(n, dtype=np.int64)
-        shuffle_draws(offsets, key_hash.astype(np.uint64), seed, packed, np.empty(0, np.uint64))
-        packed.sort()
-        unpack_rows(packed, offsets)
-        return packed
-    # Too many rows or series to pack: order by the whole draw, then position.
-    draws = np.empty(n, dtype=np.uint64)
-    shuffle_draws(offsets, key_hash.astype(np.uint64), seed, np.empty(0, np.int64), draws)
-    series = np.repeat(np.arange(len(counts)), counts)
-    return np.lexsort((np.arange(n) - offsets[series], draws, series))
-
-
-def layout(offsets: np.ndarray, settings: FitSettings, *, key_hash: np.ndarray | None = None,
-           date: np.ndarray | None = None) -> FoldLayout:
-    """The fold layout of the series whose rows are ``offsets`` apart."""
-    counts = np.diff(offsets)
-    k = int(settings.folds)
-    if settings.fold_order == "time":
-        if date is None:
-            raise ValueError("time-ordered folds need a date column")
-        series = np.repeat(np.arange(len(counts)), counts)
-        order = np.lexsort((np.arange(len(series)), date.view(np.int64), series))
-        inner = time_bounds(counts, k)
-        return FoldLayout(order, inner + offsets[:-1, None], np.arange(1, k + 1), True, counts >= k + 1)
-    order = shuffle_order(offsets, key_hash, settings.seed) if settings.fold_order == "shuffled" else None
-    inner = kfold_bounds(counts, k)
-    return FoldLayout(order, inner + offsets[:-1, None], np.arange(k), False, counts >= k)
-
-
-def fold_ids(offsets: np.ndarray, settings: FitSettings, *, key_hash: np.ndarray | None = None,
+def fold_ids(offsets: np.ndarray, settings, *, key_hash: np.ndarray | None = None,
              date: np.ndarray | None = None) -> np.ndarray:
-    """(N,) the fold that holds out each dataset row; -1 for rows never held out."""
-    lay = layout(offsets, settings, key_hash=key_hash, date=date)
-    block = np.repeat(np.tile(np.arange(lay.bounds.shape[1] - 1), len(lay.bounds)), np.diff(lay.bounds, axis=1).ravel())
-    fold_of_block = np.full(lay.bounds.shape[1] - 1, -1)
-    fold_of_block[lay.held_out] = np.arange(lay.n_folds)
-    ids = np.empty(int(offsets[-1]), dtype=np.int64)
-    ids[lay.order if lay.order is not None else slice(None)] = fold_of_block[block]
-    return ids
+    """(N,) the fold that holds out each dataset row under ``settings``; -1 for rows never held out."""
+    return fold_scheme(settings).fold_ids(offsets, key_hash=key_hash, date=date)
 
 
-def split_indices(offsets: np.ndarray, settings: FitSettings, series: int, **kwargs):
-    """Yield ``(train, test)`` dataset-row index arrays for one series, fold by fold."""
-    lo, hi = int(offsets[series]), int(offsets[series + 1])
-    ids = fold_ids(offsets, settings, **kwargs)[lo:hi]
-    rows = np.arange(lo, hi)
-    cumulative = settings.fold_order == "time"
-    for f in range(int(settings.folds)):
-        # Rows of block 0 of a time layout carry id -1: always in training.
-        yield (rows[ids < f] if cumulative else rows[ids != f]), rows[ids == f]
-
-
-@compiled
-def _splitmix64(x):
-    z = x + np.uint64(0x9E3779B97F4A7C15)
-    z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
-    z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
-    return z ^ (z >> np.uint64(31))
-
-
-@compiled
-def unpack_rows(packed, offsets):
-    """Sorted packed keys (series | draw | j, as ``shuffle_draws`` makes them) → dataset rows, in place."""
-    for i in range(len(packed)):
-        packed[i] = offsets[packed[i] >> 40] + (packed[i] & (2 ** 20 - 1))
-
-
-@compiled
-def shuffle_draws(offsets, key_hash, seed, packed, draws):
-    """Row j of series s draws splitmix64(stream_s + j), stream_s = splitmix64(key_hash_s ^ splitmix64(seed)).
-
-    Fills ``draws`` with the whole draws when it is not empty; otherwise
-    ``packed`` with series (23 bits) | the draw's top 20 bits | j (20 bits),
-    whose ascending order is the shuffled order of every series at once.
-    """
-    salt = _splitmix64(np.uint64(seed))
-    whole = len(draws) > 0
-    for s in range(len(offsets) - 1):
-        start = offsets[s]
-        stream = _splitmix64(key_hash[s] ^ salt)
-        for j in range(offsets[s + 1] - start):
-            draw = _splitmix64(stream + np.uint64(j))
-            if whole:
-                draws[start + j] = draw
-            else:
-                packed[start + j] = (s << 40) | (np.int64(draw >> np.uint64(44)) << 20) | j
+def split_indices(offsets: np.ndarray, settings, series: int, **kwargs):
+    """Yield ``(train, test)`` dataset-row index arrays for one series under ``settings``, fold by fold."""
+    yield from fold_scheme(settings).split(offsets, series, **kwargs)

@@ -1,4 +1,4 @@
-"""The compiled least-squares loops: fold moments, fits in lanes, held-out errors, leverages.
+"""The compiled least-squares loops: fold moments, fits in lanes, held-out errors, Cook's distances.
 
 One pass over each series' rows sums its blocks' power moments in registers;
 its fits (one a fold, and one on all rows) then become lanes of a group of
@@ -10,6 +10,7 @@ import numpy as np
 
 from ..compiled import compiled
 from . import lanes
+from .basis import leverage
 
 # Above this condition number of the scaled Gram matrix a solve through it
 # keeps fewer than 8 significant digits (error ≈ condition × 1.1e-16); such
@@ -92,7 +93,11 @@ def _block_moments(x, y, w, weighted, bounds, m, p, sums, cross, squares):
 @compiled
 def _row_errors(x, y, w, weighted, bounds, fold_of_block, degrees, coef, power, acc):
     """One series' weighted squared errors from its rows: ``acc[f, j]`` held out in fold f,
-    ``acc[F, j]`` in sample; ``coef`` (F + 1, D, P) as ``family_fit`` writes it."""
+    ``acc[F, j]`` in sample; ``coef`` (F + 1, D, P) as ``family_fit`` writes it.
+
+    The fits are summed in rising powers of x (not by ``basis.horner``'s rule): the
+    errors of near-exact fits recomputed here are round-off, and the recorded fixed fits pin them.
+    """
     n_folds = coef.shape[0] - 1
     p = coef.shape[2]
     acc[:] = 0.0
@@ -283,39 +288,11 @@ def family_fit(x, y, w, bounds, held_out, cumulative, degrees, p,
 
 
 @compiled
-def leverage_rows(x, lower, scale, series, sizes, out):
-    """xᵢᵀ(XᵀWX)⁻¹xᵢ = ‖L⁻¹Dxᵢ‖² at each point, from scaled Cholesky factors (S, P, P), (S, P).
-
-    With ``sizes`` empty, ``out`` is (P, N): the leverage under the leading
-    1, 2, …, P coefficients; otherwise ``out`` is (1, N): under ``sizes[i]``.
-    """
-    p = lower.shape[1]
-    own = len(sizes) > 0
-    v = np.zeros(p)
-    for i in range(len(x)):
-        s = series[i]
-        top = min(p, sizes[i]) if own else p
-        power = 1.0
-        total = 0.0
-        for r in range(top):
-            value = power * scale[s, r]
-            for c in range(r):
-                value -= lower[s, r, c] * v[c]
-            v[r] = value / lower[s, r, r]
-            total += v[r] * v[r]
-            if not own:
-                out[r, i] = total
-            power *= x[i]
-        if own:
-            out[0, i] = total
-
-
-@compiled
 def influence_rows(x, target, w, offsets, order, coef, size, lower, scale, sigma2, top, first):
     """The largest Cook's distance among the rows of each series with ``size[s] > 0``.
 
     Per row: residual target − Σ coef[s, k]·xᵏ (k < size[s]), leverage
-    h = wᵢ‖L⁻¹Dxᵢ‖² (scaled factor ``lower``, ``scale``), Cook's distance
+    h = wᵢ·xᵢᵀ(XᵀWX)⁻¹xᵢ (scaled factor ``lower``, ``scale``), Cook's distance
     wᵢeᵢ²h / (p·s²·(1 − h)²).  ``top[s]`` gets the largest distance and
     ``first[s]`` the first dataset position ``order[i]`` holding it.
     """
@@ -324,40 +301,33 @@ def influence_rows(x, target, w, offsets, order, coef, size, lower, scale, sigma
     longest = 0
     for s in range(len(size)):
         longest = max(longest, offsets[s + 1] - offsets[s])
-    # A series' rows are the lanes: each step of the triangular solve runs over all its rows at once.
+    # A series' rows are the lanes of the evaluation and of the triangular solves.
     v = np.zeros((p, longest))
+    h = np.zeros((p, longest))
     power = np.zeros(longest)
     fitted = np.zeros(longest)
-    h = np.zeros(longest)
     for s in range(len(size)):
         k_size = size[s]
         if k_size <= 0:
             continue
         start = offsets[s]
         n = offsets[s + 1] - start
-        for i in range(n):
+        rows = x[start:start + n]
+        for i in range(n):  # rising powers, as the recorded fixed fits pin (see ``_row_errors``)
             power[i] = 1.0
             fitted[i] = 0.0
-            h[i] = 0.0
         for r in range(k_size):
-            b_r, d_r, l_rr = coef[s, r], scale[s, r], lower[s, r, r]
-            vr = v[r]
+            b_r = coef[s, r]
             for i in range(n):
                 fitted[i] += b_r * power[i]
-                vr[i] = power[i] * d_r
-            for c in range(r):
-                l_rc, vc = lower[s, r, c], v[c]
-                for i in range(n):
-                    vr[i] -= l_rc * vc[i]
-            for i in range(n):
-                vr[i] = vr[i] / l_rr
-                h[i] += vr[i] * vr[i]
-                power[i] *= x[start + i]
+                power[i] *= rows[i]
+        leverage(rows, lower[s], scale[s], k_size, power, v, h, 0)
+        spread = h[k_size - 1]
         best = -1.0
         where = -1
         for i in range(n):
             wi = w[start + i] if weighted else 1.0
-            hi = h[i] * wi
+            hi = spread[i] * wi
             e = target[start + i] - fitted[i]
             d = wi * e * e * hi / (k_size * sigma2[s] * (1.0 - hi) ** 2)
             at = order[start + i]

@@ -73,10 +73,3 @@ def fit_family(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, lay: FoldLayo
                        fit.w_test, fit.sse_full, fit.w_full, fit.tss, fit.tss_test, fit.lower, fit.scale)
     return fit
 
-
-def horner(coef: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """Σ coef[k]·xᵏ for ``coef`` (P, …), elementwise over the trailing axes."""
-    out = np.zeros(np.broadcast_shapes(coef.shape[1:], np.shape(x)))
-    for k in range(coef.shape[0] - 1, -1, -1):
-        out = out * x + coef[k]
-    return out

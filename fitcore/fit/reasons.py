@@ -10,18 +10,19 @@ TOO_FEW_POINTS = 3
 RANK_ALL = 4
 RANK_FOLD = 5
 LEVERAGE_ONE = 6
-NOT_POSITIVE = 7
-NO_WEIGHT = 8
-WEIGHT_OVERFLOW = 9
+NOT_SERVED = 7  # the family cannot fit the series (e.g. a log of a price or volume ≤ 0)
+NO_WEIGHT = 8  # every observation of the series weighs zero
+WEIGHT_OVERFLOW = 9  # the series' weighted sums overflow
 
 
-def sentence(code: int, *, n: int, folds: int | str, coefficients: int, distinct: int) -> str | None:
-    """The plain-language reason for ``code``, with the series' numbers."""
+def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int, unserved: str | None = None
+             ) -> str | None:
+    """The plain-language reason for ``code``, with the series' numbers.  ``folds``: the fewest folds the
+    scheme splits a series into; ``unserved``: the family's own reason for ``NOT_SERVED``."""
     if code == NONE:
         return None
     if code == TOO_FEW_FOR_FOLDS:
-        need = 2 if folds == "loo" else int(folds)
-        return f"{n} observations cannot be split into {need} folds"
+        return f"{n} observations cannot be split into {folds} folds"
     if code == FLAT_PRICE:
         return "every observation has the same price, so no curve in price can be estimated"
     if code == TOO_FEW_POINTS:
@@ -33,8 +34,8 @@ def sentence(code: int, *, n: int, folds: int | str, coefficients: int, distinct
                 f"(too few distinct prices, or too close together; {distinct} in all)")
     if code == LEVERAGE_ONE:
         return "an observation alone determines a coefficient, so leaving it out leaves the curve undefined"
-    if code == NOT_POSITIVE:
-        return "a log-log curve needs every price and volume above zero"
+    if code == NOT_SERVED:
+        return unserved
     if code == NO_WEIGHT:
         return "every observation of this series weighs zero, so there is nothing to fit"
     if code == WEIGHT_OVERFLOW:

@@ -8,8 +8,8 @@ import numpy as np
 
 from ..data.dataset import Dataset
 from . import reasons
-from .basis import plain_loglog, power_coefficients
-from .candidates import Candidate
+from .families import Candidate, Family, Lineup
+from .folds import FoldScheme, fold_scheme
 from .settings import FitSettings
 
 SCHEMA = "pricefold-results/1"
@@ -17,22 +17,24 @@ SCHEMA = "pricefold-results/1"
 
 @dataclass(frozen=True, eq=False)
 class Results:
-    """Everything ``fit_batch`` computed.  S series, C candidates, P = max degree + 1.
+    """Everything ``fit_batch`` computed.  S series, C candidates, P = the widest candidate's coefficients.
 
     Per series × candidate (S, C): ``available``, ``reason`` (int8 codes, see
     ``reasons``), ``cv_mse``, ``cv_se``, ``r2``, ``q2``, ``sigma2`` (residual
-    variance; log scale for loglog), ``df`` and the plan-price columns
-    ``plan_volume``, ``plan_lo``, ``plan_hi``, ``plan_elasticity``.
+    variance on the family's fit scale: ln volume for log families), ``df``,
+    the plan-price columns ``plan_volume``, ``plan_lo``, ``plan_hi``,
+    ``plan_elasticity``, and each candidate's basis: ``coef`` (S, C, P)
+    coefficients of powers of t = (x − basis_mid)/basis_half, x its family's
+    regressor (``Family.regressor``), ``basis_mid``, ``basis_half`` (S, C),
+    and ``smear`` (S, C) Duan's smearing factor (NaN for families without one).
     ``fold_err``: (F, C) held-out MSE of each fold, series s owning rows
     ``fold_start[s]:fold_start[s + 1]`` (K folds, or one per observation for
-    leave-one-out).  ``coef``: (S, C, P) coefficients in the series' window:
-    poly in t = (price − mid)/half, loglog [a, e] of ln volume in
-    u = (ln price − log_mid)/log_half.  Per series (S,): ``chosen`` (-1 when
-    nothing is available), ``price_lo``, ``price_hi``, ``mid``, ``half``,
-    ``log_mid``, ``log_half``, ``smear``, ``plan_price``, ``revenue_price``.
-    Under the chosen curve, per series: ``top_cook``, the largest Cook's
-    distance of its rows (-1 where none), and ``top_row``, the dataset row
-    holding it (-1 where none); ``influence.series_influence`` gives every row's.
+    leave-one-out).  Per series (S,): ``chosen`` (-1 when nothing is
+    available), ``price_lo``, ``price_hi``, ``mid``, ``half`` (the price
+    window), ``plan_price``, ``revenue_price``.  Under the chosen curve, per
+    series: ``top_cook``, the largest Cook's distance of its rows (-1 where
+    none), and ``top_row``, the dataset row holding it (-1 where none);
+    ``influence.series_influence`` gives every row's.
     """
 
     data: Dataset
@@ -54,8 +56,8 @@ class Results:
     price_hi: np.ndarray
     mid: np.ndarray
     half: np.ndarray
-    log_mid: np.ndarray
-    log_half: np.ndarray
+    basis_mid: np.ndarray
+    basis_half: np.ndarray
     smear: np.ndarray
     plan_price: np.ndarray
     plan_volume: np.ndarray
@@ -72,7 +74,7 @@ class Results:
     def build(cls, data: Dataset, settings: FitSettings, candidates, plan_price, parts: dict | None) -> "Results":
         n_c = len(candidates)
         if parts is None:  # no series at all
-            parts = _empty(n_c, max(settings.degrees) + 1)
+            parts = _empty(n_c, Lineup.of(candidates).width)
         n_folds = parts.pop("n_folds")
         fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
         fields = dict(parts, fold_start=fold_start, plan_price=plan_price)
@@ -90,6 +92,17 @@ class Results:
         return [c.name for c in self.candidates]
 
     @cached_property
+    def lineup(self) -> Lineup:
+        return Lineup.of(self.candidates)
+
+    @cached_property
+    def scheme(self) -> FoldScheme:
+        return fold_scheme(self.settings)
+
+    def family_of(self, c: int) -> Family:
+        return self.lineup.family_of(c)
+
+    @cached_property
     def score(self) -> np.ndarray:
         """(S,) Q² of the chosen candidate (NaN where none was chosen)."""
         picked = np.take_along_axis(self.q2, np.maximum(self.chosen, 0)[:, None], axis=1)[:, 0]
@@ -98,12 +111,10 @@ class Results:
         return score
 
     def power_coef(self, s: int, c: int) -> list[float]:
-        """Coefficients in plain units: poly Σ cᵢ·priceⁱ; loglog [a, e] of ln volume = a + e·ln price."""
-        cand = self.candidates[c]
-        if cand.family == "poly":
-            return power_coefficients(self.coef[s, c, :cand.degree + 1], self.mid[s], self.half[s]).tolist()
-        a, e = plain_loglog(self.coef[s, c, 0], self.coef[s, c, 1], self.log_mid[s], self.log_half[s])
-        return [float(a), float(e)]
+        """Coefficients in plain units: poly Σ cᵢ·priceⁱ; loglog [a, e] of ln volume = a + e·ln price;
+        semilog [a, b] of ln volume = a + b·price (``Family.plain``)."""
+        size = self.candidates[c].complexity
+        return self.family_of(c).plain(self.coef[s, c, :size], self.basis_mid[s, c], self.basis_half[s, c]).tolist()
 
     def folds_of(self, s: int) -> np.ndarray:
         """(K, C) held-out MSE per fold of series ``s``."""
@@ -114,18 +125,18 @@ class Results:
         if code == reasons.NONE:
             return None
         rows = slice(self.data.offsets[s], self.data.offsets[s + 1])
-        return reasons.sentence(code, n=int(self.data.counts[s]), folds=self.settings.folds,
+        return reasons.sentence(code, n=int(self.data.counts[s]), folds=self.scheme.fewest_folds,
                                 coefficients=self.candidates[c].complexity,
-                                distinct=reasons.distinct_count(self.data.price[rows]))
+                                distinct=reasons.distinct_count(self.data.price[rows]),
+                                unserved=self.family_of(c).unserved_reason)
 
 
 def _empty(n_c: int, p: int) -> dict:
     z = lambda *shape, dtype=float: np.zeros(shape, dtype=dtype)  # noqa: E731
-    parts = {name: z(0, n_c) for name in ("cv_mse", "cv_se", "r2", "q2", "sigma2", "plan_volume",
-                                          "plan_lo", "plan_hi", "plan_elasticity")}
+    parts = {name: z(0, n_c) for name in ("cv_mse", "cv_se", "r2", "q2", "sigma2", "plan_volume", "plan_lo",
+                                          "plan_hi", "plan_elasticity", "basis_mid", "basis_half", "smear")}
     parts.update(available=z(0, n_c, dtype=bool), reason=z(0, n_c, dtype=np.int8), df=z(0, n_c, dtype=np.int64),
                  fold_err=z(0, n_c), coef=z(0, n_c, p), chosen=z(0, dtype=np.int64), n_folds=z(0, dtype=np.int64),
                  top_row=z(0, dtype=np.int64))
-    parts.update({name: z(0) for name in ("price_lo", "price_hi", "mid", "half", "log_mid", "log_half",
-                                          "smear", "revenue_price", "top_cook")})
+    parts.update({name: z(0) for name in ("price_lo", "price_hi", "mid", "half", "revenue_price", "top_cook")})
     return parts

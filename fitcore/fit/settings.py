@@ -1,5 +1,6 @@
 """Fit settings: one table declares every option once; ``FitSettings`` and the settings-file keys come
-from it (and the command line's options, in ``pricefold/options.py``).
+from it (and the command line's options, in ``pricefold/options.py``).  The fold scheme the settings
+make (``folds.fold_scheme``) checks what only the options together say.
 
 Each ``Option`` names its default, its help, where it lives in the settings file (table and key),
 its command-line flag, and how a value is read and checked (``read``: a value as typed or as the file
@@ -17,8 +18,8 @@ from ..data.columns import Columns
 from ..errors import SettingsError
 
 MAX_DEGREE = 5
-FOLD_ORDERS = ("shuffled", "given", "time")
-RULES = ("one-se", "lowest")
+FOLD_ORDERS = ("shuffled", "given", "time")  # folds.ORDERS, named here for the options (a test keeps them equal)
+RULES = ("one-se", "lowest")  # selection.RULES, likewise
 
 
 class Invalid(ValueError):
@@ -225,13 +226,13 @@ def file_keys() -> dict[str, dict[str, tuple]]:
 # -- FitSettings, made from the table -------------------------------------------------------------------------
 
 def _post_init(self) -> None:
-    """Every field read and checked by its option (so ``folds="5"`` becomes 5), then the pairs that clash."""
+    """Every field read and checked by its option (so ``folds="5"`` becomes 5), then the fold scheme they
+    make (which refuses the pairs that clash, such as ``loo`` with an order)."""
     for option in OPTIONS:
         if option.group == _FIT:
             object.__setattr__(self, option.name, option.value(getattr(self, option.name)))
-    if self.folds == "loo" and self.fold_order != "shuffled":
-        raise SettingsError(f"--fold-order {self.fold_order} does not apply to --folds loo "
-                            "(every point is held out once)")
+    from .folds import fold_scheme  # numpy: not at ``import fitcore``
+    fold_scheme(self)
 
 
 def _as_dict(self) -> dict:
@@ -251,13 +252,6 @@ FitSettings.__doc__ = ("Everything that decides how series are fitted and a cand
                        + "; ".join(f"``{o.name}`` ({o.default!r})" for o in OPTIONS if o.group == _FIT)
                        + ". ``extra``: what a results file records beyond them (columns, plan, thresholds, "
                        "settings file).  Declared in ``OPTIONS``.")
-
-
-def check_time_order(fold_order: str, has_date: bool) -> None:
-    """Time-ordered folds need a date column: the one place that says so."""
-    if fold_order == "time" and not has_date:
-        raise SettingsError("--fold-order time needs the date column: add --date COLUMN (settings file: "
-                            "date in [columns])")
 
 
 def provenance(columns: dict, plan_file: str | None, plan_price: float | None) -> dict:

@@ -154,7 +154,7 @@ def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
         cand = {name: row[name] for name in ("candidate", "family", "degree", "available", "reason", "cv_mse", "cv_se",
                                              "fold_mse", "r2", "q2", "coef")}
         cand["name"] = cand.pop("candidate")
-        if cand["family"] == "loglog":
+        if row["smearing"] is not None:  # families with a smearing factor
             cand["smearing"] = row["smearing"]
         if row["plan_price"] is not None and cand["available"]:
             cand["plan_volume"] = row["plan_volume"]

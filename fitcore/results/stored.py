@@ -20,7 +20,8 @@ from ..data.dataset import Dataset
 from ..errors import DataError
 from ..fit import reasons
 from ..fit.basis import window
-from ..fit.candidates import candidates_for
+from ..fit.families import lineup_for
+from ..fit.folds import fold_scheme
 from ..fit.results import Results
 from ..fit.settings import settings_from_dict
 from ..review.flags import CODES, SEVERITY, Diagnosis
@@ -157,7 +158,8 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
         tables.append(reader.read(columns=wanted))
     table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
-    cands = candidates_for(settings)
+    lineup = lineup_for(settings)
+    cands = lineup.candidates
     n_c = len(cands)
     if table.num_rows % max(n_c, 1):
         raise DataError(f"expected {n_c} rows per series, found {table.num_rows} rows", path=str(path))
@@ -188,23 +190,25 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
     available = _column(table, "available").astype(bool).reshape(n_s, n_c)
     lo, hi = per_series("price_lo").astype(float, copy=False), per_series("price_hi").astype(float, copy=False)
     mid, half = window(lo, hi)
-    positive = (lo > 0) & available[:, -1] if settings.loglog else np.zeros(n_s, bool)  # the log window serves loglog only
-    with np.errstate(divide="ignore", invalid="ignore"):
-        log_mid, log_half = window(np.where(positive, np.log(lo), 0.0), np.where(positive, np.log(hi), 0.0))
+    basis_mid, basis_half = np.zeros((n_s, n_c)), np.zeros((n_s, n_c))
+    for family, cols in lineup.groups:  # each candidate's window, where it was fitted
+        for c in range(cols.start, cols.stop):
+            basis_mid[:, c], basis_half[:, c] = family.window_of(lo, hi, available[:, c])
     is_chosen = _column(table, "is_chosen").astype(bool).reshape(n_s, n_c)
     chosen = np.where(is_chosen.any(axis=1), is_chosen.argmax(axis=1), -1)
-    p = max(settings.degrees) + 1
-    n_folds = counts if settings.folds == "loo" else np.full(n_s, int(settings.folds))
+    n_folds = fold_scheme(settings).error_counts(counts)
     fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
-    smear = per_series("smearing", n_c - 1).astype(float, copy=False) if settings.loglog else np.ones(n_s)
+    smear = _column(table, "smearing").astype(float, copy=False).reshape(n_s, n_c)
+    smeared = np.array([lineup.family_of(c).smeared for c in range(n_c)], dtype=bool)
+    smear = np.where(smeared, np.where(np.isfinite(smear), smear, 1.0), np.nan)
     unknown = Unknown((n_s, n_c))  # residual variance and degrees of freedom need the rows
     results = StoredResults(
         data=data, settings=settings, candidates=cands,
         available=available, reason=np.where(available, reasons.NONE, reasons.RANK_ALL).astype(np.int8),
         cv_mse=cells("cv_mse"), cv_se=cells("cv_se"), r2=cells("r2"), q2=cells("q2"),
         fold_err=np.zeros((0, n_c)), fold_start=fold_start, price_lo=lo, price_hi=hi, mid=mid, half=half,
-        log_mid=log_mid, log_half=log_half, coef=CellColumn(table.column("window_coef"), n_s, n_c, p),
-        smear=np.where(np.isfinite(smear), smear, 1.0), sigma2=unknown, df=unknown,
+        basis_mid=basis_mid, basis_half=basis_half, smear=smear, sigma2=unknown, df=unknown,
+        coef=CellColumn(table.column("window_coef"), n_s, n_c, lineup.width),
         chosen=chosen, plan_price=per_series("plan_price").astype(float), plan_volume=cells("plan_volume"),
         plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"), plan_elasticity=cells("plan_elasticity"),
         revenue_price=per_series("revenue_price").astype(float),

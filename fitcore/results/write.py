@@ -12,23 +12,19 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import DataError
-from ..fit.basis import plain_loglog, power_coefficients
 from ..data.columns import is_parquet_name
+from ..errors import DataError
 from ..fit.results import SCHEMA, Results
 from ..outputs import atomic_write
 
 
 def power_coef_table(results: Results) -> np.ndarray:
-    """(S, C, P) every candidate's coefficients in plain price units (NaN-padded)."""
+    """(S, C, P) every candidate's coefficients in plain units of its regressor (NaN-padded)."""
     out = np.full(results.coef.shape, np.nan)
     for c, cand in enumerate(results.candidates):
-        if cand.family == "poly":
-            size = cand.degree + 1
-            out[:, c, :size] = power_coefficients(results.coef[:, c, :size], results.mid, results.half)
-        else:
-            out[:, c, 0], out[:, c, 1] = plain_loglog(results.coef[:, c, 0], results.coef[:, c, 1],
-                                                      results.log_mid, results.log_half)
+        size = cand.complexity
+        out[:, c, :size] = results.family_of(c).plain(results.coef[:, c, :size], results.basis_mid[:, c],
+                                                       results.basis_half[:, c])
     return out
 
 
@@ -58,6 +54,7 @@ def series_records(results: Results, diagnosis=None) -> list[dict]:
     fingerprints = data.fingerprints
     score = results.score
     flags = _flag_lists(results, diagnosis)
+    smeared = [results.family_of(c).smeared for c in range(len(results.candidates))]
     records = []
     for s in range(results.n_series):
         folds = results.folds_of(s)
@@ -73,8 +70,8 @@ def series_records(results: Results, diagnosis=None) -> list[dict]:
                      "r2": _num(results.r2[s, c]) if ok else None,
                      "q2": _num(results.q2[s, c]) if ok else None,
                      "coef": [_num(v) for v in coef[s, c, :size]] if ok else None}
-            if cand.family == "loglog":
-                entry["smearing"] = _num(results.smear[s]) if ok else None
+            if smeared[c]:
+                entry["smearing"] = _num(results.smear[s, c]) if ok else None
             if ok and math.isfinite(results.plan_price[s]):
                 entry["plan_volume"] = _num(results.plan_volume[s, c])
             candidates.append(entry)
@@ -166,7 +163,7 @@ def results_table(results: Results, diagnosis=None):
         r2=results.r2.ravel(), q2=results.q2.ravel(), coef=coef_lists,
         window_coef=pa.FixedSizeListArray.from_arrays(  # for pricefold itself: triage opens results without a refit
             pa.array(np.where(ok[:, None], results.coef.reshape(n_s * n_c, -1), np.nan).ravel()), results.coef.shape[-1]),
-        smearing=np.where(tile([c.family == "loglog" for c in results.candidates]), repeat(results.smear), np.nan),
+        smearing=results.smear.ravel(),  # NaN (null) for families without smearing
         is_chosen=(np.arange(n_c)[None, :] == chosen[:, None]).ravel(),
         chosen=pa.DictionaryArray.from_arrays(  # null where no candidate is available
             pa.array(repeat(chosen).astype(np.int32), mask=repeat(chosen < 0)), pa.array(results.names)),

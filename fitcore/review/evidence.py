@@ -1,15 +1,15 @@
 """Curves and prediction bands of one series over a grid of prices, for charts.
 
-Refits only the series being looked at (a QR factorisation of its own small
-design matrix), so nothing beyond ``Results`` needs to be kept per series.
+Refits only the series being looked at (its own small design, factored
+as the engine factors its fits), so nothing beyond ``Results`` needs to be
+kept per series.  Every family is drawn through its own hooks.
 """
 from __future__ import annotations
 
 import numpy as np
 
-from ..fit.basis import mapped
-from ..fit.polyfit import horner
-from ..fit.prediction import t_quantile
+from ..fit.basis import leverages, series_factor, unscaled_covariance
+from ..fit.families.base import t_quantile
 from ..fit.results import Results
 
 
@@ -19,52 +19,51 @@ def series_rows(results: Results, s: int) -> tuple[np.ndarray, np.ndarray, np.nd
     return data.price[rows], data.volume[rows], None if data.weight is None else data.weight[rows]
 
 
+def basis_of(results: Results, s: int, c: int):
+    """Candidate ``c`` of series ``s``: its family, coefficients (size,), window mid and half, smearing."""
+    size = results.candidates[c].complexity
+    return (results.family_of(c), np.asarray(results.coef[s, c, :size], dtype=float),
+            float(results.basis_mid[s, c]), float(results.basis_half[s, c]), float(results.smear[s, c]))
+
+
 def mapped_rows(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
-    if results.candidates[c].family == "poly":
-        return mapped(prices, results.mid[s], results.half[s])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return mapped(np.log(prices), results.log_mid[s], results.log_half[s])
+    family, _, mid, half, _ = basis_of(results, s, c)
+    return family.coordinate(np.asarray(prices, dtype=float), mid, half)
 
 
 def curve(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
     """Volume of candidate ``c`` of series ``s`` at ``prices`` (point prediction)."""
-    cand = results.candidates[c]
-    x = mapped_rows(results, s, c, np.asarray(prices, dtype=float))
-    if cand.family == "poly":
-        return horner(results.coef[s, c, :cand.degree + 1][:, None], x)
-    a, e = results.coef[s, c, :2]
-    return np.exp(a + e * x) * results.smear[s]
+    family, coef, mid, half, smear = basis_of(results, s, c)
+    return family.curve(coef, mid, half, smear, np.asarray(prices, dtype=float))
 
 
-def design_factor(results: Results, s: int, c: int) -> np.ndarray:
-    """R of the QR factorisation of candidate ``c``'s weighted design matrix on series ``s``'s rows."""
+def design_factor(results: Results, s: int, c: int) -> tuple[np.ndarray, np.ndarray]:
+    """The scaled Cholesky factor of candidate ``c``'s weighted design on series ``s``'s rows (``series_factor``)."""
     price, _, weight = series_rows(results, s)
-    x_rows = mapped_rows(results, s, c, price)
-    root_w = np.ones_like(x_rows) if weight is None else np.sqrt(weight)
-    design = np.vander(x_rows, results.candidates[c].complexity, increasing=True) * root_w[:, None]
-    return np.linalg.qr(design, mode="r")
+    return series_factor(mapped_rows(results, s, c, price), weight, results.candidates[c].complexity)
 
 
-def leverage_at(r: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """xᵀ(XᵀWX)⁻¹x at mapped points ``x``, from the design's R."""
-    from scipy.linalg import solve_triangular
+def covariance(results: Results, s: int, c: int) -> np.ndarray:
+    """(XᵀWX)⁻¹ (size, size) of candidate ``c`` on series ``s``'s rows, in its basis (``basis_of``): with
+    σ² (``results.sigma2``) and df, all a signed curve needs for an interval at a new price."""
+    return unscaled_covariance(*design_factor(results, s, c))
 
-    z = solve_triangular(r, np.vander(x, r.shape[0], increasing=True).T, trans="T")
-    return np.sum(z * z, axis=0)
+
+def leverage_at(factor: tuple[np.ndarray, np.ndarray], x: np.ndarray) -> np.ndarray:
+    """xᵀ(XᵀWX)⁻¹x at mapped points ``x``, under the full design of ``factor``."""
+    lower, scale = factor
+    x = np.asarray(x, dtype=float)
+    return leverages(x, lower[None], scale[None], np.array([0, len(x)]))[-1]
 
 
 def band(results: Results, s: int, c: int, prices: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Lower and upper prediction-interval bounds (``results.settings.level``) at ``prices``."""
-    cand = results.candidates[c]
-    x_grid = mapped_rows(results, s, c, np.asarray(prices, dtype=float))
-    leverage = leverage_at(design_factor(results, s, c), x_grid)
-    spread = t_quantile(results.settings.level, np.array([results.df[s, c]]))[0] * np.sqrt(
-        results.sigma2[s, c] * (1 + leverage))
-    if cand.family == "poly":
-        centre = curve(results, s, c, prices)
-        return centre - spread, centre + spread
-    log_centre = results.coef[s, c, 0] + results.coef[s, c, 1] * x_grid
-    return np.exp(log_centre - spread), np.exp(log_centre + spread)
+    family, coef, mid, half, smear = basis_of(results, s, c)
+    prices = np.asarray(prices, dtype=float)
+    leverage = leverage_at(design_factor(results, s, c), family.coordinate(prices, mid, half))
+    _, lower, upper, _ = family.at(coef, mid, half, smear, leverage, results.sigma2[s, c], results.df[s, c],
+                                   prices, results.settings.level)
+    return lower, upper
 
 
 def runner_up(results: Results, s: int) -> int:

@@ -13,9 +13,9 @@ import numpy as np
 
 from ..compiled import compiled
 from ..fit import reasons as R
-from ..fit.basis import mapped
-from ..fit.prediction import poly_value
+from ..fit.basis import polynomial
 from ..fit.results import Results
+from .attention import attention_order
 from .thresholds import Thresholds
 
 # code, severity, meaning.  "stop": the proposed curve should not go into a plan
@@ -35,6 +35,7 @@ FLAGS = (
 CODES = tuple(code for code, _, _ in FLAGS)
 SEVERITY = {code: severity for code, severity, _ in FLAGS}
 GRID = 41  # points over the observed price range for shape checks (the lowest point is refined)
+SHAPE_BLOCK = 4096  # series put on the grid at once (bounds the work arrays)
 
 
 @dataclass(frozen=True, eq=False)
@@ -61,14 +62,12 @@ class Diagnosis:
 
     @cached_property
     def _attention(self) -> np.ndarray:
-        score = self.results.score
-        score_key = np.where(np.isnan(score), -np.inf, score)
-        order = np.lexsort((np.arange(len(score)), score_key, -self.n_warn(), -self.n_stop()))
+        order = attention_order(self.n_stop(), self.n_warn(), self.results.score)
         order.flags.writeable = False
         return order
 
     def attention_order(self) -> np.ndarray:
-        """Series indices, most in need of a human first: stop flags, then warn flags, then lowest score."""
+        """Series indices, most in need of a human first (``attention``: stop flags, warn flags, low score)."""
         return self._attention
 
     def flags_of(self, s: int) -> list[dict]:
@@ -173,79 +172,70 @@ def _shape(results: Results) -> dict:
     """Where the chosen curve rises and how low it goes, on a grid over the observed prices."""
     names = ("rising_share", "rising_from", "rising_to", "rising_slope", "lowest_volume", "lowest_at")
     out = {name: np.full(results.n_series, np.nan) for name in names}
-    is_poly = np.array([c.family == "poly" for c in results.candidates])
-    chosen = results.chosen.astype(np.int64)
-    curve = np.ascontiguousarray(results.coef[np.arange(len(chosen)), np.maximum(chosen, 0)])  # (S, P)
-    shape_scan(curve, chosen, is_poly, results.mid, results.half, results.log_mid, results.log_half, results.smear,
-               np.linspace(-1.0, 1.0, GRID), *(out[name] for name in names))
+    grid = np.linspace(-1.0, 1.0, GRID)
+    chosen = results.chosen
+    coef = np.asarray(results.coef)
+    for family, cols in results.lineup.groups:
+        width = int(results.lineup.complexity[cols].max())  # the family's widest candidate
+        series = np.flatnonzero((chosen >= cols.start) & (chosen < cols.stop))
+        for start in range(0, len(series), SHAPE_BLOCK):
+            rows = series[start:start + SHAPE_BLOCK]
+            c = chosen[rows]
+            mid, half = results.mid[rows], results.half[rows]
+            price = mid[:, None] + half[:, None] * grid
+            volume, slope = family.on_grid(coef[rows, c, :width], results.basis_mid[rows, c],
+                                           results.basis_half[rows, c], results.smear[rows, c], price,
+                                           np.broadcast_to(grid, price.shape))
+            found = [np.empty(len(rows)) for _ in names]
+            shape_scan(volume, slope, price, half <= 0, *found)
+            for name, values in zip(names, found):
+                out[name][rows] = values
     return out
 
 
 @compiled
-def shape_scan(curve, chosen, is_poly, mid, half, log_mid, log_half, smear, t,
-               share, rising_from, rising_to, rising_slope, lowest_volume, lowest_at):
-    """Per series with a chosen curve, on the grid ``t`` over its price window: the share of the
-    range where volume rises with price (grid intervals rising at both ends), the first and last
-    rising price, the steepest rise, and the lowest volume and its price (refined by a parabola
-    through the grid minimum and its neighbours).  ``curve`` (S, P): each series' chosen
-    candidate's coefficients, ``chosen`` (S,) which candidate (-1: none)."""
-    n_grid = len(t)
-    price = np.empty(n_grid)
-    volume = np.empty(n_grid)
-    slope = np.empty(n_grid)
-    for s in range(len(chosen)):
-        c = chosen[s]
-        if c < 0:
-            continue
-        for g in range(n_grid):
-            price[g] = mid[s] + half[s] * t[g]
-        if is_poly[c]:
-            across = half[s] if half[s] > 0 else 1.0
-            for g in range(n_grid):
-                volume[g] = poly_value(curve, s, t[g], 0)
-                slope[g] = poly_value(curve, s, t[g], 1) / across
-        else:
-            e = curve[s, 1] / (log_half[s] if log_half[s] > 0 else 1.0)
-            a = curve[s, 0] - e * log_mid[s]
-            for g in range(n_grid):
-                volume[g] = np.exp(a + e * np.log(price[g])) * smear[s]
-                slope[g] = e * volume[g] / price[g]
-        flat = half[s] <= 0
+def shape_scan(volume, slope, price, flat, share, rising_from, rising_to, rising_slope, lowest_volume, lowest_at):
+    """Per series, its chosen curve's ``volume`` and ``slope`` (S, G) on a grid of ``price`` (S, G) over
+    its observed range: the share of the range where volume rises with price (grid intervals rising at
+    both ends; none for a ``flat`` price), the first and last rising price, the steepest rise, and the
+    lowest volume and its price (refined by a parabola through the grid minimum and its neighbours)."""
+    n_grid = volume.shape[1]
+    for s in range(volume.shape[0]):
         count = 0
         first = -1
         last = -1
         steepest = -np.inf
         before = False
         for g in range(n_grid):
-            rising = slope[g] > 0 and not flat
+            rising = slope[s, g] > 0 and not flat[s]
             if rising:
                 if first < 0:
                     first = g
                 last = g
-                steepest = max(steepest, slope[g])
+                steepest = max(steepest, slope[s, g])
                 count += before
             before = rising
         share[s] = count * (2.0 / (n_grid - 1)) / 2
-        rising_from[s] = price[max(first, 0)]
-        rising_to[s] = price[last if last >= 0 else n_grid - 1]
+        rising_from[s] = price[s, max(first, 0)]
+        rising_to[s] = price[s, last if last >= 0 else n_grid - 1]
         rising_slope[s] = steepest
         low = 0  # as numpy's argmin: the first NaN, else the first smallest
         for g in range(n_grid):
-            if np.isnan(volume[g]):
+            if np.isnan(volume[s, g]):
                 low = g
                 break
-            if volume[g] < volume[low]:
+            if volume[s, g] < volume[s, low]:
                 low = g
         centre_at = min(max(low, 1), n_grid - 2)
-        left, centre, right = volume[centre_at - 1], volume[centre_at], volume[centre_at + 1]
+        left, centre, right = volume[s, centre_at - 1], volume[s, centre_at], volume[s, centre_at + 1]
         curvature = left - 2 * centre + right
         if low == centre_at and curvature > 0:
             shift = (left - right) / (2 * curvature)
             lowest_volume[s] = centre - (left - right) * shift / 4
-            lowest_at[s] = price[centre_at] + shift * (price[1] - price[0])
+            lowest_at[s] = price[s, centre_at] + shift * (price[s, 1] - price[s, 0])
         else:
-            lowest_volume[s] = volume[low]
-            lowest_at[s] = price[low]
+            lowest_volume[s] = volume[s, low]
+            lowest_at[s] = price[s, low]
 
 
 def _near_tie(results: Results):
@@ -268,12 +258,16 @@ def _near_tie(results: Results):
 
 def _mid_volumes(results: Results) -> np.ndarray:
     """(S, C) each candidate's fitted volume at the middle of the observed prices."""
-    out = results.coef[:, :, 0].copy()  # poly at t = 0
-    for c, cand in enumerate(results.candidates):
-        if cand.family == "loglog":
-            with np.errstate(divide="ignore", invalid="ignore"):
-                u = mapped(np.log(results.mid), results.log_mid, results.log_half)
-            out[:, c] = np.exp(results.coef[:, c, 0] + results.coef[:, c, 1] * u) * results.smear
+    out = np.empty(results.available.shape)
+    n_s = results.n_series
+    coef = np.asarray(results.coef)
+    for family, cols in results.lineup.groups:  # all of a family's candidates in one pass
+        k, width = cols.stop - cols.start, int(results.lineup.complexity[cols].max())
+        t = family.grid_coordinate(np.repeat(results.mid, k), np.zeros(n_s * k),
+                                   results.basis_mid[:, cols].ravel(), results.basis_half[:, cols].ravel())
+        with np.errstate(invalid="ignore", over="ignore"):
+            fitted = polynomial(coef[:, cols, :width].reshape(n_s * k, width), t)
+            out[:, cols] = family.volume(fitted, results.smear[:, cols].ravel()).reshape(n_s, k)
     return out
 
 
@@ -281,7 +275,7 @@ def _fold_spread(results: Results):
     """(S,) the fold with the largest held-out error of the chosen curve, and that error over the median."""
     n_s = results.n_series
     n_folds = np.diff(results.fold_start)
-    if n_s == 0 or results.settings.folds == "loo":
+    if n_s == 0 or not results.scheme.comparable_folds:
         return np.full(n_s, -1), np.zeros(n_s)
     k = int(n_folds[0])
     errors = results.fold_err.reshape(n_s, k, -1)[np.arange(n_s), :, np.maximum(results.chosen, 0)]

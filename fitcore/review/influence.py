@@ -2,8 +2,8 @@
 
 Cook's distance Dᵢ = wᵢeᵢ²·hᵢᵢ / (p·s²·(1 − hᵢᵢ)²) (Cook 1977, Technometrics
 19:15–18), with hᵢᵢ the leverage, eᵢ the residual, p the number of
-coefficients and s² the residual variance.  For the log-log curve both are
-on the log scale, where that curve is fitted.
+coefficients and s² the residual variance, all on the family's fit scale
+(ln volume for the log families, where they are fitted).
 
 The engine keeps only each series' largest distance (``Results.top_cook``,
 computed in ``kernels.influence_rows``); this recomputes one series' rows on
@@ -13,9 +13,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..fit.polyfit import horner
+from ..fit.basis import polynomial
 from ..fit.results import Results
-from .evidence import design_factor, leverage_at, mapped_rows, series_rows
+from .evidence import basis_of, design_factor, leverage_at, mapped_rows, series_rows
 
 
 def series_influence(results: Results, s: int) -> tuple[np.ndarray, np.ndarray]:
@@ -24,14 +24,11 @@ def series_influence(results: Results, s: int) -> tuple[np.ndarray, np.ndarray]:
     c = int(results.chosen[s])
     if c < 0:
         return np.full(len(price), np.nan), np.full(len(price), np.nan)
-    cand = results.candidates[c]
+    family, coef, *_ = basis_of(results, s, c)
     x = mapped_rows(results, s, c, price)
     w = np.ones_like(x) if weight is None else weight
     h = w * leverage_at(design_factor(results, s, c), x)
-    if cand.family == "poly":
-        resid = volume - horner(results.coef[s, c, :cand.degree + 1][:, None], x)
-    else:
-        resid = np.log(volume) - (results.coef[s, c, 0] + results.coef[s, c, 1] * x)
     with np.errstate(divide="ignore", invalid="ignore"):
-        cook = w * resid ** 2 * h / (cand.complexity * results.sigma2[s, c] * (1 - h) ** 2)
+        resid = family.response(volume) - polynomial(coef, x)
+        cook = w * resid ** 2 * h / (len(coef) * results.sigma2[s, c] * (1 - h) ** 2)
     return h, cook

@@ -86,6 +86,22 @@ def test_show_lists_flagged_series_in_order_of_attention(fitted):
     assert all("flat-price" in line for line in lines[1:])
 
 
+def test_show_orders_records_as_the_triage_list_orders_series(fitted):
+    """One attention order: ``show`` on the written records and ``Diagnosis`` on the fit agree."""
+    import fitcore
+    from fitcore.data.loader import Columns, load
+    from fitcore.data.plan import plan_prices
+    from fitcore.review.flags import diagnose
+    from pricefold.show import in_attention_order
+    path, _ = fitted["json"]
+    records = json.loads(path.read_text())["series"]
+    data = load(SAMPLE / "wholesale.csv", Columns(segments=("region",), date="week"))
+    diagnosis = diagnose(fitcore.fit_batch(data, plan_price=plan_prices(data, SAMPLE / "plan.csv")))
+    assert len({len(r["flags"]) for r in records}) > 2  # stop and warn counts and scores all decide somewhere
+    assert [r["key"] for r in in_attention_order(records)] == \
+        [data.key_of(int(s)) for s in diagnosis.attention_order()]
+
+
 def test_show_with_no_match_says_so(fitted):
     path, _ = fitted["json"]
     done = run_cli("show", str(path), "--product", "no such thing")

@@ -18,7 +18,7 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import MinMaxScaler, PolynomialFeatures
 
 import fitcore
-from tests.conftest import random_dataset, series_arrays
+from tests.conftest import random_dataset, series_arrays, series_folds
 
 
 def scaled_poly(degree: int):
@@ -152,6 +152,20 @@ def test_loglog_fold_errors_match_refitting_each_fold(shared_dataset, order):
         np.testing.assert_allclose(results.cv_mse[s, c], per_fold.mean(), rtol=1e-9)
 
 
+def refit_log_line_loo(x, y):
+    """Each row's squared volume error when left out: ln y = a + b·x refitted exactly without it (``x`` the
+    regressor: ln price or price), smeared by the other rows' exp(residual) under the fit on all rows."""
+    design = np.column_stack([np.ones(len(x)), x])
+    full = np.linalg.lstsq(design, np.log(y), rcond=None)[0]
+    full_exp = np.exp(np.log(y) - design @ full)
+    errors = []
+    for i in range(len(x)):
+        keep = np.arange(len(x)) != i
+        beta = np.linalg.lstsq(design[keep], np.log(y[keep]), rcond=None)[0]
+        errors.append((y[i] - np.exp(design[i] @ beta) * full_exp[keep].mean()) ** 2)
+    return np.array(errors)
+
+
 def test_loglog_leave_one_out_log_scale_residuals_are_exact():
     """Leave-one-out volume errors: exact log-scale refits; smearing from the other rows' full-fit residuals."""
     data = random_dataset(15, n_series=20, n_range=(8, 30))
@@ -159,26 +173,19 @@ def test_loglog_leave_one_out_log_scale_residuals_are_exact():
     c = results.names.index("loglog")
     for s in range(data.n_series):
         x, y = series_arrays(data, s)
-        design = np.column_stack([np.ones(len(x)), np.log(x)])
-        full = np.linalg.lstsq(design, np.log(y), rcond=None)[0]
-        full_exp = np.exp(np.log(y) - design @ full)
-        errors = []
-        for i in range(len(x)):
-            keep = np.arange(len(x)) != i
-            beta = np.linalg.lstsq(design[keep], np.log(y[keep]), rcond=None)[0]
-            errors.append((y[i] - np.exp(design[i] @ beta) * full_exp[keep].mean()) ** 2)
-        np.testing.assert_allclose(results.folds_of(s)[:, c], errors, rtol=1e-9)
+        np.testing.assert_allclose(results.folds_of(s)[:, c], refit_log_line_loo(np.log(x), y), rtol=1e-9)
 
 
-def brute_force_weighted_loglog_folds(x, y, w, splits):
-    """Weighted version of ``brute_force_loglog_folds``: WLS on the log scale, weighted smearing and errors."""
+def refit_log_line_folds(x, y, w, splits):
+    """Per-fold weighted volume MSE of ln y = a + b·x refitted by WLS on each training set (``x`` the
+    regressor: ln price or price), with the weighted smearing of its training rows."""
     out = []
     for train, test in splits:
-        design = np.column_stack([np.ones(len(train)), np.log(x[train])])
+        design = np.column_stack([np.ones(len(train)), x[train]])
         root = np.sqrt(w[train])
         beta = np.linalg.lstsq(design * root[:, None], np.log(y[train]) * root, rcond=None)[0]
         smear = np.average(np.exp(np.log(y[train]) - design @ beta), weights=w[train])
-        predicted = np.exp(beta[0] + beta[1] * np.log(x[test])) * smear
+        predicted = np.exp(beta[0] + beta[1] * x[test]) * smear
         out.append(np.average((y[test] - predicted) ** 2, weights=w[test]))
     return np.array(out)
 
@@ -187,8 +194,7 @@ def brute_force_weighted_loglog_folds(x, y, w, splits):
 def test_loglog_smearing_is_exact_for_folds_near_and_far_from_the_full_fit(order):
     """A fold's smearing sum comes from a series in its slope gap δ when |δ| ≤ TAYLOR_REACH (mapped units),
     from the rows otherwise; both regimes must equal brute-force refits (numpy lstsq)."""
-    from fitcore.fit.folds import split_indices
-    from fitcore.fit.loglog import TAYLOR_REACH
+    from fitcore.fit.families.logvolume import TAYLOR_REACH
     rng = np.random.default_rng(11)
     counts = rng.integers(7, 16, 150)
     total = int(counts.sum())
@@ -206,12 +212,8 @@ def test_loglog_smearing_is_exact_for_folds_near_and_far_from_the_full_fit(order
     for s in range(data.n_series):
         if not results.available[s, c]:
             continue
-        lo, hi = data.offsets[s], data.offsets[s + 1]
-        splits = [(train - lo, test - lo) for train, test in
-                  split_indices(data.offsets, settings, s, key_hash=data.key_hash, date=data.date)]
-        x, y = series_arrays(data, s)
-        w = data.weight[lo:hi]
-        np.testing.assert_allclose(results.folds_of(s)[:, c], brute_force_weighted_loglog_folds(x, y, w, splits),
+        x, y, w, splits = series_folds(data, settings, s)
+        np.testing.assert_allclose(results.folds_of(s)[:, c], refit_log_line_folds(np.log(x), y, w, splits),
                                    rtol=1e-9)
         # The slope gap in the engine's mapped ln price (the series' ln price range onto [-1, 1]).
         half = (np.log(x.max()) - np.log(x.min())) / 2

@@ -106,3 +106,31 @@ def test_shuffle_follows_its_documented_definition():
         ranked = sorted(range(n), key=lambda j: (_splitmix64((stream + j) % 2 ** 64) >> 44, j))
         assert got[start:start + n].tolist() == [start + j for j in ranked]
         start += n
+
+
+def _splitmix64_array(x: np.ndarray) -> np.ndarray:
+    """``_splitmix64`` on a uint64 array (numpy's uint64 arithmetic wraps modulo 2⁶⁴)."""
+    z = x + np.uint64(0x9E3779B97F4A7C15)
+    z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+    z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+    return z ^ (z >> np.uint64(31))
+
+
+def test_a_series_of_two_to_the_twenty_rows_shuffles_as_the_small_ones_do():
+    """A series this long takes the lexsort route for its whole chunk: its neighbours' folds must not
+    change, and its own order must follow the same definition (top 20 bits of the draw, then position)."""
+    big = 2 ** 20 + 1
+    counts = [30, big, 17]
+    hashes = np.array([11, 22, 33], dtype=np.uint64)
+    seed = 4
+    settings = fitcore.FitSettings(folds=5, seed=seed)
+    offsets = offsets_of(counts)
+    together = fold_ids(offsets, settings, key_hash=hashes)
+    for s in (0, 2):
+        alone = fold_ids(offsets_of(counts[s:s + 1]), settings, key_hash=hashes[s:s + 1])
+        assert together[offsets[s]:offsets[s + 1]].tolist() == alone.tolist()
+    stream = _splitmix64(22 ^ _splitmix64(seed))
+    draws = _splitmix64_array(np.uint64(stream) + np.arange(big, dtype=np.uint64))
+    expected = np.lexsort((np.arange(big), draws >> np.uint64(44)))
+    got = shuffle_order(offsets, hashes, seed)[offsets[1]:offsets[2]] - offsets[1]
+    np.testing.assert_array_equal(got, expected)

@@ -24,11 +24,11 @@ ARRAYS = ("available", "cv_mse", "cv_se", "r2", "q2", "fold_start", "chosen", "p
           "score")
 
 
-@pytest.mark.parametrize("folds", [5, "loo"])
-def test_stored_results_equal_the_fit_that_wrote_them(tmp_path, folds):
+@pytest.mark.parametrize("folds, semilog", [(5, False), ("loo", True)])
+def test_stored_results_equal_the_fit_that_wrote_them(tmp_path, folds, semilog):
     data = random_dataset(41, n_series=120, n_range=(3, 40))
     plan = np.where(np.arange(data.n_series) % 3 == 0, np.nan, data.price[data.offsets[:-1]] * 1.1)
-    results = fitcore.fit_batch(data, fitcore.FitSettings(folds=folds), plan_price=plan)
+    results = fitcore.fit_batch(data, fitcore.FitSettings(folds=folds, semilog=semilog), plan_price=plan)
     diagnosis = diagnose(results)
     write_results(results, tmp_path / "r.parquet", diagnosis)
     stored, flags = stored_results(tmp_path / "r.parquet")
@@ -39,9 +39,9 @@ def test_stored_results_equal_the_fit_that_wrote_them(tmp_path, folds):
     for s in range(data.n_series):
         np.testing.assert_array_equal(stored.folds_of(s), np.where(ok[s], results.folds_of(s), np.nan))
     np.testing.assert_array_equal(stored.coef[ok], results.coef[ok])
-    loglog = ok[:, -1]  # the log window only serves the log-log curve
-    np.testing.assert_array_equal(stored.log_mid[loglog], results.log_mid[loglog])
-    np.testing.assert_array_equal(stored.smear[loglog], results.smear[loglog])
+    for name in ("basis_mid", "basis_half", "smear"):  # each candidate's window and smearing, where it is fitted
+        np.testing.assert_array_equal(getattr(stored, name)[ok], getattr(results, name)[ok], err_msg=name)
+    assert stored.names == results.names and (stored.names[-1] == "semilog") == semilog
     assert stored.data.fingerprints.to_pylist() == results.data.fingerprints
     assert stored.data.counts.tolist() == results.data.counts.tolist()
     assert stored.data.keys["product"].to_pylist() == results.data.keys["product"].tolist()

@@ -1,81 +1,95 @@
-"""The constant-elasticity candidate: ln volume = a + e·ln price.
+"""Families fitted to ln volume: a straight line in a mapped regressor, judged in volume units.
 
-Fitted by least squares on the log scale (a degree-1 polynomial in mapped
-ln price, through ``polyfit``), but judged in volume units so it competes
-with the polynomials on one scale: a held-out prediction is
-exp(fitted ln volume) × Duan's smearing factor, the mean of exp(residual)
-over the fold's training rows (Duan 1983, J. Am. Stat. Assoc. 78:605–610).
+ln volume = a + b·t, t the regressor (ln price for ``loglog``, price for
+``semilog``) mapped onto [-1, 1], fitted by least squares on the log scale
+(degree 1 through ``polyfit``).  They compete with the polynomials on one
+scale: a held-out prediction is exp(fitted ln volume) × Duan's smearing
+factor, the weighted mean of exp(residual) over the fit's training rows
+(Duan 1983, J. Am. Stat. Assoc. 78:605–610).  Intervals are built on the log
+scale and exponentiated.  A family here supplies its regressor, the series
+it serves, its elasticity and its revenue-best price; the rest is shared.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 
-from ..compiled import compiled
-from .folds import FoldLayout
-from .kernels import trains_on
-from .loo import loo_residuals
-from .polyfit import FamilyFit, fit_family
-from .segments import segment_sums
+from ...compiled import compiled
+from ..basis import window
+from ..kernels import trains_on
+from ..loo import loo_residuals
+from ..polyfit import fit_family
+from ..scores import along_folds
+from ..segments import segment_sums
+from .base import Candidate, Family, Fitted
 
 
-@dataclass(frozen=True, eq=False)
-class LoglogFit:
-    """Volume-scale errors of the log-log fit for one chunk.
+class LogVolume(Family):
+    """A family with one candidate, ln volume = a + b·t, named as the family and switched on by the
+    fit setting of that name (``FitSettings.loglog``, ``FitSettings.semilog``)."""
 
-    - ``log``: the log-scale fit (degree 1 in mapped ln price, centred ln volume).
-    - ``sse_test``: (F, S) held-out squared volume error; for leave-one-out, per row (N,).
-    - ``sse_full``: (S,) in-sample squared volume error.
-    - ``smear``: (S,) the full fit's smearing factor.
-    - ``defined``: (S,) leave-one-out residuals exist (always True for K folds).
-    """
+    smeared = True
 
-    log: FamilyFit
-    sse_test: np.ndarray
-    sse_full: np.ndarray
-    smear: np.ndarray
-    defined: np.ndarray
+    def candidates(self, settings) -> tuple[Candidate, ...]:
+        return (Candidate(self.name, self.name, None, 2),) if getattr(settings, self.name) else ()
 
+    def fit(self, ch, candidates) -> Fitted:
+        served = self.serves(ch)
+        with np.errstate(divide="ignore", invalid="ignore"):  # rows of series not served: skipped
+            u, z, lo, hi, zbar, _ = ch.windowed(self.x(ch.price), np.log(ch.volume), served)
+        log = fit_family(u, z, ch.weight, ch.lay, (1,), fold_coefficients=True)
+        held_out, held_ok, smear, sse = ch.scheme.held_out(self, (ch, u, z, log))
+        centred = log.coef[:, -1, :1].copy()  # (S, 1, 2): the line in u of centred ln volume
+        coef = centred.copy()
+        coef[:, 0, 0] += zbar
+        mid, half = window(lo, hi)
+        return Fitted(coef=coef, mid=mid, half=half, fit_ok=log.ok[:, -1], held_ok=held_ok[:, None],
+                      held_out=held_out[..., None], sse=sse[:, None], fit_sse=log.sse_full, smear=smear[:, None],
+                      unserved=~served, lower=log.lower, scale=log.scale, rows=u, target=z, row_coef=centred)
 
-def fit_loglog(u: np.ndarray, z: np.ndarray, volume: np.ndarray, w: np.ndarray | None,
-               lay: FoldLayout, loo: bool) -> LoglogFit:
-    """``u``: mapped ln price, ``z``: centred ln volume, both in working order.
+    def fold_errors(self, work):
+        """Each fold's volume errors, its smearing factor from its own training rows (``volume_errors``)."""
+        ch, u, z, log = work
+        lay = ch.lay
+        a, e = log.coef[:, :, 0, 0], log.coef[:, :, 0, 1]  # (S, F + 1)
+        growth = np.empty((2, len(u)))  # exp(log residual) of every row: under the full fit, under its fold's
+        log_residuals(u, z, lay.bounds, lay.held_out.astype(np.int64), a, e, growth)
+        np.exp(growth, out=growth)  # numpy's vectorised exp: ~4× a compiled scalar loop here
+        n_s = len(ch.counts)
+        sse_test, smear, sse_full = np.empty((n_s, lay.n_folds)), np.empty(n_s), np.empty(n_s)
+        volume_errors(u, z, ch.volume, np.empty(0) if ch.weight is None else ch.weight, lay.bounds,
+                      lay.held_out.astype(np.int64), lay.cumulative, a, e, growth, smear, sse_full, sse_test)
+        return sse_test, along_folds(log.ok[:, :-1, 0], np.logical_and), smear, sse_full
 
-    With leave-one-out, the held-out ln volume is exact (hat matrix) and the
-    smearing factor is the full fit's without the held-out row's own term.
-    """
-    log = fit_family(u, z, w, lay, (1,), fold_coefficients=True)
-    counts = np.diff(lay.bounds[:, [0, -1]], axis=1)[:, 0]
-    a, e = log.coef[:, :, 0, 0], log.coef[:, :, 0, 1]  # (S, F + 1)
-    if loo:
-        return _leave_one_out(u, z, volume, w, lay, log, counts, a[:, -1], e[:, -1])
-    growth = np.empty((2, len(u)))  # exp(log residual) of every row: under the full fit, under its fold's fit
-    loglog_residuals(u, z, lay.bounds, lay.held_out.astype(np.int64), a, e, growth)
-    np.exp(growth, out=growth)  # numpy's vectorised exp: ~4× a compiled scalar loop here
-    sse_test = np.empty((len(counts), lay.n_folds))
-    smear, sse_full = np.empty(len(counts)), np.empty(len(counts))
-    loglog_volume_errors(u, z, volume, np.empty(0) if w is None else w, lay.bounds, lay.held_out.astype(np.int64),
-                         lay.cumulative, a, e, growth, smear, sse_full, sse_test)
-    return LoglogFit(log, sse_test.T, sse_full, smear, np.ones(len(counts), dtype=bool))
+    def row_errors(self, work):
+        """Leave-one-out: the held-out ln volume is exact (hat matrix); the smearing factor is the full
+        fit's without the held-out row's own term."""
+        ch, u, z, log = work
+        volume, w, counts = ch.volume, ch.weight, ch.counts
+        a, e = log.coef[:, -1, 0, 0], log.coef[:, -1, 0, 1]
+        weight = np.ones_like(volume) if w is None else w
+        whole = ch.whole
+        full_exp = np.exp(z - np.repeat(a, counts) - np.repeat(e, counts) * u)  # exp(residual) of the full fit
+        weighted_exp = weight * full_exp
+        total_w = segment_sums(weight, whole)[:, 0]
+        smear = segment_sums(weighted_exp, whole)[:, 0] / np.where(total_w > 0, total_w, 1.0)
+        fitted = volume / full_exp
+        sse_full = segment_sums(weight * (volume - fitted * np.repeat(smear, counts)) ** 2, whole)[:, 0]
+        resid, defined = loo_residuals(u, z, w, ch.offsets, log)
+        others_w = np.repeat(total_w, counts) - weight
+        smear_without = (np.repeat(smear * total_w, counts) - weighted_exp) / np.where(others_w > 0, others_w, 1.0)
+        with np.errstate(over="ignore", invalid="ignore"):  # rows of leverage 1: marked undefined later
+            held = volume * np.exp(-resid[0]) * smear_without
+        return (volume - held) ** 2, along_folds(log.ok[:, :-1, 0], np.logical_and) & defined[0], smear, sse_full
 
+    def response(self, volume):
+        return np.log(volume)
 
-def _leave_one_out(u, z, volume, w, lay: FoldLayout, log: FamilyFit, counts, a, e) -> LoglogFit:
-    weight = np.ones_like(volume) if w is None else w
-    whole = lay.bounds[:, [0, -1]]
-    full_exp = np.exp(z - np.repeat(a, counts) - np.repeat(e, counts) * u)  # exp(residual) of the full fit
-    weighted_exp = weight * full_exp
-    total_w = segment_sums(weight, whole)[:, 0]
-    smear = segment_sums(weighted_exp, whole)[:, 0] / np.where(total_w > 0, total_w, 1.0)
-    fitted = volume / full_exp
-    sse_full = segment_sums(weight * (volume - fitted * np.repeat(smear, counts)) ** 2, whole)[:, 0]
-    series = np.repeat(np.arange(len(counts)), counts)
-    resid, defined = loo_residuals(u, z, w, series, log)
-    others_w = np.repeat(total_w, counts) - weight
-    smear_without = (np.repeat(smear * total_w, counts) - weighted_exp) / np.where(others_w > 0, others_w, 1.0)
-    with np.errstate(over="ignore", invalid="ignore"):  # rows of leverage 1: marked undefined later
-        held = volume * np.exp(-resid[0]) * smear_without
-    return LoglogFit(log, (volume - held) ** 2, sse_full, smear, defined[0])
+    def volume(self, fitted, smear):
+        with np.errstate(over="ignore"):
+            return np.exp(fitted) * smear
+
+    def interval(self, fitted, spread, smear):
+        return np.exp(fitted) * smear, np.exp(fitted - spread), np.exp(fitted + spread)
 
 
 # A fold's smearing sum Σ wᵢ·exp(rᵢ − Δa − δ·uᵢ) over its training rows (rᵢ the full fit's log
@@ -135,7 +149,7 @@ def _growth_moments(u, g, w, weighted, bounds, out, block_w):
 
 
 @compiled
-def loglog_residuals(u, z, bounds, held_out, a, e, out):
+def log_residuals(u, z, bounds, held_out, a, e, out):
     """Log-scale residuals zᵢ − a − e·uᵢ of row i of series s: ``out[0, i]`` under the full fit
     (column F of ``a``, ``e``), ``out[1, i]`` under the fit of the fold holding row i out (the full
     fit for rows no fold holds out)."""
@@ -152,8 +166,8 @@ def loglog_residuals(u, z, bounds, held_out, a, e, out):
 
 
 @compiled
-def loglog_volume_errors(u, z, volume, w, bounds, held_out, cumulative, a, e, growth, smear, sse_full, sse_test):
-    """Volume-scale errors of the log-log fits, with Duan's smearing factor per fit.
+def volume_errors(u, z, volume, w, bounds, held_out, cumulative, a, e, growth, smear, sse_full, sse_test):
+    """Volume-scale errors of the ln-volume fits, with Duan's smearing factor per fit.
 
     ``growth[0, i]`` = exp(log residual of row i under the full fit), ``growth[1, i]`` = the same
     under the fit that holds row i out.  A fit's smearing factor is the weighted mean of its

@@ -1,0 +1,67 @@
+"""One chunk of whole series, its rows in the working order of its fold layout.
+
+Everything a family needs to fit the chunk: the rows (price, volume,
+weight), each series' price window and the price mapped onto it, the
+volume centred, the fold layout and its scheme, and the weighted sums of
+the centred volume that Q² and R² are judged by.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..data.dataset import Dataset
+from . import reasons
+from .basis import window, window_rows
+from .folds import FoldScheme
+from .scores import moments
+from .segments import segment_sums
+
+
+class Chunk:
+    """Series ``s0 … s1 − 1`` of a dataset.  Row arrays (N,) in working order; per series (S,).
+
+    ``t``: price mapped onto each series' window [``lo``, ``hi``] (``window``: mid, half);
+    ``y``: volume less its weighted mean ``ybar``; ``v_low``: the least volume; ``w_sum``:
+    total weight; ``weight_reason``: ``reasons.NO_WEIGHT`` or ``WEIGHT_OVERFLOW`` for a series its
+    weights leave nothing to fit, else 0; ``lay``: the fold layout; ``moments``: ``scores.Moments`` of ``y``.
+    """
+
+    def __init__(self, data: Dataset, s0: int, s1: int, scheme: FoldScheme) -> None:
+        r0, r1 = int(data.offsets[s0]), int(data.offsets[s1])
+        self.scheme = scheme
+        self.offsets = data.offsets[s0:s1 + 1] - r0
+        self.counts = np.diff(self.offsets)
+        self.lay = scheme.layout(self.offsets, key_hash=data.key_hash[s0:s1] if scheme.keyed else None,
+                                 date=None if data.date is None else data.date[r0:r1])
+        order = self.lay.order
+
+        def take(array):
+            if array is None:
+                return None
+            return array[r0:r1] if order is None else array[r0:r1][order]
+
+        self.price, self.volume, self.weight = take(data.price), take(data.volume), take(data.weight)
+        self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
+        self.weight_reason = np.zeros(len(self.counts), np.int8)  # weights that leave nothing to fit
+        with np.errstate(over="ignore", invalid="ignore"):
+            w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)
+            if self.weight is not None:  # Σ w·v² bounds every weighted sum the families form
+                big = self.sums(self.weight * self.volume * self.volume)
+                self.weight_reason[~np.isfinite(w_sum) | ~np.isfinite(big)] = reasons.WEIGHT_OVERFLOW
+                self.weight_reason[w_sum == 0] = reasons.NO_WEIGHT
+        self.w_sum = np.where(w_sum > 0, w_sum, 1.0)
+        self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
+        self.window = window(self.lo, self.hi)
+        self.moments = moments(self.y, self.weight, self.lay.bounds, self.lay.held_out)
+
+    def windowed(self, x: np.ndarray, y: np.ndarray, use: np.ndarray | None = None):
+        """(x mapped onto each series' window, y less its weighted mean, lo, hi, mean y, least y);
+        series outside ``use`` get zeros throughout (``basis.window_rows``)."""
+        t, centred = np.empty(len(x)), np.empty(len(x))
+        lo, hi, mean, least = (np.empty(len(self.counts)) for _ in range(4))
+        window_rows(x, y, np.empty(0) if self.weight is None else self.weight, self.offsets,
+                    np.empty(0, bool) if use is None else use, t, centred, lo, hi, mean, least)
+        return t, centred, lo, hi, mean, least
+
+    def sums(self, values: np.ndarray) -> np.ndarray:
+        return segment_sums(values, self.whole)[:, 0]

@@ -1,0 +1,127 @@
+"""The stages of a chunk's fit after the families have fitted it, each over every family.
+
+``gather`` lays the families' fits side by side as (S, C) cells; then
+``unavailable`` (why a cell cannot be used), ``at_plan`` (volume, interval
+and elasticity at the plan price), ``revenue`` (the revenue-best price of
+the chosen curve) and ``influence`` (its largest Cook's distance).  The
+engine runs them in that order, with the scores and the choice between.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import kernels
+from . import reasons as R
+from .basis import leverages
+from .chunk import Chunk
+from .families import Fitted, Lineup
+
+
+@dataclass(frozen=True, eq=False)
+class Cells:
+    """Every family's fit of a chunk as one array per quantity over S series × C candidates.
+
+    ``coef`` (S, C, P), P the widest candidate; ``mid``, ``half`` (S, C) each candidate's
+    window; ``fit_ok``, ``held_ok``, ``unserved``, ``sse``, ``sigma2``, ``df``, ``smear`` (S, C)
+    as in ``families.Fitted``; ``held_out`` (S, K, C) or (N, C).
+    """
+
+    coef: np.ndarray
+    mid: np.ndarray
+    half: np.ndarray
+    fit_ok: np.ndarray
+    held_ok: np.ndarray
+    unserved: np.ndarray
+    held_out: np.ndarray
+    sse: np.ndarray
+    sigma2: np.ndarray
+    df: np.ndarray
+    smear: np.ndarray
+
+
+def gather(ch: Chunk, lineup: Lineup, fits: list[Fitted]) -> Cells:
+    n_s, n_c = len(ch.counts), len(lineup.candidates)
+    coef = np.zeros((n_s, n_c, lineup.width))
+    mid, half, sse, fit_sse, smear = (np.empty((n_s, n_c)) for _ in range(5))
+    fit_ok, held_ok, unserved = (np.empty((n_s, n_c), dtype=bool) for _ in range(3))
+    held_out = np.empty(fits[0].held_out.shape[:-1] + (n_c,))
+    for (_, cols), fit in zip(lineup.groups, fits):
+        coef[:, cols, :fit.coef.shape[2]] = fit.coef
+        mid[:, cols], half[:, cols] = fit.mid[:, None], fit.half[:, None]
+        fit_ok[:, cols], held_ok[:, cols], held_out[..., cols] = fit.fit_ok, fit.held_ok, fit.held_out
+        sse[:, cols], fit_sse[:, cols], smear[:, cols] = fit.sse, fit.fit_sse, fit.smear
+        unserved[:, cols] = False if fit.unserved is None else fit.unserved[:, None]
+    df = ch.counts[:, None] - lineup.complexity[None, :]
+    return Cells(coef, mid, half, fit_ok, held_ok, unserved, held_out, sse, fit_sse / np.maximum(df, 1), df, smear)
+
+
+def unavailable(ch: Chunk, lineup: Lineup, cells: Cells) -> np.ndarray:
+    """(S, C) int8 reason codes (``reasons``), the first that applies in this order."""
+    n_coef = lineup.complexity
+    rules = [
+        ((ch.weight_reason == R.NO_WEIGHT)[:, None], R.NO_WEIGHT),
+        ((ch.weight_reason == R.WEIGHT_OVERFLOW)[:, None], R.WEIGHT_OVERFLOW),
+        (cells.unserved, R.NOT_SERVED),
+        (~ch.lay.usable[:, None], R.TOO_FEW_FOR_FOLDS),
+        ((ch.window[1] <= 0)[:, None] & (n_coef > 1)[None, :], R.FLAT_PRICE),
+        (ch.counts[:, None] <= n_coef[None, :], R.TOO_FEW_POINTS),
+        (~cells.fit_ok, R.RANK_ALL),
+        (~cells.held_ok, ch.scheme.fold_failure),
+    ]
+    reason = np.zeros(cells.fit_ok.shape, dtype=np.int8)
+    for applies, code in reversed(rules):
+        reason[np.broadcast_to(applies, reason.shape)] = code
+    return reason
+
+
+def at_plan(lineup: Lineup, fits: list[Fitted], cells: Cells, available: np.ndarray, plan: np.ndarray,
+            level: float) -> list[np.ndarray]:
+    """(S, C) volume, interval bounds and elasticity of every available candidate at the plan price."""
+    out = [np.full(available.shape, np.nan) for _ in range(4)]
+    at = np.flatnonzero(np.isfinite(plan))
+    if not len(at):
+        return out
+    price = plan[at]
+    for (family, cols), fit in zip(lineup.groups, fits):
+        mid, half = fit.mid[at], fit.half[at]
+        lev = leverages(family.coordinate(price, mid, half), fit.lower[at], fit.scale[at])
+        for c in range(cols.start, cols.stop):
+            size = int(lineup.complexity[c])
+            values = family.at(cells.coef[at, c, :size], mid, half, cells.smear[at, c], lev[size - 1],
+                               cells.sigma2[at, c], cells.df[at, c], price, level)
+            for column, value in zip(out, values):
+                column[at, c] = np.where(available[at, c], value, np.nan)
+    return out
+
+
+def revenue(ch: Chunk, lineup: Lineup, cells: Cells, chosen: np.ndarray) -> np.ndarray:
+    """(S,) the revenue-best price within the observed range under the chosen curve (NaN: none chosen)."""
+    out = np.full(len(chosen), np.nan)
+    for family, cols in lineup.groups:
+        rows = np.flatnonzero((chosen >= cols.start) & (chosen < cols.stop))
+        if len(rows):
+            c = chosen[rows]
+            out[rows] = family.best_revenue(cells.coef[rows, c], cells.mid[rows, c], cells.half[rows, c],
+                                            cells.smear[rows, c], ch.lo[rows], ch.hi[rows])
+    return out
+
+
+def influence(ch: Chunk, lineup: Lineup, fits: list[Fitted], cells: Cells, chosen: np.ndarray):
+    """Per series (S,): the largest Cook's distance of a row under the chosen curve (-1 when none)
+    and the first chunk-relative dataset row holding it (-1 when none); on each family's fit scale."""
+    n_s = len(ch.counts)
+    top, first = np.full(n_s, -1.0), np.full(n_s, -1, dtype=np.int64)
+    order = np.arange(len(ch.price)) if ch.lay.order is None else ch.lay.order  # chunk-relative dataset rows
+    weight = np.empty(0) if ch.weight is None else ch.weight
+    offsets = ch.offsets.astype(np.int64)
+    every = np.arange(n_s)
+    for (family, cols), fit in zip(lineup.groups, fits):
+        mine = (chosen >= cols.start) & (chosen < cols.stop)
+        picked = np.clip(chosen, cols.start, cols.stop - 1)
+        size = np.where(mine, lineup.complexity[picked], 0)
+        kernels.influence_rows(fit.rows, fit.target, weight, offsets, order,
+                               np.ascontiguousarray(fit.row_coef[every, picked - cols.start]), size, fit.lower,
+                               fit.scale, cells.sigma2[every, picked], top, first)
+    return top, first
