@@ -106,3 +106,8 @@ def test_fitsettings_can_be_sent_to_a_worker():
     import pickle
     settings = FitSettings(folds="loo", extra={"plan": None})
     assert pickle.loads(pickle.dumps(settings)) == settings  # picklable by its module path
+
+
+def test_the_tables_choices_are_the_engines():
+    from fitcore.fit import folds, selection, settings
+    assert settings.FOLD_ORDERS == folds.ORDERS and set(settings.RULES) == set(selection.RULES)
