@@ -78,6 +78,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     from .ledger_cli import add_parser as add_ledger_parser
     add_ledger_parser(commands)
+    from .report.command import add_parser as add_report_parser
+    add_report_parser(commands)
     return parser
 
 
@@ -216,6 +218,7 @@ def run_demo(args) -> int:
     results_path = folder / "results.json"
     write_results(results, results_path, diagnosis)
     print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
+    print(f"report: pricefold report {results_path} --ledger {folder}/ledger.jsonl -o {folder}/report.html", file=sys.stderr)
     return open_triage(source_from_results(results_path), folder / "ledger.jsonl", args.analyst)
 
 
@@ -224,7 +227,13 @@ def run_ledger(args) -> int:
     return run(args)
 
 
-COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger, "triage": run_triage, "demo": run_demo}
+def run_report(args) -> int:
+    from .report.command import run
+    return run(args)
+
+
+COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger, "triage": run_triage, "demo": run_demo,
+            "report": run_report}
 
 
 def main(argv: list[str] | None = None) -> int:

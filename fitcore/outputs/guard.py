@@ -11,6 +11,7 @@ Kinds of output and how an earlier one is recognised:
     results-folder  a folder holding ``_summary.json`` (``fit --engine dask``), or an empty folder
     rejects         CSV whose header ends with ``line,reason``
     export          CSV whose header holds ``status``, ``model`` and ``coef`` (``ledger export``)
+    report          HTML whose first KiB holds ``<meta name="generator" content="pricefold report``
 """
 from __future__ import annotations
 
@@ -25,7 +26,9 @@ from typing import Iterable
 from ..errors import DataError
 
 KIND_NAMES = {"results": "a pricefold results file", "results-folder": "a pricefold results folder",
-              "rejects": "a rejects file pricefold wrote", "export": "a pricefold export"}
+              "rejects": "a rejects file pricefold wrote", "export": "a pricefold export",
+              "report": "a page written by pricefold report"}
+_REPORT = b'<meta name="generator" content="pricefold report'  # pricefold/report/page.py writes it
 _RESULTS_JSON = re.compile(rb'\s*\{\s*"schema"\s*:\s*"pricefold-results/')
 
 Inputs = Iterable[tuple[str, "str | Path | None"]]
@@ -86,6 +89,8 @@ def is_own(path: "str | Path", kind: str) -> bool:
         return False
     if kind == "results":
         return bool(_RESULTS_JSON.match(head)) or _is_results_parquet(path, head)
+    if kind == "report":
+        return _REPORT in head[:1024]
     header = _first_row(head)
     if kind == "rejects":
         return header[-2:] == ["line", "reason"]
