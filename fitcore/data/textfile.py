@@ -144,23 +144,25 @@ def rows_are_lines(path: Path, n_rows: int) -> bool:
     """
     if is_gzip(path):
         with gzip.open(path, "rb") as handle:
-            return _count_lines(iter(lambda: handle.read(BLOCK), b"")) - 1 == n_rows
+            return _count_lines(iter(lambda: handle.read(BLOCK), b""), True) - 1 == n_rows
     if os.path.getsize(path) == 0:
         return n_rows == 0
     with open(path, "rb") as handle, mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ) as mapped:
-        if mapped.find(b'"') < 0 and mapped.find(b"\r") < 0:
+        returns = mapped.find(b"\r") >= 0
+        if not returns and mapped.find(b'"') < 0:
             return True
         blocks = (mapped[start:start + BLOCK] for start in range(0, len(mapped), BLOCK))
-        return _count_lines(blocks) - 1 == n_rows
+        return _count_lines(blocks, returns) - 1 == n_rows
 
 
-def _count_lines(blocks) -> int:
-    """Physical lines in a stream of byte blocks: line ends (CRLF counted once), plus an unended last line."""
+def _count_lines(blocks, returns: bool) -> int:
+    """Physical lines in a stream of byte blocks: line ends (CRLF counted once), plus an unended last line.
+    ``returns``: the stream may hold CR (else only LF is counted: one pass instead of three)."""
     ends, last, carry = 0, b"", False  # carry: the previous block ended with CR
     for block in blocks:
         if carry and block[:1] == b"\n":
             ends -= 1  # a CRLF split across blocks
-        ends += block.count(b"\n") + block.count(b"\r") - block.count(b"\r\n")
+        ends += block.count(b"\n") + (block.count(b"\r") - block.count(b"\r\n") if returns else 0)
         carry = block[-1:] == b"\r"
         last = block[-1:] or last
     return ends + (0 if last in (b"\n", b"\r", b"") else 1)
