@@ -135,14 +135,17 @@ def is_results(path: Path) -> bool:
 def run_triage(args) -> int:
     from dataclasses import replace
 
+    from fitcore.data.config import load_config
     from fitcore.outputs import check_not_input
     from tui.factory import Source, default_ledger, is_stored, source_from_results
 
-    from .options import resolve
+    from .options import resolve, settings_file_keys
     ledger_path = args.ledger or default_ledger(args.source)
+    units = load_config(args.config, settings_file_keys()).get("units", {})
     if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen
         source = source_from_results(args.source, check_data=False)
         check_not_input(ledger_path, [("the results", args.source), *_source_inputs(source)])
+        source.units = units
         return open_triage(source, ledger_path, args.analyst, stored=args.source)
     if is_results(args.source):
         source = source_from_results(args.source)
@@ -156,6 +159,7 @@ def run_triage(args) -> int:
                         plan_file=run.plan_file, plan_price=run.plan_price, thresholds=run.thresholds)
         inputs = [*_source_inputs(source), *run.inputs]
     check_not_input(ledger_path, inputs)
+    source.units = units
     return open_triage(source, ledger_path, args.analyst)
 
 
@@ -182,7 +186,7 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
         observer = (lambda progress: refit_stored(source, progress)) if rows <= REFIT_ROWS else None
 
         def opener(progress):
-            session = open_stored_session(stored, ledger_path, who, key, progress)
+            session = open_stored_session(stored, ledger_path, who, key, progress, units=source.units)
             if observer is None:
                 session.warnings.append(f"The data behind these results have {rows:,} rows, too many to read here: "
                                         "the evidence shows the fitted curves without the observations.")
@@ -196,6 +200,7 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
 
 
 def run_demo(args) -> int:
+    from fitcore.data.config import load_config
     from fitcore.errors import DataError
     from fitcore.outputs import check_outputs
     from fitcore.results.write import write_results
@@ -219,7 +224,10 @@ def run_demo(args) -> int:
     write_results(results, results_path, diagnosis)
     print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
     print(f"report: pricefold report {results_path} --ledger {folder}/ledger.jsonl -o {folder}/report.html", file=sys.stderr)
-    return open_triage(source_from_results(results_path), folder / "ledger.jsonl", args.analyst)
+    source = source_from_results(results_path)
+    from .options import settings_file_keys
+    source.units = load_config(None, settings_file_keys()).get("units", {})
+    return open_triage(source, folder / "ledger.jsonl", args.analyst)
 
 
 def run_ledger(args) -> int:

@@ -60,10 +60,14 @@ def add_fit_options(parser: argparse.ArgumentParser) -> None:
                        help="override a flag threshold, e.g. min_points=8 (repeatable)")
 
 
+UNIT_KEYS = {"price": (str,), "volume": (str,)}  # [units]: labels only, for the triage screen
+
+
 def settings_file_keys() -> dict[str, dict[str, tuple]]:
+    """Every table and key of the settings file: the settings table's, the flag thresholds, the units."""
     from fitcore.fit.settings import file_keys
     from fitcore.review.thresholds import Thresholds
-    return file_keys() | {"thresholds": {name: (int, float) for name in Thresholds.names()}}
+    return file_keys() | {"thresholds": {name: (int, float) for name in Thresholds.names()}, "units": UNIT_KEYS}
 
 
 def resolve(args) -> Resolved:

@@ -19,6 +19,10 @@ naming the valid ones.  For example::
 
     [thresholds]
     min_points = 10
+
+    [units]                # labels only, for the triage screen
+    price = "EUR"
+    volume = "cases/week"
 """
 from __future__ import annotations
 
