@@ -3,9 +3,9 @@
 A row is rejected — never silently dropped — when the line is empty or has
 the wrong number of fields, a key is empty, price or volume is missing,
 non-numeric, NaN or infinite, or negative, the weight is missing, non-numeric
-or negative, the date does not parse, a control is missing, non-numeric, NaN
-or infinite (controls may be negative), or the row repeats the series and date
-of an earlier row.  The first reason that applies is the one reported.
+or negative, the date does not parse or lies outside the dates datetime64[ns]
+holds (1677-09-22 to 2262-04-11), or the row repeats the series and date of an
+earlier row.  The first reason that applies is the one reported.
 """
 from __future__ import annotations
 
@@ -14,6 +14,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
+
+FIRST_DAY, LAST_DAY = "1677-09-22", "2262-04-11"  # the whole days datetime64[ns] holds
 
 
 @dataclass
@@ -24,7 +26,8 @@ class RawRows:
     ``keys``: name → (N,) ``pd.Categorical`` of the key's text (missing where the cell was empty).
     ``numbers``: name → ((N,) float64, NaN where missing or unreadable; (N,) bool "text that is not a
     number"; (N,) bool "empty cell").
-    ``date``: ((N,) datetime64[ns] with NaT where missing or unreadable, (N,) bool "text that is not a date") or None.
+    ``date``: ((N,) datetime64[ns] with NaT where missing, unreadable or outside, (N,) bool "text that is not a
+    date", (N,) bool "a date outside what datetime64[ns] holds") or None.
     ``broken``: row index → reason, for rows whose line could not be split into the header's fields.
     """
 
@@ -44,7 +47,8 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
     """``(why, usable)``: (N,) the reason each row is rejected (None for a usable row), and (N,) bool usable.
 
     ``duplicates=False`` leaves the repeated series-and-date check to the caller (``duplicate_rows``), for
-    rows read in pieces whose repeats may lie in another piece.
+    rows read in pieces whose repeats may lie in another piece.  ``controls``: the control columns, each
+    missing, non-numeric or non-finite cell a reason (controls may be negative).
     """
     n = rows.n_rows
     out = None  # the reasons, made at the first rejected row: a clean file needs no N-object array
@@ -78,8 +82,9 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
     for name in controls:
         _number_reasons(mark, name, *rows.numbers[name], signed=True)
     if date and rows.date is not None:
-        values, unreadable = rows.date
+        values, unreadable, outside = rows.date
         mark(unreadable, f"unparseable {date}")
+        mark(outside, f"{date} outside {FIRST_DAY} to {LAST_DAY}")
         mark(np.isnat(values), f"missing {date}")
         if duplicates:
             _duplicates(rows, values, reject, open_rows)

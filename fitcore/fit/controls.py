@@ -92,6 +92,21 @@ def _day_slot(days):
     return day + (365 if leap else 0)
 
 
+def check_season(season: int, has_date: bool) -> None:
+    """Season terms need a date column: the one place that says so (options and engine alike)."""
+    if season and not has_date:
+        raise SettingsError("--season needs the date column: add --date COLUMN (settings file: date in [columns])")
+
+
+def check_controls(columns) -> None:
+    """A control is a column of its own, not one the fit already reads for something else."""
+    for name in columns.controls:
+        for role, used in (("a key", columns.keys), ("the price", [columns.price]), ("the volume", [columns.volume]),
+                           ("the date", [columns.date]), ("the weight", [columns.weight])):
+            if name in used:
+                raise SettingsError(f"--control {name} is already {role} column; a control is another column")
+
+
 def is_binary(values: np.ndarray) -> bool:
     """A 0/1 control: every value 0 or 1."""
     return bool(np.all((values == 0) | (values == 1)))
@@ -117,8 +132,7 @@ class ControlSpec:
         columns = tuple(data.controls)
         if not columns and not season:
             return None
-        if season and data.date is None:
-            raise SettingsError("--season needs the date column: add --date COLUMN")
+        check_season(season, data.date is not None)
         binary = tuple(bool(data.control_binary.get(name, is_binary(data.controls[name]))) for name in columns)
         return cls(columns, binary, season)
 

@@ -84,6 +84,8 @@ def unavailable(ch: Chunk, lineup: Lineup, cells: Cells) -> np.ndarray:
     n_coef = lineup.complexity
     every_coef = n_coef[None, :] if ch.controls is None else n_coef[None, :] + ch.controls.kept[:, None]
     rules = [
+        ((ch.weight_reason == R.NO_WEIGHT)[:, None], R.NO_WEIGHT),
+        ((ch.weight_reason == R.WEIGHT_OVERFLOW)[:, None], R.WEIGHT_OVERFLOW),
         (cells.unserved, R.NOT_SERVED),
         (~ch.lay.usable[:, None], R.TOO_FEW_FOR_FOLDS),
         ((ch.window[1] <= 0)[:, None] & (n_coef > 1)[None, :], R.FLAT_PRICE),
