@@ -42,7 +42,7 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
     """
     path = Path(path)
     keys = list(data.key_names)
-    present = set(_header_names(path, sep)) if controls or season else set()
+    present = set(_header_names(path, sep, [*keys, "plan_price"])) if controls or season else set()
     given = tuple(name for name in controls if name in present)
     dated = season and PLAN_DATE in present
     columns = Columns(product=keys[0], segments=tuple(keys[1:]), price="plan_price", volume="plan_price",
@@ -91,15 +91,16 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
                 spread(rows.date[0], np.datetime64("NaT")) if dated else None)
 
 
-def _header_names(path: Path, sep: str | None) -> list[str]:
+def _header_names(path: Path, sep: str | None, wanted: list[str]) -> list[str]:
     """The column names of a plan file (which optional columns it has)."""
-    from .loader import _csv_header, _sniff, check_file, file_kind
+    from .loader import file_kind
+    from .textfile import check_file, header_line, sniff_delimiter, split_header
     check_file(path)
-    kind, default_sep = file_kind(path)
+    kind, preferred = file_kind(path)
     if kind == "parquet":
-        import pyarrow.parquet as pq
-        return pq.read_schema(path).names
-    return _csv_header(path, sep or default_sep or _sniff(path))
+        from .read_parquet import parquet_names
+        return parquet_names(path)
+    return split_header(header_line(path), sep or sniff_delimiter(path, wanted, preferred))
 
 
 def plan_keywords(data: Dataset, plan_file: str | Path | None, plan_price: float | None, sep: str | None = None, *,
