@@ -133,7 +133,8 @@ class ControlSpec:
         if not columns and not season:
             return None
         check_season(season, data.date is not None)
-        binary = tuple(bool(data.control_binary.get(name, is_binary(data.controls[name]))) for name in columns)
+        binary = tuple(bool(data.control_binary[name]) if name in data.control_binary else is_binary(data.controls[name])
+                       for name in columns)
         return cls(columns, binary, season)
 
     def raw(self, data, r0: int, r1: int, order: np.ndarray | None) -> np.ndarray:
