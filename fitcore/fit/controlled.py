@@ -146,7 +146,6 @@ def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, g
     cond = np.zeros((q, n_lanes))
     rhs = np.zeros((q, n_lanes))
     zz = np.zeros((q, n_lanes))
-    beta = np.zeros((q, n_lanes))
     err = np.zeros(n_lanes)
     loose = np.zeros(n_lanes, dtype=np.bool_)
     work = np.zeros((3, n_lanes))
@@ -163,6 +162,7 @@ def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, g
     acc = np.zeros((n_fits, n_deg))
     group_coef = np.zeros((group, n_fits, n_deg, p))
     group_gamma = np.zeros((group, n_fits, n_deg, m))
+    betas = np.zeros((n_deg, q, n_lanes))  # every degree's solution in every lane, read out only where needed
     every_fit = coef.shape[1] == n_fits
     at_w, at_yy = G.tri(0, 0), G.tri(q, q)
     for s0 in range(0, n_series, group):
@@ -191,17 +191,12 @@ def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, g
         for j in range(n_deg):
             d = degrees[j]
             size = n_nuis + d
-            lanes.back(zz, size, lower, scale, recip, beta)
-            G.squared_error_gram(beta, size, held, q, err, loose, work)
+            lanes.back(zz, size, lower, scale, recip, betas[j])
+            G.squared_error_gram(betas[j], size, held, q, err, loose, work)
             for qq in range(count):
                 s = s0 + qq
                 for f in range(n_fits):
                     lane = qq * n_fits + f
-                    group_coef[qq, f, j, 0] = beta[0, lane]
-                    for k in range(1, p):
-                        group_coef[qq, f, j, k] = beta[m + k, lane] if k <= d else 0.0
-                    for c in range(m):
-                        group_gamma[qq, f, j, c] = beta[1 + c, lane]
                     coefficients = 1 + kept[lane] + d
                     fine = good[size - 1, lane] and cond[size - 1, lane] <= COND_LIMIT \
                         and train_rows[lane] > coefficients - 1
@@ -220,6 +215,15 @@ def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, g
                         sse_full[s, j] = max(sse, 0.0)
         for qq in range(count):
             s = s0 + qq
+            for f in range(n_fits):  # coefficients of the fits kept, or of every fit to sum its errors again
+                if every_fit or f == n_folds or suspect[qq]:
+                    lane = qq * n_fits + f
+                    for j in range(n_deg):
+                        group_coef[qq, f, j, 0] = betas[j, 0, lane]
+                        for k in range(1, p):
+                            group_coef[qq, f, j, k] = betas[j, m + k, lane] if k <= degrees[j] else 0.0
+                        for c in range(m):
+                            group_gamma[qq, f, j, c] = betas[j, 1 + c, lane]
             full = qq * n_fits + n_folds
             kept_full[s] = kept[full]
             _tie(train, lower, scale, good, full, n_nuis, p, s, vif, tied, redundant)
