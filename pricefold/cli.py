@@ -75,6 +75,10 @@ def build_parser() -> argparse.ArgumentParser:
     demo.add_argument("--dir", type=Path, default=Path("pricefold-demo"), metavar="DIR",
                       help="where to write results.json and ledger.jsonl (default: ./pricefold-demo)")
     demo.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
+    demo.add_argument("--control", action="append", default=[], metavar="COL",
+                      help="hold a column of the sample fixed while fitting: promo (the promotion weeks)")
+    demo.add_argument("--season", type=int, default=0, choices=range(5), metavar="K",
+                      help="hold K sine/cosine pairs of the season fixed, 0 to 4 (default: 0)")
 
     from .ledger_cli import add_parser as add_ledger_parser
     add_ledger_parser(commands)
@@ -110,7 +114,8 @@ def run_show(args) -> int:
     if not picked:
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
         return 1
-    print(detail(picked[0]) if len(picked) == 1 else table(picked))
+    binary = (header.get("settings", {}).get("controls") or {}).get("binary", [])
+    print(detail(picked[0], binary) if len(picked) == 1 else table(picked))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     return 0
@@ -209,7 +214,7 @@ def run_demo(args) -> int:
     folder = args.dir
     if folder.exists() and not folder.is_dir():
         raise DataError("exists and is not a folder; --dir names the folder for the demo's files", path=str(folder))
-    sample = sample_source()
+    sample = sample_source(tuple(args.control), args.season)
     inputs = [("the sample data", sample.data), ("the sample plan", sample.plan_file)]
     if folder.is_dir():
         check_outputs([(folder / "results.json", "results")], inputs)

@@ -43,7 +43,7 @@ def _check_ending(output: Path) -> None:
 def fit_locally(args, run) -> int:
     from fitcore import fit_batch
     from fitcore.data.loader import load_with_rejects
-    from fitcore.data.plan import plan_prices
+    from fitcore.data.plan import plan_keywords
     from fitcore.data.rejects import rejects_path, write_rejects
     from fitcore.outputs import Batch, remove_own
     from fitcore.results.write import write_results
@@ -62,10 +62,11 @@ def fit_locally(args, run) -> int:
             data.source.update(rejects_file=target.name, rejects_sha256=staged.sha256)
         else:
             data.source.update(rejects_file=None, rejects_sha256=None)
-        plan = plan_prices(data, run.plan_file) if run.plan_file else run.plan_price  # the plan's own delimiter
+        # the plan's own delimiter; with controls, its control columns and plan dates
+        plan = plan_keywords(data, run.plan_file, run.plan_price, season=run.settings.season)
         bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
         try:
-            results = fit_batch(data, run.settings, plan_price=plan, progress=bar)
+            results = fit_batch(data, run.settings, **plan, progress=bar)
         finally:
             bar.close()
         diagnosis = diagnose(results, run.thresholds)

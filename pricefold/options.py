@@ -76,6 +76,7 @@ def resolve(args) -> Resolved:
     from fitcore.data.columns import Columns
     from fitcore.data.config import load_config
     from fitcore.errors import SettingsError
+    from fitcore.fit.controls import check_controls, check_season
     from fitcore.fit.folds import check_time_order
     from fitcore.fit.settings import OPTIONS, FitSettings, provenance
     from fitcore.review.thresholds import Thresholds, parse_threshold_options
@@ -95,8 +96,11 @@ def resolve(args) -> Resolved:
             values[option.name] = option.value(config[option.table][option.name], f"{where}: [{option.table}] {option.name}")
         else:
             values[option.name] = option.default
-    columns = Columns(**{name: values[name] for name in ("product", "segments", "price", "volume", "date", "weight")})
+    columns = Columns(**{name: values[name] for name in ("product", "segments", "price", "volume", "date", "weight")},
+                      controls=tuple(dict.fromkeys(values["controls"])))
     check_time_order(values["fold_order"], columns.date is not None)
+    check_controls(columns)
+    check_season(values["season"], columns.date is not None)
     settings = FitSettings(**{o.name: values[o.name] for o in OPTIONS if o.group == "fit"})
     plan_file, plan_price = values["plan"], values["plan_price"]
     overrides = {k: v for k, v in config.get("thresholds", {}).items()}

@@ -6,6 +6,7 @@ import math
 from fitcore.data.keys import SEPARATOR
 from fitcore.review import choice
 from fitcore.review.attention import attention_order
+from fitcore.review.control_words import effect_words
 from fitcore.review.sentences import fmt, money
 from fitcore.text import clean
 
@@ -52,7 +53,27 @@ def why_chosen(record: dict) -> str:
     return choice.why_chosen(scored, record["chosen"], record["rule"])
 
 
-def detail(record: dict) -> str:
+def control_lines(record: dict, binary=()) -> list[str]:
+    """With controls: the values curves are held at, the chosen candidate's control effects, what is left out."""
+    values = record.get("control_values")
+    if values is None:
+        return []
+    held = ", ".join(f"{name} {fmt(v) if v is not None else '—'}" for name, v in values.items()
+                     if not name.startswith("season_"))
+    if any(name.startswith("season_") for name in values):
+        held += (", " if held else "") + "the season at the plan date (or its average over the year)"
+    out = ["", f"controls held at the plan's values: {held}"]
+    chosen = next((c for c in record["candidates"] if c["name"] == record["chosen"]), None)
+    if chosen and chosen.get("controls"):
+        out.append(f"  {chosen['name']}: " + " · ".join(effect_words(chosen["controls"], binary,
+                                                                       "smearing" in chosen)))
+    for name, why in (record.get("controls_left_out") or {}).items():
+        out.append(f"  left out: {clean(why)}")
+    return out
+
+
+def detail(record: dict, binary=()) -> str:
+    """One series in full; ``binary``: the 0/1 controls of the results (the header's settings)."""
     lo, hi = record["price_range"]
     out = [f"{key_text(record['key'])} — {record['n']} observations, prices {money(lo)}–{money(hi)}",
            f"chosen: {record['chosen'] or 'none'} ({record['rule']}): {why_chosen(record)}", "",
@@ -64,6 +85,7 @@ def detail(record: dict) -> str:
             continue
         out.append(f"{mark} {c['name']:<10} {fmt(c['cv_mse']):>12} {fmt(c['cv_se']):>10} "
                    f"{c['q2'] * 100:>5.0f}% {c['r2'] * 100:>5.0f}%")
+    out.extend(control_lines(record, binary))
     out.append("")
     if record["flags"]:
         out.append("flags:")

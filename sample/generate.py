@@ -6,13 +6,23 @@ are points of the compass, the numbers come from the seeded generator below.
 Run ``python sample/generate.py`` to rewrite ``wholesale.csv`` and ``plan.csv``
 (the output is byte-for-byte the same on every run).
 
-A few series are awkward on purpose, so every doubt the triage screen can
-raise has a live example:
+Every row says whether its week was a promotion (``promo`` = 1: the price was
+cut 10–30% that week).  A few series are awkward on purpose, so every doubt
+the triage screen can raise has a live example:
 
 - ``saffron threads 1 g`` (North): only 9 weeks of history;
 - ``table salt 1 kg``: a price that barely moves;
-- ``truffle oil 250 ml``: volume that rises with price (promotions were cut
-  in weeks of heavy demand, so price and demand are confounded);
+- ``truffle oil 250 ml``: volume that rises with price — promotions were cut
+  in weeks of heavy demand, so the promotion weeks are the quiet ones and
+  price and demand are confounded.  Fitted with ``--control promo`` the curve
+  falls with price again: the promotion flag carries the difference between
+  quiet and busy weeks;
+- ``ground coffee 250 g``: promotion weeks came with an in-store display that
+  sold 30% more than the price cut alone; the plan has a promotion week for
+  it in the South (``plan.csv``'s ``promo`` column);
+- ``strawberries 400 g``, ``blueberries 150 g``, ``mangoes 2 pack``: seasonal
+  produce, plentiful and cheaper in their season (``--season 1`` holds the
+  season fixed);
 - ``cherry tomatoes 250 g`` (South): one week with a bulk order 6× normal;
 - ``fresh figs 500 g``: weeks with zero sales (out of stock);
 - ``dried apricots 500 g`` (East): a plan price far above anything charged;
@@ -42,7 +52,7 @@ PRODUCTS = [
     ("onions 1 kg", 1.20, 760, -0.5, 0.0), ("garlic 3 pack", 1.00, 300, -0.7, 0.0),
     ("broccoli each", 1.30, 540, -1.2, 0.4), ("spinach 200 g", 1.70, 410, -1.6, 0.0),
     ("lettuce each", 0.95, 620, -1.3, 0.0), ("peppers 3 pack", 2.10, 480, -1.4, 0.0),
-    ("mushrooms 250 g", 1.60, 560, -1.5, 0.0), ("avocados 2 pack", 2.50, 390, -2.1, 0.6),
+    ("mushrooms 250 g", 1.60, 560, -1.5, 0.0), ("mangoes 2 pack", 2.50, 390, -2.1, 0.6),
     ("fresh figs 500 g", 4.50, 60, -1.8, 0.0), ("fresh herbs 30 g", 0.90, 330, -1.1, 0.0),
     ("basmati rice 1 kg", 2.70, 640, -0.9, 0.0), ("long grain rice 1 kg", 1.60, 700, -0.8, 0.0),
     ("pasta 500 g", 0.95, 1200, -1.2, 0.0), ("spaghetti 500 g", 0.90, 1100, -1.2, 0.0),
@@ -66,13 +76,15 @@ PRODUCTS = [
 ]
 REGION_SCALE = {"North": 1.0, "East": 0.8, "South": 1.2}
 FIRST_WEEK = date(2024, 12, 2)
+# Produce with a season: the week of the year its season peaks, and how far volume swings over the year.
+SEASONAL = {"strawberries 400 g": (26, 0.45), "blueberries 150 g": (30, 0.35), "mangoes 2 pack": (20, 0.40)}
 
 
-def price_path(rng: np.random.Generator, base: float, weeks: int) -> np.ndarray:
-    """List price with occasional changes, plus promotion weeks at 10–30% off."""
+def price_path(rng: np.random.Generator, base: float, weeks: int) -> tuple[np.ndarray, np.ndarray]:
+    """List price with occasional changes, plus promotion weeks at 10–30% off; and which weeks those were."""
     level = base * np.exp(np.cumsum(np.where(rng.random(weeks) < 0.08, rng.normal(0, 0.06, weeks), 0.0)))
     promo = rng.random(weeks) < 0.25
-    return np.round(level * np.where(promo, 1 - rng.uniform(0.1, 0.3, weeks), 1.0), 2)
+    return np.round(level * np.where(promo, 1 - rng.uniform(0.1, 0.3, weeks), 1.0), 2), promo
 
 
 def demand(rng, price, base, volume, elasticity, curvature, weeks):
@@ -83,17 +95,33 @@ def demand(rng, price, base, volume, elasticity, curvature, weeks):
     return np.maximum(np.round(mean * rng.lognormal(0, 0.07, weeks)), 0)
 
 
+def in_season(name: str, weeks: int) -> np.ndarray:
+    """(weeks,) between -1 (out of season) and 1 (its peak), by the week of the year."""
+    peak, _ = SEASONAL[name]
+    week_of_year = (FIRST_WEEK.isocalendar()[1] + np.arange(weeks)) % 52
+    return np.cos(2 * np.pi * (week_of_year - peak) / 52)
+
+
 def series_rows(rng, name, region, base, volume, elasticity, curvature):
+    """One series' rows (``rng`` draws the same numbers for every series whatever is added since)."""
     weeks = WEEKS
-    price = price_path(rng, base, weeks)
+    price, promo = price_path(rng, base, weeks)
+    if name in SEASONAL:  # cheaper in season
+        price = np.round(price * (1 - 0.08 * in_season(name, weeks)), 2)
     if name == "table salt 1 kg":
         price = np.round(base * (1 + rng.choice([0, 0, 0, 0.01], weeks)), 2)
     if name == "flour 1 kg" and region == "South":
         price = np.where(np.arange(weeks) < 60, base, base * 1.12).round(2)
     vol = demand(rng, price, base, volume * REGION_SCALE[region], elasticity, curvature, weeks)
+    if name in SEASONAL:
+        vol = np.round(vol * (1 + SEASONAL[name][1] * in_season(name, weeks)))
+    if name == "ground coffee 250 g":  # a display in promotion weeks: volume beyond the price cut's
+        vol = np.round(vol * np.where(promo, 1.3, 1.0))
     if name == "truffle oil 250 ml":
-        # Promotions were pulled in busy weeks: observed volume rises with price.
-        vol = np.round(volume * REGION_SCALE[region] * (0.6 + 0.5 * (price / base - 0.8) / 0.4)
+        # Promotions ran only in quiet weeks (pulled from the busy ones), so the busy weeks are all at the
+        # list price and observed volume rises with price; within promotion weeks, and within the others,
+        # it falls.
+        vol = np.round(volume * REGION_SCALE[region] * (price / base) ** -1.2 * np.where(promo, 1.0, 2.0)
                        * rng.lognormal(0, 0.08, weeks))
     if name == "lemons 500 g" and region == "East":
         # Straight-line demand: a plan far above history sends the line below zero.
@@ -105,8 +133,8 @@ def series_rows(rng, name, region, base, volume, elasticity, curvature):
     start = 0
     if name == "saffron threads 1 g" and region == "North":
         start = weeks - 9
-    return [(name, region, (FIRST_WEEK + timedelta(weeks=int(w))).isoformat(), f"{price[w]:.2f}", int(vol[w]))
-            for w in range(start, weeks)]
+    return [(name, region, (FIRST_WEEK + timedelta(weeks=int(w))).isoformat(), f"{price[w]:.2f}", int(vol[w]),
+             int(promo[w])) for w in range(start, weeks)]
 
 
 def main(folder: Path = Path(__file__).parent) -> None:
@@ -121,14 +149,16 @@ def main(folder: Path = Path(__file__).parent) -> None:
             planned = usual * rng.choice([1.0, 0.97, 1.03])
             if (name, region) in (("dried apricots 500 g", "East"), ("lemons 500 g", "East")):
                 planned = base * (1.9 if name.startswith("dried") else 2.2)
-            plan.append((name, region, f"{planned:.2f}"))
+            # A regular week everywhere but the promotion planned for ground coffee in the South.
+            promoted = (name, region) == ("ground coffee 250 g", "South")
+            plan.append((name, region, f"{planned:.2f}", int(promoted)))
     with open(folder / "wholesale.csv", "w", newline="", encoding="utf-8") as handle:
         writer = csv.writer(handle)
-        writer.writerow(["product", "region", "week", "price", "volume"])
+        writer.writerow(["product", "region", "week", "price", "volume", "promo"])
         writer.writerows(rows)
     with open(folder / "plan.csv", "w", newline="", encoding="utf-8") as handle:
         writer = csv.writer(handle)
-        writer.writerow(["product", "region", "plan_price"])
+        writer.writerow(["product", "region", "plan_price", "promo"])
         writer.writerows(plan)
 
 

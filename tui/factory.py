@@ -68,13 +68,13 @@ def fit_source(source: Source, progress: Callable[[int, int], None] | None = Non
     """``(results, diagnosis)`` of the source, its settings recording how to fit it again."""
     from fitcore import fit_batch
     from fitcore.data.loader import load
-    from fitcore.data.plan import plan_prices
+    from fitcore.data.plan import plan_keywords
     from fitcore.review.flags import diagnose
     data = load(source.data, source.columns)
-    plan = plan_prices(data, source.plan_file) if source.plan_file else source.plan_price
+    plan = plan_keywords(data, source.plan_file, source.plan_price, season=source.settings.season)
     extra = provenance(source.columns.as_dict(), str(source.plan_file) if source.plan_file else None,
                        source.plan_price)
-    results = fit_batch(data, replace(source.settings, extra=extra), plan_price=plan, progress=progress)
+    results = fit_batch(data, replace(source.settings, extra=extra), **plan, progress=progress)
     return results, diagnose(results, source.thresholds)
 
 
@@ -118,11 +118,12 @@ def refit_stored(source: Source, progress: Callable[[int, int], None] | None = N
     return fit_source(source, progress)
 
 
-def sample_source() -> Source:
+def sample_source(controls: tuple[str, ...] = (), season: int = 0) -> Source:
+    """The bundled sample; ``controls`` (its ``promo`` column) and ``season`` pairs held fixed if asked."""
     if not (SAMPLE / "wholesale.csv").exists():
         raise DataError("the bundled sample is not here; run pricefold from a source checkout", path=str(SAMPLE))
-    return Source(data=SAMPLE / "wholesale.csv", columns=Columns(segments=("region",), date="week"),
-                  plan_file=SAMPLE / "plan.csv")
+    return Source(data=SAMPLE / "wholesale.csv", columns=Columns(segments=("region",), date="week", controls=controls),
+                  settings=FitSettings(season=season), plan_file=SAMPLE / "plan.csv")
 
 
 def default_ledger(results_or_data: Path) -> Path:

@@ -23,6 +23,8 @@ KEYS = [
     ("/", "search every series by key; / and Enter again for the next match"),
     ("f", "filter: needs attention, all, pending, held, decided — and one flag (counts shown)"),
     ("s", "sort: attention, key, lowest score, fewest observations"),
+    ("c", "with controls: the observations chart between raw volumes and volumes adjusted to the plan's "
+          "controls (what each week would have sold at its price with the controls as planned)"),
     ("?", "this help"),
     ("q", "quit (every decision is already in the ledger)"),
 ]

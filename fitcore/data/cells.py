@@ -22,7 +22,8 @@ SPELLED_NONFINITE = ["nan", "inf", "-inf", "+inf", "infinity", "-infinity", "+in
 
 
 def number_names(columns: Columns) -> list[str]:
-    return [name for name in (columns.price, columns.volume, columns.weight) if name]
+    return list(dict.fromkeys(name for name in (columns.price, columns.volume, columns.weight, *columns.controls)
+                              if name))
 
 
 def raw_from_table(table: pa.Table, columns: Columns, line: np.ndarray):

@@ -19,24 +19,27 @@ class Columns:
     volume: str = "volume"
     date: str | None = None
     weight: str | None = None
+    controls: tuple[str, ...] = ()  # other drivers of volume, held fixed while price curves are fitted
 
     @property
     def keys(self) -> tuple[str, ...]:
         return (self.product, *self.segments)
 
     def as_dict(self) -> dict:
-        return {"product": self.product, "segments": list(self.segments), "price": self.price,
-                "volume": self.volume, "date": self.date, "weight": self.weight}
+        out = {"product": self.product, "segments": list(self.segments), "price": self.price,
+               "volume": self.volume, "date": self.date, "weight": self.weight}
+        return out | ({"controls": list(self.controls)} if self.controls else {})
 
     @classmethod
     def from_dict(cls, values: dict) -> "Columns":
         return cls(product=values["product"], segments=tuple(values.get("segments", ())), price=values["price"],
-                   volume=values["volume"], date=values.get("date"), weight=values.get("weight"))
+                   volume=values["volume"], date=values.get("date"), weight=values.get("weight"),
+                   controls=tuple(values.get("controls", ())))
 
     @property
     def needed(self) -> list[str]:
         extra = [c for c in (self.date, self.weight) if c]
-        return list(dict.fromkeys([*self.keys, self.price, self.volume, *extra]))
+        return list(dict.fromkeys([*self.keys, self.price, self.volume, *extra, *self.controls]))
 
 
 def file_sha256(path: Path) -> str:

@@ -10,11 +10,13 @@ naming the valid ones.  For example::
     segments = ["region"]
     date = "week"
     sep = ";"              # one character; "\\t" for tab
+    controls = ["promo"]   # held fixed while every curve is fitted
 
     [fit]
     degrees = "0-3"        # or [0, 1, 2, 3]
     folds = 5              # or "loo"
     fold_order = "time"
+    season = 2             # sine/cosine pairs of the day of the year, 0-4
     plan_price = 2.5       # or plan = "plan.csv"
 
     [thresholds]

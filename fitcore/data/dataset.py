@@ -28,6 +28,9 @@ class Dataset:
     - ``date``: (N,) datetime64[ns] or None.
     - ``line``: (N,) int64, the row's line in the input file (header = line 1).
     - ``source``: where the rows came from (path, sha256, rows read, rows rejected).
+    - ``controls``: column name → (N,) float64, the control columns (none by default);
+      ``control_binary``: name → whether the column holds only 0 and 1 in the whole input
+      (found from these rows where not given: a partition of a larger input is told).
     """
 
     key_names: tuple[str, ...]
@@ -39,6 +42,8 @@ class Dataset:
     date: np.ndarray | None = None
     line: np.ndarray | None = None
     source: dict = field(default_factory=dict)
+    controls: dict = field(default_factory=dict)
+    control_binary: dict = field(default_factory=dict)
 
     @property
     def n_series(self) -> int:
@@ -70,12 +75,13 @@ class Dataset:
 
     @cached_property
     def fingerprints(self) -> list[str]:
-        """SHA-256 of each series' rows (price, volume, and weight and date where given)."""
+        """SHA-256 of each series' rows (price, volume, and weight, date and controls where given)."""
         columns = [self.price, self.volume]
         if self.weight is not None:
             columns.append(self.weight)
         if self.date is not None:
             columns.append(self.date.view(np.int64))
+        columns.extend(self.controls.values())
         table = np.ascontiguousarray(np.column_stack(columns)).view(np.uint8)
         width = table.shape[1]
         flat = table.reshape(-1)
@@ -84,10 +90,13 @@ class Dataset:
 
 
 def from_columns(keys: dict[str, np.ndarray], price, volume, *, weight=None, date=None,
-                 line=None, source: dict | None = None) -> Dataset:
+                 line=None, source: dict | None = None, controls: dict | None = None,
+                 control_binary: dict | None = None) -> Dataset:
     """Group rows into series by their key columns (first appearance order).
 
     Rows of one series keep their input order; rows need not arrive grouped.
+    ``controls``: name → (N,) values of each control column; ``control_binary``: name → 0/1 or not
+    over the whole input (default: found from these rows).
     """
     key_names = tuple(keys)
     codes = _series_codes([keys[name] for name in key_names])
@@ -104,12 +113,15 @@ def from_columns(keys: dict[str, np.ndarray], price, volume, *, weight=None, dat
     key_values = {name: _strings(keys[name], rows_of_first) for name in key_names}
     price = take(np.asarray(price, dtype=np.float64))
     volume = take(np.asarray(volume, dtype=np.float64))
+    held = {name: _readonly(take(np.asarray(values, dtype=np.float64))) for name, values in (controls or {}).items()}
+    binary = {name: bool((control_binary or {}).get(name, np.all((values == 0) | (values == 1))))
+              for name, values in held.items()}
     return Dataset(
         key_names, key_values, _readonly(offsets), _readonly(price), _readonly(volume),
         None if weight is None else _readonly(take(np.asarray(weight, dtype=np.float64))),
         None if date is None else _readonly(take(np.asarray(date, dtype="datetime64[ns]"))),
         _readonly(take(np.arange(2, n + 2, dtype=np.int64) if line is None else np.asarray(line, np.int64))),
-        dict(source or {}))
+        dict(source or {}), held, binary)
 
 
 def _strings(column, rows: np.ndarray) -> np.ndarray:

@@ -52,7 +52,8 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
 
     path = Path(path)
     rows, kind, delimiter = read_rows(path, columns, sep)
-    why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date)
+    why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date,
+                          controls=columns.controls)
     bad = np.flatnonzero(~usable)
     rejects = Rejects(path, kind, delimiter, rows.line[bad], why[bad].tolist())
     if len(bad) == rows.n_rows:
@@ -65,7 +66,8 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
               "rejected": int(len(bad))}
     dataset = from_columns(keys, number(columns.price), number(columns.volume),
                            weight=number(columns.weight) if columns.weight else None,
-                           date=rows.date[0][keep] if columns.date else None, line=rows.line[keep], source=source)
+                           date=rows.date[0][keep] if columns.date else None, line=rows.line[keep], source=source,
+                           controls={name: number(name) for name in columns.controls})
     return dataset, rejects
 
 

@@ -1,6 +1,8 @@
-"""Plan prices per series, read from a file of key columns + ``plan_price``."""
+"""The plan per series, read from a file of key columns + ``plan_price`` (and, with controls, a column
+per control and ``plan_date`` for the season terms, each optional)."""
 from __future__ import annotations
 
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -10,23 +12,58 @@ from ..errors import DataError
 from .dataset import Dataset
 from .loader import Columns, read_rows
 
+PLAN_DATE = "plan_date"
+
+
+@dataclass(frozen=True, eq=False)
+class Plan:
+    """Per series (S,): ``price`` (NaN where the file names none); ``controls``: column → plan values (NaN
+    where the file gives none: the default applies); ``date``: the plan dates (NaT: none) or None."""
+
+    price: np.ndarray
+    controls: dict
+    date: np.ndarray | None
+
 
 def plan_prices(data: Dataset, path: str | Path, sep: str | None = None, *, partial: bool = False) -> np.ndarray:
-    """(S,) the plan price of each series, NaN where the file names none.
+    """(S,) the plan price of each series, NaN where the file names none (``read_plan``)."""
+    return read_plan(data, path, sep, partial=partial).price
 
-    Every row must name a series of ``data`` with a price above zero, once.
+
+def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partial: bool = False,
+              controls: tuple[str, ...] = (), season: bool = False) -> Plan:
+    """The plan of each series of ``data``.
+
+    Every row must name a series of ``data`` with a price above zero, once.  ``controls``: the control
+    columns the file may carry (a number each; an empty cell leaves the default); ``season``: whether it
+    may carry ``plan_date`` (an ISO date; empty leaves the default).
     ``partial``: ``data`` holds only some of the series (one partition), so rows naming
     other series are passed over rather than refused.
     """
     path = Path(path)
     keys = list(data.key_names)
-    columns = Columns(product=keys[0], segments=tuple(keys[1:]), price="plan_price", volume="plan_price")
+    present = set(_header_names(path, sep, [*keys, "plan_price"])) if controls or season else set()
+    given = tuple(name for name in controls if name in present)
+    dated = season and PLAN_DATE in present
+    columns = Columns(product=keys[0], segments=tuple(keys[1:]), price="plan_price", volume="plan_price",
+                      date=PLAN_DATE if dated else None, controls=given)
     rows, _, _ = read_rows(path, columns, sep)
     price, not_number, _ = rows.numbers["plan_price"]
     bad = not_number | ~np.isfinite(price) | (price <= 0)
     if bad.any():
         first = int(np.argmax(bad))
         raise DataError("expected a price above zero", path=str(path), line=int(rows.line[first]), column="plan_price")
+    for name in given:
+        values, not_number, missing = rows.numbers[name]
+        wrong = not_number | (~np.isfinite(values) & ~missing)
+        if wrong.any():
+            first = int(np.argmax(wrong))
+            raise DataError("expected a number (or an empty cell for the default)", path=str(path),
+                            line=int(rows.line[first]), column=name)
+    if dated and rows.date[1].any():
+        first = int(np.argmax(rows.date[1]))
+        raise DataError("expected an ISO date (or an empty cell for the default)", path=str(path),
+                        line=int(rows.line[first]), column=PLAN_DATE)
     table = pd.DataFrame({name: np.asarray(rows.keys[name], dtype=object).astype(str) for name in keys})
     dup = table.duplicated().to_numpy()
     if dup.any():
@@ -37,12 +74,40 @@ def plan_prices(data: Dataset, path: str | Path, sep: str | None = None, *, part
     series["_s"] = np.arange(data.n_series)
     merged = table.merge(series, on=keys, how="left")
     unknown = merged["_s"].isna().to_numpy()
+    keep = np.ones(len(unknown), dtype=bool)
     if partial:
-        merged, price = merged[~unknown], price[~unknown]
+        keep = ~unknown
     elif unknown.any():
         first = int(np.argmax(unknown))
         names = ", ".join(f"{k}={merged[k].iloc[first]!r}" for k in keys)
         raise DataError(f"no series in the data has this key ({names})", path=str(path), line=int(rows.line[first]))
-    out = np.full(data.n_series, np.nan)
-    out[merged["_s"].to_numpy(np.int64)] = price
-    return out
+    at = merged["_s"].to_numpy()[keep].astype(np.int64)
+
+    def spread(values, empty):
+        out = np.full(data.n_series, empty, dtype=np.asarray(values).dtype)
+        out[at] = np.asarray(values)[keep]
+        return out
+    return Plan(spread(price, np.nan), {name: spread(rows.numbers[name][0], np.nan) for name in given},
+                spread(rows.date[0], np.datetime64("NaT")) if dated else None)
+
+
+def _header_names(path: Path, sep: str | None, wanted: list[str]) -> list[str]:
+    """The column names of a plan file (which optional columns it has)."""
+    from .loader import file_kind
+    from .textfile import check_file, header_line, sniff_delimiter, split_header
+    check_file(path)
+    kind, preferred = file_kind(path)
+    if kind == "parquet":
+        from .read_parquet import parquet_names
+        return parquet_names(path)
+    return split_header(header_line(path), sep or sniff_delimiter(path, wanted, preferred))
+
+
+def plan_keywords(data: Dataset, plan_file: str | Path | None, plan_price: float | None, sep: str | None = None, *,
+                  season: int = 0, partial: bool = False) -> dict:
+    """``fit_batch``'s plan keywords for ``data``: ``plan_price`` and, from a plan file, the controls' plan
+    values (``plan_controls``) and the plan dates for ``season`` terms (``plan_date``)."""
+    if plan_file is None:
+        return {"plan_price": plan_price}
+    plan = read_plan(data, plan_file, sep, partial=partial, controls=tuple(data.controls), season=bool(season))
+    return {"plan_price": plan.price, "plan_controls": plan.controls or None, "plan_date": plan.date}

@@ -43,11 +43,12 @@ class RawRows:
 
 
 def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
-            date: str | None, duplicates: bool = True) -> tuple[np.ndarray, np.ndarray]:
+            date: str | None, duplicates: bool = True, controls: tuple[str, ...] = ()) -> tuple[np.ndarray, np.ndarray]:
     """``(why, usable)``: (N,) the reason each row is rejected (None for a usable row), and (N,) bool usable.
 
     ``duplicates=False`` leaves the repeated series-and-date check to the caller (``duplicate_rows``), for
-    rows read in pieces whose repeats may lie in another piece.
+    rows read in pieces whose repeats may lie in another piece.  ``controls``: the control columns, each
+    missing, non-numeric or non-finite cell a reason (controls may be negative).
     """
     n = rows.n_rows
     out = None  # the reasons, made at the first rejected row: a clean file needs no N-object array
@@ -78,6 +79,8 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
     for name in (price, volume, weight):
         if name:
             _number_reasons(mark, name, *rows.numbers[name])
+    for name in controls:
+        _number_reasons(mark, name, *rows.numbers[name], signed=True)
     if date and rows.date is not None:
         values, unreadable, outside = rows.date
         mark(unreadable, f"unparseable {date}")
@@ -98,11 +101,12 @@ def _empty(values: pd.Categorical) -> np.ndarray:
     return (codes < 0) | (blank[np.maximum(codes, 0)] if len(blank) else True)
 
 
-def _number_reasons(mark, name, values, not_number, missing):
+def _number_reasons(mark, name, values, not_number, missing, signed: bool = False):
     mark(not_number, f"non-numeric {name}")
     mark(missing, f"missing {name}")
     mark(~np.isfinite(values), f"non-finite {name}")
-    mark(values < 0, f"negative {name}")
+    if not signed:
+        mark(values < 0, f"negative {name}")
 
 
 def _duplicates(rows: RawRows, dates: np.ndarray, reject, open_rows: np.ndarray) -> None:

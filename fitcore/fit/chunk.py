@@ -2,8 +2,9 @@
 
 Everything a family needs to fit the chunk: the rows (price, volume,
 weight), each series' price window and the price mapped onto it, the
-volume centred, the fold layout and its scheme, and the weighted sums of
-the centred volume that Q² and R² are judged by.
+volume centred, the fold layout and its scheme, the weighted sums of
+the centred volume that Q² and R² are judged by, and the controls (centred
+per series, ``controls``) when the fit has any.
 """
 from __future__ import annotations
 
@@ -12,6 +13,7 @@ import numpy as np
 from ..data.dataset import Dataset
 from . import reasons
 from .basis import window, window_rows
+from .controls import ControlSpec, chunk_controls
 from .folds import FoldScheme
 from .scores import moments
 from .segments import segment_sums
@@ -23,10 +25,12 @@ class Chunk:
     ``t``: price mapped onto each series' window [``lo``, ``hi``] (``window``: mid, half);
     ``y``: volume less its weighted mean ``ybar``; ``v_low``: the least volume; ``w_sum``:
     total weight; ``weight_reason``: ``reasons.NO_WEIGHT`` or ``WEIGHT_OVERFLOW`` for a series its
-    weights leave nothing to fit, else 0; ``lay``: the fold layout; ``moments``: ``scores.Moments`` of ``y``.
+    weights leave nothing to fit, else 0; ``lay``: the fold layout; ``moments``: ``scores.Moments`` of ``y``;
+    ``controls``: ``controls.ChunkControls`` (None without controls).
     """
 
-    def __init__(self, data: Dataset, s0: int, s1: int, scheme: FoldScheme) -> None:
+    def __init__(self, data: Dataset, s0: int, s1: int, scheme: FoldScheme, spec: ControlSpec | None = None,
+                 plan: np.ndarray | None = None) -> None:
         r0, r1 = int(data.offsets[s0]), int(data.offsets[s1])
         self.scheme = scheme
         self.offsets = data.offsets[s0:s1 + 1] - r0
@@ -53,6 +57,8 @@ class Chunk:
         self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
         self.window = window(self.lo, self.hi)
         self.moments = moments(self.y, self.weight, self.lay.bounds, self.lay.held_out)
+        self.controls = None if spec is None else chunk_controls(spec.raw(data, r0, r1, order), self.weight,
+                                                                 self.offsets, plan)
 
     def windowed(self, x: np.ndarray, y: np.ndarray, use: np.ndarray | None = None):
         """(x mapped onto each series' window, y less its weighted mean, lo, hi, mean y, least y);

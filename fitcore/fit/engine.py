@@ -5,7 +5,9 @@ so that work arrays stay cache-sized; within a chunk nothing loops over
 series in Python.  A chunk's fit reads as its stages (``_fit_chunk``):
 each family fits every candidate on every fold; the held-out errors become
 scores; unavailable cells are marked; the rule chooses; then the plan-price
-prediction, the revenue-best price and the largest Cook's distance.
+prediction, the revenue-best price and the largest Cook's distance.  With
+controls (``controls``), the chunk carries them, every family fits them beside
+its price terms, and the plan-price stages hold them at the plan's values.
 """
 from __future__ import annotations
 
@@ -17,6 +19,7 @@ from ..data.dataset import Dataset
 from . import reasons as R
 from . import stages
 from .chunk import Chunk
+from .controls import ControlSpec
 from .families import Lineup, lineup_for
 from .folds import FoldScheme, fold_scheme
 from .results import Results
@@ -26,23 +29,29 @@ from .settings import FitSettings
 CHUNK_ROWS = 1 << 17
 
 
-def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_price=None,
-              progress: Callable[[int, int], None] | None = None) -> Results:
+def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_price=None, plan_controls=None,
+              plan_date=None, progress: Callable[[int, int], None] | None = None) -> Results:
     """Fit, cross-validate and choose a curve for every series of ``data``.
 
     ``plan_price``: None, one price for every series, or an (S,) array with
-    NaN where a series has no plan.  ``progress(done, total)`` is called after
-    each chunk with counts of series.
+    NaN where a series has no plan.  With controls (``data.controls``,
+    ``settings.season``): ``plan_controls`` None or column → (S,) plan values
+    (NaN: the default), ``plan_date`` None or (S,) datetime64 (NaT: the
+    default) for the season terms (``controls.ControlSpec.plan_values``).
+    ``progress(done, total)`` is called after each chunk with counts of series.
     """
     n_series = data.n_series
     plan = np.full(n_series, np.nan) if plan_price is None else np.broadcast_to(
         np.asarray(plan_price, dtype=np.float64), (n_series,)).copy()
     lineup, scheme = lineup_for(settings), fold_scheme(settings)
+    spec = ControlSpec.of(data, settings)
+    at_controls = None if spec is None else spec.plan_values(n_series, plan_controls, plan_date)
     merged = None
     cuts = _chunk_cuts(data.offsets)
     fold_start = np.concatenate(([0], np.cumsum(scheme.error_counts(data.counts)))).astype(np.int64)
     for lo, hi in zip(cuts[:-1], cuts[1:]):
-        part = _fit_chunk(data, lo, hi, settings, lineup, scheme, plan[lo:hi])
+        part = _fit_chunk(data, lo, hi, settings, lineup, scheme, plan[lo:hi], spec,
+                          None if spec is None else at_controls[lo:hi])
         if merged is None:  # one allocation per output, filled chunk by chunk
             merged = {name: np.empty((_total(name, n_series, data.n_rows, int(fold_start[-1])),) + value.shape[1:],
                                      dtype=value.dtype) for name, value in part.items()}
@@ -50,13 +59,15 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
             merged[name][_span(name, lo, hi, data.offsets, fold_start)] = value
         if progress is not None:
             progress(hi, n_series)
-    return Results.build(data, settings, lineup.candidates, plan, merged)
+    return Results.build(data, settings, lineup.candidates, plan, merged, spec)
 
 
 def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, lineup: Lineup, scheme: FoldScheme,
-               plan: np.ndarray) -> dict:
-    ch = Chunk(data, s0, s1, scheme)
+               plan: np.ndarray, spec: ControlSpec | None = None, at_controls: np.ndarray | None = None) -> dict:
+    ch = Chunk(data, s0, s1, scheme, spec, at_controls)
     fits = [family.fit(ch, lineup.candidates[cols]) for family, cols in lineup.groups]
+    if ch.controls is not None:
+        stages.hold_controls(ch, lineup, fits)
     cells = stages.gather(ch, lineup, fits)
     scores = scheme.scores(cells.held_out, ch.offsets, ch.weight, ch.moments)
     reason = stages.unavailable(ch, lineup, cells)
@@ -67,11 +78,14 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, lineup: L
         r2 = np.where(available, 1 - cells.sse / ch.moments.tss[:, None], nan)
     cv_mse, cv_se = np.where(available, scores.cv_mse, nan), np.where(available, scores.cv_se, nan)
     chosen = choose(settings.rule, cv_mse, cv_se, available, lineup.complexity, ch.moments.tss / ch.w_sum)
-    plan_volume, plan_lo, plan_hi, plan_elasticity = stages.at_plan(lineup, fits, cells, available, plan,
-                                                                    settings.level)
+    plan_volume, plan_lo, plan_hi, plan_elasticity = stages.at_plan(
+        lineup, fits, cells, available, plan, settings.level, None if ch.controls is None else ch.controls.offset)
     top_cook, top_row = stages.influence(ch, lineup, fits, cells, chosen)
     keep = scheme.keep(available, ch.counts)
-    return dict(
+    held = {} if ch.controls is None else dict(
+        control_coef=cells.gamma, control_left_out=ch.controls.left_out, control_plan=ch.controls.plan,
+        control_vif=ch.controls.vif, control_tied=ch.controls.tied)
+    return held | dict(
         available=available, reason=reason, cv_mse=cv_mse, cv_se=cv_se, r2=r2, q2=q2,
         fold_err=np.where(keep, scores.fold_err, nan).reshape(-1, len(lineup.candidates)),
         n_folds=scheme.error_counts(ch.counts), price_lo=ch.lo, price_hi=ch.hi, mid=ch.window[0],

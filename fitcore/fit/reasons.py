@@ -13,6 +13,11 @@ LEVERAGE_ONE = 6
 NOT_SERVED = 7  # the family cannot fit the series (e.g. a log of a price or volume ≤ 0)
 NO_WEIGHT = 8  # every observation of the series weighs zero
 WEIGHT_OVERFLOW = 9  # the series' weighted sums overflow
+CONTROL_TIED = 10  # a price term cannot be told apart from the controls
+
+# Above this variance inflation of price given the controls (their R² above 0.9999), a price term
+# that cannot be fitted is put down to the controls rather than to the prices.
+TIED_VIF = 1e4
 
 
 def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int, unserved: str | None = None
@@ -40,6 +45,8 @@ def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int,
         return "every observation of this series weighs zero, so there is nothing to fit"
     if code == WEIGHT_OVERFLOW:
         return "the weights are too large: weighted sums of squares overflow (scale the weights down)"
+    if code == CONTROL_TIED:
+        return "price moves in step with the controls in this series, so its effect cannot be told apart from theirs"
     raise ValueError(f"unknown reason code {code}")
 
 

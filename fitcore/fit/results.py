@@ -16,6 +16,38 @@ SCHEMA = "pricefold-results/1"
 
 
 @dataclass(frozen=True, eq=False)
+class ControlResults:
+    """The controls of a fit: M terms (the data's control columns, then the season terms).
+
+    ``names`` (M,), ``binary`` (M,) which are 0/1 columns, ``season`` K; per series × candidate ×
+    term ``coef`` (S, C, M): each candidate's control coefficients in the term's own units, on the
+    family's fit scale (ln volume for the log families), 0 where left out for the series; per
+    series × term ``left_out`` (S, M) int8 (``controls.KEPT``, ``CONSTANT``, ``REDUNDANT``) and
+    ``plan`` (S, M) the values every curve, interval and flag holds the controls at; per series
+    ``vif`` (S,) variance inflation of price given the controls kept and ``tied`` (S,) the term
+    moving most with price (-1: none).
+    """
+
+    names: tuple[str, ...]
+    binary: tuple[bool, ...]
+    season: int
+    coef: np.ndarray
+    left_out: np.ndarray
+    plan: np.ndarray
+    vif: np.ndarray
+    tied: np.ndarray
+
+    @cached_property
+    def shift(self) -> np.ndarray:
+        """(S, C) Σ coef·plan: what the controls add to each curve at the plan's values (fit scale)."""
+        return np.einsum("scm,sm->sc", np.asarray(self.coef), self.plan)
+
+    @cached_property
+    def kept(self) -> np.ndarray:
+        return (np.asarray(self.left_out) == 0).sum(axis=1)
+
+
+@dataclass(frozen=True, eq=False)
 class Results:
     """Everything ``fit_batch`` computed.  S series, C candidates, P = the widest candidate's coefficients.
 
@@ -34,7 +66,9 @@ class Results:
     window), ``plan_price``, ``revenue_price``.  Under the chosen curve, per
     series: ``top_cook``, the largest Cook's distance of its rows (-1 where
     none), and ``top_row``, the dataset row holding it (-1 where none);
-    ``influence.series_influence`` gives every row's.
+    ``influence.series_influence`` gives every row's.  With controls, ``coef``
+    is each price curve at the plan's control values (``controls.plan``) and
+    ``controls`` holds the rest (``ControlResults``).
     """
 
     data: Dataset
@@ -67,20 +101,26 @@ class Results:
     revenue_price: np.ndarray
     top_cook: np.ndarray
     top_row: np.ndarray
+    controls: ControlResults | None = None  # with controls: their coefficients, plan values, left-outs
 
     rows_loaded = True  # the observations are in ``data`` (False for results read back from a file)
 
     @classmethod
-    def build(cls, data: Dataset, settings: FitSettings, candidates, plan_price, parts: dict | None) -> "Results":
+    def build(cls, data: Dataset, settings: FitSettings, candidates, plan_price, parts: dict | None,
+              spec=None) -> "Results":
         n_c = len(candidates)
         if parts is None:  # no series at all
-            parts = _empty(n_c, Lineup.of(candidates).width)
+            parts = _empty(n_c, Lineup.of(candidates).width, 0 if spec is None else len(spec.names))
         n_folds = parts.pop("n_folds")
         fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
+        held = {name[len("control_"):]: parts.pop(name) for name in list(parts) if name.startswith("control_")}
         fields = dict(parts, fold_start=fold_start, plan_price=plan_price)
-        for array in fields.values():
+        for array in [*fields.values(), *held.values()]:
             if isinstance(array, np.ndarray):
                 array.flags.writeable = False
+        if spec is not None:
+            binary = (*spec.binary, *[False] * (2 * spec.season))
+            fields["controls"] = ControlResults(tuple(spec.names), binary, spec.season, **held)
         return cls(data=data, settings=settings, candidates=tuple(candidates), **fields)
 
     @property
@@ -112,9 +152,13 @@ class Results:
 
     def power_coef(self, s: int, c: int) -> list[float]:
         """Coefficients in plain units: poly Σ cᵢ·priceⁱ; loglog [a, e] of ln volume = a + e·ln price;
-        semilog [a, b] of ln volume = a + b·price (``Family.plain``)."""
+        semilog [a, b] of ln volume = a + b·price (``Family.plain``).  With controls, the price part
+        with every control at 0: the curve is this plus Σ control coefficient·value."""
         size = self.candidates[c].complexity
-        return self.family_of(c).plain(self.coef[s, c, :size], self.basis_mid[s, c], self.basis_half[s, c]).tolist()
+        plain = self.family_of(c).plain(self.coef[s, c, :size], self.basis_mid[s, c], self.basis_half[s, c])
+        if self.controls is not None:
+            plain[0] -= self.controls.shift[s, c]
+        return plain.tolist()
 
     def folds_of(self, s: int) -> np.ndarray:
         """(K, C) held-out MSE per fold of series ``s``."""
@@ -125,13 +169,14 @@ class Results:
         if code == reasons.NONE:
             return None
         rows = slice(self.data.offsets[s], self.data.offsets[s + 1])
+        kept = 0 if self.controls is None else int(self.controls.kept[s])
         return reasons.sentence(code, n=int(self.data.counts[s]), folds=self.scheme.fewest_folds,
-                                coefficients=self.candidates[c].complexity,
+                                coefficients=self.candidates[c].complexity + kept,
                                 distinct=reasons.distinct_count(self.data.price[rows]),
                                 unserved=self.family_of(c).unserved_reason)
 
 
-def _empty(n_c: int, p: int) -> dict:
+def _empty(n_c: int, p: int, m: int = 0) -> dict:
     z = lambda *shape, dtype=float: np.zeros(shape, dtype=dtype)  # noqa: E731
     parts = {name: z(0, n_c) for name in ("cv_mse", "cv_se", "r2", "q2", "sigma2", "plan_volume", "plan_lo",
                                           "plan_hi", "plan_elasticity", "basis_mid", "basis_half", "smear")}
@@ -139,4 +184,7 @@ def _empty(n_c: int, p: int) -> dict:
                  fold_err=z(0, n_c), coef=z(0, n_c, p), chosen=z(0, dtype=np.int64), n_folds=z(0, dtype=np.int64),
                  top_row=z(0, dtype=np.int64))
     parts.update({name: z(0) for name in ("price_lo", "price_hi", "mid", "half", "revenue_price", "top_cook")})
+    if m:
+        parts.update(control_coef=z(0, n_c, m), control_left_out=z(0, m, dtype=np.int8), control_plan=z(0, m),
+                     control_vif=z(0), control_tied=z(0, dtype=np.int64))
     return parts

@@ -116,6 +116,17 @@ def _seed(value) -> int:
     return value
 
 
+def _season(value) -> int:
+    if isinstance(value, str):
+        try:
+            value = int(value)
+        except ValueError:
+            raise Invalid("a whole number from 0 to 4") from None
+    if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= 4:
+        raise Invalid("a whole number from 0 to 4")
+    return value
+
+
 def _level(value) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0.5 < value < 1:
         raise Invalid("a level between 0.5 and 1")
@@ -190,6 +201,9 @@ OPTIONS: tuple[Option, ...] = (
            "series and date are rejected)", _optional_text, "columns", "--date", "COL"),
     Option("weight", _COLUMNS, Columns.weight, "observation weights ≥ 0: weighted least squares throughout",
            _optional_text, "columns", "--weight", "COL"),
+    Option("controls", _COLUMNS, Columns.controls, "a numeric or 0/1 column (a promotion or holiday flag, a "
+           "display, a competitor's price) held fixed while every curve is fitted (repeatable)", _names, "columns",
+           "--control", "COL", action="append", kinds=(list,)),
     Option("sep", _COLUMNS, None, "field separator, one character; \\t for tab (default: found from the header)",
            _separator, "columns", "--sep", "CHAR"),
     Option("degrees", _FIT, tuple(range(MAX_DEGREE + 1)), "polynomial degrees to try, e.g. 1-3 or 1,3 "
@@ -205,6 +219,8 @@ OPTIONS: tuple[Option, ...] = (
     Option("seed", _FIT, 0, "seed of the fold shuffle (default: 0)", _seed, "fit", "--seed", "N", kinds=(int,)),
     Option("rule", _FIT, "one-se", "one-se: simplest within one standard error of the best; lowest: lowest CV "
            "error", _choice(RULES), "fit", "--rule", choices=RULES),
+    Option("season", _FIT, 0, "K sine/cosine pairs of the day of the year held fixed as controls, 0 to 4 (needs "
+           "--date; default: 0)", _season, "fit", "--season", "K", kinds=(int,)),
     Option("level", _FIT, 0.95, "level of the prediction intervals", _level),
     Option("plan_price", _PLAN, None, "one plan price for every series", _price, "fit", "--plan-price", "P",
            kinds=(int, float)),

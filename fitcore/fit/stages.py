@@ -5,6 +5,11 @@
 and elasticity at the plan price), ``revenue`` (the revenue-best price of
 the chosen curve) and ``influence`` (its largest Cook's distance).  The
 engine runs them in that order, with the scores and the choice between.
+
+With controls, ``gather`` also lays out each candidate's control coefficients
+and moves its intercept to the plan's control values, so every later stage
+(and every reader of ``Results.coef``) sees the price curve at the plan's
+controls; intervals there take the leverage of the full design.
 """
 from __future__ import annotations
 
@@ -12,9 +17,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import kernels
+from . import controlled_rows, kernels
 from . import reasons as R
 from .basis import leverages
+from .controlled_rows import design_leverages
+from .controls import tied_to_price
 from .chunk import Chunk
 from .families import Fitted, Lineup
 
@@ -25,7 +32,8 @@ class Cells:
 
     ``coef`` (S, C, P), P the widest candidate; ``mid``, ``half`` (S, C) each candidate's
     window; ``fit_ok``, ``held_ok``, ``unserved``, ``sse``, ``sigma2``, ``df``, ``smear`` (S, C)
-    as in ``families.Fitted``; ``held_out`` (S, K, C) or (N, C).
+    as in ``families.Fitted``; ``held_out`` (S, K, C) or (N, C); ``gamma`` (S, C, m) the control
+    coefficients (None without controls), ``coef`` then holding each curve at the plan's controls.
     """
 
     coef: np.ndarray
@@ -39,6 +47,7 @@ class Cells:
     sigma2: np.ndarray
     df: np.ndarray
     smear: np.ndarray
+    gamma: np.ndarray | None = None
 
 
 def gather(ch: Chunk, lineup: Lineup, fits: list[Fitted]) -> Cells:
@@ -54,31 +63,49 @@ def gather(ch: Chunk, lineup: Lineup, fits: list[Fitted]) -> Cells:
         sse[:, cols], fit_sse[:, cols], smear[:, cols] = fit.sse, fit.fit_sse, fit.smear
         unserved[:, cols] = False if fit.unserved is None else fit.unserved[:, None]
     df = ch.counts[:, None] - lineup.complexity[None, :]
-    return Cells(coef, mid, half, fit_ok, held_ok, unserved, held_out, sse, fit_sse / np.maximum(df, 1), df, smear)
+    gamma = None
+    if ch.controls is not None:
+        gamma = np.concatenate([fit.gamma for fit in fits], axis=1)
+        df = df - ch.controls.kept[:, None]
+        coef[:, :, 0] += np.einsum("scm,sm->sc", gamma, ch.controls.offset)  # the curves at the plan's controls
+    return Cells(coef, mid, half, fit_ok, held_ok, unserved, held_out, sse, fit_sse / np.maximum(df, 1), df, smear,
+                 gamma)
+
+
+def hold_controls(ch: Chunk, lineup: Lineup, fits: list[Fitted]) -> None:
+    """Complete the chunk's controls from the first family fitted in price itself: which controls are
+    redundant, how price and the controls move together, the plan values as offsets from the means."""
+    tie = next(fit.tie for (family, _), fit in zip(lineup.groups, fits) if family.regressor == "price")
+    ch.controls = tied_to_price(ch.controls, tie)
 
 
 def unavailable(ch: Chunk, lineup: Lineup, cells: Cells) -> np.ndarray:
     """(S, C) int8 reason codes (``reasons``), the first that applies in this order."""
     n_coef = lineup.complexity
+    every_coef = n_coef[None, :] if ch.controls is None else n_coef[None, :] + ch.controls.kept[:, None]
     rules = [
         ((ch.weight_reason == R.NO_WEIGHT)[:, None], R.NO_WEIGHT),
         ((ch.weight_reason == R.WEIGHT_OVERFLOW)[:, None], R.WEIGHT_OVERFLOW),
         (cells.unserved, R.NOT_SERVED),
         (~ch.lay.usable[:, None], R.TOO_FEW_FOR_FOLDS),
         ((ch.window[1] <= 0)[:, None] & (n_coef > 1)[None, :], R.FLAT_PRICE),
-        (ch.counts[:, None] <= n_coef[None, :], R.TOO_FEW_POINTS),
+        (ch.counts[:, None] <= every_coef, R.TOO_FEW_POINTS),
         (~cells.fit_ok, R.RANK_ALL),
         (~cells.held_ok, ch.scheme.fold_failure),
     ]
     reason = np.zeros(cells.fit_ok.shape, dtype=np.int8)
     for applies, code in reversed(rules):
         reason[np.broadcast_to(applies, reason.shape)] = code
+    if ch.controls is not None:  # a price term lost to the controls, not to the prices
+        tied = (ch.controls.vif > R.TIED_VIF)[:, None] & (n_coef > 1)[None, :]
+        reason[tied & np.isin(reason, (R.RANK_ALL, R.RANK_FOLD))] = R.CONTROL_TIED
     return reason
 
 
 def at_plan(lineup: Lineup, fits: list[Fitted], cells: Cells, available: np.ndarray, plan: np.ndarray,
-            level: float) -> list[np.ndarray]:
-    """(S, C) volume, interval bounds and elasticity of every available candidate at the plan price."""
+            level: float, offset: np.ndarray | None = None) -> list[np.ndarray]:
+    """(S, C) volume, interval bounds and elasticity of every available candidate at the plan price
+    (``offset`` (S, m): the plan's centred control values, with controls)."""
     out = [np.full(available.shape, np.nan) for _ in range(4)]
     at = np.flatnonzero(np.isfinite(plan))
     if not len(at):
@@ -86,10 +113,14 @@ def at_plan(lineup: Lineup, fits: list[Fitted], cells: Cells, available: np.ndar
     price = plan[at]
     for (family, cols), fit in zip(lineup.groups, fits):
         mid, half = fit.mid[at], fit.half[at]
-        lev = leverages(family.coordinate(price, mid, half), fit.lower[at], fit.scale[at])
+        t = family.coordinate(price, mid, half)
+        if offset is None:
+            lev, shift = leverages(t, fit.lower[at], fit.scale[at]), 0
+        else:  # the leverage of [1, the plan's controls (centred), t, …] under the full design
+            lev, shift = design_leverages(t, offset[at].T, fit.lower[at], fit.scale[at]), offset.shape[1]
         for c in range(cols.start, cols.stop):
             size = int(lineup.complexity[c])
-            values = family.at(cells.coef[at, c, :size], mid, half, cells.smear[at, c], lev[size - 1],
+            values = family.at(cells.coef[at, c, :size], mid, half, cells.smear[at, c], lev[shift + size - 1],
                                cells.sigma2[at, c], cells.df[at, c], price, level)
             for column, value in zip(out, values):
                 column[at, c] = np.where(available[at, c], value, np.nan)
@@ -121,7 +152,15 @@ def influence(ch: Chunk, lineup: Lineup, fits: list[Fitted], cells: Cells, chose
         mine = (chosen >= cols.start) & (chosen < cols.stop)
         picked = np.clip(chosen, cols.start, cols.stop - 1)
         size = np.where(mine, lineup.complexity[picked], 0)
-        kernels.influence_rows(fit.rows, fit.target, weight, offsets, order,
-                               np.ascontiguousarray(fit.row_coef[every, picked - cols.start]), size, fit.lower,
-                               fit.scale, cells.sigma2[every, picked], top, first)
+        row_coef = np.ascontiguousarray(fit.row_coef[every, picked - cols.start])
+        if ch.controls is None:
+            kernels.influence_rows(fit.rows, fit.target, weight, offsets, order, row_coef, size, fit.lower,
+                                   fit.scale, cells.sigma2[every, picked], top, first)
+            continue
+        z = ch.controls.z
+        controlled_rows.influence_rows(fit.rows, fit.target, z, weight, offsets, order, row_coef,
+                                       np.ascontiguousarray(fit.gamma[every, picked - cols.start]),
+                                       np.where(mine, size + len(z), 0), fit.lower, fit.scale,
+                                       cells.sigma2[every, picked], (size + ch.controls.kept).astype(float), top,
+                                       first)
     return top, first

@@ -15,6 +15,7 @@ from ..data.textfile import regular_or_folder
 from ..errors import DataError
 from ..fit.results import SCHEMA
 from .checks import PARQUET_COLUMNS, check_header, check_series
+from .control_fields import record_fields
 
 RUN_SUMMARY = "_summary.json"
 
@@ -158,6 +159,7 @@ def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
             cand["smearing"] = row["smearing"]
         if row["plan_price"] is not None and cand["available"]:
             cand["plan_volume"] = row["plan_volume"]
+        record_fields(row, cand, current)  # with controls: their fields, as the JSON layout has them
         current["candidates"].append(cand)
         if row["is_chosen"] and row["plan_price"] is not None:
             current["plan"] = {"price": row["plan_price"], "volume": row["plan_volume"], "lo": row["plan_lo"],

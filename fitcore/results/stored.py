@@ -26,6 +26,7 @@ from ..fit.results import Results
 from ..fit.settings import settings_from_dict
 from ..review.flags import CODES, SEVERITY, Diagnosis
 from ..review.thresholds import Thresholds
+from .control_fields import CONTROL_COLUMNS, stored_controls
 from .read import read_header, result_parts
 
 # The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
@@ -149,7 +150,7 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
     path = Path(path)
     meta = read_header(path)
     settings = settings_from_dict(meta["settings"])
-    wanted = [*meta["key_columns"], *NEEDED]
+    wanted = [*meta["key_columns"], *NEEDED, *(CONTROL_COLUMNS if meta["settings"].get("controls") else ())]
     tables = []
     for part in result_parts(path) or [path]:
         reader = pq.ParquetFile(part)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
@@ -213,7 +214,8 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
         plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"), plan_elasticity=cells("plan_elasticity"),
         revenue_price=per_series("revenue_price").astype(float),
         top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=table.column("reason"),
-        fold_lists=table.column("fold_mse"), stored_score=per_series("score").astype(float, copy=False))
+        fold_lists=table.column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
+        controls=stored_controls(table, meta["settings"], n_s, n_c, numbers))
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
 

@@ -16,6 +16,7 @@ from ..data.columns import is_parquet_name
 from ..errors import DataError
 from ..fit.results import SCHEMA, Results
 from ..outputs import atomic_write
+from . import control_fields
 
 
 def power_coef_table(results: Results) -> np.ndarray:
@@ -25,6 +26,8 @@ def power_coef_table(results: Results) -> np.ndarray:
         size = cand.complexity
         out[:, c, :size] = results.family_of(c).plain(results.coef[:, c, :size], results.basis_mid[:, c],
                                                        results.basis_half[:, c])
+    if results.controls is not None:  # the price part with every control at 0 (``Results.power_coef``)
+        out[:, :, 0] -= results.controls.shift
     return out
 
 
@@ -32,6 +35,8 @@ def header(results: Results, diagnosis=None) -> dict:
     settings = results.settings.as_dict()
     if diagnosis is not None:
         settings["thresholds"] = diagnosis.thresholds.as_dict()
+    if results.controls is not None:
+        settings["controls"] = control_fields.header_settings(results)
     return {"schema": SCHEMA, "settings": settings, "input": dict(results.data.source)}
 
 
@@ -74,6 +79,8 @@ def series_records(results: Results, diagnosis=None) -> list[dict]:
                 entry["smearing"] = _num(results.smear[s, c]) if ok else None
             if ok and math.isfinite(results.plan_price[s]):
                 entry["plan_volume"] = _num(results.plan_volume[s, c])
+            if results.controls is not None:
+                entry["controls"] = control_fields.candidate_controls(results.controls, s, c, ok)
             candidates.append(entry)
         chosen = int(results.chosen[s])
         records.append({
@@ -88,6 +95,8 @@ def series_records(results: Results, diagnosis=None) -> list[dict]:
             "plan": _plan_record(results, s, chosen),
             "fingerprint": fingerprints[s],
         })
+        if results.controls is not None:
+            records[-1].update(control_fields.series_controls(results.controls, s))
     return records
 
 
@@ -174,6 +183,8 @@ def results_table(results: Results, diagnosis=None):
         flags=repeat_text([json.dumps(f, ensure_ascii=False) if f else "[]" for f in _flag_lists(results, diagnosis)]),
         fingerprint=repeat_text(data.fingerprints),
     )
+    if results.controls is not None:
+        columns.update(control_fields.parquet_columns(results, repeat_text))
     table = pa.table({name: pa.array(value, from_pandas=True) if not isinstance(value, pa.Array) else value
                       for name, value in columns.items()})
     meta = json.dumps(header(results, diagnosis) | {"key_columns": list(data.key_names)})

@@ -2,7 +2,9 @@
 
 Refits only the series being looked at (its own small design, factored
 as the engine factors its fits), so nothing beyond ``Results`` needs to be
-kept per series.  Every family is drawn through its own hooks.
+kept per series.  Every family is drawn through its own hooks.  With
+controls, curves and bands are at the plan's control values (``Results.coef``
+holds the curves there) and the design holds the controls (``control_evidence``).
 """
 from __future__ import annotations
 
@@ -11,6 +13,7 @@ import numpy as np
 from ..fit.basis import leverages, series_factor, unscaled_covariance
 from ..fit.families.base import t_quantile
 from ..fit.results import Results
+from . import control_evidence
 
 
 def series_rows(results: Results, s: int) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
@@ -38,15 +41,37 @@ def curve(results: Results, s: int, c: int, prices: np.ndarray) -> np.ndarray:
 
 
 def design_factor(results: Results, s: int, c: int) -> tuple[np.ndarray, np.ndarray]:
-    """The scaled Cholesky factor of candidate ``c``'s weighted design on series ``s``'s rows (``series_factor``)."""
+    """The scaled Cholesky factor of candidate ``c``'s weighted design on series ``s``'s rows (``series_factor``;
+    with controls, over [1, controls…, t, …]: ``control_evidence.design_factor``)."""
     price, _, weight = series_rows(results, s)
-    return series_factor(mapped_rows(results, s, c, price), weight, results.candidates[c].complexity)
+    t, size = mapped_rows(results, s, c, price), results.candidates[c].complexity
+    if results.controls is None:
+        return series_factor(t, weight, size)
+    return control_evidence.design_factor(t, control_evidence.centred(results, s)[0], weight, size)
 
 
 def covariance(results: Results, s: int, c: int) -> np.ndarray:
     """(XᵀWX)⁻¹ (size, size) of candidate ``c`` on series ``s``'s rows, in its basis (``basis_of``): with
-    σ² (``results.sigma2``) and df, all a signed curve needs for an interval at a new price."""
-    return unscaled_covariance(*design_factor(results, s, c))
+    σ² (``results.sigma2``) and df, all a signed curve needs for an interval at a new price.  With controls,
+    that of the curve at the plan's control values (``control_evidence.at_plan_covariance``)."""
+    full = unscaled_covariance(*design_factor(results, s, c))
+    if results.controls is None:
+        return full
+    offsets = control_evidence.plan_offsets(results, s, control_evidence.centred(results, s)[1])
+    return control_evidence.at_plan_covariance(full, offsets, results.candidates[c].complexity)
+
+
+def adjusted_volumes(results: Results, s: int, c: int) -> np.ndarray:
+    """Series ``s``'s volumes moved to the plan's control values under candidate ``c`` (partial residuals:
+    what each observation would have sold at its own price with the controls as planned); the volumes
+    themselves without controls."""
+    _, volume, _ = series_rows(results, s)
+    if results.controls is None or c < 0:
+        return volume
+    ctl = results.controls
+    return control_evidence.adjusted(results.family_of(c), volume, np.asarray(ctl.coef[s, c], dtype=float),
+                                     control_evidence.control_rows(results, s), np.asarray(ctl.plan[s], dtype=float),
+                                     np.asarray(ctl.left_out[s]) == 0)
 
 
 def leverage_at(factor: tuple[np.ndarray, np.ndarray], x: np.ndarray) -> np.ndarray:
@@ -60,7 +85,12 @@ def band(results: Results, s: int, c: int, prices: np.ndarray) -> tuple[np.ndarr
     """Lower and upper prediction-interval bounds (``results.settings.level``) at ``prices``."""
     family, coef, mid, half, smear = basis_of(results, s, c)
     prices = np.asarray(prices, dtype=float)
-    leverage = leverage_at(design_factor(results, s, c), family.coordinate(prices, mid, half))
+    x, factor = family.coordinate(prices, mid, half), design_factor(results, s, c)
+    if results.controls is None:
+        leverage = leverage_at(factor, x)
+    else:  # new points at the plan's control values
+        offsets = control_evidence.plan_offsets(results, s, control_evidence.centred(results, s)[1])
+        leverage = control_evidence.leverage(factor, x, np.repeat(offsets[:, None], len(x), axis=1))
     _, lower, upper, _ = family.at(coef, mid, half, smear, leverage, results.sigma2[s, c], results.df[s, c],
                                    prices, results.settings.level)
     return lower, upper

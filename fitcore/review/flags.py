@@ -30,6 +30,7 @@ FLAGS = (
     ("unsteady-folds", "warn", "one fold's held-out error dominates the others"),
     ("weak-fit", "warn", "low cross-validated R² (Q²)"),
     ("influential-point", "warn", "one observation has a large influence on the chosen curve"),
+    ("price-tied", "warn", "price moved together with a control, so its effect cannot be told apart from it"),
     ("stale", "stop", "the data changed since the last sign-off"),
 )
 CODES = tuple(code for code, _, _ in FLAGS)
@@ -131,6 +132,12 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     cook_limit = np.maximum(4.0 / np.maximum(counts, 1), thresholds.cook_floor)
     numbers.update(top_row=top_row, top_cook=top_cook, cook_limit=cook_limit)
     flag("influential-point", has & (top_cook > cook_limit))
+
+    if results.controls is not None:  # judged on the fit with the controls held at the plan's values
+        vif = np.asarray(results.controls.vif)
+        numbers.update(price_vif=vif, tied=np.asarray(results.controls.tied))
+        with np.errstate(invalid="ignore"):
+            flag("price-tied", has & (vif > thresholds.price_tied_vif))
     raised.flags.writeable = False
     return Diagnosis(results, thresholds, raised, numbers)
 

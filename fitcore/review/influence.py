@@ -15,6 +15,7 @@ import numpy as np
 
 from ..fit.basis import polynomial
 from ..fit.results import Results
+from . import control_evidence
 from .evidence import basis_of, design_factor, leverage_at, mapped_rows, series_rows
 
 
@@ -27,8 +28,16 @@ def series_influence(results: Results, s: int) -> tuple[np.ndarray, np.ndarray]:
     family, coef, *_ = basis_of(results, s, c)
     x = mapped_rows(results, s, c, price)
     w = np.ones_like(x) if weight is None else weight
-    h = w * leverage_at(design_factor(results, s, c), x)
+    n_coef = len(coef)
+    if results.controls is None:
+        h, others = w * leverage_at(design_factor(results, s, c), x), 0.0
+    else:  # each row at its own control values; the curve (``coef``) is at the plan's
+        z, mean = control_evidence.centred(results, s)
+        h = w * control_evidence.leverage(design_factor(results, s, c), x, z)
+        offsets = control_evidence.plan_offsets(results, s, mean)
+        others = np.asarray(results.controls.coef[s, c], dtype=float) @ (z - offsets[:, None])
+        n_coef += int(results.controls.kept[s])
     with np.errstate(divide="ignore", invalid="ignore"):
-        resid = family.response(volume) - polynomial(coef, x)
-        cook = w * resid ** 2 * h / (len(coef) * results.sigma2[s, c] * (1 - h) ** 2)
+        resid = family.response(volume) - polynomial(coef, x) - others
+        cook = w * resid ** 2 * h / (n_coef * results.sigma2[s, c] * (1 - h) ** 2)
     return h, cook

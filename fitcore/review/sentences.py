@@ -129,6 +129,16 @@ def _influential(diag, s):
             f"{n['cook_limit'][s]:.2f} (a common rule of thumb).")
 
 
+def _price_tied(diag, s):
+    r, n = diag.results, diag.numbers
+    name = r.controls.names[int(n["tied"][s])]
+    vif = n["price_vif"][s]
+    how = "exactly" if not math.isfinite(vif) else f"so closely (variance inflation of price {vif:.1f}, above " \
+        f"{diag.thresholds.price_tied_vif:g})"
+    return (f"Price moved {how} with {name} that the price effect cannot be told apart from {name}'s: "
+            f"the curve's slope may belong to either.")
+
+
 def _stale(diag, s):
     return "The data behind the last sign-off have changed."
 
@@ -136,5 +146,5 @@ def _stale(diag, s):
 SENTENCES = {
     "few-points": _few_points, "flat-price": _flat_price, "rising": _rising, "below-zero": _below_zero,
     "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
-    "weak-fit": _weak_fit, "influential-point": _influential, "stale": _stale,
+    "weak-fit": _weak_fit, "influential-point": _influential, "price-tied": _price_tied, "stale": _stale,
 }

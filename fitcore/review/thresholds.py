@@ -22,6 +22,8 @@ class Thresholds:
     - ``weak_score``: Q² below this → ``weak-fit``.
     - ``cook_floor``: Cook's distance above max(4/n, this) → ``influential-point``
       (4/n and a floor near 0.5 are common rules of thumb, not a test).
+    - ``price_tied_vif``: with controls, the variance inflation of price given them above this
+      → ``price-tied`` (10 is a common rule of thumb for collinearity, not a test).
     """
 
     min_points: int = 12
@@ -32,6 +34,7 @@ class Thresholds:
     unsteady_ratio: float = 5.0
     weak_score: float = 0.3
     cook_floor: float = 0.5
+    price_tied_vif: float = 10.0
 
     def __post_init__(self) -> None:
         checks = {
@@ -39,6 +42,7 @@ class Thresholds:
             "min_price_cv": self.min_price_cv >= 0, "rising_share": 0 <= self.rising_share < 1,
             "near_tie_change": self.near_tie_change > 0, "unsteady_ratio": self.unsteady_ratio > 1,
             "weak_score": self.weak_score <= 1, "cook_floor": self.cook_floor > 0,
+            "price_tied_vif": self.price_tied_vif > 1,
         }
         for name, ok in checks.items():
             if not ok:

@@ -26,6 +26,7 @@ from ..data.columns import Columns, file_sha256
 from ..errors import DataError, SettingsError
 
 SUMMARY = "_summary.json"  # beside the part files; Parquet readers skip names starting with "_"
+CONTROL = "_control:"  # a control column's field in the pieces' tables
 REJECTS = "rejects.csv"
 
 
@@ -79,7 +80,8 @@ def read_piece(piece: Piece, columns: Columns, n_parts: int, sep: str | None = N
     else:
         table = pq.ParquetFile(piece.path).read_row_group(piece.row_group, columns=columns.needed)
         rows = raw_from_table(table, columns, piece.first_line + np.arange(table.num_rows, dtype=np.int64))
-    why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date, duplicates=False)
+    why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date, duplicates=False,
+                          controls=columns.controls)
     keep = np.flatnonzero(usable)
     keys = {name: np.asarray(rows.keys[name], dtype=object)[keep].astype(str) for name in columns.keys}
     part = partition_of(keys, n_parts)
@@ -89,6 +91,8 @@ def read_piece(piece: Piece, columns: Columns, n_parts: int, sep: str | None = N
         fields["_weight"] = rows.numbers[columns.weight][0][keep]
     if columns.date:
         fields["_date"] = rows.date[0][keep]
+    for name in columns.controls:
+        fields[CONTROL + name] = rows.numbers[name][0][keep]
     table = pa.table(fields)
     order = np.argsort(part, kind="stable")
     bounds = np.searchsorted(part[order], np.arange(n_parts + 1))
@@ -115,6 +119,7 @@ class PartJob:
     source: dict  # the input as the results header records it
     out: str  # the results folder
     sep: str | None = None
+    control_binary: dict | None = None  # each control column: 0/1 over the whole input (every piece)
 
 
 def gather_part(tables: list, columns: Columns):
@@ -139,7 +144,7 @@ def gather_part(tables: list, columns: Columns):
 def fit_part(p: int, table, job: PartJob) -> dict:
     """Fit, diagnose and write partition ``p`` (``part-p.parquet``); a small summary for the client."""
     from ..data.dataset import from_columns
-    from ..data.plan import plan_prices
+    from ..data.plan import plan_keywords
     from ..fit.engine import fit_batch
     from ..results.write import results_table, write_parquet
     from ..review.flags import diagnose
@@ -151,9 +156,10 @@ def fit_part(p: int, table, job: PartJob) -> dict:
 
     data = from_columns({name: column(name).astype(object) for name in job.columns.keys}, column("_price"),
                         column("_volume"), weight=column("_weight"), date=column("_date"), line=column("_line"),
-                        source=job.source)
-    plan = plan_prices(data, job.plan_file, partial=True) if job.plan_file else job.plan_price  # its own delimiter
-    results = fit_batch(data, job.settings, plan_price=plan)
+                        source=job.source, controls={name: column(CONTROL + name) for name in job.columns.controls},
+                        control_binary=job.control_binary)
+    plan = plan_keywords(data, job.plan_file, job.plan_price, season=job.settings.season, partial=True)  # its own delimiter
+    results = fit_batch(data, job.settings, **plan)
     diagnosis = diagnose(results, job.thresholds)
     write_parquet(results_table(results, diagnosis), Path(job.out) / f"part-{p:05d}.parquet")
     chosen = np.bincount(results.chosen[results.chosen >= 0], minlength=len(results.names))
@@ -263,8 +269,11 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
         source.update(rejects_file=REJECTS, rejects_sha256=_write_rejects(out / REJECTS, path, columns, sep,
                                                                           lines, reasons))
     del read
+    # A 0/1 control is one holding only 0 and 1 in the whole input: every partition's rows, once repeats are out.
+    binary = client.gather([client.submit(_binary_of, f, columns.controls) for f in gathered])
+    binary = {name: all(part[name] for part in binary) for name in columns.controls}
     job = PartJob(columns, settings, thresholds, str(plan_file) if plan_file else None, plan_price, source,
-                  str(out), sep)
+                  str(out), sep, binary)
     parts = [client.submit(fit_part, p, client.submit(_table_only, f), job, pure=False) for p, f in enumerate(gathered)]
     summaries = []
     for future in parts:
@@ -300,6 +309,12 @@ def _table_of(piece_result, p: int):
 
 def _rejects_of(piece_result):
     return piece_result[1].tolist(), piece_result[2], piece_result[3]
+
+
+def _binary_of(part_result, controls) -> dict:
+    table = part_result[0]
+    return {name: bool(np.all(np.isin(table.column(CONTROL + name).to_numpy(zero_copy_only=False), (0.0, 1.0))))
+            for name in controls}
 
 
 def _repeats_of(part_result):

@@ -75,7 +75,7 @@ def fit_subset(source, keys: list[dict]):
     from fitcore.data.dataset import from_columns
     from fitcore.data.keys import SeriesKeys
     from fitcore.data.loader import load
-    from fitcore.data.plan import plan_prices
+    from fitcore.data.plan import plan_keywords
     data = load(source.data, source.columns)
     where = SeriesKeys.of(data).indices_of(keys)
     where = np.unique(where[where >= 0])
@@ -86,9 +86,11 @@ def fit_subset(source, keys: list[dict]):
         return None if array is None else array[rows]
     subset = from_columns({name: np.repeat(data.keys[name][where], counts) for name in data.key_names},
                           data.price[rows], data.volume[rows], weight=pick(data.weight), date=pick(data.date),
-                          line=pick(data.line), source=data.source)
-    plan = plan_prices(subset, source.plan_file, partial=True) if source.plan_file else source.plan_price
-    return fit_batch(subset, source.settings, plan_price=plan)
+                          line=pick(data.line), source=data.source,
+                          controls={name: values[rows] for name, values in data.controls.items()},
+                          control_binary=data.control_binary)  # 0/1 as over the whole file
+    plan = plan_keywords(subset, source.plan_file, source.plan_price, season=source.settings.season, partial=True)
+    return fit_batch(subset, source.settings, **plan)
 
 
 def open_book(path: Path) -> Book:

@@ -2,6 +2,7 @@
 
     python tests/bench/bench_engine.py            # full: 1k, 10k, 100k series
     python tests/bench/bench_engine.py --quick    # 1k and 10k only, smaller 2M-row file skipped
+    python tests/bench/bench_engine.py --controls [--series 100000]   # with two controls and --season 2 vs without
 
 Not part of the test suite: these machines are shared and timings are noisy.
 Everything is invented data from ``invented.py`` (seeded).
@@ -22,7 +23,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 import fitcore  # noqa: E402
 from fitcore.review.flags import diagnose  # noqa: E402
-from tests.bench.invented import invented_arrays, invented_dataset  # noqa: E402
+from tests.bench.invented import invented_arrays, invented_controlled_dataset, invented_dataset  # noqa: E402
 
 
 def best_of(fn, repeat=3):
@@ -81,10 +82,37 @@ def end_to_end(rows: int, folder: Path):
     return t_ours, t_bare
 
 
+def controls_ratio(n: int, repeat: int = 5) -> None:
+    """The engine on the same rows with two controls and ``--season 2`` (design columns ≤ 6 → ≤ 12) and
+    without, runs interleaved, CPU time (the machine is shared: medians, then the ratio of the medians)."""
+    data = invented_controlled_dataset(n)
+    plain = fitcore.from_columns({"product": np.repeat(data.keys["product"], data.counts)}, data.price, data.volume,
+                                 date=data.date)
+    _ = data.key_hash, plain.key_hash
+    settings = fitcore.FitSettings(season=2)
+    fitcore.fit_batch(invented_controlled_dataset(50), settings)  # compiled before timing
+    without, with_controls = [], []
+    for _ in range(repeat):
+        for runs, fit in ((without, lambda: fitcore.fit_batch(plain)),
+                          (with_controls, lambda: fitcore.fit_batch(data, settings))):
+            start = time.process_time()
+            fit()
+            runs.append(time.process_time() - start)
+    a, b = float(np.median(without)), float(np.median(with_controls))
+    print(f"controls: {n:,} series {data.n_rows:,} rows, all candidates, 5 shuffled folds (CPU time, median of "
+          f"{repeat}): without {a:.3f} s (runs {min(without):.3f}–{max(without):.3f}); with promo, a competitor's "
+          f"price and --season 2 {b:.3f} s (runs {min(with_controls):.3f}–{max(with_controls):.3f}) → {b / a:.2f}×")
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--quick", action="store_true")
+    parser.add_argument("--controls", action="store_true", help="only the engine with and without controls")
+    parser.add_argument("--series", type=int, default=100_000, help="with --controls: how many series")
     args = parser.parse_args()
+    if args.controls:
+        controls_ratio(args.series)
+        return
     sizes = [1_000, 10_000] if args.quick else [1_000, 10_000, 100_000]
     print("engine: all candidates (poly0–poly5, loglog), 5 shuffled folds, one-se rule; 70 rows a series")
     largest = None

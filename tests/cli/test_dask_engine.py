@@ -11,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 import pytest
 
@@ -175,3 +176,28 @@ def test_dask_missing_is_one_line_telling_what_to_install(monkeypatch):
     monkeypatch.setitem(sys.modules, "distributed", None)
     with pytest.raises(SettingsError, match=r"pip install 'pricefold\[scale\]'"):
         connect(None, 1)
+
+
+def test_controls_and_season_give_the_local_results(tmp_path, client):
+    """With controls the partitions agree with the local engine too, and a column is 0/1 only if it is so in
+    every partition: here ``display`` is 0/1 except in one series, so no partition treats it as 0/1 (its plan
+    default is each series' mean, not 0)."""
+    rng = np.random.default_rng(8)
+    product, price, volume = invented_arrays(60, rows_per_series=30, seed=12)
+    display = (rng.random(len(price)) < 0.3).astype(float)
+    display[product == 7] = np.where(display[product == 7] > 0, 2.0, 0.0)
+    weeks = (np.datetime64("2024-01-01") + (np.tile(np.arange(30), 60) * 7).astype("timedelta64[D]")).astype(str)
+    data = tmp_path / "d.csv"
+    pacsv.write_csv(pa.table({"product": np.char.add("item-", product.astype(str)), "week": weeks, "price": price,
+                               "volume": volume, "display": display}), data)
+    options = ["--date", "week", "--control", "display", "--season", "1", "--plan-price", "150", "--quiet"]
+    local, out = tmp_path / "local.parquet", tmp_path / "dask"
+    assert main(["fit", str(data), "-o", str(local), *options]) == 0
+    assert main(["fit", str(data), "-o", str(out), *options, "--engine", "dask", "--scheduler",
+                 client.scheduler.address, "--partitions", "7"]) == 0
+    assert_same_results(local, out, ["product"])
+    header = json.loads(pq.read_schema(local).metadata[b"pricefold"])
+    assert header["settings"]["controls"]["binary"] == []
+    _, series = read_results(local)
+    means = {s["key"]["product"]: s["control_values"]["display"] for s in series}
+    assert len(set(means.values())) > 10  # each series' own mean

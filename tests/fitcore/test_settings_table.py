@@ -32,9 +32,9 @@ def test_fit_and_triage_offer_every_option_of_the_table():
 def test_settings_file_keys_and_fitsettings_fields_are_the_tables():
     keys = file_keys()
     assert set(keys) == {"columns", "fit"}
-    assert set(keys["fit"]) == {"degrees", "loglog", "semilog", "folds", "fold_order", "seed", "rule", "plan_price",
-                                "plan"}
-    assert set(keys["columns"]) == {"product", "segments", "price", "volume", "date", "weight", "sep"}
+    assert set(keys["fit"]) == {"degrees", "loglog", "semilog", "folds", "fold_order", "seed", "rule", "season",
+                                "plan_price", "plan"}
+    assert set(keys["columns"]) == {"product", "segments", "price", "volume", "date", "weight", "sep", "controls"}
     assert [f.name for f in fields(FitSettings)] == [o.name for o in OPTIONS if o.group == "fit"] + ["extra"]
 
 

@@ -27,7 +27,7 @@ def hostile_data(folder: Path) -> tuple[Path, Path]:
     extra = [r for r in rows[1:] if r[0] == "apples 1 kg" and r[1] == "North"]
     for name in HOSTILE:
         rows += [[name, *r[1:]] for r in extra]
-        plan.append([name, "North", "2.20"])
+        plan.append([name, "North", "2.20", *[""] * (len(plan[0]) - 3)])  # empty control cells: the defaults
     data, plan_file = folder / "data.csv", folder / "plan.csv"
     for path, table in ((data, rows), (plan_file, plan)):
         with path.open("w", encoding="utf-8", newline="") as handle:

@@ -54,6 +54,7 @@ class TriageScreen(Screen):
         Binding("f", "filter", "filter"),
         Binding("s", "sort", "sort", show=False),
         Binding("tab", "switch", "list/evidence", show=False),
+        Binding("c", "adjust", "raw/adjusted", show=False),
         Binding("enter", "open", "evidence", show=False),
         Binding("escape", "back", "back to list", show=False),
         Binding("question_mark", "help", "help"),
@@ -154,6 +155,8 @@ class TriageScreen(Screen):
             return (session.undo_target() is not None) == (action == "revoke")
         if action == "attention":
             return bool(session.needs_attention()[session.view].any())
+        if action == "adjust":  # only a fit with controls has volumes to adjust
+            return results.controls is not None
         return True
 
     # -- decisions ---------------------------------------------------------------------------
@@ -309,6 +312,13 @@ class TriageScreen(Screen):
         if self.has_class("narrow") and not self.has_class("show-evidence"):
             self.add_class("show-evidence")
             self.evidence.focus()
+
+    def action_adjust(self) -> None:
+        """The observations chart between raw volumes and volumes adjusted to the plan's controls."""
+        self.evidence.adjusted = not self.evidence.adjusted
+        self.evidence.redraw_charts()
+        self.notify("observations adjusted to the plan's controls" if self.evidence.adjusted else "observations raw",
+                    markup=False, timeout=2)
 
     def action_help(self) -> None:
         self.app.push_screen(MessageDialog(help_text(self.session.book), classes="help"))

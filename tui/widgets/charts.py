@@ -14,7 +14,7 @@ from rich.style import Style
 from rich.text import Text
 
 from fitcore.fit.results import Results
-from fitcore.review.evidence import band, curve, runner_up, series_rows
+from fitcore.review.evidence import adjusted_volumes, band, curve, runner_up, series_rows
 
 # 256-colour numbers (plotext draws them as 38;5;N; the legend uses the same numbers)
 STANDING, OTHER, BAND, OBSERVED, PLAN, ONE_SE = 46, 45, 214, 255, 201, 214
@@ -48,10 +48,15 @@ def price_grid(lo: float, hi: float, plan: float, positive: bool) -> np.ndarray:
     return np.linspace(start, hi + pad, 80)
 
 
-def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict) -> Text:
+def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict,
+                adjusted: bool = False) -> Text:
     """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its 95% band
-    (dotted) and the plan price (a vertical line)."""
+    (dotted) and the plan price (a vertical line).  ``adjusted``: with controls, each observation's volume
+    moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn."""
     price, volume, _ = series_rows(results, s)
+    adjusted = adjusted and results.controls is not None and model >= 0 and results.rows_loaded
+    if adjusted:
+        volume = adjusted_volumes(results, s, model)
     _start(width, height)
     chosen = int(results.chosen[s])
     plan = float(results.plan_price[s])
@@ -78,7 +83,9 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     chart = _finish()
     # The legend goes under the chart, where it cannot cover the data.
     legend = Text()
-    legend.append("• observed" if results.rows_loaded else "observations and band: reading the data …",
+    seen = "• observed, adjusted to the plan's controls (c: raw)" if adjusted else "• observed" + (
+        " (c: adjusted to the plan's controls)" if results.controls is not None else "")
+    legend.append(seen if results.rows_loaded else "observations and band: reading the data …",
                   _colour(OBSERVED) if results.rows_loaded else "dim")
     if model >= 0:
         legend.append(f"   ⠤⠤ {names[model]} ({'chosen' if model == chosen else 'override'})", _colour(STANDING))

@@ -18,6 +18,7 @@ from textual.widgets import Static
 
 from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.choice import plan_position, score_meaning, why_chosen
+from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money
 
@@ -52,6 +53,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         super().__init__(**kwargs)
         self.session = session
         self.series: int | None = None
+        self.adjusted = False  # with controls: observations moved to the plan's control values (key c)
         self._charts_timer = None
 
     def compose(self) -> ComposeResult:
@@ -110,7 +112,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         tall = self.app.size.height >= 40
         results = self.session.results
         self._part("curve").update(curve_chart(results, s, width, 18 if tall else 12, self.session.model_of(s),
-                                               self.session.units))
+                                               self.session.units, self.adjusted))
         self._part("folds").update(fold_chart(results, s, width, 12 if tall else 9))
 
     # -- the parts ----------------------------------------------------------------------------
@@ -186,8 +188,9 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         results = self.session.results
         model = self.session.model_of(s)
         table = Table(box=None, pad_edge=False, expand=False, show_edge=False, header_style="bold")
+        controls = results.controls
         for name, justify in (("", "left"), ("candidate", "left"), ("CV MSE", "right"), ("± SE", "right"),
-                              ("Q²", "right"), ("R²", "right")):
+                              ("Q²", "right"), ("R²", "right"), *([("controls", "left")] if controls else [])):
             table.add_column(name, justify=justify)
         missing = Text(style="dim")
         for c, cand in enumerate(results.candidates):
@@ -197,8 +200,17 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             mark = "✓" if c == results.chosen[s] else ""
             mark += "↺" if c == model and c != results.chosen[s] else ""
             table.add_row(mark, cand.name, fmt(results.cv_mse[s, c]), fmt(results.cv_se[s, c]),
-                          f"{results.q2[s, c] * 100:.0f}%", f"{results.r2[s, c] * 100:.0f}%")
+                          f"{results.q2[s, c] * 100:.0f}%", f"{results.r2[s, c] * 100:.0f}%",
+                          *([self.control_effects(s, c)] if controls else []))
         return Group(Text("Candidates (✓ proposed, ↺ override)", style="bold"), table, missing)
+
+    def control_effects(self, s: int, c: int) -> Text:
+        """Candidate ``c``'s control effects in words ("promo: ×1.8 volume", "+120 units")."""
+        ctl = self.session.results.controls
+        kept = {name: (float(ctl.coef[s, c, j]) if ctl.left_out[s, j] == 0 else None)
+                for j, name in enumerate(ctl.names)}
+        binary = {name for name, b in zip(ctl.names, ctl.binary) if b}
+        return Text("; ".join(effect_words(kept, binary, self.session.results.family_of(c).smeared)))
 
     def history_text(self, s: int) -> Text:
         records = self.session.history(s)

@@ -54,6 +54,9 @@ class Fitted:
     - ``lower``, ``scale``: (S, P, P), (S, P) the fit's scaled Cholesky factor (``basis.leverage``).
     - ``rows``, ``target``, ``row_coef``: (N,), (N,), (S, k, P): residuals target − Σ row_coef·rowsᵏ
       on the fit scale, for Cook's distance.
+    - ``gamma``: (S, k, m) with controls, each candidate's control coefficients on the fit scale
+      (their columns' own units; 0 where left out), ``coef`` then being the curve at the series'
+      average controls and ``lower``, ``scale`` the factor over [1, controls…, t, …]; None without.
     """
 
     coef: np.ndarray
@@ -71,6 +74,8 @@ class Fitted:
     rows: np.ndarray
     target: np.ndarray
     row_coef: np.ndarray
+    gamma: np.ndarray | None = None
+    tie: object = None  # with controls: ``controls.PriceTie`` of the family's regressor
 
 
 class Family:

@@ -14,6 +14,7 @@ from __future__ import annotations
 import numpy as np
 
 from ...compiled import compiled
+from .. import controlled_rows
 from ..basis import window
 from ..kernels import trains_on
 from ..loo import loo_residuals
@@ -36,7 +37,8 @@ class LogVolume(Family):
         served = self.serves(ch)
         with np.errstate(divide="ignore", invalid="ignore"):  # rows of series not served: skipped
             u, z, lo, hi, zbar, _ = ch.windowed(self.x(ch.price), np.log(ch.volume), served)
-        log = fit_family(u, z, ch.weight, ch.lay, (1,), fold_coefficients=True)
+        log = fit_family(u, z, ch.weight, ch.lay, (1,), fold_coefficients=True,
+                         controls=None if ch.controls is None else ch.controls.z)
         held_out, held_ok, smear, sse = ch.scheme.held_out(self, (ch, u, z, log))
         centred = log.coef[:, -1, :1].copy()  # (S, 1, 2): the line in u of centred ln volume
         coef = centred.copy()
@@ -44,11 +46,14 @@ class LogVolume(Family):
         mid, half = window(lo, hi)
         return Fitted(coef=coef, mid=mid, half=half, fit_ok=log.ok[:, -1], held_ok=held_ok[:, None],
                       held_out=held_out[..., None], sse=sse[:, None], fit_sse=log.sse_full, smear=smear[:, None],
-                      unserved=~served, lower=log.lower, scale=log.scale, rows=u, target=z, row_coef=centred)
+                      unserved=~served, lower=log.lower, scale=log.scale, rows=u, target=z, row_coef=centred,
+                      gamma=None if log.gamma is None else log.gamma[:, -1], tie=log.tie)
 
     def fold_errors(self, work):
         """Each fold's volume errors, its smearing factor from its own training rows (``volume_errors``)."""
         ch, u, z, log = work
+        if ch.controls is not None:
+            return self._fold_errors_with_controls(work)
         lay = ch.lay
         a, e = log.coef[:, :, 0, 0], log.coef[:, :, 0, 1]  # (S, F + 1)
         growth = np.empty((2, len(u)))  # exp(log residual) of every row: under the full fit, under its fold's
@@ -60,6 +65,26 @@ class LogVolume(Family):
                       lay.held_out.astype(np.int64), lay.cumulative, a, e, growth, smear, sse_full, sse_test)
         return sse_test, along_folds(log.ok[:, :-1, 0], np.logical_and), smear, sse_full
 
+    def _fold_errors_with_controls(self, work):
+        """Each fold's volume errors with controls: every fit's exp(log residual) of every row, the smearing
+        factors summed from them row by row (``controlled_rows``)."""
+        ch, u, z, log = work
+        lay = ch.lay
+        n_fits = lay.n_folds + 1
+        lanes = 8 if n_fits <= 8 else n_fits  # the fits side by side, a vector's width when they fit in one
+        growth = np.empty((len(u), lanes))
+        controlled_rows.log_residuals(u, z, ch.controls.z, lay.bounds, np.ascontiguousarray(log.coef[:, :, 0, 0]),
+                                      np.ascontiguousarray(log.coef[:, :, 0, 1]),
+                                      np.ascontiguousarray(log.gamma[:, :, 0]), growth,
+                                      np.zeros((len(ch.controls.z) + 2, lanes)), np.zeros(lanes))
+        np.exp(growth, out=growth)
+        n_s = len(ch.counts)
+        sse_test, smear, sse_full = np.empty((n_s, lay.n_folds)), np.empty(n_s), np.empty(n_s)
+        controlled_rows.volume_errors(ch.volume, np.empty(0) if ch.weight is None else ch.weight, lay.bounds,
+                                      lay.held_out.astype(np.int64), lay.cumulative, growth, smear, sse_full, sse_test,
+                                      np.zeros((lay.bounds.shape[1] - 1, lanes + 1)))
+        return sse_test, along_folds(log.ok[:, :-1, 0], np.logical_and), smear, sse_full
+
     def row_errors(self, work):
         """Leave-one-out: the held-out ln volume is exact (hat matrix); the smearing factor is the full
         fit's without the held-out row's own term."""
@@ -68,13 +93,16 @@ class LogVolume(Family):
         a, e = log.coef[:, -1, 0, 0], log.coef[:, -1, 0, 1]
         weight = np.ones_like(volume) if w is None else w
         whole = ch.whole
-        full_exp = np.exp(z - np.repeat(a, counts) - np.repeat(e, counts) * u)  # exp(residual) of the full fit
+        resid_full = z - np.repeat(a, counts) - np.repeat(e, counts) * u
+        if ch.controls is not None:
+            resid_full -= controlled_rows.fitted_controls(log.gamma[:, -1, 0], ch.controls.z, counts)
+        full_exp = np.exp(resid_full)  # exp(residual) of the full fit
         weighted_exp = weight * full_exp
         total_w = segment_sums(weight, whole)[:, 0]
         smear = segment_sums(weighted_exp, whole)[:, 0] / np.where(total_w > 0, total_w, 1.0)
         fitted = volume / full_exp
         sse_full = segment_sums(weight * (volume - fitted * np.repeat(smear, counts)) ** 2, whole)[:, 0]
-        resid, defined = loo_residuals(u, z, w, ch.offsets, log)
+        resid, defined = loo_residuals(u, z, w, ch.offsets, log, ch.controls)
         others_w = np.repeat(total_w, counts) - weight
         smear_without = (np.repeat(smear * total_w, counts) - weighted_exp) / np.where(others_w > 0, others_w, 1.0)
         with np.errstate(over="ignore", invalid="ignore"):  # rows of leverage 1: marked undefined later

@@ -25,7 +25,8 @@ class Polynomial(Family):
         return tuple(Candidate(f"poly{d}", self.name, d, d + 1) for d in settings.degrees)
 
     def fit(self, ch, candidates) -> Fitted:
-        fit = fit_family(ch.t, ch.y, ch.weight, ch.lay, tuple(c.degree for c in candidates))
+        fit = fit_family(ch.t, ch.y, ch.weight, ch.lay, tuple(c.degree for c in candidates),
+                         controls=None if ch.controls is None else ch.controls.z)
         errors, held_ok = ch.scheme.held_out(self, (ch, fit))
         coef = fit.coef[:, -1].copy()  # centred volume's fit; the mean goes back into the constant
         coef[:, :, 0] += ch.ybar[:, None]
@@ -33,7 +34,8 @@ class Polynomial(Family):
         mid, half = ch.window
         return Fitted(coef=coef, mid=mid, half=half, fit_ok=fit.ok[:, -1], held_ok=held_ok, held_out=errors,
                       sse=fit.sse_full, fit_sse=fit.sse_full, smear=no_smear, unserved=None, lower=fit.lower,
-                      scale=fit.scale, rows=ch.t, target=ch.volume, row_coef=coef)
+                      scale=fit.scale, rows=ch.t, target=ch.volume, row_coef=coef,
+                      gamma=None if fit.gamma is None else fit.gamma[:, -1], tie=fit.tie)
 
     def fold_errors(self, work):
         ch, fit = work
@@ -41,7 +43,7 @@ class Polynomial(Family):
 
     def row_errors(self, work):
         ch, fit = work
-        resid, defined = loo_residuals(ch.t, ch.y, ch.weight, ch.offsets, fit)
+        resid, defined = loo_residuals(ch.t, ch.y, ch.weight, ch.offsets, fit, ch.controls)
         return resid.T ** 2, along_folds(fit.ok[:, :-1], np.logical_and) & defined.T
 
     def response(self, volume):

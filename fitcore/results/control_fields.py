@@ -1,0 +1,124 @@
+"""The fields a fit with controls adds to a results file, written and read back (absent without controls).
+
+Per candidate: ``controls`` {term: coefficient} in the term's own units, on the
+family's fit scale (ln volume for the log families), null where the term is
+left out for the series.  Per series: ``control_values`` {term: value} the
+values every curve, interval, elasticity, revenue-best price and flag holds the
+controls at; ``controls_left_out`` {term: why}; ``price_vif`` the variance
+inflation of price given the controls kept.  The header's settings gain
+``controls`` (the terms, which are 0/1, the season pairs, and what the plan
+values default to).  Parquet stores the dictionaries as JSON text, as it
+stores ``flags``, and for pricefold itself ``control_coef`` (each cell's
+coefficients, NaN where unavailable) and ``control_plan`` (each series' values),
+so stored results open without parsing text per cell.
+"""
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+
+from ..fit.controls import CONSTANT, KEPT, REDUNDANT, ControlSpec
+from ..fit.results import ControlResults, Results
+
+WHY = {CONSTANT: "{name} does not vary within this series",
+       REDUNDANT: "{name} adds nothing beyond the other controls in this series (it moves exactly with them)"}
+# What stored results read (``stored``): the rest is for other readers.
+CONTROL_COLUMNS = ("controls_left_out", "price_vif", "control_coef", "control_plan")
+
+
+def _num(value) -> float | None:
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def header_settings(results: Results) -> dict:
+    """``settings.controls`` of the header: the terms, the 0/1 ones, the season pairs, the plan values' defaults."""
+    ctl = results.controls
+    columns = ctl.names[:len(ctl.names) - 2 * ctl.season]
+    spec = ControlSpec(columns, ctl.binary[:len(columns)], ctl.season)
+    return {"terms": list(ctl.names), "binary": [n for n, b in zip(ctl.names, ctl.binary) if b],
+            "season": ctl.season, "plan_values": spec.defaults()}
+
+
+def candidate_controls(ctl: ControlResults, s: int, c: int, available: bool) -> dict | None:
+    """{term: coefficient}, null where left out; None when the candidate is unavailable."""
+    if not available:
+        return None
+    return {name: _num(ctl.coef[s, c, j]) if ctl.left_out[s, j] == KEPT else None for j, name in enumerate(ctl.names)}
+
+
+def series_controls(ctl: ControlResults, s: int) -> dict:
+    """The series-level fields: ``control_values``, ``controls_left_out``, ``price_vif``."""
+    return {"control_values": {name: _num(ctl.plan[s, j]) for j, name in enumerate(ctl.names)},
+            "controls_left_out": left_out_of(ctl, s),
+            "price_vif": _num(ctl.vif[s])}
+
+
+def left_out_of(ctl: ControlResults, s: int) -> dict:
+    return {name: WHY[int(ctl.left_out[s, j])].format(name=name) for j, name in enumerate(ctl.names)
+            if ctl.left_out[s, j] != KEPT}
+
+
+def parquet_columns(results: Results, repeat_text) -> dict:
+    """The Parquet columns (one row per series × candidate); ``repeat_text`` makes a per-series text column."""
+    import pyarrow as pa
+    ctl, n_c = results.controls, len(results.candidates)
+    n_s, m = results.available.shape[0], len(ctl.names)
+    ok = results.available.ravel()
+    cells = [json.dumps(candidate_controls(ctl, s, c, True), ensure_ascii=False) if ok[s * n_c + c] else None
+             for s in range(n_s) for c in range(n_c)]
+    per_series = [series_controls(ctl, s) for s in range(n_s)]
+    coef = np.where(ok[:, None], np.asarray(ctl.coef, dtype=float).reshape(n_s * n_c, m), np.nan)
+    plan = np.repeat(np.asarray(ctl.plan, dtype=float), n_c, axis=0)
+    return {"controls": pa.array(cells, pa.string()),
+            "control_values": repeat_text([json.dumps(p["control_values"], ensure_ascii=False) for p in per_series]),
+            "controls_left_out": repeat_text([json.dumps(p["controls_left_out"], ensure_ascii=False)
+                                              for p in per_series]),
+            "price_vif": np.repeat(np.asarray(ctl.vif, dtype=float), n_c),
+            "control_coef": pa.FixedSizeListArray.from_arrays(pa.array(coef.ravel()), m),
+            "control_plan": pa.FixedSizeListArray.from_arrays(pa.array(plan.ravel()), m)}
+
+
+def record_fields(row: dict, into_candidate: dict, series: dict) -> None:
+    """A Parquet row's control fields put back into the JSON layout (``read``)."""
+    if "controls" not in row:
+        return
+    into_candidate["controls"] = json.loads(row["controls"]) if row["controls"] is not None else None
+    series.setdefault("control_values", json.loads(row["control_values"]))
+    series.setdefault("controls_left_out", json.loads(row["controls_left_out"]))
+    series.setdefault("price_vif", row["price_vif"])
+
+
+def stored_controls(table, settings: dict, n_s: int, n_c: int, numbers) -> ControlResults | None:
+    """The ``ControlResults`` of a stored Parquet table (None when the fit had no controls)."""
+    meta = settings.get("controls")
+    if not meta or "control_coef" not in table.column_names:
+        return None
+    names = tuple(meta["terms"])
+    m = len(names)
+    binary = tuple(name in meta["binary"] for name in names)
+    coef = numbers(table.column("control_coef").combine_chunks().flatten()).reshape(n_s, n_c, m)
+    every = np.arange(0, n_s * n_c, max(n_c, 1))
+    plan = numbers(table.column("control_plan").combine_chunks().flatten()).reshape(n_s * n_c, m)[every]
+    vif = numbers(table.column("price_vif").combine_chunks())[every]
+    left_out = np.zeros((n_s, m), dtype=np.int8)
+    texts, index = _distinct_texts(table.column("controls_left_out"), n_c)
+    for i, text in enumerate(texts):
+        for name, why in json.loads(text or "{}").items():
+            if name in names:
+                code = REDUNDANT if "adds nothing" in why else CONSTANT
+                left_out[index == i, names.index(name)] = code
+    tied = np.full(n_s, -1, dtype=np.int64)  # the flag's sentence is stored; what it names is not needed again
+    return ControlResults(names, binary, int(meta["season"]), np.nan_to_num(coef), left_out, plan, vif, tied)
+
+
+def _distinct_texts(column, n_c: int):
+    """(distinct texts, each series' index into them) of a per-series text column (one value a row)."""
+    import pyarrow as pa
+    column = column.combine_chunks()
+    if pa.types.is_dictionary(column.type):
+        return column.dictionary.to_pylist(), np.asarray(column.indices)[::max(n_c, 1)]
+    texts, index = np.unique(np.array(column.to_pylist(), dtype=object)[::max(n_c, 1)], return_inverse=True)
+    return texts.tolist(), index
