@@ -108,6 +108,8 @@ class StoredResults(Results):
     reasons: object = None
     fold_lists: object = None
     stored_score: np.ndarray = None  # (S × C,) Arrow lists: each cell's per-fold errors, read per series on demand
+    stored_cov: object = None  # ``StoredCovariances`` where the file holds them (``review.intervals``)
+    stored_last_date: np.ndarray = None  # (S,) datetime64[D] where the file holds each series' last date
 
     rows_loaded = False
 
@@ -214,8 +216,68 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
         revenue_price=per_series("revenue_price").astype(float),
         top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=table.column("reason"),
         fold_lists=table.column("fold_mse"), stored_score=per_series("score").astype(float, copy=False))
+    results = _with_cycle_fields(results, _optional(path, meta), n_s, n_c, lineup.width)
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
+
+
+# -- the next cycle's fields (``results/cycle.py``): read where the file holds them --------------------
+
+CYCLE = ("sigma2", "df", "cov_unscaled", "last_date")
+
+
+class StoredCovariances:
+    """Each candidate's unscaled covariance as the file holds it (its p·p entries row by row, an Arrow list a cell)."""
+
+    def __init__(self, column, n_c: int, sizes, width: int) -> None:
+        self.column, self.n_c, self.sizes, self.width = column, n_c, np.asarray(sizes), width
+
+    def cells(self, series: np.ndarray) -> np.ndarray:
+        """(len(series), C, P, P), NaN where the file holds none."""
+        import pyarrow as pa
+        out = np.full((len(series), self.n_c, self.width, self.width), np.nan)
+        if not len(series):
+            return out
+        rows = (np.asarray(series)[:, None] * self.n_c + np.arange(self.n_c)[None, :]).ravel()
+        taken = self.column.take(pa.array(rows)).combine_chunks()
+        lengths = np.diff(numbers(taken.offsets)) if len(taken) else np.zeros(0, np.int64)
+        values = numbers(taken.flatten())
+        start = 0
+        for cell, length in enumerate(lengths.tolist()):  # cells of one size at a time would be faster; a handful here
+            if length:
+                p = int(round(length ** 0.5))
+                out.reshape(-1, self.width, self.width)[cell, :p, :p] = values[start:start + length].reshape(p, p)
+            start += length
+        return out
+
+
+def _optional(path: Path, meta: dict):
+    """The cycle columns of every part, when every part has them (else None: an older file)."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+    tables = []
+    for part in result_parts(path) or [path]:
+        reader = pq.ParquetFile(part)
+        if any(name not in reader.schema_arrow.names for name in CYCLE):
+            return None
+        tables.append(reader.read(columns=list(CYCLE)))
+    return pa.concat_tables(tables) if len(tables) > 1 else tables[0]
+
+
+def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width: int) -> StoredResults:
+    from dataclasses import replace
+    if table is None:
+        return results
+    days = table.column("last_date").cast("int32").combine_chunks()
+    every = np.arange(0, table.num_rows, max(n_c, 1))
+    last = numbers(days.take(integers(every))) if n_s else np.zeros(0)
+    last_date = None if n_s and np.isnan(last).all() else np.where(np.isnan(last), np.iinfo(np.int64).min,
+                                                                       last).astype(np.int64).view("datetime64[D]")
+    return replace(results, sigma2=CellColumn(table.column("sigma2"), n_s, n_c),
+                   df=CellColumn(table.column("df"), n_s, n_c),
+                   stored_cov=StoredCovariances(table.column("cov_unscaled"), n_c,
+                                                [c.complexity for c in results.candidates], width),
+                   stored_last_date=last_date)
 
 
 def _column(table, name: str) -> np.ndarray:

@@ -124,6 +124,37 @@ def _influential(diag, s):
             f"{n['cook_limit'][s]:.2f} (a common rule of thumb).")
 
 
+def _shifted(diag, s):
+    return shift_sentence(diag.numbers["backtest"], s, diag.results.names)
+
+
+def shift_sentence(bt, s: int, names: list[str]) -> str:
+    """The signed curve, its backtest on the rows since and this cycle's proposal beside it, in numbers."""
+    from ..text import clean
+    where = money(bt.price[s]) if bt.planned[s] else f"{money(bt.price[s])} (mid-range; no plan price)"
+    band = f" ({fmt(bt.signed_lo[s])}–{fmt(bt.signed_hi[s])})" if math.isfinite(bt.signed_lo[s]) else ""
+    parts = [f"Signed {bt.signed_at[s]} by {clean(str(bt.analyst[s]))}: {clean(str(bt.candidate[s]))}, "
+             f"{fmt(bt.signed_volume[s])}{band} at {where}."]
+    n = int(bt.new_rows[s])
+    if bt.status[s] in ("passed", "failed"):
+        rows = "observation" if n == 1 else "observations"
+        tail = (f"{int(bt.outside[s])} of {n} fell outside its band" if bt.outside[s] >= 0
+                else "its band was not recorded")
+        parts.append(f"On the {n} {rows} since, its error is {bt.error_ratio[s]:.1f}× its CV error and {tail}.")
+    else:
+        why = bt.why(s)
+        parts.append(why[0].upper() + why[1:] + ".")
+    chosen = int(bt.chosen[s])
+    if chosen >= 0 and math.isfinite(bt.proposed_volume[s]):
+        again = " again" if not bt.shape_changed[s] else ""
+        change = bt.volume_change[s]
+        moved = f"{'+' if change > 0 else '−' if change < 0 else ''}{abs(change) * 100:.0f}%" if math.isfinite(change) else "n/a"
+        tilt = f", elasticity {signed(bt.elasticity_change[s])}" if math.isfinite(bt.elasticity_change[s]) else ""
+        parts.append(f"This cycle's proposal, {names[chosen]}{again}, predicts {fmt(bt.proposed_volume[s])} "
+                     f"({moved}{tilt}).")
+    return " ".join(parts)
+
+
 def _stale(diag, s):
     return "The data behind the last sign-off have changed."
 
@@ -131,5 +162,5 @@ def _stale(diag, s):
 SENTENCES = {
     "few-points": _few_points, "flat-price": _flat_price, "rising": _rising, "below-zero": _below_zero,
     "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
-    "weak-fit": _weak_fit, "influential-point": _influential, "stale": _stale,
+    "weak-fit": _weak_fit, "influential-point": _influential, "shifted": _shifted, "stale": _stale,
 }

@@ -1,0 +1,277 @@
+"""Signed curves against the data that arrived since: the backtest and the shift, for every series at once.
+
+For each series whose standing decision (accept, override or carry) was made on other data, the
+signed model (the decision's ``signed`` snapshot) is evaluated on the rows dated after the signed
+data's last date: how many there are, its RMSE on them over its CV RMSE at sign-off
+(``error_ratio``), and the share of them inside its 95% prediction interval (``coverage``).  The
+shift compares this cycle's proposal with the signed model at the same price (the plan price, or
+the middle of the observed prices without one): volume change (share), elasticity change, and
+whether the shape changed.  ``shifted`` is raised when the backtest fails or the volume moved too far
+(thresholds ``shift_error_ratio``, ``shift_coverage`` judged from ``shift_min_rows`` new rows,
+``shift_volume``).
+
+Only the ledger's records are read one by one (they are dicts); every number is computed over all
+series at once, grouped by the signed curve's family and size.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..data.keys import SeriesKeys
+from ..fit.basis import polynomial
+from ..fit.families import BY_NAME
+from ..fit.results import Results
+from ..review.intervals import _rows_of
+from .snapshot import evaluate
+
+# status of a series' backtest; None: no standing decision made on other data (nothing to test)
+PASSED, FAILED = "passed", "failed"
+NO_DATES, NO_NEW_ROWS, UNSIGNED, UNDATED = "no-dates", "no-new-rows", "unsigned", "undated"
+WHY_UNTESTED = {NO_DATES: "the data have no date column, so no backtest is possible",
+                NO_NEW_ROWS: "no rows are dated after the signed data's last date, so there is nothing to backtest",
+                UNSIGNED: "the decision was recorded without its model (an older pricefold), so no backtest is possible",
+                UNDATED: "the signed data had no dates, so no backtest is possible"}
+DECISIONS = ("accept", "override", "carry")
+
+
+@dataclass(frozen=True, eq=False)
+class Backtest:
+    """Per series (S,): the standing decision tested and what the test found (see the module doc).
+
+    Text (object arrays, None where nothing is tested): ``status``, ``decision`` (digest of the
+    standing decision), ``carries`` (the accept or override it stands for: itself, or what a carry
+    carries), ``latest`` (digest of the series' latest record when tested), ``analyst``,
+    ``signed_at`` (its date), ``candidate``, ``last_date`` (of the signed data).  Numbers (NaN or
+    -1 where not known): ``new_rows``, ``error_ratio``, ``coverage``, ``outside``, ``signed_volume``,
+    ``signed_lo``, ``signed_hi`` (the signed curve at ``price``), ``volume_change``,
+    ``elasticity_change``; ``shape_changed``, ``shifted`` (bool).  ``source``: the ledger and its head.
+    """
+
+    source: dict
+    status: np.ndarray
+    decision: np.ndarray
+    carries: np.ndarray
+    latest: np.ndarray
+    analyst: np.ndarray
+    signed_at: np.ndarray
+    candidate: np.ndarray
+    last_date: np.ndarray
+    new_rows: np.ndarray
+    error_ratio: np.ndarray
+    coverage: np.ndarray
+    outside: np.ndarray
+    price: np.ndarray
+    signed_volume: np.ndarray
+    signed_lo: np.ndarray
+    signed_hi: np.ndarray
+    proposed_volume: np.ndarray
+    volume_change: np.ndarray
+    elasticity_change: np.ndarray
+    shape_changed: np.ndarray
+    shifted: np.ndarray
+    planned: np.ndarray
+    chosen: np.ndarray
+
+    STORED = ("status", "decision", "latest", "carries", "analyst", "signed_at", "candidate", "last_date",
+              "new_rows", "error_ratio", "coverage", "outside", "signed_volume", "volume_change",
+              "elasticity_change", "shape_changed")
+
+    def columns(self) -> dict:
+        return {name: getattr(self, name) for name in self.STORED}
+
+    def record(self, s: int) -> dict | None:
+        """Series ``s``'s backtest as a results file holds it (None: nothing tested)."""
+        if self.status[s] is None:
+            return None
+        out = {}
+        for name in self.STORED:
+            value = getattr(self, name)[s]
+            if isinstance(value, (np.floating, float)):
+                value = float(value) if np.isfinite(value) else None
+            elif isinstance(value, (np.bool_, bool)):
+                value = bool(value)
+            elif isinstance(value, (np.integer, int)):
+                value = int(value) if value >= 0 else None
+            out[name] = value
+        return out
+
+    def why(self, s: int) -> str:
+        """Why series ``s`` was not backtested (its status in words)."""
+        return WHY_UNTESTED.get(self.status[s], "")
+
+    def due(self, s: int) -> str | None:
+        """What a signed series with changed data needs, in a few words (None: nothing tested)."""
+        status = self.status[s]
+        if status is None:
+            return None
+        if status == FAILED:
+            return "backtest failed"
+        if self.shifted[s]:
+            return "shifted"
+        return {PASSED: "backtest passed", NO_DATES: "no dates", UNDATED: "no dates", NO_NEW_ROWS: "no new rows",
+                UNSIGNED: "no signed model"}[status]
+
+    def counts(self) -> dict[str, int]:
+        values, counts = np.unique(np.array([v for v in self.status if v is not None], dtype=object).astype(str),
+                                   return_counts=True)
+        return dict(zip(values.tolist(), counts.tolist()))
+
+
+def standing_on_other_data(histories: dict, keys: SeriesKeys, fingerprints) -> tuple[np.ndarray, list[dict], list[dict]]:
+    """(series indices, their standing decisions, their latest records) for every series of ``keys``
+    whose standing decision (accept, override, carry) was made on data other than ``fingerprints``."""
+    standing = [(h.current, h.latest) for h in histories.values()
+                if h.current is not None and h.current["action"] in DECISIONS]
+    if not standing:
+        return np.zeros(0, np.int64), [], []
+    at = keys.indices_of([current["series"] for current, _ in standing])
+    found = np.flatnonzero(at >= 0)
+    index = at[found]
+    recorded = np.array([standing[i][0]["fingerprint"] for i in found.tolist()], dtype=object)
+    now = np.asarray(fingerprints, dtype=object)[index] if not hasattr(fingerprints, "take") else \
+        np.array(fingerprints.take(index).to_pylist(), dtype=object)
+    moved = np.flatnonzero(recorded != now)
+    return index[moved], [standing[found[i]][0] for i in moved], [standing[found[i]][1] for i in moved]
+
+
+def backtest(results: Results, histories: dict, thresholds, source: dict) -> Backtest:
+    """The backtest of every series of ``results`` (a fit with its rows) against ledger ``histories``."""
+    n_s = results.n_series
+    text = lambda: np.full(n_s, None, dtype=object)  # noqa: E731
+    number = lambda: np.full(n_s, np.nan)  # noqa: E731
+    out = dict(status=text(), decision=text(), carries=text(), latest=text(), analyst=text(), signed_at=text(),
+               candidate=text(), last_date=text(), new_rows=np.full(n_s, -1, np.int64), error_ratio=number(),
+               coverage=number(), outside=np.full(n_s, -1, np.int64), price=number(), signed_volume=number(),
+               signed_lo=number(), signed_hi=number(), proposed_volume=number(), volume_change=number(),
+               elasticity_change=number(), shape_changed=np.zeros(n_s, bool))
+    series, decisions, latest = standing_on_other_data(histories, SeriesKeys.of(results.data),
+                                                       results.data.fingerprints)
+    if len(series):
+        _fill(out, results, series, decisions, latest)
+    failed = out["status"] == FAILED
+    with np.errstate(invalid="ignore"):
+        failed |= (out["status"] == PASSED) & ((out["error_ratio"] > thresholds.shift_error_ratio) | (
+            (out["new_rows"] >= thresholds.shift_min_rows) & (out["coverage"] < thresholds.shift_coverage)))
+        out["status"][failed] = FAILED
+        shifted = failed | (np.abs(out["volume_change"]) > thresholds.shift_volume)
+    return Backtest(source=source, shifted=shifted, planned=np.isfinite(results.plan_price),
+                    chosen=np.asarray(results.chosen), **out)
+
+
+def _fill(out: dict, results: Results, series: np.ndarray, decisions: list[dict], latest: list[dict]) -> None:
+    snaps = [d.get("signed") for d in decisions]
+    out["decision"][series] = [d["digest"] for d in decisions]
+    out["carries"][series] = [d.get("carries") or d["digest"] for d in decisions]
+    out["latest"][series] = [r["digest"] for r in latest]
+    out["analyst"][series] = [d["analyst"] for d in decisions]
+    out["signed_at"][series] = [d["at"][:10] for d in decisions]
+    out["candidate"][series] = [snap["candidate"] if snap else d.get("model") for snap, d in zip(snaps, decisions)]
+    out["status"][series] = UNSIGNED
+    signed = np.array([snap is not None for snap in snaps], dtype=bool)
+    if not signed.any():
+        return
+    keep = np.flatnonzero(signed)
+    series, snaps = series[keep], [snaps[i] for i in keep.tolist()]
+    last = np.array([s.get("last_date") or "NaT" for s in snaps], dtype="datetime64[D]")
+    out["last_date"][series] = [s.get("last_date") for s in snaps]
+    dates = results.data.date
+    out["status"][series] = NO_DATES if dates is None else np.where(np.isnat(last), UNDATED, NO_NEW_ROWS)
+    price = np.where(np.isfinite(results.plan_price[series]), results.plan_price[series], results.mid[series])
+    out["price"][series] = price
+    groups: dict[tuple[str, int], list[int]] = {}
+    for i, snap in enumerate(snaps):
+        groups.setdefault((snap["family"], len(snap["basis"]["coef"])), []).append(i)
+    proposed, proposed_el = _proposal_at(results, series, price)
+    out["proposed_volume"][series] = proposed
+    chosen = results.chosen[series]
+    names = np.array(results.names + [None], dtype=object)
+    out["shape_changed"][series] = names[chosen] != np.array([s["candidate"] for s in snaps], dtype=object)
+    for (family_name, k), members in groups.items():
+        members = np.asarray(members)
+        curve = _SignedCurves([snaps[i] for i in members.tolist()], BY_NAME[family_name], k)
+        at = series[members]
+        volume, lo, hi, elasticity = curve.at(price[members])
+        out["signed_volume"][at], out["signed_lo"][at], out["signed_hi"][at] = volume, lo, hi
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out["volume_change"][at] = (proposed[members] - volume) / np.abs(volume)
+            out["elasticity_change"][at] = proposed_el[members] - elasticity
+        if dates is not None:
+            _test_rows(out, results, at, last[members], curve)
+
+
+class _SignedCurves:
+    """n signed curves of one family and size, as arrays (from their snapshots)."""
+
+    def __init__(self, snaps: list[dict], family, k: int) -> None:
+        self.family, n = family, len(snaps)
+        basis = [s["basis"] for s in snaps]
+        self.coef = np.array([b["coef"] for b in basis], dtype=float).reshape(n, k)
+        self.mid = np.array([b["mid"] for b in basis], dtype=float)
+        self.half = np.array([b["half"] for b in basis], dtype=float)
+        self.smear = np.array([s["smearing"] if s["smearing"] is not None else np.nan for s in snaps], dtype=float)
+        nan = [[np.nan] * k] * k
+        self.cov = np.array([s.get("cov_unscaled") or nan for s in snaps], dtype=float).reshape(n, k, k)
+        self.sigma2 = np.array([s.get("sigma2") if s.get("sigma2") is not None else np.nan for s in snaps], float)
+        self.df = np.array([s.get("df") or 1 for s in snaps], dtype=np.int64)
+        self.level = np.array([s.get("level", 0.95) for s in snaps], dtype=float)
+        self.cv_mse = np.array([s["cv_mse"] if s.get("cv_mse") is not None else np.nan for s in snaps], float)
+
+    def at(self, price: np.ndarray, which: np.ndarray | None = None):
+        """(volume, lo, hi, elasticity) of curve ``which[i]`` (default: i) at ``price[i]``."""
+        w = np.arange(len(self.mid)) if which is None else which
+        out = []
+        for level in np.unique(self.level[w]):  # one level in practice (0.95)
+            mine = self.level[w] == level
+            values = evaluate(self.family, self.coef[w][mine], self.mid[w][mine], self.half[w][mine],
+                              self.smear[w][mine], self.cov[w][mine], self.sigma2[w][mine], self.df[w][mine],
+                              price[mine], float(level))
+            out.append((mine, values))
+        result = [np.full(len(w), np.nan) for _ in range(4)]
+        for mine, values in out:
+            for column, value in zip(result, values):
+                column[mine] = value
+        return result
+
+
+def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray, curve: _SignedCurves) -> None:
+    """The signed curves on their series' rows dated after ``last``: count, error ratio, coverage."""
+    data = results.data
+    rows = _rows_of(data.offsets, series)
+    owner = np.repeat(np.arange(len(series)), data.counts[series])
+    new = data.date[rows].astype("datetime64[D]") > last[owner]
+    rows, owner = rows[new], owner[new]
+    count = np.bincount(owner, minlength=len(series))
+    tested = count > 0
+    out["new_rows"][series] = count
+    out["status"][series[tested]] = PASSED
+    if not len(rows):
+        return
+    volume, lo, hi, _ = curve.at(data.price[rows], owner)
+    actual = data.volume[rows]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rmse = np.sqrt(np.bincount(owner, (volume - actual) ** 2, minlength=len(series)) / np.maximum(count, 1))
+        inside = np.bincount(owner, (lo <= actual) & (actual <= hi), minlength=len(series))
+        banded = np.isfinite(curve.cov).all(axis=(1, 2)) & np.isfinite(curve.sigma2)
+        at = series[tested]
+        out["error_ratio"][at] = (rmse / np.sqrt(curve.cv_mse))[tested]
+        out["coverage"][at] = np.where(banded, inside / np.maximum(count, 1), np.nan)[tested]
+        out["outside"][at] = np.where(banded, count - inside, -1)[tested]
+
+
+def _proposal_at(results: Results, series: np.ndarray, price: np.ndarray):
+    """(volume, elasticity) of each series' chosen curve at ``price`` (NaN where none is chosen)."""
+    volume, elasticity = np.full(len(series), np.nan), np.full(len(series), np.nan)
+    chosen = results.chosen[series]
+    for c in np.unique(chosen[chosen >= 0]).tolist():
+        mine = np.flatnonzero(chosen == c)
+        s, k = series[mine], results.candidates[c].complexity
+        family = results.family_of(c)
+        t = family.coordinate(price[mine], results.basis_mid[s, c], results.basis_half[s, c])
+        coef = np.asarray(results.coef[s, c, :k], dtype=float)
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            v = family.volume(polynomial(coef, t), results.smear[s, c])
+            volume[mine] = v
+            elasticity[mine] = family.elasticity(polynomial(coef, t, 1), v, results.basis_half[s, c], price[mine])
+    return volume, elasticity
