@@ -36,6 +36,8 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--strict", action="store_true",
                      help="fail (exit 2) if any row is rejected, instead of fitting the usable rows")
     fit.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
+    from .cycle_cli import add_fit_ledger_option
+    add_fit_ledger_option(fit)
     scale = fit.add_argument_group("engine")
     scale.add_argument("--engine", choices=("local", "dask"), default="local",
                        help="local (default): this process; dask: a Dask cluster, results as a folder of parts")
@@ -54,6 +56,9 @@ def build_parser() -> argparse.ArgumentParser:
     show.add_argument("--key", action="append", default=[], metavar="COL=VALUE",
                       help="only series whose key column COL is VALUE, e.g. region=North (repeatable)")
     show.add_argument("--flag", metavar="CODE", help="only series carrying this flag")
+    show.add_argument("--ledger", type=Path, default=None, metavar="LEDGER",
+                      help="also each series' status in this ledger and what it needs (results from fit --ledger "
+                           "hold the backtest of signed curves)")
 
     triage = commands.add_parser("triage", help="the keyboard-driven triage screen",
                                  description="Work through the series that need a human and sign off decisions. "
@@ -191,9 +196,15 @@ def run_fit(args) -> int:
     finally:
         bar.close()
     diagnosis = diagnose(results, thresholds)
-    write_results(results, args.output, diagnosis)
+    backtest = None
+    if args.ledger is not None:  # the signed curves against the rows since, and the shifted flag
+        from .cycle_cli import backtest_against, backtest_line
+        diagnosis, backtest = backtest_against(args.ledger, results, diagnosis, thresholds, [args.output])
+    write_results(results, args.output, diagnosis, backtest=backtest)
     if not args.quiet:
         print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)
+        if backtest is not None:
+            print(backtest_line(backtest), file=sys.stderr)
     return 0
 
 

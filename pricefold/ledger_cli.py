@@ -63,12 +63,15 @@ def add_parser(commands) -> None:
     bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     bulk.add_argument("--note", default="", metavar="TEXT")
     bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
+    from .cycle_cli import add_carry_parser
+    add_carry_parser(sub)
 
 
 def run(args) -> int:
+    from .cycle_cli import run_carry
     from .ledger_export import run_export
-    return {"verify": run_verify, "show": run_show, "export": run_export,
-            "accept-unflagged": run_accept_unflagged}[args.ledger_command](args)
+    return {"verify": run_verify, "show": run_show, "export": run_export, "accept-unflagged": run_accept_unflagged,
+            "carry": run_carry}[args.ledger_command](args)
 
 
 def open_ledger(path: Path, *, refuse: tuple[str, ...] = ()) -> ledger.Ledger:
@@ -148,21 +151,25 @@ def run_show(args) -> int:
 def run_accept_unflagged(args) -> int:
     from fitcore.results.read import results_in_parts
     header, parts = results_in_parts(args.results)
+    from fitcore.ledger.snapshot import from_records
     digest = ledger.results_digest(header)
-    # What the results propose, read before taking the lock (a results folder can be large).
-    proposals = [(record["key"], record["fingerprint"], record["chosen"]) for part in parts for record in part
-                 if not record["flags"] and record["chosen"]]
+    # What the results propose and the models as they stand, read before taking the lock (a results
+    # folder can be large).
+    unflagged = [record for part in parts for record in part if not record["flags"] and record["chosen"]]
+    signed = from_records([(record, record["chosen"]) for record in unflagged], header["settings"].get("level", 0.95))
+    proposals = [(record["key"], record["fingerprint"], record["chosen"], snapshot)
+                 for record, snapshot in zip(unflagged, signed)]
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
-        for key, fingerprint, chosen in proposals:
+        for key, fingerprint, chosen, snapshot in proposals:
             history = book.histories.get(series_id(key))
             if history is not None and history.current is not None:
                 continue
             latest = history.latest if history is not None else None
             yield ledger.Entry(series=key, action="accept", fingerprint=fingerprint, results=digest, model=chosen,
                                proposed=chosen, note=args.note, supersedes=latest["digest"] if latest else None,
-                               flags=())
+                               flags=(), signed=snapshot)
 
     written = book.append(decide, identity(args.analyst))
     if not args.quiet:

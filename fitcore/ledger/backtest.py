@@ -29,10 +29,6 @@ from .snapshot import evaluate
 # status of a series' backtest; None: no standing decision made on other data (nothing to test)
 PASSED, FAILED = "passed", "failed"
 NO_DATES, NO_NEW_ROWS, UNSIGNED, UNDATED = "no-dates", "no-new-rows", "unsigned", "undated"
-WHY_UNTESTED = {NO_DATES: "the data have no date column, so no backtest is possible",
-                NO_NEW_ROWS: "no rows are dated after the signed data's last date, so there is nothing to backtest",
-                UNSIGNED: "the decision was recorded without its model (an older pricefold), so no backtest is possible",
-                UNDATED: "the signed data had no dates, so no backtest is possible"}
 DECISIONS = ("accept", "override", "carry")
 
 
@@ -75,8 +71,8 @@ class Backtest:
     chosen: np.ndarray
 
     STORED = ("status", "decision", "latest", "carries", "analyst", "signed_at", "candidate", "last_date",
-              "new_rows", "error_ratio", "coverage", "outside", "signed_volume", "volume_change",
-              "elasticity_change", "shape_changed")
+              "new_rows", "error_ratio", "coverage", "outside", "price", "planned", "signed_volume", "signed_lo",
+              "signed_hi", "proposed_volume", "volume_change", "elasticity_change", "shape_changed", "shifted")
 
     def columns(self) -> dict:
         return {name: getattr(self, name) for name in self.STORED}
@@ -97,26 +93,27 @@ class Backtest:
             out[name] = value
         return out
 
-    def why(self, s: int) -> str:
-        """Why series ``s`` was not backtested (its status in words)."""
-        return WHY_UNTESTED.get(self.status[s], "")
-
     def due(self, s: int) -> str | None:
-        """What a signed series with changed data needs, in a few words (None: nothing tested)."""
-        status = self.status[s]
-        if status is None:
-            return None
-        if status == FAILED:
-            return "backtest failed"
-        if self.shifted[s]:
-            return "shifted"
-        return {PASSED: "backtest passed", NO_DATES: "no dates", UNDATED: "no dates", NO_NEW_ROWS: "no new rows",
-                UNSIGNED: "no signed model"}[status]
+        return due(self.record(s))
 
     def counts(self) -> dict[str, int]:
         values, counts = np.unique(np.array([v for v in self.status if v is not None], dtype=object).astype(str),
                                    return_counts=True)
         return dict(zip(values.tolist(), counts.tolist()))
+
+
+def due(record: dict | None) -> str | None:
+    """What a signed series whose data changed needs, in a few words, from its stored backtest (None:
+    nothing was tested: no decision, or one on this very data)."""
+    if record is None:
+        return None
+    status = record["status"]
+    if status == FAILED:
+        return "backtest failed"
+    if record.get("shifted"):
+        return "shifted"
+    return {PASSED: "backtest passed", NO_DATES: "no dates", UNDATED: "no dates", NO_NEW_ROWS: "no new rows",
+            UNSIGNED: "no signed model"}.get(status, status)
 
 
 def standing_on_other_data(histories: dict, keys: SeriesKeys, fingerprints) -> tuple[np.ndarray, list[dict], list[dict]]:

@@ -20,13 +20,6 @@ import numpy as np
 from ..fit.results import Results
 from ..review.intervals import BLOCK, covariances, last_dates
 
-# The backtest's per-series fields: name → kind (JSON and Parquet alike; Parquet prefixes "backtest_").
-BACKTEST_FIELDS = {"status": "text", "decision": "text", "latest": "text", "carries": "text", "analyst": "text",
-                   "signed_at": "text", "candidate": "text", "last_date": "text", "new_rows": "int",
-                   "error_ratio": "float", "coverage": "float", "outside": "int", "signed_volume": "float",
-                   "volume_change": "float", "elasticity_change": "float", "shape_changed": "bool"}
-
-
 def _num(value) -> float | None:
     value = float(value)
     return value if math.isfinite(value) else None
@@ -93,20 +86,20 @@ def parquet_columns(results: Results, backtest=None) -> dict:
     columns["last_date"] = pa.array(np.repeat(days, n_c), type=pa.int32(), mask=np.repeat(missing, n_c)).cast(pa.date32())
     if backtest is not None:
         for name, values in backtest.columns().items():
-            columns[f"backtest_{name}"] = _repeat_column(values, BACKTEST_FIELDS[name], n_c)
+            columns[f"backtest_{name}"] = _repeat_column(values, n_c)
     return columns
 
 
-def _repeat_column(values, kind: str, n_c: int):
+def _repeat_column(values: np.ndarray, n_c: int):
+    """A per-series array repeated on each candidate's row: text (None → null), numbers (NaN → null),
+    counts (-1 → null), booleans."""
     import pyarrow as pa
-    if kind == "text":
-        return pa.array(np.repeat(np.asarray(values, dtype=object), n_c), pa.string())
-    values = np.repeat(np.asarray(values), n_c)
-    if kind == "float":
-        return values.astype(float)
-    if kind == "int":
+    values = np.repeat(values, n_c)
+    if values.dtype == object:
+        return pa.array(values, pa.string())
+    if values.dtype.kind in "iu":
         return pa.array(values.astype(np.int64), mask=values < 0)
-    return values.astype(bool)
+    return values
 
 
 def header_extras(backtest=None) -> dict:

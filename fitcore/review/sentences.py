@@ -125,33 +125,47 @@ def _influential(diag, s):
 
 
 def _shifted(diag, s):
-    return shift_sentence(diag.numbers["backtest"], s, diag.results.names)
+    bt = diag.numbers["backtest"]
+    chosen = int(diag.results.chosen[s])
+    return shift_sentence(bt.record(s), diag.results.names[chosen] if chosen >= 0 else None)
 
 
-def shift_sentence(bt, s: int, names: list[str]) -> str:
-    """The signed curve, its backtest on the rows since and this cycle's proposal beside it, in numbers."""
+WHY_UNTESTED = {"no-dates": "the data have no date column, so no backtest is possible",
+                "no-new-rows": "no rows are dated after the signed data's last date, so there is nothing to backtest",
+                "unsigned": "the decision was recorded without its model, so no backtest is possible",
+                "undated": "the signed data had no dates, so no backtest is possible"}
+
+
+def shift_sentence(bt: dict, proposal: str | None) -> str:
+    """The signed curve, its backtest on the rows since, and this cycle's ``proposal`` beside it, in
+    numbers, from a series' stored backtest (``fitcore.ledger.backtest.Backtest.record``)."""
     from ..text import clean
-    where = money(bt.price[s]) if bt.planned[s] else f"{money(bt.price[s])} (mid-range; no plan price)"
-    band = f" ({fmt(bt.signed_lo[s])}–{fmt(bt.signed_hi[s])})" if math.isfinite(bt.signed_lo[s]) else ""
-    parts = [f"Signed {bt.signed_at[s]} by {clean(str(bt.analyst[s]))}: {clean(str(bt.candidate[s]))}, "
-             f"{fmt(bt.signed_volume[s])}{band} at {where}."]
-    n = int(bt.new_rows[s])
-    if bt.status[s] in ("passed", "failed"):
-        rows = "observation" if n == 1 else "observations"
-        tail = (f"{int(bt.outside[s])} of {n} fell outside its band" if bt.outside[s] >= 0
+
+    def number(name):
+        value = bt.get(name)
+        return math.nan if value is None else value
+
+    where = money(number("price")) + ("" if bt.get("planned") else " (mid-range; no plan price)")
+    band = f" ({fmt(number('signed_lo'))}–{fmt(number('signed_hi'))})" if bt.get("signed_lo") is not None else ""
+    parts = [f"Signed {clean(str(bt['signed_at']))} by {clean(str(bt['analyst']))}: {clean(str(bt['candidate']))}"
+             + (f", {fmt(number('signed_volume'))}{band} at {where}." if bt.get("signed_volume") is not None else ".")]
+    n = bt.get("new_rows") or 0
+    if bt["status"] in ("passed", "failed"):
+        tail = (f"{bt['outside']} of {n} fell outside its band" if bt.get("outside") is not None
                 else "its band was not recorded")
-        parts.append(f"On the {n} {rows} since, its error is {bt.error_ratio[s]:.1f}× its CV error and {tail}.")
+        parts.append(f"On the {n} {'observation' if n == 1 else 'observations'} since, its error is "
+                     f"{number('error_ratio'):.1f}× its CV error and {tail}.")
     else:
-        why = bt.why(s)
+        why = WHY_UNTESTED.get(bt["status"], bt["status"])
         parts.append(why[0].upper() + why[1:] + ".")
-    chosen = int(bt.chosen[s])
-    if chosen >= 0 and math.isfinite(bt.proposed_volume[s]):
-        again = " again" if not bt.shape_changed[s] else ""
-        change = bt.volume_change[s]
-        moved = f"{'+' if change > 0 else '−' if change < 0 else ''}{abs(change) * 100:.0f}%" if math.isfinite(change) else "n/a"
-        tilt = f", elasticity {signed(bt.elasticity_change[s])}" if math.isfinite(bt.elasticity_change[s]) else ""
-        parts.append(f"This cycle's proposal, {names[chosen]}{again}, predicts {fmt(bt.proposed_volume[s])} "
-                     f"({moved}{tilt}).")
+    if proposal is not None and bt.get("proposed_volume") is not None:
+        change, tilt = number("volume_change"), number("elasticity_change")
+        moved = f"{'+' if change > 0 else '−' if change < 0 else ''}{abs(change) * 100:.0f}%" \
+            if math.isfinite(change) else "n/a"
+        tilt_text = f", elasticity {signed(tilt)}" if math.isfinite(tilt) else ""
+        again = "" if bt.get("shape_changed") else " again"
+        parts.append(f"This cycle's proposal, {proposal}{again}, predicts {fmt(number('proposed_volume'))} "
+                     f"({moved}{tilt_text}).")
     return " ".join(parts)
 
 
