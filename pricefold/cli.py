@@ -262,7 +262,11 @@ def run_show(args) -> int:
     if not picked:
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
         return 1
-    print(detail(picked[0]) if len(picked) == 1 else table(picked))
+    if args.ledger is not None:
+        from .cycle_cli import show_with_ledger
+        print(show_with_ledger(picked, args.ledger))
+    else:
+        print(detail(picked[0]) if len(picked) == 1 else table(picked))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     return 0

@@ -66,6 +66,46 @@ def backtest_line(found) -> str:
     return f"ledger: {total:,} signed series on changed data — backtest {parts}; shifted {int(found.shifted.sum()):,}"
 
 
+# -- show --ledger ---------------------------------------------------------------------------------------
+
+def ledger_state(record: dict, book) -> tuple[str, str | None]:
+    """(status in the ledger, what it needs) of a results record."""
+    from fitcore.ledger.backtest import due
+    history = book.histories.get(series_id(record["key"]))
+    status = history.status(record["fingerprint"]) if history else "pending"
+    if status == "accepted" and history.current["action"] == "carry":
+        status = "accepted (carried)"
+    needs = due(record.get("backtest")) if status == "stale" else None
+    if status == "stale" and needs is None:
+        needs = "no backtest in these results (fit with --ledger)"
+    return status, needs
+
+
+def show_with_ledger(records: list[dict], ledger_path: Path) -> str:
+    """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list."""
+    from fitcore.review.sentences import shift_sentence
+
+    from .show import detail, in_attention_order, key_text
+    book = open_ledger(ledger_path)
+    if len(records) == 1:
+        record = records[0]
+        status, needs = ledger_state(record, book)
+        lines = [detail(record), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
+        if record.get("backtest"):
+            lines.append("  " + shift_sentence(record["backtest"], record["chosen"]))
+        return "\n".join(lines)
+    lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'status':<19} {'due':<16} {'ratio':>5} {'cover':>5}  flags"]
+    for record in in_attention_order(records):
+        status, needs = ledger_state(record, book)
+        bt = record.get("backtest") or {}
+        ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
+        cover = f"{bt['coverage'] * 100:.0f}%" if bt.get("coverage") is not None else "—"
+        flags = " ".join(f["code"] for f in record["flags"]) or "—"
+        lines.append(f"{key_text(record['key'])[:40]:<40} {record['n']:>5} {record['chosen'] or '—':<7} "
+                     f"{status:<19} {(needs or '—')[:16]:<16} {ratio:>5} {cover:>5}  {flags}")
+    return "\n".join(lines)
+
+
 # -- ledger carry ------------------------------------------------------------------------------------
 
 def _stop_codes() -> set[str]:
