@@ -133,6 +133,25 @@ def standing_on_other_data(histories: dict, keys: SeriesKeys, fingerprints) -> t
     return index[moved], [standing[found[i]][0] for i in moved], [standing[found[i]][1] for i in moved]
 
 
+def by_partition(histories: dict, key_names: tuple[str, ...], n_parts: int) -> list[dict]:
+    """The standing decisions (with each series' latest record) split by the partition their series'
+    key hash picks (``scale.dask_engine.partition_of``), as histories ``backtest`` reads: so each
+    partition of a Dask fit is sent only its own series' decisions."""
+    from ..data.dataset import hash_keys
+    from .replay import SeriesHistory
+    standing = [(sid, h.current, h.latest) for sid, h in histories.items()
+                if h.current is not None and h.current["action"] in DECISIONS]
+    out: list[dict] = [{} for _ in range(n_parts)]
+    if not standing:
+        return out
+    keys = {name: np.array([str(current["series"].get(name, "")) for _, current, _ in standing], dtype=object)
+            for name in key_names}
+    parts = (hash_keys(keys) % np.uint64(n_parts)).astype(np.int64)
+    for (sid, current, latest), p in zip(standing, parts.tolist()):
+        out[p][sid] = SeriesHistory(records=[latest], standing=[current])
+    return out
+
+
 def backtest(results: Results, histories: dict, thresholds, source: dict) -> Backtest:
     """The backtest of every series of ``results`` (a fit with its rows) against ledger ``histories``."""
     n_s = results.n_series

@@ -108,6 +108,7 @@ class PartJob:
     source: dict  # the input as the results header records it
     out: str  # the results folder
     sep: str | None = None
+    ledger: dict | None = None  # the ledger backtested against (path, head), with ``fit --ledger``
 
 
 def gather_part(tables: list, columns: Columns):
@@ -129,15 +130,17 @@ def gather_part(tables: list, columns: Columns):
     return table.take(keep), lines[dropped].tolist(), [duplicate_reason(int(line)) for line in earlier]
 
 
-def fit_part(p: int, table, job: PartJob) -> dict:
-    """Fit, diagnose and write partition ``p`` (``part-p.parquet``); a small summary for the client."""
+def fit_part(p: int, table, job: PartJob, standing: dict | None = None) -> dict:
+    """Fit, diagnose and write partition ``p`` (``part-p.parquet``); a small summary for the client.
+    ``standing``: this partition's standing decisions (``ledger.backtest.by_partition``) with ``fit --ledger``."""
     from ..data.dataset import from_columns
     from ..data.plan import plan_prices
     from ..fit.engine import fit_batch
     from ..results.write import results_table, write_parquet
     from ..review.flags import diagnose
     if table.num_rows == 0:
-        return {"series": 0, "rows": 0, "none": 0, "clean": 0, "chosen": {}, "flags": {}, "plan_matched": 0}
+        return {"series": 0, "rows": 0, "none": 0, "clean": 0, "chosen": {}, "flags": {}, "plan_matched": 0,
+                "backtest": {}, "shifted": 0}
 
     def column(name):
         return table.column(name).to_numpy(zero_copy_only=False) if name in table.column_names else None
@@ -148,12 +151,19 @@ def fit_part(p: int, table, job: PartJob) -> dict:
     plan = plan_prices(data, job.plan_file, job.sep, partial=True) if job.plan_file else job.plan_price
     results = fit_batch(data, job.settings, plan_price=plan)
     diagnosis = diagnose(results, job.thresholds)
-    write_parquet(results_table(results, diagnosis), Path(job.out) / f"part-{p:05d}.parquet")
+    found = None
+    if job.ledger is not None:  # signed curves against the rows since, and the shifted flag
+        from ..ledger.backtest import backtest
+        from ..review.flags import mark_shifted
+        found = backtest(results, standing or {}, job.thresholds, job.ledger)
+        diagnosis = mark_shifted(diagnosis, found)
+    write_parquet(results_table(results, diagnosis, found), Path(job.out) / f"part-{p:05d}.parquet")
     chosen = np.bincount(results.chosen[results.chosen >= 0], minlength=len(results.names))
     return {"series": results.n_series, "rows": data.n_rows, "none": int((results.chosen < 0).sum()),
             "clean": int((~diagnosis.raised.any(axis=1)).sum()), "flags": diagnosis.counts(),
             "chosen": {name: int(n) for name, n in zip(results.names, chosen) if n},
-            "plan_matched": int(np.isfinite(results.plan_price).sum()) if job.plan_file else 0}
+            "plan_matched": int(np.isfinite(results.plan_price).sum()) if job.plan_file else 0,
+            "backtest": {} if found is None else found.counts(), "shifted": 0 if found is None else int(found.shifted.sum())}
 
 
 def worker_environment() -> dict[str, str]:
@@ -197,11 +207,12 @@ def disconnect(client) -> None:
 
 def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *, plan_file: Path | None = None,
                 plan_price: float | None = None, sep: str | None = None, client=None, partitions: int | None = None,
-                progress=None) -> dict:
+                progress=None, ledger=None) -> dict:
     """Fit ``path`` on the cluster behind ``client`` into the results folder ``out`` (part files + summary).
 
     Returns the summary (also written as ``out/_summary.json``), which holds the rejected rows' lines
-    and reasons.  ``partitions``: output partitions (default: 4 per worker, at least 1).
+    and reasons.  ``partitions``: output partitions (default: 4 per worker, at least 1).  ``ledger``: an open
+    ``fitcore.ledger.Ledger`` to backtest signed curves against (``fit --ledger``).
     """
     started = time.perf_counter()
     pieces = pieces_of(path, columns)
@@ -214,7 +225,7 @@ def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *
     staging.mkdir(parents=True)
     try:
         total = _fit_into(staging, pieces, path, columns, settings, thresholds, plan_file, plan_price, sep, client,
-                          n_workers, n_parts, started, progress)
+                          n_workers, n_parts, started, progress, ledger)
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
@@ -227,7 +238,7 @@ def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *
 
 
 def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file, plan_price, sep, client,
-              n_workers: int, n_parts: int, started: float, progress) -> dict:
+              n_workers: int, n_parts: int, started: float, progress, book=None) -> dict:
     from distributed import wait
 
     read = [client.submit(read_piece, piece, columns, n_parts, sep, pure=False) for piece in pieces]
@@ -245,9 +256,15 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
         from ..data.validation import summary
         raise DataError(f"no usable rows ({summary(reasons)})", path=str(path))
     del read
+    standing, ledger_source = [None] * n_parts, None
+    if book is not None:
+        from ..ledger.backtest import by_partition
+        standing = by_partition(book.histories, columns.keys, n_parts)
+        ledger_source = {"path": str(book.path.resolve()), "head": book.head_text, "state": book.state}
     job = PartJob(columns, settings, thresholds, str(plan_file) if plan_file else None, plan_price, source,
-                  str(out), sep)
-    parts = [client.submit(fit_part, p, client.submit(_table_only, f), job, pure=False) for p, f in enumerate(gathered)]
+                  str(out), sep, ledger_source)
+    parts = [client.submit(fit_part, p, client.submit(_table_only, f), job, standing[p], pure=False)
+             for p, f in enumerate(gathered)]
     summaries = []
     for future in parts:
         summaries.append(future.result())
@@ -260,6 +277,7 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
              "none": sum(s["none"] for s in summaries), "clean": sum(s["clean"] for s in summaries),
              "chosen": _add(s["chosen"] for s in summaries), "flags": _add(s["flags"] for s in summaries),
              "plan_matched": sum(s["plan_matched"] for s in summaries),
+             "backtest": _add(s["backtest"] for s in summaries), "shifted": sum(s["shifted"] for s in summaries),
              "seconds": round(time.perf_counter() - started, 3),
              "rejected": {"lines": [int(lines[i]) for i in order], "reasons": [reasons[i] for i in order]}}
     (out / SUMMARY).write_text(json.dumps(total, ensure_ascii=False, indent=1))

@@ -159,3 +159,24 @@ def test_analysts_carrying_at_once_record_one_carry_per_series(cycle_two):
     carries = [series_id(r["series"]) for r in records if r["action"] == "carry"]
     assert len(carries) == len(set(carries)) == sum(1 for r in second.values() if r.get("backtest")) > 4
     assert ledger.verify(book) == []
+
+
+def test_dask_engine_backtests_as_the_local_engine(cycle_two, tmp_path):
+    pytest.importorskip("distributed")
+    book, _, _ = cycle_two
+    base = ["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+            "--no-loglog", "--ledger", str(book), "--quiet"]
+    assert main(base + ["-o", str(tmp_path / "local.parquet")]) == 0
+    assert main(base + ["-o", str(tmp_path / "parts"), "--engine", "dask", "--workers", "1", "--partitions", "3"]) == 0
+    from fitcore.results.read import read_results
+    local_head, local = read_results(tmp_path / "local.parquet")
+    dask_head, parts = read_results(tmp_path / "parts")
+    assert dask_head["ledger"] == local_head["ledger"] and local_head["ledger"]["state"] == "intact"
+    by_key = {r["key"]["product"]: r for r in parts}
+    assert len(by_key) == len(local) == N_SERIES
+    tested = 0
+    for record in local:
+        other = by_key[record["key"]["product"]]
+        assert other["backtest"] == record["backtest"] and other["flags"] == record["flags"]
+        tested += record["backtest"] is not None and record["backtest"]["status"] == "passed"
+    assert tested >= N_SERIES - 2
