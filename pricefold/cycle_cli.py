@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import sys
 from collections import Counter
+from dataclasses import dataclass
 from pathlib import Path
 
 from fitcore import ledger
@@ -108,12 +109,31 @@ def show_with_ledger(records: list[dict], ledger_path: Path) -> str:
 
 # -- ledger carry ------------------------------------------------------------------------------------
 
+@dataclass
+class Carryable:
+    """A series whose signed decision may be carried, as the results say (checked again under the lock)."""
+
+    key: dict
+    fingerprint: str
+    chosen: str
+    flags: list
+    latest: str  # the series' latest ledger record when the results were fitted
+    candidate: str  # the signed candidate
+    carries: str  # the accept or override the standing decision stands for
+    near_best: bool  # the signed candidate is available and within one SE of the lowest CV error
+    snapshot: dict | None = None
+
+
+UNTESTED = {"failed": "backtest failed", "no-dates": "no dates", "undated": "no dates", "no-new-rows": "no new rows",
+            "unsigned": "no signed model"}
+
+
 def _stop_codes() -> set[str]:
     from fitcore.review.flags import SEVERITY
     return {code for code, severity in SEVERITY.items() if severity == "stop"}
 
 
-def _within_one_se(record: dict, name: str) -> bool:
+def _near_best(record: dict, name: str) -> bool:
     """The candidate is available and its CV error within one SE of the lowest (the rule's own band)."""
     cands = [c for c in record["candidates"] if c["available"] and c["cv_mse"] is not None]
     mine = next((c for c in cands if c["name"] == name), None)
@@ -123,35 +143,86 @@ def _within_one_se(record: dict, name: str) -> bool:
     return mine["cv_mse"] <= best["cv_mse"] + (best["cv_se"] or 0.0)
 
 
-def carry_plan(parts, stops: set[str]) -> tuple[list[dict], Counter]:
-    """The records whose signed decision may be carried (before the ledger is read under its lock),
-    and why each other signed series with changed data stays for a human."""
-    keep, left = [], Counter()
-    for part in parts:
-        for record in part:
-            bt = record.get("backtest")
-            if bt is None:
-                continue
-            codes = {f["code"] for f in record["flags"]}
-            if bt["status"] != "passed":
-                left["backtest failed" if bt["status"] == "failed" else
-                     {"no-dates": "no dates", "undated": "no dates", "no-new-rows": "no new rows",
-                      "unsigned": "no signed model"}.get(bt["status"], bt["status"])] += 1
-            elif "shifted" in codes:
-                left["shifted"] += 1
-            elif codes & stops:
-                left["stop flag"] += 1
-            elif record["chosen"] is None:
-                left["no candidate"] += 1
-            else:
-                keep.append(record)
-    return keep, left
+def plan_from_records(records, level: float) -> tuple[list[Carryable], Counter]:
+    """Which series may be carried, from results records (JSON; small runs), and why the others may not."""
+    from fitcore.ledger.snapshot import from_records
+    stops, keep, left = _stop_codes(), [], Counter()
+    for record in records:
+        bt = record.get("backtest")
+        if bt is None:
+            continue
+        codes = [f["code"] for f in record["flags"]]
+        if bt["status"] != "passed":
+            left[UNTESTED.get(bt["status"], bt["status"])] += 1
+        elif "shifted" in codes:
+            left["shifted"] += 1
+        elif set(codes) & stops:
+            left["stop flag"] += 1
+        elif record["chosen"] is None:
+            left["no candidate"] += 1
+        else:
+            keep.append((record, Carryable(record["key"], record["fingerprint"], record["chosen"], codes, bt["latest"],
+                                           bt["candidate"], bt["carries"], _near_best(record, bt["candidate"]))))
+    signed = from_records([(record, c.candidate) for record, c in keep], level)
+    for (_, c), snapshot in zip(keep, signed):
+        c.snapshot = snapshot
+    return [c for _, c in keep], left
+
+
+def plan_from_stored(path: Path) -> tuple[list[Carryable], Counter]:
+    """The same from a Parquet results file or folder, column by column (no Python object per candidate)."""
+    import numpy as np
+
+    from fitcore.ledger.snapshot import from_results
+    from fitcore.results.stored import stored_results
+    from fitcore.review.flags import CODES
+    results, diagnosis = stored_results(path)
+    bt = results.stored_backtest or {}
+    status = bt.get("status", np.full(results.n_series, None, dtype=object))
+    tested = status != None  # noqa: E711
+    passed = status == "passed"
+    shifted, stop = diagnosis.flagged("shifted"), diagnosis.n_stop() > 0
+    chosen = results.chosen
+    left = Counter()
+    for value, count in Counter(status[tested & ~passed].tolist()).items():
+        left[UNTESTED.get(value, value)] += count
+    left.update({"shifted": int((passed & shifted).sum()), "stop flag": int((passed & ~shifted & stop).sum()),
+                 "no candidate": int((passed & ~shifted & ~stop & (chosen < 0)).sum())})
+    ok = np.flatnonzero(passed & ~shifted & ~stop & (chosen >= 0))
+    names = results.names
+    signed = np.array([names.index(n) if n in names else -1 for n in bt["candidate"][ok].tolist()], dtype=np.int64) \
+        if len(ok) else np.zeros(0, np.int64)
+    ok, signed = ok[signed >= 0], signed[signed >= 0]
+    cv_mse, cv_se = np.asarray(results.cv_mse)[ok], np.asarray(results.cv_se)[ok]
+    errors = np.where(results.available[ok], cv_mse, np.inf)
+    best = np.argmin(errors, axis=1) if len(ok) else np.zeros(0, np.int64)
+    rows = np.arange(len(ok))
+    near = results.available[ok, signed] & (cv_mse[rows, signed] <= errors[rows, best] + cv_se[rows, best])
+    snapshots: list = [None] * len(ok)
+    for c in np.unique(signed).tolist():
+        mine = np.flatnonzero(signed == c)
+        for i, snapshot in zip(mine.tolist(), from_results(results, ok[mine], c)):
+            snapshots[i] = snapshot
+    data = results.data
+    keys = {name: data.keys[name].take(integers_of(ok)).to_pylist() for name in data.key_names}
+    fingerprints = data.fingerprints.take(integers_of(ok)).to_pylist()
+    flagged = diagnosis.raised[ok]
+    plan = [Carryable({name: keys[name][i] for name in data.key_names}, fingerprints[i], names[chosen[s]],
+                      [CODES[j] for j in np.flatnonzero(flagged[i])] if flagged[i].any() else [],
+                      bt["latest"][s], bt["candidate"][s], bt["carries"][s], bool(near[i]), snapshots[i])
+            for i, s in enumerate(ok.tolist())]
+    return plan, left
+
+
+def integers_of(values):
+    from fitcore.arrays import integers
+    return integers(values)
 
 
 def run_carry(args) -> int:
-    from fitcore.ledger.snapshot import from_records
-    from fitcore.results.read import results_in_parts
-    header, parts = results_in_parts(args.results)
+    from fitcore.results.read import read_header, read_results, result_parts
+    stored = result_parts(args.results) is not None or args.results.suffix.lower() in (".parquet", ".pq")
+    header = read_header(args.results) if stored else read_results(args.results)[0]
     source = header.get("ledger")
     if not source:
         raise ledger.LedgerError(f"{args.results}: not made by 'pricefold fit --ledger', so it holds no backtest to "
@@ -159,40 +230,35 @@ def run_carry(args) -> int:
     if not same_file(Path(source["path"]), args.ledger):
         raise ledger.LedgerError(f"{args.results}: backtested against {source['path']}, not {args.ledger}; "
                                  "fit again with --ledger on this ledger")
+    header.pop("key_columns", None)
     digest = ledger.results_digest(header)
-    level = header["settings"].get("level", 0.95)
-    wanted, left = carry_plan(parts, _stop_codes())
+    if stored:
+        plan, left = plan_from_stored(args.results)
+    else:
+        plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95))
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
     outcome: Counter = Counter()
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
         outcome.clear()
-        chosen = []
-        for record in wanted:
-            bt = record["backtest"]
-            history = book.histories.get(series_id(record["key"]))
+        for c in plan:
+            history = book.histories.get(series_id(c.key))
             current = history.current if history else None
-            if current is not None and current["action"] == "carry" and current["fingerprint"] == record["fingerprint"]:
+            if current is not None and current["action"] == "carry" and current["fingerprint"] == c.fingerprint:
                 outcome["already carried"] += 1
-            elif history is None or history.latest["digest"] != bt["latest"]:
+            elif history is None or history.latest["digest"] != c.latest:
                 outcome["changed since the fit"] += 1
-            elif bt["candidate"] != record["chosen"] and not (
-                    _carried_action(history, bt["carries"]) == "override"
-                    and _within_one_se(record, bt["candidate"])):
+            elif c.candidate != c.chosen and not (_carried_action(history, c.carries) == "override" and c.near_best):
                 outcome["shape changed"] += 1
             else:
-                chosen.append((record, history.latest["digest"]))
-        signed = from_records([(record, record["backtest"]["candidate"]) for record, _ in chosen], level)
-        for (record, latest), snapshot in zip(chosen, signed):
-            yield ledger.Entry(series=record["key"], action="carry", fingerprint=record["fingerprint"],
-                               results=digest, model=record["backtest"]["candidate"], proposed=record["chosen"],
-                               note=args.note, supersedes=latest, flags=[f["code"] for f in record["flags"]],
-                               signed=snapshot, carries=record["backtest"]["carries"])
+                yield ledger.Entry(series=c.key, action="carry", fingerprint=c.fingerprint, results=digest,
+                                   model=c.candidate, proposed=c.chosen, note=args.note, supersedes=c.latest,
+                                   flags=c.flags, signed=c.snapshot, carries=c.carries)
 
     written = book.append(decide, identity(args.analyst))
     left.update(outcome)
     if not args.quiet:
-        rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common()) or "none"
+        rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"
         print(f"carried {len(written):,} signed series to the new data → {args.ledger}", file=sys.stderr)
         print(f"left for a human: {sum(left.values()):,} ({rest})", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)

@@ -104,11 +104,14 @@ def from_results(results: Results, series, c: int, cov: np.ndarray | None = None
     cand = results.candidates[c]
     k = cand.complexity
     if cov is None:
-        cov = covariances(results, series)[:, c, :k, :k]
-    coef = np.array([results.coef[s, c, :k] for s in series.tolist()]) if not isinstance(results.coef, np.ndarray) \
-        else results.coef[series, c, :k]
-    cell = lambda a: np.array([a[s, c] for s in series.tolist()], dtype=float) if not isinstance(a, np.ndarray) \
-        else a[series, c]  # noqa: E731  (stored results read cells one series at a time)
+        stored = getattr(results, "stored_cov", None)
+        cov = stored.of(series, c) if stored is not None else covariances(results, series)[:, c, :k, :k]
+
+    def cell(a):  # stored results hold cells as columns read on demand: one series, or all at once
+        if isinstance(a, np.ndarray):
+            return a[series, c]
+        return np.array([a[s, c] for s in series.tolist()]) if len(series) < 8 else np.asarray(a)[series, c]
+    coef = cell(results.coef)[:, :k]
     dates = last_dates(results)
     return snapshots(cand.name, cand.family, results.settings.level, coef=coef, mid=results.basis_mid[series, c],
                      half=results.basis_half[series, c], smear=results.smear[series, c], cov=cov,

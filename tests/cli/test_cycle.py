@@ -180,3 +180,23 @@ def test_dask_engine_backtests_as_the_local_engine(cycle_two, tmp_path):
         assert other["backtest"] == record["backtest"] and other["flags"] == record["flags"]
         tested += record["backtest"] is not None and record["backtest"]["status"] == "passed"
     assert tested >= N_SERIES - 2
+
+
+def test_carry_from_parquet_records_what_it_does_from_json(cycle_two, tmp_path):
+    book, _, _ = cycle_two
+    carried = {}
+    for kind in ("json", "parquet"):
+        copy = tmp_path / f"{kind}.jsonl"
+        copy.write_bytes(book.read_bytes())
+        out = tmp_path / f"r.{kind}"
+        assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+                     "--no-loglog", "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+        assert main(["ledger", "carry", str(out), "--ledger", str(copy), "-q"]) == 0
+        carried[kind] = {r["series"]["product"]: (r["carries"], r["flags"], r["model"], r["signed"])
+                         for r in ledger.Ledger(copy).records if r["action"] == "carry"}
+    assert len(carried["json"]) > 4 and carried["json"].keys() == carried["parquet"].keys()
+    for product, (carries, flags, model, signed) in carried["json"].items():
+        other = carried["parquet"][product]
+        assert other[:3] == (carries, flags, model) and other[3].keys() == signed.keys()
+        np.testing.assert_allclose(np.array(other[3]["cov_unscaled"]), np.array(signed["cov_unscaled"]), rtol=1e-12)
+        assert other[3]["plan"] == pytest.approx(signed["plan"], rel=1e-12) and other[3]["last_date"] == signed["last_date"]
