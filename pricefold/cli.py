@@ -81,6 +81,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     from .ledger_cli import add_parser as add_ledger_parser
     add_ledger_parser(commands)
+    from .report.command import add_parser as add_report_parser
+    add_report_parser(commands)
     return parser
 
 
@@ -288,13 +290,15 @@ def is_results(path: Path) -> bool:
 
 
 def run_triage(args) -> int:
+    from fitcore.data.config import load_config
     from fitcore.review.thresholds import Thresholds, parse_threshold_options
     from tui.factory import Source, default_ledger, is_stored, source_from_results
-
     ledger_path = args.ledger or default_ledger(args.source)
+    units = load_config(args.config).get("units", {})
     if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen
-        return open_triage(source_from_results(args.source, check_data=False), ledger_path, args.analyst,
-                           stored=args.source)
+        source = source_from_results(args.source, check_data=False)
+        source.units = units
+        return open_triage(source, ledger_path, args.analyst, stored=args.source)
     if is_results(args.source):
         source = source_from_results(args.source)
     else:
@@ -305,6 +309,7 @@ def run_triage(args) -> int:
         source = Source(data=args.source, columns=columns_from(args), settings=settings_from(args),
                         plan_file=args.plan, plan_price=args.plan_price,
                         thresholds=Thresholds().with_overrides(parse_threshold_options(args.threshold)))
+    source.units = units
     return open_triage(source, ledger_path, args.analyst)
 
 
@@ -326,7 +331,7 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
         observer = (lambda progress: refit_stored(source, progress)) if rows <= REFIT_ROWS else None
 
         def opener(progress):
-            session = open_stored_session(stored, ledger_path, who, key, progress)
+            session = open_stored_session(stored, ledger_path, who, key, progress, units=source.units)
             if observer is None:
                 session.warnings.append(f"The data behind these results have {rows:,} rows, too many to read here: "
                                         "the evidence shows the fitted curves without the observations.")
@@ -340,6 +345,7 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
 
 
 def run_demo(args) -> int:
+    from fitcore.data.config import load_config
     from fitcore.results.write import write_results
     from tui.factory import fit_source, sample_source, source_from_results
 
@@ -351,7 +357,10 @@ def run_demo(args) -> int:
     results_path = folder / "results.json"
     write_results(results, results_path, diagnosis)
     print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
-    return open_triage(source_from_results(results_path), folder / "ledger.jsonl", args.analyst)
+    print(f"report: pricefold report {results_path} --ledger {folder}/ledger.jsonl -o {folder}/report.html", file=sys.stderr)
+    source = source_from_results(results_path)
+    source.units = load_config(None).get("units", {})
+    return open_triage(source, folder / "ledger.jsonl", args.analyst)
 
 
 def run_ledger(args) -> int:
@@ -359,7 +368,13 @@ def run_ledger(args) -> int:
     return run(args)
 
 
-COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger, "triage": run_triage, "demo": run_demo}
+def run_report(args) -> int:
+    from .report.command import run
+    return run(args)
+
+
+COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger, "triage": run_triage, "demo": run_demo,
+            "report": run_report}
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -4,6 +4,7 @@ from __future__ import annotations
 import math
 
 from fitcore.data.keys import SEPARATOR
+from fitcore.review import choice
 from fitcore.review.attention import attention_order
 from fitcore.review.sentences import fmt, money
 from fitcore.text import clean
@@ -47,17 +48,8 @@ def table(records: list[dict]) -> str:
 
 
 def why_chosen(record: dict) -> str:
-    cands = {c["name"]: c for c in record["candidates"] if c["available"]}
-    if not record["chosen"]:
-        return "no candidate could be fitted and cross-validated"
-    best = min(cands.values(), key=lambda c: c["cv_mse"])
-    chosen = cands[record["chosen"]]
-    if record["rule"] == "lowest" or best["name"] == chosen["name"]:
-        return f"lowest mean CV error ({fmt(best['cv_mse'])})"
-    limit = best["cv_mse"] + best["cv_se"]
-    return (f"simplest candidate within one standard error of the lowest CV error "
-            f"({best['name']} {fmt(best['cv_mse'])} ± {fmt(best['cv_se'])}; {chosen['name']} {fmt(chosen['cv_mse'])} "
-            f"≤ {fmt(limit)})")
+    scored = [(c["name"], c["cv_mse"], c["cv_se"]) for c in record["candidates"] if c["available"]]
+    return choice.why_chosen(scored, record["chosen"], record["rule"])
 
 
 def detail(record: dict) -> str:

@@ -33,6 +33,7 @@ class Source:
     thresholds: Thresholds = Thresholds()
     warnings: list[str] = field(default_factory=list)
     expected_sha256: str | None = None  # the data's digest when the results were written, checked before a refit
+    units: dict = field(default_factory=dict)  # labels from the settings file's [units] table: price, volume
 
 
 def source_from_results(path: Path, check_data: bool = True) -> Source:
@@ -81,7 +82,8 @@ def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | 
                  progress: Callable[[int, int], None] | None = None) -> TriageSession:
     from fitcore.results.write import header
     results, diagnosis = fit_source(source, progress)
-    session = TriageSession(results, diagnosis, ledger_path, who, results_digest(header(results, diagnosis)), key)
+    session = TriageSession(results, diagnosis, ledger_path, who, results_digest(header(results, diagnosis)), key,
+                            units=source.units)
     session.warnings.extend(source.warnings)
     return session
 
@@ -101,11 +103,11 @@ def is_stored(path: Path) -> bool:
 
 
 def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes | None = None,
-                        progress: Callable[[int, int], None] | None = None) -> TriageSession:
+                        progress: Callable[[int, int], None] | None = None, units: dict | None = None) -> TriageSession:
     """A session on the results as the file holds them: no refit, no observations yet."""
     results, diagnosis = stored_results(path)
     head = {k: v for k, v in read_header(path).items() if k != "key_columns"}
-    return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key)
+    return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units)
 
 
 def refit_stored(source: Source, progress: Callable[[int, int], None] | None = None):

@@ -1,21 +1,27 @@
 """The help text: keys, what the flags mean, and the cautions."""
 from __future__ import annotations
 
+from rich.console import Group
+from rich.table import Table
 from rich.text import Text
 
 from fitcore.review.flags import FLAGS
+
+from .text import clean
 
 KEYS = [
     ("↑ ↓ PgUp PgDn Home End", "move in the list"),
     ("] [", "next / previous series needing attention"),
     ("Tab", "switch between the list and the evidence (narrow screens show one at a time)"),
-    ("a", "accept the proposed curve"),
-    ("o", "override: choose another candidate (a note is required)"),
+    ("Enter", "narrow screens: open the evidence of the highlighted series; in a dialog: confirm"),
+    ("Esc", "narrow screens: back to the list; in a dialog: cancel, nothing is recorded"),
+    ("a", "accept the proposed curve (past a stop flag, a note saying why comes first)"),
+    ("o", "override: compare every candidate's numbers and flags, pick one (a note is required)"),
     ("n", "add a note"),
-    ("h", "hold: park the series for follow-up"),
-    ("u", "withdraw your own latest decision on this series"),
-    ("/", "search by key"),
-    ("f", "filter: needs attention, all, pending, decided, or one flag"),
+    ("h", "hold: park the series for follow-up (a reason is optional)"),
+    ("u", "revoke your latest decision made on this screen, wherever it is (the cursor goes there)"),
+    ("/", "search every series by key; / and Enter again for the next match"),
+    ("f", "filter: needs attention, all, pending, held, decided — and one flag (counts shown)"),
     ("s", "sort: attention, key, lowest score, fewest observations"),
     ("?", "this help"),
     ("q", "quit (every decision is already in the ledger)"),
@@ -27,15 +33,36 @@ CAUTIONS = ("Cautions. Curves fitted to observational sales data confound price 
             "pricefold proposes a curve; you decide, and the ledger records that you did.")
 
 
-def help_text() -> Text:
-    text = Text("Keys\n", style="bold")
-    for keys, meaning in KEYS:
-        text.append(f"  {keys:<24}", style="bold")
-        text.append(f"{meaning}\n")
-    text.append("\nFlags\n", style="bold")
-    for code, severity, meaning in FLAGS:
-        text.append(f"  {code:<18}", style="bold")
-        text.append(f"{severity:<5} {meaning}\n")
-    text.append("\nStatus marks: · pending  ✓ accepted  ↺ overridden  ‖ held  ! stale (data changed since)\n")
-    text.append("\n" + CAUTIONS + "\n", style="italic")
+def _grid(rows: list[tuple[str, str]]) -> Table:
+    """Two columns, so a wrapped meaning keeps its indent under the one above it."""
+    grid = Table.grid(padding=(0, 2), pad_edge=True)
+    grid.add_column(style="bold", no_wrap=True)
+    grid.add_column()
+    for name, meaning in rows:
+        grid.add_row(name, meaning)
+    return grid
+
+
+def ledger_text(book) -> Text:
+    """Which ledger, whether its chain verifies, and its head (``SEQ:DIGEST`` of the last whole record)."""
+    text = Text("\nLedger ", style="bold")
+    text.append(clean(str(book.path)))
+    text.append(f"\n  {book.state}" + (f": {clean(str(book.problem))}" if book.problem else "") + "\n")
+    text.append("  head (sequence number and digest of its last whole record):\n", style="dim")
+    text.append(f"  {book.head_text}", style="dim")
     return text
+
+
+def help_text(book=None) -> Group:
+    flags = [(f"{'!' if severity == 'stop' else '?'} {code}", f"{severity}: {meaning}")
+             for code, severity, meaning in sorted(FLAGS, key=lambda flag: flag[1] != "stop")]
+    return Group(
+        Text("Keys", style="bold"), _grid(KEYS),
+        Text("\nEvery decision acts on the series the screen shows, and is in the ledger at once. When another "
+             "analyst decides the series you are on, it stays listed with who did what, and decision keys wait "
+             "until you move."),
+        Text("\nFlags (! stop: do not put the curve into a plan unseen; ? warn: worth a look)", style="bold"),
+        _grid(flags),
+        Text("\nStatus marks: · pending  ✓ accepted  ↺ overridden  ‖ held  ! stale (data changed since)"),
+        Text("\n" + CAUTIONS, style="italic"),
+        *([ledger_text(book)] if book is not None else []))

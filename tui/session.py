@@ -1,12 +1,15 @@
 """The triage session: what the screen shows and records, without any widget.
 
 Holds the fitted series (``Results`` + ``Diagnosis``), the ledger and its
-replayed statuses, and the list the analyst works through (a filtered,
-sorted view of series indices).  Every decision is appended to the ledger at
-once.  Pure Python and numpy, so it is tested without a terminal.
+replayed statuses, and the list the analyst works through (``listing``).
+Every decision goes through ``decide``, bound to what the screen showed
+(``Shown``: the series by key and the ledger record last shown for it), and is
+appended to the ledger at once.  Pure Python and numpy, so it is tested
+without a terminal.
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -14,35 +17,77 @@ import numpy as np
 from fitcore import ledger
 from fitcore.arrays import integers, texts
 from fitcore.data.keys import SeriesKeys
+from fitcore.errors import PricefoldError
 from fitcore.fit.results import Results
-from fitcore.ledger.replay import SeriesHistory, own_standing, series_id
+from fitcore.ledger.replay import SeriesHistory, series_id
+from fitcore.ledger.rules import what_happened
 from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale
 
+from .listing import (
+    FILTER_TITLES,
+    FILTERS,
+    KEEP,
+    SORT_TITLES,
+    SORTS,
+    STATUS_MARK,
+    STATUSES,
+    ListState,
+    SearchHit,
+)
 from .text import clean
 
-FILTERS = ("attention", "all", "pending", "decided")
-FILTER_TITLES = {"attention": "needs attention, pending", "all": "all series", "pending": "pending",
-                 "decided": "decided"}
-SORTS = ("attention", "key", "score", "n")
-SORT_TITLES = {"attention": "attention", "key": "key", "score": "lowest score", "n": "fewest observations"}
-STATUS_MARK = {"pending": "·", "accepted": "✓", "overridden": "↺", "held": "‖", "stale": "!"}
-STATUSES = tuple(STATUS_MARK)
+__all__ = ["FILTERS", "FILTER_TITLES", "KEEP", "SORTS", "SORT_TITLES", "STATUS_MARK", "STATUSES", "SearchHit",
+           "Refused", "Shown", "TriageSession", "describe"]
+DECISIONS = ("accept", "override", "hold")  # what stands until revoked (a note does not)
 
 
-class TriageSession:
+class Refused(PricefoldError):
+    """A decision the screen will not record as asked; the message says why, in one line."""
+
+
+@dataclass(frozen=True)
+class Shown:
+    """The series the screen showed, as it showed it: what a decision key acts on.
+
+    ``series``: its index when shown; ``sid``: its key as canonical JSON (what identifies it);
+    ``latest``: digest of the latest ledger record on it the screen had shown (None: none);
+    ``flags``: its flag codes then; ``proposed``: the engine's choice; ``model``: the model standing then.
+    """
+
+    series: int
+    sid: str
+    key: dict
+    fingerprint: str
+    latest: str | None
+    flags: tuple[str, ...]
+    proposed: str | None
+    model: str | None
+
+    @property
+    def stops(self) -> tuple[str, ...]:
+        return tuple(code for code in self.flags if SEVERITY[code] == "stop")
+
+
+def describe(record: dict, when: bool = True) -> str:
+    """'ana accepted poly1 at 14:02:11 UTC' (the ledger's own words; without the time when ``when`` is off)."""
+    said = what_happened(record)
+    return said if when else said.rsplit(" at ", 1)[0]
+
+
+class TriageSession(ListState):
     """State of one analyst's triage of one set of results."""
 
     def __init__(self, results: Results, diagnosis: Diagnosis, ledger_path: Path, who: ledger.Identity,
-                 results_digest: str, key: bytes | None = None) -> None:
+                 results_digest: str, key: bytes | None = None, units: dict | None = None) -> None:
         self.results, self.base_diagnosis = results, diagnosis
         self.ledger_path, self.who, self.key, self.results_digest = Path(ledger_path), who, key, results_digest
+        self.units = {k: clean(str(v)) for k, v in (units or {}).items() if v}
         self.warnings: list[str] = []
         data = results.data
         self.keys = SeriesKeys.of(data)  # Arrow columns: no Python object per series
-        self._labels: dict[int, str] = {}
+        self._labels: dict[int, tuple[str, ...]] = {}
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
         self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
-        self._search: tuple[str, np.ndarray] | None = None
         self.book = ledger.Ledger(self.ledger_path, key)  # verified in full here, then only its new tail
         self._applied, self._generation = 0, self.book.generation
         if self.book.state != ledger.INTACT:
@@ -52,22 +97,29 @@ class TriageSession:
         self.status_code = np.zeros(data.n_series, dtype=np.int8)  # index into STATUSES, for fast masks and counts
         self.diagnosis = diagnosis
         self._flagged = diagnosis.raised.any(axis=1)
-        self.filter, self.sort, self.flag_filter = "attention", "attention", None
-        self.view = np.arange(data.n_series)
-        self.cursor = 0
-        self.reload_ledger(force=True)
+        self.shown: Shown | None = None
+        self.news: dict | None = None  # the latest record by someone else on the highlighted series, while it stays
+        self._written: set[str] = set()  # digests this screen appended
+        self._mine: list[tuple[str, str]] = []  # (series id, digest) of this screen's decisions, oldest first
+        self._init_list(data.n_series)
+        self.reload_ledger(force=True, pin=None)
+        self._go(0)  # the first screen starts at the top row
 
     # -- the ledger ------------------------------------------------------------------------
     @property
     def histories(self) -> dict[str, SeriesHistory]:
         return self.book.histories
 
-    def reload_ledger(self, force: bool = False) -> bool:
-        """Read decisions recorded since the last look (by anyone); True when something changed."""
-        self.book.refresh(wait=False)  # never blocks the screen: a writer's lock means "next time"
-        return self._catch_up(force)
+    def reload_ledger(self, force: bool = False, pin: str | None = "waits") -> set[int]:
+        """Read decisions recorded since the last look (by anyone); the series they touched.
 
-    def _catch_up(self, force: bool = False) -> bool:
+        The highlighted series stays listed if they take it out of the view (``pin``), and ``news`` keeps
+        the latest record someone else made on it.
+        """
+        self.book.refresh(wait=False)  # never blocks the screen: a writer's lock means "next time"
+        return self._catch_up(force, pin)
+
+    def _catch_up(self, force: bool = False, pin: str | None = "waits") -> set[int]:
         """Statuses for the records the ledger holds that this session has not applied yet."""
         if self.book.generation != self._generation:  # the file was read again from the start
             self._applied, self._generation, force = 0, self.book.generation, True
@@ -75,19 +127,24 @@ class TriageSession:
         records = self.book.records[self._applied:]
         self._applied = len(self.book.records)
         touched = {series_id(r["series"]): r["series"] for r in records}
-        new = [sid for sid in touched if sid not in self._known]
-        for sid, s in zip(new, self.keys.indices_of([touched[sid] for sid in new])):
+        unknown = [sid for sid in touched if sid not in self._known]
+        for sid, s in zip(unknown, self.keys.indices_of([touched[sid] for sid in unknown])):
             self._known[sid] = int(s)
-        for sid in touched:
-            if self._known[sid] >= 0:
-                self._refresh_status(self._known[sid])
+        changed = {self._known[sid] for sid in touched if self._known[sid] >= 0}
+        for s in changed:
+            self._refresh_status(s)
+        current = self.current
+        others = [r for r in records if r.get("digest") not in self._written]
+        if current is not None and others:
+            theirs = [r for r in others if self._known.get(series_id(r["series"])) == current]
+            self.news = theirs[-1] if theirs else self.news
         if records or force:
-            stale = self.status_code == STATUSES.index("stale")
+            stale = self._code("stale")
             if force or not np.array_equal(stale, self.diagnosis.flagged("stale")):
                 self.diagnosis = mark_stale(self.base_diagnosis, stale)
                 self._flagged = self.diagnosis.raised.any(axis=1)
-            self.rebuild_view()
-        return bool(records)
+            self.rebuild_view(pin=pin)
+        return changed
 
     def upgrade(self, results: Results, diagnosis: Diagnosis) -> bool:
         """Swap in a fit of the data for results read back from a file (observations, bands).
@@ -107,23 +164,38 @@ class TriageSession:
         inverse[perm] = np.arange(len(perm))
         self.status, self.status_code = self.status[inverse], self.status_code[inverse]
         self.view = perm[self.view]
+        if self.pinned is not None:
+            self.pinned = int(perm[self.pinned])
         self._known = {sid: int(perm[s]) if s >= 0 else -1 for sid, s in self._known.items()}
         self.keys, self._labels, self._search = fresh, {}, None
         self.results, self.base_diagnosis = results, diagnosis
-        self.reload_ledger(force=True)
+        self.reload_ledger(force=True, pin="brought")
+        if self.shown is not None:
+            self.look(self.index_of(self.shown))
         return True
 
     def _id(self, s: int) -> str:
         return series_id(self.keys.key_of(s))
 
-    def label(self, s: int) -> str:
-        """Series ``s``'s key as one line, safe to print (made on demand: the list draws a screenful)."""
-        text = self._labels.get(s)
-        if text is None:
+    def index_of(self, shown: Shown) -> int:
+        """Where the shown series is now (the results may have been swapped for a fit of the data)."""
+        s = shown.series
+        if 0 <= s < self.results.n_series and self._id(s) == shown.sid:
+            return s
+        return int(self.keys.indices_of([shown.key])[0])
+
+    def label_parts(self, s: int) -> tuple[str, ...]:
+        """Series ``s``'s key values, product first, safe to print (made on demand: the list draws a screenful)."""
+        parts = self._labels.get(s)
+        if parts is None:
             if len(self._labels) > 4096:
                 self._labels.clear()
-            text = self._labels[s] = clean(self.keys.label(s))
-        return text
+            parts = self._labels[s] = tuple(clean(self.keys.columns[n][s].as_py() or "") for n in self.keys.names)
+        return parts
+
+    def label(self, s: int) -> str:
+        from fitcore.data.keys import SEPARATOR
+        return SEPARATOR.join(self.label_parts(s))
 
     def _refresh_status(self, s: int) -> None:
         history = self.histories.get(self._id(s))
@@ -134,133 +206,107 @@ class TriageSession:
         history = self.histories.get(self._id(s))
         return history.records if history else []
 
-    def can_withdraw(self, s: int) -> bool:
-        return own_standing(self.histories.get(self._id(s)), self.who.analyst, self.who.os_user) is not None
+    def standing(self, s: int) -> dict | None:
+        """The decision standing on series ``s`` (None when pending)."""
+        history = self.histories.get(self._id(s))
+        return history.current if history else None
 
-    def record(self, s: int, action: str, model: str | None = None, note: str = "") -> None:
-        """Append one decision on series ``s`` to the ledger (raises ``LedgerError`` with a one-line reason)."""
-        chosen = self.results.chosen[s]
-        proposed = self.results.names[chosen] if chosen >= 0 else None
+    def model_of(self, s: int) -> int:
+        """The candidate that now stands for series ``s``: an override's on the current data, else the proposal."""
+        if self.status[s] == "overridden":
+            name = self.standing(s)["model"]
+            if name in self.results.names:
+                return self.results.names.index(name)
+        return int(self.results.chosen[s])
+
+    # -- what the screen shows, and deciding on it -------------------------------------------
+    def _cursor_changed(self) -> None:
+        """The highlighted row is on screen at once (the evidence follows): keys act on it from now."""
+        current = self.current
+        if self.shown is None or self.shown.series != current:
+            self.look(current)
+
+    def look(self, s: int | None) -> Shown | None:
+        """Record that the screen now shows series ``s`` (None: nothing); decisions act on it."""
+        if s is None or s < 0:
+            self.shown = None
+            return None
+        if self.shown is not None and self.shown.series != s:
+            self.news = None
+        records = self.history(s)
+        chosen, model = int(self.results.chosen[s]), self.model_of(s)
+        names = self.results.names
+        self.shown = Shown(series=s, sid=self._id(s), key=self.keys.key_of(s),
+                           fingerprint=self.results.data.fingerprint_of(s),
+                           latest=records[-1].get("digest") if records else None, flags=self.result_flags(s),
+                           proposed=names[chosen] if chosen >= 0 else None, model=names[model] if model >= 0 else None)
+        return self.shown
+
+    @property
+    def writable(self) -> bool:
+        """Whether decisions can be recorded: a broken or unverifiable ledger is read-only."""
+        return self.book.state == ledger.INTACT
+
+    def needs_reason(self, shown: Shown, action: str) -> bool:
+        """An accept past a stop flag needs a note (the trade's usual rule for exceptions)."""
+        return action == "accept" and bool(shown.stops)
+
+    def decide(self, shown: Shown, action: str, model: str | None = None, note: str = "") -> dict:
+        """Append one decision on the series ``shown`` showed; returns the record written.
+
+        The entry ``supersedes`` the ledger record the screen last showed for that series, and carries the
+        flags it showed: the ledger refuses it under its lock (``LedgerConflict``, one sentence) when another
+        decision got there first, and applies its other rules (``LedgerError``).  ``Refused``: the screen
+        will not ask (the series left the list under the cursor, or the ledger takes no appends).
+        """
+        self.reload_ledger(pin="waits")
+        if not self.writable:
+            raise Refused(f"the ledger is {self.book.state} ({self.book.problem}): nothing can be recorded")
+        s = self.index_of(shown)
+        if s < 0:
+            raise Refused("this series is no longer in the results")
+        if self.waiting and s == self.current and action != "revoke":
+            raise Refused("this series has left the list you are working through; move on first")
         if action == "accept":
-            model = proposed
-        latest = self.histories[self._id(s)].latest if self._id(s) in self.histories else None
-        flags = [code for i, code in enumerate(CODES) if self.base_diagnosis.raised[s, i]]  # from the results
-        entry = ledger.Entry(series=self.keys.key_of(s), action=action,
-                             fingerprint=self.results.data.fingerprint_of(s), results=self.results_digest,
-                             model=model, proposed=proposed, note=note,
-                             supersedes=latest["digest"] if latest else None, flags=flags)
-        self._known[self._id(s)] = s
+            model = shown.proposed
+        entry = ledger.Entry(series=shown.key, action=action, fingerprint=shown.fingerprint,
+                             results=self.results_digest, model=model, proposed=shown.proposed, note=note,
+                             supersedes=shown.latest, flags=list(shown.flags))
+        self._known[shown.sid] = s
         try:
-            self.book.append([entry], self.who)
-        finally:  # a refused decision may still have read other analysts' records
-            self._catch_up()
+            [written] = self.book.append([entry], self.who)
+        except PricefoldError:
+            self._catch_up(pin="waits")  # a refused decision may still have read other analysts' records
+            raise
+        self._written.add(written["digest"])
+        if action in DECISIONS:
+            self._mine.append((shown.sid, written["digest"]))
+        self._catch_up(pin=None)
+        return written
 
-    # -- the list --------------------------------------------------------------------------
-    @property
-    def current(self) -> int | None:
-        return int(self.view[self.cursor]) if len(self.view) else None
+    def undo_target(self) -> tuple[int, dict] | None:
+        """The series and record of this screen's latest decision that still stands, wherever it is."""
+        for sid, digest in reversed(self._mine):
+            history = self.histories.get(sid)
+            record = next((r for r in history.standing if r.get("digest") == digest), None) if history else None
+            if record is not None and self._known.get(sid, -1) >= 0:
+                return self._known[sid], record
+        return None
 
-    @property
-    def undecided(self) -> np.ndarray:
-        """(S,) pending or stale: no decision stands on the current data."""
-        return (self.status_code == STATUSES.index("pending")) | (self.status_code == STATUSES.index("stale"))
-
-    def needs_attention(self) -> np.ndarray:
-        return self._flagged & self.undecided
-
-    def rebuild_view(self, keep: int | None = None) -> None:
-        """Re-filter and re-sort; keep the cursor on series ``keep`` (default: the current one) if still listed."""
-        keep = self.current if keep is None else keep
-        n_series = self.results.n_series
-        if self.filter == "attention":
-            mask = self.needs_attention()
-        elif self.filter == "pending":
-            mask = self.undecided
-        elif self.filter == "decided":
-            mask = ~self.undecided
-        else:
-            mask = np.ones(n_series, dtype=bool)
-        if self.flag_filter:
-            mask &= self.diagnosis.flagged(self.flag_filter)
-        order = self._order()
-        self.view = order[mask[order]]
-        where = np.flatnonzero(self.view == keep) if keep is not None else []
-        self.cursor = int(where[0]) if len(where) else min(self.cursor, max(len(self.view) - 1, 0))
-
-    def _order(self) -> np.ndarray:
-        if self.sort == "key":
-            return self.keys.sorted_order()
-        if self.sort == "score":
-            score = np.where(np.isnan(self.results.score), -np.inf, self.results.score)
-            return np.argsort(score, kind="stable")
-        if self.sort == "n":
-            return np.argsort(self.results.data.counts, kind="stable")
-        return self.diagnosis.attention_order()
-
-    def set_filter(self, name: str, flag: str | None = None) -> None:
-        if name not in FILTERS:
-            raise ValueError(f"expected a filter among {FILTERS}, got {name!r}")
-        if flag is not None and flag not in CODES:
-            raise ValueError(f"expected a flag among {CODES}, got {flag!r}")
-        self.filter, self.flag_filter = name, flag
-        self.rebuild_view()
-
-    def set_sort(self, name: str) -> None:
-        if name not in SORTS:
-            raise ValueError(f"expected a sort among {SORTS}, got {name!r}")
-        self.sort = name
-        self.rebuild_view()
-
-    def move(self, step: int) -> None:
-        if len(self.view):
-            self.cursor = int(np.clip(self.cursor + step, 0, len(self.view) - 1))
-
-    def jump_attention(self, step: int) -> bool:
-        """Move to the next (step 1) or previous (-1) listed series that needs attention."""
-        attention = self.needs_attention()[self.view]
-        positions = np.flatnonzero(attention)
-        if not len(positions):
-            return False
-        later = positions[positions > self.cursor] if step > 0 else positions[positions < self.cursor][::-1]
-        target = later[0] if len(later) else positions[0] if step > 0 else positions[-1]
-        self.cursor = int(target)
-        return True
-
-    def after_decision(self, s: int) -> None:
-        """Rebuild the list and put the cursor on the next series needing attention after ``s``."""
-        position = self.cursor
-        self.rebuild_view(keep=-1)
-        self.cursor = min(position, max(len(self.view) - 1, 0))
-        if len(self.view) and self.view[self.cursor] == s:
-            self.move(1)
-        attention = self.needs_attention()[self.view]
-        if len(self.view) and not attention[self.cursor]:
-            self.jump_attention(1)
-
-    def search(self, text: str, start_after: bool = True) -> bool:
-        """Move to the next listed series whose key contains ``text`` (case-insensitive)."""
-        needle = text.strip()
-        if not needle or not len(self.view):
-            return False
-        if self._search is None or self._search[0] != needle.casefold():
-            self._search = (needle.casefold(), self.keys.matching(needle))
-        positions = np.flatnonzero(self._search[1][self.view])
-        if not len(positions):
-            return False
-        begin = self.cursor + 1 if start_after else self.cursor
-        later = positions[positions >= begin]
-        self.cursor = int(later[0] if len(later) else positions[0])
-        return True
+    def result_flags(self, s: int) -> tuple[str, ...]:
+        """The flags the results raise on series ``s`` (not ``stale``, which comes from the ledger)."""
+        raised = self.base_diagnosis.raised[s]
+        return tuple(code for i, code in enumerate(CODES) if raised[i])
 
     # -- one line of the list ------------------------------------------------------------
     def flag_codes(self, s: int) -> list[str]:
-        return [code for i, code in enumerate(CODES) if self.diagnosis.raised[s, i]]
+        """The flags of series ``s``, stop flags first."""
+        codes = [code for i, code in enumerate(CODES) if self.diagnosis.raised[s, i]]
+        return sorted(codes, key=lambda code: SEVERITY[code] != "stop")
 
     def severity(self, s: int) -> str | None:
         codes = self.flag_codes(s)
-        if any(SEVERITY[c] == "stop" for c in codes):
-            return "stop"
-        return "warn" if codes else None
+        return None if not codes else "stop" if SEVERITY[codes[0]] == "stop" else "warn"
 
     def counts(self) -> dict[str, int]:
         tally = np.bincount(self.status_code, minlength=len(STATUSES))

@@ -25,6 +25,10 @@ plan_price = 2.5       # or plan = "plan.csv"
 
 [thresholds]
 min_points = 10
+
+[units]                # labels only, for the triage screen
+price = "EUR"
+volume = "cases/week"
 ```
 """
 from __future__ import annotations
@@ -43,6 +47,7 @@ KEYS = {
     "fit": {"degrees": (str, list), "loglog": (bool,), "semilog": (bool,), "folds": (int, str), "fold_order": TEXT, "seed": (int,),
             "rule": TEXT, "plan_price": NUMBER, "plan": TEXT},
     "thresholds": {name: NUMBER for name in Thresholds.names()},
+    "units": {"price": TEXT, "volume": TEXT},
 }
 KIND_NAMES = {str: "text", list: "a list", bool: "true or false", int: "a whole number", float: "a number"}
 

@@ -6,13 +6,18 @@ Writes invented data and its results file (``pricefold fit``), then prints,
 measured in one run: from launching ``pricefold triage RESULTS`` in a tmux
 terminal to the list on screen (and to the observations, read behind it);
 and the median and 95th-percentile key-to-repaint over 200 cursor moves
-(every 4th a page down) and 50 decisions, driven through Textual's Pilot.
-Not a test: machines are noisy.
+(every 4th a page down) and 50 decisions, driven through Textual's Pilot —
+first alone, then again while a second analyst (another process) appends a
+decision to the same ledger every 100 ms, so that the 2 s ledger poll has
+something to read.  A decision is a hold (h, then Enter for no reason) or an
+accept (a, then a note when the series has a stop flag, Enter); the time is
+from the Enter that records it.  Not a test: machines are noisy.
 """
 from __future__ import annotations
 
 import argparse
 import asyncio
+import multiprocessing
 import statistics
 import subprocess
 import sys
@@ -47,11 +52,13 @@ class RepaintClock:
             original(screen, renderable)
         app._display = display
 
-    async def press(self, pilot, key: str) -> float:
+    async def press(self, pilot, key: str, timeout: float = 5.0) -> float:
         seen = len(self.stamps)
         start = time.perf_counter()
         await pilot.press(key)
         while len(self.stamps) == seen:
+            if time.perf_counter() - start > timeout:
+                raise TimeoutError(f"no repaint within {timeout} s of {key!r}")
             await asyncio.sleep(0.0005)
         return self.stamps[seen] - start
 
@@ -106,31 +113,73 @@ async def measure_triage(results_path: Path, folder: Path) -> None:
     listed, observed = launch_to_screen(results_path, folder)
     print(f"  pricefold triage RESULTS, launch to first usable screen: {listed:.2f} s "
           f"(observations drawn after {observed:.2f} s, read and fitted behind the screen)")
+    for other in (False, True):
+        await measure_keys(results_path, folder, other)
+
+
+def other_analyst(ledger_path: Path, entries: list, stop, every: float = 0.1) -> None:
+    """A second analyst's screen: one decision every ``every`` seconds until ``stop`` is set."""
+    from fitcore import ledger
+    bo = Identity("bo", "bo", "elsewhere")
+    for entry in entries:
+        if stop.wait(every):
+            return
+        ledger.append(ledger_path, [entry], bo)
+
+
+async def measure_keys(results_path: Path, folder: Path, other: bool) -> None:
+    from fitcore import ledger
     who = Identity("bench", "bench", "h")
+    ledger_path = folder / ("ledger-two.jsonl" if other else "ledger.jsonl")
     start = time.perf_counter()
-    session = open_stored_session(results_path, folder / "ledger.jsonl", who)
+    session = open_stored_session(results_path, ledger_path, who)
     opened = time.perf_counter() - start
     source = source_from_results(results_path, check_data=False)
     app = TriageApp(lambda progress: session, observer=lambda progress: refit_stored(source, progress))
+    process = stop = None
+    if other:  # bo decides series outside ana's list (none needing attention): each poll has news, none pins
+        picks = [int(s) for s in np.flatnonzero(~session.needs_attention())[::-1][:3000]]
+        entries = [ledger.Entry(series=session.keys.key_of(s), action="hold",
+                                fingerprint=session.results.data.fingerprint_of(s), results=session.results_digest,
+                                proposed=session.results.names[session.results.chosen[s]]) for s in picks]
+        stop = multiprocessing.get_context("fork").Event()
+        process = multiprocessing.get_context("fork").Process(target=other_analyst, args=(ledger_path, entries, stop))
     async with app.run_test(size=(160, 50)) as pilot:
         while not app.screen.__class__.__name__ == "TriageScreen":
             await pilot.pause(0.01)
         await app.workers.wait_for_complete()  # the observations are in
         await pilot.pause()
+        if process is not None:
+            process.start()
         clock = RepaintClock(app)
         moves, pages, decisions = [], [], []
         for i in range(200):
             (moves if i % 4 else pages).append(await clock.press(pilot, "down" if i % 4 else "pagedown"))
             await asyncio.sleep(0.03)  # a fast typist; the charts catch up when the cursor rests
-        for _ in range(50):  # holds: an accept past a stop flag needs a note, and the list puts those first
-            decisions.append(await clock.press(pilot, "h"))
+        for i in range(50):
+            shown = session.shown
+            if i % 2 == 0 and not session.needs_reason(shown, "accept"):
+                decisions.append(await clock.press(pilot, "a"))  # the key records at once
+            else:
+                await pilot.press("h" if i % 2 else "a")
+                if i % 2 == 0:
+                    await pilot.press(*"seen")  # past a stop flag: a note first
+                await pilot.pause()
+                decisions.append(await clock.press(pilot, "enter"))
             await asyncio.sleep(0.03)
+        seen_other = sum(1 for h in session.histories.values() for r in h.records if r["analyst"] == "bo")
+    if process is not None:
+        stop.set()
+        process.join()
     every = moves + pages
-    print(f"  opening the results as a session (in process): {opened:.2f} s")
-    print(f"  key-to-repaint, 200 cursor moves: median {statistics.median(every) * 1e3:.0f} ms, "
-          f"p95 {p95(every) * 1e3:.0f} ms (down p95 {p95(moves) * 1e3:.0f} ms, page down p95 {p95(pages) * 1e3:.0f} ms)")
-    print(f"  key-to-repaint, 50 decisions (ledger append + fsync): median "
-          f"{statistics.median(decisions) * 1e3:.0f} ms, p95 {p95(decisions) * 1e3:.0f} ms")
+    title = "while a second analyst decides every 100 ms" if other else "alone"
+    print(f"  {title}: opening the results as a session (in process): {opened:.2f} s")
+    print(f"    key-to-repaint, 200 cursor moves: median {statistics.median(every) * 1e3:.0f} ms, "
+          f"p95 {p95(every) * 1e3:.0f} ms (down p95 {p95(moves) * 1e3:.0f} ms, "
+          f"page down p95 {p95(pages) * 1e3:.0f} ms)")
+    print(f"    key-to-repaint, 50 decisions (ledger append + fsync): median "
+          f"{statistics.median(decisions) * 1e3:.0f} ms, p95 {p95(decisions) * 1e3:.0f} ms"
+          + (f"; the screen had read {seen_other:,} of the other analyst's decisions" if other else ""))
 
 
 def main() -> None:

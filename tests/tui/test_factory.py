@@ -47,7 +47,7 @@ def test_changed_data_is_said_and_decisions_become_stale(fitted, tmp_path):
     ledger_path = tmp_path / "l.jsonl"
     session = open_session(source_from_results(out), ledger_path, ANA)
     s = int(np.flatnonzero(~session.needs_attention())[0])
-    session.record(s, "accept")
+    session.decide(session.look(s), "accept", note="checked")
     assert session.status[s] == "accepted"
     lines = data.read_text().splitlines()
     key = session.results.data.key_of(s)

@@ -41,7 +41,7 @@ async def test_the_list_and_decisions_work_before_the_observations_arrive(tmp_pa
         await until(pilot, lambda: isinstance(app.screen, TriageScreen))
         await until(pilot, lambda: "reading the data" in screen_text(app))
         assert "• observed" not in screen_text(app)
-        await past_stop_flags(app, pilot)  # accepting past a stop flag needs a note: the ledger refuses it
+        await past_stop_flags(app, pilot)  # accepting past a stop flag asks for a note first
         first = app.session.current
         fingerprint = app.session.results.data.fingerprint_of(first)
         await pilot.press("a")
@@ -79,7 +79,7 @@ def test_observations_in_another_series_order_keep_each_series_status(tmp_path):
     session = open_stored_session(out, tmp_path / "ledger.jsonl", ANA)
     s = int(session.view[2])
     held = session.results.data.key_of(s)
-    session.record(s, "hold")
+    session.decide(session.look(s), "hold")
     source = source_from_results(out, check_data=False)
     data = load(source.data, source.columns)
     # every series' rows, last series first

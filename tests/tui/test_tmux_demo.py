@@ -37,24 +37,22 @@ def test_demo_in_tmux_records_an_accept(tmp_path):
 
         first = wait_for(screen, lambda text: "listed (needs attention" in text and "a accept" in text)
         assert "table salt 1 kg · South" in first
-        # Its stop flags make a plain accept a refusal (the ledger wants a note) ...
-        subprocess.run([*tmux, "send-keys", "a"], check=True)
-        wait_for(screen, lambda text: "needs a note" in text)
-        subprocess.run([*tmux, "send-keys", "Escape"], check=True)
-        # ... so accept the first listed series without one (the list puts stop flags first).
-        series = json.loads((folder / "results.json").read_text())["series"]
-        stopped = sum(any(f["severity"] == "stop" for f in s["flags"]) for s in series)
-        subprocess.run([*tmux, "send-keys", *["Down"] * stopped, "a"], check=True)
+        subprocess.run([*tmux, "send-keys", "a"], check=True)  # stop flags: the screen asks why first
+        wait_for(screen, lambda text: "Say why" in text)
+        subprocess.run([*tmux, "send-keys", "only two prices seen", "Enter"], check=True)
         ledger = folder / "ledger.jsonl"
         wait_for(lambda: ledger.read_text() if ledger.exists() else "", lambda text: text.count("\n") == 1)
-        after = wait_for(screen, lambda text: "accept recorded" in text or "listed" in text)
-        assert "listed" in after
+        after = wait_for(screen, lambda text: "20 listed" in text)
+        rows = [line.split("▌")[0] for line in after.splitlines() if line.startswith("· ")]  # not the toast
+        assert not any("table salt 1 kg · South" in row for row in rows), after  # accepted: off the list
         subprocess.run([*tmux, "send-keys", "q"], check=True)
         wait_for(screen, lambda text: "EXITED rc=0" in text)
         [record] = [json.loads(line) for line in ledger.read_text().splitlines()]
         assert record["action"] == "accept" and record["analyst"] == "tmuxer"
+        assert record["note"] == "only two prices seen"
+        series = json.loads((folder / "results.json").read_text())["series"]
         signed = next(s for s in series if s["key"] == record["series"])
-        assert record["flags"] == [f["code"] for f in signed["flags"]] and signed["flags"]  # a warn flag, recorded
+        assert record["flags"] == [f["code"] for f in signed["flags"]] and record["supersedes"] is None
         assert (folder / "results.json").exists()
     finally:
         subprocess.run([*tmux, "kill-server"], capture_output=True)

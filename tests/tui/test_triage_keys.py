@@ -3,17 +3,24 @@ from __future__ import annotations
 
 import json
 
+import numpy as np
 import pytest
 
 from fitcore import ledger as fledger
-from fitcore.review.flags import CODES
-from tests.tui.conftest import make_app, past_stop_flags, screen_text, started, until
+from fitcore.review.flags import CODES, SEVERITY
+from tests.tui.conftest import make_app, screen_text, started, until
 
 SIZES = [(80, 24), (160, 50)]
 
 
 def records(path):
     return [json.loads(line) for line in path.read_text().splitlines()] if path.exists() else []
+
+
+def unflagged_position(session) -> int:
+    """Show all series and put the cursor on the first one without any flag."""
+    session.set_filter("all", None)
+    return int(np.flatnonzero(~session.diagnosis.raised.any(axis=1)[session.view])[0])
 
 
 @pytest.mark.parametrize("size", SIZES)
@@ -24,33 +31,60 @@ async def test_first_screen_lists_the_series_needing_attention(ledger_path, size
         text = screen_text(app)
         attention = int(session.needs_attention().sum())
         assert f"{attention} listed (needs attention, pending; by attention)" in text
+        assert session.cursor == 0 and session.shown.series == session.view[0]  # the top row, and what is shown
         first = session.label(session.view[0])
         assert first in text and session.flag_codes(session.view[0])[0] in text
         assert "a accept" in text and "q quit" in text
-        assert "u withdraw" not in text  # nothing of ana's to withdraw yet: the key is hidden
+        assert "u revoke" not in text  # nothing of ana's to revoke yet: the key is hidden
         if size == (160, 50):
-            assert "CV MSE" in text and "(chosen)" in text  # evidence beside the list
+            assert "Proposed poly0 (one-se)" in text and "(chosen)" in text  # evidence beside the list
         else:
-            assert "CV MSE" not in text  # narrow: the list alone until Tab
+            assert "Proposed" not in text  # narrow: the list alone until Tab
 
 
 @pytest.mark.parametrize("size", SIZES)
-async def test_accept_records_and_moves_on(ledger_path, size):
+async def test_accept_past_a_stop_flag_asks_why_then_records_and_moves_on(ledger_path, size):
     app = make_app(ledger_path)
     async with app.run_test(size=size) as pilot:
         session = await started(app, pilot)
-        await past_stop_flags(app, pilot)  # accepting past a stop flag needs a note: the ledger refuses it
-        first, second = int(session.view[session.cursor]), int(session.view[session.cursor + 1])
+        first, second = int(session.view[0]), int(session.view[1])
+        assert SEVERITY[session.flag_codes(first)[0]] == "stop"
         listed = len(session.view)
         await pilot.press("a")
         await pilot.pause()
+        assert "despite" in screen_text(app) and records(ledger_path) == []
+        await pilot.press("enter")  # an empty note is refused
+        await pilot.pause()
+        assert "A note is required here." in screen_text(app) and records(ledger_path) == []
+        await pilot.press(*"two prices only", "enter")
+        await pilot.pause()
         [record] = records(ledger_path)
-        assert record["action"] == "accept" and record["analyst"] == "ana"
+        assert record["action"] == "accept" and record["analyst"] == "ana" and record["note"] == "two prices only"
         assert record["series"] == session.results.data.key_of(first)
         assert record["model"] == record["proposed"] == session.results.names[session.results.chosen[first]]
         assert record["fingerprint"] == session.results.data.fingerprints[first]
         assert len(session.view) == listed - 1 and session.current == second
         assert f"{listed - 1} listed" in screen_text(app)
+
+
+async def test_accept_without_flags_asks_nothing_and_a_second_accept_is_refused(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        session.cursor = unflagged_position(session)
+        app.screen.refresh_all()
+        await pilot.pause()
+        s = session.current
+        await pilot.press("a")
+        await pilot.pause()
+        assert [r["action"] for r in records(ledger_path)] == ["accept"] and session.status[s] == "accepted"
+        session.bring(s)
+        app.screen.refresh_all()
+        await pilot.pause()
+        await pilot.press("a")
+        await pilot.pause()
+        assert "already accepted" in screen_text(app)
+        assert len(records(ledger_path)) == 1
 
 
 async def test_override_needs_a_note_and_records_the_other_candidate(ledger_path):
@@ -60,8 +94,8 @@ async def test_override_needs_a_note_and_records_the_other_candidate(ledger_path
         s = session.current
         await pilot.press("o")
         await pilot.pause()
-        assert "Override: choose the candidate to use" in screen_text(app)
-        await pilot.press("down", "enter")
+        assert "Override the proposal for" in screen_text(app)
+        await pilot.press("enter")  # the runner-up, preselected
         await pilot.pause()
         await pilot.press("enter")  # an empty note is refused
         await pilot.pause()
@@ -76,32 +110,43 @@ async def test_override_needs_a_note_and_records_the_other_candidate(ledger_path
 
 
 @pytest.mark.parametrize("size", SIZES)
-async def test_note_hold_and_withdraw(ledger_path, size):
+async def test_note_hold_and_revoke(ledger_path, size):
     app = make_app(ledger_path)
-    async with app.run_test(size=size) as pilot:
+    async with app.run_test(size=size, notifications=True) as pilot:
         session = await started(app, pilot)
         s = session.current
+        await pilot.press("u")  # nothing to revoke yet: it says so
+        await pilot.pause()
+        assert any("Nothing to revoke" in n.message for n in app._notifications)
         await pilot.press("n", *"call the buyer", "enter")
         await pilot.pause()
         assert [r["action"] for r in records(ledger_path)] == ["note"] and session.status[s] == "pending"
         assert session.current == s  # a note does not move on
-        await pilot.press("f")
-        await pilot.pause()
-        await pilot.press("down", "enter")  # filter: all series, so decided ones stay listed
-        await pilot.pause()
-        assert session.filter == "all"
         await pilot.press("h")
         await pilot.pause()
-        assert session.status[s] == "held"
-        session.cursor = int((session.view == s).nonzero()[0][0])
-        app.screen.refresh_all()
+        await pilot.press("enter")  # the reason is optional
         await pilot.pause()
-        assert "u withdraw" in screen_text(app)
-        await pilot.press("u")
+        assert session.status[s] == "held" and records(ledger_path)[-1]["note"] == ""
+        assert session.current != s  # moved on
+        assert "u revoke" in screen_text(app)
+        await pilot.press("down", "down")
+        await pilot.press("u")  # wherever the cursor is, the latest decision of this screen
         await pilot.pause()
         assert [r["action"] for r in records(ledger_path)] == ["note", "hold", "revoke"]
-        assert session.status[s] == "pending"
+        assert session.status[s] == "pending" and session.current == s
+        assert any(f"Revoked your hold on {session.label(s)}" in n.message for n in app._notifications)
         assert fledger.verify(ledger_path) == []
+
+
+async def test_hold_with_a_reason(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        s = session.current
+        await pilot.press("h", *"ask the buyer", "enter")
+        await pilot.pause()
+        [record] = records(ledger_path)
+        assert record["action"] == "hold" and record["note"] == "ask the buyer" and session.status[s] == "held"
 
 
 async def test_next_and_previous_attention(ledger_path):
@@ -126,40 +171,74 @@ async def test_next_and_previous_attention(ledger_path):
         assert session.label(first) in screen_text(app)
 
 
-async def test_search_filter_and_sort(ledger_path):
+async def test_filter_shows_counts_keeps_the_status_with_a_flag_and_has_held(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(160, 50)) as pilot:
         session = await started(app, pilot)
-        await pilot.press("slash", *"lemons", "enter")
-        await pilot.pause()
-        assert session.label(session.current) == "lemons 500 g · East"
+        rising = int(session.diagnosis.flagged("rising").sum())
         await pilot.press("f")
         await pilot.pause()
-        assert "flag rising" in screen_text(app)
-        for _ in range(4 + CODES.index("rising")):
-            await pilot.press("down")
-        await pilot.press("enter")
+        text = screen_text(app)
+        assert f"needs attention, pending  ({int(session.needs_attention().sum())})" in text
+        assert "held  (0)" in text and f"needs attention, pending, ⚑ rising  ({rising})" in text
+        await pilot.press(*["down"] * (6 + CODES.index("rising")), "enter")  # 5 statuses, any flag, then the flags
         await pilot.pause()
-        assert session.flag_filter == "rising" and len(session.view) == int(session.diagnosis.flagged("rising").sum())
-        assert all("rising" in session.flag_codes(s) for s in session.view)
-        await pilot.press("f", "home", "down", "enter", "s", "home", "down", "enter")  # all series, by key
+        assert session.flag_filter == "rising" and session.filter == "attention"
+        assert len(session.view) == rising and all("rising" in session.flag_codes(s) for s in session.view)
+        await pilot.press("f", "home", "down", "enter")  # all series: the flag stays
+        await pilot.pause()
+        assert session.filter == "all" and session.flag_filter == "rising"
+        await pilot.press("f", "home", *["down"] * 5, "enter")  # any flag: the status stays
+        await pilot.pause()
+        assert session.filter == "all" and session.flag_filter is None and len(session.view) == 180
+        await pilot.press("s", "home", "down", "enter")  # by key
         await pilot.pause()
         labels = [session.label(s) for s in session.view]
-        assert len(labels) == 180 and labels == sorted(labels)
-        assert "180 listed (all series; by key)" in screen_text(app)
+        assert labels == sorted(labels) and "180 listed (all series; by key)" in screen_text(app)
+
+
+async def test_search_looks_through_every_series_and_repeats(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        assert not any(session.label(s).startswith("apples") for s in session.view)  # none needs attention
+        await pilot.press("slash", *"apples", "enter")
+        await pilot.pause()
+        first = session.label(session.current)
+        assert first.startswith("apples") and session.filter == "all"  # the view switched to show it
+        await pilot.press("slash", "enter")  # the same text again: the next match
+        await pilot.pause()
+        second = session.label(session.current)
+        assert second.startswith("apples") and second != first
+        await pilot.press("slash", "ctrl+u", *"lemons", "enter")
+        await pilot.pause()
+        assert session.label(session.current) == "lemons 500 g · East"
 
 
 async def test_help_shows_keys_flags_and_cautions(ledger_path):
     app = make_app(ledger_path)
-    async with app.run_test(size=(160, 50)) as pilot:
+    async with app.run_test(size=(80, 24)) as pilot:
         await started(app, pilot)
         await pilot.press("question_mark")
         await pilot.pause()
-        text = screen_text(app)
-        assert "withdraw your own latest decision" in text and "influential-point" in text
+        lines = screen_text(app).splitlines()
+        enter = next(line for line in lines if "Enter " in line and "open the evidence" in line)
+        esc = next(line for line in lines if "Esc " in line and "back to the list" in line)
+        column = enter.index("narrow")
+        assert esc.index("narrow") == column  # meanings in one column
+        accept = next(i for i, line in enumerate(lines) if "accept the proposed curve" in line)
+        assert lines[accept].index("accept the") == column
+        following = lines[accept + 1]  # the meaning wraps at 80 columns and keeps its indent
+        assert following[column - 1] == " " and following[column] != " "
         await pilot.press("end")
         await pilot.pause()
-        assert "extrapolation" in screen_text(app) and "you decide" in screen_text(app)
+        assert "0:" + "0" * 64 in screen_text(app)  # the ledger (none yet) and its head close the help
+        seen = ""
+        for _ in range(4):  # back up through the cautions and the flags
+            seen += screen_text(app)
+            await pilot.press("pageup")
+            await pilot.pause()
+        assert "influential-point" in seen and "extrapolation" in seen and "you decide" in seen
         await pilot.press("escape")
         await pilot.pause()
         assert "Keys" not in screen_text(app)
@@ -169,25 +248,26 @@ async def test_quit_leaves_the_decisions_in_the_ledger(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(80, 24)) as pilot:
         await started(app, pilot)
-        await past_stop_flags(app, pilot)
-        await pilot.press("a", "q")
+        await pilot.press("h", "enter", "q")
         await pilot.pause()
     assert app.return_code in (0, None) and len(records(ledger_path)) == 1
 
 
-async def test_another_analysts_decision_shows_up(ledger_path):
+async def test_another_analysts_decision_elsewhere_leaves_the_cursor_on_its_series(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(160, 50)) as pilot:
         session = await started(app, pilot)
+        await pilot.press("down", "down", "down")
+        mine = session.current
         s = int(session.view[0])
         before = len(session.view)
         bo = fledger.Identity("bo", "bo", "other-host")
-        fledger.append(ledger_path, [fledger.Entry(series=session.results.data.key_of(s), action="accept",
+        fledger.append(ledger_path, [fledger.Entry(series=session.results.data.key_of(s), action="hold",
                                                     fingerprint=session.results.data.fingerprints[s],
-                                                    results=session.results_digest, model="poly0", proposed="poly0")], bo)
-        await until(pilot, lambda: session.status[s] == "accepted")  # the screen looks every 2 s
+                                                    results=session.results_digest, proposed="poly0")], bo)
+        await until(pilot, lambda: session.status[s] == "held")  # the screen looks every 2 s
         await pilot.pause()
-        assert len(session.view) == before - 1
+        assert len(session.view) == before - 1 and session.current == mine and session.shown.series == mine
         assert f"{before - 1} listed" in screen_text(app)
 
 
@@ -196,10 +276,28 @@ async def test_tab_switches_to_the_evidence_when_narrow(ledger_path):
     async with app.run_test(size=(80, 24)) as pilot:
         session = await started(app, pilot)
         await pilot.press("down", "tab")
-        await until(pilot, lambda: app.screen.evidence.series == session.current)  # follows once the cursor rests
+        await until(pilot, lambda: app.screen.evidence.series == session.current)
         await pilot.pause()
         text = screen_text(app)
-        assert session.label(session.current) in text and "observed" in text
+        assert session.label(session.current) in text and "Proposed" in text
         await pilot.press("tab")
         await pilot.pause()
-        assert "series" in screen_text(app).splitlines()[1]
+        assert "series" in screen_text(app).splitlines()[2]
+
+
+@pytest.mark.parametrize("size", SIZES)
+async def test_keys_typed_ahead_act_on_the_row_the_cursor_reached(ledger_path, size):
+    """Moves and a decision key in one burst: the decision acts on the row the moves reached."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=size) as pilot:
+        session = await started(app, pilot)
+        fourth = int(session.view[3])
+        app.screen.series_list.action_cursor(1)
+        app.screen.series_list.action_cursor(1)
+        app.screen.series_list.action_cursor(1)
+        app.screen.action_hold()  # before any message from the list has been handled
+        await pilot.pause()
+        await pilot.press("enter")
+        await pilot.pause()
+        [record] = records(ledger_path)
+        assert record["series"] == session.results.data.key_of(fourth) and record["action"] == "hold"

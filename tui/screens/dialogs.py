@@ -1,6 +1,7 @@
 """Small modal dialogs: pick a candidate and write a note, type text, choose one of a few options, help, errors."""
 from __future__ import annotations
 
+from rich.console import RenderableType
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -70,7 +71,7 @@ class MessageDialog(ModalScreen[None]):
 
     BINDINGS = [Binding("escape,enter,q,question_mark", "close", "close")]
 
-    def __init__(self, body: Text, classes: str = "") -> None:
+    def __init__(self, body: RenderableType, classes: str = "") -> None:
         super().__init__(classes=classes)
         self.body = body
 

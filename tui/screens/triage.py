@@ -1,4 +1,9 @@
-"""The triage screen: the series list beside the evidence for the highlighted series."""
+"""The triage screen: the series list beside the evidence for the highlighted series.
+
+Every decision key acts on the series the screen shows (``session.shown``, set whenever the
+cursor lands on a series or the screen redraws it), never on a list position, and goes through
+``TriageSession.decide``.
+"""
 from __future__ import annotations
 
 from rich.text import Text
@@ -13,24 +18,36 @@ from fitcore.errors import PricefoldError
 from fitcore.review.flags import CODES
 
 from ..help import help_text
-from ..session import FILTER_TITLES, FILTERS, SORT_TITLES, SORTS, TriageSession
+from ..session import (
+    FILTER_TITLES,
+    FILTERS,
+    KEEP,
+    SORT_TITLES,
+    SORTS,
+    Shown,
+    TriageSession,
+    describe,
+)
 from ..text import clean
 from ..widgets.evidence import EvidencePanel
 from ..widgets.series_list import SeriesList
+from ..widgets.status_line import status_text
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
+from .override import OverrideDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
 POLL_SECONDS = 2.0
-EVIDENCE_DELAY = 0.12  # redraw the charts once the cursor rests, not on every key of a fast scroll
+TOLD = {"accept": "Accepted", "override": "Overrode", "hold": "Held", "note": "Noted", "revoke": "Revoked"}
 
 
 class TriageScreen(Screen):
     BINDINGS = [
-        Binding("a", "decide('accept')", "accept"),
+        Binding("a", "accept", "accept"),
         Binding("o", "override", "override"),
         Binding("n", "note", "note"),
-        Binding("h", "decide('hold')", "hold"),
-        Binding("u", "withdraw", "withdraw"),
+        Binding("h", "hold", "hold"),
+        Binding("u", "revoke", "revoke"),
+        Binding("u", "nothing_to_revoke", "revoke", show=False),  # the same key, to say there is nothing
         Binding("right_square_bracket", "attention(1)", "next"),
         Binding("left_square_bracket", "attention(-1)", "prev ⚑", show=False),
         Binding("slash", "search", "search", show=False),
@@ -46,15 +63,16 @@ class TriageScreen(Screen):
     def __init__(self, session: TriageSession) -> None:
         super().__init__()
         self.session = session
-        self._evidence_timer = None
         self._actions_shown: tuple | None = None
+        self._last_search = ""
+        self._told: str | None = None  # the last record by someone else this screen has told about
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
         with Horizontal(id="panes"):
             yield SeriesList(self.session, id="series-list")
             yield EvidencePanel(self.session, id="evidence")
-        yield Footer()
+        yield Footer(compact=True)
 
     def on_mount(self) -> None:
         self.set_class(self.app.size.width < NARROW, "narrow")
@@ -64,6 +82,7 @@ class TriageScreen(Screen):
 
     def on_resize(self) -> None:
         self.set_class(self.size.width < NARROW, "narrow")
+        self.update_status()
 
     # -- what is shown -----------------------------------------------------------------------
     @property
@@ -76,36 +95,29 @@ class TriageScreen(Screen):
 
     @on(SeriesList.Highlighted)
     def highlighted(self, event: SeriesList.Highlighted) -> None:
-        if self._evidence_timer is not None:
-            self._evidence_timer.stop()
-        if self.evidence.series is None:
-            self.evidence.show(event.series)
-        else:
-            self._evidence_timer = self.set_timer(EVIDENCE_DELAY, lambda: self.evidence.show(self.session.current))
+        self.show_current()
+
+    def show_current(self) -> None:
+        """The highlighted series is what the screen shows now: decisions act on it."""
+        s = self.session.current
+        self.session.look(s)
+        self.evidence.show(s, now=self.evidence.series is None)
         self.refresh_footer()
 
     def refresh_footer(self) -> None:
         """Redraw the footer only when the keys that can act have changed (it is slow to redraw)."""
-        shown = tuple(bool(self.check_action(name, args)) for name, args in (
-            ("decide", ("accept",)), ("override", ()), ("note", ()), ("withdraw", ()), ("attention", ())))
+        shown = tuple(bool(self.check_action(name, ())) for name in
+                      ("accept", "override", "note", "hold", "revoke", "attention"))
         if shown != self._actions_shown:
             self._actions_shown = shown
             self.refresh_bindings()
 
     def update_status(self) -> None:
-        counts = self.session.counts()
-        s = self.session
-        flag = f" ⚑ {s.flag_filter}" if s.flag_filter else ""
-        text = Text("pricefold triage", style="bold")
-        text.append(f"  {clean(s.who.analyst)}  ·  ", style="dim")
-        text.append(f"{len(s.view):,} listed ({FILTER_TITLES[s.filter]}{flag}; by {SORT_TITLES[s.sort]})  ·  ")
-        text.append(f"attention {counts['attention']:,}  pending {counts['pending']:,}  "
-                    f"accepted {counts['accepted']:,}  overridden {counts['overridden']:,}  held {counts['held']:,}"
-                    + (f"  stale {counts['stale']:,}" if counts["stale"] else ""))
-        self.query_one("#status-line", Static).update(text)
+        line = self.query_one("#status-line", Static)
+        line.update(status_text(self.session, max(self.size.width - 2, 20)))
 
     def refresh_all(self) -> None:
-        self.series_list.reload()
+        self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow
         self.update_status()
         self.refresh_footer()
 
@@ -118,94 +130,159 @@ class TriageScreen(Screen):
             return
         if changed:
             self.refresh_all()
+        news = self.session.news
+        if news is not None and news.get("digest") != self._told:
+            self._told = news.get("digest")
+            gone = ": it has left your list, and decision keys wait until you move" if self.session.waiting else ""
+            self.notify(f"{describe(news)} on {self.session.label(self.session.current)}{gone}", markup=False,
+                        timeout=6)
 
     # -- which keys can act now ------------------------------------------------------------
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
-        s = self.session.current
-        results = self.session.results
-        if action == "decide" and parameters == ("accept",):
-            return s is not None and results.chosen[s] >= 0
+        session = self.session
+        s = session.current
+        results = session.results
+        if action in ("accept", "override", "note", "hold", "revoke") and not session.writable:
+            return False
+        if action in ("accept", "override", "note", "hold") and (s is None or session.waiting):
+            return False
+        if action == "accept":
+            return results.chosen[s] >= 0
         if action == "override":
-            return s is not None and results.chosen[s] >= 0 and results.available[s].sum() >= 2
-        if action in ("note", "decide"):
-            return s is not None
-        if action == "withdraw":
-            return s is not None and self.session.can_withdraw(s)
+            return results.chosen[s] >= 0 and results.available[s].sum() >= 2
+        if action in ("revoke", "nothing_to_revoke"):
+            return (session.undo_target() is not None) == (action == "revoke")
         if action == "attention":
-            return bool(self.session.needs_attention()[self.session.view].any())
+            return bool(session.needs_attention()[session.view].any())
         return True
 
     # -- decisions ---------------------------------------------------------------------------
-    def record(self, action: str, model: str | None = None, note: str = "") -> None:
-        s = self.session.current
-        if s is None:
-            return
+    def decide(self, shown: Shown, action: str, model: str | None = None, note: str = "") -> None:
+        """Record ``action`` on the series ``shown`` showed; say what happened, and move on after a decision."""
         try:
-            self.session.record(s, action, model=model, note=note)
-        except PricefoldError as exc:
+            self.session.decide(shown, action, model=model, note=note)
+        except PricefoldError as exc:  # refused by the screen or by the ledger's rules, or not written
             self.app.push_screen(MessageDialog(Text(f"Not recorded: {clean(str(exc))}", style="bold")))
+            self.refresh_all()  # the series as the ledger has it now
             return
-        self.notify(f"{action} recorded for {self.session.label(s)}", markup=False, timeout=3)
+        s = self.session.index_of(shown)
+        what = f" {model}" if action == "override" else ""
+        self.notify(f"{TOLD[action]}{what}: {self.session.label(s)}", markup=False, timeout=3)
         if action in ("accept", "override", "hold"):
             self.session.after_decision(s)
         else:
-            self.session.rebuild_view(keep=s)
+            self.session.bring(s)
         self.refresh_all()
 
-    def action_decide(self, action: str) -> None:
-        self.record(action)
+    def ask(self, title: str, placeholder: str, required: bool, then) -> None:
+        """A note dialog; ``then(note)`` unless cancelled."""
+        self.app.push_screen(TextDialog(title, placeholder, required=required),
+                             lambda note: None if note is None else then(note))
+
+    def action_accept(self) -> None:
+        shown = self.session.shown
+        if shown is None:
+            return
+        if self.session.needs_reason(shown, "accept"):
+            self.ask(f"Accept {shown.proposed} despite {', '.join(shown.stops)}? Say why", "a note is required",
+                     True, lambda note: self.decide(shown, "accept", note=note))
+        else:
+            self.decide(shown, "accept")
+
+    def action_hold(self) -> None:
+        shown = self.session.shown
+        if shown is not None:
+            self.ask("Hold this series: why? (optional)", "Enter alone holds without a note", False,
+                     lambda note: self.decide(shown, "hold", note=note))
 
     def action_override(self) -> None:
-        s = self.session.current
-        results = self.session.results
-        options = [(c.name, f"{c.name}  CV MSE {results.cv_mse[s, i]:,.4g}")
-                   for i, c in enumerate(results.candidates) if results.available[s, i] and i != results.chosen[s]]
+        shown, session = self.session.shown, self.session
+        if shown is None:
+            return
+        s = session.index_of(shown)
 
         def picked(model: str | None) -> None:
-            if model is None:
-                return
-            self.app.push_screen(TextDialog(f"Why {model} instead of {results.names[results.chosen[s]]}?",
-                                            "a note is required", required=True),
-                                 lambda note: None if note is None else self.record("override", model, note))
+            if model is not None:
+                self.ask(f"Why {model} instead of {shown.proposed}?", "a note is required", True,
+                         lambda note: self.decide(shown, "override", model, note))
 
-        self.app.push_screen(ChoiceDialog("Override: choose the candidate to use", options), picked)
+        self.app.push_screen(OverrideDialog(session.results, s, session.label(s), session.diagnosis.thresholds,
+                                            shown.model if shown.model != shown.proposed else None), picked)
 
     def action_note(self) -> None:
-        self.app.push_screen(TextDialog("Note on this series", "what should the next reader know?", required=True),
-                             lambda note: None if note is None else self.record("note", note=note))
+        shown = self.session.shown
+        if shown is not None:
+            self.ask("Note on this series", "what should the next reader know?", True,
+                     lambda note: self.decide(shown, "note", note=note))
 
-    def action_withdraw(self) -> None:
-        self.record("revoke")
+    def action_nothing_to_revoke(self) -> None:
+        self.notify("Nothing to revoke: no decision of yours made on this screen still stands.",
+                    severity="warning", markup=False)
+
+    def action_revoke(self) -> None:
+        """Revoke this screen's latest decision that still stands, wherever it is; the cursor goes there."""
+        target = self.session.undo_target()
+        if target is None:
+            self.action_nothing_to_revoke()
+            return
+        s, record = target
+        self.session.bring(s)
+        self.refresh_all()
+        shown = self.session.look(s)
+        what = f"{record['action']} {record.get('model') or ''}".strip()
+        try:
+            self.session.decide(shown, "revoke")
+        except PricefoldError as exc:
+            self.app.push_screen(MessageDialog(Text(f"Not revoked: {clean(str(exc))}", style="bold")))
+            self.refresh_all()
+            return
+        self.notify(f"Revoked your {what} on {self.session.label(s)}", markup=False, timeout=5)
+        self.session.bring(s)
+        self.refresh_all()
 
     # -- moving around ---------------------------------------------------------------------
     def action_attention(self, step: int) -> None:
         if self.session.jump_attention(step):
-            self.series_list.show_cursor()
-            self.series_list.post_message(SeriesList.Highlighted(self.session.current))
+            self.series_list.reload()
 
     def action_search(self) -> None:
         def found(text: str | None) -> None:
-            if text is None:
+            if text is None or not text.strip():
                 return
-            if self.session.search(text):
-                self.series_list.reload()
+            self._last_search = text
+            hit = self.session.search(text)
+            if not hit.found:
+                self.notify(f"no series matches {text!r}", severity="warning", markup=False)
+                return
+            if hit.switched:
+                self.notify(f"none listed matched: showing all series ({hit.overall:,} match)", markup=False)
             else:
-                self.notify(f"no listed series matches {text!r}", severity="warning", markup=False)
-        self.app.push_screen(TextDialog("Search series by key", "part of a product or segment name"), found)
+                self.notify(f"{hit.in_view:,} listed match ({hit.overall:,} in all series); / and Enter for the next",
+                            markup=False, timeout=3)
+            self.refresh_all()
+        self.app.push_screen(TextDialog("Search series by key (Enter again for the next match)",
+                                        "part of a product or segment name", value=self._last_search), found)
 
     def action_filter(self) -> None:
-        options = [(name, FILTER_TITLES[name]) for name in FILTERS] + [(f"flag:{c}", f"flag {c}") for c in CODES]
+        session = self.session
+        counts = session.filter_counts()
+        flag = f" ⚑ {session.flag_filter}" if session.flag_filter else ""
+        options = [(name, f"{FILTER_TITLES[name]}{flag}  ({counts[name]:,})") for name in FILTERS]
+        status = FILTER_TITLES[session.filter]
+        options.append(("flag:", f"{status}, any flag  ({counts['flag:']:,})"))
+        options += [(f"flag:{c}", f"{status}, ⚑ {c}  ({counts[f'flag:{c}']:,})") for c in CODES]
 
         def chosen(key: str | None) -> None:
             if key is None:
                 return
             if key.startswith("flag:"):
-                self.session.set_filter("all", key.split(":", 1)[1])
+                session.set_filter(KEEP, key.split(":", 1)[1] or None)
             else:
-                self.session.set_filter(key)
+                session.set_filter(key, KEEP)
             self.refresh_all()
-        current = f"flag:{self.session.flag_filter}" if self.session.flag_filter else self.session.filter
-        self.app.push_screen(ChoiceDialog("Show which series?", options, current), chosen)
+        current = f"flag:{session.flag_filter}" if session.flag_filter else session.filter
+        self.app.push_screen(ChoiceDialog("Show which series? (a flag keeps the status, and back)", options,
+                                          current), chosen)
 
     def action_sort(self) -> None:
         def chosen(key: str | None) -> None:
@@ -234,7 +311,7 @@ class TriageScreen(Screen):
             self.evidence.focus()
 
     def action_help(self) -> None:
-        self.app.push_screen(MessageDialog(help_text(), classes="help"))
+        self.app.push_screen(MessageDialog(help_text(self.session.book), classes="help"))
 
     def action_quit(self) -> None:
         self.app.exit()

@@ -2,18 +2,28 @@
 
 plotext keeps one global figure, so charts are only ever built on the UI
 thread.  Every label drawn here comes from numbers or candidate names, never
-from users' text.
+from users' text.  Curves differ by line style as well as colour (the standing
+model solid, the other candidate dashed, the band dotted), and each legend entry
+uses the very colour number its line is drawn with.
 """
 from __future__ import annotations
 
 import numpy as np
 import plotext as plt
+from rich.style import Style
 from rich.text import Text
 
 from fitcore.fit.results import Results
 from fitcore.review.evidence import band, curve, runner_up, series_rows
 
-MARKER = "braille"  # renders in a plain xterm-256color; sextant markers often do not
+# 256-colour numbers (plotext draws them as 38;5;N; the legend uses the same numbers)
+STANDING, OTHER, BAND, OBSERVED, PLAN, ONE_SE = 46, 45, 214, 255, 201, 214
+SOLID = "braille"  # renders in a plain xterm-256color; sextant markers often do not
+LOG_RATIO = 10  # the fold chart goes to a log scale when the largest error is this many times the smallest mean
+
+
+def _colour(number: int) -> Style:
+    return Style(color=f"color({number})")
 
 
 def _start(width: int, height: int) -> None:
@@ -27,46 +37,57 @@ def _finish() -> Text:
     return Text.from_ansi(plt.build())
 
 
-def curve_chart(results: Results, s: int, width: int, height: int) -> Text:
-    """Observations, the chosen curve, the runner-up, the 95% band and the plan price."""
+def price_grid(lo: float, hi: float, plan: float, positive: bool) -> np.ndarray:
+    """Prices to draw over: the observed range and the plan price, with a margin of 8% either side."""
+    if np.isfinite(plan):
+        lo, hi = min(lo, plan), max(hi, plan)
+    pad = (hi - lo) * 0.08 or max(abs(hi) * 0.05, 0.01)
+    start = lo - pad
+    if positive and start <= 0:  # a log-log curve has no value at or below a zero price
+        start = lo / 2
+    return np.linspace(start, hi + pad, 80)
+
+
+def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict) -> Text:
+    """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its 95% band
+    (dotted) and the plan price (a vertical line)."""
     price, volume, _ = series_rows(results, s)
     _start(width, height)
     chosen = int(results.chosen[s])
-    plan = results.plan_price[s]
-    lo_p, hi_p = float(results.price_lo[s]), float(results.price_hi[s])
-    if np.isfinite(plan):
-        lo_p, hi_p = min(lo_p, plan), max(hi_p, plan)
-    pad = (hi_p - lo_p) * 0.03 or max(abs(hi_p) * 0.05, 0.01)
-    grid = np.linspace(max(lo_p - pad, 1e-9 if results.price_lo[s] > 0 else lo_p - pad), hi_p + pad, 80)
+    plan = float(results.plan_price[s])
+    grid = price_grid(float(results.price_lo[s]), float(results.price_hi[s]), plan, results.price_lo[s] > 0)
     names = results.names
-    if chosen >= 0 and results.rows_loaded:
-        lower, upper = band(results, s, chosen, grid)
-        plt.plot(grid.tolist(), lower.tolist(), marker=MARKER, color="orange+")
-        plt.plot(grid.tolist(), upper.tolist(), marker=MARKER, color="orange+")
-    if chosen >= 0:
-        other = runner_up(results, s)
-        if other >= 0:
-            plt.plot(grid.tolist(), curve(results, s, other, grid).tolist(), marker=MARKER, color="cyan")
-        plt.plot(grid.tolist(), curve(results, s, chosen, grid).tolist(), marker=MARKER, color="green+")
+    other = chosen if model != chosen else runner_up(results, s)
+    xs = grid.tolist()
+    if model >= 0 and results.rows_loaded:
+        lower, upper = band(results, s, model, grid)
+        plt.plot(xs, lower.tolist(), marker=".", color=BAND)
+        plt.plot(xs, upper.tolist(), marker=".", color=BAND)
+    if other >= 0:
+        plt.plot(xs, curve(results, s, other, grid).tolist(), marker="-", color=OTHER)
+    if model >= 0:
+        plt.plot(xs, curve(results, s, model, grid).tolist(), marker=SOLID, color=STANDING)
     if np.isfinite(plan):
-        plt.vline(float(plan), "magenta")
-    # Observations last, so that curves through them do not hide them.
-    if len(price):
-        plt.scatter(price.tolist(), volume.tolist(), marker="dot", color="gray")
-    plt.xlabel("price")
+        plt.vline(plan, PLAN)
+    if len(price):  # observations last, so that curves through them do not hide them
+        plt.scatter(price.tolist(), volume.tolist(), marker="•", color=OBSERVED)
+    plt.xlim(float(grid[0]), float(grid[-1]))
+    plt.xlabel("price" + (f" ({units['price']})" if units.get("price") else ""))
+    if units.get("volume"):
+        plt.ylabel(f"volume ({units['volume']})")
     chart = _finish()
     # The legend goes under the chart, where it cannot cover the data.
-    legend = Text("• observed" if results.rows_loaded else "observations and band: reading the data …",
-                  style="grey62")
-    if chosen >= 0:
-        legend.append(f"   ── {names[chosen]} (chosen)", style="green")
-        other = runner_up(results, s)
-        if other >= 0:
-            legend.append(f"   ── {names[other]} (runner-up)", style="cyan")
-        if results.rows_loaded:
-            legend.append("   ── 95% prediction band", style="orange1")
+    legend = Text()
+    legend.append("• observed" if results.rows_loaded else "observations and band: reading the data …",
+                  _colour(OBSERVED) if results.rows_loaded else "dim")
+    if model >= 0:
+        legend.append(f"   ⠤⠤ {names[model]} ({'chosen' if model == chosen else 'override'})", _colour(STANDING))
+    if other >= 0:
+        legend.append(f"   -- {names[other]} ({'proposed' if other == chosen else 'runner-up'})", _colour(OTHER))
+    if model >= 0 and results.rows_loaded:
+        legend.append("   ·· 95% prediction band", _colour(BAND))
     if np.isfinite(plan):
-        legend.append("   │ plan price", style="magenta")
+        legend.append("   │ plan price", _colour(PLAN))
     return Text("\n").join([chart, legend])
 
 
@@ -82,26 +103,28 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
     for x, c in zip(positions, available):
         errors = folds[:, c]
         if len(errors) <= 12:  # per-fold dots (leave-one-out has too many to read)
-            plt.scatter([x] * len(errors), errors.tolist(), marker="dot", color="gray")
+            plt.scatter([x] * len(errors), errors.tolist(), marker="•", color=OBSERVED)
     means = results.cv_mse[s, available]
     ses = results.cv_se[s, available]
     for x, m, e in zip(positions, means, ses):
-        plt.plot([x, x], [float(m - e), float(m + e)], marker=MARKER, color="cyan")
-    plt.scatter(positions, means.tolist(), marker="●", color="cyan")
+        plt.plot([x, x], [float(m - e), float(m + e)], marker=SOLID, color=OTHER)
+    plt.scatter(positions, means.tolist(), marker="●", color=OTHER)
     best = int(np.argmin(means))
-    plt.hline(float(means[best] + ses[best]), "orange")
+    plt.hline(float(means[best] + ses[best]), ONE_SE)
     chosen = int(results.chosen[s])
     if chosen in available:
         x = positions[list(available).index(chosen)]
-        plt.scatter([x], [float(results.cv_mse[s, chosen])], marker="◆", color="green+")
+        plt.scatter([x], [float(results.cv_mse[s, chosen])], marker="◆", color=STANDING)
     plt.xticks(positions, [results.names[c] for c in available])
     plt.xlim(0.5, len(available) + 0.5)
     shown = folds[:, available][np.isfinite(folds[:, available]) & (folds[:, available] > 0)]
-    log_scale = len(shown) and shown.max() > 30 * max(float(means.min()), 1e-300)
+    top = max(float(shown.max()) if len(shown) else 0.0, float(np.nanmax(means + ses)))
+    log_scale = top > LOG_RATIO * max(float(means.min()), 1e-300)
     if log_scale:  # one poor candidate would otherwise flatten all the others against the axis
         plt.yscale("log")
     plt.ylabel("held-out MSE" + (" (log scale)" if log_scale else ""))
-    legend = Text("● CV mean ± SE   • each fold", style="cyan")
-    legend.append("   ◆ chosen", style="green")
-    legend.append("   ── one-SE line", style="orange1")
+    legend = Text("● CV mean ± SE", _colour(OTHER))
+    legend.append("   • each fold", _colour(OBSERVED))
+    legend.append("   ◆ chosen", _colour(STANDING))
+    legend.append("   ── one-SE line", _colour(ONE_SE))
     return Text("\n").join([_finish(), legend])

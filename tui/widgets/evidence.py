@@ -1,8 +1,14 @@
-"""The evidence for one series: charts, candidates, flags, plan prediction, ledger history."""
+"""The evidence for one series: what stands and why, flags, plan, charts, candidates, ledger history.
+
+The words come first (they fit a small terminal), the charts after them.  Every number is of the
+model that now stands: the engine's proposal, or an analyst's override.  The title (which series,
+its status) is drawn as soon as the cursor lands; the rest once it rests, dimmed until then.
+"""
 from __future__ import annotations
 
 import math
 
+from rich.cells import cell_len
 from rich.console import Group
 from rich.table import Table
 from rich.text import Text
@@ -10,13 +16,33 @@ from textual.app import ComposeResult
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
+from fitcore.review.candidate_checks import candidate_checks
+from fitcore.review.choice import plan_position, score_meaning, why_chosen
+from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money
 
-from ..session import TriageSession
-from ..text import clean, literal
+from ..cells import cut
+from ..session import TriageSession, describe
+from ..text import clean
 from .charts import curve_chart, fold_chart
 
 SEVERITY_STYLE = {"stop": "#ff875f", "warn": "#d7af5f"}
+NEWS_STYLE = "#5fafff"
+PARTS = ("title", "flags", "why", "plan", "curve", "folds", "candidates", "history")
+CHART_DELAY = 0.12  # draw all but the title once the cursor rests, not on every key of a fast scroll
+
+
+def gauge(plan: float, lo: float, hi: float, width: int = 24) -> str:
+    """'1.61 ├─────●──────┤ 2.73': the plan price among the observed prices (● outside the bar when beyond)."""
+    if not (math.isfinite(plan) and hi > lo):
+        return ""
+    bar = ["─"] * width
+    share = (plan - lo) / (hi - lo)
+    if 0 <= share <= 1:
+        bar[min(int(share * width), width - 1)] = "●"
+        return f"{money(lo)} ├{''.join(bar)}┤ {money(hi)}"
+    return (f"● {money(lo)} ├{''.join(bar)}┤ {money(hi)}" if share < 0
+            else f"{money(lo)} ├{''.join(bar)}┤ {money(hi)} ●")
 
 
 class EvidencePanel(VerticalScroll, can_focus=True):
@@ -26,56 +52,139 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         super().__init__(**kwargs)
         self.session = session
         self.series: int | None = None
+        self._charts_timer = None
 
     def compose(self) -> ComposeResult:
-        yield Static(id="ev-title", markup=False)
-        yield Static(id="ev-curve", markup=False)
-        yield Static(id="ev-folds", markup=False)
-        yield Static(id="ev-candidates", markup=False)
-        yield Static(id="ev-flags", markup=False)
-        yield Static(id="ev-plan", markup=False)
-        yield Static(id="ev-history", markup=False)
+        for name in PARTS:
+            yield Static(id=f"ev-{name}", markup=False)
 
-    def show(self, series: int | None) -> None:
+    def show(self, series: int | None, now: bool = False) -> None:
+        """Show ``series``: each new series from the top, its title at once, the rest once the cursor rests
+        (redrawing the whole panel on every key of a fast scroll would slow the list down)."""
+        moved = series != self.series
+        if moved:
+            self.scroll_home(animate=False, immediate=True)
         self.series = series
-        self.redraw()
+        if self._charts_timer is not None:
+            self._charts_timer.stop()
+        if now or not moved:
+            self.redraw()
+            return
+        # The title has a fixed height: updating it needs no layout pass (one costs ~10× a repaint here).
+        self._part("title").update(self.title_text(series) if series is not None else "", layout=False)
+        self.set_class(True, "catching-up")
+        self._charts_timer = self.set_timer(CHART_DELAY, self.redraw)
 
     def on_resize(self) -> None:
         self.redraw()
 
     def redraw(self) -> None:
+        self.set_class(False, "catching-up")
+        self.redraw_text()
+        self.redraw_charts()
+
+    def _part(self, name: str) -> Static:
+        return self.query_one(f"#ev-{name}", Static)
+
+    def redraw_text(self) -> None:
         if not self.is_mounted:
             return
         s = self.series
-        parts = {name: self.query_one(f"#ev-{name}", Static)
-                 for name in ("title", "curve", "folds", "candidates", "flags", "plan", "history")}
         if s is None:
-            parts["title"].update(Text("Nothing listed: change the filter (f) or the search (/).", style="dim"))
-            for name, part in parts.items():
-                if name != "title":
-                    part.update("")
+            self._part("title").update(Text("Nothing listed: change the filter (f) or the search (/).", style="dim"))
+            for name in PARTS[1:]:
+                self._part(name).update("")
             return
+        self._part("title").update(self.title_text(s), layout=False)
+        for name, text in (("flags", self.flags_text(s)), ("why", self.why_text(s)),
+                           ("plan", self.plan_text(s)), ("history", self.history_text(s))):
+            text.rstrip()
+            self._part(name).update(text)
+        self._part("candidates").update(self.candidate_table(s))
+
+    def redraw_charts(self) -> None:
+        if not self.is_mounted or self.series is None:
+            return
+        s = self.series
         width = max(self.scrollable_content_region.width - 3, 30)
         tall = self.app.size.height >= 40
         results = self.session.results
-        parts["title"].update(self.title_text(s))
-        parts["curve"].update(curve_chart(results, s, width, 18 if tall else 12))
-        parts["folds"].update(fold_chart(results, s, width, 12 if tall else 9))
-        parts["candidates"].update(self.candidate_table(s))
-        parts["flags"].update(self.flags_text(s))
-        parts["plan"].update(self.plan_text(s))
-        parts["history"].update(self.history_text(s))
+        self._part("curve").update(curve_chart(results, s, width, 18 if tall else 12, self.session.model_of(s),
+                                               self.session.units))
+        self._part("folds").update(fold_chart(results, s, width, 12 if tall else 9))
 
+    # -- the parts ----------------------------------------------------------------------------
     def title_text(self, s: int) -> Text:
+        """Three lines at most, each cut to the width: which series, its status, news from another analyst."""
         results, session = self.session.results, self.session
-        text = literal(session.label(s), "bold")
-        text.append(f"  {results.data.counts[s]} obs, prices {money(results.price_lo[s])}–"
-                    f"{money(results.price_hi[s])}  · status {session.status[s]}", style="dim")
+        width = max(self.scrollable_content_region.width, 20)
+        head = Text(cut(session.label(s), width), style="bold")
+        head.append(cut(f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
+                        f"{self.price(results.price_hi[s])}", max(width - cell_len(head.plain), 0)), style="dim")
+        standing = session.standing(s)
+        lines = [head, Text(cut(f"status {session.status[s]}" + (f": {describe(standing)}" if standing else ""),
+                                width))]
+        if session.news is not None and s == session.current:
+            said = "↑ just now: it has left your list; decision keys wait until you move" if session.waiting \
+                else f"↑ just now: {describe(session.news, when=False)}"
+            lines.append(Text(cut(said, width), style=NEWS_STYLE))
+        return Text("\n").join(lines)
+
+    def flags_text(self, s: int) -> Text:
+        flags = sorted(self.session.diagnosis.flags_of(s), key=lambda f: SEVERITY[f["code"]] != "stop")
+        text = Text("No flags." if not flags else "", style="dim" if not flags else "")
+        for f in flags:
+            text.append(f"{'!' if f['severity'] == 'stop' else '?'} [{f['severity']}] {f['code']}: ",
+                        style=SEVERITY_STYLE[f["severity"]])
+            text.append(clean(f["message"]) + "\n")
+        return text
+
+    def why_text(self, s: int) -> Text:
+        results, session = self.session.results, self.session
+        chosen, model = int(results.chosen[s]), session.model_of(s)
+        scored = [(results.names[c], float(results.cv_mse[s, c]), float(results.cv_se[s, c]))
+                  for c in range(len(results.names)) if results.available[s, c]]
+        name = results.names[chosen] if chosen >= 0 else None
+        rule = results.settings.rule
+        text = Text(f"Proposed {name or 'nothing'} ({rule}): {why_chosen(scored, name, rule)}.\n")
+        if chosen >= 0:
+            text.append(score_meaning(float(results.q2[s, chosen]), session.diagnosis.thresholds.weak_score) + ".\n")
+        if model != chosen and model >= 0:
+            standing = session.standing(s)
+            text.append(f"Overridden to {results.names[model]}", style="bold")
+            text.append(f" ({describe(standing)}): {clean(standing.get('note') or '')}\n")
+            text.append(score_meaning(float(results.q2[s, model]), session.diagnosis.thresholds.weak_score) + ".\n")
+            checks = candidate_checks(results, s, model, session.diagnosis.thresholds).codes
+            said = ", ".join(checks) if checks else "none raised"
+            text.append(f"Checks on {results.names[model]}: {said}.\n", style=SEVERITY_STYLE["stop"] if checks else "")
+        return text
+
+    def plan_text(self, s: int) -> Text:
+        results = self.session.results
+        c = self.session.model_of(s)
+        text = Text()
+        plan = float(results.plan_price[s])
+        lo, hi = float(results.price_lo[s]), float(results.price_hi[s])
+        if c >= 0 and math.isfinite(plan):
+            text.append(f"Plan price {self.price(plan)}, {plan_position(plan, lo, hi)}.\n")
+            text.append(f"  {gauge(plan, lo, hi)}\n", style="dim")
+            text.append(f"{results.names[c]} predicts volume {self.volume(results.plan_volume[s, c])} "
+                        f"(95% PI {fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}), "
+                        f"elasticity {results.plan_elasticity[s, c]:.2f}.")
+            if not lo <= plan <= hi:
+                text.append(" An extrapolation.", style=SEVERITY_STYLE["stop"])
+            text.append("\n")
+        elif c >= 0:
+            text.append("No plan price for this series.\n", style="dim")
+        if c >= 0 and math.isfinite(results.revenue_price[s]):
+            text.append(f"Revenue-maximising price within the observed range (proposed curve): "
+                        f"{self.price(results.revenue_price[s])}.\n")
         return text
 
     def candidate_table(self, s: int) -> Group:
         """Available candidates as a table; the others below it, each with its reason."""
         results = self.session.results
+        model = self.session.model_of(s)
         table = Table(box=None, pad_edge=False, expand=False, show_edge=False, header_style="bold")
         for name, justify in (("", "left"), ("candidate", "left"), ("CV MSE", "right"), ("± SE", "right"),
                               ("Q²", "right"), ("R²", "right")):
@@ -85,37 +194,11 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             if not results.available[s, c]:
                 missing.append(f"  {cand.name}: {clean(results.reason_text(s, c) or '')}\n")
                 continue
-            table.add_row("✓" if c == results.chosen[s] else "", cand.name, fmt(results.cv_mse[s, c]),
-                          fmt(results.cv_se[s, c]), f"{results.q2[s, c] * 100:.0f}%", f"{results.r2[s, c] * 100:.0f}%")
-        return Group(table, missing)
-
-    def flags_text(self, s: int) -> Text:
-        flags = self.session.diagnosis.flags_of(s)
-        if not flags:
-            return Text("No flags.", style="dim")
-        text = Text()
-        for f in flags:
-            text.append(f"[{f['severity']}] {f['code']}: ", style=SEVERITY_STYLE[f["severity"]])
-            text.append(clean(f["message"]) + "\n")
-        return text
-
-    def plan_text(self, s: int) -> Text:
-        results = self.session.results
-        c = results.chosen[s]
-        text = Text()
-        plan = results.plan_price[s]
-        if c >= 0 and math.isfinite(plan):
-            text.append(f"Plan price {money(plan)}: volume {fmt(results.plan_volume[s, c])} "
-                        f"(95% PI {fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}), "
-                        f"elasticity {results.plan_elasticity[s, c]:.2f}.")
-            if not results.price_lo[s] <= plan <= results.price_hi[s]:
-                text.append(" Outside the observed prices: an extrapolation.", style=SEVERITY_STYLE["stop"])
-            text.append("\n")
-        elif c >= 0:
-            text.append("No plan price for this series.\n", style="dim")
-        if c >= 0 and math.isfinite(results.revenue_price[s]):
-            text.append(f"Revenue-maximising price within the observed range: {money(results.revenue_price[s])}.\n")
-        return text
+            mark = "✓" if c == results.chosen[s] else ""
+            mark += "↺" if c == model and c != results.chosen[s] else ""
+            table.add_row(mark, cand.name, fmt(results.cv_mse[s, c]), fmt(results.cv_se[s, c]),
+                          f"{results.q2[s, c] * 100:.0f}%", f"{results.r2[s, c] * 100:.0f}%")
+        return Group(Text("Candidates (✓ proposed, ↺ override)", style="bold"), table, missing)
 
     def history_text(self, s: int) -> Text:
         records = self.session.history(s)
@@ -130,3 +213,12 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                 text.append(" — " + clean(r["note"]), style="italic")
             text.append("\n")
         return text
+
+    # -- units --------------------------------------------------------------------------------
+    def price(self, value: float) -> str:
+        unit = self.session.units.get("price")
+        return f"{money(value)} {unit}" if unit else money(value)
+
+    def volume(self, value: float) -> str:
+        unit = self.session.units.get("volume")
+        return f"{fmt(value)} {unit}" if unit else fmt(value)

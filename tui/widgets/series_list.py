@@ -1,6 +1,7 @@
 """The series list: one line per series, drawn only for the rows on screen (Line API)."""
 from __future__ import annotations
 
+from rich.cells import cell_len
 from rich.segment import Segment
 from rich.style import Style
 from textual.binding import Binding
@@ -9,18 +10,36 @@ from textual.message import Message
 from textual.scroll_view import ScrollView
 from textual.strip import Strip
 
-from ..session import STATUS_MARK, TriageSession
+from fitcore.review.flags import SEVERITY
+
+from ..cells import key_label, pad
+from ..session import STATUS_MARK, TriageSession, describe
 
 STOP = Style(color="#ff875f")
 WARN = Style(color="#d7af5f")
 DONE = Style(color="#87af87")
+NEWS = Style(color="#5fafff", italic=True)
 DIM = Style(dim=True)
 CURSOR = Style(reverse=True)
+SEVERITY_MARK = {"stop": "!", "warn": "?"}  # read without colour: '!' do not use unseen, '?' worth a look
 
 
 def short_flags(codes: list[str], width: int) -> str:
-    text = " ".join(codes)
-    return text if len(text) <= width else text[:max(width - 1, 0)] + "…"
+    """Flags marked by severity ('!' stop, '?' warn), stop first; those that do not fit are counted ('+2')."""
+    marked = [SEVERITY_MARK[SEVERITY[code]] + code for code in codes]
+    shown: list[str] = []
+    for i, item in enumerate(marked):
+        rest = len(marked) - i - 1
+        tail = f" +{rest}" if rest else ""
+        if cell_len(" ".join([*shown, item]) + tail) <= width:
+            shown.append(item)
+            continue
+        more = f"+{len(marked) - len(shown)}"
+        while shown and cell_len(" ".join([*shown, more])) > width:
+            shown.pop()
+            more = f"+{len(marked) - len(shown)}"
+        return " ".join([*shown, more]) if shown else pad(marked[0], width - len(more) - 1) + " " + more
+    return " ".join(shown)
 
 
 class SeriesList(ScrollView, can_focus=True):
@@ -47,9 +66,13 @@ class SeriesList(ScrollView, can_focus=True):
     def on_mount(self) -> None:
         self.reload()
 
+    def on_resize(self) -> None:
+        self.virtual_size = Size(self.scrollable_content_region.width, len(self.session.view) + 1)
+
     def reload(self) -> None:
         """The view changed (filter, sort, decisions): resize, redraw, keep the cursor visible."""
-        self.virtual_size = Size(self.size.width or 80, len(self.session.view) + 1)
+        # As wide as the list is: rows are cut to fit, so there is nothing to scroll sideways to.
+        self.virtual_size = Size(self.scrollable_content_region.width, len(self.session.view) + 1)
         self.refresh()
         self.show_cursor()
         self.post_message(self.Highlighted(self.session.current))
@@ -74,8 +97,10 @@ class SeriesList(ScrollView, can_focus=True):
         self._moved(lambda: self.session.move(step * len(self.session.view)))
 
     def _moved(self, change) -> None:
-        before = self.session.current
+        before, listed = self.session.current, len(self.session.view)
         change()
+        if len(self.session.view) != listed:  # a pinned series let go: the rows below it moved up
+            self.virtual_size = Size(self.scrollable_content_region.width, len(self.session.view) + 1)
         self.show_cursor()
         if self.session.current != before:
             self.post_message(self.Highlighted(self.session.current))
@@ -90,8 +115,10 @@ class SeriesList(ScrollView, can_focus=True):
         width = self.scrollable_content_region.width
         key_w, flags_w = self.columns(width)
         if y == 0:
-            head = f"  {'series':<{key_w}} {'n':>5} {'chosen':<7} {'score':>5}  {'flags':<{flags_w}}"
-            return Strip([Segment(head[:width].ljust(width), Style(bold=True, underline=True))])
+            flags = next(h for h in ("flags (! stop, ? warn)", "flags !stop ?warn", "flags")
+                         if len(h) <= flags_w or h == "flags")
+            head = f"  {pad('series', key_w)} {'n':>5} {'model':<7} {'score':>5}  {pad(flags, flags_w)}"
+            return Strip([Segment(head, Style(bold=True, underline=True))]).crop(0, width).extend_cell_length(width)
         row = y - 1 + int(self.scroll_y)
         session = self.session
         if row >= len(session.view):
@@ -99,20 +126,23 @@ class SeriesList(ScrollView, can_focus=True):
         s = int(session.view[row])
         results = session.results
         status = session.status[s]
-        chosen = results.chosen[s]
-        name = results.names[chosen] if chosen >= 0 else "—"
+        model = session.model_of(s)
+        name = results.names[model] if model >= 0 else "—"
         score = results.score[s]
         score_text = f"{score * 100:.0f}%" if score == score else "—"
-        label = session.label(s)
-        label = label if len(label) <= key_w else label[:key_w - 1] + "…"
         severity = session.severity(s)
-        flag_style = STOP if severity == "stop" else WARN if severity else DIM
         mark_style = DONE if status in ("accepted", "overridden") else STOP if status == "stale" else DIM
         segments = [
             Segment(f"{STATUS_MARK[status]} ", mark_style),
-            Segment(f"{label:<{key_w}} {results.data.counts[s]:>5} {name:<7} {score_text:>5}  "),
-            Segment(f"{short_flags(session.flag_codes(s), flags_w) or '—':<{flags_w}}", flag_style),
+            Segment(f"{key_label(session.label_parts(s), key_w)} {results.data.counts[s]:>5} {name:<7} "
+                    f"{score_text:>5}  "),
         ]
+        if s == session.current and session.news is not None:  # someone else just decided it: say who
+            lead = "left list: " if session.waiting else "← "
+            segments.append(Segment(pad(lead + describe(session.news, when=False), flags_w), NEWS))
+        else:
+            flag_style = STOP if severity == "stop" else WARN if severity else DIM
+            segments.append(Segment(pad(short_flags(session.flag_codes(s), flags_w) or "—", flags_w), flag_style))
         strip = Strip(segments).crop(0, width).extend_cell_length(width)
         if row == session.cursor:
             strip = strip.apply_style(CURSOR if self.has_focus else Style(bgcolor="#303030"))

@@ -1,0 +1,60 @@
+"""The shape and range flags of any one candidate of a series, not only the chosen one.
+
+``diagnose`` checks the chosen curve of every series at once; an analyst about to
+override wants the same checks for the curve they are about to pick.  This evaluates
+one candidate through ``evidence.curve`` (whatever its family) on a grid over the
+observed prices, with the thresholds and the grid ``diagnose`` uses.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..fit.results import Results
+from .evidence import curve
+from .flags import CODES, GRID
+from .thresholds import Thresholds
+
+FINE = 401  # points for the lowest volume (diagnose refines its grid minimum; a finer grid does the same job)
+
+
+@dataclass(frozen=True)
+class CandidateChecks:
+    """``codes``: the flags this candidate would raise (``rising``, ``below-zero``, ``outside-range``,
+    in the order of ``flags.CODES``); the numbers behind them: the share of the observed range where
+    volume rises with price, and the lowest volume over the range (or at the plan price) and where."""
+
+    codes: tuple[str, ...]
+    rising_share: float
+    lowest_volume: float
+    lowest_at: float
+
+
+def candidate_checks(results: Results, s: int, c: int, thresholds: Thresholds = Thresholds()) -> CandidateChecks:
+    """The flags candidate ``c`` of series ``s`` would carry if it were the one put into the plan."""
+    if not results.available[s, c]:
+        return CandidateChecks((), math.nan, math.nan, math.nan)
+    mid, half = float(results.mid[s]), float(results.half[s])
+    prices = mid + half * np.linspace(-1.0, 1.0, GRID)
+    share = 0.0
+    if half > 0:
+        step = half * 1e-6  # slope by a central difference: its sign is what counts
+        slope = curve(results, s, c, prices + step) - curve(results, s, c, prices - step)
+        rising = slope > 0
+        share = float(np.count_nonzero(rising[1:] & rising[:-1])) / (GRID - 1)
+    fine = mid + half * np.linspace(-1.0, 1.0, FINE)
+    volume = curve(results, s, c, fine)
+    low = int(np.nanargmin(volume)) if np.isfinite(volume).any() else 0
+    lowest, lowest_at = float(volume[low]), float(fine[low])
+    plan = float(results.plan_price[s])
+    planned = math.isfinite(plan)
+    if planned and results.plan_volume[s, c] < min(lowest, 0.0):
+        lowest, lowest_at = float(results.plan_volume[s, c]), plan
+    raised = {
+        "rising": share > thresholds.rising_share,
+        "below-zero": lowest < 0,
+        "outside-range": planned and not results.price_lo[s] <= plan <= results.price_hi[s],
+    }
+    return CandidateChecks(tuple(code for code in CODES if raised.get(code)), share, lowest, lowest_at)

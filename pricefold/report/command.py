@@ -1,0 +1,268 @@
+"""``pricefold report``: one self-contained HTML page of a sign-off, for people without a terminal.
+
+Reads the results (a JSON or Parquet file, or a Dask results folder), the ledger (default as in
+triage) and, for the charts, the data the results name (refitted as triage does; when the data
+changed or are missing, the charts show the curves without observations).  Writes the page to a
+temporary file and renames it: a failed run leaves an earlier report as it was.
+"""
+from __future__ import annotations
+
+import sys
+from dataclasses import dataclass
+from datetime import datetime, timezone
+from pathlib import Path
+
+from fitcore.errors import DataError, SettingsError
+
+INSTALL_HINT = "the report's charts need matplotlib: pip install 'pricefold[report]'"
+REFIT_ROWS = 50_000_000  # as triage: above this many rows the data are not read for the charts
+
+
+def add_parser(commands) -> None:
+    parser = commands.add_parser(
+        "report", help="write a self-contained HTML sign-off report of results and their ledger",
+        description="One HTML page for the people who approve the plan: the summary, the decisions, and every "
+                    "exception in full with its chart. The page loads nothing from anywhere and prints on A4 or "
+                    "Letter.")
+    parser.add_argument("results", type=Path, metavar="RESULTS", help="a .json or .parquet results file or folder")
+    parser.add_argument("--ledger", type=Path, default=None, metavar="FILE",
+                        help="the sign-off ledger (default: <results name>.ledger.jsonl beside it)")
+    parser.add_argument("-o", "--output", type=Path, required=True, metavar="REPORT.html", help="the page to write")
+    parser.add_argument("--title", default=None, metavar="TEXT", help="the page's title (default: from the results)")
+
+
+def read_ledger(path: Path, key: bytes | None):
+    """The ledger as the report reads it (``fitcore.ledger.Ledger``, verified as read): its state,
+    head, first problem and records — for a broken ledger, those after the break too."""
+    from fitcore.ledger import Ledger
+    from fitcore.ledger.signoff import LedgerView
+    book = Ledger(path, key)
+    if not book.exists:
+        return LedgerView(str(path), "absent")
+    records = tuple(book.records)
+    kind = next((r.get("digest_kind") for r in reversed(records)), None)
+    if book.problem is not None:
+        return LedgerView(str(path), book.state, records, book.head_text if records else None, str(book.problem),
+                          kind)
+    remark = (f"The ledger ends in an interrupted append ({book.notes[0]}); it is left out, and the next append "
+              "sets it aside." if book.notes else None)
+    return LedgerView(str(path), book.state, records, book.head_text if records else None, remark, kind)
+
+
+@dataclass(frozen=True)
+class Book:
+    """The results to report (``results``, ``diagnosis``, ``header``) and, for the charts, either a
+    fit of the data (``fit``: JSON results are that fit) or the ``source`` to fit the charted series
+    from; neither when the data are missing or changed (``data_note`` says which)."""
+
+    results: object
+    diagnosis: object
+    header: dict
+    fit: object
+    data_note: str | None
+    source: object = None
+
+
+def fit_subset(source, keys: list[dict]):
+    """A fit of only the series ``keys`` name, from the source's data.
+
+    Each series is fitted on its own rows alone (folds are dealt per series, whatever else shares
+    the file), so its numbers are those of the whole fit, for a fraction of the time.
+    """
+    import numpy as np
+
+    from fitcore import fit_batch
+    from fitcore.data.dataset import from_columns
+    from fitcore.data.keys import SeriesKeys
+    from fitcore.data.loader import load
+    from fitcore.data.plan import plan_prices
+    data = load(source.data, source.columns)
+    where = SeriesKeys.of(data).indices_of(keys)
+    where = np.unique(where[where >= 0])
+    counts = (data.offsets[where + 1] - data.offsets[where]).astype(np.int64)
+    rows = np.repeat(data.offsets[where] - np.cumsum(np.r_[0, counts[:-1]]), counts) + np.arange(int(counts.sum()))
+
+    def pick(array):
+        return None if array is None else array[rows]
+    subset = from_columns({name: np.repeat(data.keys[name][where], counts) for name in data.key_names},
+                          data.price[rows], data.volume[rows], weight=pick(data.weight), date=pick(data.date),
+                          line=pick(data.line), source=data.source)
+    plan = plan_prices(subset, source.plan_file, partial=True) if source.plan_file else source.plan_price
+    return fit_batch(subset, source.settings, plan_price=plan)
+
+
+def open_book(path: Path) -> Book:
+    """Read the results; refit their data for the charts when it is still what they were fitted on."""
+    from fitcore.data.columns import file_sha256
+    from fitcore.results.read import read_header, read_results
+    from fitcore.results.stored import stored_results
+    from tui.factory import fit_source, is_stored, source_from_results
+
+    stored = is_stored(path)
+    header = {k: v for k, v in read_header(path).items() if k != "key_columns"} if stored else read_results(path)[0]
+    data = Path(str(header.get("input", {}).get("path", "")))
+    why = None
+    if not data.exists():
+        why = f"the data file {data} the results were fitted from is missing"
+    elif file_sha256(data) != header.get("input", {}).get("sha256"):
+        why = f"the data file {data} changed since the results were written"
+    elif (header.get("input", {}).get("rows") or 0) > REFIT_ROWS:
+        why = f"the data file {data} is too large to read for the charts"
+    if not stored:  # a JSON results file holds no window coefficients: its numbers come from refitting its data
+        if why:
+            raise DataError(f"{why}; a JSON results file is reported by refitting its data (write Parquet results "
+                            "to report without them)", path=str(path))
+        results, diagnosis = fit_source(source_from_results(path, check_data=False))
+        return Book(results, diagnosis, header, results, None)
+    results, diagnosis = stored_results(path)
+    source = None if why else source_from_results(path, check_data=False)
+    return Book(results, diagnosis, header, None, why and why[0].upper() + why[1:] + ".", source)
+
+
+def guard_output(output: Path, inputs: list[Path]) -> None:
+    """Never write over an input, and never over a file this command did not make."""
+    from .page import GENERATOR
+    if output.suffix.lower() not in (".html", ".htm"):
+        raise SettingsError(f"expected -o to name an .html file, got {output.name!r}")
+    target = output.resolve()
+    for item in inputs:
+        item = item.resolve()
+        if target == item or item in target.parents:
+            raise SettingsError(f"-o {output} would write over an input of this report ({item})")
+    if target.exists():
+        with open(target, "rb") as handle:
+            start = handle.read(1024)
+        if f'<meta name="generator" content="{GENERATOR}'.encode() not in start:
+            raise SettingsError(f"{output} exists and was not written by pricefold report; "
+                                "choose another name or move it away")
+
+
+PARALLEL_FROM = 40  # charts: from this many on, two processes draw them (matplotlib spends 30–60 ms a chart)
+_CHARTS = None  # the Charts a forked worker draws from (inherited, not pickled)
+
+
+def _draw_some(series: list[int]) -> list:
+    return [_CHARTS.draw(s) for s in series]
+
+
+class Charts:
+    """Series index → its chart (``Drawn``), from the fit of the data where it matches the results.
+
+    Every chart is drawn up front (``draw_all``); with many, two forked processes share the work,
+    each on its own matplotlib figure, since one chart is tens of milliseconds of Python.
+    """
+
+    def __init__(self, book: Book, signoff, series) -> None:
+        from fitcore.data.keys import SeriesKeys
+        self.book, self.signoff, self.maker = book, signoff, None
+        self.series = [int(s) for s in series]
+        self._found, self._drawn, self.fit = {}, {}, book.fit
+        if book.source is not None and self.series:  # fit the charted series only; find them in that fit
+            keys = [book.results.data.key_of(s) for s in self.series]
+            self.fit = fit_subset(book.source, keys)
+            self._found = dict(zip(self.series, SeriesKeys.of(self.fit.data).indices_of(keys).tolist()))
+
+    def draw_all(self) -> None:
+        global _CHARTS
+        import os
+        workers = min(2, len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1)
+        if len(self.series) < PARALLEL_FROM or workers < 2:
+            self._drawn = {s: self.draw(s) for s in self.series}
+            return
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+        from concurrent.futures.process import BrokenProcessPool
+        halves = [self.series[k::workers] for k in range(workers)]
+        _CHARTS = self
+        try:
+            with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
+                for half, drawn in zip(halves, pool.map(_draw_some, halves)):
+                    self._drawn.update(zip(half, drawn))
+        except (BrokenProcessPool, OSError):  # no processes to be had here: draw them all in this one
+            self._drawn = {s: self.draw(s) for s in self.series}
+        finally:
+            _CHARTS = None
+
+    def __call__(self, s: int):
+        return self._drawn[s] if s in self._drawn else self.draw(s)
+
+    def draw(self, s: int):
+        from fitcore.ledger.signoff import STATUSES
+
+        from .charts import ChartInput, ChartMaker, Drawn
+        from .page import esc
+        from .tables import label
+        if self.maker is None:
+            self.maker = ChartMaker()
+        book, signoff = self.book, self.signoff
+        standing, proposal = signoff.model_index(s), int(book.results.chosen[s])
+        if standing < 0 and proposal < 0:
+            return Drawn("")
+        fit, at, note = book.results, s, book.data_note or ""
+        if self.fit is book.results:
+            rows = True
+        elif self.fit is not None:
+            found = self._found.get(s, -1)
+            same = found >= 0 and self.fit.data.fingerprint_of(found) == book.results.data.fingerprint_of(s)
+            fit, at, rows = (self.fit, found, True) if same else (book.results, s, False)
+            note = "" if same else "this series' rows changed since the results were written"
+        else:
+            rows = False
+        words = {"accepted": "accepted", "overridden": "override", "held": "proposal, held",
+                 "pending": "proposal", "stale": "signed on earlier data"}[STATUSES[signoff.status[s]]]
+        chart = ChartInput(fit, at, rows and bool(fit.rows_loaded), standing, proposal, words)
+        return self.maker.draw(chart, esc(f"Demand curve of {label(book.results, s)}"), note, salt=f"s{s}")
+
+
+def version() -> str:
+    from importlib.metadata import PackageNotFoundError
+    from importlib.metadata import version as installed
+    try:
+        return installed("pricefold")
+    except PackageNotFoundError:
+        return "(source)"
+
+
+def run(args) -> int:
+    try:
+        import matplotlib  # noqa: F401 - only to say at once what is missing
+    except ImportError:
+        raise SettingsError(INSTALL_HINT) from None
+    from fitcore.ledger.signoff import STATUSES, gather
+    from tui.factory import default_ledger
+
+    __version__ = version()
+    from ..ledger_cli import ledger_key
+    from ..ledger_export import write_text
+    from .exceptions import exceptions
+    from .page import CAUTION, Report, alerts, document, esc, summary
+    from .tables import decisions, people
+
+    if not args.results.exists():
+        raise DataError("file not found", path=str(args.results))
+    ledger_path = args.ledger or default_ledger(args.results)
+    guard_output(args.output, [args.results, ledger_path])
+    book = open_book(args.results)
+    guard_output(args.output, [Path(str(book.header.get("input", {}).get("path", args.results)))])
+    view = read_ledger(ledger_path, ledger_key())
+    signoff = gather(book.results, book.diagnosis, list(view.records))
+    decided, flagged, more = signoff.detailed()
+    charts = Charts(book, signoff, [*decided.tolist(), *flagged.tolist()])
+    charts.draw_all()
+    made = datetime.now(timezone.utc)
+    title = args.title or f"Sign-off report: {args.results.name}"
+    report = Report(title, made, str(args.results), book.header, signoff, view, book.data_note,
+                    charts, __version__)
+    detailed = {int(s) for s in decided} | {int(s) for s in flagged}
+    body = (f"<header><h1>{esc(title)}</h1><p class=\"muted\">Made {made.strftime('%Y-%m-%d %H:%M UTC')} by "
+            f"pricefold {esc(__version__)} from <code>{esc(args.results)}</code> and the ledger "
+            f"<code>{esc(ledger_path)}</code>.</p></header>{alerts(report)}{summary(report)}{people(report)}"
+            f"{decisions(report, detailed)}{exceptions(report, decided, flagged, more)}"
+            f"<footer class=\"caution\"><p>{esc(CAUTION)}</p></footer>")
+    page = document(report, body)
+    write_text(args.output, page)
+    counts = signoff.counts()
+    print(f"report of {counts['total']:,} series ({', '.join(f'{counts[s]:,} {s}' for s in STATUSES if counts[s])}; "
+          f"ledger {view.state}) → {args.output} ({len(page.encode('utf-8')) / 1e6:.1f} MB)", file=sys.stderr)
+    return 0
+

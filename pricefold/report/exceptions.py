@@ -1,0 +1,124 @@
+"""Exceptions in full: one section per overridden, held, noted or stop-flagged series.
+
+Each holds the chart (observations, the curve that stands, the proposal when it differs, the
+95% band, the plan price), the candidate table, the flags with their sentences and the series'
+ledger history.
+"""
+from __future__ import annotations
+
+import math
+
+from fitcore.ledger.signoff import STATUSES, Signoff
+
+from .page import Report, cell, elasticity, esc, interval, num, price, when
+from .tables import label
+
+
+def candidates(signoff: Signoff, s: int) -> str:
+    results = signoff.results
+    standing, proposal = signoff.model_index(s), int(results.chosen[s])
+    planned = math.isfinite(float(results.plan_price[s]))
+    rows, missing = [], []
+    for c, name in enumerate(results.names):
+        if not results.available[s, c]:
+            missing.append(f"<li><code>{esc(name)}</code>: {esc(results.reason_text(s, c))}</li>")
+            continue
+        marks = [word for word, hit in (("stands", c == standing), ("proposal", c == proposal)) if hit]
+        volume = (f"{num(results.plan_volume[s, c])} <span class=\"muted\">"
+                  f"({interval(results.plan_lo[s, c], results.plan_hi[s, c])})</span>" if planned else "—")
+        mark = f" <strong>({', '.join(marks)})</strong>" if marks else ""
+        rows.append("<tr>" + cell("candidate", esc(name) + mark)
+                    + cell("CV MSE ± SE", f"{num(results.cv_mse[s, c])} ± {num(results.cv_se[s, c])}", "num")
+                    + cell("Q²", _share(results.q2[s, c]), "num") + cell("R²", _share(results.r2[s, c]), "num")
+                    + cell("plan volume (95% PI)", volume, "num")
+                    + cell("elasticity", elasticity(results.plan_elasticity[s, c]) if planned else "—", "num")
+                    + "</tr>")
+    table = ("<div class=\"wide\"><table class=\"cards-small\"><thead><tr><th>candidate</th>"
+             "<th class=\"num\">CV MSE ± SE</th><th class=\"num\">Q²</th><th class=\"num\">R²</th>"
+             "<th class=\"num\">plan volume (95% PI)</th>"
+             f"<th class=\"num\">elasticity</th></tr></thead><tbody>{''.join(rows)}</tbody></table></div>")
+    if missing:
+        table += f"<p class=\"muted\">Not available:</p><ul class=\"muted\">{''.join(missing)}</ul>"
+    return table
+
+
+def _share(x) -> str:
+    x = float(x)
+    return f"{x * 100:.0f}%".replace("-", "−") if math.isfinite(x) else "n/a"
+
+
+def flags(signoff: Signoff, s: int) -> str:
+    listed = signoff.diagnosis.flags_of(int(s))
+    if not listed:
+        return "<p>No flags.</p>"
+    listed.sort(key=lambda f: f["severity"] != "stop")
+    items = "".join(f"<li><span class=\"sev-{f['severity']}\">{f['severity']} · {esc(f['code'])}</span>: "
+                    f"{esc(f['message'])}</li>" for f in listed)
+    return f"<ul class=\"flags\">{items}</ul>"
+
+
+def history(signoff: Signoff, s: int) -> str:
+    records = signoff.history(s)
+    if not records:
+        return "<p>No decisions recorded.</p>"
+    items = []
+    for r in records:
+        action = esc(r.get("action"))
+        model = esc(r.get("model") or "")
+        if r.get("action") == "override":
+            model = f"{model} instead of {esc(r.get('proposed'))}"
+        how = " <span class=\"muted\">(bulk)</span>" if signoff.is_bulk(r) else ""
+        note = f" — <span class=\"note\">{esc(r['note'])}</span>" if r.get("note") else ""
+        items.append(f"<li value=\"{int(r['seq']) if isinstance(r.get('seq'), int) else 0}\">{when(r.get('at'))} "
+                     f"{esc(r.get('analyst'))}: <strong>{action}</strong> {model}{how}{note}</li>")
+    return f"<ol class=\"history\">{''.join(items)}</ol>"
+
+
+def chart_figure(drawn) -> str:
+    """The chart and, under it, its key in HTML (line samples drawn by the style sheet)."""
+    if not drawn.svg:
+        return "<p class=\"muted\">No chart: no candidate could be fitted.</p>"
+    keys = [(kind, text) for kind, text in (
+        ("standing", drawn.standing), ("proposal", drawn.proposal),
+        ("band", "95% prediction band" if drawn.band else ""),
+        ("plan", f"plan price {drawn.plan}" if drawn.plan else ""), ("points", "observed" if drawn.points else ""))
+        if text]
+    key = " ".join(f"<span class=\"legend-item\"><span class=\"swatch {kind}\"></span>{esc(text)}</span>"
+                   for kind, text in keys)
+    missing = f" No observations or band: {esc(drawn.note)}." if drawn.note and not drawn.points else ""
+    return f"<figure class=\"chart\">{drawn.svg}<figcaption>{key}{missing}</figcaption></figure>"
+
+
+def section(report: Report, s: int) -> str:
+    signoff = report.signoff
+    results = signoff.results
+    status = STATUSES[signoff.status[s]]
+    plan = float(results.plan_price[s])
+    c = signoff.model_index(s)
+    facts = [f"status <strong class=\"st-{status}\">{status}</strong>", f"{num(results.data.counts[s])} observations",
+             f"prices {price(results.price_lo[s])}–{price(results.price_hi[s])}"]
+    if math.isfinite(plan) and c >= 0:
+        facts.append(f"at the plan price {price(plan)}: {num(results.plan_volume[s, c])} "
+                     f"({interval(results.plan_lo[s, c], results.plan_hi[s, c])}) under {esc(results.names[c])}")
+        if not results.price_lo[s] <= plan <= results.price_hi[s]:
+            facts.append("<span class=\"sev-stop\">outside the observed prices: an extrapolation</span>")
+    figure = chart_figure(report.chart(s))
+    return (f"<article class=\"exception\" id=\"s{s}\"><h3>{esc(label(results, s))}</h3>"
+            f"<p class=\"meta\">{' · '.join(facts)}</p>{figure}<h4>Candidates</h4>{candidates(signoff, s)}"
+            f"<h4>Flags</h4>{flags(signoff, s)}<h4>Ledger</h4>{history(signoff, s)}</article>")
+
+
+def exceptions(report: Report, decided, flagged, more: int) -> str:
+    signoff = report.signoff
+    counts = signoff.counts()
+    lead = (f"<p>{num(counts['overridden'])} overridden, {num(counts['held'])} held, "
+            f"{num(int(signoff.noted.sum()))} with notes; then {num(len(flagged))} series with a stop flag, most in "
+            "need of attention first.")
+    if more:
+        lead += (f" <strong>{num(more)} more stop-flagged series are not shown in detail</strong>: they are listed "
+                 "in the decisions table.")
+    lead += "</p>"
+    parts = [section(report, int(s)) for s in decided] + [section(report, int(s)) for s in flagged]
+    if not parts:
+        parts = ["<p>No overridden, held, noted or stop-flagged series.</p>"]
+    return f"<section id=\"exceptions\"><h2>Exceptions in full</h2>{lead}{''.join(parts)}</section>"

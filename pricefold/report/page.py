@@ -1,0 +1,196 @@
+"""The report's HTML page: the document and its security policy, text and number formats, the summary.
+
+Everything from data or notes passes through ``esc`` (control characters replaced, then HTML
+escaped); numbers through ``num``/``price``.  The page loads nothing: its one style sheet and its
+one small script are inline, allowed by their SHA-256 hashes in the content-security policy, and
+the charts are inline SVG styled by attributes.
+"""
+from __future__ import annotations
+
+import base64
+import hashlib
+import html
+import math
+from dataclasses import dataclass
+from datetime import datetime, timezone
+from importlib import resources
+from typing import Callable
+
+from fitcore.ledger.signoff import LedgerView, Signoff, flag_table
+from fitcore.review.flags import FLAGS
+from fitcore.review.sentences import fmt, money
+from fitcore.text import clean
+
+GENERATOR = "pricefold report"
+MEANING = {code: meaning for code, _, meaning in FLAGS}
+CAUTION = ("Curves fitted to observational sales data confound price with promotions, seasons and stock-outs; "
+           "predictions outside the observed price range are extrapolations. pricefold proposes; the analyst "
+           "decides and signs.")
+
+
+@dataclass(frozen=True)
+class Report:
+    """What the page is made of.  ``chart(s)`` gives series ``s``'s chart (``charts.Drawn``);
+    ``data_note`` says why every chart lacks its observations (None when the data are there)."""
+
+    title: str
+    generated: datetime
+    results_path: str
+    header: dict
+    signoff: Signoff
+    ledger: LedgerView
+    data_note: str | None
+    chart: Callable[[int], object]
+    version: str = ""
+
+
+def esc(text) -> str:
+    """Users' text made safe for HTML: control characters replaced, markup characters escaped."""
+    return html.escape(clean("" if text is None else str(text)), quote=True)
+
+
+def num(x) -> str:
+    """A quantity with thousands separators and a true minus sign: 3,912 · −268.9 · 0.0372."""
+    return esc(fmt(None if x is None else float(x))).replace("-", "−")
+
+
+def interval(lo, hi) -> str:
+    """'877–1,205', or '−294 to −244' when a bound is negative (a dash between minus signs misleads)."""
+    joiner = " to " if (lo is not None and float(lo) < 0) or (hi is not None and float(hi) < 0) else "–"
+    return f"{num(lo)}{joiner}{num(hi)}"
+
+
+def price(x) -> str:
+    return esc(money(None if x is None else float(x)))
+
+
+def elasticity(x) -> str:
+    if x is None or not math.isfinite(float(x)):
+        return "n/a"
+    return f"{float(x):.2f}".replace("-", "−")
+
+
+def when(stamp, zone: bool = True) -> str:
+    """An ISO time as '2026-12-02 14:02 UTC' (as written when it does not parse)."""
+    try:
+        moment = datetime.fromisoformat(str(stamp).replace("Z", "+00:00")).astimezone(timezone.utc)
+    except ValueError:
+        return esc(stamp)
+    return moment.strftime("%Y-%m-%d %H:%M" + (" UTC" if zone else ""))
+
+
+def cell(label: str, content, kind: str = "", sort: str | None = None) -> str:
+    """One table cell; ``label`` names it when a phone shows the row as a card, ``sort`` is the value
+    the page's script sorts by."""
+    extra = (f" class=\"{kind}\"" if kind else "") + (f" data-sort=\"{sort}\"" if sort is not None else "")
+    return f"<td{extra} data-label=\"{label}\">{content}</td>"
+
+
+def asset(name: str) -> str:
+    return resources.files(__package__).joinpath(name).read_text(encoding="utf-8")
+
+
+def _hash(text: str) -> str:
+    return "'sha256-" + base64.b64encode(hashlib.sha256(text.encode("utf-8")).digest()).decode("ascii") + "'"
+
+
+def document(report: Report, body: str) -> str:
+    """The whole page: a policy that lets nothing load and only this page's own style and script run."""
+    style, script = asset("report.css"), asset("table.js")
+    policy = (f"default-src 'none'; style-src {_hash(style)}; script-src {_hash(script)}; img-src 'none'; "
+              "font-src 'none'; connect-src 'none'; base-uri 'none'; form-action 'none'")
+    return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+            f"<meta http-equiv=\"Content-Security-Policy\" content=\"{policy}\">\n"
+            "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
+            "<meta name=\"referrer\" content=\"no-referrer\">\n"
+            f"<meta name=\"generator\" content=\"{GENERATOR} {esc(report.version)}\">\n"
+            f"<title>{esc(report.title)}</title>\n<style>{style}</style>\n</head>\n<body>\n{body}\n"
+            f"<script>{script}</script>\n</body>\n</html>\n")
+
+
+def alerts(report: Report) -> str:
+    """What must be read first: a ledger that cannot be trusted, charts without their data."""
+    view, out = report.ledger, []
+    if view.state == "broken":
+        out.append(f"<div class=\"alert\" role=\"alert\"><strong>The ledger's chain is broken:</strong> "
+                   f"{esc(view.problem)}. Its records may have been edited, removed or reordered, so the decisions "
+                   f"below cannot be trusted until it is repaired (<code>pricefold ledger verify "
+                   f"{esc(view.path)}</code> lists every problem).</div>")
+    elif view.state == "unverifiable":
+        out.append("<div class=\"alert\" role=\"alert\"><strong>The ledger could not be verified:</strong> it is "
+                   "keyed (HMAC-SHA-256) and this report was made without its key (PRICEFOLD_LEDGER_KEY), so "
+                   "nobody has checked that its records are as they were written. Make the report again with the "
+                   "key set.</div>")
+    if view.state == "absent":
+        out.append(f"<div class=\"notice\">No ledger at <code>{esc(view.path)}</code>: no decision has been "
+                   "recorded, so every series is pending.</div>")
+    if view.problem and view.state == "intact":
+        out.append(f"<div class=\"notice\">{esc(view.problem)}</div>")
+    if report.data_note:
+        out.append(f"<div class=\"notice\">{esc(report.data_note)} The charts show the fitted curves without the "
+                   "observations or the prediction band.</div>")
+    return "\n".join(out)
+
+
+def _facts(pairs) -> str:
+    return "<dl class=\"facts\">" + "".join(f"<dt>{k}</dt><dd>{v}</dd>" for k, v in pairs) + "</dl>"
+
+
+def _settings(header: dict, names: list[str]) -> list[tuple[str, str]]:
+    settings = header.get("settings", {})
+    data = header.get("input", {})
+    cands = ", ".join(names)
+    folds = settings.get("folds")
+    fold_text = "leave-one-out" if folds == "loo" else f"{esc(folds)}, {esc(settings.get('fold_order'))}"
+    if settings.get("fold_order") == "shuffled" and folds != "loo":
+        fold_text += f" (seed {esc(settings.get('seed'))})"
+    plan = settings.get("plan") or {}
+    plan_text = (f"per series from <code>{esc(plan['file'])}</code>" if plan.get("file") else
+                 price(plan["price"]) + " for every series" if plan.get("price") is not None else "none")
+    rows, rejected = data.get("rows"), data.get("rejected")
+    return [("Data file", f"<code>{esc(data.get('path'))}</code>"),
+            ("Data digest", f"<span class=\"digest\">SHA-256 {esc(data.get('sha256'))}</span>"),
+            ("Rows", f"{num(rows)} read, {num(rejected or 0)} rejected" if rows is not None else "n/a"),
+            ("Candidates", esc(cands)), ("Folds", fold_text), ("Rule", esc(settings.get("rule"))),
+            ("Interval", f"{float(settings.get('level', 0.95)) * 100:.0f}% prediction interval"),
+            ("Plan price", plan_text)]
+
+
+def _ledger_facts(report: Report) -> list[tuple[str, str]]:
+    view = report.ledger
+    words = {"intact": "intact: every record's digest and link checked",
+             "broken": "<strong class=\"sev-stop\">broken</strong>",
+             "unverifiable": "<strong class=\"sev-stop\">not verified</strong> (keyed, no key given)",
+             "absent": "no ledger yet"}
+    kind = {"hmac-sha256": "keyed HMAC-SHA-256", "sha256": "SHA-256"}.get(view.kind or "", "")
+    pairs = [("Ledger file", f"<code>{esc(view.path)}</code>"),
+             ("Chain", words.get(view.state, esc(view.state)) + (f" ({kind})" if kind else "")),
+             ("Head", f"<span class=\"digest\">{esc(view.head)}</span>" if view.head else "none"),
+             ("Records", num(len(view.records)))]
+    if report.signoff.unmatched:
+        pairs.append(("Other series", f"{num(report.signoff.unmatched)} records name series that are not in "
+                                      "these results"))
+    return pairs
+
+
+def summary(report: Report) -> str:
+    signoff = report.signoff
+    counts = signoff.counts()
+    cards = [("series", counts["total"], ""), ("accepted", counts["accepted"],
+              f" ({num(counts['carried'])} carried)" if counts["carried"] else ""),
+             ("overridden", counts["overridden"], ""), ("held", counts["held"], ""),
+             ("pending", counts["pending"], ""), ("stale", counts["stale"], "")]
+    card_html = "".join(f"<li><span class=\"n\">{num(n)}</span>{word}{extra}</li>" for word, n, extra in cards)
+    flags = flag_table(signoff)
+    flag_rows = "".join(f"<tr><td><code>{code}</code></td><td class=\"sev-{sev}\">{sev}</td>"
+                        f"<td class=\"num\">{num(n)}</td><td>{esc(MEANING[code])}</td></tr>" for code, sev, n in flags)
+    flag_html = ("<div class=\"wide\"><table><thead><tr><th>flag</th><th>severity</th><th class=\"num\">series</th>"
+                 f"<th>meaning</th></tr></thead><tbody>{flag_rows}</tbody></table></div>"
+                 if flags else "<p>No series carries a flag.</p>")
+    clean_count = int((~signoff.diagnosis.raised.any(axis=1)).sum())
+    return (f"<section id=\"summary\"><h2>Summary</h2><ul class=\"cards\">{card_html}</ul>"
+            f"<p class=\"caution\">{esc(CAUTION)}</p>"
+            f"<div class=\"grid2\"><div><h3>Data and settings</h3>"
+            f"{_facts(_settings(report.header, signoff.results.names))}</div>"
+            f"<div><h3>Ledger</h3>{_facts(_ledger_facts(report))}</div></div>"
+            f"<h3>Flags</h3><p>{num(clean_count)} series carry no flag.</p>{flag_html}</section>")

@@ -1,0 +1,132 @@
+"""Overriding with the numbers on screen (issue case 3): the dialog's numbers are those of
+``pricefold show`` and of the results file, and after an override everything shows the model that stands."""
+from __future__ import annotations
+
+import csv
+import json
+import shutil
+from pathlib import Path
+
+import pytest
+
+from fitcore.review.evidence import runner_up
+from fitcore.review.sentences import fmt
+from pricefold.cli import main
+from tests.tui.conftest import ANA, screen_text, started, until
+from tui.app import TriageApp
+from tui.factory import open_session, source_from_results
+from tui.screens.override import OverrideDialog
+
+SAMPLE = Path(__file__).parents[2] / "sample"
+LEMONS = {"product": "lemons 500 g", "region": "East"}
+
+
+@pytest.fixture
+def fitted(tmp_path):
+    data = tmp_path / "wholesale.csv"
+    shutil.copy(SAMPLE / "wholesale.csv", data)
+    out = tmp_path / "results.json"
+    assert main(["fit", str(data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
+                 "-o", str(out), "--quiet"]) == 0
+    return out
+
+
+def show_lines(out: Path, capsys) -> list[str]:
+    capsys.readouterr()
+    assert main(["show", str(out), "--product", LEMONS["product"], "--key", f"region={LEMONS['region']}"]) == 0
+    return capsys.readouterr().out.splitlines()
+
+
+async def override_lemons(app, pilot, ledger_path: Path) -> tuple[int, str]:
+    session = await started(app, pilot)
+    s = next(int(i) for i in session.view if session.results.data.key_of(int(i)) == LEMONS)
+    session.cursor = int((session.view == s).nonzero()[0][0])
+    app.screen.refresh_all()
+    await pilot.pause()
+    await pilot.press("o")
+    await pilot.pause()
+    return s, session.results.names[runner_up(session.results, s)]
+
+
+async def test_the_override_dialog_shows_every_candidate_as_pricefold_show_does(fitted, tmp_path, capsys):
+    ledger_path = tmp_path / "ledger.jsonl"
+    lines = show_lines(fitted, capsys)  # before the app starts: it captures printing while it runs
+    app = TriageApp(lambda progress: open_session(source_from_results(fitted), ledger_path, ANA, None, progress))
+    async with app.run_test(size=(160, 50)) as pilot:
+        s, runner = await override_lemons(app, pilot, ledger_path)
+        dialog = app.screen
+        assert isinstance(dialog, OverrideDialog)
+        text = screen_text(app)
+        rows = {row.name: row for row in dialog.rows}
+        # pricefold show: "✓ poly1          117.9      15.53    98%    98%" per available candidate
+        shown = [line.split() for line in lines if line[2:].startswith(("poly", "loglog"))]
+        candidates = [parts[1:] if parts[0] == "✓" else parts for parts in shown]
+        available = [parts for parts in candidates if parts[1] != "unavailable:"]
+        assert sorted(rows) == sorted(parts[0] for parts in available)
+        options = dialog.query_one("#dialog-options")
+        prompts = {options.get_option_at_index(i).id: options.get_option_at_index(i).prompt.plain.split("\n")[0]
+                   for i in range(options.option_count)}
+        for name, cv, se, q2, _ in available:
+            assert (rows[name].cv_mse, rows[name].cv_se, rows[name].q2) == (cv, se, q2)
+            assert prompts[name].replace("✓", "").split()[:4] == [name, cv, se, q2]
+            assert rows[name].volume in prompts[name] and rows[name].interval in prompts[name]
+        assert prompts[runner] in text  # on screen as built
+        # the proposal's plan numbers, as show prints them
+        plan = next(line for line in lines if line.startswith("plan price"))
+        proposed = next(row for row in dialog.rows if row.proposed)
+        assert f"volume {proposed.volume} (95% prediction interval {proposed.interval})" in plan
+        assert f"elasticity {proposed.elasticity}" in plan
+        # every candidate's plan volume as the results file holds it
+        record = next(r for r in json.loads(fitted.read_text())["series"] if r["key"] == LEMONS)
+        for cand in record["candidates"]:
+            if cand["available"]:
+                assert rows[cand["name"]].volume == fmt(cand["plan_volume"])
+        # each candidate's own flags: the proposal's are the series' shape and range flags
+        assert set(proposed.flags) == {f["code"] for f in record["flags"]} & {"rising", "below-zero", "outside-range"}
+        assert options.get_option_at_index(options.highlighted).id == runner  # the runner-up, preselected
+
+
+async def test_after_an_override_the_list_and_the_evidence_show_the_model_that_stands(fitted, tmp_path):
+    ledger_path = tmp_path / "ledger.jsonl"
+    app = TriageApp(lambda progress: open_session(source_from_results(fitted), ledger_path, ANA, None, progress))
+    async with app.run_test(size=(160, 50)) as pilot:
+        s, runner = await override_lemons(app, pilot, ledger_path)
+        session = app.session
+        await pilot.press("enter")
+        await pilot.pause()
+        await pilot.press(*"volumes cannot go below zero", "enter")
+        await pilot.pause()
+        [record] = [json.loads(line) for line in ledger_path.read_text().splitlines()]
+        assert record["model"] == runner and record["proposed"] == "poly1"
+        session.set_filter("all")
+        session.bring(s)
+        app.screen.refresh_all()
+        c = session.results.names.index(runner)
+        await until(pilot, lambda: f"{runner} (override)" in screen_text(app))
+        text = screen_text(app)
+        row = next(line for line in text.splitlines() if line.startswith("↺ lemons 500 g · East"))
+        assert f" {runner} " in row
+        assert f"{runner} predicts volume {fmt(session.results.plan_volume[s, c])}" in text
+        assert f"(95% PI {fmt(session.results.plan_lo[s, c])} to {fmt(session.results.plan_hi[s, c])})" in text
+        assert "Overridden to " + runner in text
+
+
+@pytest.mark.xfail(reason="the export takes an override's interval from its candidate's plan_lo/plan_hi, which no "
+                          "results record carries yet: the JSON writer (fitcore/results/write.py) writes them for the "
+                          "proposal only, and the Parquet reader (fitcore/results/read.py) drops the per-candidate "
+                          "columns", strict=False)
+def test_export_writes_the_overriding_models_interval(fitted, tmp_path):
+    from fitcore import ledger
+    from tui.factory import open_session as open_
+    session = open_(source_from_results(fitted), tmp_path / "ledger.jsonl", ANA)
+    s = next(i for i in range(session.results.n_series) if session.results.data.key_of(i) == LEMONS)
+    c = runner_up(session.results, s)
+    session.decide(session.look(s), "override", model=session.results.names[c], note="checked")
+    assert ledger.verify(tmp_path / "ledger.jsonl") == []
+    out = tmp_path / "decisions.csv"
+    assert main(["ledger", "export", str(tmp_path / "ledger.jsonl"), "--results", str(fitted), "-o", str(out)]) == 0
+    row = next(r for r in csv.DictReader(out.open()) if r["product"] == LEMONS["product"] and r["region"] == "East")
+    assert row["model"] == session.results.names[c]
+    assert float(row["plan_volume"]) == pytest.approx(session.results.plan_volume[s, c], rel=1e-9)
+    assert float(row["plan_lo"]) == pytest.approx(session.results.plan_lo[s, c], rel=1e-9)
+    assert float(row["plan_hi"]) == pytest.approx(session.results.plan_hi[s, c], rel=1e-9)

@@ -1,0 +1,178 @@
+"""What the screen shows at 80×24, 100×30, 120×40 and 200×60: header, rows, evidence, charts."""
+from __future__ import annotations
+
+import csv
+import re
+
+import numpy as np
+import pytest
+from rich.cells import cell_len
+
+from fitcore.data.loader import Columns
+from tests.tui.conftest import ANA, make_app, screen_text, started, until
+from tui.app import TriageApp
+from tui.factory import Source, fit_source, open_session, sample_source
+from tui.session import STATUSES
+from tui.widgets.charts import OBSERVED, STANDING, curve_chart, fold_chart, price_grid
+
+ALL_SIZES = [(80, 24), (100, 30), (120, 40), (200, 60)]
+
+
+@pytest.mark.parametrize("size", ALL_SIZES)
+async def test_the_header_shows_every_count_whole(ledger_path, size):
+    app = make_app(ledger_path)
+    async with app.run_test(size=size) as pilot:
+        session = await started(app, pilot)
+        counts = session.counts()
+        header = "\n".join(screen_text(app).splitlines()[:2])
+        for name in ("attention", *STATUSES):
+            word = {"attention": "(attention|attn)", "pending": "(pending|pend)", "accepted": "(accepted|acc)",
+                    "overridden": "(overridden|ovr)"}.get(name, name)
+            assert re.search(rf"{word} {counts[name]:,}\b", header), (name, header)
+        assert f"{len(session.view)} listed (needs attention, pending; by attention)" in header
+
+
+async def test_rows_stay_distinct_when_names_are_cut(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await started(app, pilot)
+        rows = [line.split("▕")[0] for line in screen_text(app).splitlines() if "truffle" in line]
+        assert len(rows) == 3 and len(set(rows)) == 3
+        assert sorted(row.split("·")[-1].split()[0] for row in rows) == ["East", "North", "South"]
+        assert all("…" in row for row in rows)  # the product name gave way, not the region
+
+
+def wide_source(tmp_path) -> Source:
+    names = ["松茸の天ぷら 大盛り", "café crème brûlée", "family pack 👩\u200d👩\u200d👧", "e\u0301clair x\u0308",
+             "plain"]  # CJK, accents, emoji with joiners, combining marks
+    path = tmp_path / "wide.csv"
+    rng = np.random.default_rng(1)
+    with open(path, "w", newline="", encoding="utf-8") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(["product", "region", "price", "volume"])
+        for name in names:
+            for region in ("東", "West"):
+                for _ in range(30):
+                    price = round(rng.uniform(1, 3), 2)
+                    writer.writerow([name, region, price, round(500 - 100 * price + rng.normal(0, 5))])
+    return Source(data=path, columns=Columns(segments=("region",)))
+
+
+@pytest.mark.parametrize("size", [(80, 24), (120, 40)])
+async def test_rows_align_by_display_cells_whatever_the_names_hold(tmp_path, size):
+    app = make_app(tmp_path / "ledger.jsonl", wide_source(tmp_path))
+    async with app.run_test(size=size) as pilot:
+        session = await started(app, pilot)
+        session.set_filter("all", None)
+        app.screen.refresh_all()
+        await pilot.pause()
+        rows = [line.split("▕")[0] for line in screen_text(app).splitlines()[3:]
+                if re.search(r" 30 (poly|loglog)", line)]
+        assert len(rows) == 10
+        starts = {cell_len(row[:re.search(r" 30 (poly|loglog)", row).start()]) for row in rows}
+        assert len(starts) == 1, rows  # the n column starts at the same cell in every row
+
+
+@pytest.mark.parametrize("size", [(80, 24), (120, 40)])
+async def test_no_sideways_scrollbar_and_the_first_row_is_current(ledger_path, size):
+    app = make_app(ledger_path)
+    async with app.run_test(size=size) as pilot:
+        session = await started(app, pilot)
+        listing = app.screen.series_list
+        assert not listing.show_horizontal_scrollbar and listing.virtual_size.width <= listing.size.width
+        assert session.cursor == 0 and listing.scroll_y == 0
+
+
+async def test_at_80x24_the_words_come_before_the_charts(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        await pilot.press("tab")
+        await until(pilot, lambda: "Plan price" in screen_text(app))
+        text = screen_text(app)
+        assert "! [stop] flat-price" in text and "? [warn] weak-fit" in text
+        assert text.index("[stop]") < text.index("[warn]")
+        assert "Proposed poly0 (one-se): lowest mean CV error" in text
+        assert "Q² −4%: worse than predicting the average volume" in text
+        assert "below the lowest price observed" in text
+        assert session.label(session.current) in text
+
+
+async def test_each_series_opens_at_the_top_of_its_evidence(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(160, 50)) as pilot:
+        await started(app, pilot)
+        evidence = app.screen.evidence
+        await until(pilot, lambda: evidence.max_scroll_y > 0)
+        evidence.scroll_end(animate=False, immediate=True)
+        await pilot.pause()
+        assert evidence.scroll_y > 0
+        await pilot.press("down")
+        await pilot.pause()
+        assert evidence.scroll_y == 0
+
+
+async def test_units_from_the_settings_file_are_shown(tmp_path):
+    source = sample_source()
+    source.units = {"price": "EUR", "volume": "cases/week"}
+    app = TriageApp(lambda progress: open_session(source, tmp_path / "l.jsonl", ANA, None, progress))
+    async with app.run_test(size=(160, 50)) as pilot:
+        await started(app, pilot)
+        await until(pilot, lambda: "price (EUR)" in screen_text(app))
+        text = screen_text(app)
+        assert re.search(r"predicts volume [\d,.]+ cases/week", text) and re.search(r"Plan price [\d.]+ EUR", text)
+
+
+def colours_of(text, predicate) -> set[str]:
+    """The colours of the characters of a rich Text for which ``predicate(char)`` holds."""
+    found = set()
+    for span in text.spans:
+        if any(predicate(ch) for ch in text.plain[span.start:span.end]) and span.style:
+            style = span.style if not isinstance(span.style, str) else None
+            if style is not None and style.color is not None:
+                found.add(style.color.name)
+    return found
+
+
+def test_legend_colours_are_those_of_the_lines_and_the_price_axis_holds_the_plan():
+    results, _ = fit_source(sample_source())
+    lemons = {"product": "lemons 500 g", "region": "East"}
+    s = next(i for i in range(results.n_series) if results.data.key_of(i) == lemons)
+    chart = curve_chart(results, s, 70, 14, int(results.chosen[s]), {})
+    body, legend = chart.plain.rsplit("\n", 1)
+    cut = len(body) + 1
+    braille = colours_of(chart[:cut], lambda ch: 0x2800 < ord(ch) <= 0x28FF)
+    assert braille == {f"color({STANDING})"}  # the solid line is the standing model's
+    assert colours_of(chart[cut:], lambda ch: ch == "⠤") == braille
+    assert colours_of(chart[:cut], lambda ch: ch == "•") == {f"color({OBSERVED})"} == colours_of(
+        chart[cut:], lambda ch: ch == "•")
+    assert OBSERVED >= 250  # near white: visible on a dark background
+    grid = price_grid(float(results.price_lo[s]), float(results.price_hi[s]), float(results.plan_price[s]), True)
+    plan, lo = results.plan_price[s], results.price_lo[s]
+    assert grid[0] < lo and grid[-1] > plan and grid[-1] - plan > 0.05 * (plan - lo)
+    ticks = [float(t) for t in re.findall(r"\d+\.\d+", body.splitlines()[-2])]
+    assert max(ticks) >= plan
+
+
+def test_the_fold_chart_goes_to_a_log_scale_when_one_error_dwarfs_the_rest():
+    results, _ = fit_source(sample_source())
+    errors = [results.cv_mse[s][results.available[s]] for s in range(results.n_series)]
+    ratio = [np.nanmax(e) / np.nanmin(e) for e in errors]
+    big, small = int(np.argmax(ratio)), int(np.argmin(ratio))
+    assert ratio[big] > 50 and ratio[small] < 1.1
+    assert "(log scale)" in fold_chart(results, big, 70, 12).plain
+    assert "(log scale)" not in fold_chart(results, small, 70, 12).plain
+
+
+def test_the_settings_file_names_the_units(tmp_path):
+    from fitcore.data.config import load_config
+    from fitcore.errors import SettingsError
+    path = tmp_path / "pricefold.toml"
+    path.write_text('[units]\nprice = "EUR"\nvolume = "cases/week"\n', encoding="utf-8")
+    assert load_config(path)["units"] == {"price": "EUR", "volume": "cases/week"}
+    path.write_text("[units]\nprice = 3\n", encoding="utf-8")
+    with pytest.raises(SettingsError, match=r"\[units\] price should be text, got 3"):
+        load_config(path)
+    path.write_text('[units]\ncurrency = "EUR"\n', encoding="utf-8")
+    with pytest.raises(SettingsError, match="unknown key 'currency' in \\[units\\]; expected one of price, volume"):
+        load_config(path)

@@ -1,0 +1,108 @@
+"""Two analysts on one results file and one ledger, each with a triage screen of their own."""
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from fitcore.ledger import Identity
+from tests.tui.conftest import make_app, screen_text, started, until
+
+BO = Identity("bo", "bo", "other-host")
+
+
+def records(path):
+    return [json.loads(line) for line in path.read_text().splitlines()] if path.exists() else []
+
+
+def put_cursor_on(app, label: str) -> int:
+    session = app.session
+    position = next(i for i, s in enumerate(session.view) if session.label(int(s)) == label)
+    session.cursor = position
+    app.screen.refresh_all()
+    return int(session.view[position])
+
+
+async def test_a_decision_lands_on_the_series_on_screen_after_the_other_decided_it(ledger_path):
+    """Issue case 1: both on 'table salt 1 kg · North'; ana accepts; bo's list reloads; bo presses a."""
+    ana, bo = make_app(ledger_path), make_app(ledger_path, who=BO)
+    async with ana.run_test(size=(80, 24)) as pa, bo.run_test(size=(80, 24)) as pb:
+        await started(ana, pa)
+        await started(bo, pb)
+        salt = "table salt 1 kg · North"
+        put_cursor_on(ana, salt)
+        s = put_cursor_on(bo, salt)
+        await pa.pause()
+        await pb.pause()
+        await pa.press("a")
+        await pa.pause()
+        await pa.press(*"checked", "enter")  # stop flags: a note comes first
+        await pa.pause()
+        assert [r["analyst"] for r in records(ledger_path)] == ["ana"]
+        await until(pb, lambda: bo.session.status[s] == "accepted")  # bo's screen looks every 2 s
+        await pb.pause()
+        await pb.press("a")  # 2.2 s after ana's accept
+        await pb.pause()
+        assert type(bo.screen).__name__ == "TriageScreen"  # no note dialog: the key waits for bo to move
+        written = records(ledger_path)
+        assert all(r["series"] == {"product": "table salt 1 kg", "region": "North"} for r in written), written
+        assert bo.session.current == s  # still on the series bo was looking at
+        assert "left list: ana accept" in screen_text(bo)
+
+
+async def test_while_the_series_waits_no_decision_key_acts_and_moving_lets_it_go(ledger_path):
+    ana, bo = make_app(ledger_path), make_app(ledger_path, who=BO)
+    async with ana.run_test(size=(80, 24)) as pa, bo.run_test(size=(80, 24)) as pb:
+        await started(ana, pa)
+        session = await started(bo, pb)
+        s = put_cursor_on(bo, "lemons 500 g · East")
+        put_cursor_on(ana, "lemons 500 g · East")
+        await pa.pause()
+        await pa.press("h", "enter")
+        await until(pb, lambda: "left list: ana held" in screen_text(bo))
+        assert session.waiting and session.current == s and session.status[s] == "held"
+        footer = lambda: screen_text(bo).splitlines()[-1]  # noqa: E731
+        await until(pb, lambda: "q quit" in footer() and "a accept" not in footer())  # no decision offered
+        assert "h hold" not in footer() and "o override" not in footer()
+        await pb.press("a", "h", "n", "o")
+        await pb.pause()
+        assert [r["analyst"] for r in records(ledger_path)] == ["ana"]
+        listed = len(session.view)
+        await pb.press("down")
+        await pb.pause()
+        assert not session.waiting and s not in session.view and len(session.view) == listed - 1
+        await until(pb, lambda: "a accept" in footer())
+
+
+def test_a_decision_on_a_series_changed_since_it_was_shown_is_refused(ledger_path):
+    """Case 1 when bo presses before his screen has looked again: the ledger changed on what he saw."""
+    from fitcore.ledger import LedgerConflict, LedgerError
+    from tui.factory import open_session, sample_source
+    ana = open_session(sample_source(), ledger_path, Identity("ana", "ana", "h"))
+    bo = open_session(sample_source(), ledger_path, BO)
+    s = next(int(i) for i in bo.view if bo.label(int(i)) == "table salt 1 kg · North")
+    seen = bo.look(s)
+    written = ana.decide(ana.look(s), "accept", note="checked")
+    with pytest.raises(LedgerConflict, match=rf"^ana accepted poly0 at {written['at'][11:19]} UTC; look again$"):
+        bo.decide(seen, "accept", note="fine")
+    assert len(records(ledger_path)) == 1
+    again = bo.look(s)  # once shown again, a hold is bo's to make; another accept is refused
+    with pytest.raises(LedgerError, match="already accepted on this data"):
+        bo.decide(again, "accept", note="fine")
+    assert bo.decide(again, "hold")["analyst"] == "bo"
+
+
+def test_simultaneous_decisions_the_second_is_refused_under_the_lock(ledger_path):
+    """Issue case 2: a hold and an accept 20 ms apart, both screens having seen the same state."""
+    from fitcore.ledger import LedgerConflict
+    from tui.factory import open_session, sample_source
+    ana = open_session(sample_source(), ledger_path, Identity("ana", "ana", "h"))
+    bo = open_session(sample_source(), ledger_path, BO)
+    s = int(ana.view[0])
+    ana_seen, bo_seen = ana.look(s), bo.look(s)
+    bo.reload_ledger = lambda *args, **kwargs: set()  # bo's screen has not looked since; ana appends first
+    ana.decide(ana_seen, "hold")
+    with pytest.raises(LedgerConflict, match="^ana held at .* UTC; look again$"):
+        bo.decide(bo_seen, "accept", note="fine")
+    assert [r["action"] for r in records(ledger_path)] == ["hold"]
+    assert bo.status[s] == "held"  # the refusal brought bo's screen the hold

@@ -1,0 +1,211 @@
+"""The list an analyst works through: a filtered, sorted view of series indices and a cursor.
+
+A view is rebuilt whenever statuses change; the cursor follows its series, not its
+position.  When a reload the analyst did not ask for (another analyst's decision, the
+ledger poll) would take the highlighted series out of the view, it stays listed —
+*pinned* — until the cursor leaves it, and ``waiting`` says decision keys should wait
+for the analyst to move.  A series brought back on purpose (``bring``: undo, search)
+is pinned the same way but does not wait.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from fitcore.review.flags import CODES
+
+FILTERS = ("attention", "all", "pending", "held", "decided")
+FILTER_TITLES = {"attention": "needs attention, pending", "all": "all series", "pending": "pending",
+                 "held": "held", "decided": "decided"}
+SORTS = ("attention", "key", "score", "n")
+SORT_TITLES = {"attention": "attention", "key": "key", "score": "lowest score", "n": "fewest observations"}
+STATUS_MARK = {"pending": "·", "accepted": "✓", "overridden": "↺", "held": "‖", "stale": "!"}
+STATUSES = tuple(STATUS_MARK)
+KEEP = "keep"  # set_filter: leave this part of the filter as it is
+
+
+@dataclass(frozen=True)
+class SearchHit:
+    """What a search found: matches in the view and in all series; ``switched`` when the view changed to show one."""
+
+    in_view: int
+    overall: int
+    switched: bool
+
+    @property
+    def found(self) -> bool:
+        return self.overall > 0
+
+
+class ListState:
+    """The list part of a triage session.  Uses the session's ``results``, ``diagnosis``, ``keys``,
+    ``status_code`` and ``_flagged``; ``_init_list`` must run before the first ``rebuild_view``."""
+
+    def _init_list(self, n_series: int) -> None:
+        self.filter, self.sort, self.flag_filter = "attention", "attention", None
+        self.view = np.arange(n_series)
+        self.cursor = 0
+        self.pinned: int | None = None  # a series listed though the filter leaves it out
+        self.pin_waits = False  # pinned because a reload took it out: decision keys wait for a move
+        self._search: tuple[str, np.ndarray] | None = None
+
+    @property
+    def current(self) -> int | None:
+        return int(self.view[self.cursor]) if len(self.view) else None
+
+    @property
+    def waiting(self) -> bool:
+        """The highlighted series left the list under the cursor: nothing acts on it until the analyst moves."""
+        return self.pin_waits and self.pinned is not None and self.pinned == self.current
+
+    # -- which series are listed ---------------------------------------------------------
+    def _code(self, status: str) -> np.ndarray:
+        return self.status_code == STATUSES.index(status)
+
+    @property
+    def undecided(self) -> np.ndarray:
+        """(S,) pending or stale: no decision stands on the current data."""
+        return self._code("pending") | self._code("stale")
+
+    def needs_attention(self) -> np.ndarray:
+        return self._flagged & self.undecided
+
+    def status_mask(self, name: str) -> np.ndarray:
+        if name == "attention":
+            return self.needs_attention()
+        if name == "pending":
+            return self.undecided
+        if name == "held":
+            return self._code("held")
+        if name == "decided":
+            return ~self.undecided
+        return np.ones(self.results.n_series, dtype=bool)
+
+    def _mask(self, name: str, flag: str | None) -> np.ndarray:
+        mask = self.status_mask(name)
+        return mask & self.diagnosis.flagged(flag) if flag else mask
+
+    def filter_counts(self) -> dict[str, int]:
+        """How many series each choice of the filter menu would list (a flag keeps the status filter, and back)."""
+        out = {name: int(self._mask(name, self.flag_filter).sum()) for name in FILTERS}
+        status = self.status_mask(self.filter)
+        out["flag:"] = int(status.sum())
+        for i, code in enumerate(CODES):
+            out[f"flag:{code}"] = int(np.count_nonzero(status & self.diagnosis.raised[:, i]))
+        return out
+
+    def rebuild_view(self, keep: int | None = None, pin: str | None = None) -> None:
+        """Re-filter and re-sort, the cursor on series ``keep`` (default: the current one) if listed.
+
+        ``pin``: ``"waits"`` (a reload the analyst did not ask for) or ``"brought"`` keeps ``keep`` listed even
+        if the filter leaves it out; without it the cursor keeps its position when ``keep`` is gone.
+        """
+        keep = self.current if keep is None else keep
+        mask = self._mask(self.filter, self.flag_filter)
+        if self.pinned is not None and self.pinned != keep:
+            self.pinned, self.pin_waits = None, False
+        if pin and keep is not None and keep >= 0 and not mask[keep] and self.pinned != keep:
+            self.pinned, self.pin_waits = keep, pin == "waits"
+        if self.pinned is not None:
+            if mask[self.pinned]:  # listed again on its own merits
+                self.pinned, self.pin_waits = None, False
+            else:
+                mask[self.pinned] = True
+        order = self._order()
+        self.view = order[mask[order]]
+        where = np.flatnonzero(self.view == keep) if keep is not None else []
+        self.cursor = int(where[0]) if len(where) else min(self.cursor, max(len(self.view) - 1, 0))
+        self._cursor_changed()
+
+    def _cursor_changed(self) -> None:
+        """Called whenever the cursor may have moved to another series (a session keeps ``shown`` in step)."""
+
+    def _order(self) -> np.ndarray:
+        if self.sort == "key":
+            return self.keys.sorted_order()
+        if self.sort == "score":
+            score = np.where(np.isnan(self.results.score), -np.inf, self.results.score)
+            return np.argsort(score, kind="stable")
+        if self.sort == "n":
+            return np.argsort(self.results.data.counts, kind="stable")
+        return self.diagnosis.attention_order()
+
+    def set_filter(self, name: str = KEEP, flag: str | None = KEEP) -> None:
+        """Change the status filter, the flag filter (None: any), or both; ``KEEP`` leaves one as it is."""
+        name = self.filter if name == KEEP else name
+        flag = self.flag_filter if flag == KEEP else flag
+        if name not in FILTERS:
+            raise ValueError(f"expected a filter among {FILTERS}, got {name!r}")
+        if flag is not None and flag not in CODES:
+            raise ValueError(f"expected a flag among {CODES}, got {flag!r}")
+        self.filter, self.flag_filter = name, flag
+        self.rebuild_view()
+
+    def set_sort(self, name: str) -> None:
+        if name not in SORTS:
+            raise ValueError(f"expected a sort among {SORTS}, got {name!r}")
+        self.sort = name
+        self.rebuild_view()
+
+    # -- moving ----------------------------------------------------------------------------
+    def _go(self, position: int) -> None:
+        """Put the cursor at ``position``; leaving a pinned series lets it go from the list."""
+        if not len(self.view):
+            return
+        self.cursor = int(np.clip(position, 0, len(self.view) - 1))
+        if self.pinned is not None and self.current != self.pinned:
+            self.rebuild_view(keep=self.current)
+        self._cursor_changed()
+
+    def move(self, step: int) -> None:
+        self._go(self.cursor + step)
+
+    def bring(self, s: int) -> None:
+        """Put the cursor on series ``s``, listing it even if the filter leaves it out (the analyst asked)."""
+        self.rebuild_view(keep=s, pin="brought")
+        if self.pinned == s:
+            self.pin_waits = False
+
+    def jump_attention(self, step: int) -> bool:
+        """Move to the next (step 1) or previous (-1) listed series that needs attention."""
+        positions = np.flatnonzero(self.needs_attention()[self.view])
+        if not len(positions):
+            return False
+        later = positions[positions > self.cursor] if step > 0 else positions[positions < self.cursor][::-1]
+        self._go(int(later[0] if len(later) else positions[0] if step > 0 else positions[-1]))
+        return True
+
+    def after_decision(self, s: int) -> None:
+        """Rebuild the list and put the cursor on the next series needing attention after ``s``."""
+        position = self.cursor
+        self.rebuild_view(keep=-1)
+        self._go(min(position, max(len(self.view) - 1, 0)))
+        if len(self.view) and self.view[self.cursor] == s:
+            self.move(1)
+        attention = self.needs_attention()[self.view]
+        if len(self.view) and not attention[self.cursor]:
+            self.jump_attention(1)
+
+    def search(self, text: str) -> SearchHit:
+        """Move to the next series after the cursor whose key contains ``text`` (ignoring case), wrapping.
+
+        Looks through every series: when none of the listed ones match, the view switches to all series.
+        """
+        needle = text.strip()
+        if not needle:
+            return SearchHit(0, 0, False)
+        if self._search is None or self._search[0] != needle.casefold():
+            self._search = (needle.casefold(), self.keys.matching(needle))
+        matches = self._search[1]
+        overall = int(matches.sum())
+        positions = np.flatnonzero(matches[self.view])
+        switched = False
+        if overall and not len(positions):
+            self.filter, self.flag_filter, switched = "all", None, True
+            self.rebuild_view()
+            positions = np.flatnonzero(matches[self.view])
+        if len(positions):
+            later = positions[positions > self.cursor]
+            self._go(int(later[0] if len(later) else positions[0]))
+        return SearchHit(len(positions) if not switched else 0, overall, switched)

@@ -1,0 +1,116 @@
+"""The override dialog: every available candidate with the numbers an analyst decides on.
+
+For each: CV error ± SE, Q², plan volume with its 95% prediction interval, elasticity at the plan
+price, and the flags that candidate would carry itself (rising, below-zero, outside-range).  The
+proposal is shown for comparison but cannot be picked; the runner-up is highlighted first.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical
+from textual.screen import ModalScreen
+from textual.widgets import OptionList, Static
+from textual.widgets.option_list import Option
+
+from fitcore.fit.results import Results
+from fitcore.review.candidate_checks import candidate_checks
+from fitcore.review.evidence import runner_up
+from fitcore.review.sentences import fmt, money
+from fitcore.review.thresholds import Thresholds
+
+from ..text import literal
+
+HEAD = ("model", "CV MSE", "± SE", "Q²", "volume", "95% PI", "elast.")
+
+
+@dataclass(frozen=True)
+class CandidateRow:
+    """One candidate's numbers as the dialog prints them (the formats ``pricefold show`` uses)."""
+
+    name: str
+    cv_mse: str
+    cv_se: str
+    q2: str
+    volume: str
+    interval: str
+    elasticity: str
+    flags: tuple[str, ...]
+    proposed: bool
+
+
+def candidate_rows(results: Results, s: int, thresholds: Thresholds) -> list[CandidateRow]:
+    rows = []
+    planned = math.isfinite(results.plan_price[s])
+    for c, name in enumerate(results.names):
+        if not results.available[s, c]:
+            continue
+        rows.append(CandidateRow(
+            name=name, cv_mse=fmt(results.cv_mse[s, c]), cv_se=fmt(results.cv_se[s, c]),
+            q2=f"{results.q2[s, c] * 100:.0f}%",
+            volume=fmt(results.plan_volume[s, c]) if planned else "—",
+            interval=f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}" if planned else "—",
+            elasticity=f"{results.plan_elasticity[s, c]:.2f}" if planned else "—",
+            flags=candidate_checks(results, s, c, thresholds).codes, proposed=c == results.chosen[s]))
+    return rows
+
+
+def _cells(row: CandidateRow) -> tuple[str, ...]:
+    return (row.name, row.cv_mse, row.cv_se, row.q2, row.volume, row.interval, row.elasticity)
+
+
+class OverrideDialog(ModalScreen[str | None]):
+    """Pick the candidate to put in the plan instead of the proposal; returns its name."""
+
+    BINDINGS = [Binding("escape", "cancel", "cancel")]
+
+    def __init__(self, results: Results, s: int, label: str, thresholds: Thresholds, standing: str | None) -> None:
+        super().__init__()
+        self.results, self.s, self.label, self.standing = results, s, label, standing
+        self.rows = candidate_rows(results, s, thresholds)
+
+    def compose(self) -> ComposeResult:
+        results, s = self.results, self.s
+        widths = [max(len(h), *(len(_cells(r)[i]) for r in self.rows)) for i, h in enumerate(HEAD)]
+
+        def line(cells) -> str:
+            return "  ".join(cell.ljust(w) if i == 0 else cell.rjust(w)
+                             for i, (cell, w) in enumerate(zip(cells, widths)))
+
+        plan = results.plan_price[s]
+        title = literal(f"Override the proposal for {self.label}", "bold")
+        title.append(f"\nAt the plan price {money(plan)}: volume, 95% interval, elasticity; below each, its own flags"
+                     if math.isfinite(plan) else "\nNo plan price; below each model, its own flags", style="dim")
+        with Vertical(classes="dialog wide override"):
+            yield Static(title, markup=False)
+            yield Static(Text("  " + line(HEAD), style="bold"), markup=False, id="override-head")
+            options = []
+            for row in self.rows:
+                prompt = Text(("✓ " if row.proposed else "↺ " if row.name == self.standing else "  ")
+                              + line(_cells(row)))
+                role = "proposed · " if row.proposed else "stands now · " if row.name == self.standing else ""
+                prompt.append(f"\n    {role}", style="dim")
+                prompt.append(f"! {' · '.join(row.flags)}" if row.flags else "no shape or range flag",
+                              style="#ff875f" if row.flags else "dim")
+                options.append(Option(prompt, id=row.name, disabled=row.proposed))
+            yield OptionList(*options, id="dialog-options")
+            yield Static(Text("↑↓ to move · Enter to choose (a note follows) · Esc to cancel", style="dim"),
+                         markup=False)
+
+    def on_mount(self) -> None:
+        options = self.query_one(OptionList)
+        best = runner_up(self.results, self.s)
+        names = [row.name for row in self.rows]
+        if best >= 0 and self.results.names[best] in names:
+            options.highlighted = names.index(self.results.names[best])
+        options.focus()
+
+    def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
+        self.dismiss(event.option.id)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)

@@ -1,0 +1,65 @@
+"""The header: who is deciding, what is listed, and how many series stand where — fitted to the width.
+
+One line when everything fits; otherwise the counts go to a second line, in shorter words
+when they must.  Every count (stale included) is always shown.
+"""
+from __future__ import annotations
+
+from rich.cells import cell_len
+from rich.text import Text
+
+from ..cells import cut
+from ..listing import FILTER_TITLES, SORT_TITLES
+from ..text import clean
+
+# status, its word, its short form
+WORDS = (("attention", "attention", "attn"), ("pending", "pending", "pend"), ("accepted", "accepted", "acc"),
+         ("overridden", "overridden", "ovr"), ("held", "held", "held"), ("stale", "stale", "stale"))
+
+
+def counts_text(counts: dict[str, int], width: int) -> str:
+    """'attention 21 · pending 180 · accepted 0 · …' in the longest form that fits ``width``."""
+    for joiner, form in (("  ·  ", 0), (" · ", 0), (" · ", 1), (" ", 1)):
+        text = joiner.join(f"{words[form]} {counts[name]:,}" for name, *words in WORDS)
+        if cell_len(text) <= width:
+            return text
+    return cut(text, width)
+
+
+def listed_text(session) -> str:
+    flag = f" ⚑ {session.flag_filter}" if session.flag_filter else ""
+    return f"{len(session.view):,} listed ({FILTER_TITLES[session.filter]}{flag}; by {SORT_TITLES[session.sort]})"
+
+
+def status_text(session, width: int) -> Text:
+    """The header for a screen ``width`` cells wide (the widget's padding already taken off); a last line
+    in bold when the ledger is broken or unverifiable (the screen is then read-only)."""
+    text = _counts_lines(session, width)
+    if not session.writable:
+        book = session.book
+        said = f"READ-ONLY: the ledger is {book.state} ({clean(str(book.problem))}); nothing can be recorded"
+        text.append("\n" + cut(said, width), style="bold reverse")
+    return text
+
+
+def _counts_lines(session, width: int) -> Text:
+    who = clean(session.who.analyst)
+    listed = listed_text(session)
+    counts = session.counts()
+    one_line = f"pricefold triage  {who}  ·  {listed}  ·  {counts_text(counts, 10**6)}"
+    text = Text()
+    if cell_len(one_line) <= width:
+        text.append("pricefold triage", style="bold")
+        text.append(f"  {who}  ·  ", style="dim")
+        text.append(f"{listed}  ·  {counts_text(counts, 10**6)}")
+        return text
+    first = f"pricefold triage  {who}  ·  {listed}"
+    if cell_len(first) <= width:
+        text.append("pricefold triage", style="bold")
+        text.append(f"  {who}  ·  ", style="dim")
+        text.append(listed)
+    else:
+        text.append(cut(f"{who} · ", max(width // 3, 8)), style="dim")
+        text.append(cut(listed, width - cell_len(text.plain)))
+    text.append("\n" + counts_text(counts, width))
+    return text
