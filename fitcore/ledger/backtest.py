@@ -291,3 +291,39 @@ def _proposal_at(results: Results, series: np.ndarray, price: np.ndarray):
             volume[mine] = v
             elasticity[mine] = family.elasticity(polynomial(coef, t, 1), v, results.basis_half[s, c], price[mine])
     return volume, elasticity
+
+
+class StoredBacktest:
+    """The backtest a results file holds (``fit --ledger``), read back per series as ``Backtest.record``."""
+
+    def __init__(self, columns: dict) -> None:
+        self.columns = columns
+
+    def record(self, s: int) -> dict | None:
+        if self.columns["status"][s] is None:
+            return None
+        out = {}
+        for name, values in self.columns.items():
+            value = values[s]
+            if isinstance(value, (float, np.floating)):
+                value = float(value) if np.isfinite(value) else None
+                if value is not None and name in ("new_rows", "outside"):
+                    value = int(value)
+            elif isinstance(value, np.bool_):
+                value = bool(value)
+            out[name] = value
+        return out
+
+    def due(self, s: int) -> str | None:
+        return due(self.record(s))
+
+
+def cycle_of(results: Results, diagnosis, histories: dict, source: dict):
+    """``(diagnosis with 'shifted', backtest)`` for a screen: computed from the rows when they are loaded,
+    else the backtest the results file holds (None when it holds none: ``diagnosis`` as it is)."""
+    from ..review.flags import mark_shifted
+    if results.rows_loaded:
+        found = backtest(results, histories, diagnosis.thresholds, source)
+        return mark_shifted(diagnosis, found), found
+    stored = getattr(results, "stored_backtest", None)
+    return diagnosis, (StoredBacktest(stored) if stored else None)

@@ -46,6 +46,14 @@ def evaluate(family: Family, coef, mid, half, smear, cov, sigma2, df, price, lev
     return family.at(coef, mid, half, smear, leverage, sigma2, df, price, level)
 
 
+def signed_curve(snapshot: dict, price) -> np.ndarray:
+    """Volume of a signed curve at ``price`` (its basis and smearing, as recorded)."""
+    family, basis = BY_NAME[snapshot["family"]], snapshot["basis"]
+    smear = snapshot["smearing"] if snapshot.get("smearing") is not None else np.nan
+    return family.curve(np.asarray(basis["coef"], dtype=float), basis["mid"], basis["half"], smear,
+                        np.asarray(price, dtype=float))
+
+
 def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, cov, sigma2, df, n, lo, hi,
               last_date, plan_price, cv_mse) -> list[dict]:
     """The ``signed`` objects of n series for candidate ``name`` of ``family``: arrays (n,) and
