@@ -54,14 +54,15 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
             files.set_aside(fd, path, book.tail_start, clock())
         batch = uuid.uuid4().hex if len(entries) > 1 else None
         seq, prev = book.head
-        lines = []
+        lines, records = [], []
         for index, entry in enumerate(entries, start=1):
             marker = {"id": batch, "index": index, "size": len(entries)} if batch else None
             record, line = new_record(entry, who, seq + index, stamp(clock()), prev, marker, book.key)
             prev = record["digest"]
             lines.append(line)
+            records.append(record)
         files.write_all(fd, path, book.tail_start, b"".join(lines))
-        return book.take_written(fd)
+        return book.take_written(fd, records, lines)
     finally:
         os.close(fd)  # closing releases the lock
 

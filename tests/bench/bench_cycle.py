@@ -38,6 +38,10 @@ def write_data(folder: Path, n_series: int, rows: int) -> tuple[Path, Path]:
     week = np.tile(np.arange(rows + 1), n_series)
     dates = (np.datetime64("2025-01-06") + week * np.timedelta64(7, "D")).astype("datetime64[D]")
     names = np.char.add("item-", product.astype(str))
+    import pyarrow.compute as pac
+    plan = pa.table({"product": names, "price": price}).group_by("product").aggregate([("price", "approximate_median")])
+    pc.write_csv(pa.table({"product": plan.column("product"),
+                           "plan_price": pac.round(plan.column("price_approximate_median"), 2)}), folder / "plan.csv")
     paths = []
     for label, keep in (("cycle1", week < rows), ("cycle2", np.ones(len(week), bool))):
         table = pa.table({"product": names[keep], "week": dates[keep], "price": price[keep], "volume": volume[keep]})
@@ -85,7 +89,7 @@ def main() -> None:
         folder = Path(name)
         started = time.perf_counter()
         first, second = write_data(folder, args.series, args.rows)
-        common = ["--date", "week", "--plan-price", "100", "--quiet"]
+        common = ["--date", "week", "--plan", str(folder / "plan.csv"), "--quiet"]
         run(["fit", str(first), "-o", str(folder / "r1.parquet"), *common])
         ledger_path = folder / "ledger.jsonl"
         signed = sign_everything(folder / "r1.parquet", ledger_path)
