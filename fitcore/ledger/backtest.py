@@ -23,13 +23,13 @@ from ..data.keys import SeriesKeys
 from ..fit.basis import polynomial
 from ..fit.families import BY_NAME
 from ..fit.results import Results
-from ..review.intervals import _rows_of
+from ..review.intervals import rows_of
 from .snapshot import evaluate
+from .standing import Standing, standing_of
 
 # status of a series' backtest; None: no standing decision made on other data (nothing to test)
 PASSED, FAILED = "passed", "failed"
 NO_DATES, NO_NEW_ROWS, UNSIGNED, UNDATED = "no-dates", "no-new-rows", "unsigned", "undated"
-DECISIONS = ("accept", "override", "carry")
 
 
 @dataclass(frozen=True, eq=False)
@@ -116,44 +116,25 @@ def due(record: dict | None) -> str | None:
             UNSIGNED: "no signed model"}.get(status, status)
 
 
-def standing_on_other_data(histories: dict, keys: SeriesKeys, fingerprints) -> tuple[np.ndarray, list[dict], list[dict]]:
-    """(series indices, their standing decisions, their latest records) for every series of ``keys``
-    whose standing decision (accept, override, carry) was made on data other than ``fingerprints``."""
-    standing = [(h.current, h.latest) for h in histories.values()
-                if h.current is not None and h.current["action"] in DECISIONS]
-    if not standing:
-        return np.zeros(0, np.int64), [], []
-    at = keys.indices_of([current["series"] for current, _ in standing])
+def on_other_data(standing: Standing, keys: SeriesKeys, fingerprints) -> tuple[np.ndarray, Standing]:
+    """(series indices, their standing decisions) for every series of ``keys`` whose standing decision
+    was made on data other than ``fingerprints``."""
+    if not len(standing):
+        return np.zeros(0, np.int64), standing
+    at = keys.indices_of(standing.series)
     found = np.flatnonzero(at >= 0)
     index = at[found]
-    recorded = np.array([standing[i][0]["fingerprint"] for i in found.tolist()], dtype=object)
     now = np.asarray(fingerprints, dtype=object)[index] if not hasattr(fingerprints, "take") else \
-        np.array(fingerprints.take(index).to_pylist(), dtype=object)
-    moved = np.flatnonzero(recorded != now)
-    return index[moved], [standing[found[i]][0] for i in moved], [standing[found[i]][1] for i in moved]
+        np.array(fingerprints.take(index).to_pylist() + [None], dtype=object)[:-1]
+    moved = np.flatnonzero(standing.fingerprint[found] != now)
+    return index[moved], standing.take(found[moved])
 
 
-def by_partition(histories: dict, key_names: tuple[str, ...], n_parts: int) -> list[dict]:
-    """The standing decisions (with each series' latest record) split by the partition their series'
-    key hash picks (``scale.dask_engine.partition_of``), as histories ``backtest`` reads: so each
-    partition of a Dask fit is sent only its own series' decisions."""
-    from ..data.dataset import hash_keys
-    from .replay import SeriesHistory
-    standing = [(sid, h.current, h.latest) for sid, h in histories.items()
-                if h.current is not None and h.current["action"] in DECISIONS]
-    out: list[dict] = [{} for _ in range(n_parts)]
-    if not standing:
-        return out
-    keys = {name: np.array([str(current["series"].get(name, "")) for _, current, _ in standing], dtype=object)
-            for name in key_names}
-    parts = (hash_keys(keys) % np.uint64(n_parts)).astype(np.int64)
-    for (sid, current, latest), p in zip(standing, parts.tolist()):
-        out[p][sid] = SeriesHistory(records=[latest], standing=[current])
-    return out
-
-
-def backtest(results: Results, histories: dict, thresholds, source: dict) -> Backtest:
-    """The backtest of every series of ``results`` (a fit with its rows) against ledger ``histories``."""
+def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
+    """The backtest of every series of ``results`` (a fit with its rows) against the ledger's standing
+    decisions (a ``Standing``, or a ledger's histories)."""
+    if not isinstance(standing, Standing):
+        standing = standing_of(standing)
     n_s = results.n_series
     text = lambda: np.full(n_s, None, dtype=object)  # noqa: E731
     number = lambda: np.full(n_s, np.nan)  # noqa: E731
@@ -162,10 +143,9 @@ def backtest(results: Results, histories: dict, thresholds, source: dict) -> Bac
                coverage=number(), outside=np.full(n_s, -1, np.int64), price=number(), signed_volume=number(),
                signed_lo=number(), signed_hi=number(), proposed_volume=number(), volume_change=number(),
                elasticity_change=number(), shape_changed=np.zeros(n_s, bool))
-    series, decisions, latest = standing_on_other_data(histories, SeriesKeys.of(results.data),
-                                                       results.data.fingerprints)
+    series, mine = on_other_data(standing, SeriesKeys.of(results.data), results.data.fingerprints)
     if len(series):
-        _fill(out, results, series, decisions, latest)
+        _fill(out, results, series, mine)
     failed = out["status"] == FAILED
     with np.errstate(invalid="ignore"):
         failed |= (out["status"] == PASSED) & ((out["error_ratio"] > thresholds.shift_error_ratio) | (
@@ -176,76 +156,58 @@ def backtest(results: Results, histories: dict, thresholds, source: dict) -> Bac
                     chosen=np.asarray(results.chosen), **out)
 
 
-def _fill(out: dict, results: Results, series: np.ndarray, decisions: list[dict], latest: list[dict]) -> None:
-    snaps = [d.get("signed") for d in decisions]
-    out["decision"][series] = [d["digest"] for d in decisions]
-    out["carries"][series] = [d.get("carries") or d["digest"] for d in decisions]
-    out["latest"][series] = [r["digest"] for r in latest]
-    out["analyst"][series] = [d["analyst"] for d in decisions]
-    out["signed_at"][series] = [d["at"][:10] for d in decisions]
-    out["candidate"][series] = [snap["candidate"] if snap else d.get("model") for snap, d in zip(snaps, decisions)]
+def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None:
+    for name in ("decision", "carries", "latest", "analyst", "signed_at", "candidate"):
+        out[name][series] = getattr(st, name)
     out["status"][series] = UNSIGNED
-    signed = np.array([snap is not None for snap in snaps], dtype=bool)
-    if not signed.any():
+    keep = np.flatnonzero(st.signed)
+    if not len(keep):
         return
-    keep = np.flatnonzero(signed)
-    series, snaps = series[keep], [snaps[i] for i in keep.tolist()]
-    last = np.array([s.get("last_date") or "NaT" for s in snaps], dtype="datetime64[D]")
-    out["last_date"][series] = [s.get("last_date") for s in snaps]
+    series, st = series[keep], st.take(keep)
+    last = st.last_date
+    out["last_date"][series] = [None if np.isnat(d) else str(d) for d in last]
     dates = results.data.date
     out["status"][series] = NO_DATES if dates is None else np.where(np.isnat(last), UNDATED, NO_NEW_ROWS)
     price = np.where(np.isfinite(results.plan_price[series]), results.plan_price[series], results.mid[series])
     out["price"][series] = price
-    groups: dict[tuple[str, int], list[int]] = {}
-    for i, snap in enumerate(snaps):
-        groups.setdefault((snap["family"], len(snap["basis"]["coef"])), []).append(i)
     proposed, proposed_el = _proposal_at(results, series, price)
     out["proposed_volume"][series] = proposed
-    chosen = results.chosen[series]
     names = np.array(results.names + [None], dtype=object)
-    out["shape_changed"][series] = names[chosen] != np.array([s["candidate"] for s in snaps], dtype=object)
-    for (family_name, k), members in groups.items():
-        members = np.asarray(members)
-        curve = _SignedCurves([snaps[i] for i in members.tolist()], BY_NAME[family_name], k)
-        at = series[members]
-        volume, lo, hi, elasticity = curve.at(price[members])
-        out["signed_volume"][at], out["signed_lo"][at], out["signed_hi"][at] = volume, lo, hi
-        with np.errstate(divide="ignore", invalid="ignore"):
-            out["volume_change"][at] = (proposed[members] - volume) / np.abs(volume)
-            out["elasticity_change"][at] = proposed_el[members] - elasticity
-        if dates is not None:
-            _test_rows(out, results, at, last[members], curve)
+    out["shape_changed"][series] = names[results.chosen[series]] != st.candidate
+    for family_name in np.unique(st.family.astype(str)).tolist():
+        for k in np.unique(st.size[st.family == family_name]).tolist():
+            members = np.flatnonzero((st.family == family_name) & (st.size == k))
+            curve = _SignedCurves(st.take(members), BY_NAME[family_name], int(k))
+            at = series[members]
+            volume, lo, hi, elasticity = curve.at(price[members])
+            out["signed_volume"][at], out["signed_lo"][at], out["signed_hi"][at] = volume, lo, hi
+            with np.errstate(divide="ignore", invalid="ignore"):
+                out["volume_change"][at] = (proposed[members] - volume) / np.abs(volume)
+                out["elasticity_change"][at] = proposed_el[members] - elasticity
+            if dates is not None:
+                _test_rows(out, results, at, last[members], curve)
 
 
 class _SignedCurves:
-    """n signed curves of one family and size, as arrays (from their snapshots)."""
+    """n signed curves of one family and size, as arrays."""
 
-    def __init__(self, snaps: list[dict], family, k: int) -> None:
-        self.family, n = family, len(snaps)
-        basis = [s["basis"] for s in snaps]
-        self.coef = np.array([b["coef"] for b in basis], dtype=float).reshape(n, k)
-        self.mid = np.array([b["mid"] for b in basis], dtype=float)
-        self.half = np.array([b["half"] for b in basis], dtype=float)
-        self.smear = np.array([s["smearing"] if s["smearing"] is not None else np.nan for s in snaps], dtype=float)
-        nan = [[np.nan] * k] * k
-        self.cov = np.array([s.get("cov_unscaled") or nan for s in snaps], dtype=float).reshape(n, k, k)
-        self.sigma2 = np.array([s.get("sigma2") if s.get("sigma2") is not None else np.nan for s in snaps], float)
-        self.df = np.array([s.get("df") or 1 for s in snaps], dtype=np.int64)
-        self.level = np.array([s.get("level", 0.95) for s in snaps], dtype=float)
-        self.cv_mse = np.array([s["cv_mse"] if s.get("cv_mse") is not None else np.nan for s in snaps], float)
+    def __init__(self, st: Standing, family, k: int) -> None:
+        self.family = family
+        self.coef, self.cov = st.coef[:, :k], st.cov[:, :k, :k]
+        self.mid, self.half, self.smear, self.sigma2 = st.mid, st.half, st.smear, st.sigma2
+        self.df = np.where(np.isfinite(st.df), st.df, 1).astype(np.int64)
+        self.level = np.where(np.isfinite(st.level), st.level, 0.95)
+        self.cv_mse = st.cv_mse
 
     def at(self, price: np.ndarray, which: np.ndarray | None = None):
         """(volume, lo, hi, elasticity) of curve ``which[i]`` (default: i) at ``price[i]``."""
         w = np.arange(len(self.mid)) if which is None else which
-        out = []
+        result = [np.full(len(w), np.nan) for _ in range(4)]
         for level in np.unique(self.level[w]):  # one level in practice (0.95)
             mine = self.level[w] == level
             values = evaluate(self.family, self.coef[w][mine], self.mid[w][mine], self.half[w][mine],
                               self.smear[w][mine], self.cov[w][mine], self.sigma2[w][mine], self.df[w][mine],
                               price[mine], float(level))
-            out.append((mine, values))
-        result = [np.full(len(w), np.nan) for _ in range(4)]
-        for mine, values in out:
             for column, value in zip(result, values):
                 column[mine] = value
         return result
@@ -254,7 +216,7 @@ class _SignedCurves:
 def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray, curve: _SignedCurves) -> None:
     """The signed curves on their series' rows dated after ``last``: count, error ratio, coverage."""
     data = results.data
-    rows = _rows_of(data.offsets, series)
+    rows = rows_of(data.offsets, series)
     owner = np.repeat(np.arange(len(series)), data.counts[series])
     new = data.date[rows].astype("datetime64[D]") > last[owner]
     rows, owner = rows[new], owner[new]

@@ -68,7 +68,7 @@ def covariances(results: Results, series: np.ndarray) -> np.ndarray:
             # Every candidate of a family shares its window; the rows mapped once for the block.
             mid = np.repeat(results.basis_mid[block, cols.start], data.counts[block])
             half = np.repeat(results.basis_half[block, cols.start], data.counts[block])
-            rows = _rows_of(data.offsets, block)
+            rows = rows_of(data.offsets, block)
             t = family.coordinate(data.price[rows], mid, half)
             local = np.concatenate(([0], np.cumsum(data.counts[block]))).astype(np.int64)
             sums = np.empty((2 * p - 1, len(block)))
@@ -85,7 +85,7 @@ def covariances(results: Results, series: np.ndarray) -> np.ndarray:
     return out
 
 
-def _rows_of(offsets: np.ndarray, series: np.ndarray) -> np.ndarray:
+def rows_of(offsets: np.ndarray, series: np.ndarray) -> np.ndarray:
     """The dataset rows of ``series``, series by series (no Python loop over the series)."""
     counts = offsets[series + 1] - offsets[series]
     starts = np.repeat(offsets[series] - np.concatenate(([0], np.cumsum(counts)[:-1])), counts)

@@ -130,9 +130,9 @@ def gather_part(tables: list, columns: Columns):
     return table.take(keep), lines[dropped].tolist(), [duplicate_reason(int(line)) for line in earlier]
 
 
-def fit_part(p: int, table, job: PartJob, standing: dict | None = None) -> dict:
+def fit_part(p: int, table, job: PartJob, standing=None) -> dict:
     """Fit, diagnose and write partition ``p`` (``part-p.parquet``); a small summary for the client.
-    ``standing``: this partition's standing decisions (``ledger.backtest.by_partition``) with ``fit --ledger``."""
+    ``standing``: this partition's standing decisions (``ledger.standing.by_partition``) with ``fit --ledger``."""
     from ..data.dataset import from_columns
     from ..data.plan import plan_prices
     from ..fit.engine import fit_batch
@@ -155,7 +155,7 @@ def fit_part(p: int, table, job: PartJob, standing: dict | None = None) -> dict:
     if job.ledger is not None:  # signed curves against the rows since, and the shifted flag
         from ..ledger.backtest import backtest
         from ..review.flags import mark_shifted
-        found = backtest(results, standing or {}, job.thresholds, job.ledger)
+        found = backtest(results, standing if standing is not None else {}, job.thresholds, job.ledger)
         diagnosis = mark_shifted(diagnosis, found)
     write_parquet(results_table(results, diagnosis, found), Path(job.out) / f"part-{p:05d}.parquet")
     chosen = np.bincount(results.chosen[results.chosen >= 0], minlength=len(results.names))
@@ -258,8 +258,8 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
     del read
     standing, ledger_source = [None] * n_parts, None
     if book is not None:
-        from ..ledger.backtest import by_partition
-        standing = by_partition(book.histories, columns.keys, n_parts)
+        from ..ledger.standing import by_partition, standing_of
+        standing = by_partition(standing_of(book.histories), columns.keys, n_parts)
         ledger_source = {"path": str(book.path.resolve()), "head": book.head_text, "state": book.state}
     job = PartJob(columns, settings, thresholds, str(plan_file) if plan_file else None, plan_price, source,
                   str(out), sep, ledger_source)
