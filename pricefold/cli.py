@@ -189,6 +189,10 @@ def run_fit(args) -> int:
         from .fit_dask import run_fit_dask
         return run_fit_dask(args, settings, thresholds)
     started = time.perf_counter()
+    ahead = None
+    if args.ledger is not None:  # read and verified beside the load and the fit
+        from .cycle_cli import LedgerAhead
+        ahead = LedgerAhead(args.ledger, [args.output])
     data, rejects = load_with_rejects(args.data, columns_from(args), sep=args.sep)
     report_rejects(rejects, rejects_path(args.output), strict=args.strict, quiet=args.quiet)
     plan = plan_prices(data, args.plan, args.sep) if args.plan else args.plan_price
@@ -199,9 +203,9 @@ def run_fit(args) -> int:
         bar.close()
     diagnosis = diagnose(results, thresholds)
     backtest = None
-    if args.ledger is not None:  # the signed curves against the rows since, and the shifted flag
+    if ahead is not None:  # the signed curves against the rows since, and the shifted flag
         from .cycle_cli import backtest_against, backtest_line
-        diagnosis, backtest = backtest_against(args.ledger, results, diagnosis, thresholds, [args.output])
+        diagnosis, backtest = backtest_against(ahead, results, diagnosis, thresholds)
     write_results(results, args.output, diagnosis, backtest=backtest)
     if not args.quiet:
         print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)

@@ -44,16 +44,74 @@ def same_file(a: Path, b: Path) -> bool:
         return False
 
 
-def backtest_against(ledger_path: Path, results, diagnosis, thresholds, outputs=()):
+class LedgerAhead:
+    """The ledger read and verified in a forked process while this one loads and fits the data: what the
+    backtest needs comes back as columns (``fitcore.ledger.standing``).  Where processes cannot be
+    forked, or the child fails, the ledger is read here instead, when the result is asked for."""
+
+    def __init__(self, path: Path, outputs=()) -> None:
+        for output in outputs:
+            if same_file(Path(output), path):
+                raise ledger.LedgerError(f"{output}: is the ledger; choose another results name")
+        self.path, self.process, self.pipe = path, None, None
+        try:
+            import multiprocessing
+            context = multiprocessing.get_context("fork")
+            self.pipe, child = context.Pipe(duplex=False)
+            self.process = context.Process(target=_read_ahead, args=(path, child), daemon=True)
+            self.process.start()
+            child.close()
+        except (ValueError, OSError):  # no fork here: read it when asked
+            self.process = None
+
+    def result(self) -> tuple[dict, object]:
+        """``(source, standing)``: the ledger's path, head and state, and its standing decisions."""
+        said = None
+        if self.process is not None:
+            try:
+                said = self.pipe.recv()
+            except (EOFError, OSError):
+                said = None
+            self.process.join()
+        if said is None:
+            said = _read_now(self.path)
+        state, problem, notes, head, standing = said
+        if state == ledger.BROKEN:
+            raise ledger.LedgerError(f"{self.path}: {problem}; the chain is broken, so nothing was done "
+                                     "(see 'pricefold ledger verify')")
+        if state == ledger.UNVERIFIABLE:
+            print(f"{self.path}: warning: keyed records and no key: read unverified", file=sys.stderr)
+        for note in notes:
+            print(f"{self.path}: {note}", file=sys.stderr)
+        return {"path": str(self.path.resolve()), "head": head, "state": state}, standing
+
+
+def _read_now(path: Path):
+    from fitcore.ledger.standing import standing_of
+
+    from .ledger_cli import ledger_key
+    book = ledger.Ledger(path, ledger_key())
+    return (book.state, str(book.problem) if book.problem else None, [str(n) for n in book.notes], book.head_text,
+            standing_of(book.histories))
+
+
+def _read_ahead(path: Path, pipe) -> None:
+    try:
+        said = _read_now(path)
+    except BaseException:  # the parent reads it itself and reports what goes wrong
+        said = None
+    try:
+        pipe.send(said)
+    finally:
+        pipe.close()
+
+
+def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
     """``(diagnosis with 'shifted', backtest)`` of ``results`` (a fit, rows loaded) against the ledger."""
     from fitcore.ledger.backtest import backtest
     from fitcore.review.flags import mark_shifted
-    for output in outputs:
-        if same_file(Path(output), ledger_path):
-            raise ledger.LedgerError(f"{output}: is the ledger; choose another results name")
-    book = open_ledger(ledger_path, refuse=(ledger.BROKEN,))
-    found = backtest(results, book.histories, thresholds,
-                     {"path": str(ledger_path.resolve()), "head": book.head_text, "state": book.state})
+    source, standing = ahead.result()
+    found = backtest(results, standing, thresholds, source)
     return mark_shifted(diagnosis, found), found
 
 
