@@ -32,7 +32,16 @@ def _num(value):
 
 
 def _nums(values) -> list:
-    return [v if math.isfinite(v) else None for v in np.asarray(values, dtype=float).tolist()]
+    values = values if isinstance(values, list) else np.asarray(values, dtype=float).tolist()
+    return [v if math.isfinite(v) else None for v in values]
+
+
+def _rows(values: np.ndarray, finite: np.ndarray) -> list:
+    """``values`` (n, …) as nested lists, NaN as None (rows all finite go as they are)."""
+    out = values.tolist()
+    for i in np.flatnonzero(~finite).tolist():
+        out[i] = [_nums(v) for v in out[i]] if values.ndim == 3 else _nums(out[i])
+    return out
 
 
 def evaluate(family: Family, coef, mid, half, smear, cov, sigma2, df, price, level):
@@ -76,16 +85,17 @@ def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, c
             column[at] = value
     smeared = fam.smeared
     out = []
-    columns = zip(plain.tolist(), coef.tolist(), np.asarray(mid, float).tolist(), np.asarray(half, float).tolist(),
-                  np.asarray(smear, float).tolist(), cov.tolist(), sigma2.tolist(), df.tolist(),
+    columns = zip(_rows(plain, np.isfinite(plain).all(axis=1)), _rows(coef, np.isfinite(coef).all(axis=1)),
+                  np.asarray(mid, float).tolist(), np.asarray(half, float).tolist(),
+                  np.asarray(smear, float).tolist(), _rows(cov, complete), sigma2.tolist(), df.tolist(),
                   np.asarray(n).tolist(), np.asarray(lo, float).tolist(), np.asarray(hi, float).tolist(), last_date,
                   plan_price.tolist(), volume.tolist(), p_lo.tolist(), p_hi.tolist(), elasticity.tolist(),
                   np.asarray(cv_mse, float).tolist(), complete.tolist())
     for (pc, bc, m, h, sm, cv, s2, d, count, low, high, last, pp, vol, plo, phi, el, mse, whole) in columns:
         snapshot = {
-            "candidate": name, "family": family, "coef": _nums(pc), "smearing": _num(sm) if smeared else None,
-            "basis": {"x": fam.regressor, "mid": _num(m), "half": _num(h), "coef": _nums(bc)},
-            "cov_unscaled": [_nums(row) for row in cv] if whole else None,
+            "candidate": name, "family": family, "coef": pc, "smearing": _num(sm) if smeared else None,
+            "basis": {"x": fam.regressor, "mid": _num(m), "half": _num(h), "coef": bc},
+            "cov_unscaled": cv if whole else None,
             "sigma2": _num(s2) if whole else None, "df": int(d) if whole else None, "level": level,
             "n": int(count), "price_range": [_num(low), _num(high)], "last_date": last,
             "plan": None if not math.isfinite(pp) else {"price": pp, "volume": _num(vol), "lo": _num(plo),

@@ -36,7 +36,7 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
     path = book.path
     if not callable(entries):
         entries = list(entries)
-        check_alone(entries)
+        signed = check_alone(entries)
     fd = files.open_ledger(path, write=True)
     try:
         files.lock(fd, fcntl.LOCK_EX)
@@ -46,7 +46,7 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
             raise LedgerError(f"{path}: {book.problem}; nothing was recorded ({refuse})")
         if callable(entries):
             entries = list(entries(book.records))
-            check_alone(entries)
+            signed = check_alone(entries)
         check_against(entries, book.histories, who)
         if not entries:
             return []
@@ -57,7 +57,8 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
         lines, records = [], []
         for index, entry in enumerate(entries, start=1):
             marker = {"id": batch, "index": index, "size": len(entries)} if batch else None
-            record, line = new_record(entry, who, seq + index, stamp(clock()), prev, marker, book.key)
+            record, line = new_record(entry, who, seq + index, stamp(clock()), prev, marker, book.key,
+                                      signed[index - 1])
             prev = record["digest"]
             lines.append(line)
             records.append(record)

@@ -107,3 +107,18 @@ def test_results_without_interval_parts_give_an_incomplete_snapshot_that_says_so
     assert snap["cov_unscaled"] is None and snap["sigma2"] is None and snap["df"] is None
     assert snap["incomplete"] == INCOMPLETE and snap["last_date"] is None
     assert snap["plan"]["lo"] is None and snap["plan"]["volume"] == results.plan_volume[0, c]
+
+
+def test_a_signed_record_is_written_as_its_canonical_json_whatever_its_key_holds(tmp_path):
+    """The writer encodes the signed model once and puts its bytes in place; the line must still be the
+    record's canonical JSON (a series key that mimics the stand-in, or names a column 'signed', included)."""
+    from fitcore import ledger
+    from fitcore.ledger.records import canonical
+    key = {"product": "\x00signed\x00", "signed": "\x00signed\x00", "supersedes": "x"}
+    signed = {"candidate": "poly1", "coef": [1.5, -0.25], "nested": {"signed": "\x00signed\x00"}}
+    [record] = ledger.append(tmp_path / "l.jsonl", [ledger.Entry(series=key, action="accept", fingerprint="f" * 64,
+                                                                  results="ab" * 32, model="poly1", signed=signed)],
+                             ledger.Identity("ana", "ana", "host"))
+    line = (tmp_path / "l.jsonl").read_bytes()
+    assert line == canonical(record) + b"\n" and record["signed"] == signed and record["series"] == key
+    assert ledger.verify(tmp_path / "l.jsonl") == [] and ledger.Ledger(tmp_path / "l.jsonl").records[0] == record
