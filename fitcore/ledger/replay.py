@@ -19,16 +19,17 @@ def series_id(key: dict) -> str:
     encoding each time was a third of opening a 100,000-record ledger)."""
     try:
         probe = tuple(key.items())
-        if all(type(v) is str for _, v in probe):
-            known = _IDS.get(probe)
-            if known is None:
-                if len(_IDS) >= _IDS_LIMIT:
-                    _IDS.clear()
-                known = _IDS[probe] = _CANONICAL.encode(key)
+        known = _IDS.get(probe)  # a hit is a key of text: only those are kept, and "1" != 1
+        if known is not None:
             return known
     except (AttributeError, TypeError):  # not a mapping of text: encoded (or refused) as it always was
-        pass
-    return _CANONICAL.encode(key)
+        return _CANONICAL.encode(key)
+    known = _CANONICAL.encode(key)
+    if all(type(v) is str for _, v in probe):
+        if len(_IDS) >= _IDS_LIMIT:
+            _IDS.clear()
+        _IDS[probe] = known
+    return known
 
 
 _IDS: dict[tuple, str] = {}
