@@ -79,8 +79,9 @@ def build_parser() -> argparse.ArgumentParser:
                       help="where to write results.json and ledger.jsonl (default: ./pricefold-demo)")
     demo.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
 
+    from .cycle_cli import add_carry_parser
     from .ledger_cli import add_parser as add_ledger_parser
-    add_ledger_parser(commands)
+    add_carry_parser(add_ledger_parser(commands))
     from .report.command import add_parser as add_report_parser
     add_report_parser(commands)
     return parser
@@ -368,6 +369,9 @@ def run_demo(args) -> int:
 
 
 def run_ledger(args) -> int:
+    if args.ledger_command == "carry":
+        from .cycle_cli import run_carry
+        return run_carry(args)
     from .ledger_cli import run
     return run(args)
 

@@ -37,7 +37,7 @@ def identity(analyst: str | None) -> ledger.Identity:
     return ledger.Identity(analyst=analyst or os_user, os_user=os_user, host=socket.gethostname())
 
 
-def add_parser(commands) -> None:
+def add_parser(commands):
     parser = commands.add_parser("ledger", help="verify, show or export the sign-off ledger",
                                  description="The ledger records every sign-off decision, chained so that any "
                                              f"later edit is detected. Set {KEY_VARIABLE} to key the chain.")
@@ -63,15 +63,13 @@ def add_parser(commands) -> None:
     bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     bulk.add_argument("--note", default="", metavar="TEXT")
     bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
-    from .cycle_cli import add_carry_parser
-    add_carry_parser(sub)
+    return sub
 
 
 def run(args) -> int:
-    from .cycle_cli import run_carry
     from .ledger_export import run_export
-    return {"verify": run_verify, "show": run_show, "export": run_export, "accept-unflagged": run_accept_unflagged,
-            "carry": run_carry}[args.ledger_command](args)
+    return {"verify": run_verify, "show": run_show, "export": run_export,
+            "accept-unflagged": run_accept_unflagged}[args.ledger_command](args)
 
 
 def open_ledger(path: Path, *, refuse: tuple[str, ...] = ()) -> ledger.Ledger:
