@@ -57,8 +57,15 @@ async def test_signed_series_with_new_rows_are_stale_with_what_is_due(next_cycle
         app.screen.refresh_all()
         await pilot.pause(0.3)
         text = screen_text(app)
-        assert f"due: {session.due(s)}" in text and "Since sign-off: Signed" in text
+        assert f"due: {session.due(s)}" in text and "shifted: Signed" in text
         assert "observation since, its error is" in text and "++ signed" in text and "× 1 new since" in text
+        passed = next(int(t) for t in range(session.results.n_series)
+                      if stale[t] and not shifted[t] and session.backtest_of(t)["status"] == "passed")
+        session.set_filter("changed", None)
+        session.bring(passed)
+        app.screen.refresh_all()
+        await pilot.pause(0.3)
+        assert "due: backtest passed" in screen_text(app) and "Since sign-off: Signed" in screen_text(app)
         # Accepting it again records this cycle's model, complete, on the new data.
         before = len(ledger.Ledger(copy).records)
         session.decide(session.look(s), "accept", note="the new week is a one-off")

@@ -149,7 +149,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         """Since sign-off: the signed curve on the rows since and this cycle's proposal beside it, in numbers."""
         from fitcore.review.sentences import shift_sentence
         record = self.session.backtest_of(s) if self.session.status[s] == "stale" else None
-        if record is None:
+        if record is None or "shifted" in self.session.flag_codes(s):  # the flag's sentence says it already
             return Text()
         chosen = int(self.session.results.chosen[s])
         text = Text("Since sign-off: ", style="bold")
