@@ -8,8 +8,6 @@ from __future__ import annotations
 
 import argparse
 import sys
-import time
-from collections import Counter
 from pathlib import Path
 
 CAUTION = ("Curves fitted to observational sales data confound price with promotions, seasons and "
@@ -17,8 +15,16 @@ CAUTION = ("Curves fitted to observational sales data confound price with promot
            "pricefold proposes; the analyst decides.")
 
 
+class OneLineParser(argparse.ArgumentParser):
+    """argparse, with a usage mistake reported as one line (the usage is one ``--help`` away)."""
+
+    def error(self, message: str):
+        self.exit(2, f"{self.prog}: {message} (see {self.prog} --help)\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    from .options import add_column_options, add_fit_options
+    parser = OneLineParser(
         prog="pricefold", description="Fit and cross-validate a demand curve for every price–volume series.",
         epilog=CAUTION)
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
@@ -28,13 +34,11 @@ def build_parser() -> argparse.ArgumentParser:
                               epilog=CAUTION)
     fit.add_argument("data", type=Path, metavar="DATA", help="CSV/TSV (optionally .gz) or Parquet file or folder")
     fit.add_argument("-o", "--output", type=Path, required=True, metavar="OUT",
-                     help="results file: .json (small runs) or .parquet (large ones)")
+                     help="results file: .json (small runs) or .parquet (large ones); its folder must exist")
     add_column_options(fit)
     add_fit_options(fit)
-    fit.add_argument("--threshold", action="append", default=[], metavar="NAME=VALUE",
-                     help="override a flag threshold, e.g. min_points=8 (repeatable)")
     fit.add_argument("--strict", action="store_true",
-                     help="fail (exit 2) if any row is rejected, instead of fitting the usable rows")
+                     help="fail (exit 2, nothing written) if any row is rejected, instead of fitting the usable rows")
     fit.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
     from .cycle_cli import add_fit_ledger_option
     add_fit_ledger_option(fit)
@@ -68,8 +72,6 @@ def build_parser() -> argparse.ArgumentParser:
     add_session_options(triage)
     add_column_options(triage)
     add_fit_options(triage)
-    triage.add_argument("--threshold", action="append", default=[], metavar="NAME=VALUE",
-                        help="override a flag threshold (repeatable)")
 
     demo = commands.add_parser("demo", help="the whole job on the bundled invented sample, ending in triage",
                                description="Fit the bundled sample scenario (an invented wholesaler), write "
@@ -93,164 +95,9 @@ def add_session_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
 
 
-def add_column_options(parser: argparse.ArgumentParser) -> None:
-    group = parser.add_argument_group("columns")
-    group.add_argument("--product", default=None, metavar="COL", help="product column (default: product)")
-    group.add_argument("--segment", action="append", default=None, metavar="COL",
-                       help="a column that splits a product into series (repeatable), e.g. region")
-    group.add_argument("--price", default=None, metavar="COL", help="price column (default: price)")
-    group.add_argument("--volume", default=None, metavar="COL", help="volume column (default: volume)")
-    group.add_argument("--date", default=None, metavar="COL",
-                       help="date column, ISO dates (needed by --fold-order time; repeats of a series and date are rejected)")
-    group.add_argument("--weight", default=None, metavar="COL",
-                       help="observation weights ≥ 0: weighted least squares throughout")
-    group.add_argument("--sep", default=None, metavar="CHAR", help="field separator (default: from the file)")
-
-
-def add_fit_options(parser: argparse.ArgumentParser) -> None:
-    group = parser.add_argument_group("fitting")
-    group.add_argument("--config", type=Path, default=None, metavar="FILE",
-                       help="settings file (default: pricefold.toml in the current folder, if there is one)")
-    group.add_argument("--degrees", default=None, metavar="A-B", help="polynomial degrees to try (default: 0-5)")
-    group.add_argument("--no-loglog", dest="loglog", action="store_const", const=False, default=None,
-                       help="leave out the constant-elasticity curve ln volume = a + e·ln price")
-    group.add_argument("--semilog", action="store_const", const=True, default=None,
-                       help="add the constant semi-elasticity curve ln volume = a + b·price")
-    group.add_argument("--folds", default=None, metavar="K|loo", help="number of folds, or loo (default: 5)")
-    group.add_argument("--fold-order", default=None, choices=("shuffled", "given", "time"),
-                       help="deal rows into folds shuffled (seeded), in file order, or by date (default: shuffled)")
-    group.add_argument("--seed", type=int, default=None, help="seed of the fold shuffle (default: 0)")
-    group.add_argument("--rule", default=None, choices=("one-se", "lowest"),
-                       help="one-se: simplest within one standard error of the best; lowest: lowest CV error")
-    plan = group.add_mutually_exclusive_group()
-    plan.add_argument("--plan-price", type=float, default=None, metavar="P", help="one plan price for every series")
-    plan.add_argument("--plan", type=Path, default=None, metavar="FILE",
-                      help="plan prices per series: the key columns and plan_price")
-
-
-def resolve(args) -> None:
-    """Fill every option not given on the command line from the settings file, then the defaults."""
-    from fitcore.data.config import load_config, pick
-    config = load_config(args.config)
-    for option, table, key, default in (
-            ("product", "columns", "product", "product"), ("segment", "columns", "segments", []),
-            ("price", "columns", "price", "price"), ("volume", "columns", "volume", "volume"),
-            ("date", "columns", "date", None), ("weight", "columns", "weight", None), ("sep", "columns", "sep", None),
-            ("degrees", "fit", "degrees", "0-5"), ("loglog", "fit", "loglog", True),
-            ("semilog", "fit", "semilog", False), ("folds", "fit", "folds", "5"),
-            ("fold_order", "fit", "fold_order", "shuffled"), ("seed", "fit", "seed", 0), ("rule", "fit", "rule", "one-se")):
-        setattr(args, option, pick(getattr(args, option), config, table, key, default))
-    if args.plan is None and args.plan_price is None:
-        args.plan_price = config.get("fit", {}).get("plan_price")
-        plan = config.get("fit", {}).get("plan")
-        args.plan = Path(plan) if plan else None
-    if isinstance(args.degrees, list):
-        args.degrees = ",".join(str(d) for d in args.degrees)
-    args.folds = str(args.folds)
-    file_thresholds = [f"{k}={v}" for k, v in config.get("thresholds", {}).items()]
-    args.threshold = file_thresholds + list(getattr(args, "threshold", []) or [])
-    args.config_path = config.get("_path")
-
-
-def columns_from(args):
-    from fitcore.data.loader import Columns
-    return Columns(product=args.product, segments=tuple(args.segment), price=args.price, volume=args.volume,
-                   date=args.date, weight=args.weight)
-
-
-def settings_from(args):
-    from fitcore.fit.settings import FitSettings, parse_degrees, parse_folds, provenance
-    extra = provenance(columns_from(args).as_dict(), str(args.plan.resolve()) if args.plan else None, args.plan_price)
-    if args.config_path:
-        extra["config"] = args.config_path
-    return FitSettings(degrees=parse_degrees(str(args.degrees)), loglog=bool(args.loglog),
-                       semilog=bool(args.semilog), folds=parse_folds(args.folds), fold_order=args.fold_order,
-                       seed=int(args.seed), rule=args.rule, extra=extra)
-
-
 def run_fit(args) -> int:
-    from fitcore import fit_batch
-    from fitcore.data.loader import load_with_rejects
-    from fitcore.data.plan import plan_prices
-    from fitcore.errors import SettingsError
-    from fitcore.results.write import write_results
-    from fitcore.review.flags import diagnose
-    from fitcore.review.thresholds import Thresholds, parse_threshold_options
-
-    from .progress import ProgressLine
-
-    resolve(args)
-    settings = settings_from(args)
-    thresholds = Thresholds().with_overrides(parse_threshold_options(args.threshold))
-    if settings.fold_order == "time" and not args.date:
-        raise SettingsError("--fold-order time needs the date column: add --date COLUMN")
-    if args.plan_price is not None and not args.plan_price > 0:
-        raise SettingsError(f"expected --plan-price above zero, got {args.plan_price}")
-    if args.engine == "dask":
-        from .fit_dask import run_fit_dask
-        return run_fit_dask(args, settings, thresholds)
-    started = time.perf_counter()
-    ahead = None
-    if args.ledger is not None:  # read and verified beside the load and the fit
-        from .cycle_cli import LedgerAhead
-        ahead = LedgerAhead(args.ledger, [args.output])
-    data, rejects = load_with_rejects(args.data, columns_from(args), sep=args.sep)
-    report_rejects(rejects, rejects_path(args.output), strict=args.strict, quiet=args.quiet)
-    plan = plan_prices(data, args.plan, args.sep) if args.plan else args.plan_price
-    bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
-    try:
-        results = fit_batch(data, settings, plan_price=plan, progress=bar)
-    finally:
-        bar.close()
-    diagnosis = diagnose(results, thresholds)
-    backtest = None
-    if ahead is not None:  # the signed curves against the rows since, and the shifted flag
-        from .cycle_cli import backtest_against, backtest_line
-        diagnosis, backtest = backtest_against(ahead, results, diagnosis, thresholds)
-    write_results(results, args.output, diagnosis, backtest=backtest)
-    if not args.quiet:
-        print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)
-        if backtest is not None:
-            print(backtest_line(backtest), file=sys.stderr)
-    return 0
-
-
-def rejects_path(output: Path) -> Path:
-    return output.with_name(output.name.split(".")[0] + ".rejects.csv")
-
-
-def report_rejects(rejects, target: Path, *, strict: bool, quiet: bool) -> None:
-    """Write the rejected rows to ``target`` and say so in one line; with ``strict``, fail."""
-    from fitcore.data.loader import write_rejects
-    from fitcore.data.validation import summary as rejects_summary
-    from fitcore.errors import DataError
-
-    if not len(rejects):
-        target.unlink(missing_ok=True)  # an older run's rejects would now mislead
-        return
-    write_rejects(rejects, target)
-    if strict:
-        raise DataError(f"{rejects.reasons[0]} ({rejects_summary(rejects.reasons)}; --strict; see {target})",
-                        path=str(rejects.path), line=int(rejects.lines[0]))
-    if not quiet:
-        print(f"{rejects_summary(rejects.reasons)} — see {target}", file=sys.stderr)
-
-
-def summary(results, diagnosis, seconds: float, output: Path) -> str:
-    names = results.names
-    chosen = Counter(names[c] if c >= 0 else "none" for c in results.chosen.tolist())
-    return summary_line(results.n_series, results.data.n_rows, {name: chosen[name] for name in [*names, "none"]},
-                        diagnosis.counts(), int((~diagnosis.raised.any(axis=1)).sum()), f"in {seconds:.2f} s",
-                        str(output))
-
-
-def summary_line(n_series: int, n_rows: int, chosen: dict, flags: dict, clean: int, how: str, where: str) -> str:
-    """'fitted 180 series (18,625 rows) in 0.41 s; chosen: …\nflags: …; 159 series (88%) carry none → OUT'."""
-    parts = " · ".join(f"{name} {count:,}" for name, count in chosen.items() if count)
-    flagged = " · ".join(f"{code} {count:,}" for code, count in flags.items()) or "none"
-    share = clean / n_series if n_series else 1.0
-    return (f"fitted {n_series:,} series ({n_rows:,} rows) {how}; chosen: {parts}\n"
-            f"flags: {flagged}; {clean:,} series ({share:.0%}) carry none → {where}")
+    from .fit_run import run_fit as fit
+    return fit(args)
 
 
 def run_show(args) -> int:
@@ -280,12 +127,13 @@ def run_show(args) -> int:
 
 
 def is_results(path: Path) -> bool:
+    from fitcore.data.columns import is_parquet_name
     from fitcore.results.read import result_parts
     if result_parts(path) is not None:
         return True
     if path.suffix.lower() == ".json":
         return True
-    if path.suffix.lower() in (".parquet", ".pq") and path.is_file():
+    if is_parquet_name(path) and path.is_file():
         import pyarrow.parquet as pq
         try:
             return b"pricefold" in (pq.read_schema(path).metadata or {})
@@ -295,27 +143,39 @@ def is_results(path: Path) -> bool:
 
 
 def run_triage(args) -> int:
+    from dataclasses import replace
+
     from fitcore.data.config import load_config
-    from fitcore.review.thresholds import Thresholds, parse_threshold_options
+    from fitcore.outputs import check_not_input
     from tui.factory import Source, default_ledger, is_stored, source_from_results
+
+    from .options import resolve, settings_file_keys
     ledger_path = args.ledger or default_ledger(args.source)
-    units = load_config(args.config).get("units", {})
+    units = load_config(args.config, settings_file_keys()).get("units", {})
     if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen
         source = source_from_results(args.source, check_data=False)
+        check_not_input(ledger_path, [("the results", args.source), *_source_inputs(source)])
         source.units = units
         return open_triage(source, ledger_path, args.analyst, stored=args.source)
     if is_results(args.source):
         source = source_from_results(args.source)
+        inputs = [("the results", args.source), *_source_inputs(source)]
     else:
-        resolve(args)
+        run = resolve(args)
         if not args.source.exists():
             from fitcore.errors import DataError
             raise DataError("file not found", path=str(args.source))
-        source = Source(data=args.source, columns=columns_from(args), settings=settings_from(args),
-                        plan_file=args.plan, plan_price=args.plan_price,
-                        thresholds=Thresholds().with_overrides(parse_threshold_options(args.threshold)))
+        source = Source(data=args.source, columns=run.columns, settings=replace(run.settings, extra={}),
+                        plan_file=run.plan_file, plan_price=run.plan_price, thresholds=run.thresholds)
+        inputs = [*_source_inputs(source), *run.inputs]
+    check_not_input(ledger_path, inputs)
     source.units = units
     return open_triage(source, ledger_path, args.analyst)
+
+
+def _source_inputs(source) -> list:
+    """The files a triage session reads, which its ledger must not be."""
+    return [("the data", source.data), ("the plan file", source.plan_file)]
 
 
 # Above this many input rows, triage on stored results does not refit the data for the observations
@@ -351,20 +211,32 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
 
 def run_demo(args) -> int:
     from fitcore.data.config import load_config
+    from fitcore.errors import DataError
+    from fitcore.outputs import check_outputs
     from fitcore.results.write import write_results
     from tui.factory import fit_source, sample_source, source_from_results
 
     folder = args.dir
-    folder.mkdir(parents=True, exist_ok=True)
+    if folder.exists() and not folder.is_dir():
+        raise DataError("exists and is not a folder; --dir names the folder for the demo's files", path=str(folder))
+    sample = sample_source()
+    inputs = [("the sample data", sample.data), ("the sample plan", sample.plan_file)]
+    if folder.is_dir():
+        check_outputs([(folder / "results.json", "results")], inputs)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)  # the demo's own folder, as documented
+    except OSError as exc:
+        raise DataError(f"cannot make the folder ({exc.strerror})", path=str(folder)) from None
     print("fitting the invented sample …\n(the first run after an install also compiles the engine: ~10 s, once)",
           file=sys.stderr)
-    results, diagnosis = fit_source(sample_source())
+    results, diagnosis = fit_source(sample)
     results_path = folder / "results.json"
     write_results(results, results_path, diagnosis)
     print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
     print(f"report: pricefold report {results_path} --ledger {folder}/ledger.jsonl -o {folder}/report.html", file=sys.stderr)
     source = source_from_results(results_path)
-    source.units = load_config(None).get("units", {})
+    from .options import settings_file_keys
+    source.units = load_config(None, settings_file_keys()).get("units", {})
     return open_triage(source, folder / "ledger.jsonl", args.analyst)
 
 
@@ -386,10 +258,16 @@ COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger, "triage": ru
 
 
 def main(argv: list[str] | None = None) -> int:
+    import warnings
+
     from fitcore.errors import PricefoldError
     args = build_parser().parse_args(argv)
     try:
-        return COMMANDS[args.command](args)
+        with warnings.catch_warnings():
+            # Floating-point trouble (1e308, 1e-320) is data: the engine masks non-finite values and marks
+            # candidates unavailable; numpy's running commentary on it is noise to a user.
+            warnings.filterwarnings("ignore", category=RuntimeWarning, module=r"(fitcore|numpy|pandas)(\.|$)")
+            return COMMANDS[args.command](args)
     except PricefoldError as exc:
         print(f"pricefold {args.command}: {exc}", file=sys.stderr)
         return 2

@@ -1,19 +1,18 @@
-"""``pricefold fit --engine dask``: the results as a folder of Parquet parts with ``_summary.json``."""
+"""``pricefold fit --engine dask``: the results as a folder of Parquet parts with ``_summary.json`` (and
+``rejects.csv`` when rows were rejected), built beside the target and swapped in whole."""
 from __future__ import annotations
 
 import sys
 import time
 from pathlib import Path
 
-from .cli import columns_from, report_rejects, summary_line
+from .summary import rejects_line, summary_line
 
 
-def run_fit_dask(args, settings, thresholds) -> int:
-    import numpy as np
-
-    from fitcore.data.loader import Rejects, file_kind
+def run_fit_dask(args, run) -> int:
     from fitcore.errors import SettingsError
-    from fitcore.scale.dask_engine import connect, disconnect, fit_on_dask
+    from fitcore.outputs import check_outputs
+    from fitcore.scale.dask_engine import REJECTS, connect, disconnect, fit_on_dask
 
     from .progress import ProgressLine
 
@@ -22,6 +21,7 @@ def run_fit_dask(args, settings, thresholds) -> int:
                             f"not {args.output.name!r}")
     if args.workers < 1 or (args.partitions is not None and args.partitions < 1):
         raise SettingsError("expected --workers and --partitions of at least 1")
+    check_outputs([(args.output, "results-folder")], [("the data", args.data), *run.inputs])
     book = None
     if getattr(args, "ledger", None) is not None:  # read (and verified) once here; each partition gets its series
         from fitcore import ledger
@@ -35,38 +35,31 @@ def run_fit_dask(args, settings, thresholds) -> int:
     client = connect(args.scheduler, args.workers)
     bar = ProgressLine("fitting partitions", enabled=None if not args.quiet else False)
     try:
-        total = fit_on_dask(args.data, columns_from(args), settings, thresholds, args.output, plan_file=args.plan,
-                            plan_price=args.plan_price, sep=args.sep, client=client, partitions=args.partitions,
-                            progress=bar, ledger=book)
+        total = fit_on_dask(args.data, run.columns, run.settings, run.thresholds, args.output,
+                            plan_file=run.plan_file, plan_price=run.plan_price, sep=run.sep, client=client,
+                            partitions=args.partitions, progress=bar, strict=args.strict, ledger=book)
     finally:
         bar.close()
         disconnect(client)
-    rejected = total["rejected"]
-    kind = "parquet" if args.data.is_dir() else file_kind(args.data)[0]
-    delimiter = None if kind == "parquet" or not rejected["lines"] else args.sep or _delimiter_of(args.data)
-    report_rejects(Rejects(args.data, kind, delimiter, np.array(rejected["lines"], dtype=np.int64),
-                           rejected["reasons"]), args.output / "rejects.csv", strict=args.strict, quiet=args.quiet)
-    if args.plan and total["plan_matched"] < _plan_rows(args.plan):
-        print(f"warning: {args.plan} names series that are not in the data", file=sys.stderr)
-    if not args.quiet:
-        from fitcore.fit.families import candidates_for
-        from fitcore.review.flags import CODES
-        chosen = {c.name: total["chosen"].get(c.name, 0) for c in candidates_for(settings)} | {"none": total["none"]}
-        flags = {code: total["flags"][code] for code in CODES if code in total["flags"]}
-        print(summary_line(total["series"], total["rows"], chosen, flags, total["clean"],
-                           f"on {total['workers']} Dask workers in {time.perf_counter() - started:.2f} s",
-                           f"{args.output}/ ({total['partitions']} parts)"), file=sys.stderr)
-        if book is not None:
-            tested = sum(total["backtest"].values())
-            parts = " · ".join(f"{name} {count:,}" for name, count in sorted(total["backtest"].items()))
-            print(f"ledger: {tested:,} signed series on changed data" + (f" — backtest {parts}; shifted "
-                  f"{total['shifted']:,}" if tested else ""), file=sys.stderr)
+    if run.plan_file and total["plan_matched"] < _plan_rows(run.plan_file):
+        print(f"warning: {run.plan_file} names series that are not in the data", file=sys.stderr)
+    if args.quiet:
+        return 0
+    if total["rejected"]["lines"]:
+        print(rejects_line(total["rejected"]["reasons"], args.output / REJECTS), file=sys.stderr)
+    from fitcore.fit.families import candidates_for
+    from fitcore.review.flags import CODES
+    chosen = {c.name: total["chosen"].get(c.name, 0) for c in candidates_for(run.settings)} | {"none": total["none"]}
+    flags = {code: total["flags"][code] for code in CODES if code in total["flags"]}
+    print(summary_line(total["series"], total["rows"], chosen, flags, total["clean"],
+                       f"on {total['workers']} Dask workers in {time.perf_counter() - started:.2f} s",
+                       f"{args.output}/ ({total['partitions']} parts)"), file=sys.stderr)
+    if book is not None:
+        tested = sum(total["backtest"].values())
+        parts = " · ".join(f"{name} {count:,}" for name, count in sorted(total["backtest"].items()))
+        print(f"ledger: {tested:,} signed series on changed data" + (f" — backtest {parts}; shifted "
+              f"{total['shifted']:,}" if tested else ""), file=sys.stderr)
     return 0
-
-
-def _delimiter_of(path: Path) -> str:
-    from fitcore.data.loader import _sniff, file_kind
-    return file_kind(path)[1] or _sniff(path)
 
 
 def _plan_rows(path: Path) -> int:

@@ -10,12 +10,10 @@ from __future__ import annotations
 import csv
 import io
 import json
-import os
 import sys
 from pathlib import Path
 
 from fitcore import ledger
-from fitcore.errors import DataError
 from fitcore.ledger.replay import series_id
 
 from .ledger_cli import open_ledger
@@ -32,8 +30,10 @@ def run_export(args) -> int:
     from fitcore.results.read import results_in_parts
     header, parts = results_in_parts(args.results)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN,))
-    # The output guard (never write over the ledger, the results or another input) goes here,
-    # before anything is written: the one shared check of output paths against input paths.
+    from fitcore.outputs import check_outputs
+    from fitcore.results.read import results_inputs
+    check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
+                                              *results_inputs(header)])
     text = (lambda value: value) if args.raw else neutral
     buffer = io.StringIO()
     # RFC 4180 line ends: with "\r\n" as the terminator the writer also quotes a cell holding a lone
@@ -83,28 +83,7 @@ def _number(value):
 
 
 def write_text(path: Path, text: str) -> None:
-    """Write through a temporary file beside ``path`` and rename it over, so a failed run leaves an
-    earlier file whole.  A new file gets 0666 less the umask; an existing one keeps its mode."""
-    directory = path.resolve().parent
-    temp = directory / f".{path.name}.{os.getpid()}.tmp"
-    try:
-        mode = os.stat(path).st_mode & 0o7777
-    except FileNotFoundError:
-        mode = None
-    except OSError as exc:
-        raise DataError(f"cannot write ({exc.strerror})", path=str(path)) from None
-    try:
-        fd = os.open(temp, os.O_WRONLY | os.O_CREAT | os.O_TRUNC | os.O_CLOEXEC, 0o666)
-        try:
-            with os.fdopen(fd, "w", encoding="utf-8", newline="") as handle:
-                if mode is not None:
-                    os.fchmod(handle.fileno(), mode)
-                handle.write(text)
-                handle.flush()
-                os.fsync(handle.fileno())
-        except BaseException:
-            os.unlink(temp)
-            raise
-        os.replace(temp, path)
-    except OSError as exc:
-        raise DataError(f"cannot write ({exc.strerror})", path=str(path)) from None
+    """Write through the project's one atomic writer (a new file gets 0666 less the umask; an existing
+    one keeps its mode; a failed run leaves an earlier file whole)."""
+    from fitcore.outputs import atomic_write
+    atomic_write(path, lambda handle: handle.write(text.encode("utf-8")))

@@ -8,7 +8,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
-from fitcore.data.columns import Columns, file_sha256
+from fitcore.data.columns import Columns, file_sha256, is_parquet_name
 from fitcore.errors import DataError
 from fitcore.fit.settings import FitSettings, provenance, settings_from_dict
 from fitcore.ledger import Identity, results_digest
@@ -95,7 +95,7 @@ def is_stored(path: Path) -> bool:
     from fitcore.results.read import result_parts
     try:
         parts = result_parts(path)
-        if parts is None and Path(path).suffix.lower() not in (".parquet", ".pq"):
+        if parts is None and not is_parquet_name(path):
             return False
         return "window_coef" in pq.read_schema((parts or [path])[0]).names
     except Exception:  # not readable: the refit path reports it

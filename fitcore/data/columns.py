@@ -1,9 +1,12 @@
-"""Which input columns hold what, and a data file's digest: light enough to import anywhere."""
+"""Which input columns hold what, a data file's digest, and whether a name is Parquet's: light enough to
+import anywhere."""
 from __future__ import annotations
 
 import hashlib
 from dataclasses import dataclass
 from pathlib import Path
+
+PARQUET_SUFFIXES = (".parquet", ".pq")
 
 
 @dataclass(frozen=True)
@@ -46,3 +49,8 @@ def file_sha256(path: Path) -> str:
         for block in iter(lambda: handle.read(1 << 20), b""):
             digest.update(block)
     return digest.hexdigest()
+
+
+def is_parquet_name(path: str | Path) -> bool:
+    """Does the name end in .parquet or .pq (any case)?"""
+    return Path(path).suffix.lower() in PARQUET_SUFFIXES

@@ -1,35 +1,28 @@
-"""The settings file ``pricefold.toml``: columns, fit options and flag thresholds.
+"""The settings file ``pricefold.toml``: its tables and keys, checked against the settings table.
 
-Precedence: command line > settings file > built-in defaults.  Unknown
-tables or keys are an error naming the key and the valid ones.
+Which tables and keys exist, and the TOML types each accepts, come from the one table of settings
+(``fitcore.fit.settings.OPTIONS``, plus the flag thresholds): the caller passes them in, so this module
+only reads the file and says, in one line, what is wrong with it.  Unknown tables or keys are an error
+naming the valid ones.  For example::
 
-```toml
-[columns]
-product = "sku"
-segments = ["region"]
-price = "unit_price"
-volume = "units"
-date = "week"
-weight = "w"
-sep = ";"
+    [columns]
+    product = "sku"
+    segments = ["region"]
+    date = "week"
+    sep = ";"              # one character; "\\t" for tab
 
-[fit]
-degrees = "0-3"        # or [0, 1, 2, 3]
-loglog = true
-semilog = false
-folds = 5              # or "loo"
-fold_order = "time"
-seed = 0
-rule = "one-se"
-plan_price = 2.5       # or plan = "plan.csv"
+    [fit]
+    degrees = "0-3"        # or [0, 1, 2, 3]
+    folds = 5              # or "loo"
+    fold_order = "time"
+    plan_price = 2.5       # or plan = "plan.csv"
 
-[thresholds]
-min_points = 10
+    [thresholds]
+    min_points = 10
 
-[units]                # labels only, for the triage screen
-price = "EUR"
-volume = "cases/week"
-```
+    [units]                # labels only, for the triage screen
+    price = "EUR"
+    volume = "cases/week"
 """
 from __future__ import annotations
 
@@ -37,53 +30,46 @@ import tomllib
 from pathlib import Path
 
 from ..errors import SettingsError
-from ..review.thresholds import Thresholds
 
 DEFAULT_NAME = "pricefold.toml"
-TEXT, NUMBER = (str,), (int, float)
-KEYS = {
-    "columns": {"product": TEXT, "segments": (list,), "price": TEXT, "volume": TEXT, "date": TEXT, "weight": TEXT,
-                "sep": TEXT},
-    "fit": {"degrees": (str, list), "loglog": (bool,), "semilog": (bool,), "folds": (int, str), "fold_order": TEXT, "seed": (int,),
-            "rule": TEXT, "plan_price": NUMBER, "plan": TEXT},
-    "thresholds": {name: NUMBER for name in Thresholds.names()},
-    "units": {"price": TEXT, "volume": TEXT},
-}
 KIND_NAMES = {str: "text", list: "a list", bool: "true or false", int: "a whole number", float: "a number"}
 
 
-def load_config(path: Path | None, *, cwd: Path | None = None) -> dict:
-    """The settings file's tables (``{}`` when there is none).  ``path`` None: ``pricefold.toml`` in ``cwd``."""
+def load_config(path: Path | None, keys: dict[str, dict[str, tuple]], *, cwd: Path | None = None) -> dict:
+    """The settings file's tables (``{}`` when there is none), with ``"_path"`` naming the file.
+
+    ``path`` None: ``pricefold.toml`` in ``cwd``, if there is one.  ``keys``: table → key → the TOML
+    value types accepted.
+    """
     if path is None:
         path = (cwd or Path.cwd()) / DEFAULT_NAME
-        if not path.exists():
+        if not path.exists() and not path.is_symlink():
             return {}
     elif not path.exists():
         raise SettingsError(f"{path}: settings file not found")
+    if not path.is_file():
+        raise SettingsError(f"{path}: expected a settings file (TOML), found a folder or a special file")
     try:
         document = tomllib.loads(path.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+    except UnicodeDecodeError:
+        raise SettingsError(f"{path}: expected UTF-8 text (a TOML settings file)") from None
+    except tomllib.TOMLDecodeError as exc:
         raise SettingsError(f"{path}: not valid TOML ({exc})") from None
+    except OSError as exc:
+        raise SettingsError(f"{path}: cannot read the settings file ({exc.strerror})") from None
     for table, values in document.items():
-        if table not in KEYS:
+        if table not in keys:
             raise SettingsError(f"{path}: unknown table [{table}]; expected one of "
-                                f"{', '.join(f'[{t}]' for t in KEYS)}")
+                                f"{', '.join(f'[{t}]' for t in keys)}")
         if not isinstance(values, dict):
             raise SettingsError(f"{path}: {table} must be a table, like [{table}]")
         for key, value in values.items():
-            if key not in KEYS[table]:
+            if key not in keys[table]:
                 raise SettingsError(f"{path}: unknown key {key!r} in [{table}]; expected one of "
-                                    f"{', '.join(sorted(KEYS[table]))}")
-            kinds = KEYS[table][key]
+                                    f"{', '.join(sorted(keys[table]))}")
+            kinds = keys[table][key]
             if isinstance(value, bool) and bool not in kinds or not isinstance(value, kinds):
                 wanted = " or ".join(KIND_NAMES[k] for k in kinds)
                 raise SettingsError(f"{path}: [{table}] {key} should be {wanted}, got {value!r}")
     document["_path"] = str(path)
     return document
-
-
-def pick(cli_value, config: dict, table: str, key: str, default):
-    """The command line's value if given, else the settings file's, else the default."""
-    if cli_value is not None:
-        return cli_value
-    return config.get(table, {}).get(key, default)

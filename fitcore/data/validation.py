@@ -3,8 +3,9 @@
 A row is rejected — never silently dropped — when the line is empty or has
 the wrong number of fields, a key is empty, price or volume is missing,
 non-numeric, NaN or infinite, or negative, the weight is missing, non-numeric
-or negative, the date does not parse, or the row repeats the series and date
-of an earlier row.  The first reason that applies is the one reported.
+or negative, the date does not parse or lies outside the dates datetime64[ns]
+holds (1677-09-22 to 2262-04-11), or the row repeats the series and date of an
+earlier row.  The first reason that applies is the one reported.
 """
 from __future__ import annotations
 
@@ -13,6 +14,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
+
+FIRST_DAY, LAST_DAY = "1677-09-22", "2262-04-11"  # the whole days datetime64[ns] holds
 
 
 @dataclass
@@ -23,7 +26,8 @@ class RawRows:
     ``keys``: name → (N,) ``pd.Categorical`` of the key's text (missing where the cell was empty).
     ``numbers``: name → ((N,) float64, NaN where missing or unreadable; (N,) bool "text that is not a
     number"; (N,) bool "empty cell").
-    ``date``: ((N,) datetime64[ns] with NaT where missing or unreadable, (N,) bool "text that is not a date") or None.
+    ``date``: ((N,) datetime64[ns] with NaT where missing, unreadable or outside, (N,) bool "text that is not a
+    date", (N,) bool "a date outside what datetime64[ns] holds") or None.
     ``broken``: row index → reason, for rows whose line could not be split into the header's fields.
     """
 
@@ -75,8 +79,9 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
         if name:
             _number_reasons(mark, name, *rows.numbers[name])
     if date and rows.date is not None:
-        values, unreadable = rows.date
+        values, unreadable, outside = rows.date
         mark(unreadable, f"unparseable {date}")
+        mark(outside, f"{date} outside {FIRST_DAY} to {LAST_DAY}")
         mark(np.isnat(values), f"missing {date}")
         if duplicates:
             _duplicates(rows, values, reject, open_rows)

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..data.dataset import Dataset
+from . import reasons
 from .basis import window, window_rows
 from .folds import FoldScheme
 from .scores import moments
@@ -21,7 +22,8 @@ class Chunk:
 
     ``t``: price mapped onto each series' window [``lo``, ``hi``] (``window``: mid, half);
     ``y``: volume less its weighted mean ``ybar``; ``v_low``: the least volume; ``w_sum``:
-    total weight; ``lay``: the fold layout; ``moments``: ``scores.Moments`` of ``y``.
+    total weight; ``weight_reason``: ``reasons.NO_WEIGHT`` or ``WEIGHT_OVERFLOW`` for a series its
+    weights leave nothing to fit, else 0; ``lay``: the fold layout; ``moments``: ``scores.Moments`` of ``y``.
     """
 
     def __init__(self, data: Dataset, s0: int, s1: int, scheme: FoldScheme) -> None:
@@ -40,7 +42,13 @@ class Chunk:
 
         self.price, self.volume, self.weight = take(data.price), take(data.volume), take(data.weight)
         self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
-        w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)
+        self.weight_reason = np.zeros(len(self.counts), np.int8)  # weights that leave nothing to fit
+        with np.errstate(over="ignore", invalid="ignore"):
+            w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)
+            if self.weight is not None:  # Σ w·v² bounds every weighted sum the families form
+                big = self.sums(self.weight * self.volume * self.volume)
+                self.weight_reason[~np.isfinite(w_sum) | ~np.isfinite(big)] = reasons.WEIGHT_OVERFLOW
+                self.weight_reason[w_sum == 0] = reasons.NO_WEIGHT
         self.w_sum = np.where(w_sum > 0, w_sum, 1.0)
         self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
         self.window = window(self.lo, self.hi)

@@ -157,12 +157,18 @@ class ShuffledKFold(KFold):
         return shuffle_order(offsets, key_hash, self.seed)
 
 
+def check_time_order(fold_order: str, has_date: bool) -> None:
+    """Time-ordered folds need a date column: the one place that says so (options and engine alike)."""
+    if fold_order == "time" and not has_date:
+        raise SettingsError("--fold-order time needs the date column: add --date COLUMN (settings file: "
+                            "date in [columns])")
+
+
 class TimeFolds(KFold):
     """Rolling origin over the rows sorted by date (scikit-learn ``TimeSeriesSplit`` block sizes)."""
 
     def layout(self, offsets, *, key_hash=None, date=None) -> FoldLayout:
-        if date is None:
-            raise SettingsError("--fold-order time needs the date column: add --date COLUMN")
+        check_time_order("time", date is not None)
         counts = np.diff(offsets)
         series = np.repeat(np.arange(len(counts)), counts)
         order = np.lexsort((np.arange(len(series)), date.view(np.int64), series))

@@ -11,6 +11,8 @@ RANK_ALL = 4
 RANK_FOLD = 5
 LEVERAGE_ONE = 6
 NOT_SERVED = 7  # the family cannot fit the series (e.g. a log of a price or volume ≤ 0)
+NO_WEIGHT = 8  # every observation of the series weighs zero
+WEIGHT_OVERFLOW = 9  # the series' weighted sums overflow
 
 
 def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int, unserved: str | None = None
@@ -34,6 +36,10 @@ def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int,
         return "an observation alone determines a coefficient, so leaving it out leaves the curve undefined"
     if code == NOT_SERVED:
         return unserved
+    if code == NO_WEIGHT:
+        return "every observation of this series weighs zero, so there is nothing to fit"
+    if code == WEIGHT_OVERFLOW:
+        return "the weights are too large: weighted sums of squares overflow (scale the weights down)"
     raise ValueError(f"unknown reason code {code}")
 
 

@@ -61,6 +61,8 @@ def unavailable(ch: Chunk, lineup: Lineup, cells: Cells) -> np.ndarray:
     """(S, C) int8 reason codes (``reasons``), the first that applies in this order."""
     n_coef = lineup.complexity
     rules = [
+        ((ch.weight_reason == R.NO_WEIGHT)[:, None], R.NO_WEIGHT),
+        ((ch.weight_reason == R.WEIGHT_OVERFLOW)[:, None], R.WEIGHT_OVERFLOW),
         (cells.unserved, R.NOT_SERVED),
         (~ch.lay.usable[:, None], R.TOO_FEW_FOR_FOLDS),
         ((ch.window[1] <= 0)[:, None] & (n_coef > 1)[None, :], R.FLAT_PRICE),

@@ -1,4 +1,9 @@
-"""Reading results files back as plain records (the JSON layout), from JSON or Parquet."""
+"""Reading results files back as plain records (the JSON layout), from JSON, Parquet or a results folder.
+
+The one reader every command uses (``show``, ``ledger export`` and ``accept-unflagged``, the triage
+screen's factory): it checks what it reads (``check_header``, ``check_series``, the Parquet columns) and
+names what is missing or malformed in one line, so a damaged file is an error, never a traceback.
+"""
 from __future__ import annotations
 
 import json
@@ -7,8 +12,11 @@ from pathlib import Path
 
 import numpy as np
 
+from ..data.columns import is_parquet_name
+from ..data.textfile import regular_or_folder
 from ..errors import DataError
 from ..fit.results import SCHEMA
+from .checks import PARQUET_COLUMNS, check_header, check_series
 
 RUN_SUMMARY = "_summary.json"
 
@@ -24,26 +32,34 @@ def result_parts(path: str | Path) -> list[Path] | None:
     return parts
 
 
+def _check_file(path: Path) -> None:
+    """One line for a results path that is missing, a folder that is not a results folder, or not a file."""
+    if regular_or_folder(path, "a results file"):
+        raise DataError(f"is a folder without {RUN_SUMMARY}; expected a results file or a results folder",
+                        path=str(path))
+
+
 def read_results(path: str | Path) -> tuple[dict, list[dict]]:
     """``(header, series)`` of a results file or folder; ``series`` as in the JSON layout."""
     path = Path(path)
-    if not path.exists():
-        raise DataError("file not found", path=str(path))
     parts = result_parts(path)
     if parts is not None:
         read = [_read_parquet(part) for part in parts]
         return read[0][0], [record for _, records in read for record in records]
-    suffix = path.suffix.lower()
-    if suffix == ".json":
+    _check_file(path)
+    if path.suffix.lower() == ".json":
         try:
             document = json.loads(path.read_text(encoding="utf-8"))
         except (UnicodeDecodeError, json.JSONDecodeError) as exc:
             raise DataError(f"expected a pricefold results file, could not read it as JSON ({exc})",
                             path=str(path)) from None
         check_schema(path, document)
-        series = document.pop("series", [])
+        check_header(path, document, "series")
+        series = document.pop("series")
+        for i, record in enumerate(series):
+            check_series(path, i, record)
         return document, series
-    if suffix in (".parquet", ".pq"):
+    if is_parquet_name(path):
         return _read_parquet(path)
     raise DataError(f"expected a results file ending in .json or .parquet, got {path.name!r}", path=str(path))
 
@@ -55,7 +71,7 @@ def results_in_parts(path: str | Path, products: list[str] = (), keys: dict | No
     (column → value) keep only matching series; in Parquet they filter rows as they are read."""
     path = Path(path)
     parts = result_parts(path)
-    if parts is None and path.suffix.lower() not in (".parquet", ".pq"):
+    if parts is None and not is_parquet_name(path):
         head, series = read_results(path)
         return head, iter([[r for r in series if _matches(r["key"], products, keys or {})]])
     meta = read_header(path)
@@ -67,22 +83,45 @@ def results_in_parts(path: str | Path, products: list[str] = (), keys: dict | No
     return meta, (_read_parquet(part, wanted or None)[1] for part in parts or [path])
 
 
+def results_inputs(header: dict) -> list[tuple[str, str | None]]:
+    """The files a results header names (the data, the plan, the settings file): a command reading these
+    results must not write over them."""
+    settings = header.get("settings") or {}
+    plan = settings.get("plan") if isinstance(settings.get("plan"), dict) else {}
+    return [("the data these results were fitted from", (header.get("input") or {}).get("path")),
+            ("the plan file these results used", plan.get("file")),
+            ("the settings file these results used", settings.get("config"))]
+
+
 def _matches(key: dict, products, keys: dict) -> bool:
     return (not products or next(iter(key.values()), None) in products) and \
         all(key.get(name) == value for name, value in keys.items())
 
 
 def read_header(path: str | Path) -> dict:
-    """The header of a Parquet results file or folder, ``key_columns`` included (schema metadata only)."""
+    """The header of a Parquet results file or folder, ``key_columns`` included (schema metadata only);
+    checked to hold every column the readers use."""
     import pyarrow.parquet as pq
     path = (result_parts(path) or [Path(path)])[0]
-    if not path.exists():
-        raise DataError("file not found", path=str(path))
+    _check_file(path)
     try:
-        meta = json.loads((pq.read_schema(path).metadata or {}).get(b"pricefold", b"null"))
+        schema = pq.read_schema(path)
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
         raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
+    try:
+        meta = json.loads((schema.metadata or {}).get(b"pricefold", b"null"))
+    except (UnicodeDecodeError, json.JSONDecodeError):
+        raise DataError("expected a pricefold results file; its pricefold metadata is not JSON", path=str(path)) \
+            from None
     check_schema(path, meta)
+    check_header(path, meta, None)
+    keys = meta.get("key_columns")
+    if not isinstance(keys, list) or not keys or not all(isinstance(k, str) for k in keys):
+        raise DataError("the pricefold metadata has no key_columns (a list of the key columns' names)",
+                        path=str(path))
+    for name in [*keys, *PARQUET_COLUMNS]:
+        if name not in schema.names:
+            raise DataError(f"missing the column {name!r}; expected a pricefold results file", path=str(path))
     return meta
 
 
@@ -100,14 +139,18 @@ def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
         raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
     keys = meta["key_columns"]
-    rows = table.to_pylist()
     series, current = [], None
-    for row in rows:
+    for r, row in enumerate(table.to_pylist()):
         key = {k: row[k] for k in keys}
         if current is None or current["key"] != key:
+            try:
+                flags = json.loads(row["flags"])
+            except (TypeError, json.JSONDecodeError):
+                raise DataError(f"row {r + 1}: 'flags' should be JSON text of a list of flags", path=str(path)) \
+                    from None
             current = {"key": key, "n": row["n"], "price_range": [row["price_lo"], row["price_hi"]],
                        "candidates": [], "chosen": row["chosen"], "rule": meta["settings"]["rule"],
-                       "score": row["score"], "flags": json.loads(row["flags"]), "revenue_price": row["revenue_price"],
+                       "score": row["score"], "flags": flags, "revenue_price": row["revenue_price"],
                        "plan": None, "fingerprint": row["fingerprint"]}
             current.update(series_cycle_fields(row))
             series.append(current)
@@ -124,9 +167,15 @@ def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
             current["plan"] = {"price": row["plan_price"], "volume": row["plan_volume"], "lo": row["plan_lo"],
                                "hi": row["plan_hi"], "level": meta["settings"]["level"],
                                "elasticity": row["plan_elasticity"],
-                               "inside_range": row["price_lo"] <= row["plan_price"] <= row["price_hi"]}
+                               "inside_range": _inside(row["price_lo"], row["plan_price"], row["price_hi"])}
+    for i, record in enumerate(series):
+        check_series(path, i, record)
     meta.pop("key_columns", None)
     return meta, series
+
+
+def _inside(lo, price, hi) -> bool:
+    return None not in (lo, price, hi) and lo <= price <= hi
 
 
 # -- the next cycle's fields (``results/cycle.py``), where the file holds them -------------------------

@@ -1,21 +1,21 @@
 """Writing results files: JSON for small runs, Parquet for large ones.
 
 Both carry ``pricefold-results/1``; the README documents the fields.  Files
-are written to a temporary name and renamed, so an interrupted run never
-leaves a half-written results file.
+are written with the project's one atomic writer (``fitcore.outputs``), so an
+interrupted run never leaves a half-written results file.
 """
 from __future__ import annotations
 
 import json
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
+from ..data.columns import is_parquet_name
 from ..errors import DataError
 from ..fit.results import SCHEMA, Results
+from ..outputs import atomic_write
 from . import cycle
 
 
@@ -104,18 +104,21 @@ def _plan_record(results: Results, s: int, chosen: int) -> dict | None:
             "inside_range": bool(results.price_lo[s] <= price <= results.price_hi[s])}
 
 
-def write_results(results: Results, path: str | Path, diagnosis=None, backtest=None) -> Path:
+def write_results(results: Results, path: str | Path, diagnosis=None, *, batch=None, backtest=None) -> Path:
     """Write ``results`` (and the flags of ``diagnosis``, the ``backtest`` against a ledger) as JSON or
-    Parquet, by the file name's ending."""
+    Parquet, by the file name's ending.
+
+    ``batch``: an ``outputs.Batch`` to stage the file in (put in place with the batch's other files).
+    """
     path = Path(path)
-    suffix = path.suffix.lower()
-    if suffix == ".json":
+    write = (batch.add if batch is not None else atomic_write)
+    if path.suffix.lower() == ".json":
         document = header(results, diagnosis, backtest) | {"series": series_records(results, diagnosis, backtest)}
         payload = json.dumps(document, ensure_ascii=False, allow_nan=False, indent=None, separators=(",", ":"))
-        _atomic_write(path, lambda handle: handle.write(payload.encode("utf-8")))
-    elif suffix in (".parquet", ".pq"):
+        write(path, lambda handle: handle.write(payload.encode("utf-8")))
+    elif is_parquet_name(path):
         table = results_table(results, diagnosis, backtest)
-        _atomic_write(path, lambda handle: write_parquet(table, handle))
+        write(path, lambda handle: write_parquet(table, handle))
     else:
         raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
     return path
@@ -210,23 +213,3 @@ def _ragged(values, starts, keep):
     within = np.arange(bounds[-1]) - bounds[:-1][cell]
     flat = (starts[cell // n_c] + within) * n_c + cell % n_c
     return pa.ListArray.from_arrays(bounds.astype(np.int32), pa.array(values.reshape(-1)[flat], type=pa.float64()))
-
-
-def _atomic_write(path: Path, write) -> None:
-    directory = path.resolve().parent
-    try:
-        directory.mkdir(parents=True, exist_ok=True)
-        fd, temp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
-    except OSError as exc:
-        raise DataError(f"cannot write here ({exc.strerror})", path=str(path)) from None
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            write(handle)
-            handle.flush()
-            os.fsync(handle.fileno())
-        os.replace(temp, path)
-    except BaseException as exc:
-        Path(temp).unlink(missing_ok=True)
-        if isinstance(exc, OSError):
-            raise DataError(f"cannot write the results ({exc.strerror})", path=str(path)) from None
-        raise

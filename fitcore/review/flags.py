@@ -109,7 +109,8 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     def flag(code, mask):
         raised[:, CODES.index(code)] = mask
 
-    starved = ~has & np.isin(results.reason, [R.TOO_FEW_FOR_FOLDS, R.TOO_FEW_POINTS]).all(axis=1)
+    starved = ~has & np.isin(results.reason, [R.TOO_FEW_FOR_FOLDS, R.TOO_FEW_POINTS, R.NO_WEIGHT,
+                                              R.WEIGHT_OVERFLOW]).all(axis=1)
     flag("few-points", (counts < thresholds.min_points) | starved)
 
     distinct, price_cv = _price_spread(results)

@@ -5,6 +5,8 @@ import math
 
 import numpy as np
 
+from ..fit import reasons as R
+
 
 def fmt(x: float) -> str:
     """A quantity as an analyst reads it: 3,912 · 41.5 · 4.38 · 0.0372 · 0."""
@@ -41,6 +43,9 @@ def sentence(diag, s: int, code: str) -> str:
 def _few_points(diag, s):
     n = int(diag.results.data.counts[s])
     wanted = diag.thresholds.min_points
+    weightless = diag.results.reason[s, 0] in (R.NO_WEIGHT, R.WEIGHT_OVERFLOW) and diag.results.chosen[s] < 0
+    if weightless:
+        return f"{n} observations, but {diag.results.reason_text(s, 0)}."
     if diag.results.chosen[s] < 0:
         return f"Only {n} observations: too few to cross-validate any candidate (at least {wanted} wanted)."
     return f"Only {n} observations; at least {wanted} are wanted to trust a cross-validated choice."

@@ -15,7 +15,6 @@ Only the coordinating functions import dask; the pieces run in workers.
 from __future__ import annotations
 
 import json
-import os
 import shutil
 import time
 from dataclasses import dataclass
@@ -27,6 +26,7 @@ from ..data.columns import Columns, file_sha256
 from ..errors import DataError, SettingsError
 
 SUMMARY = "_summary.json"  # beside the part files; Parquet readers skip names starting with "_"
+REJECTS = "rejects.csv"
 
 
 @dataclass(frozen=True)
@@ -42,15 +42,21 @@ def pieces_of(path: Path, columns: Columns) -> list[Piece]:
     """The pieces of ``path``, in the order the local loader reads its rows (so line numbers agree)."""
     import pyarrow.parquet as pq
 
-    from ..data.loader import _check_columns, check_file, file_kind
+    from ..data.loader import check_columns, file_kind
+    from ..data.read_parquet import first_line, parquet_names
+    from ..data.textfile import check_file
     check_file(path)
     if not path.is_dir() and file_kind(path)[0] == "csv":
         return [Piece(str(path), None, 2)]
+    parquet_names(path)  # one clear error for a folder without Parquet files or an unreadable file
     files = pq.ParquetDataset(path).files if path.is_dir() else [str(path)]
     out, line = [], 1
     for name in files:
-        meta = pq.ParquetFile(name).metadata
-        _check_columns(Path(name), meta.schema.to_arrow_schema().names, columns)
+        try:
+            meta = pq.ParquetFile(name).metadata
+        except (OSError, ValueError) as exc:
+            raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=name) from None
+        check_columns(Path(name), meta.schema.to_arrow_schema().names, columns)
         for group in range(meta.num_row_groups):
             out.append(Piece(name, group, line))
             line += meta.row_group(group).num_rows
@@ -65,13 +71,14 @@ def read_piece(piece: Piece, columns: Columns, n_parts: int, sep: str | None = N
     import pyarrow as pa
     import pyarrow.parquet as pq
 
-    from ..data.loader import _raw_from_table, read_rows
+    from ..data.cells import raw_from_table
+    from ..data.loader import read_rows
     from ..data.validation import reasons
     if piece.row_group is None:
         rows, _, _ = read_rows(Path(piece.path), columns, sep)
     else:
         table = pq.ParquetFile(piece.path).read_row_group(piece.row_group, columns=columns.needed)
-        rows = _raw_from_table(table, columns, piece.first_line + np.arange(table.num_rows, dtype=np.int64))
+        rows = raw_from_table(table, columns, piece.first_line + np.arange(table.num_rows, dtype=np.int64))
     why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date, duplicates=False)
     keep = np.flatnonzero(usable)
     keys = {name: np.asarray(rows.keys[name], dtype=object)[keep].astype(str) for name in columns.keys}
@@ -148,7 +155,7 @@ def fit_part(p: int, table, job: PartJob, standing=None) -> dict:
     data = from_columns({name: column(name).astype(object) for name in job.columns.keys}, column("_price"),
                         column("_volume"), weight=column("_weight"), date=column("_date"), line=column("_line"),
                         source=job.source)
-    plan = plan_prices(data, job.plan_file, job.sep, partial=True) if job.plan_file else job.plan_price
+    plan = plan_prices(data, job.plan_file, partial=True) if job.plan_file else job.plan_price  # its own delimiter
     results = fit_batch(data, job.settings, plan_price=plan)
     diagnosis = diagnose(results, job.thresholds)
     found = None
@@ -207,29 +214,31 @@ def disconnect(client) -> None:
 
 def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *, plan_file: Path | None = None,
                 plan_price: float | None = None, sep: str | None = None, client=None, partitions: int | None = None,
-                progress=None, ledger=None) -> dict:
-    """Fit ``path`` on the cluster behind ``client`` into the results folder ``out`` (part files + summary).
+                progress=None, strict: bool = False, ledger=None) -> dict:
+    """Fit ``path`` on the cluster behind ``client`` into the results folder ``out`` (part files, summary and,
+    when rows were rejected, ``rejects.csv``).
 
     Returns the summary (also written as ``out/_summary.json``), which holds the rejected rows' lines
-    and reasons.  ``partitions``: output partitions (default: 4 per worker, at least 1).  ``ledger``: an open
-    ``fitcore.ledger.Ledger`` to backtest signed curves against (``fit --ledger``).
+    and reasons.  ``partitions``: output partitions (default: 4 per worker, at least 1).  ``strict``:
+    any rejected row fails the run, before anything is written.  The caller checks ``out`` first
+    (``outputs.check_outputs``): it is replaced whole.  ``ledger``: an open ``fitcore.ledger.Ledger``
+    to backtest signed curves against (``fit --ledger``).
     """
+    from ..outputs import staging_folder, temp_path
     started = time.perf_counter()
     pieces = pieces_of(path, columns)
     n_workers = max(len(client.scheduler_info()["workers"]), 1)
     n_parts = partitions or 4 * n_workers
-    # Parts are written to a fresh folder beside ``out`` and swapped in at the end, so a failed run
-    # leaves an earlier run's results whole.
-    staging = out.with_name(f".{out.name}.writing-{os.getpid()}")
-    shutil.rmtree(staging, ignore_errors=True)
-    staging.mkdir(parents=True)
+    # Everything is written to a fresh folder beside ``out`` and swapped in at the end, so a failed run
+    # leaves an earlier run's folder whole (a killed run's staging folder is removed by the next run).
+    staging = staging_folder(out)
     try:
         total = _fit_into(staging, pieces, path, columns, settings, thresholds, plan_file, plan_price, sep, client,
-                          n_workers, n_parts, started, progress, ledger)
+                          n_workers, n_parts, started, progress, strict, ledger)
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
-    retired = out.with_name(f".{out.name}.old-{os.getpid()}")
+    retired = temp_path(out)
     if out.exists():
         out.rename(retired)
     staging.rename(out)
@@ -238,7 +247,7 @@ def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *
 
 
 def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file, plan_price, sep, client,
-              n_workers: int, n_parts: int, started: float, progress, book=None) -> dict:
+              n_workers: int, n_parts: int, started: float, progress, strict: bool, book=None) -> dict:
     from distributed import wait
 
     read = [client.submit(read_piece, piece, columns, n_parts, sep, pure=False) for piece in pieces]
@@ -252,9 +261,18 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
     reasons = [x for piece in found for x in piece[1]] + [x for part in repeats for x in part[1]]
     source = {"path": str(path.resolve()), "sha256": file_sha256(path), "rows": sum(piece[2] for piece in found),
               "rejected": len(lines)}
-    if source["rows"] == source["rejected"]:
+    order = np.argsort(lines, kind="stable")
+    lines, reasons = [int(lines[i]) for i in order], [reasons[i] for i in order]
+    if source["rows"] == source["rejected"] or strict and lines:
         from ..data.validation import summary
-        raise DataError(f"no usable rows ({summary(reasons)})", path=str(path))
+        if source["rows"] == source["rejected"]:
+            raise DataError(f"no usable rows ({summary(reasons)})", path=str(path))
+        raise DataError(f"{reasons[0]} ({summary(reasons)}; --strict, so nothing was written)", path=str(path),
+                        line=lines[0])
+    source.update(rejects_file=None, rejects_sha256=None)
+    if lines:
+        source.update(rejects_file=REJECTS, rejects_sha256=_write_rejects(out / REJECTS, path, columns, sep,
+                                                                          lines, reasons))
     del read
     standing, ledger_source = [None] * n_parts, None
     if book is not None:
@@ -270,7 +288,6 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
         summaries.append(future.result())
         if progress is not None:
             progress(len(summaries), n_parts)
-    order = np.argsort(lines, kind="stable")
     total = {"schema": "pricefold-run/1", "engine": "dask", "workers": n_workers, "partitions": n_parts,
              "pieces": len(pieces), "input": source,
              "series": sum(s["series"] for s in summaries), "rows": sum(s["rows"] for s in summaries),
@@ -279,9 +296,20 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
              "plan_matched": sum(s["plan_matched"] for s in summaries),
              "backtest": _add(s["backtest"] for s in summaries), "shifted": sum(s["shifted"] for s in summaries),
              "seconds": round(time.perf_counter() - started, 3),
-             "rejected": {"lines": [int(lines[i]) for i in order], "reasons": [reasons[i] for i in order]}}
+             "rejected": {"lines": lines, "reasons": reasons}}
     (out / SUMMARY).write_text(json.dumps(total, ensure_ascii=False, indent=1))
     return total
+
+
+def _write_rejects(target: Path, path: Path, columns: Columns, sep: str | None, lines: list, reasons: list) -> str:
+    """The rejected rows beside the parts (the same file the local engine writes); its SHA-256."""
+    from ..data.loader import delimiter_of, file_kind
+    from ..data.rejects import Rejects, write_rejects
+    from ..outputs import atomic_write
+    kind = file_kind(path)[0]
+    rejects = Rejects(path, kind, delimiter_of(path, columns, sep) if kind == "csv" else None,
+                      np.asarray(lines, dtype=np.int64), reasons)
+    return atomic_write(target, lambda handle: write_rejects(rejects, handle))
 
 
 def _table_of(piece_result, p: int):

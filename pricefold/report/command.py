@@ -119,22 +119,12 @@ def open_book(path: Path) -> Book:
     return Book(results, diagnosis, header, None, why and why[0].upper() + why[1:] + ".", source)
 
 
-def guard_output(output: Path, inputs: list[Path]) -> None:
-    """Never write over an input, and never over a file this command did not make."""
-    from .page import GENERATOR
+def guard_output(output: Path, inputs: list[tuple[str, Path | None]]) -> None:
+    """Never write over an input, and never over a file this command did not make (``fitcore.outputs``)."""
+    from fitcore.outputs import check_outputs
     if output.suffix.lower() not in (".html", ".htm"):
         raise SettingsError(f"expected -o to name an .html file, got {output.name!r}")
-    target = output.resolve()
-    for item in inputs:
-        item = item.resolve()
-        if target == item or item in target.parents:
-            raise SettingsError(f"-o {output} would write over an input of this report ({item})")
-    if target.exists():
-        with open(target, "rb") as handle:
-            start = handle.read(1024)
-        if f'<meta name="generator" content="{GENERATOR}'.encode() not in start:
-            raise SettingsError(f"{output} exists and was not written by pricefold report; "
-                                "choose another name or move it away")
+    check_outputs([(output, "report")], inputs)
 
 
 PARALLEL_FROM = 40  # charts: from this many on, two processes draw them (matplotlib spends 30–60 ms a chart)
@@ -241,9 +231,11 @@ def run(args) -> int:
     if not args.results.exists():
         raise DataError("file not found", path=str(args.results))
     ledger_path = args.ledger or default_ledger(args.results)
-    guard_output(args.output, [args.results, ledger_path])
+    guard_output(args.output, [("the results", args.results), ("the ledger", ledger_path)])
     book = open_book(args.results)
-    guard_output(args.output, [Path(str(book.header.get("input", {}).get("path", args.results)))])
+    from fitcore.outputs import check_not_input
+    from fitcore.results.read import results_inputs
+    check_not_input(args.output, results_inputs(book.header))  # the data and plan the results name
     view = read_ledger(ledger_path, ledger_key())
     signoff = gather(book.results, book.diagnosis, list(view.records))
     decided, flagged, more = signoff.detailed()

@@ -57,8 +57,11 @@ def assert_same_results(local: Path, folder: Path, keys: list[str]) -> None:
     assert theirs.num_rows == ours.num_rows
     assert canonical(theirs, keys) == canonical(ours, keys)
     header = json.loads(pq.read_schema(local).metadata[b"pricefold"])
+    header["input"].pop("rejects_file")  # named for the results file locally, rejects.csv in a folder
     for part in folder.glob("part-*.parquet"):
-        assert json.loads(pq.read_schema(part).metadata[b"pricefold"]) == header
+        theirs = json.loads(pq.read_schema(part).metadata[b"pricefold"])
+        assert theirs["input"].pop("rejects_file") in (None, "rejects.csv")
+        assert theirs == header  # rejects_sha256 included: the same rejected rows, byte for byte
 
 
 def test_the_sample_gives_the_local_results(tmp_path, client):

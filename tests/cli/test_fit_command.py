@@ -138,9 +138,10 @@ def test_non_numeric_cell_is_rejected_with_its_line_or_fails_when_strict(tmp_pat
 
 @pytest.mark.parametrize("args, message", [
     (["--folds", "1"], "expected --folds to be a whole number of at least 2 or 'loo', got 1"),
-    (["--degrees", "2-9"], "expected degrees between 0 and 5"),
+    (["--degrees", "2-9"], "expected --degrees to be whole numbers from 0 to 5"),
     (["--fold-order", "time"], "needs the date column"),
-    (["--plan-price", "-3"], "expected --plan-price above zero, got -3.0"),
+    (["--plan-price", "-3"], "expected --plan-price to be a number above zero, got -3"),
+    (["--plan-price", "inf"], "expected --plan-price to be a number above zero, got inf"),
 ])
 def test_bad_settings_are_one_line(tmp_path, args, message):
     done = run_cli("fit", str(SAMPLE / "wholesale.csv"), "-o", str(tmp_path / "r.json"), *args)

@@ -82,7 +82,7 @@ def test_export_files_respect_the_umask_and_keep_an_existing_mode(tmp_path, sign
     results, path = signed
     out = tmp_path / "out.csv"
     if existing is not None:
-        out.write_text("earlier\n")
+        out.write_text("product,status,model,coef\n")  # an earlier export: the only kind export replaces
         out.chmod(existing)
     old = os.umask(umask)
     try:

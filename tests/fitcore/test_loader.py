@@ -14,7 +14,8 @@ from hypothesis import HealthCheck, given
 from hypothesis import settings as hsettings
 from hypothesis import strategies as st
 
-from fitcore.data.loader import Columns, load, load_with_rejects, write_rejects
+from fitcore.data.loader import Columns, load, load_with_rejects
+from fitcore.data.rejects import write_rejects
 from fitcore.errors import DataError
 
 GOOD = [("a", "1.00", "30", "2025-01-06"), ("a", "1.20", "25", "2025-01-13"), ("b", "2.00", "10", "2025-01-06")]
@@ -63,8 +64,9 @@ def test_weight_reasons(tmp_path):
 def test_rejects_file_holds_the_original_cells(tmp_path):
     path = write(tmp_path / "d.csv", [*GOOD, "a,1.5,lots,2025-01-20", '"b, the second",1,2,2025-01-27'])
     _, rejects = load_with_rejects(path, Columns(date="week"))
-    out = write_rejects(rejects, tmp_path / "r.rejects.csv")
-    rows = list(csv.reader(out.open()))
+    buffer = io.BytesIO()
+    write_rejects(rejects, buffer)
+    rows = list(csv.reader(io.StringIO(buffer.getvalue().decode())))
     assert rows == [["product", "price", "volume", "week", "line", "reason"],
                     ["a", "1.5", "lots", "2025-01-20", "5", "non-numeric volume"]]
 

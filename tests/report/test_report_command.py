@@ -129,7 +129,7 @@ def test_never_writes_over_an_input_or_a_file_it_did_not_make(signed, tmp_path):
     for target in (signed["ledger"].with_suffix(".html"), tmp_path / "notes.html"):
         target.write_text("<p>mine</p>")
         done = scenario.report(signed["results"], signed["ledger"], target)
-        assert done.returncode == 2 and "was not written by pricefold report" in done.stderr
+        assert done.returncode == 2 and "is not a page written by pricefold report" in done.stderr
         assert target.read_text() == "<p>mine</p>"
     done = scenario.report(signed["results"], signed["ledger"], signed["results"])
     assert done.returncode == 2 and "expected -o to name an .html file" in done.stderr

@@ -165,8 +165,12 @@ def test_the_fold_chart_goes_to_a_log_scale_when_one_error_dwarfs_the_rest():
 
 
 def test_the_settings_file_names_the_units(tmp_path):
-    from fitcore.data.config import load_config
+    from fitcore.data.config import load_config as load
     from fitcore.errors import SettingsError
+    from pricefold.options import settings_file_keys
+
+    def load_config(path):  # the keys come from the one table of settings (and [units], [thresholds])
+        return load(path, settings_file_keys())
     path = tmp_path / "pricefold.toml"
     path.write_text('[units]\nprice = "EUR"\nvolume = "cases/week"\n', encoding="utf-8")
     assert load_config(path)["units"] == {"price": "EUR", "volume": "cases/week"}

@@ -1,0 +1,69 @@
+"""Rejected rows: which lines and why, the rejects file's name, and writing it.
+
+The rejects file is ``<results name minus its last extension>.rejects.csv`` beside the results
+(``fit.v1.json`` → ``fit.v1.rejects.csv``); a Dask results folder holds ``rejects.csv``.  Each rejected
+row is written with its original cells, byte for byte (text that is not UTF-8 stays as it was, nothing
+is neutralised), then two more fields: ``line`` and ``reason``.  The header is the input's, then
+``line,reason``.  A row whose line could not be split into the header's fields has its own number of
+cells: ``line`` and ``reason`` are always the last two fields.
+"""
+from __future__ import annotations
+
+import csv
+import io
+from dataclasses import dataclass
+from pathlib import Path
+from typing import BinaryIO
+
+import numpy as np
+
+from .textfile import open_text
+
+
+@dataclass(frozen=True)
+class Rejects:
+    """Rows that could not be used: their lines and reasons, and where they came from."""
+
+    path: Path
+    kind: str
+    delimiter: str | None
+    lines: np.ndarray
+    reasons: list
+
+    def __len__(self) -> int:
+        return len(self.lines)
+
+
+def rejects_path(results: Path) -> Path:
+    """Where the rejects of a run writing the results file ``results`` go: its name minus its last extension."""
+    return results.with_name(results.stem + ".rejects.csv")
+
+
+def write_rejects(rejects: Rejects, handle: BinaryIO) -> None:
+    """The rejected rows as CSV on the binary ``handle``: the original cells, then ``line`` and ``reason``."""
+    text = io.TextIOWrapper(handle, encoding="utf-8", errors="surrogateescape", newline="", write_through=True)
+    writer = csv.writer(text, lineterminator="\n")
+    wanted = dict(zip(rejects.lines.tolist(), rejects.reasons))
+    if rejects.kind == "parquet":
+        _parquet_rows(rejects, wanted, writer)
+    else:
+        with open_text(rejects.path, errors="surrogateescape") as source:
+            reader = csv.reader(source, delimiter=rejects.delimiter)
+            writer.writerow([*next(reader, []), "line", "reason"])
+            end = reader.line_num
+            for record in reader:
+                start, end = end + 1, reader.line_num
+                if start in wanted:
+                    writer.writerow([*record, start, wanted[start]])
+    text.flush()
+    text.detach()  # the handle belongs to the caller
+
+
+def _parquet_rows(rejects: Rejects, wanted: dict, writer) -> None:
+    import pyarrow.parquet as pq
+    table = pq.read_table(rejects.path)
+    writer.writerow([*table.column_names, "line", "reason"])
+    lines = np.fromiter(wanted, dtype=np.int64, count=len(wanted))
+    rows = table.take(lines - 1).to_pylist()
+    for line, row in zip(lines.tolist(), rows):
+        writer.writerow([*("" if v is None else v for v in row.values()), line, wanted[line]])

@@ -1,0 +1,168 @@
+"""Text input files as they are on disk: what a file is, how to open it, its delimiter, its lines.
+
+Gzip is recognised by its magic bytes, not its name; a UTF-8 byte-order mark is skipped; the delimiter
+is found from the header line.  Only regular files and folders are opened: a named pipe or a device is
+refused before any read could block.
+"""
+from __future__ import annotations
+
+import csv
+import gzip
+import io
+import mmap
+import os
+import stat
+import sys
+import zlib
+from pathlib import Path
+
+from ..errors import DataError
+
+GZIP_MAGIC = b"\x1f\x8b"
+DELIMITERS = (",", ";", "\t", "|")
+BLOCK = 1 << 24
+
+# A cell may be as long as the file (a 10 MB note in an ignored column is still a valid file).
+csv.field_size_limit(min(sys.maxsize, 2 ** 31 - 1))
+
+
+def regular_or_folder(path: Path, expected: str) -> bool:
+    """Is ``path`` a folder (True) or a regular file (False)?  One line for anything else: missing,
+    unreadable, or a pipe or device that a read would block on.  ``expected``: e.g. "a data file"."""
+    try:
+        info = os.stat(path)
+    except FileNotFoundError:
+        raise DataError("file not found", path=str(path)) from None
+    except OSError as exc:
+        raise DataError(f"cannot read the file ({exc.strerror})", path=str(path)) from None
+    if not stat.S_ISDIR(info.st_mode) and not stat.S_ISREG(info.st_mode):
+        raise DataError(f"not a regular file (a pipe or a device); expected {expected}", path=str(path))
+    return stat.S_ISDIR(info.st_mode)
+
+
+def check_file(path: Path) -> None:
+    """One clear error for a file that is missing, not a regular file or folder, unreadable, empty or not text."""
+    if regular_or_folder(path, "a data file"):
+        return
+    try:
+        with open_bytes(path) as handle:
+            head = handle.read(8192)
+    except (OSError, EOFError, zlib.error) as exc:
+        raise DataError(f"cannot read the file ({compressed_trouble(exc)})", path=str(path)) from None
+    if not head:
+        raise DataError("the file is empty; expected a header line and observations", path=str(path))
+
+
+def check_text(path: Path) -> None:
+    """One clear error for a text file that is binary.  (Bytes that are not UTF-8 matter only in the header
+    and the needed columns: the readers name their line and column.)"""
+    with open_bytes(path) as handle:
+        head = handle.read(8192)
+    if b"\x00" in head:
+        raise DataError("expected UTF-8 text (CSV or TSV); this looks like a binary file", path=str(path))
+
+
+def compressed_trouble(exc: BaseException) -> str:
+    """What went wrong reading a (possibly compressed) file, in a few words."""
+    text = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+    if isinstance(exc, EOFError) or "truncated" in text.lower() or "end-of-stream" in text.lower():
+        return "the compressed file is cut short"
+    if isinstance(exc, (zlib.error, gzip.BadGzipFile)) or "gzip" in text.lower() or "zlib" in text.lower():
+        return f"the compressed file is damaged: {text}"
+    return getattr(exc, "strerror", None) or text
+
+
+def is_gzip(path: Path) -> bool:
+    with open(path, "rb") as handle:
+        return handle.read(2) == GZIP_MAGIC
+
+
+def open_bytes(path: Path):
+    """The file's content as bytes (decompressed when it is gzip, whatever its name)."""
+    return gzip.open(path, "rb") if is_gzip(path) else open(path, "rb")
+
+
+def open_text(path: Path, errors: str = "strict"):
+    """The file as UTF-8 text for Python's csv module: no newline translation, a byte-order mark skipped."""
+    return io.TextIOWrapper(open_bytes(path), encoding="utf-8-sig", errors=errors, newline="")
+
+
+def arrow_stream(path: Path):
+    """The file as a pyarrow input stream, decompressed when it is gzip (native: no Python object inside)."""
+    import pyarrow as pa
+    return pa.input_stream(str(path), compression="gzip" if is_gzip(path) else None)
+
+
+def header_line(path: Path) -> str:
+    """The first physical line (quoted line breaks kept whole), decoded, without its line end."""
+    try:
+        with open_text(path, errors="surrogateescape") as handle:  # later lines may hold any bytes
+            text = _first_record(handle)
+        text.encode("utf-8")
+        return text
+    except UnicodeEncodeError:
+        raise DataError("expected UTF-8 text in the header line", path=str(path), line=1) from None
+    except (OSError, EOFError, zlib.error) as exc:
+        raise DataError(f"cannot read the file ({compressed_trouble(exc)})", path=str(path)) from None
+
+
+def _first_record(handle) -> str:
+    """Text of the header record: lines joined until the quotes balance."""
+    text = ""
+    for line in handle:
+        text += line
+        if text.count('"') % 2 == 0:
+            break
+    return text.rstrip("\r\n")
+
+
+def split_header(text: str, delimiter: str) -> list[str]:
+    try:
+        return next(csv.reader([text], delimiter=delimiter), [])
+    except csv.Error:
+        return []
+
+
+def sniff_delimiter(path: Path, wanted: list[str], preferred: str | None) -> str:
+    """The delimiter whose split of the header names every ``wanted`` column (``preferred`` first, then
+    comma, semicolon, tab, bar); failing that, the one giving the most fields (so the error names them)."""
+    text = header_line(path)
+    order = list(dict.fromkeys([preferred, *DELIMITERS] if preferred else DELIMITERS))
+    splits = {d: split_header(text, d) for d in order}
+    for delimiter in order:
+        if all(name in splits[delimiter] for name in wanted):
+            return delimiter
+    return max(order, key=lambda d: len(splits[d]))  # ties: the first in order
+
+
+def rows_are_lines(path: Path, n_rows: int) -> bool:
+    """Does each of ``n_rows`` data rows take exactly one physical line, so row i is on line i + 2?
+
+    Without a quote or a carriage return in the file it must (a line break can only hide in quotes,
+    and blank lines never reach here): two memchr passes over a memory map settle a plain file.
+    Otherwise the line ends are counted (CRLF, CR or LF, as both csv readers count them) and compared.
+    """
+    if is_gzip(path):
+        with gzip.open(path, "rb") as handle:
+            return _count_lines(iter(lambda: handle.read(BLOCK), b""), True) - 1 == n_rows
+    if os.path.getsize(path) == 0:
+        return n_rows == 0
+    with open(path, "rb") as handle, mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ) as mapped:
+        returns = mapped.find(b"\r") >= 0
+        if not returns and mapped.find(b'"') < 0:
+            return True
+        blocks = (mapped[start:start + BLOCK] for start in range(0, len(mapped), BLOCK))
+        return _count_lines(blocks, returns) - 1 == n_rows
+
+
+def _count_lines(blocks, returns: bool) -> int:
+    """Physical lines in a stream of byte blocks: line ends (CRLF counted once), plus an unended last line.
+    ``returns``: the stream may hold CR (else only LF is counted: one pass instead of three)."""
+    ends, last, carry = 0, b"", False  # carry: the previous block ended with CR
+    for block in blocks:
+        if carry and block[:1] == b"\n":
+            ends -= 1  # a CRLF split across blocks
+        ends += block.count(b"\n") + (block.count(b"\r") - block.count(b"\r\n") if returns else 0)
+        carry = block[-1:] == b"\r"
+        last = block[-1:] or last
+    return ends + (0 if last in (b"\n", b"\r", b"") else 1)

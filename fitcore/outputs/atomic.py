@@ -1,0 +1,210 @@
+"""One atomic writer: a temporary file beside the target, written, flushed and fsynced, then renamed.
+
+A reader never sees a half-written file, and a failed or killed run leaves the earlier file as it was.
+Temporary names carry the writer's host and process id (``.NAME.pricefold-HOST-PID-TOKEN.tmp``), so the
+next run writing the same name removes what a dead writer left behind (never a live writer's file).
+A new file gets the mode the umask allows (as ``open`` would give it); a replaced file keeps its mode.
+"""
+from __future__ import annotations
+
+import hashlib
+import os
+import re
+import secrets
+import shutil
+import socket
+import stat
+from dataclasses import dataclass
+from pathlib import Path
+from typing import BinaryIO, Callable
+
+from ..errors import DataError
+
+_TAG = "pricefold"
+HOST = re.sub(r"[^A-Za-z0-9_.]", "_", socket.gethostname())[:40] or "host"
+
+
+def temp_path(path: Path) -> Path:
+    """A fresh name beside ``path`` for this process's temporary copy (``remove_leftovers`` knows it)."""
+    return path.parent / f".{path.name[:120]}.{_TAG}-{HOST}-{os.getpid()}-{secrets.token_hex(4)}.tmp"
+
+
+def _alive(pid: int) -> bool:
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:  # another user's live process
+        return True
+    return True
+
+
+def remove_leftovers(path: Path) -> list[Path]:
+    """Remove temporary files and folders that dead writers on this host left for ``path``; return them."""
+    pattern = re.compile(re.escape(f".{path.name[:120]}.{_TAG}-{HOST}-") + r"(\d+)-[0-9a-f]+\.tmp$")
+    removed = []
+    try:
+        entries = list(os.scandir(path.parent))
+    except OSError:
+        return removed
+    for entry in entries:
+        match = pattern.match(entry.name)
+        if match is None or _alive(int(match.group(1))):
+            continue
+        leftover = Path(entry.path)
+        try:
+            if entry.is_dir(follow_symlinks=False):
+                shutil.rmtree(leftover)
+            else:
+                leftover.unlink()
+            removed.append(leftover)
+        except OSError:
+            pass  # someone else's, or already gone: not ours to insist on
+    return removed
+
+
+def _umask() -> int:
+    try:
+        with open("/proc/self/status", encoding="ascii") as handle:
+            for line in handle:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError):
+        pass
+    mask = os.umask(0o022)  # no /proc: read it the old way (not thread-safe, hence the fallback only)
+    os.umask(mask)
+    return mask
+
+
+def _mode_for(path: Path) -> int:
+    try:
+        return stat.S_IMODE(os.stat(path).st_mode)
+    except OSError:
+        return 0o666 & ~_umask()
+
+
+def _cannot(path: Path, exc: OSError) -> DataError:
+    return DataError(f"cannot write ({exc.strerror or exc})", path=str(path))
+
+
+class _Hashing:
+    """A binary file that also computes the SHA-256 of what passes through it."""
+
+    def __init__(self, handle: BinaryIO) -> None:
+        self.handle, self.digest = handle, hashlib.sha256()
+
+    def write(self, data) -> int:
+        self.digest.update(data)
+        return self.handle.write(data)
+
+    def __getattr__(self, name):  # pyarrow and TextIOWrapper ask for flush, closed, writable, …
+        return getattr(self.handle, name)
+
+
+@dataclass
+class Staged:
+    """A file written in full under a temporary name: ``commit`` puts it in place, ``discard`` drops it."""
+
+    path: Path
+    temp: Path
+    sha256: str
+
+    def commit(self) -> None:
+        try:
+            os.replace(self.temp, self.path)
+        except OSError as exc:
+            self.discard()
+            raise _cannot(self.path, exc) from None
+        _sync_folder(self.path.parent)
+
+    def discard(self) -> None:
+        try:
+            self.temp.unlink()
+        except OSError:
+            pass
+
+
+def stage(path: str | Path, write: Callable[[BinaryIO], object]) -> Staged:
+    """Write ``path``'s content to a temporary file beside it (``write(handle)``), fsynced; nothing visible yet."""
+    path = Path(path)
+    remove_leftovers(path)
+    temp = temp_path(path)
+    try:
+        fd = os.open(temp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_CLOEXEC", 0), 0o600)
+    except OSError as exc:
+        raise _cannot(path, exc) from None
+    try:
+        os.fchmod(fd, _mode_for(path))
+        with os.fdopen(fd, "wb") as raw:
+            handle = _Hashing(raw)
+            write(handle)
+            raw.flush()
+            os.fsync(raw.fileno())
+    except BaseException as exc:
+        temp.unlink(missing_ok=True)
+        if isinstance(exc, OSError):
+            raise _cannot(path, exc) from None
+        raise
+    return Staged(path, temp, handle.digest.hexdigest())
+
+
+def atomic_write(path: str | Path, write: Callable[[BinaryIO], object]) -> str:
+    """Write ``path`` atomically with ``write(handle)``; return the SHA-256 of what was written."""
+    staged = stage(path, write)
+    staged.commit()
+    return staged.sha256
+
+
+class Batch:
+    """Several files written as one step: each ``add`` stages a file; leaving the ``with`` block without an
+    error puts them in place in the order added; an error drops them all, leaving earlier files as they were."""
+
+    def __init__(self) -> None:
+        self.staged: list[Staged] = []
+
+    def add(self, path: str | Path, write: Callable[[BinaryIO], object]) -> Staged:
+        staged = stage(path, write)
+        self.staged.append(staged)
+        return staged
+
+    def __enter__(self) -> "Batch":
+        return self
+
+    def __exit__(self, kind, value, tb) -> None:
+        if kind is not None:
+            for staged in self.staged:
+                staged.discard()
+            return
+        for i, staged in enumerate(self.staged):
+            try:
+                staged.commit()
+            except BaseException:
+                for rest in self.staged[i + 1:]:
+                    rest.discard()
+                raise
+
+
+def staging_folder(path: Path) -> Path:
+    """A fresh folder beside ``path`` to build a results folder in (removed by a later run if we die)."""
+    remove_leftovers(path)
+    folder = temp_path(path)
+    try:
+        folder.mkdir()
+    except OSError as exc:
+        raise _cannot(path, exc) from None
+    return folder
+
+
+def _sync_folder(folder: Path) -> None:
+    try:
+        fd = os.open(folder, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)

@@ -1,0 +1,171 @@
+"""The output guard: before a command touches anything, every output is checked against every input.
+
+An output may not be an input (the same path once symlinks are followed and ``..`` resolved, or the
+same file under another name), lie inside an input folder, or be a folder holding an input.  Its folder
+must exist (nothing is created silently) and be writable.  An existing output must be one pricefold
+made, of the same kind, or empty: a run replaces its own earlier output and nothing else.
+
+Kinds of output and how an earlier one is recognised:
+
+    results         JSON starting ``{"schema":"pricefold-results/``, or Parquet with ``pricefold`` metadata
+    results-folder  a folder holding ``_summary.json`` (``fit --engine dask``), or an empty folder
+    rejects         CSV whose header ends with ``line,reason``
+    export          CSV whose header holds ``status``, ``model`` and ``coef`` (``ledger export``)
+    report          HTML whose first KiB holds ``<meta name="generator" content="pricefold report``
+"""
+from __future__ import annotations
+
+import csv
+import io
+import os
+import re
+import stat
+from pathlib import Path
+from typing import Iterable
+
+from ..errors import DataError
+
+KIND_NAMES = {"results": "a pricefold results file", "results-folder": "a pricefold results folder",
+              "rejects": "a rejects file pricefold wrote", "export": "a pricefold export",
+              "report": "a page written by pricefold report"}
+_REPORT = b'<meta name="generator" content="pricefold report'  # pricefold/report/page.py writes it
+_RESULTS_JSON = re.compile(rb'\s*\{\s*"schema"\s*:\s*"pricefold-results/')
+
+Inputs = Iterable[tuple[str, "str | Path | None"]]
+
+
+def check_outputs(outputs: Iterable[tuple["str | Path", str]], inputs: Inputs, *, foreign_later=("rejects",)) -> None:
+    """Raise ``DataError`` (one line) unless every ``(path, kind)`` output may be written.
+
+    ``inputs``: ``(role, path)`` pairs such as ``("the data", path)``; None paths are skipped.  Kinds in
+    ``foreign_later`` are written only sometimes (a rejects file): what an existing one holds is checked
+    when it is written (``is_own``), not here.
+    """
+    known = [(role, Path(path)) for role, path in inputs if path is not None]
+    for path, kind in outputs:
+        path = Path(path)
+        _check_folder(path)
+        check_not_input(path, known, folder=kind == "results-folder")
+        if kind not in foreign_later:
+            _check_existing(path, kind)
+
+
+def check_not_input(path: "str | Path", inputs: Inputs, *, folder: bool = False) -> None:
+    """Raise ``DataError`` if ``path`` is, contains (``folder``: it will be replaced whole) or lies inside an input."""
+    path = Path(path)
+    target = _resolved(path)
+    for role, source in inputs:
+        if source is None:
+            continue
+        source = Path(source)
+        where = _resolved(source)
+        if target == where or _same_file(path, source):
+            raise DataError(f"this is also an input ({role}, {source}); pricefold never writes over its inputs",
+                            path=str(path))
+        if where.is_dir() and where in target.parents:
+            raise DataError(f"lies inside the input folder {source} ({role}); write it elsewhere", path=str(path))
+        if folder and target in where.parents:
+            raise DataError(f"{role} {source} lies inside the output folder, which the run replaces whole; "
+                            "choose another output folder", path=str(path))
+
+
+def is_own(path: "str | Path", kind: str) -> bool:
+    """Is the existing ``path`` empty, or an output of ``kind`` that pricefold wrote?  (False if it is missing.)"""
+    path = Path(path)
+    try:
+        info = os.stat(path)
+    except OSError:
+        return False
+    if kind == "results-folder":
+        return stat.S_ISDIR(info.st_mode) and ((path / "_summary.json").is_file() or not any(path.iterdir()))
+    if not stat.S_ISREG(info.st_mode):
+        return False
+    if info.st_size == 0:
+        return True
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(4096)
+    except OSError:
+        return False
+    if kind == "results":
+        return bool(_RESULTS_JSON.match(head)) or _is_results_parquet(path, head)
+    if kind == "report":
+        return _REPORT in head[:1024]
+    header = _first_row(head)
+    if kind == "rejects":
+        return header[-2:] == ["line", "reason"]
+    if kind == "export":
+        return {"status", "model", "coef"} <= set(header)
+    raise ValueError(f"unknown output kind {kind!r}")
+
+
+def remove_own(path: "str | Path", kind: str) -> bool:
+    """Remove ``path`` if it is an earlier output of ``kind`` (a clean run's stale rejects file); True if removed."""
+    path = Path(path)
+    if path.is_symlink() or not is_own(path, kind):
+        return False
+    try:
+        path.unlink()
+    except OSError as exc:
+        raise DataError(f"cannot remove an earlier run's file ({exc.strerror})", path=str(path)) from None
+    return True
+
+
+def _check_folder(path: Path) -> None:
+    parent = path.parent
+    if not parent.exists():
+        raise DataError(f"no such folder {parent}; create it first", path=str(path))
+    if not parent.is_dir():
+        raise DataError(f"{parent} is not a folder", path=str(path))
+    if not os.access(parent, os.W_OK | os.X_OK):
+        raise DataError(f"cannot write in the folder {parent} (permission denied)", path=str(path))
+
+
+def _check_existing(path: Path, kind: str) -> None:
+    if not os.path.lexists(path):
+        return
+    if not path.exists():  # a dangling link: writing replaces the link, never its (missing) target
+        return
+    if kind == "results-folder":
+        if not path.is_dir():
+            raise DataError("exists and is not a folder; --engine dask writes a folder of Parquet parts",
+                            path=str(path))
+    elif path.is_dir():
+        raise DataError("is a folder; expected a file name", path=str(path))
+    elif not path.is_file():
+        raise DataError("is not a regular file", path=str(path))
+    if not is_own(path, kind):
+        raise DataError(f"exists and is not {KIND_NAMES[kind]}; pricefold replaces only its own earlier output "
+                        "(remove it or choose another name)", path=str(path))
+
+
+def _resolved(path: Path) -> Path:
+    try:
+        return path.resolve()
+    except (OSError, RuntimeError):  # a symlink loop: compare it as written
+        return path.absolute()
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        return os.path.samefile(a, b)
+    except OSError:
+        return False
+
+
+def _first_row(head: bytes) -> list[str]:
+    text = head.decode("utf-8", "replace").lstrip("\ufeff")
+    try:
+        return next(csv.reader(io.StringIO(text)), [])
+    except csv.Error:
+        return []
+
+
+def _is_results_parquet(path: Path, head: bytes) -> bool:
+    if not head.startswith(b"PAR1"):
+        return False
+    try:
+        import pyarrow.parquet as pq
+        return b"pricefold" in (pq.read_schema(path).metadata or {})
+    except Exception:  # noqa: BLE001 - any unreadable Parquet file is simply not ours
+        return False

@@ -1,0 +1,94 @@
+"""What a results file must hold, checked as it is read: each problem is one line naming the file, the
+series (1-based, in file order) and the field, e.g. ``r.json: series 3: missing 'flags'``.
+
+Only what the readers rely on is checked (names, types, the chosen candidate among the candidates,
+every flag's severity); the numbers themselves are taken as written.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+from ..errors import DataError
+
+SEVERITIES = ("stop", "warn")
+PARQUET_COLUMNS = ("n", "price_lo", "price_hi", "candidate", "family", "degree", "available", "reason", "cv_mse",
+                   "cv_se", "fold_mse", "r2", "q2", "coef", "smearing", "is_chosen", "chosen", "score",
+                   "revenue_price", "plan_price", "plan_volume", "plan_lo", "plan_hi", "plan_elasticity", "flags",
+                   "fingerprint")
+
+
+def _fail(path: Path, where: str, problem: str) -> DataError:
+    return DataError(f"{where}: {problem}; expected a pricefold results file" if where else
+                     f"{problem}; expected a pricefold results file", path=str(path))
+
+
+def _kind(value) -> str:
+    return "null" if value is None else {dict: "an object", list: "a list", str: "text", bool: "true or false",
+                                         int: "a number", float: "a number"}.get(type(value), type(value).__name__)
+
+
+def _number(value) -> bool:
+    return value is None or isinstance(value, (int, float)) and not isinstance(value, bool)
+
+
+def _field(path, where, record: dict, name: str, ok, expected: str, optional: bool = False):
+    if name not in record:
+        if optional:
+            return None
+        raise _fail(path, where, f"missing {name!r}")
+    value = record[name]
+    if not ok(value):
+        raise _fail(path, where, f"{name!r} should be {expected}, found {_kind(value)}")
+    return value
+
+
+def check_header(path: Path, document: dict, series_key: str | None) -> None:
+    """The header's ``settings`` and ``input``, and (JSON) that ``series_key`` holds a list."""
+    settings = _field(path, "", document, "settings", lambda v: isinstance(v, dict), "an object")
+    _field(path, "settings", settings, "rule", lambda v: isinstance(v, str), "text")
+    _field(path, "settings", settings, "level", lambda v: _number(v) and v is not None, "a number")
+    source = _field(path, "", document, "input", lambda v: isinstance(v, dict), "an object")
+    for name in ("path", "sha256"):  # absent when the data came from Python rather than a file
+        _field(path, "input", source, name, lambda v: isinstance(v, str), "text", optional=True)
+    if series_key is not None:
+        _field(path, "", document, series_key, lambda v: isinstance(v, list), "a list of series")
+
+
+def check_series(path: Path, index: int, record) -> None:
+    """One series record as the JSON layout has it (``index``: its place in the file, from 0)."""
+    where = f"series {index + 1}"
+    if not isinstance(record, dict):
+        raise _fail(path, where, f"should be an object, found {_kind(record)}")
+    _field(path, where, record, "key", lambda v: isinstance(v, dict) and v and all(
+        isinstance(k, str) and isinstance(x, str) for k, x in v.items()), "an object of key columns and their text")
+    _field(path, where, record, "n", lambda v: isinstance(v, int) and not isinstance(v, bool) and v >= 0,
+           "a whole number")
+    _field(path, where, record, "price_range", lambda v: isinstance(v, list) and len(v) == 2 and all(map(_number, v)),
+           "two numbers")
+    candidates = _field(path, where, record, "candidates", lambda v: isinstance(v, list), "a list")
+    names = set()
+    for c, cand in enumerate(candidates):
+        place = f"{where}, candidate {c + 1}"
+        if not isinstance(cand, dict):
+            raise _fail(path, place, f"should be an object, found {_kind(cand)}")
+        names.add(_field(path, place, cand, "name", lambda v: isinstance(v, str), "text"))
+        _field(path, place, cand, "available", lambda v: isinstance(v, bool), "true or false")
+        for name in ("cv_mse", "cv_se", "r2", "q2"):
+            _field(path, place, cand, name, _number, "a number or null", optional=True)
+        _field(path, place, cand, "coef", lambda v: v is None or isinstance(v, list) and all(map(_number, v)),
+               "a list of numbers or null", optional=True)
+    chosen = _field(path, where, record, "chosen", lambda v: v is None or isinstance(v, str), "text or null")
+    if chosen is not None and chosen not in names:
+        raise _fail(path, where, f"'chosen' names {chosen!r}, which is not among its candidates")
+    _field(path, where, record, "score", _number, "a number or null")
+    flags = _field(path, where, record, "flags", lambda v: isinstance(v, list), "a list of flags")
+    for f, flag in enumerate(flags):
+        place = f"{where}, flag {f + 1}"
+        if not isinstance(flag, dict):
+            raise _fail(path, place, f"should be an object, found {_kind(flag)}")
+        _field(path, place, flag, "code", lambda v: isinstance(v, str), "text")
+        _field(path, place, flag, "severity", lambda v: v in SEVERITIES, " or ".join(map(repr, SEVERITIES)))
+        _field(path, place, flag, "message", lambda v: isinstance(v, str), "text")
+    _field(path, where, record, "fingerprint", lambda v: isinstance(v, str), "text")
+    _field(path, where, record, "plan", lambda v: v is None or isinstance(v, dict), "an object or null", optional=True)
+    _field(path, where, record, "revenue_price", _number, "a number or null", optional=True)

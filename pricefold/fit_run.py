@@ -1,0 +1,116 @@
+"""``pricefold fit`` on this machine: guard the outputs, load, fit, diagnose, then write the rejects file
+and the results as one step.
+
+Order of events, so that a failed or killed run leaves the earlier results and rejects file exactly as
+they were: every output is checked against every input before anything is read; the rejects file is
+staged (written in full under a temporary name) right after loading, its digest recorded in the
+results' ``input``; the results are staged after the fit; then the rejects file and the results are
+put in place, in that order.  A clean run removes its own earlier rejects file last.
+"""
+from __future__ import annotations
+
+import sys
+import time
+from collections import Counter
+from pathlib import Path
+
+from .summary import rejects_line, summary_line
+
+
+def run_fit(args) -> int:
+    from fitcore.data.rejects import rejects_path
+    from fitcore.outputs import check_outputs
+
+    from .options import resolve
+    run = resolve(args)
+    if args.engine == "dask":
+        from .fit_dask import run_fit_dask
+        return run_fit_dask(args, run)
+    _check_ending(args.output)
+    inputs = [("the data", args.data), *run.inputs]
+    if getattr(args, "ledger", None) is not None:
+        inputs.append(("the ledger", args.ledger))
+    check_outputs([(args.output, "results"), (rejects_path(args.output), "rejects")], inputs)
+    return fit_locally(args, run)
+
+
+def _check_ending(output: Path) -> None:
+    from fitcore.data.columns import is_parquet_name
+    from fitcore.errors import DataError
+    if output.suffix.lower() != ".json" and not is_parquet_name(output):
+        raise DataError(f"expected the results file to end in .json or .parquet, got {output.name!r}",
+                        path=str(output))
+
+
+def fit_locally(args, run) -> int:
+    from fitcore import fit_batch
+    from fitcore.data.loader import load_with_rejects
+    from fitcore.data.plan import plan_prices
+    from fitcore.data.rejects import rejects_path, write_rejects
+    from fitcore.outputs import Batch, remove_own
+    from fitcore.results.write import write_results
+    from fitcore.review.flags import diagnose
+
+    from .progress import ProgressLine
+
+    started = time.perf_counter()
+    ahead = None
+    if getattr(args, "ledger", None) is not None:  # read and verified beside the load and the fit
+        from .cycle_cli import LedgerAhead
+        ahead = LedgerAhead(args.ledger, [args.output])
+    data, rejects = load_with_rejects(args.data, run.columns, sep=run.sep)
+    target = rejects_path(args.output)
+    if len(rejects):
+        strict_or_foreign(rejects, target, args.strict)
+    with Batch() as batch:
+        if len(rejects):
+            staged = batch.add(target, lambda handle: write_rejects(rejects, handle))
+            data.source.update(rejects_file=target.name, rejects_sha256=staged.sha256)
+        else:
+            data.source.update(rejects_file=None, rejects_sha256=None)
+        plan = plan_prices(data, run.plan_file) if run.plan_file else run.plan_price  # the plan's own delimiter
+        bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
+        try:
+            results = fit_batch(data, run.settings, plan_price=plan, progress=bar)
+        finally:
+            bar.close()
+        diagnosis = diagnose(results, run.thresholds)
+        backtest = None
+        if ahead is not None:  # the signed curves against the rows since, and the shifted flag
+            from .cycle_cli import backtest_against
+            diagnosis, backtest = backtest_against(ahead, results, diagnosis, run.thresholds)
+        write_results(results, args.output, diagnosis, batch=batch, backtest=backtest)
+    if not len(rejects):
+        remove_own(target, "rejects")  # an older run's rejects would now mislead
+    if not args.quiet:
+        if len(rejects):
+            print(rejects_line(rejects.reasons, target), file=sys.stderr)
+        print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)
+        if backtest is not None:
+            from .cycle_cli import backtest_line
+            print(backtest_line(backtest), file=sys.stderr)
+    return 0
+
+
+def strict_or_foreign(rejects, target: Path, strict: bool) -> None:
+    """Fail before anything is written: ``--strict`` with rejected rows, or a rejects file's name taken
+    by a file pricefold did not write."""
+    import os
+
+    from fitcore.data.validation import summary as rejects_summary
+    from fitcore.errors import DataError
+    from fitcore.outputs import is_own
+    if strict:
+        raise DataError(f"{rejects.reasons[0]} ({rejects_summary(rejects.reasons)}; --strict, so nothing was "
+                        "written)", path=str(rejects.path), line=int(rejects.lines[0]))
+    if os.path.lexists(target) and not is_own(target, "rejects"):
+        raise DataError("exists and is not a rejects file pricefold wrote, and this run has rejected rows to write "
+                        "there; remove it or choose another results name", path=str(target))
+
+
+def summary(results, diagnosis, seconds: float, output: Path) -> str:
+    names = results.names
+    chosen = Counter(names[c] if c >= 0 else "none" for c in results.chosen.tolist())
+    return summary_line(results.n_series, results.data.n_rows, {name: chosen[name] for name in [*names, "none"]},
+                        diagnosis.counts(), int((~diagnosis.raised.any(axis=1)).sum()), f"in {seconds:.2f} s",
+                        str(output))

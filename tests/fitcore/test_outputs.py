@@ -1,0 +1,159 @@
+"""The one atomic writer and the output guard (``fitcore.outputs``)."""
+from __future__ import annotations
+
+import os
+import re
+import stat
+import subprocess
+import sys
+
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+from fitcore.errors import DataError
+from fitcore.outputs import Batch, atomic_write, check_not_input, check_outputs, is_own, remove_leftovers
+from fitcore.outputs.atomic import HOST
+from fitcore.outputs.atomic import temp_path
+
+
+def mode(path) -> int:
+    return stat.S_IMODE(os.stat(path).st_mode)
+
+
+@pytest.fixture
+def umask_027():
+    old = os.umask(0o027)
+    yield
+    os.umask(old)
+
+
+def test_a_new_file_gets_the_umasks_mode_and_a_replaced_file_keeps_its_own(tmp_path, umask_027):
+    fresh = tmp_path / "new.json"
+    atomic_write(fresh, lambda h: h.write(b"{}"))
+    assert mode(fresh) == 0o640  # 0666 less the umask, as open() would give it (mkstemp alone gives 0600)
+    kept = tmp_path / "kept.json"
+    kept.write_text("old")
+    kept.chmod(0o604)
+    atomic_write(kept, lambda h: h.write(b"new"))
+    assert kept.read_text() == "new" and mode(kept) == 0o604
+
+
+def test_the_digest_is_of_what_was_written(tmp_path):
+    import hashlib
+    digest = atomic_write(tmp_path / "x.csv", lambda h: h.write(b"a,b\n"))
+    assert digest == hashlib.sha256(b"a,b\n").hexdigest()
+
+
+def test_temporary_names_carry_the_pid_and_dead_writers_leftovers_are_removed(tmp_path):
+    target = tmp_path / "r.json"
+    ours = temp_path(target)
+    assert re.fullmatch(rf"\.r\.json\.pricefold-.+-{os.getpid()}-[0-9a-f]{{8}}\.tmp", ours.name)
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True,
+                          text=True).stdout.strip()
+    leftover = tmp_path / f".r.json.pricefold-{HOST}-{dead}-0badf00d.tmp"  # a killed write
+    leftover.write_bytes(b"x" * 1000)
+    folder = tmp_path / f".r.json.pricefold-{HOST}-{dead}-deadbeef.tmp"  # a killed Dask run's staging folder
+    folder.mkdir()
+    (folder / "part-00000.parquet").write_bytes(b"x")
+    live = ours  # this process is alive: never removed
+    live.write_bytes(b"mine")
+    other = tmp_path / ".notes.json.pricefold-elsewhere-1-00000000.tmp"  # another file's: not this target's
+    other.write_bytes(b"x")
+    atomic_write(target, lambda h: h.write(b"{}"))
+    assert not leftover.exists() and not folder.exists()
+    assert live.exists() and other.exists() and target.read_bytes() == b"{}"
+
+
+def test_a_failed_write_leaves_the_earlier_file_and_no_temporary(tmp_path):
+    target = tmp_path / "r.json"
+    target.write_text("earlier")
+
+    def fails(handle):
+        handle.write(b"half")
+        raise OSError(28, "No space left on device")
+
+    with pytest.raises(DataError, match="cannot write .No space left on device"):
+        atomic_write(target, fails)
+    assert target.read_text() == "earlier" and sorted(p.name for p in tmp_path.iterdir()) == ["r.json"]
+
+
+def test_a_batch_lands_in_order_or_not_at_all(tmp_path):
+    first, second = tmp_path / "r.rejects.csv", tmp_path / "r.json"
+    first.write_text("old rejects")
+    second.write_text("old results")
+    with pytest.raises(RuntimeError):
+        with Batch() as batch:
+            batch.add(first, lambda h: h.write(b"new rejects"))
+            raise RuntimeError("the fit failed after the rejects were staged")
+    assert first.read_text() == "old rejects" and second.read_text() == "old results"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["r.json", "r.rejects.csv"]
+    with Batch() as batch:
+        batch.add(first, lambda h: h.write(b"new rejects"))
+        batch.add(second, lambda h: h.write(b"new results"))
+        assert first.read_text() == "old rejects"  # nothing visible until the block ends
+    assert first.read_text() == "new rejects" and second.read_text() == "new results"
+    assert os.stat(first).st_mtime_ns <= os.stat(second).st_mtime_ns
+
+
+def results_json(path):
+    path.write_text('{"schema":"pricefold-results/1","settings":{}}')
+    return path
+
+
+@pytest.mark.parametrize("make, message", [
+    (lambda d: (d / "in.parquet", d / "in.parquet"), "this is also an input"),
+    (lambda d: (d / "link.parquet", d / "in.parquet"), "this is also an input"),        # a symlink to the input
+    (lambda d: (d / "hard.parquet", d / "in.parquet"), "this is also an input"),        # a second name of it
+    (lambda d: (d / "sub" / ".." / "in.parquet", d / "in.parquet"), "this is also an input"),
+    (lambda d: (d / "parts" / "r.parquet", d / "parts"), "inside the input folder"),
+])
+def test_an_output_that_is_an_input_is_refused(tmp_path, make, message):
+    (tmp_path / "in.parquet").write_bytes(b"PAR1")
+    (tmp_path / "link.parquet").symlink_to("in.parquet")
+    os.link(tmp_path / "in.parquet", tmp_path / "hard.parquet")
+    (tmp_path / "sub").mkdir()
+    (tmp_path / "parts").mkdir()
+    output, source = make(tmp_path)
+    with pytest.raises(DataError, match=message):
+        check_outputs([(output, "results")], [("the data", source)])
+
+
+def test_a_results_folder_may_not_hold_an_input(tmp_path):
+    (tmp_path / "out" / "data").mkdir(parents=True)
+    with pytest.raises(DataError, match="inside the output folder"):
+        check_not_input(tmp_path / "out", [("the data", tmp_path / "out" / "data")], folder=True)
+
+
+def test_only_pricefolds_own_earlier_outputs_are_replaced(tmp_path):
+    results = results_json(tmp_path / "r.json")
+    table = pa.table({"a": [1]}).replace_schema_metadata({b"pricefold": b"{}"})
+    pq.write_table(table, tmp_path / "r.parquet")
+    pq.write_table(pa.table({"a": [1]}), tmp_path / "data.parquet")
+    (tmp_path / "r.rejects.csv").write_text("product,price,line,reason\n")
+    (tmp_path / "x.csv").write_text("product,status,model,coef\n")
+    (tmp_path / "notes.json").write_text('{"mine": 1}')
+    (tmp_path / "empty.json").write_bytes(b"")
+    assert is_own(results, "results") and is_own(tmp_path / "r.parquet", "results")
+    assert is_own(tmp_path / "r.rejects.csv", "rejects") and is_own(tmp_path / "x.csv", "export")
+    assert is_own(tmp_path / "empty.json", "results")
+    assert not is_own(tmp_path / "data.parquet", "results") and not is_own(tmp_path / "notes.json", "results")
+    assert not is_own(tmp_path / "x.csv", "rejects") and not is_own(tmp_path / "r.rejects.csv", "export")
+    for name in ("notes.json", "data.parquet"):
+        with pytest.raises(DataError, match="not a pricefold results file"):
+            check_outputs([(tmp_path / name, "results")], [])
+    check_outputs([(results, "results"), (tmp_path / "empty.json", "results")], [])
+
+
+@pytest.mark.parametrize("where, message", [("no/such/r.json", "no such folder"), ("f.txt/r.json", "is not a folder")])
+def test_an_output_folder_must_exist(tmp_path, where, message):
+    (tmp_path / "f.txt").write_text("x")
+    with pytest.raises(DataError, match=message):
+        check_outputs([(tmp_path / where, "results")], [])
+    assert not (tmp_path / "no").exists()
+
+
+def test_leftovers_of_another_target_are_left_alone(tmp_path):
+    stray = tmp_path / ".r.json.pricefold-otherhost-1-00000000.tmp"
+    stray.write_text("x")
+    assert remove_leftovers(tmp_path / "r.json") == [] and stray.exists()
