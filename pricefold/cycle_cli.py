@@ -5,6 +5,7 @@ The numbers come from ``fitcore.ledger.backtest``; the ledger is read through th
 """
 from __future__ import annotations
 
+import gc
 import sys
 from collections import Counter
 from dataclasses import dataclass
@@ -91,6 +92,7 @@ def _read_now(path: Path):
 
     from .ledger_cli import ledger_key
     book = ledger.Ledger(path, ledger_key())
+    gc.freeze()  # the records live until the process ends: keep collection passes off them
     return (book.state, str(book.problem) if book.problem else None, [str(n) for n in book.notes], book.head_text,
             standing_of(book.histories))
 
@@ -295,6 +297,7 @@ def run_carry(args) -> int:
     else:
         plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95))
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
+    gc.freeze()  # the records live until the command ends: keep collection passes off them
     outcome: Counter = Counter()
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now

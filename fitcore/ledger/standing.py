@@ -55,12 +55,14 @@ class Standing:
                            else getattr(self, f.name)[index] for f in fields(self)})
 
 
-def _number(value) -> float:
-    return np.nan if value is None else value
-
-
 def standing_of(histories: dict) -> Standing:
     """The standing decisions of every series in ``histories`` (a ledger's replay)."""
+    from .reader import collector_paused
+    with collector_paused():  # new objects by the 100,000 over a heap of records: no collection passes
+        return _standing_of(histories)
+
+
+def _standing_of(histories: dict) -> Standing:
     pairs = [(h.current, h.latest) for h in histories.values()
              if h.current is not None and h.current["action"] in DECISIONS]
     n = len(pairs)
@@ -72,14 +74,19 @@ def standing_of(histories: dict) -> Standing:
     text = lambda values: np.array(values + [None], dtype=object)[:-1]  # noqa: E731  (1-d even for lists)
     coef, cov = np.full((n, WIDTH), np.nan), np.full((n, WIDTH, WIDTH), np.nan)
     size = np.zeros(n, np.int64)
-    for row, snap in zip(at.tolist(), signed):  # the one loop over records: their lists into rows
-        k = len(snap["basis"]["coef"])
-        size[row] = k
-        coef[row, :k] = snap["basis"]["coef"]
-        if snap.get("cov_unscaled") is not None:
-            cov[row, :k, :k] = snap["cov_unscaled"]
-    per = lambda name, inner=None: [_number((s[inner] if inner else s).get(name)) for s in signed]  # noqa: E731
-    column = lambda values: _scatter(at, np.array(values, dtype=float), n)  # noqa: E731
+    if signed:  # each list of numbers to an array in one go per curve size (None → NaN)
+        size[at] = [len(s["basis"]["coef"]) for s in signed]
+        for k in np.unique(size[at]).tolist():
+            mine = np.flatnonzero(size[at] == k)
+            group = [signed[i] for i in mine.tolist()]
+            coef[at[mine], :k] = np.array([s["basis"]["coef"] for s in group], dtype=float)
+            covs = [s.get("cov_unscaled") for s in group]
+            whole = np.array([c is not None for c in covs], dtype=bool)
+            if whole.any():
+                cov[at[mine[whole]], :k, :k] = np.array([c for c in covs if c is not None], dtype=float)
+    numbers = np.array([(s["basis"]["mid"], s["basis"]["half"], s.get("smearing"), s.get("sigma2"), s.get("df"),
+                         s.get("level", 0.95), s.get("cv_mse")) for s in signed], dtype=float).reshape(-1, 7)
+    column = lambda i: _scatter(at, numbers[:, i], n)  # noqa: E731
     return Standing(
         series=[c["series"] for c in current], fingerprint=text([c["fingerprint"] for c in current]),
         decision=text([c["digest"] for c in current]),
@@ -88,9 +95,8 @@ def standing_of(histories: dict) -> Standing:
         signed_at=text([c["at"][:10] for c in current]),
         candidate=text([s["candidate"] if ok else c.get("model") for s, ok, c in zip(snaps, has, current)]),
         family=text([s["family"] if ok else None for s, ok in zip(snaps, has)]), signed=np.array(has, dtype=bool),
-        size=size, coef=coef, mid=column(per("mid", "basis")), half=column(per("half", "basis")),
-        smear=column(per("smearing")), cov=cov, sigma2=column(per("sigma2")), df=column(per("df")),
-        level=column([s.get("level", 0.95) for s in signed]), cv_mse=column(per("cv_mse")),
+        size=size, coef=coef, mid=column(0), half=column(1), smear=column(2), cov=cov, sigma2=column(3),
+        df=column(4), level=column(5), cv_mse=column(6),
         last_date=_dates(at, [s.get("last_date") for s in signed], n))
 
 
