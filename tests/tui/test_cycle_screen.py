@@ -73,3 +73,29 @@ async def test_signed_series_with_new_rows_are_stale_with_what_is_due(next_cycle
         assert len(written) == before + 1 and written[-1]["signed"]["last_date"] == "2026-11-30"  # the added week
         assert written[-1]["signed"]["cov_unscaled"] is not None and "incomplete" not in written[-1]["signed"]
         assert session.status[s] == "accepted" and "changed" in FILTERS
+
+
+def test_stored_results_from_fit_ledger_open_with_their_backtest_and_sign_complete_models(next_cycle, tmp_path):
+    """Triage on a Parquet file from ``fit --ledger``: the backtest as the file holds it, before any refit,
+    and a decision's snapshot complete from the stored interval parts."""
+    from tests.tui.conftest import ANA
+    from tui.factory import open_stored_session
+    book, source = next_cycle
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    out = tmp_path / "r2.parquet"
+    assert main(["fit", str(source.data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
+                 "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+    session = open_stored_session(out, copy, ANA)
+    assert not session.results.rows_loaded and session.backtest is not None
+    stale = session._code("stale")
+    shifted = session.diagnosis.flagged("shifted")
+    assert stale.sum() == 159 and 0 < shifted.sum() < 40
+    s = int(next(t for t in range(session.results.n_series) if shifted[t]))
+    assert session.due(s) == "backtest failed" and session.backtest_of(s)["new_rows"] == 1
+    written = session.decide(session.look(s), "hold", note="look next week")
+    assert written["signed"] is None
+    s2 = int(next(t for t in range(session.results.n_series) if stale[t] and not shifted[t]))
+    written = session.decide(session.look(s2), "accept", note="fine")
+    assert written["signed"]["cov_unscaled"] is not None and "incomplete" not in written["signed"]
+    assert written["signed"]["last_date"] == "2026-11-30"
