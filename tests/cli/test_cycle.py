@@ -200,3 +200,32 @@ def test_carry_from_parquet_records_what_it_does_from_json(cycle_two, tmp_path):
         assert other[:3] == (carries, flags, model) and other[3].keys() == signed.keys()
         np.testing.assert_allclose(np.array(other[3]["cov_unscaled"]), np.array(signed["cov_unscaled"]), rtol=1e-12)
         assert other[3]["plan"] == pytest.approx(signed["plan"], rel=1e-12) and other[3]["last_date"] == signed["last_date"]
+
+
+@pytest.mark.parametrize("kind", ["json", "parquet"])
+def test_an_override_is_carried_while_its_shape_stays_within_one_se(tmp_path, kind):
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=11)
+    common = ["--date", "week", "--plan-price", "2.3", "--degrees", "1-2", "--no-loglog", "--quiet"]
+    assert main(["fit", str(tmp_path / "c1.csv"), *common, "-o", str(tmp_path / f"r1.{kind}")]) == 0
+    from fitcore.ledger.snapshot import from_records
+    from fitcore.results.read import read_results
+    records = read_results(tmp_path / f"r1.{kind}")[1]
+    record = next(r for r in records if r["chosen"] == "poly1" and not r["flags"])
+    ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
+                                      results="ab" * 32, model="poly2", proposed="poly1", note="the buyer expects a bend",
+                                      signed=from_records([(record, "poly2")], 0.95)[0])],
+                  ledger.Identity("ana", "ana", "host"))
+    write_weeks(tmp_path / "c2.csv", 44, seed=11)
+    out = tmp_path / f"r2.{kind}"
+    assert main(["fit", str(tmp_path / "c2.csv"), *common, "-o", str(out), "--ledger", str(book)]) == 0
+    now = next(r for r in read_results(out)[1] if r["key"] == record["key"])
+    cands = {c["name"]: c for c in now["candidates"]}
+    best = min(cands.values(), key=lambda c: c["cv_mse"])
+    assert now["chosen"] == "poly1" and cands["poly2"]["cv_mse"] <= best["cv_mse"] + best["cv_se"]
+    assert main(["ledger", "carry", str(out), "--ledger", str(book), "-q"]) == 0
+    history = histories(book)[record["key"]["product"]]
+    carried = history.current
+    assert carried["action"] == "carry" and carried["model"] == "poly2" and carried["proposed"] == "poly1"
+    assert carried["carries"] == history.records[0]["digest"] and carried["signed"]["candidate"] == "poly2"
+    assert history.status(now["fingerprint"]) == "accepted"
