@@ -83,7 +83,8 @@ def parquet_columns(results: Results, backtest=None) -> dict:
     dates = last_dates(results)
     days = np.zeros(n_s, np.int32) if dates is None else dates.view(np.int64).astype(np.int32)
     missing = np.ones(n_s, bool) if dates is None else np.isnat(dates)
-    columns["last_date"] = pa.array(np.repeat(days, n_c), type=pa.int32(), mask=np.repeat(missing, n_c)).cast(pa.date32())
+    columns["last_date"] = pa.array(np.repeat(days, n_c), type=pa.int32(),
+                                    mask=np.repeat(missing, n_c)).cast(pa.date32())
     if backtest is not None:
         for name, values in backtest.columns().items():
             columns[f"backtest_{name}"] = _repeat_column(values, n_c)

@@ -170,7 +170,8 @@ def fit_part(p: int, table, job: PartJob, standing=None) -> dict:
             "clean": int((~diagnosis.raised.any(axis=1)).sum()), "flags": diagnosis.counts(),
             "chosen": {name: int(n) for name, n in zip(results.names, chosen) if n},
             "plan_matched": int(np.isfinite(results.plan_price).sum()) if job.plan_file else 0,
-            "backtest": {} if found is None else found.counts(), "shifted": 0 if found is None else int(found.shifted.sum())}
+            "backtest": {} if found is None else found.counts(),
+            "shifted": 0 if found is None else int(found.shifted.sum())}
 
 
 def worker_environment() -> dict[str, str]:

@@ -43,7 +43,8 @@ def write_weeks(path, weeks: int, drop_from: int | None = None, seed: int = 5) -
 
 
 def fit(data, out, ledger_path=None):
-    args = ["fit", str(data), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1", "--no-loglog", "-o", str(out), "--quiet"]
+    args = ["fit", str(data), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1", "--no-loglog",
+            "-o", str(out), "--quiet"]
     assert main(args + (["--ledger", str(ledger_path)] if ledger_path else [])) == 0
     return {r["key"]["product"]: r for r in json.loads(out.read_text())["series"]}
 
@@ -73,7 +74,8 @@ def test_three_cycles_sign_carry_sign(tmp_path, capsys):
         current = history.current
         assert current["action"] == "carry" and current["carries"] == signed[product].current["digest"]
         assert current["fingerprint"] == second[product]["fingerprint"]
-        assert current["signed"]["last_date"] == "2025-11-03" and history.status(second[product]["fingerprint"]) == "accepted"
+        assert current["signed"]["last_date"] == "2025-11-03"
+        assert history.status(second[product]["fingerprint"]) == "accepted"
 
     # Cycle 3: the mover's demand drops; its carried curve fails the backtest and it stays for a human.
     write_weeks(tmp_path / "c3.csv", 48, drop_from=44)
@@ -139,8 +141,9 @@ def test_carry_refuses_results_not_made_against_this_ledger(tmp_path, cycle_two,
 def test_carry_skips_series_whose_ledger_changed_since_the_fit(cycle_two, capsys):
     book, second, results = cycle_two
     held = histories(book)["item 1"]
-    ledger.append(book, [ledger.Entry(series={"product": "item 1"}, action="note", fingerprint=second["item 1"]["fingerprint"],
-                                      results="ab" * 32, note="asked the buyer", supersedes=held.latest["digest"])],
+    ledger.append(book, [ledger.Entry(series={"product": "item 1"}, action="note",
+                                      fingerprint=second["item 1"]["fingerprint"], results="ab" * 32,
+                                      note="asked the buyer", supersedes=held.latest["digest"])],
                   ledger.Identity("cy", "cy", "host"))
     capsys.readouterr()
     assert main(["ledger", "carry", str(results), "--ledger", str(book)]) == 0
@@ -199,7 +202,8 @@ def test_carry_from_parquet_records_what_it_does_from_json(cycle_two, tmp_path):
         other = carried["parquet"][product]
         assert other[:3] == (carries, flags, model) and other[3].keys() == signed.keys()
         np.testing.assert_allclose(np.array(other[3]["cov_unscaled"]), np.array(signed["cov_unscaled"]), rtol=1e-12)
-        assert other[3]["plan"] == pytest.approx(signed["plan"], rel=1e-12) and other[3]["last_date"] == signed["last_date"]
+        assert other[3]["plan"] == pytest.approx(signed["plan"], rel=1e-12)
+        assert other[3]["last_date"] == signed["last_date"]
 
 
 @pytest.mark.parametrize("kind", ["json", "parquet"])
@@ -213,7 +217,8 @@ def test_an_override_is_carried_while_its_shape_stays_within_one_se(tmp_path, ki
     records = read_results(tmp_path / f"r1.{kind}")[1]
     record = next(r for r in records if r["chosen"] == "poly1" and not r["flags"])
     ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
-                                      results="ab" * 32, model="poly2", proposed="poly1", note="the buyer expects a bend",
+                                      results="ab" * 32, model="poly2", proposed="poly1",
+                                      note="the buyer expects a bend",
                                       signed=from_records([(record, "poly2")], 0.95)[0])],
                   ledger.Identity("ana", "ana", "host"))
     write_weeks(tmp_path / "c2.csv", 44, seed=11)

@@ -53,7 +53,8 @@ def test_error_ratio_and_counts_match_a_direct_numpy_evaluation(tmp_path):
         if found.status[s] is None:  # every row predates the cut: decided on this very data
             assert not len(price) and history.current["fingerprint"] == new.fingerprints[s]
             continue
-        assert found.new_rows[s] == len(price) and found.status[s] in ((PASSED, "failed") if len(price) else ("no-new-rows",))
+        assert found.new_rows[s] == len(price)
+        assert found.status[s] in ((PASSED, "failed") if len(price) else ("no-new-rows",))
         if not len(price):
             continue
         if snap["family"] == "poly":
@@ -107,7 +108,8 @@ def test_thresholds_decide_the_shifted_flag(tmp_path):
     few = backtest(now, book.histories, Thresholds(shift_error_ratio=1e9, shift_coverage=1.0, shift_volume=1e9,
                                                    shift_min_rows=10**6), {})
     assert not few.shifted.any()  # coverage is judged only from shift_min_rows new rows on
-    by_volume = backtest(now, book.histories, Thresholds(shift_error_ratio=1e9, shift_coverage=0, shift_volume=0.05), {})
+    by_volume = backtest(now, book.histories,
+                         Thresholds(shift_error_ratio=1e9, shift_coverage=0, shift_volume=0.05), {})
     moved = np.abs(by_volume.volume_change) > 0.05
     assert (by_volume.shifted == moved).all() and 0 < moved.sum() < new.n_series
     # proposed and signed volumes at the plan price: the change is theirs
@@ -119,10 +121,12 @@ def test_thresholds_decide_the_shifted_flag(tmp_path):
 
 def test_without_a_date_column_no_backtest_is_possible(tmp_path):
     old, new = split(random_dataset(64, n_series=6, with_date=True))
-    undated = lambda d: from_columns({"product": np.repeat(d.keys["product"], d.counts)}, d.price, d.volume)  # noqa: E731
+    def undated(d):
+        return from_columns({"product": np.repeat(d.keys["product"], d.counts)}, d.price, d.volume)
     signed = fitcore.fit_batch(undated(old))
     book = sign_all(tmp_path / "l.jsonl", signed, undated(old))
     found = backtest(fitcore.fit_batch(undated(new)), book.histories, Thresholds(), {})
     moved = found.status != None  # noqa: E711  (series whose rows all predate the cut were signed on this data)
     assert 0 < moved.sum() < new.n_series and set(found.status[moved]) == {NO_DATES} and (found.new_rows == -1).all()
-    assert found.due(int(np.flatnonzero(moved)[0])) == "no dates" and not found.shifted[np.isnan(found.volume_change)].any()
+    assert found.due(int(np.flatnonzero(moved)[0])) == "no dates"
+    assert not found.shifted[np.isnan(found.volume_change)].any()
