@@ -40,6 +40,8 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--strict", action="store_true",
                      help="fail (exit 2, nothing written) if any row is rejected, instead of fitting the usable rows")
     fit.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
+    from .cycle_cli import add_fit_ledger_option
+    add_fit_ledger_option(fit)
     scale = fit.add_argument_group("engine")
     scale.add_argument("--engine", choices=("local", "dask"), default="local",
                        help="local (default): this process; dask: a Dask cluster, results as a folder of parts")
@@ -58,6 +60,9 @@ def build_parser() -> argparse.ArgumentParser:
     show.add_argument("--key", action="append", default=[], metavar="COL=VALUE",
                       help="only series whose key column COL is VALUE, e.g. region=North (repeatable)")
     show.add_argument("--flag", metavar="CODE", help="only series carrying this flag")
+    show.add_argument("--ledger", type=Path, default=None, metavar="LEDGER",
+                      help="also each series' status in this ledger and what it needs (results from fit --ledger "
+                           "hold the backtest of signed curves)")
 
     triage = commands.add_parser("triage", help="the keyboard-driven triage screen",
                                  description="Work through the series that need a human and sign off decisions. "
@@ -80,8 +85,9 @@ def build_parser() -> argparse.ArgumentParser:
     demo.add_argument("--season", type=int, default=0, choices=range(5), metavar="K",
                       help="hold K sine/cosine pairs of the season fixed, 0 to 4 (default: 0)")
 
+    from .cycle_cli import add_carry_parser
     from .ledger_cli import add_parser as add_ledger_parser
-    add_ledger_parser(commands)
+    add_carry_parser(add_ledger_parser(commands))
     from .report.command import add_parser as add_report_parser
     add_report_parser(commands)
     return parser
@@ -115,7 +121,11 @@ def run_show(args) -> int:
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
         return 1
     binary = (header.get("settings", {}).get("controls") or {}).get("binary", [])
-    print(detail(picked[0], binary) if len(picked) == 1 else table(picked))
+    if args.ledger is not None:
+        from .cycle_cli import show_with_ledger
+        print(show_with_ledger(picked, args.ledger, binary))
+    else:
+        print(detail(picked[0], binary) if len(picked) == 1 else table(picked))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     return 0
@@ -236,6 +246,9 @@ def run_demo(args) -> int:
 
 
 def run_ledger(args) -> int:
+    if args.ledger_command == "carry":
+        from .cycle_cli import run_carry
+        return run_carry(args)
     from .ledger_cli import run
     return run(args)
 

@@ -22,13 +22,22 @@ def run_fit_dask(args, run) -> int:
     if args.workers < 1 or (args.partitions is not None and args.partitions < 1):
         raise SettingsError("expected --workers and --partitions of at least 1")
     check_outputs([(args.output, "results-folder")], [("the data", args.data), *run.inputs])
+    book = None
+    if getattr(args, "ledger", None) is not None:  # read (and verified) once here; each partition gets its series
+        from fitcore import ledger
+
+        from .cycle_cli import same_file
+        from .ledger_cli import open_ledger
+        if same_file(args.output, args.ledger):
+            raise ledger.LedgerError(f"{args.output}: is the ledger; choose another results name")
+        book = open_ledger(args.ledger, refuse=(ledger.BROKEN,))
     started = time.perf_counter()
     client = connect(args.scheduler, args.workers)
     bar = ProgressLine("fitting partitions", enabled=None if not args.quiet else False)
     try:
         total = fit_on_dask(args.data, run.columns, run.settings, run.thresholds, args.output,
                             plan_file=run.plan_file, plan_price=run.plan_price, sep=run.sep, client=client,
-                            partitions=args.partitions, progress=bar, strict=args.strict)
+                            partitions=args.partitions, progress=bar, strict=args.strict, ledger=book)
     finally:
         bar.close()
         disconnect(client)
@@ -45,6 +54,11 @@ def run_fit_dask(args, run) -> int:
     print(summary_line(total["series"], total["rows"], chosen, flags, total["clean"],
                        f"on {total['workers']} Dask workers in {time.perf_counter() - started:.2f} s",
                        f"{args.output}/ ({total['partitions']} parts)"), file=sys.stderr)
+    if book is not None:
+        tested = sum(total["backtest"].values())
+        parts = " · ".join(f"{name} {count:,}" for name, count in sorted(total["backtest"].items()))
+        print(f"ledger: {tested:,} signed series on changed data" + (f" — backtest {parts}; shifted "
+              f"{total['shifted']:,}" if tested else ""), file=sys.stderr)
     return 0
 
 

@@ -28,6 +28,8 @@ def run_fit(args) -> int:
         return run_fit_dask(args, run)
     _check_ending(args.output)
     inputs = [("the data", args.data), *run.inputs]
+    if getattr(args, "ledger", None) is not None:
+        inputs.append(("the ledger", args.ledger))
     check_outputs([(args.output, "results"), (rejects_path(args.output), "rejects")], inputs)
     return fit_locally(args, run)
 
@@ -52,6 +54,10 @@ def fit_locally(args, run) -> int:
     from .progress import ProgressLine
 
     started = time.perf_counter()
+    ahead = None
+    if getattr(args, "ledger", None) is not None:  # read and verified beside the load and the fit
+        from .cycle_cli import LedgerAhead
+        ahead = LedgerAhead(args.ledger, [args.output])
     data, rejects = load_with_rejects(args.data, run.columns, sep=run.sep)
     target = rejects_path(args.output)
     if len(rejects):
@@ -70,13 +76,20 @@ def fit_locally(args, run) -> int:
         finally:
             bar.close()
         diagnosis = diagnose(results, run.thresholds)
-        write_results(results, args.output, diagnosis, batch=batch)
+        backtest = None
+        if ahead is not None:  # the signed curves against the rows since, and the shifted flag
+            from .cycle_cli import backtest_against
+            diagnosis, backtest = backtest_against(ahead, results, diagnosis, run.thresholds)
+        write_results(results, args.output, diagnosis, batch=batch, backtest=backtest)
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
     if not args.quiet:
         if len(rejects):
             print(rejects_line(rejects.reasons, target), file=sys.stderr)
         print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)
+        if backtest is not None:
+            from .cycle_cli import backtest_line
+            print(backtest_line(backtest), file=sys.stderr)
     return 0
 
 

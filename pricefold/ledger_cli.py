@@ -37,7 +37,7 @@ def identity(analyst: str | None) -> ledger.Identity:
     return ledger.Identity(analyst=analyst or os_user, os_user=os_user, host=socket.gethostname())
 
 
-def add_parser(commands) -> None:
+def add_parser(commands):
     parser = commands.add_parser("ledger", help="verify, show or export the sign-off ledger",
                                  description="The ledger records every sign-off decision, chained so that any "
                                              f"later edit is detected. Set {KEY_VARIABLE} to key the chain.")
@@ -63,6 +63,7 @@ def add_parser(commands) -> None:
     bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     bulk.add_argument("--note", default="", metavar="TEXT")
     bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
+    return sub
 
 
 def run(args) -> int:
@@ -148,21 +149,25 @@ def run_show(args) -> int:
 def run_accept_unflagged(args) -> int:
     from fitcore.results.read import results_in_parts
     header, parts = results_in_parts(args.results)
+    from fitcore.ledger.snapshot import from_records
     digest = ledger.results_digest(header)
-    # What the results propose, read before taking the lock (a results folder can be large).
-    proposals = [(record["key"], record["fingerprint"], record["chosen"]) for part in parts for record in part
-                 if not record["flags"] and record["chosen"]]
+    # What the results propose and the models as they stand, read before taking the lock (a results
+    # folder can be large).
+    unflagged = [record for part in parts for record in part if not record["flags"] and record["chosen"]]
+    signed = from_records([(record, record["chosen"]) for record in unflagged], header["settings"].get("level", 0.95))
+    proposals = [(record["key"], record["fingerprint"], record["chosen"], snapshot)
+                 for record, snapshot in zip(unflagged, signed)]
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
-        for key, fingerprint, chosen in proposals:
+        for key, fingerprint, chosen, snapshot in proposals:
             history = book.histories.get(series_id(key))
             if history is not None and history.current is not None:
                 continue
             latest = history.latest if history is not None else None
             yield ledger.Entry(series=key, action="accept", fingerprint=fingerprint, results=digest, model=chosen,
                                proposed=chosen, note=args.note, supersedes=latest["digest"] if latest else None,
-                               flags=())
+                               flags=(), signed=snapshot)
 
     written = book.append(decide, identity(args.analyst))
     if not args.quiet:

@@ -45,7 +45,7 @@ def run_export(args) -> int:
 
     columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
     row([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef", "analyst", "at",
-         "note", "plan_price", "plan_volume", "plan_lo", "plan_hi", "ledger_head"])
+         "note", "plan_price", "plan_volume", "plan_lo", "plan_hi", "carried_from", "ledger_head"])
     count, head = 0, book.head_text
     for record in (record for series in parts for record in series):
         count += 1
@@ -62,10 +62,20 @@ def run_export(args) -> int:
         row([*(str(value) for value in record["key"].values()), status, model or "", cand["family"] if cand else "",
              json.dumps(cand["coef"]) if cand and cand["coef"] else "", current["analyst"] if current else "",
              current["at"] if current else "", current.get("note", "") if current else "", plan.get("price", ""),
-             _number(at_plan.get("volume")), _number(at_plan.get("lo")), _number(at_plan.get("hi")), head])
+             _number(at_plan.get("volume")), _number(at_plan.get("lo")), _number(at_plan.get("hi")),
+             carried_from(history), head])
     write_text(args.output, buffer.getvalue())
     print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
     return 0
+
+
+def carried_from(history) -> str:
+    """``SEQ:DIGEST`` of the accept or override a standing ``carry`` carries forward ('' when none stands)."""
+    current = history.current if history else None
+    if current is None or current["action"] != "carry":
+        return ""
+    carried = next((r for r in history.records if r["digest"] == current.get("carries")), None)
+    return f"{carried['seq']}:{carried['digest']}" if carried else f"?:{current.get('carries')}"
 
 
 def _number(value):

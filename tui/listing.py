@@ -15,9 +15,10 @@ import numpy as np
 
 from fitcore.review.flags import CODES
 
-FILTERS = ("attention", "all", "pending", "held", "decided")
+FILTERS = ("attention", "all", "pending", "held", "decided", "changed", "shifted")
 FILTER_TITLES = {"attention": "needs attention, pending", "all": "all series", "pending": "pending",
-                 "held": "held", "decided": "decided"}
+                 "held": "held", "decided": "decided", "changed": "changed since sign-off",
+                 "shifted": "shifted since sign-off"}
 SORTS = ("attention", "key", "score", "n")
 SORT_TITLES = {"attention": "attention", "key": "key", "score": "lowest score", "n": "fewest observations"}
 STATUS_MARK = {"pending": "·", "accepted": "✓", "overridden": "↺", "held": "‖", "stale": "!"}
@@ -80,6 +81,10 @@ class ListState:
             return self._code("held")
         if name == "decided":
             return ~self.undecided
+        if name == "changed":  # signed, and the data changed since: stale until carried or decided again
+            return self._code("stale")
+        if name == "shifted":
+            return self.diagnosis.flagged("shifted").copy()
         return np.ones(self.results.n_series, dtype=bool)
 
     def _mask(self, name: str, flag: str | None) -> np.ndarray:

@@ -95,8 +95,7 @@ class TriageSession(ListState):
                                  "decisions cannot be recorded")
         self.status = np.array(["pending"] * data.n_series, dtype=object)
         self.status_code = np.zeros(data.n_series, dtype=np.int8)  # index into STATUSES, for fast masks and counts
-        self.diagnosis = diagnosis
-        self._flagged = diagnosis.raised.any(axis=1)
+        self._with_backtest(results, diagnosis)
         self.shown: Shown | None = None
         self.news: dict | None = None  # the latest record by someone else on the highlighted series, while it stays
         self._written: set[str] = set()  # digests this screen appended
@@ -168,11 +167,39 @@ class TriageSession(ListState):
             self.pinned = int(perm[self.pinned])
         self._known = {sid: int(perm[s]) if s >= 0 else -1 for sid, s in self._known.items()}
         self.keys, self._labels, self._search = fresh, {}, None
-        self.results, self.base_diagnosis = results, diagnosis
+        self.results = results
+        self._with_backtest(results, diagnosis)
         self.reload_ledger(force=True, pin="brought")
         if self.shown is not None:
             self.look(self.index_of(self.shown))
         return True
+
+    def _with_backtest(self, results: Results, diagnosis: Diagnosis) -> None:
+        """Signed curves against the rows since sign-off (``fitcore.ledger.backtest``): the ``shifted``
+        flag joins the results' flags, and ``backtest`` holds the numbers (None: nothing to test)."""
+        from fitcore.ledger.backtest import cycle_of
+        source = {"path": str(self.ledger_path), "head": self.book.head_text, "state": self.book.state}
+        self.base_diagnosis, self.backtest = cycle_of(results, diagnosis, self.book.histories, source)
+        self.diagnosis = self.base_diagnosis
+        self._flagged = self.diagnosis.raised.any(axis=1)
+
+    def backtest_of(self, s: int) -> dict | None:
+        """Series ``s``'s backtest (``Backtest.record``): None when nothing was tested."""
+        return self.backtest.record(s) if self.backtest is not None else None
+
+    def due(self, s: int) -> str | None:
+        """What a signed series whose data changed needs (backtest failed, shifted, no dates, …)."""
+        if self.status[s] != "stale":
+            return None
+        return (self.backtest.due(s) if self.backtest is not None else None) or "a new look (no backtest here)"
+
+    def signed_model(self, s: int, model: str | None) -> dict | None:
+        """The ``signed`` snapshot of ``model`` on series ``s`` as the results hold it (incomplete, and
+        saying so, when they lack the interval parts: results read back before their rows arrived)."""
+        from fitcore.ledger.snapshot import from_results
+        if model not in self.results.names:
+            return None
+        return from_results(self.results, [s], self.results.names.index(model))[0]
 
     def _id(self, s: int) -> str:
         return series_id(self.keys.key_of(s))
@@ -269,9 +296,10 @@ class TriageSession(ListState):
             raise Refused("this series has left the list you are working through; move on first")
         if action == "accept":
             model = shown.proposed
+        signed = self.signed_model(s, model) if action in ("accept", "override") else None
         entry = ledger.Entry(series=shown.key, action=action, fingerprint=shown.fingerprint,
                              results=self.results_digest, model=model, proposed=shown.proposed, note=note,
-                             supersedes=shown.latest, flags=list(shown.flags))
+                             supersedes=shown.latest, flags=list(shown.flags), signed=signed)
         self._known[shown.sid] = s
         try:
             [written] = self.book.append([entry], self.who)

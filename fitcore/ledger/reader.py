@@ -221,8 +221,25 @@ class Ledger:
         """Where the whole records end: what follows is an interrupted append."""
         return self._offset
 
-    def take_written(self, fd: int) -> list[dict]:
-        """Read back what this process just appended (still under its lock)."""
+    def take_written(self, fd: int, records: list[dict] | None = None, lines: list[bytes] | None = None) -> list[dict]:
+        """Take what this process just appended (still under its lock).  Given the ``records`` and their
+        ``lines`` as written, and the file holds exactly those bytes after the known tail, they are taken as
+        they are (made here, from canonical JSON: parsing and re-checking 100,000 of them cost seconds);
+        otherwise the file is read back and verified like any tail."""
+        if records and lines and not self.problems and not self._chain.batch:
+            written = b"".join(lines)
+            status = os.fstat(fd)
+            if status.st_size == self._offset + len(written) and os.pread(fd, len(written), self._offset) == written:
+                last = records[-1]
+                self._chain.seq, self._chain.prev = last["seq"], last["digest"]
+                self._chain.second = True
+                self._chain.keyed = self._chain.keyed or last["digest_kind"] == "hmac-sha256"
+                self._line += len(records)
+                with collector_paused():
+                    self._take(records, self._offset + len(written), lines[-1][:-1])
+                self.notes = []
+                self._seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
+                return records
         return self._read(fd, judge=True)
 
 

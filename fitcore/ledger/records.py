@@ -111,8 +111,9 @@ def results_digest(header: dict) -> str:
     return hashlib.sha256(canonical({"settings": header.get("settings"), "input": header.get("input")})).hexdigest()
 
 
-def check_entry(entry: Entry) -> None:
-    """What an entry must hold on its own, before the ledger's state is looked at."""
+def check_entry(entry: Entry) -> bytes | None:
+    """What an entry must hold on its own, before the ledger's state is looked at.  Returns the signed
+    model's canonical bytes (None without one), which ``new_record`` writes as they are."""
     if entry.action not in ACTIONS:
         raise LedgerError(f"expected an action among {', '.join(ACTIONS)}, got {entry.action!r}")
     if not isinstance(entry.series, dict) or not entry.series:
@@ -129,26 +130,47 @@ def check_entry(entry: Entry) -> None:
         raise LedgerError(f"expected 'flags' as a list of flag codes, got {entry.flags!r}")
     if entry.signed is not None and not isinstance(entry.signed, dict):
         raise LedgerError(f"expected the signed model as an object or None, got {type(entry.signed).__name__}")
-    if entry.signed is not None:
-        _plain_json(entry.signed, "the signed model")
+    signed = _plain_json(entry.signed, "the signed model") if entry.signed is not None else None
     if entry.signed is not None and entry.action not in DECISIONS:
         raise LedgerError(f"only {', '.join(DECISIONS)} record a signed model, not {entry.action}")
     if (entry.action == "carry") != (entry.carries is not None):
         raise LedgerError("a carry names the decision it carries forward ('carries'), and only a carry does")
     if entry.carries is not None and not (isinstance(entry.carries, str) and HEX64.fullmatch(entry.carries)):
         raise LedgerError(f"expected 'carries' as a record digest (64 hex digits), got {entry.carries!r}")
+    return signed
+
+
+# A stand-in for the signed model while the rest of a record is encoded: its bytes (from ``check_entry``)
+# go in its place.  Only "supersedes" (a digest or null) follows "signed" among a record's keys, so the
+# last occurrence of the stand-in after "signed": is the record's own, whatever the series key holds.
+_STAND_IN = "\x00signed\x00"
+_STAND_IN_MEMBER = b'"signed":' + json.dumps(_STAND_IN).encode("ascii")
 
 
 def new_record(entry: Entry, who: Identity, seq: int, at: str, prev: str, batch: dict | None,
-               key: bytes | None) -> tuple[dict, bytes]:
-    """The /2 record for ``entry`` and its line (canonical JSON and a newline)."""
+               key: bytes | None, signed: bytes | None = None) -> tuple[dict, bytes]:
+    """The /2 record for ``entry`` and its line (canonical JSON and a newline).  ``signed``: the signed
+    model's canonical bytes, when ``check_entry`` has made them already."""
     record = {"schema": SCHEMA, "seq": seq, "at": at, "analyst": who.analyst, "os_user": who.os_user,
               "host": who.host, "series": entry.series, "fingerprint": entry.fingerprint, "results": entry.results,
               "action": entry.action, "model": entry.model, "proposed": entry.proposed, "note": entry.note,
               "supersedes": entry.supersedes, "flags": list(entry.flags), "batch": batch, "signed": entry.signed,
               "carries": entry.carries, "prev": prev, "digest_kind": "hmac-sha256" if key else "sha256"}
-    record["digest"] = sign(_plain_json(record, "the record"), key)
-    return record, canonical(record) + b"\n"
+    if signed is not None and entry.signed is not None:
+        record["signed"] = _STAND_IN
+        body = _plain_json(record, "the record")
+        at = body.rindex(_STAND_IN_MEMBER) + len(b'"signed":')
+        body = body[:at] + signed + body[at + len(_STAND_IN_MEMBER) - len(b'"signed":'):]
+        record["signed"] = entry.signed
+    else:
+        body = _plain_json(record, "the record")
+    record["digest"] = sign(body, key)
+    # The line is the canonical JSON of the record with its digest: "digest" sorts just before
+    # "digest_kind", and no object before that key ("batch" is the only one) can hold it, so the
+    # member goes in right there (one encoding of the record instead of two; the reader's fast path
+    # takes it out again the same way).
+    at = body.index(b',"digest_kind":')
+    return record, body[:at] + b',"digest":"' + record["digest"].encode("ascii") + b'"' + body[at:] + b"\n"
 
 
 def _plain_json(value, what: str) -> bytes:

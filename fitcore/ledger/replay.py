@@ -13,8 +13,27 @@ _CANONICAL = json.JSONEncoder(sort_keys=True, ensure_ascii=False, separators=(",
 
 
 def series_id(key: dict) -> str:
-    """A stable text identity for a series key (canonical JSON; one encoder made once, not per call)."""
-    return _CANONICAL.encode(key)
+    """A stable text identity for a series key (canonical JSON; one encoder made once, not per call).
+
+    Keys of text values are remembered (a ledger names each series many times: replay, rules, lookups;
+    encoding each time was a third of opening a 100,000-record ledger)."""
+    try:
+        probe = tuple(key.items())
+        known = _IDS.get(probe)  # a hit is a key of text: only those are kept, and "1" != 1
+        if known is not None:
+            return known
+    except (AttributeError, TypeError):  # not a mapping of text: encoded (or refused) as it always was
+        return _CANONICAL.encode(key)
+    known = _CANONICAL.encode(key)
+    if all(type(v) is str for _, v in probe):
+        if len(_IDS) >= _IDS_LIMIT:
+            _IDS.clear()
+        _IDS[probe] = known
+    return known
+
+
+_IDS: dict[tuple, str] = {}
+_IDS_LIMIT = 1 << 20
 
 
 @dataclass

@@ -22,13 +22,15 @@ DONE = {"accept": "accepted {model}", "override": "overrode the proposal with {m
         "note": "added a note", "revoke": "withdrew a decision", "carry": "carried {model} forward"}
 
 
-def check_alone(entries: list[Entry]) -> None:
+def check_alone(entries: list[Entry]) -> list[bytes | None]:
     """The rules an append's entries must meet whatever the ledger holds (checked before the
-    file is even opened, so a refused first decision leaves no file behind)."""
+    file is even opened, so a refused first decision leaves no file behind).  Returns each entry's
+    signed model as canonical bytes (``check_entry``)."""
     stops = _stop_codes()
     seen: set[str] = set()
+    signed = []
     for entry in entries:
-        check_entry(entry)
+        signed.append(check_entry(entry))
         sid = series_id(entry.series)
         if sid in seen:
             raise LedgerError(f"{label(entry.series)}: one append records at most one decision per series")
@@ -37,6 +39,7 @@ def check_alone(entries: list[Entry]) -> None:
         if entry.action == "accept" and flagged and not entry.note.strip():
             raise LedgerError(f"{label(entry.series)}: accepting past a stop flag ({', '.join(flagged)}) "
                               "needs a note saying why")
+    return signed
 
 
 def check_against(entries: list[Entry], histories: dict[str, SeriesHistory], who: Identity) -> None:

@@ -36,7 +36,7 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
     path = book.path
     if not callable(entries):
         entries = list(entries)
-        check_alone(entries)
+        signed = check_alone(entries)
     fd = files.open_ledger(path, write=True)
     try:
         files.lock(fd, fcntl.LOCK_EX)
@@ -46,7 +46,7 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
             raise LedgerError(f"{path}: {book.problem}; nothing was recorded ({refuse})")
         if callable(entries):
             entries = list(entries(book.records))
-            check_alone(entries)
+            signed = check_alone(entries)
         check_against(entries, book.histories, who)
         if not entries:
             return []
@@ -54,14 +54,16 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
             files.set_aside(fd, path, book.tail_start, clock())
         batch = uuid.uuid4().hex if len(entries) > 1 else None
         seq, prev = book.head
-        lines = []
+        lines, records = [], []
         for index, entry in enumerate(entries, start=1):
             marker = {"id": batch, "index": index, "size": len(entries)} if batch else None
-            record, line = new_record(entry, who, seq + index, stamp(clock()), prev, marker, book.key)
+            record, line = new_record(entry, who, seq + index, stamp(clock()), prev, marker, book.key,
+                                      signed[index - 1])
             prev = record["digest"]
             lines.append(line)
+            records.append(record)
         files.write_all(fd, path, book.tail_start, b"".join(lines))
-        return book.take_written(fd)
+        return book.take_written(fd, records, lines)
     finally:
         os.close(fd)  # closing releases the lock
 

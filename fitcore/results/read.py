@@ -10,6 +10,8 @@ import json
 from collections.abc import Iterator
 from pathlib import Path
 
+import numpy as np
+
 from ..data.columns import is_parquet_name
 from ..data.textfile import regular_or_folder
 from ..errors import DataError
@@ -151,6 +153,7 @@ def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
                        "candidates": [], "chosen": row["chosen"], "rule": meta["settings"]["rule"],
                        "score": row["score"], "flags": flags, "revenue_price": row["revenue_price"],
                        "plan": None, "fingerprint": row["fingerprint"]}
+            current.update(series_cycle_fields(row))
             series.append(current)
         cand = {name: row[name] for name in ("candidate", "family", "degree", "available", "reason", "cv_mse", "cv_se",
                                              "fold_mse", "r2", "q2", "coef")}
@@ -160,6 +163,7 @@ def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
         if row["plan_price"] is not None and cand["available"]:
             cand["plan_volume"] = row["plan_volume"]
         record_fields(row, cand, current)  # with controls: their fields, as the JSON layout has them
+        cand.update(candidate_cycle_fields(row))
         current["candidates"].append(cand)
         if row["is_chosen"] and row["plan_price"] is not None:
             current["plan"] = {"price": row["plan_price"], "volume": row["plan_volume"], "lo": row["plan_lo"],
@@ -174,3 +178,31 @@ def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
 
 def _inside(lo, price, hi) -> bool:
     return None not in (lo, price, hi) and lo <= price <= hi
+
+
+# -- the next cycle's fields (``results/cycle.py``), where the file holds them -------------------------
+
+def candidate_cycle_fields(row: dict) -> dict:
+    if "cov_unscaled" not in row:
+        return {}
+    if not row["available"]:
+        return {"basis": None, "sigma2": None, "df": None, "cov_unscaled": None}
+    from ..fit.families import BY_NAME
+    family = BY_NAME[row["family"]]
+    size = len(row["coef"])
+    mid, half = family.window_of(np.float64(row["price_lo"]), np.float64(row["price_hi"]), True)
+    cov = row["cov_unscaled"]
+    return {"basis": {"x": family.regressor, "mid": float(mid), "half": float(half),
+                      "coef": row["window_coef"][:size]},
+            "sigma2": row["sigma2"], "df": row["df"],
+            "cov_unscaled": [cov[i * size:(i + 1) * size] for i in range(size)] if cov else None}
+
+
+def series_cycle_fields(row: dict) -> dict:
+    out = {}
+    if "last_date" in row:
+        out["last_date"] = row["last_date"].isoformat() if row["last_date"] is not None else None
+    if "backtest_status" in row:
+        out["backtest"] = None if row["backtest_status"] is None else \
+            {name[len("backtest_"):]: value for name, value in row.items() if name.startswith("backtest_")}
+    return out

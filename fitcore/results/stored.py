@@ -109,6 +109,9 @@ class StoredResults(Results):
     reasons: object = None
     fold_lists: object = None
     stored_score: np.ndarray = None  # (S × C,) Arrow lists: each cell's per-fold errors, read per series on demand
+    stored_cov: object = None  # ``StoredCovariances`` where the file holds them (``review.intervals``)
+    stored_last_date: np.ndarray = None  # (S,) datetime64[D] where the file holds each series' last date
+    stored_backtest: dict = None  # name → (S,) the backtest columns of results from ``fit --ledger`` (else None)
 
     rows_loaded = False
 
@@ -216,8 +219,86 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
         top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=table.column("reason"),
         fold_lists=table.column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
         controls=stored_controls(table, meta["settings"], n_s, n_c, numbers))
+    results = _with_cycle_fields(results, _optional(path, meta), n_s, n_c, lineup.width)
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
+
+
+# -- the next cycle's fields (``results/cycle.py``): read where the file holds them --------------------
+
+CYCLE = ("sigma2", "df", "cov_unscaled", "last_date")
+
+
+class StoredCovariances:
+    """Each candidate's unscaled covariance as the file holds it (its p·p entries row by row, an Arrow list a cell)."""
+
+    def __init__(self, column, n_c: int, sizes, width: int) -> None:
+        self.column, self.n_c, self.sizes, self.width = column, n_c, np.asarray(sizes), width
+
+    def cells(self, series: np.ndarray) -> np.ndarray:
+        """(len(series), C, P, P), NaN where the file holds none."""
+        out = np.full((len(series), self.n_c, self.width, self.width), np.nan)
+        for c, p in enumerate(self.sizes.tolist()):
+            out[:, c, :p, :p] = self.of(series, c)
+        return out
+
+    def of(self, series: np.ndarray, c: int) -> np.ndarray:
+        """(len(series), p, p) candidate ``c``'s covariance on ``series`` (NaN where unavailable)."""
+        p = int(self.sizes[c])
+        rows = integers(np.asarray(series, dtype=np.int64) * self.n_c + c)
+        taken = self.column.take(rows).combine_chunks()
+        out = np.full((len(series), p * p), np.nan)
+        if len(series):
+            lengths = np.diff(numbers(taken.offsets).astype(np.int64))
+            values = numbers(taken.flatten())
+            full = lengths == p * p
+            out[full] = values.reshape(-1, p * p)
+        return out.reshape(len(series), p, p)
+
+
+def _optional(path: Path, meta: dict):
+    """The cycle columns of every part, when every part has them (else None: an older file)."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+    tables = []
+    for part in result_parts(path) or [path]:
+        reader = pq.ParquetFile(part)
+        names = reader.schema_arrow.names
+        if any(name not in names for name in CYCLE):
+            return None
+        tables.append(reader.read(columns=list(CYCLE) + [n for n in names if n.startswith("backtest_")]))
+    return pa.concat_tables(tables) if len(tables) > 1 else tables[0]
+
+
+def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width: int) -> StoredResults:
+    from dataclasses import replace
+    if table is None:
+        return results
+    days = table.column("last_date").cast("int32").combine_chunks()
+    every = np.arange(0, table.num_rows, max(n_c, 1))
+    last = numbers(days.take(integers(every))) if n_s else np.zeros(0)
+    last_date = None if n_s and np.isnan(last).all() else np.where(np.isnan(last), np.iinfo(np.int64).min,
+                                                                       last).astype(np.int64).view("datetime64[D]")
+    backtest = None
+    if "backtest_status" in table.column_names:
+        backtest = {name[len("backtest_"):]: _per_series(table.column(name), n_c)
+                    for name in table.column_names if name.startswith("backtest_")}
+    return replace(results, sigma2=CellColumn(table.column("sigma2"), n_s, n_c), stored_backtest=backtest,
+                   df=CellColumn(table.column("df"), n_s, n_c),
+                   stored_cov=StoredCovariances(table.column("cov_unscaled"), n_c,
+                                                [c.complexity for c in results.candidates], width),
+                   stored_last_date=last_date)
+
+
+def _per_series(column, n_c: int) -> np.ndarray:
+    """(S,) one value a series of a per-series column repeated on each candidate's row: text as objects
+    (None for null), numbers as float (NaN for null), booleans as bool."""
+    import pyarrow as pa
+    column = column.combine_chunks().take(integers(np.arange(0, len(column), max(n_c, 1))))
+    if pa.types.is_string(column.type) or pa.types.is_dictionary(column.type):
+        return np.array(column.to_pylist() + [None], dtype=object)[:-1]
+    values = numbers(column)
+    return values.astype(bool) if pa.types.is_boolean(column.type) else values.astype(float, copy=False)
 
 
 def _column(table, name: str) -> np.ndarray:

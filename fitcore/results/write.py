@@ -16,7 +16,7 @@ from ..data.columns import is_parquet_name
 from ..errors import DataError
 from ..fit.results import SCHEMA, Results
 from ..outputs import atomic_write
-from . import control_fields
+from . import control_fields, cycle
 
 
 def power_coef_table(results: Results) -> np.ndarray:
@@ -31,13 +31,13 @@ def power_coef_table(results: Results) -> np.ndarray:
     return out
 
 
-def header(results: Results, diagnosis=None) -> dict:
+def header(results: Results, diagnosis=None, backtest=None) -> dict:
     settings = results.settings.as_dict()
     if diagnosis is not None:
         settings["thresholds"] = diagnosis.thresholds.as_dict()
     if results.controls is not None:
         settings["controls"] = control_fields.header_settings(results)
-    return {"schema": SCHEMA, "settings": settings, "input": dict(results.data.source)}
+    return {"schema": SCHEMA, "settings": settings, "input": dict(results.data.source)} | cycle.header_extras(backtest)
 
 
 def _flag_lists(results: Results, diagnosis) -> list[list[dict]]:
@@ -52,7 +52,7 @@ def _num(value) -> float | None:
     return value if math.isfinite(value) else None
 
 
-def series_records(results: Results, diagnosis=None) -> list[dict]:
+def series_records(results: Results, diagnosis=None, backtest=None) -> list[dict]:
     """One JSON-ready dict per series (the ``series`` list of a results file)."""
     data, names = results.data, results.names
     coef = power_coef_table(results)
@@ -60,6 +60,7 @@ def series_records(results: Results, diagnosis=None) -> list[dict]:
     score = results.score
     flags = _flag_lists(results, diagnosis)
     smeared = [results.family_of(c).smeared for c in range(len(results.candidates))]
+    cand_extras, series_extras = cycle.json_candidate_extras(results), cycle.json_series_extras(results, backtest)
     records = []
     for s in range(results.n_series):
         folds = results.folds_of(s)
@@ -81,6 +82,7 @@ def series_records(results: Results, diagnosis=None) -> list[dict]:
                 entry["plan_volume"] = _num(results.plan_volume[s, c])
             if results.controls is not None:
                 entry["controls"] = control_fields.candidate_controls(results.controls, s, c, ok)
+            entry.update(cand_extras(s, c, ok))  # the next cycle's fields (results/cycle.py)
             candidates.append(entry)
         chosen = int(results.chosen[s])
         records.append({
@@ -94,7 +96,7 @@ def series_records(results: Results, diagnosis=None) -> list[dict]:
             "revenue_price": _num(results.revenue_price[s]),
             "plan": _plan_record(results, s, chosen),
             "fingerprint": fingerprints[s],
-        })
+        } | series_extras(s))  # the next cycle's fields (results/cycle.py)
         if results.controls is not None:
             records[-1].update(control_fields.series_controls(results.controls, s))
     return records
@@ -110,19 +112,20 @@ def _plan_record(results: Results, s: int, chosen: int) -> dict | None:
             "inside_range": bool(results.price_lo[s] <= price <= results.price_hi[s])}
 
 
-def write_results(results: Results, path: str | Path, diagnosis=None, *, batch=None) -> Path:
-    """Write ``results`` (and the flags of ``diagnosis``) as JSON or Parquet, by the file name's ending.
+def write_results(results: Results, path: str | Path, diagnosis=None, *, batch=None, backtest=None) -> Path:
+    """Write ``results`` (and the flags of ``diagnosis``, the ``backtest`` against a ledger) as JSON or
+    Parquet, by the file name's ending.
 
     ``batch``: an ``outputs.Batch`` to stage the file in (put in place with the batch's other files).
     """
     path = Path(path)
     write = (batch.add if batch is not None else atomic_write)
     if path.suffix.lower() == ".json":
-        document = header(results, diagnosis) | {"series": series_records(results, diagnosis)}
+        document = header(results, diagnosis, backtest) | {"series": series_records(results, diagnosis, backtest)}
         payload = json.dumps(document, ensure_ascii=False, allow_nan=False, indent=None, separators=(",", ":"))
         write(path, lambda handle: handle.write(payload.encode("utf-8")))
     elif is_parquet_name(path):
-        table = results_table(results, diagnosis)
+        table = results_table(results, diagnosis, backtest)
         write(path, lambda handle: write_parquet(table, handle))
     else:
         raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
@@ -139,7 +142,7 @@ def write_parquet(table, where) -> None:
     pq.write_table(table, where, compression="snappy", use_dictionary=text)
 
 
-def results_table(results: Results, diagnosis=None):
+def results_table(results: Results, diagnosis=None, backtest=None):
     """The Parquet layout: one row per series × candidate; the header in the schema metadata."""
     import pyarrow as pa
     n_s, n_c = results.available.shape
@@ -185,9 +188,10 @@ def results_table(results: Results, diagnosis=None):
     )
     if results.controls is not None:
         columns.update(control_fields.parquet_columns(results, repeat_text))
+    columns.update(cycle.parquet_columns(results, backtest))  # the next cycle's fields (results/cycle.py)
     table = pa.table({name: pa.array(value, from_pandas=True) if not isinstance(value, pa.Array) else value
                       for name, value in columns.items()})
-    meta = json.dumps(header(results, diagnosis) | {"key_columns": list(data.key_names)})
+    meta = json.dumps(header(results, diagnosis, backtest) | {"key_columns": list(data.key_names)})
     return table.replace_schema_metadata({b"pricefold": meta.encode()})
 
 

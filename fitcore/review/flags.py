@@ -31,6 +31,7 @@ FLAGS = (
     ("weak-fit", "warn", "low cross-validated R² (Q²)"),
     ("influential-point", "warn", "one observation has a large influence on the chosen curve"),
     ("price-tied", "warn", "price moved together with a control, so its effect cannot be told apart from it"),
+    ("shifted", "warn", "the signed curve failed on the data since sign-off, or the proposal moved far from it"),
     ("stale", "stop", "the data changed since the last sign-off"),
 )
 CODES = tuple(code for code, _, _ in FLAGS)
@@ -83,6 +84,15 @@ def mark_stale(diagnosis: Diagnosis, stale: np.ndarray) -> Diagnosis:
     raised[:, CODES.index("stale")] = stale
     raised.flags.writeable = False
     return replace(diagnosis, raised=raised)
+
+
+def mark_shifted(diagnosis: Diagnosis, backtest) -> Diagnosis:
+    """A copy of ``diagnosis`` with ``shifted`` raised where ``backtest.shifted`` (from the ledger,
+    ``fitcore.ledger.backtest``) and the backtest kept for the sentences (``numbers["backtest"]``)."""
+    raised = diagnosis.raised.copy()
+    raised[:, CODES.index("shifted")] = backtest.shifted
+    raised.flags.writeable = False
+    return replace(diagnosis, raised=raised, numbers={**diagnosis.numbers, "backtest": backtest})
 
 
 def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnosis:

@@ -137,6 +137,49 @@ def _price_tied(diag, s):
         f"{diag.thresholds.price_tied_vif:g})"
     return (f"Price moved {how} with {name} that the price effect cannot be told apart from {name}'s: "
             f"the curve's slope may belong to either.")
+def _shifted(diag, s):
+    bt = diag.numbers["backtest"]
+    chosen = int(diag.results.chosen[s])
+    return shift_sentence(bt.record(s), diag.results.names[chosen] if chosen >= 0 else None)
+
+
+WHY_UNTESTED = {"no-dates": "the data have no date column, so no backtest is possible",
+                "no-new-rows": "no rows are dated after the signed data's last date, so there is nothing to backtest",
+                "unsigned": "the decision was recorded without its model, so no backtest is possible",
+                "undated": "the signed data had no dates, so no backtest is possible"}
+
+
+def shift_sentence(bt: dict, proposal: str | None) -> str:
+    """The signed curve, its backtest on the rows since, and this cycle's ``proposal`` beside it, in
+    numbers, from a series' stored backtest (``fitcore.ledger.backtest.Backtest.record``)."""
+    from ..text import clean
+
+    def number(name):
+        value = bt.get(name)
+        return math.nan if value is None else value
+
+    where = money(number("price")) + ("" if bt.get("planned") else " (mid-range; no plan price)")
+    band = f" ({fmt(number('signed_lo'))}–{fmt(number('signed_hi'))})" if bt.get("signed_lo") is not None else ""
+    parts = [f"Signed {clean(str(bt['signed_at']))} by {clean(str(bt['analyst']))}: {clean(str(bt['candidate']))}"
+             + (f", {fmt(number('signed_volume'))}{band} at {where}." if bt.get("signed_volume") is not None else ".")]
+    n = bt.get("new_rows") or 0
+    if bt["status"] in ("passed", "failed"):
+        tail = (f"{bt['outside']} of {n} fell outside its band" if bt.get("outside") is not None
+                else "its band was not recorded")
+        parts.append(f"On the {n} {'observation' if n == 1 else 'observations'} since, its error is "
+                     f"{number('error_ratio'):.1f}× its CV error and {tail}.")
+    else:
+        why = WHY_UNTESTED.get(bt["status"], bt["status"])
+        parts.append(why[0].upper() + why[1:] + ".")
+    if proposal is not None and bt.get("proposed_volume") is not None:
+        change, tilt = number("volume_change"), number("elasticity_change")
+        moved = f"{'+' if change > 0 else '−' if change < 0 else ''}{abs(change) * 100:.0f}%" \
+            if math.isfinite(change) else "n/a"
+        tilt_text = f", elasticity {signed(tilt)}" if math.isfinite(tilt) else ""
+        again = "" if bt.get("shape_changed") else " again"
+        parts.append(f"This cycle's proposal, {proposal}{again}, predicts {fmt(number('proposed_volume'))} "
+                     f"({moved}{tilt_text}).")
+    return " ".join(parts)
 
 
 def _stale(diag, s):
@@ -146,5 +189,6 @@ def _stale(diag, s):
 SENTENCES = {
     "few-points": _few_points, "flat-price": _flat_price, "rising": _rising, "below-zero": _below_zero,
     "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
-    "weak-fit": _weak_fit, "influential-point": _influential, "price-tied": _price_tied, "stale": _stale,
+    "weak-fit": _weak_fit, "influential-point": _influential, "price-tied": _price_tied, "shifted": _shifted,
+    "stale": _stale,
 }

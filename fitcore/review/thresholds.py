@@ -24,6 +24,11 @@ class Thresholds:
       (4/n and a floor near 0.5 are common rules of thumb, not a test).
     - ``price_tied_vif``: with controls, the variance inflation of price given them above this
       → ``price-tied`` (10 is a common rule of thumb for collinearity, not a test).
+    - ``shift_error_ratio``, ``shift_coverage``, ``shift_min_rows``, ``shift_volume``: a signed curve
+      whose RMSE on the rows since sign-off is above this multiple of its CV RMSE, or whose 95% band
+      holds less than this share of them (judged from ``shift_min_rows`` new rows on), or whose
+      volume at the plan price differs from this cycle's proposal by more than this share → ``shifted``
+      (needs the ledger: ``fit --ledger``).
     """
 
     min_points: int = 12
@@ -35,6 +40,10 @@ class Thresholds:
     weak_score: float = 0.3
     cook_floor: float = 0.5
     price_tied_vif: float = 10.0
+    shift_error_ratio: float = 2.0
+    shift_coverage: float = 0.75
+    shift_min_rows: int = 4
+    shift_volume: float = 0.15
 
     def __post_init__(self) -> None:
         checks = {
@@ -43,6 +52,8 @@ class Thresholds:
             "near_tie_change": self.near_tie_change > 0, "unsteady_ratio": self.unsteady_ratio > 1,
             "weak_score": self.weak_score <= 1, "cook_floor": self.cook_floor > 0,
             "price_tied_vif": self.price_tied_vif > 1,
+            "shift_error_ratio": self.shift_error_ratio > 0, "shift_coverage": 0 <= self.shift_coverage <= 1,
+            "shift_min_rows": self.shift_min_rows >= 1, "shift_volume": self.shift_volume > 0,
         }
         for name, ok in checks.items():
             if not ok:

@@ -120,6 +120,7 @@ class PartJob:
     out: str  # the results folder
     sep: str | None = None
     control_binary: dict | None = None  # each control column: 0/1 over the whole input (every piece)
+    ledger: dict | None = None  # the ledger backtested against (path, head), with ``fit --ledger``
 
 
 def gather_part(tables: list, columns: Columns):
@@ -141,15 +142,17 @@ def gather_part(tables: list, columns: Columns):
     return table.take(keep), lines[dropped].tolist(), [duplicate_reason(int(line)) for line in earlier]
 
 
-def fit_part(p: int, table, job: PartJob) -> dict:
-    """Fit, diagnose and write partition ``p`` (``part-p.parquet``); a small summary for the client."""
+def fit_part(p: int, table, job: PartJob, standing=None) -> dict:
+    """Fit, diagnose and write partition ``p`` (``part-p.parquet``); a small summary for the client.
+    ``standing``: this partition's standing decisions (``ledger.standing.by_partition``) with ``fit --ledger``."""
     from ..data.dataset import from_columns
     from ..data.plan import plan_keywords
     from ..fit.engine import fit_batch
     from ..results.write import results_table, write_parquet
     from ..review.flags import diagnose
     if table.num_rows == 0:
-        return {"series": 0, "rows": 0, "none": 0, "clean": 0, "chosen": {}, "flags": {}, "plan_matched": 0}
+        return {"series": 0, "rows": 0, "none": 0, "clean": 0, "chosen": {}, "flags": {}, "plan_matched": 0,
+                "backtest": {}, "shifted": 0}
 
     def column(name):
         return table.column(name).to_numpy(zero_copy_only=False) if name in table.column_names else None
@@ -161,12 +164,20 @@ def fit_part(p: int, table, job: PartJob) -> dict:
     plan = plan_keywords(data, job.plan_file, job.plan_price, season=job.settings.season, partial=True)  # its own delimiter
     results = fit_batch(data, job.settings, **plan)
     diagnosis = diagnose(results, job.thresholds)
-    write_parquet(results_table(results, diagnosis), Path(job.out) / f"part-{p:05d}.parquet")
+    found = None
+    if job.ledger is not None:  # signed curves against the rows since, and the shifted flag
+        from ..ledger.backtest import backtest
+        from ..review.flags import mark_shifted
+        found = backtest(results, standing if standing is not None else {}, job.thresholds, job.ledger)
+        diagnosis = mark_shifted(diagnosis, found)
+    write_parquet(results_table(results, diagnosis, found), Path(job.out) / f"part-{p:05d}.parquet")
     chosen = np.bincount(results.chosen[results.chosen >= 0], minlength=len(results.names))
     return {"series": results.n_series, "rows": data.n_rows, "none": int((results.chosen < 0).sum()),
             "clean": int((~diagnosis.raised.any(axis=1)).sum()), "flags": diagnosis.counts(),
             "chosen": {name: int(n) for name, n in zip(results.names, chosen) if n},
-            "plan_matched": int(np.isfinite(results.plan_price).sum()) if job.plan_file else 0}
+            "plan_matched": int(np.isfinite(results.plan_price).sum()) if job.plan_file else 0,
+            "backtest": {} if found is None else found.counts(),
+            "shifted": 0 if found is None else int(found.shifted.sum())}
 
 
 def worker_environment() -> dict[str, str]:
@@ -210,14 +221,15 @@ def disconnect(client) -> None:
 
 def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *, plan_file: Path | None = None,
                 plan_price: float | None = None, sep: str | None = None, client=None, partitions: int | None = None,
-                progress=None, strict: bool = False) -> dict:
+                progress=None, strict: bool = False, ledger=None) -> dict:
     """Fit ``path`` on the cluster behind ``client`` into the results folder ``out`` (part files, summary and,
     when rows were rejected, ``rejects.csv``).
 
     Returns the summary (also written as ``out/_summary.json``), which holds the rejected rows' lines
     and reasons.  ``partitions``: output partitions (default: 4 per worker, at least 1).  ``strict``:
     any rejected row fails the run, before anything is written.  The caller checks ``out`` first
-    (``outputs.check_outputs``): it is replaced whole.
+    (``outputs.check_outputs``): it is replaced whole.  ``ledger``: an open ``fitcore.ledger.Ledger``
+    to backtest signed curves against (``fit --ledger``).
     """
     from ..outputs import staging_folder, temp_path
     started = time.perf_counter()
@@ -229,7 +241,7 @@ def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *
     staging = staging_folder(out)
     try:
         total = _fit_into(staging, pieces, path, columns, settings, thresholds, plan_file, plan_price, sep, client,
-                          n_workers, n_parts, started, progress, strict)
+                          n_workers, n_parts, started, progress, strict, ledger)
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
@@ -242,7 +254,7 @@ def fit_on_dask(path: Path, columns: Columns, settings, thresholds, out: Path, *
 
 
 def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file, plan_price, sep, client,
-              n_workers: int, n_parts: int, started: float, progress, strict: bool) -> dict:
+              n_workers: int, n_parts: int, started: float, progress, strict: bool, book=None) -> dict:
     from distributed import wait
 
     read = [client.submit(read_piece, piece, columns, n_parts, sep, pure=False) for piece in pieces]
@@ -272,9 +284,15 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
     # A 0/1 control is one holding only 0 and 1 in the whole input: every partition's rows, once repeats are out.
     binary = client.gather([client.submit(_binary_of, f, columns.controls) for f in gathered])
     binary = {name: all(part[name] for part in binary) for name in columns.controls}
+    standing, ledger_source = [None] * n_parts, None
+    if book is not None:
+        from ..ledger.standing import by_partition, standing_of
+        standing = by_partition(standing_of(book.histories), columns.keys, n_parts)
+        ledger_source = {"path": str(book.path.resolve()), "head": book.head_text, "state": book.state}
     job = PartJob(columns, settings, thresholds, str(plan_file) if plan_file else None, plan_price, source,
-                  str(out), sep, binary)
-    parts = [client.submit(fit_part, p, client.submit(_table_only, f), job, pure=False) for p, f in enumerate(gathered)]
+                  str(out), sep, binary, ledger_source)
+    parts = [client.submit(fit_part, p, client.submit(_table_only, f), job, standing[p], pure=False)
+             for p, f in enumerate(gathered)]
     summaries = []
     for future in parts:
         summaries.append(future.result())
@@ -286,6 +304,7 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
              "none": sum(s["none"] for s in summaries), "clean": sum(s["clean"] for s in summaries),
              "chosen": _add(s["chosen"] for s in summaries), "flags": _add(s["flags"] for s in summaries),
              "plan_matched": sum(s["plan_matched"] for s in summaries),
+             "backtest": _add(s["backtest"] for s in summaries), "shifted": sum(s["shifted"] for s in summaries),
              "seconds": round(time.perf_counter() - started, 3),
              "rejected": {"lines": lines, "reasons": reasons}}
     (out / SUMMARY).write_text(json.dumps(total, ensure_ascii=False, indent=1))

@@ -50,7 +50,7 @@ def test_verify_names_the_broken_line_and_fails(tmp_path, results):
     ledger_path = tmp_path / "decisions.jsonl"
     run_cli("ledger", "accept-unflagged", str(results), "--ledger", str(ledger_path))
     data = ledger_path.read_text().splitlines(keepends=True)
-    data[4] = data[4].replace('"accept"', '"hold"')
+    data[4] = data[4].replace('"note":""', '"note":"edited"')  # accepts carry a signed model: edit the note
     ledger_path.write_text("".join(data))
     done = run_cli("ledger", "verify", str(ledger_path))
     assert done.returncode == 1

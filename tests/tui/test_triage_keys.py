@@ -8,6 +8,7 @@ import pytest
 
 from fitcore import ledger as fledger
 from fitcore.review.flags import CODES, SEVERITY
+from tui.listing import FILTERS
 from tests.tui.conftest import make_app, screen_text, started, until
 
 SIZES = [(80, 24), (160, 50)]
@@ -181,14 +182,14 @@ async def test_filter_shows_counts_keeps_the_status_with_a_flag_and_has_held(led
         text = screen_text(app)
         assert f"needs attention, pending  ({int(session.needs_attention().sum())})" in text
         assert "held  (0)" in text and f"needs attention, pending, ⚑ rising  ({rising})" in text
-        await pilot.press(*["down"] * (6 + CODES.index("rising")), "enter")  # 5 statuses, any flag, then the flags
+        await pilot.press(*["down"] * (len(FILTERS) + 1 + CODES.index("rising")), "enter")  # statuses, any flag, flags
         await pilot.pause()
         assert session.flag_filter == "rising" and session.filter == "attention"
         assert len(session.view) == rising and all("rising" in session.flag_codes(s) for s in session.view)
         await pilot.press("f", "home", "down", "enter")  # all series: the flag stays
         await pilot.pause()
         assert session.filter == "all" and session.flag_filter == "rising"
-        await pilot.press("f", "home", *["down"] * 5, "enter")  # any flag: the status stays
+        await pilot.press("f", "home", *["down"] * len(FILTERS), "enter")  # any flag: the status stays
         await pilot.pause()
         assert session.filter == "all" and session.flag_filter is None and len(session.view) == 180
         await pilot.press("s", "home", "down", "enter")  # by key

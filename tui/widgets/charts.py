@@ -17,7 +17,7 @@ from fitcore.fit.results import Results
 from fitcore.review.evidence import adjusted_volumes, band, curve, runner_up, series_rows
 
 # 256-colour numbers (plotext draws them as 38;5;N; the legend uses the same numbers)
-STANDING, OTHER, BAND, OBSERVED, PLAN, ONE_SE = 46, 45, 214, 255, 201, 214
+STANDING, OTHER, BAND, OBSERVED, PLAN, ONE_SE, SIGNED, NEW = 46, 45, 214, 255, 201, 214, 177, 226
 SOLID = "braille"  # renders in a plain xterm-256color; sextant markers often do not
 LOG_RATIO = 10  # the fold chart goes to a log scale when the largest error is this many times the smallest mean
 
@@ -49,11 +49,17 @@ def price_grid(lo: float, hi: float, plan: float, positive: bool) -> np.ndarray:
 
 
 def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict,
-                adjusted: bool = False) -> Text:
+                adjusted: bool = False, signed: dict | None = None) -> Text:
     """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its 95% band
     (dotted) and the plan price (a vertical line).  ``adjusted``: with controls, each observation's volume
-    moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn."""
+    moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn.
+    ``signed``: the snapshot of a curve signed on earlier data, drawn beside them (dash-dot), and the rows
+    dated after its data's last date marked apart (×)."""
     price, volume, _ = series_rows(results, s)
+    new = np.zeros(len(price), dtype=bool)
+    if signed is not None and signed.get("last_date") and results.data.date is not None and len(price):
+        rows = slice(results.data.offsets[s], results.data.offsets[s + 1])
+        new = results.data.date[rows].astype("datetime64[D]") > np.datetime64(signed["last_date"])
     adjusted = adjusted and results.controls is not None and model >= 0 and results.rows_loaded
     if adjusted:
         volume = adjusted_volumes(results, s, model)
@@ -70,12 +76,17 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
         plt.plot(xs, upper.tolist(), marker=".", color=BAND)
     if other >= 0:
         plt.plot(xs, curve(results, s, other, grid).tolist(), marker="-", color=OTHER)
+    if signed is not None:
+        from fitcore.ledger.snapshot import signed_curve
+        plt.plot(xs, signed_curve(signed, grid).tolist(), marker="+", color=SIGNED)
     if model >= 0:
         plt.plot(xs, curve(results, s, model, grid).tolist(), marker=SOLID, color=STANDING)
     if np.isfinite(plan):
         plt.vline(plan, PLAN)
     if len(price):  # observations last, so that curves through them do not hide them
-        plt.scatter(price.tolist(), volume.tolist(), marker="•", color=OBSERVED)
+        plt.scatter(price[~new].tolist(), volume[~new].tolist(), marker="•", color=OBSERVED)
+        if new.any():
+            plt.scatter(price[new].tolist(), volume[new].tolist(), marker="×", color=NEW)
     plt.xlim(float(grid[0]), float(grid[-1]))
     plt.xlabel("price" + (f" ({units['price']})" if units.get("price") else ""))
     if units.get("volume"):
@@ -93,6 +104,10 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
         legend.append(f"   -- {names[other]} ({'proposed' if other == chosen else 'runner-up'})", _colour(OTHER))
     if model >= 0 and results.rows_loaded:
         legend.append("   ·· 95% prediction band", _colour(BAND))
+    if signed is not None:
+        legend.append(f"   ++ signed {signed['candidate']} (data to {signed.get('last_date') or '?'})", _colour(SIGNED))
+        if new.any():
+            legend.append(f"   × {int(new.sum())} new since", _colour(NEW))
     if np.isfinite(plan):
         legend.append("   │ plan price", _colour(PLAN))
     return Text("\n").join([chart, legend])

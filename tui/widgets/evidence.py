@@ -29,7 +29,7 @@ from .charts import curve_chart, fold_chart
 
 SEVERITY_STYLE = {"stop": "#ff875f", "warn": "#d7af5f"}
 NEWS_STYLE = "#5fafff"
-PARTS = ("title", "flags", "why", "plan", "curve", "folds", "candidates", "history")
+PARTS = ("title", "flags", "since", "why", "plan", "curve", "folds", "candidates", "history")
 CHART_DELAY = 0.12  # draw all but the title once the cursor rests, not on every key of a fast scroll
 
 
@@ -98,7 +98,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                 self._part(name).update("")
             return
         self._part("title").update(self.title_text(s), layout=False)
-        for name, text in (("flags", self.flags_text(s)), ("why", self.why_text(s)),
+        for name, text in (("flags", self.flags_text(s)), ("since", self.since_text(s)), ("why", self.why_text(s)),
                            ("plan", self.plan_text(s)), ("history", self.history_text(s))):
             text.rstrip()
             self._part(name).update(text)
@@ -112,7 +112,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         tall = self.app.size.height >= 40
         results = self.session.results
         self._part("curve").update(curve_chart(results, s, width, 18 if tall else 12, self.session.model_of(s),
-                                               self.session.units, self.adjusted))
+                                               self.session.units, self.adjusted, self.signed_shown(s)))
         self._part("folds").update(fold_chart(results, s, width, 12 if tall else 9))
 
     # -- the parts ----------------------------------------------------------------------------
@@ -124,8 +124,9 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         head.append(cut(f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
                         f"{self.price(results.price_hi[s])}", max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
-        lines = [head, Text(cut(f"status {session.status[s]}" + (f": {describe(standing)}" if standing else ""),
-                                width))]
+        due = session.due(s)
+        lines = [head, Text(cut(f"status {session.status[s]}" + (f" — due: {due}" if due else "")
+                                + (f": {describe(standing)}" if standing else ""), width))]
         if session.news is not None and s == session.current:
             said = "↑ just now: it has left your list; decision keys wait until you move" if session.waiting \
                 else f"↑ just now: {describe(session.news, when=False)}"
@@ -139,6 +140,22 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             text.append(f"{'!' if f['severity'] == 'stop' else '?'} [{f['severity']}] {f['code']}: ",
                         style=SEVERITY_STYLE[f["severity"]])
             text.append(clean(f["message"]) + "\n")
+        return text
+
+    def signed_shown(self, s: int) -> dict | None:
+        """The signed model to draw beside this cycle's: that of a decision standing on other data."""
+        standing = self.session.standing(s)
+        return standing.get("signed") if standing is not None and self.session.status[s] == "stale" else None
+
+    def since_text(self, s: int) -> Text:
+        """Since sign-off: the signed curve on the rows since and this cycle's proposal beside it, in numbers."""
+        from fitcore.review.sentences import shift_sentence
+        record = self.session.backtest_of(s) if self.session.status[s] == "stale" else None
+        if record is None or "shifted" in self.session.flag_codes(s):  # the flag's sentence says it already
+            return Text()
+        chosen = int(self.session.results.chosen[s])
+        text = Text("Since sign-off: ", style="bold")
+        text.append(clean(shift_sentence(record, self.session.results.names[chosen] if chosen >= 0 else None)) + "\n")
         return text
 
     def why_text(self, s: int) -> Text:

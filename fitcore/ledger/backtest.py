@@ -1,0 +1,291 @@
+"""Signed curves against the data that arrived since: the backtest and the shift, for every series at once.
+
+For each series whose standing decision (accept, override or carry) was made on other data, the
+signed model (the decision's ``signed`` snapshot) is evaluated on the rows dated after the signed
+data's last date: how many there are, its RMSE on them over its CV RMSE at sign-off
+(``error_ratio``), and the share of them inside its 95% prediction interval (``coverage``).  The
+shift compares this cycle's proposal with the signed model at the same price (the plan price, or
+the middle of the observed prices without one): volume change (share), elasticity change, and
+whether the shape changed.  ``shifted`` is raised when the backtest fails or the volume moved too far
+(thresholds ``shift_error_ratio``, ``shift_coverage`` judged from ``shift_min_rows`` new rows,
+``shift_volume``).
+
+Only the ledger's records are read one by one (they are dicts); every number is computed over all
+series at once, grouped by the signed curve's family and size.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..data.keys import SeriesKeys
+from ..fit.basis import polynomial
+from ..fit.families import BY_NAME
+from ..fit.results import Results
+from ..review.intervals import rows_of
+from .snapshot import evaluate
+from .standing import Standing, standing_of
+
+# status of a series' backtest; None: no standing decision made on other data (nothing to test)
+PASSED, FAILED = "passed", "failed"
+NO_DATES, NO_NEW_ROWS, UNSIGNED, UNDATED = "no-dates", "no-new-rows", "unsigned", "undated"
+
+
+@dataclass(frozen=True, eq=False)
+class Backtest:
+    """Per series (S,): the standing decision tested and what the test found (see the module doc).
+
+    Text (object arrays, None where nothing is tested): ``status``, ``decision`` (digest of the
+    standing decision), ``carries`` (the accept or override it stands for: itself, or what a carry
+    carries), ``latest`` (digest of the series' latest record when tested), ``analyst``,
+    ``signed_at`` (its date), ``candidate``, ``last_date`` (of the signed data).  Numbers (NaN or
+    -1 where not known): ``new_rows``, ``error_ratio``, ``coverage``, ``outside``, ``signed_volume``,
+    ``signed_lo``, ``signed_hi`` (the signed curve at ``price``), ``volume_change``,
+    ``elasticity_change``; ``shape_changed``, ``shifted`` (bool).  ``source``: the ledger and its head.
+    """
+
+    source: dict
+    status: np.ndarray
+    decision: np.ndarray
+    carries: np.ndarray
+    latest: np.ndarray
+    analyst: np.ndarray
+    signed_at: np.ndarray
+    candidate: np.ndarray
+    last_date: np.ndarray
+    new_rows: np.ndarray
+    error_ratio: np.ndarray
+    coverage: np.ndarray
+    outside: np.ndarray
+    price: np.ndarray
+    signed_volume: np.ndarray
+    signed_lo: np.ndarray
+    signed_hi: np.ndarray
+    proposed_volume: np.ndarray
+    volume_change: np.ndarray
+    elasticity_change: np.ndarray
+    shape_changed: np.ndarray
+    shifted: np.ndarray
+    planned: np.ndarray
+    chosen: np.ndarray
+
+    STORED = ("status", "decision", "latest", "carries", "analyst", "signed_at", "candidate", "last_date",
+              "new_rows", "error_ratio", "coverage", "outside", "price", "planned", "signed_volume", "signed_lo",
+              "signed_hi", "proposed_volume", "volume_change", "elasticity_change", "shape_changed", "shifted")
+
+    def columns(self) -> dict:
+        return {name: getattr(self, name) for name in self.STORED}
+
+    def record(self, s: int) -> dict | None:
+        """Series ``s``'s backtest as a results file holds it (None: nothing tested)."""
+        if self.status[s] is None:
+            return None
+        out = {}
+        for name in self.STORED:
+            value = getattr(self, name)[s]
+            if isinstance(value, (np.floating, float)):
+                value = float(value) if np.isfinite(value) else None
+            elif isinstance(value, (np.bool_, bool)):
+                value = bool(value)
+            elif isinstance(value, (np.integer, int)):
+                value = int(value) if value >= 0 else None
+            out[name] = value
+        return out
+
+    def due(self, s: int) -> str | None:
+        return due(self.record(s))
+
+    def counts(self) -> dict[str, int]:
+        values, counts = np.unique(np.array([v for v in self.status if v is not None], dtype=object).astype(str),
+                                   return_counts=True)
+        return dict(zip(values.tolist(), counts.tolist()))
+
+
+def due(record: dict | None) -> str | None:
+    """What a signed series whose data changed needs, in a few words, from its stored backtest (None:
+    nothing was tested: no decision, or one on this very data)."""
+    if record is None:
+        return None
+    status = record["status"]
+    if status == FAILED:
+        return "backtest failed"
+    if record.get("shifted"):
+        return "shifted"
+    return {PASSED: "backtest passed", NO_DATES: "no dates", UNDATED: "no dates", NO_NEW_ROWS: "no new rows",
+            UNSIGNED: "no signed model"}.get(status, status)
+
+
+def on_other_data(standing: Standing, keys: SeriesKeys, fingerprints) -> tuple[np.ndarray, Standing]:
+    """(series indices, their standing decisions) for every series of ``keys`` whose standing decision
+    was made on data other than ``fingerprints``."""
+    if not len(standing):
+        return np.zeros(0, np.int64), standing
+    at = keys.indices_of(standing.series)
+    found = np.flatnonzero(at >= 0)
+    index = at[found]
+    now = np.asarray(fingerprints, dtype=object)[index] if not hasattr(fingerprints, "take") else \
+        np.array(fingerprints.take(index).to_pylist() + [None], dtype=object)[:-1]
+    moved = np.flatnonzero(standing.fingerprint[found] != now)
+    return index[moved], standing.take(found[moved])
+
+
+def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
+    """The backtest of every series of ``results`` (a fit with its rows) against the ledger's standing
+    decisions (a ``Standing``, or a ledger's histories)."""
+    if not isinstance(standing, Standing):
+        standing = standing_of(standing)
+    n_s = results.n_series
+    text = lambda: np.full(n_s, None, dtype=object)  # noqa: E731
+    number = lambda: np.full(n_s, np.nan)  # noqa: E731
+    out = dict(status=text(), decision=text(), carries=text(), latest=text(), analyst=text(), signed_at=text(),
+               candidate=text(), last_date=text(), new_rows=np.full(n_s, -1, np.int64), error_ratio=number(),
+               coverage=number(), outside=np.full(n_s, -1, np.int64), price=number(), signed_volume=number(),
+               signed_lo=number(), signed_hi=number(), proposed_volume=number(), volume_change=number(),
+               elasticity_change=number(), shape_changed=np.zeros(n_s, bool))
+    series, mine = on_other_data(standing, SeriesKeys.of(results.data), results.data.fingerprints)
+    if len(series):
+        _fill(out, results, series, mine)
+    failed = out["status"] == FAILED
+    with np.errstate(invalid="ignore"):
+        failed |= (out["status"] == PASSED) & ((out["error_ratio"] > thresholds.shift_error_ratio) | (
+            (out["new_rows"] >= thresholds.shift_min_rows) & (out["coverage"] < thresholds.shift_coverage)))
+        out["status"][failed] = FAILED
+        shifted = failed | (np.abs(out["volume_change"]) > thresholds.shift_volume)
+    return Backtest(source=source, shifted=shifted, planned=np.isfinite(results.plan_price),
+                    chosen=np.asarray(results.chosen), **out)
+
+
+def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None:
+    for name in ("decision", "carries", "latest", "analyst", "signed_at", "candidate"):
+        out[name][series] = getattr(st, name)
+    out["status"][series] = UNSIGNED
+    keep = np.flatnonzero(st.signed)
+    if not len(keep):
+        return
+    series, st = series[keep], st.take(keep)
+    last = st.last_date
+    out["last_date"][series] = [None if np.isnat(d) else str(d) for d in last]
+    dates = results.data.date
+    out["status"][series] = NO_DATES if dates is None else np.where(np.isnat(last), UNDATED, NO_NEW_ROWS)
+    price = np.where(np.isfinite(results.plan_price[series]), results.plan_price[series], results.mid[series])
+    out["price"][series] = price
+    proposed, proposed_el = _proposal_at(results, series, price)
+    out["proposed_volume"][series] = proposed
+    names = np.array(results.names + [None], dtype=object)
+    out["shape_changed"][series] = names[results.chosen[series]] != st.candidate
+    for family_name in np.unique(st.family.astype(str)).tolist():
+        for k in np.unique(st.size[st.family == family_name]).tolist():
+            members = np.flatnonzero((st.family == family_name) & (st.size == k))
+            curve = _SignedCurves(st.take(members), BY_NAME[family_name], int(k))
+            at = series[members]
+            volume, lo, hi, elasticity = curve.at(price[members])
+            out["signed_volume"][at], out["signed_lo"][at], out["signed_hi"][at] = volume, lo, hi
+            with np.errstate(divide="ignore", invalid="ignore"):
+                out["volume_change"][at] = (proposed[members] - volume) / np.abs(volume)
+                out["elasticity_change"][at] = proposed_el[members] - elasticity
+            if dates is not None:
+                _test_rows(out, results, at, last[members], curve)
+
+
+class _SignedCurves:
+    """n signed curves of one family and size, as arrays."""
+
+    def __init__(self, st: Standing, family, k: int) -> None:
+        self.family = family
+        self.coef, self.cov = st.coef[:, :k], st.cov[:, :k, :k]
+        self.mid, self.half, self.smear, self.sigma2 = st.mid, st.half, st.smear, st.sigma2
+        self.df = np.where(np.isfinite(st.df), st.df, 1).astype(np.int64)
+        self.level = np.where(np.isfinite(st.level), st.level, 0.95)
+        self.cv_mse = st.cv_mse
+
+    def at(self, price: np.ndarray, which: np.ndarray | None = None):
+        """(volume, lo, hi, elasticity) of curve ``which[i]`` (default: i) at ``price[i]``."""
+        w = np.arange(len(self.mid)) if which is None else which
+        result = [np.full(len(w), np.nan) for _ in range(4)]
+        for level in np.unique(self.level[w]):  # one level in practice (0.95)
+            mine = self.level[w] == level
+            values = evaluate(self.family, self.coef[w][mine], self.mid[w][mine], self.half[w][mine],
+                              self.smear[w][mine], self.cov[w][mine], self.sigma2[w][mine], self.df[w][mine],
+                              price[mine], float(level))
+            for column, value in zip(result, values):
+                column[mine] = value
+        return result
+
+
+def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray, curve: _SignedCurves) -> None:
+    """The signed curves on their series' rows dated after ``last``: count, error ratio, coverage."""
+    data = results.data
+    rows = rows_of(data.offsets, series)
+    owner = np.repeat(np.arange(len(series)), data.counts[series])
+    new = data.date[rows].astype("datetime64[D]") > last[owner]
+    rows, owner = rows[new], owner[new]
+    count = np.bincount(owner, minlength=len(series))
+    tested = count > 0
+    out["new_rows"][series] = count
+    out["status"][series[tested]] = PASSED
+    if not len(rows):
+        return
+    volume, lo, hi, _ = curve.at(data.price[rows], owner)
+    actual = data.volume[rows]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rmse = np.sqrt(np.bincount(owner, (volume - actual) ** 2, minlength=len(series)) / np.maximum(count, 1))
+        inside = np.bincount(owner, (lo <= actual) & (actual <= hi), minlength=len(series))
+        banded = np.isfinite(curve.cov).all(axis=(1, 2)) & np.isfinite(curve.sigma2)
+        at = series[tested]
+        out["error_ratio"][at] = (rmse / np.sqrt(curve.cv_mse))[tested]
+        out["coverage"][at] = np.where(banded, inside / np.maximum(count, 1), np.nan)[tested]
+        out["outside"][at] = np.where(banded, count - inside, -1)[tested]
+
+
+def _proposal_at(results: Results, series: np.ndarray, price: np.ndarray):
+    """(volume, elasticity) of each series' chosen curve at ``price`` (NaN where none is chosen)."""
+    volume, elasticity = np.full(len(series), np.nan), np.full(len(series), np.nan)
+    chosen = results.chosen[series]
+    for c in np.unique(chosen[chosen >= 0]).tolist():
+        mine = np.flatnonzero(chosen == c)
+        s, k = series[mine], results.candidates[c].complexity
+        family = results.family_of(c)
+        t = family.coordinate(price[mine], results.basis_mid[s, c], results.basis_half[s, c])
+        coef = np.asarray(results.coef[s, c, :k], dtype=float)
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            v = family.volume(polynomial(coef, t), results.smear[s, c])
+            volume[mine] = v
+            elasticity[mine] = family.elasticity(polynomial(coef, t, 1), v, results.basis_half[s, c], price[mine])
+    return volume, elasticity
+
+
+class StoredBacktest:
+    """The backtest a results file holds (``fit --ledger``), read back per series as ``Backtest.record``."""
+
+    def __init__(self, columns: dict) -> None:
+        self.columns = columns
+
+    def record(self, s: int) -> dict | None:
+        if self.columns["status"][s] is None:
+            return None
+        out = {}
+        for name, values in self.columns.items():
+            value = values[s]
+            if isinstance(value, (float, np.floating)):
+                value = float(value) if np.isfinite(value) else None
+                if value is not None and name in ("new_rows", "outside"):
+                    value = int(value)
+            elif isinstance(value, np.bool_):
+                value = bool(value)
+            out[name] = value
+        return out
+
+    def due(self, s: int) -> str | None:
+        return due(self.record(s))
+
+
+def cycle_of(results: Results, diagnosis, histories: dict, source: dict):
+    """``(diagnosis with 'shifted', backtest)`` for a screen: computed from the rows when they are loaded,
+    else the backtest the results file holds (None when it holds none: ``diagnosis`` as it is)."""
+    from ..review.flags import mark_shifted
+    if results.rows_loaded:
+        found = backtest(results, histories, diagnosis.thresholds, source)
+        return mark_shifted(diagnosis, found), found
+    stored = getattr(results, "stored_backtest", None)
+    return diagnosis, (StoredBacktest(stored) if stored else None)

@@ -1,0 +1,171 @@
+"""The model as it stood when signed: the ``signed`` object of a ``pricefold-ledger/2`` decision.
+
+Enough to evaluate the signed curve later without the results it came from: its family and
+coefficients (plain units, and in its own basis with the window), Duan's smearing for the log
+families, what an interval at a new price needs (``cov_unscaled`` = (XᵀWX)⁻¹ in the basis, σ², df),
+the data it was fitted on (n, price range, last date), its CV error, and its prediction at the
+plan price.  Built for many series at once (``snapshots``), from ``Results`` (``from_results``)
+or from results records in the JSON layout (``from_records``).  Pure: arrays in, dicts out.
+
+A decision taken where the interval parts are not known (results read back from a file written
+before they were stored, before the rows arrived) records ``null`` for them and says so in
+``incomplete``; such a snapshot is never taken for complete (the backtest then tests the curve
+but not its band).
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..fit.families import BY_NAME, Family
+from ..fit.results import Results
+from ..review.intervals import covariances, last_dates
+
+INCOMPLETE = ("the interval parts (cov_unscaled, sigma2, df) were not known when this was signed "
+              "(results read without their rows or written before they were stored)")
+
+
+def _num(value):
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def _nums(values) -> list:
+    values = values if isinstance(values, list) else np.asarray(values, dtype=float).tolist()
+    return [v if math.isfinite(v) else None for v in values]
+
+
+def _rows(values: np.ndarray, finite: np.ndarray) -> list:
+    """``values`` (n, …) as nested lists, NaN as None (rows all finite go as they are)."""
+    out = values.tolist()
+    for i in np.flatnonzero(~finite).tolist():
+        out[i] = [_nums(v) for v in out[i]] if values.ndim == 3 else _nums(out[i])
+    return out
+
+
+def evaluate(family: Family, coef, mid, half, smear, cov, sigma2, df, price, level):
+    """(volume, lo, hi, elasticity) of n signed curves, each at its own ``price`` (n,): ``coef`` (n, k)
+    in the basis, ``cov`` (n, k, k) unscaled (NaN: bounds NaN).  The same interval as the engine's."""
+    coef = np.asarray(coef, dtype=float)
+    t = family.coordinate(np.asarray(price, dtype=float), mid, half)
+    powers = t[:, None] ** np.arange(coef.shape[1])[None, :]
+    with np.errstate(invalid="ignore", over="ignore"):
+        leverage = np.einsum("ni,nij,nj->n", powers, cov, powers)
+    return family.at(coef, mid, half, smear, leverage, sigma2, df, price, level)
+
+
+def signed_curve(snapshot: dict, price) -> np.ndarray:
+    """Volume of a signed curve at ``price`` (its basis and smearing, as recorded)."""
+    family, basis = BY_NAME[snapshot["family"]], snapshot["basis"]
+    smear = snapshot["smearing"] if snapshot.get("smearing") is not None else np.nan
+    return family.curve(np.asarray(basis["coef"], dtype=float), basis["mid"], basis["half"], smear,
+                        np.asarray(price, dtype=float))
+
+
+def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, cov, sigma2, df, n, lo, hi,
+              last_date, plan_price, cv_mse) -> list[dict]:
+    """The ``signed`` objects of n series for candidate ``name`` of ``family``: arrays (n,) and
+    ``coef`` (n, k), ``cov`` (n, k, k); ``last_date`` a list of "YYYY-MM-DD" or None."""
+    fam = BY_NAME[family]
+    coef = np.asarray(coef, dtype=float).reshape(len(mid), -1)
+    k = coef.shape[1]
+    cov = np.asarray(cov, dtype=float).reshape(len(mid), k, k)
+    sigma2, df = np.asarray(sigma2, dtype=float), np.asarray(df, dtype=float)
+    complete = np.isfinite(cov).all(axis=(1, 2)) & np.isfinite(sigma2) & np.isfinite(df)
+    plain = fam.plain(coef, mid, half)
+    plan_price = np.asarray(plan_price, dtype=float)
+    planned = np.isfinite(plan_price)
+    volume, p_lo, p_hi, elasticity = (np.full(len(mid), np.nan) for _ in range(4))
+    if planned.any():
+        at = np.flatnonzero(planned)
+        values = evaluate(fam, coef[at], mid[at], half[at], smear[at], cov[at], sigma2[at],
+                          np.where(np.isfinite(df[at]), df[at], 1).astype(np.int64), plan_price[at], level)
+        for column, value in zip((volume, p_lo, p_hi, elasticity), values):
+            column[at] = value
+    smeared = fam.smeared
+    out = []
+    columns = zip(_rows(plain, np.isfinite(plain).all(axis=1)), _rows(coef, np.isfinite(coef).all(axis=1)),
+                  np.asarray(mid, float).tolist(), np.asarray(half, float).tolist(),
+                  np.asarray(smear, float).tolist(), _rows(cov, complete), sigma2.tolist(), df.tolist(),
+                  np.asarray(n).tolist(), np.asarray(lo, float).tolist(), np.asarray(hi, float).tolist(), last_date,
+                  plan_price.tolist(), volume.tolist(), p_lo.tolist(), p_hi.tolist(), elasticity.tolist(),
+                  np.asarray(cv_mse, float).tolist(), complete.tolist())
+    for (pc, bc, m, h, sm, cv, s2, d, count, low, high, last, pp, vol, plo, phi, el, mse, whole) in columns:
+        snapshot = {
+            "candidate": name, "family": family, "coef": pc, "smearing": _num(sm) if smeared else None,
+            "basis": {"x": fam.regressor, "mid": _num(m), "half": _num(h), "coef": bc},
+            "cov_unscaled": cv if whole else None,
+            "sigma2": _num(s2) if whole else None, "df": int(d) if whole else None, "level": level,
+            "n": int(count), "price_range": [_num(low), _num(high)], "last_date": last,
+            "plan": None if not math.isfinite(pp) else {"price": pp, "volume": _num(vol), "lo": _num(plo),
+                                                       "hi": _num(phi), "elasticity": _num(el)},
+            "cv_mse": _num(mse), "controls": None}
+        if not whole:
+            snapshot["incomplete"] = INCOMPLETE
+        out.append(snapshot)
+    return out
+
+
+def date_texts(days: np.ndarray | None, n: int) -> list:
+    """"YYYY-MM-DD" (None for NaT) of n datetime64[D] values, or n Nones without dates."""
+    if days is None:
+        return [None] * n
+    text = np.datetime_as_string(days, unit="D")
+    return [None if np.isnat(d) else t for d, t in zip(days, text.tolist())]
+
+
+def from_results(results: Results, series, c: int, cov: np.ndarray | None = None) -> list[dict]:
+    """The snapshots of candidate ``c`` on ``series`` (indices) of ``results`` (a fit, or results read
+    back: their stored interval parts, or none)."""
+    series = np.asarray(series, dtype=np.int64)
+    cand = results.candidates[c]
+    k = cand.complexity
+    if cov is None:
+        stored = getattr(results, "stored_cov", None)
+        cov = stored.of(series, c) if stored is not None else covariances(results, series)[:, c, :k, :k]
+
+    def cell(a):  # stored results hold cells as columns read on demand: one series, or all at once
+        if isinstance(a, np.ndarray):
+            return a[series, c]
+        return np.array([a[s, c] for s in series.tolist()]) if len(series) < 8 else np.asarray(a)[series, c]
+    coef = cell(results.coef)[:, :k]
+    dates = last_dates(results)
+    return snapshots(cand.name, cand.family, results.settings.level, coef=coef, mid=results.basis_mid[series, c],
+                     half=results.basis_half[series, c], smear=results.smear[series, c], cov=cov,
+                     sigma2=cell(results.sigma2), df=cell(results.df), n=results.data.counts[series],
+                     lo=results.price_lo[series], hi=results.price_hi[series],
+                     last_date=date_texts(None if dates is None else dates[series], len(series)),
+                     plan_price=results.plan_price[series], cv_mse=cell(results.cv_mse))
+
+
+def from_records(pairs: list[tuple[dict, str]], level: float) -> list[dict]:
+    """Snapshots of candidate ``name`` of each results ``record`` (the JSON layout, as ``read_results``
+    gives it), in order; each candidate's ``basis``, ``cov_unscaled``, ``sigma2`` and ``df`` as the
+    results hold them (missing: an incomplete snapshot)."""
+    out: list[dict | None] = [None] * len(pairs)
+    groups: dict[str, list[int]] = {}
+    for i, (record, name) in enumerate(pairs):
+        groups.setdefault(name, []).append(i)
+    for name, members in groups.items():
+        cands = [next(c for c in pairs[i][0]["candidates"] if c["name"] == name) for i in members]
+        records = [pairs[i][0] for i in members]
+        k = len(cands[0]["basis"]["coef"])
+        nan_cov = [[math.nan] * k] * k
+        made = snapshots(
+            name, cands[0]["family"], level,
+            coef=np.array([c["basis"]["coef"] for c in cands], dtype=float),
+            mid=np.array([c["basis"]["mid"] for c in cands], dtype=float),
+            half=np.array([c["basis"]["half"] for c in cands], dtype=float),
+            smear=np.array([c.get("smearing") for c in cands], dtype=float),
+            cov=np.array([c.get("cov_unscaled") or nan_cov for c in cands], dtype=float),
+            sigma2=np.array([c.get("sigma2") for c in cands], dtype=float),
+            df=np.array([c.get("df") for c in cands], dtype=float),
+            n=np.array([r["n"] for r in records]), lo=np.array([r["price_range"][0] for r in records], dtype=float),
+            hi=np.array([r["price_range"][1] for r in records], dtype=float),
+            last_date=[r.get("last_date") for r in records],
+            plan_price=np.array([(r.get("plan") or {}).get("price") for r in records], dtype=float),
+            cv_mse=np.array([c["cv_mse"] for c in cands], dtype=float))
+        for i, snapshot in zip(members, made):
+            out[i] = snapshot
+    return out

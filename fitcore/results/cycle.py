@@ -1,0 +1,110 @@
+"""What results carry for the next planning cycle, in both formats (one block, apart from the rest).
+
+- Per candidate, what a signed curve's interval needs at a new price: ``sigma2`` (residual
+  variance on the fit scale), ``df`` and ``cov_unscaled`` ((XᵀWX)⁻¹ in the candidate's basis,
+  p × p; Parquet: its p·p entries row by row); in JSON also ``basis`` (regressor, window and the
+  coefficients of powers of t, which Parquet keeps in ``window_coef``).
+- Per series ``last_date`` (the last date of its rows, or null without a date column).
+- Per series the backtest of its signed curve against the ledger (``fit --ledger``; see
+  ``fitcore.ledger.backtest``), and in the header the ledger and its head the fit read.
+
+So a decision can be signed from a results file alone (``accept-unflagged``, ``ledger carry``,
+triage on stored results) with a complete snapshot.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..fit.results import Results
+from ..review.intervals import BLOCK, covariances, last_dates
+
+def _num(value) -> float | None:
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def json_candidate_extras(results: Results):
+    """``extras(s, c)`` → the candidate's added JSON fields; the covariances computed block by block."""
+    cache: dict[int, np.ndarray] = {}
+
+    def extras(s: int, c: int, ok: bool) -> dict:
+        k = results.candidates[c].complexity
+        family = results.family_of(c)
+        if not ok:
+            return {"basis": None, "sigma2": None, "df": None, "cov_unscaled": None}
+        block = s // BLOCK
+        if block not in cache:
+            cache.clear()
+            cache[block] = covariances(results, np.arange(block * BLOCK, min((block + 1) * BLOCK, results.n_series)))
+        cov = cache[block][s - block * BLOCK, c, :k, :k]
+        return {"basis": {"x": family.regressor, "mid": _num(results.basis_mid[s, c]),
+                          "half": _num(results.basis_half[s, c]),
+                          "coef": [_num(v) for v in np.asarray(results.coef[s, c, :k])]},
+                "sigma2": _num(results.sigma2[s, c]), "df": int(results.df[s, c]),
+                "cov_unscaled": [[_num(v) for v in row] for row in cov] if np.isfinite(cov).all() else None}
+    return extras
+
+
+def json_series_extras(results: Results, backtest=None):
+    dates = last_dates(results)
+    texts = None if dates is None else np.datetime_as_string(dates, unit="D")
+
+    def extras(s: int) -> dict:
+        out = {"last_date": None if texts is None or np.isnat(dates[s]) else str(texts[s])}
+        if backtest is not None:
+            out["backtest"] = backtest.record(s)
+        return out
+    return extras
+
+
+def parquet_columns(results: Results, backtest=None) -> dict:
+    """The added Parquet columns (one row per series × candidate)."""
+    import pyarrow as pa
+    n_s, n_c = results.available.shape
+    ok = results.available.ravel()
+    sizes = np.tile([c.complexity for c in results.candidates], n_s)
+    parts, lengths = [], np.where(ok, sizes ** 2, 0)
+    for start in range(0, n_s, BLOCK):
+        block = np.arange(start, min(start + BLOCK, n_s))
+        cov = covariances(results, block).reshape(len(block) * n_c, -1)
+        cells = slice(start * n_c, (start + len(block)) * n_c)
+        within = np.arange(cov.shape[1])[None, :]
+        # row-major p × p inside the widest P × P: entry (i, j) at i·P + j, kept when i, j < p
+        p_all, width = sizes[cells][:, None], results.lineup.width
+        keep = ok[cells][:, None] & (within // width < p_all) & (within % width < p_all)
+        parts.append(cov[keep])
+    flat = np.concatenate(parts) if parts else np.zeros(0)
+    offsets = np.concatenate(([0], np.cumsum(lengths))).astype(np.int32)
+    columns = {"sigma2": np.where(ok, np.asarray(results.sigma2, dtype=float).ravel(), np.nan),
+               "df": pa.array(np.asarray(results.df).ravel().astype(np.int64), mask=~ok),
+               "cov_unscaled": pa.ListArray.from_arrays(offsets, pa.array(flat, type=pa.float64()))}
+    dates = last_dates(results)
+    days = np.zeros(n_s, np.int32) if dates is None else dates.view(np.int64).astype(np.int32)
+    missing = np.ones(n_s, bool) if dates is None else np.isnat(dates)
+    columns["last_date"] = pa.array(np.repeat(days, n_c), type=pa.int32(),
+                                    mask=np.repeat(missing, n_c)).cast(pa.date32())
+    if backtest is not None:
+        for name, values in backtest.columns().items():
+            columns[f"backtest_{name}"] = _repeat_column(values, n_c)
+    return columns
+
+
+def _repeat_column(values: np.ndarray, n_c: int):
+    """A per-series array repeated on each candidate's row: text (None → null), numbers (NaN → null),
+    counts (-1 → null), booleans."""
+    import pyarrow as pa
+    if values.dtype == object:  # one dictionary entry per series, not one Python string per row (8× faster)
+        missing = np.array([v is None for v in values], dtype=bool)
+        words = pa.array(["" if v is None else v for v in values], pa.string())
+        index = pa.array(np.repeat(np.arange(len(values), dtype=np.int32), n_c), mask=np.repeat(missing, n_c))
+        return pa.DictionaryArray.from_arrays(index, words)
+    values = np.repeat(values, n_c)
+    if values.dtype.kind in "iu":
+        return pa.array(values.astype(np.int64), mask=values < 0)
+    return values
+
+
+def header_extras(backtest=None) -> dict:
+    return {} if backtest is None else {"ledger": backtest.source}

@@ -1,0 +1,109 @@
+"""What a candidate's prediction interval needs at a new price, for many series at once.
+
+A signed curve must give an interval at any later price without the rows it was fitted on:
+the unscaled covariance (XᵀWX)⁻¹ of its coefficients in its own basis, its residual variance
+σ² and degrees of freedom.  ``covariances`` computes the first for a block of series from their
+rows (each family's weighted power sums Σw·tᵏ in one compiled pass, factored as the engine
+factors its fits: ``lanes.factor``), or reads it where results were stored with it
+(``StoredResults``).  ``last_dates`` gives each series' last date.  Checked against statsmodels'
+``normalized_cov_params`` in ``tests/fitcore/test_snapshot.py``.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..compiled import compiled
+from ..fit.results import Results
+
+BLOCK = 4096  # series factored at once (bounds the lanes' work arrays)
+
+
+@compiled
+def _power_sums(t, w, offsets, series, order, out):
+    """``out[k, i]`` = Σ wⱼ·tⱼᵏ over the rows of series ``series[i]``, k < ``order``."""
+    weighted = len(w) > 0
+    for i in range(len(series)):
+        s = series[i]
+        for k in range(order):
+            out[k, i] = 0.0
+        for j in range(offsets[s], offsets[s + 1]):
+            wj = w[j] if weighted else 1.0
+            power = wj
+            for k in range(order):
+                out[k, i] += power
+                power *= t[j]
+
+
+def _unscaled_block(sums: np.ndarray, p: int) -> np.ndarray:
+    """(n, k, k) for k = 1…p: (XᵀWX)⁻¹ of the leading k columns, from sums (2p − 1, n); NaN where
+    a column is dependent on the earlier ones.  The leading block of L⁻¹ inverts the leading block of L."""
+    from ..fit.lanes import factor
+    n = sums.shape[1]
+    lower, inverse = np.zeros((p, p, n)), np.zeros((p, p, n))
+    scale, recip, cond = np.zeros((p, n)), np.ones((p, n)), np.zeros((p, n))
+    good = np.zeros((p, n), dtype=np.bool_)
+    factor(np.ascontiguousarray(sums), p, lower, scale, good, cond, recip, inverse, np.zeros((3, n)))
+    inv = np.moveaxis(inverse, -1, 0)  # (n, P, P), lower triangular
+    d = scale.T  # (n, P)
+    return inv, d, good.T
+
+
+def covariances(results: Results, series: np.ndarray) -> np.ndarray:
+    """(len(series), C, P, P) the unscaled covariance of every candidate in its basis (NaN where
+    the candidate is unavailable, past its size, or the results hold neither rows nor stored values)."""
+    series = np.asarray(series, dtype=np.int64)
+    n_c, width = len(results.candidates), results.lineup.width
+    stored = getattr(results, "stored_cov", None)
+    if stored is not None:
+        return stored.cells(series)
+    out = np.full((len(series), n_c, width, width), np.nan)
+    if not results.rows_loaded or not len(series):
+        return out
+    data = results.data
+    weight = np.empty(0) if data.weight is None else data.weight
+    for start in range(0, len(series), BLOCK):
+        block = series[start:start + BLOCK]
+        for family, cols in results.lineup.groups:
+            p = int(results.lineup.complexity[cols].max())
+            # Every candidate of a family shares its window; the rows mapped once for the block.
+            mid = np.repeat(results.basis_mid[block, cols.start], data.counts[block])
+            half = np.repeat(results.basis_half[block, cols.start], data.counts[block])
+            rows = rows_of(data.offsets, block)
+            t = family.coordinate(data.price[rows], mid, half)
+            local = np.concatenate(([0], np.cumsum(data.counts[block]))).astype(np.int64)
+            sums = np.empty((2 * p - 1, len(block)))
+            _power_sums(np.ascontiguousarray(t, dtype=np.float64),
+                        np.ascontiguousarray(weight[rows]) if len(weight) else weight, local,
+                        np.arange(len(block), dtype=np.int64), 2 * p - 1, sums)
+            inv, d, good = _unscaled_block(sums, p)
+            for c in range(cols.start, cols.stop):
+                k = int(results.lineup.complexity[c])
+                lead = inv[:, :k, :k] * d[:, None, :k]  # L⁻¹·D on the leading k columns
+                cov = np.einsum("nij,nik->njk", lead, lead)  # D·L⁻ᵀ·L⁻¹·D
+                ok = results.available[block, c] & good[:, k - 1]
+                out[start:start + len(block), c, :k, :k] = np.where(ok[:, None, None], cov, np.nan)
+    return out
+
+
+def rows_of(offsets: np.ndarray, series: np.ndarray) -> np.ndarray:
+    """The dataset rows of ``series``, series by series (no Python loop over the series)."""
+    counts = offsets[series + 1] - offsets[series]
+    starts = np.repeat(offsets[series] - np.concatenate(([0], np.cumsum(counts)[:-1])), counts)
+    return starts + np.arange(int(counts.sum()))
+
+
+def last_dates(results: Results) -> np.ndarray | None:
+    """(S,) datetime64[D] each series' last date (NaT for a series without rows); None without a
+    date column."""
+    stored = getattr(results, "stored_last_date", None)
+    if stored is not None:
+        return stored
+    data = results.data
+    if data.date is None or not results.rows_loaded:
+        return None
+    days = data.date.astype("datetime64[D]").view(np.int64)
+    out = np.full(data.n_series, np.iinfo(np.int64).min)
+    has = data.counts > 0
+    if has.any():
+        out[has] = np.maximum.reduceat(days, data.offsets[:-1][has])
+    return out.view("datetime64[D]")

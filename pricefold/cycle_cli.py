@@ -1,0 +1,331 @@
+"""Across planning cycles: ``fit --ledger`` (backtest signed curves, flag ``shifted``), ``ledger carry``
+(carry a signed decision to new data where nothing moved), ``show --ledger`` (what each series needs).
+
+The numbers come from ``fitcore.ledger.backtest``; the ledger is read through the verifying reader.
+"""
+from __future__ import annotations
+
+import gc
+import sys
+from collections import Counter
+from dataclasses import dataclass
+from pathlib import Path
+
+from fitcore import ledger
+from fitcore.ledger.replay import series_id
+
+from .ledger_cli import identity, open_ledger
+
+
+def add_fit_ledger_option(parser) -> None:
+    parser.add_argument("--ledger", type=Path, default=None, metavar="LEDGER",
+                        help="backtest every signed series whose data changed against the rows since, flag "
+                             "'shifted' ones, and record the ledger's head in the results (for 'ledger carry')")
+
+
+def add_carry_parser(sub) -> None:
+    carry = sub.add_parser("carry", help="carry signed decisions forward to new data where the signed curve "
+                                         "passed its backtest and is still the proposal",
+                           description="Record a carry for every series whose standing decision was made on "
+                                       "older data, whose signed shape is still the proposal (an override: still "
+                                       "available and within one standard error of the lowest CV error), whose "
+                                       "backtest passed, with no stop flag and no 'shifted' flag. RESULTS must "
+                                       "come from 'pricefold fit --ledger' on the same ledger.")
+    carry.add_argument("results", type=Path, metavar="RESULTS")
+    carry.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
+    carry.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
+    carry.add_argument("--note", default="", metavar="TEXT")
+    carry.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success")
+
+
+def same_file(a: Path, b: Path) -> bool:
+    try:
+        return a.resolve() == b.resolve() or (a.exists() and b.exists() and a.samefile(b))
+    except OSError:
+        return False
+
+
+class LedgerAhead:
+    """The ledger read and verified in a forked process while this one loads and fits the data: what the
+    backtest needs comes back as columns (``fitcore.ledger.standing``).  Where processes cannot be
+    forked, or the child fails, the ledger is read here instead, when the result is asked for."""
+
+    def __init__(self, path: Path, outputs=()) -> None:
+        for output in outputs:
+            if same_file(Path(output), path):
+                raise ledger.LedgerError(f"{output}: is the ledger; choose another results name")
+        self.path, self.process, self.pipe = path, None, None
+        try:
+            import multiprocessing
+            context = multiprocessing.get_context("fork")
+            self.pipe, child = context.Pipe(duplex=False)
+            self.process = context.Process(target=_read_ahead, args=(path, child), daemon=True)
+            self.process.start()
+            child.close()
+        except (ValueError, OSError):  # no fork here: read it when asked
+            self.process = None
+
+    def result(self) -> tuple[dict, object]:
+        """``(source, standing)``: the ledger's path, head and state, and its standing decisions."""
+        said = None
+        if self.process is not None:
+            try:
+                said = self.pipe.recv()
+            except (EOFError, OSError):
+                said = None
+            self.process.join()
+        if said is None:
+            said = _read_now(self.path)
+        state, problem, notes, head, standing = said
+        if state == ledger.BROKEN:
+            raise ledger.LedgerError(f"{self.path}: {problem}; the chain is broken, so nothing was done "
+                                     "(see 'pricefold ledger verify')")
+        if state == ledger.UNVERIFIABLE:
+            print(f"{self.path}: warning: keyed records and no key: read unverified", file=sys.stderr)
+        for note in notes:
+            print(f"{self.path}: {note}", file=sys.stderr)
+        return {"path": str(self.path.resolve()), "head": head, "state": state}, standing
+
+
+def _read_now(path: Path):
+    from fitcore.ledger.standing import standing_of
+
+    from .ledger_cli import ledger_key
+    book = ledger.Ledger(path, ledger_key())
+    gc.freeze()  # the records live until the process ends: keep collection passes off them
+    return (book.state, str(book.problem) if book.problem else None, [str(n) for n in book.notes], book.head_text,
+            standing_of(book.histories))
+
+
+def _read_ahead(path: Path, pipe) -> None:
+    try:
+        said = _read_now(path)
+    except BaseException:  # the parent reads it itself and reports what goes wrong
+        said = None
+    try:
+        pipe.send(said)
+    finally:
+        pipe.close()
+
+
+def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
+    """``(diagnosis with 'shifted', backtest)`` of ``results`` (a fit, rows loaded) against the ledger."""
+    from fitcore.ledger.backtest import backtest
+    from fitcore.review.flags import mark_shifted
+    source, standing = ahead.result()
+    found = backtest(results, standing, thresholds, source)
+    return mark_shifted(diagnosis, found), found
+
+
+def backtest_line(found) -> str:
+    """One line for the fit's summary: signed series on changed data, by backtest outcome."""
+    counts = found.counts()
+    total = sum(counts.values())
+    if not total:
+        return f"ledger: no signed series has new data (head {found.source['head'][:20]}…)"
+    parts = " · ".join(f"{name} {count:,}" for name, count in sorted(counts.items()))
+    return f"ledger: {total:,} signed series on changed data — backtest {parts}; shifted {int(found.shifted.sum()):,}"
+
+
+# -- show --ledger ---------------------------------------------------------------------------------------
+
+def ledger_state(record: dict, book) -> tuple[str, str | None]:
+    """(status in the ledger, what it needs) of a results record."""
+    from fitcore.ledger.backtest import due
+    history = book.histories.get(series_id(record["key"]))
+    status = history.status(record["fingerprint"]) if history else "pending"
+    if status == "accepted" and history.current["action"] == "carry":
+        status = "accepted (carried)"
+    needs = due(record.get("backtest")) if status == "stale" else None
+    if status == "stale" and needs is None:
+        needs = "no backtest in these results (fit with --ledger)"
+    return status, needs
+
+
+def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
+    """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list."""
+    from fitcore.review.sentences import shift_sentence
+
+    from .show import detail, in_attention_order, key_text
+    book = open_ledger(ledger_path)
+    if len(records) == 1:
+        record = records[0]
+        status, needs = ledger_state(record, book)
+        lines = [detail(record, binary), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
+        if record.get("backtest"):
+            lines.append("  " + shift_sentence(record["backtest"], record["chosen"]))
+        return "\n".join(lines)
+    lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'status':<19} {'due':<16} {'ratio':>5} {'cover':>5}  flags"]
+    for record in in_attention_order(records):
+        status, needs = ledger_state(record, book)
+        bt = record.get("backtest") or {}
+        ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
+        cover = f"{bt['coverage'] * 100:.0f}%" if bt.get("coverage") is not None else "—"
+        flags = " ".join(f["code"] for f in record["flags"]) or "—"
+        lines.append(f"{key_text(record['key'])[:40]:<40} {record['n']:>5} {record['chosen'] or '—':<7} "
+                     f"{status:<19} {(needs or '—')[:16]:<16} {ratio:>5} {cover:>5}  {flags}")
+    return "\n".join(lines)
+
+
+# -- ledger carry ------------------------------------------------------------------------------------
+
+@dataclass
+class Carryable:
+    """A series whose signed decision may be carried, as the results say (checked again under the lock)."""
+
+    key: dict
+    fingerprint: str
+    chosen: str
+    flags: list
+    latest: str  # the series' latest ledger record when the results were fitted
+    candidate: str  # the signed candidate
+    carries: str  # the accept or override the standing decision stands for
+    near_best: bool  # the signed candidate is available and within one SE of the lowest CV error
+    snapshot: dict | None = None
+
+
+UNTESTED = {"failed": "backtest failed", "no-dates": "no dates", "undated": "no dates", "no-new-rows": "no new rows",
+            "unsigned": "no signed model"}
+
+
+def _stop_codes() -> set[str]:
+    from fitcore.review.flags import SEVERITY
+    return {code for code, severity in SEVERITY.items() if severity == "stop"}
+
+
+def _near_best(record: dict, name: str) -> bool:
+    """The candidate is available and its CV error within one SE of the lowest (the rule's own band)."""
+    cands = [c for c in record["candidates"] if c["available"] and c["cv_mse"] is not None]
+    mine = next((c for c in cands if c["name"] == name), None)
+    if mine is None:
+        return False
+    best = min(cands, key=lambda c: c["cv_mse"])
+    return mine["cv_mse"] <= best["cv_mse"] + (best["cv_se"] or 0.0)
+
+
+def plan_from_records(records, level: float) -> tuple[list[Carryable], Counter]:
+    """Which series may be carried, from results records (JSON; small runs), and why the others may not."""
+    from fitcore.ledger.snapshot import from_records
+    stops, keep, left = _stop_codes(), [], Counter()
+    for record in records:
+        bt = record.get("backtest")
+        if bt is None:
+            continue
+        codes = [f["code"] for f in record["flags"]]
+        if bt["status"] != "passed":
+            left[UNTESTED.get(bt["status"], bt["status"])] += 1
+        elif "shifted" in codes:
+            left["shifted"] += 1
+        elif set(codes) & stops:
+            left["stop flag"] += 1
+        elif record["chosen"] is None:
+            left["no candidate"] += 1
+        else:
+            keep.append((record, Carryable(record["key"], record["fingerprint"], record["chosen"], codes, bt["latest"],
+                                           bt["candidate"], bt["carries"], _near_best(record, bt["candidate"]))))
+    signed = from_records([(record, c.candidate) for record, c in keep], level)
+    for (_, c), snapshot in zip(keep, signed):
+        c.snapshot = snapshot
+    return [c for _, c in keep], left
+
+
+def plan_from_stored(path: Path) -> tuple[list[Carryable], Counter]:
+    """The same from a Parquet results file or folder, column by column (no Python object per candidate)."""
+    import numpy as np
+
+    from fitcore.ledger.snapshot import from_results
+    from fitcore.results.stored import stored_results
+    from fitcore.review.flags import CODES
+    results, diagnosis = stored_results(path)
+    bt = results.stored_backtest or {}
+    status = bt.get("status", np.full(results.n_series, None, dtype=object))
+    tested = status != None  # noqa: E711
+    passed = status == "passed"
+    shifted, stop = diagnosis.flagged("shifted"), diagnosis.n_stop() > 0
+    chosen = results.chosen
+    left = Counter()
+    for value, count in Counter(status[tested & ~passed].tolist()).items():
+        left[UNTESTED.get(value, value)] += count
+    left.update({"shifted": int((passed & shifted).sum()), "stop flag": int((passed & ~shifted & stop).sum()),
+                 "no candidate": int((passed & ~shifted & ~stop & (chosen < 0)).sum())})
+    ok = np.flatnonzero(passed & ~shifted & ~stop & (chosen >= 0))
+    names = results.names
+    signed = np.array([names.index(n) if n in names else -1 for n in bt["candidate"][ok].tolist()], dtype=np.int64) \
+        if len(ok) else np.zeros(0, np.int64)
+    ok, signed = ok[signed >= 0], signed[signed >= 0]
+    cv_mse, cv_se = np.asarray(results.cv_mse)[ok], np.asarray(results.cv_se)[ok]
+    errors = np.where(results.available[ok], cv_mse, np.inf)
+    best = np.argmin(errors, axis=1) if len(ok) else np.zeros(0, np.int64)
+    rows = np.arange(len(ok))
+    near = results.available[ok, signed] & (cv_mse[rows, signed] <= errors[rows, best] + cv_se[rows, best])
+    snapshots: list = [None] * len(ok)
+    for c in np.unique(signed).tolist():
+        mine = np.flatnonzero(signed == c)
+        for i, snapshot in zip(mine.tolist(), from_results(results, ok[mine], c)):
+            snapshots[i] = snapshot
+    data = results.data
+    keys = {name: data.keys[name].take(integers_of(ok)).to_pylist() for name in data.key_names}
+    fingerprints = data.fingerprints.take(integers_of(ok)).to_pylist()
+    flagged = diagnosis.raised[ok]
+    plan = [Carryable({name: keys[name][i] for name in data.key_names}, fingerprints[i], names[chosen[s]],
+                      [CODES[j] for j in np.flatnonzero(flagged[i])] if flagged[i].any() else [],
+                      bt["latest"][s], bt["candidate"][s], bt["carries"][s], bool(near[i]), snapshots[i])
+            for i, s in enumerate(ok.tolist())]
+    return plan, left
+
+
+def integers_of(values):
+    from fitcore.arrays import integers
+    return integers(values)
+
+
+def run_carry(args) -> int:
+    from fitcore.results.read import read_header, read_results, result_parts
+    stored = result_parts(args.results) is not None or args.results.suffix.lower() in (".parquet", ".pq")
+    header = read_header(args.results) if stored else read_results(args.results)[0]
+    source = header.get("ledger")
+    if not source:
+        raise ledger.LedgerError(f"{args.results}: not made by 'pricefold fit --ledger', so it holds no backtest to "
+                                 "carry on; fit again with --ledger")
+    if not same_file(Path(source["path"]), args.ledger):
+        raise ledger.LedgerError(f"{args.results}: backtested against {source['path']}, not {args.ledger}; "
+                                 "fit again with --ledger on this ledger")
+    header.pop("key_columns", None)
+    digest = ledger.results_digest(header)
+    if stored:
+        plan, left = plan_from_stored(args.results)
+    else:
+        plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95))
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
+    gc.freeze()  # the records live until the command ends: keep collection passes off them
+    outcome: Counter = Counter()
+
+    def decide(records):  # under the lock: book.histories is what the ledger holds now
+        outcome.clear()
+        for c in plan:
+            history = book.histories.get(series_id(c.key))
+            current = history.current if history else None
+            if current is not None and current["action"] == "carry" and current["fingerprint"] == c.fingerprint:
+                outcome["already carried"] += 1
+            elif history is None or history.latest["digest"] != c.latest:
+                outcome["changed since the fit"] += 1
+            elif c.candidate != c.chosen and not (_carried_action(history, c.carries) == "override" and c.near_best):
+                outcome["shape changed"] += 1
+            else:
+                yield ledger.Entry(series=c.key, action="carry", fingerprint=c.fingerprint, results=digest,
+                                   model=c.candidate, proposed=c.chosen, note=args.note, supersedes=c.latest,
+                                   flags=c.flags, signed=c.snapshot, carries=c.carries)
+
+    written = book.append(decide, identity(args.analyst))
+    left.update(outcome)
+    if not args.quiet:
+        rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"
+        print(f"carried {len(written):,} signed series to the new data → {args.ledger}", file=sys.stderr)
+        print(f"left for a human: {sum(left.values()):,} ({rest})", file=sys.stderr)
+        print(f"ledger head {book.head_text}", file=sys.stderr)
+    return 0
+
+
+def _carried_action(history, digest: str) -> str | None:
+    """The action (accept or override) of the decision with ``digest`` in a series' history."""
+    return next((r["action"] for r in reversed(history.records) if r["digest"] == digest), None)

@@ -1,0 +1,236 @@
+"""Planning cycles through the command line: fit --ledger, ledger carry, show --ledger, export.
+
+The data are invented weekly series with straight-line demand (seeded); what is checked is
+pricefold's own bookkeeping (which series are carried, flagged, skipped), with the backtest's
+numbers checked against numpy and statsmodels in ``tests/fitcore/test_backtest.py``.
+"""
+from __future__ import annotations
+
+import csv
+import json
+import subprocess
+import sys
+from datetime import date, timedelta
+
+import numpy as np
+import pytest
+
+from fitcore import ledger
+from fitcore.ledger.replay import series_id
+from pricefold.cli import main
+
+N_SERIES = 8
+MOVER = "item 3"  # its demand drops by 40% in the third cycle
+
+
+def write_weeks(path, weeks: int, drop_from: int | None = None, seed: int = 5) -> None:
+    rng = np.random.default_rng(seed)
+    rows = []
+    for i in range(N_SERIES):
+        a, b = rng.uniform(800, 1200), rng.uniform(150, 250)
+        prices = np.round(2.0 + 0.6 * rng.random(60), 2)
+        noise = rng.normal(0, 12, 60)
+        for w in range(weeks):
+            volume = a - b * prices[w] + noise[w]
+            if drop_from is not None and w >= drop_from and f"item {i}" == MOVER:
+                volume *= 0.6
+            rows.append([f"item {i}", (date(2025, 1, 6) + timedelta(weeks=w)).isoformat(), f"{prices[w]:.2f}",
+                         f"{volume:.1f}"])
+    with open(path, "w", newline="") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(["product", "week", "price", "volume"])
+        writer.writerows(rows)
+
+
+def fit(data, out, ledger_path=None):
+    args = ["fit", str(data), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1", "--no-loglog",
+            "-o", str(out), "--quiet"]
+    assert main(args + (["--ledger", str(ledger_path)] if ledger_path else [])) == 0
+    return {r["key"]["product"]: r for r in json.loads(out.read_text())["series"]}
+
+
+def histories(path):
+    return {h.latest["series"]["product"]: h for h in ledger.Ledger(path).histories.values()}
+
+
+def test_three_cycles_sign_carry_sign(tmp_path, capsys):
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40)
+    first = fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    signed = histories(book)
+    assert len(signed) == sum(1 for r in first.values() if not r["flags"]) >= N_SERIES - 1
+    assert all(h.current["signed"]["last_date"] == "2025-10-06" for h in signed.values())
+
+    # Cycle 2: four more weeks of the same demand: every signed series passes and is carried.
+    write_weeks(tmp_path / "c2.csv", 44)
+    second = fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    assert all(second[p]["backtest"]["status"] == "passed" and second[p]["backtest"]["new_rows"] == 4 for p in signed)
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(book), "--analyst", "bo"]) == 0
+    assert f"carried {len(signed)} signed series" in capsys.readouterr().err
+    carried = histories(book)
+    for product, history in carried.items():
+        current = history.current
+        assert current["action"] == "carry" and current["carries"] == signed[product].current["digest"]
+        assert current["fingerprint"] == second[product]["fingerprint"]
+        assert current["signed"]["last_date"] == "2025-11-03"
+        assert history.status(second[product]["fingerprint"]) == "accepted"
+
+    # Cycle 3: the mover's demand drops; its carried curve fails the backtest and it stays for a human.
+    write_weeks(tmp_path / "c3.csv", 48, drop_from=44)
+    third = fit(tmp_path / "c3.csv", tmp_path / "r3.json", book)
+    mover = third[MOVER]
+    assert mover["backtest"]["status"] == "failed" and "shifted" in {f["code"] for f in mover["flags"]}
+    assert mover["backtest"]["decision"] == carried[MOVER].current["digest"]
+    assert mover["backtest"]["volume_change"] < -0.15 or mover["backtest"]["error_ratio"] > 2
+    message = next(f["message"] for f in mover["flags"] if f["code"] == "shifted")
+    assert message.startswith("Signed ") and "4 observations since" in message and "× its CV error" in message
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(tmp_path / "r3.json"), "--ledger", str(book)]) == 0
+    err = capsys.readouterr().err
+    assert f"carried {len(signed) - 1} signed series" in err and "backtest failed 1" in err
+    now = histories(book)
+    assert now[MOVER].status(mover["fingerprint"]) == "stale"
+    others = [p for p in signed if p != MOVER]
+    assert all(now[p].current["carries"] == signed[p].current["digest"] for p in others)  # the first accept
+    # The analyst signs the mover again, as the screen does: this cycle's model, superseding what was seen.
+    from fitcore.ledger.snapshot import from_records
+    snap = from_records([(mover, mover["chosen"])], 0.95)[0]
+    ledger.append(book, [ledger.Entry(series=mover["key"], action="accept", fingerprint=mover["fingerprint"],
+                                      results="ab" * 32, model=mover["chosen"], proposed=mover["chosen"],
+                                      supersedes=now[MOVER].latest["digest"], flags=["shifted"], signed=snap)],
+                  ledger.Identity("ana", "ana", "host"))
+    final = histories(book)
+    assert all(final[p].status(third[p]["fingerprint"]) == "accepted" for p in signed)
+    assert ledger.verify(book) == []
+    assert main(["ledger", "export", str(book), "--results", str(tmp_path / "r3.json"), "-o",
+                 str(tmp_path / "e.csv")]) == 0
+    rows = {r["product"]: r for r in csv.DictReader(open(tmp_path / "e.csv", newline=""))}
+    assert rows[MOVER]["carried_from"] == ""
+    first_accept = signed[others[0]].current
+    assert rows[others[0]]["carried_from"] == f"{first_accept['seq']}:{first_accept['digest']}"
+    capsys.readouterr()
+    assert main(["show", str(tmp_path / "r3.json"), "--ledger", str(book)]) == 0
+    shown = capsys.readouterr().out
+    assert "accepted (carried)" in shown and shown.count("accepted (carried)") == len(others)
+
+
+@pytest.fixture()
+def cycle_two(tmp_path):
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    return book, fit(tmp_path / "c2.csv", tmp_path / "r2.json", book), tmp_path / "r2.json"
+
+
+def test_carry_refuses_results_not_made_against_this_ledger(tmp_path, cycle_two, capsys):
+    book, _, _ = cycle_two
+    fit(tmp_path / "c2.csv", tmp_path / "plain.json")
+    assert main(["ledger", "carry", str(tmp_path / "plain.json"), "--ledger", str(book)]) == 2
+    assert "not made by 'pricefold fit --ledger'" in capsys.readouterr().err
+    other = tmp_path / "other.jsonl"
+    other.write_bytes(book.read_bytes())
+    assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(other)]) == 2
+    assert "backtested against" in capsys.readouterr().err
+    assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "-o", str(book), "--ledger", str(book)]) == 2
+
+
+def test_carry_skips_series_whose_ledger_changed_since_the_fit(cycle_two, capsys):
+    book, second, results = cycle_two
+    held = histories(book)["item 1"]
+    ledger.append(book, [ledger.Entry(series={"product": "item 1"}, action="note",
+                                      fingerprint=second["item 1"]["fingerprint"], results="ab" * 32,
+                                      note="asked the buyer", supersedes=held.latest["digest"])],
+                  ledger.Identity("cy", "cy", "host"))
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(results), "--ledger", str(book)]) == 0
+    assert "changed since the fit 1" in capsys.readouterr().err
+    after = histories(book)
+    assert after["item 1"].current["action"] == "accept" and after["item 2"].current["action"] == "carry"
+
+
+def test_analysts_carrying_at_once_record_one_carry_per_series(cycle_two):
+    book, second, results = cycle_two
+    runs = [subprocess.Popen([sys.executable, "-m", "pricefold", "ledger", "carry", str(results), "--ledger", str(book),
+                              "--analyst", f"analyst{k}"], stderr=subprocess.PIPE, text=True) for k in range(3)]
+    for run in runs:
+        assert run.wait(90) == 0, run.stderr.read()
+    records = [json.loads(line) for line in book.read_text().splitlines()]
+    carries = [series_id(r["series"]) for r in records if r["action"] == "carry"]
+    assert len(carries) == len(set(carries)) == sum(1 for r in second.values() if r.get("backtest")) > 4
+    assert ledger.verify(book) == []
+
+
+def test_dask_engine_backtests_as_the_local_engine(cycle_two, tmp_path):
+    pytest.importorskip("distributed")
+    book, _, _ = cycle_two
+    base = ["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+            "--no-loglog", "--ledger", str(book), "--quiet"]
+    assert main(base + ["-o", str(tmp_path / "local.parquet")]) == 0
+    assert main(base + ["-o", str(tmp_path / "parts"), "--engine", "dask", "--workers", "1", "--partitions", "3"]) == 0
+    from fitcore.results.read import read_results
+    local_head, local = read_results(tmp_path / "local.parquet")
+    dask_head, parts = read_results(tmp_path / "parts")
+    assert dask_head["ledger"] == local_head["ledger"] and local_head["ledger"]["state"] == "intact"
+    by_key = {r["key"]["product"]: r for r in parts}
+    assert len(by_key) == len(local) == N_SERIES
+    tested = 0
+    for record in local:
+        other = by_key[record["key"]["product"]]
+        assert other["backtest"] == record["backtest"] and other["flags"] == record["flags"]
+        tested += record["backtest"] is not None and record["backtest"]["status"] == "passed"
+    assert tested >= N_SERIES - 2
+
+
+def test_carry_from_parquet_records_what_it_does_from_json(cycle_two, tmp_path):
+    book, _, _ = cycle_two
+    carried = {}
+    for kind in ("json", "parquet"):
+        copy = tmp_path / f"{kind}.jsonl"
+        copy.write_bytes(book.read_bytes())
+        out = tmp_path / f"r.{kind}"
+        assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+                     "--no-loglog", "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+        assert main(["ledger", "carry", str(out), "--ledger", str(copy), "-q"]) == 0
+        carried[kind] = {r["series"]["product"]: (r["carries"], r["flags"], r["model"], r["signed"])
+                         for r in ledger.Ledger(copy).records if r["action"] == "carry"}
+    assert len(carried["json"]) > 4 and carried["json"].keys() == carried["parquet"].keys()
+    for product, (carries, flags, model, signed) in carried["json"].items():
+        other = carried["parquet"][product]
+        assert other[:3] == (carries, flags, model) and other[3].keys() == signed.keys()
+        np.testing.assert_allclose(np.array(other[3]["cov_unscaled"]), np.array(signed["cov_unscaled"]), rtol=1e-12)
+        assert other[3]["plan"] == pytest.approx(signed["plan"], rel=1e-12)
+        assert other[3]["last_date"] == signed["last_date"]
+
+
+@pytest.mark.parametrize("kind", ["json", "parquet"])
+def test_an_override_is_carried_while_its_shape_stays_within_one_se(tmp_path, kind):
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=11)
+    common = ["--date", "week", "--plan-price", "2.3", "--degrees", "1-2", "--no-loglog", "--quiet"]
+    assert main(["fit", str(tmp_path / "c1.csv"), *common, "-o", str(tmp_path / f"r1.{kind}")]) == 0
+    from fitcore.ledger.snapshot import from_records
+    from fitcore.results.read import read_results
+    records = read_results(tmp_path / f"r1.{kind}")[1]
+    record = next(r for r in records if r["chosen"] == "poly1" and not r["flags"])
+    ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
+                                      results="ab" * 32, model="poly2", proposed="poly1",
+                                      note="the buyer expects a bend",
+                                      signed=from_records([(record, "poly2")], 0.95)[0])],
+                  ledger.Identity("ana", "ana", "host"))
+    write_weeks(tmp_path / "c2.csv", 44, seed=11)
+    out = tmp_path / f"r2.{kind}"
+    assert main(["fit", str(tmp_path / "c2.csv"), *common, "-o", str(out), "--ledger", str(book)]) == 0
+    now = next(r for r in read_results(out)[1] if r["key"] == record["key"])
+    cands = {c["name"]: c for c in now["candidates"]}
+    best = min(cands.values(), key=lambda c: c["cv_mse"])
+    assert now["chosen"] == "poly1" and cands["poly2"]["cv_mse"] <= best["cv_mse"] + best["cv_se"]
+    assert main(["ledger", "carry", str(out), "--ledger", str(book), "-q"]) == 0
+    history = histories(book)[record["key"]["product"]]
+    carried = history.current
+    assert carried["action"] == "carry" and carried["model"] == "poly2" and carried["proposed"] == "poly1"
+    assert carried["carries"] == history.records[0]["digest"] and carried["signed"]["candidate"] == "poly2"
+    assert history.status(now["fingerprint"]) == "accepted"

@@ -1,0 +1,132 @@
+"""The backtest of signed curves on the rows since sign-off, against outside evaluations.
+
+- Error ratios and counts: the recorded plain coefficients evaluated directly with numpy
+  (``np.polyval``; log-log as exp(a)·priceᵉ·smearing, the README's convention) on the new rows.
+- Band coverage for linear (polynomial) candidates: statsmodels ``OLS(...).fit().get_prediction``
+  ``obs_ci_lower``/``obs_ci_upper`` (95%) on the new rows, fitted to the signed rows.
+- The flag's thresholds (pricefold's own rules) on constructed cases.
+"""
+from __future__ import annotations
+
+import numpy as np
+import statsmodels.api as sm
+
+import fitcore
+from fitcore import ledger
+from fitcore.data.dataset import from_columns
+from fitcore.ledger.backtest import NO_DATES, PASSED, backtest
+from fitcore.ledger.snapshot import from_results
+from fitcore.review.thresholds import Thresholds
+from tests.conftest import random_dataset
+
+CUT = np.datetime64("2024-06-01")
+
+
+def split(data, cut=CUT):
+    """The dataset up to ``cut`` (what was signed) and all of it (this cycle's data)."""
+    keys = np.repeat(data.keys["product"], data.counts)
+    old = data.date < cut
+    return from_columns({"product": keys[old]}, data.price[old], data.volume[old], date=data.date[old]), data
+
+
+def sign_all(path, results, data):
+    entries = [ledger.Entry(series=data.key_of(s), action="accept", fingerprint=data.fingerprints[s], results="ab" * 32,
+                            model=results.names[c], proposed=results.names[c], signed=from_results(results, [s], c)[0])
+               for s, c in enumerate(results.chosen.tolist()) if c >= 0]
+    ledger.append(path, entries, ledger.Identity("ana", "ana", "host"))
+    return ledger.Ledger(path)
+
+
+def test_error_ratio_and_counts_match_a_direct_numpy_evaluation(tmp_path):
+    old, new = split(random_dataset(61, n_series=40, with_date=True))
+    signed = fitcore.fit_batch(old, plan_price=50.0)
+    book = sign_all(tmp_path / "l.jsonl", signed, old)
+    now = fitcore.fit_batch(new, plan_price=50.0)
+    found = backtest(now, book.histories, Thresholds(), {})
+    checked = 0
+    for s in range(new.n_series):
+        history = next(h for h in book.histories.values() if h.current["series"] == new.key_of(s))
+        snap = history.current["signed"]
+        rows = slice(new.offsets[s], new.offsets[s + 1])
+        later = new.date[rows] > np.datetime64(snap["last_date"])
+        price, volume = new.price[rows][later], new.volume[rows][later]
+        if found.status[s] is None:  # every row predates the cut: decided on this very data
+            assert not len(price) and history.current["fingerprint"] == new.fingerprints[s]
+            continue
+        assert found.new_rows[s] == len(price)
+        assert found.status[s] in ((PASSED, "failed") if len(price) else ("no-new-rows",))
+        if not len(price):
+            continue
+        if snap["family"] == "poly":
+            predicted = np.polyval(snap["coef"][::-1], price)
+        else:
+            a, e = snap["coef"]
+            predicted = np.exp(a) * price ** e * snap["smearing"]
+        ratio = np.sqrt(np.mean((predicted - volume) ** 2) / snap["cv_mse"])
+        np.testing.assert_allclose(found.error_ratio[s], ratio, rtol=1e-7)
+        checked += 1
+    assert checked > 30 and {"poly", "loglog"} <= {h.current["signed"]["family"] for h in book.histories.values()}
+
+
+def test_band_coverage_matches_statsmodels_get_prediction_for_linear_candidates(tmp_path):
+    old, new = split(random_dataset(62, n_series=30, with_date=True), np.datetime64("2024-05-01"))
+    settings = fitcore.FitSettings(degrees=(1, 2), loglog=False)
+    signed = fitcore.fit_batch(old, settings)
+    book = sign_all(tmp_path / "l.jsonl", signed, old)
+    found = backtest(fitcore.fit_batch(new, settings), book.histories, Thresholds(), {})
+    checked = 0
+    for s in range(new.n_series):
+        c = int(signed.chosen[s])
+        k = signed.candidates[c].complexity
+        before = slice(old.offsets[s], old.offsets[s + 1])
+        rows = slice(new.offsets[s], new.offsets[s + 1])
+        later = new.date[rows] > old.date[before].max()
+        if not later.any():
+            continue
+        fit = sm.OLS(old.volume[before], np.vander(old.price[before], k, increasing=True)).fit()
+        frame = fit.get_prediction(np.vander(new.price[rows][later], k, increasing=True)).summary_frame(alpha=0.05)
+        actual = new.volume[rows][later]
+        inside = (frame["obs_ci_lower"] <= actual) & (actual <= frame["obs_ci_upper"])
+        assert found.outside[s] == (~inside).sum()
+        np.testing.assert_allclose(found.coverage[s], inside.mean())
+        checked += len(actual)
+    assert checked > 300 and 0.8 < 1 - found.outside.sum() / checked <= 1.0
+
+
+def test_thresholds_decide_the_shifted_flag(tmp_path):
+    old, new = split(random_dataset(63, n_series=40, with_date=True))
+    signed = fitcore.fit_batch(old, plan_price=50.0)
+    book = sign_all(tmp_path / "l.jsonl", signed, old)
+    now = fitcore.fit_batch(new, plan_price=50.0)
+    base = backtest(now, book.histories, Thresholds(), {})
+    tested = base.status == PASSED
+    assert tested.sum() > 20
+    loose = backtest(now, book.histories, Thresholds(shift_error_ratio=1e9, shift_coverage=0, shift_volume=1e9), {})
+    assert not loose.shifted.any()
+    tight = backtest(now, book.histories, Thresholds(shift_error_ratio=1e-9, shift_coverage=0, shift_volume=1e9), {})
+    assert (tight.shifted == (tight.new_rows > 0)).all()
+    few = backtest(now, book.histories, Thresholds(shift_error_ratio=1e9, shift_coverage=1.0, shift_volume=1e9,
+                                                   shift_min_rows=10**6), {})
+    assert not few.shifted.any()  # coverage is judged only from shift_min_rows new rows on
+    by_volume = backtest(now, book.histories,
+                         Thresholds(shift_error_ratio=1e9, shift_coverage=0, shift_volume=0.05), {})
+    moved = np.abs(by_volume.volume_change) > 0.05
+    assert (by_volume.shifted == moved).all() and 0 < moved.sum() < new.n_series
+    # proposed and signed volumes at the plan price: the change is theirs
+    at = np.flatnonzero(np.isfinite(base.volume_change))
+    np.testing.assert_allclose(base.volume_change[at], (base.proposed_volume[at] - base.signed_volume[at])
+                               / np.abs(base.signed_volume[at]))
+    np.testing.assert_allclose(base.proposed_volume[at], now.plan_volume[at, now.chosen[at]], rtol=1e-9)
+
+
+def test_without_a_date_column_no_backtest_is_possible(tmp_path):
+    old, new = split(random_dataset(64, n_series=6, with_date=True))
+    def undated(d):
+        return from_columns({"product": np.repeat(d.keys["product"], d.counts)}, d.price, d.volume)
+    signed = fitcore.fit_batch(undated(old))
+    book = sign_all(tmp_path / "l.jsonl", signed, undated(old))
+    found = backtest(fitcore.fit_batch(undated(new)), book.histories, Thresholds(), {})
+    moved = found.status != None  # noqa: E711  (series whose rows all predate the cut were signed on this data)
+    assert 0 < moved.sum() < new.n_series and set(found.status[moved]) == {NO_DATES} and (found.new_rows == -1).all()
+    assert found.due(int(np.flatnonzero(moved)[0])) == "no dates"
+    assert not found.shifted[np.isnan(found.volume_change)].any()

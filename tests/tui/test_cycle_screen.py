@@ -1,0 +1,106 @@
+"""Triage across cycles: the sample signed, a week added (``sample/next_week.py``), the screen opened.
+
+Signed series with changed data are stale and say what is due; the filter has "changed since sign-off"
+and "shifted"; the evidence says the backtest's numbers and draws the signed curve with the new rows
+marked apart; a decision records the model it signs.
+"""
+from __future__ import annotations
+
+import sys
+from dataclasses import replace
+from pathlib import Path
+
+import pytest
+
+from fitcore import ledger
+from pricefold.cli import main
+from tests.tui.conftest import make_app, screen_text, started
+from tui.factory import sample_source
+from tui.listing import FILTERS
+
+SAMPLE = Path(__file__).parents[2] / "sample"
+
+
+def signed(book: Path) -> int:
+    """How many series the first cycle signed (accept-unflagged: one record each)."""
+    return sum(1 for line in book.read_bytes().splitlines() if line.strip())
+
+
+@pytest.fixture(scope="module")
+def next_cycle(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("cycle")
+    sys.path.insert(0, str(SAMPLE))
+    try:
+        from next_week import extend
+    finally:
+        sys.path.remove(str(SAMPLE))
+    book = folder / "ledger.jsonl"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week", "--plan",
+                 str(SAMPLE / "plan.csv"), "-o", str(folder / "r1.json"), "--quiet"]) == 0
+    assert main(["ledger", "accept-unflagged", str(folder / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    assert extend(SAMPLE / "wholesale.csv", folder / "week2.csv") == 180
+    return book, replace(sample_source(), data=folder / "week2.csv")
+
+
+async def test_signed_series_with_new_rows_are_stale_with_what_is_due(next_cycle, tmp_path):
+    book, source = next_cycle
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    app = make_app(copy, source)
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        stale = session._code("stale")
+        assert stale.sum() == signed(book) and session.backtest is not None
+        shifted = session.diagnosis.flagged("shifted")
+        assert 0 < shifted.sum() < 40 and not (shifted & ~stale).any()
+        session.set_filter("changed", None)
+        assert len(session.view) == signed(book)
+        session.set_filter("shifted", None)
+        assert len(session.view) == shifted.sum()
+        s = int(session.view[0])
+        assert session.due(s) in ("backtest failed", "shifted")
+        app.screen.refresh_all()
+        await pilot.pause(0.3)
+        text = screen_text(app)
+        assert f"due: {session.due(s)}" in text and "shifted: Signed" in text
+        assert "observation since, its error is" in text and "++ signed" in text and "× 1 new since" in text
+        passed = next(int(t) for t in range(session.results.n_series)
+                      if stale[t] and not shifted[t] and session.backtest_of(t)["status"] == "passed")
+        session.set_filter("changed", None)
+        session.bring(passed)
+        app.screen.refresh_all()
+        await pilot.pause(0.3)
+        assert "due: backtest passed" in screen_text(app) and "Since sign-off: Signed" in screen_text(app)
+        # Accepting it again records this cycle's model, complete, on the new data.
+        before = len(ledger.Ledger(copy).records)
+        session.decide(session.look(s), "accept", note="the new week is a one-off")
+        written = ledger.Ledger(copy).records
+        assert len(written) == before + 1 and written[-1]["signed"]["last_date"] == "2026-11-30"  # the added week
+        assert written[-1]["signed"]["cov_unscaled"] is not None and "incomplete" not in written[-1]["signed"]
+        assert session.status[s] == "accepted" and "changed" in FILTERS
+
+
+def test_stored_results_from_fit_ledger_open_with_their_backtest_and_sign_complete_models(next_cycle, tmp_path):
+    """Triage on a Parquet file from ``fit --ledger``: the backtest as the file holds it, before any refit,
+    and a decision's snapshot complete from the stored interval parts."""
+    from tests.tui.conftest import ANA
+    from tui.factory import open_stored_session
+    book, source = next_cycle
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    out = tmp_path / "r2.parquet"
+    assert main(["fit", str(source.data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
+                 "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+    session = open_stored_session(out, copy, ANA)
+    assert not session.results.rows_loaded and session.backtest is not None
+    stale = session._code("stale")
+    shifted = session.diagnosis.flagged("shifted")
+    assert stale.sum() == signed(book) and 0 < shifted.sum() < 40
+    s = int(next(t for t in range(session.results.n_series) if shifted[t]))
+    assert session.due(s) == "backtest failed" and session.backtest_of(s)["new_rows"] == 1
+    written = session.decide(session.look(s), "hold", note="look next week")
+    assert written["signed"] is None
+    s2 = int(next(t for t in range(session.results.n_series) if stale[t] and not shifted[t]))
+    written = session.decide(session.look(s2), "accept", note="fine")
+    assert written["signed"]["cov_unscaled"] is not None and "incomplete" not in written["signed"]
+    assert written["signed"]["last_date"] == "2026-11-30"
