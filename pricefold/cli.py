@@ -39,7 +39,7 @@ def build_parser() -> argparse.ArgumentParser:
     add_fit_options(fit)
     fit.add_argument("--strict", action="store_true",
                      help="fail (exit 2, nothing written) if any row is rejected, instead of fitting the usable rows")
-    fit.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
+    fit.add_argument("-q", "--quiet", action="store_true", help="no progress bar and no summary line")
     from .cycle_cli import add_fit_ledger_option
     add_fit_ledger_option(fit)
     scale = fit.add_argument_group("engine")

@@ -164,3 +164,14 @@ def test_a_failed_run_keeps_the_previous_results(tmp_path):
     bad.write_text("product,price,volume\na,1.0,-3\n")
     assert run_cli("fit", str(bad), "-o", str(out)).returncode == 2
     assert out.read_text() == '{"kept": true}'
+
+
+def test_q_is_the_short_form_of_quiet(tmp_path, capsys):
+    """``-q`` silences the summary exactly as ``--quiet`` does; without either the summary is printed."""
+    args = ["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week"]
+    assert main([*args, "-o", str(tmp_path / "loud.json")]) == 0
+    assert "fitted 180 series" in capsys.readouterr().err
+    for flag in ("-q", "--quiet"):
+        assert main([*args, "-o", str(tmp_path / f"{flag.strip('-')}.json"), flag]) == 0
+        quiet = capsys.readouterr()
+        assert quiet.out == "" and quiet.err == "", flag
