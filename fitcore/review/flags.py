@@ -22,6 +22,7 @@ from .thresholds import Thresholds
 # unseen; "warn": worth a look.  Codes are pricefold's own.
 FLAGS = (
     ("few-points", "stop", "too few observations to trust a cross-validated choice"),
+    ("no-model", "stop", "no candidate could be fitted and scored, so no curve is proposed"),
     ("flat-price", "stop", "price barely moved, so the data say little about response to price"),
     ("rising", "stop", "the chosen curve has volume rising with price over part of the range"),
     ("below-zero", "stop", "the chosen curve predicts negative volume in range or at the plan price"),
@@ -113,6 +114,8 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     starved = ~has & np.isin(results.reason, [R.TOO_FEW_FOR_FOLDS, R.TOO_FEW_POINTS, R.NO_WEIGHT,
                                               R.WEIGHT_OVERFLOW]).all(axis=1)
     flag("few-points", (counts < thresholds.min_points) | starved)
+    # Any other series left without a model (e.g. errors too large for float64): never silently unflagged.
+    flag("no-model", ~has & ~starved)
 
     distinct, price_cv = _price_spread(results)
     numbers.update(distinct=distinct, price_cv=price_cv)

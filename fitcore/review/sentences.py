@@ -51,6 +51,16 @@ def _few_points(diag, s):
     return f"Only {n} observations; at least {wanted} are wanted to trust a cross-validated choice."
 
 
+def _no_model(diag, s):
+    r = diag.results
+    available = [c for c in range(len(r.names)) if r.reason[s, c] == R.NONE]
+    if available:
+        names = ", ".join(r.names[c] for c in available)
+        return (f"No candidate could be scored: the cross-validated errors of {names} are not finite numbers "
+                f"(values too large or too small for the arithmetic), so no curve is proposed.")
+    return f"No candidate could be fitted ({r.names[0]}: {r.reason_text(s, 0)}), so no curve is proposed."
+
+
 def _flat_price(diag, s):
     r = diag.results
     distinct = int(diag.numbers["distinct"][s])
@@ -187,7 +197,7 @@ def _stale(diag, s):
 
 
 SENTENCES = {
-    "few-points": _few_points, "flat-price": _flat_price, "rising": _rising, "below-zero": _below_zero,
+    "few-points": _few_points, "no-model": _no_model, "flat-price": _flat_price, "rising": _rising, "below-zero": _below_zero,
     "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
     "weak-fit": _weak_fit, "influential-point": _influential, "price-tied": _price_tied, "shifted": _shifted,
     "stale": _stale,
