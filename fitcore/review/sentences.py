@@ -93,14 +93,24 @@ def _below_zero(diag, s):
 
 
 def _outside_range(diag, s):
-    r = diag.results
+    r, n = diag.results, diag.numbers
     plan, lo, hi = r.plan_price[s], r.price_lo[s], r.price_hi[s]
-    width = hi - lo
-    beyond = plan - hi if plan > hi else lo - plan
-    side, edge = ("above the highest", hi) if plan > hi else ("below the lowest", lo)
-    size = f"{pct(beyond / width)} of the observed range" if width > 0 else f"{pct(beyond / edge)} of that price"
-    return (f"Plan price {money(plan)} is {money(beyond)} ({size}) {side} price observed ({money(edge)}); "
-            f"the prediction there is an extrapolation.")
+    parts = []
+    if math.isfinite(plan) and not lo <= plan <= hi:
+        width = hi - lo
+        beyond = plan - hi if plan > hi else lo - plan
+        side, edge = ("above the highest", hi) if plan > hi else ("below the lowest", lo)
+        size = f"{pct(beyond / width)} of the observed range" if width > 0 else f"{pct(beyond / edge)} of that price"
+        parts.append(f"Plan price {money(plan)} is {money(beyond)} ({size}) {side} price observed ({money(edge)})")
+    outside = n.get("control_outside")
+    for j in (np.flatnonzero(outside[s]) if outside is not None else ()):
+        name = r.controls.names[j]
+        observed = n["control_lo"][s, j], n["control_hi"][s, j]
+        seen = fmt(observed[0]) if observed[0] == observed[1] else f"{fmt(observed[0])} to {fmt(observed[1])}"
+        parts.append(f"the plan's {name} = {fmt(r.controls.plan[s, j])} lies outside the {name} values this "
+                     f"series has seen ({seen})")
+    text = "; ".join(parts)
+    return f"{text[:1].upper()}{text[1:]}; the prediction there is an extrapolation."
 
 
 def _near_tie(diag, s):
