@@ -153,10 +153,14 @@ def _price_tied(diag, s):
     r, n = diag.results, diag.numbers
     name = r.controls.names[int(n["tied"][s])]
     vif = n["price_vif"][s]
-    how = "exactly" if not math.isfinite(vif) else f"so closely (variance inflation of price {vif:.1f}, above " \
-        f"{diag.thresholds.price_tied_vif:g})"
-    return (f"Price moved {how} with {name} that the price effect cannot be told apart from {name}'s: "
-            f"the curve's slope may belong to either.")
+    if math.isfinite(vif):
+        how = (f"Price moved so closely with {name} (variance inflation of price {vif:.1f}, above "
+               f"{diag.thresholds.price_tied_vif:g}) that")
+    else:
+        how = f"Price moved exactly with {name}, so"
+    return f"{how} the price effect cannot be told apart from {name}'s: the curve's slope may belong to either."
+
+
 def _shifted(diag, s):
     bt = diag.numbers["backtest"]
     chosen = int(diag.results.chosen[s])
