@@ -182,6 +182,22 @@ def _control_ranges(results: Results):
     return lo, hi, outside
 
 
+def controls_outside(results: Results, s: int) -> bool:
+    """Does a plan value of a control column lie outside the values series ``s`` has seen of it?  (One
+    series' ``_control_ranges``: for checks of one candidate at a time.)"""
+    data, ctl = results.data, results.controls
+    if ctl is None or not data.controls:
+        return False
+    rows = slice(int(data.offsets[s]), int(data.offsets[s + 1]))
+    for j, name in enumerate(ctl.names):
+        values = data.controls.get(name)
+        if values is not None and len(values) == data.offsets[-1] and rows.stop > rows.start:
+            seen = np.asarray(values[rows], dtype=float)
+            if not seen.min() <= float(ctl.plan[s, j]) <= seen.max():
+                return True
+    return False
+
+
 def _price_spread(results: Results):
     """(S,) distinct prices, capped at 3 (1, 2 or "3 or more"), and the price coefficient of variation."""
     data = results.data
