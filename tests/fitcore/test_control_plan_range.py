@@ -38,14 +38,18 @@ def test_plan_controls_outside_each_series_range_raise_outside_range_with_the_nu
                        "the prediction there is an extrapolation.")
 
 
-def test_a_plan_price_and_a_control_outside_are_both_named():
-    rng = np.random.default_rng(5)
+def one_series(seed: int) -> fitcore.Dataset:
+    """24 rows of straight-line demand, prices 2-3, a competitor price ``comp`` between 1 and 3."""
+    rng = np.random.default_rng(seed)
     price = np.linspace(2.0, 3.0, 24)
     comp = np.round(rng.uniform(1, 3, 24), 2)
     volume = 900 - 200 * price + 30 * comp + rng.normal(0, 10, 24)
-    data = fitcore.from_columns({"product": np.array(["a"] * 24, dtype=object)}, price, volume,
+    return fitcore.from_columns({"product": np.array(["a"] * 24, dtype=object)}, price, volume,
                                 controls={"comp": comp})
-    results = fitcore.fit_batch(data, plan_price=4.0, plan_controls={"comp": np.array([0.5])})
+
+
+def test_a_plan_price_and_a_control_outside_are_both_named():
+    results = fitcore.fit_batch(one_series(5), plan_price=4.0, plan_controls={"comp": np.array([0.5])})
     message = next(f["message"] for f in diagnose(results).flags_of(0) if f["code"] == "outside-range")
     assert message.startswith("Plan price 4.00 is 1.00 (100% of the observed range) above the highest price "
                               "observed (3.00); the plan's comp = 0.5 lies outside the comp values")
@@ -54,12 +58,7 @@ def test_a_plan_price_and_a_control_outside_are_both_named():
 def test_the_override_dialogs_checks_agree_with_the_series_flag():
     """Every candidate held at a control value outside the data extrapolates (``candidate_checks``)."""
     from fitcore.review.candidate_checks import candidate_checks
-    rng = np.random.default_rng(6)
-    price = np.linspace(2.0, 3.0, 24)
-    comp = np.round(rng.uniform(1, 3, 24), 2)
-    volume = 900 - 200 * price + 30 * comp + rng.normal(0, 10, 24)
-    data = fitcore.from_columns({"product": np.array(["a"] * 24, dtype=object)}, price, volume,
-                                controls={"comp": comp})
+    data = one_series(6)
     for plan, outside in ((100.0, True), (2.0, False)):
         results = fitcore.fit_batch(data, plan_price=2.5, plan_controls={"comp": np.array([plan])})
         assert bool(diagnose(results).flagged("outside-range")[0]) is outside
