@@ -19,7 +19,7 @@ import pyarrow as pa
 from ..errors import DataError
 from .cells import coerce_numbers, dates, number_names, raw_from_table
 from .columns import Columns
-from .textfile import arrow_stream, compressed_trouble, open_text, rows_are_lines, check_quotes
+from .textfile import arrow_stream, check_quotes, compressed_trouble, open_text, rows_are_lines
 
 
 def read_csv_rows(path: Path, columns: Columns, delimiter: str, header: list[str]):

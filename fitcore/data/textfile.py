@@ -126,7 +126,7 @@ def check_quotes(path: Path, start: int, end: int, found: int, width: int) -> No
         text = "".join(itertools.islice(handle, start - 1, end))
     if text.count('"') % 2:
         raise DataError(f"a quote opens on this line and is never closed: lines {start}-{end} (the end of the "
-                         f"file) would be one cell; expected {width} fields a row", path=str(path), line=start)
+                        f"file) would be one cell; expected {width} fields a row", path=str(path), line=start)
     if found != width:
         raise DataError(f"a quoted field opens on this line and runs to line {end}, making one row of "
                         f"{found} field{'s' * (found != 1)} (expected {width}); a closing quote is probably missing",

@@ -211,8 +211,8 @@ def _stale(diag, s):
 
 
 SENTENCES = {
-    "few-points": _few_points, "no-model": _no_model, "flat-price": _flat_price, "rising": _rising, "below-zero": _below_zero,
-    "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
+    "few-points": _few_points, "no-model": _no_model, "flat-price": _flat_price, "rising": _rising,
+    "below-zero": _below_zero, "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
     "weak-fit": _weak_fit, "influential-point": _influential, "price-tied": _price_tied, "shifted": _shifted,
     "stale": _stale,
 }
