@@ -147,7 +147,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
     from fitcore.review.sentences import shift_sentence
 
     from .show import detail, in_attention_order, key_text
-    book = open_ledger(ledger_path)
+    book = open_ledger(ledger_path, must_exist=True)
     if len(records) == 1:
         record = records[0]
         status, needs = ledger_state(record, book)

@@ -72,11 +72,14 @@ def run(args) -> int:
             "accept-unflagged": run_accept_unflagged}[args.ledger_command](args)
 
 
-def open_ledger(path: Path, *, refuse: tuple[str, ...] = ()) -> ledger.Ledger:
+def open_ledger(path: Path, *, refuse: tuple[str, ...] = (), must_exist: bool = False) -> ledger.Ledger:
     """The ledger, read and verified.  A state in ``refuse`` (``broken``, ``unverifiable``) is an
     error (exit 2, one line); otherwise a warning line on stderr first.  Interrupted tails are said
-    on stderr."""
+    on stderr.  ``must_exist``: a command that only reads it (a mistyped name must not read as "no
+    decisions yet")."""
     book = ledger.Ledger(path, ledger_key())
+    if must_exist and not book.exists:
+        raise ledger.LedgerError(f"{path}: no such ledger (a command that only reads one needs it to exist)")
     if book.state in refuse:
         why = ("the chain is broken" if book.state == ledger.BROKEN else
                f"it cannot be verified without {KEY_VARIABLE}")
@@ -144,7 +147,7 @@ def verdict(book: ledger.Ledger, witness: tuple[int, str] | None) -> tuple[int, 
 
 
 def run_show(args) -> int:
-    book = open_ledger(args.ledger)
+    book = open_ledger(args.ledger, must_exist=True)
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
     for r in book.records:
         if args.product and next(iter(r["series"].values()), None) not in args.product:

@@ -81,6 +81,17 @@ def test_verify_with_the_wrong_key_says_so_first(tmp_path, results):
     assert run_cli("ledger", "verify", str(ledger_path), env={"PRICEFOLD_LEDGER_KEY": "right"}).returncode == 0
 
 
+@pytest.mark.parametrize("command", [["ledger", "show"], ["ledger", "export", "--results", "R", "-o", "OUT"],
+                                     ["show", "R", "--ledger"]])
+def test_a_mistyped_ledger_is_an_error_for_commands_that_only_read_it(tmp_path, results, command):
+    missing = tmp_path / "ledgr.jsonl"
+    args = [str(results) if a == "R" else str(tmp_path / "x.csv") if a == "OUT" else a for a in command]
+    done = run_cli(*(args + [str(missing)] if command[0] == "show" else args[:2] + [str(missing)] + args[2:]))
+    assert done.returncode == 2 and done.stderr.strip().endswith(f"{missing}: no such ledger (a command that only "
+                                                                 "reads one needs it to exist)")
+    assert sorted(tmp_path.iterdir()) == []
+
+
 def test_keyed_ledger_needs_its_key(tmp_path, results):
     ledger_path = tmp_path / "keyed.jsonl"
     env = {"PRICEFOLD_LEDGER_KEY": "k3y"}
