@@ -29,7 +29,7 @@ def neutral(text: str) -> str:
 def run_export(args) -> int:
     from fitcore.results.read import results_in_parts
     header, parts = results_in_parts(args.results)
-    book = open_ledger(args.ledger, refuse=(ledger.BROKEN,))
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN,), must_exist=True)
     from fitcore.outputs import check_outputs
     from fitcore.results.read import results_inputs
     check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
