@@ -151,7 +151,8 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
     plt.xticks(positions, [results.names[c] for c in available])
     plt.xlim(0.5, len(available) + 0.5)
     shown = folds[:, available][np.isfinite(folds[:, available]) & (folds[:, available] > 0)]
-    top = max(float(shown.max()) if len(shown) else 0.0, float(np.nanmax(means + ses)))
+    spans = (means + ses)[np.isfinite(means + ses)]
+    top = max(float(shown.max()) if len(shown) else 0.0, float(spans.max()) if len(spans) else 0.0)
     log_scale = top > LOG_RATIO * max(float(means.min()), 1e-300)
     if log_scale:  # one poor candidate would otherwise flatten all the others against the axis
         plt.yscale("log")
