@@ -21,7 +21,8 @@ import json
 
 import orjson
 
-_ENCODER = json.JSONEncoder(sort_keys=True, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
+_FINITE = json.JSONEncoder(sort_keys=True, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
+_ANY = json.JSONEncoder(sort_keys=True, ensure_ascii=False, separators=(",", ":"))
 _OPTIONS = (orjson.OPT_SORT_KEYS | orjson.OPT_PASSTHROUGH_SUBCLASS | orjson.OPT_PASSTHROUGH_DATETIME
             | orjson.OPT_PASSTHROUGH_DATACLASS)
 # Digits to "0", the characters a number can follow to ":", everything else to "x": one search then
@@ -32,16 +33,16 @@ _LONG = b":" + b"0" * 19
 
 
 def canonical_text(value) -> str:
-    """Sorted keys, no spaces, no ASCII escaping; finite numbers only (``ValueError`` otherwise, ``TypeError``
-    for what is not plain JSON), as ``json.dumps`` with those settings."""
+    """Sorted keys, no spaces, no ASCII escaping, as ``json.dumps`` with those settings (NaN as ``NaN``;
+    ``TypeError`` for what is not plain JSON)."""
     body = _fast(value)
-    return body.decode("utf-8") if body is not None else _ENCODER.encode(value)
+    return body.decode("utf-8") if body is not None else _ANY.encode(value)
 
 
 def canonical_bytes(value) -> bytes:
-    """``canonical_text(value)`` in UTF-8."""
+    """The same in UTF-8, for finite numbers only (``ValueError`` for NaN or infinity)."""
     body = _fast(value)
-    return body if body is not None else _ENCODER.encode(value).encode("utf-8")
+    return body if body is not None else _FINITE.encode(value).encode("utf-8")
 
 
 def _fast(value) -> bytes | None:
