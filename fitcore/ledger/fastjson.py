@@ -39,6 +39,15 @@ def canonical_text(value) -> str:
     return body.decode("utf-8") if body is not None else _ANY.encode(value)
 
 
+def text_object(value: dict) -> str:
+    """``canonical_text`` of a mapping of text to text (exact ``str`` keys and values, checked by the caller):
+    no number in it, so orjson's encoding is json's (lone surrogates, which orjson refuses, go to json)."""
+    try:
+        return orjson.dumps(value, option=orjson.OPT_SORT_KEYS).decode("utf-8")
+    except orjson.JSONEncodeError:
+        return _ANY.encode(value)
+
+
 def canonical_bytes(value) -> bytes:
     """The same in UTF-8, for finite numbers only (``ValueError`` for NaN or infinity)."""
     body = _fast(value)

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from .fastjson import canonical_text
+from .fastjson import canonical_text, text_object
 from .records import SCHEMA
 
 STATUS_OF = {"accept": "accepted", "override": "overridden", "hold": "held", "carry": "accepted"}
@@ -21,11 +21,12 @@ def series_id(key: dict) -> str:
             return known
     except (AttributeError, TypeError):  # not a mapping of text: encoded (or refused) as it always was
         return canonical_text(key)
-    known = canonical_text(key)
-    if all(type(v) is str for _, v in probe):
-        if len(_IDS) >= _IDS_LIMIT:
-            _IDS.clear()
-        _IDS[probe] = known
+    if not all(type(v) is str and type(k) is str for k, v in probe):
+        return canonical_text(key)
+    known = text_object(key)
+    if len(_IDS) >= _IDS_LIMIT:
+        _IDS.clear()
+    _IDS[probe] = known
     return known
 
 

@@ -18,7 +18,7 @@ import uuid
 import numpy as np
 import pytest
 
-from fitcore.ledger.fastjson import canonical_bytes, canonical_text, parse_lines
+from fitcore.ledger.fastjson import canonical_bytes, canonical_text, parse_lines, text_object
 from fitcore.ledger.records import SCHEMA
 from tests.fitcore.ledger_support import V1
 
@@ -47,6 +47,9 @@ def test_every_code_point_in_keys_and_values_and_key_order():
         value = {c: c + "x" for c in chars}
         assert canonical_bytes(value) == reference(value)
         assert canonical_text({"k": "".join(chars)}) == reference({"k": "".join(chars)}).decode("utf-8")
+        assert text_object(value) == reference(value).decode("utf-8")
+    assert text_object({"b": "\ud800", "a": ""}) == json.dumps({"b": "\ud800", "a": ""}, sort_keys=True,
+                                                               separators=(",", ":"), ensure_ascii=False)
 
 
 class Colour(enum.Enum):
