@@ -68,10 +68,10 @@ def _refuse(value):
     raise TypeError  # not plain JSON for orjson: the standard library decides (and says why)
 
 
-def parse_lines(lines: list[bytes], chunk: bytes) -> list[dict | None]:
+def parse_lines(lines: list[bytes], chunk: bytes | None = None) -> list[dict | None]:
     """Each line's JSON object, None where a line is not one.  ``chunk``: the lines' bytes as one piece
-    (``lines`` is ``chunk`` split at newlines)."""
-    if _LONG in chunk.translate(_TABLE):
+    (``lines`` is ``chunk`` split at newlines), when the caller has it."""
+    if _LONG in (b"\n".join(lines) if chunk is None else chunk).translate(_TABLE):
         return [_parse_one(line) for line in lines]
     out = []
     loads, failed = orjson.loads, orjson.JSONDecodeError
