@@ -265,9 +265,10 @@ def plan_from_stored(path: Path) -> tuple[list[Carryable], Counter]:
     left.update({"shifted": int((passed & shifted).sum()), "stop flag": int((passed & ~shifted & stop).sum()),
                  "no candidate": int((passed & ~shifted & ~stop & (chosen < 0)).sum())})
     ok = np.flatnonzero(passed & ~shifted & ~stop & (chosen >= 0))
+    if not len(ok):
+        return [], left
     names = results.names
-    signed = np.array([names.index(n) if n in names else -1 for n in bt["candidate"][ok].tolist()], dtype=np.int64) \
-        if len(ok) else np.zeros(0, np.int64)
+    signed = np.array([names.index(n) if n in names else -1 for n in bt["candidate"][ok].tolist()], dtype=np.int64)
     ok, signed = ok[signed >= 0], signed[signed >= 0]
     cv_mse, cv_se = np.asarray(results.cv_mse)[ok], np.asarray(results.cv_se)[ok]
     errors = np.where(results.available[ok], cv_mse, np.inf)
@@ -284,8 +285,7 @@ def plan_from_stored(path: Path) -> tuple[list[Carryable], Counter]:
             zip(*(objects(data.keys[name].take(integers(ok))).tolist() for name in data.key_names))]
     fingerprints = objects(data.fingerprints.take(integers(ok))).tolist()
     raised = diagnosis.raised[ok]  # (series, flags) → one number a series (bit j: flag j): a few distinct sets
-    bits = np.left_shift(1, np.arange(raised.shape[1], dtype=object)) if raised.shape[1] > 63 else \
-        np.left_shift(np.int64(1), np.arange(raised.shape[1], dtype=np.int64))
+    bits = 1 << np.arange(raised.shape[1], dtype=np.int64 if raised.shape[1] < 63 else object)
     combos, which = np.unique(raised.astype(bits.dtype) @ bits, return_inverse=True)
     codes = [[CODES[j] for j in range(len(CODES)) if combo >> j & 1] for combo in combos.tolist()]
     chosen_names = [names[c] for c in chosen[ok].tolist()]
