@@ -1,6 +1,6 @@
 """A planning cycle at scale: what ``fit --ledger`` adds to the fit, and how long ``ledger carry`` takes.
 
-    .venv/bin/python tests/bench/bench_cycle.py [--series 100000] [--rows 70] [--repeat 2]
+    .venv/bin/python tests/bench/bench_cycle.py [--series 100000] [--rows 70] [--repeat 2] [--keep FOLDER]
 
 Invented weekly series (seeded; ``invented.py``): cycle 1 has ``--rows`` weeks a series, cycle 2 one
 week more.  Cycle 1 is fitted and every series with a chosen curve accepted with its signed snapshot
