@@ -27,8 +27,12 @@ INCOMPLETE = ("the interval parts (cov_unscaled, sigma2, df) were not known when
 
 
 def _nums(values) -> list:
-    values = values if isinstance(values, list) else np.asarray(values, dtype=float).tolist()
-    return [v if math.isfinite(v) else None for v in values]
+    """``values`` (n,) as a list of floats, None where not finite."""
+    values = np.asarray(values, dtype=float)
+    out = values.tolist()
+    for i in np.flatnonzero(~np.isfinite(values)).tolist():
+        out[i] = None
+    return out
 
 
 def _rows(values: np.ndarray, finite: np.ndarray) -> list:
@@ -79,15 +83,15 @@ def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, c
         for column, value in zip((volume, p_lo, p_hi, elasticity), values):
             column[at] = value
     whole_list = complete.tolist()
-    smears = _nullable(smear) if fam.smeared else [None] * len(mid)
+    smears = _nums(smear) if fam.smeared else [None] * len(mid)
     planned_list = planned.tolist()
     out = []
     columns = zip(_rows(plain, np.isfinite(plain).all(axis=1)), _rows(coef, np.isfinite(coef).all(axis=1)),
-                  _nullable(mid), _nullable(half), smears, _rows(cov, complete),
-                  _nullable(np.where(complete, sigma2, np.nan)), np.where(complete, df, 0).astype(np.int64).tolist(),
-                  np.asarray(n).astype(np.int64).tolist(), _nullable(lo), _nullable(hi), last_date,
-                  plan_price.tolist(), _nullable(volume), _nullable(p_lo), _nullable(p_hi), _nullable(elasticity),
-                  _nullable(cv_mse), whole_list, planned_list)
+                  _nums(mid), _nums(half), smears, _rows(cov, complete),
+                  _nums(np.where(complete, sigma2, np.nan)), np.where(complete, df, 0).astype(np.int64).tolist(),
+                  np.asarray(n).astype(np.int64).tolist(), _nums(lo), _nums(hi), last_date,
+                  plan_price.tolist(), _nums(volume), _nums(p_lo), _nums(p_hi), _nums(elasticity),
+                  _nums(cv_mse), whole_list, planned_list)
     for (pc, bc, m, h, sm, cv, s2, d, count, low, high, last, pp, vol, plo, phi, el, mse, whole, has_plan) in columns:
         snapshot = {
             "candidate": name, "family": family, "coef": pc, "smearing": sm,
@@ -100,15 +104,6 @@ def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, c
         if not whole:
             snapshot["incomplete"] = INCOMPLETE
         out.append(snapshot)
-    return out
-
-
-def _nullable(values) -> list:
-    """``values`` (n,) as a list of floats, None where not finite."""
-    values = np.asarray(values, dtype=float)
-    out = values.tolist()
-    for i in np.flatnonzero(~np.isfinite(values)).tolist():
-        out[i] = None
     return out
 
 
