@@ -14,6 +14,7 @@ from pathlib import Path
 
 from fitcore import ledger
 from fitcore.ledger.replay import series_id
+from fitcore.ledger.snapshot import header_terms
 
 from .ledger_cli import identity, open_ledger
 
@@ -199,7 +200,7 @@ class Carryable:
     snapshot: dict | None = None
 
 
-UNTESTED = {"failed": "backtest failed", "no-dates": "no dates", "undated": "no dates", "no-new-rows": "no new rows",
+UNTESTED = {"failed": "backtest failed", "controls-changed": "controls changed", "no-dates": "no dates", "undated": "no dates", "no-new-rows": "no new rows",
             "unsigned": "no signed model"}
 
 
@@ -218,7 +219,7 @@ def _near_best(record: dict, name: str) -> bool:
     return mine["cv_mse"] <= best["cv_mse"] + (best["cv_se"] or 0.0)
 
 
-def plan_from_records(records, level: float) -> tuple[list[Carryable], Counter]:
+def plan_from_records(records, level: float, controls: list[str] | None = None) -> tuple[list[Carryable], Counter]:
     """Which series may be carried, from results records (JSON; small runs), and why the others may not."""
     from fitcore.ledger.snapshot import from_records
     stops, keep, left = _stop_codes(), [], Counter()
@@ -238,7 +239,7 @@ def plan_from_records(records, level: float) -> tuple[list[Carryable], Counter]:
         else:
             keep.append((record, Carryable(record["key"], record["fingerprint"], record["chosen"], codes, bt["latest"],
                                            bt["candidate"], bt["carries"], _near_best(record, bt["candidate"]))))
-    signed = from_records([(record, c.candidate) for record, c in keep], level)
+    signed = from_records([(record, c.candidate) for record, c in keep], level, controls)
     for (_, c), snapshot in zip(keep, signed):
         c.snapshot = snapshot
     return [c for _, c in keep], left
@@ -317,7 +318,8 @@ def _carry(args) -> int:
     if stored:
         plan, left = plan_from_stored(args.results)
     else:
-        plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95))
+        plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95),
+                                       header_terms(header["settings"]))
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
     seq, _, head = str(source.get("head", "")).partition(":")
     if not (seq.isdigit() and book.holds(int(seq), head)):
@@ -345,8 +347,10 @@ def _carry(args) -> int:
     written = book.append(decide, identity(args.analyst))
     left.update(outcome)
     if not args.quiet:
+        already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
         rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"
-        print(f"carried {len(written):,} signed series to the new data → {args.ledger}", file=sys.stderr)
+        print(f"carried {len(written):,} signed series to the new data → {args.ledger}"
+              + (f" ({already:,} carried already)" if already else ""), file=sys.stderr)
         print(f"left for a human: {sum(left.values()):,} ({rest})", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0

@@ -24,12 +24,15 @@ from ..data.keys import SeriesKeys
 from ..fit.basis import polynomial
 from ..fit.families import BY_NAME
 from ..fit.results import Results
-from .snapshot import evaluate
+from .snapshot import evaluate, terms
 from .standing import Standing, standing_of
 
 # status of a series' backtest; None: no standing decision made on other data (nothing to test)
 PASSED, FAILED = "passed", "failed"
 NO_DATES, NO_NEW_ROWS, UNSIGNED, UNDATED = "no-dates", "no-new-rows", "unsigned", "undated"
+# signed with other controls than this fit holds fixed (added, dropped, other season terms): the curves
+# are not the same model, whatever the backtest says, so an analyst looks again
+CONTROLS_CHANGED = "controls-changed"
 
 
 @dataclass(frozen=True, eq=False)
@@ -113,7 +116,7 @@ def due(record: dict | None) -> str | None:
     if record.get("shifted"):
         return "shifted"
     return {PASSED: "backtest passed", NO_DATES: "no dates", UNDATED: "no dates", NO_NEW_ROWS: "no new rows",
-            UNSIGNED: "no signed model"}.get(status, status)
+            UNSIGNED: "no signed model", CONTROLS_CHANGED: "controls changed since signing"}.get(status, status)
 
 
 def on_other_data(standing: Standing, keys: SeriesKeys, fingerprints) -> tuple[np.ndarray, Standing]:
@@ -152,6 +155,9 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
             (out["new_rows"] >= thresholds.shift_min_rows) & (out["coverage"] < thresholds.shift_coverage)))
         out["status"][failed] = FAILED
         shifted = failed | (np.abs(out["volume_change"]) > thresholds.shift_volume)
+    if len(series):
+        now = "|".join(terms(results) or ())
+        out["status"][series[(mine.controls != now) & mine.signed]] = CONTROLS_CHANGED
     return Backtest(source=source, shifted=shifted, planned=np.isfinite(results.plan_price),
                     chosen=np.asarray(results.chosen), **out)
 

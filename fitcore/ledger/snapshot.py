@@ -63,7 +63,7 @@ def signed_curve(snapshot: dict, price) -> np.ndarray:
 
 
 def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, cov, sigma2, df, n, lo, hi,
-              last_date, plan_price, cv_mse) -> list[dict]:
+              last_date, plan_price, cv_mse, controls: list[str] | None = None) -> list[dict]:
     """The ``signed`` objects of n series for candidate ``name`` of ``family``: arrays (n,) and
     ``coef`` (n, k), ``cov`` (n, k, k); ``last_date`` a list of "YYYY-MM-DD" or None."""
     fam = BY_NAME[family]
@@ -100,7 +100,7 @@ def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, c
             "sigma2": s2, "df": d if whole else None, "level": level,
             "n": count, "price_range": [low, high], "last_date": last,
             "plan": {"price": pp, "volume": vol, "lo": plo, "hi": phi, "elasticity": el} if has_plan else None,
-            "cv_mse": mse, "controls": None}
+            "cv_mse": mse, "controls": controls}
         if not whole:
             snapshot["incomplete"] = INCOMPLETE
         out.append(snapshot)
@@ -136,10 +136,23 @@ def from_results(results: Results, series, c: int, cov: np.ndarray | None = None
                      sigma2=cell(results.sigma2), df=cell(results.df), n=results.data.counts[series],
                      lo=results.price_lo[series], hi=results.price_hi[series],
                      last_date=date_texts(None if dates is None else dates[series], len(series)),
-                     plan_price=results.plan_price[series], cv_mse=cell(results.cv_mse))
+                     plan_price=results.plan_price[series], cv_mse=cell(results.cv_mse),
+                     controls=terms(results))
 
 
-def from_records(pairs: list[tuple[dict, str]], level: float) -> list[dict]:
+def terms(results: Results) -> list[str] | None:
+    """The control terms a fit held fixed (columns, then season terms), None without: a signed model
+    records them, so a later fit with other controls is not taken for the same model."""
+    ctl = getattr(results, "controls", None)
+    return list(ctl.names) if ctl is not None and len(ctl.names) else None
+
+
+def header_terms(settings: dict) -> list[str] | None:
+    """``terms`` from a results header's settings."""
+    return list((settings.get("controls") or {}).get("terms") or []) or None
+
+
+def from_records(pairs: list[tuple[dict, str]], level: float, controls: list[str] | None = None) -> list[dict]:
     """Snapshots of candidate ``name`` of each results ``record`` (the JSON layout, as ``read_results``
     gives it), in order; each candidate's ``basis``, ``cov_unscaled``, ``sigma2`` and ``df`` as the
     results hold them (missing: an incomplete snapshot)."""
@@ -165,7 +178,7 @@ def from_records(pairs: list[tuple[dict, str]], level: float) -> list[dict]:
             hi=np.array([r["price_range"][1] for r in records], dtype=float),
             last_date=[r.get("last_date") for r in records],
             plan_price=np.array([(r.get("plan") or {}).get("price") for r in records], dtype=float),
-            cv_mse=np.array([c["cv_mse"] for c in cands], dtype=float))
+            cv_mse=np.array([c["cv_mse"] for c in cands], dtype=float), controls=controls)
         for i, snapshot in zip(members, made):
             out[i] = snapshot
     return out
