@@ -39,7 +39,7 @@ def build_parser() -> argparse.ArgumentParser:
     add_fit_options(fit)
     fit.add_argument("--strict", action="store_true",
                      help="fail (exit 2, nothing written) if any row is rejected, instead of fitting the usable rows")
-    fit.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
+    fit.add_argument("-q", "--quiet", action="store_true", help="no progress bar and no summary line")
     from .cycle_cli import add_fit_ledger_option
     add_fit_ledger_option(fit)
     scale = fit.add_argument_group("engine")
@@ -188,8 +188,9 @@ def _source_inputs(source) -> list:
 REFIT_ROWS = 50_000_000
 
 
-def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | None = None) -> int:
-    """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen)."""
+def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | None = None, prepare=None) -> int:
+    """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen,
+    after ``prepare()`` when given: the demo's compiling in another process)."""
     from fitcore.results.read import read_header
     from tui.app import TriageApp
     from tui.factory import open_session, open_stored_session, refit_stored
@@ -198,10 +199,15 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     who, key = identity(analyst), ledger_key()
     if stored is not None:
         rows = read_header(stored).get("input", {}).get("rows") or 0
-        observer = (lambda progress: refit_stored(source, progress)) if rows <= REFIT_ROWS else None
+        def refit(progress):
+            if prepare is not None:
+                prepare()
+            return refit_stored(source, progress)
+        observer = refit if rows <= REFIT_ROWS else None
 
         def opener(progress):
             session = open_stored_session(stored, ledger_path, who, key, progress, units=source.units)
+            session.warnings.extend(source.warnings)
             if observer is None:
                 session.warnings.append(f"The data behind these results have {rows:,} rows, too many to read here: "
                                         "the evidence shows the fitted curves without the observations.")
@@ -216,34 +222,8 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
 
 
 def run_demo(args) -> int:
-    from fitcore.data.config import load_config
-    from fitcore.errors import DataError
-    from fitcore.outputs import check_outputs
-    from fitcore.results.write import write_results
-    from tui.factory import fit_source, sample_source, source_from_results
-
-    folder = args.dir
-    if folder.exists() and not folder.is_dir():
-        raise DataError("exists and is not a folder; --dir names the folder for the demo's files", path=str(folder))
-    sample = sample_source(tuple(args.control), args.season)
-    inputs = [("the sample data", sample.data), ("the sample plan", sample.plan_file)]
-    if folder.is_dir():
-        check_outputs([(folder / "results.json", "results")], inputs)
-    try:
-        folder.mkdir(parents=True, exist_ok=True)  # the demo's own folder, as documented
-    except OSError as exc:
-        raise DataError(f"cannot make the folder ({exc.strerror})", path=str(folder)) from None
-    print("fitting the invented sample …\n(the first run after an install also compiles the engine: ~10 s, once)",
-          file=sys.stderr)
-    results, diagnosis = fit_source(sample)
-    results_path = folder / "results.json"
-    write_results(results, results_path, diagnosis)
-    print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
-    print(f"report: pricefold report {results_path} --ledger {folder}/ledger.jsonl -o {folder}/report.html", file=sys.stderr)
-    source = source_from_results(results_path)
-    from .options import settings_file_keys
-    source.units = load_config(None, settings_file_keys()).get("units", {})
-    return open_triage(source, folder / "ledger.jsonl", args.analyst)
+    from .demo import run_demo as demo
+    return demo(args, open_triage)
 
 
 def run_ledger(args) -> int:

@@ -43,6 +43,62 @@ def _check_ending(output: Path) -> None:
 
 
 def fit_locally(args, run) -> int:
+    keep_freed_memory()
+    warm = warm_engine()  # loads the compiled loops while the data are read
+    try:
+        return _fit_locally(args, run)
+    finally:
+        if warm is not None:
+            warm.join()  # never left running at exit
+
+
+def keep_freed_memory() -> None:
+    """Ask glibc's malloc to keep freed memory for the next allocation instead of handing it back to the
+    system at once: the fit allocates and frees large work arrays chunk after chunk, and every page
+    handed back is a page fault when taken again (7M rows: system time 1.3–2.8 s → 1.0–1.2 s, peak
+    memory no higher).  Elsewhere than glibc, nothing happens."""
+    import ctypes
+    try:
+        libc = ctypes.CDLL(None)
+        libc.mallopt(-1, 1 << 30)  # M_TRIM_THRESHOLD: give back only above 1 GiB free at the top
+        libc.mallopt(-2, 256 << 20)  # M_TOP_PAD: grow the heap 256 MiB at a time
+    except (OSError, AttributeError):
+        pass
+
+
+def warm_engine():
+    """A thread loading numba's cached loops (and pandas) by fitting a few invented series, started
+    while this thread reads the data (pyarrow reads without holding the interpreter); None when the
+    cache does not hold them yet: then the fit compiles them itself, as before, and a failure to read
+    the data ends the run without waiting for a compiler."""
+    import threading
+
+    from fitcore.compiled import looks_compiled
+    if not looks_compiled():
+        return None
+    thread = threading.Thread(target=_fit_invented, name="pricefold-warm", daemon=True)
+    thread.start()
+    return thread
+
+
+def _fit_invented() -> None:
+    import numpy as np
+    import pandas  # noqa: F401  (the loader's next need after the read)
+
+    from fitcore import fit_batch, from_columns
+    from fitcore.fit.settings import FitSettings
+    from fitcore.review.flags import diagnose
+    rng = np.random.default_rng(0)
+    price = rng.uniform(1.0, 2.0, 8 * 24)
+    data = from_columns({"product": np.repeat(np.arange(8), 24).astype(str).astype(object)}, price,
+                        np.round(100 * price ** -1.5 * rng.uniform(0.8, 1.2, len(price))))
+    try:
+        diagnose(fit_batch(data, FitSettings()))
+    except Exception:  # only a warm-up: the real fit meets and reports any trouble itself
+        pass
+
+
+def _fit_locally(args, run) -> int:
     from fitcore import fit_batch
     from fitcore.data.loader import load_with_rejects
     from fitcore.data.plan import plan_keywords

@@ -8,7 +8,6 @@ from __future__ import annotations
 from datetime import datetime, timezone
 
 import numpy as np
-import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
@@ -45,6 +44,7 @@ def raw_from_table(table: pa.Table, columns: Columns, line: np.ndarray):
 
 def categorical(column) -> pd.Categorical:
     """Key text as a Categorical: integer codes for grouping instead of millions of Python strings."""
+    import pandas as pd  # imported here, not with the module: a fit reads its file while pandas loads
     if not pa.types.is_string(column.type) and not pa.types.is_large_string(column.type):
         column = pc.cast(column, pa.string())
     encoded = column.combine_chunks().dictionary_encode() if isinstance(column, pa.ChunkedArray) \
@@ -62,6 +62,7 @@ def categorical(column) -> pd.Categorical:
 
 def coerce_numbers(raw: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(values, not_a_number, missing) of text cells: values NaN where empty or unreadable."""
+    import pandas as pd
     text = raw.astype(object)
     values = pd.to_numeric(text, errors="coerce").to_numpy(np.float64)
     stripped = text.astype(str).str.strip()

@@ -51,7 +51,12 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
     from .validation import reasons
 
     path = Path(path)
-    rows, kind, delimiter = read_rows(path, columns, sep)
+    digest = _digest_beside(path)  # the file's SHA-256, computed while it is read
+    try:
+        rows, kind, delimiter = read_rows(path, columns, sep)
+    except BaseException:
+        digest(stop=True)
+        raise
     why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date,
                           controls=columns.controls)
     bad = np.flatnonzero(~usable)
@@ -62,13 +67,50 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
     keep = np.flatnonzero(usable) if len(bad) else slice(None)  # a clean file is not copied
     keys = {name: values[keep] for name, values in rows.keys.items()}
     number = lambda name: rows.numbers[name][0][keep]  # noqa: E731
-    source = {"path": str(path.resolve()), "sha256": file_sha256(path), "rows": rows.n_rows,
+    source = {"path": str(path.resolve()), "sha256": digest(), "rows": rows.n_rows,
               "rejected": int(len(bad))}
     dataset = from_columns(keys, number(columns.price), number(columns.volume),
                            weight=number(columns.weight) if columns.weight else None,
                            date=rows.date[0][keep] if columns.date else None, line=rows.line[keep], source=source,
                            controls={name: number(name) for name in columns.controls})
     return dataset, rejects
+
+
+def _digest_beside(path: Path):
+    """``digest()`` → the SHA-256 of ``path``.  A regular file is hashed in a thread while it is read
+    (hashlib lets go of the interpreter on large blocks); ``digest(stop=True)`` ends that thread early
+    (the read failed).  Anything else — a folder, a pipe — is hashed when asked, as before."""
+    import hashlib
+    import stat
+    import threading
+    try:
+        regular = stat.S_ISREG(path.stat().st_mode)
+    except OSError:
+        regular = False
+    if not regular:
+        return lambda stop=False: None if stop else file_sha256(path)
+    found, stopping = {}, threading.Event()
+
+    def work():
+        try:
+            sha = hashlib.sha256()
+            with open(path, "rb") as handle:
+                for block in iter(lambda: handle.read(1 << 20), b""):
+                    if stopping.is_set():
+                        return
+                    sha.update(block)
+            found["sha256"] = sha.hexdigest()
+        except OSError:  # hashed again when asked, which raises as reading would
+            pass
+    thread = threading.Thread(target=work, name="pricefold-sha256", daemon=True)
+    thread.start()
+
+    def digest(stop: bool = False) -> str | None:
+        if stop:
+            stopping.set()
+        thread.join()
+        return None if stop else found.get("sha256") or file_sha256(path)
+    return digest
 
 
 def read_rows(path: Path, columns: Columns, sep: str | None = None):

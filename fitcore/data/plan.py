@@ -6,7 +6,6 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
-import pandas as pd
 
 from ..errors import DataError
 from .dataset import Dataset
@@ -40,6 +39,7 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
     ``partial``: ``data`` holds only some of the series (one partition), so rows naming
     other series are passed over rather than refused.
     """
+    import pandas as pd  # imported here, not with the module: a fit reads its file while pandas loads
     path = Path(path)
     keys = list(data.key_names)
     present = set(_header_names(path, sep, [*keys, "plan_price"])) if controls or season else set()

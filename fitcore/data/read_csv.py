@@ -13,7 +13,6 @@ import zlib
 from pathlib import Path
 
 import numpy as np
-import pandas as pd
 import pyarrow as pa
 
 from ..errors import DataError
@@ -67,6 +66,8 @@ def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):
     Text is decoded leniently so that bytes that are not UTF-8 in a column pricefold ignores do not
     matter; in a needed column they are an error naming the line and the column.
     """
+    import pandas as pd
+
     from .validation import RawRows
     wanted = [header.index(name) for name in columns.needed]
     width = len(header)

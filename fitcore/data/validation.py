@@ -14,7 +14,6 @@ from collections import Counter
 from dataclasses import dataclass, field
 
 import numpy as np
-import pandas as pd
 
 FIRST_DAY, LAST_DAY = "1677-09-22", "2262-04-11"  # the whole days datetime64[ns] holds
 # The largest magnitude of a price, volume or control the arithmetic carries: sums of squared volumes
@@ -130,6 +129,7 @@ def _duplicates(rows: RawRows, dates: np.ndarray, reject, open_rows: np.ndarray)
 
 def duplicate_rows(keys: list[np.ndarray], dates: np.ndarray, lines: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Rows (in line order) repeating the key and date of an earlier row: their indices, and that row's line."""
+    import pandas as pd
     frame = pd.DataFrame({f"k{i}": values for i, values in enumerate(keys)})
     frame["_date"] = dates.view(np.int64)
     repeated = frame.duplicated(keep="first").to_numpy()

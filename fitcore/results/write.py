@@ -47,6 +47,35 @@ def _flag_lists(results: Results, diagnosis) -> list[list[dict]]:
     return [diagnosis.flags_of(s) if any_flag[s] else [] for s in range(results.n_series)]
 
 
+def _flag_texts(results: Results, diagnosis):
+    """(S,) Arrow text: each series' flags as the JSON ``json.dumps(flags_of(s), ensure_ascii=False)``
+    writes ("[]" for none), assembled flag by flag over the series raising it, then joined column-wise in
+    Arrow (no list, dict or JSON encoding a series)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    from ..review.flags import CODES, SEVERITY
+    from ..review.sentences import sentence
+    n_s = results.n_series
+    if diagnosis is None or not diagnosis.raised.any():
+        return pa.array(np.full(n_s, "[]", dtype=object), pa.string())
+    columns = []
+    for i, code in enumerate(CODES):
+        raised = np.flatnonzero(diagnosis.raised[:, i])
+        if not len(raised):
+            continue
+        head = f', {{"code": {json.dumps(code)}, "severity": {json.dumps(SEVERITY[code])}, "message": '
+        texts = pa.array([head + json.dumps(sentence(diagnosis, s, code), ensure_ascii=False) + "}"
+                          for s in raised.tolist()] + [""], pa.string())
+        at = np.full(n_s, len(raised), dtype=np.int64)  # the empty text at the end, where it is not raised
+        at[raised] = np.arange(len(raised))
+        columns.append(texts.take(pa.array(at)))
+    # Each flag's text leads with ", ": joined without a separator (null_handling="skip" loses rows in
+    # pyarrow 26), then the first ", " dropped.
+    joined = pc.utf8_slice_codeunits(pc.binary_join_element_wise(*columns, ""), 2)
+    return pc.binary_join_element_wise("[", joined, "]", "")
+
+
 def _num(value) -> float | None:
     value = float(value)
     return value if math.isfinite(value) else None
@@ -159,7 +188,8 @@ def results_table(results: Results, diagnosis=None, backtest=None):
     per_series = np.repeat(np.arange(n_s, dtype=np.int32), n_c)
 
     def repeat_text(values):  # one dictionary entry per series, not one Python string per row
-        return pa.DictionaryArray.from_arrays(per_series, pa.array(np.asarray(values, dtype=object), pa.string()))
+        words = values if isinstance(values, pa.Array) else pa.array(np.asarray(values, dtype=object), pa.string())
+        return pa.DictionaryArray.from_arrays(per_series, words)
 
     columns = {name: repeat_text(data.keys[name]) for name in data.key_names}
     columns.update(
@@ -183,7 +213,7 @@ def results_table(results: Results, diagnosis=None, backtest=None):
         plan_price=repeat(results.plan_price), plan_volume=results.plan_volume.ravel(),
         plan_lo=results.plan_lo.ravel(), plan_hi=results.plan_hi.ravel(),
         plan_elasticity=results.plan_elasticity.ravel(),
-        flags=repeat_text([json.dumps(f, ensure_ascii=False) if f else "[]" for f in _flag_lists(results, diagnosis)]),
+        flags=repeat_text(_flag_texts(results, diagnosis)),
         fingerprint=repeat_text(data.fingerprints),
     )
     if results.controls is not None:

@@ -19,19 +19,23 @@ BLOCK = 4096  # series factored at once (bounds the lanes' work arrays)
 
 
 @compiled
-def _power_sums(t, w, offsets, series, order, out):
-    """``out[k, i]`` = Σ wⱼ·tⱼᵏ over the rows of series ``series[i]``, k < ``order``."""
+def _power_sums(x, w, offsets, series, mid, half, order, out):
+    """``out[k, i]`` = Σ wⱼ·tⱼᵏ over the rows j of series ``series[i]``, k < ``order``, where
+    tⱼ = (xⱼ − mid[i]) / half[i] (half taken as 1 where it is not above 0), as ``basis.mapped`` maps it:
+    the rows are read where they lie, with no gathered copy of them."""
     weighted = len(w) > 0
     for i in range(len(series)):
         s = series[i]
+        width = half[i] if half[i] > 0 else 1.0
         for k in range(order):
             out[k, i] = 0.0
         for j in range(offsets[s], offsets[s + 1]):
+            t = (x[j] - mid[i]) / width
             wj = w[j] if weighted else 1.0
             power = wj
             for k in range(order):
                 out[k, i] += power
-                power *= t[j]
+                power *= t
 
 
 def _unscaled_block(sums: np.ndarray, p: int) -> np.ndarray:
@@ -60,21 +64,20 @@ def covariances(results: Results, series: np.ndarray) -> np.ndarray:
     if not results.rows_loaded or not len(series):
         return out
     data = results.data
-    weight = np.empty(0) if data.weight is None else data.weight
     for start in range(0, len(series), BLOCK):
         block = series[start:start + BLOCK]
+        price, weight, local = _block_rows(data, block)
+        regressors = {}  # each family's regressor at the block's rows, computed once for the block
         for family, cols in results.lineup.groups:
             p = int(results.lineup.complexity[cols].max())
-            # Every candidate of a family shares its window; the rows mapped once for the block.
-            mid = np.repeat(results.basis_mid[block, cols.start], data.counts[block])
-            half = np.repeat(results.basis_half[block, cols.start], data.counts[block])
-            rows = rows_of(data.offsets, block)
-            t = family.coordinate(data.price[rows], mid, half)
-            local = np.concatenate(([0], np.cumsum(data.counts[block]))).astype(np.int64)
+            if family.regressor not in regressors:
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    regressors[family.regressor] = np.ascontiguousarray(family.x(price), dtype=np.float64)
+            # Every candidate of a family shares its window (mid, half).
             sums = np.empty((2 * p - 1, len(block)))
-            _power_sums(np.ascontiguousarray(t, dtype=np.float64),
-                        np.ascontiguousarray(weight[rows]) if len(weight) else weight, local,
-                        np.arange(len(block), dtype=np.int64), 2 * p - 1, sums)
+            _power_sums(regressors[family.regressor], weight, local, np.arange(len(block), dtype=np.int64),
+                        np.ascontiguousarray(results.basis_mid[block, cols.start], dtype=np.float64),
+                        np.ascontiguousarray(results.basis_half[block, cols.start], dtype=np.float64), 2 * p - 1, sums)
             inv, d, good = _unscaled_block(sums, p)
             for c in range(cols.start, cols.stop):
                 k = int(results.lineup.complexity[c])
@@ -83,6 +86,19 @@ def covariances(results: Results, series: np.ndarray) -> np.ndarray:
                 ok = results.available[block, c] & good[:, k - 1]
                 out[start:start + len(block), c, :k, :k] = np.where(ok[:, None, None], cov, np.nan)
     return out
+
+
+def _block_rows(data, block: np.ndarray):
+    """(price, weight or empty, offsets) of the rows of series ``block``, the offsets counted from the
+    first of them: a view where the block is a run of consecutive series (the usual case), else a copy."""
+    weight = np.empty(0) if data.weight is None else data.weight
+    if len(block) and block[-1] - block[0] + 1 == len(block) and np.all(np.diff(block) == 1):
+        lo, hi = int(data.offsets[block[0]]), int(data.offsets[block[-1] + 1])
+        local = np.ascontiguousarray(data.offsets[block[0]:block[-1] + 2] - lo)
+        return data.price[lo:hi], weight[lo:hi] if len(weight) else weight, local
+    rows = rows_of(data.offsets, block)
+    local = np.concatenate(([0], np.cumsum(data.counts[block]))).astype(np.int64)
+    return data.price[rows], np.ascontiguousarray(weight[rows]) if len(weight) else weight, local
 
 
 def rows_of(offsets: np.ndarray, series: np.ndarray) -> np.ndarray:

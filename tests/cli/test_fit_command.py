@@ -164,3 +164,25 @@ def test_a_failed_run_keeps_the_previous_results(tmp_path):
     bad.write_text("product,price,volume\na,1.0,-3\n")
     assert run_cli("fit", str(bad), "-o", str(out)).returncode == 2
     assert out.read_text() == '{"kept": true}'
+
+
+def test_q_is_the_short_form_of_quiet(tmp_path, capsys):
+    """``-q`` silences the summary exactly as ``--quiet`` does; without either the summary is printed."""
+    args = ["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week"]
+    assert main([*args, "-o", str(tmp_path / "loud.json")]) == 0
+    assert "fitted 180 series" in capsys.readouterr().err
+    for flag in ("-q", "--quiet"):
+        assert main([*args, "-o", str(tmp_path / f"{flag.strip('-')}.json"), flag]) == 0
+        quiet = capsys.readouterr()
+        assert quiet.out == "" and quiet.err == "", flag
+
+
+def test_parquet_flags_are_the_json_results_flags(tmp_path, sample_json):
+    """The Parquet writer builds each series' flags text flag by flag over all series at once; it must be
+    exactly the JSON that ``json.dumps`` writes for the series' list in the JSON results."""
+    out = tmp_path / "results.parquet"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week",
+                 "--plan", str(SAMPLE / "plan.csv"), "-o", str(out), "--quiet"]) == 0
+    flags = pq.read_table(out, columns=["flags"]).column("flags").to_pylist()[::7]
+    expected = [json.dumps(series["flags"], ensure_ascii=False) for series in sample_json["series"]]
+    assert flags == expected and sum(text != "[]" for text in flags) > 20

@@ -1,0 +1,139 @@
+"""``pricefold demo``: the bundled invented sample, fitted, on the triage screen.
+
+With the demo's default settings the screen opens at once on the sample's results as the engine made
+them (``sample/results.parquet``, shipped; ``python -m pricefold.demo --write-shipped`` makes it again,
+and a test checks it equals a fresh fit).  The same engine then refits the sample behind the screen to
+bring the observations and bands; on the first run after an install it compiles first, in a separate
+process so the screen stays responsive, with a note saying so.  Other settings (``--control``,
+``--season``) fit first, then open the screen.
+
+The demo writes only into its own folder (``--dir``): the sample folder may be read-only.
+"""
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+SHIPPED = "results.parquet"  # in the sample folder, beside wholesale.csv and plan.csv
+COMPILING_NOTE = ("The engine is compiling behind the screen (once after an install, about 10–20 s): the "
+                  "observations and bands appear when it is done; everything else works now.")
+
+
+def run_demo(args, open_triage) -> int:
+    """The demo; ``open_triage``: the command line's (``pricefold.cli.open_triage``), passed in so this
+    module does not import the one that imports it."""
+    from fitcore.data.config import load_config
+    from fitcore.errors import DataError
+    from fitcore.outputs import check_outputs
+    from tui.factory import SAMPLE, sample_source
+
+    from .options import settings_file_keys
+
+    folder = args.dir
+    if folder.exists() and not folder.is_dir():
+        raise DataError("exists and is not a folder; --dir names the folder for the demo's files", path=str(folder))
+    sample = sample_source(tuple(args.control), args.season)
+    shipped = SAMPLE / SHIPPED
+    ready = not args.control and not args.season and shipped.is_file()
+    results_path = folder / ("results.parquet" if ready else "results.json")
+    inputs = [("the sample data", sample.data), ("the sample plan", sample.plan_file), ("the shipped results", shipped)]
+    if folder.is_dir():
+        check_outputs([(results_path, "results")], inputs)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)  # the demo's own folder, as documented
+    except OSError as exc:
+        raise DataError(f"cannot make the folder ({exc.strerror})", path=str(folder)) from None
+    sample.units = load_config(None, settings_file_keys()).get("units", {})
+    if ready:
+        sample.expected_sha256 = place_shipped(shipped, results_path, sample)
+        print(f"the invented sample's results → {results_path} (refitted behind the screen)", file=sys.stderr)
+        _report_hint(results_path, folder)
+        from fitcore.compiled import looks_compiled
+        if not looks_compiled():
+            sample.warnings.append(COMPILING_NOTE)
+        return open_triage(sample, folder / "ledger.jsonl", args.analyst, stored=results_path,
+                           prepare=compile_elsewhere)
+    from fitcore.results.write import write_results
+    from tui.factory import fit_source, source_from_results
+    print("fitting the invented sample …\n(the first run after an install also compiles the engine: ~10 s, once)",
+          file=sys.stderr)
+    results, diagnosis = fit_source(sample)
+    write_results(results, results_path, diagnosis)
+    print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
+    _report_hint(results_path, folder)
+    source = source_from_results(results_path)
+    source.units = sample.units
+    return open_triage(source, folder / "ledger.jsonl", args.analyst)
+
+
+def _report_hint(results_path: Path, folder: Path) -> None:
+    print(f"report: pricefold report {results_path} --ledger {folder}/ledger.jsonl -o {folder}/report.html",
+          file=sys.stderr)
+
+
+def place_shipped(shipped: Path, target: Path, sample) -> str:
+    """Write the shipped results to ``target`` naming this checkout's sample files (the shipped file names
+    them relative to its folder); the sample data's SHA-256 as the results recorded it."""
+    import pyarrow.parquet as pq
+
+    from fitcore.outputs import atomic_write
+    from fitcore.results.write import write_parquet
+    table = pq.ParquetFile(shipped).read()  # not read_table: that imports pandas
+    header = json.loads(table.schema.metadata[b"pricefold"])
+    header["input"]["path"] = str(sample.data)
+    header["settings"]["plan"]["file"] = str(sample.plan_file)
+    atomic_write(target, lambda handle: write_parquet(
+        table.replace_schema_metadata({b"pricefold": json.dumps(header).encode()}), handle))
+    return header["input"]["sha256"]
+
+
+def write_shipped(target: Path) -> None:
+    """Fit the sample under the demo's default settings and write the results the demo ships, naming the
+    sample's files relative to the sample folder (so the file is the same from any checkout)."""
+    from fitcore.outputs import atomic_write
+    from fitcore.results.write import write_parquet
+    from tui.factory import fit_source, sample_source
+    sample = sample_source()
+    table = shipped_table(*fit_source(sample), sample)
+    atomic_write(target, lambda handle: write_parquet(table, handle))
+
+
+def shipped_table(results, diagnosis, sample):
+    """The Parquet table of a fit of the sample, its file names relative to the sample folder."""
+    from fitcore.results.write import results_table
+    table = results_table(results, diagnosis)
+    header = json.loads(table.schema.metadata[b"pricefold"])
+    header["input"]["path"] = sample.data.name
+    header["settings"]["plan"]["file"] = sample.plan_file.name
+    return table.replace_schema_metadata({b"pricefold": json.dumps(header).encode()})
+
+
+def compile_elsewhere() -> None:
+    """Compile the engine's loops into numba's cache in a separate process (which fits the sample), so
+    the screen's own process only loads them; nothing to do when the cache already holds them."""
+    from fitcore.compiled import looks_compiled
+    if looks_compiled():
+        return
+    subprocess.run([sys.executable, "-m", "pricefold.demo", "--compile"], stdin=subprocess.DEVNULL,
+                   stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, check=False)
+
+
+def main(argv: list[str]) -> int:
+    if argv[:1] == ["--compile"]:  # compile_elsewhere's process: a fit of the sample fills the cache
+        from tui.factory import fit_source, sample_source
+        fit_source(sample_source())
+        return 0
+    if argv[:1] == ["--write-shipped"]:
+        from tui.factory import SAMPLE
+        write_shipped(SAMPLE / SHIPPED)
+        print(f"wrote {SAMPLE / SHIPPED}")
+        return 0
+    print("usage: python -m pricefold.demo --write-shipped   (rewrite sample/results.parquet from a fresh fit)",
+          file=sys.stderr)
+    return 2
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))
