@@ -34,6 +34,7 @@ class Source:
     warnings: list[str] = field(default_factory=list)
     expected_sha256: str | None = None  # the data's digest when the results were written, checked before a refit
     units: dict = field(default_factory=dict)  # labels from the settings file's [units] table: price, volume
+    sep: str | None = None  # the data's field separator (None: found from the header), as ``fit --sep``
 
 
 def source_from_results(path: Path, check_data: bool = True) -> Source:
@@ -48,7 +49,12 @@ def source_from_results(path: Path, check_data: bool = True) -> Source:
     if not extra.get("columns"):
         raise DataError("this results file does not say which columns it was fitted from; "
                         "run 'pricefold triage' on the data file instead", path=str(path))
-    data = Path(head["input"]["path"])
+    recorded = head.get("input") or {}
+    for name, what in (("path", "the data file it was fitted from"), ("sha256", "that data file's digest")):
+        if not isinstance(recorded.get(name), str):  # results of a fit made from Python, not from a file
+            raise DataError(f"expected 'input' → '{name}' ({what}), found none; run 'pricefold triage' on the "
+                            "data file instead", path=str(path))
+    data = Path(recorded["path"])
     if not data.exists():
         raise DataError(f"the data it was fitted from is not at {data}", path=str(path))
     plan = extra.get("plan") or {}
@@ -70,7 +76,7 @@ def fit_source(source: Source, progress: Callable[[int, int], None] | None = Non
     from fitcore.data.loader import load
     from fitcore.data.plan import plan_keywords
     from fitcore.review.flags import diagnose
-    data = load(source.data, source.columns)
+    data = load(source.data, source.columns, sep=source.sep)
     plan = plan_keywords(data, source.plan_file, source.plan_price, season=source.settings.season)
     extra = provenance(source.columns.as_dict(), str(source.plan_file) if source.plan_file else None,
                        source.plan_price)
@@ -127,4 +133,10 @@ def sample_source(controls: tuple[str, ...] = (), season: int = 0) -> Source:
 
 
 def default_ledger(results_or_data: Path) -> Path:
-    return results_or_data.with_name(results_or_data.name.split(".")[0] + ".ledger.jsonl")
+    """``<name>.ledger.jsonl`` beside the file: its last extension (and a ``.gz`` before it) replaced, so
+    ``fit.v1.json`` → ``fit.v1.ledger.jsonl`` and ``week.12.csv.gz`` → ``week.12.ledger.jsonl``."""
+    name = results_or_data.name
+    if name.lower().endswith(".gz"):
+        name = name[:-3]
+    stem, dot, extension = name.rpartition(".")
+    return results_or_data.with_name((stem if dot and stem else name) + ".ledger.jsonl")
