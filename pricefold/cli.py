@@ -152,7 +152,7 @@ def run_triage(args) -> int:
 
     from fitcore.data.config import load_config
     from fitcore.outputs import check_not_input
-    from tui.factory import Source, default_ledger, is_stored, source_from_results
+    from fitcore.results.source import Source, default_ledger, is_stored, source_from_results
 
     from .options import resolve, settings_file_keys
     ledger_path = args.ledger or default_ledger(args.source)
@@ -200,7 +200,8 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen)."""
     from fitcore.results.read import read_header
     from tui.app import TriageApp
-    from tui.factory import open_session, open_stored_session, refit_stored
+    from fitcore.results.source import refit_stored
+    from tui.factory import open_session, open_stored_session
 
     from .ledger_cli import identity, ledger_key
     who, key = identity(analyst), ledger_key()
@@ -227,7 +228,8 @@ def run_demo(args) -> int:
     from fitcore.errors import DataError
     from fitcore.outputs import check_outputs
     from fitcore.results.write import write_results
-    from tui.factory import fit_source, sample_source, source_from_results
+    from fitcore.results.source import fit_source, source_from_results
+    from tui.factory import sample_source
 
     folder = args.dir
     if folder.exists() and not folder.is_dir():
