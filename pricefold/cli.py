@@ -219,7 +219,8 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     else:
         app = TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
     app.run()
-    print(f"decisions are in {ledger_path}", file=sys.stderr)
+    if ledger_path.exists():  # after a failure before any decision there is no ledger to point to
+        print(f"decisions are in {ledger_path}", file=sys.stderr)
     return app.return_code or 0
 
 

@@ -147,7 +147,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
     from fitcore.review.sentences import shift_sentence
 
     from .show import detail, in_attention_order, key_text
-    book = open_ledger(ledger_path)
+    book = open_ledger(ledger_path, must_exist=True)
     if len(records) == 1:
         record = records[0]
         status, needs = ledger_state(record, book)
@@ -297,6 +297,11 @@ def run_carry(args) -> int:
     else:
         plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95))
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
+    seq, _, head = str(source.get("head", "")).partition(":")
+    if not (seq.isdigit() and book.holds(int(seq), head)):
+        raise ledger.LedgerError(f"{args.ledger}: no longer holds record {seq}:{head[:12]}…, the head 'fit --ledger' "
+                                 f"read (it now ends at {book.head_text[:20]}…: records were removed or the file "
+                                 "replaced); nothing was carried")
     gc.freeze()  # the records live until the command ends: keep collection passes off them
     outcome: Counter = Counter()
 

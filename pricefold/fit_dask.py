@@ -43,10 +43,10 @@ def run_fit_dask(args, run) -> int:
         disconnect(client)
     if run.plan_file and total["plan_matched"] < _plan_rows(run.plan_file):
         print(f"warning: {run.plan_file} names series that are not in the data", file=sys.stderr)
+    if total["rejected"]["lines"]:  # a warning, not progress: --quiet keeps it
+        print(rejects_line(total["rejected"]["reasons"], args.output / REJECTS), file=sys.stderr)
     if args.quiet:
         return 0
-    if total["rejected"]["lines"]:
-        print(rejects_line(total["rejected"]["reasons"], args.output / REJECTS), file=sys.stderr)
     from fitcore.fit.families import candidates_for
     from fitcore.review.flags import CODES
     chosen = {c.name: total["chosen"].get(c.name, 0) for c in candidates_for(run.settings)} | {"none": total["none"]}

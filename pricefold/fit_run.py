@@ -83,9 +83,9 @@ def fit_locally(args, run) -> int:
         write_results(results, args.output, diagnosis, batch=batch, backtest=backtest)
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
+    if len(rejects):  # a warning, not progress: --quiet keeps it
+        print(rejects_line(rejects.reasons, target), file=sys.stderr)
     if not args.quiet:
-        if len(rejects):
-            print(rejects_line(rejects.reasons, target), file=sys.stderr)
         print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)
         if backtest is not None:
             from .cycle_cli import backtest_line

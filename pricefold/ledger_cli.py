@@ -72,11 +72,14 @@ def run(args) -> int:
             "accept-unflagged": run_accept_unflagged}[args.ledger_command](args)
 
 
-def open_ledger(path: Path, *, refuse: tuple[str, ...] = ()) -> ledger.Ledger:
+def open_ledger(path: Path, *, refuse: tuple[str, ...] = (), must_exist: bool = False) -> ledger.Ledger:
     """The ledger, read and verified.  A state in ``refuse`` (``broken``, ``unverifiable``) is an
     error (exit 2, one line); otherwise a warning line on stderr first.  Interrupted tails are said
-    on stderr."""
+    on stderr.  ``must_exist``: a command that only reads it (a mistyped name must not read as "no
+    decisions yet")."""
     book = ledger.Ledger(path, ledger_key())
+    if must_exist and not book.exists:
+        raise ledger.LedgerError(f"{path}: no such ledger (a command that only reads one needs it to exist)")
     if book.state in refuse:
         why = ("the chain is broken" if book.state == ledger.BROKEN else
                f"it cannot be verified without {KEY_VARIABLE}")
@@ -104,30 +107,47 @@ def run_verify(args) -> int:
     book = ledger.Ledger(args.ledger, ledger_key())
     if not book.exists:
         raise ledger.LedgerError(f"{args.ledger}: file not found")
-    for problem in book.problems or ([book.problem] if book.problem else []):
-        print(f"{args.ledger}: {problem}")
-    if book.state != ledger.INTACT:
-        return 1
+    status, lines = verdict(book, witness)
+    try:  # the status stands even when the reader goes away early (``| head -1``)
+        for line in lines:
+            print(f"{args.ledger}: {line}" if not line.startswith("head ") else line)
+        sys.stdout.flush()
+    except BrokenPipeError:
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+    return status
+
+
+# A record deleted or moved breaks every link after it: past this many, the rest are counted, not listed.
+SHOWN_PROBLEMS = 20
+
+
+def verdict(book: ledger.Ledger, witness: tuple[int, str] | None) -> tuple[int, list[str]]:
+    """Exit status and lines of ``ledger verify`` (the file name goes before each, except the head's)."""
+    problems = book.problems or ([book.problem] if book.problem else [])
+    if problems:
+        lines = [str(problem) for problem in problems[:SHOWN_PROBLEMS]]
+        if len(problems) > SHOWN_PROBLEMS:
+            lines.append(f"… and {len(problems) - SHOWN_PROBLEMS:,} more problems after line "
+                         f"{problems[SHOWN_PROBLEMS - 1].line} (the first ones explain the rest)")
+        if ledger_key() and problems[0].line == 1 and all("its digest does not match" in p.message for p in problems):
+            lines.insert(0, "no record's digest matches with the key in PRICEFOLD_LEDGER_KEY: "
+                            "most likely the wrong key (or every record was edited)")
+        return 1, lines
     kind = "keyed (HMAC-SHA-256)" if ledger_key() else "SHA-256"
-    print(f"{args.ledger}: intact, {len(book.records)} records, {kind} chain")
-    for note in book.notes:
-        print(f"{args.ledger}: {note}")
-    print(f"head {book.head_text}")
+    lines = [f"intact, {len(book.records)} records, {kind} chain", *map(str, book.notes), f"head {book.head_text}"]
     if witness is None:
-        return 0
+        return 0, lines
     seq, digest = witness
     if book.holds(seq, digest):
-        print(f"{args.ledger}: still holds the witnessed record {seq}:{digest[:12]}…")
-        return 0
+        return 0, lines + [f"still holds the witnessed record {seq}:{digest[:12]}…"]
     last = book.head[0]
     why = (f"it ends at seq {last}: records were removed from the end" if seq > last else
            f"seq {seq} is now a different record ({book.records[seq - 1]['digest'][:12]}…)")
-    print(f"{args.ledger}: does not hold the witnessed record {seq}:{digest[:12]}…; {why}")
-    return 1
+    return 1, lines + [f"does not hold the witnessed record {seq}:{digest[:12]}…; {why}"]
 
 
 def run_show(args) -> int:
-    book = open_ledger(args.ledger)
+    book = open_ledger(args.ledger, must_exist=True)
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
     for r in book.records:
         if args.product and next(iter(r["series"].values()), None) not in args.product:

@@ -29,7 +29,7 @@ def neutral(text: str) -> str:
 def run_export(args) -> int:
     from fitcore.results.read import results_in_parts
     header, parts = results_in_parts(args.results)
-    book = open_ledger(args.ledger, refuse=(ledger.BROKEN,))
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN,), must_exist=True)
     from fitcore.outputs import check_outputs
     from fitcore.results.read import results_inputs
     check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
@@ -59,14 +59,28 @@ def run_export(args) -> int:
         # fields where the results hold them (its interval only where they do).
         own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
         at_plan = plan if model == record["chosen"] else {k: (cand or {}).get(v) for k, v in own.items()}
-        row([*(str(value) for value in record["key"].values()), status, model or "", cand["family"] if cand else "",
-             json.dumps(cand["coef"]) if cand and cand["coef"] else "", current["analyst"] if current else "",
-             current["at"] if current else "", current.get("note", "") if current else "", plan.get("price", ""),
+        family, coef = (cand["family"] if cand else ""), (json.dumps(cand["coef"]) if cand and cand["coef"] else "")
+        if status == "stale":  # signed on other data: the signed model's numbers, never this fit's
+            family, coef, at_plan = signed_columns(current)
+            plan = {"price": at_plan.get("price")}
+        row([*(str(value) for value in record["key"].values()), status, model or "", family, coef,
+             current["analyst"] if current else "", current["at"] if current else "",
+             current.get("note", "") if current else "", _number(plan.get("price")),
              _number(at_plan.get("volume")), _number(at_plan.get("lo")), _number(at_plan.get("hi")),
              carried_from(history), head])
     write_text(args.output, buffer.getvalue())
     print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
     return 0
+
+
+def signed_columns(decision: dict) -> tuple[str, str, dict]:
+    """``(family, coef, plan)`` of a decision standing on other data, from its ``signed`` snapshot (plan:
+    price, volume, lo, hi as signed); empty when it has none (a ``/1`` record, a hold)."""
+    snapshot = decision.get("signed") or {}
+    if not snapshot:
+        return "", "", {}
+    coef = json.dumps(snapshot["coef"]) if snapshot.get("coef") else ""
+    return snapshot.get("family") or "", coef, snapshot.get("plan") or {}
 
 
 def carried_from(history) -> str:

@@ -34,6 +34,15 @@ def in_attention_order(records: list[dict]) -> list[dict]:
     return [records[i] for i in attention_order(stops, warns, scores)]
 
 
+def number(x, how=fmt) -> str:
+    """A number from a results file, or "—" where it is null (a series or candidate with nothing to say)."""
+    return "—" if x is None else how(x)
+
+
+def percent(share) -> str:
+    return "—" if share is None or not math.isfinite(share) else f"{share * 100:.0f}%"
+
+
 def key_text(key: dict) -> str:
     """A series key as one line of text, control characters replaced."""
     return SEPARATOR.join(clean(str(v)) for v in key.values())
@@ -42,7 +51,7 @@ def key_text(key: dict) -> str:
 def table(records: list[dict]) -> str:
     lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'score':>6}  flags"]
     for r in in_attention_order(records):
-        score = f"{r['score'] * 100:.0f}%" if r["score"] is not None else "—"
+        score = percent(r["score"])
         flags = " ".join(f["code"] for f in r["flags"]) or "—"
         lines.append(f"{key_text(r['key'])[:40]:<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  {flags}")
     return "\n".join(lines)
@@ -83,8 +92,8 @@ def detail(record: dict, binary=()) -> str:
         if not c["available"]:
             out.append(f"{mark} {c['name']:<10} unavailable: {c['reason']}")
             continue
-        out.append(f"{mark} {c['name']:<10} {fmt(c['cv_mse']):>12} {fmt(c['cv_se']):>10} "
-                   f"{c['q2'] * 100:>5.0f}% {c['r2'] * 100:>5.0f}%")
+        out.append(f"{mark} {c['name']:<10} {number(c['cv_mse']):>12} {number(c['cv_se']):>10} "
+                   f"{percent(c['q2']):>6} {percent(c['r2']):>6}")
     out.extend(control_lines(record, binary))
     out.append("")
     if record["flags"]:
@@ -96,9 +105,9 @@ def detail(record: dict, binary=()) -> str:
     plan = record.get("plan")
     if plan:
         where = "" if plan["inside_range"] else " — outside the observed prices: an extrapolation"
-        out.append(f"plan price {money(plan['price'])}: volume {fmt(plan['volume'])} "
-                   f"({plan['level'] * 100:.0f}% prediction interval {fmt(plan['lo'])} to {fmt(plan['hi'])}), "
-                   f"elasticity {plan['elasticity']:.2f}{where}")
+        out.append(f"plan price {number(plan['price'], money)}: volume {number(plan['volume'])} "
+                   f"({percent(plan['level'])} prediction interval {number(plan['lo'])} to {number(plan['hi'])}), "
+                   f"elasticity {number(plan['elasticity'], lambda e: f'{e:.2f}')}{where}")
     if record.get("revenue_price") is not None:
         out.append(f"revenue-maximising price within the observed range: {money(record['revenue_price'])}")
     return "\n".join(out)

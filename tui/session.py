@@ -134,7 +134,7 @@ class TriageSession(ListState):
             self._refresh_status(s)
         current = self.current
         others = [r for r in records if r.get("digest") not in self._written]
-        if current is not None and others:
+        if current is not None and others and self.shown is not None:  # not what was there before the screen opened
             theirs = [r for r in others if self._known.get(series_id(r["series"])) == current]
             self.news = theirs[-1] if theirs else self.news
         if records or force:
@@ -258,7 +258,7 @@ class TriageSession(ListState):
         if s is None or s < 0:
             self.shown = None
             return None
-        if self.shown is not None and self.shown.series != s:
+        if self.shown is None or self.shown.series != s:
             self.news = None
         records = self.history(s)
         chosen, model = int(self.results.chosen[s]), self.model_of(s)

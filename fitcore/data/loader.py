@@ -95,7 +95,8 @@ def delimiter_of(path: Path, columns: Columns, sep: str | None = None) -> str:
 
 
 def check_columns(path: Path, found: list[str], columns: Columns) -> None:
-    """Every needed column present exactly once in the header ``found``; else one line naming it."""
+    """Every needed column present exactly once in the header ``found``, and no name (ignored columns
+    too; blank names aside) given twice; else one line naming it."""
     for name in columns.needed:
         if name not in found:
             close = difflib.get_close_matches(name, found, n=1)
@@ -106,3 +107,9 @@ def check_columns(path: Path, found: list[str], columns: Columns) -> None:
         if len(places) > 1:
             raise DataError(f"the column {name!r} appears twice in the header (fields {places[0]} and {places[1]}); "
                             "rename one", path=str(path), line=1, column=name)
+    first: dict[str, int] = {}
+    for i, name in enumerate(found):
+        if name.strip() and name in first:  # an ignored column too: which one a reader takes is a guess
+            raise DataError(f"the column {name!r} appears twice in the header (fields {first[name] + 1} and "
+                            f"{i + 1}); rename one", path=str(path), line=1, column=name)
+        first.setdefault(name, i)

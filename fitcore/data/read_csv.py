@@ -19,7 +19,7 @@ import pyarrow as pa
 from ..errors import DataError
 from .cells import coerce_numbers, dates, number_names, raw_from_table
 from .columns import Columns
-from .textfile import arrow_stream, compressed_trouble, open_text, rows_are_lines
+from .textfile import arrow_stream, check_quotes, compressed_trouble, open_text, rows_are_lines
 
 
 def read_csv_rows(path: Path, columns: Columns, delimiter: str, header: list[str]):
@@ -82,10 +82,14 @@ def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):
                 start, end = end + 1, reader.line_num
                 lines.append(start)
                 if record and len(record) != width:
+                    if end > start:  # a quote that swallowed lines: no row can be trusted after it
+                        check_quotes(path, start, end, len(record), width)
                     broken[len(lines) - 1] = f"expected {width} fields, found {len(record)}"
                     record = []
                 for store, index in zip(cells, wanted):
                     store.append(record[index] if record else None)
+            if lines and end > lines[-1]:  # the last row may hold a quote that never closed
+                check_quotes(path, lines[-1], end, width, width)
     except csv.Error as exc:
         raise DataError(f"cannot split line {end + 1} into fields ({exc})", path=str(path)) from None
     except (OSError, EOFError, zlib.error) as exc:

@@ -9,6 +9,7 @@ from __future__ import annotations
 import csv
 import gzip
 import io
+import itertools
 import mmap
 import os
 import stat
@@ -114,6 +115,22 @@ def _first_record(handle) -> str:
         if text.count('"') % 2 == 0:
             break
     return text.rstrip("\r\n")
+
+
+def check_quotes(path: Path, start: int, end: int, found: int, width: int) -> None:
+    """One line for a record over physical lines ``start``…``end`` (``found`` fields, ``width`` expected)
+    that a missing closing quote made: otherwise every later line would become one cell, rejected or, in
+    a row's last field, silently kept.  An odd count of quotes in those lines: the quote never closes (the
+    record ran to the end of the file); an even count with the wrong number of fields: it closed too late."""
+    with open_text(path, errors="surrogateescape") as handle:
+        text = "".join(itertools.islice(handle, start - 1, end))
+    if text.count('"') % 2:
+        raise DataError(f"a quote opens on this line and is never closed: lines {start}-{end} (the end of the "
+                        f"file) would be one cell; expected {width} fields a row", path=str(path), line=start)
+    if found != width:
+        raise DataError(f"a quoted field opens on this line and runs to line {end}, making one row of "
+                        f"{found} field{'s' * (found != 1)} (expected {width}); a closing quote is probably missing",
+                        path=str(path), line=start)
 
 
 def split_header(text: str, delimiter: str) -> list[str]:

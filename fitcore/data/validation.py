@@ -2,7 +2,8 @@
 
 A row is rejected — never silently dropped — when the line is empty or has
 the wrong number of fields, a key is empty, price or volume is missing,
-non-numeric, NaN or infinite, or negative, the weight is missing, non-numeric
+non-numeric, NaN or infinite, negative, or beyond ±1e15 (``LARGEST``; controls
+too), the weight is missing, non-numeric
 or negative, the date does not parse or lies outside the dates datetime64[ns]
 holds (1677-09-22 to 2262-04-11), or the row repeats the series and date of an
 earlier row.  The first reason that applies is the one reported.
@@ -16,6 +17,11 @@ import numpy as np
 import pandas as pd
 
 FIRST_DAY, LAST_DAY = "1677-09-22", "2262-04-11"  # the whole days datetime64[ns] holds
+# The largest magnitude of a price, volume or control the arithmetic carries: sums of squared volumes
+# (CV errors, intervals) and revenue = price × volume over millions of rows must stay far inside float64
+# (1e308); past about 1e154 a square is infinite and a series silently gets no model.  1e15 is also
+# below 2**53, so whole numbers up to it are exact; no real price or weekly volume comes near it.
+LARGEST = 1e15
 
 
 @dataclass
@@ -77,8 +83,8 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
     for name, empty in zip(rows.keys, empties):
         mark(empty, f"empty {name}")
     for name in (price, volume, weight):
-        if name:
-            _number_reasons(mark, name, *rows.numbers[name])
+        if name:  # a weight scales sums instead of entering them: its overflow has its own reason
+            _number_reasons(mark, name, *rows.numbers[name], bounded=name != weight)
     for name in controls:
         _number_reasons(mark, name, *rows.numbers[name], signed=True)
     if date and rows.date is not None:
@@ -101,10 +107,12 @@ def _empty(values: pd.Categorical) -> np.ndarray:
     return (codes < 0) | (blank[np.maximum(codes, 0)] if len(blank) else True)
 
 
-def _number_reasons(mark, name, values, not_number, missing, signed: bool = False):
+def _number_reasons(mark, name, values, not_number, missing, signed: bool = False, bounded: bool = True):
     mark(not_number, f"non-numeric {name}")
     mark(missing, f"missing {name}")
     mark(~np.isfinite(values), f"non-finite {name}")
+    if bounded:
+        mark(np.abs(values) > LARGEST, f"{name} beyond ±1e15")
     if not signed:
         mark(values < 0, f"negative {name}")
 

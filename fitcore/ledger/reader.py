@@ -182,7 +182,13 @@ class Ledger:
         if unit or doubt:  # an incomplete batch (counted once whole), or a doubt left for the locked read
             self._chain, self._line, self._unverifiable = before
         if judge:
-            self.notes = self._tail_notes(unit, data[end:], lines_read)
+            torn = data[end:]
+            if torn and not _could_be_record(torn):
+                self.problems.append(Problem(lines_read + 1, f"the last line ({len(torn)} bytes, no line end) is not "
+                                                             "the start of a ledger record: not a pricefold ledger, "
+                                                             "or edited"))
+                torn = b""
+            self.notes = self._tail_notes(unit, torn, lines_read)
         return new
 
     def _take(self, unit: list[dict], position: int, raw: bytes) -> list[dict]:
@@ -241,6 +247,16 @@ class Ledger:
                 self._seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
                 return records
         return self._read(fd, judge=True)
+
+
+# Every record's line is canonical JSON with sorted keys, so it starts with its "action" member: a
+# write cut short leaves a prefix of that.  Anything else after the last line end (a results file
+# given as the ledger, a hand edit) is not an interrupted write, and is never set aside as one.
+_RECORD_START = b'{"action":"'
+
+
+def _could_be_record(torn: bytes) -> bool:
+    return torn[:len(_RECORD_START)] == _RECORD_START[:len(torn)]
 
 
 @contextmanager

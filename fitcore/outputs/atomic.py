@@ -127,8 +127,13 @@ class Staged:
 
 
 def stage(path: str | Path, write: Callable[[BinaryIO], object]) -> Staged:
-    """Write ``path``'s content to a temporary file beside it (``write(handle)``), fsynced; nothing visible yet."""
+    """Write ``path``'s content to a temporary file beside it (``write(handle)``), fsynced; nothing visible yet.
+
+    A symlink is written through: the file it points to is replaced (beside it, so the rename stays on
+    one file system) and the link stays a link, as an editor saving through a link does."""
     path = Path(path)
+    if path.is_symlink():
+        path = Path(os.path.realpath(path))
     remove_leftovers(path)
     temp = temp_path(path)
     try:

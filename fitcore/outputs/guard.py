@@ -24,6 +24,7 @@ from pathlib import Path
 from typing import Iterable
 
 from ..errors import DataError
+from .atomic import remove_leftovers
 
 KIND_NAMES = {"results": "a pricefold results file", "results-folder": "a pricefold results folder",
               "rejects": "a rejects file pricefold wrote", "export": "a pricefold export",
@@ -102,6 +103,7 @@ def is_own(path: "str | Path", kind: str) -> bool:
 def remove_own(path: "str | Path", kind: str) -> bool:
     """Remove ``path`` if it is an earlier output of ``kind`` (a clean run's stale rejects file); True if removed."""
     path = Path(path)
+    remove_leftovers(path)  # a killed writer's temporary copy of it goes too
     if path.is_symlink() or not is_own(path, kind):
         return False
     try:

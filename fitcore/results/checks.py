@@ -31,6 +31,20 @@ def _number(value) -> bool:
     return value is None or isinstance(value, (int, float)) and not isinstance(value, bool)
 
 
+def _found(value) -> str:
+    """What a wrong value is, saying for a list or an object which part of it is wrong."""
+    if isinstance(value, list):
+        wrong = next((i for i, x in enumerate(value) if not _number(x)), None)
+        return (f"a list whose item {wrong + 1} is {_kind(value[wrong])}" if wrong is not None
+                else f"a list of {len(value)}")
+    if isinstance(value, dict):
+        if not value:
+            return "an empty object"
+        wrong = next((k for k, x in value.items() if not isinstance(x, str)), None)
+        return f"an object whose {wrong!r} is {_kind(value[wrong])}" if wrong is not None else "an object"
+    return _kind(value)
+
+
 def _field(path, where, record: dict, name: str, ok, expected: str, optional: bool = False):
     if name not in record:
         if optional:
@@ -38,8 +52,21 @@ def _field(path, where, record: dict, name: str, ok, expected: str, optional: bo
         raise _fail(path, where, f"missing {name!r}")
     value = record[name]
     if not ok(value):
-        raise _fail(path, where, f"{name!r} should be {expected}, found {_kind(value)}")
+        raise _fail(path, where, f"{name!r} should be {expected}, found {_found(value)}")
     return value
+
+
+def _check_plan(path, where: str, record: dict) -> None:
+    """The plan-price prediction (null without a plan price or a model): what ``show`` and the ledger read."""
+    plan = _field(path, where, record, "plan", lambda v: v is None or isinstance(v, dict), "an object or null",
+                  optional=True)
+    if plan is None:
+        return
+    place = f"{where}, plan"
+    _field(path, place, plan, "price", lambda v: _number(v) and v is not None, "a number")
+    for name in ("volume", "lo", "hi", "level", "elasticity"):
+        _field(path, place, plan, name, _number, "a number or null")
+    _field(path, place, plan, "inside_range", lambda v: isinstance(v, bool), "true or false")
 
 
 def check_header(path: Path, document: dict, series_key: str | None) -> None:
@@ -90,5 +117,5 @@ def check_series(path: Path, index: int, record) -> None:
         _field(path, place, flag, "severity", lambda v: v in SEVERITIES, " or ".join(map(repr, SEVERITIES)))
         _field(path, place, flag, "message", lambda v: isinstance(v, str), "text")
     _field(path, where, record, "fingerprint", lambda v: isinstance(v, str), "text")
-    _field(path, where, record, "plan", lambda v: v is None or isinstance(v, dict), "an object or null", optional=True)
+    _check_plan(path, where, record)
     _field(path, where, record, "revenue_price", _number, "a number or null", optional=True)

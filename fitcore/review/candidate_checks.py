@@ -14,7 +14,7 @@ import numpy as np
 
 from ..fit.results import Results
 from .evidence import curve
-from .flags import CODES, GRID
+from .flags import CODES, GRID, controls_outside
 from .thresholds import Thresholds
 
 FINE = 401  # points for the lowest volume (diagnose refines its grid minimum; a finer grid does the same job)
@@ -55,6 +55,7 @@ def candidate_checks(results: Results, s: int, c: int, thresholds: Thresholds = 
     raised = {
         "rising": share > thresholds.rising_share,
         "below-zero": lowest < 0,
-        "outside-range": planned and not results.price_lo[s] <= plan <= results.price_hi[s],
+        "outside-range": (planned and not results.price_lo[s] <= plan <= results.price_hi[s])
+                         or controls_outside(results, s),
     }
     return CandidateChecks(tuple(code for code in CODES if raised.get(code)), share, lowest, lowest_at)

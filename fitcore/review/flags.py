@@ -22,10 +22,12 @@ from .thresholds import Thresholds
 # unseen; "warn": worth a look.  Codes are pricefold's own.
 FLAGS = (
     ("few-points", "stop", "too few observations to trust a cross-validated choice"),
+    ("no-model", "stop", "no candidate could be fitted and scored, so no curve is proposed"),
     ("flat-price", "stop", "price barely moved, so the data say little about response to price"),
     ("rising", "stop", "the chosen curve has volume rising with price over part of the range"),
     ("below-zero", "stop", "the chosen curve predicts negative volume in range or at the plan price"),
-    ("outside-range", "stop", "the plan price lies outside the prices observed: an extrapolation"),
+    ("outside-range", "stop", "the plan price (or a control's plan value) lies outside the values observed: "
+                              "an extrapolation"),
     ("near-tie", "warn", "another candidate is about as good but predicts a materially different volume"),
     ("unsteady-folds", "warn", "one fold's held-out error dominates the others"),
     ("weak-fit", "warn", "low cross-validated R² (Q²)"),
@@ -113,6 +115,8 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     starved = ~has & np.isin(results.reason, [R.TOO_FEW_FOR_FOLDS, R.TOO_FEW_POINTS, R.NO_WEIGHT,
                                               R.WEIGHT_OVERFLOW]).all(axis=1)
     flag("few-points", (counts < thresholds.min_points) | starved)
+    # Any other series left without a model (e.g. errors too large for float64): never silently unflagged.
+    flag("no-model", ~has & ~starved)
 
     distinct, price_cv = _price_spread(results)
     numbers.update(distinct=distinct, price_cv=price_cv)
@@ -126,7 +130,10 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     plan_volume = np.where(has, results.plan_volume[rows, pick], np.nan)
     flag("below-zero", has & ((shape["lowest_volume"] < 0) | (planned & (plan_volume < 0))))
 
-    flag("outside-range", has & planned & ((plan < results.price_lo) | (plan > results.price_hi)))
+    control_lo, control_hi, control_outside = _control_ranges(results)
+    numbers.update(control_lo=control_lo, control_hi=control_hi, control_outside=control_outside)
+    flag("outside-range", has & ((planned & ((plan < results.price_lo) | (plan > results.price_hi)))
+                                 | control_outside.any(axis=1)))
 
     rival, rival_change = _near_tie(results)
     numbers.update(rival=rival, rival_change=rival_change)
@@ -150,6 +157,45 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
             flag("price-tied", has & (vif > thresholds.price_tied_vif))
     raised.flags.writeable = False
     return Diagnosis(results, thresholds, raised, numbers)
+
+
+def _control_ranges(results: Results):
+    """(S, M) each control column's lowest and highest value in each series, and (S, M) bool: the plan's
+    value lies outside them (a curve held there is an extrapolation in that control).  Season terms
+    are not judged (every date of a year is a value they take).  M = 0 without controls or rows."""
+    data, ctl = results.data, results.controls
+    columns = [] if ctl is None else [name for name in ctl.names if name in data.controls]
+    n_s = results.n_series
+    lo, hi = np.full((n_s, len(columns)), np.nan), np.full((n_s, len(columns)), np.nan)
+    offsets = data.offsets.astype(np.int64)
+    filled = offsets[1:] > offsets[:-1]
+    starts = offsets[:-1][filled]
+    for j, name in enumerate(columns):
+        values = np.asarray(data.controls[name], dtype=float)
+        if len(values) != offsets[-1] or not len(starts):
+            continue
+        lo[filled, j] = np.minimum.reduceat(values, starts)
+        hi[filled, j] = np.maximum.reduceat(values, starts)
+    at = np.asarray(ctl.plan, dtype=float)[:, :len(columns)] if columns else lo
+    with np.errstate(invalid="ignore"):
+        outside = (at < lo) | (at > hi)
+    return lo, hi, outside
+
+
+def controls_outside(results: Results, s: int) -> bool:
+    """Does a plan value of a control column lie outside the values series ``s`` has seen of it?  (One
+    series' ``_control_ranges``: for checks of one candidate at a time.)"""
+    data, ctl = results.data, results.controls
+    if ctl is None or not data.controls:
+        return False
+    rows = slice(int(data.offsets[s]), int(data.offsets[s + 1]))
+    for j, name in enumerate(ctl.names):
+        values = data.controls.get(name)
+        if values is not None and len(values) == data.offsets[-1] and rows.stop > rows.start:
+            seen = np.asarray(values[rows], dtype=float)
+            if not seen.min() <= float(ctl.plan[s, j]) <= seen.max():
+                return True
+    return False
 
 
 def _price_spread(results: Results):

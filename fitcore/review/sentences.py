@@ -51,6 +51,16 @@ def _few_points(diag, s):
     return f"Only {n} observations; at least {wanted} are wanted to trust a cross-validated choice."
 
 
+def _no_model(diag, s):
+    r = diag.results
+    available = [c for c in range(len(r.names)) if r.reason[s, c] == R.NONE]
+    if available:
+        names = ", ".join(r.names[c] for c in available)
+        return (f"No candidate could be scored: the cross-validated errors of {names} are not finite numbers "
+                f"(values too large or too small for the arithmetic), so no curve is proposed.")
+    return f"No candidate could be fitted ({r.names[0]}: {r.reason_text(s, 0)}), so no curve is proposed."
+
+
 def _flat_price(diag, s):
     r = diag.results
     distinct = int(diag.numbers["distinct"][s])
@@ -83,14 +93,24 @@ def _below_zero(diag, s):
 
 
 def _outside_range(diag, s):
-    r = diag.results
+    r, n = diag.results, diag.numbers
     plan, lo, hi = r.plan_price[s], r.price_lo[s], r.price_hi[s]
-    width = hi - lo
-    beyond = plan - hi if plan > hi else lo - plan
-    side, edge = ("above the highest", hi) if plan > hi else ("below the lowest", lo)
-    size = f"{pct(beyond / width)} of the observed range" if width > 0 else f"{pct(beyond / edge)} of that price"
-    return (f"Plan price {money(plan)} is {money(beyond)} ({size}) {side} price observed ({money(edge)}); "
-            f"the prediction there is an extrapolation.")
+    parts = []
+    if math.isfinite(plan) and not lo <= plan <= hi:
+        width = hi - lo
+        beyond = plan - hi if plan > hi else lo - plan
+        side, edge = ("above the highest", hi) if plan > hi else ("below the lowest", lo)
+        size = f"{pct(beyond / width)} of the observed range" if width > 0 else f"{pct(beyond / edge)} of that price"
+        parts.append(f"Plan price {money(plan)} is {money(beyond)} ({size}) {side} price observed ({money(edge)})")
+    outside = n.get("control_outside")
+    for j in (np.flatnonzero(outside[s]) if outside is not None else ()):
+        name = r.controls.names[j]
+        observed = n["control_lo"][s, j], n["control_hi"][s, j]
+        seen = fmt(observed[0]) if observed[0] == observed[1] else f"{fmt(observed[0])} to {fmt(observed[1])}"
+        parts.append(f"the plan's {name} = {fmt(r.controls.plan[s, j])} lies outside the {name} values this "
+                     f"series has seen ({seen})")
+    text = "; ".join(parts)
+    return f"{text[:1].upper()}{text[1:]}; the prediction there is an extrapolation."
 
 
 def _near_tie(diag, s):
@@ -133,10 +153,14 @@ def _price_tied(diag, s):
     r, n = diag.results, diag.numbers
     name = r.controls.names[int(n["tied"][s])]
     vif = n["price_vif"][s]
-    how = "exactly" if not math.isfinite(vif) else f"so closely (variance inflation of price {vif:.1f}, above " \
-        f"{diag.thresholds.price_tied_vif:g})"
-    return (f"Price moved {how} with {name} that the price effect cannot be told apart from {name}'s: "
-            f"the curve's slope may belong to either.")
+    if math.isfinite(vif):
+        how = (f"Price moved so closely with {name} (variance inflation of price {vif:.1f}, above "
+               f"{diag.thresholds.price_tied_vif:g}) that")
+    else:
+        how = f"Price moved exactly with {name}, so"
+    return f"{how} the price effect cannot be told apart from {name}'s: the curve's slope may belong to either."
+
+
 def _shifted(diag, s):
     bt = diag.numbers["backtest"]
     chosen = int(diag.results.chosen[s])
@@ -187,8 +211,8 @@ def _stale(diag, s):
 
 
 SENTENCES = {
-    "few-points": _few_points, "flat-price": _flat_price, "rising": _rising, "below-zero": _below_zero,
-    "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
+    "few-points": _few_points, "no-model": _no_model, "flat-price": _flat_price, "rising": _rising,
+    "below-zero": _below_zero, "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
     "weak-fit": _weak_fit, "influential-point": _influential, "price-tied": _price_tied, "shifted": _shifted,
     "stale": _stale,
 }

@@ -121,6 +121,16 @@ def open_book(path: Path) -> Book:
     return Book(results, diagnosis, header, None, why and why[0].upper() + why[1:] + ".", source)
 
 
+def with_backtest(book: Book, view, ledger_path: Path):
+    """``(diagnosis, backtest)``: the signed curves against the rows since sign-off, as the triage screen
+    shows them (``fitcore.ledger.backtest.cycle_of``): ``shifted`` joins the flags, and ``backtest``
+    (None: nothing tested) gives each stale series' numbers."""
+    from fitcore.ledger.backtest import cycle_of
+    from fitcore.ledger.replay import replay
+    source = {"path": str(ledger_path), "head": view.head, "state": view.state}
+    return cycle_of(book.results, book.diagnosis, replay(list(view.records)), source)
+
+
 def guard_output(output: Path, inputs: list[tuple[str, Path | None]]) -> None:
     """Never write over an input, and never over a file this command did not make (``fitcore.outputs``)."""
     from fitcore.outputs import check_outputs
@@ -239,14 +249,15 @@ def run(args) -> int:
     from fitcore.results.read import results_inputs
     check_not_input(args.output, results_inputs(book.header))  # the data and plan the results name
     view = read_ledger(ledger_path, ledger_key())
-    signoff = gather(book.results, book.diagnosis, list(view.records))
+    diagnosis, backtest = with_backtest(book, view, ledger_path)
+    signoff = gather(book.results, diagnosis, list(view.records))
     decided, flagged, more = signoff.detailed()
     charts = Charts(book, signoff, [*decided.tolist(), *flagged.tolist()])
     charts.draw_all()
     made = datetime.now(timezone.utc)
     title = args.title or f"Sign-off report: {args.results.name}"
     report = Report(title, made, str(args.results), book.header, signoff, view, book.data_note,
-                    charts, __version__)
+                    charts, __version__, backtest)
     detailed = {int(s) for s in decided} | {int(s) for s in flagged}
     body = (f"<header><h1>{esc(title)}</h1><p class=\"muted\">Made {made.strftime('%Y-%m-%d %H:%M UTC')} by "
             f"pricefold {esc(__version__)} from <code>{esc(args.results)}</code> and the ledger "

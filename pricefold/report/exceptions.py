@@ -57,6 +57,19 @@ def flags(signoff: Signoff, s: int) -> str:
     return f"<ul class=\"flags\">{items}</ul>"
 
 
+def since(report: Report, s: int) -> str:
+    """A series signed on other data: its signed curve's backtest and this cycle's proposal beside it, as
+    the triage screen says it (empty when nothing was tested, or ``shifted``'s sentence says it already)."""
+    from fitcore.review.sentences import shift_sentence
+    signoff = report.signoff
+    record = report.backtest.record(s) if report.backtest is not None else None
+    if record is None or STATUSES[signoff.status[s]] != "stale" or signoff.diagnosis.flagged("shifted")[s]:
+        return ""
+    chosen = int(signoff.results.chosen[s])
+    proposal = signoff.results.names[chosen] if chosen >= 0 else None
+    return f"<p><strong>Since sign-off:</strong> {esc(shift_sentence(record, proposal))}</p>"
+
+
 def history(signoff: Signoff, s: int) -> str:
     records = signoff.history(s)
     if not records:
@@ -105,7 +118,7 @@ def section(report: Report, s: int) -> str:
     figure = chart_figure(report.chart(s))
     return (f"<article class=\"exception\" id=\"s{s}\"><h3>{esc(label(results, s))}</h3>"
             f"<p class=\"meta\">{' · '.join(facts)}</p>{figure}<h4>Candidates</h4>{candidates(signoff, s)}"
-            f"<h4>Flags</h4>{flags(signoff, s)}<h4>Ledger</h4>{history(signoff, s)}</article>")
+            f"<h4>Flags</h4>{flags(signoff, s)}{since(report, s)}<h4>Ledger</h4>{history(signoff, s)}</article>")
 
 
 def exceptions(report: Report, decided, flagged, more: int) -> str:

@@ -42,6 +42,7 @@ class Report:
     data_note: str | None
     chart: Callable[[int], object]
     version: str = ""
+    backtest: object = None  # the signed curves' backtest (``Backtest`` or ``StoredBacktest``; None: none)
 
 
 def esc(text) -> str:

@@ -138,6 +138,19 @@ def test_carry_refuses_results_not_made_against_this_ledger(tmp_path, cycle_two,
     assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "-o", str(book), "--ledger", str(book)]) == 2
 
 
+def test_carry_refuses_a_ledger_cut_back_since_the_fit(cycle_two, capsys):
+    # The results hold the head 'fit --ledger' read; a ledger whose end was removed since (here the
+    # last line: the whole bulk accept no longer counts) must not be carried on as if nothing happened.
+    book, _, results = cycle_two
+    book.write_bytes(b"".join(book.read_bytes().splitlines(keepends=True)[:-1]))
+    before = book.read_bytes()
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(results), "--ledger", str(book)]) == 2
+    err = capsys.readouterr().err
+    assert "no longer holds record 8:" in err and "nothing was carried" in err
+    assert book.read_bytes() == before
+
+
 def test_carry_skips_series_whose_ledger_changed_since_the_fit(cycle_two, capsys):
     book, second, results = cycle_two
     held = histories(book)["item 1"]

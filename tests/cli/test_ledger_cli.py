@@ -57,6 +57,41 @@ def test_verify_names_the_broken_line_and_fails(tmp_path, results):
     assert done.stdout.strip().splitlines()[0].endswith("line 5: record was edited: its digest does not match its content")
 
 
+def test_verify_keeps_its_status_when_the_reader_stops_early_and_counts_a_cascade(tmp_path, results):
+    ledger_path = tmp_path / "decisions.jsonl"
+    run_cli("ledger", "accept-unflagged", str(results), "--ledger", str(ledger_path))
+    data = ledger_path.read_text().splitlines(keepends=True)
+    ledger_path.write_text("".join(data[:2] + data[3:]))  # one record of the batch deleted
+    done = run_cli("ledger", "verify", str(ledger_path))
+    lines = done.stdout.strip().splitlines()
+    assert done.returncode == 1 and "line 3: chain broken" in lines[0]
+    assert len(lines) == 21 and lines[-1].endswith(f"… and {len(data) - 1 - 20:,} more problems after line 20 "
+                                                   "(the first ones explain the rest)")
+    piped = subprocess.run(f"{sys.executable} -m pricefold ledger verify {ledger_path} 2>&1 | head -1; "
+                           "exit ${PIPESTATUS[0]}", shell=True, executable="/bin/bash", capture_output=True, text=True)
+    assert piped.returncode == 1 and piped.stdout.count("\n") == 1  # `| head -1` does not turn a break into 0
+
+
+def test_verify_with_the_wrong_key_says_so_first(tmp_path, results):
+    ledger_path = tmp_path / "decisions.jsonl"
+    run_cli("ledger", "accept-unflagged", str(results), "--ledger", str(ledger_path),
+            env={"PRICEFOLD_LEDGER_KEY": "right"})
+    done = run_cli("ledger", "verify", str(ledger_path), env={"PRICEFOLD_LEDGER_KEY": "wrong"})
+    assert done.returncode == 1 and "most likely the wrong key" in done.stdout.splitlines()[0]
+    assert run_cli("ledger", "verify", str(ledger_path), env={"PRICEFOLD_LEDGER_KEY": "right"}).returncode == 0
+
+
+@pytest.mark.parametrize("command", [["ledger", "show"], ["ledger", "export", "--results", "R", "-o", "OUT"],
+                                     ["show", "R", "--ledger"]])
+def test_a_mistyped_ledger_is_an_error_for_commands_that_only_read_it(tmp_path, results, command):
+    missing = tmp_path / "ledgr.jsonl"
+    args = [str(results) if a == "R" else str(tmp_path / "x.csv") if a == "OUT" else a for a in command]
+    done = run_cli(*(args + [str(missing)] if command[0] == "show" else args[:2] + [str(missing)] + args[2:]))
+    assert done.returncode == 2 and done.stderr.strip().endswith(f"{missing}: no such ledger (a command that only "
+                                                                 "reads one needs it to exist)")
+    assert sorted(tmp_path.iterdir()) == []
+
+
 def test_keyed_ledger_needs_its_key(tmp_path, results):
     ledger_path = tmp_path / "keyed.jsonl"
     env = {"PRICEFOLD_LEDGER_KEY": "k3y"}

@@ -54,7 +54,7 @@ def test_torn_tail_is_noted_then_moved_aside_by_the_next_append(tmp_path):
     path = tmp_path / "ledger.jsonl"
     ledger.append(path, [entry("a"), entry("b")], ANA)
     whole = path.read_bytes()
-    torn = b'{"schema": "pricefold-ledger/2", "seq": 3, "ana'
+    torn = whole.splitlines(keepends=True)[-1][:47]  # a record's line cut short, as a killed write leaves it
     path.write_bytes(whole + torn)
     book = ledger.Ledger(path)
     assert book.state == "intact" and ledger.verify(path) == []  # an interrupted write is not a broken chain
@@ -64,6 +64,19 @@ def test_torn_tail_is_noted_then_moved_aside_by_the_next_append(tmp_path):
     sides = list(tmp_path.glob("ledger.jsonl.torn-*"))
     assert len(sides) == 1 and sides[0].read_bytes() == torn
     assert path.read_bytes().startswith(whole)
+
+
+@pytest.mark.parametrize("stranger", [b'{"schema":"pricefold-results/1","series":[]}', b"my ledger"])
+def test_a_file_that_is_not_a_ledger_is_refused_not_set_aside(tmp_path, stranger):
+    # A results file given as the ledger (one JSON line with no line end) once looked like a torn
+    # last line: the append moved it aside and wrote a ledger in its place.
+    path = tmp_path / "cycle.json"
+    path.write_bytes(stranger)
+    book = ledger.Ledger(path)
+    assert book.state == "broken" and "not the start of a ledger record" in book.problems[0].message
+    with pytest.raises(ledger.LedgerError, match="nothing was recorded"):
+        ledger.append(path, [entry("a")], ANA)
+    assert path.read_bytes() == stranger and sorted(tmp_path.iterdir()) == [path]
 
 
 def test_replay_by_two_analysts():

@@ -69,7 +69,7 @@ def write_partial_batch(path, count, of, torn=b""):
 def test_an_incomplete_last_batch_is_left_out_then_set_aside_whole(tmp_path):
     path = tmp_path / "ledger.jsonl"
     ledger.append(path, [entry("a")], ANA)
-    tail = write_partial_batch(path, 3, 5, torn=b'{"schema":"pricefold-led')
+    tail = write_partial_batch(path, 3, 5, torn=b'{"action":"accept","ana')
     book = ledger.Ledger(path)
     assert book.state == "intact" and [r["seq"] for r in book.records] == [1]  # none of the 3 is counted
     assert [n.line for n in book.notes] == [2, 5]
@@ -139,7 +139,7 @@ def test_a_symlinked_ledger_sets_its_torn_tail_beside_the_real_file(tmp_path):
     real_folder.mkdir(), link_folder.mkdir()
     real = real_folder / "ledger.jsonl"
     ledger.append(real, [entry("a")], ANA)
-    real.write_bytes(real.read_bytes() + b'{"torn')
+    real.write_bytes(real.read_bytes() + b'{"act')
     link = link_folder / "team.jsonl"
     link.symlink_to(real)
     ledger.append(link, [entry("b")], ANA)
@@ -151,7 +151,7 @@ def test_a_symlinked_ledger_sets_its_torn_tail_beside_the_real_file(tmp_path):
 def test_a_tail_that_cannot_be_set_aside_is_one_line_and_leaves_nothing(tmp_path, monkeypatch, fault):
     path = tmp_path / "ledger.jsonl"
     ledger.append(path, [entry("a")], ANA)
-    path.write_bytes(path.read_bytes() + b'{"torn tail')
+    path.write_bytes(path.read_bytes() + b'{"action":"')
     before = path.read_bytes()
     real_open, real_write = os.open, os.write
     if fault == "disk full":  # the side file is made, then nothing fits in it

@@ -78,6 +78,27 @@ def test_a_failed_write_leaves_the_earlier_file_and_no_temporary(tmp_path):
     assert target.read_text() == "earlier" and sorted(p.name for p in tmp_path.iterdir()) == ["r.json"]
 
 
+def test_a_symlink_is_written_through_and_stays_a_link(tmp_path):
+    folder = tmp_path / "runs"
+    folder.mkdir()
+    real = folder / "results.json"
+    real.write_bytes(b"old")
+    link = tmp_path / "latest.json"
+    link.symlink_to(real)
+    atomic_write(link, lambda h: h.write(b"new"))
+    assert link.is_symlink() and real.read_bytes() == b"new"
+    assert sorted(p.name for p in folder.iterdir()) == ["results.json"]  # no temporary left beside it
+
+
+def test_a_clean_run_removes_a_killed_writers_temporary_rejects_file_too(tmp_path):
+    from fitcore.outputs import remove_own
+    target = tmp_path / "r.rejects.csv"
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
+    leftover = tmp_path / f".r.rejects.csv.pricefold-{HOST}-{int(dead.stdout)}-0a1b2c3d.tmp"
+    leftover.write_text("product,price,line,reason\n")
+    assert remove_own(target, "rejects") is False and not leftover.exists()
+
+
 def test_a_batch_lands_in_order_or_not_at_all(tmp_path):
     first, second = tmp_path / "r.rejects.csv", tmp_path / "r.json"
     first.write_text("old rejects")

@@ -318,7 +318,7 @@ CASES = [
     Case("ten-megabyte-ignored-cell", F, {"d.csv": "wide_ignored"}, 0, None),
     Case("two-megabyte-key", F, {"d.csv": "wide_key"}, 0, None),
     Case("duplicate-header-names", F, {"d.csv": "dup_header"}, 2, "fields 2 and 4"),
-    Case("duplicate-ignored-header-names", F, {"d.csv": "dup_ignored"}, 0, None),
+    Case("duplicate-ignored-header-names", F, {"d.csv": "dup_ignored"}, 2, "appears twice in the header"),
     Case("empty-header-name", F, {"d.csv": "empty_name_column"}, 0, None),
     Case("uppercase-json-ending", "fit d.csv -o r.JSON --quiet", D, 0, None),
     Case("pq-ending", "fit d.csv -o r.pq --quiet", D, 0, None),

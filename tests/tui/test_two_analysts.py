@@ -50,6 +50,24 @@ async def test_a_decision_lands_on_the_series_on_screen_after_the_other_decided_
         assert "left list: ana accept" in screen_text(bo)
 
 
+async def test_a_screen_opened_on_decisions_already_made_reports_no_news(ledger_path, tmp_path):
+    """Decisions recorded before a screen opens are history, not news: nothing says 'just now' (a trial
+    saw the top row blamed on whoever had decided the file's first series)."""
+    first = make_app(ledger_path, who=BO)
+    async with first.run_test(size=(80, 24)) as pilot:
+        session = await started(first, pilot)
+        # the file's first series (the one the opening read meets first), whatever list it is in
+        session.decide(session.look(0), "hold", note="asked the buyer")
+    assert len(records(ledger_path)) == 1
+    late = make_app(ledger_path)
+    async with late.run_test(size=(80, 24)) as pilot:
+        session = await started(late, pilot)
+        assert session.news is None and "just now" not in screen_text(late) and "← bo" not in screen_text(late)
+        await pilot.press("down")
+        await pilot.pause()
+        assert session.news is None
+
+
 async def test_while_the_series_waits_no_decision_key_acts_and_moving_lets_it_go(ledger_path):
     ana, bo = make_app(ledger_path), make_app(ledger_path, who=BO)
     async with ana.run_test(size=(80, 24)) as pa, bo.run_test(size=(80, 24)) as pb:

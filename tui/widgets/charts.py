@@ -33,6 +33,15 @@ def _start(width: int, height: int) -> None:
     plt.frame(True)
 
 
+def _finite(xs, ys) -> tuple[list, list]:
+    """The points whose coordinates are both finite and at most 1e290 in size: plotext fails on an
+    infinity, and on finite values whose span overflows while it scales the axes (±1e307 did)."""
+    xs, ys = np.asarray(xs, dtype=float), np.asarray(ys, dtype=float)
+    with np.errstate(invalid="ignore"):
+        keep = (np.abs(xs) <= 1e290) & (np.abs(ys) <= 1e290)
+    return xs[keep].tolist(), ys[keep].tolist()
+
+
 def _finish() -> Text:
     return Text.from_ansi(plt.build())
 
@@ -72,22 +81,23 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     xs = grid.tolist()
     if model >= 0 and results.rows_loaded:
         lower, upper = band(results, s, model, grid)
-        plt.plot(xs, lower.tolist(), marker=".", color=BAND)
-        plt.plot(xs, upper.tolist(), marker=".", color=BAND)
+        plt.plot(*_finite(xs, lower), marker=".", color=BAND)
+        plt.plot(*_finite(xs, upper), marker=".", color=BAND)
     if other >= 0:
-        plt.plot(xs, curve(results, s, other, grid).tolist(), marker="-", color=OTHER)
+        plt.plot(*_finite(xs, curve(results, s, other, grid)), marker="-", color=OTHER)
     if signed is not None:
         from fitcore.ledger.snapshot import signed_curve
-        plt.plot(xs, signed_curve(signed, grid).tolist(), marker="+", color=SIGNED)
+        plt.plot(*_finite(xs, signed_curve(signed, grid)), marker="+", color=SIGNED)
     if model >= 0:
-        plt.plot(xs, curve(results, s, model, grid).tolist(), marker=SOLID, color=STANDING)
+        plt.plot(*_finite(xs, curve(results, s, model, grid)), marker=SOLID, color=STANDING)
     if np.isfinite(plan):
         plt.vline(plan, PLAN)
     if len(price):  # observations last, so that curves through them do not hide them
-        plt.scatter(price[~new].tolist(), volume[~new].tolist(), marker="•", color=OBSERVED)
+        plt.scatter(*_finite(price[~new], volume[~new]), marker="•", color=OBSERVED)
         if new.any():
-            plt.scatter(price[new].tolist(), volume[new].tolist(), marker="×", color=NEW)
-    plt.xlim(float(grid[0]), float(grid[-1]))
+            plt.scatter(*_finite(price[new], volume[new]), marker="×", color=NEW)
+    if (np.abs(grid) <= 1e290).all():
+        plt.xlim(float(grid[0]), float(grid[-1]))
     plt.xlabel("price" + (f" ({units['price']})" if units.get("price") else ""))
     if units.get("volume"):
         plt.ylabel(f"volume ({units['volume']})")
@@ -125,22 +135,24 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
     for x, c in zip(positions, available):
         errors = folds[:, c]
         if len(errors) <= 12:  # per-fold dots (leave-one-out has too many to read)
-            plt.scatter([x] * len(errors), errors.tolist(), marker="•", color=OBSERVED)
+            plt.scatter(*_finite([x] * len(errors), errors), marker="•", color=OBSERVED)
     means = results.cv_mse[s, available]
     ses = results.cv_se[s, available]
     for x, m, e in zip(positions, means, ses):
-        plt.plot([x, x], [float(m - e), float(m + e)], marker=SOLID, color=OTHER)
-    plt.scatter(positions, means.tolist(), marker="●", color=OTHER)
+        plt.plot(*_finite([x, x], [m - e, m + e]), marker=SOLID, color=OTHER)
+    plt.scatter(*_finite(positions, means), marker="●", color=OTHER)
     best = int(np.argmin(means))
-    plt.hline(float(means[best] + ses[best]), ONE_SE)
+    if abs(means[best] + ses[best]) <= 1e290:
+        plt.hline(float(means[best] + ses[best]), ONE_SE)
     chosen = int(results.chosen[s])
     if chosen in available:
         x = positions[list(available).index(chosen)]
-        plt.scatter([x], [float(results.cv_mse[s, chosen])], marker="◆", color=STANDING)
+        plt.scatter(*_finite([x], [results.cv_mse[s, chosen]]), marker="◆", color=STANDING)
     plt.xticks(positions, [results.names[c] for c in available])
     plt.xlim(0.5, len(available) + 0.5)
     shown = folds[:, available][np.isfinite(folds[:, available]) & (folds[:, available] > 0)]
-    top = max(float(shown.max()) if len(shown) else 0.0, float(np.nanmax(means + ses)))
+    spans = (means + ses)[np.isfinite(means + ses)]
+    top = max(float(shown.max()) if len(shown) else 0.0, float(spans.max()) if len(spans) else 0.0)
     log_scale = top > LOG_RATIO * max(float(means.min()), 1e-300)
     if log_scale:  # one poor candidate would otherwise flatten all the others against the axis
         plt.yscale("log")

@@ -1,0 +1,50 @@
+"""``ledger export`` of a series signed on other data: the signed model's numbers beside its signature.
+
+The cycle is the invented one of ``tests/cli/test_cycle.py``.  The expected numbers are the ``signed``
+snapshot the ledger recorded at sign-off (read back with ``json``), and the ones that must not appear
+are this cycle's, from the new results file.
+"""
+from __future__ import annotations
+
+import csv
+import json
+
+from fitcore import ledger
+from pricefold.cli import main
+from tests.cli.test_cycle import fit, write_weeks
+from tests.fitcore.ledger_support import ANA, after
+
+
+def test_a_stale_row_carries_the_signed_model_not_this_cycles(tmp_path):
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    first = fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    # item 7 is signed without a snapshot, as a pricefold-ledger/1 accept was
+    bare = first["item 7"]
+    ledger.append(book, [ledger.Entry(series=bare["key"], action="accept", fingerprint=bare["fingerprint"],
+                                      results="r1", model=bare["chosen"], proposed=bare["chosen"],
+                                      flags=[f["code"] for f in bare["flags"]],
+                                      supersedes=after(ledger.Ledger(book), "item 7"))], ANA)
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    second = fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    out = tmp_path / "x.csv"
+    assert main(["ledger", "export", str(book), "--results", str(tmp_path / "r2.json"), "-o", str(out)]) == 0
+    rows = {r["product"]: r for r in csv.DictReader(out.open(newline=""))}
+    signed = {r["series"]["product"]: r for r in map(json.loads, book.read_text().splitlines())}
+    checked = 0
+    for product, row in rows.items():
+        if row["status"] != "stale" or product == "item 7":
+            continue
+        snapshot = signed[product]["signed"]
+        now = next(c for c in second[product]["candidates"] if c["name"] == row["model"])
+        assert json.loads(row["coef"]) == snapshot["coef"] != now["coef"]
+        assert float(row["plan_volume"]) == snapshot["plan"]["volume"] != second[product]["plan"]["volume"]
+        assert (float(row["plan_lo"]), float(row["plan_hi"])) == (snapshot["plan"]["lo"], snapshot["plan"]["hi"])
+        assert float(row["plan_price"]) == snapshot["plan"]["price"]
+        assert row["analyst"] == signed[product]["analyst"] and row["at"] == signed[product]["at"]
+        checked += 1
+    assert checked >= 5
+    bare_row = rows["item 7"]
+    assert bare_row["status"] == "stale" and bare_row["model"] == bare["chosen"]
+    assert [bare_row[c] for c in ("family", "coef", "plan_price", "plan_volume", "plan_lo", "plan_hi")] == [""] * 6

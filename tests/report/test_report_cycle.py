@@ -1,0 +1,39 @@
+"""The sign-off report after ``fit --ledger``: ``shifted`` in the flag table, the backtest in the exceptions.
+
+The cycle is the invented one of ``tests/cli/test_cycle.py`` (straight-line demand, one series whose
+demand drops by 40% in the new weeks).  The expected flags and sentences are read from the results file
+``fit --ledger`` wrote — the same sentences ``show`` and the triage screen print — not from the report.
+"""
+from __future__ import annotations
+
+import html
+import json
+import re
+
+from pricefold.cli import main
+from tests.cli.test_cycle import MOVER, fit, write_weeks
+
+
+def test_the_report_shows_shifted_and_each_stale_series_backtest(tmp_path):
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, drop_from=40, seed=9)
+    series = fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    shifted = {name: next(f["message"] for f in r["flags"] if f["code"] == "shifted")
+               for name, r in series.items() if any(f["code"] == "shifted" for f in r["flags"])}
+    assert MOVER in shifted
+    page = tmp_path / "report.html"
+    assert main(["report", str(tmp_path / "r2.json"), "--ledger", str(book), "-o", str(page)]) == 0
+    text = page.read_text()
+    row = re.search(r"<tr><td><code>shifted</code></td><td[^>]*>warn</td><td class=\"num\">(\d+)</td>", text)
+    assert row and int(row.group(1)) == len(shifted)
+    articles = {html.unescape(m.group(1)): m.group(0)
+                for m in re.finditer(r"<article class=\"exception\"[^>]*><h3>([^<]*)</h3>.*?</article>", text, re.S)}
+    assert html.escape(shifted[MOVER]) in articles[MOVER]
+    passed = [name for name in series if name not in shifted and name in articles]
+    assert passed  # stale (a stop flag) with a backtest that held: the numbers are still shown
+    for name in passed:
+        assert "Since sign-off:" in articles[name] and "its error is" in articles[name]
+    assert json.loads((tmp_path / "r2.json").read_text())["ledger"]["path"] == str(book)
