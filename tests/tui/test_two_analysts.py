@@ -124,3 +124,26 @@ def test_simultaneous_decisions_the_second_is_refused_under_the_lock(ledger_path
         bo.decide(bo_seen, "accept", note="fine")
     assert [r["action"] for r in records(ledger_path)] == ["hold"]
     assert bo.status[s] == "held"  # the refusal brought bo's screen the hold
+
+
+async def test_a_hold_typed_while_the_other_held_is_refused_naming_who_and_when(ledger_path):
+    """As a tmux trial did it: both hold the same series; bo's note dialog was open when ana's hold landed and
+    his screen had looked since.  The refusal names ana's hold and its time (the ledger's own sentence), nothing
+    is appended, and bo's cursor stays on the series."""
+    ana, bo = make_app(ledger_path), make_app(ledger_path, who=BO)
+    async with ana.run_test(size=(120, 40)) as pa, bo.run_test(size=(120, 40)) as pb:
+        await started(ana, pa)
+        session = await started(bo, pb)
+        s = put_cursor_on(bo, "lemons 500 g · East")
+        put_cursor_on(ana, "lemons 500 g · East")
+        await pa.pause()
+        await pb.pause()
+        await pb.press("h")  # bo's note dialog is open
+        await pa.press("h", "enter")
+        [held] = records(ledger_path)
+        await until(pb, lambda: session.status[s] == "held")  # bo's screen has looked again
+        await pb.press("enter")
+        await pb.pause()
+        assert records(ledger_path) == [held]
+        assert f"Not recorded: ana held at {held['at'][11:19]} UTC; look again" in screen_text(bo)
+        assert session.current == s
