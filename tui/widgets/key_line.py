@@ -38,20 +38,28 @@ class KeyLine(Static):
         self.screen.bindings_updated_signal.unsubscribe(self)
 
     def bindings_changed(self, screen) -> None:
-        text = self.keys_text()
+        text = self.keys_text(self.size.width or self.app.size.width)
         if text.plain != self._said:
             self._said = text.plain
             self.update(text, layout=False)  # one line, always: no layout pass
 
-    def keys_text(self) -> Text:
-        text = Text(no_wrap=True, overflow="crop")
+    def on_resize(self) -> None:
+        self.bindings_changed(self.screen)
+
+    def keys_text(self, width: int) -> Text:
+        """The keys two cells apart, or one apart when that is what makes them all fit ``width``."""
+        items: list[tuple[str, str, Style]] = []
         seen: set[str] = set()
         for node, binding, enabled, _ in self.screen.active_bindings.values():
             if not binding.show or binding.action in seen:
                 continue
             seen.add(binding.action)
             click = Style.from_meta({"@click": f"{'screen' if node is self.screen else 'app'}.{binding.action}"})
-            text.append(" ")
-            text.append(self.app.get_key_display(binding), (KEY if enabled else OFF) + click)
-            text.append(f" {binding.description} ", (Style() if enabled else OFF) + click)
+            items.append((self.app.get_key_display(binding), binding.description, click + (Style() if enabled else OFF)))
+        wide = sum(len(key) + len(description) + 3 for key, description, _ in items) <= width
+        text = Text(no_wrap=True, overflow="crop")
+        for key, description, style in items:
+            text.append(" " if wide or not text else "", style)
+            text.append(key, style + KEY)
+            text.append(f" {description} ", style)
         return text
