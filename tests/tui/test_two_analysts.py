@@ -15,6 +15,16 @@ def records(path):
     return [json.loads(line) for line in path.read_text().splitlines()] if path.exists() else []
 
 
+async def both_on(ana, pa, bo, pb, label: str) -> tuple[object, int]:
+    """Both screens started with the cursor on the series ``label``: bo's session and the series."""
+    await started(ana, pa)
+    session = await started(bo, pb)
+    s = put_cursor_on(bo, label)
+    put_cursor_on(ana, label)
+    await pa.pause()
+    return session, s
+
+
 def put_cursor_on(app, label: str) -> int:
     session = app.session
     position = next(i for i, s in enumerate(session.view) if session.label(int(s)) == label)
@@ -71,11 +81,7 @@ async def test_a_screen_opened_on_decisions_already_made_reports_no_news(ledger_
 async def test_while_the_series_waits_no_decision_key_acts_and_moving_lets_it_go(ledger_path):
     ana, bo = make_app(ledger_path), make_app(ledger_path, who=BO)
     async with ana.run_test(size=(80, 24)) as pa, bo.run_test(size=(80, 24)) as pb:
-        await started(ana, pa)
-        session = await started(bo, pb)
-        s = put_cursor_on(bo, "lemons 500 g · East")
-        put_cursor_on(ana, "lemons 500 g · East")
-        await pa.pause()
+        session, s = await both_on(ana, pa, bo, pb, "lemons 500 g · East")
         await pa.press("h", "enter")
         await until(pb, lambda: "left list: ana held" in screen_text(bo))
         assert session.waiting and session.current == s and session.status[s] == "held"
@@ -132,11 +138,7 @@ async def test_a_hold_typed_while_the_other_held_is_refused_naming_who_and_when(
     is appended, and bo's cursor stays on the series."""
     ana, bo = make_app(ledger_path), make_app(ledger_path, who=BO)
     async with ana.run_test(size=(120, 40)) as pa, bo.run_test(size=(120, 40)) as pb:
-        await started(ana, pa)
-        session = await started(bo, pb)
-        s = put_cursor_on(bo, "lemons 500 g · East")
-        put_cursor_on(ana, "lemons 500 g · East")
-        await pa.pause()
+        session, s = await both_on(ana, pa, bo, pb, "lemons 500 g · East")
         await pb.pause()
         await pb.press("h")  # bo's note dialog is open
         await pa.press("h", "enter")
