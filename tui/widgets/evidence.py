@@ -98,7 +98,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return (None,)
         records = session.history(s)
         news = session.news.get("digest") if session.news is not None else None
-        return (s, id(session.results), session.status[s], records[-1].get("digest") if records else None, news,
+        return (s, session.results, session.status[s], records[-1].get("digest") if records else None, news,
                 session.waiting, session.model_of(s))
 
     def redraw(self) -> None:
