@@ -2,7 +2,7 @@
 
 The words come first (they fit a small terminal), the charts after them.  Every number is of the
 model that now stands: the engine's proposal, or an analyst's override.  The title (which series,
-its status) is drawn as soon as the cursor lands; the rest once it rests, hidden until then.
+its status) is drawn as soon as the cursor lands; the rest once it rests, dimmed until then.
 """
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ from rich.console import Group
 from rich.table import Table
 from rich.text import Text
 from textual.app import ComposeResult
-from textual.containers import Vertical, VerticalScroll
+from textual.containers import VerticalScroll
 from textual.widgets import Static
 
 from fitcore.review.candidate_checks import candidate_checks
@@ -58,10 +58,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         self._drawn: tuple | None = None  # ``drawn_state`` of the last full redraw
 
     def compose(self) -> ComposeResult:
-        yield Static(id="ev-title", markup=False)
-        with Vertical(id="ev-body"):
-            for name in PARTS[1:]:
-                yield Static(id=f"ev-{name}", markup=False)
+        for name in PARTS:
+            yield Static(id=f"ev-{name}", markup=False)
 
     def show(self, series: int | None, now: bool = False) -> None:
         """Show ``series``: each new series from the top, its title at once, the rest once the cursor rests
@@ -73,23 +71,17 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if self._charts_timer is not None:
             self._charts_timer.stop()
         if now or not moved:
-            if not now and self._drawn == self.drawn_state(series) and not self._body.has_class("catching-up"):
+            if not now and self._drawn == self.drawn_state(series) and not self.has_class("catching-up"):
                 return  # a reload that changed nothing shown here (the ledger poll, a decision on another series)
             self.redraw()
             return
         # The title has a fixed height: updating it needs no layout pass (one costs ~10× a repaint here).
-        # The body, still the previous series', is hidden rather than dimmed: dimming restyles and redraws
-        # every chart on the first key after a rest (~20 ms at 160 columns), hiding draws nothing.
         self._part("title").update(self.title_text(series) if series is not None else "", layout=False)
-        self._body.set_class(True, "catching-up")
+        self.set_class(True, "catching-up")
         self._charts_timer = self.set_timer(CHART_DELAY, self.redraw)
 
     def on_resize(self) -> None:
         self.redraw()
-
-    @property
-    def _body(self) -> Vertical:
-        return self.query_one("#ev-body", Vertical)
 
     def drawn_state(self, s: int | None) -> tuple:
         """What the panel shows of series ``s`` depends on beyond the series itself."""
@@ -103,7 +95,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
 
     def redraw(self) -> None:
         self._drawn = self.drawn_state(self.series)
-        self._body.set_class(False, "catching-up")
+        self.set_class(False, "catching-up")
         self.redraw_text()
         self.redraw_charts()
 
