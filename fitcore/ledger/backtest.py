@@ -19,17 +19,20 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..compiled import compiled
 from ..data.keys import SeriesKeys
 from ..fit.basis import polynomial
 from ..fit.families import BY_NAME
 from ..fit.results import Results
-from ..review.intervals import rows_of
-from .snapshot import evaluate
+from .snapshot import evaluate, terms
 from .standing import Standing, standing_of
 
 # status of a series' backtest; None: no standing decision made on other data (nothing to test)
 PASSED, FAILED = "passed", "failed"
 NO_DATES, NO_NEW_ROWS, UNSIGNED, UNDATED = "no-dates", "no-new-rows", "unsigned", "undated"
+# signed with other controls than this fit holds fixed (added, dropped, other season terms): the curves
+# are not the same model, whatever the backtest says, so an analyst looks again
+CONTROLS_CHANGED = "controls-changed"
 
 
 @dataclass(frozen=True, eq=False)
@@ -113,7 +116,7 @@ def due(record: dict | None) -> str | None:
     if record.get("shifted"):
         return "shifted"
     return {PASSED: "backtest passed", NO_DATES: "no dates", UNDATED: "no dates", NO_NEW_ROWS: "no new rows",
-            UNSIGNED: "no signed model"}.get(status, status)
+            UNSIGNED: "no signed model", CONTROLS_CHANGED: "controls changed since signing"}.get(status, status)
 
 
 def on_other_data(standing: Standing, keys: SeriesKeys, fingerprints) -> tuple[np.ndarray, Standing]:
@@ -152,6 +155,9 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
             (out["new_rows"] >= thresholds.shift_min_rows) & (out["coverage"] < thresholds.shift_coverage)))
         out["status"][failed] = FAILED
         shifted = failed | (np.abs(out["volume_change"]) > thresholds.shift_volume)
+    if len(series):
+        now = "|".join(terms(results) or ())
+        out["status"][series[(mine.controls != now) & mine.signed]] = CONTROLS_CHANGED
     return Backtest(source=source, shifted=shifted, planned=np.isfinite(results.plan_price),
                     chosen=np.asarray(results.chosen), **out)
 
@@ -165,7 +171,7 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
         return
     series, st = series[keep], st.take(keep)
     last = st.last_date
-    out["last_date"][series] = [None if np.isnat(d) else str(d) for d in last]
+    out["last_date"][series] = np.where(np.isnat(last), None, np.datetime_as_string(last, unit="D").astype(object))
     dates = results.data.date
     out["status"][series] = NO_DATES if dates is None else np.where(np.isnat(last), UNDATED, NO_NEW_ROWS)
     price = np.where(np.isfinite(results.plan_price[series]), results.plan_price[series], results.mid[series])
@@ -216,10 +222,8 @@ class _SignedCurves:
 def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray, curve: _SignedCurves) -> None:
     """The signed curves on their series' rows dated after ``last``: count, error ratio, coverage."""
     data = results.data
-    rows = rows_of(data.offsets, series)
-    owner = np.repeat(np.arange(len(series)), data.counts[series])
-    new = data.date[rows].astype("datetime64[D]") > last[owner]
-    rows, owner = rows[new], owner[new]
+    rows, owner = _rows_after(data.offsets, series, data.date.view(np.int64), last.astype("datetime64[D]").view(np.int64),
+                              np.int64(np.timedelta64(1, "D") // np.timedelta64(1, np.datetime_data(data.date.dtype)[0])))
     count = np.bincount(owner, minlength=len(series))
     tested = count > 0
     out["new_rows"][series] = count
@@ -236,6 +240,32 @@ def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray
         out["error_ratio"][at] = (rmse / np.sqrt(curve.cv_mse))[tested]
         out["coverage"][at] = np.where(banded, inside / np.maximum(count, 1), np.nan)[tested]
         out["outside"][at] = np.where(banded, count - inside, -1)[tested]
+
+
+_NAT = np.iinfo(np.int64).min
+
+
+@compiled
+def _rows_after(offsets, series, dates, last, per_day):
+    """(rows, owner): the rows of each ``series[i]`` dated on a day after ``last[i]`` (days since 1970; NaT
+    dates and NaT ``last`` never), in row order, and the ``i`` each belongs to.  ``dates`` in units of
+    which ``per_day`` make a day (floored to days, as numpy casts them).  One pass, not seven numpy passes
+    over every row of the dataset."""
+    n = 0
+    for i in range(len(series)):
+        if last[i] != _NAT:
+            for r in range(offsets[series[i]], offsets[series[i] + 1]):
+                if dates[r] != _NAT and dates[r] // per_day > last[i]:
+                    n += 1
+    rows, owner = np.empty(n, np.int64), np.empty(n, np.int64)
+    n = 0
+    for i in range(len(series)):
+        if last[i] != _NAT:
+            for r in range(offsets[series[i]], offsets[series[i] + 1]):
+                if dates[r] != _NAT and dates[r] // per_day > last[i]:
+                    rows[n], owner[n] = r, i
+                    n += 1
+    return rows, owner
 
 
 def _proposal_at(results: Results, series: np.ndarray, price: np.ndarray):

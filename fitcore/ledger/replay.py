@@ -1,19 +1,16 @@
 """A series' status, derived by replaying the ledger (a pure function of its records)."""
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, field
 
+from .fastjson import canonical_text, text_object
 from .records import SCHEMA
 
 STATUS_OF = {"accept": "accepted", "override": "overridden", "hold": "held", "carry": "accepted"}
 
 
-_CANONICAL = json.JSONEncoder(sort_keys=True, ensure_ascii=False, separators=(",", ":"))
-
-
 def series_id(key: dict) -> str:
-    """A stable text identity for a series key (canonical JSON; one encoder made once, not per call).
+    """A stable text identity for a series key (canonical JSON, as ``json`` writes it).
 
     Keys of text values are remembered (a ledger names each series many times: replay, rules, lookups;
     encoding each time was a third of opening a 100,000-record ledger)."""
@@ -23,12 +20,13 @@ def series_id(key: dict) -> str:
         if known is not None:
             return known
     except (AttributeError, TypeError):  # not a mapping of text: encoded (or refused) as it always was
-        return _CANONICAL.encode(key)
-    known = _CANONICAL.encode(key)
-    if all(type(v) is str for _, v in probe):
-        if len(_IDS) >= _IDS_LIMIT:
-            _IDS.clear()
-        _IDS[probe] = known
+        return canonical_text(key)
+    if not all(type(v) is str and type(k) is str for k, v in probe):
+        return canonical_text(key)
+    known = text_object(key)
+    if len(_IDS) >= _IDS_LIMIT:
+        _IDS.clear()
+    _IDS[probe] = known
     return known
 
 

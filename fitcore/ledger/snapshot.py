@@ -26,14 +26,13 @@ INCOMPLETE = ("the interval parts (cov_unscaled, sigma2, df) were not known when
               "(results read without their rows or written before they were stored)")
 
 
-def _num(value):
-    value = float(value)
-    return value if math.isfinite(value) else None
-
-
 def _nums(values) -> list:
-    values = values if isinstance(values, list) else np.asarray(values, dtype=float).tolist()
-    return [v if math.isfinite(v) else None for v in values]
+    """``values`` (n,) as a list of floats, None where not finite."""
+    values = np.asarray(values, dtype=float)
+    out = values.tolist()
+    for i in np.flatnonzero(~np.isfinite(values)).tolist():
+        out[i] = None
+    return out
 
 
 def _rows(values: np.ndarray, finite: np.ndarray) -> list:
@@ -64,7 +63,7 @@ def signed_curve(snapshot: dict, price) -> np.ndarray:
 
 
 def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, cov, sigma2, df, n, lo, hi,
-              last_date, plan_price, cv_mse) -> list[dict]:
+              last_date, plan_price, cv_mse, controls: list[str] | None = None) -> list[dict]:
     """The ``signed`` objects of n series for candidate ``name`` of ``family``: arrays (n,) and
     ``coef`` (n, k), ``cov`` (n, k, k); ``last_date`` a list of "YYYY-MM-DD" or None."""
     fam = BY_NAME[family]
@@ -83,24 +82,25 @@ def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, c
                           np.where(np.isfinite(df[at]), df[at], 1).astype(np.int64), plan_price[at], level)
         for column, value in zip((volume, p_lo, p_hi, elasticity), values):
             column[at] = value
-    smeared = fam.smeared
+    whole_list = complete.tolist()
+    smears = _nums(smear) if fam.smeared else [None] * len(mid)
+    planned_list = planned.tolist()
     out = []
     columns = zip(_rows(plain, np.isfinite(plain).all(axis=1)), _rows(coef, np.isfinite(coef).all(axis=1)),
-                  np.asarray(mid, float).tolist(), np.asarray(half, float).tolist(),
-                  np.asarray(smear, float).tolist(), _rows(cov, complete), sigma2.tolist(), df.tolist(),
-                  np.asarray(n).tolist(), np.asarray(lo, float).tolist(), np.asarray(hi, float).tolist(), last_date,
-                  plan_price.tolist(), volume.tolist(), p_lo.tolist(), p_hi.tolist(), elasticity.tolist(),
-                  np.asarray(cv_mse, float).tolist(), complete.tolist())
-    for (pc, bc, m, h, sm, cv, s2, d, count, low, high, last, pp, vol, plo, phi, el, mse, whole) in columns:
+                  _nums(mid), _nums(half), smears, _rows(cov, complete),
+                  _nums(np.where(complete, sigma2, np.nan)), np.where(complete, df, 0).astype(np.int64).tolist(),
+                  np.asarray(n).astype(np.int64).tolist(), _nums(lo), _nums(hi), last_date,
+                  plan_price.tolist(), _nums(volume), _nums(p_lo), _nums(p_hi), _nums(elasticity),
+                  _nums(cv_mse), whole_list, planned_list)
+    for (pc, bc, m, h, sm, cv, s2, d, count, low, high, last, pp, vol, plo, phi, el, mse, whole, has_plan) in columns:
         snapshot = {
-            "candidate": name, "family": family, "coef": pc, "smearing": _num(sm) if smeared else None,
-            "basis": {"x": fam.regressor, "mid": _num(m), "half": _num(h), "coef": bc},
+            "candidate": name, "family": family, "coef": pc, "smearing": sm,
+            "basis": {"x": fam.regressor, "mid": m, "half": h, "coef": bc},
             "cov_unscaled": cv if whole else None,
-            "sigma2": _num(s2) if whole else None, "df": int(d) if whole else None, "level": level,
-            "n": int(count), "price_range": [_num(low), _num(high)], "last_date": last,
-            "plan": None if not math.isfinite(pp) else {"price": pp, "volume": _num(vol), "lo": _num(plo),
-                                                       "hi": _num(phi), "elasticity": _num(el)},
-            "cv_mse": _num(mse), "controls": None}
+            "sigma2": s2, "df": d if whole else None, "level": level,
+            "n": count, "price_range": [low, high], "last_date": last,
+            "plan": {"price": pp, "volume": vol, "lo": plo, "hi": phi, "elasticity": el} if has_plan else None,
+            "cv_mse": mse, "controls": controls}
         if not whole:
             snapshot["incomplete"] = INCOMPLETE
         out.append(snapshot)
@@ -136,10 +136,23 @@ def from_results(results: Results, series, c: int, cov: np.ndarray | None = None
                      sigma2=cell(results.sigma2), df=cell(results.df), n=results.data.counts[series],
                      lo=results.price_lo[series], hi=results.price_hi[series],
                      last_date=date_texts(None if dates is None else dates[series], len(series)),
-                     plan_price=results.plan_price[series], cv_mse=cell(results.cv_mse))
+                     plan_price=results.plan_price[series], cv_mse=cell(results.cv_mse),
+                     controls=terms(results))
 
 
-def from_records(pairs: list[tuple[dict, str]], level: float) -> list[dict]:
+def terms(results: Results) -> list[str] | None:
+    """The control terms a fit held fixed (columns, then season terms), None without: a signed model
+    records them, so a later fit with other controls is not taken for the same model."""
+    ctl = getattr(results, "controls", None)
+    return list(ctl.names) if ctl is not None and len(ctl.names) else None
+
+
+def header_terms(settings: dict) -> list[str] | None:
+    """``terms`` from a results header's settings."""
+    return list((settings.get("controls") or {}).get("terms") or []) or None
+
+
+def from_records(pairs: list[tuple[dict, str]], level: float, controls: list[str] | None = None) -> list[dict]:
     """Snapshots of candidate ``name`` of each results ``record`` (the JSON layout, as ``read_results``
     gives it), in order; each candidate's ``basis``, ``cov_unscaled``, ``sigma2`` and ``df`` as the
     results hold them (missing: an incomplete snapshot)."""
@@ -165,7 +178,7 @@ def from_records(pairs: list[tuple[dict, str]], level: float) -> list[dict]:
             hi=np.array([r["price_range"][1] for r in records], dtype=float),
             last_date=[r.get("last_date") for r in records],
             plan_price=np.array([(r.get("plan") or {}).get("price") for r in records], dtype=float),
-            cv_mse=np.array([c["cv_mse"] for c in cands], dtype=float))
+            cv_mse=np.array([c["cv_mse"] for c in cands], dtype=float), controls=controls)
         for i, snapshot in zip(members, made):
             out[i] = snapshot
     return out

@@ -22,7 +22,8 @@ class Standing:
     the series' latest record), ``analyst``, ``signed_at`` (date), ``candidate``, ``family``;
     ``signed`` (bool: a snapshot was recorded); its curve: ``size``, ``coef`` (n, WIDTH) in its basis,
     ``mid``, ``half``, ``smear``, ``cov`` (n, WIDTH, WIDTH), ``sigma2``, ``df``, ``level``, ``cv_mse``
-    (NaN where not recorded), ``last_date`` (datetime64[D], NaT where none)."""
+    (NaN where not recorded), ``last_date`` (datetime64[D], NaT where none); ``controls`` (text: the
+    control terms it was fitted with, joined by "|", "" for none; None without a snapshot)."""
 
     series: list
     fingerprint: np.ndarray
@@ -45,6 +46,7 @@ class Standing:
     level: np.ndarray
     cv_mse: np.ndarray
     last_date: np.ndarray
+    controls: np.ndarray
 
     def __len__(self) -> int:
         return len(self.series)
@@ -97,7 +99,8 @@ def _standing_of(histories: dict) -> Standing:
         family=text([s["family"] if ok else None for s, ok in zip(snaps, has)]), signed=np.array(has, dtype=bool),
         size=size, coef=coef, mid=column(0), half=column(1), smear=column(2), cov=cov, sigma2=column(3),
         df=column(4), level=column(5), cv_mse=column(6),
-        last_date=_dates(at, [s.get("last_date") for s in signed], n))
+        last_date=_dates(at, [s.get("last_date") for s in signed], n),
+        controls=text(["|".join(s.get("controls") or ()) if ok else None for s, ok in zip(snaps, has)]))
 
 
 def _scatter(at: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:

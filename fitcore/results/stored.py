@@ -15,7 +15,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..arrays import integers, numbers
+from ..arrays import integers, numbers, objects
 from ..data.dataset import Dataset
 from ..errors import DataError
 from ..fit import reasons
@@ -296,7 +296,7 @@ def _per_series(column, n_c: int) -> np.ndarray:
     import pyarrow as pa
     column = column.combine_chunks().take(integers(np.arange(0, len(column), max(n_c, 1))))
     if pa.types.is_string(column.type) or pa.types.is_dictionary(column.type):
-        return np.array(column.to_pylist() + [None], dtype=object)[:-1]
+        return objects(column)
     values = numbers(column)
     return values.astype(bool) if pa.types.is_boolean(column.type) else values.astype(float, copy=False)
 

@@ -170,7 +170,9 @@ def _shifted(diag, s):
 WHY_UNTESTED = {"no-dates": "the data have no date column, so no backtest is possible",
                 "no-new-rows": "no rows are dated after the signed data's last date, so there is nothing to backtest",
                 "unsigned": "the decision was recorded without its model, so no backtest is possible",
-                "undated": "the signed data had no dates, so no backtest is possible"}
+                "undated": "the signed data had no dates, so no backtest is possible",
+                "controls-changed": "it was signed with other controls (or season terms) than this fit holds "
+                                    "fixed, so it is not the same model and is not carried: look again"}
 
 
 def shift_sentence(bt: dict, proposal: str | None) -> str:

@@ -1,6 +1,6 @@
 """A planning cycle at scale: what ``fit --ledger`` adds to the fit, and how long ``ledger carry`` takes.
 
-    .venv/bin/python tests/bench/bench_cycle.py [--series 100000] [--rows 70] [--repeat 2]
+    .venv/bin/python tests/bench/bench_cycle.py [--series 100000] [--rows 70] [--repeat 2] [--keep FOLDER]
 
 Invented weekly series (seeded; ``invented.py``): cycle 1 has ``--rows`` weeks a series, cycle 2 one
 week more.  Cycle 1 is fitted and every series with a chosen curve accepted with its signed snapshot
@@ -84,15 +84,22 @@ def main() -> None:
     parser.add_argument("--series", type=int, default=100_000)
     parser.add_argument("--rows", type=int, default=70)
     parser.add_argument("--repeat", type=int, default=2)
+    parser.add_argument("--keep", type=Path, default=None, metavar="FOLDER",
+                        help="make the data and the signed ledger in FOLDER once and reuse them in later runs")
     args = parser.parse_args()
     with tempfile.TemporaryDirectory() as name:
-        folder = Path(name)
+        folder = args.keep or Path(name)
+        folder.mkdir(parents=True, exist_ok=True)
         started = time.perf_counter()
-        first, second = write_data(folder, args.series, args.rows)
-        common = ["--date", "week", "--plan", str(folder / "plan.csv"), "--quiet"]
-        run(["fit", str(first), "-o", str(folder / "r1.parquet"), *common])
         ledger_path = folder / "ledger.jsonl"
-        signed = sign_everything(folder / "r1.parquet", ledger_path)
+        first, second = folder / "cycle1.csv", folder / "cycle2.csv"
+        common = ["--date", "week", "--plan", str(folder / "plan.csv"), "--quiet"]
+        if args.keep is None or not ledger_path.exists():
+            first, second = write_data(folder, args.series, args.rows)
+            run(["fit", str(first), "-o", str(folder / "r1.parquet"), *common])
+            sign_everything(folder / "r1.parquet", ledger_path)
+        with ledger_path.open("rb") as lines:
+            signed = sum(1 for _ in lines)
         print(f"{args.series:,} series × {args.rows} weeks (+1 in cycle 2); ledger of {signed:,} signed records, "
               f"{ledger_path.stat().st_size / 2**20:.0f} MiB; set up in {time.perf_counter() - started:.0f} s")
         plain, with_ledger, carries = [], [], []

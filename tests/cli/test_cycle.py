@@ -247,3 +247,43 @@ def test_an_override_is_carried_while_its_shape_stays_within_one_se(tmp_path, ki
     assert carried["action"] == "carry" and carried["model"] == "poly2" and carried["proposed"] == "poly1"
     assert carried["carries"] == history.records[0]["digest"] and carried["signed"]["candidate"] == "poly2"
     assert history.status(now["fingerprint"]) == "accepted"
+
+
+def with_promo(path) -> None:
+    """Add a 0/1 ``promo`` column (seeded; no effect on volume: only the settings differ)."""
+    import pandas as pd
+    frame = pd.read_csv(path)
+    frame["promo"] = np.random.default_rng(3).integers(0, 2, len(frame))
+    frame.to_csv(path, index=False)
+
+
+def test_a_model_signed_under_other_controls_is_not_carried(tmp_path, capsys):
+    # The same curve family fitted with a control held fixed is another model: a cycle that adds (or
+    # drops) a control must send its signed series back to an analyst, whatever the backtest says.
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    with_promo(tmp_path / "c1.csv"), with_promo(tmp_path / "c2.csv")
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    signed = histories(book)
+    assert all(h.current["signed"]["controls"] is None for h in signed.values())
+    args = ["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+            "--no-loglog", "--control", "promo", "--quiet", "--ledger", str(book)]
+    assert main(args + ["-o", str(tmp_path / "r2.json")]) == 0
+    second = {r["key"]["product"]: r for r in json.loads((tmp_path / "r2.json").read_text())["series"]}
+    assert {second[p]["backtest"]["status"] for p in signed} == {"controls-changed"}
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(book)]) == 0
+    assert "carried 0 signed series" in capsys.readouterr().err
+
+    # Signed with promo held fixed, the next fit with promo again is the same model: tested and carried.
+    book2 = tmp_path / "ledger2.jsonl"
+    assert main(args[:-1] + [str(book2), "-o", str(tmp_path / "p1.json")]) == 0  # no ledger yet: first cycle
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "p1.json"), "--ledger", str(book2), "-q"]) == 0
+    assert all(h.current["signed"]["controls"] == ["promo"] for h in histories(book2).values())
+    write_weeks(tmp_path / "c3.csv", 48, seed=9)
+    with_promo(tmp_path / "c3.csv")
+    assert main(args[:1] + [str(tmp_path / "c3.csv")] + args[2:-1] + [str(book2), "-o", str(tmp_path / "p2.json")]) == 0
+    third = {r["key"]["product"]: r for r in json.loads((tmp_path / "p2.json").read_text())["series"]}
+    assert "controls-changed" not in {third[p]["backtest"]["status"] for p in histories(book2)}
