@@ -152,7 +152,7 @@ def run_triage(args) -> int:
 
     from fitcore.data.config import load_config
     from fitcore.outputs import check_not_input
-    from tui.factory import Source, default_ledger, is_stored, source_from_results
+    from fitcore.results.source import Source, default_ledger, is_stored, source_from_results
 
     from .options import resolve, settings_file_keys
     ledger_path = args.ledger or default_ledger(args.source)
@@ -160,10 +160,11 @@ def run_triage(args) -> int:
     if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen
         source = source_from_results(args.source, check_data=False)
         check_not_input(ledger_path, [("the results", args.source), *_source_inputs(source)])
-        source.units = units
+        source.units, source.sep = units, _separator(args)
         return open_triage(source, ledger_path, args.analyst, stored=args.source)
     if is_results(args.source):
         source = source_from_results(args.source)
+        source.sep = _separator(args)
         inputs = [("the results", args.source), *_source_inputs(source)]
     else:
         run = resolve(args)
@@ -171,11 +172,18 @@ def run_triage(args) -> int:
             from fitcore.errors import DataError
             raise DataError("file not found", path=str(args.source))
         source = Source(data=args.source, columns=run.columns, settings=replace(run.settings, extra={}),
-                        plan_file=run.plan_file, plan_price=run.plan_price, thresholds=run.thresholds)
+                        plan_file=run.plan_file, plan_price=run.plan_price, thresholds=run.thresholds, sep=run.sep)
         inputs = [*_source_inputs(source), *run.inputs]
     check_not_input(ledger_path, inputs)
     source.units = units
     return open_triage(source, ledger_path, args.analyst)
+
+
+def _separator(args) -> str | None:
+    """``--sep`` for the data a results file names (read by the option's own reader, as ``fit`` reads it)."""
+    from fitcore.fit.settings import OPTIONS
+    option = next(o for o in OPTIONS if o.name == "sep")
+    return option.value(args.sep) if getattr(args, "sep", None) is not None else None
 
 
 def _source_inputs(source) -> list:
@@ -193,7 +201,8 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     after ``prepare()`` when given: the demo's compiling in another process)."""
     from fitcore.results.read import read_header
     from tui.app import TriageApp
-    from tui.factory import open_session, open_stored_session, refit_stored
+    from fitcore.results.source import refit_stored
+    from tui.factory import open_session, open_stored_session
 
     from .ledger_cli import identity, ledger_key
     who, key = identity(analyst), ledger_key()

@@ -56,7 +56,7 @@ def run_demo(args, open_triage) -> int:
         return open_triage(sample, folder / "ledger.jsonl", args.analyst, stored=results_path,
                            prepare=compile_elsewhere)
     from fitcore.results.write import write_results
-    from tui.factory import fit_source, source_from_results
+    from fitcore.results.source import fit_source, source_from_results
     print("fitting the invented sample …\n(the first run after an install also compiles the engine: ~10 s, once)",
           file=sys.stderr)
     results, diagnosis = fit_source(sample)

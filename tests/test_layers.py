@@ -17,3 +17,20 @@ def test_the_fit_command_loads_no_ui_library():
             "print(sorted(m for m in sys.modules if m.split('.')[0] in ('textual', 'rich', 'tui', 'plotext')))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"
+
+
+def test_the_report_loads_no_ui_library(tmp_path):
+    """A report on the bundled sample, in a fresh interpreter: the triage screen's libraries stay out."""
+    from pathlib import Path
+    sample = Path(__file__).resolve().parents[1] / "sample"
+    results = tmp_path / "results.parquet"
+    code = ("import sys; from pricefold import cli; "
+            f"assert cli.main(['fit', {str(sample / 'wholesale.csv')!r}, '--segment', 'region', '--date', 'week', "
+            f"'--plan', {str(sample / 'plan.csv')!r}, '-o', {str(results)!r}, '--quiet']) == 0; "
+            f"assert cli.main(['report', {str(results)!r}, '-o', {str(tmp_path / 'report.html')!r}]) == 0; "
+            "print(sorted({m.split('.')[0] for m in sys.modules if m.split('.')[0] in "
+            "('textual', 'rich', 'tui', 'plotext')}))")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=tmp_path)
+    assert done.returncode == 0, done.stderr[-2000:]
+    assert done.stdout.strip().splitlines()[-1] == "[]"
+    assert (tmp_path / "report.html").stat().st_size > 0

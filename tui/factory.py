@@ -1,81 +1,28 @@
 """Building a triage session from files: a data file, or a results file and the data it names.
 
-Used by the command line and by the tests alike, so both drive the same app.
+Used by the command line and by the tests alike, so both drive the same app.  Reading what a
+results file was fitted from, and fitting it again, is ``fitcore.results.source`` (the report
+needs it without the screen); its names are offered here too.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
-from fitcore.data.columns import Columns, file_sha256, is_parquet_name
+from fitcore.data.columns import Columns
 from fitcore.errors import DataError
-from fitcore.fit.settings import FitSettings, provenance, settings_from_dict
+from fitcore.fit.settings import FitSettings
 from fitcore.ledger import Identity, results_digest
-from fitcore.results.read import read_header, read_results
+from fitcore.results.read import read_header
+from fitcore.results.source import Source, default_ledger, fit_source, is_stored, refit_stored, source_from_results
 from fitcore.results.stored import stored_results
-from fitcore.review.thresholds import Thresholds
 
 from .session import TriageSession
 
+__all__ = ["Source", "default_ledger", "fit_source", "is_stored", "open_session", "open_stored_session",
+           "refit_stored", "sample_source", "source_from_results"]
+
 SAMPLE = Path(__file__).resolve().parents[1] / "sample"
-
-
-@dataclass
-class Source:
-    """What to fit: the data, its columns, the fit settings, the plan and the thresholds."""
-
-    data: Path
-    columns: Columns = Columns()
-    settings: FitSettings = FitSettings()
-    plan_file: Path | None = None
-    plan_price: float | None = None
-    thresholds: Thresholds = Thresholds()
-    warnings: list[str] = field(default_factory=list)
-    expected_sha256: str | None = None  # the data's digest when the results were written, checked before a refit
-    units: dict = field(default_factory=dict)  # labels from the settings file's [units] table: price, volume
-
-
-def source_from_results(path: Path, check_data: bool = True) -> Source:
-    """The source a results file was fitted from (its settings name the data, columns and plan).
-
-    ``check_data``: compare the data file with the digest the results recorded now (a warning when it
-    changed); otherwise leave that to ``refit_stored``.
-    """
-    head = read_header(path) if is_stored(path) else read_results(path)[0]
-    settings = settings_from_dict(head["settings"])
-    extra = settings.extra
-    if not extra.get("columns"):
-        raise DataError("this results file does not say which columns it was fitted from; "
-                        "run 'pricefold triage' on the data file instead", path=str(path))
-    data = Path(head["input"]["path"])
-    if not data.exists():
-        raise DataError(f"the data it was fitted from is not at {data}", path=str(path))
-    plan = extra.get("plan") or {}
-    source = Source(data=data, columns=Columns.from_dict(extra["columns"]),
-                    settings=replace(settings, extra={}),
-                    plan_file=Path(plan["file"]) if plan.get("file") else None, plan_price=plan.get("price"),
-                    thresholds=Thresholds(**extra.get("thresholds", {})))
-    if not check_data:
-        source.expected_sha256 = head["input"]["sha256"]
-    elif file_sha256(data) != head["input"]["sha256"]:
-        source.warnings.append(f"{data} changed since {path.name} was written: showing a fresh fit of the data "
-                               "as it is now (decisions made on the old data show as stale)")
-    return source
-
-
-def fit_source(source: Source, progress: Callable[[int, int], None] | None = None):
-    """``(results, diagnosis)`` of the source, its settings recording how to fit it again."""
-    from fitcore import fit_batch
-    from fitcore.data.loader import load
-    from fitcore.data.plan import plan_keywords
-    from fitcore.review.flags import diagnose
-    data = load(source.data, source.columns)
-    plan = plan_keywords(data, source.plan_file, source.plan_price, season=source.settings.season)
-    extra = provenance(source.columns.as_dict(), str(source.plan_file) if source.plan_file else None,
-                       source.plan_price)
-    results = fit_batch(data, replace(source.settings, extra=extra), **plan, progress=progress)
-    return results, diagnose(results, source.thresholds)
 
 
 def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | None = None,
@@ -88,20 +35,6 @@ def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | 
     return session
 
 
-def is_stored(path: Path) -> bool:
-    """A Parquet results file that triage can open without refitting (it has the window coefficients)."""
-    import pyarrow.parquet as pq
-
-    from fitcore.results.read import result_parts
-    try:
-        parts = result_parts(path)
-        if parts is None and not is_parquet_name(path):
-            return False
-        return "window_coef" in pq.read_schema((parts or [path])[0]).names
-    except Exception:  # not readable: the refit path reports it
-        return False
-
-
 def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes | None = None,
                         progress: Callable[[int, int], None] | None = None, units: dict | None = None) -> TriageSession:
     """A session on the results as the file holds them: no refit, no observations yet."""
@@ -110,21 +43,9 @@ def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes
     return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units)
 
 
-def refit_stored(source: Source, progress: Callable[[int, int], None] | None = None):
-    """The fit that brings observations to a stored session: only if the data are what the results were fitted on."""
-    if source.expected_sha256 and file_sha256(source.data) != source.expected_sha256:
-        raise DataError("changed since the results were written: showing the results without observations; "
-                        "run 'pricefold triage' on the data file for a fresh fit", path=str(source.data))
-    return fit_source(source, progress)
-
-
 def sample_source(controls: tuple[str, ...] = (), season: int = 0) -> Source:
     """The bundled sample; ``controls`` (its ``promo`` column) and ``season`` pairs held fixed if asked."""
     if not (SAMPLE / "wholesale.csv").exists():
         raise DataError("the bundled sample is not here; run pricefold from a source checkout", path=str(SAMPLE))
     return Source(data=SAMPLE / "wholesale.csv", columns=Columns(segments=("region",), date="week", controls=controls),
                   settings=FitSettings(season=season), plan_file=SAMPLE / "plan.csv")
-
-
-def default_ledger(results_or_data: Path) -> Path:
-    return results_or_data.with_name(results_or_data.name.split(".")[0] + ".ledger.jsonl")

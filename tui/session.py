@@ -292,6 +292,9 @@ class TriageSession(ListState):
         s = self.index_of(shown)
         if s < 0:
             raise Refused("this series is no longer in the results")
+        records = self.history(s)
+        if records and records[-1].get("digest") != shown.latest:  # what the ledger would say, said first
+            raise ledger.LedgerConflict(f"{describe(records[-1])}; look again", records[-1])
         if self.waiting and s == self.current and action != "revoke":
             raise Refused("this series has left the list you are working through; move on first")
         if action == "accept":

@@ -160,8 +160,9 @@ def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
         cand["name"] = cand.pop("candidate")
         if row["smearing"] is not None:  # families with a smearing factor
             cand["smearing"] = row["smearing"]
-        if row["plan_price"] is not None and cand["available"]:
-            cand["plan_volume"] = row["plan_volume"]
+        if row["plan_price"] is not None and cand["available"]:  # as the JSON layout has them
+            for name in ("plan_volume", "plan_lo", "plan_hi", "plan_elasticity"):
+                cand[name] = row[name]
         record_fields(row, cand, current)  # with controls: their fields, as the JSON layout has them
         cand.update(candidate_cycle_fields(row))
         current["candidates"].append(cand)

@@ -107,8 +107,10 @@ def series_records(results: Results, diagnosis=None, backtest=None) -> list[dict
                      "coef": [_num(v) for v in coef[s, c, :size]] if ok else None}
             if smeared[c]:
                 entry["smearing"] = _num(results.smear[s, c]) if ok else None
-            if ok and math.isfinite(results.plan_price[s]):
+            if ok and math.isfinite(results.plan_price[s]):  # every candidate's numbers at the plan, as Parquet has
                 entry["plan_volume"] = _num(results.plan_volume[s, c])
+                entry["plan_lo"], entry["plan_hi"] = _num(results.plan_lo[s, c]), _num(results.plan_hi[s, c])
+                entry["plan_elasticity"] = _num(results.plan_elasticity[s, c])
             if results.controls is not None:
                 entry["controls"] = control_fields.candidate_controls(results.controls, s, c, ok)
             entry.update(cand_extras(s, c, ok))  # the next cycle's fields (results/cycle.py)

@@ -98,7 +98,7 @@ def open_book(path: Path) -> Book:
     from fitcore.data.columns import file_sha256
     from fitcore.results.read import read_header, read_results
     from fitcore.results.stored import stored_results
-    from tui.factory import fit_source, is_stored, source_from_results
+    from fitcore.results.source import fit_source, is_stored, source_from_results
 
     stored = is_stored(path)
     header = {k: v for k, v in read_header(path).items() if k != "key_columns"} if stored else read_results(path)[0]
@@ -231,7 +231,7 @@ def run(args) -> int:
     except ImportError:
         raise SettingsError(INSTALL_HINT) from None
     from fitcore.ledger.signoff import STATUSES, gather
-    from tui.factory import default_ledger
+    from fitcore.results.source import default_ledger
 
     __version__ = version()
     from ..ledger_cli import ledger_key

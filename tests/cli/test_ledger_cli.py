@@ -290,4 +290,6 @@ def test_export_gives_an_overriding_models_own_plan_volume(tmp_path, results, ca
     assert row["status"] == "overridden" and row["model"] == other["name"]
     assert float(row["plan_volume"]) == pytest.approx(other["plan_volume"])
     assert other["plan_volume"] != pytest.approx(series["plan"]["volume"])  # not the proposal's
-    assert row["plan_lo"] == row["plan_hi"] == ""  # this results file holds no interval for other candidates
+    for end in ("lo", "hi"):  # its own interval, as the results hold it for every available candidate
+        assert float(row[f"plan_{end}"]) == pytest.approx(other[f"plan_{end}"])
+        assert other[f"plan_{end}"] != pytest.approx(series["plan"][end])

@@ -21,11 +21,11 @@ SAMPLE = Path(__file__).parents[2] / "sample"
 LEMONS = {"product": "lemons 500 g", "region": "East"}
 
 
-@pytest.fixture
-def fitted(tmp_path):
+@pytest.fixture(params=["json"])
+def fitted(tmp_path, request):
     data = tmp_path / "wholesale.csv"
     shutil.copy(SAMPLE / "wholesale.csv", data)
-    out = tmp_path / "results.json"
+    out = tmp_path / f"results.{request.param}"
     assert main(["fit", str(data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
                  "-o", str(out), "--quiet"]) == 0
     return out
@@ -111,10 +111,7 @@ async def test_after_an_override_the_list_and_the_evidence_show_the_model_that_s
         assert "Overridden to " + runner in text
 
 
-@pytest.mark.xfail(reason="the export takes an override's interval from its candidate's plan_lo/plan_hi, which no "
-                          "results record carries yet: the JSON writer (fitcore/results/write.py) writes them for the "
-                          "proposal only, and the Parquet reader (fitcore/results/read.py) drops the per-candidate "
-                          "columns", strict=False)
+@pytest.mark.parametrize("fitted", ["json", "parquet"], indirect=True)
 def test_export_writes_the_overriding_models_interval(fitted, tmp_path):
     from fitcore import ledger
     from tui.factory import open_session as open_

@@ -15,6 +15,16 @@ def records(path):
     return [json.loads(line) for line in path.read_text().splitlines()] if path.exists() else []
 
 
+async def both_on(ana, pa, bo, pb, label: str) -> tuple[object, int]:
+    """Both screens started with the cursor on the series ``label``: bo's session and the series."""
+    await started(ana, pa)
+    session = await started(bo, pb)
+    s = put_cursor_on(bo, label)
+    put_cursor_on(ana, label)
+    await pa.pause()
+    return session, s
+
+
 def put_cursor_on(app, label: str) -> int:
     session = app.session
     position = next(i for i, s in enumerate(session.view) if session.label(int(s)) == label)
@@ -71,11 +81,7 @@ async def test_a_screen_opened_on_decisions_already_made_reports_no_news(ledger_
 async def test_while_the_series_waits_no_decision_key_acts_and_moving_lets_it_go(ledger_path):
     ana, bo = make_app(ledger_path), make_app(ledger_path, who=BO)
     async with ana.run_test(size=(80, 24)) as pa, bo.run_test(size=(80, 24)) as pb:
-        await started(ana, pa)
-        session = await started(bo, pb)
-        s = put_cursor_on(bo, "lemons 500 g · East")
-        put_cursor_on(ana, "lemons 500 g · East")
-        await pa.pause()
+        session, s = await both_on(ana, pa, bo, pb, "lemons 500 g · East")
         await pa.press("h", "enter")
         await until(pb, lambda: "left list: ana held" in screen_text(bo))
         assert session.waiting and session.current == s and session.status[s] == "held"
@@ -124,3 +130,22 @@ def test_simultaneous_decisions_the_second_is_refused_under_the_lock(ledger_path
         bo.decide(bo_seen, "accept", note="fine")
     assert [r["action"] for r in records(ledger_path)] == ["hold"]
     assert bo.status[s] == "held"  # the refusal brought bo's screen the hold
+
+
+async def test_a_hold_typed_while_the_other_held_is_refused_naming_who_and_when(ledger_path):
+    """As a tmux trial did it: both hold the same series; bo's note dialog was open when ana's hold landed and
+    his screen had looked since.  The refusal names ana's hold and its time (the ledger's own sentence), nothing
+    is appended, and bo's cursor stays on the series."""
+    ana, bo = make_app(ledger_path), make_app(ledger_path, who=BO)
+    async with ana.run_test(size=(120, 40)) as pa, bo.run_test(size=(120, 40)) as pb:
+        session, s = await both_on(ana, pa, bo, pb, "lemons 500 g · East")
+        await pb.pause()
+        await pb.press("h")  # bo's note dialog is open
+        await pa.press("h", "enter")
+        [held] = records(ledger_path)
+        await until(pb, lambda: session.status[s] == "held")  # bo's screen has looked again
+        await pb.press("enter")
+        await pb.pause()
+        assert records(ledger_path) == [held]
+        assert f"Not recorded: ana held at {held['at'][11:19]} UTC; look again" in screen_text(bo)
+        assert session.current == s

@@ -12,7 +12,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal
 from textual.screen import Screen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from fitcore.errors import PricefoldError
 from fitcore.review.flags import CODES
@@ -30,6 +30,7 @@ from ..session import (
 )
 from ..text import clean
 from ..widgets.evidence import EvidencePanel
+from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
 from ..widgets.status_line import status_text
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
@@ -67,13 +68,14 @@ class TriageScreen(Screen):
         self._actions_shown: tuple | None = None
         self._last_search = ""
         self._told: str | None = None  # the last record by someone else this screen has told about
+        self._status_lines: int | None = None
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
         with Horizontal(id="panes"):
             yield SeriesList(self.session, id="series-list")
             yield EvidencePanel(self.session, id="evidence")
-        yield Footer(compact=True)
+        yield KeyLine(id="key-line")
 
     def on_mount(self) -> None:
         self.set_class(self.app.size.width < NARROW, "narrow")
@@ -114,8 +116,12 @@ class TriageScreen(Screen):
             self.refresh_bindings()
 
     def update_status(self) -> None:
+        """The header; a layout pass only when its number of lines changes (one costs more than a repaint)."""
         line = self.query_one("#status-line", Static)
-        line.update(status_text(self.session, max(self.size.width - 2, 20)))
+        text = status_text(self.session, max(self.size.width - 2, 20))
+        lines = text.plain.count("\n")
+        line.update(text, layout=lines != self._status_lines)
+        self._status_lines = lines
 
     def refresh_all(self) -> None:
         self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow

@@ -55,6 +55,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         self.series: int | None = None
         self.adjusted = False  # with controls: observations moved to the plan's control values (key c)
         self._charts_timer = None
+        self._drawn: tuple | None = None  # ``drawn_state`` of the last full redraw
 
     def compose(self) -> ComposeResult:
         for name in PARTS:
@@ -70,6 +71,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if self._charts_timer is not None:
             self._charts_timer.stop()
         if now or not moved:
+            if not now and self._drawn == self.drawn_state(series) and not self.has_class("catching-up"):
+                return  # a reload that changed nothing shown here (the ledger poll, a decision on another series)
             self.redraw()
             return
         # The title has a fixed height: updating it needs no layout pass (one costs ~10× a repaint here).
@@ -80,7 +83,18 @@ class EvidencePanel(VerticalScroll, can_focus=True):
     def on_resize(self) -> None:
         self.redraw()
 
+    def drawn_state(self, s: int | None) -> tuple:
+        """What the panel shows of series ``s`` depends on beyond the series itself."""
+        session = self.session
+        if s is None:
+            return (None,)
+        records = session.history(s)
+        news = session.news.get("digest") if session.news is not None else None
+        return (s, session.results, session.status[s], records[-1].get("digest") if records else None, news,
+                session.waiting, session.model_of(s))
+
     def redraw(self) -> None:
+        self._drawn = self.drawn_state(self.series)
         self.set_class(False, "catching-up")
         self.redraw_text()
         self.redraw_charts()

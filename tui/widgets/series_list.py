@@ -5,7 +5,7 @@ from rich.cells import cell_len
 from rich.segment import Segment
 from rich.style import Style
 from textual.binding import Binding
-from textual.geometry import Size
+from textual.geometry import Region, Size
 from textual.message import Message
 from textual.scroll_view import ScrollView
 from textual.strip import Strip
@@ -62,6 +62,8 @@ class SeriesList(ScrollView, can_focus=True):
     def __init__(self, session: TriageSession, **kwargs) -> None:
         super().__init__(**kwargs)
         self.session = session
+        self._rows: dict[tuple, Strip] = {}  # a row's strip by what it shows: a reload redraws only new rows
+        self._rows_of: tuple = (None, None)  # the results and diagnosis those rows were drawn from
 
     def on_mount(self) -> None:
         self.reload()
@@ -77,14 +79,21 @@ class SeriesList(ScrollView, can_focus=True):
         self.show_cursor()
         self.post_message(self.Highlighted(self.session.current))
 
-    def show_cursor(self) -> None:
+    def show_cursor(self, rows: tuple[int, ...] | None = None) -> None:
+        """Scroll the cursor into view; redraw the list, or only ``rows`` (positions) when nothing scrolled."""
         height = max(self.scrollable_content_region.height - 1, 1)
         row = self.session.cursor
+        top = self.scroll_y
         if row < self.scroll_y:
             self.scroll_to(y=row, animate=False, immediate=True)
         elif row >= self.scroll_y + height:
             self.scroll_to(y=row - height + 1, animate=False, immediate=True)
-        self.refresh()
+        if rows is None or self.scroll_y != top:
+            self.refresh()
+            return
+        width = self.scrollable_content_region.width
+        for position in set(rows):  # the line under the header that shows list position ``position``
+            self.refresh(Region(0, position - int(self.scroll_y) + 1, width, 1))
 
     def action_cursor(self, step: int) -> None:
         self._moved(lambda: self.session.move(step))
@@ -97,11 +106,13 @@ class SeriesList(ScrollView, can_focus=True):
         self._moved(lambda: self.session.move(step * len(self.session.view)))
 
     def _moved(self, change) -> None:
-        before, listed = self.session.current, len(self.session.view)
+        before, listed, was = self.session.current, len(self.session.view), self.session.cursor
         change()
         if len(self.session.view) != listed:  # a pinned series let go: the rows below it moved up
             self.virtual_size = Size(self.scrollable_content_region.width, len(self.session.view) + 1)
-        self.show_cursor()
+            self.show_cursor()
+        else:  # the rows stay where they were: only the cursor's old and new lines change
+            self.show_cursor((was, self.session.cursor))
         if self.session.current != before:
             self.post_message(self.Highlighted(self.session.current))
 
@@ -124,6 +135,21 @@ class SeriesList(ScrollView, can_focus=True):
         if row >= len(session.view):
             return Strip.blank(width)
         s = int(session.view[row])
+        news = session.news if s == session.current else None
+        if self._rows_of[0] is not session.results or self._rows_of[1] is not session.diagnosis or len(self._rows) > 4096:
+            self._rows, self._rows_of = {}, (session.results, session.diagnosis)  # new fit, or flags changed
+        shows = (s, width, int(session.status_code[s]), session.model_of(s),
+                 news.get("digest") if news is not None else None, session.waiting)
+        strip = self._rows.get(shows)
+        if strip is None:
+            strip = self._rows[shows] = self.row_strip(s, width, key_w, flags_w, news)
+        if row == session.cursor:
+            strip = strip.apply_style(CURSOR if self.has_focus else Style(bgcolor="#303030"))
+        return strip
+
+    def row_strip(self, s: int, width: int, key_w: int, flags_w: int, news: dict | None) -> Strip:
+        """Series ``s``'s row, ``width`` cells, without the cursor."""
+        session = self.session
         results = session.results
         status = session.status[s]
         model = session.model_of(s)
@@ -137,16 +163,13 @@ class SeriesList(ScrollView, can_focus=True):
             Segment(f"{key_label(session.label_parts(s), key_w)} {results.data.counts[s]:>5} {name:<7} "
                     f"{score_text:>5}  "),
         ]
-        if s == session.current and session.news is not None:  # someone else just decided it: say who
+        if news is not None:  # someone else just decided it: say who
             lead = "left list: " if session.waiting else "← "
-            segments.append(Segment(pad(lead + describe(session.news, when=False), flags_w), NEWS))
+            segments.append(Segment(pad(lead + describe(news, when=False), flags_w), NEWS))
         else:
             flag_style = STOP if severity == "stop" else WARN if severity else DIM
             segments.append(Segment(pad(short_flags(session.flag_codes(s), flags_w) or "—", flags_w), flag_style))
-        strip = Strip(segments).crop(0, width).extend_cell_length(width)
-        if row == session.cursor:
-            strip = strip.apply_style(CURSOR if self.has_focus else Style(bgcolor="#303030"))
-        return strip
+        return Strip(segments).crop(0, width).extend_cell_length(width)
 
     def on_focus(self) -> None:
         self.refresh()
