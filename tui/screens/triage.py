@@ -55,7 +55,7 @@ class TriageScreen(Screen):
         Binding("f", "filter", "filter"),
         Binding("s", "sort", "sort", show=False),
         Binding("tab", "switch", "list/evidence", show=False),
-        Binding("c", "adjust", "raw/adjusted", show=False),
+        Binding("c", "adjust", "adjust"),  # shown only for a fit with controls (check_action)
         Binding("enter", "open", "evidence", show=False),
         Binding("escape", "back", "back to list", show=False),
         Binding("question_mark", "help", "help"),
