@@ -316,12 +316,14 @@ class TriageSession(ListState):
         return written
 
     def undo_target(self) -> tuple[int, dict] | None:
-        """The series and record of this screen's latest decision that still stands, wherever it is."""
+        """The series and record of this screen's latest decision that is still its series' current one,
+        wherever it is.  One that another decision has replaced since is not offered: the ledger takes a
+        revoke by OS user, so on a shared account it would withdraw the other analyst's decision."""
         for sid, digest in reversed(self._mine):
             history = self.histories.get(sid)
-            record = next((r for r in history.standing if r.get("digest") == digest), None) if history else None
-            if record is not None and self._known.get(sid, -1) >= 0:
-                return self._known[sid], record
+            current = history.current if history else None
+            if current is not None and current.get("digest") == digest and self._known.get(sid, -1) >= 0:
+                return self._known[sid], current
         return None
 
     def result_flags(self, s: int) -> tuple[str, ...]:

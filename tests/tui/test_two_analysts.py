@@ -149,3 +149,24 @@ async def test_a_hold_typed_while_the_other_held_is_refused_naming_who_and_when(
         assert records(ledger_path) == [held]
         assert f"Not recorded: ana held at {held['at'][11:19]} UTC; look again" in screen_text(bo)
         assert session.current == s
+
+
+async def test_undo_never_withdraws_a_decision_another_analyst_made_since(ledger_path):
+    """On one OS account the ledger takes a revoke as the account's: 'u' after bo replaced ana's hold
+    withdrew bo's accept while telling ana her hold was revoked (a trial found it)."""
+    shared = Identity("bo", "ana", "test-host")  # another display name, the same OS user as ANA
+    from fitcore import ledger
+    ana = make_app(ledger_path)
+    async with ana.run_test(size=(80, 24)) as pa:
+        mine = await started(ana, pa)
+        s = int(mine.view[0])
+        held = mine.decide(mine.look(s), "hold", note="asking the buyer")
+        assert mine.undo_target()[0] == s
+        ledger.append(ledger_path, [ledger.Entry(series=held["series"], action="hold", fingerprint=held["fingerprint"],
+                                                 results=held["results"], note="bo holds it too, for pricing",
+                                                 supersedes=held["digest"])], shared)
+        mine.reload_ledger()
+        assert mine.undo_target() is None
+        await pa.press("u")
+        await pa.pause()
+        assert [r["action"] for r in records(ledger_path)] == ["hold", "hold"]
