@@ -81,6 +81,17 @@ def check_header(path: Path, document: dict, series_key: str | None) -> None:
         _field(path, "", document, series_key, lambda v: isinstance(v, list), "a list of series")
 
 
+def check_unique_keys(path: Path, records: list[dict]) -> None:
+    """One record a series: two with the same key (a file edited by hand) would show and sign two curves."""
+    seen: dict[tuple, int] = {}
+    for i, record in enumerate(records):
+        key = tuple(sorted(record["key"].items()))
+        if key in seen:
+            raise _fail(path, f"series {i + 1}", f"has the same key as series {seen[key] + 1} "
+                                                  f"({', '.join(f'{k}={v}' for k, v in key)})")
+        seen[key] = i
+
+
 def check_series(path: Path, index: int, record) -> None:
     """One series record as the JSON layout has it (``index``: its place in the file, from 0)."""
     where = f"series {index + 1}"

@@ -16,7 +16,7 @@ from ..data.columns import is_parquet_name
 from ..data.textfile import regular_or_folder
 from ..errors import DataError
 from ..fit.results import SCHEMA
-from .checks import PARQUET_COLUMNS, check_header, check_series
+from .checks import PARQUET_COLUMNS, check_header, check_series, check_unique_keys
 from .control_fields import record_fields
 
 RUN_SUMMARY = "_summary.json"
@@ -46,7 +46,9 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
     parts = result_parts(path)
     if parts is not None:
         read = [_read_parquet(part) for part in parts]
-        return read[0][0], [record for _, records in read for record in records]
+        records = [record for _, records in read for record in records]
+        check_unique_keys(path, records)
+        return read[0][0], records
     _check_file(path)
     if path.suffix.lower() == ".json":
         try:
@@ -59,9 +61,12 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
         series = document.pop("series")
         for i, record in enumerate(series):
             check_series(path, i, record)
+        check_unique_keys(path, series)
         return document, series
     if is_parquet_name(path):
-        return _read_parquet(path)
+        header, series = _read_parquet(path)
+        check_unique_keys(path, series)
+        return header, series
     raise DataError(f"expected a results file ending in .json or .parquet, got {path.name!r}", path=str(path))
 
 

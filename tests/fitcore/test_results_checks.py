@@ -57,3 +57,24 @@ def test_each_damage_is_one_line_naming_series_field_and_expectation(change, lin
 def test_the_good_record_and_a_null_plan_pass():
     check_series(Path("r.json"), 0, GOOD)
     check_series(Path("r.json"), 0, damaged(lambda r: r.update(plan=None)))
+
+
+def test_two_records_with_one_key_are_refused_on_reading(tmp_path):
+    # A hand-edited file once listed "apples · North" twice, each with its own curve, in `show`.
+    import json
+
+    from fitcore.results.read import read_results
+    path = tmp_path / "r.json"
+    fitted = tmp_path / "fit.json"
+    from pricefold.cli import main
+    sample = Path(__file__).parents[2] / "sample"
+    assert main(["fit", str(sample / "wholesale.csv"), "--segment", "region", "--date", "week", "-o", str(fitted),
+                 "--quiet"]) == 0
+    document = json.loads(fitted.read_text())
+    document["series"].append(copy.deepcopy(document["series"][2]))
+    path.write_text(json.dumps(document))
+    key = ", ".join(f"{k}={v}" for k, v in sorted(document["series"][2]["key"].items()))
+    with pytest.raises(DataError) as info:
+        read_results(path)
+    assert str(info.value) == (f"{path}: series {len(document['series'])}: has the same key as series 3 ({key}); "
+                               "expected a pricefold results file")
