@@ -9,6 +9,7 @@ without a terminal.
 """
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -271,8 +272,15 @@ class TriageSession(ListState):
 
     @property
     def writable(self) -> bool:
-        """Whether decisions can be recorded: a broken or unverifiable ledger is read-only."""
-        return self.book.state == ledger.INTACT
+        """Whether decisions can be recorded: a broken or unverifiable ledger is read-only, and so is one
+        this user may not write (said before a note is typed, not after)."""
+        return self.book.state == ledger.INTACT and self.permitted
+
+    @property
+    def permitted(self) -> bool:
+        """The OS lets this user append to the ledger (or make it, in its folder)."""
+        path = Path(self.book.path)
+        return os.access(path, os.W_OK) if path.exists() else os.access(path.parent, os.W_OK | os.X_OK)
 
     def needs_reason(self, shown: Shown, action: str) -> bool:
         """An accept past a stop flag needs a note (the trade's usual rule for exceptions)."""
@@ -288,7 +296,9 @@ class TriageSession(ListState):
         """
         self.reload_ledger(pin="waits")
         if not self.writable:
-            raise Refused(f"the ledger is {self.book.state} ({self.book.problem}): nothing can be recorded")
+            raise Refused(f"the ledger is {self.book.state} ({self.book.problem}): nothing can be recorded"
+                          if self.book.state != ledger.INTACT else
+                          f"{self.book.path}: you may not write to the ledger file: nothing can be recorded")
         s = self.index_of(shown)
         if s < 0:
             raise Refused("this series is no longer in the results")

@@ -37,6 +37,29 @@ async def test_a_broken_ledger_makes_the_screen_read_only(ledger_path):
     assert ledger_path.read_bytes() == before
 
 
+async def test_a_ledger_this_user_may_not_write_is_read_only_before_a_note_is_typed(ledger_path, monkeypatch):
+    # A 0444 ledger once offered every decision key and refused only after the note was typed.
+    # (Root ignores file modes, so the OS's answer is what the test sets.)
+    import os
+
+    import tui.session
+    one_record(ledger_path)
+    before = ledger_path.read_bytes()
+    real = os.access
+    monkeypatch.setattr(tui.session.os, "access", lambda path, mode: False if str(path) == str(ledger_path)
+                        else real(path, mode))
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await started(app, pilot)
+        await until(pilot, lambda: "READ-ONLY: you may not write to the ledger file" in screen_text(app))
+        footer = screen_text(app).splitlines()[-1]
+        assert "a accept" not in footer and "h hold" not in footer and "q quit" in footer
+        await pilot.press("a", "h")
+        await pilot.pause()
+        assert type(app.screen).__name__ == "TriageScreen"  # no note dialog opened
+    assert ledger_path.read_bytes() == before
+
+
 async def test_the_help_names_the_ledger_and_its_head(ledger_path):
     one_record(ledger_path)
     head = ledger.Ledger(ledger_path).head_text
