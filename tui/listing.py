@@ -182,12 +182,16 @@ class ListState:
         return True
 
     def after_decision(self, s: int) -> None:
-        """Rebuild the list and put the cursor on the next series needing attention after ``s``."""
+        """Rebuild the list and put the cursor on the next row after ``s``: in the attention view, the next
+        series needing attention; in any other (all series, pending, …) simply the next row, as a user
+        working down that list expects."""
         position = self.cursor
         self.rebuild_view(keep=-1)
         self._go(min(position, max(len(self.view) - 1, 0)))
         if len(self.view) and self.view[self.cursor] == s:
             self.move(1)
+        if self.filter != "attention":
+            return
         attention = self.needs_attention()[self.view]
         if len(self.view) and not attention[self.cursor]:
             self.jump_attention(1)

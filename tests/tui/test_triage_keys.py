@@ -302,3 +302,21 @@ async def test_keys_typed_ahead_act_on_the_row_the_cursor_reached(ledger_path, s
         await pilot.pause()
         [record] = records(ledger_path)
         assert record["series"] == session.results.data.key_of(fourth) and record["action"] == "hold"
+
+
+async def test_in_the_all_series_view_an_accept_moves_to_the_next_row(ledger_path):
+    # A trial accepted row 20 of "all series" and was sent back to the top (the next series needing
+    # attention, wrapping round); outside the attention view the next row is what a user expects.
+    app = make_app(ledger_path)
+    async with app.run_test(size=(120, 40)) as pilot:
+        session = await started(app, pilot)
+        session.set_filter("all")
+        row = next(i for i in range(10, len(session.view))
+                   if session.severity(int(session.view[i])) is None and session.results.chosen[session.view[i]] >= 0)
+        session.cursor = row
+        app.screen.refresh_all()
+        await pilot.pause()
+        following = int(session.view[row + 1])
+        await pilot.press("a")
+        await until(pilot, lambda: session.current == following)
+        assert session.filter == "all" and session.cursor in (row, row + 1)
