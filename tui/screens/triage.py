@@ -193,7 +193,8 @@ class TriageScreen(Screen):
         if shown is None:
             return
         if self.session.needs_reason(shown, "accept"):
-            self.ask(f"Accept {shown.proposed} despite {', '.join(shown.stops)}? Say why", "a note is required",
+            self.ask(f"Accept {shown.proposed} for {self.session.label(shown.series)} despite "
+                     f"{', '.join(shown.stops)}? Say why", "a note is required",
                      True, lambda note: self.decide(shown, "accept", note=note))
         else:
             self.decide(shown, "accept")
