@@ -127,3 +127,23 @@ def test_export_writes_the_overriding_models_interval(fitted, tmp_path):
     assert float(row["plan_volume"]) == pytest.approx(session.results.plan_volume[s, c], rel=1e-9)
     assert float(row["plan_lo"]) == pytest.approx(session.results.plan_lo[s, c], rel=1e-9)
     assert float(row["plan_hi"]) == pytest.approx(session.results.plan_hi[s, c], rel=1e-9)
+
+
+async def test_at_80x24_the_candidates_start_at_a_whole_row_with_the_proposal_in_view(tmp_path):
+    # Two lines a candidate, nine lines of list: the dialog once opened with a flags line on top whose
+    # model was scrolled away, so it read as the next model's.
+    from tests.tui.conftest import make_app
+    app = make_app(tmp_path / "ledger.jsonl")
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        s = next(int(i) for i in session.view if session.label(int(i)) == "truffle oil 250 ml · East")
+        session.cursor = int((session.view == s).nonzero()[0][0])
+        app.screen.refresh_all()
+        await pilot.pause()
+        await pilot.press("o")
+        await pilot.pause()
+        await pilot.pause()
+        rows = [line for line in screen_text(app).splitlines() if "▊" in line and "▔" not in line and "▁" not in line]
+        first = rows[0].split("▊", 1)[1]
+        assert first.lstrip(" ✓↺").split()[0] in app.screen.results.names  # a model's line, not a flags line
+        assert any("proposed" in row for row in rows)

@@ -108,6 +108,17 @@ class OverrideDialog(ModalScreen[str | None]):
         if best >= 0 and self.results.names[best] in names:
             options.highlighted = names.index(self.results.names[best])
         options.focus()
+        self.call_after_refresh(self._from_a_whole_row)
+
+    def _from_a_whole_row(self) -> None:
+        """Start the list at a whole candidate (two lines each), the proposal too when both fit, never
+        halfway through one: a flags line at the top without its model read as the wrong model's."""
+        options = self.query_one(OptionList)
+        picked = options.highlighted or 0
+        proposed = next((i for i, row in enumerate(self.rows) if row.proposed), picked)
+        shown = max(options.scrollable_content_region.height // 2, 1)
+        first = min(proposed, picked) if abs(proposed - picked) < shown else picked - shown + 1
+        options.scroll_to(y=2 * max(first, 0), animate=False)
 
     def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
         self.dismiss(event.option.id)
