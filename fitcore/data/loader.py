@@ -145,10 +145,6 @@ def check_columns(path: Path, found: list[str], columns: Columns) -> None:
             hint = f"; did you mean {close[0]!r}?" if close else ""
             raise DataError(f"expected a column {name!r}, found {', '.join(map(repr, found))}{hint}",
                             path=str(path), line=1, column=name)
-        places = [i + 1 for i, other in enumerate(found) if other == name]
-        if len(places) > 1:
-            raise DataError(f"the column {name!r} appears twice in the header (fields {places[0]} and {places[1]}); "
-                            "rename one", path=str(path), line=1, column=name)
     first: dict[str, int] = {}
     for i, name in enumerate(found):
         if name.strip() and name in first:  # an ignored column too: which one a reader takes is a guess
