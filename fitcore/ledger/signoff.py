@@ -145,11 +145,13 @@ class Signoff:
         return record.get("seq") in self.bulk_seqs
 
 
-def gather(results: Results, diagnosis: Diagnosis, records: list[dict] | tuple) -> Signoff:
-    """Replay ``records`` onto the series of ``results``: statuses, carries, bulk groups, tallies."""
+def gather(results: Results, diagnosis: Diagnosis, records: list[dict] | tuple,
+           histories: dict[str, SeriesHistory] | None = None) -> Signoff:
+    """Replay ``records`` onto the series of ``results``: statuses, carries, bulk groups, tallies.
+    ``histories``: their replay, when the caller has made it already (``replay(records)``)."""
     records = [r for r in records if isinstance(r.get("series"), dict) and r.get("action")]
     n_s = results.n_series
-    histories = replay(records)
+    histories = replay(records) if histories is None else histories
     keys = [history.records[0]["series"] for history in histories.values()]
     where = SeriesKeys.of(results.data).indices_of(keys) if keys else np.zeros(0, np.int64)
     groups, bulk_seqs = bulk_groups(records)

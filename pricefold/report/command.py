@@ -121,14 +121,13 @@ def open_book(path: Path) -> Book:
     return Book(results, diagnosis, header, None, why and why[0].upper() + why[1:] + ".", source)
 
 
-def with_backtest(book: Book, view, ledger_path: Path):
+def with_backtest(book: Book, view, ledger_path: Path, histories: dict):
     """``(diagnosis, backtest)``: the signed curves against the rows since sign-off, as the triage screen
     shows them (``fitcore.ledger.backtest.cycle_of``): ``shifted`` joins the flags, and ``backtest``
-    (None: nothing tested) gives each stale series' numbers."""
+    (None: nothing tested) gives each stale series' numbers.  ``histories``: the ledger's replay."""
     from fitcore.ledger.backtest import cycle_of
-    from fitcore.ledger.replay import replay
     source = {"path": str(ledger_path), "head": view.head, "state": view.state}
-    return cycle_of(book.results, book.diagnosis, replay(list(view.records)), source)
+    return cycle_of(book.results, book.diagnosis, histories, source)
 
 
 def guard_output(output: Path, inputs: list[tuple[str, Path | None]]) -> None:
@@ -249,8 +248,10 @@ def run(args) -> int:
     from fitcore.results.read import results_inputs
     check_not_input(args.output, results_inputs(book.header))  # the data and plan the results name
     view = read_ledger(ledger_path, ledger_key())
-    diagnosis, backtest = with_backtest(book, view, ledger_path)
-    signoff = gather(book.results, diagnosis, list(view.records))
+    from fitcore.ledger.replay import replay
+    histories = replay(list(view.records))  # once, for the backtest and the sign-off tallies
+    diagnosis, backtest = with_backtest(book, view, ledger_path, histories)
+    signoff = gather(book.results, diagnosis, list(view.records), histories)
     decided, flagged, more = signoff.detailed()
     charts = Charts(book, signoff, [*decided.tolist(), *flagged.tolist()])
     charts.draw_all()
