@@ -277,6 +277,13 @@ class TriageSession(ListState):
         return self.book.state == ledger.INTACT and self.permitted
 
     @property
+    def read_only_why(self) -> str:
+        """Why nothing can be recorded, in words (the header and a refused key say the same)."""
+        if self.book.state != ledger.INTACT:
+            return f"the ledger is {self.book.state} ({self.book.problem})"
+        return "you may not write to the ledger file (permissions)"
+
+    @property
     def permitted(self) -> bool:
         """The OS lets this user append to the ledger (or make it, in its folder)."""
         path = Path(self.book.path)
@@ -296,9 +303,7 @@ class TriageSession(ListState):
         """
         self.reload_ledger(pin="waits")
         if not self.writable:
-            raise Refused(f"the ledger is {self.book.state} ({self.book.problem}): nothing can be recorded"
-                          if self.book.state != ledger.INTACT else
-                          f"{self.book.path}: you may not write to the ledger file: nothing can be recorded")
+            raise Refused(f"{self.read_only_why}: nothing can be recorded")
         s = self.index_of(shown)
         if s < 0:
             raise Refused("this series is no longer in the results")

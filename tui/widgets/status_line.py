@@ -36,10 +36,7 @@ def status_text(session, width: int) -> Text:
     in bold when the ledger is broken or unverifiable (the screen is then read-only)."""
     text = _counts_lines(session, width)
     if not session.writable:
-        book = session.book
-        said = (f"READ-ONLY: the ledger is {book.state} ({clean(str(book.problem))}); nothing can be recorded"
-                if book.state != "intact" else
-                "READ-ONLY: you may not write to the ledger file (permissions); nothing can be recorded")
+        said = f"READ-ONLY: {clean(session.read_only_why)}; nothing can be recorded"
         text.append("\n" + cut(said, width), style="bold reverse")
     return text
 
