@@ -107,10 +107,9 @@ def run_verify(args) -> int:
     book = ledger.Ledger(args.ledger, ledger_key())
     if not book.exists:
         raise ledger.LedgerError(f"{args.ledger}: file not found")
-    status, lines = verdict(book, witness)
+    status, lines = verdict(book, witness, str(args.ledger))
     try:  # the status stands even when the reader goes away early (``| head -1``)
-        for line in lines:
-            print(f"{args.ledger}: {line}" if not line.startswith("head ") else line)
+        print("\n".join(lines))
         sys.stdout.flush()
     except BrokenPipeError:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
@@ -121,29 +120,30 @@ def run_verify(args) -> int:
 SHOWN_PROBLEMS = 20
 
 
-def verdict(book: ledger.Ledger, witness: tuple[int, str] | None) -> tuple[int, list[str]]:
-    """Exit status and lines of ``ledger verify`` (the file name goes before each, except the head's)."""
+def verdict(book: ledger.Ledger, witness: tuple[int, str] | None, name: str) -> tuple[int, list[str]]:
+    """Exit status and lines of ``ledger verify``, each led by the ledger's ``name`` but the head's."""
     problems = book.problems or ([book.problem] if book.problem else [])
     if problems:
-        lines = [str(problem) for problem in problems[:SHOWN_PROBLEMS]]
+        said = [str(problem) for problem in problems[:SHOWN_PROBLEMS]]
         if len(problems) > SHOWN_PROBLEMS:
-            lines.append(f"… and {len(problems) - SHOWN_PROBLEMS:,} more problems after line "
-                         f"{problems[SHOWN_PROBLEMS - 1].line} (the first ones explain the rest)")
+            said.append(f"… and {len(problems) - SHOWN_PROBLEMS:,} more problems after line "
+                        f"{problems[SHOWN_PROBLEMS - 1].line} (the first ones explain the rest)")
         if ledger_key() and problems[0].line == 1 and all("its digest does not match" in p.message for p in problems):
-            lines.insert(0, "no record's digest matches with the key in PRICEFOLD_LEDGER_KEY: "
-                            "most likely the wrong key (or every record was edited)")
-        return 1, lines
+            said.insert(0, "no record's digest matches with the key in PRICEFOLD_LEDGER_KEY: "
+                           "most likely the wrong key (or every record was edited)")
+        return 1, [f"{name}: {line}" for line in said]
     kind = "keyed (HMAC-SHA-256)" if ledger_key() else "SHA-256"
-    lines = [f"intact, {len(book.records)} records, {kind} chain", *map(str, book.notes), f"head {book.head_text}"]
+    lines = [f"{name}: intact, {len(book.records)} records, {kind} chain", *(f"{name}: {n}" for n in book.notes),
+             f"head {book.head_text}"]
     if witness is None:
         return 0, lines
     seq, digest = witness
     if book.holds(seq, digest):
-        return 0, lines + [f"still holds the witnessed record {seq}:{digest[:12]}…"]
+        return 0, lines + [f"{name}: still holds the witnessed record {seq}:{digest[:12]}…"]
     last = book.head[0]
     why = (f"it ends at seq {last}: records were removed from the end" if seq > last else
            f"seq {seq} is now a different record ({book.records[seq - 1]['digest'][:12]}…)")
-    return 1, lines + [f"does not hold the witnessed record {seq}:{digest[:12]}…; {why}"]
+    return 1, lines + [f"{name}: does not hold the witnessed record {seq}:{digest[:12]}…; {why}"]
 
 
 def run_show(args) -> int:
