@@ -16,7 +16,7 @@ import numpy as np
 import pyarrow as pa
 
 from ..errors import DataError
-from .cells import coerce_numbers, dates, number_names, raw_from_table
+from .cells import coerce_numbers, columns_of, dates, number_names, raw_from_columns
 from .columns import Columns
 from .textfile import arrow_stream, check_quotes, compressed_trouble, open_text, rows_are_lines
 
@@ -40,7 +40,8 @@ def _read_fast(path: Path, columns: Columns, delimiter: str):
     of fields simply fails the read, which sends the file to the line-by-line reader.
     """
     from pyarrow import csv as arrow_csv
-    types = {name: pa.string() for name in columns.keys}
+    # keys dictionary-encoded by the reader's threads: codes and each block's distinct texts, no string per row
+    types = {name: pa.dictionary(pa.int32(), pa.string()) for name in columns.keys}
     types.update({name: pa.float64() for name in number_names(columns)})
     if columns.date:
         types[columns.date] = pa.string()
@@ -55,9 +56,11 @@ def _read_fast(path: Path, columns: Columns, delimiter: str):
         return None
     except (OSError, EOFError, zlib.error) as exc:
         raise DataError(f"cannot read the file ({compressed_trouble(exc)})", path=str(path)) from None
-    if not rows_are_lines(path, table.num_rows):
+    n_rows = table.num_rows
+    if not rows_are_lines(path, n_rows):
         return None
-    return raw_from_table(table, columns, np.arange(2, table.num_rows + 2, dtype=np.int64))
+    parts, table = columns_of(table, columns), None  # each column freed once converted
+    return raw_from_columns(parts, columns, np.arange(2, n_rows + 2, dtype=np.int64))
 
 
 def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):

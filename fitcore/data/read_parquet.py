@@ -7,33 +7,45 @@ import numpy as np
 import pyarrow as pa
 
 from ..errors import DataError
-from .cells import raw_from_table
+from .cells import columns_of, raw_from_columns
 from .columns import Columns
 
 
 def parquet_names(path: Path) -> list[str]:
     """The column names of a Parquet file or folder (a folder's files must agree)."""
+    return parquet_schema(path).names
+
+
+def parquet_schema(path: Path) -> pa.Schema:
+    """The Arrow schema of a Parquet file or folder."""
     import pyarrow.parquet as pq
     try:
         if path.is_file():
-            return pq.read_schema(path).names
+            return pq.read_schema(path)
         dataset = pq.ParquetDataset(path)
         if not dataset.files:
             raise DataError("no Parquet files in this folder", path=str(path))
-        return dataset.schema.names
+        return dataset.schema
     except (pa.ArrowInvalid, OSError) as exc:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
 
 
 def read_parquet_rows(path: Path, columns: Columns):
+    """Every row's needed columns (``RawRows``).  Text keys are read dictionary-encoded: the reader
+    decodes them straight into codes and a few distinct values, never millions of strings."""
     import pyarrow.parquet as pq
+    schema = parquet_schema(path)
+    text_keys = [name for name in columns.keys
+                 if pa.types.is_string(schema.field(name).type) or pa.types.is_large_string(schema.field(name).type)]
     try:
-        table = pq.read_table(path, columns=columns.needed)
+        table = pq.read_table(path, columns=columns.needed, read_dictionary=text_keys)
     except (pa.ArrowInvalid, OSError) as exc:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
-    if table.num_rows == 0:
+    n_rows = table.num_rows
+    if n_rows == 0:
         raise DataError("expected at least one observation, found none", path=str(path))
-    return raw_from_table(table, columns, np.arange(1, table.num_rows + 1, dtype=np.int64))
+    parts, table = columns_of(table, columns), None  # each column freed once converted
+    return raw_from_columns(parts, columns, np.arange(1, n_rows + 1, dtype=np.int64))
 
 
 def first_line(exc: Exception) -> str:

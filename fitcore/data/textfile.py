@@ -10,7 +10,6 @@ import csv
 import gzip
 import io
 import itertools
-import mmap
 import os
 import stat
 import sys
@@ -156,20 +155,25 @@ def rows_are_lines(path: Path, n_rows: int) -> bool:
     """Does each of ``n_rows`` data rows take exactly one physical line, so row i is on line i + 2?
 
     Without a quote or a carriage return in the file it must (a line break can only hide in quotes,
-    and blank lines never reach here): two memchr passes over a memory map settle a plain file.
-    Otherwise the line ends are counted (CRLF, CR or LF, as both csv readers count them) and compared.
+    and blank lines never reach here): one pass of searches over blocks read into one buffer settles a
+    plain file (a memory map would add the whole file to the process's resident memory).  Otherwise the
+    line ends are counted (CRLF, CR or LF, as both csv readers count them) and compared.
     """
     if is_gzip(path):
         with gzip.open(path, "rb") as handle:
             return _count_lines(iter(lambda: handle.read(BLOCK), b""), True) - 1 == n_rows
     if os.path.getsize(path) == 0:
         return n_rows == 0
-    with open(path, "rb") as handle, mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ) as mapped:
-        returns = mapped.find(b"\r") >= 0
-        if not returns and mapped.find(b'"') < 0:
+    with open(path, "rb") as handle:
+        returns = quotes = False
+        buffer = bytearray(min(BLOCK, os.path.getsize(path)))
+        while not returns and (size := handle.readinto(buffer)):
+            returns = buffer.find(b"\r", 0, size) >= 0  # then counted with CRs, whatever else is in the file
+            quotes = quotes or buffer.find(b'"', 0, size) >= 0
+        if not returns and not quotes:
             return True
-        blocks = (mapped[start:start + BLOCK] for start in range(0, len(mapped), BLOCK))
-        return _count_lines(blocks, returns) - 1 == n_rows
+        handle.seek(0)
+        return _count_lines(iter(lambda: handle.read(BLOCK), b""), returns) - 1 == n_rows
 
 
 def _count_lines(blocks, returns: bool) -> int:
