@@ -105,11 +105,18 @@ def invented(folder: Path, n: int = 300_000) -> list[Path]:
                 "invented_dict.parquet": table.set_column(0, "product", table.column("product").dictionary_encode()),
                 "invented_large.parquet": table.set_column(0, "product", table.column("product").cast(pa.large_string())),
                 "invented_int.parquet": table.set_column(0, "product", pa.array(series // 4)),
-                "invented_text_price.parquet": table.set_column(2, "price", pa.array(price.tolist()))}
+                "invented_text_price.parquet": table.set_column(2, "price", pa.array(price.tolist())),
+                "invented_odd_dict.parquet": table.set_column(0, "product", _odd_dictionary(pa, series // 4))}
     for name, variant in variants.items():
         pq.write_table(variant, folder / name, row_group_size=70_000)
         paths.append(folder / name)
     return paths
+
+
+def _odd_dictionary(pa, codes):
+    """Dictionary-encoded keys whose dictionary repeats values (Arrow allows it)."""
+    dictionary = pa.array([f"item-{i % 4_000}" for i in range(int(codes.max()) + 51)])
+    return pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32)), dictionary)
 
 
 def _is_float(text: str) -> bool:
