@@ -116,7 +116,7 @@ def invented(folder: Path, n: int = 300_000) -> list[Path]:
 def _odd_dictionary(pa, codes):
     """Dictionary-encoded keys whose dictionary repeats values (Arrow allows it)."""
     dictionary = pa.array([f"item-{i % 4_000}" for i in range(int(codes.max()) + 51)])
-    return pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32)), dictionary)
+    return pa.DictionaryArray.from_arrays(pa.array(codes, pa.int32()), dictionary)
 
 
 def _is_float(text: str) -> bool:
