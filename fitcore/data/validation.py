@@ -54,10 +54,22 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
     ``duplicates=False`` leaves the repeated series-and-date check to the caller (``duplicate_rows``), for
     rows read in pieces whose repeats may lie in another piece.  ``controls``: the control columns, each
     missing, non-numeric or non-finite cell a reason (controls may be negative).
+
+    Whole columns are checked first, most by their least and greatest value alone; only the rows they
+    leave in doubt go through the checks one by one, in order (a clean file makes no (N,) mask).
     """
     n = rows.n_rows
+    checks = _checks(price, volume, weight, controls)
+    blanks = {name: _blank(values.categories) for name, values in rows.keys.items()}
+    doubtful = _doubtful(rows, blanks, checks, date)
     out = None  # the reasons, made at the first rejected row: a clean file needs no N-object array
     open_rows = np.ones(n, dtype=bool)  # no reason given yet
+    if len(doubtful):
+        why, usable = _first_reasons(_subset(rows, doubtful), blanks, checks, date)
+        open_rows[doubtful] = usable
+        if not usable.all():
+            out = np.full(n, None, dtype=object)
+            out[doubtful] = why
 
     def reject(index, text):
         nonlocal out
@@ -65,41 +77,103 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
             out = np.full(n, None, dtype=object)
         out[index] = text
         open_rows[index] = False
-
-    def mark(mask, text):
-        mask = np.asarray(mask, dtype=bool) & open_rows
-        if mask.any():
-            reject(mask, text)
-
-    for index, why in rows.broken.items():
-        reject(index, why)
-    empties = [_empty(values) for values in rows.keys.values()]
-    all_empty = np.logical_and.reduce(empties) if empties else np.zeros(n, bool)
-    for name in (price, volume, weight):
-        if name:
-            all_empty &= rows.numbers[name][2]
-    mark(all_empty, "empty line")
-    for name, empty in zip(rows.keys, empties):
-        mark(empty, f"empty {name}")
-    for name in (price, volume, weight):
-        if name:  # a weight scales sums instead of entering them: its overflow has its own reason
-            _number_reasons(mark, name, *rows.numbers[name], bounded=name != weight)
-    for name in controls:
-        _number_reasons(mark, name, *rows.numbers[name], signed=True)
-    if date and rows.date is not None:
-        values, unreadable, outside = rows.date
-        mark(unreadable, f"unparseable {date}")
-        mark(outside, f"{date} outside {FIRST_DAY} to {LAST_DAY}")
-        mark(np.isnat(values), f"missing {date}")
-        if duplicates:
-            _duplicates(rows, values, reject, open_rows)
+    if date and rows.date is not None and duplicates:
+        _duplicates(rows, rows.date[0], reject, open_rows)
     if out is None:  # every row usable: a read-only view of one None
         out = np.broadcast_to(np.array(None, dtype=object), (n,))
     return out, open_rows
 
 
-def _empty(values: pd.Categorical) -> np.ndarray:
-    blank = np.asarray([str(c).strip() == "" for c in values.categories], dtype=bool)
+def _checks(price, volume, weight, controls) -> list[tuple[str, bool, bool]]:
+    """(column, signed, bounded) of each number check, in the order reasons are given."""
+    # a weight scales sums instead of entering them: its overflow has its own reason
+    return [*((name, False, name != weight) for name in (price, volume, weight) if name),
+            *((name, True, True) for name in controls)]
+
+
+def _first_reasons(rows: RawRows, blanks: dict, checks: list, date: str | None) -> tuple[np.ndarray, np.ndarray]:
+    """``(why, usable)`` of ``rows``, checked one by one: the first reason that applies (no repeat check)."""
+    n = rows.n_rows
+    out = np.full(n, None, dtype=object)
+    open_rows = np.ones(n, dtype=bool)  # no reason given yet
+
+    def mark(mask, text):
+        mask = np.asarray(mask, dtype=bool) & open_rows
+        out[mask] = text
+        open_rows[mask] = False
+
+    for index, why in rows.broken.items():
+        out[index] = why
+        open_rows[index] = False
+    empties = [_empty(values, blanks[name]) for name, values in rows.keys.items()]
+    all_empty = np.logical_and.reduce(empties) if empties else np.zeros(n, bool)
+    for name in dict.fromkeys(name for name, signed, _ in checks if not signed):
+        all_empty &= rows.numbers[name][2]
+    mark(all_empty, "empty line")
+    for name, empty in zip(rows.keys, empties):
+        mark(empty, f"empty {name}")
+    for name, signed, bounded in checks:
+        _number_reasons(mark, name, *rows.numbers[name], signed=signed, bounded=bounded)
+    if date and rows.date is not None:
+        values, unreadable, outside = rows.date
+        mark(unreadable, f"unparseable {date}")
+        mark(outside, f"{date} outside {FIRST_DAY} to {LAST_DAY}")
+        mark(np.isnat(values), f"missing {date}")
+    return out, open_rows
+
+
+def _doubtful(rows: RawRows, blanks: dict, checks: list, date: str | None) -> np.ndarray:
+    """Sorted indices of every row that may have a reason (a repeated series and date aside)."""
+    doubt = None
+
+    def add(mask):
+        nonlocal doubt
+        doubt = mask if doubt is None else doubt | mask
+    if rows.n_rows:
+        for name, values in rows.keys.items():
+            if values.codes.min() < 0 or blanks[name].any():
+                add(_empty(values, blanks[name]))
+        for name, signed, bounded in checks:
+            values, not_number, missing = rows.numbers[name]
+            low, high = -LARGEST if signed else 0.0, LARGEST if bounded else np.inf
+            least, most = values.min(), values.max()  # NaN when any value is
+            if not_number.any() or missing.any() or not (low <= least and most <= high and np.isfinite([least, most]).all()):
+                add(not_number | missing | ~(np.isfinite(values) & (values >= low) & (values <= high)))
+        if date and rows.date is not None:
+            values, unreadable, outside = rows.date
+            missing = np.isnat(values)
+            if unreadable.any() or outside.any() or missing.any():
+                add(unreadable | outside | missing)
+    found = np.flatnonzero(doubt) if doubt is not None else np.zeros(0, np.int64)
+    return np.union1d(found, np.fromiter(rows.broken, np.int64, len(rows.broken))) if rows.broken else found
+
+
+def _subset(rows: RawRows, at: np.ndarray) -> RawRows:
+    """The rows at the sorted indices ``at``."""
+    position = {int(index): i for i, index in enumerate(at)} if rows.broken else {}
+    return RawRows(line=rows.line[at], keys={name: values[at] for name, values in rows.keys.items()},
+                   numbers={name: tuple(part[at] for part in parts) for name, parts in rows.numbers.items()},
+                   date=None if rows.date is None else tuple(part[at] for part in rows.date),
+                   broken={position[index]: why for index, why in rows.broken.items()})
+
+
+def _blank(categories) -> np.ndarray:
+    """(C,) bool: each category is empty or whitespace (``str.strip`` leaves nothing).  Texts holding a
+    letter or digit are not, found at once by Arrow; only the rest are looked at one by one."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    texts = np.asarray(categories, dtype=object)
+    try:
+        letters = pc.match_substring_regex(pa.array(texts, pa.string()), "[0-9A-Za-z]")
+        maybe = np.flatnonzero(~np.asarray(pc.fill_null(letters, False).to_numpy(zero_copy_only=False), dtype=bool))
+    except (pa.ArrowException, TypeError, ValueError):  # not all text, or not encodable: all looked at
+        maybe = np.arange(len(texts))
+    out = np.zeros(len(texts), dtype=bool)
+    out[maybe] = [str(texts[i]).strip() == "" for i in maybe]
+    return out
+
+
+def _empty(values: pd.Categorical, blank: np.ndarray) -> np.ndarray:
     codes = values.codes
     if len(blank) and not blank.any():
         return codes < 0  # no blank text: only missing cells are empty
