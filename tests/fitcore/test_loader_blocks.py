@@ -1,0 +1,163 @@
+"""Loading files that pyarrow reads in many blocks and row groups, checked against pandas, pyarrow and numpy.
+
+Keys are dictionary-encoded by the readers (one small dictionary per block), never decoded; numbers are
+copied block by block; the rows are grouped by sorting one integer key.  Each check's reference is named
+beside it.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+from hypothesis import given
+from hypothesis import settings as hsettings
+from hypothesis import strategies as st
+
+from fitcore.data.cells import categorical
+from fitcore.data.dataset import _grouped
+from fitcore.data.loader import Columns, load_with_rejects
+from fitcore.data.validation import LARGEST, RawRows, reasons
+
+BAD_CELLS = ["x", "-3", "", "nan", "inf", "1e16"]
+
+
+def invented_rows(n: int, seed: int = 3) -> pd.DataFrame:
+    """``n`` rows of interleaved series as text, some keys blank or spaced and some numbers bad."""
+    rng = np.random.default_rng(seed)
+    frame = pd.DataFrame({"product": np.char.add("item ", rng.integers(0, 5_000, n).astype(str)).astype(object),
+                          "price": np.round(rng.uniform(1, 9, n), 2).astype(str).astype(object),
+                          "volume": np.round(rng.uniform(0, 500, n), 1).astype(str).astype(object)})
+    for i, at in enumerate(rng.choice(n, 600, replace=False)):
+        column = ["product", "price", "volume"][i % 3]
+        frame.loc[at, column] = ["", "   ", " item 7"][i % 3] if column == "product" else BAD_CELLS[i % 6]
+    return frame
+
+
+def expected_from(frame: pd.DataFrame, first_line: int):
+    """Series (first appearance order) → [(line, price, volume)] by the documented rules, and the lines
+    rejected: a key that is empty or blank, a number that is not a finite value in [0, 1e15]."""
+    def number(text):
+        try:
+            value = float(text)
+        except ValueError:
+            return None
+        return value if math.isfinite(value) and 0 <= value <= LARGEST else None
+    series, rejected = {}, []
+    for i, (key, price, volume) in enumerate(frame.itertuples(index=False)):
+        values = number(price), number(volume)
+        if not str(key).strip() or None in values:
+            rejected.append(first_line + i)
+        else:
+            series.setdefault(key, []).append((first_line + i, *values))
+    return series, rejected
+
+
+def as_series(data):
+    out = {}
+    for s in range(data.n_series):
+        rows = slice(data.offsets[s], data.offsets[s + 1])
+        out[data.keys["product"][s]] = list(zip(data.line[rows].tolist(), data.price[rows].tolist(),
+                                                data.volume[rows].tolist()))
+    return out
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("ending", ["\n", "\r\n"])
+def test_a_csv_of_many_blocks_loads_as_pandas_reads_it(tmp_path, ending):
+    frame = invented_rows(150_000)
+    path = tmp_path / "rows.csv"
+    path.write_bytes(("product,price,volume" + ending + ending.join(
+        ",".join(row) for row in frame.itertuples(index=False)) + ending).encode())
+    # reference: pandas' own reader, every cell as text
+    read = pd.read_csv(path, dtype=str, keep_default_na=False)
+    assert read.astype(object).values.tolist() == frame.values.tolist()
+    series, rejected = expected_from(read, first_line=2)
+    data, rejects = load_with_rejects(path, Columns())
+    assert as_series(data) == series and list(data.keys["product"]) == list(series)
+    assert rejects.lines.tolist() == rejected
+
+
+@pytest.mark.slow
+def test_a_parquet_file_of_many_row_groups_loads_as_pyarrow_reads_it(tmp_path):
+    frame = invented_rows(120_000, seed=4)
+    table = pa.table({"product": pa.array(frame["product"].tolist(), pa.large_string()),
+                      "price": pa.array([float(v) if v not in ("x", "") else None for v in frame["price"]]),
+                      "volume": pa.array([float(v) if v not in ("x", "") else None for v in frame["volume"]])})
+    path = tmp_path / "rows.parquet"
+    pq.write_table(table, path, row_group_size=10_000)
+    # reference: pyarrow's plain read (text decoded), rules applied row by row
+    read = pq.read_table(path).to_pandas().astype(object)
+    read[["price", "volume"]] = read[["price", "volume"]].map(lambda v: "" if v is None or v != v else repr(v))
+    series, rejected = expected_from(read, first_line=1)
+    data, rejects = load_with_rejects(path, Columns())
+    assert as_series(data) == series and list(data.keys["product"]) == list(series)
+    assert rejects.lines.tolist() == rejected
+
+
+def dictionary_chunk(indices, dictionary):
+    return pa.DictionaryArray.from_arrays(pa.array(indices, pa.int32()), pa.array(dictionary, pa.string()))
+
+
+@pytest.mark.parametrize("chunks", [
+    [dictionary_chunk([0, 1, 0], ["a", "b"]), dictionary_chunk([1, 0], ["c", "a"])],  # blocks' own dictionaries
+    [dictionary_chunk([0, 2, 1], ["a", "b", "a"])],  # a dictionary repeating a value
+    [dictionary_chunk([0, None, 1], ["b", " "]), dictionary_chunk([None, None], [])],  # nulls, an empty dictionary
+    [dictionary_chunk([0, 1, 2], ["a", None, "b"])],  # a null inside the dictionary
+    [dictionary_chunk([], []), dictionary_chunk([0, 0], ["z"])],  # an empty block
+])
+def test_dictionary_keys_are_their_decoded_values(chunks):
+    column = pa.chunked_array(chunks)
+    decoded = column.cast(pa.string()).to_pylist()  # reference: pyarrow's own decoding
+    found = categorical(column)
+    assert [None if v != v else v for v in np.asarray(found, dtype=object)] == decoded
+    assert len(set(found.categories)) == len(found.categories)
+
+
+@given(st.lists(st.integers(-1, 40), max_size=300))
+@hsettings(max_examples=80, deadline=None)
+def test_grouping_is_numpys_stable_sort(codes):
+    codes = np.asarray(codes, dtype=np.int64)
+    order, grouped = _grouped(codes.copy())
+    expected = np.argsort(codes, kind="stable")  # reference: numpy's stable argsort
+    assert order.tolist() == expected.tolist() and grouped.tolist() == codes[expected].tolist()
+
+
+NUMBERS = st.sampled_from([1.0, 0.0, 2.5, -1.0, math.nan, math.inf, -math.inf, 2e15, -2e15, 1e15])
+
+
+@given(st.lists(st.tuples(st.sampled_from(["a", "b", " ", "", None]), NUMBERS, NUMBERS, NUMBERS,
+                          st.booleans(), st.booleans()), min_size=1, max_size=30))
+@hsettings(max_examples=150, deadline=None)
+def test_reasons_follow_the_documented_order(rows):
+    """Each row's reason is the first of the module's rules that applies (a plain loop over the rules here),
+    whether or not the column checks leave it in doubt."""
+    keys, prices, volumes, controls, text, empty = zip(*rows)
+    missing = np.array(empty) & np.isnan(prices)
+    raw = RawRows(line=np.arange(2, len(rows) + 2), keys={"product": pd.Categorical(list(keys))},
+                  numbers={"price": (np.array(prices), np.array(text) & np.isnan(prices) & ~missing, missing),
+                           "volume": (np.array(volumes), np.zeros(len(rows), bool), np.zeros(len(rows), bool)),
+                           "promo": (np.array(controls), np.zeros(len(rows), bool), np.zeros(len(rows), bool))})
+    why, usable = reasons(raw, "price", "volume", None, None, controls=("promo",))
+
+    def first_reason(key, price, volume, control, not_number, is_missing):
+        if key is None or not key.strip():
+            return "empty product"
+        for name, value, signed in (("price", price, False), ("volume", volume, False), ("promo", control, True)):
+            if name == "price" and not_number:
+                return "non-numeric price"
+            if name == "price" and is_missing:
+                return "missing price"
+            if not math.isfinite(value):
+                return f"non-finite {name}"
+            if abs(value) > LARGEST:
+                return f"{name} beyond ±1e15"
+            if not signed and value < 0:
+                return f"negative {name}"
+        return None
+    expected = [first_reason(k, p, v, c, t, m) for k, p, v, c, t, m in
+                zip(keys, prices, volumes, controls, raw.numbers["price"][1], missing)]
+    assert list(why) == expected and usable.tolist() == [r is None for r in expected]
