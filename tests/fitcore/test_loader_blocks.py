@@ -161,3 +161,22 @@ def test_reasons_follow_the_documented_order(rows):
     expected = [first_reason(k, p, v, c, t, m) for k, p, v, c, t, m in
                 zip(keys, prices, volumes, controls, raw.numbers["price"][1], missing)]
     assert list(why) == expected and usable.tolist() == [r is None for r in expected]
+
+
+@pytest.mark.parametrize("block", [1, 7, 1 << 19])
+def test_fingerprints_hash_each_series_rows_of_the_stacked_columns(monkeypatch, block):
+    import hashlib
+
+    import fitcore.data.dataset as dataset
+    monkeypatch.setattr(dataset, "FINGERPRINT_ROWS", block)
+    rng = np.random.default_rng(5)
+    n = 400
+    product = rng.integers(0, 30, n).astype(str).astype(object)
+    date = np.datetime64("2020-01-01", "ns") + rng.integers(0, 10**15, n).astype("timedelta64[ns]")
+    data = dataset.from_columns({"product": product}, rng.uniform(1, 2, n), rng.uniform(0, 9, n),
+                                weight=rng.uniform(0.5, 1, n), date=date, controls={"promo": rng.integers(0, 2, n)})
+    # reference: hashlib over numpy's row-major stack of the whole table, each series' rows
+    table = np.column_stack([data.price, data.volume, data.weight, data.date.view(np.int64), data.controls["promo"]])
+    expected = [hashlib.sha256(np.ascontiguousarray(table[lo:hi]).tobytes()).hexdigest()
+                for lo, hi in zip(data.offsets[:-1], data.offsets[1:])]
+    assert data.fingerprints == expected
