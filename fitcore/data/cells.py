@@ -153,9 +153,21 @@ def coerce_numbers(raw: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 def dates(column) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(datetime64[ns] with NaT, unreadable, outside) of a date column: ISO 8601 text (any UTC offsets are
-    converted to UTC), or Arrow dates and timestamps.  ``outside``: a real date the ns type cannot hold."""
-    if isinstance(column, pa.ChunkedArray):
-        column = column.combine_chunks()
+    converted to UTC), or Arrow dates and timestamps.  ``outside``: a real date the ns type cannot hold.
+
+    Dictionary-encoded text (as the readers give it) is parsed once per distinct text, then spread over
+    the rows by their codes (7M rows of weekly dates: 0.87 s of parsing → a few milliseconds)."""
+    if isinstance(column, pa.Array):
+        column = pa.chunked_array([column])
+    if _is_text_dictionary(column.type):
+        found = _dictionary_codes(column)
+        if found is not None:
+            distinct, codes = found
+            # one more entry, NaT / False / False, for the code -1 of a missing cell: index -1 is the last
+            return tuple(np.append(part, sentinel)[codes] for part, sentinel in
+                         zip(dates(distinct), (np.datetime64("NaT", "ns"), False, False)))
+        column = pc.cast(column, pa.string())  # a dictionary holding a null: decoded
+    column = column.combine_chunks()
     unreadable = np.zeros(len(column), bool)
     if pa.types.is_timestamp(column.type) or pa.types.is_date(column.type):
         if pa.types.is_timestamp(column.type) and column.type.tz is not None:

@@ -40,11 +40,12 @@ def _read_fast(path: Path, columns: Columns, delimiter: str):
     of fields simply fails the read, which sends the file to the line-by-line reader.
     """
     from pyarrow import csv as arrow_csv
-    # keys dictionary-encoded by the reader's threads: codes and each block's distinct texts, no string per row
+    # keys (and dates) dictionary-encoded by the reader's threads: codes and each block's distinct texts,
+    # no string per row
     types = {name: pa.dictionary(pa.int32(), pa.string()) for name in columns.keys}
     types.update({name: pa.float64() for name in number_names(columns)})
-    if columns.date:
-        types[columns.date] = pa.string()
+    if columns.date:  # parsed once per distinct text
+        types[columns.date] = pa.dictionary(pa.int32(), pa.string())
     try:
         stream = arrow_stream(path)  # closed after a whole read only: after a failure, workers may still read it
         table = arrow_csv.read_csv(

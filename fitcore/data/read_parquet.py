@@ -31,14 +31,14 @@ def parquet_schema(path: Path) -> pa.Schema:
 
 
 def read_parquet_rows(path: Path, columns: Columns):
-    """Every row's needed columns (``RawRows``).  Text keys are read dictionary-encoded: the reader
-    decodes them straight into codes and a few distinct values, never millions of strings."""
+    """Every row's needed columns (``RawRows``).  Text keys and dates are read dictionary-encoded: the
+    reader decodes them straight into codes and a few distinct values, never millions of strings."""
     import pyarrow.parquet as pq
     schema = parquet_schema(path)
-    text_keys = [name for name in columns.keys
-                 if pa.types.is_string(schema.field(name).type) or pa.types.is_large_string(schema.field(name).type)]
+    texts = [name for name in (*columns.keys, *([columns.date] if columns.date else []))
+             if pa.types.is_string(schema.field(name).type) or pa.types.is_large_string(schema.field(name).type)]
     try:
-        table = pq.read_table(path, columns=columns.needed, read_dictionary=text_keys)
+        table = pq.read_table(path, columns=columns.needed, read_dictionary=texts)
     except (pa.ArrowInvalid, OSError) as exc:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
     n_rows = table.num_rows
