@@ -180,3 +180,17 @@ def test_fingerprints_hash_each_series_rows_of_the_stacked_columns(monkeypatch, 
     expected = [hashlib.sha256(np.ascontiguousarray(table[lo:hi]).tobytes()).hexdigest()
                 for lo, hi in zip(data.offsets[:-1], data.offsets[1:])]
     assert data.fingerprints == expected
+
+
+@pytest.mark.parametrize("texts", [
+    [["2025-01-06", "2025-01-13", None], ["2025-01-13", "", "9999-12-31"]],  # dates cast at once
+    [["2025-01-06", "not a date", " "], [None, "2025-02-30", "2025-01-06T12:00:00+02:00"]],  # parsed one by one
+])
+def test_dictionary_dates_are_the_dates_of_their_decoded_text(texts):
+    from fitcore.data.cells import dates
+    column = pa.chunked_array([pa.array(chunk).dictionary_encode() for chunk in texts])
+    decoded = column.cast(pa.string())  # reference: pyarrow's own decoding, read as plain text
+    for found, expected in zip(dates(column), dates(decoded)):
+        assert found.dtype == expected.dtype and found.tolist() == expected.tolist()
+    assert np.isnat(dates(column)[0]).tolist() == [v is None or v.strip() in ("", "not a date", "2025-02-30", "9999-12-31")
+                                                    for v in sum(texts, [])]
