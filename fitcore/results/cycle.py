@@ -18,7 +18,7 @@ import math
 import numpy as np
 
 from ..fit.results import Results
-from ..review.intervals import BLOCK, covariances, last_dates
+from ..review.intervals import BLOCK, candidate_covariances, covariances, last_dates
 
 def _num(value) -> float | None:
     value = float(value)
@@ -64,19 +64,19 @@ def parquet_columns(results: Results, backtest=None) -> dict:
     import pyarrow as pa
     n_s, n_c = results.available.shape
     ok = results.available.ravel()
-    sizes = np.tile([c.complexity for c in results.candidates], n_s)
-    parts, lengths = [], np.where(ok, sizes ** 2, 0)
+    squares = np.asarray(results.lineup.complexity, dtype=np.int64) ** 2
+    bases = np.concatenate(([0], np.cumsum(squares)))
+    parts = []
     for start in range(0, n_s, BLOCK):
         block = np.arange(start, min(start + BLOCK, n_s))
-        cov = covariances(results, block).reshape(len(block) * n_c, -1)
-        cells = slice(start * n_c, (start + len(block)) * n_c)
-        within = np.arange(cov.shape[1])[None, :]
-        # row-major p × p inside the widest P × P: entry (i, j) at i·P + j, kept when i, j < p
-        p_all, width = sizes[cells][:, None], results.lineup.width
-        keep = ok[cells][:, None] & (within // width < p_all) & (within % width < p_all)
-        parts.append(cov[keep])
+        # Each series' p × p matrices side by side, row by row, candidate after candidate; the available
+        # candidates' entries picked in that order are the column's values, series after series.
+        side = np.empty((len(block), bases[-1]))
+        for c, cov in candidate_covariances(results, block):
+            side[:, bases[c]:bases[c + 1]] = cov.reshape(len(block), -1)
+        parts.append(side[np.repeat(results.available[block], squares, axis=1)])
     flat = np.concatenate(parts) if parts else np.zeros(0)
-    offsets = np.concatenate(([0], np.cumsum(lengths))).astype(np.int32)
+    offsets = np.concatenate(([0], np.cumsum(np.where(ok, np.tile(squares, n_s), 0)))).astype(np.int32)
     columns = {"sigma2": np.where(ok, np.asarray(results.sigma2, dtype=float).ravel(), np.nan),
                "df": pa.array(np.asarray(results.df).ravel().astype(np.int64), mask=~ok),
                "cov_unscaled": pa.ListArray.from_arrays(offsets, pa.array(flat, type=pa.float64()))}
