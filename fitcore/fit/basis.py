@@ -42,13 +42,15 @@ def power_coefficients(coef: np.ndarray, mid: np.ndarray, half: np.ndarray) -> n
     """
     p = coef.shape[-1]
     half = np.where(half > 0, half, 1.0)[..., None]
-    mid = np.asarray(mid)[..., None]
     scaled = coef / half ** np.arange(p)
-    out = np.zeros_like(scaled)
+    neg = -np.asarray(mid)
+    powers = [neg ** e for e in range(p)]  # each (−mid)^e once
+    terms = [scaled[..., k].copy() for k in range(p)]
+    out = [np.zeros(scaled.shape[:-1]) for _ in range(p)]  # a contiguous array per power, stacked at the end
     for k in range(p):
         for j in range(k + 1):
-            out[..., j] += scaled[..., k] * comb(k, j) * (-mid[..., 0]) ** (k - j)
-    return out
+            out[j] += terms[k] * comb(k, j) * powers[k - j]
+    return np.stack(out, axis=-1) if p else np.zeros_like(scaled)
 
 
 @compiled
