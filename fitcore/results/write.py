@@ -230,13 +230,38 @@ def results_table(results: Results, diagnosis=None, backtest=None):
 
 
 def _reason_texts(results: Results, ok: np.ndarray):
-    """Why each unavailable (series, candidate) cell is unavailable; null where available."""
+    """Why each unavailable (series, candidate) cell is unavailable; null where available.  The sentence
+    (``Results.reason_text``) depends only on the cell's reason, count, size and distinct prices: it is
+    made once per different combination of those, then taken for every cell (no Python per cell)."""
     import pyarrow as pa
     n_c = results.available.shape[1]
-    texts = np.full(len(ok), None, dtype=object)
-    for cell in np.flatnonzero(~ok).tolist():
-        texts[cell] = results.reason_text(*divmod(cell, n_c))
-    return pa.array(texts, pa.string())
+    cells = np.flatnonzero(~ok)
+    if not len(cells):
+        return pa.nulls(len(ok), pa.string())
+    series, cand = np.divmod(cells, n_c)
+    kept = np.zeros(len(series), np.int64) if results.controls is None else np.asarray(results.controls.kept)[series]
+    once, back = np.unique(series, return_inverse=True)
+    facts = np.stack([results.reason.ravel()[cells].astype(np.int64), cand, results.data.counts[series], kept,
+                      _distinct_prices(results.data, once)[back.ravel()]], axis=1)
+    combos, firsts, which = np.unique(facts, axis=0, return_index=True, return_inverse=True)
+    texts = pa.array([results.reason_text(int(series[i]), int(cand[i])) for i in firsts.tolist()], pa.string())
+    at = np.full(len(ok), len(combos), dtype=np.int64)  # past the end: null where available
+    at[cells] = which.ravel()
+    return pa.concat_arrays([texts, pa.nulls(1, pa.string())]).take(pa.array(at))
+
+
+def _distinct_prices(data, series: np.ndarray) -> np.ndarray:
+    """How many different prices each of ``series`` has (as ``np.unique`` counts them), for all at once."""
+    from ..review.intervals import rows_of
+    counts = data.counts[series]
+    rows = rows_of(data.offsets, series)
+    owner = np.repeat(np.arange(len(series)), counts)
+    order = np.lexsort((data.price[rows], owner))
+    price, owner = data.price[rows][order], owner[order]
+    new = np.ones(len(rows), dtype=bool)
+    with np.errstate(invalid="ignore"):
+        new[1:] = (owner[1:] != owner[:-1]) | ((price[1:] != price[:-1]) & ~(np.isnan(price[1:]) & np.isnan(price[:-1])))
+    return np.bincount(owner[new], minlength=len(series))
 
 
 def _cell_lists(values, lengths):

@@ -1,0 +1,60 @@
+"""The Parquet results columns built for all series at once equal what each cell's own computation gives.
+
+- ``reason``: each unavailable cell's sentence (``Results.reason_text``, which counts a series' distinct
+  prices with ``numpy.unique``), on data where most cells are unavailable for many different reasons;
+- ``cov_unscaled``: each available cell's p × p block of ``covariances`` (checked against statsmodels'
+  ``normalized_cov_params`` in ``test_snapshot.py``), row by row.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pyarrow.parquet as pq
+
+import fitcore
+from fitcore.fit.settings import FitSettings
+from fitcore.results.write import write_results
+from fitcore.review.intervals import covariances
+from tests.conftest import random_dataset
+
+
+def awkward_dataset(seed: int = 3, n_series: int = 1500) -> fitcore.Dataset:
+    """Short series with few distinct prices (some at or below zero, some volumes negative): most
+    candidates unavailable, for too few rows, folds, distinct prices or a log of a non-positive number."""
+    rng = np.random.default_rng(seed)
+    keys, prices, volumes = [], [], []
+    for s in range(n_series):
+        n = int(rng.integers(1, 15))
+        levels = rng.uniform(-1.0 if s % 17 == 0 else 1.0, 3.0, int(rng.integers(1, 6)))
+        price = rng.choice(levels, n)
+        keys += [f"s{s}"] * n
+        prices += list(price)
+        volumes += list(100 * np.abs(price) ** -1.2 * rng.uniform(0.8, 1.2, n) - (s % 23 == 0) * 200)
+    return fitcore.from_columns({"product": np.array(keys, dtype=object)}, np.array(prices), np.array(volumes))
+
+
+def test_each_unavailable_cells_reason_is_its_own_sentence(tmp_path):
+    results = fitcore.fit_batch(awkward_dataset(), FitSettings())
+    write_results(results, tmp_path / "r.parquet")
+    stored = pq.read_table(tmp_path / "r.parquet").column("reason").to_pylist()
+    n_c = results.available.shape[1]
+    expected = [results.reason_text(*divmod(cell, n_c)) for cell in range(results.available.size)]
+    assert (~results.available).sum() > results.available.size / 2 and len(set(expected)) > 10
+    assert stored == expected
+
+
+def test_each_available_cells_covariance_is_its_block_of_the_padded_one(tmp_path):
+    data = random_dataset(11, n_series=300, n_range=(4, 40), with_weight=True)
+    results = fitcore.fit_batch(data, FitSettings())
+    write_results(results, tmp_path / "r.parquet")
+    stored = pq.read_table(tmp_path / "r.parquet").column("cov_unscaled").to_pylist()
+    padded = covariances(results, np.arange(results.n_series))
+    sizes = [c.complexity for c in results.candidates]
+    n_c = len(sizes)
+    assert not results.available.all() and results.available.any()
+    for cell, values in enumerate(stored):
+        s, c = divmod(cell, n_c)
+        if not results.available[s, c]:
+            assert values == []
+            continue
+        k = sizes[c]
+        np.testing.assert_array_equal(np.array(values, dtype=float), padded[s, c, :k, :k].ravel())
