@@ -96,10 +96,11 @@ def _repeat_column(values: np.ndarray, n_c: int):
     counts (-1 → null), booleans."""
     import pyarrow as pa
     if values.dtype == object:  # one dictionary entry per series, not one Python string per row (8× faster)
-        missing = np.array([v is None for v in values], dtype=bool)
-        words = pa.array(["" if v is None else v for v in values], pa.string())
+        import pyarrow.compute as pc
+        words = pa.array(values, pa.string())  # None → null
+        missing = words.is_null().to_numpy(zero_copy_only=False)
         index = pa.array(np.repeat(np.arange(len(values), dtype=np.int32), n_c), mask=np.repeat(missing, n_c))
-        return pa.DictionaryArray.from_arrays(index, words)
+        return pa.DictionaryArray.from_arrays(index, pc.fill_null(words, ""))
     values = np.repeat(values, n_c)
     if values.dtype.kind in "iu":
         return pa.array(values.astype(np.int64), mask=values < 0)
