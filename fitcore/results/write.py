@@ -276,9 +276,15 @@ def _ragged(values, starts, keep):
     """A list per (series, candidate) cell: ``values[starts[s]:starts[s + 1], c]``, empty where not ``keep``."""
     import pyarrow as pa
     n_c = values.shape[1]
-    lengths = np.repeat(np.diff(starts), n_c) * keep
+    folds = np.diff(starts)
+    lengths = np.repeat(folds, n_c) * keep
     bounds = np.concatenate(([0], np.cumsum(lengths)))
-    cell = np.repeat(np.arange(len(lengths)), lengths)
-    within = np.arange(bounds[-1]) - bounds[:-1][cell]
-    flat = (starts[cell // n_c] + within) * n_c + cell % n_c
-    return pa.ListArray.from_arrays(bounds.astype(np.int32), pa.array(values.reshape(-1)[flat], type=pa.float64()))
+    if len(folds) and folds[0] > 0 and (folds == folds[0]).all():  # the usual case: every series has as many folds
+        f = int(folds[0])
+        cells = values[starts[0]:starts[-1]].reshape(len(folds), f, n_c).transpose(0, 2, 1).reshape(-1, f)
+        flat = cells[keep].ravel()
+    else:
+        cell = np.repeat(np.arange(len(lengths)), lengths)
+        within = np.arange(bounds[-1]) - bounds[:-1][cell]
+        flat = values.reshape(-1)[(starts[cell // n_c] + within) * n_c + cell % n_c]
+    return pa.ListArray.from_arrays(bounds.astype(np.int32), pa.array(flat, type=pa.float64()))

@@ -2,6 +2,7 @@
 
 - ``reason``: each unavailable cell's sentence (``Results.reason_text``, which counts a series' distinct
   prices with ``numpy.unique``), on data where most cells are unavailable for many different reasons;
+- ``fold_mse``: each available cell's held-out errors (``Results.folds_of``);
 - ``cov_unscaled``: each available cell's p × p block of ``covariances`` (checked against statsmodels'
   ``normalized_cov_params`` in ``test_snapshot.py``), row by row.
 """
@@ -58,3 +59,16 @@ def test_each_available_cells_covariance_is_its_block_of_the_padded_one(tmp_path
             continue
         k = sizes[c]
         np.testing.assert_array_equal(np.array(values, dtype=float), padded[s, c, :k, :k].ravel())
+
+
+def test_each_available_cells_fold_errors_are_its_folds(tmp_path):
+    # Uniform fold counts (the column taken as one transposed block) and uneven ones (short series).
+    for data in (random_dataset(12, n_series=200), awkward_dataset(5, n_series=400)):
+        results = fitcore.fit_batch(data, FitSettings())
+        write_results(results, tmp_path / "r.parquet")
+        stored = pq.read_table(tmp_path / "r.parquet").column("fold_mse").to_pylist()
+        n_c = results.available.shape[1]
+        for cell, values in enumerate(stored):
+            s, c = divmod(cell, n_c)
+            expected = results.folds_of(s)[:, c] if results.available[s, c] else []
+            np.testing.assert_array_equal(np.array(values, dtype=float), np.asarray(expected, dtype=float))
