@@ -62,9 +62,11 @@ def test_each_available_cells_covariance_is_its_block_of_the_padded_one(tmp_path
 
 
 def test_each_available_cells_fold_errors_are_its_folds(tmp_path):
-    # Uniform fold counts (the column taken as one transposed block) and uneven ones (short series).
-    for data in (random_dataset(12, n_series=200), awkward_dataset(5, n_series=400)):
-        results = fitcore.fit_batch(data, FitSettings())
+    # Uniform fold counts (the column taken as one transposed block) and uneven ones (leave-one-out).
+    for data, folds in ((random_dataset(12, n_series=200), 5), (awkward_dataset(5, n_series=400), 5),
+                        (random_dataset(13, n_series=100, n_range=(8, 20)), "loo")):
+        results = fitcore.fit_batch(data, FitSettings(folds=folds))
+        assert (len(np.unique(np.diff(results.fold_start))) == 1) == (folds == 5)
         write_results(results, tmp_path / "r.parquet")
         stored = pq.read_table(tmp_path / "r.parquet").column("fold_mse").to_pylist()
         n_c = results.available.shape[1]
