@@ -65,8 +65,8 @@ def _flag_texts(results: Results, diagnosis):
         if not len(raised):
             continue
         head = f', {{"code": {json.dumps(code)}, "severity": {json.dumps(SEVERITY[code])}, "message": '
-        texts = pa.array([head + json.dumps(sentence(diagnosis, s, code), ensure_ascii=False) + "}"
-                          for s in raised.tolist()] + [""], pa.string())
+        messages = _json_strings([sentence(diagnosis, s, code) for s in raised.tolist()])
+        texts = pa.concat_arrays([pc.binary_join_element_wise(head, messages, "}", ""), pa.array([""])])
         at = np.full(n_s, len(raised), dtype=np.int64)  # the empty text at the end, where it is not raised
         at[raised] = np.arange(len(raised))
         columns.append(texts.take(pa.array(at)))
@@ -74,6 +74,23 @@ def _flag_texts(results: Results, diagnosis):
     # pyarrow 26), then the first ", " dropped.
     joined = pc.utf8_slice_codeunits(pc.binary_join_element_wise(*columns, ""), 2)
     return pc.binary_join_element_wise("[", joined, "]", "")
+
+
+def _json_strings(texts: list[str]):
+    """Arrow text: each of ``texts`` as ``json.dumps(text, ensure_ascii=False)`` writes it, quoted and
+    escaped column-wise (a text holding a control character goes through ``json.dumps`` itself)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    array = pa.array(texts, pa.string())
+    escaped = pc.replace_substring(pc.replace_substring(array, "\\", "\\\\"), '"', '\\"')
+    quoted = pc.binary_join_element_wise('"', escaped, '"', "")
+    control = pc.match_substring_regex(array, "[\\x00-\\x1f]").to_numpy(zero_copy_only=False)
+    if not control.any():
+        return quoted
+    rare = np.flatnonzero(control)
+    fixed = np.array(quoted.to_pylist(), dtype=object)
+    fixed[rare] = [json.dumps(texts[i], ensure_ascii=False) for i in rare.tolist()]
+    return pa.array(fixed, pa.string())
 
 
 def _num(value) -> float | None:

@@ -4,12 +4,16 @@
   prices with ``numpy.unique``), on data where most cells are unavailable for many different reasons;
 - ``fold_mse``: each available cell's held-out errors (``Results.folds_of``);
 - ``cov_unscaled``: each available cell's p × p block of ``covariances`` (checked against statsmodels'
-  ``normalized_cov_params`` in ``test_snapshot.py``), row by row.
+  ``normalized_cov_params`` in ``test_snapshot.py``), row by row;
+- the flags' messages quoted as ``json.dumps`` (the standard library) quotes them.
 """
 from __future__ import annotations
 
+import json
+
 import numpy as np
 import pyarrow.parquet as pq
+import pytest
 
 import fitcore
 from fitcore.fit.settings import FitSettings
@@ -74,3 +78,12 @@ def test_each_available_cells_fold_errors_are_its_folds(tmp_path):
             s, c = divmod(cell, n_c)
             expected = results.folds_of(s)[:, c] if results.available[s, c] else []
             np.testing.assert_array_equal(np.array(values, dtype=float), np.asarray(expected, dtype=float))
+
+
+@pytest.mark.parametrize("control", [False, True])
+def test_flag_messages_are_quoted_as_json_dumps_quotes_them(control):
+    from fitcore.results.write import _json_strings
+    texts = ['plain', 'a "quoted" name', "back\\slash \\\"", "é ü — × 😀", "\x7f", ""]
+    if control:  # the few holding control characters take json.dumps's own path
+        texts += ["tab\there", "line\nbreak", "\x1b[2J screen", "\x00"]
+    assert _json_strings(texts).to_pylist() == [json.dumps(t, ensure_ascii=False) for t in texts]
