@@ -66,17 +66,21 @@ def parquet_columns(results: Results, backtest=None) -> dict:
     ok = results.available.ravel()
     squares = np.asarray(results.lineup.complexity, dtype=np.int64) ** 2
     bases = np.concatenate(([0], np.cumsum(squares)))
-    parts = []
+    offsets = np.concatenate(([0], np.cumsum(np.where(ok, np.tile(squares, n_s), 0)))).astype(np.int64)
+    flat = np.empty(offsets[-1])
     for start in range(0, n_s, BLOCK):
         block = np.arange(start, min(start + BLOCK, n_s))
         # Each series' p × p matrices side by side, row by row, candidate after candidate; the available
-        # candidates' entries picked in that order are the column's values, series after series.
-        side = np.empty((len(block), bases[-1]))
+        # candidates' entries picked in that order are the column's values, series after series (in
+        # place where every candidate of the block is available, the usual case).
+        lo, hi = offsets[start * n_c], offsets[(start + len(block)) * n_c]
+        whole = bool(results.available[block].all())
+        side = flat[lo:hi].reshape(len(block), -1) if whole else np.empty((len(block), bases[-1]))
         for c, cov in candidate_covariances(results, block):
             side[:, bases[c]:bases[c + 1]] = cov.reshape(len(block), -1)
-        parts.append(side[np.repeat(results.available[block], squares, axis=1)])
-    flat = np.concatenate(parts) if parts else np.zeros(0)
-    offsets = np.concatenate(([0], np.cumsum(np.where(ok, np.tile(squares, n_s), 0)))).astype(np.int32)
+        if not whole:
+            flat[lo:hi] = side[np.repeat(results.available[block], squares, axis=1)]
+    offsets = offsets.astype(np.int32)
     columns = {"sigma2": np.where(ok, np.asarray(results.sigma2, dtype=float).ravel(), np.nan),
                "df": pa.array(np.asarray(results.df).ravel().astype(np.int64), mask=~ok),
                "cov_unscaled": pa.ListArray.from_arrays(offsets, pa.array(flat, type=pa.float64()))}

@@ -47,15 +47,18 @@ def test_each_unavailable_cells_reason_is_its_own_sentence(tmp_path):
     assert stored == expected
 
 
-def test_each_available_cells_covariance_is_its_block_of_the_padded_one(tmp_path):
-    data = random_dataset(11, n_series=300, n_range=(4, 40), with_weight=True)
+@pytest.mark.parametrize("every", [False, True])
+def test_each_available_cells_covariance_is_its_block_of_the_padded_one(tmp_path, every):
+    # Some cells unavailable (picked by a mask), or every one available (written in place).
+    data = (random_dataset(14, n_series=100, n_range=(40, 60)) if every
+            else random_dataset(11, n_series=300, n_range=(4, 40), with_weight=True))
     results = fitcore.fit_batch(data, FitSettings())
+    assert results.available.all() == every and results.available.any()
     write_results(results, tmp_path / "r.parquet")
     stored = pq.read_table(tmp_path / "r.parquet").column("cov_unscaled").to_pylist()
     padded = covariances(results, np.arange(results.n_series))
     sizes = [c.complexity for c in results.candidates]
     n_c = len(sizes)
-    assert not results.available.all() and results.available.any()
     for cell, values in enumerate(stored):
         s, c = divmod(cell, n_c)
         if not results.available[s, c]:
