@@ -55,7 +55,7 @@ def _flag_texts(results: Results, diagnosis):
     import pyarrow.compute as pc
 
     from ..review.flags import CODES, SEVERITY
-    from ..review.sentences import sentence
+    from ..review.sentence_columns import flag_sentences
     n_s = results.n_series
     if diagnosis is None or not diagnosis.raised.any():
         return pa.array(np.full(n_s, "[]", dtype=object), pa.string())
@@ -65,7 +65,7 @@ def _flag_texts(results: Results, diagnosis):
         if not len(raised):
             continue
         head = f', {{"code": {json.dumps(code)}, "severity": {json.dumps(SEVERITY[code])}, "message": '
-        messages = _json_strings([sentence(diagnosis, s, code) for s in raised.tolist()])
+        messages = _json_strings(flag_sentences(diagnosis, raised, code))
         texts = pa.concat_arrays([pc.binary_join_element_wise(head, messages, "}", ""), pa.array([""])])
         at = np.full(n_s, len(raised), dtype=np.int64)  # the empty text at the end, where it is not raised
         at[raised] = np.arange(len(raised))
@@ -76,12 +76,13 @@ def _flag_texts(results: Results, diagnosis):
     return pc.binary_join_element_wise("[", joined, "]", "")
 
 
-def _json_strings(texts: list[str]):
-    """Arrow text: each of ``texts`` as ``json.dumps(text, ensure_ascii=False)`` writes it, quoted and
-    escaped column-wise (a text holding a control character goes through ``json.dumps`` itself)."""
+def _json_strings(texts):
+    """Arrow text: each of ``texts`` (Arrow text or a list) as ``json.dumps(text, ensure_ascii=False)``
+    writes it, quoted and escaped column-wise (a text holding a control character goes through
+    ``json.dumps`` itself)."""
     import pyarrow as pa
     import pyarrow.compute as pc
-    array = pa.array(texts, pa.string())
+    array = texts if isinstance(texts, pa.Array) else pa.array(texts, pa.string())
     escaped = pc.replace_substring(pc.replace_substring(array, "\\", "\\\\"), '"', '\\"')
     quoted = pc.binary_join_element_wise('"', escaped, '"', "")
     control = pc.match_substring_regex(array, "[\\x00-\\x1f]").to_numpy(zero_copy_only=False)
@@ -89,7 +90,7 @@ def _json_strings(texts: list[str]):
         return quoted
     rare = np.flatnonzero(control)
     fixed = np.array(quoted.to_pylist(), dtype=object)
-    fixed[rare] = [json.dumps(texts[i], ensure_ascii=False) for i in rare.tolist()]
+    fixed[rare] = [json.dumps(array[i].as_py(), ensure_ascii=False) for i in rare.tolist()]
     return pa.array(fixed, pa.string())
 
 
