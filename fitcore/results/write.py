@@ -21,11 +21,16 @@ from . import control_fields, cycle
 
 def power_coef_table(results: Results) -> np.ndarray:
     """(S, C, P) every candidate's coefficients in plain units of its regressor (NaN-padded)."""
+    from ..fit.basis import neg_powers
     out = np.full(results.coef.shape, np.nan)
-    for c, cand in enumerate(results.candidates):
-        size = cand.complexity
-        out[:, c, :size] = results.family_of(c).plain(results.coef[:, c, :size], results.basis_mid[:, c],
-                                                       results.basis_half[:, c])
+    for _, cols in results.lineup.groups:  # a family's candidates share a window: its powers computed once
+        mid = results.basis_mid[:, cols.start]
+        powers = neg_powers(mid, int(results.lineup.complexity[cols].max()))
+        for c in range(cols.start, cols.stop):
+            size = results.candidates[c].complexity
+            same = np.array_equal(results.basis_mid[:, c].view(np.int64), mid.view(np.int64))  # bit for bit
+            out[:, c, :size] = results.family_of(c).plain(results.coef[:, c, :size], results.basis_mid[:, c],
+                                                           results.basis_half[:, c], powers if same else None)
     if results.controls is not None:  # the price part with every control at 0 (``Results.power_coef``)
         out[:, :, 0] -= results.controls.shift
     return out
