@@ -77,9 +77,9 @@ def parquet_columns(results: Results, repeat_text) -> dict:
                          rows=n_s * n_c)
     why = []  # each left-out term's ", name: why" (empty where kept), joined, the first ", " dropped
     for j, name in enumerate(ctl.names):
-        texts = np.array(["", *(f", {json.dumps(name, ensure_ascii=False)}: "
-                                + json.dumps(WHY[code].format(name=name), ensure_ascii=False) for code in (CONSTANT, REDUNDANT))],
-                         dtype=object)
+        key = f", {json.dumps(name, ensure_ascii=False)}: "
+        texts = np.array(["", *(key + json.dumps(WHY[code].format(name=name), ensure_ascii=False)
+                                for code in (CONSTANT, REDUNDANT))], dtype=object)
         why.append(texts[np.select([ctl.left_out[:, j] == CONSTANT, ctl.left_out[:, j] == REDUNDANT], [1, 2], 0)])
     left_out = (pc.binary_join_element_wise("{", pc.utf8_slice_codeunits(
         pc.binary_join_element_wise(*[pa.array(w, pa.string()) for w in why], ""), 2), "}", "")
@@ -109,7 +109,8 @@ def _json_object(names, values: list, rows: int):
         return pa.array(np.full(rows, "{}", dtype=object), pa.string())
     pieces = []
     for j, name in enumerate(names):
-        pieces += [("{" if j == 0 else ", ") + json.dumps(name, ensure_ascii=False) + ": ", pa.array(values[j], pa.string())]
+        key = ("{" if j == 0 else ", ") + json.dumps(name, ensure_ascii=False) + ": "
+        pieces += [key, pa.array(values[j], pa.string())]
     return pc.binary_join_element_wise(*pieces, "}", "")
 
 

@@ -282,8 +282,8 @@ def _distinct_prices(data, series: np.ndarray) -> np.ndarray:
     order = np.lexsort((data.price[rows], owner))
     price, owner = data.price[rows][order], owner[order]
     new = np.ones(len(rows), dtype=bool)
-    with np.errstate(invalid="ignore"):
-        new[1:] = (owner[1:] != owner[:-1]) | ((price[1:] != price[:-1]) & ~(np.isnan(price[1:]) & np.isnan(price[:-1])))
+    differs = (price[1:] != price[:-1]) & ~(np.isnan(price[1:]) & np.isnan(price[:-1]))  # NaNs: one, as np.unique
+    new[1:] = (owner[1:] != owner[:-1]) | differs
     return np.bincount(owner[new], minlength=len(series))
 
 

@@ -6,8 +6,9 @@ the unscaled covariance (XᵀWX)⁻¹ of its coefficients in its own basis, its 
 rows (each family's weighted power sums Σw·tᵏ in one compiled pass, factored as the engine
 factors its fits: ``lanes.factor``), or reads it where results were stored with it
 (``StoredResults``); ``candidate_covariances`` gives a block's candidate by candidate, (n, k, k)
-each, for the Parquet column to take without a padded copy.  ``last_dates`` gives each series' last date.  Checked against statsmodels'
-``normalized_cov_params`` in ``tests/fitcore/test_snapshot.py``.
+each, for the Parquet column to take without a padded copy.  ``last_dates`` gives each series'
+last date.  Checked against statsmodels' ``normalized_cov_params`` in
+``tests/fitcore/test_snapshot.py``.
 """
 from __future__ import annotations
 

@@ -46,7 +46,8 @@ _MANY = {"near-tie": _near_tie, "weak-fit": _weak_fit}
 
 
 def fill(template: str, **fields):
-    """Arrow text: ``template.format(**row)`` for each row of ``fields`` (arrays of text, or one text)."""
+    """Arrow text: ``template.format(**row)`` for each row of ``fields`` (arrays of text, or one text;
+    at least one an array)."""
     import pyarrow as pa
     import pyarrow.compute as pc
     pieces = []
@@ -57,10 +58,7 @@ def fill(template: str, **fields):
             pieces.append(literal)
         if name is not None:
             value = fields[name]
-            pieces.append(value if isinstance(value, (str, pa.Array, pa.ChunkedArray)) else pa.array(value, pa.string()))
-    arrays = [p for p in pieces if not isinstance(p, str)]
-    if not arrays:
-        return pa.array(["".join(pieces)], pa.string())
+            pieces.append(value if isinstance(value, (str, pa.Array)) else pa.array(value, pa.string()))
     return pc.binary_join_element_wise(*pieces, "")
 
 
