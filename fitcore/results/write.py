@@ -180,7 +180,7 @@ def write_results(results: Results, path: str | Path, diagnosis=None, *, batch=N
         write(path, lambda handle: handle.write(payload.encode("utf-8")))
     elif is_parquet_name(path):
         table = results_table(results, diagnosis, backtest)
-        write(path, lambda name: write_parquet(table, name), by_name=True)  # pyarrow's own file: no Python per write
+        write(path, lambda name: _write_parquet_named(table, name), by_name=True)
     else:
         raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
     return path
@@ -196,6 +196,14 @@ def write_parquet(table, where) -> None:
     text = [field.name for field in table.schema
             if pa.types.is_dictionary(field.type) or pa.types.is_string(field.type)]
     pq.write_table(table, where, compression="snappy", use_dictionary=text, write_statistics=False)
+
+
+def _write_parquet_named(table, name: str) -> None:
+    """Write through pyarrow's own file (no Python call per write), opened as a local file by name (a
+    path is never taken for a URI)."""
+    import pyarrow as pa
+    with pa.OSFile(name, "wb") as sink:
+        write_parquet(table, sink)
 
 
 def results_table(results: Results, diagnosis=None, backtest=None):

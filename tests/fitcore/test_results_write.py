@@ -117,3 +117,13 @@ def test_control_texts_are_the_json_of_each_cells_and_series_fields(tmp_path, se
         fields = series_controls(ctl, s)
         assert values[cell] == json.dumps(fields["control_values"], ensure_ascii=False)
         assert left_out[cell] == json.dumps(fields["controls_left_out"], ensure_ascii=False)
+
+
+def test_results_land_under_a_name_that_reads_like_a_uri(tmp_path):
+    # The Parquet file is written by pyarrow under the temporary name: a local file, whatever the name says.
+    folder = tmp_path / "s3:" / "bucket%20x"
+    folder.mkdir(parents=True)
+    results = fitcore.fit_batch(random_dataset(15, n_series=20), FitSettings())
+    write_results(results, folder / "r.parquet")
+    assert sorted(p.name for p in folder.iterdir()) == ["r.parquet"]
+    assert pq.read_table(folder / "r.parquet").num_rows == results.available.size
