@@ -16,6 +16,7 @@ import os
 import statistics
 import subprocess
 import sys
+import tempfile
 
 PROBE = r"""
 import json, sys, threading, time
@@ -55,8 +56,11 @@ def main() -> None:
     runs: dict[tuple[str, str], list] = {}
     for _ in range(args.rounds):
         for who, python in pythons.items():
-            found = json.loads(subprocess.run([python, "-c", PROBE, *args.data], capture_output=True, text=True,
-                                              check=True).stdout)
+            # run from a neutral folder: ``-c`` puts the working folder first on the path, which would
+            # import this checkout's fitcore into the other installation
+            found = json.loads(subprocess.run([python, "-c", PROBE, *map(os.path.abspath, args.data)],
+                                              capture_output=True, text=True, check=True,
+                                              cwd=tempfile.gettempdir()).stdout)
             for path, figures in found.items():
                 runs.setdefault((os.path.basename(path), who), []).append(figures)
     print(f"medians of {args.rounds} interleaved rounds; load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
