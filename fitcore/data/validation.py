@@ -137,7 +137,8 @@ def _doubtful(rows: RawRows, blanks: dict, checks: list, date: str | None) -> np
             values, not_number, missing = rows.numbers[name]
             low, high = -LARGEST if signed else 0.0, LARGEST if bounded else np.inf
             least, most = values.min(), values.max()  # NaN when any value is
-            if not_number.any() or missing.any() or not (low <= least and most <= high and np.isfinite([least, most]).all()):
+            within = low <= least and most <= high and np.isfinite([least, most]).all()
+            if not_number.any() or missing.any() or not within:
                 add(not_number | missing | ~(np.isfinite(values) & (values >= low) & (values <= high)))
         if date and rows.date is not None:
             values, unreadable, outside = rows.date

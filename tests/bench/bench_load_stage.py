@@ -63,7 +63,8 @@ def main() -> None:
                                               cwd=tempfile.gettempdir()).stdout)
             for path, figures in found.items():
                 runs.setdefault((os.path.basename(path), who), []).append(figures)
-    print(f"medians of {args.rounds} interleaved rounds; load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
+    print(f"medians of {args.rounds} interleaved rounds; load average {os.getloadavg()[0]:.1f} "
+          f"on {os.cpu_count()} cores")
     print(f"{'':28s} {'CPU s':>6s} {'wall s':>6s} {'MiB before':>10s} {'peak':>6s} {'after':>6s}")
     for (name, who), figures in runs.items():
         cpu, wall, before, peak, after = (statistics.median(f[i] for f in figures) for i in range(5))

@@ -82,14 +82,14 @@ def invented(folder: Path, n: int = 300_000) -> list[Path]:
         column[at] = value
     cells = np.stack([product, region, price, volume, week, weight, promo], axis=1)
     header = "product,region,price,volume,week,w,promo"
-    plain = header + "\n" + "\n".join(",".join(row) for row in cells) + "\n"
+    text = lambda rows: header + "\n" + "\n".join(",".join(row) for row in rows) + "\n"  # noqa: E731
+    plain = text(cells)
     quoted = plain.replace("item-17,", '"item\n17",').replace("item-5,", '"item-5",')
     files = {"invented.csv": plain.encode(), "invented_crlf.csv": plain.replace("\n", "\r\n").encode(),
              "invented_bom.csv": b"\xef\xbb\xbf" + plain.encode(), "invented_quoted.csv": quoted.encode(),
              "invented_blank.csv": plain.replace("\nitem-9,", "\n\nitem-9,").encode(),
              "invented_semicolon.csv": plain.replace(",", ";").encode(),
-             "invented_grouped.csv": (header + "\n" + "\n".join(",".join(row) for row in
-                                                                 cells[np.argsort(product, kind="stable")]) + "\n").encode()}
+             "invented_grouped.csv": text(cells[np.argsort(product, kind="stable")]).encode()}
     paths = []
     for name, data in files.items():
         (folder / name).write_bytes(data)
@@ -101,9 +101,10 @@ def invented(folder: Path, n: int = 300_000) -> list[Path]:
                       "price": numbers(price), "volume": numbers(volume),
                       "week": pa.array([v or None for v in week], pa.string()), "w": numbers(weight),
                       "promo": numbers(promo)})
+    keys = table.column("product")
     variants = {"invented.parquet": table,
-                "invented_dict.parquet": table.set_column(0, "product", table.column("product").dictionary_encode()),
-                "invented_large.parquet": table.set_column(0, "product", table.column("product").cast(pa.large_string())),
+                "invented_dict.parquet": table.set_column(0, "product", keys.dictionary_encode()),
+                "invented_large.parquet": table.set_column(0, "product", keys.cast(pa.large_string())),
                 "invented_int.parquet": table.set_column(0, "product", pa.array(series // 4)),
                 "invented_text_price.parquet": table.set_column(2, "price", pa.array(price.tolist())),
                 "invented_odd_dict.parquet": table.set_column(0, "product", _odd_dictionary(pa, series // 4))}
