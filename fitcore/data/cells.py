@@ -12,6 +12,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from ..errors import DataError
 from .columns import Columns
 from .validation import FIRST_DAY, LAST_DAY, RawRows
 
@@ -37,14 +38,21 @@ def columns_of(table: pa.Table, columns: Columns) -> dict:
     return {name: table.column(name) for name in columns.needed}
 
 
-def raw_from_columns(parts: dict, columns: Columns, line: np.ndarray):
+def raw_from_columns(parts: dict, columns: Columns, line: np.ndarray, path=None):
     """``RawRows`` of the needed Arrow columns by name.  Each column is taken out of ``parts`` at its last
-    use and its memory handed back once converted, so at most one column is held twice at a time."""
+    use and its memory handed back once converted, so at most one column is held twice at a time.
+    A column Arrow cannot turn into text, numbers or dates (bytes that are not UTF-8, a list) is a
+    ``DataError`` naming ``path`` and the column."""
     uses = Counter([*columns.keys, *number_names(columns), *([columns.date] if columns.date else [])])
 
     def convert(name, how):
         uses[name] -= 1
-        out = how(parts[name] if uses[name] else parts.pop(name))
+        try:
+            out = how(parts[name] if uses[name] else parts.pop(name))
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError) as exc:
+            trouble = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+            raise DataError(f"expected UTF-8 text, numbers or dates; found cells Arrow cannot convert ({trouble})",
+                            path=path and str(path), column=name) from None
         give_back_arrow_memory()
         return out
     keys = {name: convert(name, categorical) for name in columns.keys}

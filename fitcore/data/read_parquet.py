@@ -45,7 +45,7 @@ def read_parquet_rows(path: Path, columns: Columns):
     if n_rows == 0:
         raise DataError("expected at least one observation, found none", path=str(path))
     parts, table = columns_of(table, columns), None  # each column freed once converted
-    return raw_from_columns(parts, columns, np.arange(1, n_rows + 1, dtype=np.int64))
+    return raw_from_columns(parts, columns, np.arange(1, n_rows + 1, dtype=np.int64), path)
 
 
 def first_line(exc: Exception) -> str:

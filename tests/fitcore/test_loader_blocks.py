@@ -194,3 +194,14 @@ def test_dictionary_dates_are_the_dates_of_their_decoded_text(texts):
         assert found.dtype == expected.dtype and found.tolist() == expected.tolist()
     no_date = ("", "not a date", "2025-02-30", "9999-12-31")
     assert np.isnat(dates(column)[0]).tolist() == [v is None or v.strip() in no_date for v in sum(texts, [])]
+
+
+def test_a_parquet_key_that_is_not_utf8_is_one_line_naming_file_and_column(tmp_path):
+    from fitcore.errors import DataError
+    path = tmp_path / "bytes.parquet"
+    pq.write_table(pa.table({"product": pa.array([b"caf\xe9", b"tea"] * 5), "price": [1.0, 2.0] * 5,
+                             "volume": [3.0, 4.0] * 5}), path)
+    with pytest.raises(DataError) as caught:
+        load_with_rejects(path, Columns())
+    assert str(path) in str(caught.value) and "'product'" in str(caught.value) and "UTF-8" in str(caught.value)
+    assert "\n" not in str(caught.value)
