@@ -104,7 +104,7 @@ def _fit_locally(args, run) -> int:
     from fitcore.data.plan import plan_keywords
     from fitcore.data.rejects import rejects_path, write_rejects
     from fitcore.outputs import Batch, remove_own
-    from fitcore.results.write import write_results
+    from fitcore.results.write import prepared_results
     from fitcore.review.flags import diagnose
 
     from .progress import ProgressLine
@@ -136,13 +136,16 @@ def _fit_locally(args, run) -> int:
         if ahead is not None:  # the signed curves against the rows since, and the shifted flag
             from .cycle_cli import backtest_against
             diagnosis, backtest = backtest_against(ahead, results, diagnosis, run.thresholds)
-        write_results(results, args.output, diagnosis, batch=batch, backtest=backtest)
+        told = summary(results, diagnosis)
+        write, by_name = prepared_results(results, args.output, diagnosis, backtest)
+        del data, plan, results, diagnosis  # the rows and the fit are in the table now: free before the write
+        batch.add(args.output, write, by_name=by_name)
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
     if len(rejects):  # a warning, not progress: --quiet keeps it
         print(rejects_line(rejects.reasons, target), file=sys.stderr)
     if not args.quiet:
-        print(summary(results, diagnosis, time.perf_counter() - started, args.output), file=sys.stderr)
+        print(told(time.perf_counter() - started, args.output), file=sys.stderr)
         if backtest is not None:
             from .cycle_cli import backtest_line
             print(backtest_line(backtest), file=sys.stderr)
@@ -165,9 +168,11 @@ def strict_or_foreign(rejects, target: Path, strict: bool) -> None:
                         "there; remove it or choose another results name", path=str(target))
 
 
-def summary(results, diagnosis, seconds: float, output: Path) -> str:
+def summary(results, diagnosis):
+    """The closing line's counts, taken now; the line itself given the seconds and the results' name
+    (so the fit need not be kept until the end)."""
     names = results.names
     chosen = Counter(names[c] if c >= 0 else "none" for c in results.chosen.tolist())
-    return summary_line(results.n_series, results.data.n_rows, {name: chosen[name] for name in [*names, "none"]},
-                        diagnosis.counts(), int((~diagnosis.raised.any(axis=1)).sum()), f"in {seconds:.2f} s",
-                        str(output))
+    counts = (results.n_series, results.data.n_rows, {name: chosen[name] for name in [*names, "none"]},
+              diagnosis.counts(), int((~diagnosis.raised.any(axis=1)).sum()))
+    return lambda seconds, output: summary_line(*counts, f"in {seconds:.2f} s", str(output))

@@ -173,17 +173,24 @@ def write_results(results: Results, path: str | Path, diagnosis=None, *, batch=N
     ``batch``: an ``outputs.Batch`` to stage the file in (put in place with the batch's other files).
     """
     path = Path(path)
-    write = (batch.add if batch is not None else atomic_write)
+    write, by_name = prepared_results(results, path, diagnosis, backtest)
+    (batch.add if batch is not None else atomic_write)(path, write, by_name=by_name)
+    return path
+
+
+def prepared_results(results: Results, path: Path, diagnosis=None, backtest=None):
+    """``write_results``' file built in memory now, to be written later: ``(write, by_name)`` for
+    ``outputs.stage``.  Holds no reference to ``results`` or its data, so a caller that drops them
+    before writing keeps the write's peak memory that much lower."""
     if path.suffix.lower() == ".json":
         document = header(results, diagnosis, backtest) | {"series": series_records(results, diagnosis, backtest)}
-        payload = json.dumps(document, ensure_ascii=False, allow_nan=False, indent=None, separators=(",", ":"))
-        write(path, lambda handle: handle.write(payload.encode("utf-8")))
-    elif is_parquet_name(path):
+        payload = json.dumps(document, ensure_ascii=False, allow_nan=False, indent=None,
+                             separators=(",", ":")).encode("utf-8")
+        return (lambda handle: handle.write(payload)), False
+    if is_parquet_name(path):
         table = results_table(results, diagnosis, backtest)
-        write(path, lambda name: _write_parquet_named(table, name), by_name=True)
-    else:
-        raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
-    return path
+        return (lambda name: _write_parquet_named(table, name)), True
+    raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
 
 
 def write_parquet(table, where) -> None:
