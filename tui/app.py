@@ -11,7 +11,8 @@ from textual.widgets import Static
 
 from fitcore.errors import PricefoldError
 
-from .messages import FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
+from . import engine
+from .messages import EngineLoaded, FirstRows, FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
 from .screens.dialogs import MessageDialog
 from .screens.triage import TriageScreen
 from .session import TriageSession
@@ -46,9 +47,12 @@ class LoadingScreen(Screen):
 class TriageApp(App):
     """``opener(progress)`` builds the ``TriageSession``; it runs in a thread worker.
 
-    ``observer(progress)``, when given, runs in a second worker once the session is up and returns
-    ``(results, diagnosis)`` with the observations, for a session opened from a results file.
+    ``observer(progress, first)``, when given, runs in a second worker once the session is up and returns
+    ``(results, diagnosis)`` with the observations, for a session opened from a results file; it calls
+    ``first(reading)`` once the data are read (``fitcore.results.source.refit_stored``), and the series
+    around the cursor are fitted and drawn before the rest.
     """
+    FIRST_AROUND = 60  # rows either side of the cursor fitted first: a page down or two stays observed
 
     CSS_PATH = ["styles/base.tcss", "styles/triage.tcss"]
     TITLE = "pricefold triage"
@@ -82,17 +86,56 @@ class TriageApp(App):
         for warning in message.session.warnings:
             self.notify(clean(warning), severity="warning", timeout=10, markup=False)
         self.call_after_refresh(settle)  # after the first screen is drawn, not before it
-        if self.observer is not None:  # once the first screen is drawn: the fit competes for the interpreter
-            self.call_after_refresh(lambda: self.set_timer(0.2, self.read_observations))
+        if not engine.loaded():  # once the first screen is drawn: loading it competes for the interpreter
+            self.call_after_refresh(self.load_engine)
+        if self.observer is not None:
+            self.call_after_refresh(self.read_observations)
+
+    @work(thread=True, exit_on_error=False, group="engine")
+    def load_engine(self) -> None:
+        engine.load()
+        self.post_message(EngineLoaded())
+
+    def on_engine_loaded(self, message: EngineLoaded) -> None:
+        if isinstance(self.screen, TriageScreen):
+            self.screen.evidence.redraw_charts()
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="observations")
     def read_observations(self) -> None:
         try:
-            results, diagnosis = self.observer(lambda done, total: None)
+            results, diagnosis = self.observer(lambda done, total: None, self.fit_first)
         except (PricefoldError, OSError) as exc:
             self.post_message(RowsFailed(str(exc)))
             return
         self.post_message(RowsLoaded(results, diagnosis))
+
+    def fit_first(self, reading) -> None:
+        """In the observations' worker, the data just read: fit the series around the cursor (the same
+        engine on their rows alone: the whole fit's numbers) and show their observations before the rest."""
+        from fitcore.data.keys import SeriesKeys
+        wanted = self.call_from_thread(self.around_cursor)
+        if not wanted:
+            return
+        found = SeriesKeys.of(reading.data).indices_of([key for _, key in wanted])
+        pairs = sorted((int(at), s) for at, (s, _) in zip(found, wanted) if at >= 0)
+        if pairs:
+            results, _ = reading.fit(series=[at for at, _ in pairs])
+            self.post_message(FirstRows(results, [s for _, s in pairs]))
+
+    def around_cursor(self) -> list[tuple[int, dict]]:
+        """The series listed near the cursor, the highlighted one first, with their keys."""
+        session = self.session
+        if session is None or session.current is None:
+            return []
+        cursor, view = session.cursor, session.view
+        near = [int(s) for s in view[max(cursor - self.FIRST_AROUND, 0):cursor + self.FIRST_AROUND]]
+        order = [session.current] + [s for s in near if s != session.current]
+        return [(s, session.keys.key_of(s)) for s in order]
+
+    def on_first_rows(self, message: FirstRows) -> None:
+        if self.session is not None and self.session.observe_first(message.results, message.series):
+            if isinstance(self.screen, TriageScreen):
+                self.screen.evidence.redraw_charts()
 
     def on_rows_loaded(self, message: RowsLoaded) -> None:
         if self.session is not None and self.session.upgrade(message.results, message.diagnosis):

@@ -151,10 +151,10 @@ def refit_stored(source: Source, progress: Callable[[int, int], None] | None = N
 
     ``first(reading)``, when given, is called once the data are read and before the whole fit (a screen
     fits the series it shows first: ``reading.fit(series=…)``)."""
-    if source.expected_sha256 and file_sha256(source.data) != source.expected_sha256:
+    reading = read_source(source)  # the loader hashes the file while it reads it: no second pass over it
+    if source.expected_sha256 and reading.data.source.get("sha256") != source.expected_sha256:
         raise DataError("changed since the results were written: showing the results without observations; "
                         "run 'pricefold triage' on the data file for a fresh fit", path=str(source.data))
-    reading = read_source(source)
     if first is not None:
         first(reading)
     return reading.fit(progress)

@@ -27,9 +27,9 @@ def fit_to_parquet(tmp_path: Path) -> tuple[Path, Path]:
 def stored_app(out: Path, ledger_path: Path, gate: threading.Event) -> TriageApp:
     source = source_from_results(out, check_data=False)
 
-    def observer(progress):
+    def observer(progress, first=None):
         gate.wait(20)  # the test decides when the data "arrive"
-        return refit_stored(source, progress)
+        return refit_stored(source, progress, first)
     return TriageApp(lambda progress: open_stored_session(out, ledger_path, ANA, None, progress), observer=observer)
 
 

@@ -22,6 +22,7 @@ from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money
 
+from .. import engine
 from ..cells import cut
 from ..session import TriageSession, describe
 from ..text import clean
@@ -90,7 +91,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return (None,)
         records = session.history(s)
         news = session.news.get("digest") if session.news is not None else None
-        return (s, session.results, session.status[s], records[-1].get("digest") if records else None, news,
+        return (s, session.results, session.observed(s)[0], session.status[s], records[-1].get("digest") if records else None, news,
                 session.waiting, session.model_of(s))
 
     def redraw(self) -> None:
@@ -124,10 +125,14 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         s = self.series
         width = max(self.scrollable_content_region.width - 3, 30)
         tall = self.app.size.height >= 40
-        results = self.session.results
-        self._part("curve").update(curve_chart(results, s, width, 18 if tall else 12, self.session.model_of(s),
-                                               self.session.units, self.adjusted, self.signed_shown(s)))
-        self._part("folds").update(fold_chart(results, s, width, 12 if tall else 9))
+        observed, at = self.session.observed(s)  # the series fitted first, before the whole data, if it is one
+        if observed.rows_loaded or engine.loaded():
+            self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
+                                                   self.session.units, self.adjusted, self.signed_shown(s)))
+        else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
+            self._part("curve").update(Text("curves: starting the engine …; observations and band: reading the "
+                                            "data …", style="dim"))
+        self._part("folds").update(fold_chart(self.session.results, s, width, 12 if tall else 9))
 
     # -- the parts ----------------------------------------------------------------------------
     def title_text(self, s: int) -> Text:
