@@ -12,7 +12,7 @@ from textual.widgets import Static
 from fitcore.errors import PricefoldError
 
 from . import engine
-from .messages import EngineLoaded, FirstRows, FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
+from .messages import EvidenceReady, FirstRows, FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
 from .screens.dialogs import MessageDialog
 from .screens.triage import TriageScreen
 from .session import TriageSession
@@ -88,17 +88,29 @@ class TriageApp(App):
         self.call_after_refresh(settle)  # after the first screen is drawn, not before it
         if not engine.loaded():  # once the first screen is drawn: loading it competes for the interpreter
             self.call_after_refresh(self.load_engine)
+        if not getattr(message.session.results, "complete", True):
+            self.await_results(message.session.results)
         if self.observer is not None:
             self.call_after_refresh(self.read_observations)
 
     @work(thread=True, exit_on_error=False, group="engine")
     def load_engine(self) -> None:
         engine.load()
-        self.post_message(EngineLoaded())
+        self.post_message(EvidenceReady())
 
-    def on_engine_loaded(self, message: EngineLoaded) -> None:
+    @work(thread=True, exit_on_error=False, group="results")
+    def await_results(self, results) -> None:
+        """The columns of the results file read behind the list (``stored_results(later=True)``)."""
+        try:
+            results.later.table()
+        except (PricefoldError, OSError) as exc:
+            self.post_message(LoadFailed(str(exc)))
+            return
+        self.post_message(EvidenceReady())
+
+    def on_evidence_ready(self, message: EvidenceReady) -> None:
         if isinstance(self.screen, TriageScreen):
-            self.screen.evidence.redraw_charts()
+            self.screen.evidence.redraw()
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="observations")
     def read_observations(self) -> None:

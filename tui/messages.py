@@ -49,8 +49,8 @@ class FirstRows(Message):
         self.results, self.series = results, series
 
 
-class EngineLoaded(Message):
-    """The engine's compiled loops are loaded: curves can be drawn without stalling the screen."""
+class EvidenceReady(Message):
+    """Something the evidence waited for is in (the engine's compiled loops, the rest of a results file)."""
 
 
 class RowsFailed(Message):

@@ -47,10 +47,44 @@ async def test_the_list_and_decisions_work_before_the_observations_arrive(tmp_pa
         await pilot.press("a")
         await until(pilot, lambda: ledger_path.exists() and ledger_path.read_text().strip())
         gate.set()
-        await until(pilot, lambda: "• observed" in screen_text(app), seconds=30)
-        assert app.session.results.rows_loaded and app.session.status[first] == "accepted"
+        await until(pilot, lambda: app.session.results.rows_loaded, seconds=30)
+        await until(pilot, lambda: "• observed" in screen_text(app))
+        assert app.session.status[first] == "accepted"
     record = json.loads(ledger_path.read_text().splitlines()[0])
     assert record["action"] == "accept" and record["fingerprint"] == fingerprint
+
+
+async def test_the_series_on_screen_are_observed_before_the_whole_fit(tmp_path):
+    """The data read, the series around the cursor are fitted first and drawn while the rest wait; the
+    whole fit then replaces them, and the highlighted series' curve is the same chart."""
+    _, out = fit_to_parquet(tmp_path)
+    source = source_from_results(out, check_data=False)
+    hold = threading.Event()
+
+    def observer(progress, first=None):
+        def first_then_hold(reading):
+            first(reading)
+            hold.wait(20)  # the whole fit waits until the test has looked
+        return refit_stored(source, progress, first_then_hold)
+    app = TriageApp(lambda progress: open_stored_session(out, tmp_path / "ledger.jsonl", ANA, None, progress),
+                    observer=observer)
+    async with app.run_test(size=(160, 50)) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        await until(pilot, lambda: "• observed" in screen_text(app), seconds=30)
+        session = app.session
+        assert not session.results.rows_loaded
+        s = session.current
+        early, at = session.observed(s)
+        assert early is not session.results and early.data.fingerprint_of(at) == session.results.data.fingerprint_of(s)
+        before = str(app.screen.evidence._part("curve").render())
+        assert "• observed" in before and "⠤⠤" in before
+        hold.set()
+        await until(pilot, lambda: session.results.rows_loaded, seconds=30)
+        await pilot.pause()
+        app.screen.evidence.redraw()
+        await pilot.pause()
+        assert session.observed(session.current) == (session.results, session.current)
+        assert str(app.screen.evidence._part("curve").render()) == before
 
 
 async def test_changed_data_keep_the_stored_results_and_say_so(tmp_path):

@@ -91,8 +91,13 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return (None,)
         records = session.history(s)
         news = session.news.get("digest") if session.news is not None else None
-        return (s, session.results, session.observed(s)[0], session.status[s], records[-1].get("digest") if records else None, news,
+        return (s, session.results, session.observed(s)[0], self.complete, engine.loaded(), session.status[s], records[-1].get("digest") if records else None, news,
                 session.waiting, session.model_of(s))
+
+    @property
+    def complete(self) -> bool:
+        """Every column of the results is read (a results file's largest ones come in behind the list)."""
+        return getattr(self.session.results, "complete", True)
 
     def redraw(self) -> None:
         self._drawn = self.drawn_state(self.series)
@@ -126,6 +131,10 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         width = max(self.scrollable_content_region.width - 3, 30)
         tall = self.app.size.height >= 40
         observed, at = self.session.observed(s)  # the series fitted first, before the whole data, if it is one
+        if not self.complete:
+            for name in ("curve", "folds"):
+                self._part(name).update(Text("charts: reading the results file …", style="dim"))
+            return
         if observed.rows_loaded or engine.loaded():
             self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
                                                    self.session.units, self.adjusted, self.signed_shown(s)))
@@ -231,7 +240,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         missing = Text(style="dim")
         for c, cand in enumerate(results.candidates):
             if not results.available[s, c]:
-                missing.append(f"  {cand.name}: {clean(results.reason_text(s, c) or '')}\n")
+                why = clean(results.reason_text(s, c) or '') if self.complete else "(reading the reason …)"
+                missing.append(f"  {cand.name}: {why}\n")
                 continue
             mark = "✓" if c == results.chosen[s] else ""
             mark += "↺" if c == model and c != results.chosen[s] else ""
