@@ -88,8 +88,9 @@ class TriageApp(App):
         self.call_after_refresh(settle)  # after the first screen is drawn, not before it
         if not engine.loaded():  # once the first screen is drawn: loading it competes for the interpreter
             self.call_after_refresh(self.load_engine)
-        if not getattr(message.session.results, "complete", True):
-            self.await_results(message.session.results)
+        results = message.session.results
+        if not getattr(results, "complete", True):  # the rest of the file, once the list is on screen
+            self.call_after_refresh(self.await_results, results)
         if self.observer is not None:
             self.call_after_refresh(self.read_observations)
 
@@ -109,8 +110,12 @@ class TriageApp(App):
         self.post_message(EvidenceReady())
 
     def on_evidence_ready(self, message: EvidenceReady) -> None:
-        if isinstance(self.screen, TriageScreen):
-            self.screen.evidence.redraw()
+        screen = self.screen if isinstance(self.screen, TriageScreen) else None
+        if screen is None:  # a dialog over the triage screen
+            screen = next((s for s in self.screen_stack if isinstance(s, TriageScreen)), None)
+        if screen is not None:
+            screen.evidence.redraw()
+            screen.results_complete()
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="observations")
     def read_observations(self) -> None:

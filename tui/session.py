@@ -333,6 +333,9 @@ class TriageSession(ListState):
             raise ledger.LedgerConflict(f"{describe(records[-1])}; look again", records[-1])
         if self.waiting and s == self.current and action != "revoke":
             raise Refused("this series has left the list you are working through; move on first")
+        later = getattr(self.results, "later", None)
+        if action in ("accept", "override") and later is not None:
+            later.table()  # the interval parts a sign-off records (the screen asks only once they are in)
         if action == "accept":
             model = shown.proposed
         signed = self.signed_model(s, model) if action in ("accept", "override") else None

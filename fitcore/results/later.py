@@ -5,14 +5,24 @@ from ..errors import DataError
 
 
 class LaterColumns:
-    """Columns of a results file read in a thread: ``column(name)`` is a ``Later`` that waits for the read
-    on first use, ``ready`` says whether it is done.  A file that fails to read then raises where used."""
+    """Columns of a results file read in a thread once started (``start``; the first use starts it too):
+    ``column(name)`` is a ``Later`` that waits for the read on first use, ``ready`` says whether it is done.
+    A file that fails to read then raises where used."""
 
     def __init__(self, parts: list, names: list[str]) -> None:
         import threading
-        self.names, self._table, self._error = names, None, None
-        self._done = threading.Event()
-        threading.Thread(target=self._read, args=(parts,), name="pricefold-results", daemon=True).start()
+        self.names, self._parts, self._table, self._error = names, parts, None, None
+        self._done, self._started = threading.Event(), threading.Lock()
+        self._thread = None
+
+    def start(self) -> None:
+        """Start reading (once): a screen starts it after its first frame, off the list's critical path."""
+        import threading
+        with self._started:
+            if self._thread is None:
+                self._thread = threading.Thread(target=self._read, args=(self._parts,), name="pricefold-results",
+                                                daemon=True)
+                self._thread.start()
 
     def _read(self, parts) -> None:
         import pyarrow as pa
@@ -30,6 +40,7 @@ class LaterColumns:
         return self._done.is_set()
 
     def table(self):
+        self.start()
         self._done.wait()
         if self._error is not None:
             raise DataError(f"could not read the rest of the results ({self._error})")

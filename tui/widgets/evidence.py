@@ -131,7 +131,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         width = max(self.scrollable_content_region.width - 3, 30)
         tall = self.app.size.height >= 40
         observed, at = self.session.observed(s)  # the series fitted first, before the whole data, if it is one
-        if not self.complete:
+        if not (observed.rows_loaded or self.complete):  # a fit brings its own numbers; a file's wait to be read
             for name in ("curve", "folds"):
                 self._part(name).update(Text("charts: reading the results file …", style="dim"))
             return
@@ -141,7 +141,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
             self._part("curve").update(Text("curves: starting the engine …; observations and band: reading the "
                                             "data …", style="dim"))
-        self._part("folds").update(fold_chart(self.session.results, s, width, 12 if tall else 9))
+        self._part("folds").update(fold_chart(observed, at, width, 12 if tall else 9))
 
     # -- the parts ----------------------------------------------------------------------------
     def title_text(self, s: int) -> Text:
