@@ -172,7 +172,9 @@ class TriageSession(ListState):
         self.keys, self._labels, self._search = fresh, {}, None
         self.results, self.first_fit, self._first_rows = results, None, {}
         self._with_backtest(results, diagnosis)
-        self.reload_ledger(force=True, pin="brought")
+        # Records another analyst made meanwhile may take the highlighted series out of the list: as on any
+        # reload the analyst did not ask for, it stays listed and decision keys wait until they move.
+        self.reload_ledger(force=True, pin="waits")
         if self.shown is not None:
             self.look(self.index_of(self.shown))
         return True

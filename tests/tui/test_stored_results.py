@@ -128,3 +128,28 @@ def test_observations_in_another_series_order_keep_each_series_status(tmp_path):
     assert t != s and session.status[t] == "held" and session.results.rows_loaded
     assert session.label(t).startswith(held["product"])
     assert session.results.data.key_of(session.current) == current
+
+
+def test_another_analysts_decision_read_with_the_observations_makes_the_keys_wait(tmp_path):
+    """The whole fit arrives and, in the same look at the ledger, another analyst's decision on the
+    highlighted series: it stays listed but no decision key acts on it until the analyst moves."""
+    from fitcore import ledger
+    from fitcore.ledger import Identity
+    from tui.session import Refused
+    _, out = fit_to_parquet(tmp_path)
+    ledger_path = tmp_path / "ledger.jsonl"
+    session = open_stored_session(out, ledger_path, ANA)
+    s = session.current
+    shown = session.look(s)
+    ledger.append(ledger_path, [ledger.Entry(series=shown.key, action="hold", fingerprint=shown.fingerprint,
+                                             results=session.results_digest, proposed=shown.proposed)],
+                  Identity("bo", "bo", "elsewhere"))
+    assert session.upgrade(*refit_stored(source_from_results(out, check_data=False)))
+    assert session.current == session.index_of(shown) and session.status[session.current] == "held"
+    assert session.waiting
+    try:
+        session.decide(session.look(session.current), "hold")
+    except Refused as exc:
+        assert "left the list" in str(exc)
+    else:
+        raise AssertionError("a decision acted on a series another analyst had just decided")
