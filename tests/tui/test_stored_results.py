@@ -153,3 +153,34 @@ def test_another_analysts_decision_read_with_the_observations_makes_the_keys_wai
         assert "left the list" in str(exc)
     else:
         raise AssertionError("a decision acted on a series another analyst had just decided")
+
+
+async def test_an_accept_pressed_before_the_file_is_all_read_waits_then_acts_on_that_series(tmp_path, monkeypatch):
+    """Accept records the curve's interval parts, read behind the list: pressed before they are in, the key
+    says it waits, then acts on the series it was pressed on, and the record holds the whole snapshot."""
+    from fitcore.results.later import LaterColumns
+    from tui.messages import EvidenceReady
+    _, out = fit_to_parquet(tmp_path)
+    ledger_path, gate, held = tmp_path / "ledger.jsonl", threading.Event(), threading.Event()
+    start = LaterColumns.start
+
+    def held_start(self):
+        threading.Thread(target=lambda: (held.wait(20), start(self)), daemon=True).start()
+    monkeypatch.setattr(LaterColumns, "start", held_start)
+    app = stored_app(out, ledger_path, gate)
+    async with app.run_test(size=(80, 24), notifications=True) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        shown = app.session.shown
+        await pilot.press("a")
+        await until(pilot, lambda: any("the key acts when it is in" in n.message for n in app._notifications))
+        assert not ledger_path.exists()
+        app.post_message(EvidenceReady())  # the engine's loops came in first: the key keeps waiting
+        await pilot.pause()
+        assert not ledger_path.exists() and "Say why" not in screen_text(app)
+        held.set()
+        await until(pilot, lambda: "Say why" in screen_text(app))  # a stop flag: the note first, as ever
+        await pilot.press(*"seen", "enter")
+        await until(pilot, lambda: ledger_path.exists() and ledger_path.read_text().strip())
+    record = json.loads(ledger_path.read_text().splitlines()[0])
+    assert record["action"] == "accept" and record["series"] == shown.key
+    assert record["signed"]["cov_unscaled"] is not None and "incomplete" not in record["signed"]

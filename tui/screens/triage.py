@@ -200,9 +200,11 @@ class TriageScreen(Screen):
 
     def results_complete(self) -> None:
         """The rest of the results file is in: a key that waited for it acts now, on the series it was pressed on."""
-        waiting, self._waiting_key = self._waiting_key, None
-        if (waiting is not None and waiting[1] == self.session.shown and self.app.screen is self
-                and getattr(self.session.results, "complete", True)):
+        waiting = self._waiting_key
+        if waiting is None or not getattr(self.session.results, "complete", True):
+            return
+        self._waiting_key = None
+        if waiting[1] == self.session.shown and self.app.screen is self:
             getattr(self, f"action_{waiting[0]}")()
 
     def action_accept(self) -> None:
