@@ -43,7 +43,7 @@ class LaterColumns:
         self.start()
         self._done.wait()
         if self._error is not None:
-            raise DataError(f"could not read the rest of the results ({self._error})")
+            raise DataError(f"could not read the rest of the results ({self._error})", path=str(self._parts[0]))
         return self._table
 
     def column(self, name: str) -> "Later":
