@@ -1,6 +1,11 @@
 """Benchmark of the triage screen on 100k invented series: start-up and key-to-repaint.
 
     python tests/bench/bench_triage.py [--series 100000]
+    python tests/bench/bench_triage.py --results RESULTS.parquet [--runs 3] [--python PY ...]
+
+The second form only times launch → list and → observations on an existing results file, ``--runs``
+rounds, each round every ``--python`` in turn (interleaved: e.g. main's venv and this one's), with the
+load average beside each run.
 
 Writes invented data and its results file (``pricefold fit``), then prints,
 measured in one run: from launching ``pricefold triage RESULTS`` in a tmux
