@@ -86,11 +86,13 @@ class TriageApp(App):
         for warning in message.session.warnings:
             self.notify(clean(warning), severity="warning", timeout=10, markup=False)
         self.call_after_refresh(settle)  # after the first screen is drawn, not before it
-        if not engine.loaded():  # once the first screen is drawn: loading it competes for the interpreter
-            self.call_after_refresh(self.load_engine)
+        if not engine.loaded() and self.observer is None:  # once the first screen is drawn (else the fit loads it,
+            self.call_after_refresh(self.load_engine)  # after the data: alongside their read it slowed both)
         results = message.session.results
-        if not getattr(results, "complete", True):  # the rest of the file, once the list is on screen
-            self.call_after_refresh(self.await_results, results)
+        if not getattr(results, "complete", True):  # the rest of the file: read once the series on screen are
+            self.call_after_refresh(self.await_results, results)  # fitted (alongside the data's read it slowed
+            if self.observer is None:  # both), or at once without data, or when a key needs it
+                self.call_after_refresh(self.read_the_rest)
         if self.observer is not None:
             self.call_after_refresh(self.read_observations)
 
@@ -103,6 +105,7 @@ class TriageApp(App):
     def await_results(self, results) -> None:
         """The columns of the results file read behind the list (``stored_results(later=True)``)."""
         try:
+            results.later.wait()
             results.later.table()
         except (PricefoldError, OSError) as exc:
             self.post_message(LoadFailed(str(exc)))
@@ -123,21 +126,35 @@ class TriageApp(App):
             results, diagnosis = self.observer(lambda done, total: None, self.fit_first)
         except (PricefoldError, OSError) as exc:
             self.post_message(RowsFailed(str(exc)))
+            self.read_the_rest()
+            engine.load()  # the curves are still drawn, without observations
+            self.post_message(EvidenceReady())
             return
+        engine.load()
         self.post_message(RowsLoaded(results, diagnosis))
+
+    def read_the_rest(self) -> None:
+        """Start reading the columns of the results file that wait behind the list (once; from any thread)."""
+        later = getattr(self.session.results, "later", None) if self.session is not None else None
+        if later is not None:
+            later.start()
 
     def fit_first(self, reading) -> None:
         """In the observations' worker, the data just read: fit the series around the cursor (the same
         engine on their rows alone: the whole fit's numbers) and show their observations before the rest."""
         from fitcore.data.keys import SeriesKeys
-        wanted = self.call_from_thread(self.around_cursor)
-        if not wanted:
-            return
-        found = SeriesKeys.of(reading.data).indices_of([key for _, key in wanted])
-        pairs = sorted((int(at), s) for at, (s, _) in zip(found, wanted) if at >= 0)
-        if pairs:
-            results, _ = reading.fit(series=[at for at, _ in pairs])
-            self.post_message(FirstRows(results, [s for _, s in pairs]))
+        try:
+            wanted = self.call_from_thread(self.around_cursor)
+            if not wanted:
+                return
+            found = SeriesKeys.of(reading.data).indices_of([key for _, key in wanted])
+            pairs = sorted((int(at), s) for at, (s, _) in zip(found, wanted) if at >= 0)
+            if pairs:
+                results, _ = reading.fit(series=[at for at, _ in pairs])
+                engine.load()  # the fit has started numba: the curve loop is a moment more
+                self.post_message(FirstRows(results, [s for _, s in pairs]))
+        finally:
+            self.read_the_rest()
 
     def around_cursor(self) -> list[tuple[int, dict]]:
         """The series listed near the cursor, the highlighted one first, with their keys."""
@@ -150,8 +167,9 @@ class TriageApp(App):
         return [(s, session.keys.key_of(s)) for s in order]
 
     def on_first_rows(self, message: FirstRows) -> None:
-        if self.session is not None and self.session.observe_first(message.results, message.series):
-            if isinstance(self.screen, TriageScreen):
+        if self.session is not None:
+            self.session.observe_first(message.results, message.series)
+            if isinstance(self.screen, TriageScreen):  # the engine is in now, too
                 self.screen.evidence.redraw_charts()
 
     def on_rows_loaded(self, message: RowsLoaded) -> None:
@@ -163,6 +181,8 @@ class TriageApp(App):
         else:
             self.notify("The data no longer match the results file: observations are not shown.",
                         severity="warning", timeout=10, markup=False)
+            if isinstance(self.screen, TriageScreen):  # the curves, now the engine is in
+                self.screen.evidence.redraw_charts()
 
     def on_rows_failed(self, message: RowsFailed) -> None:
         self.notify(clean(message.reason), severity="warning", timeout=10, markup=False)

@@ -39,6 +39,10 @@ class LaterColumns:
     def ready(self) -> bool:
         return self._done.is_set()
 
+    def wait(self) -> None:
+        """Until the read is done, without starting it."""
+        self._done.wait()
+
     def table(self):
         self.start()
         self._done.wait()

@@ -195,6 +195,7 @@ class TriageScreen(Screen):
         if getattr(self.session.results, "complete", True):
             return False
         self._waiting_key = (action, self.session.shown)
+        self.app.read_the_rest()  # if not begun yet (it waits for the series on screen to be fitted first)
         self.notify("Reading the rest of the results file: the key acts when it is in.", timeout=3, markup=False)
         return True
 
