@@ -53,6 +53,7 @@ class TriageApp(App):
     around the cursor are fitted and drawn before the rest.
     """
     FIRST_AROUND = 60  # rows either side of the cursor fitted first: a page down or two stays observed
+    SMALL = 20_000  # series: a results file this small is read whole at once (its data are no slower for it)
 
     CSS_PATH = ["styles/base.tcss", "styles/triage.tcss"]
     TITLE = "pricefold triage"
@@ -86,12 +87,15 @@ class TriageApp(App):
         for warning in message.session.warnings:
             self.notify(clean(warning), severity="warning", timeout=10, markup=False)
         self.call_after_refresh(settle)  # after the first screen is drawn, not before it
-        if not engine.loaded() and self.observer is None:  # once the first screen is drawn (else the fit loads it,
-            self.call_after_refresh(self.load_engine)  # after the data: alongside their read it slowed both)
+        # Once the first screen is drawn.  With data to read, the engine's loops and the rest of a large results
+        # file wait for the series around the cursor to be fitted: alongside the data's read they slowed it.
         results = message.session.results
-        if not getattr(results, "complete", True):  # the rest of the file: read once the series on screen are
-            self.call_after_refresh(self.await_results, results)  # fitted (alongside the data's read it slowed
-            if self.observer is None:  # both), or at once without data, or when a key needs it
+        at_once = self.observer is None or results.n_series <= self.SMALL
+        if not engine.loaded() and at_once:
+            self.call_after_refresh(self.load_engine)
+        if not getattr(results, "complete", True):
+            self.call_after_refresh(self.await_results, results)
+            if at_once:
                 self.call_after_refresh(self.read_the_rest)
         if self.observer is not None:
             self.call_after_refresh(self.read_observations)
