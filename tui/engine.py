@@ -2,7 +2,8 @@
 
 Drawing a curve evaluates it with a compiled loop; the first such call starts numba and loads the
 cached loops (0.4–0.7 s here), which on the first frame held the whole screen back.  The app loads them
-in a worker instead, and the evidence draws its curves once they are in (``loaded``).
+off the UI thread (with the first fit of the data, or in a worker), and the evidence draws its curves
+once they are in (``loaded``).
 """
 from __future__ import annotations
 

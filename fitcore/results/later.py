@@ -16,7 +16,8 @@ class LaterColumns:
         self._thread = None
 
     def start(self) -> None:
-        """Start reading (once): a screen starts it after its first frame, off the list's critical path."""
+        """Start reading (once; from any thread): triage starts it once the list and the series around the
+        cursor are drawn, or when a key needs these columns."""
         import threading
         with self._started:
             if self._thread is None:

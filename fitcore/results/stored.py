@@ -31,8 +31,8 @@ from .later import LaterColumns
 from .read import read_header, result_parts
 
 # The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
-# ``LATER``: the largest of them, which the list does not need; ``stored_results(later=True)`` reads them
-# (and the covariances) in a thread while the list is shown.
+# ``LATER``: the largest of them, which the list does not need; ``stored_results(later=True)`` leaves them
+# (and the covariances) to a thread its caller starts (``LaterColumns``).
 NEEDED = ("n", "price_lo", "price_hi", "candidate", "available", "reason", "cv_mse", "cv_se", "fold_mse", "r2", "q2",
           "window_coef", "smearing", "is_chosen", "score", "revenue_price", "plan_price", "plan_volume", "plan_lo",
           "plan_hi", "plan_elasticity", "flags", "fingerprint")
@@ -159,8 +159,8 @@ class StoredDiagnosis(Diagnosis):
 def stored_results(path: str | Path, later: bool = False) -> tuple[StoredResults, StoredDiagnosis]:
     """Open a Parquet results file; a ``DataError`` if it lacks what triage needs (written by an older pricefold).
 
-    ``later``: read the ``LATER`` columns and the covariances in a thread (``StoredResults.later``), so what
-    a list needs is back sooner; using one of them waits for that read."""
+    ``later``: leave the ``LATER`` columns and the covariances to a thread (``StoredResults.later``: started
+    by the caller, or by the first use of one of them, which waits for it), so what a list needs is back sooner."""
     import pyarrow as pa
     import pyarrow.parquet as pq
     path = Path(path)
@@ -168,11 +168,10 @@ def stored_results(path: str | Path, later: bool = False) -> tuple[StoredResults
     settings = settings_from_dict(meta["settings"])
     wanted = [*meta["key_columns"], *NEEDED, *(CONTROL_COLUMNS if meta["settings"].get("controls") else ())]
     parts = result_parts(path) or [path]
-    tables, names = [], None
+    tables = []
     for part in parts:
         reader = pq.ParquetFile(part)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
-        names = reader.schema_arrow.names
-        missing = [name for name in wanted if name not in names]
+        missing = [name for name in wanted if name not in reader.schema_arrow.names]
         if missing:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
         tables.append(reader.read(columns=[n for n in wanted if not (later and n in LATER)]))
