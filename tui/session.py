@@ -187,7 +187,8 @@ class TriageSession(ListState):
         if self.results.rows_loaded:
             return 0
         data = self.results.data
-        rows = {int(s): i for i, s in enumerate(series) if results.data.fingerprint_of(i) == data.fingerprint_of(int(s))}
+        rows = {int(s): i for i, s in enumerate(series)
+                if results.data.fingerprint_of(i) == data.fingerprint_of(int(s))}
         self.first_fit, self._first_rows = results, rows
         return len(rows)
 

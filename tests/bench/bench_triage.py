@@ -140,7 +140,8 @@ async def measure_keys(results_path: Path, folder: Path, other: bool) -> None:
     session = open_stored_session(results_path, ledger_path, who)
     opened = time.perf_counter() - start
     source = source_from_results(results_path, check_data=False)
-    app = TriageApp(lambda progress: session, observer=lambda progress, first=None: refit_stored(source, progress, first))
+    app = TriageApp(lambda progress: session,
+                    observer=lambda progress, first=None: refit_stored(source, progress, first))
     process = stop = None
     if other:  # bo decides series outside ana's list (none needing attention): each poll has news, none pins
         picks = [int(s) for s in np.flatnonzero(~session.needs_attention())[::-1][:3000]]

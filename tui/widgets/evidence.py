@@ -91,8 +91,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return (None,)
         records = session.history(s)
         news = session.news.get("digest") if session.news is not None else None
-        return (s, session.results, session.observed(s)[0], self.complete, engine.loaded(), session.status[s], records[-1].get("digest") if records else None, news,
-                session.waiting, session.model_of(s))
+        return (s, session.results, session.observed(s)[0], self.complete, engine.loaded(), session.status[s],
+                records[-1].get("digest") if records else None, news, session.waiting, session.model_of(s))
 
     @property
     def complete(self) -> bool:
@@ -133,7 +133,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         observed, at = self.session.observed(s)  # the series fitted first, before the whole data, if it is one
         if not (observed.rows_loaded or self.complete):  # a fit brings its own numbers; a file's wait to be read
             for name in ("curve", "folds"):
-                self._part(name).update(Text("charts: reading the data and the rest of the results file …", style="dim"))
+                self._part(name).update(Text("charts: reading the data and the rest of the results file …",
+                                             style="dim"))
             return
         if observed.rows_loaded or engine.loaded():
             self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
