@@ -33,22 +33,30 @@ def mapped(x: np.ndarray, mid: np.ndarray, half: np.ndarray) -> np.ndarray:
     return (x - mid) / width(half)
 
 
-def power_coefficients(coef: np.ndarray, mid: np.ndarray, half: np.ndarray) -> np.ndarray:
+def power_coefficients(coef: np.ndarray, mid: np.ndarray, half: np.ndarray, powers: list | None = None) -> np.ndarray:
     """Coefficients of powers of price from coefficients of powers of t.
 
     ``coef``: (..., P) with Σ coef[k]·tᵏ, t = (price − mid)/half; ``mid``,
     ``half``: (...).  Returns (..., P) with Σ out[j]·priceʲ the same curve:
-    out[j] = Σₖ coef[k]·C(k, j)·(−mid)^(k−j) / halfᵏ.
+    out[j] = Σₖ coef[k]·C(k, j)·(−mid)^(k−j) / halfᵏ.  ``powers``: ``neg_powers(mid, ≥ P)``
+    when the caller already has them (candidates sharing a window).
     """
     p = coef.shape[-1]
     half = np.where(half > 0, half, 1.0)[..., None]
-    mid = np.asarray(mid)[..., None]
     scaled = coef / half ** np.arange(p)
-    out = np.zeros_like(scaled)
+    powers = neg_powers(mid, p) if powers is None else powers
+    terms = [scaled[..., k].copy() for k in range(p)]
+    out = [np.zeros(scaled.shape[:-1]) for _ in range(p)]  # a contiguous array per power, stacked at the end
     for k in range(p):
         for j in range(k + 1):
-            out[..., j] += scaled[..., k] * comb(k, j) * (-mid[..., 0]) ** (k - j)
-    return out
+            out[j] += terms[k] * comb(k, j) * powers[k - j]
+    return np.stack(out, axis=-1) if p else np.zeros_like(scaled)
+
+
+def neg_powers(mid: np.ndarray, p: int) -> list:
+    """(−mid)ᵉ for e = 0 … p − 1, each computed once."""
+    neg = -np.asarray(mid)
+    return [neg ** e for e in range(p)]
 
 
 @compiled

@@ -30,7 +30,8 @@ CHUNK_ROWS = 1 << 17
 
 
 def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_price=None, plan_controls=None,
-              plan_date=None, progress: Callable[[int, int], None] | None = None) -> Results:
+              plan_date=None, progress: Callable[[int, int], None] | None = None,
+              threads: int | None = None) -> Results:
     """Fit, cross-validate and choose a curve for every series of ``data``.
 
     ``plan_price``: None, one price for every series, or an (S,) array with
@@ -39,6 +40,8 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
     (NaN: the default), ``plan_date`` None or (S,) datetime64 (NaT: the
     default) for the season terms (``controls.ControlSpec.plan_values``).
     ``progress(done, total)`` is called after each chunk with counts of series.
+    ``threads``: chunks fitted at once (None: one a core this process may use, at most two); chunks
+    are independent and merged in order, so the results do not depend on it.
     """
     n_series = data.n_series
     plan = np.full(n_series, np.nan) if plan_price is None else np.broadcast_to(
@@ -49,9 +52,11 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
     merged = None
     cuts = _chunk_cuts(data.offsets)
     fold_start = np.concatenate(([0], np.cumsum(scheme.error_counts(data.counts)))).astype(np.int64)
-    for lo, hi in zip(cuts[:-1], cuts[1:]):
-        part = _fit_chunk(data, lo, hi, settings, lineup, scheme, plan[lo:hi], spec,
+
+    def one(lo: int, hi: int) -> dict:
+        return _fit_chunk(data, lo, hi, settings, lineup, scheme, plan[lo:hi], spec,
                           None if spec is None else at_controls[lo:hi])
+    for lo, hi, part in in_order(one, list(zip(cuts[:-1], cuts[1:])), threads):
         if merged is None:  # one allocation per output, filled chunk by chunk
             merged = {name: np.empty((_total(name, n_series, data.n_rows, int(fold_start[-1])),) + value.shape[1:],
                                      dtype=value.dtype) for name, value in part.items()}
@@ -112,3 +117,37 @@ def _chunk_cuts(offsets: np.ndarray) -> list[int]:
         return [0]
     marks = np.searchsorted(offsets, np.arange(CHUNK_ROWS, offsets[-1], CHUNK_ROWS), side="left")
     return sorted({0, n_series, *np.clip(marks, 1, n_series).tolist()})
+
+
+def in_order(work: Callable[[int, int], dict], spans: list[tuple[int, int]], threads: int | None):
+    """Yield ``(lo, hi, work(lo, hi))`` span by span, in order, computing up to ``threads`` spans at once.
+
+    The compiled loops release the interpreter (``nogil``), so a second thread fits the next chunk
+    while this one runs the first one's numpy glue; at most ``threads`` chunks are in flight, so the
+    work arrays stay a few chunks' worth."""
+    threads = _threads() if threads is None else max(1, int(threads))
+    if threads == 1 or len(spans) < 2:
+        for lo, hi in spans:
+            yield lo, hi, work(lo, hi)
+        return
+    from collections import deque
+    from concurrent.futures import ThreadPoolExecutor
+    with ThreadPoolExecutor(threads, thread_name_prefix="pricefold-chunk") as pool:
+        pending: deque = deque()
+        for lo, hi in spans:
+            pending.append((lo, hi, pool.submit(work, lo, hi)))
+            if len(pending) > threads:
+                lo0, hi0, done = pending.popleft()
+                yield lo0, hi0, done.result()
+        while pending:
+            lo0, hi0, done = pending.popleft()
+            yield lo0, hi0, done.result()
+
+
+def _threads() -> int:
+    import os
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except AttributeError:  # not on Linux
+        cores = os.cpu_count() or 1
+    return max(1, min(2, cores))

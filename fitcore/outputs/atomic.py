@@ -109,7 +109,7 @@ class Staged:
 
     path: Path
     temp: Path
-    sha256: str
+    sha256: str | None  # None when written by name (``stage``)
 
     def commit(self) -> None:
         try:
@@ -126,8 +126,13 @@ class Staged:
             pass
 
 
-def stage(path: str | Path, write: Callable[[BinaryIO], object]) -> Staged:
+def stage(path: str | Path, write: Callable[[BinaryIO], object], *, by_name: bool = False) -> Staged:
     """Write ``path``'s content to a temporary file beside it (``write(handle)``), fsynced; nothing visible yet.
+
+    ``by_name``: ``write`` gets the temporary file's name instead of a handle, for a library that writes a
+    file itself (pyarrow: no Python call per write, no copy through Python buffers); this process keeps the
+    file it created open, fsyncs it and checks it is still the file at that name.  No digest is taken then
+    (``sha256`` is None): give it a handle where the digest is recorded.
 
     A symlink is written through: the file it points to is replaced (beside it, so the rename stays on
     one file system) and the link stays a link, as an editor saving through a link does."""
@@ -140,24 +145,32 @@ def stage(path: str | Path, write: Callable[[BinaryIO], object]) -> Staged:
         fd = os.open(temp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_CLOEXEC", 0), 0o600)
     except OSError as exc:
         raise _cannot(path, exc) from None
+    digest = None
     try:
         os.fchmod(fd, _mode_for(path))
         with os.fdopen(fd, "wb") as raw:
-            handle = _Hashing(raw)
-            write(handle)
-            raw.flush()
+            if by_name:
+                write(str(temp))
+                if not os.path.samestat(os.fstat(raw.fileno()), os.stat(temp, follow_symlinks=False)):
+                    raise OSError(f"the temporary file {temp.name} was replaced while written")
+            else:
+                handle = _Hashing(raw)
+                write(handle)
+                raw.flush()
+                digest = handle.digest.hexdigest()
             os.fsync(raw.fileno())
     except BaseException as exc:
         temp.unlink(missing_ok=True)
         if isinstance(exc, OSError):
             raise _cannot(path, exc) from None
         raise
-    return Staged(path, temp, handle.digest.hexdigest())
+    return Staged(path, temp, digest)
 
 
-def atomic_write(path: str | Path, write: Callable[[BinaryIO], object]) -> str:
-    """Write ``path`` atomically with ``write(handle)``; return the SHA-256 of what was written."""
-    staged = stage(path, write)
+def atomic_write(path: str | Path, write: Callable[[BinaryIO], object], *, by_name: bool = False) -> str | None:
+    """Write ``path`` atomically with ``write(handle)``; return the SHA-256 of what was written (None
+    ``by_name``: see ``stage``)."""
+    staged = stage(path, write, by_name=by_name)
     staged.commit()
     return staged.sha256
 
@@ -169,8 +182,8 @@ class Batch:
     def __init__(self) -> None:
         self.staged: list[Staged] = []
 
-    def add(self, path: str | Path, write: Callable[[BinaryIO], object]) -> Staged:
-        staged = stage(path, write)
+    def add(self, path: str | Path, write: Callable[[BinaryIO], object], *, by_name: bool = False) -> Staged:
+        staged = stage(path, write, by_name=by_name)
         self.staged.append(staged)
         return staged
 

@@ -62,23 +62,56 @@ def left_out_of(ctl: ControlResults, s: int) -> dict:
 
 
 def parquet_columns(results: Results, repeat_text) -> dict:
-    """The Parquet columns (one row per series × candidate); ``repeat_text`` makes a per-series text column."""
+    """The Parquet columns (one row per series × candidate); ``repeat_text`` makes a per-series text column.
+    The JSON texts are the ``json.dumps`` of ``candidate_controls`` and ``series_controls``, put together
+    term by term column-wise (no Python per series or cell)."""
     import pyarrow as pa
+    import pyarrow.compute as pc
     ctl, n_c = results.controls, len(results.candidates)
     n_s, m = results.available.shape[0], len(ctl.names)
     ok = results.available.ravel()
-    cells = [json.dumps(candidate_controls(ctl, s, c, True), ensure_ascii=False) if ok[s * n_c + c] else None
-             for s in range(n_s) for c in range(n_c)]
-    per_series = [series_controls(ctl, s) for s in range(n_s)]
+    kept = np.repeat(np.asarray(ctl.left_out) == KEPT, n_c, axis=0)  # (cells, m)
     coef = np.where(ok[:, None], np.asarray(ctl.coef, dtype=float).reshape(n_s * n_c, m), np.nan)
-    plan = np.repeat(np.asarray(ctl.plan, dtype=float), n_c, axis=0)
-    return {"controls": pa.array(cells, pa.string()),
-            "control_values": repeat_text([json.dumps(p["control_values"], ensure_ascii=False) for p in per_series]),
-            "controls_left_out": repeat_text([json.dumps(p["controls_left_out"], ensure_ascii=False)
-                                              for p in per_series]),
+    plan = np.asarray(ctl.plan, dtype=float).reshape(n_s, m)
+    cells = _json_object(ctl.names, [np.where(kept[:, j], _json_numbers(coef[:, j]), "null") for j in range(m)],
+                         rows=n_s * n_c)
+    why = []  # each left-out term's ", name: why" (empty where kept), joined, the first ", " dropped
+    for j, name in enumerate(ctl.names):
+        key = f", {json.dumps(name, ensure_ascii=False)}: "
+        texts = np.array(["", *(key + json.dumps(WHY[code].format(name=name), ensure_ascii=False)
+                                for code in (CONSTANT, REDUNDANT))], dtype=object)
+        why.append(texts[np.select([ctl.left_out[:, j] == CONSTANT, ctl.left_out[:, j] == REDUNDANT], [1, 2], 0)])
+    left_out = (pc.binary_join_element_wise("{", pc.utf8_slice_codeunits(
+        pc.binary_join_element_wise(*[pa.array(w, pa.string()) for w in why], ""), 2), "}", "")
+        if m else pa.array(np.full(n_s, "{}", dtype=object), pa.string()))
+    return {"controls": pc.if_else(pa.array(ok), cells, pa.scalar(None, pa.string())),
+            "control_values": repeat_text(_json_object(ctl.names, [_json_numbers(plan[:, j]) for j in range(m)],
+                                                       rows=n_s)),
+            "controls_left_out": repeat_text(left_out),
             "price_vif": np.repeat(np.asarray(ctl.vif, dtype=float), n_c),
             "control_coef": pa.FixedSizeListArray.from_arrays(pa.array(coef.ravel()), m),
-            "control_plan": pa.FixedSizeListArray.from_arrays(pa.array(plan.ravel()), m)}
+            "control_plan": pa.FixedSizeListArray.from_arrays(pa.array(np.repeat(plan, n_c, axis=0).ravel()), m)}
+
+
+def _json_numbers(values: np.ndarray) -> np.ndarray:
+    """Each number as ``json.dumps`` writes it (``repr``), ``null`` where not finite (``_num``)."""
+    out = np.full(len(values), "null", dtype=object)
+    finite = np.isfinite(values)
+    out[finite] = np.char.mod("%r", values[finite].astype(object)).astype(object)
+    return out
+
+
+def _json_object(names, values: list, rows: int):
+    """Arrow text: ``json.dumps({names[j]: values[j][i] ...})`` for each row i, the values already JSON."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    if not names:
+        return pa.array(np.full(rows, "{}", dtype=object), pa.string())
+    pieces = []
+    for j, name in enumerate(names):
+        key = ("{" if j == 0 else ", ") + json.dumps(name, ensure_ascii=False) + ": "
+        pieces += [key, pa.array(values[j], pa.string())]
+    return pc.binary_join_element_wise(*pieces, "}", "")
 
 
 def record_fields(row: dict, into_candidate: dict, series: dict) -> None:

@@ -18,7 +18,7 @@ import math
 import numpy as np
 
 from ..fit.results import Results
-from ..review.intervals import BLOCK, covariances, last_dates
+from ..review.intervals import BLOCK, candidate_covariances, covariances, last_dates
 
 def _num(value) -> float | None:
     value = float(value)
@@ -64,19 +64,23 @@ def parquet_columns(results: Results, backtest=None) -> dict:
     import pyarrow as pa
     n_s, n_c = results.available.shape
     ok = results.available.ravel()
-    sizes = np.tile([c.complexity for c in results.candidates], n_s)
-    parts, lengths = [], np.where(ok, sizes ** 2, 0)
+    squares = np.asarray(results.lineup.complexity, dtype=np.int64) ** 2
+    bases = np.concatenate(([0], np.cumsum(squares)))
+    offsets = np.concatenate(([0], np.cumsum(np.where(ok, np.tile(squares, n_s), 0)))).astype(np.int64)
+    flat = np.empty(offsets[-1])
     for start in range(0, n_s, BLOCK):
         block = np.arange(start, min(start + BLOCK, n_s))
-        cov = covariances(results, block).reshape(len(block) * n_c, -1)
-        cells = slice(start * n_c, (start + len(block)) * n_c)
-        within = np.arange(cov.shape[1])[None, :]
-        # row-major p × p inside the widest P × P: entry (i, j) at i·P + j, kept when i, j < p
-        p_all, width = sizes[cells][:, None], results.lineup.width
-        keep = ok[cells][:, None] & (within // width < p_all) & (within % width < p_all)
-        parts.append(cov[keep])
-    flat = np.concatenate(parts) if parts else np.zeros(0)
-    offsets = np.concatenate(([0], np.cumsum(lengths))).astype(np.int32)
+        # Each series' p × p matrices side by side, row by row, candidate after candidate; the available
+        # candidates' entries picked in that order are the column's values, series after series (in
+        # place where every candidate of the block is available, the usual case).
+        lo, hi = offsets[start * n_c], offsets[(start + len(block)) * n_c]
+        whole = bool(results.available[block].all())
+        side = flat[lo:hi].reshape(len(block), -1) if whole else np.empty((len(block), bases[-1]))
+        for c, cov in candidate_covariances(results, block):
+            side[:, bases[c]:bases[c + 1]] = cov.reshape(len(block), -1)
+        if not whole:
+            flat[lo:hi] = side[np.repeat(results.available[block], squares, axis=1)]
+    offsets = offsets.astype(np.int32)
     columns = {"sigma2": np.where(ok, np.asarray(results.sigma2, dtype=float).ravel(), np.nan),
                "df": pa.array(np.asarray(results.df).ravel().astype(np.int64), mask=~ok),
                "cov_unscaled": pa.ListArray.from_arrays(offsets, pa.array(flat, type=pa.float64()))}
@@ -96,10 +100,11 @@ def _repeat_column(values: np.ndarray, n_c: int):
     counts (-1 → null), booleans."""
     import pyarrow as pa
     if values.dtype == object:  # one dictionary entry per series, not one Python string per row (8× faster)
-        missing = np.array([v is None for v in values], dtype=bool)
-        words = pa.array(["" if v is None else v for v in values], pa.string())
+        import pyarrow.compute as pc
+        words = pa.array(values, pa.string())  # None → null
+        missing = words.is_null().to_numpy(zero_copy_only=False)
         index = pa.array(np.repeat(np.arange(len(values), dtype=np.int32), n_c), mask=np.repeat(missing, n_c))
-        return pa.DictionaryArray.from_arrays(index, words)
+        return pa.DictionaryArray.from_arrays(index, pc.fill_null(words, ""))
     values = np.repeat(values, n_c)
     if values.dtype.kind in "iu":
         return pa.array(values.astype(np.int64), mask=values < 0)

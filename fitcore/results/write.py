@@ -21,11 +21,16 @@ from . import control_fields, cycle
 
 def power_coef_table(results: Results) -> np.ndarray:
     """(S, C, P) every candidate's coefficients in plain units of its regressor (NaN-padded)."""
+    from ..fit.basis import neg_powers
     out = np.full(results.coef.shape, np.nan)
-    for c, cand in enumerate(results.candidates):
-        size = cand.complexity
-        out[:, c, :size] = results.family_of(c).plain(results.coef[:, c, :size], results.basis_mid[:, c],
-                                                       results.basis_half[:, c])
+    for _, cols in results.lineup.groups:  # a family's candidates share a window: its powers computed once
+        mid = results.basis_mid[:, cols.start]
+        powers = neg_powers(mid, int(results.lineup.complexity[cols].max()))
+        for c in range(cols.start, cols.stop):
+            size = results.candidates[c].complexity
+            same = np.array_equal(results.basis_mid[:, c].view(np.int64), mid.view(np.int64))  # bit for bit
+            out[:, c, :size] = results.family_of(c).plain(results.coef[:, c, :size], results.basis_mid[:, c],
+                                                           results.basis_half[:, c], powers if same else None)
     if results.controls is not None:  # the price part with every control at 0 (``Results.power_coef``)
         out[:, :, 0] -= results.controls.shift
     return out
@@ -55,7 +60,7 @@ def _flag_texts(results: Results, diagnosis):
     import pyarrow.compute as pc
 
     from ..review.flags import CODES, SEVERITY
-    from ..review.sentences import sentence
+    from ..review.sentence_columns import flag_sentences
     n_s = results.n_series
     if diagnosis is None or not diagnosis.raised.any():
         return pa.array(np.full(n_s, "[]", dtype=object), pa.string())
@@ -65,8 +70,8 @@ def _flag_texts(results: Results, diagnosis):
         if not len(raised):
             continue
         head = f', {{"code": {json.dumps(code)}, "severity": {json.dumps(SEVERITY[code])}, "message": '
-        texts = pa.array([head + json.dumps(sentence(diagnosis, s, code), ensure_ascii=False) + "}"
-                          for s in raised.tolist()] + [""], pa.string())
+        messages = _json_strings(flag_sentences(diagnosis, raised, code))
+        texts = pa.concat_arrays([pc.binary_join_element_wise(head, messages, "}", ""), pa.array([""])])
         at = np.full(n_s, len(raised), dtype=np.int64)  # the empty text at the end, where it is not raised
         at[raised] = np.arange(len(raised))
         columns.append(texts.take(pa.array(at)))
@@ -74,6 +79,24 @@ def _flag_texts(results: Results, diagnosis):
     # pyarrow 26), then the first ", " dropped.
     joined = pc.utf8_slice_codeunits(pc.binary_join_element_wise(*columns, ""), 2)
     return pc.binary_join_element_wise("[", joined, "]", "")
+
+
+def _json_strings(texts):
+    """Arrow text: each of ``texts`` (Arrow text or a list) as ``json.dumps(text, ensure_ascii=False)``
+    writes it, quoted and escaped column-wise (a text holding a control character goes through
+    ``json.dumps`` itself)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    array = texts if isinstance(texts, pa.Array) else pa.array(texts, pa.string())
+    escaped = pc.replace_substring(pc.replace_substring(array, "\\", "\\\\"), '"', '\\"')
+    quoted = pc.binary_join_element_wise('"', escaped, '"', "")
+    control = pc.match_substring_regex(array, "[\\x00-\\x1f]").to_numpy(zero_copy_only=False)
+    if not control.any():
+        return quoted
+    rare = np.flatnonzero(control)
+    fixed = np.array(quoted.to_pylist(), dtype=object)
+    fixed[rare] = [json.dumps(array[i].as_py(), ensure_ascii=False) for i in rare.tolist()]
+    return pa.array(fixed, pa.string())
 
 
 def _num(value) -> float | None:
@@ -157,7 +180,7 @@ def write_results(results: Results, path: str | Path, diagnosis=None, *, batch=N
         write(path, lambda handle: handle.write(payload.encode("utf-8")))
     elif is_parquet_name(path):
         table = results_table(results, diagnosis, backtest)
-        write(path, lambda handle: write_parquet(table, handle))
+        write(path, lambda name: _write_parquet_named(table, name), by_name=True)
     else:
         raise DataError(f"expected the results file to end in .json or .parquet, got {path.name!r}", path=str(path))
     return path
@@ -167,10 +190,20 @@ def write_parquet(table, where) -> None:
     """Write a results table (``results_table``) to a path or an open binary file."""
     import pyarrow as pa
     import pyarrow.parquet as pq
-    # Dictionary pages only for text: on numbers they cost half the write time and save nothing.
+    # Dictionary pages only for text: on numbers they cost half the write time and save nothing.  No
+    # column statistics: no reader here uses them (a file is one row group up to 1M rows, nothing to
+    # skip), and they cost 10% of the write.
     text = [field.name for field in table.schema
             if pa.types.is_dictionary(field.type) or pa.types.is_string(field.type)]
-    pq.write_table(table, where, compression="snappy", use_dictionary=text)
+    pq.write_table(table, where, compression="snappy", use_dictionary=text, write_statistics=False)
+
+
+def _write_parquet_named(table, name: str) -> None:
+    """Write through pyarrow's own file (no Python call per write), opened as a local file by name (a
+    path is never taken for a URI)."""
+    import pyarrow as pa
+    with pa.OSFile(name, "wb") as sink:
+        write_parquet(table, sink)
 
 
 def results_table(results: Results, diagnosis=None, backtest=None):
@@ -228,13 +261,38 @@ def results_table(results: Results, diagnosis=None, backtest=None):
 
 
 def _reason_texts(results: Results, ok: np.ndarray):
-    """Why each unavailable (series, candidate) cell is unavailable; null where available."""
+    """Why each unavailable (series, candidate) cell is unavailable; null where available.  The sentence
+    (``Results.reason_text``) depends only on the cell's reason, count, size and distinct prices: it is
+    made once per different combination of those, then taken for every cell (no Python per cell)."""
     import pyarrow as pa
     n_c = results.available.shape[1]
-    texts = np.full(len(ok), None, dtype=object)
-    for cell in np.flatnonzero(~ok).tolist():
-        texts[cell] = results.reason_text(*divmod(cell, n_c))
-    return pa.array(texts, pa.string())
+    cells = np.flatnonzero(~ok)
+    if not len(cells):
+        return pa.nulls(len(ok), pa.string())
+    series, cand = np.divmod(cells, n_c)
+    kept = np.zeros(len(series), np.int64) if results.controls is None else np.asarray(results.controls.kept)[series]
+    once, back = np.unique(series, return_inverse=True)
+    facts = np.stack([results.reason.ravel()[cells].astype(np.int64), cand, results.data.counts[series], kept,
+                      _distinct_prices(results.data, once)[back.ravel()]], axis=1)
+    combos, firsts, which = np.unique(facts, axis=0, return_index=True, return_inverse=True)
+    texts = pa.array([results.reason_text(int(series[i]), int(cand[i])) for i in firsts.tolist()], pa.string())
+    at = np.full(len(ok), len(combos), dtype=np.int64)  # past the end: null where available
+    at[cells] = which.ravel()
+    return pa.concat_arrays([texts, pa.nulls(1, pa.string())]).take(pa.array(at))
+
+
+def _distinct_prices(data, series: np.ndarray) -> np.ndarray:
+    """How many different prices each of ``series`` has (as ``np.unique`` counts them), for all at once."""
+    from ..review.intervals import rows_of
+    counts = data.counts[series]
+    rows = rows_of(data.offsets, series)
+    owner = np.repeat(np.arange(len(series)), counts)
+    order = np.lexsort((data.price[rows], owner))
+    price, owner = data.price[rows][order], owner[order]
+    new = np.ones(len(rows), dtype=bool)
+    differs = (price[1:] != price[:-1]) & ~(np.isnan(price[1:]) & np.isnan(price[:-1]))  # NaNs: one, as np.unique
+    new[1:] = (owner[1:] != owner[:-1]) | differs
+    return np.bincount(owner[new], minlength=len(series))
 
 
 def _cell_lists(values, lengths):
@@ -249,9 +307,15 @@ def _ragged(values, starts, keep):
     """A list per (series, candidate) cell: ``values[starts[s]:starts[s + 1], c]``, empty where not ``keep``."""
     import pyarrow as pa
     n_c = values.shape[1]
-    lengths = np.repeat(np.diff(starts), n_c) * keep
+    folds = np.diff(starts)
+    lengths = np.repeat(folds, n_c) * keep
     bounds = np.concatenate(([0], np.cumsum(lengths)))
-    cell = np.repeat(np.arange(len(lengths)), lengths)
-    within = np.arange(bounds[-1]) - bounds[:-1][cell]
-    flat = (starts[cell // n_c] + within) * n_c + cell % n_c
-    return pa.ListArray.from_arrays(bounds.astype(np.int32), pa.array(values.reshape(-1)[flat], type=pa.float64()))
+    if len(folds) and folds[0] > 0 and (folds == folds[0]).all():  # the usual case: every series has as many folds
+        f = int(folds[0])
+        cells = values[starts[0]:starts[-1]].reshape(len(folds), f, n_c).transpose(0, 2, 1).reshape(-1, f)
+        flat = cells[keep].ravel()
+    else:
+        cell = np.repeat(np.arange(len(lengths)), lengths)
+        within = np.arange(bounds[-1]) - bounds[:-1][cell]
+        flat = values.reshape(-1)[(starts[cell // n_c] + within) * n_c + cell % n_c]
+    return pa.ListArray.from_arrays(bounds.astype(np.int32), pa.array(flat, type=pa.float64()))

@@ -5,8 +5,10 @@ the unscaled covariance (XᵀWX)⁻¹ of its coefficients in its own basis, its 
 σ² and degrees of freedom.  ``covariances`` computes the first for a block of series from their
 rows (each family's weighted power sums Σw·tᵏ in one compiled pass, factored as the engine
 factors its fits: ``lanes.factor``), or reads it where results were stored with it
-(``StoredResults``).  ``last_dates`` gives each series' last date.  Checked against statsmodels'
-``normalized_cov_params`` in ``tests/fitcore/test_snapshot.py``.
+(``StoredResults``); ``candidate_covariances`` gives a block's candidate by candidate, (n, k, k)
+each, for the Parquet column to take without a padded copy.  ``last_dates`` gives each series'
+last date.  Checked against statsmodels' ``normalized_cov_params`` in
+``tests/fitcore/test_snapshot.py``.
 """
 from __future__ import annotations
 
@@ -24,18 +26,20 @@ def _power_sums(x, w, offsets, series, mid, half, order, out):
     tⱼ = (xⱼ − mid[i]) / half[i] (half taken as 1 where it is not above 0), as ``basis.mapped`` maps it:
     the rows are read where they lie, with no gathered copy of them."""
     weighted = len(w) > 0
+    sums = np.empty(order)  # a series' sums summed here, in L1, and stored once (2× faster than in ``out``)
     for i in range(len(series)):
         s = series[i]
         width = half[i] if half[i] > 0 else 1.0
         for k in range(order):
-            out[k, i] = 0.0
+            sums[k] = 0.0
         for j in range(offsets[s], offsets[s + 1]):
             t = (x[j] - mid[i]) / width
-            wj = w[j] if weighted else 1.0
-            power = wj
+            power = w[j] if weighted else 1.0
             for k in range(order):
-                out[k, i] += power
+                sums[k] += power
                 power *= t
+        for k in range(order):
+            out[k, i] = sums[k]
 
 
 def _unscaled_block(sums: np.ndarray, p: int) -> np.ndarray:
@@ -63,29 +67,43 @@ def covariances(results: Results, series: np.ndarray) -> np.ndarray:
     out = np.full((len(series), n_c, width, width), np.nan)
     if not results.rows_loaded or not len(series):
         return out
-    data = results.data
     for start in range(0, len(series), BLOCK):
         block = series[start:start + BLOCK]
-        price, weight, local = _block_rows(data, block)
-        regressors = {}  # each family's regressor at the block's rows, computed once for the block
-        for family, cols in results.lineup.groups:
-            p = int(results.lineup.complexity[cols].max())
-            if family.regressor not in regressors:
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    regressors[family.regressor] = np.ascontiguousarray(family.x(price), dtype=np.float64)
-            # Every candidate of a family shares its window (mid, half).
-            sums = np.empty((2 * p - 1, len(block)))
-            _power_sums(regressors[family.regressor], weight, local, np.arange(len(block), dtype=np.int64),
-                        np.ascontiguousarray(results.basis_mid[block, cols.start], dtype=np.float64),
-                        np.ascontiguousarray(results.basis_half[block, cols.start], dtype=np.float64), 2 * p - 1, sums)
-            inv, d, good = _unscaled_block(sums, p)
-            for c in range(cols.start, cols.stop):
-                k = int(results.lineup.complexity[c])
-                lead = inv[:, :k, :k] * d[:, None, :k]  # L⁻¹·D on the leading k columns
-                cov = np.einsum("nij,nik->njk", lead, lead)  # D·L⁻ᵀ·L⁻¹·D
-                ok = results.available[block, c] & good[:, k - 1]
-                out[start:start + len(block), c, :k, :k] = np.where(ok[:, None, None], cov, np.nan)
+        for c, cov in candidate_covariances(results, block):
+            k = cov.shape[-1]
+            out[start:start + len(block), c, :k, :k] = np.where(results.available[block, c][:, None, None], cov, np.nan)
     return out
+
+
+def candidate_covariances(results: Results, block: np.ndarray):
+    """Yield ``(c, cov)`` for every candidate c in order: ``cov`` (len(block), k, k) its unscaled covariance
+    (k its size) for the series ``block`` (≤ ``BLOCK`` of them), NaN where a column is dependent on the
+    earlier ones or the results hold neither rows nor stored values; availability is not applied."""
+    block = np.asarray(block, dtype=np.int64)
+    sizes = results.lineup.complexity
+    if getattr(results, "stored_cov", None) is not None or not results.rows_loaded or not len(block):
+        cells = covariances(results, block)
+        for c in range(len(results.candidates)):
+            yield c, cells[:, c, :sizes[c], :sizes[c]]
+        return
+    price, weight, local = _block_rows(results.data, block)
+    regressors = {}  # each family's regressor at the block's rows, computed once for the block
+    for family, cols in results.lineup.groups:
+        p = int(sizes[cols].max())
+        if family.regressor not in regressors:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                regressors[family.regressor] = np.ascontiguousarray(family.x(price), dtype=np.float64)
+        # Every candidate of a family shares its window (mid, half).
+        sums = np.empty((2 * p - 1, len(block)))
+        _power_sums(regressors[family.regressor], weight, local, np.arange(len(block), dtype=np.int64),
+                    np.ascontiguousarray(results.basis_mid[block, cols.start], dtype=np.float64),
+                    np.ascontiguousarray(results.basis_half[block, cols.start], dtype=np.float64), 2 * p - 1, sums)
+        inv, d, good = _unscaled_block(sums, p)
+        for c in range(cols.start, cols.stop):
+            k = int(sizes[c])
+            lead = inv[:, :k, :k] * d[:, None, :k]  # L⁻¹·D on the leading k columns
+            cov = np.einsum("nij,nik->njk", lead, lead)  # D·L⁻ᵀ·L⁻¹·D
+            yield c, np.where(good[:, k - 1, None, None], cov, np.nan)
 
 
 def _block_rows(data, block: np.ndarray):

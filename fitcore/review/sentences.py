@@ -113,15 +113,22 @@ def _outside_range(diag, s):
     return f"{text[:1].upper()}{text[1:]}; the prediction there is an extrapolation."
 
 
+# Sentences written for many series at once too (``sentence_columns``): one wording, filled either way.
+NEAR_TIE = ("{rival} is within one standard error (CV MSE {rival_mse} vs {chosen_mse} ± {chosen_se}) and predicts "
+            "{change} {direction} volume than {chosen} {where}.")
+AT_PLAN, AT_MID = "at the plan price {price}", "at mid-range price"
+WEAK_FIT = ("Cross-validated R² (Q²) is {score}, below {wanted}: price explains little of the volume's "
+            "variation.")
+
+
 def _near_tie(diag, s):
     r, n = diag.results, diag.numbers
     c, other = int(r.chosen[s]), int(n["rival"][s])
-    where = f"at the plan price {money(r.plan_price[s])}" if math.isfinite(r.plan_price[s]) else "at mid-range price"
-    names = r.names
+    where = AT_PLAN.format(price=money(r.plan_price[s])) if math.isfinite(r.plan_price[s]) else AT_MID
     change = n["rival_change"][s]
-    return (f"{names[other]} is within one standard error (CV MSE {fmt(r.cv_mse[s, other])} vs "
-            f"{fmt(r.cv_mse[s, c])} ± {fmt(r.cv_se[s, c])}) and predicts {pct(abs(change))} "
-            f"{'more' if change > 0 else 'less'} volume than {names[c]} {where}.")
+    return NEAR_TIE.format(rival=r.names[other], rival_mse=fmt(r.cv_mse[s, other]), chosen_mse=fmt(r.cv_mse[s, c]),
+                           chosen_se=fmt(r.cv_se[s, c]), change=pct(abs(change)),
+                           direction="more" if change > 0 else "less", chosen=r.names[c], where=where)
 
 
 def _unsteady(diag, s):
@@ -133,8 +140,7 @@ def _unsteady(diag, s):
 
 
 def _weak_fit(diag, s):
-    return (f"Cross-validated R² (Q²) is {pct(diag.results.score[s])}, below {pct(diag.thresholds.weak_score)}: "
-            f"price explains little of the volume's variation.")
+    return WEAK_FIT.format(score=pct(diag.results.score[s]), wanted=pct(diag.thresholds.weak_score))
 
 
 def _influential(diag, s):

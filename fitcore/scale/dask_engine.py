@@ -162,7 +162,7 @@ def fit_part(p: int, table, job: PartJob, standing=None) -> dict:
                         source=job.source, controls={name: column(CONTROL + name) for name in job.columns.controls},
                         control_binary=job.control_binary)
     plan = plan_keywords(data, job.plan_file, job.plan_price, season=job.settings.season, partial=True)  # its own delimiter
-    results = fit_batch(data, job.settings, **plan)
+    results = fit_batch(data, job.settings, **plan, threads=1)  # Dask's workers are the parallelism
     diagnosis = diagnose(results, job.thresholds)
     found = None
     if job.ledger is not None:  # signed curves against the rows since, and the shifted flag

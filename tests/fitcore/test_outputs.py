@@ -78,6 +78,40 @@ def test_a_failed_write_leaves_the_earlier_file_and_no_temporary(tmp_path):
     assert target.read_text() == "earlier" and sorted(p.name for p in tmp_path.iterdir()) == ["r.json"]
 
 
+def test_a_file_written_by_name_lands_whole_keeps_its_mode_and_fails_cleanly(tmp_path):
+    # pyarrow writes the temporary file itself (by_name); read back with pyarrow, the reference reader.
+    table = pa.table({"x": [1.5, 2.5]})
+    target = tmp_path / "r.parquet"
+    target.write_bytes(b"earlier")
+    target.chmod(0o604)
+    assert atomic_write(target, lambda name: pq.write_table(table, name), by_name=True) is None  # no digest
+    assert pq.read_table(target).equals(table) and mode(target) == 0o604
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["r.parquet"]
+
+    def fails(name):
+        pq.write_table(table, name)
+        raise OSError(28, "No space left on device")
+
+    before = target.read_bytes()
+    with pytest.raises(DataError, match="No space left on device"):
+        atomic_write(target, fails, by_name=True)
+    assert target.read_bytes() == before and sorted(p.name for p in tmp_path.iterdir()) == ["r.parquet"]
+
+
+def test_a_temporary_file_replaced_under_its_name_is_never_put_in_place(tmp_path):
+    target = tmp_path / "r.parquet"
+    target.write_bytes(b"earlier")
+
+    def swaps(name):  # what this process created is no longer the file at that name
+        os.unlink(name)
+        with open(name, "wb") as other:
+            other.write(b"someone else's")
+
+    with pytest.raises(DataError, match="replaced while written"):
+        atomic_write(target, swaps, by_name=True)
+    assert target.read_bytes() == b"earlier" and sorted(p.name for p in tmp_path.iterdir()) == ["r.parquet"]
+
+
 def test_a_symlink_is_written_through_and_stays_a_link(tmp_path):
     folder = tmp_path / "runs"
     folder.mkdir()

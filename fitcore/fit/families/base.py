@@ -163,9 +163,9 @@ class Family:
             volume = self.volume(fitted, smear[:, None])
             return volume, self.slope(fitted_t, volume, half[:, None], price)
 
-    def plain(self, coef, mid, half):
+    def plain(self, coef, mid, half, powers=None):
         """Coefficients of powers of the regressor itself (``basis.power_coefficients``)."""
-        return power_coefficients(coef, mid, half)
+        return power_coefficients(coef, mid, half, powers)
 
     def window_of(self, lo, hi, fitted):
         """(mid, half) of the regressor over prices [lo, hi], zeros where not ``fitted`` (as the fit leaves them)."""

@@ -1,0 +1,56 @@
+"""Flag sentences for many series at once (``fitcore.review.sentence_columns``) say what the sentence of
+each series says, character for character; the numbers in them are formatted as Python's own
+``format`` formats them (``sentences.fmt``, ``money``, ``pct`` are f-strings), thousands separators
+included."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import fitcore
+from fitcore.fit.settings import FitSettings
+from fitcore.review import sentences as S
+from fitcore.review.flags import CODES, diagnose
+from fitcore.review.sentence_columns import fill, flag_sentences, fmts, moneys, pcts
+from tests.conftest import random_dataset
+
+EDGES = [0.0, -0.0, 999.95, 999.949999, 99.995, 0.99995, 0.999, 1.0, 1000.0, -999.95, 1e300, -1e300, 5e-324,
+         np.nan, np.inf, -np.inf, 0.0995, 0.1, 0.09999, 123456789.5, -0.4, -0.5, 0.5, 1.5, 2.5, 100.0, 99.99,
+         -1234.5678, 1e15 + 0.5, 12345678901234567890.0]
+
+
+def numbers() -> np.ndarray:
+    rng = np.random.default_rng(0)
+    return np.concatenate([rng.normal(size=3000) * 10.0 ** rng.integers(-8, 25, 3000),
+                           np.round(rng.normal(size=500) * 1e4), EDGES])
+
+
+def test_numbers_are_formatted_as_pythons_format_formats_them():
+    x = numbers()
+    assert list(fmts(x)) == [S.fmt(v) for v in x]
+    assert list(moneys(x)) == [S.money(v) for v in x]
+    shares = np.concatenate([np.random.default_rng(1).normal(size=2000), [0.005, 0.015, 0.025, -0.005, np.nan]])
+    assert pcts(shares).to_pylist() == [S.pct(v) for v in shares]
+    assert "1,234,567" in list(fmts(np.array([1234567.0]))) and moneys(np.array([-1234.5]))[0] == "-1,234.50"
+
+
+def test_a_template_is_filled_as_str_format_fills_it():
+    names = np.array(["a {b}", "ü", ""], dtype=object)
+    assert fill("x {n}: {m} y", n=names, m="fixed").to_pylist() == \
+        ["x {n}: {m} y".format(n=n, m="fixed") for n in names]
+    with pytest.raises(ValueError):
+        fill("{n:.2f}", n=names)
+
+
+@pytest.mark.parametrize("plan", [None, 40.0])
+def test_every_flags_sentences_equal_each_series_own(plan):
+    data = random_dataset(21, n_series=600, n_range=(6, 40))
+    results = fitcore.fit_batch(data, FitSettings(), plan_price=plan)
+    diagnosis = diagnose(results)
+    written = 0
+    for i, code in enumerate(CODES):
+        raised = np.flatnonzero(diagnosis.raised[:, i])
+        got = flag_sentences(diagnosis, raised, code).to_pylist()
+        assert got == [S.sentence(diagnosis, s, code) for s in raised.tolist()]
+        written += len(raised) if code in ("near-tie", "weak-fit") else 0
+    assert written > 50  # the column-wise sentences were exercised
