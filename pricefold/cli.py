@@ -208,10 +208,10 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     who, key = identity(analyst), ledger_key()
     if stored is not None:
         rows = read_header(stored).get("input", {}).get("rows") or 0
-        def refit(progress):
+        def refit(progress, first=None):
             if prepare is not None:
                 prepare()
-            return refit_stored(source, progress)
+            return refit_stored(source, progress, first)
         observer = refit if rows <= REFIT_ROWS else None
 
         def opener(progress):

@@ -11,7 +11,8 @@ from textual.widgets import Static
 
 from fitcore.errors import PricefoldError
 
-from .messages import FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
+from . import engine
+from .messages import EvidenceReady, FirstRows, FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
 from .screens.dialogs import MessageDialog
 from .screens.triage import TriageScreen
 from .session import TriageSession
@@ -46,9 +47,13 @@ class LoadingScreen(Screen):
 class TriageApp(App):
     """``opener(progress)`` builds the ``TriageSession``; it runs in a thread worker.
 
-    ``observer(progress)``, when given, runs in a second worker once the session is up and returns
-    ``(results, diagnosis)`` with the observations, for a session opened from a results file.
+    ``observer(progress, first)``, when given, runs in a second worker once the session is up and returns
+    ``(results, diagnosis)`` with the observations, for a session opened from a results file; it calls
+    ``first(reading)`` once the data are read (``fitcore.results.source.refit_stored``), and the series
+    around the cursor are fitted and drawn before the rest.
     """
+    FIRST_AROUND = 60  # rows either side of the cursor fitted first: a page down or two stays observed
+    SMALL = 20_000  # series: a results file this small is read whole at once (its data are no slower for it)
 
     CSS_PATH = ["styles/base.tcss", "styles/triage.tcss"]
     TITLE = "pricefold triage"
@@ -82,17 +87,94 @@ class TriageApp(App):
         for warning in message.session.warnings:
             self.notify(clean(warning), severity="warning", timeout=10, markup=False)
         self.call_after_refresh(settle)  # after the first screen is drawn, not before it
-        if self.observer is not None:  # once the first screen is drawn: the fit competes for the interpreter
-            self.call_after_refresh(lambda: self.set_timer(0.2, self.read_observations))
+        # Once the first screen is drawn.  With data to read, the engine's loops and the rest of a large results
+        # file wait for the series around the cursor to be fitted: alongside the data's read they slowed it.
+        results = message.session.results
+        at_once = self.observer is None or results.n_series <= self.SMALL
+        if not engine.loaded() and at_once:
+            self.call_after_refresh(self.load_engine)
+        if not getattr(results, "complete", True):
+            self.call_after_refresh(self.await_results, results)
+            if at_once:
+                self.call_after_refresh(self.read_the_rest)
+        if self.observer is not None:
+            self.call_after_refresh(self.read_observations)
+
+    @work(thread=True, exit_on_error=False, group="engine")
+    def load_engine(self) -> None:
+        engine.load()
+        self.post_message(EvidenceReady())
+
+    @work(thread=True, exit_on_error=False, group="results")
+    def await_results(self, results) -> None:
+        """The columns of the results file read behind the list (``stored_results(later=True)``)."""
+        try:
+            results.later.wait()
+            results.later.table()
+        except (PricefoldError, OSError) as exc:
+            self.post_message(LoadFailed(str(exc)))
+            return
+        self.post_message(EvidenceReady())
+
+    def on_evidence_ready(self, message: EvidenceReady) -> None:
+        screen = self.screen if isinstance(self.screen, TriageScreen) else None
+        if screen is None:  # a dialog over the triage screen
+            screen = next((s for s in self.screen_stack if isinstance(s, TriageScreen)), None)
+        if screen is not None:
+            screen.evidence.redraw()
+            screen.results_complete()
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="observations")
     def read_observations(self) -> None:
         try:
-            results, diagnosis = self.observer(lambda done, total: None)
+            results, diagnosis = self.observer(lambda done, total: None, self.fit_first)
         except (PricefoldError, OSError) as exc:
             self.post_message(RowsFailed(str(exc)))
+            self.read_the_rest()
+            engine.load()  # the curves are still drawn, without observations
+            self.post_message(EvidenceReady())
             return
+        engine.load()
         self.post_message(RowsLoaded(results, diagnosis))
+
+    def read_the_rest(self) -> None:
+        """Start reading the columns of the results file that wait behind the list (once; from any thread)."""
+        later = getattr(self.session.results, "later", None) if self.session is not None else None
+        if later is not None:
+            later.start()
+
+    def fit_first(self, reading) -> None:
+        """In the observations' worker, the data just read: fit the series around the cursor (the same
+        engine on their rows alone: the whole fit's numbers) and show their observations before the rest."""
+        from fitcore.data.keys import SeriesKeys
+        try:
+            wanted = self.call_from_thread(self.around_cursor)
+            if not wanted:
+                return
+            found = SeriesKeys.of(reading.data).indices_of([key for _, key in wanted])
+            pairs = sorted((int(at), s) for at, (s, _) in zip(found, wanted) if at >= 0)
+            if pairs:
+                results, _ = reading.fit(series=[at for at, _ in pairs])
+                engine.load()  # the fit has started numba: the curve loop is a moment more
+                self.post_message(FirstRows(results, [s for _, s in pairs]))
+        finally:
+            self.read_the_rest()
+
+    def around_cursor(self) -> list[tuple[int, dict]]:
+        """The series listed near the cursor, the highlighted one first, with their keys."""
+        session = self.session
+        if session is None or session.current is None:
+            return []
+        cursor, view = session.cursor, session.view
+        near = [int(s) for s in view[max(cursor - self.FIRST_AROUND, 0):cursor + self.FIRST_AROUND]]
+        order = [session.current] + [s for s in near if s != session.current]
+        return [(s, session.keys.key_of(s)) for s in order]
+
+    def on_first_rows(self, message: FirstRows) -> None:
+        if self.session is not None:
+            self.session.observe_first(message.results, message.series)
+            if isinstance(self.screen, TriageScreen):  # the engine is in now, too
+                self.screen.evidence.redraw_charts()
 
     def on_rows_loaded(self, message: RowsLoaded) -> None:
         if self.session is not None and self.session.upgrade(message.results, message.diagnosis):
@@ -103,6 +185,8 @@ class TriageApp(App):
         else:
             self.notify("The data no longer match the results file: observations are not shown.",
                         severity="warning", timeout=10, markup=False)
+            if isinstance(self.screen, TriageScreen):  # the curves, now the engine is in
+                self.screen.evidence.redraw_charts()
 
     def on_rows_failed(self, message: RowsFailed) -> None:
         self.notify(clean(message.reason), severity="warning", timeout=10, markup=False)

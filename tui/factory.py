@@ -37,8 +37,9 @@ def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | 
 
 def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes | None = None,
                         progress: Callable[[int, int], None] | None = None, units: dict | None = None) -> TriageSession:
-    """A session on the results as the file holds them: no refit, no observations yet."""
-    results, diagnosis = stored_results(path)
+    """A session on the results as the file holds them: no refit, no observations yet; the largest columns,
+    which the list does not need, are still being read (``StoredResults.complete``)."""
+    results, diagnosis = stored_results(path, later=True)
     head = {k: v for k, v in read_header(path).items() if k != "key_columns"}
     return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units)
 

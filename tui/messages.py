@@ -39,6 +39,20 @@ class RowsLoaded(Message):
         self.results, self.diagnosis = results, diagnosis
 
 
+class FirstRows(Message):
+    """The series around the cursor, fitted before the whole data: their observations can be drawn.
+
+    ``results`` holds them in the order of ``series`` (the session's indices)."""
+
+    def __init__(self, results, series: list[int]) -> None:
+        super().__init__()
+        self.results, self.series = results, series
+
+
+class EvidenceReady(Message):
+    """Something the evidence waited for is in (the engine's compiled loops, the rest of a results file)."""
+
+
 class RowsFailed(Message):
     """The data behind a results file could not be read or had changed; ``reason`` is one line."""
 

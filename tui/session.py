@@ -101,6 +101,8 @@ class TriageSession(ListState):
         self.news: dict | None = None  # the latest record by someone else on the highlighted series, while it stays
         self._written: set[str] = set()  # digests this screen appended
         self._mine: list[tuple[str, str]] = []  # (series id, digest) of this screen's decisions, oldest first
+        self.first_fit: Results | None = None  # the series on screen, fitted before the whole data (``observe_first``)
+        self._first_rows: dict[int, int] = {}  # series → its row in ``first_fit``
         self._init_list(data.n_series)
         self.reload_ledger(force=True, pin=None)
         self._go(0)  # the first screen starts at the top row
@@ -168,12 +170,34 @@ class TriageSession(ListState):
             self.pinned = int(perm[self.pinned])
         self._known = {sid: int(perm[s]) if s >= 0 else -1 for sid, s in self._known.items()}
         self.keys, self._labels, self._search = fresh, {}, None
-        self.results = results
+        self.results, self.first_fit, self._first_rows = results, None, {}
         self._with_backtest(results, diagnosis)
-        self.reload_ledger(force=True, pin="brought")
+        # Records another analyst made meanwhile may take the highlighted series out of the list: as on any
+        # reload the analyst did not ask for, it stays listed and decision keys wait until they move.
+        self.reload_ledger(force=True, pin="waits")
         if self.shown is not None:
             self.look(self.index_of(self.shown))
         return True
+
+    def observe_first(self, results: Results, series) -> int:
+        """Keep a fit of a few series (those around the cursor) made before the whole data are fitted, so
+        their observations can be drawn already.  The same engine on the same rows gives the whole fit's
+        numbers; a series is kept only if its rows are the ones these results were fitted on (fingerprints
+        equal).  Returns how many were kept; nothing once the whole fit is in."""
+        if self.results.rows_loaded:
+            return 0
+        data = self.results.data
+        rows = {int(s): i for i, s in enumerate(series)
+                if results.data.fingerprint_of(i) == data.fingerprint_of(int(s))}
+        self.first_fit, self._first_rows = results, rows
+        return len(rows)
+
+    def observed(self, s: int) -> tuple[Results, int]:
+        """Where series ``s``'s observations are: ``(results, index)`` — the results themselves once their
+        rows are loaded, else the fit of the series on screen made first when it holds ``s``."""
+        if not self.results.rows_loaded and s in self._first_rows:
+            return self.first_fit, self._first_rows[s]
+        return self.results, s
 
     def _with_backtest(self, results: Results, diagnosis: Diagnosis) -> None:
         """Signed curves against the rows since sign-off (``fitcore.ledger.backtest``): the ``shifted``
@@ -312,6 +336,9 @@ class TriageSession(ListState):
             raise ledger.LedgerConflict(f"{describe(records[-1])}; look again", records[-1])
         if self.waiting and s == self.current and action != "revoke":
             raise Refused("this series has left the list you are working through; move on first")
+        later = getattr(self.results, "later", None)
+        if action in ("accept", "override") and later is not None:
+            later.table()  # the interval parts a sign-off records (the screen asks only once they are in)
         if action == "accept":
             model = shown.proposed
         signed = self.signed_model(s, model) if action in ("accept", "override") else None

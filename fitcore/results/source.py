@@ -9,6 +9,8 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
+import numpy as np
+
 from ..data.columns import Columns, file_sha256, is_parquet_name
 from ..errors import DataError
 from ..fit.settings import FitSettings, provenance, settings_from_dict
@@ -67,16 +69,66 @@ def source_from_results(path: Path, check_data: bool = True) -> Source:
 
 def fit_source(source: Source, progress: Callable[[int, int], None] | None = None):
     """``(results, diagnosis)`` of the source, its settings recording how to fit it again."""
-    from ..fit.engine import fit_batch
+    return read_source(source).fit(progress)
+
+
+@dataclass(frozen=True)
+class Reading:
+    """A source's data and plan, read once: fitted whole, or a few series first (``fit_batch`` on a subset:
+    each series' fit depends on its own rows only, so a subset's numbers are the whole fit's)."""
+
+    data: object  # ``Dataset``
+    settings: FitSettings  # with the provenance the results record
+    plan: dict  # ``fit_batch``'s plan keywords for every series of ``data``
+    thresholds: Thresholds
+
+    def fit(self, progress: Callable[[int, int], None] | None = None, series=None):
+        """``(results, diagnosis)`` of every series, or of ``series`` (indices into ``data``, ascending)."""
+        from ..fit.engine import fit_batch
+        from ..review.flags import diagnose
+        data, plan = self.data, self.plan
+        if series is not None:
+            series = np.asarray(series, dtype=np.int64)
+            data, plan = subset(data, series), {name: _series_part(value, series, self.data.n_series)
+                                                 for name, value in plan.items()}
+        results = fit_batch(data, self.settings, **plan, progress=progress)
+        return results, diagnose(results, self.thresholds)
+
+
+def read_source(source: Source) -> Reading:
+    """Read the source's data and plan (``DataError`` for bad input, as ``pricefold fit`` says it)."""
     from ..data.loader import load
     from ..data.plan import plan_keywords
-    from ..review.flags import diagnose
     data = load(source.data, source.columns, sep=source.sep)
     plan = plan_keywords(data, source.plan_file, source.plan_price, season=source.settings.season)
     extra = provenance(source.columns.as_dict(), str(source.plan_file) if source.plan_file else None,
                        source.plan_price)
-    results = fit_batch(data, replace(source.settings, extra=extra), **plan, progress=progress)
-    return results, diagnose(results, source.thresholds)
+    return Reading(data, replace(source.settings, extra=extra), plan, source.thresholds)
+
+
+def subset(data, series: np.ndarray):
+    """The ``Dataset`` of ``series`` only (ascending indices), rows in their order; whether each control is 0/1
+    stays what the whole input says (a partition is told so too)."""
+    from ..data.dataset import Dataset
+    lo, hi = data.offsets[series], data.offsets[series + 1]
+    counts = hi - lo
+    rows = np.repeat(lo - np.concatenate(([0], np.cumsum(counts)[:-1])), counts) + np.arange(int(counts.sum()))
+
+    def part(values):
+        return None if values is None else np.ascontiguousarray(np.asarray(values)[rows])
+    return Dataset(tuple(data.key_names), {name: data.keys[name].take(series) for name in data.key_names},
+                   np.concatenate(([0], np.cumsum(counts))).astype(np.int64), part(data.price), part(data.volume),
+                   part(data.weight), part(data.date), part(data.line), dict(data.source),
+                   {name: part(values) for name, values in data.controls.items()}, dict(data.control_binary))
+
+
+def _series_part(value, series: np.ndarray, n_series: int):
+    """A plan keyword's values for ``series``: per-series arrays (and dicts of them) taken, scalars kept."""
+    if isinstance(value, dict):
+        return {name: _series_part(v, series, n_series) for name, v in value.items()}
+    if isinstance(value, np.ndarray) and value.ndim and len(value) == n_series:
+        return value[series]
+    return value
 
 
 def is_stored(path: Path) -> bool:
@@ -93,12 +145,19 @@ def is_stored(path: Path) -> bool:
         return False
 
 
-def refit_stored(source: Source, progress: Callable[[int, int], None] | None = None):
-    """The fit that brings observations to a stored session: only if the data are what the results were fitted on."""
-    if source.expected_sha256 and file_sha256(source.data) != source.expected_sha256:
+def refit_stored(source: Source, progress: Callable[[int, int], None] | None = None,
+                 first: Callable[[Reading], None] | None = None):
+    """The fit that brings observations to a stored session: only if the data are what the results were fitted on.
+
+    ``first(reading)``, when given, is called once the data are read and before the whole fit (a screen
+    fits the series it shows first: ``reading.fit(series=…)``)."""
+    reading = read_source(source)  # the loader hashes the file while it reads it: no second pass over it
+    if source.expected_sha256 and reading.data.source.get("sha256") != source.expected_sha256:
         raise DataError("changed since the results were written: showing the results without observations; "
                         "run 'pricefold triage' on the data file for a fresh fit", path=str(source.data))
-    return fit_source(source, progress)
+    if first is not None:
+        first(reading)
+    return reading.fit(progress)
 
 
 def default_ledger(results_or_data: Path) -> Path:

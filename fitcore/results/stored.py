@@ -27,12 +27,16 @@ from ..fit.settings import settings_from_dict
 from ..review.flags import CODES, SEVERITY, Diagnosis
 from ..review.thresholds import Thresholds
 from .control_fields import CONTROL_COLUMNS, stored_controls
+from .later import LaterColumns
 from .read import read_header, result_parts
 
 # The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
+# ``LATER``: the largest of them, which the list does not need; ``stored_results(later=True)`` leaves them
+# (and the covariances) to a thread its caller starts (``LaterColumns``).
 NEEDED = ("n", "price_lo", "price_hi", "candidate", "available", "reason", "cv_mse", "cv_se", "fold_mse", "r2", "q2",
           "window_coef", "smearing", "is_chosen", "score", "revenue_price", "plan_price", "plan_volume", "plan_lo",
           "plan_hi", "plan_elasticity", "flags", "fingerprint")
+LATER = ("window_coef", "fold_mse", "reason")
 
 
 @dataclass(frozen=True, eq=False)
@@ -112,8 +116,14 @@ class StoredResults(Results):
     stored_cov: object = None  # ``StoredCovariances`` where the file holds them (``review.intervals``)
     stored_last_date: np.ndarray = None  # (S,) datetime64[D] where the file holds each series' last date
     stored_backtest: dict = None  # name → (S,) the backtest columns of results from ``fit --ledger`` (else None)
+    later: LaterColumns = None  # the columns still being read (``stored_results(later=True)``), else None
 
     rows_loaded = False
+
+    @property
+    def complete(self) -> bool:
+        """Every column is read (with ``later``, the ones read behind the list may not be yet)."""
+        return self.later is None or self.later.ready
 
     @cached_property
     def score(self) -> np.ndarray:
@@ -146,22 +156,31 @@ class StoredDiagnosis(Diagnosis):
                 for i, code in enumerate(CODES) if self.raised[s, i]]
 
 
-def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
-    """Open a Parquet results file; a ``DataError`` if it lacks what triage needs (written by an older pricefold)."""
+def stored_results(path: str | Path, later: bool = False) -> tuple[StoredResults, StoredDiagnosis]:
+    """Open a Parquet results file; a ``DataError`` if it lacks what triage needs (written by an older pricefold).
+
+    ``later``: leave the ``LATER`` columns and the covariances to a thread (``StoredResults.later``: started
+    by the caller, or by the first use of one of them, which waits for it), so what a list needs is back sooner."""
     import pyarrow as pa
     import pyarrow.parquet as pq
     path = Path(path)
     meta = read_header(path)
     settings = settings_from_dict(meta["settings"])
     wanted = [*meta["key_columns"], *NEEDED, *(CONTROL_COLUMNS if meta["settings"].get("controls") else ())]
+    parts = result_parts(path) or [path]
     tables = []
-    for part in result_parts(path) or [path]:
+    for part in parts:
         reader = pq.ParquetFile(part)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
         missing = [name for name in wanted if name not in reader.schema_arrow.names]
         if missing:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
-        tables.append(reader.read(columns=wanted))
+        tables.append(reader.read(columns=[n for n in wanted if not (later and n in LATER)]))
     table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
+    cycle = _has_cycle(parts)
+    late = LaterColumns(parts, [*LATER, *(CYCLE_LATER if cycle else ())]) if later else None
+
+    def column(name):  # the column, or one still being read
+        return late.column(name) if late is not None and name in late.names else table.column(name)
     lineup = lineup_for(settings)
     cands = lineup.candidates
     n_c = len(cands)
@@ -212,14 +231,16 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
         cv_mse=cells("cv_mse"), cv_se=cells("cv_se"), r2=cells("r2"), q2=cells("q2"),
         fold_err=np.zeros((0, n_c)), fold_start=fold_start, price_lo=lo, price_hi=hi, mid=mid, half=half,
         basis_mid=basis_mid, basis_half=basis_half, smear=smear, sigma2=unknown, df=unknown,
-        coef=CellColumn(table.column("window_coef"), n_s, n_c, lineup.width),
+        coef=CellColumn(column("window_coef"), n_s, n_c, lineup.width),
         chosen=chosen, plan_price=per_series("plan_price").astype(float), plan_volume=cells("plan_volume"),
         plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"), plan_elasticity=cells("plan_elasticity"),
         revenue_price=per_series("revenue_price").astype(float),
-        top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=table.column("reason"),
-        fold_lists=table.column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
-        controls=stored_controls(table, meta["settings"], n_s, n_c, numbers))
-    results = _with_cycle_fields(results, _optional(path, meta), n_s, n_c, lineup.width)
+        top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=column("reason"),
+        fold_lists=column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
+        controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late)
+    if cycle:
+        results = _with_cycle_fields(results, _optional(parts, () if late is None else CYCLE_LATER), n_s, n_c,
+                                     lineup.width, column if late is not None else None)
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
 
@@ -227,6 +248,7 @@ def stored_results(path: str | Path) -> tuple[StoredResults, StoredDiagnosis]:
 # -- the next cycle's fields (``results/cycle.py``): read where the file holds them --------------------
 
 CYCLE = ("sigma2", "df", "cov_unscaled", "last_date")
+CYCLE_LATER = ("sigma2", "df", "cov_unscaled")  # only a decision's snapshot needs them: read behind the list
 
 
 class StoredCovariances:
@@ -256,24 +278,29 @@ class StoredCovariances:
         return out.reshape(len(series), p, p)
 
 
-def _optional(path: Path, meta: dict):
-    """The cycle columns of every part, when every part has them (else None: an older file)."""
+def _has_cycle(parts) -> bool:
+    """Whether every part holds the cycle columns (an older file holds none)."""
+    import pyarrow.parquet as pq
+    return all(all(name in pq.read_schema(part).names for name in CYCLE) for part in parts)
+
+
+def _optional(parts, leave_out=()):
+    """The cycle columns of every part (but ``leave_out``), with the backtest columns where written."""
     import pyarrow as pa
     import pyarrow.parquet as pq
     tables = []
-    for part in result_parts(path) or [path]:
+    for part in parts:
         reader = pq.ParquetFile(part)
         names = reader.schema_arrow.names
-        if any(name not in names for name in CYCLE):
-            return None
-        tables.append(reader.read(columns=list(CYCLE) + [n for n in names if n.startswith("backtest_")]))
+        tables.append(reader.read(columns=[n for n in CYCLE if n not in leave_out]
+                                  + [n for n in names if n.startswith("backtest_")]))
     return pa.concat_tables(tables) if len(tables) > 1 else tables[0]
 
 
-def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width: int) -> StoredResults:
+def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width: int, column=None) -> StoredResults:
+    """The cycle fields from ``table``; ``column(name)``, when given, for the ones read later."""
     from dataclasses import replace
-    if table is None:
-        return results
+    column = column or table.column
     days = table.column("last_date").cast("int32").combine_chunks()
     every = np.arange(0, table.num_rows, max(n_c, 1))
     last = numbers(days.take(integers(every))) if n_s else np.zeros(0)
@@ -283,9 +310,9 @@ def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width:
     if "backtest_status" in table.column_names:
         backtest = {name[len("backtest_"):]: _per_series(table.column(name), n_c)
                     for name in table.column_names if name.startswith("backtest_")}
-    return replace(results, sigma2=CellColumn(table.column("sigma2"), n_s, n_c), stored_backtest=backtest,
-                   df=CellColumn(table.column("df"), n_s, n_c),
-                   stored_cov=StoredCovariances(table.column("cov_unscaled"), n_c,
+    return replace(results, sigma2=CellColumn(column("sigma2"), n_s, n_c), stored_backtest=backtest,
+                   df=CellColumn(column("df"), n_s, n_c),
+                   stored_cov=StoredCovariances(column("cov_unscaled"), n_c,
                                                 [c.complexity for c in results.candidates], width),
                    stored_last_date=last_date)
 

@@ -1,6 +1,11 @@
 """Benchmark of the triage screen on 100k invented series: start-up and key-to-repaint.
 
     python tests/bench/bench_triage.py [--series 100000]
+    python tests/bench/bench_triage.py --results RESULTS.parquet [--runs 3] [--python PY ...]
+
+The second form only times launch → list and → observations on an existing results file, ``--runs``
+rounds, each round every ``--python`` in turn (interleaved: e.g. main's venv and this one's), with the
+load average beside each run.
 
 Writes invented data and its results file (``pricefold fit``), then prints,
 measured in one run: from launching ``pricefold triage RESULTS`` in a tmux
@@ -76,11 +81,11 @@ def write_inputs(n_series: int, folder: Path) -> tuple[Path, Path]:
     return data, results
 
 
-def launch_to_screen(results: Path, folder: Path) -> tuple[float, float]:
+def launch_to_screen(results: Path, folder: Path, python: str = sys.executable) -> tuple[float, float]:
     """Seconds from starting ``pricefold triage RESULTS`` in a terminal (tmux, 160×50) to the list on
     screen, and to the observations on screen (read and fitted behind it)."""
     sock = folder / "tmux.sock"
-    command = f"{sys.executable} -m pricefold triage {results} --ledger {folder / 'launch.jsonl'}"
+    command = f"{python} -m pricefold triage {results} --ledger {folder / 'launch.jsonl'}"
     tmux = ["tmux", "-S", str(sock), "-f", "/dev/null"]
     start = time.perf_counter()
     subprocess.run(tmux + ["new-session", "-d", "-x", "160", "-y", "50", command], check=True)
@@ -135,7 +140,8 @@ async def measure_keys(results_path: Path, folder: Path, other: bool) -> None:
     session = open_stored_session(results_path, ledger_path, who)
     opened = time.perf_counter() - start
     source = source_from_results(results_path, check_data=False)
-    app = TriageApp(lambda progress: session, observer=lambda progress: refit_stored(source, progress))
+    app = TriageApp(lambda progress: session,
+                    observer=lambda progress, first=None: refit_stored(source, progress, first))
     process = stop = None
     if other:  # bo decides series outside ana's list (none needing attention): each poll has news, none pins
         picks = [int(s) for s in np.flatnonzero(~session.needs_attention())[::-1][:3000]]
@@ -182,10 +188,31 @@ async def measure_keys(results_path: Path, folder: Path, other: bool) -> None:
           + (f"; the screen had read {seen_other:,} of the other analyst's decisions" if other else ""))
 
 
+def launches(results: Path, runs: int, pythons: list[str]) -> None:
+    """Launch → list and → observations, ``runs`` rounds, each round every python in turn (interleaved)."""
+    with tempfile.TemporaryDirectory() as name:
+        for round_ in range(runs):
+            for python in pythons:
+                folder = Path(name) / f"{round_}-{pythons.index(python)}"
+                folder.mkdir()
+                listed, observed = launch_to_screen(results, folder, python)
+                load = open("/proc/loadavg").read().split()[0] if Path("/proc/loadavg").exists() else "?"
+                print(f"  {python}: list {listed:.2f} s, observations {observed:.2f} s (load {load})", flush=True)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--series", type=int, default=100_000)
-    asyncio.run(measure(parser.parse_args().series))
+    parser.add_argument("--results", type=Path, default=None,
+                        help="an existing results file: only launch → list / observations, --runs times")
+    parser.add_argument("--runs", type=int, default=3)
+    parser.add_argument("--python", action="append", default=[],
+                        help="interpreter(s) to launch, interleaved (e.g. another checkout's venv); default this one")
+    args = parser.parse_args()
+    if args.results is not None:
+        launches(args.results.resolve(), args.runs, args.python or [sys.executable])
+        return
+    asyncio.run(measure(args.series))
 
 
 if __name__ == "__main__":

@@ -27,9 +27,9 @@ def fit_to_parquet(tmp_path: Path) -> tuple[Path, Path]:
 def stored_app(out: Path, ledger_path: Path, gate: threading.Event) -> TriageApp:
     source = source_from_results(out, check_data=False)
 
-    def observer(progress):
+    def observer(progress, first=None):
         gate.wait(20)  # the test decides when the data "arrive"
-        return refit_stored(source, progress)
+        return refit_stored(source, progress, first)
     return TriageApp(lambda progress: open_stored_session(out, ledger_path, ANA, None, progress), observer=observer)
 
 
@@ -47,10 +47,44 @@ async def test_the_list_and_decisions_work_before_the_observations_arrive(tmp_pa
         await pilot.press("a")
         await until(pilot, lambda: ledger_path.exists() and ledger_path.read_text().strip())
         gate.set()
-        await until(pilot, lambda: "• observed" in screen_text(app), seconds=30)
-        assert app.session.results.rows_loaded and app.session.status[first] == "accepted"
+        await until(pilot, lambda: app.session.results.rows_loaded, seconds=30)
+        await until(pilot, lambda: "• observed" in screen_text(app))
+        assert app.session.status[first] == "accepted"
     record = json.loads(ledger_path.read_text().splitlines()[0])
     assert record["action"] == "accept" and record["fingerprint"] == fingerprint
+
+
+async def test_the_series_on_screen_are_observed_before_the_whole_fit(tmp_path):
+    """The data read, the series around the cursor are fitted first and drawn while the rest wait; the
+    whole fit then replaces them, and the highlighted series' curve is the same chart."""
+    _, out = fit_to_parquet(tmp_path)
+    source = source_from_results(out, check_data=False)
+    hold = threading.Event()
+
+    def observer(progress, first=None):
+        def first_then_hold(reading):
+            first(reading)
+            hold.wait(20)  # the whole fit waits until the test has looked
+        return refit_stored(source, progress, first_then_hold)
+    app = TriageApp(lambda progress: open_stored_session(out, tmp_path / "ledger.jsonl", ANA, None, progress),
+                    observer=observer)
+    async with app.run_test(size=(160, 50)) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        await until(pilot, lambda: "• observed" in screen_text(app), seconds=30)
+        session = app.session
+        assert not session.results.rows_loaded
+        s = session.current
+        early, at = session.observed(s)
+        assert early is not session.results and early.data.fingerprint_of(at) == session.results.data.fingerprint_of(s)
+        before = str(app.screen.evidence._part("curve").render())
+        assert "• observed" in before and "⠤⠤" in before
+        hold.set()
+        await until(pilot, lambda: session.results.rows_loaded, seconds=30)
+        await pilot.pause()
+        app.screen.evidence.redraw()
+        await pilot.pause()
+        assert session.observed(session.current) == (session.results, session.current)
+        assert str(app.screen.evidence._part("curve").render()) == before
 
 
 async def test_changed_data_keep_the_stored_results_and_say_so(tmp_path):
@@ -94,3 +128,59 @@ def test_observations_in_another_series_order_keep_each_series_status(tmp_path):
     assert t != s and session.status[t] == "held" and session.results.rows_loaded
     assert session.label(t).startswith(held["product"])
     assert session.results.data.key_of(session.current) == current
+
+
+def test_another_analysts_decision_read_with_the_observations_makes_the_keys_wait(tmp_path):
+    """The whole fit arrives and, in the same look at the ledger, another analyst's decision on the
+    highlighted series: it stays listed but no decision key acts on it until the analyst moves."""
+    from fitcore import ledger
+    from fitcore.ledger import Identity
+    from tui.session import Refused
+    _, out = fit_to_parquet(tmp_path)
+    ledger_path = tmp_path / "ledger.jsonl"
+    session = open_stored_session(out, ledger_path, ANA)
+    s = session.current
+    shown = session.look(s)
+    ledger.append(ledger_path, [ledger.Entry(series=shown.key, action="hold", fingerprint=shown.fingerprint,
+                                             results=session.results_digest, proposed=shown.proposed)],
+                  Identity("bo", "bo", "elsewhere"))
+    assert session.upgrade(*refit_stored(source_from_results(out, check_data=False)))
+    assert session.current == session.index_of(shown) and session.status[session.current] == "held"
+    assert session.waiting
+    try:
+        session.decide(session.look(session.current), "hold")
+    except Refused as exc:
+        assert "left the list" in str(exc)
+    else:
+        raise AssertionError("a decision acted on a series another analyst had just decided")
+
+
+async def test_an_accept_pressed_before_the_file_is_all_read_waits_then_acts_on_that_series(tmp_path, monkeypatch):
+    """Accept records the curve's interval parts, read behind the list: pressed before they are in, the key
+    says it waits, then acts on the series it was pressed on, and the record holds the whole snapshot."""
+    from fitcore.results.later import LaterColumns
+    from tui.messages import EvidenceReady
+    _, out = fit_to_parquet(tmp_path)
+    ledger_path, gate, held = tmp_path / "ledger.jsonl", threading.Event(), threading.Event()
+    start = LaterColumns.start
+
+    def held_start(self):
+        threading.Thread(target=lambda: (held.wait(20), start(self)), daemon=True).start()
+    monkeypatch.setattr(LaterColumns, "start", held_start)
+    app = stored_app(out, ledger_path, gate)
+    async with app.run_test(size=(80, 24), notifications=True) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        shown = app.session.shown
+        await pilot.press("a")
+        await until(pilot, lambda: any("the key acts when it is in" in n.message for n in app._notifications))
+        assert not ledger_path.exists()
+        app.post_message(EvidenceReady())  # the engine's loops came in first: the key keeps waiting
+        await pilot.pause()
+        assert not ledger_path.exists() and "Say why" not in screen_text(app)
+        held.set()
+        await until(pilot, lambda: "Say why" in screen_text(app))  # a stop flag: the note first, as ever
+        await pilot.press(*"seen", "enter")
+        await until(pilot, lambda: ledger_path.exists() and ledger_path.read_text().strip())
+    record = json.loads(ledger_path.read_text().splitlines()[0])
+    assert record["action"] == "accept" and record["series"] == shown.key
+    assert record["signed"]["cov_unscaled"] is not None and "incomplete" not in record["signed"]

@@ -69,6 +69,7 @@ class TriageScreen(Screen):
         self._last_search = ""
         self._told: str | None = None  # the last record by someone else this screen has told about
         self._status_lines: int | None = None
+        self._waiting_key: tuple | None = None  # (action, shown): a key pressed before the results were all read
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -188,9 +189,28 @@ class TriageScreen(Screen):
         self.app.push_screen(TextDialog(title, placeholder, required=required),
                              lambda note: None if note is None else then(note))
 
+    def still_reading(self, action: str) -> bool:
+        """A sign-off records the curve's interval parts, which a results file brings in behind the list:
+        until they are in, accept and override wait (and say so), then act if the same series is still shown."""
+        if getattr(self.session.results, "complete", True):
+            return False
+        self._waiting_key = (action, self.session.shown)
+        self.app.read_the_rest()  # if not begun yet (it waits for the series on screen to be fitted first)
+        self.notify("Reading the rest of the results file: the key acts when it is in.", timeout=3, markup=False)
+        return True
+
+    def results_complete(self) -> None:
+        """The rest of the results file is in: a key that waited for it acts now, on the series it was pressed on."""
+        waiting = self._waiting_key
+        if waiting is None or not getattr(self.session.results, "complete", True):
+            return
+        self._waiting_key = None
+        if waiting[1] == self.session.shown and self.app.screen is self:
+            getattr(self, f"action_{waiting[0]}")()
+
     def action_accept(self) -> None:
         shown = self.session.shown
-        if shown is None:
+        if shown is None or self.still_reading("accept"):
             return
         if self.session.needs_reason(shown, "accept"):
             self.ask(f"Accept {shown.proposed} for {self.session.label(shown.series)} despite "
@@ -207,7 +227,7 @@ class TriageScreen(Screen):
 
     def action_override(self) -> None:
         shown, session = self.session.shown, self.session
-        if shown is None:
+        if shown is None or self.still_reading("override"):
             return
         s = session.index_of(shown)
 

@@ -22,6 +22,7 @@ from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money
 
+from .. import engine
 from ..cells import cut
 from ..session import TriageSession, describe
 from ..text import clean
@@ -90,8 +91,13 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return (None,)
         records = session.history(s)
         news = session.news.get("digest") if session.news is not None else None
-        return (s, session.results, session.status[s], records[-1].get("digest") if records else None, news,
-                session.waiting, session.model_of(s))
+        return (s, session.results, session.observed(s)[0], self.complete, engine.loaded(), session.status[s],
+                records[-1].get("digest") if records else None, news, session.waiting, session.model_of(s))
+
+    @property
+    def complete(self) -> bool:
+        """Every column of the results is read (a results file's largest ones come in behind the list)."""
+        return getattr(self.session.results, "complete", True)
 
     def redraw(self) -> None:
         self._drawn = self.drawn_state(self.series)
@@ -124,10 +130,19 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         s = self.series
         width = max(self.scrollable_content_region.width - 3, 30)
         tall = self.app.size.height >= 40
-        results = self.session.results
-        self._part("curve").update(curve_chart(results, s, width, 18 if tall else 12, self.session.model_of(s),
-                                               self.session.units, self.adjusted, self.signed_shown(s)))
-        self._part("folds").update(fold_chart(results, s, width, 12 if tall else 9))
+        observed, at = self.session.observed(s)  # the series fitted first, before the whole data, if it is one
+        if not (observed.rows_loaded or self.complete):  # a fit brings its own numbers; a file's wait to be read
+            for name in ("curve", "folds"):
+                self._part(name).update(Text("charts: reading the data and the rest of the results file …",
+                                             style="dim"))
+            return
+        if observed.rows_loaded or engine.loaded():
+            self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
+                                                   self.session.units, self.adjusted, self.signed_shown(s)))
+        else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
+            self._part("curve").update(Text("curves: starting the engine …; observations and band: reading the "
+                                            "data …", style="dim"))
+        self._part("folds").update(fold_chart(observed, at, width, 12 if tall else 9))
 
     # -- the parts ----------------------------------------------------------------------------
     def title_text(self, s: int) -> Text:
@@ -226,7 +241,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         missing = Text(style="dim")
         for c, cand in enumerate(results.candidates):
             if not results.available[s, c]:
-                missing.append(f"  {cand.name}: {clean(results.reason_text(s, c) or '')}\n")
+                why = clean(results.reason_text(s, c) or '') if self.complete else "(reading the reason …)"
+                missing.append(f"  {cand.name}: {why}\n")
                 continue
             mark = "✓" if c == results.chosen[s] else ""
             mark += "↺" if c == model and c != results.chosen[s] else ""
