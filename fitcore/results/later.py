@@ -9,9 +9,10 @@ class LaterColumns:
     ``column(name)`` is a ``Later`` that waits for the read on first use, ``ready`` says whether it is done.
     A file that fails to read then raises where used."""
 
-    def __init__(self, parts: list, names: list[str]) -> None:
+    def __init__(self, parts: list, names: list[str], where: str) -> None:
+        """``parts``: the results file's parts, open (binary handles, closed once read); ``where``: its name."""
         import threading
-        self.names, self._parts, self._table, self._error = names, parts, None, None
+        self.names, self._parts, self._where, self._table, self._error = names, parts, where, None, None
         self._done, self._started = threading.Event(), threading.Lock()
         self._thread = None
 
@@ -34,6 +35,8 @@ class LaterColumns:
         except Exception as exc:  # raised where a column is first used
             self._error = exc
         finally:
+            for handle in parts:
+                handle.close()
             self._done.set()
 
     @property
@@ -48,7 +51,7 @@ class LaterColumns:
         self.start()
         self._done.wait()
         if self._error is not None:
-            raise DataError(f"could not read the rest of the results ({self._error})", path=str(self._parts[0]))
+            raise DataError(f"could not read the rest of the results ({self._error})", path=self._where)
         return self._table
 
     def column(self, name: str) -> "Later":

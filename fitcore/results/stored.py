@@ -161,23 +161,46 @@ def stored_results(path: str | Path, later: bool = False) -> tuple[StoredResults
 
     ``later``: leave the ``LATER`` columns and the covariances to a thread (``StoredResults.later``: started
     by the caller, or by the first use of one of them, which waits for it), so what a list needs is back sooner."""
-    import pyarrow as pa
-    import pyarrow.parquet as pq
     path = Path(path)
     meta = read_header(path)
     settings = settings_from_dict(meta["settings"])
     wanted = [*meta["key_columns"], *NEEDED, *(CONTROL_COLUMNS if meta["settings"].get("controls") else ())]
     parts = result_parts(path) or [path]
+    # Every part opened once and read through that handle, by the thread behind the list too: a results file
+    # replaced meanwhile (another fit writing the same name) cannot mix its columns with the ones on screen.
+    files = [_open(part) for part in parts]
+    try:
+        opened = _stored(path, meta, settings, wanted, parts, files, later)
+    except BaseException:
+        later = False
+        raise
+    finally:
+        if not later:  # else the thread reading the rest closes them
+            for handle in files:
+                handle.close()
+    return opened
+
+
+def _open(part: Path):
+    try:
+        return open(part, "rb")
+    except OSError as exc:
+        raise DataError(f"cannot read it ({exc.strerror or exc})", path=str(part)) from None
+
+
+def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, files: list, later: bool):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
     tables = []
-    for part in parts:
-        reader = pq.ParquetFile(part)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
+    for part, handle in zip(parts, files):
+        reader = pq.ParquetFile(handle)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
         missing = [name for name in wanted if name not in reader.schema_arrow.names]
         if missing:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
         tables.append(reader.read(columns=[n for n in wanted if not (later and n in LATER)]))
     table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
-    cycle = _has_cycle(parts)
-    late = LaterColumns(parts, [*LATER, *(CYCLE_LATER if cycle else ())]) if later else None
+    cycle = _has_cycle(files)
+    late = LaterColumns(files, [*LATER, *(CYCLE_LATER if cycle else ())], str(parts[0])) if later else None
 
     def column(name):  # the column, or one still being read
         return late.column(name) if late is not None and name in late.names else table.column(name)
@@ -239,7 +262,7 @@ def stored_results(path: str | Path, later: bool = False) -> tuple[StoredResults
         fold_lists=column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
         controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late)
     if cycle:
-        results = _with_cycle_fields(results, _optional(parts, () if late is None else CYCLE_LATER), n_s, n_c,
+        results = _with_cycle_fields(results, _optional(files, () if late is None else CYCLE_LATER), n_s, n_c,
                                      lineup.width, column if late is not None else None)
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
@@ -281,7 +304,7 @@ class StoredCovariances:
 def _has_cycle(parts) -> bool:
     """Whether every part holds the cycle columns (an older file holds none)."""
     import pyarrow.parquet as pq
-    return all(all(name in pq.read_schema(part).names for name in CYCLE) for part in parts)
+    return all(all(name in pq.ParquetFile(part).schema_arrow.names for name in CYCLE) for part in parts)
 
 
 def _optional(parts, leave_out=()):

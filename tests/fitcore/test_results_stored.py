@@ -72,3 +72,18 @@ def test_opening_results_imports_neither_pandas_nor_numba(tmp_path):
             "print(sorted(m for m in ('pandas', 'numba') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"
+
+
+def test_columns_read_behind_the_list_come_from_the_file_opened(tmp_path):
+    """Another fit replacing the results file (same name, an atomic rename) while a screen shows it: the
+    columns read later are still the opened file's, never the new one's beside the old list."""
+    path = tmp_path / "r.parquet"
+    first = fitcore.fit_batch(random_dataset(8, n_series=30))
+    write_results(first, path)
+    stored, _ = stored_results(path, later=True)
+    write_results(fitcore.fit_batch(random_dataset(9, n_series=30)), path)  # replaced before the rest is read
+    assert not stored.later.ready
+    assert stored.later.table().column("window_coef") != pq.read_table(path).column("window_coef")
+    ok = first.available
+    np.testing.assert_array_equal(stored.coef[ok], first.coef[ok])  # the opened file's, bit for bit
+    np.testing.assert_array_equal(np.asarray(stored.sigma2)[ok], first.sigma2[ok])
