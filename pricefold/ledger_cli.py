@@ -174,6 +174,10 @@ def run_accept_unflagged(args) -> int:
     # What the results propose and the models as they stand, read before taking the lock (a results
     # folder can be large).
     unflagged = [record for part in parts for record in part if not record["flags"] and record["chosen"]]
+    if any("basis" not in c for record in unflagged for c in record["candidates"] if c["name"] == record["chosen"]):
+        from fitcore.errors import DataError
+        raise DataError("holds no interval parts to sign with (written by an older pricefold); fit again",
+                        path=str(args.results))
     signed = from_records([(record, record["chosen"]) for record in unflagged], header["settings"].get("level", 0.95),
                           header_terms(header["settings"]))
     proposals = [(record["key"], record["fingerprint"], record["chosen"], snapshot)

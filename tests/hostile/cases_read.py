@@ -20,7 +20,12 @@ READ_CASES = [
       for how, says in [("no_flags", "'flags'"), ("no_key_columns", "key_columns"),
                         ("key_column_missing", "'product'"), ("no_metadata", "schema"),
                         ("metadata_not_json", "r.parquet"), ("flags_not_json", "'flags'"),
-                        ("no_candidate", "'candidate'")]],
+                        ("no_candidate", "'candidate'"), ("no_window_coef", "'window_coef'"),
+                        ("no_sigma2", "'sigma2'"), ("no_df", "'df'"), ("no_cov_unscaled", "'cov_unscaled'"),
+                        ("no_last_date", "'last_date'")]],
+    # a file without any of them (an older pricefold's): shown, but nothing to sign with
+    Case("accept-unflagged-no-interval-parts", "ledger accept-unflagged r.parquet --ledger L.jsonl",
+         {"d.csv": "good", "r.parquet": "pdamaged:no_interval_parts"}, 2, "no interval parts"),
     Case("show-folder-named-json", "show x.json", {"x.json": "dir"}, 2, "is a folder"),
     Case("show-list-document", "show r.json", {"r.json": "results_text_list"}, 2, "schema"),
     Case("show-truncated-json", "show r.json", {"r.json": "results_truncated"}, 2, "r.json"),

@@ -279,6 +279,9 @@ PDAMAGE = {
     "flags_not_json": lambda pa, t: t.set_column(t.schema.get_field_index("flags"), "flags",
                                                  pa.array(["not json"] * t.num_rows)),
     "no_candidate": lambda pa, t: t.drop_columns(["candidate"]),
+    **{f"no_{name}": (lambda name: lambda pa, t: t.drop_columns([name]))(name)
+       for name in ("window_coef", "sigma2", "df", "cov_unscaled", "last_date")},
+    "no_interval_parts": lambda pa, t: t.drop_columns(["window_coef", "sigma2", "df", "cov_unscaled", "last_date"]),
 }
 
 
