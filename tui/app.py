@@ -116,10 +116,13 @@ class TriageApp(App):
             return
         self.post_message(EvidenceReady())
 
+    def triage_screen(self) -> TriageScreen | None:
+        """The triage screen, also under a dialog: what arrives while a dialog is open is drawn on it too
+        (else the evidence kept saying "reading the data …" after the dialog closed)."""
+        return next((s for s in reversed(self.screen_stack) if isinstance(s, TriageScreen)), None)
+
     def on_evidence_ready(self, message: EvidenceReady) -> None:
-        screen = self.screen if isinstance(self.screen, TriageScreen) else None
-        if screen is None:  # a dialog over the triage screen
-            screen = next((s for s in self.screen_stack if isinstance(s, TriageScreen)), None)
+        screen = self.triage_screen()
         if screen is not None:
             screen.evidence.redraw()
             screen.results_complete()
@@ -173,20 +176,20 @@ class TriageApp(App):
     def on_first_rows(self, message: FirstRows) -> None:
         if self.session is not None:
             self.session.observe_first(message.results, message.series)
-            if isinstance(self.screen, TriageScreen):  # the engine is in now, too
-                self.screen.evidence.redraw_charts()
+            if (screen := self.triage_screen()) is not None:  # the engine is in now, too
+                screen.evidence.redraw_charts()
 
     def on_rows_loaded(self, message: RowsLoaded) -> None:
         if self.session is not None and self.session.upgrade(message.results, message.diagnosis):
             settle()
-            if isinstance(self.screen, TriageScreen):
-                self.screen.refresh_all()
-                self.screen.evidence.redraw()
+            if (screen := self.triage_screen()) is not None:
+                screen.refresh_all()
+                screen.evidence.redraw()
         else:
             self.notify("The data no longer match the results file: observations are not shown.",
                         severity="warning", timeout=10, markup=False)
-            if isinstance(self.screen, TriageScreen):  # the curves, now the engine is in
-                self.screen.evidence.redraw_charts()
+            if (screen := self.triage_screen()) is not None:  # the curves, now the engine is in
+                screen.evidence.redraw_charts()
 
     def on_rows_failed(self, message: RowsFailed) -> None:
         self.notify(clean(message.reason), severity="warning", timeout=10, markup=False)

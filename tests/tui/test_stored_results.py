@@ -70,6 +70,9 @@ async def test_the_series_on_screen_are_observed_before_the_whole_fit(tmp_path):
                     observer=observer)
     async with app.run_test(size=(160, 50)) as pilot:
         await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        # the panel's scrollbar comes and goes with its text's height, and the charts take the width left: the
+        # same chart is compared at one width
+        app.screen.evidence.styles.scrollbar_gutter = "stable"
         await until(pilot, lambda: "• observed" in screen_text(app), seconds=30)
         session = app.session
         assert not session.results.rows_loaded
@@ -184,3 +187,50 @@ async def test_an_accept_pressed_before_the_file_is_all_read_waits_then_acts_on_
     record = json.loads(ledger_path.read_text().splitlines()[0])
     assert record["action"] == "accept" and record["series"] == shown.key
     assert record["signed"]["cov_unscaled"] is not None and "incomplete" not in record["signed"]
+
+
+async def test_a_waiting_accept_does_nothing_once_the_analyst_moved_and_says_so(tmp_path, monkeypatch):
+    """Pressed before the interval parts are in, then the cursor moves: when they arrive, nothing is
+    recorded on either series (a decision is bound to the series on screen) and a warning says so."""
+    from fitcore.results.later import LaterColumns
+    _, out = fit_to_parquet(tmp_path)
+    ledger_path, gate, held = tmp_path / "ledger.jsonl", threading.Event(), threading.Event()
+    start = LaterColumns.start
+
+    def held_start(self):
+        threading.Thread(target=lambda: (held.wait(20), start(self)), daemon=True).start()
+    monkeypatch.setattr(LaterColumns, "start", held_start)
+    app = stored_app(out, ledger_path, gate)
+    async with app.run_test(size=(80, 24), notifications=True) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        pressed = app.session.label(app.session.current)
+        await pilot.press("a")
+        await until(pilot, lambda: any("the key acts when it is in" in n.message for n in app._notifications))
+        await pilot.press("down")
+        await until(pilot, lambda: app.session.label(app.session.current) != pressed)
+        held.set()
+        await until(pilot, lambda: any(n.message.startswith("Not done: accept on " + pressed)
+                                       for n in app._notifications), seconds=30)
+        await pilot.pause()
+        assert "Say why" not in screen_text(app)
+    assert not ledger_path.exists() or not ledger_path.read_text().strip()
+
+
+async def test_observations_arriving_under_a_dialog_are_drawn_when_it_closes(tmp_path):
+    """The data come in while a dialog covers the screen: closing it shows the observations at once, without
+    moving the cursor (they waited for a move before)."""
+    _, out = fit_to_parquet(tmp_path)
+    gate = threading.Event()
+    app = stored_app(out, tmp_path / "ledger.jsonl", gate)
+    async with app.run_test(size=(160, 50)) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        triage = app.screen
+        await until(pilot, lambda: any(w.group == "observations" for w in app.workers))  # reading the data
+        await pilot.press("question_mark")
+        await until(pilot, lambda: app.screen is not triage)
+        gate.set()
+        await until(pilot, lambda: app.session.results.rows_loaded, seconds=30)
+        await pilot.pause()
+        await pilot.press("escape")
+        await until(pilot, lambda: app.screen is triage)
+        await until(pilot, lambda: "• observed" in str(triage.evidence._part("curve").render()), seconds=5)

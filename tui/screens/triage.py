@@ -194,19 +194,35 @@ class TriageScreen(Screen):
         until they are in, accept and override wait (and say so), then act if the same series is still shown."""
         if getattr(self.session.results, "complete", True):
             return False
+        self._drop_waiting("you pressed another decision key")
         self._waiting_key = (action, self.session.shown)
         self.app.read_the_rest()  # if not begun yet (it waits for the series on screen to be fitted first)
-        self.notify("Reading the rest of the results file: the key acts when it is in.", timeout=3, markup=False)
+        self.notify("Reading the rest of the results file: the key acts when it is in, if this series is "
+                    "still shown.", timeout=3, markup=False)
         return True
 
     def results_complete(self) -> None:
-        """The rest of the results file is in: a key that waited for it acts now, on the series it was pressed on."""
+        """The rest of the results file is in: a key that waited for it acts now, if the series it was pressed
+        on is still shown as it was and nothing covers the screen; else the analyst is told it did not act."""
         waiting = self._waiting_key
         if waiting is None or not getattr(self.session.results, "complete", True):
             return
-        self._waiting_key = None
         if waiting[1] == self.session.shown and self.app.screen is self:
+            self._waiting_key = None
             getattr(self, f"action_{waiting[0]}")()
+        else:
+            self._drop_waiting("the screen changed before the results file was read")
+
+    def _drop_waiting(self, why: str) -> None:
+        """Forget a key that waited for the rest of the results file, saying so: nothing is ever decided on a
+        series that is no longer the one on screen."""
+        waiting, self._waiting_key = self._waiting_key, None
+        if waiting is not None:
+            action, shown = waiting
+            at = self.session.index_of(shown)
+            self.notify(f"Not done: {action} on {self.session.label(at) if at >= 0 else clean(shown.sid)} "
+                        f"({why}); press the key again.",
+                        severity="warning", timeout=8, markup=False)
 
     def action_accept(self) -> None:
         shown = self.session.shown
@@ -331,6 +347,7 @@ class TriageScreen(Screen):
             (self.evidence if self.series_list.has_focus else self.series_list).focus()
 
     def action_back(self) -> None:
+        self._drop_waiting("you pressed Esc")
         if self.has_class("show-evidence"):
             self.remove_class("show-evidence")
             self.series_list.focus()
