@@ -158,19 +158,24 @@ def test_another_analysts_decision_read_with_the_observations_makes_the_keys_wai
         raise AssertionError("a decision acted on a series another analyst had just decided")
 
 
-async def test_an_accept_pressed_before_the_file_is_all_read_waits_then_acts_on_that_series(tmp_path, monkeypatch):
-    """Accept records the curve's interval parts, read behind the list: pressed before they are in, the key
-    says it waits, then acts on the series it was pressed on, and the record holds the whole snapshot."""
+def app_with_the_rest_held(tmp_path: Path, monkeypatch):
+    """A stored-results app whose columns read behind the list wait for the returned event to be set."""
     from fitcore.results.later import LaterColumns
-    from tui.messages import EvidenceReady
     _, out = fit_to_parquet(tmp_path)
-    ledger_path, gate, held = tmp_path / "ledger.jsonl", threading.Event(), threading.Event()
+    ledger_path, held = tmp_path / "ledger.jsonl", threading.Event()
     start = LaterColumns.start
 
     def held_start(self):
         threading.Thread(target=lambda: (held.wait(20), start(self)), daemon=True).start()
     monkeypatch.setattr(LaterColumns, "start", held_start)
-    app = stored_app(out, ledger_path, gate)
+    return stored_app(out, ledger_path, threading.Event()), ledger_path, held
+
+
+async def test_an_accept_pressed_before_the_file_is_all_read_waits_then_acts_on_that_series(tmp_path, monkeypatch):
+    """Accept records the curve's interval parts, read behind the list: pressed before they are in, the key
+    says it waits, then acts on the series it was pressed on, and the record holds the whole snapshot."""
+    from tui.messages import EvidenceReady
+    app, ledger_path, held = app_with_the_rest_held(tmp_path, monkeypatch)
     async with app.run_test(size=(80, 24), notifications=True) as pilot:
         await until(pilot, lambda: isinstance(app.screen, TriageScreen))
         shown = app.session.shown
@@ -192,15 +197,7 @@ async def test_an_accept_pressed_before_the_file_is_all_read_waits_then_acts_on_
 async def test_a_waiting_accept_does_nothing_once_the_analyst_moved_and_says_so(tmp_path, monkeypatch):
     """Pressed before the interval parts are in, then the cursor moves: when they arrive, nothing is
     recorded on either series (a decision is bound to the series on screen) and a warning says so."""
-    from fitcore.results.later import LaterColumns
-    _, out = fit_to_parquet(tmp_path)
-    ledger_path, gate, held = tmp_path / "ledger.jsonl", threading.Event(), threading.Event()
-    start = LaterColumns.start
-
-    def held_start(self):
-        threading.Thread(target=lambda: (held.wait(20), start(self)), daemon=True).start()
-    monkeypatch.setattr(LaterColumns, "start", held_start)
-    app = stored_app(out, ledger_path, gate)
+    app, ledger_path, held = app_with_the_rest_held(tmp_path, monkeypatch)
     async with app.run_test(size=(80, 24), notifications=True) as pilot:
         await until(pilot, lambda: isinstance(app.screen, TriageScreen))
         pressed = app.session.label(app.session.current)
