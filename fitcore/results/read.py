@@ -129,15 +129,16 @@ def read_header(path: str | Path) -> dict:
         if name not in schema.names:
             raise DataError(f"missing the column {name!r}; expected a pricefold results file", path=str(path))
     if any(name in schema.names for name in CYCLE_COLUMNS):  # the next cycle's fields: all of them or none
-        for name in CYCLE_COLUMNS:
+        for name in (*CYCLE_COLUMNS, "window_coef"):  # and the coefficients they go with
             if name not in schema.names:
                 raise DataError(f"missing the column {name!r} (the file holds the other interval parts); expected "
                                 "a pricefold results file", path=str(path))
     return meta
 
 
-# What a signed model's snapshot is made of (``candidate_cycle_fields``): a file holds every one or none.
-CYCLE_COLUMNS = ("window_coef", "sigma2", "df", "cov_unscaled", "last_date")
+# What a signed model's snapshot is made of besides the window coefficients (``candidate_cycle_fields``): a
+# file holds every one or none (an older pricefold's holds none).
+CYCLE_COLUMNS = ("sigma2", "df", "cov_unscaled", "last_date")
 
 
 def check_schema(path: Path, document) -> None:

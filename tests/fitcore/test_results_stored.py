@@ -59,7 +59,7 @@ def test_a_results_file_without_the_window_coefficients_is_refused(tmp_path):
     write_results(results, tmp_path / "r.parquet")
     table = pq.read_table(tmp_path / "r.parquet")
     pq.write_table(table.drop_columns(["window_coef"]), tmp_path / "old.parquet")
-    with pytest.raises(DataError, match="older pricefold"):
+    with pytest.raises(DataError, match="window_coef"):
         stored_results(tmp_path / "old.parquet")
 
 
