@@ -67,30 +67,16 @@ def fit_subset(source, keys: list[dict]):
     """A fit of only the series ``keys`` name, from the source's data.
 
     Each series is fitted on its own rows alone (folds are dealt per series, whatever else shares
-    the file), so its numbers are those of the whole fit, for a fraction of the time.
+    the file), so its numbers are those of the whole fit, for a fraction of the time
+    (``fitcore.results.source.Reading.fit``, as triage fits the series on screen first).
     """
     import numpy as np
 
-    from fitcore import fit_batch
-    from fitcore.data.dataset import from_columns
     from fitcore.data.keys import SeriesKeys
-    from fitcore.data.loader import load
-    from fitcore.data.plan import plan_keywords
-    data = load(source.data, source.columns)
-    where = SeriesKeys.of(data).indices_of(keys)
-    where = np.unique(where[where >= 0])
-    counts = (data.offsets[where + 1] - data.offsets[where]).astype(np.int64)
-    rows = np.repeat(data.offsets[where] - np.cumsum(np.r_[0, counts[:-1]]), counts) + np.arange(int(counts.sum()))
-
-    def pick(array):
-        return None if array is None else array[rows]
-    subset = from_columns({name: np.repeat(data.keys[name][where], counts) for name in data.key_names},
-                          data.price[rows], data.volume[rows], weight=pick(data.weight), date=pick(data.date),
-                          line=pick(data.line), source=data.source,
-                          controls={name: values[rows] for name, values in data.controls.items()},
-                          control_binary=data.control_binary)  # 0/1 as over the whole file
-    plan = plan_keywords(subset, source.plan_file, source.plan_price, season=source.settings.season, partial=True)
-    return fit_batch(subset, source.settings, **plan)
+    from fitcore.results.source import read_source
+    reading = read_source(source)
+    where = SeriesKeys.of(reading.data).indices_of(keys)
+    return reading.fit(series=np.unique(where[where >= 0]))[0]
 
 
 def open_book(path: Path) -> Book:
