@@ -191,15 +191,16 @@ def _open(part: Path):
 def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, files: list, later: bool):
     import pyarrow as pa
     import pyarrow.parquet as pq
-    tables = []
+    tables, readers = [], []
     for part, handle in zip(parts, files):
         reader = pq.ParquetFile(handle)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
+        readers.append(reader)
         missing = [name for name in wanted if name not in reader.schema_arrow.names]
         if missing:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
         tables.append(reader.read(columns=[n for n in wanted if not (later and n in LATER)]))
     table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
-    cycle = _has_cycle(files)
+    cycle = _has_cycle(readers)
     late = LaterColumns(files, [*LATER, *(CYCLE_LATER if cycle else ())], str(parts[0])) if later else None
 
     def column(name):  # the column, or one still being read
@@ -262,7 +263,7 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         fold_lists=column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
         controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late)
     if cycle:
-        results = _with_cycle_fields(results, _optional(files, () if late is None else CYCLE_LATER), n_s, n_c,
+        results = _with_cycle_fields(results, _optional(readers, () if late is None else CYCLE_LATER), n_s, n_c,
                                      lineup.width, column if late is not None else None)
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
@@ -301,19 +302,17 @@ class StoredCovariances:
         return out.reshape(len(series), p, p)
 
 
-def _has_cycle(parts) -> bool:
-    """Whether every part holds the cycle columns (an older file holds none)."""
-    import pyarrow.parquet as pq
-    return all(all(name in pq.ParquetFile(part).schema_arrow.names for name in CYCLE) for part in parts)
+def _has_cycle(readers) -> bool:
+    """Whether every part (its ``pq.ParquetFile``) holds the cycle columns (an older file holds none)."""
+    return all(all(name in reader.schema_arrow.names for name in CYCLE) for reader in readers)
 
 
-def _optional(parts, leave_out=()):
-    """The cycle columns of every part (but ``leave_out``), with the backtest columns where written."""
+def _optional(readers, leave_out=()):
+    """The cycle columns of every part (its ``pq.ParquetFile``; but ``leave_out``), with the backtest columns
+    where written."""
     import pyarrow as pa
-    import pyarrow.parquet as pq
     tables = []
-    for part in parts:
-        reader = pq.ParquetFile(part)
+    for reader in readers:
         names = reader.schema_arrow.names
         tables.append(reader.read(columns=[n for n in CYCLE if n not in leave_out]
                                   + [n for n in names if n.startswith("backtest_")]))
