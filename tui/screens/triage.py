@@ -194,8 +194,10 @@ class TriageScreen(Screen):
         until they are in, accept and override wait (and say so), then act if the same series is still shown."""
         if getattr(self.session.results, "complete", True):
             return False
-        self._drop_waiting("you pressed another decision key")
-        self._waiting_key = (action, self.session.shown)
+        waiting = (action, self.session.shown)
+        if self._waiting_key != waiting:  # the same key again on the same series still waits, unsaid
+            self._drop_waiting("you pressed another decision key")
+        self._waiting_key = waiting
         self.app.read_the_rest()  # if not begun yet (it waits for the series on screen to be fitted first)
         self.notify("Reading the rest of the results file: the key acts when it is in, if this series is "
                     "still shown.", timeout=3, markup=False)
