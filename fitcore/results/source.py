@@ -110,9 +110,9 @@ def subset(data, series: np.ndarray):
     """The ``Dataset`` of ``series`` only (ascending indices), rows in their order; whether each control is 0/1
     stays what the whole input says (a partition is told so too)."""
     from ..data.dataset import Dataset
-    lo, hi = data.offsets[series], data.offsets[series + 1]
-    counts = hi - lo
-    rows = np.repeat(lo - np.concatenate(([0], np.cumsum(counts)[:-1])), counts) + np.arange(int(counts.sum()))
+    from ..review.intervals import rows_of
+    counts = data.offsets[series + 1] - data.offsets[series]
+    rows = rows_of(data.offsets, series)
 
     def part(values):
         return None if values is None else np.ascontiguousarray(np.asarray(values)[rows])

@@ -28,7 +28,7 @@ from ..review.flags import CODES, SEVERITY, Diagnosis
 from ..review.thresholds import Thresholds
 from .control_fields import CONTROL_COLUMNS, stored_controls
 from .later import LaterColumns
-from .read import read_header, result_parts
+from .read import CYCLE_COLUMNS, read_header, result_parts
 
 # The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
 # ``LATER``: the largest of them, which the list does not need; ``stored_results(later=True)`` leaves them
@@ -271,7 +271,7 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
 
 # -- the next cycle's fields (``results/cycle.py``): read where the file holds them --------------------
 
-CYCLE = ("sigma2", "df", "cov_unscaled", "last_date")
+CYCLE = CYCLE_COLUMNS  # the next cycle's fields, all or none (``read.read_header`` checks)
 CYCLE_LATER = ("sigma2", "df", "cov_unscaled")  # only a decision's snapshot needs them: read behind the list
 
 
