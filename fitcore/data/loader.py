@@ -118,9 +118,10 @@ def read_rows(path: Path, columns: Columns, sep: str | None = None):
     check_file(path)
     kind, _ = file_kind(path)
     if kind == "parquet":
-        from .read_parquet import parquet_names, read_parquet_rows
-        check_columns(path, parquet_names(path), columns)
-        return read_parquet_rows(path, columns), kind, None
+        from .read_parquet import parquet_schema, read_parquet_rows
+        schema = parquet_schema(path)  # a folder's files found once, for the check and the read
+        check_columns(path, schema.names, columns)
+        return read_parquet_rows(path, columns, schema), kind, None
     from .read_csv import read_csv_rows
     check_text(path)
     delimiter = delimiter_of(path, columns, sep)

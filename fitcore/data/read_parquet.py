@@ -30,11 +30,12 @@ def parquet_schema(path: Path) -> pa.Schema:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
 
 
-def read_parquet_rows(path: Path, columns: Columns):
+def read_parquet_rows(path: Path, columns: Columns, schema=None):
     """Every row's needed columns (``RawRows``).  Text keys and dates are read dictionary-encoded: the
-    reader decodes them straight into codes and a few distinct values, never millions of strings."""
+    reader decodes them straight into codes and a few distinct values, never millions of strings.
+    ``schema``: ``parquet_schema(path)`` when the caller has it already."""
     import pyarrow.parquet as pq
-    schema = parquet_schema(path)
+    schema = parquet_schema(path) if schema is None else schema
     texts = [name for name in (*columns.keys, *([columns.date] if columns.date else []))
              if pa.types.is_string(schema.field(name).type) or pa.types.is_large_string(schema.field(name).type)]
     try:
