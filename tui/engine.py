@@ -15,7 +15,9 @@ _LOADED = threading.Event()
 
 
 def load() -> None:
-    """Start numba and load the loop that draws curves (the fit behind the screen loads the rest)."""
+    """Start numba and load the loop that draws curves (the fit behind the screen loads the rest); once."""
+    if _LOADED.is_set():
+        return
     from fitcore.fit.basis import polynomial
     polynomial(np.zeros(1), np.zeros(1))
     _LOADED.set()
