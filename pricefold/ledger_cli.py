@@ -167,21 +167,11 @@ def run_show(args) -> int:
 
 
 def run_accept_unflagged(args) -> int:
-    from fitcore.results.read import results_in_parts
-    header, parts = results_in_parts(args.results)
-    from fitcore.ledger.snapshot import from_records, header_terms
-    digest = ledger.results_digest(header)
+    from fitcore.ledger.proposals import unflagged
     # What the results propose and the models as they stand, read before taking the lock (a results
     # folder can be large).
-    unflagged = [record for part in parts for record in part if not record["flags"] and record["chosen"]]
-    if any("basis" not in c for record in unflagged for c in record["candidates"] if c["name"] == record["chosen"]):
-        from fitcore.errors import DataError
-        raise DataError("holds no interval parts to sign with (written by an older pricefold); fit again",
-                        path=str(args.results))
-    signed = from_records([(record, record["chosen"]) for record in unflagged], header["settings"].get("level", 0.95),
-                          header_terms(header["settings"]))
-    proposals = [(record["key"], record["fingerprint"], record["chosen"], snapshot)
-                 for record, snapshot in zip(unflagged, signed)]
+    header, proposals = unflagged(args.results)
+    digest = ledger.results_digest(header)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
