@@ -49,9 +49,12 @@ def text_object(value: dict) -> str:
 
 
 def canonical_bytes(value) -> bytes:
-    """The same in UTF-8, for finite numbers only (``ValueError`` for NaN or infinity)."""
+    """The same in UTF-8, for finite numbers only (``ValueError`` for NaN or infinity).
+
+    orjson's result is copied: it keeps the capacity of its growing buffer (7 KiB for a 0.5 KiB signed
+    model), so 100,000 kept as they came held 0.7 GB; the copy holds what it says."""
     body = _fast(value)
-    return body if body is not None else _FINITE.encode(value).encode("utf-8")
+    return bytes(memoryview(body)) if body is not None else _FINITE.encode(value).encode("utf-8")
 
 
 def _fast(value) -> bytes | None:

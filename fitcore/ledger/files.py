@@ -120,12 +120,14 @@ def _remove(path: Path) -> None:
         pass
 
 
-def write_all(fd: int, path: Path, size: int, payload: bytes) -> None:
-    """Write ``payload`` at the end and fsync; on failure cut back whatever part landed."""
+def write_all(fd: int, path: Path, size: int, lines: list[bytes]) -> None:
+    """Write ``lines`` at the end and fsync; on failure cut back whatever part landed.  Written a few MiB
+    at a time (100,000 signed records joined at once were another 0.12 GB)."""
     try:
-        view = memoryview(payload)
-        while view:
-            view = view[os.write(fd, view):]
+        for piece in pieces(lines):
+            view = memoryview(piece)
+            while view:
+                view = view[os.write(fd, view):]
         os.fsync(fd)
     except OSError as exc:
         try:  # earlier records stay as they were
@@ -134,3 +136,24 @@ def write_all(fd: int, path: Path, size: int, payload: bytes) -> None:
         except OSError:
             pass
         raise LedgerError(f"{path}: the decision was not recorded ({exc.strerror}); earlier records are intact") from None
+
+
+def pieces(lines: list[bytes], size: int = 1 << 22):
+    """``lines`` joined into pieces of about ``size`` bytes, in order."""
+    start = total = 0
+    for end, line in enumerate(lines, start=1):
+        total += len(line)
+        if total >= size:
+            yield b"".join(lines[start:end])
+            start, total = end, 0
+    if start < len(lines):
+        yield b"".join(lines[start:])
+
+
+def holds(fd: int, offset: int, lines: list[bytes]) -> bool:
+    """Whether the file holds exactly ``lines`` from ``offset`` to its end (compared piece by piece)."""
+    for piece in pieces(lines):
+        if os.pread(fd, len(piece), offset) != piece:
+            return False
+        offset += len(piece)
+    return os.fstat(fd).st_size == offset

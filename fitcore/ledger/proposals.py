@@ -75,10 +75,13 @@ def _columnwise(path: Path, parts: list[Path]) -> tuple[dict, list[Proposal]] | 
     """The proposals of a Parquet file or folder, or None when the record reader must read it."""
     header = read_header(path)
     header.pop("key_columns", None)
+    import pyarrow as pa
     try:
         pieces = [_part(part) for part in parts]
     except _Doubt:
         return None
+    finally:
+        pa.default_memory_pool().release_unused()  # what the reads held goes back (0.2 GB at 700,000 rows)
     if not pieces or not sum(len(piece["name"]) for piece in pieces):
         return header, []
     picked = {name: _stack([piece[name] for piece in pieces]) for name in pieces[0]}
@@ -120,12 +123,46 @@ def _part(part: Path) -> dict:
         for name, kind in [*((k, _TEXT) for k in key_names), *_READ.items(), *_TYPED.items()]:
             if not _typed(schema.field(name).type, kind):
                 raise _Doubt
-        table = reader.read(columns=[*key_names, *_READ])
+        picked, at = _pick(reader.read(columns=[*key_names, *(n for n in _READ if n not in _CELLS)]), key_names)
+        return _with_cells(picked, _cells(reader, at))
     except _Doubt:
         raise
     except Exception:  # pyarrow raises several unrelated types for a bad file: the record reader says which
         raise _Doubt from None
-    return _pick(table, key_names)
+
+
+# The largest columns: read a batch of rows at a time, only the proposed candidates' cells kept.
+_CELLS = ("coef", "window_coef", "cov_unscaled", "smearing", "sigma2", "df", "cv_mse")
+_BATCH = 1 << 16
+
+
+def _cells(reader, rows: np.ndarray) -> dict:
+    """The ``_CELLS`` columns at ``rows`` (ascending), read ``_BATCH`` rows at a time (the whole columns of
+    700,000 rows would hold 0.3 GB, and more while they are decoded)."""
+    import pyarrow as pa
+    taken, start = {name: [] for name in _CELLS}, 0
+    for batch in reader.iter_batches(batch_size=_BATCH, columns=list(_CELLS)):
+        lo, hi = np.searchsorted(rows, [start, start + batch.num_rows])
+        if hi > lo:
+            for name in _CELLS:
+                taken[name].append(batch.column(name).take(_indices(rows[lo:hi] - start)))
+        start += batch.num_rows
+    return {name: pa.concat_arrays(arrays) if arrays else pa.array([], type=reader.schema_arrow.field(name).type)
+            for name, arrays in taken.items()}
+
+
+def _with_cells(picked: dict, cell: dict) -> dict:
+    """The proposed candidates' coefficients, covariances and cell numbers beside what ``_pick`` read."""
+    if any(cell[name].null_count for name in ("window_coef", "coef")):
+        raise _Doubt
+    size = _lengths(cell["coef"])
+    kind = cell["window_coef"].type
+    window = _matrix(cell["window_coef"], kind.list_size if hasattr(kind, "list_size") else None)
+    if (size > window.shape[1]).any():
+        raise _Doubt
+    cov = _matrix(cell["cov_unscaled"], int((size ** 2).max(initial=1)), square=size)
+    numbers_of = {name: numbers(cell[name]).astype(float) for name in ("smearing", "sigma2", "df", "cv_mse")}
+    return {**picked, "size": size, "window_coef": window, "cov": cov, **numbers_of}
 
 
 def _typed(kind, expected: str) -> bool:
@@ -140,7 +177,9 @@ def _typed(kind, expected: str) -> bool:
             "date": pa.types.is_date32}[expected](kind)
 
 
-def _pick(table, key_names: list[str]) -> dict:
+def _pick(table, key_names: list[str]) -> tuple[dict, np.ndarray]:
+    """What the series' own rows say (keys, flags, proposals, counts, ranges, dates, plan prices) for the
+    unflagged series with a proposal; and their proposed candidates' rows."""
     rows = table.num_rows
     column = {name: table.column(name).combine_chunks() for name in table.column_names}
     keys = {name: objects(column[name]) for name in key_names}
@@ -172,28 +211,22 @@ def _pick(table, key_names: list[str]) -> dict:
     wanted = np.flatnonzero(_no_flags(objects(column["flags"].take(_indices(first)))) & (proposal != None)  # noqa
                             & (proposal != ""))
     at = row_of[wanted]
-    if not numbers(available)[at].all() or _nulls(column["family"], at) or _nulls(column["window_coef"], at) \
-            or _nulls(column["coef"], at):
+    if not numbers(available)[at].all() or _nulls(column["family"], at):
         raise _Doubt
-    size = _lengths(column["coef"].take(_indices(at)))
-    width = column["window_coef"].type.list_size if hasattr(column["window_coef"].type, "list_size") else None
-    window = _matrix(column["window_coef"].take(_indices(at)), width)
-    cov = _matrix(column["cov_unscaled"].take(_indices(at)), int((size ** 2).max(initial=1)), square=size)
     families = objects(column["family"].take(_indices(at)))
     from ..fit.families import BY_NAME
-    if any(name not in BY_NAME for name in set(families.tolist())) or (size > window.shape[1]).any():
+    if any(name not in BY_NAME for name in set(families.tolist())):
         raise _Doubt
     lead_rows = first[wanted]
     plan = _plan_prices(column, series, wanted, len(first))
     key_dicts = [dict(zip(key_names, values)) for values in zip(*(keys[k][lead_rows].tolist() for k in key_names))]
     dates = column["last_date"].take(_indices(lead_rows)).to_pylist()
     return {"key": _object_array(key_dicts), "fingerprint": objects(column["fingerprint"].take(_indices(lead_rows))),
-            "name": proposal[wanted], "family": families, "size": size, "window_coef": window, "cov": cov,
+            "name": proposal[wanted], "family": families,
             "cand_lo": _floats(column["price_lo"], at), "cand_hi": _floats(column["price_hi"], at),
-            "smearing": _floats(column["smearing"], at), "sigma2": _floats(column["sigma2"], at),
-            "df": _floats(column["df"], at), "cv_mse": _floats(column["cv_mse"], at), "n": n[lead_rows].astype(np.int64),
+            "n": n[lead_rows].astype(np.int64),
             "lo": _floats(column["price_lo"], lead_rows), "hi": _floats(column["price_hi"], lead_rows),
-            "last_date": _object_array([None if d is None else d.isoformat() for d in dates]), "plan_price": plan}
+            "last_date": _object_array([None if d is None else d.isoformat() for d in dates]), "plan_price": plan}, at
 
 
 def _stack(arrays: list[np.ndarray]) -> np.ndarray:

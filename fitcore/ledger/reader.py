@@ -233,16 +233,15 @@ class Ledger:
         they are (made here, from canonical JSON: parsing and re-checking 100,000 of them cost seconds);
         otherwise the file is read back and verified like any tail."""
         if records and lines and not self.problems and not self._chain.batch:
-            written = b"".join(lines)
-            status = os.fstat(fd)
-            if status.st_size == self._offset + len(written) and os.pread(fd, len(written), self._offset) == written:
+            if files.holds(fd, self._offset, lines):
+                status, written = os.fstat(fd), sum(map(len, lines))
                 last = records[-1]
                 self._chain.seq, self._chain.prev = last["seq"], last["digest"]
                 self._chain.second = True
                 self._chain.keyed = self._chain.keyed or last["digest_kind"] == "hmac-sha256"
                 self._line += len(records)
                 with collector_paused():
-                    self._take(records, self._offset + len(written), lines[-1][:-1])
+                    self._take(records, self._offset + written, lines[-1][:-1])
                 self.notes = []
                 self._seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
                 return records

@@ -62,7 +62,7 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
             prev = record["digest"]
             lines.append(line)
             records.append(record)
-        files.write_all(fd, path, book.tail_start, b"".join(lines))
+        files.write_all(fd, path, book.tail_start, lines)
         return book.take_written(fd, records, lines)
     finally:
         os.close(fd)  # closing releases the lock
