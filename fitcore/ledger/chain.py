@@ -123,3 +123,34 @@ def digest_matches(record: dict, raw: bytes, key: bytes | None) -> bool:
         return json.loads(raw) == record and digest_of(record, key) == digest
     except (TypeError, ValueError):
         return False
+
+
+def check_plain(state: ChainState, record: dict, raw: bytes, key: bytes | None) -> bool:
+    """``check`` for the usual record — a well-formed /2 record as pricefold writes it, its digest of the
+    kind in force, the next in the chain and in its batch — in one pass: True when it is one (``state``
+    advanced exactly as ``check`` advances it, nothing to say), False when ``check`` must judge it
+    (``state`` untouched).  A third of opening a 100,000-record ledger was ``check``'s calls and lookups."""
+    if record.get("schema") != SCHEMA or shape_problem(record) is not None:
+        return False
+    kind, digest = record["digest_kind"], record["digest"]
+    if kind != (KEYED if key is not None else PLAIN) or (key is None and state.keyed):
+        return False
+    seq = record["seq"]
+    if record["prev"] != state.prev or seq != state.seq + 1 or not HEX64.fullmatch(digest):
+        return False
+    batch, open_batch = record["batch"], state.batch
+    if open_batch is not None:
+        if batch is None or batch["id"] != open_batch[0] or batch["index"] != open_batch[1] + 1 \
+                or batch["size"] != open_batch[2]:
+            return False
+    elif batch is not None and batch["index"] != 1:
+        return False
+    member = b',"digest":"' + digest.encode("ascii") + b'"'
+    at = raw.find(member)
+    if at <= 0 or sign(raw[:at] + raw[at + len(member):], key) != digest:
+        return False  # (a line not as pricefold writes it may still verify: ``check`` decides)
+    state.seq, state.prev, state.second = seq, digest, True
+    state.keyed = state.keyed or kind == KEYED
+    state.batch = None if batch is None or batch["index"] == batch["size"] else \
+        (batch["id"], batch["index"], batch["size"])
+    return True

@@ -24,7 +24,7 @@ from datetime import datetime
 from pathlib import Path
 
 from . import files
-from .chain import ChainState, check
+from .chain import ChainState, check, check_plain
 from .fastjson import parse_lines
 from .records import GENESIS, Entry, Identity, Problem
 from .replay import SeriesHistory, apply
@@ -160,9 +160,16 @@ class Ledger:
         unit: list[dict] = []
         before = (self._chain.copy(), self._line, self._unverifiable)
         position, doubt = start, False
+        chain, key = self._chain, self.key
         for raw, record in parsed_lines(data, end):
             self._line += 1
             position += len(raw) + 1
+            if record is not None and check_plain(chain, record, raw, key):  # the usual record, in one pass
+                unit.append(record)
+                if chain.batch is None or self.problems:
+                    new += self._take(unit, position, raw)
+                    unit, before = [], (chain.copy(), self._line, self._unverifiable)
+                continue
             if record is None:
                 problems, unverifiable, well_formed = ["not a valid JSON record"], False, False
             else:

@@ -1,11 +1,12 @@
 """Benchmark of the triage screen on 100k invented series: start-up and key-to-repaint.
 
     python tests/bench/bench_triage.py [--series 100000]
-    python tests/bench/bench_triage.py --results RESULTS.parquet [--runs 3] [--python PY ...]
+    python tests/bench/bench_triage.py --results RESULTS.parquet [--ledger L.jsonl] [--runs 3] [--python PY ...]
 
 The second form only times launch → list and → observations on an existing results file, ``--runs``
 rounds, each round every ``--python`` in turn (interleaved: e.g. main's venv and this one's), with the
-load average beside each run.
+load average beside each run; ``--ledger``: each launch opens a copy of that ledger (verified in full
+before the list), else an empty one.
 
 Writes invented data and its results file (``pricefold fit``), then prints,
 measured in one run: from launching ``pricefold triage RESULTS`` in a tmux
@@ -81,9 +82,13 @@ def write_inputs(n_series: int, folder: Path) -> tuple[Path, Path]:
     return data, results
 
 
-def launch_to_screen(results: Path, folder: Path, python: str = sys.executable) -> tuple[float, float]:
+def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
+                     ledger: Path | None = None) -> tuple[float, float]:
     """Seconds from starting ``pricefold triage RESULTS`` in a terminal (tmux, 160×50) to the list on
-    screen, and to the observations on screen (read and fitted behind it)."""
+    screen, and to the observations on screen (read and fitted behind it).  ``ledger``: opened as a copy."""
+    if ledger is not None:
+        import shutil
+        shutil.copyfile(ledger, folder / "launch.jsonl")
     sock = folder / "tmux.sock"
     command = f"{python} -m pricefold triage {results} --ledger {folder / 'launch.jsonl'}"
     tmux = ["tmux", "-S", str(sock), "-f", "/dev/null"]
@@ -97,6 +102,8 @@ def launch_to_screen(results: Path, folder: Path, python: str = sys.executable) 
                 listed = time.perf_counter() - start
             if "• observed" in screen:
                 observed = time.perf_counter() - start
+            if listed is not None and "Nothing listed" in screen:
+                break  # every series decided: no observations to wait for
             time.sleep(0.02)
     finally:
         subprocess.run(tmux + ["kill-server"], capture_output=True)
@@ -188,16 +195,17 @@ async def measure_keys(results_path: Path, folder: Path, other: bool) -> None:
           + (f"; the screen had read {seen_other:,} of the other analyst's decisions" if other else ""))
 
 
-def launches(results: Path, runs: int, pythons: list[str]) -> None:
+def launches(results: Path, runs: int, pythons: list[str], ledger: Path | None = None) -> None:
     """Launch → list and → observations, ``runs`` rounds, each round every python in turn (interleaved)."""
     with tempfile.TemporaryDirectory() as name:
         for round_ in range(runs):
             for python in pythons:
                 folder = Path(name) / f"{round_}-{pythons.index(python)}"
                 folder.mkdir()
-                listed, observed = launch_to_screen(results, folder, python)
+                listed, observed = launch_to_screen(results, folder, python, ledger)
                 load = open("/proc/loadavg").read().split()[0] if Path("/proc/loadavg").exists() else "?"
-                print(f"  {python}: list {listed:.2f} s, observations {observed:.2f} s (load {load})", flush=True)
+                seen = f"{observed:.2f} s" if observed is not None else "— (none listed)"
+                print(f"  {python}: list {listed:.2f} s, observations {seen} (load {load})", flush=True)
 
 
 def main() -> None:
@@ -206,11 +214,13 @@ def main() -> None:
     parser.add_argument("--results", type=Path, default=None,
                         help="an existing results file: only launch → list / observations, --runs times")
     parser.add_argument("--runs", type=int, default=3)
+    parser.add_argument("--ledger", type=Path, default=None, help="with --results: each launch opens a copy of it")
     parser.add_argument("--python", action="append", default=[],
                         help="interpreter(s) to launch, interleaved (e.g. another checkout's venv); default this one")
     args = parser.parse_args()
     if args.results is not None:
-        launches(args.results.resolve(), args.runs, args.python or [sys.executable])
+        launches(args.results.resolve(), args.runs, args.python or [sys.executable],
+                 args.ledger.resolve() if args.ledger else None)
         return
     asyncio.run(measure(args.series))
 
