@@ -39,9 +39,11 @@ def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes
                         progress: Callable[[int, int], None] | None = None, units: dict | None = None) -> TriageSession:
     """A session on the results as the file holds them: no refit, no observations yet; the largest columns,
     which the list does not need, are still being read (``StoredResults.complete``)."""
+    from fitcore.ledger.reader import opening
+    book = opening(ledger_path, key)  # read and verified meanwhile: Arrow reads the results without the interpreter
     results, diagnosis = stored_results(path, later=True)
     head = {k: v for k, v in read_header(path).items() if k != "key_columns"}
-    return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units)
+    return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units, book=book())
 
 
 def sample_source(controls: tuple[str, ...] = (), season: int = 0) -> Source:

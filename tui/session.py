@@ -80,7 +80,8 @@ class TriageSession(ListState):
     """State of one analyst's triage of one set of results."""
 
     def __init__(self, results: Results, diagnosis: Diagnosis, ledger_path: Path, who: ledger.Identity,
-                 results_digest: str, key: bytes | None = None, units: dict | None = None) -> None:
+                 results_digest: str, key: bytes | None = None, units: dict | None = None,
+                 book: ledger.Ledger | None = None) -> None:
         self.results, self.base_diagnosis = results, diagnosis
         self.ledger_path, self.who, self.key, self.results_digest = Path(ledger_path), who, key, results_digest
         self.units = {k: clean(str(v)) for k, v in (units or {}).items() if v}
@@ -91,7 +92,8 @@ class TriageSession(ListState):
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
         self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
         self._index_by_key: dict[tuple, int] | None = None  # key values → index (``_indices_of``)
-        self.book = ledger.Ledger(self.ledger_path, key)  # verified in full here, then only its new tail
+        # verified in full here (or by the caller: ``book``, that ledger opened), then only its new tail
+        self.book = book if book is not None else ledger.Ledger(self.ledger_path, key)
         self._applied, self._generation = 0, self.book.generation
         if self.book.state != ledger.INTACT:
             self.warnings.append(f"{self.ledger_path.name}: {self.book.state} ({self.book.problem}); "
