@@ -14,8 +14,9 @@ from fitcore import ledger
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.snapshot import header_terms
+from fitcore.text import clean
 
-from .ledger_cli import identity, open_ledger
+from .ledger_cli import identity, open_ledger, parse_head
 
 
 def add_fit_ledger_option(parser) -> None:
@@ -306,9 +307,11 @@ def _carry(args) -> int:
         plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95),
                                        header_terms(header["settings"]))
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
-    seq, _, head = str(source.get("head", "")).partition(":")
-    if not (seq.isdigit() and book.holds(int(seq), head)):
-        raise ledger.LedgerError(f"{args.ledger}: no longer holds record {seq}:{head[:12]}…, the head 'fit --ledger' "
+    read = str(source.get("head", ""))
+    witness = parse_head(read)
+    if witness is None or not book.holds(*witness):
+        said = f"{witness[0]}:{witness[1][:12]}" if witness else clean(read[:20])
+        raise ledger.LedgerError(f"{args.ledger}: no longer holds record {said}…, the head 'fit --ledger' "
                                  f"read (it now ends at {book.head_text[:20]}…: records were removed or the file "
                                  "replaced); nothing was carried")
     outcome: Counter = Counter()

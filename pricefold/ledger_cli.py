@@ -23,6 +23,12 @@ KEY_VARIABLE = "PRICEFOLD_LEDGER_KEY"
 HEAD = re.compile(r"(\d+):([0-9a-f]{64})")
 
 
+def parse_head(text: str) -> tuple[int, str] | None:
+    """``(seq, digest)`` of a ledger head written as ``SEQ:DIGEST`` (``Ledger.head_text``); None when it is not one."""
+    match = HEAD.fullmatch(text)
+    return (int(match[1]), match[2]) if match else None
+
+
 def ledger_key() -> bytes | None:
     value = os.environ.get(KEY_VARIABLE)
     return value.encode("utf-8") if value else None
@@ -99,11 +105,10 @@ def open_ledger(path: Path, *, refuse: tuple[str, ...] = (), must_exist: bool = 
 def run_verify(args) -> int:
     witness = None
     if args.head is not None:
-        match = HEAD.fullmatch(args.head.strip())
-        if not match:
+        witness = parse_head(args.head.strip())
+        if witness is None:
             raise ledger.LedgerError(f"expected --head as SEQ:DIGEST (a number, a colon, 64 hex digits), "
                                      f"got {clean(args.head)!r}")
-        witness = int(match[1]), match[2]
     book = ledger.Ledger(args.ledger, ledger_key())
     if not book.exists:
         raise ledger.LedgerError(f"{args.ledger}: file not found")

@@ -293,3 +293,12 @@ def test_export_gives_an_overriding_models_own_plan_volume(tmp_path, results, ca
     for end in ("lo", "hi"):  # its own interval, as the results hold it for every available candidate
         assert float(row[f"plan_{end}"]) == pytest.approx(other[f"plan_{end}"])
         assert other[f"plan_{end}"] != pytest.approx(series["plan"][end])
+
+
+def test_one_parser_reads_a_head_for_verify_and_for_carry():
+    """``SEQ:DIGEST`` as ``Ledger.head_text`` writes it (a number, a colon, 64 lower-case hex digits)."""
+    from pricefold.ledger_cli import parse_head
+    digest = "0123456789abcdef" * 4
+    assert parse_head(f"12:{digest}") == (12, digest)
+    for wrong in (f"12:{digest.upper()}", f"12:{digest[:-1]}", f"²:{digest}", f" 12:{digest}", f"12{digest}", ""):
+        assert parse_head(wrong) is None, wrong
