@@ -22,7 +22,7 @@ from fitcore.errors import PricefoldError
 from fitcore.fit.results import Results
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import SeriesHistory, series_id
-from fitcore.ledger.rules import what_happened
+from fitcore.ledger.rules import check_latest, what_happened
 from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale
 
 from .listing import (
@@ -365,9 +365,7 @@ class TriageSession(ListState):
         s = self.index_of(shown)
         if s < 0:
             raise Refused("this series is no longer in the results")
-        records = self.history(s)
-        if records and records[-1].get("digest") != shown.latest:  # what the ledger would say, said first
-            raise ledger.LedgerConflict(f"{describe(records[-1])}; look again", records[-1])
+        check_latest(shown.key, shown.latest, self.histories.get(self._id(s)))  # the ledger's rule, said first
         if self.waiting and s == self.current and action != "revoke":
             raise Refused("this series has left the list you are working through; move on first")
         later = getattr(self.results, "later", None)

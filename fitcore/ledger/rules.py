@@ -47,12 +47,19 @@ def check_against(entries: list[Entry], histories: dict[str, SeriesHistory], who
     (``LedgerConflict`` for a stale ``supersedes``) for the first entry it must refuse."""
     for entry in entries:
         history = histories.get(series_id(entry.series))
-        latest = history.latest if history else None
-        if entry.supersedes != (latest["digest"] if latest else None):
-            raise LedgerConflict(f"{what_happened(latest)}; look again" if latest else
-                                 f"{label(entry.series)}: the record this decision follows is not in the ledger; "
-                                 "look again", latest)
+        check_latest(entry.series, entry.supersedes, history)
         _check_action(entry, history, who)
+
+
+def check_latest(series: dict, supersedes: str | None, history: SeriesHistory | None) -> None:
+    """The rule "the record the decider saw (``supersedes``: its digest, None for none) is still the series'
+    latest": ``LedgerConflict`` naming what happened since.  The ledger applies it under its lock; a screen
+    may ask first, in the same words."""
+    latest = history.latest if history else None
+    if supersedes != (latest["digest"] if latest else None):
+        raise LedgerConflict(f"{what_happened(latest)}; look again" if latest else
+                             f"{label(series)}: the record this decision follows is not in the ledger; look again",
+                             latest)
 
 
 def _check_action(entry: Entry, history: SeriesHistory | None, who: Identity) -> None:
