@@ -186,13 +186,18 @@ class TriageApp(App):
                 screen.refresh_all()
                 screen.evidence.redraw()
         else:
-            self.notify("The data no longer match the results file: observations are not shown.",
-                        severity="warning", timeout=10, markup=False)
-            if (screen := self.triage_screen()) is not None:  # the curves, now the engine is in
-                screen.evidence.redraw_charts()
+            self.unobserved("the data no longer match the results file: observations are not shown")
 
     def on_rows_failed(self, message: RowsFailed) -> None:
-        self.notify(clean(message.reason), severity="warning", timeout=10, markup=False)
+        self.unobserved(f"observations unavailable: {clean(message.reason)}")
+
+    def unobserved(self, why: str) -> None:
+        """The observations will not come: say why, and the charts say it where they would be drawn."""
+        if self.session is not None:
+            self.session.unobserved = why
+        self.notify(why[0].upper() + why[1:] + ".", severity="warning", timeout=10, markup=False)
+        if (screen := self.triage_screen()) is not None:  # the curves, now the engine is in
+            screen.evidence.redraw_charts()
 
     def on_load_failed(self, message: LoadFailed) -> None:
         body = Text("Could not open the triage:\n\n", style="bold")

@@ -84,6 +84,7 @@ class TriageSession(ListState):
         self.ledger_path, self.who, self.key, self.results_digest = Path(ledger_path), who, key, results_digest
         self.units = {k: clean(str(v)) for k, v in (units or {}).items() if v}
         self.warnings: list[str] = []
+        self.unobserved: str | None = None  # why no observations will come (data file gone, changed, too large)
         data = results.data
         self.keys = SeriesKeys.of(data)  # Arrow columns: no Python object per series
         self._labels: dict[int, tuple[str, ...]] = {}

@@ -18,6 +18,7 @@ from fitcore.review.evidence import adjusted_volumes, band, curve, runner_up, se
 
 # 256-colour numbers (plotext draws them as 38;5;N; the legend uses the same numbers)
 STANDING, OTHER, BAND, OBSERVED, PLAN, ONE_SE, SIGNED, NEW = 46, 45, 214, 255, 201, 214, 177, 226
+UNOBSERVED = "#d7af5f"  # the warn colour: no observations will come, and why
 SOLID = "braille"  # renders in a plain xterm-256color; sextant markers often do not
 LOG_RATIO = 10  # the fold chart goes to a log scale when the largest error is this many times the smallest mean
 
@@ -58,12 +59,13 @@ def price_grid(lo: float, hi: float, plan: float, positive: bool) -> np.ndarray:
 
 
 def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict,
-                adjusted: bool = False, signed: dict | None = None) -> Text:
+                adjusted: bool = False, signed: dict | None = None, unobserved: str | None = None) -> Text:
     """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its 95% band
     (dotted) and the plan price (a vertical line).  ``adjusted``: with controls, each observation's volume
     moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn.
     ``signed``: the snapshot of a curve signed on earlier data, drawn beside them (dash-dot), and the rows
-    dated after its data's last date marked apart (×)."""
+    dated after its data's last date marked apart (×).  ``unobserved``: why the observations will not come,
+    said where they would be drawn (else, without rows, that they are being read)."""
     price, volume, _ = series_rows(results, s)
     new = np.zeros(len(price), dtype=bool)
     if signed is not None and signed.get("last_date") and results.data.date is not None and len(price):
@@ -106,8 +108,12 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     legend = Text()
     seen = "• observed, adjusted to the plan's controls (c: raw)" if adjusted else "• observed" + (
         " (c: adjusted to the plan's controls)" if results.controls is not None else "")
-    legend.append(seen if results.rows_loaded else "observations and band: reading the data …",
-                  _colour(OBSERVED) if results.rows_loaded else "dim")
+    if results.rows_loaded:
+        legend.append(seen, _colour(OBSERVED))
+    elif unobserved:
+        legend.append(unobserved, UNOBSERVED)
+    else:
+        legend.append("observations and band: reading the data …", "dim")
     if model >= 0:
         legend.append(f"   ⠤⠤ {names[model]} ({'chosen' if model == chosen else 'override'})", _colour(STANDING))
     if other >= 0:

@@ -91,7 +91,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return (None,)
         records = session.history(s)
         news = session.news.get("digest") if session.news is not None else None
-        return (s, session.results, session.observed(s)[0], self.complete, engine.loaded(), session.status[s],
+        return (s, session.results, session.observed(s)[0], self.complete, engine.loaded(), session.unobserved,
+                session.status[s],
                 records[-1].get("digest") if records else None, news, session.waiting, session.model_of(s))
 
     @property
@@ -131,17 +132,20 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         width = max(self.scrollable_content_region.width - 3, 30)
         tall = self.app.size.height >= 40
         observed, at = self.session.observed(s)  # the series fitted first, before the whole data, if it is one
+        unobserved = None if observed.rows_loaded else self.session.unobserved
         if not (observed.rows_loaded or self.complete):  # a fit brings its own numbers; a file's wait to be read
-            for name in ("curve", "folds"):
-                self._part(name).update(Text("charts: reading the data and the rest of the results file …",
-                                             style="dim"))
+            reading = Text("charts: reading " + ("the rest of the results file …" if unobserved else
+                                                 "the data and the rest of the results file …"), style="dim")
+            self._part("folds").update(reading)
+            self._part("curve").update(reading + Text(f"\n{unobserved}", style=SEVERITY_STYLE["warn"]) if unobserved
+                                       else reading)
             return
         if observed.rows_loaded or engine.loaded():
             self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
-                                                   self.session.units, self.adjusted, self.signed_shown(s)))
+                                                   self.session.units, self.adjusted, self.signed_shown(s), unobserved))
         else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
-            self._part("curve").update(Text("curves: starting the engine …; observations and band: reading the "
-                                            "data …", style="dim"))
+            self._part("curve").update(Text("curves: starting the engine …; "
+                                            + (unobserved or "observations and band: reading the data …"), style="dim"))
         self._part("folds").update(fold_chart(observed, at, width, 12 if tall else 9))
 
     # -- the parts ----------------------------------------------------------------------------
