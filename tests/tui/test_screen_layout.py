@@ -83,6 +83,26 @@ async def test_no_sideways_scrollbar_and_the_first_row_is_current(ledger_path, s
         assert session.cursor == 0 and listing.scroll_y == 0
 
 
+@pytest.mark.parametrize("size", [(80, 24), (120, 40)])
+async def test_a_notification_hides_no_listed_row_and_the_cursor_stays_in_view(ledger_path, size):
+    from textual.widgets._toast import Toast
+    app = make_app(ledger_path)
+    async with app.run_test(size=size, notifications=True) as pilot:
+        session = await started(app, pilot)
+        listing = app.screen.series_list
+        rows = listing.scrollable_content_region.height - 1  # under the header
+        for _ in range(rows - 1):  # the cursor on the last row on screen
+            await pilot.press("down")
+        await pilot.press("u")  # nothing to revoke: a warning shows
+        await until(pilot, lambda: app.screen.query(Toast))
+        await pilot.pause()
+        toast = app.screen.query_one(Toast).region
+        assert not toast.overlaps(listing.region), (toast, listing.region)
+        assert listing.scroll_y <= session.cursor < listing.scroll_y + listing.scrollable_content_region.height - 1
+        assert session.label_parts(session.current)[-1] in screen_text(app).splitlines()[
+            listing.region.y + 1 + session.cursor - int(listing.scroll_y)]
+
+
 async def test_at_80x24_the_words_come_before_the_charts(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(80, 24)) as pilot:
