@@ -25,6 +25,7 @@ from fitcore.review.thresholds import Thresholds
 
 from ..text import literal
 
+SHORT = 18  # terminal rows: below this, the dialog drops its padding and explanations so the models keep rows
 HEAD = ("model", "CV MSE", "± SE", "Q²", "volume", "95% PI", "elast.")
 
 
@@ -83,10 +84,11 @@ class OverrideDialog(ModalScreen[str | None]):
 
         plan = results.plan_price[s]
         title = literal(f"Override the proposal for {self.label}", "bold")
-        title.append(f"\nAt the plan price {money(plan)}: volume, 95% interval, elasticity; below each, its own flags"
-                     if math.isfinite(plan) else "\nNo plan price; below each model, its own flags", style="dim")
+        sub = Text(f"At the plan price {money(plan)}: volume, 95% interval, elasticity; below each, its own flags"
+                   if math.isfinite(plan) else "No plan price; below each model, its own flags", style="dim")
         with Vertical(classes="dialog wide override"):
-            yield Static(title, markup=False)
+            yield Static(title, markup=False, id="override-title")
+            yield Static(sub, markup=False, id="override-sub")
             yield Static(Text("  " + line(HEAD), style="bold"), markup=False, id="override-head")
             options = []
             for row in self.rows:
@@ -99,9 +101,14 @@ class OverrideDialog(ModalScreen[str | None]):
                 options.append(Option(prompt, id=row.name, disabled=row.proposed))
             yield OptionList(*options, id="dialog-options")
             yield Static(Text("↑↓ to move · Enter to choose (a note follows) · Esc to cancel", style="dim"),
-                         markup=False)
+                         markup=False, id="override-hint")
+            yield Static(Text("Enter to choose · Esc to cancel", style="dim"), markup=False, id="override-hint-short")
+
+    def on_resize(self) -> None:
+        self.set_class(self.app.size.height < SHORT, "short")
 
     def on_mount(self) -> None:
+        self.set_class(self.app.size.height < SHORT, "short")
         options = self.query_one(OptionList)
         best = runner_up(self.results, self.s)
         names = [row.name for row in self.rows]
@@ -119,6 +126,21 @@ class OverrideDialog(ModalScreen[str | None]):
         shown = max(options.scrollable_content_region.height // 2, 1)
         first = min(proposed, picked) if abs(proposed - picked) < shown else picked - shown + 1
         options.scroll_to(y=2 * max(first, 0), animate=False)
+
+    def on_option_list_option_highlighted(self) -> None:
+        self.call_after_refresh(self._whole_rows)
+
+    def _whole_rows(self) -> None:
+        """After a move, the list's top line is a model's first line: a list an odd number of lines high
+        scrolls one line for the highlighted model and would show a flags line without its model."""
+        options = self.query_one(OptionList)
+        top, height, picked = int(options.scroll_y), options.scrollable_content_region.height, options.highlighted
+        if top % 2 == 0 or picked is None:
+            return
+        for y in (top + 1, top - 1):  # the highlighted model stays whole on screen
+            if 0 <= y <= options.max_scroll_y and y <= 2 * picked and 2 * picked + 1 < y + height:
+                options.scroll_to(y=y, animate=False)
+                return
 
     def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
         self.dismiss(event.option.id)
