@@ -70,9 +70,6 @@ async def test_the_series_on_screen_are_observed_before_the_whole_fit(tmp_path):
                     observer=observer)
     async with app.run_test(size=(160, 50)) as pilot:
         await until(pilot, lambda: isinstance(app.screen, TriageScreen))
-        # the panel's scrollbar comes and goes with its text's height, and the charts take the width left: the
-        # same chart is compared at one width
-        app.screen.evidence.styles.scrollbar_gutter = "stable"
         await until(pilot, lambda: "• observed" in screen_text(app), seconds=30)
         session = app.session
         assert not session.results.rows_loaded
