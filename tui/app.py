@@ -93,7 +93,7 @@ class TriageApp(App):
         at_once = self.observer is None or results.n_series <= self.SMALL
         if not engine.loaded() and at_once:
             self.call_after_refresh(self.load_engine)
-        if not getattr(results, "complete", True):
+        if not results.complete:
             self.call_after_refresh(self.await_results, results)
             if at_once:
                 self.call_after_refresh(self.read_the_rest)

@@ -91,14 +91,9 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return (None,)
         records = session.history(s)
         news = session.news.get("digest") if session.news is not None else None
-        return (s, session.results, session.observed(s)[0], self.complete, engine.loaded(), session.unobserved,
-                session.status[s],
+        return (s, session.results, session.observed(s)[0], session.results.complete, engine.loaded(),
+                session.unobserved, session.status[s],
                 records[-1].get("digest") if records else None, news, session.waiting, session.model_of(s))
-
-    @property
-    def complete(self) -> bool:
-        """Every column of the results is read (a results file's largest ones come in behind the list)."""
-        return getattr(self.session.results, "complete", True)
 
     def redraw(self) -> None:
         self._drawn = self.drawn_state(self.series)
@@ -133,7 +128,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         tall = self.app.size.height >= 40
         observed, at = self.session.observed(s)  # the series fitted first, before the whole data, if it is one
         unobserved = None if observed.rows_loaded else self.session.unobserved
-        if not (observed.rows_loaded or self.complete):  # a fit brings its own numbers; a file's wait to be read
+        if not (observed.rows_loaded or self.session.results.complete):  # a fit brings its numbers; a file's wait
             reading = Text("charts: reading " + ("the rest of the results file …" if unobserved else
                                                  "the data and the rest of the results file …"), style="dim")
             self._part("folds").update(reading)
@@ -245,7 +240,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         missing = Text(style="dim")
         for c, cand in enumerate(results.candidates):
             if not results.available[s, c]:
-                why = clean(results.reason_text(s, c) or '') if self.complete else "(reading the reason …)"
+                why = clean(results.reason_text(s, c) or '') if results.complete else "(reading the reason …)"
                 missing.append(f"  {cand.name}: {why}\n")
                 continue
             mark = "✓" if c == results.chosen[s] else ""
