@@ -20,6 +20,7 @@ from fitcore.review.evidence import adjusted_volumes, band, curve, runner_up, se
 STANDING, OTHER, BAND, OBSERVED, PLAN, ONE_SE, SIGNED, NEW = 46, 45, 214, 255, 201, 214, 177, 226
 UNOBSERVED = "#d7af5f"  # the warn colour: no observations will come, and why
 SOLID = "braille"  # renders in a plain xterm-256color; sextant markers often do not
+PLOTTABLE = 1e290  # largest size of a coordinate plotext is given (beyond it, its axis scaling overflows)
 LOG_RATIO = 10  # the fold chart goes to a log scale when the largest error is this many times the smallest mean
 
 
@@ -34,12 +35,17 @@ def _start(width: int, height: int) -> None:
     plt.frame(True)
 
 
-def _finite(xs, ys) -> tuple[list, list]:
-    """The points whose coordinates are both finite and at most 1e290 in size: plotext fails on an
-    infinity, and on finite values whose span overflows while it scales the axes (±1e307 did)."""
-    xs, ys = np.asarray(xs, dtype=float), np.asarray(ys, dtype=float)
+def _plottable(values) -> np.ndarray:
+    """Where ``values`` are finite and at most ``PLOTTABLE`` in size: plotext fails on an infinity, and on
+    finite values whose span overflows while it scales the axes (±1e307 did)."""
     with np.errstate(invalid="ignore"):
-        keep = (np.abs(xs) <= 1e290) & (np.abs(ys) <= 1e290)
+        return np.abs(np.asarray(values, dtype=float)) <= PLOTTABLE
+
+
+def _finite(xs, ys) -> tuple[list, list]:
+    """The points whose coordinates are both plottable (``_plottable``)."""
+    xs, ys = np.asarray(xs, dtype=float), np.asarray(ys, dtype=float)
+    keep = _plottable(xs) & _plottable(ys)
     return xs[keep].tolist(), ys[keep].tolist()
 
 
@@ -98,7 +104,7 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
         plt.scatter(*_finite(price[~new], volume[~new]), marker="•", color=OBSERVED)
         if new.any():
             plt.scatter(*_finite(price[new], volume[new]), marker="×", color=NEW)
-    if (np.abs(grid) <= 1e290).all():
+    if _plottable(grid).all():
         plt.xlim(float(grid[0]), float(grid[-1]))
     plt.xlabel("price" + (f" ({units['price']})" if units.get("price") else ""))
     if units.get("volume"):
@@ -148,7 +154,7 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
         plt.plot(*_finite([x, x], [m - e, m + e]), marker=SOLID, color=OTHER)
     plt.scatter(*_finite(positions, means), marker="●", color=OTHER)
     best = int(np.argmin(means))
-    if abs(means[best] + ses[best]) <= 1e290:
+    if _plottable(means[best] + ses[best]):
         plt.hline(float(means[best] + ses[best]), ONE_SE)
     chosen = int(results.chosen[s])
     if chosen in available:
