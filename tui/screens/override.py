@@ -20,8 +20,8 @@ from textual.widgets.option_list import Option
 from fitcore.fit.results import Results
 from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.evidence import runner_up
+from fitcore.review.flags import Diagnosis
 from fitcore.review.sentences import fmt, money
-from fitcore.review.thresholds import Thresholds
 
 from ..text import literal
 
@@ -44,9 +44,10 @@ class CandidateRow:
     proposed: bool
 
 
-def candidate_rows(results: Results, s: int, thresholds: Thresholds) -> list[CandidateRow]:
+def candidate_rows(results: Results, s: int, diagnosis: Diagnosis) -> list[CandidateRow]:
     rows = []
     planned = math.isfinite(results.plan_price[s])
+    thresholds, outside = diagnosis.thresholds, diagnosis.controls_outside(s)  # the same for every candidate
     for c, name in enumerate(results.names):
         if not results.available[s, c]:
             continue
@@ -56,7 +57,7 @@ def candidate_rows(results: Results, s: int, thresholds: Thresholds) -> list[Can
             volume=fmt(results.plan_volume[s, c]) if planned else "—",
             interval=f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}" if planned else "—",
             elasticity=f"{results.plan_elasticity[s, c]:.2f}" if planned else "—",
-            flags=candidate_checks(results, s, c, thresholds).codes, proposed=c == results.chosen[s]))
+            flags=candidate_checks(results, s, c, thresholds, outside).codes, proposed=c == results.chosen[s]))
     return rows
 
 
@@ -69,10 +70,10 @@ class OverrideDialog(ModalScreen[str | None]):
 
     BINDINGS = [Binding("escape", "cancel", "cancel")]
 
-    def __init__(self, results: Results, s: int, label: str, thresholds: Thresholds, standing: str | None) -> None:
+    def __init__(self, results: Results, s: int, label: str, diagnosis: Diagnosis, standing: str | None) -> None:
         super().__init__()
         self.results, self.s, self.label, self.standing = results, s, label, standing
-        self.rows = candidate_rows(results, s, thresholds)
+        self.rows = candidate_rows(results, s, diagnosis)
 
     def compose(self) -> ComposeResult:
         results, s = self.results, self.s

@@ -254,7 +254,7 @@ class TriageScreen(Screen):
                 self.ask(f"Why {model} instead of {shown.proposed}?", "a note is required", True,
                          lambda note: self.decide(shown, "override", model, note))
 
-        self.app.push_screen(OverrideDialog(session.results, s, session.label(s), session.diagnosis.thresholds,
+        self.app.push_screen(OverrideDialog(session.results, s, session.label(s), session.diagnosis,
                                             shown.model if shown.model != shown.proposed else None), picked)
 
     def action_note(self) -> None:

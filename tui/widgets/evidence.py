@@ -201,7 +201,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             text.append(f"Overridden to {results.names[model]}", style="bold")
             text.append(f" ({describe(standing)}): {clean(standing.get('note') or '')}\n")
             text.append(score_meaning(float(results.q2[s, model]), session.diagnosis.thresholds.weak_score) + ".\n")
-            checks = candidate_checks(results, s, model, session.diagnosis.thresholds).codes
+            diagnosis = session.diagnosis
+            checks = candidate_checks(results, s, model, diagnosis.thresholds, diagnosis.controls_outside(s)).codes
             said = ", ".join(checks) if checks else "none raised"
             text.append(f"Checks on {results.names[model]}: {said}.\n", style=SEVERITY_STYLE["stop"] if checks else "")
         return text
