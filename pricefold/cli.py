@@ -223,7 +223,7 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
     if not source.found:
         unobserved = f"the data file {source.data} was not found: observations and the refit are unavailable"
     elif rows > REFIT_ROWS:
-        unobserved = f"the data behind these results have {rows:,} rows, too many to read here: observations are not shown"
+        unobserved = f"the data behind these results have {rows:,} rows, too many to read here: no observations"
 
     def refit(progress, first=None):
         if prepare is not None:
@@ -235,7 +235,8 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
         session.warnings.extend(source.warnings)
         if unobserved is not None:
             session.unobserved = unobserved
-            session.warnings.append(f"{unobserved[0].upper()}{unobserved[1:]}; the stored results are shown.")
+            session.warnings.append(f"{unobserved[0].upper()}{unobserved[1:]}; the list and the evidence show the "
+                                    "results as the file holds them.")
         return session
     return TriageApp(opener, observer=refit if unobserved is None else None)
 

@@ -139,8 +139,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
                                                    self.session.units, self.adjusted, self.signed_shown(s), unobserved))
         else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
-            self._part("curve").update(Text("curves: starting the engine …; "
-                                            + (unobserved or "observations and band: reading the data …"), style="dim"))
+            waiting = unobserved or "observations and band: reading the data …"
+            self._part("curve").update(Text(f"curves: starting the engine …; {waiting}", style="dim"))
         self._part("folds").update(fold_chart(observed, at, width, 12 if tall else 9))
 
     # -- the parts ----------------------------------------------------------------------------
