@@ -17,7 +17,7 @@ import numpy as np
 
 from fitcore import ledger
 from fitcore.arrays import integers, texts
-from fitcore.data.keys import FEW_KEYS, SeriesKeys
+from fitcore.data.keys import SeriesKeys
 from fitcore.errors import PricefoldError
 from fitcore.fit.results import Results
 from fitcore.ledger.reader import collector_paused
@@ -25,6 +25,7 @@ from fitcore.ledger.replay import SeriesHistory, series_id
 from fitcore.ledger.rules import check_latest, what_happened
 from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale
 
+from .ledger_series import KeyTable, set_statuses
 from .listing import (
     FILTER_TITLES,
     FILTERS,
@@ -92,7 +93,7 @@ class TriageSession(ListState):
         self._labels: dict[int, tuple[str, ...]] = {}
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
         self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
-        self._index_by_key: dict[tuple, int] | None = None  # key values → index (``_indices_of``)
+        self._key_table = KeyTable(self.keys)  # key values → index, for the many keys of a whole ledger
         # verified in full here (or by the caller: ``book``, that ledger opened), then only its new tail
         self.book = book if book is not None else ledger.Ledger(self.ledger_path, key)
         self._applied, self._generation = 0, self.book.generation
@@ -137,10 +138,10 @@ class TriageSession(ListState):
         self._applied = len(self.book.records)
         touched = {series_id(r["series"]): r["series"] for r in records}
         unknown = [sid for sid in touched if sid not in self._known]
-        for sid, s in zip(unknown, self._indices_of([touched[sid] for sid in unknown])):
+        for sid, s in zip(unknown, self._key_table.indices_of([touched[sid] for sid in unknown])):
             self._known[sid] = int(s)
         changed = {self._known[sid]: sid for sid in touched if self._known[sid] >= 0}
-        self._refresh_statuses(changed)
+        set_statuses(self.status, self.status_code, changed, self.histories, self.results.data)
         changed = set(changed)
         current = self.current
         others = [r for r in records if r.get("digest") not in self._written]
@@ -176,7 +177,7 @@ class TriageSession(ListState):
         if self.pinned is not None:
             self.pinned = int(perm[self.pinned])
         self._known = {sid: int(perm[s]) if s >= 0 else -1 for sid, s in self._known.items()}
-        self.keys, self._labels, self._search, self._index_by_key = fresh, {}, None, None
+        self.keys, self._labels, self._search, self._key_table = fresh, {}, None, KeyTable(fresh)
         self.results, self.first_fit, self._first_rows = results, None, {}
         self._with_backtest(results, diagnosis)
         # Records another analyst made meanwhile may take the highlighted series out of the list: as on any
@@ -255,40 +256,6 @@ class TriageSession(ListState):
     def label(self, s: int) -> str:
         from fitcore.data.keys import SEPARATOR
         return SEPARATOR.join(self.label_parts(s))
-
-    def _indices_of(self, keys: list[dict]) -> list[int]:
-        """The series each key names (-1: none).  Many (a ledger's on opening) through a table of every
-        series' key values, made once: ``SeriesKeys.indices_of`` joins in Arrow, whose join module
-        imports pandas (0.6–1.4 s before the first list)."""
-        if len(keys) <= FEW_KEYS:
-            return self.keys.indices_of(keys).tolist()
-        if self._index_by_key is None:
-            from fitcore.arrays import objects
-            columns = [objects(self.keys.columns[name]).tolist() for name in self.keys.names]
-            table = {}
-            for s, values in enumerate(zip(*columns)):
-                table.setdefault(values, s)  # the first series with these values, as a scan finds it
-            self._index_by_key = table
-        names, table = self.keys.names, self._index_by_key
-        return [table.get(tuple(str(key.get(name, "")) for name in names), -1) for key in keys]
-
-    def _refresh_status(self, s: int) -> None:
-        self._refresh_statuses({s: self._id(s)})
-
-    def _refresh_statuses(self, changed: dict[int, str]) -> None:
-        """Statuses of the series ``changed`` (index → series id) from their histories: a whole ledger's
-        series at once on opening (one call per series cost 0.6 s at 100,000)."""
-        if len(changed) > 64:
-            prints = fingerprint_texts(self.results.data)
-            fingerprint = prints.__getitem__
-        else:
-            fingerprint = self.results.data.fingerprint_of
-        histories, code = self.histories, {word: i for i, word in enumerate(STATUSES)}
-        words = [history.status(fingerprint(s)) if (history := histories.get(sid)) else "pending"
-                 for s, sid in changed.items()]
-        at = np.fromiter(changed, dtype=np.int64, count=len(changed))
-        self.status[at] = words
-        self.status_code[at] = [code[word] for word in words]
 
     def history(self, s: int) -> list[dict]:
         history = self.histories.get(self._id(s))
@@ -427,13 +394,6 @@ class TriageSession(ListState):
         out = dict(zip(STATUSES, tally.tolist()))
         out["attention"] = int(self.needs_attention().sum())
         return out
-
-
-def fingerprint_texts(data) -> np.ndarray:
-    """A dataset's fingerprints as a numpy array of ``str`` (from Arrow text without a scalar each)."""
-    from fitcore.arrays import objects
-    prints = data.fingerprints
-    return np.array(prints, dtype=object) if isinstance(prints, list) else objects(prints)
 
 
 def fingerprint_array(data):

@@ -1,7 +1,7 @@
 """A triage session opened on a ledger naming many series: every status as each series' history gives it.
 
 On opening, the statuses of all the series a ledger names are set at once (``_refresh_statuses``) and the
-series found through a table of key values (``_indices_of``); the reference is the ledger's own replay
+series found through a table of key values (``ledger_series.KeyTable``); the reference is the ledger's own replay
 (``fitcore.ledger.replay``) asked series by series, and ``SeriesKeys.indices_of`` (Arrow's join).
 """
 from __future__ import annotations
@@ -44,4 +44,4 @@ def test_opening_on_a_ledger_of_many_series_gives_each_its_history_status(tmp_pa
     assert session.status.tolist() == statuses
     assert {"stale", "held", "accepted", "pending"} <= set(statuses)
     wanted = keys[:40] + [{"product": "not in these results"}]
-    assert session._indices_of(wanted) == session.keys.indices_of(wanted).tolist()
+    assert session._key_table.indices_of(wanted) == session.keys.indices_of(wanted).tolist()
