@@ -93,7 +93,9 @@ def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
     command = f"{python} -m pricefold triage {results} --ledger {folder / 'launch.jsonl'}"
     tmux = ["tmux", "-S", str(sock), "-f", "/dev/null"]
     start = time.perf_counter()
-    subprocess.run(tmux + ["new-session", "-d", "-x", "160", "-y", "50", command], check=True)
+    # started in ``folder``: ``python -m pricefold`` from a checkout would import that checkout's code, whatever
+    # the interpreter (every "main" launch ran this branch's code when started from a worktree)
+    subprocess.run(tmux + ["new-session", "-d", "-x", "160", "-y", "50", "-c", str(folder), command], check=True)
     listed = observed = None
     try:
         while time.perf_counter() - start < 120 and observed is None:

@@ -1,6 +1,6 @@
 """A triage session opened on a ledger naming many series: every status as each series' history gives it.
 
-On opening, the statuses of all the series a ledger names are set at once (``_refresh_statuses``) and the
+On opening, the statuses of all the series a ledger names are set at once (``ledger_series.set_statuses``) and the
 series found through a table of key values (``ledger_series.KeyTable``); the reference is the ledger's own replay
 (``fitcore.ledger.replay``) asked series by series, and ``SeriesKeys.indices_of`` (Arrow's join).
 """
