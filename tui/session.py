@@ -134,9 +134,11 @@ class TriageSession(ListState):
         if self.book.generation != self._generation:  # the file was read again from the start
             self._applied, self._generation, force = 0, self.book.generation, True
             self.status[:], self.status_code[:] = "pending", 0
+        everything = not self._applied  # every record: the replay has named their series already
         records = self.book.records[self._applied:]
         self._applied = len(self.book.records)
-        touched = {series_id(r["series"]): r["series"] for r in records}
+        touched = ({sid: history.records[-1]["series"] for sid, history in self.histories.items()} if everything
+                   else {series_id(r["series"]): r["series"] for r in records})
         unknown = [sid for sid in touched if sid not in self._known]
         for sid, s in zip(unknown, self._key_table.indices_of([touched[sid] for sid in unknown])):
             self._known[sid] = int(s)
