@@ -73,9 +73,11 @@ _TYPED = {"cv_se": _NUMBER, "r2": _NUMBER, "q2": _NUMBER, "plan_volume": _NUMBER
 
 def _columnwise(path: Path, parts: list[Path]) -> tuple[dict, list[Proposal]] | None:
     """The proposals of a Parquet file or folder, or None when the record reader must read it."""
+    import pyarrow as pa
+
+    from ..fit.families import BY_NAME
     header = read_header(path)
     header.pop("key_columns", None)
-    import pyarrow as pa
     try:
         pieces = [_part(part) for part in parts]
     except _Doubt:
@@ -97,7 +99,6 @@ def _columnwise(path: Path, parts: list[Path]) -> tuple[dict, list[Proposal]] | 
         if (picked["family"][at] != family).any() or (picked["size"][at] != picked["size"][at[0]]).any():
             return None  # the record reader fails on these as it always did
         k = int(picked["size"][at[0]])
-        from ..fit.families import BY_NAME
         mid, half = BY_NAME[family].window_of(picked["cand_lo"][at], picked["cand_hi"][at], True)
         made = snapshots(name, family, level, coef=picked["window_coef"][at, :k], mid=mid, half=half,
                          smear=picked["smearing"][at], cov=picked["cov"][at, :k * k].reshape(len(at), k, k),
@@ -184,7 +185,7 @@ def _pick(table, key_names: list[str]) -> tuple[dict, np.ndarray]:
     column = {name: table.column(name).combine_chunks() for name in table.column_names}
     keys = {name: objects(column[name]) for name in key_names}
     candidate, chosen = objects(column["candidate"]), objects(column["chosen"])
-    available, is_chosen = column["available"], column["is_chosen"]
+    available = column["available"]
     if any(_nulls(column[name]) for name in (*key_names, "candidate", "available", "is_chosen")):
         raise _Doubt
     # A series is a run of rows with one key (as the record reader groups them); its first row holds the
