@@ -163,7 +163,9 @@ def _fit_locally(args, run) -> int:
             diagnosis, backtest = backtest_against(ahead, results, diagnosis, run.thresholds)
         told = summary(results, diagnosis)
         write, by_name = prepared_results(results, args.output, diagnosis, backtest)
-        del data, plan, results, diagnosis  # the rows and the fit are in the table now: free before the write
+        # What the table takes per series is made; it keeps the fit and the rows it still needs (prices): the
+        # rest of the rows freed before it is built, slice by slice, as the file is written.
+        del data, plan, results, diagnosis, backtest
         batch.add(args.output, write, by_name=by_name)
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
