@@ -133,3 +133,31 @@ def test_show_prints_the_same_from_both(cases, capsys):
                 main(["show", str(path), *args])
                 shown.append(capsys.readouterr().out)
         assert shown[0] and shown[:2] == shown[2:]
+
+
+@pytest.mark.parametrize("where", ["building", "writing"])
+def test_a_run_failing_between_row_groups_leaves_the_earlier_file_as_it_was(tmp_path, monkeypatch, capsys, where):
+    """The file is staged under a temporary name (``outputs.atomic``): a failure after some row groups are
+    written, in the thread writing them or in the one building the next, leaves the earlier results whole."""
+    import hashlib
+
+    out = tmp_path / "r.parquet"
+    args = ["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "-o", str(out), "-q"]
+    assert main(args) == 0
+    earlier = hashlib.sha256(out.read_bytes()).hexdigest()
+    calls = []
+    owner, name = (ResultsTable, "slice") if where == "building" else (pq.ParquetWriter, "write_table")
+    original = getattr(owner, name)
+
+    def failing(self, *a, **k):
+        calls.append(1)
+        if len(calls) == 3:
+            raise OSError(28, "No space left on device")
+        return original(self, *a, **k)
+    monkeypatch.setattr(owner, name, failing)
+    whole = ResultsTable.slices
+    monkeypatch.setattr(ResultsTable, "slices", lambda self, series=None: whole(self, SERIES_PER_GROUP))
+    assert main(args) == 2
+    assert "No space left on device" in capsys.readouterr().err and len(calls) == 3
+    assert hashlib.sha256(out.read_bytes()).hexdigest() == earlier
+    assert [p.name for p in tmp_path.iterdir()] == ["r.parquet"]
