@@ -165,7 +165,7 @@ def _fit_locally(args, run) -> int:
         write, by_name = prepared_results(results, args.output, diagnosis, backtest)
         # What the table takes per series is made; it keeps the fit and the rows it still needs (prices): the
         # rest of the rows freed before it is built, slice by slice, as the file is written.
-        del data, plan, results, diagnosis, backtest
+        del data, plan, results, diagnosis  # (``backtest``: per-series arrays, kept for its closing line)
         batch.add(args.output, write, by_name=by_name)
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
