@@ -161,3 +161,28 @@ def test_a_run_failing_between_row_groups_leaves_the_earlier_file_as_it_was(tmp_
     assert "No space left on device" in capsys.readouterr().err and len(calls) == 3
     assert hashlib.sha256(out.read_bytes()).hexdigest() == earlier
     assert [p.name for p in tmp_path.iterdir()] == ["r.parquet"]
+
+
+@pytest.mark.parametrize("folds", [5, "loo"])
+def test_slices_put_together_are_the_whole_table(folds):
+    """Every column of the slices, put together, equals the table built for all series at once (leave-one-out:
+    series with different numbers of folds; weights; many unavailable cells), including slices that are not
+    whole blocks of the covariances' series."""
+    import pyarrow as pa
+
+    import fitcore
+    from fitcore.results.write import header
+    from fitcore.review.flags import diagnose
+    from tests.conftest import random_dataset
+    data = random_dataset(23, n_series=60, n_range=(2, 30), with_weight=True, with_date=True)
+    results = fitcore.fit_batch(data, fitcore.FitSettings(folds=folds))
+    diagnosis = diagnose(results)
+    table = ResultsTable(results, header(results, diagnosis), diagnosis)
+    whole = table.whole()
+    parts = list(table.slices(7))
+    assert len(parts) == 9 and (~results.available).any()
+    assert (len(set(np.diff(results.fold_start).tolist())) > 1) == (folds == "loo")  # both ways of taking folds
+    together = pa.concat_tables(parts)
+    assert together.schema.equals(whole.schema, check_metadata=True)
+    for name in whole.column_names:
+        assert _text(together.column(name).to_pylist()) == _text(whole.column(name).to_pylist()), name
