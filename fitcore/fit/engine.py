@@ -15,7 +15,7 @@ from typing import Callable
 
 import numpy as np
 
-from ..data.dataset import Dataset
+from ..data.dataset import Dataset, series_cuts
 from . import reasons as R
 from . import stages
 from .chunk import Chunk
@@ -50,7 +50,7 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
     spec = ControlSpec.of(data, settings)
     at_controls = None if spec is None else spec.plan_values(n_series, plan_controls, plan_date)
     merged = None
-    cuts = _chunk_cuts(data.offsets)
+    cuts = series_cuts(data.offsets, CHUNK_ROWS)
     fold_start = np.concatenate(([0], np.cumsum(scheme.error_counts(data.counts)))).astype(np.int64)
 
     def one(lo: int, hi: int) -> dict:
@@ -109,14 +109,6 @@ def _span(name: str, lo: int, hi: int, offsets: np.ndarray, fold_start: np.ndarr
     if name == "fold_err":
         return slice(int(fold_start[lo]), int(fold_start[hi]))
     return slice(lo, hi)
-
-
-def _chunk_cuts(offsets: np.ndarray) -> list[int]:
-    n_series = len(offsets) - 1
-    if n_series == 0:
-        return [0]
-    marks = np.searchsorted(offsets, np.arange(CHUNK_ROWS, offsets[-1], CHUNK_ROWS), side="left")
-    return sorted({0, n_series, *np.clip(marks, 1, n_series).tolist()})
 
 
 def in_order(work: Callable[[int, int], dict], spans: list[tuple[int, int]], threads: int | None):

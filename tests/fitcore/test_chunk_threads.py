@@ -26,7 +26,7 @@ def _data(n_series: int = 120):
 def test_two_threads_match_one(monkeypatch):
     monkeypatch.setattr(engine, "CHUNK_ROWS", 97)  # ≈ 40 chunks for ≈ 2,600 rows
     data = _data()
-    assert len(engine._chunk_cuts(data.offsets)) > 20
+    assert len(engine.series_cuts(data.offsets, engine.CHUNK_ROWS)) > 20
     seen = []
     one = fitcore.fit_batch(data, threads=1)
     two = fitcore.fit_batch(data, threads=2, progress=lambda done, total: seen.append(done))
