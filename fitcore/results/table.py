@@ -16,7 +16,7 @@ from ..fit.results import Results
 from ..review.intervals import BLOCK
 from . import control_fields, cycle
 
-# Rows a slice aims at (whole series, whole ``BLOCK``s of them: the covariances' blocks): ~40 MiB of
+# Rows a slice aims at (whole series, whole ``BLOCK``s of them: the covariances' blocks): ~20 MiB of
 # columns at 7 candidates, several slices at a few million input rows, so writing overlaps building.
 SLICE_ROWS = 90_000
 
