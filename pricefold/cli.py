@@ -199,6 +199,16 @@ REFIT_ROWS = 50_000_000
 def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | None = None, prepare=None) -> int:
     """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen,
     after ``prepare()`` when given: the demo's compiling in another process)."""
+    app = triage_app(source, ledger_path, analyst, stored, prepare)
+    app.run()
+    if ledger_path.exists():  # after a failure before any decision there is no ledger to point to
+        print(f"decisions are in {ledger_path}", file=sys.stderr)
+    return app.return_code or 0
+
+
+def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | None = None, prepare=None):
+    """The app ``open_triage`` runs.  On stored results whose data file is gone (or too large to read here),
+    the session opens from the stored numbers alone and says why there are no observations."""
     from fitcore.results.read import read_header
     from tui.app import TriageApp
     from fitcore.results.source import refit_stored
@@ -206,28 +216,29 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
 
     from .ledger_cli import identity, ledger_key
     who, key = identity(analyst), ledger_key()
-    if stored is not None:
-        rows = read_header(stored).get("input", {}).get("rows") or 0
-        def refit(progress, first=None):
-            if prepare is not None:
-                prepare()
-            return refit_stored(source, progress, first)
-        observer = refit if rows <= REFIT_ROWS else None
+    if stored is None:
+        return TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
+    rows = read_header(stored).get("input", {}).get("rows") or 0
+    unobserved = None
+    if not source.found:
+        unobserved = f"the data file {source.data} was not found: observations and the refit are unavailable"
+    elif rows > REFIT_ROWS:
+        unobserved = f"the data behind these results have {rows:,} rows, too many to read here: no observations"
 
-        def opener(progress):
-            session = open_stored_session(stored, ledger_path, who, key, progress, units=source.units)
-            session.warnings.extend(source.warnings)
-            if observer is None:
-                session.warnings.append(f"The data behind these results have {rows:,} rows, too many to read here: "
-                                        "the evidence shows the fitted curves without the observations.")
-            return session
-        app = TriageApp(opener, observer=observer)
-    else:
-        app = TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
-    app.run()
-    if ledger_path.exists():  # after a failure before any decision there is no ledger to point to
-        print(f"decisions are in {ledger_path}", file=sys.stderr)
-    return app.return_code or 0
+    def refit(progress, first=None):
+        if prepare is not None:
+            prepare()
+        return refit_stored(source, progress, first)
+
+    def opener(progress):
+        session = open_stored_session(stored, ledger_path, who, key, progress, units=source.units)
+        session.warnings.extend(source.warnings)
+        if unobserved is not None:
+            session.unobserved = unobserved
+            session.warnings.append(f"{unobserved[0].upper()}{unobserved[1:]}; the list and the evidence show the "
+                                    "results as the file holds them.")
+        return session
+    return TriageApp(opener, observer=refit if unobserved is None else None)
 
 
 def run_demo(args) -> int:

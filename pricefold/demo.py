@@ -80,12 +80,9 @@ def place_shipped(shipped: Path, target: Path, sample) -> str:
 
     from fitcore.outputs import atomic_write
     from fitcore.results.write import write_parquet
-    table = pq.ParquetFile(shipped).read()  # not read_table: that imports pandas
-    header = json.loads(table.schema.metadata[b"pricefold"])
-    header["input"]["path"] = str(sample.data)
-    header["settings"]["plan"]["file"] = str(sample.plan_file)
-    atomic_write(target, lambda handle: write_parquet(
-        table.replace_schema_metadata({b"pricefold": json.dumps(header).encode()}), handle))
+    read = pq.ParquetFile(shipped).read()  # not read_table: that imports pandas
+    table, header = naming(read, str(sample.data), str(sample.plan_file))
+    atomic_write(target, lambda handle: write_parquet(table, handle))
     return header["input"]["sha256"]
 
 
@@ -103,11 +100,16 @@ def write_shipped(target: Path) -> None:
 def shipped_table(results, diagnosis, sample):
     """The Parquet table of a fit of the sample, its file names relative to the sample folder."""
     from fitcore.results.write import results_table
-    table = results_table(results, diagnosis)
+    return naming(results_table(results, diagnosis), sample.data.name, sample.plan_file.name)[0]
+
+
+def naming(table, data: str, plan: str):
+    """``(table, header)``: the results ``table`` with its header naming ``data`` and ``plan`` as the files
+    it was fitted from (the one place the demo rewrites a header)."""
     header = json.loads(table.schema.metadata[b"pricefold"])
-    header["input"]["path"] = sample.data.name
-    header["settings"]["plan"]["file"] = sample.plan_file.name
-    return table.replace_schema_metadata({b"pricefold": json.dumps(header).encode()})
+    header["input"]["path"] = data
+    header["settings"]["plan"]["file"] = plan
+    return table.replace_schema_metadata({b"pricefold": json.dumps(header).encode()}), header
 
 
 def compile_elsewhere() -> None:

@@ -93,7 +93,7 @@ class TriageApp(App):
         at_once = self.observer is None or results.n_series <= self.SMALL
         if not engine.loaded() and at_once:
             self.call_after_refresh(self.load_engine)
-        if not getattr(results, "complete", True):
+        if not results.complete:
             self.call_after_refresh(self.await_results, results)
             if at_once:
                 self.call_after_refresh(self.read_the_rest)
@@ -186,13 +186,18 @@ class TriageApp(App):
                 screen.refresh_all()
                 screen.evidence.redraw()
         else:
-            self.notify("The data no longer match the results file: observations are not shown.",
-                        severity="warning", timeout=10, markup=False)
-            if (screen := self.triage_screen()) is not None:  # the curves, now the engine is in
-                screen.evidence.redraw_charts()
+            self.unobserved("the data no longer match the results file: observations are not shown")
 
     def on_rows_failed(self, message: RowsFailed) -> None:
-        self.notify(clean(message.reason), severity="warning", timeout=10, markup=False)
+        self.unobserved(f"observations unavailable: {clean(message.reason)}")
+
+    def unobserved(self, why: str) -> None:
+        """The observations will not come: say why, and the charts say it where they would be drawn."""
+        if self.session is not None:
+            self.session.unobserved = why
+        self.notify(why[0].upper() + why[1:] + ".", severity="warning", timeout=10, markup=False)
+        if (screen := self.triage_screen()) is not None:  # the curves, now the engine is in
+            screen.evidence.redraw_charts()
 
     def on_load_failed(self, message: LoadFailed) -> None:
         body = Text("Could not open the triage:\n\n", style="bold")

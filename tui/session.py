@@ -84,6 +84,7 @@ class TriageSession(ListState):
         self.ledger_path, self.who, self.key, self.results_digest = Path(ledger_path), who, key, results_digest
         self.units = {k: clean(str(v)) for k, v in (units or {}).items() if v}
         self.warnings: list[str] = []
+        self.unobserved: str | None = None  # why no observations will come (data file gone, changed, too large)
         data = results.data
         self.keys = SeriesKeys.of(data)  # Arrow columns: no Python object per series
         self._labels: dict[int, tuple[str, ...]] = {}
@@ -119,6 +120,7 @@ class TriageSession(ListState):
         the latest record someone else made on it.
         """
         self.book.refresh(wait=False)  # never blocks the screen: a writer's lock means "next time"
+        self._permitted = None  # asked of the OS again, once, after each read (``permitted``)
         return self._catch_up(force, pin)
 
     def _catch_up(self, force: bool = False, pin: str | None = "waits") -> set[int]:
@@ -307,11 +309,16 @@ class TriageSession(ListState):
             return f"the ledger is {self.book.state} ({self.book.problem})"
         return "you may not write to the ledger file (permissions)"
 
+    _permitted: bool | None = None
+
     @property
     def permitted(self) -> bool:
-        """The OS lets this user append to the ledger (or make it, in its folder)."""
-        path = Path(self.book.path)
-        return os.access(path, os.W_OK) if path.exists() else os.access(path.parent, os.W_OK | os.X_OK)
+        """The OS lets this user append to the ledger (or make it, in its folder): asked once per ledger read
+        (``reload_ledger``: the poll, and before every decision), not on each of the footer's checks of a key."""
+        if self._permitted is None:
+            path = Path(self.book.path)
+            self._permitted = os.access(path, os.W_OK) if path.exists() else os.access(path.parent, os.W_OK | os.X_OK)
+        return self._permitted
 
     def needs_reason(self, shown: Shown, action: str) -> bool:
         """An accept past a stop flag needs a note (the trade's usual rule for exceptions)."""

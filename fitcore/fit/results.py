@@ -104,6 +104,7 @@ class Results:
     controls: ControlResults | None = None  # with controls: their coefficients, plan values, left-outs
 
     rows_loaded = True  # the observations are in ``data`` (False for results read back from a file)
+    complete = True  # every column is in (results read back from a file may still be reading some)
 
     @classmethod
     def build(cls, data: Dataset, settings: FitSettings, candidates, plan_price, parts: dict | None,

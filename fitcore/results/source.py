@@ -33,12 +33,18 @@ class Source:
     units: dict = field(default_factory=dict)  # labels from the settings file's [units] table: price, volume
     sep: str | None = None  # the data's field separator (None: found from the header), as ``fit --sep``
 
+    @property
+    def found(self) -> bool:
+        """The data file is where the results say (stored results open without it: no observations, no refit)."""
+        return self.data.exists()
+
 
 def source_from_results(path: Path, check_data: bool = True) -> Source:
     """The source a results file was fitted from (its settings name the data, columns and plan).
 
     ``check_data``: compare the data file with the digest the results recorded now (a warning when it
-    changed); otherwise leave that to ``refit_stored``.
+    changed; ``DataError`` when it is not there); otherwise leave both to ``refit_stored`` — stored results
+    open without their data (``Source.found`` says whether the data file is there).
     """
     head = read_header(path) if is_stored(path) else read_results(path)[0]
     settings = settings_from_dict(head["settings"])
@@ -52,7 +58,7 @@ def source_from_results(path: Path, check_data: bool = True) -> Source:
             raise DataError(f"expected 'input' → '{name}' ({what}), found none; run 'pricefold triage' on the "
                             "data file instead", path=str(path))
     data = Path(recorded["path"])
-    if not data.exists():
+    if check_data and not data.exists():
         raise DataError(f"the data it was fitted from is not at {data}", path=str(path))
     plan = extra.get("plan") or {}
     source = Source(data=data, columns=Columns.from_dict(extra["columns"]),
@@ -151,6 +157,8 @@ def refit_stored(source: Source, progress: Callable[[int, int], None] | None = N
 
     ``first(reading)``, when given, is called once the data are read and before the whole fit (a screen
     fits the series it shows first: ``reading.fit(series=…)``)."""
+    if not source.found:
+        raise DataError("not found: showing the stored results without observations", path=str(source.data))
     reading = read_source(source)  # the loader hashes the file while it reads it: no second pass over it
     if source.expected_sha256 and reading.data.source.get("sha256") != source.expected_sha256:
         raise DataError("changed since the results were written: showing the results without observations; "

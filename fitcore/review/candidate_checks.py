@@ -14,7 +14,7 @@ import numpy as np
 
 from ..fit.results import Results
 from .evidence import curve
-from .flags import CODES, GRID, controls_outside
+from .flags import CODES, GRID, control_ranges
 from .thresholds import Thresholds
 
 FINE = 401  # points for the lowest volume (diagnose refines its grid minimum; a finer grid does the same job)
@@ -32,8 +32,11 @@ class CandidateChecks:
     lowest_at: float
 
 
-def candidate_checks(results: Results, s: int, c: int, thresholds: Thresholds = Thresholds()) -> CandidateChecks:
-    """The flags candidate ``c`` of series ``s`` would carry if it were the one put into the plan."""
+def candidate_checks(results: Results, s: int, c: int, thresholds: Thresholds = Thresholds(),
+                     controls_outside: bool | None = None) -> CandidateChecks:
+    """The flags candidate ``c`` of series ``s`` would carry if it were the one put into the plan.
+    ``controls_outside``: whether a control's plan value lies outside the series' values — the same for
+    every candidate, so given once by the caller (``Diagnosis.controls_outside``); else found here."""
     if not results.available[s, c]:
         return CandidateChecks((), math.nan, math.nan, math.nan)
     mid, half = float(results.mid[s]), float(results.half[s])
@@ -56,6 +59,7 @@ def candidate_checks(results: Results, s: int, c: int, thresholds: Thresholds = 
         "rising": share > thresholds.rising_share,
         "below-zero": lowest < 0,
         "outside-range": (planned and not results.price_lo[s] <= plan <= results.price_hi[s])
-                         or controls_outside(results, s),
+                         or (bool(control_ranges(results, np.array([s]))[2].any())
+                             if controls_outside is None else controls_outside),
     }
     return CandidateChecks(tuple(code for code in CODES if raised.get(code)), share, lowest, lowest_at)

@@ -74,6 +74,15 @@ class Diagnosis:
         """Series indices, most in need of a human first (``attention``: stop flags, warn flags, low score)."""
         return self._attention
 
+    def controls_outside(self, s: int) -> bool:
+        """Does a plan value of a control column lie outside the values series ``s`` has seen of it?  As
+        ``diagnose`` found it (``control_ranges``); a diagnosis read back from a file asks the results."""
+        outside = self.numbers.get("control_outside")
+        if outside is None:
+            outside = control_ranges(self.results, np.array([s]))[2]
+            s = 0
+        return bool(outside[s].any())
+
     def flags_of(self, s: int) -> list[dict]:
         from .sentences import sentence
         return [{"code": code, "severity": SEVERITY[code], "message": sentence(self, s, code)}
@@ -130,7 +139,7 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     plan_volume = np.where(has, results.plan_volume[rows, pick], np.nan)
     flag("below-zero", has & ((shape["lowest_volume"] < 0) | (planned & (plan_volume < 0))))
 
-    control_lo, control_hi, control_outside = _control_ranges(results)
+    control_lo, control_hi, control_outside = control_ranges(results)
     numbers.update(control_lo=control_lo, control_hi=control_hi, control_outside=control_outside)
     flag("outside-range", has & ((planned & ((plan < results.price_lo) | (plan > results.price_hi)))
                                  | control_outside.any(axis=1)))
@@ -159,43 +168,34 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     return Diagnosis(results, thresholds, raised, numbers)
 
 
-def _control_ranges(results: Results):
+def control_ranges(results: Results, series: np.ndarray | None = None):
     """(S, M) each control column's lowest and highest value in each series, and (S, M) bool: the plan's
     value lies outside them (a curve held there is an extrapolation in that control).  Season terms
-    are not judged (every date of a year is a value they take).  M = 0 without controls or rows."""
+    are not judged (every date of a year is a value they take).  M = 0 without controls or rows.
+    ``series`` (indices): those series only, S = len(series) (one candidate's checks; ``diagnose`` keeps
+    every series' answer: ``Diagnosis.controls_outside``)."""
+    from .intervals import rows_of
     data, ctl = results.data, results.controls
     columns = [] if ctl is None else [name for name in ctl.names if name in data.controls]
-    n_s = results.n_series
-    lo, hi = np.full((n_s, len(columns)), np.nan), np.full((n_s, len(columns)), np.nan)
     offsets = data.offsets.astype(np.int64)
-    filled = offsets[1:] > offsets[:-1]
-    starts = offsets[:-1][filled]
+    whole = series is None
+    series = np.arange(results.n_series) if whole else np.asarray(series, dtype=np.int64)
+    lo, hi = np.full((len(series), len(columns)), np.nan), np.full((len(series), len(columns)), np.nan)
+    counts = offsets[series + 1] - offsets[series]
+    filled = counts > 0
+    starts = (np.cumsum(counts) - counts)[filled]
     for j, name in enumerate(columns):
         values = np.asarray(data.controls[name], dtype=float)
         if len(values) != offsets[-1] or not len(starts):
             continue
+        if not whole:
+            values = values[rows_of(offsets, series)]
         lo[filled, j] = np.minimum.reduceat(values, starts)
         hi[filled, j] = np.maximum.reduceat(values, starts)
-    at = np.asarray(ctl.plan, dtype=float)[:, :len(columns)] if columns else lo
+    at = np.asarray(ctl.plan, dtype=float)[series, :len(columns)] if columns else lo
     with np.errstate(invalid="ignore"):
         outside = (at < lo) | (at > hi)
     return lo, hi, outside
-
-
-def controls_outside(results: Results, s: int) -> bool:
-    """Does a plan value of a control column lie outside the values series ``s`` has seen of it?  (One
-    series' ``_control_ranges``: for checks of one candidate at a time.)"""
-    data, ctl = results.data, results.controls
-    if ctl is None or not data.controls:
-        return False
-    rows = slice(int(data.offsets[s]), int(data.offsets[s + 1]))
-    for j, name in enumerate(ctl.names):
-        values = data.controls.get(name)
-        if values is not None and len(values) == data.offsets[-1] and rows.stop > rows.start:
-            seen = np.asarray(values[rows], dtype=float)
-            if not seen.min() <= float(ctl.plan[s, j]) <= seen.max():
-                return True
-    return False
 
 
 def _price_spread(results: Results):

@@ -64,3 +64,35 @@ def test_the_override_dialogs_checks_agree_with_the_series_flag():
         assert bool(diagnose(results).flagged("outside-range")[0]) is outside
         for c in np.flatnonzero(results.available[0]):
             assert ("outside-range" in candidate_checks(results, 0, int(c)).codes) is outside
+
+
+def test_the_ranges_of_some_series_are_those_python_finds_and_the_diagnosis_keeps_the_answer():
+    """``control_ranges`` of a few series (one candidate's checks) against Python's ``min``/``max`` over the
+    generated rows; ``Diagnosis.controls_outside`` gives diagnose's answer, the same for every candidate."""
+    from fitcore.review.candidate_checks import candidate_checks
+    from fitcore.review.flags import control_ranges
+    rng = np.random.default_rng(7)
+    n, products = 20, ["p0", "p1", "p2", "p3"]
+    price = np.tile(np.linspace(2.0, 3.0, n), 4)
+    comp = np.round(rng.uniform(1, 3, 4 * n), 2)
+    volume = 900 - 200 * price + 30 * comp + rng.normal(0, 10, 4 * n)
+    data = fitcore.from_columns({"product": np.repeat(np.array(products, dtype=object), n)}, price, volume,
+                                controls={"comp": comp})
+    plan = np.array([2.0, 50.0, 2.0, 0.1])
+    results = fitcore.fit_batch(data, plan_price=2.5, plan_controls={"comp": plan})
+    names = list(results.data.keys["product"])
+    seen = {name: comp[i * n:(i + 1) * n].tolist() for i, name in enumerate(products)}
+    planned = dict(zip(products, plan.tolist()))
+    picked = np.array([names.index("p3"), names.index("p1")])
+    lo, hi, outside = control_ranges(results, picked)
+    for row, s in enumerate(picked):
+        values = seen[names[s]]
+        assert (lo[row, 0], hi[row, 0]) == (min(values), max(values))
+        assert bool(outside[row, 0]) is not (min(values) <= planned[names[s]] <= max(values))
+    diagnosis = diagnose(results)
+    for s in range(4):
+        values = seen[names[s]]
+        assert diagnosis.controls_outside(s) is not (min(values) <= planned[names[s]] <= max(values))
+        for c in np.flatnonzero(results.available[s]):
+            assert candidate_checks(results, s, int(c)) == candidate_checks(
+                results, s, int(c), diagnosis.thresholds, diagnosis.controls_outside(s))

@@ -147,3 +147,21 @@ async def test_at_80x24_the_candidates_start_at_a_whole_row_with_the_proposal_in
         first = rows[0].split("▊", 1)[1]
         assert first.lstrip(" ✓↺").split()[0] in app.screen.results.names  # a model's line, not a flags line
         assert any("proposed" in row for row in rows)
+
+
+@pytest.mark.parametrize("size", [(40, 10), (80, 24)])
+async def test_the_override_dialog_shows_whole_models_on_a_small_terminal(fitted, tmp_path, size):
+    """At 40×10 the title, head and hint take a line each and the explanation goes: the models keep the rows,
+    each on its two lines (a wrapped row would not line up with the head)."""
+    ledger_path = tmp_path / "ledger.jsonl"
+    app = TriageApp(lambda progress: open_session(source_from_results(fitted), ledger_path, ANA, None, progress))
+    async with app.run_test(size=size) as pilot:
+        s, runner = await override_lemons(app, pilot, ledger_path)
+        await pilot.pause()
+        dialog = app.screen
+        assert isinstance(dialog, OverrideDialog)
+        options = dialog.query_one("#dialog-options")
+        assert options.scrollable_content_region.height >= 4  # two models, whole
+        text = screen_text(app)
+        assert f"  {runner} " in text and "Esc to cancel" in text
+        assert options.virtual_size.height == 2 * len(dialog.rows)

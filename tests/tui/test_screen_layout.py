@@ -83,6 +83,45 @@ async def test_no_sideways_scrollbar_and_the_first_row_is_current(ledger_path, s
         assert session.cursor == 0 and listing.scroll_y == 0
 
 
+@pytest.mark.parametrize("size", [(80, 24), (120, 40)])
+async def test_a_notification_hides_no_listed_row_and_the_cursor_stays_in_view(ledger_path, size):
+    from textual.widgets._toast import Toast
+    app = make_app(ledger_path)
+    async with app.run_test(size=size, notifications=True) as pilot:
+        session = await started(app, pilot)
+        listing = app.screen.series_list
+        rows = listing.scrollable_content_region.height - 1  # under the header
+        for _ in range(rows - 1):  # the cursor on the last row on screen
+            await pilot.press("down")
+        await pilot.press("u")  # nothing to revoke: a warning shows
+        await until(pilot, lambda: app.screen.query(Toast))
+        await pilot.pause()
+        toast = app.screen.query_one(Toast).region
+        assert not toast.overlaps(listing.region), (toast, listing.region)
+        assert listing.scroll_y <= session.cursor < listing.scroll_y + listing.scrollable_content_region.height - 1
+        assert session.label_parts(session.current)[-1] in screen_text(app).splitlines()[
+            listing.region.y + 1 + session.cursor - int(listing.scroll_y)]
+
+
+async def test_the_charts_keep_their_width_whether_or_not_the_evidence_scrolls(ledger_path):
+    """At 160×70 some series' evidence fits the panel and some overflows it: the scrollbar's room is kept
+    either way, so a chart is drawn the same width for every series (it moved by 2 columns)."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(160, 70)) as pilot:
+        await started(app, pilot)
+        evidence = app.screen.evidence
+        seen = {}
+        for _ in range(12):
+            await pilot.pause(0.3)
+            frame = str(evidence._part("folds").render()).splitlines()[0]  # the chart's top edge
+            assert frame.strip().startswith("┌")
+            seen.setdefault(evidence.max_scroll_y > 0, set()).add((evidence.scrollable_content_region.width,
+                                                                   cell_len(frame.rstrip())))
+            await pilot.press("down")
+        assert set(seen) == {True, False}  # both kinds were shown
+        assert len(seen[True] | seen[False]) == 1, seen
+
+
 async def test_at_80x24_the_words_come_before_the_charts(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(80, 24)) as pilot:

@@ -70,9 +70,6 @@ async def test_the_series_on_screen_are_observed_before_the_whole_fit(tmp_path):
                     observer=observer)
     async with app.run_test(size=(160, 50)) as pilot:
         await until(pilot, lambda: isinstance(app.screen, TriageScreen))
-        # the panel's scrollbar comes and goes with its text's height, and the charts take the width left: the
-        # same chart is compared at one width
-        app.screen.evidence.styles.scrollbar_gutter = "stable"
         await until(pilot, lambda: "• observed" in screen_text(app), seconds=30)
         session = app.session
         assert not session.results.rows_loaded
@@ -231,3 +228,47 @@ async def test_observations_arriving_under_a_dialog_are_drawn_when_it_closes(tmp
         await pilot.press("escape")
         await until(pilot, lambda: app.screen is triage)
         await until(pilot, lambda: "• observed" in str(triage.evidence._part("curve").render()), seconds=5)
+
+
+async def test_results_whose_data_file_is_gone_open_from_the_stored_numbers_and_say_so(tmp_path):
+    """The data file moved away: the list opens from the results file (it was exit 2), the chart says the data
+    file (named) was not found, and an accept signs the stored numbers — those a fit of the data gives."""
+    import numpy as np
+
+    from fitcore.data.keys import SeriesKeys
+    from fitcore.errors import DataError
+    from fitcore.ledger.snapshot import from_results
+    from pricefold.cli import triage_app
+    data, out = fit_to_parquet(tmp_path)
+    data.rename(tmp_path / "moved.csv")
+    source = source_from_results(out, check_data=False)
+    try:
+        refit_stored(source)
+    except DataError as exc:
+        assert str(data) in str(exc) and "not found" in str(exc)
+    else:
+        raise AssertionError("a refit without its data file")
+    ledger_path = tmp_path / "ledger.jsonl"
+    app = triage_app(source, ledger_path, "ana", stored=out)
+    async with app.run_test(size=(160, 50), notifications=True) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        await until(pilot, lambda: any(str(data) in note.message and "not found" in note.message
+                                       for note in app._notifications))
+        curve = app.screen.evidence._part("curve")
+        await until(pilot, lambda: f"{data} was not found: observations and the refit are unavailable"
+                    in str(curve.render()).replace("\n", " "), seconds=30)
+        assert "reading the data" not in str(curve.render())
+        await past_stop_flags(app, pilot)
+        key = app.session.shown.key
+        await pilot.press("a")
+        await until(pilot, lambda: ledger_path.exists() and ledger_path.read_text().strip(), seconds=30)
+    record = json.loads(ledger_path.read_text().splitlines()[0])
+    data.with_name("moved.csv").rename(data)
+    fitted, _ = refit_stored(source_from_results(out, check_data=False))  # the data's own fit, as reference
+    s = int(SeriesKeys.of(fitted.data).indices_of([key])[0])
+    expected = from_results(fitted, [s], fitted.names.index(record["model"]))[0]
+    assert record["action"] == "accept" and record["fingerprint"] == fitted.data.fingerprint_of(s)
+    assert "incomplete" not in record["signed"]
+    for name in ("coef", "cv_mse", "sigma2", "n", "price_range", "cov_unscaled"):
+        got, want = np.ravel(record["signed"][name]), np.ravel(expected[name])
+        assert np.allclose(got, want, rtol=1e-9, atol=0), name

@@ -20,11 +20,12 @@ from textual.widgets.option_list import Option
 from fitcore.fit.results import Results
 from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.evidence import runner_up
+from fitcore.review.flags import Diagnosis
 from fitcore.review.sentences import fmt, money
-from fitcore.review.thresholds import Thresholds
 
 from ..text import literal
 
+SHORT = 18  # terminal rows: below this, the dialog drops its padding and explanations so the models keep rows
 HEAD = ("model", "CV MSE", "± SE", "Q²", "volume", "95% PI", "elast.")
 
 
@@ -43,9 +44,10 @@ class CandidateRow:
     proposed: bool
 
 
-def candidate_rows(results: Results, s: int, thresholds: Thresholds) -> list[CandidateRow]:
+def candidate_rows(results: Results, s: int, diagnosis: Diagnosis) -> list[CandidateRow]:
     rows = []
     planned = math.isfinite(results.plan_price[s])
+    thresholds, outside = diagnosis.thresholds, diagnosis.controls_outside(s)  # the same for every candidate
     for c, name in enumerate(results.names):
         if not results.available[s, c]:
             continue
@@ -55,7 +57,7 @@ def candidate_rows(results: Results, s: int, thresholds: Thresholds) -> list[Can
             volume=fmt(results.plan_volume[s, c]) if planned else "—",
             interval=f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}" if planned else "—",
             elasticity=f"{results.plan_elasticity[s, c]:.2f}" if planned else "—",
-            flags=candidate_checks(results, s, c, thresholds).codes, proposed=c == results.chosen[s]))
+            flags=candidate_checks(results, s, c, thresholds, outside).codes, proposed=c == results.chosen[s]))
     return rows
 
 
@@ -68,10 +70,10 @@ class OverrideDialog(ModalScreen[str | None]):
 
     BINDINGS = [Binding("escape", "cancel", "cancel")]
 
-    def __init__(self, results: Results, s: int, label: str, thresholds: Thresholds, standing: str | None) -> None:
+    def __init__(self, results: Results, s: int, label: str, diagnosis: Diagnosis, standing: str | None) -> None:
         super().__init__()
         self.results, self.s, self.label, self.standing = results, s, label, standing
-        self.rows = candidate_rows(results, s, thresholds)
+        self.rows = candidate_rows(results, s, diagnosis)
 
     def compose(self) -> ComposeResult:
         results, s = self.results, self.s
@@ -83,10 +85,11 @@ class OverrideDialog(ModalScreen[str | None]):
 
         plan = results.plan_price[s]
         title = literal(f"Override the proposal for {self.label}", "bold")
-        title.append(f"\nAt the plan price {money(plan)}: volume, 95% interval, elasticity; below each, its own flags"
-                     if math.isfinite(plan) else "\nNo plan price; below each model, its own flags", style="dim")
+        sub = Text(f"At the plan price {money(plan)}: volume, 95% interval, elasticity; below each, its own flags"
+                   if math.isfinite(plan) else "No plan price; below each model, its own flags", style="dim")
         with Vertical(classes="dialog wide override"):
-            yield Static(title, markup=False)
+            yield Static(title, markup=False, id="override-title")
+            yield Static(sub, markup=False, id="override-sub")
             yield Static(Text("  " + line(HEAD), style="bold"), markup=False, id="override-head")
             options = []
             for row in self.rows:
@@ -99,9 +102,14 @@ class OverrideDialog(ModalScreen[str | None]):
                 options.append(Option(prompt, id=row.name, disabled=row.proposed))
             yield OptionList(*options, id="dialog-options")
             yield Static(Text("↑↓ to move · Enter to choose (a note follows) · Esc to cancel", style="dim"),
-                         markup=False)
+                         markup=False, id="override-hint")
+            yield Static(Text("Enter to choose · Esc to cancel", style="dim"), markup=False, id="override-hint-short")
+
+    def on_resize(self) -> None:
+        self.set_class(self.app.size.height < SHORT, "short")
 
     def on_mount(self) -> None:
+        self.set_class(self.app.size.height < SHORT, "short")
         options = self.query_one(OptionList)
         best = runner_up(self.results, self.s)
         names = [row.name for row in self.rows]
@@ -119,6 +127,21 @@ class OverrideDialog(ModalScreen[str | None]):
         shown = max(options.scrollable_content_region.height // 2, 1)
         first = min(proposed, picked) if abs(proposed - picked) < shown else picked - shown + 1
         options.scroll_to(y=2 * max(first, 0), animate=False)
+
+    def on_option_list_option_highlighted(self) -> None:
+        self.call_after_refresh(self._whole_rows)
+
+    def _whole_rows(self) -> None:
+        """After a move, the list's top line is a model's first line: a list an odd number of lines high
+        scrolls one line for the highlighted model and would show a flags line without its model."""
+        options = self.query_one(OptionList)
+        top, height, picked = int(options.scroll_y), options.scrollable_content_region.height, options.highlighted
+        if top % 2 == 0 or picked is None:
+            return
+        for y in (top + 1, top - 1):  # the highlighted model stays whole on screen
+            if 0 <= y <= options.max_scroll_y and y <= 2 * picked and 2 * picked + 1 < y + height:
+                options.scroll_to(y=y, animate=False)
+                return
 
     def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
         self.dismiss(event.option.id)

@@ -192,7 +192,7 @@ class TriageScreen(Screen):
     def still_reading(self, action: str) -> bool:
         """A sign-off records the curve's interval parts, which a results file brings in behind the list:
         until they are in, accept and override wait (and say so), then act if the same series is still shown."""
-        if getattr(self.session.results, "complete", True):
+        if self.session.results.complete:
             return False
         waiting = (action, self.session.shown)
         if self._waiting_key != waiting:  # the same key again on the same series still waits, unsaid
@@ -207,7 +207,7 @@ class TriageScreen(Screen):
         """The rest of the results file is in: a key that waited for it acts now, if the series it was pressed
         on is still shown as it was and nothing covers the screen; else the analyst is told it did not act."""
         waiting = self._waiting_key
-        if waiting is None or not getattr(self.session.results, "complete", True):
+        if waiting is None or not self.session.results.complete:
             return
         if waiting[1] == self.session.shown and self.app.screen is self:
             self._waiting_key = None
@@ -254,7 +254,7 @@ class TriageScreen(Screen):
                 self.ask(f"Why {model} instead of {shown.proposed}?", "a note is required", True,
                          lambda note: self.decide(shown, "override", model, note))
 
-        self.app.push_screen(OverrideDialog(session.results, s, session.label(s), session.diagnosis.thresholds,
+        self.app.push_screen(OverrideDialog(session.results, s, session.label(s), session.diagnosis,
                                             shown.model if shown.model != shown.proposed else None), picked)
 
     def action_note(self) -> None:

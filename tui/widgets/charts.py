@@ -18,7 +18,9 @@ from fitcore.review.evidence import adjusted_volumes, band, curve, runner_up, se
 
 # 256-colour numbers (plotext draws them as 38;5;N; the legend uses the same numbers)
 STANDING, OTHER, BAND, OBSERVED, PLAN, ONE_SE, SIGNED, NEW = 46, 45, 214, 255, 201, 214, 177, 226
+UNOBSERVED = "#d7af5f"  # the warn colour: no observations will come, and why
 SOLID = "braille"  # renders in a plain xterm-256color; sextant markers often do not
+PLOTTABLE = 1e290  # largest size of a coordinate plotext is given (beyond it, its axis scaling overflows)
 LOG_RATIO = 10  # the fold chart goes to a log scale when the largest error is this many times the smallest mean
 
 
@@ -33,12 +35,17 @@ def _start(width: int, height: int) -> None:
     plt.frame(True)
 
 
-def _finite(xs, ys) -> tuple[list, list]:
-    """The points whose coordinates are both finite and at most 1e290 in size: plotext fails on an
-    infinity, and on finite values whose span overflows while it scales the axes (±1e307 did)."""
-    xs, ys = np.asarray(xs, dtype=float), np.asarray(ys, dtype=float)
+def _plottable(values) -> np.ndarray:
+    """Where ``values`` are finite and at most ``PLOTTABLE`` in size: plotext fails on an infinity, and on
+    finite values whose span overflows while it scales the axes (±1e307 did)."""
     with np.errstate(invalid="ignore"):
-        keep = (np.abs(xs) <= 1e290) & (np.abs(ys) <= 1e290)
+        return np.abs(np.asarray(values, dtype=float)) <= PLOTTABLE
+
+
+def _finite(xs, ys) -> tuple[list, list]:
+    """The points whose coordinates are both plottable (``_plottable``)."""
+    xs, ys = np.asarray(xs, dtype=float), np.asarray(ys, dtype=float)
+    keep = _plottable(xs) & _plottable(ys)
     return xs[keep].tolist(), ys[keep].tolist()
 
 
@@ -58,12 +65,13 @@ def price_grid(lo: float, hi: float, plan: float, positive: bool) -> np.ndarray:
 
 
 def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict,
-                adjusted: bool = False, signed: dict | None = None) -> Text:
+                adjusted: bool = False, signed: dict | None = None, unobserved: str | None = None) -> Text:
     """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its 95% band
     (dotted) and the plan price (a vertical line).  ``adjusted``: with controls, each observation's volume
     moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn.
     ``signed``: the snapshot of a curve signed on earlier data, drawn beside them (dash-dot), and the rows
-    dated after its data's last date marked apart (×)."""
+    dated after its data's last date marked apart (×).  ``unobserved``: why the observations will not come,
+    said where they would be drawn (else, without rows, that they are being read)."""
     price, volume, _ = series_rows(results, s)
     new = np.zeros(len(price), dtype=bool)
     if signed is not None and signed.get("last_date") and results.data.date is not None and len(price):
@@ -96,7 +104,7 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
         plt.scatter(*_finite(price[~new], volume[~new]), marker="•", color=OBSERVED)
         if new.any():
             plt.scatter(*_finite(price[new], volume[new]), marker="×", color=NEW)
-    if (np.abs(grid) <= 1e290).all():
+    if _plottable(grid).all():
         plt.xlim(float(grid[0]), float(grid[-1]))
     plt.xlabel("price" + (f" ({units['price']})" if units.get("price") else ""))
     if units.get("volume"):
@@ -106,8 +114,12 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     legend = Text()
     seen = "• observed, adjusted to the plan's controls (c: raw)" if adjusted else "• observed" + (
         " (c: adjusted to the plan's controls)" if results.controls is not None else "")
-    legend.append(seen if results.rows_loaded else "observations and band: reading the data …",
-                  _colour(OBSERVED) if results.rows_loaded else "dim")
+    if results.rows_loaded:
+        legend.append(seen, _colour(OBSERVED))
+    elif unobserved:
+        legend.append(unobserved, UNOBSERVED)
+    else:
+        legend.append("observations and band: reading the data …", "dim")
     if model >= 0:
         legend.append(f"   ⠤⠤ {names[model]} ({'chosen' if model == chosen else 'override'})", _colour(STANDING))
     if other >= 0:
@@ -142,7 +154,7 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
         plt.plot(*_finite([x, x], [m - e, m + e]), marker=SOLID, color=OTHER)
     plt.scatter(*_finite(positions, means), marker="●", color=OTHER)
     best = int(np.argmin(means))
-    if abs(means[best] + ses[best]) <= 1e290:
+    if _plottable(means[best] + ses[best]):
         plt.hline(float(means[best] + ses[best]), ONE_SE)
     chosen = int(results.chosen[s])
     if chosen in available:

@@ -91,13 +91,9 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return (None,)
         records = session.history(s)
         news = session.news.get("digest") if session.news is not None else None
-        return (s, session.results, session.observed(s)[0], self.complete, engine.loaded(), session.status[s],
+        return (s, session.results, session.observed(s)[0], session.results.complete, engine.loaded(),
+                session.unobserved, session.status[s],
                 records[-1].get("digest") if records else None, news, session.waiting, session.model_of(s))
-
-    @property
-    def complete(self) -> bool:
-        """Every column of the results is read (a results file's largest ones come in behind the list)."""
-        return getattr(self.session.results, "complete", True)
 
     def redraw(self) -> None:
         self._drawn = self.drawn_state(self.series)
@@ -131,17 +127,20 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         width = max(self.scrollable_content_region.width - 3, 30)
         tall = self.app.size.height >= 40
         observed, at = self.session.observed(s)  # the series fitted first, before the whole data, if it is one
-        if not (observed.rows_loaded or self.complete):  # a fit brings its own numbers; a file's wait to be read
-            for name in ("curve", "folds"):
-                self._part(name).update(Text("charts: reading the data and the rest of the results file …",
-                                             style="dim"))
+        unobserved = None if observed.rows_loaded else self.session.unobserved
+        if not (observed.rows_loaded or self.session.results.complete):  # a fit brings its numbers; a file's wait
+            reading = Text("charts: reading " + ("the rest of the results file …" if unobserved else
+                                                 "the data and the rest of the results file …"), style="dim")
+            self._part("folds").update(reading)
+            self._part("curve").update(reading + Text(f"\n{unobserved}", style=SEVERITY_STYLE["warn"]) if unobserved
+                                       else reading)
             return
         if observed.rows_loaded or engine.loaded():
             self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
-                                                   self.session.units, self.adjusted, self.signed_shown(s)))
+                                                   self.session.units, self.adjusted, self.signed_shown(s), unobserved))
         else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
-            self._part("curve").update(Text("curves: starting the engine …; observations and band: reading the "
-                                            "data …", style="dim"))
+            waiting = unobserved or "observations and band: reading the data …"
+            self._part("curve").update(Text(f"curves: starting the engine …; {waiting}", style="dim"))
         self._part("folds").update(fold_chart(observed, at, width, 12 if tall else 9))
 
     # -- the parts ----------------------------------------------------------------------------
@@ -202,7 +201,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             text.append(f"Overridden to {results.names[model]}", style="bold")
             text.append(f" ({describe(standing)}): {clean(standing.get('note') or '')}\n")
             text.append(score_meaning(float(results.q2[s, model]), session.diagnosis.thresholds.weak_score) + ".\n")
-            checks = candidate_checks(results, s, model, session.diagnosis.thresholds).codes
+            diagnosis = session.diagnosis
+            checks = candidate_checks(results, s, model, diagnosis.thresholds, diagnosis.controls_outside(s)).codes
             said = ", ".join(checks) if checks else "none raised"
             text.append(f"Checks on {results.names[model]}: {said}.\n", style=SEVERITY_STYLE["stop"] if checks else "")
         return text
@@ -241,7 +241,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         missing = Text(style="dim")
         for c, cand in enumerate(results.candidates):
             if not results.available[s, c]:
-                why = clean(results.reason_text(s, c) or '') if self.complete else "(reading the reason …)"
+                why = clean(results.reason_text(s, c) or '') if results.complete else "(reading the reason …)"
                 missing.append(f"  {cand.name}: {why}\n")
                 continue
             mark = "✓" if c == results.chosen[s] else ""

@@ -70,6 +70,7 @@ class SeriesList(ScrollView, can_focus=True):
 
     def on_resize(self) -> None:
         self.virtual_size = Size(self.scrollable_content_region.width, len(self.session.view) + 1)
+        self.show_cursor()  # shorter (a notification's band below it, a smaller terminal): the cursor stays in view
 
     def reload(self) -> None:
         """The view changed (filter, sort, decisions): resize, redraw, keep the cursor visible."""
