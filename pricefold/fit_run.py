@@ -27,6 +27,7 @@ def run_fit(args) -> int:
         from .fit_dask import run_fit_dask
         return run_fit_dask(args, run)
     _check_ending(args.output)
+    keep_freed_memory()  # before anything loads pyarrow (checking the outputs may)
     inputs = [("the data", args.data), *run.inputs]
     if getattr(args, "ledger", None) is not None:
         inputs.append(("the ledger", args.ledger))
@@ -43,7 +44,6 @@ def _check_ending(output: Path) -> None:
 
 
 def fit_locally(args, run) -> int:
-    keep_freed_memory()
     warm = warm_engine()  # loads the compiled loops while the data are read
     try:
         return _fit_locally(args, run)
@@ -56,14 +56,39 @@ def keep_freed_memory() -> None:
     """Ask glibc's malloc to keep freed memory for the next allocation instead of handing it back to the
     system at once: the fit allocates and frees large work arrays chunk after chunk, and every page
     handed back is a page fault when taken again (7M rows: system time 1.3–2.8 s → 1.0–1.2 s, peak
-    memory no higher).  Elsewhere than glibc, nothing happens."""
+    memory no higher).  Elsewhere than glibc, nothing happens.
+
+    With glibc, Arrow allocates from that same malloc too (``arrow_on_malloc``)."""
     import ctypes
     try:
         libc = ctypes.CDLL(None)
         libc.mallopt(-1, 1 << 30)  # M_TRIM_THRESHOLD: give back only above 1 GiB free at the top
         libc.mallopt(-2, 256 << 20)  # M_TOP_PAD: grow the heap 256 MiB at a time
     except (OSError, AttributeError):
-        pass
+        return
+    arrow_on_malloc()
+
+
+def arrow_on_malloc() -> None:
+    """Have Arrow allocate from malloc (its system pool), not from a pool of its own: memory the read's
+    Arrow tables free is then reused by the fit's arrays, and memory numpy frees by the results' columns
+    (7M rows: peak 805 → 720 MiB, CPU time no higher).  Arrow reads its choice as it loads: with pyarrow
+    not loaded yet, the variable is set for that moment only (never passed to another process); loaded
+    already, its Python functions are told (``set_memory_pool``: most, not all, of its allocations).  A
+    pool chosen in the environment is left as chosen."""
+    import os
+    import sys
+    name = "ARROW_DEFAULT_MEMORY_POOL"
+    if name in os.environ:
+        return
+    if "pyarrow" not in sys.modules:
+        os.environ[name] = "system"
+        try:
+            import pyarrow  # noqa: F401
+        finally:
+            del os.environ[name]
+    import pyarrow as pa
+    pa.set_memory_pool(pa.system_memory_pool())
 
 
 def warm_engine():
@@ -138,7 +163,9 @@ def _fit_locally(args, run) -> int:
             diagnosis, backtest = backtest_against(ahead, results, diagnosis, run.thresholds)
         told = summary(results, diagnosis)
         write, by_name = prepared_results(results, args.output, diagnosis, backtest)
-        del data, plan, results, diagnosis  # the rows and the fit are in the table now: free before the write
+        # What the table takes per series is made; it keeps the fit and the rows it still needs (prices): the
+        # rest of the rows freed before it is built, slice by slice, as the file is written.
+        del data, plan, results, diagnosis  # (``backtest``: per-series arrays, kept for its closing line)
         batch.add(args.output, write, by_name=by_name)
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead

@@ -61,20 +61,15 @@ def left_out_of(ctl: ControlResults, s: int) -> dict:
             if ctl.left_out[s, j] != KEPT}
 
 
-def parquet_columns(results: Results, repeat_text) -> dict:
-    """The Parquet columns (one row per series × candidate); ``repeat_text`` makes a per-series text column.
-    The JSON texts are the ``json.dumps`` of ``candidate_controls`` and ``series_controls``, put together
-    term by term column-wise (no Python per series or cell)."""
+def series_texts(results: Results) -> dict:
+    """(S,) Arrow text per series, made once for every series: ``control_values`` and ``controls_left_out``, the
+    ``json.dumps`` of ``series_controls``' dictionaries, put together term by term column-wise (no Python per
+    series)."""
     import pyarrow as pa
     import pyarrow.compute as pc
-    ctl, n_c = results.controls, len(results.candidates)
+    ctl = results.controls
     n_s, m = results.available.shape[0], len(ctl.names)
-    ok = results.available.ravel()
-    kept = np.repeat(np.asarray(ctl.left_out) == KEPT, n_c, axis=0)  # (cells, m)
-    coef = np.where(ok[:, None], np.asarray(ctl.coef, dtype=float).reshape(n_s * n_c, m), np.nan)
     plan = np.asarray(ctl.plan, dtype=float).reshape(n_s, m)
-    cells = _json_object(ctl.names, [np.where(kept[:, j], _json_numbers(coef[:, j]), "null") for j in range(m)],
-                         rows=n_s * n_c)
     why = []  # each left-out term's ", name: why" (empty where kept), joined, the first ", " dropped
     for j, name in enumerate(ctl.names):
         key = f", {json.dumps(name, ensure_ascii=False)}: "
@@ -84,11 +79,28 @@ def parquet_columns(results: Results, repeat_text) -> dict:
     left_out = (pc.binary_join_element_wise("{", pc.utf8_slice_codeunits(
         pc.binary_join_element_wise(*[pa.array(w, pa.string()) for w in why], ""), 2), "}", "")
         if m else pa.array(np.full(n_s, "{}", dtype=object), pa.string()))
+    return {"control_values": _json_object(ctl.names, [_json_numbers(plan[:, j]) for j in range(m)], rows=n_s),
+            "controls_left_out": left_out}
+
+
+def parquet_columns(results: Results, lo: int, hi: int, repeat_text, texts: dict) -> dict:
+    """The Parquet columns of series ``lo``…``hi - 1`` (one row per series × candidate); ``repeat_text`` makes
+    a per-series text column of ``texts`` (``series_texts``).  The cells' JSON text is the ``json.dumps`` of
+    ``candidate_controls``, put together term by term column-wise (no Python per cell)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    ctl, n_c = results.controls, len(results.candidates)
+    n_s, m = hi - lo, len(ctl.names)
+    ok = results.available[lo:hi].ravel()
+    kept = np.repeat(np.asarray(ctl.left_out[lo:hi]) == KEPT, n_c, axis=0)  # (cells, m)
+    coef = np.where(ok[:, None], np.asarray(ctl.coef[lo:hi], dtype=float).reshape(n_s * n_c, m), np.nan)
+    plan = np.asarray(ctl.plan[lo:hi], dtype=float).reshape(n_s, m)
+    cells = _json_object(ctl.names, [np.where(kept[:, j], _json_numbers(coef[:, j]), "null") for j in range(m)],
+                         rows=n_s * n_c)
     return {"controls": pc.if_else(pa.array(ok), cells, pa.scalar(None, pa.string())),
-            "control_values": repeat_text(_json_object(ctl.names, [_json_numbers(plan[:, j]) for j in range(m)],
-                                                       rows=n_s)),
-            "controls_left_out": repeat_text(left_out),
-            "price_vif": np.repeat(np.asarray(ctl.vif, dtype=float), n_c),
+            "control_values": repeat_text(texts["control_values"]),
+            "controls_left_out": repeat_text(texts["controls_left_out"]),
+            "price_vif": np.repeat(np.asarray(ctl.vif[lo:hi], dtype=float), n_c),
             "control_coef": pa.FixedSizeListArray.from_arrays(pa.array(coef.ravel()), m),
             "control_plan": pa.FixedSizeListArray.from_arrays(pa.array(np.repeat(plan, n_c, axis=0).ravel()), m)}
 

@@ -20,6 +20,7 @@ import numpy as np
 from ..fit.results import Results
 from ..review.intervals import BLOCK, candidate_covariances, covariances, last_dates
 
+
 def _num(value) -> float | None:
     value = float(value)
     return value if math.isfinite(value) else None
@@ -59,39 +60,45 @@ def json_series_extras(results: Results, backtest=None):
     return extras
 
 
-def parquet_columns(results: Results, backtest=None) -> dict:
-    """The added Parquet columns (one row per series × candidate)."""
+def series_values(results: Results, backtest=None) -> dict:
+    """What the Parquet columns take per series, made once for every series: ``days`` and ``missing`` (each
+    series' last date as days since 1970, or missing), the ``backtest`` columns (name → (S,) values)."""
+    dates = last_dates(results)
+    n_s = results.n_series
+    return {"days": np.zeros(n_s, np.int32) if dates is None else dates.view(np.int64).astype(np.int32),
+            "missing": np.ones(n_s, bool) if dates is None else np.isnat(dates),
+            "backtest": {} if backtest is None else backtest.columns()}
+
+
+def parquet_columns(results: Results, lo: int, hi: int, values: dict) -> dict:
+    """The added Parquet columns of series ``lo``…``hi - 1`` (one row per series × candidate); ``values``:
+    ``series_values``."""
     import pyarrow as pa
-    n_s, n_c = results.available.shape
-    ok = results.available.ravel()
+    n_c = results.available.shape[1]
+    ok = results.available[lo:hi].ravel()
     squares = np.asarray(results.lineup.complexity, dtype=np.int64) ** 2
     bases = np.concatenate(([0], np.cumsum(squares)))
-    offsets = np.concatenate(([0], np.cumsum(np.where(ok, np.tile(squares, n_s), 0)))).astype(np.int64)
+    offsets = np.concatenate(([0], np.cumsum(np.where(ok, np.tile(squares, hi - lo), 0)))).astype(np.int64)
     flat = np.empty(offsets[-1])
-    for start in range(0, n_s, BLOCK):
-        block = np.arange(start, min(start + BLOCK, n_s))
+    for start in range(lo, hi, BLOCK):
+        block = np.arange(start, min(start + BLOCK, hi))
         # Each series' p × p matrices side by side, row by row, candidate after candidate; the available
         # candidates' entries picked in that order are the column's values, series after series (in
         # place where every candidate of the block is available, the usual case).
-        lo, hi = offsets[start * n_c], offsets[(start + len(block)) * n_c]
+        first, last = offsets[(start - lo) * n_c], offsets[(start - lo + len(block)) * n_c]
         whole = bool(results.available[block].all())
-        side = flat[lo:hi].reshape(len(block), -1) if whole else np.empty((len(block), bases[-1]))
+        side = flat[first:last].reshape(len(block), -1) if whole else np.empty((len(block), bases[-1]))
         for c, cov in candidate_covariances(results, block):
             side[:, bases[c]:bases[c + 1]] = cov.reshape(len(block), -1)
         if not whole:
-            flat[lo:hi] = side[np.repeat(results.available[block], squares, axis=1)]
-    offsets = offsets.astype(np.int32)
-    columns = {"sigma2": np.where(ok, np.asarray(results.sigma2, dtype=float).ravel(), np.nan),
-               "df": pa.array(np.asarray(results.df).ravel().astype(np.int64), mask=~ok),
-               "cov_unscaled": pa.ListArray.from_arrays(offsets, pa.array(flat, type=pa.float64()))}
-    dates = last_dates(results)
-    days = np.zeros(n_s, np.int32) if dates is None else dates.view(np.int64).astype(np.int32)
-    missing = np.ones(n_s, bool) if dates is None else np.isnat(dates)
-    columns["last_date"] = pa.array(np.repeat(days, n_c), type=pa.int32(),
-                                    mask=np.repeat(missing, n_c)).cast(pa.date32())
-    if backtest is not None:
-        for name, values in backtest.columns().items():
-            columns[f"backtest_{name}"] = _repeat_column(values, n_c)
+            flat[first:last] = side[np.repeat(results.available[block], squares, axis=1)]
+    columns = {"sigma2": np.where(ok, np.asarray(results.sigma2[lo:hi], dtype=float).ravel(), np.nan),
+               "df": pa.array(np.asarray(results.df[lo:hi]).ravel().astype(np.int64), mask=~ok),
+               "cov_unscaled": pa.ListArray.from_arrays(offsets.astype(np.int32), pa.array(flat, type=pa.float64()))}
+    columns["last_date"] = pa.array(np.repeat(values["days"][lo:hi], n_c), type=pa.int32(),
+                                    mask=np.repeat(values["missing"][lo:hi], n_c)).cast(pa.date32())
+    for name, column in values["backtest"].items():
+        columns[f"backtest_{name}"] = _repeat_column(column[lo:hi], n_c)
     return columns
 
 

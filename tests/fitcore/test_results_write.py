@@ -87,7 +87,7 @@ def test_each_available_cells_fold_errors_are_its_folds(tmp_path):
 
 @pytest.mark.parametrize("control", [False, True])
 def test_flag_messages_are_quoted_as_json_dumps_quotes_them(control):
-    from fitcore.results.write import _json_strings
+    from fitcore.results.table import _json_strings
     texts = ['plain', 'a "quoted" name', "back\\slash \\\"", "é ü — × 😀", "\x7f", ""]
     if control:  # the few holding control characters take json.dumps's own path
         texts += ["tab\there", "line\nbreak", "\x1b[2J screen", "\x00"]
