@@ -23,7 +23,7 @@ from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money
 
 from .. import engine
-from ..cells import cut
+from ..cells import cut, key_label
 from ..session import TriageSession, describe
 from ..text import clean
 from .charts import curve_chart, fold_chart
@@ -148,9 +148,12 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         """Three lines at most, each cut to the width: which series, its status, news from another analyst."""
         results, session = self.session.results, self.session
         width = max(self.scrollable_content_region.width, 20)
-        head = Text(cut(session.label(s), width), style="bold")
-        head.append(cut(f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
-                        f"{self.price(results.price_hi[s])}", max(width - cell_len(head.plain), 0)), style="dim")
+        about = (f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
+                 f"{self.price(results.price_hi[s])}")
+        # a long product name gives way first (its segments stay), then what is said about the series
+        room = min(cell_len(session.label(s)), max(width - cell_len(about), width * 4 // 5))
+        head = Text(key_label(session.label_parts(s), room), style="bold")
+        head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
         due = session.due(s)
         lines = [head, Text(cut(f"status {session.status[s]}" + (f" — due: {due}" if due else "")
