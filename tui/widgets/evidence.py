@@ -150,9 +150,12 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         width = max(self.scrollable_content_region.width, 20)
         about = (f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
                  f"{self.price(results.price_hi[s])}")
-        # a long product name gives way first (its segments stay), then what is said about the series
-        room = min(cell_len(session.label(s)), max(width - cell_len(about), width * 4 // 5))
-        head = Text(key_label(session.label_parts(s), room), style="bold")
+        # a long product name gives way to its segments and to what is said about the series (a key of one
+        # part keeps the width: the name is all that tells the series apart)
+        parts = session.label_parts(s)
+        room = min(cell_len(session.label(s)), max(width - cell_len(about), width * 2 // 3) if len(parts) > 1
+                   else width)
+        head = Text(key_label(parts, room), style="bold")
         head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
         due = session.due(s)
