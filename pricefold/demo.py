@@ -80,7 +80,7 @@ def place_shipped(shipped: Path, target: Path, sample) -> str:
 
     from fitcore.outputs import atomic_write
     from fitcore.results.write import write_parquet
-    read = pq.ParquetFile(shipped).read()  # not read_table: that imports pandas
+    read = pq.ParquetFile(shipped, page_checksum_verification=True).read()  # not read_table: that imports pandas
     table, header = naming(read, str(sample.data), str(sample.plan_file))
     atomic_write(target, lambda handle: write_parquet(table, handle))
     return header["input"]["sha256"]

@@ -39,7 +39,7 @@ def read_parquet_rows(path: Path, columns: Columns, schema=None):
     texts = [name for name in (*columns.keys, *([columns.date] if columns.date else []))
              if pa.types.is_string(schema.field(name).type) or pa.types.is_large_string(schema.field(name).type)]
     try:
-        table = pq.read_table(path, columns=columns.needed, read_dictionary=texts)
+        table = pq.read_table(path, columns=columns.needed, read_dictionary=texts, page_checksum_verification=True)
     except (pa.ArrowInvalid, OSError) as exc:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
     n_rows = table.num_rows

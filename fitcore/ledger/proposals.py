@@ -117,7 +117,7 @@ def _part(part: Path) -> dict:
     meta = read_header(part)
     key_names = meta["key_columns"]
     try:
-        reader = pq.ParquetFile(part)
+        reader = pq.ParquetFile(part, page_checksum_verification=True)
         schema = reader.schema_arrow
         if not all(name in schema.names for name in CYCLE_COLUMNS):
             raise _Doubt  # an older file: the record reader says what is missing

@@ -30,7 +30,8 @@ class LaterColumns:
         import pyarrow as pa
         import pyarrow.parquet as pq
         try:
-            tables = [pq.ParquetFile(part).read(columns=self.names, use_threads=False) for part in parts]
+            tables = [pq.ParquetFile(part, page_checksum_verification=True).read(columns=self.names, use_threads=False)
+                      for part in parts]
             self._table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
         except Exception as exc:  # raised where a column is first used
             self._error = exc

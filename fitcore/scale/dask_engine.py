@@ -78,7 +78,7 @@ def read_piece(piece: Piece, columns: Columns, n_parts: int, sep: str | None = N
     if piece.row_group is None:
         rows, _, _ = read_rows(Path(piece.path), columns, sep)
     else:
-        table = pq.ParquetFile(piece.path).read_row_group(piece.row_group, columns=columns.needed)
+        table = pq.ParquetFile(piece.path, page_checksum_verification=True).read_row_group(piece.row_group, columns=columns.needed)
         rows = raw_from_table(table, columns, piece.first_line + np.arange(table.num_rows, dtype=np.int64))
     why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date, duplicates=False,
                           controls=columns.controls)
