@@ -115,8 +115,15 @@ def run_show(args) -> int:
         if not sep:
             raise SettingsError(f"expected --key COL=VALUE, got {item!r}")
         keys[name] = value
-    header, parts = results_in_parts(args.results, args.product, keys)  # filtered as read: big folders stay cheap
-    picked = [record for series in parts for record in select(series, args.product, keys, args.flag)]
+    if is_parquet_results(args.results):  # column by column, a record only for one series shown in full
+        from fitcore.results.read import series_record
+        from fitcore.results.series_columns import listed_series
+        header, listed = listed_series(args.results, args.product, keys, args.flag)
+        picked = [series_record(one.path, one.series, one.n_c) for one in listed] if len(listed) == 1 else \
+            [one.record for one in listed]
+    else:
+        header, parts = results_in_parts(args.results, args.product, keys)
+        picked = [record for series in parts for record in select(series, args.product, keys, args.flag)]
     if not picked:
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
         return 1
@@ -129,6 +136,13 @@ def run_show(args) -> int:
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     return 0
+
+
+def is_parquet_results(path: Path) -> bool:
+    """A Parquet results file or a results folder (by its name or its summary: the readers check the rest)."""
+    from fitcore.data.columns import is_parquet_name
+    from fitcore.results.read import result_parts
+    return result_parts(path) is not None or is_parquet_name(path)
 
 
 def is_results(path: Path) -> bool:

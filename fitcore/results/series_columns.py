@@ -1,0 +1,264 @@
+"""A Parquet results file read column by column, one row per series: what a list or an export needs,
+without a Python record per candidate.
+
+A results file holds one row per series × candidate: ``n_c`` rows a series, the candidates in the order of
+the fit's lineup (``table.py`` writes them so; ``stored.py`` relies on it too).  ``series_columns`` reads
+only the columns asked for, checks that order row by row (``check_candidate_rows``), and hands back a
+``SeriesColumns``: each series' value of a per-series column (its first row), or of the row of a given
+candidate.  The header and the presence of every column the readers use are ``read.read_header``'s
+checks; a problem is one line naming the file.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from ..arrays import integers, numbers, objects
+from ..errors import DataError
+
+
+def candidate_names(header: dict) -> tuple[str, ...]:
+    """The candidates of the fit a results header describes, in the order its rows hold them."""
+    from ..fit.families import lineup_for
+    from ..fit.settings import settings_from_dict
+    return tuple(c.name for c in lineup_for(settings_from_dict(header["settings"])).candidates)
+
+
+def check_candidate_rows(path: Path, column, names) -> int:
+    """The number of series of a file whose ``candidate`` column (Arrow) is ``column``; a ``DataError``
+    unless its rows are ``len(names)`` a series, the candidates ``names`` in order on every series."""
+    n_c, rows = len(names), len(column)
+    if rows % max(n_c, 1):
+        raise DataError(f"expected {n_c} rows per series, found {rows} rows", path=str(path))
+    found = _codes(column, names)
+    bad = np.flatnonzero(found != np.tile(np.arange(n_c), rows // max(n_c, 1)))
+    if bad.size:
+        r = int(bad[0])
+        text = objects(column.slice(r, n_c if r < n_c else 1))
+        if r < n_c:  # the first series: what ``stored.py`` always said
+            raise DataError(f"expected candidates {list(names)}, found {[str(v) for v in text]}", path=str(path))
+        raise DataError(f"row {r + 1}: expected candidate {names[r % n_c]!r}, found {text[0]!r} "
+                        f"({n_c} rows a series, in candidate order)", path=str(path))
+    return rows // max(n_c, 1)
+
+
+def _codes(column, names) -> np.ndarray:
+    """Each row's place in ``names`` (-1 for another name or null), chunk by chunk through the dictionary."""
+    import pyarrow as pa
+    place = {name: i for i, name in enumerate(names)}
+    out = []
+    for chunk in getattr(column, "chunks", [column]):
+        if pa.types.is_dictionary(chunk.type):
+            words = objects(chunk.dictionary) if len(chunk.dictionary) else np.zeros(0, dtype=object)
+            of = np.array([place.get(w, -1) for w in words.tolist()] + [-1], dtype=np.int64)
+            index = numbers(chunk.indices)
+            if chunk.null_count:
+                index = np.where(np.isnan(index), len(words), index)
+            out.append(of[index.astype(np.int64)])
+        else:
+            out.append(np.array([place.get(w, -1) for w in objects(chunk).tolist()], dtype=np.int64))
+    return np.concatenate(out) if out else np.zeros(0, dtype=np.int64)
+
+
+@dataclass(frozen=True, eq=False)
+class SeriesColumns:
+    """Some columns of one results file (a file, or one part of a results folder), every row as read.
+
+    ``rows(c)``: the file rows (from 0) of candidate ``c`` of each series, or of the candidate given per
+    series; ``column``, ``texts`` and ``values`` take a column at those rows (one value a series)."""
+
+    path: Path
+    key_names: tuple[str, ...]
+    candidates: tuple[str, ...]
+    table: object  # pyarrow.Table: the columns read, n_c rows a series
+
+    @property
+    def n_series(self) -> int:
+        return self.table.num_rows // max(len(self.candidates), 1)
+
+    def rows(self, candidate=0, series=None) -> np.ndarray:
+        """(S,) the row of ``candidate`` (an index into ``candidates``, one for all or one a series) of each
+        series in ``series`` (indices, by default all)."""
+        series = np.arange(self.n_series) if series is None else np.asarray(series, dtype=np.int64)
+        return series * len(self.candidates) + np.asarray(candidate, dtype=np.int64)
+
+    def column(self, name: str, candidate=0, series=None):
+        """The Arrow column ``name`` at ``rows(candidate, series)``, one array."""
+        taken = self.table.column(name).take(integers(self.rows(candidate, series)))
+        return taken.combine_chunks() if hasattr(taken, "combine_chunks") else taken
+
+    def texts(self, name: str, candidate=0, series=None) -> np.ndarray:
+        """A text column at those rows as an object array (None for null)."""
+        return objects(self.column(name, candidate, series))
+
+    def values(self, name: str, candidate=0, series=None) -> list:
+        """A column at those rows as Python values (what ``to_pylist`` gives)."""
+        return self.column(name, candidate, series).to_pylist()
+
+    def keys(self, series=None) -> list[dict]:
+        """Each series' key (column → text) as the record reader gives it."""
+        columns = [self.texts(name, 0, series).tolist() for name in self.key_names]
+        return [dict(zip(self.key_names, values)) for values in zip(*columns)] if columns else []
+
+    def matching(self, products=(), keys: dict | None = None) -> np.ndarray:
+        """Indices of the series whose first key column is among ``products`` (when given) and whose key
+        columns hold ``keys`` (column → value); a column these results do not have matches nothing."""
+        keep = np.ones(self.n_series, dtype=bool)
+        if any(name not in self.key_names for name in keys or {}):
+            return np.zeros(0, dtype=np.int64)
+        if products:
+            keep &= np.isin(self.texts(self.key_names[0]), np.array(list(products), dtype=object))
+        for name, value in (keys or {}).items():
+            keep &= self.texts(name) == value
+        return np.flatnonzero(keep)
+
+
+def series_columns(path: Path, header: dict, names) -> SeriesColumns:
+    """The columns ``names`` (besides the key columns and ``candidate``) of the results file ``path``,
+    whose header (``read.read_header``, ``key_columns`` included) is ``header``."""
+    import pyarrow.parquet as pq
+    key_names = tuple(header["key_columns"])
+    wanted = list(dict.fromkeys([*key_names, "candidate", *names]))
+    try:
+        with open(path, "rb") as handle:  # not read_table: that imports pyarrow.dataset and pandas
+            table = pq.ParquetFile(handle).read(columns=wanted)
+    except OSError as exc:
+        raise DataError(f"cannot read it ({exc.strerror or exc})", path=str(path)) from None
+    except Exception as exc:  # pyarrow raises several unrelated types for a bad file
+        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
+    candidates = candidate_names(header)
+    check_candidate_rows(path, table.column("candidate"), candidates)
+    return SeriesColumns(Path(path), key_names, candidates, table)
+
+
+# -- a list of series (``pricefold show``) ------------------------------------------------------------
+
+LISTED = ("n", "chosen", "score", "flags", "fingerprint")  # what a list shows of a series, besides its key
+
+
+@dataclass(frozen=True)
+class Listed:
+    """A series as a list shows it: ``record`` holds what the record reader's would of its key, n, chosen,
+    score, flags, fingerprint and backtest (where the file holds one); ``path`` and ``series`` say where
+    it is, so its whole record can be read (``read.series_record``)."""
+
+    record: dict
+    path: Path
+    series: int
+    n_c: int
+
+
+def listed_series(path: str | Path, products=(), keys: dict | None = None, flag: str | None = None
+                  ) -> tuple[dict, list[Listed]]:
+    """``(header, listed)``: the series of a Parquet results file or folder whose first key column is among
+    ``products`` (when given), whose key columns hold ``keys`` and which carry the flag ``flag`` (when
+    given), in file order.  Every series the product and key filters keep is checked as the record reader
+    checks the fields read (the same one line for a damaged one); the candidates' own columns are not read."""
+    from .read import read_header, result_parts
+    path = Path(path)
+    header = read_header(path)
+    header.pop("key_columns", None)
+    out = []
+    for part in result_parts(path) or [path]:
+        out.extend(_listed_part(part, products, keys or {}, flag))
+    return header, out
+
+
+def _listed_part(part: Path, products, keys: dict, flag: str | None) -> list[Listed]:
+    import pyarrow as pa
+
+    from .read import read_header
+    meta = read_header(part)
+    schema = _schema_names(part)
+    backtest = [name for name in schema if name.startswith("backtest_")] if "backtest_status" in schema else []
+    columns = series_columns(part, meta, [*LISTED, *backtest])
+    at = columns.matching(products, keys)
+    n_c = len(columns.candidates)
+    flags_type = columns.table.schema.field("flags").type
+    if pa.types.is_dictionary(flags_type):
+        flags_type = flags_type.value_type
+    texts = columns.texts("flags", 0, at) if pa.types.is_string(flags_type) else np.full(len(at), None, object)
+    parsed = {text: _parsed(text) for text in set(texts.tolist())}
+    for s, text in zip(at.tolist(), texts.tolist()):  # as the record reader: the first unreadable list, by row
+        if parsed[text] is _UNREADABLE:
+            raise DataError(f"row {s * n_c + 1}: 'flags' should be JSON text of a list of flags", path=str(part))
+    fields = {name: _python(columns, name, at) for name in ("n", "chosen", "score", "fingerprint")}
+    key_values = [_python(columns, name, at) for name in columns.key_names]
+    flag_lists = [parsed[text] for text in texts.tolist()]
+    _check(part, columns, at, fields, key_values, flag_lists, {t: _flags_ok(v) for t, v in parsed.items()}, texts)
+    keep = range(len(at))
+    if flag:
+        has = {text: flag in {f["code"] for f in value} for text, value in parsed.items()}
+        keep = [i for i, text in enumerate(texts.tolist()) if has[text]]
+    bt = {name: _python(columns, name, at) for name in backtest}
+    out = []
+    for i in keep:
+        record = {"key": dict(zip(columns.key_names, (values[i] for values in key_values))),
+                  "n": fields["n"][i], "chosen": fields["chosen"][i], "score": fields["score"][i],
+                  "flags": flag_lists[i], "fingerprint": fields["fingerprint"][i]}
+        if backtest:
+            record["backtest"] = None if bt["backtest_status"][i] is None else \
+                {name[len("backtest_"):]: bt[name][i] for name in backtest}
+        out.append(Listed(record, part, int(at[i]), n_c))
+    return out
+
+
+_UNREADABLE = object()
+
+
+def _parsed(text):
+    import json
+    try:
+        return json.loads(text)
+    except (TypeError, json.JSONDecodeError):
+        return _UNREADABLE
+
+
+def _flags_ok(value) -> bool:
+    """A list of flags as ``checks.check_series`` accepts it (code, severity, message)."""
+    from .checks import SEVERITIES
+    return isinstance(value, list) and all(
+        isinstance(f, dict) and isinstance(f.get("code"), str) and f.get("severity") in SEVERITIES
+        and isinstance(f.get("message"), str) for f in value)
+
+
+def _schema_names(part: Path) -> list[str]:
+    import pyarrow.parquet as pq
+    return pq.read_schema(part).names  # read_header has read it: a readable file
+
+
+def _python(columns: SeriesColumns, name: str, at: np.ndarray) -> list:
+    """A column at each series' first row as Python values: text from Arrow's buffers, the rest by Arrow."""
+    import pyarrow as pa
+    kind = columns.table.schema.field(name).type
+    if pa.types.is_dictionary(kind):
+        kind = kind.value_type
+    if pa.types.is_string(kind) or pa.types.is_large_string(kind):
+        return columns.texts(name, 0, at).tolist()
+    return columns.values(name, 0, at)
+
+
+def _check(part: Path, columns: SeriesColumns, at, fields: dict, key_values: list, flag_lists: list,
+           flags_ok: dict, texts) -> None:
+    """The record reader's checks (``checks.check_series``) of the fields a list reads: each series' fields
+    screened column-wise, a doubtful series checked as a record (so the line is the one it always was)."""
+    from .checks import check_series
+    names = set(columns.candidates)
+    bad = np.zeros(len(at), dtype=bool)
+    for values in key_values:
+        bad |= np.fromiter((type(v) is not str for v in values), bool, len(values))
+    bad |= np.fromiter((type(v) is not int or v < 0 for v in fields["n"]), bool, len(at))
+    bad |= np.fromiter((v is not None and (type(v) is not str or v not in names) for v in fields["chosen"]), bool,
+                       len(at))
+    bad |= np.fromiter((v is not None and type(v) not in (int, float) for v in fields["score"]), bool, len(at))
+    bad |= np.fromiter((type(v) is not str for v in fields["fingerprint"]), bool, len(at))
+    bad |= ~np.fromiter((flags_ok[t] for t in texts.tolist()), bool, len(at))
+    candidates = [{"name": name, "available": False} for name in columns.candidates]
+    for i in np.flatnonzero(bad).tolist():
+        record = {"key": dict(zip(columns.key_names, (values[i] for values in key_values))),
+                  "n": fields["n"][i], "price_range": [None, None], "candidates": candidates,
+                  "chosen": fields["chosen"][i], "score": fields["score"][i], "flags": flag_lists[i],
+                  "fingerprint": fields["fingerprint"][i]}
+        check_series(part, int(at[i]), record)  # the line the record reader gives, if it fails
