@@ -138,20 +138,33 @@ def series_columns(path: Path, header: dict, names) -> SeriesColumns:
 LISTED = ("n", "chosen", "score", "flags", "fingerprint")  # what a list shows of a series, besides its key
 
 
-@dataclass(frozen=True)
-class Listed:
-    """A series as a list shows it: ``record`` holds what the record reader's would of its key, n, chosen,
-    score, flags, fingerprint and backtest (where the file holds one); ``path`` and ``series`` say where
-    it is, so its whole record can be read (``read.series_record``)."""
+class SeriesList:
+    """The series a list shows, in file order: ``records[i]`` holds what the record reader's record would of
+    the key, n, chosen, score, flags, fingerprint and backtest (where the file holds one); ``record(i)`` reads
+    series ``i``'s whole record (``read.series_record``), for one series shown in full."""
 
-    record: dict
-    path: Path
-    series: int
-    n_c: int
+    def __init__(self) -> None:
+        self.records: list[dict] = []
+        self._where: list[tuple[Path, np.ndarray, int]] = []  # per part: the file, its series listed, n_c
+
+    def __len__(self) -> int:
+        return len(self.records)
+
+    def add(self, part: Path, series: np.ndarray, n_c: int, records: list[dict]) -> None:
+        self.records.extend(records)
+        self._where.append((part, series, n_c))
+
+    def record(self, i: int) -> dict:
+        from .read import series_record
+        for part, series, n_c in self._where:
+            if i < len(series):
+                return series_record(part, int(series[i]), n_c)
+            i -= len(series)
+        raise IndexError(i)
 
 
 def listed_series(path: str | Path, products=(), keys: dict | None = None, flag: str | None = None
-                  ) -> tuple[dict, list[Listed]]:
+                  ) -> tuple[dict, SeriesList]:
     """``(header, listed)``: the series of a Parquet results file or folder whose first key column is among
     ``products`` (when given), whose key columns hold ``keys`` and which carry the flag ``flag`` (when
     given), in file order.  Every series the product and key filters keep is checked as the record reader
@@ -160,13 +173,13 @@ def listed_series(path: str | Path, products=(), keys: dict | None = None, flag:
     path = Path(path)
     header = read_header(path)
     header.pop("key_columns", None)
-    out = []
+    out = SeriesList()
     for part in result_parts(path) or [path]:
-        out.extend(_listed_part(part, products, keys or {}, flag))
+        _list_part(out, part, products, keys or {}, flag)
     return header, out
 
 
-def _listed_part(part: Path, products, keys: dict, flag: str | None) -> list[Listed]:
+def _list_part(out: SeriesList, part: Path, products, keys: dict, flag: str | None) -> None:
     import pyarrow as pa
 
     from .read import read_header
@@ -179,30 +192,30 @@ def _listed_part(part: Path, products, keys: dict, flag: str | None) -> list[Lis
     flags_type = columns.table.schema.field("flags").type
     if pa.types.is_dictionary(flags_type):
         flags_type = flags_type.value_type
-    texts = columns.texts("flags", 0, at) if pa.types.is_string(flags_type) else np.full(len(at), None, object)
-    parsed = {text: _parsed(text) for text in set(texts.tolist())}
-    for s, text in zip(at.tolist(), texts.tolist()):  # as the record reader: the first unreadable list, by row
+    texts = columns.texts("flags", 0, at).tolist() if pa.types.is_string(flags_type) else [None] * len(at)
+    parsed = {text: _parsed(text) for text in set(texts)}
+    for s, text in zip(at.tolist(), texts):  # as the record reader: the first unreadable list, by row
         if parsed[text] is _UNREADABLE:
             raise DataError(f"row {s * n_c + 1}: 'flags' should be JSON text of a list of flags", path=str(part))
     fields = {name: _python(columns, name, at) for name in ("n", "chosen", "score", "fingerprint")}
     key_values = [_python(columns, name, at) for name in columns.key_names]
-    flag_lists = [parsed[text] for text in texts.tolist()]
-    _check(part, columns, at, fields, key_values, flag_lists, {t: _flags_ok(v) for t, v in parsed.items()}, texts)
-    keep = range(len(at))
+    flag_lists = [parsed[text] for text in texts]
+    keys_of = [dict(zip(columns.key_names, values)) for values in zip(*key_values)]
+    _check(part, columns, at, fields, key_values, keys_of, flag_lists, {t: _flags_ok(v) for t, v in parsed.items()}, texts)
     if flag:
         has = {text: flag in {f["code"] for f in value} for text, value in parsed.items()}
-        keep = [i for i, text in enumerate(texts.tolist()) if has[text]]
-    bt = {name: _python(columns, name, at) for name in backtest}
-    out = []
-    for i in keep:
-        record = {"key": dict(zip(columns.key_names, (values[i] for values in key_values))),
-                  "n": fields["n"][i], "chosen": fields["chosen"][i], "score": fields["score"][i],
-                  "flags": flag_lists[i], "fingerprint": fields["fingerprint"][i]}
-        if backtest:
-            record["backtest"] = None if bt["backtest_status"][i] is None else \
-                {name[len("backtest_"):]: bt[name][i] for name in backtest}
-        out.append(Listed(record, part, int(at[i]), n_c))
-    return out
+        keep = np.array([has[text] for text in texts], dtype=bool)
+    else:
+        keep = np.ones(len(at), dtype=bool)
+    picked = np.flatnonzero(keep).tolist()
+    records = [{"key": keys_of[i], "n": fields["n"][i], "chosen": fields["chosen"][i], "score": fields["score"][i],
+                "flags": flag_lists[i], "fingerprint": fields["fingerprint"][i]} for i in picked]
+    if backtest:
+        values = {name: _python(columns, name, at) for name in backtest}
+        for i, record in zip(picked, records):
+            record["backtest"] = None if values["backtest_status"][i] is None else \
+                {name[len("backtest_"):]: values[name][i] for name in backtest}
+    out.add(part, at[keep], n_c, records)
 
 
 _UNREADABLE = object()
@@ -240,25 +253,24 @@ def _python(columns: SeriesColumns, name: str, at: np.ndarray) -> list:
     return columns.values(name, 0, at)
 
 
-def _check(part: Path, columns: SeriesColumns, at, fields: dict, key_values: list, flag_lists: list,
-           flags_ok: dict, texts) -> None:
+def _check(part: Path, columns: SeriesColumns, at, fields: dict, key_values: list, keys_of: list, flag_lists: list,
+           flags_ok: dict, texts: list) -> None:
     """The record reader's checks (``checks.check_series``) of the fields a list reads: each series' fields
     screened column-wise, a doubtful series checked as a record (so the line is the one it always was)."""
     from .checks import check_series
     names = set(columns.candidates)
     bad = np.zeros(len(at), dtype=bool)
     for values in key_values:
-        bad |= np.fromiter((type(v) is not str for v in values), bool, len(values))
+        bad |= np.fromiter((type(v) is not str for v in values), bool, len(at))
     bad |= np.fromiter((type(v) is not int or v < 0 for v in fields["n"]), bool, len(at))
     bad |= np.fromiter((v is not None and (type(v) is not str or v not in names) for v in fields["chosen"]), bool,
                        len(at))
     bad |= np.fromiter((v is not None and type(v) not in (int, float) for v in fields["score"]), bool, len(at))
     bad |= np.fromiter((type(v) is not str for v in fields["fingerprint"]), bool, len(at))
-    bad |= ~np.fromiter((flags_ok[t] for t in texts.tolist()), bool, len(at))
+    bad |= ~np.fromiter((flags_ok[t] for t in texts), bool, len(at))
     candidates = [{"name": name, "available": False} for name in columns.candidates]
     for i in np.flatnonzero(bad).tolist():
-        record = {"key": dict(zip(columns.key_names, (values[i] for values in key_values))),
-                  "n": fields["n"][i], "price_range": [None, None], "candidates": candidates,
+        record = {"key": keys_of[i], "n": fields["n"][i], "price_range": [None, None], "candidates": candidates,
                   "chosen": fields["chosen"][i], "score": fields["score"][i], "flags": flag_lists[i],
                   "fingerprint": fields["fingerprint"][i]}
         check_series(part, int(at[i]), record)  # the line the record reader gives, if it fails
