@@ -119,8 +119,8 @@ def run_show(args) -> int:
 
 def _show(args, keys: dict) -> int:
     from .show import detail, select, table
-    if is_parquet_results(args.results):  # column by column, a record only for one series shown in full
-        from fitcore.results.series_columns import listed_series
+    from fitcore.results.series_columns import is_columnar, listed_series
+    if is_columnar(args.results):  # column by column, a record only for one series shown in full
         header, listed = listed_series(args.results, args.product, keys, args.flag)
         picked = [listed.record(0)] if len(listed) == 1 else listed.records
     else:
@@ -139,13 +139,6 @@ def _show(args, keys: dict) -> int:
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     return 0
-
-
-def is_parquet_results(path: Path) -> bool:
-    """A Parquet results file or a results folder (by its name or its summary: the readers check the rest)."""
-    from fitcore.data.columns import is_parquet_name
-    from fitcore.results.read import result_parts
-    return result_parts(path) is not None or is_parquet_name(path)
 
 
 def is_results(path: Path) -> bool:

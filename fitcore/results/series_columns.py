@@ -19,6 +19,21 @@ from ..arrays import integers, numbers, objects
 from ..errors import DataError
 
 
+def is_text(kind) -> bool:
+    """Whether an Arrow type is text (or a dictionary of text)."""
+    import pyarrow as pa
+    if pa.types.is_dictionary(kind):
+        kind = kind.value_type
+    return pa.types.is_string(kind) or pa.types.is_large_string(kind)
+
+
+def is_columnar(path: str | Path) -> bool:
+    """Whether ``path`` names a Parquet results file or a results folder (the readers check the rest)."""
+    from ..data.columns import is_parquet_name
+    from .read import result_parts
+    return result_parts(path) is not None or is_parquet_name(Path(path))
+
+
 def candidate_names(header: dict) -> tuple[str, ...]:
     """The candidates of the fit a results header describes, in the order its rows hold them."""
     from ..fit.families import lineup_for
@@ -94,7 +109,9 @@ class SeriesColumns:
         return objects(self.column(name, candidate, series))
 
     def values(self, name: str, candidate=0, series=None) -> list:
-        """A column at those rows as Python values (what ``to_pylist`` gives)."""
+        """A column at those rows as Python values, what ``to_pylist`` gives (text from Arrow's buffers)."""
+        if is_text(self.table.schema.field(name).type):
+            return self.texts(name, candidate, series).tolist()
         return self.column(name, candidate, series).to_pylist()
 
     def keys(self, series=None) -> list[dict]:
@@ -180,8 +197,6 @@ def listed_series(path: str | Path, products=(), keys: dict | None = None, flag:
 
 
 def _list_part(out: SeriesList, part: Path, products, keys: dict, flag: str | None) -> None:
-    import pyarrow as pa
-
     from .read import read_header
     meta = read_header(part)
     schema = _schema_names(part)
@@ -189,19 +204,17 @@ def _list_part(out: SeriesList, part: Path, products, keys: dict, flag: str | No
     columns = series_columns(part, meta, [*LISTED, *backtest])
     at = columns.matching(products, keys)
     n_c = len(columns.candidates)
-    flags_type = columns.table.schema.field("flags").type
-    if pa.types.is_dictionary(flags_type):
-        flags_type = flags_type.value_type
-    texts = columns.texts("flags", 0, at).tolist() if pa.types.is_string(flags_type) else [None] * len(at)
+    texts = columns.values("flags", 0, at) if is_text(columns.table.schema.field("flags").type) else [None] * len(at)
     parsed = {text: _parsed(text) for text in set(texts)}
     for s, text in zip(at.tolist(), texts):  # as the record reader: the first unreadable list, by row
         if parsed[text] is _UNREADABLE:
             raise DataError(f"row {s * n_c + 1}: 'flags' should be JSON text of a list of flags", path=str(part))
-    fields = {name: _python(columns, name, at) for name in ("n", "chosen", "score", "fingerprint")}
-    key_values = [_python(columns, name, at) for name in columns.key_names]
+    fields = {name: columns.values(name, 0, at) for name in ("n", "chosen", "score", "fingerprint")}
+    key_values = [columns.values(name, 0, at) for name in columns.key_names]
     flag_lists = [parsed[text] for text in texts]
     keys_of = [dict(zip(columns.key_names, values)) for values in zip(*key_values)]
-    _check(part, columns, at, fields, key_values, keys_of, flag_lists, {t: _flags_ok(v) for t, v in parsed.items()}, texts)
+    check_fields(part, columns, at, fields, key_values, keys_of,
+                 (flag_lists, texts, {t: _flags_ok(v) for t, v in parsed.items()}))
     if flag:
         has = {text: flag in {f["code"] for f in value} for text, value in parsed.items()}
         keep = np.array([has[text] for text in texts], dtype=bool)
@@ -211,7 +224,7 @@ def _list_part(out: SeriesList, part: Path, products, keys: dict, flag: str | No
     records = [{"key": keys_of[i], "n": fields["n"][i], "chosen": fields["chosen"][i], "score": fields["score"][i],
                 "flags": flag_lists[i], "fingerprint": fields["fingerprint"][i]} for i in picked]
     if backtest:
-        values = {name: _python(columns, name, at) for name in backtest}
+        values = {name: columns.values(name, 0, at) for name in backtest}
         for i, record in zip(picked, records):
             record["backtest"] = None if values["backtest_status"][i] is None else \
                 {name[len("backtest_"):]: values[name][i] for name in backtest}
@@ -242,35 +255,32 @@ def _schema_names(part: Path) -> list[str]:
     return pq.read_schema(part).names  # read_header has read it: a readable file
 
 
-def _python(columns: SeriesColumns, name: str, at: np.ndarray) -> list:
-    """A column at each series' first row as Python values: text from Arrow's buffers, the rest by Arrow."""
-    import pyarrow as pa
-    kind = columns.table.schema.field(name).type
-    if pa.types.is_dictionary(kind):
-        kind = kind.value_type
-    if pa.types.is_string(kind) or pa.types.is_large_string(kind):
-        return columns.texts(name, 0, at).tolist()
-    return columns.values(name, 0, at)
-
-
-def _check(part: Path, columns: SeriesColumns, at, fields: dict, key_values: list, keys_of: list, flag_lists: list,
-           flags_ok: dict, texts: list) -> None:
-    """The record reader's checks (``checks.check_series``) of the fields a list reads: each series' fields
-    screened column-wise, a doubtful series checked as a record (so the line is the one it always was)."""
+def check_fields(part: Path, columns: SeriesColumns, at: np.ndarray, fields: dict, key_values: list,
+                 keys_of: list, flags: tuple[list, list, dict] | None = None) -> None:
+    """The record reader's checks (``checks.check_series``) of the fields read of the series ``at``:
+    ``fields`` (any of n, chosen, score, fingerprint: a list of values each), the key columns' values and
+    the keys made of them, ``flags`` (each series' parsed list, its text, and whether each text's list is
+    well formed).  Screened column-wise; a doubtful series is checked as a record, so a problem is the one
+    line the record reader gives."""
     from .checks import check_series
-    names = set(columns.candidates)
-    bad = np.zeros(len(at), dtype=bool)
+    names, size = set(columns.candidates), len(at)
+    bad = np.zeros(size, dtype=bool)
     for values in key_values:
-        bad |= np.fromiter((type(v) is not str for v in values), bool, len(at))
-    bad |= np.fromiter((type(v) is not int or v < 0 for v in fields["n"]), bool, len(at))
-    bad |= np.fromiter((v is not None and (type(v) is not str or v not in names) for v in fields["chosen"]), bool,
-                       len(at))
-    bad |= np.fromiter((v is not None and type(v) not in (int, float) for v in fields["score"]), bool, len(at))
-    bad |= np.fromiter((type(v) is not str for v in fields["fingerprint"]), bool, len(at))
-    bad |= ~np.fromiter((flags_ok[t] for t in texts), bool, len(at))
+        bad |= np.fromiter((type(v) is not str for v in values), bool, size)
+    if "n" in fields:
+        bad |= np.fromiter((type(v) is not int or v < 0 for v in fields["n"]), bool, size)
+    if "chosen" in fields:
+        bad |= np.fromiter((v is not None and (type(v) is not str or v not in names) for v in fields["chosen"]),
+                           bool, size)
+    if "score" in fields:
+        bad |= np.fromiter((v is not None and type(v) not in (int, float) for v in fields["score"]), bool, size)
+    if "fingerprint" in fields:
+        bad |= np.fromiter((type(v) is not str for v in fields["fingerprint"]), bool, size)
+    if flags is not None:
+        bad |= ~np.fromiter((flags[2][t] for t in flags[1]), bool, size)
     candidates = [{"name": name, "available": False} for name in columns.candidates]
     for i in np.flatnonzero(bad).tolist():
-        record = {"key": keys_of[i], "n": fields["n"][i], "price_range": [None, None], "candidates": candidates,
-                  "chosen": fields["chosen"][i], "score": fields["score"][i], "flags": flag_lists[i],
-                  "fingerprint": fields["fingerprint"][i]}
+        record = {"key": keys_of[i], "n": 0, "price_range": [None, None], "candidates": candidates, "chosen": None,
+                  "score": None, "flags": [] if flags is None else flags[0][i], "fingerprint": ""}
+        record.update({name: values[i] for name, values in fields.items()})
         check_series(part, int(at[i]), record)  # the line the record reader gives, if it fails
