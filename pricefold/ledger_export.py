@@ -20,6 +20,7 @@ from fitcore.ledger.replay import series_id
 from .ledger_cli import open_ledger
 
 RISKY = ("=", "+", "-", "@", "\t", "\r")
+RISKY_FIRST = frozenset(RISKY)  # one character each: ``text[:1] in RISKY_FIRST`` is ``text.startswith(RISKY)``
 
 
 def neutral(text: str) -> str:
@@ -40,62 +41,63 @@ def run_export(args) -> int:
     from fitcore.results.read import results_inputs
     check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
                                               *results_inputs(header)])
-    text = (lambda value: value) if args.raw else neutral
     buffer = io.StringIO()
     # RFC 4180 line ends: with "\r\n" as the terminator the writer also quotes a cell holding a lone
     # carriage return (with "\n" alone, Python 3.11 wrote it bare and the row split in two).
     writer = csv.writer(buffer, lineterminator="\r\n")
-
-    def row(cells: list) -> None:  # text cells only: numbers (floats, ints) are written as they are
-        writer.writerow([text(cell) if isinstance(cell, str) else cell for cell in cells])
-
+    # text cells only: numbers (floats, ints) are written as they are; ``neutral`` inlined (a call a cell
+    # was a third of the export's time at 100k series)
+    inert = (lambda line: line) if args.raw else \
+        (lambda line: ["'" + cell if isinstance(cell, str) and cell[:1] in RISKY_FIRST else cell for cell in line])
     columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
-    row([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef", "analyst", "at",
-         "note", "plan_price", "plan_volume", "plan_lo", "plan_hi", "carried_from", "ledger_head"])
+    writer.writerow(inert([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
+                           "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi",
+                           "carried_from", "ledger_head"]))
     count, head = 0, book.head_text
+    own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
     from fitcore.ledger.reader import collector_paused
     with collector_paused():  # a few small objects a series and no cycles among them
         series = _by_columns(args.results, book) if parts is None else _by_records(parts, book)
-        for key, fingerprint, chosen, plan, model, cand in series:
+        for key, fingerprint, chosen, plan, history, cand in series:
             count += 1
-            history = book.histories.get(series_id(key))
             status = history.status(fingerprint) if history else "pending"
             current = history.current if history else None
+            model = current["model"] if current else chosen
             # The standing model's plan numbers: the proposal's from the plan; another candidate's from its own
             # fields where the results hold them (its interval only where they do).
-            own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
             at_plan = plan if model == chosen else {k: (cand or {}).get(v) for k, v in own.items()}
-            family, coef = (cand["family"] if cand else ""), (json.dumps(cand["coef"]) if cand and cand["coef"] else "")
+            family, coef = (cand["family"] if cand else ""), (coef_text(cand["coef"]) if cand and cand["coef"] else "")
             if status == "stale":  # signed on other data: the signed model's numbers, never this fit's
                 family, coef, at_plan = signed_columns(current)
                 plan = {"price": at_plan.get("price")}
-            row([*(str(value) for value in key.values()), status, model or "", family, coef,
-                 current["analyst"] if current else "", current["at"] if current else "",
-                 current.get("note", "") if current else "", _number(plan.get("price")),
-                 _number(at_plan.get("volume")), _number(at_plan.get("lo")), _number(at_plan.get("hi")),
-                 carried_from(history), head])
+            writer.writerow(inert([*map(str, key.values()), status, model or "", family, coef,
+                                   current["analyst"] if current else "", current["at"] if current else "",
+                                   current.get("note", "") if current else "", _number(plan.get("price")),
+                                   _number(at_plan.get("volume")), _number(at_plan.get("lo")),
+                                   _number(at_plan.get("hi")), carried_from(history), head]))
     write_text(args.output, buffer.getvalue())
     print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
     return 0
 
 
-def standing_model(book, key: dict, chosen: str | None) -> str | None:
-    """The model a series' standing decision names, or the proposal where none stands."""
-    history = book.histories.get(series_id(key))
+def model_of(history, chosen: str | None) -> str | None:
+    """The model a series' standing decision names (its ledger ``history``), or the proposal where none stands."""
     current = history.current if history else None
     return current["model"] if current else chosen
 
 
-# (key, fingerprint, chosen, plan: price, volume, lo, hi or {}, model exported, its candidate's fields or None)
-Exported = tuple[dict, str, str, dict, str, dict]
+# (key, fingerprint, chosen, plan: price, volume, lo, hi or {}, ledger history or None, the fields of the
+# candidate it exports or None)
+Exported = tuple[dict, str, str, dict, object, dict]
 
 
 def _by_records(parts, book) -> Iterator[Exported]:
     """What is exported of each series, from records (a JSON results file)."""
     for record in (record for series in parts for record in series):
-        model = standing_model(book, record["key"], record["chosen"])
+        history = book.histories.get(series_id(record["key"]))
+        model = model_of(history, record["chosen"])
         cand = next((c for c in record["candidates"] if c["name"] == model), None)
-        yield record["key"], record["fingerprint"], record["chosen"], record.get("plan") or {}, model, cand
+        yield record["key"], record["fingerprint"], record["chosen"], record.get("plan") or {}, history, cand
 
 
 # The columns read for an export, and the Arrow type each must have for the column reader to vouch for
@@ -127,7 +129,8 @@ def _by_columns(path: Path, book) -> Iterator[Exported]:
         fields = {name: columns.values(name, 0, every) for name in ("chosen", "fingerprint")}
         check_fields(part, columns, every, fields, key_values, keys)
         chosen = fields["chosen"]
-        models = [standing_model(book, key, proposal) for key, proposal in zip(keys, chosen)]
+        histories = [book.histories.get(series_id(key)) for key in keys]
+        models = [model_of(history, proposal) for history, proposal in zip(histories, chosen)]
         place = {name: c for c, name in enumerate(columns.candidates)}
         at = np.array([place.get(model, -1) for model in models], dtype=np.int64)
         cands: list[dict | None] = [None] * len(keys)
@@ -153,7 +156,7 @@ def _by_columns(path: Path, book) -> Iterator[Exported]:
             for j, s in enumerate(planned.tolist()):
                 plans[s] = {"price": numbers_at["plan_price"][j], "volume": numbers_at["plan_volume"][j],
                             "lo": numbers_at["plan_lo"][j], "hi": numbers_at["plan_hi"][j]}
-        yield from zip(keys, fields["fingerprint"], chosen, plans, models, cands)
+        yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands)
 
 
 def _typed(kind, expected: str) -> bool:
@@ -184,6 +187,17 @@ def signed_columns(decision: dict) -> tuple[str, str, dict]:
         return "", "", {}
     coef = json.dumps(snapshot["coef"]) if snapshot.get("coef") else ""
     return snapshot.get("family") or "", coef, snapshot.get("plan") or {}
+
+
+def coef_text(coef: list) -> str:
+    """``json.dumps(coef)`` of a list of numbers, without its per-call machinery where that is the same text:
+    finite floats are written by their ``repr``, as ``json`` writes them (any other value — NaN, an infinity,
+    null, a whole number — through ``json.dumps``)."""
+    if all(type(x) is float for x in coef):
+        text = ", ".join(map(float.__repr__, coef))
+        if "n" not in text:  # no nan, inf
+            return f"[{text}]"
+    return json.dumps(coef)
 
 
 def carried_from(history) -> str:
