@@ -201,16 +201,16 @@ def _read_parquet(path: Path, filters=None, rows: tuple[int, int] | None = None,
 def _rows(path: Path, start: int, stop: int):
     """The rows ``start`` to ``stop`` of a Parquet file, every column: only the row groups holding them read."""
     import pyarrow.parquet as pq
-    with open(path, "rb") as handle:
-        reader = pq.ParquetFile(handle)
-        groups, first, offset = [], None, 0
-        for g in range(reader.metadata.num_row_groups):
-            n = reader.metadata.row_group(g).num_rows
-            if offset < stop and offset + n > start:
-                groups.append(g)
-                first = offset if first is None else first
-            offset += n
-        table = reader.read_row_groups(groups)
+    reader = pq.ParquetFile(path)
+    groups, first, offset = [], None, 0
+    for g in range(reader.metadata.num_row_groups):
+        n = reader.metadata.row_group(g).num_rows
+        if offset < stop and offset + n > start:
+            groups.append(g)
+            first = offset if first is None else first
+        offset += n
+    table = reader.read_row_groups(groups)
+    reader.close()
     return table.slice(start - (first or 0), stop - start)
 
 

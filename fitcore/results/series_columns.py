@@ -139,8 +139,9 @@ def series_columns(path: Path, header: dict, names) -> SeriesColumns:
     key_names = tuple(header["key_columns"])
     wanted = list(dict.fromkeys([*key_names, "candidate", *names]))
     try:
-        with open(path, "rb") as handle:  # not read_table: that imports pyarrow.dataset and pandas
-            table = pq.ParquetFile(handle).read(columns=wanted)
+        reader = pq.ParquetFile(path)  # not read_table: that imports pyarrow.dataset and pandas
+        table = reader.read(columns=wanted)
+        reader.close()
     except OSError as exc:
         raise DataError(f"cannot read it ({exc.strerror or exc})", path=str(path)) from None
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
