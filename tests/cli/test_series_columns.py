@@ -212,14 +212,21 @@ EXPORT_DAMAGE = ["fingerprint null", "key null", "chosen not a candidate", "scor
                  "candidates out of order"]
 
 
-@pytest.mark.parametrize("damage", EXPORT_DAMAGE)
-def test_a_damaged_file_stops_an_export_in_one_line(cycle, tmp_path, capsys, damage):
+def _damaged_and_said(results: Path, folder: Path, damage: str) -> tuple[Path, str]:
+    """The results with ``damage`` done, and what a reader must say of them: the record reader's line where
+    it has one (it reads every field), else the text ``DAMAGE`` gives."""
     change, says = DAMAGE[damage]
-    path = _damaged(cycle[0]["parquet"], tmp_path / "bad.parquet", change)
+    path = _damaged(results, folder / "bad.parquet", change)
     if says is None:
         with pytest.raises(DataError) as caught:
             read_results(path)
         says = str(caught.value)
+    return path, says
+
+
+@pytest.mark.parametrize("damage", EXPORT_DAMAGE)
+def test_a_damaged_file_stops_an_export_in_one_line(cycle, tmp_path, capsys, damage):
+    path, says = _damaged_and_said(cycle[0]["parquet"], tmp_path, damage)
     code = main(["ledger", "export", str(cycle[2]), "--results", str(path), "-o", str(tmp_path / "out.csv")])
     err = capsys.readouterr().err
     assert code == 2 and err.count("\n") == 1 and str(path) in err and says in err, err
@@ -228,12 +235,7 @@ def test_a_damaged_file_stops_an_export_in_one_line(cycle, tmp_path, capsys, dam
 
 @pytest.mark.parametrize("damage", DAMAGE)
 def test_a_damaged_file_is_one_line_naming_it(cycle, tmp_path, capsys, damage):
-    change, says = DAMAGE[damage]
-    path = _damaged(cycle[1]["parquet"], tmp_path / "bad.parquet", change)
-    if says is None:
-        with pytest.raises(DataError) as caught:
-            read_results(path)
-        says = str(caught.value)
+    path, says = _damaged_and_said(cycle[1]["parquet"], tmp_path, damage)
     for args in ([], ["--flag", "near-tie"], ["--ledger", cycle[2]]):
         code, out, err = _show(capsys, path, *args)
         assert (code, out) == (2, "") and err.count("\n") == 1 and str(path) in err, err
