@@ -31,9 +31,11 @@ def neutral(text: str) -> str:
 def run_export(args) -> int:
     from fitcore.results.read import read_header, results_in_parts
     from fitcore.results.series_columns import is_columnar
+    ahead = None
     if is_columnar(args.results):  # column by column: only the exported candidate's cells of each series
         header, parts = read_header(args.results), None
         header.pop("key_columns", None)
+        ahead = _columns_ahead(args.results)  # while the ledger is read and verified
     else:
         header, parts = results_in_parts(args.results)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN,), must_exist=True)
@@ -57,7 +59,7 @@ def run_export(args) -> int:
     own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
     from fitcore.ledger.reader import collector_paused
     with collector_paused():  # a few small objects a series and no cycles among them
-        series = _by_columns(args.results, book) if parts is None else _by_records(parts, book)
+        series = _by_columns(ahead, book) if parts is None else _by_records(parts, book)
         for key, fingerprint, chosen, plan, history, cand in series:
             count += 1
             status = history.status(fingerprint) if history else "pending"
@@ -108,17 +110,39 @@ EXPORTED = {"chosen": "text", "fingerprint": "text", "is_chosen": "bool", "plan_
             "family": "text", "coef": "numbers"}
 
 
-def _by_columns(path: Path, book) -> Iterator[Exported]:
-    """What is exported of each series of a Parquet results file or folder, column by column: per series
-    its key, fingerprint and proposal, the plan numbers of its chosen row, and the cells of one candidate's
-    row — the model it exports (the standing decision's, else the proposal)."""
+def _columns_ahead(path: Path) -> tuple[list[Path], object]:
+    """The parts of a Parquet results file or folder, and the first one's ``EXPORTED`` columns being read in
+    a thread (a future: its ``result()`` raises what the read raised).  Arrow reads without the interpreter's
+    lock, so the read costs no time beside the ledger's verification; the other parts are read in turn, one
+    part's columns in memory at a time."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    from fitcore.results.read import result_parts
+    parts = result_parts(path) or [Path(path)]
+    pool = ThreadPoolExecutor(1)
+    first = pool.submit(_export_columns, parts[0])
+    pool.shutdown(wait=False)
+    return parts, first
+
+
+def _export_columns(part: Path):
+    from fitcore.results.read import read_header
+    from fitcore.results.series_columns import series_columns
+    return series_columns(part, read_header(part), list(EXPORTED))
+
+
+def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
+    """What is exported of each series of a Parquet results file or folder (``_columns_ahead``), column by
+    column: per series its key, fingerprint and proposal, the plan numbers of its chosen row, and the cells
+    of one candidate's row — the model it exports (the standing decision's, else the proposal)."""
     import numpy as np
 
     from fitcore.arrays import numbers
-    from fitcore.results.read import read_header, result_parts, results_in_parts
-    from fitcore.results.series_columns import check_fields, series_columns
-    for part in result_parts(path) or [Path(path)]:
-        columns = series_columns(part, read_header(part), list(EXPORTED))
+    from fitcore.results.read import results_in_parts
+    from fitcore.results.series_columns import check_fields
+    parts, first = ahead
+    for i, part in enumerate(parts):
+        columns = first.result() if i == 0 else _export_columns(part)
         if not all(_typed(columns.table.schema.field(name).type, kind) for name, kind in
                    [*((name, "text") for name in columns.key_names), *EXPORTED.items()]):
             yield from _by_records(results_in_parts(part)[1], book)
