@@ -217,11 +217,11 @@ def coef_text(coef: list) -> str:
     """``json.dumps(coef)`` of a list of numbers, without its per-call machinery where that is the same text:
     finite floats are written by their ``repr``, as ``json`` writes them (any other value — NaN, an infinity,
     null, a whole number — through ``json.dumps``)."""
-    if all(type(x) is float for x in coef):
-        text = ", ".join(map(float.__repr__, coef))
-        if "n" not in text:  # no nan, inf
-            return f"[{text}]"
-    return json.dumps(coef)
+    try:
+        text = ", ".join(map(float.__repr__, coef))  # TypeError for anything but floats
+    except TypeError:
+        return json.dumps(coef)
+    return f"[{text}]" if "n" not in text else json.dumps(coef)  # "n": a nan or an inf
 
 
 def carried_from(history) -> str:

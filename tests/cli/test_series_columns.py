@@ -240,3 +240,10 @@ def test_a_damaged_file_is_one_line_naming_it(cycle, tmp_path, capsys, damage):
         code, out, err = _show(capsys, path, *args)
         assert (code, out) == (2, "") and err.count("\n") == 1 and str(path) in err, err
         assert says in err and "Traceback" not in err
+
+
+@pytest.mark.parametrize("coef", [[1.0, -2.5e-07, 3e20, 0.1 + 0.2, 123456789.123456789, -0.0], [1, 2.0], [True, 1.0],
+                                  [None, 1.0], [float("nan")], [float("inf"), 1.0], []])
+def test_coefficients_are_written_as_json_writes_them(coef):
+    from pricefold.ledger_export import coef_text
+    assert coef_text(coef) == json.dumps(coef)  # the oracle: Python's json module
