@@ -118,8 +118,9 @@ def run_show(args) -> int:
 
 
 def _show(args, keys: dict) -> int:
-    from .show import detail, select, table
     from fitcore.results.series_columns import is_columnar, listed_series
+
+    from .show import detail, select, table
     if is_columnar(args.results):  # column by column, a record only for one series shown in full
         header, listed = listed_series(args.results, args.product, keys, args.flag)
         picked = [listed.record(0)] if len(listed) == 1 else listed.records

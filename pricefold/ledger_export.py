@@ -23,9 +23,10 @@ RISKY = ("=", "+", "-", "@", "\t", "\r")
 RISKY_FIRST = frozenset(RISKY)  # one character each: ``text[:1] in RISKY_FIRST`` is ``text.startswith(RISKY)``
 
 
-def neutral(text: str) -> str:
-    """A text cell made inert for spreadsheets: a leading ``'`` when it starts like a formula."""
-    return "'" + text if text.startswith(RISKY) else text
+def inert(cells: list) -> list:
+    """A row's text cells made inert for spreadsheets: a leading ``'`` where one starts like a formula (numbers
+    are written as they are).  One comprehension a row: a call a cell was a third of an export's time."""
+    return ["'" + cell if isinstance(cell, str) and cell[:1] in RISKY_FIRST else cell for cell in cells]
 
 
 def run_export(args) -> int:
@@ -47,12 +48,9 @@ def run_export(args) -> int:
     # RFC 4180 line ends: with "\r\n" as the terminator the writer also quotes a cell holding a lone
     # carriage return (with "\n" alone, Python 3.11 wrote it bare and the row split in two).
     writer = csv.writer(buffer, lineterminator="\r\n")
-    # text cells only: numbers (floats, ints) are written as they are; ``neutral`` inlined (a call a cell
-    # was a third of the export's time at 100k series)
-    inert = (lambda line: line) if args.raw else \
-        (lambda line: ["'" + cell if isinstance(cell, str) and cell[:1] in RISKY_FIRST else cell for cell in line])
+    made = (lambda cells: cells) if args.raw else inert
     columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
-    writer.writerow(inert([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
+    writer.writerow(made([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
                            "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi",
                            "carried_from", "ledger_head"]))
     count, head = 0, book.head_text
@@ -72,7 +70,7 @@ def run_export(args) -> int:
             if status == "stale":  # signed on other data: the signed model's numbers, never this fit's
                 family, coef, at_plan = signed_columns(current)
                 plan = {"price": at_plan.get("price")}
-            writer.writerow(inert([*map(str, key.values()), status, model or "", family, coef,
+            writer.writerow(made([*map(str, key.values()), status, model or "", family, coef,
                                    current["analyst"] if current else "", current["at"] if current else "",
                                    current.get("note", "") if current else "", _number(plan.get("price")),
                                    _number(at_plan.get("volume")), _number(at_plan.get("lo")),
