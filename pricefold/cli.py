@@ -209,9 +209,17 @@ REFIT_ROWS = 50_000_000
 
 def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | None = None, prepare=None) -> int:
     """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen,
-    after ``prepare()`` when given: the demo's compiling in another process)."""
+    after ``prepare()`` when given: the demo's compiling in another process).  Without a terminal, one line
+    at once (a screen drawn into a pipe would wait for a key nobody can press); a session that could not be
+    opened ends as one line too, after its dialog."""
+    from fitcore.errors import PricefoldError, SettingsError
+    if not (sys.stdin.isatty() and sys.stdout.isatty()):
+        raise SettingsError("the triage screen needs a terminal (standard input and output); in scripts, "
+                            "'pricefold show' and 'pricefold ledger' read results and decisions")
     app = triage_app(source, ledger_path, analyst, stored, prepare)
     app.run()
+    if app.failure is not None:
+        raise PricefoldError(app.failure)
     if ledger_path.exists():  # after a failure before any decision there is no ledger to point to
         print(f"decisions are in {ledger_path}", file=sys.stderr)
     return app.return_code or 0

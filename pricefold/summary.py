@@ -14,6 +14,6 @@ def summary_line(n_series: int, n_rows: int, chosen: dict, flags: dict, clean: i
 
 
 def rejects_line(reasons: list[str], where: Path) -> str:
-    """'3 rows rejected: 1 negative price, … — see r.rejects.csv'."""
+    """'3 rows rejected: 1 negative price · … — see r.rejects.csv'."""
     from fitcore.data.validation import summary
     return f"{summary(reasons)} — see {where}"

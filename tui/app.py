@@ -63,6 +63,7 @@ class TriageApp(App):
         super().__init__()
         self.opener, self.observer = opener, observer
         self.session: TriageSession | None = None
+        self.failure: str | None = None  # why the session could not be opened (the command line says it too)
 
     def on_mount(self) -> None:
         self.push_screen(LoadingScreen())
@@ -202,7 +203,8 @@ class TriageApp(App):
     def on_load_failed(self, message: LoadFailed) -> None:
         body = Text("Could not open the triage:\n\n", style="bold")
         body.append(clean(message.reason))
-        self.push_screen(MessageDialog(body), lambda _: self.exit(return_code=2, message=clean(message.reason)))
+        self.failure = clean(message.reason)
+        self.push_screen(MessageDialog(body), lambda _: self.exit(return_code=2))
 
     def on_worker_state_changed(self, event) -> None:
         """A failure no handler foresaw still reaches the analyst as a dialog, not a crash."""

@@ -38,11 +38,12 @@ def columns_of(table: pa.Table, columns: Columns) -> dict:
     return {name: table.column(name) for name in columns.needed}
 
 
-def raw_from_columns(parts: dict, columns: Columns, line: np.ndarray, path=None):
+def raw_from_columns(parts: dict, columns: Columns, line: np.ndarray, path=None, number_cells=None):
     """``RawRows`` of the needed Arrow columns by name.  Each column is taken out of ``parts`` at its last
     use and its memory handed back once converted, so at most one column is held twice at a time.
     A column Arrow cannot turn into text, numbers or dates (bytes that are not UTF-8, a list) is a
-    ``DataError`` naming ``path`` and the column."""
+    ``DataError`` naming ``path`` and the column.  ``number_cells``: how a number column is read (default
+    ``_number_cells``; the CSV reader's text columns: ``csv_text_numbers``)."""
     uses = Counter([*columns.keys, *number_names(columns), *([columns.date] if columns.date else [])])
 
     def convert(name, how):
@@ -56,7 +57,7 @@ def raw_from_columns(parts: dict, columns: Columns, line: np.ndarray, path=None)
         give_back_arrow_memory()
         return out
     keys = {name: convert(name, categorical) for name in columns.keys}
-    numbers = {name: convert(name, _number_cells) for name in number_names(columns)}
+    numbers = {name: convert(name, number_cells or _number_cells) for name in number_names(columns)}
     date = convert(columns.date, dates) if columns.date else None
     return RawRows(line=line, keys=keys, numbers=numbers, date=date)
 
@@ -76,6 +77,28 @@ def _number_cells(column) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     missing = (pc.is_null(column).to_numpy(zero_copy_only=False) if column.null_count
                else np.zeros(len(values), bool))
     return values, np.zeros(len(values), bool), np.asarray(missing, dtype=bool)
+
+
+def csv_text_numbers(column) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(values, not_a_number, missing) of a CSV number column read as text because some cell is not a
+    number: each block parsed as pyarrow's CSV reader parses numbers (ASCII blanks trimmed, empty as
+    missing), and a block holding a cell that does not parse read as the line-by-line reader reads it
+    (``coerce_numbers``) — so one bad cell costs one block's Python, not the whole file's."""
+    values = np.empty(len(column), np.float64)
+    not_a_number, missing = np.zeros(len(column), bool), np.zeros(len(column), bool)
+    at = 0
+    for chunk in (column.chunks if isinstance(column, pa.ChunkedArray) else [column]):
+        end = at + len(chunk)
+        try:
+            parsed = pc.cast(pc.ascii_trim_whitespace(chunk), pa.float64())
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            values[at:end], not_a_number[at:end], missing[at:end] = coerce_numbers(chunk.to_pandas())
+        else:
+            values[at:end] = parsed.to_numpy(zero_copy_only=False)  # nulls become NaN
+            if parsed.null_count:
+                missing[at:end] = pc.is_null(parsed).to_numpy(zero_copy_only=False)
+        at = end
+    return values, not_a_number, missing
 
 
 def float_values(column) -> np.ndarray:

@@ -219,9 +219,9 @@ def duplicate_reason(line: int) -> str:
 
 
 def summary(reasons_of_rejected: list[str] | np.ndarray) -> str:
-    """'412 rows rejected: 380 non-numeric volume, 32 negative price' (most common first)."""
+    """'412 rows rejected: 380 non-numeric volume · 32 negative price' (most common first)."""
     counts = Counter(str(r) if not str(r).startswith("duplicate of line") else "duplicate series and date"
                      for r in reasons_of_rejected)
     total = sum(counts.values())
-    parts = ", ".join(f"{count:,} {reason}" for reason, count in counts.most_common())
+    parts = " · ".join(f"{count:,} {reason}" for reason, count in counts.most_common())  # a reason may hold a comma
     return f"{total:,} row{'s' if total != 1 else ''} rejected: {parts}"

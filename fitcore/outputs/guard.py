@@ -120,7 +120,15 @@ def _check_folder(path: Path) -> None:
     if not parent.is_dir():
         raise DataError(f"{parent} is not a folder", path=str(path))
     if not os.access(parent, os.W_OK | os.X_OK):
-        raise DataError(f"cannot write in the folder {parent} (permission denied)", path=str(path))
+        why = "on a read-only file system" if _read_only(parent) else "permission denied"
+        raise DataError(f"cannot write in the folder {parent} ({why})", path=str(path))
+
+
+def _read_only(folder: Path) -> bool:
+    try:
+        return bool(os.statvfs(folder).f_flag & os.ST_RDONLY)
+    except (OSError, AttributeError):  # no statvfs here: say what access() said
+        return False
 
 
 def _check_existing(path: Path, kind: str) -> None:

@@ -144,8 +144,8 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     flag("outside-range", has & ((planned & ((plan < results.price_lo) | (plan > results.price_hi)))
                                  | control_outside.any(axis=1)))
 
-    rival, rival_change = _near_tie(results)
-    numbers.update(rival=rival, rival_change=rival_change)
+    rival, rival_change, rival_volume, chosen_volume = _near_tie(results)
+    numbers.update(rival=rival, rival_change=rival_change, rival_volume=rival_volume, chosen_volume=chosen_volume)
     flag("near-tie", has & (rival >= 0) & (np.abs(rival_change) > thresholds.near_tie_change))
 
     worst_fold, fold_ratio = _fold_spread(results)
@@ -302,7 +302,8 @@ def shape_scan(volume, slope, price, flat, share, rising_from, rising_to, rising
 
 
 def _near_tie(results: Results):
-    """(S,) the candidate within one SE of the chosen one whose volume differs most, and by what share."""
+    """(S,) the candidate within one SE of the chosen one whose volume differs most, by what share, and the
+    two volumes (a share means nothing where one is not above zero: the sentence then gives both)."""
     n_s = results.n_series
     rows = np.arange(n_s)
     pick = np.maximum(results.chosen, 0)
@@ -316,7 +317,8 @@ def _near_tie(results: Results):
     change = np.where(np.isfinite(change), change, 0.0)
     rival = np.argmax(np.abs(change), axis=1)
     has_rival = close.any(axis=1) & (results.chosen >= 0)
-    return np.where(has_rival, rival, -1), np.where(has_rival, change[rows, rival], 0.0)
+    return (np.where(has_rival, rival, -1), np.where(has_rival, change[rows, rival], 0.0),
+            np.where(has_rival, volume[rows, rival], np.nan), np.where(has_rival, base, np.nan))
 
 
 def _mid_volumes(results: Results) -> np.ndarray:

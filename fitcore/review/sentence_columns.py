@@ -32,10 +32,15 @@ def _near_tie(diag, series):
     plan, change = r.plan_price[series], n["rival_change"][series]
     names = np.array(r.names, dtype=object)
     where = pc.if_else(np.isfinite(plan), fill(S.AT_PLAN, price=moneys(plan)), S.AT_MID)
+    rival_volume, chosen_volume = n["rival_volume"][series], n["chosen_volume"][series]
+    difference = pc.if_else(
+        np.minimum(rival_volume, chosen_volume) > 0,
+        fill(S.NEAR_TIE_SHARE, change=pcts(np.abs(change)), direction=np.where(change > 0, "more", "less").astype(object),
+             chosen=names[chosen]),
+        fill(S.NEAR_TIE_VOLUMES, rival_volume=fmts(rival_volume), chosen=names[chosen], chosen_volume=fmts(chosen_volume)))
     return fill(S.NEAR_TIE, rival=names[rival], rival_mse=fmts(r.cv_mse[series, rival]),
                 chosen_mse=fmts(r.cv_mse[series, chosen]), chosen_se=fmts(r.cv_se[series, chosen]),
-                change=pcts(np.abs(change)), direction=np.where(change > 0, "more", "less").astype(object),
-                chosen=names[chosen], where=where)
+                difference=difference, where=where)
 
 
 def _weak_fit(diag, series):

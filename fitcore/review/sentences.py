@@ -115,7 +115,10 @@ def _outside_range(diag, s):
 
 # Sentences written for many series at once too (``sentence_columns``): one wording, filled either way.
 NEAR_TIE = ("{rival} is within one standard error (CV MSE {rival_mse} vs {chosen_mse} ± {chosen_se}) and predicts "
-            "{change} {direction} volume than {chosen} {where}.")
+            "{difference} {where}.")
+# the difference as a share of the chosen curve's volume; as the two volumes where either is not above zero
+NEAR_TIE_SHARE = "{change} {direction} volume than {chosen}"
+NEAR_TIE_VOLUMES = "a volume of {rival_volume} where {chosen} predicts {chosen_volume}"
 AT_PLAN, AT_MID = "at the plan price {price}", "at mid-range price"
 WEAK_FIT = ("Cross-validated R² (Q²) is {score}, below {wanted}: price explains little of the volume's "
             "variation.")
@@ -125,10 +128,12 @@ def _near_tie(diag, s):
     r, n = diag.results, diag.numbers
     c, other = int(r.chosen[s]), int(n["rival"][s])
     where = AT_PLAN.format(price=money(r.plan_price[s])) if math.isfinite(r.plan_price[s]) else AT_MID
-    change = n["rival_change"][s]
+    change, volumes = n["rival_change"][s], (n["rival_volume"][s], n["chosen_volume"][s])
+    difference = (NEAR_TIE_SHARE.format(change=pct(abs(change)), direction="more" if change > 0 else "less",
+                                        chosen=r.names[c]) if min(volumes) > 0 else
+                  NEAR_TIE_VOLUMES.format(rival_volume=fmt(volumes[0]), chosen=r.names[c], chosen_volume=fmt(volumes[1])))
     return NEAR_TIE.format(rival=r.names[other], rival_mse=fmt(r.cv_mse[s, other]), chosen_mse=fmt(r.cv_mse[s, c]),
-                           chosen_se=fmt(r.cv_se[s, c]), change=pct(abs(change)),
-                           direction="more" if change > 0 else "less", chosen=r.names[c], where=where)
+                           chosen_se=fmt(r.cv_se[s, c]), difference=difference, where=where)
 
 
 def _unsteady(diag, s):

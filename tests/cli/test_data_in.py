@@ -68,7 +68,7 @@ def test_rows_read_equal_fitted_plus_rejected(tmp_path):
     out = tmp_path / "r.json"
     done = run_cli("fit", str(data), "-o", str(out))
     assert done.returncode == 0
-    assert "3 rows rejected: 1 negative price, 1 non-numeric volume, 1 missing price — see" in done.stderr
+    assert "3 rows rejected: 1 negative price · 1 non-numeric volume · 1 missing price — see" in done.stderr
     doc = json.loads(out.read_text())
     assert doc["input"]["rows"] == 18 and doc["input"]["rejected"] == 3
     assert sum(s["n"] for s in doc["series"]) == 15

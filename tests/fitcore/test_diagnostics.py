@@ -163,3 +163,30 @@ def test_every_flag_has_a_sentence_and_a_severity():
 def test_threshold_overrides_are_checked(pairs, message):
     with pytest.raises(SettingsError, match=re.escape(message)):
         Thresholds().with_overrides(pairs)
+
+
+def test_near_tie_gives_both_volumes_where_one_is_not_above_zero():
+    """A share of a volume at or below zero means nothing (it read "predicts 8298% more volume than poly1"
+    where poly1 predicted −269): there the sentence gives both volumes; elsewhere the share, as before.
+    Common practice: a relative change needs a positive base."""
+    from fitcore.review.sentences import fmt
+    from tests.reference.fixed_fits import dataset
+    data = dataset("sample")
+    results = fitcore.fit_batch(data, fitcore.FitSettings(folds=3, fold_order="given", degrees=(1, 2, 3),
+                                                          loglog=False), plan_price=2.5)
+    diagnosis = diagnose(results)
+    kinds = set()
+    for s in range(results.n_series):
+        said = {f["code"]: f["message"] for f in diagnosis.flags_of(s)}.get("near-tie")
+        if said is None:
+            continue
+        c, r = int(results.chosen[s]), results.names.index(said.split()[0])
+        ours, theirs = results.plan_volume[s, c], results.plan_volume[s, r]
+        if min(ours, theirs) > 0:
+            kinds.add("share")
+            assert f"predicts {abs(theirs / ours - 1) * 100:.0f}% " in said
+        else:
+            kinds.add("volumes")
+            assert f"predicts a volume of {fmt(theirs)} where {results.names[c]} predicts {fmt(ours)} " in said
+            assert "%" not in said
+    assert kinds == {"share", "volumes"}

@@ -97,7 +97,7 @@ def test_unknown_extension(tmp_path):
 
 def test_every_row_rejected_is_an_error(tmp_path):
     path = write(tmp_path / "d.csv", ["a,-1,2,2025-01-06", "b,x,2,2025-01-06"])
-    with pytest.raises(DataError, match=re.escape("no usable rows (2 rows rejected: 1 negative price, 1 non-numeric price)")):
+    with pytest.raises(DataError, match=re.escape("no usable rows (2 rows rejected: 1 negative price · 1 non-numeric price)")):
         load(path, Columns(date="week"))
 
 
@@ -187,3 +187,12 @@ def test_fuzzed_files_account_for_every_row(tmp_path, rows, sep):
         assert independently_bad(parsed[line - 1]), (line, parsed[line - 1])
     for line in data.line.tolist():
         assert not independently_bad(parsed[line - 1]), (line, parsed[line - 1])
+
+
+def test_the_rejects_summary_keeps_a_reason_holding_a_comma_in_one_piece():
+    """Reasons are joined by " · ": "expected 6 fields, found 7" holds a comma of its own."""
+    from fitcore.data.validation import summary
+    said = summary(["non-numeric volume", "expected 6 fields, found 7", "non-numeric volume"])
+    head, parts = said.split(": ", 1)
+    assert head == "3 rows rejected"
+    assert parts.split(" · ") == ["2 non-numeric volume", "1 expected 6 fields, found 7"]

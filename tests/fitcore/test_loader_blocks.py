@@ -205,3 +205,28 @@ def test_a_parquet_key_that_is_not_utf8_is_one_line_naming_file_and_column(tmp_p
         load_with_rejects(path, Columns())
     assert str(path) in str(caught.value) and "'product'" in str(caught.value) and "UTF-8" in str(caught.value)
     assert "\n" not in str(caught.value)
+
+
+def test_one_cell_that_is_not_a_number_keeps_the_fast_reader_and_its_numbers(tmp_path, monkeypatch):
+    """A file of several blocks with one cell that is not a number: read again with the numbers as text,
+    block by block — not line by line — and loaded exactly as the line-by-line reader loads it (blanks
+    around a number, spelled infinities, empty cells included).  Reference values: Python's ``float``."""
+    from fitcore.data import read_csv
+    frame = invented_rows(60_000)
+    frame.loc[10, "price"], frame.loc[20, "volume"], frame.loc[30, "price"] = " 4.5 ", "Inf", "1e400"
+    frame.loc[59_990, "volume"] = "abc"  # in the last block only
+    path = tmp_path / "rows.csv"
+    path.write_text("product,price,volume\n" + "\n".join(",".join(row) for row in frame.itertuples(index=False))
+                    + "\n")
+    series, rejected = expected_from(pd.read_csv(path, dtype=str, keep_default_na=False), first_line=2)
+    slow = read_csv._read_slow
+    monkeypatch.setattr(read_csv, "_read_slow", lambda *a: pytest.fail("read line by line"))
+    data, rejects = load_with_rejects(path, Columns())
+    assert as_series(data) == series and rejects.lines.tolist() == rejected
+    assert data.price[np.flatnonzero(data.line == 12)].tolist() == [4.5]
+    monkeypatch.setattr(read_csv, "_read_slow", slow)
+    monkeypatch.setattr(read_csv, "_read_fast", lambda *a: None)
+    by_lines, rejects_by_lines = load_with_rejects(path, Columns())
+    assert as_series(by_lines) == as_series(data)
+    assert rejects_by_lines.lines.tolist() == rejects.lines.tolist()
+    assert rejects_by_lines.reasons == rejects.reasons

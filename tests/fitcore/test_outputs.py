@@ -212,3 +212,15 @@ def test_leftovers_of_another_target_are_left_alone(tmp_path):
     stray = tmp_path / ".r.json.pricefold-otherhost-1-00000000.tmp"
     stray.write_text("x")
     assert remove_leftovers(tmp_path / "r.json") == [] and stray.exists()
+
+
+@pytest.mark.parametrize("flags, said", [(os.ST_RDONLY, "on a read-only file system"), (0, "permission denied")])
+def test_a_folder_that_takes_no_files_says_why(tmp_path, monkeypatch, flags, said):
+    """A read-only file system is not a permission problem (statvfs(3) says which; faked here: a test cannot
+    mount one)."""
+    from fitcore.outputs import guard
+    real = os.statvfs(tmp_path)
+    monkeypatch.setattr(guard.os, "access", lambda *a, **k: False)
+    monkeypatch.setattr(guard.os, "statvfs", lambda p: os.statvfs_result((*real[:8], flags, real[9])))
+    with pytest.raises(DataError, match=re.escape(f"cannot write in the folder {tmp_path} ({said})")):
+        check_outputs([(tmp_path / "r.json", "results")], [])

@@ -70,3 +70,20 @@ async def test_an_unexpected_failure_also_becomes_a_dialog(tmp_path):
         await app.workers.wait_for_complete()
         await pilot.pause()
         assert "RuntimeError: disk on fire" in screen_text(app)
+
+
+async def test_a_very_long_product_name_leaves_its_segment_and_counts_in_the_evidence_title(tmp_path):
+    """100,000 characters of product name: the evidence title still shows the region and the count."""
+    path = tmp_path / "long.csv"
+    rng = np.random.default_rng(1)
+    with open(path, "w", newline="", encoding="utf-8") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(["product", "region", "price", "volume"])
+        for _ in range(30):
+            price = round(rng.uniform(1, 3), 2)
+            writer.writerow(["x" * 100_000, "North", price, round(500 - 100 * price + rng.normal(0, 5))])
+    app = make_app(tmp_path / "ledger.jsonl", Source(data=path, columns=Columns(segments=("region",))))
+    async with app.run_test(size=(160, 40)) as pilot:
+        await started(app, pilot)
+        await pilot.press("f", "home", "down", "enter")  # all series
+        await until(pilot, lambda: "xxx… · North  30 obs" in screen_text(app))

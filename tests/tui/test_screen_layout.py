@@ -219,3 +219,26 @@ def test_the_settings_file_names_the_units(tmp_path):
     path.write_text('[units]\ncurrency = "EUR"\n', encoding="utf-8")
     with pytest.raises(SettingsError, match="unknown key 'currency' in \\[units\\]; expected one of price, volume"):
         load_config(path)
+
+
+def test_a_curve_far_out_at_a_distant_plan_price_runs_off_the_chart_not_over_the_observations():
+    """A plan price far beyond the observed ones sends a high-degree curve to huge volumes: the volume axis
+    keeps to the observations (and what is drawn over their prices) with half their span again either side,
+    so the observations stay spread over the chart's rows; the legend says the curves run off it."""
+    import fitcore
+    from tui.widgets.charts import volume_window
+    results, _ = fit_source(sample_source())
+    far = fitcore.fit_batch(results.data, results.settings, plan_price=np.asarray(results.price_hi) * 3)
+    names = far.names
+    s = next(i for i in range(far.n_series) if names[int(far.chosen[i])] == "poly5")
+    rows = slice(far.data.offsets[s], far.data.offsets[s + 1])
+    seen = far.data.volume[rows]
+    chart = curve_chart(far, s, 70, 16, int(far.chosen[s]), {})
+    body, legend = chart.plain.rsplit("\n", 1)
+    assert "curves run off the chart" in legend
+    ticks = [float(t.replace(",", "")) for t in re.findall(r"^\s*(-?[\d,.]+)┤", body, flags=re.M)]
+    span = seen.max() - seen.min()
+    assert ticks and min(ticks) >= seen.min() - span and max(ticks) <= seen.max() + span
+    # nothing to cut where every drawn volume is near the observed ones (none is beyond half their span)
+    assert volume_window([np.array([10.0, 20.0])], [np.array([5.0, 25.0])]) is None
+    assert volume_window([np.array([10.0, 20.0])], [np.array([-500.0, 20.0])]) == (5.0, 25.0)

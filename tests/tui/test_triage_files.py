@@ -86,3 +86,30 @@ def test_results_that_do_not_name_their_data_are_one_line_and_exit_2(tmp_path, c
     assert cli.main(["triage", str(out), "--ledger", str(tmp_path / "l.jsonl")]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and str(out) in err and "'input' → 'path'" in err and "Traceback" not in err
+
+
+def test_without_a_terminal_triage_is_one_line_and_never_draws(tmp_path, monkeypatch, capsys):
+    """Under pytest standard input is not a terminal: a screen drawn there would wait for a key forever."""
+    data = tmp_path / "semi.csv"
+    semicolon_file(data)
+    monkeypatch.setattr(cli, "triage_app", lambda *a, **k: pytest.fail("the screen was started"))
+    assert cli.main(["triage", str(data), "--sep", ";", "--ledger", str(tmp_path / "l.jsonl")]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("pricefold triage: the triage screen needs a terminal") and err.count("\n") == 1
+
+
+def test_a_session_that_could_not_open_ends_as_one_prefixed_line(tmp_path, monkeypatch, capsys):
+    """After its dialog, the reason is said once more where the command was typed, named as every error is."""
+    data = tmp_path / "semi.csv"
+    semicolon_file(data)
+
+    class Failed:
+        failure, return_code = "semi.csv, line 1: expected a column 'price'", 2
+
+        def run(self):
+            pass
+    monkeypatch.setattr(cli.sys.stdin, "isatty", lambda: True)
+    monkeypatch.setattr(cli.sys.stdout, "isatty", lambda: True)
+    monkeypatch.setattr(cli, "triage_app", lambda *a, **k: Failed())
+    assert cli.main(["triage", str(data), "--sep", ";", "--ledger", str(tmp_path / "l.jsonl")]) == 2
+    assert capsys.readouterr().err == "pricefold triage: semi.csv, line 1: expected a column 'price'\n"

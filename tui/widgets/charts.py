@@ -64,6 +64,23 @@ def price_grid(lo: float, hi: float, plan: float, positive: bool) -> np.ndarray:
     return np.linspace(start, hi + pad, 80)
 
 
+def volume_window(inside: list[np.ndarray], everything: list[np.ndarray]) -> tuple[float, float] | None:
+    """The volumes to show: what is seen over the observed prices (``inside``: the observations, the curves
+    and band there) and half its span again either side; None when ``everything`` drawn fits in that anyway.
+    A curve far out at a distant plan price (−70,401 beside observations of 500) otherwise squeezed every
+    observation into one row; where it leaves the window it runs off the chart's edge."""
+    seen = np.concatenate([np.asarray(v, dtype=float).ravel() for v in inside] or [np.zeros(0)])
+    seen = seen[_plottable(seen)]
+    drawn = np.concatenate([np.asarray(v, dtype=float).ravel() for v in everything] or [np.zeros(0)])
+    drawn = drawn[_plottable(drawn)]
+    if not len(seen) or not len(drawn):
+        return None
+    lo, hi = float(seen.min()), float(seen.max())
+    margin = (hi - lo) / 2 or max(abs(hi) / 2, 1.0)
+    lo, hi = lo - margin, hi + margin
+    return (lo, hi) if drawn.min() < lo or drawn.max() > hi else None
+
+
 def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict,
                 adjusted: bool = False, signed: dict | None = None, unobserved: str | None = None) -> Text:
     """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its 95% band
@@ -87,17 +104,21 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     names = results.names
     other = chosen if model != chosen else runner_up(results, s)
     xs = grid.tolist()
+    lines = []  # (values over the grid, marker, colour), drawn in this order
     if model >= 0 and results.rows_loaded:
         lower, upper = band(results, s, model, grid)
-        plt.plot(*_finite(xs, lower), marker=".", color=BAND)
-        plt.plot(*_finite(xs, upper), marker=".", color=BAND)
+        lines += [(lower, ".", BAND), (upper, ".", BAND)]
     if other >= 0:
-        plt.plot(*_finite(xs, curve(results, s, other, grid)), marker="-", color=OTHER)
+        lines.append((curve(results, s, other, grid), "-", OTHER))
     if signed is not None:
         from fitcore.ledger.snapshot import signed_curve
-        plt.plot(*_finite(xs, signed_curve(signed, grid)), marker="+", color=SIGNED)
+        lines.append((signed_curve(signed, grid), "+", SIGNED))
     if model >= 0:
-        plt.plot(*_finite(xs, curve(results, s, model, grid)), marker=SOLID, color=STANDING)
+        lines.append((curve(results, s, model, grid), SOLID, STANDING))
+    observed = (grid >= results.price_lo[s]) & (grid <= results.price_hi[s])
+    window = volume_window([volume, *(ys[observed] for ys, _, _ in lines)], [volume, *(ys for ys, _, _ in lines)])
+    for ys, marker, colour in lines:
+        plt.plot(*_finite(xs, _inside(ys, window)), marker=marker, color=colour)
     if np.isfinite(plan):
         plt.vline(plan, PLAN)
     if len(price):  # observations last, so that curves through them do not hide them
@@ -106,6 +127,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
             plt.scatter(*_finite(price[new], volume[new]), marker="×", color=NEW)
     if _plottable(grid).all():
         plt.xlim(float(grid[0]), float(grid[-1]))
+    if window is not None:
+        plt.ylim(*window)
     plt.xlabel("price" + (f" ({units['price']})" if units.get("price") else ""))
     if units.get("volume"):
         plt.ylabel(f"volume ({units['volume']})")
@@ -132,7 +155,18 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
             legend.append(f"   × {int(new.sum())} new since", _colour(NEW))
     if np.isfinite(plan):
         legend.append("   │ plan price", _colour(PLAN))
+    if window is not None:
+        legend.append("   (curves run off the chart away from the observed prices)", "dim")
     return Text("\n").join([chart, legend])
+
+
+def _inside(values: np.ndarray, window: tuple[float, float] | None) -> np.ndarray:
+    """``values`` with those outside the volume ``window`` left out (NaN: not drawn)."""
+    if window is None:
+        return values
+    values = np.asarray(values, dtype=float)
+    with np.errstate(invalid="ignore"):
+        return np.where((values >= window[0]) & (values <= window[1]), values, np.nan)
 
 
 def fold_chart(results: Results, s: int, width: int, height: int) -> Text:

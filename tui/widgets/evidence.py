@@ -23,7 +23,7 @@ from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money
 
 from .. import engine
-from ..cells import cut
+from ..cells import cut, key_label
 from ..session import TriageSession, describe
 from ..text import clean
 from .charts import curve_chart, fold_chart
@@ -148,9 +148,15 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         """Three lines at most, each cut to the width: which series, its status, news from another analyst."""
         results, session = self.session.results, self.session
         width = max(self.scrollable_content_region.width, 20)
-        head = Text(cut(session.label(s), width), style="bold")
-        head.append(cut(f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
-                        f"{self.price(results.price_hi[s])}", max(width - cell_len(head.plain), 0)), style="dim")
+        about = (f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
+                 f"{self.price(results.price_hi[s])}")
+        # a long product name gives way to its segments and to what is said about the series (a key of one
+        # part keeps the width: the name is all that tells the series apart)
+        parts = session.label_parts(s)
+        room = min(cell_len(session.label(s)), max(width - cell_len(about), width * 2 // 3) if len(parts) > 1
+                   else width)
+        head = Text(key_label(parts, room), style="bold")
+        head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
         due = session.due(s)
         lines = [head, Text(cut(f"status {session.status[s]}" + (f" — due: {due}" if due else "")
