@@ -126,7 +126,9 @@ class SeriesColumns:
         if any(name not in self.key_names for name in keys or {}):
             return np.zeros(0, dtype=np.int64)
         if products:
-            keep &= np.isin(self.texts(self.key_names[0]), np.array(list(products), dtype=object))
+            wanted = set(products)  # not np.isin: its sorting path cannot order a null key beside text
+            keep &= np.fromiter((value in wanted for value in self.texts(self.key_names[0]).tolist()), bool,
+                                self.n_series)
         for name, value in (keys or {}).items():
             keep &= self.texts(name) == value
         return np.flatnonzero(keep)
