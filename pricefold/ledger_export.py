@@ -11,6 +11,7 @@ import csv
 import io
 import json
 import sys
+from collections.abc import Iterator
 from pathlib import Path
 
 from fitcore import ledger
@@ -19,58 +20,185 @@ from fitcore.ledger.replay import series_id
 from .ledger_cli import open_ledger
 
 RISKY = ("=", "+", "-", "@", "\t", "\r")
+RISKY_FIRST = frozenset(RISKY)  # one character each: ``text[:1] in RISKY_FIRST`` is ``text.startswith(RISKY)``
 
 
-def neutral(text: str) -> str:
-    """A text cell made inert for spreadsheets: a leading ``'`` when it starts like a formula."""
-    return "'" + text if text.startswith(RISKY) else text
+def inert(cells: list) -> list:
+    """A row's text cells made inert for spreadsheets: a leading ``'`` where one starts like a formula (numbers
+    are written as they are).  One comprehension a row: a call a cell was a third of an export's time."""
+    return ["'" + cell if isinstance(cell, str) and cell[:1] in RISKY_FIRST else cell for cell in cells]
 
 
 def run_export(args) -> int:
-    from fitcore.results.read import results_in_parts
-    header, parts = results_in_parts(args.results)
+    from fitcore.results.read import read_header, results_in_parts
+    from fitcore.results.series_columns import is_columnar
+    ahead = None
+    if is_columnar(args.results):  # column by column: only the exported candidate's cells of each series
+        header, parts = read_header(args.results), None
+        header.pop("key_columns", None)
+        ahead = _columns_ahead(args.results)  # while the ledger is read and verified
+    else:
+        header, parts = results_in_parts(args.results)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN,), must_exist=True)
     from fitcore.outputs import check_outputs
     from fitcore.results.read import results_inputs
     check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
                                               *results_inputs(header)])
-    text = (lambda value: value) if args.raw else neutral
     buffer = io.StringIO()
     # RFC 4180 line ends: with "\r\n" as the terminator the writer also quotes a cell holding a lone
     # carriage return (with "\n" alone, Python 3.11 wrote it bare and the row split in two).
     writer = csv.writer(buffer, lineterminator="\r\n")
-
-    def row(cells: list) -> None:  # text cells only: numbers (floats, ints) are written as they are
-        writer.writerow([text(cell) if isinstance(cell, str) else cell for cell in cells])
-
+    made = (lambda cells: cells) if args.raw else inert
     columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
-    row([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef", "analyst", "at",
-         "note", "plan_price", "plan_volume", "plan_lo", "plan_hi", "carried_from", "ledger_head"])
+    writer.writerow(made([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
+                           "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi",
+                           "carried_from", "ledger_head"]))
     count, head = 0, book.head_text
-    for record in (record for series in parts for record in series):
-        count += 1
-        history = book.histories.get(series_id(record["key"]))
-        status = history.status(record["fingerprint"]) if history else "pending"
-        current = history.current if history else None
-        model = current["model"] if current else record["chosen"]
-        cand = next((c for c in record["candidates"] if c["name"] == model), None)
-        plan = record.get("plan") or {}
-        # The standing model's plan numbers: the proposal's from the plan; another candidate's from its own
-        # fields where the results hold them (its interval only where they do).
-        own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
-        at_plan = plan if model == record["chosen"] else {k: (cand or {}).get(v) for k, v in own.items()}
-        family, coef = (cand["family"] if cand else ""), (json.dumps(cand["coef"]) if cand and cand["coef"] else "")
-        if status == "stale":  # signed on other data: the signed model's numbers, never this fit's
-            family, coef, at_plan = signed_columns(current)
-            plan = {"price": at_plan.get("price")}
-        row([*(str(value) for value in record["key"].values()), status, model or "", family, coef,
-             current["analyst"] if current else "", current["at"] if current else "",
-             current.get("note", "") if current else "", _number(plan.get("price")),
-             _number(at_plan.get("volume")), _number(at_plan.get("lo")), _number(at_plan.get("hi")),
-             carried_from(history), head])
+    own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
+    from fitcore.ledger.reader import collector_paused
+    with collector_paused():  # a few small objects a series and no cycles among them
+        series = _by_columns(ahead, book) if parts is None else _by_records(parts, book)
+        for key, fingerprint, chosen, plan, history, cand in series:
+            count += 1
+            status = history.status(fingerprint) if history else "pending"
+            current = history.current if history else None
+            model = current["model"] if current else chosen
+            # The standing model's plan numbers: the proposal's from the plan; another candidate's from its own
+            # fields where the results hold them (its interval only where they do).
+            at_plan = plan if model == chosen else {k: (cand or {}).get(v) for k, v in own.items()}
+            family, coef = (cand["family"] if cand else ""), (coef_text(cand["coef"]) if cand and cand["coef"] else "")
+            if status == "stale":  # signed on other data: the signed model's numbers, never this fit's
+                family, coef, at_plan = signed_columns(current)
+                plan = {"price": at_plan.get("price")}
+            writer.writerow(made([*map(str, key.values()), status, model or "", family, coef,
+                                   current["analyst"] if current else "", current["at"] if current else "",
+                                   current.get("note", "") if current else "", _number(plan.get("price")),
+                                   _number(at_plan.get("volume")), _number(at_plan.get("lo")),
+                                   _number(at_plan.get("hi")), carried_from(history), head]))
     write_text(args.output, buffer.getvalue())
     print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
     return 0
+
+
+def model_of(history, chosen: str | None) -> str | None:
+    """The model a series' standing decision names (its ledger ``history``), or the proposal where none stands."""
+    current = history.current if history else None
+    return current["model"] if current else chosen
+
+
+# (key, fingerprint, chosen, plan: price, volume, lo, hi or {}, ledger history or None, the fields of the
+# candidate it exports or None)
+Exported = tuple[dict, str, str, dict, object, dict]
+
+
+def _by_records(parts, book) -> Iterator[Exported]:
+    """What is exported of each series, from records (a JSON results file)."""
+    for record in (record for series in parts for record in series):
+        history = book.histories.get(series_id(record["key"]))
+        model = model_of(history, record["chosen"])
+        cand = next((c for c in record["candidates"] if c["name"] == model), None)
+        yield record["key"], record["fingerprint"], record["chosen"], record.get("plan") or {}, history, cand
+
+
+# The columns read for an export, and the Arrow type each must have for the column reader to vouch for
+# it (what pricefold writes); a part with another type goes through the record reader, which names the
+# problem as it always did.
+EXPORTED = {"chosen": "text", "fingerprint": "text", "is_chosen": "bool", "plan_price": "number",
+            "plan_volume": "number", "plan_lo": "number", "plan_hi": "number", "available": "bool",
+            "family": "text", "coef": "numbers"}
+
+
+def _columns_ahead(path: Path) -> tuple[list[Path], object]:
+    """The parts of a Parquet results file or folder, and the first one's ``EXPORTED`` columns being read in
+    a thread (a future: its ``result()`` raises what the read raised).  Arrow reads without the interpreter's
+    lock, so the read costs no time beside the ledger's verification; the other parts are read in turn, one
+    part's columns in memory at a time."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    from fitcore.results.read import result_parts
+    parts = result_parts(path) or [Path(path)]
+    pool = ThreadPoolExecutor(1)
+    first = pool.submit(_export_columns, parts[0])
+    pool.shutdown(wait=False)
+    return parts, first
+
+
+def _export_columns(part: Path):
+    from fitcore.results.read import read_header
+    from fitcore.results.series_columns import series_columns
+    return series_columns(part, read_header(part), list(EXPORTED))
+
+
+def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
+    """What is exported of each series of a Parquet results file or folder (``_columns_ahead``), column by
+    column: per series its key, fingerprint and proposal, the plan numbers of its chosen row, and the cells
+    of one candidate's row — the model it exports (the standing decision's, else the proposal)."""
+    import numpy as np
+
+    from fitcore.arrays import numbers
+    from fitcore.results.read import results_in_parts
+    from fitcore.results.series_columns import check_fields
+    parts, first = ahead
+    for i, part in enumerate(parts):
+        columns = first.result() if i == 0 else _export_columns(part)
+        if not all(_typed(columns.table.schema.field(name).type, kind) for name, kind in
+                   [*((name, "text") for name in columns.key_names), *EXPORTED.items()]):
+            yield from _by_records(results_in_parts(part)[1], book)
+            continue
+        every = np.arange(columns.n_series)
+        key_values = [columns.values(name, 0, every) for name in columns.key_names]
+        keys = [dict(zip(columns.key_names, values)) for values in zip(*key_values)]
+        fields = {name: columns.values(name, 0, every) for name in ("chosen", "fingerprint")}
+        check_fields(part, columns, every, fields, key_values, keys)
+        chosen = fields["chosen"]
+        histories = [book.histories.get(series_id(key)) for key in keys]
+        models = [model_of(history, proposal) for history, proposal in zip(histories, chosen)]
+        place = {name: c for c, name in enumerate(columns.candidates)}
+        at = np.array([place.get(model, -1) for model in models], dtype=np.int64)
+        cands: list[dict | None] = [None] * len(keys)
+        found = np.flatnonzero(at >= 0)
+        if found.size:
+            cells = {name: columns.values(name, at[found], found) for name in
+                     ("family", "coef", "available", "plan_price", "plan_volume", "plan_lo", "plan_hi")}
+            for j, s in enumerate(found.tolist()):
+                priced = cells["plan_price"][j] is not None and cells["available"][j]  # as the record reader
+                cands[s] = {"family": cells["family"][j], "coef": cells["coef"][j],
+                            **({name: cells[name][j] for name in ("plan_volume", "plan_lo", "plan_hi")} if priced
+                               else {})}
+        # the plan: from the last row of a series marked chosen that has a plan price (as the record reader)
+        marked = (numbers(columns.table.column("is_chosen").combine_chunks()) == 1) & \
+            _valid(columns.table.column("plan_price"))
+        marked = marked.reshape(columns.n_series, len(columns.candidates))
+        last = marked.shape[1] - 1 - np.argmax(marked[:, ::-1], axis=1)
+        planned = np.flatnonzero(marked.any(axis=1))
+        plans: list[dict] = [{}] * len(keys)
+        if planned.size:
+            numbers_at = {name: columns.values(name, last[planned], planned)
+                          for name in ("plan_price", "plan_volume", "plan_lo", "plan_hi")}
+            for j, s in enumerate(planned.tolist()):
+                plans[s] = {"price": numbers_at["plan_price"][j], "volume": numbers_at["plan_volume"][j],
+                            "lo": numbers_at["plan_lo"][j], "hi": numbers_at["plan_hi"][j]}
+        yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands)
+
+
+def _typed(kind, expected: str) -> bool:
+    import pyarrow as pa
+    if pa.types.is_dictionary(kind):
+        kind = kind.value_type
+    if expected == "numbers":
+        return pa.types.is_list(kind) and pa.types.is_floating(kind.value_type)
+    return {"text": lambda k: pa.types.is_string(k) or pa.types.is_large_string(k), "bool": pa.types.is_boolean,
+            "number": pa.types.is_floating}[expected](kind)
+
+
+def _valid(column):
+    """(rows,) whether each cell of an Arrow column holds a value."""
+    import numpy as np
+    array = column.combine_chunks()
+    if not array.null_count:
+        return np.ones(len(array), dtype=bool)
+    return np.unpackbits(np.frombuffer(array.buffers()[0], np.uint8), bitorder="little")[
+        array.offset:array.offset + len(array)].astype(bool)
 
 
 def signed_columns(decision: dict) -> tuple[str, str, dict]:
@@ -81,6 +209,17 @@ def signed_columns(decision: dict) -> tuple[str, str, dict]:
         return "", "", {}
     coef = json.dumps(snapshot["coef"]) if snapshot.get("coef") else ""
     return snapshot.get("family") or "", coef, snapshot.get("plan") or {}
+
+
+def coef_text(coef: list) -> str:
+    """``json.dumps(coef)`` of a list of numbers, without its per-call machinery where that is the same text:
+    finite floats are written by their ``repr``, as ``json`` writes them (any other value — NaN, an infinity,
+    null, a whole number — through ``json.dumps``)."""
+    try:
+        text = ", ".join(map(float.__repr__, coef))  # TypeError for anything but floats
+    except TypeError:
+        return json.dumps(coef)
+    return f"[{text}]" if "n" not in text else json.dumps(coef)  # "n": a nan or an inf
 
 
 def carried_from(history) -> str:

@@ -28,10 +28,17 @@ def select(series: list[dict], products: list[str], keys: dict[str, str], flag: 
 
 def in_attention_order(records: list[dict]) -> list[dict]:
     """The records as ``fitcore.review.attention`` orders series."""
-    stops = [sum(f["severity"] == "stop" for f in r["flags"]) for r in records]
-    warns = [len(r["flags"]) - n for r, n in zip(records, stops)]
+    counted: dict[int, tuple[int, int]] = {}  # by flag list: the Parquet list reader shares equal ones
+
+    def stops_warns(flags: list) -> tuple[int, int]:
+        found = counted.get(id(flags))
+        if found is None:
+            stop = sum(f["severity"] == "stop" for f in flags)
+            found = counted[id(flags)] = (stop, len(flags) - stop)
+        return found
+    pairs = [stops_warns(r["flags"]) for r in records]
     scores = [math.nan if r["score"] is None else r["score"] for r in records]
-    return [records[i] for i in attention_order(stops, warns, scores)]
+    return [records[i] for i in attention_order([p[0] for p in pairs], [p[1] for p in pairs], scores).tolist()]
 
 
 def number(x, how=fmt) -> str:
@@ -45,15 +52,24 @@ def percent(share) -> str:
 
 def key_text(key: dict) -> str:
     """A series key as one line of text, control characters replaced."""
-    return SEPARATOR.join(clean(str(v)) for v in key.values())
+    return SEPARATOR.join(map(clean, map(str, key.values())))
+
+
+def flag_codes(flags: list, said: dict) -> str:
+    """The codes of a flag list as a list shows them ("—" for none), remembered in ``said`` by list."""
+    text = said.get(id(flags))
+    if text is None:
+        text = said[id(flags)] = " ".join(f["code"] for f in flags) or "—"
+    return text
 
 
 def table(records: list[dict]) -> str:
     lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'score':>6}  flags"]
+    said: dict[int, str] = {}
     for r in in_attention_order(records):
         score = percent(r["score"])
-        flags = " ".join(f["code"] for f in r["flags"]) or "—"
-        lines.append(f"{key_text(r['key'])[:40]:<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  {flags}")
+        lines.append(f"{key_text(r['key'])[:40]:<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  "
+                     f"{flag_codes(r['flags'], said)}")
     return "\n".join(lines)
 
 

@@ -147,16 +147,22 @@ def check_schema(path: Path, document) -> None:
         raise DataError(f"expected schema {SCHEMA!r}, found {found!r}", path=str(path))
 
 
-def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
+def _read_parquet(path: Path, filters=None, rows: tuple[int, int] | None = None, first: int = 0
+                  ) -> tuple[dict, list[dict]]:
+    """``(header, series)`` of one Parquet file: every row, those ``filters`` keep, or the file rows
+    ``rows`` (``start, stop``: whole series, the first of them series ``first`` of the file)."""
     import pyarrow.parquet as pq
     meta = read_header(path)
     try:
-        table = pq.read_table(path, filters=filters)
+        table = pq.read_table(path, filters=filters) if rows is None else _rows(path, *rows)
+    except OSError as exc:
+        raise DataError(f"cannot read it ({exc.strerror or exc})", path=str(path)) from None
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
         raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
     keys = meta["key_columns"]
     series, current = [], None
-    for r, row in enumerate(table.to_pylist()):
+    offset = rows[0] if rows is not None else 0  # rows are named as the file counts them
+    for r, row in enumerate(table.to_pylist(), start=offset):
         key = {k: row[k] for k in keys}
         if current is None or current["key"] != key:
             try:
@@ -186,10 +192,32 @@ def _read_parquet(path: Path, filters=None) -> tuple[dict, list[dict]]:
                                "hi": row["plan_hi"], "level": meta["settings"]["level"],
                                "elasticity": row["plan_elasticity"],
                                "inside_range": _inside(row["price_lo"], row["plan_price"], row["price_hi"])}
-    for i, record in enumerate(series):
+    for i, record in enumerate(series, start=first):
         check_series(path, i, record)
     meta.pop("key_columns", None)
     return meta, series
+
+
+def _rows(path: Path, start: int, stop: int):
+    """The rows ``start`` to ``stop`` of a Parquet file, every column: only the row groups holding them read."""
+    import pyarrow.parquet as pq
+    reader = pq.ParquetFile(path)
+    groups, first, offset = [], None, 0
+    for g in range(reader.metadata.num_row_groups):
+        n = reader.metadata.row_group(g).num_rows
+        if offset < stop and offset + n > start:
+            groups.append(g)
+            first = offset if first is None else first
+        offset += n
+    table = reader.read_row_groups(groups)
+    reader.close()
+    return table.slice(start - (first or 0), stop - start)
+
+
+def series_record(path: Path, series: int, n_c: int) -> dict:
+    """Series ``series`` (from 0) of the Parquet results file ``path``, ``n_c`` rows a series, as a record
+    of the JSON layout: read from the row groups that hold it, checked as ``read_results`` checks."""
+    return _read_parquet(Path(path), rows=(series * n_c, (series + 1) * n_c), first=series)[1][0]
 
 
 def _inside(lo, price, hi) -> bool:

@@ -29,6 +29,7 @@ from ..review.thresholds import Thresholds
 from .control_fields import CONTROL_COLUMNS, stored_controls
 from .later import LaterColumns
 from .read import CYCLE_COLUMNS, read_header, result_parts
+from .series_columns import check_candidate_rows
 
 # The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
 # ``LATER``: the largest of them, which the list does not need; ``stored_results(later=True)`` leaves them
@@ -208,12 +209,7 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
     lineup = lineup_for(settings)
     cands = lineup.candidates
     n_c = len(cands)
-    if table.num_rows % max(n_c, 1):
-        raise DataError(f"expected {n_c} rows per series, found {table.num_rows} rows", path=str(path))
-    n_s = table.num_rows // n_c if n_c else 0
-    names = [str(v) for v in _column(table, "candidate")[:n_c]]
-    if names != [c.name for c in cands]:
-        raise DataError(f"expected candidates {[c.name for c in cands]}, found {names}", path=str(path))
+    n_s = check_candidate_rows(path, table.column("candidate"), [c.name for c in cands]) if n_c else 0
 
     every = integers(np.arange(0, table.num_rows, max(n_c, 1)))
 
