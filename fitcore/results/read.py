@@ -154,7 +154,8 @@ def _read_parquet(path: Path, filters=None, rows: tuple[int, int] | None = None,
     import pyarrow.parquet as pq
     meta = read_header(path)
     try:
-        table = pq.read_table(path, filters=filters) if rows is None else _rows(path, *rows)
+        table = pq.read_table(path, filters=filters, page_checksum_verification=True) if rows is None \
+            else _rows(path, *rows)
     except OSError as exc:
         raise DataError(f"cannot read it ({exc.strerror or exc})", path=str(path)) from None
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
@@ -201,7 +202,7 @@ def _read_parquet(path: Path, filters=None, rows: tuple[int, int] | None = None,
 def _rows(path: Path, start: int, stop: int):
     """The rows ``start`` to ``stop`` of a Parquet file, every column: only the row groups holding them read."""
     import pyarrow.parquet as pq
-    reader = pq.ParquetFile(path)
+    reader = pq.ParquetFile(path, page_checksum_verification=True)
     groups, first, offset = [], None, 0
     for g in range(reader.metadata.num_row_groups):
         n = reader.metadata.row_group(g).num_rows

@@ -141,7 +141,8 @@ def series_columns(path: Path, header: dict, names) -> SeriesColumns:
     key_names = tuple(header["key_columns"])
     wanted = list(dict.fromkeys([*key_names, "candidate", *names]))
     try:
-        reader = pq.ParquetFile(path)  # not read_table: that imports pyarrow.dataset and pandas
+        # not read_table: that imports pyarrow.dataset and pandas; every page's checksum checked
+        reader = pq.ParquetFile(path, page_checksum_verification=True)
         table = reader.read(columns=wanted)
         reader.close()
     except OSError as exc:

@@ -194,12 +194,17 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
     import pyarrow.parquet as pq
     tables, readers = [], []
     for part, handle in zip(parts, files):
-        reader = pq.ParquetFile(handle)  # not read_table: that imports pyarrow.dataset and pandas (0.3 s)
+        # not read_table: that imports pyarrow.dataset and pandas (0.3 s); every page's checksum checked
+        reader = pq.ParquetFile(handle, page_checksum_verification=True)
         readers.append(reader)
         missing = [name for name in wanted if name not in reader.schema_arrow.names]
         if missing:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
-        tables.append(reader.read(columns=[n for n in wanted if not (later and n in LATER)]))
+        try:
+            tables.append(reader.read(columns=[n for n in wanted if not (later and n in LATER)]))
+        except (OSError, pa.ArrowException) as exc:  # a damaged page (its checksum), a truncated file
+            raise DataError(f"cannot read it ({str(exc).splitlines()[0] if str(exc) else type(exc).__name__})",
+                            path=str(part)) from None
     table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
     cycle = _has_cycle(readers)
     late = LaterColumns(files, [*LATER, *(CYCLE_LATER if cycle else ())], str(parts[0])) if later else None

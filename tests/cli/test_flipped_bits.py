@@ -1,0 +1,76 @@
+"""A changed byte in a results file is an error at every reader, never a quietly different number.
+
+Parquet's page checksums (a CRC-32 of each page, in the format's page header): pricefold writes them and
+every reader of results checks them.  One bit of a number's page is flipped here — in the page's values,
+so the file still parses and, without the checksum, reads back with that number changed (as it did) — and
+each command that reads results must say so in one line naming the file, exit 2, and write nothing.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import pyarrow.parquet as pq
+import pytest
+
+from fitcore.errors import DataError
+from fitcore.results.stored import stored_results
+from pricefold.cli import main
+
+SAMPLE = Path(__file__).resolve().parents[2] / "sample"
+PLAN = ["--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv")]
+
+
+def flipped(good: Path, bad: Path, column: str) -> None:
+    """``bad``: ``good`` with one bit flipped in the middle of ``column``'s first page of values."""
+    meta = pq.ParquetFile(good).metadata.row_group(0)
+    chunk = next(meta.column(i) for i in range(meta.num_columns) if meta.column(i).path_in_schema == column)
+    data = bytearray(good.read_bytes())
+    data[chunk.data_page_offset + chunk.total_compressed_size // 2] ^= 0x40
+    bad.write_bytes(bytes(data))
+
+
+@pytest.fixture(scope="module")
+def files(tmp_path_factory):
+    work = tmp_path_factory.mktemp("flipped")
+    good = work / "good.parquet"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), *PLAN, "-o", str(good), "-q"]) == 0
+    out = {"good": good}
+    for column in ("plan_volume", "score", "window_coef.list.element"):
+        out[column] = work / f"bad-{column.split('.')[0]}.parquet"
+        flipped(good, out[column], column)
+    return out
+
+
+def test_without_the_checksum_the_flip_reads_as_a_changed_number(files):
+    """The premise: the file still parses and one number differs (the check below is what catches it)."""
+    good = pq.read_table(files["good"], columns=["plan_volume"]).column(0).to_pylist()
+    bad = pq.read_table(files["plan_volume"], columns=["plan_volume"]).column(0).to_pylist()
+    assert sum(a != b and not (a != a and b != b) for a, b in zip(good, bad)) == 1
+
+
+@pytest.mark.parametrize("column, command", [  # each flipped in a column the command reads
+    ("score", ["show", "{bad}"]),
+    ("plan_volume", ["show", "{bad}", "--product", "lemons 500 g", "--key", "region=East"]),
+    ("plan_volume", ["ledger", "export", "{ledger}", "--results", "{bad}", "-o", "{out}"]),
+    ("window_coef", ["ledger", "accept-unflagged", "{bad}", "--ledger", "{ledger}", "-q"]),
+    ("plan_volume", ["report", "{bad}", "--ledger", "{ledger}", "-o", "{out}"]),
+])
+def test_every_command_refuses_a_flipped_number_in_one_line(files, tmp_path, capsys, column, command):
+    ledger, out = tmp_path / "ledger.jsonl", tmp_path / "out.html"
+    assert main(["ledger", "accept-unflagged", str(files["good"]), "--ledger", str(ledger), "-q"]) == 0
+    before = ledger.read_bytes()
+    capsys.readouterr()
+    bad = files[next(name for name in files if name.split(".")[0] == column)]
+    assert main([part.format(bad=bad, ledger=ledger, out=out) for part in command]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and str(bad) in err and "checksum" in err, err
+    assert ledger.read_bytes() == before and not out.exists()
+
+
+def test_the_triage_screens_reader_refuses_it_too_and_the_columns_read_behind_the_list(files):
+    with pytest.raises(DataError, match="checksum"):
+        stored_results(files["plan_volume"])
+    results, _ = stored_results(files["window_coef.list.element"], later=True)  # the list's columns are whole
+    results.later.start()
+    with pytest.raises(DataError, match="checksum"):
+        results.later.table()
