@@ -113,6 +113,9 @@ def run_show(args) -> int:
         if not sep:
             raise SettingsError(f"expected --key COL=VALUE, got {item!r}")
         keys[name] = value
+    from fitcore.review.flags import CODES
+    if args.flag is not None and args.flag not in CODES:
+        raise SettingsError(f"expected --flag to be one of {', '.join(CODES)}; got {args.flag!r}")
     with collector_paused():  # a record a series and no cycles among them: at 100k, collections were half the time
         return _show(args, keys)
 

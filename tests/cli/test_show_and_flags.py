@@ -134,3 +134,12 @@ def test_show_filters_a_parquet_results_file_as_it_reads_it(tmp_path, capsys):
         shown.append(capsys.readouterr().out)
     assert shown[0] == shown[1] and shown[0].startswith("lemons 500 g · East")
     assert main(["show", str(tmp_path / "r.parquet"), "--key", "aisle=3"]) == 1
+
+
+def test_an_unknown_flag_code_is_named_with_the_known_ones(fitted):
+    """'--flag NARROW' matched nothing and said only that (exit 1): a typo looked like a clean file."""
+    path, _ = fitted["parquet"]
+    done = run_cli("show", str(path), "--flag", "narrow-range")
+    assert done.returncode == 2 and done.stdout == ""
+    assert done.stderr.strip() == (f"pricefold show: expected --flag to be one of {', '.join(CODES)}; "
+                                   "got 'narrow-range'")
