@@ -148,7 +148,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
     """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list."""
     from fitcore.review.sentences import shift_sentence
 
-    from .show import detail, in_attention_order, key_text
+    from .show import detail, in_attention_order, key_cell
     book = open_ledger(ledger_path, must_exist=True)
     if len(records) == 1:
         record = records[0]
@@ -164,7 +164,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
         ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
         cover = f"{bt['coverage'] * 100:.0f}%" if bt.get("coverage") is not None else "—"
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
-        lines.append(f"{key_text(record['key'])[:40]:<40} {record['n']:>5} {record['chosen'] or '—':<7} "
+        lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {record['chosen'] or '—':<7} "
                      f"{status:<19} {(needs or '—')[:16]:<16} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
 

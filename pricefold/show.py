@@ -55,6 +55,18 @@ def key_text(key: dict) -> str:
     return SEPARATOR.join(map(clean, map(str, key.values())))
 
 
+def key_cell(key: dict, width: int = 40) -> str:
+    """``key_text`` in at most ``width`` characters for a list's column: a long product name gives way and
+    its segments stay, so rows that differ only in a segment stay apart (as in the triage list)."""
+    parts = [clean(str(v)) for v in key.values()]
+    full = SEPARATOR.join(parts)
+    if len(full) <= width or len(parts) < 2:
+        return full[:width]
+    tail = SEPARATOR + SEPARATOR.join(parts[1:])
+    room = width - len(tail)
+    return parts[0][:room - 1] + "…" + tail if room >= 4 else "…" + tail[len(tail) - width + 1:]
+
+
 def flag_codes(flags: list, said: dict) -> str:
     """The codes of a flag list as a list shows them ("—" for none), remembered in ``said`` by list."""
     text = said.get(id(flags))
@@ -68,7 +80,7 @@ def table(records: list[dict]) -> str:
     said: dict[int, str] = {}
     for r in in_attention_order(records):
         score = percent(r["score"])
-        lines.append(f"{key_text(r['key'])[:40]:<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  "
+        lines.append(f"{key_cell(r['key']):<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  "
                      f"{flag_codes(r['flags'], said)}")
     return "\n".join(lines)
 

@@ -143,3 +143,14 @@ def test_an_unknown_flag_code_is_named_with_the_known_ones(fitted):
     assert done.returncode == 2 and done.stdout == ""
     assert done.stderr.strip() == (f"pricefold show: expected --flag to be one of {', '.join(CODES)}; "
                                    "got 'narrow-range'")
+
+
+def test_a_long_product_name_gives_way_to_its_segments_in_a_list():
+    """The list's 40-character column kept the name's first 40 characters and dropped the region."""
+    from pricefold.show import key_cell, table
+    record = {"n": 30, "chosen": "poly1", "score": 0.5, "flags": []}
+    rows = table([{**record, "key": {"product": "x" * 500, "region": region}} for region in ("North", "South")])
+    names = [line[:40] for line in rows.splitlines()[1:]]
+    assert names == ["x" * 31 + "… · North", "x" * 31 + "… · South"]
+    assert key_cell({"product": "lemons", "region": "East"}) == "lemons · East"
+    assert key_cell({"product": "p", "region": "r" * 60}, 10) == "…" + "r" * 9
