@@ -242,8 +242,9 @@ def test_a_ledger_that_is_not_a_file_is_one_line(tmp_path, results, kind):
 def _killable_bulk(results, ledger_path, ready):
     from pricefold.cli import main
     from tests.fitcore.ledger_support import slow_disk
-    slow_disk(chunk=1024)
-    ready.set()
+    # the kill is timed from the first write, not from the start: on a busy machine reading the results and
+    # the ledger took longer than the kill's window, and every kill fell before the append (flaky)
+    slow_disk(chunk=1024, first=ready.set)
     main(["ledger", "accept-unflagged", str(results), "--ledger", str(ledger_path), "-q"])
 
 

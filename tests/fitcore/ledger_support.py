@@ -43,12 +43,17 @@ def run_together(target, arguments, timeout=60) -> list[int]:
     return [w.exitcode for w in workers]
 
 
-def slow_disk(chunk=4096):
+def slow_disk(chunk=4096, first=None):
     """In this process, ``os.write`` lands at most ``chunk`` bytes a call, a little later each time
-    (a slow or network disk): a kill then falls inside an append often, not once in thousands."""
+    (a slow or network disk): a kill then falls inside an append often, not once in thousands.
+    ``first``: called at the first write (so a kill can be timed from there, whatever came before)."""
     real = os.write
 
     def write(fd, data):
+        nonlocal first
+        if first is not None:
+            first, call = None, first
+            call()
         time.sleep(0.0002)
         return real(fd, bytes(data[:chunk]))
     os.write = write
