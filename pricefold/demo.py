@@ -109,7 +109,8 @@ def naming(table, data: str, plan: str):
     header = json.loads(table.schema.metadata[b"pricefold"])
     header["input"]["path"] = data
     header["settings"]["plan"]["file"] = plan
-    return table.replace_schema_metadata({b"pricefold": json.dumps(header).encode()}), header
+    from fitcore.results.checks import header_metadata
+    return table.replace_schema_metadata(header_metadata(header)), header
 
 
 def compile_elsewhere() -> None:

@@ -6,6 +6,8 @@ every flag's severity); the numbers themselves are taken as written.
 """
 from __future__ import annotations
 
+import hashlib
+import json
 from pathlib import Path
 
 from ..errors import DataError
@@ -130,3 +132,22 @@ def check_series(path: Path, index: int, record) -> None:
     _field(path, where, record, "fingerprint", lambda v: isinstance(v, str), "text")
     _check_plan(path, where, record)
     _field(path, where, record, "revenue_price", _number, "a number or null", optional=True)
+
+
+# The header of a Parquet results file is schema metadata, outside every page's checksum: its SHA-256 beside it.
+HEADER, HEADER_SHA256 = b"pricefold", b"pricefold_sha256"
+
+
+def header_metadata(header: dict) -> dict:
+    """The schema metadata holding ``header`` (JSON) and the SHA-256 of that JSON."""
+    text = json.dumps(header).encode()
+    return {HEADER: text, HEADER_SHA256: hashlib.sha256(text).hexdigest().encode()}
+
+
+def check_header_digest(path: Path, metadata: dict) -> None:
+    """A header whose SHA-256 is beside it (every file since it was) must match it: a flipped bit there changed
+    the interval level that ``show`` printed and ``accept-unflagged`` signed.  (An older file has none.)"""
+    said = metadata.get(HEADER_SHA256)
+    if said is not None and hashlib.sha256(metadata.get(HEADER, b"")).hexdigest().encode() != said:
+        raise DataError("its pricefold header does not match the checksum written beside it (a damaged file)",
+                        path=str(path))

@@ -16,7 +16,7 @@ from ..data.columns import is_parquet_name
 from ..data.textfile import regular_or_folder
 from ..errors import DataError
 from ..fit.results import SCHEMA
-from .checks import PARQUET_COLUMNS, check_header, check_series, check_unique_keys
+from .checks import PARQUET_COLUMNS, check_header, check_header_digest, check_series, check_unique_keys
 from .control_fields import record_fields
 
 RUN_SUMMARY = "_summary.json"
@@ -114,6 +114,7 @@ def read_header(path: str | Path) -> dict:
         schema = pq.read_schema(path)
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
         raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
+    check_header_digest(path, schema.metadata or {})
     try:
         meta = json.loads((schema.metadata or {}).get(b"pricefold", b"null"))
     except (UnicodeDecodeError, json.JSONDecodeError):

@@ -15,6 +15,7 @@ import numpy as np
 from ..fit.results import Results
 from ..review.intervals import BLOCK
 from . import control_fields, cycle
+from .checks import header_metadata
 
 # Rows a slice aims at (whole series, whole ``BLOCK``s of them: the covariances' blocks; at 7 candidates one
 # block, 28,672 rows, ~7 MiB of columns).  Smaller slices, less in memory: the fit's peak at 2M rows 445 →
@@ -58,7 +59,7 @@ class ResultsTable:
         """``header``: the file's header (``write.header``), kept in the schema metadata."""
         import pyarrow as pa
         data = results.data
-        self.metadata = {b"pricefold": json.dumps(header | {"key_columns": list(data.key_names)}).encode()}
+        self.metadata = header_metadata(header | {"key_columns": list(data.key_names)})
         texts = {name: _text(data.keys[name]) for name in data.key_names}
         texts["flags"] = flag_texts(results, diagnosis)
         texts["fingerprint"] = _text(data.fingerprints)

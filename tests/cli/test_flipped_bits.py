@@ -74,3 +74,22 @@ def test_the_triage_screens_reader_refuses_it_too_and_the_columns_read_behind_th
     results.later.start()
     with pytest.raises(DataError, match="checksum"):
         results.later.table()
+
+
+def test_a_changed_header_is_refused_by_its_checksum(files, tmp_path, capsys):
+    """The header (settings, the interval level…) sits in the footer, outside the pages' checksums: a flip
+    there turned a level of 0.95 into 0.85, which show printed and accept-unflagged signed.  Its SHA-256 is
+    written beside it; here the header says 0.85 and the checksum is still the 0.95 one's."""
+    table = pq.read_table(files["good"])
+    meta = dict(table.schema.metadata)
+    meta[b"pricefold"] = meta[b"pricefold"].replace(b'"level": 0.95', b'"level": 0.85')
+    assert meta[b"pricefold"] != table.schema.metadata[b"pricefold"]
+    bad, ledger = tmp_path / "level.parquet", tmp_path / "ledger.jsonl"
+    pq.write_table(table.replace_schema_metadata(meta), bad)
+    for argv in (["show", str(bad), "--product", "lemons 500 g", "--key", "region=East"],
+                 ["ledger", "accept-unflagged", str(bad), "--ledger", str(ledger), "-q"]):
+        capsys.readouterr()
+        assert main(argv) == 2
+        err = capsys.readouterr().err
+        assert err.count("\n") == 1 and str(bad) in err and "does not match the checksum" in err, err
+    assert not ledger.exists()
