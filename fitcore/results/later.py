@@ -42,7 +42,8 @@ class LaterColumns:
 
     @property
     def ready(self) -> bool:
-        return self._done.is_set()
+        """Read, and read whole: after a failed read the columns never become usable (``table`` says why)."""
+        return self._done.is_set() and self._error is None
 
     def wait(self) -> None:
         """Until the read is done, without starting it."""
@@ -52,7 +53,8 @@ class LaterColumns:
         self.start()
         self._done.wait()
         if self._error is not None:
-            raise DataError(f"could not read the rest of the results ({self._error})", path=self._where)
+            why = str(self._error).strip().splitlines()[0] if str(self._error).strip() else type(self._error).__name__
+            raise DataError(f"could not read the rest of the results ({why})", path=self._where)
         return self._table
 
     def column(self, name: str) -> "Later":

@@ -13,6 +13,7 @@ from pathlib import Path
 import numpy as np
 
 from ..data.columns import is_parquet_name
+from ..data.read_parquet import first_line
 from ..data.textfile import regular_or_folder
 from ..errors import DataError
 from ..fit.results import SCHEMA
@@ -158,7 +159,7 @@ def _read_parquet(path: Path, filters=None, rows: tuple[int, int] | None = None,
         table = pq.read_table(path, filters=filters, page_checksum_verification=True) if rows is None \
             else _rows(path, *rows)
     except OSError as exc:
-        raise DataError(f"cannot read it ({exc.strerror or exc})", path=str(path)) from None
+        raise DataError(f"cannot read it ({exc.strerror or first_line(exc)})", path=str(path)) from None
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
         raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
     keys = meta["key_columns"]

@@ -17,6 +17,7 @@ import numpy as np
 
 from ..arrays import integers, numbers, objects
 from ..data.dataset import Dataset
+from ..data.read_parquet import first_line
 from ..errors import DataError
 from ..fit import reasons
 from ..fit.basis import window
@@ -182,11 +183,20 @@ def stored_results(path: str | Path, later: bool = False) -> tuple[StoredResults
     return opened
 
 
+def _read(reader, part: Path, columns: list[str]):
+    """``columns`` of one part; a damaged page (its checksum) or a truncated file is one line naming the part."""
+    import pyarrow as pa
+    try:
+        return reader.read(columns=columns)
+    except (OSError, pa.ArrowException) as exc:
+        raise DataError(f"cannot read it ({first_line(exc)})", path=str(part)) from None
+
+
 def _open(part: Path):
     try:
         return open(part, "rb")
     except OSError as exc:
-        raise DataError(f"cannot read it ({exc.strerror or exc})", path=str(part)) from None
+        raise DataError(f"cannot read it ({exc.strerror or first_line(exc)})", path=str(part)) from None
 
 
 def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, files: list, later: bool):
@@ -200,11 +210,7 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         missing = [name for name in wanted if name not in reader.schema_arrow.names]
         if missing:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
-        try:
-            tables.append(reader.read(columns=[n for n in wanted if not (later and n in LATER)]))
-        except (OSError, pa.ArrowException) as exc:  # a damaged page (its checksum), a truncated file
-            raise DataError(f"cannot read it ({str(exc).splitlines()[0] if str(exc) else type(exc).__name__})",
-                            path=str(part)) from None
+        tables.append(_read(reader, part, [n for n in wanted if not (later and n in LATER)]))
     table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
     cycle = _has_cycle(readers)
     late = LaterColumns(files, [*LATER, *(CYCLE_LATER if cycle else ())], str(parts[0])) if later else None
@@ -264,8 +270,8 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         fold_lists=column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
         controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late)
     if cycle:
-        results = _with_cycle_fields(results, _optional(readers, () if late is None else CYCLE_LATER), n_s, n_c,
-                                     lineup.width, column if late is not None else None)
+        read_now = _optional(readers, parts, () if late is None else CYCLE_LATER)
+        results = _with_cycle_fields(results, read_now, n_s, n_c, lineup.width, column if late is not None else None)
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     return results, StoredDiagnosis(results, thresholds, _raised(table, n_s, n_c), {}, per_series_text("flags"))
 
@@ -308,15 +314,15 @@ def _has_cycle(readers) -> bool:
     return all(all(name in reader.schema_arrow.names for name in CYCLE) for reader in readers)
 
 
-def _optional(readers, leave_out=()):
+def _optional(readers, parts, leave_out=()):
     """The cycle columns of every part (its ``pq.ParquetFile``; but ``leave_out``), with the backtest columns
     where written."""
     import pyarrow as pa
     tables = []
-    for reader in readers:
+    for reader, part in zip(readers, parts):
         names = reader.schema_arrow.names
-        tables.append(reader.read(columns=[n for n in CYCLE if n not in leave_out]
-                                  + [n for n in names if n.startswith("backtest_")]))
+        tables.append(_read(reader, part, [n for n in CYCLE if n not in leave_out]
+                            + [n for n in names if n.startswith("backtest_")]))
     return pa.concat_tables(tables) if len(tables) > 1 else tables[0]
 
 
