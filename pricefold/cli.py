@@ -132,6 +132,13 @@ def _show(args, keys: dict) -> int:
         header, parts = results_in_parts(args.results, args.product, keys)  # filtered as read
         picked = [record for series in parts for record in select(series, args.product, keys, args.flag)]
     if not picked:
+        columns = header.get("settings", {}).get("columns") or {}
+        names = [columns["product"], *columns.get("segments", [])] if columns.get("product") else []
+        unknown = [name for name in keys if names and name not in names]
+        if unknown:
+            from fitcore.errors import SettingsError
+            raise SettingsError(f"these results have no key column {unknown[0]!r}; their key columns: "
+                                f"{', '.join(names)}")
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
         return 1
     binary = (header.get("settings", {}).get("controls") or {}).get("binary", [])

@@ -154,3 +154,14 @@ def test_a_long_product_name_gives_way_to_its_segments_in_a_list():
     assert names == ["x" * 31 + "… · North", "x" * 31 + "… · South"]
     assert key_cell({"product": "lemons", "region": "East"}) == "lemons · East"
     assert key_cell({"product": "p", "region": "r" * 60}, 10) == "…" + "r" * 9
+
+
+@pytest.mark.parametrize("suffix", ["json", "parquet"])
+def test_a_key_column_the_results_do_not_have_is_named(fitted, suffix):
+    """'--key store=3' on results keyed by product and region matched nothing and said only that."""
+    path, _ = fitted[suffix]
+    done = run_cli("show", str(path), "--key", "store=3")
+    assert done.returncode == 2
+    assert done.stderr.strip() == ("pricefold show: these results have no key column 'store'; their key columns: "
+                                   "product, region")
+    assert run_cli("show", str(path), "--key", "region=Atlantis").returncode == 1  # a value: no match, as before
