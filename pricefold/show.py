@@ -109,6 +109,13 @@ def control_lines(record: dict, binary=()) -> list[str]:
     return out
 
 
+def slope(plan: dict) -> str:
+    """The elasticity at the plan price, where it means something: not at a volume at or below zero."""
+    if plan["volume"] is not None and plan["volume"] <= 0:
+        return "no elasticity (the volume is not above zero)"
+    return f"elasticity {number(plan['elasticity'], lambda e: f'{e:.2f}')}"
+
+
 def detail(record: dict, binary=()) -> str:
     """One series in full; ``binary``: the 0/1 controls of the results (the header's settings)."""
     lo, hi = record["price_range"]
@@ -135,7 +142,7 @@ def detail(record: dict, binary=()) -> str:
         where = "" if plan["inside_range"] else " — outside the observed prices: an extrapolation"
         out.append(f"plan price {number(plan['price'], money)}: volume {number(plan['volume'])} "
                    f"({percent(plan['level'])} prediction interval {number(plan['lo'])} to {number(plan['hi'])}), "
-                   f"elasticity {number(plan['elasticity'], lambda e: f'{e:.2f}')}{where}")
+                   f"{slope(plan)}{where}")
     if record.get("revenue_price") is not None:
         out.append(f"revenue-maximising price within the observed range: {money(record['revenue_price'])}")
     return "\n".join(out)

@@ -228,7 +228,7 @@ def test_a_curve_far_out_at_a_distant_plan_price_runs_off_the_chart_not_over_the
     import fitcore
     from tui.widgets.charts import volume_window
     results, _ = fit_source(sample_source())
-    far = fitcore.fit_batch(results.data, results.settings, plan_price=np.asarray(results.price_hi) * 3)
+    far = fitcore.fit_batch(results.data, results.settings, plan_price=np.asarray(results.price_hi) * 1.9)
     names = far.names
     s = next(i for i in range(far.n_series) if names[int(far.chosen[i])] == "poly5")
     rows = slice(far.data.offsets[s], far.data.offsets[s + 1])
@@ -242,3 +242,19 @@ def test_a_curve_far_out_at_a_distant_plan_price_runs_off_the_chart_not_over_the
     # nothing to cut where every drawn volume is near the observed ones (none is beyond half their span)
     assert volume_window([np.array([10.0, 20.0])], [np.array([5.0, 25.0])]) is None
     assert volume_window([np.array([10.0, 20.0])], [np.array([-500.0, 20.0])]) == (5.0, 25.0)
+
+
+
+def test_a_plan_price_far_beyond_the_observed_ones_is_not_on_the_price_axis():
+    """Prices of 2 to 4 and a plan at 1,000: the axis stayed on the observations and says where the plan is."""
+    import fitcore
+    from tui.widgets.charts import on_chart
+    results, _ = fit_source(sample_source())
+    far = fitcore.fit_batch(results.data, results.settings, plan_price=np.asarray(results.price_hi) * 250)
+    s = 0
+    chart = curve_chart(far, s, 70, 16, int(far.chosen[s]), {})
+    body, legend = chart.plain.rsplit("\n", 1)
+    ticks = [float(t) for t in re.findall(r"\d+\.\d+", body.splitlines()[-2])]
+    assert max(ticks) <= far.price_hi[s] * 1.2 and "off the chart" in legend
+    assert on_chart(5.0, 2.0, 4.0) and on_chart(1.0, 2.0, 4.0) and not on_chart(8.1, 2.0, 4.0)
+    assert not on_chart(0.9, 2.0, 4.0) and not on_chart(float("nan"), 2.0, 4.0)

@@ -56,7 +56,7 @@ def candidate_rows(results: Results, s: int, diagnosis: Diagnosis) -> list[Candi
             q2=f"{results.q2[s, c] * 100:.0f}%",
             volume=fmt(results.plan_volume[s, c]) if planned else "—",
             interval=f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}" if planned else "—",
-            elasticity=f"{results.plan_elasticity[s, c]:.2f}" if planned else "—",
+            elasticity=f"{results.plan_elasticity[s, c]:.2f}" if planned and results.plan_volume[s, c] > 0 else "—",
             flags=candidate_checks(results, s, c, thresholds, outside).codes, proposed=c == results.chosen[s]))
     return rows
 

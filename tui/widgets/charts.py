@@ -53,9 +53,16 @@ def _finish() -> Text:
     return Text.from_ansi(plt.build())
 
 
+def on_chart(plan: float, lo: float, hi: float) -> bool:
+    """Whether the price axis reaches out to the plan price: not beyond half the lowest observed price or twice
+    the highest (prices of 2 to 4 with a plan at 1,000 put every observation in one column)."""
+    return bool(np.isfinite(plan) and lo / 2 <= plan <= hi * 2)
+
+
 def price_grid(lo: float, hi: float, plan: float, positive: bool) -> np.ndarray:
-    """Prices to draw over: the observed range and the plan price, with a margin of 8% either side."""
-    if np.isfinite(plan):
+    """Prices to draw over: the observed range and the plan price (``on_chart``), with a margin of 8% either
+    side."""
+    if on_chart(plan, lo, hi):
         lo, hi = min(lo, plan), max(hi, plan)
     pad = (hi - lo) * 0.08 or max(abs(hi) * 0.05, 0.01)
     start = lo - pad
@@ -83,7 +90,7 @@ def volume_window(inside: list[np.ndarray], everything: list[np.ndarray]) -> tup
 
 def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict,
                 adjusted: bool = False, signed: dict | None = None, unobserved: str | None = None) -> Text:
-    """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its 95% band
+    """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its prediction band
     (dotted) and the plan price (a vertical line).  ``adjusted``: with controls, each observation's volume
     moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn.
     ``signed``: the snapshot of a curve signed on earlier data, drawn beside them (dash-dot), and the rows
@@ -119,7 +126,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     window = volume_window([volume, *(ys[observed] for ys, _, _ in lines)], [volume, *(ys for ys, _, _ in lines)])
     for ys, marker, colour in lines:
         plt.plot(*_finite(xs, _inside(ys, window)), marker=marker, color=colour)
-    if np.isfinite(plan):
+    shown_plan = on_chart(plan, float(results.price_lo[s]), float(results.price_hi[s]))
+    if shown_plan:
         plt.vline(plan, PLAN)
     if len(price):  # observations last, so that curves through them do not hide them
         plt.scatter(*_finite(price[~new], volume[~new]), marker="•", color=OBSERVED)
@@ -148,13 +156,15 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     if other >= 0:
         legend.append(f"   -- {names[other]} ({'proposed' if other == chosen else 'runner-up'})", _colour(OTHER))
     if model >= 0 and results.rows_loaded:
-        legend.append("   ·· 95% prediction band", _colour(BAND))
+        legend.append(f"   ·· {results.settings.level:.0%} prediction band", _colour(BAND))
     if signed is not None:
         legend.append(f"   ++ signed {signed['candidate']} (data to {signed.get('last_date') or '?'})", _colour(SIGNED))
         if new.any():
             legend.append(f"   × {int(new.sum())} new since", _colour(NEW))
-    if np.isfinite(plan):
+    if shown_plan:
         legend.append("   │ plan price", _colour(PLAN))
+    elif np.isfinite(plan):
+        legend.append(f"   plan price {plan:,.2f}: off the chart, far beyond the observed prices", _colour(PLAN))
     if window is not None:
         legend.append("   (curves run off the chart away from the observed prices)", "dim")
     return Text("\n").join([chart, legend])

@@ -222,9 +222,13 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if c >= 0 and math.isfinite(plan):
             text.append(f"Plan price {self.price(plan)}, {plan_position(plan, lo, hi)}.\n")
             text.append(f"  {gauge(plan, lo, hi)}\n", style="dim")
-            text.append(f"{results.names[c]} predicts volume {self.volume(results.plan_volume[s, c])} "
-                        f"(95% PI {fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}), "
-                        f"elasticity {results.plan_elasticity[s, c]:.2f}.")
+            volume = float(results.plan_volume[s, c])
+            # an elasticity is a ratio of relative changes: at a volume at or below zero it means nothing
+            slope = f"elasticity {results.plan_elasticity[s, c]:.2f}" if volume > 0 else \
+                "no elasticity (the volume is not above zero)"
+            text.append(f"{results.names[c]} predicts volume {self.volume(volume)} "
+                        f"({results.settings.level:.0%} PI {fmt(results.plan_lo[s, c])} to "
+                        f"{fmt(results.plan_hi[s, c])}), {slope}.")
             if not lo <= plan <= hi:
                 text.append(" An extrapolation.", style=SEVERITY_STYLE["stop"])
             text.append("\n")
