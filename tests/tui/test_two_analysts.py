@@ -170,3 +170,29 @@ async def test_undo_never_withdraws_a_decision_another_analyst_made_since(ledger
         await pa.press("u")
         await pa.pause()
         assert [r["action"] for r in records(ledger_path)] == ["hold", "hold"]
+
+
+async def test_a_note_the_ledger_refused_fills_the_next_note_box_on_that_series(ledger_path):
+    """bo typed a reason into his hold while ana's note on the series landed: the refusal kept bo's words, and
+    his next note box on the series starts with them (a trial had to type a refused note again)."""
+    from tui.screens.dialogs import TextDialog
+    ana, bo = make_app(ledger_path), make_app(ledger_path, who=BO)
+    async with ana.run_test(size=(120, 40)) as pa, bo.run_test(size=(120, 40)) as pb:
+        session, s = await both_on(ana, pa, bo, pb, "lemons 500 g · East")
+        await pb.pause()
+        await pb.press("h", *"buyer says the plan moves")  # bo's note dialog is open, typed in
+        await pa.press("n", *"asked", "enter")
+        await until(pb, lambda: len(session.history(s)) == 1)  # bo's screen has looked again
+        await pb.press("enter")
+        await pb.pause()
+        assert "Not recorded" in screen_text(bo) and "Your note is kept" in screen_text(bo)
+        await pb.press("escape")  # the refusal closed
+        await pb.pause()
+        await pb.press("h")
+        await pb.pause()
+        assert isinstance(bo.screen, TextDialog) and bo.screen.query_one("#dialog-input").value == \
+            "buyer says the plan moves"
+        await pb.press("enter")
+        await pb.pause()
+        assert [(r["analyst"], r["action"], r.get("note")) for r in records(ledger_path)] == \
+            [("ana", "note", "asked"), ("bo", "hold", "buyer says the plan moves")]

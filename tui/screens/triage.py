@@ -70,6 +70,7 @@ class TriageScreen(Screen):
         self._told: str | None = None  # the last record by someone else this screen has told about
         self._status_lines: int | None = None
         self._waiting_key: tuple | None = None  # (action, shown): a key pressed before the results were all read
+        self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -172,9 +173,14 @@ class TriageScreen(Screen):
         try:
             self.session.decide(shown, action, model=model, note=note)
         except PricefoldError as exc:  # refused by the screen or by the ledger's rules, or not written
-            self.app.push_screen(MessageDialog(Text(f"Not recorded: {clean(str(exc))}", style="bold")))
+            kept = ""
+            if note:  # typed for nothing otherwise: the next note box on this series starts with it
+                self._unsaid[shown.sid] = note
+                kept = "\n\nYour note is kept: the next note box on this series starts with it."
+            self.app.push_screen(MessageDialog(Text(f"Not recorded: {clean(str(exc))}{kept}", style="bold")))
             self.refresh_all()  # the series as the ledger has it now
             return
+        self._unsaid.pop(shown.sid, None)
         s = self.session.index_of(shown)
         what = f" {model}" if action == "override" else ""
         self.notify(f"{TOLD[action]}{what}: {self.session.label(s)}", markup=False, timeout=3)
@@ -185,8 +191,11 @@ class TriageScreen(Screen):
         self.refresh_all()
 
     def ask(self, title: str, placeholder: str, required: bool, then) -> None:
-        """A note dialog; ``then(note)`` unless cancelled."""
-        self.app.push_screen(TextDialog(title, placeholder, required=required),
+        """A note dialog (holding the note the ledger last refused on this series); ``then(note)`` unless
+        cancelled."""
+        shown = self.session.shown
+        value = self._unsaid.get(shown.sid, "") if shown is not None else ""
+        self.app.push_screen(TextDialog(title, placeholder, required=required, value=value),
                              lambda note: None if note is None else then(note))
 
     def still_reading(self, action: str) -> bool:
