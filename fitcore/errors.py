@@ -35,3 +35,9 @@ class DataError(PricefoldError, ValueError):
             f"line {line}" if line is not None else None,
             f"column {column!r}" if column else None) if part)
         super().__init__(f"{where}: {message}" if where else message)
+
+
+def first_line(exc: BaseException) -> str:
+    """The first line of an exception's message (a library's may span several), or its type's name."""
+    text = str(exc).strip()
+    return text.splitlines()[0] if text else type(exc).__name__

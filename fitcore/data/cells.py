@@ -12,7 +12,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from ..errors import DataError
+from ..errors import DataError, first_line
 from .columns import Columns
 from .validation import FIRST_DAY, LAST_DAY, RawRows
 
@@ -51,7 +51,7 @@ def raw_from_columns(parts: dict, columns: Columns, line: np.ndarray, path=None,
         try:
             out = how(parts[name] if uses[name] else parts.pop(name))
         except (pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError) as exc:
-            trouble = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+            trouble = first_line(exc)
             raise DataError(f"expected UTF-8 text, numbers or dates; found cells Arrow cannot convert ({trouble})",
                             path=path and str(path), column=name) from None
         give_back_arrow_memory()

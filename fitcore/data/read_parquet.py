@@ -6,7 +6,7 @@ from pathlib import Path
 import numpy as np
 import pyarrow as pa
 
-from ..errors import DataError
+from ..errors import DataError, first_line
 from .cells import columns_of, raw_from_columns
 from .columns import Columns
 
@@ -48,6 +48,3 @@ def read_parquet_rows(path: Path, columns: Columns, schema=None):
     parts, table = columns_of(table, columns), None  # each column freed once converted
     return raw_from_columns(parts, columns, np.arange(1, n_rows + 1, dtype=np.int64), path)
 
-
-def first_line(exc: Exception) -> str:
-    return str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__

@@ -16,7 +16,7 @@ import sys
 import zlib
 from pathlib import Path
 
-from ..errors import DataError
+from ..errors import DataError, first_line
 
 GZIP_MAGIC = b"\x1f\x8b"
 DELIMITERS = (",", ";", "\t", "|")
@@ -64,7 +64,7 @@ def check_text(path: Path) -> None:
 
 def compressed_trouble(exc: BaseException) -> str:
     """What went wrong reading a (possibly compressed) file, in a few words."""
-    text = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+    text = first_line(exc)
     if isinstance(exc, EOFError) or "truncated" in text.lower() or "end-of-stream" in text.lower():
         return "the compressed file is cut short"
     if isinstance(exc, (zlib.error, gzip.BadGzipFile)) or "gzip" in text.lower() or "zlib" in text.lower():

@@ -1,7 +1,7 @@
 """Columns of a results file read in a thread, so that what a screen needs first is back sooner."""
 from __future__ import annotations
 
-from ..errors import DataError
+from ..errors import DataError, first_line
 
 
 class LaterColumns:
@@ -53,8 +53,7 @@ class LaterColumns:
         self.start()
         self._done.wait()
         if self._error is not None:
-            why = str(self._error).strip().splitlines()[0] if str(self._error).strip() else type(self._error).__name__
-            raise DataError(f"could not read the rest of the results ({why})", path=self._where)
+            raise DataError(f"could not read the rest of the results ({first_line(self._error)})", path=self._where)
         return self._table
 
     def column(self, name: str) -> "Later":

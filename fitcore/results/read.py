@@ -13,9 +13,8 @@ from pathlib import Path
 import numpy as np
 
 from ..data.columns import is_parquet_name
-from ..data.read_parquet import first_line
 from ..data.textfile import regular_or_folder
-from ..errors import DataError
+from ..errors import DataError, first_line
 from ..fit.results import SCHEMA
 from .checks import PARQUET_COLUMNS, check_header, check_header_digest, check_series, check_unique_keys
 from .control_fields import record_fields
@@ -114,7 +113,7 @@ def read_header(path: str | Path) -> dict:
     try:
         schema = pq.read_schema(path)
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
-        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
+        raise DataError(f"expected a pricefold results file ({first_line(exc)})", path=str(path)) from None
     check_header_digest(path, schema.metadata or {})
     try:
         meta = json.loads((schema.metadata or {}).get(b"pricefold", b"null"))
@@ -161,7 +160,7 @@ def _read_parquet(path: Path, filters=None, rows: tuple[int, int] | None = None,
     except OSError as exc:
         raise DataError(f"cannot read it ({exc.strerror or first_line(exc)})", path=str(path)) from None
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
-        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
+        raise DataError(f"expected a pricefold results file ({first_line(exc)})", path=str(path)) from None
     keys = meta["key_columns"]
     series, current = [], None
     offset = rows[0] if rows is not None else 0  # rows are named as the file counts them

@@ -16,8 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from ..arrays import integers, numbers, objects
-from ..data.read_parquet import first_line
-from ..errors import DataError
+from ..errors import DataError, first_line
 
 
 def is_text(kind) -> bool:
@@ -149,7 +148,7 @@ def series_columns(path: Path, header: dict, names) -> SeriesColumns:
     except OSError as exc:
         raise DataError(f"cannot read it ({exc.strerror or first_line(exc)})", path=str(path)) from None
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
-        raise DataError(f"expected a pricefold results file ({str(exc).splitlines()[0]})", path=str(path)) from None
+        raise DataError(f"expected a pricefold results file ({first_line(exc)})", path=str(path)) from None
     candidates = candidate_names(header)
     check_candidate_rows(path, table.column("candidate"), candidates)
     return SeriesColumns(Path(path), key_names, candidates, table)

@@ -17,8 +17,7 @@ import numpy as np
 
 from ..arrays import integers, numbers, objects
 from ..data.dataset import Dataset
-from ..data.read_parquet import first_line
-from ..errors import DataError
+from ..errors import DataError, first_line
 from ..fit import reasons
 from ..fit.basis import window
 from ..fit.families import lineup_for

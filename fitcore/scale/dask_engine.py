@@ -23,7 +23,7 @@ from pathlib import Path
 import numpy as np
 
 from ..data.columns import Columns, file_sha256
-from ..errors import DataError, SettingsError
+from ..errors import DataError, SettingsError, first_line
 
 SUMMARY = "_summary.json"  # beside the part files; Parquet readers skip names starting with "_"
 CONTROL = "_control:"  # a control column's field in the pieces' tables
@@ -44,7 +44,7 @@ def pieces_of(path: Path, columns: Columns) -> list[Piece]:
     import pyarrow.parquet as pq
 
     from ..data.loader import check_columns, file_kind
-    from ..data.read_parquet import first_line, parquet_names
+    from ..data.read_parquet import parquet_names
     from ..data.textfile import check_file
     check_file(path)
     if not path.is_dir() and file_kind(path)[0] == "csv":
