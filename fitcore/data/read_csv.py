@@ -36,7 +36,7 @@ def _read_fast(path: Path, columns: Columns, delimiter: str):
 
     A cell that is not a number fails pyarrow's read of numbers: the file is read again with the number
     columns as text, converted block by block (``cells.csv_text_numbers``), instead of going line by line
-    (2M rows with one such cell: 25 s → the fast read's time).
+    (2.1M rows with one such cell: 16.0 s, 1.28 GB → 7.7 s, 548 MB).
 
     No Python callback is handed to pyarrow: a failed read can leave its worker threads finishing after
     the call returns, and a Python object they release then needs the interpreter — at exit, that

@@ -16,7 +16,7 @@ from ..data.columns import is_parquet_name
 from ..data.textfile import regular_or_folder
 from ..errors import DataError, first_line
 from ..fit.results import SCHEMA
-from .checks import PARQUET_COLUMNS, check_header, check_header_digest, check_series, check_unique_keys
+from .checks import HEADER, PARQUET_COLUMNS, check_header, check_header_digest, check_series, check_unique_keys
 from .control_fields import record_fields
 
 RUN_SUMMARY = "_summary.json"
@@ -116,7 +116,7 @@ def read_header(path: str | Path) -> dict:
         raise DataError(f"expected a pricefold results file ({first_line(exc)})", path=str(path)) from None
     check_header_digest(path, schema.metadata or {})
     try:
-        meta = json.loads((schema.metadata or {}).get(b"pricefold", b"null"))
+        meta = json.loads((schema.metadata or {}).get(HEADER, b"null"))
     except (UnicodeDecodeError, json.JSONDecodeError):
         raise DataError("expected a pricefold results file; its pricefold metadata is not JSON", path=str(path)) \
             from None
