@@ -131,16 +131,16 @@ def backtest_line(found) -> str:
 
 # -- show --ledger ---------------------------------------------------------------------------------------
 
-def ledger_state(record: dict, book) -> tuple[str, str | None]:
-    """(status in the ledger, what it needs) of a results record."""
-    from fitcore.ledger.backtest import due
+def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | None]:
+    """(status in the ledger, what it needs) of a results record (``short``: for the list's column)."""
+    from fitcore.ledger.backtest import due, untested_due
     history = book.histories.get(series_id(record["key"]))
     status = history.status(record["fingerprint"]) if history else "pending"
-    if status == "accepted" and history.current["action"] == "carry":
-        status = "accepted (carried)"
+    if status in ("accepted", "overridden") and history.current["action"] == "carry":
+        status = f"{status} (carried)"
     needs = due(record.get("backtest")) if status == "stale" else None
-    if status == "stale" and needs is None:
-        needs = "no backtest in these results (fit with --ledger)"
+    if status == "stale" and needs is None:  # a hold signs no curve; anything else: these results hold none
+        needs = untested_due(history.current, short) or "no backtest in these results (fit with --ledger)"
     return status, needs
 
 
@@ -157,15 +157,15 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
         if record.get("backtest"):
             lines.append("  " + shift_sentence(record["backtest"], record["chosen"]))
         return "\n".join(lines)
-    lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'status':<19} {'due':<16} {'ratio':>5} {'cover':>5}  flags"]
+    lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'status':<20} {'due':<16} {'ratio':>5} {'cover':>5}  flags"]
     for record in in_attention_order(records):
-        status, needs = ledger_state(record, book)
+        status, needs = ledger_state(record, book, short=True)
         bt = record.get("backtest") or {}
         ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
         cover = f"{bt['coverage'] * 100:.0f}%" if bt.get("coverage") is not None else "—"
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
         lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {record['chosen'] or '—':<7} "
-                     f"{status:<19} {(needs or '—')[:16]:<16} {ratio:>5} {cover:>5}  {flags}")
+                     f"{status:<20} {(needs or '—')[:16]:<16} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
 
 

@@ -52,7 +52,7 @@ def run_export(args) -> int:
     columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
     writer.writerow(made([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
                            "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi",
-                           "carried_from", "ledger_head"]))
+                           "carried_from", "carried_analyst", "carried_at", "carried_note", "ledger_head"]))
     count, head = 0, book.head_text
     own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
     from fitcore.ledger.reader import collector_paused
@@ -74,7 +74,8 @@ def run_export(args) -> int:
                                    current["analyst"] if current else "", current["at"] if current else "",
                                    current.get("note", "") if current else "", _number(plan.get("price")),
                                    _number(at_plan.get("volume")), _number(at_plan.get("lo")),
-                                   _number(at_plan.get("hi")), carried_from(history), head]))
+                                   _number(at_plan.get("hi")), carried_from(history), *carried_decision(history),
+                                   head]))
     write_text(args.output, buffer.getvalue())
     print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
     return 0
@@ -227,8 +228,15 @@ def carried_from(history) -> str:
     current = history.current if history else None
     if current is None or current["action"] != "carry":
         return ""
-    carried = next((r for r in history.records if r["digest"] == current.get("carries")), None)
+    carried = history.carried
     return f"{carried['seq']}:{carried['digest']}" if carried else f"?:{current.get('carries')}"
+
+
+def carried_decision(history) -> tuple[str, str, str]:
+    """``(analyst, at, note)`` of the accept or override a standing ``carry`` carries forward (the decision a
+    person made; the row's own ``analyst``, ``at`` and ``note`` are the carry's); empty when none stands."""
+    carried = history.carried if history else None
+    return (carried["analyst"], carried["at"], carried.get("note") or "") if carried else ("", "", "")
 
 
 def _number(value):

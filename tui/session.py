@@ -226,7 +226,9 @@ class TriageSession(ListState):
         """What a signed series whose data changed needs (backtest failed, shifted, no dates, …)."""
         if self.status[s] != "stale":
             return None
-        return (self.backtest.due(s) if self.backtest is not None else None) or "a new look (no backtest here)"
+        from fitcore.ledger.backtest import untested_due
+        return ((self.backtest.due(s) if self.backtest is not None else None) or untested_due(self.standing(s))
+                or "a new look (no backtest here)")
 
     def signed_model(self, s: int, model: str | None) -> dict | None:
         """The ``signed`` snapshot of ``model`` on series ``s`` as the results hold it (incomplete, and
@@ -268,8 +270,15 @@ class TriageSession(ListState):
         history = self.histories.get(self._id(s))
         return history.current if history else None
 
+    def decision(self, s: int) -> dict | None:
+        """The analyst's decision standing on series ``s``: the standing record, or the accept or override a
+        standing carry carries forward (its analyst and note); None when pending."""
+        history = self.histories.get(self._id(s))
+        return history.decision if history else None
+
     def model_of(self, s: int) -> int:
-        """The candidate that now stands for series ``s``: an override's on the current data, else the proposal."""
+        """The candidate that now stands for series ``s``: an override's on the current data (also one carried
+        forward to it), else the proposal."""
         if self.status[s] == "overridden":
             name = self.standing(s)["model"]
             if name in self.results.names:

@@ -119,6 +119,19 @@ def due(record: dict | None) -> str | None:
             UNSIGNED: "no signed model", CONTROLS_CHANGED: "controls changed since signing"}.get(status, status)
 
 
+HELD_DUE = "a new look (a hold has no curve to backtest)"
+HELD_DUE_SHORT = "new look (held)"
+
+
+def untested_due(decision: dict | None, short: bool = False) -> str | None:
+    """What a series needs whose standing decision on other data has no backtest because of what it is: a
+    hold signs no curve, so there is nothing to test, whatever the results hold (None: any other decision,
+    whose missing backtest the caller explains)."""
+    if decision is None or decision["action"] != "hold":
+        return None
+    return HELD_DUE_SHORT if short else HELD_DUE
+
+
 def on_other_data(standing: Standing, keys: SeriesKeys, fingerprints) -> tuple[np.ndarray, Standing]:
     """(series indices, their standing decisions) for every series of ``keys`` whose standing decision
     was made on data other than ``fingerprints``."""

@@ -7,6 +7,9 @@ from .fastjson import canonical_text, text_object
 from .records import SCHEMA
 
 STATUS_OF = {"accept": "accepted", "override": "overridden", "hold": "held", "carry": "accepted"}
+# A carry stands as the decision it carries: an accept carried is accepted, an override carried is overridden
+# (the analyst's own choice of curve, not the proposal, still stands; "carry" above is only the fallback for
+# a carry whose decision the series' history does not hold, which the append rules never let in).
 
 
 def series_id(key: dict) -> str:
@@ -50,20 +53,42 @@ class SeriesHistory:
         """The series' latest record of any action (what a new decision ``supersedes``)."""
         return self.records[-1] if self.records else None
 
+    @property
+    def carried(self) -> dict | None:
+        """The accept or override the standing ``carry`` carries forward (None: no carry stands, or its
+        decision is not in this history)."""
+        current = self.current
+        if current is None or current["action"] != "carry":
+            return None
+        return carried_by(self.records, current)
+
+    @property
+    def decision(self) -> dict | None:
+        """The analyst's decision that stands: the standing record, or what a standing carry carries."""
+        return self.carried or self.current
+
     def status(self, fingerprint: str | None = None) -> str:
-        """pending, accepted, overridden, held — or stale when the data changed since the decision."""
+        """pending, accepted, overridden, held — or stale when the data changed since the decision.  A carry
+        has the status of the decision it carries (an override carried forward is still overridden)."""
         current = self.current
         if current is None:
             return "pending"
         if fingerprint is not None and current.get("fingerprint") != fingerprint:
             return "stale"
-        return STATUS_OF[current["action"]]
+        return STATUS_OF[(self.decision or current)["action"]]
+
+
+def carried_by(records: list[dict], carry: dict) -> dict | None:
+    """The accept or override ``carry`` names (``carries``) among a series' ``records`` (None: not there)."""
+    digest = carry.get("carries")
+    return next((r for r in reversed(records) if r.get("digest") == digest and r["action"] in ("accept", "override")),
+                None)
 
 
 def replay(records: list[dict]) -> dict[str, SeriesHistory]:
     """series id → history.  The latest standing decision wins; ``revoke`` withdraws the
     revoker's own latest standing decision on that series; ``note`` changes nothing; a ``carry``
-    stands as an accept on the data it was carried to."""
+    stands on the data it was carried to as the accept or override it carries."""
     return apply({}, records)
 
 

@@ -203,7 +203,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if chosen >= 0:
             text.append(score_meaning(float(results.q2[s, chosen]), session.diagnosis.thresholds.weak_score) + ".\n")
         if model != chosen and model >= 0:
-            standing = session.standing(s)
+            standing = session.decision(s)  # an override carried forward: the override's analyst and note
             text.append(f"Overridden to {results.names[model]}", style="bold")
             text.append(f" ({describe(standing)}): {clean(standing.get('note') or '')}\n")
             text.append(score_meaning(float(results.q2[s, model]), session.diagnosis.thresholds.weak_score) + ".\n")

@@ -1,0 +1,133 @@
+"""An override carried to the next cycle: its status, the model and numbers that stand, and the export.
+
+A series whose proposal is a straight line is overridden to a quadratic (with a note) in the first cycle;
+four more weeks of the same demand arrive and ``ledger carry`` carries the override forward.  The
+numbers checked are the quadratic's prediction at the plan price and its 95% interval, against
+statsmodels OLS ``get_prediction`` on the second cycle's rows of that series.
+"""
+from __future__ import annotations
+
+import csv
+
+import numpy as np
+import pytest
+
+from fitcore import ledger
+from pricefold.cli import main
+from tests.cli.test_cycle import histories, write_weeks
+
+NOTE = "the buyer expects a bend"
+HELD = "item 1"  # the first series after the overridden one (``item 0``): held in the first cycle
+PLAN = 2.3
+COMMON = ["--date", "week", "--plan-price", str(PLAN), "--degrees", "1-2", "--no-loglog", "--quiet"]
+
+
+def carried_override(folder):
+    """``(ledger, key, second cycle's data, second cycle's results)`` with ana's override carried by bo (and
+    another series held by ana in the first cycle: ``HELD``)."""
+    from fitcore.ledger.snapshot import from_records
+    from fitcore.results.read import read_results
+    book = folder / "ledger.jsonl"
+    write_weeks(folder / "c1.csv", 40, seed=11)
+    assert main(["fit", str(folder / "c1.csv"), *COMMON, "-o", str(folder / "r1.json")]) == 0
+    record = next(r for r in read_results(folder / "r1.json")[1] if r["chosen"] == "poly1" and not r["flags"])
+    ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
+                                      results="ab" * 32, model="poly2", proposed="poly1", note=NOTE,
+                                      signed=from_records([(record, "poly2")], 0.95)[0])],
+                  ledger.Identity("ana", "ana", "host"))
+    held = next(r for r in read_results(folder / "r1.json")[1] if r["key"] != record["key"])
+    ledger.append(book, [ledger.Entry(series=held["key"], action="hold", fingerprint=held["fingerprint"],
+                                      results="ab" * 32, model=None, proposed=held["chosen"], note="ask the buyer")],
+                  ledger.Identity("ana", "ana", "host"))
+    write_weeks(folder / "c2.csv", 44, seed=11)
+    assert main(["fit", str(folder / "c2.csv"), *COMMON, "-o", str(folder / "r2.json"), "--ledger", str(book)]) == 0
+    assert main(["ledger", "carry", str(folder / "r2.json"), "--ledger", str(book), "--analyst", "bo", "-q"]) == 0
+    assert histories(book)[record["key"]["product"]].current["action"] == "carry"
+    return book, record["key"], folder / "c2.csv", folder / "r2.json"
+
+
+def quadratic_at_plan(data, product: str) -> dict:
+    """statsmodels OLS of volume on 1, price, price² over the series' rows: the prediction at the plan price,
+    its 95% prediction interval and the point elasticity there (the outside reference)."""
+    import pandas as pd
+    import statsmodels.api as sm
+    rows = pd.read_csv(data)
+    rows = rows[rows["product"] == product]
+    price, volume = rows["price"].to_numpy(float), rows["volume"].to_numpy(float)
+    fit = sm.OLS(volume, np.column_stack([np.ones_like(price), price, price ** 2])).fit()
+    frame = fit.get_prediction(np.array([[1.0, PLAN, PLAN ** 2]])).summary_frame(alpha=0.05)
+    mean = float(frame["mean"].iloc[0])
+    b = fit.params
+    return {"volume": mean, "lo": float(frame["obs_ci_lower"].iloc[0]), "hi": float(frame["obs_ci_upper"].iloc[0]),
+            "elasticity": (b[1] + 2 * b[2] * PLAN) * PLAN / mean}
+
+
+@pytest.fixture(scope="module")
+def carried(tmp_path_factory):
+    return carried_override(tmp_path_factory.mktemp("carried"))
+
+
+def test_a_carried_override_stays_overridden(carried):
+    from fitcore.results.read import read_results
+    book, key, _, results = carried
+    record = next(r for r in read_results(results)[1] if r["key"] == key)
+    history = histories(book)[key["product"]]
+    assert history.status(record["fingerprint"]) == "overridden"
+    assert history.decision["action"] == "override" and history.decision["note"] == NOTE
+    assert history.carried is history.decision and history.current["model"] == "poly2"
+
+
+def test_the_proposal_may_replace_a_carried_override(carried, tmp_path):
+    """Only an accept carried is "already accepted": accepting the proposal over a carried override is a
+    change of model, recorded as any accept over an override."""
+    from fitcore.results.read import read_results
+    book, key, _, results = carried
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    record = next(r for r in read_results(results)[1] if r["key"] == key)
+    latest = histories(copy)[key["product"]].latest
+    ledger.append(copy, [ledger.Entry(series=key, action="accept", fingerprint=record["fingerprint"],
+                                      results="ab" * 32, model="poly1", proposed="poly1",
+                                      supersedes=latest["digest"])], ledger.Identity("cy", "cy", "host"))
+    history = histories(copy)[key["product"]]
+    assert history.status(record["fingerprint"]) == "accepted" and history.current["model"] == "poly1"
+    with pytest.raises(ledger.LedgerError, match="already accepted on this data"):
+        ledger.append(copy, [ledger.Entry(series=key, action="accept", fingerprint=record["fingerprint"],
+                                          results="ab" * 32, model="poly1", proposed="poly1",
+                                          supersedes=history.latest["digest"])], ledger.Identity("cy", "cy", "host"))
+
+
+def test_export_says_a_carried_override_with_whose_decision_it_carries(carried, tmp_path):
+    book, key, data, results = carried
+    out = tmp_path / "plan-models.csv"
+    assert main(["ledger", "export", str(book), "--results", str(results), "-o", str(out)]) == 0
+    rows = list(csv.DictReader(open(out, newline="")))
+    row = next(r for r in rows if r["product"] == key["product"])
+    history = histories(book)[key["product"]]
+    override, carry = history.decision, history.current
+    assert (row["status"], row["model"], row["family"]) == ("overridden", "poly2", "poly")
+    assert (row["analyst"], row["at"], row["note"]) == ("bo", carry["at"], "")  # the standing record: the carry
+    assert row["carried_from"] == f"{override['seq']}:{override['digest']}"
+    assert (row["carried_analyst"], row["carried_at"], row["carried_note"]) == ("ana", override["at"], NOTE)
+    reference = quadratic_at_plan(data, key["product"])  # statsmodels OLS get_prediction
+    for name in ("volume", "lo", "hi"):
+        assert float(row[f"plan_{name}"]) == pytest.approx(reference[name], rel=1e-9)
+    # the others are pending or held on the first cycle's data: nothing carried, nothing said
+    others = [r for r in rows if r["product"] != key["product"]]
+    assert {r["status"] for r in others} == {"pending", "stale"}
+    assert all(r["carried_from"] == r["carried_analyst"] == r["carried_at"] == r["carried_note"] == "" for r in others)
+
+
+def test_show_says_why_a_held_series_has_no_backtest(carried, capsys):
+    """A hold signs no curve: there is nothing to backtest, though the results were fitted with --ledger."""
+    book, key, _, results = carried
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    held = next(line for line in lines if line.startswith(HELD + " "))
+    assert " stale " in held and "new look (held)" in held and "no backtest" not in held
+    carried_row = next(line for line in lines if line.startswith(key["product"] + " "))
+    assert " overridden (carried) " in carried_row
+    assert main(["show", str(results), "--ledger", str(book), "--product", HELD]) == 0
+    out = capsys.readouterr().out
+    assert "ledger: stale — due: a new look (a hold has no curve to backtest)" in out and "fit with" not in out
