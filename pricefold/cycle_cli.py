@@ -5,6 +5,7 @@ The numbers come from ``fitcore.ledger.backtest``; the ledger is read through th
 """
 from __future__ import annotations
 
+import os
 import sys
 from collections import Counter
 from dataclasses import dataclass
@@ -40,6 +41,13 @@ def add_carry_parser(sub) -> None:
     carry.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success")
 
 
+def must_exist(path: Path, why: str) -> None:
+    """A ledger a command reads but never starts must be there: a mistyped name is an error (exit 2), never
+    an empty ledger (nothing signed, nothing carried) and never a new file."""
+    if not os.path.lexists(path):
+        raise ledger.LedgerError(f"{path}: no such ledger ({why})")
+
+
 def same_file(a: Path, b: Path) -> bool:
     try:
         return a.resolve() == b.resolve() or (a.exists() and b.exists() and a.samefile(b))
@@ -53,6 +61,7 @@ class LedgerAhead:
     forked, or the child fails, the ledger is read here instead, when the result is asked for."""
 
     def __init__(self, path: Path, outputs=()) -> None:
+        must_exist(path, "'fit --ledger' only reads it")
         for output in outputs:
             if same_file(Path(output), path):
                 raise ledger.LedgerError(f"{output}: is the ledger; choose another results name")
@@ -290,6 +299,7 @@ def run_carry(args) -> int:
 
 def _carry(args) -> int:
     from fitcore.results.read import read_header, read_results, result_parts
+    must_exist(args.ledger, "'ledger carry' carries decisions a ledger already holds")
     stored = result_parts(args.results) is not None or args.results.suffix.lower() in (".parquet", ".pq")
     header = read_header(args.results) if stored else read_results(args.results)[0]
     source = header.get("ledger")

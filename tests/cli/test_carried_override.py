@@ -131,3 +131,30 @@ def test_show_says_why_a_held_series_has_no_backtest(carried, capsys):
     assert main(["show", str(results), "--ledger", str(book), "--product", HELD]) == 0
     out = capsys.readouterr().out
     assert "ledger: stale — due: a new look (a hold has no curve to backtest)" in out and "fit with" not in out
+
+
+@pytest.mark.parametrize("engine", ["local", "dask"])
+def test_fit_with_a_missing_ledger_is_an_error(tmp_path, capsys, engine):
+    """A mistyped ledger name is one line and exit 2, not "no signed series has new data"; nothing is written."""
+    write_weeks(tmp_path / "c1.csv", 40, seed=11)
+    missing = tmp_path / "decisons.jsonl"
+    out = tmp_path / ("r" if engine == "dask" else "r.json")
+    capsys.readouterr()
+    assert main(["fit", str(tmp_path / "c1.csv"), *COMMON, "-o", str(out), "--ledger", str(missing),
+                 "--engine", engine]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and f"{missing}: no such ledger" in err and "Traceback" not in err
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["c1.csv"]
+
+
+def test_carry_to_a_missing_ledger_is_an_error_and_makes_none(tmp_path, capsys):
+    write_weeks(tmp_path / "c1.csv", 40, seed=11)
+    book = tmp_path / "ledger.jsonl"
+    book.touch()  # an empty ledger: fit --ledger reads it
+    assert main(["fit", str(tmp_path / "c1.csv"), *COMMON, "-o", str(tmp_path / "r.json"), "--ledger", str(book)]) == 0
+    book.unlink()  # gone (or mistyped) by the time of the carry
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(tmp_path / "r.json"), "--ledger", str(book)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and f"{book}: no such ledger" in err
+    assert not book.exists()
