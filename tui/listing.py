@@ -16,7 +16,10 @@ import numpy as np
 from fitcore.review.flags import CODES
 
 FILTERS = ("attention", "all", "pending", "held", "decided", "changed", "shifted")
-FILTER_TITLES = {"attention": "needs attention, pending", "all": "all series", "pending": "pending",
+# "undecided": no decision stands on the current data, i.e. the statuses pending and stale together (the
+# header counts those two apart; the choice named "pending" lists both, and its title says so)
+FILTER_TITLES = {"attention": "needs attention, undecided", "all": "all series",
+                 "pending": "undecided: pending or stale",
                  "held": "held", "decided": "decided", "changed": "changed since sign-off",
                  "shifted": "shifted since sign-off"}
 SORTS = ("attention", "key", "score", "n")

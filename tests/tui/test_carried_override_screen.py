@@ -66,3 +66,26 @@ def _plain(renderable) -> str:
     console = Console(width=100, record=True, file=io.StringIO())
     console.print(renderable)
     return console.export_text()
+
+
+async def test_the_filter_menu_counts_agree_with_the_header(carried, tmp_path):
+    """The header counts statuses (pending: no decision at all; stale: a decision on other data); the list's
+    "pending" choice lists both, so its title says so and its count is their sum."""
+    book, key, data, results = carried
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    app = make_app(copy, source_from_results(results))
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        counts = session.counts()
+        assert counts["pending"] > 0 and counts["stale"] == 1  # the held series, on the first cycle's data
+        header = "\n".join(screen_text(app).splitlines()[:2])
+        assert f"pending {counts['pending']}" in header and f"stale {counts['stale']}" in header
+        await pilot.press("f")
+        await pilot.pause()
+        menu = screen_text(app)
+        assert f"undecided: pending or stale  ({counts['pending'] + counts['stale']})" in menu
+        assert f"needs attention, undecided  ({counts['attention']})" in menu
+        await pilot.press("escape")
+        session.set_filter("pending")
+        assert len(session.view) == counts["pending"] + counts["stale"]
