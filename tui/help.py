@@ -21,7 +21,8 @@ KEYS = [
     ("h", "hold: park the series for follow-up (a reason is optional)"),
     ("u", "revoke your latest decision made on this screen, wherever it is (the cursor goes there)"),
     ("/", "search every series by key; / and Enter again for the next match"),
-    ("f", "filter: needs attention, all, pending, held, decided — and one flag (counts shown)"),
+    ("f", "filter: needs attention, all, undecided (pending or stale), held, decided, changed, shifted — and "
+          "one flag (counts shown)"),
     ("s", "sort: attention, key, lowest score, fewest observations"),
     ("c", "with controls: the observations chart between raw volumes and volumes adjusted to the plan's "
           "controls (what each week would have sold at its price with the controls as planned)"),
