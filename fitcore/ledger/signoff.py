@@ -69,7 +69,8 @@ class AnalystTally:
 class Signoff:
     """The sign-off of S series.
 
-    ``status``: (S,) index into ``STATUSES``; ``carried``: (S,) accepted by a carried decision;
+    ``status``: (S,) index into ``STATUSES``; ``carried``: (S,) standing by a carried decision (accepted or
+    overridden: a carry has the status of the decision it carries);
     ``individual``: (S,) a person decided the series one by one (any record that is not part of a
     bulk command); ``noted``: (S,) the series has a ``note`` record; ``histories``: series index →
     its ledger history (only series the ledger names); ``diagnosis``: flags with ``stale`` raised
@@ -89,10 +90,12 @@ class Signoff:
     bulk_seqs: frozenset = frozenset()
 
     def counts(self) -> dict[str, int]:
-        """Series per status, plus ``carried`` (a part of ``accepted``) and ``total``."""
+        """Series per status, plus ``carried`` (a part of ``accepted``: accepts carried forward),
+        ``carried_overridden`` (a part of ``overridden``: overrides carried forward) and ``total``."""
         tally = np.bincount(self.status, minlength=len(STATUSES))
         out = dict(zip(STATUSES, tally.tolist()))
-        out["carried"] = int(self.carried.sum())
+        out["carried"] = int((self.carried & (self.status == STATUSES.index("accepted"))).sum())
+        out["carried_overridden"] = int((self.carried & (self.status == STATUSES.index("overridden"))).sum())
         out["total"] = int(len(self.status))
         return out
 

@@ -158,3 +158,12 @@ def test_carry_to_a_missing_ledger_is_an_error_and_makes_none(tmp_path, capsys):
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and f"{book}: no such ledger" in err
     assert not book.exists()
+
+
+def test_the_report_counts_a_carried_override_as_overridden(carried, tmp_path):
+    book, key, _, results = carried
+    page = tmp_path / "report.html"
+    assert main(["report", str(results), "--ledger", str(book), "-o", str(page)]) == 0
+    html = page.read_text()
+    assert '<span class="n">1</span>overridden</li>' in html and '<span class="n">0</span>accepted</li>' in html
+    assert "carried)</li>" not in html  # no accept was carried
