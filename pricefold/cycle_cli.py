@@ -41,6 +41,9 @@ def add_carry_parser(sub) -> None:
     carry.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success")
 
 
+FIT_READS = "'fit --ledger' only reads it; a first cycle is fitted without --ledger"
+
+
 def must_exist(path: Path, why: str) -> None:
     """A ledger a command reads but never starts must be there: a mistyped name is an error (exit 2), never
     an empty ledger (nothing signed, nothing carried) and never a new file."""
@@ -61,7 +64,7 @@ class LedgerAhead:
     forked, or the child fails, the ledger is read here instead, when the result is asked for."""
 
     def __init__(self, path: Path, outputs=()) -> None:
-        must_exist(path, "'fit --ledger' only reads it")
+        must_exist(path, FIT_READS)
         for output in outputs:
             if same_file(Path(output), path):
                 raise ledger.LedgerError(f"{output}: is the ledger; choose another results name")

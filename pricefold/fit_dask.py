@@ -26,9 +26,9 @@ def run_fit_dask(args, run) -> int:
     if getattr(args, "ledger", None) is not None:  # read (and verified) once here; each partition gets its series
         from fitcore import ledger
 
-        from .cycle_cli import must_exist, same_file
+        from .cycle_cli import FIT_READS, must_exist, same_file
         from .ledger_cli import open_ledger
-        must_exist(args.ledger, "'fit --ledger' only reads it")
+        must_exist(args.ledger, FIT_READS)
         if same_file(args.output, args.ledger):
             raise ledger.LedgerError(f"{args.output}: is the ledger; choose another results name")
         book = open_ledger(args.ledger, refuse=(ledger.BROKEN,))

@@ -20,11 +20,17 @@ def carried(tmp_path_factory):
     return carried_override(tmp_path_factory.mktemp("carried-screen"))
 
 
-async def test_a_carried_override_shows_its_own_curve(carried, tmp_path):
-    book, key, data, results = carried
+def screen_on(carried, tmp_path):
+    """``(app, ledger copy)``: the triage screen on the second cycle's results, on a copy of the ledger."""
+    book, _, _, results = carried
     copy = tmp_path / "ledger.jsonl"
     copy.write_bytes(book.read_bytes())
-    app = make_app(copy, source_from_results(results))
+    return make_app(copy, source_from_results(results)), copy
+
+
+async def test_a_carried_override_shows_its_own_curve(carried, tmp_path):
+    _, key, data, _ = carried
+    app, copy = screen_on(carried, tmp_path)
     async with app.run_test(size=(160, 50)) as pilot:
         session = await started(app, pilot)
         s = int(session.keys.indices_of([key])[0])
@@ -71,10 +77,7 @@ def _plain(renderable) -> str:
 async def test_the_filter_menu_counts_agree_with_the_header(carried, tmp_path):
     """The header counts statuses (pending: no decision at all; stale: a decision on other data); the list's
     "pending" choice lists both, so its title says so and its count is their sum."""
-    book, key, data, results = carried
-    copy = tmp_path / "ledger.jsonl"
-    copy.write_bytes(book.read_bytes())
-    app = make_app(copy, source_from_results(results))
+    app, _ = screen_on(carried, tmp_path)
     async with app.run_test(size=(160, 50)) as pilot:
         session = await started(app, pilot)
         counts = session.counts()
