@@ -140,7 +140,7 @@ def _fit_locally(args, run) -> int:
         from .cycle_cli import LedgerAhead
         ahead = LedgerAhead(args.ledger, [args.output])
     data, rejects = load_with_rejects(args.data, run.columns, sep=run.sep)
-    free = zero_price_line(data)
+    free, read = zero_price_line(data), data.source["rows"]
     target = rejects_path(args.output)
     if len(rejects):
         strict_or_foreign(rejects, target, args.strict)
@@ -173,7 +173,7 @@ def _fit_locally(args, run) -> int:
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
     if len(rejects):  # a warning, not progress: --quiet keeps it
-        print(rejects_line(rejects.reasons, target), file=sys.stderr)
+        print(rejects_line(rejects.reasons, target, read), file=sys.stderr)
     for warning in (free, unplanned):  # warnings too
         if warning:
             print(warning, file=sys.stderr)

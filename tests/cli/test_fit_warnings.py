@@ -72,3 +72,15 @@ def test_no_usable_row_names_the_first_cell(tmp_path, capsys, cell, hint):
                               f"30 non-numeric price); the first is non-numeric price: {cell!r}")
     assert ("a decimal comma? numbers are read with a decimal point: 2.08" in said[0]) is hint
     assert not (tmp_path / "r.parquet").exists()
+
+
+@pytest.mark.parametrize("bad, said_most", [(2, False), (20, True)])
+def test_a_run_that_rejects_most_rows_says_so(tmp_path, capsys, bad, said_most):
+    rows = [row for row in sample_rows() if row["product"] == "apples 1 kg" and row["region"] == "North"][:30]
+    for row in rows[:bad]:
+        row["price"] = "n/a"
+    code, said = fit(capsys, write(tmp_path / "d.csv", rows), "-o", tmp_path / "r.parquet")
+    assert code == 0
+    (line,) = [text for text in said if "rejected" in text]
+    assert line.startswith(f"{bad} rows rejected: {bad} non-numeric price — see {tmp_path / 'r.rejects.csv'}")
+    assert (f"; that is {bad} of the 30 rows read: check the delimiter" in line) is said_most
