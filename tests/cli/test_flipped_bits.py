@@ -109,7 +109,7 @@ def test_a_flip_in_a_page_header_is_one_line_too(files, tmp_path, capsys):
         assert err.count("\n") == 1 and str(bad) in err, err
 
 
-def test_the_checksum_failure_is_said_in_plain_words(files, capsys):
+def test_the_checksum_failure_is_said_in_plain_words():
     """pyarrow's "could not verify page integrity, CRC checksum verification failed for page_ordinal 0" is
     said as what it means to a user."""
     from fitcore.errors import first_line
