@@ -16,14 +16,16 @@ import numpy as np
 import pyarrow as pa
 
 from ..errors import DataError
-from .cells import coerce_numbers, columns_of, csv_text_numbers, dates, number_names, raw_from_columns
+from .cells import (coerce_numbers, columns_of, csv_text_numbers, dates, give_back_arrow_memory, number_names,
+                    raw_from_columns)
 from .columns import Columns
-from .textfile import arrow_stream, check_quotes, compressed_trouble, open_text, rows_are_lines
+from .textfile import (BLOCK, arrow_stream, check_quotes, compressed_trouble, file_bytes, holds, line_bounds, open_text,
+                       rows_are_lines)
 
 
 def read_csv_rows(path: Path, columns: Columns, delimiter: str, header: list[str]):
     """Every data row's needed columns, unchecked (``RawRows``)."""
-    rows = _read_fast(path, columns, delimiter)
+    rows = _read_fast(path, columns, delimiter, header)
     if rows is None:
         rows = _read_slow(path, columns, delimiter, header)
     if rows.n_rows == 0:
@@ -31,30 +33,26 @@ def read_csv_rows(path: Path, columns: Columns, delimiter: str, header: list[str
     return rows
 
 
-def _read_fast(path: Path, columns: Columns, delimiter: str):
+def _read_fast(path: Path, columns: Columns, delimiter: str, header: list[str]):
     """pyarrow's reader; None when the file needs the line-by-line reader.
 
     A cell that is not a number fails pyarrow's read of numbers: the file is read again with the number
     columns as text, converted block by block (``cells.csv_text_numbers``), instead of going line by line
     (2.1M rows with one such cell: 16.0 s, 1.28 GB → 7.7 s, 548 MB).
 
+    A line with the wrong number of fields fails pyarrow's read too.  In a file without a quote every
+    line is one row, so such lines are found from the bytes and read around (``_read_around``) rather
+    than line by line.
+
     No Python callback is handed to pyarrow: a failed read can leave its worker threads finishing after
     the call returns, and a Python object they release then needs the interpreter — at exit, that
-    aborted the process ("terminate called without an active exception").  A row with the wrong number
-    of fields simply fails the read, which sends the file to the line-by-line reader.
+    aborted the process ("terminate called without an active exception").  pyarrow is given native
+    streams only: the file's own, or a buffer Arrow allocated.
     """
-    # keys (and dates) dictionary-encoded by the reader's threads: codes and each block's distinct texts,
-    # no string per row
-    types = {name: pa.dictionary(pa.int32(), pa.string()) for name in columns.keys}
-    if columns.date:  # parsed once per distinct text
-        types[columns.date] = pa.dictionary(pa.int32(), pa.string())
-    table, trouble = _arrow_read(path, columns, delimiter,
-                                 types | {name: pa.float64() for name in number_names(columns)})
-    as_text = table is None and "conversion error" in trouble
-    if as_text:
-        table, _ = _arrow_read(path, columns, delimiter, types | {name: pa.string() for name in number_names(columns)})
+    types = _types(columns)
+    table, as_text, trouble = _arrow_table(path, lambda: arrow_stream(path), columns, delimiter, types)
     if table is None:
-        return None
+        return _read_around(path, columns, delimiter, header, types, as_text) if _wrong_width(trouble) else None
     n_rows = table.num_rows
     if not rows_are_lines(path, n_rows):
         return None
@@ -63,11 +61,34 @@ def _read_fast(path: Path, columns: Columns, delimiter: str):
                             number_cells=csv_text_numbers if as_text else None)
 
 
-def _arrow_read(path: Path, columns: Columns, delimiter: str, types: dict):
+def _types(columns: Columns) -> dict:
+    """The reader's type of each key and date column: dictionary-encoded by the reader's threads (codes and
+    each block's distinct texts, no string per row; a date parsed once per distinct text)."""
+    types = {name: pa.dictionary(pa.int32(), pa.string()) for name in columns.keys}
+    if columns.date:
+        types[columns.date] = pa.dictionary(pa.int32(), pa.string())
+    return types
+
+
+def _arrow_table(path: Path, source, columns: Columns, delimiter: str, types: dict, as_text: bool = False):
+    """``(table, as_text, "")`` read from ``source()`` with the numbers as float64 or, when a cell is not a
+    number (or ``as_text`` says one was met before), as text; ``(None, as_text, why)`` when pyarrow refuses."""
+    table, trouble = None, "conversion error"
+    if not as_text:
+        table, trouble = _arrow_read(path, source, columns, delimiter,
+                                     types | {name: pa.float64() for name in number_names(columns)})
+    as_text = table is None and "conversion error" in trouble
+    if as_text:
+        table, trouble = _arrow_read(path, source, columns, delimiter,
+                                     types | {name: pa.string() for name in number_names(columns)})
+    return table, as_text, trouble
+
+
+def _arrow_read(path: Path, source, columns: Columns, delimiter: str, types: dict):
     """``(table, "")``: the needed columns as ``types`` says; ``(None, why)`` when pyarrow refuses the file."""
     from pyarrow import csv as arrow_csv
     try:
-        stream = arrow_stream(path)  # closed after a whole read only: after a failure, workers may still read it
+        stream = source()  # closed after a whole read only: after a failure, workers may still read it
         table = arrow_csv.read_csv(
             stream, parse_options=arrow_csv.ParseOptions(delimiter=delimiter, ignore_empty_lines=False),
             convert_options=arrow_csv.ConvertOptions(include_columns=columns.needed, column_types=types,
@@ -78,6 +99,90 @@ def _arrow_read(path: Path, columns: Columns, delimiter: str, types: dict):
     except (OSError, EOFError, zlib.error) as exc:
         raise DataError(f"cannot read the file ({compressed_trouble(exc)})", path=str(path)) from None
     return table, ""
+
+
+def _wrong_width(trouble: str) -> bool:
+    """Did pyarrow refuse a row for its number of fields ("CSV parse error: Expected 3 columns, got 2: …")?"""
+    return trouble.startswith("CSV parse error: Expected ") and " columns, got " in trouble
+
+
+def _read_around(path: Path, columns: Columns, delimiter: str, header: list[str], types: dict, as_text: bool):
+    """pyarrow's reader on the file's bytes without its lines of the wrong number of fields; None when the
+    file holds a quote (a line may then be part of a row) or the line-by-line reader is needed anyway.
+
+    Each such line is a row as the line-by-line reader gives it: no cells, and the reason "expected N
+    fields, found M" in ``RawRows.broken``.  An empty line stays in the bytes: pyarrow gives it a row of
+    empty cells, as the line-by-line reader does (the "empty line" reason).  Row i is still line i + 2.
+    """
+    from .validation import RawRows
+    if len(delimiter.encode()) != 1 or delimiter in '\r\n"':
+        return None
+    give_back_arrow_memory()  # what the refused read left
+    try:
+        data = file_bytes(path)
+    except (OSError, EOFError, zlib.error, pa.ArrowException):
+        return None  # the line-by-line reader names where it stops
+    view = np.frombuffer(data, np.uint8)
+    if holds(view, ord('"')):
+        return None
+    starts, ends = line_bounds(view)
+    fields = _field_counts(view, starts, ord(delimiter))
+    wrong = np.flatnonzero((fields != len(header)) & (ends > starts))  # an empty line is no field at all
+    wrong = wrong[wrong > 0]  # lines; the header sets the width
+    if not len(wrong):
+        return None
+    kept, view, data = _without_lines(view, starts, wrong), None, None
+    table, as_text, _ = _arrow_table(path, lambda: pa.BufferReader(kept), columns, delimiter, types, as_text)
+    kept = None
+    n_rows = len(starts) - 1
+    if table is None or table.num_rows != n_rows - len(wrong):
+        return None
+    read = np.ones(n_rows, bool)
+    read[wrong - 1] = False
+    parts, table = columns_of(table, columns), None
+    line = np.arange(2, n_rows + 2, dtype=np.int64)
+    rows = raw_from_columns(parts, columns, line[read], number_cells=csv_text_numbers if as_text else None)
+    broken = {int(i) - 1: f"expected {len(header)} fields, found {int(fields[i])}" for i in wrong}
+    return RawRows(line=line, keys={name: _spread(values, read) for name, values in rows.keys.items()},
+                   numbers={name: tuple(_spread(part, read, empty) for part, empty in zip(cells, (np.nan, False, True)))
+                            for name, cells in rows.numbers.items()},
+                   date=None if rows.date is None else tuple(
+                       _spread(part, read, empty) for part, empty in zip(rows.date, (np.datetime64("NaT"), False, False))),
+                   broken=broken)
+
+
+def _field_counts(data: np.ndarray, starts: np.ndarray, delimiter: int) -> np.ndarray:
+    """(L,) int64 fields of each line beginning at ``starts`` (delimiters + 1), a block of lines at a time."""
+    counts = np.empty(len(starts), np.int64)
+    cuts = np.unique(np.r_[np.searchsorted(starts, np.arange(0, len(data), BLOCK)), len(starts)])
+    for first, end in zip(cuts[:-1].tolist(), cuts[1:].tolist()):
+        low = int(starts[first])
+        high = int(starts[end]) if end < len(starts) else len(data)
+        counts[first:end] = np.add.reduceat(data[low:high] == delimiter, starts[first:end] - low, dtype=np.int64)
+    return counts + 1
+
+
+def _without_lines(data: np.ndarray, starts: np.ndarray, lines: np.ndarray):
+    """The bytes of ``data`` without the ``lines`` (sorted) and their line ends, in a buffer Arrow allocated."""
+    after = np.append(starts, len(data))
+    keep_from, keep_to = np.r_[0, after[lines + 1]], np.r_[starts[lines], len(data)]
+    out = pa.allocate_buffer(int((keep_to - keep_from).sum()))
+    into = np.frombuffer(out, np.uint8)
+    at = 0
+    for low, high in zip(keep_from.tolist(), keep_to.tolist()):
+        into[at:at + high - low] = data[low:high]
+        at += high - low
+    return out
+
+
+def _spread(part, read: np.ndarray, empty=None):
+    """``part`` (one value per row read) over every row, ``empty`` (a key: missing) on the others."""
+    if hasattr(part, "categories"):
+        import pandas as pd
+        return pd.Categorical.from_codes(_spread(part.codes, read, -1), categories=part.categories)
+    out = np.full(len(read), empty, dtype=part.dtype)
+    out[read] = part
+    return out
 
 
 def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):

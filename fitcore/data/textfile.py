@@ -2,7 +2,8 @@
 
 Gzip is recognised by its magic bytes, not its name; a UTF-8 byte-order mark is skipped; the delimiter
 is found from the header line.  Only regular files and folders are opened: a named pipe or a device is
-refused before any read could block.
+refused before any read could block.  Physical lines end with CRLF, CR or LF, as both csv readers
+count them (``rows_are_lines``, ``line_bounds``).
 """
 from __future__ import annotations
 
@@ -15,6 +16,8 @@ import stat
 import sys
 import zlib
 from pathlib import Path
+
+import numpy as np
 
 from ..errors import DataError, first_line
 
@@ -187,3 +190,41 @@ def _count_lines(blocks, returns: bool) -> int:
         carry = block[-1:] == b"\r"
         last = block[-1:] or last
     return ends + (0 if last in (b"\n", b"\r", b"") else 1)
+
+
+def file_bytes(path: Path):
+    """The whole file (decompressed when it is gzip) as one ``pyarrow.Buffer`` that Arrow allocated: a reader
+    thread of pyarrow's may release it after the caller has moved on without needing the interpreter."""
+    with arrow_stream(path) as stream:
+        return stream.read_buffer()
+
+
+def holds(data: np.ndarray, byte: int) -> bool:
+    """Does the (N,) uint8 ``data`` hold ``byte``?  Block by block: no (N,) mask."""
+    return any((data[at:at + BLOCK] == byte).any() for at in range(0, len(data), BLOCK))
+
+
+def line_bounds(data: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``(starts, ends)``: (L,) int64 each, physical line i of the (N,) uint8 ``data`` is
+    ``data[starts[i]:ends[i]]`` without its line end (CRLF, CR or LF, as ``_count_lines`` counts them),
+    and the next begins after that line end.  An unended last line counts; nothing after the last line
+    end is a line."""
+    size = len(data)
+    ends = _positions(data, ord("\n"))
+    after = ends + 1
+    if holds(data, ord("\r")):
+        returns = _positions(data, ord("\r"))
+        ends = np.union1d(returns, ends[(ends == 0) | (data[ends - 1] != ord("\r"))])  # an LF after a CR: one end
+        pair = ends[:-1] if len(ends) and ends[-1] == size - 1 else ends  # line ends with a byte after them
+        after = ends + 1
+        after[:len(pair)] += (data[pair] == ord("\r")) & (data[pair + 1] == ord("\n"))
+    starts = np.concatenate([np.zeros(1, np.int64), after])
+    if starts[-1] == size:
+        return starts[:-1], ends
+    return starts, np.append(ends, size)
+
+
+def _positions(data: np.ndarray, byte: int) -> np.ndarray:
+    """(K,) int64 positions of ``byte`` in ``data``, found block by block."""
+    found = [np.flatnonzero(data[at:at + BLOCK] == byte) + at for at in range(0, len(data), BLOCK)]
+    return np.concatenate(found) if found else np.zeros(0, np.int64)
