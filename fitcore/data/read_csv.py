@@ -131,10 +131,15 @@ def _read_around(path: Path, columns: Columns, delimiter: str, header: list[str]
     wrong = wrong[wrong > 0]  # lines; the header sets the width
     if not len(wrong):
         return None
-    kept, view, data = _without_lines(view, starts, wrong), None, None
-    table, as_text, _ = _arrow_table(path, lambda: pa.BufferReader(kept), columns, delimiter, types, as_text)
-    kept = None
     n_rows = len(starts) - 1
+    broken = {int(i) - 1: f"expected {len(header)} fields, found {int(fields[i])}" for i in wrong}
+    view, fields, ends = None, None, None
+    data = _without_lines(data, starts, wrong)
+    starts = None
+    give_back_arrow_memory()  # a gzip file's text, copied without those lines
+    table, as_text, _ = _arrow_table(path, lambda: pa.BufferReader(data), columns, delimiter, types, as_text)
+    data = None
+    give_back_arrow_memory()
     if table is None or table.num_rows != n_rows - len(wrong):
         return None
     read = np.ones(n_rows, bool)
@@ -142,7 +147,6 @@ def _read_around(path: Path, columns: Columns, delimiter: str, header: list[str]
     parts, table = columns_of(table, columns), None
     line = np.arange(2, n_rows + 2, dtype=np.int64)
     rows = raw_from_columns(parts, columns, line[read], number_cells=csv_text_numbers if as_text else None)
-    broken = {int(i) - 1: f"expected {len(header)} fields, found {int(fields[i])}" for i in wrong}
     return RawRows(line=line, keys={name: _spread(values, read) for name, values in rows.keys.items()},
                    numbers={name: tuple(_spread(part, read, empty) for part, empty in zip(cells, (np.nan, False, True)))
                             for name, cells in rows.numbers.items()},
@@ -152,27 +156,33 @@ def _read_around(path: Path, columns: Columns, delimiter: str, header: list[str]
 
 
 def _field_counts(data: np.ndarray, starts: np.ndarray, delimiter: int) -> np.ndarray:
-    """(L,) int64 fields of each line beginning at ``starts`` (delimiters + 1), a block of lines at a time."""
+    """(L,) int64 fields of each line beginning at ``starts`` (its delimiters + 1), a block of lines at a time:
+    each block's delimiters found, then counted between its line starts."""
     counts = np.empty(len(starts), np.int64)
     cuts = np.unique(np.r_[np.searchsorted(starts, np.arange(0, len(data), BLOCK)), len(starts)])
     for first, end in zip(cuts[:-1].tolist(), cuts[1:].tolist()):
         low = int(starts[first])
         high = int(starts[end]) if end < len(starts) else len(data)
-        counts[first:end] = np.add.reduceat(data[low:high] == delimiter, starts[first:end] - low, dtype=np.int64)
+        found = np.flatnonzero(data[low:high] == delimiter)
+        before = np.searchsorted(found, np.append(starts[first:end] - low, high - low))  # delimiters before each
+        counts[first:end] = np.diff(before)
     return counts + 1
 
 
-def _without_lines(data: np.ndarray, starts: np.ndarray, lines: np.ndarray):
-    """The bytes of ``data`` without the ``lines`` (sorted) and their line ends, in a buffer Arrow allocated."""
-    after = np.append(starts, len(data))
-    keep_from, keep_to = np.r_[0, after[lines + 1]], np.r_[starts[lines], len(data)]
-    out = pa.allocate_buffer(int((keep_to - keep_from).sum()))
-    into = np.frombuffer(out, np.uint8)
+def _without_lines(data, starts: np.ndarray, lines: np.ndarray):
+    """The Arrow buffer ``data`` without its ``lines`` (sorted), each with its line end: moved up in place when
+    ``data`` is writable (a file read), else copied into a buffer Arrow allocates (a gzip file's)."""
+    size = data.size
+    after = np.append(starts, size)
+    keep_from, keep_to = np.r_[0, after[lines + 1]], np.r_[starts[lines], size]
+    kept = int((keep_to - keep_from).sum())
+    out = data if data.is_mutable else pa.allocate_buffer(kept)
+    source, into = np.frombuffer(data, np.uint8), np.frombuffer(out, np.uint8)
     at = 0
     for low, high in zip(keep_from.tolist(), keep_to.tolist()):
-        into[at:at + high - low] = data[low:high]
+        into[at:at + high - low] = source[low:high]  # in place, at <= low: numpy copies overlapping 1-D slices forward
         at += high - low
-    return out
+    return out.slice(0, kept)
 
 
 def _spread(part, read: np.ndarray, empty=None):
