@@ -1,10 +1,13 @@
 """CSV and TSV files (optionally gzip) as ``RawRows``: pyarrow's reader, or Python's csv line by line.
 
-pyarrow's multi-threaded reader takes the file when every cell converts and every row is one physical
-line (``textfile.rows_are_lines``), so row i is line i + 2.  Any other file — a cell that is not a
-number, a line with the wrong number of fields, a quoted line break, a cell longer than pyarrow's block
-— is read again with Python's csv module, which names every row by the physical line it starts on.
-Both skip a byte-order mark and read gzip by its magic bytes.
+pyarrow's multi-threaded reader takes the file when every row is one physical line
+(``textfile.rows_are_lines``; a blank line is a row of empty cells), so row i is line i + 2.  A cell
+that is not a number: the file is read by pyarrow again with the numbers as text.  A line with the wrong
+number of fields in a file without a quote: pyarrow reads the file's bytes without such lines, and each
+is the row the line-by-line reader makes of it (``_read_around``).  Any other file — a quoted line break,
+a wrong number of fields where a quote may join lines, a cell longer than pyarrow's block — is read again
+with Python's csv module, which names every row by the physical line it starts on.  Both skip a
+byte-order mark and read gzip by its magic bytes.
 """
 from __future__ import annotations
 

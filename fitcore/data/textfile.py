@@ -157,10 +157,11 @@ def sniff_delimiter(path: Path, wanted: list[str], preferred: str | None) -> str
 def rows_are_lines(path: Path, n_rows: int) -> bool:
     """Does each of ``n_rows`` data rows take exactly one physical line, so row i is on line i + 2?
 
-    Without a quote or a carriage return in the file it must (a line break can only hide in quotes,
-    and blank lines never reach here): one pass of searches over blocks read into one buffer settles a
-    plain file (a memory map would add the whole file to the process's resident memory).  Otherwise the
-    line ends are counted (CRLF, CR or LF, as both csv readers count them) and compared.
+    Without a quote or a carriage return in the file it must (a line break can only hide in quotes, and
+    pyarrow keeps a blank line as a row of empty cells, ``ignore_empty_lines=False``): one pass of searches
+    over blocks read into one buffer settles a plain file (a memory map would add the whole file to the
+    process's resident memory).  Otherwise the line ends are counted (CRLF, CR or LF, as both csv readers
+    count them) and compared.
     """
     if is_gzip(path):
         with gzip.open(path, "rb") as handle:
@@ -193,8 +194,8 @@ def _count_lines(blocks, returns: bool) -> int:
 
 
 def file_bytes(path: Path):
-    """The whole file (decompressed when it is gzip) as one ``pyarrow.Buffer`` that Arrow allocated: a reader
-    thread of pyarrow's may release it after the caller has moved on without needing the interpreter."""
+    """The whole file (decompressed when it is gzip) in one ``pyarrow.Buffer`` of Arrow's own memory: pyarrow's
+    reader threads may hold it past a failed read and release it without the interpreter."""
     with arrow_stream(path) as stream:
         return stream.read_buffer()
 
