@@ -78,7 +78,7 @@ def build_parser() -> argparse.ArgumentParser:
                                            "results and a ledger under DIR, and open the triage screen.",
                                epilog=CAUTION)
     demo.add_argument("--dir", type=Path, default=Path("pricefold-demo"), metavar="DIR",
-                      help="where to write results.json and ledger.jsonl (default: ./pricefold-demo)")
+                      help="where to write the results and ledger.jsonl (default: ./pricefold-demo)")
     demo.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     demo.add_argument("--control", action="append", default=[], metavar="COL",
                       help="hold a column of the sample fixed while fitting: promo (the promotion weeks)")
@@ -313,3 +313,14 @@ def main(argv: list[str] | None = None) -> int:
         import os
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 0
+    except OSError as exc:  # the system refused a write pricefold did not foresee (a full disk under stdout)
+        where = f": {exc.filename}" if exc.filename else " writing the output"
+        print(f"pricefold {args.command}: {exc.strerror or exc}{where}", file=sys.stderr)
+        return 1
+
+
+def entry() -> None:
+    """The installed ``pricefold`` command (and ``python -m pricefold``): ``main``, then the process ends
+    without Python's teardown (``process_end``)."""
+    from .process_end import end_process
+    end_process(main())
