@@ -117,7 +117,6 @@ def _read_around(path: Path, columns: Columns, delimiter: str, header: list[str]
     fields, found M" in ``RawRows.broken``.  An empty line stays in the bytes: pyarrow gives it a row of
     empty cells, as the line-by-line reader does (the "empty line" reason).  Row i is still line i + 2.
     """
-    from .validation import RawRows
     if len(delimiter.encode()) != 1 or delimiter in '\r\n"':
         return None
     give_back_arrow_memory()  # what the refused read left
@@ -150,12 +149,20 @@ def _read_around(path: Path, columns: Columns, delimiter: str, header: list[str]
     parts, table = columns_of(table, columns), None
     line = np.arange(2, n_rows + 2, dtype=np.int64)
     rows = raw_from_columns(parts, columns, line[read], number_cells=csv_text_numbers if as_text else None)
+    return _among_broken(rows, read, line, broken)
+
+
+def _among_broken(rows, read: np.ndarray, line: np.ndarray, broken: dict):
+    """``RawRows`` of every row (``line``: (N,) their lines): ``rows`` where ``read`` (N,) says so, and between
+    them the ``broken`` rows without cells, as the line-by-line reader leaves a line it could not split
+    (keys and numbers missing, no date)."""
+    from .validation import RawRows
+    numbers = {name: (_spread(values, read, np.nan), _spread(text, read, False), _spread(missing, read, True))
+               for name, (values, text, missing) in rows.numbers.items()}
+    date = None if rows.date is None else (_spread(rows.date[0], read, np.datetime64("NaT")),
+                                           _spread(rows.date[1], read, False), _spread(rows.date[2], read, False))
     return RawRows(line=line, keys={name: _spread(values, read) for name, values in rows.keys.items()},
-                   numbers={name: tuple(_spread(part, read, empty) for part, empty in zip(cells, (np.nan, False, True)))
-                            for name, cells in rows.numbers.items()},
-                   date=None if rows.date is None else tuple(
-                       _spread(part, read, empty) for part, empty in zip(rows.date, (np.datetime64("NaT"), False, False))),
-                   broken=broken)
+                   numbers=numbers, date=date, broken=broken)
 
 
 def _field_counts(data: np.ndarray, starts: np.ndarray, delimiter: int) -> np.ndarray:
@@ -183,13 +190,13 @@ def _without_lines(data, starts: np.ndarray, lines: np.ndarray):
     source, into = np.frombuffer(data, np.uint8), np.frombuffer(out, np.uint8)
     at = 0
     for low, high in zip(keep_from.tolist(), keep_to.tolist()):
-        into[at:at + high - low] = source[low:high]  # in place, at <= low: numpy copies overlapping 1-D slices forward
+        into[at:at + high - low] = source[low:high]  # in place (at <= low): numpy copies a 1-D slice forward
         at += high - low
     return out.slice(0, kept)
 
 
 def _spread(part, read: np.ndarray, empty=None):
-    """``part`` (one value per row read) over every row, ``empty`` (a key: missing) on the others."""
+    """``part`` (one value per row read) over every row, ``empty`` on the others (a key: missing)."""
     if hasattr(part, "categories"):
         import pandas as pd
         return pd.Categorical.from_codes(_spread(part.codes, read, -1), categories=part.categories)
