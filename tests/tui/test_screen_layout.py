@@ -258,3 +258,26 @@ def test_a_plan_price_far_beyond_the_observed_ones_is_not_on_the_price_axis():
     assert max(ticks) <= far.price_hi[s] * 1.2 and "off the chart" in legend
     assert on_chart(5.0, 2.0, 4.0) and on_chart(1.0, 2.0, 4.0) and not on_chart(8.1, 2.0, 4.0)
     assert not on_chart(0.9, 2.0, 4.0) and not on_chart(float("nan"), 2.0, 4.0)
+
+
+@pytest.mark.parametrize("size", [(80, 24), (120, 40)])
+async def test_a_notification_under_a_dialog_is_drawn_once(ledger_path, size):
+    """A notification shown before a dialog opens, and one raised while it is open, each appear once on
+    screen (the band beneath the dialog drew a second copy of the first, cut by the dialog's), and both
+    are in the band again when it closes."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=size, notifications=True) as pilot:
+        await started(app, pilot)
+        app.notify("zebra", timeout=30)
+        await pilot.pause(0.3)
+        await pilot.press("n")
+        await until(pilot, lambda: "Note on this series" in screen_text(app))
+        app.notify("okapi", timeout=30)
+        await pilot.pause(0.3)
+        shown = screen_text(app)
+        assert shown.count("zebra") == 1 and shown.count("okapi") == 1, shown
+        await pilot.press("escape")
+        await until(pilot, lambda: "Note on this series" not in screen_text(app))
+        await pilot.pause(0.3)
+        shown = screen_text(app)
+        assert shown.count("zebra") == 1 and shown.count("okapi") == 1, shown

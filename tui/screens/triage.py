@@ -89,6 +89,12 @@ class TriageScreen(Screen):
         self.set_class(self.size.width < NARROW, "narrow")
         self.update_status()
 
+    def on_screen_suspend(self) -> None:
+        """A dialog opens over the screen: its notifications band empties (the dialog's screen shows them,
+        new ones too; left in place, the band's copy was drawn beneath the dialog's, cut by it)."""
+        for rack in self.query("ToastRack"):  # Textual's own widget, by its type's name
+            rack.display = False
+
     # -- what is shown -----------------------------------------------------------------------
     @property
     def series_list(self) -> SeriesList:
