@@ -156,8 +156,8 @@ def test_a_file_of_only_broken_rows_is_the_same_one_line_error(tmp_path, monkeyp
     path = data_file(tmp_path / "d.csv", ["a,1", "b,2,3,4,5"])
     around, by_lines = both_readers(path, Columns(), monkeypatch)
     assert around[1] == by_lines[1]
-    assert around[1] == f"{path}: no usable rows (2 rows rejected: 1 expected 4 fields, found 2 · " \
-                        f"1 expected 4 fields, found 5)"
+    assert str(path) in around[1] and "\n" not in around[1]
+    assert "no usable rows (2 rows rejected: 1 expected 4 fields, found 2 · 1 expected 4 fields, found 5)" in around[1]
 
 
 @pytest.mark.parametrize("lines", [
