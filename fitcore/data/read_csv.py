@@ -45,7 +45,8 @@ def _read_fast(path: Path, columns: Columns, delimiter: str, header: list[str]):
 
     A line with the wrong number of fields fails pyarrow's read too.  In a file without a quote every
     line is one row, so such lines are found from the bytes and read around (``_read_around``) rather
-    than line by line.
+    than line by line (``pricefold fit``, 2.1M rows with one such line: 18.3 s, 997 MiB → 7.3 s, 414 MiB;
+    with five: 16.3 s → 7.8 s; the clean file 6.3–6.9 s, 414–423 MiB).
 
     No Python callback is handed to pyarrow: a failed read can leave its worker threads finishing after
     the call returns, and a Python object they release then needs the interpreter — at exit, that
