@@ -14,7 +14,6 @@ from pathlib import Path
 from fitcore import ledger
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import series_id
-from fitcore.ledger.snapshot import header_terms
 from fitcore.text import clean
 
 from .ledger_cli import identity, open_ledger, parse_head
@@ -317,6 +316,7 @@ def _carry(args) -> int:
     if stored:
         plan, left = plan_from_stored(args.results)
     else:
+        from fitcore.ledger.snapshot import header_terms  # numpy and the families: not for every --help
         plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95),
                                        header_terms(header["settings"]))
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
