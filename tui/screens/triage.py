@@ -6,6 +6,8 @@ cursor lands on a series or the screen redraws it), never on a list position, an
 """
 from __future__ import annotations
 
+import math
+
 from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
@@ -16,6 +18,7 @@ from textual.widgets import Static
 
 from fitcore.errors import PricefoldError
 from fitcore.review.flags import CODES
+from fitcore.review.sentences import fmt, money
 
 from ..help import help_text
 from ..session import (
@@ -29,7 +32,7 @@ from ..session import (
     describe,
 )
 from ..text import clean
-from ..widgets.evidence import EvidencePanel
+from ..widgets.evidence import EvidencePanel, predicts
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
 from ..widgets.status_line import status_text
@@ -196,13 +199,29 @@ class TriageScreen(Screen):
             self.session.bring(s)
         self.refresh_all()
 
-    def ask(self, title: str, placeholder: str, required: bool, then) -> None:
+    def ask(self, title: str, placeholder: str, required: bool, then, about: Text | None = None) -> None:
         """A note dialog (holding the note the ledger last refused on this series); ``then(note)`` unless
-        cancelled."""
+        cancelled.  ``about``: what the note is about, shown above the box."""
         shown = self.session.shown
         value = self._unsaid.get(shown.sid, "") if shown is not None else ""
-        self.app.push_screen(TextDialog(title, placeholder, required=required, value=value),
+        self.app.push_screen(TextDialog(title, placeholder, required=required, value=value, about=about),
                              lambda note: None if note is None else then(note))
+
+    def signing_text(self, shown: Shown) -> Text:
+        """What an accept signs, in numbers: the proposal at the plan price (volume, interval, elasticity where
+        it means something), so a note past a stop flag is written with the figure in view."""
+        results = self.session.results
+        s = self.session.index_of(shown)
+        c = int(results.chosen[s])
+        plan, lo, hi = float(results.plan_price[s]), float(results.price_lo[s]), float(results.price_hi[s])
+        unit = self.session.units.get("volume")
+        if not math.isfinite(plan):
+            said = f"No plan price: {results.names[c]} is signed as fitted (prices {money(lo)}–{money(hi)} observed)."
+        else:
+            where = "" if lo <= plan <= hi else f", outside the prices observed ({money(lo)}–{money(hi)})"
+            said = (f"At the plan price {money(plan)}{where}, "
+                    + predicts(results, s, c, lambda v: f"{fmt(v)} {unit}" if unit else fmt(v)) + ".")
+        return Text(said, style="#ff875f" if math.isfinite(plan) and results.plan_volume[s, c] <= 0 else "")
 
     def still_reading(self, action: str) -> bool:
         """A sign-off records the curve's interval parts, which a results file brings in behind the list:
@@ -248,7 +267,7 @@ class TriageScreen(Screen):
         if self.session.needs_reason(shown, "accept"):
             self.ask(f"Accept {shown.proposed} for {self.session.label(shown.series)} despite "
                      f"{', '.join(shown.stops)}? Say why", "a note is required",
-                     True, lambda note: self.decide(shown, "accept", note=note))
+                     True, lambda note: self.decide(shown, "accept", note=note), self.signing_text(shown))
         else:
             self.decide(shown, "accept")
 

@@ -47,6 +47,17 @@ def gauge(plan: float, lo: float, hi: float, width: int = 24) -> str:
             else f"{money(lo)} ├{''.join(bar)}┤ {money(hi)} ●")
 
 
+def predicts(results, s: int, c: int, volume_text=fmt) -> str:
+    """'poly1 predicts volume -268.9 (95% PI -294.0 to -243.8), no elasticity (…)': candidate ``c`` at the
+    plan price, as the evidence says it and as an accept past a stop flag shows what is signed."""
+    volume = float(results.plan_volume[s, c])
+    # an elasticity is a ratio of relative changes: at a volume at or below zero it means nothing
+    slope = f"elasticity {results.plan_elasticity[s, c]:.2f}" if volume > 0 else \
+        "no elasticity (the volume is not above zero)"
+    return (f"{results.names[c]} predicts volume {volume_text(volume)} ({results.settings.level:.0%} PI "
+            f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}), {slope}")
+
+
 class EvidencePanel(VerticalScroll, can_focus=True):
     """Shows ``series`` of the session; ``show(s)`` to change it."""
 
@@ -222,13 +233,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if c >= 0 and math.isfinite(plan):
             text.append(f"Plan price {self.price(plan)}, {plan_position(plan, lo, hi)}.\n")
             text.append(f"  {gauge(plan, lo, hi)}\n", style="dim")
-            volume = float(results.plan_volume[s, c])
-            # an elasticity is a ratio of relative changes: at a volume at or below zero it means nothing
-            slope = f"elasticity {results.plan_elasticity[s, c]:.2f}" if volume > 0 else \
-                "no elasticity (the volume is not above zero)"
-            text.append(f"{results.names[c]} predicts volume {self.volume(volume)} "
-                        f"({results.settings.level:.0%} PI {fmt(results.plan_lo[s, c])} to "
-                        f"{fmt(results.plan_hi[s, c])}), {slope}.")
+            text.append(predicts(results, s, c, self.volume) + ".")
             if not lo <= plan <= hi:
                 text.append(" An extrapolation.", style=SEVERITY_STYLE["stop"])
             text.append("\n")
