@@ -89,9 +89,12 @@ def volume_window(inside: list[np.ndarray], everything: list[np.ndarray]) -> tup
 
 
 def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict,
-                adjusted: bool = False, signed: dict | None = None, unobserved: str | None = None) -> Text:
+                adjusted: bool = False, signed: dict | None = None, unobserved: str | None = None,
+                rival: int = -1) -> Text:
     """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its prediction band
-    (dotted) and the plan price (a vertical line).  ``adjusted``: with controls, each observation's volume
+    (dotted) and the plan price (a vertical line).  ``rival``: the candidate a raised near-tie flag names,
+    drawn as the runner-up (so the chart shows the curve the flag's sentence speaks of; -1: none, the
+    lowest CV error after the proposal's is drawn).  ``adjusted``: with controls, each observation's volume
     moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn.
     ``signed``: the snapshot of a curve signed on earlier data, drawn beside them (dash-dot), and the rows
     dated after its data's last date marked apart (×).  ``unobserved``: why the observations will not come,
@@ -109,7 +112,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     plan = float(results.plan_price[s])
     grid = price_grid(float(results.price_lo[s]), float(results.price_hi[s]), plan, results.price_lo[s] > 0)
     names = results.names
-    other = chosen if model != chosen else runner_up(results, s)
+    tied = model == chosen and rival >= 0
+    other = chosen if model != chosen else rival if tied else runner_up(results, s)
     xs = grid.tolist()
     lines = []  # (values over the grid, marker, colour), drawn in this order
     if model >= 0 and results.rows_loaded:
@@ -154,7 +158,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     if model >= 0:
         legend.append(f"   ⠤⠤ {names[model]} ({'chosen' if model == chosen else 'override'})", _colour(STANDING))
     if other >= 0:
-        legend.append(f"   -- {names[other]} ({'proposed' if other == chosen else 'runner-up'})", _colour(OTHER))
+        role = "proposed" if other == chosen else "near tie" if tied else "runner-up"
+        legend.append(f"   -- {names[other]} ({role})", _colour(OTHER))
     if model >= 0 and results.rows_loaded:
         legend.append(f"   ·· {results.settings.level:.0%} prediction band", _colour(BAND))
     if signed is not None:

@@ -58,6 +58,19 @@ def predicts(results, s: int, c: int, volume_text=fmt) -> str:
             f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}), {slope}")
 
 
+def near_tie_rival(session: TriageSession, s: int) -> int:
+    """The candidate the near-tie flag names when that flag is raised on ``s``, else -1: the diagnosis's own
+    number, or (flags as a results file stored them, sentences only) the candidate its sentence opens with."""
+    diagnosis, names = session.diagnosis, list(session.results.names)
+    if "near-tie" not in session.flag_codes(s):
+        return -1
+    if "rival" in diagnosis.numbers:
+        return int(diagnosis.numbers["rival"][s])
+    said = next((f["message"] for f in diagnosis.flags_of(s) if f["code"] == "near-tie"), "")
+    first = said.split(" ", 1)[0]
+    return names.index(first) if first in names else -1
+
+
 class EvidencePanel(VerticalScroll, can_focus=True):
     """Shows ``series`` of the session; ``show(s)`` to change it."""
 
@@ -148,7 +161,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return
         if observed.rows_loaded or engine.loaded():
             self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
-                                                   self.session.units, self.adjusted, self.signed_shown(s), unobserved))
+                                                   self.session.units, self.adjusted, self.signed_shown(s), unobserved,
+                                                   near_tie_rival(self.session, s)))
         else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
             waiting = unobserved or "observations and band: reading the data …"
             self._part("curve").update(Text(f"curves: starting the engine …; {waiting}", style="dim"))
