@@ -38,7 +38,11 @@ def short_flags(codes: list[str], width: int) -> str:
         while shown and cell_len(" ".join([*shown, more])) > width:
             shown.pop()
             more = f"+{len(marked) - len(shown)}"
-        return " ".join([*shown, more]) if shown else pad(marked[0], width - len(more) - 1) + " " + more
+        if shown:
+            return " ".join([*shown, more])
+        # not even the first whole: it is shown cut, and counts as shown
+        others = len(marked) - 1
+        return pad(marked[0], width - len(f" +{others}")) + f" +{others}" if others else pad(marked[0], width)
     return " ".join(shown)
 
 
