@@ -48,6 +48,7 @@ class TriageScreen(Screen):
     BINDINGS = [
         Binding("a", "accept", "accept"),
         Binding("o", "override", "override"),
+        Binding("o", "nothing_to_override", "override", show=False),  # the same key, to say why there is nothing
         Binding("n", "note", "note"),
         Binding("h", "hold", "hold"),
         Binding("u", "revoke", "revoke"),
@@ -160,14 +161,16 @@ class TriageScreen(Screen):
         session = self.session
         s = session.current
         results = session.results
-        if action in ("accept", "override", "note", "hold", "revoke") and not session.writable:
+        if action in ("accept", "override", "nothing_to_override", "note", "hold", "revoke") and not session.writable:
             return False
-        if action in ("accept", "override", "note", "hold") and (s is None or session.waiting):
+        if action in ("accept", "override", "nothing_to_override", "note", "hold") and (s is None or session.waiting):
             return False
+        # Python booleans only: Textual hides a key for ``False`` itself, and numpy's False is not that
         if action == "accept":
-            return results.chosen[s] >= 0
-        if action == "override":
-            return results.chosen[s] >= 0 and results.available[s].sum() >= 2
+            return bool(results.chosen[s] >= 0)
+        if action in ("override", "nothing_to_override"):
+            others = bool(results.chosen[s] >= 0 and results.available[s].sum() >= 2)
+            return others == (action == "override")
         if action in ("revoke", "nothing_to_revoke"):
             return (session.undo_target() is not None) == (action == "revoke")
         if action == "attention":
@@ -296,6 +299,13 @@ class TriageScreen(Screen):
         if shown is not None:
             self.ask("Note on this series", "what should the next reader know?", True,
                      lambda note: self.decide(shown, "note", note=note))
+
+    def action_nothing_to_override(self) -> None:
+        results, s = self.session.results, self.session.current
+        fitted = [name for c, name in enumerate(results.names) if results.available[s, c]]
+        said = (f"only {fitted[0]} could be fitted to this series" if fitted else "no candidate could be fitted")
+        self.notify(f"Nothing to override with: {said} (the evidence says why the others could not).",
+                    severity="warning", markup=False)
 
     def action_nothing_to_revoke(self) -> None:
         self.notify("Nothing to revoke: no decision of yours made on this screen still stands.",
