@@ -48,7 +48,11 @@ def number(x, how=fmt) -> str:
 
 
 def percent(share) -> str:
-    return "—" if share is None or not math.isfinite(share) else f"{share * 100:.0f}%"
+    """A whole percentage ("—" for none); one that rounds to zero is "0%", never "-0%" (as on the screen)."""
+    if share is None or not math.isfinite(share):
+        return "—"
+    text = f"{share * 100:.0f}%"
+    return "0%" if text == "-0%" else text
 
 
 def key_text(key: dict) -> str:

@@ -16,6 +16,15 @@ def cut(text: str, width: int) -> str:
     return cut_end(text, width, cell_len)
 
 
+def percent(share: float) -> str:
+    """A share as a whole percentage, "—" when there is none; one that rounds to zero is "0%" whatever its
+    sign (a "-0%" read as a number below zero that is not there)."""
+    if share != share:
+        return "—"
+    text = f"{share * 100:.0f}%"
+    return "0%" if text == "-0%" else text
+
+
 def pad(text: str, width: int, right: bool = False) -> str:
     """``text`` cut to ``width`` cells and padded with spaces to exactly that many."""
     text = cut(text, width)

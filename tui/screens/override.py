@@ -24,6 +24,7 @@ from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.flags import Diagnosis
 from fitcore.review.sentences import fmt, money
 
+from ..cells import percent
 from ..text import literal
 
 SHORT = 18  # terminal rows: below this, the dialog drops its padding and explanations so the models keep rows
@@ -54,7 +55,7 @@ def candidate_rows(results: Results, s: int, diagnosis: Diagnosis) -> list[Candi
             continue
         rows.append(CandidateRow(
             name=name, cv_mse=fmt(results.cv_mse[s, c]), cv_se=fmt(results.cv_se[s, c]),
-            q2=f"{results.q2[s, c] * 100:.0f}%",
+            q2=percent(results.q2[s, c]),
             volume=fmt(results.plan_volume[s, c]) if planned else "—",
             interval=f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}" if planned else "—",
             elasticity=f"{results.plan_elasticity[s, c]:.2f}" if planned and results.plan_volume[s, c] > 0 else "—",

@@ -23,7 +23,7 @@ from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money
 
 from .. import engine
-from ..cells import cut, key_label
+from ..cells import cut, key_label, percent
 from ..session import TriageSession, describe
 from ..text import clean
 from .charts import curve_chart, fold_chart
@@ -276,7 +276,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             mark = "✓" if c == results.chosen[s] else ""
             mark += "↺" if c == model and c != results.chosen[s] else ""
             table.add_row(mark, cand.name, fmt(results.cv_mse[s, c]), fmt(results.cv_se[s, c]),
-                          f"{results.q2[s, c] * 100:.0f}%", f"{results.r2[s, c] * 100:.0f}%",
+                          percent(results.q2[s, c]), percent(results.r2[s, c]),
                           *([self.control_effects(s, c)] if controls else []))
         return Group(Text("Candidates (✓ proposed, ↺ override)", style="bold"), table, missing)
 

@@ -12,7 +12,7 @@ from textual.strip import Strip
 
 from fitcore.review.flags import SEVERITY
 
-from ..cells import key_label, pad
+from ..cells import key_label, pad, percent
 from ..session import STATUS_MARK, TriageSession, describe
 
 STOP = Style(color="#ff875f")
@@ -160,7 +160,7 @@ class SeriesList(ScrollView, can_focus=True):
         model = session.model_of(s)
         name = results.names[model] if model >= 0 else "—"
         score = results.score[s]
-        score_text = f"{score * 100:.0f}%" if score == score else "—"
+        score_text = percent(score)
         severity = session.severity(s)
         mark_style = DONE if status in ("accepted", "overridden") else STOP if status == "stale" else DIM
         segments = [
