@@ -37,7 +37,18 @@ class DataError(PricefoldError, ValueError):
         super().__init__(f"{where}: {message}" if where else message)
 
 
+# pyarrow's words for a damaged Parquet file, and what they mean to a user
+_PLAIN = (("CRC checksum verification failed", "a page's checksum does not match its contents: the file was "
+                                               "damaged or changed after it was written"),
+          ("Invalid base64 input", "its stored schema is unreadable: the file was damaged or changed after it was "
+                                   "written"))
+
+
 def first_line(exc: BaseException) -> str:
-    """The first line of an exception's message (a library's may span several), or its type's name."""
+    """The first line of an exception's message (a library's may span several), or its type's name; a
+    damaged file's checksum or schema said in plain words."""
     text = str(exc).strip()
+    for words, plain in _PLAIN:
+        if words in text:
+            return plain
     return text.splitlines()[0] if text else type(exc).__name__

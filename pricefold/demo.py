@@ -69,8 +69,13 @@ def run_demo(args, open_triage) -> int:
 
 
 def _report_hint(results_path: Path, folder: Path) -> None:
-    print(f"report: pricefold report {results_path} --ledger {folder}/ledger.jsonl -o {folder}/report.html",
-          file=sys.stderr)
+    """How to come back to the demo's decisions (its ledger is not the one triage would take by default)
+    and make their report (whose charts need matplotlib, an extra)."""
+    import importlib.util
+    ledger = folder / "ledger.jsonl"
+    print(f"back to it: pricefold triage {results_path} --ledger {ledger}", file=sys.stderr)
+    charts = "" if importlib.util.find_spec("matplotlib") else "  (its charts need matplotlib: pip install matplotlib)"
+    print(f"report: pricefold report {results_path} --ledger {ledger} -o {folder}/report.html{charts}", file=sys.stderr)
 
 
 def place_shipped(shipped: Path, target: Path, sample) -> str:

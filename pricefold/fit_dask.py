@@ -44,7 +44,8 @@ def run_fit_dask(args, run) -> int:
     if run.plan_file and total["plan_matched"] < _plan_rows(run.plan_file):
         print(f"warning: {run.plan_file} names series that are not in the data", file=sys.stderr)
     if total["rejected"]["lines"]:  # a warning, not progress: --quiet keeps it
-        print(rejects_line(total["rejected"]["reasons"], args.output / REJECTS), file=sys.stderr)
+        print(rejects_line(total["rejected"]["reasons"], args.output / REJECTS,
+                           total["rows"] + len(total["rejected"]["lines"])), file=sys.stderr)
     if args.quiet:
         return 0
     from fitcore.fit.families import candidates_for

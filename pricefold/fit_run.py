@@ -140,6 +140,7 @@ def _fit_locally(args, run) -> int:
         from .cycle_cli import LedgerAhead
         ahead = LedgerAhead(args.ledger, [args.output])
     data, rejects = load_with_rejects(args.data, run.columns, sep=run.sep)
+    free, read = zero_price_line(data), data.source["rows"]
     target = rejects_path(args.output)
     if len(rejects):
         strict_or_foreign(rejects, target, args.strict)
@@ -162,6 +163,8 @@ def _fit_locally(args, run) -> int:
             from .cycle_cli import backtest_against
             diagnosis, backtest = backtest_against(ahead, results, diagnosis, run.thresholds)
         told = summary(results, diagnosis)
+        unplanned = unplanned_line(results) if run.plan_file is not None else ""
+        fitted = time.perf_counter()  # read, fitted and diagnosed: the writing is timed apart
         write, by_name = prepared_results(results, args.output, diagnosis, backtest)
         # What the table takes per series is made; it keeps the fit and the rows it still needs (prices): the
         # rest of the rows freed before it is built, slice by slice, as the file is written.
@@ -170,9 +173,13 @@ def _fit_locally(args, run) -> int:
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
     if len(rejects):  # a warning, not progress: --quiet keeps it
-        print(rejects_line(rejects.reasons, target), file=sys.stderr)
+        print(rejects_line(rejects.reasons, target, read), file=sys.stderr)
+    for warning in (free, unplanned):  # warnings too
+        if warning:
+            print(warning, file=sys.stderr)
     if not args.quiet:
-        print(told(time.perf_counter() - started, args.output), file=sys.stderr)
+        print(told(fitted - started, f"{args.output} (written in {time.perf_counter() - fitted:.2f} s)"),
+              file=sys.stderr)
         if backtest is not None:
             from .cycle_cli import backtest_line
             print(backtest_line(backtest), file=sys.stderr)
@@ -193,6 +200,32 @@ def strict_or_foreign(rejects, target: Path, strict: bool) -> None:
     if os.path.lexists(target) and not is_own(target, "rejects"):
         raise DataError("exists and is not a rejects file pricefold wrote, and this run has rejected rows to write "
                         "there; remove it or choose another results name", path=str(target))
+
+
+def zero_price_line(data) -> str:
+    """A warning when some kept rows have a price of 0 (a price is checked for being a number and not
+    negative: a polynomial can use 0, and exact reference data sets put x = 0 through the command), as a
+    missing price written as 0 would be: how many rows in how many series, and what it does to the fit."""
+    import numpy as np
+    zero = np.flatnonzero(data.price == 0)
+    if not len(zero):
+        return ""
+    series = len(np.unique(np.searchsorted(data.offsets, zero, side="right")))
+    rows = f"{len(zero):,} rows in {series:,} series have" if len(zero) > 1 else "1 row has"
+    first = "" if data.line is None else f" ({'the first at ' if len(zero) > 1 else ''}line {int(data.line[zero].min()):,})"
+    return (f"{rows} a price of 0{first}: kept, but often a missing price written as 0; a log-log curve needs "
+            "prices above zero and is unavailable there")
+
+
+def unplanned_line(results) -> str:
+    """A warning when the plan file gives no price for some series: they get no plan volume, interval or
+    outside-range check, which a partial plan file would otherwise leave unsaid."""
+    import numpy as np
+    missing = int((~np.isfinite(results.plan_price)).sum())
+    if not missing:
+        return ""
+    return (f"the plan file prices {results.n_series - missing:,} of {results.n_series:,} series: the other "
+            f"{missing:,} have no plan price (no plan volume, interval or outside-range check)")
 
 
 def summary(results, diagnosis):

@@ -62,8 +62,7 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
     bad = np.flatnonzero(~usable)
     rejects = Rejects(path, kind, delimiter, rows.line[bad], why[bad].tolist())
     if len(bad) == rows.n_rows:
-        from .validation import summary
-        raise DataError(f"no usable rows ({summary(rejects.reasons)})", path=str(path))
+        raise no_usable_rows(rejects, columns)
     keep = np.flatnonzero(usable) if len(bad) else slice(None)  # a clean file is not copied
     keys = {name: values[keep] for name, values in rows.keys.items()}
     number = lambda name: rows.numbers[name][0][keep]  # noqa: E731
@@ -74,6 +73,23 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
                            date=rows.date[0][keep] if columns.date else None, line=rows.line[keep], source=source,
                            controls={name: number(name) for name in columns.controls})
     return dataset, rejects
+
+
+def no_usable_rows(rejects: Rejects, columns: Columns) -> DataError:
+    """Every row rejected: the counts by reason, and the first rejected row's line, column, reason and cell
+    (a decimal comma, the usual cause of a whole column of non-numbers, said as such)."""
+    import re
+
+    from .rejects import first_cell
+    from .validation import summary
+    why = rejects.reasons[0]
+    column = next((name for name in columns.needed if why.endswith(f" {name}") or why.startswith(f"{name} ")), None)
+    cell = first_cell(rejects, column) if column and why.startswith("non-numeric ") else None
+    found = "" if cell is None else f": {cell!r}"
+    if cell is not None and re.fullmatch(r"\s*[-+]?\d*,\d+\s*", cell):
+        found += f" (a decimal comma? numbers are read with a decimal point: {cell.strip().replace(',', '.')})"
+    return DataError(f"no usable rows ({summary(rejects.reasons)}); the first is {why}{found}",
+                     path=str(rejects.path), line=int(rejects.lines[0]), column=column)
 
 
 def _digest_beside(path: Path):

@@ -39,6 +39,24 @@ def rejects_path(results: Path) -> Path:
     return results.with_name(results.stem + ".rejects.csv")
 
 
+def first_cell(rejects: Rejects, column: str) -> str | None:
+    """The text of ``column`` in the first rejected row of a CSV, as written there; None for Parquet, or a
+    line without that field."""
+    if rejects.kind == "parquet" or not len(rejects):
+        return None
+    wanted = int(rejects.lines[0])
+    with open_text(rejects.path, errors="surrogateescape") as source:
+        reader = csv.reader(source, delimiter=rejects.delimiter)
+        header = next(reader, [])
+        end = reader.line_num
+        for record in reader:
+            start, end = end + 1, reader.line_num
+            if start == wanted:
+                at = header.index(column) if column in header else -1
+                return record[at] if 0 <= at < len(record) else None
+    return None
+
+
 def write_rejects(rejects: Rejects, handle: BinaryIO) -> None:
     """The rejected rows as CSV on the binary ``handle``: the original cells, then ``line`` and ``reason``."""
     text = io.TextIOWrapper(handle, encoding="utf-8", errors="surrogateescape", newline="", write_through=True)

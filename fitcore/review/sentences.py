@@ -212,10 +212,11 @@ def shift_sentence(bt: dict, proposal: str | None) -> str:
         change, tilt = number("volume_change"), number("elasticity_change")
         moved = f"{'+' if change > 0 else '−' if change < 0 else ''}{abs(change) * 100:.0f}%" \
             if math.isfinite(change) else "n/a"
-        tilt_text = f", elasticity {signed(tilt)}" if math.isfinite(tilt) else ""
+        # changes, not levels: "elasticity +0.29" beside a proposal whose elasticity is −1.75 read as a level
+        tilt_text = f"; its elasticity differs by {signed(tilt)}" if math.isfinite(tilt) else ""
         again = "" if bt.get("shape_changed") else " again"
         parts.append(f"This cycle's proposal, {proposal}{again}, predicts {fmt(number('proposed_volume'))} "
-                     f"({moved}{tilt_text}).")
+                     f"({moved} on the signed curve{tilt_text}).")
     return " ".join(parts)
 
 

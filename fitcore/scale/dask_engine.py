@@ -273,7 +273,8 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
     if source["rows"] == source["rejected"] or strict and lines:
         from ..data.validation import summary
         if source["rows"] == source["rejected"]:
-            raise DataError(f"no usable rows ({summary(reasons)})", path=str(path))
+            from ..data.loader import no_usable_rows
+            raise no_usable_rows(_rejects(path, columns, sep, lines, reasons), columns)
         raise DataError(f"{reasons[0]} ({summary(reasons)}; --strict, so nothing was written)", path=str(path),
                         line=lines[0])
     source.update(rejects_file=None, rejects_sha256=None)
@@ -313,13 +314,18 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
 
 def _write_rejects(target: Path, path: Path, columns: Columns, sep: str | None, lines: list, reasons: list) -> str:
     """The rejected rows beside the parts (the same file the local engine writes); its SHA-256."""
-    from ..data.loader import delimiter_of, file_kind
-    from ..data.rejects import Rejects, write_rejects
+    from ..data.rejects import write_rejects
     from ..outputs import atomic_write
-    kind = file_kind(path)[0]
-    rejects = Rejects(path, kind, delimiter_of(path, columns, sep) if kind == "csv" else None,
-                      np.asarray(lines, dtype=np.int64), reasons)
+    rejects = _rejects(path, columns, sep, lines, reasons)
     return atomic_write(target, lambda handle: write_rejects(rejects, handle))
+
+
+def _rejects(path: Path, columns: Columns, sep: str | None, lines: list, reasons: list):
+    from ..data.loader import delimiter_of, file_kind
+    from ..data.rejects import Rejects
+    kind = file_kind(path)[0]
+    return Rejects(path, kind, delimiter_of(path, columns, sep) if kind == "csv" else None,
+                   np.asarray(lines, dtype=np.int64), reasons)
 
 
 def _table_of(piece_result, p: int):

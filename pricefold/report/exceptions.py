@@ -31,7 +31,8 @@ def candidates(signoff: Signoff, s: int) -> str:
                     + cell("CV MSE ± SE", f"{num(results.cv_mse[s, c])} ± {num(results.cv_se[s, c])}", "num")
                     + cell("Q²", _share(results.q2[s, c]), "num") + cell("R²", _share(results.r2[s, c]), "num")
                     + cell("plan volume (95% PI)", volume, "num")
-                    + cell("elasticity", elasticity(results.plan_elasticity[s, c]) if planned else "—", "num")
+                    + cell("elasticity", elasticity(results.plan_elasticity[s, c], results.plan_volume[s, c])
+                           if planned else "—", "num")
                     + "</tr>")
     table = ("<div class=\"wide\"><table class=\"cards-small\"><thead><tr><th>candidate</th>"
              "<th class=\"num\">CV MSE ± SE</th><th class=\"num\">Q²</th><th class=\"num\">R²</th>"

@@ -65,7 +65,11 @@ def price(x) -> str:
     return esc(money(None if x is None else float(x)))
 
 
-def elasticity(x) -> str:
+def elasticity(x, volume=None) -> str:
+    """The elasticity at the plan price; none at a ``volume`` at or below zero (a ratio of relative changes
+    means nothing there: the screen and ``show`` say the same)."""
+    if volume is not None and float(volume) <= 0:
+        return "n/a (volume ≤ 0)"
     if x is None or not math.isfinite(float(x)):
         return "n/a"
     return f"{float(x):.2f}".replace("-", "−")

@@ -85,7 +85,8 @@ def row(signoff: Signoff, s: int, detailed: set) -> str:
             + cell("Status", status + carried, f"st-{status}") + cell("Model", model)
             + cell("Plan price", price(plan) if math.isfinite(plan) else "—", "num", _sort_value(plan))
             + cell("Volume (95% PI)", shown, "num", _sort_value(volume))
-            + cell("Elasticity", elasticity(e) if planned else "—", "num", _sort_value(e))
+            + cell("Elasticity", elasticity(e, volume) if planned else "—", "num",
+                   _sort_value(e if planned and volume > 0 else None))
             + cell("Flags", _flag_cell(signoff, s)) + cell("Analyst", esc(latest.get("analyst", "")))
             + cell("Time", time, "time", esc(latest.get("at", ""))) + cell("Note", esc(signoff.last_note(s)), "note")
             + "</tr>")

@@ -107,3 +107,11 @@ def test_a_flip_in_a_page_header_is_one_line_too(files, tmp_path, capsys):
         assert main(argv) == 2
         err = capsys.readouterr().err
         assert err.count("\n") == 1 and str(bad) in err, err
+
+
+def test_the_checksum_failure_is_said_in_plain_words():
+    """pyarrow's "could not verify page integrity, CRC checksum verification failed for page_ordinal 0" is
+    said as what it means to a user."""
+    from fitcore.errors import first_line
+    said = first_line(OSError("could not verify page integrity, CRC checksum verification failed for page_ordinal 0"))
+    assert said == "a page's checksum does not match its contents: the file was damaged or changed after it was written"

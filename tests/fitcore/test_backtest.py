@@ -130,3 +130,16 @@ def test_without_a_date_column_no_backtest_is_possible(tmp_path):
     assert 0 < moved.sum() < new.n_series and set(found.status[moved]) == {NO_DATES} and (found.new_rows == -1).all()
     assert found.due(int(np.flatnonzero(moved)[0])) == "no dates"
     assert not found.shifted[np.isnan(found.volume_change)].any()
+
+
+def test_the_shift_sentence_gives_changes_as_changes():
+    """The proposal's volume and elasticity beside the signed curve's are said as changes ("+0.29" next
+    to a proposal whose own elasticity is −1.75 read as its level)."""
+    from fitcore.review.sentences import shift_sentence
+    record = {"signed_at": "2026-11-03", "analyst": "ana", "candidate": "poly1", "signed_volume": 1041.0,
+              "signed_lo": 877.0, "signed_hi": 1205.0, "price": 2.2, "planned": True, "new_rows": 4,
+              "status": "passed", "error_ratio": 1.9, "outside": 1, "proposed_volume": 905.0,
+              "volume_change": -0.13, "elasticity_change": 0.289, "shape_changed": True}
+    text = shift_sentence(record, "loglog")
+    assert text.endswith("This cycle's proposal, loglog, predicts 905 (−13% on the signed curve; its elasticity "
+                         "differs by +0.289).")

@@ -61,7 +61,10 @@ def test_a_row_shows_the_standing_model_and_its_numbers(signed, page):
     minus = lambda x: f"{x:,.1f}".replace("-", "−")  # noqa: E731 - values in the hundreds read with one decimal
     assert "lemons 500 g · East" in row and lemons["chosen"] in row
     assert f"{minus(plan['volume'])} <span class=\"muted\">({minus(plan['lo'])} to {minus(plan['hi'])})" in row
-    assert f"{plan['elasticity']:.2f}" in row and "ask the buyer" in row and "ben &lt;i&gt;" in row
+    assert "ask the buyer" in row and "ben &lt;i&gt;" in row
+    # its plan volume is below zero: no elasticity (a ratio of relative changes), as on the screen and in show
+    assert plan["volume"] < 0 and "n/a (volume ≤ 0)" in row
+    assert f"{abs(plan['elasticity']):.2f}" not in row
 
 
 def test_the_override_stands_with_its_own_numbers(signed, page):
@@ -140,7 +143,8 @@ def test_without_matplotlib_it_says_how_to_get_it(signed, tmp_path):
             f"sys.exit(main(['report', {str(signed['results'])!r}, '-o', {str(tmp_path / 'r.html')!r}]))")
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     assert done.returncode == 2 and not (tmp_path / "r.html").exists()
-    assert done.stderr == "pricefold report: the report's charts need matplotlib: pip install 'pricefold[report]'\n"
+    assert done.stderr == ("pricefold report: the report's charts need matplotlib: pip install matplotlib (or, in "
+                           "the checkout, pip install -e '.[report]')\n")
 
 
 def test_the_demo_prints_the_command_that_makes_its_report(tmp_path, monkeypatch, capsys):
@@ -148,8 +152,12 @@ def test_the_demo_prints_the_command_that_makes_its_report(tmp_path, monkeypatch
     monkeypatch.setattr(cli, "open_triage", lambda *args, **kwargs: 0)
     folder = tmp_path / "demo"
     assert cli.main(["demo", "--dir", str(folder)]) == 0
-    line = next(line for line in capsys.readouterr().err.splitlines() if "pricefold report" in line)
-    command = line.split(": ", 1)[1].split()
+    said = capsys.readouterr().err.splitlines()
+    line = next(line for line in said if "pricefold report" in line)
+    command = line.split(": ", 1)[1].split("  (")[0].split()
+    again = next(line for line in said if line.startswith("back to it: "))  # the demo's own ledger, named
+    assert again.split(": ", 1)[1].split() == ["pricefold", "triage", str(folder / "results.parquet"), "--ledger",
+                                               str(folder / "ledger.jsonl")]
     assert command[:2] == ["pricefold", "report"]
     assert cli.main(command[1:]) == 0
     assert "Sign-off report" in (folder / "report.html").read_text()

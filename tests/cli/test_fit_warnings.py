@@ -1,0 +1,86 @@
+"""What ``pricefold fit`` warns about beside the rejected rows: prices of 0, a plan file that prices only
+some series, and a file with no usable row (the first rejected cell, a decimal comma said as such).  The
+expected counts are taken from the files with Python's csv module."""
+from __future__ import annotations
+
+import csv
+from pathlib import Path
+
+import pytest
+
+from pricefold.cli import main
+
+SAMPLE = Path(__file__).parents[2] / "sample"
+
+
+def sample_rows():
+    with open(SAMPLE / "wholesale.csv", newline="") as handle:
+        return list(csv.DictReader(handle))
+
+
+def write(path: Path, rows: list[dict], delimiter: str = ",") -> Path:
+    with open(path, "w", newline="") as handle:
+        writer = csv.DictWriter(handle, fieldnames=list(rows[0]), delimiter=delimiter)
+        writer.writeheader()
+        writer.writerows(rows)
+    return path
+
+
+def fit(capsys, *args) -> tuple[int, list[str]]:
+    code = main(["fit", *map(str, args), "--segment", "region", "--date", "week", "-q"])
+    return code, capsys.readouterr().err.splitlines()
+
+
+def test_prices_of_zero_are_counted_with_their_first_line(tmp_path, capsys):
+    rows = sample_rows()
+    for i in (40, 41, 700):  # lines 42, 43 and 702 of the file
+        rows[i]["price"] = "0"
+    data = write(tmp_path / "zeros.csv", rows)
+    zero = [i + 2 for i, row in enumerate(csv.DictReader(open(data, newline=""))) if float(row["price"]) == 0]
+    series = {(rows[i - 2]["product"], rows[i - 2]["region"]) for i in zero}
+    code, said = fit(capsys, data, "-o", tmp_path / "r.parquet")
+    assert code == 0
+    (line,) = [text for text in said if "price of 0" in text]
+    assert line.startswith(f"{len(zero)} rows in {len(series)} series have a price of 0 (the first at line {min(zero)})")
+    code, said = fit(capsys, SAMPLE / "wholesale.csv", "-o", tmp_path / "clean.parquet")
+    assert code == 0 and not any("price of 0" in text for text in said)
+
+
+def test_a_plan_file_pricing_some_series_is_said(tmp_path, capsys):
+    with open(SAMPLE / "plan.csv", newline="") as handle:
+        plan = list(csv.DictReader(handle))
+    part = write(tmp_path / "part.csv", plan[:7])
+    keys = {(row["product"], row["region"]) for row in sample_rows()}
+    priced = {(row["product"], row["region"]) for row in plan[:7]} & keys
+    code, said = fit(capsys, SAMPLE / "wholesale.csv", "--plan", part, "-o", tmp_path / "r.parquet")
+    assert code == 0
+    assert f"the plan file prices {len(priced)} of {len(keys)} series: the other {len(keys) - len(priced)} have " \
+           "no plan price (no plan volume, interval or outside-range check)" in said
+    code, said = fit(capsys, SAMPLE / "wholesale.csv", "--plan", SAMPLE / "plan.csv", "-o", tmp_path / "all.parquet")
+    assert code == 0 and not any("plan file prices" in text for text in said)
+
+
+@pytest.mark.parametrize("cell, hint", [("2,08", True), ("two", False)])
+def test_no_usable_row_names_the_first_cell(tmp_path, capsys, cell, hint):
+    rows = sample_rows()[:30]
+    for row in rows:
+        row["price"] = cell
+    data = write(tmp_path / "semi.csv", rows, delimiter=";")
+    code, said = fit(capsys, data, "--sep", ";", "-o", tmp_path / "r.parquet")
+    assert code == 2 and len(said) == 1
+    assert said[0].startswith(f"pricefold fit: {data}, line 2, column 'price': no usable rows (30 rows rejected: "
+                              f"30 non-numeric price); the first is non-numeric price: {cell!r}")
+    assert ("a decimal comma? numbers are read with a decimal point: 2.08" in said[0]) is hint
+    assert not (tmp_path / "r.parquet").exists()
+
+
+@pytest.mark.parametrize("bad, said_most", [(2, False), (20, True)])
+def test_a_run_that_rejects_most_rows_says_so(tmp_path, capsys, bad, said_most):
+    rows = [row for row in sample_rows() if row["product"] == "apples 1 kg" and row["region"] == "North"][:30]
+    for row in rows[:bad]:
+        row["price"] = "n/a"
+    code, said = fit(capsys, write(tmp_path / "d.csv", rows), "-o", tmp_path / "r.parquet")
+    assert code == 0
+    (line,) = [text for text in said if "rejected" in text]
+    assert line.startswith(f"{bad} rows rejected: {bad} non-numeric price — see {tmp_path / 'r.rejects.csv'}")
+    assert (f"; that is {bad} of the 30 rows read: check the delimiter" in line) is said_most
