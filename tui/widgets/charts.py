@@ -80,15 +80,23 @@ def tick_label(value: float, step: float) -> str:
     return "0" if float(text.replace(",", "")) == 0 else text
 
 
-def _even_y_axis(values: list, height: int, window: tuple[float, float] | None = None) -> None:
-    """Round, evenly spaced y ticks each on a row, over ``window`` or else the plottable ``values``."""
+def _even_y_axis(values: list, height: int, window: tuple[float, float] | None = None, log: bool = False) -> None:
+    """Round, evenly spaced y ticks each on a row, over ``window`` or else the plottable ``values``.  ``log``:
+    on a log scale, evenly spaced in log10 (each a power of ten to a round exponent step, three figures)."""
     if window is None:
         seen = np.concatenate([np.asarray(v, dtype=float).ravel() for v in values] or [np.zeros(0)])
-        seen = seen[_plottable(seen)]
+        seen = seen[_plottable(seen) & ((seen > 0) if log else True)]
         if not len(seen):
             return
         window = (float(seen.min()), float(seen.max()))
-    bottom, top, ticks = even_ticks(*window, max(height, 6) - LABEL_ROWS)
+    rows = max(height, 6) - LABEL_ROWS
+    if log:
+        bottom, top, ticks = even_ticks(float(np.log10(window[0])), float(np.log10(window[1])), rows)
+        plt.ylim(bottom, top)  # plotext takes a log axis's limits as exponents, its ticks as values
+        values = [10.0 ** t for t in ticks]
+        plt.yticks(values, [f"{v:,.0f}" if v >= 1000 else f"{float(f'{v:.3g}'):g}" for v in values])
+        return
+    bottom, top, ticks = even_ticks(*window, rows)
     plt.ylim(bottom, top)
     step = ticks[1] - ticks[0] if len(ticks) > 1 else abs(top - bottom) or 1.0
     plt.yticks(ticks, [tick_label(t, step) for t in ticks])
@@ -275,8 +283,7 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
     log_scale = top > LOG_RATIO * max(float(means.min()), 1e-300)
     if log_scale:  # one poor candidate would otherwise flatten all the others against the axis
         plt.yscale("log")
-    else:
-        _even_y_axis([shown, means - ses, means + ses, [0.0] if not len(shown) else []], height)
+    _even_y_axis([shown, means - ses, means + ses, folds[:, available]], height, log=log_scale)
     plt.ylabel("held-out MSE" + (" (log scale)" if log_scale else ""))
     legend = Text("● CV mean ± SE", _colour(OTHER))
     legend.append("   • each fold", _colour(OBSERVED))
