@@ -7,7 +7,7 @@ import pytest
 
 from fitcore import ledger
 from pricefold.show import percent as show_percent
-from tests.tui.conftest import make_app, screen_text, started
+from tests.tui.conftest import make_app, screen_text, started, until
 from tui.cells import percent
 from tui.listing import FILTER_TITLES, FILTERS
 
@@ -60,7 +60,7 @@ async def test_the_help_names_every_filter_and_the_prompt_says_what_a_flag_does(
     async with app.run_test(size=(160, 50)) as pilot:
         await started(app, pilot)
         await pilot.press("question_mark")
-        await pilot.pause()
+        await until(pilot, lambda: "Keys" in screen_text(app))  # the keys come first: f's line on the first page
         text = " ".join(screen_text(app).split())
         for name in FILTERS:
             assert FILTER_TITLES[name] in text, name

@@ -2,7 +2,6 @@
 the width and a long part loses its middle (the list, the evidence title and ``pricefold show`` alike)."""
 from __future__ import annotations
 
-import csv
 import itertools
 
 import numpy as np
@@ -10,8 +9,8 @@ import pytest
 from rich.cells import cell_len
 
 from fitcore.data.loader import Columns
-from tests.tui.conftest import make_app, screen_text, started
 from fitcore.widths import cells, shares
+from tests.tui.conftest import all_listed, csv_source, make_app, screen_text
 from tui.cells import key_label
 from tui.factory import Source
 
@@ -44,26 +43,19 @@ def test_a_long_segment_keeps_both_ends():
 
 
 def names_source(tmp_path) -> Source:
-    path = tmp_path / "names.csv"
     rng = np.random.default_rng(1)
-    with open(path, "w", newline="", encoding="utf-8") as handle:
-        writer = csv.writer(handle)
-        writer.writerow(["product", "store", "price", "volume"])
-        for product, store in itertools.product(PRODUCTS, STORES):
-            for _ in range(20):
-                price = round(rng.uniform(1, 2), 2)
-                writer.writerow([product, store, price, round(400 - 100 * price + rng.normal(0, 20))])
-    return Source(data=path, columns=Columns(segments=("store",)))
+    prices = np.round(rng.uniform(1, 2, (len(PRODUCTS) * len(STORES), 20)), 2)
+    rows = [(product, store, price, round(400 - 100 * price + rng.normal(0, 20)))
+            for (product, store), series in zip(itertools.product(PRODUCTS, STORES), prices) for price in series]
+    return csv_source(tmp_path / "names.csv", ["product", "store", "price", "volume"], rows,
+                      Columns(segments=("store",)))
 
 
 @pytest.mark.parametrize("size", [(80, 24), (120, 40)])
 async def test_the_list_shows_every_series_distinctly(tmp_path, size):
     app = make_app(tmp_path / "ledger.jsonl", names_source(tmp_path))
     async with app.run_test(size=size) as pilot:
-        session = await started(app, pilot)
-        session.set_filter("all", None)
-        app.screen.refresh_all()
-        await pilot.pause()
+        await all_listed(app, pilot)
         width = app.screen.series_list.columns(app.screen.series_list.scrollable_content_region.width)[0]
         lines = screen_text(app).splitlines()[3:3 + len(PRODUCTS) * len(STORES)]
         keys = [line[2:2 + width] for line in lines]  # after the status mark

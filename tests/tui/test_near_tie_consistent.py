@@ -7,33 +7,24 @@ import pytest
 from textual.widgets import OptionList
 
 from fitcore.review.evidence import runner_up
-from tests.tui.conftest import make_app, screen_text, started, until
+from tests.tui.conftest import make_app, on_series, screen_text, until
 from tui.screens.override import OverrideDialog
 
 APRICOTS = {"product": "dried apricots 500 g", "region": "East"}
-
-
-async def on_series(app, pilot, key: dict) -> int:
-    session = await started(app, pilot)
-    session.set_filter("all", None)
-    s = next(int(i) for i in session.view if session.results.data.key_of(int(i)) == key)
-    session.cursor = int((session.view == s).nonzero()[0][0])
-    app.screen.refresh_all()
-    await pilot.pause()
-    return s
 
 
 async def test_the_chart_draws_the_candidate_the_near_tie_flag_names(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(160, 50)) as pilot:
         s = await on_series(app, pilot, APRICOTS)
-        session = app.session
-        results = session.results
+        session, results = app.session, app.session.results
         [sentence] = [f["message"] for f in session.diagnosis.flags_of(s) if f["code"] == "near-tie"]
         named = sentence.split(" ", 1)[0]
         lowest = results.names[runner_up(results, s)]
         assert named != lowest  # the case the trial found: the flag and the lowest other CV error differ
-        await until(pilot, lambda: "(chosen)" in screen_text(app))
+        evidence = app.screen.evidence
+        await until(pilot, lambda: evidence.series == s and not evidence.has_class("catching-up")
+                    and "(chosen)" in screen_text(app))  # this series' charts drawn, not the last one's
         text = screen_text(app)
         assert f"-- {named} (near tie)" in text
         assert f"{lowest} (runner-up)" not in text
@@ -60,8 +51,7 @@ async def test_the_override_dialog_opens_on_the_model_that_stands(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(160, 50)) as pilot:
         s = await on_series(app, pilot, APRICOTS)
-        session = app.session
-        results = session.results
+        session, results = app.session, app.session.results
         other = next(name for c, name in enumerate(results.names)
                      if results.available[s, c] and c != results.chosen[s] and c != runner_up(results, s))
         session.decide(session.look(s), "override", model=other, note="checked by hand")

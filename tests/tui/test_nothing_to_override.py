@@ -1,29 +1,22 @@
 """A series with one candidate fitted offers no override key, and ``o`` says why there is nothing to pick."""
 from __future__ import annotations
 
-import csv
-
 import numpy as np
 import pytest
 
 from fitcore.data.loader import Columns
-from tests.tui.conftest import make_app, screen_text, started, until
+from tests.tui.conftest import csv_source, make_app, screen_text, started, until
 from tui.factory import Source
 from tui.screens.override import OverrideDialog
 
 
 def one_price_source(tmp_path) -> Source:
     """'pickle' at a single price (only a constant can be fitted), 'jam' over a spread of prices."""
-    path = tmp_path / "one.csv"
     rng = np.random.default_rng(2)
-    with open(path, "w", newline="", encoding="utf-8") as handle:
-        writer = csv.writer(handle)
-        writer.writerow(["product", "price", "volume"])
-        for _ in range(40):
-            writer.writerow(["pickle", 2.5, round(300 + rng.normal(0, 20))])
-            price = round(rng.uniform(1, 3), 2)
-            writer.writerow(["jam", price, round(500 - 100 * price + rng.normal(0, 10))])
-    return Source(data=path, columns=Columns())
+    jam = np.round(rng.uniform(1, 3, 40), 2)
+    rows = [("pickle", 2.5, round(300 + rng.normal(0, 20))) for _ in range(40)]
+    rows += [("jam", price, round(500 - 100 * price + rng.normal(0, 10))) for price in jam]
+    return csv_source(tmp_path / "one.csv", ["product", "price", "volume"], rows, Columns())
 
 
 @pytest.mark.parametrize("size", [(80, 24), (160, 50)])

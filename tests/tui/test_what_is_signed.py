@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from fitcore.review.sentences import fmt
-from tests.tui.conftest import make_app, screen_text, started
+from tests.tui.conftest import all_listed, make_app, on_series, screen_text
 from tui.screens.dialogs import TextDialog
 
 LEMONS = {"product": "lemons 500 g", "region": "East"}
@@ -18,23 +18,12 @@ def dialog_words(app) -> str:
     return " ".join(" ".join(inside).split())
 
 
-async def on_series(app, pilot, key: dict) -> int:
-    session = await started(app, pilot)
-    session.set_filter("all", None)
-    s = next(int(i) for i in session.view if session.results.data.key_of(int(i)) == key)
-    session.cursor = int((session.view == s).nonzero()[0][0])
-    app.screen.refresh_all()
-    await pilot.pause()
-    return s
-
-
 @pytest.mark.parametrize("size", [(80, 24), (120, 40)])
 async def test_accept_past_a_stop_flag_shows_the_plan_volume_being_signed(ledger_path, size):
     app = make_app(ledger_path)
     async with app.run_test(size=size) as pilot:
         s = await on_series(app, pilot, LEMONS)
-        results = app.session.results
-        c = int(results.chosen[s])
+        results, c = app.session.results, int(app.session.results.chosen[s])
         volume = float(results.plan_volume[s, c])
         assert volume < 0  # the case the trial found: a curve below zero at the plan price
         await pilot.press("a")
@@ -53,8 +42,7 @@ async def test_accept_past_a_stop_flag_shows_the_plan_volume_being_signed(ledger
 async def test_accept_past_a_stop_flag_with_a_positive_volume_shows_the_elasticity(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(80, 24)) as pilot:
-        session = await started(app, pilot)
-        session.set_filter("all", None)
+        session = await all_listed(app, pilot)
         results = session.results
         chosen = results.chosen
         stop = [int(i) for i in session.view if "stop" == session.severity(int(i))
