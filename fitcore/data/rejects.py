@@ -64,7 +64,7 @@ def write_rejects(rejects: Rejects, handle: BinaryIO) -> None:
     wanted = dict(zip(rejects.lines.tolist(), rejects.reasons))
     if rejects.kind == "parquet":
         _parquet_rows(rejects, wanted, writer)
-    else:
+    elif not _unquoted_rows(rejects, wanted, writer):
         with open_text(rejects.path, errors="surrogateescape") as source:
             reader = csv.reader(source, delimiter=rejects.delimiter)
             writer.writerow([*next(reader, []), "line", "reason"])
@@ -75,6 +75,34 @@ def write_rejects(rejects: Rejects, handle: BinaryIO) -> None:
                     writer.writerow([*record, start, wanted[start]])
     text.flush()
     text.detach()  # the handle belongs to the caller
+
+
+def _unquoted_rows(rejects: Rejects, wanted: dict, writer) -> bool:
+    """The rejected lines cut straight out of the file's bytes, when it holds no quote and no NUL: then each
+    physical line is one row, and its fields are its text split at the delimiter, as the csv module splits
+    it (an empty line: no field).  No pass of the csv module over every line (2.1M rows: 1.5–2 s).  False
+    when the file cannot be read so (the caller reads it line by line)."""
+    from .textfile import file_bytes, holds, line_bounds
+    delimiter = rejects.delimiter or ","
+    if len(delimiter) != 1:
+        return False
+    try:
+        data = np.frombuffer(file_bytes(rejects.path), np.uint8)
+    except (OSError, EOFError, ValueError):
+        return False
+    if holds(data, ord('"')) or holds(data, 0):
+        return False
+    starts, ends = line_bounds(data)
+    if not len(starts) or max(wanted, default=0) > len(starts):
+        return False
+
+    def fields(i: int, strip: str = "") -> list[str]:
+        text = bytes(data[starts[i]:ends[i]]).decode("utf-8", "surrogateescape").removeprefix(strip)
+        return text.split(delimiter) if text else []
+    writer.writerow([*fields(0, "\ufeff"), "line", "reason"])  # a byte-order mark is not the header's
+    for line in sorted(wanted):
+        writer.writerow([*fields(line - 1), line, wanted[line]])
+    return True
 
 
 def _parquet_rows(rejects: Rejects, wanted: dict, writer) -> None:

@@ -2,7 +2,8 @@
 
 Gzip is recognised by its magic bytes, not its name; a UTF-8 byte-order mark is skipped; the delimiter
 is found from the header line.  Only regular files and folders are opened: a named pipe or a device is
-refused before any read could block.
+refused before any read could block.  Physical lines end with CRLF, CR or LF, as both csv readers
+count them (``rows_are_lines``, ``line_bounds``).
 """
 from __future__ import annotations
 
@@ -15,6 +16,8 @@ import stat
 import sys
 import zlib
 from pathlib import Path
+
+import numpy as np
 
 from ..errors import DataError, first_line
 
@@ -154,10 +157,11 @@ def sniff_delimiter(path: Path, wanted: list[str], preferred: str | None) -> str
 def rows_are_lines(path: Path, n_rows: int) -> bool:
     """Does each of ``n_rows`` data rows take exactly one physical line, so row i is on line i + 2?
 
-    Without a quote or a carriage return in the file it must (a line break can only hide in quotes,
-    and blank lines never reach here): one pass of searches over blocks read into one buffer settles a
-    plain file (a memory map would add the whole file to the process's resident memory).  Otherwise the
-    line ends are counted (CRLF, CR or LF, as both csv readers count them) and compared.
+    Without a quote or a carriage return in the file it must (a line break can only hide in quotes, and
+    pyarrow keeps a blank line as a row of empty cells, ``ignore_empty_lines=False``): one pass of searches
+    over blocks read into one buffer settles a plain file (a memory map would add the whole file to the
+    process's resident memory).  Otherwise the line ends are counted (CRLF, CR or LF, as both csv readers
+    count them) and compared.
     """
     if is_gzip(path):
         with gzip.open(path, "rb") as handle:
@@ -187,3 +191,41 @@ def _count_lines(blocks, returns: bool) -> int:
         carry = block[-1:] == b"\r"
         last = block[-1:] or last
     return ends + (0 if last in (b"\n", b"\r", b"") else 1)
+
+
+def file_bytes(path: Path):
+    """The whole file (decompressed when it is gzip) in one ``pyarrow.Buffer`` of Arrow's own memory: pyarrow's
+    reader threads may hold it past a failed read and release it without the interpreter."""
+    with arrow_stream(path) as stream:
+        return stream.read_buffer()
+
+
+def holds(data: np.ndarray, byte: int) -> bool:
+    """Does the (N,) uint8 ``data`` hold ``byte``?  Block by block: no (N,) mask."""
+    return any((data[at:at + BLOCK] == byte).any() for at in range(0, len(data), BLOCK))
+
+
+def line_bounds(data: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``(starts, ends)``: (L,) int64 each, physical line i of the (N,) uint8 ``data`` is
+    ``data[starts[i]:ends[i]]`` without its line end (CRLF, CR or LF, as ``_count_lines`` counts them),
+    and the next begins after that line end.  An unended last line counts; nothing after the last line
+    end is a line."""
+    size = len(data)
+    ends = _positions(data, ord("\n"))
+    after = ends + 1
+    if holds(data, ord("\r")):
+        returns = _positions(data, ord("\r"))
+        ends = np.union1d(returns, ends[(ends == 0) | (data[ends - 1] != ord("\r"))])  # an LF after a CR: one end
+        pair = ends[:-1] if len(ends) and ends[-1] == size - 1 else ends  # line ends with a byte after them
+        after = ends + 1
+        after[:len(pair)] += (data[pair] == ord("\r")) & (data[pair + 1] == ord("\n"))
+    starts = np.concatenate([np.zeros(1, np.int64), after])
+    if starts[-1] == size:
+        return starts[:-1], ends
+    return starts, np.append(ends, size)
+
+
+def _positions(data: np.ndarray, byte: int) -> np.ndarray:
+    """(K,) int64 positions of ``byte`` in ``data``, found block by block."""
+    found = [np.flatnonzero(data[at:at + BLOCK] == byte) + at for at in range(0, len(data), BLOCK)]
+    return np.concatenate(found) if found else np.zeros(0, np.int64)

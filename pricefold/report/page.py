@@ -69,7 +69,7 @@ def elasticity(x, volume=None) -> str:
     """The elasticity at the plan price; none at a ``volume`` at or below zero (a ratio of relative changes
     means nothing there: the screen and ``show`` say the same)."""
     if volume is not None and float(volume) <= 0:
-        return "n/a (volume ≤ 0)"
+        return '<span title="no elasticity: the volume is at or below zero">n/a</span>'
     if x is None or not math.isfinite(float(x)):
         return "n/a"
     return f"{float(x):.2f}".replace("-", "−")

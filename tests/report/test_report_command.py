@@ -63,7 +63,7 @@ def test_a_row_shows_the_standing_model_and_its_numbers(signed, page):
     assert f"{minus(plan['volume'])} <span class=\"muted\">({minus(plan['lo'])} to {minus(plan['hi'])})" in row
     assert "ask the buyer" in row and "ben &lt;i&gt;" in row
     # its plan volume is below zero: no elasticity (a ratio of relative changes), as on the screen and in show
-    assert plan["volume"] < 0 and "n/a (volume ≤ 0)" in row
+    assert plan["volume"] < 0 and '<span title="no elasticity: the volume is at or below zero">n/a</span>' in row
     assert f"{abs(plan['elasticity']):.2f}" not in row
 
 
