@@ -373,8 +373,8 @@ class TriageScreen(Screen):
                 session.set_filter(key, KEEP)
             self.refresh_all()
         current = f"flag:{session.flag_filter}" if session.flag_filter else session.filter
-        self.app.push_screen(ChoiceDialog("Show which series? A status, or a flag within the status shown now ('any flag' drops the flag)", options,
-                                          current), chosen)
+        prompt = "Show which series? A status, or a flag within the status shown now ('any flag' drops the flag)"
+        self.app.push_screen(ChoiceDialog(prompt, options, current), chosen)
 
     def action_sort(self) -> None:
         def chosen(key: str | None) -> None:

@@ -75,7 +75,8 @@ def even_ticks(lo: float, hi: float, rows: int) -> tuple[float, float, list[floa
 
 def tick_label(value: float, step: float) -> str:
     """A tick as round as its step: 2,500 · 1.25 · 0.05 (no '-0')."""
-    decimals = max(0, -int(np.floor(np.log10(step) + 1e-9)) + (1 if round(step / 10 ** np.floor(np.log10(step)), 6) == 2.5 else 0))
+    power = int(np.floor(np.log10(step) + 1e-9))
+    decimals = max(0, -power + (1 if round(step / 10.0 ** power, 6) == 2.5 else 0))  # 0.25 wants two
     text = f"{value:,.{decimals}f}"
     return "0" if float(text.replace(",", "")) == 0 else text
 
