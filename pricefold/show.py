@@ -9,6 +9,7 @@ from fitcore.review.attention import attention_order
 from fitcore.review.control_words import effect_words
 from fitcore.review.sentences import fmt, money
 from fitcore.text import clean
+from fitcore.widths import cells, fit_key
 
 SEVERITY_ORDER = {"stop": 0, "warn": 1}
 
@@ -47,7 +48,11 @@ def number(x, how=fmt) -> str:
 
 
 def percent(share) -> str:
-    return "—" if share is None or not math.isfinite(share) else f"{share * 100:.0f}%"
+    """A whole percentage ("—" for none); one that rounds to zero is "0%", never "-0%" (as on the screen)."""
+    if share is None or not math.isfinite(share):
+        return "—"
+    text = f"{share * 100:.0f}%"
+    return "0%" if text == "-0%" else text
 
 
 def key_text(key: dict) -> str:
@@ -56,15 +61,15 @@ def key_text(key: dict) -> str:
 
 
 def key_cell(key: dict, width: int = 40) -> str:
-    """``key_text`` in at most ``width`` characters for a list's column: a long product name gives way and
-    its segments stay, so rows that differ only in a segment stay apart (as in the triage list)."""
-    parts = [clean(str(v)) for v in key.values()]
-    full = SEPARATOR.join(parts)
-    if len(full) <= width or len(parts) < 2:
-        return full[:width]
-    tail = SEPARATOR + SEPARATOR.join(parts[1:])
-    room = width - len(tail)
-    return parts[0][:room - 1] + "…" + tail if room >= 4 else "…" + tail[len(tail) - width + 1:]
+    """``key_text`` in at most ``width`` cells for a list's column, by the triage list's rule
+    (``fitcore.widths.fit_key``): each part keeps a share and long ones lose their middle, so rows of
+    different series read differently."""
+    return fit_key(tuple(clean(str(v)) for v in key.values()), width, SEPARATOR, cells)
+
+
+def pad_cells(text: str, width: int) -> str:
+    """``text`` padded with spaces to ``width`` terminal cells (a CJK name or an emoji takes two)."""
+    return text + " " * max(width - cells(text), 0)
 
 
 def flag_codes(flags: list, said: dict) -> str:
@@ -80,7 +85,7 @@ def table(records: list[dict]) -> str:
     said: dict[int, str] = {}
     for r in in_attention_order(records):
         score = percent(r["score"])
-        lines.append(f"{key_cell(r['key']):<40} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  "
+        lines.append(f"{pad_cells(key_cell(r['key']), 40)} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  "
                      f"{flag_codes(r['flags'], said)}")
     return "\n".join(lines)
 

@@ -7,6 +7,7 @@ from rich.text import Text
 
 from fitcore.review.flags import FLAGS
 
+from .listing import FILTER_TITLES, FILTERS
 from .text import clean
 
 KEYS = [
@@ -21,7 +22,7 @@ KEYS = [
     ("h", "hold: park the series for follow-up (a reason is optional)"),
     ("u", "revoke your latest decision made on this screen, wherever it is (the cursor goes there)"),
     ("/", "search every series by key; / and Enter again for the next match"),
-    ("f", "filter: needs attention, all, undecided (pending or stale), held, decided, changed, shifted — and "
+    ("f", "filter: " + "; ".join(FILTER_TITLES[name] for name in FILTERS) + " — and, within the status shown, "
           "one flag (counts shown)"),
     ("s", "sort: attention, key, lowest score, fewest observations"),
     ("c", "with controls: the observations chart between raw volumes and volumes adjusted to the plan's "
@@ -46,14 +47,15 @@ def _grid(rows: list[tuple[str, str]]) -> Table:
     return grid
 
 
-def ledger_text(book) -> Text:
+def ledger_text(book) -> Group:
     """Which ledger, whether its chain verifies, and its head (``SEQ:DIGEST`` of the last whole record)."""
     text = Text("\nLedger ", style="bold")
     text.append(clean(str(book.path)))
     text.append(f"\n  {book.state}" + (f": {clean(str(book.problem))}" if book.problem else "") + "\n")
-    text.append("  head (sequence number and digest of its last whole record):\n", style="dim")
-    text.append(f"  {book.head_text}", style="dim")
-    return text
+    text.append("  head (sequence number and digest of its last whole record):", style="dim")
+    # one unbroken word of 66+ characters: on a narrow screen folded at the edge, never run under the scrollbar
+    head = Text(f"  {book.head_text}", style="dim", overflow="fold")
+    return Group(text, head)
 
 
 def help_text(book=None) -> Group:

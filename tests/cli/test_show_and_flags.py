@@ -151,9 +151,15 @@ def test_a_long_product_name_gives_way_to_its_segments_in_a_list():
     record = {"n": 30, "chosen": "poly1", "score": 0.5, "flags": []}
     rows = table([{**record, "key": {"product": "x" * 500, "region": region}} for region in ("North", "South")])
     names = [line[:40] for line in rows.splitlines()[1:]]
-    assert names == ["x" * 31 + "… · North", "x" * 31 + "… · South"]
+    assert names == ["x" * 16 + "…" + "x" * 15 + " · North", "x" * 16 + "…" + "x" * 15 + " · South"]
     assert key_cell({"product": "lemons", "region": "East"}) == "lemons · East"
     assert key_cell({"product": "p", "region": "r" * 60}, 10) == "…" + "r" * 9
+    # each part keeps a share and its ends: a long store beside long names that differ only at the end
+    long = "extra long product description with many words 750 ml "
+    cells = [key_cell({"product": long + end, "store": store})
+             for end in ("bottle", "can") for store in ("S1", "north-east distribution centre 12")]
+    assert cells == ["extra long produc…rds 750 ml bottle · S1", "extra lon…ml bottle · north-eas…entre 12",
+                     "extra long product…words 750 ml can · S1", "extra lon…50 ml can · north-eas…entre 12"]
 
 
 @pytest.mark.parametrize("suffix", ["json", "parquet"])

@@ -1,6 +1,7 @@
 """Drive the real triage app on the bundled sample (or a small hostile data set)."""
 from __future__ import annotations
 
+import csv
 from pathlib import Path
 
 import pytest
@@ -50,3 +51,31 @@ async def past_stop_flags(app, pilot) -> None:
     session.cursor = next(i for i, s in enumerate(session.view) if session.severity(int(s)) != "stop")
     app.screen.refresh_all()
     await pilot.pause()
+
+
+async def all_listed(app, pilot):
+    """Start the app and list every series; returns the session."""
+    session = await started(app, pilot)
+    session.set_filter("all", None)
+    app.screen.refresh_all()
+    await pilot.pause()
+    return session
+
+
+async def on_series(app, pilot, key: dict) -> int:
+    """Start the app, list every series and put the cursor on the one keyed ``key``; returns its index."""
+    session = await all_listed(app, pilot)
+    s = next(int(i) for i in session.view if session.results.data.key_of(int(i)) == key)
+    session.cursor = int((session.view == s).nonzero()[0][0])
+    app.screen.refresh_all()
+    await pilot.pause()
+    return s
+
+
+def csv_source(path: Path, header: list[str], rows, columns) -> Source:
+    """``rows`` written under ``header`` as a CSV file at ``path``: a source read with ``columns``."""
+    with open(path, "w", newline="", encoding="utf-8") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(header)
+        writer.writerows(rows)
+    return Source(data=path, columns=columns)

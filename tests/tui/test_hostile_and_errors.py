@@ -41,7 +41,7 @@ async def test_hostile_names_are_shown_literally(tmp_path):
             await until(pilot, lambda: app.screen.evidence.series == session.current)
             await pilot.pause()
             label = session.label(session.current)
-            assert label[:60] in screen_text(app)
+            assert label[:20] in screen_text(app)  # a long name loses its middle: its start and end stay
             await pilot.press("down")
         await pilot.press("a")
         await pilot.pause()
@@ -86,4 +86,4 @@ async def test_a_very_long_product_name_leaves_its_segment_and_counts_in_the_evi
     async with app.run_test(size=(160, 40)) as pilot:
         await started(app, pilot)
         await pilot.press("f", "home", "down", "enter")  # all series
-        await until(pilot, lambda: "xxx… · North  30 obs" in screen_text(app))
+        await until(pilot, lambda: "x…x" in screen_text(app) and "xxx · North  30 obs" in screen_text(app))

@@ -45,7 +45,12 @@ async def override_lemons(app, pilot, ledger_path: Path) -> tuple[int, str]:
     await pilot.pause()
     await pilot.press("o")
     await pilot.pause()
-    return s, session.results.names[runner_up(session.results, s)]
+    runner = session.results.names[runner_up(session.results, s)]
+    options = app.screen.query_one("#dialog-options")
+    assert options.get_option_at_index(options.highlighted).id == "poly1"  # opens on the proposal
+    options.highlighted = [row.name for row in app.screen.rows].index(runner)  # the runner-up picked by hand
+    await pilot.pause()
+    return s, runner
 
 
 async def test_the_override_dialog_shows_every_candidate_as_pricefold_show_does(fitted, tmp_path, capsys):
@@ -84,7 +89,7 @@ async def test_the_override_dialog_shows_every_candidate_as_pricefold_show_does(
                 assert rows[cand["name"]].volume == fmt(cand["plan_volume"])
         # each candidate's own flags: the proposal's are the series' shape and range flags
         assert set(proposed.flags) == {f["code"] for f in record["flags"]} & {"rising", "below-zero", "outside-range"}
-        assert options.get_option_at_index(options.highlighted).id == runner  # the runner-up, preselected
+        assert options.get_option_at_index(options.highlighted).id == runner  # as moved to by override_lemons
 
 
 async def test_after_an_override_the_list_and_the_evidence_show_the_model_that_stands(fitted, tmp_path):

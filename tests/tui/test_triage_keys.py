@@ -96,7 +96,10 @@ async def test_override_needs_a_note_and_records_the_other_candidate(ledger_path
         await pilot.press("o")
         await pilot.pause()
         assert "Override the proposal for" in screen_text(app)
-        await pilot.press("enter")  # the runner-up, preselected
+        await pilot.press("enter")  # the dialog opens on the proposal, which cannot be picked: nothing happens
+        await pilot.pause()
+        assert "Override the proposal for" in screen_text(app)
+        await pilot.press("down", "enter")  # the next candidate
         await pilot.pause()
         await pilot.press("enter")  # an empty note is refused
         await pilot.pause()

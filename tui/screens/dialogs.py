@@ -18,13 +18,17 @@ class TextDialog(ModalScreen[str | None]):
 
     BINDINGS = [Binding("escape", "cancel", "cancel")]
 
-    def __init__(self, title: str, placeholder: str = "", required: bool = False, value: str = "") -> None:
+    def __init__(self, title: str, placeholder: str = "", required: bool = False, value: str = "",
+                 about: Text | None = None) -> None:
         super().__init__()
         self.title_text, self.placeholder, self.required, self.value = title, placeholder, required, value
+        self.about = about  # what the note is about (an accept past a stop flag: the numbers being signed)
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog"):
             yield Static(literal(self.title_text, "bold"), markup=False)
+            if self.about is not None:
+                yield Static(self.about, markup=False, id="dialog-about")
             yield Input(value=self.value, placeholder=self.placeholder, id="dialog-input")
             yield Static(Text("Enter to confirm · Esc to cancel", style="dim"), id="dialog-hint", markup=False)
 

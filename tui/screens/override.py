@@ -2,7 +2,9 @@
 
 For each: CV error ± SE, Q², plan volume with its 95% prediction interval, elasticity at the plan
 price, and the flags that candidate would carry itself (rising, below-zero, outside-range).  The
-proposal is shown for comparison but cannot be picked; the runner-up is highlighted first.
+proposal is shown for comparison but cannot be picked.  The dialog opens on the model that stands (an
+earlier override) or on the proposal: a highlight there would read as a recommendation, and the candidate
+with the next lowest CV error may well carry cautions of its own.
 """
 from __future__ import annotations
 
@@ -19,10 +21,10 @@ from textual.widgets.option_list import Option
 
 from fitcore.fit.results import Results
 from fitcore.review.candidate_checks import candidate_checks
-from fitcore.review.evidence import runner_up
 from fitcore.review.flags import Diagnosis
 from fitcore.review.sentences import fmt, money
 
+from ..cells import percent
 from ..text import literal
 
 SHORT = 18  # terminal rows: below this, the dialog drops its padding and explanations so the models keep rows
@@ -53,7 +55,7 @@ def candidate_rows(results: Results, s: int, diagnosis: Diagnosis) -> list[Candi
             continue
         rows.append(CandidateRow(
             name=name, cv_mse=fmt(results.cv_mse[s, c]), cv_se=fmt(results.cv_se[s, c]),
-            q2=f"{results.q2[s, c] * 100:.0f}%",
+            q2=percent(results.q2[s, c]),
             volume=fmt(results.plan_volume[s, c]) if planned else "—",
             interval=f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}" if planned else "—",
             elasticity=f"{results.plan_elasticity[s, c]:.2f}" if planned and results.plan_volume[s, c] > 0 else "—",
@@ -111,10 +113,11 @@ class OverrideDialog(ModalScreen[str | None]):
     def on_mount(self) -> None:
         self.set_class(self.app.size.height < SHORT, "short")
         options = self.query_one(OptionList)
-        best = runner_up(self.results, self.s)
         names = [row.name for row in self.rows]
-        if best >= 0 and self.results.names[best] in names:
-            options.highlighted = names.index(self.results.names[best])
+        proposed = next((row.name for row in self.rows if row.proposed), None)
+        first = self.standing if self.standing in names else proposed
+        if first is not None:  # the proposal cannot be picked: Enter on it does nothing until a move
+            options.highlighted = names.index(first)
         options.focus()
         self.call_after_refresh(self._from_a_whole_row)
 

@@ -6,6 +6,8 @@ cursor lands on a series or the screen redraws it), never on a list position, an
 """
 from __future__ import annotations
 
+import math
+
 from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
@@ -16,6 +18,7 @@ from textual.widgets import Static
 
 from fitcore.errors import PricefoldError
 from fitcore.review.flags import CODES
+from fitcore.review.sentences import fmt, money
 
 from ..help import help_text
 from ..session import (
@@ -29,7 +32,7 @@ from ..session import (
     describe,
 )
 from ..text import clean
-from ..widgets.evidence import EvidencePanel
+from ..widgets.evidence import EvidencePanel, predicts
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
 from ..widgets.status_line import status_text
@@ -45,6 +48,7 @@ class TriageScreen(Screen):
     BINDINGS = [
         Binding("a", "accept", "accept"),
         Binding("o", "override", "override"),
+        Binding("o", "nothing_to_override", "override", show=False),  # the same key, to say why there is nothing
         Binding("n", "note", "note"),
         Binding("h", "hold", "hold"),
         Binding("u", "revoke", "revoke"),
@@ -157,14 +161,16 @@ class TriageScreen(Screen):
         session = self.session
         s = session.current
         results = session.results
-        if action in ("accept", "override", "note", "hold", "revoke") and not session.writable:
+        if action in ("accept", "override", "nothing_to_override", "note", "hold", "revoke") and not session.writable:
             return False
-        if action in ("accept", "override", "note", "hold") and (s is None or session.waiting):
+        if action in ("accept", "override", "nothing_to_override", "note", "hold") and (s is None or session.waiting):
             return False
+        # Python booleans only: Textual hides a key for ``False`` itself, and numpy's False is not that
         if action == "accept":
-            return results.chosen[s] >= 0
-        if action == "override":
-            return results.chosen[s] >= 0 and results.available[s].sum() >= 2
+            return bool(results.chosen[s] >= 0)
+        if action in ("override", "nothing_to_override"):
+            others = bool(results.chosen[s] >= 0 and results.available[s].sum() >= 2)
+            return others == (action == "override")
         if action in ("revoke", "nothing_to_revoke"):
             return (session.undo_target() is not None) == (action == "revoke")
         if action == "attention":
@@ -196,13 +202,29 @@ class TriageScreen(Screen):
             self.session.bring(s)
         self.refresh_all()
 
-    def ask(self, title: str, placeholder: str, required: bool, then) -> None:
+    def ask(self, title: str, placeholder: str, required: bool, then, about: Text | None = None) -> None:
         """A note dialog (holding the note the ledger last refused on this series); ``then(note)`` unless
-        cancelled."""
+        cancelled.  ``about``: what the note is about, shown above the box."""
         shown = self.session.shown
         value = self._unsaid.get(shown.sid, "") if shown is not None else ""
-        self.app.push_screen(TextDialog(title, placeholder, required=required, value=value),
+        self.app.push_screen(TextDialog(title, placeholder, required=required, value=value, about=about),
                              lambda note: None if note is None else then(note))
+
+    def signing_text(self, shown: Shown) -> Text:
+        """What an accept signs, in numbers: the proposal at the plan price (volume, interval, elasticity where
+        it means something), so a note past a stop flag is written with the figure in view."""
+        results = self.session.results
+        s = self.session.index_of(shown)
+        c = int(results.chosen[s])
+        plan, lo, hi = float(results.plan_price[s]), float(results.price_lo[s]), float(results.price_hi[s])
+        unit = self.session.units.get("volume")
+        if not math.isfinite(plan):
+            said = f"No plan price: {results.names[c]} is signed as fitted (prices {money(lo)}–{money(hi)} observed)."
+        else:
+            where = "" if lo <= plan <= hi else f", outside the prices observed ({money(lo)}–{money(hi)})"
+            said = (f"At the plan price {money(plan)}{where}, "
+                    + predicts(results, s, c, lambda v: f"{fmt(v)} {unit}" if unit else fmt(v)) + ".")
+        return Text(said, style="#ff875f" if math.isfinite(plan) and results.plan_volume[s, c] <= 0 else "")
 
     def still_reading(self, action: str) -> bool:
         """A sign-off records the curve's interval parts, which a results file brings in behind the list:
@@ -248,7 +270,7 @@ class TriageScreen(Screen):
         if self.session.needs_reason(shown, "accept"):
             self.ask(f"Accept {shown.proposed} for {self.session.label(shown.series)} despite "
                      f"{', '.join(shown.stops)}? Say why", "a note is required",
-                     True, lambda note: self.decide(shown, "accept", note=note))
+                     True, lambda note: self.decide(shown, "accept", note=note), self.signing_text(shown))
         else:
             self.decide(shown, "accept")
 
@@ -277,6 +299,13 @@ class TriageScreen(Screen):
         if shown is not None:
             self.ask("Note on this series", "what should the next reader know?", True,
                      lambda note: self.decide(shown, "note", note=note))
+
+    def action_nothing_to_override(self) -> None:
+        results, s = self.session.results, self.session.current
+        fitted = [name for c, name in enumerate(results.names) if results.available[s, c]]
+        said = (f"only {fitted[0]} could be fitted to this series" if fitted else "no candidate could be fitted")
+        self.notify(f"Nothing to override with: {said} (the evidence says why the others could not).",
+                    severity="warning", markup=False)
 
     def action_nothing_to_revoke(self) -> None:
         self.notify("Nothing to revoke: no decision of yours made on this screen still stands.",
@@ -344,8 +373,8 @@ class TriageScreen(Screen):
                 session.set_filter(key, KEEP)
             self.refresh_all()
         current = f"flag:{session.flag_filter}" if session.flag_filter else session.filter
-        self.app.push_screen(ChoiceDialog("Show which series? (a flag keeps the status, and back)", options,
-                                          current), chosen)
+        prompt = "Show which series? A status, or a flag within the status shown now ('any flag' drops the flag)"
+        self.app.push_screen(ChoiceDialog(prompt, options, current), chosen)
 
     def action_sort(self) -> None:
         def chosen(key: str | None) -> None:

@@ -28,11 +28,79 @@ def _colour(number: int) -> Style:
     return Style(color=f"color({number})")
 
 
+NICE = (1.0, 2.0, 2.5, 5.0)  # tick steps: these times a power of ten
+LABEL_ROWS = 4  # rows of a chart outside its plot area: the frame's two, the x ticks, the axis labels
+
+
 def _start(width: int, height: int) -> None:
     plt.clf()
+    plt.limitsize(False, False)  # the size asked for, whatever plotext takes the terminal's to be
     plt.plotsize(max(width, 20), max(height, 6))
     plt.theme("clear")
     plt.frame(True)
+
+
+def _nice_at_least(value: float) -> float:
+    """The smallest step in ``NICE`` times a power of ten that is at least ``value`` (> 0)."""
+    power = 10.0 ** np.floor(np.log10(value))
+    return next((n * power for n in NICE if n * power >= value * (1 - 1e-12)), 10 * power)
+
+
+def even_ticks(lo: float, hi: float, rows: int) -> tuple[float, float, list[float]]:
+    """An axis of ``rows`` rows covering ``lo``–``hi`` whose ticks are round numbers evenly spaced and each on
+    a row: (bottom, top, ticks).  A row stands for ``unit`` = step / k, the axis runs from a multiple of the
+    unit over exactly ``rows - 1`` units, and a tick is every k rows; of the k that fit, the one wasting the
+    least height with three to seven ticks (two on a chart under five rows) is kept."""
+    rows = max(int(rows), 2)
+    span = hi - lo if hi > lo else max(abs(hi), 1.0)
+    fewest = 2 if rows < 5 else 3
+    best = None
+    for k in range(1, rows):
+        step = _nice_at_least(span / (rows - 1) * k)
+        for _ in range(6):  # the bottom is rounded down to a unit: a larger round step may be needed
+            unit = step / k
+            bottom = np.floor(lo / unit + 1e-9) * unit
+            top = bottom + (rows - 1) * unit
+            if top >= hi - 1e-9 * abs(unit):
+                break
+            step = _nice_at_least(step * 1.0001)
+        first = np.ceil(bottom / step - 1e-9) * step
+        ticks = [float(t) for t in np.arange(first, top + step * 1e-6, step)]
+        if not fewest <= len(ticks) <= 7 or top < hi - 1e-9 * abs(unit):
+            continue
+        if best is None or top - bottom < (best[1] - best[0]) * (1 - 1e-9):
+            best = (float(bottom), float(top), ticks)
+    return best if best is not None else (lo, hi, [lo, hi])
+
+
+def tick_label(value: float, step: float) -> str:
+    """A tick as round as its step: 2,500 · 1.25 · 0.05 (no '-0')."""
+    power = int(np.floor(np.log10(step) + 1e-9))
+    decimals = max(0, -power + (1 if round(step / 10.0 ** power, 6) == 2.5 else 0))  # 0.25 wants two
+    text = f"{value:,.{decimals}f}"
+    return "0" if float(text.replace(",", "")) == 0 else text
+
+
+def _even_y_axis(values: list, height: int, window: tuple[float, float] | None = None, log: bool = False) -> None:
+    """Round, evenly spaced y ticks each on a row, over ``window`` or else the plottable ``values``.  ``log``:
+    on a log scale, evenly spaced in log10 (each a power of ten to a round exponent step, three figures)."""
+    if window is None:
+        seen = np.concatenate([np.asarray(v, dtype=float).ravel() for v in values] or [np.zeros(0)])
+        seen = seen[_plottable(seen) & ((seen > 0) if log else True)]
+        if not len(seen):
+            return
+        window = (float(seen.min()), float(seen.max()))
+    rows = max(height, 6) - LABEL_ROWS
+    if log:
+        bottom, top, ticks = even_ticks(float(np.log10(window[0])), float(np.log10(window[1])), rows)
+        plt.ylim(bottom, top)  # plotext takes a log axis's limits as exponents, its ticks as values
+        values = [10.0 ** t for t in ticks]
+        plt.yticks(values, [f"{v:,.0f}" if v >= 1000 else f"{float(f'{v:.3g}'):g}" for v in values])
+        return
+    bottom, top, ticks = even_ticks(*window, rows)
+    plt.ylim(bottom, top)
+    step = ticks[1] - ticks[0] if len(ticks) > 1 else abs(top - bottom) or 1.0
+    plt.yticks(ticks, [tick_label(t, step) for t in ticks])
 
 
 def _plottable(values) -> np.ndarray:
@@ -89,9 +157,12 @@ def volume_window(inside: list[np.ndarray], everything: list[np.ndarray]) -> tup
 
 
 def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict,
-                adjusted: bool = False, signed: dict | None = None, unobserved: str | None = None) -> Text:
+                adjusted: bool = False, signed: dict | None = None, unobserved: str | None = None,
+                rival: int = -1) -> Text:
     """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its prediction band
-    (dotted) and the plan price (a vertical line).  ``adjusted``: with controls, each observation's volume
+    (dotted) and the plan price (a vertical line).  ``rival``: the candidate a raised near-tie flag names,
+    drawn as the runner-up (so the chart shows the curve the flag's sentence speaks of; -1: none, the
+    lowest CV error after the proposal's is drawn).  ``adjusted``: with controls, each observation's volume
     moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn.
     ``signed``: the snapshot of a curve signed on earlier data, drawn beside them (dash-dot), and the rows
     dated after its data's last date marked apart (×).  ``unobserved``: why the observations will not come,
@@ -109,7 +180,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     plan = float(results.plan_price[s])
     grid = price_grid(float(results.price_lo[s]), float(results.price_hi[s]), plan, results.price_lo[s] > 0)
     names = results.names
-    other = chosen if model != chosen else runner_up(results, s)
+    tied = model == chosen and rival >= 0
+    other = chosen if model != chosen else rival if tied else runner_up(results, s)
     xs = grid.tolist()
     lines = []  # (values over the grid, marker, colour), drawn in this order
     if model >= 0 and results.rows_loaded:
@@ -135,8 +207,7 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
             plt.scatter(*_finite(price[new], volume[new]), marker="×", color=NEW)
     if _plottable(grid).all():
         plt.xlim(float(grid[0]), float(grid[-1]))
-    if window is not None:
-        plt.ylim(*window)
+    _even_y_axis([volume, *(ys for ys, _, _ in lines)], height, window)
     plt.xlabel("price" + (f" ({units['price']})" if units.get("price") else ""))
     if units.get("volume"):
         plt.ylabel(f"volume ({units['volume']})")
@@ -154,7 +225,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     if model >= 0:
         legend.append(f"   ⠤⠤ {names[model]} ({'chosen' if model == chosen else 'override'})", _colour(STANDING))
     if other >= 0:
-        legend.append(f"   -- {names[other]} ({'proposed' if other == chosen else 'runner-up'})", _colour(OTHER))
+        role = "proposed" if other == chosen else "near tie" if tied else "runner-up"
+        legend.append(f"   -- {names[other]} ({role})", _colour(OTHER))
     if model >= 0 and results.rows_loaded:
         legend.append(f"   ·· {results.settings.level:.0%} prediction band", _colour(BAND))
     if signed is not None:
@@ -212,6 +284,7 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
     log_scale = top > LOG_RATIO * max(float(means.min()), 1e-300)
     if log_scale:  # one poor candidate would otherwise flatten all the others against the axis
         plt.yscale("log")
+    _even_y_axis([shown, means - ses, means + ses, folds[:, available]], height, log=log_scale)
     plt.ylabel("held-out MSE" + (" (log scale)" if log_scale else ""))
     legend = Text("● CV mean ± SE", _colour(OTHER))
     legend.append("   • each fold", _colour(OBSERVED))

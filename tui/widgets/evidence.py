@@ -23,7 +23,7 @@ from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money
 
 from .. import engine
-from ..cells import cut, key_label
+from ..cells import cut, key_label, percent
 from ..session import TriageSession, describe
 from ..text import clean
 from .charts import curve_chart, fold_chart
@@ -45,6 +45,30 @@ def gauge(plan: float, lo: float, hi: float, width: int = 24) -> str:
         return f"{money(lo)} ├{''.join(bar)}┤ {money(hi)}"
     return (f"● {money(lo)} ├{''.join(bar)}┤ {money(hi)}" if share < 0
             else f"{money(lo)} ├{''.join(bar)}┤ {money(hi)} ●")
+
+
+def predicts(results, s: int, c: int, volume_text=fmt) -> str:
+    """'poly1 predicts volume -268.9 (95% PI -294.0 to -243.8), no elasticity (…)': candidate ``c`` at the
+    plan price, as the evidence says it and as an accept past a stop flag shows what is signed."""
+    volume = float(results.plan_volume[s, c])
+    # an elasticity is a ratio of relative changes: at a volume at or below zero it means nothing
+    slope = f"elasticity {results.plan_elasticity[s, c]:.2f}" if volume > 0 else \
+        "no elasticity (the volume is not above zero)"
+    return (f"{results.names[c]} predicts volume {volume_text(volume)} ({results.settings.level:.0%} PI "
+            f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}), {slope}")
+
+
+def near_tie_rival(session: TriageSession, s: int) -> int:
+    """The candidate the near-tie flag names when that flag is raised on ``s``, else -1: the diagnosis's own
+    number, or (flags as a results file stored them, sentences only) the candidate its sentence opens with."""
+    diagnosis, names = session.diagnosis, list(session.results.names)
+    if "near-tie" not in session.flag_codes(s):
+        return -1
+    if "rival" in diagnosis.numbers:
+        return int(diagnosis.numbers["rival"][s])
+    said = next((f["message"] for f in diagnosis.flags_of(s) if f["code"] == "near-tie"), "")
+    first = said.split(" ", 1)[0]
+    return names.index(first) if first in names else -1
 
 
 class EvidencePanel(VerticalScroll, can_focus=True):
@@ -137,7 +161,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return
         if observed.rows_loaded or engine.loaded():
             self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
-                                                   self.session.units, self.adjusted, self.signed_shown(s), unobserved))
+                                                   self.session.units, self.adjusted, self.signed_shown(s), unobserved,
+                                                   near_tie_rival(self.session, s)))
         else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
             waiting = unobserved or "observations and band: reading the data …"
             self._part("curve").update(Text(f"curves: starting the engine …; {waiting}", style="dim"))
@@ -222,13 +247,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if c >= 0 and math.isfinite(plan):
             text.append(f"Plan price {self.price(plan)}, {plan_position(plan, lo, hi)}.\n")
             text.append(f"  {gauge(plan, lo, hi)}\n", style="dim")
-            volume = float(results.plan_volume[s, c])
-            # an elasticity is a ratio of relative changes: at a volume at or below zero it means nothing
-            slope = f"elasticity {results.plan_elasticity[s, c]:.2f}" if volume > 0 else \
-                "no elasticity (the volume is not above zero)"
-            text.append(f"{results.names[c]} predicts volume {self.volume(volume)} "
-                        f"({results.settings.level:.0%} PI {fmt(results.plan_lo[s, c])} to "
-                        f"{fmt(results.plan_hi[s, c])}), {slope}.")
+            text.append(predicts(results, s, c, self.volume) + ".")
             if not lo <= plan <= hi:
                 text.append(" An extrapolation.", style=SEVERITY_STYLE["stop"])
             text.append("\n")
@@ -257,7 +276,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             mark = "✓" if c == results.chosen[s] else ""
             mark += "↺" if c == model and c != results.chosen[s] else ""
             table.add_row(mark, cand.name, fmt(results.cv_mse[s, c]), fmt(results.cv_se[s, c]),
-                          f"{results.q2[s, c] * 100:.0f}%", f"{results.r2[s, c] * 100:.0f}%",
+                          percent(results.q2[s, c]), percent(results.r2[s, c]),
                           *([self.control_effects(s, c)] if controls else []))
         return Group(Text("Candidates (✓ proposed, ↺ override)", style="bold"), table, missing)
 

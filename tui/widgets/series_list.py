@@ -12,7 +12,7 @@ from textual.strip import Strip
 
 from fitcore.review.flags import SEVERITY
 
-from ..cells import key_label, pad
+from ..cells import key_label, pad, percent
 from ..session import STATUS_MARK, TriageSession, describe
 
 STOP = Style(color="#ff875f")
@@ -38,7 +38,11 @@ def short_flags(codes: list[str], width: int) -> str:
         while shown and cell_len(" ".join([*shown, more])) > width:
             shown.pop()
             more = f"+{len(marked) - len(shown)}"
-        return " ".join([*shown, more]) if shown else pad(marked[0], width - len(more) - 1) + " " + more
+        if shown:
+            return " ".join([*shown, more])
+        # not even the first whole: it is shown cut, and counts as shown
+        others = len(marked) - 1
+        return pad(marked[0], width - len(f" +{others}")) + f" +{others}" if others else pad(marked[0], width)
     return " ".join(shown)
 
 
@@ -156,7 +160,7 @@ class SeriesList(ScrollView, can_focus=True):
         model = session.model_of(s)
         name = results.names[model] if model >= 0 else "—"
         score = results.score[s]
-        score_text = f"{score * 100:.0f}%" if score == score else "—"
+        score_text = percent(score)
         severity = session.severity(s)
         mark_style = DONE if status in ("accepted", "overridden") else STOP if status == "stale" else DIM
         segments = [

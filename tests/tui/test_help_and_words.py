@@ -1,0 +1,70 @@
+"""Words on the screen: no "-0%", the help's ledger head clear of the scrollbar, every filter named in the
+help, and a filter prompt that says what a flag choice does."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from fitcore import ledger
+from pricefold.show import percent as show_percent
+from tests.tui.conftest import make_app, screen_text, started, until
+from tui.cells import percent
+from tui.listing import FILTER_TITLES, FILTERS
+
+
+@pytest.mark.parametrize("share, shown", [(-0.004, "0%"), (-0.0049, "0%"), (0.004, "0%"), (-0.0051, "-1%"),
+                                          (0.0, "0%"), (-0.04, "-4%"), (0.985, "98%"), (float("nan"), "—")])
+def test_a_share_that_rounds_to_zero_has_no_sign(share, shown):
+    assert percent(share) == shown
+    assert show_percent(share) == shown
+
+
+async def test_no_minus_zero_on_screen(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        results = session.results
+        near = np.flatnonzero((results.q2 > -0.005) & (results.q2 < 0) & results.available)
+        assert len(near)  # the sample has candidates whose Q² rounds to a negative zero
+        s = int(np.argwhere((results.q2 > -0.005) & (results.q2 < 0) & results.available)[0][0])
+        session.set_filter("all", None)
+        session.cursor = int((session.view == s).nonzero()[0][0])
+        app.screen.refresh_all()
+        await pilot.pause(0.5)
+        assert "-0%" not in screen_text(app)
+        await pilot.press("o")
+        await pilot.pause()
+        assert "-0%" not in screen_text(app)
+
+
+@pytest.mark.parametrize("size", [(80, 24), (120, 40)])
+async def test_the_help_shows_the_ledger_head_whole_beside_the_scrollbar(ledger_path, size):
+    app = make_app(ledger_path)
+    async with app.run_test(size=size) as pilot:
+        session = await started(app, pilot)
+        for s in session.view[:12]:  # a head of two digits: 69 characters with its indent
+            session.decide(session.look(int(s)), "note", note="seen")
+        await pilot.press("question_mark")
+        await pilot.pause()
+        await pilot.press("end")
+        await pilot.pause()
+        head = ledger.Ledger(ledger_path).head_text
+        assert head.startswith("12:")
+        [line] = [line for line in screen_text(app).splitlines() if head in line]
+        after = line[line.index(head) + len(head):].split("│")[0]  # up to the dialog's border
+        assert after.strip() == "", line  # nothing drawn after it: the scrollbar has a column of its own
+
+
+async def test_the_help_names_every_filter_and_the_prompt_says_what_a_flag_does(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(160, 50)) as pilot:
+        await started(app, pilot)
+        await pilot.press("question_mark")
+        await until(pilot, lambda: "Keys" in screen_text(app))  # the keys come first: f's line on the first page
+        text = " ".join(screen_text(app).split())
+        for name in FILTERS:
+            assert FILTER_TITLES[name] in text, name
+        await pilot.press("escape", "f")
+        await pilot.pause()
+        text = " ".join(screen_text(app).split())
+        assert "a flag keeps the status, and back" not in text and "A status, or a flag within the status" in text

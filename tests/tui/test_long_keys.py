@@ -1,0 +1,84 @@
+"""Rows of different series read differently however long their names: each key part keeps a share of
+the width and a long part loses its middle (the list, the evidence title and ``pricefold show`` alike)."""
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+import pytest
+from rich.cells import cell_len
+
+from fitcore.data.loader import Columns
+from fitcore.widths import cells, shares
+from tests.tui.conftest import all_listed, csv_source, make_app, screen_text
+from tui.cells import key_label
+from tui.factory import Source
+
+# invented names of the shapes a trial used: two ~60-character product names that differ only at the end,
+# a long store name beside a short one, an emoji and a name with markup-like text
+PRODUCTS = ["extra long product description with many words 750 ml bottle",
+            "extra long product description with many words 750 ml can",
+            "tea 🍵 green", "plain [b]name[/b] oats"]
+STORES = ["S1", "north-east distribution centre 12"]
+
+
+def test_shares_keep_short_parts_whole_and_split_the_rest_evenly():
+    assert shares([5, 100, 3], 40) == [5, 32, 3]
+    assert shares([61, 33], 30) == [15, 15]
+    assert shares([61, 33], 31) == [16, 15]
+    assert shares([10, 12], 40) == [10, 12]
+
+
+@pytest.mark.parametrize("width", range(14, 62))
+def test_every_series_reads_differently_at_every_width(width):
+    keys = list(itertools.product(PRODUCTS, STORES))
+    labels = [key_label(key, width) for key in keys]
+    assert all(cell_len(label) == width for label in labels)
+    assert len(set(labels)) == len(keys), labels
+
+
+def test_a_long_segment_keeps_both_ends():
+    label = key_label(("tea", "north-east distribution centre 12"), 24)
+    assert label == "tea · north-eas…entre 12"
+
+
+def names_source(tmp_path) -> Source:
+    rng = np.random.default_rng(1)
+    prices = np.round(rng.uniform(1, 2, (len(PRODUCTS) * len(STORES), 20)), 2)
+    rows = [(product, store, price, round(400 - 100 * price + rng.normal(0, 20)))
+            for (product, store), series in zip(itertools.product(PRODUCTS, STORES), prices) for price in series]
+    return csv_source(tmp_path / "names.csv", ["product", "store", "price", "volume"], rows,
+                      Columns(segments=("store",)))
+
+
+@pytest.mark.parametrize("size", [(80, 24), (120, 40)])
+async def test_the_list_shows_every_series_distinctly(tmp_path, size):
+    app = make_app(tmp_path / "ledger.jsonl", names_source(tmp_path))
+    async with app.run_test(size=size) as pilot:
+        await all_listed(app, pilot)
+        width = app.screen.series_list.columns(app.screen.series_list.scrollable_content_region.width)[0]
+        lines = screen_text(app).splitlines()[3:3 + len(PRODUCTS) * len(STORES)]
+        keys = [line[2:2 + width] for line in lines]  # after the status mark
+        assert len(keys) == len(PRODUCTS) * len(STORES)
+        assert len(set(keys)) == len(keys), keys
+        assert sum(key.rstrip().endswith(" 12") for key in keys) == len(PRODUCTS)  # the store's end stays
+
+
+def test_show_lists_every_series_distinctly(tmp_path, capsys):
+    from pricefold.cli import main
+    source = names_source(tmp_path)
+    out = tmp_path / "names.parquet"
+    assert main(["fit", str(source.data), "--segment", "store", "-o", str(out), "--quiet"]) == 0
+    capsys.readouterr()
+    assert main(["show", str(out)]) == 0
+    rows = capsys.readouterr().out.splitlines()[1:]
+    keys = [row.split("  ")[0] for row in rows]
+    assert len(keys) == len(PRODUCTS) * len(STORES) and len(set(keys)) == len(keys), keys
+    assert len({cell_len(row.rsplit(" 20 ", 1)[0]) for row in rows}) == 1  # the n column lines up (emoji too)
+
+
+def test_show_measures_cells_as_the_screen_does():
+    """``pricefold show`` cannot import the screen's measure (the report imports it): its own agrees with
+    rich's ``cell_len`` on the names the list shows."""
+    for text in [*PRODUCTS, *STORES, "מוצר ירוק", "緑茶 500 g", "café", "e\u0301", "🇳🇴 flag"]:
+        assert cells(text) == cell_len(text), text
