@@ -15,6 +15,11 @@ CAUTION = ("Curves fitted to observational sales data confound price with promot
            "pricefold proposes; the analyst decides.")
 
 
+# The system failed an input or output (a full disk under stdout): sysexits' EX_IOERR, apart from 1 (a ledger
+# not intact, for 'ledger verify') and 2 (bad input).
+IO_FAILED = 74
+
+
 class OneLineParser(argparse.ArgumentParser):
     """argparse, with a usage mistake reported as one line (the usage is one ``--help`` away)."""
 
@@ -316,7 +321,7 @@ def main(argv: list[str] | None = None) -> int:
     except OSError as exc:  # the system refused a write pricefold did not foresee (a full disk under stdout)
         where = f": {exc.filename}" if exc.filename else " writing the output"
         print(f"pricefold {args.command}: {exc.strerror or exc}{where}", file=sys.stderr)
-        return 1
+        return IO_FAILED
 
 
 def entry() -> None:
