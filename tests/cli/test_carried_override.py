@@ -167,3 +167,21 @@ def test_the_report_counts_a_carried_override_as_overridden(carried, tmp_path):
     html = page.read_text()
     assert '<span class="n">1</span>overridden</li>' in html and '<span class="n">0</span>accepted</li>' in html
     assert "carried)</li>" not in html  # no accept was carried
+
+
+def test_show_gives_the_standing_override_with_its_own_numbers(carried, capsys):
+    """The override stands, not the proposal: show --ledger names it, with its plan numbers (statsmodels OLS
+    get_prediction of the quadratic on the series' rows), and the list's model column says it (↺)."""
+    from pricefold.show import number
+    book, key, data, results = carried
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book), "--product", key["product"]]) == 0
+    out = capsys.readouterr().out
+    reference = quadratic_at_plan(data, key["product"])
+    (line,) = [text.strip() for text in out.splitlines() if text.strip().startswith("stands: ")]
+    assert line.startswith("stands: poly2, overridden by ana at ")
+    assert (f"volume {number(reference['volume'])} ({number(reference['lo'])} to {number(reference['hi'])}), "
+            f"elasticity {reference['elasticity']:.2f}") in line
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
+    row = next(text for text in capsys.readouterr().out.splitlines() if text.startswith(key["product"] + " "))
+    assert " poly2↺ " in row
