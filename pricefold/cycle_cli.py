@@ -378,6 +378,9 @@ def _carry(args) -> int:
 
     written = book.append(decide, identity(args.analyst))
     left.update(outcome)
+    # a hold signs no curve, so no backtest names it, but it waits for a human as much as the rest
+    left["held"] += sum(1 for history in book.histories.values()
+                        if history.current is not None and history.current["action"] == "hold")
     if not args.quiet:
         already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
         rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"

@@ -185,3 +185,14 @@ def test_show_gives_the_standing_override_with_its_own_numbers(carried, capsys):
     assert main(["show", str(results), "--ledger", str(book)]) == 0
     row = next(text for text in capsys.readouterr().out.splitlines() if text.startswith(key["product"] + " "))
     assert " poly2↺ " in row
+
+
+def test_carry_counts_a_held_series_among_those_left(carried, capsys):
+    book, _, _, results = carried
+    before = book.read_bytes()
+    capsys.readouterr()  # carried already: this run records nothing, and says what is left
+    assert main(["ledger", "carry", str(results), "--ledger", str(book), "--analyst", "bo"]) == 0
+    assert book.read_bytes() == before
+    left = next(line for line in capsys.readouterr().err.splitlines() if line.startswith("left for a human: "))
+    held = sum(1 for history in histories(book).values() if history.current["action"] == "hold")
+    assert held == 1 and f"held {held}" in left
