@@ -131,7 +131,7 @@ CASES = [
     Case("newline-in-ignored-column", F, {"d.csv": "newline_in_ignored"}, 0, None,
          checks=("r.rejects.csv ∋ item 1,-2,5,2025-07-01,bad,35,negative price",)),
     Case("blank-lines-are-rejected-with-lines", F, {"d.csv": "blank_lines"}, 0, None,
-         checks=("r.rejects.csv ∋ \n5,empty line", "r.rejects.csv ∋ \n9,empty line")),
+         checks=("r.rejects.csv ∋ \n,,,,5,empty line", "r.rejects.csv ∋ \n,,,,9,empty line")),  # 4 empty cells
     Case("trailing-blank-lines", F, {"d.csv": "trailing_blank"}, 0, None),
     Case("no-final-newline", F, {"d.csv": "no_final_newline"}, 0, None),
     Case("gz-quoted-newline", "fit d.csv.gz -o r.json --quiet", {"d.csv.gz": "gz:quoted_newline"}, 0, None,
