@@ -189,8 +189,11 @@ class ListState:
         series needing attention; in any other (all series, pending, …) simply the next row, as a user
         working down that list expects."""
         position = self.cursor
+        # the series that came after ``s`` before the list was re-sorted (its status changed, so it may move)
+        after = [int(x) for x in self.view[position + 1:] if x != s]
         self.rebuild_view(keep=-1)
-        self._go(min(position, max(len(self.view) - 1, 0)))
+        listed = np.flatnonzero(self.view == after[0]) if after else []
+        self._go(int(listed[0]) if len(listed) else min(position, max(len(self.view) - 1, 0)))
         if len(self.view) and self.view[self.cursor] == s:
             self.move(1)
         if self.filter != "attention":
