@@ -189,8 +189,10 @@ class ListState:
         series needing attention; in any other (all series, pending, …) simply the next row, as a user
         working down that list expects."""
         position = self.cursor
-        # the series that came after ``s`` before the list was re-sorted (its status changed, so it may move)
-        after = [int(x) for x in self.view[position + 1:] if x != s]
+        # the series that came after ``s`` before the list was re-sorted (its status changed, so it may move);
+        # where ``s`` has left the view already, the one that took its row
+        at = np.flatnonzero(self.view == s)
+        after = [int(x) for x in self.view[(int(at[0]) + 1 if len(at) else position):] if x != s]
         self.rebuild_view(keep=-1)
         listed = np.flatnonzero(self.view == after[0]) if after else []
         self._go(int(listed[0]) if len(listed) else min(position, max(len(self.view) - 1, 0)))
