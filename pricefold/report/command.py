@@ -227,6 +227,9 @@ def run(args) -> int:
 
     if not args.results.exists():
         raise DataError("file not found", path=str(args.results))
+    if args.ledger is not None:  # a ledger named but not there is a mistyped name, not "nothing decided yet"
+        from ..cycle_cli import must_exist
+        must_exist(args.ledger, "'report --ledger' only reads it; without --ledger the one beside the results is read")
     ledger_path = args.ledger or default_ledger(args.results)
     guard_output(args.output, [("the results", args.results), ("the ledger", ledger_path)])
     book = open_book(args.results)
