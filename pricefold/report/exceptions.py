@@ -16,7 +16,8 @@ from .tables import at_plan, by_whom, label
 
 def candidates(signoff: Signoff, s: int) -> str:
     results = signoff.results
-    standing, proposal = signoff.model_index(s), int(results.chosen[s])
+    # "stands" only where a decision stands: a pending series' proposal is only the proposal
+    standing, proposal = signoff.model_index(s) if signoff.standing(s) else -1, int(results.chosen[s])
     stands = "signed on earlier data, refitted" if STATUSES[signoff.status[s]] == "stale" else "stands"
     planned = math.isfinite(float(results.plan_price[s]))
     rows, missing = [], []

@@ -159,6 +159,8 @@ def test_the_demo_prints_the_command_that_makes_its_report(tmp_path, monkeypatch
     assert again.split(": ", 1)[1].split() == ["pricefold", "triage", str(folder / "results.parquet"), "--ledger",
                                                str(folder / "ledger.jsonl")]
     assert command[:2] == ["pricefold", "report"]
+    assert cli.main(command[1:]) == 2  # the stubbed triage recorded nothing: no ledger yet, which report says
+    (folder / "ledger.jsonl").touch()  # a ledger (empty) as a session leaves one
     assert cli.main(command[1:]) == 0
     assert "Sign-off report" in (folder / "report.html").read_text()
 
