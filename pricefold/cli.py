@@ -15,6 +15,11 @@ CAUTION = ("Curves fitted to observational sales data confound price with promot
            "pricefold proposes; the analyst decides.")
 
 
+# The system failed an input or output (a full disk under stdout): sysexits' EX_IOERR, apart from 1 (a ledger
+# not intact, for 'ledger verify') and 2 (bad input).
+IO_FAILED = 74
+
+
 class OneLineParser(argparse.ArgumentParser):
     """argparse, with a usage mistake reported as one line (the usage is one ``--help`` away)."""
 
@@ -182,6 +187,7 @@ def run_triage(args) -> int:
         source = source_from_results(args.source, check_data=False)
         check_not_input(ledger_path, [("the results", args.source), *_source_inputs(source)])
         source.units, source.sep = units, _separator(args)
+        other_ledger(source, ledger_path)
         return open_triage(source, ledger_path, args.analyst, stored=args.source)
     if is_results(args.source):
         source = source_from_results(args.source)
@@ -197,7 +203,19 @@ def run_triage(args) -> int:
         inputs = [*_source_inputs(source), *run.inputs]
     check_not_input(ledger_path, inputs)
     source.units = units
+    other_ledger(source, ledger_path)
     return open_triage(source, ledger_path, args.analyst)
+
+
+def other_ledger(source, ledger_path: Path) -> None:
+    """A warning on the screen when the results were fitted against another ledger than the one the screen
+    records into (a mistyped --ledger opens a new, empty ledger: every series pending)."""
+    from .cycle_cli import same_file
+    fitted = source.fitted_ledger
+    if fitted and not same_file(Path(fitted), ledger_path):
+        new = "" if ledger_path.exists() else ", a new one (no decisions yet)"
+        source.warnings.append(f"These results were fitted against the ledger {fitted}; this screen records into "
+                               f"{ledger_path}{new}. Check --ledger.")
 
 
 def _separator(args) -> str | None:
@@ -316,7 +334,7 @@ def main(argv: list[str] | None = None) -> int:
     except OSError as exc:  # the system refused a write pricefold did not foresee (a full disk under stdout)
         where = f": {exc.filename}" if exc.filename else " writing the output"
         print(f"pricefold {args.command}: {exc.strerror or exc}{where}", file=sys.stderr)
-        return 1
+        return IO_FAILED
 
 
 def entry() -> None:

@@ -155,6 +155,32 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
     return status, needs
 
 
+def standing_override(record: dict, book) -> dict | None:
+    """The override (made here, or carried forward) that stands on the series of a results ``record`` on
+    its data, or None: its model, not the proposal, is the series' model."""
+    history = book.histories.get(series_id(record["key"]))
+    if history is None or history.status(record["fingerprint"]) != "overridden":
+        return None
+    decision = history.decision
+    return decision if decision is not None and decision["action"] == "override" else None
+
+
+def override_words(record: dict, stands: dict) -> str:
+    """'stands: poly1, overridden by ana at …; at the plan price 2.50: volume 250.0 (204.1 to 295.9), elasticity
+    -0.71' — the standing model's own numbers from the record's candidates."""
+    from .show import money, number, slope
+    model = stands["model"]
+    at = str(stands["at"])[:16].replace("T", " ") + " UTC"
+    said = f"stands: {clean(str(model))}, overridden by {clean(str(stands['analyst']))} at {clean(at)}"
+    plan = record.get("plan")
+    cand = next((c for c in record["candidates"] if c["name"] == model), None)
+    if not plan or cand is None or cand.get("plan_volume") is None:
+        return said
+    return (f"{said}; at the plan price {number(plan['price'], money)}: volume {number(cand['plan_volume'])} "
+            f"({number(cand['plan_lo'])} to {number(cand['plan_hi'])}), "
+            + slope({"volume": cand["plan_volume"], "elasticity": cand["plan_elasticity"]}))
+
+
 def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
     """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list."""
     from fitcore.review.sentences import shift_sentence
@@ -165,17 +191,22 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
         record = records[0]
         status, needs = ledger_state(record, book)
         lines = [detail(record, binary), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
+        stands = standing_override(record, book)
+        if stands is not None:
+            lines.append("  " + override_words(record, stands))
         if record.get("backtest"):
             lines.append("  " + shift_sentence(record["backtest"], record["chosen"]))
         return "\n".join(lines)
-    lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'status':<20} {'due':<16} {'ratio':>5} {'cover':>5}  flags"]
+    lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<16} {'ratio':>5} {'cover':>5}  flags"]
     for record in in_attention_order(records):
         status, needs = ledger_state(record, book, short=True)
         bt = record.get("backtest") or {}
         ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
         cover = f"{bt['coverage'] * 100:.0f}%" if bt.get("coverage") is not None else "—"
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
-        lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {record['chosen'] or '—':<7} "
+        stands = standing_override(record, book)
+        model = f"{stands['model']}↺" if stands is not None else record["chosen"] or "—"
+        lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {model:<7} "
                      f"{status:<20} {(needs or '—')[:16]:<16} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
 
@@ -347,6 +378,9 @@ def _carry(args) -> int:
 
     written = book.append(decide, identity(args.analyst))
     left.update(outcome)
+    # a hold signs no curve, so no backtest names it, but it waits for a human as much as the rest
+    left["held"] += sum(1 for history in book.histories.values()
+                        if history.current is not None and history.current["action"] == "hold")
     if not args.quiet:
         already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
         rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"

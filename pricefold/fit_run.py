@@ -140,7 +140,7 @@ def _fit_locally(args, run) -> int:
         from .cycle_cli import LedgerAhead
         ahead = LedgerAhead(args.ledger, [args.output])
     data, rejects = load_with_rejects(args.data, run.columns, sep=run.sep)
-    free, read = zero_price_line(data), data.source["rows"]
+    free, read = zero_price_line(data, args.data, run.columns.price), data.source["rows"]
     target = rejects_path(args.output)
     if len(rejects):
         strict_or_foreign(rejects, target, args.strict)
@@ -163,7 +163,7 @@ def _fit_locally(args, run) -> int:
             from .cycle_cli import backtest_against
             diagnosis, backtest = backtest_against(ahead, results, diagnosis, run.thresholds)
         told = summary(results, diagnosis)
-        unplanned = unplanned_line(results) if run.plan_file is not None else ""
+        unplanned = unplanned_line(results, run.plan_file) if run.plan_file is not None else ""
         fitted = time.perf_counter()  # read, fitted and diagnosed: the writing is timed apart
         write, by_name = prepared_results(results, args.output, diagnosis, backtest)
         # What the table takes per series is made; it keeps the fit and the rows it still needs (prices): the
@@ -173,7 +173,7 @@ def _fit_locally(args, run) -> int:
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
     if len(rejects):  # a warning, not progress: --quiet keeps it
-        print(rejects_line(rejects.reasons, target, read), file=sys.stderr)
+        print(rejects_line(rejects.reasons, target, read, first_words(rejects, run.columns)), file=sys.stderr)
     for warning in (free, unplanned):  # warnings too
         if warning:
             print(warning, file=sys.stderr)
@@ -202,7 +202,7 @@ def strict_or_foreign(rejects, target: Path, strict: bool) -> None:
                         "there; remove it or choose another results name", path=str(target))
 
 
-def zero_price_line(data) -> str:
+def zero_price_line(data, path: Path, column: str) -> str:
     """A warning when some kept rows have a price of 0 (a price is checked for being a number and not
     negative: a polynomial can use 0, and exact reference data sets put x = 0 through the command), as a
     missing price written as 0 would be: how many rows in how many series, and what it does to the fit."""
@@ -213,19 +213,28 @@ def zero_price_line(data) -> str:
     series = len(np.unique(np.searchsorted(data.offsets, zero, side="right")))
     rows = f"{len(zero):,} rows in {series:,} series have" if len(zero) > 1 else "1 row has"
     first = "" if data.line is None else f" ({'the first at ' if len(zero) > 1 else ''}line {int(data.line[zero].min()):,})"
-    return (f"{rows} a price of 0{first}: kept, but often a missing price written as 0; a log-log curve needs "
-            "prices above zero and is unavailable there")
+    return (f"{path}, column {column!r}: {rows} a price of 0{first}: kept, but often a missing price written as 0; "
+            "a log-log curve needs prices above zero and is unavailable there")
 
 
-def unplanned_line(results) -> str:
+def unplanned_line(results, plan_file: Path) -> str:
     """A warning when the plan file gives no price for some series: they get no plan volume, interval or
-    outside-range check, which a partial plan file would otherwise leave unsaid."""
+    outside-range check, which a partial plan file would otherwise leave unsaid; the first such series named."""
     import numpy as np
-    missing = int((~np.isfinite(results.plan_price)).sum())
-    if not missing:
+    missing = np.flatnonzero(~np.isfinite(results.plan_price))
+    if not len(missing):
         return ""
-    return (f"the plan file prices {results.n_series - missing:,} of {results.n_series:,} series: the other "
-            f"{missing:,} have no plan price (no plan volume, interval or outside-range check)")
+    first = " · ".join(str(value) for value in results.data.key_of(int(missing[0])).values())
+    return (f"{plan_file}: prices {results.n_series - len(missing):,} of {results.n_series:,} series; the other "
+            f"{len(missing):,} (the first: {first}) have no plan price (no plan volume, interval or outside-range "
+            "check)")
+
+
+def first_words(rejects, columns) -> str:
+    """', the first at line 5, column 'price': non-numeric price: '2,08' (a decimal comma? …)'."""
+    from fitcore.data.loader import first_rejected
+    column, said = first_rejected(rejects, columns)
+    return f", the first at line {int(rejects.lines[0]):,}" + (f", column {column!r}" if column else "") + f": {said}"
 
 
 def summary(results, diagnosis):

@@ -176,6 +176,10 @@ def run_accept_unflagged(args) -> int:
     # What the results propose and the models as they stand, read before taking the lock (a results
     # folder can be large).
     header, proposals = unflagged(args.results)
+    fitted = (header.get("ledger") or {}).get("path")
+    if fitted and Path(fitted).exists() and not args.ledger.exists():  # a mistyped --ledger: no new ledger
+        raise ledger.LedgerError(f"{args.ledger}: no such ledger, and {args.results} was fitted against {fitted}; "
+                                 "check --ledger (nothing was written)")
     digest = ledger.results_digest(header)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
 

@@ -13,10 +13,11 @@ def summary_line(n_series: int, n_rows: int, chosen: dict, flags: dict, clean: i
             f"flags: {flagged}; {clean:,} series ({share:.0%}) carry none → {where}")
 
 
-def rejects_line(reasons: list[str], where: Path, read: int) -> str:
+def rejects_line(reasons: list[str], where: Path, read: int, first: str = "") -> str:
     """'3 rows rejected: 1 negative price · … — see r.rejects.csv'; ``read``: the rows read, so that a run
-    fitting what little is left of a misread file (a wrong delimiter, decimal commas) says so."""
+    fitting what little is left of a misread file (a wrong delimiter, decimal commas) says so, with
+    ``first``: where the first rejected row is and why (``loader.first_rejected``)."""
     from fitcore.data.validation import summary
-    most = (f"; that is {len(reasons):,} of the {read:,} rows read: check the delimiter (--sep), the columns "
-            "and the decimal mark (--strict fails such a run)") if 2 * len(reasons) > read else ""
+    most = (f"; that is {len(reasons):,} of the {read:,} rows read{first}: check the delimiter (--sep), the "
+            "columns and the decimal mark (--strict fails such a run)") if 2 * len(reasons) > read else ""
     return f"{summary(reasons)} — see {where}{most}"

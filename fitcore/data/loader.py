@@ -77,19 +77,26 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
 
 def no_usable_rows(rejects: Rejects, columns: Columns) -> DataError:
     """Every row rejected: the counts by reason, and the first rejected row's line, column, reason and cell
-    (a decimal comma, the usual cause of a whole column of non-numbers, said as such)."""
+    (``first_rejected``)."""
+    from .validation import summary
+    column, said = first_rejected(rejects, columns)
+    return DataError(f"no usable rows ({summary(rejects.reasons)}); the first is {said}",
+                     path=str(rejects.path), line=int(rejects.lines[0]), column=column)
+
+
+def first_rejected(rejects: Rejects, columns: Columns) -> tuple[str | None, str]:
+    """``(column, words)``: the column of the first rejected row's reason and the reason with its cell, a
+    decimal comma (the usual cause of a whole column of non-numbers) said as such."""
     import re
 
     from .rejects import first_cell
-    from .validation import summary
     why = rejects.reasons[0]
     column = next((name for name in columns.needed if why.endswith(f" {name}") or why.startswith(f"{name} ")), None)
     cell = first_cell(rejects, column) if column and why.startswith("non-numeric ") else None
     found = "" if cell is None else f": {cell!r}"
     if cell is not None and re.fullmatch(r"\s*[-+]?\d*,\d+\s*", cell):
         found += f" (a decimal comma? numbers are read with a decimal point: {cell.strip().replace(',', '.')})"
-    return DataError(f"no usable rows ({summary(rejects.reasons)}); the first is {why}{found}",
-                     path=str(rejects.path), line=int(rejects.lines[0]), column=column)
+    return column, why + found
 
 
 def _digest_beside(path: Path):

@@ -4,8 +4,9 @@ The rejects file is ``<results name minus its last extension>.rejects.csv`` besi
 (``fit.v1.json`` → ``fit.v1.rejects.csv``); a Dask results folder holds ``rejects.csv``.  Each rejected
 row is written with its original cells, byte for byte (text that is not UTF-8 stays as it was, nothing
 is neutralised), then two more fields: ``line`` and ``reason``.  The header is the input's, then
-``line,reason``.  A row whose line could not be split into the header's fields has its own number of
-cells: ``line`` and ``reason`` are always the last two fields.
+``line,reason``.  Every row has the header's number of fields, so a CSV reader finds ``line`` and
+``reason`` under their names: a line with fewer fields than the header is padded with empty cells, one
+with more has its extra fields joined to its last one with the delimiter, as they stood in the line.
 """
 from __future__ import annotations
 
@@ -67,12 +68,13 @@ def write_rejects(rejects: Rejects, handle: BinaryIO) -> None:
     elif not _unquoted_rows(rejects, wanted, writer):
         with open_text(rejects.path, errors="surrogateescape") as source:
             reader = csv.reader(source, delimiter=rejects.delimiter)
-            writer.writerow([*next(reader, []), "line", "reason"])
+            header = next(reader, [])
+            writer.writerow([*header, "line", "reason"])
             end = reader.line_num
             for record in reader:
                 start, end = end + 1, reader.line_num
                 if start in wanted:
-                    writer.writerow([*record, start, wanted[start]])
+                    writer.writerow([*as_wide(record, len(header), rejects.delimiter), start, wanted[start]])
     text.flush()
     text.detach()  # the handle belongs to the caller
 
@@ -99,10 +101,21 @@ def _unquoted_rows(rejects: Rejects, wanted: dict, writer) -> bool:
     def fields(i: int, strip: str = "") -> list[str]:
         text = bytes(data[starts[i]:ends[i]]).decode("utf-8", "surrogateescape").removeprefix(strip)
         return text.split(delimiter) if text else []
-    writer.writerow([*fields(0, "\ufeff"), "line", "reason"])  # a byte-order mark is not the header's
+    header = fields(0, "\ufeff")  # a byte-order mark is not the header's
+    writer.writerow([*header, "line", "reason"])
     for line in sorted(wanted):
-        writer.writerow([*fields(line - 1), line, wanted[line]])
+        writer.writerow([*as_wide(fields(line - 1), len(header), delimiter), line, wanted[line]])
     return True
+
+
+def as_wide(record: list[str], width: int, delimiter: str) -> list[str]:
+    """``record`` with ``width`` fields: padded with empty cells, or its fields from the last one on joined
+    with the delimiter (the text they were in the line)."""
+    if len(record) < width:
+        return record + [""] * (width - len(record))
+    if len(record) > width and width > 0:
+        return [*record[:width - 1], delimiter.join(record[width - 1:])]
+    return record
 
 
 def _parquet_rows(rejects: Rejects, wanted: dict, writer) -> None:

@@ -115,6 +115,8 @@ def due(record: dict | None) -> str | None:
         return "backtest failed"
     if record.get("shifted"):
         return "shifted"
+    if status == PASSED and record.get("shape_changed"):  # passed, but this cycle proposes another shape
+        return "proposal changed"
     return {PASSED: "backtest passed", NO_DATES: "no dates", UNDATED: "no dates", NO_NEW_ROWS: "no new rows",
             UNSIGNED: "no signed model", CONTROLS_CHANGED: "controls changed since signing"}.get(status, status)
 

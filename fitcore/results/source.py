@@ -32,6 +32,7 @@ class Source:
     expected_sha256: str | None = None  # the data's digest when the results were written, checked before a refit
     units: dict = field(default_factory=dict)  # labels from the settings file's [units] table: price, volume
     sep: str | None = None  # the data's field separator (None: found from the header), as ``fit --sep``
+    fitted_ledger: str | None = None  # the ledger results were fitted against (``fit --ledger``), as recorded
 
     @property
     def found(self) -> bool:
@@ -64,7 +65,8 @@ def source_from_results(path: Path, check_data: bool = True) -> Source:
     source = Source(data=data, columns=Columns.from_dict(extra["columns"]),
                     settings=replace(settings, extra={}),
                     plan_file=Path(plan["file"]) if plan.get("file") else None, plan_price=plan.get("price"),
-                    thresholds=Thresholds(**extra.get("thresholds", {})))
+                    thresholds=Thresholds(**extra.get("thresholds", {})),
+                    fitted_ledger=(head.get("ledger") or {}).get("path"))
     if not check_data:
         source.expected_sha256 = head["input"]["sha256"]
     elif file_sha256(data) != head["input"]["sha256"]:

@@ -167,3 +167,52 @@ def test_the_report_counts_a_carried_override_as_overridden(carried, tmp_path):
     html = page.read_text()
     assert '<span class="n">1</span>overridden</li>' in html and '<span class="n">0</span>accepted</li>' in html
     assert "carried)</li>" not in html  # no accept was carried
+
+
+def test_show_gives_the_standing_override_with_its_own_numbers(carried, capsys):
+    """The override stands, not the proposal: show --ledger names it, with its plan numbers (statsmodels OLS
+    get_prediction of the quadratic on the series' rows), and the list's model column says it (↺)."""
+    from pricefold.show import number
+    book, key, data, results = carried
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book), "--product", key["product"]]) == 0
+    out = capsys.readouterr().out
+    reference = quadratic_at_plan(data, key["product"])
+    (line,) = [text.strip() for text in out.splitlines() if text.strip().startswith("stands: ")]
+    assert line.startswith("stands: poly2, overridden by ana at ")
+    assert (f"volume {number(reference['volume'])} ({number(reference['lo'])} to {number(reference['hi'])}), "
+            f"elasticity {reference['elasticity']:.2f}") in line
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
+    row = next(text for text in capsys.readouterr().out.splitlines() if text.startswith(key["product"] + " "))
+    assert " poly2↺ " in row
+
+
+def test_carry_counts_a_held_series_among_those_left(carried, capsys):
+    book, _, _, results = carried
+    before = book.read_bytes()
+    capsys.readouterr()  # carried already: this run records nothing, and says what is left
+    assert main(["ledger", "carry", str(results), "--ledger", str(book), "--analyst", "bo"]) == 0
+    assert book.read_bytes() == before
+    left = next(line for line in capsys.readouterr().err.splitlines() if line.startswith("left for a human: "))
+    held = sum(1 for history in histories(book).values() if history.current["action"] == "hold")
+    assert held == 1 and f"held {held}" in left
+
+
+def test_signing_into_a_mistyped_ledger_is_refused_or_warned(carried, tmp_path, capsys):
+    """Results fitted against a ledger name it: accept-unflagged will not start a new ledger elsewhere (a
+    mistyped --ledger), and the triage screen warns when it records into another one."""
+    from fitcore.results.source import source_from_results
+    from pricefold.cli import other_ledger
+    book, _, _, results = carried
+    missing = tmp_path / "ledgr.jsonl"
+    capsys.readouterr()
+    assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(missing), "--analyst", "cy"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "no such ledger" in err and str(book) in err and not missing.exists()
+    source = source_from_results(results)
+    other_ledger(source, missing)
+    assert source.warnings == [f"These results were fitted against the ledger {book}; this screen records into "
+                               f"{missing}, a new one (no decisions yet). Check --ledger."]
+    same = source_from_results(results)
+    other_ledger(same, book)
+    assert same.warnings == []

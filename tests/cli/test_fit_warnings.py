@@ -41,7 +41,8 @@ def test_prices_of_zero_are_counted_with_their_first_line(tmp_path, capsys):
     code, said = fit(capsys, data, "-o", tmp_path / "r.parquet")
     assert code == 0
     (line,) = [text for text in said if "price of 0" in text]
-    assert line.startswith(f"{len(zero)} rows in {len(series)} series have a price of 0 (the first at line {min(zero)})")
+    assert line.startswith(f"{data}, column 'price': {len(zero)} rows in {len(series)} series have a price of 0 "
+                           f"(the first at line {min(zero)})")
     code, said = fit(capsys, SAMPLE / "wholesale.csv", "-o", tmp_path / "clean.parquet")
     assert code == 0 and not any("price of 0" in text for text in said)
 
@@ -54,10 +55,12 @@ def test_a_plan_file_pricing_some_series_is_said(tmp_path, capsys):
     priced = {(row["product"], row["region"]) for row in plan[:7]} & keys
     code, said = fit(capsys, SAMPLE / "wholesale.csv", "--plan", part, "-o", tmp_path / "r.parquet")
     assert code == 0
-    assert f"the plan file prices {len(priced)} of {len(keys)} series: the other {len(keys) - len(priced)} have " \
-           "no plan price (no plan volume, interval or outside-range check)" in said
+    order = list(dict.fromkeys((row["product"], row["region"]) for row in sample_rows()))
+    unpriced = [key for key in order if key not in priced]  # the series in the file's order: the first is named
+    assert f"{part}: prices {len(priced)} of {len(keys)} series; the other {len(keys) - len(priced)} (the first: " \
+           f"{' · '.join(unpriced[0])}) have no plan price (no plan volume, interval or outside-range check)" in said
     code, said = fit(capsys, SAMPLE / "wholesale.csv", "--plan", SAMPLE / "plan.csv", "-o", tmp_path / "all.parquet")
-    assert code == 0 and not any("plan file prices" in text for text in said)
+    assert code == 0 and not any("have no plan price" in text for text in said)
 
 
 @pytest.mark.parametrize("cell, hint", [("2,08", True), ("two", False)])
@@ -83,4 +86,5 @@ def test_a_run_that_rejects_most_rows_says_so(tmp_path, capsys, bad, said_most):
     assert code == 0
     (line,) = [text for text in said if "rejected" in text]
     assert line.startswith(f"{bad} rows rejected: {bad} non-numeric price — see {tmp_path / 'r.rejects.csv'}")
-    assert (f"; that is {bad} of the 30 rows read: check the delimiter" in line) is said_most
+    assert (f"; that is {bad} of the 30 rows read, the first at line 2, column 'price': non-numeric price: 'n/a': "
+            "check the delimiter" in line) is said_most

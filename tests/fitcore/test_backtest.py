@@ -143,3 +143,11 @@ def test_the_shift_sentence_gives_changes_as_changes():
     text = shift_sentence(record, "loglog")
     assert text.endswith("This cycle's proposal, loglog, predicts 905 (−13% on the signed curve; its elasticity "
                          "differs by +0.289).")
+
+
+def test_a_passed_backtest_under_a_new_proposal_is_due_a_look():
+    """The signed curve passed, but this cycle proposes another shape: carry leaves it ("shape changed"), so
+    what it needs says that, not "backtest passed"."""
+    from fitcore.ledger.backtest import due
+    assert due({"status": PASSED, "shifted": False, "shape_changed": True}) == "proposal changed"
+    assert due({"status": PASSED, "shifted": False, "shape_changed": False}) == "backtest passed"

@@ -2,6 +2,7 @@
 it must be byte for byte what Python's csv module, reading every line, writes (``write_rejects``' other path)."""
 from __future__ import annotations
 
+import csv
 import gzip
 import io
 
@@ -44,6 +45,14 @@ def test_cut_from_the_bytes_as_the_csv_module_reads_them(tmp_path, monkeypatch, 
     fast = written(rejects)
     monkeypatch.setattr(rejects_module, "_unquoted_rows", lambda *args: False)
     assert used == [True] and fast == written(rejects)
+    # every row as wide as the header: a CSV reader finds line and reason under their names (an extra field
+    # joined to the last one, a missing one empty)
+    text = fast.decode("utf-8", "surrogateescape")
+    rows = list(csv.DictReader(io.StringIO(text, newline=""), delimiter=","))
+    assert [int(row["line"]) for row in rows] == rejects.lines.tolist()
+    assert [row["reason"] for row in rows] == rejects.reasons and all(None not in row for row in rows)
+    wide = next(row for row in rows if row["reason"] == "expected 3 fields, found 4")
+    assert wide["volume"] == delimiter.join(["7", "9"])
 
 
 def test_a_file_with_a_quote_is_read_by_the_csv_module(tmp_path, monkeypatch):
@@ -55,4 +64,4 @@ def test_a_file_with_a_quote_is_read_by_the_csv_module(tmp_path, monkeypatch):
     write_rejects(rejects, out)
     assert out.getvalue().decode().splitlines() == ["product,price,volume,line,reason",
                                                     "a,x,11,3,non-numeric price",
-                                                    "b,2.0,4,\"expected 3 fields, found 2\""]
+                                                    "b,2.0,,4,\"expected 3 fields, found 2\""]

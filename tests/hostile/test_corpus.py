@@ -12,7 +12,7 @@ from .harness import cleanup, run_case
 
 
 # the warnings --quiet keeps (README): rejected rows, prices of 0, a plan file that prices only some series
-WARNING = re.compile(r"[\d,]+ rows? rejected: .+ — see \S|.*\bha(s|ve) a price of 0\b|the plan file prices [\d,]+ of ")
+WARNING = re.compile(r"[\d,]+ rows? rejected: .+ — see \S|.*\bha(s|ve) a price of 0\b|.*: prices [\d,]+ of [\d,]+ series; the other ")
 
 
 @pytest.fixture(scope="module")

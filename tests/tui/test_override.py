@@ -112,6 +112,9 @@ async def test_after_an_override_the_list_and_the_evidence_show_the_model_that_s
         text = screen_text(app)
         row = next(line for line in text.splitlines() if line.startswith("↺ lemons 500 g · East"))
         assert f" {runner} " in row
+        # its own score (Q²), not the proposal's; the shares as the list prints them (tui.cells.percent)
+        from tui.cells import percent
+        assert row.split(f" {runner} ")[1].split()[0] == percent(session.results.q2[s, c])
         assert f"{runner} predicts volume {fmt(session.results.plan_volume[s, c])}" in text
         assert f"(95% PI {fmt(session.results.plan_lo[s, c])} to {fmt(session.results.plan_hi[s, c])})" in text
         assert "Overridden to " + runner in text

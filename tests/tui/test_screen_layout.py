@@ -271,13 +271,13 @@ async def test_a_notification_under_a_dialog_is_drawn_once(ledger_path, size):
         app.notify("zebra", timeout=30)
         await pilot.pause(0.3)
         await pilot.press("n")
-        await until(pilot, lambda: "Note on this series" in screen_text(app))
+        await until(pilot, lambda: f"Note on {app.session.label(app.session.current)}" in screen_text(app))
         app.notify("okapi", timeout=30)
         await pilot.pause(0.3)
         shown = screen_text(app)
         assert shown.count("zebra") == 1 and shown.count("okapi") == 1, shown
         await pilot.press("escape")
-        await until(pilot, lambda: "Note on this series" not in screen_text(app))
+        await until(pilot, lambda: "Note on " not in screen_text(app))
         await pilot.pause(0.3)
         shown = screen_text(app)
         assert shown.count("zebra") == 1 and shown.count("okapi") == 1, shown

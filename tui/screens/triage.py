@@ -297,7 +297,7 @@ class TriageScreen(Screen):
     def action_note(self) -> None:
         shown = self.session.shown
         if shown is not None:
-            self.ask("Note on this series", "what should the next reader know?", True,
+            self.ask(f"Note on {self.session.label(shown.series)}", "what should the next reader know?", True,
                      lambda note: self.decide(shown, "note", note=note))
 
     def action_nothing_to_override(self) -> None:

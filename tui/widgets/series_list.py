@@ -159,7 +159,8 @@ class SeriesList(ScrollView, can_focus=True):
         status = session.status[s]
         model = session.model_of(s)
         name = results.names[model] if model >= 0 else "—"
-        score = results.score[s]
+        # the score of the model that stands: an override's own Q², not the proposal's
+        score = results.q2[s, model] if 0 <= model != results.chosen[s] else results.score[s]
         score_text = percent(score)
         severity = session.severity(s)
         mark_style = DONE if status in ("accepted", "overridden") else STOP if status == "stale" else DIM
