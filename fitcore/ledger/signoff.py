@@ -130,19 +130,30 @@ class Signoff:
         return history.current if history else None
 
     def model_index(self, s: int) -> int:
-        """The candidate that stands for series ``s``: the decided model, else the proposal (-1: none)."""
+        """The candidate that stands for series ``s``: the decided model, else the proposal while pending
+        (-1: none — a hold signs no curve, or no candidate could be fitted)."""
         current = self.standing(s)
+        if current is not None and current.get("action") == "hold":
+            return -1
         names = self.results.names
         if current is not None and current.get("model") in names:
             return names.index(current["model"])
         return int(self.results.chosen[s])
 
+    def carried_decision(self, s: int) -> dict | None:
+        """The accept or override a standing ``carry`` on series ``s`` carries forward: who decided, when, with
+        which note (None: no carry stands)."""
+        history = self.histories.get(int(s))
+        return history.carried if history else None
+
+    def note_record(self, s: int) -> dict | None:
+        """The latest record with a non-empty note on series ``s`` (any action; its own analyst and time), or None."""
+        return next((record for record in reversed(self.history(s)) if record.get("note")), None)
+
     def last_note(self, s: int) -> str:
         """The latest non-empty note on series ``s`` (any action), or ''."""
-        for record in reversed(self.history(s)):
-            if record.get("note"):
-                return str(record["note"])
-        return ""
+        record = self.note_record(s)
+        return str(record["note"]) if record else ""
 
     def is_bulk(self, record: dict) -> bool:
         return record.get("seq") in self.bulk_seqs

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from fitcore.ledger.snapshot import signed_curve
 from fitcore.review.evidence import band, curve
 
 STANDING, PROPOSAL, BAND, PLAN, POINTS = "#1d5f99", "#b4531c", "#9cc3e4", "#6b3a8c", "#4d4d4d"
@@ -27,7 +28,9 @@ RC = {"svg.fonttype": "none", "font.size": 9, "axes.spines.top": False, "axes.sp
 class ChartInput:
     """What one chart shows.  ``fit``/``at``: the results and series index to evaluate (a fit of the
     data when it matches, else the results as read); ``rows``: observations and band available;
-    ``standing``/``proposal``: candidate indices (-1: none); ``words``: how the standing curve is named."""
+    ``standing``/``proposal``: candidate indices (-1: none); ``words``: how the standing curve is named;
+    ``signed``: the snapshot the standing curve is drawn from (a stale series; the proposal and the band are
+    then this fit's)."""
 
     fit: object
     at: int
@@ -35,6 +38,7 @@ class ChartInput:
     standing: int
     proposal: int
     words: str
+    signed: dict | None = None  # a stale series' signed snapshot: its curve as signed, not this fit's
 
 
 @dataclass(frozen=True)
@@ -89,10 +93,11 @@ class ChartMaker:
             buffer = io.StringIO()
             self.figure.savefig(buffer, format="svg", metadata={"Date": None})
         names, plan = chart.fit.names, float(chart.fit.plan_price[chart.at])
-        return Drawn(inline_svg(buffer.getvalue(), label),
-                     f"{names[chart.standing]} ({chart.words})" if chart.standing >= 0 else "",
-                     f"{names[chart.proposal]} (proposal)" if chart.proposal >= 0 and chart.proposal != chart.standing
-                     else "", chart.rows and chart.standing >= 0, f"{plan:,.2f}" if np.isfinite(plan) else "",
+        standing = (chart.signed.get("candidate") or names[chart.standing]) if chart.signed else (
+            names[chart.standing] if chart.standing >= 0 else "")
+        return Drawn(inline_svg(buffer.getvalue(), label), f"{standing} ({chart.words})" if standing else "",
+                     f"{names[chart.proposal]} (proposal)" if _proposal_drawn(chart) else "",
+                     chart.rows and _banded(chart) >= 0, f"{plan:,.2f}" if np.isfinite(plan) else "",
                      chart.rows, note)
 
     def _draw(self, chart: ChartInput) -> None:
@@ -103,15 +108,17 @@ class ChartMaker:
         if self.band is not None:
             self.band.remove()
             self.band = None
-        if chart.standing >= 0 and chart.rows:
-            lower, upper = band(results, s, chart.standing, grid)
+        banded = _banded(chart)
+        if banded >= 0 and chart.rows:
+            lower, upper = band(results, s, banded, grid)
             self.band = ax.fill_between(grid, lower, upper, color=BAND, alpha=0.45, linewidth=0)
             ys += [lower, upper]
-        for line, c in ((self.proposal, chart.proposal if chart.proposal != chart.standing else -1),
-                        (self.standing, chart.standing)):
+        for line, c in ((self.proposal, chart.proposal if _proposal_drawn(chart) else -1),
+                        (self.standing, 0 if chart.signed else chart.standing)):
             line.set_visible(c >= 0)
             if c >= 0:
-                values = curve(results, s, c, grid)
+                values = signed_curve(chart.signed, grid) if line is self.standing and chart.signed else curve(
+                    results, s, c, grid)
                 line.set_data(grid, values)
                 ys.append(values)
         self.plan.set_visible(bool(np.isfinite(plan)))
@@ -129,6 +136,17 @@ class ChartMaker:
         pad = (high - low) * 0.05 or max(abs(high) * 0.05, 1.0)
         ax.set_xlim(grid[0], grid[-1])
         ax.set_ylim(low - pad, high + pad)
+
+
+def _proposal_drawn(chart: ChartInput) -> bool:
+    """The proposal has its own line unless it is the curve that stands (a signed snapshot never is)."""
+    return chart.proposal >= 0 and (chart.proposal != chart.standing or chart.signed is not None)
+
+
+def _banded(chart: ChartInput) -> int:
+    """The candidate of this fit whose 95% band is drawn: the standing one, else (held, pending without a
+    standing curve, or signed on other data) the proposal."""
+    return chart.proposal if chart.signed is not None or chart.standing < 0 else chart.standing
 
 
 def _thousands(value, _position=None) -> str:

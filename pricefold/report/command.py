@@ -195,9 +195,14 @@ class Charts:
             note = "" if same else "this series' rows changed since the results were written"
         else:
             rows = False
-        words = {"accepted": "accepted", "overridden": "override", "held": "proposal, held",
-                 "pending": "proposal", "stale": "signed on earlier data"}[STATUSES[signoff.status[s]]]
-        chart = ChartInput(fit, at, rows and bool(fit.rows_loaded), standing, proposal, words)
+        status = STATUSES[signoff.status[s]]
+        words = {"accepted": "accepted", "overridden": "override", "held": "held",
+                 "pending": "proposal", "stale": "signed on earlier data"}[status]
+        # a stale series' curve is drawn as signed (its snapshot); without one (a /1 record) none is drawn
+        signed = (signoff.standing(s) or {}).get("signed") if status == "stale" and standing >= 0 else None
+        if status == "stale" and not signed:
+            standing = -1
+        chart = ChartInput(fit, at, rows and bool(fit.rows_loaded), standing, proposal, words, signed)
         return self.maker.draw(chart, esc(f"Demand curve of {label(book.results, s)}"), note, salt=f"s{s}")
 
 
@@ -227,6 +232,9 @@ def run(args) -> int:
 
     if not args.results.exists():
         raise DataError("file not found", path=str(args.results))
+    if args.ledger is not None:  # a ledger named but not there is a mistyped name, not "nothing decided yet"
+        from ..cycle_cli import must_exist
+        must_exist(args.ledger, "'report --ledger' only reads it; without --ledger the one beside the results is read")
     ledger_path = args.ledger or default_ledger(args.results)
     guard_output(args.output, [("the results", args.results), ("the ledger", ledger_path)])
     book = open_book(args.results)

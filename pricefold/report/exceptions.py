@@ -11,19 +11,21 @@ import math
 from fitcore.ledger.signoff import STATUSES, Signoff
 
 from .page import Report, cell, elasticity, esc, interval, num, price, when
-from .tables import label
+from .tables import at_plan, by_whom, label
 
 
 def candidates(signoff: Signoff, s: int) -> str:
     results = signoff.results
-    standing, proposal = signoff.model_index(s), int(results.chosen[s])
+    # "stands" only where a decision stands: a pending series' proposal is only the proposal
+    standing, proposal = signoff.model_index(s) if signoff.standing(s) else -1, int(results.chosen[s])
+    stands = "signed on earlier data, refitted" if STATUSES[signoff.status[s]] == "stale" else "stands"
     planned = math.isfinite(float(results.plan_price[s]))
     rows, missing = [], []
     for c, name in enumerate(results.names):
         if not results.available[s, c]:
             missing.append(f"<li><code>{esc(name)}</code>: {esc(results.reason_text(s, c))}</li>")
             continue
-        marks = [word for word, hit in (("stands", c == standing), ("proposal", c == proposal)) if hit]
+        marks = [word for word, hit in ((stands, c == standing), ("proposal", c == proposal)) if hit]
         volume = (f"{num(results.plan_volume[s, c])} <span class=\"muted\">"
                   f"({interval(results.plan_lo[s, c], results.plan_hi[s, c])})</span>" if planned else "—")
         mark = f" <strong>({', '.join(marks)})</strong>" if marks else ""
@@ -107,13 +109,22 @@ def section(report: Report, s: int) -> str:
     signoff = report.signoff
     results = signoff.results
     status = STATUSES[signoff.status[s]]
-    plan = float(results.plan_price[s])
-    c = signoff.model_index(s)
+    numbers = at_plan(signoff, s)
+    plan, c = numbers.price, numbers.model
+    current = signoff.standing(s) or {}
     facts = [f"status <strong class=\"st-{status}\">{status}</strong>", f"{num(results.data.counts[s])} observations",
              f"prices {price(results.price_lo[s])}–{price(results.price_hi[s])}"]
-    if math.isfinite(plan) and c >= 0:
-        facts.append(f"at the plan price {price(plan)}: {num(results.plan_volume[s, c])} "
-                     f"({interval(results.plan_lo[s, c], results.plan_hi[s, c])}) under {esc(results.names[c])}")
+    if current.get("action") == "hold":  # a hold signs no curve
+        facts.append(f"held by {by_whom(current)} UTC: no curve signed")
+    decision = signoff.carried_decision(s)
+    if decision is not None:
+        facts.append(f"carried by {by_whom(current)} UTC: the {esc(decision['action'])} by {by_whom(decision)} UTC")
+    if math.isfinite(plan) and c >= 0 and numbers.volume is not None:
+        name = esc(current.get("model") if numbers.signed else results.names[c])
+        under = (f"under {name} as signed on earlier data" if numbers.signed else
+                 f"under {name}, the proposal" if numbers.proposal else f"under {name}")
+        facts.append(f"at the plan price {price(plan)}: {num(numbers.volume)} "
+                     f"({interval(numbers.lo, numbers.hi)}) {under}")
         if not results.price_lo[s] <= plan <= results.price_hi[s]:
             facts.append("<span class=\"sev-stop\">outside the observed prices: an extrapolation</span>")
     figure = chart_figure(report.chart(s))

@@ -7,6 +7,7 @@ value in ``data-sort``; on a phone each row becomes a card labelled from ``data-
 from __future__ import annotations
 
 import math
+from typing import NamedTuple
 
 from fitcore.ledger.signoff import STATUSES, Signoff
 from fitcore.review.flags import CODES, SEVERITY
@@ -59,21 +60,70 @@ def _sort_value(x) -> str:
     return "" if x is None or not math.isfinite(float(x)) else repr(float(x))
 
 
+class AtPlan(NamedTuple):
+    """The numbers a series' row and section show at the plan price: ``model`` the candidate they are of (-1:
+    none), ``signed`` true when they are the signed snapshot's (a stale series), ``proposal`` true when they are
+    the proposal's standing in for no signed curve (pending or held)."""
+
+    model: int
+    price: float
+    volume: float | None
+    lo: float | None
+    hi: float | None
+    elasticity: float | None
+    signed: bool = False
+    proposal: bool = False
+
+
+def at_plan(signoff: Signoff, s: int) -> AtPlan:
+    """What stands at the plan price: a stale series' signed curve as signed (its snapshot, as ``ledger export``
+    writes it), else the standing model's numbers in these results, else (pending or held) the proposal's."""
+    from ..ledger_export import signed_columns
+    results = signoff.results
+    current = signoff.standing(s) or {}
+    c, proposal = signoff.model_index(s), int(results.chosen[s])
+    if STATUSES[signoff.status[s]] == "stale" and c >= 0:  # signed on other data: never this fit's numbers
+        plan = signed_columns(current)[2]
+        value = lambda name: None if plan.get(name) is None else float(plan[name])  # noqa: E731
+        return AtPlan(c, value("price") if plan.get("price") is not None else math.nan, value("volume"),
+                      value("lo"), value("hi"), value("elasticity"), signed=True)
+    shown = c if c >= 0 else proposal
+    price_ = float(results.plan_price[s])
+    if shown < 0 or not math.isfinite(price_):
+        return AtPlan(shown, price_, None, None, None, None, proposal=c < 0)
+    return AtPlan(shown, price_, float(results.plan_volume[s, shown]), float(results.plan_lo[s, shown]),
+                  float(results.plan_hi[s, shown]), float(results.plan_elasticity[s, shown]),
+                  proposal=c < 0 or (not current and shown == proposal))
+
+
+def by_whom(record: dict) -> str:
+    """'ana, 2026-12-03 18:57': who recorded ``record`` and when (UTC)."""
+    return f"{esc(record.get('analyst', ''))}, {when(record['at'], zone=False) if record.get('at') else '?'}"
+
+
+def model_cell(signoff: Signoff, s: int) -> str:
+    results = signoff.results
+    current = signoff.standing(s) or {}
+    c, proposal = signoff.model_index(s), int(results.chosen[s])
+    offered = esc(results.names[proposal]) if proposal >= 0 else None
+    if current.get("action") == "hold":  # a hold signs no curve: the proposal is only the proposal
+        return "none <span class=\"muted\">(held" + (f"; proposal {offered}" if offered else "") + ")</span>"
+    model = esc(current.get("model") or results.names[c]) if c >= 0 else "none"
+    if c >= 0 and proposal >= 0 and c != proposal:
+        model += f" <span class=\"muted\">(proposal {offered})</span>"
+    return model
+
+
 def row(signoff: Signoff, s: int, detailed: set) -> str:
     results = signoff.results
     status = STATUSES[signoff.status[s]]
-    c = signoff.model_index(s)
-    proposal = int(results.chosen[s])
-    model = esc(results.names[c]) if c >= 0 else "none"
-    if c >= 0 and proposal >= 0 and c != proposal:
-        model += f" <span class=\"muted\">(proposal {esc(results.names[proposal])})</span>"
-    plan = float(results.plan_price[s])
-    planned = c >= 0 and math.isfinite(plan)
-    volume = float(results.plan_volume[s, c]) if planned else None
-    lo, hi = (float(results.plan_lo[s, c]), float(results.plan_hi[s, c])) if planned else (None, None)
+    numbers = at_plan(signoff, s)
+    plan, volume, lo, hi, e = numbers.price, numbers.volume, numbers.lo, numbers.hi, numbers.elasticity
+    planned = volume is not None and math.isfinite(plan)
     shown = (f"{num(volume)} <span class=\"muted\">({interval(lo, hi)})</span>"
-                if planned and lo is not None and math.isfinite(lo) else num(volume) if planned else "—")
-    e = float(results.plan_elasticity[s, c]) if planned else None
+             if planned and lo is not None and math.isfinite(lo) else num(volume) if planned else "—")
+    if planned and numbers.signed:
+        shown += " <span class=\"muted\">as signed</span>"
     current = signoff.standing(s) or {}
     history = signoff.history(s)
     latest = current or (history[-1] if history else {})
@@ -81,14 +131,22 @@ def row(signoff: Signoff, s: int, detailed: set) -> str:
     key = f"<a href=\"#s{s}\">{name}</a>" if s in detailed else name
     carried = " (carried)" if signoff.carried[s] else ""
     time = when(latest["at"], zone=False) if latest.get("at") else ""
+    analyst = esc(latest.get("analyst", ""))
+    decision = signoff.carried_decision(s)
+    if decision is not None:  # the carry is the standing record; the decision it carries is a person's
+        analyst += f" <span class=\"muted\">(carries {esc(decision['action'])} by {by_whom(decision)})</span>"
+    noted = signoff.note_record(s)
+    note = ""
+    if noted is not None:  # a note that is not the standing record's own says whose and when it is
+        note = esc(noted["note"]) if noted.get("seq") == latest.get("seq") else f"{by_whom(noted)}: {esc(noted['note'])}"
     return (f"<tr data-status=\"{status}\">" + cell("Series", key, "key")
-            + cell("Status", status + carried, f"st-{status}") + cell("Model", model)
+            + cell("Status", status + carried, f"st-{status}") + cell("Model", model_cell(signoff, s))
             + cell("Plan price", price(plan) if math.isfinite(plan) else "—", "num", _sort_value(plan))
             + cell("Volume (95% PI)", shown, "num", _sort_value(volume))
-            + cell("Elasticity", elasticity(e, volume) if planned else "—", "num",
-                   _sort_value(e if planned and volume > 0 else None))
-            + cell("Flags", _flag_cell(signoff, s)) + cell("Analyst", esc(latest.get("analyst", "")))
-            + cell("Time", time, "time", esc(latest.get("at", ""))) + cell("Note", esc(signoff.last_note(s)), "note")
+            + cell("Elasticity", elasticity(e, volume) if planned and e is not None else "—", "num",
+                   _sort_value(e if planned and e is not None and volume > 0 else None))
+            + cell("Flags", _flag_cell(signoff, s)) + cell("Analyst", analyst)
+            + cell("Time", time, "time", esc(latest.get("at", ""))) + cell("Note", note, "note")
             + "</tr>")
 
 
@@ -101,7 +159,8 @@ def decisions(report: Report, detailed: set) -> str:
     body = "".join(row(signoff, int(s), detailed) for s in rows)
     lead = (f"<p>{num(len(rows))} series: every series a person decided one by one, and every series with a "
             f"stop flag, most in need of attention first. Volumes are at the plan price under the model that "
-            f"stands (the proposal while pending), with its 95% prediction interval.</p>")
+            f"stands (the proposal while pending or held: a hold signs no curve; a stale series' as signed, on "
+            f"its earlier data), with its 95% prediction interval.</p>")
     controls = ("<div class=\"controls\" id=\"decisions-controls\" hidden><label>Find <input type=\"search\" "
                 "placeholder=\"series, analyst, note…\"></label><label>Status <select><option value=\"\">all"
                 f"</option>{options}</select></label><output></output></div>")

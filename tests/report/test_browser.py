@@ -46,7 +46,7 @@ def test_the_rendered_page_reads_right(browser, opened, signed):
         "183 series", f"{unflagged} accepted", "1 overridden", "1 held", f"{183 - unflagged - 2} pending", "0 stale"]
     row = browser.evaluate(session, "[...document.querySelectorAll('#decisions-table tbody tr')]"
                                     ".find(r => r.dataset.status === 'held').innerText")
-    assert row.split("\t")[:3] == ["lemons 500 g · East", "held", "poly1"] and "ask the buyer" in row
+    assert row.split("\t")[:3] == ["lemons 500 g · East", "held", "none (held; proposal poly1)"] and "ask the buyer" in row
     assert f"{HOSTILE[0]} · North" in text  # literally, as text: never run
     keys = browser.evaluate(session, "[...document.querySelectorAll('#decisions-table td.key')].map(c => c.innerText)")
     assert {"[/] [bold]x · North", "?[2J?]2;owned? wipe · North", f"{HOSTILE[0]} · North"} <= set(keys)

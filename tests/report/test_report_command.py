@@ -159,6 +159,8 @@ def test_the_demo_prints_the_command_that_makes_its_report(tmp_path, monkeypatch
     assert again.split(": ", 1)[1].split() == ["pricefold", "triage", str(folder / "results.parquet"), "--ledger",
                                                str(folder / "ledger.jsonl")]
     assert command[:2] == ["pricefold", "report"]
+    assert cli.main(command[1:]) == 2  # the stubbed triage recorded nothing: no ledger yet, which report says
+    (folder / "ledger.jsonl").touch()  # a ledger (empty) as a session leaves one
     assert cli.main(command[1:]) == 0
     assert "Sign-off report" in (folder / "report.html").read_text()
 
@@ -195,3 +197,13 @@ def test_the_charted_series_fitted_alone_give_the_whole_fit_numbers(signed, tmp_
         lo, hi = band(alone, a, c, np.array([whole.plan_price[s]]))
         np.testing.assert_allclose([alone.plan_volume[a, c], lo[0], hi[0]],
                                    [whole.plan_volume[s, c], whole.plan_lo[s, c], whole.plan_hi[s, c]], rtol=1e-9)
+
+
+def test_a_missing_ledger_named_is_an_error_and_nothing_is_written(signed, tmp_path):
+    """A mistyped --ledger is one line and exit 2 (as fit, show, carry and export say it), not a page where
+    everything is pending."""
+    missing, page = tmp_path / "lede.jsonl", tmp_path / "report.html"
+    done = scenario.report(signed["results"], missing, page)
+    assert done.returncode == 2, done.stderr
+    assert done.stderr.count("\n") == 1 and f"{missing}: no such ledger" in done.stderr
+    assert "Traceback" not in done.stderr and sorted(p.name for p in tmp_path.iterdir()) == []
