@@ -75,7 +75,8 @@ def _report_hint(results_path: Path, folder: Path) -> None:
     ledger = folder / "ledger.jsonl"
     print(f"back to it: pricefold triage {results_path} --ledger {ledger}", file=sys.stderr)
     charts = "" if importlib.util.find_spec("matplotlib") else "  (its charts need matplotlib: pip install matplotlib)"
-    print(f"report: pricefold report {results_path} --ledger {ledger} -o {folder}/report.html{charts}", file=sys.stderr)
+    print(f"report, once a decision is in the ledger: pricefold report {results_path} --ledger {ledger} "
+          f"-o {folder}/report.html{charts}", file=sys.stderr)
 
 
 def place_shipped(shipped: Path, target: Path, sample) -> str:
