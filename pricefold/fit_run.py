@@ -173,7 +173,9 @@ def _fit_locally(args, run) -> int:
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
     if len(rejects):  # a warning, not progress: --quiet keeps it
-        print(rejects_line(rejects.reasons, target, read, first_words(rejects, run.columns)), file=sys.stderr)
+        most = 2 * len(rejects) > read  # then where the first is and why (its cell read again from the file)
+        print(rejects_line(rejects.reasons, target, read, first_words(rejects, run.columns) if most else ""),
+              file=sys.stderr)
     for warning in (free, unplanned):  # warnings too
         if warning:
             print(warning, file=sys.stderr)
@@ -212,7 +214,8 @@ def zero_price_line(data, path: Path, column: str) -> str:
         return ""
     series = len(np.unique(np.searchsorted(data.offsets, zero, side="right")))
     rows = f"{len(zero):,} rows in {series:,} series have" if len(zero) > 1 else "1 row has"
-    first = "" if data.line is None else f" ({'the first at ' if len(zero) > 1 else ''}line {int(data.line[zero].min()):,})"
+    at = "" if data.line is None else f"line {int(data.line[zero].min()):,}"
+    first = f" ({'the first at ' if len(zero) > 1 else ''}{at})" if at else ""
     return (f"{path}, column {column!r}: {rows} a price of 0{first}: kept, but often a missing price written as 0; "
             "a log-log curve needs prices above zero and is unavailable there")
 
