@@ -14,7 +14,8 @@ from pathlib import Path
 
 from fitcore.errors import DataError, SettingsError
 
-INSTALL_HINT = "the report's charts need matplotlib: pip install matplotlib (or, in the checkout, pip install -e '.[report]')"
+INSTALL_HINT = ("the report's charts need matplotlib: pip install matplotlib (or, in the checkout, "
+                "pip install -e '.[report]')")
 REFIT_ROWS = 50_000_000  # as triage: above this many rows the data are not read for the charts
 
 
