@@ -151,7 +151,8 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
         status = f"{status} (carried)"
     needs = due(record.get("backtest")) if status == "stale" else None
     if status == "stale" and needs is None:  # a hold signs no curve; anything else: these results hold none
-        needs = untested_due(history.current, short) or "no backtest in these results (fit with --ledger)"
+        needs = untested_due(history.current, short) or (
+            "not backtested" if short else "no backtest in these results (fit with --ledger)")
     return status, needs
 
 
@@ -163,6 +164,16 @@ def standing_override(record: dict, book) -> dict | None:
         return None
     decision = history.decision
     return decision if decision is not None and decision["action"] == "override" else None
+
+
+def standing_model(record: dict, book) -> str:
+    """The list's model: the one signed where a decision stands (on these data or, stale, on earlier ones:
+    as the export and the report give it), ↺ for an override; else this cycle's proposal."""
+    history = book.histories.get(series_id(record["key"]))
+    decision = history.decision if history is not None else None
+    if decision is not None and decision["action"] in ("accept", "override") and decision.get("model"):
+        return f"{decision['model']}↺" if decision["action"] == "override" else str(decision["model"])
+    return record["chosen"] or "—"
 
 
 def override_words(record: dict, stands: dict) -> str:
@@ -204,8 +215,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
         ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
         cover = f"{bt['coverage'] * 100:.0f}%" if bt.get("coverage") is not None else "—"
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
-        stands = standing_override(record, book)
-        model = f"{stands['model']}↺" if stands is not None else record["chosen"] or "—"
+        model = standing_model(record, book)
         lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {model:<7} "
                      f"{status:<20} {(needs or '—')[:16]:<16} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)

@@ -216,3 +216,20 @@ def test_signing_into_a_mistyped_ledger_is_refused_or_warned(carried, tmp_path, 
     same = source_from_results(results)
     other_ledger(same, book)
     assert same.warnings == []
+
+
+def test_show_lists_the_model_the_export_gives(carried, tmp_path, capsys):
+    """The list's model column is the signed model wherever a decision stands (stale ones too), as the export
+    gives it; else this cycle's proposal."""
+    from fitcore.results.read import read_results
+    book, _, _, results = carried
+    out = tmp_path / "e.csv"
+    assert main(["ledger", "export", str(book), "--results", str(results), "-o", str(out)]) == 0
+    exported = {row["product"]: row["model"] for row in csv.DictReader(open(out, newline=""))}
+    proposals = {r["key"]["product"]: r["chosen"] for r in read_results(results)[1]}
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
+    for line in capsys.readouterr().out.splitlines()[1:]:
+        product = next(p for p in exported if line.startswith(p + " "))
+        shown = line[len(product):].split()[1].rstrip("↺")
+        assert shown == (exported[product] or proposals[product]), line
