@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import csv
 import io
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import BinaryIO
@@ -46,12 +47,8 @@ def first_cell(rejects: Rejects, column: str) -> str | None:
     if rejects.kind == "parquet" or not len(rejects):
         return None
     wanted = int(rejects.lines[0])
-    with open_text(rejects.path, errors="surrogateescape") as source:
-        reader = csv.reader(source, delimiter=rejects.delimiter)
-        header = next(reader, [])
-        end = reader.line_num
-        for record in reader:
-            start, end = end + 1, reader.line_num
+    with _numbered_records(rejects) as (header, records):
+        for start, record in records:
             if start == wanted:
                 at = header.index(column) if column in header else -1
                 return record[at] if 0 <= at < len(record) else None
@@ -66,17 +63,29 @@ def write_rejects(rejects: Rejects, handle: BinaryIO) -> None:
     if rejects.kind == "parquet":
         _parquet_rows(rejects, wanted, writer)
     elif not _unquoted_rows(rejects, wanted, writer):
-        with open_text(rejects.path, errors="surrogateescape") as source:
-            reader = csv.reader(source, delimiter=rejects.delimiter)
-            header = next(reader, [])
+        with _numbered_records(rejects) as (header, records):
             writer.writerow([*header, "line", "reason"])
-            end = reader.line_num
-            for record in reader:
-                start, end = end + 1, reader.line_num
+            for start, record in records:
                 if start in wanted:
                     writer.writerow([*as_wide(record, len(header), rejects.delimiter), start, wanted[start]])
     text.flush()
     text.detach()  # the handle belongs to the caller
+
+
+@contextmanager
+def _numbered_records(rejects: Rejects):
+    """``(header, records)`` of the CSV the rejects came from, read by Python's csv module: ``records`` yields
+    ``(line, fields)``, ``line`` the physical line each row starts on (a quoted line break spans more)."""
+    with open_text(rejects.path, errors="surrogateescape") as source:
+        reader = csv.reader(source, delimiter=rejects.delimiter)
+        header = next(reader, [])
+
+        def records():
+            end = reader.line_num
+            for record in reader:
+                start, end = end + 1, reader.line_num
+                yield start, record
+        yield header, records()
 
 
 def _unquoted_rows(rejects: Rejects, wanted: dict, writer) -> bool:
