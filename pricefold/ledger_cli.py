@@ -63,6 +63,8 @@ def add_parser(commands):
     export.add_argument("--raw", action="store_true",
                         help="write text cells as they are (by default a text cell starting with = + - @, "
                              "a tab or a carriage return gets a leading ' so spreadsheets do not run it)")
+    export.add_argument("-q", "--quiet", action="store_true",
+                        help="no \"N series written\" line on success (warnings and errors still go to stderr)")
     bulk = sub.add_parser("accept-unflagged", help="accept the proposal for every series with no flag and no decision")
     bulk.add_argument("results", type=Path, metavar="RESULTS")
     bulk.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
