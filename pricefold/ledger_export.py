@@ -81,7 +81,7 @@ def run_export(args) -> int:
                 family, coef, at_plan, smearing = signed_columns(current)
                 plan = {"price": at_plan.get("price")}
             elif snapshot:  # signed on these data: the curve as signed, once the results agree with it
-                said = disagreement(cand, plan.get("price"), at_plan, snapshot)
+                said = disagreement(cand, plan.get("price"), at_plan, snapshot, level)
                 if said:
                     raise refusal(args.results, key, *said)
                 family, coef, _, smearing = signed_columns(current)
@@ -256,21 +256,23 @@ def _agree(results, signed) -> bool:
     return a == b or abs(a - b) <= AGREE * max(abs(a), abs(b))
 
 
-def disagreement(cand: dict | None, price, at_plan: dict, snapshot: dict) -> tuple[str, object, object] | None:
+def disagreement(cand: dict | None, price, at_plan: dict, snapshot: dict, level) -> tuple[str, object, object] | None:
     """``(field, results' value, signed value)`` of the first way the results' candidate of a series differs from
     the decision ``snapshot`` signed on the same data; None when they agree.
 
     Family, ``coef`` (each within ``AGREE``) and ``smearing``; the plan numbers (``at_plan``: volume, lo, hi,
-    elasticity) only where the results plan the price that was signed.  With controls the signed curve holds
-    them at the signed plan's values and the results' ``coef`` has them at 0 (and the plan's values may be new):
-    only the price slopes (``coef[1:]``) are compared.  A candidate the results do not hold: nothing to compare.
+    elasticity) only where the results plan the price that was signed (the interval only at the ``level`` it
+    was signed at).  With controls the signed curve holds them at the signed plan's values and the results'
+    ``coef`` has them at 0 (and the plan's values may be new): only the price slopes (``coef[1:]``) are
+    compared.  A candidate the results do not hold, or hold without coefficients: nothing to compare (the
+    export writes the signed curve all the same).
     """
-    if cand is None:
+    if cand is None or cand.get("coef") is None:
         return None
     if cand.get("family") != snapshot.get("family"):
         return "family", cand.get("family"), snapshot.get("family")
-    mine, signed = cand.get("coef"), snapshot.get("coef")
-    if mine is None or signed is None or len(mine) != len(signed):
+    mine, signed = cand["coef"], snapshot.get("coef")
+    if signed is None or len(mine) != len(signed):
         return "coef", mine, signed
     controlled = bool(snapshot.get("controls"))
     for i, (a, b) in enumerate(zip(mine, signed)):
@@ -281,7 +283,7 @@ def disagreement(cand: dict | None, price, at_plan: dict, snapshot: dict) -> tup
     signed_plan = snapshot.get("plan") or {}
     if controlled or price is None or signed_plan.get("price") != price:
         return None
-    for name in ("volume", "lo", "hi", "elasticity"):
+    for name in ("volume", "lo", "hi", "elasticity") if snapshot.get("level") == level else ("volume", "elasticity"):
         if at_plan.get(name) is not None and signed_plan.get(name) is not None and \
                 not _agree(at_plan[name], signed_plan[name]):
             return f"plan_{name}", at_plan[name], signed_plan[name]

@@ -237,3 +237,4 @@ def test_a_decision_without_snapshot_keeps_the_results_numbers(cycle, tmp_path):
     assert row["status"] == "accepted"
     assert [float(row[c]) for c in ("plan_volume", "plan_lo", "plan_hi", "plan_elasticity")] == \
         [s["plan"]["volume"], s["plan"]["lo"], s["plan"]["hi"], s["plan"]["elasticity"]]
+
