@@ -4,6 +4,11 @@ Text cells that a spreadsheet would run as a formula (starting with ``=``, ``+``
 a tab or a carriage return — the common CSV-injection guidance) get a leading ``'`` unless
 ``--raw``; numbers are never touched.  Every row carries the ledger's head (``ledger_head``,
 ``SEQ:DIGEST``) so the planning side keeps a witness of the ledger it was exported from.
+
+A row whose standing decision carries a ``signed`` snapshot writes what was signed: signed on other data
+(``stale``), the snapshot's numbers; signed on these data, the snapshot's curve once the results' candidate
+agrees with it (``disagreement``; else the whole export is refused in one line, ``refusal``), at this
+results' plan price (``_signed_at_price`` where it is another price).  Other rows take the results' numbers.
 """
 from __future__ import annotations
 
