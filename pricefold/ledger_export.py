@@ -95,8 +95,10 @@ def run_export(args) -> int:
                     at_plan = {}
                 elif signed_plan.get("price") == plan["price"]:
                     at_plan = signed_plan
-                else:  # the same data planned at another price: the signed curve there (filled in below)
-                    later.append((len(rows), key, snapshot, plan["price"], at_plan))
+                else:  # the same data planned at another price: the signed curve there (filled in below; a
+                    # snapshot without its curve's basis cannot say: the plan numbers stay empty)
+                    if (snapshot.get("basis") or {}).get("coef"):
+                        later.append((len(rows), key, snapshot, plan["price"], at_plan))
                     at_plan = {}
             rows.append([*map(str, key.values()), status, model or "", family, coef, _number(smearing),
                          current["analyst"] if current else "", current["at"] if current else "",
