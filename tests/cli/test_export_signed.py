@@ -122,7 +122,7 @@ def test_an_edited_plan_volume_or_coef_is_refused_naming_both_values(cycle, tmp_
 
 
 def test_signed_rows_carry_the_signed_numbers_and_elasticity(cycle, tmp_path):  # noqa: F811
-    first, second, book = cycle
+    _, second, book = cycle
     later = pd.read_csv(second["json"].parent / "later.csv")
     standing = _standing(book)
     made = {kind: _export(second[kind], book, tmp_path / f"{kind}.csv") for kind in ("json", "parquet", "folder")}
