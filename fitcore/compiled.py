@@ -67,6 +67,20 @@ def _compile_registered() -> None:
     _LOOPS.clear()
 
 
+def readonly(array):
+    """``array`` as a read-only view (no copy), for a compiled loop's input.
+
+    numba compiles a loop once for every combination of its arguments' types, and an array's type
+    includes whether it is writable: the owned, read-only arrays of a dataset or a results file and a
+    fresh array of the same shape would each cost a compile on a fresh install and a load from the
+    cache in every run that meets both.  Inputs given read-only everywhere make one compiled version
+    serve every caller (``tests/fitcore/test_specialisations.py`` counts them).
+    """
+    view = array.view()
+    view.flags.writeable = False
+    return view
+
+
 def looks_compiled() -> bool:
     """Whether numba's cache seems to hold the engine's largest loop, compiled since its source last
     changed (so a fit now loads compiled code instead of compiling for ~10 s).  A guess from the cache's
