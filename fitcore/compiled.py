@@ -15,6 +15,10 @@ when that is read-only: the first run after an install takes a few seconds
 longer) and bound wherever it was imported, so compiled loops call one
 another directly.
 
+numba compiles a loop once for each combination of its arguments' types (dtype,
+dimensions, layout, writable or not); callers give each argument one type, inputs
+as read-only views (``readonly``), so one compiled version serves them all.
+
 Every loop uses ``error_model="numpy"`` (a division by zero gives inf or NaN,
 as in numpy, for the caller to mask) and no ``fastmath``, so results are
 plain IEEE arithmetic, the same on every machine.
