@@ -51,7 +51,7 @@ def run_export(args) -> int:
     made = (lambda cells: cells) if args.raw else inert
     columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
     writer.writerow(made([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
-                           "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi",
+                           "smearing", "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi",
                            "carried_from", "carried_analyst", "carried_at", "carried_note", "ledger_head"]))
     count, head = 0, book.head_text
     own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
@@ -67,17 +67,20 @@ def run_export(args) -> int:
             # fields where the results hold them (its interval only where they do).
             at_plan = plan if model == chosen else {k: (cand or {}).get(v) for k, v in own.items()}
             family, coef = (cand["family"] if cand else ""), (coef_text(cand["coef"]) if cand and cand["coef"] else "")
+            # Duan's smearing of a log family (absent or null for the others): only beside the coefficients it scales
+            smearing = cand.get("smearing") if coef else None
             if status == "stale":  # signed on other data: the signed model's numbers, never this fit's
-                family, coef, at_plan = signed_columns(current)
+                family, coef, at_plan, smearing = signed_columns(current)
                 plan = {"price": at_plan.get("price")}
-            writer.writerow(made([*map(str, key.values()), status, model or "", family, coef,
+            writer.writerow(made([*map(str, key.values()), status, model or "", family, coef, _number(smearing),
                                    current["analyst"] if current else "", current["at"] if current else "",
                                    current.get("note", "") if current else "", _number(plan.get("price")),
                                    _number(at_plan.get("volume")), _number(at_plan.get("lo")),
                                    _number(at_plan.get("hi")), carried_from(history), *carried_decision(history),
                                    head]))
     write_text(args.output, buffer.getvalue())
-    print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
+    if not args.quiet:
+        print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
     return 0
 
 
@@ -106,7 +109,7 @@ def _by_records(parts, book) -> Iterator[Exported]:
 # problem as it always did.
 EXPORTED = {"chosen": "text", "fingerprint": "text", "is_chosen": "bool", "plan_price": "number",
             "plan_volume": "number", "plan_lo": "number", "plan_hi": "number", "available": "bool",
-            "family": "text", "coef": "numbers"}
+            "family": "text", "coef": "numbers", "smearing": "number"}
 
 
 def _columns_ahead(path: Path) -> tuple[list[Path], object]:
@@ -160,10 +163,11 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
         found = np.flatnonzero(at >= 0)
         if found.size:
             cells = {name: columns.values(name, at[found], found) for name in
-                     ("family", "coef", "available", "plan_price", "plan_volume", "plan_lo", "plan_hi")}
+                     ("family", "coef", "smearing", "available", "plan_price", "plan_volume", "plan_lo",
+                      "plan_hi")}
             for j, s in enumerate(found.tolist()):
                 priced = cells["plan_price"][j] is not None and cells["available"][j]  # as the record reader
-                cands[s] = {"family": cells["family"][j], "coef": cells["coef"][j],
+                cands[s] = {"family": cells["family"][j], "coef": cells["coef"][j], "smearing": cells["smearing"][j],
                             **({name: cells[name][j] for name in ("plan_volume", "plan_lo", "plan_hi")} if priced
                                else {})}
         # the plan: from the last row of a series marked chosen that has a plan price (as the record reader)
@@ -202,14 +206,15 @@ def _valid(column):
         array.offset:array.offset + len(array)].astype(bool)
 
 
-def signed_columns(decision: dict) -> tuple[str, str, dict]:
-    """``(family, coef, plan)`` of a decision standing on other data, from its ``signed`` snapshot (plan:
-    price, volume, lo, hi as signed); empty when it has none (a ``/1`` record, a hold)."""
+def signed_columns(decision: dict) -> tuple[str, str, dict, float | None]:
+    """``(family, coef, plan, smearing)`` of a decision standing on other data, from its ``signed`` snapshot
+    (plan: price, volume, lo, hi as signed; smearing: Duan's factor of a log family, else None); empty when it
+    has none (a ``/1`` record, a hold)."""
     snapshot = decision.get("signed") or {}
     if not snapshot:
-        return "", "", {}
+        return "", "", {}, None
     coef = json.dumps(snapshot["coef"]) if snapshot.get("coef") else ""
-    return snapshot.get("family") or "", coef, snapshot.get("plan") or {}
+    return snapshot.get("family") or "", coef, snapshot.get("plan") or {}, snapshot.get("smearing") if coef else None
 
 
 def coef_text(coef: list) -> str:

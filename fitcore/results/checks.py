@@ -113,7 +113,8 @@ def check_series(path: Path, index: int, record) -> None:
             raise _fail(path, place, f"should be an object, found {_kind(cand)}")
         names.add(_field(path, place, cand, "name", lambda v: isinstance(v, str), "text"))
         _field(path, place, cand, "available", lambda v: isinstance(v, bool), "true or false")
-        for name in ("cv_mse", "cv_se", "r2", "q2", "plan_volume", "plan_lo", "plan_hi", "plan_elasticity"):
+        for name in ("cv_mse", "cv_se", "r2", "q2", "smearing", "plan_volume", "plan_lo", "plan_hi",
+                     "plan_elasticity"):
             _field(path, place, cand, name, _number, "a number or null", optional=True)
         _field(path, place, cand, "coef", lambda v: v is None or isinstance(v, list) and all(map(_number, v)),
                "a list of numbers or null", optional=True)

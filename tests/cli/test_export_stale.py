@@ -39,12 +39,16 @@ def test_a_stale_row_carries_the_signed_model_not_this_cycles(tmp_path):
         snapshot = signed[product]["signed"]
         now = next(c for c in second[product]["candidates"] if c["name"] == row["model"])
         assert json.loads(row["coef"]) == snapshot["coef"] != now["coef"]
+        # the signed smearing (a log family's), never this cycle's (the README's reproduction needs it)
+        assert row["smearing"] == ("" if snapshot["smearing"] is None else repr(snapshot["smearing"]))
+        assert snapshot["smearing"] is None or snapshot["smearing"] != now["smearing"]
         assert float(row["plan_volume"]) == snapshot["plan"]["volume"] != second[product]["plan"]["volume"]
         assert (float(row["plan_lo"]), float(row["plan_hi"])) == (snapshot["plan"]["lo"], snapshot["plan"]["hi"])
         assert float(row["plan_price"]) == snapshot["plan"]["price"]
         assert row["analyst"] == signed[product]["analyst"] and row["at"] == signed[product]["at"]
         checked += 1
-    assert checked >= 5
+    assert checked >= 5  # polynomials here: a stale log-family row in tests/cli/test_export_smearing.py
     bare_row = rows["item 7"]
     assert bare_row["status"] == "stale" and bare_row["model"] == bare["chosen"]
-    assert [bare_row[c] for c in ("family", "coef", "plan_price", "plan_volume", "plan_lo", "plan_hi")] == [""] * 6
+    assert [bare_row[c] for c in ("family", "coef", "smearing", "plan_price", "plan_volume", "plan_lo",
+                                  "plan_hi")] == [""] * 7

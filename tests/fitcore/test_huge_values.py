@@ -62,7 +62,7 @@ def test_a_series_left_without_a_model_is_flagged_with_a_reason_and_comes_first(
     assert results.chosen[s] == -1
     flags = diagnosis.flags_of(s)
     assert [f["code"] for f in flags] == ["no-model"] and flags[0]["severity"] == "stop"
-    assert "not finite numbers" in flags[0]["message"] and "cannot pin down" not in flags[0]["message"]
+    assert "its held-out errors overflow" in flags[0]["message"] and "cannot pin down" not in flags[0]["message"]
     assert diagnosis.attention_order()[0] == s
     assert not diagnosis.flagged("no-model")[1 - s]
 

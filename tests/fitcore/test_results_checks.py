@@ -36,6 +36,8 @@ CASES = [
                                                 "found text"),
     (lambda r: r["plan"].update(inside_range=1), "r.json: series 4, plan: 'inside_range' should be true or false, "
                                                  "found a number"),
+    (lambda r: r["candidates"][1].update(smearing="1.02"),
+     "r.json: series 4, candidate 2: 'smearing' should be a number or null, found text"),
     (lambda r: r["candidates"][1].update(coef=[20.0, "x"]),
      "r.json: series 4, candidate 2: 'coef' should be a list of numbers or null, found a list whose item 2 is text"),
     (lambda r: r.update(price_range=[1.0, 2.0, 3.0]),
