@@ -67,7 +67,7 @@ def test_a_series_left_without_a_model_is_flagged_with_a_reason_and_comes_first(
     assert not diagnosis.flagged("no-model")[1 - s]
 
 
-def test_show_prints_a_dash_for_null_numbers(overflowing, tmp_path, capsys):
+def test_show_prints_why_an_overflowing_candidate_has_no_numbers(overflowing, tmp_path, capsys):
     results, s = overflowing
     out = tmp_path / "r.json"
     write_results(results, out, diagnose(results))
@@ -75,7 +75,8 @@ def test_show_prints_a_dash_for_null_numbers(overflowing, tmp_path, capsys):
     assert record["chosen"] is None and record["candidates"][0]["q2"] is None
     assert main(["show", str(out), "--product", "huge"]) == 0
     text = capsys.readouterr().out
-    assert "[stop] no-model" in text and "—" in text.split("poly0", 1)[1].splitlines()[0]
+    assert "[stop] no-model" in text
+    assert "unavailable: its held-out errors overflow" in text.split("poly0", 1)[1].splitlines()[0]
 
 
 def test_charts_never_hand_plotext_an_infinity(overflowing):
