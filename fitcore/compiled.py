@@ -15,6 +15,10 @@ when that is read-only: the first run after an install takes a few seconds
 longer) and bound wherever it was imported, so compiled loops call one
 another directly.
 
+numba compiles a loop once for each combination of its arguments' types (dtype,
+dimensions, layout, writable or not); callers give each argument one type, inputs
+as read-only views (``readonly``), so one compiled version serves them all.
+
 Every loop uses ``error_model="numpy"`` (a division by zero gives inf or NaN,
 as in numpy, for the caller to mask) and no ``fastmath``, so results are
 plain IEEE arithmetic, the same on every machine.
@@ -65,6 +69,20 @@ def _compile_registered() -> None:
                 if id(value) in done:
                     setattr(module, attribute, done[id(value)])
     _LOOPS.clear()
+
+
+def readonly(array):
+    """``array`` as a read-only view (no copy), for a compiled loop's input.
+
+    numba compiles a loop once for every combination of its arguments' types, and an array's type
+    includes whether it is writable: the owned, read-only arrays of a dataset or a results file and a
+    fresh array of the same shape would each cost a compile on a fresh install and a load from the
+    cache in every run that meets both.  Inputs given read-only everywhere make one compiled version
+    serve every caller (``tests/fitcore/test_specialisations.py`` counts them).
+    """
+    view = array.view()
+    view.flags.writeable = False
+    return view
 
 
 def looks_compiled() -> bool:

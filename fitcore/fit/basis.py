@@ -15,7 +15,7 @@ from math import comb
 
 import numpy as np
 
-from ..compiled import compiled
+from ..compiled import compiled, readonly
 
 
 def window(lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -170,12 +170,24 @@ def _leverage_segments(x, lower, scale, bounds, out):
 
 @compiled
 def _evaluate_rows(coef, size, order, t, out, slope):
+    """Polynomial s at ``t[s]`` into ``out[s]`` (and its slope into ``slope[s]`` when that is not empty);
+    a ``t`` of one row serves every polynomial."""
     both = slope.shape[0] > 0
-    for s in range(t.shape[0]):
-        for g in range(t.shape[1]):
-            out[s, g] = horner(coef, s, size, order, t[s, g])
+    shared = t.shape[0] == 1
+    for s in range(out.shape[0]):
+        row = 0 if shared else s
+        for g in range(out.shape[1]):
+            out[s, g] = horner(coef, s, size, order, t[row, g])
             if both:
-                slope[s, g] = horner(coef, s, size, order + 1, t[s, g])
+                slope[s, g] = horner(coef, s, size, order + 1, t[row, g])
+
+
+def _rows(t: np.ndarray) -> np.ndarray:
+    """``t`` (S, G) as ``_evaluate_rows`` takes it, always contiguous and read-only (one compiled version):
+    a grid broadcast over the series (its rows one row in memory) as that one row, uncopied."""
+    if t.ndim == 2 and t.shape[0] > 1 and t.strides[0] == 0:
+        t = t[:1]
+    return readonly(np.ascontiguousarray(t))
 
 
 def _bounds(n_points: int, offsets) -> np.ndarray:
@@ -189,32 +201,32 @@ def polynomial(coef: np.ndarray, t: np.ndarray, order: int = 0, offsets: np.ndar
     with ``t`` (S,) or (S, G), polynomial s at ``t[s]``; or (S, P) with ``t``
     (N,), polynomial s at points ``offsets[s]:offsets[s + 1]``.
     """
-    coef = np.ascontiguousarray(coef, dtype=np.float64)
+    coef = readonly(np.ascontiguousarray(coef, dtype=np.float64))
     t = np.asarray(t, dtype=np.float64)
     out = np.empty(t.shape)
-    if coef.ndim == 2 and offsets is None:  # any strides (a grid broadcast over the series is not copied)
+    if coef.ndim == 2 and offsets is None:  # a grid broadcast over the series is not copied (``_rows``)
         if not len(coef):
             return out
-        _evaluate_rows(coef, coef.shape[1], order, t.reshape(len(coef), -1), out.reshape(len(coef), -1),
+        _evaluate_rows(coef, coef.shape[1], order, _rows(t.reshape(len(coef), -1)), out.reshape(len(coef), -1),
                        np.empty((0, 0)))
         return out
-    t = np.ascontiguousarray(t)
+    t = readonly(np.ascontiguousarray(t))
     if coef.ndim == 1:
-        _evaluate_segments(coef[None], np.array([0, t.size], dtype=np.int64), coef.shape[0], order, t.reshape(-1),
-                           out.reshape(-1))
+        _evaluate_segments(coef[None], readonly(np.array([0, t.size], dtype=np.int64)), coef.shape[0], order,
+                           t.reshape(-1), out.reshape(-1))
     else:
-        _evaluate_segments(coef, _bounds(len(t), offsets), coef.shape[1], order, t, out)
+        _evaluate_segments(coef, readonly(_bounds(len(t), offsets)), coef.shape[1], order, t, out)
     return out
 
 
 def values_and_slopes(coef: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Values and first derivatives in t of polynomial s (``coef`` (S, P)) at points ``t[s]`` (S, G), in one
     pass through ``horner`` (the same numbers as two calls of ``polynomial``)."""
-    coef = np.ascontiguousarray(coef, dtype=np.float64)
+    coef = readonly(np.ascontiguousarray(coef, dtype=np.float64))
     t = np.asarray(t, dtype=np.float64)
     value, slope = np.empty(t.shape), np.empty(t.shape)
     if len(coef):
-        _evaluate_rows(coef, coef.shape[1], 0, t, value, slope)
+        _evaluate_rows(coef, coef.shape[1], 0, _rows(t), value, slope)
     return value, slope
 
 
@@ -224,7 +236,8 @@ def leverages(x: np.ndarray, lower: np.ndarray, scale: np.ndarray, offsets: np.n
     (default: one point each)."""
     x = np.ascontiguousarray(x, dtype=np.float64)
     out = np.empty((lower.shape[1], len(x)))
-    _leverage_segments(x, np.ascontiguousarray(lower), np.ascontiguousarray(scale), _bounds(len(x), offsets), out)
+    _leverage_segments(readonly(x), readonly(np.ascontiguousarray(lower)), readonly(np.ascontiguousarray(scale)),
+                       readonly(_bounds(len(x), offsets)), out)
     return out
 
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..compiled import readonly
 from ..data.dataset import Dataset
 from . import reasons
 from .basis import window, window_rows
@@ -65,8 +66,9 @@ class Chunk:
         series outside ``use`` get zeros throughout (``basis.window_rows``)."""
         t, centred = np.empty(len(x)), np.empty(len(x))
         lo, hi, mean, least = (np.empty(len(self.counts)) for _ in range(4))
-        window_rows(x, y, np.empty(0) if self.weight is None else self.weight, self.offsets,
-                    np.empty(0, bool) if use is None else use, t, centred, lo, hi, mean, least)
+        window_rows(readonly(x), readonly(y), readonly(np.empty(0) if self.weight is None else self.weight),
+                    readonly(self.offsets), readonly(np.empty(0, bool) if use is None else use), t, centred, lo, hi,
+                    mean, least)
         return t, centred, lo, hi, mean, least
 
     def sums(self, values: np.ndarray) -> np.ndarray:

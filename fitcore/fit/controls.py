@@ -30,7 +30,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from ..compiled import compiled
+from ..compiled import compiled, readonly
 from ..errors import SettingsError
 
 SEASON_MAX = 4
@@ -48,7 +48,7 @@ def season_terms(date: np.ndarray, k: int, out: np.ndarray | None = None) -> np.
     Dates are whole days: each row looks its terms up in a table of the 365 + 366 possible days."""
     days = np.asarray(date).astype("datetime64[ns]", copy=False)
     slot = np.empty(len(days), dtype=np.int64)
-    day_slots(days.view(np.int64), slot)
+    day_slots(readonly(days.view(np.int64)), slot)
     angle = 2 * np.pi * np.concatenate((np.arange(365) / 365, np.arange(366) / 366))
     out = np.empty((2 * k, len(days))) if out is None else out
     for i in range(k):
@@ -226,8 +226,8 @@ def chunk_controls(raw: np.ndarray, weight: np.ndarray | None, offsets: np.ndarr
     z = np.empty_like(raw)
     mean, gap = np.zeros((n_s, m)), np.zeros((n_s, m))
     left_out, lone = np.zeros((n_s, m), np.int8), np.full((n_s, m), -1, np.int64)
-    centre(np.ascontiguousarray(raw, dtype=np.float64), np.empty(0) if weight is None else weight,
-           offsets.astype(np.int64), z, mean, left_out, lone, gap)
+    centre(readonly(np.ascontiguousarray(raw, dtype=np.float64)), readonly(np.empty(0) if weight is None else weight),
+           readonly(offsets.astype(np.int64)), z, mean, left_out, lone, gap)
     plan = np.where(np.isnan(plan), mean, plan)
     return ChunkControls(z, mean, left_out, lone, gap, plan)
 

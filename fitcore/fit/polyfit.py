@@ -17,6 +17,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from ..compiled import readonly
 from . import kernels
 from .controls import PriceTie
 from .folds import FoldLayout
@@ -80,8 +81,9 @@ def fit_family(x: np.ndarray, y: np.ndarray, w: np.ndarray | None, lay: FoldLayo
         sse_test=np.empty((n_series, n_folds, n_deg)), w_test=np.empty((n_series, n_folds)),
         sse_full=np.empty((n_series, n_deg)), w_full=np.empty(n_series), tss=np.empty(n_series),
         tss_test=np.empty(n_series), lower=np.empty((n_series, p, p)), scale=np.empty((n_series, p)))
-    kernels.family_fit(x, y, np.empty(0) if w is None else w, lay.bounds, lay.held_out.astype(np.int64),
-                       lay.cumulative, np.asarray(degrees, dtype=np.int64), p, fit.coef, fit.ok, fit.sse_test,
+    kernels.family_fit(readonly(x), readonly(y), readonly(np.empty(0) if w is None else w), readonly(lay.bounds),
+                       readonly(lay.held_out.astype(np.int64)), lay.cumulative,
+                       readonly(np.asarray(degrees, dtype=np.int64)), p, fit.coef, fit.ok, fit.sse_test,
                        fit.w_test, fit.sse_full, fit.w_full, fit.tss, fit.tss_test, fit.lower, fit.scale)
     return fit
 
@@ -101,8 +103,10 @@ def _fit_with_controls(x, y, w, lay: FoldLayout, degrees, fold_coefficients: boo
         tss_test=np.empty(n_series), lower=np.empty((n_series, q, q)), scale=np.empty((n_series, q)),
         gamma=np.empty((n_series, kept, n_deg, m)), kept=np.empty(n_series, np.int64),
         tie=PriceTie(np.empty(n_series), np.empty(n_series, np.int64), np.empty((n_series, m), bool)))
-    controlled_fit(x, y, np.ascontiguousarray(z, dtype=np.float64), np.empty(0) if w is None else w, lay.bounds,
-                   lay.held_out.astype(np.int64), lay.cumulative, np.asarray(degrees, dtype=np.int64), p, fit.coef,
+    controlled_fit(readonly(x), readonly(y), readonly(np.ascontiguousarray(z, dtype=np.float64)),
+                   readonly(np.empty(0) if w is None else w), readonly(lay.bounds),
+                   readonly(lay.held_out.astype(np.int64)), lay.cumulative,
+                   readonly(np.asarray(degrees, dtype=np.int64)), p, fit.coef,
                    fit.gamma, fit.ok, fit.sse_test, fit.w_test, fit.sse_full, fit.w_full, fit.tss, fit.tss_test,
                    fit.lower, fit.scale, fit.kept, fit.tie.vif, fit.tie.tied, fit.tie.redundant)
     if p > max(degrees) + 1:  # the x column was there for ``tie`` only

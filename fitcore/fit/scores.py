@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..compiled import compiled
+from ..compiled import compiled, readonly
 from .segments import segment_sums
 
 
@@ -47,8 +47,8 @@ def moments(y: np.ndarray, w: np.ndarray | None, bounds: np.ndarray, held_out: n
     ``held_out[f]``.  Summed block by block in row order, as the polynomial fits sum them."""
     n_s = len(bounds)
     out = Moments(np.empty((n_s, len(held_out))), np.empty(n_s), np.empty(n_s))
-    block_moments(y, np.empty(0) if w is None else w, bounds, held_out.astype(np.int64), out.w_test, out.tss,
-                  out.tss_test)
+    block_moments(readonly(y), readonly(np.empty(0) if w is None else w), readonly(bounds),
+                  readonly(held_out.astype(np.int64)), out.w_test, out.tss, out.tss_test)
     return out
 
 

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..compiled import readonly
 from . import controlled_rows, kernels
 from . import reasons as R
 from .basis import leverages
@@ -147,8 +148,9 @@ def influence(ch: Chunk, lineup: Lineup, fits: list[Fitted], cells: Cells, chose
     n_s = len(ch.counts)
     top, first = np.full(n_s, -1.0), np.full(n_s, -1, dtype=np.int64)
     order = np.arange(len(ch.price)) if ch.lay.order is None else ch.lay.order  # chunk-relative dataset rows
-    weight = np.empty(0) if ch.weight is None else ch.weight
-    offsets = ch.offsets.astype(np.int64)
+    weight = readonly(np.empty(0) if ch.weight is None else ch.weight)
+    offsets = readonly(ch.offsets.astype(np.int64))
+    order = readonly(order)
     every = np.arange(n_s)
     for (family, cols), fit in zip(lineup.groups, fits):
         mine = (chosen >= cols.start) & (chosen < cols.stop)
@@ -156,13 +158,15 @@ def influence(ch: Chunk, lineup: Lineup, fits: list[Fitted], cells: Cells, chose
         size = np.where(mine, lineup.complexity[picked], 0)
         row_coef = np.ascontiguousarray(fit.row_coef[every, picked - cols.start])
         if ch.controls is None:
-            kernels.influence_rows(fit.rows, fit.target, weight, offsets, order, row_coef, size, fit.lower,
-                                   fit.scale, cells.sigma2[every, picked], top, first)
+            kernels.influence_rows(readonly(fit.rows), readonly(fit.target), weight, offsets, order, readonly(row_coef),
+                                   readonly(size), readonly(fit.lower), readonly(fit.scale),
+                                   readonly(cells.sigma2[every, picked]), top, first)
             continue
         z = ch.controls.z
-        controlled_rows.influence_rows(fit.rows, fit.target, z, weight, offsets, order, row_coef,
-                                       np.ascontiguousarray(fit.gamma[every, picked - cols.start]),
-                                       np.where(mine, size + len(z), 0), fit.lower, fit.scale,
-                                       cells.sigma2[every, picked], (size + ch.controls.kept).astype(float), top,
-                                       first)
+        controlled_rows.influence_rows(readonly(fit.rows), readonly(fit.target), readonly(z), weight, offsets, order,
+                                       readonly(row_coef),
+                                       readonly(np.ascontiguousarray(fit.gamma[every, picked - cols.start])),
+                                       readonly(np.where(mine, size + len(z), 0)), readonly(fit.lower),
+                                       readonly(fit.scale), readonly(cells.sigma2[every, picked]),
+                                       readonly((size + ch.controls.kept).astype(float)), top, first)
     return top, first

@@ -11,7 +11,7 @@ from functools import cached_property
 
 import numpy as np
 
-from ..compiled import compiled
+from ..compiled import compiled, readonly
 from ..fit import reasons as R
 from ..fit.basis import polynomial
 from ..fit.results import Results
@@ -203,7 +203,8 @@ def _price_spread(results: Results):
     data = results.data
     n_s = results.n_series
     inner, mean, var = np.zeros(n_s, np.int64), np.zeros(n_s), np.zeros(n_s)
-    price_moments(data.price, data.offsets.astype(np.int64), results.price_lo, results.price_hi, inner, mean, var)
+    price_moments(readonly(data.price), readonly(data.offsets.astype(np.int64)), readonly(results.price_lo),
+                  readonly(results.price_hi), inner, mean, var)
     distinct = np.where(results.price_hi > results.price_lo, np.where(inner > 0, 3, 2), 1)
     with np.errstate(divide="ignore", invalid="ignore"):
         cv = np.where(mean > 0, np.sqrt(var) / mean, 0.0)

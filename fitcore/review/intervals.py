@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..compiled import compiled
+from ..compiled import compiled, readonly
 from ..fit.results import Results
 
 BLOCK = 4096  # series factored at once (bounds the lanes' work arrays)
@@ -95,9 +95,11 @@ def candidate_covariances(results: Results, block: np.ndarray):
                 regressors[family.regressor] = np.ascontiguousarray(family.x(price), dtype=np.float64)
         # Every candidate of a family shares its window (mid, half).
         sums = np.empty((2 * p - 1, len(block)))
-        _power_sums(regressors[family.regressor], weight, local, np.arange(len(block), dtype=np.int64),
-                    np.ascontiguousarray(results.basis_mid[block, cols.start], dtype=np.float64),
-                    np.ascontiguousarray(results.basis_half[block, cols.start], dtype=np.float64), 2 * p - 1, sums)
+        _power_sums(readonly(regressors[family.regressor]), readonly(weight), readonly(local),
+                    readonly(np.arange(len(block), dtype=np.int64)),
+                    readonly(np.ascontiguousarray(results.basis_mid[block, cols.start], dtype=np.float64)),
+                    readonly(np.ascontiguousarray(results.basis_half[block, cols.start], dtype=np.float64)), 2 * p - 1,
+                    sums)
         inv, d, good = _unscaled_block(sums, p)
         for c in range(cols.start, cols.stop):
             k = int(sizes[c])

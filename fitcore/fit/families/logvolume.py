@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ...compiled import compiled
+from ...compiled import compiled, readonly
 from .. import controlled_rows
 from ..basis import window
 from ..kernels import trains_on
@@ -61,8 +61,10 @@ class LogVolume(Family):
         np.exp(growth, out=growth)  # numpy's vectorised exp: ~4× a compiled scalar loop here
         n_s = len(ch.counts)
         sse_test, smear, sse_full = np.empty((n_s, lay.n_folds)), np.empty(n_s), np.empty(n_s)
-        volume_errors(u, z, ch.volume, np.empty(0) if ch.weight is None else ch.weight, lay.bounds,
-                      lay.held_out.astype(np.int64), lay.cumulative, a, e, growth, smear, sse_full, sse_test)
+        volume_errors(readonly(u), readonly(z), readonly(ch.volume),
+                      readonly(np.empty(0) if ch.weight is None else ch.weight), readonly(lay.bounds),
+                      readonly(lay.held_out.astype(np.int64)), lay.cumulative, readonly(a), readonly(e),
+                      readonly(growth), smear, sse_full, sse_test)
         return sse_test, along_folds(log.ok[:, :-1, 0], np.logical_and), smear, sse_full
 
     def _fold_errors_with_controls(self, work):
@@ -80,8 +82,9 @@ class LogVolume(Family):
         np.exp(growth, out=growth)
         n_s = len(ch.counts)
         sse_test, smear, sse_full = np.empty((n_s, lay.n_folds)), np.empty(n_s), np.empty(n_s)
-        controlled_rows.volume_errors(ch.volume, np.empty(0) if ch.weight is None else ch.weight, lay.bounds,
-                                      lay.held_out.astype(np.int64), lay.cumulative, growth, smear, sse_full, sse_test,
+        controlled_rows.volume_errors(readonly(ch.volume), readonly(np.empty(0) if ch.weight is None else ch.weight),
+                                      readonly(lay.bounds), readonly(lay.held_out.astype(np.int64)), lay.cumulative,
+                                      readonly(growth), smear, sse_full, sse_test,
                                       np.zeros((lay.bounds.shape[1] - 1, lanes + 1)))
         return sse_test, along_folds(log.ok[:, :-1, 0], np.logical_and), smear, sse_full
 
