@@ -103,7 +103,7 @@ class TriageApp(App):
 
     def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession], observer=None) -> None:
         super().__init__()
-        self.opener, self.observer = opener, observer
+        self.observer = observer
         self.session: TriageSession | None = None
         self.failure: str | None = None  # why the session could not be opened (the command line says it too)
         self._mounted = threading.Event()  # progress reaches the loading screen once there is one
