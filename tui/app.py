@@ -1,7 +1,8 @@
-"""The triage app: opens a session in a worker thread, then hands over to the triage screen."""
+"""The triage app: opens a session in a thread started with the app, then hands over to the triage screen."""
 from __future__ import annotations
 
-from typing import Callable
+import threading
+from typing import TYPE_CHECKING, Callable
 
 from rich.text import Text
 from textual import work
@@ -15,9 +16,18 @@ from fitcore.errors import PricefoldError
 from . import engine
 from .messages import EvidenceReady, FirstRows, FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
 from .screens.dialogs import MessageDialog
-from .screens.triage import TriageScreen
-from .session import TriageSession
 from .text import clean
+
+if TYPE_CHECKING:  # the triage screen's modules load while the session opens (``load_screen``)
+    from .screens.triage import TriageScreen
+    from .session import TriageSession
+
+
+def load_screen() -> type[TriageScreen]:
+    """The triage screen's class.  Its modules (the evidence, charts, dialogs) are imported on the UI thread
+    while the session opens in its thread, not before the app starts (where the results' read waited for them)."""
+    from .screens.triage import TriageScreen
+    return TriageScreen
 
 
 def settle() -> None:
@@ -30,6 +40,33 @@ def settle() -> None:
     import gc
     gc.collect()
     gc.freeze()
+
+
+class Opening:
+    """``opener(progress)`` run in a thread of its own from the app's construction on, so the results file is
+    read while Textual starts and the triage screen's modules load (Arrow reads without the interpreter lock);
+    ``result()`` waits for it and raises what it raised."""
+
+    def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession],
+                 progress: Callable[[int, int], None]) -> None:
+        self._session: TriageSession | None = None
+        self._error: BaseException | None = None
+        # a daemon: quitting while it still reads must not wait for it (as a Textual thread worker would not)
+        self._thread = threading.Thread(target=self._open, args=(opener, progress), name="pricefold-opening",
+                                        daemon=True)
+        self._thread.start()
+
+    def _open(self, opener, progress) -> None:
+        try:
+            self._session = opener(progress)
+        except BaseException as exc:  # handed to ``result``'s caller: the app's one failure path
+            self._error = exc
+
+    def result(self) -> TriageSession:
+        self._thread.join()
+        if self._error is not None:
+            raise self._error
+        return self._session
 
 
 class LoadingScreen(Screen):
@@ -46,7 +83,7 @@ class LoadingScreen(Screen):
 
 
 class TriageApp(App):
-    """``opener(progress)`` builds the ``TriageSession``; it runs in a thread worker.
+    """``opener(progress)`` builds the ``TriageSession``; it runs in a thread started with the app (``Opening``).
 
     ``observer(progress, first)``, when given, runs in a second worker once the session is up and returns
     ``(results, diagnosis)`` with the observations, for a session opened from a results file; it calls
@@ -66,18 +103,26 @@ class TriageApp(App):
 
     def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession], observer=None) -> None:
         super().__init__()
-        self.opener, self.observer = opener, observer
+        self.observer = observer
         self.session: TriageSession | None = None
         self.failure: str | None = None  # why the session could not be opened (the command line says it too)
+        self._mounted = threading.Event()  # progress reaches the loading screen once there is one
+        self.opening = Opening(opener, self._progressed)  # from now on, not from the first frame on
+
+    def _progressed(self, done: int, total: int) -> None:
+        if self._mounted.is_set():
+            self.post_message(FitProgressed(done, total))
 
     def on_mount(self) -> None:
         self.push_screen(LoadingScreen())
+        self._mounted.set()
         self.open_session()
+        self.call_after_refresh(load_screen)  # while the session opens: not after it
 
     @work(thread=True, exclusive=True, exit_on_error=False)
     def open_session(self) -> None:
         try:
-            session = self.opener(lambda done, total: self.post_message(FitProgressed(done, total)))
+            session = self.opening.result()
         except (PricefoldError, OSError) as exc:
             self.post_message(LoadFailed(str(exc)))
             return
@@ -89,7 +134,7 @@ class TriageApp(App):
 
     def on_session_ready(self, message: SessionReady) -> None:
         self.session = message.session
-        self.switch_screen(TriageScreen(message.session))
+        self.switch_screen(load_screen()(message.session))
         for warning in message.session.warnings:
             self.notify(clean(warning), severity="warning", timeout=10, markup=False)
         self.call_after_refresh(settle)  # after the first screen is drawn, not before it
@@ -125,7 +170,8 @@ class TriageApp(App):
     def triage_screen(self) -> TriageScreen | None:
         """The triage screen, also under a dialog: what arrives while a dialog is open is drawn on it too
         (else the evidence kept saying "reading the data …" after the dialog closed)."""
-        return next((s for s in reversed(self.screen_stack) if isinstance(s, TriageScreen)), None)
+        screen = load_screen()
+        return next((s for s in reversed(self.screen_stack) if isinstance(s, screen)), None)
 
     def on_evidence_ready(self, message: EvidenceReady) -> None:
         screen = self.triage_screen()

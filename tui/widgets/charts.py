@@ -9,7 +9,6 @@ uses the very colour number its line is drawn with.
 from __future__ import annotations
 
 import numpy as np
-import plotext as plt
 from rich.style import Style
 from rich.text import Text
 
@@ -21,6 +20,7 @@ STANDING, OTHER, BAND, OBSERVED, PLAN, ONE_SE, SIGNED, NEW = 46, 45, 214, 255, 2
 UNOBSERVED = "#d7af5f"  # the warn colour: no observations will come, and why
 SOLID = "braille"  # renders in a plain xterm-256color; sextant markers often do not
 PLOTTABLE = 1e290  # largest size of a coordinate plotext is given (beyond it, its axis scaling overflows)
+plt = None  # plotext: imported with the first chart, not with the screen (the list never waits for it)
 LOG_RATIO = 10  # the fold chart goes to a log scale when the largest error is this many times the smallest mean
 
 
@@ -33,6 +33,10 @@ LABEL_ROWS = 4  # rows of a chart outside its plot area: the frame's two, the x 
 
 
 def _start(width: int, height: int) -> None:
+    global plt
+    if plt is None:
+        import plotext
+        plt = plotext
     plt.clf()
     plt.limitsize(False, False)  # the size asked for, whatever plotext takes the terminal's to be
     plt.plotsize(max(width, 20), max(height, 6))
