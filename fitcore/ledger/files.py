@@ -77,6 +77,23 @@ def read_from(fd: int, path: Path, start: int) -> bytes:
     return b"".join(chunks)
 
 
+def digest_of(fd: int, path: Path, end: int, digest) -> bytes | None:
+    """``digest`` (a fresh ``hashlib`` object) fed the file's bytes before ``end``, read 1 MiB at a time into
+    one buffer; None when the file now ends before ``end``."""
+    buffer = memoryview(bytearray(1 << 20))
+    offset = 0
+    try:
+        while offset < end:
+            got = os.preadv(fd, [buffer[:min(len(buffer), end - offset)]], offset)
+            if not got:
+                return None
+            digest.update(buffer[:got])
+            offset += got
+    except OSError as exc:
+        raise LedgerError(f"{path}: cannot read the ledger ({exc.strerror})") from None
+    return digest.digest()
+
+
 def set_aside(fd: int, path: Path, keep: int, moment: datetime) -> Path:
     """Move the bytes after ``keep`` (a torn line, an incomplete batch) to ``<ledger>.torn-<UTC time>``
     beside the real file, then cut them from the ledger.  The side file is written under a temporary

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import fcntl
 import gc
+import hashlib
 import os
 import threading
 from collections.abc import Callable, Iterable
@@ -34,6 +35,9 @@ INTACT, BROKEN, UNVERIFIABLE = "intact", "broken", "unverifiable"
 # A read this large makes records by the thousand that live as long as the reader: they are moved out of the
 # collector's sight (else the first full collection after it walks them all: 0.2–0.5 s at 100,000 records).
 FREEZE_BYTES = 8 << 20
+# The running digest of the verified records' bytes, to find them changed in place (an edit of the same
+# length moves nothing a cheaper check sees).  Authenticity is the chain's; this only has to notice.
+PREFIX_DIGEST = hashlib.sha256
 
 
 class Ledger:
@@ -60,6 +64,8 @@ class Ledger:
         self._unverifiable: Problem | None = None
         self._offset = self._line = 0
         self._last_raw = b""
+        self._prefix = PREFIX_DIGEST()  # of the bytes before ``_offset``: the whole records verified
+        self._prefix_seen: tuple | None = None  # the file's status when they were last found unchanged
         self._identity: tuple[int, int] | None = None
         self._seen: tuple | None = None
 
@@ -117,13 +123,16 @@ class Ledger:
             os.close(fd)  # closing releases the lock
         return new
 
-    def _read(self, fd: int, judge: bool) -> list[dict]:
+    def _read(self, fd: int, judge: bool, always: bool = False) -> list[dict]:
         """Take the whole records after the last one read; ``judge``: the caller holds a lock, so
-        whatever follows them is an interrupted append (noted), not one still being written."""
+        whatever follows them is an interrupted append (noted), not one still being written.  The records
+        already read are first found unchanged (``_same_prefix``; ``always``: even if the file's size and
+        time are those of the last look, as before an append)."""
         status = os.fstat(fd)
         self.exists = True
         identity = (status.st_dev, status.st_ino)
-        if self._identity not in (None, identity) or status.st_size < self._offset or not self._same_last(fd):
+        if self._identity not in (None, identity) or status.st_size < self._offset or not self._same_last(fd) \
+                or not self._same_prefix(fd, status, always):
             return self._start_over(fd) if judge else []  # rewritten: judged only under the lock
         self._identity = identity
         new = self._consume(files.read_from(fd, self.path, self._offset), judge)
@@ -137,6 +146,18 @@ class Ledger:
             return True
         size = len(self._last_raw) + 1
         return os.pread(fd, size, self._offset - size) == self._last_raw + b"\n"
+
+    def _same_prefix(self, fd: int, status: os.stat_result, always: bool) -> bool:
+        """The bytes of the records read are still those verified: read again and digested whenever the
+        file's size or modification time changed since they were last found so (another analyst's append
+        or an edit), and before every append.  Appends only add after them; a torn tail is not part of them."""
+        seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
+        if not self._offset or (seen == self._prefix_seen and not always):
+            return True
+        same = files.digest_of(fd, self.path, self._offset, PREFIX_DIGEST()) == self._prefix.digest()
+        if same:
+            self._prefix_seen = seen
+        return same
 
     def _start_over(self, fd: int) -> list[dict]:
         seq, digest = self.head
@@ -190,6 +211,7 @@ class Ledger:
                 new += self._take(unit, position, raw)
                 unit, before = [], (self._chain.copy(), self._line, self._unverifiable)
         lines_read = self._line
+        self._prefix.update(memoryview(data)[:self._offset - start])
         if unit or doubt:  # an incomplete batch (counted once whole), or a doubt left for the locked read
             self._chain, self._line, self._unverifiable = before
         if judge:
@@ -231,7 +253,7 @@ class Ledger:
     def read_locked(self, fd: int) -> None:
         """Catch up under the writer's exclusive lock (on the writer's own descriptor)."""
         if not self.problems:
-            self._read(fd, judge=True)
+            self._read(fd, judge=True, always=True)
 
     @property
     def tail_start(self) -> int:
@@ -253,6 +275,8 @@ class Ledger:
                 self._line += len(records)
                 with collector_paused():
                     self._take(records, self._offset + written, lines[-1][:-1])
+                for line in lines:
+                    self._prefix.update(line)
                 self.notes = []
                 self._seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
                 return records
