@@ -15,7 +15,7 @@ import pytest
 
 from fitcore import ledger
 from fitcore.ledger import chain, files
-from tests.fitcore.ledger_support import ANA, BO, entry, lines
+from tests.fitcore.ledger_support import ANA, BO, edit_in_place, entry, lines
 
 
 @pytest.fixture
@@ -242,24 +242,6 @@ def test_a_problem_seen_without_the_lock_is_judged_under_it(tmp_path):
     assert book.refresh(wait=False) == [] and book.state == "intact"  # not believed without the lock
     os.close(writer)
     assert book.refresh() == [] and book.state == "broken" and book.problem.line == 2
-
-
-def edit_in_place(path, line, old, new, keep_mtime=False):
-    """Change ``old`` to ``new`` (the same length) in ``line`` (1-based) of the file, in place: the inode, the
-    size and every other byte stay as they were (``keep_mtime``: the modification time too)."""
-    assert len(old) == len(new)
-    before = path.stat()
-    data = path.read_bytes()
-    start = sum(map(len, data.splitlines(keepends=True)[:line - 1]))
-    at = data.index(old, start)
-    assert at < start + len(data.splitlines(keepends=True)[line - 1])
-    with open(path, "r+b") as handle:
-        handle.seek(at)
-        handle.write(new)
-    if keep_mtime:
-        os.utime(path, ns=(before.st_atime_ns, before.st_mtime_ns))
-    after = path.stat()
-    assert (after.st_ino, after.st_size) == (before.st_ino, before.st_size)
 
 
 def six_records(path):
