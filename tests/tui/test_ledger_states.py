@@ -101,8 +101,9 @@ def test_an_open_session_refuses_a_decision_after_an_edit_in_place(ledger_path):
 
 
 async def test_a_hold_after_an_edit_in_place_is_refused_and_the_screen_turns_read_only(ledger_path):
-    # As a trial did it: the hold's note dialog confirmed after line 4 was edited (its length kept: not the last
-    # record, which an older check saw; and here its modification time put back, so no look of the screen saw it first: the append itself refuses).
+    # As a trial did it: the hold's note dialog confirmed after line 4 was edited, its length kept (not the
+    # last record, which an older check saw). Here its modification time is put back too, so no look of the
+    # screen sees it first: the append itself refuses.
     from tests.fitcore.ledger_support import edit_in_place
     six_holds(ledger_path)
     app = make_app(ledger_path)
