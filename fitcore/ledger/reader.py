@@ -17,9 +17,9 @@ from __future__ import annotations
 
 import fcntl
 import gc
-import hashlib
 import os
 import threading
+import zlib
 from collections.abc import Callable, Iterable
 from contextlib import contextmanager
 from datetime import datetime
@@ -35,9 +35,6 @@ INTACT, BROKEN, UNVERIFIABLE = "intact", "broken", "unverifiable"
 # A read this large makes records by the thousand that live as long as the reader: they are moved out of the
 # collector's sight (else the first full collection after it walks them all: 0.2–0.5 s at 100,000 records).
 FREEZE_BYTES = 8 << 20
-# The running digest of the verified records' bytes, to find them changed in place (an edit of the same
-# length moves nothing a cheaper check sees).  Authenticity is the chain's; this only has to notice.
-PREFIX_DIGEST = hashlib.sha256
 
 
 class Ledger:
@@ -64,7 +61,11 @@ class Ledger:
         self._unverifiable: Problem | None = None
         self._offset = self._line = 0
         self._last_raw = b""
-        self._prefix = PREFIX_DIGEST()  # of the bytes before ``_offset``: the whole records verified
+        # The CRC-32 of the bytes before ``_offset`` (the whole records verified), kept as they are read, to
+        # find them changed in place: an edit of the same length moves nothing the cheaper checks see.  Any
+        # edit breaks the chain, which the reread then names; the CRC has only to notice (and is read again
+        # at twice SHA-256's speed: 26 vs 52 ms for 100,000 records, 67 MiB).
+        self._prefix = 0
         self._prefix_seen: tuple | None = None  # the file's status when they were last found unchanged
         self._identity: tuple[int, int] | None = None
         self._seen: tuple | None = None
@@ -154,7 +155,7 @@ class Ledger:
         seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
         if not self._offset or (seen == self._prefix_seen and not always):
             return True
-        same = files.digest_of(fd, self.path, self._offset, PREFIX_DIGEST()) == self._prefix.digest()
+        same = files.crc_of(fd, self.path, self._offset) == self._prefix
         if same:
             self._prefix_seen = seen
         return same
@@ -211,7 +212,7 @@ class Ledger:
                 new += self._take(unit, position, raw)
                 unit, before = [], (self._chain.copy(), self._line, self._unverifiable)
         lines_read = self._line
-        self._prefix.update(memoryview(data)[:self._offset - start])
+        self._prefix = zlib.crc32(memoryview(data)[:self._offset - start], self._prefix)
         if unit or doubt:  # an incomplete batch (counted once whole), or a doubt left for the locked read
             self._chain, self._line, self._unverifiable = before
         if judge:
@@ -276,7 +277,7 @@ class Ledger:
                 with collector_paused():
                     self._take(records, self._offset + written, lines[-1][:-1])
                 for line in lines:
-                    self._prefix.update(line)
+                    self._prefix = zlib.crc32(line, self._prefix)
                 self.notes = []
                 self._seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
                 return records

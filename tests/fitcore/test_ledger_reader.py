@@ -321,3 +321,16 @@ def test_other_readers_appends_are_not_taken_for_edits(tmp_path):
     assert [r["seq"] for r in bo.refresh()] == [17]  # ana's last; bo read the others under its lock
     assert (ana.state, bo.state, ana.head, ana.generation, bo.generation) == ("intact", "intact", bo.head, 0, 0)
     assert ledger.verify(path) == [] and len(ledger.Ledger(path).records) == 17
+
+
+def test_a_change_in_place_the_chain_still_verifies_is_read_again_and_judged_as_verify_does(tmp_path):
+    # Two members of line 3 swapped (the record's content the same, its length too): the records read are
+    # read again from the start (the screen replays them) and the ledger stays intact, as verify finds it.
+    path = tmp_path / "ledger.jsonl"
+    six_records(path)
+    book = ledger.Ledger(path)
+    edit_in_place(path, 3, b'"host":"server-1","model":"poly1"', b'"model":"poly1","host":"server-1"')
+    assert ledger.verify(path) == []
+    [written] = book.append([entry("g")], ANA)
+    assert (written["seq"], book.state, book.generation, len(book.records)) == (7, "intact", 1, 7)
+    assert ledger.verify(path) == []
