@@ -6,6 +6,7 @@ from typing import Callable
 from rich.text import Text
 from textual import work
 from textual.app import App, ComposeResult
+from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import Static
 
@@ -58,6 +59,10 @@ class TriageApp(App):
     CSS_PATH = ["styles/base.tcss", "styles/triage.tcss"]
     TITLE = "pricefold triage"
     ENABLE_COMMAND_PALETTE = False
+    # Ctrl+C ends the app, as it ends any command in a terminal (Textual's own binding only says to press
+    # ctrl+q, a key the footer never shows), also while the data are read and fitted; a text field that
+    # takes Ctrl+C itself (copy) keeps it.
+    BINDINGS = [Binding("ctrl+c", "quit", "quit", show=False)]
 
     def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession], observer=None) -> None:
         super().__init__()

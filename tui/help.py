@@ -28,7 +28,7 @@ KEYS = [
     ("c", "with controls: the observations chart between raw volumes and volumes adjusted to the plan's "
           "controls (what each week would have sold at its price with the controls as planned)"),
     ("?", "this help"),
-    ("q", "quit (every decision is already in the ledger)"),
+    ("q, Ctrl+C", "quit (every decision is already in the ledger)"),
 ]
 
 CAUTIONS = ("Cautions. Curves fitted to observational sales data confound price with promotions, seasons, "

@@ -319,7 +319,13 @@ class TriageSession(ListState):
         """Why nothing can be recorded, in words (the header and a refused key say the same)."""
         if self.book.state != ledger.INTACT:
             return f"the ledger is {self.book.state} ({self.book.problem})"
-        return "you may not write to the ledger file (permissions)"
+        path = Path(self.book.path)
+        try:  # a read-only mount is not a matter of permissions
+            read_only_mount = bool(os.statvfs(path if path.exists() else path.parent).f_flag & os.ST_RDONLY)
+        except OSError:
+            read_only_mount = False
+        return ("the ledger's file system is mounted read-only" if read_only_mount
+                else "you may not write to the ledger file (permissions)")
 
     _permitted: bool | None = None
 

@@ -87,16 +87,19 @@ def no_usable_rows(rejects: Rejects, columns: Columns) -> DataError:
 def first_rejected(rejects: Rejects, columns: Columns) -> tuple[str | None, str]:
     """``(column, words)``: the column of the first rejected row's reason and the reason with its cell, a
     decimal comma (the usual cause of a whole column of non-numbers) said as such."""
-    import re
-
     from .rejects import first_cell
     why = rejects.reasons[0]
     column = next((name for name in columns.needed if why.endswith(f" {name}") or why.startswith(f"{name} ")), None)
     cell = first_cell(rejects, column) if column and why.startswith("non-numeric ") else None
-    found = "" if cell is None else f": {cell!r}"
-    if cell is not None and re.fullmatch(r"\s*[-+]?\d*,\d+\s*", cell):
-        found += f" (a decimal comma? numbers are read with a decimal point: {cell.strip().replace(',', '.')})"
-    return column, why + found
+    return column, why + ("" if cell is None else f": {cell!r}{decimal_comma_hint(cell)}")
+
+
+def decimal_comma_hint(cell: str) -> str:
+    """' (a decimal comma? …)' when ``cell`` reads as a number written with a decimal comma, else ''."""
+    import re
+    if re.fullmatch(r"\s*[-+]?\d*,\d+\s*", cell):
+        return f" (a decimal comma? numbers are read with a decimal point: {cell.strip().replace(',', '.')})"
+    return ""
 
 
 def _digest_beside(path: Path):

@@ -47,12 +47,14 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
     dated = season and PLAN_DATE in present
     columns = Columns(product=keys[0], segments=tuple(keys[1:]), price="plan_price", volume="plan_price",
                       date=PLAN_DATE if dated else None, controls=given)
-    rows, _, _ = read_rows(path, columns, sep)
+    rows, kind, delimiter = read_rows(path, columns, sep)
     price, not_number, _ = rows.numbers["plan_price"]
     bad = not_number | ~np.isfinite(price) | (price <= 0)
     if bad.any():
         first = int(np.argmax(bad))
-        raise DataError("expected a price above zero", path=str(path), line=int(rows.line[first]), column="plan_price")
+        line = int(rows.line[first])
+        raise DataError(f"expected a price above zero{_found(path, kind, delimiter, line)}", path=str(path),
+                        line=line, column="plan_price")
     for name in given:
         values, not_number, missing = rows.numbers[name]
         wrong = not_number | (~np.isfinite(values) & ~missing)
@@ -89,6 +91,14 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
         return out
     return Plan(spread(price, np.nan), {name: spread(rows.numbers[name][0], np.nan) for name in given},
                 spread(rows.date[0], np.datetime64("NaT")) if dated else None)
+
+
+def _found(path: Path, kind: str, delimiter: str | None, line: int) -> str:
+    """', found '2,20' (a decimal comma? …)': the plan price cell of ``line`` as written (CSV only)."""
+    from .loader import decimal_comma_hint
+    from .rejects import Rejects, first_cell
+    cell = first_cell(Rejects(path, kind, delimiter, np.array([line]), [""]), "plan_price")
+    return "" if cell is None else f", found {cell!r}{decimal_comma_hint(cell)}"
 
 
 def _header_names(path: Path, sep: str | None, wanted: list[str]) -> list[str]:

@@ -61,8 +61,15 @@ def check_text(path: Path) -> None:
     and the needed columns: the readers name their line and column.)"""
     with open_bytes(path) as handle:
         head = handle.read(8192)
+    for mark, name in ((b"\xff\xfe\x00\x00", "UTF-32"), (b"\x00\x00\xfe\xff", "UTF-32"),
+                       (b"\xff\xfe", "UTF-16"), (b"\xfe\xff", "UTF-16")):
+        if head.startswith(mark):
+            raise DataError(f"expected UTF-8 text (CSV or TSV); this is {name} text (its byte-order mark says so): "
+                            "save it as UTF-8", path=str(path))
     if b"\x00" in head:
-        raise DataError("expected UTF-8 text (CSV or TSV); this looks like a binary file", path=str(path))
+        line = head.count(b"\n", 0, head.index(b"\x00")) + 1
+        raise DataError(f"expected UTF-8 text (CSV or TSV); line {line} holds a NUL byte (0x00), as a binary file "
+                        "does", path=str(path))
 
 
 def compressed_trouble(exc: BaseException) -> str:

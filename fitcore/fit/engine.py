@@ -75,7 +75,7 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, lineup: L
         stages.hold_controls(ch, lineup, fits)
     cells = stages.gather(ch, lineup, fits)
     scores = scheme.scores(cells.held_out, ch.offsets, ch.weight, ch.moments)
-    reason = stages.unavailable(ch, lineup, cells)
+    reason = stages.unavailable(ch, lineup, cells, scores.cv_mse)
     available = reason == R.NONE
     nan = np.nan
     with np.errstate(invalid="ignore", divide="ignore"):

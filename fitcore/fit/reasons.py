@@ -14,6 +14,7 @@ NOT_SERVED = 7  # the family cannot fit the series (e.g. a log of a price or vol
 NO_WEIGHT = 8  # every observation of the series weighs zero
 WEIGHT_OVERFLOW = 9  # the series' weighted sums overflow
 CONTROL_TIED = 10  # a price term cannot be told apart from the controls
+HELD_OUT_OVERFLOW = 11  # a held-out error beyond floating point (a price or volume far from the rest)
 
 # Above this variance inflation of price given the controls (their R² above 0.9999), a price term
 # that cannot be fitted is put down to the controls rather than to the prices.
@@ -47,6 +48,9 @@ def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int,
         return "the weights are too large: weighted sums of squares overflow (scale the weights down)"
     if code == CONTROL_TIED:
         return "price moves in step with the controls in this series, so its effect cannot be told apart from theirs"
+    if code == HELD_OUT_OVERFLOW:
+        return ("its held-out errors overflow: a price or volume far from the others (a mistyped one?) sends a "
+                "prediction beyond the range of numbers")
     raise ValueError(f"unknown reason code {code}")
 
 

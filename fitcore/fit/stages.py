@@ -79,8 +79,9 @@ def hold_controls(ch: Chunk, lineup: Lineup, fits: list[Fitted]) -> None:
     ch.controls = tied_to_price(ch.controls, tie)
 
 
-def unavailable(ch: Chunk, lineup: Lineup, cells: Cells) -> np.ndarray:
-    """(S, C) int8 reason codes (``reasons``), the first that applies in this order."""
+def unavailable(ch: Chunk, lineup: Lineup, cells: Cells, cv_mse: np.ndarray) -> np.ndarray:
+    """(S, C) int8 reason codes (``reasons``), the first that applies in this order (``cv_mse``: (S, C) the
+    held-out scores, last: a candidate whose held-out error is not a finite number cannot be compared)."""
     n_coef = lineup.complexity
     every_coef = n_coef[None, :] if ch.controls is None else n_coef[None, :] + ch.controls.kept[:, None]
     rules = [
@@ -92,6 +93,7 @@ def unavailable(ch: Chunk, lineup: Lineup, cells: Cells) -> np.ndarray:
         (ch.counts[:, None] <= every_coef, R.TOO_FEW_POINTS),
         (~cells.fit_ok, R.RANK_ALL),
         (~cells.held_ok, ch.scheme.fold_failure),
+        (~np.isfinite(cv_mse), R.HELD_OUT_OVERFLOW),
     ]
     reason = np.zeros(cells.fit_ok.shape, dtype=np.int8)
     for applies, code in reversed(rules):

@@ -54,7 +54,7 @@ def _few_points(diag, s):
 def _no_model(diag, s):
     r = diag.results
     available = [c for c in range(len(r.names)) if r.reason[s, c] == R.NONE]
-    if available:
+    if available:  # results written before such candidates were marked unavailable (HELD_OUT_OVERFLOW)
         names = ", ".join(r.names[c] for c in available)
         return (f"No candidate could be scored: the cross-validated errors of {names} are not finite numbers "
                 f"(values too large or too small for the arithmetic), so no curve is proposed.")
@@ -69,8 +69,11 @@ def _flat_price(diag, s):
     if distinct < diag.thresholds.min_distinct_prices:
         return (f"Only {distinct} distinct prices ({money(r.price_lo[s])} and {money(r.price_hi[s])}): "
                 f"a curve's shape between them is a guess.")
-    return (f"Price varied by only {pct(diag.numbers['price_cv'][s])} (coefficient of variation; "
-            f"{pct(diag.thresholds.min_price_cv)} wanted), between {money(r.price_lo[s])} and {money(r.price_hi[s])}.")
+    cv, wanted = diag.numbers["price_cv"][s], diag.thresholds.min_price_cv
+    # as many decimals as it takes not to read as enough ("2% (2% wanted)"): 1.96%
+    said = next(f"{cv * 100:.{d}f}%" for d in (0, 1, 2, 3, 4) if f"{cv * 100:.{d}f}" != f"{wanted * 100:.{d}f}" or d == 4)
+    return (f"Price varied by only {said} (coefficient of variation; "
+            f"{pct(wanted)} wanted), between {money(r.price_lo[s])} and {money(r.price_hi[s])}.")
 
 
 def _rising(diag, s):
@@ -209,15 +212,24 @@ def shift_sentence(bt: dict, proposal: str | None) -> str:
         why = WHY_UNTESTED.get(bt["status"], bt["status"])
         parts.append(why[0].upper() + why[1:] + ".")
     if proposal is not None and bt.get("proposed_volume") is not None:
-        change, tilt = number("volume_change"), number("elasticity_change")
-        moved = f"{'+' if change > 0 else '−' if change < 0 else ''}{abs(change) * 100:.0f}%" \
-            if math.isfinite(change) else "n/a"
-        # changes, not levels: "elasticity +0.29" beside a proposal whose elasticity is −1.75 read as a level
-        tilt_text = f"; its elasticity differs by {signed(tilt)}" if math.isfinite(tilt) else ""
         again = "" if bt.get("shape_changed") else " again"
-        parts.append(f"This cycle's proposal, {proposal}{again}, predicts {fmt(number('proposed_volume'))} "
-                     f"({moved} on the signed curve{tilt_text}).")
+        proposed = number("proposed_volume")
+        beside = _beside_signed(proposed, number("signed_volume"), number("volume_change"), number("elasticity_change"))
+        parts.append(f"This cycle's proposal, {proposal}{again}, predicts {fmt(proposed)} ({beside}).")
     return " ".join(parts)
+
+
+def _beside_signed(proposed: float, signed_volume: float, change: float, tilt: float) -> str:
+    """The proposal's volume beside the signed curve's, as changes ("+0.29" next to a proposal whose own
+    elasticity is −1.75 read as its level); at a volume at or below zero neither a share nor an
+    elasticity means anything: the signed curve's volume instead."""
+    if not (proposed > 0 and signed_volume > 0):
+        return f"the signed curve: {fmt(signed_volume)}; no elasticity at a volume at or below zero"
+    moved = round(change * 100) if math.isfinite(change) else None
+    moved_text = "n/a" if moved is None else f"{'+' if moved > 0 else '−' if moved < 0 else ''}{abs(moved)}%"
+    tilt_text = "" if not math.isfinite(tilt) else "; its elasticity is the same" if fmt(abs(tilt)) == "0" \
+        else f"; its elasticity differs by {signed(tilt)}"
+    return f"{moved_text} on the signed curve{tilt_text}"
 
 
 def _stale(diag, s):

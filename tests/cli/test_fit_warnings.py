@@ -88,3 +88,17 @@ def test_a_run_that_rejects_most_rows_says_so(tmp_path, capsys, bad, said_most):
     assert line.startswith(f"{bad} rows rejected: {bad} non-numeric price — see {tmp_path / 'r.rejects.csv'}")
     assert (f"; that is {bad} of the 30 rows read, the first at line 2, column 'price': non-numeric price: 'n/a': "
             "check the delimiter" in line) is said_most
+
+
+@pytest.mark.parametrize("cell, said_after", [
+    ("2,20", ", found '2,20' (a decimal comma? numbers are read with a decimal point: 2.20)"),
+    ("abc", ", found 'abc'"), ("-1.5", ", found '-1.5'")])
+def test_a_bad_plan_price_names_its_cell(tmp_path, capsys, cell, said_after):
+    """As a data file's first rejected cell is named (above), a plan file's bad price is, as written there."""
+    with open(SAMPLE / "plan.csv", newline="") as handle:
+        plan = list(csv.DictReader(handle))
+    plan[2]["plan_price"] = cell
+    part = write(tmp_path / "plan.csv", plan, delimiter=";")
+    code, said = fit(capsys, SAMPLE / "wholesale.csv", "--plan", part, "-o", tmp_path / "r.parquet")
+    assert code == 2
+    assert said == [f"pricefold fit: {part}, line 4, column 'plan_price': expected a price above zero{said_after}"]

@@ -9,6 +9,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 import statsmodels.api as sm
 
 import fitcore
@@ -151,3 +152,21 @@ def test_a_passed_backtest_under_a_new_proposal_is_due_a_look():
     from fitcore.ledger.backtest import due
     assert due({"status": PASSED, "shifted": False, "shape_changed": True}) == "proposal changed"
     assert due({"status": PASSED, "shifted": False, "shape_changed": False}) == "backtest passed"
+
+
+@pytest.mark.parametrize("change, tilt, proposed, signed_volume, said", [
+    (-0.004, 0.0001, 1037.0, 1041.0, "(0% on the signed curve; its elasticity differs by +0.0001)"),
+    (-0.0049, 0.0, 1036.0, 1041.0, "(0% on the signed curve; its elasticity is the same)"),
+    (-7.45, 6.15, -265.4, 41.2, "(the signed curve: 41.20; no elasticity at a volume at or below zero)"),
+    (0.2, -0.1, 60.0, -5.0, "(the signed curve: -5; no elasticity at a volume at or below zero)"),
+])
+def test_the_shift_sentence_says_no_change_and_no_share_of_a_volume_at_or_below_zero(change, tilt, proposed,
+                                                                                     signed_volume, said):
+    """A change that rounds to nothing is "0%" (it read "−0%"), an elasticity unchanged to its shown digits is
+    "the same" ("differs by 0"); a share of, or an elasticity at, a volume at or below zero means nothing
+    (it read "−645% on the signed curve; its elasticity differs by +6.15" where the screen said no elasticity)."""
+    from fitcore.review.sentences import shift_sentence
+    record = {"signed_at": "2026-11-03", "analyst": "ana", "candidate": "poly1", "signed_volume": signed_volume,
+              "price": 2.2, "planned": True, "new_rows": 4, "status": "passed", "error_ratio": 1.9, "outside": 1,
+              "proposed_volume": proposed, "volume_change": change, "elasticity_change": tilt, "shape_changed": True}
+    assert shift_sentence(record, "loglog").endswith(said + ".")

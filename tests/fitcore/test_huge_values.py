@@ -62,12 +62,12 @@ def test_a_series_left_without_a_model_is_flagged_with_a_reason_and_comes_first(
     assert results.chosen[s] == -1
     flags = diagnosis.flags_of(s)
     assert [f["code"] for f in flags] == ["no-model"] and flags[0]["severity"] == "stop"
-    assert "not finite numbers" in flags[0]["message"] and "cannot pin down" not in flags[0]["message"]
+    assert "its held-out errors overflow" in flags[0]["message"] and "cannot pin down" not in flags[0]["message"]
     assert diagnosis.attention_order()[0] == s
     assert not diagnosis.flagged("no-model")[1 - s]
 
 
-def test_show_prints_a_dash_for_null_numbers(overflowing, tmp_path, capsys):
+def test_show_prints_why_an_overflowing_candidate_has_no_numbers(overflowing, tmp_path, capsys):
     results, s = overflowing
     out = tmp_path / "r.json"
     write_results(results, out, diagnose(results))
@@ -75,7 +75,8 @@ def test_show_prints_a_dash_for_null_numbers(overflowing, tmp_path, capsys):
     assert record["chosen"] is None and record["candidates"][0]["q2"] is None
     assert main(["show", str(out), "--product", "huge"]) == 0
     text = capsys.readouterr().out
-    assert "[stop] no-model" in text and "—" in text.split("poly0", 1)[1].splitlines()[0]
+    assert "[stop] no-model" in text
+    assert "unavailable: its held-out errors overflow" in text.split("poly0", 1)[1].splitlines()[0]
 
 
 def test_charts_never_hand_plotext_an_infinity(overflowing):

@@ -77,6 +77,8 @@ def test_rejects_file_holds_the_original_cells(tmp_path):
     (b"product,price,volume\n", "expected at least one observation, found only a header"),
     (b"product,prcie,volume\na,1,2\n", "expected a column 'price', found 'product', 'prcie', 'volume'; did you mean 'prcie'?"),
     (b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR", "binary file"),
+    ("product,price,volume\na,1,2\n".encode("utf-16"), "this is UTF-16 text (its byte-order mark says so): save it as UTF-8"),
+    (b"product,price,volume\na,1,2\na,1\x00,2\n", "line 3 holds a NUL byte (0x00)"),
     (b"product,price,volume\n\xff\xfe\xfa,1,2\n" * 3, "not UTF-8"),
 ])
 def test_file_level_errors_are_one_clear_line(tmp_path, content, message):

@@ -62,6 +62,28 @@ async def test_a_ledger_this_user_may_not_write_is_read_only_before_a_note_is_ty
     assert ledger_path.read_bytes() == before
 
 
+async def test_a_ledger_on_a_read_only_mount_says_so_not_permissions(ledger_path, monkeypatch):
+    """The OS refuses the write for the mount, not the user's rights: the header says which (a trial on a
+    read-only mount read "permissions" while the command line said "Read-only file system")."""
+    import os
+
+    import tui.session
+    one_record(ledger_path)
+    real_access, real_statvfs = os.access, os.statvfs
+
+    class ReadOnly:
+        f_flag = os.ST_RDONLY
+
+    monkeypatch.setattr(tui.session.os, "access", lambda path, mode: False if str(path) == str(ledger_path)
+                        else real_access(path, mode))
+    monkeypatch.setattr(tui.session.os, "statvfs", lambda path: ReadOnly() if str(path) == str(ledger_path)
+                        else real_statvfs(path))
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await started(app, pilot)
+        await until(pilot, lambda: "READ-ONLY: the ledger's file system is mounted read-only" in screen_text(app))
+
+
 async def test_the_help_names_the_ledger_and_its_head(ledger_path):
     one_record(ledger_path)
     head = ledger.Ledger(ledger_path).head_text

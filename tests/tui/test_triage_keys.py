@@ -101,6 +101,7 @@ async def test_override_needs_a_note_and_records_the_other_candidate(ledger_path
         assert "Override the proposal for" in screen_text(app)
         await pilot.press("down", "enter")  # the next candidate
         await pilot.pause()
+        assert f"for {session.label(s)}?" in screen_text(app)  # the note's dialog names its series too
         await pilot.press("enter")  # an empty note is refused
         await pilot.pause()
         assert "A note is required here." in screen_text(app) and records(ledger_path) == []
@@ -128,6 +129,7 @@ async def test_note_hold_and_revoke(ledger_path, size):
         assert session.current == s  # a note does not move on
         await pilot.press("h")
         await pilot.pause()
+        assert f"Hold {session.label(s)}: why? (optional)" in screen_text(app)  # the dialog names its series
         await pilot.press("enter")  # the reason is optional
         await pilot.pause()
         assert session.status[s] == "held" and records(ledger_path)[-1]["note"] == ""
@@ -255,6 +257,21 @@ async def test_quit_leaves_the_decisions_in_the_ledger(ledger_path):
         await pilot.press("h", "enter", "q")
         await pilot.pause()
     assert app.return_code in (0, None) and len(records(ledger_path)) == 1
+
+
+async def test_ctrl_c_quits_as_in_any_terminal_command_but_not_out_of_a_note(ledger_path):
+    """Ctrl+C ends the app from the list (Textual's default only said to press ctrl+q); in the note
+    dialog the text field keeps it, so a note being typed is not lost to it."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await started(app, pilot)
+        await pilot.press("n", *"why", "ctrl+c")
+        await pilot.pause()
+        assert app.is_running and "Note on" in screen_text(app)
+        await pilot.press("escape", "ctrl+c")
+        await pilot.pause()
+        assert not app.is_running
+    assert records(ledger_path) == []
 
 
 async def test_another_analysts_decision_elsewhere_leaves_the_cursor_on_its_series(ledger_path):

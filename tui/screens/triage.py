@@ -277,8 +277,8 @@ class TriageScreen(Screen):
     def action_hold(self) -> None:
         shown = self.session.shown
         if shown is not None:
-            self.ask("Hold this series: why? (optional)", "Enter alone holds without a note", False,
-                     lambda note: self.decide(shown, "hold", note=note))
+            self.ask(f"Hold {self.session.label(shown.series)}: why? (optional)", "Enter alone holds without a note",
+                     False, lambda note: self.decide(shown, "hold", note=note))
 
     def action_override(self) -> None:
         shown, session = self.session.shown, self.session
@@ -288,7 +288,7 @@ class TriageScreen(Screen):
 
         def picked(model: str | None) -> None:
             if model is not None:
-                self.ask(f"Why {model} instead of {shown.proposed}?", "a note is required", True,
+                self.ask(f"Why {model} instead of {shown.proposed} for {session.label(s)}?", "a note is required", True,
                          lambda note: self.decide(shown, "override", model, note))
 
         self.app.push_screen(OverrideDialog(session.results, s, session.label(s), session.diagnosis,
