@@ -12,6 +12,11 @@ mistaken for a crash.  States:
 
 An interrupted tail is not a broken chain: it is left out (``notes`` says so) and the next append
 moves it to a side file.  Appends (``append``) run through the same reader under the exclusive lock.
+
+A reader that stays open also finds the records it verified changed in place (the same length: no
+size or position moves): their bytes are read again and checked against the CRC-32 kept as they were
+read, on a refresh that finds the file changed and before every append; a difference sends it back
+to the start, where the chain names the line.
 """
 from __future__ import annotations
 
@@ -149,7 +154,7 @@ class Ledger:
         return os.pread(fd, size, self._offset - size) == self._last_raw + b"\n"
 
     def _same_prefix(self, fd: int, status: os.stat_result, always: bool) -> bool:
-        """The bytes of the records read are still those verified: read again and digested whenever the
+        """The bytes of the records read are still those verified: read again and their CRC taken whenever the
         file's size or modification time changed since they were last found so (another analyst's append
         or an edit), and before every append.  Appends only add after them; a torn tail is not part of them."""
         seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
