@@ -4,18 +4,26 @@ Text cells that a spreadsheet would run as a formula (starting with ``=``, ``+``
 a tab or a carriage return — the common CSV-injection guidance) get a leading ``'`` unless
 ``--raw``; numbers are never touched.  Every row carries the ledger's head (``ledger_head``,
 ``SEQ:DIGEST``) so the planning side keeps a witness of the ledger it was exported from.
+
+A row whose standing decision carries a ``signed`` snapshot writes what was signed: signed on other data
+(``stale``), the snapshot's numbers; signed on these data, the snapshot's curve once the results' candidate
+agrees with it (``disagreement``; else the whole export is refused in one line, ``refusal``), at this
+results' plan price (``_signed_at_price`` where it is another price).  Other rows take the results' numbers.
 """
 from __future__ import annotations
 
 import csv
 import io
 import json
+import math
 import sys
 from collections.abc import Iterator
 from pathlib import Path
 
 from fitcore import ledger
+from fitcore.errors import DataError
 from fitcore.ledger.replay import series_id
+from fitcore.text import clean
 
 from .ledger_cli import open_ledger
 
@@ -52,9 +60,13 @@ def run_export(args) -> int:
     columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
     writer.writerow(made([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
                            "smearing", "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi",
-                           "carried_from", "carried_analyst", "carried_at", "carried_note", "ledger_head"]))
+                           "plan_elasticity", "carried_from", "carried_analyst", "carried_at", "carried_note",
+                           "ledger_head"]))
     count, head = 0, book.head_text
-    own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi"}
+    own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi", "elasticity": "plan_elasticity"}
+    level = (header.get("settings") or {}).get("level")
+    rows: list[list] = []
+    later: list[tuple] = []  # (row, key, snapshot, price, the results' numbers): signed curves at another price
     from fitcore.ledger.reader import collector_paused
     with collector_paused():  # a few small objects a series and no cycles among them
         series = _by_columns(ahead, book) if parts is None else _by_records(parts, book)
@@ -69,15 +81,33 @@ def run_export(args) -> int:
             family, coef = (cand["family"] if cand else ""), (coef_text(cand["coef"]) if cand and cand["coef"] else "")
             # Duan's smearing of a log family (absent or null for the others): only beside the coefficients it scales
             smearing = cand.get("smearing") if coef else None
+            snapshot = (current.get("signed") or None) if current else None
             if status == "stale":  # signed on other data: the signed model's numbers, never this fit's
                 family, coef, at_plan, smearing = signed_columns(current)
                 plan = {"price": at_plan.get("price")}
-            writer.writerow(made([*map(str, key.values()), status, model or "", family, coef, _number(smearing),
-                                   current["analyst"] if current else "", current["at"] if current else "",
-                                   current.get("note", "") if current else "", _number(plan.get("price")),
-                                   _number(at_plan.get("volume")), _number(at_plan.get("lo")),
-                                   _number(at_plan.get("hi")), carried_from(history), *carried_decision(history),
-                                   head]))
+            elif snapshot:  # signed on these data: the curve as signed, once the results agree with it
+                said = disagreement(cand, plan.get("price"), at_plan, snapshot, level)
+                if said:
+                    raise refusal(args.results, key, *said)
+                family, coef, _, smearing = signed_columns(current)
+                signed_plan = snapshot.get("plan") or {}
+                if plan.get("price") is None:
+                    at_plan = {}
+                elif signed_plan.get("price") == plan["price"]:
+                    at_plan = signed_plan
+                else:  # the same data planned at another price: the signed curve there (filled in below; a
+                    # snapshot without its curve's basis cannot say: the plan numbers stay empty)
+                    if (snapshot.get("basis") or {}).get("coef"):
+                        later.append((len(rows), key, snapshot, plan["price"], at_plan))
+                    at_plan = {}
+            rows.append([*map(str, key.values()), status, model or "", family, coef, _number(smearing),
+                         current["analyst"] if current else "", current["at"] if current else "",
+                         current.get("note", "") if current else "", _number(plan.get("price")),
+                         *plan_cells(at_plan), carried_from(history), *carried_decision(history), head])
+    if later:
+        _signed_at_price(args.results, rows, later, level)
+    for row in rows:
+        writer.writerow(made(row))
     write_text(args.output, buffer.getvalue())
     if not args.quiet:
         print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
@@ -109,7 +139,7 @@ def _by_records(parts, book) -> Iterator[Exported]:
 # problem as it always did.
 EXPORTED = {"chosen": "text", "fingerprint": "text", "is_chosen": "bool", "plan_price": "number",
             "plan_volume": "number", "plan_lo": "number", "plan_hi": "number", "available": "bool",
-            "family": "text", "coef": "numbers", "smearing": "number"}
+            "plan_elasticity": "number", "family": "text", "coef": "numbers", "smearing": "number"}
 
 
 def _columns_ahead(path: Path) -> tuple[list[Path], object]:
@@ -164,12 +194,11 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
         if found.size:
             cells = {name: columns.values(name, at[found], found) for name in
                      ("family", "coef", "smearing", "available", "plan_price", "plan_volume", "plan_lo",
-                      "plan_hi")}
+                      "plan_hi", "plan_elasticity")}
             for j, s in enumerate(found.tolist()):
                 priced = cells["plan_price"][j] is not None and cells["available"][j]  # as the record reader
                 cands[s] = {"family": cells["family"][j], "coef": cells["coef"][j], "smearing": cells["smearing"][j],
-                            **({name: cells[name][j] for name in ("plan_volume", "plan_lo", "plan_hi")} if priced
-                               else {})}
+                            **({name: cells[name][j] for name in PLAN_FIELDS} if priced else {})}
         # the plan: from the last row of a series marked chosen that has a plan price (as the record reader)
         marked = (numbers(columns.table.column("is_chosen").combine_chunks()) == 1) & \
             _valid(columns.table.column("plan_price"))
@@ -178,12 +207,15 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
         planned = np.flatnonzero(marked.any(axis=1))
         plans: list[dict] = [{}] * len(keys)
         if planned.size:
-            numbers_at = {name: columns.values(name, last[planned], planned)
-                          for name in ("plan_price", "plan_volume", "plan_lo", "plan_hi")}
+            numbers_at = {name: columns.values(name, last[planned], planned) for name in ("plan_price", *PLAN_FIELDS)}
             for j, s in enumerate(planned.tolist()):
                 plans[s] = {"price": numbers_at["plan_price"][j], "volume": numbers_at["plan_volume"][j],
-                            "lo": numbers_at["plan_lo"][j], "hi": numbers_at["plan_hi"][j]}
+                            "lo": numbers_at["plan_lo"][j], "hi": numbers_at["plan_hi"][j],
+                            "elasticity": numbers_at["plan_elasticity"][j]}
         yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands)
+
+
+PLAN_FIELDS = ("plan_volume", "plan_lo", "plan_hi", "plan_elasticity")
 
 
 def _typed(kind, expected: str) -> bool:
@@ -215,6 +247,113 @@ def signed_columns(decision: dict) -> tuple[str, str, dict, float | None]:
         return "", "", {}, None
     coef = json.dumps(snapshot["coef"]) if snapshot.get("coef") else ""
     return snapshot.get("family") or "", coef, snapshot.get("plan") or {}, snapshot.get("smearing") if coef else None
+
+
+# How closely the results must agree with a decision's ``signed`` snapshot when both are of the same data: the
+# two are the same numbers (JSON and Parquet hold floats exactly), computed by the same code or by its batch
+# twin (the snapshot's plan numbers are evaluated from its basis), so a few ulps at most.
+AGREE = 1e-9
+
+
+def _agree(results, signed) -> bool:
+    """Whether a results' number and a signed one are the same (both missing, or within ``AGREE``)."""
+    if results is None or signed is None:
+        return results is None and signed is None
+    a, b = float(results), float(signed)
+    return a == b or abs(a - b) <= AGREE * max(abs(a), abs(b))
+
+
+def disagreement(cand: dict | None, price, at_plan: dict, snapshot: dict, level) -> tuple[str, object, object] | None:
+    """``(field, results' value, signed value)`` of the first way the results' candidate of a series differs from
+    the decision ``snapshot`` signed on the same data; None when they agree.
+
+    Family, ``coef`` (each within ``AGREE``) and ``smearing``; the plan numbers (``at_plan``: volume, lo, hi,
+    elasticity) only where the results plan the price that was signed (the interval only at the ``level`` it
+    was signed at).  With controls the signed curve holds them at the signed plan's values and the results'
+    ``coef`` has them at 0 (and the plan's values may be new): only the price slopes (``coef[1:]``) are
+    compared.  A candidate the results do not hold, or hold without coefficients: nothing to compare (the
+    export writes the signed curve all the same).
+    """
+    if cand is None or cand.get("coef") is None:
+        return None
+    if cand.get("family") != snapshot.get("family"):
+        return "family", cand.get("family"), snapshot.get("family")
+    mine, signed = cand["coef"], snapshot.get("coef")
+    if signed is None or len(mine) != len(signed):
+        return "coef", mine, signed
+    controlled = bool(snapshot.get("controls"))
+    for i, (a, b) in enumerate(zip(mine, signed)):
+        if not (i == 0 and controlled) and not _agree(a, b):
+            return f"coef[{i}]", a, b
+    if snapshot.get("smearing") is not None and not _agree(cand.get("smearing"), snapshot["smearing"]):
+        return "smearing", cand.get("smearing"), snapshot["smearing"]
+    signed_plan = snapshot.get("plan") or {}
+    if controlled or price is None or signed_plan.get("price") != price:
+        return None
+    for name in ("volume", "lo", "hi", "elasticity") if snapshot.get("level") == level else ("volume", "elasticity"):
+        if at_plan.get(name) is not None and signed_plan.get(name) is not None and \
+                not _agree(at_plan[name], signed_plan[name]):
+            return f"plan_{name}", at_plan[name], signed_plan[name]
+    return None
+
+
+def refusal(path, key: dict, field: str, results, signed, signed_what: str = "as signed") -> DataError:
+    """The one line refusing an export whose results disagree with the ledger's signed model."""
+    series = ", ".join(f"{name}={clean(str(value))}" for name, value in key.items())
+    return DataError(f"series {series}: {field} is {_said(results)} in the results but {_said(signed)} "
+                     f"{signed_what} in the ledger; the results are not what was signed (nothing was written)",
+                     path=str(path))
+
+
+def _said(value) -> str:
+    return "null" if value is None else json.dumps(value) if isinstance(value, list) else repr(value)
+
+
+def plan_cells(at_plan: dict) -> list:
+    """``plan_volume``, ``plan_lo``, ``plan_hi`` and ``plan_elasticity`` of a row; no elasticity where the volume
+    is at or below zero (a ratio of relative changes means nothing there, as the screen's "n/a")."""
+    volume, elasticity = at_plan.get("volume"), at_plan.get("elasticity")
+    if volume is None or not volume > 0 or elasticity is None or not math.isfinite(elasticity):
+        elasticity = None
+    return [_number(volume), _number(at_plan.get("lo")), _number(at_plan.get("hi")), _number(elasticity)]
+
+
+def _signed_at_price(path, rows: list[list], later: list[tuple], level) -> None:
+    """Fill in the plan numbers of rows whose decision was signed on these data at another plan price: the
+    signed curve's volume, interval (at the signed level; none where the snapshot lacks its interval parts) and
+    elasticity at this results' plan price, all such rows of a family at once.  Refuses (``refusal``) where
+    the results' own volume there differs from the signed curve's (and their interval, at the same level)."""
+    import numpy as np
+
+    from fitcore.fit.families import BY_NAME
+    from fitcore.ledger.snapshot import evaluate
+    groups: dict[tuple, list[tuple]] = {}
+    for item in later:
+        snapshot = item[2]
+        groups.setdefault((snapshot["family"], len(snapshot["basis"]["coef"]), snapshot.get("level")), []).append(item)
+    for (family, k, signed_level), items in groups.items():
+        snaps = [item[2] for item in items]
+
+        def column(get, default=np.nan):
+            return np.array([default if get(sn) is None else get(sn) for sn in snaps], dtype=float)
+        nan_cov = [[np.nan] * k] * k
+        volume, lo, hi, elasticity = evaluate(
+            BY_NAME[family], np.array([sn["basis"]["coef"] for sn in snaps], dtype=float),
+            column(lambda sn: sn["basis"]["mid"]), column(lambda sn: sn["basis"]["half"]),
+            column(lambda sn: sn.get("smearing")), np.array([sn.get("cov_unscaled") or nan_cov for sn in snaps],
+                                                             dtype=float),
+            column(lambda sn: sn.get("sigma2")), column(lambda sn: sn.get("df"), 1).astype(np.int64),
+            np.array([item[3] for item in items], dtype=float), level if signed_level is None else signed_level)
+        for j, (row, key, snapshot, price, theirs) in enumerate(items):
+            ours = {name: (float(v[j]) if math.isfinite(v[j]) else None) for name, v in
+                    (("volume", volume), ("lo", lo), ("hi", hi), ("elasticity", elasticity))}
+            checked = ("volume", "elasticity") if signed_level != level else ("volume", "lo", "hi", "elasticity")
+            for name in checked if not snapshot.get("controls") else ():
+                if theirs.get(name) is not None and ours[name] is not None and not _agree(theirs[name], ours[name]):
+                    raise refusal(path, key, f"plan_{name}", theirs[name], ours[name],
+                                  f"on the curve signed (at plan price {price!r})")
+            at = len(key) + 9  # plan_volume's place: the key columns, then status … plan_price
+            rows[row][at:at + 4] = plan_cells(ours)
 
 
 def coef_text(coef: list) -> str:
