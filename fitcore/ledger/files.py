@@ -11,6 +11,7 @@ import fcntl
 import glob
 import os
 import stat
+import zlib
 from datetime import datetime
 from pathlib import Path
 
@@ -75,6 +76,23 @@ def read_from(fd: int, path: Path, start: int) -> bytes:
     except OSError as exc:
         raise LedgerError(f"{path}: cannot read the ledger ({exc.strerror})") from None
     return b"".join(chunks)
+
+
+def crc_of(fd: int, path: Path, end: int) -> int | None:
+    """The CRC-32 of the file's bytes before ``end``, read 1 MiB at a time into one buffer; None when the
+    file now ends before ``end``."""
+    buffer = memoryview(bytearray(1 << 20))
+    offset = crc = 0
+    try:
+        while offset < end:
+            got = os.preadv(fd, [buffer[:min(len(buffer), end - offset)]], offset)
+            if not got:
+                return None
+            crc = zlib.crc32(buffer[:got], crc)
+            offset += got
+    except OSError as exc:
+        raise LedgerError(f"{path}: cannot read the ledger ({exc.strerror})") from None
+    return crc
 
 
 def set_aside(fd: int, path: Path, keep: int, moment: datetime) -> Path:

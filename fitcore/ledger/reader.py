@@ -12,6 +12,11 @@ mistaken for a crash.  States:
 
 An interrupted tail is not a broken chain: it is left out (``notes`` says so) and the next append
 moves it to a side file.  Appends (``append``) run through the same reader under the exclusive lock.
+
+A reader that stays open also finds the records it verified changed in place (the same length: no
+size or position moves): their bytes are read again and checked against the CRC-32 kept as they were
+read, on a refresh that finds the file changed and before every append; a difference sends it back
+to the start, where the chain names the line.
 """
 from __future__ import annotations
 
@@ -19,6 +24,7 @@ import fcntl
 import gc
 import os
 import threading
+import zlib
 from collections.abc import Callable, Iterable
 from contextlib import contextmanager
 from datetime import datetime
@@ -60,6 +66,12 @@ class Ledger:
         self._unverifiable: Problem | None = None
         self._offset = self._line = 0
         self._last_raw = b""
+        # The CRC-32 of the bytes before ``_offset`` (the whole records verified), kept as they are read, to
+        # find them changed in place: an edit of the same length moves nothing the cheaper checks see.  Any
+        # edit breaks the chain, which the reread then names; the CRC has only to notice (and is read again
+        # at twice SHA-256's speed: 26 vs 52 ms for 100,000 records, 67 MiB).
+        self._prefix = 0
+        self._prefix_seen: tuple | None = None  # the file's status when they were last found unchanged
         self._identity: tuple[int, int] | None = None
         self._seen: tuple | None = None
 
@@ -117,13 +129,16 @@ class Ledger:
             os.close(fd)  # closing releases the lock
         return new
 
-    def _read(self, fd: int, judge: bool) -> list[dict]:
+    def _read(self, fd: int, judge: bool, always: bool = False) -> list[dict]:
         """Take the whole records after the last one read; ``judge``: the caller holds a lock, so
-        whatever follows them is an interrupted append (noted), not one still being written."""
+        whatever follows them is an interrupted append (noted), not one still being written.  The records
+        already read are first found unchanged (``_same_prefix``; ``always``: even if the file's size and
+        time are those of the last look, as before an append)."""
         status = os.fstat(fd)
         self.exists = True
         identity = (status.st_dev, status.st_ino)
-        if self._identity not in (None, identity) or status.st_size < self._offset or not self._same_last(fd):
+        if self._identity not in (None, identity) or status.st_size < self._offset or not self._same_last(fd) \
+                or not self._same_prefix(fd, status, always):
             return self._start_over(fd) if judge else []  # rewritten: judged only under the lock
         self._identity = identity
         new = self._consume(files.read_from(fd, self.path, self._offset), judge)
@@ -137,6 +152,18 @@ class Ledger:
             return True
         size = len(self._last_raw) + 1
         return os.pread(fd, size, self._offset - size) == self._last_raw + b"\n"
+
+    def _same_prefix(self, fd: int, status: os.stat_result, always: bool) -> bool:
+        """The bytes of the records read are still those verified: read again and their CRC taken whenever the
+        file's size or modification time changed since they were last found so (another analyst's append
+        or an edit), and before every append.  Appends only add after them; a torn tail is not part of them."""
+        seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
+        if not self._offset or (seen == self._prefix_seen and not always):
+            return True
+        same = files.crc_of(fd, self.path, self._offset) == self._prefix
+        if same:
+            self._prefix_seen = seen
+        return same
 
     def _start_over(self, fd: int) -> list[dict]:
         seq, digest = self.head
@@ -190,6 +217,7 @@ class Ledger:
                 new += self._take(unit, position, raw)
                 unit, before = [], (self._chain.copy(), self._line, self._unverifiable)
         lines_read = self._line
+        self._prefix = zlib.crc32(memoryview(data)[:self._offset - start], self._prefix)
         if unit or doubt:  # an incomplete batch (counted once whole), or a doubt left for the locked read
             self._chain, self._line, self._unverifiable = before
         if judge:
@@ -231,7 +259,7 @@ class Ledger:
     def read_locked(self, fd: int) -> None:
         """Catch up under the writer's exclusive lock (on the writer's own descriptor)."""
         if not self.problems:
-            self._read(fd, judge=True)
+            self._read(fd, judge=True, always=True)
 
     @property
     def tail_start(self) -> int:
@@ -253,6 +281,8 @@ class Ledger:
                 self._line += len(records)
                 with collector_paused():
                     self._take(records, self._offset + written, lines[-1][:-1])
+                for line in lines:
+                    self._prefix = zlib.crc32(line, self._prefix)
                 self.notes = []
                 self._seen = (status.st_dev, status.st_ino, status.st_size, status.st_mtime_ns)
                 return records

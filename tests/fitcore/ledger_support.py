@@ -75,3 +75,21 @@ def whole_batches(book: ledger.Ledger) -> bool:
     """Every batch the reader counts is complete: its records are 1..N of one id, N of them."""
     sizes = Counter(r["batch"]["id"] for r in book.records if r["batch"])
     return all(sizes[r["batch"]["id"]] == r["batch"]["size"] for r in book.records if r["batch"])
+
+
+def edit_in_place(path, line, old, new, keep_mtime=False):
+    """Change ``old`` to ``new`` (the same length) in ``line`` (1-based) of the file, in place: the inode, the
+    size and every other byte stay as they were (``keep_mtime``: the modification time too)."""
+    assert len(old) == len(new)
+    before = path.stat()
+    data = path.read_bytes()
+    start = sum(map(len, data.splitlines(keepends=True)[:line - 1]))
+    at = data.index(old, start)
+    assert at < start + len(data.splitlines(keepends=True)[line - 1])
+    with open(path, "r+b") as handle:
+        handle.seek(at)
+        handle.write(new)
+    if keep_mtime:
+        os.utime(path, ns=(before.st_atime_ns, before.st_mtime_ns))
+    after = path.stat()
+    assert (after.st_ino, after.st_size) == (before.st_ino, before.st_size)

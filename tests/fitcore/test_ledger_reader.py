@@ -14,8 +14,8 @@ from collections import Counter
 import pytest
 
 from fitcore import ledger
-from fitcore.ledger import files
-from tests.fitcore.ledger_support import ANA, BO, entry, lines
+from fitcore.ledger import chain, files
+from tests.fitcore.ledger_support import ANA, BO, edit_in_place, entry, lines
 
 
 @pytest.fixture
@@ -242,3 +242,97 @@ def test_a_problem_seen_without_the_lock_is_judged_under_it(tmp_path):
     assert book.refresh(wait=False) == [] and book.state == "intact"  # not believed without the lock
     os.close(writer)
     assert book.refresh() == [] and book.state == "broken" and book.problem.line == 2
+
+
+def six_records(path):
+    for name in "abcdef":
+        ledger.append(path, [entry(name)], ANA)
+
+
+@pytest.mark.parametrize("keep_mtime", [False, True])
+def test_an_earlier_record_edited_in_place_is_seen_before_an_append(tmp_path, keep_mtime):
+    # A trial: a screen open on the ledger, "ana" → "ann" on line 4 in another terminal (same length),
+    # then a hold: it was appended after the edited record. Every append looks again at what was verified,
+    # even when the edit put the modification time back.
+    path = tmp_path / "ledger.jsonl"
+    six_records(path)
+    book = ledger.Ledger(path)
+    edit_in_place(path, 4, b'"analyst":"ana"', b'"analyst":"ann"', keep_mtime)
+    edited = path.read_bytes()
+    with pytest.raises(ledger.LedgerError, match=r"line 4: record was edited: its digest does not match its "
+                                                 r"content; nothing was recorded \(the chain is broken\)$"):
+        book.append([entry("g")], ANA)
+    assert path.read_bytes() == edited  # nothing appended
+    assert book.state == "broken" and book.problem.line == 4
+    assert [p.line for p in ledger.verify(path)] == [4]  # what verify says of the file, said by the open reader
+    with pytest.raises(ledger.LedgerError, match="line 4: record was edited"):
+        book.append([entry("g")], BO)  # and it stays refused
+    assert path.read_bytes() == edited
+
+
+def test_a_refresh_that_finds_the_file_changed_sees_an_earlier_record_edited(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    six_records(path)
+    book = ledger.Ledger(path)
+    edit_in_place(path, 2, b'"product":"b"', b'"product":"x"')
+    later = path.stat().st_mtime_ns + 10**9  # the edit's time, past any clock tick shared with the last look
+    os.utime(path, ns=(later, later))
+    book.refresh(wait=False)  # the screen's 2 s poll
+    assert book.state == "broken" and book.problem.line == 2 and book.problem.message == chain.EDITED
+    assert book.generation == 1  # read again from the start, as a file rewritten at another length is
+
+
+def test_the_last_record_edited_in_place_is_seen_too(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    six_records(path)
+    book = ledger.Ledger(path)
+    edit_in_place(path, 6, b'"product":"f"', b'"product":"x"', keep_mtime=True)
+    edited = path.read_bytes()
+    with pytest.raises(ledger.LedgerError, match="line 6: record was edited"):
+        book.append([entry("g")], ANA)
+    assert path.read_bytes() == edited and book.state == "broken" and book.problem.line == 6
+
+
+def test_a_file_replaced_by_rename_with_an_edit_of_the_same_length_is_seen(tmp_path):
+    # What `sed -i` does: a new file (another inode) with one byte changed.
+    path = tmp_path / "ledger.jsonl"
+    six_records(path)
+    book = ledger.Ledger(path)
+    copy = tmp_path / "copy.jsonl"
+    copy.write_bytes(path.read_bytes().replace(b'"product":"c"', b'"product":"x"'))
+    os.replace(copy, path)
+    with pytest.raises(ledger.LedgerError, match="line 3: record was edited"):
+        book.append([entry("g")], ANA)
+    assert book.state == "broken" and book.problem.line == 3
+
+
+def test_other_readers_appends_are_not_taken_for_edits(tmp_path):
+    # Two analysts' long-lived readers appending in turn, one over a torn tail another writer left (set
+    # aside by the next append: bytes after the verified records change, the records do not).
+    path = tmp_path / "ledger.jsonl"
+    six_records(path)
+    path.write_bytes(path.read_bytes() + b'{"action":"acc')
+    ana, bo = ledger.Ledger(path), ledger.Ledger(path)
+    assert [n.message[:15] for n in ana.notes] == ["torn last line "]
+    bo.append([entry("g")], BO)
+    assert [r["seq"] for r in ana.refresh()] == [7] and ana.state == "intact" and ana.generation == 0
+    ana.append([entry("h")], ANA)
+    for i in range(3):
+        bo.append([entry(f"b{i}"), entry(f"c{i}")], BO)  # batches too
+        ana.append([entry(f"a{i}")], ANA)
+    assert [r["seq"] for r in bo.refresh()] == [17]  # ana's last; bo read the others under its lock
+    assert (ana.state, bo.state, ana.head, ana.generation, bo.generation) == ("intact", "intact", bo.head, 0, 0)
+    assert ledger.verify(path) == [] and len(ledger.Ledger(path).records) == 17
+
+
+def test_a_change_in_place_the_chain_still_verifies_is_read_again_and_judged_as_verify_does(tmp_path):
+    # Two members of line 3 swapped (the record's content the same, its length too): the records read are
+    # read again from the start (the screen replays them) and the ledger stays intact, as verify finds it.
+    path = tmp_path / "ledger.jsonl"
+    six_records(path)
+    book = ledger.Ledger(path)
+    edit_in_place(path, 3, b'"host":"server-1","model":"poly1"', b'"model":"poly1","host":"server-1"')
+    assert ledger.verify(path) == []
+    [written] = book.append([entry("g")], ANA)
+    assert (written["seq"], book.state, book.generation, len(book.records)) == (7, "intact", 1, 7)
+    assert ledger.verify(path) == []

@@ -3,6 +3,8 @@ from __future__ import annotations
 
 import json
 
+import pytest
+
 from fitcore import ledger
 from tests.tui.conftest import ANA, make_app, screen_text, started, until
 
@@ -95,3 +97,50 @@ async def test_the_help_names_the_ledger_and_its_head(ledger_path):
         await pilot.pause()
         text = screen_text(app)
         assert head in text and "intact" in text
+
+
+def six_holds(ledger_path):
+    """Six holds by ana on the first six listed series; the session, for more."""
+    from tui.factory import open_session, sample_source
+    session = open_session(sample_source(), ledger_path, ANA)
+    for s in [int(i) for i in session.view[:6]]:
+        session.decide(session.look(s), "hold")
+    return session
+
+
+def test_an_open_session_refuses_a_decision_after_an_edit_in_place(ledger_path):
+    # The screen's session stays open while line 2 is edited in another terminal, its length kept.
+    # Seen by the look before the decision (the file's time moved) or, if the edit fell in the same clock tick
+    # as the last append, by the append itself: refused either way, naming the line.
+    from fitcore.errors import PricefoldError
+    from tests.fitcore.ledger_support import edit_in_place
+    session = six_holds(ledger_path)
+    s = int(session.view[0])
+    edit_in_place(ledger_path, 2, b'"analyst":"ana"', b'"analyst":"rob"')
+    edited = ledger_path.read_bytes()
+    with pytest.raises(PricefoldError, match=r"line 2: record was edited: its digest does not match its content"):
+        session.decide(session.look(s), "hold", note="ask the buyer")
+    assert ledger_path.read_bytes() == edited and not session.writable
+
+
+async def test_a_hold_after_an_edit_in_place_is_refused_and_the_screen_turns_read_only(ledger_path):
+    # As a trial did it: the hold's note dialog confirmed after line 4 was edited, its length kept (not the
+    # last record, which an older check saw). Here its modification time is put back too, so no look of the
+    # screen sees it first: the append itself refuses.
+    from tests.fitcore.ledger_support import edit_in_place
+    six_holds(ledger_path)
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await started(app, pilot)
+        assert "READ-ONLY" not in screen_text(app)
+        edit_in_place(ledger_path, 4, b'"analyst":"ana"', b'"analyst":"rob"', keep_mtime=True)
+        edited = ledger_path.read_bytes()
+        await pilot.press("h", *"ask the buyer", "enter")
+        await until(pilot, lambda: "Not recorded" in screen_text(app))
+        text = " ".join(screen_text(app).split())
+        assert "line 4: record was edited" in text and "Your note is kept" in text
+        await pilot.press("escape")
+        await until(pilot, lambda: "READ-ONLY: the ledger is broken (line 4" in screen_text(app))
+        footer = screen_text(app).splitlines()[-1]
+        assert "h hold" not in footer and "a accept" not in footer
+    assert ledger_path.read_bytes() == edited
