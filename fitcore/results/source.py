@@ -58,13 +58,13 @@ def source_from_results(path: Path, check_data: bool = True) -> Source:
         if not isinstance(recorded.get(name), str):  # results of a fit made from Python, not from a file
             raise DataError(f"expected 'input' → '{name}' ({what}), found none; run 'pricefold triage' on the "
                             "data file instead", path=str(path))
-    data = Path(recorded["path"])
+    data = _beside(path, recorded["path"])
     if check_data and not data.exists():
         raise DataError(f"the data it was fitted from is not at {data}", path=str(path))
     plan = extra.get("plan") or {}
     source = Source(data=data, columns=Columns.from_dict(extra["columns"]),
                     settings=replace(settings, extra={}),
-                    plan_file=Path(plan["file"]) if plan.get("file") else None, plan_price=plan.get("price"),
+                    plan_file=_beside(path, plan["file"]) if plan.get("file") else None, plan_price=plan.get("price"),
                     thresholds=Thresholds(**extra.get("thresholds", {})),
                     fitted_ledger=(head.get("ledger") or {}).get("path"))
     if not check_data:
@@ -73,6 +73,13 @@ def source_from_results(path: Path, check_data: bool = True) -> Source:
         source.warnings.append(f"{data} changed since {path.name} was written: showing a fresh fit of the data "
                                "as it is now (decisions made on the old data show as stale)")
     return source
+
+
+def _beside(results: Path, recorded: str) -> Path:
+    """A file a results file names: as recorded when absolute (``fit`` records absolute paths); a relative
+    name (the sample's shipped results) is read beside the results file, wherever the command runs."""
+    named = Path(recorded)
+    return named if named.is_absolute() else Path(results).parent / named
 
 
 def fit_source(source: Source, progress: Callable[[int, int], None] | None = None):
