@@ -90,15 +90,18 @@ async def test_accept_without_flags_asks_nothing_and_a_second_accept_is_refused(
 
 async def test_override_needs_a_note_and_records_the_other_candidate(ledger_path):
     app = make_app(ledger_path)
-    async with app.run_test(size=(160, 50)) as pilot:
+    async with app.run_test(size=(160, 50), notifications=True) as pilot:
         session = await started(app, pilot)
         s = session.current
         await pilot.press("o")
         await pilot.pause()
         assert "Override the proposal for" in screen_text(app)
-        await pilot.press("enter")  # the dialog opens on the proposal, which cannot be picked: nothing happens
+        await pilot.press("enter")  # the dialog opens on the proposal, which cannot be picked: it says so
         await pilot.pause()
         assert "Override the proposal for" in screen_text(app)
+        proposed = session.results.names[int(session.results.chosen[s])]
+        assert any(n.message.startswith(f"{proposed} is the proposal: move to another candidate")
+                   for n in app._notifications)
         await pilot.press("down", "enter")  # the next candidate
         await pilot.pause()
         assert f"for {session.label(s)}?" in screen_text(app)  # the note's dialog names its series too

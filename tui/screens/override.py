@@ -70,7 +70,9 @@ def _cells(row: CandidateRow) -> tuple[str, ...]:
 class OverrideDialog(ModalScreen[str | None]):
     """Pick the candidate to put in the plan instead of the proposal; returns its name."""
 
-    BINDINGS = [Binding("escape", "cancel", "cancel")]
+    # Enter through the dialog, not the list: on the proposal (which cannot be picked) the list did nothing
+    # and said nothing, and a note typed next went in as keys.
+    BINDINGS = [Binding("escape", "cancel", "cancel"), Binding("enter", "choose", show=False, priority=True)]
 
     def __init__(self, results: Results, s: int, label: str, diagnosis: Diagnosis, standing: str | None) -> None:
         super().__init__()
@@ -145,6 +147,15 @@ class OverrideDialog(ModalScreen[str | None]):
             if 0 <= y <= options.max_scroll_y and y <= 2 * picked and 2 * picked + 1 < y + height:
                 options.scroll_to(y=y, animate=False)
                 return
+
+    def action_choose(self) -> None:
+        options = self.query_one(OptionList)
+        at = options.highlighted
+        if at is not None and self.rows[at].proposed:
+            self.notify(f"{self.rows[at].name} is the proposal: move to another candidate (↑↓), or Esc.",
+                        severity="warning", timeout=4, markup=False)
+            return
+        options.action_select()
 
     def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
         self.dismiss(event.option.id)
