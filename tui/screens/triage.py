@@ -188,7 +188,9 @@ class TriageScreen(Screen):
             kept = ""
             if note:  # typed for nothing otherwise: the next note box on this series starts with it
                 self._unsaid[shown.sid] = note
-                kept = "\n\nYour note is kept: the next note box on this series starts with it."
+                kept = ("\n\nYour note is kept: the next note box on this series starts with it."
+                        if self.session.writable else  # no note box will open: the note itself, to copy
+                        f"\n\nNothing can be recorded now; your note was: {clean(note)}")
             self.app.push_screen(MessageDialog(Text(f"Not recorded: {clean(str(exc))}{kept}", style="bold")))
             self.refresh_all()  # the series as the ledger has it now
             return
