@@ -139,7 +139,8 @@ async def test_a_hold_after_an_edit_in_place_is_refused_and_the_screen_turns_rea
         await until(pilot, lambda: "Not recorded" in screen_text(app))
         text = " ".join(screen_text(app).split())
         # read-only from now on, no note box will open: the note itself is shown to be copied
-        assert "line 4: record was edited" in text and "Nothing can be recorded now; your note was: ask the buyer" in text
+        assert "line 4: record was edited" in text
+        assert "Nothing can be recorded now; your note was: ask the buyer" in text
         await pilot.press("escape")
         await until(pilot, lambda: "READ-ONLY: the ledger is broken (line 4" in screen_text(app))
         footer = screen_text(app).splitlines()[-1]
