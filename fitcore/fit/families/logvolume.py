@@ -58,7 +58,8 @@ class LogVolume(Family):
         a, e = log.coef[:, :, 0, 0], log.coef[:, :, 0, 1]  # (S, F + 1)
         growth = np.empty((2, len(u)))  # exp(log residual) of every row: under the full fit, under its fold's
         log_residuals(u, z, lay.bounds, lay.held_out.astype(np.int64), a, e, growth)
-        np.exp(growth, out=growth)  # numpy's vectorised exp: ~4× a compiled scalar loop here
+        with np.errstate(over="ignore"):  # an overflow is an inf held-out error: unavailable, with its reason
+            np.exp(growth, out=growth)  # numpy's vectorised exp: ~4× a compiled scalar loop here
         n_s = len(ch.counts)
         sse_test, smear, sse_full = np.empty((n_s, lay.n_folds)), np.empty(n_s), np.empty(n_s)
         volume_errors(readonly(u), readonly(z), readonly(ch.volume),
