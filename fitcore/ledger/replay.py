@@ -69,13 +69,16 @@ class SeriesHistory:
 
     def status(self, fingerprint: str | None = None) -> str:
         """pending, accepted, overridden, held — or stale when the data changed since the decision.  A carry
-        has the status of the decision it carries (an override carried forward is still overridden)."""
-        current = self.current
-        if current is None:
+        has the status of the decision it carries (an override carried forward is still overridden).  Read
+        without the properties (``current``, ``decision``): a screen asks it of every series (100,000: 0.1 s)."""
+        if not self.standing:
             return "pending"
+        current = self.standing[-1]
         if fingerprint is not None and current.get("fingerprint") != fingerprint:
             return "stale"
-        return STATUS_OF[(self.decision or current)["action"]]
+        if current["action"] == "carry":
+            return STATUS_OF[(carried_by(self.records, current) or current)["action"]]
+        return STATUS_OF[current["action"]]
 
 
 def carried_by(records: list[dict], carry: dict) -> dict | None:
