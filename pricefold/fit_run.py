@@ -44,9 +44,14 @@ def _check_ending(output: Path) -> None:
 
 
 def fit_locally(args, run) -> int:
+    ahead = None
+    if getattr(args, "ledger", None) is not None:  # read and verified beside the load and the fit
+        from .cycle_cli import LedgerAhead
+        ahead = LedgerAhead(args.ledger, [args.output])  # forks: before any thread starts (a fork while the
+        # warm-up thread held an import lock left the child waiting on that lock for ever)
     warm = warm_engine()  # loads the compiled loops while the data are read
     try:
-        return _fit_locally(args, run)
+        return _fit_locally(args, run, ahead)
     finally:
         if warm is not None:
             warm.join()  # never left running at exit
@@ -123,7 +128,7 @@ def _fit_invented() -> None:
         pass
 
 
-def _fit_locally(args, run) -> int:
+def _fit_locally(args, run, ahead) -> int:
     from fitcore import fit_batch
     from fitcore.data.loader import load_with_rejects
     from fitcore.data.plan import plan_keywords
@@ -135,10 +140,6 @@ def _fit_locally(args, run) -> int:
     from .progress import ProgressLine
 
     started = time.perf_counter()
-    ahead = None
-    if getattr(args, "ledger", None) is not None:  # read and verified beside the load and the fit
-        from .cycle_cli import LedgerAhead
-        ahead = LedgerAhead(args.ledger, [args.output])
     data, rejects = load_with_rejects(args.data, run.columns, sep=run.sep)
     free, read = zero_price_line(data, args.data, run.columns.price), data.source["rows"]
     target = rejects_path(args.output)

@@ -39,7 +39,12 @@ def read_parquet_rows(path: Path, columns: Columns, schema=None):
     texts = [name for name in (*columns.keys, *([columns.date] if columns.date else []))
              if pa.types.is_string(schema.field(name).type) or pa.types.is_large_string(schema.field(name).type)]
     try:
-        table = pq.read_table(path, columns=columns.needed, read_dictionary=texts, page_checksum_verification=True)
+        if Path(path).is_file():  # one file: read straight (``read_table`` first imports pyarrow's datasets and,
+            # with them, pandas: 7M rows 0.5–1.1 s against 0.1–0.2 s, and the read then starts while pandas loads)
+            with pq.ParquetFile(path, read_dictionary=texts, page_checksum_verification=True) as file:
+                table = file.read(columns=columns.needed)
+        else:
+            table = pq.read_table(path, columns=columns.needed, read_dictionary=texts, page_checksum_verification=True)
     except (pa.ArrowInvalid, OSError) as exc:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
     n_rows = table.num_rows
