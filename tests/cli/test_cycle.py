@@ -287,3 +287,29 @@ def test_a_model_signed_under_other_controls_is_not_carried(tmp_path, capsys):
     assert main(args[:1] + [str(tmp_path / "c3.csv")] + args[2:-1] + [str(book2), "-o", str(tmp_path / "p2.json")]) == 0
     third = {r["key"]["product"]: r for r in json.loads((tmp_path / "p2.json").read_text())["series"]}
     assert "controls-changed" not in {third[p]["backtest"]["status"] for p in histories(book2)}
+
+
+def test_fit_forks_the_ledger_read_before_the_warm_up_thread_starts(tmp_path, monkeypatch):
+    """``fit --ledger`` reads the ledger in a forked process: a fork taken while another thread holds an
+    import lock leaves the child waiting on that lock for ever (POSIX: only the forking thread exists in the
+    child).  The warm-up thread imports as it starts, so no thread of the command's may be running at the
+    fork: the threads alive then are recorded (the warm-up told the loops are cached, so that it starts)."""
+    import threading
+
+    import fitcore.compiled
+    import pricefold.cycle_cli as cycle_cli
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    alive_at_fork = []
+    original = cycle_cli.LedgerAhead.__init__
+
+    def recording(self, *args, **kwargs):
+        alive_at_fork.append(sorted(thread.name for thread in threading.enumerate()))
+        original(self, *args, **kwargs)
+    monkeypatch.setattr(cycle_cli.LedgerAhead, "__init__", recording)
+    monkeypatch.setattr(fitcore.compiled, "looks_compiled", lambda: True)
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    assert len(alive_at_fork) == 1 and not [name for name in alive_at_fork[0] if name.startswith("pricefold")]

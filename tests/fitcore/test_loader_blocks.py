@@ -180,6 +180,21 @@ def test_fingerprints_hash_each_series_rows_of_the_stacked_columns(monkeypatch, 
     expected = [hashlib.sha256(np.ascontiguousarray(table[lo:hi]).tobytes()).hexdigest()
                 for lo, hi in zip(data.offsets[:-1], data.offsets[1:])]
     assert data.fingerprints == expected
+    assert data.fingerprint_texts.type == pa.string() and data.fingerprint_texts.to_pylist() == expected
+
+
+@given(st.lists(st.integers(0, 6), min_size=1, max_size=40), st.integers(0, 3))
+@hsettings(max_examples=300, deadline=None)
+def test_series_codes_number_keys_by_first_appearance_as_pandas_factorize(values, unused):
+    """A key read as a Categorical: its codes kept as they are only where pandas' ``factorize`` would give
+    the same numbers (reference: ``pandas.factorize(sort=False)`` of the key texts); categories no row
+    uses (``unused``) change nothing."""
+    from fitcore.data.dataset import _series_codes, in_first_appearance_order
+    categories = [f"k{i}" for i in range(max(values) + 1 + unused)]
+    column = pd.Categorical.from_codes(values, categories=categories)
+    expected, _ = pd.factorize(np.array([categories[v] for v in values], dtype=object), sort=False)
+    assert _series_codes([column]).tolist() == expected.tolist()
+    assert in_first_appearance_order(np.asarray(values, np.int64)) == (expected.tolist() == values)
 
 
 @pytest.mark.parametrize("texts", [
