@@ -186,3 +186,32 @@ def test_slices_put_together_are_the_whole_table(folds):
     assert together.schema.equals(whole.schema, check_metadata=True)
     for name in whole.column_names:
         assert _text(together.column(name).to_pylist()) == _text(whole.column(name).to_pylist()), name
+
+
+def test_each_row_group_is_handed_to_the_disk_as_written_and_the_handle_closed(tmp_path, monkeypatch):
+    """The results' write starts the disk's write of every row group as soon as it is written
+    (``write.early_writeback``), so the fsync at the end finds little left: called once a row group (the
+    file's own count, read back by pyarrow), its file handle closed once at the end."""
+    import fitcore.results.write as write
+    seen = {"calls": 0, "closed": 0, "sizes": []}
+    original = write.early_writeback
+
+    def counting(name):
+        start = original(name)
+        if start is None:
+            pytest.skip("no sync_file_range here")
+
+        def counted():
+            seen["calls"] += 1
+            start()
+            seen["sizes"].append(Path(name).stat().st_size)
+        counted.close = lambda: (seen.__setitem__("closed", seen["closed"] + 1), start.close())
+        return counted
+    monkeypatch.setattr(write, "early_writeback", counting)
+    whole = ResultsTable.slices
+    monkeypatch.setattr(ResultsTable, "slices", lambda self, series=None: whole(self, SERIES_PER_GROUP))
+    out = tmp_path / "r.parquet"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "-o", str(out), "-q"]) == 0
+    groups = pq.ParquetFile(out).metadata.num_row_groups
+    assert groups > 3 and seen["calls"] == groups and seen["closed"] == 1
+    assert seen["sizes"] == sorted(seen["sizes"]) and seen["sizes"][-1] < out.stat().st_size  # then the footer
