@@ -62,7 +62,8 @@ class ResultsTable:
         self.metadata = header_metadata(header | {"key_columns": list(data.key_names)})
         texts = {name: _text(data.keys[name]) for name in data.key_names}
         texts["flags"] = flag_texts(results, diagnosis)
-        texts["fingerprint"] = _text(data.fingerprint_texts if hasattr(data, "fingerprint_texts") else data.fingerprints)
+        prints = data.fingerprint_texts if hasattr(data, "fingerprint_texts") else data.fingerprints  # read back: Arrow
+        texts["fingerprint"] = _text(prints)
         if results.controls is not None:
             texts.update(control_fields.series_texts(results))
         self.texts = texts  # name → (S,) Arrow text, each series' value

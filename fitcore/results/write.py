@@ -162,14 +162,16 @@ def write_parquet_slices(slices, where, written=None) -> None:
     from concurrent.futures import ThreadPoolExecutor
 
     import pyarrow.parquet as pq
-    slices = iter(slices)
-    first = next(slices)
-    schema = first.schema
+
     def write(table) -> None:
         writer.write_table(table)
         if written is not None:
             written()
+
     try:
+        slices = iter(slices)
+        first = next(slices)
+        schema = first.schema
         with pq.ParquetWriter(where, schema, **_parquet_options(schema)) as writer, \
                 ThreadPoolExecutor(1, thread_name_prefix="pricefold-write") as pool:
             pending = pool.submit(write, first)
@@ -205,7 +207,10 @@ def early_writeback(name: str):
     except (OSError, AttributeError):
         return None
     call.argtypes = [ctypes.c_int, ctypes.c_int64, ctypes.c_int64, ctypes.c_uint]
-    fd = os.open(name, os.O_RDONLY | getattr(os, "O_CLOEXEC", 0))
+    try:
+        fd = os.open(name, os.O_RDONLY | getattr(os, "O_CLOEXEC", 0))
+    except OSError:  # the write itself will say what is wrong
+        return None
     done = [0]
 
     def start() -> None:
