@@ -181,6 +181,7 @@ class TriageApp(App):
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="observations")
     def read_observations(self) -> None:
+        threading.Thread(target=engine.load_charts, name="pricefold-charts", daemon=True).start()
         try:
             results, diagnosis = self.observer(lambda done, total: None, self.fit_first)
         except (PricefoldError, OSError) as exc:
