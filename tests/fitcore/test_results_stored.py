@@ -87,3 +87,47 @@ def test_columns_read_behind_the_list_come_from_the_file_opened(tmp_path):
     ok = first.available
     np.testing.assert_array_equal(stored.coef[ok], first.coef[ok])  # the opened file's, bit for bit
     np.testing.assert_array_equal(np.asarray(stored.sigma2)[ok], first.sigma2[ok])
+
+
+def _rewritten(path, out, **changes):
+    """The results file at ``path`` written again to ``out`` (its header kept), ``changes`` as pyarrow's writer
+    options; ``flags``: a function of the flags column's texts giving new texts."""
+    import pyarrow as pa
+    table = pq.read_table(path)
+    edit = changes.pop("flags", None)
+    if edit is not None:
+        texts = pa.array(edit(table.column("flags").to_pylist()), pa.string()).dictionary_encode()
+        table = table.set_column(table.schema.get_field_index("flags"), "flags", texts)
+    pq.write_table(table, out, **changes)
+
+
+def test_results_in_row_groups_that_split_series_read_as_one_group(tmp_path):
+    """Each series' values are taken row group by row group (each with its own dictionaries); a row group
+    that starts inside a series (7 candidate rows a series, 5 rows a group) still gives every series' own."""
+    data = random_dataset(44, n_series=40, n_range=(3, 30))
+    results = fitcore.fit_batch(data, plan_price=data.price[data.offsets[:-1]] * 1.05)
+    diagnosis = diagnose(results)
+    write_results(results, tmp_path / "r.parquet", diagnosis)
+    _rewritten(tmp_path / "r.parquet", tmp_path / "split.parquet", row_group_size=5)
+    assert pq.ParquetFile(tmp_path / "split.parquet").metadata.num_row_groups == 56
+    stored, flags = stored_results(tmp_path / "split.parquet")
+    for name in ARRAYS:  # the reference: the fit that wrote the file
+        np.testing.assert_array_equal(getattr(stored, name), getattr(results, name), err_msg=name)
+    assert stored.data.fingerprints.to_pylist() == results.data.fingerprints
+    assert stored.data.keys["product"].to_pylist() == results.data.keys["product"].tolist()
+    np.testing.assert_array_equal(flags.raised, diagnosis.raised)
+    assert all(flags.flags_of(s) == diagnosis.flags_of(s) for s in range(data.n_series))
+    assert diagnosis.raised.any() and not diagnosis.raised.all()
+
+
+def test_an_unreadable_flags_text_is_one_line_naming_its_row(tmp_path):
+    """A flags text that is not JSON: a ``DataError`` naming the file, the first row holding it and the column
+    (not a JSON traceback); the same text on a series' every row, as the writer repeats it."""
+    results = fitcore.fit_batch(random_dataset(45, n_series=6))
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    n_c = len(results.candidates)
+    cut = '[{"code": "rising"'  # a list cut short
+    _rewritten(tmp_path / "r.parquet", tmp_path / "bad.parquet",
+               flags=lambda texts: [cut if 2 * n_c <= r < 3 * n_c else t for r, t in enumerate(texts)])
+    with pytest.raises(DataError, match=rf"bad\.parquet.*row {2 * n_c + 1}, column 'flags': expected JSON text"):
+        stored_results(tmp_path / "bad.parquet")
