@@ -131,3 +131,32 @@ def test_an_unreadable_flags_text_is_one_line_naming_its_row(tmp_path):
                flags=lambda texts: [cut if 2 * n_c <= r < 3 * n_c else t for r, t in enumerate(texts)])
     with pytest.raises(DataError, match=rf"bad\.parquet.*row {2 * n_c + 1}, column 'flags': expected JSON text"):
         stored_results(tmp_path / "bad.parquet")
+
+
+def test_series_with_the_same_rows_keep_their_fingerprints(tmp_path):
+    """Two series with the same rows share a fingerprint (one dictionary entry for both); each series still
+    reads its own, as the fit computed them."""
+    data = random_dataset(46, n_series=12)
+    first = np.arange(data.offsets[0], data.offsets[1])
+    twice = np.concatenate([first, first, np.arange(data.offsets[1], len(data.price))])
+    products = np.repeat(np.array(["twin a", "twin b"] + [f"item {i}" for i in range(1, 12)], dtype=object),
+                         np.concatenate([[data.counts[0]] * 2, data.counts[1:]]))
+    same = fitcore.from_columns({"product": products}, data.price[twice], data.volume[twice])
+    results = fitcore.fit_batch(same)
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    stored, _ = stored_results(tmp_path / "r.parquet")
+    assert results.data.fingerprints[0] == results.data.fingerprints[1]  # the case in question
+    assert stored.data.fingerprints.to_pylist() == results.data.fingerprints
+    assert stored.data.keys["product"].to_pylist() == results.data.keys["product"].tolist()
+
+
+def test_opening_results_and_their_keys_imports_no_arrow_compute(tmp_path):
+    """``pyarrow.compute`` costs 0.1 s to import; the list of a results file pricefold wrote needs none of it."""
+    results = fitcore.fit_batch(random_dataset(4, n_series=5))
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    code = ("import sys; from fitcore.results.stored import stored_results; from fitcore.data.keys import SeriesKeys; "
+            f"results, flags = stored_results({str(tmp_path / 'r.parquet')!r}, later=True); "
+            "keys = SeriesKeys.of(results.data); flags.attention_order(); "
+            "print('pyarrow.compute' in sys.modules, keys.label(0))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.split() == ["False", "item", "0000"]
