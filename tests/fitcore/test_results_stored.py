@@ -160,3 +160,16 @@ def test_opening_results_and_their_keys_imports_no_arrow_compute(tmp_path):
             "print('pyarrow.compute' in sys.modules, keys.label(0))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.split() == ["False", "item", "0000"]
+
+
+def test_damaged_flags_texts_that_would_join_into_valid_json_are_refused(tmp_path):
+    """Two damaged texts that, joined with a comma between them, would make valid JSON (a bracket too many in
+    one, too few in the next): still the first one's row, never its flags given to its neighbour."""
+    results = fitcore.fit_batch(random_dataset(47, n_series=6))
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    n_c = len(results.candidates)
+    texts = {1: '[{"code": "rising", "message": "x"}], [{"code": "weak-fit"', 2: '"message": "y"}]'}
+    _rewritten(tmp_path / "r.parquet", tmp_path / "bad.parquet",
+               flags=lambda column: [texts.get(r // n_c, t) for r, t in enumerate(column)])
+    with pytest.raises(DataError, match=rf"row {n_c + 1}, column 'flags'"):
+        stored_results(tmp_path / "bad.parquet")
