@@ -15,6 +15,7 @@ from fitcore.errors import PricefoldError
 
 from . import engine
 from .messages import EvidenceReady, FirstRows, FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
+from .opening import Opening
 from .screens.dialogs import MessageDialog
 from .text import clean
 
@@ -42,33 +43,6 @@ def settle() -> None:
     gc.freeze()
 
 
-class Opening:
-    """``opener(progress)`` run in a thread of its own from the app's construction on, so the results file is
-    read while Textual starts and the triage screen's modules load (Arrow reads without the interpreter lock);
-    ``result()`` waits for it and raises what it raised."""
-
-    def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession],
-                 progress: Callable[[int, int], None]) -> None:
-        self._session: TriageSession | None = None
-        self._error: BaseException | None = None
-        # a daemon: quitting while it still reads must not wait for it (as a Textual thread worker would not)
-        self._thread = threading.Thread(target=self._open, args=(opener, progress), name="pricefold-opening",
-                                        daemon=True)
-        self._thread.start()
-
-    def _open(self, opener, progress) -> None:
-        try:
-            self._session = opener(progress)
-        except BaseException as exc:  # handed to ``result``'s caller: the app's one failure path
-            self._error = exc
-
-    def result(self) -> TriageSession:
-        self._thread.join()
-        if self._error is not None:
-            raise self._error
-        return self._session
-
-
 class LoadingScreen(Screen):
     """Shown while the data are read and fitted."""
 
@@ -83,7 +57,8 @@ class LoadingScreen(Screen):
 
 
 class TriageApp(App):
-    """``opener(progress)`` builds the ``TriageSession``; it runs in a thread started with the app (``Opening``).
+    """``opener(progress)`` builds the ``TriageSession``; it runs in a thread started with the app, or is that
+    thread already started (an ``Opening``: the results read while the app's modules loaded).
 
     ``observer(progress, first)``, when given, runs in a second worker once the session is up and returns
     ``(results, diagnosis)`` with the observations, for a session opened from a results file; it calls
@@ -101,13 +76,16 @@ class TriageApp(App):
     # takes Ctrl+C itself (copy) keeps it.
     BINDINGS = [Binding("ctrl+c", "quit", "quit", show=False)]
 
-    def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession], observer=None) -> None:
+    def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession] | Opening,
+                 observer=None) -> None:
+        # the session opens from now on (or already does), not from the first frame on
+        self.opening = opener if isinstance(opener, Opening) else Opening(opener)
         super().__init__()
         self.observer = observer
         self.session: TriageSession | None = None
         self.failure: str | None = None  # why the session could not be opened (the command line says it too)
         self._mounted = threading.Event()  # progress reaches the loading screen once there is one
-        self.opening = Opening(opener, self._progressed)  # from now on, not from the first frame on
+        self.opening.report_to(self._progressed)
 
     def _progressed(self, done: int, total: int) -> None:
         if self._mounted.is_set():
@@ -181,6 +159,7 @@ class TriageApp(App):
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="observations")
     def read_observations(self) -> None:
+        threading.Thread(target=engine.load_charts, name="pricefold-charts", daemon=True).start()
         try:
             results, diagnosis = self.observer(lambda done, total: None, self.fit_first)
         except (PricefoldError, OSError) as exc:

@@ -23,5 +23,14 @@ def load() -> None:
     _LOADED.set()
 
 
+def load_charts() -> None:
+    """Import what the first chart with observations needs: scipy's Student-t quantile for the prediction band
+    (0.3–0.35 s to import) and plotext (0.1 s), which that chart imported on the UI thread.  From a thread of
+    its own, started as the data are read; a chart drawn meanwhile waits for the import (Python's import
+    lock).  Only imported here: every chart is still built on the UI thread (plotext has one global figure)."""
+    import plotext  # noqa: F401
+    import scipy.special  # noqa: F401
+
+
 def loaded() -> bool:
     return _LOADED.is_set()

@@ -140,15 +140,14 @@ class TriageSession(ListState):
         touched = ({sid: history.records[-1]["series"] for sid, history in self.histories.items()} if everything
                    else {series_id(r["series"]): r["series"] for r in records})
         unknown = [sid for sid in touched if sid not in self._known]
-        for sid, s in zip(unknown, self._key_table.indices_of([touched[sid] for sid in unknown])):
-            self._known[sid] = int(s)
+        self._known.update(zip(unknown, self._key_table.indices_of([touched[sid] for sid in unknown])))  # ints
         changed = {self._known[sid]: sid for sid in touched if self._known[sid] >= 0}
         set_statuses(self.status, self.status_code, changed, self.histories, self.results.data)
         changed = set(changed)
         current = self.current
-        others = [r for r in records if r.get("digest") not in self._written]
-        if current is not None and others and self.shown is not None:  # not what was there before the screen opened
-            theirs = [r for r in others if self._known.get(series_id(r["series"])) == current]
+        if current is not None and records and self.shown is not None:  # not what was there before the screen opened
+            theirs = [r for r in records if r.get("digest") not in self._written
+                      and self._known.get(series_id(r["series"])) == current]  # others' records on it
             self.news = theirs[-1] if theirs else self.news
         if records or force:
             stale = self._code("stale")

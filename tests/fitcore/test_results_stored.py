@@ -87,3 +87,89 @@ def test_columns_read_behind_the_list_come_from_the_file_opened(tmp_path):
     ok = first.available
     np.testing.assert_array_equal(stored.coef[ok], first.coef[ok])  # the opened file's, bit for bit
     np.testing.assert_array_equal(np.asarray(stored.sigma2)[ok], first.sigma2[ok])
+
+
+def _rewritten(path, out, **changes):
+    """The results file at ``path`` written again to ``out`` (its header kept), ``changes`` as pyarrow's writer
+    options; ``flags``: a function of the flags column's texts giving new texts."""
+    import pyarrow as pa
+    table = pq.read_table(path)
+    edit = changes.pop("flags", None)
+    if edit is not None:
+        texts = pa.array(edit(table.column("flags").to_pylist()), pa.string()).dictionary_encode()
+        table = table.set_column(table.schema.get_field_index("flags"), "flags", texts)
+    pq.write_table(table, out, **changes)
+
+
+def test_results_in_row_groups_that_split_series_read_as_one_group(tmp_path):
+    """Each series' values are taken row group by row group (each with its own dictionaries); a row group
+    that starts inside a series (7 candidate rows a series, 5 rows a group) still gives every series' own."""
+    data = random_dataset(44, n_series=40, n_range=(3, 30))
+    results = fitcore.fit_batch(data, plan_price=data.price[data.offsets[:-1]] * 1.05)
+    diagnosis = diagnose(results)
+    write_results(results, tmp_path / "r.parquet", diagnosis)
+    _rewritten(tmp_path / "r.parquet", tmp_path / "split.parquet", row_group_size=5)
+    assert pq.ParquetFile(tmp_path / "split.parquet").metadata.num_row_groups == 56
+    stored, flags = stored_results(tmp_path / "split.parquet")
+    for name in ARRAYS:  # the reference: the fit that wrote the file
+        np.testing.assert_array_equal(getattr(stored, name), getattr(results, name), err_msg=name)
+    assert stored.data.fingerprints.to_pylist() == results.data.fingerprints
+    assert stored.data.keys["product"].to_pylist() == results.data.keys["product"].tolist()
+    np.testing.assert_array_equal(flags.raised, diagnosis.raised)
+    assert all(flags.flags_of(s) == diagnosis.flags_of(s) for s in range(data.n_series))
+    assert diagnosis.raised.any() and not diagnosis.raised.all()
+
+
+def test_an_unreadable_flags_text_is_one_line_naming_its_row(tmp_path):
+    """A flags text that is not JSON: a ``DataError`` naming the file, the first row holding it and the column
+    (not a JSON traceback); the same text on a series' every row, as the writer repeats it."""
+    results = fitcore.fit_batch(random_dataset(45, n_series=6))
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    n_c = len(results.candidates)
+    cut = '[{"code": "rising"'  # a list cut short
+    _rewritten(tmp_path / "r.parquet", tmp_path / "bad.parquet",
+               flags=lambda texts: [cut if 2 * n_c <= r < 3 * n_c else t for r, t in enumerate(texts)])
+    with pytest.raises(DataError, match=rf"bad\.parquet.*row {2 * n_c + 1}, column 'flags': expected JSON text"):
+        stored_results(tmp_path / "bad.parquet")
+
+
+def test_series_with_the_same_rows_keep_their_fingerprints(tmp_path):
+    """Two series with the same rows share a fingerprint (one dictionary entry for both); each series still
+    reads its own, as the fit computed them."""
+    data = random_dataset(46, n_series=12)
+    first = np.arange(data.offsets[0], data.offsets[1])
+    twice = np.concatenate([first, first, np.arange(data.offsets[1], len(data.price))])
+    products = np.repeat(np.array(["twin a", "twin b"] + [f"item {i}" for i in range(1, 12)], dtype=object),
+                         np.concatenate([[data.counts[0]] * 2, data.counts[1:]]))
+    same = fitcore.from_columns({"product": products}, data.price[twice], data.volume[twice])
+    results = fitcore.fit_batch(same)
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    stored, _ = stored_results(tmp_path / "r.parquet")
+    assert results.data.fingerprints[0] == results.data.fingerprints[1]  # the case in question
+    assert stored.data.fingerprints.to_pylist() == results.data.fingerprints
+    assert stored.data.keys["product"].to_pylist() == results.data.keys["product"].tolist()
+
+
+def test_opening_results_and_their_keys_imports_no_arrow_compute(tmp_path):
+    """``pyarrow.compute`` costs 0.1 s to import; the list of a results file pricefold wrote needs none of it."""
+    results = fitcore.fit_batch(random_dataset(4, n_series=5))
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    code = ("import sys; from fitcore.results.stored import stored_results; from fitcore.data.keys import SeriesKeys; "
+            f"results, flags = stored_results({str(tmp_path / 'r.parquet')!r}, later=True); "
+            "keys = SeriesKeys.of(results.data); flags.attention_order(); "
+            "print('pyarrow.compute' in sys.modules, keys.label(0))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.split() == ["False", "item", "0000"]
+
+
+def test_damaged_flags_texts_that_would_join_into_valid_json_are_refused(tmp_path):
+    """Two damaged texts that, joined with a comma between them, would make valid JSON (a bracket too many in
+    one, too few in the next): still the first one's row, never its flags given to its neighbour."""
+    results = fitcore.fit_batch(random_dataset(47, n_series=6))
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    n_c = len(results.candidates)
+    texts = {1: '[{"code": "rising", "message": "x"}], [{"code": "weak-fit"', 2: '"message": "y"}]'}
+    _rewritten(tmp_path / "r.parquet", tmp_path / "bad.parquet",
+               flags=lambda column: [texts.get(r // n_c, t) for r, t in enumerate(column)])
+    with pytest.raises(DataError, match=rf"row {n_c + 1}, column 'flags'"):
+        stored_results(tmp_path / "bad.parquet")

@@ -11,6 +11,7 @@ from pathlib import Path
 from tests.tui.conftest import ANA, screen_text, until
 from tui.app import TriageApp
 from tui.factory import open_stored_session
+from tui.opening import Opening
 
 ROOT = Path(__file__).resolve().parents[2]
 SAMPLE = ROOT / "sample"
@@ -43,6 +44,37 @@ async def test_a_failure_in_the_opening_thread_is_the_apps_dialog(tmp_path):
     def opener(progress):
         raise OSError("the disk went away")
     app = TriageApp(opener)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await until(pilot, lambda: "Could not open the triage" in screen_text(app))
+        assert "the disk went away" in screen_text(app)
+
+
+def test_the_opening_module_imports_no_textual():
+    """A command line can start the opening thread before importing the app (Textual: ≈ 0.4 s)."""
+    code = "import sys, tui.opening; print(sorted(m for m in ('textual', 'tui.app') if m in sys.modules))"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, check=True)
+    assert out.stdout.strip() == "[]"
+
+
+async def test_an_opening_started_before_the_app_is_the_apps_session(tmp_path):
+    calls = []
+
+    def opener(progress):
+        calls.append(threading.current_thread().name)
+        return open_stored_session(SAMPLE / "results.parquet", tmp_path / "ledger.jsonl", ANA, None, progress)
+    opening = Opening(opener)
+    opened = opening.result()  # the results read before the app is made
+    app = TriageApp(opening)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await until(pilot, lambda: app.session is not None and "listed (" in screen_text(app))
+        assert app.session is opened and opened.results.n_series == 180
+    assert calls == ["pricefold-opening"]  # opened once, in its own thread
+
+
+async def test_a_failure_in_an_opening_started_before_the_app_is_the_apps_dialog(tmp_path):
+    def opener(progress):
+        raise OSError("the disk went away")
+    app = TriageApp(Opening(opener))
     async with app.run_test(size=(80, 24)) as pilot:
         await until(pilot, lambda: "Could not open the triage" in screen_text(app))
         assert "the disk went away" in screen_text(app)
