@@ -2,11 +2,17 @@
 header's name at 100 columns, the override dialog's interval at 60×20, names cut in the two-pane list."""
 from __future__ import annotations
 
+import pytest
 from textual.widgets._toast import Toast
+
+from fitcore.ledger import Identity
 
 from pricefold.demo import COMPILING_NOTE
 from tests.tui.conftest import make_app, screen_text, started, until
 from tui.screens.dialogs import MessageDialog
+from tui.widgets.status_line import listed_text
+
+WHO_KEEPS = 8  # cells of the name kept beside the title at least
 
 
 async def test_a_note_that_arrives_while_the_help_is_open_leaves_the_help_whole(ledger_path):
@@ -24,3 +30,21 @@ async def test_a_note_that_arrives_while_the_help_is_open_leaves_the_help_whole(
         toasts = [toast.region for toast in app.screen.query(Toast)]
         assert toasts and all(toast.height > 0 for toast in toasts)
         assert not any(dialog.overlaps(toast) for toast in toasts), (dialog, toasts, screen_text(app))
+
+
+@pytest.mark.parametrize("who", ["ana", "trial-analyst-0042", "a-rather-long-os-user-name"])
+@pytest.mark.parametrize("filter_, flag, sort", [("attention", None, "attention"), ("pending", "near-tie", "score")])
+async def test_the_header_keeps_its_name_at_100_columns(ledger_path, who, filter_, flag, sort):
+    """Without --analyst the name is the OS user's: a long one, or a longer listing, dropped "pricefold
+    triage" from the header at 100 columns, where there is room for it beside the name (cut if need be)."""
+    app = make_app(ledger_path, who=Identity(who, who, "test-host"))
+    async with app.run_test(size=(100, 30)) as pilot:
+        session = await started(app, pilot)
+        session.set_filter(filter_, flag)
+        session.set_sort(sort)
+        app.screen.refresh_all()
+        await pilot.pause()
+        first = screen_text(app).splitlines()[0]
+        assert first.strip().startswith("pricefold triage"), first
+        assert listed_text(session) in first, first  # what is listed, whole
+        assert who[:WHO_KEEPS - 1] in first, first  # and who decides, cut at most
