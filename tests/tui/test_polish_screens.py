@@ -10,6 +10,7 @@ from fitcore.ledger import Identity
 from pricefold.demo import COMPILING_NOTE
 from tests.tui.conftest import make_app, screen_text, started, until
 from tui.screens.dialogs import MessageDialog
+from tui.screens.override import OverrideDialog
 from tui.widgets.status_line import listed_text
 
 WHO_KEEPS = 8  # cells of the name kept beside the title at least
@@ -48,3 +49,24 @@ async def test_the_header_keeps_its_name_at_100_columns(ledger_path, who, filter
         assert first.strip().startswith("pricefold triage"), first
         assert listed_text(session) in first, first  # what is listed, whole
         assert who[:WHO_KEEPS - 1] in first, first  # and who decides, cut at most
+
+
+@pytest.mark.parametrize("size", [(60, 20), (80, 24)])
+async def test_the_override_dialog_shows_each_models_interval_whole(ledger_path, size):
+    """At 60×20 the interval column ran off the dialog ("418.2 to…") and the hint lost "Esc to cancel"."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=size) as pilot:
+        await started(app, pilot)
+        await pilot.press("o")
+        await pilot.pause()
+        await pilot.pause()
+        dialog = app.screen
+        assert isinstance(dialog, OverrideDialog)
+        text = screen_text(app)
+        shown = [row for row in dialog.rows if f" {row.name} " in text]
+        assert len(shown) >= 2, text
+        for row in shown:
+            assert row.interval in text and row.volume in text, text
+        assert "Esc to cancel" in text and "…" not in text.split("Override the proposal")[1], text
+        options = dialog.query_one("#dialog-options")
+        assert options.virtual_size.height == 2 * len(dialog.rows)  # two lines a model, never wrapped
