@@ -70,3 +70,26 @@ async def test_the_override_dialog_shows_each_models_interval_whole(ledger_path,
         assert "Esc to cancel" in text and "…" not in text.split("Override the proposal")[1], text
         options = dialog.query_one("#dialog-options")
         assert options.virtual_size.height == 2 * len(dialog.rows)  # two lines a model, never wrapped
+
+
+@pytest.mark.parametrize("size", [(120, 40), (125, 40), (130, 40)])
+async def test_names_keep_their_middle_in_the_two_pane_list(ledger_path, size):
+    """At 120–130 columns the list had 22–24 cells for names ("cherry …250 g · South") beside an evidence pane
+    with room to spare; the sample's names (29 cells at most) are whole there now, the flags column readable
+    and the evidence 52 cells at least (its title and charts whole)."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=size) as pilot:
+        session = await started(app, pilot)
+        session.set_filter("all", None)
+        app.screen.refresh_all()
+        await pilot.pause()
+        listing = app.screen.query_one("#series-list")
+        lines = screen_text(app).splitlines()[listing.region.y + 1:listing.region.bottom]  # under the list's head
+        rows = [line[:listing.region.width] for line in lines]
+        shown = [int(s) for s in session.view[:len(rows)]]
+        assert max(len(session.label(s)) for s in shown) >= 29
+        for s, row in zip(shown, rows):
+            assert f" {session.label(s)} " in row, row
+        _, flags = listing.columns(listing.scrollable_content_region.width)
+        assert flags >= len("!outside-range")
+        assert app.screen.query_one("#evidence").region.width >= 52
