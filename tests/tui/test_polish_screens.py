@@ -93,3 +93,19 @@ async def test_names_keep_their_middle_in_the_two_pane_list(ledger_path, size):
         _, flags = listing.columns(listing.scrollable_content_region.width)
         assert flags >= len("!outside-range")
         assert app.screen.query_one("#evidence").region.width >= 52
+
+
+async def test_the_evidence_title_keeps_the_price_range_whole_beside_a_whole_name(ledger_path):
+    """With the evidence at 52 cells, "table salt 1 kg · South  104 obs, prices 0.60–0.…" lost its highest price:
+    the counts now follow the status line when the name alone fills the first."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(120, 40)) as pilot:
+        session = await started(app, pilot)
+        results = session.results
+        evidence = app.screen.query_one("#evidence")
+        title = [line[evidence.region.x:] for line in screen_text(app).splitlines()[evidence.region.y:][:2]]
+        s = session.current
+        lo, hi = f"{results.price_lo[s]:.2f}", f"{results.price_hi[s]:.2f}"
+        assert session.label(s) in title[0]
+        assert any(f"prices {lo}–{hi}" in line for line in title), title
+        assert "status pending" in title[1]
