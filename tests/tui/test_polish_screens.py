@@ -109,3 +109,18 @@ async def test_the_evidence_title_keeps_the_price_range_whole_beside_a_whole_nam
         assert session.label(s) in title[0]
         assert any(f"prices {lo}–{hi}" in line for line in title), title
         assert "status pending" in title[1]
+
+
+async def test_the_help_has_the_panes_thin_scrollbar(ledger_path):
+    """The help's two-cell thumb on an unlit track read as stray blocks beside the text ("worth▁▁"), as the
+    panes' did before theirs became one cell on a visible track."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await started(app, pilot)
+        await pilot.press("question_mark")
+        await pilot.pause()
+        dialog = app.screen.query_one(".dialog")
+        assert dialog.show_vertical_scrollbar
+        assert dialog.vertical_scrollbar.region.width == 1
+        listing = app.screen_stack[-2].query_one("#series-list")
+        assert dialog.styles.scrollbar_background == listing.styles.scrollbar_background
