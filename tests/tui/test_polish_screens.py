@@ -3,6 +3,7 @@ header's name at 100 columns, the override dialog's interval at 60×20, names cu
 from __future__ import annotations
 
 import pytest
+from rich.console import Console
 from textual.widgets._toast import Toast
 
 from fitcore.ledger import Identity
@@ -124,3 +125,24 @@ async def test_the_help_has_the_panes_thin_scrollbar(ledger_path):
         assert dialog.vertical_scrollbar.region.width == 1
         listing = app.screen_stack[-2].query_one("#series-list")
         assert dialog.styles.scrollbar_background == listing.styles.scrollbar_background
+
+
+async def test_a_candidates_reason_wraps_under_itself(ledger_path):
+    """At 80 columns "poly2: 2 distinct prices … (too few, or too" went on at the pane's edge ("close together)"),
+    where it read as a line of its own."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        s = session.current
+        results = session.results
+        missing = [c for c in range(len(results.names)) if not results.available[s, c]]
+        assert missing  # the first series listed (two distinct prices) has candidates it cannot fit
+        table = app.screen.evidence.candidate_table(s)
+        console = Console(width=76, record=True, color_system=None)
+        console.print(table)
+        lines = console.export_text().splitlines()
+        name = results.names[missing[0]]
+        at = next(i for i, line in enumerate(lines) if line.startswith(f"  {name}: "))
+        indent = len(f"  {name}: ")
+        assert lines[at + 1].startswith(" " * indent) and lines[at + 1].strip(), lines[at:at + 2]
+        assert (lines[at].strip() + " " + lines[at + 1].strip()).endswith(results.reason_text(s, missing[0]))

@@ -274,18 +274,22 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         for name, justify in (("", "left"), ("candidate", "left"), ("CV MSE", "right"), ("± SE", "right"),
                               ("Q²", "right"), ("R²", "right"), *([("controls", "left")] if controls else [])):
             table.add_column(name, justify=justify)
-        missing = Text(style="dim")
+        # each reason wraps under itself, not under its candidate's name (a column of its own)
+        missing = Table.grid(padding=(0, 1))
+        missing.add_column(style="dim", no_wrap=True)
+        missing.add_column(style="dim")
         for c, cand in enumerate(results.candidates):
             if not results.available[s, c]:
                 why = clean(results.reason_text(s, c) or '') if results.complete else "(reading the reason …)"
-                missing.append(f"  {cand.name}: {why}\n")
+                missing.add_row(Text(f"  {cand.name}:"), Text(why))
                 continue
             mark = "✓" if c == results.chosen[s] else ""
             mark += "↺" if c == model and c != results.chosen[s] else ""
             table.add_row(mark, cand.name, fmt(results.cv_mse[s, c]), fmt(results.cv_se[s, c]),
                           percent(results.q2[s, c]), percent(results.r2[s, c]),
                           *([self.control_effects(s, c)] if controls else []))
-        return Group(Text("Candidates (✓ proposed, ↺ override)", style="bold"), table, missing)
+        return Group(Text("Candidates (✓ proposed, ↺ override)", style="bold"), table,
+                     *([missing] if missing.row_count else []), Text(""))
 
     def control_effects(self, s: int, c: int) -> Text:
         """Candidate ``c``'s control effects in words ("promo: ×1.8 volume", "+120 units")."""
