@@ -130,10 +130,10 @@ SHOWN_PROBLEMS = 20
 def verdict(book: ledger.Ledger, witness: tuple[int, str] | None, name: str) -> tuple[int, list[str]]:
     """Exit status and lines of ``ledger verify``, each led by the ledger's ``name`` but the head's."""
     problems = book.problems or ([book.problem] if book.problem else [])
-    if problems and problems[0].line == 1 and problems[0].message == "not a valid JSON record" and \
-            not any("digest" in record for record in book.records):  # not one line of it reads as a record
-        return 1, [f"{name}: not a ledger: its first line is not a JSON record and no line is a ledger record (a ledger holds one a line; a "
-                   "results, data or plan file given in its place?)"]
+    if problems and problems[0].line == 1 and not any("digest" in record for record in book.records):
+        # not one line of it reads as a record (a JSON results file is one line, without a line end)
+        return 1, [f"{name}: not a ledger: no line of it is a ledger record (a ledger holds one JSON record a "
+                   "line; a results, data or plan file given in its place?)"]
     if problems:
         said = [str(problem) for problem in problems[:SHOWN_PROBLEMS]]
         if len(problems) > SHOWN_PROBLEMS:

@@ -72,13 +72,14 @@ def test_verify_keeps_its_status_when_the_reader_stops_early_and_counts_a_cascad
     assert piped.returncode == 1 and piped.stdout.count("\n") == 1  # `| head -1` does not turn a break into 0
 
 
-@pytest.mark.parametrize("name", ["results.parquet", "plan.csv"])
-def test_verify_of_a_file_that_is_no_ledger_at_all_says_so_in_one_line(name):
-    """A results or plan file given as the ledger: one line saying so, not twenty 'not a valid JSON record'."""
-    done = run_cli("ledger", "verify", str(SAMPLE / name))
+@pytest.mark.parametrize("name", ["results.parquet", "plan.csv", "results.json"])
+def test_verify_of_a_file_that_is_no_ledger_at_all_says_so_in_one_line(name, results):
+    """A results or plan file given as the ledger: one line saying so, not twenty 'not a valid JSON record'
+    (nor, for a JSON results file, one line, "the last line … is not the start of a ledger record")."""
+    done = run_cli("ledger", "verify", str(results if name == "results.json" else SAMPLE / name))
     assert done.returncode == 1 and done.stdout.count("\n") == 1
-    assert done.stdout.endswith(f"{name}: not a ledger: its first line is not a JSON record and no line is a ledger "
-                                "record (a ledger holds one a line; a results, data or plan file given in its place?)\n")
+    assert done.stdout.endswith(f"{name}: not a ledger: no line of it is a ledger record (a ledger holds one JSON "
+                                "record a line; a results, data or plan file given in its place?)\n")
 
 
 def test_verify_with_the_wrong_key_says_so_first(tmp_path, results):
