@@ -40,8 +40,9 @@ from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 from .override import OverrideDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
-# Side by side, the evidence keeps at least half of NARROW and the list takes up to LIST_ROOM cells before the
-# two share the width evenly (at 120–130 columns the names were cut beside an evidence pane with room to spare)
+# Side by side, the evidence keeps EVIDENCE_LEAST cells (its title and charts whole) and the list takes up to
+# LIST_ROOM cells before the two share the width evenly (at 120–130 columns names were cut beside an evidence
+# pane with room to spare)
 EVIDENCE_LEAST, LIST_ROOM = 52, 70
 POLL_SECONDS = 2.0
 TOLD = {"accept": "Accepted", "override": "Overrode", "hold": "Held", "note": "Noted", "revoke": "Revoked"}

@@ -134,7 +134,7 @@ class SeriesList(ScrollView, can_focus=True):
         return key, max(room - key, 0)
 
     def count_width(self) -> int:
-        """Cells of the observations column: the largest count's digits (3 at least, 5 for 10,000 or more)."""
+        """Cells of the observations column: the largest count's digits, 3 at least."""
         results = self.session.results
         if self._count_width[0] is not results:
             counts = results.data.counts

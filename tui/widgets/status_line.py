@@ -13,6 +13,8 @@ from ..cells import cut
 from ..listing import FILTER_TITLES, SORT_TITLES
 from ..text import clean
 
+TITLE = "pricefold triage"
+WHO_KEEPS = 8  # cells of the analyst's name kept at least beside the title; with less room the title goes
 # status, its word, its short form
 WORDS = (("attention", "attention", "attn"), ("pending", "pending", "pend"), ("accepted", "accepted", "acc"),
          ("overridden", "overridden", "ovr"), ("held", "held", "held"), ("stale", "stale", "stale"))
@@ -40,10 +42,6 @@ def status_text(session, width: int) -> Text:
         said = f"READ-ONLY: {clean(session.read_only_why)}; nothing can be recorded"
         text.append("\n" + cut(said, width), style="bold reverse")
     return text
-
-
-TITLE = "pricefold triage"
-WHO_KEEPS = 8  # cells of the analyst's name kept at least beside the title; with less room the title goes
 
 
 def _counts_lines(session, width: int) -> Text:
