@@ -1,5 +1,6 @@
-"""Small faults new users met on the triage screen, each checked where it was seen: a note over the help, the
-header's name at 100 columns, the override dialog's interval at 60×20, names cut in the two-pane list."""
+"""Small faults new users met on the triage screen, each checked at the size it was seen: a note over the help,
+the header's name at 100 columns, the override dialog's interval at 60×20, names cut in the two-pane list, the
+evidence title's price range, a candidate's reason wrapping at the pane's edge, the help's scrollbar."""
 from __future__ import annotations
 
 import pytest
