@@ -1,7 +1,8 @@
 """The override dialog: every available candidate with the numbers an analyst decides on.
 
 For each: CV error ± SE, Q², plan volume with its 95% prediction interval, elasticity at the plan
-price, and the flags that candidate would carry itself (rising, below-zero, outside-range).  The
+price, and the flags that candidate would carry itself (rising, below-zero, outside-range).  Where the
+dialog is too narrow for every column (60 cells), the interval opens each model's second line instead.  The
 proposal is shown for comparison but cannot be picked.  The dialog opens on the model that stands (an
 earlier override) or on the proposal: a highlight there would read as a recommendation, and the candidate
 with the next lowest CV error may well carry cautions of its own.
@@ -29,6 +30,10 @@ from ..text import literal
 
 SHORT = 18  # terminal rows: below this, the dialog drops its padding and explanations so the models keep rows
 HEAD = ("model", "CV MSE", "± SE", "Q²", "volume", "95% PI", "elast.")
+INTERVAL = HEAD.index("95% PI")
+# cells around a model's line: the dialog's border and padding (2 + 4), the list's border and padding (4), its
+# scrollbar (2) and the mark before the name (2); narrow, the dialog takes the screen's width with less padding
+AROUND = 14
 
 
 @dataclass(frozen=True)
@@ -67,6 +72,12 @@ def _cells(row: CandidateRow) -> tuple[str, ...]:
     return (row.name, row.cv_mse, row.cv_se, row.q2, row.volume, row.interval, row.elasticity)
 
 
+def dialog_room(screen_width: int) -> int:
+    """Cells a model's line has in the dialog on a screen ``screen_width`` wide (``.dialog.wide``: 100 cells,
+    at most 95% of the screen)."""
+    return min(100, screen_width * 95 // 100) - AROUND
+
+
 class OverrideDialog(ModalScreen[str | None]):
     """Pick the candidate to put in the plan instead of the proposal; returns its name."""
 
@@ -78,18 +89,32 @@ class OverrideDialog(ModalScreen[str | None]):
         super().__init__()
         self.results, self.s, self.label, self.standing = results, s, label, standing
         self.rows = candidate_rows(results, s, diagnosis)
+        self.narrow = False  # each model's interval on its second line (set by ``compose`` from the width)
+
+    def line_width(self, columns: tuple[int, ...]) -> int:
+        """Cells of a model's first line holding the ``columns`` (indices into ``HEAD``)."""
+        widths = [max(len(HEAD[i]), *(len(_cells(r)[i]) for r in self.rows)) for i in columns]
+        return sum(widths) + 2 * (len(widths) - 1)
 
     def compose(self) -> ComposeResult:
         results, s = self.results, self.s
-        widths = [max(len(h), *(len(_cells(r)[i]) for r in self.rows)) for i, h in enumerate(HEAD)]
+        # Too narrow for every column (60 cells: the interval ran off the edge): the interval goes to the
+        # second line, before the flags, where it is never cut.
+        self.narrow = self.line_width(tuple(range(len(HEAD)))) > dialog_room(self.app.size.width)
+        self.set_class(self.narrow, "narrow")
+        columns = tuple(i for i in range(len(HEAD)) if not (self.narrow and i == INTERVAL))
+        widths = [max(len(HEAD[i]), *(len(_cells(r)[i]) for r in self.rows)) for i in columns]
 
         def line(cells) -> str:
+            cells = [cells[i] for i in columns]
             return "  ".join(cell.ljust(w) if i == 0 else cell.rjust(w)
                              for i, (cell, w) in enumerate(zip(cells, widths)))
 
         plan = results.plan_price[s]
         title = literal(f"Override the proposal for {self.label}", "bold")
-        sub = Text(f"At the plan price {money(plan)}: volume, 95% interval, elasticity; below each, its own flags"
+        said = ("volume and elasticity; below each, its 95% interval (PI) and own flags" if self.narrow else
+                "volume, 95% interval, elasticity; below each, its own flags")
+        sub = Text(f"At the plan price {money(plan)}: {said}"
                    if math.isfinite(plan) else "No plan price; below each model, its own flags", style="dim")
         with Vertical(classes="dialog wide override"):
             yield Static(title, markup=False, id="override-title")
@@ -100,7 +125,11 @@ class OverrideDialog(ModalScreen[str | None]):
                 prompt = Text(("✓ " if row.proposed else "↺ " if row.name == self.standing else "  ")
                               + line(_cells(row)))
                 role = "proposed · " if row.proposed else "stands now · " if row.name == self.standing else ""
-                prompt.append(f"\n    {role}", style="dim")
+                prompt.append("\n    ")
+                if self.narrow and row.interval != "—":
+                    prompt.append(f"PI {row.interval}")
+                    prompt.append(" · ", style="dim")
+                prompt.append(role, style="dim")
                 prompt.append(f"! {' · '.join(row.flags)}" if row.flags else "no shape or range flag",
                               style="#ff875f" if row.flags else "dim")
                 options.append(Option(prompt, id=row.name, disabled=row.proposed))
@@ -109,8 +138,18 @@ class OverrideDialog(ModalScreen[str | None]):
                          markup=False, id="override-hint")
             yield Static(Text("Enter to choose · Esc to cancel", style="dim"), markup=False, id="override-hint-short")
 
-    def on_resize(self) -> None:
+    async def on_resize(self) -> None:
         self.set_class(self.app.size.height < SHORT, "short")
+        narrow = self.line_width(tuple(range(len(HEAD)))) > dialog_room(self.app.size.width)
+        if narrow != self.narrow:  # the other layout: built again, on the model it was on
+            options = self.query_one(OptionList)
+            at, focused = options.highlighted, options.has_focus
+            await self.recompose()
+            options = self.query_one(OptionList)
+            options.highlighted = at
+            if focused:
+                options.focus()
+            self.call_after_refresh(self._from_a_whole_row)
 
     def on_mount(self) -> None:
         self.set_class(self.app.size.height < SHORT, "short")

@@ -40,6 +40,10 @@ from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 from .override import OverrideDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
+# Side by side, the evidence keeps EVIDENCE_LEAST cells (its title and charts whole) and the list takes up to
+# LIST_ROOM cells before the two share the width evenly (at 120–130 columns names were cut beside an evidence
+# pane with room to spare)
+EVIDENCE_LEAST, LIST_ROOM = 52, 70
 POLL_SECONDS = 2.0
 TOLD = {"accept": "Accepted", "override": "Overrode", "hold": "Held", "note": "Noted", "revoke": "Revoked"}
 
@@ -84,14 +88,21 @@ class TriageScreen(Screen):
         yield KeyLine(id="key-line")
 
     def on_mount(self) -> None:
-        self.set_class(self.app.size.width < NARROW, "narrow")
+        self.split(self.app.size.width)
         self.query_one(SeriesList).focus()
         self.set_interval(POLL_SECONDS, self.poll_ledger)
         self.update_status()
 
     def on_resize(self) -> None:
-        self.set_class(self.size.width < NARROW, "narrow")
+        self.split(self.size.width)
         self.update_status()
+
+    def split(self, width: int) -> None:
+        """The panes' widths by CSS class: one pane below NARROW; then the list widens first (the evidence at
+        EVIDENCE_LEAST, ``list-grows``) up to LIST_ROOM (``list-room``), then both take half."""
+        self.set_class(width < NARROW, "narrow")
+        self.set_class(NARROW <= width < LIST_ROOM + EVIDENCE_LEAST, "list-grows")
+        self.set_class(LIST_ROOM + EVIDENCE_LEAST <= width < 2 * LIST_ROOM, "list-room")
 
     def on_screen_suspend(self) -> None:
         """A dialog opens over the screen: its notifications band empties (the dialog's screen shows them,

@@ -178,14 +178,21 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         # a long product name gives way to its segments and to what is said about the series (a key of one
         # part keeps the width: the name is all that tells the series apart)
         parts = session.label_parts(s)
-        room = min(cell_len(session.label(s)), max(width - cell_len(about), width * 2 // 3) if len(parts) > 1
-                   else width)
-        head = Text(key_label(parts, room), style="bold")
-        head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
+        label = cell_len(session.label(s))
+        room = min(label, max(width - cell_len(about), width * 2 // 3) if len(parts) > 1 else width)
+        # a name that fits whole but not beside the counts keeps the line; the counts follow the status
+        # (at 52 cells, "… · South  104 obs, prices 0.60–0.…" lost the highest price)
+        after = label + cell_len(about) > width >= label
+        head = Text(key_label(parts, label if after else room), style="bold")
+        if not after:
+            head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
         due = session.due(s)
-        lines = [head, Text(cut(f"status {session.status[s]}" + (f" — due: {due}" if due else "")
-                                + (f": {describe(standing)}" if standing else ""), width))]
+        status = Text(cut(f"status {session.status[s]}" + (f" — due: {due}" if due else "")
+                          + (f": {describe(standing)}" if standing else ""), width))
+        if after:
+            status.append(cut(" · " + about.strip(), max(width - cell_len(status.plain), 0)), style="dim")
+        lines = [head, status]
         if session.news is not None and s == session.current:
             said = "↑ just now: it has left your list; decision keys wait until you move" if session.waiting \
                 else f"↑ just now: {describe(session.news, when=False)}"
@@ -267,18 +274,22 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         for name, justify in (("", "left"), ("candidate", "left"), ("CV MSE", "right"), ("± SE", "right"),
                               ("Q²", "right"), ("R²", "right"), *([("controls", "left")] if controls else [])):
             table.add_column(name, justify=justify)
-        missing = Text(style="dim")
+        # each reason wraps under itself, not under its candidate's name (a column of its own)
+        missing = Table.grid(padding=(0, 1))
+        missing.add_column(style="dim", no_wrap=True)
+        missing.add_column(style="dim")
         for c, cand in enumerate(results.candidates):
             if not results.available[s, c]:
                 why = clean(results.reason_text(s, c) or '') if results.complete else "(reading the reason …)"
-                missing.append(f"  {cand.name}: {why}\n")
+                missing.add_row(Text(f"  {cand.name}:"), Text(why))
                 continue
             mark = "✓" if c == results.chosen[s] else ""
             mark += "↺" if c == model and c != results.chosen[s] else ""
             table.add_row(mark, cand.name, fmt(results.cv_mse[s, c]), fmt(results.cv_se[s, c]),
                           percent(results.q2[s, c]), percent(results.r2[s, c]),
                           *([self.control_effects(s, c)] if controls else []))
-        return Group(Text("Candidates (✓ proposed, ↺ override)", style="bold"), table, missing)
+        return Group(Text("Candidates (✓ proposed, ↺ override)", style="bold"), table,
+                     *([missing] if missing.row_count else []), Text(""))
 
     def control_effects(self, s: int, c: int) -> Text:
         """Candidate ``c``'s control effects in words ("promo: ×1.8 volume", "+120 units")."""

@@ -21,6 +21,7 @@ DONE = Style(color="#87af87")
 NEWS = Style(color="#5fafff", italic=True)
 DIM = Style(dim=True)
 CURSOR = Style(reverse=True)
+FLAGS_KEEP = 14  # cells the flags column keeps before a long key takes more than three fifths ("!outside-range")
 SEVERITY_MARK = {"stop": "!", "warn": "?"}  # read without colour: '!' do not use unseen, '?' worth a look
 
 
@@ -68,6 +69,8 @@ class SeriesList(ScrollView, can_focus=True):
         self.session = session
         self._rows: dict[tuple, Strip] = {}  # a row's strip by what it shows: a reload redraws only new rows
         self._rows_of: tuple = (None, None)  # the results and diagnosis those rows were drawn from
+        self._longest: tuple = (None, 0)  # (the session's keys, their longest label's length)
+        self._count_width: tuple = (None, 5)  # (the session's results, the observations column's width)
 
     def on_mount(self) -> None:
         self.reload()
@@ -122,10 +125,31 @@ class SeriesList(ScrollView, can_focus=True):
             self.post_message(self.Highlighted(self.session.current))
 
     def columns(self, width: int) -> tuple[int, int]:
-        """Widths of the key and flags columns for a line ``width`` wide."""
-        fixed = 2 + 1 + 5 + 1 + 7 + 1 + 5 + 2
-        key = max(12, min(40, (width - fixed) * 3 // 5))
-        return key, max(width - fixed - key, 0)
+        """Widths of the key and flags columns for a line ``width`` wide: the key as wide as the longest label
+        needs (12 to 40 cells) while the flags keep FLAGS_KEEP, else at least three fifths of the room."""
+        fixed = 2 + 1 + self.count_width() + 1 + 7 + 1 + 5 + 2
+        room = width - fixed
+        needed = max(12, min(40, self.longest_label()))
+        key = max(12, min(40, room * 3 // 5, needed), min(needed, room - FLAGS_KEEP))
+        return key, max(room - key, 0)
+
+    def count_width(self) -> int:
+        """Cells of the observations column: the largest count's digits, 3 at least."""
+        results = self.session.results
+        if self._count_width[0] is not results:
+            counts = results.data.counts
+            most = int(counts.max()) if len(counts) else 0
+            self._count_width = (results, max(3, len(str(most))))
+        return self._count_width[1]
+
+    def longest_label(self) -> int:
+        """Characters of the longest series label (a cell each, but for wide characters): once per set of keys."""
+        keys = self.session.keys
+        if self._longest[0] is not keys:
+            import pyarrow.compute as pc
+            longest = pc.max(pc.utf8_length(keys.labels)).as_py() if len(keys) else 0
+            self._longest = (keys, int(longest or 0))
+        return self._longest[1]
 
     def render_line(self, y: int) -> Strip:
         width = self.scrollable_content_region.width
@@ -133,7 +157,8 @@ class SeriesList(ScrollView, can_focus=True):
         if y == 0:
             flags = next(h for h in ("flags (! stop, ? warn)", "flags !stop ?warn", "flags")
                          if len(h) <= flags_w or h == "flags")
-            head = f"  {pad('series', key_w)} {'n':>5} {'model':<7} {'score':>5}  {pad(flags, flags_w)}"
+            n_w = self.count_width()
+            head = f"  {pad('series', key_w)} {'n':>{n_w}} {'model':<7} {'score':>5}  {pad(flags, flags_w)}"
             return Strip([Segment(head, Style(bold=True, underline=True))]).crop(0, width).extend_cell_length(width)
         row = y - 1 + int(self.scroll_y)
         session = self.session
@@ -166,8 +191,8 @@ class SeriesList(ScrollView, can_focus=True):
         mark_style = DONE if status in ("accepted", "overridden") else STOP if status == "stale" else DIM
         segments = [
             Segment(f"{STATUS_MARK[status]} ", mark_style),
-            Segment(f"{key_label(session.label_parts(s), key_w)} {results.data.counts[s]:>5} {name:<7} "
-                    f"{score_text:>5}  "),
+            Segment(f"{key_label(session.label_parts(s), key_w)} {results.data.counts[s]:>{self.count_width()}} "
+                    f"{name:<7} {score_text:>5}  "),
         ]
         if news is not None:  # someone else just decided it: say who
             lead = "left list: " if session.waiting else "← "

@@ -1,7 +1,8 @@
 """The header: who is deciding, what is listed, and how many series stand where — fitted to the width.
 
 One line when everything fits; otherwise the counts go to a second line, in shorter words
-when they must.  Every count (stale included) is always shown.
+when they must, and the first keeps the title beside the analyst's name (cut if need be) and what is
+listed.  Every count (stale included) is always shown.
 """
 from __future__ import annotations
 
@@ -12,6 +13,8 @@ from ..cells import cut
 from ..listing import FILTER_TITLES, SORT_TITLES
 from ..text import clean
 
+TITLE = "pricefold triage"
+WHO_KEEPS = 8  # cells of the analyst's name kept at least beside the title; with less room the title goes
 # status, its word, its short form
 WORDS = (("attention", "attention", "attn"), ("pending", "pending", "pend"), ("accepted", "accepted", "acc"),
          ("overridden", "overridden", "ovr"), ("held", "held", "held"), ("stale", "stale", "stale"))
@@ -45,20 +48,31 @@ def _counts_lines(session, width: int) -> Text:
     who = clean(session.who.analyst)
     listed = listed_text(session)
     counts = session.counts()
-    one_line = f"pricefold triage  {who}  ·  {listed}  ·  {counts_text(counts, 10**6)}"
     text = Text()
-    if cell_len(one_line) <= width:
-        text.append("pricefold triage", style="bold")
-        text.append(f"  {who}  ·  ", style="dim")
-        text.append(f"{listed}  ·  {counts_text(counts, 10**6)}")
+    if cell_len(f"{TITLE}  {who}  ·  {listed}  ·  {counts_text(counts, 10**6)}") <= width:
+        _first(text, TITLE, who, "  ·  ", listed)
+        text.append(f"  ·  {counts_text(counts, 10**6)}")
         return text
-    first = f"pricefold triage  {who}  ·  {listed}"
-    if cell_len(first) <= width:
-        text.append("pricefold triage", style="bold")
-        text.append(f"  {who}  ·  ", style="dim")
-        text.append(listed)
+    # two lines; the first keeps the title, the analyst and what is listed, in the longest form that fits:
+    # spaced, then closer, then the analyst's name cut (the title went first before, at 100 columns already)
+    room = width - cell_len(f"{TITLE}  ") - cell_len(f" · {listed}")
+    if cell_len(f"{TITLE}  {who}  ·  {listed}") <= width:
+        _first(text, TITLE, who, "  ·  ", listed)
+    elif room >= min(cell_len(who), WHO_KEEPS):
+        _first(text, TITLE, cut(who, room), " · ", listed)
+    elif cell_len(f"{who} · {listed}") <= width:
+        _first(text, "", who, " · ", listed)
     else:
         text.append(cut(f"{who} · ", max(width // 3, 8)), style="dim")
         text.append(cut(listed, width - cell_len(text.plain)))
     text.append("\n" + counts_text(counts, width))
     return text
+
+
+def _first(text: Text, title: str, who: str, joiner: str, listed: str) -> None:
+    """The header's first line: the title in bold (when given), the analyst dim, then what is listed."""
+    if title:
+        text.append(title, style="bold")
+        text.append("  ")
+    text.append(f"{who}{joiner}", style="dim")
+    text.append(listed)
