@@ -257,13 +257,14 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
     """The app ``open_triage`` runs.  On stored results whose data file is gone (or too large to read here),
     the session opens from the stored numbers alone and says why there are no observations."""
     from fitcore.results.read import read_header
-    from tui.app import TriageApp
     from fitcore.results.source import refit_stored
     from tui.factory import open_session, open_stored_session
+    from tui.opening import Opening
 
     from .ledger_cli import identity, ledger_key
     who, key = identity(analyst), ledger_key()
     if stored is None:
+        from tui.app import TriageApp
         return TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
     rows = read_header(stored).get("input", {}).get("rows") or 0
     unobserved = None
@@ -285,7 +286,9 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
             session.warnings.append(f"{unobserved[0].upper()}{unobserved[1:]}; the list and the evidence show the "
                                     "results as the file holds them.")
         return session
-    return TriageApp(opener, observer=refit if unobserved is None else None)
+    opening = Opening(opener)  # the results read while the app's modules load (Arrow lets go of the interpreter)
+    from tui.app import TriageApp
+    return TriageApp(opening, observer=refit if unobserved is None else None)
 
 
 def run_demo(args) -> int:

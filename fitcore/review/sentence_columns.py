@@ -34,7 +34,7 @@ def _near_tie(diag, series):
     where = pc.if_else(np.isfinite(plan), fill(S.AT_PLAN, price=moneys(plan)), S.AT_MID)
     rival_volume, chosen_volume = n["rival_volume"][series], n["chosen_volume"][series]
     difference = pc.if_else(
-        np.minimum(rival_volume, chosen_volume) > 0,
+        S.share_reads(rival_volume, chosen_volume),
         fill(S.NEAR_TIE_SHARE, change=pcts(np.abs(change)), direction=np.where(change > 0, "more", "less").astype(object),
              chosen=names[chosen]),
         fill(S.NEAR_TIE_VOLUMES, rival_volume=fmts(rival_volume), chosen=names[chosen], chosen_volume=fmts(chosen_volume)))

@@ -119,9 +119,20 @@ def _outside_range(diag, s):
 # Sentences written for many series at once too (``sentence_columns``): one wording, filled either way.
 NEAR_TIE = ("{rival} is within one standard error (CV MSE {rival_mse} vs {chosen_mse} ± {chosen_se}) and predicts "
             "{difference} {where}.")
-# the difference as a share of the chosen curve's volume; as the two volumes where either is not above zero
+# the difference as a share of the chosen curve's volume; as the two volumes where either is not above zero,
+# or where one is more than NEAR_TIE_SHARE_UP_TO times the other (a share then read "83025% more volume")
 NEAR_TIE_SHARE = "{change} {direction} volume than {chosen}"
 NEAR_TIE_VOLUMES = "a volume of {rival_volume} where {chosen} predicts {chosen_volume}"
+NEAR_TIE_SHARE_UP_TO = 2.0
+
+
+def share_reads(rival_volume, chosen_volume):
+    """Whether a near tie's difference is said as a share of the chosen volume (numbers or arrays alike):
+    both volumes above zero, neither more than NEAR_TIE_SHARE_UP_TO times the other."""
+    return ((np.minimum(rival_volume, chosen_volume) > 0) & (rival_volume <= NEAR_TIE_SHARE_UP_TO * chosen_volume)
+            & (chosen_volume <= NEAR_TIE_SHARE_UP_TO * rival_volume))
+
+
 AT_PLAN, AT_MID = "at the plan price {price}", "at mid-range price"
 WEAK_FIT = ("Cross-validated R² (Q²) is {score}, below {wanted}: price explains little of the volume's "
             "variation.")
@@ -133,7 +144,7 @@ def _near_tie(diag, s):
     where = AT_PLAN.format(price=money(r.plan_price[s])) if math.isfinite(r.plan_price[s]) else AT_MID
     change, volumes = n["rival_change"][s], (n["rival_volume"][s], n["chosen_volume"][s])
     difference = (NEAR_TIE_SHARE.format(change=pct(abs(change)), direction="more" if change > 0 else "less",
-                                        chosen=r.names[c]) if min(volumes) > 0 else
+                                        chosen=r.names[c]) if share_reads(*volumes) else
                   NEAR_TIE_VOLUMES.format(rival_volume=fmt(volumes[0]), chosen=r.names[c], chosen_volume=fmt(volumes[1])))
     return NEAR_TIE.format(rival=r.names[other], rival_mse=fmt(r.cv_mse[s, other]), chosen_mse=fmt(r.cv_mse[s, c]),
                            chosen_se=fmt(r.cv_se[s, c]), difference=difference, where=where)

@@ -167,7 +167,8 @@ def test_threshold_overrides_are_checked(pairs, message):
 
 def test_near_tie_gives_both_volumes_where_one_is_not_above_zero():
     """A share of a volume at or below zero means nothing (it read "predicts 8298% more volume than poly1"
-    where poly1 predicted −269): there the sentence gives both volumes; elsewhere the share, as before.
+    where poly1 predicted −269), and one of many times the volume reads badly ("83025% more volume" beside a
+    volume of 59): there the sentence gives both volumes; elsewhere (up to twice or half) the share.
     Common practice: a relative change needs a positive base."""
     from fitcore.review.sentences import fmt
     from tests.reference.fixed_fits import dataset
@@ -182,7 +183,7 @@ def test_near_tie_gives_both_volumes_where_one_is_not_above_zero():
             continue
         c, r = int(results.chosen[s]), results.names.index(said.split()[0])
         ours, theirs = results.plan_volume[s, c], results.plan_volume[s, r]
-        if min(ours, theirs) > 0:
+        if min(ours, theirs) > 0 and max(ours, theirs) <= 2 * min(ours, theirs):
             kinds.add("share")
             assert f"predicts {abs(theirs / ours - 1) * 100:.0f}% " in said
         else:
