@@ -20,7 +20,7 @@ from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
-from fitcore.review.sentences import fmt, money
+from fitcore.review.sentences import fmt, money, two_places
 
 from .. import engine
 from ..cells import cut, key_label, percent
@@ -52,7 +52,7 @@ def predicts(results, s: int, c: int, volume_text=fmt) -> str:
     plan price, as the evidence says it and as an accept past a stop flag shows what is signed."""
     volume = float(results.plan_volume[s, c])
     # an elasticity is a ratio of relative changes: at a volume at or below zero it means nothing
-    slope = f"elasticity {results.plan_elasticity[s, c]:.2f}" if volume > 0 else \
+    slope = f"elasticity {two_places(results.plan_elasticity[s, c])}" if volume > 0 else \
         "no elasticity (the volume is not above zero)"
     return (f"{results.names[c]} predicts volume {volume_text(volume)} ({results.settings.level:.0%} PI "
             f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}), {slope}")
