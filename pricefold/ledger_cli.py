@@ -14,7 +14,7 @@ import sys
 from pathlib import Path
 
 from fitcore import ledger
-from fitcore.ledger.replay import series_id
+from fitcore.ledger.replay import apply, own_standing, series_id
 from fitcore.text import clean
 
 from .show import key_text
@@ -170,7 +170,11 @@ def verdict(book: ledger.Ledger, witness: tuple[int, str] | None, name: str) -> 
 def run_show(args) -> int:
     book = open_ledger(args.ledger, must_exist=True)
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
+    histories = {}  # replayed as listed: a revoke names the decision it withdrew
     for r in book.records:
+        withdrawn = (own_standing(histories.get(series_id(r["series"])), r["analyst"], r.get("os_user"))
+                     if r["action"] == "revoke" else None)
+        apply(histories, [r])
         if args.product and next(iter(r["series"].values()), None) not in args.product:
             continue
         model = clean(r.get("model") or "")
@@ -178,6 +182,8 @@ def run_show(args) -> int:
             model = f"{model} instead of {clean(r.get('proposed') or '')}"
         elif r["action"] == "carry":
             model = f"{model} from #{seqs.get(r.get('carries'), '?')}"
+        elif withdrawn is not None:
+            model = f"#{withdrawn['seq']} ({withdrawn['action']} {clean(withdrawn.get('model') or '')})".replace(" )", ")")
         who = clean(r["analyst"])
         if r.get("os_user") and r["os_user"] != r["analyst"]:
             who = f"{who} ({clean(r['os_user'])})"

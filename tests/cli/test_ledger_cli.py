@@ -324,3 +324,16 @@ def test_reading_a_results_file_as_the_ledger_is_refused_in_one_line(command, re
     assert done.returncode == 2 and done.stdout == "" and done.stderr.count("\n") == 1
     assert f"{results.name}: not a ledger: no line of it is a ledger record" in done.stderr
     assert results.read_bytes() == before
+
+
+def test_show_says_which_decision_a_revoke_withdrew(tmp_path):
+    """`bo revoke dovra juice` left the reader to find what was withdrawn: the line names the record, its action
+    and model (the replay's rule: one's own latest standing decision on the series)."""
+    from fitcore import ledger as fledger
+    from tests.fitcore.ledger_support import ANA, BO, after, entry
+    path = tmp_path / "l.jsonl"
+    fledger.append(path, [entry("a", model="poly2")], BO)
+    fledger.append(path, [entry("a", "hold", model=None, supersedes=after(fledger.Ledger(path), "a"))], ANA)
+    fledger.append(path, [entry("a", "revoke", model=None, supersedes=after(fledger.Ledger(path), "a"))], BO)
+    shown = run_cli("ledger", "show", str(path)).stdout.splitlines()
+    assert len(shown) == 3 and " revoke   #1 (accept poly2) " in shown[2]
