@@ -23,7 +23,7 @@ from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money, two_places
 
 from .. import engine
-from ..cells import cut, key_label, percent
+from ..cells import cut, key_label, percent, wrapped
 from ..session import TriageSession, describe
 from ..text import clean
 from .charts import curve_chart, fold_chart
@@ -188,12 +188,17 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
         due = session.due(s)
-        status = Text(cut(f"status {session.status[s]}" + (f" — due: {due}" if due else "")
-                          + (f": {describe(standing)}" if standing else ""), width))
+        said = (f"status {session.status[s]}" + (f" — due: {due}" if due else "")
+                + (f": {describe(standing)}" if standing else ""))
+        news = session.news is not None and s == session.current
         if after:
-            status.append(cut(" · " + about.strip(), max(width - cell_len(status.plain), 0)), style="dim")
+            said += " · " + about.strip()
+        # the third line is the news's, or the status's own where it is longer than the width (a cut hid the time)
+        status = Text("\n".join(wrapped(said, width, 1 if news else 2)))
+        if after:
+            status.highlight_words([about.strip()], style="dim")
         lines = [head, status]
-        if session.news is not None and s == session.current:
+        if news:
             said = "↑ just now: it has left your list; decision keys wait until you move" if session.waiting \
                 else f"↑ just now: {describe(session.news, when=False)}"
             lines.append(Text(cut(said, width), style=NEWS_STYLE))
