@@ -69,7 +69,7 @@ class ResultsTable:
         self.texts = texts  # name → (S,) Arrow text, each series' value
         self.cycle = cycle.series_values(results, backtest)
         self.names = pa.array(results.names)
-        self.families = pa.array([c.family for c in results.candidates])
+        self.families = pa.array([c.family for c in results.candidates]).dictionary_encode()  # each family once
         self.results = _with_rows_needed(results)
 
     def whole(self):
@@ -93,17 +93,16 @@ class ResultsTable:
         coef_lists = _cell_lists(power_coef_table(results, part), np.where(ok, tile(sizes), 0))
         fold_lists = _ragged(results.fold_err, results.fold_start[lo:hi + 1], ok)
         chosen = results.chosen[part]
-        per_series = np.repeat(np.arange(m, dtype=np.int32), n_c)
 
-        def repeat_text(words):  # one dictionary entry per series, not one Python string per row
-            return pa.DictionaryArray.from_arrays(per_series, words.slice(lo, m))
+        def repeat_text(words):  # a dictionary of the series' texts, not one Python string per row
+            return repeated_text(words.slice(lo, m), n_c)
 
         which = tile(np.arange(n_c, dtype=np.int32))
         columns = {name: repeat_text(self.texts[name]) for name in results.data.key_names}  # the keys' texts
         columns.update(
             n=repeat(results.data.counts), price_lo=repeat(results.price_lo), price_hi=repeat(results.price_hi),
             candidate=pa.DictionaryArray.from_arrays(which, self.names),
-            family=pa.DictionaryArray.from_arrays(which, self.families),
+            family=pa.DictionaryArray.from_arrays(tile(self.families.indices), self.families.dictionary),
             degree=pa.array(tile([c.degree if c.degree is not None else -1 for c in results.candidates]),
                             mask=tile([c.degree is None for c in results.candidates])),
             available=ok,
@@ -130,6 +129,23 @@ class ResultsTable:
         table = pa.table({name: pa.array(value, from_pandas=True) if not isinstance(value, pa.Array) else value
                           for name, value in columns.items()})
         return table.replace_schema_metadata(self.metadata)
+
+
+def repeated_text(words, n_c: int):
+    """Arrow text ``words`` (one a series) each on its series' ``n_c`` rows, dictionary-encoded with every
+    different text once in the dictionary (in order of first appearance: as pyarrow reads such a column back).
+
+    Not a dictionary entry per series: Parquet's writer keeps a dictionary only if no text is in it twice, and
+    otherwise writes every row's text in full (the flags at 100k series: 50 MB of text for 700k rows, then
+    compressed again; the families likewise).  Keys and fingerprints, a different text each series, keep their
+    dictionary of one entry a series, in series order."""
+    import pyarrow as pa
+    encoded = words.dictionary_encode()
+    index = encoded.indices
+    rows = np.repeat(index.to_numpy(zero_copy_only=False) if not index.null_count else
+                     index.fill_null(0).to_numpy(), n_c).astype(np.int32)
+    mask = np.repeat(index.is_null().to_numpy(zero_copy_only=False), n_c) if index.null_count else None
+    return pa.DictionaryArray.from_arrays(pa.array(rows, mask=mask), encoded.dictionary)
 
 
 def flag_texts(results: Results, diagnosis):
