@@ -140,12 +140,11 @@ def repeated_text(words, n_c: int):
     compressed again; the families likewise).  Keys and fingerprints, a different text each series, keep their
     dictionary of one entry a series, in series order."""
     import pyarrow as pa
-    encoded = words.dictionary_encode()
+    encoded = words.dictionary_encode()  # a null text: a null row
     index = encoded.indices
-    rows = np.repeat(index.to_numpy(zero_copy_only=False) if not index.null_count else
-                     index.fill_null(0).to_numpy(), n_c).astype(np.int32)
     mask = np.repeat(index.is_null().to_numpy(zero_copy_only=False), n_c) if index.null_count else None
-    return pa.DictionaryArray.from_arrays(pa.array(rows, mask=mask), encoded.dictionary)
+    return pa.DictionaryArray.from_arrays(pa.array(np.repeat(index.fill_null(0).to_numpy(), n_c), mask=mask),
+                                          encoded.dictionary)
 
 
 def flag_texts(results: Results, diagnosis):

@@ -77,6 +77,26 @@ def test_the_files_differ_in_row_groups_only(cases):
     assert "control_coef" in pq.read_schema(cases["controls"][1]).names
 
 
+def test_every_text_column_keeps_its_dictionary_in_every_row_group(cases):
+    """Parquet's writer keeps a column's dictionary only if no text is in it twice; otherwise it writes every
+    row's text in full (``PLAIN``).  The flags ("[]" for most series), the families, the regions and the
+    controls' texts repeat across series: each row group's dictionary must hold each text once, the column
+    read back (by pyarrow) the same texts.  (The backtest's texts are not made in ``table.py``.)"""
+    for one, many in cases.values():
+        for path in (one, many):
+            meta = pq.ParquetFile(path).metadata
+            schema = pq.read_schema(path)
+            texts = [name for name in schema.names if str(schema.field(name).type).startswith("dictionary")
+                     and not name.startswith("backtest_")]
+            assert {"flags", "family", "region", "fingerprint", "candidate", "chosen"} <= set(texts)
+            at = {meta.row_group(0).column(c).path_in_schema: c for c in range(meta.num_columns)}
+            for g in range(meta.num_row_groups):
+                for name in texts:
+                    assert "RLE_DICTIONARY" in meta.row_group(g).column(at[name]).encodings, (path.name, g, name)
+            flags = pq.read_table(path, columns=["flags"]).column(0).to_pylist()
+            assert flags.count("[]") > 7 and all(json.loads(text) is not None for text in flags)
+
+
 def test_read_results_and_its_filters_read_every_row_group(cases):
     for one, many in cases.values():
         assert _text(read_results(many)) == _text(read_results(one))
