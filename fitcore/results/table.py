@@ -93,12 +93,16 @@ class ResultsTable:
         coef_lists = _cell_lists(power_coef_table(results, part), np.where(ok, tile(sizes), 0))
         fold_lists = _ragged(results.fold_err, results.fold_start[lo:hi + 1], ok)
         chosen = results.chosen[part]
+        per_series = np.repeat(np.arange(m, dtype=np.int32), n_c)
 
-        def repeat_text(words):  # a dictionary of the series' texts, not one Python string per row
+        def repeat_text(words, distinct: bool = False):  # a dictionary of texts, not one Python string per row
+            if distinct:  # a different text each series (or nearly): the series' texts are the dictionary
+                return pa.DictionaryArray.from_arrays(per_series, words.slice(lo, m))
             return repeated_text(words.slice(lo, m), n_c)
 
         which = tile(np.arange(n_c, dtype=np.int32))
-        columns = {name: repeat_text(self.texts[name]) for name in results.data.key_names}  # the keys' texts
+        sole = len(results.data.key_names) == 1  # a sole key column: a different key each series
+        columns = {name: repeat_text(self.texts[name], sole) for name in results.data.key_names}  # the keys' texts
         columns.update(
             n=repeat(results.data.counts), price_lo=repeat(results.price_lo), price_hi=repeat(results.price_hi),
             candidate=pa.DictionaryArray.from_arrays(which, self.names),
@@ -121,7 +125,7 @@ class ResultsTable:
             plan_lo=results.plan_lo[part].ravel(), plan_hi=results.plan_hi[part].ravel(),
             plan_elasticity=results.plan_elasticity[part].ravel(),
             flags=repeated_text(self.flags.of(lo, hi), n_c),
-            fingerprint=repeat_text(self.texts["fingerprint"]),
+            fingerprint=repeat_text(self.texts["fingerprint"], True),  # the same only for the same rows
         )
         if results.controls is not None:
             columns.update(control_fields.parquet_columns(results, lo, hi, repeat_text, self.texts))
@@ -137,8 +141,7 @@ def repeated_text(words, n_c: int):
 
     Not a dictionary entry per series: Parquet's writer keeps a dictionary only if no text is in it twice, and
     otherwise writes every row's text in full (the flags at 100k series: 50 MB of text for 700k rows, then
-    compressed again; the families likewise).  Keys and fingerprints, a different text each series, keep their
-    dictionary of one entry a series, in series order."""
+    compressed again; the families, a key column of several likewise)."""
     import pyarrow as pa
     encoded = words.dictionary_encode()  # a null text: a null row
     index = encoded.indices

@@ -208,6 +208,29 @@ def test_slices_put_together_are_the_whole_table(folds):
         assert _text(together.column(name).to_pylist()) == _text(whole.column(name).to_pylist()), name
 
 
+@pytest.mark.parametrize("run", [1, 20, 10 ** 6])
+def test_flags_made_run_by_run_are_each_series_flags_as_json_dumps_writes_them(monkeypatch, run):
+    """The flags' texts are made a run of series at a time (``FlagTexts``), the sentences quoting an observation
+    (its volume, line and date: rows the table no longer holds) for all series first.  Runs of 1 series, of 20
+    (a run serving several slices of 7, and slices straddling two runs) and of all: each series' text is what
+    the standard library's ``json.dumps`` writes of the diagnosis' own ``flags_of``, series by series."""
+    import fitcore
+    import fitcore.results.table as table_module
+    from fitcore.results.write import header
+    from fitcore.review.flags import CODES, diagnose
+    from tests.conftest import random_dataset
+    monkeypatch.setattr(table_module, "FLAG_RUN", run)
+    data = random_dataset(23, n_series=80, n_range=(2, 30), with_weight=True, with_date=True)
+    results = fitcore.fit_batch(data, fitcore.FitSettings())
+    diagnosis = diagnose(results)
+    counts = dict(zip(CODES, diagnosis.raised.sum(axis=0).tolist()))
+    assert counts["near-tie"] and counts["weak-fit"] and counts["influential-point"] and counts["unsteady-folds"]
+    table = ResultsTable(results, header(results, diagnosis), diagnosis)
+    n_c = results.available.shape[1]
+    flags = [text for part in table.slices(7) for text in part.column("flags").to_pylist()[::n_c]]
+    assert flags == [json.dumps(diagnosis.flags_of(s), ensure_ascii=False) for s in range(results.n_series)]
+
+
 def test_each_row_group_is_handed_to_the_disk_as_written_and_the_handle_closed(tmp_path, monkeypatch):
     """The results' write starts the disk's write of every row group as soon as it is written
     (``write.early_writeback``), so the fsync at the end finds little left: called once a row group (the
