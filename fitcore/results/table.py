@@ -1,7 +1,8 @@
 """The Parquet layout of a results file (one row per series × candidate), built a run of whole series at a time.
 
-``ResultsTable`` makes what is per series and costs Python or the rows (keys, fingerprints, flag texts, the
-controls' texts, last dates, the backtest) once, for every series, when made; ``slices()`` then yields the
+``ResultsTable`` makes what is per series and costs Python or the rows (keys, fingerprints, the flags that quote
+an observation, the controls' texts, last dates, the backtest) once, for every series, when made (the other
+flags, from the fit's numbers alone, run by run as the slices are built: ``FlagTexts``); ``slices()`` then yields the
 table a run of whole series at a time (``SLICE_ROWS`` rows or so), each the rows of ``whole()`` for those
 series, so the writer (``write.py``) writes one slice as a row group while the next is built, and the
 whole table never exists at once.  Every slice has the same schema, the header in its metadata.
@@ -53,7 +54,8 @@ class ResultsTable:
     """The Parquet layout of ``results`` (with the flags of ``diagnosis``, the ``backtest``), built on demand.
 
     Holds ``results`` (and its rows: the reasons count distinct prices, the covariances sum over the
-    rows) but not ``diagnosis`` or ``backtest``: what they give is made here."""
+    rows) but not ``diagnosis`` or ``backtest``: what they give is made here, but for the flags made run by
+    run (``FlagTexts``: the diagnosis' flags and numbers, beside ``results``)."""
 
     def __init__(self, results: Results, header: dict, diagnosis=None, backtest=None) -> None:
         """``header``: the file's header (``write.header``), kept in the schema metadata."""
