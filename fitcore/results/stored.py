@@ -14,6 +14,7 @@ from functools import cached_property
 from pathlib import Path
 
 import numpy as np
+import orjson
 
 from ..arrays import integers, numbers, objects
 from ..data.dataset import Dataset
@@ -459,14 +460,25 @@ def _flag_lists(texts: list, rows: list[int], path: Path) -> list:
     unreadable one a ``DataError`` naming its row (``rows``: the file row first holding each text, -1 for
     none).  Text by text: all of them joined into one JSON list would parse faster (0.03 vs 0.07 s at 100,000
     series) but a damaged text with a bracket or comma too many would pass, its flags given to its neighbour."""
-    loads, out = json.loads, []
+    out = []
     for text, row in zip(texts, rows):
         if not text or row < 0:
             out.append([])
             continue
         try:
-            out.append(loads(text))
+            out.append(_flags_json(text))
         except json.JSONDecodeError:
             raise DataError(f"row {row + 1}, column 'flags': expected JSON text of a list of flags, found "
                             f"{text[:60]!r}", path=str(path)) from None
     return out
+
+
+def _flags_json(text: str):
+    """One flags text parsed: by orjson (3× faster than ``json``: 0.036 → 0.012 s for the 14,735 distinct texts of
+    100,000 series, before the list), and by ``json`` what orjson refuses (NaN, lone surrogates, a number too
+    large for a float), which ``json`` then reads or refuses as before.  The two agree on every text orjson
+    reads but for integers beyond 64 bits (a float from orjson), and only the flags' codes, text, are kept."""
+    try:
+        return orjson.loads(text)
+    except orjson.JSONDecodeError:
+        return json.loads(text)

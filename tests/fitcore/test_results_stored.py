@@ -194,3 +194,33 @@ def test_keys_whose_values_repeat_across_series_open_without_arrow_compute(tmp_p
     imported, products, regions = json.loads(out)
     assert products == results.data.keys["product"].tolist() and regions == results.data.keys["region"].tolist()
     assert len(set(regions)) == 3 and not imported
+
+
+def test_flags_texts_are_parsed_by_orjson_and_by_json_only_where_orjson_refuses(tmp_path, monkeypatch):
+    """The distinct flags texts are parsed before the list; orjson reads them (3× faster), Python's ``json`` —
+    the reference for what a text means — only those orjson refuses (here a NaN among a flag's numbers), and
+    every series' flags are still the diagnosis that wrote the file."""
+    import fitcore.results.stored as stored_module
+    data = random_dataset(49, n_series=30, n_range=(3, 30))
+    results = fitcore.fit_batch(data, plan_price=data.price[data.offsets[:-1]] * 1.05)
+    diagnosis = diagnose(results)
+    write_results(results, tmp_path / "r.parquet", diagnosis)
+    flagged = next(t for t in pq.read_table(tmp_path / "r.parquet").column("flags").to_pylist() if t != "[]")
+    odd = flagged.replace('"code":', '"share": NaN, "code":', 1)
+    assert json.loads(odd) and odd != flagged
+    _rewritten(tmp_path / "r.parquet", tmp_path / "odd.parquet", flags=lambda texts: [odd if t == flagged else t
+                                                                                     for t in texts])
+    texts = set(pq.read_table(tmp_path / "odd.parquet").column("flags").to_pylist())
+    parsed = []
+    real = json.loads
+
+    def loads(text, *args, **kwargs):  # the header's JSON is read through json too: only flags texts counted
+        if isinstance(text, str) and text in texts:
+            parsed.append(text)
+        return real(text, *args, **kwargs)
+    monkeypatch.setattr(stored_module.json, "loads", loads)
+    _, flags = stored_results(tmp_path / "odd.parquet")
+    monkeypatch.undo()
+    assert parsed == [odd]
+    np.testing.assert_array_equal(flags.raised, diagnosis.raised)
+    assert diagnosis.raised.sum() > 5
