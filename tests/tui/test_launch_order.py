@@ -128,3 +128,26 @@ def test_the_list_is_drawn_before_plotext_loads_and_reads_the_same_after(tmp_pat
     assert rows_first == rows_later
     assert sum("poly" in row or "loglog" in row for row in rows_first) >= 20  # rows with models and scores
     assert "%" in "".join(rows_first)
+
+
+async def test_the_collector_paused_for_the_launch_runs_again_once_the_list_is_drawn(tmp_path):
+    """The command line turns Python's garbage collector off until the first list is drawn (at launch it
+    walked the modules' and the session's objects again and again); the app turns it back on then, having
+    frozen what the session holds — a long session must not run without it."""
+    import gc
+
+    from pricefold.cli import collector_paused
+    with collector_paused():
+        assert not gc.isenabled()
+        app = TriageApp(lambda progress: open_stored_session(SAMPLE / "results.parquet", tmp_path / "ledger.jsonl",
+                                                             ANA, None, progress))
+        async with app.run_test(size=(80, 24)) as pilot:
+            await until(pilot, lambda: app.session is not None and "listed (" in screen_text(app))
+            await until(pilot, gc.isenabled)
+            assert gc.get_freeze_count() > 0
+    assert gc.isenabled()
+    gc.disable()
+    with collector_paused():
+        pass
+    assert not gc.isenabled()  # left as it was found
+    gc.enable()
