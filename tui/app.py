@@ -47,7 +47,7 @@ def settle() -> None:
 
 def series_in(data, keys: list[dict]) -> list[int]:
     """Where each key is among the series of ``data`` (a loaded ``Dataset``), -1 where it is not: through a
-    dict of every series' key (100,000 series ≈ 20 ms), not Arrow's join (``SeriesKeys.indices_of``), whose
+    dict of every series' key (100,000 series ≈ 25 ms), not Arrow's join (``SeriesKeys.indices_of``), whose
     module imports pandas (0.3 s) on the way to the first observations."""
     names = data.key_names
     place = {key: at for at, key in enumerate(zip(*(data.keys[name].tolist() for name in names)))}

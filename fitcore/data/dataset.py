@@ -184,8 +184,8 @@ def _grouped(codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 def _strings(column, rows: np.ndarray) -> np.ndarray:
     """(len(rows),) object array of the key column's values at ``rows``, as text."""
-    if isinstance(column, KeyCodes):  # the readers' keys: their texts, each once, taken by code
-        return column.categories.astype(str).astype(object)[column.codes[rows]]
+    if isinstance(column, KeyCodes):  # the readers' keys: their texts (str, each once), taken by code
+        return column.categories[column.codes[rows]]
     import pandas as pd
     if isinstance(column, pd.Categorical):
         return np.asarray(column.categories.astype(str), dtype=object)[column.codes[rows]]
@@ -243,7 +243,7 @@ _KEY = b"0123456789123456"  # pandas' default hash key
 def _few_hashes(columns: list[np.ndarray]) -> np.ndarray:
     """pandas' ``hash_pandas_object(DataFrame(columns), index=False)`` of text columns: each text's SipHash-2-4
     (pandas' key) of its UTF-8, mixed as pandas mixes its 64-bit hashes, the columns combined as pandas
-    combines them (``tests/fitcore/test_key_hashes.py`` compares them with pandas)."""
+    combines them (``tests/fitcore/test_light_read.py`` compares them with pandas)."""
     out = np.full(len(columns[0]), 0x345678, dtype=np.uint64)
     mult = np.uint64(1000003)
     with np.errstate(over="ignore"):
