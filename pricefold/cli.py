@@ -270,6 +270,9 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     app.run()
     if app.failure is not None:
         raise PricefoldError(app.failure)
+    if app.return_code == 130:
+        print("pricefold triage: interrupted before the list was shown; nothing was recorded", file=sys.stderr)
+        return 130
     if ledger_path.exists():  # after a failure before any decision there is no ledger to point to
         print(f"decisions are in {ledger_path}", file=sys.stderr)
     return app.return_code or 0

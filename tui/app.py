@@ -85,7 +85,7 @@ class TriageApp(App):
     # Ctrl+C ends the app, as it ends any command in a terminal (Textual's own binding only says to press
     # ctrl+q, a key the footer never shows), also while the data are read and fitted; a text field that
     # takes Ctrl+C itself (copy) keeps it.
-    BINDINGS = [Binding("ctrl+c", "quit", "quit", show=False)]
+    BINDINGS = [Binding("ctrl+c", "interrupt", "quit", show=False)]
 
     def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession] | Opening,
                  observer=None) -> None:
@@ -97,6 +97,11 @@ class TriageApp(App):
         self.failure: str | None = None  # why the session could not be opened (the command line says it too)
         self._mounted = threading.Event()  # progress reaches the loading screen once there is one
         self.opening.report_to(self._progressed)
+
+    def action_interrupt(self) -> None:
+        """Ctrl+C: while the session still opens (reading, fitting) the command was interrupted, as a fit's
+        Ctrl+C is (exit 130); once the list is up it is a quit like any other (each decision is already written)."""
+        self.exit(return_code=130 if self.session is None and self.failure is None else 0)
 
     def _progressed(self, done: int, total: int) -> None:
         if self._mounted.is_set():
