@@ -13,6 +13,7 @@ import json
 
 import numpy as np
 
+from ..errors import DataError
 from ..fit.results import Results
 from ..review.intervals import BLOCK
 from . import control_fields, cycle
@@ -104,8 +105,8 @@ class ResultsTable:
 
         which = tile(np.arange(n_c, dtype=np.int32))
         sole = len(results.data.key_names) == 1  # a sole key column: a different key each series
-        columns = {name: repeat_text(self.texts[name], sole) for name in results.data.key_names}  # the keys' texts
-        columns.update(
+        keys = {name: repeat_text(self.texts[name], sole) for name in results.data.key_names}  # the keys' texts
+        columns = dict(
             n=repeat(results.data.counts), price_lo=repeat(results.price_lo), price_hi=repeat(results.price_hi),
             candidate=pa.DictionaryArray.from_arrays(which, self.names),
             family=pa.DictionaryArray.from_arrays(tile(self.families.indices), self.families.dictionary),
@@ -132,8 +133,13 @@ class ResultsTable:
         if results.controls is not None:
             columns.update(control_fields.parquet_columns(results, lo, hi, repeat_text, self.texts))
         columns.update(cycle.parquet_columns(results, lo, hi, self.cycle))  # the next cycle's fields
+        clash = [name for name in keys if name in columns]
+        if clash:  # the results' own column would silently replace the key (every series of a product one key)
+            raise DataError(f"{results.data.source.get('path', 'the data')}: column '{clash[0]}' is a key (product "
+                            "or segment) and also a column of pricefold's Parquet results; expected key columns "
+                            f"named otherwise: rename it in the data, or write the results as JSON (-o NAME.json)")
         table = pa.table({name: pa.array(value, from_pandas=True) if not isinstance(value, pa.Array) else value
-                          for name, value in columns.items()})
+                          for name, value in (keys | columns).items()})
         return table.replace_schema_metadata(self.metadata)
 
 

@@ -186,3 +186,26 @@ def test_parquet_flags_are_the_json_results_flags(tmp_path, sample_json):
     flags = pq.read_table(out, columns=["flags"]).column("flags").to_pylist()[::7]
     expected = [json.dumps(series["flags"], ensure_ascii=False) for series in sample_json["series"]]
     assert flags == expected and sum(text != "[]" for text in flags) > 20
+
+
+@pytest.mark.parametrize("name", ["family", "n", "flags"])
+def test_a_key_column_named_like_a_results_column_is_refused_for_parquet(tmp_path, capsys, name):
+    """A segment named 'family' was overwritten by the results' own 'family' column in Parquet (every series of
+    a product then had one key, 'poly'); JSON keeps keys apart and takes it as it is."""
+    import csv
+    rows = list(csv.reader((SAMPLE / "wholesale.csv").open()))
+    rows[0] = [name if column == "region" else column for column in rows[0]]
+    data = tmp_path / "data.csv"
+    with data.open("w", newline="") as out:
+        csv.writer(out).writerows(rows)
+    old = tmp_path / "r.parquet"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "-o", str(old), "--quiet"]) == 0
+    before = old.read_bytes()  # an earlier run's results: a failed run leaves them as they were
+    capsys.readouterr()
+    assert main(["fit", str(data), "--segment", name, "-o", str(old), "--quiet"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and f"column '{name}' is a key (product or segment) and also a column" in err
+    assert old.read_bytes() == before
+    assert main(["fit", str(data), "--segment", name, "-o", str(tmp_path / "r.json"), "--quiet"]) == 0
+    keys = {tuple(s["key"].values()) for s in json.loads((tmp_path / "r.json").read_text())["series"]}
+    assert len(keys) == 180 and {k[1] for k in keys} == {"North", "South", "East"}
