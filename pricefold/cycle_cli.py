@@ -368,6 +368,7 @@ def _carry(args) -> int:
         raise ledger.LedgerError(f"{args.ledger}: no longer holds record {said}…, the head 'fit --ledger' "
                                  f"read (it now ends at {book.head_text[:20]}…: records were removed or the file "
                                  "replaced); nothing was carried")
+    from fitcore.ledger.rules import newer_standing
     outcome: Counter = Counter()
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
@@ -382,9 +383,13 @@ def _carry(args) -> int:
             elif c.candidate != c.chosen and not (_carried_action(history, c.carries) == "override" and c.near_best):
                 outcome["shape changed"] += 1
             else:
-                yield ledger.Entry(series=c.key, action="carry", fingerprint=c.fingerprint, results=digest,
-                                   model=c.candidate, proposed=c.chosen, note=args.note, supersedes=c.latest,
-                                   flags=c.flags, signed=c.snapshot, carries=c.carries)
+                entry = ledger.Entry(series=c.key, action="carry", fingerprint=c.fingerprint, results=digest,
+                                     model=c.candidate, proposed=c.chosen, note=args.note, supersedes=c.latest,
+                                     flags=c.flags, signed=c.snapshot, carries=c.carries)
+                if newer_standing(entry, history) is not None:  # the ledger would refuse the whole batch
+                    outcome["decided on newer data"] += 1
+                else:
+                    yield entry
 
     written = book.append(decide, identity(args.analyst))
     left.update(outcome)

@@ -366,7 +366,8 @@ class TriageSession(ListState):
         signed = self.signed_model(s, model) if action in ("accept", "override") else None
         entry = ledger.Entry(series=shown.key, action=action, fingerprint=shown.fingerprint,
                              results=self.results_digest, model=model, proposed=shown.proposed, note=note,
-                             supersedes=shown.latest, flags=list(shown.flags), signed=signed)
+                             supersedes=shown.latest, flags=list(shown.flags), signed=signed,
+                             last_date=self.last_date(s))
         self._known[shown.sid] = s
         try:
             [written] = self.book.append([entry], self.who)
@@ -378,6 +379,19 @@ class TriageSession(ListState):
             self._mine.append((shown.sid, written["digest"]))
         self._catch_up(pin=None)
         return written
+
+    def last_date(self, s: int) -> str | None:
+        """The last date of series ``s``'s rows ("YYYY-MM-DD"; None without dates): the ledger refuses a decision
+        on data older than the standing decision's (``rules.newer_standing``)."""
+        stored = getattr(self.results, "stored_last_date", None)
+        if stored is not None:
+            day = stored[s]
+        else:
+            data = self.results.data
+            if data.date is None or not self.results.rows_loaded or data.counts[s] == 0:
+                return None
+            day = data.date[data.offsets[s]:data.offsets[s + 1]].max().astype("datetime64[D]")
+        return None if np.isnat(day) else str(day)
 
     def undo_target(self) -> tuple[int, dict] | None:
         """The series and record of this screen's latest decision that is still its series' current one,

@@ -49,6 +49,9 @@ class Entry:
     ``supersedes`` is the digest of the latest record on the series that the caller had seen
     (None: it had seen none); ``flags`` the codes of the series' flags as shown; ``signed`` the
     model as it stood (accept, override, carry); ``carries`` the digest a ``carry`` carries forward.
+    ``last_date`` ("YYYY-MM-DD" or None) is the last date of the series' rows decided on: not recorded (a
+    signed model records its own), only read by the rule that refuses a decision on data older than the
+    standing decision's (``rules.newer_standing``), for a hold, which signs no model.
     """
 
     series: dict
@@ -62,6 +65,7 @@ class Entry:
     flags: tuple[str, ...] | list[str] = field(default_factory=tuple)
     signed: dict | None = None
     carries: str | None = None
+    last_date: str | None = None
 
 
 @dataclass(frozen=True)

@@ -10,7 +10,9 @@ then (so no path — screen, command, script — can skip them).  Pure: historie
 - ``supersedes`` must still be the series' latest record (else ``LedgerConflict``);
 - at most one ``carry`` per series and data fingerprint, and it must name an accept or override
   of that series;
-- one append holds at most one record per series (a second could not name the first's digest).
+- one append holds at most one record per series (a second could not name the first's digest);
+- an accept, override, hold or carry on data older than those the standing decision was made on is
+  refused (``newer_standing``): an analyst on last cycle's results cannot replace this cycle's sign-off.
 """
 from __future__ import annotations
 
@@ -49,6 +51,9 @@ def check_against(entries: list[Entry], histories: dict[str, SeriesHistory], who
         history = histories.get(series_id(entry.series))
         check_latest(entry.series, entry.supersedes, history)
         _check_action(entry, history, who)
+        newer = newer_standing(entry, history)
+        if newer is not None:
+            raise LedgerError(f"{label(entry.series)}: {newer}; open the newer results to decide it")
 
 
 def check_latest(series: dict, supersedes: str | None, history: SeriesHistory | None) -> None:
@@ -83,6 +88,40 @@ def _check_action(entry: Entry, history: SeriesHistory | None, who: Identity) ->
         if not any(r["digest"] == entry.carries and r["action"] in ("accept", "override") for r in records):
             raise LedgerError(f"{label(entry.series)}: a carry must name an accept or override of this series; "
                               f"{entry.carries[:12]}… is not one")
+
+
+DECIDING = ("accept", "override", "hold", "carry")  # what the newer-data rule guards (not a note or revoke)
+
+
+def newer_standing(entry: Entry, history: SeriesHistory | None) -> str | None:
+    """Why the decision standing on the series was made on newer data than ``entry``'s (None: it was not).
+
+    Newer means: its rows end later — the last dates the signed models record (``signed.last_date`` of any
+    record on those data, else ``entry.last_date``) —, or, where the dates cannot tell (no date column, the
+    same last date), its data were first decided on later in the series' history than the entry's.  Data
+    the ledger has never seen are not older than anything.  Only accept, override, hold and carry are
+    judged; a note and a revoke change no decision on other data."""
+    current = history.current if history is not None else None
+    if current is None or entry.action not in DECIDING or current["fingerprint"] == entry.fingerprint:
+        return None
+    dates: dict[str, str] = {}
+    first: dict[str, int] = {}
+    for index, record in enumerate(history.records):
+        first.setdefault(record["fingerprint"], index)
+        signed = record.get("signed")
+        if isinstance(signed, dict) and isinstance(signed.get("last_date"), str):
+            dates.setdefault(record["fingerprint"], signed["last_date"])
+    signed = entry.signed if isinstance(entry.signed, dict) else {}
+    mine = signed.get("last_date") if isinstance(signed.get("last_date"), str) else None
+    mine = mine or entry.last_date or dates.get(entry.fingerprint)
+    theirs = dates.get(current["fingerprint"])
+    done = what_happened(current)
+    if mine and theirs and mine != theirs:
+        return (f"{done} on newer data (rows to {clean(theirs)}; the rows shown end {clean(mine)})"
+                if theirs > mine else None)
+    if entry.fingerprint in first and first[entry.fingerprint] < first[current["fingerprint"]]:
+        return f"{done} on newer data (decided on after the data shown)"
+    return None
 
 
 def what_happened(record: dict) -> str:

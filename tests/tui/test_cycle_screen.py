@@ -104,3 +104,34 @@ def test_stored_results_from_fit_ledger_open_with_their_backtest_and_sign_comple
     written = session.decide(session.look(s2), "accept", note="fine")
     assert written["signed"]["cov_unscaled"] is not None and "incomplete" not in written["signed"]
     assert written["signed"]["last_date"] == "2026-11-30"
+
+
+def test_a_screen_on_last_cycles_results_cannot_replace_a_decision_on_this_cycles(next_cycle, tmp_path):
+    """Two analysts, one ledger: ana triages this cycle's results, bo still has last cycle's open.  A decision
+    bo makes there on a series ana has decided on the newer rows is refused in one line naming the newer
+    data, and the ledger is left as it was — for a series signed last cycle and for one that was pending."""
+    from tests.tui.conftest import ANA
+    from tui.factory import open_stored_session
+    book, source = next_cycle
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    out = tmp_path / "r2.parquet"
+    assert main(["fit", str(source.data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
+                 "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+    ana = open_stored_session(out, copy, ANA)
+    bo = open_stored_session(SAMPLE / "results.parquet", copy, ledger.Identity("bo", "bo", "test-host"))
+    stale = ana._code("stale")
+    signed_before = int(next(t for t in range(ana.results.n_series) if stale[t]))
+    pending = int(next(t for t in range(ana.results.n_series) if ana.status[t] == "pending"))
+    ana.decide(ana.look(signed_before), "hold", note="ana looks at it this cycle")
+    ana.decide(ana.look(pending), "hold" if not ana.results.chosen[pending] >= 0 else "accept",
+               note="ana signs it this cycle")
+    for t, action in ((signed_before, "accept"), (pending, "hold")):
+        s = bo.index_of(ana.look(t))
+        bo.reload_ledger(force=True)  # bo's screen has seen ana's decision (its look every 2 s)
+        before = copy.read_bytes()
+        with pytest.raises(ledger.LedgerError, match="on newer data .*; open the newer results to decide it$") as info:
+            bo.decide(bo.look(s), action, note="bo's note")
+        assert copy.read_bytes() == before and "\n" not in str(info.value)
+    assert "rows to 2026-11-30; the rows shown end 2026-11-23" in str(info.value)  # the pending one: dates alone
+    assert bo.last_date(0) == "2026-11-23" and ana.last_date(0) == "2026-11-30"
