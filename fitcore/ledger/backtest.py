@@ -44,8 +44,10 @@ class Backtest:
     carries), ``latest`` (digest of the series' latest record when tested), ``analyst``,
     ``signed_at`` (its date), ``candidate``, ``last_date`` (of the signed data).  Numbers (NaN or
     -1 where not known): ``new_rows``, ``error_ratio``, ``coverage``, ``outside``, ``signed_volume``,
-    ``signed_lo``, ``signed_hi`` (the signed curve at ``price``), ``volume_change``,
-    ``elasticity_change``; ``shape_changed``, ``shifted`` (bool).  ``source``: the ledger and its head.
+    ``signed_lo``, ``signed_hi`` (the signed curve at ``price``), ``signed_price``, ``signed_plan_volume``,
+    ``signed_plan_lo``, ``signed_plan_hi`` (what was signed: the plan price then and the curve there),
+    ``volume_change``, ``elasticity_change``; ``shape_changed``, ``shifted`` (bool).  ``source``: the
+    ledger and its head.
     """
 
     source: dict
@@ -65,6 +67,10 @@ class Backtest:
     signed_volume: np.ndarray
     signed_lo: np.ndarray
     signed_hi: np.ndarray
+    signed_price: np.ndarray
+    signed_plan_volume: np.ndarray
+    signed_plan_lo: np.ndarray
+    signed_plan_hi: np.ndarray
     proposed_volume: np.ndarray
     volume_change: np.ndarray
     elasticity_change: np.ndarray
@@ -75,7 +81,8 @@ class Backtest:
 
     STORED = ("status", "decision", "latest", "carries", "analyst", "signed_at", "candidate", "last_date",
               "new_rows", "error_ratio", "coverage", "outside", "price", "planned", "signed_volume", "signed_lo",
-              "signed_hi", "proposed_volume", "volume_change", "elasticity_change", "shape_changed", "shifted")
+              "signed_hi", "signed_price", "signed_plan_volume", "signed_plan_lo", "signed_plan_hi", "proposed_volume",
+              "volume_change", "elasticity_change", "shape_changed", "shifted")
 
     def columns(self) -> dict:
         return {name: getattr(self, name) for name in self.STORED}
@@ -159,7 +166,8 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
     out = dict(status=text(), decision=text(), carries=text(), latest=text(), analyst=text(), signed_at=text(),
                candidate=text(), last_date=text(), new_rows=np.full(n_s, -1, np.int64), error_ratio=number(),
                coverage=number(), outside=np.full(n_s, -1, np.int64), price=number(), signed_volume=number(),
-               signed_lo=number(), signed_hi=number(), proposed_volume=number(), volume_change=number(),
+               signed_lo=number(), signed_hi=number(), signed_price=number(), signed_plan_volume=number(),
+               signed_plan_lo=number(), signed_plan_hi=number(), proposed_volume=number(), volume_change=number(),
                elasticity_change=number(), shape_changed=np.zeros(n_s, bool))
     series, mine = on_other_data(standing, SeriesKeys.of(results.data), results.data.fingerprints)
     if len(series):
@@ -185,6 +193,8 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
     if not len(keep):
         return
     series, st = series[keep], st.take(keep)
+    for name in ("price", "volume", "lo", "hi"):
+        out["signed_price" if name == "price" else f"signed_plan_{name}"][series] = getattr(st, f"plan_{name}")
     last = st.last_date
     out["last_date"][series] = np.where(np.isnat(last), None, np.datetime_as_string(last, unit="D").astype(object))
     dates = results.data.date
