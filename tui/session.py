@@ -225,9 +225,19 @@ class TriageSession(ListState):
         """What a signed series whose data changed needs (backtest failed, shifted, no dates, …)."""
         if self.status[s] != "stale":
             return None
-        from fitcore.ledger.backtest import untested_due
-        return ((self.backtest.due(s) if self.backtest is not None else None) or untested_due(self.standing(s))
-                or "a new look (no backtest here)")
+        from fitcore.ledger.backtest import untested_due, within_one_se
+        found = None
+        if self.backtest is not None and self.backtest_of(s) is not None:  # carry's own rule (``left_for_human``)
+            results, record = self.results, self.backtest_of(s)
+            names = results.names
+            c = names.index(record["candidate"]) if record.get("candidate") in names else -1
+            decision = self.decision(s)
+            kept = (decision is not None and decision["action"] == "override" and c >= 0
+                    and within_one_se(np.asarray(results.cv_mse[s], dtype=float), np.asarray(results.cv_se[s], dtype=float),
+                                      np.asarray(results.available[s]), c))
+            stops = [code for code in self.result_flags(s) if SEVERITY[code] == "stop"]
+            found = self.backtest.due(s, stops, bool(results.chosen[s] >= 0), kept)
+        return found or untested_due(self.standing(s)) or "a new look (no backtest here)"
 
     def signed_model(self, s: int, model: str | None) -> dict | None:
         """The ``signed`` snapshot of ``model`` on series ``s`` as the results hold it (incomplete, and

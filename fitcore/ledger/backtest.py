@@ -103,8 +103,8 @@ class Backtest:
             out[name] = value
         return out
 
-    def due(self, s: int) -> str | None:
-        return due(self.record(s))
+    def due(self, s: int, stops=(), has_model: bool = True, kept_override: bool = False) -> str | None:
+        return due(self.record(s), stops, has_model, kept_override)
 
     def counts(self) -> dict[str, int]:
         values, counts = np.unique(np.array([v for v in self.status if v is not None], dtype=object).astype(str),
@@ -112,20 +112,43 @@ class Backtest:
         return dict(zip(values.tolist(), counts.tolist()))
 
 
-def due(record: dict | None) -> str | None:
+# What a series signed on other data needs when its backtest did not pass, in the words carry counts by.
+UNTESTED = {FAILED: "backtest failed", CONTROLS_CHANGED: "controls changed since signing", NO_DATES: "no dates",
+            UNDATED: "no dates", NO_NEW_ROWS: "no new rows", UNSIGNED: "no signed model"}
+
+
+def left_for_human(status: str, shifted: bool, stops, has_model: bool, shape_changed: bool,
+                   kept_override: bool = False) -> str | None:
+    """Why a series whose standing decision was made on other data is not carried to them (None: ``ledger
+    carry`` carries it), the first that holds: its backtest did not pass, ``shifted``, a stop flag (``stops``:
+    its stop flags' codes, or a bool), no curve proposed (``has_model``), or the signed shape is not this
+    cycle's proposal (``shape_changed``) — unless the decision carried is an override whose curve is still
+    available and within one SE of the lowest CV error (``kept_override``).  The one rule: carry counts by it,
+    ``show --ledger`` and the screen say it as what is due (``due``)."""
+    if status != PASSED:
+        return UNTESTED.get(status, status)
+    if shifted:
+        return "shifted"
+    if stops:
+        return "stop flag"
+    if not has_model:
+        return "no candidate"
+    if shape_changed and not kept_override:
+        return "proposal changed"
+    return None
+
+
+def due(record: dict | None, stops=(), has_model: bool = True, kept_override: bool = False) -> str | None:
     """What a signed series whose data changed needs, in a few words, from its stored backtest (None:
-    nothing was tested: no decision, or one on this very data)."""
+    nothing was tested: no decision, or one on this very data): why carry leaves it (``left_for_human``,
+    a stop flag with its codes), else "backtest passed"."""
     if record is None:
         return None
-    status = record["status"]
-    if status == FAILED:
-        return "backtest failed"
-    if record.get("shifted"):
-        return "shifted"
-    if status == PASSED and record.get("shape_changed"):  # passed, but this cycle proposes another shape
-        return "proposal changed"
-    return {PASSED: "backtest passed", NO_DATES: "no dates", UNDATED: "no dates", NO_NEW_ROWS: "no new rows",
-            UNSIGNED: "no signed model", CONTROLS_CHANGED: "controls changed since signing"}.get(status, status)
+    why = left_for_human(record["status"], bool(record.get("shifted")), stops, has_model,
+                         bool(record.get("shape_changed")), kept_override)
+    if why == "stop flag" and not isinstance(stops, bool):
+        why = f"stop flag ({', '.join(stops)})"
+    return why or "backtest passed"
 
 
 HELD_DUE = "a new look (a hold has no curve to backtest)"
@@ -331,8 +354,16 @@ class StoredBacktest:
             out[name] = value
         return out
 
-    def due(self, s: int) -> str | None:
-        return due(self.record(s))
+    def due(self, s: int, stops=(), has_model: bool = True, kept_override: bool = False) -> str | None:
+        return due(self.record(s), stops, has_model, kept_override)
+
+
+def within_one_se(cv_mse: np.ndarray, cv_se: np.ndarray, available: np.ndarray, c: int) -> bool:
+    """Candidate ``c`` of one series (its candidates' CV errors, SEs, availability) is available and within one
+    SE of the lowest CV error: an override that stays so is carried under another proposal."""
+    errors = np.where(available, cv_mse, np.inf)
+    best = int(np.argmin(errors))
+    return bool(available[c] and cv_mse[c] <= errors[best] + (cv_se[best] if np.isfinite(cv_se[best]) else 0.0))
 
 
 def cycle_of(results: Results, diagnosis, histories: dict, source: dict):
