@@ -9,6 +9,7 @@ without a terminal.
 """
 from __future__ import annotations
 
+import math
 import os
 from dataclasses import dataclass
 from pathlib import Path
@@ -293,6 +294,28 @@ class TriageSession(ListState):
             if name in self.results.names:
                 return self.results.names.index(name)
         return int(self.results.chosen[s])
+
+    def listed_model(self, s: int) -> tuple[str, float]:
+        """The list's model and score for series ``s``: the model signed wherever an accept or override stands
+        (carried or not, stale too: what ``ledger export`` and ``show --ledger`` give; ``↺`` marks a stale
+        override, as the status mark does an override on these data), else this cycle's proposal; the score
+        is that shape's Q² on these data."""
+        results = self.results
+        decision = self.decision(s) if self.status[s] in ("accepted", "overridden", "stale") else None
+        if decision is not None and decision["action"] in ("accept", "override") and decision.get("model"):
+            name = str(decision["model"])
+            c = results.names.index(name) if name in results.names else -1
+            score = float(results.q2[s, c]) if c >= 0 and results.available[s, c] else math.nan
+            if c == int(results.chosen[s]):
+                score = float(results.score[s])
+            # ↺: an override, where the status mark does not say it already (a stale series' mark is stale's)
+            stale_override = decision["action"] == "override" and self.status[s] == "stale"
+            return clean(name) + ("↺" if stale_override else ""), score
+        model = self.model_of(s)
+        name = results.names[model] if model >= 0 else "—"
+        # the score of the model that stands: an override's own Q², not the proposal's
+        score = results.q2[s, model] if 0 <= model != results.chosen[s] else results.score[s]
+        return name, float(score)
 
     # -- what the screen shows, and deciding on it -------------------------------------------
     def _cursor_changed(self) -> None:
