@@ -14,7 +14,7 @@ import sys
 from pathlib import Path
 
 from fitcore import ledger
-from fitcore.ledger.replay import series_id
+from fitcore.ledger.replay import apply, own_standing, series_id
 from fitcore.text import clean
 
 from .show import key_text
@@ -81,6 +81,16 @@ def run(args) -> int:
             "accept-unflagged": run_accept_unflagged}[args.ledger_command](args)
 
 
+NOT_A_LEDGER = ("not a ledger: no line of it is a ledger record (a ledger holds one JSON record a line; a results, "
+                "data or plan file given in its place?)")
+
+
+def not_a_ledger(book: ledger.Ledger) -> bool:
+    """Whether not one line of the file reads as a record (a JSON results file is one line, without a line end)."""
+    problems = book.problems or ([book.problem] if book.problem else [])
+    return bool(problems) and problems[0].line == 1 and not any("digest" in record for record in book.records)
+
+
 def open_ledger(path: Path, *, refuse: tuple[str, ...] = (), must_exist: bool = False) -> ledger.Ledger:
     """The ledger, read and verified.  A state in ``refuse`` (``broken``, ``unverifiable``) is an
     error (exit 2, one line); otherwise a warning line on stderr first.  Interrupted tails are said
@@ -89,6 +99,8 @@ def open_ledger(path: Path, *, refuse: tuple[str, ...] = (), must_exist: bool = 
     book = ledger.Ledger(path, ledger_key())
     if must_exist and not book.exists:
         raise ledger.LedgerError(f"{path}: no such ledger (a command that only reads one needs it to exist)")
+    if not_a_ledger(book):
+        raise ledger.LedgerError(f"{path}: {NOT_A_LEDGER}; nothing was done")
     if book.state in refuse:
         why = ("the chain is broken" if book.state == ledger.BROKEN else
                f"it cannot be verified without {KEY_VARIABLE}")
@@ -135,10 +147,8 @@ SHOWN_PROBLEMS = 20
 def verdict(book: ledger.Ledger, witness: tuple[int, str] | None, name: str) -> tuple[int, list[str]]:
     """Exit status and lines of ``ledger verify``, each led by the ledger's ``name`` but the head's."""
     problems = book.problems or ([book.problem] if book.problem else [])
-    if problems and problems[0].line == 1 and not any("digest" in record for record in book.records):
-        # not one line of it reads as a record (a JSON results file is one line, without a line end)
-        return 1, [f"{name}: not a ledger: no line of it is a ledger record (a ledger holds one JSON record a "
-                   "line; a results, data or plan file given in its place?)"]
+    if not_a_ledger(book):
+        return 1, [f"{name}: {NOT_A_LEDGER}"]
     if problems:
         said = [str(problem) for problem in problems[:SHOWN_PROBLEMS]]
         if len(problems) > SHOWN_PROBLEMS:
@@ -166,7 +176,11 @@ def verdict(book: ledger.Ledger, witness: tuple[int, str] | None, name: str) -> 
 def run_show(args) -> int:
     book = open_ledger(args.ledger, must_exist=True)
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
+    histories = {}  # replayed as listed: a revoke names the decision it withdrew
     for r in book.records:
+        withdrawn = (own_standing(histories.get(series_id(r["series"])), r["analyst"], r.get("os_user"))
+                     if r["action"] == "revoke" else None)
+        apply(histories, [r])
         if args.product and next(iter(r["series"].values()), None) not in args.product:
             continue
         model = clean(r.get("model") or "")
@@ -174,6 +188,8 @@ def run_show(args) -> int:
             model = f"{model} instead of {clean(r.get('proposed') or '')}"
         elif r["action"] == "carry":
             model = f"{model} from #{seqs.get(r.get('carries'), '?')}"
+        elif withdrawn is not None:
+            model = f"#{withdrawn['seq']} ({withdrawn['action']} {clean(withdrawn.get('model') or '')})".replace(" )", ")")
         who = clean(r["analyst"])
         if r.get("os_user") and r["os_user"] != r["analyst"]:
             who = f"{who} ({clean(r['os_user'])})"

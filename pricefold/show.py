@@ -7,7 +7,7 @@ from fitcore.data.keys import SEPARATOR
 from fitcore.review import choice
 from fitcore.review.attention import attention_order
 from fitcore.review.control_words import effect_words
-from fitcore.review.sentences import fmt, money
+from fitcore.review.sentences import fmt, money, two_places
 from fitcore.text import clean
 from fitcore.widths import cells, fit_key
 
@@ -118,7 +118,7 @@ def slope(plan: dict) -> str:
     """The elasticity at the plan price, where it means something: not at a volume at or below zero."""
     if plan["volume"] is not None and plan["volume"] <= 0:
         return "no elasticity (the volume is not above zero)"
-    return f"elasticity {number(plan['elasticity'], lambda e: f'{e:.2f}')}"
+    return f"elasticity {number(plan['elasticity'], two_places)}"
 
 
 def detail(record: dict, binary=()) -> str:

@@ -16,6 +16,19 @@ def cut(text: str, width: int) -> str:
     return cut_end(text, width, cell_len)
 
 
+def wrapped(text: str, width: int, lines: int) -> list[str]:
+    """``text`` in at most ``lines`` lines of ``width`` cells, broken between words; the last one cut with '…'
+    where the rest does not fit."""
+    out, rest = [], text
+    while rest and len(out) < lines - 1 and cell_len(rest) > width:
+        head = cut_end(rest, width + 1, cell_len)[:-1]  # what fits, without the ellipsis
+        space = head.rfind(" ")
+        head = head[:space] if space > 0 else head
+        out.append(head)
+        rest = rest[len(head):].lstrip(" ")
+    return out + [cut(rest, width)]
+
+
 def percent(share: float) -> str:
     """A share as a whole percentage, "—" when there is none; one that rounds to zero is "0%" whatever its
     sign (a "-0%" read as a number below zero that is not there)."""

@@ -20,7 +20,7 @@ FILTERS = ("attention", "all", "pending", "held", "decided", "changed", "shifted
 # header counts those two apart; the choice named "pending" lists both, and its title says so)
 FILTER_TITLES = {"attention": "needs attention, undecided", "all": "all series",
                  "pending": "undecided: pending or stale",
-                 "held": "held", "decided": "decided", "changed": "changed since sign-off",
+                 "held": "held", "decided": "decided or held", "changed": "changed since sign-off",
                  "shifted": "shifted since sign-off"}
 SORTS = ("attention", "key", "score", "n")
 SORT_TITLES = {"attention": "attention", "key": "key", "score": "lowest score", "n": "fewest observations"}

@@ -78,7 +78,12 @@ def fill(template: str, **fields):
 def pcts(share: np.ndarray):
     """``pct`` of each share."""
     import pyarrow as pa
-    return pa.array(np.char.mod("%.0f%%", np.asarray(share, dtype=float) * 100), pa.string())
+    share = np.asarray(share, dtype=float)
+    whole = np.char.mod("%.0f", share * 100).astype(object)
+    whole[whole == "-0"] = "0"
+    finite = np.isfinite(share)
+    whole[finite] = _grouped(whole[finite].astype(str))
+    return pa.array(whole + "%", pa.string())
 
 
 def fmts(x: np.ndarray):
@@ -87,14 +92,15 @@ def fmts(x: np.ndarray):
     out = np.full(len(x), "n/a", dtype=object)
     finite = np.isfinite(x)
     size = np.abs(np.where(finite, x, 0.0))
-    whole = finite & ((np.trunc(np.where(finite, x, 0.0)) == x) | (size >= 1000))
+    huge = finite & (size >= S.HUGE)
+    whole = finite & ~huge & ((np.trunc(np.where(finite, x, 0.0)) == x) | (size >= 1000))
     hundreds = finite & ~whole & (size >= 100)
     ones = finite & ~whole & ~hundreds & (size >= 1)
     small = finite & ~whole & ~hundreds & ~ones
     out[whole] = _grouped(np.char.mod("%.0f", x[whole]))
     out[hundreds] = _grouped(np.char.mod("%.1f", x[hundreds]))
     out[ones] = np.char.mod("%.2f", x[ones]).astype(object)
-    out[small] = np.char.mod("%.3g", x[small]).astype(object)
+    out[small | huge] = np.char.mod("%.3g", x[small | huge]).astype(object)
     return out
 
 

@@ -8,10 +8,16 @@ import numpy as np
 from ..fit import reasons as R
 
 
+HUGE = 1e9
+
+
 def fmt(x: float) -> str:
-    """A quantity as an analyst reads it: 3,912 · 41.5 · 4.38 · 0.0372 · 0."""
+    """A quantity as an analyst reads it: 3,912 · 41.5 · 4.38 · 0.0372 · 0 · 6.47e+11 (from HUGE up, three
+    significant digits as below 1: thirty-digit volumes ran into the next column and read as noise)."""
     if x is None or not math.isfinite(x):
         return "n/a"
+    if abs(x) >= HUGE:
+        return f"{x:.3g}"
     if x == int(x) or abs(x) >= 1000:
         return f"{x:,.0f}"
     if abs(x) >= 100:
@@ -28,12 +34,20 @@ def money(x: float) -> str:
     return f"{x:,.2f}" if abs(x) >= 0.1 else f"{x:.3g}"
 
 
+def two_places(x: float) -> str:
+    """An elasticity: two decimals, no "-0.00" for one that rounds to nothing."""
+    text = f"{x:.2f}"
+    return "0.00" if text == "-0.00" else text
+
+
 def signed(x: float) -> str:
     return ("+" if x > 0 else "−" if x < 0 else "") + fmt(abs(x))
 
 
 def pct(share: float) -> str:
-    return f"{share * 100:.0f}%"
+    """A share in whole percent, grouped (1,226%); no "-0%" for a share that rounds to nothing."""
+    text = f"{share * 100:,.0f}%"
+    return "0%" if text == "-0%" else text
 
 
 def sentence(diag, s: int, code: str) -> str:

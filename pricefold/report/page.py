@@ -18,7 +18,7 @@ from typing import Callable
 
 from fitcore.ledger.signoff import LedgerView, Signoff, flag_table
 from fitcore.review.flags import FLAGS
-from fitcore.review.sentences import fmt, money
+from fitcore.review.sentences import fmt, money, two_places
 from fitcore.text import clean
 
 GENERATOR = "pricefold report"
@@ -72,7 +72,7 @@ def elasticity(x, volume=None) -> str:
         return '<span title="no elasticity: the volume is at or below zero">n/a</span>'
     if x is None or not math.isfinite(float(x)):
         return "n/a"
-    return f"{float(x):.2f}".replace("-", "−")
+    return two_places(float(x)).replace("-", "−")
 
 
 def when(stamp, zone: bool = True) -> str:

@@ -345,3 +345,27 @@ def test_a_torn_last_line_is_said_by_verifys_status_and_in_one_line_by_every_com
     code, _, err = cli("ledger", "accept-unflagged", results, "--ledger", ledger_path, "-q", capsys=capsys)
     assert code == 0 and len([e for e in err.splitlines() if said in e]) == 1
     assert ledger_path.read_bytes() == whole[:len(whole) - 40]  # nothing to accept: nothing appended or moved
+
+
+@pytest.mark.parametrize("command", [("show", "{results}", "--ledger", "{ledger}"), ("ledger", "show", "{ledger}")])
+def test_reading_a_results_file_as_the_ledger_is_refused_in_one_line(command, results):
+    """`show --ledger r.json` listed every series as pending beside a line-1 problem, exit 0: a file with not one
+    record is no ledger of decisions, whichever command reads it (as `verify` says)."""
+    before = results.read_bytes()
+    done = run_cli(*(part.format(results=results, ledger=results) for part in command))
+    assert done.returncode == 2 and done.stdout == "" and done.stderr.count("\n") == 1
+    assert f"{results.name}: not a ledger: no line of it is a ledger record" in done.stderr
+    assert results.read_bytes() == before
+
+
+def test_show_says_which_decision_a_revoke_withdrew(tmp_path):
+    """`bo revoke dovra juice` left the reader to find what was withdrawn: the line names the record, its action
+    and model (the replay's rule: one's own latest standing decision on the series)."""
+    from fitcore import ledger as fledger
+    from tests.fitcore.ledger_support import ANA, BO, after, entry
+    path = tmp_path / "l.jsonl"
+    fledger.append(path, [entry("a", model="poly2")], BO)
+    fledger.append(path, [entry("a", "hold", model=None, supersedes=after(fledger.Ledger(path), "a"))], ANA)
+    fledger.append(path, [entry("a", "revoke", model=None, supersedes=after(fledger.Ledger(path), "a"))], BO)
+    shown = run_cli("ledger", "show", str(path)).stdout.splitlines()
+    assert len(shown) == 3 and " revoke   #1 (accept poly2) " in shown[2]

@@ -54,3 +54,14 @@ def test_every_flags_sentences_equal_each_series_own(plan):
         assert got == [S.sentence(diagnosis, s, code) for s in raised.tolist()]
         written += len(raised) if code in ("near-tie", "weak-fit") else 0
     assert written > 50  # the column-wise sentences were exercised
+
+
+def test_huge_numbers_and_shares_read_as_numbers():
+    """A thirty-digit volume ran into the next column and "-0%" read as a sign of something: from 1e9 up a
+    number has three significant digits, as below 1; a share is grouped and never negative zero (common
+    practice in printed tables)."""
+    assert [S.fmt(v) for v in (646_903_142_798.0, -2.5e9, 8.9e47, 999_999_999.0)] == \
+        ["6.47e+11", "-2.5e+09", "8.9e+47", "999,999,999"]
+    assert [S.pct(v) for v in (-0.004, 0.004, 189.0, -12.26)] == ["0%", "0%", "18,900%", "-1,226%"]
+    assert pcts(np.array([-0.004, 189.0])).to_pylist() == ["0%", "18,900%"]
+    assert [S.two_places(v) for v in (-0.001, -1.466, 0.004)] == ["0.00", "-1.47", "0.00"]

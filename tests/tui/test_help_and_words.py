@@ -71,3 +71,36 @@ async def test_the_help_names_every_filter_and_the_prompt_says_what_a_flag_does(
         await pilot.pause()
         text = " ".join(screen_text(app).split())
         assert "a flag keeps the status, and back" not in text and "A status, or a flag within the status" in text
+
+
+def test_wrapped_breaks_between_words_and_cuts_only_the_last_line():
+    from rich.cells import cell_len
+    from tui.cells import wrapped
+    said = "status overridden: Anna Maria (anna) overrode the proposal with poly5 at 08:51:36 UTC"
+    assert wrapped(said, 60, 2) == ["status overridden: Anna Maria (anna) overrode the proposal",
+                                    "with poly5 at 08:51:36 UTC"]
+    assert wrapped(said, 60, 1) == [said[:59] + "…"] and wrapped("short", 60, 2) == ["short"]
+    assert all(cell_len(line) <= 10 for line in wrapped("数据" * 20, 10, 3))
+
+
+async def test_a_long_status_keeps_its_time_on_a_second_line(ledger_path):
+    """At 80×24 "status overridden: ana (root) overrode the proposal with poly5 at …" lost the time: the title's
+    third line, the news's when there is news, takes the rest of the status."""
+    who = ledger.Identity("Anna Maria Longname", "anna", "server-1")
+    app = make_app(ledger_path, who=who)
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        s = session.current
+        shown = session.shown
+        other = next(c for c in range(len(session.results.names)) if c != session.results.chosen[s]
+                     and session.results.available[s, c])
+        app.screen.decide(shown, "override", model=session.results.names[other], note="contract floor")
+        session.set_filter("all", None)
+        session.cursor = int((session.view == s).nonzero()[0][0])
+        session.news = None
+        app.screen.refresh_all()
+        await pilot.press("enter")  # narrow: the evidence instead of the list
+        await pilot.pause(0.3)
+        title = str(app.screen.query_one("#ev-title").render())
+        assert "Anna Maria Longname (anna) overrode the proposal with" in title and " UTC" in title
+        assert title.count("\n") == 2 and "…" not in title

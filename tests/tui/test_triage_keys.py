@@ -68,7 +68,9 @@ async def test_accept_past_a_stop_flag_asks_why_then_records_and_moves_on(ledger
         assert f"{listed - 1} listed" in screen_text(app)
 
 
-async def test_accept_without_flags_asks_nothing_and_a_second_accept_is_refused(ledger_path):
+async def test_accept_without_flags_asks_nothing_and_a_second_accept_is_not_offered(ledger_path):
+    """Once it stands accepted on this data the ledger refuses another accept ("nothing to add"): the key is hidden,
+    as keys that cannot act are, not offered and then refused after a note was asked for."""
     app = make_app(ledger_path)
     async with app.run_test(size=(80, 24)) as pilot:
         session = await started(app, pilot)
@@ -82,9 +84,10 @@ async def test_accept_without_flags_asks_nothing_and_a_second_accept_is_refused(
         session.bring(s)
         app.screen.refresh_all()
         await pilot.pause()
+        assert session.current == s and "a accept" not in screen_text(app) and "o override" in screen_text(app)
         await pilot.press("a")
         await pilot.pause()
-        assert "already accepted" in screen_text(app)
+        assert "Not recorded" not in screen_text(app) and "Why accept" not in screen_text(app)
         assert len(records(ledger_path)) == 1
 
 

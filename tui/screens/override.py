@@ -23,7 +23,7 @@ from textual.widgets.option_list import Option
 from fitcore.fit.results import Results
 from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.flags import Diagnosis
-from fitcore.review.sentences import fmt, money
+from fitcore.review.sentences import fmt, money, two_places
 
 from ..cells import percent
 from ..text import literal
@@ -63,7 +63,7 @@ def candidate_rows(results: Results, s: int, diagnosis: Diagnosis) -> list[Candi
             q2=percent(results.q2[s, c]),
             volume=fmt(results.plan_volume[s, c]) if planned else "—",
             interval=f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}" if planned else "—",
-            elasticity=f"{results.plan_elasticity[s, c]:.2f}" if planned and results.plan_volume[s, c] > 0 else "—",
+            elasticity=two_places(results.plan_elasticity[s, c]) if planned and results.plan_volume[s, c] > 0 else "—",
             flags=candidate_checks(results, s, c, thresholds, outside).codes, proposed=c == results.chosen[s]))
     return rows
 

@@ -20,10 +20,10 @@ from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
-from fitcore.review.sentences import fmt, money
+from fitcore.review.sentences import fmt, money, two_places
 
 from .. import engine
-from ..cells import cut, key_label, percent
+from ..cells import cut, key_label, percent, wrapped
 from ..session import TriageSession, describe
 from ..text import clean
 from .charts import curve_chart, fold_chart
@@ -52,7 +52,7 @@ def predicts(results, s: int, c: int, volume_text=fmt) -> str:
     plan price, as the evidence says it and as an accept past a stop flag shows what is signed."""
     volume = float(results.plan_volume[s, c])
     # an elasticity is a ratio of relative changes: at a volume at or below zero it means nothing
-    slope = f"elasticity {results.plan_elasticity[s, c]:.2f}" if volume > 0 else \
+    slope = f"elasticity {two_places(results.plan_elasticity[s, c])}" if volume > 0 else \
         "no elasticity (the volume is not above zero)"
     return (f"{results.names[c]} predicts volume {volume_text(volume)} ({results.settings.level:.0%} PI "
             f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}), {slope}")
@@ -188,12 +188,17 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
         due = session.due(s)
-        status = Text(cut(f"status {session.status[s]}" + (f" — due: {due}" if due else "")
-                          + (f": {describe(standing)}" if standing else ""), width))
+        said = (f"status {session.status[s]}" + (f" — due: {due}" if due else "")
+                + (f": {describe(standing)}" if standing else ""))
+        news = session.news is not None and s == session.current
         if after:
-            status.append(cut(" · " + about.strip(), max(width - cell_len(status.plain), 0)), style="dim")
+            said += " · " + about.strip()
+        # the third line is the news's, or the status's own where it is longer than the width (a cut hid the time)
+        status = Text("\n".join(wrapped(said, width, 1 if news else 2)))
+        if after:
+            status.highlight_words([about.strip()], style="dim")
         lines = [head, status]
-        if session.news is not None and s == session.current:
+        if news:
             said = "↑ just now: it has left your list; decision keys wait until you move" if session.waiting \
                 else f"↑ just now: {describe(session.news, when=False)}"
             lines.append(Text(cut(said, width), style=NEWS_STYLE))
