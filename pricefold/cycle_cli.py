@@ -153,7 +153,9 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
     if status == "stale" and record.get("backtest"):
         bt = record["backtest"]
         stops = [f["code"] for f in record["flags"] if f["code"] in _stop_codes()]
-        kept = _carried_action(history, bt.get("carries")) == "override" and _near_best(record, bt.get("candidate"))
+        near = bt["signed_near_best"] if "signed_near_best" in bt else (  # results made before it was kept
+            "candidates" in record and _near_best(record, bt.get("candidate")))
+        kept = _carried_action(history, bt.get("carries")) == "override" and bool(near)
         needs = due(bt, stops, record["chosen"] is not None, kept)
     if status == "stale" and needs is None:  # a hold signs no curve; anything else: these results hold none
         needs = untested_due(history.current, short) or (

@@ -233,9 +233,10 @@ class TriageSession(ListState):
             names = results.names
             c = names.index(record["candidate"]) if record.get("candidate") in names else -1
             decision = self.decision(s)
-            kept = (decision is not None and decision["action"] == "override" and c >= 0
-                    and within_one_se(np.asarray(results.cv_mse[s], dtype=float), np.asarray(results.cv_se[s], dtype=float),
-                                      np.asarray(results.available[s]), c))
+            near = record["signed_near_best"] if "signed_near_best" in record else (  # results made before it
+                c >= 0 and within_one_se(np.asarray(results.cv_mse[s], dtype=float),
+                                         np.asarray(results.cv_se[s], dtype=float), np.asarray(results.available[s]), c))
+            kept = decision is not None and decision["action"] == "override" and bool(near)
             stops = [code for code in self.result_flags(s) if SEVERITY[code] == "stop"]
             found = self.backtest.due(s, stops, bool(results.chosen[s] >= 0), kept)
         return found or untested_due(self.standing(s)) or "a new look (no backtest here)"

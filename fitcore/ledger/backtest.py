@@ -46,8 +46,9 @@ class Backtest:
     -1 where not known): ``new_rows``, ``error_ratio``, ``coverage``, ``outside``, ``signed_volume``,
     ``signed_lo``, ``signed_hi`` (the signed curve at ``price``), ``signed_price``, ``signed_plan_volume``,
     ``signed_plan_lo``, ``signed_plan_hi`` (what was signed: the plan price then and the curve there),
-    ``volume_change``, ``elasticity_change``; ``shape_changed``, ``shifted`` (bool).  ``source``: the
-    ledger and its head.
+    ``volume_change``, ``elasticity_change``; ``shape_changed``, ``shifted``, ``signed_near_best`` (bool: the
+    signed candidate is available in this fit and within one SE of its lowest CV error, so an override of it
+    is carried under another proposal).  ``source``: the ledger and its head.
     """
 
     source: dict
@@ -76,13 +77,14 @@ class Backtest:
     elasticity_change: np.ndarray
     shape_changed: np.ndarray
     shifted: np.ndarray
+    signed_near_best: np.ndarray
     planned: np.ndarray
     chosen: np.ndarray
 
     STORED = ("status", "decision", "latest", "carries", "analyst", "signed_at", "candidate", "last_date",
               "new_rows", "error_ratio", "coverage", "outside", "price", "planned", "signed_volume", "signed_lo",
               "signed_hi", "signed_price", "signed_plan_volume", "signed_plan_lo", "signed_plan_hi", "proposed_volume",
-              "volume_change", "elasticity_change", "shape_changed", "shifted")
+              "volume_change", "elasticity_change", "shape_changed", "shifted", "signed_near_best")
 
     def columns(self) -> dict:
         return {name: getattr(self, name) for name in self.STORED}
@@ -191,7 +193,7 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
                coverage=number(), outside=np.full(n_s, -1, np.int64), price=number(), signed_volume=number(),
                signed_lo=number(), signed_hi=number(), signed_price=number(), signed_plan_volume=number(),
                signed_plan_lo=number(), signed_plan_hi=number(), proposed_volume=number(), volume_change=number(),
-               elasticity_change=number(), shape_changed=np.zeros(n_s, bool))
+               elasticity_change=number(), shape_changed=np.zeros(n_s, bool), signed_near_best=np.zeros(n_s, bool))
     series, mine = on_other_data(standing, SeriesKeys.of(results.data), results.data.fingerprints)
     if len(series):
         _fill(out, results, series, mine)
@@ -228,6 +230,7 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
     out["proposed_volume"][series] = proposed
     names = np.array(results.names + [None], dtype=object)
     out["shape_changed"][series] = names[results.chosen[series]] != st.candidate
+    out["signed_near_best"][series] = _near_best(results, series, st.candidate)
     for family_name in np.unique(st.family.astype(str)).tolist():
         for k in np.unique(st.size[st.family == family_name]).tolist():
             members = np.flatnonzero((st.family == family_name) & (st.size == k))
@@ -314,6 +317,18 @@ def _rows_after(offsets, series, dates, last, per_day):
                     rows[n], owner[n] = r, i
                     n += 1
     return rows, owner
+
+
+def _near_best(results: Results, series: np.ndarray, candidate: np.ndarray) -> np.ndarray:
+    """Each series' ``candidate`` (names) is available in ``results`` and its CV error within one SE of the lowest."""
+    c = np.array([results.names.index(n) if n in results.names else -1 for n in candidate.tolist()], dtype=np.int64)
+    cv_mse, cv_se = np.asarray(results.cv_mse, dtype=float)[series], np.asarray(results.cv_se, dtype=float)[series]
+    available = np.asarray(results.available)[series]
+    errors = np.where(available, cv_mse, np.inf)
+    rows, at = np.arange(len(series)), np.maximum(c, 0)
+    best = np.argmin(errors, axis=1) if len(series) else np.zeros(0, np.int64)
+    with np.errstate(invalid="ignore"):
+        return (c >= 0) & available[rows, at] & (cv_mse[rows, at] <= errors[rows, best] + np.nan_to_num(cv_se[rows, best]))
 
 
 def _proposal_at(results: Results, series: np.ndarray, price: np.ndarray):

@@ -43,7 +43,7 @@ def test_a_volume_that_never_varies_raises_weak_fit_with_its_own_sentence(tmp_pa
     assert diagnosis.raised[constant, WEAK].all() and not diagnosis.raised[~constant, WEAK].any()
     huge = names.index("constant huge")
     assert S.sentence(diagnosis, huge, "weak-fit") == (
-        "Q² is undefined: the volume of all 60 observations (900,000,000,000,000) never varies, so no curve can be "
+        f"Q² is undefined: the volume of all 60 observations ({S.fmt(9e14)}) never varies, so no curve can be "
         "told from the average volume and price's effect on volume cannot be estimated from these data.")
     flagged = np.flatnonzero(diagnosis.raised[:, WEAK])
     assert flag_sentences(diagnosis, flagged, "weak-fit").to_pylist() == \

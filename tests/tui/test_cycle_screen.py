@@ -42,6 +42,17 @@ def next_cycle(tmp_path_factory):
     return book, replace(sample_source(), data=folder / "week2.csv")
 
 
+def stored_next_cycle(next_cycle, folder: Path) -> tuple[Path, Path]:
+    """(a copy of the first cycle's ledger, the next week's Parquet results made by ``fit --ledger`` on it)."""
+    book, source = next_cycle
+    copy = folder / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    out = folder / "r2.parquet"
+    assert main(["fit", str(source.data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
+                 "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+    return copy, out
+
+
 async def test_signed_series_with_new_rows_are_stale_with_what_is_due(next_cycle, tmp_path):
     book, source = next_cycle
     copy = tmp_path / "ledger.jsonl"
@@ -85,12 +96,8 @@ def test_stored_results_from_fit_ledger_open_with_their_backtest_and_sign_comple
     and a decision's snapshot complete from the stored interval parts."""
     from tests.tui.conftest import ANA
     from tui.factory import open_stored_session
-    book, source = next_cycle
-    copy = tmp_path / "ledger.jsonl"
-    copy.write_bytes(book.read_bytes())
-    out = tmp_path / "r2.parquet"
-    assert main(["fit", str(source.data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
-                 "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+    book = next_cycle[0]
+    copy, out = stored_next_cycle(next_cycle, tmp_path)
     session = open_stored_session(out, copy, ANA)
     assert not session.results.rows_loaded and session.backtest is not None
     stale = session._code("stale")
@@ -112,12 +119,8 @@ def test_a_screen_on_last_cycles_results_cannot_replace_a_decision_on_this_cycle
     data, and the ledger is left as it was — for a series signed last cycle and for one that was pending."""
     from tests.tui.conftest import ANA
     from tui.factory import open_stored_session
-    book, source = next_cycle
-    copy = tmp_path / "ledger.jsonl"
-    copy.write_bytes(book.read_bytes())
-    out = tmp_path / "r2.parquet"
-    assert main(["fit", str(source.data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
-                 "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+    book = next_cycle[0]
+    copy, out = stored_next_cycle(next_cycle, tmp_path)
     ana = open_stored_session(out, copy, ANA)
     bo = open_stored_session(SAMPLE / "results.parquet", copy, ledger.Identity("bo", "bo", "test-host"))
     stale = ana._code("stale")
