@@ -177,8 +177,8 @@ class TriageScreen(Screen):
         if action in ("accept", "override", "nothing_to_override", "note", "hold") and (s is None or session.waiting):
             return False
         # Python booleans only: Textual hides a key for ``False`` itself, and numpy's False is not that
-        if action == "accept":
-            return bool(results.chosen[s] >= 0)
+        if action == "accept":  # not where it stands accepted on this data: the ledger would refuse it
+            return bool(results.chosen[s] >= 0) and session.status[s] != "accepted"
         if action in ("override", "nothing_to_override"):
             others = bool(results.chosen[s] >= 0 and results.available[s].sum() >= 2)
             return others == (action == "override")
