@@ -227,6 +227,11 @@ class TriageSession(ListState):
         if self.status[s] != "stale":
             return None
         from fitcore.ledger.backtest import untested_due, within_one_se
+        from fitcore.ledger.rules import newer_standing
+        probe = ledger.Entry(series=self.keys.key_of(s), action="hold", fingerprint=self.results.data.fingerprint_of(s),
+                             results=self.results_digest, last_date=self.last_date(s))
+        if newer_standing(probe, self.histories.get(self._id(s))) is not None:  # the ledger refuses decisions here
+            return "decided on newer data: open the newer results"
         found = None
         if self.backtest is not None and self.backtest_of(s) is not None:  # carry's own rule (``left_for_human``)
             results, record = self.results, self.backtest_of(s)

@@ -132,6 +132,7 @@ def test_a_screen_on_last_cycles_results_cannot_replace_a_decision_on_this_cycle
     for t, action in ((signed_before, "accept"), (pending, "hold")):
         s = bo.index_of(ana.look(t))
         bo.reload_ledger(force=True)  # bo's screen has seen ana's decision (its look every 2 s)
+        assert bo.due(s) == "decided on newer data: open the newer results"  # said before a key is pressed
         before = copy.read_bytes()
         with pytest.raises(ledger.LedgerError, match="on newer data .*; open the newer results to decide it$") as info:
             bo.decide(bo.look(s), action, note="bo's note")
