@@ -10,10 +10,11 @@ from datetime import datetime, timezone
 
 import numpy as np
 import pyarrow as pa
-import pyarrow.compute as pc
 
+from ..arrays import numbers, objects, texts
 from ..errors import DataError, first_line
 from .columns import Columns
+from .key_codes import KeyCodes
 from .validation import FIRST_DAY, LAST_DAY, RawRows
 
 # datetime64[ns] holds 1677-09-21 00:12:43 … 2262-04-11 23:47:16: the whole days inside, in microseconds.
@@ -74,8 +75,11 @@ def _number_cells(column) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     if not pa.types.is_floating(column.type) and not pa.types.is_integer(column.type):
         return coerce_numbers(column.to_pandas())
     values = float_values(column)  # nulls become NaN
-    missing = (pc.is_null(column).to_numpy(zero_copy_only=False) if column.null_count
-               else np.zeros(len(values), bool))
+    if column.null_count:
+        import pyarrow.compute as pc
+        missing = pc.is_null(column).to_numpy(zero_copy_only=False)
+    else:
+        missing = np.zeros(len(values), bool)
     return values, np.zeros(len(values), bool), np.asarray(missing, dtype=bool)
 
 
@@ -84,6 +88,7 @@ def csv_text_numbers(column) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     number: each block parsed as pyarrow's CSV reader parses numbers (ASCII blanks trimmed, empty as
     missing), and a block holding a cell that does not parse read as the line-by-line reader reads it
     (``coerce_numbers``) — so one bad cell costs one block's Python, not the whole file's."""
+    import pyarrow.compute as pc
     values = np.empty(len(column), np.float64)
     not_a_number, missing = np.zeros(len(column), bool), np.zeros(len(column), bool)
     at = 0
@@ -106,32 +111,43 @@ def float_values(column) -> np.ndarray:
     chunks are copied once into one array (no Arrow concatenation first)."""
     chunks = column.chunks if isinstance(column, pa.ChunkedArray) else [column]
     if len(chunks) == 1:
-        return chunks[0].to_numpy(zero_copy_only=False).astype(np.float64, copy=False)
+        return _as_numpy(chunks[0]).astype(np.float64, copy=False)
     out = np.empty(len(column), np.float64)
     at = 0
     for chunk in chunks:
-        out[at:at + len(chunk)] = chunk.to_numpy(zero_copy_only=False)
+        out[at:at + len(chunk)] = _as_numpy(chunk)
         at += len(chunk)
     return out
 
 
-def categorical(column) -> pd.Categorical:
-    """Key text as a Categorical: integer codes for grouping instead of millions of Python strings.
+def _as_numpy(array) -> np.ndarray:
+    """An Arrow number array as numpy, NaN where null: integers and floats from their buffers (``to_numpy``
+    imports pandas, 0.4 s, which triage's read of the observations behind its list would wait for)."""
+    kind = array.type
+    if pa.types.is_integer(kind) or pa.types.is_float32(kind) or pa.types.is_float64(kind):
+        return numbers(array)
+    return array.to_numpy(zero_copy_only=False)
+
+
+def categorical(column) -> KeyCodes:
+    """Key text as codes: integer codes for grouping instead of millions of Python strings.
 
     A column the reader already dictionary-encoded (pyarrow's CSV reader, Parquet's ``read_dictionary``:
     multi-threaded, in C++) is never decoded: its blocks' small dictionaries are encoded together once,
     and each block's codes mapped through them.  Any other column is encoded here."""
-    import pandas as pd  # imported here, not with the module: a fit reads its file while pandas loads
     if isinstance(column, pa.Array):
         column = pa.chunked_array([column])
     found = _dictionary_codes(column) if _is_text_dictionary(column.type) else None
     if found is None:  # plain values, or a dictionary holding a null (a Parquet file may)
+        import pyarrow.compute as pc
         if not pa.types.is_string(column.type) and not pa.types.is_large_string(column.type):
             column = pc.cast(column, pa.string())
         encoded = column.combine_chunks().dictionary_encode()
         found = encoded.dictionary, _into_codes(np.empty(len(encoded), np.int32), encoded.indices, None)
     distinct, codes = found
-    return pd.Categorical.from_codes(codes, categories=pd.Index(distinct.to_pylist(), dtype=object))
+    categories = np.empty(len(distinct), dtype=object)  # (a list of texts: not made into a 2-D array)
+    categories[:] = distinct if isinstance(distinct, list) else objects(distinct)
+    return KeyCodes(codes, categories)
 
 
 def _is_text_dictionary(kind: pa.DataType) -> bool:
@@ -140,25 +156,34 @@ def _is_text_dictionary(kind: pa.DataType) -> bool:
 
 
 def _dictionary_codes(column: pa.ChunkedArray):
-    """(distinct texts, (N,) int32 codes) of a dictionary-encoded text column, or None when a dictionary
-    holds a null.  Dictionaries may repeat values, within and across blocks."""
+    """(distinct texts as a list, (N,) int32 codes) of a dictionary-encoded text column, or None when a dictionary
+    holds a null.  Dictionaries may repeat values, within and across blocks: the distinct texts are numbered
+    by first appearance over the blocks' dictionaries one after the other (as Arrow's ``dictionary_encode``
+    of them numbers them), through a Python dict of their few texts (``pyarrow.compute`` costs 0.13 s to
+    import; the dict ≈ 20 ms for 7 blocks of 14,000 texts)."""
     dictionaries = [chunk.dictionary for chunk in column.chunks]
     if any(dictionary.null_count for dictionary in dictionaries):
         return None
-    encoded = pc.dictionary_encode(pa.concat_arrays(dictionaries) if dictionaries else pa.array([], pa.string()))
-    mappings = np.split(encoded.indices.to_numpy(zero_copy_only=False), np.cumsum([len(d) for d in dictionaries]))
+    index: dict = {}
+    mappings = [np.fromiter((index.setdefault(text, len(index)) for text in objects(dictionary).tolist()),
+                            dtype=np.int64, count=len(dictionary)) for dictionary in dictionaries]
     codes = np.empty(len(column), np.int32)
     at = 0
     for chunk, mapping in zip(column.chunks, mappings):
         _into_codes(codes[at:at + len(chunk)], chunk.indices, mapping)
         at += len(chunk)
-    return encoded.dictionary, codes
+    return list(index), codes
 
 
 def _into_codes(out: np.ndarray, indices: pa.Array, mapping: np.ndarray | None) -> np.ndarray:
     """``out`` filled with ``mapping[indices]`` (``indices`` themselves when ``mapping`` is None), -1 where null."""
-    valid = pc.is_valid(indices).to_numpy(zero_copy_only=False) if indices.null_count else None
-    raw = pc.fill_null(indices, 0).to_numpy(zero_copy_only=False) if valid is not None else indices.to_numpy()
+    valid = raw = None
+    if indices.null_count:
+        import pyarrow.compute as pc
+        valid = pc.is_valid(indices).to_numpy(zero_copy_only=False)
+        raw = pc.fill_null(indices, 0).to_numpy(zero_copy_only=False)
+    else:
+        raw = _as_numpy(indices)
     if mapping is None:
         out[:] = raw
     elif len(mapping):
@@ -187,6 +212,7 @@ def dates(column) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
     Dictionary-encoded text (as the readers give it) is parsed once per distinct text, then spread over
     the rows by their codes (7M rows of weekly dates: 0.87 s of parsing → a few milliseconds)."""
+    import pyarrow.compute as pc
     if isinstance(column, pa.Array):
         column = pa.chunked_array([column])
     if _is_text_dictionary(column.type):
@@ -195,7 +221,7 @@ def dates(column) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
             distinct, codes = found
             # one more entry, NaT / False / False, for the code -1 of a missing cell: index -1 is the last
             return tuple(np.append(part, sentinel)[codes] for part, sentinel in
-                         zip(dates(distinct), (np.datetime64("NaT", "ns"), False, False)))
+                         zip(dates(texts(distinct)), (np.datetime64("NaT", "ns"), False, False)))
         column = pc.cast(column, pa.string())  # a dictionary holding a null: decoded
     column = column.combine_chunks()
     unreadable = np.zeros(len(column), bool)
@@ -220,6 +246,7 @@ def dates(column) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 def _parse_each(text: pa.Array) -> tuple[pa.Array, np.ndarray]:
     """Microseconds since 1970 of each distinct text (``datetime.fromisoformat``), and which did not parse."""
+    import pyarrow.compute as pc
     encoded = text.dictionary_encode()
     micros = [_micros(value) for value in encoded.dictionary.to_pylist()]
     bad_text = np.array([value is None for value in micros] + [False], dtype=bool)

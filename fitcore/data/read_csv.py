@@ -22,6 +22,7 @@ from ..errors import DataError
 from .cells import (coerce_numbers, columns_of, csv_text_numbers, dates, give_back_arrow_memory, number_names,
                     raw_from_columns)
 from .columns import Columns
+from .key_codes import KeyCodes
 from .textfile import (BLOCK, arrow_stream, check_quotes, compressed_trouble, file_bytes, holds, line_bounds, open_text,
                        rows_are_lines)
 
@@ -198,6 +199,8 @@ def _without_lines(data, starts: np.ndarray, lines: np.ndarray):
 
 def _spread(part, read: np.ndarray, empty=None):
     """``part`` (one value per row read) over every row, ``empty`` on the others (a key: missing)."""
+    if isinstance(part, KeyCodes):
+        return KeyCodes(_spread(part.codes, read, -1), part.categories)
     if hasattr(part, "categories"):
         import pandas as pd
         return pd.Categorical.from_codes(_spread(part.codes, read, -1), categories=part.categories)

@@ -14,6 +14,7 @@ from functools import cached_property
 from pathlib import Path
 
 import numpy as np
+import orjson
 
 from ..arrays import integers, numbers, objects
 from ..data.dataset import Dataset
@@ -390,11 +391,33 @@ def _per_series_text(column, n_c: int):
                 (numbers(chunk.indices)[rows] == np.arange(len(rows))).all():
             pieces.append(chunk.dictionary)
             continue
+        if pa.types.is_dictionary(chunk.type) and pa.types.is_string(chunk.dictionary.type) and not chunk.null_count:
+            pieces.append(_take_text(chunk.dictionary, numbers(chunk.indices)[rows].astype(np.int64)))
+            continue
         piece = chunk.take(integers(rows))
         pieces.append(piece.dictionary_decode() if pa.types.is_dictionary(piece.type) else piece)
     if not pieces:
         return pa.array([], pa.string())
     return pa.concat_arrays(pieces) if len(pieces) > 1 else pieces[0]
+
+
+def _take_text(words, at: np.ndarray):
+    """``words.take(at)`` for Arrow text without nulls, from its buffers (``take`` imports ``pyarrow.compute``:
+    0.1 s before the list, for keys whose dictionary is not one entry a series, such as a segment's)."""
+    import pyarrow as pa
+    n, start = len(words), words.offset
+    _, offsets, data = words.buffers()[:3]
+    ends = np.frombuffer(offsets, np.int32, count=n + 1, offset=start * 4).astype(np.int64)
+    lengths = np.diff(ends)[at]
+    out = np.zeros(len(at) + 1, dtype=np.int64)
+    np.cumsum(lengths, out=out[1:])
+    if out[-1] > np.iinfo(np.int32).max:
+        return words.take(integers(at))
+    body = np.frombuffer(data, np.uint8) if data is not None and out[-1] else np.zeros(0, np.uint8)
+    # each output byte's place in ``body``: its value's start there, plus its place within the value
+    where = np.repeat(ends[:-1][at] - out[:-1], lengths) + np.arange(out[-1], dtype=np.int64)
+    return pa.Array.from_buffers(pa.string(), len(at), [None, pa.py_buffer(out.astype(np.int32)),
+                                                        pa.py_buffer(body[where])])
 
 
 def _raised(table, n_s: int, n_c: int, path: Path) -> tuple[np.ndarray, np.ndarray]:
@@ -437,14 +460,25 @@ def _flag_lists(texts: list, rows: list[int], path: Path) -> list:
     unreadable one a ``DataError`` naming its row (``rows``: the file row first holding each text, -1 for
     none).  Text by text: all of them joined into one JSON list would parse faster (0.03 vs 0.07 s at 100,000
     series) but a damaged text with a bracket or comma too many would pass, its flags given to its neighbour."""
-    loads, out = json.loads, []
+    out = []
     for text, row in zip(texts, rows):
         if not text or row < 0:
             out.append([])
             continue
         try:
-            out.append(loads(text))
+            out.append(_flags_json(text))
         except json.JSONDecodeError:
             raise DataError(f"row {row + 1}, column 'flags': expected JSON text of a list of flags, found "
                             f"{text[:60]!r}", path=str(path)) from None
     return out
+
+
+def _flags_json(text: str):
+    """One flags text parsed: by orjson (3× faster than ``json``: 0.036 → 0.012 s for the 14,735 distinct texts of
+    100,000 series, before the list), and by ``json`` what orjson refuses (NaN, lone surrogates, a number too
+    large for a float), which ``json`` then reads or refuses as before.  The two agree on every text orjson
+    reads but for integers beyond 64 bits (a float from orjson), and only the flags' codes, text, are kept."""
+    try:
+        return orjson.loads(text)
+    except orjson.JSONDecodeError:
+        return json.loads(text)

@@ -1,7 +1,8 @@
 """The Parquet layout of a results file (one row per series × candidate), built a run of whole series at a time.
 
-``ResultsTable`` makes what is per series and costs Python or the rows (keys, fingerprints, flag texts, the
-controls' texts, last dates, the backtest) once, for every series, when made; ``slices()`` then yields the
+``ResultsTable`` makes what is per series and costs Python or the rows (keys, fingerprints, the flags that quote
+an observation, the controls' texts, last dates, the backtest) once, for every series, when made (the other
+flags, from the fit's numbers alone, run by run as the slices are built: ``FlagTexts``); ``slices()`` then yields the
 table a run of whole series at a time (``SLICE_ROWS`` rows or so), each the rows of ``whole()`` for those
 series, so the writer (``write.py``) writes one slice as a row group while the next is built, and the
 whole table never exists at once.  Every slice has the same schema, the header in its metadata.
@@ -53,7 +54,8 @@ class ResultsTable:
     """The Parquet layout of ``results`` (with the flags of ``diagnosis``, the ``backtest``), built on demand.
 
     Holds ``results`` (and its rows: the reasons count distinct prices, the covariances sum over the
-    rows) but not ``diagnosis`` or ``backtest``: what they give is made here."""
+    rows) but not ``diagnosis`` or ``backtest``: what they give is made here, but for the flags made run by
+    run (``FlagTexts``: the diagnosis' flags and numbers, beside ``results``)."""
 
     def __init__(self, results: Results, header: dict, diagnosis=None, backtest=None) -> None:
         """``header``: the file's header (``write.header``), kept in the schema metadata."""
@@ -61,7 +63,6 @@ class ResultsTable:
         data = results.data
         self.metadata = header_metadata(header | {"key_columns": list(data.key_names)})
         texts = {name: _text(data.keys[name]) for name in data.key_names}
-        texts["flags"] = flag_texts(results, diagnosis)
         prints = data.fingerprint_texts if hasattr(data, "fingerprint_texts") else data.fingerprints  # read back: Arrow
         texts["fingerprint"] = _text(prints)
         if results.controls is not None:
@@ -69,8 +70,9 @@ class ResultsTable:
         self.texts = texts  # name → (S,) Arrow text, each series' value
         self.cycle = cycle.series_values(results, backtest)
         self.names = pa.array(results.names)
-        self.families = pa.array([c.family for c in results.candidates])
+        self.families = pa.array([c.family for c in results.candidates]).dictionary_encode()  # each family once
         self.results = _with_rows_needed(results)
+        self.flags = FlagTexts(diagnosis, self.results)
 
     def whole(self):
         """The whole table at once."""
@@ -95,15 +97,18 @@ class ResultsTable:
         chosen = results.chosen[part]
         per_series = np.repeat(np.arange(m, dtype=np.int32), n_c)
 
-        def repeat_text(words):  # one dictionary entry per series, not one Python string per row
-            return pa.DictionaryArray.from_arrays(per_series, words.slice(lo, m))
+        def repeat_text(words, distinct: bool = False):  # a dictionary of texts, not one Python string per row
+            if distinct:  # a different text each series (or nearly): the series' texts are the dictionary
+                return pa.DictionaryArray.from_arrays(per_series, words.slice(lo, m))
+            return repeated_text(words.slice(lo, m), n_c)
 
         which = tile(np.arange(n_c, dtype=np.int32))
-        columns = {name: repeat_text(self.texts[name]) for name in results.data.key_names}  # the keys' texts
+        sole = len(results.data.key_names) == 1  # a sole key column: a different key each series
+        columns = {name: repeat_text(self.texts[name], sole) for name in results.data.key_names}  # the keys' texts
         columns.update(
             n=repeat(results.data.counts), price_lo=repeat(results.price_lo), price_hi=repeat(results.price_hi),
             candidate=pa.DictionaryArray.from_arrays(which, self.names),
-            family=pa.DictionaryArray.from_arrays(which, self.families),
+            family=pa.DictionaryArray.from_arrays(tile(self.families.indices), self.families.dictionary),
             degree=pa.array(tile([c.degree if c.degree is not None else -1 for c in results.candidates]),
                             mask=tile([c.degree is None for c in results.candidates])),
             available=ok,
@@ -121,8 +126,8 @@ class ResultsTable:
             plan_price=repeat(results.plan_price), plan_volume=results.plan_volume[part].ravel(),
             plan_lo=results.plan_lo[part].ravel(), plan_hi=results.plan_hi[part].ravel(),
             plan_elasticity=results.plan_elasticity[part].ravel(),
-            flags=repeat_text(self.texts["flags"]),
-            fingerprint=repeat_text(self.texts["fingerprint"]),
+            flags=repeated_text(self.flags.of(lo, hi), n_c),
+            fingerprint=repeat_text(self.texts["fingerprint"], True),  # the same only for the same rows
         )
         if results.controls is not None:
             columns.update(control_fields.parquet_columns(results, lo, hi, repeat_text, self.texts))
@@ -132,33 +137,104 @@ class ResultsTable:
         return table.replace_schema_metadata(self.metadata)
 
 
-def flag_texts(results: Results, diagnosis):
-    """(S,) Arrow text: each series' flags as the JSON ``json.dumps(flags_of(s), ensure_ascii=False)``
-    writes ("[]" for none), assembled flag by flag over the series raising it, then joined column-wise in
-    Arrow (no list, dict or JSON encoding a series)."""
-    import pyarrow as pa
-    import pyarrow.compute as pc
+def repeated_text(words, n_c: int):
+    """Arrow text ``words`` (one a series) each on its series' ``n_c`` rows, dictionary-encoded with every
+    different text once in the dictionary (in order of first appearance: as pyarrow reads such a column back).
 
-    from ..review.flags import CODES, SEVERITY
-    from ..review.sentence_columns import flag_sentences
-    n_s = results.n_series
-    if diagnosis is None or not diagnosis.raised.any():
-        return pa.array(np.full(n_s, "[]", dtype=object), pa.string())
-    columns = []
-    for i, code in enumerate(CODES):
-        raised = np.flatnonzero(diagnosis.raised[:, i])
-        if not len(raised):
-            continue
-        head = f', {{"code": {json.dumps(code)}, "severity": {json.dumps(SEVERITY[code])}, "message": '
-        messages = _json_strings(flag_sentences(diagnosis, raised, code))
-        texts = pa.concat_arrays([pc.binary_join_element_wise(head, messages, "}", ""), pa.array([""])])
-        at = np.full(n_s, len(raised), dtype=np.int64)  # the empty text at the end, where it is not raised
+    Not a dictionary entry per series: Parquet's writer keeps a dictionary only if no text is in it twice, and
+    otherwise writes every row's text in full (the flags at 100k series: 50 MB of text for 700k rows, then
+    compressed again; the families, a key column of several likewise)."""
+    import pyarrow as pa
+    encoded = words.dictionary_encode()  # a null text: a null row
+    index = encoded.indices
+    mask = np.repeat(index.is_null().to_numpy(zero_copy_only=False), n_c) if index.null_count else None
+    return pa.DictionaryArray.from_arrays(pa.array(np.repeat(index.fill_null(0).to_numpy(), n_c), mask=mask),
+                                          encoded.dictionary)
+
+
+# Series whose flags are made at once (``FlagTexts.of``): at 7M rows in runs of one slice (4,096 series) the
+# column-wise sentences cost 0.30 s, in runs of 16,384 0.23 s, all at once 0.21 s.
+FLAG_RUN = 4 * BLOCK
+
+
+class FlagTexts:
+    """Each series' flags as the JSON ``json.dumps(flags_of(s), ensure_ascii=False)`` writes ("[]" for none),
+    for a run of series at a time (``of``): assembled flag by flag over the series raising it, then joined
+    column-wise in Arrow (no list, dict or JSON encoding a series).
+
+    The sentences written column-wise from the fit's numbers (near ties, weak fits: 95% of flags at 100k
+    series) are made run by run, as the slices are built: the write of one slice overlaps the next one's
+    sentences, where made for all series first they held the write back (7M rows: 0.15–0.2 s).  The rare
+    others, some of which quote an observation's row (its volume, line, date: rows ``ResultsTable`` does not
+    keep), are made for every series when this is made.  ``results``: the fit the run-by-run sentences read
+    (``_with_rows_needed``'s, in place of the diagnosis' own)."""
+
+    def __init__(self, diagnosis, results: Results) -> None:
+        from dataclasses import replace
+
+        from ..review.flags import CODES, SEVERITY
+        from ..review.sentence_columns import _MANY as COLUMN_WISE  # the sentences made column-wise
+        self.n_series = results.n_series
+        self._run = (0, None)  # the series made last: (the first, their texts)
+        self.raised = None if diagnosis is None or not diagnosis.raised.any() else diagnosis.raised
+        if self.raised is None:
+            return
+        self.diagnosis = replace(diagnosis, results=results)
+        self.heads = [f', {{"code": {json.dumps(code)}, "severity": {json.dumps(SEVERITY[code])}, "message": '
+                      for code in CODES]
+        self.codes = CODES
+        self.made = {}  # code → (its texts for every series raising it, then ""; each series' place in them)
+        for i, code in enumerate(CODES):
+            raised = np.flatnonzero(self.raised[:, i])
+            if len(raised) and code not in COLUMN_WISE:
+                self.made[code] = self._pieces(i, self._sentences(diagnosis, raised, code), raised, self.n_series)
+
+    @staticmethod
+    def _sentences(diagnosis, series: np.ndarray, code: str):
+        from ..review.sentence_columns import flag_sentences
+        return _json_strings(flag_sentences(diagnosis, series, code))
+
+    def _pieces(self, i: int, messages, raised: np.ndarray, n: int):
+        """(texts, at): flag ``i``'s JSON for each of the ``raised`` of ``n`` series, then ""; each series'
+        place among them (the "" where it is not raised)."""
+        import pyarrow as pa
+        import pyarrow.compute as pc
+        texts = pa.concat_arrays([pc.binary_join_element_wise(self.heads[i], messages, "}", ""), pa.array([""])])
+        at = np.full(n, len(raised), dtype=np.int64)
         at[raised] = np.arange(len(raised))
-        columns.append(texts.take(pa.array(at)))
-    # Each flag's text leads with ", ": joined without a separator (null_handling="skip" loses rows in
-    # pyarrow 26), then the first ", " dropped.
-    joined = pc.utf8_slice_codeunits(pc.binary_join_element_wise(*columns, ""), 2)
-    return pc.binary_join_element_wise("[", joined, "]", "")
+        return texts, at
+
+    def of(self, lo: int, hi: int):
+        """(hi - lo,) Arrow text: the flags of series ``lo``…``hi - 1``, made ``FLAG_RUN`` series at a time or
+        more (asked for slice after slice, a run serves the next slices too)."""
+        start, texts = self._run
+        if texts is None or not start <= lo <= hi <= start + len(texts):
+            start, texts = self._run = lo, self._of(lo, min(max(hi, lo + FLAG_RUN), self.n_series))
+        return texts.slice(lo - start, hi - lo)
+
+    def _of(self, lo: int, hi: int):
+        import pyarrow as pa
+        import pyarrow.compute as pc
+        m = hi - lo
+        if self.raised is None:
+            return pa.array(np.full(m, "[]", dtype=object), pa.string())
+        columns = []
+        for i, code in enumerate(self.codes):
+            raised = np.flatnonzero(self.raised[lo:hi, i])
+            if not len(raised):
+                continue
+            if code in self.made:
+                texts, at = self.made[code]
+                at = at[lo:hi]
+            else:
+                texts, at = self._pieces(i, self._sentences(self.diagnosis, lo + raised, code), raised, m)
+            columns.append(texts.take(pa.array(at)))
+        if not columns:
+            return pa.array(np.full(m, "[]", dtype=object), pa.string())
+        # Each flag's text leads with ", ": joined without a separator (null_handling="skip" loses rows in
+        # pyarrow 26), then the first ", " dropped.
+        joined = pc.utf8_slice_codeunits(pc.binary_join_element_wise(*columns, ""), 2)
+        return pc.binary_join_element_wise("[", joined, "]", "")
 
 
 def _json_strings(texts):

@@ -119,9 +119,10 @@ def prepared_results(results: Results, path: Path, diagnosis=None, backtest=None
     """``write_results``' file prepared now, to be written later: ``(write, by_name)`` for ``outputs.stage``.
 
     JSON: the document built now; holds no reference to ``results``.  Parquet: what is per series (keys,
-    fingerprints, flag texts, the backtest) made now, so ``diagnosis`` and ``backtest`` are not kept; the
-    table is built slice by slice while the file is written (``write_parquet_slices``): it holds ``results``
-    and the rows the table still needs (prices, weights: ``ResultsTable``)."""
+    fingerprints, the flags that quote an observation, the backtest) made now, so ``backtest`` and the
+    diagnosis' rows are not kept; the table is built slice by slice while the file is written
+    (``write_parquet_slices``), the other flags' texts with it: it holds ``results``, the rows the table still
+    needs (prices, weights) and the diagnosis' flags and numbers (``ResultsTable``)."""
     if path.suffix.lower() == ".json":
         document = header(results, diagnosis, backtest) | {"series": series_records(results, diagnosis, backtest)}
         payload = json.dumps(document, ensure_ascii=False, allow_nan=False, indent=None,
@@ -138,6 +139,13 @@ def results_table(results: Results, diagnosis=None, backtest=None):
     return ResultsTable(results, header(results, diagnosis, backtest), diagnosis, backtest).whole()
 
 
+# Values the Parquet writer takes at a time (pyarrow's default 1,024): between two batches it checks whether
+# the page is full, so a page can pass the 1 MiB page size by one batch (≤ 512 KiB of doubles).  The 7M rows'
+# 25 slices encoded alone: 0.70–0.71 → 0.62–0.66 s CPU (fewer calls a page); the values, and what every
+# reader reads, the same.
+WRITE_BATCH = 1 << 16
+
+
 def _parquet_options(schema) -> dict:
     """How results are written.  Dictionary pages only for text: on numbers they cost half the write time
     and save nothing.  No column statistics: no reader here uses them (every reader reads whole files),
@@ -145,7 +153,8 @@ def _parquet_options(schema) -> dict:
     (``page_checksum_verification``): a flipped bit in a number is an error, not a quietly wrong number."""
     import pyarrow as pa
     text = [field.name for field in schema if pa.types.is_dictionary(field.type) or pa.types.is_string(field.type)]
-    return {"compression": "snappy", "use_dictionary": text, "write_statistics": False, "write_page_checksum": True}
+    return {"compression": "snappy", "use_dictionary": text, "write_statistics": False, "write_page_checksum": True,
+            "write_batch_size": WRITE_BATCH}
 
 
 def write_parquet(table, where) -> None:

@@ -77,6 +77,26 @@ def test_the_files_differ_in_row_groups_only(cases):
     assert "control_coef" in pq.read_schema(cases["controls"][1]).names
 
 
+def test_every_text_column_keeps_its_dictionary_in_every_row_group(cases):
+    """Parquet's writer keeps a column's dictionary only if no text is in it twice; otherwise it writes every
+    row's text in full (``PLAIN``).  The flags ("[]" for most series), the families, the regions and the
+    controls' texts repeat across series: each row group's dictionary must hold each text once, the column
+    read back (by pyarrow) the same texts.  (The backtest's texts are not made in ``table.py``.)"""
+    for one, many in cases.values():
+        for path in (one, many):
+            meta = pq.ParquetFile(path).metadata
+            schema = pq.read_schema(path)
+            texts = [name for name in schema.names if str(schema.field(name).type).startswith("dictionary")
+                     and not name.startswith("backtest_")]
+            assert {"flags", "family", "region", "fingerprint", "candidate", "chosen"} <= set(texts)
+            at = {meta.row_group(0).column(c).path_in_schema: c for c in range(meta.num_columns)}
+            for g in range(meta.num_row_groups):
+                for name in texts:
+                    assert "RLE_DICTIONARY" in meta.row_group(g).column(at[name]).encodings, (path.name, g, name)
+            flags = pq.read_table(path, columns=["flags"]).column(0).to_pylist()
+            assert flags.count("[]") > 7 and all(json.loads(text) is not None for text in flags)
+
+
 def test_read_results_and_its_filters_read_every_row_group(cases):
     for one, many in cases.values():
         assert _text(read_results(many)) == _text(read_results(one))
@@ -186,6 +206,29 @@ def test_slices_put_together_are_the_whole_table(folds):
     assert together.schema.equals(whole.schema, check_metadata=True)
     for name in whole.column_names:
         assert _text(together.column(name).to_pylist()) == _text(whole.column(name).to_pylist()), name
+
+
+@pytest.mark.parametrize("run", [1, 20, 10 ** 6])
+def test_flags_made_run_by_run_are_each_series_flags_as_json_dumps_writes_them(monkeypatch, run):
+    """The flags' texts are made a run of series at a time (``FlagTexts``), the sentences quoting an observation
+    (its volume, line and date: rows the table no longer holds) for all series first.  Runs of 1 series, of 20
+    (a run serving several slices of 7, and slices straddling two runs) and of all: each series' text is what
+    the standard library's ``json.dumps`` writes of the diagnosis' own ``flags_of``, series by series."""
+    import fitcore
+    import fitcore.results.table as table_module
+    from fitcore.results.write import header
+    from fitcore.review.flags import CODES, diagnose
+    from tests.conftest import random_dataset
+    monkeypatch.setattr(table_module, "FLAG_RUN", run)
+    data = random_dataset(23, n_series=80, n_range=(2, 30), with_weight=True, with_date=True)
+    results = fitcore.fit_batch(data, fitcore.FitSettings())
+    diagnosis = diagnose(results)
+    counts = dict(zip(CODES, diagnosis.raised.sum(axis=0).tolist()))
+    assert counts["near-tie"] and counts["weak-fit"] and counts["influential-point"] and counts["unsteady-folds"]
+    table = ResultsTable(results, header(results, diagnosis), diagnosis)
+    n_c = results.available.shape[1]
+    flags = [text for part in table.slices(7) for text in part.column("flags").to_pylist()[::n_c]]
+    assert flags == [json.dumps(diagnosis.flags_of(s), ensure_ascii=False) for s in range(results.n_series)]
 
 
 def test_each_row_group_is_handed_to_the_disk_as_written_and_the_handle_closed(tmp_path, monkeypatch):

@@ -5,6 +5,7 @@ The reference here is the fit itself (``fit_batch`` + ``diagnose``) written thro
 """
 from __future__ import annotations
 
+import json
 import subprocess
 import sys
 
@@ -173,3 +174,53 @@ def test_damaged_flags_texts_that_would_join_into_valid_json_are_refused(tmp_pat
                flags=lambda column: [texts.get(r // n_c, t) for r, t in enumerate(column)])
     with pytest.raises(DataError, match=rf"row {n_c + 1}, column 'flags'"):
         stored_results(tmp_path / "bad.parquet")
+
+
+def test_keys_whose_values_repeat_across_series_open_without_arrow_compute(tmp_path):
+    """A segment's values repeat across series (its dictionary is not one entry a series): each series' key is
+    still its own, as the fit holds it, and taking them needs no ``pyarrow.compute`` (0.1 s before the list)."""
+    data = random_dataset(48, n_series=24)
+    counts = data.counts
+    product = np.repeat(np.array([f"item {s // 3}" for s in range(24)], dtype=object), counts)
+    region = np.repeat(np.array(["north", "süd", "咖啡 east"] * 8, dtype=object), counts)
+    results = fitcore.fit_batch(fitcore.from_columns({"product": product, "region": region}, data.price, data.volume))
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    _rewritten(tmp_path / "r.parquet", tmp_path / "split.parquet", row_group_size=40)  # dictionaries by row group
+    code = ("import sys, json; from fitcore.results.stored import stored_results; "
+            f"results, _ = stored_results({str(tmp_path / 'split.parquet')!r}, later=True); "
+            "print(json.dumps(['pyarrow.compute' in sys.modules, results.data.keys['product'].to_pylist(), "
+            "results.data.keys['region'].to_pylist()]))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    imported, products, regions = json.loads(out)
+    assert products == results.data.keys["product"].tolist() and regions == results.data.keys["region"].tolist()
+    assert len(set(regions)) == 3 and not imported
+
+
+def test_flags_texts_are_parsed_by_orjson_and_by_json_only_where_orjson_refuses(tmp_path, monkeypatch):
+    """The distinct flags texts are parsed before the list; orjson reads them (3× faster), Python's ``json`` —
+    the reference for what a text means — only those orjson refuses (here a NaN among a flag's numbers), and
+    every series' flags are still the diagnosis that wrote the file."""
+    import fitcore.results.stored as stored_module
+    data = random_dataset(49, n_series=30, n_range=(3, 30))
+    results = fitcore.fit_batch(data, plan_price=data.price[data.offsets[:-1]] * 1.05)
+    diagnosis = diagnose(results)
+    write_results(results, tmp_path / "r.parquet", diagnosis)
+    flagged = next(t for t in pq.read_table(tmp_path / "r.parquet").column("flags").to_pylist() if t != "[]")
+    odd = flagged.replace('"code":', '"share": NaN, "code":', 1)
+    assert json.loads(odd) and odd != flagged
+    _rewritten(tmp_path / "r.parquet", tmp_path / "odd.parquet", flags=lambda texts: [odd if t == flagged else t
+                                                                                     for t in texts])
+    texts = set(pq.read_table(tmp_path / "odd.parquet").column("flags").to_pylist())
+    parsed = []
+    real = json.loads
+
+    def loads(text, *args, **kwargs):  # the header's JSON is read through json too: only flags texts counted
+        if isinstance(text, str) and text in texts:
+            parsed.append(text)
+        return real(text, *args, **kwargs)
+    monkeypatch.setattr(stored_module.json, "loads", loads)
+    _, flags = stored_results(tmp_path / "odd.parquet")
+    monkeypatch.undo()
+    assert parsed == [odd]
+    np.testing.assert_array_equal(flags.raised, diagnosis.raised)
+    assert diagnosis.raised.sum() > 5

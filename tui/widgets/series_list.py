@@ -12,7 +12,7 @@ from textual.strip import Strip
 
 from fitcore.review.flags import SEVERITY
 
-from ..cells import key_label, pad, percent
+from ..cells import key_label, longest_label, pad, percent
 from ..session import STATUS_MARK, TriageSession, describe
 
 STOP = Style(color="#ff875f")
@@ -146,9 +146,7 @@ class SeriesList(ScrollView, can_focus=True):
         """Characters of the longest series label (a cell each, but for wide characters): once per set of keys."""
         keys = self.session.keys
         if self._longest[0] is not keys:
-            import pyarrow.compute as pc
-            longest = pc.max(pc.utf8_length(keys.labels)).as_py() if len(keys) else 0
-            self._longest = (keys, int(longest or 0))
+            self._longest = (keys, longest_label([keys.columns[name] for name in keys.names]))
         return self._longest[1]
 
     def render_line(self, y: int) -> Strip:
