@@ -172,26 +172,16 @@ def _unsteady(diag, s):
             f"(MSE {fmt(errors[k])} vs {fmt(float(np.median(errors)))}).")
 
 
-WEAK_FIT_CONSTANT = ("Q² is undefined: {which} never varies, so no curve can be told from the average volume and "
-                     "price's effect on volume cannot be estimated from these data.")
+WEAK_FIT_CONSTANT = ("Q² is undefined: volume never varies across the rows it is judged on (of {n} observations), "
+                     "so no curve can be told from the average volume and price's effect on volume cannot be "
+                     "estimated from these data.")
 
 
 def _weak_fit(diag, s):
     score = float(diag.results.score[s])
-    if not math.isfinite(score):
-        return WEAK_FIT_CONSTANT.format(which=_constant_volume(diag.results, s))
+    if not math.isfinite(score):  # the rows' values are not read: a writer may have freed them already
+        return WEAK_FIT_CONSTANT.format(n=f"{int(diag.results.data.counts[s]):,}")
     return WEAK_FIT.format(score=pct(score), wanted=pct(diag.thresholds.weak_score))
-
-
-def _constant_volume(results, s) -> str:
-    """What never varies, in words: every observation's volume (with the value) when the rows say so, else the
-    held-out volumes Q² is judged on (time folds judge only the rows after the first block)."""
-    data = results.data
-    if results.rows_loaded and data.counts[s] > 0:
-        volume = data.volume[data.offsets[s]:data.offsets[s + 1]]
-        if volume.min() == volume.max():
-            return f"the volume of all {len(volume):,} observations ({fmt(float(volume[0]))})"
-    return "the held-out volume Q² is judged on"
 
 
 def _influential(diag, s):

@@ -43,8 +43,8 @@ def test_a_volume_that_never_varies_raises_weak_fit_with_its_own_sentence(tmp_pa
     assert diagnosis.raised[constant, WEAK].all() and not diagnosis.raised[~constant, WEAK].any()
     huge = names.index("constant huge")
     assert S.sentence(diagnosis, huge, "weak-fit") == (
-        f"Q² is undefined: the volume of all 60 observations ({S.fmt(9e14)}) never varies, so no curve can be "
-        "told from the average volume and price's effect on volume cannot be estimated from these data.")
+        "Q² is undefined: volume never varies across the rows it is judged on (of 60 observations), so no curve can "
+        "be told from the average volume and price's effect on volume cannot be estimated from these data.")
     flagged = np.flatnonzero(diagnosis.raised[:, WEAK])
     assert flag_sentences(diagnosis, flagged, "weak-fit").to_pylist() == \
         [S.sentence(diagnosis, s, "weak-fit") for s in flagged.tolist()]
@@ -58,3 +58,8 @@ def test_accept_unflagged_leaves_a_constant_volume_for_a_human(tmp_path):
         assert main(["ledger", "accept-unflagged", str(tmp_path / out), "--ledger", str(book), "-q"]) == 0
         accepted = [json.loads(line)["series"]["product"] for line in book.read_text().splitlines()]
         assert accepted == ["sloped"]
+    # the JSON writer and the Parquet writer (column-wise, after the rows are freed) write the same sentence
+    from fitcore.results.read import read_results
+    said = [{r["key"]["product"]: [f["message"] for f in r["flags"] if f["code"] == "weak-fit"]
+             for r in read_results(tmp_path / out)[1]} for out in ("r.json", "r.parquet")]
+    assert said[0] == said[1] and said[0]["constant huge"][0].startswith("Q² is undefined: volume never varies")
