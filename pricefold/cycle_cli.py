@@ -149,7 +149,14 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
     status = history.status(record["fingerprint"]) if history else "pending"
     if status in ("accepted", "overridden") and history.current["action"] == "carry":
         status = f"{status} (carried)"
-    needs = due(record.get("backtest")) if status == "stale" else None
+    needs = None
+    if status == "stale" and record.get("backtest"):
+        bt = record["backtest"]
+        stops = [f["code"] for f in record["flags"] if f["code"] in _stop_codes()]
+        near = bt["signed_near_best"] if "signed_near_best" in bt else (  # results made before it was kept
+            "candidates" in record and _near_best(record, bt.get("candidate")))
+        kept = _carried_action(history, bt.get("carries")) == "override" and bool(near)
+        needs = due(bt, stops, record["chosen"] is not None, kept)
     if status == "stale" and needs is None:  # a hold signs no curve; anything else: these results hold none
         needs = untested_due(history.current, short) or (
             "not backtested" if short else "no backtest in these results (fit with --ledger)")
@@ -238,10 +245,6 @@ class Carryable:
     snapshot: dict | None = None
 
 
-UNTESTED = {"failed": "backtest failed", "controls-changed": "controls changed", "no-dates": "no dates",
-            "undated": "no dates", "no-new-rows": "no new rows", "unsigned": "no signed model"}
-
-
 def _stop_codes() -> set[str]:
     from fitcore.review.flags import SEVERITY
     return {code for code, severity in SEVERITY.items() if severity == "stop"}
@@ -257,8 +260,11 @@ def _near_best(record: dict, name: str) -> bool:
     return mine["cv_mse"] <= best["cv_mse"] + (best["cv_se"] or 0.0)
 
 
-def plan_from_records(records, level: float, controls: list[str] | None = None) -> tuple[list[Carryable], Counter]:
-    """Which series may be carried, from results records (JSON; small runs), and why the others may not."""
+def plan_from_records(records, level: float, controls: list[str] | None = None,
+                      overrides: frozenset = frozenset()) -> tuple[list[Carryable], Counter]:
+    """Which series may be carried, from results records (JSON; small runs), and why the others may not
+    (``left_for_human``; ``overrides``: the digests of the ledger's overrides)."""
+    from fitcore.ledger.backtest import left_for_human
     from fitcore.ledger.snapshot import from_records
     stops, keep, left = _stop_codes(), [], Counter()
     for record in records:
@@ -266,54 +272,60 @@ def plan_from_records(records, level: float, controls: list[str] | None = None) 
         if bt is None:
             continue
         codes = [f["code"] for f in record["flags"]]
-        if bt["status"] != "passed":
-            left[UNTESTED.get(bt["status"], bt["status"])] += 1
-        elif "shifted" in codes:
-            left["shifted"] += 1
-        elif set(codes) & stops:
-            left["stop flag"] += 1
-        elif record["chosen"] is None:
-            left["no candidate"] += 1
+        near = _near_best(record, bt["candidate"])
+        why = left_for_human(bt["status"], "shifted" in codes, bool(set(codes) & stops), record["chosen"] is not None,
+                             bt["candidate"] != record["chosen"], bt["carries"] in overrides and near)
+        if why is not None:
+            left[why] += 1
         else:
             keep.append((record, Carryable(record["key"], record["fingerprint"], record["chosen"], codes, bt["latest"],
-                                           bt["candidate"], bt["carries"], _near_best(record, bt["candidate"]))))
+                                           bt["candidate"], bt["carries"], near)))
     signed = from_records([(record, c.candidate) for record, c in keep], level, controls)
     for (_, c), snapshot in zip(keep, signed):
         c.snapshot = snapshot
     return [c for _, c in keep], left
 
 
-def plan_from_stored(path: Path) -> tuple[list[Carryable], Counter]:
-    """The same from a Parquet results file or folder, column by column (no Python object per candidate)."""
+def plan_from_stored(path: Path, overrides: frozenset = frozenset()) -> tuple[list[Carryable], Counter]:
+    """The same from a Parquet results file or folder, column by column (no Python object per candidate);
+    the reason a series is left, series by series through the same rule (``left_for_human``)."""
     import numpy as np
 
     from fitcore.arrays import integers, objects
+    from fitcore.ledger.backtest import left_for_human
     from fitcore.ledger.snapshot import from_results
     from fitcore.results.stored import stored_results
     from fitcore.review.flags import CODES
     results, diagnosis = stored_results(path)
     bt = results.stored_backtest or {}
     status = bt.get("status", np.full(results.n_series, None, dtype=object))
-    tested = status != None  # noqa: E711
-    passed = status == "passed"
-    shifted, stop = diagnosis.flagged("shifted"), diagnosis.n_stop() > 0
+    tested = np.flatnonzero(status != None)  # noqa: E711
     chosen = results.chosen
+    names = results.names
     left = Counter()
-    for value, count in Counter(status[tested & ~passed].tolist()).items():
-        left[UNTESTED.get(value, value)] += count
-    left.update({"shifted": int((passed & shifted).sum()), "stop flag": int((passed & ~shifted & stop).sum()),
-                 "no candidate": int((passed & ~shifted & ~stop & (chosen < 0)).sum())})
-    ok = np.flatnonzero(passed & ~shifted & ~stop & (chosen >= 0))
+    if not len(tested):
+        return [], left
+    shifted, stop = diagnosis.flagged("shifted")[tested], diagnosis.n_stop()[tested] > 0
+    candidate = bt["candidate"][tested]
+    signed = np.array([names.index(n) if n in names else -1 for n in candidate.tolist()], dtype=np.int64)
+    cv_mse, cv_se = np.asarray(results.cv_mse)[tested], np.asarray(results.cv_se)[tested]
+    available = results.available[tested]
+    errors = np.where(available, cv_mse, np.inf)
+    best = np.argmin(errors, axis=1)
+    rows = np.arange(len(tested))
+    at = np.maximum(signed, 0)
+    with np.errstate(invalid="ignore"):
+        near = (signed >= 0) & available[rows, at] & (cv_mse[rows, at] <= errors[rows, best] + cv_se[rows, best])
+    override = np.array([d in overrides for d in bt["carries"][tested].tolist()], dtype=bool)
+    has_model = chosen[tested] >= 0
+    changed = np.array([None if c < 0 else names[c] for c in chosen[tested].tolist()], dtype=object) != candidate
+    why = [left_for_human(*args) for args in zip(status[tested].tolist(), shifted.tolist(), stop.tolist(),
+                                                 has_model.tolist(), changed.tolist(), (override & near).tolist())]
+    left.update(w for w in why if w is not None)
+    mask = np.array([w is None for w in why], dtype=bool) & (signed >= 0)
+    ok, signed, near = tested[mask], signed[mask], near[mask]
     if not len(ok):
         return [], left
-    names = results.names
-    signed = np.array([names.index(n) if n in names else -1 for n in bt["candidate"][ok].tolist()], dtype=np.int64)
-    ok, signed = ok[signed >= 0], signed[signed >= 0]
-    cv_mse, cv_se = np.asarray(results.cv_mse)[ok], np.asarray(results.cv_se)[ok]
-    errors = np.where(results.available[ok], cv_mse, np.inf)
-    best = np.argmin(errors, axis=1) if len(ok) else np.zeros(0, np.int64)
-    rows = np.arange(len(ok))
-    near = results.available[ok, signed] & (cv_mse[rows, signed] <= errors[rows, best] + cv_se[rows, best])
     snapshots: list = [None] * len(ok)
     for c in np.unique(signed).tolist():
         mine = np.flatnonzero(signed == c)
@@ -354,13 +366,14 @@ def _carry(args) -> int:
                                  "fit again with --ledger on this ledger")
     header.pop("key_columns", None)
     digest = ledger.results_digest(header)
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
+    overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
-        plan, left = plan_from_stored(args.results)
+        plan, left = plan_from_stored(args.results, overrides)
     else:
         from fitcore.ledger.snapshot import header_terms  # numpy and the families: not for every --help
         plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95),
-                                       header_terms(header["settings"]))
-    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
+                                       header_terms(header["settings"]), overrides)
     read = str(source.get("head", ""))
     witness = parse_head(read)
     if witness is None or not book.holds(*witness):
@@ -380,8 +393,6 @@ def _carry(args) -> int:
                 outcome["already carried"] += 1
             elif history is None or history.latest["digest"] != c.latest:
                 outcome["changed since the fit"] += 1
-            elif c.candidate != c.chosen and not (_carried_action(history, c.carries) == "override" and c.near_best):
-                outcome["shape changed"] += 1
             else:
                 entry = ledger.Entry(series=c.key, action="carry", fingerprint=c.fingerprint, results=digest,
                                      model=c.candidate, proposed=c.chosen, note=args.note, supersedes=c.latest,
@@ -406,6 +417,8 @@ def _carry(args) -> int:
     return 0
 
 
-def _carried_action(history, digest: str) -> str | None:
+def _carried_action(history, digest: str | None) -> str | None:
     """The action (accept or override) of the decision with ``digest`` in a series' history."""
+    if history is None:
+        return None
     return next((r["action"] for r in reversed(history.records) if r["digest"] == digest), None)

@@ -49,7 +49,8 @@ def add_parser(commands):
                                              f"later edit is detected. Set {KEY_VARIABLE} to key the chain.")
     sub = parser.add_subparsers(dest="ledger_command", required=True, metavar="ACTION")
     verify = sub.add_parser("verify", help="check the chain and print its head; exit 1 and one line per problem "
-                                           "if it is broken")
+                                           "if it is broken; exit 3 if it is intact but ends in an interrupted "
+                                           "write (a torn last line or an incomplete batch, left out)")
     verify.add_argument("ledger", type=Path, metavar="LEDGER")
     verify.add_argument("--head", metavar="SEQ:DIGEST", default=None,
                         help="a head printed earlier: exit 1 unless the ledger still holds exactly that record")
@@ -135,6 +136,10 @@ def run_verify(args) -> int:
     return status
 
 
+# ``verify``'s exit status for an intact chain ending in an interrupted write (a torn last line, an incomplete
+# batch): not broken, but a decision being recorded there does not count, which a script should hear.
+INTERRUPTED = 3
+
 # A record deleted or moved breaks every link after it: past this many, the rest are counted, not listed.
 SHOWN_PROBLEMS = 20
 
@@ -156,11 +161,12 @@ def verdict(book: ledger.Ledger, witness: tuple[int, str] | None, name: str) -> 
     kind = "keyed (HMAC-SHA-256)" if ledger_key() else "SHA-256"
     lines = [f"{name}: intact, {len(book.records)} records, {kind} chain", *(f"{name}: {n}" for n in book.notes),
              f"head {book.head_text}"]
+    interrupted = INTERRUPTED if book.notes else 0  # intact, but what an interrupted write left is not counted
     if witness is None:
-        return 0, lines
+        return interrupted, lines
     seq, digest = witness
     if book.holds(seq, digest):
-        return 0, lines + [f"{name}: still holds the witnessed record {seq}:{digest[:12]}…"]
+        return interrupted, lines + [f"{name}: still holds the witnessed record {seq}:{digest[:12]}…"]
     last = book.head[0]
     why = (f"it ends at seq {last}: records were removed from the end" if seq > last else
            f"seq {seq} is now a different record ({book.records[seq - 1]['digest'][:12]}…)")

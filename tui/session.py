@@ -9,6 +9,7 @@ without a terminal.
 """
 from __future__ import annotations
 
+import math
 import os
 from dataclasses import dataclass
 from pathlib import Path
@@ -225,9 +226,25 @@ class TriageSession(ListState):
         """What a signed series whose data changed needs (backtest failed, shifted, no dates, …)."""
         if self.status[s] != "stale":
             return None
-        from fitcore.ledger.backtest import untested_due
-        return ((self.backtest.due(s) if self.backtest is not None else None) or untested_due(self.standing(s))
-                or "a new look (no backtest here)")
+        from fitcore.ledger.backtest import untested_due, within_one_se
+        from fitcore.ledger.rules import newer_standing
+        probe = ledger.Entry(series=self.keys.key_of(s), action="hold", fingerprint=self.results.data.fingerprint_of(s),
+                             results=self.results_digest, last_date=self.last_date(s))
+        if newer_standing(probe, self.histories.get(self._id(s))) is not None:  # the ledger refuses decisions here
+            return "decided on newer data: open the newer results"
+        found = None
+        if self.backtest is not None and self.backtest_of(s) is not None:  # carry's own rule (``left_for_human``)
+            results, record = self.results, self.backtest_of(s)
+            names = results.names
+            c = names.index(record["candidate"]) if record.get("candidate") in names else -1
+            decision = self.decision(s)
+            near = record["signed_near_best"] if "signed_near_best" in record else (  # results made before it
+                c >= 0 and within_one_se(np.asarray(results.cv_mse[s], dtype=float),
+                                         np.asarray(results.cv_se[s], dtype=float), np.asarray(results.available[s]), c))
+            kept = decision is not None and decision["action"] == "override" and bool(near)
+            stops = [code for code in self.result_flags(s) if SEVERITY[code] == "stop"]
+            found = self.backtest.due(s, stops, bool(results.chosen[s] >= 0), kept)
+        return found or untested_due(self.standing(s)) or "a new look (no backtest here)"
 
     def signed_model(self, s: int, model: str | None) -> dict | None:
         """The ``signed`` snapshot of ``model`` on series ``s`` as the results hold it (incomplete, and
@@ -283,6 +300,28 @@ class TriageSession(ListState):
             if name in self.results.names:
                 return self.results.names.index(name)
         return int(self.results.chosen[s])
+
+    def listed_model(self, s: int) -> tuple[str, float]:
+        """The list's model and score for series ``s``: the model signed wherever an accept or override stands
+        (carried or not, stale too: what ``ledger export`` and ``show --ledger`` give; ``↺`` marks a stale
+        override, as the status mark does an override on these data), else this cycle's proposal; the score
+        is that shape's Q² on these data."""
+        results = self.results
+        decision = self.decision(s) if self.status[s] in ("accepted", "overridden", "stale") else None
+        if decision is not None and decision["action"] in ("accept", "override") and decision.get("model"):
+            name = str(decision["model"])
+            c = results.names.index(name) if name in results.names else -1
+            score = float(results.q2[s, c]) if c >= 0 and results.available[s, c] else math.nan
+            if c == int(results.chosen[s]):
+                score = float(results.score[s])
+            # ↺: an override, where the status mark does not say it already (a stale series' mark is stale's)
+            stale_override = decision["action"] == "override" and self.status[s] == "stale"
+            return clean(name) + ("↺" if stale_override else ""), score
+        model = self.model_of(s)
+        name = results.names[model] if model >= 0 else "—"
+        # the score of the model that stands: an override's own Q², not the proposal's
+        score = results.q2[s, model] if 0 <= model != results.chosen[s] else results.score[s]
+        return name, float(score)
 
     # -- what the screen shows, and deciding on it -------------------------------------------
     def _cursor_changed(self) -> None:

@@ -44,8 +44,11 @@ class Backtest:
     carries), ``latest`` (digest of the series' latest record when tested), ``analyst``,
     ``signed_at`` (its date), ``candidate``, ``last_date`` (of the signed data).  Numbers (NaN or
     -1 where not known): ``new_rows``, ``error_ratio``, ``coverage``, ``outside``, ``signed_volume``,
-    ``signed_lo``, ``signed_hi`` (the signed curve at ``price``), ``volume_change``,
-    ``elasticity_change``; ``shape_changed``, ``shifted`` (bool).  ``source``: the ledger and its head.
+    ``signed_lo``, ``signed_hi`` (the signed curve at ``price``), ``signed_price``, ``signed_plan_volume``,
+    ``signed_plan_lo``, ``signed_plan_hi`` (what was signed: the plan price then and the curve there),
+    ``volume_change``, ``elasticity_change``; ``shape_changed``, ``shifted``, ``signed_near_best`` (bool: the
+    signed candidate is available in this fit and within one SE of its lowest CV error, so an override of it
+    is carried under another proposal).  ``source``: the ledger and its head.
     """
 
     source: dict
@@ -65,17 +68,23 @@ class Backtest:
     signed_volume: np.ndarray
     signed_lo: np.ndarray
     signed_hi: np.ndarray
+    signed_price: np.ndarray
+    signed_plan_volume: np.ndarray
+    signed_plan_lo: np.ndarray
+    signed_plan_hi: np.ndarray
     proposed_volume: np.ndarray
     volume_change: np.ndarray
     elasticity_change: np.ndarray
     shape_changed: np.ndarray
     shifted: np.ndarray
+    signed_near_best: np.ndarray
     planned: np.ndarray
     chosen: np.ndarray
 
     STORED = ("status", "decision", "latest", "carries", "analyst", "signed_at", "candidate", "last_date",
               "new_rows", "error_ratio", "coverage", "outside", "price", "planned", "signed_volume", "signed_lo",
-              "signed_hi", "proposed_volume", "volume_change", "elasticity_change", "shape_changed", "shifted")
+              "signed_hi", "signed_price", "signed_plan_volume", "signed_plan_lo", "signed_plan_hi", "proposed_volume",
+              "volume_change", "elasticity_change", "shape_changed", "shifted", "signed_near_best")
 
     def columns(self) -> dict:
         return {name: getattr(self, name) for name in self.STORED}
@@ -96,8 +105,8 @@ class Backtest:
             out[name] = value
         return out
 
-    def due(self, s: int) -> str | None:
-        return due(self.record(s))
+    def due(self, s: int, stops=(), has_model: bool = True, kept_override: bool = False) -> str | None:
+        return due(self.record(s), stops, has_model, kept_override)
 
     def counts(self) -> dict[str, int]:
         values, counts = np.unique(np.array([v for v in self.status if v is not None], dtype=object).astype(str),
@@ -105,20 +114,43 @@ class Backtest:
         return dict(zip(values.tolist(), counts.tolist()))
 
 
-def due(record: dict | None) -> str | None:
+# What a series signed on other data needs when its backtest did not pass, in the words carry counts by.
+UNTESTED = {FAILED: "backtest failed", CONTROLS_CHANGED: "controls changed since signing", NO_DATES: "no dates",
+            UNDATED: "no dates", NO_NEW_ROWS: "no new rows", UNSIGNED: "no signed model"}
+
+
+def left_for_human(status: str, shifted: bool, stops, has_model: bool, shape_changed: bool,
+                   kept_override: bool = False) -> str | None:
+    """Why a series whose standing decision was made on other data is not carried to them (None: ``ledger
+    carry`` carries it), the first that holds: its backtest did not pass, ``shifted``, a stop flag (``stops``:
+    its stop flags' codes, or a bool), no curve proposed (``has_model``), or the signed shape is not this
+    cycle's proposal (``shape_changed``) — unless the decision carried is an override whose curve is still
+    available and within one SE of the lowest CV error (``kept_override``).  The one rule: carry counts by it,
+    ``show --ledger`` and the screen say it as what is due (``due``)."""
+    if status != PASSED:
+        return UNTESTED.get(status, status)
+    if shifted:
+        return "shifted"
+    if stops:
+        return "stop flag"
+    if not has_model:
+        return "no candidate"
+    if shape_changed and not kept_override:
+        return "proposal changed"
+    return None
+
+
+def due(record: dict | None, stops=(), has_model: bool = True, kept_override: bool = False) -> str | None:
     """What a signed series whose data changed needs, in a few words, from its stored backtest (None:
-    nothing was tested: no decision, or one on this very data)."""
+    nothing was tested: no decision, or one on this very data): why carry leaves it (``left_for_human``,
+    a stop flag with its codes), else "backtest passed"."""
     if record is None:
         return None
-    status = record["status"]
-    if status == FAILED:
-        return "backtest failed"
-    if record.get("shifted"):
-        return "shifted"
-    if status == PASSED and record.get("shape_changed"):  # passed, but this cycle proposes another shape
-        return "proposal changed"
-    return {PASSED: "backtest passed", NO_DATES: "no dates", UNDATED: "no dates", NO_NEW_ROWS: "no new rows",
-            UNSIGNED: "no signed model", CONTROLS_CHANGED: "controls changed since signing"}.get(status, status)
+    why = left_for_human(record["status"], bool(record.get("shifted")), stops, has_model,
+                         bool(record.get("shape_changed")), kept_override)
+    if why == "stop flag" and not isinstance(stops, bool):
+        why = f"stop flag ({', '.join(stops)})"
+    return why or "backtest passed"
 
 
 HELD_DUE = "a new look (a hold has no curve to backtest)"
@@ -159,8 +191,9 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
     out = dict(status=text(), decision=text(), carries=text(), latest=text(), analyst=text(), signed_at=text(),
                candidate=text(), last_date=text(), new_rows=np.full(n_s, -1, np.int64), error_ratio=number(),
                coverage=number(), outside=np.full(n_s, -1, np.int64), price=number(), signed_volume=number(),
-               signed_lo=number(), signed_hi=number(), proposed_volume=number(), volume_change=number(),
-               elasticity_change=number(), shape_changed=np.zeros(n_s, bool))
+               signed_lo=number(), signed_hi=number(), signed_price=number(), signed_plan_volume=number(),
+               signed_plan_lo=number(), signed_plan_hi=number(), proposed_volume=number(), volume_change=number(),
+               elasticity_change=number(), shape_changed=np.zeros(n_s, bool), signed_near_best=np.zeros(n_s, bool))
     series, mine = on_other_data(standing, SeriesKeys.of(results.data), results.data.fingerprints)
     if len(series):
         _fill(out, results, series, mine)
@@ -185,6 +218,8 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
     if not len(keep):
         return
     series, st = series[keep], st.take(keep)
+    for name in ("price", "volume", "lo", "hi"):
+        out["signed_price" if name == "price" else f"signed_plan_{name}"][series] = getattr(st, f"plan_{name}")
     last = st.last_date
     out["last_date"][series] = np.where(np.isnat(last), None, np.datetime_as_string(last, unit="D").astype(object))
     dates = results.data.date
@@ -195,6 +230,7 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
     out["proposed_volume"][series] = proposed
     names = np.array(results.names + [None], dtype=object)
     out["shape_changed"][series] = names[results.chosen[series]] != st.candidate
+    out["signed_near_best"][series] = _near_best(results, series, st.candidate)
     for family_name in np.unique(st.family.astype(str)).tolist():
         for k in np.unique(st.size[st.family == family_name]).tolist():
             members = np.flatnonzero((st.family == family_name) & (st.size == k))
@@ -283,6 +319,18 @@ def _rows_after(offsets, series, dates, last, per_day):
     return rows, owner
 
 
+def _near_best(results: Results, series: np.ndarray, candidate: np.ndarray) -> np.ndarray:
+    """Each series' ``candidate`` (names) is available in ``results`` and its CV error within one SE of the lowest."""
+    c = np.array([results.names.index(n) if n in results.names else -1 for n in candidate.tolist()], dtype=np.int64)
+    cv_mse, cv_se = np.asarray(results.cv_mse, dtype=float)[series], np.asarray(results.cv_se, dtype=float)[series]
+    available = np.asarray(results.available)[series]
+    errors = np.where(available, cv_mse, np.inf)
+    rows, at = np.arange(len(series)), np.maximum(c, 0)
+    best = np.argmin(errors, axis=1) if len(series) else np.zeros(0, np.int64)
+    with np.errstate(invalid="ignore"):
+        return (c >= 0) & available[rows, at] & (cv_mse[rows, at] <= errors[rows, best] + np.nan_to_num(cv_se[rows, best]))
+
+
 def _proposal_at(results: Results, series: np.ndarray, price: np.ndarray):
     """(volume, elasticity) of each series' chosen curve at ``price`` (NaN where none is chosen)."""
     volume, elasticity = np.full(len(series), np.nan), np.full(len(series), np.nan)
@@ -321,8 +369,16 @@ class StoredBacktest:
             out[name] = value
         return out
 
-    def due(self, s: int) -> str | None:
-        return due(self.record(s))
+    def due(self, s: int, stops=(), has_model: bool = True, kept_override: bool = False) -> str | None:
+        return due(self.record(s), stops, has_model, kept_override)
+
+
+def within_one_se(cv_mse: np.ndarray, cv_se: np.ndarray, available: np.ndarray, c: int) -> bool:
+    """Candidate ``c`` of one series (its candidates' CV errors, SEs, availability) is available and within one
+    SE of the lowest CV error: an override that stays so is carried under another proposal."""
+    errors = np.where(available, cv_mse, np.inf)
+    best = int(np.argmin(errors))
+    return bool(available[c] and cv_mse[c] <= errors[best] + (cv_se[best] if np.isfinite(cv_se[best]) else 0.0))
 
 
 def cycle_of(results: Results, diagnosis, histories: dict, source: dict):

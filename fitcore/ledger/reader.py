@@ -263,8 +263,9 @@ class Ledger:
                                                  f"{self._line + 1}–{self._line + len(unit)}: an interrupted "
                                                  "append), not counted; the next append moves it to a side file"))
         if torn:
-            notes.append(Problem(lines_read + 1, f"torn last line ({len(torn)} bytes, an interrupted write); "
-                                                 "the next append moves it to a side file"))
+            notes.append(Problem(lines_read + 1, f"torn last line ({len(torn)} bytes, an interrupted write) ignored: "
+                                                 "what it was recording does not count; the next append moves it to "
+                                                 "a side file"))
         return notes
 
     # -- appending ----------------------------------------------------------------------------

@@ -23,7 +23,8 @@ class Standing:
     ``signed`` (bool: a snapshot was recorded); its curve: ``size``, ``coef`` (n, WIDTH) in its basis,
     ``mid``, ``half``, ``smear``, ``cov`` (n, WIDTH, WIDTH), ``sigma2``, ``df``, ``level``, ``cv_mse``
     (NaN where not recorded), ``last_date`` (datetime64[D], NaT where none); ``controls`` (text: the
-    control terms it was fitted with, joined by "|", "" for none; None without a snapshot)."""
+    control terms it was fitted with, joined by "|", "" for none; None without a snapshot); what was signed
+    at the plan price then: ``plan_price``, ``plan_volume``, ``plan_lo``, ``plan_hi`` (NaN without a plan)."""
 
     series: list
     fingerprint: np.ndarray
@@ -47,6 +48,10 @@ class Standing:
     cv_mse: np.ndarray
     last_date: np.ndarray
     controls: np.ndarray
+    plan_price: np.ndarray
+    plan_volume: np.ndarray
+    plan_lo: np.ndarray
+    plan_hi: np.ndarray
 
     def __len__(self) -> int:
         return len(self.series)
@@ -86,8 +91,10 @@ def _standing_of(histories: dict) -> Standing:
             whole = np.array([c is not None for c in covs], dtype=bool)
             if whole.any():
                 cov[at[mine[whole]], :k, :k] = np.array([c for c in covs if c is not None], dtype=float)
+    plans = [s.get("plan") if isinstance(s.get("plan"), dict) else {} for s in signed]
     numbers = np.array([(s["basis"]["mid"], s["basis"]["half"], s.get("smearing"), s.get("sigma2"), s.get("df"),
-                         s.get("level", 0.95), s.get("cv_mse")) for s in signed], dtype=float).reshape(-1, 7)
+                         s.get("level", 0.95), s.get("cv_mse"), p.get("price"), p.get("volume"), p.get("lo"),
+                         p.get("hi")) for s, p in zip(signed, plans)], dtype=float).reshape(-1, 11)
     column = lambda i: _scatter(at, numbers[:, i], n)  # noqa: E731
     return Standing(
         series=[c["series"] for c in current], fingerprint=text([c["fingerprint"] for c in current]),
@@ -100,7 +107,8 @@ def _standing_of(histories: dict) -> Standing:
         size=size, coef=coef, mid=column(0), half=column(1), smear=column(2), cov=cov, sigma2=column(3),
         df=column(4), level=column(5), cv_mse=column(6),
         last_date=_dates(at, [s.get("last_date") for s in signed], n),
-        controls=text(["|".join(s.get("controls") or ()) if ok else None for s, ok in zip(snaps, has)]))
+        controls=text(["|".join(s.get("controls") or ()) if ok else None for s, ok in zip(snaps, has)]),
+        plan_price=column(7), plan_volume=column(8), plan_lo=column(9), plan_hi=column(10))
 
 
 def _scatter(at: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:

@@ -26,8 +26,10 @@ def score_meaning(q2: float, weak: float) -> str:
     ``weak``: the weak-fit threshold.  Q² = 1 − held-out squared errors / squared deviations from the mean,
     so 1 − Q² is the curve's held-out squared error as a share of the average's.
     """
-    if q2 is None or not math.isfinite(q2):
+    if q2 is None:
         return "no score: no candidate was cross-validated"
+    if not math.isfinite(q2):  # a cross-validated candidate whose judged volumes never vary: 0/0
+        return "no score: the volumes Q² is judged on never vary, so it is undefined"
     head = f"Q² {_percent(q2)}"
     if q2 < 0:
         return f"{head}: worse than predicting the average volume"

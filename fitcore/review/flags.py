@@ -30,7 +30,7 @@ FLAGS = (
                               "an extrapolation"),
     ("near-tie", "warn", "another candidate is about as good but predicts a materially different volume"),
     ("unsteady-folds", "warn", "one fold's held-out error dominates the others"),
-    ("weak-fit", "warn", "low cross-validated R² (Q²)"),
+    ("weak-fit", "warn", "low cross-validated R² (Q²), or none: the volumes it is judged on never vary"),
     ("influential-point", "warn", "one observation has a large influence on the chosen curve"),
     ("price-tied", "warn", "price moved together with a control, so its effect cannot be told apart from it"),
     ("shifted", "warn", "the signed curve failed on the data since sign-off, or the proposal moved far from it"),
@@ -152,7 +152,8 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     numbers.update(worst_fold=worst_fold, fold_ratio=fold_ratio)
     flag("unsteady-folds", has & (fold_ratio > thresholds.unsteady_ratio))
 
-    flag("weak-fit", has & (results.score < thresholds.weak_score))
+    # A volume that never varies leaves Q² undefined (0/0): no score is no pass, or accept-unflagged takes it.
+    flag("weak-fit", has & ((results.score < thresholds.weak_score) | ~np.isfinite(results.score)))
 
     top_row, top_cook = results.top_row, results.top_cook
     cook_limit = np.maximum(4.0 / np.maximum(counts, 1), thresholds.cook_floor)

@@ -44,7 +44,15 @@ def _near_tie(diag, series):
 
 
 def _weak_fit(diag, series):
-    return fill(S.WEAK_FIT, score=pcts(diag.results.score[series]), wanted=S.pct(diag.thresholds.weak_score))
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    score = diag.results.score[series]
+    out = fill(S.WEAK_FIT, score=pcts(score), wanted=S.pct(diag.thresholds.weak_score))
+    undefined = ~np.isfinite(score)  # a volume that never varies: rare, its sentence series by series
+    if not undefined.any():
+        return out
+    said = pa.array([S.sentence(diag, s, "weak-fit") for s in series[undefined].tolist()], pa.string())
+    return pc.replace_with_mask(out, pa.array(undefined), said)
 
 
 _MANY = {"near-tie": _near_tie, "weak-fit": _weak_fit}

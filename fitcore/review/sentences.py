@@ -172,8 +172,16 @@ def _unsteady(diag, s):
             f"(MSE {fmt(errors[k])} vs {fmt(float(np.median(errors)))}).")
 
 
+WEAK_FIT_CONSTANT = ("Q² is undefined: volume never varies across the rows it is judged on (of {n} observations), "
+                     "so no curve can be told from the average volume and price's effect on volume cannot be "
+                     "estimated from these data.")
+
+
 def _weak_fit(diag, s):
-    return WEAK_FIT.format(score=pct(diag.results.score[s]), wanted=pct(diag.thresholds.weak_score))
+    score = float(diag.results.score[s])
+    if not math.isfinite(score):  # the rows' values are not read: a writer may have freed them already
+        return WEAK_FIT_CONSTANT.format(n=f"{int(diag.results.data.counts[s]):,}")
+    return WEAK_FIT.format(score=pct(score), wanted=pct(diag.thresholds.weak_score))
 
 
 def _influential(diag, s):
@@ -225,8 +233,19 @@ def shift_sentence(bt: dict, proposal: str | None) -> str:
 
     where = money(number("price")) + ("" if bt.get("planned") else " (mid-range; no plan price)")
     band = f" ({fmt(number('signed_lo'))}–{fmt(number('signed_hi'))})" if bt.get("signed_lo") is not None else ""
-    parts = [f"Signed {clean(str(bt['signed_at']))} by {clean(str(bt['analyst']))}: {clean(str(bt['candidate']))}"
-             + (f", {fmt(number('signed_volume'))}{band} at {where}." if bt.get("signed_volume") is not None else ".")]
+    signed_at = number("signed_price")  # the plan price it was signed at (unknown in results made before)
+    head = f"Signed {clean(str(bt['signed_at']))} by {clean(str(bt['analyst']))}: {clean(str(bt['candidate']))}"
+    if bt.get("signed_volume") is None:
+        parts = [head + "."]
+    elif not math.isfinite(signed_at) or math.isclose(signed_at, number("price"), rel_tol=1e-12, abs_tol=0.0):
+        parts = [f"{head}, {fmt(number('signed_volume'))}{band} at {where}."]
+    else:  # signed at another price: what was signed there, then the signed curve where this cycle looks
+        signed_band = (f" ({fmt(number('signed_plan_lo'))}–{fmt(number('signed_plan_hi'))})"
+                       if bt.get("signed_plan_lo") is not None else "")
+        said = (f", {fmt(number('signed_plan_volume'))}{signed_band} at {money(signed_at)}"
+                if bt.get("signed_plan_volume") is not None else f" at {money(signed_at)}")
+        now = "this plan's price " if bt.get("planned") else ""
+        parts = [f"{head}{said}; at {now}{where} the signed curve gives {fmt(number('signed_volume'))}{band}."]
     n = bt.get("new_rows") or 0
     if bt["status"] in ("passed", "failed"):
         tail = (f"{bt['outside']} of {n} fell outside its band" if bt.get("outside") is not None

@@ -233,3 +233,49 @@ def test_show_lists_the_model_the_export_gives(carried, tmp_path, capsys):
         product = next(p for p in exported if line.startswith(p + " "))
         shown = line[len(product):].split()[1].rstrip("↺")
         assert shown == (exported[product] or proposals[product]), line
+
+
+def test_what_show_says_is_due_is_why_carry_leaves_it(tmp_path, capsys):
+    """An override (poly2 over the proposal poly1) whose next cycle plans a price outside the observed ones: the
+    proposal never changed, the stop flag is what keeps it from being carried.  ``show --ledger`` must say the
+    reason carry counts it under — one rule for both — and over every series the reasons show gives are the
+    counts carry prints."""
+    from collections import Counter
+
+    from fitcore.ledger.snapshot import from_records
+    from fitcore.results.read import read_results
+    from pricefold.cycle_cli import ledger_state
+    from pricefold.ledger_cli import open_ledger
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=11)
+    common = [c for c in COMMON if c not in ("--plan-price", str(PLAN))]
+    assert main(["fit", str(tmp_path / "c1.csv"), *COMMON, "-o", str(tmp_path / "r1.json")]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    record = next(r for r in read_results(tmp_path / "r1.json")[1] if r["chosen"] == "poly1" and not r["flags"])
+    latest = histories(book)[record["key"]["product"]].latest
+    ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
+                                      results="ab" * 32, model="poly2", proposed="poly1", note=NOTE,
+                                      supersedes=latest["digest"], signed=from_records([(record, "poly2")], 0.95)[0])],
+                  ledger.Identity("ana", "ana", "host"))
+    product = record["key"]["product"]
+    (tmp_path / "plan.csv").write_text("product,plan_price\n" + "".join(
+        f"item {i},{2.65 if f'item {i}' == product else PLAN}\n" for i in range(8)))
+    write_weeks(tmp_path / "c2.csv", 44, seed=11)
+    assert main(["fit", str(tmp_path / "c2.csv"), *common, "--plan", str(tmp_path / "plan.csv"),
+                 "-o", str(tmp_path / "r2.json"), "--ledger", str(book)]) == 0
+    records = read_results(tmp_path / "r2.json")[1]
+    mine = next(r for r in records if r["key"] == record["key"])
+    assert mine["chosen"] == "poly1" and mine["backtest"]["status"] == "passed"
+    assert "outside-range" in {f["code"] for f in mine["flags"]}
+    capsys.readouterr()
+    assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(book), "--product", product]) == 0
+    assert "ledger: stale — due: stop flag (outside-range)" in capsys.readouterr().out
+    reader = open_ledger(book)
+    said = Counter(ledger_state(r, reader)[1] for r in records if r.get("backtest"))
+    said = Counter({why.split(" (")[0]: n for why, n in said.items() if why != "backtest passed"})
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(book)]) == 0
+    left = next(line for line in capsys.readouterr().err.splitlines() if line.startswith("left for a human: "))
+    counted = Counter({" ".join(part.split()[:-1]): int(part.split()[-1])
+                       for part in left[left.index("(") + 1:-1].split(" · ")})
+    assert counted == said and counted["stop flag"] >= 1

@@ -313,3 +313,32 @@ def test_fit_forks_the_ledger_read_before_the_warm_up_thread_starts(tmp_path, mo
     write_weeks(tmp_path / "c2.csv", 44, seed=9)
     fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
     assert len(alive_at_fork) == 1 and not [name for name in alive_at_fork[0] if name.startswith("pricefold")]
+
+
+def test_a_curve_signed_at_another_plan_price_says_what_was_signed_then_the_curve_at_the_new_price(tmp_path, capsys):
+    """Between cycles the plan moves the price (2.30 → 2.10).  The shifted sentence (results, show, screen) must
+    not read as if the signed curve's volume at the new price had been signed: it says the signed numbers at
+    the signed price — what the export writes — then the signed curve at this plan's price, as such."""
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    common = ["--date", "week", "--degrees", "0-1", "--no-loglog", "--quiet"]
+    assert main(["fit", str(tmp_path / "c1.csv"), "--plan-price", "2.3", "-o", str(tmp_path / "r1.json"), *common]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    for out in ("r2.json", "r2.parquet"):
+        assert main(["fit", str(tmp_path / "c2.csv"), "--plan-price", "2.1", "-o", str(tmp_path / out),
+                     "--ledger", str(book), *common]) == 0
+    record = next(r for r in json.loads((tmp_path / "r2.json").read_text())["series"] if r.get("backtest"))
+    bt, signed = record["backtest"], histories(book)[record["key"]["product"]].current["signed"]
+    assert signed["plan"]["price"] == 2.3 and bt["price"] == 2.1
+    assert (bt["signed_price"], bt["signed_plan_volume"], bt["signed_plan_lo"], bt["signed_plan_hi"]) == (
+        2.3, signed["plan"]["volume"], signed["plan"]["lo"], signed["plan"]["hi"])
+    assert bt["signed_volume"] == pytest.approx(np.polyval(signed["coef"][::-1], 2.1), rel=1e-9)  # numpy's polyval
+    from fitcore.review.sentences import fmt
+    said = (f"Signed {bt['signed_at']} by {bt['analyst']}: {bt['candidate']}, {fmt(signed['plan']['volume'])} "
+            f"({fmt(signed['plan']['lo'])}–{fmt(signed['plan']['hi'])}) at 2.30; at this plan's price 2.10 the signed "
+            f"curve gives {fmt(bt['signed_volume'])} ({fmt(bt['signed_lo'])}–{fmt(bt['signed_hi'])}).")
+    for results in ("r2.json", "r2.parquet"):
+        capsys.readouterr()
+        assert main(["show", str(tmp_path / results), "--ledger", str(book), "--product", record["key"]["product"]]) == 0
+        assert said in capsys.readouterr().out

@@ -315,6 +315,38 @@ def test_one_parser_reads_a_head_for_verify_and_for_carry():
         assert parse_head(wrong) is None, wrong
 
 
+def test_a_torn_last_line_is_said_by_verifys_status_and_in_one_line_by_every_command_reading_past_it(
+        tmp_path, results, capsys):
+    """A revoke cut short by a crash: the chain is intact and the revoke does not count (the accept it withdrew
+    stands again), as documented — but ``verify`` exits 3, not 0, and export and accept-unflagged each say in
+    one line on stderr which line was ignored and how many bytes it held.  Nothing repairs the file (an append
+    that records something sets the torn line aside, as it always did: ``tests/fitcore/test_ledger.py``)."""
+    from fitcore import ledger
+    from pricefold.ledger_cli import identity
+    ledger_path = tmp_path / "l.jsonl"
+    assert cli("ledger", "accept-unflagged", results, "--ledger", ledger_path, "-q", capsys=capsys)[0] == 0
+    book = ledger.Ledger(ledger_path)
+    accepted = book.records[0]
+    book.append([ledger.Entry(series=accepted["series"], action="revoke", fingerprint=accepted["fingerprint"],
+                              results="r", supersedes=accepted["digest"])], identity(None))
+    whole = ledger_path.read_bytes()
+    torn = whole.splitlines(keepends=True)[-1][:-40]
+    ledger_path.write_bytes(whole[:len(whole) - 40])
+    line = len(book.records)
+    said = f"l.jsonl: line {line}: torn last line ({len(torn)} bytes, an interrupted write) ignored"
+    code, out, _ = cli("ledger", "verify", ledger_path, capsys=capsys)
+    assert code == 3 and f"intact, {line - 1} records" in out and said in out
+    code, _, err = cli("ledger", "export", ledger_path, "--results", results, "-o", tmp_path / "e.csv", "-q",
+                       capsys=capsys)
+    assert code == 0 and [e for e in err.splitlines() if "torn" in e] == [f"{ledger_path.parent / said}: what it was "
+                                                                          "recording does not count; the next append "
+                                                                          "moves it to a side file"]
+    assert ledger_path.read_bytes() == whole[:len(whole) - 40]  # read, never repaired
+    code, _, err = cli("ledger", "accept-unflagged", results, "--ledger", ledger_path, "-q", capsys=capsys)
+    assert code == 0 and len([e for e in err.splitlines() if said in e]) == 1
+    assert ledger_path.read_bytes() == whole[:len(whole) - 40]  # nothing to accept: nothing appended or moved
+
+
 @pytest.mark.parametrize("command", [("show", "{results}", "--ledger", "{ledger}"), ("ledger", "show", "{ledger}")])
 def test_reading_a_results_file_as_the_ledger_is_refused_in_one_line(command, results):
     """`show --ledger r.json` listed every series as pending beside a line-1 problem, exit 0: a file with not one

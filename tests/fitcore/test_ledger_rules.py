@@ -152,3 +152,47 @@ def test_one_append_decides_each_series_once(tmp_path):
     path = tmp_path / "ledger.jsonl"
     error = unchanged(path, lambda: ledger.append(path, [entry("a"), entry("a", "hold")], ANA))
     assert "one append records at most one decision per series" in str(error)
+
+
+def _signed(last_date):
+    return {"candidate": "poly1", "last_date": last_date}
+
+
+def test_a_decision_on_older_data_cannot_replace_one_made_on_newer_data(tmp_path):
+    """Two analysts, one ledger: bo on last cycle's results (rows to 2026-02-23), ana on this cycle's (rows to
+    2026-04-20).  Whatever order they look in, bo's accept, override or hold must not replace ana's decision;
+    the refusal names the newer data and leaves the file as it was."""
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("tea", fingerprint="c1", signed=_signed("2026-02-23"))], ANA, now=clock)
+    book = ledger.Ledger(path)
+    [carried] = book.append([entry("tea", "carry", fingerprint="c2", signed=_signed("2026-04-20"),
+                                   carries=book.records[0]["digest"], supersedes=after(book, "tea"))], ANA, now=clock)
+    for action, fields in (("accept", {"signed": _signed("2026-02-23")}),
+                           ("override", {"note": "steeper", "model": "poly2", "signed": _signed("2026-02-23")}),
+                           ("hold", {"last_date": "2026-02-23"}), ("hold", {})):  # no date: the c1 accept's
+        error = unchanged(path, lambda: book.append([entry("tea", action, fingerprint="c1",
+                                                           supersedes=carried["digest"], **fields)], BO))
+        assert str(error) == ("tea: ana carried poly1 forward at 14:02:11 UTC on newer data (rows to 2026-04-20; "
+                              "the rows shown end 2026-02-23); open the newer results to decide it")
+    # a note or a revoke decides nothing: they stay open to the older screen
+    book.append([entry("tea", "note", fingerprint="c1", note="seen", supersedes=carried["digest"])], BO)
+    # A series ana decided first on this cycle's data, never decided on last cycle's: bo's hold on the older
+    # rows is refused by their last date alone (``Entry.last_date``; a hold signs no model).
+    [new] = book.append([entry("nuts", fingerprint="n2", signed=_signed("2026-04-20"))], ANA)
+    unchanged(path, lambda: book.append([entry("nuts", "hold", fingerprint="n1", last_date="2026-02-23",
+                                               supersedes=new["digest"])], BO))
+    # The other way round is the usual next cycle: a decision on newer rows replaces one on older rows.
+    [old] = book.append([entry("gel", "hold", fingerprint="g1", last_date="2026-02-23")], BO)
+    book.append([entry("gel", fingerprint="g2", signed=_signed("2026-04-20"), supersedes=old["digest"])], ANA)
+
+
+def test_without_dates_the_order_the_data_were_decided_in_tells_which_is_newer(tmp_path):
+    path = tmp_path / "ledger.jsonl"
+    book = ledger.Ledger(path)
+    [first] = book.append([entry("soap", fingerprint="s1", signed=_signed(None))], ANA)
+    [second] = book.append([entry("soap", "hold", fingerprint="s2", supersedes=first["digest"])], ANA)
+    error = unchanged(path, lambda: book.append([entry("soap", fingerprint="s1", model="poly2", signed=_signed(None),
+                                                       supersedes=second["digest"])], BO))
+    assert str(error).endswith("on newer data (decided on after the data shown); open the newer results to decide it")
+    # data the ledger never saw are not older than anything (a third cycle, say)
+    book.append([entry("soap", fingerprint="s3", signed=_signed(None), supersedes=second["digest"])], BO)

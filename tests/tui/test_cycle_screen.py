@@ -42,6 +42,17 @@ def next_cycle(tmp_path_factory):
     return book, replace(sample_source(), data=folder / "week2.csv")
 
 
+def stored_next_cycle(next_cycle, folder: Path) -> tuple[Path, Path]:
+    """(a copy of the first cycle's ledger, the next week's Parquet results made by ``fit --ledger`` on it)."""
+    book, source = next_cycle
+    copy = folder / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    out = folder / "r2.parquet"
+    assert main(["fit", str(source.data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
+                 "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+    return copy, out
+
+
 async def test_signed_series_with_new_rows_are_stale_with_what_is_due(next_cycle, tmp_path):
     book, source = next_cycle
     copy = tmp_path / "ledger.jsonl"
@@ -85,12 +96,8 @@ def test_stored_results_from_fit_ledger_open_with_their_backtest_and_sign_comple
     and a decision's snapshot complete from the stored interval parts."""
     from tests.tui.conftest import ANA
     from tui.factory import open_stored_session
-    book, source = next_cycle
-    copy = tmp_path / "ledger.jsonl"
-    copy.write_bytes(book.read_bytes())
-    out = tmp_path / "r2.parquet"
-    assert main(["fit", str(source.data), "--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"),
-                 "-o", str(out), "--ledger", str(copy), "--quiet"]) == 0
+    book = next_cycle[0]
+    copy, out = stored_next_cycle(next_cycle, tmp_path)
     session = open_stored_session(out, copy, ANA)
     assert not session.results.rows_loaded and session.backtest is not None
     stale = session._code("stale")
@@ -104,3 +111,31 @@ def test_stored_results_from_fit_ledger_open_with_their_backtest_and_sign_comple
     written = session.decide(session.look(s2), "accept", note="fine")
     assert written["signed"]["cov_unscaled"] is not None and "incomplete" not in written["signed"]
     assert written["signed"]["last_date"] == "2026-11-30"
+
+
+def test_a_screen_on_last_cycles_results_cannot_replace_a_decision_on_this_cycles(next_cycle, tmp_path):
+    """Two analysts, one ledger: ana triages this cycle's results, bo still has last cycle's open.  A decision
+    bo makes there on a series ana has decided on the newer rows is refused in one line naming the newer
+    data, and the ledger is left as it was — for a series signed last cycle and for one that was pending."""
+    from tests.tui.conftest import ANA
+    from tui.factory import open_stored_session
+    book = next_cycle[0]
+    copy, out = stored_next_cycle(next_cycle, tmp_path)
+    ana = open_stored_session(out, copy, ANA)
+    bo = open_stored_session(SAMPLE / "results.parquet", copy, ledger.Identity("bo", "bo", "test-host"))
+    stale = ana._code("stale")
+    signed_before = int(next(t for t in range(ana.results.n_series) if stale[t]))
+    pending = int(next(t for t in range(ana.results.n_series) if ana.status[t] == "pending"))
+    ana.decide(ana.look(signed_before), "hold", note="ana looks at it this cycle")
+    ana.decide(ana.look(pending), "hold" if not ana.results.chosen[pending] >= 0 else "accept",
+               note="ana signs it this cycle")
+    for t, action in ((signed_before, "accept"), (pending, "hold")):
+        s = bo.index_of(ana.look(t))
+        bo.reload_ledger(force=True)  # bo's screen has seen ana's decision (its look every 2 s)
+        assert bo.due(s) == "decided on newer data: open the newer results"  # said before a key is pressed
+        before = copy.read_bytes()
+        with pytest.raises(ledger.LedgerError, match="on newer data .*; open the newer results to decide it$") as info:
+            bo.decide(bo.look(s), action, note="bo's note")
+        assert copy.read_bytes() == before and "\n" not in str(info.value)
+    assert "rows to 2026-11-30; the rows shown end 2026-11-23" in str(info.value)  # the pending one: dates alone
+    assert bo.last_date(0) == "2026-11-23" and ana.last_date(0) == "2026-11-30"

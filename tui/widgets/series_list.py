@@ -166,7 +166,7 @@ class SeriesList(ScrollView, can_focus=True):
         news = session.news if s == session.current else None
         if self._rows_of[0] is not session.results or self._rows_of[1] is not session.diagnosis or len(self._rows) > 4096:
             self._rows, self._rows_of = {}, (session.results, session.diagnosis)  # new fit, or flags changed
-        shows = (s, width, int(session.status_code[s]), session.model_of(s),
+        shows = (s, width, int(session.status_code[s]), session.listed_model(s)[0],
                  news.get("digest") if news is not None else None, session.waiting)
         strip = self._rows.get(shows)
         if strip is None:
@@ -180,10 +180,7 @@ class SeriesList(ScrollView, can_focus=True):
         session = self.session
         results = session.results
         status = session.status[s]
-        model = session.model_of(s)
-        name = results.names[model] if model >= 0 else "—"
-        # the score of the model that stands: an override's own Q², not the proposal's
-        score = results.q2[s, model] if 0 <= model != results.chosen[s] else results.score[s]
+        name, score = session.listed_model(s)  # the model that stands (a stale series': the one signed)
         score_text = percent(score)
         severity = session.severity(s)
         mark_style = DONE if status in ("accepted", "overridden") else STOP if status == "stale" else DIM
