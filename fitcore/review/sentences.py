@@ -34,6 +34,12 @@ def money(x: float) -> str:
     return f"{x:,.2f}" if abs(x) >= 0.1 else f"{x:.3g}"
 
 
+def span(lo: float, hi: float) -> str:
+    """An interval: "877–1,205", or "-6,752 to 16,270" where a bound is below zero (a dash beside a minus sign
+    read as garbled)."""
+    return f"{fmt(lo)}{' to ' if lo < 0 or hi < 0 else '–'}{fmt(hi)}"
+
+
 def two_places(x: float) -> str:
     """An elasticity: two decimals, no "-0.00" for one that rounds to nothing."""
     text = f"{x:.2f}"
@@ -232,7 +238,7 @@ def shift_sentence(bt: dict, proposal: str | None) -> str:
         return math.nan if value is None else value
 
     where = money(number("price")) + ("" if bt.get("planned") else " (mid-range; no plan price)")
-    band = f" ({fmt(number('signed_lo'))}–{fmt(number('signed_hi'))})" if bt.get("signed_lo") is not None else ""
+    band = f" ({span(number('signed_lo'), number('signed_hi'))})" if bt.get("signed_lo") is not None else ""
     signed_at = number("signed_price")  # the plan price it was signed at (unknown in results made before)
     head = f"Signed {clean(str(bt['signed_at']))} by {clean(str(bt['analyst']))}: {clean(str(bt['candidate']))}"
     if bt.get("signed_volume") is None:
@@ -240,7 +246,7 @@ def shift_sentence(bt: dict, proposal: str | None) -> str:
     elif not math.isfinite(signed_at) or math.isclose(signed_at, number("price"), rel_tol=1e-12, abs_tol=0.0):
         parts = [f"{head}, {fmt(number('signed_volume'))}{band} at {where}."]
     else:  # signed at another price: what was signed there, then the signed curve where this cycle looks
-        signed_band = (f" ({fmt(number('signed_plan_lo'))}–{fmt(number('signed_plan_hi'))})"
+        signed_band = (f" ({span(number('signed_plan_lo'), number('signed_plan_hi'))})"
                        if bt.get("signed_plan_lo") is not None else "")
         said = (f", {fmt(number('signed_plan_volume'))}{signed_band} at {money(signed_at)}"
                 if bt.get("signed_plan_volume") is not None else f" at {money(signed_at)}")

@@ -65,3 +65,4 @@ def test_huge_numbers_and_shares_read_as_numbers():
     assert [S.pct(v) for v in (-0.004, 0.004, 189.0, -12.26)] == ["0%", "0%", "18,900%", "-1,226%"]
     assert pcts(np.array([-0.004, 189.0])).to_pylist() == ["0%", "18,900%"]
     assert [S.two_places(v) for v in (-0.001, -1.466, 0.004)] == ["0.00", "-1.47", "0.00"]
+    assert (S.span(877.0, 1205.0), S.span(-6752.0, 16270.0)) == ("877–1,205", "-6,752 to 16,270")
