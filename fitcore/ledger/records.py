@@ -26,6 +26,7 @@ ACTIONS = (*ACTIONS_1, "carry")
 DECISIONS = ("accept", "override", "carry")  # the actions that may carry a signed model
 HEX64 = re.compile(r"[0-9a-f]{64}")
 HEX32 = re.compile(r"[0-9a-f]{32}")
+DAY = re.compile(r"[0-9]{4}-[0-9]{2}-[0-9]{2}")
 
 
 class LedgerError(PricefoldError):
@@ -49,9 +50,10 @@ class Entry:
     ``supersedes`` is the digest of the latest record on the series that the caller had seen
     (None: it had seen none); ``flags`` the codes of the series' flags as shown; ``signed`` the
     model as it stood (accept, override, carry); ``carries`` the digest a ``carry`` carries forward.
-    ``last_date`` ("YYYY-MM-DD" or None) is the last date of the series' rows decided on: not recorded (a
-    signed model records its own), only read by the rule that refuses a decision on data older than the
-    standing decision's (``rules.newer_standing``), for a hold, which signs no model.
+    ``last_date`` ("YYYY-MM-DD" or None) is the last date of the series' rows decided on, for the rule that
+    refuses a decision on data older than the standing decision's (``rules.newer_standing``): recorded in a
+    hold's record (a hold signs no model, and a signed model records its own), so a later decision can be
+    judged against the hold's rows too.
     """
 
     series: dict
@@ -129,6 +131,8 @@ def check_entry(entry: Entry) -> bytes | None:
         raise LedgerError("an override needs a note saying why the proposal was not taken")
     if entry.action == "override" and not entry.model:
         raise LedgerError("an override must name the candidate chosen instead")
+    if entry.last_date is not None and not (isinstance(entry.last_date, str) and DAY.fullmatch(entry.last_date)):
+        raise LedgerError(f"expected 'last_date' as YYYY-MM-DD or None, got {entry.last_date!r}")
     if entry.supersedes is not None and not (isinstance(entry.supersedes, str) and HEX64.fullmatch(entry.supersedes)):
         raise LedgerError(f"expected 'supersedes' as a record digest (64 hex digits) or None, got {entry.supersedes!r}")
     if isinstance(entry.flags, str) or not all(isinstance(code, str) for code in entry.flags):
@@ -161,6 +165,8 @@ def new_record(entry: Entry, who: Identity, seq: int, at: str, prev: str, batch:
               "action": entry.action, "model": entry.model, "proposed": entry.proposed, "note": entry.note,
               "supersedes": entry.supersedes, "flags": list(entry.flags), "batch": batch, "signed": entry.signed,
               "carries": entry.carries, "prev": prev, "digest_kind": "hmac-sha256" if key else "sha256"}
+    if entry.action == "hold" and entry.last_date is not None:  # an extra member, as readers have always let be
+        record["last_date"] = entry.last_date
     if signed is not None and entry.signed is not None:
         record["signed"] = _STAND_IN
         body = _plain_json(record, "the record")

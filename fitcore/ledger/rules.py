@@ -96,11 +96,12 @@ DECIDING = ("accept", "override", "hold", "carry")  # what the newer-data rule g
 def newer_standing(entry: Entry, history: SeriesHistory | None) -> str | None:
     """Why the decision standing on the series was made on newer data than ``entry``'s (None: it was not).
 
-    Newer means: its rows end later — the last dates the signed models record (``signed.last_date`` of any
-    record on those data, else ``entry.last_date``) —, or, where the dates cannot tell (no date column, the
-    same last date), its data were first decided on later in the series' history than the entry's.  Data
-    the ledger has never seen are not older than anything.  Only accept, override, hold and carry are
-    judged; a note and a revoke change no decision on other data."""
+    Newer means: its rows end later — the last dates the signed models and holds record (``signed.last_date``
+    or a hold's ``last_date``, of any record on those data; else ``entry.last_date``) —, or, where neither
+    side has a date or both the same (no date column, corrected rows), its data were first decided on later
+    in the series' history than the entry's.  Where only one side has a date nothing tells (a hold recorded
+    before holds kept theirs): not refused.  Data the ledger has never seen are not older than anything.
+    Only accept, override, hold and carry are judged; a note and a revoke change no decision on other data."""
     current = history.current if history is not None else None
     if current is None or entry.action not in DECIDING or current["fingerprint"] == entry.fingerprint:
         return None
@@ -109,8 +110,9 @@ def newer_standing(entry: Entry, history: SeriesHistory | None) -> str | None:
     for index, record in enumerate(history.records):
         first.setdefault(record["fingerprint"], index)
         signed = record.get("signed")
-        if isinstance(signed, dict) and isinstance(signed.get("last_date"), str):
-            dates.setdefault(record["fingerprint"], signed["last_date"])
+        day = signed.get("last_date") if isinstance(signed, dict) else record.get("last_date")
+        if isinstance(day, str):
+            dates.setdefault(record["fingerprint"], day)
     signed = entry.signed if isinstance(entry.signed, dict) else {}
     mine = signed.get("last_date") if isinstance(signed.get("last_date"), str) else None
     mine = mine or entry.last_date or dates.get(entry.fingerprint)
@@ -119,6 +121,8 @@ def newer_standing(entry: Entry, history: SeriesHistory | None) -> str | None:
     if mine and theirs and mine != theirs:
         return (f"{done} on newer data (rows to {clean(theirs)}; the rows shown end {clean(mine)})"
                 if theirs > mine else None)
+    if bool(mine) != bool(theirs):  # one side dated, the other not: the order below could lock the newer out
+        return None
     if entry.fingerprint in first and first[entry.fingerprint] < first[current["fingerprint"]]:
         return f"{done} on newer data (decided on after the data shown)"
     return None

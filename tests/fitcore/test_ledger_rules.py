@@ -196,3 +196,22 @@ def test_without_dates_the_order_the_data_were_decided_in_tells_which_is_newer(t
     assert str(error).endswith("on newer data (decided on after the data shown); open the newer results to decide it")
     # data the ledger never saw are not older than anything (a third cycle, say)
     book.append([entry("soap", fingerprint="s3", signed=_signed(None), supersedes=second["digest"])], BO)
+
+
+def test_a_hold_keeps_its_rows_last_date_so_an_older_screen_cannot_replace_it(tmp_path):
+    """bo holds on this cycle's rows (to 2026-09-07); ana, on last cycle's results never decided before, held or
+    accepted over it: a hold recorded no date, so nothing told the rows apart, and bo was then refused "on newer
+    data" by the order the data were decided in.  A hold's record now keeps its rows' last date."""
+    path = tmp_path / "ledger.jsonl"
+    book = ledger.Ledger(path)
+    [held] = book.append([entry("flour", "hold", fingerprint="c2", last_date="2026-09-07")], BO)
+    assert held["last_date"] == "2026-09-07" and ledger.Ledger(path).state == ledger.INTACT
+    for action, fields in (("hold", {"last_date": "2026-07-27"}), ("accept", {"signed": _signed("2026-07-27")})):
+        error = unchanged(path, lambda: book.append([entry("flour", action, fingerprint="c1", supersedes=held["digest"],
+                                                           **fields)], ANA))
+        assert "on newer data (rows to 2026-09-07; the rows shown end 2026-07-27)" in str(error)
+    # A hold recorded before holds kept their date, on older rows after newer ones: the newer screen decides
+    # (one side dated: nothing tells, nothing refused), not locked out "on newer data".
+    [legacy] = book.append([entry("nuts", "hold", fingerprint="n2", last_date="2026-09-07")], BO)
+    [old] = book.append([entry("nuts", "hold", fingerprint="n1", supersedes=legacy["digest"])], ANA)
+    book.append([entry("nuts", "hold", fingerprint="n2", last_date="2026-09-07", supersedes=old["digest"])], BO)
