@@ -14,6 +14,7 @@ from pathlib import Path
 from fitcore import ledger
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import series_id
+from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, newer_standing
 from fitcore.text import clean
 
 from .ledger_cli import identity, open_ledger, parse_head
@@ -150,7 +151,9 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
     if status in ("accepted", "overridden") and history.current["action"] == "carry":
         status = f"{status} (carried)"
     needs = None
-    if status == "stale" and record.get("backtest"):
+    if status == "stale" and decided_on_newer(record["key"], record["fingerprint"], record.get("last_date"), history):
+        needs = NEWER_DUE_SHORT if short else NEWER_DUE  # as the screen says: the ledger refuses decisions here
+    elif status == "stale" and record.get("backtest"):
         bt = record["backtest"]
         stops = [f["code"] for f in record["flags"] if f["code"] in _stop_codes()]
         near = bt["signed_near_best"] if "signed_near_best" in bt else (  # results made before it was kept
@@ -215,7 +218,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
         if record.get("backtest"):
             lines.append("  " + shift_sentence(record["backtest"], record["chosen"]))
         return "\n".join(lines)
-    lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<16} {'ratio':>5} {'cover':>5}  flags"]
+    lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]
     for record in in_attention_order(records):
         status, needs = ledger_state(record, book, short=True)
         bt = record.get("backtest") or {}
@@ -224,7 +227,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
         model = standing_model(record, book)
         lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {model:<7} "
-                     f"{status:<20} {(needs or '—')[:16]:<16} {ratio:>5} {cover:>5}  {flags}")
+                     f"{status:<20} {(needs or '—')[:21]:<21} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
 
 
@@ -381,7 +384,7 @@ def _carry(args) -> int:
         raise ledger.LedgerError(f"{args.ledger}: no longer holds record {said}…, the head 'fit --ledger' "
                                  f"read (it now ends at {book.head_text[:20]}…: records were removed or the file "
                                  "replaced); nothing was carried")
-    from fitcore.ledger.rules import newer_standing
+    from fitcore.ledger.backtest import HELD_DUE_SHORT
     outcome: Counter = Counter()
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
@@ -398,14 +401,14 @@ def _carry(args) -> int:
                                      model=c.candidate, proposed=c.chosen, note=args.note, supersedes=c.latest,
                                      flags=c.flags, signed=c.snapshot, carries=c.carries)
                 if newer_standing(entry, history) is not None:  # the ledger would refuse the whole batch
-                    outcome["decided on newer data"] += 1
+                    outcome[NEWER_DUE_SHORT] += 1
                 else:
                     yield entry
 
     written = book.append(decide, identity(args.analyst))
     left.update(outcome)
     # a hold signs no curve, so no backtest names it, but it waits for a human as much as the rest
-    left["held"] += sum(1 for history in book.histories.values()
+    left[HELD_DUE_SHORT] += sum(1 for history in book.histories.values()
                         if history.current is not None and history.current["action"] == "hold")
     if not args.quiet:
         already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
