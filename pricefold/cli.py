@@ -203,7 +203,9 @@ def _run_triage(args) -> int:
     from fitcore.results.source import Source, default_ledger, is_stored, source_from_results
 
     from .options import resolve, settings_file_keys
+    from .ledger_cli import refuse_not_a_ledger
     ledger_path = args.ledger or default_ledger(args.source)
+    refuse_not_a_ledger(ledger_path)
     units = load_config(args.config, settings_file_keys()).get("units", {})
     if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen
         source = source_from_results(args.source, check_data=False)

@@ -17,7 +17,7 @@ from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, newer_standing
 from fitcore.text import clean
 
-from .ledger_cli import identity, open_ledger, parse_head
+from .ledger_cli import NOT_A_LEDGER, identity, not_a_ledger, open_ledger, parse_head
 
 
 def add_fit_ledger_option(parser) -> None:
@@ -90,7 +90,9 @@ class LedgerAhead:
             self.process.join()
         if said is None:
             said = _read_now(self.path)
-        state, problem, notes, head, standing = said
+        state, problem, notes, head, standing, foreign = said
+        if foreign:  # a results or data file given as --ledger: what every command says of it
+            raise ledger.LedgerError(f"{self.path}: {NOT_A_LEDGER}; nothing was done")
         if state == ledger.BROKEN:
             raise ledger.LedgerError(f"{self.path}: {problem}; the chain is broken, so nothing was done "
                                      "(see 'pricefold ledger verify')")
@@ -108,7 +110,7 @@ def _read_now(path: Path):
     with collector_paused(freeze=True):  # one pass over 100,000 records' objects cost 0.3 s
         book = ledger.Ledger(path, ledger_key())
         return (book.state, str(book.problem) if book.problem else None, [str(n) for n in book.notes],
-                book.head_text, standing_of(book.histories))
+                book.head_text, standing_of(book.histories), not_a_ledger(book))
 
 
 def _read_ahead(path: Path, pipe) -> None:
