@@ -188,20 +188,27 @@ def standing_model(record: dict, book) -> str:
     return record["chosen"] or "—"
 
 
-def override_words(record: dict, stands: dict) -> str:
+def override_words(record: dict, stands: dict, carry: dict | None = None) -> str:
     """'stands: poly1, overridden by ana at …; at the plan price 2.50: volume 250.0 (204.1 to 295.9), elasticity
-    -0.71' — the standing model's own numbers from the record's candidates."""
+    -0.71' — the standing model's own numbers from the record's candidates; for an override ``carry`` carried
+    to these data, said as its refit on them (the curve as signed is the backtest's line)."""
     from .show import money, number, slope
     model = stands["model"]
-    at = str(stands["at"])[:16].replace("T", " ") + " UTC"
-    said = f"stands: {clean(str(model))}, overridden by {clean(str(stands['analyst']))} at {clean(at)}"
+    said = f"stands: {clean(str(model))}, overridden by {clean(str(stands['analyst']))} at {_minute(stands)}"
+    if carry is not None:
+        said += f", carried by {clean(str(carry['analyst']))} at {_minute(carry)}"
     plan = record.get("plan")
     cand = next((c for c in record["candidates"] if c["name"] == model), None)
     if not plan or cand is None or cand.get("plan_volume") is None:
         return said
-    return (f"{said}; at the plan price {number(plan['price'], money)}: volume {number(cand['plan_volume'])} "
+    whose = "its refit on these data at" if carry is not None else "at"
+    return (f"{said}; {whose} the plan price {number(plan['price'], money)}: volume {number(cand['plan_volume'])} "
             f"({number(cand['plan_lo'])} to {number(cand['plan_hi'])}), "
             + slope({"volume": cand["plan_volume"], "elasticity": cand["plan_elasticity"]}))
+
+
+def _minute(record: dict) -> str:
+    return clean(str(record["at"])[:16].replace("T", " ") + " UTC")
 
 
 def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
@@ -216,9 +223,10 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
         lines = [detail(record, binary), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
         stands = standing_override(record, book)
         if stands is not None:
-            lines.append("  " + override_words(record, stands))
+            current = book.histories[series_id(record["key"])].current
+            lines.append("  " + override_words(record, stands, current if current["action"] == "carry" else None))
         if record.get("backtest"):
-            lines.append("  " + shift_sentence(record["backtest"], record["chosen"]))
+            lines.append("  since sign-off (the curve as signed): " + shift_sentence(record["backtest"], record["chosen"]))
         return "\n".join(lines)
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]
     for record in in_attention_order(records):
