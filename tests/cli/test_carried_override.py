@@ -326,3 +326,7 @@ def test_a_carried_override_at_a_new_plan_price_says_which_number_is_which(tmp_p
     assert since.startswith("since sign-off (the curve as signed): Signed ")
     assert f"at this plan's price 2.50 the signed curve gives {fmt(as_signed)} (" in since
     assert number(refit) != fmt(as_signed)  # two numbers for one series: why each must say what it is
+    # elasticities in one format on the block: two decimals ("+0.0831" read beside "elasticity -1.60")
+    import re
+    said = re.findall(r"elasticity (?:differs by )?([+−-]?\d+\.\d+)", stands + " " + since)
+    assert len(said) == 2 and all(len(x.split(".")[1]) == 2 for x in said), said
