@@ -226,7 +226,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
             current = book.histories[series_id(record["key"])].current
             lines.append("  " + override_words(record, stands, current if current["action"] == "carry" else None))
         if record.get("backtest"):
-            lines.append("  since sign-off (the curve as signed): " + shift_sentence(record["backtest"], record["chosen"]))
+            said = shift_sentence(record["backtest"], record["chosen"])
+            lines.append(f"  since sign-off (the curve as signed): {said}")
         return "\n".join(lines)
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]
     for record in in_attention_order(records):
@@ -419,7 +420,7 @@ def _carry(args) -> int:
     left.update(outcome)
     # a hold signs no curve, so no backtest names it, but it waits for a human as much as the rest
     left[HELD_DUE_SHORT] += sum(1 for history in book.histories.values()
-                        if history.current is not None and history.current["action"] == "hold")
+                                if history.current is not None and history.current["action"] == "hold")
     if not args.quiet:
         already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
         rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"

@@ -299,7 +299,8 @@ def test_a_carried_override_at_a_new_plan_price_says_which_number_is_which(tmp_p
     book = tmp_path / "ledger.jsonl"
     options = ["--date", "week", "--degrees", "1-2", "--no-loglog", "--quiet"]
     write_weeks(tmp_path / "c1.csv", 40, seed=11)
-    assert main(["fit", str(tmp_path / "c1.csv"), *options, "--plan-price", "2.3", "-o", str(tmp_path / "r1.json")]) == 0
+    assert main(["fit", str(tmp_path / "c1.csv"), *options, "--plan-price", "2.3",
+                 "-o", str(tmp_path / "r1.json")]) == 0
     record = next(r for r in read_results(tmp_path / "r1.json")[1] if r["chosen"] == "poly1" and not r["flags"])
     ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
                                       results="ab" * 32, model="poly2", proposed="poly1", note=NOTE,
@@ -319,8 +320,8 @@ def test_a_carried_override_at_a_new_plan_price_says_which_number_is_which(tmp_p
     price = rows["price"].to_numpy(float)
     fit = sm.OLS(rows["volume"].to_numpy(float), np.column_stack([np.ones_like(price), price, price ** 2])).fit()
     refit = float(fit.predict(np.array([[1.0, 2.5, 6.25]]))[0])
-    assert ", carried by bo at " in stands and f"; its refit on these data at the plan price 2.50: volume {number(refit)} (" \
-        in stands
+    assert ", carried by bo at " in stands
+    assert f"; its refit on these data at the plan price 2.50: volume {number(refit)} (" in stands
     signed = histories(book)[record["key"]["product"]].decision["signed"]  # ana's override as she signed it
     as_signed = float(np.polyval(signed["coef"][::-1], 2.5))
     assert since.startswith("since sign-off (the curve as signed): Signed ")

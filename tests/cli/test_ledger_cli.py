@@ -361,8 +361,8 @@ def test_reading_a_results_file_as_the_ledger_is_refused_in_one_line(command, re
 @pytest.mark.parametrize("command", [
     ("fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week", "-o", "{out}.json",
      "--ledger", "{ledger}"),
-    ("fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week", "-o", "{out}", "--ledger", "{ledger}",
-     "--engine", "dask"),
+    ("fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week", "-o", "{out}",
+     "--ledger", "{ledger}", "--engine", "dask"),
     ("triage", "{copy}", "--ledger", "{ledger}")])  # the results as their own ledger: "is also an input" (hostile/)
 def test_fit_and_triage_refuse_a_results_file_as_the_ledger_as_every_command_does(command, results, tmp_path):
     """`fit --ledger r.json` said "the chain is broken" and `triage` opened read-only on "the ledger is broken": the
