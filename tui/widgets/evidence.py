@@ -190,7 +190,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         standing = session.standing(s)
         due = session.due(s)
         said = (f"status {session.status[s]}" + (f" — due: {due}" if due else "")
-                + (f": {describe(standing)}" if standing else ""))
+                + ((f"; {describe(standing)}" if due else f": {describe(standing)}") if standing else ""))
         news = session.news is not None and s == session.current
         if after:
             said += " · " + about.strip()
