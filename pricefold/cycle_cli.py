@@ -6,6 +6,7 @@ The numbers come from ``fitcore.ledger.backtest``; the ledger is read through th
 from __future__ import annotations
 
 import os
+import signal
 import sys
 from collections import Counter
 from dataclasses import dataclass
@@ -17,6 +18,7 @@ from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, newer_standing
 from fitcore.text import clean
 
+from .interrupts import held
 from .ledger_cli import NOT_A_LEDGER, identity, not_a_ledger, open_ledger, parse_head
 
 
@@ -73,8 +75,10 @@ class LedgerAhead:
             import multiprocessing
             context = multiprocessing.get_context("fork")
             self.pipe, child = context.Pipe(duplex=False)
-            self.process = context.Process(target=_read_ahead, args=(path, child), daemon=True)
-            self.process.start()
+            self.process = context.Process(target=_read_ahead, args=(path, child, self.pipe, os.getpid()),
+                                           daemon=True)
+            with held():  # the child ignores Ctrl+C from its first step: this process answers it
+                self.process.start()
             child.close()
         except (ValueError, OSError):  # no fork here: read it when asked
             self.process = None
@@ -113,15 +117,37 @@ def _read_now(path: Path):
                 book.head_text, standing_of(book.histories), not_a_ledger(book))
 
 
-def _read_ahead(path: Path, pipe) -> None:
+def _read_ahead(path: Path, pipe, ours, parent: int) -> None:
+    """The forked reader: ``_read_now`` sent to the parent.  Ctrl+C reaches every process of the terminal's
+    group: the parent answers it (one line, exit 130), so the child ignores it.  The child ends when the
+    parent does, even killed with -9 (Linux: the parent-death signal; elsewhere, the write to a pipe
+    nobody reads fails, as the parent's end is closed here too)."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)  # blocked since the fork (``held``): none came before this
+    signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
+    _die_with(parent)
+    ours.close()  # the parent's end, inherited: held open here, a write would wait for ever
     try:
         said = _read_now(path)
     except BaseException:  # the parent reads it itself and reports what goes wrong
         said = None
     try:
         pipe.send(said)
+    except OSError:  # the parent is gone (or stopped reading): nobody to tell
+        pass
     finally:
         pipe.close()
+
+
+def _die_with(parent: int) -> None:
+    """Have the system end this process when ``parent`` ends (Linux ``prctl(PR_SET_PDEATHSIG, SIGKILL)``);
+    end it now if the parent is gone already."""
+    import ctypes
+    try:
+        ctypes.CDLL(None, use_errno=True).prctl(1, signal.SIGKILL)  # 1: PR_SET_PDEATHSIG
+    except (OSError, AttributeError):  # not Linux: the closed pipe ends it instead
+        pass
+    if os.getppid() != parent:
+        os._exit(0)
 
 
 def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):

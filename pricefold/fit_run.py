@@ -14,6 +14,7 @@ import time
 from collections import Counter
 from pathlib import Path
 
+from .interrupts import check, checked, noticed
 from .summary import rejects_line, summary_line
 
 
@@ -51,7 +52,8 @@ def fit_locally(args, run) -> int:
         # warm-up thread held an import lock left the child waiting on that lock for ever)
     warm = warm_engine()  # loads the compiled loops while the data are read
     try:
-        return _fit_locally(args, run, ahead)
+        with noticed():  # Ctrl+C recorded, so that nothing is put in place after one, even one swallowed
+            return _fit_locally(args, run, ahead)
     finally:
         if warm is not None:
             warm.join()  # never left running at exit
@@ -141,6 +143,7 @@ def _fit_locally(args, run, ahead) -> int:
 
     started = time.perf_counter()
     data, rejects = load_with_rejects(args.data, run.columns, sep=run.sep)
+    check()  # an interrupt recorded while the warm-up ran
     free, read = zero_price_line(data, args.data, run.columns.price), data.source["rows"]
     target = rejects_path(args.output)
     if len(rejects):
@@ -155,7 +158,7 @@ def _fit_locally(args, run, ahead) -> int:
         plan = plan_keywords(data, run.plan_file, run.plan_price, season=run.settings.season)
         bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
         try:
-            results = fit_batch(data, run.settings, **plan, progress=bar)
+            results = fit_batch(data, run.settings, **plan, progress=checked(bar))
         finally:
             bar.close()
         diagnosis = diagnose(results, run.thresholds)
@@ -171,6 +174,7 @@ def _fit_locally(args, run, ahead) -> int:
         # rest of the rows freed before it is built, slice by slice, as the file is written.
         del data, plan, results, diagnosis  # (``backtest``: per-series arrays, kept for its closing line)
         batch.add(args.output, write, by_name=by_name)
+        check()  # interrupted, though something swallowed it: the staged files are dropped
     if not len(rejects):
         remove_own(target, "rejects")  # an older run's rejects would now mislead
     if len(rejects):  # a warning, not progress: --quiet keeps it
