@@ -1,0 +1,163 @@
+"""Ctrl+C and kill -9 during ``pricefold fit --ledger``, which reads the ledger in a forked child.
+
+A terminal's Ctrl+C reaches every process of its group, the child too: the command must still end with its one
+line and exit 130, never a traceback (the child's included), never results written after the interrupt, and the
+earlier results byte for byte as they were.  A parent killed with -9 must not leave the child behind.
+"""
+from __future__ import annotations
+
+import hashlib
+import os
+import signal
+import subprocess
+import sys
+import threading
+import time
+from pathlib import Path
+
+import pytest
+
+from pricefold import interrupts
+from pricefold.cli import main
+
+SAMPLE = Path(__file__).resolve().parents[2] / "sample"
+LINE = "pricefold fit: interrupted; nothing was written\n"
+
+
+@pytest.fixture(scope="module")
+def signed(tmp_path_factory):
+    """The sample fitted, its unflagged series accepted into a ledger, and earlier results of the run to
+    interrupt."""
+    folder = tmp_path_factory.mktemp("interrupt")
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), *ARGS, "-o", str(folder / "r1.parquet"), "-q"]) == 0
+    assert main(["ledger", "accept-unflagged", str(folder / "r1.parquet"), "--ledger",
+                 str(folder / "L.jsonl"), "-q"]) == 0
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), *ARGS, "-o", str(folder / "p2.parquet"), "-q"]) == 0
+    return folder
+
+
+ARGS = ["--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv")]
+
+
+def start(folder: Path, said=subprocess.PIPE) -> subprocess.Popen:
+    """``fit --ledger`` in a session of its own (as a terminal's job: one process group for the command and
+    its child)."""
+    return subprocess.Popen([sys.executable, "-m", "pricefold", "fit", str(SAMPLE / "wholesale.csv"), *ARGS,
+                             "-o", "p2.parquet", "--ledger", "L.jsonl"], cwd=folder, stdout=said, stderr=said,
+                            start_new_session=True)
+
+
+def children(pid: int) -> list[int]:
+    found = []
+    for entry in os.listdir("/proc"):
+        if entry.isdigit():
+            try:
+                stat = Path(f"/proc/{entry}/stat").read_text()
+            except OSError:
+                continue
+            if int(stat.rsplit(")", 1)[1].split()[1]) == pid:
+                found.append(int(entry))
+    return found
+
+
+def alive(pid: int) -> bool:
+    try:
+        return Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0] != "Z"
+    except OSError:
+        return False
+
+
+def forked(run: subprocess.Popen, within: float = 30.0) -> int:
+    """The ledger reader's pid, once the command has forked it."""
+    deadline = time.monotonic() + within
+    while time.monotonic() < deadline:
+        found = children(run.pid)
+        if found:
+            return found[0]
+        assert run.poll() is None, "the command ended before it forked"
+        time.sleep(0.01)
+    raise AssertionError("the ledger reader was never forked")
+
+
+def digest(path: Path) -> str:
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def test_a_killed_fit_takes_its_ledger_reader_with_it(signed):
+    """Before: the child, blocked writing the ledger's state to a pipe nobody would read, stayed for ever."""
+    run = start(signed, subprocess.DEVNULL)  # no pipes: a child left behind would hold them open
+    child = forked(run)
+    time.sleep(0.3)  # the parent loads and fits; the child reads and waits to hand over
+    os.kill(run.pid, signal.SIGKILL)
+    run.wait()
+    deadline = time.monotonic() + 5
+    while alive(child) and time.monotonic() < deadline:
+        time.sleep(0.02)
+    still = alive(child)
+    if still:
+        os.kill(child, signal.SIGKILL)
+    assert not still
+
+
+def interrupted(folder: Path, after: float) -> tuple[int, str] | None:
+    """(exit status, stderr) of a run sent Ctrl+C (SIGINT to its whole group) ``after`` seconds past the
+    fork; None when it had finished by then."""
+    run = start(folder)
+    forked(run)
+    time.sleep(after)
+    if run.poll() is not None:
+        run.communicate()
+        return None
+    os.killpg(run.pid, signal.SIGINT)
+    _, err = run.communicate(timeout=60)
+    return run.returncode, err.decode()
+
+
+def test_ctrl_c_while_the_ledger_is_read_is_one_line_and_exit_130(signed):
+    """Before: the child's traceback ('Process ForkProcess-1: … pipe.send(said) … KeyboardInterrupt')."""
+    earlier = digest(signed / "p2.parquet")
+    assert interrupted(signed, 0.35) == (130, LINE)
+    assert digest(signed / "p2.parquet") == earlier
+    assert not [p.name for p in signed.iterdir() if p.name.endswith(".tmp")]
+
+
+@pytest.mark.slow  # about twenty whole runs (~40 s)
+def test_ctrl_c_at_any_moment_is_one_line_exit_130_and_nothing_written(signed):
+    """Before: a traceback from the child at every moment, and at some (an interrupt raised while pyarrow
+    imported pandas, which the warm-up thread was importing too) the results written after it, exit 0; with
+    the interrupt raised while another thread ran, the command could also hang for ever."""
+    run = start(signed)
+    forked(run)
+    started = time.monotonic()
+    run.communicate()
+    whole = time.monotonic() - started
+    earlier = digest(signed / "p2.parquet")  # that run rewrote it
+    seen = []
+    for share in [i / 20 for i in range(18)]:
+        said = interrupted(signed, whole * share)
+        if said is not None:
+            seen.append(said)
+            assert said == (130, LINE), share
+            assert digest(signed / "p2.parquet") == earlier
+    assert len(seen) >= 10
+    assert not [p.name for p in signed.iterdir() if p.name.endswith(".tmp")]
+
+
+def test_an_interrupt_swallowed_while_another_thread_runs_is_raised_at_the_next_check():
+    """A library that catches the interrupt cannot make the fit carry on: ``check`` raises it."""
+    stop = threading.Event()
+    other = threading.Thread(target=stop.wait)
+    other.start()
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            with interrupts.noticed():
+                try:
+                    os.kill(os.getpid(), signal.SIGINT)
+                    time.sleep(0.05)  # the handler runs here; with another thread alive it only records
+                except KeyboardInterrupt:  # what a swallowing library does
+                    pass
+                interrupts.check()
+    finally:
+        stop.set()
+        other.join()
+    interrupts.check()  # outside the block: nothing recorded
