@@ -9,6 +9,7 @@ from fitcore.review.flags import FLAGS
 
 from .listing import FILTER_TITLES, FILTERS
 from .text import clean
+from .widgets.status_line import cut_off_text
 
 KEYS = [
     ("↑ ↓ PgUp PgDn Home End", "move in the list"),
@@ -51,7 +52,10 @@ def ledger_text(book) -> Group:
     """Which ledger, whether its chain verifies, and its head (``SEQ:DIGEST`` of the last whole record)."""
     text = Text("\nLedger ", style="bold")
     text.append(clean(str(book.path)))
-    text.append(f"\n  {book.state}" + (f": {clean(str(book.problem))}" if book.problem else "") + "\n")
+    text.append(f"\n  {book.state}" + (f": {clean(str(book.problem))}" if book.problem else ""))
+    if book.notes:  # the chain verifies up to its last whole record; what follows it does not count
+        text.append(" up to its last whole record, but " + cut_off_text(book), style="bold")
+    text.append("\n")
     text.append("  head (sequence number and digest of its last whole record):", style="dim")
     # one unbroken word of 66+ characters: on a narrow screen folded at the edge, never run under the scrollbar
     head = Text(f"  {book.head_text}", style="dim", overflow="fold")

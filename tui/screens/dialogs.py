@@ -16,11 +16,14 @@ from ..text import literal
 class TextDialog(ModalScreen[str | None]):
     """One line of text; Enter returns it, Escape cancels.  ``required`` refuses an empty answer."""
 
-    BINDINGS = [Binding("escape", "cancel", "cancel")]
+    # Ctrl+C leaves pricefold from here too (the text field would take it as copy and do nothing); with a note
+    # typed, the first press only says so and a second leaves: a note is never lost to one stray key.
+    BINDINGS = [Binding("escape", "cancel", "cancel"), Binding("ctrl+c", "leave", show=False, priority=True)]
 
     def __init__(self, title: str, placeholder: str = "", required: bool = False, value: str = "",
                  about: Text | None = None) -> None:
         super().__init__()
+        self._warned = False  # Ctrl+C pressed once with a note typed
         self.title_text, self.placeholder, self.required, self.value = title, placeholder, required, value
         self.about = about  # what the note is about (an accept past a stop flag: the numbers being signed)
 
@@ -40,6 +43,15 @@ class TextDialog(ModalScreen[str | None]):
 
     def action_cancel(self) -> None:
         self.dismiss(None)
+
+    def action_leave(self) -> None:
+        if self.query_one("#dialog-input", Input).value.strip() and not self._warned:
+            self._warned = True
+            self.query_one("#dialog-hint", Static).update(Text(
+                "Ctrl+C again leaves pricefold without recording this note · Enter to confirm · Esc to cancel",
+                style="bold #ff875f"))
+            return
+        self.app.action_interrupt()
 
 
 class ChoiceDialog(ModalScreen[str | None]):

@@ -41,7 +41,18 @@ def status_text(session, width: int) -> Text:
     if not session.writable:
         said = f"READ-ONLY: {clean(session.read_only_why)}; nothing can be recorded"
         text.append("\n" + cut(said, width), style="bold reverse")
+    elif session.book.notes:  # an interrupted append: said before any decision, whole (wrapped), until moved
+        text.append("\n" + cut_off_text(session.book), style="bold")
     return text
+
+
+def cut_off_text(book) -> str:
+    """'K.jsonl's last append was cut off: line 2: incomplete batch (…), not counted; the next decision moves it
+    to K.jsonl.torn-<UTC time>' — the reader's own words (as every command prints them), for the screen."""
+    name = clean(book.path.name)
+    notes = "; ".join(clean(str(note)).replace("the next append moves it to a side file", "") .rstrip("; ")
+                      for note in book.notes)
+    return (f"{name}'s last append was cut off: {notes}; the next decision moves it to {name}.torn-<UTC time>")
 
 
 def _counts_lines(session, width: int) -> Text:

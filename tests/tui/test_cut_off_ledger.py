@@ -1,0 +1,71 @@
+"""The screen on a ledger whose last append was cut off, and Ctrl+C inside a dialog.
+
+What a reader says of an interrupted tail is ``fitcore.ledger``'s own sentence (checked against ``pricefold
+ledger verify`` in ``tests/cli``); here: the screen says it before any decision, ``?`` does not call the ledger
+simply intact, and the next decision moves the tail to the side file the screen named.
+"""
+from __future__ import annotations
+
+import io
+import os
+from pathlib import Path
+
+from rich.console import Console
+
+from pricefold.cli import main
+from tui.help import ledger_text
+from tui.screens.dialogs import TextDialog
+
+from .conftest import make_app, screen_text, started, until
+
+SAMPLE = Path(__file__).resolve().parents[2] / "sample"
+
+
+def cut_off(path: Path) -> None:
+    """A ledger of one batch whose last 100 bytes never reached the disk (as ``truncate -s -100``)."""
+    assert main(["ledger", "accept-unflagged", str(SAMPLE / "results.parquet"), "--ledger", str(path), "-q"]) == 0
+    os.truncate(path, path.stat().st_size - 100)
+
+
+async def test_a_cut_off_ledger_is_said_before_any_decision_and_the_next_one_sets_it_aside(ledger_path):
+    """Before: nothing on screen, '?' said 'intact', and the first hold moved every record to a side file."""
+    cut_off(ledger_path)
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        text = " ".join(screen_text(app).split())
+        assert "ledger.jsonl's last append was cut off: line 1: incomplete batch (" in text
+        assert "torn last line (" in text
+        assert "the next decision moves it to ledger.jsonl.torn-<UTC time>" in text
+        console = Console(width=200, record=True, file=io.StringIO())
+        console.print(ledger_text(session.book))  # what '?' ends with
+        said = " ".join(console.export_text().split())
+        assert "intact up to its last whole record, but ledger.jsonl's last append was cut off" in said
+        assert not list(ledger_path.parent.glob("ledger.jsonl.torn-*"))
+        await pilot.press("h")
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        await pilot.press("enter")
+        await until(pilot, lambda: session.book.records)
+        await pilot.pause()
+        assert len(list(ledger_path.parent.glob("ledger.jsonl.torn-*"))) == 1
+        assert "cut off" not in " ".join(screen_text(app).split())
+
+
+async def test_ctrl_c_in_a_note_dialog_leaves_and_a_typed_note_takes_a_second_press(ledger_path):
+    """Before: Ctrl+C in the dialog did nothing (the text field took it as copy)."""
+    for typed in ("", "check the promotion weeks"):
+        app = make_app(ledger_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await started(app, pilot)
+            await pilot.press("h")
+            await until(pilot, lambda: isinstance(app.screen, TextDialog))
+            if typed:
+                await pilot.press(*typed)
+                await pilot.press("ctrl+c")
+                await pilot.pause()
+                assert isinstance(app.screen, TextDialog) and app.return_code is None
+                assert "Ctrl+C again leaves pricefold without recording this note" in screen_text(app)
+            await pilot.press("ctrl+c")
+            await pilot.pause()
+            assert app.return_code == 0
+        assert not ledger_path.exists() or not ledger_path.read_bytes()
