@@ -17,7 +17,7 @@ from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, newer_standing
 from fitcore.text import clean
 
-from .ledger_cli import NOT_A_LEDGER, identity, not_a_ledger, open_ledger, parse_head
+from .ledger_cli import NOT_A_LEDGER, identity, key_mismatch, not_a_ledger, open_ledger, parse_head, refuse_key_mismatch
 
 
 def add_fit_ledger_option(parser) -> None:
@@ -128,7 +128,11 @@ def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
     """``(diagnosis with 'shifted', backtest)`` of ``results`` (a fit, rows loaded) against the ledger."""
     from fitcore.ledger.backtest import backtest
     from fitcore.review.flags import mark_shifted
+    from fitcore.ledger.key_columns import mismatch
     source, standing = ahead.result()
+    said = mismatch(list(results.data.key_names), standing.series, str(ahead.path))
+    if said:  # the fit stands on its own; only the backtest finds nothing (and carry refuses these results)
+        print(f"pricefold fit: warning: {said}; nothing was backtested", file=sys.stderr)
     found = backtest(results, standing, thresholds, source)
     return mark_shifted(diagnosis, found), found
 
@@ -143,7 +147,23 @@ def backtest_line(found) -> str:
     return f"ledger: {total:,} signed series on changed data — backtest {parts}; shifted {int(found.shifted.sum()):,}"
 
 
+def backtested_elsewhere(results: Path, header: dict, ledger_path: Path) -> str | None:
+    """"RESULTS: backtested against L, not OTHER" when the results were fitted with ``--ledger`` on another
+    ledger than ``ledger_path`` (None: on this one, or without a ledger).  Their backtest and ``shifted`` flags
+    speak of that ledger's signers: ``carry`` refuses them, ``show --ledger`` leaves them out."""
+    source = header.get("ledger")
+    if not source or same_file(Path(source["path"]), ledger_path):
+        return None
+    return f"{results}: backtested against {clean(str(source['path']))}, not {ledger_path}"
+
+
 # -- show --ledger ---------------------------------------------------------------------------------------
+
+def without_backtest(record: dict) -> dict:
+    """A results record less its backtest and its ``shifted`` flag (both of another ledger's signed curves)."""
+    flags = [flag for flag in record["flags"] if flag["code"] != "shifted"]
+    return {**record, "backtest": None, "flags": flags}
+
 
 def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | None]:
     """(status in the ledger, what it needs) of a results record (``short``: for the list's column)."""
@@ -211,12 +231,25 @@ def _minute(record: dict) -> str:
     return clean(str(record["at"])[:16].replace("T", " ") + " UTC")
 
 
-def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
-    """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list."""
+def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: dict | None = None,
+                     results: Path | None = None) -> str:
+    """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list.  Results
+    (``header``, from the file ``results``) keyed by other columns than the ledger's series: a warning line on
+    stderr; backtested against another ledger: that backtest and its ``shifted`` flags left out, said in one
+    line on stderr."""
     from fitcore.review.sentences import shift_sentence
 
     from .show import detail, in_attention_order, key_cell
     book = open_ledger(ledger_path, must_exist=True)
+    if header is not None:
+        said = key_mismatch(header, book, ledger_path)
+        if said:
+            print(f"pricefold show: {results}: warning: {said}; every series reads as pending", file=sys.stderr)
+        foreign = backtested_elsewhere(results, header, ledger_path)
+        if foreign:
+            print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "
+                  "--ledger on this ledger)", file=sys.stderr)
+            records = [without_backtest(record) for record in records]
     if len(records) == 1:
         record = records[0]
         status, needs = ledger_state(record, book)
@@ -375,12 +408,13 @@ def _carry(args) -> int:
     if not source:
         raise ledger.LedgerError(f"{args.results}: not made by 'pricefold fit --ledger', so it holds no backtest to "
                                  "carry on; fit again with --ledger")
-    if not same_file(Path(source["path"]), args.ledger):
-        raise ledger.LedgerError(f"{args.results}: backtested against {source['path']}, not {args.ledger}; "
-                                 "fit again with --ledger on this ledger")
+    foreign = backtested_elsewhere(args.results, header, args.ledger)
+    if foreign:
+        raise ledger.LedgerError(f"{foreign}; fit again with --ledger on this ledger")
     header.pop("key_columns", None)
     digest = ledger.results_digest(header)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
+    refuse_key_mismatch(args.results, header, book, args.ledger)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
         plan, left = plan_from_stored(args.results, overrides)

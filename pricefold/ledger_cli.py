@@ -138,6 +138,21 @@ def open_ledger(path: Path, *, refuse: tuple[str, ...] = (), must_exist: bool = 
     return book
 
 
+def key_mismatch(header: dict, book: ledger.Ledger, ledger_path: Path) -> str | None:
+    """Why a results file (its ``header``) and the ledger ``book`` share no series — their key columns differ
+    (``fitcore.ledger.key_columns.mismatch``, the one check every command where results meet a ledger asks) —
+    in one clause; None when they match or the ledger is empty."""
+    from fitcore.ledger.key_columns import mismatch, results_columns
+    return mismatch(results_columns(header), (h.latest["series"] for h in book.histories.values()), str(ledger_path))
+
+
+def refuse_key_mismatch(results: Path, header: dict, book: ledger.Ledger, ledger_path: Path) -> None:
+    """``key_mismatch`` as a refusal (exit 2, one line), for the commands that write to the ledger or from it."""
+    said = key_mismatch(header, book, ledger_path)
+    if said:
+        raise ledger.LedgerError(f"{results}: {said}; nothing was written")
+
+
 def run_verify(args) -> int:
     witness = None
     if args.head is not None:
@@ -233,6 +248,7 @@ def run_accept_unflagged(args) -> int:
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
+        refuse_key_mismatch(args.results, header, book, args.ledger)
         for key, fingerprint, chosen, snapshot in proposals:
             history = book.histories.get(series_id(key))
             if history is not None and history.current is not None:
