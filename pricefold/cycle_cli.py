@@ -127,8 +127,8 @@ def _read_ahead(path: Path, pipe) -> None:
 def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
     """``(diagnosis with 'shifted', backtest)`` of ``results`` (a fit, rows loaded) against the ledger."""
     from fitcore.ledger.backtest import backtest
-    from fitcore.review.flags import mark_shifted
     from fitcore.ledger.key_columns import mismatch
+    from fitcore.review.flags import mark_shifted
     source, standing = ahead.result()
     said = mismatch(list(results.data.key_names), standing.series, str(ahead.path))
     if said:  # the fit stands on its own; only the backtest finds nothing (and carry refuses these results)
@@ -382,12 +382,11 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     import numpy as np
 
     from fitcore.arrays import integers, objects
-    from fitcore.ledger.backtest import left_for_human
+    from fitcore.data.keys import SeriesKeys
+    from fitcore.ledger.backtest import FAILED, PASSED, left_for_human
     from fitcore.ledger.snapshot import from_results
     from fitcore.results.stored import stored_results
     from fitcore.review.flags import CODES
-    from fitcore.data.keys import SeriesKeys
-    from fitcore.ledger.backtest import FAILED, PASSED
     from fitcore.review.intervals import last_dates
     histories = histories or {}
     results, diagnosis = stored_results(path)

@@ -231,10 +231,10 @@ def product_first(key: dict, product: str) -> dict:
 def run_show(args) -> int:
     book = open_ledger(args.ledger, must_exist=True)
     product = product_column(args.product_column)
-    if args.product and book.histories and not any(product in h.latest["series"] for h in book.histories.values()):
+    keys = [h.latest["series"] for h in book.histories.values()] if args.product else []
+    if keys and not any(product in key for key in keys):  # a filter that could match nothing: say why
         from fitcore.ledger.key_columns import key_sets
-        sets = " or ".join(", ".join(map(clean, sorted(names))) for names in
-                           key_sets(h.latest["series"] for h in book.histories.values()))
+        sets = " or ".join(", ".join(map(clean, sorted(names))) for names in key_sets(keys))
         raise ledger.LedgerError(f"{args.ledger}: no series has a product column {clean(product)!r} (the key "
                                  f"columns: {sets}); name it with --product-column")
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
