@@ -195,9 +195,9 @@ def _strings(column, rows: np.ndarray) -> np.ndarray:
 def _series_codes(columns: list[np.ndarray]) -> np.ndarray:
     """One int64 code per row, equal for rows of one series, numbered by first appearance."""
     if len(columns) == 1 and isinstance(columns[0], KeyCodes):
-        codes = np.asarray(columns[0].codes, dtype=np.int64)
-        if in_first_appearance_order(codes):  # as the readers' dictionaries usually number them: as they are
-            return codes  # (without importing pandas: triage reads the data behind its list)
+        if in_first_appearance_order(columns[0].codes):  # as the readers' dictionaries usually number them: as
+            return np.asarray(columns[0].codes, dtype=np.int64)  # they are (without importing pandas: triage
+            # reads the data behind its list)
     import pandas as pd
     columns = [column.categorical() if isinstance(column, KeyCodes) else column for column in columns]
     if len(columns) == 1 and isinstance(columns[0], pd.Categorical):
@@ -213,10 +213,18 @@ def _series_codes(columns: list[np.ndarray]) -> np.ndarray:
 
 
 def in_first_appearance_order(codes: np.ndarray) -> bool:
-    """Whether ``codes`` (int64, none negative) number their values by first appearance — 0 first, then
+    """Whether ``codes`` (integers) number their values by first appearance — 0 first, then
     each value not seen before one more than the largest before it — as ``pandas.factorize`` would number
-    them (7M rows: 0.03 s against factorize's 0.27 s)."""
-    if not len(codes) or codes[0] != 0 or codes.min() < 0:
+    them (7M rows: 0.03 s against factorize's 0.27 s).  Rows grouped by series (each code the one before or
+    one more, the usual file) are found in one difference of the codes as given (int32 from the readers:
+    7M rows 0.03 → 0.006 s)."""
+    if not len(codes) or codes[0] != 0:
+        return False
+    steps = np.diff(codes)
+    if (steps.view(steps.dtype.str.replace("i", "u")) <= 1).all():  # 0 or 1, as unsigned: never below 0
+        return True
+    codes = np.asarray(codes, dtype=np.int64)
+    if codes.min() < 0:
         return False
     most = np.maximum.accumulate(codes)
     return bool(np.all(codes[1:] <= most[:-1] + 1))
