@@ -12,7 +12,6 @@ from __future__ import annotations
 import sys
 import time
 from collections import Counter
-from contextlib import contextmanager
 from pathlib import Path
 
 from .summary import rejects_line, summary_line
@@ -162,8 +161,7 @@ def _fit_locally(args, run, ahead) -> int:
             results = fit_batch(data, run.settings, **plan, progress=bar)
         finally:
             bar.close()
-        with beside(lambda: data.fingerprint_texts):  # hashed beside the diagnosis, which the results take first
-            diagnosis = diagnose(results, run.thresholds)
+        diagnosis = diagnose(results, run.thresholds)
         backtest = None
         if ahead is not None:  # the signed curves against the rows since, and the shifted flag
             from .cycle_cli import backtest_against
@@ -192,18 +190,6 @@ def _fit_locally(args, run, ahead) -> int:
             from .cycle_cli import backtest_line
             print(backtest_line(backtest), file=sys.stderr)
     return 0
-
-
-@contextmanager
-def beside(work):
-    """``work()`` in a thread while the block runs; its error, if any, raised after the block.  The
-    series' fingerprints (one ``hashlib`` call a series, 7M rows: 0.18 s, which the results take first) are
-    hashed while the diagnosis runs on the main thread, a stretch that used one core of two."""
-    from concurrent.futures import ThreadPoolExecutor
-    with ThreadPoolExecutor(1, thread_name_prefix="pricefold-beside") as pool:
-        done = pool.submit(work)
-        yield
-        done.result()
 
 
 def strict_or_foreign(rejects, target: Path, strict: bool) -> None:
