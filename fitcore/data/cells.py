@@ -165,7 +165,7 @@ def _dictionary_codes(column: pa.ChunkedArray):
     if any(dictionary.null_count for dictionary in dictionaries):
         return None
     if not dictionaries:
-        return [], np.empty(0, np.int32)
+        return pa.nulls(0, column.type.value_type), np.empty(0, np.int32)
     steps = np.arange(max(len(dictionary) for dictionary in dictionaries), dtype=np.int32)
     positions = pa.Array.from_buffers(pa.int32(), len(steps), [None, pa.py_buffer(steps)])
     alone = pa.chunked_array([pa.DictionaryArray.from_arrays(positions.slice(0, len(dictionary)), dictionary)
