@@ -71,3 +71,26 @@ def test_hundred_thousand_keys_hash_without_pandas():
             "print(len(h), 'pandas' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=ROOT)
     assert out.stdout.split() == ["100000", "False"]
+
+
+@pytest.mark.slow
+def test_loading_fitting_and_diagnosing_many_series_import_no_pandas(tmp_path):
+    """More series than the old Python hashes took (4,096): the load, the fit (its shuffled folds are seeded by
+    the key hashes) and the diagnosis import no pandas, and the fold shuffle's seeds are pandas' hashes."""
+    rng = np.random.default_rng(3)
+    n_series, rows = 5000, 6
+    price = rng.uniform(1.0, 3.0, n_series * rows).round(2)
+    lines = ["product,price,volume"] + [f"item-{s},{p},{round(100 * p ** -1.2, 1)}"
+                                        for s, p in zip(np.repeat(np.arange(n_series), rows), price)]
+    data = tmp_path / "rows.csv"
+    data.write_text("\n".join(lines) + "\n")
+    code = ("import sys; from pathlib import Path; from fitcore import fit_batch; from fitcore.data.loader import load; "
+            "from fitcore.data.columns import Columns; from fitcore.fit.settings import FitSettings; "
+            "from fitcore.review.flags import diagnose; "
+            f"d = load(Path({str(data)!r}), Columns()); diagnose(fit_batch(d, FitSettings())); "
+            "print('pandas' in sys.modules, ' '.join(map(str, d.key_hash[:3].tolist())))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=ROOT)
+    imported, *hashes = out.stdout.split()
+    reference = pd.util.hash_pandas_object(pd.DataFrame({"product": [f"item-{s}" for s in range(3)]}),
+                                           index=False).to_numpy(np.uint64)
+    assert imported == "False" and [int(h) for h in hashes] == reference.tolist()
