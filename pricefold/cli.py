@@ -263,6 +263,9 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     at once (a screen drawn into a pipe would wait for a key nobody can press); a session that could not be
     opened ends as one line too, after its dialog."""
     from fitcore.errors import PricefoldError, SettingsError
+
+    from .ledger_cli import refuse_not_a_ledger
+    refuse_not_a_ledger(ledger_path)  # after the inputs' checks: a ledger that is an input is said as such
     if not (sys.stdin.isatty() and sys.stdout.isatty()):
         raise SettingsError("the triage screen needs a terminal (standard input and output); in scripts, "
                             "'pricefold show' and 'pricefold ledger' read results and decisions")

@@ -14,9 +14,10 @@ from pathlib import Path
 from fitcore import ledger
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import series_id
+from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, newer_standing
 from fitcore.text import clean
 
-from .ledger_cli import identity, open_ledger, parse_head
+from .ledger_cli import NOT_A_LEDGER, identity, not_a_ledger, open_ledger, parse_head
 
 
 def add_fit_ledger_option(parser) -> None:
@@ -89,7 +90,9 @@ class LedgerAhead:
             self.process.join()
         if said is None:
             said = _read_now(self.path)
-        state, problem, notes, head, standing = said
+        state, problem, notes, head, standing, foreign = said
+        if foreign:  # a results or data file given as --ledger: what every command says of it
+            raise ledger.LedgerError(f"{self.path}: {NOT_A_LEDGER}; nothing was done")
         if state == ledger.BROKEN:
             raise ledger.LedgerError(f"{self.path}: {problem}; the chain is broken, so nothing was done "
                                      "(see 'pricefold ledger verify')")
@@ -107,7 +110,7 @@ def _read_now(path: Path):
     with collector_paused(freeze=True):  # one pass over 100,000 records' objects cost 0.3 s
         book = ledger.Ledger(path, ledger_key())
         return (book.state, str(book.problem) if book.problem else None, [str(n) for n in book.notes],
-                book.head_text, standing_of(book.histories))
+                book.head_text, standing_of(book.histories), not_a_ledger(book))
 
 
 def _read_ahead(path: Path, pipe) -> None:
@@ -150,7 +153,9 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
     if status in ("accepted", "overridden") and history.current["action"] == "carry":
         status = f"{status} (carried)"
     needs = None
-    if status == "stale" and record.get("backtest"):
+    if status == "stale" and decided_on_newer(record["key"], record["fingerprint"], record.get("last_date"), history):
+        needs = NEWER_DUE_SHORT if short else NEWER_DUE  # as the screen says: the ledger refuses decisions here
+    elif status == "stale" and record.get("backtest"):
         bt = record["backtest"]
         stops = [f["code"] for f in record["flags"] if f["code"] in _stop_codes()]
         near = bt["signed_near_best"] if "signed_near_best" in bt else (  # results made before it was kept
@@ -183,20 +188,27 @@ def standing_model(record: dict, book) -> str:
     return record["chosen"] or "—"
 
 
-def override_words(record: dict, stands: dict) -> str:
+def override_words(record: dict, stands: dict, carry: dict | None = None) -> str:
     """'stands: poly1, overridden by ana at …; at the plan price 2.50: volume 250.0 (204.1 to 295.9), elasticity
-    -0.71' — the standing model's own numbers from the record's candidates."""
+    -0.71' — the standing model's own numbers from the record's candidates; for an override ``carry`` carried
+    to these data, said as its refit on them (the curve as signed is the backtest's line)."""
     from .show import money, number, slope
     model = stands["model"]
-    at = str(stands["at"])[:16].replace("T", " ") + " UTC"
-    said = f"stands: {clean(str(model))}, overridden by {clean(str(stands['analyst']))} at {clean(at)}"
+    said = f"stands: {clean(str(model))}, overridden by {clean(str(stands['analyst']))} at {_minute(stands)}"
+    if carry is not None:
+        said += f", carried by {clean(str(carry['analyst']))} at {_minute(carry)}"
     plan = record.get("plan")
     cand = next((c for c in record["candidates"] if c["name"] == model), None)
     if not plan or cand is None or cand.get("plan_volume") is None:
         return said
-    return (f"{said}; at the plan price {number(plan['price'], money)}: volume {number(cand['plan_volume'])} "
+    whose = "its refit on these data at" if carry is not None else "at"
+    return (f"{said}; {whose} the plan price {number(plan['price'], money)}: volume {number(cand['plan_volume'])} "
             f"({number(cand['plan_lo'])} to {number(cand['plan_hi'])}), "
             + slope({"volume": cand["plan_volume"], "elasticity": cand["plan_elasticity"]}))
+
+
+def _minute(record: dict) -> str:
+    return clean(str(record["at"])[:16].replace("T", " ") + " UTC")
 
 
 def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
@@ -211,11 +223,13 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
         lines = [detail(record, binary), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
         stands = standing_override(record, book)
         if stands is not None:
-            lines.append("  " + override_words(record, stands))
+            current = book.histories[series_id(record["key"])].current
+            lines.append("  " + override_words(record, stands, current if current["action"] == "carry" else None))
         if record.get("backtest"):
-            lines.append("  " + shift_sentence(record["backtest"], record["chosen"]))
+            said = shift_sentence(record["backtest"], record["chosen"])
+            lines.append(f"  since sign-off (the curve as signed): {said}")
         return "\n".join(lines)
-    lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<16} {'ratio':>5} {'cover':>5}  flags"]
+    lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]
     for record in in_attention_order(records):
         status, needs = ledger_state(record, book, short=True)
         bt = record.get("backtest") or {}
@@ -224,7 +238,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
         model = standing_model(record, book)
         lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {model:<7} "
-                     f"{status:<20} {(needs or '—')[:16]:<16} {ratio:>5} {cover:>5}  {flags}")
+                     f"{status:<20} {(needs or '—')[:21]:<21} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
 
 
@@ -381,7 +395,7 @@ def _carry(args) -> int:
         raise ledger.LedgerError(f"{args.ledger}: no longer holds record {said}…, the head 'fit --ledger' "
                                  f"read (it now ends at {book.head_text[:20]}…: records were removed or the file "
                                  "replaced); nothing was carried")
-    from fitcore.ledger.rules import newer_standing
+    from fitcore.ledger.backtest import HELD_DUE_SHORT
     outcome: Counter = Counter()
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
@@ -398,15 +412,15 @@ def _carry(args) -> int:
                                      model=c.candidate, proposed=c.chosen, note=args.note, supersedes=c.latest,
                                      flags=c.flags, signed=c.snapshot, carries=c.carries)
                 if newer_standing(entry, history) is not None:  # the ledger would refuse the whole batch
-                    outcome["decided on newer data"] += 1
+                    outcome[NEWER_DUE_SHORT] += 1
                 else:
                     yield entry
 
     written = book.append(decide, identity(args.analyst))
     left.update(outcome)
     # a hold signs no curve, so no backtest names it, but it waits for a human as much as the rest
-    left["held"] += sum(1 for history in book.histories.values()
-                        if history.current is not None and history.current["action"] == "hold")
+    left[HELD_DUE_SHORT] += sum(1 for history in book.histories.values()
+                                if history.current is not None and history.current["action"] == "hold")
     if not args.quiet:
         already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
         rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"

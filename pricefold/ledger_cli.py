@@ -91,6 +91,27 @@ def not_a_ledger(book: ledger.Ledger) -> bool:
     return bool(problems) and problems[0].line == 1 and not any("digest" in record for record in book.records)
 
 
+def refuse_not_a_ledger(path: Path) -> None:
+    """``NOT_A_LEDGER`` in one line for a file of which not one line is a record, before a screen opens it.  The
+    whole file is read only when its first line is not a record (a ledger's first line is: one line read)."""
+    import json
+    try:
+        if not path.is_file():  # none yet (the screen starts it), or not a file: the reader says what it is
+            return
+        with open(path, "rb") as handle:
+            first = handle.readline(1 << 20)
+    except OSError:
+        return
+    try:
+        said = json.loads(first) if first.strip() else {"digest": None}
+    except ValueError:
+        said = None
+    if isinstance(said, dict) and "digest" in said:
+        return
+    if not_a_ledger(ledger.Ledger(path, ledger_key())):
+        raise ledger.LedgerError(f"{path}: {NOT_A_LEDGER}; nothing was done")
+
+
 def open_ledger(path: Path, *, refuse: tuple[str, ...] = (), must_exist: bool = False) -> ledger.Ledger:
     """The ledger, read and verified.  A state in ``refuse`` (``broken``, ``unverifiable``) is an
     error (exit 2, one line); otherwise a warning line on stderr first.  Interrupted tails are said

@@ -58,10 +58,12 @@ def run_export(args) -> int:
     writer = csv.writer(buffer, lineterminator="\r\n")
     made = (lambda cells: cells) if args.raw else inert
     columns = header.get("settings", {}).get("columns") or {"product": "product", "segments": []}
-    writer.writerow(made([columns["product"], *columns.get("segments", []), "status", "model", "family", "coef",
-                           "smearing", "analyst", "at", "note", "plan_price", "plan_volume", "plan_lo", "plan_hi",
-                           "plan_elasticity", "carried_from", "carried_analyst", "carried_at", "carried_note",
-                           "ledger_head"]))
+    keys = key_headers([columns["product"], *columns.get("segments", [])])
+    renamed = [f"'{clean(old)}' written as '{clean(new)}'" for old, new in keys.items() if old != new]
+    if renamed:  # said even with --quiet: a script reading the old name should hear it
+        print(f"pricefold ledger: {args.output}: key column {', '.join(renamed)} (the export has its own column "
+              "of that name)", file=sys.stderr)
+    writer.writerow(made([*keys.values(), *COLUMNS]))
     count, head = 0, book.head_text
     own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi", "elasticity": "plan_elasticity"}
     level = (header.get("settings") or {}).get("level")
@@ -112,6 +114,27 @@ def run_export(args) -> int:
     if not args.quiet:
         print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
     return 0
+
+
+# The export's own columns, after the key columns.
+COLUMNS = ("status", "model", "family", "coef", "smearing", "analyst", "at", "note", "plan_price", "plan_volume",
+           "plan_lo", "plan_hi", "plan_elasticity", "carried_from", "carried_analyst", "carried_at", "carried_note",
+           "ledger_head")
+
+
+def key_headers(names: list[str]) -> dict[str, str]:
+    """Each key column's header: its own name, or ``key_NAME`` where an export column has the name (a segment
+    called ``family`` or ``note``), ``key_`` again until no other header has it, so every header is one column."""
+    taken = set(COLUMNS) | set(names)
+    out = {}
+    for name in names:
+        header = name
+        if name in COLUMNS:
+            while header in taken:
+                header = "key_" + header
+            taken.add(header)
+        out[name] = header
+    return out
 
 
 def model_of(history, chosen: str | None) -> str | None:

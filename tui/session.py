@@ -23,7 +23,7 @@ from fitcore.errors import PricefoldError
 from fitcore.fit.results import Results
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import SeriesHistory, series_id
-from fitcore.ledger.rules import check_latest, what_happened
+from fitcore.ledger.rules import NEWER_DUE, check_latest, decided_on_newer, what_happened
 from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale
 
 from .ledger_series import KeyTable, set_statuses
@@ -227,11 +227,8 @@ class TriageSession(ListState):
         if self.status[s] != "stale":
             return None
         from fitcore.ledger.backtest import untested_due, within_one_se
-        from fitcore.ledger.rules import newer_standing
-        probe = ledger.Entry(series=self.keys.key_of(s), action="hold", fingerprint=self.results.data.fingerprint_of(s),
-                             results=self.results_digest, last_date=self.last_date(s))
-        if newer_standing(probe, self.histories.get(self._id(s))) is not None:  # the ledger refuses decisions here
-            return "decided on newer data: open the newer results"
+        if self.decided_on_newer(s):  # the ledger refuses decisions here
+            return NEWER_DUE
         found = None
         if self.backtest is not None and self.backtest_of(s) is not None:  # carry's own rule (``left_for_human``)
             results, record = self.results, self.backtest_of(s)
@@ -245,6 +242,14 @@ class TriageSession(ListState):
             stops = [code for code in self.result_flags(s) if SEVERITY[code] == "stop"]
             found = self.backtest.due(s, stops, bool(results.chosen[s] >= 0), kept)
         return found or untested_due(self.standing(s)) or "a new look (no backtest here)"
+
+    def decided_on_newer(self, s: int) -> bool:
+        """Whether the decision standing on series ``s`` was made on newer data than these results' rows: the
+        ledger refuses an accept, override or hold here (``rules.newer_standing``)."""
+        if self.status[s] != "stale":
+            return False
+        return decided_on_newer(self.keys.key_of(s), self.results.data.fingerprint_of(s), self.last_date(s),
+                                self.histories.get(self._id(s))) is not None
 
     def signed_model(self, s: int, model: str | None) -> dict | None:
         """The ``signed`` snapshot of ``model`` on series ``s`` as the results hold it (incomplete, and

@@ -128,6 +128,20 @@ def newer_standing(entry: Entry, history: SeriesHistory | None) -> str | None:
     return None
 
 
+# What a series is due where the decision standing on it was made on newer data than the rows shown: the
+# screen, ``show --ledger`` and ``carry``'s count say it in these words (``SHORT``: a list's column, carry's count).
+NEWER_DUE = "decided on newer data: open the newer results"
+NEWER_DUE_SHORT = "decided on newer data"
+
+
+def decided_on_newer(series: dict, fingerprint: str, last_date: str | None,
+                     history: SeriesHistory | None) -> str | None:
+    """``newer_standing``'s clause for a decision on these rows (``fingerprint``, ending ``last_date``), or None:
+    whether the ledger would refuse any accept, override or hold here for a decision made on newer data."""
+    probe = Entry(series=series, action="hold", fingerprint=fingerprint, results="", last_date=last_date)
+    return newer_standing(probe, history)
+
+
 def what_happened(record: dict) -> str:
     """One clause for a record: "ana accepted poly1 at 14:02:11 UTC"."""
     done = DONE.get(record["action"], record["action"]).format(model=clean(str(record.get("model"))))

@@ -160,8 +160,8 @@ LISTED = ("n", "chosen", "score", "flags", "fingerprint")  # what a list shows o
 
 
 class SeriesList:
-    """The series a list shows, in file order: ``records[i]`` holds what the record reader's record would of
-    the key, n, chosen, score, flags, fingerprint and backtest (where the file holds one); ``record(i)`` reads
+    """The series a list shows, in file order: ``records[i]`` holds what the record reader's record would of the
+    key, n, chosen, score, flags, fingerprint, last date and backtest (where the file holds them); ``record(i)`` reads
     series ``i``'s whole record (``read.series_record``), for one series shown in full."""
 
     def __init__(self) -> None:
@@ -205,7 +205,8 @@ def _list_part(out: SeriesList, part: Path, products, keys: dict, flag: str | No
     meta = read_header(part)
     schema = _schema_names(part)
     backtest = [name for name in schema if name.startswith("backtest_")] if "backtest_status" in schema else []
-    columns = series_columns(part, meta, [*LISTED, *backtest])
+    dated = ["last_date"] if "last_date" in schema else []  # what show --ledger judges newer data by
+    columns = series_columns(part, meta, [*LISTED, *backtest, *dated])
     at = columns.matching(products, keys)
     n_c = len(columns.candidates)
     texts = columns.values("flags", 0, at) if is_text(columns.table.schema.field("flags").type) else [None] * len(at)
@@ -227,6 +228,12 @@ def _list_part(out: SeriesList, part: Path, products, keys: dict, flag: str | No
     picked = np.flatnonzero(keep).tolist()
     records = [{"key": keys_of[i], "n": fields["n"][i], "chosen": fields["chosen"][i], "score": fields["score"][i],
                 "flags": flag_lists[i], "fingerprint": fields["fingerprint"][i]} for i in picked]
+    if dated:  # date32 as days since 1970, to "YYYY-MM-DD" column-wise (None where the series has no dates)
+        import pyarrow as pa
+        days = numbers(columns.column("last_date", 0, at[keep]).view(pa.int32()))
+        said = np.datetime_as_string(np.where(np.isnan(days), 0, days).astype(np.int64).astype("datetime64[D]"))
+        for record, day, text in zip(records, np.isnan(days).tolist(), said.tolist()):
+            record["last_date"] = None if day else text
     if backtest:
         values = {name: columns.values(name, 0, at) for name in backtest}
         for i, record in zip(picked, records):

@@ -277,8 +277,9 @@ def _beside_signed(proposed: float, signed_volume: float, change: float, tilt: f
         return f"the signed curve: {fmt(signed_volume)}; no elasticity at a volume at or below zero"
     moved = round(change * 100) if math.isfinite(change) else None
     moved_text = "n/a" if moved is None else f"{'+' if moved > 0 else '−' if moved < 0 else ''}{abs(moved)}%"
-    tilt_text = "" if not math.isfinite(tilt) else "; its elasticity is the same" if fmt(abs(tilt)) == "0" \
-        else f"; its elasticity differs by {signed(tilt)}"
+    # an elasticity's change in an elasticity's format (two decimals: "+0.0831" read beside "-1.60" on the same block)
+    tilt_text = "" if not math.isfinite(tilt) else "; its elasticity is the same" if two_places(abs(tilt)) == "0.00" \
+        else f"; its elasticity differs by {'+' if tilt > 0 else '−'}{two_places(abs(tilt))}"
     return f"{moved_text} on the signed curve{tilt_text}"
 
 

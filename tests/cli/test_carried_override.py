@@ -195,7 +195,11 @@ def test_carry_counts_a_held_series_among_those_left(carried, capsys):
     assert book.read_bytes() == before
     left = next(line for line in capsys.readouterr().err.splitlines() if line.startswith("left for a human: "))
     held = sum(1 for history in histories(book).values() if history.current["action"] == "hold")
-    assert held == 1 and f"held {held}" in left
+    # in show's words for the same series ("held 1" beside show's "new look (held)" read as two things)
+    assert held == 1 and left == f"left for a human: {held} (new look (held) {held})"
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
+    row = next(line for line in capsys.readouterr().out.splitlines() if line.startswith(HELD + " "))
+    assert " new look (held) " in row
 
 
 def test_signing_into_a_mistyped_ledger_is_refused_or_warned(carried, tmp_path, capsys):
@@ -279,3 +283,51 @@ def test_what_show_says_is_due_is_why_carry_leaves_it(tmp_path, capsys):
     counted = Counter({" ".join(part.split()[:-1]): int(part.split()[-1])
                        for part in left[left.index("(") + 1:-1].split(" · ")})
     assert counted == said and counted["stop flag"] >= 1
+
+
+def test_a_carried_override_at_a_new_plan_price_says_which_number_is_which(tmp_path, capsys):
+    """The plan moves the price (2.30 → 2.50) between cycles: `show` gave the carried refit's volume ("stands") and
+    the curve as signed at the new price ("the signed curve gives") as two numbers for one series, neither saying
+    which it was.  Each line now says it: the refit on these data (statsmodels OLS on the second cycle's rows) and
+    the curve as signed (numpy's polyval of the signed coefficients)."""
+    import statsmodels.api as sm
+    import pandas as pd
+    from fitcore.ledger.snapshot import from_records
+    from fitcore.results.read import read_results
+    from fitcore.review.sentences import fmt
+    from pricefold.show import number
+    book = tmp_path / "ledger.jsonl"
+    options = ["--date", "week", "--degrees", "1-2", "--no-loglog", "--quiet"]
+    write_weeks(tmp_path / "c1.csv", 40, seed=11)
+    assert main(["fit", str(tmp_path / "c1.csv"), *options, "--plan-price", "2.3",
+                 "-o", str(tmp_path / "r1.json")]) == 0
+    record = next(r for r in read_results(tmp_path / "r1.json")[1] if r["chosen"] == "poly1" and not r["flags"])
+    ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
+                                      results="ab" * 32, model="poly2", proposed="poly1", note=NOTE,
+                                      signed=from_records([(record, "poly2")], 0.95)[0])],
+                  ledger.Identity("ana", "ana", "host"))
+    write_weeks(tmp_path / "c2.csv", 44, seed=11)
+    assert main(["fit", str(tmp_path / "c2.csv"), *options, "--plan-price", "2.5", "-o", str(tmp_path / "r2.json"),
+                 "--ledger", str(book)]) == 0
+    assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(book), "--analyst", "bo", "-q"]) == 0
+    capsys.readouterr()
+    assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(book), "--product", record["key"]["product"]]) == 0
+    lines = [line.strip() for line in capsys.readouterr().out.splitlines()]
+    stands = next(line for line in lines if line.startswith("stands: "))
+    since = next(line for line in lines if line.startswith("since sign-off"))
+    rows = pd.read_csv(tmp_path / "c2.csv")
+    rows = rows[rows["product"] == record["key"]["product"]]
+    price = rows["price"].to_numpy(float)
+    fit = sm.OLS(rows["volume"].to_numpy(float), np.column_stack([np.ones_like(price), price, price ** 2])).fit()
+    refit = float(fit.predict(np.array([[1.0, 2.5, 6.25]]))[0])
+    assert ", carried by bo at " in stands
+    assert f"; its refit on these data at the plan price 2.50: volume {number(refit)} (" in stands
+    signed = histories(book)[record["key"]["product"]].decision["signed"]  # ana's override as she signed it
+    as_signed = float(np.polyval(signed["coef"][::-1], 2.5))
+    assert since.startswith("since sign-off (the curve as signed): Signed ")
+    assert f"at this plan's price 2.50 the signed curve gives {fmt(as_signed)} (" in since
+    assert number(refit) != fmt(as_signed)  # two numbers for one series: why each must say what it is
+    # elasticities in one format on the block: two decimals ("+0.0831" read beside "elasticity -1.60")
+    import re
+    said = re.findall(r"elasticity (?:differs by )?([+−-]?\d+\.\d+)", stands + " " + since)
+    assert len(said) == 2 and all(len(x.split(".")[1]) == 2 for x in said), said

@@ -358,6 +358,25 @@ def test_reading_a_results_file_as_the_ledger_is_refused_in_one_line(command, re
     assert results.read_bytes() == before
 
 
+@pytest.mark.parametrize("command", [
+    ("fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week", "-o", "{out}.json",
+     "--ledger", "{ledger}"),
+    ("fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week", "-o", "{out}",
+     "--ledger", "{ledger}", "--engine", "dask"),
+    ("triage", "{copy}", "--ledger", "{ledger}")])  # the results as their own ledger: "is also an input" (hostile/)
+def test_fit_and_triage_refuse_a_results_file_as_the_ledger_as_every_command_does(command, results, tmp_path):
+    """`fit --ledger r.json` said "the chain is broken" and `triage` opened read-only on "the ledger is broken": the
+    one line every other command gives, exit 2, the file left as it was and nothing written."""
+    copy = tmp_path / "copy.json"
+    copy.write_bytes(results.read_bytes())
+    before = results.read_bytes()
+    done = run_cli(*(part.format(results=results, ledger=results, copy=copy, out=tmp_path / "out") for part in command))
+    assert done.returncode == 2 and done.stdout == "" and done.stderr.count("\n") == 1, done.stderr
+    assert done.stderr.endswith(f"{results}: not a ledger: no line of it is a ledger record (a ledger holds one JSON "
+                                "record a line; a results, data or plan file given in its place?); nothing was done\n")
+    assert results.read_bytes() == before and sorted(p.name for p in tmp_path.iterdir()) == ["copy.json"]
+
+
 def test_show_says_which_decision_a_revoke_withdrew(tmp_path):
     """`bo revoke dovra juice` left the reader to find what was withdrawn: the line names the record, its action
     and model (the replay's rule: one's own latest standing decision on the series)."""

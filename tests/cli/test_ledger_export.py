@@ -91,3 +91,47 @@ def test_export_files_respect_the_umask_and_keep_an_existing_mode(tmp_path, sign
         os.umask(old)
     assert out.stat().st_mode & 0o777 == expected
     assert sorted(p.name for p in tmp_path.iterdir()) == ["out.csv"]  # no temporary left behind
+
+
+@pytest.mark.parametrize("name", ["family", "note", "status"])
+def test_a_key_column_named_like_an_export_column_gets_a_header_of_its_own(tmp_path, capsys, name):
+    """A segment called 'family' (or 'note', 'status') wrote two columns of one name: pandas read the second as
+    'family.1' and a script taking 'family' got the segment.  The key column is written as 'key_family', said in one
+    line, and pandas reads every column back: the segment's values as in the data, the export's own beside them."""
+    import pandas as pd
+    rng = np.random.default_rng(4)
+    rows = [f"product,{name},price,volume"]
+    for product in ("pears", "plums"):
+        for segment in ("North", "=South"):
+            for price in rng.uniform(1.0, 3.0, 20):
+                rows.append(f"{product},{segment},{price:.2f},{1000 - 200 * price + rng.normal(0, 10):.1f}")
+    data = tmp_path / "data.csv"
+    data.write_text("\n".join(rows) + "\n")
+    results, book = tmp_path / "r.json", tmp_path / "l.jsonl"
+    assert main(["fit", str(data), "--segment", name, "--degrees", "0-1", "--no-loglog", "-o", str(results),
+                 "--quiet"]) == 0
+    document = json.loads(results.read_text())
+    ledger.append(book, [ledger.Entry(series=s["key"], action="accept", fingerprint=s["fingerprint"],
+                                      results=ledger.results_digest(document), model=s["chosen"],
+                                      proposed=s["chosen"], note="seen") for s in document["series"]],
+                  ledger.Identity("ana", "ana", "h"))
+    capsys.readouterr()
+    out = tmp_path / "e.csv"
+    export(results, book, out, "--quiet", "--raw")
+    err = capsys.readouterr().err
+    assert err == f"pricefold ledger: {out}: key column '{name}' written as 'key_{name}' (the export has its own " \
+                  "column of that name)\n"
+    frame = pd.read_csv(out, keep_default_na=False)  # pandas: an outside reader of the CSV
+    assert list(frame.columns[:3]) == ["product", f"key_{name}", "status"] and frame.columns.is_unique
+    original = pd.read_csv(data).drop_duplicates(["product", name])
+    assert sorted(zip(frame["product"], frame[f"key_{name}"])) == sorted(zip(original["product"], original[name]))
+    assert set(frame["family"]) == {"poly"} and set(frame["note"]) == {"seen"} and set(frame["status"]) == {"accepted"}
+
+
+def test_a_renamed_key_header_clashes_with_no_other():
+    from pricefold.ledger_export import COLUMNS, key_headers
+    assert key_headers(["note", "key_note", "region"]) == {"note": "key_key_note", "key_note": "key_note",
+                                                           "region": "region"}
+    assert key_headers(["product", "region"]) == {"product": "product", "region": "region"}
+    headers = list(key_headers(["family", "key_family", "key_key_family"]).values()) + list(COLUMNS)
+    assert len(set(headers)) == len(headers)

@@ -100,7 +100,7 @@ def test_a_list_from_parquet_is_the_record_readers(cycle, capsys, run, args):
         states = {"pending", "accepted", "overridden", "held"} if run == 0 else {"stale", "accepted (carried)"}
         assert all(any(f" {state} " in line for line in lines) for state in states)
         if run == 1:  # backtests read: a ratio (the 5 characters after series, n, chosen, status and due)
-            assert any(line[93:98].strip() not in ("—", "") for line in lines[1:])
+            assert any(line[98:103].strip() not in ("—", "") for line in lines[1:])
 
 
 def test_a_list_reads_no_record_and_one_series_is_read_whole(cycle, capsys, monkeypatch):

@@ -143,7 +143,7 @@ def test_the_shift_sentence_gives_changes_as_changes():
               "volume_change": -0.13, "elasticity_change": 0.289, "shape_changed": True}
     text = shift_sentence(record, "loglog")
     assert text.endswith("This cycle's proposal, loglog, predicts 905 (−13% on the signed curve; its elasticity "
-                         "differs by +0.289).")
+                         "differs by +0.29).")
 
 
 def test_a_passed_backtest_under_a_new_proposal_is_due_a_look():
@@ -155,7 +155,9 @@ def test_a_passed_backtest_under_a_new_proposal_is_due_a_look():
 
 
 @pytest.mark.parametrize("change, tilt, proposed, signed_volume, said", [
-    (-0.004, 0.0001, 1037.0, 1041.0, "(0% on the signed curve; its elasticity differs by +0.0001)"),
+    (-0.004, 0.0831, 1037.0, 1041.0, "(0% on the signed curve; its elasticity differs by +0.08)"),
+    (-0.004, -0.0051, 1037.0, 1041.0, "(0% on the signed curve; its elasticity differs by −0.01)"),
+    (-0.004, 0.0049, 1037.0, 1041.0, "(0% on the signed curve; its elasticity is the same)"),
     (-0.0049, 0.0, 1036.0, 1041.0, "(0% on the signed curve; its elasticity is the same)"),
     (-7.45, 6.15, -265.4, 41.2, "(the signed curve: 41.20; no elasticity at a volume at or below zero)"),
     (0.2, -0.1, 60.0, -5.0, "(the signed curve: -5; no elasticity at a volume at or below zero)"),

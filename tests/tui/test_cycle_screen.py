@@ -14,7 +14,7 @@ import pytest
 
 from fitcore import ledger
 from pricefold.cli import main
-from tests.tui.conftest import make_app, screen_text, started
+from tests.tui.conftest import make_app, screen_text, started, until
 from tui.factory import sample_source
 from tui.listing import FILTERS
 
@@ -139,3 +139,37 @@ def test_a_screen_on_last_cycles_results_cannot_replace_a_decision_on_this_cycle
         assert copy.read_bytes() == before and "\n" not in str(info.value)
     assert "rows to 2026-11-30; the rows shown end 2026-11-23" in str(info.value)  # the pending one: dates alone
     assert bo.last_date(0) == "2026-11-23" and ana.last_date(0) == "2026-11-30"
+
+
+async def test_keys_the_newer_decision_refuses_are_hidden_and_the_flag_says_what_is_due(next_cycle, tmp_path):
+    """bo on last cycle's results, the series carried to this cycle's rows: the ledger refuses an accept, an
+    override or a hold there, so the key line does not offer them (a note still can be added), and the stale
+    flag says what the status line says is due instead of "the data behind the last sign-off have changed"."""
+    from tui.app import TriageApp
+    from tui.factory import open_stored_session
+    copy, out = stored_next_cycle(next_cycle, tmp_path)
+    assert main(["ledger", "carry", str(out), "--ledger", str(copy), "-q"]) == 0
+    bo = ledger.Identity("bo", "bo", "test-host")
+    app = TriageApp(lambda progress: open_stored_session(SAMPLE / "results.parquet", copy, bo, None, progress))
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        newer = [s for s in range(session.results.n_series) if session.decided_on_newer(s)]
+        assert len(newer) == 140  # the carried series (accept-unflagged's 155 less the 15 left for a human)
+        session.bring(newer[0])
+        app.screen.refresh_all()
+        await until(pilot, lambda: "n note" in screen_text(app) and "a accept" not in screen_text(app))
+        text = screen_text(app)
+        assert "o override" not in text and "h hold" not in text
+        before = copy.read_bytes()
+        await pilot.press("a", "h")
+        await pilot.pause()
+        assert copy.read_bytes() == before and "Not recorded" not in screen_text(app)
+        await pilot.press("enter")
+        await until(pilot, lambda: "stale: Decided on newer data: open the newer results." in screen_text(app))
+        assert "behind the last sign-off" not in screen_text(app)
+        await pilot.press("escape")
+        pending = next(s for s in range(session.results.n_series) if session.status[s] == "pending"
+                       and session.results.chosen[s] >= 0)
+        session.bring(pending)
+        app.screen.refresh_all()
+        await until(pilot, lambda: "a accept" in screen_text(app) and "h hold" in screen_text(app))

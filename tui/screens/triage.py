@@ -176,6 +176,8 @@ class TriageScreen(Screen):
             return False
         if action in ("accept", "override", "nothing_to_override", "note", "hold") and (s is None or session.waiting):
             return False
+        if action in ("accept", "override", "nothing_to_override", "hold") and session.decided_on_newer(s):
+            return False  # the ledger refuses them: the series is due a look in the newer results
         # Python booleans only: Textual hides a key for ``False`` itself, and numpy's False is not that
         if action == "accept":  # not where it stands accepted on this data: the ledger would refuse it
             return bool(results.chosen[s] >= 0) and session.status[s] != "accepted"

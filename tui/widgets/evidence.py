@@ -16,6 +16,7 @@ from textual.app import ComposeResult
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
+from fitcore.ledger.rules import NEWER_DUE
 from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.control_words import effect_words
@@ -189,7 +190,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         standing = session.standing(s)
         due = session.due(s)
         said = (f"status {session.status[s]}" + (f" — due: {due}" if due else "")
-                + (f": {describe(standing)}" if standing else ""))
+                + ((f"; {describe(standing)}" if due else f": {describe(standing)}") if standing else ""))
         news = session.news is not None and s == session.current
         if after:
             said += " · " + about.strip()
@@ -210,7 +211,10 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         for f in flags:
             text.append(f"{'!' if f['severity'] == 'stop' else '?'} [{f['severity']}] {f['code']}: ",
                         style=SEVERITY_STYLE[f["severity"]])
-            text.append(clean(f["message"]) + "\n")
+            message = f["message"]
+            if f["code"] == "stale" and self.session.decided_on_newer(s):  # what is due, as the status line says
+                message = NEWER_DUE[0].upper() + NEWER_DUE[1:] + "."
+            text.append(clean(message) + "\n")
         return text
 
     def signed_shown(self, s: int) -> dict | None:
