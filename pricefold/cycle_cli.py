@@ -19,7 +19,7 @@ from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, n
 from fitcore.text import clean
 
 from .interrupts import held
-from .ledger_cli import NOT_A_LEDGER, identity, not_a_ledger, open_ledger, parse_head
+from .ledger_cli import NOT_A_LEDGER, identity, key_mismatch, not_a_ledger, open_ledger, parse_head, refuse_key_mismatch
 
 
 def add_fit_ledger_option(parser) -> None:
@@ -153,8 +153,12 @@ def _die_with(parent: int) -> None:
 def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
     """``(diagnosis with 'shifted', backtest)`` of ``results`` (a fit, rows loaded) against the ledger."""
     from fitcore.ledger.backtest import backtest
+    from fitcore.ledger.key_columns import mismatch
     from fitcore.review.flags import mark_shifted
     source, standing = ahead.result()
+    said = mismatch(list(results.data.key_names), standing.series, str(ahead.path))
+    if said:  # the fit stands on its own; only the backtest finds nothing (and carry refuses these results)
+        print(f"pricefold fit: warning: {said}; nothing was backtested", file=sys.stderr)
     found = backtest(results, standing, thresholds, source)
     return mark_shifted(diagnosis, found), found
 
@@ -169,7 +173,23 @@ def backtest_line(found) -> str:
     return f"ledger: {total:,} signed series on changed data — backtest {parts}; shifted {int(found.shifted.sum()):,}"
 
 
+def backtested_elsewhere(results: Path, header: dict, ledger_path: Path) -> str | None:
+    """"RESULTS: backtested against L, not OTHER" when the results were fitted with ``--ledger`` on another
+    ledger than ``ledger_path`` (None: on this one, or without a ledger).  Their backtest and ``shifted`` flags
+    speak of that ledger's signers: ``carry`` refuses them, ``show --ledger`` leaves them out."""
+    source = header.get("ledger")
+    if not source or same_file(Path(source["path"]), ledger_path):
+        return None
+    return f"{results}: backtested against {clean(str(source['path']))}, not {ledger_path}"
+
+
 # -- show --ledger ---------------------------------------------------------------------------------------
+
+def without_backtest(record: dict) -> dict:
+    """A results record less its backtest and its ``shifted`` flag (both of another ledger's signed curves)."""
+    flags = [flag for flag in record["flags"] if flag["code"] != "shifted"]
+    return {**record, "backtest": None, "flags": flags}
+
 
 def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | None]:
     """(status in the ledger, what it needs) of a results record (``short``: for the list's column)."""
@@ -237,12 +257,25 @@ def _minute(record: dict) -> str:
     return clean(str(record["at"])[:16].replace("T", " ") + " UTC")
 
 
-def show_with_ledger(records: list[dict], ledger_path: Path, binary=()) -> str:
-    """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list."""
+def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: dict | None = None,
+                     results: Path | None = None) -> str:
+    """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list.  Results
+    (``header``, from the file ``results``) keyed by other columns than the ledger's series: a warning line on
+    stderr; backtested against another ledger: that backtest and its ``shifted`` flags left out, said in one
+    line on stderr."""
     from fitcore.review.sentences import shift_sentence
 
     from .show import detail, in_attention_order, key_cell
     book = open_ledger(ledger_path, must_exist=True)
+    if header is not None:
+        said = key_mismatch(header, book, ledger_path)
+        if said:
+            print(f"pricefold show: {results}: warning: {said}; every series reads as pending", file=sys.stderr)
+        foreign = backtested_elsewhere(results, header, ledger_path)
+        if foreign:
+            print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "
+                  "--ledger on this ledger)", file=sys.stderr)
+            records = [without_backtest(record) for record in records]
     if len(records) == 1:
         record = records[0]
         status, needs = ledger_state(record, book)
@@ -300,13 +333,53 @@ def _near_best(record: dict, name: str) -> bool:
     return mine["cv_mse"] <= best["cv_mse"] + (best["cv_se"] or 0.0)
 
 
+def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_date: str | None,
+                histories: dict) -> str | None:
+    """Carry's reason for leaving a tested series, asked as ``show --ledger`` and the screen ask it: a decision
+    standing on newer data than these rows (``decided_on_newer``) first, then ``left_for_human``'s ``why``.
+    Only an untested series can be one: a decision on newer data leaves no rows after its last date."""
+    from fitcore.ledger.backtest import FAILED, PASSED
+    if status in (PASSED, FAILED):
+        return why
+    if decided_on_newer(key, fingerprint, last_date, histories.get(series_id(key))):
+        return NEWER_DUE_SHORT
+    return why
+
+
+def held_left(keys: list[dict], fingerprints: list, last_dates: list, histories: dict) -> Counter:
+    """What ``show --ledger`` says each held series of these results is due (``keys``, ``fingerprints``,
+    ``last_dates``: the series whose standing decision is a hold), in carry's count: a hold on other data is
+    a new look (or, made on newer data, decided on newer data); a hold on these very data is due nothing."""
+    from fitcore.ledger.backtest import HELD_DUE_SHORT
+    left: Counter = Counter()
+    for key, fingerprint, last_date in zip(keys, fingerprints, last_dates):
+        history = histories.get(series_id(key))
+        if history is None or history.status(fingerprint) != "stale":
+            continue
+        newer = decided_on_newer(key, fingerprint, last_date, history)
+        left[NEWER_DUE_SHORT if newer else HELD_DUE_SHORT] += 1
+    return left
+
+
+def held_keys(histories: dict) -> list[dict]:
+    """The keys of the series whose standing decision is a hold (a hold signs no curve: no backtest names it)."""
+    return [h.current["series"] for h in histories.values() if h.current is not None and h.current["action"] == "hold"]
+
+
 def plan_from_records(records, level: float, controls: list[str] | None = None,
-                      overrides: frozenset = frozenset()) -> tuple[list[Carryable], Counter]:
+                      overrides: frozenset = frozenset(), histories: dict | None = None
+                      ) -> tuple[list[Carryable], Counter]:
     """Which series may be carried, from results records (JSON; small runs), and why the others may not
-    (``left_for_human``; ``overrides``: the digests of the ledger's overrides)."""
+    (``newer_first``, ``left_for_human``, ``held_left``; ``overrides``: the digests of the ledger's overrides;
+    ``histories``: the ledger's)."""
     from fitcore.ledger.backtest import left_for_human
     from fitcore.ledger.snapshot import from_records
+    histories, records = histories or {}, list(records)
     stops, keep, left = _stop_codes(), [], Counter()
+    held = {series_id(key) for key in held_keys(histories)}
+    mine = [record for record in records if held and series_id(record["key"]) in held]
+    left.update(held_left([r["key"] for r in mine], [r["fingerprint"] for r in mine],
+                          [r.get("last_date") for r in mine], histories))
     for record in records:
         bt = record.get("backtest")
         if bt is None:
@@ -315,6 +388,7 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
         near = _near_best(record, bt["candidate"])
         why = left_for_human(bt["status"], "shifted" in codes, bool(set(codes) & stops), record["chosen"] is not None,
                              bt["candidate"] != record["chosen"], bt["carries"] in overrides and near)
+        why = newer_first(why, bt["status"], record["key"], record["fingerprint"], record.get("last_date"), histories)
         if why is not None:
             left[why] += 1
         else:
@@ -326,23 +400,40 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
     return [c for _, c in keep], left
 
 
-def plan_from_stored(path: Path, overrides: frozenset = frozenset()) -> tuple[list[Carryable], Counter]:
+def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: dict | None = None
+                     ) -> tuple[list[Carryable], Counter]:
     """The same from a Parquet results file or folder, column by column (no Python object per candidate);
-    the reason a series is left, series by series through the same rule (``left_for_human``)."""
+    the reason a series is left, series by series through the same rules (``newer_first``, ``left_for_human``,
+    ``held_left``)."""
     import numpy as np
 
     from fitcore.arrays import integers, objects
-    from fitcore.ledger.backtest import left_for_human
+    from fitcore.data.keys import SeriesKeys
+    from fitcore.ledger.backtest import FAILED, PASSED, left_for_human
     from fitcore.ledger.snapshot import from_results
     from fitcore.results.stored import stored_results
     from fitcore.review.flags import CODES
+    from fitcore.review.intervals import last_dates
+    histories = histories or {}
     results, diagnosis = stored_results(path)
     bt = results.stored_backtest or {}
     status = bt.get("status", np.full(results.n_series, None, dtype=object))
     tested = np.flatnonzero(status != None)  # noqa: E711
     chosen = results.chosen
     names = results.names
-    left = Counter()
+    data = results.data
+    days = last_dates(results)
+
+    def series_of(index):  # keys, fingerprints and last dates of series ``index``
+        index = np.asarray(index, dtype=np.int64)
+        keys = [dict(zip(data.key_names, values)) for values in
+                zip(*(objects(data.keys[name].take(integers(index))).tolist() for name in data.key_names))]
+        last = [None] * len(index) if days is None else \
+            [None if np.isnat(d) else str(d) for d in days[index].astype("datetime64[D]")]
+        return keys, objects(data.fingerprints.take(integers(index))).tolist(), last
+    held = held_keys(histories)
+    at = SeriesKeys.of(data).indices_of(held) if held else np.zeros(0, np.int64)
+    left = held_left(*series_of(at[at >= 0]), histories)
     if not len(tested):
         return [], left
     shifted, stop = diagnosis.flagged("shifted")[tested], diagnosis.n_stop()[tested] > 0
@@ -361,6 +452,9 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset()) -> tuple[li
     changed = np.array([None if c < 0 else names[c] for c in chosen[tested].tolist()], dtype=object) != candidate
     why = [left_for_human(*args) for args in zip(status[tested].tolist(), shifted.tolist(), stop.tolist(),
                                                  has_model.tolist(), changed.tolist(), (override & near).tolist())]
+    untested = np.flatnonzero(~np.isin(status[tested].astype(str), [PASSED, FAILED]))
+    for i, key, fingerprint, last in zip(untested.tolist(), *series_of(tested[untested])):
+        why[i] = newer_first(why[i], status[tested[i]], key, fingerprint, last, histories)
     left.update(w for w in why if w is not None)
     mask = np.array([w is None for w in why], dtype=bool) & (signed >= 0)
     ok, signed, near = tested[mask], signed[mask], near[mask]
@@ -371,10 +465,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset()) -> tuple[li
         mine = np.flatnonzero(signed == c)
         for i, snapshot in zip(mine.tolist(), from_results(results, ok[mine], c)):
             snapshots[i] = snapshot
-    data = results.data
-    keys = [dict(zip(data.key_names, values)) for values in
-            zip(*(objects(data.keys[name].take(integers(ok))).tolist() for name in data.key_names))]
-    fingerprints = objects(data.fingerprints.take(integers(ok))).tolist()
+    keys, fingerprints, _ = series_of(ok)
     raised = diagnosis.raised[ok]  # (series, flags) → one number a series (bit j: flag j): a few distinct sets
     bits = 1 << np.arange(raised.shape[1], dtype=np.int64 if raised.shape[1] < 63 else object)
     combos, which = np.unique(raised.astype(bits.dtype) @ bits, return_inverse=True)
@@ -401,19 +492,20 @@ def _carry(args) -> int:
     if not source:
         raise ledger.LedgerError(f"{args.results}: not made by 'pricefold fit --ledger', so it holds no backtest to "
                                  "carry on; fit again with --ledger")
-    if not same_file(Path(source["path"]), args.ledger):
-        raise ledger.LedgerError(f"{args.results}: backtested against {source['path']}, not {args.ledger}; "
-                                 "fit again with --ledger on this ledger")
+    foreign = backtested_elsewhere(args.results, header, args.ledger)
+    if foreign:
+        raise ledger.LedgerError(f"{foreign}; fit again with --ledger on this ledger")
     header.pop("key_columns", None)
     digest = ledger.results_digest(header)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
+    refuse_key_mismatch(args.results, header, book, args.ledger)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
-        plan, left = plan_from_stored(args.results, overrides)
+        plan, left = plan_from_stored(args.results, overrides, book.histories)
     else:
         from fitcore.ledger.snapshot import header_terms  # numpy and the families: not for every --help
         plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95),
-                                       header_terms(header["settings"]), overrides)
+                                       header_terms(header["settings"]), overrides, book.histories)
     read = str(source.get("head", ""))
     witness = parse_head(read)
     if witness is None or not book.holds(*witness):
@@ -421,7 +513,6 @@ def _carry(args) -> int:
         raise ledger.LedgerError(f"{args.ledger}: no longer holds record {said}…, the head 'fit --ledger' "
                                  f"read (it now ends at {book.head_text[:20]}…: records were removed or the file "
                                  "replaced); nothing was carried")
-    from fitcore.ledger.backtest import HELD_DUE_SHORT
     outcome: Counter = Counter()
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
@@ -443,10 +534,7 @@ def _carry(args) -> int:
                     yield entry
 
     written = book.append(decide, identity(args.analyst))
-    left.update(outcome)
-    # a hold signs no curve, so no backtest names it, but it waits for a human as much as the rest
-    left[HELD_DUE_SHORT] += sum(1 for history in book.histories.values()
-                                if history.current is not None and history.current["action"] == "hold")
+    left.update(outcome)  # held series (a hold signs no curve: no backtest names it) are counted in ``left``
     if not args.quiet:
         already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
         rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"

@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import sys
 import time
-from collections import Counter
 from pathlib import Path
 
 from .interrupts import check, checked, noticed
@@ -99,7 +98,7 @@ def arrow_on_malloc() -> None:
 
 
 def warm_engine():
-    """A thread loading numba's cached loops (and pandas) by fitting a few invented series, started
+    """A thread loading numba's cached loops by fitting a few invented series, then pandas, started
     while this thread reads the data (pyarrow reads without holding the interpreter); None when the
     cache does not hold them yet: then the fit compiles them itself, as before, and a failure to read
     the data ends the run without waiting for a compiler."""
@@ -115,7 +114,6 @@ def warm_engine():
 
 def _fit_invented() -> None:
     import numpy as np
-    import pandas  # noqa: F401  (the loader's next need after the read)
 
     from fitcore import fit_batch, from_columns
     from fitcore.fit.settings import FitSettings
@@ -128,6 +126,10 @@ def _fit_invented() -> None:
         diagnose(fit_batch(data, FitSettings()))
     except Exception:  # only a warm-up: the real fit meets and reports any trouble itself
         pass
+    # Then pandas, which the fit no longer needs (its key hashes are computed with numpy) but the results'
+    # Arrow columns do (``pyarrow.array`` imports it): imported after the compiled loops the fit waits for,
+    # not before them, and never by the fit's own thread while it holds the import's lock.
+    import pandas  # noqa: F401
 
 
 def _fit_locally(args, run, ahead) -> int:
@@ -248,8 +250,9 @@ def first_words(rejects, columns) -> str:
 def summary(results, diagnosis):
     """The closing line's counts, taken now; the line itself given the seconds and the results' name
     (so the fit need not be kept until the end)."""
+    import numpy as np
     names = results.names
-    chosen = Counter(names[c] if c >= 0 else "none" for c in results.chosen.tolist())
-    counts = (results.n_series, results.data.n_rows, {name: chosen[name] for name in [*names, "none"]},
+    tally = np.bincount(np.asarray(results.chosen) + 1, minlength=len(names) + 1).tolist()  # "none" (-1) first
+    counts = (results.n_series, results.data.n_rows, dict(zip([*names, "none"], [*tally[1:], tally[0]])),
               diagnosis.counts(), int((~diagnosis.raised.any(axis=1)).sum()))
     return lambda seconds, output: summary_line(*counts, f"in {seconds:.2f} s", str(output))

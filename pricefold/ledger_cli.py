@@ -57,6 +57,8 @@ def add_parser(commands):
     show = sub.add_parser("show", help="the decisions, oldest first")
     show.add_argument("ledger", type=Path, metavar="LEDGER")
     show.add_argument("--product", action="append", default=[], metavar="P", help="only this product (repeatable)")
+    show.add_argument("--product-column", default=None, metavar="COL",
+                      help="the key column that names the product (default: the settings file's, else product)")
     export = sub.add_parser("export", help="the current decision per series, as CSV for planning systems")
     export.add_argument("ledger", type=Path, metavar="LEDGER")
     export.add_argument("--results", type=Path, required=True, metavar="RESULTS")
@@ -138,6 +140,21 @@ def open_ledger(path: Path, *, refuse: tuple[str, ...] = (), must_exist: bool = 
     return book
 
 
+def key_mismatch(header: dict, book: ledger.Ledger, ledger_path: Path) -> str | None:
+    """Why a results file (its ``header``) and the ledger ``book`` share no series — their key columns differ
+    (``fitcore.ledger.key_columns.mismatch``, the one check every command where results meet a ledger asks) —
+    in one clause; None when they match or the ledger is empty."""
+    from fitcore.ledger.key_columns import mismatch, results_columns
+    return mismatch(results_columns(header), (h.latest["series"] for h in book.histories.values()), str(ledger_path))
+
+
+def refuse_key_mismatch(results: Path, header: dict, book: ledger.Ledger, ledger_path: Path) -> None:
+    """``key_mismatch`` as a refusal (exit 2, one line), for the commands that write to the ledger or from it."""
+    said = key_mismatch(header, book, ledger_path)
+    if said:
+        raise ledger.LedgerError(f"{results}: {said}; nothing was written")
+
+
 def run_verify(args) -> int:
     witness = None
     if args.head is not None:
@@ -194,15 +211,39 @@ def verdict(book: ledger.Ledger, witness: tuple[int, str] | None, name: str) -> 
     return 1, lines + [f"{name}: does not hold the witnessed record {seq}:{digest[:12]}…; {why}"]
 
 
+def product_column(given: str | None) -> str:
+    """The key column naming the product: a record's ``series`` holds its key columns sorted by name, so the
+    first is not the product where a segment sorts before it (``family``, ``note``); ``--product-column``, else
+    ``[columns] product`` of the settings file, else ``product``, as ``fit`` names it."""
+    if given:
+        return given
+    from fitcore.data.config import load_config
+
+    from .options import settings_file_keys
+    return str(load_config(None, settings_file_keys()).get("columns", {}).get("product") or "product")
+
+
+def product_first(key: dict, product: str) -> dict:
+    """A series key with its product column first, the rest as recorded (as results and the screen show it)."""
+    return {product: key[product], **key} if product in key else key
+
+
 def run_show(args) -> int:
     book = open_ledger(args.ledger, must_exist=True)
+    product = product_column(args.product_column)
+    keys = [h.latest["series"] for h in book.histories.values()] if args.product else []
+    if keys and not any(product in key for key in keys):  # a filter that could match nothing: say why
+        from fitcore.ledger.key_columns import key_sets
+        sets = " or ".join(", ".join(map(clean, sorted(names))) for names in key_sets(keys))
+        raise ledger.LedgerError(f"{args.ledger}: no series has a product column {clean(product)!r} (the key "
+                                 f"columns: {sets}); name it with --product-column")
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
     histories = {}  # replayed as listed: a revoke names the decision it withdrew
     for r in book.records:
         withdrawn = (own_standing(histories.get(series_id(r["series"])), r["analyst"], r.get("os_user"))
                      if r["action"] == "revoke" else None)
         apply(histories, [r])
-        if args.product and next(iter(r["series"].values()), None) not in args.product:
+        if args.product and r["series"].get(product) not in args.product:
             continue
         model = clean(r.get("model") or "")
         if r["action"] == "override":
@@ -216,7 +257,7 @@ def run_show(args) -> int:
             who = f"{who} ({clean(r['os_user'])})"
         note = f" — {clean(r['note'])}" if r.get("note") else ""
         print(f"#{r['seq']:<5} {clean(r['at'])}  {who:<12} {r['action']:<8} {model:<22} "
-              f"{key_text(r['series'])}{note}")
+              f"{key_text(product_first(r['series'], product))}{note}")
     return 0
 
 
@@ -233,6 +274,7 @@ def run_accept_unflagged(args) -> int:
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
+        refuse_key_mismatch(args.results, header, book, args.ledger)
         for key, fingerprint, chosen, snapshot in proposals:
             history = book.histories.get(series_id(key))
             if history is not None and history.current is not None:

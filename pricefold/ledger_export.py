@@ -25,7 +25,7 @@ from fitcore.errors import DataError
 from fitcore.ledger.replay import series_id
 from fitcore.text import clean
 
-from .ledger_cli import open_ledger
+from .ledger_cli import open_ledger, refuse_key_mismatch
 
 RISKY = ("=", "+", "-", "@", "\t", "\r")
 RISKY_FIRST = frozenset(RISKY)  # one character each: ``text[:1] in RISKY_FIRST`` is ``text.startswith(RISKY)``
@@ -48,6 +48,7 @@ def run_export(args) -> int:
     else:
         header, parts = results_in_parts(args.results)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN,), must_exist=True)
+    refuse_key_mismatch(args.results, header, book, args.ledger)  # else every row "pending", matching nothing
     from fitcore.outputs import check_outputs
     from fitcore.results.read import results_inputs
     check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),

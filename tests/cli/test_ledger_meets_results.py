@@ -1,0 +1,143 @@
+"""Where results meet a ledger: the key columns must be the ledger's series' (one shared check), ``ledger show
+--product`` filters on the product column, ``show --ledger`` leaves out a backtest against another ledger, and
+carry counts what ``show --ledger`` says each series is due.
+
+The data are invented weekly series (``test_cycle.write_weeks``); what is checked is pricefold's bookkeeping:
+which records are written, which lines are printed, and that carry's counts equal ``show --ledger``'s dues.
+"""
+from __future__ import annotations
+
+import csv
+from collections import Counter
+
+from fitcore import ledger
+from pricefold.cli import main
+
+from .test_cycle import fit, write_weeks
+
+
+def with_segment(source, out, name: str, values=("North", "East")) -> None:
+    """The rows of ``source`` once per segment value, in a segment column called ``name``."""
+    rows = list(csv.reader(open(source, newline="")))
+    with open(out, "w", newline="") as handle:
+        writer = csv.writer(handle)
+        writer.writerow([rows[0][0], name, *rows[0][1:]])
+        writer.writerows([row[0], value, *row[1:]] for value in values for row in rows[1:])
+
+
+def fit_segmented(data, out, segment, ledger_path=None):
+    args = ["fit", str(data), "--segment", segment, "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+            "--no-loglog", "-o", str(out), "--quiet"]
+    assert main(args + (["--ledger", str(ledger_path)] if ledger_path else [])) == 0
+
+
+def test_results_keyed_by_other_columns_are_refused_by_writers(tmp_path, capsys):
+    write_weeks(tmp_path / "w.csv", 40)
+    with_segment(tmp_path / "w.csv", tmp_path / "region.csv", "region")
+    with_segment(tmp_path / "w.csv", tmp_path / "status.csv", "status")
+    fit_segmented(tmp_path / "region.csv", tmp_path / "region.json", "region")
+    fit_segmented(tmp_path / "status.csv", tmp_path / "status.json", "status")
+    book = tmp_path / "L.jsonl"
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "region.json"), "--ledger", str(book), "-q"]) == 0
+    before = book.read_bytes()
+    capsys.readouterr()
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "status.json"), "--ledger", str(book)]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1
+    assert "keyed by product, status, but those in" in err and "by product, region" in err
+    assert book.read_bytes() == before  # nothing appended
+    out = tmp_path / "e.csv"
+    assert main(["ledger", "export", str(book), "--results", str(tmp_path / "status.json"), "-o", str(out)]) == 2
+    assert "product, status" in capsys.readouterr().err and not out.exists()
+    # show --ledger reads on, with one warning line
+    assert main(["show", str(tmp_path / "status.json"), "--ledger", str(book)]) == 0
+    said = capsys.readouterr()
+    assert "warning" in said.err and "product, region" in said.err and "pending" in said.out
+    # the results keyed as the ledger's series still go through; an empty ledger takes any key columns
+    assert main(["ledger", "export", str(book), "--results", str(tmp_path / "region.json"), "-o", str(out)]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "status.json"), "--ledger",
+                 str(tmp_path / "new.jsonl"), "-q"]) == 0
+    assert ledger.verify(tmp_path / "new.jsonl") == []
+
+
+def test_ledger_show_filters_on_the_product_column(tmp_path, capsys):
+    write_weeks(tmp_path / "w.csv", 40)
+    for segment in ("family", "note", "n"):  # each sorts before "product" in a record's series
+        with_segment(tmp_path / "w.csv", tmp_path / f"{segment}.csv", segment)
+        fit_segmented(tmp_path / f"{segment}.csv", tmp_path / f"{segment}.json", segment)
+        book = tmp_path / f"{segment}.jsonl"
+        assert main(["ledger", "accept-unflagged", str(tmp_path / f"{segment}.json"), "--ledger", str(book), "-q"]) == 0
+        capsys.readouterr()
+        assert main(["ledger", "show", str(book), "--product", "item 1"]) == 0
+        lines = capsys.readouterr().out.splitlines()
+        assert len(lines) == 2 and all(line.endswith(("item 1 · North", "item 1 · East")) for line in lines)
+        assert main(["ledger", "show", str(book), "--product", "North"]) == 0
+        assert capsys.readouterr().out == ""
+
+
+def test_show_leaves_out_a_backtest_against_another_ledger(tmp_path, capsys):
+    book = tmp_path / "L.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q",
+                 "--analyst", "ana"]) == 0
+    other = tmp_path / "other.jsonl"
+    other.write_bytes(book.read_bytes())
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    capsys.readouterr()
+    assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(book), "--product", "item 1"]) == 0
+    assert "since sign-off" in capsys.readouterr().out  # against its own ledger: shown
+    assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(other), "--product", "item 1"]) == 0
+    said = capsys.readouterr()
+    assert "since sign-off" not in said.out and "backtest passed" not in said.out
+    assert said.err.count("\n") == 1 and f"backtested against {book}, not {other}" in said.err
+    assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(other)]) == 2
+    assert f"backtested against {book}, not {other}" in capsys.readouterr().err  # carry's same words
+
+
+def show_dues(results, book, capsys) -> Counter:
+    """``show --ledger``'s due column, counted (series with nothing due left out)."""
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    start = lines[0].index("due")
+    return Counter(line[start:start + 21].strip() for line in lines[1:] if line[start:start + 21].strip() != "—")
+
+
+def carry_left(results, book, capsys) -> Counter:
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(results), "--ledger", str(book)]) == 0
+    line = next(line for line in capsys.readouterr().err.splitlines() if line.startswith("left for a human"))
+    inside = line[line.index("(") + 1:line.rindex(")")]
+    left = Counter() if inside == "none" else Counter(
+        {part.rsplit(" ", 1)[0]: int(part.rsplit(" ", 1)[1]) for part in inside.split(" · ")})
+    left.pop("changed since the fit", None)  # carry's own: the ledger moved after the fit (show has no fit's head)
+    return left
+
+
+def test_carry_counts_what_show_says_is_due(tmp_path, capsys):
+    book = tmp_path / "L.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    second = fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(book), "-q"]) == 0
+    held = second["item 2"]  # held on these very data: show says held, nothing due
+    latest = ledger.Ledger(book).histories
+    from fitcore.ledger.replay import series_id
+    ledger.append(book, [ledger.Entry(series=held["key"], action="hold", fingerprint=held["fingerprint"],
+                                      results="ab" * 32, note="look later", last_date=held["last_date"],
+                                      supersedes=latest[series_id(held["key"])].latest["digest"])],
+                  ledger.Identity("ana", "ana", "host"))
+    assert carry_left(tmp_path / "r2.json", book, capsys) == show_dues(tmp_path / "r2.json", book, capsys)
+    # last cycle's data fitted again against the ledger, now signed on newer data
+    for name in ("old.json", "old.parquet"):
+        fit(tmp_path / "c1.csv", tmp_path / "old.json", book) if name.endswith("json") else main(
+            ["fit", str(tmp_path / "c1.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+             "--no-loglog", "-o", str(tmp_path / name), "--quiet", "--ledger", str(book)])
+        dues = show_dues(tmp_path / name, book, capsys)
+        assert dues["decided on newer data"] >= 1 and "no new rows" not in dues
+        left = carry_left(tmp_path / name, book, capsys)
+        assert left == dues and "new look (held)" not in left
