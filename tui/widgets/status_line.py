@@ -46,13 +46,15 @@ def status_text(session, width: int) -> Text:
     return text
 
 
+SIDE_FILE = "the next append moves it to a side file"  # how the reader's notes end (fitcore.ledger.reader)
+
+
 def cut_off_text(book) -> str:
     """'K.jsonl's last append was cut off: line 2: incomplete batch (…), not counted; the next decision moves it
     to K.jsonl.torn-<UTC time>' — the reader's own words (as every command prints them), for the screen."""
     name = clean(book.path.name)
-    notes = "; ".join(clean(str(note)).replace("the next append moves it to a side file", "") .rstrip("; ")
-                      for note in book.notes)
-    return (f"{name}'s last append was cut off: {notes}; the next decision moves it to {name}.torn-<UTC time>")
+    notes = "; ".join(clean(str(note)).replace(SIDE_FILE, "").rstrip("; ") for note in book.notes)
+    return f"{name}'s last append was cut off: {notes}; the next decision moves it to {name}.torn-<UTC time>"
 
 
 def _counts_lines(session, width: int) -> Text:
