@@ -373,4 +373,9 @@ def entry() -> None:
     """The installed ``pricefold`` command (and ``python -m pricefold``): ``main``, then the process ends
     without Python's teardown (``process_end``)."""
     from .process_end import end_process
-    end_process(main())
+    try:
+        code = main()
+    except KeyboardInterrupt:  # before ``main`` knows the command: while the parser's modules load
+        print("pricefold: interrupted; nothing was written", file=sys.stderr)
+        code = 130
+    end_process(code)

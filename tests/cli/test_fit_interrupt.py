@@ -161,3 +161,16 @@ def test_an_interrupt_swallowed_while_another_thread_runs_is_raised_at_the_next_
         stop.set()
         other.join()
     interrupts.check()  # outside the block: nothing recorded
+
+
+def test_ctrl_c_before_the_command_starts_ends_with_one_line_and_130():
+    """Ctrl+C while the parser's modules load (the first ~0.3 s of any command) went past ``main``'s handler:
+    a traceback from numpy or ``re`` and death by signal.  Here the interrupt is raised where the parser is
+    built, as a real one lands there."""
+    code = ("import sys, pricefold.cli as cli\n"
+            "def interrupted(): raise KeyboardInterrupt\n"
+            "cli.build_parser = interrupted\n"
+            "sys.argv = ['pricefold', 'fit', 'x.csv', '-o', 'y.json']\n"
+            "cli.entry()\n")
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    assert (run.returncode, run.stderr) == (130, "pricefold: interrupted; nothing was written\n")
