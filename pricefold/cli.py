@@ -46,7 +46,7 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--strict", action="store_true",
                      help="fail (exit 2, nothing written) if any row is rejected, instead of fitting the usable rows")
     fit.add_argument("-q", "--quiet", action="store_true", help="no progress bar and no summary line")
-    from .cycle_cli import add_fit_ledger_option
+    from .ledger_options import add_carry_parser, add_fit_ledger_option, add_ledger_parser
     add_fit_ledger_option(fit)
     scale = fit.add_argument_group("engine")
     scale.add_argument("--engine", choices=("local", "dask"), default="local",
@@ -91,8 +91,6 @@ def build_parser() -> argparse.ArgumentParser:
     demo.add_argument("--season", type=int, default=0, choices=range(5), metavar="K",
                       help="hold K sine/cosine pairs of the season fixed, 0 to 4 (default: 0)")
 
-    from .cycle_cli import add_carry_parser
-    from .ledger_cli import add_parser as add_ledger_parser
     add_carry_parser(add_ledger_parser(commands))
     from .report.command import add_parser as add_report_parser
     add_report_parser(commands)

@@ -22,27 +22,6 @@ from .interrupts import held
 from .ledger_cli import NOT_A_LEDGER, identity, key_mismatch, not_a_ledger, open_ledger, parse_head, refuse_key_mismatch
 
 
-def add_fit_ledger_option(parser) -> None:
-    parser.add_argument("--ledger", type=Path, default=None, metavar="LEDGER",
-                        help="backtest every signed series whose data changed against the rows since, flag "
-                             "'shifted' ones, and record the ledger's head in the results (for 'ledger carry')")
-
-
-def add_carry_parser(sub) -> None:
-    carry = sub.add_parser("carry", help="carry signed decisions forward to new data where the signed curve "
-                                         "passed its backtest and is still the proposal",
-                           description="Record a carry for every series whose standing decision was made on "
-                                       "older data, whose signed shape is still the proposal (an override: still "
-                                       "available and within one standard error of the lowest CV error), whose "
-                                       "backtest passed, with no stop flag and no 'shifted' flag. RESULTS must "
-                                       "come from 'pricefold fit --ledger' on the same ledger.")
-    carry.add_argument("results", type=Path, metavar="RESULTS")
-    carry.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
-    carry.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
-    carry.add_argument("--note", default="", metavar="TEXT")
-    carry.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success")
-
-
 FIT_READS = "'fit --ledger' only reads it; a first cycle is fitted without --ledger"
 
 

@@ -17,9 +17,9 @@ from fitcore import ledger
 from fitcore.ledger.replay import apply, own_standing, series_id
 from fitcore.text import clean
 
+from .ledger_options import KEY_VARIABLE
 from .show import key_text
 
-KEY_VARIABLE = "PRICEFOLD_LEDGER_KEY"
 HEAD = re.compile(r"(\d+):([0-9a-f]{64})")
 
 
@@ -41,40 +41,6 @@ def identity(analyst: str | None) -> ledger.Identity:
     except (ImportError, KeyError):
         os_user = getpass.getuser()
     return ledger.Identity(analyst=analyst or os_user, os_user=os_user, host=socket.gethostname())
-
-
-def add_parser(commands):
-    parser = commands.add_parser("ledger", help="verify, show or export the sign-off ledger",
-                                 description="The ledger records every sign-off decision, chained so that any "
-                                             f"later edit is detected. Set {KEY_VARIABLE} to key the chain.")
-    sub = parser.add_subparsers(dest="ledger_command", required=True, metavar="ACTION")
-    verify = sub.add_parser("verify", help="check the chain and print its head; exit 1 and one line per problem "
-                                           "if it is broken; exit 3 if it is intact but ends in an interrupted "
-                                           "write (a torn last line or an incomplete batch, left out)")
-    verify.add_argument("ledger", type=Path, metavar="LEDGER")
-    verify.add_argument("--head", metavar="SEQ:DIGEST", default=None,
-                        help="a head printed earlier: exit 1 unless the ledger still holds exactly that record")
-    show = sub.add_parser("show", help="the decisions, oldest first")
-    show.add_argument("ledger", type=Path, metavar="LEDGER")
-    show.add_argument("--product", action="append", default=[], metavar="P", help="only this product (repeatable)")
-    show.add_argument("--product-column", default=None, metavar="COL",
-                      help="the key column that names the product (default: the settings file's, else product)")
-    export = sub.add_parser("export", help="the current decision per series, as CSV for planning systems")
-    export.add_argument("ledger", type=Path, metavar="LEDGER")
-    export.add_argument("--results", type=Path, required=True, metavar="RESULTS")
-    export.add_argument("-o", "--output", type=Path, required=True, metavar="CSV")
-    export.add_argument("--raw", action="store_true",
-                        help="write text cells as they are (by default a text cell starting with = + - @, "
-                             "a tab or a carriage return gets a leading ' so spreadsheets do not run it)")
-    export.add_argument("-q", "--quiet", action="store_true",
-                        help="no \"N series written\" line on success (warnings and errors still go to stderr)")
-    bulk = sub.add_parser("accept-unflagged", help="accept the proposal for every series with no flag and no decision")
-    bulk.add_argument("results", type=Path, metavar="RESULTS")
-    bulk.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
-    bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
-    bulk.add_argument("--note", default="", metavar="TEXT")
-    bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
-    return sub
 
 
 def run(args) -> int:

@@ -34,3 +34,13 @@ def test_the_report_loads_no_ui_library(tmp_path):
     assert done.returncode == 0, done.stderr[-2000:]
     assert done.stdout.strip().splitlines()[-1] == "[]"
     assert (tmp_path / "report.html").stat().st_size > 0
+
+
+def test_building_the_parser_loads_no_ledger_code():
+    """Every run builds the whole parser, the ledger commands' included: their arguments live apart from the
+    ledger's code (``ledger_options``), so a ``fit`` that never opens a ledger does not import it (0.05–0.07 s)."""
+    code = ("import sys, pricefold.cli as cli; cli.build_parser(); "
+            "print(sorted(m for m in sys.modules if m.startswith(('fitcore.ledger', 'pricefold.ledger_cli', "
+            "'pricefold.cycle_cli', 'pricefold.show'))))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip() == "[]"

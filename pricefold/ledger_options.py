@@ -1,0 +1,63 @@
+"""The ``ledger`` command's arguments, ``ledger carry``'s and ``fit --ledger``: built with every run's parser,
+so kept apart from the commands' code (the ledger modules, numpy: 0.05–0.07 s a run of ``fit`` that never
+opens a ledger)."""
+from __future__ import annotations
+
+from pathlib import Path
+
+KEY_VARIABLE = "PRICEFOLD_LEDGER_KEY"
+
+
+def add_ledger_parser(commands):
+    parser = commands.add_parser("ledger", help="verify, show or export the sign-off ledger",
+                                 description="The ledger records every sign-off decision, chained so that any "
+                                             f"later edit is detected. Set {KEY_VARIABLE} to key the chain.")
+    sub = parser.add_subparsers(dest="ledger_command", required=True, metavar="ACTION")
+    verify = sub.add_parser("verify", help="check the chain and print its head; exit 1 and one line per problem "
+                                           "if it is broken; exit 3 if it is intact but ends in an interrupted "
+                                           "write (a torn last line or an incomplete batch, left out)")
+    verify.add_argument("ledger", type=Path, metavar="LEDGER")
+    verify.add_argument("--head", metavar="SEQ:DIGEST", default=None,
+                        help="a head printed earlier: exit 1 unless the ledger still holds exactly that record")
+    show = sub.add_parser("show", help="the decisions, oldest first")
+    show.add_argument("ledger", type=Path, metavar="LEDGER")
+    show.add_argument("--product", action="append", default=[], metavar="P", help="only this product (repeatable)")
+    show.add_argument("--product-column", default=None, metavar="COL",
+                      help="the key column that names the product (default: the settings file's, else product)")
+    export = sub.add_parser("export", help="the current decision per series, as CSV for planning systems")
+    export.add_argument("ledger", type=Path, metavar="LEDGER")
+    export.add_argument("--results", type=Path, required=True, metavar="RESULTS")
+    export.add_argument("-o", "--output", type=Path, required=True, metavar="CSV")
+    export.add_argument("--raw", action="store_true",
+                        help="write text cells as they are (by default a text cell starting with = + - @, "
+                             "a tab or a carriage return gets a leading ' so spreadsheets do not run it)")
+    export.add_argument("-q", "--quiet", action="store_true",
+                        help="no \"N series written\" line on success (warnings and errors still go to stderr)")
+    bulk = sub.add_parser("accept-unflagged", help="accept the proposal for every series with no flag and no decision")
+    bulk.add_argument("results", type=Path, metavar="RESULTS")
+    bulk.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
+    bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
+    bulk.add_argument("--note", default="", metavar="TEXT")
+    bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
+    return sub
+
+
+def add_fit_ledger_option(parser) -> None:
+    parser.add_argument("--ledger", type=Path, default=None, metavar="LEDGER",
+                        help="backtest every signed series whose data changed against the rows since, flag "
+                             "'shifted' ones, and record the ledger's head in the results (for 'ledger carry')")
+
+
+def add_carry_parser(sub) -> None:
+    carry = sub.add_parser("carry", help="carry signed decisions forward to new data where the signed curve "
+                                         "passed its backtest and is still the proposal",
+                           description="Record a carry for every series whose standing decision was made on "
+                                       "older data, whose signed shape is still the proposal (an override: still "
+                                       "available and within one standard error of the lowest CV error), whose "
+                                       "backtest passed, with no stop flag and no 'shifted' flag. RESULTS must "
+                                       "come from 'pricefold fit --ledger' on the same ledger.")
+    carry.add_argument("results", type=Path, metavar="RESULTS")
+    carry.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
+    carry.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
+    carry.add_argument("--note", default="", metavar="TEXT")
+    carry.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success")
