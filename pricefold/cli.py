@@ -230,9 +230,11 @@ def _run_triage(args) -> int:
 def other_ledger(source, ledger_path: Path) -> None:
     """A warning on the screen when the results were fitted against another ledger than the one the screen
     records into (a mistyped --ledger opens a new, empty ledger: every series pending)."""
-    from .cycle_cli import same_file
     fitted = source.fitted_ledger
-    if fitted and not same_file(Path(fitted), ledger_path):
+    if not fitted:  # the usual case: the cycle commands' module (the ledger's readers, show) not imported for it
+        return
+    from .cycle_cli import same_file
+    if not same_file(Path(fitted), ledger_path):
         new = "" if ledger_path.exists() else ", a new one (no decisions yet)"
         source.warnings.append(f"These results were fitted against the ledger {fitted}; this screen records into "
                                f"{ledger_path}{new}. Check --ledger.")

@@ -152,8 +152,11 @@ class TriageApp(App):
 
     @work(thread=True, exit_on_error=False, group="results")
     def await_results(self, results) -> None:
-        """The columns of the results file read behind the list (``stored_results(later=True)``)."""
+        """The columns of the results file read behind the list (``stored_results(later=True)``): the
+        candidates' numbers the evidence shows at once, the rest once started."""
         try:
+            results.later.wait_soon()
+            self.post_message(EvidenceReady())
             results.later.wait()
             results.later.table()
         except (PricefoldError, OSError) as exc:

@@ -212,9 +212,13 @@ class TriageSession(ListState):
     def _with_backtest(self, results: Results, diagnosis: Diagnosis) -> None:
         """Signed curves against the rows since sign-off (``fitcore.ledger.backtest``): the ``shifted``
         flag joins the results' flags, and ``backtest`` holds the numbers (None: nothing to test)."""
-        from fitcore.ledger.backtest import cycle_of
-        source = {"path": str(self.ledger_path), "head": self.book.head_text, "state": self.book.state}
-        self.base_diagnosis, self.backtest = cycle_of(results, diagnosis, self.book.histories, source)
+        self.base_diagnosis, self.backtest = diagnosis, None
+        # results read from a file hold the backtest they were fitted with, or none: then the module is not
+        # imported (not before the list's first frame)
+        if results.rows_loaded or getattr(results, "stored_backtest", None) is not None:
+            from fitcore.ledger.backtest import cycle_of
+            source = {"path": str(self.ledger_path), "head": self.book.head_text, "state": self.book.state}
+            self.base_diagnosis, self.backtest = cycle_of(results, diagnosis, self.book.histories, source)
         self.diagnosis = self.base_diagnosis
         self._flagged = self.diagnosis.raised.any(axis=1)
 
