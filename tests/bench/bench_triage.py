@@ -24,6 +24,7 @@ from __future__ import annotations
 import argparse
 import asyncio
 import multiprocessing
+import os
 import statistics
 import subprocess
 import sys
@@ -82,28 +83,46 @@ def write_inputs(n_series: int, folder: Path) -> tuple[Path, Path]:
     return data, results
 
 
+def cpu_seconds(pid: int | None) -> float:
+    """CPU time (user + system, every thread) of process ``pid`` so far; NaN where unknown."""
+    try:
+        fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+        return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+    except (OSError, ValueError, IndexError, TypeError):
+        return float("nan")
+
+
 def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
-                     ledger: Path | None = None) -> tuple[float, float]:
+                     ledger: Path | None = None, cpu: list | None = None) -> tuple[float, float]:
     """Seconds from starting ``pricefold triage RESULTS`` in a terminal (tmux, 160×50) to the list on
-    screen, and to the observations on screen (read and fitted behind it).  ``ledger``: opened as a copy."""
+    screen, and to the observations on screen (read and fitted behind it).  ``ledger``: opened as a copy.
+    ``cpu``: given a list, the command's CPU seconds at each of the two are appended to it."""
     if ledger is not None:
         import shutil
         shutil.copyfile(ledger, folder / "launch.jsonl")
     sock = folder / "tmux.sock"
-    command = f"{python} -m pricefold triage {results} --ledger {folder / 'launch.jsonl'}"
+    # exec: the pane's process is the command itself, whose CPU time is read as the screens are found
+    command = f"exec {python} -m pricefold triage {results} --ledger {folder / 'launch.jsonl'}"
     tmux = ["tmux", "-S", str(sock), "-f", "/dev/null"]
     start = time.perf_counter()
     # started in ``folder``: ``python -m pricefold`` from a checkout would import that checkout's code, whatever
     # the interpreter (every "main" launch ran this branch's code when started from a worktree)
     subprocess.run(tmux + ["new-session", "-d", "-x", "160", "-y", "50", "-c", str(folder), command], check=True)
-    listed = observed = None
+    listed = observed = pid = None
     try:
         while time.perf_counter() - start < 120 and observed is None:
+            if pid is None:
+                found = subprocess.run(tmux + ["display-message", "-p", "#{pane_pid}"], capture_output=True, text=True)
+                pid = int(found.stdout) if found.stdout.strip().isdigit() else None
             screen = subprocess.run(tmux + ["capture-pane", "-p"], capture_output=True, text=True).stdout
             if listed is None and "listed (" in screen:
                 listed = time.perf_counter() - start
+                if cpu is not None:
+                    cpu.append(cpu_seconds(pid))
             if "• observed" in screen:
                 observed = time.perf_counter() - start
+                if cpu is not None:
+                    cpu.append(cpu_seconds(pid))
             if listed is not None and "Nothing listed" in screen:
                 break  # every series decided: no observations to wait for
             time.sleep(0.02)
@@ -198,16 +217,26 @@ async def measure_keys(results_path: Path, folder: Path, other: bool) -> None:
 
 
 def launches(results: Path, runs: int, pythons: list[str], ledger: Path | None = None) -> None:
-    """Launch → list and → observations, ``runs`` rounds, each round every python in turn (interleaved)."""
+    """Launch → list and → observations, ``runs`` rounds, each round every python in turn (interleaved):
+    wall and the command's CPU time at each, then each python's medians."""
+    measured: dict[str, list] = {python: [] for python in pythons}
     with tempfile.TemporaryDirectory() as name:
         for round_ in range(runs):
             for python in pythons:
                 folder = Path(name) / f"{round_}-{pythons.index(python)}"
                 folder.mkdir()
-                listed, observed = launch_to_screen(results, folder, python, ledger)
+                cpu: list = []
+                listed, observed = launch_to_screen(results, folder, python, ledger, cpu)
+                cpu += [float("nan")] * (2 - len(cpu))
                 load = open("/proc/loadavg").read().split()[0] if Path("/proc/loadavg").exists() else "?"
-                seen = f"{observed:.2f} s" if observed is not None else "— (none listed)"
-                print(f"  {python}: list {listed:.2f} s, observations {seen} (load {load})", flush=True)
+                seen = (f"{observed:.2f} s (CPU {cpu[1]:.2f} s)" if observed is not None else "— (none listed)")
+                print(f"  {python}: list {listed:.2f} s (CPU {cpu[0]:.2f} s), observations {seen} (load {load})",
+                      flush=True)
+                measured[python].append((listed, cpu[0], observed if observed is not None else float("nan"), cpu[1]))
+    for python, runs_ in measured.items():
+        listed, listed_cpu, observed, observed_cpu = (statistics.median(column) for column in zip(*runs_))
+        print(f"  {python}: medians of {len(runs_)}: list {listed:.2f} s (CPU {listed_cpu:.2f} s), "
+              f"observations {observed:.2f} s (CPU {observed_cpu:.2f} s)")
 
 
 def main() -> None:
