@@ -173,7 +173,10 @@ class TriageApp(App):
     def on_evidence_ready(self, message: EvidenceReady) -> None:
         screen = self.triage_screen()
         if screen is not None:
-            screen.evidence.redraw()
+            # the candidates' numbers can arrive before the screen has composed its panes: the panel draws
+            # them when it shows its first series
+            for evidence in screen.query("EvidencePanel"):
+                evidence.redraw()
             screen.results_complete()
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="observations")

@@ -237,7 +237,7 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         return CellColumn(column(name), n_s, n_c)
 
     def per_series(name):  # one value a series: that of its first row (every candidate's row holds it)
-        return np.ascontiguousarray(_column_of(column(name))[::max(n_c, 1)])
+        return np.ascontiguousarray(_column(column(name))[::max(n_c, 1)])
 
     def per_series_text(name):  # Arrow text, decoded from its dictionary
         return _per_series_text(table.column(name), n_c)
@@ -252,7 +252,7 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
                          source=dict(meta.get("input", {})), stored_fingerprints=per_series_text("fingerprint"))
     lo, hi = per_series("price_lo").astype(float, copy=False), per_series("price_hi").astype(float, copy=False)
     mid, half = window(lo, hi)
-    available = _column(table, "available").astype(bool).reshape(n_s, n_c)
+    available = _column(table.column("available")).astype(bool).reshape(n_s, n_c)
 
     @lru_cache(maxsize=None)
     def windows():  # each candidate's window (mid, half), where it was fitted
@@ -261,26 +261,28 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
             for c in range(cols.start, cols.stop):
                 basis_mid[:, c], basis_half[:, c] = family.window_of(lo, hi, available[:, c])
         return basis_mid, basis_half
-    is_chosen = _column(table, "is_chosen").astype(bool).reshape(n_s, n_c)
+    is_chosen = _column(table.column("is_chosen")).astype(bool).reshape(n_s, n_c)
     chosen = np.where(is_chosen.any(axis=1), is_chosen.argmax(axis=1), -1)
     n_folds = fold_scheme(settings).error_counts(counts)
     fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
     smeared = np.array([lineup.family_of(c).smeared for c in range(n_c)], dtype=bool)
 
     def smear():
-        values = _column_of(column("smearing")).astype(float, copy=False).reshape(n_s, n_c)
+        values = _column(column("smearing")).astype(float, copy=False).reshape(n_s, n_c)
         return np.where(smeared, np.where(np.isfinite(values), values, 1.0), np.nan)
     unknown = Unknown((n_s, n_c))  # residual variance and degrees of freedom need the rows
     results = StoredResults(
         data=data, settings=settings, candidates=cands,
-        available=available, reason=soon(lambda: np.where(available, reasons.NONE, reasons.RANK_ALL).astype(np.int8)),
+        available=available,
+        reason=soon(lambda: np.where(available, reasons.NONE, reasons.RANK_ALL).astype(np.int8)),
         cv_mse=cells("cv_mse"), cv_se=cells("cv_se"), r2=cells("r2"), q2=cells("q2"),
         fold_err=np.zeros((0, n_c)), fold_start=fold_start, price_lo=lo, price_hi=hi, mid=mid, half=half,
-        basis_mid=soon(lambda: windows()[0]), basis_half=soon(lambda: windows()[1]), smear=soon(smear), sigma2=unknown,
-        df=unknown, coef=CellColumn(column("window_coef"), n_s, n_c, lineup.width),
+        basis_mid=soon(lambda: windows()[0]), basis_half=soon(lambda: windows()[1]), smear=soon(smear),
+        sigma2=unknown, df=unknown, coef=CellColumn(column("window_coef"), n_s, n_c, lineup.width),
         chosen=chosen, plan_price=soon(lambda: per_series("plan_price").astype(float)),
         plan_volume=cells("plan_volume"), plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"),
-        plan_elasticity=cells("plan_elasticity"), revenue_price=soon(lambda: per_series("revenue_price").astype(float)),
+        plan_elasticity=cells("plan_elasticity"),
+        revenue_price=soon(lambda: per_series("revenue_price").astype(float)),
         top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=column("reason"),
         fold_lists=column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
         controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late)
@@ -373,13 +375,9 @@ def _per_series(column, n_c: int) -> np.ndarray:
     return values.astype(bool) if pa.types.is_boolean(column.type) else values.astype(float, copy=False)
 
 
-def _column(table, name: str) -> np.ndarray:
-    """A column as numpy; text as an object array (a dictionary column through its dictionary)."""
-    return _column_of(table.column(name))
-
-
-def _column_of(column) -> np.ndarray:
-    """``_column`` of an Arrow column (or one still being read, ``Later``)."""
+def _column(column) -> np.ndarray:
+    """An Arrow column (or one still being read, ``Later``) as numpy; text as an object array (a dictionary
+    column through its dictionary)."""
     import pyarrow as pa
     column = column.combine_chunks()
     if pa.types.is_dictionary(column.type) and not column.null_count:
