@@ -43,8 +43,8 @@ class LaterColumns:
         import pyarrow.parquet as pq
         try:
             readers = [pq.ParquetFile(part, page_checksum_verification=True) for part in parts]
-            if self.soon:
-                self._tables["soon"] = _read_all(readers, self.soon)
+            if self.soon:  # on Arrow's threads: done while the list's first frame is still being made
+                self._tables["soon"] = _read_all(readers, self.soon, threads=True)
             self._soon_done.set()
             self._go.wait()
             self._tables["later"] = _read_all(readers, self.names)
@@ -96,10 +96,10 @@ class LaterColumns:
         return self.table().column(name)
 
 
-def _read_all(readers, names: list[str]):
+def _read_all(readers, names: list[str], threads: bool = False):
     import pyarrow as pa
     with _reading:
-        tables = [reader.read(columns=names, use_threads=False) for reader in readers]
+        tables = [reader.read(columns=names, use_threads=threads) for reader in readers]
     return pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
 
 
