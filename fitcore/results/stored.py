@@ -216,7 +216,8 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         # not read_table: that imports pyarrow.dataset and pandas (0.3 s); every page's checksum checked
         reader = pq.ParquetFile(handle, page_checksum_verification=True)
         readers.append(reader)
-        missing = [name for name in wanted if name not in reader.schema_arrow.names]
+        names = set(reader.schema_arrow.names)  # the property converts the schema on each call (≈ 0.5 ms)
+        missing = [name for name in wanted if name not in names]
         if missing:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
         tables.append(_read(reader, part, [n for n in wanted if not (later and n in (*SOON, *LATER))]))
@@ -328,7 +329,7 @@ class StoredCovariances:
 
 def _has_cycle(readers) -> bool:
     """Whether every part (its ``pq.ParquetFile``) holds the cycle columns (an older file holds none)."""
-    return all(all(name in reader.schema_arrow.names for name in CYCLE) for reader in readers)
+    return all(set(CYCLE) <= set(reader.schema_arrow.names) for reader in readers)
 
 
 def _optional(readers, parts, leave_out=()):
