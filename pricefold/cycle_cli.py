@@ -242,7 +242,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             current = book.histories[series_id(record["key"])].current
             lines.append("  " + override_words(record, stands, current if current["action"] == "carry" else None))
         if record.get("backtest"):
-            said = shift_sentence(record["backtest"], record["chosen"])
+            said = shift_sentence(record["backtest"], record["chosen"], older=needs == NEWER_DUE)
             lines.append(f"  since sign-off (the curve as signed): {said}")
         return "\n".join(lines)
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]

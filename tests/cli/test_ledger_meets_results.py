@@ -160,3 +160,8 @@ def test_carry_counts_what_show_says_is_due(tmp_path, capsys):
         assert dues["decided on newer data"] >= 1 and "no new rows" not in dues
         left = carry_left(tmp_path / name, book, capsys)
         assert left == dues and "new look (held)" not in left
+    # one such series in full: the proposal beside the signed curve is these older results', not this cycle's
+    assert main(["show", str(tmp_path / "old.json"), "--ledger", str(book), "--product", "item 1"]) == 0
+    said = capsys.readouterr().out
+    assert "decided on newer data" in said and "This cycle's proposal" not in said
+    assert "since sign-off (the curve as signed): " in said and "The proposal of these older results, " in said

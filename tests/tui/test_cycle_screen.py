@@ -202,3 +202,25 @@ async def test_a_backtest_against_another_ledger_is_left_out_and_said_once(next_
         await until(pilot, lambda: "backtested again here, against other.jsonl" in " ".join(screen_text(app).split()))
         assert session.backtest is not None and session.diagnosis.flagged("shifted").any()
 
+
+async def test_on_older_results_the_since_sign_off_block_does_not_call_their_proposal_this_cycles(next_cycle,
+                                                                                                   tmp_path):
+    """bo on last cycle's results after this cycle's carry: the backtest of the carried curve sets it beside the
+    proposal of the results on screen, which are older — not "this cycle's proposal"."""
+    from tui.app import TriageApp
+    from tui.factory import open_stored_session, refit_stored, source_from_results
+    copy, out = stored_next_cycle(next_cycle, tmp_path)
+    assert main(["ledger", "carry", str(out), "--ledger", str(copy), "-q"]) == 0
+    bo = ledger.Identity("bo", "bo", "test-host")
+    app = TriageApp(lambda progress: open_stored_session(SAMPLE / "results.parquet", copy, bo, None, progress))
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        assert session.upgrade(*refit_stored(source_from_results(SAMPLE / "results.parquet")))  # backtested here
+        newer = next(s for s in range(session.results.n_series) if session.decided_on_newer(s)
+                     and session.backtest_of(s) is not None and "shifted" not in session.flag_codes(s))
+        session.set_filter("all", None)
+        session.bring(newer)
+        app.screen.refresh_all()
+        await until(pilot, lambda: "Since sign-off: Signed" in screen_text(app))
+        said = " ".join(screen_text(app).split())
+        assert "The proposal of these older results, " in said and "This cycle's proposal" not in said
