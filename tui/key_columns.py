@@ -32,15 +32,19 @@ class KeyColumns:
 
     def see(self, keys: Iterable[dict]) -> None:
         """Take note of the key columns of ``keys`` (series keys the ledger now holds)."""
-        new = [names for names in key_sets(keys) if names not in self._sets]
-        if new:
-            self._sets += new
-            self.mismatch = self.with_keys(())
+        sets = self._and(keys)
+        if len(sets) > len(self._sets):
+            self._sets, self.mismatch = sets, self._mismatch(sets)
 
     def with_keys(self, keys: Iterable[dict]) -> str | None:
         """``mismatch`` were ``keys`` seen too (not taken note of: the records found under the writer's lock)."""
+        return self._mismatch(self._and(keys))
+
+    def _and(self, keys: Iterable[dict]) -> list[frozenset]:
+        return self._sets + [names for names in key_sets(keys) if names not in self._sets]
+
+    def _mismatch(self, sets: list[frozenset]) -> str | None:
         # one key stands for each set of columns: the check looks at a key's columns only
-        sets = self._sets + [names for names in key_sets(keys) if names not in self._sets]
         return mismatch(self.columns, [dict.fromkeys(names) for names in sets], self.ledger_name)
 
     @property
