@@ -82,7 +82,7 @@ async def test_another_analysts_new_key_set_is_said_at_once_and_asked_before_the
     async with app.run_test(size=(100, 30), notifications=True) as pilot:
         await started(app, pilot)
         assert "Key columns differ" not in words(app)
-        signed_by_region(ledger_path)  # bo's bulk accept, another process's append
+        signed_by_region(ledger_path)  # bo's bulk accept, through a reader of its own
         await until(pilot, lambda: "Key columns differ" in words(app))
         await until(pilot, lambda: "The ledger changed: series keyed by product, but those in" in words(app))
         await pilot.press("n")
