@@ -5,8 +5,9 @@
 
 The second form only times launch → list and → observations on an existing results file, ``--runs``
 rounds, each round every ``--python`` in turn (interleaved: e.g. main's venv and this one's), with the
-load average beside each run; ``--ledger``: each launch opens a copy of that ledger (verified in full
-before the list), else an empty one.
+CPU time the command had used when the list appeared (its processes, all threads) and the load average
+beside each run; ``--ledger``: each launch opens a copy of that ledger (verified in full before the list),
+else an empty one.
 
 Writes invented data and its results file (``pricefold fit``), then prints,
 measured in one run: from launching ``pricefold triage RESULTS`` in a tmux
@@ -82,10 +83,31 @@ def write_inputs(n_series: int, folder: Path) -> tuple[Path, Path]:
     return data, results
 
 
+def cpu_seconds(pid: int) -> float:
+    """CPU time (user + system, every thread, waited-for children too) of process ``pid`` and its descendants."""
+    import os
+    tick = os.sysconf("SC_CLK_TCK")
+    parents, times = {}, {}
+    for entry in Path("/proc").iterdir():
+        if entry.name.isdigit():
+            try:
+                fields = (entry / "stat").read_text().rsplit(")", 1)[1].split()
+            except OSError:
+                continue
+            parents[int(entry.name)] = int(fields[1])
+            times[int(entry.name)] = sum(int(v) for v in fields[11:15]) / tick  # utime stime cutime cstime
+    tree, grew = {pid}, True
+    while grew:
+        more = {child for child, parent in parents.items() if parent in tree} - tree
+        tree, grew = tree | more, bool(more)
+    return sum(times.get(p, 0.0) for p in tree)
+
+
 def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
-                     ledger: Path | None = None) -> tuple[float, float]:
+                     ledger: Path | None = None) -> tuple[float, float, float]:
     """Seconds from starting ``pricefold triage RESULTS`` in a terminal (tmux, 160×50) to the list on
-    screen, and to the observations on screen (read and fitted behind it).  ``ledger``: opened as a copy."""
+    screen, and to the observations on screen (read and fitted behind it); the CPU seconds the command had
+    used when the list appeared.  ``ledger``: opened as a copy."""
     if ledger is not None:
         import shutil
         shutil.copyfile(ledger, folder / "launch.jsonl")
@@ -96,12 +118,14 @@ def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
     # started in ``folder``: ``python -m pricefold`` from a checkout would import that checkout's code, whatever
     # the interpreter (every "main" launch ran this branch's code when started from a worktree)
     subprocess.run(tmux + ["new-session", "-d", "-x", "160", "-y", "50", "-c", str(folder), command], check=True)
-    listed = observed = None
+    listed = observed = cpu = None
+    pane = int(subprocess.run(tmux + ["list-panes", "-F", "#{pane_pid}"], capture_output=True, text=True).stdout)
     try:
         while time.perf_counter() - start < 120 and observed is None:
             screen = subprocess.run(tmux + ["capture-pane", "-p"], capture_output=True, text=True).stdout
             if listed is None and "listed (" in screen:
                 listed = time.perf_counter() - start
+                cpu = cpu_seconds(pane)
             if "• observed" in screen:
                 observed = time.perf_counter() - start
             if listed is not None and "Nothing listed" in screen:
@@ -109,7 +133,7 @@ def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
             time.sleep(0.02)
     finally:
         subprocess.run(tmux + ["kill-server"], capture_output=True)
-    return listed, observed
+    return listed, observed, cpu
 
 
 async def measure(n_series: int) -> None:
@@ -124,7 +148,7 @@ async def measure(n_series: int) -> None:
 
 async def measure_triage(results_path: Path, folder: Path) -> None:
     """Launch to first screen (tmux), then key-to-repaint (Pilot), on a results file or folder."""
-    listed, observed = launch_to_screen(results_path, folder)
+    listed, observed, _ = launch_to_screen(results_path, folder)
     print(f"  pricefold triage RESULTS, launch to first usable screen: {listed:.2f} s "
           f"(observations drawn after {observed:.2f} s, read and fitted behind the screen)")
     for other in (False, True):
@@ -204,10 +228,11 @@ def launches(results: Path, runs: int, pythons: list[str], ledger: Path | None =
             for python in pythons:
                 folder = Path(name) / f"{round_}-{pythons.index(python)}"
                 folder.mkdir()
-                listed, observed = launch_to_screen(results, folder, python, ledger)
+                listed, observed, cpu = launch_to_screen(results, folder, python, ledger)
                 load = open("/proc/loadavg").read().split()[0] if Path("/proc/loadavg").exists() else "?"
                 seen = f"{observed:.2f} s" if observed is not None else "— (none listed)"
-                print(f"  {python}: list {listed:.2f} s, observations {seen} (load {load})", flush=True)
+                print(f"  {python}: list {listed:.2f} s (CPU {cpu:.2f} s), observations {seen} (load {load})",
+                      flush=True)
 
 
 def main() -> None:
