@@ -206,8 +206,7 @@ def _run_triage(args) -> int:
     if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen
         source = source_from_results(args.source, check_data=False)
         check_not_input(ledger_path, [("the results", args.source), *_source_inputs(source)])
-        source.units, source.sep = units, _separator(args)
-        other_ledger(source, ledger_path)
+        source.units, source.sep = units, _separator(args)  # another ledger's backtest: the header says it
         return open_triage(source, ledger_path, args.analyst, stored=args.source)
     if is_results(args.source):
         source = source_from_results(args.source)
@@ -229,12 +228,11 @@ def _run_triage(args) -> int:
 
 def other_ledger(source, ledger_path: Path) -> None:
     """A warning on the screen when the results were fitted against another ledger than the one the screen
-    records into (a mistyped --ledger opens a new, empty ledger: every series pending)."""
+    records into (a mistyped --ledger opens a new, empty ledger: every series pending); on stored results the
+    header says it instead, with their backtest left out (``TriageSession.elsewhere``)."""
+    from fitcore.ledger.elsewhere import same_file
     fitted = source.fitted_ledger
-    if not fitted:  # the usual case: the cycle commands' module (the ledger's readers, show) not imported for it
-        return
-    from .cycle_cli import same_file
-    if not same_file(Path(fitted), ledger_path):
+    if fitted and not same_file(Path(fitted), ledger_path):
         new = "" if ledger_path.exists() else ", a new one (no decisions yet)"
         source.warnings.append(f"These results were fitted against the ledger {fitted}; this screen records into "
                                f"{ledger_path}{new}. Check --ledger.")

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from fitcore import ledger
+from fitcore.ledger.elsewhere import backtested_elsewhere, same_file, without_backtest
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, newer_standing
@@ -30,13 +31,6 @@ def must_exist(path: Path, why: str) -> None:
     an empty ledger (nothing signed, nothing carried) and never a new file."""
     if not os.path.lexists(path):
         raise ledger.LedgerError(f"{path}: no such ledger ({why})")
-
-
-def same_file(a: Path, b: Path) -> bool:
-    try:
-        return a.resolve() == b.resolve() or (a.exists() and b.exists() and a.samefile(b))
-    except OSError:
-        return False
 
 
 class LedgerAhead:
@@ -152,23 +146,7 @@ def backtest_line(found) -> str:
     return f"ledger: {total:,} signed series on changed data — backtest {parts}; shifted {int(found.shifted.sum()):,}"
 
 
-def backtested_elsewhere(results: Path, header: dict, ledger_path: Path) -> str | None:
-    """"RESULTS: backtested against L, not OTHER" when the results were fitted with ``--ledger`` on another
-    ledger than ``ledger_path`` (None: on this one, or without a ledger).  Their backtest and ``shifted`` flags
-    speak of that ledger's signers: ``carry`` refuses them, ``show --ledger`` leaves them out."""
-    source = header.get("ledger")
-    if not source or same_file(Path(source["path"]), ledger_path):
-        return None
-    return f"{results}: backtested against {clean(str(source['path']))}, not {ledger_path}"
-
-
 # -- show --ledger ---------------------------------------------------------------------------------------
-
-def without_backtest(record: dict) -> dict:
-    """A results record less its backtest and its ``shifted`` flag (both of another ledger's signed curves)."""
-    flags = [flag for flag in record["flags"] if flag["code"] != "shifted"]
-    return {**record, "backtest": None, "flags": flags}
-
 
 def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | None]:
     """(status in the ledger, what it needs) of a results record (``short``: for the list's column)."""
@@ -264,7 +242,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             current = book.histories[series_id(record["key"])].current
             lines.append("  " + override_words(record, stands, current if current["action"] == "carry" else None))
         if record.get("backtest"):
-            said = shift_sentence(record["backtest"], record["chosen"])
+            said = shift_sentence(record["backtest"], record["chosen"], older=needs == NEWER_DUE)
             lines.append(f"  since sign-off (the curve as signed): {said}")
         return "\n".join(lines)
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]

@@ -48,13 +48,16 @@ def _grid(rows: list[tuple[str, str]]) -> Table:
     return grid
 
 
-def ledger_text(book) -> Group:
-    """Which ledger, whether its chain verifies, and its head (``SEQ:DIGEST`` of the last whole record)."""
+def ledger_text(book, keys: str | None = None) -> Group:
+    """Which ledger, whether its chain verifies, whether it keys its series as the results do (``keys``: the
+    status line's words when not), and its head (``SEQ:DIGEST`` of the last whole record)."""
     text = Text("\nLedger ", style="bold")
     text.append(clean(str(book.path)))
     text.append(f"\n  {book.state}" + (f": {clean(str(book.problem))}" if book.problem else ""))
     if book.notes:  # the chain verifies up to its last whole record; what follows it does not count
         text.append(" up to its last whole record, but " + cut_off_text(book), style="bold")
+    if keys:
+        text.append(f"\n  {keys}", style="bold")
     text.append("\n")
     text.append("  head (sequence number and digest of its last whole record):", style="dim")
     # one unbroken word of 66+ characters: on a narrow screen folded at the edge, never run under the scrollbar
@@ -62,7 +65,7 @@ def ledger_text(book) -> Group:
     return Group(text, head)
 
 
-def help_text(book=None) -> Group:
+def help_text(book=None, keys: str | None = None) -> Group:
     flags = [(f"{'!' if severity == 'stop' else '?'} {code}", f"{severity}: {meaning}")
              for code, severity, meaning in sorted(FLAGS, key=lambda flag: flag[1] != "stop")]
     return Group(
@@ -74,4 +77,4 @@ def help_text(book=None) -> Group:
         _grid(flags),
         Text("\nStatus marks: · pending  ✓ accepted  ↺ overridden  ‖ held  ! stale (data changed since)"),
         Text("\n" + CAUTIONS, style="italic"),
-        *([ledger_text(book)] if book is not None else []))
+        *([ledger_text(book, keys)] if book is not None else []))

@@ -17,7 +17,8 @@ CODE = {word: i for i, word in enumerate(STATUSES)}
 
 
 class KeyTable:
-    """Series indices of keys (mappings of key column to value), -1 where the results hold none."""
+    """Series indices of keys (mappings of key column to value), -1 where the results hold none (a key of
+    other columns than theirs included, as ``SeriesKeys.indices_of`` finds it)."""
 
     def __init__(self, keys: SeriesKeys) -> None:
         self.keys, self._table = keys, None
@@ -32,11 +33,11 @@ class KeyTable:
             rows = columns[0] if len(columns) == 1 else list(zip(*columns))  # one key column: its text itself
             # built from the last series back, so the first series with these values wins, as a scan finds it
             self._table = dict(zip(reversed(rows), range(len(rows) - 1, -1, -1)))
-        get = self._table.get
+        get, columns = self._table.get, set(names)  # a key of other columns names none of these series
         if len(names) == 1:
             name = names[0]
-            return [get(str(key.get(name, "")), -1) for key in keys]
-        return [get(tuple([str(key.get(name, "")) for name in names]), -1) for key in keys]
+            return [get(str(key[name]), -1) if key.keys() == columns else -1 for key in keys]
+        return [get(tuple([str(key[name]) for name in names]), -1) if key.keys() == columns else -1 for key in keys]
 
 
 def set_statuses(status: np.ndarray, codes: np.ndarray, changed: dict[int, str], histories: dict, data) -> None:

@@ -24,8 +24,9 @@ from fitcore.fit.results import Results
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import SeriesHistory, series_id
 from fitcore.ledger.rules import NEWER_DUE, check_latest, decided_on_newer, what_happened
-from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale
+from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale, without_shifted
 
+from .key_columns import KeyColumns
 from .ledger_series import KeyTable, set_statuses
 from .listing import (
     FILTER_TITLES,
@@ -83,8 +84,10 @@ class TriageSession(ListState):
 
     def __init__(self, results: Results, diagnosis: Diagnosis, ledger_path: Path, who: ledger.Identity,
                  results_digest: str, key: bytes | None = None, units: dict | None = None,
-                 book: ledger.Ledger | None = None) -> None:
+                 book: ledger.Ledger | None = None, elsewhere: str | None = None) -> None:
         self.results, self.base_diagnosis = results, diagnosis
+        # "RESULTS: backtested against L, not THIS" (``fitcore.ledger.elsewhere``): the file's backtest is left out
+        self.elsewhere = elsewhere
         self.ledger_path, self.who, self.key, self.results_digest = Path(ledger_path), who, key, results_digest
         self.units = {k: clean(str(v)) for k, v in (units or {}).items() if v}
         self.warnings: list[str] = []
@@ -95,6 +98,7 @@ class TriageSession(ListState):
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
         self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
         self._key_table = KeyTable(self.keys)  # key values → index, for the many keys of a whole ledger
+        self.key_columns = KeyColumns(list(data.key_names), self.ledger_path.name)  # the ledger's series keyed so?
         # verified in full here (or by the caller: ``book``, that ledger opened), then only its new tail
         self.book = book if book is not None else ledger.Ledger(self.ledger_path, key)
         self._applied, self._generation = 0, self.book.generation
@@ -135,11 +139,13 @@ class TriageSession(ListState):
         if self.book.generation != self._generation:  # the file was read again from the start
             self._applied, self._generation, force = 0, self.book.generation, True
             self.status[:], self.status_code[:] = "pending", 0
+            self.key_columns.reset()
         everything = not self._applied  # every record: the replay has named their series already
         records = self.book.records[self._applied:]
         self._applied = len(self.book.records)
         touched = ({sid: history.records[-1]["series"] for sid, history in self.histories.items()} if everything
                    else {series_id(r["series"]): r["series"] for r in records})
+        self.key_columns.see(touched.values())
         unknown = [sid for sid in touched if sid not in self._known]
         self._known.update(zip(unknown, self._key_table.indices_of([touched[sid] for sid in unknown])))  # ints
         changed = {self._known[sid]: sid for sid in touched if self._known[sid] >= 0}
@@ -211,11 +217,15 @@ class TriageSession(ListState):
 
     def _with_backtest(self, results: Results, diagnosis: Diagnosis) -> None:
         """Signed curves against the rows since sign-off (``fitcore.ledger.backtest``): the ``shifted``
-        flag joins the results' flags, and ``backtest`` holds the numbers (None: nothing to test)."""
+        flag joins the results' flags, and ``backtest`` holds the numbers (None: nothing to test).  A results
+        file's own backtest made against another ledger (``elsewhere``) is left out with its ``shifted`` flags,
+        as ``show --ledger`` leaves it out; a fit of the data is backtested here, against this ledger."""
         self.base_diagnosis, self.backtest = diagnosis, None
-        # results read from a file hold the backtest they were fitted with, or none: then the module is not
-        # imported (not before the list's first frame)
-        if results.rows_loaded or getattr(results, "stored_backtest", None) is not None:
+        if self.elsewhere is not None and not results.rows_loaded:
+            self.base_diagnosis = without_shifted(diagnosis)
+        # a results file holds the backtest it was fitted with, or none: then its module is not imported (not
+        # before the list's first frame)
+        elif results.rows_loaded or getattr(results, "stored_backtest", None) is not None:
             from fitcore.ledger.backtest import cycle_of
             source = {"path": str(self.ledger_path), "head": self.book.head_text, "state": self.book.state}
             self.base_diagnosis, self.backtest = cycle_of(results, diagnosis, self.book.histories, source)
@@ -395,11 +405,14 @@ class TriageSession(ListState):
         The entry ``supersedes`` the ledger record the screen last showed for that series, and carries the
         flags it showed: the ledger refuses it under its lock (``LedgerConflict``, one sentence) when another
         decision got there first, and applies its other rules (``LedgerError``).  ``Refused``: the screen
-        will not ask (the series left the list under the cursor, or the ledger takes no appends).
+        will not ask (the series left the list under the cursor, or the ledger takes no appends), or the
+        results' key columns name none of the ledger's series and the analyst has not confirmed starting a
+        new set of them (``key_columns``; checked again under the writer's lock).
         """
         self.reload_ledger(pin="waits")
         if not self.writable:
             raise Refused(f"{self.read_only_why}: nothing can be recorded")
+        self._check_keys(self.key_columns.mismatch)
         s = self.index_of(shown)
         if s < 0:
             raise Refused("this series is no longer in the results")
@@ -417,8 +430,13 @@ class TriageSession(ListState):
                              supersedes=shown.latest, flags=list(shown.flags), signed=signed,
                              last_date=self.last_date(s))
         self._known[shown.sid] = s
+
+        def entries(records: list[dict]) -> list[ledger.Entry]:  # under the lock: others' records since count
+            fresh = records[self._applied:] if self.book.generation == self._generation else records
+            self._check_keys(self.key_columns.with_keys(r["series"] for r in fresh))
+            return [entry]
         try:
-            [written] = self.book.append([entry], self.who)
+            [written] = self.book.append(entries, self.who)
         except PricefoldError:
             self._catch_up(pin="waits")  # a refused decision may still have read other analysts' records
             raise
@@ -427,6 +445,13 @@ class TriageSession(ListState):
             self._mine.append((shown.sid, written["digest"]))
         self._catch_up(pin=None)
         return written
+
+    def _check_keys(self, said: str | None) -> None:
+        """``Refused`` when the results' key columns name none of the ledger's series (``said``) and the analyst
+        has not confirmed deciding under that: a decision would start a new set of series in the ledger."""
+        if said is not None and said != self.key_columns.confirmed:
+            raise Refused(f"these results' {said}: a decision here starts a new set of series in "
+                          f"{self.key_columns.ledger_name}; press the key again to confirm it first")
 
     def last_date(self, s: int) -> str | None:
         """The last date of series ``s``'s rows ("YYYY-MM-DD"; None without dates): the ledger refuses a decision

@@ -67,16 +67,22 @@ class SeriesKeys:
         return numbers(pc.sort_indices(table, sort_keys=[("label", "ascending"), ("at", "ascending")])).astype(np.int64)
 
     def indices_of(self, keys: list[dict]) -> np.ndarray:
-        """(len(keys),) the series each key names, -1 where none.
+        """(len(keys),) the series each key names, -1 where none — and where a key's columns are not these
+        series' key columns (a ledger's series keyed by product and region name none of a fit by product alone,
+        whatever their values: ``fitcore.ledger.key_columns``).
 
         A few keys (a screen's poll of the ledger) are found by a scan of the first key column each
         (~0.3 ms at 100,000 series); more by a hash join, whose table of every series costs ~20 ms.
         """
         if not keys:
             return np.zeros(0, np.int64)
+        names = set(self.names)
         if len(keys) <= FEW_KEYS:
-            return np.array([self._scan([str(key.get(name, "")) for name in self.names]) for key in keys], np.int64)
-        return self._join({name: texts([str(key.get(name, "")) for key in keys]) for name in self.names}, len(keys))
+            return np.array([self._scan([str(key[name]) for name in self.names]) if key.keys() == names else -1
+                             for key in keys], np.int64)
+        found = self._join({name: texts([str(key.get(name, "")) for key in keys]) for name in self.names}, len(keys))
+        found[[key.keys() != names for key in keys]] = -1
+        return found
 
     def _scan(self, values: list[str]) -> int:
         """The first series whose key columns hold ``values``, -1 if none."""

@@ -106,6 +106,15 @@ def mark_shifted(diagnosis: Diagnosis, backtest) -> Diagnosis:
     return replace(diagnosis, raised=raised, numbers={**diagnosis.numbers, "backtest": backtest})
 
 
+def without_shifted(diagnosis: Diagnosis) -> Diagnosis:
+    """A copy of ``diagnosis`` with no ``shifted`` flag: a results file's backtest made against another ledger
+    (``fitcore.ledger.elsewhere``) says nothing of the signers of the ledger it is read with."""
+    raised = diagnosis.raised.copy()
+    raised[:, CODES.index("shifted")] = False
+    raised.flags.writeable = False
+    return replace(diagnosis, raised=raised)
+
+
 def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnosis:
     """Raise every flag that applies to every series of ``results``."""
     data = results.data

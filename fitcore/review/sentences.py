@@ -228,9 +228,11 @@ WHY_UNTESTED = {"no-dates": "the data have no date column, so no backtest is pos
                                     "fixed, so it is not the same model and is not carried: look again"}
 
 
-def shift_sentence(bt: dict, proposal: str | None) -> str:
+def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
     """The signed curve, its backtest on the rows since, and this cycle's ``proposal`` beside it, in
-    numbers, from a series' stored backtest (``fitcore.ledger.backtest.Backtest.record``)."""
+    numbers, from a series' stored backtest (``fitcore.ledger.backtest.Backtest.record``).  ``older``: the
+    results are older than the data the standing decision was made on (``rules.decided_on_newer``), so their
+    proposal is not this cycle's and is not called so."""
     from ..text import clean
 
     def number(name):
@@ -265,7 +267,8 @@ def shift_sentence(bt: dict, proposal: str | None) -> str:
         again = "" if bt.get("shape_changed") else " again"
         proposed = number("proposed_volume")
         beside = _beside_signed(proposed, number("signed_volume"), number("volume_change"), number("elasticity_change"))
-        parts.append(f"This cycle's proposal, {proposal}{again}, predicts {fmt(proposed)} ({beside}).")
+        whose = "The proposal of these older results" if older else "This cycle's proposal"
+        parts.append(f"{whose}, {proposal}{again}, predicts {fmt(proposed)} ({beside}).")
     return " ".join(parts)
 
 

@@ -5,8 +5,9 @@
 
 The second form only times launch → list and → observations on an existing results file, ``--runs``
 rounds, each round every ``--python`` in turn (interleaved: e.g. main's venv and this one's), with the
-load average beside each run; ``--ledger``: each launch opens a copy of that ledger (verified in full
-before the list), else an empty one.
+CPU time the command had used when the list appeared (its processes, all threads) and the load average
+beside each run; ``--ledger``: each launch opens a copy of that ledger (verified in full before the list),
+else an empty one.
 
 Writes invented data and its results file (``pricefold fit``), then prints,
 measured in one run: from launching ``pricefold triage RESULTS`` in a tmux
@@ -24,7 +25,6 @@ from __future__ import annotations
 import argparse
 import asyncio
 import multiprocessing
-import os
 import statistics
 import subprocess
 import sys
@@ -83,52 +83,58 @@ def write_inputs(n_series: int, folder: Path) -> tuple[Path, Path]:
     return data, results
 
 
-def cpu_seconds(pid: int | None) -> float:
-    """CPU time (user + system, every thread) of process ``pid`` so far; NaN where unknown."""
-    try:
-        fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
-        return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
-    except (OSError, ValueError, IndexError, TypeError):
-        return float("nan")
+def cpu_seconds(pid: int) -> float:
+    """CPU time (user + system, every thread, waited-for children too) of process ``pid`` and its descendants."""
+    import os
+    tick = os.sysconf("SC_CLK_TCK")
+    parents, times = {}, {}
+    for entry in Path("/proc").iterdir():
+        if entry.name.isdigit():
+            try:
+                fields = (entry / "stat").read_text().rsplit(")", 1)[1].split()
+            except OSError:
+                continue
+            parents[int(entry.name)] = int(fields[1])
+            times[int(entry.name)] = sum(int(v) for v in fields[11:15]) / tick  # utime stime cutime cstime
+    tree, grew = {pid}, True
+    while grew:
+        more = {child for child, parent in parents.items() if parent in tree} - tree
+        tree, grew = tree | more, bool(more)
+    return sum(times.get(p, 0.0) for p in tree)
 
 
 def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
-                     ledger: Path | None = None, cpu: list | None = None) -> tuple[float, float]:
+                     ledger: Path | None = None) -> tuple[float, float, float, float]:
     """Seconds from starting ``pricefold triage RESULTS`` in a terminal (tmux, 160×50) to the list on
-    screen, and to the observations on screen (read and fitted behind it).  ``ledger``: opened as a copy.
-    ``cpu``: given a list, the command's CPU seconds at each of the two are appended to it."""
+    screen, and to the observations on screen (read and fitted behind it); the CPU seconds the command had
+    used when each appeared.  ``ledger``: opened as a copy."""
     if ledger is not None:
         import shutil
         shutil.copyfile(ledger, folder / "launch.jsonl")
     sock = folder / "tmux.sock"
-    # exec: the pane's process is the command itself, whose CPU time is read as the screens are found
-    command = f"exec {python} -m pricefold triage {results} --ledger {folder / 'launch.jsonl'}"
+    command = f"{python} -m pricefold triage {results} --ledger {folder / 'launch.jsonl'}"
     tmux = ["tmux", "-S", str(sock), "-f", "/dev/null"]
     start = time.perf_counter()
     # started in ``folder``: ``python -m pricefold`` from a checkout would import that checkout's code, whatever
     # the interpreter (every "main" launch ran this branch's code when started from a worktree)
     subprocess.run(tmux + ["new-session", "-d", "-x", "160", "-y", "50", "-c", str(folder), command], check=True)
-    listed = observed = pid = None
+    listed = observed = cpu = observed_cpu = None
+    pane = int(subprocess.run(tmux + ["list-panes", "-F", "#{pane_pid}"], capture_output=True, text=True).stdout)
     try:
         while time.perf_counter() - start < 120 and observed is None:
-            if pid is None:
-                found = subprocess.run(tmux + ["display-message", "-p", "#{pane_pid}"], capture_output=True, text=True)
-                pid = int(found.stdout) if found.stdout.strip().isdigit() else None
             screen = subprocess.run(tmux + ["capture-pane", "-p"], capture_output=True, text=True).stdout
             if listed is None and "listed (" in screen:
                 listed = time.perf_counter() - start
-                if cpu is not None:
-                    cpu.append(cpu_seconds(pid))
+                cpu = cpu_seconds(pane)
             if "• observed" in screen:
                 observed = time.perf_counter() - start
-                if cpu is not None:
-                    cpu.append(cpu_seconds(pid))
+                observed_cpu = cpu_seconds(pane)
             if listed is not None and "Nothing listed" in screen:
                 break  # every series decided: no observations to wait for
             time.sleep(0.02)
     finally:
         subprocess.run(tmux + ["kill-server"], capture_output=True)
-    return listed, observed
+    return listed, observed, cpu, observed_cpu
 
 
 async def measure(n_series: int) -> None:
@@ -143,7 +149,7 @@ async def measure(n_series: int) -> None:
 
 async def measure_triage(results_path: Path, folder: Path) -> None:
     """Launch to first screen (tmux), then key-to-repaint (Pilot), on a results file or folder."""
-    listed, observed = launch_to_screen(results_path, folder)
+    listed, observed, _, _ = launch_to_screen(results_path, folder)
     print(f"  pricefold triage RESULTS, launch to first usable screen: {listed:.2f} s "
           f"(observations drawn after {observed:.2f} s, read and fitted behind the screen)")
     for other in (False, True):
@@ -217,25 +223,25 @@ async def measure_keys(results_path: Path, folder: Path, other: bool) -> None:
 
 
 def launches(results: Path, runs: int, pythons: list[str], ledger: Path | None = None) -> None:
-    """Launch → list and → observations, ``runs`` rounds, each round every python in turn (interleaved):
-    wall and the command's CPU time at each, then each python's medians."""
+    """Launch → list and → observations, ``runs`` rounds, each round every python in turn (interleaved),
+    wall and CPU time at each; then each python's medians."""
     measured: dict[str, list] = {python: [] for python in pythons}
     with tempfile.TemporaryDirectory() as name:
         for round_ in range(runs):
             for python in pythons:
                 folder = Path(name) / f"{round_}-{pythons.index(python)}"
                 folder.mkdir()
-                cpu: list = []
-                listed, observed = launch_to_screen(results, folder, python, ledger, cpu)
-                cpu += [float("nan")] * (2 - len(cpu))
+                listed, observed, cpu, observed_cpu = launch_to_screen(results, folder, python, ledger)
                 load = open("/proc/loadavg").read().split()[0] if Path("/proc/loadavg").exists() else "?"
-                seen = (f"{observed:.2f} s (CPU {cpu[1]:.2f} s)" if observed is not None else "— (none listed)")
-                print(f"  {python}: list {listed:.2f} s (CPU {cpu[0]:.2f} s), observations {seen} (load {load})",
+                seen = f"{observed:.2f} s (CPU {observed_cpu:.2f} s)" if observed is not None else "— (none listed)"
+                print(f"  {python}: list {listed:.2f} s (CPU {cpu:.2f} s), observations {seen} (load {load})",
                       flush=True)
-                measured[python].append((listed, cpu[0], observed if observed is not None else float("nan"), cpu[1]))
-    for python, runs_ in measured.items():
-        listed, listed_cpu, observed, observed_cpu = (statistics.median(column) for column in zip(*runs_))
-        print(f"  {python}: medians of {len(runs_)}: list {listed:.2f} s (CPU {listed_cpu:.2f} s), "
+                nan = float("nan")
+                measured[python].append((listed, cpu, nan if observed is None else observed,
+                                         nan if observed is None else observed_cpu))
+    for python, found in measured.items():
+        listed, cpu, observed, observed_cpu = (statistics.median(column) for column in zip(*found))
+        print(f"  {python}: medians of {len(found)}: list {listed:.2f} s (CPU {cpu:.2f} s), "
               f"observations {observed:.2f} s (CPU {observed_cpu:.2f} s)")
 
 

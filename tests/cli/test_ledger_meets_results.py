@@ -60,6 +60,25 @@ def test_results_keyed_by_other_columns_are_refused_by_writers(tmp_path, capsys)
     assert ledger.verify(tmp_path / "new.jsonl") == []
 
 
+def test_results_keyed_by_fewer_columns_take_none_of_the_ledgers_decisions(tmp_path, capsys):
+    """A ledger keyed by product and region, the next cycle fitted by product alone: ``fit --ledger`` warns and
+    backtests nothing, ``show --ledger`` lists every series pending (before: each product took a region's
+    signed curve, backtested it and raised 'shifted', and read as stale)."""
+    write_weeks(tmp_path / "w.csv", 40, seed=9)
+    with_segment(tmp_path / "w.csv", tmp_path / "region.csv", "region")
+    fit_segmented(tmp_path / "region.csv", tmp_path / "region.json", "region")
+    book = tmp_path / "L.jsonl"
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "region.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "w2.csv", 44, seed=9)
+    capsys.readouterr()
+    second = fit(tmp_path / "w2.csv", tmp_path / "r2.json", book)
+    assert "keyed by product, but those in" in capsys.readouterr().err
+    assert not any(r.get("backtest") or "shifted" in [f["code"] for f in r["flags"]] for r in second.values())
+    assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(book)]) == 0
+    lines = capsys.readouterr().out.splitlines()[1:]
+    assert len(lines) == len(second) and all(" pending " in line for line in lines)
+
+
 def test_ledger_show_filters_on_the_product_column(tmp_path, capsys):
     write_weeks(tmp_path / "w.csv", 40)
     for segment in ("family", "note", "n"):  # each sorts before "product" in a record's series
@@ -141,3 +160,8 @@ def test_carry_counts_what_show_says_is_due(tmp_path, capsys):
         assert dues["decided on newer data"] >= 1 and "no new rows" not in dues
         left = carry_left(tmp_path / name, book, capsys)
         assert left == dues and "new look (held)" not in left
+    # one such series in full: the proposal beside the signed curve is these older results', not this cycle's
+    assert main(["show", str(tmp_path / "old.json"), "--ledger", str(book), "--product", "item 1"]) == 0
+    said = capsys.readouterr().out
+    assert "decided on newer data" in said and "This cycle's proposal" not in said
+    assert "since sign-off (the curve as signed): " in said and "The proposal of these older results, " in said

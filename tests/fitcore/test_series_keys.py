@@ -27,3 +27,19 @@ def test_indices_of_agrees_with_a_dictionary(keys, how_many):
     asked[::7] = [{"product": "no such item", "region": "North"}] * len(asked[::7])  # some name no series
     expected = [where.get((key["product"], key["region"]), -1) for key in asked]
     assert series.indices_of(asked).tolist() == expected
+
+
+@pytest.mark.parametrize("how_many", [1, FEW_KEYS + 1])  # scan, join
+def test_a_key_of_other_columns_names_no_series(keys, how_many):
+    """A ledger's series keyed by product and region name none of a fit keyed by product alone, and the
+    reverse, whatever the values (before: the columns the series lack were ignored and a missing one read as
+    "", so a fit by product took every region's decisions, and ``fit --ledger`` backtested them)."""
+    series, product, region = keys
+    by_product = SeriesKeys(("product",), {"product": product})
+    s = region.index("")  # a series whose region is "": a key without region must not find it either
+    extra = [{"product": product[0], "region": region[0], "channel": "web"}] * how_many
+    missing = [{"product": product[s]}] * how_many
+    assert series.indices_of(extra).tolist() == [-1] * how_many
+    assert series.indices_of(missing).tolist() == [-1] * how_many
+    assert by_product.indices_of([{"product": product[0], "region": region[0]}] * how_many).tolist() == [-1] * how_many
+    assert by_product.indices_of([{"product": product[0]}] * how_many).tolist() == [0] * how_many

@@ -173,3 +173,54 @@ async def test_keys_the_newer_decision_refuses_are_hidden_and_the_flag_says_what
         session.bring(pending)
         app.screen.refresh_all()
         await until(pilot, lambda: "a accept" in screen_text(app) and "h hold" in screen_text(app))
+
+
+async def test_a_backtest_against_another_ledger_is_left_out_and_said_once(next_cycle, tmp_path):
+    """This week's results fitted with --ledger on one copy of the ledger, opened on another: their backtest and
+    'shifted' flags speak of the first copy, so the screen leaves both out (as ``show --ledger`` does) and says
+    so on the header; once the data are fitted here, the screen's own backtest against this ledger is shown.
+    Before: the file's backtest and flags were shown as this ledger's."""
+    from tui.app import TriageApp
+    from tui.factory import open_stored_session, refit_stored, source_from_results
+    copy, out = stored_next_cycle(next_cycle, tmp_path)
+    other = tmp_path / "other.jsonl"
+    other.write_bytes(copy.read_bytes())
+    app = TriageApp(lambda progress: open_stored_session(out, other, ledger.Identity("cy", "cy", "h"), None, progress))
+    async with app.run_test(size=(100, 30), notifications=True) as pilot:
+        session = await started(app, pilot)
+        assert session.backtest is None and not session.diagnosis.flagged("shifted").any()
+        assert session._code("stale").sum() == signed(next_cycle[0])  # the statuses are this ledger's all the same
+        said = " ".join(screen_text(app).split())
+        assert f"{out}: backtested against {copy}, not {other}; its backtest and 'shifted' flags are left out" in said
+        assert said.count("backtested against") == 1  # once: no notification besides
+        session.set_filter("changed", None)
+        app.screen.refresh_all()
+        await pilot.pause(0.3)
+        assert "Since sign-off" not in screen_text(app) and "?shifted" not in screen_text(app)
+        assert session.upgrade(*refit_stored(source_from_results(out)))  # the observations' fit
+        app.screen.refresh_all()
+        await until(pilot, lambda: "backtested again here, against other.jsonl" in " ".join(screen_text(app).split()))
+        assert session.backtest is not None and session.diagnosis.flagged("shifted").any()
+
+
+async def test_on_older_results_the_since_sign_off_block_does_not_call_their_proposal_this_cycles(next_cycle,
+                                                                                                   tmp_path):
+    """bo on last cycle's results after this cycle's carry: the backtest of the carried curve sets it beside the
+    proposal of the results on screen, which are older — not "this cycle's proposal"."""
+    from tui.app import TriageApp
+    from tui.factory import open_stored_session, refit_stored, source_from_results
+    copy, out = stored_next_cycle(next_cycle, tmp_path)
+    assert main(["ledger", "carry", str(out), "--ledger", str(copy), "-q"]) == 0
+    bo = ledger.Identity("bo", "bo", "test-host")
+    app = TriageApp(lambda progress: open_stored_session(SAMPLE / "results.parquet", copy, bo, None, progress))
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        assert session.upgrade(*refit_stored(source_from_results(SAMPLE / "results.parquet")))  # backtested here
+        newer = next(s for s in range(session.results.n_series) if session.decided_on_newer(s)
+                     and session.backtest_of(s) is not None and "shifted" not in session.flag_codes(s))
+        session.set_filter("all", None)
+        session.bring(newer)
+        app.screen.refresh_all()
+        await until(pilot, lambda: "Since sign-off: Signed" in screen_text(app))
+        said = " ".join(screen_text(app).split())
+        assert "The proposal of these older results, " in said and "This cycle's proposal" not in said

@@ -79,3 +79,12 @@ def test_key_table_finds_what_the_join_finds():
         found = KeyTable(keys).indices_of(asked)
         assert found == keys.indices_of(asked).tolist()
         assert -1 in found and max(found) >= 0
+
+
+def test_a_key_of_other_columns_finds_no_series():
+    """A ledger keyed by product and region, results keyed by product: no record names one of their series (before:
+    the table looked up the product alone, and every region's decisions landed on the product's one series)."""
+    products = [f"item {i}" for i in range(100)]
+    keys = SeriesKeys(("product",), {"product": pa.array(products)})
+    asked = [{"product": f"item {i}", "region": "North"} for i in range(40)] + [{"product": "item 3"}]
+    assert KeyTable(keys).indices_of(asked) == [-1] * 40 + [3]

@@ -35,7 +35,7 @@ from ..text import clean
 from ..widgets.evidence import EvidencePanel, predicts
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import status_text
+from ..widgets.status_line import keys_text, status_text
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
@@ -78,6 +78,7 @@ class TriageScreen(Screen):
         self._status_lines: int | None = None
         self._waiting_key: tuple | None = None  # (action, shown): a key pressed before the results were all read
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
+        self._keys_said: str | None = None  # the key columns' mismatch the header says (``update_status``)
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -143,7 +144,7 @@ class TriageScreen(Screen):
         text = status_text(self.session, max(self.size.width - 2, 20))
         lines = text.plain.count("\n")
         line.update(text, layout=lines != self._status_lines)
-        self._status_lines = lines
+        self._status_lines, self._keys_said = lines, self.session.key_columns.mismatch
 
     def refresh_all(self) -> None:
         self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow
@@ -157,6 +158,12 @@ class TriageScreen(Screen):
         except (OSError, PricefoldError) as exc:
             self.notify(f"could not read the ledger: {clean(str(exc))}", severity="error", markup=False)
             return
+        said = self.session.key_columns.mismatch
+        if said != self._keys_said:  # another analyst's records started (or joined) a set of key columns
+            self.update_status()
+            if said is not None:
+                self.notify(f"The ledger changed: {said}. Your next decision asks first.", severity="warning",
+                            timeout=10, markup=False)
         if changed:
             self.refresh_all()
         news = self.session.news
@@ -277,10 +284,34 @@ class TriageScreen(Screen):
                         f"({why}); press the key again.",
                         severity="warning", timeout=8, markup=False)
 
+    def new_key_set(self, then) -> None:
+        """``then()`` — at once, or, where the results' key columns name none of the ledger's series and the analyst
+        has not confirmed it yet this session, after a dialog naming both sets says a decision starts a new set
+        of series in the ledger and the analyst confirms (Esc or "No" cancels: nothing is written)."""
+        said = self.session.key_columns.unconfirmed
+        if said is None:
+            then()
+            return
+        name = self.session.key_columns.ledger_name
+        columns = ", ".join(map(clean, self.session.key_columns.columns))
+
+        def answered(choice: str | None) -> None:
+            if choice == "confirm":
+                self.session.key_columns.confirmed = said  # ``decide`` refuses if the ledger moved on meanwhile
+                then()
+        self.app.push_screen(ChoiceDialog(
+            f"Key columns differ: {said}. A decision here starts a new set of series in {name} (a second data "
+            "set beside its own): is that what you mean?",
+            [("confirm", f"Yes: decide on series keyed by {columns} in {name}"),
+             ("cancel", "No: record nothing (Esc)")], "cancel"), answered)
+
     def action_accept(self) -> None:
         shown = self.session.shown
         if shown is None or self.still_reading("accept"):
             return
+        self.new_key_set(lambda: self.accept(shown))
+
+    def accept(self, shown: Shown) -> None:
         if self.session.needs_reason(shown, "accept"):
             self.ask(f"Accept {shown.proposed} for {self.session.label(shown.series)} despite "
                      f"{', '.join(shown.stops)}? Say why", "a note is required",
@@ -291,8 +322,9 @@ class TriageScreen(Screen):
     def action_hold(self) -> None:
         shown = self.session.shown
         if shown is not None:
-            self.ask(f"Hold {self.session.label(shown.series)}: why? (optional)", "Enter alone holds without a note",
-                     False, lambda note: self.decide(shown, "hold", note=note))
+            self.new_key_set(lambda: self.ask(f"Hold {self.session.label(shown.series)}: why? (optional)",
+                                              "Enter alone holds without a note", False,
+                                              lambda note: self.decide(shown, "hold", note=note)))
 
     def action_override(self) -> None:
         shown, session = self.session.shown, self.session
@@ -306,14 +338,16 @@ class TriageScreen(Screen):
                          lambda note: self.decide(shown, "override", model, note))
 
         from .override import OverrideDialog  # with the first override, not before the list's first frame
-        self.app.push_screen(OverrideDialog(session.results, s, session.label(s), session.diagnosis,
-                                            shown.model if shown.model != shown.proposed else None), picked)
+        self.new_key_set(lambda: self.app.push_screen(
+            OverrideDialog(session.results, s, session.label(s), session.diagnosis,
+                           shown.model if shown.model != shown.proposed else None), picked))
 
     def action_note(self) -> None:
         shown = self.session.shown
         if shown is not None:
-            self.ask(f"Note on {self.session.label(shown.series)}", "what should the next reader know?", True,
-                     lambda note: self.decide(shown, "note", note=note))
+            self.new_key_set(lambda: self.ask(f"Note on {self.session.label(shown.series)}",
+                                              "what should the next reader know?", True,
+                                              lambda note: self.decide(shown, "note", note=note)))
 
     def action_nothing_to_override(self) -> None:
         results, s = self.session.results, self.session.current
@@ -426,7 +460,8 @@ class TriageScreen(Screen):
                     markup=False, timeout=2)
 
     def action_help(self) -> None:
-        self.app.push_screen(MessageDialog(help_text(self.session.book), classes="help"))
+        self.app.push_screen(MessageDialog(help_text(self.session.book, keys_text(self.session.key_columns)),
+                                           classes="help"))
 
     def action_quit(self) -> None:
         self.app.exit()

@@ -220,6 +220,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             message = f["message"]
             if f["code"] == "stale" and self.session.decided_on_newer(s):  # what is due, as the status line says
                 message = NEWER_DUE[0].upper() + NEWER_DUE[1:] + "."
+            elif f["code"] == "shifted" and self.session.decided_on_newer(s):  # not this cycle's proposal
+                message = self.shift_words(s) or message
             text.append(clean(message) + "\n")
         return text
 
@@ -230,14 +232,23 @@ class EvidencePanel(VerticalScroll, can_focus=True):
 
     def since_text(self, s: int) -> Text:
         """Since sign-off: the signed curve on the rows since and this cycle's proposal beside it, in numbers."""
-        from fitcore.review.sentences import shift_sentence
-        record = self.session.backtest_of(s) if self.session.status[s] == "stale" else None
-        if record is None or "shifted" in self.session.flag_codes(s):  # the flag's sentence says it already
+        said = self.shift_words(s) if self.session.status[s] == "stale" else None
+        if said is None or "shifted" in self.session.flag_codes(s):  # the flag's sentence says it already
             return Text()
-        chosen = int(self.session.results.chosen[s])
         text = Text("Since sign-off: ", style="bold")
-        text.append(clean(shift_sentence(record, self.session.results.names[chosen] if chosen >= 0 else None)) + "\n")
+        text.append(clean(said) + "\n")
         return text
+
+    def shift_words(self, s: int) -> str | None:
+        """The backtest's sentence (``shift_sentence``) for series ``s``, its proposal called what it is: on
+        results older than the standing decision's data, not this cycle's (None: nothing backtested)."""
+        from fitcore.review.sentences import shift_sentence
+        record = self.session.backtest_of(s)
+        if record is None:
+            return None
+        chosen = int(self.session.results.chosen[s])
+        return shift_sentence(record, self.session.results.names[chosen] if chosen >= 0 else None,
+                              older=self.session.decided_on_newer(s))
 
     def why_text(self, s: int) -> Text:
         results, session = self.session.results, self.session

@@ -43,7 +43,29 @@ def status_text(session, width: int) -> Text:
         text.append("\n" + cut(said, width), style="bold reverse")
     elif session.book.notes:  # an interrupted append: said before any decision, whole (wrapped), until moved
         text.append("\n" + cut_off_text(session.book), style="bold")
+    for said in (keys_text(session.key_columns), elsewhere_text(session)):  # whole (wrapped), while true
+        if said:
+            text.append("\n" + said, style="bold")
     return text
+
+
+def keys_text(key_columns) -> str | None:
+    """'Key columns differ: series keyed by product, but those in L.jsonl by product, region (…); …' — the one
+    check where results meet a ledger (``fitcore.ledger.key_columns.mismatch``), for the screen."""
+    said = key_columns.mismatch
+    if said is None:
+        return None
+    return f"Key columns differ: {said}; every series reads as pending; a decision starts a new set of series there (asked first)"
+
+
+def elsewhere_text(session) -> str | None:
+    """'R.parquet: backtested against L, not THIS; …' (``fitcore.ledger.elsewhere``, ``show --ledger``'s words):
+    the file's backtest left out; once the data are fitted here, the screen's own against this ledger."""
+    if session.elsewhere is None:
+        return None
+    if session.results.rows_loaded:
+        return f"{clean(session.elsewhere)}; backtested again here, against {clean(session.ledger_path.name)}"
+    return f"{clean(session.elsewhere)}; its backtest and 'shifted' flags are left out"
 
 
 SIDE_FILE = "the next append moves it to a side file"  # how the reader's notes end (fitcore.ledger.reader)
