@@ -152,8 +152,11 @@ class TriageApp(App):
 
     @work(thread=True, exit_on_error=False, group="results")
     def await_results(self, results) -> None:
-        """The columns of the results file read behind the list (``stored_results(later=True)``)."""
+        """The columns of the results file read behind the list (``stored_results(later=True)``): the
+        candidates' numbers the evidence shows at once, the rest once started."""
         try:
+            results.later.wait_soon()
+            self.post_message(EvidenceReady())
             results.later.wait()
             results.later.table()
         except (PricefoldError, OSError) as exc:
@@ -170,7 +173,10 @@ class TriageApp(App):
     def on_evidence_ready(self, message: EvidenceReady) -> None:
         screen = self.triage_screen()
         if screen is not None:
-            screen.evidence.redraw()
+            # the candidates' numbers can arrive before the screen has composed its panes: the panel draws
+            # them when it shows its first series
+            for evidence in screen.query("EvidencePanel"):
+                evidence.redraw()
             screen.results_complete()
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="observations")

@@ -37,15 +37,18 @@ def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | 
 
 def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes | None = None,
                         progress: Callable[[int, int], None] | None = None, units: dict | None = None) -> TriageSession:
-    """A session on the results as the file holds them: no refit, no observations yet; the largest columns,
-    which the list does not need, are still being read (``StoredResults.complete``).  A backtest the file holds
-    against another ledger is left out (``fitcore.ledger.elsewhere``, as ``show --ledger`` leaves it out)."""
+    """A session on the results as the file holds them: no refit, no observations yet; the columns the list
+    does not need are still being read (``StoredResults.numbers_ready``, ``complete``).  A backtest the file
+    holds against another ledger is left out (``fitcore.ledger.elsewhere``, as ``show --ledger`` leaves it out)."""
     from fitcore.ledger.elsewhere import backtested_elsewhere
     from fitcore.ledger.reader import opening
     book = opening(ledger_path, key)  # read and verified meanwhile: Arrow reads the results without the interpreter
     results, diagnosis = stored_results(path, later=True)
     head = {k: v for k, v in read_header(path).items() if k != "key_columns"}
-    return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units, book=book(),
+    book = book()
+    if book.records:  # the list shows a decided series' model and score, a stale one's due: from every candidate's
+        results.later.wait_soon()  # numbers (``stored.SOON``), a failure to read them said before the screen
+    return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units, book=book,
                          elsewhere=backtested_elsewhere(path, head, Path(ledger_path)))
 
 

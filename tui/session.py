@@ -220,10 +220,13 @@ class TriageSession(ListState):
         flag joins the results' flags, and ``backtest`` holds the numbers (None: nothing to test).  A results
         file's own backtest made against another ledger (``elsewhere``) is left out with its ``shifted`` flags,
         as ``show --ledger`` leaves it out; a fit of the data is backtested here, against this ledger."""
-        from fitcore.ledger.backtest import cycle_of
+        self.base_diagnosis, self.backtest = diagnosis, None
         if self.elsewhere is not None and not results.rows_loaded:
-            self.base_diagnosis, self.backtest = without_shifted(diagnosis), None
-        else:
+            self.base_diagnosis = without_shifted(diagnosis)
+        # a results file holds the backtest it was fitted with, or none: then its module is not imported (not
+        # before the list's first frame)
+        elif results.rows_loaded or getattr(results, "stored_backtest", None) is not None:
+            from fitcore.ledger.backtest import cycle_of
             source = {"path": str(self.ledger_path), "head": self.book.head_text, "state": self.book.state}
             self.base_diagnosis, self.backtest = cycle_of(results, diagnosis, self.book.histories, source)
         self.diagnosis = self.base_diagnosis

@@ -105,6 +105,7 @@ class Results:
 
     rows_loaded = True  # the observations are in ``data`` (False for results read back from a file)
     complete = True  # every column is in (results read back from a file may still be reading some)
+    numbers_ready = True  # every candidate's numbers are in (results read back from a file: just after the list's)
 
     @classmethod
     def build(cls, data: Dataset, settings: FitSettings, candidates, plan_price, parts: dict | None,

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import json
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 from pathlib import Path
 
 import numpy as np
@@ -28,17 +28,19 @@ from ..fit.settings import settings_from_dict
 from ..review.flags import CODES, SEVERITY, Diagnosis
 from ..review.thresholds import Thresholds
 from .control_fields import CONTROL_COLUMNS, stored_controls
-from .later import LaterColumns
+from .later import LaterColumns, Waiting
 from .read import CYCLE_COLUMNS, read_header, result_parts
 from .series_columns import check_candidate_rows
 
 # The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
-# ``LATER``: the largest of them, which the list does not need; ``stored_results(later=True)`` leaves them
-# (and the covariances) to a thread its caller starts (``LaterColumns``).
-NEEDED = ("n", "price_lo", "price_hi", "candidate", "available", "reason", "cv_mse", "cv_se", "fold_mse", "r2", "q2",
-          "window_coef", "smearing", "is_chosen", "score", "revenue_price", "plan_price", "plan_volume", "plan_lo",
-          "plan_hi", "plan_elasticity", "flags", "fingerprint")
+# ``stored_results(later=True)`` reads only ``LISTED`` (what the list and the evidence's title show) before
+# it returns; a thread (``LaterColumns``) then reads ``SOON`` (the evidence's numbers) at once and ``LATER``,
+# the largest, which only the charts and a sign-off need (and the covariances), when its caller starts it.
+LISTED = ("n", "price_lo", "price_hi", "candidate", "available", "is_chosen", "score", "flags", "fingerprint")
+SOON = ("cv_mse", "cv_se", "r2", "q2", "smearing", "revenue_price", "plan_price", "plan_volume",
+        "plan_lo", "plan_hi", "plan_elasticity")
 LATER = ("window_coef", "fold_mse", "reason")
+NEEDED = (*LISTED, *SOON, *LATER)
 
 
 @dataclass(frozen=True, eq=False)
@@ -127,6 +129,11 @@ class StoredResults(Results):
         """Every column is read (with ``later``, the ones read behind the list may not be yet)."""
         return self.later is None or self.later.ready
 
+    @property
+    def numbers_ready(self) -> bool:
+        """Every candidate's numbers are read (with ``later``, the ``SOON`` columns come just after the list's)."""
+        return self.later is None or self.later.soon_ready
+
     @cached_property
     def score(self) -> np.ndarray:
         return self.stored_score
@@ -161,8 +168,10 @@ class StoredDiagnosis(Diagnosis):
 def stored_results(path: str | Path, later: bool = False) -> tuple[StoredResults, StoredDiagnosis]:
     """Open a Parquet results file; a ``DataError`` if it lacks what triage needs (written by an older pricefold).
 
-    ``later``: leave the ``LATER`` columns and the covariances to a thread (``StoredResults.later``: started
-    by the caller, or by the first use of one of them, which waits for it), so what a list needs is back sooner."""
+    ``later``: read only the ``LISTED`` columns now, the ``SOON`` ones in a thread at once, and leave the
+    ``LATER`` columns and the covariances to that thread once started (``StoredResults.later``: started by the
+    caller, or by the first use of one of them, which waits for it), so what a list needs is back sooner.
+    What is made of a column still being read (``Later``, ``Waiting``) waits for it where first used."""
     path = Path(path)
     meta = read_header(path)
     settings = settings_from_dict(meta["settings"])
@@ -207,65 +216,78 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         # not read_table: that imports pyarrow.dataset and pandas (0.3 s); every page's checksum checked
         reader = pq.ParquetFile(handle, page_checksum_verification=True)
         readers.append(reader)
-        missing = [name for name in wanted if name not in reader.schema_arrow.names]
+        names = set(reader.schema_arrow.names)  # the property converts the schema on each call (≈ 0.5 ms)
+        missing = [name for name in wanted if name not in names]
         if missing:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
-        tables.append(_read(reader, part, [n for n in wanted if not (later and n in LATER)]))
+        tables.append(_read(reader, part, [n for n in wanted if not (later and n in (*SOON, *LATER))]))
     table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
     cycle = _has_cycle(readers)
-    late = LaterColumns(files, [*LATER, *(CYCLE_LATER if cycle else ())], str(parts[0])) if later else None
+    read_now = _optional(readers, parts, CYCLE_LATER if later else ()) if cycle else None
+    # started only now: its thread reads through the same handles, which nothing else reads from here on
+    late = LaterColumns(files, [*LATER, *(CYCLE_LATER if cycle else ())], str(parts[0]), SOON) if later else None
 
     def column(name):  # the column, or one still being read
-        return late.column(name) if late is not None and name in late.names else table.column(name)
+        return late.column(name) if late is not None and name in (*late.soon, *late.names) else table.column(name)
     lineup = lineup_for(settings)
     cands = lineup.candidates
     n_c = len(cands)
     n_s = check_candidate_rows(path, table.column("candidate"), [c.name for c in cands]) if n_c else 0
 
     def cells(name):
-        return CellColumn(table.column(name), n_s, n_c)
+        return CellColumn(column(name), n_s, n_c)
 
     def per_series(name):  # one value a series: that of its first row (every candidate's row holds it)
-        return np.ascontiguousarray(_column(table, name)[::max(n_c, 1)])
+        return np.ascontiguousarray(_column(column(name))[::max(n_c, 1)])
 
     def per_series_text(name):  # Arrow text, decoded from its dictionary
         return _per_series_text(table.column(name), n_c)
+
+    def soon(make):  # made now, or where first used once its columns are read
+        return Waiting(make) if late is not None else make()
 
     key_names = tuple(meta["key_columns"])
     counts = per_series("n").astype(np.int64)
     data = StoredDataset(key_names, {k: per_series_text(k) for k in key_names},
                          np.concatenate(([0], np.cumsum(counts))).astype(np.int64), np.zeros(0), np.zeros(0),
                          source=dict(meta.get("input", {})), stored_fingerprints=per_series_text("fingerprint"))
-    available = _column(table, "available").astype(bool).reshape(n_s, n_c)
     lo, hi = per_series("price_lo").astype(float, copy=False), per_series("price_hi").astype(float, copy=False)
     mid, half = window(lo, hi)
-    basis_mid, basis_half = np.zeros((n_s, n_c)), np.zeros((n_s, n_c))
-    for family, cols in lineup.groups:  # each candidate's window, where it was fitted
-        for c in range(cols.start, cols.stop):
-            basis_mid[:, c], basis_half[:, c] = family.window_of(lo, hi, available[:, c])
-    is_chosen = _column(table, "is_chosen").astype(bool).reshape(n_s, n_c)
+    available = _column(table.column("available")).astype(bool).reshape(n_s, n_c)
+
+    @lru_cache(maxsize=None)
+    def windows():  # each candidate's window (mid, half), where it was fitted
+        basis_mid, basis_half = np.zeros((n_s, n_c)), np.zeros((n_s, n_c))
+        for family, cols in lineup.groups:
+            for c in range(cols.start, cols.stop):
+                basis_mid[:, c], basis_half[:, c] = family.window_of(lo, hi, available[:, c])
+        return basis_mid, basis_half
+    is_chosen = _column(table.column("is_chosen")).astype(bool).reshape(n_s, n_c)
     chosen = np.where(is_chosen.any(axis=1), is_chosen.argmax(axis=1), -1)
     n_folds = fold_scheme(settings).error_counts(counts)
     fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
-    smear = _column(table, "smearing").astype(float, copy=False).reshape(n_s, n_c)
     smeared = np.array([lineup.family_of(c).smeared for c in range(n_c)], dtype=bool)
-    smear = np.where(smeared, np.where(np.isfinite(smear), smear, 1.0), np.nan)
+
+    def smear():
+        values = _column(column("smearing")).astype(float, copy=False).reshape(n_s, n_c)
+        return np.where(smeared, np.where(np.isfinite(values), values, 1.0), np.nan)
     unknown = Unknown((n_s, n_c))  # residual variance and degrees of freedom need the rows
     results = StoredResults(
         data=data, settings=settings, candidates=cands,
-        available=available, reason=np.where(available, reasons.NONE, reasons.RANK_ALL).astype(np.int8),
+        available=available,
+        reason=soon(lambda: np.where(available, reasons.NONE, reasons.RANK_ALL).astype(np.int8)),
         cv_mse=cells("cv_mse"), cv_se=cells("cv_se"), r2=cells("r2"), q2=cells("q2"),
         fold_err=np.zeros((0, n_c)), fold_start=fold_start, price_lo=lo, price_hi=hi, mid=mid, half=half,
-        basis_mid=basis_mid, basis_half=basis_half, smear=smear, sigma2=unknown, df=unknown,
-        coef=CellColumn(column("window_coef"), n_s, n_c, lineup.width),
-        chosen=chosen, plan_price=per_series("plan_price").astype(float), plan_volume=cells("plan_volume"),
-        plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"), plan_elasticity=cells("plan_elasticity"),
-        revenue_price=per_series("revenue_price").astype(float),
+        basis_mid=soon(lambda: windows()[0]), basis_half=soon(lambda: windows()[1]), smear=soon(smear),
+        sigma2=unknown, df=unknown, coef=CellColumn(column("window_coef"), n_s, n_c, lineup.width),
+        chosen=chosen, plan_price=soon(lambda: per_series("plan_price").astype(float)),
+        plan_volume=cells("plan_volume"), plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"),
+        plan_elasticity=cells("plan_elasticity"),
+        revenue_price=soon(lambda: per_series("revenue_price").astype(float)),
         top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=column("reason"),
         fold_lists=column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
         controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late)
     if cycle:
-        read_now = _optional(readers, parts, () if late is None else CYCLE_LATER)
         results = _with_cycle_fields(results, read_now, n_s, n_c, lineup.width, column if late is not None else None)
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     raised, flag_texts = _raised(table, n_s, n_c, path)
@@ -307,7 +329,7 @@ class StoredCovariances:
 
 def _has_cycle(readers) -> bool:
     """Whether every part (its ``pq.ParquetFile``) holds the cycle columns (an older file holds none)."""
-    return all(all(name in reader.schema_arrow.names for name in CYCLE) for reader in readers)
+    return all(set(CYCLE) <= set(reader.schema_arrow.names) for reader in readers)
 
 
 def _optional(readers, parts, leave_out=()):
@@ -354,10 +376,11 @@ def _per_series(column, n_c: int) -> np.ndarray:
     return values.astype(bool) if pa.types.is_boolean(column.type) else values.astype(float, copy=False)
 
 
-def _column(table, name: str) -> np.ndarray:
-    """A column as numpy; text as an object array (a dictionary column through its dictionary)."""
+def _column(column) -> np.ndarray:
+    """An Arrow column (or one still being read, ``Later``) as numpy; text as an object array (a dictionary
+    column through its dictionary)."""
     import pyarrow as pa
-    column = table.column(name).combine_chunks()
+    column = column.combine_chunks()
     if pa.types.is_dictionary(column.type) and not column.null_count:
         values = np.array(column.dictionary.to_pylist() + [None], dtype=object)[:-1]
         return values[numbers(column.indices)]

@@ -104,10 +104,10 @@ def cpu_seconds(pid: int) -> float:
 
 
 def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
-                     ledger: Path | None = None) -> tuple[float, float, float]:
+                     ledger: Path | None = None) -> tuple[float, float, float, float]:
     """Seconds from starting ``pricefold triage RESULTS`` in a terminal (tmux, 160×50) to the list on
     screen, and to the observations on screen (read and fitted behind it); the CPU seconds the command had
-    used when the list appeared.  ``ledger``: opened as a copy."""
+    used when each appeared.  ``ledger``: opened as a copy."""
     if ledger is not None:
         import shutil
         shutil.copyfile(ledger, folder / "launch.jsonl")
@@ -118,7 +118,7 @@ def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
     # started in ``folder``: ``python -m pricefold`` from a checkout would import that checkout's code, whatever
     # the interpreter (every "main" launch ran this branch's code when started from a worktree)
     subprocess.run(tmux + ["new-session", "-d", "-x", "160", "-y", "50", "-c", str(folder), command], check=True)
-    listed = observed = cpu = None
+    listed = observed = cpu = observed_cpu = None
     pane = int(subprocess.run(tmux + ["list-panes", "-F", "#{pane_pid}"], capture_output=True, text=True).stdout)
     try:
         while time.perf_counter() - start < 120 and observed is None:
@@ -128,12 +128,13 @@ def launch_to_screen(results: Path, folder: Path, python: str = sys.executable,
                 cpu = cpu_seconds(pane)
             if "• observed" in screen:
                 observed = time.perf_counter() - start
+                observed_cpu = cpu_seconds(pane)
             if listed is not None and "Nothing listed" in screen:
                 break  # every series decided: no observations to wait for
             time.sleep(0.02)
     finally:
         subprocess.run(tmux + ["kill-server"], capture_output=True)
-    return listed, observed, cpu
+    return listed, observed, cpu, observed_cpu
 
 
 async def measure(n_series: int) -> None:
@@ -148,7 +149,7 @@ async def measure(n_series: int) -> None:
 
 async def measure_triage(results_path: Path, folder: Path) -> None:
     """Launch to first screen (tmux), then key-to-repaint (Pilot), on a results file or folder."""
-    listed, observed, _ = launch_to_screen(results_path, folder)
+    listed, observed, _, _ = launch_to_screen(results_path, folder)
     print(f"  pricefold triage RESULTS, launch to first usable screen: {listed:.2f} s "
           f"(observations drawn after {observed:.2f} s, read and fitted behind the screen)")
     for other in (False, True):
@@ -222,17 +223,26 @@ async def measure_keys(results_path: Path, folder: Path, other: bool) -> None:
 
 
 def launches(results: Path, runs: int, pythons: list[str], ledger: Path | None = None) -> None:
-    """Launch → list and → observations, ``runs`` rounds, each round every python in turn (interleaved)."""
+    """Launch → list and → observations, ``runs`` rounds, each round every python in turn (interleaved),
+    wall and CPU time at each; then each python's medians."""
+    measured: dict[str, list] = {python: [] for python in pythons}
     with tempfile.TemporaryDirectory() as name:
         for round_ in range(runs):
             for python in pythons:
                 folder = Path(name) / f"{round_}-{pythons.index(python)}"
                 folder.mkdir()
-                listed, observed, cpu = launch_to_screen(results, folder, python, ledger)
+                listed, observed, cpu, observed_cpu = launch_to_screen(results, folder, python, ledger)
                 load = open("/proc/loadavg").read().split()[0] if Path("/proc/loadavg").exists() else "?"
-                seen = f"{observed:.2f} s" if observed is not None else "— (none listed)"
+                seen = f"{observed:.2f} s (CPU {observed_cpu:.2f} s)" if observed is not None else "— (none listed)"
                 print(f"  {python}: list {listed:.2f} s (CPU {cpu:.2f} s), observations {seen} (load {load})",
                       flush=True)
+                nan = float("nan")
+                measured[python].append((listed, cpu, nan if observed is None else observed,
+                                         nan if observed is None else observed_cpu))
+    for python, found in measured.items():
+        listed, cpu, observed, observed_cpu = (statistics.median(column) for column in zip(*found))
+        print(f"  {python}: medians of {len(found)}: list {listed:.2f} s (CPU {cpu:.2f} s), "
+              f"observations {observed:.2f} s (CPU {observed_cpu:.2f} s)")
 
 
 def main() -> None:

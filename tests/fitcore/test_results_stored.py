@@ -88,6 +88,34 @@ def test_columns_read_behind_the_list_come_from_the_file_opened(tmp_path):
     ok = first.available
     np.testing.assert_array_equal(stored.coef[ok], first.coef[ok])  # the opened file's, bit for bit
     np.testing.assert_array_equal(np.asarray(stored.sigma2)[ok], first.sigma2[ok])
+    np.testing.assert_array_equal(np.asarray(stored.cv_mse)[ok], first.cv_mse[ok])  # read just after the list's
+
+
+def test_opened_for_a_list_only_the_lists_columns_are_read_before_it_returns(tmp_path, monkeypatch):
+    """``later=True`` (triage): the candidates' numbers and the largest columns are read in a thread behind
+    the list (the Parquet read of every column was most of the list's wait at 100,000 series); whatever is
+    made of them waits for them where used, and equals the fit that wrote the file."""
+    import threading
+    data = random_dataset(43, n_series=60, n_range=(3, 30))
+    results = fitcore.fit_batch(data, plan_price=data.price[data.offsets[:-1]] * 1.1)
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    reads, original = [], pq.ParquetFile.read
+
+    def read(self, columns=None, *args, **kwargs):
+        reads.append((threading.current_thread() is threading.main_thread(), tuple(columns or ())))
+        return original(self, columns, *args, **kwargs)
+    monkeypatch.setattr(pq.ParquetFile, "read", read)
+    stored, _ = stored_results(tmp_path / "r.parquet", later=True)
+    before = {name for here, columns in reads if here for name in columns}
+    assert {"n", "candidate", "is_chosen", "score", "flags", "fingerprint", "price_lo", "price_hi"} <= before
+    assert not before & {"cv_mse", "cv_se", "r2", "q2", "plan_volume", "plan_lo", "plan_hi", "plan_elasticity",
+                         "smearing", "plan_price", "revenue_price", "window_coef", "fold_mse", "reason"}, before
+    for name in ARRAYS:
+        np.testing.assert_array_equal(np.asarray(getattr(stored, name)), getattr(results, name), err_msg=name)
+    ok = results.available
+    for name in ("basis_mid", "basis_half", "smear"):  # where each candidate is fitted
+        np.testing.assert_array_equal(getattr(stored, name)[ok], getattr(results, name)[ok], err_msg=name)
+    assert stored.numbers_ready
 
 
 def _rewritten(path, out, **changes):

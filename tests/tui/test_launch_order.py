@@ -151,3 +151,89 @@ async def test_the_collector_paused_for_the_launch_runs_again_once_the_list_is_d
         pass
     assert not gc.isenabled()  # left as it was found
     gc.enable()
+
+
+FIRST_FRAME_READS = r'''
+import asyncio, sys, threading
+from pathlib import Path
+sys.path.insert(0, {root!r})
+import pyarrow.parquet as pq
+from tests.tui.conftest import ANA, screen_text, until
+from tui.app import TriageApp
+from tui.factory import open_stored_session
+
+first_frame, reads = threading.Event(), []
+original_read = pq.ParquetFile.read
+
+def read(self, columns=None, *args, **kwargs):  # the candidates' numbers wait for the list's first frame
+    if columns is not None and "cv_mse" in columns:
+        first_frame.wait(20)
+    reads.append(list(columns or ()))
+    return original_read(self, columns, *args, **kwargs)
+pq.ParquetFile.read = read
+WATCHED = {watched!r}
+
+async def main():
+    app = TriageApp(lambda progress: open_stored_session(Path({results!r}), Path({ledger!r}), ANA, None, progress))
+    seen = []
+    original = app._display
+
+    def display(screen, renderable):
+        original(screen, renderable)
+        if renderable is not None and type(screen).__name__ == "TriageScreen" and not seen:
+            text = screen_text(app)
+            if "listed (" in text:
+                seen.append(([c for r in reads for c in r], [m for m in WATCHED if m in sys.modules], text))
+                first_frame.set()
+    app._display = display
+    async with app.run_test(size=(120, 40)) as pilot:
+        await until(pilot, lambda: bool(seen), 30)
+        await until(pilot, lambda: "Proposed " in screen_text(app), 30)  # the evidence's numbers, once read
+        later = screen_text(app)
+    print(sorted(set(seen[0][0])))
+    print(seen[0][1])
+    print("=====")
+    print(seen[0][2])
+    print("=====")
+    print(later)
+
+asyncio.run(main())
+'''
+# read only behind the list: the candidates' numbers (the evidence's words), the coefficients, fold errors and
+# reasons (its charts and a sign-off)
+NOT_BEFORE_THE_LIST = {"cv_mse", "cv_se", "r2", "q2", "plan_volume", "plan_lo", "plan_hi", "plan_elasticity",
+                       "smearing", "plan_price", "revenue_price", "window_coef", "fold_mse", "reason"}
+# imported only when used: a chart's curves, the override dialog, the backtest of signed curves (results read
+# from a file hold theirs), and what the engine's fit brings
+NOT_IMPORTED_BEFORE_THE_LIST = ("fitcore.review.evidence", "tui.screens.override", "fitcore.ledger.backtest",
+                                "plotext", "pyarrow.compute", "pandas", "numba", "scipy")
+
+
+def test_the_first_list_reads_its_own_columns_only_and_the_evidence_fills_in_after(tmp_path):
+    """The list's first frame reads only the columns the list and the evidence's title show and imports
+    nothing it does not draw; the evidence's numbers come just after it, and the list reads the same then."""
+    script = FIRST_FRAME_READS.format(root=str(ROOT), results=str(SAMPLE / "results.parquet"),
+                                      ledger=str(tmp_path / "ledger.jsonl"), watched=NOT_IMPORTED_BEFORE_THE_LIST)
+    out = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, cwd=tmp_path, timeout=120)
+    assert out.returncode == 0, out.stderr[-2000:]
+    head, first, later = out.stdout.split("\n=====\n")
+    read, imported = head.splitlines()
+    assert "'n'" in read and "'flags'" in read and not NOT_BEFORE_THE_LIST & set(eval(read)), read
+    assert imported == "[]"
+    list_width = 52
+    rows_first = [line[:list_width] for line in first.splitlines()[:38]]
+    assert rows_first == [line[:list_width] for line in later.splitlines()[:38]]
+    assert sum("poly" in row or "loglog" in row for row in rows_first) >= 20
+    assert "Proposed " not in first  # the evidence: its numbers after the list
+
+
+def test_the_command_line_reads_no_cycle_module_for_results_fitted_without_a_ledger(tmp_path):
+    """``triage RESULTS`` warns when the results were fitted against another ledger; results fitted without
+    one need nothing of the cycle commands (their module imports the ledger's readers and ``show``)."""
+    code = ("import sys; from pathlib import Path; from pricefold.cli import other_ledger; "
+            "from fitcore.results.source import source_from_results; "
+            f"source = source_from_results(Path({str(SAMPLE / 'results.parquet')!r}), check_data=False); "
+            f"other_ledger(source, Path({str(tmp_path / 'ledger.jsonl')!r})); "
+            "print(source.warnings, 'pricefold.cycle_cli' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, check=True)
+    assert out.stdout.strip() == "[] False"

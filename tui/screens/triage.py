@@ -37,7 +37,6 @@ from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
 from ..widgets.status_line import keys_text, status_text
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
-from .override import OverrideDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
 # Side by side, the evidence keeps EVIDENCE_LEAST cells (its title and charts whole) and the list takes up to
@@ -338,6 +337,7 @@ class TriageScreen(Screen):
                 self.ask(f"Why {model} instead of {shown.proposed} for {session.label(s)}?", "a note is required", True,
                          lambda note: self.decide(shown, "override", model, note))
 
+        from .override import OverrideDialog  # with the first override, not before the list's first frame
         self.new_key_set(lambda: self.app.push_screen(
             OverrideDialog(session.results, s, session.label(s), session.diagnosis,
                            shown.model if shown.model != shown.proposed else None), picked))

@@ -13,7 +13,6 @@ from rich.style import Style
 from rich.text import Text
 
 from fitcore.fit.results import Results
-from fitcore.review.evidence import adjusted_volumes, band, curve, runner_up, series_rows
 
 # 256-colour numbers (plotext draws them as 38;5;N; the legend uses the same numbers)
 STANDING, OTHER, BAND, OBSERVED, PLAN, ONE_SE, SIGNED, NEW = 46, 45, 214, 255, 201, 214, 177, 226
@@ -171,6 +170,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     ``signed``: the snapshot of a curve signed on earlier data, drawn beside them (dash-dot), and the rows
     dated after its data's last date marked apart (×).  ``unobserved``: why the observations will not come,
     said where they would be drawn (else, without rows, that they are being read)."""
+    # with the first chart, not with the screen: the list's first frame does not wait for it
+    from fitcore.review.evidence import adjusted_volumes, band, curve, runner_up, series_rows
     price, volume, _ = series_rows(results, s)
     new = np.zeros(len(price), dtype=bool)
     if signed is not None and signed.get("last_date") and results.data.date is not None and len(price):

@@ -2,7 +2,8 @@
 
 The words come first (they fit a small terminal), the charts after them.  Every number is of the
 model that now stands: the engine's proposal, or an analyst's override.  The title (which series,
-its status) is drawn as soon as the cursor lands; the rest once it rests, dimmed until then.
+its status) is drawn as soon as the cursor lands; the rest once it rests, dimmed until then (and,
+for results read from a file, once their candidates' numbers are read, just after the list's).
 """
 from __future__ import annotations
 
@@ -17,7 +18,6 @@ from textual.containers import VerticalScroll
 from textual.widgets import Static
 
 from fitcore.ledger.rules import NEWER_DUE
-from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
@@ -121,6 +121,12 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                 records[-1].get("digest") if records else None, news, session.waiting, session.model_of(s))
 
     def redraw(self) -> None:
+        if not self.session.results.numbers_ready:  # read just after the list's: the title until they are in
+            self._drawn = None  # the app redraws when they are (``EvidenceReady``)
+            if self.is_mounted and self.series is not None:
+                self._part("title").update(self.title_text(self.series), layout=False)
+            self.set_class(True, "catching-up")
+            return
         self._drawn = self.drawn_state(self.series)
         self.set_class(False, "catching-up")
         self.redraw_text()
@@ -260,6 +266,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             text.append(f" ({describe(standing)}): {clean(standing.get('note') or '')}\n")
             text.append(score_meaning(float(results.q2[s, model]), session.diagnosis.thresholds.weak_score) + ".\n")
             diagnosis = session.diagnosis
+            from fitcore.review.candidate_checks import candidate_checks  # its curves: with the first override
             checks = candidate_checks(results, s, model, diagnosis.thresholds, diagnosis.controls_outside(s)).codes
             said = ", ".join(checks) if checks else "none raised"
             text.append(f"Checks on {results.names[model]}: {said}.\n", style=SEVERITY_STYLE["stop"] if checks else "")
