@@ -98,7 +98,7 @@ def arrow_on_malloc() -> None:
 
 
 def warm_engine():
-    """A thread loading numba's cached loops by fitting a few invented series, then pandas, started
+    """A thread loading numba's cached loops by fitting a few invented series, started
     while this thread reads the data (pyarrow reads without holding the interpreter); None when the
     cache does not hold them yet: then the fit compiles them itself, as before, and a failure to read
     the data ends the run without waiting for a compiler."""
@@ -116,20 +116,17 @@ def _fit_invented() -> None:
     import numpy as np
 
     from fitcore import fit_batch, from_columns
+    from fitcore.data.key_codes import KeyCodes
     from fitcore.fit.settings import FitSettings
     from fitcore.review.flags import diagnose
     rng = np.random.default_rng(0)
     price = rng.uniform(1.0, 2.0, 8 * 24)
-    data = from_columns({"product": np.repeat(np.arange(8), 24).astype(str).astype(object)}, price,
-                        np.round(100 * price ** -1.5 * rng.uniform(0.8, 1.2, len(price))))
+    product = KeyCodes(np.repeat(np.arange(8, dtype=np.int32), 24), np.arange(8).astype(str).astype(object))
+    data = from_columns({"product": product}, price, np.round(100 * price ** -1.5 * rng.uniform(0.8, 1.2, len(price))))
     try:
         diagnose(fit_batch(data, FitSettings()))
     except Exception:  # only a warm-up: the real fit meets and reports any trouble itself
         pass
-    # Then pandas, which the fit no longer needs (its key hashes are computed with numpy) but the results'
-    # Arrow columns do (``pyarrow.array`` imports it): imported after the compiled loops the fit waits for,
-    # not before them, and never by the fit's own thread while it holds the import's lock.
-    import pandas  # noqa: F401
 
 
 def _fit_locally(args, run, ahead) -> int:
