@@ -62,7 +62,10 @@ def keep_freed_memory() -> None:
     """Ask glibc's malloc to keep freed memory for the next allocation instead of handing it back to the
     system at once: the fit allocates and frees large work arrays chunk after chunk, and every page
     handed back is a page fault when taken again (7M rows: system time 1.3–2.8 s → 1.0–1.2 s, peak
-    memory no higher).  Elsewhere than glibc, nothing happens.
+    memory no higher).  Nor is a large block its own mapping (glibc's default from 128 KiB, fixed there
+    once the other two settings are made; unmapped when freed): the main thread's arrays come from the
+    heap it keeps (7M rows: page faults 250k → 147k, system time 0.71 → 0.52 s, peak memory +4–8 MiB;
+    other threads' arenas still map what does not fit them).  Elsewhere than glibc, nothing happens.
 
     With glibc, Arrow allocates from that same malloc too (``arrow_on_malloc``)."""
     import ctypes
@@ -70,6 +73,7 @@ def keep_freed_memory() -> None:
         libc = ctypes.CDLL(None)
         libc.mallopt(-1, 1 << 30)  # M_TRIM_THRESHOLD: give back only above 1 GiB free at the top
         libc.mallopt(-2, 256 << 20)  # M_TOP_PAD: grow the heap 256 MiB at a time
+        libc.mallopt(-4, 0)  # M_MMAP_MAX: no block mapped on its own
     except (OSError, AttributeError):
         return
     arrow_on_malloc()
