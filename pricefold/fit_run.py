@@ -102,8 +102,8 @@ def arrow_on_malloc() -> None:
 
 
 def warm_engine():
-    """A thread loading numba's cached loops by fitting a few invented series, started
-    while this thread reads the data (pyarrow reads without holding the interpreter); None when the
+    """A thread loading numba's cached loops by fitting a few invented series, then ``pyarrow.compute``,
+    started while this thread reads the data (pyarrow reads without holding the interpreter); None when the
     cache does not hold them yet: then the fit compiles them itself, as before, and a failure to read
     the data ends the run without waiting for a compiler."""
     import threading
@@ -131,6 +131,9 @@ def _fit_invented() -> None:
         diagnose(fit_batch(data, FitSettings()))
     except Exception:  # only a warm-up: the real fit meets and reports any trouble itself
         pass
+    # Then ``pyarrow.compute`` (0.035 s), which the results' text columns need (Arrow's dictionary encoding, the
+    # flags' joins): imported here, after the loops the fit waits for, rather than on the way to the write.
+    import pyarrow.compute  # noqa: F401
 
 
 def _fit_locally(args, run, ahead) -> int:
