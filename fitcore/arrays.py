@@ -34,9 +34,9 @@ def integers(values: np.ndarray):
 
 
 def from_numpy(values: np.ndarray, mask: np.ndarray | None = None, *, nan_is_null: bool = False):
-    """A 1-d numeric or boolean numpy array as Arrow, as ``pa.array(values, mask=mask, from_pandas=nan_is_null)``
-    makes it (same type, same values; null where ``mask`` is True, and where a value is NaN with
-    ``nan_is_null``), over the array's own memory where it is contiguous (booleans: packed into bits)."""
+    """A 1-d numeric or boolean numpy array as Arrow, as ``pa.array(values, mask=mask)`` makes it (same type,
+    same values, null where ``mask`` is True), or ``pa.array(values, from_pandas=True)`` with ``nan_is_null``
+    (NaN as null), over the array's own memory where it is contiguous (booleans: packed into bits)."""
     import pyarrow as pa
     values = np.ascontiguousarray(values)
     if values.ndim != 1:

@@ -1,5 +1,5 @@
 """Flag sentences for many series at once, as Arrow text: what ``sentences.sentence`` says series by
-series, character for character, without Python per series where the sentence is written here
+series, character for character, without a sentence made per series where the sentence is written here
 (the common ones: a near tie, a weak fit; at 100k series they are 95% of all flags).  The other
 flags are rare and go through ``sentence`` one series at a time.
 
