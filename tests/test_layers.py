@@ -4,6 +4,8 @@ from __future__ import annotations
 import subprocess
 import sys
 
+import pytest
+
 
 def test_importing_fitcore_loads_no_ui_library():
     code = ("import sys, fitcore, fitcore.data.loader, fitcore.results.write, fitcore.data.plan; "
@@ -83,6 +85,5 @@ def test_the_blas_check_finds_what_the_import_finds(tmp_path, monkeypatch):
     empty = importlib.util.spec_from_loader("scipy.linalg", loader=None, is_package=True)
     empty.submodule_search_locations = [str(tmp_path)]
     monkeypatch.setattr(importlib.util, "find_spec", lambda name, *a: empty if name == "scipy.linalg" else real(name, *a))
-    import pytest
     with pytest.raises(ImportError):
         _blas_found()
