@@ -94,7 +94,8 @@ def _load_implementations() -> None:
 
         def find_spec(self, name, path=None, target=None):
             linalg = sys.modules.get("numba.np.linalg")  # numba imports it first, then arraymath, which takes
-            if name == "numba.np.arraymath" and linalg is not None and self.real is None:  # its ensure_blas
+            if (name == "numba.np.arraymath" and self.real is None  # its ensure_blas (another numba: nothing done)
+                    and callable(getattr(linalg, "ensure_blas", None))):
                 self.real, linalg.ensure_blas = linalg.ensure_blas, _blas_found
             return None  # the module itself found as usual
 
