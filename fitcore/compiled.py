@@ -62,6 +62,7 @@ def compile_all() -> None:
 
 def _compile_registered() -> None:
     import numba
+    _load_implementations()
     done = {id(wrapper): numba.njit(**OPTIONS, **extra)(fn) for fn, wrapper, extra in _LOOPS}
     for name, module in list(sys.modules.items()):
         if name == "fitcore" or name.startswith("fitcore."):
@@ -69,6 +70,62 @@ def _compile_registered() -> None:
                 if id(value) in done:
                     setattr(module, attribute, done[id(value)])
     _LOOPS.clear()
+
+
+def _load_implementations() -> None:
+    """Load numba's implementations, as its first compile or cache load would (``refresh``), with its check
+    for a BLAS answered without importing ``scipy.linalg``.
+
+    ``numba.np.arraymath`` asks at import whether a BLAS is there (``_HAVE_BLAS``: read only where numba
+    compiles ``np.dot``-based inner products, which no loop here uses) by importing scipy's BLAS wrappers,
+    and with them all of ``scipy.linalg``: 0.1 s of CPU, a quarter of numba's start on a fit that loads
+    every loop from the cache.  Here the wrappers' file is looked for instead (``_blas_found``: the same
+    answer wherever scipy is installed whole, as pricefold requires), then numba's own check back in place
+    for anything compiled later.  Modules load in numba's order; already loaded, nothing happens."""
+    import importlib.abc
+
+    from numba.core.compiler_lock import global_compiler_lock
+    from numba.core.registry import cpu_target
+    if "numba.np.arraymath" in sys.modules:
+        return
+
+    class BlasFound(importlib.abc.MetaPathFinder):
+        real = None
+
+        def find_spec(self, name, path=None, target=None):
+            linalg = sys.modules.get("numba.np.linalg")  # numba imports it first, then arraymath, which takes
+            if (name == "numba.np.arraymath" and self.real is None  # its ensure_blas (another numba: nothing done)
+                    and callable(getattr(linalg, "ensure_blas", None))):
+                self.real, linalg.ensure_blas = linalg.ensure_blas, _blas_found
+            return None  # the module itself found as usual
+
+    finder = BlasFound()
+    sys.meta_path.insert(0, finder)
+    try:
+        with global_compiler_lock:
+            cpu_target.target_context.refresh()
+    finally:
+        sys.meta_path.remove(finder)
+        if finder.real is not None:
+            for name in ("numba.np.linalg", "numba.np.arraymath"):
+                if getattr(sys.modules.get(name), "ensure_blas", None) is _blas_found:
+                    sys.modules[name].ensure_blas = finder.real
+
+
+def _blas_found() -> None:
+    """numba's ``ensure_blas`` without importing scipy's BLAS wrappers: ImportError where their file is not
+    found (where the import would fail), else numba's check of their integer width, as it makes it."""
+    import importlib.machinery
+    import importlib.util
+    import os
+
+    from numba.np import linalg
+    spec = importlib.util.find_spec("scipy.linalg")  # imports ``scipy`` (numba did), not ``scipy.linalg``
+    places = (spec.submodule_search_locations or []) if spec is not None else []
+    if not any(os.path.isfile(os.path.join(place, "cython_blas" + suffix))
+               for place in places for suffix in importlib.machinery.EXTENSION_SUFFIXES):
+        raise ImportError("scipy 0.16+ is required for linear algebra")
+    getattr(linalg, "_check_lapack_int_width", lambda: None)()
 
 
 def readonly(array):

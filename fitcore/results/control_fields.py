@@ -19,6 +19,7 @@ import math
 
 import numpy as np
 
+from ..arrays import from_numpy, repeated, text, texts
 from ..fit.controls import CONSTANT, KEPT, REDUNDANT, ControlSpec
 from ..fit.results import ControlResults, Results
 
@@ -65,7 +66,6 @@ def series_texts(results: Results) -> dict:
     """(S,) Arrow text per series, made once for every series: ``control_values`` and ``controls_left_out``, the
     ``json.dumps`` of ``series_controls``' dictionaries, put together term by term column-wise (no Python per
     series)."""
-    import pyarrow as pa
     import pyarrow.compute as pc
     ctl = results.controls
     n_s, m = results.available.shape[0], len(ctl.names)
@@ -73,12 +73,12 @@ def series_texts(results: Results) -> dict:
     why = []  # each left-out term's ", name: why" (empty where kept), joined, the first ", " dropped
     for j, name in enumerate(ctl.names):
         key = f", {json.dumps(name, ensure_ascii=False)}: "
-        texts = np.array(["", *(key + json.dumps(WHY[code].format(name=name), ensure_ascii=False)
+        words = np.array(["", *(key + json.dumps(WHY[code].format(name=name), ensure_ascii=False)
                                 for code in (CONSTANT, REDUNDANT))], dtype=object)
-        why.append(texts[np.select([ctl.left_out[:, j] == CONSTANT, ctl.left_out[:, j] == REDUNDANT], [1, 2], 0)])
-    left_out = (pc.binary_join_element_wise("{", pc.utf8_slice_codeunits(
-        pc.binary_join_element_wise(*[pa.array(w, pa.string()) for w in why], ""), 2), "}", "")
-        if m else pa.array(np.full(n_s, "{}", dtype=object), pa.string()))
+        why.append(words[np.select([ctl.left_out[:, j] == CONSTANT, ctl.left_out[:, j] == REDUNDANT], [1, 2], 0)])
+    left_out = (pc.binary_join_element_wise(text("{"), pc.utf8_slice_codeunits(
+        pc.binary_join_element_wise(*[texts(w) for w in why], text("")), 2), text("}"), text(""))
+        if m else repeated("{}", n_s))
     return {"control_values": _json_object(ctl.names, [_json_numbers(plan[:, j]) for j in range(m)], rows=n_s),
             "controls_left_out": left_out}
 
@@ -97,12 +97,12 @@ def parquet_columns(results: Results, lo: int, hi: int, repeat_text, texts: dict
     plan = np.asarray(ctl.plan[lo:hi], dtype=float).reshape(n_s, m)
     cells = _json_object(ctl.names, [np.where(kept[:, j], _json_numbers(coef[:, j]), "null") for j in range(m)],
                          rows=n_s * n_c)
-    return {"controls": pc.if_else(pa.array(ok), cells, pa.scalar(None, pa.string())),
+    return {"controls": pc.if_else(from_numpy(ok), cells, pa.nulls(1, pa.string())[0]),
             "control_values": repeat_text(texts["control_values"]),
             "controls_left_out": repeat_text(texts["controls_left_out"]),
             "price_vif": np.repeat(np.asarray(ctl.vif[lo:hi], dtype=float), n_c),
-            "control_coef": pa.FixedSizeListArray.from_arrays(pa.array(coef.ravel()), m),
-            "control_plan": pa.FixedSizeListArray.from_arrays(pa.array(np.repeat(plan, n_c, axis=0).ravel()), m)}
+            "control_coef": pa.FixedSizeListArray.from_arrays(from_numpy(coef.ravel()), m),
+            "control_plan": pa.FixedSizeListArray.from_arrays(from_numpy(np.repeat(plan, n_c, axis=0).ravel()), m)}
 
 
 def _json_numbers(values: np.ndarray) -> np.ndarray:
@@ -115,15 +115,14 @@ def _json_numbers(values: np.ndarray) -> np.ndarray:
 
 def _json_object(names, values: list, rows: int):
     """Arrow text: ``json.dumps({names[j]: values[j][i] ...})`` for each row i, the values already JSON."""
-    import pyarrow as pa
     import pyarrow.compute as pc
     if not names:
-        return pa.array(np.full(rows, "{}", dtype=object), pa.string())
+        return repeated("{}", rows)
     pieces = []
     for j, name in enumerate(names):
         key = ("{" if j == 0 else ", ") + json.dumps(name, ensure_ascii=False) + ": "
-        pieces += [key, pa.array(values[j], pa.string())]
-    return pc.binary_join_element_wise(*pieces, "}", "")
+        pieces += [text(key), texts(values[j])]
+    return pc.binary_join_element_wise(*pieces, text("}"), text(""))
 
 
 def record_fields(row: dict, into_candidate: dict, series: dict) -> None:

@@ -17,6 +17,7 @@ import math
 
 import numpy as np
 
+from ..arrays import from_numpy, numbers, text, texts
 from ..fit.results import Results
 from ..review.intervals import BLOCK, candidate_covariances, covariances, last_dates
 
@@ -93,10 +94,10 @@ def parquet_columns(results: Results, lo: int, hi: int, values: dict) -> dict:
         if not whole:
             flat[first:last] = side[np.repeat(results.available[block], squares, axis=1)]
     columns = {"sigma2": np.where(ok, np.asarray(results.sigma2[lo:hi], dtype=float).ravel(), np.nan),
-               "df": pa.array(np.asarray(results.df[lo:hi]).ravel().astype(np.int64), mask=~ok),
-               "cov_unscaled": pa.ListArray.from_arrays(offsets.astype(np.int32), pa.array(flat, type=pa.float64()))}
-    columns["last_date"] = pa.array(np.repeat(values["days"][lo:hi], n_c), type=pa.int32(),
-                                    mask=np.repeat(values["missing"][lo:hi], n_c)).cast(pa.date32())
+               "df": from_numpy(np.asarray(results.df[lo:hi]).ravel().astype(np.int64), mask=~ok),
+               "cov_unscaled": pa.ListArray.from_arrays(from_numpy(offsets.astype(np.int32)), from_numpy(flat))}
+    columns["last_date"] = from_numpy(np.repeat(values["days"][lo:hi], n_c).astype(np.int32),
+                                      mask=np.repeat(values["missing"][lo:hi], n_c)).cast(pa.date32())
     for name, column in values["backtest"].items():
         columns[f"backtest_{name}"] = _repeat_column(column[lo:hi], n_c)
     return columns
@@ -108,13 +109,13 @@ def _repeat_column(values: np.ndarray, n_c: int):
     import pyarrow as pa
     if values.dtype == object:  # one dictionary entry per series, not one Python string per row (8× faster)
         import pyarrow.compute as pc
-        words = pa.array(values, pa.string())  # None → null
-        missing = words.is_null().to_numpy(zero_copy_only=False)
-        index = pa.array(np.repeat(np.arange(len(values), dtype=np.int32), n_c), mask=np.repeat(missing, n_c))
-        return pa.DictionaryArray.from_arrays(index, pc.fill_null(words, ""))
+        words = texts(values)  # None → null
+        missing = numbers(words.is_null())
+        index = from_numpy(np.repeat(np.arange(len(values), dtype=np.int32), n_c), mask=np.repeat(missing, n_c))
+        return pa.DictionaryArray.from_arrays(index, pc.fill_null(words, text("")))
     values = np.repeat(values, n_c)
     if values.dtype.kind in "iu":
-        return pa.array(values.astype(np.int64), mask=values < 0)
+        return from_numpy(values.astype(np.int64), mask=values < 0)
     return values
 
 

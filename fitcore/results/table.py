@@ -13,6 +13,8 @@ import json
 
 import numpy as np
 
+from .. import arrays
+from ..arrays import from_numpy, integers, numbers, text
 from ..errors import DataError
 from ..fit.results import Results
 from ..review.intervals import BLOCK
@@ -60,7 +62,6 @@ class ResultsTable:
 
     def __init__(self, results: Results, header: dict, diagnosis=None, backtest=None) -> None:
         """``header``: the file's header (``write.header``), kept in the schema metadata."""
-        import pyarrow as pa
         data = results.data
         self.metadata = header_metadata(header | {"key_columns": list(data.key_names)})
         texts = {name: _text(data.keys[name]) for name in data.key_names}
@@ -70,8 +71,8 @@ class ResultsTable:
             texts.update(control_fields.series_texts(results))
         self.texts = texts  # name → (S,) Arrow text, each series' value
         self.cycle = cycle.series_values(results, backtest)
-        self.names = pa.array(results.names)
-        self.families = pa.array([c.family for c in results.candidates]).dictionary_encode()  # each family once
+        self.names = arrays.texts(list(results.names))
+        self.families = arrays.texts([c.family for c in results.candidates]).dictionary_encode()  # each family once
         self.results = _with_rows_needed(results)
         self.flags = FlagTexts(diagnosis, self.results)
 
@@ -100,7 +101,7 @@ class ResultsTable:
 
         def repeat_text(words, distinct: bool = False):  # a dictionary of texts, not one Python string per row
             if distinct:  # a different text each series (or nearly): the series' texts are the dictionary
-                return pa.DictionaryArray.from_arrays(per_series, words.slice(lo, m))
+                return pa.DictionaryArray.from_arrays(from_numpy(per_series), words.slice(lo, m))
             return repeated_text(words.slice(lo, m), n_c)
 
         which = tile(np.arange(n_c, dtype=np.int32))
@@ -108,21 +109,22 @@ class ResultsTable:
         keys = {name: repeat_text(self.texts[name], sole) for name in results.data.key_names}  # the keys' texts
         columns = dict(
             n=repeat(results.data.counts), price_lo=repeat(results.price_lo), price_hi=repeat(results.price_hi),
-            candidate=pa.DictionaryArray.from_arrays(which, self.names),
-            family=pa.DictionaryArray.from_arrays(tile(self.families.indices), self.families.dictionary),
-            degree=pa.array(tile([c.degree if c.degree is not None else -1 for c in results.candidates]),
-                            mask=tile([c.degree is None for c in results.candidates])),
+            candidate=pa.DictionaryArray.from_arrays(from_numpy(which), self.names),
+            family=pa.DictionaryArray.from_arrays(from_numpy(tile(numbers(self.families.indices))),
+                                                  self.families.dictionary),
+            degree=from_numpy(tile([c.degree if c.degree is not None else -1 for c in results.candidates]),
+                              mask=tile([c.degree is None for c in results.candidates])),
             available=ok,
             reason=_reason_texts(results, ok, lo),
             cv_mse=results.cv_mse[part].ravel(), cv_se=results.cv_se[part].ravel(), fold_mse=fold_lists,
             r2=results.r2[part].ravel(), q2=results.q2[part].ravel(), coef=coef_lists,
             window_coef=pa.FixedSizeListArray.from_arrays(  # for pricefold itself: triage opens results without a refit
-                pa.array(np.where(ok[:, None], results.coef[part].reshape(m * n_c, -1), np.nan).ravel()),
+                from_numpy(np.where(ok[:, None], results.coef[part].reshape(m * n_c, -1), np.nan).ravel()),
                 results.coef.shape[-1]),
             smearing=results.smear[part].ravel(),  # NaN (null) for families without smearing
             is_chosen=(np.arange(n_c)[None, :] == chosen[:, None]).ravel(),
             chosen=pa.DictionaryArray.from_arrays(  # null where no candidate is available
-                pa.array(np.repeat(chosen, n_c).astype(np.int32), mask=np.repeat(chosen < 0, n_c)), self.names),
+                from_numpy(np.repeat(chosen, n_c).astype(np.int32), mask=np.repeat(chosen < 0, n_c)), self.names),
             score=repeat(results.score), revenue_price=repeat(results.revenue_price),
             plan_price=repeat(results.plan_price), plan_volume=results.plan_volume[part].ravel(),
             plan_lo=results.plan_lo[part].ravel(), plan_hi=results.plan_hi[part].ravel(),
@@ -138,7 +140,7 @@ class ResultsTable:
             raise DataError(f"{results.data.source.get('path', 'the data')}: column '{clash[0]}' is a key (product "
                             "or segment) and also a column of pricefold's Parquet results; expected key columns "
                             f"named otherwise: rename it in the data, or write the results as JSON (-o NAME.json)")
-        table = pa.table({name: pa.array(value, from_pandas=True) if not isinstance(value, pa.Array) else value
+        table = pa.table({name: from_numpy(value, nan_is_null=True) if not isinstance(value, pa.Array) else value
                           for name, value in (keys | columns).items()})
         return table.replace_schema_metadata(self.metadata)
 
@@ -152,10 +154,12 @@ def repeated_text(words, n_c: int):
     compressed again; the families, a key column of several likewise)."""
     import pyarrow as pa
     encoded = words.dictionary_encode()  # a null text: a null row
-    index = encoded.indices
-    mask = np.repeat(index.is_null().to_numpy(zero_copy_only=False), n_c) if index.null_count else None
-    return pa.DictionaryArray.from_arrays(pa.array(np.repeat(index.fill_null(0).to_numpy(), n_c), mask=mask),
-                                          encoded.dictionary)
+    index = numbers(encoded.indices)  # (NaN where null)
+    missing = np.isnan(index) if encoded.indices.null_count else None
+    index = (index if missing is None else np.where(missing, 0, index)).astype(np.int32)
+    return pa.DictionaryArray.from_arrays(
+        from_numpy(np.repeat(index, n_c), mask=None if missing is None else np.repeat(missing, n_c)),
+        encoded.dictionary)
 
 
 # Series whose flags are made at once (``FlagTexts.of``): at 7M rows in runs of one slice (4,096 series) the
@@ -186,7 +190,7 @@ class FlagTexts:
         if self.raised is None:
             return
         self.diagnosis = replace(diagnosis, results=results)
-        self.heads = [f', {{"code": {json.dumps(code)}, "severity": {json.dumps(SEVERITY[code])}, "message": '
+        self.heads = [text(f', {{"code": {json.dumps(code)}, "severity": {json.dumps(SEVERITY[code])}, "message": ')
                       for code in CODES]
         self.codes = CODES
         self.made = {}  # code → (its texts for every series raising it, then ""; each series' place in them)
@@ -205,7 +209,8 @@ class FlagTexts:
         place among them (the "" where it is not raised)."""
         import pyarrow as pa
         import pyarrow.compute as pc
-        texts = pa.concat_arrays([pc.binary_join_element_wise(self.heads[i], messages, "}", ""), pa.array([""])])
+        texts = pa.concat_arrays([pc.binary_join_element_wise(self.heads[i], messages, text("}"), text("")),
+                                  arrays.texts([""])])
         at = np.full(n, len(raised), dtype=np.int64)
         at[raised] = np.arange(len(raised))
         return texts, at
@@ -223,7 +228,7 @@ class FlagTexts:
         import pyarrow.compute as pc
         m = hi - lo
         if self.raised is None:
-            return pa.array(np.full(m, "[]", dtype=object), pa.string())
+            return arrays.repeated("[]", m)
         columns = []
         for i, code in enumerate(self.codes):
             raised = np.flatnonzero(self.raised[lo:hi, i])
@@ -234,13 +239,13 @@ class FlagTexts:
                 at = at[lo:hi]
             else:
                 texts, at = self._pieces(i, self._sentences(self.diagnosis, lo + raised, code), raised, m)
-            columns.append(texts.take(pa.array(at)))
+            columns.append(texts.take(integers(at)))
         if not columns:
-            return pa.array(np.full(m, "[]", dtype=object), pa.string())
+            return arrays.repeated("[]", m)
         # Each flag's text leads with ", ": joined without a separator (null_handling="skip" loses rows in
         # pyarrow 26), then the first ", " dropped.
-        joined = pc.utf8_slice_codeunits(pc.binary_join_element_wise(*columns, ""), 2)
-        return pc.binary_join_element_wise("[", joined, "]", "")
+        joined = pc.utf8_slice_codeunits(pc.binary_join_element_wise(*columns, text("")), 2)
+        return pc.binary_join_element_wise(text("["), joined, text("]"), text(""))
 
 
 def _json_strings(texts):
@@ -249,16 +254,16 @@ def _json_strings(texts):
     ``json.dumps`` itself)."""
     import pyarrow as pa
     import pyarrow.compute as pc
-    array = texts if isinstance(texts, pa.Array) else pa.array(texts, pa.string())
+    array = texts if isinstance(texts, pa.Array) else arrays.texts(texts)
     escaped = pc.replace_substring(pc.replace_substring(array, "\\", "\\\\"), '"', '\\"')
-    quoted = pc.binary_join_element_wise('"', escaped, '"', "")
-    control = pc.match_substring_regex(array, "[\\x00-\\x1f]").to_numpy(zero_copy_only=False)
+    quoted = pc.binary_join_element_wise(text('"'), escaped, text('"'), text(""))
+    control = numbers(pc.match_substring_regex(array, "[\\x00-\\x1f]")) == 1  # (a null text: NaN, False)
     if not control.any():
         return quoted
     rare = np.flatnonzero(control)
     fixed = np.array(quoted.to_pylist(), dtype=object)
     fixed[rare] = [json.dumps(array[i].as_py(), ensure_ascii=False) for i in rare.tolist()]
-    return pa.array(fixed, pa.string())
+    return arrays.texts(fixed)
 
 
 def _with_rows_needed(results: Results) -> Results:
@@ -275,7 +280,7 @@ def _with_rows_needed(results: Results) -> Results:
 def _text(values):
     """(S,) Arrow text of a key column or the fingerprints (already Arrow text: as it is)."""
     import pyarrow as pa
-    return values if isinstance(values, pa.Array) else pa.array(np.asarray(values, dtype=object), pa.string())
+    return values if isinstance(values, pa.Array) else arrays.texts(np.asarray(values, dtype=object))
 
 
 def _reason_texts(results: Results, ok: np.ndarray, lo: int):
@@ -295,10 +300,10 @@ def _reason_texts(results: Results, ok: np.ndarray, lo: int):
     facts = np.stack([results.reason[series, cand].astype(np.int64), cand, results.data.counts[series], kept,
                       _distinct_prices(results.data, once)[back.ravel()]], axis=1)
     combos, firsts, which = np.unique(facts, axis=0, return_index=True, return_inverse=True)
-    texts = pa.array([results.reason_text(int(series[i]), int(cand[i])) for i in firsts.tolist()], pa.string())
+    texts = arrays.texts([results.reason_text(int(series[i]), int(cand[i])) for i in firsts.tolist()])
     at = np.full(len(ok), len(combos), dtype=np.int64)  # past the end: null where available
     at[cells] = which.ravel()
-    return pa.concat_arrays([texts, pa.nulls(1, pa.string())]).take(pa.array(at))
+    return pa.concat_arrays([texts, pa.nulls(1, pa.string())]).take(integers(at))
 
 
 def _distinct_prices(data, series: np.ndarray) -> np.ndarray:
@@ -319,8 +324,8 @@ def _cell_lists(values, lengths):
     """A list per (series, candidate) cell: the first ``lengths`` entries of ``values`` (S, C, P)."""
     import pyarrow as pa
     flat = values.reshape(len(lengths), -1)[np.arange(values.shape[-1])[None, :] < lengths[:, None]]
-    return pa.ListArray.from_arrays(np.concatenate(([0], np.cumsum(lengths))).astype(np.int32),
-                                    pa.array(flat, type=pa.float64()))
+    return pa.ListArray.from_arrays(from_numpy(np.concatenate(([0], np.cumsum(lengths))).astype(np.int32)),
+                                    from_numpy(flat.astype(np.float64, copy=False)))
 
 
 def _ragged(values, starts, keep):
@@ -338,4 +343,4 @@ def _ragged(values, starts, keep):
         cell = np.repeat(np.arange(len(lengths)), lengths)
         within = np.arange(bounds[-1]) - bounds[:-1][cell]
         flat = values.reshape(-1)[(starts[cell // n_c] + within) * n_c + cell % n_c]
-    return pa.ListArray.from_arrays(bounds.astype(np.int32), pa.array(flat, type=pa.float64()))
+    return pa.ListArray.from_arrays(from_numpy(bounds.astype(np.int32)), from_numpy(flat.astype(np.float64, copy=False)))

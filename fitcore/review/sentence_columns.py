@@ -1,11 +1,12 @@
 """Flag sentences for many series at once, as Arrow text: what ``sentences.sentence`` says series by
-series, character for character, without Python per series where the sentence is written here
+series, character for character, without a sentence made per series where the sentence is written here
 (the common ones: a near tie, a weak fit; at 100k series they are 95% of all flags).  The other
 flags are rare and go through ``sentence`` one series at a time.
 
-The numbers are formatted as ``sentences.fmt``, ``money`` and ``pct`` format them: ``%`` formatting
-column-wise (``numpy.char.mod``, the same digits as Python's ``format``), thousands separators put
-in column-wise by Arrow, the templates filled piece by piece (``string.Formatter`` splits them).
+The numbers are formatted by ``sentences.fmt``, ``money`` and ``pct`` themselves, number by number (an
+f-string a number: 2–4× faster than ``numpy.char.mod`` and Arrow's regular expressions putting in the
+thousands separators, which this did before), the templates filled piece by piece in Arrow
+(``string.Formatter`` splits them).
 """
 from __future__ import annotations
 
@@ -13,16 +14,16 @@ import string
 
 import numpy as np
 
+from ..arrays import from_numpy, text, texts
 from . import sentences as S
 
 
 def flag_sentences(diag, series: np.ndarray, code: str):
     """Arrow text: ``sentence(diag, s, code)`` for every s in ``series``."""
-    import pyarrow as pa
     many = _MANY.get(code)
     if many is not None:
         return many(diag, np.asarray(series, dtype=np.int64))
-    return pa.array([S.sentence(diag, s, code) for s in np.asarray(series).tolist()], pa.string())
+    return texts([S.sentence(diag, s, code) for s in np.asarray(series).tolist()])
 
 
 def _near_tie(diag, series):
@@ -31,10 +32,10 @@ def _near_tie(diag, series):
     chosen, rival = r.chosen[series].astype(np.int64), n["rival"][series].astype(np.int64)
     plan, change = r.plan_price[series], n["rival_change"][series]
     names = np.array(r.names, dtype=object)
-    where = pc.if_else(np.isfinite(plan), fill(S.AT_PLAN, price=moneys(plan)), S.AT_MID)
+    where = pc.if_else(from_numpy(np.isfinite(plan)), fill(S.AT_PLAN, price=moneys(plan)), text(S.AT_MID))
     rival_volume, chosen_volume = n["rival_volume"][series], n["chosen_volume"][series]
     difference = pc.if_else(
-        S.share_reads(rival_volume, chosen_volume),
+        from_numpy(np.asarray(S.share_reads(rival_volume, chosen_volume), dtype=bool)),
         fill(S.NEAR_TIE_SHARE, change=pcts(np.abs(change)), direction=np.where(change > 0, "more", "less").astype(object),
              chosen=names[chosen]),
         fill(S.NEAR_TIE_VOLUMES, rival_volume=fmts(rival_volume), chosen=names[chosen], chosen_volume=fmts(chosen_volume)))
@@ -44,15 +45,14 @@ def _near_tie(diag, series):
 
 
 def _weak_fit(diag, series):
-    import pyarrow as pa
     import pyarrow.compute as pc
     score = diag.results.score[series]
     out = fill(S.WEAK_FIT, score=pcts(score), wanted=S.pct(diag.thresholds.weak_score))
     undefined = ~np.isfinite(score)  # a volume that never varies: rare, its sentence series by series
     if not undefined.any():
         return out
-    said = pa.array([S.sentence(diag, s, "weak-fit") for s in series[undefined].tolist()], pa.string())
-    return pc.replace_with_mask(out, pa.array(undefined), said)
+    said = texts([S.sentence(diag, s, "weak-fit") for s in series[undefined].tolist()])
+    return pc.replace_with_mask(out, from_numpy(undefined), said)
 
 
 _MANY = {"near-tie": _near_tie, "weak-fit": _weak_fit}
@@ -68,64 +68,24 @@ def fill(template: str, **fields):
         if spec or conversion:
             raise ValueError(f"fill takes plain fields only, got {{{name}:{spec}}} in {template!r}")
         if literal:
-            pieces.append(literal)
+            pieces.append(text(literal))
         if name is not None:
             value = fields[name]
-            pieces.append(value if isinstance(value, (str, pa.Array)) else pa.array(value, pa.string()))
-    return pc.binary_join_element_wise(*pieces, "")
+            pieces.append(value if isinstance(value, pa.Array) else text(value) if isinstance(value, str)
+                          else texts(value))
+    return pc.binary_join_element_wise(*pieces, text(""))
 
 
 def pcts(share: np.ndarray):
-    """``pct`` of each share."""
-    import pyarrow as pa
-    share = np.asarray(share, dtype=float)
-    whole = np.char.mod("%.0f", share * 100).astype(object)
-    whole[whole == "-0"] = "0"
-    finite = np.isfinite(share)
-    whole[finite] = _grouped(whole[finite].astype(str))
-    return pa.array(whole + "%", pa.string())
+    """``pct`` of each share (Arrow text)."""
+    return texts([S.pct(value) for value in np.asarray(share, dtype=float).tolist()])
 
 
-def fmts(x: np.ndarray):
+def fmts(x: np.ndarray) -> list[str]:
     """``fmt`` of each number."""
-    x = np.asarray(x, dtype=float)
-    out = np.full(len(x), "n/a", dtype=object)
-    finite = np.isfinite(x)
-    size = np.abs(np.where(finite, x, 0.0))
-    huge = finite & (size >= S.HUGE)
-    whole = finite & ~huge & ((np.trunc(np.where(finite, x, 0.0)) == x) | (size >= 1000))
-    hundreds = finite & ~whole & (size >= 100)
-    ones = finite & ~whole & ~hundreds & (size >= 1)
-    small = finite & ~whole & ~hundreds & ~ones
-    out[whole] = _grouped(np.char.mod("%.0f", x[whole]))
-    out[hundreds] = _grouped(np.char.mod("%.1f", x[hundreds]))
-    out[ones] = np.char.mod("%.2f", x[ones]).astype(object)
-    out[small | huge] = np.char.mod("%.3g", x[small | huge]).astype(object)
-    return out
+    return [S.fmt(value) for value in np.asarray(x, dtype=float).tolist()]
 
 
-def moneys(x: np.ndarray):
+def moneys(x: np.ndarray) -> list[str]:
     """``money`` of each price."""
-    x = np.asarray(x, dtype=float)
-    out = np.full(len(x), "n/a", dtype=object)
-    finite = np.isfinite(x)
-    large = finite & (np.abs(np.where(finite, x, 0.0)) >= 0.1)
-    small = finite & ~large
-    out[large] = _grouped(np.char.mod("%.2f", x[large]))
-    out[small] = np.char.mod("%.3g", x[small]).astype(object)
-    return out
-
-
-def _grouped(plain: np.ndarray) -> np.ndarray:
-    """Numbers written without separators ("-1234567.25") with a comma every three digits of the whole
-    part ("-1,234,567.25"), as Python's ``,`` format option puts them; a numpy array of text."""
-    import pyarrow as pa
-    import pyarrow.compute as pc
-    if not len(plain):
-        return np.zeros(0, dtype=object)
-    text = pa.array(plain, pa.string())
-    parts = pc.extract_regex(text, r"(?P<sign>-?)(?P<whole>\d+)(?P<rest>.*)")
-    whole = pc.utf8_reverse(pc.utf8_rtrim(
-        pc.replace_substring_regex(pc.utf8_reverse(parts.field("whole")), r"(\d{3})", r"\1,"), ","))
-    joined = pc.binary_join_element_wise(parts.field("sign"), whole, parts.field("rest"), "")
-    return joined.to_numpy(zero_copy_only=False)
+    return [S.money(value) for value in np.asarray(x, dtype=float).tolist()]
