@@ -44,7 +44,13 @@ def start(folder: Path, said=subprocess.PIPE) -> subprocess.Popen:
     its child)."""
     return subprocess.Popen([sys.executable, "-m", "pricefold", "fit", str(SAMPLE / "wholesale.csv"), *ARGS,
                              "-o", "p2.parquet", "--ledger", "L.jsonl"], cwd=folder, stdout=said, stderr=said,
-                            start_new_session=True)
+                            start_new_session=True, preexec_fn=interruptible)
+
+
+def interruptible() -> None:
+    """A terminal's job takes Ctrl+C even where pytest itself was started with SIGINT ignored (``cmd &`` in a
+    non-interactive shell), which the child would inherit and keep."""
+    signal.signal(signal.SIGINT, signal.SIG_DFL)
 
 
 def children(pid: int) -> list[int]:
@@ -145,6 +151,8 @@ def test_ctrl_c_at_any_moment_is_one_line_exit_130_and_nothing_written(signed):
 
 def test_an_interrupt_swallowed_while_another_thread_runs_is_raised_at_the_next_check():
     """A library that catches the interrupt cannot make the fit carry on: ``check`` raises it."""
+    # pytest started with SIGINT ignored (``cmd &``) would leave ``noticed`` nothing to take over
+    before = signal.signal(signal.SIGINT, signal.default_int_handler)
     stop = threading.Event()
     other = threading.Thread(target=stop.wait)
     other.start()
@@ -160,6 +168,7 @@ def test_an_interrupt_swallowed_while_another_thread_runs_is_raised_at_the_next_
     finally:
         stop.set()
         other.join()
+        signal.signal(signal.SIGINT, before)
     interrupts.check()  # outside the block: nothing recorded
 
 
