@@ -443,6 +443,8 @@ def run_carry(args) -> int:
 def _carry(args) -> int:
     from fitcore.results.read import read_header, read_results, result_parts
     must_exist(args.ledger, "'ledger carry' carries decisions a ledger already holds")
+    # the ledger first: a file that is not one, or a broken chain, is said as every command says it
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
     stored = result_parts(args.results) is not None or args.results.suffix.lower() in (".parquet", ".pq")
     header = read_header(args.results) if stored else read_results(args.results)[0]
     source = header.get("ledger")
@@ -454,7 +456,6 @@ def _carry(args) -> int:
         raise ledger.LedgerError(f"{foreign}; fit again with --ledger on this ledger")
     header.pop("key_columns", None)
     digest = ledger.results_digest(header)
-    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
     refuse_key_mismatch(args.results, header, book, args.ledger)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:

@@ -165,3 +165,26 @@ def test_carry_counts_what_show_says_is_due(tmp_path, capsys):
     said = capsys.readouterr().out
     assert "decided on newer data" in said and "This cycle's proposal" not in said
     assert "since sign-off (the curve as signed): " in said and "The proposal of these older results, " in said
+
+
+def test_carry_reads_the_ledger_before_the_results_backtest(tmp_path, capsys):
+    """``carry --ledger`` set to a results file, a plan CSV or a hand-edited copy says "not a ledger" / the chain
+    is broken, as every command does (before: "backtested against L, not X", as if X were another ledger)."""
+    book = tmp_path / "L.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    edited = tmp_path / "edited.jsonl"
+    lines = book.read_text().splitlines(keepends=True)
+    edited.write_text("".join([*lines[:1], lines[1].replace('"note":""', '"note":"x"'), *lines[2:]]))
+    assert edited.read_text() != book.read_text()
+    for given, said in ((tmp_path / "r1.json", "not a ledger"), (tmp_path / "c1.csv", "not a ledger"),
+                        (edited, "the chain is broken")):
+        capsys.readouterr()
+        before = given.read_bytes()
+        assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(given)]) == 2
+        err = capsys.readouterr().err
+        assert said in err and "backtested against" not in err and len(err.splitlines()) == 1
+        assert given.read_bytes() == before
