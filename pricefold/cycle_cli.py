@@ -20,7 +20,8 @@ from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, n
 from fitcore.text import clean
 
 from .interrupts import held
-from .ledger_cli import NOT_A_LEDGER, identity, key_mismatch, not_a_ledger, open_ledger, parse_head, refuse_key_mismatch
+from .ledger_cli import (NOT_A_LEDGER, identity, key_mismatch, none_of_ledger, not_a_ledger, open_ledger, parse_head,
+                         refuse_key_mismatch)
 
 
 FIT_READS = "'fit --ledger' only reads it; a first cycle is fitted without --ledger"
@@ -124,22 +125,30 @@ def _die_with(parent: int) -> None:
 
 
 def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
-    """``(diagnosis with 'shifted', backtest)`` of ``results`` (a fit, rows loaded) against the ledger."""
+    """``(diagnosis with 'shifted', backtest, missed)`` of ``results`` (a fit, rows loaded) against the ledger;
+    ``missed``: whether not one of the ledger's signed series is in the results (said in a warning line)."""
+    from fitcore.data.keys import SeriesKeys
     from fitcore.ledger.backtest import backtest
-    from fitcore.ledger.key_columns import mismatch
+    from fitcore.ledger.key_columns import mismatch, none_shared
     from fitcore.review.flags import mark_shifted
     source, standing = ahead.result()
     said = mismatch(list(results.data.key_names), standing.series, str(ahead.path))
+    if said is None and len(standing):  # the same key columns: is any signed series among these?
+        found = (SeriesKeys.of(results.data).indices_of(standing.series) >= 0).any()
+        said = none_shared(bool(found), len(standing), str(ahead.path), "signed series")
     if said:  # the fit stands on its own; only the backtest finds nothing (and carry refuses these results)
         print(f"pricefold fit: warning: {said}; nothing was backtested", file=sys.stderr)
     found = backtest(results, standing, thresholds, source)
-    return mark_shifted(diagnosis, found), found
+    return mark_shifted(diagnosis, found), found, said is not None
 
 
-def backtest_line(found) -> str:
-    """One line for the fit's summary: signed series on changed data, by backtest outcome."""
+def backtest_line(found, missed: bool = False) -> str:
+    """One line for the fit's summary: signed series on changed data, by backtest outcome (``missed``: none
+    of the ledger's signed series is in these results, as the warning line said)."""
     counts = found.counts()
     total = sum(counts.values())
+    if missed:
+        return f"ledger: none of its signed series is in these results (head {found.source['head'][:20]}…)"
     if not total:
         return f"ledger: no signed series has new data (head {found.source['head'][:20]}…)"
     parts = " · ".join(f"{name} {count:,}" for name, count in sorted(counts.items()))
@@ -215,9 +224,10 @@ def _minute(record: dict) -> str:
 
 
 def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: dict | None = None,
-                     results: Path | None = None) -> str:
+                     results: Path | None = None, whole: bool = True) -> str:
     """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list.  Results
-    (``header``, from the file ``results``) keyed by other columns than the ledger's series: a warning line on
+    (``header``, from the file ``results``) keyed by other columns than the ledger's series, or (``whole``:
+    ``records`` are every series of the results, no filter) sharing none of them: a warning line on
     stderr; backtested against another ledger: that backtest and its ``shifted`` flags left out, said in one
     line on stderr."""
     from fitcore.review.sentences import shift_sentence
@@ -226,6 +236,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     book = open_ledger(ledger_path, must_exist=True)
     if header is not None:
         said = key_mismatch(header, book, ledger_path)
+        if said is None and whole:  # the same key columns: is any of the ledger's series among these?
+            said = none_of_ledger((record["key"] for record in records), book, ledger_path)
         if said:
             print(f"pricefold show: {results}: warning: {said}; every series reads as pending", file=sys.stderr)
         foreign = backtested_elsewhere(results, header, ledger_path)
@@ -457,6 +469,10 @@ def _carry(args) -> int:
     header.pop("key_columns", None)
     digest = ledger.results_digest(header)
     refuse_key_mismatch(args.results, header, book, args.ledger)
+    from fitcore.results.series_columns import results_keys
+    said = none_of_ledger(results_keys(args.results), book, args.ledger)
+    if said:  # nothing to carry: 'fit --ledger' found none of the ledger's series in these data
+        print(f"pricefold ledger: {args.results}: warning: {said}; nothing can be carried", file=sys.stderr)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
         plan, left = plan_from_stored(args.results, overrides, book.histories)

@@ -188,3 +188,48 @@ def test_carry_reads_the_ledger_before_the_results_backtest(tmp_path, capsys):
         err = capsys.readouterr().err
         assert said in err and "backtested against" not in err and len(err.splitlines()) == 1
         assert given.read_bytes() == before
+
+
+def test_results_sharing_no_series_with_the_ledger_are_said_everywhere(tmp_path, capsys):
+    """Results keyed by the ledger's columns whose segment values are spelled otherwise (``north`` for
+    ``North``) share not one series with it: every reader says so in one warning line, ``fit``'s summary does
+    not call it "no signed series has new data", and ``accept-unflagged`` refuses without ``--new-series``
+    (before: all silent, and the bulk accept started a parallel set of series)."""
+    write_weeks(tmp_path / "w.csv", 40, seed=9)
+    with_segment(tmp_path / "w.csv", tmp_path / "region.csv", "region")
+    fit_segmented(tmp_path / "region.csv", tmp_path / "r1.json", "region")
+    book = tmp_path / "L.jsonl"
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    signed = len(ledger.Ledger(book).histories)
+    write_weeks(tmp_path / "w2.csv", 44, seed=9)
+    with_segment(tmp_path / "w2.csv", tmp_path / "lower.csv", "region", values=("north", "east"))
+    capsys.readouterr()
+    assert main(["fit", str(tmp_path / "lower.csv"), "--segment", "region", "--date", "week", "--plan-price",
+                 "2.3", "--degrees", "0-1", "--no-loglog", "-o", str(tmp_path / "low.json"), "--ledger", str(book)]) == 0
+    err = capsys.readouterr().err
+    said = f"none of the {signed} signed series in {book} is in these results"
+    assert said in err and "no signed series has new data" not in err
+    before = book.read_bytes()
+    said = f"none of the {signed} series in {book} is in these results"
+    for command in (["show", str(tmp_path / "low.json"), "--ledger", str(book)],
+                    ["ledger", "export", str(book), "--results", str(tmp_path / "low.json"), "-o",
+                     str(tmp_path / "e.csv"), "-q"],
+                    ["ledger", "carry", str(tmp_path / "low.json"), "--ledger", str(book), "-q"]):
+        assert main(command) == 0
+        err = capsys.readouterr().err
+        assert said in err and len(err.splitlines()) == 1 and "warning" in err, command
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "low.json"), "--ledger", str(book)]) == 2
+    err = capsys.readouterr().err
+    assert said in err and "--new-series" in err and len(err.splitlines()) == 1
+    assert book.read_bytes() == before  # nothing appended
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "low.json"), "--ledger", str(book), "-q",
+                 "--new-series"]) == 0
+    err = capsys.readouterr().err
+    assert said in err and "warning" in err and len(err.splitlines()) == 1
+    assert len(ledger.Ledger(book).histories) > signed and ledger.verify(book) == []
+    # results sharing series with the ledger: not a word; nor into an empty ledger
+    fit_segmented(tmp_path / "region.csv", tmp_path / "again.json", "region", book)
+    assert main(["show", str(tmp_path / "again.json"), "--ledger", str(book)]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(tmp_path / "new.jsonl"),
+                 "-q"]) == 0
+    assert capsys.readouterr().err == ""
