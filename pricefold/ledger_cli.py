@@ -238,7 +238,7 @@ def run_accept_unflagged(args) -> int:
     from fitcore.ledger.proposals import unflagged
     # What the results propose and the models as they stand, read before taking the lock (a results
     # folder can be large).
-    header, proposals = unflagged(args.results)
+    header, proposals = unflagged(args.results, args.ledger)  # another ledger's 'shifted' flags not counted
     fitted = (header.get("ledger") or {}).get("path")
     if fitted and Path(fitted).exists() and not args.ledger.exists():  # a mistyped --ledger: no new ledger
         raise ledger.LedgerError(f"{args.ledger}: no such ledger, and {args.results} was fitted against {fitted}; "
@@ -246,6 +246,11 @@ def run_accept_unflagged(args) -> int:
     digest = ledger.results_digest(header)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
     refuse_key_mismatch(args.results, header, book, args.ledger)
+    from fitcore.ledger.elsewhere import backtested_elsewhere
+    foreign = backtested_elsewhere(args.results, header, args.ledger)
+    if foreign:  # as show --ledger and the triage screen say it
+        print(f"pricefold ledger: {foreign}; its 'shifted' flags are not counted (fit again with --ledger on "
+              "this ledger)", file=sys.stderr)
     shared = new_set(args, book, warn=True)  # said (or refused) before anything is written
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now

@@ -233,3 +233,37 @@ def test_results_sharing_no_series_with_the_ledger_are_said_everywhere(tmp_path,
     assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(tmp_path / "new.jsonl"),
                  "-q"]) == 0
     assert capsys.readouterr().err == ""
+
+
+def test_accept_unflagged_into_another_ledger_says_so_and_counts_not_its_shifted(tmp_path, capsys):
+    """Results fitted with ``--ledger L`` accepted into another ledger: one warning line (the screen's and
+    ``show --ledger``'s words), and ``shifted`` (L's signed curve failing) does not keep a series from an
+    accept in a ledger where nothing stands on it (before: silent, and the series left out)."""
+    from .test_cycle import MOVER
+    book, other = tmp_path / "L.jsonl", tmp_path / "other.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40)
+    first = fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    held = first["item 0"]  # the other ledger: one hold, on another series than the mover
+    ledger.append(other, [ledger.Entry(series=held["key"], action="hold", fingerprint=held["fingerprint"],
+                                       results="ab" * 32, note="look later", last_date=held["last_date"])],
+                  ledger.Identity("ana", "ana", "host"))
+    write_weeks(tmp_path / "c2.csv", 44, drop_from=0)  # the mover's demand 40% lower throughout: a clean fit
+    second = fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    assert [f["code"] for f in second[MOVER]["flags"]] == ["shifted"]  # L's signed curve, nothing else
+    assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+                 "--no-loglog", "-o", str(tmp_path / "r2.parquet"), "--quiet", "--ledger", str(book)]) == 0
+    from fitcore.ledger.proposals import unflagged
+    for results in ("r2.json", "r2.parquet"):  # the record reader and the column reader alike
+        assert MOVER in [key["product"] for key, *_ in unflagged(tmp_path / results, other)[1]]
+        assert MOVER not in [key["product"] for key, *_ in unflagged(tmp_path / results, book)[1]]
+    capsys.readouterr()
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r2.json"), "--ledger", str(other), "-q"]) == 0
+    err = capsys.readouterr().err
+    assert len(err.splitlines()) == 1 and f"backtested against {book}, not {other}" in err
+    accepted = {h.latest["series"]["product"] for h in ledger.Ledger(other).histories.values()
+                if h.latest["action"] == "accept"}
+    assert MOVER in accepted
+    # into its own ledger, nothing is said and shifted counts
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r2.json"), "--ledger", str(book), "-q"]) == 0
+    assert capsys.readouterr().err == ""
