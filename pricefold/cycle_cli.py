@@ -315,6 +315,16 @@ def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_
     return why
 
 
+def decided_since(history, fingerprint: str) -> bool:
+    """Whether a series the results tested now stands on these data (``fingerprint``) by a decision other than
+    a carry: accepted, overridden or held by hand since the fit, or revoked back to pending.  Due nothing, as
+    ``show --ledger`` says from the ledger as it is now, so carry neither counts it as left nor carries it."""
+    if history is None or history.status(fingerprint) == "stale":
+        return False
+    current = history.current
+    return current is None or current["action"] != "carry"
+
+
 def held_left(keys: list[dict], fingerprints: list, last_dates: list, histories: dict) -> Counter:
     """What ``show --ledger`` says each held series of these results is due (``keys``, ``fingerprints``,
     ``last_dates``: the series whose standing decision is a hold), in carry's count: a hold on other data is
@@ -351,7 +361,7 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
                           [r.get("last_date") for r in mine], histories))
     for record in records:
         bt = record.get("backtest")
-        if bt is None:
+        if bt is None or decided_since(histories.get(series_id(record["key"])), record["fingerprint"]):
             continue
         codes = [f["code"] for f in record["flags"]]
         near = _near_best(record, bt["candidate"])
@@ -403,6 +413,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     held = held_keys(histories)
     at = SeriesKeys.of(data).indices_of(held) if held else np.zeros(0, np.int64)
     left = held_left(*series_of(at[at >= 0]), histories)
+    tested = tested[~_decided(histories, SeriesKeys.of(data), data.fingerprints)[tested]]
     if not len(tested):
         return [], left
     shifted, stop = diagnosis.flagged("shifted")[tested], diagnosis.n_stop()[tested] > 0
@@ -445,6 +456,25 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
             zip(keys, fingerprints, chosen_names, which.reshape(-1).tolist(), bt["latest"][ok].tolist(),
                 bt["candidate"][ok].tolist(), bt["carries"][ok].tolist(), near.tolist(), snapshots)]
     return plan, left
+
+
+def _decided(histories: dict, keys, fingerprints) -> np.ndarray:
+    """(S,) ``decided_since`` of each series of ``keys`` (a ``SeriesKeys``), asked only of the ledger's series
+    whose standing decision is not a carry (a carry stands on the data it was carried to, or is stale)."""
+    import numpy as np
+
+    from fitcore.arrays import integers, objects
+    out = np.zeros(len(fingerprints), dtype=bool)
+    mine = [h for h in histories.values() if h.current is None or h.current["action"] != "carry"]
+    if not mine:
+        return out
+    at = keys.indices_of([h.latest["series"] for h in mine])
+    found = np.flatnonzero(at >= 0)
+    prints = objects(fingerprints.take(integers(at[found]))).tolist() if hasattr(fingerprints, "take") else \
+        [fingerprints[i] for i in at[found].tolist()]
+    for i, fingerprint in zip(found.tolist(), prints):
+        out[at[i]] = decided_since(mine[i], fingerprint)
+    return out
 
 
 def run_carry(args) -> int:

@@ -267,3 +267,29 @@ def test_accept_unflagged_into_another_ledger_says_so_and_counts_not_its_shifted
     # into its own ledger, nothing is said and shifted counts
     assert main(["ledger", "accept-unflagged", str(tmp_path / "r2.json"), "--ledger", str(book), "-q"]) == 0
     assert capsys.readouterr().err == ""
+
+
+def test_a_second_carry_counts_from_the_ledger_as_it_is_now(tmp_path, capsys):
+    """A series left by the first carry and decided by hand since: a second carry counts it no more, as
+    ``show --ledger`` lists it due nothing (before: the results' reasons, as at the fit, counted again)."""
+    from fitcore.ledger.replay import series_id
+
+    from .test_cycle import MOVER
+    book = tmp_path / "L.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, drop_from=40)  # the mover's new weeks 40% lower: its backtest fails
+    second = fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+                 "--no-loglog", "-o", str(tmp_path / "r2.parquet"), "--quiet", "--ledger", str(book)]) == 0
+    assert carry_left(tmp_path / "r2.json", book, capsys)["backtest failed"] >= 1
+    mover = second[MOVER]
+    latest = ledger.Ledger(book).histories[series_id(mover["key"])].latest["digest"]
+    ledger.append(book, [ledger.Entry(series=mover["key"], action="accept", fingerprint=mover["fingerprint"],
+                                      results="ab" * 32, model=mover["chosen"], proposed=mover["chosen"],
+                                      supersedes=latest)], ledger.Identity("ana", "ana", "host"))
+    for results in ("r2.json", "r2.parquet"):
+        dues = show_dues(tmp_path / results, book, capsys)
+        assert carry_left(tmp_path / results, book, capsys) == dues, results
+    assert "backtest failed" not in dues  # the mover, accepted by hand: due nothing
