@@ -204,12 +204,13 @@ def product_first(key: dict, product: str) -> dict:
 def run_show(args) -> int:
     book = open_ledger(args.ledger, must_exist=True)
     product = product_column(args.product_column)
+    from fitcore.ledger.key_columns import key_sets
     keys = [h.latest["series"] for h in book.histories.values()] if args.product else []
     if keys and not any(product in key for key in keys):  # a filter that could match nothing: say why
-        from fitcore.ledger.key_columns import key_sets
         sets = " or ".join(", ".join(map(clean, sorted(names))) for names in key_sets(keys))
         raise ledger.LedgerError(f"{args.ledger}: no series has a product column {clean(product)!r} (the key "
                                  f"columns: {sets}); name it with --product-column")
+    several = len(key_sets(h.latest["series"] for h in book.histories.values())) > 1  # name the columns then
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
     histories = {}  # replayed as listed: a revoke names the decision it withdrew
     for r in book.records:
@@ -230,7 +231,7 @@ def run_show(args) -> int:
             who = f"{who} ({clean(r['os_user'])})"
         note = f" — {clean(r['note'])}" if r.get("note") else ""
         print(f"#{r['seq']:<5} {clean(r['at'])}  {who:<12} {r['action']:<8} {model:<22} "
-              f"{key_text(product_first(r['series'], product))}{note}")
+              f"{key_text(product_first(r['series'], product), named=product if several else None)}{note}")
     return 0
 
 

@@ -293,3 +293,20 @@ def test_a_second_carry_counts_from_the_ledger_as_it_is_now(tmp_path, capsys):
         dues = show_dues(tmp_path / results, book, capsys)
         assert carry_left(tmp_path / results, book, capsys) == dues, results
     assert "backtest failed" not in dues  # the mover, accepted by hand: due nothing
+
+
+def test_ledger_show_names_the_columns_where_the_ledger_holds_several_key_sets(tmp_path, capsys):
+    """A region=South and an area=South series read alike as "salt · South" (before); with several key sets in
+    the ledger, each value but the product's is named by its column.  One key set: values only, as always."""
+    book, one = tmp_path / "L.jsonl", tmp_path / "one.jsonl"
+    who = ledger.Identity("ana", "ana", "host")
+    for series in ({"product": "salt", "region": "South"}, {"area": "South", "product": "salt"}):
+        ledger.append(book, [ledger.Entry(series=series, action="hold", fingerprint="f", results="ab" * 32)], who)
+    ledger.append(one, [ledger.Entry(series={"product": "salt", "region": "South"}, action="hold", fingerprint="f",
+                                     results="ab" * 32)], who)
+    capsys.readouterr()
+    assert main(["ledger", "show", str(book)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[0].endswith("salt · region=South") and lines[1].endswith("salt · area=South")
+    assert main(["ledger", "show", str(one)]) == 0
+    assert capsys.readouterr().out.rstrip().endswith("salt · South")
