@@ -410,10 +410,10 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
         last = [None] * len(index) if days is None else \
             [None if np.isnat(d) else str(d) for d in days[index].astype("datetime64[D]")]
         return keys, objects(data.fingerprints.take(integers(index))).tolist(), last
-    held = held_keys(histories)
-    at = SeriesKeys.of(data).indices_of(held) if held else np.zeros(0, np.int64)
+    held, lookup = held_keys(histories), SeriesKeys.of(data)
+    at = lookup.indices_of(held) if held else np.zeros(0, np.int64)
     left = held_left(*series_of(at[at >= 0]), histories)
-    tested = tested[~_decided(histories, SeriesKeys.of(data), data.fingerprints)[tested]]
+    tested = tested[~_decided(histories, lookup, data.fingerprints)[tested]]
     if not len(tested):
         return [], left
     shifted, stop = diagnosis.flagged("shifted")[tested], diagnosis.n_stop()[tested] > 0
