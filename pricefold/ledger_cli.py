@@ -287,8 +287,8 @@ def new_set(args, book: ledger.Ledger, warn: bool) -> bool:
     if said is None:
         return bool(book.histories)
     if not args.new_series:
-        raise ledger.LedgerError(f"{args.results}: {said}; nothing was written (if they are a new set of series "
-                                 f"for this ledger, say so with {NEW_SERIES})")
+        raise ledger.LedgerError(f"{args.results}: {said}; nothing was written (a new set of series for this "
+                                 f"ledger? then add {NEW_SERIES})")
     if warn:
         print(f"pricefold ledger: {args.results}: warning: {said}; accepted as a new set of series "
               f"({NEW_SERIES})", file=sys.stderr)
