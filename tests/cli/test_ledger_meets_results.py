@@ -310,3 +310,22 @@ def test_ledger_show_names_the_columns_where_the_ledger_holds_several_key_sets(t
     assert lines[0].endswith("salt · region=South") and lines[1].endswith("salt · area=South")
     assert main(["ledger", "show", str(one)]) == 0
     assert capsys.readouterr().out.rstrip().endswith("salt · South")
+
+
+def test_dask_fit_says_results_sharing_no_series_with_the_ledger(tmp_path, capsys):
+    """``fit --engine dask --ledger`` warns as the local fit does (before: silent, "0 signed series")."""
+    import pytest
+    pytest.importorskip("distributed")
+    write_weeks(tmp_path / "w.csv", 40, seed=9)
+    with_segment(tmp_path / "w.csv", tmp_path / "region.csv", "region")
+    fit_segmented(tmp_path / "region.csv", tmp_path / "r1.json", "region")
+    book = tmp_path / "L.jsonl"
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    with_segment(tmp_path / "w.csv", tmp_path / "lower.csv", "region", values=("north", "east"))
+    capsys.readouterr()
+    assert main(["fit", str(tmp_path / "lower.csv"), "--segment", "region", "--date", "week", "--plan-price", "2.3",
+                 "--degrees", "0-1", "--no-loglog", "-o", str(tmp_path / "parts"), "--engine", "dask",
+                 "--workers", "1", "--ledger", str(book)]) == 0
+    err = capsys.readouterr().err
+    assert f"none of the {len(ledger.Ledger(book).histories)} series in {book} is in these results" in err
+    assert "ledger: none of its series is in these results" in err
