@@ -148,7 +148,8 @@ def _show(args, keys: dict) -> int:
     binary = (header.get("settings", {}).get("controls") or {}).get("binary", [])
     if args.ledger is not None:
         from .cycle_cli import show_with_ledger
-        print(show_with_ledger(picked, args.ledger, binary, header, args.results))
+        print(show_with_ledger(picked, args.ledger, binary, header, args.results,
+                               whole=not (args.product or keys or args.flag)))
     else:
         print(detail(picked[0], binary) if len(picked) == 1 else table(picked))
     if len(picked) == 1 and picked[0].get("plan"):

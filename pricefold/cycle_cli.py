@@ -20,7 +20,8 @@ from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, n
 from fitcore.text import clean
 
 from .interrupts import held
-from .ledger_cli import NOT_A_LEDGER, identity, key_mismatch, not_a_ledger, open_ledger, parse_head, refuse_key_mismatch
+from .ledger_cli import (NOT_A_LEDGER, identity, key_mismatch, none_of_ledger, not_a_ledger, open_ledger, parse_head,
+                         refuse_key_mismatch)
 
 
 FIT_READS = "'fit --ledger' only reads it; a first cycle is fitted without --ledger"
@@ -124,22 +125,30 @@ def _die_with(parent: int) -> None:
 
 
 def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
-    """``(diagnosis with 'shifted', backtest)`` of ``results`` (a fit, rows loaded) against the ledger."""
+    """``(diagnosis with 'shifted', backtest, missed)`` of ``results`` (a fit, rows loaded) against the ledger;
+    ``missed``: whether not one of the ledger's signed series is in the results (said in a warning line)."""
+    from fitcore.data.keys import SeriesKeys
     from fitcore.ledger.backtest import backtest
-    from fitcore.ledger.key_columns import mismatch
+    from fitcore.ledger.key_columns import mismatch, none_shared
     from fitcore.review.flags import mark_shifted
     source, standing = ahead.result()
     said = mismatch(list(results.data.key_names), standing.series, str(ahead.path))
+    if said is None and len(standing):  # the same key columns: is any signed series among these?
+        found = (SeriesKeys.of(results.data).indices_of(standing.series) >= 0).any()
+        said = none_shared(bool(found), len(standing), str(ahead.path), "signed series")
     if said:  # the fit stands on its own; only the backtest finds nothing (and carry refuses these results)
         print(f"pricefold fit: warning: {said}; nothing was backtested", file=sys.stderr)
     found = backtest(results, standing, thresholds, source)
-    return mark_shifted(diagnosis, found), found
+    return mark_shifted(diagnosis, found), found, said is not None
 
 
-def backtest_line(found) -> str:
-    """One line for the fit's summary: signed series on changed data, by backtest outcome."""
+def backtest_line(found, missed: bool = False) -> str:
+    """One line for the fit's summary: signed series on changed data, by backtest outcome (``missed``: none
+    of the ledger's signed series is in these results, as the warning line said)."""
     counts = found.counts()
     total = sum(counts.values())
+    if missed:
+        return f"ledger: none of its signed series is in these results (head {found.source['head'][:20]}…)"
     if not total:
         return f"ledger: no signed series has new data (head {found.source['head'][:20]}…)"
     parts = " · ".join(f"{name} {count:,}" for name, count in sorted(counts.items()))
@@ -215,9 +224,10 @@ def _minute(record: dict) -> str:
 
 
 def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: dict | None = None,
-                     results: Path | None = None) -> str:
+                     results: Path | None = None, whole: bool = True) -> str:
     """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list.  Results
-    (``header``, from the file ``results``) keyed by other columns than the ledger's series: a warning line on
+    (``header``, from the file ``results``) keyed by other columns than the ledger's series, or (``whole``:
+    ``records`` are every series of the results, no filter) sharing none of them: a warning line on
     stderr; backtested against another ledger: that backtest and its ``shifted`` flags left out, said in one
     line on stderr."""
     from fitcore.review.sentences import shift_sentence
@@ -226,6 +236,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     book = open_ledger(ledger_path, must_exist=True)
     if header is not None:
         said = key_mismatch(header, book, ledger_path)
+        if said is None and whole:  # the same key columns: is any of the ledger's series among these?
+            said = none_of_ledger((record["key"] for record in records), book, ledger_path)
         if said:
             print(f"pricefold show: {results}: warning: {said}; every series reads as pending", file=sys.stderr)
         foreign = backtested_elsewhere(results, header, ledger_path)
@@ -303,6 +315,16 @@ def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_
     return why
 
 
+def decided_since(history, fingerprint: str) -> bool:
+    """Whether a series the results tested now stands on these data (``fingerprint``) by a decision other than
+    a carry: accepted, overridden or held by hand since the fit, or revoked back to pending.  Due nothing, as
+    ``show --ledger`` says from the ledger as it is now, so carry neither counts it as left nor carries it."""
+    if history is None or history.status(fingerprint) == "stale":
+        return False
+    current = history.current
+    return current is None or current["action"] != "carry"
+
+
 def held_left(keys: list[dict], fingerprints: list, last_dates: list, histories: dict) -> Counter:
     """What ``show --ledger`` says each held series of these results is due (``keys``, ``fingerprints``,
     ``last_dates``: the series whose standing decision is a hold), in carry's count: a hold on other data is
@@ -339,7 +361,7 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
                           [r.get("last_date") for r in mine], histories))
     for record in records:
         bt = record.get("backtest")
-        if bt is None:
+        if bt is None or decided_since(histories.get(series_id(record["key"])), record["fingerprint"]):
             continue
         codes = [f["code"] for f in record["flags"]]
         near = _near_best(record, bt["candidate"])
@@ -388,9 +410,10 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
         last = [None] * len(index) if days is None else \
             [None if np.isnat(d) else str(d) for d in days[index].astype("datetime64[D]")]
         return keys, objects(data.fingerprints.take(integers(index))).tolist(), last
-    held = held_keys(histories)
-    at = SeriesKeys.of(data).indices_of(held) if held else np.zeros(0, np.int64)
+    held, lookup = held_keys(histories), SeriesKeys.of(data)
+    at = lookup.indices_of(held) if held else np.zeros(0, np.int64)
     left = held_left(*series_of(at[at >= 0]), histories)
+    tested = tested[~_decided(histories, lookup, data.fingerprints)[tested]]
     if not len(tested):
         return [], left
     shifted, stop = diagnosis.flagged("shifted")[tested], diagnosis.n_stop()[tested] > 0
@@ -435,6 +458,25 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     return plan, left
 
 
+def _decided(histories: dict, keys, fingerprints) -> np.ndarray:
+    """(S,) ``decided_since`` of each series of ``keys`` (a ``SeriesKeys``), asked only of the ledger's series
+    whose standing decision is not a carry (a carry stands on the data it was carried to, or is stale)."""
+    import numpy as np
+
+    from fitcore.arrays import integers, objects
+    out = np.zeros(len(fingerprints), dtype=bool)
+    mine = [h for h in histories.values() if h.current is None or h.current["action"] != "carry"]
+    if not mine:
+        return out
+    at = keys.indices_of([h.latest["series"] for h in mine])
+    found = np.flatnonzero(at >= 0)
+    prints = objects(fingerprints.take(integers(at[found]))).tolist() if hasattr(fingerprints, "take") else \
+        [fingerprints[i] for i in at[found].tolist()]
+    for i, fingerprint in zip(found.tolist(), prints):
+        out[at[i]] = decided_since(mine[i], fingerprint)
+    return out
+
+
 def run_carry(args) -> int:
     with collector_paused(freeze=True):  # what is made lives until the command ends
         return _carry(args)
@@ -443,6 +485,8 @@ def run_carry(args) -> int:
 def _carry(args) -> int:
     from fitcore.results.read import read_header, read_results, result_parts
     must_exist(args.ledger, "'ledger carry' carries decisions a ledger already holds")
+    # the ledger first: a file that is not one, or a broken chain, is said as every command says it
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
     stored = result_parts(args.results) is not None or args.results.suffix.lower() in (".parquet", ".pq")
     header = read_header(args.results) if stored else read_results(args.results)[0]
     source = header.get("ledger")
@@ -454,8 +498,11 @@ def _carry(args) -> int:
         raise ledger.LedgerError(f"{foreign}; fit again with --ledger on this ledger")
     header.pop("key_columns", None)
     digest = ledger.results_digest(header)
-    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
     refuse_key_mismatch(args.results, header, book, args.ledger)
+    from fitcore.results.series_columns import results_keys
+    said = none_of_ledger(results_keys(args.results), book, args.ledger)
+    if said:  # nothing to carry: 'fit --ledger' found none of the ledger's series in these data
+        print(f"pricefold ledger: {args.results}: warning: {said}; nothing can be carried", file=sys.stderr)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
         plan, left = plan_from_stored(args.results, overrides, book.histories)

@@ -47,6 +47,7 @@ def run_fit_dask(args, run) -> int:
     if total["rejected"]["lines"]:  # a warning, not progress: --quiet keeps it
         print(rejects_line(total["rejected"]["reasons"], args.output / REJECTS,
                            total["rows"] + len(total["rejected"]["lines"])), file=sys.stderr)
+    missed = book is not None and _none_backtested(args, book)
     if args.quiet:
         return 0
     from fitcore.fit.families import candidates_for
@@ -56,12 +57,28 @@ def run_fit_dask(args, run) -> int:
     print(summary_line(total["series"], total["rows"], chosen, flags, total["clean"],
                        f"on {total['workers']} Dask workers in {time.perf_counter() - started:.2f} s",
                        f"{args.output}/ ({total['partitions']} parts)"), file=sys.stderr)
-    if book is not None:
+    if missed:
+        print(f"ledger: none of its series is in these results (head {book.head_text[:20]}…)", file=sys.stderr)
+    elif book is not None:
         tested = sum(total["backtest"].values())
         parts = " · ".join(f"{name} {count:,}" for name, count in sorted(total["backtest"].items()))
         print(f"ledger: {tested:,} signed series on changed data" + (f" — backtest {parts}; shifted "
               f"{total['shifted']:,}" if tested else ""), file=sys.stderr)
     return 0
+
+
+def _none_backtested(args, book) -> bool:
+    """Whether the results written share not one series with the ledger (key columns of their own, or the same
+    ones with other values: ``fitcore.ledger.key_columns``), said in a warning line as the local fit says it."""
+    from fitcore.results.read import read_header
+    from fitcore.results.series_columns import results_keys
+
+    from .ledger_cli import key_mismatch, none_of_ledger
+    said = key_mismatch(read_header(args.output), book, args.ledger) or \
+        none_of_ledger(results_keys(args.output), book, args.ledger)
+    if said:
+        print(f"pricefold fit: warning: {said}; nothing was backtested", file=sys.stderr)
+    return said is not None
 
 
 def _plan_rows(path: Path) -> int:

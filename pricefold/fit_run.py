@@ -168,10 +168,10 @@ def _fit_locally(args, run, ahead) -> int:
         finally:
             bar.close()
         diagnosis = diagnose(results, run.thresholds)
-        backtest = None
+        backtest, missed = None, False
         if ahead is not None:  # the signed curves against the rows since, and the shifted flag
             from .cycle_cli import backtest_against
-            diagnosis, backtest = backtest_against(ahead, results, diagnosis, run.thresholds)
+            diagnosis, backtest, missed = backtest_against(ahead, results, diagnosis, run.thresholds)
         told = summary(results, diagnosis)
         unplanned = unplanned_line(results, run.plan_file) if run.plan_file is not None else ""
         fitted = time.perf_counter()  # read, fitted and diagnosed: the writing is timed apart
@@ -195,7 +195,7 @@ def _fit_locally(args, run, ahead) -> int:
               file=sys.stderr)
         if backtest is not None:
             from .cycle_cli import backtest_line
-            print(backtest_line(backtest), file=sys.stderr)
+            print(backtest_line(backtest, missed), file=sys.stderr)
     return 0
 
 

@@ -114,6 +114,13 @@ def key_mismatch(header: dict, book: ledger.Ledger, ledger_path: Path) -> str | 
     return mismatch(results_columns(header), (h.latest["series"] for h in book.histories.values()), str(ledger_path))
 
 
+def none_of_ledger(results_keys, book: ledger.Ledger, ledger_path: Path) -> str | None:
+    """Why results keyed by the ledger's columns (their series' ``results_keys``) share not one series with
+    ``book``, a non-empty ledger (``fitcore.ledger.key_columns.none_of_keys``), in one clause; else None."""
+    from fitcore.ledger.key_columns import none_of_keys
+    return none_of_keys(results_keys, book.histories, str(ledger_path))
+
+
 def refuse_key_mismatch(results: Path, header: dict, book: ledger.Ledger, ledger_path: Path) -> None:
     """``key_mismatch`` as a refusal (exit 2, one line), for the commands that write to the ledger or from it."""
     said = key_mismatch(header, book, ledger_path)
@@ -197,12 +204,13 @@ def product_first(key: dict, product: str) -> dict:
 def run_show(args) -> int:
     book = open_ledger(args.ledger, must_exist=True)
     product = product_column(args.product_column)
+    from fitcore.ledger.key_columns import key_sets
     keys = [h.latest["series"] for h in book.histories.values()] if args.product else []
     if keys and not any(product in key for key in keys):  # a filter that could match nothing: say why
-        from fitcore.ledger.key_columns import key_sets
         sets = " or ".join(", ".join(map(clean, sorted(names))) for names in key_sets(keys))
         raise ledger.LedgerError(f"{args.ledger}: no series has a product column {clean(product)!r} (the key "
                                  f"columns: {sets}); name it with --product-column")
+    several = len(key_sets(h.latest["series"] for h in book.histories.values())) > 1  # name the columns then
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
     histories = {}  # replayed as listed: a revoke names the decision it withdrew
     for r in book.records:
@@ -223,7 +231,7 @@ def run_show(args) -> int:
             who = f"{who} ({clean(r['os_user'])})"
         note = f" — {clean(r['note'])}" if r.get("note") else ""
         print(f"#{r['seq']:<5} {clean(r['at'])}  {who:<12} {r['action']:<8} {model:<22} "
-              f"{key_text(product_first(r['series'], product))}{note}")
+              f"{key_text(product_first(r['series'], product), named=product if several else None)}{note}")
     return 0
 
 
@@ -231,16 +239,25 @@ def run_accept_unflagged(args) -> int:
     from fitcore.ledger.proposals import unflagged
     # What the results propose and the models as they stand, read before taking the lock (a results
     # folder can be large).
-    header, proposals = unflagged(args.results)
+    header, proposals = unflagged(args.results, args.ledger)  # another ledger's 'shifted' flags not counted
     fitted = (header.get("ledger") or {}).get("path")
     if fitted and Path(fitted).exists() and not args.ledger.exists():  # a mistyped --ledger: no new ledger
         raise ledger.LedgerError(f"{args.ledger}: no such ledger, and {args.results} was fitted against {fitted}; "
                                  "check --ledger (nothing was written)")
     digest = ledger.results_digest(header)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
+    refuse_key_mismatch(args.results, header, book, args.ledger)
+    from fitcore.ledger.elsewhere import backtested_elsewhere
+    foreign = backtested_elsewhere(args.results, header, args.ledger)
+    if foreign:  # as show --ledger and the triage screen say it
+        print(f"pricefold ledger: {foreign}; its 'shifted' flags are not counted (fit again with --ledger on "
+              "this ledger)", file=sys.stderr)
+    shared = new_set(args, book, warn=True)  # said (or refused) before anything is written
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
         refuse_key_mismatch(args.results, header, book, args.ledger)
+        if not shared:  # a series shared stays shared (the ledger only grows); else asked again
+            new_set(args, book, warn=False)
         for key, fingerprint, chosen, snapshot in proposals:
             history = book.histories.get(series_id(key))
             if history is not None and history.current is not None:
@@ -255,3 +272,24 @@ def run_accept_unflagged(args) -> int:
         print(f"accepted {len(written):,} unflagged series without a decision → {args.ledger}", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0
+
+
+NEW_SERIES = "--new-series"
+
+
+def new_set(args, book: ledger.Ledger, warn: bool) -> bool:
+    """Whether the ledger holds one of the results' series.  ``accept-unflagged`` into a non-empty ledger that
+    holds none: a bulk accept would start a second set of series beside the ledger's, leaving its decisions
+    behind (results whose segment values are spelled otherwise, ``north`` for ``North``).  Refused (exit 2)
+    unless ``--new-series`` says that is meant; then one warning line (``warn``: say it; else only check)."""
+    from fitcore.results.series_columns import results_keys
+    said = none_of_ledger(results_keys(args.results), book, args.ledger)  # stops at the first shared series
+    if said is None:
+        return bool(book.histories)
+    if not args.new_series:
+        raise ledger.LedgerError(f"{args.results}: {said}; nothing was written (a new set of series for this "
+                                 f"ledger? then add {NEW_SERIES})")
+    if warn:
+        print(f"pricefold ledger: {args.results}: warning: {said}; accepted as a new set of series "
+              f"({NEW_SERIES})", file=sys.stderr)
+    return False

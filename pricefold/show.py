@@ -55,8 +55,13 @@ def percent(share) -> str:
     return "0%" if text == "-0%" else text
 
 
-def key_text(key: dict) -> str:
-    """A series key as one line of text, control characters replaced."""
+def key_text(key: dict, named: str | None = None) -> str:
+    """A series key as one line of text, control characters replaced.  ``named``: the product column, whose
+    value is given alone, every other value after its column's name (``region=South``): for a list of series
+    keyed by several sets of columns, where ``South`` alone could be a region or an area."""
+    if named:
+        return SEPARATOR.join(clean(str(value)) if name == named else f"{clean(str(name))}={clean(str(value))}"
+                              for name, value in key.items())
     return SEPARATOR.join(map(clean, map(str, key.values())))
 
 

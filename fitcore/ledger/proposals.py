@@ -31,23 +31,33 @@ Proposal = tuple[dict, str, str, dict]
 NO_PARTS = "holds no interval parts to sign with (written by an older pricefold); fit again"
 
 
-def unflagged(path: str | Path) -> tuple[dict, list[Proposal]]:
+def unflagged(path: str | Path, ledger_path: Path | None = None) -> tuple[dict, list[Proposal]]:
     """``(header, proposals)``: every series of the results at ``path`` with no flag and a proposal, in
-    file order.  ``DataError`` (one line) for a damaged file, or one without interval parts to sign."""
+    file order.  ``DataError`` (one line) for a damaged file, or one without interval parts to sign.
+    Results backtested against another ledger than ``ledger_path`` (``elsewhere.backtested_elsewhere``): their
+    ``shifted`` flags, of that ledger's signed curves, are not counted (as ``show --ledger`` leaves them out)."""
     path = Path(path)
     parts = result_parts(path)
     if parts is not None or is_parquet_name(path):
-        read = _columnwise(path, parts or [path])
+        read = _columnwise(path, parts or [path], ledger_path)
         if read is not None:
             return read
-    return _by_records(path)
+    return _by_records(path, ledger_path)
 
 
-def _by_records(path: Path) -> tuple[dict, list[Proposal]]:
+def _ignored(path: Path, header: dict, ledger_path: Path | None) -> frozenset[str]:
+    """The flag codes not counted: ``shifted`` where the backtest was made against another ledger."""
+    from .elsewhere import backtested_elsewhere
+    return frozenset({"shifted"}) if ledger_path and backtested_elsewhere(path, header, ledger_path) else frozenset()
+
+
+def _by_records(path: Path, ledger_path: Path | None = None) -> tuple[dict, list[Proposal]]:
     """Through the record reader (``results.read``): a JSON results file, or a file the column reader left."""
     from ..results.read import results_in_parts
     header, parts = results_in_parts(path)
-    chosen = [record for part in parts for record in part if not record["flags"] and record["chosen"]]
+    ignored = _ignored(path, header, ledger_path)
+    chosen = [record for part in parts for record in part
+              if not any(flag["code"] not in ignored for flag in record["flags"]) and record["chosen"]]
     if any("basis" not in c for record in chosen for c in record["candidates"] if c["name"] == record["chosen"]):
         raise DataError(NO_PARTS, path=str(path))
     signed = from_records([(record, record["chosen"]) for record in chosen], header["settings"].get("level", 0.95),
@@ -71,15 +81,17 @@ _TYPED = {"cv_se": _NUMBER, "r2": _NUMBER, "q2": _NUMBER, "plan_volume": _NUMBER
           "plan_hi": _NUMBER, "plan_elasticity": _NUMBER, "score": _NUMBER, "revenue_price": _NUMBER}
 
 
-def _columnwise(path: Path, parts: list[Path]) -> tuple[dict, list[Proposal]] | None:
+def _columnwise(path: Path, parts: list[Path], ledger_path: Path | None = None
+                ) -> tuple[dict, list[Proposal]] | None:
     """The proposals of a Parquet file or folder, or None when the record reader must read it."""
     import pyarrow as pa
 
     from ..fit.families import BY_NAME
     header = read_header(path)
     header.pop("key_columns", None)
+    ignored = _ignored(path, header, ledger_path)
     try:
-        pieces = [_part(part) for part in parts]
+        pieces = [_part(part, ignored) for part in parts]
     except _Doubt:
         return None
     finally:
@@ -111,7 +123,7 @@ def _columnwise(path: Path, parts: list[Path]) -> tuple[dict, list[Proposal]] | 
     return header, list(zip(keys, prints, picked["name"].tolist(), out))
 
 
-def _part(part: Path) -> dict:
+def _part(part: Path, ignored: frozenset[str] = frozenset()) -> dict:
     """One part's unflagged series with a proposal: arrays of what their snapshots are made of."""
     import pyarrow.parquet as pq
     meta = read_header(part)
@@ -124,7 +136,8 @@ def _part(part: Path) -> dict:
         for name, kind in [*((k, _TEXT) for k in key_names), *_READ.items(), *_TYPED.items()]:
             if not _typed(schema.field(name).type, kind):
                 raise _Doubt
-        picked, at = _pick(reader.read(columns=[*key_names, *(n for n in _READ if n not in _CELLS)]), key_names)
+        table = reader.read(columns=[*key_names, *(n for n in _READ if n not in _CELLS)])
+        picked, at = _pick(table, key_names, ignored)
         return _with_cells(picked, _cells(reader, at))
     except _Doubt:
         raise
@@ -178,9 +191,9 @@ def _typed(kind, expected: str) -> bool:
             "date": pa.types.is_date32}[expected](kind)
 
 
-def _pick(table, key_names: list[str]) -> tuple[dict, np.ndarray]:
+def _pick(table, key_names: list[str], ignored: frozenset[str] = frozenset()) -> tuple[dict, np.ndarray]:
     """What the series' own rows say (keys, flags, proposals, counts, ranges, dates, plan prices) for the
-    unflagged series with a proposal; and their proposed candidates' rows."""
+    unflagged series (flags ``ignored`` not counted) with a proposal; and their proposed candidates' rows."""
     rows = table.num_rows
     column = {name: table.column(name).combine_chunks() for name in table.column_names}
     keys = {name: objects(column[name]) for name in key_names}
@@ -209,7 +222,7 @@ def _pick(table, key_names: list[str]) -> tuple[dict, np.ndarray]:
     row_of[series[lead]] = lead
     if ((row_of < 0) & (proposal != None)).any():  # noqa: E711  (elementwise)
         raise _Doubt
-    wanted = np.flatnonzero(_no_flags(objects(column["flags"].take(_indices(first)))) & (proposal != None)  # noqa
+    wanted = np.flatnonzero(_no_flags(objects(column["flags"].take(_indices(first))), ignored) & (proposal != None)  # noqa
                             & (proposal != ""))
     at = row_of[wanted]
     if not numbers(available)[at].all() or _nulls(column["family"], at):
@@ -259,8 +272,9 @@ def _object_array(values: list) -> np.ndarray:
     return out
 
 
-def _no_flags(texts: np.ndarray) -> np.ndarray:
-    """Whether each series' flag list (JSON text) is empty; each distinct text parsed and checked once."""
+def _no_flags(texts: np.ndarray, ignored: frozenset[str] = frozenset()) -> np.ndarray:
+    """Whether each series' flag list (JSON text) is empty but for codes ``ignored``; each distinct text parsed
+    and checked once."""
     verdict = {}
     for text in set(texts.tolist()):
         try:
@@ -271,7 +285,7 @@ def _no_flags(texts: np.ndarray) -> np.ndarray:
                 isinstance(flag, dict) and isinstance(flag.get("code"), str) and flag.get("severity") in SEVERITIES
                 and isinstance(flag.get("message"), str) for flag in flags):
             raise _Doubt
-        verdict[text] = not flags
+        verdict[text] = not any(flag["code"] not in ignored for flag in flags)
     return np.array([verdict[text] for text in texts.tolist()], dtype=bool)
 
 

@@ -10,6 +10,7 @@ checks; a problem is one line naming the file.
 """
 from __future__ import annotations
 
+from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -295,3 +296,15 @@ def check_fields(part: Path, columns: SeriesColumns, at: np.ndarray, fields: dic
                   "score": None, "flags": [] if flags is None else flags[0][i], "fingerprint": ""}
         record.update({name: values[i] for name, values in fields.items()})
         check_series(part, int(at[i]), record)  # the line the record reader gives, if it fails
+
+
+def results_keys(path: str | Path) -> Iterator[dict]:
+    """Every series' key of a results file or folder, in file order: a JSON file's records; a Parquet file's
+    (or folder's, part by part) key columns only."""
+    from .read import read_header, result_parts, results_in_parts
+    if not is_columnar(path):
+        for part in results_in_parts(path)[1]:
+            yield from (record["key"] for record in part)
+        return
+    for part in result_parts(path) or [Path(path)]:
+        yield from series_columns(part, read_header(part), ()).keys()

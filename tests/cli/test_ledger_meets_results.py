@@ -165,3 +165,167 @@ def test_carry_counts_what_show_says_is_due(tmp_path, capsys):
     said = capsys.readouterr().out
     assert "decided on newer data" in said and "This cycle's proposal" not in said
     assert "since sign-off (the curve as signed): " in said and "The proposal of these older results, " in said
+
+
+def test_carry_reads_the_ledger_before_the_results_backtest(tmp_path, capsys):
+    """``carry --ledger`` set to a results file, a plan CSV or a hand-edited copy says "not a ledger" / the chain
+    is broken, as every command does (before: "backtested against L, not X", as if X were another ledger)."""
+    book = tmp_path / "L.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    edited = tmp_path / "edited.jsonl"
+    lines = book.read_text().splitlines(keepends=True)
+    edited.write_text("".join([*lines[:1], lines[1].replace('"note":""', '"note":"x"'), *lines[2:]]))
+    assert edited.read_text() != book.read_text()
+    for given, said in ((tmp_path / "r1.json", "not a ledger"), (tmp_path / "c1.csv", "not a ledger"),
+                        (edited, "the chain is broken")):
+        capsys.readouterr()
+        before = given.read_bytes()
+        assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(given)]) == 2
+        err = capsys.readouterr().err
+        assert said in err and "backtested against" not in err and len(err.splitlines()) == 1
+        assert given.read_bytes() == before
+
+
+def test_results_sharing_no_series_with_the_ledger_are_said_everywhere(tmp_path, capsys):
+    """Results keyed by the ledger's columns whose segment values are spelled otherwise (``north`` for
+    ``North``) share not one series with it: every reader says so in one warning line, ``fit``'s summary does
+    not call it "no signed series has new data", and ``accept-unflagged`` refuses without ``--new-series``
+    (before: all silent, and the bulk accept started a parallel set of series)."""
+    write_weeks(tmp_path / "w.csv", 40, seed=9)
+    with_segment(tmp_path / "w.csv", tmp_path / "region.csv", "region")
+    fit_segmented(tmp_path / "region.csv", tmp_path / "r1.json", "region")
+    book = tmp_path / "L.jsonl"
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    signed = len(ledger.Ledger(book).histories)
+    write_weeks(tmp_path / "w2.csv", 44, seed=9)
+    with_segment(tmp_path / "w2.csv", tmp_path / "lower.csv", "region", values=("north", "east"))
+    capsys.readouterr()
+    assert main(["fit", str(tmp_path / "lower.csv"), "--segment", "region", "--date", "week", "--plan-price",
+                 "2.3", "--degrees", "0-1", "--no-loglog", "-o", str(tmp_path / "low.json"), "--ledger", str(book)]) == 0
+    err = capsys.readouterr().err
+    said = f"none of the {signed} signed series in {book} is in these results"
+    assert said in err and "no signed series has new data" not in err
+    before = book.read_bytes()
+    said = f"none of the {signed} series in {book} is in these results"
+    for command in (["show", str(tmp_path / "low.json"), "--ledger", str(book)],
+                    ["ledger", "export", str(book), "--results", str(tmp_path / "low.json"), "-o",
+                     str(tmp_path / "e.csv"), "-q"],
+                    ["ledger", "carry", str(tmp_path / "low.json"), "--ledger", str(book), "-q"]):
+        assert main(command) == 0
+        err = capsys.readouterr().err
+        assert said in err and len(err.splitlines()) == 1 and "warning" in err, command
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "low.json"), "--ledger", str(book)]) == 2
+    err = capsys.readouterr().err
+    assert said in err and "--new-series" in err and len(err.splitlines()) == 1
+    assert book.read_bytes() == before  # nothing appended
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "low.json"), "--ledger", str(book), "-q",
+                 "--new-series"]) == 0
+    err = capsys.readouterr().err
+    assert said in err and "warning" in err and len(err.splitlines()) == 1
+    assert len(ledger.Ledger(book).histories) > signed and ledger.verify(book) == []
+    # results sharing series with the ledger: not a word; nor into an empty ledger
+    fit_segmented(tmp_path / "region.csv", tmp_path / "again.json", "region", book)
+    assert main(["show", str(tmp_path / "again.json"), "--ledger", str(book)]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(tmp_path / "new.jsonl"),
+                 "-q"]) == 0
+    assert capsys.readouterr().err == ""
+
+
+def test_accept_unflagged_into_another_ledger_says_so_and_counts_not_its_shifted(tmp_path, capsys):
+    """Results fitted with ``--ledger L`` accepted into another ledger: one warning line (the screen's and
+    ``show --ledger``'s words), and ``shifted`` (L's signed curve failing) does not keep a series from an
+    accept in a ledger where nothing stands on it (before: silent, and the series left out)."""
+    from .test_cycle import MOVER
+    book, other = tmp_path / "L.jsonl", tmp_path / "other.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40)
+    first = fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    held = first["item 0"]  # the other ledger: one hold, on another series than the mover
+    ledger.append(other, [ledger.Entry(series=held["key"], action="hold", fingerprint=held["fingerprint"],
+                                       results="ab" * 32, note="look later", last_date=held["last_date"])],
+                  ledger.Identity("ana", "ana", "host"))
+    write_weeks(tmp_path / "c2.csv", 44, drop_from=0)  # the mover's demand 40% lower throughout: a clean fit
+    second = fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    assert [f["code"] for f in second[MOVER]["flags"]] == ["shifted"]  # L's signed curve, nothing else
+    assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+                 "--no-loglog", "-o", str(tmp_path / "r2.parquet"), "--quiet", "--ledger", str(book)]) == 0
+    from fitcore.ledger.proposals import unflagged
+    for results in ("r2.json", "r2.parquet"):  # the record reader and the column reader alike
+        assert MOVER in [key["product"] for key, *_ in unflagged(tmp_path / results, other)[1]]
+        assert MOVER not in [key["product"] for key, *_ in unflagged(tmp_path / results, book)[1]]
+    capsys.readouterr()
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r2.json"), "--ledger", str(other), "-q"]) == 0
+    err = capsys.readouterr().err
+    assert len(err.splitlines()) == 1 and f"backtested against {book}, not {other}" in err
+    accepted = {h.latest["series"]["product"] for h in ledger.Ledger(other).histories.values()
+                if h.latest["action"] == "accept"}
+    assert MOVER in accepted
+    # into its own ledger, nothing is said and shifted counts
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r2.json"), "--ledger", str(book), "-q"]) == 0
+    assert capsys.readouterr().err == ""
+
+
+def test_a_second_carry_counts_from_the_ledger_as_it_is_now(tmp_path, capsys):
+    """A series left by the first carry and decided by hand since: a second carry counts it no more, as
+    ``show --ledger`` lists it due nothing (before: the results' reasons, as at the fit, counted again)."""
+    from fitcore.ledger.replay import series_id
+
+    from .test_cycle import MOVER
+    book = tmp_path / "L.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, drop_from=40)  # the mover's new weeks 40% lower: its backtest fails
+    second = fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+                 "--no-loglog", "-o", str(tmp_path / "r2.parquet"), "--quiet", "--ledger", str(book)]) == 0
+    assert carry_left(tmp_path / "r2.json", book, capsys)["backtest failed"] >= 1
+    mover = second[MOVER]
+    latest = ledger.Ledger(book).histories[series_id(mover["key"])].latest["digest"]
+    ledger.append(book, [ledger.Entry(series=mover["key"], action="accept", fingerprint=mover["fingerprint"],
+                                      results="ab" * 32, model=mover["chosen"], proposed=mover["chosen"],
+                                      supersedes=latest)], ledger.Identity("ana", "ana", "host"))
+    for results in ("r2.json", "r2.parquet"):
+        dues = show_dues(tmp_path / results, book, capsys)
+        assert carry_left(tmp_path / results, book, capsys) == dues, results
+    assert "backtest failed" not in dues  # the mover, accepted by hand: due nothing
+
+
+def test_ledger_show_names_the_columns_where_the_ledger_holds_several_key_sets(tmp_path, capsys):
+    """A region=South and an area=South series read alike as "salt · South" (before); with several key sets in
+    the ledger, each value but the product's is named by its column.  One key set: values only, as always."""
+    book, one = tmp_path / "L.jsonl", tmp_path / "one.jsonl"
+    who = ledger.Identity("ana", "ana", "host")
+    for series in ({"product": "salt", "region": "South"}, {"area": "South", "product": "salt"}):
+        ledger.append(book, [ledger.Entry(series=series, action="hold", fingerprint="f", results="ab" * 32)], who)
+    ledger.append(one, [ledger.Entry(series={"product": "salt", "region": "South"}, action="hold", fingerprint="f",
+                                     results="ab" * 32)], who)
+    capsys.readouterr()
+    assert main(["ledger", "show", str(book)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[0].endswith("salt · region=South") and lines[1].endswith("salt · area=South")
+    assert main(["ledger", "show", str(one)]) == 0
+    assert capsys.readouterr().out.rstrip().endswith("salt · South")
+
+
+def test_dask_fit_says_results_sharing_no_series_with_the_ledger(tmp_path, capsys):
+    """``fit --engine dask --ledger`` warns as the local fit does (before: silent, "0 signed series")."""
+    import pytest
+    pytest.importorskip("distributed")
+    write_weeks(tmp_path / "w.csv", 40, seed=9)
+    with_segment(tmp_path / "w.csv", tmp_path / "region.csv", "region")
+    fit_segmented(tmp_path / "region.csv", tmp_path / "r1.json", "region")
+    book = tmp_path / "L.jsonl"
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    with_segment(tmp_path / "w.csv", tmp_path / "lower.csv", "region", values=("north", "east"))
+    capsys.readouterr()
+    assert main(["fit", str(tmp_path / "lower.csv"), "--segment", "region", "--date", "week", "--plan-price", "2.3",
+                 "--degrees", "0-1", "--no-loglog", "-o", str(tmp_path / "parts"), "--engine", "dask",
+                 "--workers", "1", "--ledger", str(book)]) == 0
+    err = capsys.readouterr().err
+    assert f"none of the {len(ledger.Ledger(book).histories)} series in {book} is in these results" in err
+    assert "ledger: none of its series is in these results" in err
