@@ -20,24 +20,35 @@ class LaterColumns:
         self._tables: dict[str, object] = {}  # "soon" and "later": each group's table once read
         self._error = None
         self._soon_done, self._done, self._go = threading.Event(), threading.Event(), threading.Event()
-        self._started = threading.Lock()
-        self._thread = None
+        self._started = threading.Lock()  # guards the thread's start and ``_holding``
+        self._thread, self._holding = None, False
         if self.soon:
-            self._begin()
+            with self._started:
+                self._begin()
 
     def _begin(self) -> None:
+        """Start the thread (under ``_started``), counted as a read in progress from before it runs."""
         import threading
-        with self._started:
-            if self._thread is None:
-                self._thread = threading.Thread(target=self._read, args=(self._parts,), name="pricefold-results",
-                                                daemon=True)
-                self._thread.start()
+        if self._thread is None:
+            self._hold(True)
+            self._thread = threading.Thread(target=self._read, args=(self._parts,), name="pricefold-results",
+                                            daemon=True)
+            self._thread.start()
+
+    def _hold(self, holding: bool) -> None:
+        """Count this reader among the reads the interpreter's exit waits for, or not (under ``_started``)."""
+        if holding != self._holding:
+            (_reading.enter if holding else _reading.leave)()
+            self._holding = holding
 
     def start(self) -> None:
         """Start reading the ``names`` (once; from any thread): triage starts it once the series around the
         cursor are fitted, or when a key needs these columns."""
-        self._go.set()
-        self._begin()
+        with self._started:
+            self._go.set()
+            if not self._done.is_set():
+                self._hold(True)
+            self._begin()
 
     def _read(self, parts) -> None:
         import pyarrow.parquet as pq
@@ -45,7 +56,10 @@ class LaterColumns:
             readers = [pq.ParquetFile(part, page_checksum_verification=True) for part in parts]
             if self.soon:  # on Arrow's threads: done while the list's first frame is still being made
                 self._tables["soon"] = _read_all(readers, self.soon, threads=True)
-            self._soon_done.set()
+            with self._started:
+                self._soon_done.set()
+                if not self._go.is_set():  # idle until started: not a read the exit must wait for
+                    self._hold(False)
             self._go.wait()
             self._tables["later"] = _read_all(readers, self.names)
         except Exception as exc:  # raised where a column is first used
@@ -53,8 +67,10 @@ class LaterColumns:
         finally:
             for handle in parts:
                 handle.close()
-            self._soon_done.set()
-            self._done.set()
+            with self._started:
+                self._soon_done.set()
+                self._done.set()
+                self._hold(False)
 
     @property
     def soon_ready(self) -> bool:
@@ -98,21 +114,22 @@ class LaterColumns:
 
 def _read_all(readers, names: list[str], threads: bool = False):
     import pyarrow as pa
-    with _reading:
-        tables = [reader.read(columns=names, use_threads=threads) for reader in readers]
+    tables = [reader.read(columns=names, use_threads=threads) for reader in readers]
     return pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
 
 
 class _Reads:
-    """Reads in progress, for ``let_reads_end``: a daemon thread still inside Arrow's read of a Python file
-    when the interpreter exits waits forever for the interpreter lock, and Arrow's thread pool, shut down
-    after the interpreter, waits forever for that read (a script that opened results and ended at once hung)."""
+    """Readers whose thread is reading (from before it starts to the end of its read, not while it waits to be
+    started), for ``let_reads_end``: a daemon thread still inside Arrow (opening the file or reading it) when
+    the interpreter exits is ended inside C++ (an abort), or waits forever for the interpreter lock while
+    Arrow's thread pool, shut down after the interpreter, waits for that read (a script that opened results
+    and ended at once died or hung)."""
 
     def __init__(self) -> None:
         import threading
         self.count, self.changed, self.registered = 0, threading.Condition(), False
 
-    def __enter__(self) -> None:
+    def enter(self) -> None:
         with self.changed:
             if not self.registered:
                 import atexit
@@ -120,13 +137,13 @@ class _Reads:
                 self.registered = True
             self.count += 1
 
-    def __exit__(self, *exc) -> None:
+    def leave(self) -> None:
         with self.changed:
             self.count -= 1
             self.changed.notify_all()
 
     def let_reads_end(self) -> None:
-        """At exit: until the reads in progress are done (a read after this is not waited for)."""
+        """At exit: until the reads in progress are done (a read started after this is not waited for)."""
         with self.changed:
             self.changed.wait_for(lambda: self.count == 0, timeout=60)
 

@@ -191,6 +191,19 @@ def test_opening_results_and_their_keys_imports_no_arrow_compute(tmp_path):
     assert out.split() == ["False", "item", "0000"]
 
 
+def test_a_script_that_opens_results_and_ends_at_once_ends_cleanly(tmp_path):
+    """The thread that reads the candidates' numbers starts with the opening; a process ending before that
+    thread is inside Arrow's read (still opening the file) was not waited for, and died by SIGABRT (Arrow's
+    C++ ended under it) in about half of such runs."""
+    results = fitcore.fit_batch(random_dataset(4, n_series=5))
+    write_results(results, tmp_path / "r.parquet", diagnose(results))
+    code = ("from fitcore.results.stored import stored_results; "
+            f"stored_results({str(tmp_path / 'r.parquet')!r}, later=True)")
+    for _ in range(4):
+        run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+        assert (run.returncode, run.stderr) == (0, "")
+
+
 def test_damaged_flags_texts_that_would_join_into_valid_json_are_refused(tmp_path):
     """Two damaged texts that, joined with a comma between them, would make valid JSON (a bracket too many in
     one, too few in the next): still the first one's row, never its flags given to its neighbour."""
