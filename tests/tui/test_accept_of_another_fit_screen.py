@@ -48,3 +48,28 @@ async def test_the_screen_shows_the_accepted_model_and_names_the_proposal(other_
         chart = panel.query_one("#ev-curve").render()
         legend = str(getattr(chart, "plain", chart))
         assert "poly1 (accepted)" in legend and f"{proposal} (proposed)" in legend
+
+
+async def test_the_proposal_of_these_results_may_be_accepted_after_a_look(other_fit, tmp_path):
+    """``a`` was hidden (the series "stands accepted") and the override dialog cannot pick the proposal: the
+    analyst who looked again had no way to sign these results' proposal.  Now ``a`` accepts it (past its stop
+    flag, with a note), and the row shows it with nothing more to say."""
+    from fitcore import ledger
+    book, results, key, proposal = other_fit
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    app = make_app(copy, source_from_results(results))
+    async with app.run_test(size=(160, 50)) as pilot:
+        s = await on_series(app, pilot, key)
+        assert "a accept" in screen_text(app).splitlines()[-1]
+        await pilot.press("a")
+        await pilot.pause(0.3)
+        for key_pressed in "seed 1 bends":
+            await pilot.press("space" if key_pressed == " " else key_pressed)
+        await pilot.press("enter")
+        await pilot.pause(0.3)
+        written = ledger.Ledger(copy).records[-1]
+        assert written["action"] == "accept" and written["model"] == proposal and written["series"] == key
+        session = app.session
+        assert session.status[s] == "accepted" and session.accepted_other(s) is None
+        assert session.results.names[session.model_of(s)] == proposal

@@ -186,8 +186,9 @@ class TriageScreen(Screen):
         if action in ("accept", "override", "nothing_to_override", "hold") and session.decided_on_newer(s):
             return False  # the ledger refuses them: the series is due a look in the newer results
         # Python booleans only: Textual hides a key for ``False`` itself, and numpy's False is not that
-        if action == "accept":  # not where it stands accepted on this data: the ledger would refuse it
-            return bool(results.chosen[s] >= 0) and session.status[s] != "accepted"
+        if action == "accept":  # not where the proposal stands accepted on this data: the ledger would refuse it
+            return bool(results.chosen[s] >= 0) and (session.status[s] != "accepted"
+                                                     or session.accepted_other(s) is not None)
         if action in ("override", "nothing_to_override"):
             others = bool(results.chosen[s] >= 0 and results.available[s].sum() >= 2)
             return others == (action == "override")
