@@ -3,9 +3,9 @@ from __future__ import annotations
 
 from rich.text import Text
 
-from fitcore.text import clean
+from fitcore.text import clean, printable
 
-__all__ = ["clean", "literal"]
+__all__ = ["clean", "literal", "printable"]
 
 
 def literal(text: str, style: str = "") -> Text:

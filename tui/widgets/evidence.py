@@ -27,7 +27,7 @@ from fitcore.review.sentences import fmt, money, two_places
 from .. import engine
 from ..cells import cut, key_label, percent, wrapped
 from ..session import TriageSession, describe
-from ..text import clean
+from ..text import clean, printable
 from .charts import curve_chart, fold_chart
 
 SEVERITY_STYLE = {"stop": "#ff875f", "warn": "#d7af5f"}
@@ -218,7 +218,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                 message = NEWER_DUE[0].upper() + NEWER_DUE[1:] + "."
             elif f["code"] == "shifted" and self.session.decided_on_newer(s):  # not this cycle's proposal
                 message = self.shift_words(s) or message
-            text.append(clean(message) + "\n")
+            text.append(printable(message) + "\n")
         return text
 
     def signed_shown(self, s: int) -> dict | None:
@@ -232,7 +232,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if said is None or "shifted" in self.session.flag_codes(s):  # the flag's sentence says it already
             return Text()
         text = Text("Since sign-off: ", style="bold")
-        text.append(clean(said) + "\n")
+        text.append(printable(said) + "\n")
         return text
 
     def shift_words(self, s: int) -> str | None:
