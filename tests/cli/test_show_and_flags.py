@@ -190,6 +190,7 @@ def test_names_that_differ_only_in_a_control_character_print_apart(tmp_path):
     for name, shown in twins.items():
         one = run_cli("show", str(out), "--product", name).stdout
         assert one.startswith(f"{shown} — 30 observations"), one
-    assert run_cli("ledger", "accept-unflagged", str(out), "--ledger", str(book), "--analyst", "ana", "-q").returncode == 0
+    accepted = run_cli("ledger", "accept-unflagged", str(out), "--ledger", str(book), "--analyst", "ana", "-q")
+    assert accepted.returncode == 0
     lines = run_cli("ledger", "show", str(book)).stdout.splitlines()
     assert sorted(line.split()[-1] for line in lines) == sorted(twins.values()), lines

@@ -167,8 +167,9 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     (dotted) and the plan price (a vertical line).  ``rival``: the candidate a raised near-tie flag names,
     drawn as the runner-up (so the chart shows the curve the flag's sentence speaks of; -1: none, the
     lowest CV error after the proposal's is drawn).  ``role``: what a ``model`` that is not the proposal is
-    (an override, or an accept of another fit's proposal on the same data).  ``adjusted``: with controls, each observation's volume
-    moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn.
+    (an override, or an accept of another fit's proposal on the same data).  ``adjusted``: with controls,
+    each observation's volume moved to the plan's control values under ``model`` (partial residuals), as the
+    curves are drawn.
     ``signed``: the snapshot of a curve signed on earlier data, drawn beside them (dash-dot), and the rows
     dated after its data's last date marked apart (×).  ``unobserved``: why the observations will not come,
     said where they would be drawn (else, without rows, that they are being read)."""
