@@ -7,8 +7,8 @@ differ only there stay apart on screen: a C0 control or DEL as its control pictu
 what follows them, so one name could be shown as another), other format characters, separators, unassigned
 code points — as ``⟨U+202E⟩``.  The forms are kept unambiguous: a control picture or a ``⟨`` already in
 the text is escaped the same way (``⟨U+240A⟩``), so every shown text reads back to exactly one original.
-Emoji sequences stay whole (the zero-width joiner and the tag characters of flag sequences are kept;
-variation selectors are printable already).
+Emoji sequences stay whole (the zero-width joiner between two pictographs and the tag characters after a
+black flag are kept, and escaped elsewhere, where they are invisible; variation selectors are printable).
 
 A message put together from texts ``clean`` has shown already (an error naming a series, a ledger sentence)
 goes through ``printable`` at the edge instead: it shows what does not print as ``clean`` does and leaves the
@@ -17,10 +17,12 @@ rest, the shown forms included, as it is (``clean`` again would escape the pictu
 from __future__ import annotations
 
 import re
+from unicodedata import category
 
 OPEN, CLOSE = "\u27e8", "\u27e9"  # ⟨ ⟩ MATHEMATICAL ANGLE BRACKETS: one cell each, rare in names
 PICTURES = {chr(c): chr(0x2400 + c) for c in range(0x20)} | {"\x7f": "\u2421"}  # ␀ … ␟, ␡
-KEPT_FORMAT = frozenset(["\u200d"] + [chr(c) for c in range(0xE0020, 0xE0080)])  # ZWJ; emoji tag characters
+ZWJ, VS16, BLACK_FLAG = "\u200d", "\ufe0f", "\U0001f3f4"
+TAGS = frozenset(chr(c) for c in range(0xE0020, 0xE0080))  # a subdivision flag's letters and its end
 RESERVED = frozenset(PICTURES.values()) | {OPEN}  # printable, but the shown forms: escaped when in the text
 _RESERVED = re.compile(f"[{re.escape(''.join(sorted(RESERVED)))}]")
 
@@ -33,11 +35,10 @@ def escaped(ch: str) -> str:
 def clean(text: str) -> str:
     """``text`` safe to print, distinct texts staying distinct: each C0 control and DEL as its control picture,
     every other character that does not print (and a control picture or ``⟨`` already there) as ``⟨U+XXXX⟩``;
-    all other printable text and the joiners of emoji sequences as they are."""
+    all other printable text and the joiners and tags of emoji sequences as they are."""
     if text.isprintable() and (text.isascii() or _RESERVED.search(text) is None):  # the usual case, in C
         return text
-    return "".join(PICTURES.get(ch) or (ch if (ch.isprintable() and ch not in RESERVED) or ch in KEPT_FORMAT
-                                        else escaped(ch)) for ch in text)
+    return _shown(text, RESERVED)
 
 
 def printable(message: str) -> str:
@@ -46,5 +47,28 @@ def printable(message: str) -> str:
     through ``clean``)."""
     if message.isprintable():
         return message
-    return "".join(PICTURES.get(ch) or (ch if ch.isprintable() or ch in KEPT_FORMAT else escaped(ch))
-                   for ch in message)
+    return _shown(message, frozenset())
+
+
+def _shown(text: str, reserved: frozenset) -> str:
+    """Each character of ``text`` as it is shown (``reserved``: printable ones escaped all the same).  A joiner
+    is kept between two pictographs and tag characters after a black flag (emoji sequences); elsewhere they
+    are invisible, so "a" + ZWJ + "b" would read as "ab", and are escaped."""
+    out, flagged = [], False
+    for i, ch in enumerate(text):
+        if ch in TAGS:
+            out.append(ch if flagged else escaped(ch))  # a run of tags goes on after its flag
+            continue
+        flagged = ch == BLACK_FLAG
+        if ch == ZWJ and _joins(text, i):
+            out.append(ch)
+        else:
+            out.append(PICTURES.get(ch) or (ch if ch.isprintable() and ch not in reserved else escaped(ch)))
+    return "".join(out)
+
+
+def _joins(text: str, i: int) -> bool:
+    """Whether the joiner at ``i`` joins two emoji: a pictograph (or an emoji modifier, or the emoji
+    presentation selector) before it, a pictograph after it."""
+    before, after = text[i - 1:i], text[i + 1:i + 2]
+    return bool(before and after) and (before == VS16 or category(before) in ("So", "Sk")) and category(after) == "So"

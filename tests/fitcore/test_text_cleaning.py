@@ -70,6 +70,14 @@ def test_different_texts_are_shown_differently(a, b):
     assert clean(a) != clean(b) and clean(a).isprintable() and clean(b).isprintable()
 
 
+@pytest.mark.parametrize("text, plain, shown", [
+    ("a" + ZWJ + "b", "ab", "a\u27e8U+200D\u27e9b"),  # invisible between letters
+    ("salt" + TAGS, "salt", "salt" + "".join(f"\u27e8U+{ord(c):05X}\u27e9" for c in TAGS)),  # tags without a flag
+])
+def test_joiners_and_tags_outside_emoji_are_shown(text, plain, shown):
+    assert clean(text) == shown != clean(plain)
+
+
 def unclean(shown: str) -> str:
     """The text ``clean`` was given, read back from what it showed (the inverse the test holds it to)."""
     pictures = {chr(0x2400 + c): chr(c) for c in range(0x20)} | {lookup("SYMBOL FOR DELETE"): "\x7f"}
@@ -82,13 +90,13 @@ def test_every_shown_text_reads_back_to_one_text():
     bidi and format characters, '?', letters): what is shown always reads back to the text given."""
     alphabet = ([chr(c) for c in range(0x20)] + ["\x7f", "\x85", "\x9b", "\u00a0", "\u2028", "\u200b"]
                 + [chr(c) for c in range(0x2400, 0x2427)] + ["\u27e8", "\u27e9", "U", "+", "0", "A", "?", " ", "x"]
-                + [lookup(name) for name in BIDI])
+                + [lookup(name) for name in BIDI] + [ZWJ, VS16, WOMAN, FLAG, TAGS[0], TAGS[-1]])
     rng = random.Random(0)
     for _ in range(3000):
         text = "".join(rng.choice(alphabet) for _ in range(rng.randint(0, 8)))
         shown = clean(text)
         assert unclean(shown) == text, (text, shown)
-        assert shown.isprintable()
+        assert all(c.isprintable() or c == ZWJ or c in TAGS for c in shown)  # emoji sequences' own, kept
 
 
 def test_a_message_holding_shown_names_is_printed_as_it_is():
