@@ -73,6 +73,13 @@ async def test_names_that_differ_only_in_a_control_character_stay_apart(tmp_path
             titles.add(screen_text(app).splitlines()[2].split()[0])
             await pilot.press("escape", "down")
         assert titles == set(shown)
+        keys = [session.results.data.key_of(int(s))["product"] for s in session.view]
+        session.cursor = keys.index("line\nbreak")
+        app.screen.refresh_all()
+        await pilot.pause()
+        await pilot.press("h")  # a dialog's title names the series as the list does (not escaped a second time)
+        await pilot.pause()
+        assert "Hold line\u240abreak: why?" in screen_text(app) and "\u27e8" not in screen_text(app)
 
 
 async def test_a_failed_open_is_a_dialog_and_a_clean_exit(tmp_path):
