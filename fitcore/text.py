@@ -1,24 +1,74 @@
-"""Text from users' files, made safe to print: no control characters reach the terminal.
+"""Text from users' files, made safe to print: no control characters reach the terminal, and two different
+texts never print the same.
 
-Emoji sequences stay whole (the zero-width joiner and the tag characters of flag sequences are
-kept; variation selectors are printable already).  Bidirectional controls are replaced by a
-visible placeholder: left in, they reorder what follows them, so one name could be shown as
-another.
+Every character that does not print is shown by a visible form of its own, so that series whose names
+differ only there stay apart on screen: a C0 control or DEL as its control picture (line feed ``␊``, tab
+``␉``, escape ``␛``, DEL ``␡``), anything else — C1 controls, bidirectional controls (left in, they reorder
+what follows them, so one name could be shown as another), other format characters, separators, unassigned
+code points — as ``⟨U+202E⟩``.  The forms are kept unambiguous: a control picture or a ``⟨`` already in
+the text is escaped the same way (``⟨U+240A⟩``), so every shown text reads back to exactly one original.
+Emoji sequences stay whole (the zero-width joiner between two pictographs and the tag characters after a
+black flag are kept, and escaped elsewhere, where they are invisible; variation selectors are printable).
+
+A message put together from texts ``clean`` has shown already (an error naming a series, a ledger sentence)
+goes through ``printable`` at the edge instead: it shows what does not print as ``clean`` does and leaves the
+rest, the shown forms included, as it is (``clean`` again would escape the pictures it made).
 """
 from __future__ import annotations
 
-PLACEHOLDER = "?"  # stands for every character removed, so the analyst sees that something was there
-BIDI_CONTROLS = frozenset(
-    [chr(c) for c in range(0x202A, 0x202F)]    # LRE, RLE, PDF, LRO, RLO
-    + [chr(c) for c in range(0x2066, 0x206A)]  # LRI, RLI, FSI, PDI
-    + ["\u200e", "\u200f", "\u061c"])          # LRM, RLM, ALM
-KEPT_FORMAT = frozenset(["\u200d"] + [chr(c) for c in range(0xE0020, 0xE0080)])  # ZWJ; emoji tag characters
+import re
+from unicodedata import category
+
+OPEN, CLOSE = "\u27e8", "\u27e9"  # ⟨ ⟩ MATHEMATICAL ANGLE BRACKETS: one cell each, rare in names
+PICTURES = {chr(c): chr(0x2400 + c) for c in range(0x20)} | {"\x7f": "\u2421"}  # ␀ … ␟, ␡
+ZWJ, VS16, BLACK_FLAG = "\u200d", "\ufe0f", "\U0001f3f4"
+TAGS = frozenset(chr(c) for c in range(0xE0020, 0xE0080))  # a subdivision flag's letters and its end
+RESERVED = frozenset(PICTURES.values()) | {OPEN}  # printable, but the shown forms: escaped when in the text
+_RESERVED = re.compile(f"[{re.escape(''.join(sorted(RESERVED)))}]")
+
+
+def escaped(ch: str) -> str:
+    """'⟨U+202E⟩': a character by its code point."""
+    return f"{OPEN}U+{ord(ch):04X}{CLOSE}"
 
 
 def clean(text: str) -> str:
-    """Replace every non-printable character (ESC, CR, BEL, bidi controls, …) with '?'; keep all printable
-    text and the joiners of emoji sequences."""
-    if text.isprintable():  # the usual case, checked in C
+    """``text`` safe to print, distinct texts staying distinct: each C0 control and DEL as its control picture,
+    every other character that does not print (and a control picture or ``⟨`` already there) as ``⟨U+XXXX⟩``;
+    all other printable text and the joiners and tags of emoji sequences as they are."""
+    if text.isprintable() and (text.isascii() or _RESERVED.search(text) is None):  # the usual case, in C
         return text
-    return "".join(PLACEHOLDER if ch in BIDI_CONTROLS or not (ch.isprintable() or ch in KEPT_FORMAT) else ch
-                   for ch in text)
+    return _shown(text, RESERVED)
+
+
+def printable(message: str) -> str:
+    """A ``message`` safe to print where parts of it are ``clean``'s shown forms already: each character that
+    does not print shown as ``clean`` shows it, everything else as it is (not one-to-one: users' own texts go
+    through ``clean``)."""
+    if message.isprintable():
+        return message
+    return _shown(message, frozenset())
+
+
+def _shown(text: str, reserved: frozenset) -> str:
+    """Each character of ``text`` as it is shown (``reserved``: printable ones escaped all the same).  A joiner
+    is kept between two pictographs and tag characters after a black flag (emoji sequences); elsewhere they
+    are invisible, so "a" + ZWJ + "b" would read as "ab", and are escaped."""
+    out, flagged = [], False
+    for i, ch in enumerate(text):
+        if ch in TAGS:
+            out.append(ch if flagged else escaped(ch))  # a run of tags goes on after its flag
+            continue
+        flagged = ch == BLACK_FLAG
+        if ch == ZWJ and _joins(text, i):
+            out.append(ch)
+        else:
+            out.append(PICTURES.get(ch) or (ch if ch.isprintable() and ch not in reserved else escaped(ch)))
+    return "".join(out)
+
+
+def _joins(text: str, i: int) -> bool:
+    """Whether the joiner at ``i`` joins two emoji: a pictograph (or an emoji modifier, or the emoji
+    presentation selector) before it, a pictograph after it."""
+    before, after = text[i - 1:i], text[i + 1:i + 2]
+    return bool(before and after) and (before == VS16 or category(before) in ("So", "Sk")) and category(after) == "So"

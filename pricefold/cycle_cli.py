@@ -180,14 +180,16 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
     return status, needs
 
 
-def standing_override(record: dict, book) -> dict | None:
-    """The override (made here, or carried forward) that stands on the series of a results ``record`` on
-    its data, or None: its model, not the proposal, is the series' model."""
+def standing_decision(record: dict, book) -> dict | None:
+    """The accept or override (made here, or carried forward) whose model stands on the series of a results
+    ``record`` on its data in place of its proposal (``SeriesHistory.standing_model``): any override, and an
+    accept of another model than these results propose (made on another fit of the same data); else None."""
     history = book.histories.get(series_id(record["key"]))
-    if history is None or history.status(record["fingerprint"]) != "overridden":
+    model = history.standing_model(record["fingerprint"]) if history is not None else None
+    decision = history.decision if model is not None else None
+    if decision is None or (decision["action"] == "accept" and model == record["chosen"]):
         return None
-    decision = history.decision
-    return decision if decision is not None and decision["action"] == "override" else None
+    return decision
 
 
 def standing_model(record: dict, book) -> str:
@@ -200,23 +202,29 @@ def standing_model(record: dict, book) -> str:
     return record["chosen"] or "—"
 
 
-def override_words(record: dict, stands: dict, carry: dict | None = None) -> str:
+def stands_words(record: dict, stands: dict, carry: dict | None = None) -> list[str]:
     """'stands: poly1, overridden by ana at …; at the plan price 2.50: volume 250.0 (204.1 to 295.9), elasticity
-    -0.71' — the standing model's own numbers from the record's candidates; for an override ``carry`` carried
-    to these data, said as its refit on them (the curve as signed is the backtest's line)."""
+    -0.71' — the standing model's own numbers from the record's candidates; for a decision ``carry`` carried
+    to these data, said as its refit on them (the curve as signed is the backtest's line).  An accept of
+    another model than these results propose adds a line saying so."""
     from .show import money, number, slope
     model = stands["model"]
-    said = f"stands: {clean(str(model))}, overridden by {clean(str(stands['analyst']))} at {_minute(stands)}"
+    verb = "accepted" if stands["action"] == "accept" else "overridden"
+    said = f"stands: {clean(str(model))}, {verb} by {clean(str(stands['analyst']))} at {_minute(stands)}"
     if carry is not None:
         said += f", carried by {clean(str(carry['analyst']))} at {_minute(carry)}"
     plan = record.get("plan")
     cand = next((c for c in record["candidates"] if c["name"] == model), None)
-    if not plan or cand is None or cand.get("plan_volume") is None:
-        return said
-    whose = "its refit on these data at" if carry is not None else "at"
-    return (f"{said}; {whose} the plan price {number(plan['price'], money)}: volume {number(cand['plan_volume'])} "
-            f"({number(cand['plan_lo'])} to {number(cand['plan_hi'])}), "
-            + slope({"volume": cand["plan_volume"], "elasticity": cand["plan_elasticity"]}))
+    if plan and cand is not None and cand.get("plan_volume") is not None:
+        whose = "its refit on these data at" if carry is not None else "at"
+        said = (f"{said}; {whose} the plan price {number(plan['price'], money)}: volume "
+                f"{number(cand['plan_volume'])} ({number(cand['plan_lo'])} to {number(cand['plan_hi'])}), "
+                + slope({"volume": cand["plan_volume"], "elasticity": cand["plan_elasticity"]}))
+    if verb == "overridden":
+        return [said]
+    proposal = record["chosen"] or "nothing"
+    return [said, f"accepted as the proposal of another fit of these data: these results propose {proposal} "
+                  f"(the chosen line, flags and plan above are {proposal}'s); look again if that changes the decision"]
 
 
 def _minute(record: dict) -> str:
@@ -249,10 +257,11 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         record = records[0]
         status, needs = ledger_state(record, book)
         lines = [detail(record, binary), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
-        stands = standing_override(record, book)
+        stands = standing_decision(record, book)
         if stands is not None:
             current = book.histories[series_id(record["key"])].current
-            lines.append("  " + override_words(record, stands, current if current["action"] == "carry" else None))
+            lines += ["  " + line for line in
+                      stands_words(record, stands, current if current["action"] == "carry" else None)]
         if record.get("backtest"):
             said = shift_sentence(record["backtest"], record["chosen"], older=needs == NEWER_DUE)
             lines.append(f"  since sign-off (the curve as signed): {said}")
@@ -264,6 +273,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
         cover = f"{bt['coverage'] * 100:.0f}%" if bt.get("coverage") is not None else "—"
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
+        stands = standing_decision(record, book)
+        if stands is not None and stands["action"] == "accept":  # the flags are these results' proposal's
+            flags = f"proposes {record['chosen'] or 'nothing'}: {flags}"
         model = standing_model(record, book)
         lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {model:<7} "
                      f"{status:<20} {(needs or '—')[:21]:<21} {ratio:>5} {cover:>5}  {flags}")

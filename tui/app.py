@@ -17,7 +17,7 @@ from . import engine
 from .messages import EvidenceReady, FirstRows, FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
 from .opening import Opening
 from .screens.dialogs import MessageDialog
-from .text import clean
+from .text import printable
 
 if TYPE_CHECKING:  # the triage screen's modules load while the session opens (``load_screen``)
     from .screens.triage import TriageScreen
@@ -130,7 +130,7 @@ class TriageApp(App):
         self.session = message.session
         self.switch_screen(load_screen()(message.session))
         for warning in message.session.warnings:
-            self.notify(clean(warning), severity="warning", timeout=10, markup=False)
+            self.notify(printable(warning), severity="warning", timeout=10, markup=False)
         self.call_after_refresh(settle)  # after the first screen is drawn, not before it
         # Once the first screen is drawn.  With data to read, the engine's loops and the rest of a large results
         # file wait for the series around the cursor to be fitted: alongside the data's read they slowed it.
@@ -241,7 +241,7 @@ class TriageApp(App):
             self.unobserved("the data no longer match the results file: observations are not shown")
 
     def on_rows_failed(self, message: RowsFailed) -> None:
-        self.unobserved(f"observations unavailable: {clean(message.reason)}")
+        self.unobserved(f"observations unavailable: {printable(message.reason)}")
 
     def unobserved(self, why: str) -> None:
         """The observations will not come: say why, and the charts say it where they would be drawn."""
@@ -253,8 +253,8 @@ class TriageApp(App):
 
     def on_load_failed(self, message: LoadFailed) -> None:
         body = Text("Could not open the triage:\n\n", style="bold")
-        body.append(clean(message.reason))
-        self.failure = clean(message.reason)
+        body.append(printable(message.reason))
+        self.failure = printable(message.reason)
         self.push_screen(MessageDialog(body), lambda _: self.exit(return_code=2))
 
     def on_worker_state_changed(self, event) -> None:

@@ -8,7 +8,7 @@ from rich.text import Text
 from fitcore.review.flags import FLAGS
 
 from .listing import FILTER_TITLES, FILTERS
-from .text import clean
+from .text import clean, printable
 from .widgets.status_line import cut_off_text
 
 KEYS = [
@@ -53,7 +53,7 @@ def ledger_text(book, keys: str | None = None) -> Group:
     status line's words when not), and its head (``SEQ:DIGEST`` of the last whole record)."""
     text = Text("\nLedger ", style="bold")
     text.append(clean(str(book.path)))
-    text.append(f"\n  {book.state}" + (f": {clean(str(book.problem))}" if book.problem else ""))
+    text.append(f"\n  {book.state}" + (f": {printable(str(book.problem))}" if book.problem else ""))
     if book.notes:  # the chain verifies up to its last whole record; what follows it does not count
         text.append(" up to its last whole record, but " + cut_off_text(book), style="bold")
     if keys:

@@ -312,13 +312,22 @@ class TriageSession(ListState):
         return history.decision if history else None
 
     def model_of(self, s: int) -> int:
-        """The candidate that now stands for series ``s``: an override's on the current data (also one carried
-        forward to it), else the proposal."""
-        if self.status[s] == "overridden":
-            name = self.standing(s)["model"]
+        """The candidate that now stands for series ``s``: an accept's or override's on the current data (made
+        on them or carried to them; ``SeriesHistory.standing_model``), else the proposal."""
+        if self.status[s] in ("accepted", "overridden"):  # else none stands on these data: skip the lookup
+            name = self.histories[self._id(s)].standing_model(self.results.data.fingerprint_of(s))
             if name in self.results.names:
                 return self.results.names.index(name)
         return int(self.results.chosen[s])
+
+    def accepted_other(self, s: int) -> str | None:
+        """The proposal of these results where an accept of another model stands on series ``s`` (accepted as
+        the proposal of results fitted otherwise on the same data), else None: the screen says so, since the
+        flags and the proposal's words are these results' own."""
+        chosen, model = int(self.results.chosen[s]), self.model_of(s)
+        if model == chosen or self.status[s] != "accepted":
+            return None
+        return self.results.names[chosen] if chosen >= 0 else "nothing"
 
     def listed_model(self, s: int) -> tuple[str, float]:
         """The list's model and score for series ``s``: the model signed wherever an accept or override stands

@@ -67,6 +67,16 @@ class SeriesHistory:
         """The analyst's decision that stands: the standing record, or what a standing carry carries."""
         return self.carried or self.current
 
+    def standing_model(self, fingerprint: str) -> str | None:
+        """The candidate that stands on the data ``fingerprint`` names by an analyst's decision: the model of
+        the accept or override standing on these very data (made on them, or carried to them); None where none
+        does (pending, held, decided on other data): the results' proposal is then the series' model.  An
+        accept names the proposal of the results it was made on, which results fitted otherwise on the same
+        data (another seed, fold order or rule) may not propose."""
+        if self.status(fingerprint) not in ("accepted", "overridden"):
+            return None
+        return self.standing[-1].get("model")
+
     def status(self, fingerprint: str | None = None) -> str:
         """pending, accepted, overridden, held — or stale when the data changed since the decision.  A carry
         has the status of the decision it carries (an override carried forward is still overridden).  Read

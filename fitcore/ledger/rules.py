@@ -3,8 +3,9 @@ then (so no path — screen, command, script — can skip them).  Pure: historie
 
 - an override needs a note and a model (``records.check_entry``);
 - an accept whose ``flags`` include a stop flag (other than ``stale``) needs a note;
-- an accept on a series whose standing decision is already an accept (or a carry of one) on the
-  same data fingerprint is refused: there is nothing to add;
+- an accept on a series whose standing decision is already an accept (or a carry of one) of the
+  same model on the same data fingerprint is refused: there is nothing to add (results fitted otherwise
+  on the same data may propose another model: accepting that one is a change of model);
 - ``revoke`` withdraws one's own standing decision — a /2 decision only by the OS user who made
   it, a /1 decision by its display name — and is refused when there is none;
 - ``supersedes`` must still be the series' latest record (else ``LedgerConflict``);
@@ -70,10 +71,10 @@ def check_latest(series: dict, supersedes: str | None, history: SeriesHistory | 
 def _check_action(entry: Entry, history: SeriesHistory | None, who: Identity) -> None:
     current = history.current if history else None
     if entry.action == "accept":
-        # an accept (or an accept carried) on the same data: nothing to add; an override carried may be
-        # replaced by the proposal like any override
+        # an accept (or an accept carried) of the same model on the same data: nothing to add; an override
+        # carried, or an accept of another fit's proposal, may be replaced by the proposal like any override
         if current and (history.decision or current)["action"] == "accept" and \
-                current["fingerprint"] == entry.fingerprint:
+                current["fingerprint"] == entry.fingerprint and current.get("model") == entry.model:
             raise LedgerError(f"{label(entry.series)}: already accepted on this data "
                               f"({what_happened(current)}); nothing to add")
     elif entry.action == "revoke" and own_standing(history, who.analyst, who.os_user) is None:

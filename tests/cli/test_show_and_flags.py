@@ -117,7 +117,7 @@ def test_show_prints_control_characters_harmlessly(tmp_path):
     out = tmp_path / "odd.json"
     assert run_cli("fit", str(data), "-o", str(out), "--quiet").returncode == 0
     done = run_cli("show", str(out))
-    assert "\x1b" not in done.stdout and "bad?[2Jname" in done.stdout
+    assert "\x1b" not in done.stdout and "bad\u241b[2Jname" in done.stdout
 
 
 def test_show_filters_a_parquet_results_file_as_it_reads_it(tmp_path, capsys):
@@ -171,3 +171,26 @@ def test_a_key_column_the_results_do_not_have_is_named(fitted, suffix):
     assert done.stderr.strip() == ("pricefold show: these results have no key column 'store'; their key columns: "
                                    "product, region")
     assert run_cli("show", str(path), "--key", "region=Atlantis").returncode == 1  # a value: no match, as before
+
+
+def test_names_that_differ_only_in_a_control_character_print_apart(tmp_path):
+    """``show``'s list and one series, and ``ledger show``, print ``line\\nbreak`` and ``line?break`` (and the
+    tab pair) each as its own text: line feed and tab as their control pictures, '?' as itself."""
+    import csv
+    twins = {"line\nbreak": "line\u240abreak", "line?break": "line?break", "tab\there": "tab\u2409here",
+             "tab?here": "tab?here"}
+    data, out, book = tmp_path / "twins.csv", tmp_path / "twins.json", tmp_path / "twins.ledger.jsonl"
+    with open(data, "w", newline="") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(["product", "price", "volume"])
+        writer.writerows([name, 1 + i % 7 / 10, 1000 - 100 * (i % 7) - i % 3] for name in twins for i in range(30))
+    assert run_cli("fit", str(data), "-o", str(out), "--quiet").returncode == 0
+    listed = run_cli("show", str(out)).stdout.splitlines()[1:]
+    assert sorted(line.split()[0] for line in listed) == sorted(twins.values()), listed
+    for name, shown in twins.items():
+        one = run_cli("show", str(out), "--product", name).stdout
+        assert one.startswith(f"{shown} — 30 observations"), one
+    accepted = run_cli("ledger", "accept-unflagged", str(out), "--ledger", str(book), "--analyst", "ana", "-q")
+    assert accepted.returncode == 0
+    lines = run_cli("ledger", "show", str(book)).stdout.splitlines()
+    assert sorted(line.split()[-1] for line in lines) == sorted(twins.values()), lines

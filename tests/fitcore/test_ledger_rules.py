@@ -100,6 +100,19 @@ def test_an_accept_standing_on_the_same_data_is_not_repeated(tmp_path):
     book.append([entry("a", fingerprint="f2", supersedes=after(book, "a"))], ANA)  # accept after an override
 
 
+def test_the_proposal_of_another_fit_may_replace_an_accept_on_the_same_data(tmp_path):
+    """Results fitted otherwise on the same data (another seed) may propose another model than the one accepted:
+    accepting that one is a change of model, not a repeat (it was refused as "already accepted")."""
+    path = tmp_path / "ledger.jsonl"
+    book = ledger.Ledger(path)
+    book.append([entry("a")], ANA, now=clock)
+    [second] = book.append([entry("a", model="poly4", supersedes=after(book, "a"))], BO)
+    assert second["model"] == "poly4"
+    assert book.histories[series_id({"product": "a"})].standing_model("f1") == "poly4"
+    error = unchanged(path, lambda: book.append([entry("a", model="poly4", supersedes=after(book, "a"))], ANA))
+    assert "already accepted on this data (bo accepted poly4 at " in str(error)
+
+
 def test_only_the_os_user_who_decided_withdraws_a_decision(tmp_path):
     path = tmp_path / "ledger.jsonl"
     book = ledger.Ledger(path)

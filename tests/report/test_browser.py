@@ -49,9 +49,10 @@ def test_the_rendered_page_reads_right(browser, opened, signed):
     assert row.split("\t")[:3] == ["lemons 500 g · East", "held", "none (held; proposal poly1)"] and "ask the buyer" in row
     assert f"{HOSTILE[0]} · North" in text  # literally, as text: never run
     keys = browser.evaluate(session, "[...document.querySelectorAll('#decisions-table td.key')].map(c => c.innerText)")
-    assert {"[/] [bold]x · North", "?[2J?]2;owned? wipe · North", f"{HOSTILE[0]} · North"} <= set(keys)
+    shown = "\u241b[2J\u241b]2;owned\u2407 wipe · North"  # escape and bell as their control pictures
+    assert {"[/] [bold]x · North", shown, f"{HOSTILE[0]} · North"} <= set(keys)
     assert "[red]not markup[/]" in text
-    assert "?[2J?]2;owned? wipe · North" in text and "\x1b" not in text
+    assert shown in text and "\x1b" not in text
     assert browser.evaluate(session, "window.__pwned === undefined && document.title.indexOf('owned') < 0")
     charts = browser.evaluate(session, "[...document.querySelectorAll('article.exception svg')]"
                                        ".map(s => s.getBoundingClientRect().width)")

@@ -31,7 +31,7 @@ from ..session import (
     TriageSession,
     describe,
 )
-from ..text import clean
+from ..text import clean, printable
 from ..widgets.evidence import EvidencePanel, predicts
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
@@ -156,7 +156,7 @@ class TriageScreen(Screen):
         try:
             changed = self.session.reload_ledger()
         except (OSError, PricefoldError) as exc:
-            self.notify(f"could not read the ledger: {clean(str(exc))}", severity="error", markup=False)
+            self.notify(f"could not read the ledger: {printable(str(exc))}", severity="error", markup=False)
             return
         said = self.session.key_columns.mismatch
         if said != self._keys_said:  # another analyst's records started (or joined) a set of key columns
@@ -185,8 +185,9 @@ class TriageScreen(Screen):
         if action in ("accept", "override", "nothing_to_override", "hold") and session.decided_on_newer(s):
             return False  # the ledger refuses them: the series is due a look in the newer results
         # Python booleans only: Textual hides a key for ``False`` itself, and numpy's False is not that
-        if action == "accept":  # not where it stands accepted on this data: the ledger would refuse it
-            return bool(results.chosen[s] >= 0) and session.status[s] != "accepted"
+        if action == "accept":  # not where the proposal stands accepted on this data: the ledger would refuse it
+            return bool(results.chosen[s] >= 0) and (session.status[s] != "accepted"
+                                                     or session.accepted_other(s) is not None)
         if action in ("override", "nothing_to_override"):
             others = bool(results.chosen[s] >= 0 and results.available[s].sum() >= 2)
             return others == (action == "override")
@@ -210,7 +211,7 @@ class TriageScreen(Screen):
                 kept = ("\n\nYour note is kept: the next note box on this series starts with it."
                         if self.session.writable else  # no note box will open: the note itself, to copy
                         f"\n\nNothing can be recorded now; your note was: {clean(note)}")
-            self.app.push_screen(MessageDialog(Text(f"Not recorded: {clean(str(exc))}{kept}", style="bold")))
+            self.app.push_screen(MessageDialog(Text(f"Not recorded: {printable(str(exc))}{kept}", style="bold")))
             self.refresh_all()  # the series as the ledger has it now
             return
         self._unsaid.pop(shown.sid, None)
@@ -374,7 +375,7 @@ class TriageScreen(Screen):
         try:
             self.session.decide(shown, "revoke")
         except PricefoldError as exc:
-            self.app.push_screen(MessageDialog(Text(f"Not revoked: {clean(str(exc))}", style="bold")))
+            self.app.push_screen(MessageDialog(Text(f"Not revoked: {printable(str(exc))}", style="bold")))
             self.refresh_all()
             return
         self.notify(f"Revoked your {what} on {self.session.label(s)}", markup=False, timeout=5)

@@ -161,12 +161,14 @@ def volume_window(inside: list[np.ndarray], everything: list[np.ndarray]) -> tup
 
 def curve_chart(results: Results, s: int, width: int, height: int, model: int, units: dict,
                 adjusted: bool = False, signed: dict | None = None, unobserved: str | None = None,
-                rival: int = -1) -> Text:
+                rival: int = -1, role: str = "override") -> Text:
     """Observations, the ``model`` standing (solid), the proposal or runner-up (dashed), its prediction band
     (dotted) and the plan price (a vertical line).  ``rival``: the candidate a raised near-tie flag names,
     drawn as the runner-up (so the chart shows the curve the flag's sentence speaks of; -1: none, the
-    lowest CV error after the proposal's is drawn).  ``adjusted``: with controls, each observation's volume
-    moved to the plan's control values under ``model`` (partial residuals), as the curves are drawn.
+    lowest CV error after the proposal's is drawn).  ``role``: what a ``model`` that is not the proposal is
+    (an override, or an accept of another fit's proposal on the same data).  ``adjusted``: with controls,
+    each observation's volume moved to the plan's control values under ``model`` (partial residuals), as the
+    curves are drawn.
     ``signed``: the snapshot of a curve signed on earlier data, drawn beside them (dash-dot), and the rows
     dated after its data's last date marked apart (×).  ``unobserved``: why the observations will not come,
     said where they would be drawn (else, without rows, that they are being read)."""
@@ -228,7 +230,7 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     else:
         legend.append("observations and band: reading the data …", "dim")
     if model >= 0:
-        legend.append(f"   ⠤⠤ {names[model]} ({'chosen' if model == chosen else 'override'})", _colour(STANDING))
+        legend.append(f"   ⠤⠤ {names[model]} ({'chosen' if model == chosen else role})", _colour(STANDING))
     if other >= 0:
         role = "proposed" if other == chosen else "near tie" if tied else "runner-up"
         legend.append(f"   -- {names[other]} ({role})", _colour(OTHER))

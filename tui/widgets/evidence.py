@@ -1,9 +1,10 @@
 """The evidence for one series: what stands and why, flags, plan, charts, candidates, ledger history.
 
 The words come first (they fit a small terminal), the charts after them.  Every number is of the
-model that now stands: the engine's proposal, or an analyst's override.  The title (which series,
-its status) is drawn as soon as the cursor lands; the rest once it rests, dimmed until then (and,
-for results read from a file, once their candidates' numbers are read, just after the list's).
+model that now stands: the engine's proposal, an analyst's override, or an accept of another fit's
+proposal on the same data.  The title (which series, its status) is drawn as soon as the cursor lands; the
+rest once it rests, dimmed until then (and, for results read from a file, once their candidates' numbers
+are read, just after the list's).
 """
 from __future__ import annotations
 
@@ -26,7 +27,7 @@ from fitcore.review.sentences import fmt, money, two_places
 from .. import engine
 from ..cells import cut, key_label, percent, wrapped
 from ..session import TriageSession, describe
-from ..text import clean
+from ..text import clean, printable
 from .charts import curve_chart, fold_chart
 
 SEVERITY_STYLE = {"stop": "#ff875f", "warn": "#d7af5f"}
@@ -169,7 +170,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if observed.rows_loaded or engine.loaded():
             self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
                                                    self.session.units, self.adjusted, self.signed_shown(s), unobserved,
-                                                   near_tie_rival(self.session, s)))
+                                                   near_tie_rival(self.session, s),
+                                                   "accepted" if self.session.accepted_other(s) else "override"))
         else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
             waiting = unobserved or "observations and band: reading the data …"
             self._part("curve").update(Text(f"curves: starting the engine …; {waiting}", style="dim"))
@@ -222,7 +224,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                 message = NEWER_DUE[0].upper() + NEWER_DUE[1:] + "."
             elif f["code"] == "shifted" and self.session.decided_on_newer(s):  # not this cycle's proposal
                 message = self.shift_words(s) or message
-            text.append(clean(message) + "\n")
+            text.append(printable(message) + "\n")
         return text
 
     def signed_shown(self, s: int) -> dict | None:
@@ -236,7 +238,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if said is None or "shifted" in self.session.flag_codes(s):  # the flag's sentence says it already
             return Text()
         text = Text("Since sign-off: ", style="bold")
-        text.append(clean(said) + "\n")
+        text.append(printable(said) + "\n")
         return text
 
     def shift_words(self, s: int) -> str | None:
@@ -261,9 +263,17 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if chosen >= 0:
             text.append(score_meaning(float(results.q2[s, chosen]), session.diagnosis.thresholds.weak_score) + ".\n")
         if model != chosen and model >= 0:
-            standing = session.decision(s)  # an override carried forward: the override's analyst and note
-            text.append(f"Overridden to {results.names[model]}", style="bold")
-            text.append(f" ({describe(standing)}): {clean(standing.get('note') or '')}\n")
+            standing = session.decision(s)  # a decision carried forward: its own analyst and note
+            other = session.accepted_other(s)
+            if other is not None:  # accepted as another fit's proposal on these same data
+                text.append(f"Accepted {results.names[model]}", style="bold")
+                text.append(f" ({describe(standing)}), the proposal of another fit of these data: these results "
+                            f"propose {other}. The numbers below are {results.names[model]}'s; look again if that "
+                            "changes the decision.")
+                text.append(f" {clean(standing['note'])}\n" if standing.get("note") else "\n")
+            else:
+                text.append(f"Overridden to {results.names[model]}", style="bold")
+                text.append(f" ({describe(standing)}): {clean(standing.get('note') or '')}\n")
             text.append(score_meaning(float(results.q2[s, model]), session.diagnosis.thresholds.weak_score) + ".\n")
             diagnosis = session.diagnosis
             from fitcore.review.candidate_checks import candidate_checks  # its curves: with the first override
@@ -296,6 +306,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         """Available candidates as a table; the others below it, each with its reason."""
         results = self.session.results
         model = self.session.model_of(s)
+        accepted = self.session.accepted_other(s) is not None
         table = Table(box=None, pad_edge=False, expand=False, show_edge=False, header_style="bold")
         controls = results.controls
         for name, justify in (("", "left"), ("candidate", "left"), ("CV MSE", "right"), ("± SE", "right"),
@@ -311,11 +322,12 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                 missing.add_row(Text(f"  {cand.name}:"), Text(why))
                 continue
             mark = "✓" if c == results.chosen[s] else ""
-            mark += "↺" if c == model and c != results.chosen[s] else ""
+            mark += ("•" if accepted else "↺") if c == model and c != results.chosen[s] else ""
             table.add_row(mark, cand.name, fmt(results.cv_mse[s, c]), fmt(results.cv_se[s, c]),
                           percent(results.q2[s, c]), percent(results.r2[s, c]),
                           *([self.control_effects(s, c)] if controls else []))
-        return Group(Text("Candidates (✓ proposed, ↺ override)", style="bold"), table,
+        legend = "Candidates (✓ proposed, • accepted)" if accepted else "Candidates (✓ proposed, ↺ override)"
+        return Group(Text(legend, style="bold"), table,
                      *([missing] if missing.row_count else []), Text(""))
 
     def control_effects(self, s: int, c: int) -> Text:

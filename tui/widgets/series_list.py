@@ -12,7 +12,7 @@ from textual.strip import Strip
 
 from fitcore.review.flags import SEVERITY
 
-from ..cells import key_label, longest_label, pad, percent
+from ..cells import cut, key_label, longest_label, pad, percent
 from ..session import STATUS_MARK, TriageSession, describe
 
 STOP = Style(color="#ff875f")
@@ -194,7 +194,11 @@ class SeriesList(ScrollView, can_focus=True):
             segments.append(Segment(pad(lead + describe(news, when=False), flags_w), NEWS))
         else:
             flag_style = STOP if severity == "stop" else WARN if severity else DIM
-            segments.append(Segment(pad(short_flags(session.flag_codes(s), flags_w) or "—", flags_w), flag_style))
+            other = session.accepted_other(s)  # an accept of another model: the flags are this proposal's
+            lead = cut(f"proposes {other} ", flags_w) if other is not None else ""
+            rest = flags_w - cell_len(lead)
+            segments += [Segment(lead, WARN), Segment(pad(short_flags(session.flag_codes(s), rest)
+                                                          or ("" if lead else "—"), rest), flag_style)]
         return Strip(segments).crop(0, width).extend_cell_length(width)
 
     def on_focus(self) -> None:

@@ -11,7 +11,7 @@ from rich.text import Text
 
 from ..cells import cut
 from ..listing import FILTER_TITLES, SORT_TITLES
-from ..text import clean
+from ..text import clean, printable
 
 TITLE = "pricefold triage"
 WHO_KEEPS = 8  # cells of the analyst's name kept at least beside the title; with less room the title goes
@@ -39,7 +39,7 @@ def status_text(session, width: int) -> Text:
     in bold when the ledger is broken or unverifiable (the screen is then read-only)."""
     text = _counts_lines(session, width)
     if not session.writable:
-        said = f"READ-ONLY: {clean(session.read_only_why)}; nothing can be recorded"
+        said = f"READ-ONLY: {printable(session.read_only_why)}; nothing can be recorded"
         text.append("\n" + cut(said, width), style="bold reverse")
     elif session.book.notes:  # an interrupted append: said before any decision, whole (wrapped), until moved
         text.append("\n" + cut_off_text(session.book), style="bold")
@@ -64,8 +64,8 @@ def elsewhere_text(session) -> str | None:
     if session.elsewhere is None:
         return None
     if session.results.rows_loaded:
-        return f"{clean(session.elsewhere)}; backtested again here, against {clean(session.ledger_path.name)}"
-    return f"{clean(session.elsewhere)}; its backtest and 'shifted' flags are left out"
+        return f"{printable(session.elsewhere)}; backtested again here, against {clean(session.ledger_path.name)}"
+    return f"{printable(session.elsewhere)}; its backtest and 'shifted' flags are left out"
 
 
 SIDE_FILE = "the next append moves it to a side file"  # how the reader's notes end (fitcore.ledger.reader)
@@ -75,7 +75,7 @@ def cut_off_text(book) -> str:
     """'K.jsonl's last append was cut off: line 2: incomplete batch (…), not counted; the next decision moves it
     to K.jsonl.torn-<UTC time>' — the reader's own words (as every command prints them), for the screen."""
     name = clean(book.path.name)
-    notes = "; ".join(clean(str(note)).replace(SIDE_FILE, "").rstrip("; ") for note in book.notes)
+    notes = "; ".join(printable(str(note)).replace(SIDE_FILE, "").rstrip("; ") for note in book.notes)
     return f"{name}'s last append was cut off: {notes}; the next decision moves it to {name}.torn-<UTC time>"
 
 

@@ -1,0 +1,75 @@
+"""An accept made on another fit of the same data (``tests.cli.test_accept_of_another_fit``), on the triage
+screen: the list row, the evidence's words and plan line, the candidate table and the chart give the accepted
+model, as for an override, and say that these results propose another one.  The plan numbers are checked
+against statsmodels OLS ``get_prediction`` of the straight line on the series' rows."""
+from __future__ import annotations
+
+import re
+
+import pytest
+
+from fitcore.results.source import source_from_results
+from tests.cli.test_accept_of_another_fit import accepted_on_another_fit, line_at_plan
+from tests.tui.conftest import make_app, on_series, screen_text
+from tui.widgets.evidence import EvidencePanel
+
+
+@pytest.fixture(scope="module")
+def other_fit(tmp_path_factory):
+    return accepted_on_another_fit(tmp_path_factory.mktemp("other-fit-screen"))
+
+
+async def test_the_screen_shows_the_accepted_model_and_names_the_proposal(other_fit):
+    book, results, key, proposal = other_fit
+    app = make_app(book, source_from_results(results))
+    async with app.run_test(size=(160, 50)) as pilot:
+        s = await on_series(app, pilot, key)
+        session = app.session
+        names = session.results.names
+        assert session.status[s] == "accepted" and names[int(session.results.chosen[s])] == proposal
+        assert names[session.model_of(s)] == "poly1"
+        await pilot.pause(0.5)
+        text = screen_text(app)
+        row = next(line for line in text.splitlines() if "South" in line and "obs" not in line and "✓" in line)
+        assert re.search(rf" poly1 +\d+%  proposes {proposal} !rising", row), row
+        words = " ".join(line.split("▕")[-1].strip() for line in text.splitlines())  # the evidence, unwrapped
+        assert re.search(rf"Accepted poly1 \(ana .*accepted poly1 at [^)]*\), the proposal of another fit of these "
+                         rf"data: these results propose {proposal}\. The numbers below are poly1's", words), words
+        reference = line_at_plan(key["product"], key["region"])
+        said = re.search(r"poly1 predicts volume ([\d,.]+) \(95% PI ([\d,.]+) to ([\d,.]+)\), elasticity (-?\d+\.\d+)",
+                         text)
+        assert said is not None, text
+        volume, lo, hi, elasticity = (float(x.replace(",", "")) for x in said.groups())
+        assert volume == pytest.approx(reference["volume"], rel=1e-3)
+        assert lo == pytest.approx(reference["lo"], rel=1e-3) and hi == pytest.approx(reference["hi"], rel=1e-3)
+        assert elasticity == pytest.approx(reference["elasticity"], abs=0.006)
+        assert f"{proposal} predicts" not in text
+        panel = app.screen.query_one(EvidencePanel)
+        chart = panel.query_one("#ev-curve").render()
+        legend = str(getattr(chart, "plain", chart))
+        assert "poly1 (accepted)" in legend and f"{proposal} (proposed)" in legend
+
+
+async def test_the_proposal_of_these_results_may_be_accepted_after_a_look(other_fit, tmp_path):
+    """``a`` was hidden (the series "stands accepted") and the override dialog cannot pick the proposal: the
+    analyst who looked again had no way to sign these results' proposal.  Now ``a`` accepts it (past its stop
+    flag, with a note), and the row shows it with nothing more to say."""
+    from fitcore import ledger
+    book, results, key, proposal = other_fit
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    app = make_app(copy, source_from_results(results))
+    async with app.run_test(size=(160, 50)) as pilot:
+        s = await on_series(app, pilot, key)
+        assert "a accept" in screen_text(app).splitlines()[-1]
+        await pilot.press("a")
+        await pilot.pause(0.3)
+        for key_pressed in "seed 1 bends":
+            await pilot.press("space" if key_pressed == " " else key_pressed)
+        await pilot.press("enter")
+        await pilot.pause(0.3)
+        written = ledger.Ledger(copy).records[-1]
+        assert written["action"] == "accept" and written["model"] == proposal and written["series"] == key
+        session = app.session
+        assert session.status[s] == "accepted" and session.accepted_other(s) is None
+        assert session.results.names[session.model_of(s)] == proposal
