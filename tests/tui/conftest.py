@@ -79,3 +79,16 @@ def csv_source(path: Path, header: list[str], rows, columns) -> Source:
         writer.writerow(header)
         writer.writerows(rows)
     return Source(data=path, columns=columns)
+
+
+def assert_prediction_on_screen(text: str, model: str, reference: dict) -> None:
+    """The screen's "MODEL predicts volume V (95% PI LO to HI), elasticity E" equals ``reference`` (a reference
+    library's prediction: volume, lo, hi, elasticity) to the digits shown."""
+    import re
+    said = re.search(rf"{model} predicts volume ([\d,.]+) \(95% PI ([\d,.]+) to ([\d,.]+)\), elasticity (-?\d+\.\d+)",
+                     text)
+    assert said is not None, text
+    volume, lo, hi, elasticity = (float(x.replace(",", "")) for x in said.groups())
+    assert volume == pytest.approx(reference["volume"], rel=1e-3)
+    assert lo == pytest.approx(reference["lo"], rel=1e-3) and hi == pytest.approx(reference["hi"], rel=1e-3)
+    assert elasticity == pytest.approx(reference["elasticity"], abs=0.006)

@@ -10,7 +10,7 @@ import pytest
 
 from fitcore.results.source import source_from_results
 from tests.cli.test_accept_of_another_fit import accepted_on_another_fit, line_at_plan
-from tests.tui.conftest import make_app, on_series, screen_text
+from tests.tui.conftest import assert_prediction_on_screen, make_app, on_series, screen_text
 from tui.widgets.evidence import EvidencePanel
 
 
@@ -36,13 +36,7 @@ async def test_the_screen_shows_the_accepted_model_and_names_the_proposal(other_
         assert re.search(rf"Accepted poly1 \(ana .*accepted poly1 at [^)]*\), the proposal of another fit of these "
                          rf"data: these results propose {proposal}\. The numbers below are poly1's", words), words
         reference = line_at_plan(key["product"], key["region"])
-        said = re.search(r"poly1 predicts volume ([\d,.]+) \(95% PI ([\d,.]+) to ([\d,.]+)\), elasticity (-?\d+\.\d+)",
-                         text)
-        assert said is not None, text
-        volume, lo, hi, elasticity = (float(x.replace(",", "")) for x in said.groups())
-        assert volume == pytest.approx(reference["volume"], rel=1e-3)
-        assert lo == pytest.approx(reference["lo"], rel=1e-3) and hi == pytest.approx(reference["hi"], rel=1e-3)
-        assert elasticity == pytest.approx(reference["elasticity"], abs=0.006)
+        assert_prediction_on_screen(text, "poly1", reference)
         assert f"{proposal} predicts" not in text
         panel = app.screen.query_one(EvidencePanel)
         chart = panel.query_one("#ev-curve").render()

@@ -11,7 +11,7 @@ import pytest
 from fitcore import ledger
 from fitcore.results.source import source_from_results
 from tests.cli.test_carried_override import NOTE, carried_override, quadratic_at_plan
-from tests.tui.conftest import make_app, screen_text, started
+from tests.tui.conftest import assert_prediction_on_screen, make_app, screen_text, started
 from tui.widgets.evidence import EvidencePanel
 
 
@@ -47,13 +47,7 @@ async def test_a_carried_override_shows_its_own_curve(carried, tmp_path):
         assert row.lstrip().startswith("↺") and " poly2 " in row
         assert "overridden 1" in text and "status overridden: bo" in text
         reference = quadratic_at_plan(data, key["product"])  # statsmodels OLS get_prediction
-        said = re.search(r"poly2 predicts volume ([\d,.]+) \(95% PI ([\d,.]+) to ([\d,.]+)\), elasticity (-?\d+\.\d+)",
-                         text)
-        assert said is not None, text
-        volume, lo, hi, elasticity = (float(x.replace(",", "")) for x in said.groups())
-        assert volume == pytest.approx(reference["volume"], rel=1e-3)
-        assert lo == pytest.approx(reference["lo"], rel=1e-3) and hi == pytest.approx(reference["hi"], rel=1e-3)
-        assert elasticity == pytest.approx(reference["elasticity"], abs=0.006)
+        assert_prediction_on_screen(text, "poly2", reference)
         assert "Overridden to poly2" in text and NOTE in text  # the override's own words, carried with it
         table = _plain(app.screen.query_one(EvidencePanel).candidate_table(s))  # below the charts: off screen
         assert re.search(r"✓\s+poly1", table) and re.search(r"↺\s+poly2", table)  # proposal; the model that stands
