@@ -554,8 +554,9 @@ def _carry(args) -> int:
     if not args.quiet:
         already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
         rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"
-        print(f"carried {len(written):,} signed series to the new data → {args.ledger}"
-              + (f" ({already:,} carried already)" if already else ""), file=sys.stderr)
+        carried = (f"carried {len(written):,} signed series to the new data → {args.ledger}" if written
+                   else f"carried no series: nothing written to {args.ledger}")  # not "→ L" when L is as it was
+        print(carried + (f" ({already:,} carried already)" if already else ""), file=sys.stderr)
         print(f"left for a human: {sum(left.values()):,} ({rest})", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0

@@ -274,8 +274,10 @@ def test_a_model_signed_under_other_controls_is_not_carried(tmp_path, capsys):
     second = {r["key"]["product"]: r for r in json.loads((tmp_path / "r2.json").read_text())["series"]}
     assert {second[p]["backtest"]["status"] for p in signed} == {"controls-changed"}
     capsys.readouterr()
+    before = book.read_bytes()
     assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(book)]) == 0
-    assert "carried 0 signed series" in capsys.readouterr().err
+    assert f"carried no series: nothing written to {book}" in capsys.readouterr().err  # not "carried 0 … → L"
+    assert book.read_bytes() == before
 
     # Signed with promo held fixed, the next fit with promo again is the same model: tested and carried.
     book2 = tmp_path / "ledger2.jsonl"
