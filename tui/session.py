@@ -148,6 +148,8 @@ class TriageSession(ListState):
         self.key_columns.see(touched.values())
         unknown = [sid for sid in touched if sid not in self._known]
         self._known.update(zip(unknown, self._key_table.indices_of([touched[sid] for sid in unknown])))  # ints
+        if records or force:
+            self._share_check()
         changed = {self._known[sid]: sid for sid in touched if self._known[sid] >= 0}
         set_statuses(self.status, self.status_code, changed, self.histories, self.results.data)
         changed = set(changed)
@@ -163,6 +165,14 @@ class TriageSession(ListState):
                 self._flagged = self.diagnosis.raised.any(axis=1)
             self.rebuild_view(pin=pin)
         return changed
+
+    def _share_check(self) -> None:
+        """Whether any of the ledger's series is in these results (the first one found ends the look; only when
+        none is, its series keyed by the results' columns are counted, for ``key_columns.unshared``)."""
+        shared = self.key_columns.mismatch is not None or any(self._known.get(sid, -1) >= 0 for sid in self.histories)
+        columns = set(self.key_columns.columns)
+        same = 0 if shared else sum(h.records[-1]["series"].keys() == columns for h in self.histories.values())
+        self.key_columns.share(shared, same)
 
     def upgrade(self, results: Results, diagnosis: Diagnosis) -> bool:
         """Swap in a fit of the data for results read back from a file (observations, bands).
@@ -421,7 +431,7 @@ class TriageSession(ListState):
         self.reload_ledger(pin="waits")
         if not self.writable:
             raise Refused(f"{self.read_only_why}: nothing can be recorded")
-        self._check_keys(self.key_columns.mismatch)
+        self._check_keys(self.key_columns.said)
         s = self.index_of(shown)
         if s < 0:
             raise Refused("this series is no longer in the results")

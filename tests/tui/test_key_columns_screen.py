@@ -129,3 +129,39 @@ def test_a_new_key_set_appended_just_before_the_write_is_refused_under_the_lock(
     with pytest.raises(Refused, match="by product, region .*confirm it first$"):
         session.decide(shown, "hold")
     assert ledger_path.read_bytes() == before
+
+
+async def test_results_keyed_alike_that_share_no_series_are_said_and_the_first_decision_asks(ledger_path, tmp_path):
+    """The sample's region values lower-cased: keyed by the ledger's columns, yet not one of its 155 series is in
+    these results.  Before, the header said nothing and 'h' went straight to the note box (a new set of series,
+    silently); now the header says it and the first decision asks, as for other key columns."""
+    import csv
+    signed_by_region(ledger_path)
+    before = ledger_path.read_bytes()
+    with open(SAMPLE / "wholesale.csv", newline="") as src, open(tmp_path / "lower.csv", "w", newline="") as out:
+        rows = csv.DictReader(src)
+        write = csv.DictWriter(out, rows.fieldnames)
+        write.writeheader()
+        write.writerows({**row, "region": row["region"].lower()} for row in rows)
+    respelled = Source(data=tmp_path / "lower.csv", columns=Columns(segments=("region",), date="week"))
+    app = make_app(ledger_path, respelled)
+    async with app.run_test(size=(100, 30)) as pilot:
+        session = await started(app, pilot)
+        assert session.counts()["pending"] == session.results.n_series
+        unshared = ("No series shared: none of the 155 series in ledger.jsonl is in these results (the same key "
+                    "columns, other values); every series reads as pending")
+        assert unshared in words(app)
+        await pilot.press("h")
+        await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
+        assert "Yes: start a new set of series in ledger.jsonl" in words(app)
+        await pilot.press("escape")
+        await until(pilot, lambda: not isinstance(app.screen, ChoiceDialog))
+        assert not isinstance(app.screen, TextDialog) and ledger_path.read_bytes() == before
+        await pilot.press("h")
+        await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
+        await pilot.press("up", "enter")  # Yes
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        await pilot.press("enter")  # a hold needs no note
+        await until(pilot, lambda: len(series_of(ledger_path)) == 156)
+        assert series_of(ledger_path)[-1]["region"].islower()
+        await until(pilot, lambda: "No series shared" not in words(app))  # one is shared now: asked once

@@ -35,7 +35,7 @@ from ..text import clean, printable
 from ..widgets.evidence import EvidencePanel, predicts
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import keys_text, status_text
+from ..widgets.status_line import keys_lead, keys_text, status_text
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
@@ -144,7 +144,7 @@ class TriageScreen(Screen):
         text = status_text(self.session, max(self.size.width - 2, 20))
         lines = text.plain.count("\n")
         line.update(text, layout=lines != self._status_lines)
-        self._status_lines, self._keys_said = lines, self.session.key_columns.mismatch
+        self._status_lines, self._keys_said = lines, self.session.key_columns.said
 
     def refresh_all(self) -> None:
         self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow
@@ -158,7 +158,7 @@ class TriageScreen(Screen):
         except (OSError, PricefoldError) as exc:
             self.notify(f"could not read the ledger: {printable(str(exc))}", severity="error", markup=False)
             return
-        said = self.session.key_columns.mismatch
+        said = self.session.key_columns.said
         if said != self._keys_said:  # another analyst's records started (or joined) a set of key columns
             self.update_status()
             if said is not None:
@@ -286,9 +286,10 @@ class TriageScreen(Screen):
                         severity="warning", timeout=8, markup=False)
 
     def new_key_set(self, then) -> None:
-        """``then()`` — at once, or, where the results' key columns name none of the ledger's series and the analyst
-        has not confirmed it yet this session, after a dialog naming both sets says a decision starts a new set
-        of series in the ledger and the analyst confirms (Esc or "No" cancels: nothing is written)."""
+        """``then()`` — at once, or, where the results name none of the ledger's series (by other key columns, or
+        by other values of the same ones) and the analyst has not confirmed it yet this session, after a dialog
+        saying why, and that a decision starts a new set of series in the ledger, and the analyst confirms (Esc or
+        "No" cancels: nothing is written)."""
         said = self.session.key_columns.unconfirmed
         if said is None:
             then()
@@ -301,9 +302,10 @@ class TriageScreen(Screen):
                 self.session.key_columns.confirmed = said  # ``decide`` refuses if the ledger moved on meanwhile
                 then()
         self.app.push_screen(ChoiceDialog(
-            f"Key columns differ: {said}. A decision here starts a new set of series in {name} (a second data "
-            "set beside its own): is that what you mean?",
-            [("confirm", f"Yes: decide on series keyed by {columns} in {name}"),
+            f"{keys_lead(self.session.key_columns)}: {said}. A decision here starts a new set of series in {name} "
+            "(a second data set beside its own): is that what you mean?",
+            [("confirm", f"Yes: decide on series keyed by {columns} in {name}" if self.session.key_columns.mismatch
+              else f"Yes: start a new set of series in {name}"),
              ("cancel", "No: record nothing (Esc)")], "cancel"), answered)
 
     def action_accept(self) -> None:

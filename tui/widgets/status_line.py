@@ -52,10 +52,16 @@ def status_text(session, width: int) -> Text:
 def keys_text(key_columns) -> str | None:
     """'Key columns differ: series keyed by product, but those in L.jsonl by product, region (…); …' — the one
     check where results meet a ledger (``fitcore.ledger.key_columns.mismatch``), for the screen."""
-    said = key_columns.mismatch
+    said = key_columns.said
     if said is None:
         return None
-    return f"Key columns differ: {said}; every series reads as pending; a decision starts a new set of series there (asked first)"
+    return (f"{keys_lead(key_columns)}: {said}; every series reads as pending; a decision starts a new set of "
+            "series there (asked first)")
+
+
+def keys_lead(key_columns) -> str:
+    """What ``key_columns.said`` is about, in two or three words."""
+    return "Key columns differ" if key_columns.mismatch else "No series shared"
 
 
 def elsewhere_text(session) -> str | None:
