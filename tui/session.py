@@ -332,12 +332,21 @@ class TriageSession(ListState):
 
     def accepted_other(self, s: int) -> str | None:
         """The proposal of these results where an accept of another model stands on series ``s`` (accepted as
-        the proposal of results fitted otherwise on the same data), else None: the screen says so, since the
-        flags and the proposal's words are these results' own."""
+        the proposal of results fitted otherwise on the same data, perhaps a candidate these did not fit), else
+        None: the screen says so, since the flags and the proposal's words are these results' own."""
         chosen, model = int(self.results.chosen[s]), self.model_of(s)
-        if model == chosen or self.status[s] != "accepted":
+        if self.status[s] != "accepted" or (model == chosen and self.standing_absent(s) is None):
             return None
         return self.results.names[chosen] if chosen >= 0 else "nothing"
+
+    def standing_absent(self, s: int) -> str | None:
+        """The model an accept or override on these data made stand for series ``s``, where these results did
+        not fit it (``--no-loglog``, fewer degrees): ``model_of`` falls back to the proposal, whose numbers the
+        screen then shows, saying so; None where the standing model is here, or none stands."""
+        if self.status[s] not in ("accepted", "overridden"):
+            return None
+        name = self.histories[self._id(s)].standing_model(self.results.data.fingerprint_of(s))
+        return name if name is not None and name not in self.results.names else None
 
     def listed_model(self, s: int) -> tuple[str, float]:
         """The list's model and score for series ``s``: the model signed wherever an accept or override stands

@@ -230,7 +230,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
     def signed_shown(self, s: int) -> dict | None:
         """The signed model to draw beside this cycle's: that of a decision standing on other data."""
         standing = self.session.standing(s)
-        return standing.get("signed") if standing is not None and self.session.status[s] == "stale" else None
+        drawn = self.session.status[s] == "stale" or self.session.standing_absent(s) is not None  # not among these
+        return standing.get("signed") if standing is not None and drawn else None
 
     def since_text(self, s: int) -> Text:
         """Since sign-off: the signed curve on the rows since and this cycle's proposal beside it, in numbers."""
@@ -262,6 +263,14 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         text = Text(f"Proposed {name or 'nothing'} ({rule}): {why_chosen(scored, name, rule)}.\n")
         if chosen >= 0:
             text.append(score_meaning(float(results.q2[s, chosen]), session.diagnosis.thresholds.weak_score) + ".\n")
+        absent = session.standing_absent(s)
+        if absent is not None:  # the model signed is not among these results' candidates: nothing of it to show
+            standing = session.decision(s)
+            done = {"accept": "Accepted", "override": "Overridden to"}.get(standing["action"], "Signed")
+            text.append(f"{done} {clean(absent)}", style="bold")
+            text.append(f" ({describe(standing)}), which these results did not fit: its numbers are not here "
+                        f"(ledger export gives them as signed; ++ on the chart). The numbers below are "
+                        f"{name or 'nothing'}'s, these results' proposal; look again.\n", style=SEVERITY_STYLE["warn"])
         if model != chosen and model >= 0:
             standing = session.decision(s)  # a decision carried forward: its own analyst and note
             other = session.accepted_other(s)
