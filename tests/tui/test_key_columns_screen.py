@@ -41,6 +41,16 @@ def series_of(path: Path) -> list[dict]:
     return [json.loads(line)["series"] for line in path.read_text().splitlines()]
 
 
+async def held_after_yes(app, pilot, ledger_path: Path) -> None:
+    """'h', "Yes" in the dialog, the hold (no note needed): the 156th record written."""
+    await pilot.press("h")
+    await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
+    await pilot.press("up", "enter")  # Yes
+    await until(pilot, lambda: isinstance(app.screen, TextDialog))
+    await pilot.press("enter")  # a hold needs no note
+    await until(pilot, lambda: len(series_of(ledger_path)) == 156)
+
+
 async def test_other_key_columns_are_said_and_the_first_decision_asks_naming_both(ledger_path):
     """Before: every product took a region's decisions (58 stale) and 'h' went straight to the note box."""
     signed_by_region(ledger_path)
@@ -64,12 +74,7 @@ async def test_other_key_columns_are_said_and_the_first_decision_asks_naming_bot
             await pilot.press(*cancel)
             await until(pilot, lambda: not isinstance(app.screen, ChoiceDialog))
             assert not isinstance(app.screen, TextDialog) and ledger_path.read_bytes() == before
-        await pilot.press("h")
-        await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
-        await pilot.press("up", "enter")  # Yes
-        await until(pilot, lambda: isinstance(app.screen, TextDialog))
-        await pilot.press("enter")  # a hold needs no note
-        await until(pilot, lambda: len(series_of(ledger_path)) == 156)
+        await held_after_yes(app, pilot, ledger_path)
         assert series_of(ledger_path)[-1].keys() == {"product"}
         # the ledger now holds both sets: these results are keyed as one of them, and nothing more is asked
         await until(pilot, lambda: "Key columns differ" not in words(app))
@@ -157,11 +162,6 @@ async def test_results_keyed_alike_that_share_no_series_are_said_and_the_first_d
         await pilot.press("escape")
         await until(pilot, lambda: not isinstance(app.screen, ChoiceDialog))
         assert not isinstance(app.screen, TextDialog) and ledger_path.read_bytes() == before
-        await pilot.press("h")
-        await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
-        await pilot.press("up", "enter")  # Yes
-        await until(pilot, lambda: isinstance(app.screen, TextDialog))
-        await pilot.press("enter")  # a hold needs no note
-        await until(pilot, lambda: len(series_of(ledger_path)) == 156)
+        await held_after_yes(app, pilot, ledger_path)
         assert series_of(ledger_path)[-1]["region"].islower()
         await until(pilot, lambda: "No series shared" not in words(app))  # one is shared now: asked once
