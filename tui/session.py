@@ -321,31 +321,38 @@ class TriageSession(ListState):
         history = self.histories.get(self._id(s))
         return history.decision if history else None
 
+    def _standing_name(self, s: int) -> str | None:
+        """The name of the model an accept or override standing on series ``s``'s current data made stand (made
+        on them or carried to them; ``SeriesHistory.standing_model``); None where none stands."""
+        if self.status[s] not in ("accepted", "overridden"):  # else none stands on these data: skip the lookup
+            return None
+        return self.histories[self._id(s)].standing_model(self.results.data.fingerprint_of(s))
+
     def model_of(self, s: int) -> int:
-        """The candidate that now stands for series ``s``: an accept's or override's on the current data (made
-        on them or carried to them; ``SeriesHistory.standing_model``), else the proposal."""
-        if self.status[s] in ("accepted", "overridden"):  # else none stands on these data: skip the lookup
-            name = self.histories[self._id(s)].standing_model(self.results.data.fingerprint_of(s))
-            if name in self.results.names:
-                return self.results.names.index(name)
+        """The candidate that now stands for series ``s``: an accept's or override's on the current data, else
+        the proposal (also where these results did not fit the standing model: ``standing_absent``)."""
+        name = self._standing_name(s)
+        if name in self.results.names:
+            return self.results.names.index(name)
         return int(self.results.chosen[s])
 
     def accepted_other(self, s: int) -> str | None:
         """The proposal of these results where an accept of another model stands on series ``s`` (accepted as
         the proposal of results fitted otherwise on the same data, perhaps a candidate these did not fit), else
         None: the screen says so, since the flags and the proposal's words are these results' own."""
-        chosen, model = int(self.results.chosen[s]), self.model_of(s)
-        if self.status[s] != "accepted" or (model == chosen and self.standing_absent(s) is None):
+        if self.status[s] != "accepted":
             return None
-        return self.results.names[chosen] if chosen >= 0 else "nothing"
+        name, chosen = self._standing_name(s), int(self.results.chosen[s])
+        proposal = self.results.names[chosen] if chosen >= 0 else None
+        if name is None or name == proposal:
+            return None
+        return proposal or "nothing"
 
     def standing_absent(self, s: int) -> str | None:
         """The model an accept or override on these data made stand for series ``s``, where these results did
         not fit it (``--no-loglog``, fewer degrees): ``model_of`` falls back to the proposal, whose numbers the
         screen then shows, saying so; None where the standing model is here, or none stands."""
-        if self.status[s] not in ("accepted", "overridden"):
-            return None
-        name = self.histories[self._id(s)].standing_model(self.results.data.fingerprint_of(s))
+        name = self._standing_name(s)
         return name if name is not None and name not in self.results.names else None
 
     def listed_model(self, s: int) -> tuple[str, float]:
