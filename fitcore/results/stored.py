@@ -14,9 +14,8 @@ from functools import cached_property, lru_cache
 from pathlib import Path
 
 import numpy as np
-import orjson
 
-from ..arrays import integers, numbers, objects
+from ..arrays import numbers
 from ..data.dataset import Dataset
 from ..errors import DataError, first_line
 from ..fit import reasons
@@ -31,6 +30,9 @@ from .control_fields import CONTROL_COLUMNS, stored_controls
 from .later import LaterColumns, Waiting
 from .read import CYCLE_COLUMNS, read_header, result_parts
 from .series_columns import check_candidate_rows
+from .stored_columns import (CellColumn, StoredCovariances, Unknown, column_values, per_series,
+                             per_series_text)
+from .stored_flags import raised_flags
 
 # The columns triage reads (besides the key columns); the plain-unit coefficients are not among them.
 # ``stored_results(later=True)`` reads only ``LISTED`` (what the list and the evidence's title show) before
@@ -58,53 +60,6 @@ class StoredDataset(Dataset):
 
     def key_of(self, s: int) -> dict[str, str]:
         return {name: self.keys[name][s].as_py() for name in self.key_names}
-
-
-class CellColumn:
-    """(S, C) or (S, C, P) values of a per-candidate column, read from the Arrow table one series at a time.
-
-    ``column[s]``, ``column[s, c]``, ``column[s, cs]``, ``column[s, c, :k]`` read series ``s``'s cells only;
-    any other index (or ``np.asarray(column)``) reads the whole column.  So opening millions of series
-    converts nothing per candidate until a series is looked at.
-    """
-
-    def __init__(self, column, n_s: int, n_c: int, width: int | None = None) -> None:
-        self.column, self.n_c, self.width = column, n_c, width
-        self.shape = (n_s, n_c) if width is None else (n_s, n_c, width)
-
-    def __len__(self) -> int:
-        return self.shape[0]
-
-    def _block(self, s: int) -> np.ndarray:
-        part = self.column.slice(s * self.n_c, self.n_c).combine_chunks()
-        if self.width is not None:
-            part = part.flatten()
-        return numbers(part).astype(np.float64, copy=False).reshape(self.shape[1:])
-
-    def __getitem__(self, index):
-        s, rest = (index[0], index[1:]) if isinstance(index, tuple) else (index, ())
-        if isinstance(s, (int, np.integer)) and 0 <= s < self.shape[0]:
-            block = self._block(int(s))
-            return block[rest] if rest else block
-        return np.asarray(self)[index]
-
-    def __array__(self, dtype=None, copy=None):
-        values = numbers(self.column.combine_chunks().flatten() if self.width is not None
-                         else self.column.combine_chunks()).astype(np.float64, copy=False).reshape(self.shape)
-        return values if dtype is None else values.astype(dtype)
-
-
-class Unknown:
-    """(S, C) values a results file does not hold: NaN wherever read."""
-
-    def __init__(self, shape) -> None:
-        self.shape = shape
-
-    def __getitem__(self, index):
-        return np.nan
-
-    def __array__(self, dtype=None, copy=None):
-        return np.full(self.shape, np.nan, dtype=dtype)
 
 
 @dataclass(frozen=True, eq=False)
@@ -237,23 +192,23 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
     def cells(name):
         return CellColumn(column(name), n_s, n_c)
 
-    def per_series(name):  # one value a series: that of its first row (every candidate's row holds it)
-        return np.ascontiguousarray(_column(column(name))[::max(n_c, 1)])
+    def series_values(name):  # one value a series: that of its first row (every candidate's row holds it)
+        return np.ascontiguousarray(column_values(column(name))[::max(n_c, 1)])
 
-    def per_series_text(name):  # Arrow text, decoded from its dictionary
-        return _per_series_text(table.column(name), n_c)
+    def series_texts(name):  # Arrow text, decoded from its dictionary
+        return per_series_text(table.column(name), n_c)
 
     def soon(make):  # made now, or where first used once its columns are read
         return Waiting(make) if late is not None else make()
 
     key_names = tuple(meta["key_columns"])
-    counts = per_series("n").astype(np.int64)
-    data = StoredDataset(key_names, {k: per_series_text(k) for k in key_names},
+    counts = series_values("n").astype(np.int64)
+    data = StoredDataset(key_names, {k: series_texts(k) for k in key_names},
                          np.concatenate(([0], np.cumsum(counts))).astype(np.int64), np.zeros(0), np.zeros(0),
-                         source=dict(meta.get("input", {})), stored_fingerprints=per_series_text("fingerprint"))
-    lo, hi = per_series("price_lo").astype(float, copy=False), per_series("price_hi").astype(float, copy=False)
+                         source=dict(meta.get("input", {})), stored_fingerprints=series_texts("fingerprint"))
+    lo, hi = series_values("price_lo").astype(float, copy=False), series_values("price_hi").astype(float, copy=False)
     mid, half = window(lo, hi)
-    available = _column(table.column("available")).astype(bool).reshape(n_s, n_c)
+    available = column_values(table.column("available")).astype(bool).reshape(n_s, n_c)
 
     @lru_cache(maxsize=None)
     def windows():  # each candidate's window (mid, half), where it was fitted
@@ -262,14 +217,14 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
             for c in range(cols.start, cols.stop):
                 basis_mid[:, c], basis_half[:, c] = family.window_of(lo, hi, available[:, c])
         return basis_mid, basis_half
-    is_chosen = _column(table.column("is_chosen")).astype(bool).reshape(n_s, n_c)
+    is_chosen = column_values(table.column("is_chosen")).astype(bool).reshape(n_s, n_c)
     chosen = np.where(is_chosen.any(axis=1), is_chosen.argmax(axis=1), -1)
     n_folds = fold_scheme(settings).error_counts(counts)
     fold_start = np.concatenate(([0], np.cumsum(n_folds))).astype(np.int64)
     smeared = np.array([lineup.family_of(c).smeared for c in range(n_c)], dtype=bool)
 
     def smear():
-        values = _column(column("smearing")).astype(float, copy=False).reshape(n_s, n_c)
+        values = column_values(column("smearing")).astype(float, copy=False).reshape(n_s, n_c)
         return np.where(smeared, np.where(np.isfinite(values), values, 1.0), np.nan)
     unknown = Unknown((n_s, n_c))  # residual variance and degrees of freedom need the rows
     results = StoredResults(
@@ -280,17 +235,17 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         fold_err=np.zeros((0, n_c)), fold_start=fold_start, price_lo=lo, price_hi=hi, mid=mid, half=half,
         basis_mid=soon(lambda: windows()[0]), basis_half=soon(lambda: windows()[1]), smear=soon(smear),
         sigma2=unknown, df=unknown, coef=CellColumn(column("window_coef"), n_s, n_c, lineup.width),
-        chosen=chosen, plan_price=soon(lambda: per_series("plan_price").astype(float)),
+        chosen=chosen, plan_price=soon(lambda: series_values("plan_price").astype(float)),
         plan_volume=cells("plan_volume"), plan_lo=cells("plan_lo"), plan_hi=cells("plan_hi"),
         plan_elasticity=cells("plan_elasticity"),
-        revenue_price=soon(lambda: per_series("revenue_price").astype(float)),
+        revenue_price=soon(lambda: series_values("revenue_price").astype(float)),
         top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=column("reason"),
-        fold_lists=column("fold_mse"), stored_score=per_series("score").astype(float, copy=False),
+        fold_lists=column("fold_mse"), stored_score=series_values("score").astype(float, copy=False),
         controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late)
     if cycle:
         results = _with_cycle_fields(results, read_now, n_s, n_c, lineup.width, column if late is not None else None)
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
-    raised, flag_texts = _raised(table, n_s, n_c, path)
+    raised, flag_texts = raised_flags(table, n_s, n_c, path)
     return results, StoredDiagnosis(results, thresholds, raised, {}, flag_texts)
 
 
@@ -298,33 +253,6 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
 
 CYCLE = CYCLE_COLUMNS  # the next cycle's fields, all or none (``read.read_header`` checks)
 CYCLE_LATER = ("sigma2", "df", "cov_unscaled")  # only a decision's snapshot needs them: read behind the list
-
-
-class StoredCovariances:
-    """Each candidate's unscaled covariance as the file holds it (its p·p entries row by row, an Arrow list a cell)."""
-
-    def __init__(self, column, n_c: int, sizes, width: int) -> None:
-        self.column, self.n_c, self.sizes, self.width = column, n_c, np.asarray(sizes), width
-
-    def cells(self, series: np.ndarray) -> np.ndarray:
-        """(len(series), C, P, P), NaN where the file holds none."""
-        out = np.full((len(series), self.n_c, self.width, self.width), np.nan)
-        for c, p in enumerate(self.sizes.tolist()):
-            out[:, c, :p, :p] = self.of(series, c)
-        return out
-
-    def of(self, series: np.ndarray, c: int) -> np.ndarray:
-        """(len(series), p, p) candidate ``c``'s covariance on ``series`` (NaN where unavailable)."""
-        p = int(self.sizes[c])
-        rows = integers(np.asarray(series, dtype=np.int64) * self.n_c + c)
-        taken = self.column.take(rows).combine_chunks()
-        out = np.full((len(series), p * p), np.nan)
-        if len(series):
-            lengths = np.diff(numbers(taken.offsets).astype(np.int64))
-            values = numbers(taken.flatten())
-            full = lengths == p * p
-            out[full] = values.reshape(-1, p * p)
-        return out.reshape(len(series), p, p)
 
 
 def _has_cycle(readers) -> bool:
@@ -356,7 +284,7 @@ def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width:
                                                                        last).astype(np.int64).view("datetime64[D]")
     backtest = None
     if "backtest_status" in table.column_names:
-        backtest = {name[len("backtest_"):]: _per_series(table.column(name), n_c)
+        backtest = {name[len("backtest_"):]: per_series(table.column(name), n_c)
                     for name in table.column_names if name.startswith("backtest_")}
     return replace(results, sigma2=CellColumn(column("sigma2"), n_s, n_c), stored_backtest=backtest,
                    df=CellColumn(column("df"), n_s, n_c),
@@ -364,144 +292,3 @@ def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width:
                                                 [c.complexity for c in results.candidates], width),
                    stored_last_date=last_date)
 
-
-def _per_series(column, n_c: int) -> np.ndarray:
-    """(S,) one value a series of a per-series column repeated on each candidate's row: text as objects
-    (None for null), numbers as float (NaN for null), booleans as bool."""
-    import pyarrow as pa
-    if pa.types.is_string(column.type) or pa.types.is_dictionary(column.type):
-        pieces = [objects(chunk)[rows] for chunk, rows in _series_rows(column, n_c)]
-        return np.concatenate(pieces) if pieces else np.zeros(0, dtype=object)
-    values = numbers(column.combine_chunks())[::max(n_c, 1)]
-    return values.astype(bool) if pa.types.is_boolean(column.type) else values.astype(float, copy=False)
-
-
-def _column(column) -> np.ndarray:
-    """An Arrow column (or one still being read, ``Later``) as numpy; text as an object array (a dictionary
-    column through its dictionary)."""
-    import pyarrow as pa
-    column = column.combine_chunks()
-    if pa.types.is_dictionary(column.type) and not column.null_count:
-        values = np.array(column.dictionary.to_pylist() + [None], dtype=object)[:-1]
-        return values[numbers(column.indices)]
-    if pa.types.is_dictionary(column.type) or pa.types.is_string(column.type):
-        return np.array(column.to_pylist() + [None], dtype=object)[:-1]
-    return numbers(column)
-
-
-def _series_rows(column, n_c: int):
-    """``(chunk, rows)`` for each chunk of a per-candidate column: the chunk's rows that are a series' first
-    (numpy positions within the chunk; a chunk need not start on a series)."""
-    start, step = 0, max(n_c, 1)
-    for chunk in getattr(column, "chunks", [column]):
-        yield chunk, np.arange((-start) % step, len(chunk), step)
-        start += len(chunk)
-
-
-def _per_series_text(column, n_c: int):
-    """(S,) Arrow text: a per-series text column's value on each series' first row, taken chunk by chunk.
-
-    Not ``column.take`` over the whole column: on a dictionary column of many row groups (each with its own
-    dictionary) that first merges every dictionary (0.14 s for the fingerprints of 100,000 series; by chunk
-    7 ms).  A chunk whose series each hold their own entry, in order (the keys and fingerprints as
-    ``pricefold fit`` writes them), is its dictionary itself: nothing taken, and no ``pyarrow.compute``
-    (0.1 s to import) before the list."""
-    import pyarrow as pa
-    pieces = []
-    for chunk, rows in _series_rows(column, n_c):
-        if pa.types.is_dictionary(chunk.type) and pa.types.is_string(chunk.dictionary.type) and \
-                not chunk.null_count and len(rows) == len(chunk.dictionary) and \
-                (numbers(chunk.indices)[rows] == np.arange(len(rows))).all():
-            pieces.append(chunk.dictionary)
-            continue
-        if pa.types.is_dictionary(chunk.type) and pa.types.is_string(chunk.dictionary.type) and not chunk.null_count:
-            pieces.append(_take_text(chunk.dictionary, numbers(chunk.indices)[rows].astype(np.int64)))
-            continue
-        piece = chunk.take(integers(rows))
-        pieces.append(piece.dictionary_decode() if pa.types.is_dictionary(piece.type) else piece)
-    if not pieces:
-        return pa.array([], pa.string())
-    return pa.concat_arrays(pieces) if len(pieces) > 1 else pieces[0]
-
-
-def _take_text(words, at: np.ndarray):
-    """``words.take(at)`` for Arrow text without nulls, from its buffers (``take`` imports ``pyarrow.compute``:
-    0.1 s before the list, for keys whose dictionary is not one entry a series, such as a segment's)."""
-    import pyarrow as pa
-    n, start = len(words), words.offset
-    _, offsets, data = words.buffers()[:3]
-    ends = np.frombuffer(offsets, np.int32, count=n + 1, offset=start * 4).astype(np.int64)
-    lengths = np.diff(ends)[at]
-    out = np.zeros(len(at) + 1, dtype=np.int64)
-    np.cumsum(lengths, out=out[1:])
-    if out[-1] > np.iinfo(np.int32).max:
-        return words.take(integers(at))
-    body = np.frombuffer(data, np.uint8) if data is not None and out[-1] else np.zeros(0, np.uint8)
-    # each output byte's place in ``body``: its value's start there, plus its place within the value
-    where = np.repeat(ends[:-1][at] - out[:-1], lengths) + np.arange(out[-1], dtype=np.int64)
-    return pa.Array.from_buffers(pa.string(), len(at), [None, pa.py_buffer(out.astype(np.int32)),
-                                                        pa.py_buffer(body[where])])
-
-
-def _raised(table, n_s: int, n_c: int, path: Path) -> tuple[np.ndarray, np.ndarray]:
-    """(S, flags): the flag codes each series' recorded list names (each distinct list parsed once, the
-    sentences not kept: a dict per flagged series would slow every full garbage collection); and (S,) each
-    series' text (objects: the distinct texts, shared)."""
-    import pyarrow as pa
-    texts, index, where = [], [], []  # distinct texts; each series' place among them; the first row holding each
-    first_row = 0
-    for chunk, rows in _series_rows(table.column("flags"), n_c):
-        if pa.types.is_dictionary(chunk.type):
-            words, at = objects(chunk.dictionary), numbers(chunk.indices)[rows]
-            if chunk.null_count:  # a null list: no flags, as an empty text
-                words, at = np.append(words, None), np.where(np.isnan(at), len(words), at)
-            at = at.astype(np.int64)
-        else:
-            distinct: dict = {}
-            at = np.array([distinct.setdefault(text, len(distinct)) for text in objects(chunk)[rows].tolist()],
-                          dtype=np.int64)
-            words = list(distinct)
-        firsts = np.full(len(words), -1, dtype=np.int64)  # -1: a dictionary entry no series holds
-        firsts[at[::-1]] = (first_row + rows)[::-1]
-        index.append(at + len(texts))
-        texts.extend(words.tolist() if isinstance(words, np.ndarray) else words)
-        where.extend(firsts.tolist())
-        first_row += len(chunk)
-    raised_of = np.zeros((len(texts), len(CODES)), dtype=bool)
-    for i, entries in enumerate(_flag_lists(texts, where, path)):
-        for entry in entries:
-            if entry.get("code") in CODES:
-                raised_of[i, CODES.index(entry["code"])] = True
-    at = np.concatenate(index) if index else np.zeros(0, dtype=np.int64)
-    raised = raised_of[at] if n_s else np.zeros((0, len(CODES)), dtype=bool)
-    raised.flags.writeable = False
-    return raised, np.array(texts + [None], dtype=object)[:-1][at]
-
-
-def _flag_lists(texts: list, rows: list[int], path: Path) -> list:
-    """Each text parsed as JSON (an empty or null one, or one no series holds: no flags); the first
-    unreadable one a ``DataError`` naming its row (``rows``: the file row first holding each text, -1 for
-    none).  Text by text: all of them joined into one JSON list would parse faster (0.03 vs 0.07 s at 100,000
-    series) but a damaged text with a bracket or comma too many would pass, its flags given to its neighbour."""
-    out = []
-    for text, row in zip(texts, rows):
-        if not text or row < 0:
-            out.append([])
-            continue
-        try:
-            out.append(_flags_json(text))
-        except json.JSONDecodeError:
-            raise DataError(f"row {row + 1}, column 'flags': expected JSON text of a list of flags, found "
-                            f"{text[:60]!r}", path=str(path)) from None
-    return out
-
-
-def _flags_json(text: str):
-    """One flags text parsed: by orjson (3× faster than ``json``: 0.036 → 0.012 s for the 14,735 distinct texts of
-    100,000 series, before the list), and by ``json`` what orjson refuses (NaN, lone surrogates, a number too
-    large for a float), which ``json`` then reads or refuses as before.  The two agree on every text orjson
-    reads but for integers beyond 64 bits (a float from orjson), and only the flags' codes, text, are kept."""
-    try:
-        return orjson.loads(text)
-    except orjson.JSONDecodeError:
-        return json.loads(text)
