@@ -355,8 +355,10 @@ def main(argv: list[str] | None = None) -> int:
     except PricefoldError as exc:
         print(f"pricefold {args.command}: {exc}", file=sys.stderr)
         return 2
-    except KeyboardInterrupt:
-        print(f"pricefold {args.command}: interrupted; nothing was written", file=sys.stderr)
+    except KeyboardInterrupt as exc:
+        written = getattr(exc, "written", None)  # came as the files were put in place, acted on after
+        said = f"after writing {', '.join(written)} in full" if written else "nothing was written"
+        print(f"pricefold {args.command}: interrupted; {said}", file=sys.stderr)
         return 130
     except BrokenPipeError:  # the reader went away (``| head``): stop quietly, as other tools do
         import os

@@ -38,8 +38,8 @@ def noticed():
     previous = signal.signal(signal.SIGINT, _on_interrupt)
     try:
         yield
-    except BaseException:
-        if _seen:
+    except BaseException as exc:
+        if _seen and not isinstance(exc, KeyboardInterrupt):
             raise KeyboardInterrupt from None
         raise
     finally:

@@ -7,13 +7,16 @@ A new file gets the mode the umask allows (as ``open`` would give it); a replace
 """
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import os
 import re
 import secrets
 import shutil
+import signal
 import socket
 import stat
+import threading
 from dataclasses import dataclass
 from pathlib import Path
 from typing import BinaryIO, Callable
@@ -112,12 +115,16 @@ class Staged:
     sha256: str | None  # None when written by name (``stage``)
 
     def commit(self) -> None:
+        self.put()
+        _sync_folder(self.path.parent)
+
+    def put(self) -> None:
+        """Rename into place; the folder is not synced yet (``commit`` does both)."""
         try:
             os.replace(self.temp, self.path)
         except OSError as exc:
             self.discard()
             raise _cannot(self.path, exc) from None
-        _sync_folder(self.path.parent)
 
     def discard(self) -> None:
         try:
@@ -195,13 +202,62 @@ class Batch:
             for staged in self.staged:
                 staged.discard()
             return
-        for i, staged in enumerate(self.staged):
-            try:
-                staged.commit()
-            except BaseException:
-                for rest in self.staged[i + 1:]:
-                    rest.discard()
-                raise
+        done = False
+        try:
+            with _signals_after():  # Ctrl+C, a kill or a closed SSH session lands after the last rename
+                for i, staged in enumerate(self.staged):
+                    try:
+                        staged.put()
+                    except BaseException:
+                        for rest in self.staged[i + 1:]:
+                            rest.discard()
+                        raise
+                for folder in dict.fromkeys(staged.path.parent for staged in self.staged):
+                    _sync_folder(folder)
+                done = True
+        except KeyboardInterrupt:
+            if done:  # said as such: "nothing was written" would be untrue
+                raise InterruptedAfterWriting([str(staged.path) for staged in self.staged]) from None
+            raise
+
+
+class InterruptedAfterWriting(KeyboardInterrupt):
+    """Ctrl+C that came while a batch's files were renamed into place, raised once all of them were."""
+
+    def __init__(self, written: list[str]) -> None:
+        super().__init__()
+        self.written = written
+
+
+_DEFERRED = ("SIGINT", "SIGTERM", "SIGHUP")
+
+
+@contextlib.contextmanager
+def _signals_after():
+    """SIGINT, SIGTERM and SIGHUP that come inside the block, acted on at its end as they would have been
+    (their handler called, or the default action: the process ends), so a batch's files are renamed all or
+    none.  Only the main thread can set handlers; elsewhere the block runs as it is."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    came: list = []
+    previous = {}
+    for name in _DEFERRED:
+        number = getattr(signal, name, None)
+        if number is not None:
+            previous[number] = signal.signal(number, lambda signum, frame: came.append((signum, frame)))
+    try:
+        yield
+    finally:
+        for number, handler in previous.items():
+            signal.signal(number, handler if handler is not None else signal.SIG_DFL)
+        pending = dict(came)  # each signal once, as the system keeps a pending one
+        for number in sorted(pending, key=lambda n: callable(previous[n])):  # a default action before a raise
+            handler = previous[number]
+            if callable(handler):
+                handler(number, pending[number])
+            elif handler != signal.SIG_IGN:
+                signal.raise_signal(number)
 
 
 def staging_folder(path: Path) -> Path:

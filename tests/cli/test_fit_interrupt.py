@@ -183,3 +183,31 @@ def test_ctrl_c_before_the_command_starts_ends_with_one_line_and_130():
             "cli.entry()\n")
     run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
     assert (run.returncode, run.stderr) == (130, "pricefold: interrupted; nothing was written\n")
+
+
+def test_ctrl_c_as_the_files_are_put_in_place_lands_after_both_and_says_so(tmp_path):
+    """Before: a Ctrl+C between the rejects file's rename and the results' left the new rejects beside the
+    earlier results, and the line said "nothing was written"."""
+    lines = (SAMPLE / "wholesale.csv").read_text().splitlines()
+    (tmp_path / "d.csv").write_text("\n".join([*lines[:300], "apples 1 kg,North,2030-01-07,cheap,5,0",
+                                               *lines[300:]]) + "\n")
+    assert main(["fit", str(tmp_path / "d.csv"), "--segment", "region", "-o", str(tmp_path / "r.json"), "-q"]) == 0
+    earlier = (tmp_path / "r.json").read_bytes()
+    code = ("import os, signal, sys\n"
+            "signal.signal(signal.SIGINT, signal.default_int_handler)\n"
+            "import fitcore.outputs.atomic as atomic\n"
+            "replace = os.replace\n"
+            "def replace_then_interrupt(src, dst):\n"
+            "    replace(src, dst)\n"
+            "    if str(dst).endswith('rejects.csv'): os.kill(os.getpid(), signal.SIGINT)\n"
+            "atomic.os.replace = replace_then_interrupt\n"
+            "from pricefold.cli import entry\n"
+            "sys.argv = ['pricefold', 'fit', 'd.csv', '--segment', 'region', '--seed', '1', '-o', 'r.json', '-q']\n"
+            "entry()\n")
+    run = subprocess.run([sys.executable, "-c", code], cwd=tmp_path, capture_output=True, text=True, timeout=120)
+    assert run.returncode == 130, run.stderr
+    assert run.stderr.endswith("pricefold fit: interrupted; after writing r.rejects.csv, r.json in full\n")
+    import json
+    source = json.loads((tmp_path / "r.json").read_text())["input"]
+    assert source["rejects_sha256"] == digest(tmp_path / "r.rejects.csv")  # the pair from one run
+    assert (tmp_path / "r.json").read_bytes() != earlier  # the second run's (its seed)

@@ -224,3 +224,43 @@ def test_a_folder_that_takes_no_files_says_why(tmp_path, monkeypatch, flags, sai
     monkeypatch.setattr(guard.os, "statvfs", lambda p: os.statvfs_result((*real[:8], flags, real[9])))
     with pytest.raises(DataError, match=re.escape(f"cannot write in the folder {tmp_path} ({said})")):
         check_outputs([(tmp_path / "r.json", "results")], [])
+
+
+# A signal between a batch's renames would leave new rejects beside old results (or the reverse): the
+# renames finish first, then the signal is acted on as it would have been.
+_SIGNAL_MID_BATCH = """
+import os, signal, sys
+from pathlib import Path
+import fitcore.outputs.atomic as atomic
+first, second, name = Path(sys.argv[1]), Path(sys.argv[2]), sys.argv[3]
+replace = os.replace
+def replace_then_signal(src, dst):
+    replace(src, dst)
+    if Path(dst) == first:
+        os.kill(os.getpid(), getattr(signal, name))
+atomic.os.replace = replace_then_signal
+try:
+    with atomic.Batch() as batch:
+        batch.add(first, lambda h: h.write(b"new rejects"))
+        batch.add(second, lambda h: h.write(b"new results"))
+except KeyboardInterrupt as exc:
+    print("written:", ", ".join(Path(p).name for p in exc.written))
+    sys.exit(130)
+print("not stopped")
+"""
+
+
+@pytest.mark.parametrize("name, returncode", [("SIGINT", 130), ("SIGTERM", -15), ("SIGHUP", -1)])
+def test_a_signal_between_renames_lands_after_the_last(tmp_path, name, returncode):
+    first, second = tmp_path / "r.rejects.csv", tmp_path / "r.json"
+    first.write_text("old rejects")
+    second.write_text("old results")
+    # SIGINT's own handler put back in the child: a pytest run in the background may inherit it ignored
+    code = "import signal; signal.signal(signal.SIGINT, signal.default_int_handler)\n" + _SIGNAL_MID_BATCH
+    done = subprocess.run([sys.executable, "-c", code, str(first), str(second), name], capture_output=True,
+                          text=True, timeout=60)
+    assert done.returncode == returncode, done.stderr
+    if name == "SIGINT":  # raised once both were in place, saying so
+        assert done.stdout == "written: r.rejects.csv, r.json\n"
+    assert first.read_text() == "new rejects" and second.read_text() == "new results"
+    assert [p.name for p in tmp_path.iterdir() if p.name.endswith(".tmp")] == []
