@@ -240,7 +240,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     line on stderr."""
     from fitcore.review.sentences import shift_sentence
 
-    from .show import detail, in_attention_order, key_cell
+    from .show import detail, in_attention_order, key_cells
     book = open_ledger(ledger_path, must_exist=True)
     if header is not None:
         said = key_mismatch(header, book, ledger_path)
@@ -267,7 +267,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             lines.append(f"  since sign-off (the curve as signed): {said}")
         return "\n".join(lines)
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]
-    for record in in_attention_order(records):
+    ordered = in_attention_order(records)
+    for record, label in zip(ordered, key_cells([record["key"] for record in ordered])):
         status, needs = ledger_state(record, book, short=True)
         bt = record.get("backtest") or {}
         ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
@@ -277,7 +278,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         if stands is not None and stands["action"] == "accept":  # the flags are these results' proposal's
             flags = f"proposes {record['chosen'] or 'nothing'}: {flags}"
         model = standing_model(record, book)
-        lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {model:<7} "
+        lines.append(f"{label} {record['n']:>5} {model:<7} "
                      f"{status:<20} {(needs or '—')[:21]:<21} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
 

@@ -9,7 +9,10 @@ import numpy as np
 from rich.cells import cell_len
 
 from fitcore.data.keys import SEPARATOR
-from fitcore.widths import cut_end, fit_key
+from fitcore.text import clean
+from fitcore.widths import cut_end, distinct_keys, fit_key
+
+MOST_CELLS = 10  # cells one character may show in: its escape form, "⟨U+10FFFF⟩"
 
 
 def cut(text: str, width: int) -> str:
@@ -54,25 +57,52 @@ def key_label(parts: tuple[str, ...], width: int) -> str:
     return pad(fit_key(parts, width, SEPARATOR, cell_len), width)
 
 
-def longest_label(columns: list) -> int:
-    """Characters of the longest label the key ``columns`` (Arrow text, one per key part, S each) make when
-    joined by ``SEPARATOR`` (a row with a null part makes none): as ``pyarrow.compute``'s ``utf8_length`` of
-    ``binary_join_element_wise`` counts them, read from the arrays' buffers, since importing
-    ``pyarrow.compute`` (0.1 s) held the first drawing of the list back."""
+def key_labels(keys: list[tuple[str, ...]], width: int) -> list[str]:
+    """``key_label`` of each of the series ``keys`` shown together, no two of different series reading the same
+    (``fitcore.widths.distinct_keys``)."""
+    return [pad(label, width) for label in distinct_keys(keys, width, SEPARATOR, cell_len)]
+
+
+def longest_label(columns: list, cap: int | None = None) -> int:
+    """Cells of the longest series label the key ``columns`` (Arrow text, one per key part, S each) make when
+    shown (each part ``clean``'s form, joined by ``SEPARATOR``; a row with a null part makes none), or ``cap``
+    when one is at least that long.
+
+    Counted without a Python object per series where the labels are ASCII: an ASCII label shows a cell a
+    character (a control as its one-cell picture), counted from the arrays' buffers, since importing
+    ``pyarrow.compute`` (0.1 s) held the first drawing of the list back.  A label with other characters may
+    show wider (a CJK character takes two cells, an escape form ``⟨U+202E⟩`` eight) or narrower (a combining
+    mark none): those are measured one by one, longest possible first (a character shows in ten cells at
+    most), until none left could be longer than the longest found."""
     if not columns or not len(columns[0]):
         return 0
-    total = np.full(len(columns[0]), len(SEPARATOR) * (len(columns) - 1), dtype=np.int64)
-    valid = np.ones(len(columns[0]), dtype=bool)
+    n = len(columns[0])
+    chars = np.full(n, len(SEPARATOR) * (len(columns) - 1), dtype=np.int64)
+    wide = np.zeros(n, dtype=np.int64)  # non-ASCII characters
+    valid = np.ones(n, dtype=bool)
     for column in columns:
-        chars, present = _characters(column)
-        total += chars
+        counted, other, present = _characters(column)
+        chars += counted
+        wide += other
         valid &= present
-    return int(total[valid].max()) if valid.any() else 0
+    if not valid.any():
+        return 0
+    plain = valid & (wide == 0)
+    longest = int(chars[plain].max()) if plain.any() else 0
+    bound = np.where(valid & (wide > 0), chars + (MOST_CELLS - 1) * wide, -1)
+    order = np.argsort(-bound, kind="stable")
+    for s in order[:int(np.count_nonzero(bound > longest))].tolist():
+        if bound[s] <= longest or (cap is not None and longest >= cap):
+            break
+        shown = SEPARATOR.join(clean(column[s].as_py()) for column in columns)
+        longest = max(longest, cell_len(shown))
+    return longest if cap is None else min(longest, cap)
 
 
-def _characters(array) -> tuple[np.ndarray, np.ndarray]:
-    """((S,) characters, (S,) not null) of an Arrow string or large string array: each value's bytes less its
-    UTF-8 continuation bytes (10xxxxxx), counted with one cumulative sum over the array's bytes."""
+def _characters(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """((S,) characters, (S,) of them not ASCII, (S,) not null) of an Arrow string or large string array: each
+    value's bytes less its UTF-8 continuation bytes (10xxxxxx), and its lead bytes (11xxxxxx), counted with
+    cumulative sums over the array's bytes."""
     import pyarrow as pa
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
@@ -81,11 +111,15 @@ def _characters(array) -> tuple[np.ndarray, np.ndarray]:
     width = np.int64 if pa.types.is_large_string(array.type) else np.int32
     ends = np.frombuffer(offsets, width, count=n + 1, offset=start * np.dtype(width).itemsize).astype(np.int64)
     chars = np.diff(ends)
+    other = np.zeros(n, dtype=np.int64)
     if data is not None and ends[-1] > ends[0]:
         body = np.frombuffer(data, np.uint8, count=int(ends[-1] - ends[0]), offset=int(ends[0]))
         if body.max() >= 0x80:  # not all ASCII: continuation bytes are not characters
+            at, before = ends[1:] - ends[0], ends[:-1] - ends[0]
             counted = np.concatenate(([0], np.cumsum((body & 0xC0) == 0x80)))
-            chars = chars - (counted[ends[1:] - ends[0]] - counted[ends[:-1] - ends[0]])
+            chars = chars - (counted[at] - counted[before])
+            leads = np.concatenate(([0], np.cumsum(body >= 0xC0)))
+            other = leads[at] - leads[before]
     present = (np.unpackbits(np.frombuffer(validity, np.uint8), bitorder="little")[start:start + n].astype(bool)
                if array.null_count else np.ones(n, dtype=bool))
-    return chars, present
+    return chars, other, present
