@@ -56,6 +56,24 @@ def reveal_unnormalised(shown: str) -> str:
                    else ch for ch in shown)
 
 
+_SHOWN = re.compile(f"{OPEN}[Uu]\\+([0-9A-Fa-f]{{4,6}}){CLOSE}|[{''.join(sorted(PICTURES.values()))}]")
+_UNPICTURED = {picture: ch for ch, picture in PICTURES.items()}
+
+
+def original(shown: str) -> str:
+    """The text ``shown`` (what an analyst copies or types from the screen) reads back to: each escape form
+    ``⟨U+202E⟩`` and control picture ``␊`` as the character it stands for (``clean`` undone)."""
+    if shown.isascii() or _SHOWN.search(shown) is None:
+        return shown
+
+    def back(match: re.Match) -> str:
+        code = match.group(1)
+        if code is None:
+            return _UNPICTURED[match.group(0)]
+        return chr(int(code, 16)) if int(code, 16) <= 0x10FFFF else match.group(0)
+    return _SHOWN.sub(back, shown)
+
+
 def printable(message: str) -> str:
     """A ``message`` safe to print where parts of it are ``clean``'s shown forms already: each character that
     does not print shown as ``clean`` shows it, everything else as it is (not one-to-one: users' own texts go

@@ -11,6 +11,7 @@ from functools import cached_property
 import numpy as np
 
 from ..arrays import integers, numbers, texts
+from ..text import original
 
 SEPARATOR = " · "
 FEW_KEYS = 32  # up to this many keys, ``indices_of`` scans instead of joining
@@ -55,9 +56,20 @@ class SeriesKeys:
         return columns[0] if len(columns) == 1 else pc.binary_join_element_wise(*columns, SEPARATOR)
 
     def matching(self, needle: str) -> np.ndarray:
-        """(S,) bool: the label contains ``needle``, ignoring case."""
+        """(S,) bool: the label contains ``needle``, ignoring case — as typed, or as the text its shown forms
+        stand for (``⟨U+202E⟩``, ``␊``: ``fitcore.text.original``), or in either Unicode normal form (a
+        typed 'é' finds a name holding 'e' and a combining accent)."""
+        import unicodedata
+
         import pyarrow.compute as pc
-        return numbers(pc.fill_null(pc.match_substring(self.labels, needle, ignore_case=True), False))
+        raw = original(needle)
+        needles = {needle, raw} if raw.isascii() else {needle, raw, *(unicodedata.normalize(form, raw)
+                                                                      for form in ("NFC", "NFD"))}
+        found = None
+        for text in needles:
+            hit = pc.match_substring(self.labels, text, ignore_case=True)
+            found = hit if found is None else pc.or_(found, hit)
+        return numbers(pc.fill_null(found, False))
 
     def sorted_order(self) -> np.ndarray:
         """Series indices by label (ties in index order)."""

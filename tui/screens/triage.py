@@ -396,7 +396,7 @@ class TriageScreen(Screen):
             self._last_search = text
             hit = self.session.search(text)
             if not hit.found:
-                self.notify(f"no series matches {text!r}", severity="warning", markup=False)
+                self.notify(f"no series matches '{printable(text.strip())}'", severity="warning", markup=False)
                 return
             if hit.switched:
                 self.notify(f"none listed matched: showing all series ({hit.overall:,} match)", markup=False)
