@@ -202,11 +202,15 @@ def standing_model(record: dict, book) -> str:
     return record["chosen"] or "—"
 
 
-def stands_words(record: dict, stands: dict, carry: dict | None = None) -> list[str]:
+def stands_words(record: dict, stands: dict, carry: dict | None = None, signed: dict | None = None) -> list[str]:
     """'stands: poly1, overridden by ana at …; at the plan price 2.50: volume 250.0 (204.1 to 295.9), elasticity
     -0.71' — the standing model's own numbers from the record's candidates; for a decision ``carry`` carried
-    to these data, said as its refit on them (the curve as signed is the backtest's line).  An accept of
-    another model than these results propose adds a line saying so."""
+    to these data, said as its refit on them (the curve as signed is the backtest's line).  Where these
+    results did not fit that model (``--no-loglog`` after a loglog was signed), the numbers of the ``signed``
+    snapshot of the standing record at this plan price, as ``ledger export`` gives them, said to be the signed
+    curve's.  An accept of another model than these results propose adds a line saying so."""
+    from fitcore.ledger.snapshot import at_prices
+
     from .show import money, number, slope
     model = stands["model"]
     verb = "accepted" if stands["action"] == "accept" else "overridden"
@@ -215,11 +219,21 @@ def stands_words(record: dict, stands: dict, carry: dict | None = None) -> list[
         said += f", carried by {clean(str(carry['analyst']))} at {_minute(carry)}"
     plan = record.get("plan")
     cand = next((c for c in record["candidates"] if c["name"] == model), None)
-    if plan and cand is not None and cand.get("plan_volume") is not None:
-        whose = "its refit on these data at" if carry is not None else "at"
+    at_plan, whose = None, "its refit on these data at" if carry is not None else "at"
+    if cand is not None and cand.get("plan_volume") is not None:
+        at_plan = {"volume": cand["plan_volume"], "lo": cand["plan_lo"], "hi": cand["plan_hi"],
+                   "elasticity": cand["plan_elasticity"]}
+    elif cand is None:  # not fitted here: the signed curve's numbers, never these results'
+        whose = f"these results did not fit {clean(str(model))}: the curve as signed, at"
+        if not (signed and (signed.get("basis") or {}).get("coef")):
+            said += f" (these results did not fit {clean(str(model))}, and the ledger holds no curve of it)"
+        elif plan and plan.get("price") is not None:
+            at_plan = at_prices([signed], [plan["price"]], signed.get("level") or plan.get("level") or 0.95)[0]
+    if plan and at_plan is not None:
+        interval = (f" ({number(at_plan['lo'])} to {number(at_plan['hi'])})"
+                    if at_plan.get("lo") is not None and at_plan.get("hi") is not None else " (no interval)")
         said = (f"{said}; {whose} the plan price {number(plan['price'], money)}: volume "
-                f"{number(cand['plan_volume'])} ({number(cand['plan_lo'])} to {number(cand['plan_hi'])}), "
-                + slope({"volume": cand["plan_volume"], "elasticity": cand["plan_elasticity"]}))
+                f"{number(at_plan['volume'])}{interval}, " + slope(at_plan))
     if verb == "overridden":
         return [said]
     proposal = record["chosen"] or "nothing"
@@ -261,7 +275,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         if stands is not None:
             current = book.histories[series_id(record["key"])].current
             lines += ["  " + line for line in
-                      stands_words(record, stands, current if current["action"] == "carry" else None)]
+                      stands_words(record, stands, current if current["action"] == "carry" else None,
+                                   current.get("signed"))]
         if record.get("backtest"):
             said = shift_sentence(record["backtest"], record["chosen"], older=needs == NEWER_DUE)
             lines.append(f"  since sign-off (the curve as signed): {said}")
