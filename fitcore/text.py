@@ -74,6 +74,12 @@ def original(shown: str) -> str:
     return _SHOWN.sub(back, shown)
 
 
+def quoted(text) -> str:
+    """``'text'`` as an error message names a user's value: ``clean``'s form between single quotes (a
+    ``repr`` would show ``'nosuch\\u202eevil\\n2'``, not what the screen and the rejects file show)."""
+    return f"'{clean(str(text))}'"
+
+
 def printable(message: str) -> str:
     """A ``message`` safe to print where parts of it are ``clean``'s shown forms already: each character that
     does not print shown as ``clean`` shows it, everything else as it is (not one-to-one: users' own texts go
