@@ -291,7 +291,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
         stands = standing_decision(record, book)
         if stands is not None and stands["action"] == "accept":  # the flags are these results' proposal's
-            flags = f"proposes {record['chosen'] or 'nothing'}: {flags}"
+            flags = f"proposes {record['chosen'] or 'nothing'}: {flags if record['flags'] else 'no flags'}"
         model = standing_model(record, book)
         lines.append(f"{label} {record['n']:>5} {model:<7} "
                      f"{status:<20} {(needs or '—')[:21]:<21} {ratio:>5} {cover:>5}  {flags}")

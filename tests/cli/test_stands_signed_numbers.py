@@ -46,3 +46,9 @@ def test_show_gives_the_signed_numbers_of_a_model_these_results_did_not_fit(tmp_
     assert abs(volume / signed["plan_volume"] - 1) < 1e-9 and abs(elasticity - signed["plan_elasticity"]) < 1e-9
     assert (f"volume {number(signed['plan_volume'])} ({number(signed['plan_lo'])} to {number(signed['plan_hi'])}), "
             f"elasticity {signed['plan_elasticity']:.2f}") in line, line
+
+    # the list: a proposal without flags says so ("proposes poly1: —" read as a missing number)
+    assert main(["show", str(tmp_path / "r.json"), "--ledger", str(book)]) == 0
+    rows = [row for row in capsys.readouterr().out.splitlines() if " proposes " in row]
+    assert rows and not any(row.rstrip().endswith(": —") for row in rows), rows
+    assert any(row.rstrip().endswith(": no flags") for row in rows), rows
