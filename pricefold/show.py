@@ -8,8 +8,8 @@ from fitcore.review import choice
 from fitcore.review.attention import attention_order
 from fitcore.review.control_words import effect_words
 from fitcore.review.sentences import fmt, money, two_places
-from fitcore.text import clean
-from fitcore.widths import cells, distinct_keys
+from fitcore.text import clean, reveal_unnormalised
+from fitcore.widths import cells, distinct_keys, reads
 
 SEVERITY_ORDER = {"stop": 0, "warn": 1}
 
@@ -63,6 +63,16 @@ def key_text(key: dict, named: str | None = None) -> str:
         return SEPARATOR.join(clean(str(value)) if name == named else f"{clean(str(name))}={clean(str(value))}"
                               for name, value in key.items())
     return SEPARATOR.join(map(clean, map(str, key.values())))
+
+
+def told_apart(texts) -> dict[str, str]:
+    """Each of ``texts`` (shown forms, whole) as a list prints it: as it is, but one not in NFC form beside
+    another that reads the same (``café`` decomposed beside composed) with what NFC changes shown by code
+    point (``fitcore.text.reveal_unnormalised``)."""
+    seen: dict[str, set] = {}
+    for text in texts:
+        seen.setdefault(reads(text), set()).add(text)
+    return {text: reveal_unnormalised(text) if len(alike) > 1 else text for alike in seen.values() for text in alike}
 
 
 def key_cells(keys: list[dict], width: int = 40) -> list[str]:
