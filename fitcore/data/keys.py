@@ -71,6 +71,22 @@ class SeriesKeys:
             found = hit if found is None else pc.or_(found, hit)
         return numbers(pc.fill_null(found, False))
 
+    def nfc_twins(self) -> np.ndarray:
+        """(S,) bool: the label is not in NFC form and another series' label reads the same (has the same NFC
+        form: ``café`` with ``e`` and a combining accent beside ``café`` composed), over whole columns."""
+        import pyarrow as pa
+        import pyarrow.compute as pc
+        labels = self.labels
+        if not len(labels) or pc.all(pc.string_is_ascii(labels)).as_py() is not False:
+            return np.zeros(len(labels), dtype=bool)
+        nfc = pc.utf8_normalize(labels, form="NFC")
+        codes = pc.dictionary_encode(nfc)
+        codes = codes.combine_chunks() if isinstance(codes, pa.ChunkedArray) else codes
+        indices = numbers(pc.fill_null(codes.indices, -1)).astype(np.int64)
+        counts = np.bincount(indices[indices >= 0], minlength=len(codes.dictionary))
+        unnormal = numbers(pc.fill_null(pc.not_equal(nfc, labels), False))
+        return unnormal & (indices >= 0) & (counts[np.maximum(indices, 0)] > 1)
+
     def sorted_order(self) -> np.ndarray:
         """Series indices by label (ties in index order)."""
         import pyarrow as pa

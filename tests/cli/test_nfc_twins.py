@@ -43,3 +43,17 @@ def test_show_and_ledger_show_tell_nfc_twins_apart(tmp_path, capsys):
     assert sum(line.endswith("cafe⟨U+0301⟩ noir 250 g") for line in lines) == 1, lines
     names = {json.loads(line)["series"]["product"] for line in book.read_text(encoding="utf-8").splitlines()}
     assert names == {COMPOSED, DECOMPOSED}  # the ledger keeps the names as they were
+
+
+def test_the_report_tells_nfc_twins_apart(tmp_path):
+    """Both series carry a stop flag (the plan price lies outside their prices), so the report lists both."""
+    import pytest
+    pytest.importorskip("matplotlib")
+    write_twins(tmp_path / "twins.csv")
+    results = tmp_path / "r.json"
+    assert main(["fit", str(tmp_path / "twins.csv"), "--plan-price", "5", "-o", str(results), "-q"]) == 0
+    page = tmp_path / "report.html"
+    assert main(["report", str(results), "-o", str(page)]) == 0
+    text = page.read_text(encoding="utf-8")
+    assert "cafe⟨U+0301⟩ noir 250 g" in text and COMPOSED in text
+    assert DECOMPOSED not in text
