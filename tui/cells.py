@@ -12,8 +12,6 @@ from fitcore.data.keys import SEPARATOR
 from fitcore.text import clean
 from fitcore.widths import cut_end, distinct_keys, fit_key
 
-MOST_CELLS = 10  # cells one character may show in: its escape form, "⟨U+10FFFF⟩"
-
 
 def cut(text: str, width: int) -> str:
     """``text`` in at most ``width`` cells: cut at a character boundary with '…' when it is longer."""
@@ -68,41 +66,38 @@ def longest_label(columns: list, cap: int | None = None) -> int:
     shown (each part ``clean``'s form, joined by ``SEPARATOR``; a row with a null part makes none), or ``cap``
     when one is at least that long.
 
-    Counted without a Python object per series where the labels are ASCII: an ASCII label shows a cell a
-    character (a control as its one-cell picture), counted from the arrays' buffers, since importing
-    ``pyarrow.compute`` (0.1 s) held the first drawing of the list back.  A label with other characters may
-    show wider (a CJK character takes two cells, an escape form ``⟨U+202E⟩`` eight) or narrower (a combining
-    mark none): those are measured one by one, longest possible first (a character shows in ten cells at
-    most), until none left could be longer than the longest found."""
+    Counted without a Python object per series, from the arrays' buffers (importing ``pyarrow.compute``,
+    0.1 s, held the first drawing of the list back): an ASCII character shows in one cell (a control as its
+    one-cell picture), any other as its shown form measures alone (a CJK character two cells, an escape form
+    ``⟨U+202E⟩`` eight, a combining mark none), each distinct code point measured once.  A label holding a
+    joiner, a variation selector or a tag character (whose width depends on their neighbours) is measured
+    whole."""
     if not columns or not len(columns[0]):
         return 0
     n = len(columns[0])
-    chars = np.full(n, len(SEPARATOR) * (len(columns) - 1), dtype=np.int64)
-    wide = np.zeros(n, dtype=np.int64)  # non-ASCII characters
+    shown = np.full(n, len(SEPARATOR) * (len(columns) - 1), dtype=np.int64)
+    whole = np.zeros(n, dtype=bool)  # measured whole: their characters' widths depend on their neighbours
     valid = np.ones(n, dtype=bool)
     for column in columns:
-        counted, other, present = _characters(column)
-        chars += counted
-        wide += other
+        cells, context, present = _cells(column)
+        shown += cells
+        whole |= context
         valid &= present
     if not valid.any():
         return 0
-    plain = valid & (wide == 0)
-    longest = int(chars[plain].max()) if plain.any() else 0
-    bound = np.where(valid & (wide > 0), chars + (MOST_CELLS - 1) * wide, -1)
-    order = np.argsort(-bound, kind="stable")
-    for s in order[:int(np.count_nonzero(bound > longest))].tolist():
-        if bound[s] <= longest or (cap is not None and longest >= cap):
-            break
-        shown = SEPARATOR.join(clean(column[s].as_py()) for column in columns)
-        longest = max(longest, cell_len(shown))
+    for s in np.flatnonzero(whole & valid).tolist():
+        shown[s] = cell_len(SEPARATOR.join(clean(column[s].as_py()) for column in columns))
+    longest = int(shown[valid].max())
     return longest if cap is None else min(longest, cap)
 
 
-def _characters(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """((S,) characters, (S,) of them not ASCII, (S,) not null) of an Arrow string or large string array: each
-    value's bytes less its UTF-8 continuation bytes (10xxxxxx), and its lead bytes (11xxxxxx), counted with
-    cumulative sums over the array's bytes."""
+CONTEXT = frozenset([0x200D, 0xFE0F, *range(0xE0020, 0xE0080)])  # joiner, emoji selector, tags
+
+
+def _cells(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """((S,) cells, (S,) holding a character of CONTEXT, (S,) not null) of an Arrow string or large string
+    array: each value's ASCII bytes a cell each, and each other character the cells of its ``clean`` form
+    (code points decoded from the UTF-8 bytes, summed per value with one cumulative sum)."""
     import pyarrow as pa
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
@@ -110,16 +105,27 @@ def _characters(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     validity, offsets, data = array.buffers()[:3]
     width = np.int64 if pa.types.is_large_string(array.type) else np.int32
     ends = np.frombuffer(offsets, width, count=n + 1, offset=start * np.dtype(width).itemsize).astype(np.int64)
-    chars = np.diff(ends)
-    other = np.zeros(n, dtype=np.int64)
+    cells = np.diff(ends)
+    context = np.zeros(n, dtype=bool)
     if data is not None and ends[-1] > ends[0]:
         body = np.frombuffer(data, np.uint8, count=int(ends[-1] - ends[0]), offset=int(ends[0]))
-        if body.max() >= 0x80:  # not all ASCII: continuation bytes are not characters
-            at, before = ends[1:] - ends[0], ends[:-1] - ends[0]
-            counted = np.concatenate(([0], np.cumsum((body & 0xC0) == 0x80)))
-            chars = chars - (counted[at] - counted[before])
-            leads = np.concatenate(([0], np.cumsum(body >= 0xC0)))
-            other = leads[at] - leads[before]
+        if body.max() >= 0x80:  # not all ASCII: each lead byte's character, decoded
+            lead = np.flatnonzero(body >= 0xC0)
+            last = len(body) - 1  # a byte past the end is only read for a shorter character, and not used
+            b0, c1, c2, c3 = (body[np.minimum(lead + k, last)].astype(np.int64) & (0xFF if k == 0 else 0x3F)
+                              for k in range(4))
+            code = np.where(b0 < 0xE0, ((b0 & 0x1F) << 6) | c1,
+                            np.where(b0 < 0xF0, ((b0 & 0x0F) << 12) | (c1 << 6) | c2,
+                                     ((b0 & 0x07) << 18) | (c1 << 12) | (c2 << 6) | c3))
+            points = np.flatnonzero(np.bincount(code))  # each distinct character, measured once
+            size = np.zeros(int(points[-1]) + 1, dtype=np.int64)
+            size[points] = [cell_len(clean(chr(c))) for c in points.tolist()]
+            value = np.searchsorted(ends[1:] - ends[0], lead, side="right")  # the value each lead byte is in
+            multi = np.where(b0 < 0xE0, 2, np.where(b0 < 0xF0, 3, 4))  # bytes of that character
+            cells = cells - np.bincount(value, weights=multi - size[code], minlength=n).astype(np.int64)
+            odd = np.zeros(len(size), dtype=bool)
+            odd[[c for c in CONTEXT if c < len(size)]] = True
+            context[value[odd[code]]] = True
     present = (np.unpackbits(np.frombuffer(validity, np.uint8), bitorder="little")[start:start + n].astype(bool)
                if array.null_count else np.ones(n, dtype=bool))
-    return chars, other, present
+    return cells, context, present

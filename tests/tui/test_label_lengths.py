@@ -71,3 +71,28 @@ def test_cells_as_shown_not_characters():
     assert longest_label([control]) == reference([control]) == 3
     many = pa.array(["\u202e" * 30, "short"], pa.string())
     assert longest_label([many], cap=40) == 40 and reference([many]) == 240
+
+
+@pytest.mark.parametrize("values", [
+    ["Käse 1", "Süd-Ost Großhandel", "x"],
+    ["\u00ad soft hyphen", "\u0085next line", "a\u0378b"],  # 2-byte characters that do not print: escaped
+    ["👨\u200d👩\u200d👧 family", "🏴\U000e0067\U000e0062\U000e0065\U000e006e\U000e0067\U000e007f flag",
+     "a\u200db", "❤\ufe0f heart"],  # joiners, tags, a selector: measured whole
+    ["\U0001f34b\u0301", "𝔘𝔫𝔦𝔠𝔬𝔡𝔢", "\ud7b0\u11a8"],
+])
+def test_every_kind_of_character_as_shown(values):
+    column = pa.array(values, pa.string())
+    assert longest_label([column]) == reference([column])
+    other = pa.array(list(reversed(values)), pa.string())
+    assert longest_label([column, other]) == reference([column, other])
+
+
+def test_random_names_one_by_one():
+    import random
+    pool = ["a", "Z", " ", "\n", "\x7f", "é", "e\u0301", "\u00a0", "咖", "🍋", "\u202e", "⟨", "␊", "\u200d",
+            "\ufe0f", "\U000e0067", "🏴", "ß", "\u0600", "\uffff", "\U0010fffd"]
+    rng = random.Random(7)
+    for _ in range(400):
+        value = "".join(rng.choice(pool) for _ in range(rng.randint(0, 12)))
+        column = pa.array([value], pa.string())
+        assert longest_label([column]) == reference([column]), repr(value)
