@@ -29,6 +29,7 @@ ZWJ, VS16, BLACK_FLAG = "\u200d", "\ufe0f", "\U0001f3f4"
 TAGS = frozenset(chr(c) for c in range(0xE0020, 0xE0080))  # a subdivision flag's letters and its end
 RESERVED = frozenset(PICTURES.values()) | {OPEN}  # printable, but the shown forms: escaped when in the text
 _RESERVED = re.compile(f"[{re.escape(''.join(sorted(RESERVED)))}]")
+ESCAPE = re.compile(f"{OPEN}U\\+[0-9A-F]{{4,6}}{CLOSE}")  # ``escaped``'s form, as ``clean`` writes it
 
 
 def escaped(ch: str) -> str:

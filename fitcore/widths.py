@@ -8,18 +8,16 @@ character boundaries and never inside a shown escape form (``⟨U+202E⟩``, ``f
 from __future__ import annotations
 
 import os.path
-import re
 import unicodedata
 from collections import defaultdict
 from collections.abc import Callable
 
-from .text import CLOSE, OPEN, reveal_unnormalised
+from .text import CLOSE, ESCAPE, OPEN, reveal_unnormalised
 
 ELLIPSIS = "…"
 MIN_PART = 4  # width a key part keeps at least ("ab…z"); below that a key shows its segments' ends
 
 Measure = Callable[[str], int]
-ESCAPE = re.compile(f"{OPEN}U\\+[0-9A-F]{{4,6}}{CLOSE}")  # clean's form of a character that does not print
 CONTEXT = 2  # characters kept before the first difference when a key is cut to show it
 ROUNDS = 8  # re-cuts of clashing keys before the last resort (a few: each round shows a later difference)
 
@@ -176,11 +174,12 @@ def distinct_keys(keys: list[tuple[str, ...]], width: int, separator: str, measu
     """
     labels = [fit_key(key, width, separator, measure) for key in keys]
     shown = list(keys)
-    for round in range(ROUNDS + 1):
+    kept: list[tuple] = [(None,) * len(key) for key in keys]  # per key and part, the difference kept in view
+    for attempt in range(ROUNDS + 1):
         clashing = _clashing(labels, keys)
         if not clashing:
             break
-        if round == ROUNDS:  # too narrow to show every difference: the last resort, a number each
+        if attempt == ROUNDS:  # too narrow to show every difference: the last resort, a number each
             numbers = {key: n for n, key in enumerate(sorted({keys[i] for g in clashing for i in g}), 1)}
             for i in (i for g in clashing for i in g):
                 labels[i] = _numbered(labels[i], numbers[keys[i]], width, measure)
@@ -188,8 +187,10 @@ def distinct_keys(keys: list[tuple[str, ...]], width: int, separator: str, measu
         for group in clashing:
             for i in group:
                 shown[i] = tuple(map(reveal_unnormalised, shown[i]))
-            for i, label in zip(group, _recut([shown[i] for i in group], width, separator, measure)):
-                labels[i] = label
+            at = _differences([shown[i] for i in group])
+            for i in group:  # a difference shown in an earlier round stays in view where this group's parts agree
+                kept[i] = tuple(new if new is not None else old for new, old in zip(at, kept[i]))
+                labels[i] = _cut_key(shown[i], width, separator, measure, kept[i])
     return labels
 
 
@@ -207,10 +208,11 @@ def _numbered(label: str, n: int, width: int, measure: Measure) -> str:
     return (label if measure(label) + len(tag) <= width else cut_end(label, width - len(tag), measure)) + tag
 
 
-def _recut(keys: list[tuple[str, ...]], width: int, separator: str, measure: Measure) -> list[str]:
-    """``keys``, which read alike cut, each cut again with its parts' first difference in view."""
+def _differences(keys: list[tuple[str, ...]]) -> tuple[int | None, ...]:
+    """Per part of ``keys`` (which read alike cut), where they first differ (their common start's length),
+    None where they agree."""
     at: list[int | None] = []
     for j in range(len(keys[0])):
         values = {key[j] for key in keys}
         at.append(None if len(values) == 1 else len(os.path.commonprefix(list(values))))
-    return [_cut_key(key, width, separator, measure, tuple(at)) for key in keys]
+    return tuple(at)

@@ -91,11 +91,11 @@ def longest_label(columns: list, cap: int | None = None) -> int:
     return longest if cap is None else min(longest, cap)
 
 
-CONTEXT = frozenset([0x200D, 0xFE0F, *range(0xE0020, 0xE0080)])  # joiner, emoji selector, tags
+MEASURED_WHOLE = frozenset([0x200D, 0xFE0F, *range(0xE0020, 0xE0080)])  # joiner, emoji selector, tags
 
 
 def _cells(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """((S,) cells, (S,) holding a character of CONTEXT, (S,) not null) of an Arrow string or large string
+    """((S,) cells, (S,) holding a character of MEASURED_WHOLE, (S,) not null) of an Arrow string or large string
     array: each value's ASCII bytes a cell each, and each other character the cells of its ``clean`` form
     (code points decoded from the UTF-8 bytes, summed per value with one cumulative sum)."""
     import pyarrow as pa
@@ -124,7 +124,7 @@ def _cells(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
             multi = np.where(b0 < 0xE0, 2, np.where(b0 < 0xF0, 3, 4))  # bytes of that character
             cells = cells - np.bincount(value, weights=multi - size[code], minlength=n).astype(np.int64)
             odd = np.zeros(len(size), dtype=bool)
-            odd[[c for c in CONTEXT if c < len(size)]] = True
+            odd[[c for c in MEASURED_WHOLE if c < len(size)]] = True
             context[value[odd[code]]] = True
     present = (np.unpackbits(np.frombuffer(validity, np.uint8), bitorder="little")[start:start + n].astype(bool)
                if array.null_count else np.ones(n, dtype=bool))
