@@ -83,4 +83,4 @@ async def test_the_override_dialog_says_the_accept_that_stands(other_fit):
         lines = screen_text(app).splitlines()
         at = next(i for i, line in enumerate(lines) if re.search(r"[✓↺ ] poly1 ", line))
         assert re.search(r"✓ poly1 ", lines[at]) and "↺" not in "\n".join(lines), lines[at]
-        assert "accepted (another fit's proposal), stands now" in lines[at + 1], lines[at + 1]
+        assert "accepted, stands now" in lines[at + 1], lines[at + 1]

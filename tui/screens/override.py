@@ -91,8 +91,8 @@ class OverrideDialog(ModalScreen[str | None]):
         (of another fit's proposal), not an override."""
         super().__init__()
         self.results, self.s, self.label, self.standing = results, s, label, standing
-        self.standing_mark, self.standing_role = (("✓ ", "accepted (another fit's proposal), stands now · ")
-                                                  if accepted else ("↺ ", "overridden, stands now · "))
+        self.standing_mark, self.standing_role = (("✓ ", "accepted, stands now · ")
+                                                  if accepted else ("↺ ", "stands now · "))
         self.rows = candidate_rows(results, s, diagnosis)
         self.narrow = False  # each model's interval on its second line (set by ``compose`` from the width)
 
