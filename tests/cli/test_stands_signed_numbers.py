@@ -10,6 +10,7 @@ from pathlib import Path
 
 import numpy as np
 import pyarrow.parquet as pq
+import pytest
 
 from pricefold.cli import main
 from pricefold.show import number
@@ -28,15 +29,23 @@ def loglog_at(product: str, region: str, price: float) -> tuple[float, float]:
     return float(np.exp(fit.params[0] + fit.params[1] * np.log(price)) * smearing), float(fit.params[1])
 
 
-def test_show_gives_the_signed_numbers_of_a_model_these_results_did_not_fit(tmp_path, capsys):
-    book = tmp_path / "ledger.jsonl"
+@pytest.fixture(scope="module")
+def refitted(tmp_path_factory):
+    """(ledger: the shipped sample's unflagged series accepted, results refitted with --no-loglog)."""
+    folder = tmp_path_factory.mktemp("no-loglog")
+    book = folder / "ledger.jsonl"
     assert main(["ledger", "accept-unflagged", str(SAMPLE / "results.parquet"), "--ledger", str(book), "-q"]) == 0
     assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week", "--plan",
-                 str(SAMPLE / "plan.csv"), "--no-loglog", "-q", "-o", str(tmp_path / "r.json")]) == 0
+                 str(SAMPLE / "plan.csv"), "--no-loglog", "-q", "-o", str(folder / "r.json")]) == 0
+    return book, folder / "r.json"
+
+
+def test_show_gives_the_signed_numbers_of_a_model_these_results_did_not_fit(refitted, capsys):
+    book, results = refitted
     rows = pq.read_table(SAMPLE / "results.parquet").to_pylist()
     signed = next(r for r in rows if r["is_chosen"] and r["candidate"] == "loglog" and r["flags"] == "[]")
     capsys.readouterr()
-    assert main(["show", str(tmp_path / "r.json"), "--ledger", str(book), "--product", signed["product"],
+    assert main(["show", str(results), "--ledger", str(book), "--product", signed["product"],
                  "--key", f"region={signed['region']}"]) == 0
     out = capsys.readouterr().out
     (line,) = [text.strip() for text in out.splitlines() if text.strip().startswith("stands: ")]
@@ -47,8 +56,12 @@ def test_show_gives_the_signed_numbers_of_a_model_these_results_did_not_fit(tmp_
     assert (f"volume {number(signed['plan_volume'])} ({number(signed['plan_lo'])} to {number(signed['plan_hi'])}), "
             f"elasticity {signed['plan_elasticity']:.2f}") in line, line
 
-    # the list: a proposal without flags says so ("proposes poly1: —" read as a missing number)
-    assert main(["show", str(tmp_path / "r.json"), "--ledger", str(book)]) == 0
+
+def test_the_list_says_a_proposal_has_no_flags(refitted, capsys):
+    """"proposes poly1: —" read as a missing number: the proposal of these results has no flags."""
+    book, results = refitted
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
     rows = [row for row in capsys.readouterr().out.splitlines() if " proposes " in row]
     assert rows and not any(row.rstrip().endswith(": —") for row in rows), rows
     assert any(row.rstrip().endswith(": no flags") for row in rows), rows
