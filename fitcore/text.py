@@ -71,7 +71,8 @@ def original(shown: str) -> str:
         code = match.group(1)
         if code is None:
             return _UNPICTURED[match.group(0)]
-        return chr(int(code, 16)) if int(code, 16) <= 0x10FFFF else match.group(0)
+        point = int(code, 16)  # a surrogate or beyond Unicode stands for no character: left as typed
+        return chr(point) if point <= 0x10FFFF and not 0xD800 <= point <= 0xDFFF else match.group(0)
     return _SHOWN.sub(back, shown)
 
 

@@ -228,7 +228,7 @@ def stands_words(record: dict, stands: dict, carry: dict | None = None, signed: 
         if not (signed and (signed.get("basis") or {}).get("coef")):
             said += f" (these results did not fit {clean(str(model))}, and the ledger holds no curve of it)"
         elif plan and plan.get("price") is not None:
-            at_plan = at_prices([signed], [plan["price"]], signed.get("level") or plan.get("level") or 0.95)[0]
+            at_plan = at_prices([signed], [plan["price"]], plan["level"])[0]  # at the level signed, if it says
     if plan and at_plan is not None:
         interval = (f" ({number(at_plan['lo'])} to {number(at_plan['hi'])})"
                     if at_plan.get("lo") is not None and at_plan.get("hi") is not None else " (no interval)")

@@ -50,7 +50,7 @@ def pad(text: str, width: int, right: bool = False) -> str:
 def key_label(parts: tuple[str, ...], width: int) -> str:
     """A series key in exactly ``width`` cells, every part keeping a share and its ends (``fit_key``).
 
-    ``parts``: product first, then the segment values.  Rows of different series read differently.
+    ``parts``: product first, then the segment values.  Keys shown together: ``key_labels``.
     """
     return pad(fit_key(parts, width, SEPARATOR, cell_len), width)
 

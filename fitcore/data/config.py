@@ -73,6 +73,7 @@ def load_config(path: Path | None, keys: dict[str, dict[str, tuple]], *, cwd: Pa
             kinds = keys[table][key]
             if isinstance(value, bool) and bool not in kinds or not isinstance(value, kinds):
                 wanted = " or ".join(KIND_NAMES[k] for k in kinds)
-                raise SettingsError(f"{path}: [{table}] {key} should be {wanted}, got {quoted(value) if isinstance(value, str) else repr(value)}")
+                got = quoted(value) if isinstance(value, str) else repr(value)
+                raise SettingsError(f"{path}: [{table}] {key} should be {wanted}, got {got}")
     document["_path"] = str(path)
     return document

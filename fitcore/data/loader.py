@@ -34,7 +34,8 @@ def file_kind(path: Path) -> tuple[str, str | None]:
         return "parquet", None
     if name.suffix.lower() in CSV_SUFFIXES:
         return "csv", CSV_SUFFIXES[name.suffix.lower()]
-    raise DataError(f"expected a .csv, .tsv, .txt (optionally .gz) or .parquet file, got {quoted(path.name)}", path=str(path))
+    raise DataError(f"expected a .csv, .tsv, .txt (optionally .gz) or .parquet file, got {quoted(path.name)}",
+                    path=str(path))
 
 
 def load(path: str | Path, columns: Columns = Columns(), *, sep: str | None = None) -> Dataset:

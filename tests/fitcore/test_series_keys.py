@@ -59,3 +59,4 @@ def test_search_finds_a_name_by_its_shown_form():
     assert keys.matching("⟨U+240A⟩").tolist() == [False, False, True, False]  # the literal picture, as shown
     assert keys.matching("caf\u00e9").tolist() == [False, False, False, True]  # typed composed, held decomposed
     assert keys.matching("evil").tolist() == [True, False, False, False]
+    assert keys.matching("⟨U+D800⟩").tolist() == [False] * 4  # a surrogate stands for no character: no error
