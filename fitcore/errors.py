@@ -11,6 +11,8 @@ deficiency) is never an exception: it is recorded in that series' result.
 """
 from __future__ import annotations
 
+from .text import quoted
+
 
 class PricefoldError(Exception):
     """Base class: the command line prints these as one line, without a traceback."""
@@ -33,7 +35,7 @@ class DataError(PricefoldError, ValueError):
         where = ", ".join(part for part in (
             str(path) if path else None,
             f"line {line}" if line is not None else None,
-            f"column {column!r}" if column else None) if part)
+            f"column {quoted(column)}" if column else None) if part)
         super().__init__(f"{where}: {message}" if where else message)
 
 

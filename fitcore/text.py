@@ -10,6 +10,10 @@ the text is escaped the same way (``⟨U+240A⟩``), so every shown text reads b
 Emoji sequences stay whole (the zero-width joiner between two pictographs and the tag characters after a
 black flag are kept, and escaped elsewhere, where they are invisible; variation selectors are printable).
 
+Two texts that differ only in Unicode normalisation (``café`` with a composed ``é`` and with ``e`` and a
+combining accent) print alike; where two such names are shown together, ``reveal_unnormalised`` shows the
+one not in NFC form with what NFC would change by code point (``cafe⟨U+0301⟩``).
+
 A message put together from texts ``clean`` has shown already (an error naming a series, a ledger sentence)
 goes through ``printable`` at the edge instead: it shows what does not print as ``clean`` does and leaves the
 rest, the shown forms included, as it is (``clean`` again would escape the pictures it made).
@@ -17,7 +21,7 @@ rest, the shown forms included, as it is (``clean`` again would escape the pictu
 from __future__ import annotations
 
 import re
-from unicodedata import category
+from unicodedata import category, combining, is_normalized, normalize
 
 OPEN, CLOSE = "\u27e8", "\u27e9"  # ⟨ ⟩ MATHEMATICAL ANGLE BRACKETS: one cell each, rare in names
 PICTURES = {chr(c): chr(0x2400 + c) for c in range(0x20)} | {"\x7f": "\u2421"}  # ␀ … ␟, ␡
@@ -25,6 +29,7 @@ ZWJ, VS16, BLACK_FLAG = "\u200d", "\ufe0f", "\U0001f3f4"
 TAGS = frozenset(chr(c) for c in range(0xE0020, 0xE0080))  # a subdivision flag's letters and its end
 RESERVED = frozenset(PICTURES.values()) | {OPEN}  # printable, but the shown forms: escaped when in the text
 _RESERVED = re.compile(f"[{re.escape(''.join(sorted(RESERVED)))}]")
+ESCAPE = re.compile(f"{OPEN}U\\+[0-9A-F]{{4,6}}{CLOSE}")  # ``escaped``'s form, as ``clean`` writes it
 
 
 def escaped(ch: str) -> str:
@@ -39,6 +44,42 @@ def clean(text: str) -> str:
     if text.isprintable() and (text.isascii() or _RESERVED.search(text) is None):  # the usual case, in C
         return text
     return _shown(text, RESERVED)
+
+
+def reveal_unnormalised(shown: str) -> str:
+    """A shown text (``clean``'s) that is not in NFC form with each character NFC would change — combining
+    marks, conjoining jamo, characters NFC replaces — as ``⟨U+XXXX⟩``, so that it no longer reads as its NFC
+    twin; a text in NFC form as it is."""
+    if shown.isascii() or is_normalized("NFC", shown):
+        return shown
+    return "".join(escaped(ch) if combining(ch) or category(ch).startswith("M") or normalize("NFC", ch) != ch
+                   or "\u1100" <= ch <= "\u11ff" or "\ua960" <= ch <= "\ua97f" or "\ud7b0" <= ch <= "\ud7ff"
+                   else ch for ch in shown)
+
+
+_SHOWN = re.compile(f"{OPEN}[Uu]\\+([0-9A-Fa-f]{{4,6}}){CLOSE}|[{''.join(sorted(PICTURES.values()))}]")
+_UNPICTURED = {picture: ch for ch, picture in PICTURES.items()}
+
+
+def original(shown: str) -> str:
+    """The text ``shown`` (what an analyst copies or types from the screen) reads back to: each escape form
+    ``⟨U+202E⟩`` and control picture ``␊`` as the character it stands for (``clean`` undone)."""
+    if shown.isascii() or _SHOWN.search(shown) is None:
+        return shown
+
+    def back(match: re.Match) -> str:
+        code = match.group(1)
+        if code is None:
+            return _UNPICTURED[match.group(0)]
+        point = int(code, 16)  # a surrogate or beyond Unicode stands for no character: left as typed
+        return chr(point) if point <= 0x10FFFF and not 0xD800 <= point <= 0xDFFF else match.group(0)
+    return _SHOWN.sub(back, shown)
+
+
+def quoted(text) -> str:
+    """``'text'`` as an error message names a user's value: ``clean``'s form between single quotes (a
+    ``repr`` would show ``'nosuch\\u202eevil\\n2'``, not what the screen and the rejects file show)."""
+    return f"'{clean(str(text))}'"
 
 
 def printable(message: str) -> str:

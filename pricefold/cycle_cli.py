@@ -202,11 +202,15 @@ def standing_model(record: dict, book) -> str:
     return record["chosen"] or "—"
 
 
-def stands_words(record: dict, stands: dict, carry: dict | None = None) -> list[str]:
+def stands_words(record: dict, stands: dict, carry: dict | None = None, signed: dict | None = None) -> list[str]:
     """'stands: poly1, overridden by ana at …; at the plan price 2.50: volume 250.0 (204.1 to 295.9), elasticity
     -0.71' — the standing model's own numbers from the record's candidates; for a decision ``carry`` carried
-    to these data, said as its refit on them (the curve as signed is the backtest's line).  An accept of
-    another model than these results propose adds a line saying so."""
+    to these data, said as its refit on them (the curve as signed is the backtest's line).  Where these
+    results did not fit that model (``--no-loglog`` after a loglog was signed), the numbers of the ``signed``
+    snapshot of the standing record at this plan price, as ``ledger export`` gives them, said to be the signed
+    curve's.  An accept of another model than these results propose adds a line saying so."""
+    from fitcore.ledger.snapshot import at_prices
+
     from .show import money, number, slope
     model = stands["model"]
     verb = "accepted" if stands["action"] == "accept" else "overridden"
@@ -215,11 +219,21 @@ def stands_words(record: dict, stands: dict, carry: dict | None = None) -> list[
         said += f", carried by {clean(str(carry['analyst']))} at {_minute(carry)}"
     plan = record.get("plan")
     cand = next((c for c in record["candidates"] if c["name"] == model), None)
-    if plan and cand is not None and cand.get("plan_volume") is not None:
-        whose = "its refit on these data at" if carry is not None else "at"
+    at_plan, whose = None, "its refit on these data at" if carry is not None else "at"
+    if cand is not None and cand.get("plan_volume") is not None:
+        at_plan = {"volume": cand["plan_volume"], "lo": cand["plan_lo"], "hi": cand["plan_hi"],
+                   "elasticity": cand["plan_elasticity"]}
+    elif cand is None:  # not fitted here: the signed curve's numbers, never these results'
+        whose = f"these results did not fit {clean(str(model))}: the curve as signed, at"
+        if not (signed and (signed.get("basis") or {}).get("coef")):
+            said += f" (these results did not fit {clean(str(model))}, and the ledger holds no curve of it)"
+        elif plan and plan.get("price") is not None:
+            at_plan = at_prices([signed], [plan["price"]], plan["level"])[0]  # at the level signed, if it says
+    if plan and at_plan is not None:
+        interval = (f" ({number(at_plan['lo'])} to {number(at_plan['hi'])})"
+                    if at_plan.get("lo") is not None and at_plan.get("hi") is not None else " (no interval)")
         said = (f"{said}; {whose} the plan price {number(plan['price'], money)}: volume "
-                f"{number(cand['plan_volume'])} ({number(cand['plan_lo'])} to {number(cand['plan_hi'])}), "
-                + slope({"volume": cand["plan_volume"], "elasticity": cand["plan_elasticity"]}))
+                f"{number(at_plan['volume'])}{interval}, " + slope(at_plan))
     if verb == "overridden":
         return [said]
     proposal = record["chosen"] or "nothing"
@@ -240,7 +254,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     line on stderr."""
     from fitcore.review.sentences import shift_sentence
 
-    from .show import detail, in_attention_order, key_cell
+    from .show import detail, in_attention_order, key_cells
     book = open_ledger(ledger_path, must_exist=True)
     if header is not None:
         said = key_mismatch(header, book, ledger_path)
@@ -261,13 +275,15 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         if stands is not None:
             current = book.histories[series_id(record["key"])].current
             lines += ["  " + line for line in
-                      stands_words(record, stands, current if current["action"] == "carry" else None)]
+                      stands_words(record, stands, current if current["action"] == "carry" else None,
+                                   current.get("signed"))]
         if record.get("backtest"):
             said = shift_sentence(record["backtest"], record["chosen"], older=needs == NEWER_DUE)
             lines.append(f"  since sign-off (the curve as signed): {said}")
         return "\n".join(lines)
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]
-    for record in in_attention_order(records):
+    ordered = in_attention_order(records)
+    for record, label in zip(ordered, key_cells([record["key"] for record in ordered])):
         status, needs = ledger_state(record, book, short=True)
         bt = record.get("backtest") or {}
         ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
@@ -275,9 +291,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
         stands = standing_decision(record, book)
         if stands is not None and stands["action"] == "accept":  # the flags are these results' proposal's
-            flags = f"proposes {record['chosen'] or 'nothing'}: {flags}"
+            flags = f"proposes {record['chosen'] or 'nothing'}: {flags if record['flags'] else 'no flags'}"
         model = standing_model(record, book)
-        lines.append(f"{key_cell(record['key']):<40} {record['n']:>5} {model:<7} "
+        lines.append(f"{label} {record['n']:>5} {model:<7} "
                      f"{status:<20} {(needs or '—')[:21]:<21} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
 

@@ -18,7 +18,7 @@ from fitcore.ledger.replay import apply, own_standing, series_id
 from fitcore.text import clean
 
 from .ledger_options import KEY_VARIABLE
-from .show import key_text
+from .show import key_text, told_apart
 
 HEAD = re.compile(r"(\d+):([0-9a-f]{64})")
 
@@ -212,8 +212,11 @@ def run_show(args) -> int:
                                  f"columns: {sets}); name it with --product-column")
     several = len(key_sets(h.latest["series"] for h in book.histories.values())) > 1  # name the columns then
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
+    named = product if several else None
+    texts = [key_text(product_first(r["series"], product), named=named) for r in book.records]
+    shown = told_apart(texts)  # a decomposed 'café' beside a composed one: told apart
     histories = {}  # replayed as listed: a revoke names the decision it withdrew
-    for r in book.records:
+    for r, text in zip(book.records, texts):
         withdrawn = (own_standing(histories.get(series_id(r["series"])), r["analyst"], r.get("os_user"))
                      if r["action"] == "revoke" else None)
         apply(histories, [r])
@@ -231,7 +234,7 @@ def run_show(args) -> int:
             who = f"{who} ({clean(r['os_user'])})"
         note = f" — {clean(r['note'])}" if r.get("note") else ""
         print(f"#{r['seq']:<5} {clean(r['at'])}  {who:<12} {r['action']:<8} {model:<22} "
-              f"{key_text(product_first(r['series'], product), named=product if several else None)}{note}")
+              f"{shown[text]}{note}")
     return 0
 
 

@@ -352,37 +352,17 @@ def _signed_at_price(path, rows: list[list], later: list[tuple], level) -> None:
     signed curve's volume, interval (at the signed level; none where the snapshot lacks its interval parts) and
     elasticity at this results' plan price, all such rows of a family at once.  Refuses (``refusal``) where
     the results' own volume there differs from the signed curve's (and their interval, at the same level)."""
-    import numpy as np
-
-    from fitcore.fit.families import BY_NAME
-    from fitcore.ledger.snapshot import evaluate
-    groups: dict[tuple, list[tuple]] = {}
-    for item in later:
-        snapshot = item[2]
-        groups.setdefault((snapshot["family"], len(snapshot["basis"]["coef"]), snapshot.get("level")), []).append(item)
-    for (family, k, signed_level), items in groups.items():
-        snaps = [item[2] for item in items]
-
-        def column(get, default=np.nan):
-            return np.array([default if get(sn) is None else get(sn) for sn in snaps], dtype=float)
-        nan_cov = [[np.nan] * k] * k
-        volume, lo, hi, elasticity = evaluate(
-            BY_NAME[family], np.array([sn["basis"]["coef"] for sn in snaps], dtype=float),
-            column(lambda sn: sn["basis"]["mid"]), column(lambda sn: sn["basis"]["half"]),
-            column(lambda sn: sn.get("smearing")), np.array([sn.get("cov_unscaled") or nan_cov for sn in snaps],
-                                                             dtype=float),
-            column(lambda sn: sn.get("sigma2")), column(lambda sn: sn.get("df"), 1).astype(np.int64),
-            np.array([item[3] for item in items], dtype=float), level if signed_level is None else signed_level)
-        for j, (row, key, snapshot, price, theirs) in enumerate(items):
-            ours = {name: (float(v[j]) if math.isfinite(v[j]) else None) for name, v in
-                    (("volume", volume), ("lo", lo), ("hi", hi), ("elasticity", elasticity))}
-            checked = ("volume", "elasticity") if signed_level != level else ("volume", "lo", "hi", "elasticity")
-            for name in checked if not snapshot.get("controls") else ():
-                if theirs.get(name) is not None and ours[name] is not None and not _agree(theirs[name], ours[name]):
-                    raise refusal(path, key, f"plan_{name}", theirs[name], ours[name],
-                                  f"on the curve signed (at plan price {price!r})")
-            at = len(key) + 9  # plan_volume's place: the key columns, then status … plan_price
-            rows[row][at:at + 4] = plan_cells(ours)
+    from fitcore.ledger.snapshot import at_prices
+    signed = at_prices([item[2] for item in later], [item[3] for item in later], level)
+    for (row, key, snapshot, price, theirs), ours in zip(later, signed):
+        signed_level = snapshot.get("level")
+        checked = ("volume", "elasticity") if signed_level != level else ("volume", "lo", "hi", "elasticity")
+        for name in checked if not snapshot.get("controls") else ():
+            if theirs.get(name) is not None and ours[name] is not None and not _agree(theirs[name], ours[name]):
+                raise refusal(path, key, f"plan_{name}", theirs[name], ours[name],
+                              f"on the curve signed (at plan price {price!r})")
+        at = len(key) + 9  # plan_volume's place: the key columns, then status … plan_price
+        rows[row][at:at + 4] = plan_cells(ours)
 
 
 def coef_text(coef: list) -> str:

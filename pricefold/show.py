@@ -8,8 +8,8 @@ from fitcore.review import choice
 from fitcore.review.attention import attention_order
 from fitcore.review.control_words import effect_words
 from fitcore.review.sentences import fmt, money, two_places
-from fitcore.text import clean
-from fitcore.widths import cells, fit_key
+from fitcore.text import clean, reveal_unnormalised
+from fitcore.widths import cells, distinct_keys, reads
 
 SEVERITY_ORDER = {"stop": 0, "warn": 1}
 
@@ -65,11 +65,22 @@ def key_text(key: dict, named: str | None = None) -> str:
     return SEPARATOR.join(map(clean, map(str, key.values())))
 
 
-def key_cell(key: dict, width: int = 40) -> str:
-    """``key_text`` in at most ``width`` cells for a list's column, by the triage list's rule
-    (``fitcore.widths.fit_key``): each part keeps a share and long ones lose their middle, so rows of
-    different series read differently."""
-    return fit_key(tuple(clean(str(v)) for v in key.values()), width, SEPARATOR, cells)
+def told_apart(texts) -> dict[str, str]:
+    """Each of ``texts`` (shown forms, whole) as a list prints it: as it is, but one not in NFC form beside
+    another that reads the same (``café`` decomposed beside composed) with what NFC changes shown by code
+    point (``fitcore.text.reveal_unnormalised``)."""
+    seen: dict[str, set] = {}
+    for text in texts:
+        seen.setdefault(reads(text), set()).add(text)
+    return {text: reveal_unnormalised(text) if len(alike) > 1 else text for alike in seen.values() for text in alike}
+
+
+def key_cells(keys: list[dict], width: int = 40) -> list[str]:
+    """Each ``key_text`` in ``width`` cells (padded) for a list's column, by the triage list's rule
+    (``fitcore.widths.distinct_keys``): each part keeps a share and long ones lose their middle, cut
+    again where two would read the same, so rows of different series read differently."""
+    labels = distinct_keys([tuple(clean(str(v)) for v in key.values()) for key in keys], width, SEPARATOR, cells)
+    return [pad_cells(label, width) for label in labels]
 
 
 def pad_cells(text: str, width: int) -> str:
@@ -88,9 +99,10 @@ def flag_codes(flags: list, said: dict) -> str:
 def table(records: list[dict]) -> str:
     lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'score':>6}  flags"]
     said: dict[int, str] = {}
-    for r in in_attention_order(records):
+    ordered = in_attention_order(records)
+    for r, label in zip(ordered, key_cells([r["key"] for r in ordered])):
         score = percent(r["score"])
-        lines.append(f"{pad_cells(key_cell(r['key']), 40)} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  "
+        lines.append(f"{label} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  "
                      f"{flag_codes(r['flags'], said)}")
     return "\n".join(lines)
 

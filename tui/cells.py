@@ -9,7 +9,8 @@ import numpy as np
 from rich.cells import cell_len
 
 from fitcore.data.keys import SEPARATOR
-from fitcore.widths import cut_end, fit_key
+from fitcore.text import clean
+from fitcore.widths import cut_end, distinct_keys, fit_key
 
 
 def cut(text: str, width: int) -> str:
@@ -49,30 +50,54 @@ def pad(text: str, width: int, right: bool = False) -> str:
 def key_label(parts: tuple[str, ...], width: int) -> str:
     """A series key in exactly ``width`` cells, every part keeping a share and its ends (``fit_key``).
 
-    ``parts``: product first, then the segment values.  Rows of different series read differently.
+    ``parts``: product first, then the segment values.  Keys shown together: ``key_labels``.
     """
     return pad(fit_key(parts, width, SEPARATOR, cell_len), width)
 
 
-def longest_label(columns: list) -> int:
-    """Characters of the longest label the key ``columns`` (Arrow text, one per key part, S each) make when
-    joined by ``SEPARATOR`` (a row with a null part makes none): as ``pyarrow.compute``'s ``utf8_length`` of
-    ``binary_join_element_wise`` counts them, read from the arrays' buffers, since importing
-    ``pyarrow.compute`` (0.1 s) held the first drawing of the list back."""
+def key_labels(keys: list[tuple[str, ...]], width: int) -> list[str]:
+    """``key_label`` of each of the series ``keys`` shown together, no two of different series reading the same
+    (``fitcore.widths.distinct_keys``)."""
+    return [pad(label, width) for label in distinct_keys(keys, width, SEPARATOR, cell_len)]
+
+
+def longest_label(columns: list, cap: int | None = None) -> int:
+    """Cells of the longest series label the key ``columns`` (Arrow text, one per key part, S each) make when
+    shown (each part ``clean``'s form, joined by ``SEPARATOR``; a row with a null part makes none), or ``cap``
+    when one is at least that long.
+
+    Counted without a Python object per series, from the arrays' buffers (importing ``pyarrow.compute``,
+    0.1 s, held the first drawing of the list back): an ASCII character shows in one cell (a control as its
+    one-cell picture), any other as its shown form measures alone (a CJK character two cells, an escape form
+    ``⟨U+202E⟩`` eight, a combining mark none), each distinct code point measured once.  A label holding a
+    joiner, a variation selector or a tag character (whose width depends on their neighbours) is measured
+    whole."""
     if not columns or not len(columns[0]):
         return 0
-    total = np.full(len(columns[0]), len(SEPARATOR) * (len(columns) - 1), dtype=np.int64)
-    valid = np.ones(len(columns[0]), dtype=bool)
+    n = len(columns[0])
+    shown = np.full(n, len(SEPARATOR) * (len(columns) - 1), dtype=np.int64)
+    whole = np.zeros(n, dtype=bool)  # measured whole: their characters' widths depend on their neighbours
+    valid = np.ones(n, dtype=bool)
     for column in columns:
-        chars, present = _characters(column)
-        total += chars
+        cells, context, present = _cells(column)
+        shown += cells
+        whole |= context
         valid &= present
-    return int(total[valid].max()) if valid.any() else 0
+    if not valid.any():
+        return 0
+    for s in np.flatnonzero(whole & valid).tolist():
+        shown[s] = cell_len(SEPARATOR.join(clean(column[s].as_py()) for column in columns))
+    longest = int(shown[valid].max())
+    return longest if cap is None else min(longest, cap)
 
 
-def _characters(array) -> tuple[np.ndarray, np.ndarray]:
-    """((S,) characters, (S,) not null) of an Arrow string or large string array: each value's bytes less its
-    UTF-8 continuation bytes (10xxxxxx), counted with one cumulative sum over the array's bytes."""
+MEASURED_WHOLE = frozenset([0x200D, 0xFE0F, *range(0xE0020, 0xE0080)])  # joiner, emoji selector, tags
+
+
+def _cells(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """((S,) cells, (S,) holding a character of MEASURED_WHOLE, (S,) not null) of an Arrow string or large string
+    array: each value's ASCII bytes a cell each, and each other character the cells of its ``clean`` form
+    (code points decoded from the UTF-8 bytes, summed per value with one cumulative sum)."""
     import pyarrow as pa
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
@@ -80,12 +105,27 @@ def _characters(array) -> tuple[np.ndarray, np.ndarray]:
     validity, offsets, data = array.buffers()[:3]
     width = np.int64 if pa.types.is_large_string(array.type) else np.int32
     ends = np.frombuffer(offsets, width, count=n + 1, offset=start * np.dtype(width).itemsize).astype(np.int64)
-    chars = np.diff(ends)
+    cells = np.diff(ends)
+    context = np.zeros(n, dtype=bool)
     if data is not None and ends[-1] > ends[0]:
         body = np.frombuffer(data, np.uint8, count=int(ends[-1] - ends[0]), offset=int(ends[0]))
-        if body.max() >= 0x80:  # not all ASCII: continuation bytes are not characters
-            counted = np.concatenate(([0], np.cumsum((body & 0xC0) == 0x80)))
-            chars = chars - (counted[ends[1:] - ends[0]] - counted[ends[:-1] - ends[0]])
+        if body.max() >= 0x80:  # not all ASCII: each lead byte's character, decoded
+            lead = np.flatnonzero(body >= 0xC0)
+            last = len(body) - 1  # a byte past the end is only read for a shorter character, and not used
+            b0, c1, c2, c3 = (body[np.minimum(lead + k, last)].astype(np.int64) & (0xFF if k == 0 else 0x3F)
+                              for k in range(4))
+            code = np.where(b0 < 0xE0, ((b0 & 0x1F) << 6) | c1,
+                            np.where(b0 < 0xF0, ((b0 & 0x0F) << 12) | (c1 << 6) | c2,
+                                     ((b0 & 0x07) << 18) | (c1 << 12) | (c2 << 6) | c3))
+            points = np.flatnonzero(np.bincount(code))  # each distinct character, measured once
+            size = np.zeros(int(points[-1]) + 1, dtype=np.int64)
+            size[points] = [cell_len(clean(chr(c))) for c in points.tolist()]
+            value = np.searchsorted(ends[1:] - ends[0], lead, side="right")  # the value each lead byte is in
+            multi = np.where(b0 < 0xE0, 2, np.where(b0 < 0xF0, 3, 4))  # bytes of that character
+            cells = cells - np.bincount(value, weights=multi - size[code], minlength=n).astype(np.int64)
+            odd = np.zeros(len(size), dtype=bool)
+            odd[[c for c in MEASURED_WHOLE if c < len(size)]] = True
+            context[value[odd[code]]] = True
     present = (np.unpackbits(np.frombuffer(validity, np.uint8), bitorder="little")[start:start + n].astype(bool)
                if array.null_count else np.ones(n, dtype=bool))
-    return chars, present
+    return cells, context, present

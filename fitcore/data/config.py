@@ -32,6 +32,7 @@ import tomllib
 from pathlib import Path
 
 from ..errors import SettingsError
+from ..text import quoted
 
 DEFAULT_NAME = "pricefold.toml"
 KIND_NAMES = {str: "text", list: "a list", bool: "true or false", int: "a whole number", float: "a number"}
@@ -67,11 +68,12 @@ def load_config(path: Path | None, keys: dict[str, dict[str, tuple]], *, cwd: Pa
             raise SettingsError(f"{path}: {table} must be a table, like [{table}]")
         for key, value in values.items():
             if key not in keys[table]:
-                raise SettingsError(f"{path}: unknown key {key!r} in [{table}]; expected one of "
+                raise SettingsError(f"{path}: unknown key {quoted(key)} in [{table}]; expected one of "
                                     f"{', '.join(sorted(keys[table]))}")
             kinds = keys[table][key]
             if isinstance(value, bool) and bool not in kinds or not isinstance(value, kinds):
                 wanted = " or ".join(KIND_NAMES[k] for k in kinds)
-                raise SettingsError(f"{path}: [{table}] {key} should be {wanted}, got {value!r}")
+                got = quoted(value) if isinstance(value, str) else repr(value)
+                raise SettingsError(f"{path}: [{table}] {key} should be {wanted}, got {got}")
     document["_path"] = str(path)
     return document

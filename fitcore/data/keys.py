@@ -11,6 +11,7 @@ from functools import cached_property
 import numpy as np
 
 from ..arrays import integers, numbers, texts
+from ..text import original
 
 SEPARATOR = " · "
 FEW_KEYS = 32  # up to this many keys, ``indices_of`` scans instead of joining
@@ -55,9 +56,36 @@ class SeriesKeys:
         return columns[0] if len(columns) == 1 else pc.binary_join_element_wise(*columns, SEPARATOR)
 
     def matching(self, needle: str) -> np.ndarray:
-        """(S,) bool: the label contains ``needle``, ignoring case."""
+        """(S,) bool: the label contains ``needle``, ignoring case — as typed, or as the text its shown forms
+        stand for (``⟨U+202E⟩``, ``␊``: ``fitcore.text.original``), or in either Unicode normal form (a
+        typed 'é' finds a name holding 'e' and a combining accent)."""
+        import unicodedata
+
         import pyarrow.compute as pc
-        return numbers(pc.fill_null(pc.match_substring(self.labels, needle, ignore_case=True), False))
+        raw = original(needle)
+        needles = {needle, raw} if raw.isascii() else {needle, raw, *(unicodedata.normalize(form, raw)
+                                                                      for form in ("NFC", "NFD"))}
+        found = None
+        for text in needles:
+            hit = pc.match_substring(self.labels, text, ignore_case=True)
+            found = hit if found is None else pc.or_(found, hit)
+        return numbers(pc.fill_null(found, False))
+
+    def nfc_twins(self) -> np.ndarray:
+        """(S,) bool: the label is not in NFC form and another series' label reads the same (has the same NFC
+        form: ``café`` with ``e`` and a combining accent beside ``café`` composed), over whole columns."""
+        import pyarrow as pa
+        import pyarrow.compute as pc
+        labels = self.labels
+        if not len(labels) or pc.all(pc.string_is_ascii(labels)).as_py() is not False:
+            return np.zeros(len(labels), dtype=bool)
+        nfc = pc.utf8_normalize(labels, form="NFC")
+        codes = pc.dictionary_encode(nfc)
+        codes = codes.combine_chunks() if isinstance(codes, pa.ChunkedArray) else codes
+        indices = numbers(pc.fill_null(codes.indices, -1)).astype(np.int64)
+        counts = np.bincount(indices[indices >= 0], minlength=len(codes.dictionary))
+        unnormal = numbers(pc.fill_null(pc.not_equal(nfc, labels), False))
+        return unnormal & (indices >= 0) & (counts[np.maximum(indices, 0)] > 1)
 
     def sorted_order(self) -> np.ndarray:
         """Series indices by label (ties in index order)."""

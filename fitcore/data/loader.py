@@ -13,6 +13,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import DataError
+from ..text import quoted
 from .columns import Columns, file_sha256, is_parquet_name
 from .dataset import Dataset, from_columns
 from .rejects import Rejects
@@ -33,7 +34,8 @@ def file_kind(path: Path) -> tuple[str, str | None]:
         return "parquet", None
     if name.suffix.lower() in CSV_SUFFIXES:
         return "csv", CSV_SUFFIXES[name.suffix.lower()]
-    raise DataError(f"expected a .csv, .tsv, .txt (optionally .gz) or .parquet file, got {path.name!r}", path=str(path))
+    raise DataError(f"expected a .csv, .tsv, .txt (optionally .gz) or .parquet file, got {quoted(path.name)}",
+                    path=str(path))
 
 
 def load(path: str | Path, columns: Columns = Columns(), *, sep: str | None = None) -> Dataset:
@@ -91,7 +93,7 @@ def first_rejected(rejects: Rejects, columns: Columns) -> tuple[str | None, str]
     why = rejects.reasons[0]
     column = next((name for name in columns.needed if why.endswith(f" {name}") or why.startswith(f"{name} ")), None)
     cell = first_cell(rejects, column) if column and why.startswith("non-numeric ") else None
-    return column, why + ("" if cell is None else f": {cell!r}{decimal_comma_hint(cell)}")
+    return column, why + ("" if cell is None else f": {quoted(cell)}{decimal_comma_hint(cell)}")
 
 
 def decimal_comma_hint(cell: str) -> str:
@@ -169,12 +171,12 @@ def check_columns(path: Path, found: list[str], columns: Columns) -> None:
     for name in columns.needed:
         if name not in found:
             close = difflib.get_close_matches(name, found, n=1)
-            hint = f"; did you mean {close[0]!r}?" if close else ""
-            raise DataError(f"expected a column {name!r}, found {', '.join(map(repr, found))}{hint}",
+            hint = f"; did you mean {quoted(close[0])}?" if close else ""
+            raise DataError(f"expected a column {quoted(name)}, found {', '.join(map(quoted, found))}{hint}",
                             path=str(path), line=1, column=name)
     first: dict[str, int] = {}
     for i, name in enumerate(found):
         if name.strip() and name in first:  # an ignored column too: which one a reader takes is a guess
-            raise DataError(f"the column {name!r} appears twice in the header (fields {first[name] + 1} and "
+            raise DataError(f"the column {quoted(name)} appears twice in the header (fields {first[name] + 1} and "
                             f"{i + 1}); rename one", path=str(path), line=1, column=name)
         first.setdefault(name, i)

@@ -8,6 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import DataError
+from ..text import clean, quoted
 from .dataset import Dataset
 from .loader import Columns, read_rows
 
@@ -81,7 +82,7 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
         keep = ~unknown
     elif unknown.any():
         first = int(np.argmax(unknown))
-        names = ", ".join(f"{k}={merged[k].iloc[first]!r}" for k in keys)
+        names = ", ".join(f"{clean(k)}={quoted(merged[k].iloc[first])}" for k in keys)
         raise DataError(f"no series in the data has this key ({names})", path=str(path), line=int(rows.line[first]))
     at = merged["_s"].to_numpy()[keep].astype(np.int64)
 
@@ -98,7 +99,7 @@ def _found(path: Path, kind: str, delimiter: str | None, line: int) -> str:
     from .loader import decimal_comma_hint
     from .rejects import Rejects, first_cell
     cell = first_cell(Rejects(path, kind, delimiter, np.array([line]), [""]), "plan_price")
-    return "" if cell is None else f", found {cell!r}{decimal_comma_hint(cell)}"
+    return "" if cell is None else f", found {quoted(cell)}{decimal_comma_hint(cell)}"
 
 
 def _header_names(path: Path, sep: str | None, wanted: list[str]) -> list[str]:

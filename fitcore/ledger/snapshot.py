@@ -54,6 +54,33 @@ def evaluate(family: Family, coef, mid, half, smear, cov, sigma2, df, price, lev
     return family.at(coef, mid, half, smear, leverage, sigma2, df, price, level)
 
 
+def at_prices(snaps: list[dict], prices, level: float) -> list[dict]:
+    """Each signed curve of ``snaps`` at its own price of ``prices``: ``{"volume", "lo", "hi", "elasticity"}``,
+    None where not finite (no interval where a snapshot lacks its interval parts), all those of one family and
+    basis size at once; the interval at the level each was signed at (``level`` where it says none)."""
+    out: list[dict] = [{} for _ in snaps]
+    groups: dict[tuple, list[int]] = {}
+    for i, sn in enumerate(snaps):
+        groups.setdefault((sn["family"], len(sn["basis"]["coef"]), sn.get("level")), []).append(i)
+    for (family, k, signed_level), at in groups.items():
+        group = [snaps[i] for i in at]
+
+        def column(get, default=np.nan):
+            return np.array([default if get(sn) is None else get(sn) for sn in group], dtype=float)
+        nan_cov = [[np.nan] * k] * k
+        values = evaluate(
+            BY_NAME[family], np.array([sn["basis"]["coef"] for sn in group], dtype=float),
+            column(lambda sn: sn["basis"]["mid"]), column(lambda sn: sn["basis"]["half"]),
+            column(lambda sn: sn.get("smearing")),
+            np.array([sn.get("cov_unscaled") or nan_cov for sn in group], dtype=float),
+            column(lambda sn: sn.get("sigma2")), column(lambda sn: sn.get("df"), 1).astype(np.int64),
+            np.asarray(prices, dtype=float)[at], level if signed_level is None else signed_level)
+        for j, i in enumerate(at):
+            out[i] = {name: (float(v[j]) if math.isfinite(v[j]) else None)
+                      for name, v in zip(("volume", "lo", "hi", "elasticity"), values)}
+    return out
+
+
 def signed_curve(snapshot: dict, price) -> np.ndarray:
     """Volume of a signed curve at ``price`` (its basis and smearing, as recorded)."""
     family, basis = BY_NAME[snapshot["family"]], snapshot["basis"]

@@ -178,7 +178,6 @@ class Charts:
         from fitcore.ledger.signoff import STATUSES
 
         from .charts import ChartInput, ChartMaker, Drawn
-        from .page import esc
         from .tables import label
         if self.maker is None:
             self.maker = ChartMaker()
@@ -204,7 +203,7 @@ class Charts:
         if status == "stale" and not signed:
             standing = -1
         chart = ChartInput(fit, at, rows and bool(fit.rows_loaded), standing, proposal, words, signed)
-        return self.maker.draw(chart, esc(f"Demand curve of {label(book.results, s)}"), note, salt=f"s{s}")
+        return self.maker.draw(chart, f"Demand curve of {label(book.results, s)}", note, salt=f"s{s}")
 
 
 def version() -> str:

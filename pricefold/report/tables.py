@@ -6,11 +6,14 @@ value in ``data-sort``; on a phone each row becomes a card labelled from ``data-
 """
 from __future__ import annotations
 
+import html
 import math
+from functools import lru_cache
 from typing import NamedTuple
 
 from fitcore.ledger.signoff import STATUSES, Signoff
 from fitcore.review.flags import CODES, SEVERITY
+from fitcore.text import clean, reveal_unnormalised
 
 from .page import Report, cell, elasticity, esc, interval, num, price, when
 
@@ -20,8 +23,19 @@ COLUMNS = (("Series", ""), ("Status", ""), ("Model", ""), ("Plan price", "num"),
 
 
 def label(results, s: int) -> str:
-    """Series ``s``'s key as one line (product first), as the data hold it."""
-    return " · ".join(str(v) for v in results.data.key_of(int(s)).values())
+    """Series ``s``'s key as one line (product first), made safe for the page (``esc``); a key not in NFC
+    form beside another that reads the same (``fitcore.data.keys.SeriesKeys.nfc_twins``) shows what NFC
+    changes by code point, as ``pricefold show`` does."""
+    parts = [clean(str(v)) for v in results.data.key_of(int(s)).values()]
+    if _nfc_twins(results)[int(s)]:
+        parts = [reveal_unnormalised(part) for part in parts]
+    return html.escape(" · ".join(parts), quote=True)
+
+
+@lru_cache(maxsize=2)
+def _nfc_twins(results):
+    from fitcore.data.keys import SeriesKeys
+    return SeriesKeys.of(results.data).nfc_twins()
 
 
 def analysts(signoff: Signoff) -> str:
@@ -127,7 +141,7 @@ def row(signoff: Signoff, s: int, detailed: set) -> str:
     current = signoff.standing(s) or {}
     history = signoff.history(s)
     latest = current or (history[-1] if history else {})
-    name = esc(label(results, s))
+    name = label(results, s)
     key = f"<a href=\"#s{s}\">{name}</a>" if s in detailed else name
     carried = " (carried)" if signoff.carried[s] else ""
     time = when(latest["at"], zone=False) if latest.get("at") else ""

@@ -147,7 +147,10 @@ def test_an_unknown_flag_code_is_named_with_the_known_ones(fitted):
 
 def test_a_long_product_name_gives_way_to_its_segments_in_a_list():
     """The list's 40-character column kept the name's first 40 characters and dropped the region."""
-    from pricefold.show import key_cell, table
+    from pricefold.show import key_cells, table
+
+    def key_cell(key, width=40):
+        return key_cells([key], width)[0].rstrip()
     record = {"n": 30, "chosen": "poly1", "score": 0.5, "flags": []}
     rows = table([{**record, "key": {"product": "x" * 500, "region": region}} for region in ("North", "South")])
     names = [line[:40] for line in rows.splitlines()[1:]]

@@ -43,3 +43,20 @@ def test_a_key_of_other_columns_names_no_series(keys, how_many):
     assert series.indices_of(missing).tolist() == [-1] * how_many
     assert by_product.indices_of([{"product": product[0], "region": region[0]}] * how_many).tolist() == [-1] * how_many
     assert by_product.indices_of([{"product": product[0]}] * how_many).tolist() == [0] * how_many
+
+
+def test_search_finds_a_name_by_its_shown_form():
+    """Typing what the screen shows (an escape form, a control picture) finds the series: it searched the raw
+    text, where '⟨U+202E⟩' and '␊' are not."""
+    from fitcore.data.keys import SeriesKeys
+    from fitcore.text import clean
+    names = ["nosuch\u202eevil", "line\nbreak", "plain ␊ picture", "caf\u0065\u0301 noir"]
+    keys = SeriesKeys(("product",), {"product": names})
+    assert clean(names[0]) == "nosuch⟨U+202E⟩evil" and clean(names[1]) == "line␊break"
+    assert keys.matching("⟨U+202E⟩evil").tolist() == [True, False, False, False]
+    assert keys.matching("⟨u+202e⟩").tolist() == [True, False, False, False]
+    assert keys.matching("e␊b").tolist() == [False, True, False, False]
+    assert keys.matching("⟨U+240A⟩").tolist() == [False, False, True, False]  # the literal picture, as shown
+    assert keys.matching("caf\u00e9").tolist() == [False, False, False, True]  # typed composed, held decomposed
+    assert keys.matching("evil").tolist() == [True, False, False, False]
+    assert keys.matching("⟨U+D800⟩").tolist() == [False] * 4  # a surrogate stands for no character: no error

@@ -67,3 +67,20 @@ async def test_the_proposal_of_these_results_may_be_accepted_after_a_look(other_
         session = app.session
         assert session.status[s] == "accepted" and session.accepted_other(s) is None
         assert session.results.names[session.model_of(s)] == proposal
+
+
+async def test_the_override_dialog_says_the_accept_that_stands(other_fit):
+    """The dialog marked the accepted model '↺ … stands now', the list's mark of an override: it is an accept
+    (of another fit's proposal), and says so."""
+    from tui.screens.override import OverrideDialog
+    book, results, key, proposal = other_fit
+    app = make_app(book, source_from_results(results))
+    async with app.run_test(size=(160, 50)) as pilot:
+        await on_series(app, pilot, key)
+        await pilot.press("o")
+        await pilot.pause(0.3)
+        assert isinstance(app.screen, OverrideDialog)
+        lines = screen_text(app).splitlines()
+        at = next(i for i, line in enumerate(lines) if re.search(r"[✓↺ ] poly1 ", line))
+        assert re.search(r"✓ poly1 ", lines[at]) and "↺" not in "\n".join(lines), lines[at]
+        assert "accepted, stands now" in lines[at + 1], lines[at + 1]

@@ -1,19 +1,20 @@
-"""The list's key column is as wide as the longest label: characters counted from the Arrow buffers
-(``tui.cells.longest_label``), checked against ``pyarrow.compute`` (``utf8_length`` of the labels joined by
-``binary_join_element_wise``, as the list counted them before), the reference here."""
+"""The list's key column is as wide as the longest label as shown (``tui.cells.longest_label``): checked
+against every label made one by one, each part ``fitcore.text.clean``'s form, measured by rich's
+``cell_len`` (the screen's own measure), the reference here."""
 from __future__ import annotations
 
 import pyarrow as pa
-import pyarrow.compute as pc
 import pytest
+from rich.cells import cell_len
 
 from fitcore.data.keys import SEPARATOR
+from fitcore.text import clean
 from tui.cells import longest_label
 
 
 def reference(columns) -> int:
-    labels = columns[0] if len(columns) == 1 else pc.binary_join_element_wise(*columns, SEPARATOR)
-    return int(pc.max(pc.utf8_length(labels)).as_py() or 0)
+    rows = zip(*[(c.combine_chunks() if isinstance(c, pa.ChunkedArray) else c).to_pylist() for c in columns])
+    return max((cell_len(SEPARATOR.join(map(clean, row))) for row in rows if None not in row), default=0)
 
 
 WORDS = ["item-1", "Crème brûlée 200 g", "", "咖啡豆 1kg", "🍋 lemon", "naïve", "x" * 41, "e\u0301tagère", None]
@@ -36,8 +37,9 @@ def test_one_key_column_as_pyarrow_counts(values):
 def test_joined_parts_as_pyarrow_counts_with_nulls_skipped():
     product = pa.array(["x" * 41, "Crème brûlée 200 g", "咖啡豆 1kg", "🍋 lemon"], pa.string())
     region = pa.array([None, "e\u0301tagère", "north", ""], pa.string())
-    # the longest product sits beside a null region: that row makes no label; then 18 + 3 + 8 characters
-    assert longest_label([product, region]) == reference([product, region]) == 29
+    # the longest product sits beside a null region: that row makes no label; then 18 + 3 + 7 cells (the
+    # combining accent takes none)
+    assert longest_label([product, region]) == reference([product, region]) == 28
     product = pa.array(WORDS, pa.string())
     region = pa.array(list(reversed(WORDS)), pa.string())
     assert longest_label([product, region]) == reference([product, region])
@@ -56,3 +58,41 @@ def test_slices_and_large_strings_and_chunks():
 def test_nothing_and_only_nulls():
     assert longest_label([pa.array([], pa.string())]) == 0
     assert longest_label([pa.array([None, None], pa.string())]) == reference([pa.array([None, None], pa.string())])
+
+
+def test_cells_as_shown_not_characters():
+    """A label is as wide as it shows: an escape form takes eight cells for one character, a CJK character two,
+    a control character its one-cell picture (the list sized them by characters and cut them)."""
+    escaped = pa.array(["ab\u202ecd", "xyz"], pa.string())  # shows "ab⟨U+202E⟩cd"
+    assert longest_label([escaped]) == reference([escaped]) == 12
+    wide = pa.array(["咖啡豆咖啡豆", "abcdefghi"], pa.string())
+    assert longest_label([wide]) == reference([wide]) == 12
+    control = pa.array(["a\nb", "ab"], pa.string())
+    assert longest_label([control]) == reference([control]) == 3
+    many = pa.array(["\u202e" * 30, "short"], pa.string())
+    assert longest_label([many], cap=40) == 40 and reference([many]) == 240
+
+
+@pytest.mark.parametrize("values", [
+    ["Käse 1", "Süd-Ost Großhandel", "x"],
+    ["\u00ad soft hyphen", "\u0085next line", "a\u0378b"],  # 2-byte characters that do not print: escaped
+    ["👨\u200d👩\u200d👧 family", "🏴\U000e0067\U000e0062\U000e0065\U000e006e\U000e0067\U000e007f flag",
+     "a\u200db", "❤\ufe0f heart"],  # joiners, tags, a selector: measured whole
+    ["\U0001f34b\u0301", "𝔘𝔫𝔦𝔠𝔬𝔡𝔢", "\ud7b0\u11a8"],
+])
+def test_every_kind_of_character_as_shown(values):
+    column = pa.array(values, pa.string())
+    assert longest_label([column]) == reference([column])
+    other = pa.array(list(reversed(values)), pa.string())
+    assert longest_label([column, other]) == reference([column, other])
+
+
+def test_random_names_one_by_one():
+    import random
+    pool = ["a", "Z", " ", "\n", "\x7f", "é", "e\u0301", "\u00a0", "咖", "🍋", "\u202e", "⟨", "␊", "\u200d",
+            "\ufe0f", "\U000e0067", "🏴", "ß", "\u0600", "\uffff", "\U0010fffd"]
+    rng = random.Random(7)
+    for _ in range(400):
+        value = "".join(rng.choice(pool) for _ in range(rng.randint(0, 12)))
+        column = pa.array([value], pa.string())
+        assert longest_label([column]) == reference([column]), repr(value)

@@ -85,9 +85,14 @@ class OverrideDialog(ModalScreen[str | None]):
     # and said nothing, and a note typed next went in as keys.
     BINDINGS = [Binding("escape", "cancel", "cancel"), Binding("enter", "choose", show=False, priority=True)]
 
-    def __init__(self, results: Results, s: int, label: str, diagnosis: Diagnosis, standing: str | None) -> None:
+    def __init__(self, results: Results, s: int, label: str, diagnosis: Diagnosis, standing: str | None,
+                 accepted: bool = False) -> None:
+        """``standing``: the model that stands where it is not the proposal; ``accepted``: it stands by an accept
+        (of another fit's proposal), not an override."""
         super().__init__()
         self.results, self.s, self.label, self.standing = results, s, label, standing
+        self.standing_mark, self.standing_role = (("✓ ", "accepted, stands now · ")
+                                                  if accepted else ("↺ ", "stands now · "))
         self.rows = candidate_rows(results, s, diagnosis)
         self.narrow = False  # each model's interval on its second line (set by ``compose`` from the width)
 
@@ -122,9 +127,9 @@ class OverrideDialog(ModalScreen[str | None]):
             yield Static(Text("  " + line(HEAD), style="bold"), markup=False, id="override-head")
             options = []
             for row in self.rows:
-                prompt = Text(("✓ " if row.proposed else "↺ " if row.name == self.standing else "  ")
-                              + line(_cells(row)))
-                role = "proposed · " if row.proposed else "stands now · " if row.name == self.standing else ""
+                stands = row.name == self.standing and not row.proposed
+                prompt = Text(("✓ " if row.proposed else self.standing_mark if stands else "  ") + line(_cells(row)))
+                role = "proposed · " if row.proposed else self.standing_role if stands else ""
                 prompt.append("\n    ")
                 if self.narrow and row.interval != "—":
                     prompt.append(f"PI {row.interval}")

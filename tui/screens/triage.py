@@ -343,7 +343,8 @@ class TriageScreen(Screen):
         from .override import OverrideDialog  # with the first override, not before the list's first frame
         self.new_key_set(lambda: self.app.push_screen(
             OverrideDialog(session.results, s, session.label(s), session.diagnosis,
-                           shown.model if shown.model != shown.proposed else None), picked))
+                           shown.model if shown.model != shown.proposed else None,
+                           session.accepted_other(s) is not None), picked))
 
     def action_note(self) -> None:
         shown = self.session.shown
@@ -396,7 +397,7 @@ class TriageScreen(Screen):
             self._last_search = text
             hit = self.session.search(text)
             if not hit.found:
-                self.notify(f"no series matches {text!r}", severity="warning", markup=False)
+                self.notify(f"no series matches '{printable(text.strip())}'", severity="warning", markup=False)
                 return
             if hit.switched:
                 self.notify(f"none listed matched: showing all series ({hit.overall:,} match)", markup=False)

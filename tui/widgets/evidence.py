@@ -25,7 +25,7 @@ from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money, two_places
 
 from .. import engine
-from ..cells import cut, key_label, percent, wrapped
+from ..cells import cut, key_labels, percent, wrapped
 from ..session import TriageSession, describe
 from ..text import clean, printable
 from .charts import curve_chart, fold_chart
@@ -33,6 +33,7 @@ from .charts import curve_chart, fold_chart
 SEVERITY_STYLE = {"stop": "#ff875f", "warn": "#d7af5f"}
 NEWS_STYLE = "#5fafff"
 PARTS = ("title", "flags", "since", "why", "plan", "curve", "folds", "candidates", "history")
+NEAR_ROWS = 64  # rows either side of the cursor the title reads differently from: more than a screen shows
 CHART_DELAY = 0.12  # draw all but the title once the cursor rests, not on every key of a fast scroll
 
 
@@ -192,7 +193,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         # a name that fits whole but not beside the counts keeps the line; the counts follow the status
         # (at 52 cells, "… · South  104 obs, prices 0.60–0.…" lost the highest price)
         after = label + cell_len(about) > width >= label
-        head = Text(key_label(parts, label if after else room), style="bold")
+        head = Text(self.title_label(s, label if after else room), style="bold")
         if not after:
             head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
@@ -212,6 +213,14 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                 else f"↑ just now: {describe(session.news, when=False)}"
             lines.append(Text(cut(said, width), style=NEWS_STYLE))
         return Text("\n").join(lines)
+
+    def title_label(self, s: int, width: int) -> str:
+        """Series ``s``'s key in ``width`` cells, reading differently from every series listed near the cursor
+        (all the list can show at once): cut again where it differs from one that would read the same."""
+        session = self.session
+        near = session.view[max(session.cursor - NEAR_ROWS, 0):session.cursor + NEAR_ROWS].tolist()
+        others = [t for t in near if t != s]
+        return key_labels([session.label_parts(t) for t in [s, *others]], width)[0]
 
     def flags_text(self, s: int) -> Text:
         flags = sorted(self.session.diagnosis.flags_of(s), key=lambda f: SEVERITY[f["code"]] != "stop")

@@ -12,7 +12,7 @@ from textual.strip import Strip
 
 from fitcore.review.flags import SEVERITY
 
-from ..cells import cut, key_label, longest_label, pad, percent
+from ..cells import cut, key_labels, longest_label, pad, percent
 from ..session import STATUS_MARK, TriageSession, describe
 
 STOP = Style(color="#ff875f")
@@ -21,6 +21,7 @@ DONE = Style(color="#87af87")
 NEWS = Style(color="#5fafff", italic=True)
 DIM = Style(dim=True)
 CURSOR = Style(reverse=True)
+KEY_MOST = 40  # cells the key column takes at most
 FLAGS_KEEP = 14  # cells the flags column keeps before a long key takes more than three fifths ("!outside-range")
 SEVERITY_MARK = {"stop": "!", "warn": "?"}  # read without colour: '!' do not use unseen, '?' worth a look
 
@@ -71,6 +72,7 @@ class SeriesList(ScrollView, can_focus=True):
         self._rows_of: tuple = (None, None)  # the results and diagnosis those rows were drawn from
         self._longest: tuple = (None, 0)  # (the session's keys, their longest label's length)
         self._count_width: tuple = (None, 5)  # (the session's results, the observations column's width)
+        self._labels: tuple = (None, {})  # (what the rows on screen are, their key labels by series)
 
     def on_mount(self) -> None:
         self.reload()
@@ -126,11 +128,11 @@ class SeriesList(ScrollView, can_focus=True):
 
     def columns(self, width: int) -> tuple[int, int]:
         """Widths of the key and flags columns for a line ``width`` wide: the key as wide as the longest label
-        needs (12 to 40 cells) while the flags keep FLAGS_KEEP, else at least three fifths of the room."""
+        needs (12 to KEY_MOST cells) while the flags keep FLAGS_KEEP, else at least three fifths of the room."""
         fixed = 2 + 1 + self.count_width() + 1 + 7 + 1 + 5 + 2
         room = width - fixed
-        needed = max(12, min(40, self.longest_label()))
-        key = max(12, min(40, room * 3 // 5, needed), min(needed, room - FLAGS_KEEP))
+        needed = max(12, min(KEY_MOST, self.longest_label()))
+        key = max(12, min(KEY_MOST, room * 3 // 5, needed), min(needed, room - FLAGS_KEEP))
         return key, max(room - key, 0)
 
     def count_width(self) -> int:
@@ -143,10 +145,11 @@ class SeriesList(ScrollView, can_focus=True):
         return self._count_width[1]
 
     def longest_label(self) -> int:
-        """Characters of the longest series label (a cell each, but for wide characters): once per set of keys."""
+        """Cells of the longest series label as shown (40 when longer: the column is no wider): once per set of
+        keys."""
         keys = self.session.keys
         if self._longest[0] is not keys:
-            self._longest = (keys, longest_label([keys.columns[name] for name in keys.names]))
+            self._longest = (keys, longest_label([keys.columns[name] for name in keys.names], cap=KEY_MOST))
         return self._longest[1]
 
     def render_line(self, y: int) -> Strip:
@@ -166,17 +169,29 @@ class SeriesList(ScrollView, can_focus=True):
         news = session.news if s == session.current else None
         if self._rows_of[0] is not session.results or self._rows_of[1] is not session.diagnosis or len(self._rows) > 4096:
             self._rows, self._rows_of = {}, (session.results, session.diagnosis)  # new fit, or flags changed
+        label = self.shown_labels(key_w)[s]
         shows = (s, width, int(session.status_code[s]), session.listed_model(s)[0],
-                 news.get("digest") if news is not None else None, session.waiting)
+                 news.get("digest") if news is not None else None, session.waiting, label)
         strip = self._rows.get(shows)
         if strip is None:
-            strip = self._rows[shows] = self.row_strip(s, width, key_w, flags_w, news)
+            strip = self._rows[shows] = self.row_strip(s, width, label, flags_w, news)
         if row == session.cursor:
             strip = strip.apply_style(CURSOR if self.has_focus else Style(bgcolor="#303030"))
         return strip
 
-    def row_strip(self, s: int, width: int, key_w: int, flags_w: int, news: dict | None) -> Strip:
-        """Series ``s``'s row, ``width`` cells, without the cursor."""
+    def shown_labels(self, key_w: int) -> dict[int, str]:
+        """Key labels of the series on screen, by series: no two of different series read the same (a long key
+        is cut again where it differs from another on screen, ``key_labels``); made once per screenful."""
+        top = int(self.scroll_y)
+        series = tuple(self.session.view[top:top + max(self.scrollable_content_region.height, 1)].tolist())
+        shows = (series, key_w, self.session.keys)
+        if self._labels[0] != shows:
+            labels = key_labels([self.session.label_parts(s) for s in series], key_w)
+            self._labels = (shows, dict(zip(series, labels)))
+        return self._labels[1]
+
+    def row_strip(self, s: int, width: int, label: str, flags_w: int, news: dict | None) -> Strip:
+        """Series ``s``'s row, ``width`` cells, without the cursor; ``label``: its key, as wide as its column."""
         session = self.session
         results = session.results
         status = session.status[s]
@@ -186,7 +201,7 @@ class SeriesList(ScrollView, can_focus=True):
         mark_style = DONE if status in ("accepted", "overridden") else STOP if status == "stale" else DIM
         segments = [
             Segment(f"{STATUS_MARK[status]} ", mark_style),
-            Segment(f"{key_label(session.label_parts(s), key_w)} {results.data.counts[s]:>{self.count_width()}} "
+            Segment(f"{label} {results.data.counts[s]:>{self.count_width()}} "
                     f"{name:<7} {score_text:>5}  "),
         ]
         if news is not None:  # someone else just decided it: say who

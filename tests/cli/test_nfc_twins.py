@@ -1,0 +1,59 @@
+"""Two series whose names differ only in Unicode normalisation (``café`` composed and decomposed: different keys
+that print alike) read differently in ``pricefold show``'s list and in ``ledger show``: the one not in NFC form
+shows its combining accent by code point.  The ledger keeps both names as they were."""
+from __future__ import annotations
+
+import csv
+import json
+import unicodedata
+
+import numpy as np
+
+from pricefold.cli import main
+
+COMPOSED = "caf\u00e9 noir 250 g"
+DECOMPOSED = unicodedata.normalize("NFD", COMPOSED)
+
+
+def write_twins(path):
+    rng = np.random.default_rng(4)
+    with open(path, "w", newline="", encoding="utf-8") as f:
+        out = csv.writer(f)
+        out.writerow(["product", "price", "volume"])
+        for name in (COMPOSED, DECOMPOSED):
+            for price in np.round(rng.uniform(1, 2, 30), 2):
+                out.writerow([name, price, round(500 - 100 * price + rng.normal(0, 5), 1)])
+
+
+def test_show_and_ledger_show_tell_nfc_twins_apart(tmp_path, capsys):
+    assert COMPOSED != DECOMPOSED and unicodedata.normalize("NFC", DECOMPOSED) == COMPOSED
+    write_twins(tmp_path / "twins.csv")
+    results, book = tmp_path / "r.json", tmp_path / "L.jsonl"
+    assert main(["fit", str(tmp_path / "twins.csv"), "--plan-price", "1.5", "-o", str(results), "-q"]) == 0
+    capsys.readouterr()
+    assert main(["show", str(results)]) == 0
+    rows = [row[:40].rstrip() for row in capsys.readouterr().out.splitlines()[1:]]
+    assert sorted(rows) == sorted([COMPOSED, "cafe⟨U+0301⟩ noir 250 g"]), rows
+    assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(book), "-q"]) == 0
+    capsys.readouterr()
+    assert main(["ledger", "show", str(book)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert len(lines) == 2
+    assert sum(line.endswith(COMPOSED) for line in lines) == 1, lines
+    assert sum(line.endswith("cafe⟨U+0301⟩ noir 250 g") for line in lines) == 1, lines
+    names = {json.loads(line)["series"]["product"] for line in book.read_text(encoding="utf-8").splitlines()}
+    assert names == {COMPOSED, DECOMPOSED}  # the ledger keeps the names as they were
+
+
+def test_the_report_tells_nfc_twins_apart(tmp_path):
+    """Both series carry a stop flag (the plan price lies outside their prices), so the report lists both."""
+    import pytest
+    pytest.importorskip("matplotlib")
+    write_twins(tmp_path / "twins.csv")
+    results = tmp_path / "r.json"
+    assert main(["fit", str(tmp_path / "twins.csv"), "--plan-price", "5", "-o", str(results), "-q"]) == 0
+    page = tmp_path / "report.html"
+    assert main(["report", str(results), "-o", str(page)]) == 0
+    text = page.read_text(encoding="utf-8")
+    assert "cafe⟨U+0301⟩ noir 250 g" in text and COMPOSED in text
+    assert DECOMPOSED not in text
