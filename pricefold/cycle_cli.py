@@ -20,7 +20,7 @@ from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, n
 from fitcore.text import clean
 
 from .interrupts import held
-from .ledger_cli import (NOT_A_LEDGER, identity, key_mismatch, none_of_ledger, not_a_ledger, open_ledger, parse_head,
+from .ledger_cli import (NOT_A_LEDGER, identity, key_mismatch, meets, not_a_ledger, open_ledger, parse_head,
                          refuse_key_mismatch)
 
 
@@ -133,13 +133,38 @@ def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
     from fitcore.review.flags import mark_shifted
     source, standing = ahead.result()
     said = mismatch(list(results.data.key_names), standing.series, str(ahead.path))
+    alike = None
     if said is None and len(standing):  # the same key columns: is any signed series among these?
-        found = (SeriesKeys.of(results.data).indices_of(standing.series) >= 0).any()
-        said = none_shared(bool(found), len(standing), str(ahead.path), "signed series")
+        keys = SeriesKeys.of(results.data)
+        at = keys.indices_of(standing.series)
+        said = none_shared(bool((at >= 0).any()), len(standing), str(ahead.path), "signed series")
+        alike = signed_alike(keys, standing.series, at).said(str(ahead.path), "signed series")
     if said:  # the fit stands on its own; only the backtest finds nothing (and carry refuses these results)
-        print(f"pricefold fit: warning: {said}; nothing was backtested", file=sys.stderr)
+        print(f"pricefold fit: warning: {'; '.join(filter(None, (said, alike)))}; nothing was backtested",
+              file=sys.stderr)
+    elif alike:  # the others are backtested; these read as new series, their signed spelling as gone
+        print(f"pricefold fit: warning: {alike}; those were not backtested", file=sys.stderr)
     found = backtest(results, standing, thresholds, source)
     return mark_shifted(diagnosis, found), found, said is not None
+
+
+def signed_alike(keys, signed: list[dict], at):
+    """``fitcore.ledger.respelling`` of the results' series (``keys``, a ``SeriesKeys``) against the ledger's
+    signed series ``signed``, found among them at ``at`` (-1: missing): only the series new to those and the
+    missing ones are looked at (none: nothing is)."""
+    import numpy as np
+
+    from fitcore.arrays import integers, objects
+    from fitcore.ledger.respelling import NONE, among
+    hit = np.zeros(len(keys), dtype=bool)
+    hit[at[at >= 0]] = True
+    if hit.all() or (at >= 0).all():
+        return NONE
+    new = np.flatnonzero(~hit)
+    values = list(zip(*(objects(keys.columns[name].take(integers(new))).tolist() for name in keys.names)))
+    names = set(keys.names)
+    missing = [j for j in np.flatnonzero(at < 0).tolist() if signed[j].keys() == names]
+    return among(values, new.tolist(), [tuple(signed[j][n] for n in keys.names) for j in missing], missing, keys.names)
 
 
 def backtest_line(found, missed: bool = False) -> str:
@@ -257,11 +282,14 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     from .show import detail, in_attention_order, key_cells
     book = open_ledger(ledger_path, must_exist=True)
     if header is not None:
-        said = key_mismatch(header, book, ledger_path)
-        if said is None and whole:  # the same key columns: is any of the ledger's series among these?
-            said = none_of_ledger((record["key"] for record in records), book, ledger_path)
+        said, tail = key_mismatch(header, book, ledger_path), "every series reads as pending"
+        if said is None and whole:  # the same key columns: is any of the ledger's series among these, spelled so?
+            keys = [record["key"] for record in records]
+            said, found = meets(keys, book, ledger_path)
+            if found.new < len(keys):
+                tail = "they read as pending, beside the ledger's own"
         if said:
-            print(f"pricefold show: {results}: warning: {said}; every series reads as pending", file=sys.stderr)
+            print(f"pricefold show: {results}: warning: {said}; {tail}", file=sys.stderr)
         foreign = backtested_elsewhere(results, header, ledger_path)
         if foreign:
             print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "
@@ -528,9 +556,12 @@ def _carry(args) -> int:
     digest = ledger.results_digest(header)
     refuse_key_mismatch(args.results, header, book, args.ledger)
     from fitcore.results.series_columns import results_keys
-    said = none_of_ledger(results_keys(args.results), book, args.ledger)
-    if said:  # nothing to carry: 'fit --ledger' found none of the ledger's series in these data
-        print(f"pricefold ledger: {args.results}: warning: {said}; nothing can be carried", file=sys.stderr)
+    keys = list(results_keys(args.results))
+    said, found = meets(keys, book, args.ledger)
+    if said:  # 'fit --ledger' found none of the ledger's series in these data, or not those spelled otherwise
+        tail = ("nothing can be carried" if found.new == len(keys) else
+                "those are not carried (a decision is carried only to its own spelling)")
+        print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
         plan, left = plan_from_stored(args.results, overrides, book.histories)

@@ -73,9 +73,14 @@ def _none_backtested(args, book) -> bool:
     from fitcore.results.read import read_header
     from fitcore.results.series_columns import results_keys
 
-    from .ledger_cli import key_mismatch, none_of_ledger
-    said = key_mismatch(read_header(args.output), book, args.ledger) or \
-        none_of_ledger(results_keys(args.output), book, args.ledger)
+    from .ledger_cli import key_mismatch, meets
+    said = key_mismatch(read_header(args.output), book, args.ledger)
+    if said is None:
+        keys = list(results_keys(args.output))
+        said, found = meets(keys, book, args.ledger)
+        if said and found.new < len(keys):  # some series shared: those spelled otherwise were not backtested
+            print(f"pricefold fit: warning: {said}; those were not backtested", file=sys.stderr)
+            return False
     if said:
         print(f"pricefold fit: warning: {said}; nothing was backtested", file=sys.stderr)
     return said is not None

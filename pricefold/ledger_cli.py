@@ -121,6 +121,17 @@ def none_of_ledger(results_keys, book: ledger.Ledger, ledger_path: Path) -> str 
     return none_of_keys(results_keys, book.histories, str(ledger_path))
 
 
+def meets(results_keys: list[dict], book: ledger.Ledger, ledger_path: Path, what: str = "series"):
+    """``(said, respelled)`` where results keyed by the ledger's columns (their series' ``results_keys``) meet
+    ``book``: one clause saying that none of its series is in them (``none_of_ledger``) and that some of theirs look
+    like its own under another spelling (``fitcore.ledger.respelling``; ``what``: what its series are), None when
+    neither holds; and the ``Respelled`` found (indices into ``results_keys``)."""
+    from fitcore.ledger.respelling import respellings
+    found = respellings(results_keys, [h.latest["series"] for h in book.histories.values()])
+    said = [none_of_ledger(results_keys, book, ledger_path), found.said(str(ledger_path), what)]
+    return "; ".join(part for part in said if part) or None, found
+
+
 def refuse_key_mismatch(results: Path, header: dict, book: ledger.Ledger, ledger_path: Path) -> None:
     """``key_mismatch`` as a refusal (exit 2, one line), for the commands that write to the ledger or from it."""
     said = key_mismatch(header, book, ledger_path)
@@ -255,16 +266,23 @@ def run_accept_unflagged(args) -> int:
     if foreign:  # as show --ledger and the triage screen say it
         print(f"pricefold ledger: {foreign}; its 'shifted' flags are not counted (fit again with --ledger on "
               "this ledger)", file=sys.stderr)
-    shared = new_set(args, book, warn=True)  # said (or refused) before anything is written
+    from fitcore.results.series_columns import results_keys
+    keys = list(results_keys(args.results))  # read once: checked again under the lock
+    new_set(args, keys, book, warn=True)  # said (or refused) before anything is written
+    counted: dict[str, int] = {}
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
         refuse_key_mismatch(args.results, header, book, args.ledger)
-        if not shared:  # a series shared stays shared (the ledger only grows); else asked again
-            new_set(args, book, warn=False)
+        found = new_set(args, keys, book, warn=False)
+        alike = {series_id(keys[i]) for i in found.results.tolist()}
+        held = bool(book.histories)
+        counted.update(new=0, alike=0)
         for key, fingerprint, chosen, snapshot in proposals:
             history = book.histories.get(series_id(key))
             if history is not None and history.current is not None:
                 continue
+            if history is None and held:  # new to a ledger holding series: a new product, or a respelling
+                counted["alike" if series_id(key) in alike else "new"] += 1
             latest = history.latest if history is not None else None
             yield ledger.Entry(series=key, action="accept", fingerprint=fingerprint, results=digest, model=chosen,
                                proposed=chosen, note=args.note, supersedes=latest["digest"] if latest else None,
@@ -272,27 +290,40 @@ def run_accept_unflagged(args) -> int:
 
     written = book.append(decide, identity(args.analyst))
     if not args.quiet:
-        print(f"accepted {len(written):,} unflagged series without a decision → {args.ledger}", file=sys.stderr)
+        print(f"accepted {len(written):,} unflagged series without a decision → {args.ledger}"
+              + new_words(counted.get("new", 0), counted.get("alike", 0)), file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0
+
+
+def new_words(new: int, alike: int) -> str:
+    """What ``accept-unflagged``'s summary adds of the series it accepted new to a ledger that held series: those
+    spelled like none of its own (a new product is normal in a later cycle), and those that look like its own
+    under another spelling (accepted as new series: ``--new-series``)."""
+    said = []
+    if new:
+        said.append(f"{new:,} of them new to the ledger, spelled like none of its series")
+    if alike:
+        said.append(f"{alike:,} spelled like its own otherwise, accepted as new series ({NEW_SERIES})")
+    return "".join(f"; {part}" for part in said)
 
 
 NEW_SERIES = "--new-series"
 
 
-def new_set(args, book: ledger.Ledger, warn: bool) -> bool:
-    """Whether the ledger holds one of the results' series.  ``accept-unflagged`` into a non-empty ledger that
-    holds none: a bulk accept would start a second set of series beside the ledger's, leaving its decisions
-    behind (results whose segment values are spelled otherwise, ``north`` for ``North``).  Refused (exit 2)
-    unless ``--new-series`` says that is meant; then one warning line (``warn``: say it; else only check)."""
-    from fitcore.results.series_columns import results_keys
-    said = none_of_ledger(results_keys(args.results), book, args.ledger)  # stops at the first shared series
+def new_set(args, keys: list[dict], book: ledger.Ledger, warn: bool):
+    """The ``Respelled`` of the results' series ``keys`` against the ledger ``book`` (``meets``), where the
+    results may go in: a bulk accept into a non-empty ledger holding none of them would start a second set of
+    series beside its own, and one of series that look like its own under another spelling (``north`` for
+    ``North``) would sign them beside those, leaving their decisions behind.  Refused (exit 2) unless
+    ``--new-series`` says the new series are meant; then one warning line (``warn``: say it; else only check)."""
+    said, found = meets(keys, book, args.ledger)
     if said is None:
-        return bool(book.histories)
+        return found
     if not args.new_series:
-        raise ledger.LedgerError(f"{args.results}: {said}; nothing was written (a new set of series for this "
-                                 f"ledger? then add {NEW_SERIES})")
+        raise ledger.LedgerError(f"{args.results}: {said}; nothing was written (new series all the same? then add "
+                                 f"{NEW_SERIES})")
     if warn:
-        print(f"pricefold ledger: {args.results}: warning: {said}; accepted as a new set of series "
-              f"({NEW_SERIES})", file=sys.stderr)
-    return False
+        print(f"pricefold ledger: {args.results}: warning: {said}; accepted as new series ({NEW_SERIES})",
+              file=sys.stderr)
+    return found

@@ -22,11 +22,10 @@ from pathlib import Path
 
 from fitcore import ledger
 from fitcore.errors import DataError
-from fitcore.ledger.key_columns import none_shared
 from fitcore.ledger.replay import series_id
 from fitcore.text import clean
 
-from .ledger_cli import open_ledger, refuse_key_mismatch
+from .ledger_cli import meets, open_ledger, refuse_key_mismatch
 
 RISKY = ("=", "+", "-", "@", "\t", "\r")
 RISKY_FIRST = frozenset(RISKY)  # one character each: ``text[:1] in RISKY_FIRST`` is ``text.startswith(RISKY)``
@@ -66,7 +65,7 @@ def run_export(args) -> int:
         print(f"pricefold ledger: {args.output}: key column {', '.join(renamed)} (the export has its own column "
               "of that name)", file=sys.stderr)
     writer.writerow(made([*keys.values(), *COLUMNS]))
-    count, shared, head = 0, False, book.head_text
+    count, keys, head = 0, [], book.head_text
     own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi", "elasticity": "plan_elasticity"}
     level = (header.get("settings") or {}).get("level")
     rows: list[list] = []
@@ -76,7 +75,7 @@ def run_export(args) -> int:
         series = _by_columns(ahead, book) if parts is None else _by_records(parts, book)
         for key, fingerprint, chosen, plan, history, cand in series:
             count += 1
-            shared = shared or history is not None
+            keys.append(key)
             status = history.status(fingerprint) if history else "pending"
             current = history.current if history else None
             model = current["model"] if current else chosen
@@ -109,9 +108,10 @@ def run_export(args) -> int:
                          current["analyst"] if current else "", current["at"] if current else "",
                          current.get("note", "") if current else "", _number(plan.get("price")),
                          *plan_cells(at_plan), carried_from(history), *carried_decision(history), head])
-    said = none_shared(shared, len(book.histories), str(args.ledger))
+    said, found = meets(keys, book, args.ledger) if book.histories else (None, None)
     if said:  # a warning, not a refusal: a team ledger may hold other product ranges keyed alike
-        print(f"pricefold ledger: {args.results}: warning: {said}; every row is pending", file=sys.stderr)
+        tail = "every row is pending" if found.new == count else "their rows are pending, beside the ledger's own"
+        print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
     if later:
         _signed_at_price(args.results, rows, later, level)
     for row in rows:

@@ -39,8 +39,9 @@ def add_ledger_parser(commands):
     bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     bulk.add_argument("--note", default="", metavar="TEXT")
     bulk.add_argument("--new-series", action="store_true",
-                      help="go ahead where the ledger holds series but none of these results' (the same key "
-                           "columns, other values): they are a new set of series beside the ledger's")
+                      help="yes, these results' series new to the ledger are new series: accept them where the "
+                           "ledger holds none of the results' series (the same key columns, other values) or "
+                           "where some look like its own under another spelling (north for North)")
     bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
     return sub
 

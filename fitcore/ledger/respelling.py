@@ -1,0 +1,182 @@
+"""Results' series that look like a ledger's own under another spelling (pure, set-based).
+
+A next cycle's data may spell a key value otherwise for some series only (``north`` for ``North``, ``North ``
+with a trailing space, ``Café`` in decomposed form).  Keyed by the same columns and sharing the other series,
+such results pass ``key_columns``' checks, and each respelled series reads as new: a bulk accept would sign it
+beside the ledger's own, whose decisions are left behind.  ``respellings`` finds them: each results' series
+**new to the ledger** (its key not among the ledger's series) whose key equals, *loosely*, the key of a ledger
+series **missing from the results** (keyed by the same columns).  Such a pair is one series spelled two ways
+but for a coincidence the loose comparison is kept too narrow to make.
+
+Loosely (``loose``), for each key value, and nothing more:
+
+- Unicode NFKC normalisation: composed and decomposed forms read alike, and compatibility forms (full-width
+  letters, ligatures, the no-break space) read as their plain forms;
+- case folding (``str.casefold``, then NFKC again: folding can leave a form unnormalised);
+- white space (any Unicode white space) stripped at both ends, each inner run read as one space.
+
+Accents are not dropped (``Cafe`` is not ``Café``), punctuation and invisible format characters (a zero-width
+space) are kept, and nothing is matched by similarity: a new product matches nothing and stays simply new.
+
+Collisions: a results' series that looks like several of the ledger's missing series (the ledger holds
+``North`` and ``north``, neither in the results) is one respelling, paired with the first of them in the
+ledger's order (``alike`` counts them all); several results' series may look like one ledger series (``north``
+and ``NORTH``): each is counted.  A ledger series present in the results exactly is not missing, so results
+holding both ``North`` and ``north`` pair neither with the ledger's ``North``.
+
+Cost: sets of key tuples; only the series new to the ledger and the ledger's missing ones are normalised (one
+short ``str`` pass a value), none where no series is new.
+"""
+from __future__ import annotations
+
+import unicodedata
+from collections.abc import Callable, Iterable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..text import clean
+
+
+def loose(value: str) -> str:
+    """``value`` as the loose comparison reads it: NFKC, case-folded, white space stripped and collapsed."""
+    if value.isascii():  # NFKC leaves ASCII as it is, and its case folding is ``lower``
+        return " ".join(value.lower().split())
+    folded = unicodedata.normalize("NFKC", unicodedata.normalize("NFKC", value).casefold())
+    return " ".join(folded.split())
+
+
+def loose_key(values: tuple) -> tuple:
+    return tuple(loose(str(v)) for v in values)
+
+
+class LooseIndex:
+    """Series keys (tuples of values, one order of columns for all) by their loose form, made once and probed by
+    others: the results' series new to a ledger, probed by the ledger's missing series as they come."""
+
+    def __init__(self, keys: Iterable[tuple], at: Iterable[int]) -> None:
+        self._by: dict[tuple, list[int]] = {}
+        for key, i in zip(keys, at):
+            self._by.setdefault(loose_key(key), []).append(int(i))
+
+    def __len__(self) -> int:
+        return sum(map(len, self._by.values()))
+
+    def pairs(self, keys: Sequence[tuple], at: Sequence[int] | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """``(indexed, probe)``: each pair of an indexed series (its ``at`` given here) and a probing series (its
+        place in ``keys``, or its ``at``) whose keys are equal loosely."""
+        found, probes = [], []
+        get = self._by.get
+        for j, key in enumerate(keys):
+            hits = get(loose_key(key))
+            if hits:
+                found += hits
+                probes += [j] * len(hits)
+        probe = np.asarray(probes, dtype=np.int64)
+        return np.asarray(found, dtype=np.int64), (probe if at is None else np.asarray(at, np.int64)[probe])
+
+
+@dataclass(frozen=True, eq=False)
+class Respelled:
+    """Results' series that look like a ledger's under another spelling.
+
+    ``results`` (P,) int64: each one's index among the results' series, ascending; ``ledger`` (P,) int64: the
+    index among the ledger's series of the first (in the ledger's order) missing series it looks like; ``alike``
+    (P,) int64: how many of the ledger's missing series it looks like (1 unless the ledger's own spellings
+    collide); ``new``: how many results' series are new to the ledger, these included; ``example``: the first
+    pair's differing values, cleaned (``region "north" for "North"``; None when P is 0)."""
+
+    results: np.ndarray
+    ledger: np.ndarray
+    alike: np.ndarray
+    new: int
+    example: str | None
+
+    def __len__(self) -> int:
+        return len(self.results)
+
+    @property
+    def unmatched(self) -> int:
+        """Results' series new to the ledger that look like none of its series (new products, most likely)."""
+        return self.new - len(self)
+
+    def said(self, ledger_name: str = "the ledger", what: str = "series") -> str | None:
+        """'54 series in these results look like series in L under another spelling (region "north" for
+        "North", …)' — one clause (``what``: what the ledger's are, e.g. "signed series"); None when none."""
+        if not len(self):
+            return None
+        count = len(self)
+        verb = f"looks like a {what}" if count == 1 else f"look like {what}"
+        more = ", …" if count > 1 else ""
+        return (f"{count:,} series in these results {verb} in {ledger_name} under another spelling "
+                f"({self.example}{more})")
+
+    def looks_like(self) -> dict[int, int]:
+        """Results' series → the ledger series it looks like (indices as in ``results`` and ``ledger``)."""
+        return dict(zip(self.results.tolist(), self.ledger.tolist()))
+
+
+NONE = Respelled(np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, np.int64), 0, None)
+
+
+def gathered(results_at: np.ndarray, ledger_at: np.ndarray, new: int, columns: Sequence[str],
+             results_key: Callable[[int], tuple], ledger_key: Callable[[int], tuple]) -> Respelled:
+    """``Respelled`` from raw pairs (in any order, repeats allowed: a results' series and each ledger series it
+    looks like); ``results_key`` / ``ledger_key``: a series' key tuple by its index, for the example."""
+    if not len(results_at):
+        return Respelled(NONE.results, NONE.ledger, NONE.alike, new, None)
+    pairs = np.unique(np.stack([results_at, ledger_at], axis=1), axis=0)  # sorted by results, then ledger order
+    first = np.r_[True, pairs[1:, 0] != pairs[:-1, 0]]
+    starts = np.flatnonzero(first)
+    alike = np.diff(np.r_[starts, len(pairs)])
+    results, ledger = pairs[first, 0], pairs[first, 1]
+    for array in (results, ledger, alike):
+        array.setflags(write=False)
+    example = spelled(columns, results_key(int(results[0])), ledger_key(int(ledger[0])))
+    return Respelled(results, ledger, alike, new, example)
+
+
+def spelled(columns: Sequence[str], theirs: tuple, ours: tuple) -> str:
+    """'region "north" for "North"': each key column whose values differ, the results' value for the ledger's,
+    cleaned; where they differ only in Unicode form (invisible once printed) that is said."""
+    parts = []
+    for name, a, b in zip(columns, theirs, ours):
+        if a == b:
+            continue
+        said = f'{clean(str(name))} "{clean(str(a))}" for "{clean(str(b))}"'
+        if unicodedata.normalize("NFC", str(a)) == unicodedata.normalize("NFC", str(b)):
+            said += " in another Unicode form"
+        parts.append(said)
+    return ", ".join(parts)
+
+
+def respellings(results_keys: Iterable[dict], ledger_keys: Iterable[dict],
+                columns: Sequence[str] | None = None) -> Respelled:
+    """The rule on whole sets of keys: ``results_keys`` (each results' series' key, a dict), ``ledger_keys`` (each
+    ledger series' key; those keyed by other columns than ``columns`` — by default the first results key's — are
+    passed over); indices in ``Respelled`` are places in those two sequences."""
+    results = list(results_keys)
+    if columns is None:
+        columns = tuple(results[0]) if results else ()
+    names = set(columns)
+    ledger = [tuple(map(key.__getitem__, columns)) if key.keys() == names else None for key in ledger_keys]
+    held = set(ledger)
+    values = [tuple(map(key.__getitem__, columns)) for key in results]
+    new = [i for i, key in enumerate(values) if key not in held]
+    if not new:  # every results' series is the ledger's: nothing more is looked at
+        return NONE
+    have = set(values)
+    missing = [j for j, key in enumerate(ledger) if key is not None and key not in have]
+    return among([values[i] for i in new], new, [ledger[j] for j in missing], missing, columns)
+
+
+def among(new: Sequence[tuple], new_at: Sequence[int], missing: Sequence[tuple], missing_at: Sequence[int],
+          columns: Sequence[str]) -> Respelled:
+    """The rule where the exact matching is done already: ``new``, the key tuples (in ``columns`` order) of the
+    results' series new to the ledger, at ``new_at`` among the results' series; ``missing``, those of the ledger's
+    series keyed alike and missing from the results, at ``missing_at`` among its series."""
+    if not len(new) or not len(missing):
+        return Respelled(NONE.results, NONE.ledger, NONE.alike, len(new), None)
+    found, probe = LooseIndex(new, new_at).pairs(missing, missing_at)
+    theirs, ours = dict(zip(map(int, new_at), new)), dict(zip(map(int, missing_at), missing))
+    return gathered(found, probe, len(new), columns, theirs.__getitem__, ours.__getitem__)

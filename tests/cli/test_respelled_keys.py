@@ -1,0 +1,162 @@
+"""The next cycle's data spell some series' keys otherwise (``north`` for ``North`` in a few products, ``South ``
+with a trailing space in one): every command where results meet the ledger says how many series look like its
+own under another spelling, with an example, and ``accept-unflagged`` refuses to sign them as new series unless
+``--new-series`` says they are; a product new to the ledger and spelled like none of its series is accepted as
+before, and counted.
+
+The ledger is the sample's (``accept-unflagged`` of ``sample/results.parquet``: series keyed by product and region);
+the next cycle is ``sample/wholesale.csv`` respelled in the test's folder.  The count each command says is checked
+against the plain set arithmetic of which respelled series the ledger holds.
+"""
+from __future__ import annotations
+
+import csv
+import json
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from fitcore import ledger
+from fitcore.ledger.replay import series_id
+from pricefold.cli import main
+
+SAMPLE = Path(__file__).resolve().parents[2] / "sample"
+LOWERED = "n"  # the North series of products before it in the alphabet, lower-cased
+TRAILING = "tea bags 80"  # its South series with a trailing space
+NEW_PRODUCT = "quinces 1 kg"  # a copy of pears' rows under a new name: new to the ledger, spelled like nothing
+EXAMPLE = 'region "north" for "North", …'
+
+
+def respelled(row: dict) -> dict:
+    if row["region"] == "North" and row["product"] < LOWERED:
+        return {**row, "region": "north"}
+    if row["region"] == "South" and row["product"] == TRAILING:
+        return {**row, "region": "South "}
+    return row
+
+
+def write_next_cycle(path: Path) -> set[tuple[str, str]]:
+    """The sample a week later (``sample/next_week.py``) respelled, plus a new product; the original keys of the
+    respelled series."""
+    week = path.with_name("week.csv")
+    subprocess.run([sys.executable, str(SAMPLE / "next_week.py"), str(week)], check=True, capture_output=True)
+    with open(week, newline="") as src, open(path, "w", newline="") as out:
+        rows = csv.DictReader(src)
+        write = csv.DictWriter(out, rows.fieldnames)
+        write.writeheader()
+        changed = set()
+        for row in rows:
+            new = respelled(row)
+            if new is not row:
+                changed.add((row["product"], row["region"]))
+            write.writerow(new)
+            if row["product"] == "pears 1 kg":
+                write.writerow({**row, "product": NEW_PRODUCT})
+    return changed
+
+
+@pytest.fixture(scope="module")
+def cycle(tmp_path_factory):
+    """``(folder, ledger, results, count)``: the sample signed, the respelled cycle fitted (not against the ledger:
+    each test fits against its own copy where it needs to), and how many of the ledger's series the respelled ones
+    are."""
+    folder = tmp_path_factory.mktemp("respelled")
+    book = folder / "ledger.jsonl"
+    assert main(["ledger", "accept-unflagged", str(SAMPLE / "results.parquet"), "--ledger", str(book), "-q"]) == 0
+    changed = write_next_cycle(folder / "next.csv")
+    signed = {(h.latest["series"]["product"], h.latest["series"]["region"]) for h in ledger.Ledger(book).histories.values()}
+    count = len(changed & signed)
+    assert 10 < count < len(changed)  # some respelled series were signed, some not (flagged last cycle)
+    fit_next(folder, None, folder / "next.json")
+    return folder, book, folder / "next.json", count
+
+
+def fit_next(folder: Path, book: Path | None, out: Path) -> None:
+    assert main(["fit", str(folder / "next.csv"), "--segment", "region", "--date", "week", "--plan-price", "2.5",
+                 "-o", str(out), "--quiet", *(["--ledger", str(book)] if book else [])]) == 0
+
+
+def own_copy(signed: Path, tmp_path: Path) -> Path:
+    book = tmp_path / "ledger.jsonl"
+    shutil.copyfile(signed, book)
+    return book
+
+
+def test_every_command_says_how_many_series_look_like_the_ledgers_under_another_spelling(cycle, capsys, tmp_path):
+    """Before: not a word anywhere (one series shared is enough for every check), and the respelled series read
+    as new and pending."""
+    folder, signed, _, count = cycle
+    book, results = own_copy(signed, tmp_path), tmp_path / "next.json"
+    capsys.readouterr()
+    fit_next(folder, book, results)
+    err = capsys.readouterr().err
+    clause = f"{count} series in these results look like signed series in {book} under another spelling ({EXAMPLE})"
+    assert f"pricefold fit: warning: {clause}; those were not backtested" in err
+    assert "none of the" not in err
+    clause = f"{count} series in these results look like series in {book} under another spelling ({EXAMPLE})"
+    before = book.read_bytes()
+    for command, tail in ((["show", str(results), "--ledger", str(book)], "they read as pending, beside the ledger's own"),
+                          (["ledger", "export", str(book), "--results", str(results), "-o", str(tmp_path / "e.csv"), "-q"],
+                           "their rows are pending, beside the ledger's own"),
+                          (["ledger", "carry", str(results), "--ledger", str(book), "-q"],
+                           "those are not carried (a decision is carried only to its own spelling)")):
+        assert main(command) == 0
+        err = capsys.readouterr().err
+        assert err.count("\n") == 1 and f"warning: {clause}; {tail}" in err, command
+    carried = ledger.Ledger(book).records[len(before.splitlines()):]
+    assert carried and {r["action"] for r in carried} == {"carry"}  # the others were carried as before
+    assert not any(r["series"]["region"] in ("north", "South ") for r in carried)
+
+
+def test_accept_unflagged_refuses_respellings_until_new_series_says_they_are_new(cycle, capsys, tmp_path):
+    """Before: exit 0, the respelled series accepted beside the ledger's own (their decisions left behind)."""
+    folder, signed, results, count = cycle
+    book = own_copy(signed, tmp_path)
+    before = book.read_bytes()
+    capsys.readouterr()
+    assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(book)]) == 2
+    err = capsys.readouterr().err
+    assert err == (f"pricefold ledger: {results}: {count} series in these results look like series in {book} under another "
+                   f"spelling ({EXAMPLE}); nothing was written (new series all the same? then add --new-series)\n")
+    assert book.read_bytes() == before
+    assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(book), "--new-series"]) == 0
+    err = capsys.readouterr().err.splitlines()
+    records = [json.loads(line) for line in book.read_text().splitlines()][len(before.splitlines()):]
+    prior = {(h.latest["series"]["product"], h.latest["series"]["region"]) for h in ledger.Ledger(signed).histories.values()}
+    keys = [(r["series"]["product"], r["series"]["region"]) for r in records]
+    alike = [k for k in keys if k not in prior and (k[0], k[1].strip().title()) in prior]
+    new = [k for k in keys if k not in prior and k not in alike]  # the new product, and respellings of unsigned series
+    assert len(err) == 3 and err[0].endswith("accepted as new series (--new-series)")
+    assert err[1] == (f"accepted {len(records)} unflagged series without a decision → {book}; {len(new)} of them new to "
+                      f"the ledger, spelled like none of its series; {len(alike)} spelled like its own otherwise, "
+                      "accepted as new series (--new-series)")
+    assert len(alike) >= 5 and sum(k[0] == NEW_PRODUCT for k in new) == 3
+    assert ledger.verify(book) == []
+
+
+def test_a_new_product_spelled_like_nothing_is_accepted_and_counted(cycle, capsys, tmp_path):
+    """No respelling, one product new to the ledger (in all three regions): accepted as before, the summary says how
+    many were new to it."""
+    book = own_copy(cycle[1], tmp_path)
+    with open(SAMPLE / "wholesale.csv", newline="") as src, open(tmp_path / "grown.csv", "w", newline="") as out:
+        rows = csv.DictReader(src)
+        write = csv.DictWriter(out, rows.fieldnames)
+        write.writeheader()
+        for row in rows:
+            write.writerow(row)
+            if row["product"] == "pears 1 kg":
+                write.writerow({**row, "product": NEW_PRODUCT})
+    assert main(["fit", str(tmp_path / "grown.csv"), "--segment", "region", "--date", "week", "--plan-price", "2.5",
+                 "-o", str(tmp_path / "grown.json"), "--quiet"]) == 0
+    capsys.readouterr()
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "grown.json"), "--ledger", str(book)]) == 0
+    err = capsys.readouterr().err.splitlines()
+    prior = ledger.Ledger(cycle[1]).histories
+    added = [r["series"] for r in ledger.Ledger(book).records[len(ledger.Ledger(cycle[1]).records):]]
+    new = [key for key in added if series_id(key) not in prior]  # never decided: quinces, and series flagged before
+    assert sum(key["product"] == NEW_PRODUCT for key in new) == 3 and len(err) == 2
+    assert err[0] == (f"accepted {len(added)} unflagged series without a decision → {book}; {len(new)} of them new to "
+                      "the ledger, spelled like none of its series")

@@ -1,0 +1,77 @@
+"""``fitcore.ledger.respelling``: results' series new to a ledger that look like its missing series under another
+spelling (case, Unicode form, white space), and nothing more."""
+from __future__ import annotations
+
+import unicodedata
+
+import numpy as np
+
+from fitcore.ledger.respelling import LooseIndex, loose, respellings
+
+LEDGER = [{"product": "salt", "region": "North"}, {"product": "salt", "region": "East"},
+          {"product": "Café crème", "region": "South"}, {"product": "tea", "region": "North"}]
+
+
+def key(product: str, region: str) -> dict:
+    return {"product": product, "region": region}
+
+
+def test_case_unicode_form_and_white_space_read_alike_and_nothing_else():
+    decomposed = unicodedata.normalize("NFD", "Café crème")
+    assert decomposed != "Café crème"
+    assert loose("North") == loose("north") == loose("  NORTH ") == loose("North\u00a0") == loose("Ｎｏｒｔｈ")
+    assert loose(decomposed) == loose("Café crème") == loose("CAFÉ   CRÈME")
+    assert loose("Straße") == loose("STRASSE")  # case folding, not lower-casing
+    for other in ("Cafe crème", "Nort", "North-", "No rth", "North\u200b"):  # accents, letters, marks, invisibles
+        assert loose(other) not in (loose("Café crème"), loose("North")), other
+
+
+def test_respelled_series_pair_with_the_ledger_series_missing_from_the_results():
+    results = [key("salt", "north"), key("salt", "East"), key(unicodedata.normalize("NFD", "Café crème"), "South "),
+               key("tea", "North"), key("pepper", "North")]  # pepper: a new product, spelled like nothing
+    found = respellings(results, LEDGER)
+    assert found.results.tolist() == [0, 2] and found.ledger.tolist() == [0, 2] and found.alike.tolist() == [1, 1]
+    assert found.new == 3 and found.unmatched == 1  # salt·north, Café·South, pepper
+    assert found.looks_like() == {0: 0, 2: 2}
+    assert found.said("L.jsonl") == ('2 series in these results look like series in L.jsonl under another spelling '
+                                     '(region "north" for "North", …)')
+    one = respellings([results[2], *results[3:]], LEDGER)
+    decomposed = results[2]["product"]
+    assert one.said("L", "signed series") == ('1 series in these results looks like a signed series in L under another '
+                                              f'spelling (product "{decomposed}" for "Café crème" in another Unicode '
+                                              'form, region "South " for "South")')
+
+
+def test_nothing_is_said_where_nothing_is_new_or_nothing_is_missing():
+    assert respellings(LEDGER, LEDGER).said() is None and respellings(LEDGER, LEDGER).new == 0
+    grown = respellings([*LEDGER, key("SALT", "north")], LEDGER)  # every ledger series is there: none missing
+    assert len(grown) == 0 and grown.new == 1 and grown.said() is None
+    assert len(respellings([key("salt", "north")], [])) == 0  # an empty ledger
+
+
+def test_a_ledger_series_present_exactly_is_not_missing():
+    """Results holding both North and north: the ledger's North is in them, so north is merely new."""
+    found = respellings([key("salt", "North"), key("salt", "north")], LEDGER[:1])
+    assert len(found) == 0 and found.new == 1
+
+
+def test_colliding_spellings_in_the_ledger_pair_with_the_first_and_count_the_others():
+    """The ledger already holds two spellings of one series (North, north), neither in the results: NORTH is one
+    respelling, paired with the first in the ledger's order; two results' spellings of one ledger series each count."""
+    ledger = [key("salt", "north"), key("tea", "East"), key("salt", "North")]
+    found = respellings([key("salt", "NORTH"), key("tea", "east"), key("tea", " EAST")], ledger)
+    assert found.results.tolist() == [0, 1, 2] and found.ledger.tolist() == [0, 1, 1]
+    assert found.alike.tolist() == [2, 1, 1]
+
+
+def test_ledger_series_keyed_by_other_columns_are_passed_over():
+    ledger = [{"product": "salt"}, {"product": "salt", "channel": "web"}]
+    assert len(respellings([key("SALT", "North")], ledger)) == 0
+    assert respellings([{"product": "SALT"}], ledger).ledger.tolist() == [0]
+
+
+def test_loose_index_pairs_every_match():
+    index = LooseIndex([("salt", "north"), ("SALT", "North "), ("tea", "East")], [7, 9, 11])
+    found, probe = index.pairs([("Salt", "NORTH"), ("pepper", "North")], [40, 41])
+    assert sorted(zip(found.tolist(), probe.tolist())) == [(7, 40), (9, 40)]
+    assert np.asarray(found).dtype == np.int64 and len(index) == 3
