@@ -76,5 +76,8 @@ def help_text(book=None, keys: str | None = None) -> Group:
         Text("\nFlags (! stop: do not put the curve into a plan unseen; ? warn: worth a look)", style="bold"),
         _grid(flags),
         Text("\nStatus marks: · pending  ✓ accepted  ↺ overridden  ‖ held  ! stale (data changed since)"),
+        Text("≈North in the flags column: the series is new to the ledger, and looks like a ledger series these "
+             "results do not hold, spelled North there (case, Unicode form or spaces differ); a decision on it asks "
+             "first, as it records a new series beside that one"),
         Text("\n" + CAUTIONS, style="italic"),
         *([ledger_text(book, keys)] if book is not None else []))

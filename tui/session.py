@@ -39,6 +39,7 @@ from .listing import (
     ListState,
     SearchHit,
 )
+from .spellings import Spellings
 from .text import clean
 
 __all__ = ["FILTERS", "FILTER_TITLES", "KEEP", "SORTS", "SORT_TITLES", "STATUS_MARK", "STATUSES", "SearchHit",
@@ -99,6 +100,7 @@ class TriageSession(ListState):
         self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
         self._key_table = KeyTable(self.keys)  # key values → index, for the many keys of a whole ledger
         self.key_columns = KeyColumns(list(data.key_names), self.ledger_path.name)  # the ledger's series keyed so?
+        self.spellings = Spellings(self.keys, self.ledger_path.name)  # series like the ledger's, spelled otherwise
         # verified in full here (or by the caller: ``book``, that ledger opened), then only its new tail
         self.book = book if book is not None else ledger.Ledger(self.ledger_path, key)
         self._applied, self._generation = 0, self.book.generation
@@ -140,6 +142,7 @@ class TriageSession(ListState):
             self._applied, self._generation, force = 0, self.book.generation, True
             self.status[:], self.status_code[:] = "pending", 0
             self.key_columns.reset()
+            self.spellings.reset()
         everything = not self._applied  # every record: the replay has named their series already
         records = self.book.records[self._applied:]
         self._applied = len(self.book.records)
@@ -147,10 +150,12 @@ class TriageSession(ListState):
                    else {series_id(r["series"]): r["series"] for r in records})
         self.key_columns.see(touched.values())
         unknown = [sid for sid in touched if sid not in self._known]
-        self._known.update(zip(unknown, self._key_table.indices_of([touched[sid] for sid in unknown])))  # ints
+        found = self._key_table.indices_of([touched[sid] for sid in unknown])  # ints
+        self._known.update(zip(unknown, found))
         if records or force:
             self._share_check()
         changed = {self._known[sid]: sid for sid in touched if self._known[sid] >= 0}
+        self.spellings.see(changed, [touched[sid] for sid, at in zip(unknown, found) if at < 0])
         set_statuses(self.status, self.status_code, changed, self.histories, self.results.data)
         changed = set(changed)
         current = self.current
@@ -196,6 +201,11 @@ class TriageSession(ListState):
             self.pinned = int(perm[self.pinned])
         self._known = {sid: int(perm[s]) if s >= 0 else -1 for sid, s in self._known.items()}
         self.keys, self._labels, self._search, self._key_table = fresh, {}, None, KeyTable(fresh)
+        confirmed, self.spellings = self.spellings.confirmed, Spellings(fresh, self.ledger_path.name)
+        self.spellings.confirmed = confirmed  # by series id: the same series in any order
+        self.spellings.see((at for at in self._known.values() if at >= 0),
+                           (self.histories[sid].latest["series"] for sid, at in self._known.items()
+                            if at < 0 and sid in self.histories))
         self.results, self.first_fit, self._first_rows = results, None, {}
         self._with_backtest(results, diagnosis)
         # Records another analyst made meanwhile may take the highlighted series out of the list: as on any
@@ -451,6 +461,8 @@ class TriageSession(ListState):
         s = self.index_of(shown)
         if s < 0:
             raise Refused("this series is no longer in the results")
+        if action != "revoke":
+            self._check_spelling(s)
         check_latest(shown.key, shown.latest, self.histories.get(self._id(s)))  # the ledger's rule, said first
         if self.waiting and s == self.current and action != "revoke":
             raise Refused("this series has left the list you are working through; move on first")
@@ -469,6 +481,8 @@ class TriageSession(ListState):
         def entries(records: list[dict]) -> list[ledger.Entry]:  # under the lock: others' records since count
             fresh = records[self._applied:] if self.book.generation == self._generation else records
             self._check_keys(self.key_columns.with_keys(r["series"] for r in fresh))
+            if action != "revoke":
+                self._check_spelling(s, [r["series"] for r in fresh])
             return [entry]
         try:
             [written] = self.book.append(entries, self.who)
@@ -487,6 +501,17 @@ class TriageSession(ListState):
         if said is not None and said != self.key_columns.confirmed:
             raise Refused(f"these results' {said}: a decision here starts a new set of series in "
                           f"{self.key_columns.ledger_name}; press the key again to confirm it first")
+
+    def _check_spelling(self, s: int, fresh: list[dict] = ()) -> None:
+        """``Refused`` where series ``s`` is new to the ledger and looks like a series of it under another spelling
+        (``spellings``; ``fresh``: records found under the writer's lock) that the analyst has not confirmed
+        deciding beside: the decision would record a new series beside that one, whose decisions stay behind."""
+        left = self.spellings.unconfirmed(s, fresh)
+        if left:
+            like = self.spellings.like(s)
+            named = self.spellings.label(like) if like is not None else "a series just recorded"
+            raise Refused(f"{self.label(s)} looks like {named} in {self.spellings.ledger_name} under another "
+                          f"spelling ({len(left)} such series not confirmed); press the key again to confirm it first")
 
     def last_date(self, s: int) -> str | None:
         """The last date of series ``s``'s rows ("YYYY-MM-DD"; None without dates): the ledger refuses a decision

@@ -35,7 +35,7 @@ from ..text import clean, printable
 from ..widgets.evidence import EvidencePanel, predicts
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import keys_lead, keys_text, status_text
+from ..widgets.status_line import alike_words, keys_lead, keys_text, spellings_text, status_text
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
@@ -78,7 +78,7 @@ class TriageScreen(Screen):
         self._status_lines: int | None = None
         self._waiting_key: tuple | None = None  # (action, shown): a key pressed before the results were all read
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
-        self._keys_said: str | None = None  # the key columns' mismatch the header says (``update_status``)
+        self._keys_said: tuple = (None, None)  # the key columns' mismatch and the respellings the header says
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -144,7 +144,7 @@ class TriageScreen(Screen):
         text = status_text(self.session, max(self.size.width - 2, 20))
         lines = text.plain.count("\n")
         line.update(text, layout=lines != self._status_lines)
-        self._status_lines, self._keys_said = lines, self.session.key_columns.said
+        self._status_lines, self._keys_said = lines, (self.session.key_columns.said, self.session.spellings.said)
 
     def refresh_all(self) -> None:
         self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow
@@ -158,10 +158,11 @@ class TriageScreen(Screen):
         except (OSError, PricefoldError) as exc:
             self.notify(f"could not read the ledger: {printable(str(exc))}", severity="error", markup=False)
             return
-        said = self.session.key_columns.said
-        if said != self._keys_said:  # another analyst's records started (or joined) a set of key columns
+        said, before = self.session.key_columns.said, self._keys_said
+        if (said, self.session.spellings.said) != before:  # another analyst's records started (or joined) a set of
+            # key columns, or brought a series spelled like these results' otherwise
             self.update_status()
-            if said is not None:
+            if said is not None and said != before[0]:
                 self.notify(f"The ledger changed: {said}. Your next decision asks first.", severity="warning",
                             timeout=10, markup=False)
         if changed:
@@ -286,27 +287,41 @@ class TriageScreen(Screen):
                         severity="warning", timeout=8, markup=False)
 
     def new_key_set(self, then) -> None:
-        """``then()`` — at once, or, where the results name none of the ledger's series (by other key columns, or
-        by other values of the same ones) and the analyst has not confirmed it yet this session, after a dialog
-        saying why, and that a decision starts a new set of series in the ledger, and the analyst confirms (Esc or
-        "No" cancels: nothing is written)."""
+        """``then()`` — at once, or after a dialog where a decision on the series shown would start something new
+        in the ledger and the analyst has not confirmed it yet: the results name none of the ledger's series (by
+        other key columns, or other values of the same ones; asked once a session), or this series looks like one
+        of the ledger's under another spelling (asked once a series).  The dialog says why and what a decision
+        records; "No" (the default) or Esc cancels: nothing is written."""
         said = self.session.key_columns.unconfirmed
-        if said is None:
+        shown = self.session.shown
+        s = self.session.index_of(shown) if shown is not None else -1
+        alikes = self.session.spellings.unconfirmed(s) if s >= 0 else frozenset()
+        if said is None and not alikes:
             then()
             return
         name = self.session.key_columns.ledger_name
         columns = ", ".join(map(clean, self.session.key_columns.columns))
+        parts, yes = [], []
+        if said is not None:
+            parts.append(f"{keys_lead(self.session.key_columns)}: {said}. A decision here starts a new set of series "
+                         f"in {name} (a second data set beside its own).")
+            yes.append(f"decide on series keyed by {columns} in {name}" if self.session.key_columns.mismatch
+                       else f"start a new set of series in {name}")
+        if alikes:
+            parts.append(alike_words(self.session, s) + " A decision here records it as a new series beside that "
+                         "one, whose decisions stay where they are (fix the spelling in the data to keep them).")
+            yes.append("record it as a new series")
 
         def answered(choice: str | None) -> None:
             if choice == "confirm":
-                self.session.key_columns.confirmed = said  # ``decide`` refuses if the ledger moved on meanwhile
+                if said is not None:
+                    self.session.key_columns.confirmed = said  # ``decide`` refuses if the ledger moved on meanwhile
+                if alikes:
+                    self.session.spellings.confirm(s, alikes)
                 then()
-        self.app.push_screen(ChoiceDialog(
-            f"{keys_lead(self.session.key_columns)}: {said}. A decision here starts a new set of series in {name} "
-            "(a second data set beside its own): is that what you mean?",
-            [("confirm", f"Yes: decide on series keyed by {columns} in {name}" if self.session.key_columns.mismatch
-              else f"Yes: start a new set of series in {name}"),
-             ("cancel", "No: record nothing (Esc)")], "cancel"), answered)
+        self.app.push_screen(ChoiceDialog(" ".join(parts) + " Is that what you mean?",
+                                          [("confirm", "Yes: " + "; ".join(yes)),
+                                           ("cancel", "No: record nothing (Esc)")], "cancel"), answered)
 
     def action_accept(self) -> None:
         shown = self.session.shown
@@ -464,8 +479,8 @@ class TriageScreen(Screen):
                     markup=False, timeout=2)
 
     def action_help(self) -> None:
-        self.app.push_screen(MessageDialog(help_text(self.session.book, keys_text(self.session.key_columns)),
-                                           classes="help"))
+        said = "\n  ".join(filter(None, (keys_text(self.session.key_columns), spellings_text(self.session))))
+        self.app.push_screen(MessageDialog(help_text(self.session.book, said or None), classes="help"))
 
     def action_quit(self) -> None:
         self.app.exit()

@@ -29,6 +29,7 @@ from ..cells import cut, key_labels, percent, wrapped
 from ..session import TriageSession, describe
 from ..text import clean, printable
 from .charts import curve_chart, fold_chart
+from .status_line import alike_words
 
 SEVERITY_STYLE = {"stop": "#ff875f", "warn": "#d7af5f"}
 NEWS_STYLE = "#5fafff"
@@ -120,7 +121,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         news = session.news.get("digest") if session.news is not None else None
         return (s, session.results, session.observed(s)[0], session.results.complete, engine.loaded(),
                 session.unobserved, session.status[s],
-                records[-1].get("digest") if records else None, news, session.waiting, session.model_of(s))
+                records[-1].get("digest") if records else None, news, session.waiting, session.model_of(s),
+                session.spellings.like(s), session.spellings.alike(s))
 
     def redraw(self) -> None:
         if not self.session.results.numbers_ready:  # read just after the list's: the title until they are in
@@ -147,7 +149,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                 self._part(name).update("")
             return
         self._part("title").update(self.title_text(s), layout=False)
-        for name, text in (("flags", self.flags_text(s)), ("since", self.since_text(s)), ("why", self.why_text(s)),
+        for name, text in (("flags", self.alike_text(s) + self.flags_text(s)), ("since", self.since_text(s)),
+                           ("why", self.why_text(s)),
                            ("plan", self.plan_text(s)), ("history", self.history_text(s))):
             text.rstrip()
             self._part(name).update(text)
@@ -221,6 +224,15 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         near = session.view[max(session.cursor - NEAR_ROWS, 0):session.cursor + NEAR_ROWS].tolist()
         others = [t for t in near if t != s]
         return key_labels([session.label_parts(t) for t in [s, *others]], width)[0]
+
+    def alike_text(self, s: int) -> Text:
+        """Where series ``s`` looks like a ledger series under another spelling: which, and what a decision does."""
+        if self.session.spellings.like(s) is None:
+            return Text()
+        text = Text("≈ Spelled otherwise: ", style=f"bold {SEVERITY_STYLE['warn']}")
+        text.append(printable(alike_words(self.session, s)) + " A decision here records it as a new series beside "
+                    "that one (asked first); fix the spelling in the data to keep its decisions.\n\n")
+        return text
 
     def flags_text(self, s: int) -> Text:
         flags = sorted(self.session.diagnosis.flags_of(s), key=lambda f: SEVERITY[f["code"]] != "stop")

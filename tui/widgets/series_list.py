@@ -171,7 +171,8 @@ class SeriesList(ScrollView, can_focus=True):
             self._rows, self._rows_of = {}, (session.results, session.diagnosis)  # new fit, or flags changed
         label = self.shown_labels(key_w)[s]
         shows = (s, width, int(session.status_code[s]), session.listed_model(s)[0],
-                 news.get("digest") if news is not None else None, session.waiting, label)
+                 news.get("digest") if news is not None else None, session.waiting, label,
+                 session.spellings.differing(s))
         strip = self._rows.get(shows)
         if strip is None:
             strip = self._rows[shows] = self.row_strip(s, width, label, flags_w, news)
@@ -211,6 +212,8 @@ class SeriesList(ScrollView, can_focus=True):
             flag_style = STOP if severity == "stop" else WARN if severity else DIM
             other = session.accepted_other(s)  # an accept of another model: the flags are this proposal's
             lead = cut(f"proposes {other} ", flags_w) if other is not None else ""
+            spelled = session.spellings.differing(s)  # like a ledger series spelled so (``spellings``)
+            lead = cut(f"≈{spelled} ", flags_w) if spelled is not None else lead
             rest = flags_w - cell_len(lead)
             segments += [Segment(lead, WARN), Segment(pad(short_flags(session.flag_codes(s), rest)
                                                           or ("" if lead else "—"), rest), flag_style)]

@@ -43,7 +43,7 @@ def status_text(session, width: int) -> Text:
         text.append("\n" + cut(said, width), style="bold reverse")
     elif session.book.notes:  # an interrupted append: said before any decision, whole (wrapped), until moved
         text.append("\n" + cut_off_text(session.book), style="bold")
-    for said in (keys_text(session.key_columns), elsewhere_text(session)):  # whole (wrapped), while true
+    for said in (keys_text(session.key_columns), spellings_text(session), elsewhere_text(session)):  # whole, while true
         if said:
             text.append("\n" + said, style="bold")
     return text
@@ -62,6 +62,35 @@ def keys_text(key_columns) -> str | None:
 def keys_lead(key_columns) -> str:
     """What ``key_columns.said`` is about, in two or three words."""
     return "Key columns differ" if key_columns.mismatch else "No series shared"
+
+
+def spellings_text(session) -> str | None:
+    """'Spelled otherwise: 54 series in these results look like series in L.jsonl under another spelling (region
+    "north" for "North", …); …' (``fitcore.ledger.respelling``, every command's words), for the screen."""
+    said = session.spellings.said
+    if said is None:
+        return None
+    return f"Spelled otherwise: {said}; marked ≈ in the list; a decision on one asks first"
+
+
+def alike_words(session, s: int) -> str:
+    """'lemons · north looks like lemons · North in L.jsonl under another spelling (region "north" for "North"), a
+    series these results do not hold (ana accepted poly1 at …).' — for series ``s`` (one of ``spellings``)."""
+    from fitcore.ledger.replay import series_id
+    from fitcore.ledger.respelling import spelled
+    from fitcore.ledger.rules import what_happened
+
+    spellings = session.spellings
+    like = spellings.like(s)
+    if like is None:  # found only under the writer's lock: a record just made
+        return f"{session.label(s)} looks like a series just recorded in {spellings.ledger_name} under another spelling."
+    history = session.histories.get(series_id(dict(zip(spellings.columns, like))))
+    latest = f" ({what_happened(history.latest)})" if history is not None else ""
+    more = spellings.alike(s) - 1
+    others = f" and {more} more spelled alike" if more > 0 else ""
+    how = spelled(spellings.columns, tuple(session.keys.key_of(s).values()), like)
+    return (f"{session.label(s)} looks like {spellings.label(like)}{others} in {spellings.ledger_name} under another "
+            f"spelling ({how}), a series these results do not hold{latest}.")
 
 
 def elsewhere_text(session) -> str | None:
