@@ -266,15 +266,14 @@ def run_accept_unflagged(args) -> int:
     if foreign:  # as show --ledger and the triage screen say it
         print(f"pricefold ledger: {foreign}; its 'shifted' flags are not counted (fit again with --ledger on "
               "this ledger)", file=sys.stderr)
-    from fitcore.results.series_columns import results_keys
-    keys = list(results_keys(args.results))  # read once: checked again under the lock
-    new_set(args, keys, book, warn=True)  # said (or refused) before anything is written
+    keys = ResultsKeys(args.results)  # read once, where the ledger holds series: checked again under the lock
+    checked = (len(book.records), new_set(args, keys, book, warn=True))  # said (or refused) before anything is written
     counted: dict[str, int] = {}
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
         refuse_key_mismatch(args.results, header, book, args.ledger)
-        found = new_set(args, keys, book, warn=False)
-        alike = {series_id(keys[i]) for i in found.results.tolist()}
+        found = checked[1] if len(book.records) == checked[0] else new_set(args, keys, book, warn=False)
+        alike = {series_id(keys.keys[i]) for i in found.results.tolist()}
         held = bool(book.histories)
         counted.update(new=0, alike=0)
         for key, fingerprint, chosen, snapshot in proposals:
@@ -311,13 +310,30 @@ def new_words(new: int, alike: int) -> str:
 NEW_SERIES = "--new-series"
 
 
-def new_set(args, keys: list[dict], book: ledger.Ledger, warn: bool):
-    """The ``Respelled`` of the results' series ``keys`` against the ledger ``book`` (``meets``), where the
+class ResultsKeys:
+    """The results' series keys, read when first asked (``keys``): a bulk accept into an empty ledger needs none."""
+
+    def __init__(self, path: Path) -> None:
+        self.path, self._keys = path, None
+
+    @property
+    def keys(self) -> list[dict]:
+        if self._keys is None:
+            from fitcore.results.series_columns import results_keys
+            self._keys = list(results_keys(self.path))
+        return self._keys
+
+
+def new_set(args, keys: ResultsKeys, book: ledger.Ledger, warn: bool):
+    """The ``Respelled`` of the results' series (``keys``) against the ledger ``book`` (``meets``), where the
     results may go in: a bulk accept into a non-empty ledger holding none of them would start a second set of
     series beside its own, and one of series that look like its own under another spelling (``north`` for
     ``North``) would sign them beside those, leaving their decisions behind.  Refused (exit 2) unless
     ``--new-series`` says the new series are meant; then one warning line (``warn``: say it; else only check)."""
-    said, found = meets(keys, book, args.ledger)
+    from fitcore.ledger.respelling import NONE
+    if not book.histories:  # an empty ledger takes any series
+        return NONE
+    said, found = meets(keys.keys, book, args.ledger)
     if said is None:
         return found
     if not args.new_series:

@@ -50,14 +50,26 @@ def loose_key(values: tuple) -> tuple:
     return tuple(loose(str(v)) for v in values)
 
 
+def loose_keys(keys: Sequence[tuple]) -> list[tuple]:
+    """``loose_key`` of each of ``keys`` (tuples of one length), column by column: each distinct value once (a
+    segment's few values, not one call a series)."""
+    if not len(keys):
+        return []
+    columns = []
+    for values in zip(*keys):
+        forms = {value: loose(str(value)) for value in set(values)}
+        columns.append(map(forms.__getitem__, values))
+    return list(zip(*columns))
+
+
 class LooseIndex:
     """Series keys (tuples of values, one order of columns for all) by their loose form, made once and probed by
     others: the results' series new to a ledger, probed by the ledger's missing series as they come."""
 
-    def __init__(self, keys: Iterable[tuple], at: Iterable[int]) -> None:
+    def __init__(self, keys: Sequence[tuple], at: Iterable[int]) -> None:
         self._by: dict[tuple, list[int]] = {}
-        for key, i in zip(keys, at):
-            self._by.setdefault(loose_key(key), []).append(int(i))
+        for key, i in zip(loose_keys(keys), at):
+            self._by.setdefault(key, []).append(int(i))
 
     def __len__(self) -> int:
         return sum(map(len, self._by.values()))
@@ -67,8 +79,8 @@ class LooseIndex:
         place in ``keys``, or its ``at``) whose keys are equal loosely."""
         found, probes = [], []
         get = self._by.get
-        for j, key in enumerate(keys):
-            hits = get(loose_key(key))
+        for j, key in enumerate(loose_keys(keys)):
+            hits = get(key)
             if hits:
                 found += hits
                 probes += [j] * len(hits)
@@ -155,19 +167,33 @@ def respellings(results_keys: Iterable[dict], ledger_keys: Iterable[dict],
     """The rule on whole sets of keys: ``results_keys`` (each results' series' key, a dict), ``ledger_keys`` (each
     ledger series' key; those keyed by other columns than ``columns`` — by default the first results key's — are
     passed over); indices in ``Respelled`` are places in those two sequences."""
-    results = list(results_keys)
+    results = results_keys if isinstance(results_keys, list) else list(results_keys)
     if columns is None:
         columns = tuple(results[0]) if results else ()
-    names = set(columns)
-    ledger = [tuple(map(key.__getitem__, columns)) if key.keys() == names else None for key in ledger_keys]
+    ledger = _tuples(ledger_keys if isinstance(ledger_keys, list) else list(ledger_keys), columns)
+    values = _tuples(results, columns)
     held = set(ledger)
-    values = [tuple(map(key.__getitem__, columns)) for key in results]
     new = [i for i, key in enumerate(values) if key not in held]
     if not new:  # every results' series is the ledger's: nothing more is looked at
         return NONE
     have = set(values)
     missing = [j for j, key in enumerate(ledger) if key is not None and key not in have]
     return among([values[i] for i in new], new, [ledger[j] for j in missing], missing, columns)
+
+
+def _tuples(keys: list[dict], columns: Sequence[str]) -> list[tuple | None]:
+    """Each key's values in ``columns`` order, column by column (a comprehension a column, not one call a key);
+    None for a key of other columns (one more or fewer, or another name: a value missing)."""
+    width = len(columns)
+    lists = [[key.get(name) for key in keys] for name in columns]
+    out: list = list(zip(*lists)) if columns else [()] * len(keys)
+    odd = {i for i, key in enumerate(map(len, keys)) if key != width}
+    for values in lists:
+        if None in values:  # a column this key lacks (key values are text, never null)
+            odd.update(i for i, value in enumerate(values) if value is None)
+    for i in odd:
+        out[i] = None
+    return out
 
 
 def among(new: Sequence[tuple], new_at: Sequence[int], missing: Sequence[tuple], missing_at: Sequence[int],
@@ -177,6 +203,9 @@ def among(new: Sequence[tuple], new_at: Sequence[int], missing: Sequence[tuple],
     series keyed alike and missing from the results, at ``missing_at`` among its series."""
     if not len(new) or not len(missing):
         return Respelled(NONE.results, NONE.ledger, NONE.alike, len(new), None)
-    found, probe = LooseIndex(new, new_at).pairs(missing, missing_at)
+    if len(missing) < len(new):  # the smaller side indexed, the larger probing it
+        probe, found = LooseIndex(missing, missing_at).pairs(new, new_at)
+    else:
+        found, probe = LooseIndex(new, new_at).pairs(missing, missing_at)
     theirs, ours = dict(zip(map(int, new_at), new)), dict(zip(map(int, missing_at), missing))
     return gathered(found, probe, len(new), columns, theirs.__getitem__, ours.__getitem__)
