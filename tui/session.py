@@ -511,7 +511,8 @@ class TriageSession(ListState):
             like = self.spellings.like(s)
             named = self.spellings.label(like) if like is not None else "a series just recorded"
             raise Refused(f"{self.label(s)} looks like {named} in {self.spellings.ledger_name} under another "
-                          f"spelling ({len(left)} such series not confirmed); press the key again to confirm it first")
+                          "spelling, which you have not confirmed deciding beside; press the key again to confirm it "
+                          "first")
 
     def last_date(self, s: int) -> str | None:
         """The last date of series ``s``'s rows ("YYYY-MM-DD"; None without dates): the ledger refuses a decision

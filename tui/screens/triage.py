@@ -35,7 +35,7 @@ from ..text import clean, printable
 from ..widgets.evidence import EvidencePanel, predicts
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import alike_words, keys_lead, keys_text, spellings_text, status_text
+from ..widgets.status_line import ALIKE_DECIDES, alike_words, keys_lead, keys_text, spellings_text, status_text
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
@@ -308,8 +308,7 @@ class TriageScreen(Screen):
             yes.append(f"decide on series keyed by {columns} in {name}" if self.session.key_columns.mismatch
                        else f"start a new set of series in {name}")
         if alikes:
-            parts.append(alike_words(self.session, s) + " A decision here records it as a new series beside that "
-                         "one, whose decisions stay where they are (fix the spelling in the data to keep them).")
+            parts.append(f"{alike_words(self.session, s)} {ALIKE_DECIDES}")
             yes.append("record it as a new series")
 
         def answered(choice: str | None) -> None:

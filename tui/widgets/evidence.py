@@ -29,7 +29,7 @@ from ..cells import cut, key_labels, percent, wrapped
 from ..session import TriageSession, describe
 from ..text import clean, printable
 from .charts import curve_chart, fold_chart
-from .status_line import alike_words
+from .status_line import ALIKE_DECIDES, alike_words
 
 SEVERITY_STYLE = {"stop": "#ff875f", "warn": "#d7af5f"}
 NEWS_STYLE = "#5fafff"
@@ -230,8 +230,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if self.session.spellings.like(s) is None:
             return Text()
         text = Text("≈ Spelled otherwise: ", style=f"bold {SEVERITY_STYLE['warn']}")
-        text.append(printable(alike_words(self.session, s)) + " A decision here records it as a new series beside "
-                    "that one (asked first); fix the spelling in the data to keep its decisions.\n\n")
+        text.append(f"{printable(alike_words(self.session, s))} {ALIKE_DECIDES} It asks first.\n\n")
         return text
 
     def flags_text(self, s: int) -> Text:

@@ -73,6 +73,10 @@ def spellings_text(session) -> str | None:
     return f"Spelled otherwise: {said}; marked ≈ in the list; a decision on one asks first"
 
 
+ALIKE_DECIDES = ("A decision here records it as a new series beside that one, whose decisions stay where they are "
+                 "(fix the spelling in the data to keep them).")
+
+
 def alike_words(session, s: int) -> str:
     """'lemons · north looks like lemons · North in L.jsonl under another spelling (region "north" for "North"), a
     series these results do not hold (ana accepted poly1 at …).' — for series ``s`` (one of ``spellings``)."""
