@@ -213,7 +213,7 @@ def test_a_key_column_named_like_a_results_column_is_refused_for_parquet(tmp_pat
 
 def test_a_local_fit_runs_with_the_cyclic_collector_off_and_turns_it_back_on(tmp_path, monkeypatch):
     """The collector walked every module's objects again and again during numba's start and the imports
-    beside the read (7M rows: 0.08 s CPU); a dask fit keeps it (a cluster's client lives long)."""
+    beside the read (256 collections, 0.07 s CPU); a dask fit keeps it (a cluster's client lives long)."""
     import gc
 
     import pricefold.fit_run as fit_run
