@@ -209,3 +209,18 @@ def test_a_key_column_named_like_a_results_column_is_refused_for_parquet(tmp_pat
     assert main(["fit", str(data), "--segment", name, "-o", str(tmp_path / "r.json"), "--quiet"]) == 0
     keys = {tuple(s["key"].values()) for s in json.loads((tmp_path / "r.json").read_text())["series"]}
     assert len(keys) == 180 and {k[1] for k in keys} == {"North", "South", "East"}
+
+
+def test_a_local_fit_runs_with_the_cyclic_collector_off_and_turns_it_back_on(tmp_path, monkeypatch):
+    """The collector walked every module's objects again and again during numba's start and the imports
+    beside the read (256 collections, 0.07 s CPU); a dask fit keeps it (a cluster's client lives long)."""
+    import gc
+
+    import pricefold.fit_run as fit_run
+    seen = []
+    monkeypatch.setattr(fit_run, "run_fit", lambda args: seen.append(gc.isenabled()) or 0)
+    assert gc.isenabled()
+    data, out = str(SAMPLE / "wholesale.csv"), str(tmp_path / "r.parquet")
+    assert main(["fit", data, "-o", out, "-q"]) == 0
+    assert main(["fit", data, "-o", out, "-q", "--engine", "dask"]) == 0
+    assert seen == [False, True] and gc.isenabled()
