@@ -11,8 +11,9 @@ Emoji sequences stay whole (the zero-width joiner between two pictographs and th
 black flag are kept, and escaped elsewhere, where they are invisible; variation selectors are printable).
 
 Two texts that differ only in Unicode normalisation (``café`` with a composed ``é`` and with ``e`` and a
-combining accent) print alike; where two such names are shown together, ``reveal_unnormalised`` shows the
-one not in NFC form with what NFC would change by code point (``cafe⟨U+0301⟩``).
+combining accent) or in spaces at their ends (``East `` and ``East``) print alike (``reads``); where two such
+names are shown together (``told_apart``), the one not in NFC form shows what NFC would change by code point
+(``cafe⟨U+0301⟩``, ``reveal_unnormalised``) and a space at an end is shown the same way (``East⟨U+0020⟩``).
 
 A message put together from texts ``clean`` has shown already (an error naming a series, a ledger sentence)
 goes through ``printable`` at the edge instead: it shows what does not print as ``clean`` does and leaves the
@@ -21,6 +22,7 @@ rest, the shown forms included, as it is (``clean`` again would escape the pictu
 from __future__ import annotations
 
 import re
+from collections.abc import Sequence
 from unicodedata import category, combining, is_normalized, normalize
 
 OPEN, CLOSE = "\u27e8", "\u27e9"  # ⟨ ⟩ MATHEMATICAL ANGLE BRACKETS: one cell each, rare in names
@@ -46,15 +48,60 @@ def clean(text: str) -> str:
     return _shown(text, RESERVED)
 
 
+def unstable(ch: str) -> bool:
+    """Whether NFC may change ``ch`` in a text: a combining mark, a conjoining jamo, a character NFC replaces."""
+    return (combining(ch) > 0 or category(ch).startswith("M") or normalize("NFC", ch) != ch
+            or "\u1100" <= ch <= "\u11ff" or "\ua960" <= ch <= "\ua97f" or "\ud7b0" <= ch <= "\ud7ff")
+
+
 def reveal_unnormalised(shown: str) -> str:
     """A shown text (``clean``'s) that is not in NFC form with each character NFC would change — combining
     marks, conjoining jamo, characters NFC replaces — as ``⟨U+XXXX⟩``, so that it no longer reads as its NFC
     twin; a text in NFC form as it is."""
     if shown.isascii() or is_normalized("NFC", shown):
         return shown
-    return "".join(escaped(ch) if combining(ch) or category(ch).startswith("M") or normalize("NFC", ch) != ch
-                   or "\u1100" <= ch <= "\u11ff" or "\ua960" <= ch <= "\ua97f" or "\ud7b0" <= ch <= "\ud7ff"
-                   else ch for ch in shown)
+    return "".join(escaped(ch) if unstable(ch) else ch for ch in shown)
+
+
+def reads(text: str) -> str:
+    """What a shown text reads as: its NFC form (a decomposed 'é' looks as the composed one) without the spaces
+    at its ends (which do not show at the end of a line, or before padding)."""
+    return (text if text.isascii() else normalize("NFC", text)).strip(" ")
+
+
+def revealed(shown: str) -> str:
+    """A shown text as it is shown beside another that reads the same (``reads``): not in NFC form, with what
+    NFC would change as ``⟨U+XXXX⟩`` (``reveal_unnormalised``); each space at its ends as ``⟨U+0020⟩``."""
+    text = reveal_unnormalised(shown)
+    core = text.strip(" ")
+    if len(core) == len(text):
+        return text
+    lead = len(text) - len(text.lstrip(" "))
+    return _SPACE * lead + core + _SPACE * (len(text) - len(core) - lead)
+
+
+_SPACE = escaped(" ")
+
+
+def told_apart(keys: Sequence[tuple[str, ...]]) -> list[tuple[str, ...]]:
+    """``keys`` (tuples of shown texts, ``clean``'s) shown together, each value that reads like another value
+    among them (``reads``) but differs from it shown ``revealed``, whichever parts of which keys they are
+    (``café`` decomposed in East beside ``café`` composed in North); the rest as they are.  Costs a set of
+    the values where no value is unnormalised or has a space at an end."""
+    values = {value for key in keys for value in key}
+    odd = [value for value in values if not _plain(value) and revealed(value) != value]
+    if not odd:
+        return list(keys)
+    spellings: dict[str, set] = {}
+    for value in values:
+        spellings.setdefault(reads(value), set()).add(value)
+    shown = {value: revealed(value) for value in odd if len(spellings[reads(value)]) > 1}
+    return [tuple(shown.get(value, value) for value in key) for key in keys] if shown else list(keys)
+
+
+def _plain(text: str) -> bool:
+    """ASCII without a space at either end: shown as it is beside any other text."""
+    return text.isascii() and text[:1] != " " and text[-1:] != " "
 
 
 _SHOWN = re.compile(f"{OPEN}[Uu]\\+([0-9A-Fa-f]{{4,6}}){CLOSE}|[{''.join(sorted(PICTURES.values()))}]")

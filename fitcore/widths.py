@@ -12,7 +12,7 @@ import unicodedata
 from collections import defaultdict
 from collections.abc import Callable
 
-from .text import CLOSE, ESCAPE, OPEN, reveal_unnormalised
+from .text import CLOSE, ESCAPE, OPEN, reads, told_apart
 
 ELLIPSIS = "…"
 MIN_PART = 4  # width a key part keeps at least ("ab…z"); below that a key shows its segments' ends
@@ -147,7 +147,8 @@ def cut_showing(text: str, width: int, at: int, measure: Measure = len) -> str:
     if width <= 2:
         return cut_end(text, width, measure)
     at = _escape_open(text, min(at, len(text)))  # a difference inside an escape form: show the whole form
-    if measure(text[:at + 1]) <= width - 1:
+    form = ESCAPE.match(text, at)
+    if measure(text[:form.end() if form else at + 1]) <= width - 1:
         return cut_end(text, width, measure)
     tail = last(text, width - 1, measure)
     if len(text) - len(tail) <= at:
@@ -158,23 +159,23 @@ def cut_showing(text: str, width: int, at: int, measure: Measure = len) -> str:
     return head + ELLIPSIS + cut_end(text[start:], window, measure)
 
 
-def reads(text: str) -> str:
-    """What ``text`` reads as: its NFC form (a decomposed 'é' looks as the composed one)."""
-    return text if text.isascii() else unicodedata.normalize("NFC", text)
-
-
 def distinct_keys(keys: list[tuple[str, ...]], width: int, separator: str, measure: Measure = len) -> list[str]:
     """``fit_key`` of each of ``keys`` (shown forms, ``fitcore.text.clean``), keys of different series never
-    reading the same: where two cut keys read alike (in NFC form), each part in which they differ is cut again
-    to show where it differs (its first different character, after its group's common start), again on a
-    later difference while some still clash; a part not in NFC form shows what NFC would change by code
-    point (``fitcore.text.reveal_unnormalised``).  Too narrow to show every difference (a key of several
-    parts that differ, in a dozen cells), each ends in a number (``#2``).  Costs a ``fit_key`` and a
-    dictionary look-up a key where nothing clashes.
+    reading the same: a part that reads like a part of another key shown with it though it differs (``café``
+    decomposed in East beside ``café`` composed in North, ``East `` beside ``East``) is shown ``revealed``
+    (``fitcore.text.told_apart``), its first revealed character kept in view; where two cut keys read alike
+    (``fitcore.text.reads``), each part in which they differ is cut again to show where it differs (its first
+    different character, after its group's common start), again on a later difference while some still
+    clash.  Too narrow to show every difference (a key of several parts that differ, in a dozen cells), each
+    ends in a number (``#2``).  Costs a ``fit_key``, a set of the parts and a dictionary look-up a key where
+    nothing clashes.
     """
-    labels = [fit_key(key, width, separator, measure) for key in keys]
-    shown = list(keys)
-    kept: list[tuple] = [(None,) * len(key) for key in keys]  # per key and part, the difference kept in view
+    shown = told_apart(keys)
+    kept: list[tuple] = [(None,) * len(key) if new is key else  # per key and part, the difference kept in view
+                         tuple(None if a == b else len(os.path.commonprefix([a, b])) for a, b in zip(new, key))
+                         for new, key in zip(shown, keys)]
+    labels = [fit_key(key, width, separator, measure) if new is key else _cut_key(new, width, separator, measure, at)
+              for new, key, at in zip(shown, keys, kept)]
     for attempt in range(ROUNDS + 1):
         clashing = _clashing(labels, keys)
         if not clashing:
@@ -185,8 +186,6 @@ def distinct_keys(keys: list[tuple[str, ...]], width: int, separator: str, measu
                 labels[i] = _numbered(labels[i], numbers[keys[i]], width, measure)
             break
         for group in clashing:
-            for i in group:
-                shown[i] = tuple(map(reveal_unnormalised, shown[i]))
             at = _differences([shown[i] for i in group])
             for i in group:  # a difference shown in an earlier round stays in view where this group's parts agree
                 kept[i] = tuple(new if new is not None else old for new, old in zip(at, kept[i]))

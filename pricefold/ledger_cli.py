@@ -12,13 +12,14 @@ import re
 import socket
 import sys
 from pathlib import Path
+from unicodedata import normalize
 
 from fitcore import ledger
 from fitcore.ledger.replay import apply, own_standing, series_id
-from fitcore.text import clean
+from fitcore.text import clean, original
 
 from .ledger_options import KEY_VARIABLE
-from .show import key_text, told_apart
+from .show import key_texts
 
 HEAD = re.compile(r"(\d+):([0-9a-f]{64})")
 
@@ -224,14 +225,15 @@ def run_show(args) -> int:
     several = len(key_sets(h.latest["series"] for h in book.histories.values())) > 1  # name the columns then
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
     named = product if several else None
-    texts = [key_text(product_first(r["series"], product), named=named) for r in book.records]
-    shown = told_apart(texts)  # a decomposed 'café' beside a composed one: told apart
+    texts = key_texts([product_first(r["series"], product) for r in book.records], named=named)  # told apart
+    wanted = {normalize("NFC", original(p)) for p in args.product or ()}  # either normal form, as the screen's search
     histories = {}  # replayed as listed: a revoke names the decision it withdrew
     for r, text in zip(book.records, texts):
         withdrawn = (own_standing(histories.get(series_id(r["series"])), r["analyst"], r.get("os_user"))
                      if r["action"] == "revoke" else None)
         apply(histories, [r])
-        if args.product and r["series"].get(product) not in args.product:
+        value = r["series"].get(product)
+        if args.product and (value is None or normalize("NFC", value) not in wanted):
             continue
         model = clean(r.get("model") or "")
         if r["action"] == "override":
@@ -245,7 +247,7 @@ def run_show(args) -> int:
             who = f"{who} ({clean(r['os_user'])})"
         note = f" — {clean(r['note'])}" if r.get("note") else ""
         print(f"#{r['seq']:<5} {clean(r['at'])}  {who:<12} {r['action']:<8} {model:<22} "
-              f"{shown[text]}{note}")
+              f"{text}{note}")
     return 0
 
 

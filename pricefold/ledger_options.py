@@ -21,7 +21,8 @@ def add_ledger_parser(commands):
                         help="a head printed earlier: exit 1 unless the ledger still holds exactly that record")
     show = sub.add_parser("show", help="the decisions, oldest first")
     show.add_argument("ledger", type=Path, metavar="LEDGER")
-    show.add_argument("--product", action="append", default=[], metavar="P", help="only this product (repeatable)")
+    show.add_argument("--product", action="append", default=[], metavar="P",
+                      help="only this product (repeatable; either Unicode normal form of it, or as shown)")
     show.add_argument("--product-column", default=None, metavar="COL",
                       help="the key column that names the product (default: the settings file's, else product)")
     export = sub.add_parser("export", help="the current decision per series, as CSV for planning systems")

@@ -8,8 +8,8 @@ from fitcore.review import choice
 from fitcore.review.attention import attention_order
 from fitcore.review.control_words import effect_words
 from fitcore.review.sentences import fmt, money, two_places
-from fitcore.text import clean, reveal_unnormalised
-from fitcore.widths import cells, distinct_keys, reads
+from fitcore.text import clean, told_apart
+from fitcore.widths import cells, distinct_keys
 
 SEVERITY_ORDER = {"stop": 0, "warn": 1}
 
@@ -59,20 +59,22 @@ def key_text(key: dict, named: str | None = None) -> str:
     """A series key as one line of text, control characters replaced.  ``named``: the product column, whose
     value is given alone, every other value after its column's name (``region=South``): for a list of series
     keyed by several sets of columns, where ``South`` alone could be a region or an area."""
+    return _joined(key, tuple(clean(str(value)) for value in key.values()), named)
+
+
+def key_texts(keys: list[dict], named: str | None = None) -> list[str]:
+    """``key_text`` of each of ``keys`` listed together: a value that reads like another among them though it
+    differs (``café`` decomposed beside composed, ``East `` beside ``East``) shows what does not show by code
+    point (``cafe⟨U+0301⟩``, ``East⟨U+0020⟩``: ``fitcore.text.told_apart``)."""
+    shown = told_apart([tuple(clean(str(value)) for value in key.values()) for key in keys])
+    return [_joined(key, values, named) for key, values in zip(keys, shown)]
+
+
+def _joined(key: dict, values: tuple[str, ...], named: str | None) -> str:
     if named:
-        return SEPARATOR.join(clean(str(value)) if name == named else f"{clean(str(name))}={clean(str(value))}"
-                              for name, value in key.items())
-    return SEPARATOR.join(map(clean, map(str, key.values())))
-
-
-def told_apart(texts) -> dict[str, str]:
-    """Each of ``texts`` (shown forms, whole) as a list prints it: as it is, but one not in NFC form beside
-    another that reads the same (``café`` decomposed beside composed) with what NFC changes shown by code
-    point (``fitcore.text.reveal_unnormalised``)."""
-    seen: dict[str, set] = {}
-    for text in texts:
-        seen.setdefault(reads(text), set()).add(text)
-    return {text: reveal_unnormalised(text) if len(alike) > 1 else text for alike in seen.values() for text in alike}
+        return SEPARATOR.join(value if name == named else f"{clean(str(name))}={value}"
+                              for name, value in zip(key, values))
+    return SEPARATOR.join(values)
 
 
 def key_cells(keys: list[dict], width: int = 40) -> list[str]:

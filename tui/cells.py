@@ -5,11 +5,13 @@ rules are ``fitcore.widths``' (shared with ``pricefold show``), measured with th
 """
 from __future__ import annotations
 
+from unicodedata import is_normalized
+
 import numpy as np
 from rich.cells import cell_len
 
 from fitcore.data.keys import SEPARATOR
-from fitcore.text import clean
+from fitcore.text import clean, escaped, revealed, unstable
 from fitcore.widths import cut_end, distinct_keys, fit_key
 
 
@@ -63,15 +65,16 @@ def key_labels(keys: list[tuple[str, ...]], width: int) -> list[str]:
 
 def longest_label(columns: list, cap: int | None = None) -> int:
     """Cells of the longest series label the key ``columns`` (Arrow text, one per key part, S each) make when
-    shown (each part ``clean``'s form, joined by ``SEPARATOR``; a row with a null part makes none), or ``cap``
-    when one is at least that long.
+    shown (each part ``clean``'s form, ``revealed`` as beside a part that reads the same, joined by
+    ``SEPARATOR``; a row with a null part makes none), or ``cap`` when one is at least that long.
 
     Counted without a Python object per series, from the arrays' buffers (importing ``pyarrow.compute``,
     0.1 s, held the first drawing of the list back): an ASCII character shows in one cell (a control as its
     one-cell picture), any other as its shown form measures alone (a CJK character two cells, an escape form
-    ``⟨U+202E⟩`` eight, a combining mark none), each distinct code point measured once.  A label holding a
-    joiner, a variation selector or a tag character (whose width depends on their neighbours) is measured
-    whole."""
+    ``⟨U+202E⟩`` eight), each distinct code point measured once; in a value not in NFC form (checked only where
+    a character NFC may change is, a combining mark), each such character as its escape form (``cafe⟨U+0301⟩``,
+    as beside ``café``).  A label holding a joiner, a variation selector or a tag character (whose width depends
+    on their neighbours) or a space at a part's end (``East⟨U+0020⟩``) is measured whole."""
     if not columns or not len(columns[0]):
         return 0
     n = len(columns[0])
@@ -86,7 +89,7 @@ def longest_label(columns: list, cap: int | None = None) -> int:
     if not valid.any():
         return 0
     for s in np.flatnonzero(whole & valid).tolist():
-        shown[s] = cell_len(SEPARATOR.join(clean(column[s].as_py()) for column in columns))
+        shown[s] = cell_len(SEPARATOR.join(revealed(clean(column[s].as_py())) for column in columns))
     longest = int(shown[valid].max())
     return longest if cap is None else min(longest, cap)
 
@@ -95,9 +98,11 @@ MEASURED_WHOLE = frozenset([0x200D, 0xFE0F, *range(0xE0020, 0xE0080)])  # joiner
 
 
 def _cells(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """((S,) cells, (S,) holding a character of MEASURED_WHOLE, (S,) not null) of an Arrow string or large string
-    array: each value's ASCII bytes a cell each, and each other character the cells of its ``clean`` form
-    (code points decoded from the UTF-8 bytes, summed per value with one cumulative sum)."""
+    """((S,) cells, (S,) to be measured whole, (S,) not null) of an Arrow string or large string array: each
+    value's ASCII bytes a cell each, and each other character the cells of its ``clean`` form (code points
+    decoded from the UTF-8 bytes, summed per value with one cumulative sum), in a value not in NFC form each
+    character NFC may change as its escape form (``revealed``); measured whole, a value holding a character of
+    MEASURED_WHOLE, or starting or ending with a space."""
     import pyarrow as pa
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
@@ -109,6 +114,9 @@ def _cells(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     context = np.zeros(n, dtype=bool)
     if data is not None and ends[-1] > ends[0]:
         body = np.frombuffer(data, np.uint8, count=int(ends[-1] - ends[0]), offset=int(ends[0]))
+        at = ends - ends[0]  # a space at either end (an empty value's bytes are its neighbour's: not counted)
+        context = ((body.take(at[:-1], mode="clip") == 0x20) | (body.take(at[1:] - 1, mode="clip") == 0x20)) \
+            & (cells > 0)
         if body.max() >= 0x80:  # not all ASCII: each lead byte's character, decoded
             lead = np.flatnonzero(body >= 0xC0)
             last = len(body) - 1  # a byte past the end is only read for a shorter character, and not used
@@ -126,6 +134,17 @@ def _cells(array) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
             odd = np.zeros(len(size), dtype=bool)
             odd[[c for c in MEASURED_WHOLE if c < len(size)]] = True
             context[value[odd[code]]] = True
+            changing = [c for c in points.tolist() if unstable(chr(c))]  # NFC may change: revealed where not in NFC
+            if changing:
+                more = np.zeros(len(size), dtype=np.int64)
+                more[changing] = [len(escaped(chr(c))) - size[c] for c in changing]
+                held = more[code] != 0
+                holders = np.unique(value[held])  # the values holding one, checked one by one
+                unnormal = np.zeros(n, dtype=bool)
+                texts = array.take(pa.array(holders)).to_pylist()
+                unnormal[holders[[not is_normalized("NFC", text) for text in texts]]] = True
+                keep = held & unnormal[value]
+                cells = cells + np.bincount(value[keep], weights=more[code[keep]], minlength=n).astype(np.int64)
     present = (np.unpackbits(np.frombuffer(validity, np.uint8), bitorder="little")[start:start + n].astype(bool)
                if array.null_count else np.ones(n, dtype=bool))
     return cells, context, present

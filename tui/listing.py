@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fitcore.review.flags import CODES
+from fitcore.text import original
 
 FILTERS = ("attention", "all", "pending", "held", "decided", "changed", "shifted")
 # "undecided": no decision stands on the current data, i.e. the statuses pending and stale together (the
@@ -31,11 +32,13 @@ KEEP = "keep"  # set_filter: leave this part of the filter as it is
 
 @dataclass(frozen=True)
 class SearchHit:
-    """What a search found: matches in the view and in all series; ``switched`` when the view changed to show one."""
+    """What a search found: matches in the view and in all series; ``switched`` when the view changed to show one;
+    ``exact``: of those in the view, how many match in the Unicode form typed (visited first)."""
 
     in_view: int
     overall: int
     switched: bool
+    exact: int = 0
 
     @property
     def found(self) -> bool:
@@ -205,7 +208,9 @@ class ListState:
             self.jump_attention(1)
 
     def search(self, text: str) -> SearchHit:
-        """Move to the next series after the cursor whose key contains ``text`` (ignoring case), wrapping.
+        """Move to the next series after the cursor whose key contains ``text`` (ignoring case), wrapping: first
+        those that hold it in the Unicode form typed (``cafe⟨U+0301⟩``, as the list shows a decomposed name, finds
+        that series before the composed ``café``), then those that hold it in another form.
 
         Looks through every series: when none of the listed ones match, the view switches to all series.
         """
@@ -213,8 +218,10 @@ class ListState:
         if not needle:
             return SearchHit(0, 0, False)
         if self._search is None or self._search[0] != needle.casefold():
-            self._search = (needle.casefold(), self.keys.matching(needle))
-        matches = self._search[1]
+            exact = self.keys.matching(needle, forms=False)
+            every = exact if original(needle).isascii() else self.keys.matching(needle)
+            self._search = (needle.casefold(), exact, every)
+        exact, matches = self._search[1], self._search[2]
         overall = int(matches.sum())
         positions = np.flatnonzero(matches[self.view])
         switched = False
@@ -222,7 +229,14 @@ class ListState:
             self.filter, self.flag_filter, switched = "all", None, True
             self.rebuild_view()
             positions = np.flatnonzero(matches[self.view])
-        if len(positions):
-            later = positions[positions > self.cursor]
-            self._go(int(later[0] if len(later) else positions[0]))
-        return SearchHit(len(positions) if not switched else 0, overall, switched)
+        first = exact[self.view[positions]]
+        order = np.concatenate([positions[first], positions[~first]])  # the form typed first, each in list order
+        if len(order):
+            here = np.flatnonzero(order == self.cursor)
+            if len(here):  # on a match: the next in that order
+                self._go(int(order[(here[0] + 1) % len(order)]))
+            else:  # elsewhere: the next below the cursor, among those of the form typed if any are listed
+                tier = order[:int(first.sum())] if first.any() else order
+                later = tier[tier > self.cursor]
+                self._go(int(later[0] if len(later) else tier.min()))
+        return SearchHit(len(positions) if not switched else 0, overall, switched, int(first.sum()))

@@ -304,7 +304,11 @@ class TriageSession(ListState):
         return int(self.keys.indices_of([shown.key])[0])
 
     def label_parts(self, s: int) -> tuple[str, ...]:
-        """Series ``s``'s key values, product first, safe to print (made on demand: the list draws a screenful)."""
+        """Series ``s``'s key values, product first, safe to print (made on demand: the list draws a screenful); a
+        look-alike of a ledger series told apart from that series' spelling (``Spellings.shown``)."""
+        alike = self.spellings.shown(s)
+        if alike is not None:
+            return alike[0]
         parts = self._labels.get(s)
         if parts is None:
             if len(self._labels) > 4096:
@@ -508,8 +512,7 @@ class TriageSession(ListState):
         deciding beside: the decision would record a new series beside that one, whose decisions stay behind."""
         left = self.spellings.unconfirmed(s, fresh)
         if left:
-            like = self.spellings.like(s)
-            named = self.spellings.label(like) if like is not None else "a series just recorded"
+            named = self.spellings.like_label(s) or "a series just recorded"
             raise Refused(f"{self.label(s)} looks like {named} in {self.spellings.ledger_name} under another "
                           "spelling, which you have not confirmed deciding beside; press the key again to confirm it "
                           "first")

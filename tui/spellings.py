@@ -20,6 +20,7 @@ import numpy as np
 from fitcore.data.keys import SEPARATOR, SeriesKeys
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.respelling import NONE, LooseIndex, Respelled, gathered, loose_key
+from fitcore.text import told_apart
 
 from .text import clean
 
@@ -89,16 +90,29 @@ class Spellings:
             return 0
         return int(self.found.alike[np.searchsorted(self.found.results, s)])
 
-    def label(self, values: tuple) -> str:
-        return SEPARATOR.join(clean(str(v)) for v in values)
-
-    def differing(self, s: int) -> str | None:
-        """'North': the ledger's spelling of the values series ``s`` spells otherwise (None: not a look-alike)."""
+    def shown(self, s: int) -> tuple[tuple[str, ...], tuple[str, ...]] | None:
+        """Series ``s``'s key values and those of the ledger series it looks like (``like``), as shown (``clean``'s
+        forms, in the results' column order) and told apart where they read the same (``fitcore.text.told_apart``:
+        ``cre⟨U+0300⟩me`` for ``crème``, ``East⟨U+0020⟩`` for ``East``); None where it is not a look-alike."""
         like = self.like(s)
         if like is None:
             return None
-        ours = self.keys.key_of(s)
-        return SEPARATOR.join(clean(str(v)) for name, v in zip(self.columns, like) if ours[name] != v)
+        ours = tuple(clean(str(v)) for v in self.keys.key_of(s).values())
+        ours, theirs = told_apart([ours, tuple(clean(str(v)) for v in like)])
+        return ours, theirs
+
+    def like_label(self, s: int) -> str | None:
+        """The label of the ledger series series ``s`` looks like, as shown beside it (None: not a look-alike)."""
+        shown = self.shown(s)
+        return None if shown is None else SEPARATOR.join(shown[1])
+
+    def differing(self, s: int) -> str | None:
+        """'North': the ledger's spelling of the values series ``s`` spells otherwise (None: not a look-alike)."""
+        shown = self.shown(s)
+        if shown is None:
+            return None
+        ours = self.keys.key_of(s).values()
+        return SEPARATOR.join(theirs for value, like, theirs in zip(ours, self.like(s), shown[1]) if value != like)
 
     # -- asking first -------------------------------------------------------------------------
     def look_alikes(self, s: int, fresh: Iterable[dict] = ()) -> frozenset:

@@ -55,16 +55,16 @@ class SeriesKeys:
         columns = [self.columns[name] for name in self.names]
         return columns[0] if len(columns) == 1 else pc.binary_join_element_wise(*columns, SEPARATOR)
 
-    def matching(self, needle: str) -> np.ndarray:
+    def matching(self, needle: str, forms: bool = True) -> np.ndarray:
         """(S,) bool: the label contains ``needle``, ignoring case — as typed, or as the text its shown forms
-        stand for (``⟨U+202E⟩``, ``␊``: ``fitcore.text.original``), or in either Unicode normal form (a
-        typed 'é' finds a name holding 'e' and a combining accent)."""
+        stand for (``⟨U+202E⟩``, ``␊``: ``fitcore.text.original``), or (``forms``) in either Unicode normal
+        form (a typed 'é' finds a name holding 'e' and a combining accent)."""
         import unicodedata
 
         import pyarrow.compute as pc
         raw = original(needle)
-        needles = {needle, raw} if raw.isascii() else {needle, raw, *(unicodedata.normalize(form, raw)
-                                                                      for form in ("NFC", "NFD"))}
+        needles = {needle, raw} if raw.isascii() or not forms else {
+            needle, raw, *(unicodedata.normalize(form, raw) for form in ("NFC", "NFD"))}
         found = None
         for text in needles:
             hit = pc.match_substring(self.labels, text, ignore_case=True)

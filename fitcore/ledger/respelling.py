@@ -35,7 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..text import clean
+from ..text import clean, told_apart
 
 
 def loose(value: str) -> str:
@@ -150,12 +150,15 @@ def gathered(results_at: np.ndarray, ledger_at: np.ndarray, new: int, columns: S
 
 def spelled(columns: Sequence[str], theirs: tuple, ours: tuple) -> str:
     """'region "north" for "North"': each key column whose values differ, the results' value for the ledger's,
-    cleaned; where they differ only in Unicode form (invisible once printed) that is said."""
+    cleaned; two that read the same once printed are told apart (``fitcore.text.told_apart``: the one not in NFC
+    form as ``cre⟨U+0300⟩me``, a space at an end as ``East⟨U+0020⟩``), and a difference in Unicode form only is
+    said."""
     parts = []
     for name, a, b in zip(columns, theirs, ours):
         if a == b:
             continue
-        said = f'{clean(str(name))} "{clean(str(a))}" for "{clean(str(b))}"'
+        (a_shown,), (b_shown,) = told_apart([(clean(str(a)),), (clean(str(b)),)])
+        said = f'{clean(str(name))} "{a_shown}" for "{b_shown}"'
         if unicodedata.normalize("NFC", str(a)) == unicodedata.normalize("NFC", str(b)):
             said += " in another Unicode form"
         parts.append(said)

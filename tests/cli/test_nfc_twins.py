@@ -57,3 +57,24 @@ def test_the_report_tells_nfc_twins_apart(tmp_path):
     text = page.read_text(encoding="utf-8")
     assert "cafe⟨U+0301⟩ noir 250 g" in text and COMPOSED in text
     assert DECOMPOSED not in text
+
+
+def test_ledger_show_tells_a_trailing_space_apart_and_finds_a_product_in_either_form(tmp_path, capsys):
+    """A trial: 'bananas 1 kg · East' and 'bananas 1 kg · East ' printed the same, and --product typed composed
+    listed none of the decomposed series' records."""
+    from fitcore import ledger
+    book = tmp_path / "L.jsonl"
+    cocoa = "crème cocoa 250 g"  # invented
+    keys = [("bananas 1 kg", "East"), ("bananas 1 kg", "East "), (cocoa, "North"),
+            (unicodedata.normalize("NFD", cocoa), "East"), ("tea", "North")]
+    ledger.append(book, [ledger.Entry(series={"product": p, "region": r}, action="hold", fingerprint="f",
+                                      results="ab" * 32) for p, r in keys],
+                  ledger.Identity("ana", "ana", "test-host"))
+    assert main(["ledger", "show", str(book), "--product", "bananas 1 kg"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert [line.split("hold")[-1].strip() for line in lines] == ["bananas 1 kg · East", "bananas 1 kg · East⟨U+0020⟩"]
+    for typed in (cocoa, unicodedata.normalize("NFD", cocoa), "cre⟨U+0300⟩me cocoa 250 g"):  # composed, not, shown
+        assert main(["ledger", "show", str(book), "--product", typed]) == 0
+        lines = capsys.readouterr().out.splitlines()
+        assert [line.split("hold")[-1].strip() for line in lines] == [
+            "crème cocoa 250 g · North", "cre⟨U+0300⟩me cocoa 250 g · East"], (typed, lines)

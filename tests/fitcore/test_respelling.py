@@ -36,10 +36,9 @@ def test_respelled_series_pair_with_the_ledger_series_missing_from_the_results()
     assert found.said("L.jsonl") == ('2 series in these results look like series in L.jsonl under another spelling '
                                      '(region "north" for "North", …)')
     one = respellings([results[2], *results[3:]], LEDGER)
-    decomposed = results[2]["product"]
     assert one.said("L", "signed series") == ('1 series in these results looks like a signed series in L under another '
-                                              f'spelling (product "{decomposed}" for "Café crème" in another Unicode '
-                                              'form, region "South " for "South")')
+                                              'spelling (product "Cafe⟨U+0301⟩ cre⟨U+0300⟩me" for "Café crème" in '
+                                              'another Unicode form, region "South⟨U+0020⟩" for "South")')
 
 
 def test_nothing_is_said_where_nothing_is_new_or_nothing_is_missing():
@@ -75,3 +74,16 @@ def test_loose_index_pairs_every_match():
     found, probe = index.pairs([("Salt", "NORTH"), ("pepper", "North")], [40, 41])
     assert sorted(zip(found.tolist(), probe.tolist())) == [(7, 40), (9, 40)]
     assert np.asarray(found).dtype == np.int64 and len(index) == 3
+
+
+def test_a_respelling_that_differs_only_invisibly_reads_otherwise():
+    """A trial read 'product "crème cocoa 250 g" for "crème cocoa 250 g" in another Unicode form' and
+    'region "East " for "East"': the one not in NFC form, and spaces at the ends, are now shown by code point."""
+    from fitcore.ledger.respelling import spelled
+    decomposed = unicodedata.normalize("NFD", "crème cocoa 250 g")
+    assert spelled(("product",), (decomposed,), ("crème cocoa 250 g",)) == \
+        'product "cre⟨U+0300⟩me cocoa 250 g" for "crème cocoa 250 g" in another Unicode form'
+    assert spelled(("product",), ("crème cocoa 250 g",), (decomposed,)) == \
+        'product "crème cocoa 250 g" for "cre⟨U+0300⟩me cocoa 250 g" in another Unicode form'
+    assert spelled(("product", "region"), ("tea", "East "), ("tea", "East")) == 'region "East⟨U+0020⟩" for "East"'
+    assert spelled(("region",), ("north",), ("North",)) == 'region "north" for "North"'  # visible: as it is

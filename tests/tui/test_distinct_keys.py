@@ -139,3 +139,26 @@ def test_a_revealed_mark_stays_in_view_when_another_part_tells_the_rest_apart(wi
     labels = distinct_keys(keys, width, SEP, cells)
     assert len({reads(label) for label in labels}) == 4, labels
     assert all("⟨U+0301⟩" in label for label in labels[2:]) or width < 28, labels
+
+
+def test_a_part_read_alike_in_another_row_is_revealed_whatever_the_other_parts():
+    """A trial: 'café · East' (decomposed) beside 'café · North' (composed) read as one product in two regions,
+    and 'bananas 1 kg · East ' beside 'bananas 1 kg · East' read the same once padded: rows compared whole, the
+    part that reads alike was not looked at."""
+    decomposed = unicodedata.normalize("NFD", "caf\u00e9")
+    keys = [("caf\u00e9", "North"), (decomposed, "East"), ("bananas 1 kg", "East"), ("bananas 1 kg", "East ")]
+    for width in (40, 30):
+        labels = distinct_keys(keys, width, SEP, cells)
+        assert labels == ["café · North", "cafe⟨U+0301⟩ · East", "bananas 1 kg · East",
+                          "bananas 1 kg · East⟨U+0020⟩"], labels
+    assert distinct_keys([(decomposed, "East"), ("tea", "South ")], 40, SEP, cells) == [
+        f"{decomposed} · East", "tea · South "]  # nothing reads like them: as they are
+
+
+@pytest.mark.parametrize("width", range(17, 20))
+def test_a_revealed_mark_cut_for_room_keeps_its_whole_escape_form(width):
+    """'cafe⟨U+0301⟩' given 9 to 11 cells: the cut kept 'cafe' and dropped the form ('cafe… · North', the
+    accent's meaning lost); now the form stays whole and the start gives way ('…fe⟨U+0301⟩ · North')."""
+    decomposed = unicodedata.normalize("NFD", "caf\u00e9")
+    labels = distinct_keys([("caf\u00e9", "North"), (decomposed, "North")], width, SEP, cells)
+    assert labels[0] == "café · North" and labels[1].endswith("⟨U+0301⟩ · North"), labels

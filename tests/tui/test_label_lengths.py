@@ -1,6 +1,7 @@
 """The list's key column is as wide as the longest label as shown (``tui.cells.longest_label``): checked
-against every label made one by one, each part ``fitcore.text.clean``'s form, measured by rich's
-``cell_len`` (the screen's own measure), the reference here."""
+against every label made one by one, each part ``fitcore.text.clean``'s form ``revealed`` (as beside a part
+that reads the same: a decomposed name by its marks' code points, a space at an end as ``⟨U+0020⟩``),
+measured by rich's ``cell_len`` (the screen's own measure), the reference here."""
 from __future__ import annotations
 
 import pyarrow as pa
@@ -8,16 +9,18 @@ import pytest
 from rich.cells import cell_len
 
 from fitcore.data.keys import SEPARATOR
-from fitcore.text import clean
+from fitcore.text import clean, revealed
 from tui.cells import longest_label
 
 
 def reference(columns) -> int:
     rows = zip(*[(c.combine_chunks() if isinstance(c, pa.ChunkedArray) else c).to_pylist() for c in columns])
-    return max((cell_len(SEPARATOR.join(map(clean, row))) for row in rows if None not in row), default=0)
+    return max((cell_len(SEPARATOR.join(revealed(clean(part)) for part in row)) for row in rows if None not in row),
+               default=0)
 
 
-WORDS = ["item-1", "Crème brûlée 200 g", "", "咖啡豆 1kg", "🍋 lemon", "naïve", "x" * 41, "e\u0301tagère", None]
+WORDS = ["item-1", "Crème brûlée 200 g", "", "咖啡豆 1kg", "🍋 lemon", "naïve", "x" * 41, "e\u0301tagère", None,
+         "East ", " ", "हिन्दी"]
 
 
 @pytest.mark.parametrize("values", [
@@ -26,6 +29,8 @@ WORDS = ["item-1", "Crème brûlée 200 g", "", "咖啡豆 1kg", "🍋 lemon", "
     ["咖啡豆 1kg", "abcdefgh"],  # 7 characters in 13 bytes: the ASCII one is longer in characters
     ["🍋🍋🍋🍋", "abcde"],  # 4 characters in 16 bytes
     ["naïve", None, "ab"],  # a null
+    ["East ", " East", "abcdefghijkl"],  # a space at an end: 'East⟨U+0020⟩' (12 cells)
+    ["cafe\u0301", "abcdefghijk"],  # decomposed: 'cafe⟨U+0301⟩' (12 cells)
     ["", ""],
     WORDS,
 ])
@@ -37,9 +42,9 @@ def test_one_key_column_as_pyarrow_counts(values):
 def test_joined_parts_as_pyarrow_counts_with_nulls_skipped():
     product = pa.array(["x" * 41, "Crème brûlée 200 g", "咖啡豆 1kg", "🍋 lemon"], pa.string())
     region = pa.array([None, "e\u0301tagère", "north", ""], pa.string())
-    # the longest product sits beside a null region: that row makes no label; then 18 + 3 + 7 cells (the
-    # combining accent takes none)
-    assert longest_label([product, region]) == reference([product, region]) == 28
+    # the longest product sits beside a null region: that row makes no label; then 18 + 3 + 15 cells (the
+    # combining accent shown by its code point, as beside the composed name)
+    assert longest_label([product, region]) == reference([product, region]) == 36
     product = pa.array(WORDS, pa.string())
     region = pa.array(list(reversed(WORDS)), pa.string())
     assert longest_label([product, region]) == reference([product, region])

@@ -416,8 +416,9 @@ class TriageScreen(Screen):
             if hit.switched:
                 self.notify(f"none listed matched: showing all series ({hit.overall:,} match)", markup=False)
             else:
-                self.notify(f"{hit.in_view:,} listed match ({hit.overall:,} in all series); / and Enter for the next",
-                            markup=False, timeout=3)
+                typed = f", {hit.exact:,} in the Unicode form typed first" if 0 < hit.exact < hit.in_view else ""
+                self.notify(f"{hit.in_view:,} listed match{typed} ({hit.overall:,} in all series); / and Enter for "
+                            "the next", markup=False, timeout=3)
             self.refresh_all()
         self.app.push_screen(TextDialog("Search series by key (Enter again for the next match)",
                                         "part of a product or segment name", value=self._last_search), found)

@@ -18,11 +18,13 @@ from textual.app import ComposeResult
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
+from fitcore.data.keys import SEPARATOR
 from fitcore.ledger.rules import NEWER_DUE
 from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
 from fitcore.review.sentences import fmt, money, two_places
+from fitcore.text import told_apart
 
 from .. import engine
 from ..cells import cut, key_labels, percent, wrapped
@@ -190,13 +192,13 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                  f"{self.price(results.price_hi[s])}")
         # a long product name gives way to its segments and to what is said about the series (a key of one
         # part keeps the width: the name is all that tells the series apart)
-        parts = session.label_parts(s)
-        label = cell_len(session.label(s))
-        room = min(label, max(width - cell_len(about), width * 2 // 3) if len(parts) > 1 else width)
+        near = self.near_parts(s)
+        label = cell_len(SEPARATOR.join(told_apart(near)[0]))  # as shown: 'cafe⟨U+0301⟩' beside 'café'
+        room = min(label, max(width - cell_len(about), width * 2 // 3) if len(near[0]) > 1 else width)
         # a name that fits whole but not beside the counts keeps the line; the counts follow the status
         # (at 52 cells, "… · South  104 obs, prices 0.60–0.…" lost the highest price)
         after = label + cell_len(about) > width >= label
-        head = Text(self.title_label(s, label if after else room), style="bold")
+        head = Text(key_labels(near, label if after else room)[0], style="bold")
         if not after:
             head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
@@ -217,13 +219,12 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             lines.append(Text(cut(said, width), style=NEWS_STYLE))
         return Text("\n").join(lines)
 
-    def title_label(self, s: int, width: int) -> str:
-        """Series ``s``'s key in ``width`` cells, reading differently from every series listed near the cursor
-        (all the list can show at once): cut again where it differs from one that would read the same."""
+    def near_parts(self, s: int) -> list[tuple[str, ...]]:
+        """The key parts of series ``s`` and of every series listed near the cursor (all the list can show at
+        once), ``s``'s first: the title reads differently from each (``key_labels``)."""
         session = self.session
         near = session.view[max(session.cursor - NEAR_ROWS, 0):session.cursor + NEAR_ROWS].tolist()
-        others = [t for t in near if t != s]
-        return key_labels([session.label_parts(t) for t in [s, *others]], width)[0]
+        return [session.label_parts(t) for t in [s, *(t for t in near if t != s)]]
 
     def alike_text(self, s: int) -> Text:
         """Where series ``s`` looks like a ledger series under another spelling: which, and what a decision does."""

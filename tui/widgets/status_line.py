@@ -93,7 +93,7 @@ def alike_words(session, s: int) -> str:
     more = spellings.alike(s) - 1
     others = f" and {more} more spelled alike" if more > 0 else ""
     how = spelled(spellings.columns, tuple(session.keys.key_of(s).values()), like)
-    return (f"{session.label(s)} looks like {spellings.label(like)}{others} in {spellings.ledger_name} under another "
+    return (f"{session.label(s)} looks like {spellings.like_label(s)}{others} in {spellings.ledger_name} under another "
             f"spelling ({how}), a series these results do not hold{latest}.")
 
 
