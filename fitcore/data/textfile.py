@@ -132,7 +132,7 @@ def check_quotes(path: Path, start: int, end: int, found: int, width: int, delim
     a row's last field, silently kept.  An odd count of quotes in those lines: the quote never closes (the
     record ran to the end of the file); an even count with the wrong number of fields: it closed too late.
     A record on one line (the file's last, ``start == end``): the quote never closes when a strict reader
-    meets the end of the file inside a quoted field (a quote inside a field, ``5"``, is text and odd)."""
+    meets the end of the file inside a quoted field (a count cannot tell: the quote in ``5" box`` is text)."""
     with open_text(path, errors="surrogateescape") as handle:
         text = "".join(itertools.islice(handle, start - 1, end))
     if start == end:
