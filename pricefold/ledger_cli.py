@@ -132,6 +132,21 @@ def meets(results_keys: list[dict], book: ledger.Ledger, ledger_path: Path, what
     return "; ".join(part for part in said if part) or None, found
 
 
+MISSING_TAIL = "renamed in the data? the new names read as new series, the decisions stay under the old ones"
+
+
+def say_missing(prog: str, results: Path | None, results_keys, book: ledger.Ledger, ledger_path: Path, within=None) -> None:
+    """A note on stderr (``results``: the file it is about, None for the fit's own) (never a refusal: a team ledger may hold other product ranges, results may be a subset)
+    where signed series of ``book`` keyed by the results' columns are not among ``results_keys``
+    (``fitcore.ledger.missing``; ``within``: only those a filter on the results keeps)."""
+    if not book.histories:
+        return
+    from fitcore.ledger.missing import missing_from
+    said = missing_from(results_keys, book.histories, within).said(str(ledger_path))
+    if said:
+        print(f"{prog}: {f'{results}: ' if results else ''}note: {said}; {MISSING_TAIL}", file=sys.stderr)
+
+
 def refuse_key_mismatch(results: Path, header: dict, book: ledger.Ledger, ledger_path: Path) -> None:
     """``key_mismatch`` as a refusal (exit 2, one line), for the commands that write to the ledger or from it."""
     said = key_mismatch(header, book, ledger_path)
@@ -268,6 +283,8 @@ def run_accept_unflagged(args) -> int:
               "this ledger)", file=sys.stderr)
     keys = ResultsKeys(args.results)  # read once, where the ledger holds series: checked again under the lock
     checked = (len(book.records), new_set(args, keys, book, warn=True))  # said (or refused) before anything is written
+    if book.histories:  # a renamed product's signed spelling gone: said before its new name is accepted as new
+        say_missing("pricefold ledger", args.results, keys.keys, book, args.ledger)
     counted: dict[str, int] = {}
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
