@@ -14,6 +14,7 @@ import sys
 from pathlib import Path
 
 from fitcore import ledger
+from fitcore.ledger.missing import RENAMED as MISSING_TAIL
 from fitcore.ledger.replay import apply, own_standing, series_id
 from fitcore.text import clean
 
@@ -132,7 +133,6 @@ def meets(results_keys: list[dict], book: ledger.Ledger, ledger_path: Path, what
     return "; ".join(part for part in said if part) or None, found
 
 
-MISSING_TAIL = "renamed in the data? the new names read as new series, the decisions stay under the old ones"
 
 
 def say_missing(prog: str, results: Path | None, results_keys, book: ledger.Ledger, ledger_path: Path, within=None) -> None:

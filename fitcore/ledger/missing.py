@@ -22,6 +22,7 @@ from ..data.keys import SEPARATOR
 from ..text import clean
 
 SIGNING = ("accept", "override", "carry")  # standing decisions that sign a curve into the plan
+RENAMED = "renamed in the data? the new names read as new series, the decisions stay under the old ones"
 
 
 def signing(record: dict | None) -> bool:
@@ -46,11 +47,21 @@ class Missing:
         none is missing, or none of the ledger's series is in the results (another clause says that)."""
         if not self.keys or not self.shared:
             return None
-        count = len(self.keys)
+        verb = "is" if len(self.keys) == 1 else "are"
+        return f"{len(self.keys):,} signed series in {ledger_name} {verb} not in these results ({self.example})"
+
+    def short(self, ledger_name: str = "the ledger") -> str | None:
+        """'3 signed series of L (carrots 1 kg · North, …)': ``said`` under a heading that says the rest."""
+        if not self.keys or not self.shared:
+            return None
+        return f"{len(self.keys):,} signed series of {ledger_name} ({self.example})"
+
+    @property
+    def example(self) -> str:
+        """'carrots 1 kg · North, …': the first, cleaned, its values in the results' column order."""
         first = self.keys[0]
-        example = SEPARATOR.join(clean(str(first[name])) for name in self.columns or first)
-        verb, more = ("is", "") if count == 1 else ("are", ", …")
-        return f"{count:,} signed series in {ledger_name} {verb} not in these results ({example}{more})"
+        more = ", …" if len(self.keys) > 1 else ""
+        return SEPARATOR.join(clean(str(first[name])) for name in self.columns or first) + more
 
 
 NONE = Missing(())
