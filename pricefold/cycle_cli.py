@@ -127,8 +127,6 @@ def _die_with(parent: int) -> None:
 def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
     """``(diagnosis with 'shifted', backtest, missed)`` of ``results`` (a fit, rows loaded) against the ledger;
     ``missed``: whether not one of the ledger's signed series is in the results (said in a warning line)."""
-    import numpy as np
-
     from fitcore.data.keys import SeriesKeys
     from fitcore.ledger.backtest import backtest
     from fitcore.ledger.key_columns import mismatch, none_shared
@@ -147,12 +145,10 @@ def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
     elif alike:  # the others are backtested; these read as new series, their signed spelling as gone
         print(f"pricefold fit: warning: {alike}; those were not backtested", file=sys.stderr)
     if said is None and len(standing):  # signed series gone from the data (renamed, or another range): a note
-        from fitcore.ledger.missing import Missing
-        names = set(keys.names)
-        gone = Missing(tuple(standing.series[j] for j in np.flatnonzero(at < 0).tolist()
-                             if standing.series[j].keys() == names), columns=tuple(keys.names))
-        if gone.said(str(ahead.path)):
-            print(f"pricefold fit: note: {gone.said(str(ahead.path))}; {MISSING_TAIL}", file=sys.stderr)
+        from fitcore.ledger.missing import missing_at
+        gone = missing_at(standing.series, at, keys.names).said(str(ahead.path))
+        if gone:
+            print(f"pricefold fit: note: {gone}; {MISSING_TAIL}", file=sys.stderr)
     found = backtest(results, standing, thresholds, source)
     return mark_shifted(diagnosis, found), found, said is not None
 
@@ -377,18 +373,14 @@ def differing(key: dict, like: dict) -> str:
 def alike_line(key: dict, like: dict, book, ledger_path: Path) -> str:
     """'looks like lemons · North in L under another spelling (region "north" for "North"), a series these results do
     not hold (ana accepted poly1 at …); a decision records it as a new series beside that one' — the screen's
-    sentence (``tui.widgets.status_line.alike_words``) for ``show``."""
-    from fitcore.ledger.respelling import spelled
-    from fitcore.ledger.rules import what_happened
-
-    from .show import key_text
+    sentence (``fitcore.ledger.respelling.looks_like``) for ``show``."""
+    from fitcore.ledger.respelling import looks_like
     names = list(key)
     history = book.histories.get(series_id(like))
-    latest = f" ({what_happened(history.latest)})" if history is not None else ""
-    how = spelled(names, tuple(key.values()), tuple(like[name] for name in names))
-    return (f"looks like {key_text({name: like[name] for name in names})} in {clean(str(ledger_path))} under another "
-            f"spelling ({how}), a series these results do not hold{latest}; a decision records it as a new series "
-            "beside that one (fix the spelling in the data to keep its decisions)")
+    said = looks_like(names, tuple(key.values()), tuple(like[name] for name in names), clean(str(ledger_path)),
+                      history.latest if history is not None else None)
+    return (f"looks like {said}; a decision records it as a new series beside that one (fix the spelling in the "
+            "data to keep its decisions)")
 
 
 # -- ledger carry ------------------------------------------------------------------------------------

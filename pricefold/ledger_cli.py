@@ -133,12 +133,12 @@ def meets(results_keys: list[dict], book: ledger.Ledger, ledger_path: Path, what
     return "; ".join(part for part in said if part) or None, found
 
 
-
-
-def say_missing(prog: str, results: Path | None, results_keys, book: ledger.Ledger, ledger_path: Path, within=None) -> None:
-    """A note on stderr (``results``: the file it is about, None for the fit's own) (never a refusal: a team ledger may hold other product ranges, results may be a subset)
-    where signed series of ``book`` keyed by the results' columns are not among ``results_keys``
-    (``fitcore.ledger.missing``; ``within``: only those a filter on the results keeps)."""
+def say_missing(prog: str, results: Path | None, results_keys, book: ledger.Ledger, ledger_path: Path,
+                within=None) -> None:
+    """A note on stderr where signed series of ``book`` keyed by the results' columns are not among
+    ``results_keys`` (``fitcore.ledger.missing``; ``within``: only those a filter on the results keeps;
+    ``results``: the file it is about, None for the fit's own).  Never a refusal: a team ledger may hold other
+    product ranges, and results may be a subset."""
     if not book.histories:
         return
     from fitcore.ledger.missing import missing_from

@@ -75,6 +75,14 @@ def signed_keys(histories: dict, columns: Sequence[str], within: Callable[[dict]
     return [key for key in out if key.keys() == names and (within is None or within(key))]
 
 
+def missing_at(signed: Sequence[dict], at, columns: Sequence[str], shared: bool = True) -> Missing:
+    """``Missing`` of signed series ``signed`` (keys, ledger order) found among the results at ``at`` (-1: not there;
+    a ``SeriesKeys.indices_of``), those keyed by exactly ``columns``."""
+    names = set(columns)
+    gone = tuple(key for key, i in zip(signed, at.tolist()) if i < 0 and key.keys() == names)
+    return Missing(gone, shared, tuple(columns))
+
+
 def missing_from(results_keys: Sequence[dict], histories: dict, within: Callable[[dict], bool] | None = None,
                  columns: Sequence[str] | None = None) -> Missing:
     """``Missing`` of results whose series' keys are ``results_keys`` (dicts, keyed by ``columns``: by default the

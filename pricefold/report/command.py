@@ -213,7 +213,7 @@ def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple
     import numpy as np
 
     from fitcore.data.keys import SeriesKeys
-    from fitcore.ledger.missing import Missing, signed_keys
+    from fitcore.ledger.missing import missing_at, signed_keys
 
     from ..cycle_cli import signed_alike
     if not histories:
@@ -223,7 +223,7 @@ def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple
     signed = signed_keys(histories, names)
     at = keys.indices_of(signed) if signed else np.zeros(0, np.int64)
     shared = bool(signoff.histories)  # series index → history: those of the ledger's series these results hold
-    gone = Missing(tuple(key for key, i in zip(signed, at.tolist()) if i < 0), shared, names).said(str(ledger_path))
+    gone = missing_at(signed, at, names, shared).said(str(ledger_path))
     alike = None
     if shared:
         ledger_keys = [h.latest["series"] for h in histories.values()]
