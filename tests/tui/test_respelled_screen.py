@@ -167,6 +167,14 @@ def test_look_alikes_need_attention_and_have_a_filter_and_missing_signed_series_
     header = status_text(session, 300).plain
     assert f"Not in these results: {gone} signed series of ledger.jsonl (" in header
     assert missing_text(session).startswith(f"{gone} signed series in ledger.jsonl are not in these results (")
+    # another analyst's accept of a series these results lack counts as the ledger grows; a hold signs nothing
+    for action, more in (("accept", 1), ("hold", 0)):
+        key = {"product": f"elsewhere {action}", "region": "East"}
+        ledger.append(ledger_path, [ledger.Entry(series=key, action=action, fingerprint="f", results="ab" * 32,
+                                                 model="poly1" if action == "accept" else None)], BO)
+        session.reload_ledger()
+        gone += more
+        assert f"Not in these results: {gone} signed series of ledger.jsonl (" in status_text(session, 300).plain
 
 
 async def test_a_look_alike_decided_meanwhile_is_refused_before_the_note_box(ledger_path, tmp_path):

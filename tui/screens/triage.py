@@ -150,7 +150,7 @@ class TriageScreen(Screen):
     def ledger_said(self) -> tuple:
         """What the header says of the ledger beside these results (when it changes, the header is redrawn)."""
         session = self.session
-        return session.key_columns.said, session.spellings.said, len(session.missing_signed)
+        return session.key_columns.said, session.spellings.said, session.missing.short()
 
     def refresh_all(self) -> None:
         self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow
