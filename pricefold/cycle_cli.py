@@ -344,7 +344,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             flags = f"proposes {record['chosen'] or 'nothing'}: {flags if record['flags'] else 'no flags'}"
         alike = like.get(series_id(record["key"]))
         if alike is not None:  # as the screen marks it: the ledger's spelling where the flags begin
-            flags = f"≈{differing(record['key'], alike)} {flags}"
+            flags = f"≈{differing(record['key'], alike)}" + (f" {flags}" if record["flags"] else "")
         model = standing_model(record, book)
         lines.append(f"{label} {record['n']:>5} {model:<7} "
                      f"{status:<20} {(needs or '—')[:21]:<21} {ratio:>5} {cover:>5}  {flags}")
