@@ -82,6 +82,15 @@ def quoted(text) -> str:
     return f"'{clean(str(text))}'"
 
 
+def loose(value: str) -> str:
+    """``value`` as a loose comparison reads it: NFKC, case-folded, white space stripped and collapsed, so that
+    ``North``, ``north `` and a full-width ``Ｎorth`` read alike (accents and punctuation stay)."""
+    if value.isascii():  # NFKC leaves ASCII as it is, and its case folding is ``lower``
+        return " ".join(value.lower().split())
+    folded = normalize("NFKC", normalize("NFKC", value).casefold())
+    return " ".join(folded.split())
+
+
 def printable(message: str) -> str:
     """A ``message`` safe to print where parts of it are ``clean``'s shown forms already: each character that
     does not print shown as ``clean`` shows it, everything else as it is (not one-to-one: users' own texts go

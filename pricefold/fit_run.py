@@ -238,10 +238,12 @@ def unplanned_line(results, plan_file: Path) -> str:
     missing = np.flatnonzero(~np.isfinite(results.plan_price))
     if not len(missing):
         return ""
-    first = " · ".join(str(value) for value in results.data.key_of(int(missing[0])).values())
-    return (f"{plan_file}: prices {results.n_series - len(missing):,} of {results.n_series:,} series; the other "
-            f"{len(missing):,} (the first: {first}) have no plan price (no plan volume, interval or outside-range "
-            "check)")
+    from fitcore.text import clean
+    first = " · ".join(clean(str(value)) for value in results.data.key_of(int(missing[0])).values())
+    other = (f"the other {len(missing):,} (the first: {first}) have" if len(missing) > 1
+             else f"the other ({first}) has")
+    return (f"{clean(str(plan_file))}: prices {results.n_series - len(missing):,} of {results.n_series:,} series; "
+            f"{other} no plan price (no plan volume, interval or outside-range check)")
 
 
 def first_words(rejects, columns) -> str:

@@ -5,7 +5,10 @@
 Each new week's price is the series' last price (a promotion at 10–30% off one week in four, marked in the
 ``promo`` column where the data has one), and its
 volume comes from the same invented demand as ``generate.py`` (the product's base volume, elasticity
-and curvature, the region's scale, noise).  Seeded: the same output on every run.  Used to show and
+and curvature, the region's scale, noise).  A series ``generate.py`` does not invent (a product renamed, a
+region added) gets a plain rule instead: that demand around its own mean price and mean volume, elasticity
+-1, no curvature, scale 1 (drawing as many random numbers as any other series, so the others' new rows stay
+as they were).  Seeded: the same output on every run.  Used to show and
 test a planning cycle after sign-off (README, "Each cycle"); everything in it is invented.
 """
 from __future__ import annotations
@@ -31,15 +34,21 @@ def extend(source: Path, target: Path, weeks: int = 1, seed: int = SEED) -> int:
     last: dict[tuple[str, str], list[str]] = {}
     for row in body:
         last[(row[0], row[1])] = row
+    levels = None
     params = {name: (base, volume, elasticity, curvature) for name, base, volume, elasticity, curvature in PRODUCTS}
     added = []
     for (name, region), row in last.items():
-        base, volume, elasticity, curvature = params[name]
+        if name in params and region in REGION_SCALE:
+            base, volume, elasticity, curvature = params[name]
+            volume *= REGION_SCALE[region]
+        else:
+            levels = levels or own_levels(body)
+            base, volume, elasticity, curvature = *levels[(name, region)], -1.0, 0.0
         day = date.fromisoformat(row[2])
         for w in range(1, weeks + 1):
             promo = rng.random() < 0.25
             price = round(float(row[3]) * (1 - rng.uniform(0.1, 0.3) if promo else 1.0), 2)
-            vol = demand(rng, np.array([price]), base, volume * REGION_SCALE[region], elasticity, curvature, 1)
+            vol = demand(rng, np.array([price]), base, volume, elasticity, curvature, 1)
             cells = [name, region, (day + timedelta(weeks=w)).isoformat(), f"{price:.2f}", int(vol[0])]
             added.append(cells + [int(promo)] * (len(header) - len(cells)))  # the promo column, where the data has it
     with open(target, "w", newline="", encoding="utf-8") as handle:
@@ -47,6 +56,21 @@ def extend(source: Path, target: Path, weeks: int = 1, seed: int = SEED) -> int:
         writer.writerow(header)
         writer.writerows(body + added)
     return len(added)
+
+
+def own_levels(body: list[list[str]]) -> dict[tuple[str, str], tuple[float, float]]:
+    """Each series' mean price and mean volume over its rows that hold both as numbers above zero (a
+    price and volume 1 when none does)."""
+    sums: dict[tuple[str, str], list[float]] = {}
+    for row in body:
+        total = sums.setdefault((row[0], row[1]), [0.0, 0.0, 0.0])
+        try:
+            price, volume = float(row[3]), float(row[4])
+        except (ValueError, IndexError):
+            continue
+        if price > 0 and volume > 0:
+            total[0], total[1], total[2] = total[0] + 1, total[1] + price, total[2] + volume
+    return {key: (p / n, v / n) if n else (1.0, 1.0) for key, (n, p, v) in sums.items()}
 
 
 def main() -> None:

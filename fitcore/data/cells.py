@@ -134,12 +134,15 @@ def categorical(column) -> KeyCodes:
 
     A column the reader already dictionary-encoded (pyarrow's CSV reader, Parquet's ``read_dictionary``:
     multi-threaded, in C++) is never decoded: its blocks' small dictionaries are encoded together once,
-    and each block's codes mapped through them.  Any other column is encoded here."""
+    and each block's codes mapped through them.  Any other column is encoded here, as text (a NaN in a
+    column of numbers is a missing cell, code -1, never the text 'nan')."""
     if isinstance(column, pa.Array):
         column = pa.chunked_array([column])
     found = _dictionary_codes(column) if _is_text_dictionary(column.type) else None
     if found is None:  # plain values, or a dictionary holding a null (a Parquet file may)
         import pyarrow.compute as pc
+        if pa.types.is_floating(column.type):  # NaN names no series: a missing cell, as a null is (not 'nan')
+            column = pc.if_else(pc.is_nan(column), pa.scalar(None, column.type), column)
         if not pa.types.is_string(column.type) and not pa.types.is_large_string(column.type):
             column = pc.cast(column, pa.string())
         encoded = column.combine_chunks().dictionary_encode()

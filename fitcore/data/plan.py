@@ -8,9 +8,9 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import DataError
-from ..text import clean, quoted
 from .dataset import Dataset
 from .loader import Columns, read_rows
+from .plan_checks import checked_rows, unknown_key
 
 PLAN_DATE = "plan_date"
 
@@ -34,7 +34,8 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
               controls: tuple[str, ...] = (), season: bool = False) -> Plan:
     """The plan of each series of ``data``.
 
-    Every row must name a series of ``data`` with a price above zero, once.  ``controls``: the control
+    Every row must name a series of ``data`` with a price above zero, once (``plan_checks``: what is
+    refused, and that empty lines are passed over).  ``controls``: the control
     columns the file may carry (a number each; an empty cell leaves the default); ``season``: whether it
     may carry ``plan_date`` (an ISO date; empty leaves the default).
     ``partial``: ``data`` holds only some of the series (one partition), so rows naming
@@ -49,24 +50,8 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
     columns = Columns(product=keys[0], segments=tuple(keys[1:]), price="plan_price", volume="plan_price",
                       date=PLAN_DATE if dated else None, controls=given)
     rows, kind, delimiter = read_rows(path, columns, sep)
-    price, not_number, _ = rows.numbers["plan_price"]
-    bad = not_number | ~np.isfinite(price) | (price <= 0)
-    if bad.any():
-        first = int(np.argmax(bad))
-        line = int(rows.line[first])
-        raise DataError(f"expected a price above zero{_found(path, kind, delimiter, line)}", path=str(path),
-                        line=line, column="plan_price")
-    for name in given:
-        values, not_number, missing = rows.numbers[name]
-        wrong = not_number | (~np.isfinite(values) & ~missing)
-        if wrong.any():
-            first = int(np.argmax(wrong))
-            raise DataError("expected a number (or an empty cell for the default)", path=str(path),
-                            line=int(rows.line[first]), column=name)
-    if dated and rows.date[1].any():
-        first = int(np.argmax(rows.date[1]))
-        raise DataError("expected an ISO date (or an empty cell for the default)", path=str(path),
-                        line=int(rows.line[first]), column=PLAN_DATE)
+    rows = checked_rows(rows, path, kind, delimiter, controls=given, date=PLAN_DATE if dated else None)
+    price = rows.numbers["plan_price"][0]
     table = pd.DataFrame({name: np.asarray(rows.keys[name], dtype=object).astype(str) for name in keys})
     dup = table.duplicated().to_numpy()
     if dup.any():
@@ -82,8 +67,7 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
         keep = ~unknown
     elif unknown.any():
         first = int(np.argmax(unknown))
-        names = ", ".join(f"{clean(k)}={quoted(merged[k].iloc[first])}" for k in keys)
-        raise DataError(f"no series in the data has this key ({names})", path=str(path), line=int(rows.line[first]))
+        raise unknown_key(path, int(rows.line[first]), {k: merged[k].iloc[first] for k in keys}, data.keys)
     at = merged["_s"].to_numpy()[keep].astype(np.int64)
 
     def spread(values, empty):
@@ -92,14 +76,6 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
         return out
     return Plan(spread(price, np.nan), {name: spread(rows.numbers[name][0], np.nan) for name in given},
                 spread(rows.date[0], np.datetime64("NaT")) if dated else None)
-
-
-def _found(path: Path, kind: str, delimiter: str | None, line: int) -> str:
-    """', found '2,20' (a decimal comma? …)': the plan price cell of ``line`` as written (CSV only)."""
-    from .loader import decimal_comma_hint
-    from .rejects import Rejects, first_cell
-    cell = first_cell(Rejects(path, kind, delimiter, np.array([line]), [""]), "plan_price")
-    return "" if cell is None else f", found {quoted(cell)}{decimal_comma_hint(cell)}"
 
 
 def _header_names(path: Path, sep: str | None, wanted: list[str]) -> list[str]:

@@ -233,13 +233,13 @@ def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):
                 lines.append(start)
                 if record and len(record) != width:
                     if end > start:  # a quote that swallowed lines: no row can be trusted after it
-                        check_quotes(path, start, end, len(record), width)
+                        check_quotes(path, start, end, len(record), width, delimiter)
                     broken[len(lines) - 1] = f"expected {width} fields, found {len(record)}"
                     record = []
                 for store, index in zip(cells, wanted):
                     store.append(record[index] if record else None)
-            if lines and end > lines[-1]:  # the last row may hold a quote that never closed
-                check_quotes(path, lines[-1], end, width, width)
+            if lines and (end > lines[-1] or len(lines) - 1 in broken):  # the last row: a quote never closed?
+                check_quotes(path, lines[-1], end, width, width, delimiter)
     except csv.Error as exc:
         raise DataError(f"cannot split line {end + 1} into fields ({exc})", path=str(path)) from None
     except (OSError, EOFError, zlib.error) as exc:

@@ -126,13 +126,23 @@ def _first_record(handle) -> str:
     return text.rstrip("\r\n")
 
 
-def check_quotes(path: Path, start: int, end: int, found: int, width: int) -> None:
+def check_quotes(path: Path, start: int, end: int, found: int, width: int, delimiter: str = ",") -> None:
     """One line for a record over physical lines ``start``…``end`` (``found`` fields, ``width`` expected)
     that a missing closing quote made: otherwise every later line would become one cell, rejected or, in
     a row's last field, silently kept.  An odd count of quotes in those lines: the quote never closes (the
-    record ran to the end of the file); an even count with the wrong number of fields: it closed too late."""
+    record ran to the end of the file); an even count with the wrong number of fields: it closed too late.
+    A record on one line (the file's last, ``start == end``): the quote never closes when a strict reader
+    meets the end of the file inside a quoted field (a count cannot tell: the quote in ``5" box`` is text)."""
     with open_text(path, errors="surrogateescape") as handle:
         text = "".join(itertools.islice(handle, start - 1, end))
+    if start == end:
+        try:
+            list(csv.reader([text], delimiter=delimiter, strict=True))
+        except csv.Error as exc:
+            if "unexpected end of data" in str(exc):
+                raise DataError(f"a quote opens on this line, the last of the file, and is never closed; expected "
+                                f"{width} fields a row", path=str(path), line=start) from None
+        return
     if text.count('"') % 2:
         raise DataError(f"a quote opens on this line and is never closed: lines {start}-{end} (the end of the "
                         f"file) would be one cell; expected {width} fields a row", path=str(path), line=start)

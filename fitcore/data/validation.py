@@ -47,6 +47,14 @@ class RawRows:
     def n_rows(self) -> int:
         return len(self.line)
 
+    def subset(self, at: np.ndarray) -> RawRows:
+        """The rows at the sorted indices ``at``."""
+        position = {int(index): i for i, index in enumerate(at)} if self.broken else {}
+        return RawRows(line=self.line[at], keys={name: values[at] for name, values in self.keys.items()},
+                       numbers={name: tuple(part[at] for part in parts) for name, parts in self.numbers.items()},
+                       date=None if self.date is None else tuple(part[at] for part in self.date),
+                       broken={position[index]: why for index, why in self.broken.items() if index in position})
+
 
 def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
             date: str | None, duplicates: bool = True, controls: tuple[str, ...] = ()) -> tuple[np.ndarray, np.ndarray]:
@@ -66,7 +74,7 @@ def reasons(rows: RawRows, price: str, volume: str, weight: str | None,
     out = None  # the reasons, made at the first rejected row: a clean file needs no N-object array
     open_rows = np.ones(n, dtype=bool)  # no reason given yet
     if len(doubtful):
-        why, usable = _first_reasons(_subset(rows, doubtful), blanks, checks, date)
+        why, usable = _first_reasons(rows.subset(doubtful), blanks, checks, date)
         open_rows[doubtful] = usable
         if not usable.all():
             out = np.full(n, None, dtype=object)
@@ -150,15 +158,6 @@ def _doubtful(rows: RawRows, blanks: dict, checks: list, date: str | None) -> np
     return np.union1d(found, np.fromiter(rows.broken, np.int64, len(rows.broken))) if rows.broken else found
 
 
-def _subset(rows: RawRows, at: np.ndarray) -> RawRows:
-    """The rows at the sorted indices ``at``."""
-    position = {int(index): i for i, index in enumerate(at)} if rows.broken else {}
-    return RawRows(line=rows.line[at], keys={name: values[at] for name, values in rows.keys.items()},
-                   numbers={name: tuple(part[at] for part in parts) for name, parts in rows.numbers.items()},
-                   date=None if rows.date is None else tuple(part[at] for part in rows.date),
-                   broken={position[index]: why for index, why in rows.broken.items()})
-
-
 BLANK_EACH = 1_000_000  # key texts checked for blanks one by one, without Arrow's regular expressions
 
 
@@ -180,6 +179,11 @@ def _blank(categories) -> np.ndarray:
     out = np.zeros(len(texts), dtype=bool)
     out[maybe] = [str(texts[i]).strip() == "" for i in maybe]
     return out
+
+
+def empty_keys(rows: RawRows) -> dict:
+    """Key column name → (N,) bool: the cell is empty (missing, or white space only), as ``reasons`` reads it."""
+    return {name: _empty(values, _blank(values.categories)) for name, values in rows.keys.items()}
 
 
 def _empty(values, blank: np.ndarray) -> np.ndarray:

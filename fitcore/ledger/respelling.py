@@ -8,7 +8,7 @@ beside the ledger's own, whose decisions are left behind.  ``respellings`` finds
 series **missing from the results** (keyed by the same columns).  Such a pair is one series spelled two ways
 but for a coincidence the loose comparison is kept too narrow to make.
 
-Loosely (``loose``), for each key value, and nothing more:
+Loosely (``fitcore.text.loose``), for each key value, and nothing more:
 
 - Unicode NFKC normalisation: composed and decomposed forms read alike, and compatibility forms (full-width
   letters, ligatures, the no-break space) read as their plain forms;
@@ -36,16 +36,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..data.keys import SEPARATOR
-from ..text import clean
+from ..text import clean, loose
 from .rules import what_happened
-
-
-def loose(value: str) -> str:
-    """``value`` as the loose comparison reads it: NFKC, case-folded, white space stripped and collapsed."""
-    if value.isascii():  # NFKC leaves ASCII as it is, and its case folding is ``lower``
-        return " ".join(value.lower().split())
-    folded = unicodedata.normalize("NFKC", unicodedata.normalize("NFKC", value).casefold())
-    return " ".join(folded.split())
 
 
 def loose_key(values: tuple) -> tuple:

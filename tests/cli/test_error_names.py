@@ -21,8 +21,8 @@ def test_a_plan_key_no_series_has(tmp_path, capsys):
     plan = tmp_path / "plan.csv"
     plan.write_text('product,region,plan_price\n"nosuch\u202eevil\n2",East,2.0\n', encoding="utf-8")
     err = fit_line(tmp_path, capsys, str(SAMPLE / "wholesale.csv"), "--segment", "region", "--plan", str(plan))
-    assert err.endswith("line 2: no series in the data has this key (product='nosuch⟨U+202E⟩evil␊2', "
-                        "region='East')"), err
+    assert err.endswith("line 2, column 'product': no series in the data has this key "
+                        "(product='nosuch⟨U+202E⟩evil␊2', region='East')"), err
 
 
 def test_a_plan_price_cell_and_a_missing_column(tmp_path, capsys):

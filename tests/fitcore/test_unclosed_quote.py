@@ -79,3 +79,26 @@ def test_the_command_exits_2_with_one_line_and_writes_nothing(tmp_path, capsys):
     assert code == 2 and len(err.splitlines()) == 1
     assert "unterminated.csv, line 7: a quote opens on this line and is never closed" in err
     assert sorted(p.name for p in tmp_path.iterdir()) == ["unterminated.csv"]
+
+
+@pytest.mark.parametrize("compressed", [False, True])
+@pytest.mark.parametrize("ending", ["\n", ""])
+@pytest.mark.parametrize("where", ["first field", "middle field"])
+def test_a_quote_never_closed_on_the_last_line_names_it(tmp_path, where, ending, compressed):
+    """On the last line the quote swallows no line, but leaves too few fields.  Before: that row was rejected
+    as "expected 6 fields, found 1", the quote unsaid."""
+    text = "\n".join([HEADER, *good_rows("a", "N", 5), NEVER_CLOSED[where]]) + ending
+    path = tmp_path / "last.csv"
+    path.write_bytes(gzip.compress(text.encode()) if compressed else text.encode())
+    with pytest.raises(DataError, match=r"line 7: a quote opens on this line, the last of the file, and is never "
+                                        r"closed; expected 6 fields a row$"):
+        load_with_rejects(path, COLUMNS)
+
+
+def test_a_lone_quote_inside_a_field_on_the_last_line_is_text(tmp_path):
+    """A quote inside a field is a character (RFC 4180 leaves it to readers; both readers keep it): a last line
+    of the wrong number of fields holding one is a rejected row, not an unclosed quote."""
+    path = tmp_path / "inch.csv"
+    path.write_text("\n".join([HEADER, *good_rows("a", "N", 5), 'a 5" box,N,2025-03-01,2,3']) + "\n")
+    _, rejects = load_with_rejects(path, COLUMNS)
+    assert rejects.lines.tolist() == [7] and rejects.reasons == ["expected 6 fields, found 5"]

@@ -1,0 +1,63 @@
+"""``pricefold fit --plan`` on the sample with one fault put into its plan: exit 2, one line on stderr naming the
+line and column, nothing written — and that line is the README's example of it, word for word."""
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import pytest
+
+from pricefold.cli import main
+
+ROOT = Path(__file__).resolve().parents[2]
+SAMPLE = ROOT / "sample"
+README = " ".join((ROOT / "README.md").read_text(encoding="utf-8").split())
+
+
+def plan_with(tmp_path: Path, line: int, edit) -> Path:
+    lines = (SAMPLE / "plan.csv").read_text(encoding="utf-8").splitlines()
+    lines[line - 1] = edit(lines[line - 1])
+    path = tmp_path / "plan.csv"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+def said(capsys, tmp_path, data: Path, plan: Path, *more: str) -> tuple[int, list[str]]:
+    capsys.readouterr()
+    code = main(["fit", str(data), "--segment", "region", "--date", "week", "--plan", str(plan), *more,
+                 "-q", "-o", str(tmp_path / "r.json")])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert not (tmp_path / "r.json").exists() or code == 0
+    return code, err
+
+
+CASES = {
+    "too few fields": (6, lambda text: text.rsplit(",", 1)[0], (), "line 6: expected 4 fields, found 3"),
+    "an empty key cell": (2, lambda text: text.replace(",North,", ",,"), (),
+                          "line 2, column 'region': expected a key value, found an empty cell"),
+    "a control cell": (2, lambda text: re.sub(",0$", ",yes", text), ("--control", "promo"),
+                       "column 'promo': expected a number (or an empty cell for the default), found 'yes'"),
+    "a key spelled otherwise": (2, lambda text: text.replace("North", "north"), (),
+                                "line 2, column 'region': no series in the data has this key "
+                                "(product='apples 1 kg', region='north'); did you mean 'North'?"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(CASES))
+def test_a_plan_fault_is_the_readme_line(tmp_path, capsys, case):
+    line, edit, options, words = CASES[case]
+    plan = plan_with(tmp_path, line, edit)
+    code, err = said(capsys, tmp_path, SAMPLE / "wholesale.csv", plan, *options)
+    assert code == 2 and len(err) == 1 and err[0].endswith(words), err
+    assert words in README
+
+
+def test_an_empty_product_cell_does_not_price_the_product_named_nan(tmp_path, capsys):
+    """Before: exit 0, and the 9.99 went to the series whose product is the text 'nan'."""
+    data = tmp_path / "d.csv"
+    data.write_text((SAMPLE / "wholesale.csv").read_text(encoding="utf-8").replace("\napples 1 kg,", "\nnan,"),
+                    encoding="utf-8")
+    plan = plan_with(tmp_path, 2, lambda text: ",North,9.99,0")
+    code, err = said(capsys, tmp_path, data, plan)
+    assert code == 2 and err == [f"pricefold fit: {plan}, line 2, column 'product': expected a key value, "
+                                 "found an empty cell"]

@@ -1,0 +1,157 @@
+"""A plan file's faults, each one line naming the line, the column and what was found, worded as the data
+loader words the same fault; key texts matched exactly, an empty key cell never read as the text 'nan'.
+
+The files are small and invented; each case's line and cell are written into it by hand.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+from fitcore.data.dataset import from_columns
+from fitcore.data.plan import read_plan
+from fitcore.errors import DataError
+
+PRODUCTS = ["apples", "NA", "nan", "null", "None", "Caf\u00e9"]  # text that some readers take for a missing value
+REGIONS = ["North", "South"]
+HEADER = "product,region,plan_price,promo\n"
+
+
+@pytest.fixture(scope="module")
+def data():
+    keys = [(p, r) for p in PRODUCTS for r in REGIONS]
+    product = np.repeat(np.array([k[0] for k in keys], dtype=object), 3)
+    region = np.repeat(np.array([k[1] for k in keys], dtype=object), 3)
+    n = len(product)
+    return from_columns({"product": product, "region": region}, np.tile([1.0, 2.0, 3.0], len(keys)),
+                        np.tile([9.0, 7.0, 4.0], len(keys)), controls={"promo": np.zeros(n)})
+
+
+def priced(data, plan) -> dict:
+    return {(data.keys["product"][s], data.keys["region"][s]): float(plan.price[s])
+            for s in range(data.n_series) if np.isfinite(plan.price[s])}
+
+
+def refused(data, path, **kw) -> DataError:
+    with pytest.raises(DataError) as caught:
+        read_plan(data, path, **kw)
+    assert "\n" not in str(caught.value)
+    return caught.value
+
+
+@pytest.mark.parametrize("row, column", [(",North,9.99,0", "product"), ("apples,,9.99,0", "region"),
+                                         ("   ,North,9.99,0", "product"), ('"",North,9.99,0', "product")])
+def test_an_empty_key_cell_is_refused_not_read_as_nan(tmp_path, data, row, column):
+    """Before: the empty product cell became the text 'nan' and priced the series whose product is 'nan'."""
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + "apples,North,2.0,0\n" + row + "\n", encoding="utf-8")
+    error = refused(data, path)
+    assert (error.line, error.column) == (3, column)
+    assert str(error) == f"{path}, line 3, column '{column}': expected a key value, found an empty cell"
+
+
+def test_an_empty_key_in_a_parquet_plan_is_refused(tmp_path, data):
+    path = tmp_path / "plan.parquet"
+    pq.write_table(pa.table({"product": ["apples", None], "region": ["North", "South"], "plan_price": [2.0, 3.0]}),
+                   path)
+    error = refused(data, path)
+    assert (error.line, error.column) == (2, "product") and "expected a key value, found an empty cell" in str(error)
+
+
+@pytest.mark.parametrize("kind", ["csv", "csv-quoted", "parquet"])
+def test_text_that_looks_missing_is_a_name_matched_exactly(tmp_path, data, kind):
+    """'NA', 'nan', 'null', 'None' are product names: each plan line prices its own series, and only it."""
+    prices = {(p, r): 1 + i / 10 for i, (p, r) in enumerate((p, r) for p in PRODUCTS for r in REGIONS)}
+    if kind == "parquet":
+        path = tmp_path / "plan.parquet"
+        pq.write_table(pa.table({"product": [k[0] for k in prices], "region": [k[1] for k in prices],
+                                 "plan_price": list(prices.values())}), path)
+    else:
+        path = tmp_path / "plan.csv"
+        quote = '"' if kind == "csv-quoted" else ""  # quotes send the file to the line-by-line reader
+        path.write_text(HEADER + "".join(f"{quote}{p}{quote},{r},{v},0\n" for (p, r), v in prices.items()),
+                        encoding="utf-8")
+    assert priced(data, read_plan(data, path)) == pytest.approx(prices)
+
+
+@pytest.mark.parametrize("line6, said", [("apples,South,2.41", "expected 4 fields, found 3"),
+                                         ("apples,South,2.41,0,9", "expected 4 fields, found 5")])
+@pytest.mark.parametrize("ending", ["\n", "\r\n"])
+def test_a_line_of_the_wrong_number_of_fields_says_so(tmp_path, data, line6, said, ending):
+    """Before: 'column 'plan_price': expected a price above zero, found '2.41'' — the price was there."""
+    rows = ["product,region,plan_price,promo", "NA,North,2,0", "NA,South,2,0", "nan,North,2,0", "nan,South,2,0",
+            line6, "null,North,2,0"]
+    path = tmp_path / "plan.csv"
+    path.write_bytes(ending.join(rows).encode() + ending.encode())
+    error = refused(data, path)
+    assert (error.line, error.column) == (6, None) and str(error) == f"{path}, line 6: {said}"
+
+
+def test_empty_lines_are_passed_over(tmp_path, data):
+    """As the data loader reads an empty line (a row with nothing in it, rejected, never an error), a plan's
+    empty lines carry no plan and stop nothing.  Before: 'line 3, column 'plan_price': expected a price'."""
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + "apples,North,2.0,0\n\n,,,\napples,South,3.0,\n\n\n", encoding="utf-8")
+    assert priced(data, read_plan(data, path, controls=("promo",))) == {("apples", "North"): 2.0,
+                                                                        ("apples", "South"): 3.0}
+    path.write_text(HEADER + "\n\n", encoding="utf-8")
+    assert "expected at least one plan line, found only empty lines" in str(refused(data, path))
+
+
+@pytest.mark.parametrize("last", ['"null,South,2,0', 'null,"South,2,0', 'null,South,"2,0'])
+def test_a_quote_never_closed_on_the_last_line(tmp_path, data, last):
+    """Before: 'line 4, column 'plan_price': expected a price above zero'."""
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + "apples,North,2.0,0\nNA,South,2,0\n" + last + "\n", encoding="utf-8")
+    error = refused(data, path)
+    assert error.line == 4 and str(error).endswith(
+        "line 4: a quote opens on this line, the last of the file, and is never closed; expected 4 fields a row")
+
+
+@pytest.mark.parametrize("region, hint", [("north", "; did you mean 'North'?"), (" North ", "; did you mean 'North'?"),
+                                          ("NORTH", "; did you mean 'North'?"), ("West", "")])
+def test_a_key_no_series_has_names_its_column_and_the_spelling_the_data_has(tmp_path, data, region, hint):
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + f"apples,{region},2.0,0\n", encoding="utf-8")
+    error = refused(data, path)
+    assert (error.line, error.column) == (2, "region")
+    assert str(error).endswith(f"no series in the data has this key (product='apples', region='{region}'){hint}")
+
+
+def test_a_product_spelled_in_another_unicode_form_is_pointed_to(tmp_path, data):
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + "Cafe\u0301,North,2.0,0\n", encoding="utf-8")
+    error = refused(data, path)
+    assert error.column == "product" and str(error).endswith("; did you mean 'Caf\u00e9'?")
+
+
+def test_a_key_whose_values_exist_apart_names_no_column(tmp_path):
+    data = from_columns({"product": np.array(["a", "a", "b", "b"], dtype=object),
+                         "region": np.array(["North", "North", "South", "South"], dtype=object)},
+                        np.array([1.0, 2.0, 1.0, 2.0]), np.array([3.0, 2.0, 3.0, 2.0]))
+    path = tmp_path / "plan.csv"
+    path.write_text("product,region,plan_price\na,South,2.0\n", encoding="utf-8")
+    error = refused(data, path)
+    assert (error.line, error.column) == (2, None)
+    assert str(error).endswith("line 2: no series in the data has this key (product='a', region='South')")
+
+
+def test_a_control_cell_that_is_not_a_number_is_quoted(tmp_path, data):
+    """Before: 'column 'promo': expected a number (or an empty cell for the default)', the cell unsaid."""
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + "apples,North,2.0,0\napples,South,2.0,yes\n", encoding="utf-8")
+    error = refused(data, path, controls=("promo",))
+    assert (error.line, error.column) == (3, "promo")
+    assert str(error).endswith("expected a number (or an empty cell for the default), found 'yes'")
+
+
+@pytest.mark.parametrize("cell", ["soon", "2500-01-01"])
+def test_a_plan_date_that_cannot_be_used_is_quoted(tmp_path, data, cell):
+    """'2500-01-01' lies past what the date type holds: before, it silently became the default season."""
+    path = tmp_path / "plan.csv"
+    path.write_text(f"product,region,plan_price,plan_date\napples,North,2.0,{cell}\n", encoding="utf-8")
+    error = refused(data, path, season=True)
+    assert (error.line, error.column) == (2, "plan_date")
+    assert str(error).endswith(f"expected an ISO date (or an empty cell for the default), found '{cell}'")
