@@ -147,17 +147,28 @@ def _show(args, keys: dict) -> int:
             raise SettingsError(f"these results have no key column {unknown[0]!r}; their key columns: "
                                 f"{', '.join(names)}")
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
+        if args.ledger is not None and not args.flag:  # a signed series renamed away matches no row: say where it went
+            from .cycle_cli import show_missing
+            show_missing(args.results, header, args.ledger, lambda key: within(key, header, args.product, keys))
         return 1
     binary = (header.get("settings", {}).get("controls") or {}).get("binary", [])
     if args.ledger is not None:
         from .cycle_cli import show_with_ledger
         print(show_with_ledger(picked, args.ledger, binary, header, args.results,
-                               whole=not (args.product or keys or args.flag)))
+                               whole=not (args.product or keys or args.flag),
+                               within=None if args.flag else lambda key: within(key, header, args.product, keys)))
     else:
         print(detail(picked[0], binary) if len(picked) == 1 else table(picked))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     return 0
+
+
+def within(key: dict, header: dict, products: list[str], keys: dict[str, str]) -> bool:
+    """Whether ``show``'s ``--product`` and ``--key`` filters keep a ledger series' ``key`` (its columns in the
+    ledger's order: the product column named by the results' settings)."""
+    product = (header.get("settings", {}).get("columns") or {}).get("product") or "product"
+    return (not products or key.get(product) in products) and all(key.get(k) == v for k, v in keys.items())
 
 
 def is_results(path: Path) -> bool:

@@ -20,8 +20,8 @@ from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, n
 from fitcore.text import clean
 
 from .interrupts import held
-from .ledger_cli import (NOT_A_LEDGER, identity, key_mismatch, meets, not_a_ledger, open_ledger, parse_head,
-                         refuse_key_mismatch)
+from .ledger_cli import (MISSING_TAIL, NOT_A_LEDGER, identity, key_mismatch, meets, not_a_ledger, open_ledger,
+                         parse_head, refuse_key_mismatch, say_missing)
 
 
 FIT_READS = "'fit --ledger' only reads it; a first cycle is fitted without --ledger"
@@ -144,6 +144,11 @@ def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
               file=sys.stderr)
     elif alike:  # the others are backtested; these read as new series, their signed spelling as gone
         print(f"pricefold fit: warning: {alike}; those were not backtested", file=sys.stderr)
+    if said is None and len(standing):  # signed series gone from the data (renamed, or another range): a note
+        from fitcore.ledger.missing import missing_at
+        gone = missing_at(standing.series, at, keys.names).said(str(ahead.path))
+        if gone:
+            print(f"pricefold fit: note: {gone}; {MISSING_TAIL}", file=sys.stderr)
     found = backtest(results, standing, thresholds, source)
     return mark_shifted(diagnosis, found), found, said is not None
 
@@ -271,25 +276,39 @@ def _minute(record: dict) -> str:
 
 
 def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: dict | None = None,
-                     results: Path | None = None, whole: bool = True) -> str:
+                     results: Path | None = None, whole: bool = True, within=None) -> str:
     """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list.  Results
     (``header``, from the file ``results``) keyed by other columns than the ledger's series, or (``whole``:
     ``records`` are every series of the results, no filter) sharing none of them: a warning line on
     stderr; backtested against another ledger: that backtest and its ``shifted`` flags left out, said in one
-    line on stderr."""
+    line on stderr.  Signed series of the ledger not in the results: a note on stderr, counted within the
+    filter (``within``: what a ``--product``/``--key`` filter keeps; a ``--flag`` filter, None and not
+    ``whole``, counts none).  Series that look like the ledger's under another spelling are marked
+    (``≈North`` where the flags begin; a series in full says which it looks like)."""
     from fitcore.review.sentences import shift_sentence
 
     from .show import detail, in_attention_order, key_cells
     book = open_ledger(ledger_path, must_exist=True)
+    like: dict[str, dict] = {}  # series id → the ledger series it looks like
     if header is not None:
         said, tail = key_mismatch(header, book, ledger_path), "every series reads as pending"
-        if said is None and whole:  # the same key columns: is any of the ledger's series among these, spelled so?
+        if said is None and book.histories:  # the same key columns: is any of the ledger's series among these?
             keys = [record["key"] for record in records]
-            said, found = meets(keys, book, ledger_path)
-            if found.new < len(keys):
-                tail = "they read as pending, beside the ledger's own"
+            if not whole:  # the look-alikes are judged against every series of the results, not the filter's
+                from fitcore.results.series_columns import results_keys
+                keys = list(results_keys(results))
+            found_said, found = meets(keys, book, ledger_path)
+            ledger_keys = [h.latest["series"] for h in book.histories.values()]
+            like = {series_id(keys[i]): ledger_keys[j] for i, j in found.looks_like().items()}
+            if whole:
+                said = found_said
+                if found.new < len(keys):
+                    tail = "they read as pending, beside the ledger's own"
         if said:
             print(f"pricefold show: {results}: warning: {said}; {tail}", file=sys.stderr)
+        if whole or within is not None:  # keyed otherwise, or none shared: none is counted (another clause says it)
+            say_missing("pricefold show", results, [record["key"] for record in records], book, ledger_path,
+                        None if whole else within)
         foreign = backtested_elsewhere(results, header, ledger_path)
         if foreign:
             print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "
@@ -299,6 +318,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         record = records[0]
         status, needs = ledger_state(record, book)
         lines = [detail(record, binary), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
+        alike = like.get(series_id(record["key"]))
+        if alike is not None:
+            lines.append("  " + alike_line(record["key"], alike, book, ledger_path))
         stands = standing_decision(record, book)
         if stands is not None:
             current = book.histories[series_id(record["key"])].current
@@ -320,10 +342,45 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         stands = standing_decision(record, book)
         if stands is not None and stands["action"] == "accept":  # the flags are these results' proposal's
             flags = f"proposes {record['chosen'] or 'nothing'}: {flags if record['flags'] else 'no flags'}"
+        alike = like.get(series_id(record["key"]))
+        if alike is not None:  # as the screen marks it: the ledger's spelling where the flags begin
+            flags = f"≈{differing(record['key'], alike)}" + (f" {flags}" if record["flags"] else "")
         model = standing_model(record, book)
         lines.append(f"{label} {record['n']:>5} {model:<7} "
                      f"{status:<20} {(needs or '—')[:21]:<21} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
+
+
+def show_missing(results: Path, header: dict, ledger_path: Path, within) -> None:
+    """Where ``show --ledger``'s filter matched no series of the results: the ledger's signed series it would keep,
+    said as missing (a product renamed in the data: its old name matches no row, its decisions are in the ledger)."""
+    book = open_ledger(ledger_path, must_exist=True)
+    from fitcore.ledger.key_columns import results_columns
+    from fitcore.ledger.missing import Missing, signed_keys
+    columns = results_columns(header)
+    if columns:
+        said = Missing(tuple(signed_keys(book.histories, columns, within)), columns=tuple(columns)).said(str(ledger_path))
+        if said:
+            print(f"pricefold show: {results}: note: {said}; {MISSING_TAIL}", file=sys.stderr)
+
+
+def differing(key: dict, like: dict) -> str:
+    """'North': the ledger's spelling of the values ``key`` spells otherwise (as the screen's ``≈North``)."""
+    from fitcore.data.keys import SEPARATOR
+    return SEPARATOR.join(clean(str(like[name])) for name, value in key.items() if like.get(name) != value)
+
+
+def alike_line(key: dict, like: dict, book, ledger_path: Path) -> str:
+    """'looks like lemons · North in L under another spelling (region "north" for "North"), a series these results do
+    not hold (ana accepted poly1 at …); a decision records it as a new series beside that one' — the screen's
+    sentence (``fitcore.ledger.respelling.looks_like``) for ``show``."""
+    from fitcore.ledger.respelling import looks_like
+    names = list(key)
+    history = book.histories.get(series_id(like))
+    said = looks_like(names, tuple(key.values()), tuple(like[name] for name in names), clean(str(ledger_path)),
+                      history.latest if history is not None else None)
+    return (f"looks like {said}; a decision records it as a new series beside that one (fix the spelling in the "
+            "data to keep its decisions)")
 
 
 # -- ledger carry ------------------------------------------------------------------------------------
@@ -562,6 +619,7 @@ def _carry(args) -> int:
         tail = ("nothing can be carried" if found.new == len(keys) else
                 "those are not carried (a decision is carried only to its own spelling)")
         print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
+    say_missing("pricefold ledger", args.results, keys, book, args.ledger)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
         plan, left = plan_from_stored(args.results, overrides, book.histories)

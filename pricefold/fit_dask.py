@@ -73,17 +73,19 @@ def _none_backtested(args, book) -> bool:
     from fitcore.results.read import read_header
     from fitcore.results.series_columns import results_keys
 
-    from .ledger_cli import key_mismatch, meets
+    from .ledger_cli import key_mismatch, meets, say_missing
     said = key_mismatch(read_header(args.output), book, args.ledger)
-    if said is None:
-        keys = list(results_keys(args.output))
-        said, found = meets(keys, book, args.ledger)
-        if said and found.new < len(keys):  # some series shared: those spelled otherwise were not backtested
-            print(f"pricefold fit: warning: {said}; those were not backtested", file=sys.stderr)
-            return False
-    if said:
+    if said is not None:
         print(f"pricefold fit: warning: {said}; nothing was backtested", file=sys.stderr)
-    return said is not None
+        return True
+    keys = list(results_keys(args.output))
+    said, found = meets(keys, book, args.ledger)
+    some = said is not None and found.new < len(keys)  # some series shared: those spelled otherwise were not tested
+    if said:
+        tail = "those were not backtested" if some else "nothing was backtested"
+        print(f"pricefold fit: warning: {said}; {tail}", file=sys.stderr)
+    say_missing("pricefold fit", None, keys, book, args.ledger)  # as the local fit, after its warnings
+    return said is not None and not some
 
 
 def _plan_rows(path: Path) -> int:

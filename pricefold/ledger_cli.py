@@ -15,6 +15,7 @@ from pathlib import Path
 from unicodedata import normalize
 
 from fitcore import ledger
+from fitcore.ledger.missing import RENAMED as MISSING_TAIL
 from fitcore.ledger.replay import apply, own_standing, series_id
 from fitcore.text import clean, original
 
@@ -131,6 +132,20 @@ def meets(results_keys: list[dict], book: ledger.Ledger, ledger_path: Path, what
     found = respellings(results_keys, [h.latest["series"] for h in book.histories.values()])
     said = [none_of_ledger(results_keys, book, ledger_path), found.said(str(ledger_path), what)]
     return "; ".join(part for part in said if part) or None, found
+
+
+def say_missing(prog: str, results: Path | None, results_keys, book: ledger.Ledger, ledger_path: Path,
+                within=None) -> None:
+    """A note on stderr where signed series of ``book`` keyed by the results' columns are not among
+    ``results_keys`` (``fitcore.ledger.missing``; ``within``: only those a filter on the results keeps;
+    ``results``: the file it is about, None for the fit's own).  Never a refusal: a team ledger may hold other
+    product ranges, and results may be a subset."""
+    if not book.histories:
+        return
+    from fitcore.ledger.missing import missing_from
+    said = missing_from(results_keys, book.histories, within).said(str(ledger_path))
+    if said:
+        print(f"{prog}: {f'{results}: ' if results else ''}note: {said}; {MISSING_TAIL}", file=sys.stderr)
 
 
 def refuse_key_mismatch(results: Path, header: dict, book: ledger.Ledger, ledger_path: Path) -> None:
@@ -270,6 +285,8 @@ def run_accept_unflagged(args) -> int:
               "this ledger)", file=sys.stderr)
     keys = ResultsKeys(args.results)  # read once, where the ledger holds series: checked again under the lock
     checked = (len(book.records), new_set(args, keys, book, warn=True))  # said (or refused) before anything is written
+    if book.histories:  # a renamed product's signed spelling gone: said before its new name is accepted as new
+        say_missing("pricefold ledger", args.results, keys.keys, book, args.ledger)
     counted: dict[str, int] = {}
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now

@@ -25,7 +25,7 @@ from fitcore.errors import DataError
 from fitcore.ledger.replay import series_id
 from fitcore.text import clean
 
-from .ledger_cli import meets, open_ledger, refuse_key_mismatch
+from .ledger_cli import meets, open_ledger, refuse_key_mismatch, say_missing
 
 RISKY = ("=", "+", "-", "@", "\t", "\r")
 RISKY_FIRST = frozenset(RISKY)  # one character each: ``text[:1] in RISKY_FIRST`` is ``text.startswith(RISKY)``
@@ -112,6 +112,7 @@ def run_export(args) -> int:
     if said:  # a warning, not a refusal: a team ledger may hold other product ranges keyed alike
         tail = "every row is pending" if found.new == count else "their rows are pending, beside the ledger's own"
         print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
+    say_missing("pricefold ledger", args.results, keys, book, args.ledger)  # the export has no row for those
     if later:
         _signed_at_price(args.results, rows, later, level)
     for row in rows:

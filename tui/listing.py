@@ -16,13 +16,13 @@ import numpy as np
 from fitcore.review.flags import CODES
 from fitcore.text import original
 
-FILTERS = ("attention", "all", "pending", "held", "decided", "changed", "shifted")
+FILTERS = ("attention", "all", "pending", "held", "decided", "changed", "shifted", "spelled")
 # "undecided": no decision stands on the current data, i.e. the statuses pending and stale together (the
 # header counts those two apart; the choice named "pending" lists both, and its title says so)
 FILTER_TITLES = {"attention": "needs attention, undecided", "all": "all series",
                  "pending": "undecided: pending or stale",
                  "held": "held", "decided": "decided or held", "changed": "changed since sign-off",
-                 "shifted": "shifted since sign-off"}
+                 "shifted": "shifted since sign-off", "spelled": "≈ spelled like a ledger series otherwise"}
 SORTS = ("attention", "key", "score", "n")
 SORT_TITLES = {"attention": "attention", "key": "key", "score": "lowest score", "n": "fewest observations"}
 STATUS_MARK = {"pending": "·", "accepted": "✓", "overridden": "↺", "held": "‖", "stale": "!"}
@@ -47,7 +47,7 @@ class SearchHit:
 
 class ListState:
     """The list part of a triage session.  Uses the session's ``results``, ``diagnosis``, ``keys``,
-    ``status_code`` and ``_flagged``; ``_init_list`` must run before the first ``rebuild_view``."""
+    ``status_code``, ``_flagged`` and ``spellings``; ``_init_list`` must run before the first ``rebuild_view``."""
 
     def _init_list(self, n_series: int) -> None:
         self.filter, self.sort, self.flag_filter = "attention", "attention", None
@@ -76,7 +76,9 @@ class ListState:
         return self._code("pending") | self._code("stale")
 
     def needs_attention(self) -> np.ndarray:
-        return self._flagged & self.undecided
+        """(S,) undecided, and flagged or a look-alike (``≈``: a decision on it records a new series beside a
+        ledger series these results do not hold; look-alikes are new to the ledger, so undecided)."""
+        return (self._flagged | self.spellings.marked) & self.undecided
 
     def status_mask(self, name: str) -> np.ndarray:
         if name == "attention":
@@ -91,6 +93,8 @@ class ListState:
             return self._code("stale")
         if name == "shifted":
             return self.diagnosis.flagged("shifted").copy()
+        if name == "spelled":
+            return self.spellings.marked.copy()
         return np.ones(self.results.n_series, dtype=bool)
 
     def _mask(self, name: str, flag: str | None) -> np.ndarray:

@@ -101,6 +101,7 @@ class TriageSession(ListState):
         self._key_table = KeyTable(self.keys)  # key values → index, for the many keys of a whole ledger
         self.key_columns = KeyColumns(list(data.key_names), self.ledger_path.name)  # the ledger's series keyed so?
         self.spellings = Spellings(self.keys, self.ledger_path.name)  # series like the ledger's, spelled otherwise
+        self.missing_signed: dict[str, dict] = {}  # series id → key: the ledger's signed series not in these results
         # verified in full here (or by the caller: ``book``, that ledger opened), then only its new tail
         self.book = book if book is not None else ledger.Ledger(self.ledger_path, key)
         self._applied, self._generation = 0, self.book.generation
@@ -143,6 +144,7 @@ class TriageSession(ListState):
             self.status[:], self.status_code[:] = "pending", 0
             self.key_columns.reset()
             self.spellings.reset()
+            self.missing_signed.clear()
         everything = not self._applied  # every record: the replay has named their series already
         records = self.book.records[self._applied:]
         self._applied = len(self.book.records)
@@ -154,6 +156,7 @@ class TriageSession(ListState):
         self._known.update(zip(unknown, found))
         if records or force:
             self._share_check()
+        self._note_missing(touched)
         changed = {self._known[sid]: sid for sid in touched if self._known[sid] >= 0}
         self.spellings.see(changed, [touched[sid] for sid, at in zip(unknown, found) if at < 0])
         set_statuses(self.status, self.status_code, changed, self.histories, self.results.data)
@@ -170,6 +173,27 @@ class TriageSession(ListState):
                 self._flagged = self.diagnosis.raised.any(axis=1)
             self.rebuild_view(pin=pin)
         return changed
+
+    def _note_missing(self, touched: dict[str, dict]) -> None:
+        """Keep ``missing_signed`` as records come: the ledger's series keyed by the results' columns, not in these
+        results, whose standing decision signs a curve (``fitcore.ledger.missing``)."""
+        from fitcore.ledger.missing import signing
+        names = set(self.keys.names)
+        for sid in [sid for sid in touched if self._known[sid] < 0]:
+            key = touched[sid]
+            if key.keys() == names and signing(self.histories[sid].current):
+                self.missing_signed[sid] = key
+            else:
+                self.missing_signed.pop(sid, None)
+
+    @property
+    def missing(self):
+        """``fitcore.ledger.missing.Missing`` of the ledger's signed series these results do not hold (none where
+        none of its series is: the header says that instead)."""
+        from fitcore.ledger.missing import NONE, Missing
+        if not self.missing_signed or self.key_columns.said is not None:
+            return NONE
+        return Missing(tuple(self.missing_signed.values()), True, tuple(self.keys.names))
 
     def _share_check(self) -> None:
         """Whether any of the ledger's series is in these results (the first one found ends the look; only when
@@ -458,18 +482,7 @@ class TriageSession(ListState):
         results' key columns name none of the ledger's series and the analyst has not confirmed starting a
         new set of them (``key_columns``; checked again under the writer's lock).
         """
-        self.reload_ledger(pin="waits")
-        if not self.writable:
-            raise Refused(f"{self.read_only_why}: nothing can be recorded")
-        self._check_keys(self.key_columns.said)
-        s = self.index_of(shown)
-        if s < 0:
-            raise Refused("this series is no longer in the results")
-        if action != "revoke":
-            self._check_spelling(s)
-        check_latest(shown.key, shown.latest, self.histories.get(self._id(s)))  # the ledger's rule, said first
-        if self.waiting and s == self.current and action != "revoke":
-            raise Refused("this series has left the list you are working through; move on first")
+        s = self.check_shown(shown, action)
         later = getattr(self.results, "later", None)
         if action in ("accept", "override") and later is not None:
             later.table()  # the interval parts a sign-off records (the screen asks only once they are in)
@@ -498,6 +511,24 @@ class TriageSession(ListState):
             self._mine.append((shown.sid, written["digest"]))
         self._catch_up(pin=None)
         return written
+
+    def check_shown(self, shown: Shown, action: str) -> int:
+        """The ledger read again, then every refusal ``decide`` would meet before its write (read-only, key columns
+        or spellings unconfirmed, the series decided by someone else since it was shown, or gone from the list):
+        asked by ``decide`` and by the screen after a confirmation, before a note box opens.  Series ``s``."""
+        self.reload_ledger(pin="waits")
+        if not self.writable:
+            raise Refused(f"{self.read_only_why}: nothing can be recorded")
+        self._check_keys(self.key_columns.said)
+        s = self.index_of(shown)
+        if s < 0:
+            raise Refused("this series is no longer in the results")
+        if action != "revoke":
+            self._check_spelling(s)
+        check_latest(shown.key, shown.latest, self.histories.get(self._id(s)))  # the ledger's rule, said first
+        if self.waiting and s == self.current and action != "revoke":
+            raise Refused("this series has left the list you are working through; move on first")
+        return s
 
     def _check_keys(self, said: str | None) -> None:
         """``Refused`` when the results' key columns name none of the ledger's series (``said``) and the analyst

@@ -42,6 +42,7 @@ class Spellings:
         self._pairs: list[tuple[np.ndarray, np.ndarray]] = []  # (series, place in ``missing``) found so far
         self.found: Respelled = NONE
         self._like: dict[int, int] = {}
+        self.marked = np.zeros(len(self.keys), dtype=bool)  # (S,) the look-alikes: the list's "needs attention"
 
     def see(self, hits: Iterable[int], missing: Iterable[dict]) -> None:
         """Take note of series the ledger names: ``hits``, those of the results (indices); ``missing``, the keys of
@@ -73,6 +74,8 @@ class Spellings:
         self.found = gathered(series[keep], place[keep], new, self.columns, lambda s: self._values(np.array([s]))[0],
                               self.missing.__getitem__)
         self._like = self.found.looks_like()
+        self.marked = np.zeros(len(self.keys), dtype=bool)
+        self.marked[self.found.results] = True
 
     # -- what the screen says -------------------------------------------------------------------
     @property

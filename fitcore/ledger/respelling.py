@@ -35,7 +35,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..data.keys import SEPARATOR
 from ..text import clean, loose, told_apart
+from .rules import what_happened
 
 
 def loose_key(values: tuple) -> tuple:
@@ -204,3 +206,16 @@ def among(new: Sequence[tuple], new_at: Sequence[int], missing: Sequence[tuple],
         found, probe = LooseIndex(new, new_at).pairs(missing, missing_at)
     theirs, ours = dict(zip(map(int, new_at), new)), dict(zip(map(int, missing_at), missing))
     return gathered(found, probe, len(new), columns, theirs.__getitem__, ours.__getitem__)
+
+
+def looks_like(columns: Sequence[str], theirs: tuple, ours: tuple, ledger_name: str, latest: dict | None = None,
+               others: int = 0) -> str:
+    """'lemons · North in L under another spelling (region "north" for "North"), a series these results do not hold
+    (ana accepted poly1 at …)' — what a results' series (``theirs``, its key's values in ``columns`` order) looks like,
+    said after its name and "looks like" by the screen and ``show``; ``latest``: the ledger series' latest record;
+    ``others``: how many more of the ledger's series it looks like."""
+    more = f" and {others} more spelled alike" if others > 0 else ""
+    said = f" ({what_happened(latest)})" if latest is not None else ""
+    _, shown = told_apart([tuple(clean(str(v)) for v in theirs), tuple(clean(str(v)) for v in ours)])
+    return (f"{SEPARATOR.join(shown)}{more} in {ledger_name} under another spelling "
+            f"({spelled(columns, theirs, ours)}), a series these results do not hold{said}")

@@ -206,6 +206,31 @@ class Charts:
         return self.maker.draw(chart, f"Demand curve of {label(book.results, s)}", note, salt=f"s{s}")
 
 
+def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple[str, ...]:
+    """Where the results and the ledger part, each in the commands' one clause: the ledger's signed series not in
+    the results (``fitcore.ledger.missing``), and the results' series that look like its own under another spelling
+    (``fitcore.ledger.respelling``) — what an approver reading "34 pending" would not otherwise learn."""
+    import numpy as np
+
+    from fitcore.data.keys import SeriesKeys
+    from fitcore.ledger.missing import missing_at, signed_keys
+
+    from ..cycle_cli import signed_alike
+    if not histories:
+        return ()
+    keys = SeriesKeys.of(results.data)
+    names = tuple(keys.names)
+    signed = signed_keys(histories, names)
+    at = keys.indices_of(signed) if signed else np.zeros(0, np.int64)
+    shared = bool(signoff.histories)  # series index → history: those of the ledger's series these results hold
+    gone = missing_at(signed, at, names, shared).said(str(ledger_path))
+    alike = None
+    if shared:
+        ledger_keys = [h.latest["series"] for h in histories.values()]
+        alike = signed_alike(keys, ledger_keys, keys.indices_of(ledger_keys)).said(str(ledger_path))
+    return tuple(said for said in (gone, alike) if said)
+
+
 def version() -> str:
     from importlib.metadata import PackageNotFoundError
     from importlib.metadata import version as installed
@@ -249,10 +274,13 @@ def run(args) -> int:
     decided, flagged, more = signoff.detailed()
     charts = Charts(book, signoff, [*decided.tolist(), *flagged.tolist()])
     charts.draw_all()
+    apart = results_apart(book.results, histories, signoff, ledger_path)
+    for said in apart:  # as every command where results meet a ledger says it
+        print(f"pricefold report: {args.results}: note: {said}", file=sys.stderr)
     made = datetime.now(timezone.utc)
     title = args.title or f"Sign-off report: {args.results.name}"
     report = Report(title, made, str(args.results), book.header, signoff, view, book.data_note,
-                    charts, __version__, backtest)
+                    charts, __version__, backtest, apart)
     detailed = {int(s) for s in decided} | {int(s) for s in flagged}
     body = (f"<header><h1>{esc(title)}</h1><p class=\"muted\">Made {made.strftime('%Y-%m-%d %H:%M UTC')} by "
             f"pricefold {esc(__version__)} from <code>{esc(args.results)}</code> and the ledger "

@@ -43,6 +43,8 @@ class Report:
     chart: Callable[[int], object]
     version: str = ""
     backtest: object = None  # the signed curves' backtest (``Backtest`` or ``StoredBacktest``; None: none)
+    # where results and ledger part: signed series not in the results, series spelled otherwise (one clause each)
+    apart: tuple = ()
 
 
 def esc(text) -> str:
@@ -186,6 +188,7 @@ def summary(report: Report) -> str:
              ("overridden", counts["overridden"], ""), ("held", counts["held"], ""),
              ("pending", counts["pending"], ""), ("stale", counts["stale"], "")]
     card_html = "".join(f"<li><span class=\"n\">{num(n)}</span>{word}{extra}</li>" for word, n, extra in cards)
+    apart = "".join(f"<p class=\"notice\">{esc(said[0].upper() + said[1:])}.</p>" for said in report.apart)
     flags = flag_table(signoff)
     flag_rows = "".join(f"<tr><td><code>{code}</code></td><td class=\"sev-{sev}\">{sev}</td>"
                         f"<td class=\"num\">{num(n)}</td><td>{esc(MEANING[code])}</td></tr>" for code, sev, n in flags)
@@ -193,7 +196,7 @@ def summary(report: Report) -> str:
                  f"<th>meaning</th></tr></thead><tbody>{flag_rows}</tbody></table></div>"
                  if flags else "<p>No series carries a flag.</p>")
     clean_count = int((~signoff.diagnosis.raised.any(axis=1)).sum())
-    return (f"<section id=\"summary\"><h2>Summary</h2><ul class=\"cards\">{card_html}</ul>"
+    return (f"<section id=\"summary\"><h2>Summary</h2><ul class=\"cards\">{card_html}</ul>{apart}"
             f"<p class=\"caution\">{esc(CAUTION)}</p>"
             f"<div class=\"grid2\"><div><h3>Data and settings</h3>"
             f"{_facts(_settings(report.header, signoff.results.names))}</div>"

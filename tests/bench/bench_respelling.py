@@ -1,4 +1,5 @@
-"""Benchmark of the respelling rule (``fitcore.ledger.respelling.respellings``) at ledger and results sizes of 100k.
+"""Benchmark of the respelling rule (``fitcore.ledger.respelling.respellings``) and of the count of the ledger's signed
+series missing from the results (``fitcore.ledger.missing.missing_from``) at ledger and results sizes of 100k.
 
     python tests/bench/bench_respelling.py [--series 100000] [--rounds 5]
 
@@ -6,7 +7,8 @@ Invented keys (product, region): the ledger holds ``--series`` series; the resul
 none, 1% or all of them respelled (the region lower-cased, or with a trailing space), and 1% new products.  For each
 case it prints the CPU time of ``respellings`` (median of ``--rounds``, the cases interleaved round by round) beside
 that of one look-up of every results' series in the ledger's histories by series id (what ``export`` and
-``accept-unflagged`` do for each series anyway), and their ratio, with the load average.  Not a test: machines
+``accept-unflagged`` do for each series anyway), and their ratio, then the same of ``missing_from`` (every ledger
+series signed), with the load average.  Not a test: machines
 are noisy.
 """
 from __future__ import annotations
@@ -19,6 +21,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
+from fitcore.ledger.missing import missing_from  # noqa: E402
 from fitcore.ledger.replay import series_id  # noqa: E402
 from fitcore.ledger.respelling import respellings  # noqa: E402
 
@@ -52,19 +55,29 @@ def main() -> None:
     cases = {name: keys(args.series, share) for name, share in (("none respelled", 0.0), ("1% respelled", 0.01),
                                                                    ("all respelled", 1.0))}
     ids = {name: {series_id(key) for key in ledger} for name, (ledger, _) in cases.items()}
-    times: dict[str, list[tuple[float, float]]] = {name: [] for name in cases}
+    histories = {name: {series_id(key): Signed(key) for key in ledger} for name, (ledger, _) in cases.items()}
+    times: dict[str, list[tuple[float, float, float]]] = {name: [] for name in cases}
     for _ in range(args.rounds):
         for name, (ledger, results) in cases.items():
             times[name].append((cpu(lambda: respellings(results, ledger)),
-                                cpu(lambda: [series_id(key) in ids[name] for key in results])))
+                                cpu(lambda: [series_id(key) in ids[name] for key in results]),
+                                cpu(lambda: missing_from(results, histories[name]))))
     load = open("/proc/loadavg").read().split()[0] if Path("/proc/loadavg").exists() else "?"
     print(f"{args.series:,} ledger series, {args.series * 101 // 100:,} results' series; CPU, median of "
           f"{args.rounds} (load {load}):")
     for name, (ledger, results) in cases.items():
-        rule, before = (statistics.median(column) for column in zip(*times[name]))
-        found = respellings(results, ledger)
+        rule, before, gone = (statistics.median(column) for column in zip(*times[name]))
+        found, missing = respellings(results, ledger), missing_from(results, histories[name])
         print(f"  {name:<15} respellings {rule * 1e3:6.1f} ms ({len(found):,} found, {found.new:,} new); "
-              f"look-ups {before * 1e3:6.1f} ms; ratio {rule / max(before, 1e-9):.2f}")
+              f"look-ups {before * 1e3:6.1f} ms; ratio {rule / max(before, 1e-9):.2f}; missing_from "
+              f"{gone * 1e3:6.1f} ms ({len(missing):,} missing), ratio {gone / max(before, 1e-9):.2f}")
+
+
+class Signed:
+    """A ledger series' replayed history as ``missing_from`` reads it: an accept standing."""
+
+    def __init__(self, key: dict) -> None:
+        self.current = self.latest = {"series": key, "action": "accept"}
 
 
 if __name__ == "__main__":

@@ -227,9 +227,13 @@ def test_results_sharing_no_series_with_the_ledger_are_said_everywhere(tmp_path,
     err = capsys.readouterr().err
     assert said in err and "warning" in err and len(err.splitlines()) == 1
     assert len(ledger.Ledger(book).histories) > signed and ledger.verify(book) == []
-    # results sharing series with the ledger: not a word; nor into an empty ledger
+    # results sharing series with the ledger: no warning (only a note: the 'north' series accepted as new just now
+    # are signed series these results do not hold); into an empty ledger, not a word
     fit_segmented(tmp_path / "region.csv", tmp_path / "again.json", "region", book)
     assert main(["show", str(tmp_path / "again.json"), "--ledger", str(book)]) == 0
+    err = capsys.readouterr().err.splitlines()
+    assert len(err) == 2 and all(": note: " in line and "are not in these results (item 0 · north, …)" in line
+                                 for line in err)
     assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(tmp_path / "new.jsonl"),
                  "-q"]) == 0
     assert capsys.readouterr().err == ""

@@ -104,8 +104,10 @@ def test_every_command_says_how_many_series_look_like_the_ledgers_under_another_
                           (["ledger", "carry", str(results), "--ledger", str(book), "-q"],
                            "those are not carried (a decision is carried only to its own spelling)")):
         assert main(command) == 0
-        err = capsys.readouterr().err
-        assert err.count("\n") == 1 and f"warning: {clause}; {tail}" in err, command
+        err = capsys.readouterr().err.splitlines()
+        assert len(err) == 2 and f"warning: {clause}; {tail}" in err[0], command
+        # the respelled signed series are not in these results under their own spelling: a note says so too
+        assert f"note: {count} signed series in {book} are not in these results (" in err[1], command
     carried = ledger.Ledger(book).records[len(before.splitlines()):]
     assert carried and {r["action"] for r in carried} == {"carry"}  # the others were carried as before
     assert not any(r["series"]["region"] in ("north", "South ") for r in carried)
@@ -129,8 +131,9 @@ def test_accept_unflagged_refuses_respellings_until_new_series_says_they_are_new
     keys = [(r["series"]["product"], r["series"]["region"]) for r in records]
     alike = [k for k in keys if k not in prior and (k[0], k[1].strip().title()) in prior]
     new = [k for k in keys if k not in prior and k not in alike]  # the new product, and respellings of unsigned series
-    assert len(err) == 3 and err[0].endswith("accepted as new series (--new-series)")
-    assert err[1] == (f"accepted {len(records)} unflagged series without a decision → {book}; {len(new)} of them new to "
+    assert len(err) == 4 and err[0].endswith("accepted as new series (--new-series)")
+    assert f"note: {count} signed series in {book} are not in these results (" in err[1]
+    assert err[2] == (f"accepted {len(records)} unflagged series without a decision → {book}; {len(new)} of them new to "
                       f"the ledger, spelled like none of its series; {len(alike)} spelled like its own otherwise, "
                       "accepted as new series (--new-series)")
     assert len(alike) >= 5 and sum(k[0] == NEW_PRODUCT for k in new) == 3
@@ -160,3 +163,29 @@ def test_a_new_product_spelled_like_nothing_is_accepted_and_counted(cycle, capsy
     assert sum(key["product"] == NEW_PRODUCT for key in new) == 3 and len(err) == 2
     assert err[0] == (f"accepted {len(added)} unflagged series without a decision → {book}; {len(new)} of them new to "
                       "the ledger, spelled like none of its series")
+
+
+def test_show_marks_the_look_alikes_as_the_screen_does(cycle, capsys, tmp_path):
+    """``show --ledger``'s list marks each look-alike ``≈North`` where its flags begin (the screen's mark), filtered
+    or not; one in full says which ledger series it looks like and its latest record (before: nothing outside the
+    screen said which series they were)."""
+    folder, signed, results, count = cycle
+    book = own_copy(signed, tmp_path)
+    held = {(h.latest["series"]["product"], h.latest["series"]["region"]) for h in ledger.Ledger(book).histories.values()}
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
+    rows = capsys.readouterr().out.splitlines()[1:]
+    marked = [row for row in rows if "≈North" in row or "≈South" in row]
+    alike = [row for row in rows if " · north " in row and any(p < LOWERED and (p, "North") in held for p in [
+        row.split(" · ")[0].strip()])]
+    assert len(marked) == count and set(alike) <= set(marked) and len(alike) >= 5
+    product = alike[0].split(" · ")[0].strip()
+    assert main(["show", str(results), "--ledger", str(book), "--product", product]) == 0
+    listed = [row for row in capsys.readouterr().out.splitlines() if " · north " in row]
+    assert len(listed) == 1 and "≈North" in listed[0]
+    assert main(["show", str(results), "--ledger", str(book), "--product", product, "--key", "region=north"]) == 0
+    out = capsys.readouterr().out
+    assert (f"  looks like {product} · North in {book} under another spelling (region \"north\" for \"North\"), a "
+            "series these results do not hold (") in out and "accepted" in out.split("looks like", 1)[1]
+    assert main(["show", str(results), "--ledger", str(book), "--product", product, "--key", "region=East"]) == 0
+    assert "looks like" not in capsys.readouterr().out

@@ -143,3 +143,55 @@ def test_a_look_alike_appended_just_before_the_write_is_refused_under_the_lock(l
 
 def records_before(data: bytes) -> int:
     return len(data.splitlines())
+
+
+def test_look_alikes_need_attention_and_have_a_filter_and_missing_signed_series_are_said(ledger_path, tmp_path):
+    """Before: a look-alike carrying no flag was hidden by the default filter ('needs attention'), ``f`` had no
+    choice for the look-alikes, and nothing on the screen said that signed series of the ledger are not in these
+    results."""
+    from tui.factory import open_session
+    signed_by_region(ledger_path)
+    session = open_session(respelled_source(tmp_path), ledger_path, ANA)
+    alike = set(session.spellings.found.results.tolist())
+    assert len(alike) == len(respelled_in_ledger(ledger_path))
+    unflagged = [s for s in alike if not session.diagnosis.raised[s].any()]
+    assert unflagged  # the respelled series the ledger signed carried no flag: hidden before
+    attention = session.needs_attention()
+    assert all(attention[s] for s in alike)
+    assert session.filter_counts()["spelled"] == len(alike)
+    session.set_filter("spelled", None)
+    assert set(session.view.tolist()) == alike
+    # the ledger's respelled series are signed (accepted) and, spelled so, not in these results
+    from tui.widgets.status_line import missing_text, status_text
+    gone = len(respelled_in_ledger(ledger_path))
+    header = status_text(session, 300).plain
+    assert f"Not in these results: {gone} signed series of ledger.jsonl (" in header
+    assert missing_text(session).startswith(f"{gone} signed series in ledger.jsonl are not in these results (")
+    # another analyst's accept of a series these results lack counts as the ledger grows; a hold signs nothing
+    for action, more in (("accept", 1), ("hold", 0)):
+        key = {"product": f"elsewhere {action}", "region": "East"}
+        ledger.append(ledger_path, [ledger.Entry(series=key, action=action, fingerprint="f", results="ab" * 32,
+                                                 model="poly1" if action == "accept" else None)], BO)
+        session.reload_ledger()
+        gone += more
+        assert f"Not in these results: {gone} signed series of ledger.jsonl (" in status_text(session, 300).plain
+
+
+async def test_a_look_alike_decided_meanwhile_is_refused_before_the_note_box(ledger_path, tmp_path):
+    """ana presses 'h' on a look-alike and the dialog asks; meanwhile bo holds that very series; ana's "Yes" is
+    refused at once, saying who decided (before: the hold's reason box opened, and the refusal came after it)."""
+    signed_by_region(ledger_path)
+    target = next(k for k in respelled_in_ledger(ledger_path) if k["region"] == "North")
+    key = {"product": target["product"], "region": "north"}
+    app = make_app(ledger_path, respelled_source(tmp_path))
+    async with app.run_test(size=(100, 30)) as pilot:
+        await on_series(app, pilot, key)
+        await pilot.press("h")
+        await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
+        ledger.append(ledger_path, [ledger.Entry(series=key, action="hold", fingerprint="f", results="ab" * 32)], BO)
+        before = ledger_path.read_bytes()
+        await pilot.press("up", "enter")  # Yes
+        await until(pilot, lambda: isinstance(app.screen, (MessageDialog, TextDialog)))
+        assert isinstance(app.screen, MessageDialog)
+        assert "Not recorded: bo held at " in words(app) and "look again" in words(app)
+        assert ledger_path.read_bytes() == before

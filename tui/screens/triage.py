@@ -35,7 +35,8 @@ from ..text import clean, printable
 from ..widgets.evidence import EvidencePanel, predicts
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import ALIKE_DECIDES, alike_words, keys_lead, keys_text, spellings_text, status_text
+from ..widgets.status_line import (ALIKE_DECIDES, alike_words, keys_lead, keys_text, missing_text, spellings_text,
+                                   status_text)
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
@@ -78,7 +79,7 @@ class TriageScreen(Screen):
         self._status_lines: int | None = None
         self._waiting_key: tuple | None = None  # (action, shown): a key pressed before the results were all read
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
-        self._keys_said: tuple = (None, None)  # the key columns' mismatch and the respellings the header says
+        self._keys_said: tuple = (None, None, None)  # the header's key columns, respellings and missing signed series
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -144,7 +145,12 @@ class TriageScreen(Screen):
         text = status_text(self.session, max(self.size.width - 2, 20))
         lines = text.plain.count("\n")
         line.update(text, layout=lines != self._status_lines)
-        self._status_lines, self._keys_said = lines, (self.session.key_columns.said, self.session.spellings.said)
+        self._status_lines, self._keys_said = lines, self.ledger_said()
+
+    def ledger_said(self) -> tuple:
+        """What the header says of the ledger beside these results (when it changes, the header is redrawn)."""
+        session = self.session
+        return session.key_columns.said, session.spellings.said, session.missing.short()
 
     def refresh_all(self) -> None:
         self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow
@@ -159,8 +165,8 @@ class TriageScreen(Screen):
             self.notify(f"could not read the ledger: {printable(str(exc))}", severity="error", markup=False)
             return
         said, before = self.session.key_columns.said, self._keys_said
-        if (said, self.session.spellings.said) != before:  # another analyst's records started (or joined) a set of
-            # key columns, or brought a series spelled like these results' otherwise
+        if self.ledger_said() != before:  # another analyst's records started (or joined) a set of key columns,
+            # brought a series spelled like these results' otherwise, or signed one they do not hold
             self.update_status()
             if said is not None and said != before[0]:
                 self.notify(f"The ledger changed: {said}. Your next decision asks first.", severity="warning",
@@ -206,14 +212,7 @@ class TriageScreen(Screen):
         try:
             self.session.decide(shown, action, model=model, note=note)
         except PricefoldError as exc:  # refused by the screen or by the ledger's rules, or not written
-            kept = ""
-            if note:  # typed for nothing otherwise: the next note box on this series starts with it
-                self._unsaid[shown.sid] = note
-                kept = ("\n\nYour note is kept: the next note box on this series starts with it."
-                        if self.session.writable else  # no note box will open: the note itself, to copy
-                        f"\n\nNothing can be recorded now; your note was: {clean(note)}")
-            self.app.push_screen(MessageDialog(Text(f"Not recorded: {printable(str(exc))}{kept}", style="bold")))
-            self.refresh_all()  # the series as the ledger has it now
+            self.not_recorded(shown, exc, note)
             return
         self._unsaid.pop(shown.sid, None)
         s = self.session.index_of(shown)
@@ -223,6 +222,18 @@ class TriageScreen(Screen):
             self.session.after_decision(s)
         else:
             self.session.bring(s)
+        self.refresh_all()
+
+    def not_recorded(self, shown: Shown, exc: PricefoldError, note: str = "") -> None:
+        """Say why a decision was refused (keeping a typed note for the next note box), and show the series as the
+        ledger has it now."""
+        kept = ""
+        if note:  # typed for nothing otherwise: the next note box on this series starts with it
+            self._unsaid[shown.sid] = note
+            kept = ("\n\nYour note is kept: the next note box on this series starts with it."
+                    if self.session.writable else  # no note box will open: the note itself, to copy
+                    f"\n\nNothing can be recorded now; your note was: {clean(note)}")
+        self.app.push_screen(MessageDialog(Text(f"Not recorded: {printable(str(exc))}{kept}", style="bold")))
         self.refresh_all()
 
     def ask(self, title: str, placeholder: str, required: bool, then, about: Text | None = None) -> None:
@@ -286,12 +297,13 @@ class TriageScreen(Screen):
                         f"({why}); press the key again.",
                         severity="warning", timeout=8, markup=False)
 
-    def new_key_set(self, then) -> None:
+    def new_key_set(self, action: str, then) -> None:
         """``then()`` — at once, or after a dialog where a decision on the series shown would start something new
         in the ledger and the analyst has not confirmed it yet: the results name none of the ledger's series (by
         other key columns, or other values of the same ones; asked once a session), or this series looks like one
         of the ledger's under another spelling (asked once a series).  The dialog says why and what a decision
-        records; "No" (the default) or Esc cancels: nothing is written."""
+        records; "No" (the default) or Esc cancels: nothing is written.  "Yes" reads the ledger again first: a decision
+        it would refuse (``action`` on a series someone else decided meanwhile) is refused then, before a note box."""
         said = self.session.key_columns.unconfirmed
         shown = self.session.shown
         s = self.session.index_of(shown) if shown is not None else -1
@@ -317,6 +329,11 @@ class TriageScreen(Screen):
                     self.session.key_columns.confirmed = said  # ``decide`` refuses if the ledger moved on meanwhile
                 if alikes:
                     self.session.spellings.confirm(s, alikes)
+                try:  # the dialog may have stood a while: the ledger's refusal now, not after a note is typed
+                    self.session.check_shown(shown, action)
+                except PricefoldError as exc:
+                    self.not_recorded(shown, exc)
+                    return
                 then()
         self.app.push_screen(ChoiceDialog(" ".join(parts) + " Is that what you mean?",
                                           [("confirm", "Yes: " + "; ".join(yes)),
@@ -326,7 +343,7 @@ class TriageScreen(Screen):
         shown = self.session.shown
         if shown is None or self.still_reading("accept"):
             return
-        self.new_key_set(lambda: self.accept(shown))
+        self.new_key_set("accept", lambda: self.accept(shown))
 
     def accept(self, shown: Shown) -> None:
         if self.session.needs_reason(shown, "accept"):
@@ -339,7 +356,7 @@ class TriageScreen(Screen):
     def action_hold(self) -> None:
         shown = self.session.shown
         if shown is not None:
-            self.new_key_set(lambda: self.ask(f"Hold {self.session.label(shown.series)}: why? (optional)",
+            self.new_key_set("hold", lambda: self.ask(f"Hold {self.session.label(shown.series)}: why? (optional)",
                                               "Enter alone holds without a note", False,
                                               lambda note: self.decide(shown, "hold", note=note)))
 
@@ -355,7 +372,7 @@ class TriageScreen(Screen):
                          lambda note: self.decide(shown, "override", model, note))
 
         from .override import OverrideDialog  # with the first override, not before the list's first frame
-        self.new_key_set(lambda: self.app.push_screen(
+        self.new_key_set("override", lambda: self.app.push_screen(
             OverrideDialog(session.results, s, session.label(s), session.diagnosis,
                            shown.model if shown.model != shown.proposed else None,
                            session.accepted_other(s) is not None), picked))
@@ -363,7 +380,7 @@ class TriageScreen(Screen):
     def action_note(self) -> None:
         shown = self.session.shown
         if shown is not None:
-            self.new_key_set(lambda: self.ask(f"Note on {self.session.label(shown.series)}",
+            self.new_key_set("note", lambda: self.ask(f"Note on {self.session.label(shown.series)}",
                                               "what should the next reader know?", True,
                                               lambda note: self.decide(shown, "note", note=note)))
 
@@ -479,7 +496,8 @@ class TriageScreen(Screen):
                     markup=False, timeout=2)
 
     def action_help(self) -> None:
-        said = "\n  ".join(filter(None, (keys_text(self.session.key_columns), spellings_text(self.session))))
+        said = "\n  ".join(filter(None, (keys_text(self.session.key_columns), spellings_text(self.session),
+                                         missing_text(self.session))))
         self.app.push_screen(MessageDialog(help_text(self.session.book, said or None), classes="help"))
 
     def action_quit(self) -> None:
