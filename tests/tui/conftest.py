@@ -81,6 +81,26 @@ def csv_source(path: Path, header: list[str], rows, columns) -> Source:
     return Source(data=path, columns=columns)
 
 
+def demand_source(path: Path, keys, segment: str, seed: int, prices=(1.0, 2.0), n: int = 20,
+                  line=(400.0, 100.0, 20.0)) -> Source:
+    """Invented straight-line demand (volume = a − b·price + normal noise, ``line`` = (a, b, noise)) at ``n`` prices
+    drawn in ``prices`` for each (product, ``segment`` value) of ``keys``, as a CSV source at ``path``."""
+    import numpy as np
+
+    from fitcore.data.columns import Columns
+    rng = np.random.default_rng(seed)
+    a, b, noise = line
+    rows = [(product, value, p, round(a - b * p + rng.normal(0, noise)))
+            for product, value in keys for p in np.round(rng.uniform(*prices, n), 2)]
+    return csv_source(path, ["product", segment, "price", "volume"], rows, Columns(segments=(segment,)))
+
+
+def listed_keys(app, count: int) -> list[str]:
+    """The key column of the list's first ``count`` rows as on screen (after each row's status mark)."""
+    width = app.screen.series_list.columns(app.screen.series_list.scrollable_content_region.width)[0]
+    return [line[2:2 + width] for line in screen_text(app).splitlines()[3:3 + count]]
+
+
 def assert_prediction_on_screen(text: str, model: str, reference: dict) -> None:
     """The screen's "MODEL predicts volume V (95% PI LO to HI), elasticity E" equals ``reference`` (a reference
     library's prediction: volume, lo, hi, elasticity) to the digits shown."""

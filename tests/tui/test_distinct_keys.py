@@ -10,10 +10,9 @@ import numpy as np
 import pytest
 from rich.cells import cell_len
 
-from fitcore.data.loader import Columns
 from fitcore.text import ESCAPE, clean, reveal_unnormalised
 from fitcore.widths import cells, cut_end, cut_middle, distinct_keys, fit_key, last
-from tests.tui.conftest import all_listed, csv_source, make_app, screen_text
+from tests.tui.conftest import all_listed, demand_source, listed_keys, make_app
 from tui.cells import key_labels
 from tui.widgets.evidence import EvidencePanel
 
@@ -95,11 +94,7 @@ def test_a_difference_inside_an_escape_form_shows_the_whole_form():
 
 
 def twins_source(tmp_path):
-    rng = np.random.default_rng(2)
-    rows = [(product, region, p, round(400 - 100 * p + rng.normal(0, 20)))
-            for product, region in TWINS for p in np.round(rng.uniform(1, 2, 20), 2)]
-    return csv_source(tmp_path / "twins.csv", ["product", "region", "price", "volume"], rows,
-                      Columns(segments=("region",)))
+    return demand_source(tmp_path / "twins.csv", TWINS, "region", seed=2)
 
 
 @pytest.mark.parametrize("size", [(80, 24), (100, 30)])
@@ -107,9 +102,7 @@ async def test_the_list_and_the_title_read_differently(tmp_path, size):
     app = make_app(tmp_path / "ledger.jsonl", twins_source(tmp_path))
     async with app.run_test(size=size) as pilot:
         session = await all_listed(app, pilot)
-        width = app.screen.series_list.columns(app.screen.series_list.scrollable_content_region.width)[0]
-        lines = screen_text(app).splitlines()[3:3 + len(TWINS)]
-        keys = [line[2:2 + width] for line in lines]
+        keys = listed_keys(app, len(TWINS))
         assert len({reads(key) for key in keys}) == len(TWINS), keys
         titles = set()
         for _ in TWINS:

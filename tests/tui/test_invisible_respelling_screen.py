@@ -9,12 +9,10 @@ from __future__ import annotations
 
 import unicodedata
 
-import numpy as np
 
 from fitcore import ledger
-from fitcore.data.columns import Columns
 
-from .conftest import ANA, csv_source, make_app, on_series, screen_text, until
+from .conftest import ANA, demand_source, make_app, on_series, screen_text, until
 
 COCOA, BRULEE = "crème cocoa 250 g", "crème brûlée 100 g"  # invented products, composed
 LEDGER_KEYS = [(COCOA, "North"), (unicodedata.normalize("NFD", BRULEE), "North"), ("bananas 1 kg", "East"),
@@ -24,11 +22,8 @@ RESULT_KEYS = [(unicodedata.normalize("NFD", COCOA), "North"), (BRULEE, "North")
 
 
 def source(tmp_path):
-    rng = np.random.default_rng(3)
-    rows = [(product, region, p, round(500 - 120 * p + rng.normal(0, 8)))
-            for product, region in RESULT_KEYS for p in np.round(rng.uniform(1, 3, 30), 2)]
-    return csv_source(tmp_path / "next.csv", ["product", "region", "price", "volume"], rows,
-                      Columns(segments=("region",)))
+    return demand_source(tmp_path / "next.csv", RESULT_KEYS, "region", seed=3, prices=(1, 3), n=30,
+                         line=(500, 120, 8))
 
 
 def held(path) -> None:

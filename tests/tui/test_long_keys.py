@@ -4,13 +4,11 @@ from __future__ import annotations
 
 import itertools
 
-import numpy as np
 import pytest
 from rich.cells import cell_len
 
-from fitcore.data.loader import Columns
 from fitcore.widths import cells, shares
-from tests.tui.conftest import all_listed, csv_source, make_app, screen_text
+from tests.tui.conftest import all_listed, demand_source, listed_keys, make_app
 from tui.cells import key_label
 from tui.factory import Source
 
@@ -43,12 +41,7 @@ def test_a_long_segment_keeps_both_ends():
 
 
 def names_source(tmp_path) -> Source:
-    rng = np.random.default_rng(1)
-    prices = np.round(rng.uniform(1, 2, (len(PRODUCTS) * len(STORES), 20)), 2)
-    rows = [(product, store, price, round(400 - 100 * price + rng.normal(0, 20)))
-            for (product, store), series in zip(itertools.product(PRODUCTS, STORES), prices) for price in series]
-    return csv_source(tmp_path / "names.csv", ["product", "store", "price", "volume"], rows,
-                      Columns(segments=("store",)))
+    return demand_source(tmp_path / "names.csv", itertools.product(PRODUCTS, STORES), "store", seed=1)
 
 
 @pytest.mark.parametrize("size", [(80, 24), (120, 40)])
@@ -56,9 +49,7 @@ async def test_the_list_shows_every_series_distinctly(tmp_path, size):
     app = make_app(tmp_path / "ledger.jsonl", names_source(tmp_path))
     async with app.run_test(size=size) as pilot:
         await all_listed(app, pilot)
-        width = app.screen.series_list.columns(app.screen.series_list.scrollable_content_region.width)[0]
-        lines = screen_text(app).splitlines()[3:3 + len(PRODUCTS) * len(STORES)]
-        keys = [line[2:2 + width] for line in lines]  # after the status mark
+        keys = listed_keys(app, len(PRODUCTS) * len(STORES))
         assert len(keys) == len(PRODUCTS) * len(STORES)
         assert len(set(keys)) == len(keys), keys
         assert sum(key.rstrip().endswith(" 12") for key in keys) == len(PRODUCTS)  # the store's end stays
