@@ -95,6 +95,16 @@ def demand_source(path: Path, keys, segment: str, seed: int, prices=(1.0, 2.0), 
     return csv_source(path, ["product", segment, "price", "volume"], rows, Columns(segments=(segment,)))
 
 
+def show_rows(capsys, source: Source, out: Path) -> list[str]:
+    """``pricefold show``'s rows (no header) for ``source`` fitted to ``out`` (keyed by its columns' segments)."""
+    from pricefold.cli import main
+    segments = [arg for segment in source.columns.segments for arg in ("--segment", segment)]
+    assert main(["fit", str(source.data), *segments, "-o", str(out), "--quiet"]) == 0
+    capsys.readouterr()
+    assert main(["show", str(out)]) == 0
+    return capsys.readouterr().out.splitlines()[1:]
+
+
 def listed_keys(app, count: int) -> list[str]:
     """The key column of the list's first ``count`` rows as on screen (after each row's status mark)."""
     width = app.screen.series_list.columns(app.screen.series_list.scrollable_content_region.width)[0]

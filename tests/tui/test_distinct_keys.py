@@ -12,7 +12,7 @@ from rich.cells import cell_len
 
 from fitcore.text import ESCAPE, clean, reveal_unnormalised
 from fitcore.widths import cells, cut_end, cut_middle, distinct_keys, fit_key, last
-from tests.tui.conftest import all_listed, demand_source, listed_keys, make_app
+from tests.tui.conftest import all_listed, demand_source, listed_keys, make_app, show_rows
 from tui.cells import key_labels
 from tui.widgets.evidence import EvidencePanel
 
@@ -112,13 +112,7 @@ async def test_the_list_and_the_title_read_differently(tmp_path, size):
 
 
 def test_show_reads_differently(tmp_path, capsys):
-    from pricefold.cli import main
-    source = twins_source(tmp_path)
-    out = tmp_path / "twins.json"
-    assert main(["fit", str(source.data), "--segment", "region", "-o", str(out), "--quiet"]) == 0
-    capsys.readouterr()
-    assert main(["show", str(out)]) == 0
-    rows = capsys.readouterr().out.splitlines()[1:]
+    rows = show_rows(capsys, twins_source(tmp_path), tmp_path / "twins.json")
     assert len(rows) == len(TWINS) and len({row[:40] for row in rows}) == len(TWINS), rows
 
 

@@ -8,7 +8,7 @@ import pytest
 from rich.cells import cell_len
 
 from fitcore.widths import cells, shares
-from tests.tui.conftest import all_listed, demand_source, listed_keys, make_app
+from tests.tui.conftest import all_listed, demand_source, listed_keys, make_app, show_rows
 from tui.cells import key_label
 from tui.factory import Source
 
@@ -56,13 +56,7 @@ async def test_the_list_shows_every_series_distinctly(tmp_path, size):
 
 
 def test_show_lists_every_series_distinctly(tmp_path, capsys):
-    from pricefold.cli import main
-    source = names_source(tmp_path)
-    out = tmp_path / "names.parquet"
-    assert main(["fit", str(source.data), "--segment", "store", "-o", str(out), "--quiet"]) == 0
-    capsys.readouterr()
-    assert main(["show", str(out)]) == 0
-    rows = capsys.readouterr().out.splitlines()[1:]
+    rows = show_rows(capsys, names_source(tmp_path), tmp_path / "names.parquet")
     keys = [row.split("  ")[0] for row in rows]
     assert len(keys) == len(PRODUCTS) * len(STORES) and len(set(keys)) == len(keys), keys
     assert len({cell_len(row.rsplit(" 20 ", 1)[0]) for row in rows}) == 1  # the n column lines up (emoji too)
