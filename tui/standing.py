@@ -1,0 +1,128 @@
+"""What stands on each series of a triage session: the ledger's decision, the model it made stand, and what a
+signed series whose data changed is due (no widget).
+
+A mixin of ``TriageSession``, which gives it ``results``, ``keys``, ``status``, ``histories``, ``backtest``,
+``_id``, ``result_flags`` and ``last_date``.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from fitcore.ledger.rules import NEWER_DUE, decided_on_newer
+from fitcore.review.flags import SEVERITY
+
+from .text import clean
+
+
+class Standing:
+    """The decisions standing on the session's series, and the models they made stand."""
+
+    def due(self, s: int) -> str | None:
+        """What a signed series whose data changed needs (backtest failed, shifted, no dates, …)."""
+        if self.status[s] != "stale":
+            return None
+        from fitcore.ledger.backtest import untested_due, within_one_se
+        if self.decided_on_newer(s):  # the ledger refuses decisions here
+            return NEWER_DUE
+        found = None
+        if self.backtest is not None and self.backtest_of(s) is not None:  # carry's own rule (``left_for_human``)
+            results, record = self.results, self.backtest_of(s)
+            names = results.names
+            c = names.index(record["candidate"]) if record.get("candidate") in names else -1
+            decision = self.decision(s)
+            near = record["signed_near_best"] if "signed_near_best" in record else (  # results made before it
+                c >= 0 and within_one_se(np.asarray(results.cv_mse[s], dtype=float),
+                                         np.asarray(results.cv_se[s], dtype=float), np.asarray(results.available[s]), c))
+            kept = decision is not None and decision["action"] == "override" and bool(near)
+            stops = [code for code in self.result_flags(s) if SEVERITY[code] == "stop"]
+            found = self.backtest.due(s, stops, bool(results.chosen[s] >= 0), kept)
+        return found or untested_due(self.standing(s)) or "a new look (no backtest here)"
+
+    def decided_on_newer(self, s: int) -> bool:
+        """Whether the decision standing on series ``s`` was made on newer data than these results' rows: the
+        ledger refuses an accept, override or hold here (``rules.newer_standing``)."""
+        if self.status[s] != "stale":
+            return False
+        return decided_on_newer(self.keys.key_of(s), self.results.data.fingerprint_of(s), self.last_date(s),
+                                self.histories.get(self._id(s))) is not None
+
+    def signed_model(self, s: int, model: str | None) -> dict | None:
+        """The ``signed`` snapshot of ``model`` on series ``s`` as the results hold it (incomplete, and
+        saying so, when they lack the interval parts: results read back before their rows arrived)."""
+        from fitcore.ledger.snapshot import from_results
+        if model not in self.results.names:
+            return None
+        return from_results(self.results, [s], self.results.names.index(model))[0]
+
+    def history(self, s: int) -> list[dict]:
+        history = self.histories.get(self._id(s))
+        return history.records if history else []
+
+    def standing(self, s: int) -> dict | None:
+        """The decision standing on series ``s`` (None when pending)."""
+        history = self.histories.get(self._id(s))
+        return history.current if history else None
+
+    def decision(self, s: int) -> dict | None:
+        """The analyst's decision standing on series ``s``: the standing record, or the accept or override a
+        standing carry carries forward (its analyst and note); None when pending."""
+        history = self.histories.get(self._id(s))
+        return history.decision if history else None
+
+    def _standing_name(self, s: int) -> str | None:
+        """The name of the model an accept or override standing on series ``s``'s current data made stand (made
+        on them or carried to them; ``SeriesHistory.standing_model``); None where none stands."""
+        if self.status[s] not in ("accepted", "overridden"):  # else none stands on these data: skip the lookup
+            return None
+        return self.histories[self._id(s)].standing_model(self.results.data.fingerprint_of(s))
+
+    def model_of(self, s: int) -> int:
+        """The candidate that now stands for series ``s``: an accept's or override's on the current data, else
+        the proposal (also where these results did not fit the standing model: ``standing_absent``)."""
+        name = self._standing_name(s)
+        if name in self.results.names:
+            return self.results.names.index(name)
+        return int(self.results.chosen[s])
+
+    def accepted_other(self, s: int) -> str | None:
+        """The proposal of these results where an accept of another model stands on series ``s`` (accepted as
+        the proposal of results fitted otherwise on the same data, perhaps a candidate these did not fit), else
+        None: the screen says so, since the flags and the proposal's words are these results' own."""
+        if self.status[s] != "accepted":
+            return None
+        name, chosen = self._standing_name(s), int(self.results.chosen[s])
+        proposal = self.results.names[chosen] if chosen >= 0 else None
+        if name is None or name == proposal:
+            return None
+        return proposal or "nothing"
+
+    def standing_absent(self, s: int) -> str | None:
+        """The model an accept or override on these data made stand for series ``s``, where these results did
+        not fit it (``--no-loglog``, fewer degrees): ``model_of`` falls back to the proposal, whose numbers the
+        screen then shows, saying so; None where the standing model is here, or none stands."""
+        name = self._standing_name(s)
+        return name if name is not None and name not in self.results.names else None
+
+    def listed_model(self, s: int) -> tuple[str, float]:
+        """The list's model and score for series ``s``: the model signed wherever an accept or override stands
+        (carried or not, stale too: what ``ledger export`` and ``show --ledger`` give; ``↺`` marks a stale
+        override, as the status mark does an override on these data), else this cycle's proposal; the score
+        is that shape's Q² on these data."""
+        results = self.results
+        decision = self.decision(s) if self.status[s] in ("accepted", "overridden", "stale") else None
+        if decision is not None and decision["action"] in ("accept", "override") and decision.get("model"):
+            name = str(decision["model"])
+            c = results.names.index(name) if name in results.names else -1
+            score = float(results.q2[s, c]) if c >= 0 and results.available[s, c] else math.nan
+            if c == int(results.chosen[s]):
+                score = float(results.score[s])
+            # ↺: an override, where the status mark does not say it already (a stale series' mark is stale's)
+            stale_override = decision["action"] == "override" and self.status[s] == "stale"
+            return clean(name) + ("↺" if stale_override else ""), score
+        model = self.model_of(s)
+        name = results.names[model] if model >= 0 else "—"
+        # the score of the model that stands: an override's own Q², not the proposal's
+        score = results.q2[s, model] if 0 <= model != results.chosen[s] else results.score[s]
+        return name, float(score)
