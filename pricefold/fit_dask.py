@@ -25,8 +25,9 @@ def run_fit_dask(args, run) -> int:
     book = None
     if getattr(args, "ledger", None) is not None:  # read (and verified) once here; each partition gets its series
         from fitcore import ledger
+        from fitcore.ledger.elsewhere import same_file
 
-        from .cycle_cli import FIT_READS, must_exist, same_file
+        from .fit_ledger import FIT_READS, must_exist
         from .ledger_cli import open_ledger
         must_exist(args.ledger, FIT_READS)
         if same_file(args.output, args.ledger):

@@ -46,7 +46,7 @@ def _check_ending(output: Path) -> None:
 def fit_locally(args, run) -> int:
     ahead = None
     if getattr(args, "ledger", None) is not None:  # read and verified beside the load and the fit
-        from .cycle_cli import LedgerAhead
+        from .fit_ledger import LedgerAhead
         ahead = LedgerAhead(args.ledger, [args.output])  # forks: before any thread starts (a fork while the
         # warm-up thread held an import lock left the child waiting on that lock for ever)
     warm = warm_engine()  # loads the compiled loops while the data are read
@@ -170,7 +170,7 @@ def _fit_locally(args, run, ahead) -> int:
         diagnosis = diagnose(results, run.thresholds)
         backtest, missed = None, False
         if ahead is not None:  # the signed curves against the rows since, and the shifted flag
-            from .cycle_cli import backtest_against
+            from .fit_ledger import backtest_against
             diagnosis, backtest, missed = backtest_against(ahead, results, diagnosis, run.thresholds)
         told = summary(results, diagnosis)
         unplanned = unplanned_line(results, run.plan_file) if run.plan_file is not None else ""
@@ -194,7 +194,7 @@ def _fit_locally(args, run, ahead) -> int:
         print(told(fitted - started, f"{args.output} (written in {time.perf_counter() - fitted:.2f} s)"),
               file=sys.stderr)
         if backtest is not None:
-            from .cycle_cli import backtest_line
+            from .fit_ledger import backtest_line
             print(backtest_line(backtest, missed), file=sys.stderr)
     return 0
 

@@ -215,7 +215,7 @@ def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple
     from fitcore.data.keys import SeriesKeys
     from fitcore.ledger.missing import missing_at, signed_keys
 
-    from ..cycle_cli import signed_alike
+    from ..fit_ledger import signed_alike
     if not histories:
         return ()
     keys = SeriesKeys.of(results.data)
@@ -258,7 +258,7 @@ def run(args) -> int:
     if not args.results.exists():
         raise DataError("file not found", path=str(args.results))
     if args.ledger is not None:  # a ledger named but not there is a mistyped name, not "nothing decided yet"
-        from ..cycle_cli import must_exist
+        from ..fit_ledger import must_exist
         must_exist(args.ledger, "'report --ledger' only reads it; without --ledger the one beside the results is read")
     ledger_path = args.ledger or default_ledger(args.results)
     guard_output(args.output, [("the results", args.results), ("the ledger", ledger_path)])

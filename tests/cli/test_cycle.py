@@ -299,18 +299,18 @@ def test_fit_forks_the_ledger_read_before_the_warm_up_thread_starts(tmp_path, mo
     import threading
 
     import fitcore.compiled
-    import pricefold.cycle_cli as cycle_cli
+    import pricefold.fit_ledger as fit_ledger
     book = tmp_path / "ledger.jsonl"
     write_weeks(tmp_path / "c1.csv", 40, seed=9)
     fit(tmp_path / "c1.csv", tmp_path / "r1.json")
     assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
     alive_at_fork = []
-    original = cycle_cli.LedgerAhead.__init__
+    original = fit_ledger.LedgerAhead.__init__
 
     def recording(self, *args, **kwargs):
         alive_at_fork.append(sorted(thread.name for thread in threading.enumerate()))
         original(self, *args, **kwargs)
-    monkeypatch.setattr(cycle_cli.LedgerAhead, "__init__", recording)
+    monkeypatch.setattr(fit_ledger.LedgerAhead, "__init__", recording)
     monkeypatch.setattr(fitcore.compiled, "looks_compiled", lambda: True)
     write_weeks(tmp_path / "c2.csv", 44, seed=9)
     before = {thread.name for thread in threading.enumerate()}  # other tests' idle readers of stored results
