@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import DataError
-from ..text import clean, loose, quoted
+from ..text import clean, loose, quoted, reads, revealed
 from .validation import RawRows, empty_keys
 
 PRICE = "plan_price"
@@ -77,6 +77,23 @@ def unknown_key(path: Path, line: int, key: dict, data_keys: dict) -> DataError:
             wanted = loose(value)
             alike = next((other for other in known if loose(other) == wanted), None)
             if alike is not None:
-                said += f"; did you mean {quoted(alike)}?"
+                said += f"; did you mean {_alike(value, alike)}?"
             break
+    else:  # each value is in the data, not together: a series whose key reads alike, spelled otherwise?
+        wanted = tuple(loose(value) for value in key.values())
+        columns = [np.asarray(data_keys[name]).astype(str).tolist() for name in key]
+        theirs = next((values for values in zip(*columns) if tuple(map(loose, values)) == wanted), None)
+        if theirs is not None:
+            differ = [(name, ours, other) for (name, ours), other in zip(key.items(), theirs) if ours != other]
+            column = differ[0][0]
+            hints = ", ".join(f"{clean(name)}={_alike(ours, other)}" for name, ours, other in differ)
+            said += f"; did you mean {hints}?"
     return DataError(said, path=str(path), line=line, column=column)
+
+
+def _alike(typed: str, found: str) -> str:
+    """The data's value ``found`` quoted as a hint for ``typed``; where the two read the same once printed (another
+    Unicode form, a space at an end), shown by code point and said so."""
+    if reads(clean(typed)) != reads(clean(found)):
+        return quoted(found)
+    return f"'{revealed(clean(found))}' (another Unicode form or spacing)"

@@ -61,3 +61,21 @@ def test_an_empty_product_cell_does_not_price_the_product_named_nan(tmp_path, ca
     code, err = said(capsys, tmp_path, data, plan)
     assert code == 2 and err == [f"pricefold fit: {plan}, line 2, column 'product': expected a key value, "
                                  "found an empty cell"]
+
+
+def test_a_key_whose_values_are_all_in_the_data_but_spelled_otherwise_together(tmp_path, capsys):
+    """Before: 'no series in the data has this key (product='café 250 g', region='East')' and no column, where the
+    data's East series spells the product decomposed (each value is in the data, not together)."""
+    import unicodedata
+    composed = "caf\u00e9 250 g"  # an invented product
+    rows = (SAMPLE / "wholesale.csv").read_text(encoding="utf-8").splitlines()
+    renamed = [rows[0]] + [row.replace("apples 1 kg,", f"{composed},").replace(
+        f"{composed},East,", f"{unicodedata.normalize('NFD', composed)},East,") for row in rows[1:]]
+    data = tmp_path / "d.csv"
+    data.write_text("\n".join(renamed) + "\n", encoding="utf-8")
+    plan = tmp_path / "p.csv"
+    plan.write_text(f"product,region,plan_price\n{composed},East,2.5\n", encoding="utf-8")
+    code, err = said(capsys, tmp_path, data, plan)
+    assert code == 2 and err == [f"pricefold fit: {plan}, line 2, column 'product': no series in the data has this key "
+                                 f"(product='{composed}', region='East'); did you mean product='cafe⟨U+0301⟩ 250 g' "
+                                 "(another Unicode form or spacing)?"]

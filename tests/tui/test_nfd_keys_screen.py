@@ -4,6 +4,7 @@ whatever the sort, the evidence title shows the whole revealed key where it fits
 shown form lands on that series first."""
 from __future__ import annotations
 
+import json
 import unicodedata
 
 import numpy as np
@@ -90,3 +91,27 @@ async def test_a_search_typed_in_the_shown_form_lands_on_that_series_first(tmp_p
         assert key(session.current) == {"product": DECOMPOSED, "region": "North"}
         session.search(f"{COMPOSED} · North")  # typed composed: the composed one first
         assert key(session.current) == {"product": COMPOSED, "region": "North"}
+
+
+async def test_a_dialog_and_its_notification_name_the_decomposed_series_as_the_list_shows_it(tmp_path):
+    """Before: the note box asked 'Note on café · North' and the screen then said 'Noted: café · North' for the
+    decomposed series, words that name the composed one just as well."""
+    from tui.screens.dialogs import TextDialog
+
+    from .conftest import on_series, until
+    app = make_app(tmp_path / "ledger.jsonl", cafe_source(tmp_path))
+    async with app.run_test(size=(100, 30)) as pilot:
+        await all_listed(app, pilot)
+        await on_series(app, pilot, {"product": DECOMPOSED, "region": "North"})
+        await pilot.press("n")
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        assert f"Note on {SHOWN} · North" in " ".join(screen_text(app).split())
+        await pilot.press(*"checked", "enter")
+        book = tmp_path / "ledger.jsonl"
+        await until(pilot, lambda: book.exists() and len(book.read_text().splitlines()) == 1)
+        assert json.loads(book.read_text())["series"]["product"] == DECOMPOSED
+        assert app.session.label(app.session.current) == f"{SHOWN} · North"
+        await on_series(app, pilot, {"product": COMPOSED, "region": "North"})
+        assert app.session.label(app.session.current) == "café · North"  # the composed one as it is
+        await on_series(app, pilot, {"product": "tea 250 g", "region": "East"})
+        assert app.session.label(app.session.current) == "tea 250 g · East"
