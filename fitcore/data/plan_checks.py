@@ -7,12 +7,13 @@ counted, for the same reason: nothing in it can be used.
 """
 from __future__ import annotations
 
+import unicodedata
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import DataError
-from ..text import clean, loose, quoted, reads, revealed
+from ..text import clean, loose, quoted, reveal_unnormalised
 from .validation import RawRows, empty_keys
 
 PRICE = "plan_price"
@@ -92,8 +93,11 @@ def unknown_key(path: Path, line: int, key: dict, data_keys: dict) -> DataError:
 
 
 def _alike(typed: str, found: str) -> str:
-    """The data's value ``found`` quoted as a hint for ``typed``; where the two read the same once printed (another
-    Unicode form, a space at an end), shown by code point and said so."""
-    if reads(clean(typed)) != reads(clean(found)):
-        return quoted(found)
-    return f"'{revealed(clean(found))}' (another Unicode form or spacing)"
+    """The data's value ``found`` quoted as a hint for ``typed``; where the two differ only in Unicode form (they
+    print the same), the one not in NFC form shown by code point (``fitcore.text.reveal_unnormalised``)."""
+    ours, theirs = clean(typed), clean(found)
+    if unicodedata.normalize("NFC", ours) != unicodedata.normalize("NFC", theirs):
+        return quoted(found)  # case or spaces: visible between the quotes
+    if reveal_unnormalised(theirs) != theirs:
+        return f"'{reveal_unnormalised(theirs)}' (another Unicode form)"
+    return f"'{theirs}' (composed; the plan's is '{reveal_unnormalised(ours)}')"

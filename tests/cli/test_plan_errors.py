@@ -78,4 +78,4 @@ def test_a_key_whose_values_are_all_in_the_data_but_spelled_otherwise_together(t
     code, err = said(capsys, tmp_path, data, plan)
     assert code == 2 and err == [f"pricefold fit: {plan}, line 2, column 'product': no series in the data has this key "
                                  f"(product='{composed}', region='East'); did you mean product='cafe⟨U+0301⟩ 250 g' "
-                                 "(another Unicode form or spacing)?"]
+                                 "(another Unicode form)?"]
