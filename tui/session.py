@@ -96,7 +96,7 @@ class TriageSession(Standing, ListState):
         data = results.data
         self.keys = SeriesKeys.of(data)  # Arrow columns: no Python object per series
         self._labels: dict[int, tuple[str, ...]] = {}
-        self._alike_values: dict[int, frozenset] = {}  # key column → its values that read alike
+        self._alike_values: dict[int, dict[str, str]] = {}  # key column → its values that read alike, as shown
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
         self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
         self._key_table = KeyTable(self.keys)  # key values → index, for the many keys of a whole ledger
@@ -307,24 +307,20 @@ class TriageSession(Standing, ListState):
     def label(self, s: int) -> str:
         """Series ``s``'s key for a dialog or a notification: a part that reads like another value of its column
         (``café`` decomposed beside ``café`` composed; ``East `` beside ``East``) shown as the list shows it beside
-        that value (``fitcore.text.revealed``), so a decision's words name the one series on screen."""
+        that value (``fitcore.text.told_apart``), so a decision's words name the one series on screen."""
         from fitcore.data.keys import SEPARATOR
-        from fitcore.text import revealed
         parts = self.label_parts(s)
-        return SEPARATOR.join(revealed(part) if part in self._reads_alike(i) else part for i, part in enumerate(parts))
+        return SEPARATOR.join(self._told_apart(i).get(part, part) for i, part in enumerate(parts))
 
-    def _reads_alike(self, i: int) -> frozenset:
-        """The shown values of key column ``i`` that read like another of its values (``fitcore.text.reads``): made
-        once a column, when a dialog first names a series (the column's distinct values, not one a series)."""
+    def _told_apart(self, i: int) -> dict[str, str]:
+        """Key column ``i``'s shown values that read like another of its values, each as ``told_apart`` shows it:
+        made once a column, when a dialog first names a series (the column's distinct values, not one a series)."""
         found = self._alike_values.get(i)
         if found is None:
-            from fitcore.text import reads
+            from fitcore.text import told_apart
             column = self.keys.columns[self.keys.names[i]]
-            values = {clean(value or "") for value in column.unique().to_pylist()}
-            spellings: dict[str, list[str]] = {}
-            for value in values:
-                spellings.setdefault(reads(value), []).append(value)
-            found = frozenset(value for group in spellings.values() if len(group) > 1 for value in group)
+            values = [(clean(value or ""),) for value in column.unique().to_pylist()]
+            found = {value: shown for (value,), (shown,) in zip(values, told_apart(values)) if shown != value}
             self._alike_values[i] = found
         return found
 
