@@ -44,11 +44,11 @@ async def test_a_ledger_this_user_may_not_write_is_read_only_before_a_note_is_ty
     # (Root ignores file modes, so the OS's answer is what the test sets.)
     import os
 
-    import tui.session
+    import tui.deciding
     one_record(ledger_path)
     before = ledger_path.read_bytes()
     real = os.access
-    monkeypatch.setattr(tui.session.os, "access", lambda path, mode: False if str(path) == str(ledger_path)
+    monkeypatch.setattr(tui.deciding.os, "access", lambda path, mode: False if str(path) == str(ledger_path)
                         else real(path, mode))
     app = make_app(ledger_path)
     async with app.run_test(size=(80, 24)) as pilot:
@@ -67,16 +67,16 @@ async def test_a_ledger_on_a_read_only_mount_says_so_not_permissions(ledger_path
     read-only mount read "permissions" while the command line said "Read-only file system")."""
     import os
 
-    import tui.session
+    import tui.deciding
     one_record(ledger_path)
     real_access, real_statvfs = os.access, os.statvfs
 
     class ReadOnly:
         f_flag = os.ST_RDONLY
 
-    monkeypatch.setattr(tui.session.os, "access", lambda path, mode: False if str(path) == str(ledger_path)
+    monkeypatch.setattr(tui.deciding.os, "access", lambda path, mode: False if str(path) == str(ledger_path)
                         else real_access(path, mode))
-    monkeypatch.setattr(tui.session.os, "statvfs", lambda path: ReadOnly() if str(path) == str(ledger_path)
+    monkeypatch.setattr(tui.deciding.os, "statvfs", lambda path: ReadOnly() if str(path) == str(ledger_path)
                         else real_statvfs(path))
     app = make_app(ledger_path)
     async with app.run_test(size=(80, 24)) as pilot:
