@@ -1,7 +1,7 @@
 """Row-level validation: why each row cannot be used, or that it can (pure; no file access).
 
-A row is rejected — never silently dropped — when the line is empty or has
-the wrong number of fields, a key is empty, price or volume is missing,
+A row is rejected — never silently dropped — when the line is empty (or white
+space only: the readers give it no cells) or has the wrong number of fields, a key is empty, price or volume is missing,
 non-numeric, NaN or infinite, negative, or beyond ±1e15 (``LARGEST``; controls
 too), the weight is missing, non-numeric
 or negative, the date does not parse or lies outside the dates datetime64[ns]
