@@ -184,10 +184,10 @@ def last_line(path: Path) -> str:
 
 
 def _from_last_line(data: bytes) -> bytes:
-    """``data`` from the start of its last line (a line end at the very end belongs to that line)."""
-    body = data[:-2] if data.endswith(b"\r\n") else data[:-1] if data.endswith((b"\n", b"\r")) else data
-    cut = max(body.rfind(b"\n"), body.rfind(b"\r"))
-    return data[cut + 1:]
+    """``data`` from the start of its last line (a line end at the very end belongs to that line; only that line
+    is copied)."""
+    end = len(data) - (2 if data.endswith(b"\r\n") else 1 if data.endswith((b"\n", b"\r")) else 0)
+    return data[max(data.rfind(b"\n", 0, end), data.rfind(b"\r", 0, end)) + 1:]
 
 
 def split_header(text: str, delimiter: str) -> list[str]:
@@ -211,8 +211,8 @@ def sniff_delimiter(path: Path, wanted: list[str], preferred: str | None) -> str
 
 def rows_are_lines(path: Path, n_rows: int) -> tuple[bool, str | None]:
     """Does each of ``n_rows`` data rows take exactly one physical line, so row i is on line i + 2?  And the
-    file's last physical line, when it was read on the way (a gzip file; else None): ``check_last_line``
-    then needs no second pass.
+    file's last physical line for ``check_last_line`` when it was read on the way (a gzip file), '' when the
+    file holds no quote (nothing to check), else None (read it from the file's end).
 
     Without a quote or a carriage return in the file it must (a line break can only hide in quotes, and
     pyarrow keeps a blank line as a row of empty cells, ``ignore_empty_lines=False``): one pass of searches
@@ -233,7 +233,7 @@ def rows_are_lines(path: Path, n_rows: int) -> tuple[bool, str | None]:
             returns = buffer.find(b"\r", 0, size) >= 0  # then counted with CRs, whatever else is in the file
             quotes = quotes or buffer.find(b'"', 0, size) >= 0
         if not returns and not quotes:
-            return True, None
+            return True, ""
         handle.seek(0)
         return _count_lines(iter(lambda: handle.read(BLOCK), b""), returns)[0] - 1 == n_rows, None
 
@@ -250,7 +250,12 @@ def _count_lines(blocks, returns: bool) -> tuple[int, str]:
         carry = block[-1:] == b"\r"
         last = block[-1:] or last
         start = _from_last_line(block)
-        tail = start if len(start) < len(block) else tail + block  # else the line began in an earlier block
+        if len(start) < len(block):  # the last line begins in this block
+            tail = start
+        elif tail.endswith(b"\n") or (tail.endswith(b"\r") and block[:1] != b"\n"):  # ... at its start
+            tail = block
+        else:  # ... in an earlier block
+            tail += block
     return ends + (0 if last in (b"\n", b"\r", b"") else 1), tail.decode("utf-8", "surrogateescape")
 
 
