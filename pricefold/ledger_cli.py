@@ -12,12 +12,11 @@ import re
 import socket
 import sys
 from pathlib import Path
-from unicodedata import normalize
 
 from fitcore import ledger
 from fitcore.ledger.missing import RENAMED as MISSING_TAIL
 from fitcore.ledger.replay import apply, own_standing, series_id
-from fitcore.text import clean, original
+from fitcore.text import EitherForm, clean
 
 from .ledger_options import KEY_VARIABLE
 from .show import key_texts
@@ -241,14 +240,14 @@ def run_show(args) -> int:
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
     named = product if several else None
     texts = key_texts([product_first(r["series"], product) for r in book.records], named=named)  # told apart
-    wanted = {normalize("NFC", original(p)) for p in args.product or ()}  # either normal form, as the screen's search
+    wanted = EitherForm(args.product or ())  # either normal form, or as shown, as the screen's search
     histories = {}  # replayed as listed: a revoke names the decision it withdrew
     for r, text in zip(book.records, texts):
         withdrawn = (own_standing(histories.get(series_id(r["series"])), r["analyst"], r.get("os_user"))
                      if r["action"] == "revoke" else None)
         apply(histories, [r])
         value = r["series"].get(product)
-        if args.product and (value is None or normalize("NFC", value) not in wanted):
+        if args.product and value not in wanted:
             continue
         model = clean(r.get("model") or "")
         if r["action"] == "override":

@@ -208,6 +208,23 @@ def among(new: Sequence[tuple], new_at: Sequence[int], missing: Sequence[tuple],
     return gathered(found, probe, len(new), columns, theirs.__getitem__, ours.__getitem__)
 
 
+def beside(theirs: Iterable, ours: Iterable) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """A look-alike's key values (``theirs``) and those of the ledger series it looks like (``ours``), one order of
+    columns for both, as shown beside each other: cleaned, and told apart where they read the same
+    (``fitcore.text.told_apart``: ``East⟨U+0020⟩`` beside ``East``, ``cre⟨U+0300⟩me`` beside ``crème``).  The one
+    form a look-alike is given wherever it is shown: the screen's row and evidence, ``show``'s list and its line
+    in full, the sentence (``looks_like``) — never only where another series happens to be listed beside it."""
+    mine, its = told_apart([tuple(clean(str(v)) for v in theirs), tuple(clean(str(v)) for v in ours)])
+    return mine, its
+
+
+def ledger_spelling(theirs: Sequence, ours: Sequence) -> str:
+    """'North': the ledger's spelling (``ours``, shown ``beside`` ``theirs``) of the values a look-alike spells
+    otherwise — the ``≈North`` of the screen's row and ``show``'s list."""
+    _, shown = beside(theirs, ours)
+    return SEPARATOR.join(its for a, b, its in zip(theirs, ours, shown) if a != b)
+
+
 def looks_like(columns: Sequence[str], theirs: tuple, ours: tuple, ledger_name: str, latest: dict | None = None,
                others: int = 0) -> str:
     """'lemons · North in L under another spelling (region "north" for "North"), a series these results do not hold
@@ -216,6 +233,6 @@ def looks_like(columns: Sequence[str], theirs: tuple, ours: tuple, ledger_name: 
     ``others``: how many more of the ledger's series it looks like."""
     more = f" and {others} more spelled alike" if others > 0 else ""
     said = f" ({what_happened(latest)})" if latest is not None else ""
-    _, shown = told_apart([tuple(clean(str(v)) for v in theirs), tuple(clean(str(v)) for v in ours)])
+    _, shown = beside(theirs, ours)
     return (f"{SEPARATOR.join(shown)}{more} in {ledger_name} under another spelling "
             f"({spelled(columns, theirs, ours)}), a series these results do not hold{said}")

@@ -87,3 +87,16 @@ def test_a_respelling_that_differs_only_invisibly_reads_otherwise():
         'product "crème cocoa 250 g" for "cre⟨U+0300⟩me cocoa 250 g" in another Unicode form'
     assert spelled(("product", "region"), ("tea", "East "), ("tea", "East")) == 'region "East⟨U+0020⟩" for "East"'
     assert spelled(("region",), ("north",), ("North",)) == 'region "north" for "North"'  # visible: as it is
+
+
+def test_a_look_alike_is_shown_beside_the_ledgers_spelling_wherever_it_is_shown():
+    """The screen's row, ``show``'s list and the sentence give a look-alike one form: told apart from the ledger's
+    spelling it reads like, whatever else is listed beside it (before: ``show`` told ``South `` apart only where
+    another series spelled ``South`` happened to be listed)."""
+    from fitcore.ledger.respelling import beside, ledger_spelling
+    decomposed = unicodedata.normalize("NFD", "crème")
+    assert beside(("tea", "South "), ("tea", "South")) == (("tea", "South⟨U+0020⟩"), ("tea", "South"))
+    assert beside((decomposed, "East"), ("crème", "East")) == (("cre⟨U+0300⟩me", "East"), ("crème", "East"))
+    assert ledger_spelling(("tea", "South "), ("tea", "South")) == "South"
+    assert ledger_spelling(("crème", "north"), (decomposed, "North")) == "cre⟨U+0300⟩me · North"
+    assert beside(("salt", "north"), ("salt", "North")) == (("salt", "north"), ("salt", "North"))
