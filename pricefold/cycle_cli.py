@@ -128,6 +128,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     from .show import detail, in_attention_order, key_cells
     book = open_ledger(ledger_path, must_exist=True)
     like: dict[str, dict] = {}  # series id → the ledger series it looks like
+    found = None
     if header is not None:
         said, tail = key_mismatch(header, book, ledger_path), "every series reads as pending"
         if said is None and book.histories:  # the same key columns: is any of the ledger's series among these?
@@ -146,7 +147,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             print(f"pricefold show: {results}: warning: {said}; {tail}", file=sys.stderr)
         if whole or within is not None:  # keyed otherwise, or none shared: none is counted (another clause says it)
             say_missing("pricefold show", results, [record["key"] for record in records], book, ledger_path,
-                        None if whole else within)
+                        None if whole else within, found)
         foreign = backtested_elsewhere(results, header, ledger_path)
         if foreign:
             print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "
@@ -474,7 +475,7 @@ def _carry(args) -> int:
         tail = ("nothing can be carried" if found.new == len(keys) else
                 "those are not carried (a decision is carried only to its own spelling)")
         print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
-    say_missing("pricefold ledger", args.results, keys, book, args.ledger)
+    say_missing("pricefold ledger", args.results, keys, book, args.ledger, found=found)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
         plan, left = plan_from_stored(args.results, overrides, book.histories)

@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import unicodedata
 from collections.abc import Callable, Iterable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -82,6 +82,10 @@ class LooseIndex:
         return np.asarray(found, dtype=np.int64), (probe if at is None else np.asarray(at, np.int64)[probe])
 
 
+NO_INDICES = np.zeros(0, np.int64)
+NO_INDICES.setflags(write=False)
+
+
 @dataclass(frozen=True, eq=False)
 class Respelled:
     """Results' series that look like a ledger's under another spelling.
@@ -90,13 +94,16 @@ class Respelled:
     index among the ledger's series of the first (in the ledger's order) missing series it looks like; ``alike``
     (P,) int64: how many of the ledger's missing series it looks like (1 unless the ledger's own spellings
     collide); ``new``: how many results' series are new to the ledger, these included; ``example``: the first
-    pair's differing values, cleaned (``region "north" for "North"``; None when P is 0)."""
+    pair's differing values, cleaned (``region "north" for "North"``; None when P is 0); ``paired`` (Q,) int64:
+    every ledger series some results' series looks like, ascending (``ledger``'s and the collisions' others): the
+    ledger's spellings that are in the results only under another (``fitcore.ledger.missing.Missing.beside``)."""
 
     results: np.ndarray
     ledger: np.ndarray
     alike: np.ndarray
     new: int
     example: str | None
+    paired: np.ndarray = field(default_factory=lambda: NO_INDICES)
 
     def __len__(self) -> int:
         return len(self.results)
@@ -122,7 +129,7 @@ class Respelled:
         return dict(zip(self.results.tolist(), self.ledger.tolist()))
 
 
-NONE = Respelled(np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, np.int64), 0, None)
+NONE = Respelled(NO_INDICES, NO_INDICES, NO_INDICES, 0, None)
 
 
 def gathered(results_at: np.ndarray, ledger_at: np.ndarray, new: int, columns: Sequence[str],
@@ -136,10 +143,11 @@ def gathered(results_at: np.ndarray, ledger_at: np.ndarray, new: int, columns: S
     starts = np.flatnonzero(first)
     alike = np.diff(np.r_[starts, len(pairs)])
     results, ledger = pairs[first, 0], pairs[first, 1]
-    for array in (results, ledger, alike):
+    paired = np.unique(pairs[:, 1])
+    for array in (results, ledger, alike, paired):
         array.setflags(write=False)
     example = spelled(columns, results_key(int(results[0])), ledger_key(int(ledger[0])))
-    return Respelled(results, ledger, alike, new, example)
+    return Respelled(results, ledger, alike, new, example, paired)
 
 
 def spelled(columns: Sequence[str], theirs: tuple, ours: tuple) -> str:
