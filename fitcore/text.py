@@ -22,7 +22,7 @@ rest, the shown forms included, as it is (``clean`` again would escape the pictu
 from __future__ import annotations
 
 import re
-from collections.abc import Sequence
+from collections.abc import Iterable, Sequence
 from unicodedata import category, combining, is_normalized, normalize
 
 OPEN, CLOSE = "\u27e8", "\u27e9"  # ⟨ ⟩ MATHEMATICAL ANGLE BRACKETS: one cell each, rare in names
@@ -121,6 +121,30 @@ def original(shown: str) -> str:
         point = int(code, 16)  # a surrogate or beyond Unicode stands for no character: left as typed
         return chr(point) if point <= 0x10FFFF and not 0xD800 <= point <= 0xDFFF else match.group(0)
     return _SHOWN.sub(back, shown)
+
+
+class EitherForm:
+    """Texts typed to pick values by (``--product``), each matching a value in either Unicode normal form (a composed
+    ``crème`` finds the value spelled with ``e`` and a combining accent too, and the other way round) or typed as
+    shown (``cre⟨U+0300⟩me``, read back by ``original``), as the screen's search finds text.  ``rank``: 0 for a value
+    as typed, 1 for its other form, None for no match — so a list can give the form typed first."""
+
+    def __init__(self, typed: Iterable[str]) -> None:
+        self.exact = frozenset(original(str(text)) for text in typed)
+        self.normal = frozenset(normalize("NFC", text) for text in self.exact)
+
+    def __len__(self) -> int:
+        return len(self.exact)
+
+    def rank(self, value) -> int | None:
+        if value in self.exact:
+            return 0
+        if not isinstance(value, str):
+            return None
+        return 1 if (value if value.isascii() else normalize("NFC", value)) in self.normal else None
+
+    def __contains__(self, value) -> bool:
+        return self.rank(value) is not None
 
 
 def quoted(text) -> str:

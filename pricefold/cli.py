@@ -62,7 +62,8 @@ def build_parser() -> argparse.ArgumentParser:
                                description="Print one series in full (candidates, choice, flags, plan) or, when "
                                            "several match, a list ordered by need of attention.", epilog=CAUTION)
     show.add_argument("results", type=Path, metavar="RESULTS", help="a .json or .parquet results file")
-    show.add_argument("--product", action="append", default=[], metavar="P", help="only this product (repeatable)")
+    show.add_argument("--product", action="append", default=[], metavar="P",
+                      help="only this product (repeatable; either Unicode normal form of it, or as shown)")
     show.add_argument("--key", action="append", default=[], metavar="COL=VALUE",
                       help="only series whose key column COL is VALUE, e.g. region=North (repeatable)")
     show.add_argument("--flag", metavar="CODE", help="only series carrying this flag")
@@ -130,14 +131,17 @@ def run_show(args) -> int:
 def _show(args, keys: dict) -> int:
     from fitcore.results.series_columns import is_columnar, listed_series
 
+    from fitcore.text import EitherForm
+
     from .show import detail, select, table
+    products = EitherForm(args.product)  # either Unicode form, or as shown, as ledger show and the screen's search
     if is_columnar(args.results):  # column by column, a record only for one series shown in full
-        header, listed = listed_series(args.results, args.product, keys, args.flag)
+        header, listed = listed_series(args.results, products, keys, args.flag)
         picked = [listed.record(0)] if len(listed) == 1 else listed.records
     else:
         from fitcore.results.read import results_in_parts
-        header, parts = results_in_parts(args.results, args.product, keys)  # filtered as read
-        picked = [record for series in parts for record in select(series, args.product, keys, args.flag)]
+        header, parts = results_in_parts(args.results, products, keys)  # filtered as read
+        picked = [record for series in parts for record in select(series, products, keys, args.flag)]
     if not picked:
         columns = header.get("settings", {}).get("columns") or {}
         names = [columns["product"], *columns.get("segments", [])] if columns.get("product") else []
@@ -149,24 +153,26 @@ def _show(args, keys: dict) -> int:
         print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
         if args.ledger is not None and not args.flag:  # a signed series renamed away matches no row: say where it went
             from .cycle_cli import show_missing
-            show_missing(args.results, header, args.ledger, lambda key: within(key, header, args.product, keys))
+            show_missing(args.results, header, args.ledger, lambda key: within(key, header, products, keys))
         return 1
     binary = (header.get("settings", {}).get("controls") or {}).get("binary", [])
+    first = (lambda record: products.rank(next(iter(record["key"].values())))) if products else None  # as typed first
     if args.ledger is not None:
         from .cycle_cli import show_with_ledger
         print(show_with_ledger(picked, args.ledger, binary, header, args.results,
                                whole=not (args.product or keys or args.flag),
-                               within=None if args.flag else lambda key: within(key, header, args.product, keys)))
+                               within=None if args.flag else lambda key: within(key, header, products, keys),
+                               first=first))
     else:
-        print(detail(picked[0], binary) if len(picked) == 1 else table(picked))
+        print(detail(picked[0], binary) if len(picked) == 1 else table(picked, first))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     return 0
 
 
-def within(key: dict, header: dict, products: list[str], keys: dict[str, str]) -> bool:
-    """Whether ``show``'s ``--product`` and ``--key`` filters keep a ledger series' ``key`` (its columns in the
-    ledger's order: the product column named by the results' settings)."""
+def within(key: dict, header: dict, products, keys: dict[str, str]) -> bool:
+    """Whether ``show``'s ``--product`` (``products``: a ``fitcore.text.EitherForm``) and ``--key`` filters keep a
+    ledger series' ``key`` (its columns in the ledger's order: the product column named by the results' settings)."""
     product = (header.get("settings", {}).get("columns") or {}).get("product") or "product"
     return (not products or key.get(product) in products) and all(key.get(k) == v for k, v in keys.items())
 

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from fitcore import ledger
+from fitcore.data.keys import SEPARATOR
 from fitcore.ledger.elsewhere import backtested_elsewhere, without_backtest
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import series_id
@@ -111,7 +112,7 @@ def _minute(record: dict) -> str:
 
 
 def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: dict | None = None,
-                     results: Path | None = None, whole: bool = True, within=None) -> str:
+                     results: Path | None = None, whole: bool = True, within=None, first=None) -> str:
     """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list.  Results
     (``header``, from the file ``results``) keyed by other columns than the ledger's series, or (``whole``:
     ``records`` are every series of the results, no filter) sharing none of them: a warning line on
@@ -119,12 +120,15 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     line on stderr.  Signed series of the ledger not in the results: a note on stderr, counted within the
     filter (``within``: what a ``--product``/``--key`` filter keeps; a ``--flag`` filter, None and not
     ``whole``, counts none).  Series that look like the ledger's under another spelling are marked
-    (``≈North`` where the flags begin; a series in full says which it looks like)."""
+    (``≈North`` where the flags begin; a series in full says which it looks like) and their keys told apart from
+    the ledger's spelling (``East⟨U+0020⟩``), filtered or not, as on the screen.  ``first``: a record's rank
+    ahead of the attention order (``show.in_attention_order``)."""
     from fitcore.review.sentences import shift_sentence
 
     from .show import detail, in_attention_order, key_cells
     book = open_ledger(ledger_path, must_exist=True)
     like: dict[str, dict] = {}  # series id → the ledger series it looks like
+    found = None
     if header is not None:
         said, tail = key_mismatch(header, book, ledger_path), "every series reads as pending"
         if said is None and book.histories:  # the same key columns: is any of the ledger's series among these?
@@ -143,7 +147,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             print(f"pricefold show: {results}: warning: {said}; {tail}", file=sys.stderr)
         if whole or within is not None:  # keyed otherwise, or none shared: none is counted (another clause says it)
             say_missing("pricefold show", results, [record["key"] for record in records], book, ledger_path,
-                        None if whole else within)
+                        None if whole else within, found)
         foreign = backtested_elsewhere(results, header, ledger_path)
         if foreign:
             print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "
@@ -152,7 +156,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     if len(records) == 1:
         record = records[0]
         status, needs = ledger_state(record, book)
-        lines = [detail(record, binary), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
+        shown = looks_shown([record], like)
+        label = SEPARATOR.join(shown[0]) if shown else None
+        lines = [detail(record, binary, label), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
         alike = like.get(series_id(record["key"]))
         if alike is not None:
             lines.append("  " + alike_line(record["key"], alike, book, ledger_path))
@@ -167,8 +173,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             lines.append(f"  since sign-off (the curve as signed): {said}")
         return "\n".join(lines)
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]
-    ordered = in_attention_order(records)
-    for record, label in zip(ordered, key_cells([record["key"] for record in ordered])):
+    ordered = in_attention_order(records, first)
+    labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like))  # as the screen's
+    for record, label in zip(ordered, labels):
         status, needs = ledger_state(record, book, short=True)
         bt = record.get("backtest") or {}
         ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
@@ -199,10 +206,24 @@ def show_missing(results: Path, header: dict, ledger_path: Path, within) -> None
             print(f"pricefold show: {results}: note: {said}; {MISSING_TAIL}", file=sys.stderr)
 
 
+def looks_shown(records: list[dict], like: dict[str, dict]) -> dict[int, tuple[str, ...]]:
+    """The key parts of the look-alikes among ``records`` (by place; ``like``: series id → the ledger series' key) as
+    the screen's list shows them: told apart from the ledger's spelling (``fitcore.ledger.respelling.beside``)."""
+    from fitcore.ledger.respelling import beside
+    if not like:
+        return {}
+    out = {}
+    for i, record in enumerate(records):
+        alike = like.get(series_id(record["key"]))
+        if alike is not None:
+            out[i] = beside(record["key"].values(), [alike.get(name) for name in record["key"]])[0]
+    return out
+
+
 def differing(key: dict, like: dict) -> str:
     """'North': the ledger's spelling of the values ``key`` spells otherwise (as the screen's ``≈North``)."""
-    from fitcore.data.keys import SEPARATOR
-    return SEPARATOR.join(clean(str(like[name])) for name, value in key.items() if like.get(name) != value)
+    from fitcore.ledger.respelling import ledger_spelling
+    return ledger_spelling(tuple(key.values()), tuple(like.get(name) for name in key))
 
 
 def alike_line(key: dict, like: dict, book, ledger_path: Path) -> str:
@@ -454,7 +475,7 @@ def _carry(args) -> int:
         tail = ("nothing can be carried" if found.new == len(keys) else
                 "those are not carried (a decision is carried only to its own spelling)")
         print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
-    say_missing("pricefold ledger", args.results, keys, book, args.ledger)
+    say_missing("pricefold ledger", args.results, keys, book, args.ledger, found=found)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
         plan, left = plan_from_stored(args.results, overrides, book.histories)

@@ -128,12 +128,13 @@ def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
     from fitcore.review.flags import mark_shifted
     source, standing = ahead.result()
     said = mismatch(list(results.data.key_names), standing.series, str(ahead.path))
-    alike = None
+    alike, looks = None, None
     if said is None and len(standing):  # the same key columns: is any signed series among these?
         keys = SeriesKeys.of(results.data)
         at = keys.indices_of(standing.series)
         said = none_shared(bool((at >= 0).any()), len(standing), str(ahead.path), "signed series")
-        alike = signed_alike(keys, standing.series, at).said(str(ahead.path), "signed series")
+        looks = signed_alike(keys, standing.series, at)
+        alike = looks.said(str(ahead.path), "signed series")
     if said:  # the fit stands on its own; only the backtest finds nothing (and carry refuses these results)
         print(f"pricefold fit: warning: {'; '.join(filter(None, (said, alike)))}; nothing was backtested",
               file=sys.stderr)
@@ -141,7 +142,8 @@ def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
         print(f"pricefold fit: warning: {alike}; those were not backtested", file=sys.stderr)
     if said is None and len(standing):  # signed series gone from the data (renamed, or another range): a note
         from fitcore.ledger.missing import missing_at
-        gone = missing_at(standing.series, at, keys.names).said(str(ahead.path))
+        gone = missing_at(standing.series, at, keys.names).beside(
+            standing.series[j] for j in looks.paired.tolist()).said(str(ahead.path))
         if gone:
             print(f"pricefold fit: note: {gone}; {MISSING_TAIL}", file=sys.stderr)
     found = backtest(results, standing, thresholds, source)

@@ -12,12 +12,11 @@ import re
 import socket
 import sys
 from pathlib import Path
-from unicodedata import normalize
 
 from fitcore import ledger
 from fitcore.ledger.missing import RENAMED as MISSING_TAIL
 from fitcore.ledger.replay import apply, own_standing, series_id
-from fitcore.text import clean, original
+from fitcore.text import EitherForm, clean
 
 from .ledger_options import KEY_VARIABLE
 from .show import key_texts
@@ -135,15 +134,20 @@ def meets(results_keys: list[dict], book: ledger.Ledger, ledger_path: Path, what
 
 
 def say_missing(prog: str, results: Path | None, results_keys, book: ledger.Ledger, ledger_path: Path,
-                within=None) -> None:
+                within=None, found=None) -> None:
     """A note on stderr where signed series of ``book`` keyed by the results' columns are not among
     ``results_keys`` (``fitcore.ledger.missing``; ``within``: only those a filter on the results keeps;
-    ``results``: the file it is about, None for the fit's own).  Never a refusal: a team ledger may hold other
+    ``results``: the file it is about, None for the fit's own; ``found``: the ``Respelled`` of ``meets``, whose
+    look-alikes' ledger spellings are not chosen as the example).  Never a refusal: a team ledger may hold other
     product ranges, and results may be a subset."""
     if not book.histories:
         return
     from fitcore.ledger.missing import missing_from
-    said = missing_from(results_keys, book.histories, within).said(str(ledger_path))
+    gone = missing_from(results_keys, book.histories, within)
+    if found is not None and len(found.paired) and len(gone):
+        ledger_keys = [h.latest["series"] for h in book.histories.values()]
+        gone = gone.beside(ledger_keys[j] for j in found.paired.tolist())
+    said = gone.said(str(ledger_path))
     if said:
         print(f"{prog}: {f'{results}: ' if results else ''}note: {said}; {MISSING_TAIL}", file=sys.stderr)
 
@@ -241,14 +245,14 @@ def run_show(args) -> int:
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}
     named = product if several else None
     texts = key_texts([product_first(r["series"], product) for r in book.records], named=named)  # told apart
-    wanted = {normalize("NFC", original(p)) for p in args.product or ()}  # either normal form, as the screen's search
+    wanted = EitherForm(args.product or ())  # either normal form, or as shown, as the screen's search
     histories = {}  # replayed as listed: a revoke names the decision it withdrew
     for r, text in zip(book.records, texts):
         withdrawn = (own_standing(histories.get(series_id(r["series"])), r["analyst"], r.get("os_user"))
                      if r["action"] == "revoke" else None)
         apply(histories, [r])
         value = r["series"].get(product)
-        if args.product and (value is None or normalize("NFC", value) not in wanted):
+        if args.product and value not in wanted:
             continue
         model = clean(r.get("model") or "")
         if r["action"] == "override":
@@ -286,7 +290,7 @@ def run_accept_unflagged(args) -> int:
     keys = ResultsKeys(args.results)  # read once, where the ledger holds series: checked again under the lock
     checked = (len(book.records), new_set(args, keys, book, warn=True))  # said (or refused) before anything is written
     if book.histories:  # a renamed product's signed spelling gone: said before its new name is accepted as new
-        say_missing("pricefold ledger", args.results, keys.keys, book, args.ledger)
+        say_missing("pricefold ledger", args.results, keys.keys, book, args.ledger, found=checked[1])
     counted: dict[str, int] = {}
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now

@@ -2,6 +2,9 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
+
+import numpy as np
 
 from fitcore.data.keys import SEPARATOR
 from fitcore.review import choice
@@ -14,7 +17,9 @@ from fitcore.widths import cells, distinct_keys
 SEVERITY_ORDER = {"stop": 0, "warn": 1}
 
 
-def select(series: list[dict], products: list[str], keys: dict[str, str], flag: str | None) -> list[dict]:
+def select(series: list[dict], products, keys: dict[str, str], flag: str | None) -> list[dict]:
+    """The records ``show``'s filters keep: a product among ``products`` (a list, or a ``fitcore.text.EitherForm``),
+    the key values ``keys``, the flag ``flag``."""
     out = []
     for record in series:
         if products and record["key"].get(next(iter(record["key"]))) not in products:
@@ -27,8 +32,9 @@ def select(series: list[dict], products: list[str], keys: dict[str, str], flag: 
     return out
 
 
-def in_attention_order(records: list[dict]) -> list[dict]:
-    """The records as ``fitcore.review.attention`` orders series."""
+def in_attention_order(records: list[dict], first: Callable[[dict], int] | None = None) -> list[dict]:
+    """The records as ``fitcore.review.attention`` orders series; ``first``: a rank of each record ahead of that
+    order (``--product``'s: the product as typed before its other Unicode form)."""
     counted: dict[int, tuple[int, int]] = {}  # by flag list: the Parquet list reader shares equal ones
 
     def stops_warns(flags: list) -> tuple[int, int]:
@@ -39,7 +45,11 @@ def in_attention_order(records: list[dict]) -> list[dict]:
         return found
     pairs = [stops_warns(r["flags"]) for r in records]
     scores = [math.nan if r["score"] is None else r["score"] for r in records]
-    return [records[i] for i in attention_order([p[0] for p in pairs], [p[1] for p in pairs], scores).tolist()]
+    order = attention_order([p[0] for p in pairs], [p[1] for p in pairs], scores)
+    if first is not None:
+        ranks = np.fromiter(map(first, records), np.int64, len(records))
+        order = order[np.argsort(ranks[order], kind="stable")]
+    return [records[i] for i in order.tolist()]
 
 
 def number(x, how=fmt) -> str:
@@ -77,11 +87,15 @@ def _joined(key: dict, values: tuple[str, ...], named: str | None) -> str:
     return SEPARATOR.join(values)
 
 
-def key_cells(keys: list[dict], width: int = 40) -> list[str]:
+def key_cells(keys: list[dict], width: int = 40, shown: dict[int, tuple[str, ...]] | None = None) -> list[str]:
     """Each ``key_text`` in ``width`` cells (padded) for a list's column, by the triage list's rule
     (``fitcore.widths.distinct_keys``): each part keeps a share and long ones lose their middle, cut
-    again where two would read the same, so rows of different series read differently."""
-    labels = distinct_keys([tuple(clean(str(v)) for v in key.values()) for key in keys], width, SEPARATOR, cells)
+    again where two would read the same, so rows of different series read differently.  ``shown``: the parts
+    of some keys (by place) as the caller shows them already, as the triage list's ``label_parts`` does (a
+    look-alike told apart from the ledger's spelling, ``fitcore.ledger.respelling.beside``)."""
+    shown = shown or {}
+    parts = [shown.get(i) or tuple(clean(str(v)) for v in key.values()) for i, key in enumerate(keys)]
+    labels = distinct_keys(parts, width, SEPARATOR, cells)
     return [pad_cells(label, width) for label in labels]
 
 
@@ -98,10 +112,10 @@ def flag_codes(flags: list, said: dict) -> str:
     return text
 
 
-def table(records: list[dict]) -> str:
+def table(records: list[dict], first: Callable[[dict], int] | None = None) -> str:
     lines = [f"{'series':<40} {'n':>5} {'chosen':<7} {'score':>6}  flags"]
     said: dict[int, str] = {}
-    ordered = in_attention_order(records)
+    ordered = in_attention_order(records, first)
     for r, label in zip(ordered, key_cells([r["key"] for r in ordered])):
         score = percent(r["score"])
         lines.append(f"{label} {r['n']:>5} {r['chosen'] or '—':<7} {score:>6}  "
@@ -140,10 +154,11 @@ def slope(plan: dict) -> str:
     return f"elasticity {number(plan['elasticity'], two_places)}"
 
 
-def detail(record: dict, binary=()) -> str:
-    """One series in full; ``binary``: the 0/1 controls of the results (the header's settings)."""
+def detail(record: dict, binary=(), label: str | None = None) -> str:
+    """One series in full; ``binary``: the 0/1 controls of the results (the header's settings); ``label``: its key
+    as the caller shows it (else ``key_text``)."""
     lo, hi = record["price_range"]
-    out = [f"{key_text(record['key'])} — {record['n']} observations, prices {money(lo)}–{money(hi)}",
+    out = [f"{label or key_text(record['key'])} — {record['n']} observations, prices {money(lo)}–{money(hi)}",
            f"chosen: {record['chosen'] or 'none'} ({record['rule']}): {why_chosen(record)}", "",
            f"  {'candidate':<10} {'CV MSE':>12} {'± SE':>10} {'Q²':>6} {'R²':>6}"]
     for c in record["candidates"]:

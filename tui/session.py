@@ -160,11 +160,13 @@ class TriageSession(Deciding, Standing, ListState):
     @property
     def missing(self):
         """``fitcore.ledger.missing.Missing`` of the ledger's signed series these results do not hold (none where
-        none of its series is: the header says that instead)."""
+        none of its series is: the header says that instead), told which are look-alikes' ledger spellings."""
         from fitcore.ledger.missing import NONE, Missing
         if not self.missing_signed or self.key_columns.said is not None:
             return NONE
-        return Missing(tuple(self.missing_signed.values()), True, tuple(self.keys.names))
+        spellings = self.spellings  # the look-alikes' ledger spellings said as such, as every command says them
+        paired = (dict(zip(spellings.columns, spellings.missing[j])) for j in spellings.found.paired.tolist())
+        return Missing(tuple(self.missing_signed.values()), True, tuple(self.keys.names)).beside(paired)
 
     def _share_check(self) -> None:
         """Whether any of the ledger's series is in these results (the first one found ends the look; only when

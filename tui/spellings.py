@@ -19,8 +19,7 @@ import numpy as np
 
 from fitcore.data.keys import SEPARATOR, SeriesKeys
 from fitcore.ledger.replay import series_id
-from fitcore.ledger.respelling import NONE, LooseIndex, Respelled, gathered, loose_key
-from fitcore.text import told_apart
+from fitcore.ledger.respelling import NONE, LooseIndex, Respelled, beside, gathered, ledger_spelling, loose_key
 
 from .text import clean
 
@@ -100,9 +99,7 @@ class Spellings:
         like = self.like(s)
         if like is None:
             return None
-        ours = tuple(clean(str(v)) for v in self.keys.key_of(s).values())
-        ours, theirs = told_apart([ours, tuple(clean(str(v)) for v in like)])
-        return ours, theirs
+        return beside(self.keys.key_of(s).values(), like)
 
     def like_label(self, s: int) -> str | None:
         """The label of the ledger series series ``s`` looks like, as shown beside it (None: not a look-alike)."""
@@ -111,11 +108,8 @@ class Spellings:
 
     def differing(self, s: int) -> str | None:
         """'North': the ledger's spelling of the values series ``s`` spells otherwise (None: not a look-alike)."""
-        shown = self.shown(s)
-        if shown is None:
-            return None
-        ours = self.keys.key_of(s).values()
-        return SEPARATOR.join(theirs for value, like, theirs in zip(ours, self.like(s), shown[1]) if value != like)
+        like = self.like(s)
+        return None if like is None else ledger_spelling(tuple(self.keys.key_of(s).values()), like)
 
     # -- asking first -------------------------------------------------------------------------
     def look_alikes(self, s: int, fresh: Iterable[dict] = ()) -> frozenset:

@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import unicodedata
 from collections.abc import Callable, Iterable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -82,6 +82,10 @@ class LooseIndex:
         return np.asarray(found, dtype=np.int64), (probe if at is None else np.asarray(at, np.int64)[probe])
 
 
+NO_INDICES = np.zeros(0, np.int64)
+NO_INDICES.setflags(write=False)
+
+
 @dataclass(frozen=True, eq=False)
 class Respelled:
     """Results' series that look like a ledger's under another spelling.
@@ -90,13 +94,16 @@ class Respelled:
     index among the ledger's series of the first (in the ledger's order) missing series it looks like; ``alike``
     (P,) int64: how many of the ledger's missing series it looks like (1 unless the ledger's own spellings
     collide); ``new``: how many results' series are new to the ledger, these included; ``example``: the first
-    pair's differing values, cleaned (``region "north" for "North"``; None when P is 0)."""
+    pair's differing values, cleaned (``region "north" for "North"``; None when P is 0); ``paired`` (Q,) int64:
+    every ledger series some results' series looks like, ascending (``ledger``'s and the collisions' others): the
+    ledger's spellings that are in the results only under another (``fitcore.ledger.missing.Missing.beside``)."""
 
     results: np.ndarray
     ledger: np.ndarray
     alike: np.ndarray
     new: int
     example: str | None
+    paired: np.ndarray = field(default_factory=lambda: NO_INDICES)
 
     def __len__(self) -> int:
         return len(self.results)
@@ -122,7 +129,7 @@ class Respelled:
         return dict(zip(self.results.tolist(), self.ledger.tolist()))
 
 
-NONE = Respelled(np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, np.int64), 0, None)
+NONE = Respelled(NO_INDICES, NO_INDICES, NO_INDICES, 0, None)
 
 
 def gathered(results_at: np.ndarray, ledger_at: np.ndarray, new: int, columns: Sequence[str],
@@ -136,10 +143,11 @@ def gathered(results_at: np.ndarray, ledger_at: np.ndarray, new: int, columns: S
     starts = np.flatnonzero(first)
     alike = np.diff(np.r_[starts, len(pairs)])
     results, ledger = pairs[first, 0], pairs[first, 1]
-    for array in (results, ledger, alike):
+    paired = np.unique(pairs[:, 1])
+    for array in (results, ledger, alike, paired):
         array.setflags(write=False)
     example = spelled(columns, results_key(int(results[0])), ledger_key(int(ledger[0])))
-    return Respelled(results, ledger, alike, new, example)
+    return Respelled(results, ledger, alike, new, example, paired)
 
 
 def spelled(columns: Sequence[str], theirs: tuple, ours: tuple) -> str:
@@ -208,6 +216,23 @@ def among(new: Sequence[tuple], new_at: Sequence[int], missing: Sequence[tuple],
     return gathered(found, probe, len(new), columns, theirs.__getitem__, ours.__getitem__)
 
 
+def beside(theirs: Iterable, ours: Iterable) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """A look-alike's key values (``theirs``) and those of the ledger series it looks like (``ours``), one order of
+    columns for both, as shown beside each other: cleaned, and told apart where they read the same
+    (``fitcore.text.told_apart``: ``East⟨U+0020⟩`` beside ``East``, ``cre⟨U+0300⟩me`` beside ``crème``).  The one
+    form a look-alike is given wherever it is shown: the screen's row and evidence, ``show``'s list and its line
+    in full, the sentence (``looks_like``) — never only where another series happens to be listed beside it."""
+    mine, its = told_apart([tuple(clean(str(v)) for v in theirs), tuple(clean(str(v)) for v in ours)])
+    return mine, its
+
+
+def ledger_spelling(theirs: Sequence, ours: Sequence) -> str:
+    """'North': the ledger's spelling (``ours``, shown ``beside`` ``theirs``) of the values a look-alike spells
+    otherwise — the ``≈North`` of the screen's row and ``show``'s list."""
+    _, shown = beside(theirs, ours)
+    return SEPARATOR.join(its for a, b, its in zip(theirs, ours, shown) if a != b)
+
+
 def looks_like(columns: Sequence[str], theirs: tuple, ours: tuple, ledger_name: str, latest: dict | None = None,
                others: int = 0) -> str:
     """'lemons · North in L under another spelling (region "north" for "North"), a series these results do not hold
@@ -216,6 +241,6 @@ def looks_like(columns: Sequence[str], theirs: tuple, ours: tuple, ledger_name: 
     ``others``: how many more of the ledger's series it looks like."""
     more = f" and {others} more spelled alike" if others > 0 else ""
     said = f" ({what_happened(latest)})" if latest is not None else ""
-    _, shown = told_apart([tuple(clean(str(v)) for v in theirs), tuple(clean(str(v)) for v in ours)])
+    _, shown = beside(theirs, ours)
     return (f"{SEPARATOR.join(shown)}{more} in {ledger_name} under another spelling "
             f"({spelled(columns, theirs, ours)}), a series these results do not hold{said}")

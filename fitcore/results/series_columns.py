@@ -121,13 +121,15 @@ class SeriesColumns:
         return [dict(zip(self.key_names, values)) for values in zip(*columns)] if columns else []
 
     def matching(self, products=(), keys: dict | None = None) -> np.ndarray:
-        """Indices of the series whose first key column is among ``products`` (when given) and whose key
-        columns hold ``keys`` (column → value); a column these results do not have matches nothing."""
+        """Indices of the series whose first key column is among ``products`` (when given: a list, or any container
+        such as ``fitcore.text.EitherForm``) and whose key columns hold ``keys`` (column → value); a column these
+        results do not have matches nothing."""
         keep = np.ones(self.n_series, dtype=bool)
         if any(name not in self.key_names for name in keys or {}):
             return np.zeros(0, dtype=np.int64)
         if products:
-            wanted = set(products)  # not np.isin: its sorting path cannot order a null key beside text
+            # a set, or the caller's container (not np.isin: its sorting path cannot order a null key beside text)
+            wanted = set(products) if isinstance(products, (list, tuple)) else products
             keep &= np.fromiter((value in wanted for value in self.texts(self.key_names[0]).tolist()), bool,
                                 self.n_series)
         for name, value in (keys or {}).items():

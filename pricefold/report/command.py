@@ -223,12 +223,14 @@ def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple
     signed = signed_keys(histories, names)
     at = keys.indices_of(signed) if signed else np.zeros(0, np.int64)
     shared = bool(signoff.histories)  # series index → history: those of the ledger's series these results hold
-    gone = missing_at(signed, at, names, shared).said(str(ledger_path))
+    gone = missing_at(signed, at, names, shared)
     alike = None
     if shared:
         ledger_keys = [h.latest["series"] for h in histories.values()]
-        alike = signed_alike(keys, ledger_keys, keys.indices_of(ledger_keys)).said(str(ledger_path))
-    return tuple(said for said in (gone, alike) if said)
+        looks = signed_alike(keys, ledger_keys, keys.indices_of(ledger_keys))
+        gone = gone.beside(ledger_keys[j] for j in looks.paired.tolist())
+        alike = looks.said(str(ledger_path))
+    return tuple(said for said in (gone.said(str(ledger_path)), alike) if said)
 
 
 def version() -> str:

@@ -8,7 +8,8 @@ none, 1% or all of them respelled (the region lower-cased, or with a trailing sp
 case it prints the CPU time of ``respellings`` (median of ``--rounds``, the cases interleaved round by round) beside
 that of one look-up of every results' series in the ledger's histories by series id (what ``export`` and
 ``accept-unflagged`` do for each series anyway), and their ratio, then the same of ``missing_from`` (every ledger
-series signed), with the load average.  Not a test: machines
+series signed) and of that count told which of them are look-alikes' ledger spellings (``Missing.beside`` with
+``Respelled.paired``: the note's example), with the load average.  Not a test: machines
 are noisy.
 """
 from __future__ import annotations
@@ -56,21 +57,25 @@ def main() -> None:
                                                                    ("all respelled", 1.0))}
     ids = {name: {series_id(key) for key in ledger} for name, (ledger, _) in cases.items()}
     histories = {name: {series_id(key): Signed(key) for key in ledger} for name, (ledger, _) in cases.items()}
-    times: dict[str, list[tuple[float, float, float]]] = {name: [] for name in cases}
+    paired = {name: [ledger[j] for j in respellings(results, ledger).paired.tolist()]
+              for name, (ledger, results) in cases.items()}
+    times: dict[str, list[tuple[float, float, float, float]]] = {name: [] for name in cases}
     for _ in range(args.rounds):
         for name, (ledger, results) in cases.items():
             times[name].append((cpu(lambda: respellings(results, ledger)),
                                 cpu(lambda: [series_id(key) in ids[name] for key in results]),
-                                cpu(lambda: missing_from(results, histories[name]))))
+                                cpu(lambda: missing_from(results, histories[name])),
+                                cpu(lambda: missing_from(results, histories[name]).beside(paired[name]))))
     load = open("/proc/loadavg").read().split()[0] if Path("/proc/loadavg").exists() else "?"
     print(f"{args.series:,} ledger series, {args.series * 101 // 100:,} results' series; CPU, median of "
           f"{args.rounds} (load {load}):")
     for name, (ledger, results) in cases.items():
-        rule, before, gone = (statistics.median(column) for column in zip(*times[name]))
+        rule, before, gone, marked = (statistics.median(column) for column in zip(*times[name]))
         found, missing = respellings(results, ledger), missing_from(results, histories[name])
         print(f"  {name:<15} respellings {rule * 1e3:6.1f} ms ({len(found):,} found, {found.new:,} new); "
               f"look-ups {before * 1e3:6.1f} ms; ratio {rule / max(before, 1e-9):.2f}; missing_from "
-              f"{gone * 1e3:6.1f} ms ({len(missing):,} missing), ratio {gone / max(before, 1e-9):.2f}")
+              f"{gone * 1e3:6.1f} ms ({len(missing):,} missing), ratio {gone / max(before, 1e-9):.2f}; "
+              f"with beside {marked * 1e3:6.1f} ms")
 
 
 class Signed:

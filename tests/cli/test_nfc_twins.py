@@ -78,3 +78,40 @@ def test_ledger_show_tells_a_trailing_space_apart_and_finds_a_product_in_either_
         lines = capsys.readouterr().out.splitlines()
         assert [line.split("hold")[-1].strip() for line in lines] == [
             "crème cocoa 250 g · North", "cre⟨U+0300⟩me cocoa 250 g · East"], (typed, lines)
+
+
+def test_show_finds_a_product_in_either_form_the_one_typed_first(tmp_path, capsys):
+    """A trial: ``show --product`` typed composed found only the composed series, where ``ledger show --product``
+    (and the screen's search) find both forms.  Now both are listed, the form typed first; typed as shown
+    (``cafe⟨U+0301⟩``), the decomposed one first.  JSON and Parquet results alike; with ``--ledger``, the signed
+    series the filter keeps are counted in either form too."""
+    write_twins(tmp_path / "twins.csv")
+    shown = "cafe⟨U+0301⟩ noir 250 g"
+    for results in (tmp_path / "r.json", tmp_path / "r.parquet"):
+        assert main(["fit", str(tmp_path / "twins.csv"), "--plan-price", "1.5", "-o", str(results), "-q"]) == 0
+        for typed, first in ((COMPOSED, COMPOSED), (DECOMPOSED, shown), (shown, shown)):
+            capsys.readouterr()
+            assert main(["show", str(results), "--product", typed]) == 0
+            rows = [row[:40].rstrip() for row in capsys.readouterr().out.splitlines()[1:]]
+            assert rows == [first, *({COMPOSED, shown} - {first})], (results.suffix, typed, rows)
+    # the ledger signs the decomposed series and another; the next cycle's data spell the first composed
+    book = tmp_path / "L.jsonl"
+    with open(tmp_path / "twins.csv", encoding="utf-8") as src:
+        lines = src.readlines()
+    lines += [line.replace(COMPOSED, "tea 100 g") for line in lines if line.startswith(COMPOSED)]
+    for name, dropped in (("nfd", COMPOSED), ("nfc", DECOMPOSED)):
+        (tmp_path / f"{name}.csv").write_text("".join(line for line in lines if not line.startswith(dropped)),
+                                              encoding="utf-8")
+        assert main(["fit", str(tmp_path / f"{name}.csv"), "--plan-price", "1.5", "-o", str(tmp_path / f"{name}.json"),
+                     "-q"]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "nfd.json"), "--ledger", str(book), "-q"]) == 0
+    capsys.readouterr()
+    assert main(["show", str(tmp_path / "nfc.json"), "--ledger", str(book), "--product", DECOMPOSED]) == 0
+    captured = capsys.readouterr()
+    assert captured.out.startswith(f"{COMPOSED} — ") and f"looks like {shown} in {book}" in captured.out
+    assert main(["show", str(tmp_path / "nfc.json"), "--ledger", str(book), "--product", shown, "--product",
+                 "tea 100 g"]) == 0
+    captured = capsys.readouterr()
+    assert [row[:40].rstrip() for row in captured.out.splitlines()[1:]] == ["tea 100 g", COMPOSED]  # as typed first
+    assert f"1 signed series in {book} is not in these results (present only under another spelling: {DECOMPOSED})" \
+        in captured.err

@@ -189,3 +189,64 @@ def test_show_marks_the_look_alikes_as_the_screen_does(cycle, capsys, tmp_path):
             "series these results do not hold (") in out and "accepted" in out.split("looks like", 1)[1]
     assert main(["show", str(results), "--ledger", str(book), "--product", product, "--key", "region=East"]) == 0
     assert "looks like" not in capsys.readouterr().out
+
+
+def test_show_gives_a_look_alike_the_screens_form_filtered_or_not(cycle, capsys, tmp_path):
+    """A trial: ``show --ledger --product 'tea bags 80'`` listed 'tea bags 80 · South ' (a trailing space, new to the
+    ledger) as 'tea bags 80 · South', while the note named the signed 'tea bags 80 · South' as missing: the
+    unfiltered list told it apart only because other products' South series were listed beside it.  Now its row is
+    the same filtered or not (the screen's ``label_parts``: told apart from the ledger's spelling)."""
+    folder, signed, results, count = cycle
+    book = own_copy(signed, tmp_path)
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
+    whole = [row for row in capsys.readouterr().out.splitlines() if row.startswith(f"{TRAILING} · South")]
+    assert len(whole) == 1 and whole[0].startswith(f"{TRAILING} · South⟨U+0020⟩ ") and whole[0].endswith("≈South")
+    assert main(["show", str(results), "--ledger", str(book), "--product", TRAILING]) == 0
+    rows = [row for row in capsys.readouterr().out.splitlines() if row.startswith(f"{TRAILING} · South")]
+    assert rows == whole
+
+
+def test_the_missing_note_names_a_look_alikes_ledger_spelling_as_such(cycle, capsys, tmp_path):
+    """Before: the note's example was the first signed series missing, here a look-alike's ledger spelling
+    ('apples 1 kg · North', said apart as 'north'), offered as if renamed.  Here every signed series missing is
+    one: said so; filtered to the trailing-space one, the same."""
+    folder, signed, results, count = cycle
+    book = own_copy(signed, tmp_path)
+    assert (TRAILING, "South") in {(h.current["series"]["product"], h.current["series"]["region"])
+                                   for h in ledger.Ledger(book).histories.values() if h.current["action"] == "accept"}
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book)]) == 0
+    assert (f"note: {count} signed series in {book} are not in these results (each present only under another "
+            "spelling: ") in capsys.readouterr().err
+    assert main(["show", str(results), "--ledger", str(book), "--product", TRAILING]) == 0
+    assert capsys.readouterr().err.splitlines() == [
+        f"pricefold show: {results}: note: 1 signed series in {book} is not in these results (present only under "
+        f"another spelling: {TRAILING} · South); renamed in the data? the new names read as new series, the "
+        "decisions stay under the old ones"]
+
+
+def test_a_look_alike_alone_in_its_list_is_told_apart_from_the_ledgers_spelling(tmp_path, capsys):
+    """Series keyed by product alone, ``South`` signed, the next cycle spelling it ``South ``: nothing else in the
+    list reads ``South``, so before, the list and the series in full showed plain ``South`` beside ``≈South``."""
+    with open(SAMPLE / "wholesale.csv", newline="") as src:
+        rows = [row for row in csv.DictReader(src) if row["product"] == TRAILING]
+    for name, spelled in (("first.csv", "South"), ("next.csv", "South ")):
+        with open(tmp_path / name, "w", newline="") as out:
+            write = csv.writer(out)
+            write.writerow(["product", "week", "price", "volume"])
+            for row in rows:
+                write.writerow([spelled if row["region"] == "South" else row["region"], row["week"], row["price"],
+                                row["volume"]])
+    book = tmp_path / "L.jsonl"
+    for name in ("first", "next"):
+        assert main(["fit", str(tmp_path / f"{name}.csv"), "--date", "week", "--plan-price", "2.5", "-o",
+                     str(tmp_path / f"{name}.json"), "-q"]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "first.json"), "--ledger", str(book), "-q"]) == 0
+    capsys.readouterr()
+    assert main(["show", str(tmp_path / "next.json"), "--ledger", str(book)]) == 0
+    listed = [row for row in capsys.readouterr().out.splitlines() if row.startswith("South")]
+    assert len(listed) == 1 and listed[0].startswith("South⟨U+0020⟩ ") and listed[0].endswith("≈South"), listed
+    assert main(["show", str(tmp_path / "next.json"), "--ledger", str(book), "--product", "South "]) == 0
+    out = capsys.readouterr().out
+    assert out.startswith("South⟨U+0020⟩ — ") and "  looks like South in " in out

@@ -167,6 +167,8 @@ def test_look_alikes_need_attention_and_have_a_filter_and_missing_signed_series_
     header = status_text(session, 300).plain
     assert f"Not in these results: {gone} signed series of ledger.jsonl (" in header
     assert missing_text(session).startswith(f"{gone} signed series in ledger.jsonl are not in these results (")
+    # each is a look-alike's ledger spelling: said so, as every command's note says it (before: a plain example)
+    assert "(each present only under another spelling: " in missing_text(session)
     # another analyst's accept of a series these results lack counts as the ledger grows; a hold signs nothing
     for action, more in (("accept", 1), ("hold", 0)):
         key = {"product": f"elsewhere {action}", "region": "East"}
@@ -175,6 +177,9 @@ def test_look_alikes_need_attention_and_have_a_filter_and_missing_signed_series_
         session.reload_ledger()
         gone += more
         assert f"Not in these results: {gone} signed series of ledger.jsonl (" in status_text(session, 300).plain
+    alike_count = len(respelled_in_ledger(ledger_path))  # the example now the one held in no spelling
+    assert (f"(elsewhere accept · East, …; {alike_count} of them present only under another spelling)"
+            in missing_text(session))
 
 
 async def test_a_look_alike_decided_meanwhile_is_refused_before_the_note_box(ledger_path, tmp_path):
