@@ -141,23 +141,29 @@ def _digest_beside(path: Path):
     return digest
 
 
-def read_rows(path: Path, columns: Columns, sep: str | None = None):
-    """``(RawRows, kind, delimiter)`` of ``path``: every data row's needed columns, unchecked."""
+def read_rows(path: Path, columns: Columns, sep: str | None = None, rows_are: str = "observation"):
+    """``(RawRows, kind, delimiter)`` of ``path``: every data row's needed columns, unchecked.  A file without
+    a row: "expected at least one ``rows_are``, found only a header" (Parquet: "found none")."""
     check_file(path)
     kind, _ = file_kind(path)
     if kind == "parquet":
         from .read_parquet import parquet_schema, read_parquet_rows
         schema = parquet_schema(path)  # a folder's files found once, for the check and the read
         check_columns(path, schema.names, columns)
-        return read_parquet_rows(path, columns, schema), kind, None
-    from .read_csv import read_csv_rows
-    check_text(path)
-    delimiter = delimiter_of(path, columns, sep)
-    header = split_header(header_line(path), delimiter)
-    if not [name for name in header if name.strip()]:
-        raise DataError("expected a header line naming the columns, found an empty first line", path=str(path), line=1)
-    check_columns(path, header, columns)
-    return read_csv_rows(path, columns, delimiter, header), kind, delimiter
+        rows, delimiter, found = read_parquet_rows(path, columns, schema), None, "none"
+    else:
+        from .read_csv import read_csv_rows
+        check_text(path)
+        delimiter = delimiter_of(path, columns, sep)
+        header = split_header(header_line(path), delimiter)
+        if not [name for name in header if name.strip()]:
+            raise DataError("expected a header line naming the columns, found an empty first line", path=str(path),
+                            line=1)
+        check_columns(path, header, columns)
+        rows, found = read_csv_rows(path, columns, delimiter, header), "only a header"
+    if rows.n_rows == 0:
+        raise DataError(f"expected at least one {rows_are}, found {found}", path=str(path))
+    return rows, kind, delimiter
 
 
 def delimiter_of(path: Path, columns: Columns, sep: str | None = None) -> str:

@@ -7,10 +7,9 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import DataError
 from .dataset import Dataset
 from .loader import Columns, read_rows
-from .plan_checks import checked_rows, unknown_key
+from .plan_checks import checked_rows, repeated_series, unknown_key
 
 PLAN_DATE = "plan_date"
 
@@ -49,15 +48,15 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
     dated = season and PLAN_DATE in present
     columns = Columns(product=keys[0], segments=tuple(keys[1:]), price="plan_price", volume="plan_price",
                       date=PLAN_DATE if dated else None, controls=given)
-    rows, kind, delimiter = read_rows(path, columns, sep)
+    rows, kind, delimiter = read_rows(path, columns, sep, rows_are="plan row")
     rows = checked_rows(rows, path, kind, delimiter, controls=given, date=PLAN_DATE if dated else None)
     price = rows.numbers["plan_price"][0]
     table = pd.DataFrame({name: np.asarray(rows.keys[name], dtype=object).astype(str) for name in keys})
     dup = table.duplicated().to_numpy()
     if dup.any():
         first = int(np.argmax(dup))
-        raise DataError("this series already has a plan price on an earlier line", path=str(path),
-                        line=int(rows.line[first]))
+        earlier = int(np.argmax((table == table.iloc[first]).all(axis=1).to_numpy()))
+        raise repeated_series(path, int(rows.line[first]), int(rows.line[earlier]), table.iloc[first].to_dict())
     series = pd.DataFrame({name: data.keys[name].astype(str) for name in keys})
     series["_s"] = np.arange(data.n_series)
     merged = table.merge(series, on=keys, how="left")

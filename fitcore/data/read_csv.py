@@ -1,13 +1,14 @@
 """CSV and TSV files (optionally gzip) as ``RawRows``: pyarrow's reader, or Python's csv line by line.
 
 pyarrow's multi-threaded reader takes the file when every row is one physical line
-(``textfile.rows_are_lines``; a blank line is a row of empty cells), so row i is line i + 2.  A cell
-that is not a number: the file is read by pyarrow again with the numbers as text.  A line with the wrong
-number of fields in a file without a quote: pyarrow reads the file's bytes without such lines, and each
-is the row the line-by-line reader makes of it (``_read_around``).  Any other file — a quoted line break,
-a wrong number of fields where a quote may join lines, a cell longer than pyarrow's block — is read again
-with Python's csv module, which names every row by the physical line it starts on.  Both skip a
-byte-order mark and read gzip by its magic bytes.
+(``textfile.rows_are_lines``; an empty line, or one of white space only, is a row of empty cells), so row
+i is line i + 2.  A cell that is not a number: the file is read by pyarrow again with the numbers as text.
+A line with the wrong number of fields in a file without a quote: pyarrow reads the file's bytes without
+such lines, and each is the row the line-by-line reader makes of it (``_read_around``).  Any other file —
+a quoted line break, a wrong number of fields where a quote may join lines, a cell longer than pyarrow's
+block — is read again with Python's csv module, which names every row by the physical line it starts on.
+Both skip a byte-order mark, read gzip by its magic bytes, and refuse a quote the last line opens and never
+closes (``textfile.check_last_line``: both would end the cell at the end of the file).
 """
 from __future__ import annotations
 
@@ -23,18 +24,14 @@ from .cells import (coerce_numbers, columns_of, csv_text_numbers, dates, give_ba
                     raw_from_columns)
 from .columns import Columns
 from .key_codes import KeyCodes
-from .textfile import (BLOCK, arrow_stream, check_quotes, compressed_trouble, file_bytes, holds, line_bounds, open_text,
-                       rows_are_lines)
+from .textfile import (BLOCK, arrow_stream, check_last_line, check_quotes, compressed_trouble, file_bytes, holds,
+                       line_bounds, open_text, rows_are_lines)
 
 
 def read_csv_rows(path: Path, columns: Columns, delimiter: str, header: list[str]):
-    """Every data row's needed columns, unchecked (``RawRows``)."""
+    """Every data row's needed columns, unchecked (``RawRows``; no row: the caller says so)."""
     rows = _read_fast(path, columns, delimiter, header)
-    if rows is None:
-        rows = _read_slow(path, columns, delimiter, header)
-    if rows.n_rows == 0:
-        raise DataError("expected at least one observation, found only a header", path=str(path))
-    return rows
+    return _read_slow(path, columns, delimiter, header) if rows is None else rows
 
 
 def _read_fast(path: Path, columns: Columns, delimiter: str, header: list[str]):
@@ -59,8 +56,10 @@ def _read_fast(path: Path, columns: Columns, delimiter: str, header: list[str]):
     if table is None:
         return _read_around(path, columns, delimiter, header, types, as_text) if _wrong_width(trouble) else None
     n_rows = table.num_rows
-    if not rows_are_lines(path, n_rows):
+    same, last = rows_are_lines(path, n_rows)
+    if not same:
         return None
+    check_last_line(path, n_rows + 1, len(header), delimiter, last)
     parts, table = columns_of(table, columns), None  # each column freed once converted
     return raw_from_columns(parts, columns, np.arange(2, n_rows + 2, dtype=np.int64),
                             number_cells=csv_text_numbers if as_text else None)
@@ -136,7 +135,8 @@ def _read_around(path: Path, columns: Columns, delimiter: str, header: list[str]
     if not len(wrong):
         return None
     n_rows = len(starts) - 1
-    broken = {int(i) - 1: f"expected {len(header)} fields, found {int(fields[i])}" for i in wrong}
+    broken = {int(i) - 1: f"expected {len(header)} fields, found {int(fields[i])}" for i in wrong
+              if not is_blank(view[starts[i]:ends[i]].tobytes())}  # a blank line: a row of empty cells
     view, fields, ends = None, None, None
     data = _without_lines(data, starts, wrong)
     starts = None
@@ -165,6 +165,12 @@ def _among_broken(rows, read: np.ndarray, line: np.ndarray, broken: dict):
                                            _spread(rows.date[1], read, False), _spread(rows.date[2], read, False))
     return RawRows(line=line, keys={name: _spread(values, read) for name, values in rows.keys.items()},
                    numbers=numbers, date=date, broken=broken)
+
+
+def is_blank(line: bytes | str) -> bool:
+    """Is ``line`` white space only?  Most CSV readers take such a line for an empty one, and so do both
+    readers here: a row of empty cells, not a line of the wrong number of fields."""
+    return not line.strip()
 
 
 def _field_counts(data: np.ndarray, starts: np.ndarray, delimiter: int) -> np.ndarray:
@@ -231,6 +237,8 @@ def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):
             for record in reader:
                 start, end = end + 1, reader.line_num
                 lines.append(start)
+                if len(record) != width and start == end and is_blank(delimiter.join(record)):
+                    record = []  # white space only: an empty line
                 if record and len(record) != width:
                     if end > start:  # a quote that swallowed lines: no row can be trusted after it
                         check_quotes(path, start, end, len(record), width, delimiter)
@@ -240,6 +248,8 @@ def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):
                     store.append(record[index] if record else None)
             if lines and (end > lines[-1] or len(lines) - 1 in broken):  # the last row: a quote never closed?
                 check_quotes(path, lines[-1], end, width, width, delimiter)
+            elif lines and record:  # one line: its last field may hold the open quote
+                check_last_line(path, lines[-1], width, delimiter)
     except csv.Error as exc:
         raise DataError(f"cannot split line {end + 1} into fields ({exc})", path=str(path)) from None
     except (OSError, EOFError, zlib.error) as exc:

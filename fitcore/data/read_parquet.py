@@ -31,8 +31,9 @@ def parquet_schema(path: Path) -> pa.Schema:
 
 
 def read_parquet_rows(path: Path, columns: Columns, schema=None):
-    """Every row's needed columns (``RawRows``).  Text keys and dates are read dictionary-encoded: the
-    reader decodes them straight into codes and a few distinct values, never millions of strings.
+    """Every row's needed columns (``RawRows``; no row: the caller says so).  Text keys and dates are read
+    dictionary-encoded: the reader decodes them straight into codes and a few distinct values, never millions
+    of strings.
     ``schema``: ``parquet_schema(path)`` when the caller has it already."""
     import pyarrow.parquet as pq
     schema = parquet_schema(path) if schema is None else schema
@@ -48,8 +49,6 @@ def read_parquet_rows(path: Path, columns: Columns, schema=None):
     except (pa.ArrowInvalid, OSError) as exc:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
     n_rows = table.num_rows
-    if n_rows == 0:
-        raise DataError("expected at least one observation, found none", path=str(path))
     parts, table = columns_of(table, columns), None  # each column freed once converted
     return raw_from_columns(parts, columns, np.arange(1, n_rows + 1, dtype=np.int64), path)
 

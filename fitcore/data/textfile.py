@@ -136,12 +136,7 @@ def check_quotes(path: Path, start: int, end: int, found: int, width: int, delim
     with open_text(path, errors="surrogateescape") as handle:
         text = "".join(itertools.islice(handle, start - 1, end))
     if start == end:
-        try:
-            list(csv.reader([text], delimiter=delimiter, strict=True))
-        except csv.Error as exc:
-            if "unexpected end of data" in str(exc):
-                raise DataError(f"a quote opens on this line, the last of the file, and is never closed; expected "
-                                f"{width} fields a row", path=str(path), line=start) from None
+        _check_last_line(path, start, text, width, delimiter)
         return
     if text.count('"') % 2:
         raise DataError(f"a quote opens on this line and is never closed: lines {start}-{end} (the end of the "
@@ -150,6 +145,49 @@ def check_quotes(path: Path, start: int, end: int, found: int, width: int, delim
         raise DataError(f"a quoted field opens on this line and runs to line {end}, making one row of "
                         f"{found} field{'s' * (found != 1)} (expected {width}); a closing quote is probably missing",
                         path=str(path), line=start)
+
+
+def check_last_line(path: Path, line: int, width: int, delimiter: str = ",", text: str | None = None) -> None:
+    """One line when the file's last physical line (``line``, one row; ``text``, when the caller has read it)
+    opens a quote it never closes.  Both readers end such a cell at the end of the file and keep the row: with
+    the right number of fields (the quote in the last one) nothing else would tell.  The line is read from the
+    file's end (a gzip file is read through)."""
+    text = last_line(path) if text is None else text
+    if '"' in text:
+        _check_last_line(path, line, text, width, delimiter)
+
+
+def _check_last_line(path: Path, line: int, text: str, width: int, delimiter: str) -> None:
+    try:
+        list(csv.reader([text], delimiter=delimiter, strict=True))
+    except csv.Error as exc:
+        if "unexpected end of data" in str(exc):
+            raise DataError(f"a quote opens on this line, the last of the file, and is never closed; expected "
+                            f"{width} fields a row", path=str(path), line=line) from None
+
+
+def last_line(path: Path) -> str:
+    """The file's last physical line with its line end (CRLF, CR or LF), decoded leniently."""
+    if is_gzip(path):
+        with gzip.open(path, "rb") as handle:
+            return _count_lines(iter(lambda: handle.read(BLOCK), b""), False)[1]
+    with open(path, "rb") as handle:
+        size = handle.seek(0, os.SEEK_END)
+        back = 1 << 16
+        while True:  # read back from the end until the line before the last one ends in what was read
+            handle.seek(max(0, size - back))
+            tail = handle.read()
+            if back >= size or _from_last_line(tail) != tail:
+                break
+            back *= 4
+    return _from_last_line(tail).decode("utf-8", "surrogateescape")
+
+
+def _from_last_line(data: bytes) -> bytes:
+    """``data`` from the start of its last line (a line end at the very end belongs to that line; only that line
+    is copied)."""
+    end = len(data) - (2 if data.endswith(b"\r\n") else 1 if data.endswith((b"\n", b"\r")) else 0)
+    return data[max(data.rfind(b"\n", 0, end), data.rfind(b"\r", 0, end)) + 1:]
 
 
 def split_header(text: str, delimiter: str) -> list[str]:
@@ -171,8 +209,10 @@ def sniff_delimiter(path: Path, wanted: list[str], preferred: str | None) -> str
     return max(order, key=lambda d: len(splits[d]))  # ties: the first in order
 
 
-def rows_are_lines(path: Path, n_rows: int) -> bool:
-    """Does each of ``n_rows`` data rows take exactly one physical line, so row i is on line i + 2?
+def rows_are_lines(path: Path, n_rows: int) -> tuple[bool, str | None]:
+    """Does each of ``n_rows`` data rows take exactly one physical line, so row i is on line i + 2?  And the
+    file's last physical line for ``check_last_line`` when it was read on the way (a gzip file), '' when the
+    file holds no quote (nothing to check), else None (read it from the file's end).
 
     Without a quote or a carriage return in the file it must (a line break can only hide in quotes, and
     pyarrow keeps a blank line as a row of empty cells, ``ignore_empty_lines=False``): one pass of searches
@@ -182,9 +222,10 @@ def rows_are_lines(path: Path, n_rows: int) -> bool:
     """
     if is_gzip(path):
         with gzip.open(path, "rb") as handle:
-            return _count_lines(iter(lambda: handle.read(BLOCK), b""), True) - 1 == n_rows
+            lines, last = _count_lines(iter(lambda: handle.read(BLOCK), b""), True)
+        return lines - 1 == n_rows, last
     if os.path.getsize(path) == 0:
-        return n_rows == 0
+        return n_rows == 0, None
     with open(path, "rb") as handle:
         returns = quotes = False
         buffer = bytearray(min(BLOCK, os.path.getsize(path)))
@@ -192,22 +233,30 @@ def rows_are_lines(path: Path, n_rows: int) -> bool:
             returns = buffer.find(b"\r", 0, size) >= 0  # then counted with CRs, whatever else is in the file
             quotes = quotes or buffer.find(b'"', 0, size) >= 0
         if not returns and not quotes:
-            return True
+            return True, ""
         handle.seek(0)
-        return _count_lines(iter(lambda: handle.read(BLOCK), b""), returns) - 1 == n_rows
+        return _count_lines(iter(lambda: handle.read(BLOCK), b""), returns)[0] - 1 == n_rows, None
 
 
-def _count_lines(blocks, returns: bool) -> int:
-    """Physical lines in a stream of byte blocks: line ends (CRLF counted once), plus an unended last line.
-    ``returns``: the stream may hold CR (else only LF is counted: one pass instead of three)."""
-    ends, last, carry = 0, b"", False  # carry: the previous block ended with CR
+def _count_lines(blocks, returns: bool) -> tuple[int, str]:
+    """Physical lines in a stream of byte blocks: line ends (CRLF counted once), plus an unended last line;
+    and the last line (``last_line``).  ``returns``: the stream may hold CR (else only LF is counted: one pass
+    instead of three)."""
+    ends, last, carry, tail = 0, b"", False, b""  # carry: the previous block ended with CR
     for block in blocks:
         if carry and block[:1] == b"\n":
             ends -= 1  # a CRLF split across blocks
         ends += block.count(b"\n") + (block.count(b"\r") - block.count(b"\r\n") if returns else 0)
         carry = block[-1:] == b"\r"
         last = block[-1:] or last
-    return ends + (0 if last in (b"\n", b"\r", b"") else 1)
+        start = _from_last_line(block)
+        if len(start) < len(block):  # the last line begins in this block
+            tail = start
+        elif tail.endswith(b"\n") or (tail.endswith(b"\r") and block[:1] != b"\n"):  # ... at its start
+            tail = block
+        else:  # ... in an earlier block
+            tail += block
+    return ends + (0 if last in (b"\n", b"\r", b"") else 1), tail.decode("utf-8", "surrogateescape")
 
 
 def file_bytes(path: Path):

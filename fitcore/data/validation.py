@@ -1,8 +1,8 @@
 """Row-level validation: why each row cannot be used, or that it can (pure; no file access).
 
-A row is rejected — never silently dropped — when the line is empty or has
-the wrong number of fields, a key is empty, price or volume is missing,
-non-numeric, NaN or infinite, negative, or beyond ±1e15 (``LARGEST``; controls
+A row is rejected — never silently dropped — when the line is empty (or white
+space only: the readers give it no cells) or has the wrong number of fields, a
+key is empty, price or volume is missing, non-numeric, NaN or infinite, negative, or beyond ±1e15 (``LARGEST``; controls
 too), the weight is missing, non-numeric
 or negative, the date does not parse or lies outside the dates datetime64[ns]
 holds (1677-09-22 to 2262-04-11), or the row repeats the series and date of an

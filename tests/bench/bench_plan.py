@@ -2,8 +2,10 @@
 a plan line for each, in shuffled order, with a control column (``read_plan``; the data built in memory).
 
     .venv/bin/python tests/bench/bench_plan.py [--series 100000] [--regions 4] [--repeats 7] [--against OTHER_TREE]
+                                              [--form plain|gzip|quoted|blank-lines]
 
-Prints the median CPU and wall time of ``read_plan`` (pandas imported beforehand, as a fit has by then).
+``--form``: the file gzipped, its products quoted (so its line ends are counted), or an empty line after every
+100th line.  Prints the median CPU and wall time of ``read_plan`` (pandas imported beforehand, as a fit has by then).
 ``--against TREE``: each repeat also runs TREE's ``fitcore`` on the same files, interleaved (this tree, then
 TREE, in one subprocess each), and the ratio of the medians is printed.  Give the load average with it.
 """
@@ -40,14 +42,18 @@ print(cpu, wall)
 """
 
 
-def write_plan(path: Path, n: int, regions: tuple[str, ...]) -> None:
+def write_plan(path: Path, n: int, regions: tuple[str, ...], form: str = "plain") -> None:
+    import gzip
+
     import numpy as np
     rng = np.random.default_rng(0)
     order = rng.permutation(n)
-    with open(path, "w", encoding="utf-8") as handle:
+    quote = '"' if form == "quoted" else ""
+    with (gzip.open if form == "gzip" else open)(path, "wt", encoding="utf-8") as handle:
         handle.write("product,region,plan_price,promo\n")
-        for s in order.tolist():
-            handle.write(f"item-{s // len(regions)},{regions[s % len(regions)]},{1 + (s % 97) / 50:.2f},{s % 2}\n")
+        for i, s in enumerate(order.tolist()):
+            handle.write(f"{quote}item-{s // len(regions)}{quote},{regions[s % len(regions)]},{1 + (s % 97) / 50:.2f},"
+                         f"{s % 2}\n" + ("\n" if form == "blank-lines" and i % 100 == 99 else ""))
 
 
 def one_run(tree: Path, n: int, plan: Path, regions: tuple[str, ...]) -> tuple[float, float]:
@@ -64,17 +70,19 @@ def main() -> None:
     parser.add_argument("--regions", type=int, default=4, choices=range(1, len(ALL_REGIONS) + 1))
     parser.add_argument("--repeats", type=int, default=7)
     parser.add_argument("--against", type=Path)
+    parser.add_argument("--form", choices=("plain", "gzip", "quoted", "blank-lines"), default="plain")
     args = parser.parse_args()
     regions = ALL_REGIONS[:args.regions]
     trees = {"this": HERE} | ({"other": args.against.resolve()} if args.against else {})
     with tempfile.TemporaryDirectory() as folder:
-        plan = Path(folder) / "plan.csv"
-        write_plan(plan, args.series, regions)
+        plan = Path(folder) / ("plan.csv.gz" if args.form == "gzip" else "plan.csv")
+        write_plan(plan, args.series, regions, args.form)
         times = {name: [] for name in trees}
         for _ in range(args.repeats):
             for name, tree in trees.items():
                 times[name].append(one_run(tree, args.series, plan, regions))
-    print(f"read_plan, {args.series:,} plan lines, {args.series // len(regions):,} products; load average {os.getloadavg()[0]:.2f}")
+    print(f"read_plan, {args.series:,} plan lines ({args.form}), {args.series // len(regions):,} products; "
+          f"load average {os.getloadavg()[0]:.2f}")
     medians = {}
     for name, pairs in times.items():
         cpu = statistics.median(p[0] for p in pairs)

@@ -22,7 +22,8 @@ def test_a_plan_key_no_series_has(tmp_path, capsys):
     plan.write_text('product,region,plan_price\n"nosuch\u202eevil\n2",East,2.0\n', encoding="utf-8")
     err = fit_line(tmp_path, capsys, str(SAMPLE / "wholesale.csv"), "--segment", "region", "--plan", str(plan))
     assert err.endswith("line 2, column 'product': no series in the data has this key "
-                        "(product='nosuch⟨U+202E⟩evil␊2', region='East')"), err
+                        "(product='nosuch⟨U+202E⟩evil␊2', region='East'); its product holds a line break (a quote "
+                        "that closes on a later line than it opens)"), err
 
 
 def test_a_plan_price_cell_and_a_missing_column(tmp_path, capsys):

@@ -93,7 +93,7 @@ def test_empty_lines_are_passed_over(tmp_path, data):
     """As the data loader reads an empty line (a row with nothing in it, rejected, never an error), a plan's
     empty lines carry no plan and stop nothing.  Before: 'line 3, column 'plan_price': expected a price'."""
     path = tmp_path / "plan.csv"
-    path.write_text(HEADER + "apples,North,2.0,0\n\n,,,\napples,South,3.0,\n\n\n", encoding="utf-8")
+    path.write_text(HEADER + "apples,North,2.0,0\n\n  \napples,South,3.0,\n\n\n", encoding="utf-8")
     assert priced(data, read_plan(data, path, controls=("promo",))) == {("apples", "North"): 2.0,
                                                                         ("apples", "South"): 3.0}
     path.write_text(HEADER + "\n\n", encoding="utf-8")
@@ -157,3 +157,148 @@ def test_a_plan_date_that_cannot_be_used_is_quoted(tmp_path, data, cell):
     error = refused(data, path, season=True)
     assert (error.line, error.column) == (2, "plan_date")
     assert str(error).endswith(f"expected an ISO date (or an empty cell for the default), found '{cell}'")
+
+
+def test_a_line_of_empty_cells_is_an_empty_key_not_an_empty_line(tmp_path, data):
+    """',,,' has four cells, each empty: unlike an empty line it is a row, and its key is missing.
+    Before: passed over silently."""
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + "apples,North,2.0,0\n\n,,,\napples,South,3.0,0\n", encoding="utf-8")
+    error = refused(data, path, controls=("promo",))
+    assert (error.line, error.column) == (4, "product")
+    assert str(error) == (f"{path}, line 4, column 'product': expected a key value, found an empty cell "
+                          "(every cell of this line is empty)")
+
+
+def test_a_parquet_row_of_empty_cells_is_an_empty_key(tmp_path, data):
+    path = tmp_path / "plan.parquet"
+    pq.write_table(pa.table({"product": ["apples", None], "region": ["North", None],
+                             "plan_price": pa.array([2.0, None], pa.float64())}), path)
+    error = refused(data, path)
+    assert (error.line, error.column) == (2, "product") and "every cell of this line is empty" in str(error)
+
+
+@pytest.mark.parametrize("blank", ["   ", "\t", " \t  "])
+@pytest.mark.parametrize("quoted", [False, True])  # a quote in the file sends it to the line-by-line reader
+def test_a_line_of_white_space_only_is_an_empty_line(tmp_path, data, blank, quoted):
+    """As most CSV readers take it, and as the plan takes an empty line: passed over.  Before: 'expected 4
+    fields, found 1'."""
+    path = tmp_path / "plan.csv"
+    first = '"apples",North,2.0,0' if quoted else "apples,North,2.0,0"
+    path.write_text(HEADER + f"{first}\n{blank}\napples,South,3.0,0\n{blank}\n", encoding="utf-8")
+    assert priced(data, read_plan(data, path)) == {("apples", "North"): 2.0, ("apples", "South"): 3.0}
+
+
+@pytest.mark.parametrize("quoted", [False, True])
+def test_a_line_of_white_space_only_in_the_data_is_an_empty_line(tmp_path, quoted):
+    """The data loader reads it as the plan does: an empty line, rejected and counted as one."""
+    from fitcore.data.loader import load_with_rejects
+    path = tmp_path / "data.csv"
+    first = '"a",1,5' if quoted else "a,1,5"
+    path.write_text(f"product,price,volume\n{first}\n   \na,2,4\n", encoding="utf-8")
+    data, rejects = load_with_rejects(path)
+    assert data.n_series == 1 and rejects.lines.tolist() == [3] and rejects.reasons == ["empty line"]
+
+
+def test_a_series_given_twice_names_both_lines(tmp_path, data):
+    """Before: 'line 5: this series already has a plan price on an earlier line' — which one, unsaid."""
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + "apples,North,2.0,0\nNA,North,2.0,0\nNA,South,2.0,0\nNA,North,3.0,0\n",
+                    encoding="utf-8")
+    error = refused(data, path)
+    assert (error.line, error.column) == (5, None)
+    assert str(error) == (f"{path}, line 5: expected one plan line per series, found a second for "
+                          "product='NA', region='North' (the first is on line 3)")
+
+
+def test_a_key_with_a_line_break_says_so(tmp_path, data):
+    """A quote that closes on the next line puts a line break in the key.  The data may hold such a key
+    (their reader keeps it, as this one does), so it is matched exactly; one no series has is said to hold
+    a line break.  Before: only 'no series in the data has this key (product='NA␊', …)'."""
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + 'apples,North,2.0,0\n"NA\n",South,2.0,0\n', encoding="utf-8")
+    error = refused(data, path)
+    assert (error.line, error.column) == (3, "product")
+    assert str(error).endswith("no series in the data has this key (product='NA␊', region='South'); its product "
+                               "holds a line break (a quote that closes on a later line than it opens); "
+                               "did you mean 'NA'?")
+
+
+def test_a_key_with_a_line_break_that_the_data_has_is_matched(tmp_path):
+    data = from_columns({"product": np.array(["a\nb"] * 3 + ["a"] * 3, dtype=object)},
+                        np.tile([1.0, 2.0, 3.0], 2), np.tile([9.0, 7.0, 4.0], 2))
+    path = tmp_path / "plan.csv"
+    path.write_text('product,plan_price\n"a\nb",2.5\na,3.5\n', encoding="utf-8")
+    plan = read_plan(data, path)
+    assert {data.keys["product"][s]: float(plan.price[s]) for s in range(2)} == {"a\nb": 2.5, "a": 3.5}
+
+
+@pytest.mark.parametrize("end", ["\n", "", "\r\n"])
+@pytest.mark.parametrize("gzipped", [False, True])
+@pytest.mark.parametrize("other", ["", "NA,North,2,0,extra\n"])  # a wrong line sends it line by line
+def test_a_quote_never_closed_in_the_last_field_of_the_last_line(tmp_path, data, end, gzipped, other):
+    """The last line has its four fields (the open quote in the last one): before, read as '0' and accepted,
+    by either reader.  The file cannot be read past it, so it is said before any row's fault."""
+    import gzip
+    path = tmp_path / ("plan.csv.gz" if gzipped else "plan.csv")
+    text = (HEADER + other + "apples,North,2.0,0\n" + 'apples,South,2.0,"0' + end).encode()
+    path.write_bytes(gzip.compress(text) if gzipped else text)
+    line = 4 if other else 3
+    assert str(refused(data, path)).endswith(f"line {line}: a quote opens on this line, the last of the file, and "
+                                             "is never closed; expected 4 fields a row")
+
+
+def test_a_last_line_whose_quotes_close_is_read(tmp_path, data):
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + 'apples,North,2.0,0\napples,South,2.0,"0"', encoding="utf-8")
+    assert priced(data, read_plan(data, path)) == {("apples", "North"): 2.0, ("apples", "South"): 2.0}
+
+
+@pytest.mark.parametrize("cell", ["1e16", "-2e15", "1.0000001e15"])
+def test_a_control_beyond_what_the_fit_carries_is_refused(tmp_path, data, cell):
+    """The data loader rejects a control beyond ±1e15 (``validation.LARGEST``); the plan accepted it."""
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + f"apples,North,2.0,0\napples,South,2.0,{cell}\n", encoding="utf-8")
+    error = refused(data, path, controls=("promo",))
+    assert (error.line, error.column) == (3, "promo")
+    assert str(error).endswith(f"expected a number within ±1e15 (or an empty cell for the default), found '{cell}'")
+    path.write_text(HEADER + "apples,North,2.0,1e15\napples,South,2.0,-1e15\n", encoding="utf-8")
+    assert read_plan(data, path, controls=("promo",)).controls["promo"].tolist().count(1e15) == 1
+
+
+@pytest.mark.parametrize("cell", ["inf", "-Infinity", "+INF", "nan", "NaN", "-nan", " nAn ", "1e400"])
+def test_a_control_that_is_not_finite_is_refused_however_spelled(tmp_path, data, cell):
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + f"apples,North,2.0,{cell}\n", encoding="utf-8")
+    error = refused(data, path, controls=("promo",))
+    assert error.column == "promo" and "expected a number" in str(error)
+
+
+def test_a_parquet_control_that_is_not_finite_or_too_large_is_refused(tmp_path, data):
+    path = tmp_path / "plan.parquet"
+    for value in (float("nan"), float("inf"), 2e15):
+        pq.write_table(pa.table({"product": ["apples"], "region": ["North"], "plan_price": [2.0],
+                                 "promo": [value]}), path)
+        assert refused(data, path, controls=("promo",)).column == "promo"
+
+
+def test_a_plan_price_beyond_what_the_fit_carries_is_refused(tmp_path, data):
+    path = tmp_path / "plan.csv"
+    path.write_text(HEADER + "apples,North,1e16,0\n", encoding="utf-8")
+    error = refused(data, path)
+    assert error.column == "plan_price" and str(error).endswith("expected a price of at most 1e15, found '1e16'")
+
+
+@pytest.mark.parametrize("kind", ["csv", "parquet"])
+def test_a_plan_of_a_header_only_says_it_has_no_rows(tmp_path, data, kind):
+    """Before: 'expected at least one observation, found only a header' (Parquet: 'found none'): the data's
+    words."""
+    if kind == "parquet":
+        path = tmp_path / "plan.parquet"
+        pq.write_table(pa.table({"product": pa.array([], pa.string()), "region": pa.array([], pa.string()),
+                                 "plan_price": pa.array([], pa.float64())}), path)
+    else:
+        path = tmp_path / "plan.csv"
+        path.write_text(HEADER, encoding="utf-8")
+    found = "none" if kind == "parquet" else "only a header"
+    assert str(refused(data, path)) == f"{path}: expected at least one plan row, found {found}"

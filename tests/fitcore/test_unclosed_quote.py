@@ -102,3 +102,26 @@ def test_a_lone_quote_inside_a_field_on_the_last_line_is_text(tmp_path):
     path.write_text("\n".join([HEADER, *good_rows("a", "N", 5), 'a 5" box,N,2025-03-01,2,3']) + "\n")
     _, rejects = load_with_rejects(path, COLUMNS)
     assert rejects.lines.tolist() == [7] and rejects.reasons == ["expected 6 fields, found 5"]
+
+
+def test_the_last_line_is_found_as_the_csv_module_iterates_lines(tmp_path):
+    """``last_line`` (read back from a plain file's end, or through a gzip file's blocks in the line count's pass)
+    against the reference: the last line ``io.TextIOWrapper(newline="")`` yields, as Python's csv module reads
+    lines (CRLF, CR or LF).  Random short texts cut into random blocks; and files past the first read-back."""
+    import io
+    import random
+
+    from fitcore.data.textfile import _count_lines, last_line
+    rng = random.Random(7)
+    for _ in range(3000):
+        data = bytes(rng.choice(b'ab"\r\n') for _ in range(rng.randint(0, 12)))
+        cuts = sorted(rng.sample(range(len(data) + 1), k=min(len(data) + 1, rng.randint(0, 4))))
+        blocks = [data[i:j] for i, j in zip([0, *cuts], [*cuts, len(data)]) if data[i:j]]
+        lines = list(io.TextIOWrapper(io.BytesIO(data), encoding="latin-1", newline=""))
+        assert _count_lines(iter(blocks), True) == (len(lines), lines[-1] if lines else "")
+    for size in (10, 70_000, 300_000):  # the read-back begins with 64 KiB
+        for end in ("", "\n", "\r\n", "\r"):
+            data = ("x" * size + "\r\n" + "y" * size + end).encode()
+            for path, raw in ((tmp_path / "f.csv", data), (tmp_path / "f.csv.gz", gzip.compress(data))):
+                path.write_bytes(raw)
+                assert last_line(path) == "y" * size + end

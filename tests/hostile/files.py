@@ -162,6 +162,8 @@ TEXT: dict[str, bytes] = {
     "plan_bom": b"\xef\xbb\xbfproduct,plan_price\nitem 0,2.0\n",
     "plan_semicolon": b"product;plan_price\nitem 0;2.0\n",
     "plan_empty": b"",
+    "plan_header_only": b"product,plan_price\n",
+    "plan_blank_cells": b"product,plan_price\nitem 0,2.0\n,\n",
     "toml_seed": b"[fit]\nseed = 1\n",
     "toml_segments_int": b"[columns]\nsegments = [1]\n",
     "toml_segments_text": b'[columns]\nsegments = "region"\n',
