@@ -40,15 +40,20 @@ class KeyTable:
         return [get(tuple([str(key[name]) for name in names]), -1) if key.keys() == columns else -1 for key in keys]
 
 
+def fingerprint_reader(data, count: int):
+    """Series index → its fingerprint in ``data``, for ``count`` series: from the whole column at once where many
+    are asked (one call a series costs), else one by one."""
+    if count > 64:
+        from fitcore.arrays import objects
+        prints = data.fingerprints
+        return (np.array(prints, dtype=object) if isinstance(prints, list) else objects(prints)).__getitem__
+    return data.fingerprint_of
+
+
 def set_statuses(status: np.ndarray, codes: np.ndarray, changed: dict[int, str], histories: dict, data) -> None:
     """``status`` and ``codes`` (index into ``STATUSES``) of the series ``changed`` (index → series id) from
     their ``histories``; ``data``: the results' dataset (each series' fingerprint: stale or not)."""
-    if len(changed) > 64:
-        from fitcore.arrays import objects
-        prints = data.fingerprints
-        fingerprint = (np.array(prints, dtype=object) if isinstance(prints, list) else objects(prints)).__getitem__
-    else:
-        fingerprint = data.fingerprint_of
+    fingerprint = fingerprint_reader(data, len(changed))
     words = [history.status(fingerprint(s)) if (history := histories.get(sid)) is not None and history.standing
              else "pending" for s, sid in changed.items()]
     at = np.fromiter(changed, dtype=np.int64, count=len(changed))

@@ -47,7 +47,8 @@ class SearchHit:
 
 class ListState:
     """The list part of a triage session.  Uses the session's ``results``, ``diagnosis``, ``keys``,
-    ``status_code``, ``_flagged`` and ``spellings``; ``_init_list`` must run before the first ``rebuild_view``."""
+    ``status_code``, ``_flagged``, ``accepted_other_mask`` and ``spellings``; ``_init_list`` must run before the
+    first ``rebuild_view``."""
 
     def _init_list(self, n_series: int) -> None:
         self.filter, self.sort, self.flag_filter = "attention", "attention", None
@@ -77,8 +78,10 @@ class ListState:
 
     def needs_attention(self) -> np.ndarray:
         """(S,) undecided, and flagged or a look-alike (``≈``: a decision on it records a new series beside a
-        ledger series these results do not hold; look-alikes are new to the ledger, so undecided)."""
-        return (self._flagged | self.spellings.marked) & self.undecided
+        ledger series these results do not hold; look-alikes are new to the ledger, so undecided); or accepted
+        as a model these results do not propose (``accepted_other``: an accept made on another fit of the same
+        data), which needs a look until this proposal is accepted in its place or another decision stands."""
+        return ((self._flagged | self.spellings.marked) & self.undecided) | self.accepted_other_mask
 
     def status_mask(self, name: str) -> np.ndarray:
         if name == "attention":

@@ -81,6 +81,7 @@ class TriageSession(Deciding, Standing, ListState):
                                  "decisions cannot be recorded")
         self.status = np.array(["pending"] * data.n_series, dtype=object)
         self.status_code = np.zeros(data.n_series, dtype=np.int8)  # index into STATUSES, for fast masks and counts
+        self.accepted_other_mask = np.zeros(data.n_series, dtype=bool)  # (S,) ``accepted_other``, for the list
         self._with_backtest(results, diagnosis)
         self.shown: Shown | None = None
         self.news: dict | None = None  # the latest record by someone else on the highlighted series, while it stays
@@ -112,7 +113,7 @@ class TriageSession(Deciding, Standing, ListState):
         """Statuses for the records the ledger holds that this session has not applied yet."""
         if self.book.generation != self._generation:  # the file was read again from the start
             self._applied, self._generation, force = 0, self.book.generation, True
-            self.status[:], self.status_code[:] = "pending", 0
+            self.status[:], self.status_code[:], self.accepted_other_mask[:] = "pending", 0, False
             self.key_columns.reset()
             self.spellings.reset()
             self.missing_signed.clear()
@@ -131,6 +132,7 @@ class TriageSession(Deciding, Standing, ListState):
         changed = {self._known[sid]: sid for sid in touched if self._known[sid] >= 0}
         self.spellings.see(changed, [touched[sid] for sid, at in zip(unknown, found) if at < 0])
         set_statuses(self.status, self.status_code, changed, self.histories, self.results.data)
+        self.mark_accepted_other(changed)
         changed = set(changed)
         current = self.current
         if current is not None and records and self.shown is not None:  # not what was there before the screen opened
@@ -193,6 +195,7 @@ class TriageSession(Deciding, Standing, ListState):
         inverse = np.empty_like(perm)
         inverse[perm] = np.arange(len(perm))
         self.status, self.status_code = self.status[inverse], self.status_code[inverse]
+        self.accepted_other_mask = self.accepted_other_mask[inverse]
         self.view = perm[self.view]
         if self.pinned is not None:
             self.pinned = int(perm[self.pinned])
@@ -204,6 +207,8 @@ class TriageSession(Deciding, Standing, ListState):
                            (self.histories[sid].latest["series"] for sid, at in self._known.items()
                             if at < 0 and sid in self.histories))
         self.results, self.first_fit, self._first_rows = results, None, {}
+        # these results' proposals, asked again of every series the ledger names (in the fit's order)
+        self.mark_accepted_other({at: sid for sid, at in self._known.items() if at >= 0})
         self._with_backtest(results, diagnosis)
         # Records another analyst made meanwhile may take the highlighted series out of the list: as on any
         # reload the analyst did not ask for, it stays listed and decision keys wait until they move.

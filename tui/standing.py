@@ -1,8 +1,8 @@
 """What stands on each series of a triage session: the ledger's decision, the model it made stand, and what a
 signed series whose data changed is due (no widget).
 
-A mixin of ``TriageSession``, which gives it ``results``, ``keys``, ``status``, ``histories``, ``backtest``,
-``_id``, ``result_flags`` and ``last_date``.
+A mixin of ``TriageSession``, which gives it ``results``, ``keys``, ``status``, ``status_code``, ``histories``,
+``backtest``, ``_id``, ``result_flags``, ``last_date`` and ``accepted_other_mask`` (kept by ``mark_accepted_other``).
 """
 from __future__ import annotations
 
@@ -13,6 +13,7 @@ import numpy as np
 from fitcore.ledger.rules import NEWER_DUE, decided_on_newer
 from fitcore.review.flags import SEVERITY
 
+from .ledger_series import CODE, fingerprint_reader
 from .text import clean
 
 
@@ -92,11 +93,28 @@ class Standing:
         None: the screen says so, since the flags and the proposal's words are these results' own."""
         if self.status[s] != "accepted":
             return None
-        name, chosen = self._standing_name(s), int(self.results.chosen[s])
+        return self._not_proposed(s, self._standing_name(s))
+
+    def _not_proposed(self, s: int, name: str | None) -> str | None:
+        """These results' proposal for series ``s`` ("nothing" where they propose none) when the accepted model
+        ``name`` is not it; None when it is (or no accept stands)."""
+        chosen = int(self.results.chosen[s])
         proposal = self.results.names[chosen] if chosen >= 0 else None
         if name is None or name == proposal:
             return None
         return proposal or "nothing"
+
+    def mark_accepted_other(self, changed: dict[int, str]) -> None:
+        """``accepted_other_mask`` for the series ``changed`` (index → series id), whose statuses (or results) just
+        changed: the list's "needs attention" takes in an accept of a model these results do not propose.  Only
+        the accepted series are asked, their fingerprints read as ``set_statuses`` reads them."""
+        at = np.fromiter(changed, dtype=np.int64, count=len(changed))
+        self.accepted_other_mask[at] = False
+        accepted = at[self.status_code[at] == CODE["accepted"]].tolist()
+        fingerprint = fingerprint_reader(self.results.data, len(accepted))
+        for s in accepted:
+            name = self.histories[changed[s]].standing_model(fingerprint(s))
+            self.accepted_other_mask[s] = self._not_proposed(s, name) is not None
 
     def standing_absent(self, s: int) -> str | None:
         """The model an accept or override on these data made stand for series ``s``, where these results did

@@ -84,3 +84,38 @@ async def test_the_override_dialog_says_the_accept_that_stands(other_fit):
         at = next(i for i, line in enumerate(lines) if re.search(r"[✓↺ ] poly1 ", line))
         assert re.search(r"✓ poly1 ", lines[at]) and "↺" not in "\n".join(lines), lines[at]
         assert "accepted, stands now" in lines[at + 1], lines[at + 1]
+
+
+async def test_an_accept_of_another_fits_proposal_needs_attention(other_fit, tmp_path):
+    """The "needs attention" list (the default) left out a series accepted as another fit's proposal: accepted,
+    so not undecided, it showed under "all series" only, though its signed model is not what these results
+    propose (flagged or not).  It needs attention until these results' proposal is accepted in its place."""
+    from fitcore import ledger
+    from tests.tui.conftest import started, until
+    book, results, key, proposal = other_fit
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    app = make_app(copy, source_from_results(results))
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        others = [s for s in range(session.results.n_series) if session.accepted_other(s) is not None]
+        unflagged = [s for s in others if not session.diagnosis.raised[s].any()]
+        # the sample's seed-1 fit moves a few accepted series, not all of them flagged
+        assert len(others) >= 2 and unflagged, (others, unflagged)
+        attention = session.needs_attention()
+        accepted = {int(i) for i in (session.status == "accepted").nonzero()[0]}
+        assert {int(i) for i in attention.nonzero()[0]} & accepted == set(others)  # these, and no other accept
+        assert set(others) <= {int(s) for s in session.view}  # listed by the default filter
+        assert f"{int(attention.sum())} listed (needs attention" in screen_text(app)
+        s = next(i for i in others if session.results.data.key_of(i) == key)
+        session.cursor = int((session.view == s).nonzero()[0][0])
+        app.screen.refresh_all()
+        await pilot.pause()
+        await pilot.press("a")
+        await pilot.pause(0.3)
+        for key_pressed in "seed 1 bends":
+            await pilot.press("space" if key_pressed == " " else key_pressed)
+        await pilot.press("enter")
+        await until(pilot, lambda: ledger.Ledger(copy).records[-1]["model"] == proposal)
+        assert session.accepted_other(s) is None and not session.needs_attention()[s]
+        assert int(session.needs_attention().sum()) == int(attention.sum()) - 1

@@ -2,13 +2,10 @@
 
 Every decision key acts on the series the screen shows (``session.shown``, set whenever the
 cursor lands on a series or the screen redraws it), never on a list position, and goes through
-``TriageSession.decide``.
+``TriageSession.decide``; the dialogs a decision passes on the way are ``DecisionFlow``'s (decision_flow.py).
 """
 from __future__ import annotations
 
-import math
-
-from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -18,7 +15,6 @@ from textual.widgets import Static
 
 from fitcore.errors import PricefoldError
 from fitcore.review.flags import CODES
-from fitcore.review.sentences import fmt, money
 
 from ..help import help_text
 from ..session import (
@@ -27,16 +23,15 @@ from ..session import (
     KEEP,
     SORT_TITLES,
     SORTS,
-    Shown,
     TriageSession,
     describe,
 )
 from ..text import clean, printable
-from ..widgets.evidence import EvidencePanel, predicts
+from ..widgets.evidence import EvidencePanel
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import (ALIKE_DECIDES, alike_words, keys_lead, keys_text, missing_text, spellings_text,
-                                   status_text)
+from ..widgets.status_line import keys_text, missing_text, spellings_text, status_text
+from .decision_flow import DecisionFlow
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
@@ -45,10 +40,9 @@ NARROW = 110  # below this many columns, show the list or the evidence, not both
 # pane with room to spare)
 EVIDENCE_LEAST, LIST_ROOM = 52, 70
 POLL_SECONDS = 2.0
-TOLD = {"accept": "Accepted", "override": "Overrode", "hold": "Held", "note": "Noted", "revoke": "Revoked"}
 
 
-class TriageScreen(Screen):
+class TriageScreen(DecisionFlow, Screen):
     BINDINGS = [
         Binding("a", "accept", "accept"),
         Binding("o", "override", "override"),
@@ -206,60 +200,7 @@ class TriageScreen(Screen):
             return results.controls is not None
         return True
 
-    # -- decisions ---------------------------------------------------------------------------
-    def decide(self, shown: Shown, action: str, model: str | None = None, note: str = "") -> None:
-        """Record ``action`` on the series ``shown`` showed; say what happened, and move on after a decision."""
-        try:
-            self.session.decide(shown, action, model=model, note=note)
-        except PricefoldError as exc:  # refused by the screen or by the ledger's rules, or not written
-            self.not_recorded(shown, exc, note)
-            return
-        self._unsaid.pop(shown.sid, None)
-        s = self.session.index_of(shown)
-        what = f" {model}" if action == "override" else ""
-        self.notify(f"{TOLD[action]}{what}: {self.session.label(s)}", markup=False, timeout=3)
-        if action in ("accept", "override", "hold"):
-            self.session.after_decision(s)
-        else:
-            self.session.bring(s)
-        self.refresh_all()
-
-    def not_recorded(self, shown: Shown, exc: PricefoldError, note: str = "") -> None:
-        """Say why a decision was refused (keeping a typed note for the next note box), and show the series as the
-        ledger has it now."""
-        kept = ""
-        if note:  # typed for nothing otherwise: the next note box on this series starts with it
-            self._unsaid[shown.sid] = note
-            kept = ("\n\nYour note is kept: the next note box on this series starts with it."
-                    if self.session.writable else  # no note box will open: the note itself, to copy
-                    f"\n\nNothing can be recorded now; your note was: {clean(note)}")
-        self.app.push_screen(MessageDialog(Text(f"Not recorded: {printable(str(exc))}{kept}", style="bold")))
-        self.refresh_all()
-
-    def ask(self, title: str, placeholder: str, required: bool, then, about: Text | None = None) -> None:
-        """A note dialog (holding the note the ledger last refused on this series); ``then(note)`` unless
-        cancelled.  ``about``: what the note is about, shown above the box."""
-        shown = self.session.shown
-        value = self._unsaid.get(shown.sid, "") if shown is not None else ""
-        self.app.push_screen(TextDialog(title, placeholder, required=required, value=value, about=about),
-                             lambda note: None if note is None else then(note))
-
-    def signing_text(self, shown: Shown) -> Text:
-        """What an accept signs, in numbers: the proposal at the plan price (volume, interval, elasticity where
-        it means something), so a note past a stop flag is written with the figure in view."""
-        results = self.session.results
-        s = self.session.index_of(shown)
-        c = int(results.chosen[s])
-        plan, lo, hi = float(results.plan_price[s]), float(results.price_lo[s]), float(results.price_hi[s])
-        unit = self.session.units.get("volume")
-        if not math.isfinite(plan):
-            said = f"No plan price: {results.names[c]} is signed as fitted (prices {money(lo)}–{money(hi)} observed)."
-        else:
-            where = "" if lo <= plan <= hi else f", outside the prices observed ({money(lo)}–{money(hi)})"
-            said = (f"At the plan price {money(plan)}{where}, "
-                    + predicts(results, s, c, lambda v: f"{fmt(v)} {unit}" if unit else fmt(v)) + ".")
-        return Text(said, style="#ff875f" if math.isfinite(plan) and results.plan_volume[s, c] <= 0 else "")
-
+    # -- decision keys (the dialogs and the ledger: ``DecisionFlow``) -------------------------
     def still_reading(self, action: str) -> bool:
         """A sign-off records the curve's interval parts, which a results file brings in behind the list:
         until they are in, accept and override wait (and say so), then act if the same series is still shown."""
@@ -297,92 +238,28 @@ class TriageScreen(Screen):
                         f"({why}); press the key again.",
                         severity="warning", timeout=8, markup=False)
 
-    def new_key_set(self, action: str, then) -> None:
-        """``then()`` — at once, or after a dialog where a decision on the series shown would start something new
-        in the ledger and the analyst has not confirmed it yet: the results name none of the ledger's series (by
-        other key columns, or other values of the same ones; asked once a session), or this series looks like one
-        of the ledger's under another spelling (asked once a series).  The dialog says why and what a decision
-        records; "No" (the default) or Esc cancels: nothing is written.  "Yes" reads the ledger again first: a decision
-        it would refuse (``action`` on a series someone else decided meanwhile) is refused then, before a note box."""
-        said = self.session.key_columns.unconfirmed
-        shown = self.session.shown
-        s = self.session.index_of(shown) if shown is not None else -1
-        alikes = self.session.spellings.unconfirmed(s) if s >= 0 else frozenset()
-        if said is None and not alikes:
-            then()
-            return
-        name = self.session.key_columns.ledger_name
-        columns = ", ".join(map(clean, self.session.key_columns.columns))
-        parts, yes = [], []
-        if said is not None:
-            parts.append(f"{keys_lead(self.session.key_columns)}: {said}. A decision here starts a new set of series "
-                         f"in {name} (a second data set beside its own).")
-            yes.append(f"decide on series keyed by {columns} in {name}" if self.session.key_columns.mismatch
-                       else f"start a new set of series in {name}")
-        if alikes:
-            parts.append(f"{alike_words(self.session, s)} {ALIKE_DECIDES}")
-            yes.append("record it as a new series")
-
-        def answered(choice: str | None) -> None:
-            if choice == "confirm":
-                if said is not None:
-                    self.session.key_columns.confirmed = said  # ``decide`` refuses if the ledger moved on meanwhile
-                if alikes:
-                    self.session.spellings.confirm(s, alikes)
-                try:  # the dialog may have stood a while: the ledger's refusal now, not after a note is typed
-                    self.session.check_shown(shown, action)
-                except PricefoldError as exc:
-                    self.not_recorded(shown, exc)
-                    return
-                then()
-        self.app.push_screen(ChoiceDialog(" ".join(parts) + " Is that what you mean?",
-                                          [("confirm", "Yes: " + "; ".join(yes)),
-                                           ("cancel", "No: record nothing (Esc)")], "cancel"), answered)
-
     def action_accept(self) -> None:
         shown = self.session.shown
         if shown is None or self.still_reading("accept"):
             return
         self.new_key_set("accept", lambda: self.accept(shown))
 
-    def accept(self, shown: Shown) -> None:
-        if self.session.needs_reason(shown, "accept"):
-            self.ask(f"Accept {shown.proposed} for {self.session.label(shown.series)} despite "
-                     f"{', '.join(shown.stops)}? Say why", "a note is required",
-                     True, lambda note: self.decide(shown, "accept", note=note), self.signing_text(shown))
-        else:
-            self.decide(shown, "accept")
-
     def action_hold(self) -> None:
         shown = self.session.shown
         if shown is not None:
-            self.new_key_set("hold", lambda: self.ask(f"Hold {self.session.label(shown.series)}: why? (optional)",
-                                              "Enter alone holds without a note", False,
-                                              lambda note: self.decide(shown, "hold", note=note)))
+            self.new_key_set("hold", lambda: self.hold(shown))
 
     def action_override(self) -> None:
-        shown, session = self.session.shown, self.session
+        shown = self.session.shown
         if shown is None or self.still_reading("override"):
             return
-        s = session.index_of(shown)
-
-        def picked(model: str | None) -> None:
-            if model is not None:
-                self.ask(f"Why {model} instead of {shown.proposed} for {session.label(s)}?", "a note is required", True,
-                         lambda note: self.decide(shown, "override", model, note))
-
-        from .override import OverrideDialog  # with the first override, not before the list's first frame
-        self.new_key_set("override", lambda: self.app.push_screen(
-            OverrideDialog(session.results, s, session.label(s), session.diagnosis,
-                           shown.model if shown.model != shown.proposed else None,
-                           session.accepted_other(s) is not None), picked))
+        s = self.session.index_of(shown)
+        self.new_key_set("override", lambda: self.override(shown, s))
 
     def action_note(self) -> None:
         shown = self.session.shown
         if shown is not None:
-            self.new_key_set("note", lambda: self.ask(f"Note on {self.session.label(shown.series)}",
-                                              "what should the next reader know?", True,
-                                              lambda note: self.decide(shown, "note", note=note)))
+            self.new_key_set("note", lambda: self.note(shown))
 
     def action_nothing_to_override(self) -> None:
         results, s = self.session.results, self.session.current
@@ -401,20 +278,7 @@ class TriageScreen(Screen):
         if target is None:
             self.action_nothing_to_revoke()
             return
-        s, record = target
-        self.session.bring(s)
-        self.refresh_all()
-        shown = self.session.look(s)
-        what = f"{record['action']} {record.get('model') or ''}".strip()
-        try:
-            self.session.decide(shown, "revoke")
-        except PricefoldError as exc:
-            self.app.push_screen(MessageDialog(Text(f"Not revoked: {printable(str(exc))}", style="bold")))
-            self.refresh_all()
-            return
-        self.notify(f"Revoked your {what} on {self.session.label(s)}", markup=False, timeout=5)
-        self.session.bring(s)
-        self.refresh_all()
+        self.revoke(*target)
 
     # -- moving around ---------------------------------------------------------------------
     def action_attention(self, step: int) -> None:
