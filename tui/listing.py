@@ -19,7 +19,7 @@ from fitcore.text import original
 FILTERS = ("attention", "all", "pending", "held", "decided", "changed", "shifted", "spelled")
 # "undecided": no decision stands on the current data, i.e. the statuses pending and stale together (the
 # header counts those two apart; the choice named "pending" lists both, and its title says so)
-FILTER_TITLES = {"attention": "needs attention, undecided", "all": "all series",
+FILTER_TITLES = {"attention": "needs a decision", "all": "all series",
                  "pending": "undecided: pending or stale",
                  "held": "held", "decided": "decided or held", "changed": "changed since sign-off",
                  "shifted": "shifted since sign-off", "spelled": "≈ spelled like a ledger series otherwise"}

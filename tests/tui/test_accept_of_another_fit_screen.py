@@ -106,7 +106,7 @@ async def test_an_accept_of_another_fits_proposal_needs_attention(other_fit, tmp
         accepted = {int(i) for i in (session.status == "accepted").nonzero()[0]}
         assert {int(i) for i in attention.nonzero()[0]} & accepted == set(others)  # these, and no other accept
         assert set(others) <= {int(s) for s in session.view}  # listed by the default filter
-        assert f"{int(attention.sum())} listed (needs attention" in screen_text(app)
+        assert f"{int(attention.sum())} listed (needs a decision;" in screen_text(app)
         s = next(i for i in others if session.results.data.key_of(i) == key)
         session.cursor = int((session.view == s).nonzero()[0][0])
         app.screen.refresh_all()

@@ -82,7 +82,7 @@ async def test_the_filter_menu_counts_agree_with_the_header(carried, tmp_path):
         await pilot.pause()
         menu = screen_text(app)
         assert f"undecided: pending or stale  ({counts['pending'] + counts['stale']})" in menu
-        assert f"needs attention, undecided  ({counts['attention']})" in menu
+        assert f"needs a decision  ({counts['attention']})" in menu
         await pilot.press("escape")
         session.set_filter("pending")
         assert len(session.view) == counts["pending"] + counts["stale"]

@@ -29,7 +29,7 @@ async def test_the_header_shows_every_count_whole(ledger_path, size):
             word = {"attention": "(attention|attn)", "pending": "(pending|pend)", "accepted": "(accepted|acc)",
                     "overridden": "(overridden|ovr)"}.get(name, name)
             assert re.search(rf"{word} {counts[name]:,}\b", header), (name, header)
-        assert f"{len(session.view)} listed (needs attention, undecided; by attention)" in header
+        assert f"{len(session.view)} listed (needs a decision; by attention)" in header
 
 
 async def test_rows_stay_distinct_when_names_are_cut(ledger_path):

@@ -31,7 +31,7 @@ async def test_first_screen_lists_the_series_needing_attention(ledger_path, size
         session = await started(app, pilot)
         text = screen_text(app)
         attention = int(session.needs_attention().sum())
-        assert f"{attention} listed (needs attention, undecided; by attention)" in text
+        assert f"{attention} listed (needs a decision; by attention)" in text
         assert session.cursor == 0 and session.shown.series == session.view[0]  # the top row, and what is shown
         first = session.label(session.view[0])
         assert first in text and session.flag_codes(session.view[0])[0] in text
@@ -192,8 +192,8 @@ async def test_filter_shows_counts_keeps_the_status_with_a_flag_and_has_held(led
         await pilot.press("f")
         await pilot.pause()
         text = screen_text(app)
-        assert f"needs attention, undecided  ({int(session.needs_attention().sum())})" in text
-        assert "held  (0)" in text and f"needs attention, undecided, ⚑ rising  ({rising})" in text
+        assert f"needs a decision  ({int(session.needs_attention().sum())})" in text
+        assert "held  (0)" in text and f"needs a decision, ⚑ rising  ({rising})" in text
         await pilot.press(*["down"] * (len(FILTERS) + 1 + CODES.index("rising")), "enter")  # statuses, any flag, flags
         await pilot.pause()
         assert session.flag_filter == "rising" and session.filter == "attention"
