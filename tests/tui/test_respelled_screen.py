@@ -200,3 +200,23 @@ async def test_a_look_alike_decided_meanwhile_is_refused_before_the_note_box(led
         assert isinstance(app.screen, MessageDialog)
         assert "Not recorded: bo held at " in words(app) and "look again" in words(app)
         assert ledger_path.read_bytes() == before
+
+
+async def test_the_override_dialog_opens_on_where_the_series_is_after_the_question(ledger_path, tmp_path):
+    """'o' on a look-alike asks first; results swapped meanwhile (a fit of the data in place of the file read)
+    may hold the series elsewhere: the override dialog opens on where it is then (before: where it was when 'o'
+    was pressed — another series' candidates under this one's title)."""
+    from tui.screens.override import OverrideDialog
+    signed_by_region(ledger_path)
+    app = make_app(ledger_path, respelled_source(tmp_path))
+    async with app.run_test(size=(120, 34)) as pilot:
+        s = await on_series(app, pilot, {"product": "lemons 500 g", "region": "South "})
+        session = app.session
+        await pilot.press("o")
+        await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
+        moved = (s + 1) % session.results.n_series  # where a swap put it (the real lookup stands in for none here)
+        session.index_of = lambda shown: moved
+        session.check_shown = lambda shown, action: None  # its own tests: here the fake lookup would refuse
+        await pilot.press("up", "enter")  # Yes
+        await until(pilot, lambda: isinstance(app.screen, OverrideDialog))
+        assert app.screen.s == moved

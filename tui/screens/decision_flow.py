@@ -138,7 +138,7 @@ class DecisionFlow:
                  lambda note: self.decide(shown, "note", note=note))
 
     def override(self, shown: Shown, s: int) -> None:
-        """The override dialog on series ``s`` (where ``shown`` was when its key was pressed), opening on the model
+        """The override dialog on series ``s`` (where ``shown`` is as it opens), opening on the model
         standing where it is not the proposal; then the reason."""
         session = self.session
 

@@ -253,8 +253,8 @@ class TriageScreen(DecisionFlow, Screen):
         shown = self.session.shown
         if shown is None or self.still_reading("override"):
             return
-        s = self.session.index_of(shown)
-        self.new_key_set("override", lambda: self.override(shown, s))
+        # where the series is when the dialog opens: a first-decision question may stand between (results swapped)
+        self.new_key_set("override", lambda: self.override(shown, self.session.index_of(shown)))
 
     def action_note(self) -> None:
         shown = self.session.shown
