@@ -3,11 +3,11 @@
 pyarrow's multi-threaded reader takes the file when every row is one physical line
 (``textfile.rows_are_lines``), so row i is line i + 2.  A line with nothing, or white space only, on it is an
 empty line in both readers (``validation.EMPTY_LINE`` in ``RawRows.broken``, no cells); a line of empty cells
-(``,,,``, ``"",,,``) is a row, whose key is empty.  A cell that is not a number: the file is read by pyarrow again with the numbers as text.
-A line with the wrong number of fields in a file without a quote: pyarrow reads the file's bytes without
-such lines, and each is the row the line-by-line reader makes of it (``_read_around``).  Any other file —
-a quoted line break, a wrong number of fields where a quote may join lines, a cell longer than pyarrow's
-block — is read again with Python's csv module, which names every row by the physical line it starts on.
+(``,,,``, ``"",,,``) is a row, whose key is empty.  A cell that is not a number: the file is read by pyarrow
+again with the numbers as text.  A line with the wrong number of fields in a file without a quote: pyarrow reads
+the file's bytes without such lines, and each is the row the line-by-line reader makes of it (``_read_around``).
+Any other file — a quoted line break, a wrong number of fields where a quote may join lines, a cell longer than
+pyarrow's block — is read again with Python's csv module, which names every row by the physical line it starts on.
 Both skip a byte-order mark, read gzip by its magic bytes, and refuse a quote the last line opens and never
 closes (``textfile.check_last_line``: both would end the cell at the end of the file).
 """
@@ -25,8 +25,8 @@ from .cells import (coerce_numbers, columns_of, csv_text_numbers, dates, give_ba
                     raw_from_columns)
 from .columns import Columns
 from .key_codes import KeyCodes
-from .textfile import (BLOCK, arrow_stream, check_last_line, check_quotes, compressed_trouble, file_bytes, holds,
-                       line_bounds, open_text, rows_are_lines)
+from .textfile import (BLOCK, arrow_stream, check_last_line, check_quotes, compressed_trouble, empty_lines,
+                       file_bytes, holds, line_bounds, open_text, rows_are_lines)
 
 
 def read_csv_rows(path: Path, columns: Columns, delimiter: str, header: list[str]):
@@ -79,11 +79,8 @@ def _with_empty_lines(rows, path: Path):
         none = values if none is None else none & values
         if not none.any():
             return rows
-    view = np.frombuffer(file_bytes(path), np.uint8)
-    starts, ends = line_bounds(view)
     at = np.flatnonzero(none)
-    lines = rows.line[at] - 1
-    rows.broken.update({int(i): EMPTY_LINE for i in at[ends[lines] == starts[lines]]})
+    rows.broken.update({int(i): EMPTY_LINE for i in at[empty_lines(path, rows.line[at])]})
     return rows
 
 

@@ -70,3 +70,14 @@ def test_a_parquet_row_of_nulls_is_an_empty_key_and_named_by_row(tmp_path):
     with pytest.raises(DataError) as caught:
         load_with_rejects(path, Columns())
     assert str(caught.value).startswith(f"{path}, row 1, column 'price': no usable rows")
+
+
+@pytest.mark.parametrize("reader", READERS)
+def test_a_tsv_line_of_tabs_alone_is_a_row_when_it_has_the_fields(tmp_path, reader):
+    """A tab is white space and the delimiter: a line of the header's fields, all empty, is a row (its key empty) in
+    both readers; one of fewer, white space only, is an empty line."""
+    text = (HEADER + GOOD + READERS[reader] + "\t\t\t\n \t \n").replace(",", "\t")
+    path = tmp_path / "d.tsv"
+    path.write_text(text, encoding="utf-8")
+    _, rejects = load_with_rejects(path, Columns())
+    assert rejects.reasons == ["empty product", "empty line"]
