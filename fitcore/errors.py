@@ -25,16 +25,17 @@ class SettingsError(PricefoldError, ValueError):
 class DataError(PricefoldError, ValueError):
     """An input file cannot be used as given.
 
-    ``path``, ``line`` (1-based, the header is line 1) and ``column`` say where,
-    when known; the message says what was expected and what was found.
+    ``path``, ``line`` (1-based, the header is line 1) or ``row`` (a Parquet file's, from 1) and ``column``
+    say where, when known; the message says what was expected and what was found.
     """
 
     def __init__(self, message: str, *, path: str | None = None,
-                 line: int | None = None, column: str | None = None) -> None:
-        self.path, self.line, self.column = path, line, column
+                 line: int | None = None, column: str | None = None, row: int | None = None) -> None:
+        self.path, self.line, self.column, self.row = path, line, column, row
         where = ", ".join(part for part in (
             str(path) if path else None,
             f"line {line}" if line is not None else None,
+            f"row {row}" if row is not None else None,
             f"column {quoted(column)}" if column else None) if part)
         super().__init__(f"{where}: {message}" if where else message)
 

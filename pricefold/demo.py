@@ -72,9 +72,11 @@ def _report_hint(results_path: Path, folder: Path) -> None:
     """How to come back to the demo's decisions (its ledger is not the one triage would take by default)
     and make their report (whose charts need matplotlib, an extra)."""
     import importlib.util
+
+    from .report.command import INSTALL_HINT  # the report's own words for the extra
     ledger = folder / "ledger.jsonl"
     print(f"back to it: pricefold triage {results_path} --ledger {ledger}", file=sys.stderr)
-    charts = "" if importlib.util.find_spec("matplotlib") else "  (its charts need matplotlib: pip install matplotlib)"
+    charts = "" if importlib.util.find_spec("matplotlib") else f"; {INSTALL_HINT}"
     print(f"report, once a decision is in the ledger: pricefold report {results_path} --ledger {ledger} "
           f"-o {folder}/report.html{charts}", file=sys.stderr)
 

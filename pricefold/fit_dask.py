@@ -45,6 +45,12 @@ def run_fit_dask(args, run) -> int:
         disconnect(client)
     if run.plan_file and total["plan_matched"] < _plan_rows(run.plan_file):
         print(f"warning: {run.plan_file} names series that are not in the data", file=sys.stderr)
+    if run.plan_file:
+        from fitcore.data.plan import unused_columns_note
+        unused = unused_columns_note(run.plan_file, tuple(run.columns.keys), tuple(run.columns.controls),
+                                     bool(run.settings.season))
+        if unused:
+            print(unused, file=sys.stderr)
     if total["rejected"]["lines"]:  # a warning, not progress: --quiet keeps it
         print(rejects_line(total["rejected"]["reasons"], args.output / REJECTS,
                            total["rows"] + len(total["rejected"]["lines"])), file=sys.stderr)

@@ -139,7 +139,7 @@ def _fit_invented() -> None:
 def _fit_locally(args, run, ahead) -> int:
     from fitcore import fit_batch
     from fitcore.data.loader import load_with_rejects
-    from fitcore.data.plan import plan_keywords
+    from fitcore.data.plan import plan_keywords, unused_columns_note
     from fitcore.data.rejects import rejects_path, write_rejects
     from fitcore.outputs import Batch, remove_own
     from fitcore.results.write import prepared_results
@@ -174,6 +174,8 @@ def _fit_locally(args, run, ahead) -> int:
             diagnosis, backtest, missed = backtest_against(ahead, results, diagnosis, run.thresholds)
         told = summary(results, diagnosis)
         unplanned = unplanned_line(results, run.plan_file) if run.plan_file is not None else ""
+        unused = "" if run.plan_file is None else unused_columns_note(
+            run.plan_file, tuple(data.key_names), tuple(data.controls), bool(run.settings.season))
         fitted = time.perf_counter()  # read, fitted and diagnosed: the writing is timed apart
         write, by_name = prepared_results(results, args.output, diagnosis, backtest)
         # What the table takes per series is made; it keeps the fit and the rows it still needs (prices): the
@@ -187,7 +189,7 @@ def _fit_locally(args, run, ahead) -> int:
         most = 2 * len(rejects) > read  # then where the first is and why (its cell read again from the file)
         print(rejects_line(rejects.reasons, target, read, first_words(rejects, run.columns) if most else ""),
               file=sys.stderr)
-    for warning in (free, unplanned):  # warnings too
+    for warning in (free, unplanned, unused):  # warnings too
         if warning:
             print(warning, file=sys.stderr)
     if not args.quiet:

@@ -83,7 +83,12 @@ def no_usable_rows(rejects: Rejects, columns: Columns) -> DataError:
     from .validation import summary
     column, said = first_rejected(rejects, columns)
     return DataError(f"no usable rows ({summary(rejects.reasons)}); the first is {said}",
-                     path=str(rejects.path), line=int(rejects.lines[0]), column=column)
+                     path=str(rejects.path), column=column, **place(rejects.kind, int(rejects.lines[0])))
+
+
+def place(kind: str, line: int) -> dict:
+    """``DataError``'s keyword for where a row is: a text file's ``line``, a Parquet file's ``row``."""
+    return {"row": line} if kind == "parquet" else {"line": line}
 
 
 def first_rejected(rejects: Rejects, columns: Columns) -> tuple[str | None, str]:

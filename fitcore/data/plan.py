@@ -56,7 +56,8 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
     if dup.any():
         first = int(np.argmax(dup))
         earlier = int(np.argmax((table == table.iloc[first]).all(axis=1).to_numpy()))
-        raise repeated_series(path, int(rows.line[first]), int(rows.line[earlier]), table.iloc[first].to_dict())
+        raise repeated_series(path, kind, int(rows.line[first]), int(rows.line[earlier]),
+                              table.iloc[first].to_dict())
     series = pd.DataFrame({name: data.keys[name].astype(str) for name in keys})
     series["_s"] = np.arange(data.n_series)
     merged = table.merge(series, on=keys, how="left")
@@ -66,7 +67,7 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
         keep = ~unknown
     elif unknown.any():
         first = int(np.argmax(unknown))
-        raise unknown_key(path, int(rows.line[first]), {k: merged[k].iloc[first] for k in keys}, data.keys)
+        raise unknown_key(path, kind, int(rows.line[first]), {k: merged[k].iloc[first] for k in keys}, data.keys)
     at = merged["_s"].to_numpy()[keep].astype(np.int64)
 
     def spread(values, empty):
@@ -87,6 +88,29 @@ def _header_names(path: Path, sep: str | None, wanted: list[str]) -> list[str]:
         from .read_parquet import parquet_names
         return parquet_names(path)
     return split_header(header_line(path), sep or sniff_delimiter(path, wanted, preferred))
+
+
+def unused_columns_note(path: str | Path, keys: tuple[str, ...], controls: tuple[str, ...] = (), season: bool = False,
+                        sep: str | None = None) -> str:
+    """One line naming the plan file's columns a fit with these ``keys``, ``controls`` and ``season`` does not read,
+    and why ("note: plan.csv: plan column not used: 'promo' (no --control given)"), or '' (every column read).
+    A control column without ``--control``, ``plan_date`` without ``--season``: otherwise a plan of promotion
+    weeks is silently fitted as regular ones."""
+    from ..text import clean, quoted
+    path = Path(path)
+    names = _header_names(path, sep, [*keys, "plan_price"])
+    read = {*keys, "plan_price", *controls, *([PLAN_DATE] if season else [])}
+    why: dict[str, list[str]] = {}
+    for name in dict.fromkeys(names):
+        if name.strip() and name not in read:
+            reason = ("no --season given" if name == PLAN_DATE else "no --control given" if not controls
+                      else "not a key, plan_price, plan_date or --control column")
+            why.setdefault(reason, []).append(quoted(name))
+    if not why:
+        return ""
+    count = sum(map(len, why.values()))
+    parts = "; ".join(f"{', '.join(names)} ({reason})" for reason, names in why.items())
+    return f"note: {clean(str(path))}: plan column{'s' * (count > 1)} not used: {parts}"
 
 
 def plan_keywords(data: Dataset, plan_file: str | Path | None, plan_price: float | None, sep: str | None = None, *,

@@ -1,12 +1,13 @@
 """CSV and TSV files (optionally gzip) as ``RawRows``: pyarrow's reader, or Python's csv line by line.
 
 pyarrow's multi-threaded reader takes the file when every row is one physical line
-(``textfile.rows_are_lines``; an empty line, or one of white space only, is a row of empty cells), so row
-i is line i + 2.  A cell that is not a number: the file is read by pyarrow again with the numbers as text.
-A line with the wrong number of fields in a file without a quote: pyarrow reads the file's bytes without
-such lines, and each is the row the line-by-line reader makes of it (``_read_around``).  Any other file —
-a quoted line break, a wrong number of fields where a quote may join lines, a cell longer than pyarrow's
-block — is read again with Python's csv module, which names every row by the physical line it starts on.
+(``textfile.rows_are_lines``), so row i is line i + 2.  A line with nothing, or white space only, on it is an
+empty line in both readers (``validation.EMPTY_LINE`` in ``RawRows.broken``, no cells); a line of empty cells
+(``,,,``, ``"",,,``) is a row, whose key is empty.  A cell that is not a number: the file is read by pyarrow
+again with the numbers as text.  A line with the wrong number of fields in a file without a quote: pyarrow reads
+the file's bytes without such lines, and each is the row the line-by-line reader makes of it (``_read_around``).
+Any other file — a quoted line break, a wrong number of fields where a quote may join lines, a cell longer than
+pyarrow's block — is read again with Python's csv module, which names every row by the physical line it starts on.
 Both skip a byte-order mark, read gzip by its magic bytes, and refuse a quote the last line opens and never
 closes (``textfile.check_last_line``: both would end the cell at the end of the file).
 """
@@ -24,8 +25,8 @@ from .cells import (coerce_numbers, columns_of, csv_text_numbers, dates, give_ba
                     raw_from_columns)
 from .columns import Columns
 from .key_codes import KeyCodes
-from .textfile import (BLOCK, arrow_stream, check_last_line, check_quotes, compressed_trouble, file_bytes, holds,
-                       line_bounds, open_text, rows_are_lines)
+from .textfile import (BLOCK, arrow_stream, check_last_line, check_quotes, compressed_trouble, empty_lines,
+                       file_bytes, holds, line_bounds, open_text, rows_are_lines)
 
 
 def read_csv_rows(path: Path, columns: Columns, delimiter: str, header: list[str]):
@@ -61,8 +62,26 @@ def _read_fast(path: Path, columns: Columns, delimiter: str, header: list[str]):
         return None
     check_last_line(path, n_rows + 1, len(header), delimiter, last)
     parts, table = columns_of(table, columns), None  # each column freed once converted
-    return raw_from_columns(parts, columns, np.arange(2, n_rows + 2, dtype=np.int64),
+    rows = raw_from_columns(parts, columns, np.arange(2, n_rows + 2, dtype=np.int64),
                             number_cells=csv_text_numbers if as_text else None)
+    return _with_empty_lines(rows, path)
+
+
+def _with_empty_lines(rows, path: Path):
+    """``rows`` (row i on line i + 2, each of the header's fields or none) with their empty lines said
+    (``EMPTY_LINE`` in ``broken``).  pyarrow gives an empty line a row of empty cells, as it gives ``,,,`` and
+    ``"",,,``: the lines of the rows whose keys and numbers are all missing are looked at in the file's bytes (read
+    only when there is such a row).  (A line of white space only has one field: such a file is read around.)"""
+    from .validation import EMPTY_LINE
+    none = None
+    for values in (*(codes.codes < 0 for codes in rows.keys.values()),
+                   *(missing for _, _, missing in rows.numbers.values())):
+        none = values if none is None else none & values
+        if not none.any():
+            return rows
+    at = np.flatnonzero(none)
+    rows.broken.update({int(i): EMPTY_LINE for i in at[empty_lines(path, rows.line[at])]})
+    return rows
 
 
 def _types(columns: Columns) -> dict:
@@ -115,8 +134,8 @@ def _read_around(path: Path, columns: Columns, delimiter: str, header: list[str]
     file holds a quote (a line may then be part of a row) or the line-by-line reader is needed anyway.
 
     Each such line is a row as the line-by-line reader gives it: no cells, and the reason "expected N
-    fields, found M" in ``RawRows.broken``.  An empty line stays in the bytes: pyarrow gives it a row of
-    empty cells, as the line-by-line reader does (the "empty line" reason).  Row i is still line i + 2.
+    fields, found M" (white space only: ``EMPTY_LINE``) in ``RawRows.broken``.  An empty line stays in the
+    bytes (pyarrow gives it a row of empty cells) and is said an empty line too.  Row i is still line i + 2.
     """
     if len(delimiter.encode()) != 1 or delimiter in '\r\n"':
         return None
@@ -134,9 +153,11 @@ def _read_around(path: Path, columns: Columns, delimiter: str, header: list[str]
     wrong = wrong[wrong > 0]  # lines; the header sets the width
     if not len(wrong):
         return None
+    from .validation import EMPTY_LINE
     n_rows = len(starts) - 1
-    broken = {int(i) - 1: f"expected {len(header)} fields, found {int(fields[i])}" for i in wrong
-              if not is_blank(view[starts[i]:ends[i]].tobytes())}  # a blank line: a row of empty cells
+    broken = {int(i) - 1: EMPTY_LINE if is_blank(view[starts[i]:ends[i]].tobytes())
+              else f"expected {len(header)} fields, found {int(fields[i])}" for i in wrong}
+    broken.update({int(i) - 1: EMPTY_LINE for i in np.flatnonzero(ends[1:] == starts[1:]) + 1})  # read: no cells
     view, fields, ends = None, None, None
     data = _without_lines(data, starts, wrong)
     starts = None
@@ -168,8 +189,8 @@ def _among_broken(rows, read: np.ndarray, line: np.ndarray, broken: dict):
 
 
 def is_blank(line: bytes | str) -> bool:
-    """Is ``line`` white space only?  Most CSV readers take such a line for an empty one, and so do both
-    readers here: a row of empty cells, not a line of the wrong number of fields."""
+    """Is ``line`` (as written: quotes are not white space) white space only?  Most CSV readers take such a line
+    for an empty one, and so do both readers here: an empty line, not a line of the wrong number of fields."""
     return not line.strip()
 
 
@@ -223,7 +244,7 @@ def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):
     """
     import pandas as pd
 
-    from .validation import RawRows
+    from .validation import EMPTY_LINE, RawRows
     wanted = [header.index(name) for name in columns.needed]
     width = len(header)
     cells: list[list] = [[] for _ in wanted]
@@ -231,22 +252,25 @@ def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):
     end = 1
     try:
         with open_text(path, errors="surrogateescape") as handle:
-            reader = csv.reader(handle, delimiter=delimiter)
+            read = [""]  # the physical line read last: a record's text as written (its quotes kept)
+            reader = csv.reader(_remembered(handle, read), delimiter=delimiter)
             next(reader, None)
             end = reader.line_num
             for record in reader:
                 start, end = end + 1, reader.line_num
                 lines.append(start)
-                if len(record) != width and start == end and is_blank(delimiter.join(record)):
-                    record = []  # white space only: an empty line
-                if record and len(record) != width:
-                    if end > start:  # a quote that swallowed lines: no row can be trusted after it
-                        check_quotes(path, start, end, len(record), width, delimiter)
-                    broken[len(lines) - 1] = f"expected {width} fields, found {len(record)}"
+                if len(record) != width:
+                    if start == end and is_blank(read[0]):  # nothing, or white space only, on the line
+                        broken[len(lines) - 1] = EMPTY_LINE
+                    else:
+                        if end > start:  # a quote that swallowed lines: no row can be trusted after it
+                            check_quotes(path, start, end, len(record), width, delimiter)
+                        broken[len(lines) - 1] = f"expected {width} fields, found {len(record)}"
                     record = []
                 for store, index in zip(cells, wanted):
                     store.append(record[index] if record else None)
-            if lines and (end > lines[-1] or len(lines) - 1 in broken):  # the last row: a quote never closed?
+            last_broken = broken.get(len(lines) - 1, EMPTY_LINE) != EMPTY_LINE
+            if lines and (end > lines[-1] or last_broken):  # the last row: a quote never closed?
                 check_quotes(path, lines[-1], end, width, width, delimiter)
             elif lines and record:  # one line: its last field may hold the open quote
                 check_last_line(path, lines[-1], width, delimiter)
@@ -263,6 +287,13 @@ def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):
     numbers = {name: coerce_numbers(pd.Series(by_name[name], dtype=object)) for name in number_names(columns)}
     date = dates(pa.array(by_name[columns.date], pa.string())) if columns.date else None
     return RawRows(line=line, keys=keys, numbers=numbers, date=date, broken=broken)
+
+
+def _remembered(handle, read: list):
+    """The lines of ``handle``, each kept in ``read[0]`` as it is handed on."""
+    for text in handle:
+        read[0] = text
+        yield text
 
 
 def _check_utf8(path: Path, name: str, values: list, line: np.ndarray) -> None:

@@ -291,6 +291,31 @@ def line_bounds(data: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return starts, np.append(ends, size)
 
 
+def empty_lines(path: Path, lines: np.ndarray) -> np.ndarray:
+    """(K,) bool: is each of the physical ``lines`` (sorted, 1-based: the header is line 1) empty, no byte before its
+    line end?  Read block by block, the positions of one block's LFs at a time (a whole-file copy and its line
+    bounds: 2M rows +50 MiB); a file holding a CR (CRLF or CR line ends) through ``line_bounds``."""
+    wanted, out = np.asarray(lines, np.int64) - 1, np.zeros(len(lines), bool)
+    seen, last, offset = 0, -1, 0  # LFs before the block; the last one's position (-1: the file's start); bytes
+    with open_bytes(path) as handle:
+        for block in iter(lambda: handle.read(BLOCK), b""):
+            data = np.frombuffer(block, np.uint8)
+            if holds(data, ord("\r")):
+                view = np.frombuffer(file_bytes(path), np.uint8)
+                starts, ends = line_bounds(view)
+                inside = wanted < len(starts)
+                out[inside] = ends[wanted[inside]] == starts[wanted[inside]]
+                return out
+            ends = np.flatnonzero(data == ord("\n")) + offset
+            here = (wanted >= seen) & (wanted < seen + len(ends))  # lines ending in this block
+            if here.any():
+                k = wanted[here] - seen
+                out[here] = ends[k] == np.where(k > 0, ends[np.maximum(k - 1, 0)], last) + 1
+            last = ends[-1] if len(ends) else last
+            seen, offset = seen + len(ends), offset + len(data)
+    return out  # an unended last line holds a byte
+
+
 def _positions(data: np.ndarray, byte: int) -> np.ndarray:
     """(K,) int64 positions of ``byte`` in ``data``, found block by block."""
     found = [np.flatnonzero(data[at:at + BLOCK] == byte) + at for at in range(0, len(data), BLOCK)]

@@ -1,7 +1,9 @@
 """Row-level validation: why each row cannot be used, or that it can (pure; no file access).
 
-A row is rejected — never silently dropped — when the line is empty (or white
-space only: the readers give it no cells) or has the wrong number of fields, a
+A row is rejected — never silently dropped — when the line is empty (nothing, or
+white space only, on it: the readers say so, ``EMPTY_LINE`` in ``RawRows.broken``;
+a line of empty cells such as ``,,,`` is a row with an empty key) or has the
+wrong number of fields, a
 key is empty, price or volume is missing, non-numeric, NaN or infinite, negative, or beyond ±1e15 (``LARGEST``; controls
 too), the weight is missing, non-numeric
 or negative, the date does not parse or lies outside the dates datetime64[ns]
@@ -21,6 +23,7 @@ FIRST_DAY, LAST_DAY = "1677-09-22", "2262-04-11"  # the whole days datetime64[ns
 # (1e308); past about 1e154 a square is infinite and a series silently gets no model.  1e15 is also
 # below 2**53, so whole numbers up to it are exact; no real price or weekly volume comes near it.
 LARGEST = 1e15
+EMPTY_LINE = "empty line"  # the readers' reason for a line with nothing (or white space only) on it
 
 
 @dataclass
@@ -34,7 +37,8 @@ class RawRows:
     number"; (N,) bool "empty cell").
     ``date``: ((N,) datetime64[ns] with NaT where missing, unreadable or outside, (N,) bool "text that is not a
     date", (N,) bool "a date outside what datetime64[ns] holds") or None.
-    ``broken``: row index → reason, for rows whose line could not be split into the header's fields.
+    ``broken``: row index → reason, for rows whose line could not be split into the header's fields
+    (``EMPTY_LINE``: nothing, or white space only, on it).
     """
 
     line: np.ndarray
@@ -114,13 +118,8 @@ def _first_reasons(rows: RawRows, blanks: dict, checks: list, date: str | None) 
     for index, why in rows.broken.items():
         out[index] = why
         open_rows[index] = False
-    empties = [_empty(values, blanks[name]) for name, values in rows.keys.items()]
-    all_empty = np.logical_and.reduce(empties) if empties else np.zeros(n, bool)
-    for name in dict.fromkeys(name for name, signed, _ in checks if not signed):
-        all_empty &= rows.numbers[name][2]
-    mark(all_empty, "empty line")
-    for name, empty in zip(rows.keys, empties):
-        mark(empty, f"empty {name}")
+    for name, values in rows.keys.items():
+        mark(_empty(values, blanks[name]), f"empty {name}")
     for name, signed, bounded in checks:
         _number_reasons(mark, name, *rows.numbers[name], signed=signed, bounded=bounded)
     if date and rows.date is not None:

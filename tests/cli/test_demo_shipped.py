@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import json
 import math
+from pathlib import Path
 from argparse import Namespace
 
 import pyarrow.parquet as pq
@@ -68,3 +69,14 @@ def test_demo_with_controls_fits_first(tmp_path):
     args = Namespace(dir=tmp_path / "demo", analyst=None, control=["promo"], season=0)
     assert demo.run_demo(args, lambda source, ledger, analyst, **kw: opened.update(kw) or 0) == 0
     assert (tmp_path / "demo" / "results.json").exists() and not opened.get("stored")
+
+
+def test_the_demo_says_how_to_install_the_report_charts_as_the_readme_does(tmp_path, monkeypatch, capsys):
+    """Before: 'pip install matplotlib' only, where README and `pricefold report` say the checkout's extra."""
+    import importlib.util
+    spec = importlib.util.find_spec
+    monkeypatch.setattr(importlib.util, "find_spec", lambda name, *a: None if name == "matplotlib" else spec(name, *a))
+    demo._report_hint(tmp_path / "results.parquet", tmp_path)
+    err = capsys.readouterr().err
+    assert "pip install -e '.[report]'" in err and "pip install -e '.[report]'" in (
+        Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")

@@ -79,3 +79,16 @@ def test_a_key_whose_values_are_all_in_the_data_but_spelled_otherwise_together(t
     assert code == 2 and err == [f"pricefold fit: {plan}, line 2, column 'product': no series in the data has this key "
                                  f"(product='{composed}', region='East'); did you mean product='cafe⟨U+0301⟩ 250 g' "
                                  "(another Unicode form)?"]
+
+
+@pytest.mark.parametrize("options, note", [
+    ((), "note: {plan}: plan column not used: 'promo' (no --control given)"),
+    (("--control", "promo"), None)])
+def test_a_plan_column_the_fit_does_not_read_is_said_once(tmp_path, capsys, options, note):
+    """The README's fit of the sample with its plan: the plan's promotion week is not read without --control promo.
+    Before: nothing said."""
+    plan = SAMPLE / "plan.csv"
+    code, err = said(capsys, tmp_path, SAMPLE / "wholesale.csv", plan, *options)
+    notes = [line for line in err if line.startswith("note: ")]
+    assert code == 0 and notes == ([note.format(plan=plan)] if note else [])
+    assert note is None or note.format(plan="sample/plan.csv") in README

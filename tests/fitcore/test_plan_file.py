@@ -5,6 +5,8 @@ The files are small and invented; each case's line and cell are written into it 
 """
 from __future__ import annotations
 
+import gzip
+
 import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
@@ -57,7 +59,8 @@ def test_an_empty_key_in_a_parquet_plan_is_refused(tmp_path, data):
     pq.write_table(pa.table({"product": ["apples", None], "region": ["North", "South"], "plan_price": [2.0, 3.0]}),
                    path)
     error = refused(data, path)
-    assert (error.line, error.column) == (2, "product") and "expected a key value, found an empty cell" in str(error)
+    assert (error.row, error.column) == (2, "product") and "expected a key value, found an empty cell" in str(error)
+    assert str(error).startswith(f"{path}, row 2, column")  # a Parquet row, as the data loader names one
 
 
 @pytest.mark.parametrize("kind", ["csv", "csv-quoted", "parquet"])
@@ -124,9 +127,11 @@ def test_a_product_spelled_in_another_unicode_form_is_pointed_to(tmp_path, data)
     path = tmp_path / "plan.csv"
     path.write_text(HEADER + "Cafe\u0301,North,2.0,0\n", encoding="utf-8")
     error = refused(data, path)
-    # the plan's decomposed, the data's composed: both print 'Café', so the plan's is shown by code point
+    # the plan's decomposed, the data's composed: both print 'Café', so the plan's is shown by code point, in the
+    # key too (before: "this key (product='Café', …); did you mean 'Café' (composed; the plan's is …)")
     assert error.column == "product" and str(error).endswith(
-        "; did you mean 'Caf\u00e9' (composed; the plan's is 'Cafe⟨U+0301⟩')?")
+        "this key (product='Cafe⟨U+0301⟩', region='North'); did you mean 'Caf\u00e9' (composed)?")
+    assert "Cafe\u0301" not in str(error)
 
 
 def test_a_key_whose_values_exist_apart_names_no_column(tmp_path):
@@ -149,14 +154,17 @@ def test_a_control_cell_that_is_not_a_number_is_quoted(tmp_path, data):
     assert str(error).endswith("expected a number (or an empty cell for the default), found 'yes'")
 
 
-@pytest.mark.parametrize("cell", ["soon", "2500-01-01"])
-def test_a_plan_date_that_cannot_be_used_is_quoted(tmp_path, data, cell):
-    """'2500-01-01' lies past what the date type holds: before, it silently became the default season."""
+@pytest.mark.parametrize("cell, expected", [
+    ("soon", "expected an ISO date (or an empty cell for the default)"),
+    # past what the date type holds: said with the data loader's range (before: only 'expected an ISO date')
+    *((day, "expected an ISO date within 1677-09-22 to 2262-04-11 (the dates the date type holds, as for the "
+            "data; or an empty cell for the default)") for day in ("2500-01-01", "1600-01-01"))])
+def test_a_plan_date_that_cannot_be_used_is_quoted(tmp_path, data, cell, expected):
     path = tmp_path / "plan.csv"
     path.write_text(f"product,region,plan_price,plan_date\napples,North,2.0,{cell}\n", encoding="utf-8")
     error = refused(data, path, season=True)
     assert (error.line, error.column) == (2, "plan_date")
-    assert str(error).endswith(f"expected an ISO date (or an empty cell for the default), found '{cell}'")
+    assert str(error).endswith(f"{expected}, found '{cell}'")
 
 
 def test_a_line_of_empty_cells_is_an_empty_key_not_an_empty_line(tmp_path, data):
@@ -175,7 +183,7 @@ def test_a_parquet_row_of_empty_cells_is_an_empty_key(tmp_path, data):
     pq.write_table(pa.table({"product": ["apples", None], "region": ["North", None],
                              "plan_price": pa.array([2.0, None], pa.float64())}), path)
     error = refused(data, path)
-    assert (error.line, error.column) == (2, "product") and "every cell of this line is empty" in str(error)
+    assert (error.row, error.column) == (2, "product") and "every cell of this row is empty" in str(error)
 
 
 @pytest.mark.parametrize("blank", ["   ", "\t", " \t  "])
@@ -302,3 +310,47 @@ def test_a_plan_of_a_header_only_says_it_has_no_rows(tmp_path, data, kind):
         path.write_text(HEADER, encoding="utf-8")
     found = "none" if kind == "parquet" else "only a header"
     assert str(refused(data, path)) == f"{path}: expected at least one plan row, found {found}"
+
+
+@pytest.mark.parametrize("last", ['"\n', '"', '"   ', '"   \n', '"\r\n'])
+@pytest.mark.parametrize("gz", [False, True])
+def test_a_lone_quote_on_the_last_line_is_a_quote_never_closed(tmp_path, data, last, gz):
+    """Before: passed over as an empty line (or 'expected a key value, found an empty cell (every cell…)' for
+    '"\n'): the csv module ends the open cell at the end of the file, and its text is white space."""
+    text = HEADER + "apples,North,2.0,0\n" + last
+    path = tmp_path / ("plan.csv.gz" if gz else "plan.csv")
+    path.write_bytes(gzip.compress(text.encode()) if gz else text.encode())
+    error = refused(data, path)
+    assert str(error) == (f"{path}, line 3: a quote opens on this line, the last of the file, and is never closed; "
+                          "expected 4 fields a row")
+
+
+def test_a_parquet_plan_names_rows_and_quotes_its_cells(tmp_path, data):
+    """Before: 'line 3' for the third row, and a NaN price without what was found."""
+    path = tmp_path / "plan.parquet"
+    pq.write_table(pa.table({"product": ["apples", "apples", "NA"], "region": ["North", "South", "North"],
+                             "plan_price": [2.0, 2.0, float("nan")]}), path)
+    assert str(refused(data, path)) == f"{path}, row 3, column 'plan_price': expected a price above zero, found 'nan'"
+    pq.write_table(pa.table({"product": ["apples", "NA", "apples"], "region": ["North", "North", "North"],
+                             "plan_price": [2.0, 2.0, 3.0]}), path)
+    assert str(refused(data, path)) == (f"{path}, row 3: expected one plan line per series, found a second for "
+                                        "product='apples', region='North' (the first is row 1)")
+    pq.write_table(pa.table({"product": ["apples", "pears"], "region": ["North", "North"],
+                             "plan_price": [2.0, 2.0]}), path)
+    assert refused(data, path).row == 2
+
+
+@pytest.mark.parametrize("header, controls, season, said", [
+    ("product,region,plan_price,promo", (), False, "plan column not used: 'promo' (no --control given)"),
+    ("product,region,plan_price,promo", ("promo",), False, ""),
+    ("product,region,plan_price,promo,plan_date,note", (), False,
+     "plan columns not used: 'promo', 'note' (no --control given); 'plan_date' (no --season given)"),
+    ("product,region,plan_price,promo,note,", ("promo",), True,
+     "plan column not used: 'note' (not a key, plan_price, plan_date or --control column)")])
+def test_plan_columns_a_fit_does_not_read_are_said(tmp_path, header, controls, season, said):
+    """Before: a plan's promotion weeks fitted as regular ones without a word."""
+    from fitcore.data.plan import unused_columns_note
+    path = tmp_path / "plan.csv"
+    path.write_text(header + "\n", encoding="utf-8")
+    note = unused_columns_note(path, ("product", "region"), controls, season)
+    assert note == (f"note: {path}: {said}" if said else "")
