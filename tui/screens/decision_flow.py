@@ -26,6 +26,21 @@ TOLD = {"accept": "Accepted", "override": "Overrode", "hold": "Held", "note": "N
 class DecisionFlow:
     """The triage screen's decisions, each on the series ``shown`` showed when its key was pressed."""
 
+    answers_due = 0  # dialogs closed or open whose answer the screen has not acted on yet (``open_dialog``)
+
+    def open_dialog(self, dialog, then=None) -> None:
+        """Push ``dialog``; ``then(answer)`` when it closes.  Until that has run the screen takes no key of its own
+        (``TriageScreen.check_action``): Textual runs the answer after the dialog has closed, so keys typed ahead
+        of the next dialog (a reason begun at once, "as good as…") would reach the list — its ``a`` would accept
+        the series under the cursor, a decision nobody meant."""
+        self.answers_due += 1
+
+        def answered(answer) -> None:
+            self.answers_due -= 1
+            if then is not None:
+                then(answer)
+        self.app.push_screen(dialog, answered)
+
     def decide(self, shown: Shown, action: str, model: str | None = None, note: str = "") -> None:
         """Record ``action`` on the series ``shown`` showed; say what happened, and move on after a decision."""
         try:
@@ -52,7 +67,7 @@ class DecisionFlow:
             kept = ("\n\nYour note is kept: the next note box on this series starts with it."
                     if self.session.writable else  # no note box will open: the note itself, to copy
                     f"\n\nNothing can be recorded now; your note was: {clean(note)}")
-        self.app.push_screen(MessageDialog(Text(f"Not recorded: {printable(str(exc))}{kept}", style="bold")))
+        self.open_dialog(MessageDialog(Text(f"Not recorded: {printable(str(exc))}{kept}", style="bold")))
         self.refresh_all()
 
     def ask(self, title: str, placeholder: str, required: bool, then, about: Text | None = None) -> None:
@@ -60,7 +75,7 @@ class DecisionFlow:
         cancelled.  ``about``: what the note is about, shown above the box."""
         shown = self.session.shown
         value = self._unsaid.get(shown.sid, "") if shown is not None else ""
-        self.app.push_screen(TextDialog(title, placeholder, required=required, value=value, about=about),
+        self.open_dialog(TextDialog(title, placeholder, required=required, value=value, about=about),
                              lambda note: None if note is None else then(note))
 
     def signing_text(self, shown: Shown) -> Text:
@@ -117,7 +132,7 @@ class DecisionFlow:
                     self.not_recorded(shown, exc)
                     return
                 then()
-        self.app.push_screen(ChoiceDialog(" ".join(parts) + " Is that what you mean?",
+        self.open_dialog(ChoiceDialog(" ".join(parts) + " Is that what you mean?",
                                           [("confirm", "Yes: " + "; ".join(yes)),
                                            ("cancel", "No: record nothing (Esc)")], "cancel"), answered)
 
@@ -148,7 +163,7 @@ class DecisionFlow:
                          lambda note: self.decide(shown, "override", model, note))
 
         from .override import OverrideDialog  # with the first override, not before the list's first frame
-        self.app.push_screen(OverrideDialog(session.results, s, session.label(s), session.diagnosis,
+        self.open_dialog(OverrideDialog(session.results, s, session.label(s), session.diagnosis,
                                             shown.model if shown.model != shown.proposed else None,
                                             session.accepted_other(s) is not None), picked)
 
@@ -162,7 +177,7 @@ class DecisionFlow:
         try:
             self.session.decide(shown, "revoke")
         except PricefoldError as exc:
-            self.app.push_screen(MessageDialog(Text(f"Not revoked: {printable(str(exc))}", style="bold")))
+            self.open_dialog(MessageDialog(Text(f"Not revoked: {printable(str(exc))}", style="bold")))
             self.refresh_all()
             return
         self.notify(f"Revoked your {what} on {self.session.label(s)}", markup=False, timeout=5)

@@ -78,12 +78,25 @@ def dialog_room(screen_width: int) -> int:
     return min(100, screen_width * 95 // 100) - AROUND
 
 
+class Candidates(OptionList):
+    """The candidates, Enter on the proposal (a disabled option, on which the list would do nothing) said to be
+    refused.  The list's own Enter, not a priority binding of the dialog's: a priority binding runs before the
+    moves typed ahead of it are taken (↓ Enter typed fast found the proposal still highlighted, and was lost)."""
+
+    def action_select(self) -> None:
+        at = self.highlighted
+        if at is not None and self.get_option_at_index(at).disabled:
+            self.screen.refuse(at)
+            return
+        super().action_select()
+
+
 class OverrideDialog(ModalScreen[str | None]):
     """Pick the candidate to put in the plan instead of the proposal; returns its name."""
 
     # Enter through the dialog, not the list: on the proposal (which cannot be picked) the list did nothing
     # and said nothing, and a note typed next went in as keys.
-    BINDINGS = [Binding("escape", "cancel", "cancel"), Binding("enter", "choose", show=False, priority=True)]
+    BINDINGS = [Binding("escape", "cancel", "cancel")]
 
     def __init__(self, results: Results, s: int, label: str, diagnosis: Diagnosis, standing: str | None,
                  accepted: bool = False) -> None:
@@ -138,7 +151,7 @@ class OverrideDialog(ModalScreen[str | None]):
                 prompt.append(f"! {' · '.join(row.flags)}" if row.flags else "no shape or range flag",
                               style="#ff875f" if row.flags else "dim")
                 options.append(Option(prompt, id=row.name, disabled=row.proposed))
-            yield OptionList(*options, id="dialog-options")
+            yield Candidates(*options, id="dialog-options")
             yield Static(Text("↑↓ to move · Enter to choose (a note follows) · Esc to cancel", style="dim"),
                          markup=False, id="override-hint")
             yield Static(Text("Enter to choose · Esc to cancel", style="dim"), markup=False, id="override-hint-short")
@@ -192,14 +205,9 @@ class OverrideDialog(ModalScreen[str | None]):
                 options.scroll_to(y=y, animate=False)
                 return
 
-    def action_choose(self) -> None:
-        options = self.query_one(OptionList)
-        at = options.highlighted
-        if at is not None and self.rows[at].proposed:
-            self.notify(f"{self.rows[at].name} is the proposal: move to another candidate (↑↓), or Esc.",
-                        severity="warning", timeout=4, markup=False)
-            return
-        options.action_select()
+    def refuse(self, at: int) -> None:
+        self.notify(f"{self.rows[at].name} is the proposal: move to another candidate (↑↓), or Esc.",
+                    severity="warning", timeout=4, markup=False)
 
     def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
         self.dismiss(event.option.id)

@@ -105,6 +105,13 @@ class TriageScreen(DecisionFlow, Screen):
         for rack in self.query("ToastRack"):  # Textual's own widget, by its type's name
             rack.display = False
 
+    def on_screen_resume(self) -> None:
+        """Back on top with no dialog over it: every dialog's answer has run by now (Textual posts the answer to
+        this screen before it tells it to resume), so no key is held back after this; a dialog closed without
+        an answer would otherwise hold the keys for good."""
+        if self.app.screen is self:
+            self.answers_due = 0
+
     # -- what is shown -----------------------------------------------------------------------
     @property
     def series_list(self) -> SeriesList:
@@ -176,6 +183,8 @@ class TriageScreen(DecisionFlow, Screen):
 
     # -- which keys can act now ------------------------------------------------------------
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if self.answers_due and self.app.screen is self:  # a dialog closed, its answer not yet acted on
+            return None  # a key typed ahead of the next dialog does nothing (``open_dialog``)
         session = self.session
         s = session.current
         results = session.results
@@ -301,7 +310,7 @@ class TriageScreen(DecisionFlow, Screen):
                 self.notify(f"{hit.in_view:,} listed match{typed} ({hit.overall:,} in all series); / and Enter for "
                             "the next", markup=False, timeout=3)
             self.refresh_all()
-        self.app.push_screen(TextDialog("Search series by key (Enter again for the next match)",
+        self.open_dialog(TextDialog("Search series by key (Enter again for the next match)",
                                         "part of a product or segment name", value=self._last_search), found)
 
     def action_filter(self) -> None:
@@ -323,14 +332,14 @@ class TriageScreen(DecisionFlow, Screen):
             self.refresh_all()
         current = f"flag:{session.flag_filter}" if session.flag_filter else session.filter
         prompt = "Show which series? A status, or a flag within the status shown now ('any flag' drops the flag)"
-        self.app.push_screen(ChoiceDialog(prompt, options, current), chosen)
+        self.open_dialog(ChoiceDialog(prompt, options, current), chosen)
 
     def action_sort(self) -> None:
         def chosen(key: str | None) -> None:
             if key is not None:
                 self.session.set_sort(key)
                 self.refresh_all()
-        self.app.push_screen(ChoiceDialog("Order the list by", [(k, SORT_TITLES[k]) for k in SORTS],
+        self.open_dialog(ChoiceDialog("Order the list by", [(k, SORT_TITLES[k]) for k in SORTS],
                                           self.session.sort), chosen)
 
     def action_switch(self) -> None:
@@ -362,7 +371,7 @@ class TriageScreen(DecisionFlow, Screen):
     def action_help(self) -> None:
         said = "\n  ".join(filter(None, (keys_text(self.session.key_columns), spellings_text(self.session),
                                          missing_text(self.session))))
-        self.app.push_screen(MessageDialog(help_text(self.session.book, said or None), classes="help"))
+        self.open_dialog(MessageDialog(help_text(self.session.book, said or None), classes="help"))
 
     def action_quit(self) -> None:
         self.app.exit()

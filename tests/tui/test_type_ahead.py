@@ -1,0 +1,73 @@
+"""Keys typed ahead of the screen, as a fast typist's terminal sends them (queued at once; Pilot's ``press``
+waits for the screen between keys, so it never shows these).
+
+- ↓ Enter in the override dialog: the dialog's own Enter ran before the list had taken the ↓, found the proposal
+  highlighted, refused it and dropped the Enter (the analyst saw nothing happen).
+- Choosing a model closes the dialog, and the reason box opens when the screen runs the dialog's answer, which
+  Textual posts after the close: a key typed in between reached the list — an ``a`` (a reason begun "as good
+  as…") accepted the series under the cursor at once.  Now the screen takes no key of its own while an answer is
+  on its way.
+"""
+from __future__ import annotations
+
+import json
+
+from textual import events
+
+from tui.screens.dialogs import TextDialog
+from tui.screens.override import OverrideDialog
+
+from .conftest import all_listed, make_app, until
+
+
+def type_ahead(app, *keys: str) -> None:
+    for key in keys:
+        event = events.Key(key, key if len(key) == 1 else "\r" if key == "enter" else None)
+        event.set_sender(app)
+        app._driver.send_message(event)
+
+
+async def on_an_unflagged_series(app, pilot) -> int:
+    """The cursor on a series without flags that has a model to override with (``a`` records it at once)."""
+    session = await all_listed(app, pilot)
+    results = session.results
+    s = next(int(i) for i in session.view
+             if not session.diagnosis.raised[int(i)].any() and results.available[int(i)].sum() >= 2)
+    session.cursor = int((session.view == s).nonzero()[0][0])
+    app.screen.refresh_all()
+    await pilot.pause()
+    return s
+
+
+def records(path) -> list[dict]:
+    return [json.loads(line) for line in path.read_text().splitlines()] if path.exists() else []
+
+
+async def test_down_and_enter_typed_together_choose_the_next_model(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(120, 34)) as pilot:
+        await on_an_unflagged_series(app, pilot)
+        await pilot.press("o")
+        await until(pilot, lambda: isinstance(app.screen, OverrideDialog))
+        type_ahead(app, "down", "enter")
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        assert app.screen.query_one("Input").placeholder == "a note is required"
+
+
+async def test_no_key_of_the_screen_acts_while_a_dialogs_answer_is_on_its_way(ledger_path):
+    app = make_app(ledger_path)
+    async with app.run_test(size=(120, 34)) as pilot:
+        await on_an_unflagged_series(app, pilot)
+        triage = app.screen
+        assert triage.check_action("accept", ())
+        await pilot.press("o", "down")
+        dialog = app.screen
+        assert isinstance(dialog, OverrideDialog)
+        model = dialog.rows[dialog.query_one("OptionList").highlighted].name
+        dialog.dismiss(model)  # as the list's Enter does: the answer is posted, the dialog popped
+        assert app.screen is triage and not triage.check_action("accept", ())  # a typed-ahead 'a' does nothing
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        await pilot.press(*"flat", "enter")
+        await until(pilot, lambda: len(records(ledger_path)) == 1)
+        assert [(r["action"], r["model"]) for r in records(ledger_path)] == [("override", model)]
+        assert app.screen is triage and triage.check_action("accept", ()) is not None  # keys act again
