@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 
 import numpy as np
 
@@ -30,6 +30,22 @@ def select(series: list[dict], products, keys: dict[str, str], flag: str | None)
             continue
         out.append(record)
     return out
+
+
+def near_miss(typed: Iterable[str], names: Iterable[str]) -> str:
+    """"; did you mean 'apples 1 kg '?" — for a ``--product`` that names nothing: the first of ``names`` (the
+    results' or the ledger's products) that reads alike loosely (case, white space, Unicode form:
+    ``fitcore.text.loose``), quoted as the plan check's hint quotes it; '' where none does."""
+    from fitcore.data.plan_checks import _alike
+    from fitcore.text import loose, original
+    names = list(dict.fromkeys(str(name) for name in names))
+    for text in typed:
+        text = original(text)
+        wanted = loose(text)
+        alike = next((name for name in names if name != text and loose(name) == wanted), None)
+        if alike is not None:
+            return f"; did you mean {_alike(text, alike)}?"
+    return ""
 
 
 def in_attention_order(records: list[dict], first: Callable[[dict], int] | None = None) -> list[dict]:
@@ -87,14 +103,21 @@ def _joined(key: dict, values: tuple[str, ...], named: str | None) -> str:
     return SEPARATOR.join(values)
 
 
-def key_cells(keys: list[dict], width: int = 40, shown: dict[int, tuple[str, ...]] | None = None) -> list[str]:
+def key_parts(key: dict) -> tuple[str, ...]:
+    """A series key's values as shown (``clean``'s), in its own order."""
+    return tuple(clean(str(v)) for v in key.values())
+
+
+def key_cells(keys: list[dict], width: int = 40, shown: dict[int, tuple[str, ...]] | None = None,
+              beside: list[tuple[str, ...]] = ()) -> list[str]:
     """Each ``key_text`` in ``width`` cells (padded) for a list's column, by the triage list's rule
     (``fitcore.widths.distinct_keys``): each part keeps a share and long ones lose their middle, cut
     again where two would read the same, so rows of different series read differently.  ``shown``: the parts
     of some keys (by place) as the caller shows them already, as the triage list's ``label_parts`` does (a
-    look-alike told apart from the ledger's spelling, ``fitcore.ledger.respelling.beside``)."""
+    look-alike told apart from the ledger's spelling, ``fitcore.ledger.respelling.beside``); ``beside``: keys the
+    words around name (the missing note's), each part reading like one of theirs told apart from it."""
     shown = shown or {}
-    parts = [shown.get(i) or tuple(clean(str(v)) for v in key.values()) for i, key in enumerate(keys)]
+    parts = told_apart([shown.get(i) or key_parts(key) for i, key in enumerate(keys)], beside)
     labels = distinct_keys(parts, width, SEPARATOR, cells)
     return [pad_cells(label, width) for label in labels]
 

@@ -64,16 +64,26 @@ class LooseIndex:
         self._by: dict[tuple, list[int]] = {}
         for key, i in zip(loose_keys(keys), at):
             self._by.setdefault(key, []).append(int(i))
+        self._first = {key[0] for key in self._by if key}  # the first column's loose values: a probe's first sieve
 
     def __len__(self) -> int:
         return sum(map(len, self._by.values()))
 
     def pairs(self, keys: Sequence[tuple], at: Sequence[int] | None = None) -> tuple[np.ndarray, np.ndarray]:
         """``(indexed, probe)``: each pair of an indexed series (its ``at`` given here) and a probing series (its
-        place in ``keys``, or its ``at``) whose keys are equal loosely."""
+        place in ``keys``, or its ``at``) whose keys are equal loosely.  Many probes against a few indexed: only
+        those whose first value is loosely one of theirs are read whole (a set look-up a probe, one ``loose`` a
+        distinct first value, instead of a tuple of loose values a probe)."""
         found, probes = [], []
         get = self._by.get
-        for j, key in enumerate(loose_keys(keys)):
+        places: Sequence[int] = range(len(keys))
+        if len(keys) > 4 * len(self._by) and self._first:
+            first = [key[0] for key in keys]
+            forms = {value: loose(str(value)) for value in set(first)}
+            wanted = self._first
+            places = [j for j, value in enumerate(first) if forms[value] in wanted]
+            keys = [keys[j] for j in places]
+        for j, key in zip(places, loose_keys(keys)):
             hits = get(key)
             if hits:
                 found += hits
