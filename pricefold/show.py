@@ -37,12 +37,14 @@ def near_miss(typed: Iterable[str], names: Iterable[str]) -> str:
     results' or the ledger's products) that reads alike loosely (case, white space, Unicode form:
     ``fitcore.text.loose``), quoted as the plan check's hint quotes it; '' where none does."""
     from fitcore.data.plan_checks import _alike
-    from fitcore.text import loose, original
+    from fitcore.text import EitherForm, loose, original
     names = list(dict.fromkeys(str(name) for name in names))
     for text in typed:
         text = original(text)
+        if any(name in EitherForm([text]) for name in names):  # the product is there: another filter kept none
+            continue
         wanted = loose(text)
-        alike = next((name for name in names if name != text and loose(name) == wanted), None)
+        alike = next((name for name in names if loose(name) == wanted), None)
         if alike is not None:
             return f"; did you mean {_alike(text, alike)}?"
     return ""
@@ -81,18 +83,23 @@ def percent(share) -> str:
     return "0%" if text == "-0%" else text
 
 
+def key_parts(key: dict) -> tuple[str, ...]:
+    """A series key's values as shown (``clean``'s), in its own order."""
+    return tuple(clean(str(v)) for v in key.values())
+
+
 def key_text(key: dict, named: str | None = None) -> str:
     """A series key as one line of text, control characters replaced.  ``named``: the product column, whose
     value is given alone, every other value after its column's name (``region=South``): for a list of series
     keyed by several sets of columns, where ``South`` alone could be a region or an area."""
-    return _joined(key, tuple(clean(str(value)) for value in key.values()), named)
+    return _joined(key, key_parts(key), named)
 
 
 def key_texts(keys: list[dict], named: str | None = None) -> list[str]:
     """``key_text`` of each of ``keys`` listed together: a value that reads like another among them though it
     differs (``café`` decomposed beside composed, ``East `` beside ``East``) shows what does not show by code
     point (``cafe⟨U+0301⟩``, ``East⟨U+0020⟩``: ``fitcore.text.told_apart``)."""
-    shown = told_apart([tuple(clean(str(value)) for value in key.values()) for key in keys])
+    shown = told_apart([key_parts(key) for key in keys])
     return [_joined(key, values, named) for key, values in zip(keys, shown)]
 
 
@@ -101,11 +108,6 @@ def _joined(key: dict, values: tuple[str, ...], named: str | None) -> str:
         return SEPARATOR.join(value if name == named else f"{clean(str(name))}={value}"
                               for name, value in zip(key, values))
     return SEPARATOR.join(values)
-
-
-def key_parts(key: dict) -> tuple[str, ...]:
-    """A series key's values as shown (``clean``'s), in its own order."""
-    return tuple(clean(str(v)) for v in key.values())
 
 
 def key_cells(keys: list[dict], width: int = 40, shown: dict[int, tuple[str, ...]] | None = None,

@@ -102,8 +102,9 @@ def test_a_filtered_missing_note_counts_and_says_as_the_whole_one(cycle, capsys)
             "apples 1 kg · ") in err
     code, _, err = run(capsys, "show", results, "--product", "APPLES 1 KG")  # no ledger: the hint all the same
     assert code == 1 and err.strip() == f"pricefold show: no series in {results} matches; did you mean 'apples 1 kg '?"
-    code, _, err = run(capsys, "show", results, "--product", "no such thing")
-    assert code == 1 and err.strip() == f"pricefold show: no series in {results} matches"
+    for argv in (("--product", "no such thing"), ("--product", "apples 1 kg ", "--key", "region=West")):
+        code, _, err = run(capsys, "show", results, *argv)  # nothing alike, or the product there as typed
+        assert code == 1 and err.strip() == f"pricefold show: no series in {results} matches", argv
 
 
 def test_ledger_show_says_that_no_series_matches_with_a_hint(cycle, capsys):
