@@ -37,9 +37,9 @@ def test_demo_in_tmux_records_an_accept(tmp_path):
         def screen():
             return subprocess.run([*tmux, "capture-pane", "-p"], capture_output=True, text=True).stdout
 
-        first = wait_for(screen, lambda text: "listed (needs attention" in text and "a accept" in text)
+        first = wait_for(screen, lambda text: "listed (needs a decision" in text and "a accept" in text)
         assert "table salt 1 kg · South" in first
-        listed = int(first.split(" listed (needs attention")[0].split()[-1])
+        listed = int(first.split(" listed (needs a decision")[0].split()[-1])
         subprocess.run([*tmux, "send-keys", "a"], check=True)  # stop flags: the screen asks why first
         wait_for(screen, lambda text: "Say why" in text)
         subprocess.run([*tmux, "send-keys", "only two prices seen", "Enter"], check=True)
