@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import unicodedata
 from collections.abc import Callable, Iterable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -104,16 +104,14 @@ class Respelled:
     index among the ledger's series of the first (in the ledger's order) missing series it looks like; ``alike``
     (P,) int64: how many of the ledger's missing series it looks like (1 unless the ledger's own spellings
     collide); ``new``: how many results' series are new to the ledger, these included; ``example``: the first
-    pair's differing values, cleaned (``region "north" for "North"``; None when P is 0); ``paired`` (Q,) int64:
-    every ledger series some results' series looks like, ascending (``ledger``'s and the collisions' others): the
-    ledger's spellings that are in the results only under another (``fitcore.ledger.missing.Missing.beside``)."""
+    pair's differing values, cleaned (``region "north" for "North"``; None when P is 0).  The ledger's spellings
+    the results hold only under another, decided or not, are ``fitcore.ledger.missing.Missing.beside``'s."""
 
     results: np.ndarray
     ledger: np.ndarray
     alike: np.ndarray
     new: int
     example: str | None
-    paired: np.ndarray = field(default_factory=lambda: NO_INDICES)
 
     def __len__(self) -> int:
         return len(self.results)
@@ -153,11 +151,10 @@ def gathered(results_at: np.ndarray, ledger_at: np.ndarray, new: int, columns: S
     starts = np.flatnonzero(first)
     alike = np.diff(np.r_[starts, len(pairs)])
     results, ledger = pairs[first, 0], pairs[first, 1]
-    paired = np.unique(pairs[:, 1])
-    for array in (results, ledger, alike, paired):
+    for array in (results, ledger, alike):
         array.setflags(write=False)
     example = spelled(columns, results_key(int(results[0])), ledger_key(int(ledger[0])))
-    return Respelled(results, ledger, alike, new, example, paired)
+    return Respelled(results, ledger, alike, new, example)
 
 
 def spelled(columns: Sequence[str], theirs: tuple, ours: tuple) -> str:

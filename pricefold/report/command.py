@@ -203,7 +203,8 @@ class Charts:
         if status == "stale" and not signed:
             standing = -1
         chart = ChartInput(fit, at, rows and bool(fit.rows_loaded), standing, proposal, words, signed)
-        return self.maker.draw(chart, f"Demand curve of {label(book.results, s, self.tell_apart)}", note, salt=f"s{s}")
+        title = f"Demand curve of {label(book.results, s, self.tell_apart)}"
+        return self.maker.draw(chart, title, note, salt=f"s{s}")
 
 
 def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple[tuple[str, ...], list[tuple]]:
