@@ -83,20 +83,37 @@ def revealed(shown: str) -> str:
 _SPACE = escaped(" ")
 
 
-def told_apart(keys: Sequence[tuple[str, ...]]) -> list[tuple[str, ...]]:
+def told_apart(keys: Sequence[tuple[str, ...]], beside: Iterable[tuple[str, ...]] = ()) -> list[tuple[str, ...]]:
     """``keys`` (tuples of shown texts, ``clean``'s) shown together, each value that reads like another value
     among them (``reads``) but differs from it shown ``revealed``, whichever parts of which keys they are
-    (``café`` decomposed in East beside ``café`` composed in North); the rest as they are.  Costs a set of
-    the values where no value is unnormalised or has a space at an end."""
+    (``café`` decomposed in East beside ``café`` composed in North); the rest as they are.  ``beside``: keys
+    not shown here that the words around name (a missing note's ledger series): each value of ``keys`` that
+    reads like one of theirs is told apart from it too.  Costs a set of the values where no value is
+    unnormalised or has a space at an end."""
     values = {value for key in keys for value in key}
     odd = [value for value in values if not _plain(value) and revealed(value) != value]
     if not odd:
         return list(keys)
     spellings: dict[str, set] = {}
-    for value in values:
+    for value in values.union(*beside):
         spellings.setdefault(reads(value), set()).add(value)
     shown = {value: revealed(value) for value in odd if len(spellings[reads(value)]) > 1}
     return [tuple(shown.get(value, value) for value in key) for key in keys] if shown else list(keys)
+
+
+def told_apart_from(beside: Iterable[tuple[str, ...]]):
+    """``told_apart`` of one key at a time (a list's row, a title, a notification's words) beside the same many keys
+    (``beside``: a missing note's), their values indexed once by what they read as: a key costs a look-up a value,
+    not a pass over ``beside``.  Returns that function, key → key as shown."""
+    by_reads: dict[str, set[str]] = {}
+    for key in beside:
+        for value in key:
+            by_reads.setdefault(reads(value), set()).add(value)
+
+    def shown(key: tuple[str, ...]) -> tuple[str, ...]:
+        near = [tuple(by_reads[read]) for read in map(reads, key) if read in by_reads]
+        return told_apart([key], near)[0] if near else key
+    return shown
 
 
 def _plain(text: str) -> bool:

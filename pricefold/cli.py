@@ -150,7 +150,12 @@ def _show(args, keys: dict) -> int:
             from fitcore.errors import SettingsError
             raise SettingsError(f"these results have no key column {unknown[0]!r}; their key columns: "
                                 f"{', '.join(names)}")
-        print(f"pricefold show: no series in {args.results} matches", file=sys.stderr)
+        from fitcore.results.series_columns import results_keys
+
+        from .show import near_miss
+        every = list(results_keys(args.results)) if args.product else []
+        hint = near_miss(args.product, (next(iter(key.values())) for key in every)) if every else ""
+        print(f"pricefold show: no series in {args.results} matches{hint}", file=sys.stderr)
         if args.ledger is not None and not args.flag:  # a signed series renamed away matches no row: say where it went
             from .cycle_cli import show_missing
             show_missing(args.results, header, args.ledger, lambda key: within(key, header, products, keys))

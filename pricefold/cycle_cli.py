@@ -16,9 +16,10 @@ from fitcore.ledger.elsewhere import backtested_elsewhere, without_backtest
 from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, newer_standing
-from fitcore.text import clean
+from fitcore.text import clean, told_apart
 
 from .fit_ledger import must_exist
+from .show import key_parts
 from .ledger_cli import (MISSING_TAIL, identity, key_mismatch, meets, open_ledger, parse_head, refuse_key_mismatch,
                          say_missing)
 
@@ -123,19 +124,19 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     (``≈North`` where the flags begin; a series in full says which it looks like) and their keys told apart from
     the ledger's spelling (``East⟨U+0020⟩``), filtered or not, as on the screen.  ``first``: a record's rank
     ahead of the attention order (``show.in_attention_order``)."""
+    from fitcore.ledger.missing import missing_from
+    from fitcore.results.series_columns import results_keys
     from fitcore.review.sentences import shift_sentence
 
     from .show import detail, in_attention_order, key_cells
     book = open_ledger(ledger_path, must_exist=True)
     like: dict[str, dict] = {}  # series id → the ledger series it looks like
-    found = None
+    beside: list[tuple[str, ...]] = []  # the missing signed series' keys as shown: told apart from the list's
     if header is not None:
         said, tail = key_mismatch(header, book, ledger_path), "every series reads as pending"
+        # the look-alikes and the missing are judged against every series of the results, not the filter's
+        keys = [record["key"] for record in records] if whole else list(results_keys(results))
         if said is None and book.histories:  # the same key columns: is any of the ledger's series among these?
-            keys = [record["key"] for record in records]
-            if not whole:  # the look-alikes are judged against every series of the results, not the filter's
-                from fitcore.results.series_columns import results_keys
-                keys = list(results_keys(results))
             found_said, found = meets(keys, book, ledger_path)
             ledger_keys = [h.latest["series"] for h in book.histories.values()]
             like = {series_id(keys[i]): ledger_keys[j] for i, j in found.looks_like().items()}
@@ -146,8 +147,10 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         if said:
             print(f"pricefold show: {results}: warning: {said}; {tail}", file=sys.stderr)
         if whole or within is not None:  # keyed otherwise, or none shared: none is counted (another clause says it)
-            say_missing("pricefold show", results, [record["key"] for record in records], book, ledger_path,
-                        None if whole else within, found)
+            gone = say_missing("pricefold show", results, keys, book, ledger_path, None if whole else within)
+        else:  # a --flag filter: none counted, the listed still told apart from the missing spellings
+            gone = missing_from(keys, book.histories)
+        beside = gone.shown()
         foreign = backtested_elsewhere(results, header, ledger_path)
         if foreign:
             print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "
@@ -156,8 +159,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     if len(records) == 1:
         record = records[0]
         status, needs = ledger_state(record, book)
-        shown = looks_shown([record], like)
-        label = SEPARATOR.join(shown[0]) if shown else None
+        shown = looks_shown([record], like) or {0: told_apart([key_parts(record["key"])], beside)[0]}
+        label = SEPARATOR.join(shown[0])
         lines = [detail(record, binary, label), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
         alike = like.get(series_id(record["key"]))
         if alike is not None:
@@ -174,7 +177,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         return "\n".join(lines)
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]
     ordered = in_attention_order(records, first)
-    labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like))  # as the screen's
+    labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like), beside=beside)
     for record, label in zip(ordered, labels):
         status, needs = ledger_state(record, book, short=True)
         bt = record.get("backtest") or {}
@@ -195,15 +198,11 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
 
 def show_missing(results: Path, header: dict, ledger_path: Path, within) -> None:
     """Where ``show --ledger``'s filter matched no series of the results: the ledger's signed series it would keep,
-    said as missing (a product renamed in the data: its old name matches no row, its decisions are in the ledger)."""
-    book = open_ledger(ledger_path, must_exist=True)
-    from fitcore.ledger.key_columns import results_columns
-    from fitcore.ledger.missing import Missing, signed_keys
-    columns = results_columns(header)
-    if columns:
-        said = Missing(tuple(signed_keys(book.histories, columns, within)), columns=tuple(columns)).said(str(ledger_path))
-        if said:
-            print(f"pricefold show: {results}: note: {said}; {MISSING_TAIL}", file=sys.stderr)
+    said as missing by the unfiltered note's rule (a product renamed in the data: its old name matches no row, its
+    decisions are in the ledger; one the results hold under another spelling said as such)."""
+    from fitcore.results.series_columns import results_keys
+    say_missing("pricefold show", results, list(results_keys(results)), open_ledger(ledger_path, must_exist=True),
+                ledger_path, within)
 
 
 def looks_shown(records: list[dict], like: dict[str, dict]) -> dict[int, tuple[str, ...]]:
@@ -475,7 +474,7 @@ def _carry(args) -> int:
         tail = ("nothing can be carried" if found.new == len(keys) else
                 "those are not carried (a decision is carried only to its own spelling)")
         print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
-    say_missing("pricefold ledger", args.results, keys, book, args.ledger, found=found)
+    say_missing("pricefold ledger", args.results, keys, book, args.ledger)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
         plan, left = plan_from_stored(args.results, overrides, book.histories)

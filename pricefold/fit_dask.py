@@ -91,7 +91,7 @@ def _none_backtested(args, book) -> bool:
     if said:
         tail = "those were not backtested" if some else "nothing was backtested"
         print(f"pricefold fit: warning: {said}; {tail}", file=sys.stderr)
-    say_missing("pricefold fit", None, keys, book, args.ledger, found=found)  # as the local fit, after its warnings
+    say_missing("pricefold fit", None, keys, book, args.ledger)  # as the local fit, after its warnings
     return said is not None and not some
 
 

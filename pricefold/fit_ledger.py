@@ -141,9 +141,9 @@ def backtest_against(ahead: LedgerAhead, results, diagnosis, thresholds):
     elif alike:  # the others are backtested; these read as new series, their signed spelling as gone
         print(f"pricefold fit: warning: {alike}; those were not backtested", file=sys.stderr)
     if said is None and len(standing):  # signed series gone from the data (renamed, or another range): a note
-        from fitcore.ledger.missing import missing_at
-        gone = missing_at(standing.series, at, keys.names).beside(
-            standing.series[j] for j in looks.paired.tolist()).said(str(ahead.path))
+        from fitcore.ledger.missing import missing_at, results_values
+        gone = missing_at(standing.series, at, keys.names)
+        gone = (gone.beside(results_values(keys)) if len(gone) else gone).said(str(ahead.path))
         if gone:
             print(f"pricefold fit: note: {gone}; {MISSING_TAIL}", file=sys.stderr)
     found = backtest(results, standing, thresholds, source)

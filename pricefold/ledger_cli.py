@@ -133,23 +133,21 @@ def meets(results_keys: list[dict], book: ledger.Ledger, ledger_path: Path, what
     return "; ".join(part for part in said if part) or None, found
 
 
-def say_missing(prog: str, results: Path | None, results_keys, book: ledger.Ledger, ledger_path: Path,
-                within=None, found=None) -> None:
+def say_missing(prog: str, results: Path | None, results_keys: list[dict], book: ledger.Ledger, ledger_path: Path,
+                within=None):
     """A note on stderr where signed series of ``book`` keyed by the results' columns are not among
-    ``results_keys`` (``fitcore.ledger.missing``; ``within``: only those a filter on the results keeps;
-    ``results``: the file it is about, None for the fit's own; ``found``: the ``Respelled`` of ``meets``, whose
-    look-alikes' ledger spellings are not chosen as the example).  Never a refusal: a team ledger may hold other
-    product ranges, and results may be a subset."""
+    ``results_keys`` (every series of the results: ``fitcore.ledger.missing``; ``within``: only the ledger's
+    series a filter on the results keeps are counted; ``results``: the file it is about, None for the fit's own),
+    those the results hold under another spelling said as such (``Missing.beside``).  Never a refusal: a team
+    ledger may hold other product ranges, and results may be a subset.  Returns the ``Missing``."""
+    from fitcore.ledger.missing import NONE, missing_from
     if not book.histories:
-        return
-    from fitcore.ledger.missing import missing_from
-    gone = missing_from(results_keys, book.histories, within)
-    if found is not None and len(found.paired) and len(gone):
-        ledger_keys = [h.latest["series"] for h in book.histories.values()]
-        gone = gone.beside(ledger_keys[j] for j in found.paired.tolist())
+        return NONE
+    gone = missing_from(results_keys, book.histories, within).beside(results_keys)
     said = gone.said(str(ledger_path))
     if said:
         print(f"{prog}: {f'{results}: ' if results else ''}note: {said}; {MISSING_TAIL}", file=sys.stderr)
+    return gone
 
 
 def refuse_key_mismatch(results: Path, header: dict, book: ledger.Ledger, ledger_path: Path) -> None:
@@ -247,6 +245,7 @@ def run_show(args) -> int:
     texts = key_texts([product_first(r["series"], product) for r in book.records], named=named)  # told apart
     wanted = EitherForm(args.product or ())  # either normal form, or as shown, as the screen's search
     histories = {}  # replayed as listed: a revoke names the decision it withdrew
+    listed = 0
     for r, text in zip(book.records, texts):
         withdrawn = (own_standing(histories.get(series_id(r["series"])), r["analyst"], r.get("os_user"))
                      if r["action"] == "revoke" else None)
@@ -267,6 +266,12 @@ def run_show(args) -> int:
         note = f" — {clean(r['note'])}" if r.get("note") else ""
         print(f"#{r['seq']:<5} {clean(r['at'])}  {who:<12} {r['action']:<8} {model:<22} "
               f"{text}{note}")
+        listed += 1
+    if args.product and not listed:  # as show says it: a near miss (a space at an end, a case) named
+        from .show import near_miss
+        hint = near_miss(args.product, (key[product] for key in keys if product in key))
+        print(f"pricefold ledger: no series in {args.ledger} matches{hint}", file=sys.stderr)
+        return 1
     return 0
 
 
@@ -290,7 +295,7 @@ def run_accept_unflagged(args) -> int:
     keys = ResultsKeys(args.results)  # read once, where the ledger holds series: checked again under the lock
     checked = (len(book.records), new_set(args, keys, book, warn=True))  # said (or refused) before anything is written
     if book.histories:  # a renamed product's signed spelling gone: said before its new name is accepted as new
-        say_missing("pricefold ledger", args.results, keys.keys, book, args.ledger, found=checked[1])
+        say_missing("pricefold ledger", args.results, keys.keys, book, args.ledger)
     counted: dict[str, int] = {}
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now

@@ -112,7 +112,7 @@ def run_export(args) -> int:
     if said:  # a warning, not a refusal: a team ledger may hold other product ranges keyed alike
         tail = "every row is pending" if found.new == count else "their rows are pending, beside the ledger's own"
         print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
-    say_missing("pricefold ledger", args.results, keys, book, args.ledger, found=found)  # no row for those
+    say_missing("pricefold ledger", args.results, keys, book, args.ledger)  # no row for those
     if later:
         _signed_at_price(args.results, rows, later, level)
     for row in rows:

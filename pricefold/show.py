@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 
 import numpy as np
 
@@ -30,6 +30,24 @@ def select(series: list[dict], products, keys: dict[str, str], flag: str | None)
             continue
         out.append(record)
     return out
+
+
+def near_miss(typed: Iterable[str], names: Iterable[str]) -> str:
+    """"; did you mean 'apples 1 kg '?" — for a ``--product`` that names nothing: the first of ``names`` (the
+    results' or the ledger's products) that reads alike loosely (case, white space, Unicode form:
+    ``fitcore.text.loose``), quoted as the plan check's hint quotes it; '' where none does."""
+    from fitcore.data.plan_checks import _alike
+    from fitcore.text import EitherForm, loose, original
+    names = list(dict.fromkeys(str(name) for name in names))
+    for text in typed:
+        text = original(text)
+        if any(name in EitherForm([text]) for name in names):  # the product is there: another filter kept none
+            continue
+        wanted = loose(text)
+        alike = next((name for name in names if loose(name) == wanted), None)
+        if alike is not None:
+            return f"; did you mean {_alike(text, alike)}?"
+    return ""
 
 
 def in_attention_order(records: list[dict], first: Callable[[dict], int] | None = None) -> list[dict]:
@@ -65,18 +83,23 @@ def percent(share) -> str:
     return "0%" if text == "-0%" else text
 
 
+def key_parts(key: dict) -> tuple[str, ...]:
+    """A series key's values as shown (``clean``'s), in its own order."""
+    return tuple(clean(str(v)) for v in key.values())
+
+
 def key_text(key: dict, named: str | None = None) -> str:
     """A series key as one line of text, control characters replaced.  ``named``: the product column, whose
     value is given alone, every other value after its column's name (``region=South``): for a list of series
     keyed by several sets of columns, where ``South`` alone could be a region or an area."""
-    return _joined(key, tuple(clean(str(value)) for value in key.values()), named)
+    return _joined(key, key_parts(key), named)
 
 
 def key_texts(keys: list[dict], named: str | None = None) -> list[str]:
     """``key_text`` of each of ``keys`` listed together: a value that reads like another among them though it
     differs (``café`` decomposed beside composed, ``East `` beside ``East``) shows what does not show by code
     point (``cafe⟨U+0301⟩``, ``East⟨U+0020⟩``: ``fitcore.text.told_apart``)."""
-    shown = told_apart([tuple(clean(str(value)) for value in key.values()) for key in keys])
+    shown = told_apart([key_parts(key) for key in keys])
     return [_joined(key, values, named) for key, values in zip(keys, shown)]
 
 
@@ -87,14 +110,16 @@ def _joined(key: dict, values: tuple[str, ...], named: str | None) -> str:
     return SEPARATOR.join(values)
 
 
-def key_cells(keys: list[dict], width: int = 40, shown: dict[int, tuple[str, ...]] | None = None) -> list[str]:
+def key_cells(keys: list[dict], width: int = 40, shown: dict[int, tuple[str, ...]] | None = None,
+              beside: list[tuple[str, ...]] = ()) -> list[str]:
     """Each ``key_text`` in ``width`` cells (padded) for a list's column, by the triage list's rule
     (``fitcore.widths.distinct_keys``): each part keeps a share and long ones lose their middle, cut
     again where two would read the same, so rows of different series read differently.  ``shown``: the parts
     of some keys (by place) as the caller shows them already, as the triage list's ``label_parts`` does (a
-    look-alike told apart from the ledger's spelling, ``fitcore.ledger.respelling.beside``)."""
+    look-alike told apart from the ledger's spelling, ``fitcore.ledger.respelling.beside``); ``beside``: keys the
+    words around name (the missing note's), each part reading like one of theirs told apart from it."""
     shown = shown or {}
-    parts = [shown.get(i) or tuple(clean(str(v)) for v in key.values()) for i, key in enumerate(keys)]
+    parts = told_apart([shown.get(i) or key_parts(key) for i, key in enumerate(keys)], beside)
     labels = distinct_keys(parts, width, SEPARATOR, cells)
     return [pad_cells(label, width) for label in labels]
 

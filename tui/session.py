@@ -66,6 +66,9 @@ class TriageSession(Deciding, Standing, ListState):
         data = results.data
         self.keys = SeriesKeys.of(data)  # Arrow columns: no Python object per series
         self._labels: dict[int, tuple[str, ...]] = {}
+        self._missing: tuple = (None, None, None)  # ``_missing_now``'s, and what it was asked of
+        self.missing_changes = 0  # counts changes to ``missing_signed``: a list's labels made before are stale
+        self._values: tuple = (None, None)  # (keys, their values: ``fitcore.ledger.missing.results_values``)
         self._alike_values: dict[int, dict[str, str]] = {}  # key column → its values that read alike, as shown
         _ = data.fingerprints  # computed here, in the loading worker, not on the first decision
         self._known: dict[str, int] = {}  # series id → index, for every series the ledger has named
@@ -117,6 +120,7 @@ class TriageSession(Deciding, Standing, ListState):
             self.key_columns.reset()
             self.spellings.reset()
             self.missing_signed.clear()
+            self.missing_changes += 1
         everything = not self._applied  # every record: the replay has named their series already
         records = self.book.records[self._applied:]
         self._applied = len(self.book.records)
@@ -154,21 +158,38 @@ class TriageSession(Deciding, Standing, ListState):
         names = set(self.keys.names)
         for sid in [sid for sid in touched if self._known[sid] < 0]:
             key = touched[sid]
+            before = len(self.missing_signed)
             if key.keys() == names and signing(self.histories[sid].current):
                 self.missing_signed[sid] = key
             else:
                 self.missing_signed.pop(sid, None)
+            if len(self.missing_signed) != before:  # a label may read like one: told apart again
+                self._labels.clear()
+                self.missing_changes += 1
 
     @property
     def missing(self):
         """``fitcore.ledger.missing.Missing`` of the ledger's signed series these results do not hold (none where
         none of its series is: the header says that instead), told which are look-alikes' ledger spellings."""
-        from fitcore.ledger.missing import NONE, Missing
+        from fitcore.ledger.missing import NONE
         if not self.missing_signed or self.key_columns.said is not None:
             return NONE
-        spellings = self.spellings  # the look-alikes' ledger spellings said as such, as every command says them
-        paired = (dict(zip(spellings.columns, spellings.missing[j])) for j in spellings.found.paired.tolist())
-        return Missing(tuple(self.missing_signed.values()), True, tuple(self.keys.names)).beside(paired)
+        return self._missing_now()[1]
+
+    def _missing_now(self) -> tuple:
+        """``(asked, Missing, told)``, made again only when the missing series or the keys changed: the
+        ``Missing`` (the look-alikes' ledger spellings said as such, decided or not) and ``told``, a key told
+        apart from those series' keys (``fitcore.text.told_apart_from``)."""
+        from fitcore.ledger.missing import Missing, results_values
+        from fitcore.text import told_apart_from
+        asked = (self.keys, self.missing_changes)
+        if self._missing[0] != asked:
+            if self._values[0] is not self.keys:  # every results' series' values: made once for these keys
+                self._values = (self.keys, results_values(self.keys))
+            gone = Missing(tuple(self.missing_signed.values()), True, tuple(self.keys.names))
+            gone = gone.beside(self._values[1]) if len(gone) else gone
+            self._missing = (asked, gone, told_apart_from(gone.shown()))
+        return self._missing
 
     def _share_check(self) -> None:
         """Whether any of the ledger's series is in these results (the first one found ends the look; only when
@@ -278,7 +299,10 @@ class TriageSession(Deciding, Standing, ListState):
         if parts is None:
             if len(self._labels) > 4096:
                 self._labels.clear()
-            parts = self._labels[s] = tuple(clean(self.keys.columns[n][s].as_py() or "") for n in self.keys.names)
+            parts = tuple(clean(self.keys.columns[n][s].as_py() or "") for n in self.keys.names)
+            if self.missing_signed and self.key_columns.said is None:  # apart from those the header names missing
+                parts = self._missing_now()[2](parts)
+            self._labels[s] = parts
         return parts
 
     def label(self, s: int) -> str:

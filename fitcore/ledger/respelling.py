@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import unicodedata
 from collections.abc import Callable, Iterable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -64,16 +64,26 @@ class LooseIndex:
         self._by: dict[tuple, list[int]] = {}
         for key, i in zip(loose_keys(keys), at):
             self._by.setdefault(key, []).append(int(i))
+        self._first = {key[0] for key in self._by if key}  # the first column's loose values: a probe's first sieve
 
     def __len__(self) -> int:
         return sum(map(len, self._by.values()))
 
     def pairs(self, keys: Sequence[tuple], at: Sequence[int] | None = None) -> tuple[np.ndarray, np.ndarray]:
         """``(indexed, probe)``: each pair of an indexed series (its ``at`` given here) and a probing series (its
-        place in ``keys``, or its ``at``) whose keys are equal loosely."""
+        place in ``keys``, or its ``at``) whose keys are equal loosely.  Many probes against a few indexed: only
+        those whose first value is loosely one of theirs are read whole (a set look-up a probe, one ``loose`` a
+        distinct first value, instead of a tuple of loose values a probe)."""
         found, probes = [], []
         get = self._by.get
-        for j, key in enumerate(loose_keys(keys)):
+        places: Sequence[int] = range(len(keys))
+        if len(keys) > 4 * len(self._by) and self._first:
+            first = [key[0] for key in keys]
+            forms = {value: loose(str(value)) for value in set(first)}
+            wanted = self._first
+            places = [j for j, value in enumerate(first) if forms[value] in wanted]
+            keys = [keys[j] for j in places]
+        for j, key in zip(places, loose_keys(keys)):
             hits = get(key)
             if hits:
                 found += hits
@@ -94,16 +104,14 @@ class Respelled:
     index among the ledger's series of the first (in the ledger's order) missing series it looks like; ``alike``
     (P,) int64: how many of the ledger's missing series it looks like (1 unless the ledger's own spellings
     collide); ``new``: how many results' series are new to the ledger, these included; ``example``: the first
-    pair's differing values, cleaned (``region "north" for "North"``; None when P is 0); ``paired`` (Q,) int64:
-    every ledger series some results' series looks like, ascending (``ledger``'s and the collisions' others): the
-    ledger's spellings that are in the results only under another (``fitcore.ledger.missing.Missing.beside``)."""
+    pair's differing values, cleaned (``region "north" for "North"``; None when P is 0).  The ledger's spellings
+    the results hold only under another, decided or not, are ``fitcore.ledger.missing.Missing.beside``'s."""
 
     results: np.ndarray
     ledger: np.ndarray
     alike: np.ndarray
     new: int
     example: str | None
-    paired: np.ndarray = field(default_factory=lambda: NO_INDICES)
 
     def __len__(self) -> int:
         return len(self.results)
@@ -143,11 +151,10 @@ def gathered(results_at: np.ndarray, ledger_at: np.ndarray, new: int, columns: S
     starts = np.flatnonzero(first)
     alike = np.diff(np.r_[starts, len(pairs)])
     results, ledger = pairs[first, 0], pairs[first, 1]
-    paired = np.unique(pairs[:, 1])
-    for array in (results, ledger, alike, paired):
+    for array in (results, ledger, alike):
         array.setflags(write=False)
     example = spelled(columns, results_key(int(results[0])), ledger_key(int(ledger[0])))
-    return Respelled(results, ledger, alike, new, example, paired)
+    return Respelled(results, ledger, alike, new, example)
 
 
 def spelled(columns: Sequence[str], theirs: tuple, ours: tuple) -> str:

@@ -140,9 +140,9 @@ class Charts:
     each on its own matplotlib figure, since one chart is tens of milliseconds of Python.
     """
 
-    def __init__(self, book: Book, signoff, series) -> None:
+    def __init__(self, book: Book, signoff, series, tell_apart=None) -> None:
         from fitcore.data.keys import SeriesKeys
-        self.book, self.signoff, self.maker = book, signoff, None
+        self.book, self.signoff, self.maker, self.tell_apart = book, signoff, None, tell_apart
         self.series = [int(s) for s in series]
         self._found, self._drawn, self.fit = {}, {}, book.fit
         if book.source is not None and self.series:  # fit the charted series only; find them in that fit
@@ -203,21 +203,23 @@ class Charts:
         if status == "stale" and not signed:
             standing = -1
         chart = ChartInput(fit, at, rows and bool(fit.rows_loaded), standing, proposal, words, signed)
-        return self.maker.draw(chart, f"Demand curve of {label(book.results, s)}", note, salt=f"s{s}")
+        title = f"Demand curve of {label(book.results, s, self.tell_apart)}"
+        return self.maker.draw(chart, title, note, salt=f"s{s}")
 
 
-def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple[str, ...]:
+def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple[tuple[str, ...], list[tuple]]:
     """Where the results and the ledger part, each in the commands' one clause: the ledger's signed series not in
     the results (``fitcore.ledger.missing``), and the results' series that look like its own under another spelling
-    (``fitcore.ledger.respelling``) — what an approver reading "34 pending" would not otherwise learn."""
+    (``fitcore.ledger.respelling``) — what an approver reading "34 pending" would not otherwise learn; and those
+    missing series' keys as shown, which the page's series are told apart from (``Missing.shown``)."""
     import numpy as np
 
     from fitcore.data.keys import SeriesKeys
-    from fitcore.ledger.missing import missing_at, signed_keys
+    from fitcore.ledger.missing import RENAMED, missing_at, results_values, signed_keys
 
     from ..fit_ledger import signed_alike
     if not histories:
-        return ()
+        return (), []
     keys = SeriesKeys.of(results.data)
     names = tuple(keys.names)
     signed = signed_keys(histories, names)
@@ -228,9 +230,10 @@ def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple
     if shared:
         ledger_keys = [h.latest["series"] for h in histories.values()]
         looks = signed_alike(keys, ledger_keys, keys.indices_of(ledger_keys))
-        gone = gone.beside(ledger_keys[j] for j in looks.paired.tolist())
+        gone = gone.beside(results_values(keys)) if len(gone) else gone
         alike = looks.said(str(ledger_path))
-    return tuple(said for said in (gone.said(str(ledger_path)), alike) if said)
+    missing = gone.said(str(ledger_path))
+    return tuple(said for said in (missing and f"{missing}; {RENAMED}", alike) if said), gone.shown()
 
 
 def version() -> str:
@@ -249,6 +252,7 @@ def run(args) -> int:
         raise SettingsError(INSTALL_HINT) from None
     from fitcore.ledger.signoff import STATUSES, gather
     from fitcore.results.source import default_ledger
+    from fitcore.text import told_apart_from
 
     __version__ = version()
     from ..ledger_cli import ledger_key
@@ -274,15 +278,16 @@ def run(args) -> int:
     diagnosis, backtest = with_backtest(book, view, ledger_path, histories)
     signoff = gather(book.results, diagnosis, list(view.records), histories)
     decided, flagged, more = signoff.detailed()
-    charts = Charts(book, signoff, [*decided.tolist(), *flagged.tolist()])
+    apart, missing = results_apart(book.results, histories, signoff, ledger_path)
+    tell_apart = told_apart_from(missing)  # a series reading like one the summary names missing: told apart
+    charts = Charts(book, signoff, [*decided.tolist(), *flagged.tolist()], tell_apart)
     charts.draw_all()
-    apart = results_apart(book.results, histories, signoff, ledger_path)
     for said in apart:  # as every command where results meet a ledger says it
         print(f"pricefold report: {args.results}: note: {said}", file=sys.stderr)
     made = datetime.now(timezone.utc)
     title = args.title or f"Sign-off report: {args.results.name}"
     report = Report(title, made, str(args.results), book.header, signoff, view, book.data_note,
-                    charts, __version__, backtest, apart)
+                    charts, __version__, backtest, apart, tell_apart)
     detailed = {int(s) for s in decided} | {int(s) for s in flagged}
     body = (f"<header><h1>{esc(title)}</h1><p class=\"muted\">Made {made.strftime('%Y-%m-%d %H:%M UTC')} by "
             f"pricefold {esc(__version__)} from <code>{esc(args.results)}</code> and the ledger "

@@ -128,7 +128,7 @@ def section(report: Report, s: int) -> str:
         if not results.price_lo[s] <= plan <= results.price_hi[s]:
             facts.append("<span class=\"sev-stop\">outside the observed prices: an extrapolation</span>")
     figure = chart_figure(report.chart(s))
-    return (f"<article class=\"exception\" id=\"s{s}\"><h3>{label(results, s)}</h3>"
+    return (f"<article class=\"exception\" id=\"s{s}\"><h3>{label(results, s, report.tell_apart)}</h3>"
             f"<p class=\"meta\">{' · '.join(facts)}</p>{figure}<h4>Candidates</h4>{candidates(signoff, s)}"
             f"<h4>Flags</h4>{flags(signoff, s)}{since(report, s)}<h4>Ledger</h4>{history(signoff, s)}</article>")
 

@@ -45,6 +45,7 @@ class Report:
     backtest: object = None  # the signed curves' backtest (``Backtest`` or ``StoredBacktest``; None: none)
     # where results and ledger part: signed series not in the results, series spelled otherwise (one clause each)
     apart: tuple = ()
+    tell_apart: Callable | None = None  # a key told apart from those signed series' (``told_apart_from``)
 
 
 def esc(text) -> str:

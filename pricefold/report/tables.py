@@ -22,13 +22,16 @@ COLUMNS = (("Series", ""), ("Status", ""), ("Model", ""), ("Plan price", "num"),
            ("Elasticity", "num"), ("Flags", ""), ("Analyst", ""), ("Time (UTC)", ""), ("Note", ""))
 
 
-def label(results, s: int) -> str:
+def label(results, s: int, tell_apart=None) -> str:
     """Series ``s``'s key as one line (product first), made safe for the page (``esc``); a key not in NFC
     form beside another that reads the same (``fitcore.data.keys.SeriesKeys.nfc_twins``) shows what NFC
-    changes by code point, as ``pricefold show`` does."""
-    parts = [clean(str(v)) for v in results.data.key_of(int(s)).values()]
+    changes by code point, as ``pricefold show`` does; ``tell_apart``: a key told apart from the signed series
+    the summary names missing (``fitcore.text.told_apart_from``)."""
+    parts = tuple(clean(str(v)) for v in results.data.key_of(int(s)).values())
     if _nfc_twins(results)[int(s)]:
-        parts = [reveal_unnormalised(part) for part in parts]
+        parts = tuple(reveal_unnormalised(part) for part in parts)
+    if tell_apart is not None:
+        parts = tell_apart(parts)
     return html.escape(" · ".join(parts), quote=True)
 
 
@@ -128,7 +131,7 @@ def model_cell(signoff: Signoff, s: int) -> str:
     return model
 
 
-def row(signoff: Signoff, s: int, detailed: set) -> str:
+def row(signoff: Signoff, s: int, detailed: set, tell_apart=None) -> str:
     results = signoff.results
     status = STATUSES[signoff.status[s]]
     numbers = at_plan(signoff, s)
@@ -141,7 +144,7 @@ def row(signoff: Signoff, s: int, detailed: set) -> str:
     current = signoff.standing(s) or {}
     history = signoff.history(s)
     latest = current or (history[-1] if history else {})
-    name = label(results, s)
+    name = label(results, s, tell_apart)
     key = f"<a href=\"#s{s}\">{name}</a>" if s in detailed else name
     carried = " (carried)" if signoff.carried[s] else ""
     time = when(latest["at"], zone=False) if latest.get("at") else ""
@@ -170,7 +173,7 @@ def decisions(report: Report, detailed: set) -> str:
     counts = signoff.counts()
     options = "".join(f"<option value=\"{s}\">{s}</option>" for s in STATUSES if counts[s])
     head = "".join(f"<th class=\"{cls}\">{name}</th>" if cls else f"<th>{name}</th>" for name, cls in COLUMNS)
-    body = "".join(row(signoff, int(s), detailed) for s in rows)
+    body = "".join(row(signoff, int(s), detailed, report.tell_apart) for s in rows)
     lead = (f"<p>{num(len(rows))} series: every series a person decided one by one, and every series with a "
             f"stop flag, most in need of attention first. Volumes are at the plan price under the model that "
             f"stands (the proposal while pending or held: a hold signs no curve; a stale series' as signed, on "

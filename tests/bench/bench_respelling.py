@@ -8,9 +8,9 @@ none, 1% or all of them respelled (the region lower-cased, or with a trailing sp
 case it prints the CPU time of ``respellings`` (median of ``--rounds``, the cases interleaved round by round) beside
 that of one look-up of every results' series in the ledger's histories by series id (what ``export`` and
 ``accept-unflagged`` do for each series anyway), and their ratio, then the same of ``missing_from`` (every ledger
-series signed) and of that count told which of them are look-alikes' ledger spellings (``Missing.beside`` with
-``Respelled.paired``: the note's example), with the load average.  Not a test: machines
-are noisy.
+series signed) and of that count told which of them the results hold under another spelling (``Missing.beside``
+matching every results' series loosely, decided or new: the note's clause and example), with the load average.
+Not a test: machines are noisy.
 """
 from __future__ import annotations
 
@@ -57,15 +57,13 @@ def main() -> None:
                                                                    ("all respelled", 1.0))}
     ids = {name: {series_id(key) for key in ledger} for name, (ledger, _) in cases.items()}
     histories = {name: {series_id(key): Signed(key) for key in ledger} for name, (ledger, _) in cases.items()}
-    paired = {name: [ledger[j] for j in respellings(results, ledger).paired.tolist()]
-              for name, (ledger, results) in cases.items()}
     times: dict[str, list[tuple[float, float, float, float]]] = {name: [] for name in cases}
     for _ in range(args.rounds):
         for name, (ledger, results) in cases.items():
             times[name].append((cpu(lambda: respellings(results, ledger)),
                                 cpu(lambda: [series_id(key) in ids[name] for key in results]),
                                 cpu(lambda: missing_from(results, histories[name])),
-                                cpu(lambda: missing_from(results, histories[name]).beside(paired[name]))))
+                                cpu(lambda: missing_from(results, histories[name]).beside(results))))
     load = open("/proc/loadavg").read().split()[0] if Path("/proc/loadavg").exists() else "?"
     print(f"{args.series:,} ledger series, {args.series * 101 // 100:,} results' series; CPU, median of "
           f"{args.rounds} (load {load}):")

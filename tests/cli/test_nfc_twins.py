@@ -113,5 +113,6 @@ def test_show_finds_a_product_in_either_form_the_one_typed_first(tmp_path, capsy
                  "tea 100 g"]) == 0
     captured = capsys.readouterr()
     assert [row[:40].rstrip() for row in captured.out.splitlines()[1:]] == ["tea 100 g", COMPOSED]  # as typed first
-    assert f"1 signed series in {book} is not in these results (present only under another spelling: {DECOMPOSED})" \
+    # the ledger's spelling told apart from the results' (composed) one it reads like
+    assert f"1 signed series in {book} is not in these results (present only under another spelling: {shown})" \
         in captured.err

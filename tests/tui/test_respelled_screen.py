@@ -220,3 +220,31 @@ async def test_the_override_dialog_opens_on_where_the_series_is_after_the_questi
         await pilot.press("up", "enter")  # Yes
         await until(pilot, lambda: isinstance(app.screen, OverrideDialog))
         assert app.screen.s == moved
+
+
+def test_a_decided_look_alike_reads_apart_from_the_signed_series_the_header_says_is_missing(ledger_path, tmp_path):
+    """A trial: once a look-alike (``apples 1 kg `` with a trailing space) was decided as a new series, its row, title
+    and a notification's words read ``apples 1 kg · North`` exactly as the header's note names the ledger's signed
+    series missing from the results, and the note no longer said that one is present under another spelling."""
+    from tui.factory import open_session
+    from tui.widgets.status_line import missing_text
+    signed_by_region(ledger_path)
+    with open(SAMPLE / "wholesale.csv", newline="") as src, open(tmp_path / "spaced.csv", "w", newline="") as out:
+        rows = csv.DictReader(src)
+        write = csv.DictWriter(out, rows.fieldnames)
+        write.writeheader()
+        for row in rows:
+            write.writerow({**row, "product": "apples 1 kg "} if row["product"] == "apples 1 kg" else row)
+    session = open_session(Source(data=tmp_path / "spaced.csv", columns=Columns(segments=("region",), date="week")),
+                           ledger_path, ANA)
+    s = int(session.keys.indices_of([{"product": "apples 1 kg ", "region": "North"}])[0])
+    assert session.label_parts(s) == ("apples 1 kg⟨U+0020⟩", "North")  # a look-alike: told apart already
+    said = missing_text(session)
+    assert " are not in these results (each present only under another spelling: apples 1 kg · North, …)" in said
+    ledger.append(ledger_path, [ledger.Entry(series={"product": "apples 1 kg ", "region": "North"}, action="accept",
+                                             fingerprint="f", results="ab" * 32, model="poly1")], BO)
+    session.reload_ledger()
+    assert session.spellings.like(s) is None  # decided: no longer new to the ledger
+    assert session.label_parts(s) == ("apples 1 kg⟨U+0020⟩", "North")  # before: ('apples 1 kg ', 'North')
+    assert session.label(s) == "apples 1 kg⟨U+0020⟩ · North"
+    assert missing_text(session) == said  # still present only under another spelling (before: the clause lost)

@@ -185,7 +185,8 @@ class SeriesList(ScrollView, can_focus=True):
         is cut again where it differs from another on screen, ``key_labels``); made once per screenful."""
         top = int(self.scroll_y)
         series = tuple(self.session.view[top:top + max(self.scrollable_content_region.height, 1)].tolist())
-        shows = (series, key_w, self.session.keys, self.session.spellings.found)  # found: look-alikes told apart
+        # found, missing: look-alikes told apart from the ledger's spelling, labels from the missing note's
+        shows = (series, key_w, self.session.keys, self.session.spellings.found, self.session.missing_changes)
         if self._labels[0] != shows:
             labels = key_labels([self.session.label_parts(s) for s in series], key_w)
             self._labels = (shows, dict(zip(series, labels)))
