@@ -210,3 +210,20 @@ def _joins(text: str, i: int) -> bool:
     presentation selector) before it, a pictograph after it."""
     before, after = text[i - 1:i], text[i + 1:i + 2]
     return bool(before and after) and (before == VS16 or category(before) in ("So", "Sk")) and category(after) == "So"
+
+
+def same_print(typed: str, found: str) -> bool:
+    """Do the two values differ only in Unicode form (they print the same)?"""
+    return normalize("NFC", clean(typed)) == normalize("NFC", clean(found))
+
+
+def hint_for(typed: str, found: str) -> str:
+    """``found`` (a value the data or ledger holds) quoted as a "did you mean" hint for ``typed``, which reads
+    alike loosely; where the two differ only in Unicode form, ``found`` by code point if it is the one not in NFC
+    form, else said to be the composed one (``plan_checks`` shows a typed value not in NFC by code point)."""
+    theirs = clean(found)
+    if not same_print(typed, found):
+        return quoted(found)  # case or spaces: visible between the quotes
+    if reveal_unnormalised(theirs) != theirs:
+        return f"'{reveal_unnormalised(theirs)}' (another Unicode form)"
+    return f"'{theirs}' (composed)"

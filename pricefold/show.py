@@ -35,9 +35,8 @@ def select(series: list[dict], products, keys: dict[str, str], flag: str | None)
 def near_miss(typed: Iterable[str], names: Iterable[str]) -> str:
     """"; did you mean 'apples 1 kg '?" — for a ``--product`` that names nothing: the first of ``names`` (the
     results' or the ledger's products) that reads alike loosely (case, white space, Unicode form:
-    ``fitcore.text.loose``), quoted as the plan check's hint quotes it; '' where none does."""
-    from fitcore.data.plan_checks import _alike
-    from fitcore.text import EitherForm, loose, original
+    ``fitcore.text.loose``), quoted as the plan check's hint quotes it (``fitcore.text.hint_for``); '' where none does."""
+    from fitcore.text import EitherForm, hint_for, loose, original
     names = list(dict.fromkeys(str(name) for name in names))
     for text in typed:
         text = original(text)
@@ -46,7 +45,7 @@ def near_miss(typed: Iterable[str], names: Iterable[str]) -> str:
         wanted = loose(text)
         alike = next((name for name in names if loose(name) == wanted), None)
         if alike is not None:
-            return f"; did you mean {_alike(text, alike)}?"
+            return f"; did you mean {hint_for(text, alike)}?"
     return ""
 
 

@@ -9,13 +9,12 @@ rows are named by their row number (``row 4``), as the data loader names a Parqu
 """
 from __future__ import annotations
 
-import unicodedata
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import DataError
-from ..text import clean, loose, quoted, reveal_unnormalised
+from ..text import clean, hint_for, loose, quoted, reveal_unnormalised, same_print
 from .loader import place
 from .validation import EMPTY_LINE, FIRST_DAY, LAST_DAY, LARGEST, RawRows, empty_keys
 
@@ -124,30 +123,14 @@ def unknown_key(path: Path, kind: str, line: int, key: dict, data_keys: dict) ->
     if broken is not None:  # the data may hold such a key (both read it as this reader does): only said
         said += f"; its {clean(broken)} holds a line break (a quote that closes on a later line than it opens)"
     if differ:
-        hints = [(f"{clean(name)}=" if by_name else "") + _alike(ours, other) for name, ours, other in differ]
+        hints = [(f"{clean(name)}=" if by_name else "") + hint_for(ours, other) for name, ours, other in differ]
         said += f"; did you mean {', '.join(hints)}?"
     return DataError(said, path=str(path), column=column, **place(kind, line))
-
-
-def _same_print(typed: str, found: str) -> bool:
-    """Do the two values differ only in Unicode form (they print the same)?"""
-    return unicodedata.normalize("NFC", clean(typed)) == unicodedata.normalize("NFC", clean(found))
 
 
 def _told_apart(typed: str, found: str) -> str | None:
     """The plan's value ``typed`` quoted beside the data's ``found``, by code point where it is the one not in NFC
     form of two that print the same (``fitcore.text.reveal_unnormalised``); None: as ``quoted`` shows it."""
     ours = clean(typed)
-    return f"'{reveal_unnormalised(ours)}'" if _same_print(typed, found) and reveal_unnormalised(ours) != ours \
+    return f"'{reveal_unnormalised(ours)}'" if same_print(typed, found) and reveal_unnormalised(ours) != ours \
         else None
-
-
-def _alike(typed: str, found: str) -> str:
-    """The data's value ``found`` quoted as a hint for ``typed``; where the two differ only in Unicode form, the
-    one not in NFC form shown by code point (the plan's in its key: ``_told_apart``)."""
-    theirs = clean(found)
-    if not _same_print(typed, found):
-        return quoted(found)  # case or spaces: visible between the quotes
-    if reveal_unnormalised(theirs) != theirs:
-        return f"'{reveal_unnormalised(theirs)}' (another Unicode form)"
-    return f"'{theirs}' (composed)"
