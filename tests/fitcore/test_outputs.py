@@ -255,8 +255,11 @@ def test_a_signal_between_renames_lands_after_the_last(tmp_path, name, returncod
     first, second = tmp_path / "r.rejects.csv", tmp_path / "r.json"
     first.write_text("old rejects")
     second.write_text("old results")
-    # SIGINT's own handler put back in the child: a pytest run in the background may inherit it ignored
-    code = "import signal; signal.signal(signal.SIGINT, signal.default_int_handler)\n" + _SIGNAL_MID_BATCH
+    # each signal's own handler put back in the child: a pytest run in the background may inherit SIGINT ignored,
+    # one under nohup SIGHUP (the batch keeps an ignored signal ignored)
+    code = ("import signal; signal.signal(signal.SIGINT, signal.default_int_handler)\n"
+            "signal.signal(signal.SIGTERM, signal.SIG_DFL); signal.signal(signal.SIGHUP, signal.SIG_DFL)\n"
+            + _SIGNAL_MID_BATCH)
     done = subprocess.run([sys.executable, "-c", code, str(first), str(second), name], capture_output=True,
                           text=True, timeout=60)
     assert done.returncode == returncode, done.stderr
