@@ -71,3 +71,24 @@ async def test_no_key_of_the_screen_acts_while_a_dialogs_answer_is_on_its_way(le
         await until(pilot, lambda: len(records(ledger_path)) == 1)
         assert [(r["action"], r["model"]) for r in records(ledger_path)] == [("override", model)]
         assert app.screen is triage and triage.check_action("accept", ()) is not None  # keys act again
+
+
+async def test_a_second_enter_typed_ahead_does_not_close_the_screen_beneath(ledger_path):
+    """↓ Enter, a reason begun and Enter, typed at once: the keys after the first Enter reached the closed
+    dialog's list (Textual forwards a key to the focus of the moment), its second Enter answered it again, and
+    Textual's ``dismiss`` popped the screen on top — the triage screen: a blank terminal where not even ``q``
+    acted.  Now a dialog answers once; the triage screen stays, and the reason box opens over it."""
+    from tui.screens.triage import TriageScreen
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await on_an_unflagged_series(app, pilot)
+        triage = app.screen
+        await pilot.press("o")
+        await until(pilot, lambda: isinstance(app.screen, OverrideDialog))
+        type_ahead(app, "down", "enter", "a", "s", "space", "g", "o", "enter")
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        await pilot.pause(0.3)
+        assert [type(s) for s in app.screen_stack][-2:] == [TriageScreen, TextDialog]
+        await pilot.press("escape")
+        await until(pilot, lambda: app.screen is triage)
+        assert records(ledger_path) == []  # nothing recorded by keys typed ahead

@@ -13,7 +13,19 @@ from textual.widgets.option_list import Option
 from ..text import literal
 
 
-class TextDialog(ModalScreen[str | None]):
+class Dialog(ModalScreen):
+    """A modal dialog that closes once.  Keys typed ahead reach the dialog's focused widget before it has closed
+    (Textual forwards each key to the focus of the moment), so a second Enter could answer it again — and
+    Textual's ``dismiss`` pops whatever screen is on top: the triage screen itself, leaving a blank terminal
+    where no key acts.  Only the first answer counts."""
+
+    def dismiss(self, result=None):
+        if self.app.screen is not self:  # answered already: not this dialog's screen to pop
+            return None
+        return super().dismiss(result)
+
+
+class TextDialog(Dialog):
     """One line of text; Enter returns it, Escape cancels.  ``required`` refuses an empty answer."""
 
     # Ctrl+C leaves pricefold from here too (the text field would take it as copy and do nothing); with a note
@@ -54,7 +66,7 @@ class TextDialog(ModalScreen[str | None]):
         self.app.action_interrupt()
 
 
-class ChoiceDialog(ModalScreen[str | None]):
+class ChoiceDialog(Dialog):
     """Pick one option by arrow keys and Enter; returns its id."""
 
     BINDINGS = [Binding("escape", "cancel", "cancel")]
@@ -82,7 +94,7 @@ class ChoiceDialog(ModalScreen[str | None]):
         self.dismiss(None)
 
 
-class MessageDialog(ModalScreen[None]):
+class MessageDialog(Dialog):
     """Text to read (help, an error); any of Enter, Escape or q closes it."""
 
     BINDINGS = [Binding("escape,enter,q,question_mark", "close", "close")]

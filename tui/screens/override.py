@@ -16,7 +16,6 @@ from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
-from textual.screen import ModalScreen
 from textual.widgets import OptionList, Static
 from textual.widgets.option_list import Option
 
@@ -27,6 +26,7 @@ from fitcore.review.sentences import fmt, money, two_places
 
 from ..cells import percent
 from ..text import literal
+from .dialogs import Dialog
 
 SHORT = 18  # terminal rows: below this, the dialog drops its padding and explanations so the models keep rows
 HEAD = ("model", "CV MSE", "± SE", "Q²", "volume", "95% PI", "elast.")
@@ -91,7 +91,7 @@ class Candidates(OptionList):
         super().action_select()
 
 
-class OverrideDialog(ModalScreen[str | None]):
+class OverrideDialog(Dialog):
     """Pick the candidate to put in the plan instead of the proposal; returns its name."""
 
     # Enter through the dialog, not the list: on the proposal (which cannot be picked) the list did nothing
