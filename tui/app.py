@@ -16,7 +16,7 @@ from fitcore.errors import PricefoldError
 from . import engine
 from .messages import EvidenceReady, FirstRows, FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
 from .opening import Opening
-from .screens.dialogs import MessageDialog
+from .screens.dialogs import MessageDialog, TextDialog
 from .text import printable
 
 if TYPE_CHECKING:  # the triage screen's modules load while the session opens (``load_screen``)
@@ -86,6 +86,14 @@ class TriageApp(App):
     # ctrl+q, a key the footer never shows), also while the data are read and fitted; a text field that
     # takes Ctrl+C itself (copy) keeps it.
     BINDINGS = [Binding("ctrl+c", "interrupt", "quit", show=False)]
+
+    def on_key(self, event) -> None:
+        """A printable key no widget took while a text box is up: typed in one burst with the key that opened
+        the box, it went to the list before the box's field had the focus, and is lost.  The box is told, so
+        its next Enter asks for a look at the text instead of recording what the box holds (a hold's optional
+        reason was recorded empty, the words typed for it gone)."""
+        if event.is_printable and isinstance(self.screen, TextDialog):
+            self.screen.keys_lost()
 
     def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession] | Opening,
                  observer=None) -> None:

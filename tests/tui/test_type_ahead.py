@@ -92,3 +92,24 @@ async def test_a_second_enter_typed_ahead_does_not_close_the_screen_beneath(ledg
         await pilot.press("escape")
         await until(pilot, lambda: app.screen is triage)
         assert records(ledger_path) == []  # nothing recorded by keys typed ahead
+
+
+async def test_a_reason_typed_with_the_key_that_opens_its_box_is_not_recorded_lost(ledger_path):
+    """'h', a reason and Enter in one burst: the letters reached the list before the box's field had the focus
+    and were dropped, the Enter came after — a hold recorded with an empty reason (optional: nothing refused
+    it).  Now the box's first Enter says keys were lost and records nothing; the analyst looks, types, Enter."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await on_an_unflagged_series(app, pilot)
+        type_ahead(app, "h", *"waiting", "space", *"on", "space", *"supplier", "enter")
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        await pilot.pause(0.5)
+        box = app.screen.query_one("Input")
+        if box.value != "waiting on supplier":  # keys lost: said, nothing recorded
+            assert records(ledger_path) == []
+            assert "Keys typed before this box opened were lost" in str(app.screen.query_one("#dialog-hint").render())
+            box.value = "waiting on supplier"
+            await pilot.press("enter")
+        await until(pilot, lambda: len(records(ledger_path)) == 1)
+        [record] = records(ledger_path)
+        assert (record["action"], record["note"]) == ("hold", "waiting on supplier")

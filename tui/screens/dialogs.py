@@ -36,6 +36,7 @@ class TextDialog(Dialog):
                  about: Text | None = None) -> None:
         super().__init__()
         self._warned = False  # Ctrl+C pressed once with a note typed
+        self._lost = False  # keys typed before the field had the focus were lost: the next Enter asks to look
         self.title_text, self.placeholder, self.required, self.value = title, placeholder, required, value
         self.about = about  # what the note is about (an accept past a stop flag: the numbers being signed)
 
@@ -48,10 +49,20 @@ class TextDialog(Dialog):
             yield Static(Text("Enter to confirm · Esc to cancel", style="dim"), id="dialog-hint", markup=False)
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
+        if self._lost:
+            self._lost = False
+            self.query_one("#dialog-hint", Static).update(Text(
+                "Keys typed before this box opened were lost: check the text, then Enter · Esc to cancel",
+                style="bold #ff875f"))
+            return
         if self.required and not event.value.strip():
             self.query_one("#dialog-hint", Static).update(Text("A note is required here.", style="bold #ff875f"))
             return
         self.dismiss(event.value)
+
+    def keys_lost(self) -> None:
+        """Keys meant for this box went elsewhere (``TriageApp.on_key``): the next Enter only says so."""
+        self._lost = True
 
     def action_cancel(self) -> None:
         self.dismiss(None)
