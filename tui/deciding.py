@@ -17,6 +17,8 @@ from fitcore.errors import PricefoldError
 from fitcore.ledger.rules import check_latest
 from fitcore.review.flags import SEVERITY
 
+from .text import printable
+
 DECISIONS = ("accept", "override", "hold")  # what stands until revoked (a note does not)
 
 
@@ -62,6 +64,8 @@ class Deciding:
         if self.book.state != ledger.INTACT:
             return f"the ledger is {self.book.state} ({self.book.problem})"
         path = Path(self.book.path)
+        if not path.exists() and not path.parent.is_dir():  # a mistyped folder is not a matter of permissions
+            return f"the ledger's folder {printable(str(path.parent))} does not exist"
         try:  # a read-only mount is not a matter of permissions
             read_only_mount = bool(os.statvfs(path if path.exists() else path.parent).f_flag & os.ST_RDONLY)
         except OSError:

@@ -146,3 +146,14 @@ async def test_a_hold_after_an_edit_in_place_is_refused_and_the_screen_turns_rea
         footer = screen_text(app).splitlines()[-1]
         assert "h hold" not in footer and "a accept" not in footer
     assert ledger_path.read_bytes() == edited
+
+
+async def test_a_ledger_in_a_folder_that_does_not_exist_says_so_not_permissions(tmp_path):
+    """``--ledger nodir/L.jsonl``: the header read "you may not write to the ledger file (permissions)"."""
+    ledger_path = tmp_path / "nodir" / "ledger.jsonl"
+    app = make_app(ledger_path)
+    async with app.run_test(size=(120, 30)) as pilot:
+        await started(app, pilot)
+        await until(pilot, lambda: "READ-ONLY: the ledger's folder" in screen_text(app))
+        assert f"{ledger_path.parent} does not exist" in " ".join(screen_text(app).split())
+    assert not ledger_path.parent.exists()
