@@ -189,7 +189,8 @@ def summary(report: Report) -> str:
              ("overridden", counts["overridden"], ""), ("held", counts["held"], ""),
              ("pending", counts["pending"], ""), ("stale", counts["stale"], "")]
     card_html = "".join(f"<li><span class=\"n\">{num(n)}</span>{word}{extra}</li>" for word, n, extra in cards)
-    apart = "".join(f"<p class=\"notice\">{esc(said[0].upper() + said[1:])}.</p>" for said in report.apart)
+    apart = "".join(f"<p class=\"notice\">{html.escape(said[0].upper() + said[1:])}.</p>"  # printable already
+                    for said in report.apart)
     flags = flag_table(signoff)
     flag_rows = "".join(f"<tr><td><code>{code}</code></td><td class=\"sev-{sev}\">{sev}</td>"
                         f"<td class=\"num\">{num(n)}</td><td>{esc(MEANING[code])}</td></tr>" for code, sev, n in flags)

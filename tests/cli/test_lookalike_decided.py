@@ -149,3 +149,6 @@ def test_the_reports_decision_table_tells_a_decided_look_alike_apart(cycle, caps
     table = page[page.index('<section id="decisions"'):]
     assert "apples 1 kg⟨U+0020⟩ · North" in table and "apples 1 kg · North" not in table
     assert "present only under another spelling" in err
+    # the summary's sentences hold shown forms already: not escaped again (it read "North⟨U+27E8⟩U+0020⟩")
+    summary = page[page.index('<section id="summary"'):page.index('<section id="decisions"')]
+    assert "⟨U+0020⟩" in summary and "U+27E8" not in summary
