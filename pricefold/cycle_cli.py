@@ -150,7 +150,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             gone = say_missing("pricefold show", results, keys, book, ledger_path, None if whole else within)
         else:  # a --flag filter: none counted, the listed still told apart from the missing spellings
             gone = missing_from(keys, book.histories)
-        beside = gone.shown()
+        # the listed told apart from every missing spelling, not only those the filter names in its note
+        beside = (gone if whole or within is None else missing_from(keys, book.histories)).shown()
         foreign = backtested_elsewhere(results, header, ledger_path)
         if foreign:
             print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "

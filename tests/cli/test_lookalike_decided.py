@@ -107,6 +107,17 @@ def test_a_filtered_missing_note_counts_and_says_as_the_whole_one(cycle, capsys)
         assert code == 1 and err.strip() == f"pricefold show: no series in {results} matches", argv
 
 
+def test_a_filtered_list_tells_a_decided_look_alike_from_the_missing_series(cycle, capsys, tmp_path):
+    """Following the hint after the look-alikes were decided: ``--product 'apples 1 kg '`` listed
+    ``apples 1 kg  · North  accepted``, reading as the signed series the note names missing (the filter's note,
+    and so the spellings told apart from, held only the series the filter names)."""
+    _, signed, results = cycle
+    book = own_copy(signed, tmp_path)
+    assert run(capsys, "ledger", "accept-unflagged", results, "--ledger", book, "--new-series", "-q")[0] == 0
+    code, out, _ = run(capsys, "show", results, "--ledger", book, "--product", "apples 1 kg ")
+    assert code == 0 and "apples 1 kg⟨U+0020⟩ · North" in out and "apples 1 kg · North" not in out
+
+
 def test_ledger_show_says_that_no_series_matches_with_a_hint(cycle, capsys):
     """Before: ``ledger show --product 'apples 1 kg '`` printed nothing and exited 0."""
     _, book, _ = cycle
