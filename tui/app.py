@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import threading
+import time
 from typing import TYPE_CHECKING, Callable
 
 from rich.text import Text
@@ -86,13 +87,20 @@ class TriageApp(App):
     # ctrl+q, a key the footer never shows), also while the data are read and fitted; a text field that
     # takes Ctrl+C itself (copy) keeps it.
     BINDINGS = [Binding("ctrl+c", "interrupt", "quit", show=False)]
+    key_lost_at = -1.0  # when a printable key was last taken by nothing (``on_key``)
 
     def on_key(self, event) -> None:
         """A printable key no widget took while a text box is up: typed in one burst with the key that opened
         the box, it went to the list before the box's field had the focus, and is lost.  The box is told, so
         its next Enter asks for a look at the text instead of recording what the box holds (a hold's optional
         reason was recorded empty, the words typed for it gone)."""
-        if event.is_printable and isinstance(self.screen, TextDialog):
+        if not event.is_printable:
+            return
+        bound = self.screen.active_bindings.get(event.key)
+        if bound is not None and bound.enabled:  # a key of the screen's own, acted on (handlers run for every key)
+            return
+        self.key_lost_at = time.monotonic()  # a box opening right after was meant to get it (``TextDialog``)
+        if isinstance(self.screen, TextDialog):
             self.screen.keys_lost()
 
     def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession] | Opening,

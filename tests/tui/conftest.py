@@ -13,6 +13,13 @@ from tui.factory import Source, open_session, sample_source
 ANA = Identity("ana", "ana", "test-host")
 
 
+@pytest.fixture(autouse=True)
+def no_settling(monkeypatch):
+    """Pilots press a decision key the moment a series comes up, which the screen refuses from a person (a key
+    typed twice: ``SETTLE_SECONDS``); ``test_type_ahead`` puts the pause back to test it."""
+    monkeypatch.setattr("tui.screens.triage.SETTLE_SECONDS", 0.0)
+
+
 def screen_text(app) -> str:
     """What the terminal shows now, as plain text (one line per row)."""
     return "\n".join(strip.text for strip in app.screen._compositor.render_strips())

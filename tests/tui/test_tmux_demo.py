@@ -40,6 +40,7 @@ def test_demo_in_tmux_records_an_accept(tmp_path):
         first = wait_for(screen, lambda text: "listed (needs a decision" in text and "a accept" in text)
         assert "table salt 1 kg · South" in first
         listed = int(first.split(" listed (needs a decision")[0].split()[-1])
+        time.sleep(0.6)  # a decision key right as its series comes up is not done (SETTLE_SECONDS): a person looks
         subprocess.run([*tmux, "send-keys", "a"], check=True)  # stop flags: the screen asks why first
         wait_for(screen, lambda text: "Say why" in text)
         subprocess.run([*tmux, "send-keys", "only two prices seen", "Enter"], check=True)

@@ -1,6 +1,8 @@
 """Small modal dialogs: pick a candidate and write a note, type text, choose one of a few options, help, errors."""
 from __future__ import annotations
 
+import time
+
 from rich.console import RenderableType
 from rich.text import Text
 from textual.app import ComposeResult
@@ -11,6 +13,8 @@ from textual.widgets import Input, OptionList, Static
 from textual.widgets.option_list import Option
 
 from ..text import literal
+
+LOST_WITHIN = 0.5  # seconds: a key taken by nothing this long before a text box opens is counted lost for it
 
 
 class Dialog(ModalScreen):
@@ -47,6 +51,12 @@ class TextDialog(Dialog):
                 yield Static(self.about, markup=False, id="dialog-about")
             yield Input(value=self.value, placeholder=self.placeholder, id="dialog-input")
             yield Static(Text("Enter to confirm · Esc to cancel", style="dim"), id="dialog-hint", markup=False)
+
+    def on_mount(self) -> None:
+        """Keys lost just before this box opened (to a dialog closing, on the way here) were most likely meant for
+        it: its first Enter says so too."""
+        if time.monotonic() - getattr(self.app, "key_lost_at", -1.0) < LOST_WITHIN:
+            self._lost = True
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
         if self._lost:

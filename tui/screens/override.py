@@ -183,6 +183,8 @@ class OverrideDialog(Dialog):
     def _from_a_whole_row(self) -> None:
         """Start the list at a whole candidate (two lines each), the proposal too when both fit, never
         halfway through one: a flags line at the top without its model read as the wrong model's."""
+        if not self.is_attached:  # answered and closed before this ran (keys typed fast)
+            return
         options = self.query_one(OptionList)
         picked = options.highlighted or 0
         proposed = next((i for i, row in enumerate(self.rows) if row.proposed), picked)
@@ -196,6 +198,8 @@ class OverrideDialog(Dialog):
     def _whole_rows(self) -> None:
         """After a move, the list's top line is a model's first line: a list an odd number of lines high
         scrolls one line for the highlighted model and would show a flags line without its model."""
+        if not self.is_attached:  # answered and closed before this ran (keys typed fast)
+            return
         options = self.query_one(OptionList)
         top, height, picked = int(options.scroll_y), options.scrollable_content_region.height, options.highlighted
         if top % 2 == 0 or picked is None:

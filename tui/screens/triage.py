@@ -6,6 +6,8 @@ cursor lands on a series or the screen redraws it), never on a list position, an
 """
 from __future__ import annotations
 
+import time
+
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -40,6 +42,9 @@ NARROW = 110  # below this many columns, show the list or the evidence, not both
 # pane with room to spare)
 EVIDENCE_LEAST, LIST_ROOM = 52, 70
 POLL_SECONDS = 2.0
+# a decision key this soon after its series came up is not done: the evidence cannot have been read (a key typed
+# twice, or held down, accepted the next series too, 4 ms later); ``conftest`` sets 0 for the tests' pilots
+SETTLE_SECONDS = 0.4
 
 
 class TriageScreen(DecisionFlow, Screen):
@@ -72,6 +77,7 @@ class TriageScreen(DecisionFlow, Screen):
         self._told: str | None = None  # the last record by someone else this screen has told about
         self._status_lines: int | None = None
         self._waiting_key: tuple | None = None  # (action, shown): a key pressed before the results were all read
+        self._came_up: tuple[str | None, float] = (None, 0.0)  # the series shown and when it came up (``too_soon``)
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
         self._keys_said: tuple = (None, None, None)  # the header's key columns, respellings and missing signed series
 
@@ -128,7 +134,9 @@ class TriageScreen(DecisionFlow, Screen):
     def show_current(self) -> None:
         """The highlighted series is what the screen shows now: decisions act on it."""
         s = self.session.current
-        self.session.look(s)
+        shown = self.session.look(s)
+        if shown is not None and shown.sid != self._came_up[0]:
+            self._came_up = (shown.sid, time.monotonic())
         self.evidence.show(s, now=self.evidence.series is None)
         self.refresh_footer()
 
@@ -247,27 +255,42 @@ class TriageScreen(DecisionFlow, Screen):
                         f"({why}); press the key again.",
                         severity="warning", timeout=8, markup=False)
 
+    def too_soon(self, action: str) -> bool:
+        """Whether the series shown came up too recently for ``action`` to be meant for it (``SETTLE_SECONDS``):
+        then the key is not done, and the screen says so."""
+        shown = self.session.shown
+        if shown is None or SETTLE_SECONDS <= 0:
+            return False
+        if shown.sid != self._came_up[0]:  # moved on (after a decision) and not drawn yet: it comes up now
+            self._came_up = (shown.sid, time.monotonic())
+        elif time.monotonic() - self._came_up[1] >= SETTLE_SECONDS:
+            return False
+        self.notify(f"Not done: {action} on {self.session.label(shown.series)}, which came up just now (a key "
+                    "typed twice?); look at it, then press the key again.", severity="warning", timeout=5,
+                    markup=False)
+        return True
+
     def action_accept(self) -> None:
         shown = self.session.shown
-        if shown is None or self.still_reading("accept"):
+        if shown is None or self.too_soon("accept") or self.still_reading("accept"):
             return
         self.new_key_set("accept", lambda: self.accept(shown))
 
     def action_hold(self) -> None:
         shown = self.session.shown
-        if shown is not None:
+        if shown is not None and not self.too_soon("hold"):
             self.new_key_set("hold", lambda: self.hold(shown))
 
     def action_override(self) -> None:
         shown = self.session.shown
-        if shown is None or self.still_reading("override"):
+        if shown is None or self.too_soon("override") or self.still_reading("override"):
             return
         # where the series is when the dialog opens: a first-decision question may stand between (results swapped)
         self.new_key_set("override", lambda: self.override(shown, self.session.index_of(shown)))
 
     def action_note(self) -> None:
         shown = self.session.shown
-        if shown is not None:
+        if shown is not None and not self.too_soon("note"):
             self.new_key_set("note", lambda: self.note(shown))
 
     def action_nothing_to_override(self) -> None:
