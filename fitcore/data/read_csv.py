@@ -272,8 +272,8 @@ def _read_slow(path: Path, columns: Columns, delimiter: str, header: list[str]):
             last_broken = broken.get(len(lines) - 1, EMPTY_LINE) != EMPTY_LINE
             if lines and (end > lines[-1] or last_broken):  # the last row: a quote never closed?
                 check_quotes(path, lines[-1], end, width, width, delimiter)
-            elif lines and record:  # one line: its last field may hold the open quote
-                check_last_line(path, lines[-1], width, delimiter)
+            elif lines and record:  # one line: its last field may hold the open quote (the line just read)
+                check_last_line(path, lines[-1], width, delimiter, read[0])
     except csv.Error as exc:
         raise DataError(f"cannot split line {end + 1} into fields ({exc})", path=str(path)) from None
     except (OSError, EOFError, zlib.error) as exc:
