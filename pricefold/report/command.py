@@ -212,13 +212,12 @@ def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple
     the results (``fitcore.ledger.missing``), and the results' series that look like its own under another spelling
     (``fitcore.ledger.respelling``) — what an approver reading "34 pending" would not otherwise learn; and those
     missing series' keys as shown, which the page's series are told apart from (``Missing.shown``).  The sentences
-    are printable already (every part cleaned, look-alikes in their shown forms): cleaned again, a shown form's
-    ``⟨`` would be escaped itself."""
+    hold shown forms (look-alikes told apart): the page shows them through ``printable``, as the commands print
+    them, not ``clean`` again, which would escape a shown form's ``⟨`` itself."""
     import numpy as np
 
     from fitcore.data.keys import SeriesKeys
     from fitcore.ledger.missing import RENAMED, missing_at, results_values, signed_keys
-    from fitcore.text import clean
 
     from ..fit_ledger import signed_alike
     if not histories:
@@ -234,8 +233,8 @@ def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple
         ledger_keys = [h.latest["series"] for h in histories.values()]
         looks = signed_alike(keys, ledger_keys, keys.indices_of(ledger_keys))
         gone = gone.beside(results_values(keys)) if len(gone) else gone
-        alike = looks.said(clean(str(ledger_path)))
-    missing = gone.said(clean(str(ledger_path)))
+        alike = looks.said(str(ledger_path))
+    missing = gone.said(str(ledger_path))
     return tuple(said for said in (missing and f"{missing}; {RENAMED}", alike) if said), gone.shown()
 
 

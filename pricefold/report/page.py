@@ -19,7 +19,7 @@ from typing import Callable
 from fitcore.ledger.signoff import LedgerView, Signoff, flag_table
 from fitcore.review.flags import FLAGS
 from fitcore.review.sentences import fmt, money, two_places
-from fitcore.text import clean
+from fitcore.text import clean, printable
 
 GENERATOR = "pricefold report"
 MEANING = {code: meaning for code, _, meaning in FLAGS}
@@ -189,7 +189,7 @@ def summary(report: Report) -> str:
              ("overridden", counts["overridden"], ""), ("held", counts["held"], ""),
              ("pending", counts["pending"], ""), ("stale", counts["stale"], "")]
     card_html = "".join(f"<li><span class=\"n\">{num(n)}</span>{word}{extra}</li>" for word, n, extra in cards)
-    apart = "".join(f"<p class=\"notice\">{html.escape(said[0].upper() + said[1:])}.</p>"  # printable already
+    apart = "".join(f"<p class=\"notice\">{html.escape(printable(said[0].upper() + said[1:]))}.</p>"  # shown forms in
                     for said in report.apart)
     flags = flag_table(signoff)
     flag_rows = "".join(f"<tr><td><code>{code}</code></td><td class=\"sev-{sev}\">{sev}</td>"
