@@ -40,7 +40,8 @@ def near_miss(typed: Iterable[str], names: Iterable[str]) -> str:
     names = list(dict.fromkeys(str(name) for name in names))
     for text in typed:
         text = original(text)
-        if any(name in EitherForm([text]) for name in names):  # the product is there: another filter kept none
+        typed_form = EitherForm([text])
+        if any(name in typed_form for name in names):  # the product is there: another filter kept none
             continue
         wanted = loose(text)
         alike = next((name for name in names if loose(name) == wanted), None)
