@@ -50,10 +50,10 @@ def fingerprint_reader(data, count: int):
     return data.fingerprint_of
 
 
-def set_statuses(status: np.ndarray, codes: np.ndarray, changed: dict[int, str], histories: dict, data) -> None:
+def set_statuses(status: np.ndarray, codes: np.ndarray, changed: dict[int, str], histories: dict, fingerprint) -> None:
     """``status`` and ``codes`` (index into ``STATUSES``) of the series ``changed`` (index → series id) from
-    their ``histories``; ``data``: the results' dataset (each series' fingerprint: stale or not)."""
-    fingerprint = fingerprint_reader(data, len(changed))
+    their ``histories``; ``fingerprint``: series index → its fingerprint in the results (``fingerprint_reader``:
+    stale or not)."""
     words = [history.status(fingerprint(s)) if (history := histories.get(sid)) is not None and history.standing
              else "pending" for s, sid in changed.items()]
     at = np.fromiter(changed, dtype=np.int64, count=len(changed))

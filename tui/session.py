@@ -24,7 +24,7 @@ from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale, without
 
 from .deciding import Deciding, Refused, Shown
 from .key_columns import KeyColumns
-from .ledger_series import KeyTable, set_statuses
+from .ledger_series import KeyTable, fingerprint_reader, set_statuses
 from .listing import (
     FILTER_TITLES,
     FILTERS,
@@ -135,8 +135,9 @@ class TriageSession(Deciding, Standing, ListState):
         self._note_missing(touched)
         changed = {self._known[sid]: sid for sid in touched if self._known[sid] >= 0}
         self.spellings.see(changed, [touched[sid] for sid, at in zip(unknown, found) if at < 0])
-        set_statuses(self.status, self.status_code, changed, self.histories, self.results.data)
-        self.mark_accepted_other(changed)
+        fingerprint = fingerprint_reader(self.results.data, len(changed))  # the column read once for both
+        set_statuses(self.status, self.status_code, changed, self.histories, fingerprint)
+        self.mark_accepted_other(changed, fingerprint)
         changed = set(changed)
         current = self.current
         if current is not None and records and self.shown is not None:  # not what was there before the screen opened

@@ -104,14 +104,15 @@ class Standing:
             return None
         return proposal or "nothing"
 
-    def mark_accepted_other(self, changed: dict[int, str]) -> None:
+    def mark_accepted_other(self, changed: dict[int, str], fingerprint=None) -> None:
         """``accepted_other_mask`` for the series ``changed`` (index → series id), whose statuses (or results) just
         changed: the list's "needs attention" takes in an accept of a model these results do not propose.  Only
-        the accepted series are asked, their fingerprints read as ``set_statuses`` reads them."""
+        the accepted series are asked, their fingerprints read as ``set_statuses`` reads them (``fingerprint``:
+        its reader where the caller has one)."""
         at = np.fromiter(changed, dtype=np.int64, count=len(changed))
         self.accepted_other_mask[at] = False
         accepted = at[self.status_code[at] == CODE["accepted"]].tolist()
-        fingerprint = fingerprint_reader(self.results.data, len(accepted))
+        fingerprint = fingerprint or fingerprint_reader(self.results.data, len(accepted))
         for s in accepted:
             name = self.histories[changed[s]].standing_model(fingerprint(s))
             self.accepted_other_mask[s] = self._not_proposed(s, name) is not None

@@ -9,7 +9,7 @@ import pyarrow as pa
 
 from fitcore.data.keys import SeriesKeys
 from fitcore.ledger.replay import replay, series_id
-from tui.ledger_series import CODE, KeyTable, set_statuses
+from tui.ledger_series import CODE, KeyTable, fingerprint_reader, set_statuses
 
 
 class Prints:
@@ -59,7 +59,7 @@ def test_bulk_statuses_are_each_series_history_status():
     histories, prints = histories_of_every_kind(300)
     changed = {s: series_id({"product": f"p{s}"}) for s in range(300)}
     status, codes = np.array(["pending"] * 300, dtype=object), np.zeros(300, np.int8)
-    set_statuses(status, codes, changed, histories, Prints(prints))
+    set_statuses(status, codes, changed, histories, fingerprint_reader(Prints(prints), len(changed)))
     expected = [histories[sid].status(prints[s]) if sid in histories else "pending" for s, sid in changed.items()]
     assert status.tolist() == expected
     assert codes.tolist() == [CODE[word] for word in expected]
