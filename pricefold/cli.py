@@ -120,7 +120,7 @@ def run_show(args) -> int:
         name, sep, value = item.partition("=")
         if not sep:
             raise SettingsError(f"expected --key COL=VALUE, got {item!r}")
-        keys[name] = value
+        keys[name] = value  # made an EitherForm by _show, as --product's texts
     from fitcore.review.flags import CODES
     if args.flag is not None and args.flag not in CODES:
         raise SettingsError(f"expected --flag to be one of {', '.join(CODES)}; got {args.flag!r}")
@@ -135,6 +135,7 @@ def _show(args, keys: dict) -> int:
 
     from .show import detail, select, table
     products = EitherForm(args.product)  # either Unicode form, or as shown, as ledger show and the screen's search
+    typed, keys = keys, {name: EitherForm([value]) for name, value in keys.items()}
     if is_columnar(args.results):  # column by column, a record only for one series shown in full
         header, listed = listed_series(args.results, products, keys, args.flag)
         picked = [listed.record(0)] if len(listed) == 1 else listed.records
@@ -150,11 +151,14 @@ def _show(args, keys: dict) -> int:
             from fitcore.errors import SettingsError
             raise SettingsError(f"these results have no key column {unknown[0]!r}; their key columns: "
                                 f"{', '.join(names)}")
-        from fitcore.results.series_columns import results_keys
+        from fitcore.results.series_columns import results_keys, results_products
 
         from .show import near_miss
-        every = list(results_keys(args.results)) if args.product else []
-        hint = near_miss(args.product, (next(iter(key.values())) for key in every)) if every else ""
+        hint = near_miss(args.product, results_products(args.results)) if args.product else ""
+        every = list(results_keys(args.results)) if keys else []
+        kept = [key for key in every if not products or next(iter(key.values())) in products]
+        for name, value in typed.items():  # a key's value read alike, among the series --product keeps
+            hint = hint or near_miss([value], (key.get(name) for key in kept), f"{name}=")
         print(f"pricefold show: no series in {args.results} matches{hint}", file=sys.stderr)
         if args.ledger is not None and not args.flag:  # a signed series renamed away matches no row: say where it went
             from .cycle_cli import show_missing
@@ -172,14 +176,22 @@ def _show(args, keys: dict) -> int:
         print(detail(picked[0], binary) if len(picked) == 1 else table(picked, first))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
+    if args.product:  # a look-alike is another series: said, not listed with it
+        from fitcore.results.series_columns import results_products
+
+        from .show import also_alike
+        note = also_alike(args.product, results_products(args.results), str(args.results))
+        if note:
+            print(f"pricefold show: {note}", file=sys.stderr)
     return 0
 
 
-def within(key: dict, header: dict, products, keys: dict[str, str]) -> bool:
-    """Whether ``show``'s ``--product`` (``products``: a ``fitcore.text.EitherForm``) and ``--key`` filters keep a
-    ledger series' ``key`` (its columns in the ledger's order: the product column named by the results' settings)."""
+def within(key: dict, header: dict, products, keys: dict) -> bool:
+    """Whether ``show``'s ``--product`` and ``--key`` filters (``products`` and each of ``keys``' values: a
+    ``fitcore.text.EitherForm``) keep a ledger series' ``key`` (its columns in the ledger's order: the product
+    column named by the results' settings)."""
     product = (header.get("settings", {}).get("columns") or {}).get("product") or "product"
-    return (not products or key.get(product) in products) and all(key.get(k) == v for k, v in keys.items())
+    return (not products or key.get(product) in products) and all(key.get(k) in v for k, v in keys.items())
 
 
 def is_results(path: Path) -> bool:

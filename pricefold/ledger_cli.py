@@ -267,11 +267,16 @@ def run_show(args) -> int:
         print(f"#{r['seq']:<5} {clean(r['at'])}  {who:<12} {r['action']:<8} {model:<22} "
               f"{text}{note}")
         listed += 1
-    if args.product and not listed:  # as show says it: a near miss (a space at an end, a case) named
-        from .show import near_miss
-        hint = near_miss(args.product, (key[product] for key in keys if product in key))
-        print(f"pricefold ledger: no series in {args.ledger} matches{hint}", file=sys.stderr)
-        return 1
+    if args.product:  # as show says it: a near miss (a space at an end, a case) named
+        from .show import also_alike, near_miss
+        products = [key[product] for key in keys if product in key]
+        if not listed:
+            print(f"pricefold ledger: no series in {args.ledger} matches{near_miss(args.product, products)}",
+                  file=sys.stderr)
+            return 1
+        note = also_alike(args.product, products, str(args.ledger))
+        if note:
+            print(f"pricefold ledger: {note}", file=sys.stderr)
     return 0
 
 

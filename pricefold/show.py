@@ -19,12 +19,12 @@ SEVERITY_ORDER = {"stop": 0, "warn": 1}
 
 def select(series: list[dict], products, keys: dict[str, str], flag: str | None) -> list[dict]:
     """The records ``show``'s filters keep: a product among ``products`` (a list, or a ``fitcore.text.EitherForm``),
-    the key values ``keys``, the flag ``flag``."""
+    a value among each of ``keys``' (column → a container, as ``products``), the flag ``flag``."""
     out = []
     for record in series:
         if products and record["key"].get(next(iter(record["key"]))) not in products:
             continue
-        if any(record["key"].get(k) != v for k, v in keys.items()):
+        if any(record["key"].get(k) not in v for k, v in keys.items()):
             continue
         if flag and flag not in {f["code"] for f in record["flags"]}:
             continue
@@ -32,22 +32,51 @@ def select(series: list[dict], products, keys: dict[str, str], flag: str | None)
     return out
 
 
-def near_miss(typed: Iterable[str], names: Iterable[str]) -> str:
-    """"; did you mean 'apples 1 kg '?" — for a ``--product`` that names nothing: the first of ``names`` (the
-    results' or the ledger's products) that reads alike loosely (case, white space, Unicode form:
-    ``fitcore.text.loose``), quoted as the plan check's hint quotes it (``fitcore.text.hint_for``); '' where none does."""
-    from fitcore.text import EitherForm, hint_for, loose, original
-    names = list(dict.fromkeys(str(name) for name in names))
+def near_miss(typed: Iterable[str], names: Iterable, label: str = "") -> str:
+    """"; did you mean 'apples 1 kg '?" — for a ``--product`` (or, after ``label`` such as ``region=``, a
+    ``--key`` value) that names nothing: those of ``names`` (the results' or the ledger's values) that read
+    alike loosely (``look_alikes``; up to three), quoted as the plan check's hint quotes it
+    (``fitcore.text.hint_for``); '' where none does."""
+    from fitcore.text import EitherForm, hint_for, original
+    names = distinct(names)
     for text in typed:
         text = original(text)
         typed_form = EitherForm([text])
-        if any(name in typed_form for name in names):  # the product is there: another filter kept none
+        if any(name in typed_form for name in names):  # the value is there: another filter kept none
             continue
-        wanted = loose(text)
-        alike = next((name for name in names if loose(name) == wanted), None)
-        if alike is not None:
-            return f"; did you mean {hint_for(text, alike)}?"
+        alike = look_alikes(text, names)
+        if alike:  # each, as several can read alike ('North', 'North '): up to three
+            more = " …" if len(alike) > 3 else ""
+            return f"; did you mean {' or '.join(label + hint_for(text, name) for name in alike[:3])}{more}?"
     return ""
+
+
+def also_alike(typed: Iterable[str], names: Iterable, where: str) -> str:
+    """"note: LEDGER also holds the product 'apples 1 kg ', which reads alike (…)" — for a ``--product`` that found
+    its series while ``where`` holds others whose product reads like it loosely (a renamed spelling is listed
+    under its own name only); '' where none does."""
+    from fitcore.text import hint_for, original
+    names = distinct(names)
+    alike = list(dict.fromkeys(hint_for(original(text), name) for text in typed for name in look_alikes(text, names)))
+    if not alike:
+        return ""
+    if len(alike) == 1:
+        return f"note: {where} also holds the product {alike[0]}, which reads alike (not listed: another product)"
+    return f"note: {where} also holds the products {', '.join(alike)}, which read alike (not listed: other products)"
+
+
+def look_alikes(text: str, names: list[str]) -> list[str]:
+    """The ``names`` that read like the typed ``text`` loosely (case, white space, Unicode form:
+    ``fitcore.text.loose``) but that ``text`` does not pick (``fitcore.text.EitherForm``)."""
+    from fitcore.text import EitherForm, loose, original
+    text = original(text)
+    typed_form, wanted = EitherForm([text]), loose(text)
+    return [name for name in names if loose(name) == wanted and name not in typed_form]
+
+
+def distinct(names: Iterable) -> list[str]:
+    """The texts among ``names`` once each, in order (a null key is no text)."""
+    return list(dict.fromkeys(str(name) for name in names if name is not None))
 
 
 def in_attention_order(records: list[dict], first: Callable[[dict], int] | None = None) -> list[dict]:

@@ -234,5 +234,6 @@ def summary(reasons_of_rejected: list[str] | np.ndarray) -> str:
     counts = Counter(str(r) if not str(r).startswith("duplicate of line") else "duplicate series and date"
                      for r in reasons_of_rejected)
     total = sum(counts.values())
-    parts = " · ".join(f"{count:,} {reason}" for reason, count in counts.most_common())  # a reason may hold a comma
+    parts = " · ".join(f"{count:,} {reason}{'s' * (reason == EMPTY_LINE and count != 1)}"  # "3 empty lines"
+                       for reason, count in counts.most_common())  # (" · ": a reason may hold a comma)
     return f"{total:,} row{'s' if total != 1 else ''} rejected: {parts}"

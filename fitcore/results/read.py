@@ -100,8 +100,10 @@ def results_inputs(header: dict) -> list[tuple[str, str | None]]:
 
 
 def _matches(key: dict, products, keys: dict) -> bool:
+    """``keys``' values: a text, or a container of them (``fitcore.text.EitherForm``), as ``products``."""
     return (not products or next(iter(key.values()), None) in products) and \
-        all(key.get(name) == value for name, value in keys.items())
+        all(key.get(name) == value if isinstance(value, str) else key.get(name) in value
+            for name, value in keys.items())
 
 
 def read_header(path: str | Path) -> dict:

@@ -163,3 +163,43 @@ def test_the_reports_decision_table_tells_a_decided_look_alike_apart(cycle, caps
     # the summary's sentences hold shown forms already: not escaped again (it read "North⟨U+27E8⟩U+0020⟩")
     summary = page[page.index('<section id="summary"'):page.index('<section id="decisions"')]
     assert "⟨U+0020⟩" in summary and "U+27E8" not in summary
+
+
+def test_a_key_filter_matches_either_form_and_hints_at_a_near_miss(cycle, capsys):
+    """Before: ``--key`` matched the value exactly as typed (``product=crème…`` composed found nothing where the
+    results spell it decomposed, while ``--product`` found it), and a near miss got no hint."""
+    _, _, results = cycle
+    code, out, _ = run(capsys, "show", results, "--key", f"product={NFC}", "--key", "region=North")
+    assert code == 0 and out.startswith(f"{NFD} · North — ")  # (no ledger, no missing twin to tell it from)
+    code, _, err = run(capsys, "show", results, "--product", "lemons 500 g", "--key", "region=North")
+    assert code == 1  # lemons' North is spelled 'North ' in these results; other products' 'North' not named
+    assert err.strip() == f"pricefold show: no series in {results} matches; did you mean region='North '?"
+    code, _, err = run(capsys, "show", results, "--key", "region=NORTH")
+    assert code == 1 and "did you mean region='North' or region='North '?" in err.replace(
+        "region='North ' or region='North'", "region='North' or region='North '")
+
+
+def test_ledger_show_names_a_product_that_reads_alike(cycle, capsys, tmp_path):
+    """Before: once both spellings were signed, ``ledger show --product 'apples 1 kg'`` listed that spelling's
+    records and said nothing of the other's, whose history a reader would take for missing."""
+    _, signed, results = cycle
+    book = own_copy(signed, tmp_path)
+    code, _, err = run(capsys, "ledger", "show", book, "--product", "apples 1 kg")
+    assert code == 0 and err == ""  # one spelling signed so far
+    assert run(capsys, "ledger", "accept-unflagged", results, "--ledger", book, "--new-series", "-q")[0] == 0
+    code, out, err = run(capsys, "ledger", "show", book, "--product", "apples 1 kg")
+    assert code == 0 and "apples 1 kg · North" in out and "apples 1 kg⟨U+0020⟩" not in out
+    assert err.strip() == (f"pricefold ledger: note: {book} also holds the product 'apples 1 kg ', which reads alike "
+                           "(not listed: another product)")
+
+
+def test_also_alike_and_near_miss_name_every_look_alike():
+    from pricefold.show import also_alike, near_miss
+    names = ["North ", "North", "north", "South", None]
+    assert near_miss(["NORTH"], names, "region=") == \
+        "; did you mean region='North ' or region='North' or region='north'?"
+    assert near_miss(["North"], names) == ""  # there as typed: another filter kept none
+    assert also_alike(["North"], names, "F") == \
+        "note: F also holds the products 'North ', 'north', which read alike (not listed: other products)"
+    assert also_alike(["South"], names, "F") == ""
+    assert also_alike([NFD], [NFC], "F") == ""  # the other Unicode form is picked, not a look-alike

@@ -198,3 +198,10 @@ def test_the_rejects_summary_keeps_a_reason_holding_a_comma_in_one_piece():
     head, parts = said.split(": ", 1)
     assert head == "3 rows rejected"
     assert parts.split(" · ") == ["2 non-numeric volume", "1 expected 6 fields, found 7"]
+
+
+def test_the_rejects_summary_counts_empty_lines_in_the_plural():
+    """Before: "3 rows rejected: 3 empty line"."""
+    from fitcore.data.validation import EMPTY_LINE, summary
+    assert summary([EMPTY_LINE] * 3 + ["negative price"] * 2) == "5 rows rejected: 3 empty lines · 2 negative price"
+    assert summary([EMPTY_LINE]) == "1 row rejected: 1 empty line"
