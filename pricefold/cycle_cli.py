@@ -176,11 +176,12 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             said = shift_sentence(record["backtest"], record["chosen"], older=needs == NEWER_DUE)
             lines.append(f"  since sign-off (the curve as signed): {said}")
         return "\n".join(lines)
-    lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<21} {'ratio':>5} {'cover':>5}  flags"]
     ordered = in_attention_order(records, first)
     labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like), beside=beside)
-    for record, label in zip(ordered, labels):
-        status, needs = ledger_state(record, book, short=True)
+    states = [ledger_state(record, book, short=True) for record in ordered]
+    wide = max([21, *(len(needs) for _, needs in states if needs)])  # the longest due in full ("stop flag (a, b)")
+    lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<{wide}} {'ratio':>5} {'cover':>5}  flags"]
+    for record, label, (status, needs) in zip(ordered, labels, states):
         bt = record.get("backtest") or {}
         ratio = f"{bt['error_ratio']:.1f}" if bt.get("error_ratio") is not None else "—"
         cover = f"{bt['coverage'] * 100:.0f}%" if bt.get("coverage") is not None else "—"
@@ -193,7 +194,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             flags = f"≈{differing(record['key'], alike)}" + (f" {flags}" if record["flags"] else "")
         model = standing_model(record, book)
         lines.append(f"{label} {record['n']:>5} {model:<7} "
-                     f"{status:<20} {(needs or '—')[:21]:<21} {ratio:>5} {cover:>5}  {flags}")
+                     f"{status:<20} {needs or '—':<{wide}} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
 
 

@@ -85,28 +85,46 @@ class Dataset:
     @cached_property
     def fingerprint_texts(self):
         """(S,) Arrow text: the SHA-256 of each series' rows (price, volume, and weight, date and controls where
-        given) in hex: the bytes of its rows of ``np.column_stack`` of those columns, stacked a block of series
-        at a time (a whole 7M-row table was 110 MiB more at the results' peak).  One ``hashlib`` call a series
-        gives the 32 bytes; the hex text is made for all series at once in numpy, never a string a series
-        (``fingerprints`` makes the strings when asked)."""
+        given: ``fingerprint_columns``) in hex (``series_digests``); the hex text is made for all series at once
+        in numpy, never a string a series (``fingerprints`` makes the strings when asked)."""
+        return hex_texts(series_digests(self.fingerprint_columns, self.offsets))
+
+    @property
+    def fingerprint_columns(self) -> list[np.ndarray]:
+        """The columns a series' fingerprint hashes, in order: price, volume, weight, date (as int64), controls."""
         columns = [self.price, self.volume]
         if self.weight is not None:
             columns.append(self.weight)
         if self.date is not None:
             columns.append(self.date.view(np.int64))
         columns.extend(self.controls.values())
-        digests = bytearray(32 * self.n_series)
-        sha256 = hashlib.sha256
-        cuts = series_cuts(self.offsets, FINGERPRINT_ROWS)
-        for first, end in zip(cuts[:-1], cuts[1:]):
-            start, stop = int(self.offsets[first]), int(self.offsets[end])
-            table = np.ascontiguousarray(np.column_stack([column[start:stop] for column in columns])).view(np.uint8)
-            width = table.shape[1]
-            flat = memoryview(table.reshape(-1))  # a memoryview's slice costs half an ndarray's
-            bounds = (self.offsets[first:end + 1] - start) * width
-            digests[32 * first:32 * end] = b"".join(
-                [sha256(flat[lo:hi]).digest() for lo, hi in zip(bounds[:-1].tolist(), bounds[1:].tolist())])
-        return hex_texts(np.frombuffer(bytes(digests), np.uint8).reshape(self.n_series, 32))
+        return columns
+
+
+def series_digests(columns: list[np.ndarray], offsets: np.ndarray, keep: np.ndarray | None = None) -> np.ndarray:
+    """(S, 32) uint8: the SHA-256 of each series' rows — the bytes of its rows of ``np.column_stack(columns)``
+    (series by ``offsets``), only the rows ``keep`` (N,) marks where given (a series keeping none: the digest of
+    no bytes).  Stacked a block of series at a time (a whole 7M-row table was 110 MiB more at the results'
+    peak); one ``hashlib`` call a series gives its 32 bytes."""
+    n_series = len(offsets) - 1
+    digests = bytearray(32 * n_series)
+    sha256 = hashlib.sha256
+    cuts = series_cuts(offsets, FINGERPRINT_ROWS)
+    for first, end in zip(cuts[:-1], cuts[1:]):
+        start, stop = int(offsets[first]), int(offsets[end])
+        table = np.column_stack([column[start:stop] for column in columns])
+        bounds = offsets[first:end + 1] - start
+        if keep is not None:  # the kept rows before each series' first row bound it in the kept table
+            kept = keep[start:stop]
+            table = table[kept]
+            bounds = np.concatenate(([0], np.cumsum(kept)))[bounds]
+        table = np.ascontiguousarray(table).view(np.uint8)
+        width = table.shape[1]
+        flat = memoryview(table.reshape(-1))  # a memoryview's slice costs half an ndarray's
+        bounds = bounds * width
+        digests[32 * first:32 * end] = b"".join(
+            [sha256(flat[lo:hi]).digest() for lo, hi in zip(bounds[:-1].tolist(), bounds[1:].tolist())])
+    return np.frombuffer(bytes(digests), np.uint8).reshape(n_series, 32)
 
 
 def hex_texts(digests: np.ndarray) -> "pa.Array":

@@ -8,7 +8,14 @@ shift compares this cycle's proposal with the signed model at the same price (th
 the middle of the observed prices without one): volume change (share), elasticity change, and
 whether the shape changed.  ``shifted`` is raised when the backtest fails or the volume moved too far
 (thresholds ``shift_error_ratio``, ``shift_coverage`` judged from ``shift_min_rows`` new rows,
-``shift_volume``).
+``shift_volume``), or the history it was signed on changed:
+
+The rows dated up to the signed data's last date are the signed data again only if they hash to the
+decision's fingerprint.  Where they do not (rows restated, back-filled, dropped or reordered: ``revised``),
+the signed curve is measured on them as they are now (``history_ratio``: its RMSE there over its CV RMSE);
+beyond ``shift_error_ratio`` the history it was signed on is gone (``history-changed``): the rows since
+cannot vouch for it, ``shifted`` is raised and carry leaves it to a human.  A rolling window (old rows
+dropped) stays revised but fits.
 
 Only the ledger's records are read one by one (they are dicts); every number is computed over all
 series at once, grouped by the signed curve's family and size.
@@ -33,6 +40,8 @@ NO_DATES, NO_NEW_ROWS, UNSIGNED, UNDATED = "no-dates", "no-new-rows", "unsigned"
 # signed with other controls than this fit holds fixed (added, dropped, other season terms): the curves
 # are not the same model, whatever the backtest says, so an analyst looks again
 CONTROLS_CHANGED = "controls-changed"
+# the rows up to the signed data's last date are not the signed ones and the signed curve no longer fits them
+HISTORY_CHANGED = "history-changed"
 
 
 @dataclass(frozen=True, eq=False)
@@ -48,7 +57,9 @@ class Backtest:
     ``signed_plan_lo``, ``signed_plan_hi`` (what was signed: the plan price then and the curve there),
     ``volume_change``, ``elasticity_change``; ``shape_changed``, ``shifted``, ``signed_near_best`` (bool: the
     signed candidate is available in this fit and within one SE of its lowest CV error, so an override of it
-    is carried under another proposal).  ``source``: the ledger and its head.
+    is carried under another proposal).  ``revised`` (bool: the rows up to ``last_date`` do not hash to the
+    decision's fingerprint), ``history_rows`` (those rows now, -1 where not revised), ``history_ratio`` (the
+    signed curve's RMSE on them over its CV RMSE; NaN where not revised).  ``source``: the ledger and its head.
     """
 
     source: dict
@@ -78,13 +89,17 @@ class Backtest:
     shape_changed: np.ndarray
     shifted: np.ndarray
     signed_near_best: np.ndarray
+    revised: np.ndarray
+    history_rows: np.ndarray
+    history_ratio: np.ndarray
     planned: np.ndarray
     chosen: np.ndarray
 
     STORED = ("status", "decision", "latest", "carries", "analyst", "signed_at", "candidate", "last_date",
               "new_rows", "error_ratio", "coverage", "outside", "price", "planned", "signed_volume", "signed_lo",
               "signed_hi", "signed_price", "signed_plan_volume", "signed_plan_lo", "signed_plan_hi", "proposed_volume",
-              "volume_change", "elasticity_change", "shape_changed", "shifted", "signed_near_best")
+              "volume_change", "elasticity_change", "shape_changed", "shifted", "signed_near_best", "revised",
+              "history_rows", "history_ratio")
 
     def columns(self) -> dict:
         return {name: getattr(self, name) for name in self.STORED}
@@ -115,7 +130,8 @@ class Backtest:
 
 
 # What a series signed on other data needs when its backtest did not pass, in the words carry counts by.
-UNTESTED = {FAILED: "backtest failed", CONTROLS_CHANGED: "controls changed since signing", NO_DATES: "no dates",
+UNTESTED = {FAILED: "backtest failed", CONTROLS_CHANGED: "controls changed since signing",
+            HISTORY_CHANGED: "history changed since signing", NO_DATES: "no dates",
             UNDATED: "no dates", NO_NEW_ROWS: "no new rows", UNSIGNED: "no signed model"}
 
 
@@ -193,7 +209,8 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
                coverage=number(), outside=np.full(n_s, -1, np.int64), price=number(), signed_volume=number(),
                signed_lo=number(), signed_hi=number(), signed_price=number(), signed_plan_volume=number(),
                signed_plan_lo=number(), signed_plan_hi=number(), proposed_volume=number(), volume_change=number(),
-               elasticity_change=number(), shape_changed=np.zeros(n_s, bool), signed_near_best=np.zeros(n_s, bool))
+               elasticity_change=number(), shape_changed=np.zeros(n_s, bool), signed_near_best=np.zeros(n_s, bool),
+               revised=np.zeros(n_s, bool), history_rows=np.full(n_s, -1, np.int64), history_ratio=number())
     series, mine = on_other_data(standing, SeriesKeys.of(results.data), results.data.fingerprints)
     if len(series):
         _fill(out, results, series, mine)
@@ -203,6 +220,10 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
             (out["new_rows"] >= thresholds.shift_min_rows) & (out["coverage"] < thresholds.shift_coverage)))
         out["status"][failed] = FAILED
         shifted = failed | (np.abs(out["volume_change"]) > thresholds.shift_volume)
+        gone = out["revised"] & ~(out["history_ratio"] <= thresholds.shift_error_ratio)  # NaN: no row left to fit
+    gone &= np.isin(out["status"], [PASSED, FAILED, NO_NEW_ROWS])
+    out["status"][gone] = HISTORY_CHANGED
+    shifted |= gone  # the signed curve no longer describes its own rows: flagged, whatever the volume says
     if len(series):
         now = "|".join(terms(results) or ())
         out["status"][series[(mine.controls != now) & mine.signed]] = CONTROLS_CHANGED
@@ -224,6 +245,8 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
     out["last_date"][series] = np.where(np.isnat(last), None, np.datetime_as_string(last, unit="D").astype(object))
     dates = results.data.date
     out["status"][series] = NO_DATES if dates is None else np.where(np.isnat(last), UNDATED, NO_NEW_ROWS)
+    revised = _revised(results.data, series, last, st.fingerprint) if dates is not None else np.zeros(len(series), bool)
+    out["revised"][series] = revised
     price = np.where(np.isfinite(results.plan_price[series]), results.plan_price[series], results.mid[series])
     out["price"][series] = price
     proposed, proposed_el = _proposal_at(results, series, price)
@@ -243,6 +266,7 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
                 out["elasticity_change"][at] = proposed_el[members] - elasticity
             if dates is not None:
                 _test_rows(out, results, at, last[members], curve)
+                _test_history(out, results, at, last[members], curve, revised[members])
 
 
 class _SignedCurves:
@@ -273,8 +297,7 @@ class _SignedCurves:
 def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray, curve: _SignedCurves) -> None:
     """The signed curves on their series' rows dated after ``last``: count, error ratio, coverage."""
     data = results.data
-    rows, owner = _rows_after(data.offsets, series, data.date.view(np.int64), last.astype("datetime64[D]").view(np.int64),
-                              np.int64(np.timedelta64(1, "D") // np.timedelta64(1, np.datetime_data(data.date.dtype)[0])))
+    rows, owner = _rows_dated(data.offsets, series, data.date.view(np.int64), _days(last), _per_day(data.date), True)
     count = np.bincount(owner, minlength=len(series))
     tested = count > 0
     out["new_rows"][series] = count
@@ -293,27 +316,69 @@ def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray
         out["outside"][at] = np.where(banded, count - inside, -1)[tested]
 
 
+def _revised(data, series: np.ndarray, last: np.ndarray, signed: np.ndarray) -> np.ndarray:
+    """(n,) bool: the rows of each ``series[i]`` dated up to ``last[i]`` do not hash as the fingerprint
+    ``signed[i]`` (the rows the decision was made on) — the same hash as ``Dataset.fingerprint_texts``, of
+    those rows only, in row order (NaT ``last``: never revised, nothing to compare)."""
+    from ..data.dataset import hex_texts, series_digests
+    dated = ~np.isnat(last)
+    keep = np.zeros(data.n_rows, bool)
+    rows, _ = _rows_dated(data.offsets, series[dated], data.date.view(np.int64), _days(last[dated]),
+                          _per_day(data.date), False)
+    keep[rows] = True
+    digests = series_digests(data.fingerprint_columns, data.offsets, keep)
+    now = np.asarray(hex_texts(digests[series[dated]]).to_pylist(), dtype=object)
+    out = np.zeros(len(series), bool)
+    out[dated] = now != signed[dated]
+    return out
+
+
+def _test_history(out: dict, results: Results, series: np.ndarray, last: np.ndarray, curve: _SignedCurves,
+                  revised: np.ndarray) -> None:
+    """Where the rows up to ``last`` were ``revised``: how many there are now, and the signed curve's RMSE on
+    them over its CV RMSE."""
+    if not revised.any():
+        return
+    data, which = results.data, np.flatnonzero(revised)
+    rows, owner = _rows_dated(data.offsets, series[which], data.date.view(np.int64), _days(last[which]),
+                              _per_day(data.date), False)
+    count = np.bincount(owner, minlength=len(which))
+    volume, _, _, _ = curve.at(data.price[rows], which[owner])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rmse = np.sqrt(np.bincount(owner, (volume - data.volume[rows]) ** 2, minlength=len(which)) / count)
+        out["history_ratio"][series[which]] = np.where(count > 0, rmse / np.sqrt(curve.cv_mse[which]), np.nan)
+    out["history_rows"][series[which]] = count
+
+
+def _days(last: np.ndarray) -> np.ndarray:
+    return last.astype("datetime64[D]").view(np.int64)
+
+
+def _per_day(dates: np.ndarray) -> np.int64:
+    return np.int64(np.timedelta64(1, "D") // np.timedelta64(1, np.datetime_data(dates.dtype)[0]))
+
+
 _NAT = np.iinfo(np.int64).min
 
 
 @compiled
-def _rows_after(offsets, series, dates, last, per_day):
-    """(rows, owner): the rows of each ``series[i]`` dated on a day after ``last[i]`` (days since 1970; NaT
-    dates and NaT ``last`` never), in row order, and the ``i`` each belongs to.  ``dates`` in units of
-    which ``per_day`` make a day (floored to days, as numpy casts them).  One pass, not seven numpy passes
-    over every row of the dataset."""
+def _rows_dated(offsets, series, dates, last, per_day, after):
+    """(rows, owner): the rows of each ``series[i]`` dated on a day after ``last[i]`` (``after``; else on or
+    before it) (days since 1970; NaT dates and NaT ``last`` never), in row order, and the ``i`` each belongs
+    to.  ``dates`` in units of which ``per_day`` make a day (floored to days, as numpy casts them).  One pass,
+    not seven numpy passes over every row of the dataset."""
     n = 0
     for i in range(len(series)):
         if last[i] != _NAT:
             for r in range(offsets[series[i]], offsets[series[i] + 1]):
-                if dates[r] != _NAT and dates[r] // per_day > last[i]:
+                if dates[r] != _NAT and (dates[r] // per_day > last[i]) == after:
                     n += 1
     rows, owner = np.empty(n, np.int64), np.empty(n, np.int64)
     n = 0
     for i in range(len(series)):
         if last[i] != _NAT:
             for r in range(offsets[series[i]], offsets[series[i] + 1]):
-                if dates[r] != _NAT and dates[r] // per_day > last[i]:
+                if dates[r] != _NAT and (dates[r] // per_day > last[i]) == after:
                     rows[n], owner[n] = r, i
                     n += 1
     return rows, owner

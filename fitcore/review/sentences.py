@@ -255,12 +255,15 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
         now = "this plan's price " if bt.get("planned") else ""
         parts = [f"{head}{said}; at {now}{where} the signed curve gives {fmt(number('signed_volume'))}{band}."]
     n = bt.get("new_rows") or 0
-    if bt["status"] in ("passed", "failed"):
+    gone = bt["status"] == "history-changed"
+    if bt.get("revised"):
+        parts.append(history_sentence(bt))
+    if bt["status"] in ("passed", "failed") or (gone and n):
         tail = (f"{bt['outside']} of {n} fell outside its band" if bt.get("outside") is not None
                 else "its band was not recorded")
         parts.append(f"On the {n} {'observation' if n == 1 else 'observations'} since, its error is "
                      f"{number('error_ratio'):.1f}× its CV error and {tail}.")
-    else:
+    elif not gone:
         why = WHY_UNTESTED.get(bt["status"], bt["status"])
         parts.append(why[0].upper() + why[1:] + ".")
     if proposal is not None and bt.get("proposed_volume") is not None:
@@ -270,6 +273,27 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
         whose = "The proposal of these older results" if older else "This cycle's proposal"
         parts.append(f"{whose}, {proposal}{again}, predicts {fmt(proposed)} ({beside}).")
     return " ".join(parts)
+
+
+def history_sentence(bt: dict) -> str:
+    """What became of the rows a signed curve was made on, where they no longer hash as they did
+    (``fitcore.ledger.backtest``: ``revised``): still fitted by it, or gone (``history-changed``)."""
+    from ..text import clean
+    rows, ratio = bt.get("history_rows") or 0, bt.get("history_ratio")
+    upto = f"dated up to {clean(str(bt.get('last_date')))}"
+    if not rows:
+        return (f"None of the rows {upto} (the data it was signed on) are in these data any more, so the rows since "
+                "cannot vouch for it: look again.")
+    what = f"The {rows:,} {'row' if rows == 1 else 'rows'} {upto} are not the rows it was signed on (restated, " \
+           "added, dropped or reordered since)"
+    if bt["status"] == "history-changed":
+        return (f"{what}, and its error on them is {fmt_ratio(ratio)}× its CV error: the history it was signed on "
+                "has changed, so the rows since cannot vouch for it; look again.")
+    return f"{what}; it still fits them: its error there is {fmt_ratio(ratio)}× its CV error."
+
+
+def fmt_ratio(value) -> str:
+    return "n/a" if value is None or not math.isfinite(value) else f"{value:.1f}"
 
 
 def _beside_signed(proposed: float, signed_volume: float, change: float, tilt: float) -> str:

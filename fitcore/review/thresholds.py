@@ -28,7 +28,8 @@ class Thresholds:
       whose RMSE on the rows since sign-off is above this multiple of its CV RMSE, or whose 95% band
       holds less than this share of them (judged from ``shift_min_rows`` new rows on), or whose
       volume at the plan price differs from this cycle's proposal by more than this share → ``shifted``
-      (needs the ledger: ``fit --ledger``).
+      (needs the ledger: ``fit --ledger``).  ``shift_error_ratio`` also judges the signed curve on its own
+      rows where they were restated since: beyond it, ``history-changed`` (``fitcore.ledger.backtest``).
     """
 
     min_points: int = 12

@@ -172,3 +172,66 @@ def test_the_shift_sentence_says_no_change_and_no_share_of_a_volume_at_or_below_
               "price": 2.2, "planned": True, "new_rows": 4, "status": "passed", "error_ratio": 1.9, "outside": 1,
               "proposed_volume": proposed, "volume_change": change, "elasticity_change": tilt, "shape_changed": True}
     assert shift_sentence(record, "loglog").endswith(said + ".")
+
+
+def signed_curve(snap: dict, price: np.ndarray) -> np.ndarray:
+    """A signed snapshot's curve, from its plain coefficients (the README's convention), by numpy alone."""
+    if snap["family"] == "poly":
+        return np.polyval(snap["coef"][::-1], price)
+    a, e = snap["coef"]
+    return np.exp(a) * price ** e * snap["smearing"]
+
+
+def test_a_restated_history_is_told_from_a_rolling_window(tmp_path):
+    """Before: a series whose rows up to the signed data's last date were rewritten (elasticity −1.5 → −3.5
+    through the same volume at the plan price) passed its backtest on the one row since and was carried, its
+    new curve signed in the old one's name.  Now the rows up to the signed last date are hashed as the
+    decision's fingerprint hashes them; where they differ, the signed curve's error on them (checked here by a
+    direct numpy evaluation) decides: an oldest row dropped (a rolling window) still fits; a rewrite does not."""
+    rng = np.random.default_rng(7)
+    weeks, names = 60, ["same", "rolling", "restated", "backfilled"]
+    price = rng.uniform(1.5, 3.5, (len(names), weeks)).round(2)
+    price[:, -1] = 2.5  # the week since is at the plan price
+    noise = rng.lognormal(0, 0.05, (len(names), weeks))
+    volume = 1000 * (price / 2.5) ** -1.5 * noise
+    dates = np.datetime64("2024-01-01") + 7 * np.arange(weeks).astype("timedelta64[D]")
+
+    def dataset(rows_of: dict):
+        keys, p, v, d = [], [], [], []
+        for name, (prices, volumes, days) in rows_of.items():
+            keys += [name] * len(prices)
+            p.append(prices), v.append(volumes), d.append(days)
+        return from_columns({"product": np.array(keys, dtype=object)}, np.concatenate(p), np.concatenate(v),
+                            date=np.concatenate(d))
+
+    old = dataset({name: (price[i, :-1], volume[i, :-1], dates[:-1]) for i, name in enumerate(names)})
+    now_rows = {name: (price[i], volume[i], dates) for i, name in enumerate(names)}
+    now_rows["rolling"] = tuple(column[1:] for column in now_rows["rolling"])
+    steep = 1000 * (price[2] / 2.5) ** -3.5 * noise[2]
+    now_rows["restated"] = (price[2], steep, dates)
+    back = np.concatenate([dates[:-1] - np.timedelta64(1, "D"), dates])  # a day's row added under each week
+    now_rows["backfilled"] = (np.concatenate([price[3, :-1], price[3]]), np.concatenate([volume[3, :-1], volume[3]]),
+                              back)
+    now = dataset(now_rows)
+    settings = fitcore.FitSettings(degrees=(1,), loglog=True)
+    signed = fitcore.fit_batch(old, settings, plan_price=2.5)
+    book = sign_all(tmp_path / "l.jsonl", signed, old)
+    found = backtest(fitcore.fit_batch(now, settings, plan_price=2.5), book.histories, Thresholds(), {})
+    at = {now.key_of(s)["product"]: s for s in range(now.n_series)}
+    assert not found.revised[at["same"]] and found.history_rows[at["same"]] == -1
+    assert found.status[at["same"]] == PASSED
+    for name in ("rolling", "restated", "backfilled"):
+        s = at[name]
+        snap = next(h for h in book.histories.values() if h.current["series"] == {"product": name}).current["signed"]
+        rows = slice(now.offsets[s], now.offsets[s + 1])
+        upto = now.date[rows] <= np.datetime64(snap["last_date"])
+        predicted = signed_curve(snap, now.price[rows][upto])
+        ratio = np.sqrt(np.mean((predicted - now.volume[rows][upto]) ** 2) / snap["cv_mse"])
+        assert found.revised[s] and found.history_rows[s] == upto.sum(), name
+        np.testing.assert_allclose(found.history_ratio[s], ratio, rtol=1e-9)
+    assert found.history_ratio[at["rolling"]] < 1.5 and found.status[at["rolling"]] == PASSED
+    assert found.history_ratio[at["restated"]] > 2 and found.status[at["restated"]] == "history-changed"
+    assert found.shifted[at["restated"]] and not found.shifted[at["rolling"]]
+    assert abs(found.volume_change[at["restated"]]) < 0.15  # the volume at the plan price alone would not say it
+    assert found.due(at["restated"]) == "history changed since signing"
+    assert found.due(at["rolling"]) == "backtest passed"
