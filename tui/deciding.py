@@ -48,6 +48,12 @@ class Shown:
     def stops(self) -> tuple[str, ...]:
         return tuple(code for code in self.flags if SEVERITY[code] == "stop")
 
+    @property
+    def to_explain(self) -> tuple[str, ...]:
+        """The flags an accept must give a note for (``fitcore.ledger.rules.explained_codes``): its stop flags
+        (``stale`` is never among the results' flags) and ``shifted``."""
+        return self.stops + tuple(code for code in self.flags if code == "shifted")
+
 
 class Deciding:
     """Recording the analyst's decisions on the series shown."""
@@ -85,8 +91,9 @@ class Deciding:
         return self._permitted
 
     def needs_reason(self, shown: Shown, action: str) -> bool:
-        """An accept past a stop flag needs a note (the trade's usual rule for exceptions)."""
-        return action == "accept" and bool(shown.stops)
+        """An accept past a stop flag, or of a series whose signed curve no longer holds (``shifted``), needs a
+        note (the trade's usual rule for exceptions; the ledger's rule too)."""
+        return action == "accept" and bool(shown.to_explain)
 
     def decide(self, shown: Shown, action: str, model: str | None = None, note: str = "") -> dict:
         """Append one decision on the series ``shown`` showed; returns the record written.

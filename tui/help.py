@@ -17,7 +17,7 @@ KEYS = [
     ("Tab", "switch between the list and the evidence (narrow screens show one at a time)"),
     ("Enter", "narrow screens: open the evidence of the highlighted series; in a dialog: confirm"),
     ("Esc", "narrow screens: back to the list; in a dialog: cancel, nothing is recorded"),
-    ("a", "accept the proposed curve (past a stop flag, a note saying why comes first)"),
+    ("a", "accept the proposed curve (past a stop flag or shifted, a note saying why comes first)"),
     ("o", "override: compare every candidate's numbers and flags, pick one (a note is required)"),
     ("n", "add a note"),
     ("h", "hold: park the series for follow-up (a reason is optional)"),

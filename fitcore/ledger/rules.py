@@ -2,7 +2,8 @@
 then (so no path — screen, command, script — can skip them).  Pure: histories in, error out.
 
 - an override needs a note and a model (``records.check_entry``);
-- an accept whose ``flags`` include a stop flag (other than ``stale``) needs a note;
+- an accept whose ``flags`` include a stop flag (other than ``stale``) or ``shifted`` (the signed curve failed
+  its backtest, its history changed, or the proposal moved far from it) needs a note;
 - an accept on a series whose standing decision is already an accept (or a carry of one) of the
   same model on the same data fingerprint is refused: there is nothing to add (results fitted otherwise
   on the same data may propose another model: accepting that one is a change of model);
@@ -29,7 +30,7 @@ def check_alone(entries: list[Entry]) -> list[bytes | None]:
     """The rules an append's entries must meet whatever the ledger holds (checked before the
     file is even opened, so a refused first decision leaves no file behind).  Returns each entry's
     signed model as canonical bytes (``check_entry``)."""
-    stops = _stop_codes()
+    stops = explained_codes()
     seen: set[str] = set()
     signed = []
     for entry in entries:
@@ -40,8 +41,9 @@ def check_alone(entries: list[Entry]) -> list[bytes | None]:
         seen.add(sid)
         flagged = [code for code in entry.flags if code in stops]
         if entry.action == "accept" and flagged and not entry.note.strip():
-            raise LedgerError(f"{label(entry.series)}: accepting past a stop flag ({', '.join(flagged)}) "
-                              "needs a note saying why")
+            stop = [code for code in flagged if code != "shifted"]
+            past = [f"a stop flag ({', '.join(stop)})"] * bool(stop) + ["the shifted flag"] * (len(stop) < len(flagged))
+            raise LedgerError(f"{label(entry.series)}: accepting past {' and '.join(past)} needs a note saying why")
     return signed
 
 
@@ -159,7 +161,9 @@ def _person(record: dict) -> str:
     return name if not user or user == name else f"{name} ({user})"
 
 
-def _stop_codes() -> set[str]:
+def explained_codes() -> set[str]:
+    """The flags an accept must say why it goes past: every stop flag but ``stale`` (it comes from the ledger
+    itself, not the results: a stale series is re-signed normally), and ``shifted`` (a signed curve that no
+    longer holds, or a proposal far from it: an approver reading the ledger needs the reason)."""
     from ..review.flags import SEVERITY  # numpy and the fit: only appends pay for the import
-    # "stale" comes from the ledger itself, not the results: a stale series is re-signed normally.
-    return {code for code, severity in SEVERITY.items() if severity == "stop"} - {"stale"}
+    return {code for code, severity in SEVERITY.items() if severity == "stop"} - {"stale"} | {"shifted"}

@@ -89,6 +89,19 @@ def test_accepting_past_a_stop_flag_needs_a_note(tmp_path):
     ledger.append(path, [entry("c", flags=["stale"])], ANA)  # re-signing a stale series is normal
 
 
+def test_accepting_a_shifted_series_needs_a_note(tmp_path):
+    """Before: a series whose signed curve failed its backtest (+447% at the plan price) was re-signed with one key
+    and no note, and the report could not say why."""
+    path = tmp_path / "ledger.jsonl"
+    error = unchanged(path, lambda: ledger.append(path, [entry("a", flags=["stale", "shifted"])], ANA))
+    assert "accepting past the shifted flag needs a note saying why" in str(error)
+    error = unchanged(path, lambda: ledger.append(path, [entry("a", flags=["rising", "shifted"])], ANA))
+    assert "accepting past a stop flag (rising) and the shifted flag needs a note" in str(error)
+    [ok] = ledger.append(path, [entry("a", flags=["stale", "shifted"], note="new supplier: the new curve holds")],
+                         ANA)
+    assert ok["note"] == "new supplier: the new curve holds"
+
+
 def test_an_accept_standing_on_the_same_data_is_not_repeated(tmp_path):
     path = tmp_path / "ledger.jsonl"
     book = ledger.Ledger(path)

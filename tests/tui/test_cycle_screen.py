@@ -91,6 +91,33 @@ async def test_signed_series_with_new_rows_are_stale_with_what_is_due(next_cycle
         assert session.status[s] == "accepted" and "changed" in FILTERS
 
 
+async def test_accepting_a_shifted_series_asks_why_first(next_cycle, tmp_path):
+    """Before: ``a`` on a stale series flagged shifted (its signed curve failed its backtest) re-signed it at once,
+    with no note: the ledger and the report could not say why the change was signed."""
+    book, source = next_cycle
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(book.read_bytes())
+    app = make_app(copy, source)
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        session.set_filter("shifted", None)
+        s = next(int(t) for t in session.view if not session.look(int(t)).stops)  # shifted, no stop flag
+        session.bring(s)
+        app.screen.refresh_all()
+        await pilot.pause(0.3)
+        before = copy.read_bytes()
+        await pilot.press("a")
+        await pilot.pause()
+        assert "despite shifted?" in screen_text(app) and copy.read_bytes() == before
+        await pilot.press("enter")  # an empty note is refused
+        await pilot.pause()
+        assert "A note is required here." in screen_text(app) and copy.read_bytes() == before
+        await pilot.press(*"new week checked", "enter")
+        await until(pilot, lambda: copy.read_bytes() != before)
+        written = ledger.Ledger(copy).records[-1]
+        assert written["action"] == "accept" and written["note"] == "new week checked" and "shifted" in written["flags"]
+
+
 def test_stored_results_from_fit_ledger_open_with_their_backtest_and_sign_complete_models(next_cycle, tmp_path):
     """Triage on a Parquet file from ``fit --ledger``: the backtest as the file holds it, before any refit,
     and a decision's snapshot complete from the stored interval parts."""

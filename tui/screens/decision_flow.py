@@ -139,7 +139,7 @@ class DecisionFlow:
     def accept(self, shown: Shown) -> None:
         if self.session.needs_reason(shown, "accept"):
             self.ask(f"Accept {shown.proposed} for {self.session.label(shown.series)} despite "
-                     f"{', '.join(shown.stops)}? Say why", "a note is required",
+                     f"{', '.join(shown.to_explain)}? Say why", "a note is required",
                      True, lambda note: self.decide(shown, "accept", note=note), self.signing_text(shown))
         else:
             self.decide(shown, "accept")
