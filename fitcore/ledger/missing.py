@@ -104,6 +104,25 @@ class Missing:
             return None
         return f"{len(self.keys):,} signed series of {ledger_name} ({self.example})"
 
+    def listed(self, limit: int | None = None) -> list[str]:
+        """Every key, one a line as ``example`` names the first ('apples 1 kg · North'), and where the results hold
+        it under another spelling, which ('apples 1 kg · North — in these results as apples 1 kg⟨U+0020⟩ · North');
+        past ``limit`` keys, a last line '… and 1,234 more'."""
+        columns = self.columns or (tuple(self.keys[0]) if self.keys else ())
+        out = []
+        for at, key in enumerate(self.keys[:limit]):
+            values = tuple(clean(str(key[name])) for name in columns or key)
+            twin = self.twins[at] if self.twins else None
+            if twin is None:
+                out.append(SEPARATOR.join(values))
+                continue
+            theirs = tuple(clean(str(v)) for v in twin)
+            out.append(f"{SEPARATOR.join(told_apart([values], [theirs])[0])} — in these results as "
+                       f"{SEPARATOR.join(told_apart([theirs], [values])[0])}")
+        if limit is not None and len(self.keys) > limit:
+            out.append(f"… and {len(self.keys) - limit:,} more")
+        return out
+
     @property
     def example(self) -> str:
         """'carrots 1 kg · North, …': the first that no results' series looks like (else the first), cleaned, its

@@ -14,6 +14,8 @@ from pathlib import Path
 
 from fitcore.errors import DataError, SettingsError
 
+REPORT_LISTS = 5000  # the signed series not in the results the page names, one each (then "… and N more")
+
 INSTALL_HINT = ("the report's charts need matplotlib: pip install matplotlib (or, in the checkout, "
                 "pip install -e '.[report]')")
 REFIT_ROWS = 50_000_000  # as triage: above this many rows the data are not read for the charts
@@ -207,21 +209,22 @@ class Charts:
         return self.maker.draw(chart, title, note, salt=f"s{s}")
 
 
-def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple[tuple[str, ...], list[tuple]]:
+def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple[tuple[str, ...], object]:
     """Where the results and the ledger part, each in the commands' one clause: the ledger's signed series not in
     the results (``fitcore.ledger.missing``), and the results' series that look like its own under another spelling
     (``fitcore.ledger.respelling``) — what an approver reading "34 pending" would not otherwise learn; and those
-    missing series' keys as shown, which the page's series are told apart from (``Missing.shown``).  The sentences
+    missing series (a ``fitcore.ledger.missing.Missing``: its keys as shown, which the page's series are told apart
+    from, ``shown``; each named a line, ``listed``).  The sentences
     hold shown forms (look-alikes told apart): the page shows them through ``printable``, as the commands print
     them, not ``clean`` again, which would escape a shown form's ``⟨`` itself."""
     import numpy as np
 
     from fitcore.data.keys import SeriesKeys
-    from fitcore.ledger.missing import RENAMED, missing_at, results_values, signed_keys
+    from fitcore.ledger.missing import NONE, RENAMED, missing_at, results_values, signed_keys
 
     from ..fit_ledger import signed_alike
     if not histories:
-        return (), []
+        return (), NONE
     keys = SeriesKeys.of(results.data)
     names = tuple(keys.names)
     signed = signed_keys(histories, names)
@@ -235,7 +238,7 @@ def results_apart(results, histories: dict, signoff, ledger_path: Path) -> tuple
         gone = gone.beside(results_values(keys)) if len(gone) else gone
         alike = looks.said(str(ledger_path))
     missing = gone.said(str(ledger_path))
-    return tuple(said for said in (missing and f"{missing}; {RENAMED}", alike) if said), gone.shown()
+    return tuple(said for said in (missing and f"{missing}; {RENAMED}", alike) if said), gone
 
 
 def version() -> str:
@@ -281,7 +284,7 @@ def run(args) -> int:
     signoff = gather(book.results, diagnosis, list(view.records), histories)
     decided, flagged, more = signoff.detailed()
     apart, missing = results_apart(book.results, histories, signoff, ledger_path)
-    tell_apart = told_apart_from(missing)  # a series reading like one the summary names missing: told apart
+    tell_apart = told_apart_from(missing.shown())  # a series reading like one the summary names missing: told apart
     charts = Charts(book, signoff, [*decided.tolist(), *flagged.tolist()], tell_apart)
     charts.draw_all()
     for said in apart:  # as every command where results meet a ledger says it
@@ -289,7 +292,8 @@ def run(args) -> int:
     made = datetime.now(timezone.utc)
     title = args.title or f"Sign-off report: {args.results.name}"
     report = Report(title, made, str(args.results), book.header, signoff, view, book.data_note,
-                    charts, __version__, backtest, apart, tell_apart)
+                    charts, __version__, backtest, apart, tell_apart,
+                    tuple(missing.listed(REPORT_LISTS)) if missing.said() else ())
     detailed = {int(s) for s in decided} | {int(s) for s in flagged}
     body = (f"<header><h1>{esc(title)}</h1><p class=\"muted\">Made {made.strftime('%Y-%m-%d %H:%M UTC')} by "
             f"pricefold {esc(__version__)} from <code>{esc(args.results)}</code> and the ledger "

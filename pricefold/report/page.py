@@ -46,6 +46,7 @@ class Report:
     # where results and ledger part: signed series not in the results, series spelled otherwise (one clause each)
     apart: tuple = ()
     tell_apart: Callable | None = None  # a key told apart from those signed series' (``told_apart_from``)
+    missing: tuple = ()  # those signed series, each named (``Missing.listed``)
 
 
 def esc(text) -> str:
@@ -191,6 +192,10 @@ def summary(report: Report) -> str:
     card_html = "".join(f"<li><span class=\"n\">{num(n)}</span>{word}{extra}</li>" for word, n, extra in cards)
     apart = "".join(f"<p class=\"notice\">{html.escape(printable(said[0].upper() + said[1:]))}.</p>"  # shown forms in
                     for said in report.apart)
+    if report.missing:  # each by name: an approver checks what left, not only how many
+        items = "".join(f"<li>{html.escape(printable(line))}</li>" for line in report.missing)
+        apart += (f"<details class=\"missing\"><summary>The signed series not in these results</summary>"
+                  f"<ul>{items}</ul></details>")
     flags = flag_table(signoff)
     flag_rows = "".join(f"<tr><td><code>{code}</code></td><td class=\"sev-{sev}\">{sev}</td>"
                         f"<td class=\"num\">{num(n)}</td><td>{esc(MEANING[code])}</td></tr>" for code, sev, n in flags)

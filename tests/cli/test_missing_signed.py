@@ -145,5 +145,9 @@ def test_the_report_says_both_in_its_summary(cycle, capsys, tmp_path):
             f"under another spelling); {RENAMED}.") in summary  # the tail every other command says (before: none)
     assert (f"1 series in these results looks like a series in {book} under another spelling (region &quot;north&quot; "
             "for &quot;North&quot;)." in summary)
+    # every one of them named, with the spelling these results hold (before: the example alone)
+    items = summary[summary.index('<details class="missing">'):].split("<li>")[1:]
+    assert len(items) == gone and f"{OLD} · {signed[0]}</li>" in items
+    assert "apples 1 kg · North — in these results as apples 1 kg · north</li>" in items
     err = capsys.readouterr().err
     assert err.count(": note: ") == 2 and err.count(RENAMED) == 1

@@ -180,6 +180,10 @@ def test_look_alikes_need_attention_and_have_a_filter_and_missing_signed_series_
     alike_count = len(respelled_in_ledger(ledger_path))  # the example now the one held in no spelling
     assert (f"(elsewhere accept · East, …; {alike_count} of them present only under another spelling)"
             in missing_text(session))
+    # and ``?`` names every one, a line each, with the spelling the results hold (before: the example alone)
+    lines = missing_text(session).splitlines()[1:]
+    assert len(lines) == gone and "    elsewhere accept · East" in lines
+    assert sum(" — in these results as " in line for line in lines) == alike_count
 
 
 async def test_a_look_alike_decided_meanwhile_is_refused_before_the_note_box(ledger_path, tmp_path):

@@ -54,10 +54,15 @@ def status_text(session, width: int) -> Text:
 
 def missing_text(session) -> str | None:
     """'3 signed series in L.jsonl are not in these results (carrots 1 kg · North, …); renamed in the data? …'
-    (``fitcore.ledger.missing``, every command's note), for ``?``."""
+    (``fitcore.ledger.missing``, every command's note), for ``?``, then each of them (``HELP_LISTS``) a line."""
     from fitcore.ledger.missing import RENAMED
     said = session.missing.said(session.spellings.ledger_name)
-    return f"{said}; {RENAMED}" if said else None
+    if not said:
+        return None
+    return f"{said}; {RENAMED}:" + "".join(f"\n    {line}" for line in session.missing.listed(HELP_LISTS))
+
+
+HELP_LISTS = 200  # the missing signed series ``?`` names, one a line (then "… and N more")
 
 
 def keys_text(key_columns) -> str | None:
