@@ -5,7 +5,8 @@ Order of events, so that a failed or killed run leaves the earlier results and r
 they were: every output is checked against every input before anything is read; the rejects file is
 staged (written in full under a temporary name) right after loading, its digest recorded in the
 results' ``input``; the results are staged after the fit; then the rejects file and the results are
-put in place, in that order.  A clean run removes its own earlier rejects file last.
+put in place, in that order.  A clean run removes the replaced results' own rejects file last (the file whose
+digest they record: ``earlier_rejects``), and leaves any other, saying so.
 """
 from __future__ import annotations
 
@@ -142,6 +143,8 @@ def _fit_locally(args, run, ahead) -> int:
     from fitcore.data.plan import plan_keywords, unused_columns_note
     from fitcore.data.rejects import rejects_path, write_rejects
     from fitcore.outputs import Batch, remove_own
+
+    from .earlier_rejects import earlier_rejects
     from fitcore.results.write import prepared_results
     from fitcore.review.flags import diagnose
 
@@ -152,8 +155,9 @@ def _fit_locally(args, run, ahead) -> int:
     check()  # an interrupt recorded while the warm-up ran
     free, read = zero_price_line(data, args.data, run.columns.price), data.source["rows"]
     target = rejects_path(args.output)
+    earlier = earlier_rejects(target, args.output)  # before the results it sits beside are replaced
     if len(rejects):
-        strict_or_foreign(rejects, target, args.strict)
+        strict_or_foreign(rejects, earlier, args.strict)
     with Batch() as batch:
         if len(rejects):
             staged = batch.add(target, lambda handle: write_rejects(rejects, handle))
@@ -183,8 +187,12 @@ def _fit_locally(args, run, ahead) -> int:
         del data, plan, results, diagnosis  # (``backtest``: per-series arrays, kept for its closing line)
         batch.add(args.output, write, by_name=by_name)
         check()  # interrupted, though something swallowed it: the staged files are dropped
-    if not len(rejects):
-        remove_own(target, "rejects")  # an older run's rejects would now mislead
+    if not len(rejects) and earlier.owned:
+        remove_own(target, "rejects")  # the replaced results' own rejects would now mislead
+    elif not len(rejects) and earlier.exists:
+        from fitcore.outputs.atomic import remove_leftovers
+        remove_leftovers(target)  # a killed writer's temporary copy of it: ours by its name
+        print(f"note: {target} left as it was: {earlier.why}; this run rejected no row", file=sys.stderr)
     if len(rejects):  # a warning, not progress: --quiet keeps it
         most = 2 * len(rejects) > read  # then where the first is and why (its cell read again from the file)
         print(rejects_line(rejects.reasons, target, read, first_words(rejects, run.columns) if most else ""),
@@ -201,20 +209,17 @@ def _fit_locally(args, run, ahead) -> int:
     return 0
 
 
-def strict_or_foreign(rejects, target: Path, strict: bool) -> None:
-    """Fail before anything is written: ``--strict`` with rejected rows, or a rejects file's name taken
-    by a file pricefold did not write."""
-    import os
-
+def strict_or_foreign(rejects, earlier, strict: bool) -> None:
+    """Fail before anything is written: ``--strict`` with rejected rows, or the rejects file's name taken by a
+    file that is not the rejects of the results this run replaces (``earlier``: ``earlier_rejects``)."""
     from fitcore.data.validation import summary as rejects_summary
     from fitcore.errors import DataError
-    from fitcore.outputs import is_own
     if strict:
         raise DataError(f"{rejects.reasons[0]} ({rejects_summary(rejects.reasons)}; --strict, so nothing was "
                         "written)", path=str(rejects.path), line=int(rejects.lines[0]))
-    if os.path.lexists(target) and not is_own(target, "rejects"):
-        raise DataError("exists and is not a rejects file pricefold wrote, and this run has rejected rows to write "
-                        "there; remove it or choose another results name", path=str(target))
+    if earlier.exists and not earlier.owned:
+        raise DataError(f"exists, and {earlier.why}; this run has rejected rows to write there: remove it or "
+                        "choose another results name (nothing was written)", path=str(earlier.path))
 
 
 def zero_price_line(data, path: Path, column: str) -> str:

@@ -9,7 +9,8 @@ Kinds of output and how an earlier one is recognised:
 
     results         JSON starting ``{"schema":"pricefold-results/``, or Parquet with ``pricefold`` metadata
     results-folder  a folder holding ``_summary.json`` (``fit --engine dask``), or an empty folder
-    rejects         CSV whose header ends with ``line,reason``
+    rejects         CSV whose header ends with ``line,reason`` (``fit`` asks more: the very file the results it
+                    replaces record, ``pricefold.earlier_rejects``)
     export          CSV whose header holds ``status``, ``model`` and ``coef`` (``ledger export``)
     report          HTML whose first KiB holds ``<meta name="generator" content="pricefold report``
 """
