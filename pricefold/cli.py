@@ -395,10 +395,16 @@ def main(argv: list[str] | None = None) -> int:
         print(f"pricefold {args.command}: {exc}", file=sys.stderr)
         return 2
     except KeyboardInterrupt as exc:
+        import signal
         written = getattr(exc, "written", None)  # came as the files were put in place, acted on after
         said = f"after writing {', '.join(written)} in full" if written else "nothing was written"
-        print(f"pricefold {args.command}: interrupted; {said}", file=sys.stderr)
-        return 130
+        signum = getattr(exc, "signum", signal.SIGINT)  # a kill or a closed terminal, as Ctrl+C (``interrupts``)
+        how = "interrupted" if signum == signal.SIGINT else f"stopped by {signal.Signals(signum).name}"
+        try:
+            print(f"pricefold {args.command}: {how}; {said}", file=sys.stderr)
+        except OSError:  # the terminal that sent SIGHUP is gone
+            pass
+        return 128 + signum
     except BrokenPipeError:  # the reader went away (``| head``): stop quietly, as other tools do
         import os
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())

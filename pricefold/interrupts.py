@@ -1,4 +1,7 @@
 """Ctrl+C during ``pricefold fit``, seen once and never lost, and never raised where it can wedge a thread.
+A ``kill`` (SIGTERM) or a closed SSH session (SIGHUP) the same way: before, either ended the process at once,
+silently, its staged files left behind until a later run; now the run stops at the next safe point, drops what
+it staged and says so (``Stopped``: exit 128 + the signal's number).
 
 Python turns SIGINT into ``KeyboardInterrupt`` at the main thread's next step, wherever that is.  While
 another thread of the fit runs (the warm-up, the engine's second chunk), that is unsafe: raised inside an
@@ -15,42 +18,58 @@ import signal
 import threading
 from contextlib import contextmanager
 
-_seen = False
+_seen = 0  # the signal recorded inside ``noticed`` (0: none)
+NOTICED = ("SIGINT", "SIGTERM", "SIGHUP")
+
+
+class Stopped(KeyboardInterrupt):
+    """The run stopped by ``signum`` (SIGINT: Ctrl+C; SIGTERM: ``kill``; SIGHUP: the terminal went away)."""
+
+    def __init__(self, signum: int = signal.SIGINT) -> None:
+        super().__init__()
+        self.signum = signum
 
 
 def _on_interrupt(signum, frame) -> None:
     global _seen
-    _seen = True
+    _seen = _seen or signum
     if threading.active_count() == 1:  # no other thread could wait on a lock this one leaves taken
-        raise KeyboardInterrupt
+        raise Stopped(signum)
 
 
 @contextmanager
 def noticed():
-    """Record every SIGINT from here to the end of the block (main thread, Python's own handler in place:
-    elsewhere nothing changes)."""
+    """Record every SIGINT, SIGTERM and SIGHUP from here to the end of the block (main thread, each with its
+    usual handling in place — Python's for SIGINT, the default action for the others —: elsewhere nothing
+    changes)."""
     global _seen
-    if (threading.current_thread() is not threading.main_thread()
-            or signal.getsignal(signal.SIGINT) is not signal.default_int_handler):
+    usual = {signal.SIGINT: signal.default_int_handler}
+    numbers = [number for number in (getattr(signal, name, None) for name in NOTICED) if number is not None]
+    if threading.current_thread() is not threading.main_thread():
         yield
         return
-    _seen = False
-    previous = signal.signal(signal.SIGINT, _on_interrupt)
+    numbers = [number for number in numbers if signal.getsignal(number) is usual.get(number, signal.SIG_DFL)]
+    if signal.SIGINT not in numbers:
+        yield
+        return
+    _seen = 0
+    previous = {number: signal.signal(number, _on_interrupt) for number in numbers}
     try:
         yield
     except BaseException as exc:
         if _seen and not isinstance(exc, KeyboardInterrupt):
-            raise KeyboardInterrupt from None
+            raise Stopped(_seen) from None
         raise
     finally:
-        signal.signal(signal.SIGINT, previous)
-        _seen = False
+        for number, handler in previous.items():
+            signal.signal(number, handler)
+        _seen = 0
 
 
 def check() -> None:
-    """Raise ``KeyboardInterrupt`` if a SIGINT came inside ``noticed``, even one something swallowed."""
+    """Raise ``Stopped`` if a signal came inside ``noticed``, even one something swallowed."""
     if _seen:
-        raise KeyboardInterrupt
+        raise Stopped(_seen)
 
 
 def checked(progress):

@@ -215,18 +215,21 @@ class Batch:
                 for folder in dict.fromkeys(staged.path.parent for staged in self.staged):
                     _sync_folder(folder)
                 done = True
-        except KeyboardInterrupt:
+        except KeyboardInterrupt as exc:
             if done:  # said as such: "nothing was written" would be untrue
-                raise InterruptedAfterWriting([str(staged.path) for staged in self.staged]) from None
+                raise InterruptedAfterWriting([str(staged.path) for staged in self.staged],
+                                              getattr(exc, "signum", signal.SIGINT)) from None
             raise
 
 
 class InterruptedAfterWriting(KeyboardInterrupt):
-    """Ctrl+C that came while a batch's files were renamed into place, raised once all of them were."""
+    """Ctrl+C (or ``signum``) that came while a batch's files were renamed into place, raised once all of them
+    were."""
 
-    def __init__(self, written: list[str]) -> None:
+    def __init__(self, written: list[str], signum: int = signal.SIGINT) -> None:
         super().__init__()
         self.written = written
+        self.signum = signum
 
 
 _DEFERRED = ("SIGINT", "SIGTERM", "SIGHUP")

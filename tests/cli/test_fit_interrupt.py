@@ -127,6 +127,23 @@ def test_ctrl_c_while_the_ledger_is_read_is_one_line_and_exit_130(signed):
     assert not [p.name for p in signed.iterdir() if p.name.endswith(".tmp")]
 
 
+@pytest.mark.parametrize("name", ["SIGTERM", "SIGHUP"])
+def test_a_kill_or_a_closed_terminal_stops_the_run_as_ctrl_c_does(signed, name):
+    """Before: ``kill`` (SIGTERM) or a closed SSH session (SIGHUP) ended the process at once, exit 143 or 129 with
+    no line, and its staged files (``.p2.parquet.pricefold-….tmp``) stayed until a later run to that name."""
+    earlier = digest(signed / "p2.parquet")
+    number = getattr(signal, name)
+    run = start(signed)
+    forked(run)
+    time.sleep(0.35)
+    assert run.poll() is None, "the run ended before the signal"
+    os.kill(run.pid, number)  # the command alone, as ``kill PID`` does
+    _, err = run.communicate(timeout=60)
+    assert (run.returncode, err.decode()) == (128 + number, f"pricefold fit: stopped by {name}; nothing was written\n")
+    assert digest(signed / "p2.parquet") == earlier
+    assert not [p.name for p in signed.iterdir() if p.name.endswith(".tmp")]
+
+
 @pytest.mark.slow  # about twenty whole runs (~40 s)
 def test_ctrl_c_at_any_moment_is_one_line_exit_130_and_nothing_written(signed):
     """Before: a traceback from the child at every moment, and at some (an interrupt raised while pyarrow
