@@ -41,6 +41,8 @@ def run_demo(args, open_triage) -> int:
     inputs = [("the sample data", sample.data), ("the sample plan", sample.plan_file), ("the shipped results", shipped)]
     if folder.is_dir():
         check_outputs([(results_path, "results")], inputs)
+        from .ledger_cli import refuse_not_a_ledger
+        refuse_not_a_ledger(folder / "ledger.jsonl")  # before the results are written: "nothing was done" is true
     try:
         folder.mkdir(parents=True, exist_ok=True)  # the demo's own folder, as documented
     except OSError as exc:

@@ -9,6 +9,8 @@ import math
 from pathlib import Path
 from argparse import Namespace
 
+import pytest
+
 import pyarrow.parquet as pq
 
 from pricefold import demo
@@ -80,3 +82,15 @@ def test_the_demo_says_how_to_install_the_report_charts_as_the_readme_does(tmp_p
     err = capsys.readouterr().err
     assert "pip install -e '.[report]'" in err and "pip install -e '.[report]'" in (
         Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+
+
+def test_a_folder_whose_ledger_is_not_one_is_refused_before_anything_is_written(tmp_path):
+    """Before: the demo wrote ``results.parquet`` and printed how to come back to it, then refused the ledger,
+    saying "nothing was done"."""
+    from fitcore.ledger import LedgerError
+    (tmp_path / "demo").mkdir()
+    (tmp_path / "demo" / "ledger.jsonl").write_text("hello world\n")
+    args = Namespace(dir=tmp_path / "demo", analyst=None, control=[], season=0)
+    with pytest.raises(LedgerError, match="not a ledger.*nothing was done"):
+        demo.run_demo(args, lambda *a, **kw: 0)
+    assert sorted(p.name for p in (tmp_path / "demo").iterdir()) == ["ledger.jsonl"]
