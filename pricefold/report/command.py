@@ -47,8 +47,8 @@ def read_ledger(path: Path, key: bytes | None):
     if book.problem is not None:
         return LedgerView(str(path), book.state, records, book.head_text if records else None, str(book.problem),
                           kind)
-    remark = (f"The ledger ends in an interrupted append ({book.notes[0]}); it is left out, and the next append "
-              "sets it aside." if book.notes else None)
+    remark = (f"The ledger ends in an interrupted append ({'; '.join(map(str, book.notes))}); it is left out, and "
+              "the next append sets it aside." if book.notes else None)  # every note: a torn line after a batch too
     return LedgerView(str(path), book.state, records, book.head_text if records else None, remark, kind)
 
 
@@ -305,5 +305,7 @@ def run(args) -> int:
     counts = signoff.counts()
     print(f"report of {counts['total']:,} series ({', '.join(f'{counts[s]:,} {s}' for s in STATUSES if counts[s])}; "
           f"ledger {view.state}) → {args.output} ({len(page.encode('utf-8')) / 1e6:.1f} MB)", file=sys.stderr)
+    if view.state == "intact" and view.problem:  # as every other command says an interrupted tail
+        print(f"pricefold report: {view.path}: note: {view.problem}", file=sys.stderr)
     return 0
 

@@ -92,6 +92,18 @@ def test_a_broken_ledger_is_the_first_thing_on_the_page(signed, tmp_path):
     assert body.index("The ledger's chain is broken:</strong> line 5: record was edited") < body.index("<h2>Summary")
 
 
+def test_a_ledger_ending_in_a_torn_write_is_said_on_the_page_and_on_stderr(signed, tmp_path):
+    """Before: the command's line said "ledger intact" and nothing more, and the page named only the first of
+    the tail's two notes (the incomplete batch, not the torn line after it)."""
+    torn = tmp_path / "ledger.jsonl"
+    torn.write_bytes(signed["ledger"].read_bytes()[:-60])  # the last record cut short
+    out = tmp_path / "report.html"
+    done = scenario.report(signed["results"], torn, out)
+    assert done.returncode == 0 and "ledger intact" in done.stderr
+    assert f"pricefold report: {torn}: note: The ledger ends in an interrupted append (" in done.stderr
+    assert "torn last line" in done.stderr and "torn last line" in out.read_text()
+
+
 def test_a_keyed_ledger_without_its_key_is_said_first(tmp_path):
     built = scenario.build(tmp_path, key=b"k3y")
     out = tmp_path / "report.html"
