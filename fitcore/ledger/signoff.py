@@ -91,12 +91,25 @@ class Signoff:
 
     def counts(self) -> dict[str, int]:
         """Series per status, plus ``carried`` (a part of ``accepted``: accepts carried forward),
-        ``carried_overridden`` (a part of ``overridden``: overrides carried forward) and ``total``."""
+        ``carried_overridden`` (a part of ``overridden``: overrides carried forward), ``stale_overridden`` and
+        ``stale_held`` (parts of ``stale``: the decision standing on the older data is an override, or a hold —
+        an approver reading "0 overridden" would otherwise not learn of them) and ``total``."""
         tally = np.bincount(self.status, minlength=len(STATUSES))
         out = dict(zip(STATUSES, tally.tolist()))
         out["carried"] = int((self.carried & (self.status == STATUSES.index("accepted"))).sum())
         out["carried_overridden"] = int((self.carried & (self.status == STATUSES.index("overridden"))).sum())
+        out["stale_overridden"] = int(self.stale_standing("override").sum())
+        out["stale_held"] = int(self.stale_standing("hold").sum())
         out["total"] = int(len(self.status))
+        return out
+
+    def stale_standing(self, action: str) -> np.ndarray:
+        """(S,) bool: stale, with ``action`` (an override, a hold; a carried override counts) standing on the
+        older data."""
+        out = np.zeros(len(self.status), dtype=bool)
+        for s in np.flatnonzero(self.status == STATUSES.index("stale")).tolist():
+            decision = self.histories[s].decision if s in self.histories else None
+            out[s] = decision is not None and decision["action"] == action
         return out
 
     def flag_counts(self) -> dict[str, int]:
@@ -112,10 +125,12 @@ class Signoff:
         return order[(self.individual | self.stop_flagged())[order]]
 
     def detailed(self, limit: int = DETAIL_LIMIT) -> tuple[np.ndarray, np.ndarray, int]:
-        """``(decided, flagged, more)``: every overridden, held or noted series; then at most ``limit``
-        further stop-flagged series (attention order); and how many stop-flagged series are left out."""
+        """``(decided, flagged, more)``: every overridden, held or noted series (an override or hold standing
+        on older data too: stale); then at most ``limit`` further stop-flagged series (attention order); and how
+        many stop-flagged series are left out."""
         order = self.diagnosis.attention_order()
         decided = (self.status == STATUSES.index("overridden")) | (self.status == STATUSES.index("held")) | self.noted
+        decided |= self.stale_standing("override") | self.stale_standing("hold")
         flagged = self.stop_flagged() & ~decided
         rest = order[flagged[order]]
         return order[decided[order]], rest[:limit], max(len(rest) - limit, 0)
@@ -246,11 +261,15 @@ def bulk_groups(records: list[dict]) -> tuple[list[BulkGroup], set]:
 
 
 def tallies(records: list[dict]) -> list[AnalystTally]:
-    """Per analyst (most records first): records by action, first and last time."""
+    """Per analyst (most records first): records by action, first and last time.  An analyst is a display name
+    with the OS user beside it where the two differ (``ana (root)``, as ``ledger show`` writes it): the name is
+    free text, the OS user is who the system says appended — two names of one user, or one name of two, show."""
     actions: dict[str, dict] = defaultdict(lambda: defaultdict(int))
     times: dict[str, list] = {}
     for record in records:
-        name = str(record.get("analyst", ""))
+        name, user = str(record.get("analyst", "")), record.get("os_user")
+        if user and user != name:
+            name = f"{name} ({user})"
         actions[name][str(record["action"])] += 1
         at = str(record.get("at", ""))
         span = times.setdefault(name, [at, at])

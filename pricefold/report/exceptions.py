@@ -10,7 +10,7 @@ import math
 
 from fitcore.ledger.signoff import STATUSES, Signoff
 
-from .page import Report, cell, elasticity, esc, interval, num, price, when
+from .page import Report, cell, elasticity, esc, interval, num, price, stale_parts, when
 from .tables import at_plan, by_whom, label
 
 
@@ -136,7 +136,8 @@ def section(report: Report, s: int) -> str:
 def exceptions(report: Report, decided, flagged, more: int) -> str:
     signoff = report.signoff
     counts = signoff.counts()
-    lead = (f"<p>{num(counts['overridden'])} overridden, {num(counts['held'])} held, "
+    older = stale_parts(counts)  # overrides and holds standing on older data are exceptions in full too
+    lead = (f"<p>{num(counts['overridden'])} overridden, {num(counts['held'])} held{older}, "
             f"{num(int(signoff.noted.sum()))} with notes; then {num(len(flagged))} series with a stop flag, most in "
             "need of attention first.")
     if more:

@@ -182,13 +182,20 @@ def _ledger_facts(report: Report) -> list[tuple[str, str]]:
     return pairs
 
 
+def stale_parts(counts: dict) -> str:
+    """' (1 overridden, 2 held on older data)': the stale series whose standing decision is an override or a hold."""
+    parts = [f"{num(counts[key])} {word}" for key, word in (("stale_overridden", "overridden"), ("stale_held", "held"))
+             if counts.get(key)]
+    return f" ({', '.join(parts)} on older data)" if parts else ""
+
+
 def summary(report: Report) -> str:
     signoff = report.signoff
     counts = signoff.counts()
     cards = [("series", counts["total"], ""), ("accepted", counts["accepted"],
               f" ({num(counts['carried'])} carried)" if counts["carried"] else ""),
              ("overridden", counts["overridden"], ""), ("held", counts["held"], ""),
-             ("pending", counts["pending"], ""), ("stale", counts["stale"], "")]
+             ("pending", counts["pending"], ""), ("stale", counts["stale"], stale_parts(counts))]
     card_html = "".join(f"<li><span class=\"n\">{num(n)}</span>{word}{extra}</li>" for word, n, extra in cards)
     apart = "".join(f"<p class=\"notice\">{html.escape(printable(said[0].upper() + said[1:]))}.</p>"  # shown forms in
                     for said in report.apart)

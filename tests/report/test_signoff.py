@@ -42,7 +42,7 @@ def test_statuses_bulk_runs_and_tallies(fitted):
     signoff = gather(results, diagnosis, records)
     counts = signoff.counts()
     assert counts == {"accepted": 12, "overridden": 1, "held": 0, "pending": 46, "stale": 1, "carried": 0,
-                      "carried_overridden": 0, "total": 60}
+                      "carried_overridden": 0, "stale_overridden": 0, "stale_held": 0, "total": 60}
     assert [(g.analyst, g.action, g.count) for g in signoff.bulk] == [("ana", "accept-unflagged", 10)]
     assert signoff.individual.sum() == 6 and not signoff.individual[:10].any()
     assert signoff.noted[24] and signoff.noted.sum() == 1
@@ -98,3 +98,31 @@ def test_detailed_takes_decisions_then_at_most_the_limit_of_stop_flagged(fitted)
     assert STATUSES[signoff.status[held]] == "held"
     rows = signoff.table_rows().tolist()
     assert set(rows) == set(stop.tolist()) and rows == [s for s in order if s in rows]
+
+
+def test_overrides_and_holds_standing_on_older_data_are_counted_and_detailed(fitted):
+    """Before: the report's counts read "0 overridden · 0 held · 3 stale" with an override and two holds standing
+    on last cycle's data, and those series were in full only as stop-flagged ones, within the limit."""
+    results, diagnosis = fitted
+    older = lambda r: {**r, "fingerprint": "last cycle"}  # noqa: E731  (decided on data these results do not hold)
+    records = [older(record(1, results, 30, "override", "2026-12-01T09:00:00.000Z", note="why", model="poly0")),
+               older(record(2, results, 31, "hold", "2026-12-01T09:01:00.000Z")),
+               older(record(3, results, 32, "hold", "2026-12-01T09:02:00.000Z")),
+               older(record(4, results, 33, "accept", "2026-12-01T09:03:00.000Z"))]
+    signoff = gather(results, diagnosis, records)
+    counts = signoff.counts()
+    assert (counts["overridden"], counts["held"], counts["stale"]) == (0, 0, 4)
+    assert (counts["stale_overridden"], counts["stale_held"]) == (1, 2)
+    decided, _, _ = signoff.detailed(limit=0)
+    assert sorted(decided.tolist()) == [30, 31, 32]
+
+
+def test_an_analyst_is_named_with_the_os_user_where_they_differ(fitted):
+    """Before: two display names typed by one OS user read as two people (``ana``, ``bo``), and one name used by
+    two OS users as one."""
+    results, diagnosis = fitted
+    records = [{**record(1, results, 0, "accept", "2026-12-01T09:00:00.000Z", "ana"), "os_user": "root"},
+               {**record(2, results, 1, "accept", "2026-12-01T09:01:00.000Z", "bo"), "os_user": "root"},
+               {**record(3, results, 2, "accept", "2026-12-01T09:02:00.000Z", "bo"), "os_user": "bo"}]
+    names = sorted(t.analyst for t in gather(results, diagnosis, records).analysts)
+    assert names == ["ana (root)", "bo", "bo (root)"]
