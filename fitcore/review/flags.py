@@ -28,6 +28,8 @@ FLAGS = (
     ("below-zero", "stop", "the chosen curve predicts negative volume in range or at the plan price"),
     ("outside-range", "stop", "the plan price (or a control's plan value) lies outside the values observed: "
                               "an extrapolation"),
+    ("price-gap", "warn", "the plan price lies in a wide gap between the prices observed: the curve there is "
+                          "carried across it by its shape, not by observations near it"),
     ("near-tie", "warn", "another candidate is about as good but predicts a materially different volume"),
     ("unsteady-folds", "warn", "one fold's held-out error dominates the others"),
     ("weak-fit", "warn", "low cross-validated R² (Q²), or none: the volumes it is judged on never vary"),
@@ -153,6 +155,11 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     flag("outside-range", has & ((planned & ((plan < results.price_lo) | (plan > results.price_hi)))
                                  | control_outside.any(axis=1)))
 
+    gap = plan_gaps(results)
+    numbers.update(plan_gap=gap)
+    with np.errstate(invalid="ignore"):
+        flag("price-gap", has & (gap > thresholds.plan_gap))
+
     rival, rival_change, rival_volume, chosen_volume = _near_tie(results)
     numbers.update(rival=rival, rival_change=rival_change, rival_volume=rival_volume, chosen_volume=chosen_volume)
     flag("near-tie", has & (rival >= 0) & (np.abs(rival_change) > thresholds.near_tie_change))
@@ -176,6 +183,25 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
             flag("price-tied", has & (vif > thresholds.price_tied_vif))
     raised.flags.writeable = False
     return Diagnosis(results, thresholds, raised, numbers)
+
+
+def plan_gaps(results: Results) -> np.ndarray:
+    """(S,) the distance from each series' plan price to its nearest observed price, as a share of its observed
+    price range; NaN without a plan price, rows, or a range, or with the plan price outside it (that is
+    ``outside-range``)."""
+    data = results.data
+    plan, lo, hi = results.plan_price, results.price_lo, results.price_hi
+    out = np.full(results.n_series, np.nan)
+    counts = np.diff(data.offsets)
+    with np.errstate(invalid="ignore"):
+        inside = np.isfinite(plan) & (counts > 0) & (hi > lo) & (lo <= plan) & (plan <= hi)
+    if data.price is None or len(data.price) != data.offsets[-1] or not inside.any():
+        return out
+    apart = np.abs(data.price - np.repeat(np.where(inside, plan, 0.0), counts))
+    nearest = np.minimum.reduceat(apart, data.offsets[:-1][counts > 0].astype(np.int64))
+    filled = np.flatnonzero(counts > 0)
+    out[filled] = np.where(inside[filled], nearest / (hi[filled] - lo[filled]), np.nan)
+    return out
 
 
 def control_ranges(results: Results, series: np.ndarray | None = None):

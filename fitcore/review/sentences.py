@@ -136,6 +136,15 @@ def _outside_range(diag, s):
     return f"{text[:1].upper()}{text[1:]}; the prediction there is an extrapolation."
 
 
+def _price_gap(diag, s):
+    r = diag.results
+    plan, lo, hi = r.plan_price[s], r.price_lo[s], r.price_hi[s]
+    gap = float(diag.numbers["plan_gap"][s])
+    return (f"Plan price {money(plan)} lies in a gap between the prices observed: the nearest is "
+            f"{money(gap * (hi - lo))} away ({pct(gap)} of the observed range {money(lo)}–{money(hi)}), so the curve "
+            "there rests on its shape, not on observations near it.")
+
+
 # Sentences written for many series at once too (``sentence_columns``): one wording, filled either way.
 NEAR_TIE = ("{rival} is within one standard error (CV MSE {rival_mse} vs {chosen_mse} ± {chosen_se}) and predicts "
             "{difference} {where}.")
@@ -316,7 +325,8 @@ def _stale(diag, s):
 
 SENTENCES = {
     "few-points": _few_points, "no-model": _no_model, "flat-price": _flat_price, "rising": _rising,
-    "below-zero": _below_zero, "outside-range": _outside_range, "near-tie": _near_tie, "unsteady-folds": _unsteady,
+    "below-zero": _below_zero, "outside-range": _outside_range, "price-gap": _price_gap, "near-tie": _near_tie,
+    "unsteady-folds": _unsteady,
     "weak-fit": _weak_fit, "influential-point": _influential, "price-tied": _price_tied, "shifted": _shifted,
     "stale": _stale,
 }

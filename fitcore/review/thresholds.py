@@ -22,6 +22,9 @@ class Thresholds:
     - ``weak_score``: Q² below this → ``weak-fit``.
     - ``cook_floor``: Cook's distance above max(4/n, this) → ``influential-point``
       (4/n and a floor near 0.5 are common rules of thumb, not a test).
+    - ``plan_gap``: a plan price inside the observed range whose nearest observed price is farther than this
+      share of the range → ``price-gap`` (a common-practice caution, not a test: the curve there rests on its
+      shape, not on observations near it).
     - ``price_tied_vif``: with controls, the variance inflation of price given them above this
       → ``price-tied`` (10 is a common rule of thumb for collinearity, not a test).
     - ``shift_error_ratio``, ``shift_coverage``, ``shift_min_rows``, ``shift_volume``: a signed curve
@@ -41,6 +44,7 @@ class Thresholds:
     weak_score: float = 0.3
     cook_floor: float = 0.5
     price_tied_vif: float = 10.0
+    plan_gap: float = 0.10
     shift_error_ratio: float = 2.0
     shift_coverage: float = 0.75
     shift_min_rows: int = 4
@@ -52,7 +56,7 @@ class Thresholds:
             "min_price_cv": self.min_price_cv >= 0, "rising_share": 0 <= self.rising_share < 1,
             "near_tie_change": self.near_tie_change > 0, "unsteady_ratio": self.unsteady_ratio > 1,
             "weak_score": self.weak_score <= 1, "cook_floor": self.cook_floor > 0,
-            "price_tied_vif": self.price_tied_vif > 1,
+            "price_tied_vif": self.price_tied_vif > 1, "plan_gap": 0 < self.plan_gap < 1,
             "shift_error_ratio": self.shift_error_ratio > 0, "shift_coverage": 0 <= self.shift_coverage <= 1,
             "shift_min_rows": self.shift_min_rows >= 1, "shift_volume": self.shift_volume > 0,
         }

@@ -57,7 +57,7 @@ def test_few_points():
 def test_flat_price_two_distinct_prices():
     p = np.where(np.arange(40) % 2 == 0, 2.0, 3.0)
     _, flags = run(p, (1000 - 150 * p) * wiggle(40), 2.5)
-    assert set(flags) == {"flat-price"}
+    assert set(flags) == {"flat-price", "price-gap"}  # the plan price halfway between the two: a gap too
     assert "Only 2 distinct prices (2.00 and 3.00)" in flags["flat-price"]
 
 
@@ -94,10 +94,46 @@ def test_outside_range():
             in flags["outside-range"])
 
 
+def test_price_gap():
+    """Prices observed at 2.0–2.6 and 3.4–4.0 only: a plan price of 3.0 is inside the range, 0.4 (20% of it)
+    from the nearest observation.  Before: no flag said the prediction there rests on the curve's shape alone."""
+    price = np.r_[np.linspace(2.0, 2.6, 30), np.linspace(3.4, 4.0, 30)]
+    volume = (1000 - 150 * price) * wiggle(60)
+    _, flags = run(price, volume, 3.0)
+    assert set(flags) == {"price-gap"}
+    assert flags["price-gap"] == ("Plan price 3.00 lies in a gap between the prices observed: the nearest is 0.40 "
+                                  "away (20% of the observed range 2.00–4.00), so the curve there rests on its "
+                                  "shape, not on observations near it.")
+    assert run(price, volume, 3.0, Thresholds(plan_gap=0.25))[1] == {}  # the threshold decides
+    assert run(price, volume, 2.6)[1] == {}  # at an observed price
+    assert set(run(price, volume, 4.5)[1]) == {"outside-range"}  # beyond the range: that flag, not this one
+
+
+def test_plan_gaps_match_a_direct_computation():
+    from fitcore.review.flags import plan_gaps
+    from tests.conftest import random_dataset
+    data = random_dataset(11, n_series=80)
+    rng = np.random.default_rng(3)
+    lo = np.minimum.reduceat(data.price, data.offsets[:-1])
+    hi = np.maximum.reduceat(data.price, data.offsets[:-1])
+    plan = lo + rng.uniform(-0.2, 1.2, data.n_series) * (hi - lo)
+    plan[::9] = np.nan
+    results = fitcore.fit_batch(data, plan_price=plan)
+    found = plan_gaps(results)
+    for s in range(data.n_series):
+        prices = data.price[data.offsets[s]:data.offsets[s + 1]]
+        if not np.isfinite(plan[s]) or not prices.min() <= plan[s] <= prices.max():
+            assert np.isnan(found[s]), s
+        else:
+            wanted = np.abs(prices - plan[s]).min() / (prices.max() - prices.min())
+            assert found[s] == pytest.approx(wanted, rel=1e-12), s
+    assert np.isfinite(found).sum() > 40
+
+
 def test_near_tie():
     p = np.r_[np.linspace(2, 2.2, 30), np.linspace(3.8, 4, 30)]
     results, flags = run(p, 1000 * p ** -2 * wiggle(60, 8), 3.0)
-    assert set(flags) == {"near-tie"}
+    assert set(flags) == {"near-tie", "price-gap"}  # the candidates part where no observation holds them: the gap
     rival = flags["near-tie"].split()[0]
     c, r = results.chosen[0], results.names.index(rival)
     assert results.cv_mse[0, r] <= results.cv_mse[0, c] + results.cv_se[0, c]
