@@ -157,6 +157,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "
                   "--ledger on this ledger)", file=sys.stderr)
             records = [without_backtest(record) for record in records]
+    replaced = [superseded(record, book) for record in records]
+    records = [without_backtest(record) if gone else record for record, gone in zip(records, replaced)]
     if len(records) == 1:
         record = records[0]
         status, needs = ledger_state(record, book)
@@ -175,6 +177,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         if record.get("backtest"):
             said = shift_sentence(record["backtest"], record["chosen"], older=needs == NEWER_DUE)
             lines.append(f"  since sign-off (the curve as signed): {said}")
+        elif replaced[0]:  # the fit tested a decision that no longer stands: its numbers and shifted flag left out
+            lines.append("  the backtest in these results tested a decision that no longer stands: not shown (fit "
+                         "again with --ledger to test what stands)")
         return "\n".join(lines)
     ordered = in_attention_order(records, first)
     labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like), beside=beside)
@@ -522,6 +527,17 @@ def _carry(args) -> int:
         print(f"left for a human: {sum(left.values()):,} ({rest})", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0
+
+
+def superseded(record: dict, book) -> bool:
+    """The results' backtest of a series tested a decision that no longer stands (a hold, a revoke or another
+    decision recorded since the fit): its numbers and ``shifted`` flag are not the standing decision's."""
+    bt = record.get("backtest")
+    if not bt or not bt.get("decision"):
+        return False
+    history = book.histories.get(series_id(record["key"]))
+    current = history.current if history is not None else None
+    return current is None or current["digest"] != bt["decision"]
 
 
 def _carried_action(history, digest: str | None) -> str | None:

@@ -99,7 +99,8 @@ def test_three_cycles_sign_carry_sign(tmp_path, capsys):
     snap = from_records([(mover, mover["chosen"])], 0.95)[0]
     ledger.append(book, [ledger.Entry(series=mover["key"], action="accept", fingerprint=mover["fingerprint"],
                                       results="ab" * 32, model=mover["chosen"], proposed=mover["chosen"],
-                                      supersedes=now[MOVER].latest["digest"], flags=["shifted"], signed=snap)],
+                                      supersedes=now[MOVER].latest["digest"], flags=["shifted"], signed=snap,
+                                      note="demand fell 40%: the new curve")],  # past shifted: a note is due
                   ledger.Identity("ana", "ana", "host"))
     final = histories(book)
     assert all(final[p].status(third[p]["fingerprint"]) == "accepted" for p in signed)
@@ -114,6 +115,44 @@ def test_three_cycles_sign_carry_sign(tmp_path, capsys):
     assert main(["show", str(tmp_path / "r3.json"), "--ledger", str(book)]) == 0
     shown = capsys.readouterr().out
     assert "accepted (carried)" in shown and shown.count("accepted (carried)") == len(others)
+
+
+def test_a_restated_history_is_not_carried_and_a_superseded_backtest_is_not_shown(tmp_path, capsys):
+    """The mover's rows up to the signed last date rewritten (its slope halved) before the next cycle: the backtest
+    says history-changed, carry leaves it, show --ledger says why.  Then a hold recorded after that fit: show
+    --ledger gave the backtest of the accept the hold replaced (ratio, cover, shifted) as the series' own."""
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44)
+    with open(tmp_path / "c2.csv", newline="") as handle:
+        rows = list(csv.reader(handle))
+    for row in rows[1:]:
+        if row[0] == MOVER and row[1] < "2025-10-07":  # the signed weeks: volume restated around the plan price
+            row[3] = f"{float(row[3]) + 200 * (float(row[2]) - 2.3):.1f}"
+    with open(tmp_path / "c2x.csv", "w", newline="") as handle:
+        csv.writer(handle).writerows(rows)
+    second = fit(tmp_path / "c2x.csv", tmp_path / "r2.json", book)
+    assert second[MOVER]["backtest"]["status"] == "history-changed" and second[MOVER]["backtest"]["revised"]
+    assert "shifted" in {f["code"] for f in second[MOVER]["flags"]}
+    assert all(not r["backtest"]["revised"] for p, r in second.items() if p != MOVER and r["backtest"])
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(tmp_path / "r2.json"), "--ledger", str(book)]) == 0
+    assert "history changed since signing 1" in capsys.readouterr().err
+    assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(book), "--product", MOVER]) == 0
+    out = capsys.readouterr().out
+    assert "due: history changed since signing" in out and "are not the rows it was signed on" in out
+    history = histories(book)[MOVER]
+    ledger.append(book, [ledger.Entry(series=second[MOVER]["key"], action="hold", fingerprint=second[MOVER]["fingerprint"],
+                                      results="ab" * 32, supersedes=history.latest["digest"], note="ask why")],
+                  ledger.Identity("bo", "bo", "host"))
+    assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(book)]) == 0
+    line = next(line for line in capsys.readouterr().out.splitlines() if line.startswith(MOVER))
+    assert " held " in line and "shifted" not in line and line.split()[-3:-1] == ["—", "—"]
+    assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(book), "--product", MOVER]) == 0
+    out = capsys.readouterr().out
+    assert "tested a decision that no longer stands" in out and "since sign-off" not in out
 
 
 @pytest.fixture()

@@ -42,7 +42,7 @@ CASES = [
     Case("fit-output-is-unrelated-parquet", "fit d.csv -o r.parquet --quiet",
          {"d.csv": "good", "r.parquet": "parquet:good"}, 2, "not a pricefold results file"),
     Case("fit-rejects-name-holds-other-csv", F, {"d.csv": "rejects", "r.rejects.csv": "notes_csv"}, 2,
-         "not a rejects file"),
+         "no pricefold results at r.json record it as their rejects"),
     Case("fit-clean-leaves-foreign-rejects-name", F, {"d.csv": "good", "r.rejects.csv": "notes_csv"}, 0, None,
          checks=("r.json",)),
     Case("fit-replaces-its-own-results", F, R, 0, None, replaces=("r.json",)),
