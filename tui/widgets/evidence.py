@@ -53,6 +53,10 @@ def gauge(plan: float, lo: float, hi: float, width: int = 24) -> str:
             else f"{money(lo)} ├{''.join(bar)}┤ {money(hi)} ●")
 
 
+OBSERVATIONAL = ("Observational data: whatever moved with price (promotions, season, stock-outs) is in this "
+                 "curve too; pricefold proposes, the analyst decides.")
+
+
 def predicts(results, s: int, c: int, volume_text=fmt) -> str:
     """'poly1 predicts volume -268.9 (95% PI -294.0 to -243.8), no elasticity (…)': candidate ``c`` at the
     plan price, as the evidence says it and as an accept past a stop flag shows what is signed."""
@@ -325,6 +329,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             if not lo <= plan <= hi:
                 text.append(" An extrapolation.", style=SEVERITY_STYLE["stop"])
             text.append("\n")
+            text.append(f"  {OBSERVATIONAL}\n", style="dim")  # where the number a plan takes is read
         elif c >= 0:
             text.append("No plan price for this series.\n", style="dim")
         if c >= 0 and math.isfinite(results.revenue_price[s]):
