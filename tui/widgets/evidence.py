@@ -53,8 +53,7 @@ def gauge(plan: float, lo: float, hi: float, width: int = 24) -> str:
             else f"{money(lo)} ├{''.join(bar)}┤ {money(hi)} ●")
 
 
-OBSERVATIONAL = ("Observational data: whatever moved with price (promotions, season, stock-outs) is in this "
-                 "curve too; pricefold proposes, the analyst decides.")
+OBSERVATIONAL = "Observational data: whatever moved with price (promotions, season) is in this curve too."
 
 
 def predicts(results, s: int, c: int, volume_text=fmt) -> str:
