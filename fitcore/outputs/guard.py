@@ -11,8 +11,10 @@ Kinds of output and how an earlier one is recognised:
     results-folder  a folder holding ``_summary.json`` (``fit --engine dask``), or an empty folder
     rejects         CSV whose header ends with ``line,reason`` (``fit`` asks more: the very file the results it
                     replaces record, ``pricefold.earlier_rejects``)
-    export          CSV whose header holds ``status``, ``model`` and ``coef`` (``ledger export``)
-    report          HTML whose first KiB holds ``<meta name="generator" content="pricefold report``
+    export          CSV whose header holds ``status``, ``model`` and ``coef`` (``ledger export``), every row still
+                    shaped as the command writes them (``_export_shaped``)
+    report          HTML whose first KiB holds ``<meta name="generator" content="pricefold report``, and whose seal
+                    (``seal``: its SHA-256, inside it) still matches: an edited page is not replaced
 """
 from __future__ import annotations
 
@@ -28,8 +30,8 @@ from ..errors import DataError
 from .atomic import remove_leftovers
 
 KIND_NAMES = {"results": "a pricefold results file", "results-folder": "a pricefold results folder",
-              "rejects": "a rejects file pricefold wrote", "export": "a pricefold export",
-              "report": "a page written by pricefold report"}
+              "rejects": "a rejects file pricefold wrote", "export": "a pricefold export as it wrote it",
+              "report": "a page written by pricefold report and unchanged since"}
 _REPORT = b'<meta name="generator" content="pricefold report'  # pricefold/report/page.py writes it
 _RESULTS_JSON = re.compile(rb'\s*\{\s*"schema"\s*:\s*"pricefold-results/')
 
@@ -92,13 +94,39 @@ def is_own(path: "str | Path", kind: str) -> bool:
     if kind == "results":
         return bool(_RESULTS_JSON.match(head)) or _is_results_parquet(path, head)
     if kind == "report":
-        return _REPORT in head[:1024]
+        return _REPORT in head[:1024] and _unedited(path)
     header = _first_row(head)
     if kind == "rejects":
         return header[-2:] == ["line", "reason"]
     if kind == "export":
-        return {"status", "model", "coef"} <= set(header)
+        return {"status", "model", "coef"} <= set(header) and _export_shaped(path)
     raise ValueError(f"unknown output kind {kind!r}")
+
+
+EXPORT_STATUSES = frozenset({"accepted", "overridden", "held", "pending", "stale"})
+
+
+def _export_shaped(path: Path) -> bool:
+    """Every row of an existing export still as ``ledger export`` writes them: the header's number of fields, a
+    status it writes, one ``ledger_head`` throughout.  A line added by hand (or a file of one's own under the
+    export's header) is then not replaced; a number edited in place cannot be told from the command's own."""
+    try:
+        with open(path, newline="", encoding="utf-8-sig") as handle:
+            rows = csv.reader(handle)
+            header = next(rows, [])
+            if not header or "status" not in header:
+                return False
+            at, width = header.index("status"), len(header)
+            head_at = header.index("ledger_head") if "ledger_head" in header else None
+            heads = set()
+            for row in rows:
+                if len(row) != width or row[at] not in EXPORT_STATUSES:
+                    return False
+                if head_at is not None:
+                    heads.add(row[head_at])
+            return len(heads) <= 1
+    except (OSError, UnicodeDecodeError, csv.Error):
+        return False
 
 
 def remove_own(path: "str | Path", kind: str) -> bool:
@@ -162,6 +190,16 @@ def _same_file(a: Path, b: Path) -> bool:
         return os.path.samefile(a, b)
     except OSError:
         return False
+
+
+def _unedited(path: Path) -> bool:
+    """A report page's seal still matches it (a page made before seals: taken as it is)."""
+    from .seal import intact
+    try:
+        content = path.read_bytes()
+    except OSError:
+        return False
+    return intact(content) is not False
 
 
 def _first_row(head: bytes) -> list[str]:

@@ -300,7 +300,8 @@ def run(args) -> int:
             f"<code>{esc(ledger_path)}</code>.</p></header>{alerts(report)}{summary(report)}{people(report)}"
             f"{decisions(report, detailed)}{exceptions(report, decided, flagged, more)}"
             f"<footer class=\"caution\"><p>{esc(CAUTION)}</p></footer>")
-    page = document(report, body)
+    from fitcore.outputs.seal import seal
+    page = seal(document(report, body))
     write_text(args.output, page)
     counts = signoff.counts()
     print(f"report of {counts['total']:,} series ({', '.join(f'{counts[s]:,} {s}' for s in STATUSES if counts[s])}; "

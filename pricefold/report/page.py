@@ -17,6 +17,7 @@ from importlib import resources
 from typing import Callable
 
 from fitcore.ledger.signoff import LedgerView, Signoff, flag_table
+from fitcore.outputs.seal import blank_tag
 from fitcore.review.flags import FLAGS
 from fitcore.review.sentences import fmt, money, two_places
 from fitcore.text import clean, printable
@@ -113,6 +114,7 @@ def document(report: Report, body: str) -> str:
             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
             "<meta name=\"referrer\" content=\"no-referrer\">\n"
             f"<meta name=\"generator\" content=\"{GENERATOR} {esc(report.version)}\">\n"
+            f"{blank_tag()}\n"  # sealed once whole (``fitcore.outputs.seal``): a later run replaces it only unchanged
             f"<title>{esc(report.title)}</title>\n<style>{style}</style>\n</head>\n<body>\n{body}\n"
             f"<script>{script}</script>\n</body>\n</html>\n")
 

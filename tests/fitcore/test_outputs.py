@@ -267,3 +267,30 @@ def test_a_signal_between_renames_lands_after_the_last(tmp_path, name, returncod
         assert done.stdout == "written: r.rejects.csv, r.json\n"
     assert first.read_text() == "new rejects" and second.read_text() == "new results"
     assert [p.name for p in tmp_path.iterdir() if p.name.endswith(".tmp")] == []
+
+
+def test_an_edited_export_or_report_is_not_replaced(tmp_path):
+    """A trial found: a line added by hand to an export, or a file of one's own under the export's header, and an
+    edited report page were written over, judged by their header or generator tag alone."""
+    from fitcore.outputs.seal import blank_tag, intact, seal
+    export = tmp_path / "e.csv"
+    head = "product,status,model,coef,ledger_head\r\n"
+    export.write_text(head + 'a,accepted,poly1,"[1, 2]",3:ab\r\nb,pending,,[],3:ab\r\n', newline="")
+    assert is_own(export, "export")
+    with open(export, "a", newline="") as handle:
+        handle.write("MY HAND ADJUSTMENTS: raise apples by 5%\r\n")
+    assert not is_own(export, "export")
+    export.write_text(head + "x,approved,poly1,[1],3:ab\r\n", newline="")  # a status the command never writes
+    assert not is_own(export, "export")
+    export.write_text(head + "a,accepted,poly1,[1],3:ab\r\nb,accepted,poly1,[1],4:cd\r\n", newline="")  # two heads
+    assert not is_own(export, "export")
+    page = tmp_path / "r.html"
+    text = seal(f'<html><head><meta name="generator" content="pricefold report 1">\n{blank_tag()}\n</head>x</html>')
+    page.write_text(text)
+    assert intact(page.read_bytes()) and is_own(page, "report")
+    page.write_text(text.replace(">x<", ">y<"))
+    assert intact(page.read_bytes()) is False and not is_own(page, "report")
+    with pytest.raises(DataError, match="unchanged since"):
+        check_outputs([(page, "report")], [])
+    page.write_text('<html><head><meta name="generator" content="pricefold report 0.9"></head></html>')
+    assert is_own(page, "report")  # a page from before seals: as before
