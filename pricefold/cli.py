@@ -29,7 +29,7 @@ class OneLineParser(argparse.ArgumentParser):
 
 
 def build_parser() -> argparse.ArgumentParser:
-    from .options import add_column_options, add_fit_options
+    from .options import OneOutput, add_column_options, add_fit_options
     parser = OneLineParser(
         prog="pricefold", description="Fit and cross-validate a demand curve for every price–volume series.",
         epilog=CAUTION)
@@ -39,7 +39,7 @@ def build_parser() -> argparse.ArgumentParser:
                                           "choose one per series and predict at the plan price.",
                               epilog=CAUTION)
     fit.add_argument("data", type=Path, metavar="DATA", help="CSV/TSV (optionally .gz) or Parquet file or folder")
-    fit.add_argument("-o", "--output", type=Path, required=True, metavar="OUT",
+    fit.add_argument("-o", "--output", action=OneOutput, required=True, metavar="OUT",
                      help="results file: .json (small runs) or .parquet (large ones); its folder must exist")
     add_column_options(fit)
     add_fit_options(fit)

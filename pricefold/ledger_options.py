@@ -9,6 +9,7 @@ KEY_VARIABLE = "PRICEFOLD_LEDGER_KEY"
 
 
 def add_ledger_parser(commands):
+    from .options import OneFile
     parser = commands.add_parser("ledger", help="verify, show or export the sign-off ledger",
                                  description="The ledger records every sign-off decision, chained so that any "
                                              f"later edit is detected. Set {KEY_VARIABLE} to key the chain.")
@@ -28,7 +29,7 @@ def add_ledger_parser(commands):
     export = sub.add_parser("export", help="the current decision per series, as CSV for planning systems")
     export.add_argument("ledger", type=Path, metavar="LEDGER")
     export.add_argument("--results", type=Path, required=True, metavar="RESULTS")
-    export.add_argument("-o", "--output", type=Path, required=True, metavar="CSV")
+    export.add_argument("-o", "--output", action=OneFile, required=True, metavar="CSV")
     export.add_argument("--raw", action="store_true",
                         help="write text cells as they are (by default a text cell starting with = + - @, "
                              "a tab or a carriage return gets a leading ' so spreadsheets do not run it)")

@@ -110,3 +110,23 @@ def resolve(args) -> Resolved:
     if where:
         extra["config"] = where
     return Resolved(columns, values["sep"], replace(settings, extra=extra), plan_file, plan_price, thresholds, where)
+
+
+class OneOutput(argparse.Action):
+    """``-o``/``--output``: a path, given once (argparse kept the last of two silently: ``-o a.json -o b.json``
+    wrote b.json)."""
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        if getattr(namespace, self.dest, None) is not None:
+            parser.error(f"{option_string} given twice ({getattr(namespace, self.dest)} and {values}): name one output")
+        setattr(namespace, self.dest, Path(values))
+
+
+class OneFile(OneOutput):
+    """``OneOutput`` naming a file: a path ending in a slash names a folder, which argparse's ``Path`` dropped
+    (``-o page.html/`` wrote the file page.html).  (``fit``'s may be a Dask results folder.)"""
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        if str(values).endswith(("/", "\\")):
+            parser.error(f"{option_string} {values}: a path ending in a slash names a folder; name the file to write")
+        super().__call__(parser, namespace, values, option_string)

@@ -22,6 +22,7 @@ REFIT_ROWS = 50_000_000  # as triage: above this many rows the data are not read
 
 
 def add_parser(commands) -> None:
+    from ..options import OneFile
     parser = commands.add_parser(
         "report", help="write a self-contained HTML sign-off report of results and their ledger",
         description="One HTML page for the people who approve the plan: the summary, the decisions, and every "
@@ -30,7 +31,8 @@ def add_parser(commands) -> None:
     parser.add_argument("results", type=Path, metavar="RESULTS", help="a .json or .parquet results file or folder")
     parser.add_argument("--ledger", type=Path, default=None, metavar="FILE",
                         help="the sign-off ledger (default: <results name>.ledger.jsonl beside it)")
-    parser.add_argument("-o", "--output", type=Path, required=True, metavar="REPORT.html", help="the page to write")
+    parser.add_argument("-o", "--output", action=OneFile, required=True, metavar="REPORT.html",
+                        help="the page to write")
     parser.add_argument("--title", default=None, metavar="TEXT", help="the page's title (default: from the results)")
 
 

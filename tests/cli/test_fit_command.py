@@ -224,3 +224,13 @@ def test_a_local_fit_runs_with_the_cyclic_collector_off_and_turns_it_back_on(tmp
     assert main(["fit", data, "-o", out, "-q"]) == 0
     assert main(["fit", data, "-o", out, "-q", "--engine", "dask"]) == 0
     assert seen == [False, True] and gc.isenabled()
+
+
+def test_an_output_given_twice_or_a_file_named_as_a_folder_is_refused(tmp_path):
+    """Before: ``-o a.json -o b.json`` wrote b.json (argparse keeps the last), and ``report -o page.html/`` (or
+    ``ledger export``'s) wrote the file page.html."""
+    done = run_cli("fit", str(SAMPLE / "wholesale.csv"), "-o", str(tmp_path / "a.json"), "-o", str(tmp_path / "b.json"))
+    assert done.returncode == 2 and done.stderr.count("\n") == 1 and "-o given twice" in done.stderr
+    done = run_cli("report", str(tmp_path / "r.json"), "-o", str(tmp_path / "page.html") + "/")
+    assert done.returncode == 2 and "a path ending in a slash names a folder" in done.stderr
+    assert not list(tmp_path.iterdir())
