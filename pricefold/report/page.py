@@ -147,7 +147,26 @@ def _facts(pairs) -> str:
     return "<dl class=\"facts\">" + "".join(f"<dt>{k}</dt><dd>{v}</dd>" for k, v in pairs) + "</dl>"
 
 
-def _settings(header: dict, names: list[str]) -> list[tuple[str, str]]:
+def rejects_state(header: dict, results_path: str) -> str:
+    """'' where the rejects file the results record is beside them as recorded; else a clause saying it is missing
+    or not that file (a run killed between putting the rejects file and the results in place, or an edit)."""
+    data = header.get("input", {})
+    name, digest = data.get("rejects_file"), data.get("rejects_sha256")
+    if not name or not digest:
+        return ""
+    from pathlib import Path
+
+    from fitcore.data.columns import file_sha256
+    where = Path(results_path)
+    where = where / name if where.is_dir() else where.with_name(name)
+    try:
+        same = file_sha256(where) == digest
+    except OSError:
+        return f"; its rejects file {where} is missing"
+    return "" if same else f"; {where} is not the rejects file these results record (changed since)"
+
+
+def _settings(header: dict, names: list[str], results_path: str = "") -> list[tuple[str, str]]:
     settings = header.get("settings", {})
     data = header.get("input", {})
     cands = ", ".join(names)
@@ -161,7 +180,8 @@ def _settings(header: dict, names: list[str]) -> list[tuple[str, str]]:
     rows, rejected = data.get("rows"), data.get("rejected")
     return [("Data file", f"<code>{esc(data.get('path'))}</code>"),
             ("Data digest", f"<span class=\"digest\">SHA-256 {esc(data.get('sha256'))}</span>"),
-            ("Rows", f"{num(rows)} read, {num(rejected or 0)} rejected" if rows is not None else "n/a"),
+            ("Rows", f"{num(rows)} read, {num(rejected or 0)} rejected{esc(rejects_state(header, results_path))}"
+             if rows is not None else "n/a"),
             ("Candidates", esc(cands)), ("Folds", fold_text), ("Rule", esc(settings.get("rule"))),
             ("Interval", f"{float(settings.get('level', 0.95)) * 100:.0f}% prediction interval"),
             ("Plan price", plan_text)]
@@ -215,6 +235,6 @@ def summary(report: Report) -> str:
     return (f"<section id=\"summary\"><h2>Summary</h2><ul class=\"cards\">{card_html}</ul>{apart}"
             f"<p class=\"caution\">{esc(CAUTION)}</p>"
             f"<div class=\"grid2\"><div><h3>Data and settings</h3>"
-            f"{_facts(_settings(report.header, signoff.results.names))}</div>"
+            f"{_facts(_settings(report.header, signoff.results.names, report.results_path))}</div>"
             f"<div><h3>Ledger</h3>{_facts(_ledger_facts(report))}</div></div>"
             f"<h3>Flags</h3><p>{num(clean_count)} series carry no flag.</p>{flag_html}</section>")

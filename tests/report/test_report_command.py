@@ -220,3 +220,20 @@ def test_a_missing_ledger_named_is_an_error_and_nothing_is_written(signed, tmp_p
     assert done.returncode == 2, done.stderr
     assert done.stderr.count("\n") == 1 and f"{missing}: no such ledger" in done.stderr
     assert "Traceback" not in done.stderr and sorted(p.name for p in tmp_path.iterdir()) == []
+
+
+def test_the_page_says_when_the_rejects_file_is_not_the_one_the_results_record(tmp_path):
+    """Before: a rejects file edited, or replaced by a run killed between the two renames, went unnoticed."""
+    from pricefold.report.page import rejects_state
+    results = tmp_path / "r.json"
+    (tmp_path / "r.rejects.csv").write_text("product,line,reason\na,5,non-numeric price\n")
+    import hashlib
+    header = {"input": {"rejects_file": "r.rejects.csv",
+                        "rejects_sha256": hashlib.sha256((tmp_path / "r.rejects.csv").read_bytes()).hexdigest()}}
+    assert rejects_state(header, str(results)) == ""
+    with open(tmp_path / "r.rejects.csv", "a") as handle:
+        handle.write("mine\n")
+    assert "is not the rejects file these results record" in rejects_state(header, str(results))
+    (tmp_path / "r.rejects.csv").unlink()
+    assert rejects_state(header, str(results)) == f"; its rejects file {tmp_path / 'r.rejects.csv'} is missing"
+    assert rejects_state({"input": {"rejects_file": None}}, str(results)) == ""
