@@ -531,13 +531,18 @@ def _carry(args) -> int:
 
 def superseded(record: dict, book) -> bool:
     """The results' backtest of a series tested a decision that no longer stands (a hold, a revoke or another
-    decision recorded since the fit): its numbers and ``shifted`` flag are not the standing decision's."""
+    decision recorded since the fit; a carry of the decision tested is that decision, standing on): its numbers
+    and ``shifted`` flag are not the standing decision's."""
     bt = record.get("backtest")
     if not bt or not bt.get("decision"):
         return False
     history = book.histories.get(series_id(record["key"]))
     current = history.current if history is not None else None
-    return current is None or current["digest"] != bt["decision"]
+    if current is None:
+        return True
+    if current["action"] == "carry" and current.get("carries") == (bt.get("carries") or bt["decision"]):
+        return False  # carried to these data since the fit: the decision tested, standing on
+    return current["digest"] != bt["decision"]
 
 
 def _carried_action(history, digest: str | None) -> str | None:

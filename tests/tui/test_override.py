@@ -108,7 +108,10 @@ async def test_after_an_override_the_list_and_the_evidence_show_the_model_that_s
         session.bring(s)
         app.screen.refresh_all()
         c = session.results.names.index(runner)
+        app.screen.evidence.scroll_end(animate=False)  # the chart's legend, below the words
         await until(pilot, lambda: f"{runner} (override)" in screen_text(app))
+        app.screen.evidence.scroll_home(animate=False)
+        await until(pilot, lambda: "Overridden to " in screen_text(app))
         text = screen_text(app)
         row = next(line for line in text.splitlines() if line.startswith("↺ lemons 500 g · East"))
         assert f" {runner} " in row
