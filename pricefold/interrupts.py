@@ -48,8 +48,10 @@ def noticed():
     if threading.current_thread() is not threading.main_thread():
         yield
         return
+    # each taken over only from its usual handling: a job started with SIGINT ignored (``cmd &`` in a script)
+    # keeps ignoring Ctrl+C, and still stops cleanly on a kill (before: neither handled, the kill silent)
     numbers = [number for number in numbers if signal.getsignal(number) is usual.get(number, signal.SIG_DFL)]
-    if signal.SIGINT not in numbers:
+    if not numbers:
         yield
         return
     _seen = 0

@@ -39,12 +39,12 @@ def signed(tmp_path_factory):
 ARGS = ["--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv")]
 
 
-def start(folder: Path, said=subprocess.PIPE) -> subprocess.Popen:
+def start(folder: Path, said=subprocess.PIPE, launch=None) -> subprocess.Popen:
     """``fit --ledger`` in a session of its own (as a terminal's job: one process group for the command and
     its child)."""
     return subprocess.Popen([sys.executable, "-m", "pricefold", "fit", str(SAMPLE / "wholesale.csv"), *ARGS,
                              "-o", "p2.parquet", "--ledger", "L.jsonl"], cwd=folder, stdout=said, stderr=said,
-                            start_new_session=True, preexec_fn=interruptible)
+                            start_new_session=True, preexec_fn=launch or interruptible)
 
 
 def interruptible() -> None:
@@ -127,13 +127,19 @@ def test_ctrl_c_while_the_ledger_is_read_is_one_line_and_exit_130(signed):
     assert not [p.name for p in signed.iterdir() if p.name.endswith(".tmp")]
 
 
+def sigint_ignored() -> None:
+    """As ``cmd &`` in a non-interactive shell starts a job: SIGINT ignored."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
 @pytest.mark.parametrize("name", ["SIGTERM", "SIGHUP"])
-def test_a_kill_or_a_closed_terminal_stops_the_run_as_ctrl_c_does(signed, name):
+@pytest.mark.parametrize("launch", [interruptible, sigint_ignored])
+def test_a_kill_or_a_closed_terminal_stops_the_run_as_ctrl_c_does(signed, name, launch):
     """Before: ``kill`` (SIGTERM) or a closed SSH session (SIGHUP) ended the process at once, exit 143 or 129 with
     no line, and its staged files (``.p2.parquet.pricefold-….tmp``) stayed until a later run to that name."""
     earlier = digest(signed / "p2.parquet")
     number = getattr(signal, name)
-    run = start(signed)
+    run = start(signed, launch=launch)
     forked(run)
     time.sleep(0.35)
     assert run.poll() is None, "the run ended before the signal"
