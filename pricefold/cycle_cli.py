@@ -321,11 +321,11 @@ def held_keys(histories: dict) -> list[dict]:
 
 
 def plan_from_records(records, level: float, controls: list[str] | None = None,
-                      overrides: frozenset = frozenset(), histories: dict | None = None
+                      overrides: frozenset = frozenset(), histories: dict | None = None, revised_ok: bool = False
                       ) -> tuple[list[Carryable], Counter]:
     """Which series may be carried, from results records (JSON; small runs), and why the others may not
     (``newer_first``, ``left_for_human``, ``held_left``; ``overrides``: the digests of the ledger's overrides;
-    ``histories``: the ledger's)."""
+    ``histories``: the ledger's; ``revised_ok``: ``--carry-revised``)."""
     from fitcore.ledger.backtest import left_for_human
     from fitcore.ledger.snapshot import from_records
     histories, records = histories or {}, list(records)
@@ -341,7 +341,8 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
         codes = [f["code"] for f in record["flags"]]
         near = _near_best(record, bt["candidate"])
         why = left_for_human(bt["status"], "shifted" in codes, bool(set(codes) & stops), record["chosen"] is not None,
-                             bt["candidate"] != record["chosen"], bt["carries"] in overrides and near)
+                             bt["candidate"] != record["chosen"], bt["carries"] in overrides and near,
+                             bool(bt.get("revised")), revised_ok)
         why = newer_first(why, bt["status"], record["key"], record["fingerprint"], record.get("last_date"), histories)
         if why is not None:
             left[why] += 1
@@ -354,8 +355,8 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
     return [c for _, c in keep], left
 
 
-def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: dict | None = None
-                     ) -> tuple[list[Carryable], Counter]:
+def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: dict | None = None,
+                     revised_ok: bool = False) -> tuple[list[Carryable], Counter]:
     """The same from a Parquet results file or folder, column by column (no Python object per candidate);
     the reason a series is left, series by series through the same rules (``newer_first``, ``left_for_human``,
     ``held_left``)."""
@@ -405,8 +406,10 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     override = np.array([d in overrides for d in bt["carries"][tested].tolist()], dtype=bool)
     has_model = chosen[tested] >= 0
     changed = np.array([None if c < 0 else names[c] for c in chosen[tested].tolist()], dtype=object) != candidate
-    why = [left_for_human(*args) for args in zip(status[tested].tolist(), shifted.tolist(), stop.tolist(),
-                                                 has_model.tolist(), changed.tolist(), (override & near).tolist())]
+    revised = bt["revised"][tested].astype(bool) if "revised" in bt else np.zeros(len(tested), bool)  # (older results: none)
+    why = [left_for_human(*args, revised_ok=revised_ok)
+           for args in zip(status[tested].tolist(), shifted.tolist(), stop.tolist(), has_model.tolist(),
+                           changed.tolist(), (override & near).tolist(), revised.tolist())]
     untested = np.flatnonzero(~np.isin(status[tested].astype(str), [PASSED, FAILED]))
     for i, key, fingerprint, last in zip(untested.tolist(), *series_of(tested[untested])):
         why[i] = newer_first(why[i], status[tested[i]], key, fingerprint, last, histories)
@@ -484,11 +487,12 @@ def _carry(args) -> int:
     say_missing("pricefold ledger", args.results, keys, book, args.ledger)
     overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
     if stored:
-        plan, left = plan_from_stored(args.results, overrides, book.histories)
+        plan, left = plan_from_stored(args.results, overrides, book.histories, args.carry_revised)
     else:
         from fitcore.ledger.snapshot import header_terms  # numpy and the families: not for every --help
         plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95),
-                                       header_terms(header["settings"]), overrides, book.histories)
+                                       header_terms(header["settings"]), overrides, book.histories,
+                                       args.carry_revised)
     read = str(source.get("head", ""))
     witness = parse_head(read)
     if witness is None or not book.holds(*witness):

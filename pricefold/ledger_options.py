@@ -66,4 +66,8 @@ def add_carry_parser(sub) -> None:
     carry.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
     carry.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     carry.add_argument("--note", default="", metavar="TEXT")
+    carry.add_argument("--carry-revised", action="store_true",
+                       help="also carry series whose rows up to the signed date were revised but still fit the "
+                            "signed curve (a rolling window: the oldest weeks dropped); by default they are left "
+                            "for a human, as rows restated or re-dated could pass for rows since")
     carry.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success")

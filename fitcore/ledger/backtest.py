@@ -58,7 +58,8 @@ class Backtest:
     ``volume_change``, ``elasticity_change``; ``shape_changed``, ``shifted``, ``signed_near_best`` (bool: the
     signed candidate is available in this fit and within one SE of its lowest CV error, so an override of it
     is carried under another proposal).  ``revised`` (bool: the rows up to ``last_date`` do not hash to the
-    decision's fingerprint), ``history_rows`` (those rows now, -1 where not revised), ``history_ratio`` (the
+    decision's fingerprint), ``history_rows`` (those rows now, -1 where not revised), ``signed_rows`` (the rows
+    signed, -1 where not known or not revised), ``history_ratio`` (the
     signed curve's RMSE on them over its CV RMSE; NaN where not revised).  ``source``: the ledger and its head.
     """
 
@@ -91,6 +92,7 @@ class Backtest:
     signed_near_best: np.ndarray
     revised: np.ndarray
     history_rows: np.ndarray
+    signed_rows: np.ndarray
     history_ratio: np.ndarray
     planned: np.ndarray
     chosen: np.ndarray
@@ -99,7 +101,7 @@ class Backtest:
               "new_rows", "error_ratio", "coverage", "outside", "price", "planned", "signed_volume", "signed_lo",
               "signed_hi", "signed_price", "signed_plan_volume", "signed_plan_lo", "signed_plan_hi", "proposed_volume",
               "volume_change", "elasticity_change", "shape_changed", "shifted", "signed_near_best", "revised",
-              "history_rows", "history_ratio")
+              "history_rows", "signed_rows", "history_ratio")
 
     def columns(self) -> dict:
         return {name: getattr(self, name) for name in self.STORED}
@@ -135,16 +137,23 @@ UNTESTED = {FAILED: "backtest failed", CONTROLS_CHANGED: "controls changed since
             UNDATED: "no dates", NO_NEW_ROWS: "no new rows", UNSIGNED: "no signed model"}
 
 
+REVISED_DUE = "history revised since signing"
+
+
 def left_for_human(status: str, shifted: bool, stops, has_model: bool, shape_changed: bool,
-                   kept_override: bool = False) -> str | None:
+                   kept_override: bool = False, revised: bool = False, revised_ok: bool = False) -> str | None:
     """Why a series whose standing decision was made on other data is not carried to them (None: ``ledger
-    carry`` carries it), the first that holds: its backtest did not pass, ``shifted``, a stop flag (``stops``:
-    its stop flags' codes, or a bool), no curve proposed (``has_model``), or the signed shape is not this
-    cycle's proposal (``shape_changed``) — unless the decision carried is an override whose curve is still
-    available and within one SE of the lowest CV error (``kept_override``).  The one rule: carry counts by it,
-    ``show --ledger`` and the screen say it as what is due (``due``)."""
+    carry`` carries it), the first that holds: its backtest did not pass, the rows it was signed on were
+    ``revised`` (unless ``revised_ok``: ``ledger carry --carry-revised``, for a rolling window — rows restated
+    or re-dated could pass for rows since), ``shifted``, a stop flag (``stops``: its stop flags' codes, or a
+    bool), no curve proposed (``has_model``), or the signed shape is not this cycle's proposal
+    (``shape_changed``) — unless the decision carried is an override whose curve is still available and within
+    one SE of the lowest CV error (``kept_override``).  The one rule: carry counts by it, ``show --ledger`` and
+    the screen say it as what is due (``due``)."""
     if status != PASSED:
         return UNTESTED.get(status, status)
+    if revised and not revised_ok:
+        return REVISED_DUE
     if shifted:
         return "shifted"
     if stops:
@@ -163,7 +172,7 @@ def due(record: dict | None, stops=(), has_model: bool = True, kept_override: bo
     if record is None:
         return None
     why = left_for_human(record["status"], bool(record.get("shifted")), stops, has_model,
-                         bool(record.get("shape_changed")), kept_override)
+                         bool(record.get("shape_changed")), kept_override, bool(record.get("revised")))
     if why == "stop flag" and not isinstance(stops, bool):
         why = f"stop flag ({', '.join(stops)})"
     return why or "backtest passed"
@@ -210,7 +219,8 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
                signed_lo=number(), signed_hi=number(), signed_price=number(), signed_plan_volume=number(),
                signed_plan_lo=number(), signed_plan_hi=number(), proposed_volume=number(), volume_change=number(),
                elasticity_change=number(), shape_changed=np.zeros(n_s, bool), signed_near_best=np.zeros(n_s, bool),
-               revised=np.zeros(n_s, bool), history_rows=np.full(n_s, -1, np.int64), history_ratio=number())
+               revised=np.zeros(n_s, bool), history_rows=np.full(n_s, -1, np.int64),
+               signed_rows=np.full(n_s, -1, np.int64), history_ratio=number())
     series, mine = on_other_data(standing, SeriesKeys.of(results.data), results.data.fingerprints)
     if len(series):
         _fill(out, results, series, mine)
@@ -246,7 +256,6 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
     dates = results.data.date
     out["status"][series] = NO_DATES if dates is None else np.where(np.isnat(last), UNDATED, NO_NEW_ROWS)
     revised = _revised(results.data, series, last, st.fingerprint) if dates is not None else np.zeros(len(series), bool)
-    out["revised"][series] = revised
     price = np.where(np.isfinite(results.plan_price[series]), results.plan_price[series], results.mid[series])
     out["price"][series] = price
     proposed, proposed_el = _proposal_at(results, series, price)
@@ -266,7 +275,11 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
                 out["elasticity_change"][at] = proposed_el[members] - elasticity
             if dates is not None:
                 _test_rows(out, results, at, last[members], curve)
+                # only where rows since would vouch for it: data without any (older results, the same rows
+                # in another order) are not tested at all, and "decided on newer data" says the rest
+                revised[members] &= out["new_rows"][at] > 0
                 _test_history(out, results, at, last[members], curve, revised[members])
+    out["revised"][series] = revised
 
 
 class _SignedCurves:
@@ -279,6 +292,7 @@ class _SignedCurves:
         self.df = np.where(np.isfinite(st.df), st.df, 1).astype(np.int64)
         self.level = np.where(np.isfinite(st.level), st.level, 0.95)
         self.cv_mse = st.cv_mse
+        self.n = st.n
 
     def at(self, price: np.ndarray, which: np.ndarray | None = None):
         """(volume, lo, hi, elasticity) of curve ``which[i]`` (default: i) at ``price[i]``."""
@@ -348,6 +362,7 @@ def _test_history(out: dict, results: Results, series: np.ndarray, last: np.ndar
         rmse = np.sqrt(np.bincount(owner, (volume - data.volume[rows]) ** 2, minlength=len(which)) / count)
         out["history_ratio"][series[which]] = np.where(count > 0, rmse / np.sqrt(curve.cv_mse[which]), np.nan)
     out["history_rows"][series[which]] = count
+    out["signed_rows"][series[which]] = curve.n[which]
 
 
 def _days(last: np.ndarray) -> np.ndarray:

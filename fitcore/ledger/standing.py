@@ -24,7 +24,8 @@ class Standing:
     ``mid``, ``half``, ``smear``, ``cov`` (n, WIDTH, WIDTH), ``sigma2``, ``df``, ``level``, ``cv_mse``
     (NaN where not recorded), ``last_date`` (datetime64[D], NaT where none); ``controls`` (text: the
     control terms it was fitted with, joined by "|", "" for none; None without a snapshot); what was signed
-    at the plan price then: ``plan_price``, ``plan_volume``, ``plan_lo``, ``plan_hi`` (NaN without a plan)."""
+    at the plan price then: ``plan_price``, ``plan_volume``, ``plan_lo``, ``plan_hi`` (NaN without a plan);
+    ``n``: the rows it was signed on (-1 where not recorded)."""
 
     series: list
     fingerprint: np.ndarray
@@ -52,6 +53,7 @@ class Standing:
     plan_volume: np.ndarray
     plan_lo: np.ndarray
     plan_hi: np.ndarray
+    n: np.ndarray
 
     def __len__(self) -> int:
         return len(self.series)
@@ -108,7 +110,14 @@ def _standing_of(histories: dict) -> Standing:
         df=column(4), level=column(5), cv_mse=column(6),
         last_date=_dates(at, [s.get("last_date") for s in signed], n),
         controls=text(["|".join(s.get("controls") or ()) if ok else None for s, ok in zip(snaps, has)]),
-        plan_price=column(7), plan_volume=column(8), plan_lo=column(9), plan_hi=column(10))
+        plan_price=column(7), plan_volume=column(8), plan_lo=column(9), plan_hi=column(10),
+        n=_rows_signed(at, [s.get("n") for s in signed], n))
+
+
+def _rows_signed(at: np.ndarray, values: list, n: int) -> np.ndarray:
+    out = np.full(n, -1, np.int64)
+    out[at] = [v if isinstance(v, int) and not isinstance(v, bool) else -1 for v in values]
+    return out
 
 
 def _scatter(at: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:

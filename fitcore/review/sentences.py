@@ -293,12 +293,15 @@ def history_sentence(bt: dict) -> str:
     if not rows:
         return (f"None of the rows {upto} (the data it was signed on) are in these data any more, so the rows since "
                 "cannot vouch for it: look again.")
-    what = f"The {rows:,} {'row' if rows == 1 else 'rows'} {upto} are not the rows it was signed on (restated, " \
-           "added, dropped or reordered since)"
+    signed = bt.get("signed_rows")
+    them = f"the {signed:,} it was signed on" if isinstance(signed, int) and signed >= 0 else "the rows it was signed on"
+    what = f"The {rows:,} {'row' if rows == 1 else 'rows'} {upto} are not {them} (restated, added, dropped, " \
+           "re-dated or reordered since)"
     if bt["status"] == "history-changed":
         return (f"{what}, and its error on them is {fmt_ratio(ratio)}× its CV error: the history it was signed on "
                 "has changed, so the rows since cannot vouch for it; look again.")
-    return f"{what}; it still fits them: its error there is {fmt_ratio(ratio)}× its CV error."
+    return (f"{what}; it still fits them: its error there is {fmt_ratio(ratio)}× its CV error (carried only by "
+            "ledger carry --carry-revised, as for a rolling window's oldest weeks dropped).")
 
 
 def fmt_ratio(value) -> str:

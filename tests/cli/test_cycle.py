@@ -142,7 +142,7 @@ def test_a_restated_history_is_not_carried_and_a_superseded_backtest_is_not_show
     assert "history changed since signing 1" in capsys.readouterr().err
     assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(book), "--product", MOVER]) == 0
     out = capsys.readouterr().out
-    assert "due: history changed since signing" in out and "are not the rows it was signed on" in out
+    assert "due: history changed since signing" in out and "are not the 40 it was signed on" in out
     history = histories(book)[MOVER]
     ledger.append(book, [ledger.Entry(series=second[MOVER]["key"], action="hold", fingerprint=second[MOVER]["fingerprint"],
                                       results="ab" * 32, supersedes=history.latest["digest"], note="ask why")],
