@@ -37,7 +37,7 @@ def near_miss(typed: Iterable[str], names: Iterable, label: str = "") -> str:
     ``--key`` value) that names nothing: those of ``names`` (the results' or the ledger's values) that read
     alike loosely (``look_alikes``; up to three), quoted as the plan check's hint quotes it
     (``fitcore.text.hint_for``); '' where none does."""
-    from fitcore.text import EitherForm, hint_for, original
+    from fitcore.text import EitherForm, original
     names = distinct(names)
     for text in typed:
         text = original(text)
@@ -47,17 +47,31 @@ def near_miss(typed: Iterable[str], names: Iterable, label: str = "") -> str:
         alike = look_alikes(text, names)
         if alike:  # each, as several can read alike ('North', 'North '): up to three
             more = " …" if len(alike) > 3 else ""
-            return f"; did you mean {' or '.join(label + hint_for(text, name) for name in alike[:3])}{more}?"
+            return f"; did you mean {' or '.join(label + hint for hint in hints(text, alike[:3]))}{more}?"
     return ""
+
+
+def hints(typed: str, names: list[str]) -> list[str]:
+    """``fitcore.text.hint_for`` of each of ``names`` for ``typed``; two that would print alike (a composed and a
+    decomposed 'Süd') told apart, the one not in NFC form shown by code point ('Su⟨U+0308⟩d')."""
+    from unicodedata import is_normalized, normalize
+
+    from fitcore.text import clean, hint_for, reveal_unnormalised
+    out = [hint_for(typed, name) for name in names]
+    printed = [normalize("NFC", hint) for hint in out]
+    for i, name in enumerate(names):
+        if printed.count(printed[i]) > 1 and not is_normalized("NFC", name):
+            out[i] = f"'{reveal_unnormalised(clean(name))}'"
+    return out
 
 
 def also_alike(typed: Iterable[str], names: Iterable, where: str) -> str:
     """"note: LEDGER also holds the product 'apples 1 kg ', which reads alike (…)" — for a ``--product`` that found
     its series while ``where`` holds others whose product reads like it loosely (a renamed spelling is listed
     under its own name only); '' where none does."""
-    from fitcore.text import hint_for, original
+    from fitcore.text import original
     names = distinct(names)
-    alike = list(dict.fromkeys(hint_for(original(text), name) for text in typed for name in look_alikes(text, names)))
+    alike = list(dict.fromkeys(hint for text in typed for hint in hints(original(text), look_alikes(text, names))))
     if not alike:
         return ""
     if len(alike) == 1:

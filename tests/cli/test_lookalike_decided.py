@@ -203,3 +203,13 @@ def test_also_alike_and_near_miss_name_every_look_alike():
         "note: F also holds the products 'North ', 'north', which read alike (not listed: other products)"
     assert also_alike(["South"], names, "F") == ""
     assert also_alike([NFD], [NFC], "F") == ""  # the other Unicode form is picked, not a look-alike
+
+
+def test_look_alikes_that_print_alike_are_told_apart_in_a_hint():
+    """Before: "did you mean region='Süd' or region='Süd'?" — a composed and a decomposed value quoted alike."""
+    from pricefold.show import also_alike, near_miss
+    nfd = unicodedata.normalize("NFD", "Süd")
+    assert near_miss(["SÜD"], ["Süd", nfd], "region=") == "; did you mean region='Süd' or region='Su⟨U+0308⟩d'?"
+    assert also_alike(["crème cocoa 250 g "], [NFC, NFD], "F") == (
+        f"note: F also holds the products '{NFC}', 'cre⟨U+0300⟩me cocoa 250 g', which read alike (not listed: "
+        "other products)")
