@@ -140,8 +140,10 @@ def _price_gap(diag, s):
     r = diag.results
     plan, lo, hi = r.plan_price[s], r.price_lo[s], r.price_hi[s]
     gap = float(diag.numbers["plan_gap"][s])
+    bar = pct(diag.thresholds.plan_gap)
+    share = pct(gap) if pct(gap) != bar else f"just over {bar}"  # not "10%" for a gap beyond a 10% bar
     return (f"Plan price {money(plan)} lies in a gap between the prices observed: the nearest is "
-            f"{money(gap * (hi - lo))} away ({pct(gap)} of the observed range {money(lo)}–{money(hi)}), so the curve "
+            f"{money(gap * (hi - lo))} away ({share} of the observed range {money(lo)}–{money(hi)}), so the curve "
             "there rests on its shape, not on observations near it.")
 
 

@@ -227,3 +227,10 @@ def test_near_tie_gives_both_volumes_where_one_is_not_above_zero():
             assert f"predicts a volume of {fmt(theirs)} where {results.names[c]} predicts {fmt(ours)} " in said
             assert "%" not in said
     assert kinds == {"share", "volumes"}
+
+
+def test_a_price_gap_just_beyond_its_bar_does_not_read_as_equal_to_it():
+    """Before: "0.40 away (10% of the observed range …)" for a gap raised as farther than 10%."""
+    price = np.r_[np.linspace(1.0, 1.6, 30), np.linspace(4.6, 5.0, 30)]
+    _, flags = run(price, (1000 - 100 * price) * wiggle(60), 2.0001)
+    assert "0.40 away (just over 10% of the observed range 1.00–5.00)" in flags["price-gap"]
