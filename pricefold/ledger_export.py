@@ -399,6 +399,10 @@ def _number(value):
 
 def write_text(path: Path, text: str) -> None:
     """Write through the project's one atomic writer (a new file gets 0666 less the umask; an existing
-    one keeps its mode; a failed run leaves an earlier file whole)."""
-    from fitcore.outputs import atomic_write
-    atomic_write(path, lambda handle: handle.write(text.encode("utf-8")))
+    one keeps its mode; a failed run leaves an earlier file whole), sealed before it is put in place
+    (``fitcore.outputs.seal``: a later export replaces it only unchanged)."""
+    from fitcore.outputs.atomic import stage
+    from fitcore.outputs.seal import seal_file
+    staged = stage(path, lambda handle: handle.write(text.encode("utf-8")))
+    seal_file(staged.temp, staged.sha256)
+    staged.commit()

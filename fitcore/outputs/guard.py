@@ -11,8 +11,9 @@ Kinds of output and how an earlier one is recognised:
     results-folder  a folder holding ``_summary.json`` (``fit --engine dask``), or an empty folder
     rejects         CSV whose header ends with ``line,reason`` (``fit`` asks more: the very file the results it
                     replaces record, ``pricefold.earlier_rejects``)
-    export          CSV whose header holds ``status``, ``model`` and ``coef`` (``ledger export``), every row still
-                    shaped as the command writes them (``_export_shaped``)
+    export          CSV whose header holds ``status``, ``model`` and ``coef`` (``ledger export``), sealed and
+                    unchanged (``seal.file_sealed``); where the system keeps no seals, every row still shaped as
+                    the command writes them (``_export_shaped``)
     report          HTML whose first KiB holds ``<meta name="generator" content="pricefold report``, and whose seal
                     (``seal``: its SHA-256, inside it) still matches: an edited page is not replaced
 """
@@ -30,7 +31,7 @@ from ..errors import DataError
 from .atomic import remove_leftovers
 
 KIND_NAMES = {"results": "a pricefold results file", "results-folder": "a pricefold results folder",
-              "rejects": "a rejects file pricefold wrote", "export": "a pricefold export as it wrote it",
+              "rejects": "a rejects file pricefold wrote", "export": "a pricefold export unchanged since written",
               "report": "a page written by pricefold report and unchanged since"}
 _REPORT = b'<meta name="generator" content="pricefold report'  # pricefold/report/page.py writes it
 _RESULTS_JSON = re.compile(rb'\s*\{\s*"schema"\s*:\s*"pricefold-results/')
@@ -99,7 +100,11 @@ def is_own(path: "str | Path", kind: str) -> bool:
     if kind == "rejects":
         return header[-2:] == ["line", "reason"]
     if kind == "export":
-        return {"status", "model", "coef"} <= set(header) and _export_shaped(path)
+        if not {"status", "model", "coef"} <= set(header):
+            return False
+        from .seal import file_sealed
+        sealed = file_sealed(path)
+        return sealed if sealed is not None else _export_shaped(path)  # no seals here: its shape alone
     raise ValueError(f"unknown output kind {kind!r}")
 
 

@@ -1,8 +1,11 @@
-"""A report page's seal: the SHA-256 of the page as written, inside the page, so that a later run replaces only a
-page pricefold wrote and nobody changed since (the generator tag alone let an edited page be written over)."""
+"""Seals: the SHA-256 of an output as written, kept with it, so that a later run replaces only an output pricefold
+wrote and nobody changed since (a report page's generator tag, or an export's header and shape, let an edited file
+be written over).  A page carries its seal inside it; an export beside its bytes (``seal_file``)."""
 from __future__ import annotations
 
+import errno
 import hashlib
+import os
 import re
 
 BLANK = "0" * 64
@@ -28,3 +31,33 @@ def intact(content: bytes) -> bool | None:
         return None
     blank = content[:found.start(1)] + BLANK.encode() + content[found.end(1):]
     return hashlib.sha256(blank).hexdigest().encode() == found.group(1)
+
+
+# A CSV cannot carry its own digest: an export's goes beside its bytes, in an extended attribute (Linux; where
+# the system keeps none, an export is judged by its shape alone, ``guard._export_shaped``).
+XATTR = "user.pricefold.sha256"
+
+
+def seal_file(path, digest: str) -> None:
+    """Record ``digest`` (the SHA-256 of what was written) on the file ``path`` (before it is put in place)."""
+    try:
+        os.setxattr(path, XATTR, digest.encode("ascii"))
+    except (AttributeError, OSError):  # no extended attributes on this system or file system
+        pass
+
+
+def file_sealed(path) -> bool | None:
+    """True: ``path`` carries a seal and still hashes as it says; False: it carries none (on a file system that
+    keeps them: edited by a tool that wrote a new file, copied, or written before seals) or another; None: no
+    seals here."""
+    try:
+        recorded = os.getxattr(path, XATTR)
+    except AttributeError:
+        return None
+    except OSError as exc:
+        return False if exc.errno == errno.ENODATA else None
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest().encode("ascii") == recorded

@@ -388,3 +388,19 @@ def test_show_says_which_decision_a_revoke_withdrew(tmp_path):
     fledger.append(path, [entry("a", "revoke", model=None, supersedes=after(fledger.Ledger(path), "a"))], BO)
     shown = run_cli("ledger", "show", str(path)).stdout.splitlines()
     assert len(shown) == 3 and " revoke   #1 (accept poly2) " in shown[2]
+
+
+def test_an_export_edited_in_place_is_not_written_over(tmp_path, results):
+    """Before: a note typed into an export's cell (``sed -i``, as an editor saves) was lost to the next export, exit 0."""
+    ledger_path = tmp_path / "decisions.jsonl"
+    run_cli("ledger", "accept-unflagged", str(results), "--ledger", str(ledger_path), "--analyst", "ana")
+    out = tmp_path / "decisions.csv"
+    for _ in range(2):  # its own: replaced
+        done = run_cli("ledger", "export", str(ledger_path), "--results", str(results), "-o", str(out))
+        assert done.returncode == 0, done.stderr
+    edited = out.read_text().replace(",ana,", ",ana (checked by lead),", 1)
+    out.unlink()
+    out.write_text(edited)
+    done = run_cli("ledger", "export", str(ledger_path), "--results", str(results), "-o", str(out))
+    assert done.returncode == 2 and "not a pricefold export unchanged since written" in done.stderr
+    assert out.read_text() == edited

@@ -187,6 +187,7 @@ def test_only_pricefolds_own_earlier_outputs_are_replaced(tmp_path):
     pq.write_table(pa.table({"a": [1]}), tmp_path / "data.parquet")
     (tmp_path / "r.rejects.csv").write_text("product,price,line,reason\n")
     (tmp_path / "x.csv").write_text("product,status,model,coef\n")
+    sealed(tmp_path / "x.csv")  # as ledger export leaves it
     (tmp_path / "notes.json").write_text('{"mine": 1}')
     (tmp_path / "empty.json").write_bytes(b"")
     assert is_own(results, "results") and is_own(tmp_path / "r.parquet", "results")
@@ -269,13 +270,34 @@ def test_a_signal_between_renames_lands_after_the_last(tmp_path, name, returncod
     assert [p.name for p in tmp_path.iterdir() if p.name.endswith(".tmp")] == []
 
 
-def test_an_edited_export_or_report_is_not_replaced(tmp_path):
-    """A trial found: a line added by hand to an export, or a file of one's own under the export's header, and an
-    edited report page were written over, judged by their header or generator tag alone."""
-    from fitcore.outputs.seal import blank_tag, intact, seal
+def sealed(path):
+    """Seal ``path`` as ``ledger export`` seals what it writes."""
+    import hashlib
+
+    from fitcore.outputs.seal import seal_file
+    seal_file(path, hashlib.sha256(path.read_bytes()).hexdigest())
+
+
+def test_an_edited_export_or_report_is_not_replaced(tmp_path, monkeypatch):
+    """A trial found: a line added by hand to an export, a note typed into a cell (``sed -i``), a number changed,
+    a file of one's own under the export's header, and an edited report page were written over, judged by their
+    header or generator tag (or, for an export, the shape of its rows) alone."""
+    import fitcore.outputs.seal as seal_module
+    from fitcore.outputs.seal import blank_tag, file_sealed, intact, seal
     export = tmp_path / "e.csv"
     head = "product,status,model,coef,ledger_head\r\n"
     export.write_text(head + 'a,accepted,poly1,"[1, 2]",3:ab\r\nb,pending,,[],3:ab\r\n', newline="")
+    assert not is_own(export, "export")  # a file of that shape nobody sealed
+    sealed(export)
+    assert file_sealed(export) and is_own(export, "export")
+    text = export.read_text()
+    export.write_text(text.replace("pending,,", "pending,poly2,"))  # a cell changed in place: the seal no longer holds
+    assert not is_own(export, "export")
+    export.unlink()
+    export.write_text(text)  # a new file of the same bytes (an editor's copy): no seal
+    assert file_sealed(export) is False and not is_own(export, "export")
+    # where the system keeps no seals, an export is judged by the shape of its rows
+    monkeypatch.setattr(seal_module, "file_sealed", lambda path: None)
     assert is_own(export, "export")
     with open(export, "a", newline="") as handle:
         handle.write("MY HAND ADJUSTMENTS: raise apples by 5%\r\n")
@@ -284,6 +306,7 @@ def test_an_edited_export_or_report_is_not_replaced(tmp_path):
     assert not is_own(export, "export")
     export.write_text(head + "a,accepted,poly1,[1],3:ab\r\nb,accepted,poly1,[1],4:cd\r\n", newline="")  # two heads
     assert not is_own(export, "export")
+    monkeypatch.undo()
     page = tmp_path / "r.html"
     text = seal(f'<html><head><meta name="generator" content="pricefold report 1">\n{blank_tag()}\n</head>x</html>')
     page.write_text(text)
