@@ -53,11 +53,17 @@ def stored_next_cycle(next_cycle, folder: Path) -> tuple[Path, Path]:
     return copy, out
 
 
-async def test_signed_series_with_new_rows_are_stale_with_what_is_due(next_cycle, tmp_path):
+def app_on_a_copy(next_cycle, tmp_path):
+    """(a copy of the first cycle's ledger, a screen on the next week's data recording into it)."""
     book, source = next_cycle
     copy = tmp_path / "ledger.jsonl"
     copy.write_bytes(book.read_bytes())
-    app = make_app(copy, source)
+    return copy, make_app(copy, source)
+
+
+async def test_signed_series_with_new_rows_are_stale_with_what_is_due(next_cycle, tmp_path):
+    book = next_cycle[0]
+    copy, app = app_on_a_copy(next_cycle, tmp_path)
     async with app.run_test(size=(160, 50)) as pilot:
         session = await started(app, pilot)
         stale = session._code("stale")
@@ -94,10 +100,7 @@ async def test_signed_series_with_new_rows_are_stale_with_what_is_due(next_cycle
 async def test_accepting_a_shifted_series_asks_why_first(next_cycle, tmp_path):
     """Before: ``a`` on a stale series flagged shifted (its signed curve failed its backtest) re-signed it at once,
     with no note: the ledger and the report could not say why the change was signed."""
-    book, source = next_cycle
-    copy = tmp_path / "ledger.jsonl"
-    copy.write_bytes(book.read_bytes())
-    app = make_app(copy, source)
+    copy, app = app_on_a_copy(next_cycle, tmp_path)
     async with app.run_test(size=(160, 50)) as pilot:
         session = await started(app, pilot)
         session.set_filter("shifted", None)
