@@ -14,8 +14,10 @@ The rows dated up to the signed data's last date are the signed data again only 
 decision's fingerprint.  Where they do not (rows restated, back-filled, dropped or reordered: ``revised``),
 the signed curve is measured on them as they are now (``history_ratio``: its RMSE there over its CV RMSE);
 beyond ``shift_error_ratio`` the history it was signed on is gone (``history-changed``): the rows since
-cannot vouch for it, ``shifted`` is raised and carry leaves it to a human.  A rolling window (old rows
-dropped) stays revised but fits.
+cannot vouch for it, ``shifted`` is raised and carry leaves it to a human.  A revision that fits (a rolling
+window's oldest rows dropped; rows re-dated past the signed date, which would also pass for rows since) is
+left to a human too unless carry is told otherwise (``left_for_human``'s ``revised_ok``).  Only series with
+rows since are checked: without any there is no backtest to mislead.
 
 Only the ledger's records are read one by one (they are dicts); every number is computed over all
 series at once, grouped by the signed curve's family and size.
