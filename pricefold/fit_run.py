@@ -143,11 +143,10 @@ def _fit_locally(args, run, ahead) -> int:
     from fitcore.data.plan import plan_keywords, unused_columns_note
     from fitcore.data.rejects import rejects_path, write_rejects
     from fitcore.outputs import Batch, remove_own
-
-    from .earlier_rejects import earlier_rejects
     from fitcore.results.write import prepared_results
     from fitcore.review.flags import diagnose
 
+    from .earlier_rejects import earlier_rejects
     from .progress import ProgressLine
 
     started = time.perf_counter()
