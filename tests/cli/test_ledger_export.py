@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import csv
 import json
+import hashlib
 import os
 
 import numpy as np
@@ -83,6 +84,8 @@ def test_export_files_respect_the_umask_and_keep_an_existing_mode(tmp_path, sign
     out = tmp_path / "out.csv"
     if existing is not None:
         out.write_text("product,status,model,coef\n")  # an earlier export: the only kind export replaces
+        from fitcore.outputs.seal import seal_file
+        seal_file(out, hashlib.sha256(out.read_bytes()).hexdigest())  # sealed, as export leaves what it writes
         out.chmod(existing)
     old = os.umask(umask)
     try:
