@@ -198,13 +198,14 @@ def _same_file(a: Path, b: Path) -> bool:
 
 
 def _unedited(path: Path) -> bool:
-    """A report page's seal still matches it (a page made before seals: taken as it is)."""
+    """A report page's seal still matches it (a page without one — its seal removed or reformatted, or made
+    before seals — is not replaced: the tag alone let an edit be written over)."""
     from .seal import intact
     try:
         content = path.read_bytes()
     except OSError:
         return False
-    return intact(content) is not False
+    return intact(content) is True
 
 
 def _first_row(head: bytes) -> list[str]:
