@@ -260,6 +260,7 @@ class Carryable:
     carries: str  # the accept or override the standing decision stands for
     near_best: bool  # the signed candidate is available and within one SE of the lowest CV error
     snapshot: dict | None = None
+    revised: bool = False  # carried over a revised history (``--carry-revised``): said in the carry's note
 
 
 def _stop_codes() -> set[str]:
@@ -348,7 +349,7 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
             left[why] += 1
         else:
             keep.append((record, Carryable(record["key"], record["fingerprint"], record["chosen"], codes, bt["latest"],
-                                           bt["candidate"], bt["carries"], near)))
+                                           bt["candidate"], bt["carries"], near, revised=bool(bt.get("revised")))))
     signed = from_records([(record, c.candidate) for record, c in keep], level, controls)
     for (_, c), snapshot in zip(keep, signed):
         c.snapshot = snapshot
@@ -415,7 +416,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
         why[i] = newer_first(why[i], status[tested[i]], key, fingerprint, last, histories)
     left.update(w for w in why if w is not None)
     mask = np.array([w is None for w in why], dtype=bool) & (signed >= 0)
-    ok, signed, near = tested[mask], signed[mask], near[mask]
+    ok, signed, near, revised = tested[mask], signed[mask], near[mask], revised[mask]
     if not len(ok):
         return [], left
     snapshots: list = [None] * len(ok)
@@ -429,10 +430,10 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     combos, which = np.unique(raised.astype(bits.dtype) @ bits, return_inverse=True)
     codes = [[CODES[j] for j in range(len(CODES)) if combo >> j & 1] for combo in combos.tolist()]
     chosen_names = [names[c] for c in chosen[ok].tolist()]
-    plan = [Carryable(key, fingerprint, chosen_name, list(codes[w]), latest, candidate, carries, close, snapshot)
-            for key, fingerprint, chosen_name, w, latest, candidate, carries, close, snapshot in
+    plan = [Carryable(key, fingerprint, chosen_name, list(codes[w]), latest, candidate, carries, close, snapshot, moved)
+            for key, fingerprint, chosen_name, w, latest, candidate, carries, close, snapshot, moved in
             zip(keys, fingerprints, chosen_names, which.reshape(-1).tolist(), bt["latest"][ok].tolist(),
-                bt["candidate"][ok].tolist(), bt["carries"][ok].tolist(), near.tolist(), snapshots)]
+                bt["candidate"][ok].tolist(), bt["carries"][ok].tolist(), near.tolist(), snapshots, revised.tolist())]
     return plan, left
 
 
@@ -513,8 +514,8 @@ def _carry(args) -> int:
                 outcome["changed since the fit"] += 1
             else:
                 entry = ledger.Entry(series=c.key, action="carry", fingerprint=c.fingerprint, results=digest,
-                                     model=c.candidate, proposed=c.chosen, note=args.note, supersedes=c.latest,
-                                     flags=c.flags, signed=c.snapshot, carries=c.carries)
+                                     model=c.candidate, proposed=c.chosen, note=carry_note(args.note, c.revised),
+                                     supersedes=c.latest, flags=c.flags, signed=c.snapshot, carries=c.carries)
                 if newer_standing(entry, history) is not None:  # the ledger would refuse the whole batch
                     outcome[NEWER_DUE_SHORT] += 1
                 else:
@@ -527,10 +528,22 @@ def _carry(args) -> int:
         rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"
         carried = (f"carried {len(written):,} signed series to the new data → {args.ledger}" if written
                    else f"carried no series: nothing written to {args.ledger}")  # not "→ L" when L is as it was
-        print(carried + (f" ({already:,} carried already)" if already else ""), file=sys.stderr)
+        over = sum(1 for r in written if REVISED_NOTE in (r.get("note") or ""))
+        print(carried + (f" ({already:,} carried already)" if already else "")
+              + (f"; {over:,} of them over a revised history (--carry-revised; said in their notes)" if over else ""),
+              file=sys.stderr)
         print(f"left for a human: {sum(left.values()):,} ({rest})", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0
+
+
+REVISED_NOTE = "history revised since signing: carried with --carry-revised"
+
+
+def carry_note(note: str, revised: bool) -> str:
+    """A carry's note: the analyst's, and where the rows it was signed on were revised, that it was carried over
+    them on purpose — so the ledger, show and the report tell such a carry from a clean one."""
+    return f"{note}; {REVISED_NOTE}" if revised and note else REVISED_NOTE if revised else note
 
 
 def superseded(record: dict, book) -> bool:

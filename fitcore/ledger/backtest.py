@@ -346,7 +346,22 @@ def _revised(data, series: np.ndarray, last: np.ndarray, signed: np.ndarray) -> 
     now = np.asarray(hex_texts(digests[series[dated]]).to_pylist(), dtype=object)
     out = np.zeros(len(series), bool)
     out[dated] = now != signed[dated]
+    moved = np.flatnonzero(out)
+    if len(moved):  # the same rows in another order (a file sorted by price): signed in date order, still the same
+        out[moved[_in_date_order(data, series[moved], last[moved]) == signed[moved]]] = False
     return out
+
+
+def _in_date_order(data, series: np.ndarray, last: np.ndarray) -> np.ndarray:
+    """(n,) object: the fingerprint of each ``series[i]``'s rows dated up to ``last[i]``, taken in date order
+    (ties in row order) — what the signed data hashed as where they were kept in date order, as exports are."""
+    from ..data.dataset import hex_texts, series_digests
+    rows, owner = _rows_dated(data.offsets, series, data.date.view(np.int64), _days(last), _per_day(data.date), False)
+    order = np.lexsort((data.date[rows], owner))  # stable: rows of one date keep their order
+    rows = rows[order]
+    offsets = np.concatenate(([0], np.cumsum(np.bincount(owner, minlength=len(series)))))
+    digests = series_digests([column[rows] for column in data.fingerprint_columns], offsets)
+    return np.asarray(hex_texts(digests).to_pylist(), dtype=object)
 
 
 def _test_history(out: dict, results: Results, series: np.ndarray, last: np.ndarray, curve: _SignedCurves,

@@ -385,3 +385,43 @@ def test_a_curve_signed_at_another_plan_price_says_what_was_signed_then_the_curv
         capsys.readouterr()
         assert main(["show", str(tmp_path / results), "--ledger", str(book), "--product", record["key"]["product"]]) == 0
         assert said in capsys.readouterr().out
+
+
+def test_a_revised_history_is_carried_only_on_request_and_a_reordered_file_is_not_a_revision(tmp_path, capsys):
+    """Trials found: every old week re-dated by a day made one old week count as "since" and diluted failing
+    backtests into passes (carried); a file sorted by price held back every unchanged series as revised; and a
+    carry over a revised history left no trace in the ledger."""
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    signed = len(histories(book))
+    write_weeks(tmp_path / "c2.csv", 44)
+    with open(tmp_path / "c2.csv", newline="") as handle:
+        header, *rows = list(csv.reader(handle))
+    with open(tmp_path / "sorted.csv", "w", newline="") as handle:  # the same rows, by price within each series
+        csv.writer(handle).writerows([header, *sorted(rows, key=lambda row: (row[0], row[2]))])
+    second = fit(tmp_path / "sorted.csv", tmp_path / "r2.json", book)
+    assert not any(r["backtest"]["revised"] for r in second.values() if r["backtest"])
+    for row in rows:  # the mover's signed weeks a day later: its last signed week now reads as one since
+        if row[0] == MOVER and row[1] <= "2025-10-06":
+            row[1] = (date.fromisoformat(row[1]) + timedelta(days=1)).isoformat()
+    with open(tmp_path / "redated.csv", "w", newline="") as handle:
+        csv.writer(handle).writerows([header, *rows])
+    third = fit(tmp_path / "redated.csv", tmp_path / "r3.json", book)
+    bt = third[MOVER]["backtest"]
+    assert bt["revised"] and bt["new_rows"] == 5 and (bt["history_rows"], bt["signed_rows"]) == (39, 40)
+    capsys.readouterr()
+    copy = tmp_path / "copy.jsonl"
+    copy.write_bytes(book.read_bytes())
+    assert main(["ledger", "carry", str(tmp_path / "r3.json"), "--ledger", str(book)]) == 0
+    assert "history revised since signing 1" in capsys.readouterr().err
+    assert histories(book)[MOVER].current["action"] == "accept"  # not carried
+    fit(tmp_path / "redated.csv", tmp_path / "r4.json", copy)
+    assert main(["ledger", "carry", str(tmp_path / "r4.json"), "--ledger", str(copy), "--carry-revised",
+                 "--note", "weekly dates moved to Tuesdays"]) == 0
+    assert "1 of them over a revised history" in capsys.readouterr().err
+    carried = histories(copy)[MOVER].current
+    assert carried["action"] == "carry" and carried["note"] == (
+        "weekly dates moved to Tuesdays; history revised since signing: carried with --carry-revised")
+    assert sum(h.current["action"] == "carry" for h in histories(copy).values()) <= signed
