@@ -136,7 +136,7 @@ async def test_at_80x24_the_words_come_before_the_charts(ledger_path):
         assert "Proposed poly0 (one-se): lowest mean CV error" in text
         assert "Q² −4%: worse than predicting the average volume" in text
         # the trade's caution where the plan's number is read (before: only under ?, in show and the report)
-        assert "Observational data: promotions or season moving with price" in text
+        assert "Observational data: whatever else moved with price is in this curve too." in text  # one line
         assert "below the lowest price observed" in text
         assert session.label(session.current) in text
 

@@ -53,7 +53,7 @@ def gauge(plan: float, lo: float, hi: float, width: int = 24) -> str:
             else f"{money(lo)} ├{''.join(bar)}┤ {money(hi)} ●")
 
 
-OBSERVATIONAL = "Observational data: promotions or season moving with price are in this curve too."
+OBSERVATIONAL = "Observational data: whatever else moved with price is in this curve too."  # one line at 80×24
 
 
 def predicts(results, s: int, c: int, volume_text=fmt) -> str:
