@@ -176,12 +176,16 @@ def _show(args, keys: dict) -> int:
         print(detail(picked[0], binary) if len(picked) == 1 else table(picked, first))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
-    if args.product:  # a look-alike is another series: said, not listed with it
-        from fitcore.results.series_columns import results_products
+    if args.product or typed:  # a look-alike is another series: said, not listed with it
+        from fitcore.results.series_columns import results_keys, results_products
 
         from .show import also_alike
-        note = also_alike(args.product, results_products(args.results), str(args.results))
-        if note:
+        notes = [also_alike(args.product, results_products(args.results), str(args.results))] if args.product else []
+        kept = [key for key in results_keys(args.results) if not products or next(iter(key.values())) in products] \
+            if typed else []  # among the series --product keeps
+        notes += [also_alike([value], (key.get(name) for key in kept), str(args.results), name)
+                  for name, value in typed.items()]
+        for note in filter(None, notes):
             print(f"pricefold show: {note}", file=sys.stderr)
     return 0
 

@@ -65,18 +65,19 @@ def hints(typed: str, names: list[str]) -> list[str]:
     return out
 
 
-def also_alike(typed: Iterable[str], names: Iterable, where: str) -> str:
-    """"note: LEDGER also holds the product 'apples 1 kg ', which reads alike (…)" — for a ``--product`` that found
-    its series while ``where`` holds others whose product reads like it loosely (a renamed spelling is listed
-    under its own name only); '' where none does."""
+def also_alike(typed: Iterable[str], names: Iterable, where: str, what: str = "product") -> str:
+    """"note: LEDGER also holds the product 'apples 1 kg ', which reads alike (…)" — for a ``--product`` (or a
+    ``--key`` value: ``what`` names its column) that found its series while ``where`` holds others whose value
+    reads like it loosely (a renamed spelling is listed under its own name only); '' where none does."""
     from fitcore.text import original
     names = distinct(names)
     alike = list(dict.fromkeys(hint for text in typed for hint in hints(original(text), look_alikes(text, names))))
     if not alike:
         return ""
     if len(alike) == 1:
-        return f"note: {where} also holds the product {alike[0]}, which reads alike (not listed: another product)"
-    return f"note: {where} also holds the products {', '.join(alike)}, which read alike (not listed: other products)"
+        return f"note: {where} also holds the {what} {alike[0]}, which reads alike (not listed: another {what})"
+    return (f"note: {where} also holds the {what}s {', '.join(alike)}, which read alike (not listed: other "
+            f"{what}s)")
 
 
 def look_alikes(text: str, names: list[str]) -> list[str]:

@@ -213,3 +213,13 @@ def test_look_alikes_that_print_alike_are_told_apart_in_a_hint():
     assert also_alike(["crème cocoa 250 g "], [NFC, NFD], "F") == (
         f"note: F also holds the products '{NFC}', 'cre⟨U+0300⟩me cocoa 250 g', which read alike (not listed: "
         "other products)")
+
+
+def test_a_key_filter_names_a_value_that_reads_alike(cycle, capsys):
+    """Before: ``--key region=North`` said nothing of lemons' ``North `` series (only ``--product`` had the note)."""
+    _, _, results = cycle
+    code, out, err = run(capsys, "show", results, "--key", "region=North")
+    assert code == 0 and err.strip() == (f"pricefold show: note: {results} also holds the region 'North ', which "
+                                         "reads alike (not listed: another region)")
+    code, _, err = run(capsys, "show", results, "--product", "pears 1 kg", "--key", "region=North")
+    assert code == 0 and err == ""  # among the series --product keeps: pears has no 'North '
