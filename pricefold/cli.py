@@ -422,10 +422,18 @@ def main(argv: list[str] | None = None) -> int:
 def entry() -> None:
     """The installed ``pricefold`` command (and ``python -m pricefold``): ``main``, then the process ends
     without Python's teardown (``process_end``)."""
+    from . import interrupts
     from .process_end import end_process
+    interrupts.until_exit()
     try:
         code = main()
     except KeyboardInterrupt:  # before ``main`` knows the command: while the parser's modules load
         print("pricefold: interrupted; nothing was written", file=sys.stderr)
         code = 130
+    came = interrupts.late()
+    if came is not None and code == 0:  # a kill after a fit's files were in place: its exit status, and why
+        import signal
+        print(f"pricefold: stopped by {signal.Signals(came[0]).name}; after writing {', '.join(came[1])} in full",
+              file=sys.stderr)
+        code = 128 + came[0]
     end_process(code)

@@ -14,7 +14,7 @@ import sys
 import time
 from pathlib import Path
 
-from .interrupts import check, checked, noticed
+from .interrupts import check, checked, in_place, noticed
 from .summary import rejects_line, summary_line
 
 
@@ -186,6 +186,7 @@ def _fit_locally(args, run, ahead) -> int:
         del data, plan, results, diagnosis  # (``backtest``: per-series arrays, kept for its closing line)
         batch.add(args.output, write, by_name=by_name)
         check()  # interrupted, though something swallowed it: the staged files are dropped
+    in_place([str(target)] * bool(len(rejects)) + [str(args.output)])  # a signal now: said after them, at the end
     if not len(rejects) and earlier.owned:
         remove_own(target, "rejects")  # the replaced results' own rejects would now mislead
     elif not len(rejects) and earlier.exists:
@@ -205,6 +206,7 @@ def _fit_locally(args, run, ahead) -> int:
         if backtest is not None:
             from .fit_ledger import backtest_line
             print(backtest_line(backtest, missed), file=sys.stderr)
+    check()  # a signal after the files were in place: said so, with its exit status
     return 0
 
 

@@ -19,22 +19,57 @@ import threading
 from contextlib import contextmanager
 
 _seen = 0  # the signal recorded inside ``noticed`` (0: none)
+_written: list[str] = []  # the files a run has put in place (``in_place``): a signal after them only recorded
 NOTICED = ("SIGINT", "SIGTERM", "SIGHUP")
 
 
 class Stopped(KeyboardInterrupt):
-    """The run stopped by ``signum`` (SIGINT: Ctrl+C; SIGTERM: ``kill``; SIGHUP: the terminal went away)."""
+    """The run stopped by ``signum`` (SIGINT: Ctrl+C; SIGTERM: ``kill``; SIGHUP: the terminal went away), after
+    putting ``written`` in place (none: nothing was written)."""
 
-    def __init__(self, signum: int = signal.SIGINT) -> None:
+    def __init__(self, signum: int = signal.SIGINT, written: list[str] | None = None) -> None:
         super().__init__()
         self.signum = signum
+        self.written = written or None
 
 
 def _on_interrupt(signum, frame) -> None:
     global _seen
     _seen = _seen or signum
-    if threading.active_count() == 1:  # no other thread could wait on a lock this one leaves taken
+    if threading.active_count() == 1 and not _written:  # no other thread could wait on a lock this one leaves
         raise Stopped(signum)
+
+
+_late: list = []  # (signum, files) of a signal after the block ended, its files in place (``until_exit``)
+_until_exit = False  # the process ends with the command (``cli.entry``): handlers may stay until then
+
+
+def until_exit() -> None:
+    """The installed command: a fit that put its files in place keeps recording signals until the process ends,
+    and ``late`` says one (before: one in the moment after the block — waiting for threads, exit functions —
+    killed it, exit 143, no line, the new results complete).  Not for ``main`` called in process."""
+    global _until_exit
+    _until_exit = True
+
+
+def late() -> tuple[int, list[str]] | None:
+    """(signum, files in place) of a signal recorded after the block, or None."""
+    return _late[0] if _late else None
+
+
+def _after(signum, frame) -> None:
+    if not _late:
+        _late.append((signum, list(_kept)))
+
+
+_kept: list[str] = []
+
+
+def in_place(paths: list[str]) -> None:
+    """The run's files are in place: a signal from here on is recorded, and ``check`` at the run's end says it came
+    after them (before: one in the moment between the files and the process's end killed it, exit 143, no line,
+    the new results complete)."""
+    _written[:] = paths
 
 
 @contextmanager
@@ -54,24 +89,27 @@ def noticed():
     if not numbers:
         yield
         return
-    _seen = 0
+    _seen, _written[:] = 0, []
     previous = {number: signal.signal(number, _on_interrupt) for number in numbers}
     try:
         yield
     except BaseException as exc:
         if _seen and not isinstance(exc, KeyboardInterrupt):
-            raise Stopped(_seen) from None
+            raise Stopped(_seen, list(_written)) from None
         raise
     finally:
+        keep = _until_exit and bool(_written) and not _seen  # done, files in place: recorded until the end
+        _kept[:] = _written
         for number, handler in previous.items():
-            signal.signal(number, handler)
-        _seen = 0
+            signal.signal(number, _after if keep else handler)
+        _seen, _written[:] = 0, []
 
 
 def check() -> None:
-    """Raise ``Stopped`` if a signal came inside ``noticed``, even one something swallowed."""
+    """Raise ``Stopped`` if a signal came inside ``noticed``, even one something swallowed (with the files in place
+    by then, if any)."""
     if _seen:
-        raise Stopped(_seen)
+        raise Stopped(_seen, list(_written))
 
 
 def checked(progress):

@@ -166,6 +166,11 @@ def test_ctrl_c_at_any_moment_is_one_line_exit_130_and_nothing_written(signed):
         said = interrupted(signed, whole * share)
         if said is not None:
             seen.append(said)
+            if said[1].endswith(" in full\n"):  # came once the results were in place: said so, as they are
+                assert said[0] == 130 and said[1].splitlines()[-1] == (
+                    "pricefold: stopped by SIGINT; after writing p2.parquet in full"), share
+                earlier = digest(signed / "p2.parquet")
+                continue
             assert said == (130, LINE), share
             assert digest(signed / "p2.parquet") == earlier
     assert len(seen) >= 10
@@ -234,3 +239,46 @@ def test_ctrl_c_as_the_files_are_put_in_place_lands_after_both_and_says_so(tmp_p
     source = json.loads((tmp_path / "r.json").read_text())["input"]
     assert source["rejects_sha256"] == digest(tmp_path / "r.rejects.csv")  # the pair from one run
     assert (tmp_path / "r.json").read_bytes() != earlier  # the second run's (its seed)
+
+
+def test_a_signal_after_the_files_are_in_place_is_said_at_the_end(monkeypatch, capsys):
+    """Before: a kill in the moment between a fit's files being in place and the process's end killed it by the
+    signal (exit 143, no line) though the new results were complete.  Now it is recorded and said at the end."""
+    if signal.getsignal(signal.SIGTERM) is not signal.SIG_DFL:
+        pytest.skip("SIGTERM is not at its default action here")
+    with pytest.raises(interrupts.Stopped) as caught:
+        with interrupts.noticed():
+            interrupts.in_place(["r.rejects.csv", "r.json"])
+            os.kill(os.getpid(), signal.SIGTERM)
+            time.sleep(0.05)  # the handler runs here: recorded, not raised, the files being in place
+            interrupts.check()
+    assert caught.value.signum == signal.SIGTERM and caught.value.written == ["r.rejects.csv", "r.json"]
+    assert signal.getsignal(signal.SIGTERM) is signal.SIG_DFL  # put back
+    import pricefold.cli as cli
+    monkeypatch.setitem(cli.COMMANDS, "fit", lambda args: (_ for _ in ()).throw(caught.value))
+    assert cli.main(["fit", "d.csv", "-o", "r.json"]) == 143
+    assert capsys.readouterr().err == "pricefold fit: stopped by SIGTERM; after writing r.rejects.csv, r.json in full\n"
+
+
+def test_after_the_run_a_signal_is_recorded_until_the_process_ends(monkeypatch):
+    """The installed command (``cli.entry``) keeps recording once a fit's files are in place and its block ended
+    (waiting for threads, exit functions): a kill there was a silent exit 143; ``entry`` now says it.  Called in
+    process (``main``), the handlers are put back as before."""
+    if signal.getsignal(signal.SIGTERM) is not signal.SIG_DFL:
+        pytest.skip("SIGTERM is not at its default action here")
+    with interrupts.noticed():  # in process: nothing kept
+        interrupts.in_place(["r.json"])
+    assert signal.getsignal(signal.SIGTERM) is signal.SIG_DFL
+    monkeypatch.setattr(interrupts, "_until_exit", True)
+    try:
+        with interrupts.noticed():
+            interrupts.in_place(["r.rejects.csv", "r.json"])
+        assert signal.getsignal(signal.SIGTERM) is interrupts._after
+        os.kill(os.getpid(), signal.SIGTERM)
+        time.sleep(0.05)
+        assert interrupts.late() == (signal.SIGTERM, ["r.rejects.csv", "r.json"])
+    finally:
+        for name in interrupts.NOTICED:
+            number = getattr(signal, name)
+            signal.signal(number, signal.default_int_handler if number == signal.SIGINT else signal.SIG_DFL)
+        interrupts._late.clear()
