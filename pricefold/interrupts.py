@@ -60,6 +60,10 @@ def late() -> tuple[int, list[str]] | None:
 def _after(signum, frame) -> None:
     if not _late:
         _late.append((signum, list(_kept)))
+        return
+    import os  # a second one: the process was asked twice, so it ends as it would have (nothing left staged)
+    signal.signal(signum, signal.default_int_handler if signum == signal.SIGINT else signal.SIG_DFL)
+    os.kill(os.getpid(), signum)
 
 
 _kept: list[str] = []
