@@ -173,7 +173,8 @@ def _show(args, keys: dict) -> int:
                                within=None if args.flag else lambda key: within(key, header, products, keys),
                                first=first))
     else:
-        print(detail(picked[0], binary) if len(picked) == 1 else table(picked, first))
+        print(detail(picked[0], binary, one_label(args.results, picked[0]["key"])) if len(picked) == 1
+              else table(picked, first))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     if args.product or typed:  # a look-alike is another series: said, not listed with it
@@ -188,6 +189,21 @@ def _show(args, keys: dict) -> int:
         for note in filter(None, notes):
             print(f"pricefold show: {note}", file=sys.stderr)
     return 0
+
+
+def one_label(results, key: dict) -> str | None:
+    """A series shown alone, told apart from the results' series whose key reads like its own (``North⟨U+0020⟩``
+    where ``North`` is there too), as the lists show it; None (the plain key) where none of its values could read
+    like another's."""
+    from fitcore.text import revealed, told_apart
+
+    from .show import SEPARATOR, key_parts
+    mine = key_parts(key)
+    if all(revealed(value) == value for value in mine):  # nothing to tell apart: no key read
+        return None
+    from fitcore.results.series_columns import results_keys
+    others = [key_parts(other) for other in results_keys(results) if other != key]
+    return SEPARATOR.join(told_apart([mine], others)[0])
 
 
 def within(key: dict, header: dict, products, keys: dict) -> bool:

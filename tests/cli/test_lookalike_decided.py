@@ -223,3 +223,13 @@ def test_a_key_filter_names_a_value_that_reads_alike(cycle, capsys):
                                          "reads alike (not listed: another region)")
     code, _, err = run(capsys, "show", results, "--product", "pears 1 kg", "--key", "region=North")
     assert code == 0 and err == ""  # among the series --product keeps: pears has no 'North '
+
+
+def test_a_series_shown_alone_reads_apart_from_its_twin(cycle, capsys):
+    """Before: ``show --key 'region=North '`` printed ``lemons 500 g · North  — …``: its trailing space read as
+    the North the other series are in (the lists showed ``North⟨U+0020⟩``)."""
+    _, _, results = cycle
+    code, out, _ = run(capsys, "show", results, "--product", "lemons 500 g", "--key", "region=North ")
+    assert code == 0 and out.startswith("lemons 500 g · North⟨U+0020⟩ — ")
+    code, out, _ = run(capsys, "show", results, "--product", "pears 1 kg", "--key", "region=North")
+    assert code == 0 and out.startswith("pears 1 kg · North — ")  # a plain key: as it is, no key read
