@@ -179,8 +179,8 @@ def _check_existing(path: Path, kind: str) -> None:
     elif not path.is_file():
         raise DataError("is not a regular file", path=str(path))
     if not is_own(path, kind):
-        raise DataError(f"exists and is not {KIND_NAMES[kind]}; pricefold replaces only its own earlier output "
-                        "(remove it or choose another name)", path=str(path))
+        raise DataError(f"exists and is not {KIND_NAMES[kind]}{_why_not_own(path, kind)}; pricefold replaces only "
+                        "its own earlier output (remove it or choose another name)", path=str(path))
 
 
 def _resolved(path: Path) -> Path:
@@ -195,6 +195,34 @@ def _same_file(a: Path, b: Path) -> bool:
         return os.path.samefile(a, b)
     except OSError:
         return False
+
+
+def _why_not_own(path: Path, kind: str) -> str:
+    """' (changed since it was written)' / ' (no seal: …)' for an export or a page that looks like one; else ''."""
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(4096)
+    except OSError:
+        return ""
+    if kind == "export" and {"status", "model", "coef"} <= set(_first_row(head)):
+        from .seal import file_sealed
+        sealed = file_sealed(path)
+        return (" (no seal: edited by a program that saved a new file, copied, or written before seals)"
+                if sealed is False and _no_seal(path) else " (changed since it was written)" if sealed is False else "")
+    if kind == "report" and _REPORT in head[:1024]:
+        from .seal import intact
+        return " (changed since it was written)" if intact(path.read_bytes()) is False else \
+            " (no seal: removed or reformatted, or written before seals)"
+    return ""
+
+
+def _no_seal(path: Path) -> bool:
+    from .seal import XATTR
+    try:
+        os.getxattr(path, XATTR)
+    except (AttributeError, OSError):
+        return True
+    return False
 
 
 def _unedited(path: Path) -> bool:

@@ -293,9 +293,13 @@ def test_an_edited_export_or_report_is_not_replaced(tmp_path, monkeypatch):
     text = export.read_text()
     export.write_text(text.replace("pending,,", "pending,poly2,"))  # a cell changed in place: the seal no longer holds
     assert not is_own(export, "export")
+    with pytest.raises(DataError, match=r"unchanged since written \(changed since it was written\)"):
+        check_outputs([(export, "export")], [])
     export.unlink()
     export.write_text(text)  # a new file of the same bytes (an editor's copy): no seal
     assert file_sealed(export) is False and not is_own(export, "export")
+    with pytest.raises(DataError, match=r"\(no seal: edited by a program that saved a new file, copied"):
+        check_outputs([(export, "export")], [])
     # where the system keeps no seals, an export is judged by the shape of its rows
     monkeypatch.setattr(seal_module, "file_sealed", lambda path: None)
     assert is_own(export, "export")
