@@ -177,3 +177,20 @@ async def test_the_override_dialog_shows_whole_models_on_a_small_terminal(fitted
         text = screen_text(app)
         assert f"  {runner} " in text and "Esc to cancel" in text
         assert options.virtual_size.height == 2 * len(dialog.rows)
+
+
+async def test_a_scroll_fix_up_that_runs_while_the_dialog_closes_does_nothing(fitted, tmp_path):
+    """CI found ``NoMatches: 'OptionList' on OverrideDialog()`` (keys typed fast): a fix-up queued by the last move
+    ran while the answered dialog was still attached but its list already removed, and ended the app."""
+    ledger_path = tmp_path / "ledger.jsonl"
+    app = TriageApp(lambda progress: open_session(source_from_results(fitted), ledger_path, ANA, None, progress))
+    async with app.run_test(size=(160, 50)) as pilot:
+        await override_lemons(app, pilot, ledger_path)
+        dialog = app.screen
+        assert isinstance(dialog, OverrideDialog)
+        await dialog.query_one("#dialog-options").remove()  # as closing removes the children first
+        assert dialog.is_attached
+        dialog._whole_rows()
+        dialog._from_a_whole_row()  # before: NoMatches, raised in the app
+        await pilot.pause()
+        assert app.is_running

@@ -183,14 +183,22 @@ class OverrideDialog(Dialog):
     def _from_a_whole_row(self) -> None:
         """Start the list at a whole candidate (two lines each), the proposal too when both fit, never
         halfway through one: a flags line at the top without its model read as the wrong model's."""
-        if not self.is_attached:  # answered and closed before this ran (keys typed fast)
+        options = self._list()
+        if options is None:
             return
-        options = self.query_one(OptionList)
         picked = options.highlighted or 0
         proposed = next((i for i, row in enumerate(self.rows) if row.proposed), picked)
         shown = max(options.scrollable_content_region.height // 2, 1)
         first = min(proposed, picked) if abs(proposed - picked) < shown else picked - shown + 1
         options.scroll_to(y=2 * max(first, 0), animate=False)
+
+    def _list(self) -> OptionList | None:
+        """The candidates' list, or None once the dialog was answered and is closing (keys typed fast): detached,
+        or still attached while its children are being removed (a fix-up ran then and found no list)."""
+        if not self.is_attached:
+            return None
+        found = self.query(OptionList)
+        return found.first() if found else None
 
     def on_option_list_option_highlighted(self) -> None:
         self.call_after_refresh(self._whole_rows)
@@ -198,9 +206,9 @@ class OverrideDialog(Dialog):
     def _whole_rows(self) -> None:
         """After a move, the list's top line is a model's first line: a list an odd number of lines high
         scrolls one line for the highlighted model and would show a flags line without its model."""
-        if not self.is_attached:  # answered and closed before this ran (keys typed fast)
+        options = self._list()
+        if options is None:
             return
-        options = self.query_one(OptionList)
         top, height, picked = int(options.scroll_y), options.scrollable_content_region.height, options.highlighted
         if top % 2 == 0 or picked is None:
             return
