@@ -10,14 +10,14 @@ whether the shape changed.  ``shifted`` is raised when the backtest fails or the
 (thresholds ``shift_error_ratio``, ``shift_coverage`` judged from ``shift_min_rows`` new rows,
 ``shift_volume``), or the history it was signed on changed:
 
-The rows dated up to the signed data's last date are the signed data again only if they hash to the
-decision's fingerprint.  Where they do not (rows restated, back-filled, dropped or reordered: ``revised``),
-the signed curve is measured on them as they are now (``history_ratio``: its RMSE there over its CV RMSE);
-beyond ``shift_error_ratio`` the history it was signed on is gone (``history-changed``): the rows since
-cannot vouch for it, ``shifted`` is raised and carry leaves it to a human.  A revision that fits (a rolling
-window's oldest rows dropped; rows re-dated past the signed date, which would also pass for rows since) is
-left to a human too unless carry is told otherwise (``left_for_human``'s ``revised_ok``).  Only series with
-rows since are checked: without any there is no backtest to mislead.
+Where the rows dated up to the signed data's last date are not those it was signed on (``revised``:
+``fitcore.ledger.history``), the signed curve is measured on them as they are now (``history_ratio``: its
+RMSE there over its CV RMSE); beyond ``shift_error_ratio`` the history it was signed on is gone
+(``history-changed``): the rows since cannot vouch for it, ``shifted`` is raised and carry leaves it to a
+human.  A revision that fits (a rolling window's oldest rows dropped; rows re-dated past the signed date,
+which would also pass for rows since) is left to a human too unless carry is told otherwise
+(``left_for_human``'s ``revised_ok``).  Only series with rows since are checked: without any there is no
+backtest to mislead.
 
 Only the ledger's records are read one by one (they are dicts); every number is computed over all
 series at once, grouped by the signed curve's family and size.
@@ -28,11 +28,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..compiled import compiled
 from ..data.keys import SeriesKeys
 from ..fit.basis import polynomial
 from ..fit.families import BY_NAME
 from ..fit.results import Results
+from .history import dated_rows, history_fit
+from .history import revised as signed_rows_revised
 from .snapshot import evaluate, terms
 from .standing import Standing, standing_of
 
@@ -257,7 +258,8 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
     out["last_date"][series] = np.where(np.isnat(last), None, np.datetime_as_string(last, unit="D").astype(object))
     dates = results.data.date
     out["status"][series] = NO_DATES if dates is None else np.where(np.isnat(last), UNDATED, NO_NEW_ROWS)
-    revised = _revised(results.data, series, last, st.fingerprint) if dates is not None else np.zeros(len(series), bool)
+    revised = (signed_rows_revised(results.data, series, last, st.fingerprint) if dates is not None
+               else np.zeros(len(series), bool))
     price = np.where(np.isfinite(results.plan_price[series]), results.plan_price[series], results.mid[series])
     out["price"][series] = price
     proposed, proposed_el = _proposal_at(results, series, price)
@@ -280,7 +282,7 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
                 # only where rows since would vouch for it: data without any (older results, the same rows
                 # in another order) are not tested at all, and "decided on newer data" says the rest
                 revised[members] &= out["new_rows"][at] > 0
-                _test_history(out, results, at, last[members], curve, revised[members])
+                _test_history(out, results.data, at, last[members], curve, revised[members])
     out["revised"][series] = revised
 
 
@@ -310,10 +312,22 @@ class _SignedCurves:
         return result
 
 
+def _test_history(out: dict, data, series: np.ndarray, last: np.ndarray, curve: _SignedCurves,
+                  revised: np.ndarray) -> None:
+    """Where the rows up to ``last`` were ``revised`` (``history``): how many there are now, how many were signed,
+    and the signed curve's RMSE on them over its CV RMSE."""
+    which = np.flatnonzero(revised)
+    if not len(which):
+        return
+    rows, ratio = history_fit(data, series[which], last[which], curve, which)
+    out["history_rows"][series[which]], out["history_ratio"][series[which]] = rows, ratio
+    out["signed_rows"][series[which]] = curve.n[which]
+
+
 def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray, curve: _SignedCurves) -> None:
     """The signed curves on their series' rows dated after ``last``: count, error ratio, coverage."""
     data = results.data
-    rows, owner = _rows_dated(data.offsets, series, data.date.view(np.int64), _days(last), _per_day(data.date), True)
+    rows, owner = dated_rows(data, series, last, after=True)
     count = np.bincount(owner, minlength=len(series))
     tested = count > 0
     out["new_rows"][series] = count
@@ -330,90 +344,6 @@ def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray
         out["error_ratio"][at] = (rmse / np.sqrt(curve.cv_mse))[tested]
         out["coverage"][at] = np.where(banded, inside / np.maximum(count, 1), np.nan)[tested]
         out["outside"][at] = np.where(banded, count - inside, -1)[tested]
-
-
-def _revised(data, series: np.ndarray, last: np.ndarray, signed: np.ndarray) -> np.ndarray:
-    """(n,) bool: the rows of each ``series[i]`` dated up to ``last[i]`` do not hash as the fingerprint
-    ``signed[i]`` (the rows the decision was made on) — the same hash as ``Dataset.fingerprint_texts``, of
-    those rows only, in row order (NaT ``last``: never revised, nothing to compare)."""
-    from ..data.dataset import hex_texts, series_digests
-    dated = ~np.isnat(last)
-    keep = np.zeros(data.n_rows, bool)
-    rows, _ = _rows_dated(data.offsets, series[dated], data.date.view(np.int64), _days(last[dated]),
-                          _per_day(data.date), False)
-    keep[rows] = True
-    digests = series_digests(data.fingerprint_columns, data.offsets, keep)
-    now = np.asarray(hex_texts(digests[series[dated]]).to_pylist(), dtype=object)
-    out = np.zeros(len(series), bool)
-    out[dated] = now != signed[dated]
-    moved = np.flatnonzero(out)
-    if len(moved):  # the same rows in another order (a file sorted by price): signed in date order, still the same
-        out[moved[_in_date_order(data, series[moved], last[moved]) == signed[moved]]] = False
-    return out
-
-
-def _in_date_order(data, series: np.ndarray, last: np.ndarray) -> np.ndarray:
-    """(n,) object: the fingerprint of each ``series[i]``'s rows dated up to ``last[i]``, taken in date order
-    (ties in row order) — what the signed data hashed as where they were kept in date order, as exports are."""
-    from ..data.dataset import hex_texts, series_digests
-    rows, owner = _rows_dated(data.offsets, series, data.date.view(np.int64), _days(last), _per_day(data.date), False)
-    order = np.lexsort((data.date[rows], owner))  # stable: rows of one date keep their order
-    rows = rows[order]
-    offsets = np.concatenate(([0], np.cumsum(np.bincount(owner, minlength=len(series)))))
-    digests = series_digests([column[rows] for column in data.fingerprint_columns], offsets)
-    return np.asarray(hex_texts(digests).to_pylist(), dtype=object)
-
-
-def _test_history(out: dict, results: Results, series: np.ndarray, last: np.ndarray, curve: _SignedCurves,
-                  revised: np.ndarray) -> None:
-    """Where the rows up to ``last`` were ``revised``: how many there are now, and the signed curve's RMSE on
-    them over its CV RMSE."""
-    if not revised.any():
-        return
-    data, which = results.data, np.flatnonzero(revised)
-    rows, owner = _rows_dated(data.offsets, series[which], data.date.view(np.int64), _days(last[which]),
-                              _per_day(data.date), False)
-    count = np.bincount(owner, minlength=len(which))
-    volume, _, _, _ = curve.at(data.price[rows], which[owner])
-    with np.errstate(invalid="ignore", divide="ignore"):
-        rmse = np.sqrt(np.bincount(owner, (volume - data.volume[rows]) ** 2, minlength=len(which)) / count)
-        out["history_ratio"][series[which]] = np.where(count > 0, rmse / np.sqrt(curve.cv_mse[which]), np.nan)
-    out["history_rows"][series[which]] = count
-    out["signed_rows"][series[which]] = curve.n[which]
-
-
-def _days(last: np.ndarray) -> np.ndarray:
-    return last.astype("datetime64[D]").view(np.int64)
-
-
-def _per_day(dates: np.ndarray) -> np.int64:
-    return np.int64(np.timedelta64(1, "D") // np.timedelta64(1, np.datetime_data(dates.dtype)[0]))
-
-
-_NAT = np.iinfo(np.int64).min
-
-
-@compiled
-def _rows_dated(offsets, series, dates, last, per_day, after):
-    """(rows, owner): the rows of each ``series[i]`` dated on a day after ``last[i]`` (``after``; else on or
-    before it) (days since 1970; NaT dates and NaT ``last`` never), in row order, and the ``i`` each belongs
-    to.  ``dates`` in units of which ``per_day`` make a day (floored to days, as numpy casts them).  One pass,
-    not seven numpy passes over every row of the dataset."""
-    n = 0
-    for i in range(len(series)):
-        if last[i] != _NAT:
-            for r in range(offsets[series[i]], offsets[series[i] + 1]):
-                if dates[r] != _NAT and (dates[r] // per_day > last[i]) == after:
-                    n += 1
-    rows, owner = np.empty(n, np.int64), np.empty(n, np.int64)
-    n = 0
-    for i in range(len(series)):
-        if last[i] != _NAT:
-            for r in range(offsets[series[i]], offsets[series[i] + 1]):
-                if dates[r] != _NAT and (dates[r] // per_day > last[i]) == after:
-                    rows[n], owner[n] = r, i
-                    n += 1
-    return rows, owner
 
 
 def _near_best(results: Results, series: np.ndarray, candidate: np.ndarray) -> np.ndarray:
