@@ -385,7 +385,7 @@ def run_demo(args) -> int:
 
 def run_ledger(args) -> int:
     if args.ledger_command == "carry":
-        from .cycle_cli import run_carry
+        from .carry_cli import run_carry
         return run_carry(args)
     from .ledger_cli import run
     return run(args)

@@ -1,27 +1,21 @@
-"""Across planning cycles: ``ledger carry`` (carry a signed decision to new data where nothing moved) and
-``show --ledger`` (what each series needs); ``fit --ledger`` lives in ``fit_ledger``.
+"""Across planning cycles: ``show --ledger`` (what each series needs); ``ledger carry`` lives in ``carry_cli``,
+``fit --ledger`` in ``fit_ledger``.
 
 The numbers come from ``fitcore.ledger.backtest``; the ledger is read through the verifying reader.
 """
 from __future__ import annotations
 
 import sys
-from collections import Counter
-from dataclasses import dataclass
 from pathlib import Path
 
-from fitcore import ledger
 from fitcore.data.keys import SEPARATOR
 from fitcore.ledger.elsewhere import backtested_elsewhere, without_backtest
-from fitcore.ledger.reader import collector_paused
 from fitcore.ledger.replay import series_id
-from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, newer_standing
+from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer
 from fitcore.text import clean, told_apart
 
-from .fit_ledger import must_exist
+from .ledger_cli import key_mismatch, meets, open_ledger, say_missing
 from .show import key_parts
-from .ledger_cli import (MISSING_TAIL, identity, key_mismatch, meets, open_ledger, parse_head, refuse_key_mismatch,
-                         say_missing)
 
 
 def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | None]:
@@ -36,9 +30,9 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
         needs = NEWER_DUE_SHORT if short else NEWER_DUE  # as the screen says: the ledger refuses decisions here
     elif status == "stale" and record.get("backtest"):
         bt = record["backtest"]
-        stops = [f["code"] for f in record["flags"] if f["code"] in _stop_codes()]
+        stops = [f["code"] for f in record["flags"] if f["code"] in stop_codes()]
         near = bt["signed_near_best"] if "signed_near_best" in bt else (  # results made before it was kept
-            "candidates" in record and _near_best(record, bt.get("candidate")))
+            "candidates" in record and near_best(record, bt.get("candidate")))
         kept = _carried_action(history, bt.get("carries")) == "override" and bool(near)
         needs = due(bt, stops, record["chosen"] is not None, kept)
     if status == "stale" and needs is None:  # a hold signs no curve; anything else: these results hold none
@@ -245,30 +239,12 @@ def alike_line(key: dict, like: dict, book, ledger_path: Path) -> str:
             "data to keep its decisions)")
 
 
-# -- ledger carry ------------------------------------------------------------------------------------
-
-@dataclass
-class Carryable:
-    """A series whose signed decision may be carried, as the results say (checked again under the lock)."""
-
-    key: dict
-    fingerprint: str
-    chosen: str
-    flags: list
-    latest: str  # the series' latest ledger record when the results were fitted
-    candidate: str  # the signed candidate
-    carries: str  # the accept or override the standing decision stands for
-    near_best: bool  # the signed candidate is available and within one SE of the lowest CV error
-    snapshot: dict | None = None
-    revised: bool = False  # carried over a revised history (``--carry-revised``): said in the carry's note
-
-
-def _stop_codes() -> set[str]:
+def stop_codes() -> set[str]:
     from fitcore.review.flags import SEVERITY
     return {code for code, severity in SEVERITY.items() if severity == "stop"}
 
 
-def _near_best(record: dict, name: str) -> bool:
+def near_best(record: dict, name: str) -> bool:
     """The candidate is available and its CV error within one SE of the lowest (the rule's own band)."""
     cands = [c for c in record["candidates"] if c["available"] and c["cv_mse"] is not None]
     mine = next((c for c in cands if c["name"] == name), None)
@@ -276,274 +252,6 @@ def _near_best(record: dict, name: str) -> bool:
         return False
     best = min(cands, key=lambda c: c["cv_mse"])
     return mine["cv_mse"] <= best["cv_mse"] + (best["cv_se"] or 0.0)
-
-
-def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_date: str | None,
-                histories: dict) -> str | None:
-    """Carry's reason for leaving a tested series, asked as ``show --ledger`` and the screen ask it: a decision
-    standing on newer data than these rows (``decided_on_newer``) first, then ``left_for_human``'s ``why``.
-    Only an untested series can be one: a decision on newer data leaves no rows after its last date."""
-    from fitcore.ledger.backtest import FAILED, PASSED
-    if status in (PASSED, FAILED):
-        return why
-    if decided_on_newer(key, fingerprint, last_date, histories.get(series_id(key))):
-        return NEWER_DUE_SHORT
-    return why
-
-
-def decided_since(history, fingerprint: str) -> bool:
-    """Whether a series the results tested now stands on these data (``fingerprint``) by a decision other than
-    a carry: accepted, overridden or held by hand since the fit, or revoked back to pending.  Due nothing, as
-    ``show --ledger`` says from the ledger as it is now, so carry neither counts it as left nor carries it."""
-    if history is None or history.status(fingerprint) == "stale":
-        return False
-    current = history.current
-    return current is None or current["action"] != "carry"
-
-
-def held_left(keys: list[dict], fingerprints: list, last_dates: list, histories: dict) -> Counter:
-    """What ``show --ledger`` says each held series of these results is due (``keys``, ``fingerprints``,
-    ``last_dates``: the series whose standing decision is a hold), in carry's count: a hold on other data is
-    a new look (or, made on newer data, decided on newer data); a hold on these very data is due nothing."""
-    from fitcore.ledger.backtest import HELD_DUE_SHORT
-    left: Counter = Counter()
-    for key, fingerprint, last_date in zip(keys, fingerprints, last_dates):
-        history = histories.get(series_id(key))
-        if history is None or history.status(fingerprint) != "stale":
-            continue
-        newer = decided_on_newer(key, fingerprint, last_date, history)
-        left[NEWER_DUE_SHORT if newer else HELD_DUE_SHORT] += 1
-    return left
-
-
-def held_keys(histories: dict) -> list[dict]:
-    """The keys of the series whose standing decision is a hold (a hold signs no curve: no backtest names it)."""
-    return [h.current["series"] for h in histories.values() if h.current is not None and h.current["action"] == "hold"]
-
-
-def plan_from_records(records, level: float, controls: list[str] | None = None,
-                      overrides: frozenset = frozenset(), histories: dict | None = None, revised_ok: bool = False
-                      ) -> tuple[list[Carryable], Counter]:
-    """Which series may be carried, from results records (JSON; small runs), and why the others may not
-    (``newer_first``, ``left_for_human``, ``held_left``; ``overrides``: the digests of the ledger's overrides;
-    ``histories``: the ledger's; ``revised_ok``: ``--carry-revised``)."""
-    from fitcore.ledger.backtest import left_for_human
-    from fitcore.ledger.snapshot import from_records
-    histories, records = histories or {}, list(records)
-    stops, keep, left = _stop_codes(), [], Counter()
-    held = {series_id(key) for key in held_keys(histories)}
-    mine = [record for record in records if held and series_id(record["key"]) in held]
-    left.update(held_left([r["key"] for r in mine], [r["fingerprint"] for r in mine],
-                          [r.get("last_date") for r in mine], histories))
-    for record in records:
-        bt = record.get("backtest")
-        if bt is None or decided_since(histories.get(series_id(record["key"])), record["fingerprint"]):
-            continue
-        codes = [f["code"] for f in record["flags"]]
-        near = _near_best(record, bt["candidate"])
-        why = left_for_human(bt["status"], "shifted" in codes, bool(set(codes) & stops), record["chosen"] is not None,
-                             bt["candidate"] != record["chosen"], bt["carries"] in overrides and near,
-                             bool(bt.get("revised")), revised_ok)
-        why = newer_first(why, bt["status"], record["key"], record["fingerprint"], record.get("last_date"), histories)
-        if why is not None:
-            left[why] += 1
-        else:
-            keep.append((record, Carryable(record["key"], record["fingerprint"], record["chosen"], codes, bt["latest"],
-                                           bt["candidate"], bt["carries"], near, revised=bool(bt.get("revised")))))
-    signed = from_records([(record, c.candidate) for record, c in keep], level, controls)
-    for (_, c), snapshot in zip(keep, signed):
-        c.snapshot = snapshot
-    return [c for _, c in keep], left
-
-
-def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: dict | None = None,
-                     revised_ok: bool = False) -> tuple[list[Carryable], Counter]:
-    """The same from a Parquet results file or folder, column by column (no Python object per candidate);
-    the reason a series is left, series by series through the same rules (``newer_first``, ``left_for_human``,
-    ``held_left``)."""
-    import numpy as np
-
-    from fitcore.arrays import integers, objects
-    from fitcore.data.keys import SeriesKeys
-    from fitcore.ledger.backtest import FAILED, PASSED, left_for_human
-    from fitcore.ledger.snapshot import from_results
-    from fitcore.results.stored import stored_results
-    from fitcore.review.flags import CODES
-    from fitcore.review.intervals import last_dates
-    histories = histories or {}
-    results, diagnosis = stored_results(path)
-    bt = results.stored_backtest or {}
-    status = bt.get("status", np.full(results.n_series, None, dtype=object))
-    tested = np.flatnonzero(status != None)  # noqa: E711
-    chosen = results.chosen
-    names = results.names
-    data = results.data
-    days = last_dates(results)
-
-    def series_of(index):  # keys, fingerprints and last dates of series ``index``
-        index = np.asarray(index, dtype=np.int64)
-        keys = [dict(zip(data.key_names, values)) for values in
-                zip(*(objects(data.keys[name].take(integers(index))).tolist() for name in data.key_names))]
-        last = [None] * len(index) if days is None else \
-            [None if np.isnat(d) else str(d) for d in days[index].astype("datetime64[D]")]
-        return keys, objects(data.fingerprints.take(integers(index))).tolist(), last
-    held, lookup = held_keys(histories), SeriesKeys.of(data)
-    at = lookup.indices_of(held) if held else np.zeros(0, np.int64)
-    left = held_left(*series_of(at[at >= 0]), histories)
-    tested = tested[~_decided(histories, lookup, data.fingerprints)[tested]]
-    if not len(tested):
-        return [], left
-    shifted, stop = diagnosis.flagged("shifted")[tested], diagnosis.n_stop()[tested] > 0
-    candidate = bt["candidate"][tested]
-    signed = np.array([names.index(n) if n in names else -1 for n in candidate.tolist()], dtype=np.int64)
-    cv_mse, cv_se = np.asarray(results.cv_mse)[tested], np.asarray(results.cv_se)[tested]
-    available = results.available[tested]
-    errors = np.where(available, cv_mse, np.inf)
-    best = np.argmin(errors, axis=1)
-    rows = np.arange(len(tested))
-    at = np.maximum(signed, 0)
-    with np.errstate(invalid="ignore"):
-        near = (signed >= 0) & available[rows, at] & (cv_mse[rows, at] <= errors[rows, best] + cv_se[rows, best])
-    override = np.array([d in overrides for d in bt["carries"][tested].tolist()], dtype=bool)
-    has_model = chosen[tested] >= 0
-    changed = np.array([None if c < 0 else names[c] for c in chosen[tested].tolist()], dtype=object) != candidate
-    revised = bt["revised"][tested].astype(bool) if "revised" in bt else np.zeros(len(tested), bool)  # (older results: none)
-    why = [left_for_human(*args, revised_ok=revised_ok)
-           for args in zip(status[tested].tolist(), shifted.tolist(), stop.tolist(), has_model.tolist(),
-                           changed.tolist(), (override & near).tolist(), revised.tolist())]
-    untested = np.flatnonzero(~np.isin(status[tested].astype(str), [PASSED, FAILED]))
-    for i, key, fingerprint, last in zip(untested.tolist(), *series_of(tested[untested])):
-        why[i] = newer_first(why[i], status[tested[i]], key, fingerprint, last, histories)
-    left.update(w for w in why if w is not None)
-    mask = np.array([w is None for w in why], dtype=bool) & (signed >= 0)
-    ok, signed, near, revised = tested[mask], signed[mask], near[mask], revised[mask]
-    if not len(ok):
-        return [], left
-    snapshots: list = [None] * len(ok)
-    for c in np.unique(signed).tolist():
-        mine = np.flatnonzero(signed == c)
-        for i, snapshot in zip(mine.tolist(), from_results(results, ok[mine], c)):
-            snapshots[i] = snapshot
-    keys, fingerprints, _ = series_of(ok)
-    raised = diagnosis.raised[ok]  # (series, flags) → one number a series (bit j: flag j): a few distinct sets
-    bits = 1 << np.arange(raised.shape[1], dtype=np.int64 if raised.shape[1] < 63 else object)
-    combos, which = np.unique(raised.astype(bits.dtype) @ bits, return_inverse=True)
-    codes = [[CODES[j] for j in range(len(CODES)) if combo >> j & 1] for combo in combos.tolist()]
-    chosen_names = [names[c] for c in chosen[ok].tolist()]
-    plan = [Carryable(key, fingerprint, chosen_name, list(codes[w]), latest, candidate, carries, close, snapshot, moved)
-            for key, fingerprint, chosen_name, w, latest, candidate, carries, close, snapshot, moved in
-            zip(keys, fingerprints, chosen_names, which.reshape(-1).tolist(), bt["latest"][ok].tolist(),
-                bt["candidate"][ok].tolist(), bt["carries"][ok].tolist(), near.tolist(), snapshots, revised.tolist())]
-    return plan, left
-
-
-def _decided(histories: dict, keys, fingerprints) -> np.ndarray:
-    """(S,) ``decided_since`` of each series of ``keys`` (a ``SeriesKeys``), asked only of the ledger's series
-    whose standing decision is not a carry (a carry stands on the data it was carried to, or is stale)."""
-    import numpy as np
-
-    from fitcore.arrays import integers, objects
-    out = np.zeros(len(fingerprints), dtype=bool)
-    mine = [h for h in histories.values() if h.current is None or h.current["action"] != "carry"]
-    if not mine:
-        return out
-    at = keys.indices_of([h.latest["series"] for h in mine])
-    found = np.flatnonzero(at >= 0)
-    prints = objects(fingerprints.take(integers(at[found]))).tolist() if hasattr(fingerprints, "take") else \
-        [fingerprints[i] for i in at[found].tolist()]
-    for i, fingerprint in zip(found.tolist(), prints):
-        out[at[i]] = decided_since(mine[i], fingerprint)
-    return out
-
-
-def run_carry(args) -> int:
-    with collector_paused(freeze=True):  # what is made lives until the command ends
-        return _carry(args)
-
-
-def _carry(args) -> int:
-    from fitcore.results.read import read_header, read_results, result_parts
-    must_exist(args.ledger, "'ledger carry' carries decisions a ledger already holds")
-    # the ledger first: a file that is not one, or a broken chain, is said as every command says it
-    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
-    stored = result_parts(args.results) is not None or args.results.suffix.lower() in (".parquet", ".pq")
-    header = read_header(args.results) if stored else read_results(args.results)[0]
-    source = header.get("ledger")
-    if not source:
-        raise ledger.LedgerError(f"{args.results}: not made by 'pricefold fit --ledger', so it holds no backtest to "
-                                 "carry on; fit again with --ledger")
-    foreign = backtested_elsewhere(args.results, header, args.ledger)
-    if foreign:
-        raise ledger.LedgerError(f"{foreign}; fit again with --ledger on this ledger")
-    header.pop("key_columns", None)
-    digest = ledger.results_digest(header)
-    refuse_key_mismatch(args.results, header, book, args.ledger)
-    from fitcore.results.series_columns import results_keys
-    keys = list(results_keys(args.results))
-    said, found = meets(keys, book, args.ledger)
-    if said:  # 'fit --ledger' found none of the ledger's series in these data, or not those spelled otherwise
-        tail = ("nothing can be carried" if found.new == len(keys) else
-                "those are not carried (a decision is carried only to its own spelling)")
-        print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
-    say_missing("pricefold ledger", args.results, keys, book, args.ledger)
-    overrides = frozenset(r["digest"] for r in book.records if r["action"] == "override")
-    if stored:
-        plan, left = plan_from_stored(args.results, overrides, book.histories, args.carry_revised)
-    else:
-        from fitcore.ledger.snapshot import header_terms  # numpy and the families: not for every --help
-        plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95),
-                                       header_terms(header["settings"]), overrides, book.histories,
-                                       args.carry_revised)
-    read = str(source.get("head", ""))
-    witness = parse_head(read)
-    if witness is None or not book.holds(*witness):
-        said = f"{witness[0]}:{witness[1][:12]}" if witness else clean(read[:20])
-        raise ledger.LedgerError(f"{args.ledger}: no longer holds record {said}…, the head 'fit --ledger' "
-                                 f"read (it now ends at {book.head_text[:20]}…: records were removed or the file "
-                                 "replaced); nothing was carried")
-    outcome: Counter = Counter()
-
-    def decide(records):  # under the lock: book.histories is what the ledger holds now
-        outcome.clear()
-        for c in plan:
-            history = book.histories.get(series_id(c.key))
-            current = history.current if history else None
-            if current is not None and current["action"] == "carry" and current["fingerprint"] == c.fingerprint:
-                outcome["already carried"] += 1
-            elif history is None or history.latest["digest"] != c.latest:
-                outcome["changed since the fit"] += 1
-            else:
-                entry = ledger.Entry(series=c.key, action="carry", fingerprint=c.fingerprint, results=digest,
-                                     model=c.candidate, proposed=c.chosen, note=carry_note(args.note, c.revised),
-                                     supersedes=c.latest, flags=c.flags, signed=c.snapshot, carries=c.carries)
-                if newer_standing(entry, history) is not None:  # the ledger would refuse the whole batch
-                    outcome[NEWER_DUE_SHORT] += 1
-                else:
-                    yield entry
-
-    written = book.append(decide, identity(args.analyst))
-    left.update(outcome)  # held series (a hold signs no curve: no backtest names it) are counted in ``left``
-    if not args.quiet:
-        already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
-        rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"
-        carried = (f"carried {len(written):,} signed series to the new data → {args.ledger}" if written
-                   else f"carried no series: nothing written to {args.ledger}")  # not "→ L" when L is as it was
-        over = sum(1 for r in written if REVISED_NOTE in (r.get("note") or ""))
-        print(carried + (f" ({already:,} carried already)" if already else "")
-              + (f"; {over:,} of them over a revised history (--carry-revised; said in their notes)" if over else ""),
-              file=sys.stderr)
-        print(f"left for a human: {sum(left.values()):,} ({rest})", file=sys.stderr)
-        print(f"ledger head {book.head_text}", file=sys.stderr)
-    return 0
-
-
-REVISED_NOTE = "history revised since signing: carried with --carry-revised"
-
-
-def carry_note(note: str, revised: bool) -> str:
-    """A carry's note: the analyst's, and where the rows it was signed on were revised, that it was carried over
-    them on purpose — so the ledger, show and the report tell such a carry from a clean one."""
-    return f"{note}; {REVISED_NOTE}" if revised and note else REVISED_NOTE if revised else note
 
 
 def superseded(record: dict, book) -> bool:

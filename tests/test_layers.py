@@ -43,7 +43,7 @@ def test_building_the_parser_loads_no_ledger_code():
     ledger's code (``ledger_options``), so a ``fit`` that never opens a ledger does not import it (0.05–0.07 s)."""
     code = ("import sys, pricefold.cli as cli; cli.build_parser(); "
             "print(sorted(m for m in sys.modules if m.startswith(('fitcore.ledger', 'pricefold.ledger_cli', "
-            "'pricefold.cycle_cli', 'pricefold.fit_ledger', 'pricefold.show'))))")
+            "'pricefold.cycle_cli', 'pricefold.carry_cli', 'pricefold.fit_ledger', 'pricefold.show'))))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"
 
