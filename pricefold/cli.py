@@ -133,9 +133,13 @@ def _show(args, keys: dict) -> int:
 
     from fitcore.text import EitherForm
 
-    from .show import detail, select, table
+    from .show import detail, one_label, select, table
+    from functools import cache
+
+    from fitcore.results.series_columns import results_keys
     products = EitherForm(args.product)  # either Unicode form, or as shown, as ledger show and the screen's search
     typed, keys = keys, {name: EitherForm([value]) for name, value in keys.items()}
+    every = cache(lambda: list(results_keys(args.results)))  # every series' key, read once if a hint or note needs it
     if is_columnar(args.results):  # column by column, a record only for one series shown in full
         header, listed = listed_series(args.results, products, keys, args.flag)
         picked = [listed.record(0)] if len(listed) == 1 else listed.records
@@ -151,15 +155,9 @@ def _show(args, keys: dict) -> int:
             from fitcore.errors import SettingsError
             raise SettingsError(f"these results have no key column {unknown[0]!r}; their key columns: "
                                 f"{', '.join(names)}")
-        from fitcore.results.series_columns import results_keys, results_products
-
-        from .show import near_miss
-        hint = near_miss(args.product, results_products(args.results)) if args.product else ""
-        every = list(results_keys(args.results)) if keys else []
-        kept = [key for key in every if not products or next(iter(key.values())) in products]
-        for name, value in typed.items():  # a key's value read alike, among the series --product keeps
-            hint = hint or near_miss([value], (key.get(name) for key in kept), f"{name}=")
-        print(f"pricefold show: no series in {args.results} matches{hint}", file=sys.stderr)
+        from .show import filter_near_miss
+        print(f"pricefold show: no series in {args.results} matches{filter_near_miss(every, args.product, products, typed)}",
+              file=sys.stderr)
         if args.ledger is not None and not args.flag:  # a signed series renamed away matches no row: say where it went
             from .cycle_cli import show_missing
             show_missing(args.results, header, args.ledger, lambda key: within(key, header, products, keys))
@@ -173,37 +171,15 @@ def _show(args, keys: dict) -> int:
                                within=None if args.flag else lambda key: within(key, header, products, keys),
                                first=first))
     else:
-        print(detail(picked[0], binary, one_label(args.results, picked[0]["key"])) if len(picked) == 1
+        print(detail(picked[0], binary, one_label(every, picked[0]["key"])) if len(picked) == 1
               else table(picked, first))
     if len(picked) == 1 and picked[0].get("plan"):
         print(f"\n{CAUTION}")
     if args.product or typed:  # a look-alike is another series: said, not listed with it
-        from fitcore.results.series_columns import results_keys, results_products
-
-        from .show import also_alike
-        notes = [also_alike(args.product, results_products(args.results), str(args.results))] if args.product else []
-        kept = [key for key in results_keys(args.results) if not products or next(iter(key.values())) in products] \
-            if typed else []  # among the series --product keeps
-        notes += [also_alike([value], (key.get(name) for key in kept), str(args.results), name)
-                  for name, value in typed.items()]
-        for note in filter(None, notes):
+        from .show import filter_look_alikes
+        for note in filter_look_alikes(every, args.product, products, typed, str(args.results)):
             print(f"pricefold show: {note}", file=sys.stderr)
     return 0
-
-
-def one_label(results, key: dict) -> str | None:
-    """A series shown alone, told apart from the results' series whose key reads like its own (``North⟨U+0020⟩``
-    where ``North`` is there too), as the lists show it; None (the plain key) where none of its values could read
-    like another's."""
-    from fitcore.text import revealed, told_apart
-
-    from .show import SEPARATOR, key_parts
-    mine = key_parts(key)
-    if all(revealed(value) == value for value in mine):  # nothing to tell apart: no key read
-        return None
-    from fitcore.results.series_columns import results_keys
-    others = [key_parts(other) for other in results_keys(results) if other != key]
-    return SEPARATOR.join(told_apart([mine], others)[0])
 
 
 def within(key: dict, header: dict, products, keys: dict) -> bool:

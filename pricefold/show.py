@@ -32,6 +32,49 @@ def select(series: list[dict], products, keys: dict[str, str], flag: str | None)
     return out
 
 
+def filter_near_miss(every: Callable[[], list[dict]], typed_products: list[str], products, keys: dict) -> str:
+    """``show``'s hint where its filters matched nothing: a near miss of ``--product`` among the results' products,
+    else of each ``--key`` value (``keys``: column → typed value) among the series ``products`` (its
+    ``EitherForm``) keeps, named with its column; ``every()``: the results' series' keys."""
+    hint = near_miss(typed_products, first_values(every())) if typed_products else ""
+    kept = kept_by(every(), products) if keys else []
+    for name, value in keys.items():
+        hint = hint or near_miss([value], (key.get(name) for key in kept), f"{name}=")
+    return hint
+
+
+def filter_look_alikes(every: Callable[[], list[dict]], typed_products: list[str], products, keys: dict,
+                       where: str) -> list[str]:
+    """``show``'s notes where its filters matched: a product, and a value of each ``--key`` column among the
+    series ``products`` keeps, that reads like the one typed (``also_alike``)."""
+    notes = [also_alike(typed_products, first_values(every()), where)] if typed_products else []
+    kept = kept_by(every(), products) if keys else []
+    notes += [also_alike([value], (key.get(name) for key in kept), where, name) for name, value in keys.items()]
+    return [note for note in notes if note]
+
+
+def one_label(every, key: dict) -> str | None:
+    """A series shown alone, told apart from the results' series (``every()``: their keys) whose key reads like its
+    own (``North⟨U+0020⟩`` where ``North`` is there too), as the lists show it; None (the plain key) where none of
+    its values could read like another's."""
+    from fitcore.text import revealed
+    mine = key_parts(key)
+    if all(revealed(value) == value for value in mine):  # nothing to tell apart: no key read
+        return None
+    others = [key_parts(other) for other in every() if other != key]
+    return SEPARATOR.join(told_apart([mine], others)[0])
+
+
+def first_values(keys: list[dict]) -> list:
+    """Each key's first value (its product)."""
+    return [next(iter(key.values()), None) for key in keys]
+
+
+def kept_by(keys: list[dict], products) -> list[dict]:
+    """The keys whose product ``products`` keeps (all, where none was typed)."""
+    return [key for key in keys if not products or next(iter(key.values()), None) in products]
+
+
 def near_miss(typed: Iterable[str], names: Iterable, label: str = "") -> str:
     """"; did you mean 'apples 1 kg '?" — for a ``--product`` (or, after ``label`` such as ``region=``, a
     ``--key`` value) that names nothing: those of ``names`` (the results' or the ledger's values) that read

@@ -312,11 +312,3 @@ def results_keys(path: str | Path) -> Iterator[dict]:
         return
     for part in result_parts(path) or [Path(path)]:
         yield from series_columns(part, read_header(part), ()).keys()
-
-
-
-def results_products(path: str | Path) -> list:
-    """The distinct values of the first key column (the product) of a results file or folder, in file order (a
-    hint's or a note's look-alikes: ``pricefold.show``).  Through the key columns' texts: reading that column
-    alone with ``pyarrow.parquet.read_table`` and ``pyarrow.compute.unique`` took 4× as long at 100k series."""
-    return list(dict.fromkeys(next(iter(key.values()), None) for key in results_keys(path)))
