@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections import defaultdict
 from dataclasses import dataclass, field
 from datetime import datetime
+from functools import cached_property
 
 import numpy as np
 
@@ -98,18 +99,19 @@ class Signoff:
         out = dict(zip(STATUSES, tally.tolist()))
         out["carried"] = int((self.carried & (self.status == STATUSES.index("accepted"))).sum())
         out["carried_overridden"] = int((self.carried & (self.status == STATUSES.index("overridden"))).sum())
-        out["stale_overridden"] = int(self.stale_standing("override").sum())
-        out["stale_held"] = int(self.stale_standing("hold").sum())
+        out["stale_overridden"] = int((self.stale_action == "override").sum())
+        out["stale_held"] = int((self.stale_action == "hold").sum())
         out["total"] = int(len(self.status))
         return out
 
-    def stale_standing(self, action: str) -> np.ndarray:
-        """(S,) bool: stale, with ``action`` (an override, a hold; a carried override counts) standing on the
-        older data."""
-        out = np.zeros(len(self.status), dtype=bool)
+    @cached_property
+    def stale_action(self) -> np.ndarray:
+        """(S,) object: for a stale series, the action of the decision standing on the older data (an override
+        carried counts as one); None elsewhere.  Made once: the counts and the detailed set ask it again and again."""
+        out = np.full(len(self.status), None, dtype=object)
         for s in np.flatnonzero(self.status == STATUSES.index("stale")).tolist():
             decision = self.histories[s].decision if s in self.histories else None
-            out[s] = decision is not None and decision["action"] == action
+            out[s] = decision["action"] if decision is not None else None
         return out
 
     def flag_counts(self) -> dict[str, int]:
@@ -130,7 +132,7 @@ class Signoff:
         many stop-flagged series are left out."""
         order = self.diagnosis.attention_order()
         decided = (self.status == STATUSES.index("overridden")) | (self.status == STATUSES.index("held")) | self.noted
-        decided |= self.stale_standing("override") | self.stale_standing("hold")
+        decided |= np.isin(self.stale_action, ["override", "hold"])
         flagged = self.stop_flagged() & ~decided
         rest = order[flagged[order]]
         return order[decided[order]], rest[:limit], max(len(rest) - limit, 0)
