@@ -205,24 +205,14 @@ def _why_not_own(path: Path, kind: str) -> str:
     except OSError:
         return ""
     if kind == "export" and {"status", "model", "coef"} <= set(_first_row(head)):
-        from .seal import file_sealed
-        sealed = file_sealed(path)
-        return (" (no seal: edited by a program that saved a new file, copied, or written before seals)"
-                if sealed is False and _no_seal(path) else " (changed since it was written)" if sealed is False else "")
+        from .seal import seal_state
+        return {"absent": " (no seal: edited by a program that saved a new file, copied, or written before seals)",
+                "changed": " (changed since it was written)"}.get(seal_state(path), "")
     if kind == "report" and _REPORT in head[:1024]:
         from .seal import intact
         return " (changed since it was written)" if intact(path.read_bytes()) is False else \
             " (no seal: removed or reformatted, or written before seals)"
     return ""
-
-
-def _no_seal(path: Path) -> bool:
-    from .seal import XATTR
-    try:
-        os.getxattr(path, XATTR)
-    except (AttributeError, OSError):
-        return True
-    return False
 
 
 def _unedited(path: Path) -> bool:

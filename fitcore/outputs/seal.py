@@ -47,17 +47,23 @@ def seal_file(path, digest: str) -> None:
 
 
 def file_sealed(path) -> bool | None:
-    """True: ``path`` carries a seal and still hashes as it says; False: it carries none (on a file system that
-    keeps them: edited by a tool that wrote a new file, copied, or written before seals) or another; None: no
-    seals here."""
+    """True: ``path`` carries a seal and still hashes as it says; False: not (``seal_state``); None: no seals here."""
+    state = seal_state(path)
+    return None if state is None else state == "intact"
+
+
+def seal_state(path) -> str | None:
+    """'intact' (``path`` hashes as its seal says), 'changed' (it carries another), 'absent' (it carries none, on a
+    file system that keeps them: edited by a tool that wrote a new file, copied, or written before seals); None:
+    no seals here."""
     try:
         recorded = os.getxattr(path, XATTR)
     except AttributeError:
         return None
     except OSError as exc:
-        return False if exc.errno == errno.ENODATA else None
+        return "absent" if exc.errno == errno.ENODATA else None
     digest = hashlib.sha256()
     with open(path, "rb") as handle:
         for block in iter(lambda: handle.read(1 << 20), b""):
             digest.update(block)
-    return digest.hexdigest().encode("ascii") == recorded
+    return "intact" if digest.hexdigest().encode("ascii") == recorded else "changed"
