@@ -198,8 +198,8 @@ def plan_gaps(results: Results) -> np.ndarray:
     if data.price is None or len(data.price) != data.offsets[-1] or not inside.any():
         return out
     apart = np.abs(data.price - np.repeat(np.where(inside, plan, 0.0), counts))
-    nearest = np.minimum.reduceat(apart, data.offsets[:-1][counts > 0].astype(np.int64))
-    filled = np.flatnonzero(counts > 0)
+    filled = np.flatnonzero(counts > 0)  # reduceat needs each start once: series without rows left out
+    nearest = np.minimum.reduceat(apart, data.offsets[filled].astype(np.int64))
     out[filled] = np.where(inside[filled], nearest / (hi[filled] - lo[filled]), np.nan)
     return out
 
