@@ -59,14 +59,12 @@ def late() -> tuple[int, list[str]] | None:
 
 def _after(signum, frame) -> None:
     if not _late:
-        _late.append((signum, list(_kept)))
+        _late.append((signum, list(_written)))
         return
     import os  # a second one: the process was asked twice, so it ends as it would have (nothing left staged)
     signal.signal(signum, signal.default_int_handler if signum == signal.SIGINT else signal.SIG_DFL)
     os.kill(os.getpid(), signum)
 
-
-_kept: list[str] = []
 
 
 def in_place(paths: list[str]) -> None:
@@ -103,10 +101,11 @@ def noticed():
         raise
     finally:
         keep = _until_exit and bool(_written) and not _seen  # done, files in place: recorded until the end
-        _kept[:] = _written
         for number, handler in previous.items():
             signal.signal(number, _after if keep else handler)
-        _seen, _written[:] = 0, []
+        _seen = 0
+        if not keep:  # (kept: the files ``late`` names)
+            _written[:] = []
 
 
 def check() -> None:
