@@ -14,7 +14,7 @@ from pathlib import Path
 
 from fitcore import ledger
 from fitcore.errors import PricefoldError
-from fitcore.ledger.rules import check_latest
+from fitcore.ledger.rules import check_latest, explained_codes
 from fitcore.review.flags import SEVERITY
 
 from .text import printable
@@ -50,9 +50,9 @@ class Shown:
 
     @property
     def to_explain(self) -> tuple[str, ...]:
-        """The flags an accept must give a note for (``fitcore.ledger.rules.explained_codes``): its stop flags
-        (``stale`` is never among the results' flags) and ``shifted``."""
-        return self.stops + tuple(code for code in self.flags if code == "shifted")
+        """The flags an accept must give a note for, by the ledger's own rule (``rules.explained_codes``)."""
+        explained = explained_codes()
+        return tuple(code for code in self.flags if code in explained)
 
 
 class Deciding:
