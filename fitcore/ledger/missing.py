@@ -108,20 +108,28 @@ class Missing:
         """Every key, one a line as ``example`` names the first ('apples 1 kg · North'), and where the results hold
         it under another spelling, which ('apples 1 kg · North — in these results as apples 1 kg⟨U+0020⟩ · North');
         past ``limit`` keys, a last line '… and 1,234 more'."""
-        columns = self.columns or (tuple(self.keys[0]) if self.keys else ())
         out = []
-        for at, key in enumerate(self.keys[:limit]):
-            values = tuple(clean(str(key[name])) for name in columns or key)
+        for at in range(len(self.keys[:limit])):
+            line = SEPARATOR.join(self._shown(at))
             twin = self.twins[at] if self.twins else None
-            if twin is None:
-                out.append(SEPARATOR.join(values))
-                continue
-            theirs = tuple(clean(str(v)) for v in twin)
-            out.append(f"{SEPARATOR.join(told_apart([values], [theirs])[0])} — in these results as "
-                       f"{SEPARATOR.join(told_apart([theirs], [values])[0])}")
+            if twin is not None:
+                theirs = tuple(clean(str(v)) for v in twin)
+                line += f" — in these results as {SEPARATOR.join(told_apart([theirs], [self._values(at)])[0])}"
+            out.append(line)
         if limit is not None and len(self.keys) > limit:
             out.append(f"… and {len(self.keys) - limit:,} more")
         return out
+
+    def _values(self, at: int) -> tuple[str, ...]:
+        """Key ``at``'s values, cleaned, in the results' column order (else its own)."""
+        key = self.keys[at]
+        return tuple(clean(str(key[name])) for name in self.columns or key)
+
+    def _shown(self, at: int) -> tuple[str, ...]:
+        """Key ``at``'s values as shown: told apart from the results' series it looks like, where it has one."""
+        twin = self.twins[at] if self.twins else None
+        values = self._values(at)
+        return values if twin is None else told_apart([values], [tuple(clean(str(v)) for v in twin)])[0]
 
     @property
     def example(self) -> str:
@@ -131,13 +139,8 @@ class Missing:
         spellings among them are, where any is."""
         alike = sum(self.alike)
         at = self.alike.index(False) if 0 < alike < len(self.keys) else 0
-        first = self.keys[at]
-        values = tuple(clean(str(first[name])) for name in self.columns or first)
-        twin = self.twins[at] if self.twins else None
-        if twin is not None:
-            values = told_apart([values], [tuple(clean(str(v)) for v in twin)])[0]
         more = ", …" if len(self.keys) > 1 else ""
-        named = SEPARATOR.join(values) + more
+        named = SEPARATOR.join(self._shown(at)) + more
         if not alike:
             return named
         if alike < len(self.keys):
