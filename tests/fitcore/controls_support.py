@@ -81,16 +81,11 @@ def refit_held_out(price, volume, w, controls, splits, family: str, degree: int 
     """Each fold's weighted held-out volume MSE (each row's squared error for ``loo``) by refitting the
     candidate with its controls on the fold's training rows (numpy ``lstsq``); controls the training rows
     hold constant (or redundant there) are left out of that fold's fit, so held-out rows get no effect from
-    them.  Log families: exp(prediction) × Duan's smearing factor of the training rows (for ``loo``, the
-    other rows' residuals under the fit on all rows, as the engine's exact leave-one-out)."""
+    them.  Log families: exp(prediction) × Duan's smearing factor of the training rows' residuals under
+    that refit (for ``loo`` too: the README's definition)."""
     logged = family != "poly"
     target = np.log(volume) if logged else volume
     terms = price_terms(price, family, degree)
-    full_keep = kept_columns(controls, w)
-    full = None
-    if loo and logged:
-        design = np.column_stack([np.ones(len(price)), controls[:, full_keep], terms])
-        full = target - design @ wls(design, target, w)
     out = []
     for train, test in splits:
         keep = kept_columns(controls[train], w[train])
@@ -98,7 +93,7 @@ def refit_held_out(price, volume, w, controls, splits, family: str, degree: int 
         coef = wls(design[train], target[train], w[train])
         predicted = design[test] @ coef
         if logged:
-            residual = full[train] if full is not None else target[train] - design[train] @ coef
+            residual = target[train] - design[train] @ coef
             predicted = np.exp(predicted) * np.average(np.exp(residual), weights=w[train])
         errors = (volume[test] - predicted) ** 2
         out.append(errors[0] if loo else np.sum(w[test] * errors) / np.sum(w[test]))

@@ -152,28 +152,60 @@ def test_loglog_fold_errors_match_refitting_each_fold(shared_dataset, order):
         np.testing.assert_allclose(results.cv_mse[s, c], per_fold.mean(), rtol=1e-9)
 
 
-def refit_log_line_loo(x, y):
-    """Each row's squared volume error when left out: ln y = a + b·x refitted exactly without it (``x`` the
-    regressor: ln price or price), smeared by the other rows' exp(residual) under the fit on all rows."""
-    design = np.column_stack([np.ones(len(x)), x])
-    full = np.linalg.lstsq(design, np.log(y), rcond=None)[0]
-    full_exp = np.exp(np.log(y) - design @ full)
+def refit_log_line_loo(x, y, w=None, controls=None):
+    """Each row's squared volume error when left out: ln y = a + b·x (+ Σ γ·control) refitted by weighted least
+    squares without it (``x`` the regressor: ln price or price), smeared by Duan's factor of that refit, the
+    weighted mean of exp(residual) over its training rows (the README's definition, as for k folds)."""
+    w = np.ones(len(x)) if w is None else w
+    design = np.column_stack([np.ones(len(x)), x] + ([] if controls is None else list(controls)))
     errors = []
     for i in range(len(x)):
         keep = np.arange(len(x)) != i
-        beta = np.linalg.lstsq(design[keep], np.log(y[keep]), rcond=None)[0]
-        errors.append((y[i] - np.exp(design[i] @ beta) * full_exp[keep].mean()) ** 2)
+        root = np.sqrt(w[keep])
+        beta = np.linalg.lstsq(design[keep] * root[:, None], np.log(y[keep]) * root, rcond=None)[0]
+        smear = np.average(np.exp(np.log(y[keep]) - design[keep] @ beta), weights=w[keep])
+        errors.append((y[i] - np.exp(design[i] @ beta) * smear) ** 2)
     return np.array(errors)
 
 
-def test_loglog_leave_one_out_log_scale_residuals_are_exact():
-    """Leave-one-out volume errors: exact log-scale refits; smearing from the other rows' full-fit residuals."""
-    data = random_dataset(15, n_series=20, n_range=(8, 30))
+@pytest.mark.parametrize("family", ["loglog", "semilog"])
+def test_log_family_leave_one_out_equals_refitting_without_each_row(family):
+    """Leave-one-out volume errors of the log families equal n refits, each smeared by its own training rows
+    (numpy least squares on each row's training set: an outside reference for the hat-matrix shortcut)."""
+    data = random_dataset(15, n_series=20, n_range=(5, 30))
+    results = fitcore.fit_batch(data, fitcore.FitSettings(degrees=(1,), folds="loo", semilog=True))
+    c = results.names.index(family)
+    for s in range(data.n_series):
+        x, y = series_arrays(data, s)
+        regressor = np.log(x) if family == "loglog" else x
+        np.testing.assert_allclose(results.folds_of(s)[:, c], refit_log_line_loo(regressor, y), rtol=1e-9)
+
+
+def test_log_family_leave_one_out_with_weights_and_a_large_residual():
+    """Weighted rows, and a row whose own term is most of the smearing sum (its residual far above the others'):
+    the row-by-row route, still equal to the refits."""
+    data = random_dataset(16, n_series=12, n_range=(6, 25), with_weight=True)
+    volume = data.volume.copy()
+    volume[data.offsets[:-1] + 2] *= 40.0  # one row a series sells forty times its curve
+    data = fitcore.from_columns({"product": np.repeat(data.keys["product"], data.counts)}, data.price, volume,
+                                weight=data.weight)
     results = fitcore.fit_batch(data, fitcore.FitSettings(degrees=(1,), folds="loo"))
     c = results.names.index("loglog")
     for s in range(data.n_series):
-        x, y = series_arrays(data, s)
-        np.testing.assert_allclose(results.folds_of(s)[:, c], refit_log_line_loo(np.log(x), y), rtol=1e-9)
+        rows = slice(data.offsets[s], data.offsets[s + 1])
+        x, y, w = data.price[rows], data.volume[rows], data.weight[rows]
+        np.testing.assert_allclose(results.folds_of(s)[:, c], refit_log_line_loo(np.log(x), y, w), rtol=1e-9)
+
+
+def test_leave_one_out_equals_as_many_folds_as_rows_in_file_order():
+    """``--folds loo`` and ``--folds n --fold-order given`` hold out the same rows one at a time: the same
+    fold errors for every family (polynomials, loglog, semilog)."""
+    n = 9
+    data = random_dataset(17, n_series=6, n_range=(n, n + 1))
+    loo = fitcore.fit_batch(data, fitcore.FitSettings(degrees=(0, 1, 2), folds="loo", semilog=True))
+    given = fitcore.fit_batch(data, fitcore.FitSettings(degrees=(0, 1, 2), folds=n, fold_order="given", semilog=True))
+    for s in range(data.n_series):
+        np.testing.assert_allclose(loo.folds_of(s), given.folds_of(s), rtol=1e-9)
 
 
 def refit_log_line_folds(x, y, w, splits):

@@ -84,7 +84,7 @@ def test_fold_errors_match_refitting_each_fold(order, weighted):
 
 
 def test_leave_one_out_errors_are_exact_refits():
-    """Each row's error: an exact log-scale refit without it; smearing from the other rows' full-fit residuals."""
+    """Each row's error: an exact refit without it, smeared by that refit's own training rows."""
     data = semilog_data(3, n_series=25)
     results = fitcore.fit_batch(data, semilog_settings(folds="loo"))
     c = results.names.index("semilog")

@@ -17,7 +17,7 @@ from ...compiled import compiled, readonly
 from .. import controlled_rows
 from ..basis import window
 from ..kernels import trains_on
-from ..loo import loo_residuals
+from ..loo import lone_effect, loo_residuals
 from ..polyfit import fit_family
 from ..scores import along_folds
 from ..segments import segment_sums
@@ -90,8 +90,8 @@ class LogVolume(Family):
         return sse_test, along_folds(log.ok[:, :-1, 0], np.logical_and), smear, sse_full
 
     def row_errors(self, work):
-        """Leave-one-out: the held-out ln volume is exact (hat matrix); the smearing factor is the full
-        fit's without the held-out row's own term."""
+        """Leave-one-out, exactly as refitting without each row: its held-out ln volume from the hat
+        matrix, and the smearing factor of the fit without it (``loo_smearing``)."""
         ch, u, z, log = work
         volume, w, counts = ch.volume, ch.weight, ch.counts
         a, e = log.coef[:, -1, 0, 0], log.coef[:, -1, 0, 1]
@@ -100,16 +100,29 @@ class LogVolume(Family):
         resid_full = z - np.repeat(a, counts) - np.repeat(e, counts) * u
         if ch.controls is not None:
             resid_full -= controlled_rows.fitted_controls(log.gamma[:, -1, 0], ch.controls.z, counts)
-        full_exp = np.exp(resid_full)  # exp(residual) of the full fit
-        weighted_exp = weight * full_exp
+        with np.errstate(over="ignore"):
+            full_exp = np.exp(resid_full)  # exp(residual) of the full fit
         total_w = segment_sums(weight, whole)[:, 0]
-        smear = segment_sums(weighted_exp, whole)[:, 0] / np.where(total_w > 0, total_w, 1.0)
+        smear = segment_sums(weight * full_exp, whole)[:, 0] / np.where(total_w > 0, total_w, 1.0)
         fitted = volume / full_exp
         sse_full = segment_sums(weight * (volume - fitted * np.repeat(smear, counts)) ** 2, whole)[:, 0]
         resid, defined = loo_residuals(u, z, w, ch.offsets, log, ch.controls)
-        others_w = np.repeat(total_w, counts) - weight
-        smear_without = (np.repeat(smear * total_w, counts) - weighted_exp) / np.where(others_w > 0, others_w, 1.0)
+        # A control's lone row is predicted by the fit without that control (``loo.lone_effect``), and a row
+        # of leverage 1 has no prediction: both keep the full fit's other rows' smearing.
+        plain = np.repeat(~defined[0], counts)
+        if ch.controls is not None:
+            lone, _ = lone_effect(ch.controls, log.gamma[:, -1, 0], log.scale[:, 1:len(ch.controls.z) + 1] > 0,
+                                  len(u))
+            plain |= lone
+        design = np.ones((2, len(u))) if ch.controls is None else np.ones((len(ch.controls.z) + 2, len(u)))
+        design[1:-1] = ch.controls.z if ch.controls is not None else design[1:-1]
+        design[-1] = u
+        smear_without = np.empty(len(u))
         with np.errstate(over="ignore", invalid="ignore"):  # rows of leverage 1: marked undefined later
+            loo_smearing(readonly(design), readonly(resid_full), readonly(full_exp),
+                         readonly(np.empty(0) if w is None else w), readonly(ch.offsets.astype(np.int64)),
+                         readonly(np.ascontiguousarray(log.lower)), readonly(np.ascontiguousarray(log.scale)),
+                         readonly(np.ascontiguousarray(resid[0])), readonly(plain), smear_without)
             held = volume * np.exp(-resid[0]) * smear_without
         return (volume - held) ** 2, along_folds(log.ok[:, :-1, 0], np.logical_and) & defined[0], smear, sse_full
 
@@ -259,3 +272,70 @@ def volume_errors(u, z, volume, w, bounds, held_out, cumulative, a, e, growth, s
                 r = volume[i] - volume[i] / growth[1, i] * fit_smear
                 total += wi * r * r
             sse_test[s, f] = total
+
+
+@compiled
+def loo_smearing(x, r, g, w, offsets, lower, scale, press, plain, out):
+    """``out[i]``: Duan's smearing factor of the fit without row i, the weighted mean of exp(r_j⁽⁻ⁱ⁾) over
+    the series' other rows j.
+
+    ``x`` (P, N) the design's columns (1, the centred controls, the mapped regressor last), ``r`` the full
+    fit's log residuals, ``g`` = exp(r), ``lower``, ``scale`` (S, P, P), (S, P) its scaled Cholesky factor,
+    ``press`` the leave-one-out log residuals.  Without row i the coefficients move by −(XᵀWX)⁻¹xᵢ·cᵢ,
+    cᵢ = wᵢ·pressᵢ, so r_j⁽⁻ⁱ⁾ = r_j + cᵢ·x_jᵀvᵢ, vᵢ = (XᵀWX)⁻¹xᵢ (two triangular solves).  With the
+    regressor alone (P = 2) the sum over j is Σ w_j·g_j·exp(δ·u_j)·exp(cᵢ·vᵢ₀), δ = cᵢ·vᵢ₁: the Taylor
+    series over the series' moments Σ w·g·uᵏ (as the folds' smearing, ``TAYLOR_REACH``) less row i's
+    own term, summed row by row where δ is larger or row i's term is half the sum or more.  ``plain``
+    rows take the full fit's other rows (a control's lone row; a row of leverage 1).
+    """
+    weighted = len(w) > 0
+    p = x.shape[0]
+    moments = np.zeros((1, TAYLOR_TERMS + 1))
+    total_w = np.zeros(1)
+    bounds = np.zeros(2, dtype=np.int64)
+    v = np.zeros(p)
+    for s in range(len(offsets) - 1):
+        lo, hi = offsets[s], offsets[s + 1]
+        bounds[0], bounds[1] = lo, hi
+        _growth_moments(x[p - 1], g, w, weighted, bounds, moments, total_w)
+        for i in range(lo, hi):
+            wi = w[i] if weighted else 1.0
+            others = total_w[0] - wi
+            if others <= 0:
+                out[i] = np.nan
+                continue
+            if plain[i]:
+                out[i] = (moments[0, 0] - wi * g[i]) / others
+                continue
+            for k in range(p):  # L·y = D·xᵢ, then Lᵀ·y' = y; vᵢ = D·y'
+                acc = scale[s, k] * x[k, i]
+                for m in range(k):
+                    acc -= lower[s, k, m] * v[m]
+                v[k] = acc / lower[s, k, k]
+            for k in range(p - 1, -1, -1):
+                acc = v[k]
+                for m in range(k + 1, p):
+                    acc -= lower[s, m, k] * v[m]
+                v[k] = acc / lower[s, k, k]
+            ci = wi * press[i]
+            for k in range(p):
+                v[k] *= scale[s, k] * ci
+            if p == 2 and abs(v[1]) <= TAYLOR_REACH:
+                coef = 1.0
+                spread = moments[0, 0]
+                for k in range(1, TAYLOR_TERMS + 1):
+                    coef *= v[1] / k
+                    spread += coef * moments[0, k]
+                spread *= np.exp(v[0])
+                own = wi * np.exp(r[i] + v[0] + v[1] * x[1, i])
+                if own < 0.5 * spread:
+                    out[i] = (spread - own) / others
+                    continue
+            spread = 0.0
+            for j in range(lo, hi):
+                if j != i:
+                    shift = r[j]
+                    for k in range(p):
+                        shift += x[k, j] * v[k]
+                    spread += (w[j] if weighted else 1.0) * np.exp(shift)
+            out[i] = spread / others
