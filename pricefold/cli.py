@@ -363,6 +363,9 @@ def run_ledger(args) -> int:
     if args.ledger_command == "carry":
         from .carry_cli import run_carry
         return run_carry(args)
+    if args.ledger_command == "revoke":
+        from .revoke_cli import run_revoke
+        return run_revoke(args)
     from .ledger_cli import run
     return run(args)
 

@@ -45,6 +45,18 @@ def add_ledger_parser(commands):
                            "ledger holds none of the results' series (the same key columns, other values) or "
                            "where some look like its own under another spelling (north for North)")
     bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
+    revoke = sub.add_parser("revoke", help="withdraw your own standing decisions (named records, or a whole batch) "
+                                           "with a note saying why; what stood before stands again")
+    revoke.add_argument("ledger", type=Path, metavar="LEDGER")
+    which = revoke.add_mutually_exclusive_group(required=True)
+    which.add_argument("--record", type=int, nargs="+", metavar="N",
+                       help="the records to withdraw, numbered as 'ledger show' prints them (#N); all or nothing")
+    which.add_argument("--batch", type=int, metavar="N",
+                       help="every decision of the batch record #N belongs to (an accept-unflagged or carry run) "
+                            "still standing and yours")
+    revoke.add_argument("--note", required=True, metavar="TEXT", help="why (required: the ledger keeps it)")
+    revoke.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
+    revoke.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success")
     return sub
 
 

@@ -1,0 +1,94 @@
+"""``pricefold ledger revoke``: withdraw one's own standing decisions from the command line, with a note saying why.
+
+Named as ``ledger show`` numbers them (``--record 12 40``: all or nothing), or every decision of the batch a record
+belongs to (``--batch 12``: an ``accept-unflagged`` or ``carry`` run, taken back whole; its decisions replaced since,
+or not one's own, are left and counted).  The ledger's rule applies under its lock: a decision is withdrawn only by
+the OS user who made it, only while it is that user's latest standing decision on its series; what stood before it
+stands again (or the series is pending).  Only the decision in effect on its series is withdrawn here (one
+under a later decision, as on the screen, is not).  Binding: the records named are judged as the ledger holds them when the
+lock is taken, so a decision replaced by another analyst since ``ledger show`` printed it is not withdrawn.
+"""
+from __future__ import annotations
+
+import sys
+
+from fitcore import ledger
+from fitcore.ledger.replay import own_standing, series_id
+from fitcore.ledger.rules import label, what_happened
+
+from .ledger_cli import identity, open_ledger
+
+DECIDING = ("accept", "override", "hold", "carry")
+
+
+def run_revoke(args) -> int:
+    if not args.note.strip():
+        raise ledger.LedgerError("--note: say why the decisions are withdrawn (the ledger keeps it); nothing was "
+                                 "written")
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE), must_exist=True)
+    who = identity(args.analyst)
+    left: list[str] = []
+
+    def entries(records: list[dict]) -> list[ledger.Entry]:  # under the lock: the ledger as it stands now
+        left.clear()
+        out = []
+        for record in named(args, records):
+            history = book.histories.get(series_id(record["series"]))
+            why = why_not(record, history, who)
+            if why is not None:
+                if args.batch is None:
+                    raise ledger.LedgerError(f"{args.ledger}: #{record['seq']} ({label(record['series'])}): {why}; "
+                                             "nothing was withdrawn")
+                left.append(why)
+                continue
+            out.append(ledger.Entry(series=record["series"], action="revoke", fingerprint=record["fingerprint"],
+                                    results=record["results"], model=record.get("model"),
+                                    proposed=record.get("proposed"), note=args.note,
+                                    supersedes=history.latest["digest"]))
+        if not out:
+            raise ledger.LedgerError(f"{args.ledger}: none of the batch of #{args.batch} is still standing and "
+                                     f"yours (the first: {left[0]}); nothing was withdrawn")
+        return out
+
+    written = book.append(entries, who)
+    if not args.quiet:
+        kept = f"; {len(left):,} of the batch left as they are (no longer standing, or not yours)" if left else ""
+        print(f"withdrew {len(written):,} decision{'s' * (len(written) != 1)}{kept} → {args.ledger}", file=sys.stderr)
+        print(f"ledger head {book.head_text}", file=sys.stderr)
+    return 0
+
+
+def named(args, records: list[dict]) -> list[dict]:
+    """The records ``--record`` names (each once, one a series) or the batch of ``--batch``'s record, in order."""
+    by_seq = {record["seq"]: record for record in records}
+    wanted = [args.batch] if args.batch is not None else args.record
+    for seq in wanted:
+        if seq not in by_seq:
+            raise ledger.LedgerError(f"{args.ledger}: no record #{seq} (the ledger's records are #1 to "
+                                     f"#{len(records)}: see 'pricefold ledger show'); nothing was withdrawn")
+    if args.batch is not None:
+        batch = (by_seq[args.batch].get("batch") or {}).get("id")
+        return [r for r in records if batch and (r.get("batch") or {}).get("id") == batch] or [by_seq[args.batch]]
+    chosen = [by_seq[seq] for seq in dict.fromkeys(wanted)]
+    seen: dict[str, int] = {}
+    for record in chosen:
+        first = seen.setdefault(series_id(record["series"]), record["seq"])
+        if first != record["seq"]:
+            raise ledger.LedgerError(f"{args.ledger}: #{first} and #{record['seq']} are both of "
+                                     f"{label(record['series'])}: one revoke withdraws one decision a series "
+                                     "(the latest of yours); nothing was withdrawn")
+    return chosen
+
+
+def why_not(record: dict, history, who: ledger.Identity) -> str | None:
+    """Why ``record`` cannot be withdrawn by ``who`` now (None: it can)."""
+    if record["action"] not in DECIDING:
+        return f"a {record['action']}, not a decision"
+    mine = own_standing(history, who.analyst, who.os_user)
+    current = history.current if history else None
+    if current is not None and current["digest"] == record["digest"] and mine is not None \
+            and mine["digest"] == record["digest"]:
+        return None
+    if current is None or current["digest"] != record["digest"]:  # the one in effect only, as the screen's key
+        return f"no longer stands ({what_happened(current)} since)" if current else "no longer stands (withdrawn since)"
+    return f"made by {record.get('os_user') or record['analyst']}, not by you ({who.os_user})"
