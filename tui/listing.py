@@ -104,6 +104,18 @@ class ListState:
         mask = self.status_mask(name)
         return mask & self.diagnosis.flagged(flag) if flag else mask
 
+    def empty_words(self) -> list[str]:
+        """What the list says where it lists nothing: why, and where the series are (the evidence panel, beside
+        it, is off screen in a narrow terminal)."""
+        said = ["Nothing listed here: f for another view, / to search."]
+        if self.filter == "attention" and self.flag_filter is None:
+            undecided = int(np.count_nonzero(self.undecided))
+            if undecided:
+                said = [f"Nothing needs a decision: {undecided:,} undecided series carry no flag.",
+                        f"f: all {self.results.n_series:,} series; or accept the unflagged together",
+                        "with 'pricefold ledger accept-unflagged'."]
+        return said
+
     def filter_counts(self) -> dict[str, int]:
         """How many series each choice of the filter menu would list (a flag keeps the status filter, and back)."""
         out = {name: int(self._mask(name, self.flag_filter).sum()) for name in FILTERS}

@@ -285,3 +285,33 @@ async def test_a_notification_under_a_dialog_is_drawn_once(ledger_path, size):
         await pilot.pause(0.3)
         shown = screen_text(app)
         assert shown.count("zebra") == 1 and shown.count("okapi") == 1, shown
+
+
+def clean_source(tmp_path) -> Source:
+    """Three straight-line series that raise no flag: the default view lists nothing."""
+    path = tmp_path / "clean.csv"
+    rng = np.random.default_rng(1)
+    with open(path, "w", newline="") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(["product", "price", "volume"])
+        for p in range(3):
+            for k in range(40):
+                price = 2 + 0.02 * ((k * 7) % 40)
+                writer.writerow([f"item {p}", f"{price:.2f}", f"{1000 - 150 * price + rng.normal(0, 5):.1f}"])
+    return Source(data=path, columns=Columns())
+
+
+async def test_an_empty_view_says_why_in_the_list_at_80_columns(tmp_path, ledger_path):
+    """At 80 columns the evidence panel is off screen: the list itself says nothing needs a decision and
+    where the series are, instead of a blank list."""
+    app = make_app(ledger_path, clean_source(tmp_path))
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        assert not session.diagnosis.raised.any() and not len(session.view)
+        text = screen_text(app)
+        assert "Nothing needs a decision: 3 undecided series carry no flag." in text
+        assert "f: all 3 series" in text
+        session.set_filter("held")
+        app.screen.query_one("#series-list").refresh()
+        await pilot.pause()
+        assert "Nothing listed here: f for another view, / to search." in screen_text(app)

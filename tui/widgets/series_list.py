@@ -163,6 +163,10 @@ class SeriesList(ScrollView, can_focus=True):
             return Strip([Segment(head, Style(bold=True, underline=True))]).crop(0, width).extend_cell_length(width)
         row = y - 1 + int(self.scroll_y)
         session = self.session
+        if not len(session.view):
+            said = session.empty_words()
+            text = f"  {said[row]}" if row < len(said) else ""
+            return Strip([Segment(text, Style(dim=True))]).crop(0, width).extend_cell_length(width)
         if row >= len(session.view):
             return Strip.blank(width)
         s = int(session.view[row])
