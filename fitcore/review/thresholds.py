@@ -51,18 +51,10 @@ class Thresholds:
     shift_volume: float = 0.15
 
     def __post_init__(self) -> None:
-        checks = {
-            "min_points": self.min_points >= 1, "min_distinct_prices": self.min_distinct_prices >= 1,
-            "min_price_cv": self.min_price_cv >= 0, "rising_share": 0 <= self.rising_share < 1,
-            "near_tie_change": self.near_tie_change > 0, "unsteady_ratio": self.unsteady_ratio > 1,
-            "weak_score": self.weak_score <= 1, "cook_floor": self.cook_floor > 0,
-            "price_tied_vif": self.price_tied_vif > 1, "plan_gap": 0 < self.plan_gap < 1,
-            "shift_error_ratio": self.shift_error_ratio > 0, "shift_coverage": 0 <= self.shift_coverage <= 1,
-            "shift_min_rows": self.shift_min_rows >= 1, "shift_volume": self.shift_volume > 0,
-        }
-        for name, ok in checks.items():
-            if not ok:
-                raise SettingsError(f"threshold {name} is out of range: got {getattr(self, name)}")
+        for name, (ok, expected) in RANGES.items():
+            if not ok(getattr(self, name)):
+                raise SettingsError(f"threshold {name} is out of range: expected {expected}, got "
+                                    f"{getattr(self, name)}")
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -95,3 +87,22 @@ def parse_threshold_options(items: list[str]) -> dict[str, str]:
             raise SettingsError(f"expected --threshold NAME=VALUE, got {item!r}")
         out[name.strip()] = value.strip()
     return out
+
+
+# name → (the check, what it expects in words): the one place a threshold's range is written
+RANGES = {
+    "min_points": (lambda v: v >= 1, "a whole number of at least 1"),
+    "min_distinct_prices": (lambda v: v >= 1, "a whole number of at least 1"),
+    "min_price_cv": (lambda v: v >= 0, "at least 0"),
+    "rising_share": (lambda v: 0 <= v < 1, "from 0 up to (not including) 1"),
+    "near_tie_change": (lambda v: v > 0, "above 0"),
+    "unsteady_ratio": (lambda v: v > 1, "above 1"),
+    "weak_score": (lambda v: v <= 1, "at most 1"),
+    "cook_floor": (lambda v: v > 0, "above 0"),
+    "price_tied_vif": (lambda v: v > 1, "above 1"),
+    "plan_gap": (lambda v: 0 < v < 1, "between 0 and 1 (both excluded)"),
+    "shift_error_ratio": (lambda v: v > 0, "above 0"),
+    "shift_coverage": (lambda v: 0 <= v <= 1, "from 0 to 1"),
+    "shift_min_rows": (lambda v: v >= 1, "a whole number of at least 1"),
+    "shift_volume": (lambda v: v > 0, "above 0"),
+}

@@ -194,7 +194,10 @@ def test_every_flag_has_a_sentence_and_a_severity():
 @pytest.mark.parametrize("pairs, message", [
     ({"min_pointz": "3"}, "unknown threshold 'min_pointz'; expected one of min_points"),
     ({"min_points": "many"}, "expected a whole number for threshold min_points, got 'many'"),
-    ({"unsteady_ratio": "0.5"}, "threshold unsteady_ratio is out of range: got 0.5"),
+    ({"unsteady_ratio": "0.5"}, "threshold unsteady_ratio is out of range: expected above 1, got 0.5"),
+    ({"plan_gap": "0"}, "threshold plan_gap is out of range: expected between 0 and 1 (both excluded), got 0.0"),
+    ({"shift_min_rows": "0"}, "threshold shift_min_rows is out of range: expected a whole number of at least 1, "
+                              "got 0"),
 ])
 def test_threshold_overrides_are_checked(pairs, message):
     with pytest.raises(SettingsError, match=re.escape(message)):
