@@ -127,6 +127,8 @@ def check_entry(entry: Entry) -> bytes | None:
         raise LedgerError(f"expected the series key as a mapping of column to value, got {entry.series!r}")
     if not isinstance(entry.note, str):
         raise LedgerError(f"expected the note as text, got {type(entry.note).__name__}")
+    if entry.action == "note" and not entry.note.strip():
+        raise LedgerError("a note needs its text (a note record says something to the next reader)")
     if entry.action == "override" and not entry.note.strip():
         raise LedgerError("an override needs a note saying why the proposal was not taken")
     if entry.action == "override" and not entry.model:

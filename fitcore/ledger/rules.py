@@ -1,7 +1,7 @@
 """The rules every append obeys, checked under the exclusive lock against what the ledger holds
 then (so no path — screen, command, script — can skip them).  Pure: histories in, error out.
 
-- an override needs a note and a model (``records.check_entry``);
+- an override needs a note and a model, a note record its text (``records.check_entry``);
 - an accept whose ``flags`` include a stop flag (other than ``stale``) or ``shifted`` (the signed curve failed
   its backtest, its history changed, or the proposal moved far from it) needs a note;
 - an accept on a series whose standing decision is already an accept (or a carry of one) of the

@@ -50,6 +50,16 @@ def test_override_needs_a_note(tmp_path):
     assert not (tmp_path / "l.jsonl").exists() or (tmp_path / "l.jsonl").read_bytes() == b""
 
 
+@pytest.mark.parametrize("text", ["", "   \n"])
+def test_a_note_needs_its_text(tmp_path, text):
+    path = tmp_path / "l.jsonl"
+    ledger.append(path, [entry("a")], ANA)
+    before = path.read_bytes()
+    with pytest.raises(ledger.LedgerError, match="a note needs its text"):
+        ledger.append(path, [entry("a", "note", note=text)], ANA)
+    assert path.read_bytes() == before
+
+
 def test_torn_tail_is_noted_then_moved_aside_by_the_next_append(tmp_path):
     path = tmp_path / "ledger.jsonl"
     ledger.append(path, [entry("a"), entry("b")], ANA)

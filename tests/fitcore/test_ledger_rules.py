@@ -158,7 +158,7 @@ def test_one_carry_per_series_and_data(tmp_path):
 
 
 @pytest.mark.parametrize("bad, words", [
-    (dict(action="note", signed={"candidate": "poly1"}), "only accept, override, carry record a signed model"),
+    (dict(action="note", note="n", signed={"candidate": "poly1"}), "only accept, override, carry record a signed model"),
     (dict(signed=[1, 2]), "expected the signed model as an object or None"),
     (dict(signed={"coef": [1.0, math.nan]}), "expected finite numbers in the signed model"),
     (dict(carries="ab" * 32), "a carry names the decision it carries forward"),
