@@ -114,9 +114,8 @@ class LogVolume(Family):
             lone, _ = lone_effect(ch.controls, log.gamma[:, -1, 0], log.scale[:, 1:len(ch.controls.z) + 1] > 0,
                                   len(u))
             plain |= lone
-        design = np.ones((2, len(u))) if ch.controls is None else np.ones((len(ch.controls.z) + 2, len(u)))
-        design[1:-1] = ch.controls.z if ch.controls is not None else design[1:-1]
-        design[-1] = u
+        controls = np.empty((0, len(u))) if ch.controls is None else ch.controls.z
+        design = np.vstack([np.ones((1, len(u))), controls, u[None, :]])  # [1, controls…, regressor]
         smear_without = np.empty(len(u))
         with np.errstate(over="ignore", invalid="ignore"):  # rows of leverage 1: marked undefined later
             loo_smearing(readonly(design), readonly(resid_full), readonly(full_exp),
