@@ -73,7 +73,8 @@ def test_show_gives_the_accepted_model_and_says_these_results_propose_another(ot
     assert f"these results propose {proposal} " in out and "look again" in out
 
     assert main(["show", str(results), "--ledger", str(book), "--product", key["product"]]) == 0
-    row = next(text for text in capsys.readouterr().out.splitlines() if text.startswith(f"{key['product']} · {key['region']}"))
+    label = f"{key['product']} · {key['region']}"
+    row = next(text for text in capsys.readouterr().out.splitlines() if text.startswith(label))
     assert " poly1 " in row and row.rstrip().endswith(f"proposes {proposal}: rising")
 
 
