@@ -35,10 +35,10 @@ def series_arrays(data: fitcore.Dataset, s: int):
 def series_folds(data: fitcore.Dataset, settings: fitcore.FitSettings, s: int):
     """Series ``s``'s price, volume and weight (ones when unweighted), and its folds' (train, test)
     positions within them, as ``fitcore.fit.folds.split_indices`` deals them."""
-    from fitcore.fit.folds import split_indices
+    from fitcore.fit.folds import dataset_rows, split_indices
     lo, hi = data.offsets[s], data.offsets[s + 1]
     splits = [(train - lo, test - lo) for train, test in
-              split_indices(data.offsets, settings, s, key_hash=data.key_hash, date=data.date)]
+              split_indices(data.offsets, settings, s, **dataset_rows(data))]
     x, y = series_arrays(data, s)
     return x, y, np.ones_like(x) if data.weight is None else data.weight[lo:hi], splits
 

@@ -36,8 +36,10 @@ class Chunk:
         self.scheme = scheme
         self.offsets = data.offsets[s0:s1 + 1] - r0
         self.counts = np.diff(self.offsets)
-        self.lay = scheme.layout(self.offsets, key_hash=data.key_hash[s0:s1] if scheme.keyed else None,
-                                 date=None if data.date is None else data.date[r0:r1])
+        rows = {"date": None if data.date is None else data.date[r0:r1]}
+        if scheme.keyed:
+            rows.update(key_hash=data.key_hash[s0:s1], price=data.price[r0:r1], volume=data.volume[r0:r1])
+        self.lay = scheme.layout(self.offsets, **rows)
         order = self.lay.order
 
         def take(array):

@@ -9,8 +9,9 @@ on the blocks held out:
   ``n // K + 1`` rows, the rest ``n // K``).  Fold f holds out block f and
   trains on the others.
 - ``ShuffledKFold`` (``shuffled``, the default): the same blocks over a
-  seeded permutation of the series' rows (``shuffle``), the same on every
-  machine and whatever other series share the file or the partition.
+  seeded permutation of the series' rows drawn from their dates (else their
+  prices and volumes: ``shuffle``), the same on every machine, whatever
+  other series share the file or the partition, and in any row order.
 - ``TimeFolds`` (``time``): rows sorted by date; K + 1 blocks as scikit-learn
   ``TimeSeriesSplit(n_splits=K)`` (each test block ``n // (K + 1)`` rows, the
   remainder goes to the first training block).  Fold f trains on blocks
@@ -32,7 +33,7 @@ import numpy as np
 from ..errors import SettingsError
 from . import reasons
 from .scores import Moments, Scores, fold_scores, row_scores
-from .shuffle import shuffle_order
+from .shuffle import row_values, shuffle_order
 
 ORDERS = ("shuffled", "given", "time")
 
@@ -68,10 +69,12 @@ class FoldScheme:
     fewest_folds: int  # a series must split into at least this many folds (the reason's sentence)
     fold_failure: int  # the reason code when a held-out fit is undefined
     comparable_folds: bool  # whether its held-out errors are per fold, so folds can be compared
-    keyed = False  # whether its layout depends on the series' key hashes
+    keyed = False  # whether its layout depends on the series' key hashes and the rows' values
 
-    def layout(self, offsets: np.ndarray, *, key_hash: np.ndarray | None = None,
-               date: np.ndarray | None = None) -> FoldLayout:
+    def layout(self, offsets: np.ndarray, *, key_hash: np.ndarray | None = None, date: np.ndarray | None = None,
+               price: np.ndarray | None = None, volume: np.ndarray | None = None) -> FoldLayout:
+        """The rows' layout; ``key_hash`` (S,), ``date``, ``price``, ``volume`` (N,) where the scheme
+        uses them (``keyed``: the key hashes and the rows' values; ``TimeFolds``: the dates)."""
         raise NotImplementedError
 
     def error_counts(self, counts: np.ndarray) -> np.ndarray:
@@ -120,14 +123,14 @@ class KFold(FoldScheme):
             raise SettingsError(f"expected --folds to be a whole number of at least 2 or 'loo', got {k!r}")
         self.k = self.fewest_folds = int(k)
 
-    def order(self, offsets: np.ndarray, key_hash) -> np.ndarray | None:
+    def order(self, offsets: np.ndarray, key_hash, date, price, volume) -> np.ndarray | None:
         return None
 
-    def layout(self, offsets, *, key_hash=None, date=None) -> FoldLayout:
+    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None) -> FoldLayout:
         counts = np.diff(offsets)
         inner = kfold_bounds(counts, self.k)
-        return FoldLayout(self.order(offsets, key_hash), inner + offsets[:-1, None], np.arange(self.k), False,
-                          counts >= self.k)
+        return FoldLayout(self.order(offsets, key_hash, date, price, volume), inner + offsets[:-1, None],
+                          np.arange(self.k), False, counts >= self.k)
 
     def error_counts(self, counts):
         return np.full(len(counts), self.k, dtype=np.int64)
@@ -153,8 +156,8 @@ class ShuffledKFold(KFold):
             raise SettingsError(f"expected --seed to be a non-negative whole number, got {seed!r}")
         self.seed = int(seed)
 
-    def order(self, offsets, key_hash):
-        return shuffle_order(offsets, key_hash, self.seed)
+    def order(self, offsets, key_hash, date, price, volume):
+        return shuffle_order(offsets, key_hash, self.seed, row_values(date, price, volume))
 
 
 def check_time_order(fold_order: str, has_date: bool) -> None:
@@ -167,7 +170,7 @@ def check_time_order(fold_order: str, has_date: bool) -> None:
 class TimeFolds(KFold):
     """Rolling origin over the rows sorted by date (scikit-learn ``TimeSeriesSplit`` block sizes)."""
 
-    def layout(self, offsets, *, key_hash=None, date=None) -> FoldLayout:
+    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None) -> FoldLayout:
         check_time_order("time", date is not None)
         counts = np.diff(offsets)
         series = np.repeat(np.arange(len(counts)), counts)
@@ -190,7 +193,7 @@ class LeaveOneOut(FoldScheme):
     fold_failure = reasons.LEVERAGE_ONE
     comparable_folds = False
 
-    def layout(self, offsets, *, key_hash=None, date=None) -> FoldLayout:
+    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None) -> FoldLayout:
         counts = np.diff(offsets)
         return FoldLayout(None, np.stack([offsets[:-1], offsets[1:]], axis=1), np.zeros(0, np.int64), False,
                           counts >= 2)
@@ -251,10 +254,15 @@ def time_bounds(counts: np.ndarray, k: int) -> np.ndarray:
     return np.where(b == 0, 0, first[:, None] + (b - 1) * size[:, None])
 
 
-def fold_ids(offsets: np.ndarray, settings, *, key_hash: np.ndarray | None = None,
-             date: np.ndarray | None = None) -> np.ndarray:
-    """(N,) the fold that holds out each dataset row under ``settings``; -1 for rows never held out."""
-    return fold_scheme(settings).fold_ids(offsets, key_hash=key_hash, date=date)
+def fold_ids(offsets: np.ndarray, settings, **rows) -> np.ndarray:
+    """(N,) the fold that holds out each dataset row under ``settings``; -1 for rows never held out.
+    ``rows``: ``key_hash``, ``date``, ``price``, ``volume`` as ``FoldScheme.layout`` takes them."""
+    return fold_scheme(settings).fold_ids(offsets, **rows)
+
+
+def dataset_rows(data) -> dict:
+    """A ``Dataset``'s key hashes and rows as ``fold_ids`` and ``split_indices`` take them."""
+    return {"key_hash": data.key_hash, "date": data.date, "price": data.price, "volume": data.volume}
 
 
 def split_indices(offsets: np.ndarray, settings, series: int, **kwargs):

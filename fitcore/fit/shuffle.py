@@ -1,47 +1,68 @@
-"""The seeded shuffle of each series' rows (SplitMix64), the same on every machine.
+"""The seeded shuffle of each series' rows (SplitMix64), the same on every machine and in any row order.
 
-Row j of a series draws splitmix64(stream + j), its stream seeded by the
-series' key hash and the seed; rows are ordered by the top 20 bits of their
-draw, then by position.  So a series' order depends only on the seed, its
-key and its rows' positions: not on the machine, nor on which other series
-share the file, the chunk or the Dask partition.
+A row's draw mixes its series' stream (the series' key hash and the seed)
+with the row itself: its date where the rows have dates (one row a date in a
+series: repeats are rejected), else its price and then its volume (their
+IEEE bits).  Rows are ordered by their draws; rows alike in what was drawn
+from (and so drawing alike) keep their order among themselves.  So a
+series' order depends only on the seed, its key and its rows' values: not
+on the machine, on which other series share the file, the chunk or the Dask
+partition, nor on the order of the rows in the file.
 """
 from __future__ import annotations
 
 import numpy as np
 
-from ..compiled import compiled
+from ..compiled import compiled, readonly
 
 
-def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int) -> np.ndarray:
-    """(N,) a seeded permutation of each series' rows, series kept contiguous.
+def row_values(date: np.ndarray | None, price: np.ndarray, volume: np.ndarray) -> list[np.ndarray]:
+    """What a row's draw is mixed from, as 64-bit words: its date, else its price and volume."""
+    if date is not None:
+        return [date.view(np.int64).view(np.uint64)]
+    return [np.ascontiguousarray(price, dtype=np.float64).view(np.uint64),
+            np.ascontiguousarray(volume, dtype=np.float64).view(np.uint64)]
 
-    Rows are ordered by the top 20 bits of their draw (``shuffle_draws``),
-    then by position; one numpy sort of packed keys does every series at once
-    (a lexsort to the same order when a series has 2²⁰ rows or more).
+
+def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int, values: list[np.ndarray]) -> np.ndarray:
+    """(N,) a seeded permutation of each series' rows, series kept contiguous, ordered by the rows' draws.
+
+    ``values``: ``row_values`` of the rows.  One numpy sort of packed keys
+    (series | the draw's top 20 bits | position) does every series at once;
+    the rare runs of equal top bits are then put in the order of the whole
+    draws (``unpack_rows``).  A lexsort gives the same order where a series
+    has 2²⁰ rows or more.
     """
     offsets = offsets.astype(np.int64)
     counts = np.diff(offsets)
     n = int(offsets[-1])
-    seed = np.uint64(int(seed) % 2 ** 64)
+    draws = row_draws(offsets, key_hash, seed, values)
     if len(counts) < 2 ** 23 and (n == 0 or counts.max() < 2 ** 20):
         packed = np.empty(n, dtype=np.int64)
-        shuffle_draws(offsets, key_hash.astype(np.uint64), seed, packed, np.empty(0, np.uint64))
+        pack_keys(readonly(offsets), readonly(draws), packed)
         packed.sort()
-        unpack_rows(packed, offsets)
+        unpack_rows(packed, readonly(offsets), readonly(draws))
         return packed
-    # Too many rows or series to pack: the same order (top 20 bits of the draw, then position) by a
-    # lexsort, so a series' folds never depend on which other series share its chunk.
-    draws = np.empty(n, dtype=np.uint64)
-    shuffle_draws(offsets, key_hash.astype(np.uint64), seed, np.empty(0, np.int64), draws)
+    # Too many rows or series to pack: the same order, so a series' folds never depend on which other
+    # series share its chunk.
     series = np.repeat(np.arange(len(counts)), counts)
-    return np.lexsort((np.arange(n) - offsets[series], draws >> np.uint64(TOP_BITS_SHIFT), series))
+    return np.lexsort((np.arange(n), draws, series))
 
 
-TOP_BITS_SHIFT = 44  # a row's shuffle key is the top 64 − 44 = 20 bits of its draw
+def row_draws(offsets: np.ndarray, key_hash: np.ndarray, seed: int, values: list[np.ndarray]) -> np.ndarray:
+    """(N,) each row's draw: splitmix64 of its series' stream mixed with each of its ``values`` in turn."""
+    draws = np.empty(int(offsets[-1]), dtype=np.uint64)
+    series_streams(readonly(offsets.astype(np.int64)), readonly(key_hash.astype(np.uint64)),
+                   np.uint64(int(seed) % 2 ** 64), draws)
+    for words in values:
+        mix_in(draws, readonly(np.ascontiguousarray(words, dtype=np.uint64)))
+    return draws
 
 
-@compiled
+TOP_BITS_SHIFT = 44  # a packed key holds the top 64 − 44 = 20 bits of its row's draw
+
+
+@compiled(inline=True)
 def _splitmix64(x):
     z = x + np.uint64(0x9E3779B97F4A7C15)
     z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
@@ -50,28 +71,47 @@ def _splitmix64(x):
 
 
 @compiled
-def unpack_rows(packed, offsets):
-    """Sorted packed keys (series | draw | j, as ``shuffle_draws`` makes them) → dataset rows, in place."""
-    for i in range(len(packed)):
-        packed[i] = offsets[packed[i] >> 40] + (packed[i] & (2 ** 20 - 1))
+def series_streams(offsets, key_hash, seed, draws):
+    """Every row of series s starts from stream_s = splitmix64(key_hash_s ^ splitmix64(seed))."""
+    salt = _splitmix64(seed)
+    for s in range(len(offsets) - 1):
+        stream = _splitmix64(key_hash[s] ^ salt)
+        for i in range(offsets[s], offsets[s + 1]):
+            draws[i] = stream
 
 
 @compiled
-def shuffle_draws(offsets, key_hash, seed, packed, draws):
-    """Row j of series s draws splitmix64(stream_s + j), stream_s = splitmix64(key_hash_s ^ splitmix64(seed)).
+def mix_in(draws, words):
+    """draw ← splitmix64(draw ^ word), row by row."""
+    for i in range(len(draws)):
+        draws[i] = _splitmix64(draws[i] ^ words[i])
 
-    Fills ``draws`` with the whole draws when it is not empty; otherwise
-    ``packed`` with series (23 bits) | the draw's top 20 bits | j (20 bits),
-    whose ascending order is the shuffled order of every series at once.
-    """
-    salt = _splitmix64(np.uint64(seed))
-    whole = len(draws) > 0
+
+@compiled
+def pack_keys(offsets, draws, packed):
+    """series (23 bits) | the draw's top 20 bits | position j (20 bits): sorted, the rows in order of
+    their draws' top bits, then position."""
     for s in range(len(offsets) - 1):
         start = offsets[s]
-        stream = _splitmix64(key_hash[s] ^ salt)
         for j in range(offsets[s + 1] - start):
-            draw = _splitmix64(stream + np.uint64(j))
-            if whole:
-                draws[start + j] = draw
-            else:
-                packed[start + j] = (s << 40) | (np.int64(draw >> np.uint64(TOP_BITS_SHIFT)) << 20) | j
+            packed[start + j] = (s << 40) | (np.int64(draws[start + j] >> np.uint64(TOP_BITS_SHIFT)) << 20) | j
+
+
+@compiled
+def unpack_rows(packed, offsets, draws):
+    """Sorted packed keys → dataset rows, in place; then each run of rows whose draws share their top
+    bits sorted by the whole draws (insertion, so rows drawing alike keep their order)."""
+    for i in range(len(packed)):
+        packed[i] = offsets[packed[i] >> 40] + (packed[i] & (2 ** 20 - 1))
+    for s in range(len(offsets) - 1):
+        for i in range(offsets[s] + 1, offsets[s + 1]):
+            row = packed[i]
+            draw = draws[row]
+            k = i
+            while k > offsets[s]:
+                before = draws[packed[k - 1]]
+                if before >> np.uint64(TOP_BITS_SHIFT) != draw >> np.uint64(TOP_BITS_SHIFT) or before <= draw:
+                    break
+                packed[k] = packed[k - 1]
+                k -= 1
+            packed[k] = row

@@ -21,13 +21,23 @@ PLAN = ["--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.cs
 
 
 def flipped(good: Path, bad: Path, column: str, at: int | None = None) -> None:
-    """``bad``: ``good`` with one bit flipped in the middle of ``column``'s first page of values (or ``at``
-    bytes into it: its page header)."""
+    """``bad``: ``good`` with one bit flipped in ``column``'s first page (``at`` bytes into it: its page header),
+    or else in its values: the first byte from the middle of the page whose flip still decompresses (a byte
+    of snappy's literals, not of its tags, which would fail to decompress without any checksum)."""
     meta = pq.ParquetFile(good).metadata.row_group(0)
     chunk = next(meta.column(i) for i in range(meta.num_columns) if meta.column(i).path_in_schema == column)
-    data = bytearray(good.read_bytes())
-    data[chunk.data_page_offset + (chunk.total_compressed_size // 2 if at is None else at)] ^= 0x40
-    bad.write_bytes(bytes(data))
+    for offset in ([at] if at is not None else range(chunk.total_compressed_size // 2, chunk.total_compressed_size)):
+        data = bytearray(good.read_bytes())
+        data[chunk.data_page_offset + offset] ^= 0x40
+        bad.write_bytes(bytes(data))
+        if at is not None:
+            return
+        try:
+            pq.read_table(bad, columns=[column.split(".")[0]])
+            return
+        except OSError:  # a tag: the page no longer decompresses
+            continue
+    raise AssertionError(f"no byte of {column}'s page flips to a page that still decompresses")
 
 
 @pytest.fixture(scope="module")

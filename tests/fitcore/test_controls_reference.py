@@ -118,10 +118,12 @@ def test_controls_constant_in_a_series_are_left_out_with_the_reason():
     assert ctl.left_out[1].tolist() == [1, 0] and ctl.left_out[2].tolist() == [0, 1]  # promo; rival
     assert not ctl.left_out[[0, 3, 4, 5]].any()
     assert ctl.coef[1, 0, 0] == 0 and ctl.coef[2, 0, 1] == 0
-    # The fit is the fit without that control: same as a dataset without the column (same key, same folds).
+    # The fit is the fit without that control: same as a dataset without the column (same key, same dates: same
+    # folds).
+    rows = slice(data.offsets[1], data.offsets[2])
     alone = fitcore.from_columns({"product": np.array([data.keys["product"][1]] * int(data.counts[1]), dtype=object)},
-                                 data.price[data.offsets[1]:data.offsets[2]], data.volume[data.offsets[1]:data.offsets[2]],
-                                 controls={"rival": data.controls["rival"][data.offsets[1]:data.offsets[2]]})
+                                 data.price[rows], data.volume[rows], date=data.date[rows],
+                                 controls={"rival": data.controls["rival"][rows]})
     np.testing.assert_allclose(fitcore.fit_batch(alone, fitcore.FitSettings(degrees=(1,), loglog=False)).cv_mse[0],
                                results.cv_mse[1], rtol=1e-9)
 

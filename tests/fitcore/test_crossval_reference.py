@@ -111,12 +111,12 @@ def test_leave_one_out_press_matches_refitting_every_row(weighted):
 
 def test_shuffled_folds_match_scikit_learn_given_the_same_assignment(shared_dataset):
     """With shuffled folds, per-fold errors equal scikit-learn's on the same index sets."""
-    from fitcore.fit.folds import split_indices
+    from fitcore.fit.folds import dataset_rows, split_indices
     settings = fitcore.FitSettings(folds=5, fold_order="shuffled", seed=3, loglog=False)
     results = fitcore.fit_batch(shared_dataset, settings)
     for s in range(0, shared_dataset.n_series, 15):
         splits = [(train - shared_dataset.offsets[s], test - shared_dataset.offsets[s])
-                  for train, test in split_indices(shared_dataset.offsets, settings, s, key_hash=shared_dataset.key_hash)]
+                  for train, test in split_indices(shared_dataset.offsets, settings, s, **dataset_rows(shared_dataset))]
         x, y = series_arrays(shared_dataset, s)
         for c, cand in enumerate(results.candidates):
             if results.available[s, c]:
@@ -138,14 +138,14 @@ def brute_force_loglog_folds(x, y, splits):
 
 @pytest.mark.parametrize("order", ["given", "shuffled"])
 def test_loglog_fold_errors_match_refitting_each_fold(shared_dataset, order):
-    from fitcore.fit.folds import split_indices
+    from fitcore.fit.folds import dataset_rows, split_indices
     settings = fitcore.FitSettings(degrees=(1,), folds=5, fold_order=order)
     results = fitcore.fit_batch(shared_dataset, settings)
     c = results.names.index("loglog")
     for s in range(0, shared_dataset.n_series, 7):
         lo = shared_dataset.offsets[s]
         splits = [(train - lo, test - lo) for train, test in
-                  split_indices(shared_dataset.offsets, settings, s, key_hash=shared_dataset.key_hash)]
+                  split_indices(shared_dataset.offsets, settings, s, **dataset_rows(shared_dataset))]
         x, y = series_arrays(shared_dataset, s)
         per_fold = brute_force_loglog_folds(x, y, splits)
         np.testing.assert_allclose(results.folds_of(s)[:, c], per_fold, rtol=1e-9)

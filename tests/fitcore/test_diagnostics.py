@@ -78,8 +78,8 @@ def test_rising():
 
 
 def test_below_zero_inside_the_range():
-    p = np.linspace(1, 3, 50)
-    v = np.maximum(0, 1000 - 350 * p) + 5 * (1 + np.sin(np.arange(50)))
+    p = np.linspace(1, 3, 80)  # at 50 points the kink's last row was influential too under some deals
+    v = np.maximum(0, 1000 - 350 * p) + 5 * (1 + np.sin(np.arange(80)))
     results, flags = run(p, v, 2.0)
     assert set(flags) == {"below-zero"}
     grid = np.linspace(1, 3, 101)

@@ -11,10 +11,12 @@ import fitcore
 PRICES = st.lists(st.floats(0.5, 50.0, allow_nan=False), min_size=8, max_size=40)
 
 
-def one_series(price, volume):
+def one_series(price, volume, dated: bool = False):
+    """One series; ``dated``: weekly dates, so its shuffled folds follow them, not its prices and volumes."""
     n = len(price)
+    date = np.datetime64("2024-01-01") + 7 * np.arange(n).astype("timedelta64[D]") if dated else None
     return fitcore.from_columns({"product": np.array(["p"] * n, dtype=object)}, np.asarray(price, float),
-                                np.asarray(volume, float))
+                                np.asarray(volume, float), date=date)
 
 
 @given(PRICES, st.integers(0, 2 ** 32 - 1), st.sampled_from([0.01, 100.0, 7.3]), st.sampled_from([1e-3, 1e3, 3.0]))
@@ -24,8 +26,9 @@ def test_choice_does_not_depend_on_units(prices, seed, price_factor, volume_fact
     price = np.round(np.array(prices), 2)
     assume(len(np.unique(price)) >= 4)
     volume = 500 * np.exp(-rng.uniform(0.1, 2) * np.log(price / price.mean())) * rng.lognormal(0, 0.2, len(price))
-    base = fitcore.fit_batch(one_series(price, volume))
-    scaled = fitcore.fit_batch(one_series(price * price_factor, volume * volume_factor))
+    # Dated: undated rows are dealt by their prices' and volumes' bits, which other units change.
+    base = fitcore.fit_batch(one_series(price, volume, dated=True))
+    scaled = fitcore.fit_batch(one_series(price * price_factor, volume * volume_factor, dated=True))
     assert scaled.chosen.tolist() == base.chosen.tolist()
     assert scaled.available.tolist() == base.available.tolist()
     ok = base.available

@@ -75,10 +75,12 @@ def decide(results_path: Path, ledger_path: Path, key: bytes | None = None) -> d
     override = (HOSTILE[0], "North")
     other = next(c["name"] for c in by_key[override]["candidates"]
                  if c["available"] and c["name"] != by_key[override]["chosen"])
+    rising = next((s["key"]["product"], s["key"]["region"]) for s in series  # accepted past its stop flag
+                  if "rising" in {f["code"] for f in s["flags"]} and s["chosen"])
     one_by_one = {
         "override": [override], "hold": [("lemons 500 g", "East")],
         "note": [("grapes 500 g", "East"), (HOSTILE[1], "North"), (HOSTILE[2], "North")],
-        "accept": [("rolled oats 1 kg", "East")]}
+        "accept": [rising]}
     book.append([entry(override, "override", other, NOTE)], ben, now=clock(day + timedelta(hours=2)))
     book.append([entry(("lemons 500 g", "East"), "hold", note="ask the buyer")], ben,
                 now=clock(day + timedelta(hours=3)))
@@ -88,7 +90,7 @@ def decide(results_path: Path, ledger_path: Path, key: bytes | None = None) -> d
                 now=clock(day + timedelta(hours=4, minutes=20)))
     book.append([entry((HOSTILE[2], "North"), "note", None, "odd name \x1b[31mred")], ana,
                 now=clock(day + timedelta(hours=4, minutes=30)))
-    book.append([entry(("rolled oats 1 kg", "East"), "accept", note="rise is a promotion week")], ana,
+    book.append([entry(rising, "accept", note="rise is a promotion week")], ana,
                 now=clock(day + timedelta(hours=5)))
     return {"override_model": other, **one_by_one}
 

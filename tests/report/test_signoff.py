@@ -17,7 +17,8 @@ from tests.conftest import random_dataset
 
 @pytest.fixture(scope="module")
 def fitted():
-    results = fitcore.fit_batch(random_dataset(5, n_series=60), plan_price=None)
+    # a seed whose series raise a few stop flags (five): the detailed set's test needs three
+    results = fitcore.fit_batch(random_dataset(48, n_series=60), plan_price=None)
     return results, diagnose(results)
 
 

@@ -30,7 +30,7 @@ async def test_the_screen_shows_the_accepted_model_and_names_the_proposal(other_
         assert names[session.model_of(s)] == "poly1"
         await pilot.pause(0.5)
         text = screen_text(app)
-        row = next(line for line in text.splitlines() if "South" in line and "obs" not in line and "✓" in line)
+        row = next(line for line in text.splitlines() if key["region"] in line and "obs" not in line and "✓" in line)
         assert re.search(rf" poly1 +\d+%  proposes {proposal} !rising", row), row
         words = " ".join(line.split("▕")[-1].strip() for line in text.splitlines())  # the evidence, unwrapped
         assert re.search(rf"Accepted poly1 \(ana .*accepted poly1 at [^)]*\), the proposal of another fit of these "
