@@ -166,10 +166,13 @@ def _show(args, keys: dict) -> int:
     first = (lambda record: products.rank(next(iter(record["key"].values())))) if products else None  # as typed first
     if args.ledger is not None:
         from .cycle_cli import show_with_ledger
-        print(show_with_ledger(picked, args.ledger, binary, header, args.results,
-                               whole=not (args.product or keys or args.flag),
-                               within=None if args.flag else lambda key: within(key, header, products, keys),
-                               first=first))
+        shown = show_with_ledger(picked, args.ledger, binary, header, args.results,
+                                 whole=not (args.product or keys or args.flag),
+                                 within=None if args.flag else lambda key: within(key, header, products, keys),
+                                 first=first, flag=args.flag)
+        if shown is None:  # the flag picked only series whose flag is left out: said why
+            return 1
+        print(shown)
     else:
         print(detail(picked[0], binary, one_label(every, picked[0]["key"])) if len(picked) == 1
               else table(picked, first))
