@@ -303,9 +303,8 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
 
     from .ledger_cli import refuse_not_a_ledger
     refuse_not_a_ledger(ledger_path)  # after the inputs' checks: a ledger that is an input is said as such
-    if not (sys.stdin.isatty() and sys.stdout.isatty()):
-        raise SettingsError("the triage screen needs a terminal (standard input and output); in scripts, "
-                            "'pricefold show' and 'pricefold ledger' read results and decisions")
+    from .terminal import require_terminal
+    require_terminal("the triage screen")
     app = triage_app(source, ledger_path, analyst, stored, prepare)
     app.run()
     if app.failure is not None:
@@ -358,6 +357,8 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
 
 def run_demo(args) -> int:
     from .demo import run_demo as demo
+    from .terminal import require_terminal
+    require_terminal("the demo, which ends in the triage screen,")  # before anything is written
     with collector_paused():
         return demo(args, open_triage)
 

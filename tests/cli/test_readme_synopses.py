@@ -32,3 +32,13 @@ def test_the_synopsis_names_every_option_the_command_takes_and_no_other(command)
     options = taken(command)
     assert named - set().union(*options) == set(), "named but refused"
     assert [sorted(o) for o in options if not o & named] == [], "taken but not named"
+
+
+def test_the_readme_says_once_how_pricefold_gets_on_path_then_writes_it_one_way():
+    """Trials found examples with bare ``pricefold …`` beside others with ``.venv/bin/pricefold …``, while the
+    setup made only ``.venv/bin/pricefold`` and nothing said how to put it on PATH."""
+    text = README.read_text()
+    said = text.index("`. .venv/bin/activate`")
+    assert said < text.index("## `pricefold fit`")  # near the top, before the first example needing it
+    rest = text[said:]
+    assert re.findall(r"\.venv/bin/(?:pricefold [a-z]|pip install)", rest) == []
