@@ -213,37 +213,30 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
 def _decided(histories: dict, keys, fingerprints) -> np.ndarray:
     """(S,) ``decided_since`` of each series of ``keys`` (a ``SeriesKeys``), asked only of the ledger's series
     whose standing decision is not a carry (a carry stands on the data it was carried to, or is stale)."""
+    mine = [h for h in histories.values() if h.current is None or h.current["action"] != "carry"]
+    return _asked(mine, decided_since, keys, fingerprints)
+
+
+def _carried(histories: dict, keys, fingerprints) -> np.ndarray:
+    """(S,) ``carried_already`` of each series of ``keys``, asked of the ledger's series standing carried."""
+    mine = [h for h in histories.values() if h.current is not None and h.current["action"] == "carry"]
+    return _asked(mine, carried_already, keys, fingerprints)
+
+
+def _asked(histories: list, ask, keys, fingerprints) -> np.ndarray:
+    """(S,) ``ask(history, fingerprint)`` for the series of ``keys`` that ``histories`` name, False elsewhere."""
     import numpy as np
 
     from fitcore.arrays import integers, objects
     out = np.zeros(len(fingerprints), dtype=bool)
-    mine = [h for h in histories.values() if h.current is None or h.current["action"] != "carry"]
-    if not mine:
+    if not histories:
         return out
-    at = keys.indices_of([h.latest["series"] for h in mine])
+    at = keys.indices_of([h.latest["series"] for h in histories])
     found = np.flatnonzero(at >= 0)
     prints = objects(fingerprints.take(integers(at[found]))).tolist() if hasattr(fingerprints, "take") else \
         [fingerprints[i] for i in at[found].tolist()]
     for i, fingerprint in zip(found.tolist(), prints):
-        out[at[i]] = decided_since(mine[i], fingerprint)
-    return out
-
-
-def _carried(histories: dict, keys, fingerprints) -> np.ndarray:
-    """(S,) ``carried_already`` of each series of ``keys`` (a ``SeriesKeys``), asked of the ledger's series whose
-    standing decision is a carry."""
-    import numpy as np
-
-    from fitcore.arrays import integers, objects
-    out = np.zeros(len(fingerprints), dtype=bool)
-    mine = [h for h in histories.values() if h.current is not None and h.current["action"] == "carry"]
-    if not mine:
-        return out
-    at = keys.indices_of([h.current["series"] for h in mine])
-    found = np.flatnonzero(at >= 0)
-    prints = objects(fingerprints.take(integers(at[found]))).tolist()
-    for i, fingerprint in zip(found.tolist(), prints):
-        out[at[i]] = mine[i].current["fingerprint"] == fingerprint
+        out[at[i]] = ask(histories[i], fingerprint)
     return out
 
 
@@ -298,8 +291,7 @@ def _carry(args) -> int:
         outcome.clear()
         for c in plan:
             history = book.histories.get(series_id(c.key))
-            current = history.current if history else None
-            if current is not None and current["action"] == "carry" and current["fingerprint"] == c.fingerprint:
+            if carried_already(history, c.fingerprint):  # by a run at the same time
                 outcome[ALREADY] += 1
             elif history is None or history.latest["digest"] != c.latest:
                 outcome["changed since the fit"] += 1

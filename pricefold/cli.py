@@ -117,7 +117,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def version() -> str:
-    """The installed package's version (its metadata), or the source's when run from a checkout not installed."""
+    """The installed package's version, from its metadata (a checkout run without installing has none)."""
     from importlib.metadata import PackageNotFoundError
     from importlib.metadata import version as installed
     try:
@@ -333,7 +333,7 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     after ``prepare()`` when given: the demo's compiling in another process).  Without a terminal, one line
     at once (a screen drawn into a pipe would wait for a key nobody can press); a session that could not be
     opened ends as one line too, after its dialog."""
-    from fitcore.errors import PricefoldError, SettingsError
+    from fitcore.errors import PricefoldError
 
     from .ledger_cli import refuse_not_a_ledger
     refuse_not_a_ledger(ledger_path)  # after the inputs' checks: a ledger that is an input is said as such

@@ -47,7 +47,7 @@ def run_demo(args, open_triage) -> int:
         raise DataError(f"cannot make the folder ({exc.strerror})", path=str(folder)) from None
     try:
         return _demo(args, open_triage, sample, shipped, ready, results_path, folder)
-    except BaseException:  # interrupted or failed before anything was written: the folders it made go too
+    except BaseException:  # interrupted or failed: the folders it made go too, where nothing was written
         remove_empty(made)
         raise
 
