@@ -391,8 +391,6 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
 
 def run_demo(args) -> int:
     from .demo import run_demo as demo
-    from .terminal import require_terminal
-    require_terminal("the demo, which ends in the triage screen,")  # before anything is written
     with collector_paused():
         return demo(args, open_triage)
 

@@ -40,6 +40,8 @@ def run_demo(args, open_triage) -> int:
         check_outputs([(results_path, "results")], inputs)
         from .ledger_cli import refuse_not_a_ledger
         refuse_not_a_ledger(folder / "ledger.jsonl")  # before the results are written: "nothing was done" is true
+    from .terminal import require_terminal
+    require_terminal("the demo, which ends in the triage screen,")  # the folder's faults said first, then this
     made = [f for f in (folder, *folder.parents) if not f.exists()]  # the folders this run makes, deepest first
     try:
         folder.mkdir(parents=True, exist_ok=True)  # the demo's own folder, as documented

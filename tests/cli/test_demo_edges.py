@@ -33,6 +33,7 @@ def test_an_interrupted_demo_removes_the_empty_folder_it_made_and_never_one_that
     def interrupted(*args, **kwargs):
         raise KeyboardInterrupt
     monkeypatch.setattr("fitcore.results.source.fit_source", interrupted)
+    monkeypatch.setattr("pricefold.terminal.require_terminal", lambda what: None, raising=False)
     folder = tmp_path / "d3" / "inner"
     if existed:
         folder.mkdir(parents=True)
