@@ -60,6 +60,14 @@ def decided_since(history, fingerprint: str) -> bool:
     return current is None or current["action"] != "carry"
 
 
+def carried_already(history, fingerprint: str) -> bool:
+    """Whether a series stands carried to these very data (``fingerprint``): an earlier run carried it, with
+    ``--carry-revised`` or without.  Counted as "carried already", never left for a human, whatever these
+    results' backtest would say of it now (a revised history left for a human by a plain run)."""
+    current = history.current if history is not None else None
+    return current is not None and current["action"] == "carry" and current["fingerprint"] == fingerprint
+
+
 def held_left(keys: list[dict], fingerprints: list, last_dates: list, histories: dict) -> Counter:
     """What ``show --ledger`` says each held series of these results is due (``keys``, ``fingerprints``,
     ``last_dates``: the series whose standing decision is a hold), in carry's count: a hold on other data is
@@ -95,8 +103,11 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
     left.update(held_left([r["key"] for r in mine], [r["fingerprint"] for r in mine],
                           [r.get("last_date") for r in mine], histories))
     for record in records:
-        bt = record.get("backtest")
-        if bt is None or decided_since(histories.get(series_id(record["key"])), record["fingerprint"]):
+        bt, history = record.get("backtest"), histories.get(series_id(record["key"]))
+        if bt is None or decided_since(history, record["fingerprint"]):
+            continue
+        if carried_already(history, record["fingerprint"]):
+            left[ALREADY] += 1
             continue
         codes = [f["code"] for f in record["flags"]]
         near = near_best(record, bt["candidate"])
@@ -150,6 +161,9 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     at = lookup.indices_of(held) if held else np.zeros(0, np.int64)
     left = held_left(*series_of(at[at >= 0]), histories)
     tested = tested[~_decided(histories, lookup, data.fingerprints)[tested]]
+    carried = _carried(histories, lookup, data.fingerprints)[tested]
+    left[ALREADY] += int(carried.sum())
+    tested = tested[~carried]
     if not len(tested):
         return [], left
     shifted, stop = diagnosis.flagged("shifted")[tested], diagnosis.n_stop()[tested] > 0
@@ -199,19 +213,30 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
 def _decided(histories: dict, keys, fingerprints) -> np.ndarray:
     """(S,) ``decided_since`` of each series of ``keys`` (a ``SeriesKeys``), asked only of the ledger's series
     whose standing decision is not a carry (a carry stands on the data it was carried to, or is stale)."""
+    mine = [h for h in histories.values() if h.current is None or h.current["action"] != "carry"]
+    return _asked(mine, decided_since, keys, fingerprints)
+
+
+def _carried(histories: dict, keys, fingerprints) -> np.ndarray:
+    """(S,) ``carried_already`` of each series of ``keys``, asked of the ledger's series standing carried."""
+    mine = [h for h in histories.values() if h.current is not None and h.current["action"] == "carry"]
+    return _asked(mine, carried_already, keys, fingerprints)
+
+
+def _asked(histories: list, ask, keys, fingerprints) -> np.ndarray:
+    """(S,) ``ask(history, fingerprint)`` for the series of ``keys`` that ``histories`` name, False elsewhere."""
     import numpy as np
 
     from fitcore.arrays import integers, objects
     out = np.zeros(len(fingerprints), dtype=bool)
-    mine = [h for h in histories.values() if h.current is None or h.current["action"] != "carry"]
-    if not mine:
+    if not histories:
         return out
-    at = keys.indices_of([h.latest["series"] for h in mine])
+    at = keys.indices_of([h.latest["series"] for h in histories])
     found = np.flatnonzero(at >= 0)
     prints = objects(fingerprints.take(integers(at[found]))).tolist() if hasattr(fingerprints, "take") else \
         [fingerprints[i] for i in at[found].tolist()]
     for i, fingerprint in zip(found.tolist(), prints):
-        out[at[i]] = decided_since(mine[i], fingerprint)
+        out[at[i]] = ask(histories[i], fingerprint)
     return out
 
 
@@ -266,9 +291,8 @@ def _carry(args) -> int:
         outcome.clear()
         for c in plan:
             history = book.histories.get(series_id(c.key))
-            current = history.current if history else None
-            if current is not None and current["action"] == "carry" and current["fingerprint"] == c.fingerprint:
-                outcome["already carried"] += 1
+            if carried_already(history, c.fingerprint):  # by a run at the same time
+                outcome[ALREADY] += 1
             elif history is None or history.latest["digest"] != c.latest:
                 outcome["changed since the fit"] += 1
             else:
@@ -283,7 +307,7 @@ def _carry(args) -> int:
     written = book.append(decide, identity(args.analyst))
     left.update(outcome)  # held series (a hold signs no curve: no backtest names it) are counted in ``left``
     if not args.quiet:
-        already = left.pop("already carried", 0)  # done by an earlier run: nothing left for anyone
+        already = left.pop(ALREADY, 0)  # done by an earlier run: nothing left for anyone
         rest = " · ".join(f"{why} {count:,}" for why, count in left.most_common() if count) or "none"
         carried = (f"carried {len(written):,} signed series to the new data → {args.ledger}" if written
                    else f"carried no series: nothing written to {args.ledger}")  # not "→ L" when L is as it was
@@ -296,6 +320,7 @@ def _carry(args) -> int:
     return 0
 
 
+ALREADY = "already carried"  # a series an earlier run carried to these data: in the summary's "(N carried already)"
 REVISED_NOTE = "history revised since signing: carried with --carry-revised"
 
 

@@ -27,12 +27,29 @@ class OneLineParser(argparse.ArgumentParser):
     def error(self, message: str):
         self.exit(2, f"{self.prog}: {message} (see {self.prog} --help)\n")
 
+    def parse_args(self, args=None, namespace=None):
+        """As argparse's, but arguments no command takes are said by the (sub)command given them, pointing at
+        its own ``--help`` (argparse said them as the top command's: ``see pricefold --help``)."""
+        parsed, extra = self.parse_known_args(args, namespace)
+        if extra:
+            self.chosen(parsed).error(f"unrecognized arguments: {' '.join(extra)}")
+        return parsed
+
+    def chosen(self, parsed) -> argparse.ArgumentParser:
+        """The innermost subcommand's parser ``parsed`` went to (``ledger carry``'s), else this one."""
+        for action in self._actions:
+            if isinstance(action, argparse._SubParsersAction) and getattr(parsed, action.dest, None) in action.choices:
+                sub = action.choices[getattr(parsed, action.dest)]
+                return sub.chosen(parsed) if isinstance(sub, OneLineParser) else sub
+        return self
+
 
 def build_parser() -> argparse.ArgumentParser:
     from .options import OneOutput, add_column_options, add_fit_options
     parser = OneLineParser(
         prog="pricefold", description="Fit and cross-validate a demand curve for every price–volume series.",
         epilog=CAUTION)
+    parser.add_argument("--version", action="version", version=f"%(prog)s {version()}")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     fit = commands.add_parser("fit", help="fit every series of a data file and write a results file",
                               description="Fit every candidate curve to every series, cross-validate, "
@@ -53,8 +70,9 @@ def build_parser() -> argparse.ArgumentParser:
                        help="local (default): this process; dask: a Dask cluster, results as a folder of parts")
     scale.add_argument("--scheduler", default=None, metavar="ADDRESS",
                        help="with --engine dask: an existing cluster's scheduler (default: start a local one)")
-    scale.add_argument("--workers", type=int, default=2, metavar="N",
-                       help="with --engine dask and no scheduler: worker processes to start (default: 2)")
+    from .fit_dask import WORKERS
+    scale.add_argument("--workers", type=int, default=None, metavar="N",
+                       help=f"with --engine dask and no scheduler: worker processes to start (default: {WORKERS})")
     scale.add_argument("--partitions", type=int, default=None, metavar="P",
                        help="with --engine dask: partitions of the series (default: 4 per worker)")
 
@@ -98,6 +116,16 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def version() -> str:
+    """The installed package's version, from its metadata (a checkout run without installing has none)."""
+    from importlib.metadata import PackageNotFoundError
+    from importlib.metadata import version as installed
+    try:
+        return installed("pricefold")
+    except PackageNotFoundError:
+        return "unknown (not installed)"
+
+
 def add_session_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--ledger", type=Path, default=None, metavar="FILE",
                         help="the sign-off ledger (default: <results or data name>.ledger.jsonl beside it)")
@@ -106,6 +134,12 @@ def add_session_options(parser: argparse.ArgumentParser) -> None:
 
 def run_fit(args) -> int:
     from .fit_run import run_fit as fit
+    dask_only = [flag for flag in ("--scheduler", "--workers", "--partitions")
+                 if getattr(args, flag[2:]) is not None]
+    if dask_only and args.engine != "dask":  # else quietly unused: this machine's engine has no workers
+        from fitcore.errors import SettingsError
+        raise SettingsError(f"{dask_only[0]} is an option of --engine dask; add --engine dask, or leave it out to "
+                            "fit on this machine")
     if getattr(args, "engine", None) == "dask":  # a cluster's long-lived client: the collector as it is
         return fit(args)
     with collector_paused():  # the numbers' work makes few cycles: 7M rows left ≈ 450 unreachable objects
@@ -166,10 +200,13 @@ def _show(args, keys: dict) -> int:
     first = (lambda record: products.rank(next(iter(record["key"].values())))) if products else None  # as typed first
     if args.ledger is not None:
         from .cycle_cli import show_with_ledger
-        print(show_with_ledger(picked, args.ledger, binary, header, args.results,
-                               whole=not (args.product or keys or args.flag),
-                               within=None if args.flag else lambda key: within(key, header, products, keys),
-                               first=first))
+        shown = show_with_ledger(picked, args.ledger, binary, header, args.results,
+                                 whole=not (args.product or keys or args.flag),
+                                 within=None if args.flag else lambda key: within(key, header, products, keys),
+                                 first=first, flag=args.flag)
+        if shown is None:  # the flag picked only series whose flag is left out: said why
+            return 1
+        print(shown)
     else:
         print(detail(picked[0], binary, one_label(every, picked[0]["key"])) if len(picked) == 1
               else table(picked, first))
@@ -296,13 +333,12 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     after ``prepare()`` when given: the demo's compiling in another process).  Without a terminal, one line
     at once (a screen drawn into a pipe would wait for a key nobody can press); a session that could not be
     opened ends as one line too, after its dialog."""
-    from fitcore.errors import PricefoldError, SettingsError
+    from fitcore.errors import PricefoldError
 
     from .ledger_cli import refuse_not_a_ledger
     refuse_not_a_ledger(ledger_path)  # after the inputs' checks: a ledger that is an input is said as such
-    if not (sys.stdin.isatty() and sys.stdout.isatty()):
-        raise SettingsError("the triage screen needs a terminal (standard input and output); in scripts, "
-                            "'pricefold show' and 'pricefold ledger' read results and decisions")
+    from .terminal import require_terminal
+    require_terminal("the triage screen")
     app = triage_app(source, ledger_path, analyst, stored, prepare)
     app.run()
     if app.failure is not None:

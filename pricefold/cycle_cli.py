@@ -107,7 +107,8 @@ def _minute(record: dict) -> str:
 
 
 def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: dict | None = None,
-                     results: Path | None = None, whole: bool = True, within=None, first=None) -> str:
+                     results: Path | None = None, whole: bool = True, within=None, first=None,
+                     flag: str | None = None) -> str | None:
     """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list.  Results
     (``header``, from the file ``results``) keyed by other columns than the ledger's series, or (``whole``:
     ``records`` are every series of the results, no filter) sharing none of them: a warning line on
@@ -117,7 +118,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     ``whole``, counts none).  Series that look like the ledger's under another spelling are marked
     (``≈North`` where the flags begin; a series in full says which it looks like) and their keys told apart from
     the ledger's spelling (``East⟨U+0020⟩``), filtered or not, as on the screen.  ``first``: a record's rank
-    ahead of the attention order (``show.in_attention_order``)."""
+    ahead of the attention order (``show.in_attention_order``).  ``flag``: ``--flag``'s code, the records
+    having been picked by the flags the results hold: those still shown keep a record (a ``shifted`` left out
+    does not); None, said why on stderr, when none does."""
     from fitcore.ledger.missing import missing_from
     from fitcore.results.series_columns import results_keys
     from fitcore.review.sentences import shift_sentence
@@ -126,6 +129,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     book = open_ledger(ledger_path, must_exist=True)
     like: dict[str, dict] = {}  # series id → the ledger series it looks like
     beside: list[tuple[str, ...]] = []  # the missing signed series' keys as shown: told apart from the list's
+    foreign = None  # "RESULTS: backtested against L, not THIS": their backtest left out
     if header is not None:
         said, tail = key_mismatch(header, book, ledger_path), "every series reads as pending"
         # the look-alikes and the missing are judged against every series of the results, not the filter's
@@ -153,6 +157,15 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             records = [without_backtest(record) for record in records]
     replaced = [superseded(record, book) for record in records]
     records = [without_backtest(record) if gone else record for record, gone in zip(records, replaced)]
+    if flag is not None:  # listed by what is shown: a flag left out above picks nothing
+        kept = [i for i, record in enumerate(records) if any(f["code"] == flag for f in record["flags"])]
+        if not kept:
+            why = ("speak of another ledger's signed curves" if foreign else
+                   "tested decisions that no longer stand")
+            print(f"pricefold show: no series listed: the '{flag}' flags of {results} {why}, and are left out "
+                  f"(fit again with --ledger {ledger_path})", file=sys.stderr)
+            return None
+        records, replaced = [records[i] for i in kept], [replaced[i] for i in kept]
     if len(records) == 1:
         record = records[0]
         status, needs = ledger_state(record, book)

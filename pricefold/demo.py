@@ -24,12 +24,9 @@ COMPILING_NOTE = ("The engine is compiling behind the screen (once after an inst
 def run_demo(args, open_triage) -> int:
     """The demo; ``open_triage``: the command line's (``pricefold.cli.open_triage``), passed in so this
     module does not import the one that imports it."""
-    from fitcore.data.config import load_config
     from fitcore.errors import DataError
     from fitcore.outputs import check_outputs
     from tui.factory import SAMPLE, sample_source
-
-    from .options import settings_file_keys
 
     folder = args.dir
     if folder.exists() and not folder.is_dir():
@@ -43,10 +40,33 @@ def run_demo(args, open_triage) -> int:
         check_outputs([(results_path, "results")], inputs)
         from .ledger_cli import refuse_not_a_ledger
         refuse_not_a_ledger(folder / "ledger.jsonl")  # before the results are written: "nothing was done" is true
+    from .terminal import require_terminal
+    require_terminal("the demo, which ends in the triage screen,")  # the folder's faults said first, then this
+    made = [f for f in (folder, *folder.parents) if not f.exists()]  # the folders this run makes, deepest first
     try:
         folder.mkdir(parents=True, exist_ok=True)  # the demo's own folder, as documented
     except OSError as exc:
         raise DataError(f"cannot make the folder ({exc.strerror})", path=str(folder)) from None
+    try:
+        return _demo(args, open_triage, sample, shipped, ready, results_path, folder)
+    except BaseException:  # interrupted or failed: the folders it made go too, where nothing was written
+        remove_empty(made)
+        raise
+
+
+def remove_empty(folders: list[Path]) -> None:
+    """Remove ``folders`` (deepest first: the ones a run made) while each is empty; never one holding a file."""
+    for folder in folders:
+        try:
+            folder.rmdir()  # refused when anything is in it
+        except OSError:
+            return
+
+
+def _demo(args, open_triage, sample, shipped: Path, ready: bool, results_path: Path, folder: Path) -> int:
+    from fitcore.data.config import load_config
+
+    from .options import settings_file_keys
     sample.units = load_config(None, settings_file_keys()).get("units", {})
     if ready:
         sample.expected_sha256 = place_shipped(shipped, results_path, sample)
@@ -76,11 +96,28 @@ def _report_hint(results_path: Path, folder: Path) -> None:
     import importlib.util
 
     from .report.command import INSTALL_HINT  # the report's own words for the extra
-    ledger = folder / "ledger.jsonl"
-    print(f"back to it: pricefold triage {results_path} --ledger {ledger}", file=sys.stderr)
+    ledger, pricefold = folder / "ledger.jsonl", typed_command()
+    print(f"back to it: {pricefold} triage {results_path} --ledger {ledger}", file=sys.stderr)
     charts = "" if importlib.util.find_spec("matplotlib") else f"; {INSTALL_HINT}"
-    print(f"report, once a decision is in the ledger: pricefold report {results_path} --ledger {ledger} "
+    print(f"report, once a decision is in the ledger: {pricefold} report {results_path} --ledger {ledger} "
           f"-o {folder}/report.html{charts}", file=sys.stderr)
+
+
+def typed_command() -> str:
+    """How to run this pricefold again from the shell it ran in: ``pricefold`` where that finds this
+    installation (an activated environment), else the command's path (``.venv/bin/pricefold``, relative to
+    the current folder when inside it), else ``python -m pricefold`` with this interpreter."""
+    import os
+    import shlex
+    import shutil
+    here = Path(sys.executable).parent / "pricefold"  # not resolved: a virtual environment's python is a link
+    if not here.is_file():
+        return f"{shlex.quote(sys.executable)} -m pricefold"
+    found = shutil.which("pricefold")
+    if found and os.path.samefile(found, here):
+        return "pricefold"
+    near = os.path.relpath(here)
+    return shlex.quote(here.as_posix() if near.startswith("..") else near)
 
 
 def place_shipped(shipped: Path, target: Path, sample) -> str:

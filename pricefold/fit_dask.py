@@ -8,6 +8,8 @@ from pathlib import Path
 
 from .summary import rejects_line, summary_line
 
+WORKERS = 2  # a local Dask cluster's worker processes unless --workers says
+
 
 def run_fit_dask(args, run) -> int:
     from fitcore.errors import SettingsError
@@ -19,7 +21,8 @@ def run_fit_dask(args, run) -> int:
     if args.output.suffix.lower() == ".json" or args.output.is_file():
         raise SettingsError(f"--engine dask writes a folder of Parquet parts: give -o a folder name, "
                             f"not {args.output.name!r}")
-    if args.workers < 1 or (args.partitions is not None and args.partitions < 1):
+    workers = WORKERS if args.workers is None else args.workers
+    if workers < 1 or (args.partitions is not None and args.partitions < 1):
         raise SettingsError("expected --workers and --partitions of at least 1")
     check_outputs([(args.output, "results-folder")], [("the data", args.data), *run.inputs])
     book = None
@@ -34,7 +37,7 @@ def run_fit_dask(args, run) -> int:
             raise ledger.LedgerError(f"{args.output}: is the ledger; choose another results name")
         book = open_ledger(args.ledger, refuse=(ledger.BROKEN,))
     started = time.perf_counter()
-    client = connect(args.scheduler, args.workers)
+    client = connect(args.scheduler, workers)
     bar = ProgressLine("fitting partitions", enabled=None if not args.quiet else False)
     try:
         total = fit_on_dask(args.data, run.columns, run.settings, run.thresholds, args.output,

@@ -14,7 +14,15 @@ from fitcore.errors import DataError
 from fitcore.fit.settings import FitSettings
 from fitcore.ledger import Identity, results_digest
 from fitcore.results.read import read_header
-from fitcore.results.source import Source, default_ledger, fit_source, is_stored, refit_stored, source_from_results
+from fitcore.results.source import (
+    Source,
+    default_ledger,
+    fit_source,
+    is_stored,
+    read_source,
+    refit_stored,
+    source_from_results,
+)
 from fitcore.results.stored import stored_results
 
 from .session import TriageSession
@@ -28,10 +36,13 @@ SAMPLE = Path(__file__).resolve().parents[1] / "sample"
 def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | None = None,
                  progress: Callable[[int, int], None] | None = None) -> TriageSession:
     from fitcore.results.write import header
-    results, diagnosis = fit_source(source, progress)
+    reading = read_source(source)
+    results, diagnosis = reading.fit(progress)
     session = TriageSession(results, diagnosis, ledger_path, who, results_digest(header(results, diagnosis)), key,
                             units=source.units)
     session.warnings.extend(source.warnings)
+    if len(reading.rejects):  # said on the header and listed under ?: no rejects file is written here
+        session.rejects = reading.rejects
     return session
 
 

@@ -65,7 +65,9 @@ def ledger_text(book, keys: str | None = None) -> Group:
     return Group(text, head)
 
 
-def help_text(book=None, keys: str | None = None) -> Group:
+def help_text(book=None, keys: str | None = None, rejected: str | None = None) -> Group:
+    """Keys, flags, marks and cautions; then the data's rejected rows (``rejected``: ``rejected_text``'s words),
+    then the ledger (``ledger_text``)."""
     flags = [(f"{'!' if severity == 'stop' else '?'} {code}", f"{severity}: {meaning}")
              for code, severity, meaning in sorted(FLAGS, key=lambda flag: flag[1] != "stop")]
     return Group(
@@ -80,4 +82,5 @@ def help_text(book=None, keys: str | None = None) -> Group:
              "results do not hold, spelled North there (case, Unicode form or spaces differ); a decision on it asks "
              "first, as it records a new series beside that one"),
         Text("\n" + CAUTIONS, style="italic"),
+        *([Text("\n" + rejected)] if rejected else []),
         *([ledger_text(book, keys)] if book is not None else []))

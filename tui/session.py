@@ -63,6 +63,7 @@ class TriageSession(Deciding, Standing, ListState):
         self.units = {k: clean(str(v)) for k, v in (units or {}).items() if v}
         self.warnings: list[str] = []
         self.unobserved: str | None = None  # why no observations will come (data file gone, changed, too large)
+        self.rejects = None  # the data's rows this session's fit rejected (``Rejects``): the header and ? say them
         data = results.data
         self.keys = SeriesKeys.of(data)  # Arrow columns: no Python object per series
         self._labels: dict[int, tuple[str, ...]] = {}

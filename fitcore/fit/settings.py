@@ -218,7 +218,7 @@ OPTIONS: tuple[Option, ...] = (
            "(default: shuffled)", _choice(FOLD_ORDERS), "fit", "--fold-order", choices=FOLD_ORDERS),
     Option("seed", _FIT, 0, "seed of the fold shuffle (default: 0)", _seed, "fit", "--seed", "N", kinds=(int,)),
     Option("rule", _FIT, "one-se", "one-se: simplest within one standard error of the best; lowest: lowest CV "
-           "error", _choice(RULES), "fit", "--rule", choices=RULES),
+           "error (default: one-se)", _choice(RULES), "fit", "--rule", choices=RULES),
     Option("season", _FIT, 0, "K sine/cosine pairs of the day of the year held fixed as controls, 0 to 4 (needs "
            "--date; default: 0)", _season, "fit", "--season", "K", kinds=(int,)),
     Option("level", _FIT, 0.95, "level of the prediction intervals", _level),

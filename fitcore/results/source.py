@@ -96,6 +96,7 @@ class Reading:
     settings: FitSettings  # with the provenance the results record
     plan: dict  # ``fit_batch``'s plan keywords for every series of ``data``
     thresholds: Thresholds
+    rejects: object = None  # ``Rejects``: the data's rows not fitted, with their lines and reasons
 
     def fit(self, progress: Callable[[int, int], None] | None = None, series=None):
         """``(results, diagnosis)`` of every series, or of ``series`` (indices into ``data``, ascending)."""
@@ -112,13 +113,13 @@ class Reading:
 
 def read_source(source: Source) -> Reading:
     """Read the source's data and plan (``DataError`` for bad input, as ``pricefold fit`` says it)."""
-    from ..data.loader import load
+    from ..data.loader import load_with_rejects
     from ..data.plan import plan_keywords
-    data = load(source.data, source.columns, sep=source.sep)
+    data, rejects = load_with_rejects(source.data, source.columns, sep=source.sep)
     plan = plan_keywords(data, source.plan_file, source.plan_price, season=source.settings.season)
     extra = provenance(source.columns.as_dict(), str(source.plan_file) if source.plan_file else None,
                        source.plan_price)
-    return Reading(data, replace(source.settings, extra=extra), plan, source.thresholds)
+    return Reading(data, replace(source.settings, extra=extra), plan, source.thresholds, rejects)
 
 
 def subset(data, series: np.ndarray):

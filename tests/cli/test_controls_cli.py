@@ -73,6 +73,18 @@ def test_the_curve_is_the_price_part_plus_the_controls_at_their_values(both):
     assert checked > 1000
 
 
+def test_the_readme_says_what_a_fit_without_controls_records_in_its_settings(both):
+    """Trials found "Without controls none of these appear" beside a plain fit's ``'season': 0``."""
+    plain, promo = (doc["settings"] for doc in both)
+    readme = " ".join((Path(__file__).parents[2] / "README.md").read_text().split())
+    assert plain["season"] == 0 and "controls" not in plain and "controls" not in plain["columns"]
+    assert promo["columns"]["controls"] == ["promo"] and "controls" in promo
+    assert "Without controls none of these appear, the settings' `season` is 0 (every fit records it)" in readme
+    example = readme[readme.index('{"schema": "pricefold-results/1", "settings": {'):]
+    shown = [name for name in plain if f'"{name}": ' in example[:example.index('"columns"')]]
+    assert shown == list(plain)[:list(plain).index("columns")]  # the example's settings, in the fit's order
+
+
 def test_price_tied_is_raised_on_the_sample_with_controls(both):
     _, promo = both
     tied = [s for s in promo["series"] if "price-tied" in codes(s)]

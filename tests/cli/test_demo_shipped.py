@@ -17,6 +17,12 @@ from pricefold import demo
 from tui.factory import SAMPLE, fit_source, sample_source
 
 
+@pytest.fixture(autouse=True)
+def a_terminal(monkeypatch):
+    """The demo refuses to start without a terminal (``pricefold.terminal``); here its screen is stubbed."""
+    monkeypatch.setattr("pricefold.terminal.require_terminal", lambda what: None)
+
+
 def test_shipped_results_equal_a_fresh_fit():
     sample = sample_source()
     fresh = demo.shipped_table(*fit_source(sample), sample)

@@ -125,3 +125,15 @@ def test_the_checksum_failure_is_said_in_plain_words():
     from fitcore.errors import first_line
     said = first_line(OSError("could not verify page integrity, CRC checksum verification failed for page_ordinal 0"))
     assert said == "a page's checksum does not match its contents: the file was damaged or changed after it was written"
+
+
+def test_the_readme_quotes_the_line_a_damaged_page_prints(files, capsys):
+    """The README quoted pyarrow's words ("could not verify page integrity, …"), which pricefold no longer prints."""
+    import re
+    from pathlib import Path
+    assert main(["show", str(files["score"])]) == 2
+    err = capsys.readouterr().err
+    said = re.search(r"cannot read it \([^)]*\)", err)
+    assert said, err
+    readme = " ".join((Path(__file__).parents[2] / "README.md").read_text().split())
+    assert f"`{said.group(0)}`" in readme, said.group(0)

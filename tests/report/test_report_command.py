@@ -161,17 +161,18 @@ def test_without_matplotlib_it_says_how_to_get_it(signed, tmp_path):
 
 
 def test_the_demo_prints_the_command_that_makes_its_report(tmp_path, monkeypatch, capsys):
-    from pricefold import cli
+    from pricefold import cli, demo
     monkeypatch.setattr(cli, "open_triage", lambda *args, **kwargs: 0)
-    folder = tmp_path / "demo"
+    monkeypatch.setattr("pricefold.terminal.require_terminal", lambda what: None)  # its screen is stubbed
+    folder, pricefold = tmp_path / "demo", demo.typed_command()  # as typed here: bare or the command's path
     assert cli.main(["demo", "--dir", str(folder)]) == 0
     said = capsys.readouterr().err.splitlines()
-    line = next(line for line in said if "pricefold report" in line)
+    line = next(line for line in said if f"{pricefold} report" in line)
     command = line.split(": ", 1)[1].split("  (")[0].split()
     again = next(line for line in said if line.startswith("back to it: "))  # the demo's own ledger, named
-    assert again.split(": ", 1)[1].split() == ["pricefold", "triage", str(folder / "results.parquet"), "--ledger",
+    assert again.split(": ", 1)[1].split() == [pricefold, "triage", str(folder / "results.parquet"), "--ledger",
                                                str(folder / "ledger.jsonl")]
-    assert command[:2] == ["pricefold", "report"]
+    assert command[:2] == [pricefold, "report"]
     assert cli.main(command[1:]) == 2  # the stubbed triage recorded nothing: no ledger yet, which report says
     (folder / "ledger.jsonl").touch()  # a ledger (empty) as a session leaves one
     assert cli.main(command[1:]) == 0

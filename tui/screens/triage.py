@@ -32,7 +32,7 @@ from ..text import clean, printable
 from ..widgets.evidence import EvidencePanel
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import keys_text, missing_text, spellings_text, status_text
+from ..widgets.status_line import keys_text, missing_text, rejected_text, spellings_text, status_text
 from .decision_flow import DecisionFlow
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 
@@ -394,7 +394,8 @@ class TriageScreen(DecisionFlow, Screen):
     def action_help(self) -> None:
         said = "\n  ".join(filter(None, (keys_text(self.session.key_columns), spellings_text(self.session),
                                          missing_text(self.session))))
-        self.open_dialog(MessageDialog(help_text(self.session.book, said or None), classes="help"))
+        self.open_dialog(MessageDialog(help_text(self.session.book, said or None, rejected_text(self.session)),
+                                       classes="help"))
 
     def action_quit(self) -> None:
         self.app.exit()

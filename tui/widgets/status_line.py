@@ -46,6 +46,9 @@ def status_text(session, width: int) -> Text:
     for said in (keys_text(session.key_columns), spellings_text(session), elsewhere_text(session)):  # whole, while true
         if said:
             text.append("\n" + said, style="bold")
+    said = rejected_short(session)
+    if said:  # rows not fitted: one line, cut, each row under ?
+        text.append("\n" + cut(said, width), style="bold")
     said = session.missing.short(session.spellings.ledger_name)
     if said:  # a note, not a warning (a team ledger may hold other ranges): one line, cut, in full under ?
         text.append("\n" + cut(f"Not in these results: {said}", width))
@@ -62,7 +65,37 @@ def missing_text(session) -> str | None:
     return f"{said}; {RENAMED}:" + "".join(f"\n    {line}" for line in session.missing.listed(HELP_LISTS))
 
 
-HELP_LISTS = 200  # the missing signed series ``?`` names, one a line (then "… and N more")
+HELP_LISTS = 200  # the missing signed series ``?`` names, one a line (then "… and N more"); the rejected rows too
+
+
+def rejected_short(session) -> str | None:
+    """'shop.csv: 5 rows rejected (not fitted; each under ?): 2 negative unit_price · …' — ``fit``'s count of the
+    rows its fit of the data rejected (``fitcore.data.validation.summary``), for the header: where to look
+    first, as the line is cut at the screen's width."""
+    rejects = session.rejects
+    if rejects is None:
+        return None
+    from fitcore.data.validation import summary
+    count, _, reasons = printable(summary(rejects.reasons)).partition(": ")
+    return f"{clean(rejects.path.name)}: {count} (not fitted; each under ?): {reasons}"
+
+
+def rejected_text(session) -> str | None:
+    """The header's line, then each rejected row's line and reason (``HELP_LISTS`` at most), for ``?``: triage
+    writes no rejects file; ``pricefold fit`` with the same options and ``-o OUT`` writes them beside OUT."""
+    rejects = session.rejects
+    if rejects is None:
+        return None
+    from fitcore.data.validation import summary
+    read = session.results.data.source.get("rows") or 0
+    most = (f"; that is {len(rejects):,} of the {read:,} rows read: check the delimiter (--sep), the columns and "
+            "the decimal mark") if 2 * len(rejects) > read else ""
+    rows = [f"\n    {'line' if rejects.kind != 'parquet' else 'row'} {int(line):,}: {printable(str(why))}"
+            for line, why in zip(rejects.lines[:HELP_LISTS].tolist(), rejects.reasons[:HELP_LISTS])]
+    more = f"\n    … and {len(rejects) - HELP_LISTS:,} more" if len(rejects) > HELP_LISTS else ""
+    return (f"Rejected rows of {clean(str(rejects.path))}: {printable(summary(rejects.reasons))}{most}. They are "
+            "not fitted; this screen writes no rejects file ('pricefold fit' with the same options and -o OUT "
+            "writes each row, as in the data, to OUT's rejects file):" + "".join(rows) + more)
 
 
 def keys_text(key_columns) -> str | None:

@@ -1,0 +1,44 @@
+"""A series already carried to these data (by ``--carry-revised`` or a plain carry) is "carried already" to
+every later ``ledger carry``, never "left for a human" (trials found a plain carry after ``--carry-revised``
+counting the revised series as left, while ``show --ledger`` said it stood accepted (carried))."""
+from __future__ import annotations
+
+import csv
+from datetime import date, timedelta
+
+import pytest
+
+from pricefold.cli import main
+from tests.cli.test_cycle import MOVER, fit, histories, write_weeks
+
+
+@pytest.mark.parametrize("suffix", [".json", ".parquet"])
+def test_a_series_carried_over_a_revised_history_counts_as_carried_already(tmp_path, capsys, suffix):
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    signed = len(histories(book))
+    write_weeks(tmp_path / "c2.csv", 44)
+    with open(tmp_path / "c2.csv", newline="") as handle:
+        header, *rows = list(csv.reader(handle))
+    for row in rows:  # the mover's signed weeks a day later: its history is revised, still fitting
+        if row[0] == MOVER and row[1] <= "2025-10-06":
+            row[1] = (date.fromisoformat(row[1]) + timedelta(days=1)).isoformat()
+    with open(tmp_path / "redated.csv", "w", newline="") as handle:
+        csv.writer(handle).writerows([header, *rows])
+    results = tmp_path / f"r2{suffix}"
+    assert main(["fit", str(tmp_path / "redated.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
+                 "--no-loglog", "-o", str(results), "--quiet", "--ledger", str(book)]) == 0
+    capsys.readouterr()
+    assert main(["ledger", "carry", str(results), "--ledger", str(book), "--carry-revised"]) == 0
+    err = capsys.readouterr().err
+    assert f"carried {signed} signed series" in err and "1 of them over a revised history" in err, err
+    assert histories(book)[MOVER].current["action"] == "carry"
+    for extra in ([], ["--carry-revised"]):  # again, with the option or without: nothing left for anyone
+        assert main(["ledger", "carry", str(results), "--ledger", str(book), *extra]) == 0
+        err = capsys.readouterr().err
+        assert f"carried no series: nothing written to {book} ({signed} carried already)" in err, (extra, err)
+        assert "left for a human: 0 (none)" in err, (extra, err)
+    assert main(["show", str(results), "--ledger", str(book), "--product", MOVER]) == 0
+    assert "ledger: accepted (carried)" in capsys.readouterr().out
