@@ -142,7 +142,8 @@ def _controlled_covariances(results: Results, block: np.ndarray):
         half = np.repeat(results.basis_half[block, cols.start], np.diff(local))
         t = np.ascontiguousarray((x - mid) / np.where(half > 0, half, 1.0))
         packed = np.empty((n, (q + 1) * (q + 2) // 2))
-        design_moments(t, np.zeros(len(t)), z, weight, len(weight) > 0, local, p, m + 1, packed, np.zeros(q + 1))
+        design_moments(readonly(t), readonly(np.zeros(len(t))), readonly(z), readonly(weight), len(weight) > 0,
+                       readonly(local), p, m + 1, packed, np.zeros(q + 1))
         lower, inverse = np.zeros((q, q, n)), np.zeros((q, q, n))
         scale, recip, good = np.zeros((q, n)), np.ones((q, n)), np.zeros((q, n), dtype=np.bool_)
         factor_gram(np.ascontiguousarray(packed.T), q, m + 1, lower, scale, good, np.zeros((q, n)), recip, inverse,
