@@ -119,30 +119,28 @@ def _controlled_covariances(results: Results, block: np.ndarray):
     controls included) and M taking the k powers u of t to [1, z₀…, t, …], z₀ the plan's centred control
     values (0 where left out), so uᵀ·cov·u is the full design's leverage at the plan's controls, as at
     the plan price (``stages.at_plan``); written as ‖(L⁻¹D·M)u‖²."""
+    from ..fit.basis import mapped
     from ..fit.controlled import design_moments
-    from ..fit.controls import KEPT, centre
+    from ..fit.controls import KEPT, chunk_controls
     from ..fit.gram_lanes import factor_gram
     from .control_evidence import control_values
     data, ctl, sizes = results.data, results.controls, results.lineup.complexity
     price, weight, local = _block_rows(results.data, block)
-    rows = rows_of(data.offsets, block)
     m, n = len(ctl.names), len(block)
-    z, mean = np.empty((m, len(rows))), np.zeros((n, m))
-    centre(readonly(np.ascontiguousarray(control_values(results, rows))), readonly(weight), readonly(local), z,
-           mean, np.zeros((n, m), np.int8), np.full((n, m), -1, np.int64), np.zeros((n, m)))
+    rows = chunk_controls(control_values(results, rows_of(data.offsets, block)), weight if len(weight) else None,
+                          local, np.full((n, m), np.nan))  # centred as the engine centres them
     kept = np.asarray(ctl.left_out)[block] == KEPT
-    offset = np.where(kept, np.asarray(ctl.plan, dtype=float)[block] - mean, 0.0)  # (n, m)
+    offset = np.where(kept, np.asarray(ctl.plan, dtype=float)[block] - rows.mean, 0.0)  # (n, m)
     for family, cols in results.lineup.groups:
         p = int(sizes[cols].max())
         q = 1 + m + p - 1
         with np.errstate(divide="ignore", invalid="ignore"):
             x = np.asarray(family.x(price), dtype=np.float64)
         # Every candidate of a family shares its window (mid, half).
-        mid = np.repeat(results.basis_mid[block, cols.start], np.diff(local))
-        half = np.repeat(results.basis_half[block, cols.start], np.diff(local))
-        t = np.ascontiguousarray((x - mid) / np.where(half > 0, half, 1.0))
+        t = mapped(x, np.repeat(results.basis_mid[block, cols.start], np.diff(local)),
+                   np.repeat(results.basis_half[block, cols.start], np.diff(local)))
         packed = np.empty((n, (q + 1) * (q + 2) // 2))
-        design_moments(readonly(t), readonly(np.zeros(len(t))), readonly(z), readonly(weight), len(weight) > 0,
+        design_moments(readonly(t), readonly(np.zeros(len(t))), readonly(rows.z), readonly(weight), len(weight) > 0,
                        readonly(local), p, m + 1, packed, np.zeros(q + 1))
         lower, inverse = np.zeros((q, q, n)), np.zeros((q, q, n))
         scale, recip, good = np.zeros((q, n)), np.ones((q, n)), np.zeros((q, n), dtype=np.bool_)
