@@ -89,8 +89,8 @@ def held_keys(histories: dict) -> list[dict]:
 
 
 def plan_from_records(records, level: float, controls: list[str] | None = None,
-                      overrides: frozenset = frozenset(), histories: dict | None = None, revised_ok: bool = False
-                      ) -> tuple[list[Carryable], Counter]:
+                      overrides: frozenset = frozenset(), histories: dict | None = None, revised_ok: bool = False,
+                      cov_known: bool = True) -> tuple[list[Carryable], Counter]:
     """Which series may be carried, from results records (JSON; small runs), and why the others may not
     (``newer_first``, ``left_for_human``, ``held_left``; ``overrides``: the digests of the ledger's overrides;
     ``histories``: the ledger's; ``revised_ok``: ``--carry-revised``)."""
@@ -120,7 +120,7 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
         else:
             keep.append((record, Carryable(record["key"], record["fingerprint"], record["chosen"], codes, bt["latest"],
                                            bt["candidate"], bt["carries"], near, revised=bool(bt.get("revised")))))
-    signed = from_records([(record, c.candidate) for record, c in keep], level, controls)
+    signed = from_records([(record, c.candidate) for record, c in keep], level, controls, cov_known)
     for (_, c), snapshot in zip(keep, signed):
         c.snapshot = snapshot
     return [c for _, c in keep], left
@@ -275,9 +275,10 @@ def _carry(args) -> int:
         plan, left = plan_from_stored(args.results, overrides, book.histories, args.carry_revised)
     else:
         from fitcore.ledger.snapshot import header_terms  # numpy and the families: not for every --help
+        from fitcore.results.control_fields import cov_known
         plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95),
                                        header_terms(header["settings"]), overrides, book.histories,
-                                       args.carry_revised)
+                                       args.carry_revised, cov_known(header["settings"]))
     read = str(source.get("head", ""))
     witness = parse_head(read)
     if witness is None or not book.holds(*witness):

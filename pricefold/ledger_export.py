@@ -71,6 +71,7 @@ def run_export(args) -> int:
     rows: list[list] = []
     later: list[tuple] = []  # (row, key, snapshot, price, the results' numbers): signed curves at another price
     from fitcore.ledger.reader import collector_paused
+    from fitcore.ledger.snapshot import signed_plan
     with collector_paused():  # a few small objects a series and no cycles among them
         series = _by_columns(ahead, book) if parts is None else _by_records(parts, book)
         for key, fingerprint, chosen, plan, history, cand in series:
@@ -94,11 +95,11 @@ def run_export(args) -> int:
                 if said:
                     raise refusal(args.results, key, *said)
                 family, coef, _, smearing = signed_columns(current)
-                signed_plan = snapshot.get("plan") or {}
+                signed = signed_plan(snapshot)
                 if plan.get("price") is None:
                     at_plan = {}
-                elif signed_plan.get("price") == plan["price"]:
-                    at_plan = signed_plan
+                elif signed.get("price") == plan["price"]:
+                    at_plan = signed
                 else:  # the same data planned at another price: the signed curve there (filled in below; a
                     # snapshot without its curve's basis cannot say: the plan numbers stay empty)
                     if (snapshot.get("basis") or {}).get("coef"):
@@ -272,11 +273,12 @@ def signed_columns(decision: dict) -> tuple[str, str, dict, float | None]:
     """``(family, coef, plan, smearing)`` of a decision standing on other data, from its ``signed`` snapshot
     (plan: price, volume, lo, hi as signed; smearing: Duan's factor of a log family, else None); empty when it
     has none (a ``/1`` record, a hold)."""
+    from fitcore.ledger.snapshot import signed_plan
     snapshot = decision.get("signed") or {}
     if not snapshot:
         return "", "", {}, None
     coef = json.dumps(snapshot["coef"]) if snapshot.get("coef") else ""
-    return snapshot.get("family") or "", coef, snapshot.get("plan") or {}, snapshot.get("smearing") if coef else None
+    return snapshot.get("family") or "", coef, signed_plan(snapshot), snapshot.get("smearing") if coef else None
 
 
 # How closely the results must agree with a decision's ``signed`` snapshot when both are of the same data: the

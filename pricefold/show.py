@@ -247,8 +247,10 @@ def control_lines(record: dict, binary=()) -> list[str]:
         return []
     held = ", ".join(f"{name} {fmt(v) if v is not None else '—'}" for name, v in values.items()
                      if not name.startswith("season_"))
-    if any(name.startswith("season_") for name in values):
-        held += (", " if held else "") + "the season at the plan date (or its average over the year)"
+    season = [v for name, v in values.items() if name.startswith("season_")]
+    if season:  # every term 0 only at the year's average: a date's sin and cos are never both 0
+        held += (", " if held else "") + ("the season's average over the year (no plan date given)"
+                                          if not any(season) else "the season at the plan date")
     out = ["", f"controls held at the plan's values: {held}"]
     chosen = next((c for c in record["candidates"] if c["name"] == record["chosen"]), None)
     if chosen and chosen.get("controls"):

@@ -26,7 +26,7 @@ LANE_TARGET = 512
 
 
 @compiled
-def _design_moments(x, y, z, w, weighted, bounds, p, n_nuis, out, v):
+def design_moments(x, y, z, w, weighted, bounds, p, n_nuis, out, v):
     """Per block b of one series: ``out[b]`` = Σw·vᵢ·vⱼ (j ≤ i, packed as ``gram_lanes.tri``) over its
     rows, v = [1, z₀…, x, x², …, x^(p−1), y]; ``v`` is scratch (≥ n_nuis + p)."""
     m = n_nuis - 1
@@ -169,7 +169,7 @@ def controlled_fit(x, y, z, w, bounds, held_out, cumulative, degrees, p, coef, g
         count = min(group, n_series - s0)
         for qq in range(count):
             s = s0 + qq
-            _design_moments(x, y, z, w, weighted, bounds[s], p, n_nuis, blk[qq], v)
+            design_moments(x, y, z, w, weighted, bounds[s], p, n_nuis, blk[qq], v)
             total_yy[qq] = _block_total(blk[qq], at_yy)
             first = qq * n_fits
             _fit_sums(blk[qq], held_out, cumulative, first, train, held)

@@ -8,9 +8,12 @@ plan price.  Built for many series at once (``snapshots``), from ``Results`` (``
 or from results records in the JSON layout (``from_records``).  Pure: arrays in, dicts out.
 
 A decision taken where the interval parts are not known (results read back from a file written
-before they were stored, before the rows arrived) records ``null`` for them and says so in
+before they were stored, before the rows arrived, or with controls before ``cov_unscaled`` was the
+full design's at the plan's control values) records ``null`` for them and says so in
 ``incomplete``; such a snapshot is never taken for complete (the backtest then tests the curve
-but not its band).
+but not its band).  With controls a snapshot says ``cov_at_plan_controls``: one signed without it
+(before then) holds the price columns' own matrix, and its readers take it for incomplete
+(``interval_cov``).
 """
 from __future__ import annotations
 
@@ -23,7 +26,26 @@ from ..fit.results import Results
 from ..review.intervals import covariances, last_dates
 
 INCOMPLETE = ("the interval parts (cov_unscaled, sigma2, df) were not known when this was signed "
-              "(results read without their rows or written before they were stored)")
+              "(results read without their rows, written before they were stored, or with controls written "
+              "before cov_unscaled held them at the plan's values)")
+
+
+def _old_controls(snapshot: dict) -> bool:
+    """Signed with controls before ``cov_unscaled`` held them at the plan's values: the price columns' own
+    matrix, and intervals from it too narrow."""
+    return bool(snapshot.get("controls")) and not snapshot.get("cov_at_plan_controls")
+
+
+def interval_cov(snapshot: dict):
+    """A signed snapshot's ``cov_unscaled`` where it can be used (None: ``_old_controls``, or none recorded)."""
+    return None if _old_controls(snapshot) else snapshot.get("cov_unscaled")
+
+
+def signed_plan(snapshot: dict) -> dict:
+    """A signed snapshot's plan numbers ({} without), its interval none where it came from an unusable
+    matrix (``_old_controls``): an interval not known rather than a wrong one."""
+    plan = snapshot.get("plan") if isinstance(snapshot.get("plan"), dict) else {}
+    return {**plan, "lo": None, "hi": None} if plan and _old_controls(snapshot) else plan
 
 
 def _nums(values) -> list:
@@ -72,7 +94,7 @@ def at_prices(snaps: list[dict], prices, level: float) -> list[dict]:
             BY_NAME[family], np.array([sn["basis"]["coef"] for sn in group], dtype=float),
             column(lambda sn: sn["basis"]["mid"]), column(lambda sn: sn["basis"]["half"]),
             column(lambda sn: sn.get("smearing")),
-            np.array([sn.get("cov_unscaled") or nan_cov for sn in group], dtype=float),
+            np.array([interval_cov(sn) or nan_cov for sn in group], dtype=float),
             column(lambda sn: sn.get("sigma2")), column(lambda sn: sn.get("df"), 1).astype(np.int64),
             np.asarray(prices, dtype=float)[at], level if signed_level is None else signed_level)
         for j, i in enumerate(at):
@@ -90,13 +112,15 @@ def signed_curve(snapshot: dict, price) -> np.ndarray:
 
 
 def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, cov, sigma2, df, n, lo, hi,
-              last_date, plan_price, cv_mse, controls: list[str] | None = None) -> list[dict]:
+              last_date, plan_price, cv_mse, controls: list[str] | None = None, cov_known: bool = True
+              ) -> list[dict]:
     """The ``signed`` objects of n series for candidate ``name`` of ``family``: arrays (n,) and
-    ``coef`` (n, k), ``cov`` (n, k, k); ``last_date`` a list of "YYYY-MM-DD" or None."""
+    ``coef`` (n, k), ``cov`` (n, k, k); ``last_date`` a list of "YYYY-MM-DD" or None; ``cov_known``
+    False: ``cov`` is not to be used (results with controls written before it was at the plan's values)."""
     fam = BY_NAME[family]
     coef = np.asarray(coef, dtype=float).reshape(len(mid), -1)
     k = coef.shape[1]
-    cov = np.asarray(cov, dtype=float).reshape(len(mid), k, k)
+    cov = np.asarray(cov, dtype=float).reshape(len(mid), k, k) if cov_known else np.full((len(mid), k, k), np.nan)
     sigma2, df = np.asarray(sigma2, dtype=float), np.asarray(df, dtype=float)
     complete = np.isfinite(cov).all(axis=(1, 2)) & np.isfinite(sigma2) & np.isfinite(df)
     plain = fam.plain(coef, mid, half)
@@ -128,6 +152,8 @@ def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, c
             "n": count, "price_range": [low, high], "last_date": last,
             "plan": {"price": pp, "volume": vol, "lo": plo, "hi": phi, "elasticity": el} if has_plan else None,
             "cv_mse": mse, "controls": controls}
+        if controls and whole:
+            snapshot["cov_at_plan_controls"] = True
         if not whole:
             snapshot["incomplete"] = INCOMPLETE
         out.append(snapshot)
@@ -179,10 +205,11 @@ def header_terms(settings: dict) -> list[str] | None:
     return list((settings.get("controls") or {}).get("terms") or []) or None
 
 
-def from_records(pairs: list[tuple[dict, str]], level: float, controls: list[str] | None = None) -> list[dict]:
+def from_records(pairs: list[tuple[dict, str]], level: float, controls: list[str] | None = None,
+                 cov_known: bool = True) -> list[dict]:
     """Snapshots of candidate ``name`` of each results ``record`` (the JSON layout, as ``read_results``
     gives it), in order; each candidate's ``basis``, ``cov_unscaled``, ``sigma2`` and ``df`` as the
-    results hold them (missing: an incomplete snapshot)."""
+    results hold them (missing, or not ``cov_known``: an incomplete snapshot)."""
     out: list[dict | None] = [None] * len(pairs)
     groups: dict[str, list[int]] = {}
     for i, (record, name) in enumerate(pairs):
@@ -205,7 +232,7 @@ def from_records(pairs: list[tuple[dict, str]], level: float, controls: list[str
             hi=np.array([r["price_range"][1] for r in records], dtype=float),
             last_date=[r.get("last_date") for r in records],
             plan_price=np.array([(r.get("plan") or {}).get("price") for r in records], dtype=float),
-            cv_mse=np.array([c["cv_mse"] for c in cands], dtype=float), controls=controls)
+            cv_mse=np.array([c["cv_mse"] for c in cands], dtype=float), controls=controls, cov_known=cov_known)
         for i, snapshot in zip(members, made):
             out[i] = snapshot
     return out

@@ -11,6 +11,8 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
+from .snapshot import interval_cov, signed_plan
+
 DECISIONS = ("accept", "override", "carry")
 WIDTH = 6  # the widest candidate's coefficients (poly5); signed curves are padded to it
 
@@ -89,11 +91,11 @@ def _standing_of(histories: dict) -> Standing:
             mine = np.flatnonzero(size[at] == k)
             group = [signed[i] for i in mine.tolist()]
             coef[at[mine], :k] = np.array([s["basis"]["coef"] for s in group], dtype=float)
-            covs = [s.get("cov_unscaled") for s in group]
+            covs = [interval_cov(s) for s in group]
             whole = np.array([c is not None for c in covs], dtype=bool)
             if whole.any():
                 cov[at[mine[whole]], :k, :k] = np.array([c for c in covs if c is not None], dtype=float)
-    plans = [s.get("plan") if isinstance(s.get("plan"), dict) else {} for s in signed]
+    plans = [signed_plan(s) for s in signed]
     numbers = np.array([(s["basis"]["mid"], s["basis"]["half"], s.get("smearing"), s.get("sigma2"), s.get("df"),
                          s.get("level", 0.95), s.get("cv_mse"), p.get("price"), p.get("volume"), p.get("lo"),
                          p.get("hi")) for s, p in zip(signed, plans)], dtype=float).reshape(-1, 11)

@@ -34,13 +34,24 @@ def _num(value) -> float | None:
     return value if math.isfinite(value) else None
 
 
+# What a controlled fit's ``cov_unscaled`` is (the header says so): results written before it was this hold
+# the price columns' own (XᵀWX)⁻¹, too narrow away from the plan price, and are read as holding none.
+COV_AT_PLAN = "the full design's, at the plan's control values"
+
+
+def cov_known(settings: dict) -> bool:
+    """Whether a results header's ``cov_unscaled`` can be used: without controls, or marked ``COV_AT_PLAN``."""
+    controls = settings.get("controls")
+    return not controls or controls.get("cov_unscaled") == COV_AT_PLAN
+
+
 def header_settings(results: Results) -> dict:
     """``settings.controls`` of the header: the terms, the 0/1 ones, the season pairs, the plan values' defaults."""
     ctl = results.controls
     columns = ctl.names[:len(ctl.names) - 2 * ctl.season]
     spec = ControlSpec(columns, ctl.binary[:len(columns)], ctl.season)
     return {"terms": list(ctl.names), "binary": [n for n, b in zip(ctl.names, ctl.binary) if b],
-            "season": ctl.season, "plan_values": spec.defaults()}
+            "season": ctl.season, "plan_values": spec.defaults(), "cov_unscaled": COV_AT_PLAN}
 
 
 def candidate_controls(ctl: ControlResults, s: int, c: int, available: bool) -> dict | None:

@@ -26,7 +26,7 @@ from ..fit.results import Results
 from ..fit.settings import settings_from_dict
 from ..review.flags import CODES, SEVERITY, Diagnosis
 from ..review.thresholds import Thresholds
-from .control_fields import CONTROL_COLUMNS, stored_controls
+from .control_fields import CONTROL_COLUMNS, cov_known, stored_controls
 from .later import LaterColumns, Waiting
 from .read import CYCLE_COLUMNS, read_header, result_parts
 from .series_columns import check_candidate_rows
@@ -243,7 +243,8 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         fold_lists=column("fold_mse"), stored_score=series_values("score").astype(float, copy=False),
         controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late)
     if cycle:
-        results = _with_cycle_fields(results, read_now, n_s, n_c, lineup.width, column if late is not None else None)
+        results = _with_cycle_fields(results, read_now, n_s, n_c, lineup.width, column if late is not None else None,
+                                     cov_known(meta["settings"]))
     thresholds = Thresholds(**settings.extra.get("thresholds", {}))
     raised, flag_texts = raised_flags(table, n_s, n_c, path)
     return results, StoredDiagnosis(results, thresholds, raised, {}, flag_texts)
@@ -272,8 +273,10 @@ def _optional(readers, parts, leave_out=()):
     return pa.concat_tables(tables) if len(tables) > 1 else tables[0]
 
 
-def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width: int, column=None) -> StoredResults:
-    """The cycle fields from ``table``; ``column(name)``, when given, for the ones read later."""
+def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width: int, column=None,
+                       cov_ok: bool = True) -> StoredResults:
+    """The cycle fields from ``table``; ``column(name)``, when given, for the ones read later; the covariances
+    none where not ``cov_ok`` (``control_fields.cov_known``)."""
     from dataclasses import replace
 
     import pyarrow as pa
@@ -288,7 +291,7 @@ def _with_cycle_fields(results: StoredResults, table, n_s: int, n_c: int, width:
                     for name in table.column_names if name.startswith("backtest_")}
     return replace(results, sigma2=CellColumn(column("sigma2"), n_s, n_c), stored_backtest=backtest,
                    df=CellColumn(column("df"), n_s, n_c),
-                   stored_cov=StoredCovariances(column("cov_unscaled"), n_c,
-                                                [c.complexity for c in results.candidates], width),
+                   stored_cov=StoredCovariances(column("cov_unscaled"), n_c, [c.complexity for c in results.candidates],
+                                                width) if cov_ok else None,
                    stored_last_date=last_date)
 

@@ -267,13 +267,16 @@ def _json_strings(texts):
 
 
 def _with_rows_needed(results: Results) -> Results:
-    """``results`` with only the rows the slices still read (prices, weights; volumes, line numbers, dates
-    and controls are in the texts and values made already): a caller that drops its own ``results`` and
-    dataset frees the rest before the table is built (7M rows: 112 MiB of volumes and line numbers)."""
+    """``results`` with only the rows the slices still read (prices, weights, and with controls their values
+    and the dates, for the covariances; volumes and line numbers are in the texts and values made already): a
+    caller that drops its own ``results`` and dataset frees the rest before the table is built (7M rows:
+    112 MiB of volumes and line numbers)."""
     from dataclasses import replace
     data = results.data
     if not data.n_rows:
         return results
+    if results.controls is not None:
+        return replace(results, data=replace(data, volume=data.volume[:0], line=None))
     return replace(results, data=replace(data, volume=data.volume[:0], date=None, line=None, controls={}))
 
 

@@ -20,14 +20,19 @@ from ..fit.results import Results
 
 def control_rows(results: Results, s: int) -> np.ndarray:
     """(M, n) the series' rows' value of every control term (dataset order)."""
+    return control_values(results, slice(results.data.offsets[s], results.data.offsets[s + 1]))
+
+
+def control_values(results: Results, rows) -> np.ndarray:
+    """(M, n) every control term at dataset ``rows`` (a slice or an index array)."""
     data, ctl = results.data, results.controls
-    rows = slice(data.offsets[s], data.offsets[s + 1])
     columns = ctl.names[:len(ctl.names) - 2 * ctl.season]
-    out = np.empty((len(ctl.names), rows.stop - rows.start))
+    date = data.date[rows] if ctl.season else None
+    out = np.empty((len(ctl.names), len(data.price[rows])))
     for j, name in enumerate(columns):
         out[j] = data.controls[name][rows]
     if ctl.season:
-        season_terms(data.date[rows], ctl.season, out[len(columns):])
+        season_terms(date, ctl.season, out[len(columns):])
     return out
 
 

@@ -205,30 +205,35 @@ def plan_gaps(results: Results) -> np.ndarray:
 
 
 def control_ranges(results: Results, series: np.ndarray | None = None):
-    """(S, M) each control column's lowest and highest value in each series, and (S, M) bool: the plan's
-    value lies outside them (a curve held there is an extrapolation in that control).  Season terms
-    are not judged (every date of a year is a value they take).  M = 0 without controls or rows.
+    """(S, M) each control term's lowest and highest value in each series — the columns, then the season
+    terms of its rows' dates — and (S, M) bool: the plan's value lies outside them (a curve held there is
+    an extrapolation in that control; for the season terms, at a time of year — the plan date's, or the
+    year's average without one — the series' weeks did not reach).  M = 0 without controls or rows.
     ``series`` (indices): those series only, S = len(series) (one candidate's checks; ``diagnose`` keeps
     every series' answer: ``Diagnosis.controls_outside``)."""
+    from ..fit.controls import season_terms
     from .intervals import rows_of
     data, ctl = results.data, results.controls
-    columns = [] if ctl is None else [name for name in ctl.names if name in data.controls]
     offsets = data.offsets.astype(np.int64)
+    columns = [] if ctl is None else [name for name in ctl.names if name in data.controls]
+    dated = ctl is not None and data.date is not None and len(data.date) == offsets[-1]
+    season = ctl.season if dated and len(columns) == len(ctl.names) - 2 * ctl.season else 0  # the terms in order
     whole = series is None
     series = np.arange(results.n_series) if whole else np.asarray(series, dtype=np.int64)
-    lo, hi = np.full((len(series), len(columns)), np.nan), np.full((len(series), len(columns)), np.nan)
+    lo, hi = (np.full((len(series), len(columns) + 2 * season), np.nan) for _ in range(2))
     counts = offsets[series + 1] - offsets[series]
     filled = counts > 0
     starts = (np.cumsum(counts) - counts)[filled]
-    for j, name in enumerate(columns):
-        values = np.asarray(data.controls[name], dtype=float)
-        if len(values) != offsets[-1] or not len(starts):
-            continue
-        if not whole:
-            values = values[rows_of(offsets, series)]
-        lo[filled, j] = np.minimum.reduceat(values, starts)
-        hi[filled, j] = np.maximum.reduceat(values, starts)
-    at = np.asarray(ctl.plan, dtype=float)[series, :len(columns)] if columns else lo
+    if len(starts):
+        rows = slice(None) if whole else rows_of(offsets, series)
+        terms = [np.asarray(data.controls[name], dtype=float) for name in columns]
+        terms = [values[rows] if len(values) == offsets[-1] else None for values in terms]  # None: not these rows
+        terms.extend(season_terms(data.date[rows], season) if season else ())
+        for j, values in enumerate(terms):
+            if values is not None:
+                lo[filled, j] = np.minimum.reduceat(values, starts)
+                hi[filled, j] = np.maximum.reduceat(values, starts)
+    at = np.asarray(ctl.plan, dtype=float)[series, :lo.shape[1]] if lo.shape[1] else lo
     with np.errstate(invalid="ignore"):
         outside = (at < lo) | (at > hi)
     return lo, hi, outside

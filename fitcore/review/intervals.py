@@ -6,8 +6,10 @@ the unscaled covariance (XᵀWX)⁻¹ of its coefficients in its own basis, its 
 rows (each family's weighted power sums Σw·tᵏ in one compiled pass, factored as the engine
 factors its fits: ``lanes.factor``), or reads it where results were stored with it
 (``StoredResults``); ``candidate_covariances`` gives a block's candidate by candidate, (n, k, k)
-each, for the Parquet column to take without a padded copy.  ``last_dates`` gives each series'
-last date.  Checked against statsmodels' ``normalized_cov_params`` in
+each, for the Parquet column to take without a padded copy.  With controls, the matrix of the curve at
+the plan's control values (``Results.coef`` holds it there): Mᵀ·C·M from the full design's C, so its
+interval at any price is the one the engine gives at the plan price (``_controlled_covariances``).
+``last_dates`` gives each series' last date.  Checked against statsmodels' ``normalized_cov_params`` in
 ``tests/fitcore/test_snapshot.py``.
 """
 from __future__ import annotations
@@ -86,6 +88,9 @@ def candidate_covariances(results: Results, block: np.ndarray):
         for c in range(len(results.candidates)):
             yield c, cells[:, c, :sizes[c], :sizes[c]]
         return
+    if getattr(results, "controls", None) is not None:
+        yield from _controlled_covariances(results, block)
+        return
     price, weight, local = _block_rows(results.data, block)
     regressors = {}  # each family's regressor at the block's rows, computed once for the block
     for family, cols in results.lineup.groups:
@@ -106,6 +111,49 @@ def candidate_covariances(results: Results, block: np.ndarray):
             lead = inv[:, :k, :k] * d[:, None, :k]  # L⁻¹·D on the leading k columns
             cov = np.einsum("nij,nik->njk", lead, lead)  # D·L⁻ᵀ·L⁻¹·D
             yield c, np.where(good[:, k - 1, None, None], cov, np.nan)
+
+
+def _controlled_covariances(results: Results, block: np.ndarray):
+    """``candidate_covariances`` with controls: Mᵀ·C·M, C = (XᵀWX)⁻¹ of the leading m + k columns of the
+    full design [1, z…, t, …] (factored as the engine factors it: ``gram_lanes.factor_gram``, its dropped
+    controls included) and M taking the k powers u of t to [1, z₀…, t, …], z₀ the plan's centred control
+    values (0 where left out), so uᵀ·cov·u is the full design's leverage at the plan's controls, as at
+    the plan price (``stages.at_plan``); written as ‖(L⁻¹D·M)u‖²."""
+    from ..fit.basis import mapped
+    from ..fit.controlled import design_moments
+    from ..fit.controls import KEPT, chunk_controls
+    from ..fit.gram_lanes import factor_gram
+    from .control_evidence import control_values
+    data, ctl, sizes = results.data, results.controls, results.lineup.complexity
+    price, weight, local = _block_rows(results.data, block)
+    m, n = len(ctl.names), len(block)
+    rows = chunk_controls(control_values(results, rows_of(data.offsets, block)), weight if len(weight) else None,
+                          local, np.full((n, m), np.nan))  # centred as the engine centres them
+    kept = np.asarray(ctl.left_out)[block] == KEPT
+    offset = np.where(kept, np.asarray(ctl.plan, dtype=float)[block] - rows.mean, 0.0)  # (n, m)
+    for family, cols in results.lineup.groups:
+        p = int(sizes[cols].max())
+        q = 1 + m + p - 1
+        with np.errstate(divide="ignore", invalid="ignore"):
+            x = np.asarray(family.x(price), dtype=np.float64)
+        # Every candidate of a family shares its window (mid, half).
+        t = mapped(x, np.repeat(results.basis_mid[block, cols.start], np.diff(local)),
+                   np.repeat(results.basis_half[block, cols.start], np.diff(local)))
+        packed = np.empty((n, (q + 1) * (q + 2) // 2))
+        design_moments(readonly(t), readonly(np.zeros(len(t))), readonly(rows.z), readonly(weight), len(weight) > 0,
+                       readonly(local), p, m + 1, packed, np.zeros(q + 1))
+        lower, inverse = np.zeros((q, q, n)), np.zeros((q, q, n))
+        scale, recip, good = np.zeros((q, n)), np.ones((q, n)), np.zeros((q, n), dtype=np.bool_)
+        factor_gram(np.ascontiguousarray(packed.T), q, m + 1, lower, scale, good, np.zeros((q, n)), recip, inverse,
+                    np.zeros((2, n)))
+        a = np.moveaxis(inverse, -1, 0) * scale.T[:, None, :]  # (n, Q, Q) L⁻¹·D
+        for c in range(cols.start, cols.stop):
+            k = int(sizes[c])
+            lead = a[:, :m + k, :m + k]
+            b = np.concatenate((lead[:, :, :1] + np.einsum("nij,nj->ni", lead[:, :, 1:m + 1], offset)[:, :, None],
+                                lead[:, :, m + 1:]), axis=2)  # L⁻¹D·M, (n, m + k, k)
+            cov = np.einsum("nij,nik->njk", b, b)
+            yield c, np.where(good[m + k - 1, :, None, None], cov, np.nan)
 
 
 def _block_rows(data, block: np.ndarray):

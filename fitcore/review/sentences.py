@@ -126,12 +126,24 @@ def _outside_range(diag, s):
         size = f"{pct(beyond / width)} of the observed range" if width > 0 else f"{pct(beyond / edge)} of that price"
         parts.append(f"Plan price {money(plan)} is {money(beyond)} ({size}) {side} price observed ({money(edge)})")
     outside = n.get("control_outside")
-    for j in (np.flatnonzero(outside[s]) if outside is not None else ()):
-        name = r.controls.names[j]
-        observed = n["control_lo"][s, j], n["control_hi"][s, j]
-        seen = fmt(observed[0]) if observed[0] == observed[1] else f"{fmt(observed[0])} to {fmt(observed[1])}"
-        parts.append(f"the plan's {name} = {fmt(r.controls.plan[s, j])} lies outside the {name} values this "
-                     f"series has seen ({seen})")
+    terms = np.flatnonzero(outside[s]) if outside is not None else np.zeros(0, np.int64)
+    names = r.controls.names if len(terms) else ()
+    first_season = len(names) - 2 * r.controls.season if len(terms) else 0  # the columns, then the season terms
+
+    def seen(j):
+        low, high = n["control_lo"][s, j], n["control_hi"][s, j]
+        return fmt(low) if low == high else f"{fmt(low)} to {fmt(high)}"
+    for j in terms[terms < first_season]:
+        parts.append(f"the plan's {names[j]} = {fmt(r.controls.plan[s, j])} lies outside the {names[j]} values this "
+                     f"series has seen ({seen(j)})")
+    season = terms[terms >= first_season]
+    if len(season):  # one clause for the season: at the plan date, or at the year's average without one
+        held = np.asarray(r.controls.plan[s, first_season:], dtype=float)
+        which = ("the season at the plan date (" + ", ".join(f"{name} = {fmt(v)}" for name, v in
+                                                            zip(names[first_season:], held)) + ")"
+                 if held.any() else "the season's average over the year (every season term 0: no plan date given)")
+        parts.append(f"{which} lies outside the weeks this series has seen ("
+                     + ", ".join(f"{names[j]} {seen(j)}" for j in season) + " there)")
     text = "; ".join(parts)
     return f"{text[:1].upper()}{text[1:]}; the prediction there is an extrapolation."
 

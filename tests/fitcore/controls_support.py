@@ -98,3 +98,12 @@ def refit_held_out(price, volume, w, controls, splits, family: str, degree: int 
         errors = (volume[test] - predicted) ** 2
         out.append(errors[0] if loo else np.sum(w[test] * errors) / np.sum(w[test]))
     return np.array(out)
+
+
+def weekly(first: str, weeks: int, seed: int = 3):
+    """One series of ``weeks`` weekly rows from ``first``: a falling line in price with noise."""
+    rng = np.random.default_rng(seed)
+    date = np.datetime64(first) + 7 * np.arange(weeks).astype("timedelta64[D]")
+    price = np.round(rng.uniform(2, 4, weeks), 2)
+    volume = 500 - 60 * price + rng.normal(0, 5, weeks)
+    return fitcore.from_columns({"product": np.array(["sprocket"] * weeks, dtype=object)}, price, volume, date=date)

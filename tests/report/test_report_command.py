@@ -65,7 +65,9 @@ def test_a_row_shows_the_standing_model_and_its_numbers(signed, page):
     assert "ask the buyer" in row and "ben &lt;i&gt;" in row
     # its plan volume is below zero: no elasticity (a ratio of relative changes), as on the screen and in show
     assert plan["volume"] < 0 and '<span title="no elasticity: the volume is at or below zero">n/a</span>' in row
-    assert f"{abs(plan['elasticity']):.2f}" not in row
+    assert plan["elasticity"] is None and lemons["chosen"] == "poly1"  # none stored either
+    a, b = next(c for c in lemons["candidates"] if c["name"] == "poly1")["coef"]
+    assert f"{abs(b * plan['price'] / (a + b * plan['price'])):.2f}" not in row  # what dV/dP·P/V would say
 
 
 def test_the_override_stands_with_its_own_numbers(signed, page):

@@ -145,14 +145,16 @@ class Family:
 
         The ordinary least-squares t-interval for a new observation on the fit scale,
         fitted ± t(1 − α/2, n − p)·σ̂·√(1 + xᵀ(XᵀWX)⁻¹x), then turned into volume (``interval``);
-        ``leverage`` is xᵀ(XᵀWX)⁻¹x at the price (``basis.leverages``).
+        ``leverage`` is xᵀ(XᵀWX)⁻¹x at the price (``basis.leverages``).  No elasticity (NaN) where the
+        volume is at or below zero: a ratio of relative changes means nothing there.
         """
         t = self.coordinate(price, mid, half)
         fitted = polynomial(coef, t)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             spread = t_quantile(level, df) * np.sqrt(sigma2 * (1 + leverage))
             volume, lo, hi = self.interval(fitted, spread, smear)
-            return volume, lo, hi, self.elasticity(polynomial(coef, t, 1), volume, half, price)
+            elasticity = self.elasticity(polynomial(coef, t, 1), volume, half, price)
+            return volume, lo, hi, np.where(volume > 0, elasticity, np.nan)
 
     def on_grid(self, coef, mid, half, smear, price, t_price):
         """Volume and dV/dprice (n, G) of curves ``coef`` (n, P) at prices (n, G) whose coordinate in
