@@ -9,15 +9,13 @@ from datetime import date, timedelta
 import pytest
 
 from pricefold.cli import main
-from tests.cli.test_cycle import MOVER, fit, histories, write_weeks
+from tests.cli.test_cycle import MOVER, first_cycle_signed, histories, write_weeks
 
 
 @pytest.mark.parametrize("suffix", [".json", ".parquet"])
 def test_a_series_carried_over_a_revised_history_counts_as_carried_already(tmp_path, capsys, suffix):
     book = tmp_path / "ledger.jsonl"
-    write_weeks(tmp_path / "c1.csv", 40)
-    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
-    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    first_cycle_signed(tmp_path, book)
     signed = len(histories(book))
     write_weeks(tmp_path / "c2.csv", 44)
     with open(tmp_path / "c2.csv", newline="") as handle:

@@ -49,15 +49,22 @@ def fit(data, out, ledger_path=None):
     return {r["key"]["product"]: r for r in json.loads(out.read_text())["series"]}
 
 
+def first_cycle_signed(tmp_path, book) -> dict:
+    """The first cycle (40 weeks) fitted to ``r1.json`` and every unflagged series accepted into ``book``:
+    the results' records by product."""
+    write_weeks(tmp_path / "c1.csv", 40)
+    first = fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    return first
+
+
 def histories(path):
     return {h.latest["series"]["product"]: h for h in ledger.Ledger(path).histories.values()}
 
 
 def test_three_cycles_sign_carry_sign(tmp_path, capsys):
     book = tmp_path / "ledger.jsonl"
-    write_weeks(tmp_path / "c1.csv", 40)
-    first = fit(tmp_path / "c1.csv", tmp_path / "r1.json")
-    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    first = first_cycle_signed(tmp_path, book)
     signed = histories(book)
     assert len(signed) == sum(1 for r in first.values() if not r["flags"]) >= N_SERIES - 1
     assert all(h.current["signed"]["last_date"] == "2025-10-06" for h in signed.values())
@@ -122,9 +129,7 @@ def test_a_restated_history_is_not_carried_and_a_superseded_backtest_is_not_show
     says history-changed, carry leaves it, show --ledger says why.  Then a hold recorded after that fit: show
     --ledger gave the backtest of the accept the hold replaced (ratio, cover, shifted) as the series' own."""
     book = tmp_path / "ledger.jsonl"
-    write_weeks(tmp_path / "c1.csv", 40)
-    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
-    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    first_cycle_signed(tmp_path, book)
     write_weeks(tmp_path / "c2.csv", 44)
     with open(tmp_path / "c2.csv", newline="") as handle:
         rows = list(csv.reader(handle))
@@ -392,9 +397,7 @@ def test_a_revised_history_is_carried_only_on_request_and_a_reordered_file_is_no
     backtests into passes (carried); a file sorted by price held back every unchanged series as revised; and a
     carry over a revised history left no trace in the ledger."""
     book = tmp_path / "ledger.jsonl"
-    write_weeks(tmp_path / "c1.csv", 40)
-    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
-    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    first_cycle_signed(tmp_path, book)
     signed = len(histories(book))
     write_weeks(tmp_path / "c2.csv", 44)
     with open(tmp_path / "c2.csv", newline="") as handle:

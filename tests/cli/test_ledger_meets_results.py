@@ -13,7 +13,7 @@ from collections import Counter
 from fitcore import ledger
 from pricefold.cli import main
 
-from .test_cycle import fit, write_weeks
+from .test_cycle import first_cycle_signed, fit, write_weeks
 
 
 def with_segment(source, out, name: str, values=("North", "East")) -> None:
@@ -245,9 +245,7 @@ def test_accept_unflagged_into_another_ledger_says_so_and_counts_not_its_shifted
     accept in a ledger where nothing stands on it (before: silent, and the series left out)."""
     from .test_cycle import MOVER
     book, other = tmp_path / "L.jsonl", tmp_path / "other.jsonl"
-    write_weeks(tmp_path / "c1.csv", 40)
-    first = fit(tmp_path / "c1.csv", tmp_path / "r1.json")
-    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    first = first_cycle_signed(tmp_path, book)
     held = first["item 0"]  # the other ledger: one hold, on another series than the mover
     ledger.append(other, [ledger.Entry(series=held["key"], action="hold", fingerprint=held["fingerprint"],
                                        results="ab" * 32, note="look later", last_date=held["last_date"])],
@@ -280,9 +278,7 @@ def test_a_second_carry_counts_from_the_ledger_as_it_is_now(tmp_path, capsys):
 
     from .test_cycle import MOVER
     book = tmp_path / "L.jsonl"
-    write_weeks(tmp_path / "c1.csv", 40)
-    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
-    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    first_cycle_signed(tmp_path, book)
     write_weeks(tmp_path / "c2.csv", 44, drop_from=40)  # the mover's new weeks 40% lower: its backtest fails
     second = fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
     assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",

@@ -6,15 +6,13 @@ from __future__ import annotations
 import pytest
 
 from pricefold.cli import main
-from tests.cli.test_cycle import MOVER, fit, write_weeks
+from tests.cli.test_cycle import MOVER, first_cycle_signed, write_weeks
 
 
 @pytest.mark.parametrize("suffix", [".json", ".parquet"])
 def test_a_flag_left_out_lists_no_series_and_says_why(tmp_path, capsys, suffix):
     book = tmp_path / "ledger.jsonl"
-    write_weeks(tmp_path / "c1.csv", 40)
-    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
-    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    first_cycle_signed(tmp_path, book)
     write_weeks(tmp_path / "c2.csv", 48, drop_from=40)  # the mover's demand drops: its signed curve shifts
     results = tmp_path / f"r2{suffix}"
     assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
