@@ -4,12 +4,11 @@ counting the revised series as left, while ``show --ledger`` said it stood accep
 from __future__ import annotations
 
 import csv
-from datetime import date, timedelta
 
 import pytest
 
 from pricefold.cli import main
-from tests.cli.test_cycle import MOVER, first_cycle_signed, histories, write_weeks
+from tests.cli.test_cycle import MOVER, first_cycle_signed, histories, write_redated, write_weeks
 
 
 @pytest.mark.parametrize("suffix", [".json", ".parquet"])
@@ -20,11 +19,7 @@ def test_a_series_carried_over_a_revised_history_counts_as_carried_already(tmp_p
     write_weeks(tmp_path / "c2.csv", 44)
     with open(tmp_path / "c2.csv", newline="") as handle:
         header, *rows = list(csv.reader(handle))
-    for row in rows:  # the mover's signed weeks a day later: its history is revised, still fitting
-        if row[0] == MOVER and row[1] <= "2025-10-06":
-            row[1] = (date.fromisoformat(row[1]) + timedelta(days=1)).isoformat()
-    with open(tmp_path / "redated.csv", "w", newline="") as handle:
-        csv.writer(handle).writerows([header, *rows])
+    write_redated(tmp_path / "redated.csv", header, rows)
     results = tmp_path / f"r2{suffix}"
     assert main(["fit", str(tmp_path / "redated.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",
                  "--no-loglog", "-o", str(results), "--quiet", "--ledger", str(book)]) == 0

@@ -58,6 +58,15 @@ def first_cycle_signed(tmp_path, book) -> dict:
     return first
 
 
+def write_redated(path, header: list, rows: list) -> None:
+    """``rows`` with the mover's signed weeks (to 2025-10-06) a day later: its history revised, still fitting."""
+    for row in rows:
+        if row[0] == MOVER and row[1] <= "2025-10-06":
+            row[1] = (date.fromisoformat(row[1]) + timedelta(days=1)).isoformat()
+    with open(path, "w", newline="") as handle:
+        csv.writer(handle).writerows([header, *rows])
+
+
 def histories(path):
     return {h.latest["series"]["product"]: h for h in ledger.Ledger(path).histories.values()}
 
@@ -406,11 +415,7 @@ def test_a_revised_history_is_carried_only_on_request_and_a_reordered_file_is_no
         csv.writer(handle).writerows([header, *sorted(rows, key=lambda row: (row[0], row[2]))])
     second = fit(tmp_path / "sorted.csv", tmp_path / "r2.json", book)
     assert not any(r["backtest"]["revised"] for r in second.values() if r["backtest"])
-    for row in rows:  # the mover's signed weeks a day later: its last signed week now reads as one since
-        if row[0] == MOVER and row[1] <= "2025-10-06":
-            row[1] = (date.fromisoformat(row[1]) + timedelta(days=1)).isoformat()
-    with open(tmp_path / "redated.csv", "w", newline="") as handle:
-        csv.writer(handle).writerows([header, *rows])
+    write_redated(tmp_path / "redated.csv", header, rows)  # its last signed week now reads as one since
     third = fit(tmp_path / "redated.csv", tmp_path / "r3.json", book)
     bt = third[MOVER]["backtest"]
     assert bt["revised"] and bt["new_rows"] == 5 and (bt["history_rows"], bt["signed_rows"]) == (39, 40)
