@@ -10,8 +10,8 @@ then (so no path — screen, command, script — can skip them).  Pure: historie
 - ``revoke`` withdraws one's own standing decision — a /2 decision only by the OS user who made
   it, a /1 decision by its display name — and is refused when there is none;
 - ``supersedes`` must still be the series' latest record (else ``LedgerConflict``);
-- at most one ``carry`` per series and data fingerprint, and it must name an accept or override
-  of that series;
+- at most one standing ``carry`` per series and data fingerprint (one withdrawn may be carried again), and it
+  must name an accept or override of that series;
 - one append holds at most one record per series (a second could not name the first's digest);
 - an accept, override, hold or carry on data older than those the standing decision was made on is
   refused (``newer_standing``): an analyst on last cycle's results cannot replace this cycle's sign-off.
@@ -85,7 +85,8 @@ def _check_action(entry: Entry, history: SeriesHistory | None, who: Identity) ->
                           f"to withdraw{whose}")
     elif entry.action == "carry":
         records = history.records if history else []
-        done = next((r for r in records if r["action"] == "carry" and r["fingerprint"] == entry.fingerprint), None)
+        standing = history.standing if history else []  # a carry withdrawn since does not count
+        done = next((r for r in standing if r["action"] == "carry" and r["fingerprint"] == entry.fingerprint), None)
         if done is not None:
             raise LedgerError(f"{label(entry.series)}: already carried to this data ({what_happened(done)})")
         if not any(r["digest"] == entry.carries and r["action"] in ("accept", "override") for r in records):

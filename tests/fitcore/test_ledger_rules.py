@@ -155,6 +155,12 @@ def test_one_carry_per_series_and_data(tmp_path):
     wrong = entry("b", "carry", fingerprint="f2", carries=accept["digest"])
     assert "a carry must name an accept or override of this series" in str(unchanged(path, lambda: book.append(
         [wrong], ANA)))
+    # withdrawn (a carry run taken back with ``ledger revoke --batch``), it may be carried again
+    book.append([entry("a", "revoke", fingerprint="f2", supersedes=carried["digest"])], BO)
+    assert book.histories[series_id({"product": "a"})].status("f2") == "stale"
+    [again_done] = book.append([entry("a", "carry", fingerprint="f2", carries=accept["digest"],
+                                      supersedes=after(book, "a"))], ANA)
+    assert book.histories[series_id({"product": "a"})].current["digest"] == again_done["digest"]
 
 
 @pytest.mark.parametrize("bad, words", [
