@@ -15,7 +15,7 @@ from ..data.dataset import Dataset
 from . import reasons
 from .basis import window, window_rows
 from .controls import ControlSpec, chunk_controls
-from .folds import FoldScheme
+from .folds import FoldScheme, deal_columns
 from .scores import moments
 from .segments import segment_sums
 
@@ -38,7 +38,8 @@ class Chunk:
         self.counts = np.diff(self.offsets)
         rows = {"date": None if data.date is None else data.date[r0:r1]}
         if scheme.keyed:
-            rows.update(key_hash=data.key_hash[s0:s1], price=data.price[r0:r1], volume=data.volume[r0:r1])
+            rows.update(key_hash=data.key_hash[s0:s1], price=data.price[r0:r1], volume=data.volume[r0:r1],
+                        more=[] if data.date is not None else [values[r0:r1] for values in deal_columns(data)])
         self.lay = scheme.layout(self.offsets, **rows)
         order = self.lay.order
 

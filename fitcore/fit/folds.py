@@ -72,9 +72,10 @@ class FoldScheme:
     keyed = False  # whether its layout depends on the series' key hashes and the rows' values
 
     def layout(self, offsets: np.ndarray, *, key_hash: np.ndarray | None = None, date: np.ndarray | None = None,
-               price: np.ndarray | None = None, volume: np.ndarray | None = None) -> FoldLayout:
-        """The rows' layout; ``key_hash`` (S,), ``date``, ``price``, ``volume`` (N,) where the scheme
-        uses them (``keyed``: the key hashes and the rows' values; ``TimeFolds``: the dates)."""
+               price: np.ndarray | None = None, volume: np.ndarray | None = None, more=()) -> FoldLayout:
+        """The rows' layout; ``key_hash`` (S,), ``date``, ``price``, ``volume`` and ``more`` (N,) each (the
+        weight and control columns) where the scheme uses them (``keyed``: the key hashes and the rows' values;
+        ``TimeFolds``: the dates)."""
         raise NotImplementedError
 
     def error_counts(self, counts: np.ndarray) -> np.ndarray:
@@ -123,13 +124,13 @@ class KFold(FoldScheme):
             raise SettingsError(f"expected --folds to be a whole number of at least 2 or 'loo', got {k!r}")
         self.k = self.fewest_folds = int(k)
 
-    def order(self, offsets: np.ndarray, key_hash, date, price, volume) -> np.ndarray | None:
+    def order(self, offsets: np.ndarray, key_hash, date, price, volume, more) -> np.ndarray | None:
         return None
 
-    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None) -> FoldLayout:
+    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None, more=()) -> FoldLayout:
         counts = np.diff(offsets)
         inner = kfold_bounds(counts, self.k)
-        return FoldLayout(self.order(offsets, key_hash, date, price, volume), inner + offsets[:-1, None],
+        return FoldLayout(self.order(offsets, key_hash, date, price, volume, more), inner + offsets[:-1, None],
                           np.arange(self.k), False, counts >= self.k)
 
     def error_counts(self, counts):
@@ -156,8 +157,8 @@ class ShuffledKFold(KFold):
             raise SettingsError(f"expected --seed to be a non-negative whole number, got {seed!r}")
         self.seed = int(seed)
 
-    def order(self, offsets, key_hash, date, price, volume):
-        return shuffle_order(offsets, key_hash, self.seed, row_values(date, price, volume))
+    def order(self, offsets, key_hash, date, price, volume, more):
+        return shuffle_order(offsets, key_hash, self.seed, row_values(date, price, volume, more))
 
 
 def check_time_order(fold_order: str, has_date: bool) -> None:
@@ -170,7 +171,7 @@ def check_time_order(fold_order: str, has_date: bool) -> None:
 class TimeFolds(KFold):
     """Rolling origin over the rows sorted by date (scikit-learn ``TimeSeriesSplit`` block sizes)."""
 
-    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None) -> FoldLayout:
+    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None, more=()) -> FoldLayout:
         check_time_order("time", date is not None)
         counts = np.diff(offsets)
         series = np.repeat(np.arange(len(counts)), counts)
@@ -193,7 +194,7 @@ class LeaveOneOut(FoldScheme):
     fold_failure = reasons.LEVERAGE_ONE
     comparable_folds = False
 
-    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None) -> FoldLayout:
+    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None, more=()) -> FoldLayout:
         counts = np.diff(offsets)
         return FoldLayout(None, np.stack([offsets[:-1], offsets[1:]], axis=1), np.zeros(0, np.int64), False,
                           counts >= 2)
@@ -256,13 +257,19 @@ def time_bounds(counts: np.ndarray, k: int) -> np.ndarray:
 
 def fold_ids(offsets: np.ndarray, settings, **rows) -> np.ndarray:
     """(N,) the fold that holds out each dataset row under ``settings``; -1 for rows never held out.
-    ``rows``: ``key_hash``, ``date``, ``price``, ``volume`` as ``FoldScheme.layout`` takes them."""
+    ``rows``: ``key_hash``, ``date``, ``price``, ``volume``, ``more`` as ``FoldScheme.layout`` takes them."""
     return fold_scheme(settings).fold_ids(offsets, **rows)
 
 
 def dataset_rows(data) -> dict:
     """A ``Dataset``'s key hashes and rows as ``fold_ids`` and ``split_indices`` take them."""
-    return {"key_hash": data.key_hash, "date": data.date, "price": data.price, "volume": data.volume}
+    return {"key_hash": data.key_hash, "date": data.date, "price": data.price, "volume": data.volume,
+            "more": deal_columns(data)}
+
+
+def deal_columns(data) -> list[np.ndarray]:
+    """The columns beyond price and volume an undated row's draw mixes in: its weight and control values."""
+    return ([] if data.weight is None else [data.weight]) + [data.controls[name] for name in sorted(data.controls)]
 
 
 def split_indices(offsets: np.ndarray, settings, series: int, **kwargs):

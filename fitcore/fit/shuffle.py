@@ -2,8 +2,8 @@
 
 A row's draw mixes its series' stream (the series' key hash and the seed)
 with the row itself: its date where the rows have dates (one row a date in a
-series: repeats are rejected), else its price and then its volume (their
-IEEE bits).  Rows are ordered by their draws; rows alike in what was drawn
+series: repeats are rejected), else its price, its volume, then its weight
+and control values where the fit has them (their IEEE bits).  Rows are ordered by their draws; rows alike in what was drawn
 from (and so drawing alike) keep their order among themselves.  So a
 series' order depends only on the seed, its key and its rows' values: not
 on the machine, on which other series share the file, the chunk or the Dask
@@ -16,12 +16,12 @@ import numpy as np
 from ..compiled import compiled, readonly
 
 
-def row_values(date: np.ndarray | None, price: np.ndarray, volume: np.ndarray) -> list[np.ndarray]:
-    """What a row's draw is mixed from, as 64-bit words: its date, else its price and volume."""
+def row_values(date: np.ndarray | None, price: np.ndarray, volume: np.ndarray, more=()) -> list[np.ndarray]:
+    """What a row's draw is mixed from, as 64-bit words: its date, else its price, volume and ``more`` (its
+    weight and control values, where the fit has them: rows alike in price and volume told apart by them)."""
     if date is not None:
         return [date.view(np.int64).view(np.uint64)]
-    return [np.ascontiguousarray(price, dtype=np.float64).view(np.uint64),
-            np.ascontiguousarray(volume, dtype=np.float64).view(np.uint64)]
+    return [np.ascontiguousarray(values, dtype=np.float64).view(np.uint64) for values in (price, volume, *more)]
 
 
 def shuffle_order(offsets: np.ndarray, key_hash: np.ndarray, seed: int, values: list[np.ndarray]) -> np.ndarray:
