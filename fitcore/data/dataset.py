@@ -85,9 +85,24 @@ class Dataset:
     @cached_property
     def fingerprint_texts(self):
         """(S,) Arrow text: the SHA-256 of each series' rows (price, volume, and weight, date and controls where
-        given: ``fingerprint_columns``) in hex (``series_digests``); the hex text is made for all series at once
-        in numpy, never a string a series (``fingerprints`` makes the strings when asked)."""
-        return hex_texts(series_digests(self.fingerprint_columns, self.offsets))
+        given: ``fingerprint_columns``) in hex (``series_digests``), the rows in date order where they have dates
+        (``date_order``: the same rows in another order are the same data); the hex text is made for all series at
+        once in numpy, never a string a series (``fingerprints`` makes the strings when asked)."""
+        return hex_texts(series_digests(self.fingerprint_columns, self.offsets, order=self.date_order))
+
+    @cached_property
+    def date_order(self) -> np.ndarray | None:
+        """(N,) the rows in date order within each series (a date appears once in a series: repeats are rejected),
+        or None where that is the rows' own order (a file kept in date order: one pass) or there are no dates."""
+        if self.date is None or self.n_rows < 2:
+            return None
+        days = self.date.view(np.int64)
+        back = days[1:] < days[:-1]
+        back[self.offsets[1:-1][self.offsets[1:-1] > 0] - 1] = False  # a series' first row follows another's
+        if not back.any():
+            return None
+        series = np.repeat(np.arange(self.n_series), self.counts)
+        return _readonly(np.lexsort((days, series)))
 
     @property
     def fingerprint_columns(self) -> list[np.ndarray]:
@@ -101,21 +116,24 @@ class Dataset:
         return columns
 
 
-def series_digests(columns: list[np.ndarray], offsets: np.ndarray, keep: np.ndarray | None = None) -> np.ndarray:
+def series_digests(columns: list[np.ndarray], offsets: np.ndarray, keep: np.ndarray | None = None,
+                   order: np.ndarray | None = None) -> np.ndarray:
     """(S, 32) uint8: the SHA-256 of each series' rows — the bytes of its rows of ``np.column_stack(columns)``
-    (series by ``offsets``), only the rows ``keep`` (N,) marks where given (a series keeping none: the digest of
-    no bytes).  Stacked a block of series at a time (a whole 7M-row table was 110 MiB more at the results'
-    peak); one ``hashlib`` call a series gives its 32 bytes."""
+    (series by ``offsets``; in ``order`` (N,), a permutation within each series, where given), only the rows
+    ``keep`` (N,) marks where given (a series keeping none: the digest of no bytes).  Stacked a block of series
+    at a time (a whole 7M-row table was 110 MiB more at the results' peak); one ``hashlib`` call a series gives
+    its 32 bytes."""
     n_series = len(offsets) - 1
     digests = bytearray(32 * n_series)
     sha256 = hashlib.sha256
     cuts = series_cuts(offsets, FINGERPRINT_ROWS)
     for first, end in zip(cuts[:-1], cuts[1:]):
         start, stop = int(offsets[first]), int(offsets[end])
-        table = np.column_stack([column[start:stop] for column in columns])
+        rows = slice(start, stop) if order is None else order[start:stop]
+        table = np.column_stack([column[rows] for column in columns])
         bounds = offsets[first:end + 1] - start
         if keep is not None:  # the kept rows before each series' first row bound it in the kept table
-            kept = keep[start:stop]
+            kept = keep[rows]
             table = table[kept]
             bounds = np.concatenate(([0], np.cumsum(kept)))[bounds]
         table = np.ascontiguousarray(table).view(np.uint8)

@@ -2,8 +2,9 @@
 
 A series' rows dated up to the signed data's last date are the signed data again only if they hash to the
 decision's fingerprint (``revised`` where they do not: rows restated, back-filled, dropped or re-dated) —
-hashed as ``Dataset.fingerprint_texts`` hashes, in row order, then in date order (a file sorted otherwise is
-the same rows).  Where they were revised, ``history_fit`` measures the signed curve on them as they are now;
+hashed in row order, then in date order: ``Dataset.fingerprint_texts`` hashes dated rows in date order (the
+same rows in another order are the same data), and so did every earlier version for a file kept in date order;
+a decision signed earlier on a file in another order hashed its rows as they stood.  Where they were revised, ``history_fit`` measures the signed curve on them as they are now;
 ``fitcore.ledger.backtest`` decides what that means for the sign-off.  ``dated_rows`` finds a series' rows on
 either side of a date for the backtest too.
 """
