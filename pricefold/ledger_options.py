@@ -3,6 +3,7 @@ so kept apart from the commands' code (the ledger modules, numpy: 0.05–0.07 s 
 opens a ledger)."""
 from __future__ import annotations
 
+import argparse
 from pathlib import Path
 
 KEY_VARIABLE = "PRICEFOLD_LEDGER_KEY"
@@ -39,7 +40,7 @@ def add_ledger_parser(commands):
     bulk.add_argument("results", type=Path, metavar="RESULTS")
     bulk.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
     bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
-    bulk.add_argument("--note", default="", metavar="TEXT")
+    bulk.add_argument("--note", action=OneText, default="", metavar="TEXT")
     bulk.add_argument("--new-series", action="store_true",
                       help="yes, these results' series new to the ledger are new series: accept them where the "
                            "ledger holds none of the results' series (the same key columns, other values) or "
@@ -49,15 +50,35 @@ def add_ledger_parser(commands):
                                            "with a note saying why; what stood before stands again")
     revoke.add_argument("ledger", type=Path, metavar="LEDGER")
     which = revoke.add_mutually_exclusive_group(required=True)
-    which.add_argument("--record", type=int, nargs="+", metavar="N",
+    which.add_argument("--record", type=record_number, nargs="+", metavar="N",
                        help="the records to withdraw, numbered as 'ledger show' prints them (#N); all or nothing")
-    which.add_argument("--batch", type=int, metavar="N",
+    which.add_argument("--batch", type=record_number, metavar="N",
                        help="every decision of the batch record #N belongs to (an accept-unflagged or carry run) "
                             "still standing and yours")
-    revoke.add_argument("--note", required=True, metavar="TEXT", help="why (required: the ledger keeps it)")
+    revoke.add_argument("--note", action=OneText, required=True, metavar="TEXT",
+                        help="why (required: the ledger keeps it)")
     revoke.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     revoke.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success")
     return sub
+
+
+class OneText(argparse.Action):
+    """A text option given once (argparse kept the last of two silently: ``--note x --note y`` recorded y)."""
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        if getattr(namespace, self.dest, None) not in (None, "", self.default):
+            parser.error(f"{option_string} given twice: give it once")
+        setattr(namespace, self.dest, values)
+
+
+def record_number(text: str) -> int:
+    """A record's number as ``ledger show`` prints it (``12`` or ``#12``): ASCII digits only (Python's ``int``
+    also reads ``1_0``, ``+4`` and other scripts' digits)."""
+    digits = text[1:] if text.startswith("#") else text
+    if not (digits.isascii() and digits.isdigit()) or int(digits) < 1:
+        raise argparse.ArgumentTypeError(f"expected a record number as 'ledger show' prints it (12 or #12), "
+                                         f"got {text!r}")
+    return int(digits)
 
 
 def add_fit_ledger_option(parser) -> None:
@@ -77,7 +98,7 @@ def add_carry_parser(sub) -> None:
     carry.add_argument("results", type=Path, metavar="RESULTS")
     carry.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
     carry.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
-    carry.add_argument("--note", default="", metavar="TEXT")
+    carry.add_argument("--note", action=OneText, default="", metavar="TEXT")
     carry.add_argument("--carry-revised", action="store_true",
                        help="also carry series whose rows up to the signed date were revised but still fit the "
                             "signed curve (a rolling window: the oldest weeks dropped); by default they are left "

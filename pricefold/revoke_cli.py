@@ -14,7 +14,7 @@ import sys
 
 from fitcore import ledger
 from fitcore.ledger.replay import own_standing, series_id
-from fitcore.ledger.rules import label, what_happened
+from fitcore.ledger.rules import label, person, what_happened
 
 from .ledger_cli import identity, open_ledger
 
@@ -25,7 +25,9 @@ def run_revoke(args) -> int:
     if not args.note.strip():
         raise ledger.LedgerError("--note: say why the decisions are withdrawn (the ledger keeps it); nothing was "
                                  "written")
-    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE), must_exist=True)
+    if not args.ledger.exists():
+        raise ledger.LedgerError(f"{args.ledger}: no such ledger: nothing to withdraw (nothing was written)")
+    book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
     who = identity(args.analyst)
     left: list[str] = []
 
@@ -53,6 +55,8 @@ def run_revoke(args) -> int:
     written = book.append(entries, who)
     if not args.quiet:
         kept = f"; {len(left):,} of the batch left as they are (no longer standing, or not yours)" if left else ""
+        if args.batch is not None and not (by_seq(book.records)[args.batch].get("batch") or {}).get("id"):
+            kept += f" (#{args.batch} was recorded alone, not in a batch: itself only)"
         print(f"withdrew {len(written):,} decision{'s' * (len(written) != 1)}{kept} → {args.ledger}", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0
@@ -60,16 +64,17 @@ def run_revoke(args) -> int:
 
 def named(args, records: list[dict]) -> list[dict]:
     """The records ``--record`` names (each once, one a series) or the batch of ``--batch``'s record, in order."""
-    by_seq = {record["seq"]: record for record in records}
+    numbered = by_seq(records)
     wanted = [args.batch] if args.batch is not None else args.record
     for seq in wanted:
-        if seq not in by_seq:
-            raise ledger.LedgerError(f"{args.ledger}: no record #{seq} (the ledger's records are #1 to "
-                                     f"#{len(records)}: see 'pricefold ledger show'); nothing was withdrawn")
+        if seq not in numbered:
+            held = f"the ledger's records are #1 to #{len(records)}" if records else "the ledger holds no record"
+            raise ledger.LedgerError(f"{args.ledger}: no record #{seq} ({held}: see 'pricefold ledger show'); "
+                                     "nothing was withdrawn")
     if args.batch is not None:
-        batch = (by_seq[args.batch].get("batch") or {}).get("id")
-        return [r for r in records if batch and (r.get("batch") or {}).get("id") == batch] or [by_seq[args.batch]]
-    chosen = [by_seq[seq] for seq in dict.fromkeys(wanted)]
+        batch = (numbered[args.batch].get("batch") or {}).get("id")
+        return [r for r in records if batch and (r.get("batch") or {}).get("id") == batch] or [numbered[args.batch]]
+    chosen = [numbered[seq] for seq in dict.fromkeys(wanted)]
     seen: dict[str, int] = {}
     for record in chosen:
         first = seen.setdefault(series_id(record["series"]), record["seq"])
@@ -80,8 +85,14 @@ def named(args, records: list[dict]) -> list[dict]:
     return chosen
 
 
+def by_seq(records: list[dict]) -> dict[int, dict]:
+    return {record["seq"]: record for record in records}
+
+
 def why_not(record: dict, history, who: ledger.Identity) -> str | None:
     """Why ``record`` cannot be withdrawn by ``who`` now (None: it can)."""
+    if record["action"] == "note":
+        return "a note, not a decision: it changes nothing to withdraw (add a note saying what it got wrong)"
     if record["action"] not in DECIDING:
         return f"a {record['action']}, not a decision"
     mine = own_standing(history, who.analyst, who.os_user)
@@ -91,4 +102,4 @@ def why_not(record: dict, history, who: ledger.Identity) -> str | None:
         return None
     if current is None or current["digest"] != record["digest"]:  # the one in effect only, as the screen's key
         return f"no longer stands ({what_happened(current)} since)" if current else "no longer stands (withdrawn since)"
-    return f"made by {record.get('os_user') or record['analyst']}, not by you ({who.os_user})"
+    return f"made by {person(record)}, not by you (OS user {who.os_user})"

@@ -80,7 +80,7 @@ def _check_action(entry: Entry, history: SeriesHistory | None, who: Identity) ->
             raise LedgerError(f"{label(entry.series)}: already accepted on this data "
                               f"({what_happened(current)}); nothing to add")
     elif entry.action == "revoke" and own_standing(history, who.analyst, who.os_user) is None:
-        whose = f"; the standing decision is {_person(current)}'s" if current else ""
+        whose = f"; the standing decision is {person(current)}'s" if current else ""
         raise LedgerError(f"{label(entry.series)}: no decision of yours ({clean(who.os_user)}) stands "
                           f"to withdraw{whose}")
     elif entry.action == "carry":
@@ -150,14 +150,15 @@ def what_happened(record: dict) -> str:
     """One clause for a record: "ana accepted poly1 at 14:02:11 UTC"."""
     done = DONE.get(record["action"], record["action"]).format(model=clean(str(record.get("model"))))
     at = record["at"][11:19] if len(record["at"]) >= 19 else record["at"]
-    return f"{_person(record)} {done} at {clean(at)} UTC"
+    return f"{person(record)} {done} at {clean(at)} UTC"
 
 
 def label(key: dict) -> str:
     return clean(" · ".join(str(value) for value in key.values()))
 
 
-def _person(record: dict) -> str:
+def person(record: dict) -> str:
+    """Who made a record: the display name, and the OS user beside it where they differ (``ana (root)``)."""
     name, user = clean(record["analyst"]), clean(record.get("os_user") or "")
     return name if not user or user == name else f"{name} ({user})"
 

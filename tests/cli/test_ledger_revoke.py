@@ -65,7 +65,7 @@ def test_what_stood_before_stands_again(book, monkeypatch):
 
 @pytest.mark.parametrize("records, why", [
     (["1", "2"], "#2 (item 2 · North): no longer stands (bo overrode the proposal with poly2 at "),  # bo's since
-    (["5"], "#5 (item 2 · North): made by bo, not by you (ana)"),
+    (["5"], "#5 (item 2 · North): made by bo, not by you (OS user ana)"),
     (["1", "77"], "no record #77"),
     (["1", "1", "3"], None),  # the same record twice is one
 ])
@@ -105,7 +105,7 @@ def test_another_users_batch_is_not_withdrawn(book, capsys, monkeypatch):
     monkeypatch.setattr(revoke_cli, "identity", lambda analyst: BO)
     before = book.read_bytes()
     assert revoke(book, "--batch", "1", "--note", "not mine") == 2 and book.read_bytes() == before
-    assert "made by ana, not by you (bo)" in capsys.readouterr().err
+    assert "made by ana, not by you (OS user bo)" in capsys.readouterr().err
 
 
 @pytest.mark.parametrize("args, said", [
@@ -131,4 +131,33 @@ def test_a_broken_or_missing_ledger_is_refused_and_left_as_it_is(book, capsys, t
     assert revoke(book, "--record", "6", "--note", "n") == 2 and book.read_bytes() == before
     assert "the chain is broken" in capsys.readouterr().err
     assert revoke(tmp_path / "none.jsonl", "--record", "1", "--note", "n") == 2
-    assert "no such ledger" in capsys.readouterr().err and not (tmp_path / "none.jsonl").exists()
+    assert "no such ledger: nothing to withdraw" in capsys.readouterr().err
+    assert not (tmp_path / "none.jsonl").exists()
+
+
+@pytest.mark.parametrize("args, said", [
+    (["--record", "1_0", "--note", "n"], "expected a record number as 'ledger show' prints it (12 or #12), got '1_0'"),
+    (["--record", "+4", "--note", "n"], "got '+4'"),
+    (["--record", "\u0663", "--note", "n"], "got '\u0663'"),  # an Arabic-Indic three: int() reads it
+    (["--record", "0", "--note", "n"], "got '0'"),
+    (["--record", "1", "--note", "x", "--note", "y"], "--note given twice"),
+])
+def test_numbers_and_notes_are_read_as_written(book, capsys, args, said):
+    before = book.read_bytes()
+    with pytest.raises(SystemExit) as stop:
+        revoke(book, *args)
+    assert stop.value.code == 2 and book.read_bytes() == before and said in capsys.readouterr().err
+
+
+def test_a_record_number_as_shown_and_a_note_told_what_to_do(book, capsys):
+    assert revoke(book, "--record", "#6", "--note", "as shown") == 0 and standing(book, 9) is None
+    ledger.Ledger(book).append([ledger.Entry(series=key(1), action="note", fingerprint=FP, results=RESULTS,
+                                             note="see", supersedes=ledger.Ledger(book).histories[
+                                                 series_id(key(1))].latest["digest"])], ANA)  # #8
+    assert revoke(book, "--record", "8", "--note", "n") == 2
+    assert "a note, not a decision: it changes nothing to withdraw (add a note" in capsys.readouterr().err
+
+
+def test_a_batch_named_by_a_lone_record_says_so(book, capsys):
+    assert revoke(book, "--batch", "6", "--note", "n") == 0
+    assert "withdrew 1 decision (#6 was recorded alone, not in a batch: itself only) → " in capsys.readouterr().err
