@@ -1,4 +1,4 @@
-"""The invented scenario one or more weeks later: every series gets new weekly rows after its last.
+"""The invented scenario one or more weeks later: every series gets new weekly rows after its latest.
 
     python sample/next_week.py OUT.csv [--weeks 1] [--from sample/wholesale.csv]
 
@@ -31,9 +31,11 @@ def extend(source: Path, target: Path, weeks: int = 1, seed: int = SEED) -> int:
     with open(source, newline="", encoding="utf-8") as handle:
         rows = list(csv.reader(handle))
     header, body = rows[0], rows[1:]
-    last: dict[tuple[str, str], list[str]] = {}
+    last: dict[tuple[str, str], list[str]] = {}  # each series' latest row by date, whatever the file's order
     for row in body:
-        last[(row[0], row[1])] = row
+        known = last.get((row[0], row[1]))
+        if known is None or row[2] >= known[2]:  # ISO dates compare as text
+            last[(row[0], row[1])] = row
     levels = None
     params = {name: (base, volume, elasticity, curvature) for name, base, volume, elasticity, curvature in PRODUCTS}
     added = []
