@@ -320,6 +320,11 @@ def run_accept_unflagged(args) -> int:
                                proposed=chosen, note=args.note, supersedes=latest["digest"] if latest else None,
                                flags=(), signed=snapshot)
 
+    if not proposals and not args.ledger.exists():  # none is started (an empty file would read as one begun)
+        if not args.quiet:
+            print(f"accepted 0 unflagged series: every series carries a flag or has no model, so no ledger was "
+                  f"started at {args.ledger}", file=sys.stderr)
+        return 0
     written = book.append(decide, identity(args.analyst))
     if not args.quiet:
         print(f"accepted {len(written):,} unflagged series without a decision → {args.ledger}"

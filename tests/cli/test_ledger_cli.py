@@ -193,6 +193,18 @@ def test_accept_unflagged_records_supersedes_and_flags_and_is_quiet_when_asked(t
     assert code == 0 and "accepted 0 unflagged" in err  # nothing left undecided
 
 
+def test_accepting_nothing_starts_no_ledger(tmp_path, capsys):
+    """Every series flagged (few-points under a raised threshold): nothing to accept, and no empty ledger left
+    to read as one begun (a trial found one)."""
+    flagged, ledger_path = tmp_path / "flagged.json", tmp_path / "new.jsonl"
+    assert run_cli("fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week", "--threshold",
+                   "min_points=500", "-o", str(flagged), "-q").returncode == 0
+    code, _, err = cli("ledger", "accept-unflagged", flagged, "--ledger", ledger_path, capsys=capsys)
+    assert code == 0 and not ledger_path.exists()
+    assert err == f"accepted 0 unflagged series: every series carries a flag or has no model, so no ledger was " \
+                  f"started at {ledger_path}\n"
+
+
 def test_a_broken_or_unverifiable_ledger_is_refused_by_writers_and_exports(tmp_path, results, capsys, monkeypatch):
     ledger_path, out = tmp_path / "l.jsonl", tmp_path / "out.csv"
     cli("ledger", "accept-unflagged", results, "--ledger", ledger_path, "--analyst", "ana", capsys=capsys)
