@@ -11,6 +11,7 @@ from fitcore.review import choice
 from fitcore.review.attention import attention_order
 from fitcore.review.control_words import effect_words
 from fitcore.review.sentences import fmt, money, two_places
+from fitcore.review.time_of_year import day_month, plan_phase
 from fitcore.text import clean, told_apart
 from fitcore.widths import cells, distinct_keys
 
@@ -250,7 +251,8 @@ def control_lines(record: dict, binary=()) -> list[str]:
     season = [v for name, v in values.items() if name.startswith("season_")]
     if season:  # every term 0 only at the year's average: a date's sin and cos are never both 0
         held += (", " if held else "") + ("the season's average over the year (no plan date given)"
-                                          if not any(season) else "the season at the plan date")
+                                          if not any(season) else
+                                          f"the season at the plan date ({day_month(plan_phase(*season[:2]))})")
     out = ["", f"controls held at the plan's values: {held}"]
     chosen = next((c for c in record["candidates"] if c["name"] == record["chosen"]), None)
     if chosen and chosen.get("controls"):

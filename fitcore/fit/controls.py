@@ -57,6 +57,14 @@ def season_terms(date: np.ndarray, k: int, out: np.ndarray | None = None) -> np.
     return out
 
 
+def day_phase(date: np.ndarray) -> np.ndarray:
+    """(N,) each date's d = (day of the year − 1) / days in that year: its time of year, in [0, 1)."""
+    days = np.asarray(date).astype("datetime64[ns]", copy=False)
+    slot = np.empty(len(days), dtype=np.int64)
+    day_slots(readonly(days.view(np.int64)), slot)
+    return np.concatenate((np.arange(365) / 365, np.arange(366) / 366))[slot]
+
+
 @compiled
 def day_slots(ticks, out):
     """Each date (``ticks`` nanoseconds since 1970-01-01) as its place in a table of a common year's 365

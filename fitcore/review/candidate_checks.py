@@ -59,7 +59,7 @@ def candidate_checks(results: Results, s: int, c: int, thresholds: Thresholds = 
         "rising": share > thresholds.rising_share,
         "below-zero": lowest < 0,
         "outside-range": (planned and not results.price_lo[s] <= plan <= results.price_hi[s])
-                         or (bool(control_ranges(results, np.array([s]))[2].any())
+                         or (bool(control_ranges(results, np.array([s]), thresholds.season_days)[2].any())
                              if controls_outside is None else controls_outside),
     }
     return CandidateChecks(tuple(code for code in CODES if raised.get(code)), share, lowest, lowest_at)

@@ -81,7 +81,7 @@ class Diagnosis:
         ``diagnose`` found it (``control_ranges``); a diagnosis read back from a file asks the results."""
         outside = self.numbers.get("control_outside")
         if outside is None:
-            outside = control_ranges(self.results, np.array([s]))[2]
+            outside = control_ranges(self.results, np.array([s]), self.thresholds.season_days)[2]
             s = 0
         return bool(outside[s].any())
 
@@ -150,7 +150,7 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     plan_volume = np.where(has, results.plan_volume[rows, pick], np.nan)
     flag("below-zero", has & ((shape["lowest_volume"] < 0) | (planned & (plan_volume < 0))))
 
-    control_lo, control_hi, control_outside = control_ranges(results)
+    control_lo, control_hi, control_outside = control_ranges(results, season_days=thresholds.season_days)
     numbers.update(control_lo=control_lo, control_hi=control_hi, control_outside=control_outside)
     flag("outside-range", has & ((planned & ((plan < results.price_lo) | (plan > results.price_hi)))
                                  | control_outside.any(axis=1)))
@@ -204,15 +204,17 @@ def plan_gaps(results: Results) -> np.ndarray:
     return out
 
 
-def control_ranges(results: Results, series: np.ndarray | None = None):
+def control_ranges(results: Results, series: np.ndarray | None = None, season_days: int = Thresholds.season_days):
     """(S, M) each control term's lowest and highest value in each series — the columns, then the season
     terms of its rows' dates — and (S, M) bool: the plan's value lies outside them (a curve held there is
-    an extrapolation in that control; for the season terms, at a time of year — the plan date's, or the
-    year's average without one — the series' weeks did not reach).  M = 0 without controls or rows.
-    ``series`` (indices): those series only, S = len(series) (one candidate's checks; ``diagnose`` keeps
-    every series' answer: ``Diagnosis.controls_outside``)."""
-    from ..fit.controls import season_terms
+    an extrapolation in that control).  The season is judged as a whole, every season term alike: a plan
+    date more than ``season_days`` from the time of year of every row (``time_of_year``); without one,
+    the year's average (every term 0) outside a term's values — rows within half a year.  M = 0 without
+    controls or rows.  ``series`` (indices): those series only, S = len(series) (one candidate's checks;
+    ``diagnose`` keeps every series' answer: ``Diagnosis.controls_outside``)."""
+    from ..fit.controls import day_phase, season_terms
     from .intervals import rows_of
+    from .time_of_year import days_apart, plan_phase
     data, ctl = results.data, results.controls
     offsets = data.offsets.astype(np.int64)
     columns = [] if ctl is None else [name for name in ctl.names if name in data.controls]
@@ -224,6 +226,9 @@ def control_ranges(results: Results, series: np.ndarray | None = None):
     counts = offsets[series + 1] - offsets[series]
     filled = counts > 0
     starts = (np.cumsum(counts) - counts)[filled]
+    at = np.asarray(ctl.plan, dtype=float)[series, :lo.shape[1]] if lo.shape[1] else lo
+    planned = plan_phase(at[:, len(columns)], at[:, len(columns) + 1]) if season else np.full(len(series), np.nan)
+    nearest = np.full(len(series), np.nan)  # days from the plan date to the nearest row's time of year
     if len(starts):
         rows = slice(None) if whole else rows_of(offsets, series)
         terms = [np.asarray(data.controls[name], dtype=float) for name in columns]
@@ -233,9 +238,14 @@ def control_ranges(results: Results, series: np.ndarray | None = None):
             if values is not None:
                 lo[filled, j] = np.minimum.reduceat(values, starts)
                 hi[filled, j] = np.maximum.reduceat(values, starts)
-    at = np.asarray(ctl.plan, dtype=float)[series, :lo.shape[1]] if lo.shape[1] else lo
+        if season and np.isfinite(planned).any():
+            apart = days_apart(day_phase(data.date[rows]), np.repeat(planned, counts))
+            nearest[filled] = np.minimum.reduceat(apart, starts)
     with np.errstate(invalid="ignore"):
         outside = (at < lo) | (at > hi)
+        if season:  # the plan date by its distance in days; the year's average by the terms' values
+            outside[:, len(columns):] = np.where(np.isfinite(planned), nearest > season_days,
+                                                 outside[:, len(columns):].any(axis=1))[:, None]
     return lo, hi, outside
 
 

@@ -136,16 +136,28 @@ def _outside_range(diag, s):
     for j in terms[terms < first_season]:
         parts.append(f"the plan's {names[j]} = {fmt(r.controls.plan[s, j])} lies outside the {names[j]} values this "
                      f"series has seen ({seen(j)})")
-    season = terms[terms >= first_season]
-    if len(season):  # one clause for the season: at the plan date, or at the year's average without one
-        held = np.asarray(r.controls.plan[s, first_season:], dtype=float)
-        which = ("the season at the plan date (" + ", ".join(f"{name} = {fmt(v)}" for name, v in
-                                                            zip(names[first_season:], held)) + ")"
-                 if held.any() else "the season's average over the year (every season term 0: no plan date given)")
-        parts.append(f"{which} lies outside the weeks this series has seen ("
-                     + ", ".join(f"{names[j]} {seen(j)}" for j in season) + " there)")
+    if len(terms[terms >= first_season]):  # one clause for the season, judged by the time of year
+        parts.append(_season_outside(diag, s, first_season))
     text = "; ".join(parts)
     return f"{text[:1].upper()}{text[1:]}; the prediction there is an extrapolation."
+
+
+def _season_outside(diag, s, first):
+    """The season's clause: the plan date's day and month, its distance in days from the nearest time of
+    year the series has seen and the stretches its rows cover; or, without a plan date, that the year's
+    average rests on rows not seen all year round."""
+    from ..fit.controls import day_phase
+    from .time_of_year import covered, day_month, days_apart, plan_phase
+    r, days = diag.results, diag.thresholds.season_days
+    date = r.data.date[r.data.offsets[s]:r.data.offsets[s + 1]]
+    cover = covered(date, days)
+    phase = float(plan_phase(*np.asarray(r.controls.plan[s, first:first + 2], dtype=float)))
+    if math.isnan(phase):
+        return (f"the season's average over the year (no plan date given) rests on a series not seen all year "
+                f"round: its rows cover only {cover} of the year")
+    apart = int(days_apart(day_phase(date), phase).min())
+    return (f"the plan date ({day_month(phase)}) is {apart} days from the nearest time of year this series has "
+            f"seen (more than season_days = {days}): its rows cover {cover} of the year")
 
 
 def _price_gap(diag, s):

@@ -33,6 +33,9 @@ class Thresholds:
       volume at the plan price differs from this cycle's proposal by more than this share → ``shifted``
       (needs the ledger: ``fit --ledger``).  ``shift_error_ratio`` also judges the signed curve on its own
       rows where they were restated since: beyond it, ``history-changed`` (``fitcore.ledger.backtest``).
+    - ``season_days``: with ``--season``, a plan date more than this many days from the time of year of
+      every row of a series → ``outside-range`` (half a month: rows a week or a month apart round the
+      year never trip it; a series seen from January to May planned for August always does).
     """
 
     min_points: int = 12
@@ -49,6 +52,7 @@ class Thresholds:
     shift_coverage: float = 0.75
     shift_min_rows: int = 4
     shift_volume: float = 0.15
+    season_days: int = 15
 
     def __post_init__(self) -> None:
         for name, (ok, expected) in RANGES.items():
@@ -105,4 +109,5 @@ RANGES = {
     "shift_coverage": (lambda v: 0 <= v <= 1, "from 0 to 1"),
     "shift_min_rows": (lambda v: v >= 1, "a whole number of at least 1"),
     "shift_volume": (lambda v: v > 0, "above 0"),
+    "season_days": (lambda v: 1 <= v <= 182, "a whole number of days from 1 to 182"),
 }

@@ -9,7 +9,7 @@ from tests.fitcore.controls_support import weekly
 
 
 @pytest.mark.parametrize("plan_date, held", [(None, "the season's average over the year (no plan date given)"),
-                                              ("2025-08-01", "the season at the plan date")])
+                                              ("2025-08-01", "the season at the plan date (1 Aug)")])
 def test_show_says_which_season_the_curves_are_held_at(plan_date, held, tmp_path, capsys):
     data = weekly("2025-01-06", 20)
     rows = ["product,week,price,volume"] + [f"sprocket,{str(d)[:10]},{p},{v}" for d, p, v in

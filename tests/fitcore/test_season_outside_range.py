@@ -1,7 +1,9 @@
-"""``outside-range`` for the season terms: a plan date whose season lies outside the weeks a series has seen, or
-the year's average (no plan date) outside them, is an extrapolation as a control's plan value outside its
-values is.  The observed ranges are checked against sin/cos of 2π·(day of the year − 1)/(days in that year)
-worked out here with the standard library's calendar (the README's definition of the terms)."""
+"""``outside-range`` for the season terms.  A plan date is judged by its time of year: outside when it lies
+more than ``season_days`` (15) from the time of year of every row of the series, days counted round the
+year between phases d = (day of the year − 1) / (days in that year) — the README's definition of the
+terms — as a year of 365.25 days, rounded to whole days.  Without a plan date, the year's average (every
+term 0) is outside when it lies outside a term's values (rows within half a year).  Every phase, distance
+and day-and-month label here is worked out with the standard library's calendar and datetime."""
 from __future__ import annotations
 
 import calendar
@@ -12,23 +14,61 @@ import numpy as np
 import pytest
 
 import fitcore
+from fitcore.errors import SettingsError
 from fitcore.review.flags import diagnose
+from fitcore.review.thresholds import Thresholds
 from tests.fitcore.controls_support import weekly
 
 
-def terms(day: np.datetime64) -> tuple[float, float]:
-    d = dt.date.fromisoformat(str(day)[:10])
-    turn = 2 * math.pi * (d.timetuple().tm_yday - 1) / (366 if calendar.isleap(d.year) else 365)
-    return math.sin(turn), math.cos(turn)
+def day(value) -> dt.date:
+    return dt.date.fromisoformat(str(value)[:10])
 
 
-def outside(data, plan_date=None):
+def phase(value) -> float:
+    d = day(value)
+    return (d.timetuple().tm_yday - 1) / (366 if calendar.isleap(d.year) else 365)
+
+
+def terms(value) -> tuple[float, float]:
+    return math.sin(2 * math.pi * phase(value)), math.cos(2 * math.pi * phase(value))
+
+
+def days_from(plan, dates) -> int:
+    """Whole days from ``plan``'s time of year to the nearest of ``dates``', the shorter way round."""
+    turns = [abs(phase(plan) - phase(d)) % 1.0 for d in dates]
+    return min(round(min(t, 1.0 - t) * 365.25) for t in turns)
+
+
+def label(value) -> str:
+    d = day(value)
+    return f"{d.day} {calendar.month_abbr[d.month]}"
+
+
+def outside(data, plan_date=None, thresholds=Thresholds()):
     date = None if plan_date is None else np.array([plan_date], dtype="datetime64[ns]")
     results = fitcore.fit_batch(data, fitcore.FitSettings(season=1, degrees=(1,), loglog=False), plan_price=3.0,
                                 plan_date=date)
-    diagnosis = diagnose(results)
+    diagnosis = diagnose(results, thresholds)
     flags = {f["code"]: f["message"] for f in diagnosis.flags_of(0)}
     return diagnosis, flags.get("outside-range")
+
+
+def season_outside(dates: list, plan_dates: list) -> np.ndarray:
+    """(len(plan_dates),) whether the season raises ``outside-range``: one series of rows at ``dates`` per
+    plan date, fitted together (a falling line in price)."""
+    n, s = len(dates), len(plan_dates)
+    rng = np.random.default_rng(5)
+    price = np.round(rng.uniform(2, 4, n * s), 2)
+    data = fitcore.from_columns({"product": np.repeat(np.arange(s).astype(str).astype(object), n)}, price,
+                                500 - 60 * price + rng.normal(0, 5, n * s),
+                                date=np.tile(np.array(dates, dtype="datetime64[D]"), s))
+    results = fitcore.fit_batch(data, fitcore.FitSettings(season=1, degrees=(1,), loglog=False),
+                                plan_price=np.full(s, 3.0), plan_date=np.array(plan_dates, dtype="datetime64[ns]"))
+    return diagnose(results).numbers["control_outside"].any(axis=1)
+
+
+def every_day(year: int) -> list[dt.date]:
+    return [dt.date(year, 1, 1) + dt.timedelta(i) for i in range(366 if calendar.isleap(year) else 365)]
 
 
 def test_part_of_a_year_at_the_year_average_is_outside_and_says_so():
@@ -38,23 +78,73 @@ def test_part_of_a_year_at_the_year_average_is_outside_and_says_so():
     np.testing.assert_allclose(diagnosis.numbers["control_lo"][0], seen.min(axis=0), rtol=1e-12)
     np.testing.assert_allclose(diagnosis.numbers["control_hi"][0], seen.max(axis=0), rtol=1e-12)
     assert seen[:, 0].min() > 0  # sin stays above 0 from January to May: 0 (the year's average) is outside
-    assert said is not None and said.startswith("The season's average over the year (every season term 0: no plan "
-                                                 "date given) lies outside the weeks this series has seen")
-    assert "season_sin1 0.086 to 0.999 there" in said and "season_cos1" not in said
+    assert said == ("The season's average over the year (no plan date given) rests on a series not seen all year "
+                    f"round: its rows cover only {label(data.date[0])} – {label(data.date[-1])} of the year; the "
+                    "prediction there is an extrapolation.")
+    assert label(data.date[-1]) == "19 May"
 
 
-@pytest.mark.parametrize("plan_date, raised", [("2025-08-01", True), ("2025-03-10", False)])
-def test_a_plan_date_outside_the_weeks_seen_is_outside(plan_date, raised):
+@pytest.mark.parametrize("plan_date, raised", [("2025-08-01", True), ("2025-03-10", False),
+                                               ("2025-06-03", False), ("2025-06-04", True),  # 15 and 16 days on
+                                               ("2026-12-22", False), ("2026-12-21", True)])  # 15 and 16 before
+def test_a_plan_date_outside_the_time_of_year_seen_is_outside_and_says_how_far(plan_date, raised):
     data = weekly("2025-01-06", 20)
     _, said = outside(data, plan_date)
     assert (said is not None) == raised
+    assert (days_from(plan_date, data.date) > 15) == raised
     if raised:
-        sin, cos = terms(np.datetime64(plan_date))
-        assert said.startswith(f"The season at the plan date (season_sin1 = {sin:.3f}, season_cos1 = {cos:.3f}) "
-                               "lies outside the weeks this series has seen")
+        assert said == (f"The plan date ({label(plan_date)}) is {days_from(plan_date, data.date)} days from the "
+                        "nearest time of year this series has seen (more than season_days = 15): its rows cover "
+                        "6 Jan – 19 May of the year; the prediction there is an extrapolation.")
+
+
+def test_the_threshold_decides_and_is_checked():
+    data = weekly("2025-01-06", 20)
+    assert outside(data, "2025-06-04")[1] is not None  # 16 days after 19 May
+    assert outside(data, "2025-06-04", Thresholds(season_days=16))[1] is None
+    with pytest.raises(SettingsError, match="threshold season_days is out of range: expected a whole number of "
+                                            "days from 1 to 182, got 0"):
+        Thresholds(season_days=0)
+
+
+@pytest.mark.parametrize("plan_date", ["2027-01-01", "2027-01-02", "2027-04-02", "2027-07-01", "2027-10-01",
+                                       "2027-12-31", "2028-02-29", "2028-12-31"])
+def test_plan_dates_at_a_terms_peak_inside_two_years_of_weeks_are_inside(plan_date):
+    """Weekly rows never reach ±1 in a term: the old term-by-term check flagged these on every series."""
+    assert outside(weekly("2025-01-06", 104), plan_date)[1] is None
+
+
+def test_rows_a_week_or_a_month_apart_round_the_year_never_trip_it():
+    plans = every_day(2027) + every_day(2028)
+    weeks = [dt.date(2025, 1, 6) + dt.timedelta(7 * i) for i in range(104)]
+    months = [dt.date(y, m, 1) for y in (2023, 2024, 2025) for m in range(1, 13)]
+    assert max(days_from(p, weeks) for p in plans) <= 4 and max(days_from(p, months) for p in plans) <= 15
+    assert not season_outside(weeks, plans).any()
+    assert not season_outside(months, plans).any()
+
+
+def test_many_series_and_plan_dates_against_the_calendar():
+    """Ragged spells of weeks or scattered days (leap years among them) against plan dates all round the year."""
+    rng = np.random.default_rng(11)
+    for trial in range(4):
+        first = dt.date(2023, 1, 1) + dt.timedelta(int(rng.integers(0, 700)))
+        dates = sorted({first + dt.timedelta(int(d)) for d in
+                        (7 * np.arange(int(rng.integers(3, 30))) if trial % 2 else rng.integers(0, 200, 15))})
+        plans = [dt.date(2027, 1, 1) + dt.timedelta(int(d)) for d in rng.integers(0, 730, 60)]
+        expected = np.array([days_from(p, dates) > 15 for p in plans])
+        assert 0 < expected.sum() < len(plans)
+        np.testing.assert_array_equal(season_outside(dates, plans), expected)
 
 
 def test_a_whole_year_at_its_average_is_inside():
     _, said = outside(weekly("2024-01-01", 60))
     assert said is None
 
+
+def test_the_stretches_covered_name_each_spell():
+    from fitcore.review.time_of_year import covered
+    spring = [dt.date(2025, 1, 6) + dt.timedelta(7 * i) for i in range(20)]
+    winter = [dt.date(2025, 11, 3) + dt.timedelta(7 * i) for i in range(4)]
+    assert covered(np.array(spring + winter, dtype="datetime64[D]"), 15) == "6 Jan – 19 May and 3 Nov – 24 Nov"
+    across = [dt.date(2024, 11, 4) + dt.timedelta(7 * i) for i in range(14)]  # over the turn of the year
+    assert covered(np.array(across, dtype="datetime64[D]"), 15) == f"4 Nov – {label(across[-1])}"
