@@ -11,7 +11,7 @@ from pathlib import Path
 
 from fitcore import ledger
 from fitcore.ledger.elsewhere import backtested_elsewhere
-from fitcore.ledger.reader import collector_paused
+from fitcore.collector import collector_paused
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE_SHORT, decided_on_newer, newer_standing
 from fitcore.text import clean

@@ -8,8 +8,9 @@ from __future__ import annotations
 
 import argparse
 import sys
-from contextlib import contextmanager
 from pathlib import Path
+
+from fitcore.collector import collector_paused
 
 CAUTION = ("Curves fitted to observational sales data confound price with promotions, seasons and "
            "stock-outs; predictions outside the observed price range are extrapolations. "
@@ -148,7 +149,6 @@ def run_fit(args) -> int:
 
 def run_show(args) -> int:
     from fitcore.errors import SettingsError
-    from fitcore.ledger.reader import collector_paused
     keys = {}
     for item in args.key:
         name, sep, value = item.partition("=")
@@ -227,170 +227,14 @@ def within(key: dict, header: dict, products, keys: dict) -> bool:
     return (not products or key.get(product) in products) and all(key.get(k) in v for k, v in keys.items())
 
 
-def is_results(path: Path) -> bool:
-    from fitcore.data.columns import is_parquet_name
-    from fitcore.results.read import result_parts
-    if result_parts(path) is not None:
-        return True
-    if path.suffix.lower() == ".json":
-        return True
-    if is_parquet_name(path) and path.is_file():
-        import pyarrow.parquet as pq
-        try:
-            return b"pricefold" in (pq.read_schema(path).metadata or {})
-        except Exception:  # not a readable Parquet file: the loader will say so
-            return False
-    return False
-
-
 def run_triage(args) -> int:
-    with collector_paused():
-        return _run_triage(args)
-
-
-@contextmanager
-def collector_paused():
-    """Python's cyclic garbage collector off until the triage screen's first list is drawn (``tui.app.settle``
-    collects once, freezes what the session holds and turns it back on) or the command ends, as it was found:
-    at launch it walked the modules' and the session's objects again and again (≈ 0.05–0.1 s of the
-    interpreter's time before the list).  A local ``fit`` runs with it off throughout: numba's start and the
-    imports beside the read made it walk every module's objects again and again (256 collections, 0.07 s of CPU
-    holding the interpreter, whatever the data's size)."""
-    import gc
-    was = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if was:
-            gc.enable()
-
-
-def _run_triage(args) -> int:
-    from dataclasses import replace
-
-    from fitcore.data.config import load_config
-    from fitcore.outputs import check_not_input
-    from fitcore.results.source import Source, default_ledger, is_stored, source_from_results
-
-    from .options import resolve, settings_file_keys
-    ledger_path = args.ledger or default_ledger(args.source)
-    units = load_config(args.config, settings_file_keys()).get("units", {})
-    if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen
-        source = source_from_results(args.source, check_data=False)
-        check_not_input(ledger_path, [("the results", args.source), *_source_inputs(source)])
-        source.units, source.sep = units, _separator(args)  # another ledger's backtest: the header says it
-        return open_triage(source, ledger_path, args.analyst, stored=args.source)
-    if is_results(args.source):
-        source = source_from_results(args.source)
-        source.sep = _separator(args)
-        inputs = [("the results", args.source), *_source_inputs(source)]
-    else:
-        run = resolve(args)
-        if not args.source.exists():
-            from fitcore.errors import DataError
-            raise DataError("file not found", path=str(args.source))
-        source = Source(data=args.source, columns=run.columns, settings=replace(run.settings, extra={}),
-                        plan_file=run.plan_file, plan_price=run.plan_price, thresholds=run.thresholds, sep=run.sep)
-        inputs = [*_source_inputs(source), *run.inputs]
-    check_not_input(ledger_path, inputs)
-    source.units = units
-    other_ledger(source, ledger_path)
-    return open_triage(source, ledger_path, args.analyst)
-
-
-def other_ledger(source, ledger_path: Path) -> None:
-    """A warning on the screen when the results were fitted against another ledger than the one the screen
-    records into (a mistyped --ledger opens a new, empty ledger: every series pending); on stored results the
-    header says it instead, with their backtest left out (``TriageSession.elsewhere``)."""
-    from fitcore.ledger.elsewhere import same_file
-    fitted = source.fitted_ledger
-    if fitted and not same_file(Path(fitted), ledger_path):
-        new = "" if ledger_path.exists() else ", a new one (no decisions yet)"
-        source.warnings.append(f"These results were fitted against the ledger {fitted}; this screen records into "
-                               f"{ledger_path}{new}. Check --ledger.")
-
-
-def _separator(args) -> str | None:
-    """``--sep`` for the data a results file names (read by the option's own reader, as ``fit`` reads it)."""
-    from fitcore.fit.settings import OPTIONS
-    option = next(o for o in OPTIONS if o.name == "sep")
-    return option.value(args.sep) if getattr(args, "sep", None) is not None else None
-
-
-def _source_inputs(source) -> list:
-    """The files a triage session reads, which its ledger must not be."""
-    return [("the data", source.data), ("the plan file", source.plan_file)]
-
-
-# Above this many input rows, triage on stored results does not refit the data for the observations
-# (the local engine needs ~150 bytes a row).
-REFIT_ROWS = 50_000_000
-
-
-def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | None = None, prepare=None) -> int:
-    """The triage app on a fit of ``source``, or on the ``stored`` results file (then fit behind the screen,
-    after ``prepare()`` when given: the demo's compiling in another process).  Without a terminal, one line
-    at once (a screen drawn into a pipe would wait for a key nobody can press); a session that could not be
-    opened ends as one line too, after its dialog."""
-    from fitcore.errors import PricefoldError
-
-    from .ledger_cli import refuse_not_a_ledger
-    refuse_not_a_ledger(ledger_path)  # after the inputs' checks: a ledger that is an input is said as such
-    from .terminal import require_terminal
-    require_terminal("the triage screen")
-    app = triage_app(source, ledger_path, analyst, stored, prepare)
-    app.run()
-    if app.failure is not None:
-        raise PricefoldError(app.failure)
-    if app.return_code == 130:
-        print("pricefold triage: interrupted before the list was shown; nothing was recorded", file=sys.stderr)
-        return 130
-    if ledger_path.exists():  # after a failure before any decision there is no ledger to point to
-        print(f"decisions are in {ledger_path}", file=sys.stderr)
-    return app.return_code or 0
-
-
-def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | None = None, prepare=None):
-    """The app ``open_triage`` runs.  On stored results whose data file is gone (or too large to read here),
-    the session opens from the stored numbers alone and says why there are no observations."""
-    from fitcore.results.read import read_header
-    from fitcore.results.source import refit_stored
-    from tui.factory import open_session, open_stored_session
-    from tui.opening import Opening
-
-    from .ledger_cli import identity, ledger_key
-    who, key = identity(analyst), ledger_key()
-    if stored is None:
-        from tui.app import TriageApp
-        return TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
-    rows = read_header(stored).get("input", {}).get("rows") or 0
-    unobserved = None
-    if not source.found:
-        unobserved = f"the data file {source.data} was not found: observations and the refit are unavailable"
-    elif rows > REFIT_ROWS:
-        unobserved = f"the data behind these results have {rows:,} rows, too many to read here: no observations"
-
-    def refit(progress, first=None):
-        if prepare is not None:
-            prepare()
-        return refit_stored(source, progress, first)
-
-    def opener(progress):
-        session = open_stored_session(stored, ledger_path, who, key, progress, units=source.units)
-        session.warnings.extend(source.warnings)
-        if unobserved is not None:
-            session.unobserved = unobserved
-            session.warnings.append(f"{unobserved[0].upper()}{unobserved[1:]}; the list and the evidence show the "
-                                    "results as the file holds them.")
-        return session
-    opening = Opening(opener)  # the results read while the app's modules load (Arrow lets go of the interpreter)
-    from tui.app import TriageApp
-    return TriageApp(opening, observer=refit if unobserved is None else None)
+    from .triage_cli import run_triage as triage
+    return triage(args)
 
 
 def run_demo(args) -> int:
     from .demo import run_demo as demo
+    from .triage_cli import open_triage
     with collector_paused():
         return demo(args, open_triage)
 

@@ -22,7 +22,7 @@ COMPILING_NOTE = ("The engine is compiling behind the screen (once after an inst
 
 
 def run_demo(args, open_triage) -> int:
-    """The demo; ``open_triage``: the command line's (``pricefold.cli.open_triage``), passed in so this
+    """The demo; ``open_triage``: the command line's (``pricefold.triage_cli.open_triage``), passed in so this
     module does not import the one that imports it."""
     from fitcore.errors import DataError
     from fitcore.outputs import check_outputs

@@ -13,7 +13,7 @@ from pathlib import Path
 
 from fitcore import ledger
 from fitcore.ledger.elsewhere import same_file
-from fitcore.ledger.reader import collector_paused
+from fitcore.collector import collector_paused
 
 from .interrupts import held
 from .ledger_cli import MISSING_TAIL, NOT_A_LEDGER, not_a_ledger

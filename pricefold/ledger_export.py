@@ -70,7 +70,7 @@ def run_export(args) -> int:
     level = (header.get("settings") or {}).get("level")
     rows: list[list] = []
     later: list[tuple] = []  # (row, key, snapshot, price, the results' numbers): signed curves at another price
-    from fitcore.ledger.reader import collector_paused
+    from fitcore.collector import collector_paused
     from fitcore.ledger.snapshot import signed_plan
     with collector_paused():  # a few small objects a series and no cycles among them
         series = _by_columns(ahead, book) if parts is None else _by_records(parts, book)

@@ -17,7 +17,7 @@ from fitcore import ledger
 from fitcore.arrays import integers, texts
 from fitcore.data.keys import SeriesKeys
 from fitcore.fit.results import Results
-from fitcore.ledger.reader import collector_paused
+from fitcore.collector import collector_paused
 from fitcore.ledger.replay import SeriesHistory, series_id
 from fitcore.ledger.rules import what_happened
 from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale, without_shifted

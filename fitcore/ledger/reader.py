@@ -25,16 +25,15 @@ still that long, so that a decision does not wait for it (26–69 ms at 100,000 
 from __future__ import annotations
 
 import fcntl
-import gc
 import os
 import threading
 import time
 import zlib
 from collections.abc import Callable, Iterable
-from contextlib import contextmanager
 from datetime import datetime
 from pathlib import Path
 
+from ..collector import collector_paused
 from . import files
 from .chain import ChainState, check, check_plain
 from .fastjson import parse_lines
@@ -350,22 +349,6 @@ _RECORD_START = b'{"action":"'
 
 def _could_be_record(torn: bytes) -> bool:
     return torn[:len(_RECORD_START)] == _RECORD_START[:len(torn)]
-
-
-@contextmanager
-def collector_paused(freeze: bool = False):
-    """No cyclic garbage collection while records are made: they hold no cycles, and reading a
-    100k-record ledger otherwise triggers hundreds of collections (a third of the time).  ``freeze``:
-    what was made lives until the command ends, so it is moved out of every later collection too."""
-    paused = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if freeze:
-            gc.freeze()
-        if paused:
-            gc.enable()
 
 
 def parsed_lines(data: bytes, end: int, chunk: int = 1 << 22):

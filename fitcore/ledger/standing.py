@@ -68,7 +68,7 @@ class Standing:
 
 def standing_of(histories: dict) -> Standing:
     """The standing decisions of every series in ``histories`` (a ledger's replay)."""
-    from .reader import collector_paused
+    from ..collector import collector_paused
     with collector_paused():  # new objects by the 100,000 over a heap of records: no collection passes
         return _standing_of(histories)
 

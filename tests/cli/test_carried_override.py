@@ -206,7 +206,7 @@ def test_signing_into_a_mistyped_ledger_is_refused_or_warned(carried, tmp_path, 
     """Results fitted against a ledger name it: accept-unflagged will not start a new ledger elsewhere (a
     mistyped --ledger), and the triage screen warns when it records into another one."""
     from fitcore.results.source import source_from_results
-    from pricefold.cli import other_ledger
+    from pricefold.triage_cli import other_ledger
     book, _, _, results = carried
     missing = tmp_path / "ledgr.jsonl"
     capsys.readouterr()

@@ -163,8 +163,8 @@ def test_without_matplotlib_it_says_how_to_get_it(signed, tmp_path):
 
 
 def test_the_demo_prints_the_command_that_makes_its_report(tmp_path, monkeypatch, capsys):
-    from pricefold import cli, demo
-    monkeypatch.setattr(cli, "open_triage", lambda *args, **kwargs: 0)
+    from pricefold import cli, demo, triage_cli
+    monkeypatch.setattr(triage_cli, "open_triage", lambda *args, **kwargs: 0)
     monkeypatch.setattr("pricefold.terminal.require_terminal", lambda what: None)  # its screen is stubbed
     folder, pricefold = tmp_path / "demo", demo.typed_command()  # as typed here: bare or the command's path
     assert cli.main(["demo", "--dir", str(folder)]) == 0

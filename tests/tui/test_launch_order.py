@@ -136,7 +136,7 @@ async def test_the_collector_paused_for_the_launch_runs_again_once_the_list_is_d
     frozen what the session holds — a long session must not run without it."""
     import gc
 
-    from pricefold.cli import collector_paused
+    from fitcore.collector import collector_paused
     with collector_paused():
         assert not gc.isenabled()
         app = TriageApp(lambda progress: open_stored_session(SAMPLE / "results.parquet", tmp_path / "ledger.jsonl",
@@ -230,7 +230,7 @@ def test_the_first_list_reads_its_own_columns_only_and_the_evidence_fills_in_aft
 def test_the_command_line_reads_no_cycle_module_for_results_fitted_without_a_ledger(tmp_path):
     """``triage RESULTS`` warns when the results were fitted against another ledger; results fitted without
     one need nothing of the cycle commands (their module imports the ledger's readers and ``show``)."""
-    code = ("import sys; from pathlib import Path; from pricefold.cli import other_ledger; "
+    code = ("import sys; from pathlib import Path; from pricefold.triage_cli import other_ledger; "
             "from fitcore.results.source import source_from_results; "
             f"source = source_from_results(Path({str(SAMPLE / 'results.parquet')!r}), check_data=False); "
             f"other_ledger(source, Path({str(tmp_path / 'ledger.jsonl')!r})); "

@@ -238,7 +238,7 @@ async def test_results_whose_data_file_is_gone_open_from_the_stored_numbers_and_
     from fitcore.data.keys import SeriesKeys
     from fitcore.errors import DataError
     from fitcore.ledger.snapshot import from_results
-    from pricefold.cli import triage_app
+    from pricefold.triage_cli import triage_app
     data, out = fit_to_parquet(tmp_path)
     data.rename(tmp_path / "moved.csv")
     source = source_from_results(out, check_data=False)

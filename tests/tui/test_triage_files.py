@@ -11,6 +11,7 @@ import numpy as np
 import pytest
 
 import pricefold.cli as cli
+import pricefold.triage_cli as triage_cli
 from tui.factory import default_ledger, fit_source
 
 
@@ -46,7 +47,7 @@ def semicolon_file(path: Path) -> Counter:
 def triage_source(monkeypatch, argv: list[str]):
     """The source ``pricefold triage`` would open (the screen itself is not started)."""
     opened = {}
-    monkeypatch.setattr(cli, "open_triage", lambda source, *a, **k: opened.setdefault("source", source) and 0)
+    monkeypatch.setattr(triage_cli, "open_triage", lambda source, *a, **k: opened.setdefault("source", source) and 0)
     assert cli.main(["triage", *argv]) == 0
     return opened["source"]
 
@@ -92,7 +93,7 @@ def test_without_a_terminal_triage_is_one_line_and_never_draws(tmp_path, monkeyp
     """Under pytest standard input is not a terminal: a screen drawn there would wait for a key forever."""
     data = tmp_path / "semi.csv"
     semicolon_file(data)
-    monkeypatch.setattr(cli, "triage_app", lambda *a, **k: pytest.fail("the screen was started"))
+    monkeypatch.setattr(triage_cli, "triage_app", lambda *a, **k: pytest.fail("the screen was started"))
     assert cli.main(["triage", str(data), "--sep", ";", "--ledger", str(tmp_path / "l.jsonl")]) == 2
     err = capsys.readouterr().err
     assert err.startswith("pricefold triage: the triage screen needs a terminal") and err.count("\n") == 1
@@ -110,6 +111,6 @@ def test_a_session_that_could_not_open_ends_as_one_prefixed_line(tmp_path, monke
             pass
     monkeypatch.setattr(cli.sys.stdin, "isatty", lambda: True)
     monkeypatch.setattr(cli.sys.stdout, "isatty", lambda: True)
-    monkeypatch.setattr(cli, "triage_app", lambda *a, **k: Failed())
+    monkeypatch.setattr(triage_cli, "triage_app", lambda *a, **k: Failed())
     assert cli.main(["triage", str(data), "--sep", ";", "--ledger", str(tmp_path / "l.jsonl")]) == 2
     assert capsys.readouterr().err == "pricefold triage: semi.csv, line 1: expected a column 'price'\n"
