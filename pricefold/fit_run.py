@@ -251,7 +251,7 @@ def unplanned_line(results, plan_file: Path) -> str:
     other = (f"the other {len(missing):,} (the first: {first}) have" if len(missing) > 1
              else f"the other ({first}) has")
     return (f"{clean(str(plan_file))}: prices {results.n_series - len(missing):,} of {results.n_series:,} series; "
-            f"{other} no plan price (no plan volume, interval or outside-range check)")
+            f"{other} no plan price (no plan volume or interval, and no check of a plan price against the prices seen)")
 
 
 def first_words(rejects, columns) -> str:

@@ -321,6 +321,10 @@ def run_accept_unflagged(args) -> int:
                                flags=(), signed=snapshot)
 
     if not proposals and not args.ledger.exists():  # none is started (an empty file would read as one begun)
+        folder = args.ledger.parent
+        if not folder.is_dir() or not os.access(folder, os.W_OK | os.X_OK):  # as the append would have found
+            raise ledger.LedgerError(f"{args.ledger}: cannot start a ledger there ({folder} is not a folder this "
+                                     "user may write in); nothing was written")
         if not args.quiet:
             print(f"accepted 0 unflagged series: every series carries a flag or has no model, so no ledger was "
                   f"started at {args.ledger}", file=sys.stderr)

@@ -40,7 +40,7 @@ def add_ledger_parser(commands):
     bulk.add_argument("results", type=Path, metavar="RESULTS")
     bulk.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
     bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
-    bulk.add_argument("--note", action=OneText, default="", metavar="TEXT")
+    bulk.add_argument("--note", action=Once, default="", metavar="TEXT")
     bulk.add_argument("--new-series", action="store_true",
                       help="yes, these results' series new to the ledger are new series: accept them where the "
                            "ledger holds none of the results' series (the same key columns, other values) or "
@@ -52,18 +52,19 @@ def add_ledger_parser(commands):
     which = revoke.add_mutually_exclusive_group(required=True)
     which.add_argument("--record", type=record_number, nargs="+", metavar="N",
                        help="the records to withdraw, numbered as 'ledger show' prints them (#N); all or nothing")
-    which.add_argument("--batch", type=record_number, metavar="N",
+    which.add_argument("--batch", type=record_number, action=Once, metavar="N",
                        help="every decision of the batch record #N belongs to (an accept-unflagged or carry run) "
                             "still standing and yours")
-    revoke.add_argument("--note", action=OneText, required=True, metavar="TEXT",
+    revoke.add_argument("--note", action=Once, required=True, metavar="TEXT",
                         help="why (required: the ledger keeps it)")
     revoke.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     revoke.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success")
     return sub
 
 
-class OneText(argparse.Action):
-    """A text option given once (argparse kept the last of two silently: ``--note x --note y`` recorded y)."""
+class Once(argparse.Action):
+    """An option given once (argparse kept the last of two silently: ``--note x --note y`` recorded y,
+    ``--batch 1 --batch 158`` withdrew only the second)."""
 
     def __call__(self, parser, namespace, values, option_string=None):
         if getattr(namespace, self.dest, None) not in (None, "", self.default):
@@ -98,7 +99,7 @@ def add_carry_parser(sub) -> None:
     carry.add_argument("results", type=Path, metavar="RESULTS")
     carry.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
     carry.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
-    carry.add_argument("--note", action=OneText, default="", metavar="TEXT")
+    carry.add_argument("--note", action=Once, default="", metavar="TEXT")
     carry.add_argument("--carry-revised", action="store_true",
                        help="also carry series whose rows up to the signed date were revised but still fit the "
                             "signed curve (a rolling window: the oldest weeks dropped); by default they are left "

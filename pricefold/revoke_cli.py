@@ -56,7 +56,7 @@ def run_revoke(args) -> int:
     if not args.quiet:
         kept = f"; {len(left):,} of the batch left as they are (no longer standing, or not yours)" if left else ""
         if args.batch is not None and not (by_seq(book.records)[args.batch].get("batch") or {}).get("id"):
-            kept += f" (#{args.batch} was recorded alone, not in a batch: itself only)"
+            kept += f" (#{args.batch} was appended alone, a batch of one: itself only)"
         print(f"withdrew {len(written):,} decision{'s' * (len(written) != 1)}{kept} → {args.ledger}", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0

@@ -255,7 +255,7 @@ def _shifted(diag, s):
     return shift_sentence(bt.record(s), diag.results.names[chosen] if chosen >= 0 else None)
 
 
-WHY_UNTESTED = {"no-dates": "the data have no date column, so no backtest is possible",
+WHY_UNTESTED = {"no-dates": "these results were fitted without dates (no --date column), so no backtest is possible",
                 "no-new-rows": "no rows are dated after the signed data's last date, so there is nothing to backtest",
                 "unsigned": "the decision was recorded without its model, so no backtest is possible",
                 "undated": "the signed data had no dates, so no backtest is possible",

@@ -63,7 +63,13 @@ def stretches(date: np.ndarray, tolerance: int) -> list[tuple[str, str]]:
     return [(_label(date[a]), _label(date[b])) for a, b in pairs]
 
 
+SAID_STRETCHES = 4  # at most this many stretches named (a small season_days splits weekly rows into 52)
+
+
 def covered(date: np.ndarray, tolerance: int) -> str:
-    """'6 Jan – 19 May' (stretches joined by 'and'): what ``stretches`` says, as a sentence reads it."""
+    """'6 Jan – 19 May' (stretches joined by 'and', the first ``SAID_STRETCHES`` of many, then how many more):
+    what ``stretches`` says, as a sentence reads it."""
     parts = [first if first == last else f"{first} – {last}" for first, last in stretches(date, tolerance)]
+    if len(parts) > SAID_STRETCHES:
+        parts = parts[:SAID_STRETCHES] + [f"{len(parts) - SAID_STRETCHES} more stretches"]
     return " and ".join(parts) if parts else "the whole year"

@@ -58,13 +58,13 @@ def test_a_plan_file_pricing_some_series_is_said(tmp_path, capsys):
     order = list(dict.fromkeys((row["product"], row["region"]) for row in sample_rows()))
     unpriced = [key for key in order if key not in priced]  # the series in the file's order: the first is named
     assert f"{part}: prices {len(priced)} of {len(keys)} series; the other {len(keys) - len(priced)} (the first: " \
-           f"{' · '.join(unpriced[0])}) have no plan price (no plan volume, interval or outside-range check)" in said
+           f"{' · '.join(unpriced[0])}) have no plan price (no plan volume or interval, and no check of a plan price against the prices seen)" in said
     code, said = fit(capsys, SAMPLE / "wholesale.csv", "--plan", SAMPLE / "plan.csv", "-o", tmp_path / "all.parquet")
     assert code == 0 and not any("no plan price" in text for text in said)
     one_short = write(tmp_path / "one short.csv", [row for row in plan if (row["product"], row["region"]) != order[0]])
     code, said = fit(capsys, SAMPLE / "wholesale.csv", "--plan", one_short, "-o", tmp_path / "short.parquet")
     assert f"{one_short}: prices {len(keys) - 1} of {len(keys)} series; the other ({' · '.join(order[0])}) has no " \
-           "plan price (no plan volume, interval or outside-range check)" in said
+           "plan price (no plan volume or interval, and no check of a plan price against the prices seen)" in said
 
 
 @pytest.mark.parametrize("cell, hint", [("2,08", True), ("two", False)])

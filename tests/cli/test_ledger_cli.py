@@ -203,6 +203,8 @@ def test_accepting_nothing_starts_no_ledger(tmp_path, capsys):
     assert code == 0 and not ledger_path.exists()
     assert err == f"accepted 0 unflagged series: every series carries a flag or has no model, so no ledger was " \
                   f"started at {ledger_path}\n"
+    code, _, err = cli("ledger", "accept-unflagged", flagged, "--ledger", tmp_path / "no" / "l.jsonl", capsys=capsys)
+    assert code == 2 and "cannot start a ledger there" in err and not (tmp_path / "no").exists()  # a typo said
 
 
 def test_a_broken_or_unverifiable_ledger_is_refused_by_writers_and_exports(tmp_path, results, capsys, monkeypatch):

@@ -141,6 +141,7 @@ def test_a_broken_or_missing_ledger_is_refused_and_left_as_it_is(book, capsys, t
     (["--record", "\u0663", "--note", "n"], "got '\u0663'"),  # an Arabic-Indic three: int() reads it
     (["--record", "0", "--note", "n"], "got '0'"),
     (["--record", "1", "--note", "x", "--note", "y"], "--note given twice"),
+    (["--batch", "1", "--batch", "6", "--note", "x"], "--batch given twice"),
 ])
 def test_numbers_and_notes_are_read_as_written(book, capsys, args, said):
     before = book.read_bytes()
@@ -160,4 +161,4 @@ def test_a_record_number_as_shown_and_a_note_told_what_to_do(book, capsys):
 
 def test_a_batch_named_by_a_lone_record_says_so(book, capsys):
     assert revoke(book, "--batch", "6", "--note", "n") == 0
-    assert "withdrew 1 decision (#6 was recorded alone, not in a batch: itself only) → " in capsys.readouterr().err
+    assert "withdrew 1 decision (#6 was appended alone, a batch of one: itself only) → " in capsys.readouterr().err

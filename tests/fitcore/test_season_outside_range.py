@@ -148,3 +148,13 @@ def test_the_stretches_covered_name_each_spell():
     assert covered(np.array(spring + winter, dtype="datetime64[D]"), 15) == "6 Jan – 19 May and 3 Nov – 24 Nov"
     across = [dt.date(2024, 11, 4) + dt.timedelta(7 * i) for i in range(14)]  # over the turn of the year
     assert covered(np.array(across, dtype="datetime64[D]"), 15) == f"4 Nov – {label(across[-1])}"
+
+
+def test_many_stretches_are_named_up_to_four_then_counted():
+    """With a small season_days weekly rows split into 52 stretches: four named, the rest counted (a trial read
+    a sentence of 52 'and's)."""
+    from fitcore.review.time_of_year import covered
+    weeks = [dt.date(2025, 1, 6) + dt.timedelta(7 * i) for i in range(52)]
+    said = covered(np.array(weeks, dtype="datetime64[D]"), 1)
+    assert said.count(" and ") == 4 and said.endswith(" and 48 more stretches")
+    assert said.startswith(f"{label(weeks[0])} and {label(weeks[1])} and ")
