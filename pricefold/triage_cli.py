@@ -54,6 +54,10 @@ def _run_triage(args) -> int:
         if not args.source.exists():
             from fitcore.errors import DataError
             raise DataError("file not found", path=str(args.source))
+        from fitcore.data.columns import is_parquet_name
+        if is_parquet_name(args.source):  # a damaged or cut file said in one line here, not in the screen's dialog
+            from fitcore.data.read_parquet import parquet_schema
+            parquet_schema(args.source)
         source = Source(data=args.source, columns=run.columns, settings=replace(run.settings, extra={}),
                         plan_file=run.plan_file, plan_price=run.plan_price, thresholds=run.thresholds, sep=run.sep)
         inputs = [*_source_inputs(source), *run.inputs]

@@ -114,3 +114,16 @@ def test_a_session_that_could_not_open_ends_as_one_prefixed_line(tmp_path, monke
     monkeypatch.setattr(triage_cli, "triage_app", lambda *a, **k: Failed())
     assert cli.main(["triage", str(data), "--sep", ";", "--ledger", str(tmp_path / "l.jsonl")]) == 2
     assert capsys.readouterr().err == "pricefold triage: semi.csv, line 1: expected a column 'price'\n"
+
+
+def test_a_cut_parquet_file_is_one_line_before_any_screen(tmp_path, monkeypatch, capsys):
+    """A Parquet file cut short (a copy interrupted) is said as the loader says it, before the screen would start:
+    the screen's dialog waited for a key before the same line (a trial)."""
+    cut = tmp_path / "cut.parquet"
+    cut.write_bytes((Path(__file__).parents[2] / "sample" / "results.parquet").read_bytes()[:5000])
+    monkeypatch.setattr(triage_cli, "triage_app", lambda *a, **k: pytest.fail("the screen was started"))
+    monkeypatch.setattr(triage_cli, "open_triage", lambda *a, **k: pytest.fail("the screen was started"))
+    assert cli.main(["triage", str(cut), "--ledger", str(tmp_path / "l.jsonl")]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"pricefold triage: {cut}: not a readable Parquet file (") and err.count("\n") == 1
+    assert not (tmp_path / "l.jsonl").exists()
