@@ -3,10 +3,10 @@
 Named as ``ledger show`` numbers them (``--record 12 40``: all or nothing), or every decision of the batch a record
 belongs to (``--batch 12``: an ``accept-unflagged`` or ``carry`` run, taken back whole; its decisions replaced since,
 or not one's own, are left and counted).  The ledger's rule applies under its lock: a decision is withdrawn only by
-the OS user who made it, only while it is that user's latest standing decision on its series; what stood before it
-stands again (or the series is pending).  Only the decision in effect on its series is withdrawn here (one
-under a later decision, as on the screen, is not).  Binding: the records named are judged as the ledger holds them when the
-lock is taken, so a decision replaced by another analyst since ``ledger show`` printed it is not withdrawn.
+the OS user who made it; here, only the decision in effect on its series (one under a later decision is not, as on
+the screen); what stood before it stands again (or the series is pending).  Binding: the records named are judged
+as the ledger holds them when the lock is taken, so a decision replaced by another analyst since ``ledger show``
+printed it is not withdrawn.
 """
 from __future__ import annotations
 

@@ -3,11 +3,12 @@
 A row's draw mixes its series' stream (the series' key hash and the seed)
 with the row itself: its date where the rows have dates (one row a date in a
 series: repeats are rejected), else its price, its volume, then its weight
-and control values where the fit has them (their IEEE bits).  Rows are ordered by their draws; rows alike in what was drawn
-from (and so drawing alike) keep their order among themselves.  So a
-series' order depends only on the seed, its key and its rows' values: not
-on the machine, on which other series share the file, the chunk or the Dask
-partition, nor on the order of the rows in the file.
+and control values where the fit has them (their IEEE bits).  Rows are
+ordered by their draws; rows alike in what was drawn from (and so drawing
+alike) keep their order among themselves.  So a series' order depends only
+on the seed, its key and its rows' values: not on the machine, on which
+other series share the file, the chunk or the Dask partition, nor on the
+order of the rows in the file.
 """
 from __future__ import annotations
 
