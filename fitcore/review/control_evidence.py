@@ -82,15 +82,3 @@ def adjusted(family, volume: np.ndarray, gamma: np.ndarray, raw: np.ndarray, pla
     shift = np.where(kept[:, None], gamma[:, None] * (plan[:, None] - raw), 0.0).sum(axis=0)
     with np.errstate(divide="ignore", over="ignore"):
         return family.volume(family.response(volume) + shift, 1.0)
-
-
-def at_plan_covariance(full: np.ndarray, offset: np.ndarray, size: int) -> np.ndarray:
-    """(size, size) the unscaled covariance of the price curve at the plan's controls — intercept plus
-    Σ γ·offset, then the price terms — from the full design's (Q, Q) (``full``, [1, controls…, t, …])."""
-    m = len(offset)
-    pick = np.zeros((size, len(full)))
-    pick[0, 0] = 1.0
-    pick[0, 1:m + 1] = offset
-    for k in range(1, size):
-        pick[k, m + k] = 1.0
-    return pick @ full @ pick.T

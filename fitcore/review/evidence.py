@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..fit.basis import leverages, series_factor, unscaled_covariance
+from ..fit.basis import leverages, series_factor
 from ..fit.families.base import t_quantile
 from ..fit.results import Results
 from . import control_evidence
@@ -53,12 +53,11 @@ def design_factor(results: Results, s: int, c: int) -> tuple[np.ndarray, np.ndar
 def covariance(results: Results, s: int, c: int) -> np.ndarray:
     """(XᵀWX)⁻¹ (size, size) of candidate ``c`` on series ``s``'s rows, in its basis (``basis_of``): with
     σ² (``results.sigma2``) and df, all a signed curve needs for an interval at a new price.  With controls,
-    that of the curve at the plan's control values (``control_evidence.at_plan_covariance``)."""
-    full = unscaled_covariance(*design_factor(results, s, c))
-    if results.controls is None:
-        return full
-    offsets = control_evidence.plan_offsets(results, s, control_evidence.centred(results, s)[1])
-    return control_evidence.at_plan_covariance(full, offsets, results.candidates[c].complexity)
+    that of the curve at the plan's control values.  The one series' cell of ``intervals.covariances``, the
+    matrix the results store and a sign-off records."""
+    from .intervals import covariances
+    k = results.candidates[c].complexity
+    return covariances(results, np.array([s]))[0, c, :k, :k]
 
 
 def adjusted_volumes(results: Results, s: int, c: int) -> np.ndarray:
