@@ -17,7 +17,6 @@ def rejects_line(reasons: list[str], where: Path, read: int, first: str = "") ->
     """'3 rows rejected: 1 negative price · … — see r.rejects.csv'; ``read``: the rows read, so that a run
     fitting what little is left of a misread file (a wrong delimiter, decimal commas) says so, with
     ``first``: where the first rejected row is and why (``loader.first_rejected``)."""
-    from fitcore.data.validation import summary
-    most = (f"; that is {len(reasons):,} of the {read:,} rows read{first}: check the delimiter (--sep), the "
-            "columns and the decimal mark (--strict fails such a run)") if 2 * len(reasons) > read else ""
-    return f"{summary(reasons)} — see {where}{most}"
+    from fitcore.data.validation import misread, summary
+    most = misread(len(reasons), read, first)
+    return f"{summary(reasons)} — see {where}{most}{' (--strict fails such a run)' if most else ''}"

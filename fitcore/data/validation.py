@@ -237,3 +237,13 @@ def summary(reasons_of_rejected: list[str] | np.ndarray) -> str:
     parts = " · ".join(f"{count:,} {reason}{'s' * (reason == EMPTY_LINE and count != 1)}"  # "3 empty lines"
                        for reason, count in counts.most_common())  # (" · ": a reason may hold a comma)
     return f"{total:,} row{'s' if total != 1 else ''} rejected: {parts}"
+
+
+def misread(rejected: int, read: int, first: str = "") -> str:
+    """'; that is 9 of the 12 rows read: check the delimiter (--sep), the columns and the decimal mark' where
+    more than half the rows read were rejected (a wrong delimiter, decimal commas), else ''; ``first``: where
+    the first rejected row is and why, said after the count."""
+    if 2 * rejected <= read:
+        return ""
+    return (f"; that is {rejected:,} of the {read:,} rows read{first}: check the delimiter (--sep), the columns and "
+            "the decimal mark")

@@ -86,10 +86,8 @@ def rejected_text(session) -> str | None:
     rejects = session.rejects
     if rejects is None:
         return None
-    from fitcore.data.validation import summary
-    read = session.results.data.source.get("rows") or 0
-    most = (f"; that is {len(rejects):,} of the {read:,} rows read: check the delimiter (--sep), the columns and "
-            "the decimal mark") if 2 * len(rejects) > read else ""
+    from fitcore.data.validation import misread, summary
+    most = misread(len(rejects), session.results.data.source.get("rows") or 0)
     rows = [f"\n    {'line' if rejects.kind != 'parquet' else 'row'} {int(line):,}: {printable(str(why))}"
             for line, why in zip(rejects.lines[:HELP_LISTS].tolist(), rejects.reasons[:HELP_LISTS])]
     more = f"\n    … and {len(rejects) - HELP_LISTS:,} more" if len(rejects) > HELP_LISTS else ""
