@@ -20,6 +20,8 @@ from .records import GENESIS, HEX64, SCHEMA, SCHEMA_1, digest_of, shape_problem,
 
 KEYED, PLAIN = "hmac-sha256", "sha256"
 EDITED = "record was edited: its digest does not match its content"
+# A keyed digest that does not match may as well mean the key is not the one it was signed with.
+KEYED_EDITED = "record was edited, or signed with another key than PRICEFOLD_LEDGER_KEY: its digest does not match"
 
 
 @dataclass
@@ -57,7 +59,7 @@ def check(state: ChainState, record: dict, raw: bytes, key: bytes | None) -> Ver
         if key is None:
             unverifiable = True
         elif not shape and not digest_matches(record, raw, key):
-            problems.append(EDITED)
+            problems.append(KEYED_EDITED)
     elif key is not None:
         problems.append("plain digest while a ledger key is in force (added without the key)")
     elif state.keyed:

@@ -91,6 +91,19 @@ def test_verify_with_the_wrong_key_says_so_first(tmp_path, results):
     assert run_cli("ledger", "verify", str(ledger_path), env={"PRICEFOLD_LEDGER_KEY": "right"}).returncode == 0
 
 
+@pytest.mark.parametrize("command", [["revoke", "--batch", "1", "--note", "n"], ["show"]])
+def test_other_readers_with_the_wrong_key_name_the_key_too(tmp_path, results, command):
+    """Not only ``verify``: a writer refusing, or ``show`` warning, says a keyed digest may not match because
+    of the key, not only because the record was edited."""
+    ledger_path = tmp_path / "decisions.jsonl"
+    run_cli("ledger", "accept-unflagged", str(results), "--ledger", str(ledger_path),
+            env={"PRICEFOLD_LEDGER_KEY": "right"})
+    before = ledger_path.read_bytes()
+    done = run_cli("ledger", command[0], str(ledger_path), *command[1:], env={"PRICEFOLD_LEDGER_KEY": "wrong"})
+    assert "line 1: record was edited, or signed with another key than PRICEFOLD_LEDGER_KEY" in done.stderr
+    assert ledger_path.read_bytes() == before
+
+
 @pytest.mark.parametrize("command", [["ledger", "show"], ["ledger", "export", "--results", "R", "-o", "OUT"],
                                      ["show", "R", "--ledger"]])
 def test_a_mistyped_ledger_is_an_error_for_commands_that_only_read_it(tmp_path, results, command):
