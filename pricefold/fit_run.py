@@ -233,7 +233,7 @@ def zero_price_line(data, path: Path, column: str) -> str:
         return ""
     series = len(np.unique(np.searchsorted(data.offsets, zero, side="right")))
     rows = f"{len(zero):,} rows in {series:,} series have" if len(zero) > 1 else "1 row has"
-    at = "" if data.line is None else f"line {int(data.line[zero].min()):,}"
+    at = "" if data.line is None else f"line {int(data.line[zero].min())}"
     first = f" ({'the first at ' if len(zero) > 1 else ''}{at})" if at else ""
     return (f"{path}, column {column!r}: {rows} a price of 0{first}: kept, but often a missing price written as 0; "
             "a log-log curve needs prices above zero and is unavailable there")
@@ -258,7 +258,7 @@ def first_words(rejects, columns) -> str:
     """', the first at line 5, column 'price': non-numeric price: '2,08' (a decimal comma? …)'."""
     from fitcore.data.loader import first_rejected
     column, said = first_rejected(rejects, columns)
-    return f", the first at line {int(rejects.lines[0]):,}" + (f", column {column!r}" if column else "") + f": {said}"
+    return f", the first at line {int(rejects.lines[0])}" + (f", column {column!r}" if column else "") + f": {said}"
 
 
 def summary(results, diagnosis):

@@ -33,7 +33,7 @@ def fit(capsys, *args) -> tuple[int, list[str]]:
 
 def test_prices_of_zero_are_counted_with_their_first_line(tmp_path, capsys):
     rows = sample_rows()
-    for i in (40, 41, 700):  # lines 42, 43 and 702 of the file
+    for i in (1400, 1401, 2700):  # lines 1402, 1403 and 2702: a line number as the file counts it, no separator
         rows[i]["price"] = "0"
     data = write(tmp_path / "zeros.csv", rows)
     zero = [i + 2 for i, row in enumerate(csv.DictReader(open(data, newline=""))) if float(row["price"]) == 0]
@@ -92,6 +92,16 @@ def test_a_run_that_rejects_most_rows_says_so(tmp_path, capsys, bad, said_most):
     assert line.startswith(f"{bad} rows rejected: {bad} non-numeric price — see {tmp_path / 'r.rejects.csv'}")
     assert (f"; that is {bad} of the 30 rows read, the first at line 2, column 'price': non-numeric price: 'n/a': "
             "check the delimiter" in line) is said_most
+
+
+def test_the_first_rejected_line_is_written_as_an_editor_counts_it(tmp_path, capsys):
+    """Line numbers are for ``sed -n 1999p`` or an editor's go-to-line: no thousands separator."""
+    rows = sample_rows()[:4000]
+    for row in rows[1997:]:  # over half rejected, so the first is said
+        row["price"] = "n/a"
+    code, said = fit(capsys, write(tmp_path / "d.csv", rows), "-o", tmp_path / "r.parquet")
+    (line,) = [text for text in said if "rejected" in text]
+    assert code == 0 and "the first at line 1999, column 'price'" in line, line
 
 
 @pytest.mark.parametrize("cell, said_after", [
