@@ -208,13 +208,14 @@ def control_ranges(results: Results, series: np.ndarray | None = None, season_da
     """(S, M) each control term's lowest and highest value in each series — the columns, then the season
     terms of its rows' dates — and (S, M) bool: the plan's value lies outside them (a curve held there is
     an extrapolation in that control).  The season is judged as a whole, every season term alike: a plan
-    date more than ``season_days`` from the time of year of every row (``time_of_year``); without one,
-    the year's average (every term 0) outside a term's values — rows within half a year.  M = 0 without
+    date more than ``season_days`` from the time of year of every row (``time_of_year``); without one, the
+    year's average (every term 0), which averages every time of year, when some day of the year is more than
+    ``season_days`` from every row (the series not seen all year round).  M = 0 without
     controls or rows.  ``series`` (indices): those series only, S = len(series) (one candidate's checks;
     ``diagnose`` keeps every series' answer: ``Diagnosis.controls_outside``)."""
     from ..fit.controls import day_phase, season_terms
     from .intervals import rows_of
-    from .time_of_year import days_apart, plan_phase
+    from .time_of_year import days_apart, plan_phase, widest_gaps
     data, ctl = results.data, results.controls
     offsets = data.offsets.astype(np.int64)
     columns = [] if ctl is None else [name for name in ctl.names if name in data.controls]
@@ -228,7 +229,7 @@ def control_ranges(results: Results, series: np.ndarray | None = None, season_da
     starts = (np.cumsum(counts) - counts)[filled]
     at = np.asarray(ctl.plan, dtype=float)[series, :lo.shape[1]] if lo.shape[1] else lo
     planned = plan_phase(at[:, len(columns)], at[:, len(columns) + 1]) if season else np.full(len(series), np.nan)
-    nearest = np.full(len(series), np.nan)  # days from the plan date to the nearest row's time of year
+    nearest = np.full(len(series), np.nan)  # days from the plan date (or the farthest day) to the nearest row's
     if len(starts):
         rows = slice(None) if whole else rows_of(offsets, series)
         terms = [np.asarray(data.controls[name], dtype=float) for name in columns]
@@ -238,14 +239,17 @@ def control_ranges(results: Results, series: np.ndarray | None = None, season_da
             if values is not None:
                 lo[filled, j] = np.minimum.reduceat(values, starts)
                 hi[filled, j] = np.maximum.reduceat(values, starts)
-        if season and np.isfinite(planned).any():
-            apart = days_apart(day_phase(data.date[rows]), np.repeat(planned, counts))
+        if season:
+            phase = day_phase(data.date[rows])
+            apart = days_apart(phase, np.repeat(planned, counts))  # NaN where the plan gives no date
             nearest[filled] = np.minimum.reduceat(apart, starts)
+            average = np.isnan(planned) & filled  # the year's average: its day farthest from every row, half
+            if average.any():  # the widest gap between the rows' times of year
+                nearest[average] = np.floor(widest_gaps(phase[np.repeat(average, counts)], counts[average]) / 2)
     with np.errstate(invalid="ignore"):
         outside = (at < lo) | (at > hi)
-        if season:  # the plan date by its distance in days; the year's average by the terms' values
-            outside[:, len(columns):] = np.where(np.isfinite(planned), nearest > season_days,
-                                                 outside[:, len(columns):].any(axis=1))[:, None]
+        if season:  # by the days from a row's time of year: to the plan date's, or (no date) to the farthest
+            outside[:, len(columns):] = (nearest > season_days)[:, None]
     return lo, hi, outside
 
 

@@ -3,7 +3,9 @@
 The season terms are functions of a date's phase d = (day of the year − 1) / days in that year
 (``fit.controls.season_terms``).  A plan date is judged by that phase itself: days around the year to
 the nearest row's, not term by term (weekly rows never reach ±1 in a term, so a plan date near a
-term's peak would lie outside the values of every series, though its rows surround it).
+term's peak would lie outside the values of every series, though its rows surround it).  Without a plan
+date the prediction is the year's average, which averages every time of year: judged by the day of the
+year farthest from every row (``widest_gaps``).
 """
 from __future__ import annotations
 
@@ -26,6 +28,20 @@ def days_apart(a, b) -> np.ndarray:
     """Whole days between phases ``a`` and ``b`` the shorter way round the year."""
     turn = np.abs(np.asarray(a) - np.asarray(b)) % 1.0
     return np.rint(np.minimum(turn, 1.0 - turn) * YEAR)
+
+
+def widest_gaps(phase: np.ndarray, counts: np.ndarray) -> np.ndarray:
+    """(S,) each series' widest gap, in whole days, between the times of year of its rows (``phase``, the
+    series' rows one after another, ``counts`` of each, every count above 0), round the year: a day in the
+    middle of it lies half the gap from the nearest row.  One row: the whole year, 365 days."""
+    owner = np.repeat(np.arange(len(counts)), counts)
+    order = np.argsort(owner + phase)  # by series, then time of year (a phase is below 1); half a lexsort's time
+    phase = phase[order]
+    starts = np.cumsum(counts) - counts
+    following = np.append(phase[1:], 0.0)
+    last = starts + counts - 1
+    following[last] = phase[starts] + 1.0  # the last row of the year to the first of the next
+    return np.maximum.reduceat(np.rint((following - phase) * YEAR), starts)
 
 
 def day_month(phase: float) -> str:

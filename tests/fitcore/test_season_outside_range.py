@@ -2,8 +2,9 @@
 more than ``season_days`` (15) from the time of year of every row of the series, days counted round the
 year between phases d = (day of the year − 1) / (days in that year) — the README's definition of the
 terms — as a year of 365.25 days, rounded to whole days.  Without a plan date, the year's average (every
-term 0) is outside when it lies outside a term's values (rows within half a year).  Every phase, distance
-and day-and-month label here is worked out with the standard library's calendar and datetime."""
+term 0), which averages every time of year, is outside when some day of the year lies more than
+``season_days`` from every row.  Every phase, distance and day-and-month label here is worked out with the
+standard library's calendar and datetime."""
 from __future__ import annotations
 
 import calendar
@@ -139,6 +140,56 @@ def test_many_series_and_plan_dates_against_the_calendar():
 def test_a_whole_year_at_its_average_is_inside():
     _, said = outside(weekly("2024-01-01", 60))
     assert said is None
+
+
+def farthest_day(dates) -> int:
+    """Whole days from the day of the year farthest from every row to the nearest row (calendar days of a
+    common and a leap year alike)."""
+    return max(days_from(d, dates) for d in every_day(2027) + every_day(2028))
+
+
+@pytest.mark.parametrize("first, weeks", [("2024-09-16", 18),  # mid-September to mid-January: 0 within both
+                                          ("2025-01-06", 48),  # a year but for its last five weeks
+                                          ("2025-01-06", 52)])  # a whole year of weeks
+def test_the_year_average_is_outside_unless_every_time_of_year_is_near_a_row(first, weeks):
+    """The year's average averages every time of year.  Judged by the terms' values (0 inside each term's
+    range), rows from mid-September to mid-January passed — a third of the year seen — as would any spell of
+    a season term crossing both zeros."""
+    data = weekly(first, weeks)
+    seen = np.array([terms(d) for d in data.date])
+    expected = farthest_day(list(data.date)) > 15
+    assert expected == (weeks < 52)
+    if weeks == 18:
+        assert (seen.min(axis=0) < 0).all() and (seen.max(axis=0) > 0).all()  # the old check passed it
+    _, said = outside(data)
+    assert (said is not None) == expected
+    if expected:
+        assert said.startswith("The season's average over the year (no plan date given) rests on a series not seen "
+                               "all year round: its rows cover only ")
+
+
+def test_widest_gaps_of_ragged_series_against_the_calendar():
+    """Series of 1 to 30 rows, unsorted, each one's widest gap round the year as the calendar counts it."""
+    from fitcore.fit.controls import day_phase
+    from fitcore.review.time_of_year import widest_gaps
+    rng = np.random.default_rng(4)
+    series = [[dt.date(2023, 1, 1) + dt.timedelta(int(d)) for d in rng.integers(0, 900, int(rng.integers(1, 30)))]
+              for _ in range(40)] + [[dt.date(2024, 2, 29)]]
+    expected = []
+    for dates in series:
+        p = sorted(phase(d) for d in dates)
+        expected.append(max(round((b - a) * 365.25) for a, b in zip(p, p[1:] + [p[0] + 1.0])))
+    flat = np.array([d for dates in series for d in dates], dtype="datetime64[D]")
+    got = widest_gaps(day_phase(flat), np.array([len(dates) for dates in series]))
+    np.testing.assert_array_equal(got, expected)
+    assert got[-1] == 365  # one row: the whole year
+
+
+def test_a_month_apart_round_the_year_at_the_year_average_is_inside_and_one_missing_month_is_not():
+    months = [dt.date(2025, m, 1) for m in range(1, 13)]
+    assert farthest_day(months) == 15
+    assert not season_outside(months, [None])[0]
+    assert farthest_day(months[:6] + months[7:]) == 31 and season_outside(months[:6] + months[7:], [None])[0]
 
 
 def test_the_stretches_covered_name_each_spell():
