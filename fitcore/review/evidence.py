@@ -11,7 +11,6 @@ from __future__ import annotations
 import numpy as np
 
 from ..fit.basis import leverages, series_factor
-from ..fit.families.base import t_quantile
 from ..fit.results import Results
 from . import control_evidence
 
