@@ -15,7 +15,7 @@ from ..arrays import numbers, objects
 from ..errors import DataError, first_line
 from .columns import Columns
 from .key_codes import KeyCodes
-from .validation import FIRST_DAY, LAST_DAY, RawRows
+from .validation import FIRST_DAY, RawRows
 
 # datetime64[ns] holds 1677-09-21 00:12:43 … 2262-04-11 23:47:16: the whole days inside, in microseconds.
 _US_LO = int(np.datetime64(FIRST_DAY, "us").astype(np.int64))

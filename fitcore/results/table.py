@@ -224,7 +224,6 @@ class FlagTexts:
         return texts.slice(lo - start, hi - lo)
 
     def _of(self, lo: int, hi: int):
-        import pyarrow as pa
         import pyarrow.compute as pc
         m = hi - lo
         if self.raised is None:

@@ -10,8 +10,6 @@ import json
 import math
 from pathlib import Path
 
-import numpy as np
-
 from ..data.columns import is_parquet_name
 from ..errors import DataError
 from ..fit.results import SCHEMA, Results
