@@ -281,6 +281,22 @@ async def test_ctrl_c_quits_as_in_any_terminal_command_but_not_out_of_a_note(led
     assert records(ledger_path) == [] and app.return_code in (0, None)
 
 
+@pytest.mark.parametrize("key, shown", [("f", "Filter"), ("s", "Order the list by"), ("question_mark", "Keys"),
+                                        ("o", "Override")])
+async def test_ctrl_c_leaves_from_every_dialog(ledger_path, key, shown):
+    """README: Ctrl+C leaves, also inside a dialog.  A trial pressed it three times in the filter, sort, help and
+    override dialogs and the screen stayed (their lists took the key)."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await started(app, pilot)
+        await pilot.press(key)
+        await until(pilot, lambda: shown.lower() in screen_text(app).lower() and app.screen.is_modal)
+        await pilot.press("ctrl+c")
+        await pilot.pause()
+        assert not app.is_running
+    assert records(ledger_path) == [] and app.return_code in (0, None)
+
+
 async def test_ctrl_c_while_the_session_opens_is_an_interrupted_command(ledger_path):
     """While the data are read and fitted Ctrl+C interrupts the command, as `fit`'s does (exit 130, which the
     command line says in a line); it ended with 0, as if the triage had been done."""

@@ -23,6 +23,9 @@ class Dialog(ModalScreen):
     Textual's ``dismiss`` pops whatever screen is on top: the triage screen itself, leaving a blank terminal
     where no key acts.  Only the first answer counts."""
 
+    # Ctrl+C leaves pricefold from any dialog as from the list (a modal screen ends the key's way to the app)
+    BINDINGS = [Binding("ctrl+c", "app.interrupt", show=False, priority=True)]
+
     def dismiss(self, result=None):
         if self.app.screen is not self:  # answered already: not this dialog's screen to pop
             return None
