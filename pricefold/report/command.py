@@ -137,6 +137,20 @@ def _draw_some(series: list[int]) -> list:
     return [_CHARTS.draw(s) for s in series]
 
 
+def _with_parent(parent: int) -> None:
+    """A drawing process ends with the report's (killed, it left them drawing, then waiting for work, for ever):
+    the kernel's parent-death signal where there is one (Linux), and an orphan at its start ends at once."""
+    import ctypes
+    import os
+    import signal
+    try:
+        ctypes.CDLL(None, use_errno=True).prctl(1, int(signal.SIGKILL))  # PR_SET_PDEATHSIG
+    except (AttributeError, OSError):  # no prctl here
+        pass
+    if os.getppid() != parent:  # the report ended before the line above
+        os._exit(1)
+
+
 class Charts:
     """Series index → its chart (``Drawn``), from the fit of the data where it matches the results.
 
@@ -167,7 +181,8 @@ class Charts:
         halves = [self.series[k::workers] for k in range(workers)]
         _CHARTS = self
         try:
-            with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
+            with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork"), initializer=_with_parent,
+                                     initargs=(os.getpid(),)) as pool:
                 for half, drawn in zip(halves, pool.map(_draw_some, halves)):
                     self._drawn.update(zip(half, drawn))
         except (BrokenProcessPool, OSError):  # no processes to be had here: draw them all in this one

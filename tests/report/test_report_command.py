@@ -240,3 +240,51 @@ def test_the_page_says_when_the_rejects_file_is_not_the_one_the_results_record(t
     (tmp_path / "r.rejects.csv").unlink()
     assert rejects_state(header, str(results)) == f"; its rejects file {tmp_path / 'r.rejects.csv'} is missing"
     assert rejects_state({"input": {"rejects_file": None}}, str(results)) == ""
+
+
+def _children(pid: int) -> list[int]:
+    from pathlib import Path
+    found = []
+    for task in Path(f"/proc/{pid}/task").glob("*"):
+        try:
+            found += [int(c) for c in (task / "children").read_text().split()]
+        except OSError:
+            pass
+    return found
+
+
+def _alive(pid: int) -> bool:
+    from pathlib import Path
+    try:
+        state = next(line for line in Path(f"/proc/{pid}/status").read_text().splitlines() if line.startswith("State"))
+    except (OSError, StopIteration):
+        return False
+    return "Z" not in state.split()[1]  # a zombie has ended, waiting only to be reaped
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="reads /proc for the drawing processes")
+def test_a_killed_report_leaves_no_drawing_process_behind(signed, tmp_path):
+    """A trial killed a report (SIGKILL) while it drew: its two drawing processes went on for minutes."""
+    import os
+    import signal
+    import time
+    output = tmp_path / "report.html"
+    every_chart_in_two = ("import sys; from pricefold.report import command; command.PARALLEL_FROM = 1; "
+                          "from pricefold.cli import main; sys.exit(main(sys.argv[1:]))")
+    run = subprocess.Popen([sys.executable, "-c", every_chart_in_two, "report", str(signed["results"]), "--ledger",
+                            str(signed["ledger"]), "-o", str(output)], stdout=subprocess.DEVNULL,
+                           stderr=subprocess.DEVNULL)
+    drawing, until = [], time.monotonic() + 60
+    while len(drawing) < 2 and run.poll() is None and time.monotonic() < until:
+        drawing = _children(run.pid)
+        time.sleep(0.01)
+    assert len(drawing) == 2, "the report never drew in two processes"
+    os.kill(run.pid, signal.SIGKILL)
+    run.wait()
+    until = time.monotonic() + 10
+    while any(_alive(pid) for pid in drawing) and time.monotonic() < until:
+        time.sleep(0.05)
+    left = [pid for pid in drawing if _alive(pid)]
+    for pid in left:
+        os.kill(pid, signal.SIGKILL)
+    assert not left and not output.exists()
