@@ -47,7 +47,8 @@ def _near_tie(diag, series):
 def _weak_fit(diag, series):
     import pyarrow.compute as pc
     score = diag.results.score[series]
-    out = fill(S.WEAK_FIT, score=pcts(score), wanted=S.pct(diag.thresholds.weak_score))
+    bar = diag.thresholds.weak_score
+    out = fill(S.WEAK_FIT, score=texts([S.pct_beside(value, bar) for value in score.tolist()]), wanted=S.pct(bar))
     undefined = ~np.isfinite(score)  # a volume that never varies: rare, its sentence series by series
     if not undefined.any():
         return out

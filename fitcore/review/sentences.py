@@ -56,6 +56,16 @@ def pct(share: float) -> str:
     return "0%" if text == "-0%" else text
 
 
+def pct_beside(share: float, bar: float) -> str:
+    """``pct``, with as many decimals as it takes (up to three) not to read as the ``bar`` it is judged against:
+    "29.96%" below a 30% bar, not "30%, below 30%"."""
+    for digits in range(4):
+        text, said = f"{share * 100:,.{digits}f}%", f"{bar * 100:,.{digits}f}%"
+        if text != said:
+            break
+    return "0%" if text == "-0%" else text
+
+
 def sentence(diag, s: int, code: str) -> str:
     return SENTENCES[code](diag, s)
 
@@ -222,7 +232,8 @@ def _weak_fit(diag, s):
     score = float(diag.results.score[s])
     if not math.isfinite(score):  # the rows' values are not read: a writer may have freed them already
         return WEAK_FIT_CONSTANT.format(n=f"{int(diag.results.data.counts[s]):,}")
-    return WEAK_FIT.format(score=pct(score), wanted=pct(diag.thresholds.weak_score))
+    bar = diag.thresholds.weak_score
+    return WEAK_FIT.format(score=pct_beside(score, bar), wanted=pct(bar))
 
 
 def _influential(diag, s):
@@ -321,8 +332,8 @@ def history_sentence(bt: dict) -> str:
                 "cannot vouch for it: look again.")
     signed = bt.get("signed_rows")
     them = f"the {signed:,} it was signed on" if isinstance(signed, int) and signed >= 0 else "the rows it was signed on"
-    what = f"The {rows:,} {'row' if rows == 1 else 'rows'} {upto} are not {them} (restated, added, dropped, " \
-           "re-dated or reordered since)"
+    what = f"The {rows:,} {'row' if rows == 1 else 'rows'} {upto} are not {them} (restated, added, dropped or " \
+           "re-dated since)"  # not "reordered": dated rows are read in date order, whatever the file's
     if bt["status"] == "history-changed":
         return (f"{what}, and its error on them is {fmt_ratio(ratio)}× its CV error: the history it was signed on "
                 "has changed, so the rows since cannot vouch for it; look again.")

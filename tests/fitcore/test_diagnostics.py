@@ -6,6 +6,7 @@ values recomputed independently from the data or the fitted curve.
 """
 from __future__ import annotations
 
+import math
 import re
 
 import numpy as np
@@ -156,6 +157,22 @@ def test_weak_fit():
     results, flags = run(P, v)
     assert set(flags) == {"weak-fit"}
     assert f"(Q²) is {results.score[0] * 100:.0f}%" in flags["weak-fit"]
+
+
+@pytest.mark.parametrize("bar_from", ["rounded", "a hair above"])
+def test_a_weak_fit_just_under_its_bar_does_not_read_as_the_bar(bar_from):
+    """A trial read "Q² is 30%, below 30%": a score that rounds to the bar gets the fewest decimals (up to three)
+    at which the two read apart, in the one series' sentence and in the sentences written for many at once."""
+    from fitcore.review.sentence_columns import flag_sentences
+    v = (1000 - 10 * P) * (wiggle(60, 2.5) + 0.03 * np.cos(np.arange(60) * 1.1))
+    score = float(run(P, v)[0].score[0])
+    bar = math.ceil(score * 100) / 100 if bar_from == "rounded" else score + 2e-5
+    digits = next(d for d in range(4) if f"{score * 100:.{d}f}" != f"{bar * 100:.{d}f}")
+    assert digits > 0 and f"{score * 100:.0f}" == f"{bar * 100:.0f}"  # as whole percents they read alike
+    results, flags = run(P, v, thresholds=Thresholds(weak_score=bar))
+    said = f"(Q²) is {score * 100:.{digits}f}%, below {bar * 100:.0f}%"
+    assert said in flags["weak-fit"]
+    assert said in flag_sentences(diagnose(results, Thresholds(weak_score=bar)), np.array([0]), "weak-fit")[0].as_py()
 
 
 def test_influential_point_names_its_line_and_values():
