@@ -94,14 +94,35 @@ class Signoff:
         """Series per status, plus ``carried`` (a part of ``accepted``: accepts carried forward),
         ``carried_overridden`` (a part of ``overridden``: overrides carried forward), ``stale_overridden`` and
         ``stale_held`` (parts of ``stale``: the decision standing on the older data is an override, or a hold —
-        an approver reading "0 overridden" would otherwise not learn of them) and ``total``."""
+        an approver reading "0 overridden" would otherwise not learn of them), ``stale_newer`` (a part of
+        ``stale``: decided on newer data than these results, ``newer``) and ``total``."""
         tally = np.bincount(self.status, minlength=len(STATUSES))
         out = dict(zip(STATUSES, tally.tolist()))
         out["carried"] = int((self.carried & (self.status == STATUSES.index("accepted"))).sum())
         out["carried_overridden"] = int((self.carried & (self.status == STATUSES.index("overridden"))).sum())
-        out["stale_overridden"] = int((self.stale_action == "override").sum())
-        out["stale_held"] = int((self.stale_action == "hold").sum())
+        older = ~self.newer
+        out["stale_overridden"] = int(((self.stale_action == "override") & older).sum())
+        out["stale_held"] = int(((self.stale_action == "hold") & older).sum())
+        out["stale_newer"] = int(self.newer.sum())
         out["total"] = int(len(self.status))
+        return out
+
+    @cached_property
+    def newer(self) -> np.ndarray:
+        """(S,) bool: stale, and the decision standing on it was made on newer data than these results' rows
+        (``rules.decided_on_newer``, as ``show --ledger`` and the screen judge it): older results read with a
+        later cycle's ledger, whose decisions are not "on older data"."""
+        from ..review.intervals import last_dates
+        from .rules import decided_on_newer
+        out = np.zeros(len(self.status), dtype=bool)
+        stale = np.flatnonzero(self.status == STATUSES.index("stale"))
+        if not len(stale):
+            return out
+        days = last_dates(self.results)
+        prints = self.results.data.fingerprints
+        for s in stale.tolist():
+            day = None if days is None or np.isnat(days[s]) else str(days[s])
+            out[s] = decided_on_newer(self.results.data.key_of(s), str(prints[s]), day, self.histories.get(s)) is not None
         return out
 
     @cached_property

@@ -216,7 +216,7 @@ class Charts:
             rows = False
         status = STATUSES[signoff.status[s]]
         words = {"accepted": "accepted", "overridden": "override", "held": "held",
-                 "pending": "proposal", "stale": "signed on earlier data"}[status]
+                 "pending": "proposal", "stale": f"signed on {'newer' if signoff.newer[s] else 'earlier'} data"}[status]
         # a stale series' curve is drawn as signed (its snapshot); without one (a /1 record) none is drawn
         signed = (signoff.standing(s) or {}).get("signed") if status == "stale" and standing >= 0 else None
         if status == "stale" and not signed:

@@ -18,7 +18,8 @@ def candidates(signoff: Signoff, s: int) -> str:
     results = signoff.results
     # "stands" only where a decision stands: a pending series' proposal is only the proposal
     standing, proposal = signoff.model_index(s) if signoff.standing(s) else -1, int(results.chosen[s])
-    stands = "signed on earlier data, refitted" if STATUSES[signoff.status[s]] == "stale" else "stands"
+    stands = ("stands" if STATUSES[signoff.status[s]] != "stale" else "signed on newer data, refitted to these"
+              if signoff.newer[s] else "signed on earlier data, refitted")
     planned = math.isfinite(float(results.plan_price[s]))
     rows, missing = [], []
     for c, name in enumerate(results.names):
@@ -50,11 +51,16 @@ def _share(x) -> str:
     return f"{x * 100:.0f}%".replace("-", "−") if math.isfinite(x) else "n/a"
 
 
+NEWER_STALE = "The last sign-off was made on newer data than these results: read the report of the newer results."
+
+
 def flags(signoff: Signoff, s: int) -> str:
     listed = signoff.diagnosis.flags_of(int(s))
     if not listed:
         return "<p>No flags.</p>"
     listed.sort(key=lambda f: f["severity"] != "stop")
+    if signoff.newer[s]:  # not "the data behind the last sign-off have changed": these results are the older
+        listed = [{**f, "message": NEWER_STALE} if f["code"] == "stale" else f for f in listed]
     items = "".join(f"<li><span class=\"sev-{f['severity']}\">{f['severity']} · {esc(f['code'])}</span>: "
                     f"{esc(f['message'])}</li>" for f in listed)
     return f"<ul class=\"flags\">{items}</ul>"
@@ -70,7 +76,7 @@ def since(report: Report, s: int) -> str:
         return ""
     chosen = int(signoff.results.chosen[s])
     proposal = signoff.results.names[chosen] if chosen >= 0 else None
-    return f"<p><strong>Since sign-off:</strong> {esc(shift_sentence(record, proposal))}</p>"
+    return f"<p><strong>Since sign-off:</strong> {esc(shift_sentence(record, proposal, older=signoff.newer[s]))}</p>"
 
 
 def history(signoff: Signoff, s: int) -> str:
@@ -121,7 +127,8 @@ def section(report: Report, s: int) -> str:
         facts.append(f"carried by {by_whom(current)} UTC: the {esc(decision['action'])} by {by_whom(decision)} UTC")
     if math.isfinite(plan) and c >= 0 and numbers.volume is not None:
         name = esc(current.get("model") if numbers.signed else results.names[c])
-        under = (f"under {name} as signed on earlier data" if numbers.signed else
+        on = "newer" if signoff.newer[s] else "earlier"
+        under = (f"under {name} as signed on {on} data" if numbers.signed else
                  f"under {name}, the proposal" if numbers.proposal else f"under {name}")
         facts.append(f"at the plan price {price(plan)}: {num(numbers.volume)} "
                      f"({interval(numbers.lo, numbers.hi)}) {under}")

@@ -137,6 +137,12 @@ def alerts(report: Report) -> str:
                    "recorded, so every series is pending.</div>")
     if view.problem and view.state == "intact":
         out.append(f"<div class=\"notice\">{esc(view.problem)}</div>")
+    newer = report.signoff.counts()["stale_newer"]
+    if newer:  # results older than the ledger's decisions: the page would call the newest decisions old
+        out.append(f"<div class=\"alert\" role=\"alert\"><strong>{num(newer)} "
+                   f"{'series was' if newer == 1 else 'series were'} decided on newer data than these results:"
+                   "</strong> this page is made from older results, so those decisions read as stale here and their "
+                   "numbers are the signed ones, not these results'. Make the report from the newer results.</div>")
     if report.data_note:
         out.append(f"<div class=\"notice\">{esc(report.data_note)} The charts show the fitted curves without the "
                    "observations or the prediction band.</div>")
@@ -205,10 +211,14 @@ def _ledger_facts(report: Report) -> list[tuple[str, str]]:
 
 
 def stale_parts(counts: dict) -> str:
-    """' (1 overridden, 2 held on older data)': the stale series whose standing decision is an override or a hold."""
+    """' (3 decided on newer data; 1 overridden, 2 held on older data)': the stale series decided on newer data than
+    these results, and those whose standing decision on older data is an override or a hold."""
     parts = [f"{num(counts[key])} {word}" for key, word in (("stale_overridden", "overridden"), ("stale_held", "held"))
              if counts.get(key)]
-    return f" ({', '.join(parts)} on older data)" if parts else ""
+    said = [f"{', '.join(parts)} on older data"] if parts else []
+    if counts.get("stale_newer"):
+        said.insert(0, f"{num(counts['stale_newer'])} decided on newer data")
+    return f" ({'; '.join(said)})" if said else ""
 
 
 def summary(report: Report) -> str:

@@ -37,3 +37,26 @@ def test_the_report_shows_shifted_and_each_stale_series_backtest(tmp_path):
     for name in passed:
         assert "Since sign-off:" in articles[name] and "its error is" in articles[name]
     assert json.loads((tmp_path / "r2.json").read_text())["ledger"]["path"] == str(book)
+
+
+def test_a_report_of_last_cycles_results_says_the_decisions_are_on_newer_data(tmp_path):
+    """A trial made the report of cycle 1's results after cycle 2's sign-off: "149 stale (1 overridden on older
+    data)", each series "as signed on earlier data" — the newest decisions called old.  ``show --ledger`` says
+    "decided on newer data"; the report now does too, first thing on the page."""
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    first = fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    fit(tmp_path / "c2.csv", tmp_path / "r2.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r2.json"), "--ledger", str(book), "-q"]) == 0
+    accepted = sum(1 for line in book.read_text().splitlines() if json.loads(line)["action"] == "accept")
+    assert 0 < accepted <= len(first)
+    for results, newer in (("r1.json", accepted), ("r2.json", 0)):
+        page = tmp_path / f"{results}.html"
+        assert main(["report", str(tmp_path / results), "--ledger", str(book), "-o", str(page)]) == 0
+        text = html.unescape(page.read_text())
+        said = f"{accepted} series were decided on newer data than these results"
+        assert (said in text) == bool(newer), results
+        if newer:
+            assert f"{accepted} decided on newer data)" in text and "on older data" not in text
+            assert "as signed on earlier data" not in text and "signed on newer data" in text

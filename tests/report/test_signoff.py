@@ -43,7 +43,8 @@ def test_statuses_bulk_runs_and_tallies(fitted):
     signoff = gather(results, diagnosis, records)
     counts = signoff.counts()
     assert counts == {"accepted": 12, "overridden": 1, "held": 0, "pending": 46, "stale": 1, "carried": 0,
-                      "carried_overridden": 0, "stale_overridden": 0, "stale_held": 0, "total": 60}
+                      "carried_overridden": 0, "stale_overridden": 0, "stale_held": 0, "stale_newer": 0,
+                      "total": 60}
     assert [(g.analyst, g.action, g.count) for g in signoff.bulk] == [("ana", "accept-unflagged", 10)]
     assert signoff.individual.sum() == 6 and not signoff.individual[:10].any()
     assert signoff.noted[24] and signoff.noted.sum() == 1
