@@ -25,6 +25,7 @@ from fitcore.results.source import (
 )
 from fitcore.results.stored import stored_results
 
+from .results_watch import ResultsWatch
 from .session import TriageSession
 
 __all__ = ["Source", "default_ledger", "fit_source", "is_stored", "open_session", "open_stored_session",
@@ -54,13 +55,16 @@ def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes
     from fitcore.ledger.elsewhere import backtested_elsewhere
     from fitcore.ledger.reader import opening
     book = opening(ledger_path, key)  # read and verified meanwhile: Arrow reads the results without the interpreter
+    watched = ResultsWatch(Path(path))  # before reading: a fit putting new results in place meanwhile is caught
     results, diagnosis = stored_results(path, later=True)
     head = {k: v for k, v in read_header(path).items() if k != "key_columns"}
     book = book()
     if book.records:  # the list shows a decided series' model and score, a stale one's due: from every candidate's
         results.later.wait_soon()  # numbers (``stored.SOON``), a failure to read them said before the screen
-    return TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units, book=book,
-                         elsewhere=backtested_elsewhere(path, head, Path(ledger_path)))
+    session = TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units, book=book,
+                            elsewhere=backtested_elsewhere(path, head, Path(ledger_path)))
+    session.results_watch = watched
+    return session
 
 
 def sample_source(controls: tuple[str, ...] = (), season: int = 0) -> Source:

@@ -64,6 +64,7 @@ class TriageSession(Deciding, Standing, ListState):
         self.warnings: list[str] = []
         self.unobserved: str | None = None  # why no observations will come (data file gone, changed, too large)
         self.rejects = None  # the data's rows this session's fit rejected (``Rejects``): the header and ? say them
+        self.results_watch = None  # the results file opened (``ResultsWatch``): a fit replacing it is said
         data = results.data
         self.keys = SeriesKeys.of(data)  # Arrow columns: no Python object per series
         self._labels: dict[int, tuple[str, ...]] = {}

@@ -272,3 +272,30 @@ async def test_results_whose_data_file_is_gone_open_from_the_stored_numbers_and_
     for name in ("coef", "cv_mse", "sigma2", "n", "price_range", "cov_unscaled"):
         got, want = np.ravel(record["signed"][name]), np.ravel(expected[name])
         assert np.allclose(got, want, rtol=1e-9, atol=0), name
+
+
+async def test_results_replaced_on_disk_while_the_screen_is_open_are_said(tmp_path):
+    """A trial refitted into the results file the screen had open: nothing on screen changed and a decision went
+    on to be recorded on the old rows, the analyst none the wiser.  The header says it (and a notice) within a
+    look; the decisions stay bound to the rows on screen."""
+    import os
+    data, out = fit_to_parquet(tmp_path)
+    ledger_path, gate = tmp_path / "ledger.jsonl", threading.Event()
+    app = stored_app(out, ledger_path, gate)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await until(pilot, lambda: isinstance(app.screen, TriageScreen))
+        await pilot.pause(2.5)  # a look or more at the ledger with the file as it was: nothing said
+        assert "replaced on disk" not in screen_text(app)
+        newer = tmp_path / "newer.parquet"
+        assert main(["fit", str(data), "--segment", "region", "--date", "week", "--folds", "3", "-o", str(newer),
+                     "--quiet"]) == 0
+        os.replace(newer, out)  # as a fit's own atomic write puts it in place
+        await until(pilot, lambda: "results.parquet was replaced on disk" in screen_text(app))
+        await past_stop_flags(app, pilot)
+        s = app.session.current
+        fingerprint = app.session.results.data.fingerprint_of(s)
+        await pilot.press("a")
+        await until(pilot, lambda: ledger_path.exists() and ledger_path.read_text().strip())
+        gate.set()
+    record = json.loads(ledger_path.read_text().splitlines()[0])
+    assert record["fingerprint"] == fingerprint  # the rows on screen, as opened

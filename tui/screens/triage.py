@@ -182,6 +182,10 @@ class TriageScreen(DecisionFlow, Screen):
                             timeout=10, markup=False)
         if changed:
             self.refresh_all()
+        watch = self.session.results_watch
+        if watch is not None and watch.said is None and watch.replaced():  # a refit put new results in its place
+            self.update_status()
+            self.notify(printable(watch.said), severity="warning", timeout=12, markup=False)
         news = self.session.news
         if news is not None and news.get("digest") != self._told:
             self._told = news.get("digest")

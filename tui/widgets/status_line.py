@@ -43,6 +43,9 @@ def status_text(session, width: int) -> Text:
         text.append("\n" + cut(said, width), style="bold reverse")
     elif session.book.notes:  # an interrupted append: said before any decision, whole (wrapped), until moved
         text.append("\n" + cut_off_text(session.book), style="bold")
+    watch = session.results_watch
+    if watch is not None and watch.said:  # the results replaced on disk (a refit): one line, cut
+        text.append("\n" + cut(printable(watch.said), width), style="bold")
     for said in (keys_text(session.key_columns), spellings_text(session), elsewhere_text(session)):  # whole, while true
         if said:
             text.append("\n" + said, style="bold")
