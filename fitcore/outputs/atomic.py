@@ -22,6 +22,7 @@ from pathlib import Path
 from typing import BinaryIO, Callable
 
 from ..errors import DataError
+from .seal import seal_file
 
 _TAG = "pricefold"
 HOST = re.sub(r"[^A-Za-z0-9_.]", "_", socket.gethostname())[:40] or "host"
@@ -139,7 +140,8 @@ def stage(path: str | Path, write: Callable[[BinaryIO], object], *, by_name: boo
     ``by_name``: ``write`` gets the temporary file's name instead of a handle, for a library that writes a
     file itself (pyarrow: no Python call per write, no copy through Python buffers); this process keeps the
     file it created open, fsyncs it and checks it is still the file at that name.  No digest is taken then
-    (``sha256`` is None): give it a handle where the digest is recorded.
+    (``sha256`` is None): give it a handle where the digest is recorded — and the file is sealed with it
+    (``seal.seal_file``: its SHA-256 beside its bytes, where the file system keeps extended attributes).
 
     A symlink is written through: the file it points to is replaced (beside it, so the rename stays on
     one file system) and the link stays a link, as an editor saving through a link does."""
@@ -165,6 +167,7 @@ def stage(path: str | Path, write: Callable[[BinaryIO], object], *, by_name: boo
                 write(handle)
                 raw.flush()
                 digest = handle.digest.hexdigest()
+                seal_file(temp, digest)  # a later run replaces it only unchanged (``guard.is_own``)
             os.fsync(raw.fileno())
     except BaseException as exc:
         temp.unlink(missing_ok=True)

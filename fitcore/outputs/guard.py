@@ -7,7 +7,8 @@ made, of the same kind, or empty: a run replaces its own earlier output and noth
 
 Kinds of output and how an earlier one is recognised:
 
-    results         JSON starting ``{"schema":"pricefold-results/``, or Parquet with ``pricefold`` metadata
+    results         JSON starting ``{"schema":"pricefold-results/``, sealed and unchanged (``seal.file_sealed``;
+                    where the system keeps no seals, the marker alone), or Parquet with ``pricefold`` metadata
     results-folder  a folder holding ``_summary.json`` (``fit --engine dask``), or an empty folder
     rejects         CSV whose header ends with ``line,reason`` (``fit`` asks more: the very file the results it
                     replaces record, ``pricefold.earlier_rejects``)
@@ -93,7 +94,10 @@ def is_own(path: "str | Path", kind: str) -> bool:
     except OSError:
         return False
     if kind == "results":
-        return bool(_RESULTS_JSON.match(head)) or _is_results_parquet(path, head)
+        if _RESULTS_JSON.match(head):  # and sealed unchanged: JSON is edited by hand (where no seals: the marker)
+            from .seal import file_sealed
+            return file_sealed(path) is not False
+        return _is_results_parquet(path, head)
     if kind == "report":
         return _REPORT in head[:1024] and _unedited(path)
     header = _first_row(head)
@@ -198,13 +202,15 @@ def _same_file(a: Path, b: Path) -> bool:
 
 
 def _why_not_own(path: Path, kind: str) -> str:
-    """' (changed since it was written)' / ' (no seal: …)' for an export or a page that looks like one; else ''."""
+    """' (changed since it was written)' / ' (no seal: …)' for an export, a JSON results file or a page that looks
+    like one; else ''."""
     try:
         with open(path, "rb") as handle:
             head = handle.read(4096)
     except OSError:
         return ""
-    if kind == "export" and {"status", "model", "coef"} <= set(_first_row(head)):
+    if (kind == "export" and {"status", "model", "coef"} <= set(_first_row(head))) or (
+            kind == "results" and _RESULTS_JSON.match(head)):
         from .seal import seal_state
         return {"absent": " (no seal: edited by a program that saved a new file, copied, or written before seals)",
                 "changed": " (changed since it was written)"}.get(seal_state(path), "")

@@ -166,6 +166,33 @@ def test_a_failed_run_keeps_the_previous_results(tmp_path):
     assert out.read_text() == '{"kept": true}'
 
 
+def test_a_results_file_edited_or_written_by_hand_is_not_replaced(tmp_path, capsys):
+    """A trial added a note to a JSON results file, then fitted again to its name: the note was gone without a word;
+    a file of one's own starting with the results' schema marker was replaced too.  Only a results file pricefold
+    wrote and nobody changed since is replaced, as for an export (its seal: its SHA-256 beside its bytes)."""
+    from fitcore.outputs.seal import seal_state
+    out, data = tmp_path / "r.json", SAMPLE / "wholesale.csv"
+    fit = ["fit", str(data), "--segment", "region", "-o", str(out), "-q"]
+    assert main(fit) == 0
+    if seal_state(out) is None:
+        pytest.skip("no extended attributes on this file system: a JSON results file is judged by its marker")
+    assert seal_state(out) == "intact" and main(fit) == 0  # its own, unchanged: replaced
+    doc = json.loads(out.read_text())
+    doc["my_notes"] = "keep me"
+    with open(out, "w") as handle:  # edited in place, as json.dump into the same name does
+        json.dump(doc, handle)
+    before = out.read_bytes()
+    capsys.readouterr()
+    assert main(fit) == 2 and out.read_bytes() == before
+    assert capsys.readouterr().err.strip().endswith(
+        "exists and is not a pricefold results file (changed since it was written); pricefold replaces only its own "
+        "earlier output (remove it or choose another name)")
+    mine = tmp_path / "mine.json"
+    mine.write_text('{"schema": "pricefold-results/1", "note": "my own file"}')
+    assert main(["fit", str(data), "--segment", "region", "-o", str(mine), "-q"]) == 2
+    assert json.loads(mine.read_text())["note"] == "my own file"
+
+
 def test_q_is_the_short_form_of_quiet(tmp_path, capsys):
     """``-q`` silences the summary exactly as ``--quiet`` does; without either the summary is printed."""
     args = ["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "--date", "week"]

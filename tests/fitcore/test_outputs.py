@@ -153,6 +153,7 @@ def test_a_batch_lands_in_order_or_not_at_all(tmp_path):
 
 def results_json(path):
     path.write_text('{"schema":"pricefold-results/1","settings":{}}')
+    sealed(path)  # as fit leaves it
     return path
 
 
