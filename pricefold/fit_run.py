@@ -24,6 +24,9 @@ def run_fit(args) -> int:
 
     from .options import resolve
     run = resolve(args)
+    if args.config is None and run.config_path:  # found, not named: a file in the folder changes the fit unseen
+        print(f"note: settings from {run.config_path} (the current folder's settings file; --config names another)",
+              file=sys.stderr)
     if args.engine == "dask":
         from .fit_dask import run_fit_dask
         return run_fit_dask(args, run)

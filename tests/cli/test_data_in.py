@@ -31,6 +31,11 @@ def test_settings_file_fills_in_and_the_command_line_wins(tmp_path):
     assert settings["columns"]["segments"] == ["region"] and settings["columns"]["date"] == "week"
     assert settings["thresholds"]["min_points"] == 200 and settings["config"].endswith("pricefold.toml")
     assert len(doc["series"]) == 180 and all(any(f["code"] == "few-points" for f in s["flags"]) for s in doc["series"])
+    # found, not named: said (a trial's fit changed by a file in the folder without a word), even with --quiet
+    assert f"note: settings from {tmp_path / 'pricefold.toml'} (the current folder's settings file" in done.stderr
+    named = run_cli("fit", str(SAMPLE / "wholesale.csv"), "-o", str(out), "--config", str(tmp_path / "pricefold.toml"),
+                    "--quiet", cwd=tmp_path)
+    assert named.returncode == 0 and "settings from" not in named.stderr
 
 
 @pytest.mark.parametrize("text, message", [
