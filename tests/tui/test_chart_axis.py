@@ -91,3 +91,36 @@ def test_the_fold_chart_marks_the_chosen_error_on_its_row(session):
         assert abs(row - expected) <= 0.5 + 1e-9, (session.label(s), row, expected, labels)
         checked += 1
     assert checked >= 20
+
+
+def test_a_fold_error_of_exactly_zero_on_a_log_scale_is_drawn_not_fatal(tmp_path):
+    """Twelve rows on a straight line: the polynomials' held-out errors are rounding noise, one fold's exactly 0,
+    and the constant's far above, so the chart goes to a log scale — where plotext took log10(0) and the screen
+    died (a trial's results could not be opened).  The positive points are drawn, down to the noise."""
+    import fitcore
+    price = 1 + 0.5 * np.arange(12)
+    data = fitcore.from_columns({"product": np.array(["straight line"] * 12, dtype=object)}, price,
+                                1200 - 200 * (price - 1))
+    results = fitcore.fit_batch(data, plan_price=3.0)
+    folds = results.folds_of(0)
+    assert (folds == 0).any() and (folds > 0).any()  # an exact zero among the fold errors (numpy's own lstsq agrees:
+    # a fold's held-out row lies on the line through the others, the residual rounds to nothing or to 0)
+    chart = fold_chart(results, 0, 70, 18).plain
+    assert "log scale" in chart and "◆" in chart and "1e-" in chart  # the noise-level errors on the axis too
+
+
+async def test_a_chart_that_cannot_be_drawn_is_said_where_it_would_be_and_the_screen_goes_on(tmp_path, monkeypatch):
+    """Whatever a chart meets, the screen stays: the fault is said in the chart's place."""
+    import tui.widgets.evidence as evidence
+    from tests.tui.conftest import make_app, screen_text, started, until
+
+    def broken(*args, **kwargs):
+        raise ValueError("math domain error")
+    monkeypatch.setattr(evidence, "fold_chart", broken)
+    app = make_app(tmp_path / "ledger.jsonl")
+    async with app.run_test(size=(160, 50)) as pilot:
+        await started(app, pilot)
+        await until(pilot, lambda: "chart could not be drawn (ValueError: math domain error)" in screen_text(app))
+        await pilot.press("down")
+        await pilot.pause()
+        assert app.is_running

@@ -267,30 +267,35 @@ def fold_chart(results: Results, s: int, width: int, height: int) -> Text:
         return _finish()
     folds = results.folds_of(s)
     positions = list(range(1, len(available) + 1))
-    for x, c in zip(positions, available):
-        errors = folds[:, c]
-        if len(errors) <= 12:  # per-fold dots (leave-one-out has too many to read)
-            plt.scatter(*_finite([x] * len(errors), errors), marker="•", color=OBSERVED)
     means = results.cv_mse[s, available]
     ses = results.cv_se[s, available]
-    for x, m, e in zip(positions, means, ses):
-        plt.plot(*_finite([x, x], [m - e, m + e]), marker=SOLID, color=OTHER)
-    plt.scatter(*_finite(positions, means), marker="●", color=OTHER)
-    best = int(np.argmin(means))
-    if _plottable(means[best] + ses[best]):
-        plt.hline(float(means[best] + ses[best]), ONE_SE)
-    chosen = int(results.chosen[s])
-    if chosen in available:
-        x = positions[list(available).index(chosen)]
-        plt.scatter(*_finite([x], [results.cv_mse[s, chosen]]), marker="◆", color=STANDING)
-    plt.xticks(positions, [results.names[c] for c in available])
-    plt.xlim(0.5, len(available) + 0.5)
     shown = folds[:, available][np.isfinite(folds[:, available]) & (folds[:, available] > 0)]
     spans = (means + ses)[np.isfinite(means + ses)]
     top = max(float(shown.max()) if len(shown) else 0.0, float(spans.max()) if len(spans) else 0.0)
     log_scale = top > LOG_RATIO * max(float(means.min()), 1e-300)
     if log_scale:  # one poor candidate would otherwise flatten all the others against the axis
         plt.yscale("log")
+    # on a log scale only values above zero can be drawn (plotext took log10 of an exact 0 — a fold held out
+    # of a line through its rows — and the screen died): a dot at 0 is left out, a bar's foot cut at the floor
+    floor = min([float(v) for v in (*shown, *means[means > 0]) if v > 0] or [1e-300])
+    drawn = (lambda xs, ys: _finite(*(np.asarray(a)[np.asarray(ys) > 0] for a in (xs, ys)))) if log_scale else _finite
+    for x, c in zip(positions, available):
+        errors = folds[:, c]
+        if len(errors) <= 12:  # per-fold dots (leave-one-out has too many to read)
+            plt.scatter(*drawn([x] * len(errors), errors), marker="•", color=OBSERVED)
+    for x, m, e in zip(positions, means, ses):
+        foot = max(m - e, floor) if log_scale else m - e
+        plt.plot(*drawn([x, x], [foot, m + e]), marker=SOLID, color=OTHER)
+    plt.scatter(*drawn(positions, means), marker="●", color=OTHER)
+    best = int(np.argmin(means))
+    if _plottable(means[best] + ses[best]) and (means[best] + ses[best] > 0 or not log_scale):
+        plt.hline(float(means[best] + ses[best]), ONE_SE)
+    chosen = int(results.chosen[s])
+    if chosen in available:
+        x = positions[list(available).index(chosen)]
+        plt.scatter(*drawn([x], [results.cv_mse[s, chosen]]), marker="◆", color=STANDING)
+    plt.xticks(positions, [results.names[c] for c in available])
+    plt.xlim(0.5, len(available) + 0.5)
     _even_y_axis([shown, means - ses, means + ses, folds[:, available]], height, log=log_scale)
     plt.ylabel("held-out MSE" + (" (log scale)" if log_scale else ""))
     legend = Text("● CV mean ± SE", _colour(OTHER))

@@ -177,14 +177,14 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                                        else reading)
             return
         if observed.rows_loaded or engine.loaded():
-            self._part("curve").update(curve_chart(observed, at, width, 18 if tall else 12, self.session.model_of(s),
-                                                   self.session.units, self.adjusted, self.signed_shown(s), unobserved,
-                                                   near_tie_rival(self.session, s),
-                                                   "accepted" if self.session.accepted_other(s) else "override"))
+            self._part("curve").update(drawn(lambda: curve_chart(
+                observed, at, width, 18 if tall else 12, self.session.model_of(s), self.session.units, self.adjusted,
+                self.signed_shown(s), unobserved, near_tie_rival(self.session, s),
+                "accepted" if self.session.accepted_other(s) else "override")))
         else:  # the first call of a compiled loop would hold the whole screen back: it is loading behind it
             waiting = unobserved or "observations and band: reading the data …"
             self._part("curve").update(Text(f"curves: starting the engine …; {waiting}", style="dim"))
-        self._part("folds").update(fold_chart(observed, at, width, 12 if tall else 9))
+        self._part("folds").update(drawn(lambda: fold_chart(observed, at, width, 12 if tall else 9)))
 
     # -- the parts ----------------------------------------------------------------------------
     def title_text(self, s: int) -> Text:
@@ -394,3 +394,13 @@ class EvidencePanel(VerticalScroll, can_focus=True):
     def volume(self, value: float) -> str:
         unit = self.session.units.get("volume")
         return f"{fmt(value)} {unit}" if unit else fmt(value)
+
+
+def drawn(chart) -> Text:
+    """``chart()``, or a line saying it could not be drawn: a chart is evidence beside the numbers, and a fault in
+    drawing one (plotext took log10 of an exact 0 once) must not end an analyst's session."""
+    try:
+        return chart()
+    except Exception as exc:  # noqa: BLE001 - any drawing fault, said where the chart would be
+        return Text(f"chart could not be drawn ({type(exc).__name__}: {printable(str(exc))}); the numbers in the "
+                    "text stand", style=SEVERITY_STYLE["warn"])
