@@ -6,7 +6,7 @@ import time
 from typing import TYPE_CHECKING, Callable
 
 from rich.text import Text
-from textual import work
+from textual import events, work
 from textual.app import App, ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
@@ -15,6 +15,7 @@ from textual.widgets import Static
 from fitcore.errors import PricefoldError
 
 from . import engine
+from .escape_keys import keep_escape_on_punctuation
 from .messages import EvidenceReady, FirstRows, FitProgressed, LoadFailed, RowsFailed, RowsLoaded, SessionReady
 from .opening import Opening
 from .screens.dialogs import MessageDialog, TextDialog
@@ -94,6 +95,11 @@ class TriageApp(App):
         the box, it went to the list before the box's field had the focus, and is lost.  The box is told, so
         its next Enter asks for a look at the text instead of recording what the box holds (a hold's optional
         reason was recorded empty, the words typed for it gone)."""
+        if event.key.startswith("alt+") and not self.screen.is_modal:  # Esc and a key typed together (``escape_keys``)
+            event.stop()  # on the screen both were meant: Esc (back to the list), then the key itself
+            self.post_message(events.Key("escape", "\x1b"))
+            self.post_message(events.Key(event.key[len("alt+"):], event.character))
+            return
         if not event.is_printable:
             return
         bound = self.screen.active_bindings.get(event.key)
@@ -105,6 +111,7 @@ class TriageApp(App):
 
     def __init__(self, opener: Callable[[Callable[[int, int], None]], TriageSession] | Opening,
                  observer=None) -> None:
+        keep_escape_on_punctuation()  # before the driver's parser is made
         # the session opens from now on (or already does), not from the first frame on
         self.opening = opener if isinstance(opener, Opening) else Opening(opener)
         super().__init__()

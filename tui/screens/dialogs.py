@@ -32,6 +32,21 @@ class Dialog(ModalScreen):
         return super().dismiss(result)
 
 
+class NoteField(Input):
+    """The text field of a note.  Esc with a key right behind it (typed fast, or bunched together over SSH) reaches
+    a terminal program as one key, alt+that key: the field typed it into the note, and the box stayed open (a
+    trial's accept past stop flags was signed with '/…' meant for a search).  Such a key is the Esc it began with:
+    the box is cancelled, the key after it dropped."""
+
+    async def _on_key(self, event) -> None:
+        if event.key.startswith("alt+"):
+            event.stop()
+            event.prevent_default()
+            self.screen.action_cancel()
+            return
+        await super()._on_key(event)
+
+
 class TextDialog(Dialog):
     """One line of text; Enter returns it, Escape cancels.  ``required`` refuses an empty answer."""
 
@@ -52,7 +67,7 @@ class TextDialog(Dialog):
             yield Static(literal(self.title_text, "bold"), markup=False)
             if self.about is not None:
                 yield Static(self.about, markup=False, id="dialog-about")
-            yield Input(value=self.value, placeholder=self.placeholder, id="dialog-input")
+            yield NoteField(value=self.value, placeholder=self.placeholder, id="dialog-input")
             yield Static(Text("Enter to confirm · Esc to cancel", style="dim"), id="dialog-hint", markup=False)
 
     def on_mount(self) -> None:
