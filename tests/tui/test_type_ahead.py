@@ -158,3 +158,23 @@ async def test_a_reason_lost_to_a_closing_dialog_is_said_in_the_box(ledger_path)
             await pilot.press("enter")
             assert "Keys typed before this box opened were lost" in str(box.query_one("#dialog-hint").render())
         assert records(ledger_path) == []
+
+
+async def test_o_down_enter_typed_in_one_burst_shows_the_picked_models_numbers_in_the_note_box(ledger_path):
+    """A trial typed ``o ↓ Enter`` at once: a model was picked from a list never drawn, and the note box asked only
+    "Why poly5 instead of poly4 …?".  The box now says what the override signs — the picked model at the plan price,
+    its own flags — and the caution every sign-off carries, so nothing is signed unseen."""
+    from fitcore.review.sentences import fmt
+    app = make_app(ledger_path)
+    async with app.run_test(size=(120, 34)) as pilot:
+        s = await on_an_unflagged_series(app, pilot)
+        type_ahead(app, "o", "down", "enter")
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        title = app.screen.title_text
+        model = title.split()[1]  # "Why MODEL instead of …"
+        results = app.session.results
+        c = results.names.index(model)
+        about = str(app.screen.query_one("#dialog-about").render())
+        assert "At the plan price" in about and fmt(results.plan_volume[s, c]) in about
+        assert f"{model}: no shape or range flag" in about or f"{model}'s own flags: " in about
+        assert "pricefold proposes; you decide" in about

@@ -23,6 +23,11 @@ from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 TOLD = {"accept": "Accepted", "override": "Overrode", "hold": "Held", "note": "Noted", "revoke": "Revoked"}
 
 
+# Beside every note that signs a curve: the observational data's caution and who decides (``help.CAUTIONS`` in full).
+SIGNING_CAUTION = ("Observational sales data: promotions, seasons and stock-outs that moved with price are in the "
+                   "curve too. pricefold proposes; you decide.")
+
+
 class DecisionFlow:
     """The triage screen's decisions, each on the series ``shown`` showed when its key was pressed."""
 
@@ -78,12 +83,14 @@ class DecisionFlow:
         self.open_dialog(TextDialog(title, placeholder, required=required, value=value, about=about),
                              lambda note: None if note is None else then(note))
 
-    def signing_text(self, shown: Shown) -> Text:
-        """What an accept signs, in numbers: the proposal at the plan price (volume, interval, elasticity where
-        it means something), so a note past a stop flag is written with the figure in view."""
+    def signing_text(self, shown: Shown, model: str | None = None) -> Text:
+        """What an accept (or an override to ``model``) signs, in numbers: the curve at the plan price (volume,
+        interval, elasticity where it means something) — an override's own flags too —, so the note is written
+        with the figure in view (a model picked by keys typed ahead of the list, unseen, is seen here); then the
+        caution every sign-off carries."""
         results = self.session.results
         s = self.session.index_of(shown)
-        c = int(results.chosen[s])
+        c = int(results.chosen[s]) if model is None else results.names.index(model)
         plan, lo, hi = float(results.plan_price[s]), float(results.price_lo[s]), float(results.price_hi[s])
         unit = self.session.units.get("volume")
         if not math.isfinite(plan):
@@ -92,7 +99,14 @@ class DecisionFlow:
             where = "" if lo <= plan <= hi else f", outside the prices observed ({money(lo)}–{money(hi)})"
             said = (f"At the plan price {money(plan)}{where}, "
                     + predicts(results, s, c, lambda v: f"{fmt(v)} {unit}" if unit else fmt(v)) + ".")
-        return Text(said, style="#ff875f" if math.isfinite(plan) and results.plan_volume[s, c] <= 0 else "")
+        text = Text(said, style="#ff875f" if math.isfinite(plan) and results.plan_volume[s, c] <= 0 else "")
+        if model is not None:
+            from .override import candidate_rows
+            flags = next(row.flags for row in candidate_rows(results, s, self.session.diagnosis) if row.name == model)
+            text.append(f"\n{model}'s own flags: {' · '.join(flags)}" if flags else f"\n{model}: no shape or range flag",
+                        style="#ff875f" if flags else "dim")
+        text.append("\n" + SIGNING_CAUTION, style="dim italic")
+        return text
 
     def new_key_set(self, action: str, then) -> None:
         """``then()`` — at once, or after a dialog where a decision on the series shown would start something new
@@ -160,7 +174,7 @@ class DecisionFlow:
         def picked(model: str | None) -> None:
             if model is not None:
                 self.ask(f"Why {model} instead of {shown.proposed} for {session.label(s)}?", "a note is required", True,
-                         lambda note: self.decide(shown, "override", model, note))
+                         lambda note: self.decide(shown, "override", model, note), self.signing_text(shown, model))
 
         from .override import OverrideDialog  # with the first override, not before the list's first frame
         self.open_dialog(OverrideDialog(session.results, s, session.label(s), session.diagnosis,
