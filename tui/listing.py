@@ -151,12 +151,16 @@ class ListState:
     def _cursor_changed(self) -> None:
         """Called whenever the cursor may have moved to another series (a session keeps ``shown`` in step)."""
 
+    def listed_scores(self) -> np.ndarray:
+        """(S,) the score each series' row shows (a session: ``Standing.listed_scores``)."""
+        return np.asarray(self.results.score, dtype=float)
+
     def _order(self) -> np.ndarray:
         if self.sort == "key":
             return self.keys.sorted_order()
-        if self.sort == "score":
-            score = np.where(np.isnan(self.results.score), -np.inf, self.results.score)
-            return np.argsort(score, kind="stable")
+        if self.sort == "score":  # the score the list shows (the model that stands), not always the proposal's
+            score = self.listed_scores()
+            return np.argsort(np.where(np.isnan(score), -np.inf, score), kind="stable")
         if self.sort == "n":
             return np.argsort(self.results.data.counts, kind="stable")
         return self.diagnosis.attention_order()

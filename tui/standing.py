@@ -124,6 +124,16 @@ class Standing:
         name = self._standing_name(s)
         return name if name is not None and name not in self.results.names else None
 
+    def listed_scores(self) -> np.ndarray:
+        """(S,) the list's score (``listed_model``) of every series, for the list's "lowest score" order: the
+        proposal's Q², but where a decision makes another model stand (an override, an accept of another fit's
+        proposal, a stale decision), that model's — the order read 83% below 97% before."""
+        score = np.array(self.results.score, dtype=float)
+        other = np.isin(self.status, ("overridden", "stale")) | self.accepted_other_mask
+        for s in np.flatnonzero(other).tolist():
+            score[s] = self.listed_model(s)[1]
+        return score
+
     def listed_model(self, s: int) -> tuple[str, float]:
         """The list's model and score for series ``s``: the model signed wherever an accept or override stands
         (carried or not, stale too: what ``ledger export`` and ``show --ledger`` give; ``↺`` marks a stale
