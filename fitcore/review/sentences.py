@@ -182,7 +182,9 @@ def _price_gap(diag, s):
 
 
 # Sentences written for many series at once too (``sentence_columns``): one wording, filled either way.
-NEAR_TIE = ("{rival} is within one standard error (CV MSE {rival_mse} vs {chosen_mse} ± {chosen_se}) and predicts "
+# "about as well or better": a rival lower than the chosen one by more than its SE (the best, where the rule took a
+# simpler one within one SE of it) is "close" too — "within one standard error" read wrong for it (a trial)
+NEAR_TIE = ("{rival} fits about as well or better (CV MSE {rival_mse} vs {chosen_mse} ± {chosen_se}) and predicts "
             "{difference} {where}.")
 # the difference as a share of the chosen curve's volume; as the two volumes where either is not above zero,
 # or where one is more than NEAR_TIE_SHARE_UP_TO times the other (a share then read "83025% more volume")
