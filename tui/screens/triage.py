@@ -269,9 +269,9 @@ class TriageScreen(DecisionFlow, Screen):
             self._came_up = (shown.sid, time.monotonic())
         elif time.monotonic() - self._came_up[1] >= SETTLE_SECONDS:
             return False
-        self.notify(f"Not done: {action} on {self.session.label(shown.series)}, which came up just now (a key "
-                    "typed twice?); look at it, then press the key again.", severity="warning", timeout=5,
-                    markup=False)
+        self.notify(f"Not done: {action} on {self.session.label(shown.series)}, which came up less than "
+                    f"{SETTLE_SECONDS:g} s ago (a key typed twice, or pressed as it came up?); look at it, then press "
+                    "the key again.", severity="warning", timeout=5, markup=False)
         return True
 
     def action_accept(self) -> None:
