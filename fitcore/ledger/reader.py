@@ -205,6 +205,8 @@ class Ledger:
         """Without ``judge`` (no lock held) a problem is not believed: a writer setting an interrupted
         tail aside may change the bytes being read.  The unit is left for a read under the lock."""
         start, end = self._offset, data.rfind(b"\n") + 1
+        trimmed = len(data[:end].rstrip(b" \t\r\n"))  # blank lines at the end (an editor's) are a tail, not records
+        end = data.find(b"\n", trimmed) + 1 if trimmed else 0
         new: list[dict] = []
         unit: list[dict] = []
         before = (self._chain.copy(), self._line, self._unverifiable)
@@ -240,6 +242,12 @@ class Ledger:
             self._chain, self._line, self._unverifiable = before
         if judge:
             torn = data[end:]
+            if torn and not torn.strip():  # only blank lines after the last record
+                blank = torn.count(b"\n") or 1
+                self.notes = self._tail_notes(unit, b"", lines_read) + [Problem(
+                    lines_read + 1, f"{blank} blank line{'s' if blank > 1 else ''} at the end (an editor's save?) "
+                                    "ignored; the next append moves them to a side file")]
+                return new
             if torn and not _could_be_record(torn):
                 self.problems.append(Problem(lines_read + 1, f"the last line ({len(torn)} bytes, no line end) is not "
                                                              "the start of a ledger record: not a pricefold ledger, "

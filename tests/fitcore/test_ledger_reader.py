@@ -147,6 +147,27 @@ def test_a_symlinked_ledger_sets_its_torn_tail_beside_the_real_file(tmp_path):
     assert list(link_folder.iterdir()) == [link] and ledger.verify(link) == []
 
 
+@pytest.mark.parametrize("blank", [b"\n", b"\n\n", b"\r\n", b"  \n\t\n"])
+def test_blank_lines_at_the_end_are_a_tail_not_a_broken_chain(tmp_path, blank):
+    """A trial saved a ledger in an editor that added a blank line: every command refused the team's ledger as
+    broken ("not a valid JSON record").  Blank lines after the last record are said and ignored like a torn line,
+    and the next append moves them to a side file; a blank line between records still breaks the chain."""
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a"), entry("b")], ANA)
+    path.write_bytes(path.read_bytes() + blank)
+    book = ledger.Ledger(path)
+    assert book.state == "intact" and len(book.records) == 2
+    count = blank.count(b"\n")
+    assert [str(n) for n in book.notes] == [f"line 3: {count} blank line{'s' if count > 1 else ''} at the end (an "
+                                            "editor's save?) ignored; the next append moves them to a side file"]
+    ledger.append(path, [entry("c")], BO)
+    assert ledger.verify(path) == [] and len(ledger.Ledger(path).records) == 3 and not ledger.Ledger(path).notes
+    assert [p.name.startswith("ledger.jsonl.torn-") for p in tmp_path.iterdir() if p != path] == [True]
+    middle = path.read_bytes().replace(b"\n", b"\n\n", 1)
+    path.write_bytes(middle)
+    assert ledger.Ledger(path).state == "broken"
+
+
 @pytest.mark.parametrize("fault", ["disk full", "folder not writable"])
 def test_a_tail_that_cannot_be_set_aside_is_one_line_and_leaves_nothing(tmp_path, monkeypatch, fault):
     path = tmp_path / "ledger.jsonl"
