@@ -25,9 +25,32 @@ def parquet_schema(path: Path) -> pa.Schema:
         dataset = pq.ParquetDataset(path)
         if not dataset.files:
             raise DataError("no Parquet files in this folder", path=str(path))
+        _check_parts(path, dataset.files, dataset.schema)
         return dataset.schema
     except (pa.ArrowInvalid, OSError) as exc:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
+
+
+def _check_parts(folder: Path, files: list[str], schema: pa.Schema) -> None:
+    """Every file of a data folder is one of its Parquet parts, with the folder's columns: a note left beside them
+    (``readme.txt``) failed the whole read in pyarrow's words, naming no file; a part missing a column (the folder
+    takes the first part's) had every row rejected as missing that value, exit 0."""
+    import pyarrow.parquet as pq
+    names = schema.names
+    for name in files:
+        part = Path(name)
+        try:
+            own = pq.read_schema(part)
+        except (pa.ArrowInvalid, OSError) as exc:
+            raise DataError(f"holds {part.relative_to(folder)}, which is not a readable Parquet file "
+                            f"({first_line(exc)}); a data folder holds only its Parquet parts", path=str(folder)) from None
+        hive = {step.split("=", 1)[0] for step in part.relative_to(folder).parent.parts if "=" in step}
+        missing = [column for column in names if column not in own.names and column not in hive]  # (``region=East``:
+        # a column held in the folder names of a partitioned data set)
+        if missing:
+            said = ", ".join(repr(column) for column in missing)
+            raise DataError(f"its part {part.relative_to(folder)} has no column {said}, which the folder's other parts "
+                            "have: every part needs the same columns", path=str(folder))
 
 
 def read_parquet_rows(path: Path, columns: Columns, schema=None):

@@ -137,6 +137,33 @@ def test_parquet_file_and_folder(tmp_path):
     assert as_frame(load(folder)) == expected_frame()
 
 
+def test_a_folders_parts_each_have_its_columns_and_nothing_else_lies_beside_them(tmp_path):
+    """A trial's folder: a part without 'volume' had its every row rejected as missing volume (exit 0); a
+    readme.txt beside the parts failed the read in pyarrow's words, naming no file.  A partitioned folder
+    (``product=a/…``, the column in the folder names) is read as before."""
+    table = pa.table({"product": ["a", "b", "a"], "price": [1.0, 2.0, 1.2], "volume": [30.0, 10.0, 25.0]})
+    folder = tmp_path / "parts"
+    folder.mkdir()
+    pq.write_table(table.slice(0, 2), folder / "part-0.parquet")
+    pq.write_table(table.slice(2, 1).drop_columns(["volume"]), folder / "part-1.parquet")
+    with pytest.raises(DataError, match=r"parts: its part part-1.parquet has no column 'volume', which the folder's "
+                                        r"other parts have: every part needs the same columns"):
+        load(folder)
+    pq.write_table(table.slice(2, 1), folder / "part-1.parquet")
+    (folder / "readme.txt").write_text("from the warehouse export\n")
+    with pytest.raises(DataError, match=r"parts: holds readme.txt, which is not a readable Parquet file \(.*\); a "
+                                        r"data folder holds only its Parquet parts"):
+        load(folder)
+    (folder / "readme.txt").unlink()
+    assert as_frame(load(folder)) == expected_frame()
+    hive = tmp_path / "hive"
+    for product in ("a", "b"):
+        (hive / f"product={product}").mkdir(parents=True)
+        rows = table.filter(pa.compute.equal(table["product"], product)).drop_columns(["product"])
+        pq.write_table(rows, hive / f"product={product}" / "part.parquet")
+    assert as_frame(load(hive)) == expected_frame()
+
+
 def test_interleaved_series_keep_their_own_order(tmp_path):
     rows = [("a", "1.0", "30", "x"), ("b", "2.0", "10", "x"), ("a", "1.2", "25", "x")]
     data = load(write(tmp_path / "d.csv", rows))
