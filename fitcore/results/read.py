@@ -52,7 +52,7 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
     _check_file(path)
     if path.suffix.lower() == ".json":
         try:
-            document = json.loads(path.read_text(encoding="utf-8"))
+            document = json.loads(path.read_text(encoding="utf-8-sig"))  # an editor's byte-order mark, as data files
         except (UnicodeDecodeError, json.JSONDecodeError) as exc:
             raise DataError(f"expected a pricefold results file, could not read it as JSON ({exc})",
                             path=str(path)) from None

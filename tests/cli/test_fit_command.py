@@ -261,3 +261,16 @@ def test_an_output_given_twice_or_a_file_named_as_a_folder_is_refused(tmp_path):
     done = run_cli("report", str(tmp_path / "r.json"), "-o", str(tmp_path / "page.html") + "/")
     assert done.returncode == 2 and "a path ending in a slash names a folder" in done.stderr
     assert not list(tmp_path.iterdir())
+
+
+def test_a_results_file_saved_with_a_byte_order_mark_is_read(tmp_path, capsys):
+    """A trial's JSON results saved by an editor that adds a BOM: 'could not read it as JSON (Unexpected UTF-8
+    BOM …)' — data and plan files skip one; results files now too."""
+    out = tmp_path / "r.json"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "-o", str(out), "-q"]) == 0
+    capsys.readouterr()
+    assert main(["show", str(out), "--product", "apples 1 kg", "--key", "region=North"]) == 0
+    plain = capsys.readouterr().out
+    out.write_bytes(b"\xef\xbb\xbf" + out.read_bytes())
+    assert main(["show", str(out), "--product", "apples 1 kg", "--key", "region=North"]) == 0
+    assert capsys.readouterr().out == plain
