@@ -12,6 +12,7 @@ import gzip
 import io
 import itertools
 import os
+import re
 import stat
 import sys
 import zlib
@@ -56,6 +57,13 @@ def check_file(path: Path) -> None:
         raise DataError("the file is empty; expected a header line and observations", path=str(path))
 
 
+# Compressions other than gzip, by their first bytes (each format's published magic number): their bytes read as
+# text said only "line 1 holds a NUL byte, as a binary file does" (a trial's .csv.bz2 named .csv).
+OTHER_COMPRESSIONS = ((re.compile(rb"BZh[1-9]1AY&SY"), "bzip2", "bunzip2 FILE"),
+                      (re.compile(rb"\xfd7zXZ\x00"), "xz", "unxz FILE"), (re.compile(rb"PK\x03\x04"), "zip", "unzip FILE"),
+                      (re.compile(rb"\x28\xb5\x2f\xfd"), "zstd", "unzstd FILE"))
+
+
 def check_text(path: Path) -> None:
     """One clear error for a text file that is binary.  (Bytes that are not UTF-8 matter only in the header
     and the needed columns: the readers name their line and column.)"""
@@ -66,6 +74,10 @@ def check_text(path: Path) -> None:
         if head.startswith(mark):
             raise DataError(f"expected UTF-8 text (CSV or TSV); this is {name} text (its byte-order mark says so): "
                             "save it as UTF-8", path=str(path))
+    for mark, name, undo in OTHER_COMPRESSIONS:
+        if mark.match(head):
+            raise DataError(f"expected CSV or TSV text, or gzip-compressed text; this is {name}-compressed: "
+                            f"decompress it first ({undo})", path=str(path))
     if b"\x00" in head:
         line = head.count(b"\n", 0, head.index(b"\x00")) + 1
         raise DataError(f"expected UTF-8 text (CSV or TSV); line {line} holds a NUL byte (0x00), as a binary file "

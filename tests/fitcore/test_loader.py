@@ -1,11 +1,14 @@
 """Reading data: every rejection reason, every file-level error, formats, and a fuzz test."""
 from __future__ import annotations
 
+import bz2
 import csv
 import gzip
 import io
+import lzma
 import math
 import re
+import zipfile
 
 import pyarrow as pa
 import pyarrow.parquet as pq
@@ -71,6 +74,13 @@ def test_rejects_file_holds_the_original_cells(tmp_path):
                     ["a", "1.5", "lots", "2025-01-20", "5", "non-numeric volume"]]
 
 
+def zipped(content: bytes) -> bytes:
+    buffer = io.BytesIO()
+    with zipfile.ZipFile(buffer, "w") as archive:
+        archive.writestr("d.csv", content)
+    return buffer.getvalue()
+
+
 @pytest.mark.parametrize("content, message", [
     (None, "file not found"),
     (b"", "the file is empty"),
@@ -80,6 +90,10 @@ def test_rejects_file_holds_the_original_cells(tmp_path):
     ("product,price,volume\na,1,2\n".encode("utf-16"), "this is UTF-16 text (its byte-order mark says so): save it as UTF-8"),
     (b"product,price,volume\na,1,2\na,1\x00,2\n", "line 3 holds a NUL byte (0x00)"),
     (b"product,price,volume\n\xff\xfe\xfa,1,2\n" * 3, "not UTF-8"),
+    # other compressions by their magic numbers (bz2, lzma, zipfile of the standard library wrote them)
+    (bz2.compress(b"product,price,volume\na,1,2\n"), "this is bzip2-compressed: decompress it first (bunzip2 FILE)"),
+    (lzma.compress(b"product,price,volume\na,1,2\n"), "this is xz-compressed: decompress it first (unxz FILE)"),
+    (zipped(b"product,price,volume\na,1,2\n"), "this is zip-compressed: decompress it first (unzip FILE)"),
 ])
 def test_file_level_errors_are_one_clear_line(tmp_path, content, message):
     path = tmp_path / "d.csv"
