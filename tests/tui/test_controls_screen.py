@@ -34,14 +34,14 @@ async def test_c_shows_volumes_adjusted_to_the_plan_controls(ledger_path):
         s = put_on(app, "truffle oil 250 ml · North")
         await pilot.pause()
         results, evidence = app.session.results, app.screen.evidence
-        await until(pilot, lambda: "(c: adjusted to the plan's controls)" in screen_text(app))
+        await until(pilot, lambda: "• observed, raw (c: adjust them to the plan's controls)" in screen_text(app))
         text = rendered(evidence.candidate_table(s))  # below the charts: may be scrolled out of view
         c = int(results.chosen[s])
         assert "promo: ×0.5 volume" in text  # loglog: promotion weeks sold half (they were the quiet ones)
         assert any("promo: −" in line and "units" in line for line in text.splitlines())  # polynomials: units
         raw = evidence.adjusted
         await pilot.press("c")
-        await until(pilot, lambda: "adjusted to the plan's controls (c: raw)" in screen_text(app))
+        await until(pilot, lambda: "adjusted to the plan's controls (c: show them raw)" in screen_text(app))
         assert evidence.adjusted is not raw
         # What the chart draws: each promotion week's volume doubled (exp(−γ) with γ ≈ ln 0.5), the rest as sold.
         _, volume, _ = series_rows(results, s)
@@ -51,7 +51,7 @@ async def test_c_shows_volumes_adjusted_to_the_plan_controls(ledger_path):
         np.testing.assert_allclose(moved[promo] / volume[promo], np.exp(-results.controls.coef[s, c, 0]))
         assert curve_chart(results, s, 80, 14, c, {}, True).plain != curve_chart(results, s, 80, 14, c, {}).plain
         await pilot.press("c")
-        await until(pilot, lambda: "(c: adjusted to the plan's controls)" in screen_text(app))
+        await until(pilot, lambda: "• observed, raw (c: adjust them to the plan's controls)" in screen_text(app))
 
 
 async def test_without_controls_c_is_not_a_key(ledger_path):

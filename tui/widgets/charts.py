@@ -221,8 +221,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     chart = _finish()
     # The legend goes under the chart, where it cannot cover the data.
     legend = Text()
-    seen = "• observed, adjusted to the plan's controls (c: raw)" if adjusted else "• observed" + (
-        " (c: adjusted to the plan's controls)" if results.controls is not None else "")
+    seen = "• observed, adjusted to the plan's controls (c: show them raw)" if adjusted else "• observed" + (
+        ", raw (c: adjust them to the plan's controls)" if results.controls is not None else "")
     if results.rows_loaded:
         legend.append(seen, _colour(OBSERVED))
     elif unobserved:
