@@ -23,6 +23,7 @@ from pathlib import Path
 from fitcore import ledger
 from fitcore.errors import DataError
 from fitcore.ledger.replay import series_id
+from fitcore.ledger.rules import decided_on_newer
 from fitcore.text import clean
 
 from .ledger_cli import meets, open_ledger, refuse_key_mismatch, say_missing
@@ -65,7 +66,7 @@ def run_export(args) -> int:
         print(f"pricefold ledger: {args.output}: key column {', '.join(renamed)} (the export has its own column "
               "of that name)", file=sys.stderr)
     writer.writerow(made([*keys.values(), *COLUMNS]))
-    count, keys, head = 0, [], book.head_text
+    count, keys, head, newer = 0, [], book.head_text, 0
     own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi", "elasticity": "plan_elasticity"}
     level = (header.get("settings") or {}).get("level")
     rows: list[list] = []
@@ -74,10 +75,12 @@ def run_export(args) -> int:
     from fitcore.ledger.snapshot import signed_plan
     with collector_paused():  # a few small objects a series and no cycles among them
         series = _by_columns(ahead, book) if parts is None else _by_records(parts, book)
-        for key, fingerprint, chosen, plan, history, cand in series:
+        for key, fingerprint, chosen, plan, history, cand, last_date in series:
             count += 1
             keys.append(key)
             status = history.status(fingerprint) if history else "pending"
+            if status == "stale" and decided_on_newer(key, fingerprint, last_date, history):
+                newer += 1
             current = history.current if history else None
             model = current["model"] if current else chosen
             # The standing model's plan numbers: the proposal's from the plan; another candidate's from its own
@@ -114,6 +117,10 @@ def run_export(args) -> int:
         tail = "every row is pending" if found.new == count else "their rows are pending, beside the ledger's own"
         print(f"pricefold ledger: {args.results}: warning: {said}; {tail}", file=sys.stderr)
     say_missing("pricefold ledger", args.results, keys, book, args.ledger)  # no row for those
+    if newer:  # results older than the decisions: their rows say "stale", which reads as decided on older data
+        print(f"pricefold ledger: {args.results}: warning: {newer:,} series were decided on newer data than these "
+              "results: their rows say 'stale' and hold the signed numbers; export from the newer results",
+              file=sys.stderr)
     if later:
         _signed_at_price(args.results, rows, later, level)
     for row in rows:
@@ -153,7 +160,7 @@ def model_of(history, chosen: str | None) -> str | None:
 
 # (key, fingerprint, chosen, plan: price, volume, lo, hi or {}, ledger history or None, the fields of the
 # candidate it exports or None)
-Exported = tuple[dict, str, str, dict, object, dict]
+Exported = tuple[dict, str, str, dict, object, dict, "str | None"]  # … and the series' last date
 
 
 def _by_records(parts, book) -> Iterator[Exported]:
@@ -162,7 +169,8 @@ def _by_records(parts, book) -> Iterator[Exported]:
         history = book.histories.get(series_id(record["key"]))
         model = model_of(history, record["chosen"])
         cand = next((c for c in record["candidates"] if c["name"] == model), None)
-        yield record["key"], record["fingerprint"], record["chosen"], record.get("plan") or {}, history, cand
+        yield (record["key"], record["fingerprint"], record["chosen"], record.get("plan") or {}, history, cand,
+               record.get("last_date"))
 
 
 # The columns read for an export, and the Arrow type each must have for the column reader to vouch for
@@ -189,9 +197,12 @@ def _columns_ahead(path: Path) -> tuple[list[Path], object]:
 
 
 def _export_columns(part: Path):
+    import pyarrow.parquet as pq
+
     from fitcore.results.read import read_header
     from fitcore.results.series_columns import series_columns
-    return series_columns(part, read_header(part), list(EXPORTED))
+    dated = ["last_date"] if "last_date" in pq.read_schema(part).names else []  # results made before it: none
+    return series_columns(part, read_header(part), [*EXPORTED, *dated])
 
 
 def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
@@ -243,7 +254,9 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
                 plans[s] = {"price": numbers_at["plan_price"][j], "volume": numbers_at["plan_volume"][j],
                             "lo": numbers_at["plan_lo"][j], "hi": numbers_at["plan_hi"][j],
                             "elasticity": numbers_at["plan_elasticity"][j]}
-        yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands)
+        days = [None if day is None else day.isoformat() for day in columns.values("last_date", 0, every)] \
+            if "last_date" in columns.table.column_names else [None] * len(keys)
+        yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands, days)
 
 
 PLAN_FIELDS = ("plan_volume", "plan_lo", "plan_hi", "plan_elasticity")

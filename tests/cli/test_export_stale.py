@@ -9,6 +9,8 @@ from __future__ import annotations
 import csv
 import json
 
+import pytest
+
 from fitcore import ledger
 from pricefold.cli import main
 from tests.cli.test_cycle import fit, write_weeks
@@ -52,3 +54,23 @@ def test_a_stale_row_carries_the_signed_model_not_this_cycles(tmp_path):
     assert bare_row["status"] == "stale" and bare_row["model"] == bare["chosen"]
     assert [bare_row[c] for c in ("family", "coef", "smearing", "plan_price", "plan_volume", "plan_lo",
                                   "plan_hi")] == [""] * 7
+
+
+@pytest.mark.parametrize("ending", [".json", ".parquet"])
+def test_an_export_of_last_cycles_results_warns_of_decisions_on_newer_data(tmp_path, capsys, ending):
+    """A trial exported cycle 1's results after cycle 2's sign-off: 148 rows 'stale', exit 0, no word that those
+    were decided on newer data (``show --ledger`` says so)."""
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    for week in ("c1", "c2"):
+        assert main(["fit", str(tmp_path / f"{week}.csv"), "--date", "week", "--plan-price", "2.3",
+                     "-o", str(tmp_path / f"{week}{ending}"), "-q"]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / f"c2{ending}"), "--ledger", str(book), "-q"]) == 0
+    accepted = len(book.read_text().splitlines())
+    capsys.readouterr()
+    for week, said in (("c1", True), ("c2", False)):
+        assert main(["ledger", "export", str(book), "--results", str(tmp_path / f"{week}{ending}"),
+                     "-o", str(tmp_path / f"{week}.csv.out.csv"), "-q"]) == 0
+        err = capsys.readouterr().err
+        assert (f"warning: {accepted} series were decided on newer data than these results" in err) is said, err
