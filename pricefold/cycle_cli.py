@@ -20,7 +20,7 @@ from .show import key_parts
 
 def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | None]:
     """(status in the ledger, what it needs) of a results record (``short``: for the list's column)."""
-    from fitcore.ledger.backtest import due, untested_due
+    from fitcore.ledger.backtest import carried_across, due, untested_due
     history = book.histories.get(series_id(record["key"]))
     status = history.status(record["fingerprint"]) if history else "pending"
     if status in ("accepted", "overridden") and history.current["action"] == "carry":
@@ -35,6 +35,8 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
             "candidates" in record and near_best(record, bt.get("candidate")))
         kept = _carried_action(history, bt.get("carries")) == "override" and bool(near)
         needs = due(bt, stops, record["chosen"] is not None, kept)
+        if not short:  # what a carry would carry it across besides new rows, said in its note too
+            needs = "; ".join([needs, *carried_across(bt)])
     if status == "stale" and needs is None:  # a hold signs no curve; anything else: these results hold none
         needs = untested_due(history.current, short) or (
             "not backtested" if short else "no backtest in these results (fit with --ledger)")
