@@ -152,4 +152,5 @@ def test_a_carry_to_a_new_plan_price_or_other_settings_is_said(tmp_path, capsys,
     said = capsys.readouterr().out
     accept, carry = now[carried].records[0], now[carried].current
     assert f"Accepted {accept['at'][:10]} by ana, carried {carry['at'][:10]} by bo: " in said
+    assert f"carried {carry['model']} forward at {carry['at'][11:19]} UTC (carries accept by ana" in said
     assert "to a new plan price" not in said and "other settings" not in said
