@@ -35,6 +35,7 @@ class Carryable:
     near_best: bool  # the signed candidate is available and within one SE of the lowest CV error
     snapshot: dict | None = None
     revised: bool = False  # carried over a revised history (``--carry-revised``): said in the carry's note
+    across: tuple = ()  # what else it is carried across (``backtest.carried_across``): said in the note, counted
 
 
 def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_date: str | None,
@@ -90,11 +91,11 @@ def held_keys(histories: dict) -> list[dict]:
 
 def plan_from_records(records, level: float, controls: list[str] | None = None,
                       overrides: frozenset = frozenset(), histories: dict | None = None, revised_ok: bool = False,
-                      cov_known: bool = True) -> tuple[list[Carryable], Counter]:
+                      cov_known: bool = True, fitted: dict | None = None) -> tuple[list[Carryable], Counter]:
     """Which series may be carried, from results records (JSON; small runs), and why the others may not
     (``newer_first``, ``left_for_human``, ``held_left``; ``overrides``: the digests of the ledger's overrides;
     ``histories``: the ledger's; ``revised_ok``: ``--carry-revised``)."""
-    from fitcore.ledger.backtest import left_for_human
+    from fitcore.ledger.backtest import carried_across, left_for_human
     from fitcore.ledger.snapshot import from_records
     histories, records = histories or {}, list(records)
     stops, keep, left = stop_codes(), [], Counter()
@@ -119,8 +120,9 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
             left[why] += 1
         else:
             keep.append((record, Carryable(record["key"], record["fingerprint"], record["chosen"], codes, bt["latest"],
-                                           bt["candidate"], bt["carries"], near, revised=bool(bt.get("revised")))))
-    signed = from_records([(record, c.candidate) for record, c in keep], level, controls, cov_known)
+                                           bt["candidate"], bt["carries"], near, revised=bool(bt.get("revised")),
+                                           across=tuple(carried_across(bt)))))
+    signed = from_records([(record, c.candidate) for record, c in keep], level, controls, cov_known, fitted)
     for (_, c), snapshot in zip(keep, signed):
         c.snapshot = snapshot
     return [c for _, c in keep], left
@@ -135,7 +137,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
 
     from fitcore.arrays import integers, objects
     from fitcore.data.keys import SeriesKeys
-    from fitcore.ledger.backtest import FAILED, PASSED, left_for_human
+    from fitcore.ledger.backtest import FAILED, PASSED, carried_across, left_for_human
     from fitcore.ledger.snapshot import from_results
     from fitcore.results.stored import stored_results
     from fitcore.review.flags import CODES
@@ -203,10 +205,15 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     combos, which = np.unique(raised.astype(bits.dtype) @ bits, return_inverse=True)
     codes = [[CODES[j] for j in range(len(CODES)) if combo >> j & 1] for combo in combos.tolist()]
     chosen_names = [names[c] for c in chosen[ok].tolist()]
-    plan = [Carryable(key, fingerprint, chosen_name, list(codes[w]), latest, candidate, carries, close, snapshot, moved)
-            for key, fingerprint, chosen_name, w, latest, candidate, carries, close, snapshot, moved in
+    across_columns = [name for name in ("signed_price", "price", "planned", "settings_changed") if name in bt]
+    across = [tuple(carried_across(dict(zip(across_columns, values))))
+              for values in zip(*(bt[name][ok].tolist() for name in across_columns))] or [()] * len(ok)
+    plan = [Carryable(key, fingerprint, chosen_name, list(codes[w]), latest, candidate, carries, close, snapshot, moved,
+                      over)
+            for key, fingerprint, chosen_name, w, latest, candidate, carries, close, snapshot, moved, over in
             zip(keys, fingerprints, chosen_names, which.reshape(-1).tolist(), bt["latest"][ok].tolist(),
-                bt["candidate"][ok].tolist(), bt["carries"][ok].tolist(), near.tolist(), snapshots, revised.tolist())]
+                bt["candidate"][ok].tolist(), bt["carries"][ok].tolist(), near.tolist(), snapshots, revised.tolist(),
+                across)]
     return plan, left
 
 
@@ -274,11 +281,12 @@ def _carry(args) -> int:
     if stored:
         plan, left = plan_from_stored(args.results, overrides, book.histories, args.carry_revised)
     else:
-        from fitcore.ledger.snapshot import header_terms  # numpy and the families: not for every --help
+        from fitcore.ledger.snapshot import fit_terms, header_terms  # numpy and the families: not for every --help
         from fitcore.results.control_fields import cov_known
-        plan, left = plan_from_records(read_results(args.results)[1], header["settings"].get("level", 0.95),
-                                       header_terms(header["settings"]), overrides, book.histories,
-                                       args.carry_revised, cov_known(header["settings"]))
+        settings = header["settings"]
+        plan, left = plan_from_records(read_results(args.results)[1], settings.get("level", 0.95),
+                                       header_terms(settings), overrides, book.histories, args.carry_revised,
+                                       cov_known(settings), fit_terms(settings))
     read = str(source.get("head", ""))
     witness = parse_head(read)
     if witness is None or not book.holds(*witness):
@@ -287,9 +295,10 @@ def _carry(args) -> int:
                                  f"read (it now ends at {book.head_text[:20]}…: records were removed or the file "
                                  "replaced); nothing was carried")
     outcome: Counter = Counter()
+    across: Counter = Counter()  # what the carries written were carried across, as their notes say it
 
     def decide(records):  # under the lock: book.histories is what the ledger holds now
-        outcome.clear()
+        outcome.clear(), across.clear()
         for c in plan:
             history = book.histories.get(series_id(c.key))
             if carried_already(history, c.fingerprint):  # by a run at the same time
@@ -298,11 +307,13 @@ def _carry(args) -> int:
                 outcome["changed since the fit"] += 1
             else:
                 entry = ledger.Entry(series=c.key, action="carry", fingerprint=c.fingerprint, results=digest,
-                                     model=c.candidate, proposed=c.chosen, note=carry_note(args.note, c.revised),
+                                     model=c.candidate, proposed=c.chosen,
+                                     note=carry_note(args.note, c.revised, c.across),
                                      supersedes=c.latest, flags=c.flags, signed=c.snapshot, carries=c.carries)
                 if newer_standing(entry, history) is not None:  # the ledger would refuse the whole batch
                     outcome[NEWER_DUE_SHORT] += 1
                 else:
+                    across.update(c.across)
                     yield entry
 
     written = book.append(decide, identity(args.analyst))
@@ -314,8 +325,8 @@ def _carry(args) -> int:
                    else f"carried no series: nothing written to {args.ledger}")  # not "→ L" when L is as it was
         over = sum(1 for r in written if REVISED_NOTE in (r.get("note") or ""))
         print(carried + (f" ({already:,} carried already)" if already else "")
-              + (f"; {over:,} of them over a revised history (--carry-revised; said in their notes)" if over else ""),
-              file=sys.stderr)
+              + (f"; {over:,} of them over a revised history (--carry-revised; said in their notes)" if over else "")
+              + across_words(across), file=sys.stderr)
         print(f"left for a human: {sum(left.values()):,} ({rest})", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0
@@ -325,7 +336,26 @@ ALREADY = "already carried"  # a series an earlier run carried to these data: in
 REVISED_NOTE = "history revised since signing: carried with --carry-revised"
 
 
-def carry_note(note: str, revised: bool) -> str:
+def carry_note(note: str, revised: bool, across=()) -> str:
     """A carry's note: the analyst's, and where the rows it was signed on were revised, that it was carried over
-    them on purpose — so the ledger, show and the report tell such a carry from a clean one."""
-    return f"{note}; {REVISED_NOTE}" if revised and note else REVISED_NOTE if revised else note
+    them on purpose — so the ledger, show and the report tell such a carry from a clean one; then what else it
+    was carried across (``backtest.carried_across``: the plan price it moved from, other CV settings)."""
+    return "; ".join([part for part in (note, REVISED_NOTE if revised else "") if part] + list(across))
+
+
+def across_words(across: Counter) -> str:
+    """The summary's clause for what the carries written were carried across: "; 16 of them to a new plan price;
+    79 fitted with other settings than signed: folds 5 → 10, rule one-se → lowest" (each change with its count
+    where they differ)."""
+    from fitcore.ledger.backtest import NEW_PRICE, OTHER_SETTINGS
+    out = ""
+    moved = sum(count for said, count in across.items() if said.startswith(NEW_PRICE))
+    if moved:
+        out += f"; {moved:,} of them {NEW_PRICE}"
+    settings = Counter({said[len(OTHER_SETTINGS) + 2:]: count for said, count in across.items()
+                        if said.startswith(OTHER_SETTINGS)})
+    if settings:
+        which = (next(iter(settings)) if len(settings) == 1 else
+                 " · ".join(f"{said} ({count:,})" for said, count in settings.most_common()))
+        out += f"; {sum(settings.values()):,} {OTHER_SETTINGS}: {which}"
+    return out

@@ -11,7 +11,7 @@ from pathlib import Path
 from fitcore.data.keys import SEPARATOR
 from fitcore.ledger.elsewhere import backtested_elsewhere, without_backtest
 from fitcore.ledger.replay import series_id
-from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer
+from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, what_stands
 from fitcore.text import clean, told_apart
 
 from .ledger_cli import key_mismatch, meets, open_ledger, say_missing
@@ -20,7 +20,7 @@ from .show import key_parts
 
 def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | None]:
     """(status in the ledger, what it needs) of a results record (``short``: for the list's column)."""
-    from fitcore.ledger.backtest import due, untested_due
+    from fitcore.ledger.backtest import carried_across, due, untested_due
     history = book.histories.get(series_id(record["key"]))
     status = history.status(record["fingerprint"]) if history else "pending"
     if status in ("accepted", "overridden") and history.current["action"] == "carry":
@@ -35,6 +35,8 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
             "candidates" in record and near_best(record, bt.get("candidate")))
         kept = _carried_action(history, bt.get("carries")) == "override" and bool(near)
         needs = due(bt, stops, record["chosen"] is not None, kept)
+        if not short:  # what a carry would carry it across besides new rows, said in its note too
+            needs = "; ".join([needs, *carried_across(bt)])
     if status == "stale" and needs is None:  # a hold signs no curve; anything else: these results hold none
         needs = untested_due(history.current, short) or (
             "not backtested" if short else "no backtest in these results (fit with --ledger)")
@@ -176,11 +178,14 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         if alike is not None:
             lines.append("  " + alike_line(record["key"], alike, book, ledger_path))
         stands = standing_decision(record, book)
+        history = book.histories.get(series_id(record["key"]))
         if stands is not None:
-            current = book.histories[series_id(record["key"])].current
+            current = history.current
             lines += ["  " + line for line in
                       stands_words(record, stands, current if current["action"] == "carry" else None,
                                    current.get("signed"))]
+        elif history is not None and history.current is not None and history.current["action"] == "carry":
+            lines.append(f"  {what_stands(history.current, history.carried)}")  # who carried, whose accept
         if record.get("backtest"):
             said = shift_sentence(record["backtest"], record["chosen"], older=needs == NEWER_DUE)
             lines.append(f"  since sign-off (the curve as signed): {said}")

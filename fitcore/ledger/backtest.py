@@ -19,11 +19,20 @@ which would also pass for rows since) is left to a human too unless carry is tol
 (``left_for_human``'s ``revised_ok``).  Only series with rows since are checked: without any there is no
 backtest to mislead.
 
+A curve signed with other weights than this fit's (added, dropped, another column) is another model, as one
+signed with other controls is: ``weights-changed`` (``controls-changed``), never carried, its rows not
+called revised (the fingerprint hashes the weights, so they would be).  A decision signed before snapshots
+recorded their weighting is taken as signed with this fit's weighting where its rows still hash as signed
+(the weights are hashed), else as signed unweighted: so an unweighted cycle after it is judged as before,
+and a weighted one whose rows no longer hash as signed is ``weights-changed``.  Changes carried across are
+said (``carried_across``): another plan price than signed, other CV settings (``settings_changed``).
+
 Only the ledger's records are read one by one (they are dicts); every number is computed over all
 series at once, grouped by the signed curve's family and size.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -34,7 +43,7 @@ from ..fit.families import BY_NAME
 from ..fit.results import Results
 from .history import dated_rows, history_fit
 from .history import revised as signed_rows_revised
-from .snapshot import evaluate, terms
+from .snapshot import CV_SETTINGS, evaluate, fit_terms_of, terms
 from .standing import Standing, standing_of
 
 # status of a series' backtest; None: no standing decision made on other data (nothing to test)
@@ -43,6 +52,8 @@ NO_DATES, NO_NEW_ROWS, UNSIGNED, UNDATED = "no-dates", "no-new-rows", "unsigned"
 # signed with other controls than this fit holds fixed (added, dropped, other season terms): the curves
 # are not the same model, whatever the backtest says, so an analyst looks again
 CONTROLS_CHANGED = "controls-changed"
+# signed with other weights than this fit's (added, dropped, another column): likewise another model
+WEIGHTS_CHANGED = "weights-changed"
 # the rows up to the signed data's last date are not the signed ones and the signed curve no longer fits them
 HISTORY_CHANGED = "history-changed"
 
@@ -63,7 +74,11 @@ class Backtest:
     is carried under another proposal).  ``revised`` (bool: the rows up to ``last_date`` do not hash to the
     decision's fingerprint), ``history_rows`` (those rows now, -1 where not revised), ``signed_rows`` (the rows
     signed, -1 where not known or not revised), ``history_ratio`` (the
-    signed curve's RMSE on them over its CV RMSE; NaN where not revised).  ``source``: the ledger and its head.
+    signed curve's RMSE on them over its CV RMSE; NaN where not revised).  ``weighting`` (text, where
+    ``weights-changed``: "unweighted → weighted by w"), ``settings_changed`` (text: "folds 5 → 10, rule one-se →
+    lowest", where the signed snapshot records other CV settings than this fit's).  For a standing carry, the
+    accept or override it carries (``analyst`` and ``signed_at`` are the carry's): ``carried_action``,
+    ``carried_analyst``, ``carried_at``.  ``source``: the ledger and its head.
     """
 
     source: dict
@@ -97,6 +112,11 @@ class Backtest:
     history_rows: np.ndarray
     signed_rows: np.ndarray
     history_ratio: np.ndarray
+    weighting: np.ndarray
+    settings_changed: np.ndarray
+    carried_action: np.ndarray
+    carried_analyst: np.ndarray
+    carried_at: np.ndarray
     planned: np.ndarray
     chosen: np.ndarray
 
@@ -104,7 +124,8 @@ class Backtest:
               "new_rows", "error_ratio", "coverage", "outside", "price", "planned", "signed_volume", "signed_lo",
               "signed_hi", "signed_price", "signed_plan_volume", "signed_plan_lo", "signed_plan_hi", "proposed_volume",
               "volume_change", "elasticity_change", "shape_changed", "shifted", "signed_near_best", "revised",
-              "history_rows", "signed_rows", "history_ratio")
+              "history_rows", "signed_rows", "history_ratio", "weighting", "settings_changed", "carried_action",
+              "carried_analyst", "carried_at")
 
     def columns(self) -> dict:
         return {name: getattr(self, name) for name in self.STORED}
@@ -136,6 +157,7 @@ class Backtest:
 
 # What a series signed on other data needs when its backtest did not pass, in the words carry counts by.
 UNTESTED = {FAILED: "backtest failed", CONTROLS_CHANGED: "controls changed since signing",
+            WEIGHTS_CHANGED: "weighting changed since signing",
             HISTORY_CHANGED: "history changed since signing", NO_DATES: "no dates",
             UNDATED: "no dates", NO_NEW_ROWS: "no new rows", UNSIGNED: "no signed model"}
 
@@ -223,10 +245,13 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
                signed_plan_lo=number(), signed_plan_hi=number(), proposed_volume=number(), volume_change=number(),
                elasticity_change=number(), shape_changed=np.zeros(n_s, bool), signed_near_best=np.zeros(n_s, bool),
                revised=np.zeros(n_s, bool), history_rows=np.full(n_s, -1, np.int64),
-               signed_rows=np.full(n_s, -1, np.int64), history_ratio=number())
+               signed_rows=np.full(n_s, -1, np.int64), history_ratio=number(), weighting=text(),
+               settings_changed=text(), carried_action=text(), carried_analyst=text(), carried_at=text())
     series, mine = on_other_data(standing, SeriesKeys.of(results.data), results.data.fingerprints)
+    reweighted = np.zeros(0, np.int64)
     if len(series):
         _fill(out, results, series, mine)
+        reweighted = _weights_changed(out, results, series, mine)
     failed = out["status"] == FAILED
     with np.errstate(invalid="ignore"):
         failed |= (out["status"] == PASSED) & ((out["error_ratio"] > thresholds.shift_error_ratio) | (
@@ -234,18 +259,61 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
         out["status"][failed] = FAILED
         shifted = failed | (np.abs(out["volume_change"]) > thresholds.shift_volume)
         gone = out["revised"] & ~(out["history_ratio"] <= thresholds.shift_error_ratio)  # NaN: no row left to fit
-    gone &= np.isin(out["status"], [PASSED, FAILED, NO_NEW_ROWS])
+    gone &= np.isin(out["status"], [PASSED, FAILED, NO_NEW_ROWS])  # (never a reweighted one: not revised)
     out["status"][gone] = HISTORY_CHANGED
     shifted |= gone  # the signed curve no longer describes its own rows: flagged, whatever the volume says
     if len(series):
+        out["status"][reweighted] = WEIGHTS_CHANGED
         now = "|".join(terms(results) or ())
         out["status"][series[(mine.controls != now) & mine.signed]] = CONTROLS_CHANGED
     return Backtest(source=source, shifted=shifted, planned=np.isfinite(results.plan_price),
                     chosen=np.asarray(results.chosen), **out)
 
 
+def _weights_changed(out: dict, results: Results, series: np.ndarray, st: Standing) -> np.ndarray:
+    """The series (indices) whose signed curve was fitted with other weights than ``results`` (see the module
+    doc for a snapshot that predates the record), their ``weighting`` said and their rows no longer called
+    revised (the weights are hashed); the CV settings that differ said as ``settings_changed``."""
+    fitted = fit_terms_of(results)
+    now = fitted["weight"] or ""
+    recorded = st.weight != None  # noqa: E711  (object array)
+    changed = st.signed & np.where(recorded, st.weight != now, (now != "") & out["revised"][series])
+    said = lambda w: "unweighted" if not w else f"weighted by {w}"  # noqa: E731
+    for i in np.flatnonzero(changed).tolist():
+        before = said(st.weight[i]) if recorded[i] else "not recorded, its rows changed"
+        out["weighting"][series[i]] = f"{before} → {said(now)}"
+    at = series[changed]
+    out["revised"][at], out["history_rows"][at], out["signed_rows"][at], out["history_ratio"][at] = False, -1, -1, np.nan
+    for i, cv in enumerate(st.cv.tolist()):
+        if isinstance(cv, dict):
+            moved = [f"{name.replace('_', ' ')} {cv.get(name)} → {fitted['cv'][name]}" for name in CV_SETTINGS
+                     if cv.get(name) != fitted["cv"][name]]
+            out["settings_changed"][series[i]] = ", ".join(moved) or None
+    return at
+
+
+def carried_across(bt: dict) -> list[str]:
+    """What a signed curve is carried across besides new rows, from its stored backtest: another plan price than
+    signed ("to a new plan price: 2.28 → 2.05"), other CV settings ("fitted with other settings than signed:
+    folds 5 → 10, rule one-se → lowest").  Said by carry (its summary and each carry's note) and ``show``."""
+    from ..review.sentences import money
+    out = []
+    signed, price = (math.nan if bt.get(name) is None else float(bt[name]) for name in ("signed_price", "price"))
+    if bt.get("planned") and math.isfinite(signed) and math.isfinite(price) and not math.isclose(signed, price,
+                                                                                                  rel_tol=1e-12):
+        out.append(f"{NEW_PRICE}: {money(signed)} → {money(price)}")
+    if bt.get("settings_changed"):
+        out.append(f"{OTHER_SETTINGS}: {bt['settings_changed']}")
+    return out
+
+
+NEW_PRICE = "to a new plan price"
+OTHER_SETTINGS = "fitted with other settings than signed"
+
+
 def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None:
-    for name in ("decision", "carries", "latest", "analyst", "signed_at", "candidate"):
+    for name in ("decision", "carries", "latest", "analyst", "signed_at", "candidate", "carried_action",
+                 "carried_analyst", "carried_at"):
         out[name][series] = getattr(st, name)
     out["status"][series] = UNSIGNED
     keep = np.flatnonzero(st.signed)

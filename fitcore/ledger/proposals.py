@@ -25,7 +25,7 @@ from ..errors import DataError
 from ..results.checks import SEVERITIES
 from ..results.control_fields import cov_known
 from ..results.read import CYCLE_COLUMNS, read_header, result_parts
-from .snapshot import from_records, header_terms, snapshots
+from .snapshot import fit_terms, from_records, header_terms, snapshots
 
 # (key, fingerprint, proposed candidate, signed snapshot) of one series
 Proposal = tuple[dict, str, str, dict]
@@ -62,7 +62,7 @@ def _by_records(path: Path, ledger_path: Path | None = None) -> tuple[dict, list
     if any("basis" not in c for record in chosen for c in record["candidates"] if c["name"] == record["chosen"]):
         raise DataError(NO_PARTS, path=str(path))
     signed = from_records([(record, record["chosen"]) for record in chosen], header["settings"].get("level", 0.95),
-                          header_terms(header["settings"]), cov_known(header["settings"]))
+                          header_terms(header["settings"]), cov_known(header["settings"]), fit_terms(header["settings"]))
     return header, [(record["key"], record["fingerprint"], record["chosen"], snapshot)
                     for record, snapshot in zip(chosen, signed)]
 
@@ -118,7 +118,7 @@ def _columnwise(path: Path, parts: list[Path], ledger_path: Path | None = None
                          sigma2=picked["sigma2"][at], df=picked["df"][at], n=picked["n"][at], lo=picked["lo"][at],
                          hi=picked["hi"][at], last_date=[picked["last_date"][i] for i in members],
                          plan_price=picked["plan_price"][at], cv_mse=picked["cv_mse"][at], controls=terms,
-                         cov_known=cov_known(settings))
+                         cov_known=cov_known(settings), fitted=fit_terms(settings))
         for i, snapshot in zip(members, made):
             out[i] = snapshot
     keys, prints = picked["key"].tolist(), picked["fingerprint"].tolist()

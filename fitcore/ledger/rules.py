@@ -153,6 +153,17 @@ def what_happened(record: dict) -> str:
     return f"{person(record)} {done} at {clean(at)} UTC"
 
 
+def what_stands(standing: dict, decision: dict | None) -> str:
+    """``what_happened`` of a standing record; for a carry, also the accept or override it carries (``decision``),
+    as the report says it: "bo carried poly1 forward at 06:26:07 UTC (carries accept by ana, 2026-12-03 18:54
+    UTC)" — the carry is who refitted it, the decision who chose the curve."""
+    said = what_happened(standing)
+    if standing["action"] != "carry" or decision is None or decision is standing:
+        return said
+    at = clean(decision["at"][:16].replace("T", " "))
+    return f"{said} (carries {decision['action']} by {person(decision)}, {at} UTC)"
+
+
 def label(key: dict) -> str:
     return clean(" · ".join(str(value) for value in key.values()))
 

@@ -14,6 +14,12 @@ full design's at the plan's control values) records ``null`` for them and says s
 but not its band).  With controls a snapshot says ``cov_at_plan_controls``: one signed without it
 (before then) holds the price columns' own matrix, and its readers take it for incomplete
 (``interval_cov``).
+
+What a later sign-off needs to know of the fit beyond its curve (``fitted``): the weight column it was
+fitted with (``weight``: its name, null unweighted; another weighting is another model, as other controls
+are) and how its shape was chosen (``cv``: folds, fold order, seed, rule; a carry under other ones says so).
+A snapshot signed before they were recorded has neither key (``fitcore.ledger.backtest`` says how such a
+decision is judged).
 """
 from __future__ import annotations
 
@@ -112,11 +118,12 @@ def signed_curve(snapshot: dict, price) -> np.ndarray:
 
 
 def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, cov, sigma2, df, n, lo, hi,
-              last_date, plan_price, cv_mse, controls: list[str] | None = None, cov_known: bool = True
-              ) -> list[dict]:
+              last_date, plan_price, cv_mse, controls: list[str] | None = None, cov_known: bool = True,
+              fitted: dict | None = None) -> list[dict]:
     """The ``signed`` objects of n series for candidate ``name`` of ``family``: arrays (n,) and
     ``coef`` (n, k), ``cov`` (n, k, k); ``last_date`` a list of "YYYY-MM-DD" or None; ``cov_known``
-    False: ``cov`` is not to be used (results with controls written before it was at the plan's values)."""
+    False: ``cov`` is not to be used (results with controls written before it was at the plan's values);
+    ``fitted``: ``fit_terms`` of the fit (its weighting and CV settings), recorded in every snapshot."""
     fam = BY_NAME[family]
     coef = np.asarray(coef, dtype=float).reshape(len(mid), -1)
     k = coef.shape[1]
@@ -151,7 +158,7 @@ def snapshots(name: str, family: str, level: float, *, coef, mid, half, smear, c
             "sigma2": s2, "df": d if whole else None, "level": level,
             "n": count, "price_range": [low, high], "last_date": last,
             "plan": {"price": pp, "volume": vol, "lo": plo, "hi": phi, "elasticity": el} if has_plan else None,
-            "cv_mse": mse, "controls": controls}
+            "cv_mse": mse, "controls": controls, **(fitted or {})}
         if controls and whole:
             snapshot["cov_at_plan_controls"] = True
         if not whole:
@@ -190,7 +197,7 @@ def from_results(results: Results, series, c: int, cov: np.ndarray | None = None
                      lo=results.price_lo[series], hi=results.price_hi[series],
                      last_date=date_texts(None if dates is None else dates[series], len(series)),
                      plan_price=results.plan_price[series], cv_mse=cell(results.cv_mse),
-                     controls=terms(results))
+                     controls=terms(results), fitted=fit_terms_of(results))
 
 
 def terms(results: Results) -> list[str] | None:
@@ -200,13 +207,30 @@ def terms(results: Results) -> list[str] | None:
     return list(ctl.names) if ctl is not None and len(ctl.names) else None
 
 
+CV_SETTINGS = ("folds", "fold_order", "seed", "rule")  # what chose the shape: a carry under other ones says so
+
+
+def fit_terms(settings: dict) -> dict:
+    """What a signed snapshot records of a fit beyond its curve, from its settings (a results header's, or
+    ``FitSettings.as_dict()``): ``weight``, the weight column (None: unweighted), and ``cv``, the settings
+    that chose the shape."""
+    return {"weight": (settings.get("columns") or {}).get("weight"),
+            "cv": {name: settings.get(name) for name in CV_SETTINGS}}
+
+
+def fit_terms_of(results: Results) -> dict:
+    """``fit_terms`` of a fit: from the settings it records, so a fit and its results read back record the same
+    (a Python-API fit that names no columns records none: unweighted)."""
+    return fit_terms(results.settings.as_dict())
+
+
 def header_terms(settings: dict) -> list[str] | None:
     """``terms`` from a results header's settings."""
     return list((settings.get("controls") or {}).get("terms") or []) or None
 
 
 def from_records(pairs: list[tuple[dict, str]], level: float, controls: list[str] | None = None,
-                 cov_known: bool = True) -> list[dict]:
+                 cov_known: bool = True, fitted: dict | None = None) -> list[dict]:
     """Snapshots of candidate ``name`` of each results ``record`` (the JSON layout, as ``read_results``
     gives it), in order; each candidate's ``basis``, ``cov_unscaled``, ``sigma2`` and ``df`` as the
     results hold them (missing, or not ``cov_known``: an incomplete snapshot)."""
@@ -232,7 +256,8 @@ def from_records(pairs: list[tuple[dict, str]], level: float, controls: list[str
             hi=np.array([r["price_range"][1] for r in records], dtype=float),
             last_date=[r.get("last_date") for r in records],
             plan_price=np.array([(r.get("plan") or {}).get("price") for r in records], dtype=float),
-            cv_mse=np.array([c["cv_mse"] for c in cands], dtype=float), controls=controls, cov_known=cov_known)
+            cv_mse=np.array([c["cv_mse"] for c in cands], dtype=float), controls=controls, cov_known=cov_known,
+            fitted=fitted)
         for i, snapshot in zip(members, made):
             out[i] = snapshot
     return out

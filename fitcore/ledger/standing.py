@@ -27,7 +27,11 @@ class Standing:
     (NaN where not recorded), ``last_date`` (datetime64[D], NaT where none); ``controls`` (text: the
     control terms it was fitted with, joined by "|", "" for none; None without a snapshot); what was signed
     at the plan price then: ``plan_price``, ``plan_volume``, ``plan_lo``, ``plan_hi`` (NaN without a plan);
-    ``n``: the rows it was signed on (-1 where not recorded)."""
+    ``n``: the rows it was signed on (-1 where not recorded); ``weight`` (text: the weight column it was
+    fitted with, "" unweighted; None where the snapshot predates its record, or none) and ``cv`` (dicts: the
+    settings that chose its shape, ``snapshot.fit_terms``; None where not recorded); for a standing carry,
+    the accept or override it carries: ``carried_action``, ``carried_analyst``, ``carried_at`` (date; None
+    where the standing decision is not a carry, or its decision is not in the history)."""
 
     series: list
     fingerprint: np.ndarray
@@ -56,6 +60,11 @@ class Standing:
     plan_lo: np.ndarray
     plan_hi: np.ndarray
     n: np.ndarray
+    weight: np.ndarray
+    cv: np.ndarray
+    carried_action: np.ndarray
+    carried_analyst: np.ndarray
+    carried_at: np.ndarray
 
     def __len__(self) -> int:
         return len(self.series)
@@ -74,8 +83,9 @@ def standing_of(histories: dict) -> Standing:
 
 
 def _standing_of(histories: dict) -> Standing:
-    pairs = [(h.current, h.latest) for h in histories.values()
-             if h.current is not None and h.current["action"] in DECISIONS]
+    standing = [h for h in histories.values() if h.current is not None and h.current["action"] in DECISIONS]
+    pairs = [(h.current, h.latest) for h in standing]
+    carried = [h.carried if h.current["action"] == "carry" else None for h in standing]
     n = len(pairs)
     current = [c for c, _ in pairs]
     snaps = [c.get("signed") for c in current]
@@ -113,7 +123,12 @@ def _standing_of(histories: dict) -> Standing:
         last_date=_dates(at, [s.get("last_date") for s in signed], n),
         controls=text(["|".join(s.get("controls") or ()) if ok else None for s, ok in zip(snaps, has)]),
         plan_price=column(7), plan_volume=column(8), plan_lo=column(9), plan_hi=column(10),
-        n=_rows_signed(at, [s.get("n") for s in signed], n))
+        n=_rows_signed(at, [s.get("n") for s in signed], n),
+        weight=text([(s.get("weight") or "") if ok and "weight" in s else None for s, ok in zip(snaps, has)]),
+        cv=text([s.get("cv") if ok else None for s, ok in zip(snaps, has)]),
+        carried_action=text([c and c["action"] for c in carried]),
+        carried_analyst=text([c and c["analyst"] for c in carried]),
+        carried_at=text([c and c["at"][:10] for c in carried]))
 
 
 def _rows_signed(at: np.ndarray, values: list, n: int) -> np.ndarray:

@@ -273,7 +273,9 @@ WHY_UNTESTED = {"no-dates": "these results were fitted without dates (no --date 
                 "unsigned": "the decision was recorded without its model, so no backtest is possible",
                 "undated": "the signed data had no dates, so no backtest is possible",
                 "controls-changed": "it was signed with other controls (or season terms) than this fit holds "
-                                    "fixed, so it is not the same model and is not carried: look again"}
+                                    "fixed, so it is not the same model and is not carried: look again",
+                "weights-changed": "it was signed with other weights than this fit's{weighting}, so it is not the "
+                                   "same model and is not carried: look again"}
 
 
 def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
@@ -290,7 +292,7 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
     where = money(number("price")) + ("" if bt.get("planned") else " (mid-range; no plan price)")
     band = f" ({span(number('signed_lo'), number('signed_hi'))})" if bt.get("signed_lo") is not None else ""
     signed_at = number("signed_price")  # the plan price it was signed at (unknown in results made before)
-    head = f"Signed {clean(str(bt['signed_at']))} by {clean(str(bt['analyst']))}: {clean(str(bt['candidate']))}"
+    head = f"{signed_by(bt)}: {clean(str(bt['candidate']))}"
     if bt.get("signed_volume") is None:
         parts = [head + "."]
     elif not math.isfinite(signed_at) or math.isclose(signed_at, number("price"), rel_tol=1e-12, abs_tol=0.0):
@@ -309,10 +311,12 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
     if bt["status"] in ("passed", "failed") or (gone and n):
         tail = (f"{bt['outside']} of {n} fell outside its band" if bt.get("outside") is not None
                 else "its band was not recorded")
-        parts.append(f"On the {n} {'observation' if n == 1 else 'observations'} since, its error is "
+        whose = "the carried refit's error" if bt.get("carried_analyst") else "its error"
+        parts.append(f"On the {n} {'observation' if n == 1 else 'observations'} since, {whose} is "
                      f"{number('error_ratio'):.1f}× its CV error and {tail}.")
     elif not gone:
-        why = WHY_UNTESTED.get(bt["status"], bt["status"])
+        how = f" ({clean(str(bt['weighting']))})" if bt.get("weighting") else ""
+        why = WHY_UNTESTED.get(bt["status"], bt["status"]).replace("{weighting}", how)
         parts.append(why[0].upper() + why[1:] + ".")
     if proposal is not None and bt.get("proposed_volume") is not None:
         again = "" if bt.get("shape_changed") else " again"
@@ -321,6 +325,18 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
         whose = "The proposal of these older results" if older else "This cycle's proposal"
         parts.append(f"{whose}, {proposal}{again}, predicts {fmt(proposed)} ({beside}).")
     return " ".join(parts)
+
+
+def signed_by(bt: dict) -> str:
+    """Who signed the curve a backtest tests, and when: "Signed 2026-12-03 by ana"; for a standing carry, whose
+    decision it carries and who carried it ("Accepted 2026-12-03 by ana, carried 2026-12-05 by bo": the carry
+    is the refit of ana's accept on the data it was carried to)."""
+    from ..text import clean
+    at, who = clean(str(bt["signed_at"])), clean(str(bt["analyst"]))
+    if not bt.get("carried_analyst"):
+        return f"Signed {at} by {who}"
+    done = {"accept": "Accepted", "override": "Overridden"}.get(bt.get("carried_action"), "Signed")
+    return f"{done} {clean(str(bt.get('carried_at')))} by {clean(str(bt['carried_analyst']))}, carried {at} by {who}"
 
 
 def history_sentence(bt: dict) -> str:

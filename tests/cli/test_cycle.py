@@ -101,7 +101,11 @@ def test_three_cycles_sign_carry_sign(tmp_path, capsys):
     assert mover["backtest"]["decision"] == carried[MOVER].current["digest"]
     assert mover["backtest"]["volume_change"] < -0.15 or mover["backtest"]["error_ratio"] > 2
     message = next(f["message"] for f in mover["flags"] if f["code"] == "shifted")
-    assert message.startswith("Signed ") and "4 observations since" in message and "× its CV error" in message
+    # the carry's analyst and the accept it carries, both (the carry is "bo"'s: see the carry above)
+    accepted_by = carried[MOVER].records[0]["analyst"]
+    assert message.startswith(f"Accepted {carried[MOVER].records[0]['at'][:10]} by {accepted_by}, carried ")
+    assert f"carried {carried[MOVER].current['at'][:10]} by bo:" in message
+    assert "4 observations since, the carried refit's error is" in message and "× its CV error" in message
     capsys.readouterr()
     assert main(["ledger", "carry", str(tmp_path / "r3.json"), "--ledger", str(book)]) == 0
     err = capsys.readouterr().err

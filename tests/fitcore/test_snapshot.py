@@ -14,7 +14,7 @@ import pyarrow.parquet as pq
 import statsmodels.api as sm
 
 import fitcore
-from fitcore.ledger.snapshot import INCOMPLETE, evaluate, from_records, from_results
+from fitcore.ledger.snapshot import INCOMPLETE, evaluate, fit_terms, from_records, from_results
 from fitcore.results.read import read_results
 from fitcore.results.stored import stored_results
 from fitcore.results.write import write_results
@@ -88,8 +88,8 @@ def test_snapshot_plan_is_the_results_plan_and_every_route_gives_the_same_snapsh
             assert snap["last_date"] == str(days[s]) and snap["n"] == data.counts[s] and "incomplete" not in snap
             assert json.dumps(from_results(stored, [s], int(c))[0]) == json.dumps(snap)  # bit for bit
             for records in (json_records, parquet_records):
-                other = from_records([(records[s], name)], 0.95)[0]
-                assert other.keys() == snap.keys()
+                other = from_records([(records[s], name)], 0.95, fitted=fit_terms(results.settings.as_dict()))[0]
+                assert other.keys() == snap.keys() and other["cv"] == snap["cv"] and other["weight"] is None
                 np.testing.assert_allclose(np.array(other["cov_unscaled"]), np.array(snap["cov_unscaled"]), rtol=1e-12)
                 np.testing.assert_allclose(other["plan"]["hi"], snap["plan"]["hi"], rtol=1e-12)
 

@@ -255,6 +255,9 @@ async def test_on_older_results_the_since_sign_off_block_does_not_call_their_pro
         session.set_filter("all", None)
         session.bring(newer)
         app.screen.refresh_all()
-        await until(pilot, lambda: "Since sign-off: Signed" in screen_text(app))
-        said = " ".join(screen_text(app).split())
+        await until(pilot, lambda: "Since sign-off: Accepted" in screen_text(app))
+        # the evidence panel's lines (right of the list) read as one text: its sentence wraps there
+        said = " ".join(line.split("▕", 1)[1].strip() for line in screen_text(app).splitlines() if "▕" in line)
         assert "The proposal of these older results, " in said and "This cycle's proposal" not in said
+        assert "Accepted 2026-" in said and ", carried 2026-" in said  # whose accept, and who carried it
+        assert "forward at" in said and "(carries accept by " in said  # the status line too

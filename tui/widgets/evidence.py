@@ -19,7 +19,7 @@ from textual.containers import VerticalScroll
 from textual.widgets import Static
 
 from fitcore.data.keys import SEPARATOR
-from fitcore.ledger.rules import NEWER_DUE
+from fitcore.ledger.rules import NEWER_DUE, what_stands
 from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
@@ -206,8 +206,9 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             head.append(cut(about, max(width - cell_len(head.plain), 0)), style="dim")
         standing = session.standing(s)
         due = session.due(s)
-        said = (f"status {session.status[s]}" + (f" — due: {due}" if due else "")
-                + ((f"; {describe(standing)}" if due else f": {describe(standing)}") if standing else ""))
+        who = what_stands(standing, session.decision(s)) if standing else ""
+        said = f"status {session.status[s]}" + (f" — due: {due}" if due else "") + (
+            (f"; {who}" if due else f": {who}") if standing else "")
         news = session.news is not None and s == session.current
         if after:
             said += " · " + about.strip()
