@@ -76,6 +76,8 @@ def check_header(path: Path, document: dict, series_key: str | None) -> None:
     settings = _field(path, "", document, "settings", lambda v: isinstance(v, dict), "an object")
     _field(path, "settings", settings, "rule", lambda v: isinstance(v, str), "text")
     _field(path, "settings", settings, "level", lambda v: _number(v) and v is not None, "a number")
+    from ..review.thresholds import recorded_thresholds
+    recorded_thresholds(settings.get("thresholds"), path)  # JSON cannot carry an infinite one into the ledger
     source = _field(path, "", document, "input", lambda v: isinstance(v, dict), "an object")
     for name in ("path", "sha256"):  # absent when the data came from Python rather than a file
         _field(path, "input", source, name, lambda v: isinstance(v, str), "text", optional=True)

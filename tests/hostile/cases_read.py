@@ -26,6 +26,12 @@ READ_CASES = [
     # a file without any of them (an older pricefold's): shown, but nothing to sign with
     Case("accept-unflagged-no-interval-parts", "ledger accept-unflagged r.parquet --ledger L.jsonl",
          {"d.csv": "good", "r.parquet": "pdamaged:no_interval_parts"}, 2, "no interval parts"),
+    # results an earlier pricefold wrote with an infinite threshold: refused in a line, not a traceback
+    *[Case(f"{command.split()[-1]}-{name.replace('.', '-')}-threshold-inf", f"{command} {name}" + (
+        " --ledger L.jsonl" if command.endswith("accept-unflagged") else ""), {"d.csv": "good", name: f"{how}:threshold_inf"},
+        2, f"{name}: its recorded threshold cook_floor is out of range: expected a finite number above 0, got inf")
+      for command in ("show", "ledger accept-unflagged") for name, how in (("r.json", "damaged"),
+                                                                          ("r.parquet", "pdamaged"))],
     Case("show-folder-named-json", "show x.json", {"x.json": "dir"}, 2, "is a folder"),
     Case("show-list-document", "show r.json", {"r.json": "results_text_list"}, 2, "schema"),
     Case("show-truncated-json", "show r.json", {"r.json": "results_truncated"}, 2, "r.json"),

@@ -190,6 +190,7 @@ TEXT: dict[str, bytes] = {
     "toml_threshold_unknown": b"[thresholds]\nmin_pointz = 3\n",
     "toml_threshold_negative": b"[thresholds]\nmin_points = -1\n",
     "toml_threshold_inf": b"[thresholds]\nweak_score = inf\n",
+    "toml_threshold_cook_inf": b"[thresholds]\ncook_floor = inf\n",
     "toml_bad": b"[fit\n",
     "toml_latin1": "[fit]\nrule = 'caf\xe9'\n".encode("latin-1"),
     "toml_table_value": b"fit = 3\n",
@@ -269,7 +270,17 @@ DAMAGE = {
     "price_range_short": lambda d: _set(d, [1.0], "series", 0, "price_range"),
     "key_value_number": lambda d: _set(d, {"product": 7}, "series", 0, "key"),
     "coef_text": lambda d: _set(d, "x", "series", 0, "candidates", 1, "coef"),
+    "threshold_inf": lambda d: _set(d, float("inf"), "settings", "thresholds", "cook_floor"),  # an earlier fit's
 }
+
+
+def _header_set(pa, t, value, *path):
+    """``t`` with its pricefold header changed (and the header's checksum made to match, as a writer would)."""
+    import hashlib
+    header = json.dumps(_set(json.loads(t.schema.metadata[b"pricefold"]), value, *path)).encode()
+    return t.replace_schema_metadata({**t.schema.metadata, b"pricefold": header,
+                                      b"pricefold_sha256": hashlib.sha256(header).hexdigest().encode()})
+
 
 PDAMAGE = {
     "no_flags": lambda pa, t: t.drop_columns(["flags"]),
@@ -283,6 +294,7 @@ PDAMAGE = {
     "no_candidate": lambda pa, t: t.drop_columns(["candidate"]),
     **{f"no_{name}": (lambda name: lambda pa, t: t.drop_columns([name]))(name)
        for name in ("window_coef", "sigma2", "df", "cov_unscaled", "last_date")},
+    "threshold_inf": lambda pa, t: _header_set(pa, t, float("inf"), "settings", "thresholds", "cook_floor"),
     "no_interval_parts": lambda pa, t: t.drop_columns(["window_coef", "sigma2", "df", "cov_unscaled", "last_date"]),
 }
 
