@@ -85,6 +85,30 @@ def check_header(path: Path, document: dict, series_key: str | None) -> None:
         _field(path, "", document, series_key, lambda v: isinstance(v, list), "a list of series")
 
 
+def check_key_columns(path: Path, header: dict, records: list[dict]) -> None:
+    """Every series keyed by the same columns: those the header names (product, then segments), or else the
+    first series'.  A key without one of them (or with another) was signed as a different series and
+    exported a row shifted by a column."""
+    columns = (header.get("settings") or {}).get("columns")
+    if isinstance(columns, dict) and isinstance(columns.get("product"), str):
+        segments = columns.get("segments") or []
+        names = [columns["product"], *(segments if isinstance(segments, list) else [])]
+    elif records:
+        names = list(records[0]["key"])
+    else:
+        return
+    expected = set(names)
+    for i, record in enumerate(records):
+        key = record["key"]
+        if set(key) == expected:
+            continue
+        missing = [name for name in names if name not in key]
+        problem = (f"its key has no {missing[0]!r} column" if missing else
+                   f"its key has the extra column {next(k for k in key if k not in expected)!r}")
+        shown = ", ".join(f"{k}={v}" for k, v in key.items())
+        raise _fail(path, f"series {i + 1} ({shown})", f"{problem} (the series are keyed by {', '.join(names)})")
+
+
 def check_unique_keys(path: Path, records: list[dict]) -> None:
     """One record a series: two with the same key (a file edited by hand) would show and sign two curves."""
     seen: dict[tuple, int] = {}

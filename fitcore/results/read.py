@@ -16,7 +16,8 @@ from ..data.columns import is_parquet_name
 from ..data.textfile import regular_or_folder
 from ..errors import DataError, first_line
 from ..fit.results import SCHEMA
-from .checks import HEADER, PARQUET_COLUMNS, check_header, check_header_digest, check_series, check_unique_keys
+from .checks import (HEADER, PARQUET_COLUMNS, check_header, check_header_digest, check_key_columns, check_series,
+                     check_unique_keys)
 from .control_fields import record_fields
 
 RUN_SUMMARY = "_summary.json"
@@ -61,6 +62,7 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
         series = document.pop("series")
         for i, record in enumerate(series):
             check_series(path, i, record)
+        check_key_columns(path, document, series)
         check_unique_keys(path, series)
         return document, series
     if is_parquet_name(path):

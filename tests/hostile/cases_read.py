@@ -32,6 +32,14 @@ READ_CASES = [
         2, f"{name}: its recorded threshold cook_floor is out of range: expected a finite number above 0, got inf")
       for command in ("show", "ledger accept-unflagged") for name, how in (("r.json", "damaged"),
                                                                           ("r.parquet", "pdamaged"))],
+    # a series keyed by other columns than the file's: signed as another series, exported shifted by a column
+    *[Case(f"{label}-{how.replace('_', '-')}", command, RL | {"b.json": f"damaged:{how}"}, 2,
+           f"b.json: series {place}: its key has {problem} (the series are keyed by product)")
+      for label, command in (("show", "show b.json"), ("accept", "ledger accept-unflagged b.json --ledger L.jsonl"),
+                             ("export", "ledger export L.jsonl --results b.json -o out.csv"))
+      for how, place, problem in (("key_column_missing", "1 (region=North)", "no 'product' column"),
+                                  ("key_column_extra", "2 (product=item 1, region=North)",
+                                   "the extra column 'region'"))],
     Case("show-folder-named-json", "show x.json", {"x.json": "dir"}, 2, "is a folder"),
     Case("show-list-document", "show r.json", {"r.json": "results_text_list"}, 2, "schema"),
     Case("show-truncated-json", "show r.json", {"r.json": "results_truncated"}, 2, "r.json"),
