@@ -266,6 +266,16 @@ CASES = [
       for name, value in [("cook_floor", "inf"), ("unsteady_ratio", "inf"), ("weak_score", "-1e309"),
                           ("min_price_cv", "inf"), ("price_tied_vif", "inf"), ("shift_volume", "inf"),
                           ("near_tie_change", "inf"), ("shift_error_ratio", "inf"), ("weak_score", "nan")]],
+    # two roles reading one column: price as volume fitted a straight line through volume against itself
+    *[Case(f"roles-{label}", F + " " + options, D, 2, says) for label, options, says in [
+        ("price-is-volume", "--price volume", "--price and --volume both name the column volume"),
+        ("volume-is-price", "--volume price", "--price and --volume both name the column price"),
+        ("segment-is-product", "--segment product", "--product and --segment both name the column product"),
+        ("segment-is-date", "--date week --segment week", "--segment and --date both name the column week"),
+        ("weight-is-volume", "--weight volume", "--volume and --weight both name the column volume"),
+        ("date-is-price", "--date price", "--price and --date both name the column price"),
+        ("segment-twice", "--segment week --segment week", "--segment week is given twice"),
+        ("control-is-date", "--date week --control week", "--control week is already the date column")]],
     Case("time-folds-without-date", F + " --fold-order time", D, 2, "needs the date column"),
     Case("unknown-option", F + " --colour red", D, 2, "--colour"),
     Case("missing-output-option", "fit d.csv --quiet", D, 2, "-o"),
