@@ -316,6 +316,16 @@ CASES = [
          "at least one observation"),
     Case("data-parquet-duplicate-columns", "fit d.parquet -o r.json --quiet", {"d.parquet": "parquet:dup_columns"},
          2, "appears twice"),
+    *[Case(f"data-parquet-{label}", f"fit d.parquet {options}-o r.json --quiet", {"d.parquet": f"parquet:{how}"}, 2,
+           f"d.parquet, column {column!r}: expected numbers, found a column of true/false (type {kind})")
+      for label, how, options, column, kind in [
+          ("bool-price", "bool_price", "", "price", "bool"), ("bool-volume", "bool_volume", "", "volume", "bool"),
+          ("bool-weight", "bool_flag", "--weight flag ", "flag", "bool"),
+          ("bool-control", "bool_flag", "--control flag ", "flag", "bool"),
+          ("bool-dictionary-control", "bool_dictionary_flag", "--control flag ", "flag", "bool")]],
+    Case("plan-parquet-bool-price", "fit d.csv --plan p.parquet -o r.json --quiet",
+         {"d.csv": "good", "p.parquet": "parquet:bool_plan"}, 2,
+         "p.parquet, column 'plan_price': expected numbers, found a column of true/false (type bool)"),
     Case("data-fifo", "fit d.csv -o r.json --quiet", {"d.csv": "fifo"}, 2, "not a regular file", how="subprocess"),
     Case("data-all-rejected", F, {"d.csv": "all_bad"}, 2, "no usable rows"),
     Case("data-header-only", F, {"d.csv": "header_only"}, 2, "only a header"),

@@ -219,6 +219,13 @@ PARQUET = {
     "date_9999": lambda pa: _good_table(pa, date_at=(3, "9999-12-31")),
     "no_rows": lambda pa: pa.table({"product": pa.array([], pa.string()), "price": pa.array([], pa.float64()),
                                    "volume": pa.array([], pa.float64())}),
+    # true/false where numbers belong (pandas read every true as 1.0); "flag" for --weight / --control
+    "bool_price": lambda pa: _good_table(pa).set_column(1, "price", pa.array([i % 3 > 0 for i in range(32)])),
+    "bool_volume": lambda pa: _good_table(pa).set_column(2, "volume", pa.array([i % 3 > 0 for i in range(32)])),
+    "bool_flag": lambda pa: _good_table(pa).append_column("flag", pa.array([i % 3 > 0 for i in range(32)])),
+    "bool_dictionary_flag": lambda pa: _good_table(pa).append_column(
+        "flag", pa.array([i % 3 > 0 for i in range(32)]).dictionary_encode()),
+    "bool_plan": lambda pa: pa.table({"product": ["item 0", "item 1"], "plan_price": [True, True]}),
 }
 
 
