@@ -7,6 +7,12 @@ from dataclasses import dataclass
 from pathlib import Path
 
 PARQUET_SUFFIXES = (".parquet", ".pq")
+# The largest magnitude of a price, volume or control the arithmetic carries: sums of squared volumes
+# (CV errors, intervals) and revenue = price × volume over millions of rows must stay far inside float64
+# (1e308); past about 1e154 a square is infinite and a series silently gets no model.  1e15 is also
+# below 2**53, so whole numbers up to it are exact; no real price or weekly volume comes near it.
+# Here (light to import) for the plan price of the options as well as the readers (``validation``).
+LARGEST = 1e15
 
 
 @dataclass(frozen=True)

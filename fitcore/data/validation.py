@@ -17,12 +17,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .columns import LARGEST
+
 FIRST_DAY, LAST_DAY = "1677-09-22", "2262-04-11"  # the whole days datetime64[ns] holds
-# The largest magnitude of a price, volume or control the arithmetic carries: sums of squared volumes
-# (CV errors, intervals) and revenue = price × volume over millions of rows must stay far inside float64
-# (1e308); past about 1e154 a square is infinite and a series silently gets no model.  1e15 is also
-# below 2**53, so whole numbers up to it are exact; no real price or weekly volume comes near it.
-LARGEST = 1e15
 EMPTY_LINE = "empty line"  # the readers' reason for a line with nothing (or white space only) on it
 
 

@@ -14,7 +14,7 @@ from dataclasses import asdict, dataclass, field, fields, make_dataclass
 from pathlib import Path
 from typing import Callable
 
-from ..data.columns import Columns
+from ..data.columns import LARGEST, Columns
 from ..errors import SettingsError
 
 MAX_DEGREE = 5
@@ -142,6 +142,8 @@ def _price(value) -> float | None:
         price = math.nan
     if not (math.isfinite(price) and price > 0):
         raise Invalid("a number above zero")
+    if price > LARGEST:  # as a plan file's price is refused (``plan_checks``), in the same words
+        raise Invalid(f"a price of at most {LARGEST:.0e}".replace("e+", "e"))
     return price
 
 

@@ -276,6 +276,13 @@ CASES = [
         ("date-is-price", "--date price", "--price and --date both name the column price"),
         ("segment-twice", "--segment week --segment week", "--segment week is given twice"),
         ("control-is-date", "--date week --control week", "--control week is already the date column")]],
+    # a plan price a plan file refuses (beyond 1e15) was taken from the command line or the settings file
+    Case("plan-price-1e300", F + " --plan-price 1e300", D, 2, "expected --plan-price to be a price of at most 1e15, "
+         "got 1e300"),
+    Case("plan-price-just-above-1e15", F + " --plan-price 1.0000001e15", D, 2, "a price of at most 1e15"),
+    Case("plan-price-1e15", F + " --plan-price 1e15", D, 0, None),
+    Case("toml-plan-price-1e300", F + " --config s.toml", {"d.csv": "good", "s.toml": "toml_plan_price_huge"}, 2,
+         "s.toml: [fit] plan_price should be a price of at most 1e15, got 1e+300"),
     Case("time-folds-without-date", F + " --fold-order time", D, 2, "needs the date column"),
     Case("unknown-option", F + " --colour red", D, 2, "--colour"),
     Case("missing-output-option", "fit d.csv --quiet", D, 2, "-o"),

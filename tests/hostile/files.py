@@ -191,6 +191,7 @@ TEXT: dict[str, bytes] = {
     "toml_threshold_negative": b"[thresholds]\nmin_points = -1\n",
     "toml_threshold_inf": b"[thresholds]\nweak_score = inf\n",
     "toml_threshold_cook_inf": b"[thresholds]\ncook_floor = inf\n",
+    "toml_plan_price_huge": b"[fit]\nplan_price = 1e300\n",
     "toml_bad": b"[fit\n",
     "toml_latin1": "[fit]\nrule = 'caf\xe9'\n".encode("latin-1"),
     "toml_table_value": b"fit = 3\n",
