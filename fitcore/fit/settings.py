@@ -105,14 +105,18 @@ def _choice(options: tuple[str, ...]) -> Callable:
     return read
 
 
+SEEDS = 2 ** 64  # the shuffle's seed is 64 bits (``shuffle.row_draws``): a larger one would wrap round
+
+
 def _seed(value) -> int:
+    expected = f"a whole number from 0 to {SEEDS - 1} (2⁶⁴ − 1)"
     if isinstance(value, str):
         try:
             value = int(value)
         except ValueError:
-            raise Invalid("a whole number of at least 0") from None
-    if isinstance(value, bool) or not isinstance(value, int) or value < 0:
-        raise Invalid("a whole number of at least 0")
+            raise Invalid(expected) from None
+    if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value < SEEDS:
+        raise Invalid(expected)
     return value
 
 

@@ -76,7 +76,11 @@ def check_header(path: Path, document: dict, series_key: str | None) -> None:
     settings = _field(path, "", document, "settings", lambda v: isinstance(v, dict), "an object")
     _field(path, "settings", settings, "rule", lambda v: isinstance(v, str), "text")
     _field(path, "settings", settings, "level", lambda v: _number(v) and v is not None, "a number")
+    from ..fit.settings import OPTIONS
     from ..review.thresholds import recorded_thresholds
+    for option in OPTIONS:  # as the options check them (a seed beyond 64 bits, written before that was checked)
+        if option.group == "fit" and option.name in settings:
+            option.value(settings[option.name], f"{path}: the recorded setting {option.name}")
     recorded_thresholds(settings.get("thresholds"), path)  # JSON cannot carry an infinite one into the ledger
     source = _field(path, "", document, "input", lambda v: isinstance(v, dict), "an object")
     for name in ("path", "sha256"):  # absent when the data came from Python rather than a file

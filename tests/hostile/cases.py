@@ -258,6 +258,9 @@ CASES = [
     Case("degrees-words", F + " --degrees a-b", D, 2, "--degrees"),
     Case("degrees-empty", F + " --degrees ''", D, 2, "--degrees"),
     Case("seed-negative", F + " --seed=-1", D, 2, "--seed"),
+    Case("seed-beyond-64-bits", F + " --seed 18446744073709551616", D, 2,
+         "expected --seed to be a whole number from 0 to 18446744073709551615"),  # wrapped round to 0
+    Case("seed-largest", F + " --seed 18446744073709551615", D, 0, None),
     Case("threshold-unknown", F + " --threshold nope=1", D, 2, "nope"),
     Case("threshold-not-a-number", F + " --threshold min_points=abc", D, 2, "min_points"),
     Case("threshold-no-equals", F + " --threshold min_points", D, 2, "NAME=VALUE"),

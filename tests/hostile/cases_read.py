@@ -40,6 +40,9 @@ READ_CASES = [
       for how, place, problem in (("key_column_missing", "1 (region=North)", "no 'product' column"),
                                   ("key_column_extra", "2 (product=item 1, region=North)",
                                    "the extra column 'region'"))],
+    *[Case(f"{label}-seed-beyond-64-bits", command, RL | {"b.json": "damaged:seed_beyond_64_bits"}, 2,
+           "b.json: the recorded setting seed should be a whole number from 0 to 18446744073709551615")
+      for label, command in (("show", "show b.json"), ("accept", "ledger accept-unflagged b.json --ledger L.jsonl"))],
     Case("show-folder-named-json", "show x.json", {"x.json": "dir"}, 2, "is a folder"),
     Case("show-list-document", "show r.json", {"r.json": "results_text_list"}, 2, "schema"),
     Case("show-truncated-json", "show r.json", {"r.json": "results_truncated"}, 2, "r.json"),

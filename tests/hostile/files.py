@@ -279,6 +279,7 @@ DAMAGE = {
     "key_value_number": lambda d: _set(d, {"product": 7}, "series", 0, "key"),
     "coef_text": lambda d: _set(d, "x", "series", 0, "candidates", 1, "coef"),
     "threshold_inf": lambda d: _set(d, float("inf"), "settings", "thresholds", "cook_floor"),  # an earlier fit's
+    "seed_beyond_64_bits": lambda d: _set(d, 2 ** 64, "settings", "seed"),  # fitted as seed 0
     "key_column_missing": lambda d: _set(d, {"region": "North"}, "series", 0, "key"),  # keyed by product
     "key_column_extra": lambda d: _set(d, "North", "series", 1, "key", "region"),
 }
