@@ -147,6 +147,9 @@ CYCLE_COLUMNS = ("sigma2", "df", "cov_unscaled", "last_date")
 
 
 def check_schema(path: Path, document) -> None:
+    if document is None and is_parquet_name(path):  # no pricefold header in its metadata
+        raise DataError(f"this is not a results file (a data file?): no {SCHEMA!r} schema in it; 'pricefold fit' "
+                        "makes results from data", path=str(path))
     if not isinstance(document, dict) or document.get("schema") != SCHEMA:
         found = document.get("schema") if isinstance(document, dict) else type(document).__name__
         raise DataError(f"expected schema {SCHEMA!r}, found {found!r}", path=str(path))

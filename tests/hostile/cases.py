@@ -358,6 +358,26 @@ CASES = [
     Case("commas-in-tsv", "fit d.tsv -o r.json --quiet", {"d.tsv": "good"}, 0, None),
     Case("tabs-in-txt", "fit d.txt -o r.json --quiet", {"d.txt": "tab"}, 0, None),
     Case("decimal-commas-rejected", F, {"d.csv": "decimal_comma"}, 2, "no usable rows"),
+    # a comma before exactly three digits: a thousands separator as likely as a decimal comma, 1000× apart
+    Case("thousands-separator-both-readings", F, {"d.csv": "thousands"}, 2,
+         "non-numeric volume: '5,710' (a thousands separator, 5710, or a decimal comma, 5.710? numbers are read "
+         "with a decimal point and no thousands separator)"),
+    Case("thousands-separators", F, {"d.csv": "thousands_twice"}, 2,
+         "non-numeric volume: '1,005,710' (thousands separators? numbers are read without them: 1005710)"),
+    Case("plan-thousands-separator", "fit d.csv --plan p.csv -o r.json --quiet", {"d.csv": "good", "p.csv":
+         "plan_thousands"}, 2, "found '1,250' (a thousands separator, 1250, or a decimal comma, 1.250?"),
+    # dates not ISO: the cell quoted and the form expected said, in the error and under --strict
+    Case("dates-day-first", "fit d.csv --date week -o r.json --quiet", {"d.csv": "dates_day_first"}, 2,
+         "d.csv, line 2, column 'week': no usable rows (32 rows rejected: 32 unparseable week); the first is "
+         "unparseable week: '01/01/2025' (expected an ISO date such as 2024-01-31)"),
+    Case("date-february-30-strict", "fit d.csv --date week -o r.json --quiet --strict", {"d.csv": "date_feb30"}, 2,
+         "d.csv, line 5, column 'week': unparseable week: '2025-02-30' (expected an ISO date such as 2024-01-31) "
+         "(1 row rejected: 1 unparseable week; --strict, so nothing was written)"),
+    Case("field-count-strict", "fit d.csv -o r.json --quiet --strict", {"d.csv": "short_line"}, 2,
+         "d.csv, line 5: a line of 3 fields (4 expected) (1 row rejected: 1 line of 3 fields (4 expected); --strict"),
+    # a results file given as data, data given as results: said as such
+    Case("fit-parquet-results-as-data", "fit r.parquet -o x.json --quiet", {"d.csv": "good", "r.parquet": "fit:d.csv"},
+         2, "r.parquet: this is a pricefold results file, not data"),
     Case("ten-megabyte-ignored-cell", F, {"d.csv": "wide_ignored"}, 0, None),
     Case("two-megabyte-key", F, {"d.csv": "wide_key"}, 0, None),
     Case("duplicate-header-names", F, {"d.csv": "dup_header"}, 2, "fields 2 and 4"),
