@@ -159,7 +159,7 @@ def _fit_locally(args, run, ahead) -> int:
     target = rejects_path(args.output)
     earlier = earlier_rejects(target, args.output)  # before the results it sits beside are replaced
     if len(rejects):
-        strict_or_foreign(rejects, earlier, args.strict)
+        strict_or_foreign(rejects, earlier, args.strict, run.columns)
     with Batch() as batch:
         if len(rejects):
             staged = batch.add(target, lambda handle: write_rejects(rejects, handle))
@@ -213,14 +213,16 @@ def _fit_locally(args, run, ahead) -> int:
     return 0
 
 
-def strict_or_foreign(rejects, earlier, strict: bool) -> None:
+def strict_or_foreign(rejects, earlier, strict: bool, columns) -> None:
     """Fail before anything is written: ``--strict`` with rejected rows, or the rejects file's name taken by a
     file that is not the rejects of the results this run replaces (``earlier``: ``earlier_rejects``)."""
     from fitcore.data.validation import summary as rejects_summary
     from fitcore.errors import DataError
     if strict:
-        raise DataError(f"{rejects.reasons[0]} ({rejects_summary(rejects.reasons)}; --strict, so nothing was "
-                        "written)", path=str(rejects.path), line=int(rejects.lines[0]))
+        from fitcore.data.loader import first_rejected, place
+        column, said = first_rejected(rejects, columns)
+        raise DataError(f"{said} ({rejects_summary(rejects.reasons)}; --strict, so nothing was written)",
+                        path=str(rejects.path), column=column, **place(rejects.kind, int(rejects.lines[0])))
     if earlier.exists and not earlier.owned:
         raise DataError(f"exists, and {earlier.why}; this run has rejected rows to write there: remove it or "
                         "choose another results name (nothing was written)", path=str(earlier.path))

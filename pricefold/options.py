@@ -73,10 +73,10 @@ def settings_file_keys() -> dict[str, dict[str, tuple]]:
 def resolve(args) -> Resolved:
     """The options of ``args`` (a parsed ``fit`` or ``triage`` command line) with the settings file's and
     the defaults filled in, every value checked."""
-    from fitcore.data.columns import Columns
+    from fitcore.data.columns import Columns, check_roles
     from fitcore.data.config import load_config
     from fitcore.errors import SettingsError
-    from fitcore.fit.controls import check_controls, check_season
+    from fitcore.fit.controls import check_season
     from fitcore.fit.folds import check_time_order
     from fitcore.fit.settings import OPTIONS, FitSettings, provenance
     from fitcore.review.thresholds import Thresholds, parse_threshold_options
@@ -99,7 +99,7 @@ def resolve(args) -> Resolved:
     columns = Columns(**{name: values[name] for name in ("product", "segments", "price", "volume", "date", "weight")},
                       controls=tuple(dict.fromkeys(values["controls"])))
     check_time_order(values["fold_order"], columns.date is not None)
-    check_controls(columns)
+    check_roles(columns)
     check_season(values["season"], columns.date is not None)
     settings = FitSettings(**{o.name: values[o.name] for o in OPTIONS if o.group == "fit"})
     plan_file, plan_price = values["plan"], values["plan_price"]

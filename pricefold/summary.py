@@ -18,5 +18,5 @@ def rejects_line(reasons: list[str], where: Path, read: int, first: str = "") ->
     fitting what little is left of a misread file (a wrong delimiter, decimal commas) says so, with
     ``first``: where the first rejected row is and why (``loader.first_rejected``)."""
     from fitcore.data.validation import misread, summary
-    most = misread(len(reasons), read, first)
+    most = misread(reasons, read, first)
     return f"{summary(reasons)} — see {where}{most}{' (--strict fails such a run)' if most else ''}"

@@ -58,9 +58,23 @@ def raw_from_columns(parts: dict, columns: Columns, line: np.ndarray, path=None,
         give_back_arrow_memory()
         return out
     keys = {name: convert(name, categorical) for name in columns.keys}
+    for name in number_names(columns):
+        _refuse_true_false(parts[name], name, name in columns.controls, path)
     numbers = {name: convert(name, number_cells or _number_cells) for name in number_names(columns)}
     date = convert(columns.date, dates) if columns.date else None
     return RawRows(line=line, keys=keys, numbers=numbers, date=date)
+
+
+def _refuse_true_false(column, name: str, control: bool, path) -> None:
+    """A Parquet column of true/false (pandas would make every true 1.0: a price of 1) is not numbers:
+    ``DataError`` naming it and its type, as a CSV's 'true' is a non-numeric cell."""
+    kind = column.type
+    if pa.types.is_dictionary(kind):
+        kind = kind.value_type
+    if pa.types.is_boolean(kind):
+        what = "a 0/1 control as 0 and 1" if control else "its values as numbers"
+        raise DataError(f"expected numbers, found a column of true/false (type {column.type}); write {what}",
+                        path=path and str(path), column=name)
 
 
 def give_back_arrow_memory() -> None:

@@ -93,19 +93,32 @@ def place(kind: str, line: int) -> dict:
 
 def first_rejected(rejects: Rejects, columns: Columns) -> tuple[str | None, str]:
     """``(column, words)``: the column of the first rejected row's reason and the reason with its cell, a
-    decimal comma (the usual cause of a whole column of non-numbers) said as such."""
+    decimal comma or a thousands separator (the usual cause of a whole column of non-numbers) said as such,
+    a date's the form it is read in."""
     from .rejects import first_cell
+    from .validation import ISO_DATE, is_date_reason, one_reason
     why = rejects.reasons[0]
     column = next((name for name in columns.needed if why.endswith(f" {name}") or why.startswith(f"{name} ")), None)
-    cell = first_cell(rejects, column) if column and why.startswith("non-numeric ") else None
-    return column, why + ("" if cell is None else f": {quoted(cell)}{decimal_comma_hint(cell)}")
+    date = column is not None and column == columns.date and is_date_reason(why)
+    cell = first_cell(rejects, column) if column and (why.startswith("non-numeric ") or date) else None
+    said = one_reason(why) + ("" if cell is None else f": {quoted(cell)}")
+    return column, said + (f" (expected {ISO_DATE})" if date else decimal_comma_hint(cell) if cell else "")
 
 
 def decimal_comma_hint(cell: str) -> str:
-    """' (a decimal comma? …)' when ``cell`` reads as a number written with a decimal comma, else ''."""
+    """' (a decimal comma? …)' when ``cell`` reads as a number written with a decimal comma, ' (a thousands
+    separator, …, or a decimal comma, …?)' when a comma is followed by exactly three digits (5,710: 5710 or
+    5.710, a thousand times apart), else ''."""
     import re
-    if re.fullmatch(r"\s*[-+]?\d*,\d+\s*", cell):
-        return f" (a decimal comma? numbers are read with a decimal point: {cell.strip().replace(',', '.')})"
+    text = cell.strip()
+    if re.fullmatch(r"[-+]?[1-9]\d{0,2}(,\d{3})+", text):
+        whole = text.replace(",", "")
+        if text.count(",") > 1:
+            return f" (thousands separators? numbers are read without them: {whole})"
+        return (f" (a thousands separator, {whole}, or a decimal comma, {text.replace(',', '.')}? numbers are read "
+                "with a decimal point and no thousands separator)")
+    if re.fullmatch(r"[-+]?\d*,\d+", text):
+        return f" (a decimal comma? numbers are read with a decimal point: {text.replace(',', '.')})"
     return ""
 
 
@@ -154,6 +167,9 @@ def read_rows(path: Path, columns: Columns, sep: str | None = None, rows_are: st
     if kind == "parquet":
         from .read_parquet import parquet_schema, read_parquet_rows
         schema = parquet_schema(path)  # a folder's files found once, for the check and the read
+        if b"pricefold" in (schema.metadata or {}) and not set(columns.needed) <= set(schema.names):
+            raise DataError("this is a pricefold results file, not data: fit the data file it was fitted from, "
+                            "or read it with 'pricefold show' or 'pricefold triage'", path=str(path))
         check_columns(path, schema.names, columns)
         rows, delimiter, found = read_parquet_rows(path, columns, schema), None, "none"
     else:

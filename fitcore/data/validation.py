@@ -12,17 +12,15 @@ earlier row.  The first reason that applies is the one reported.
 """
 from __future__ import annotations
 
+import re
 from collections import Counter
 from dataclasses import dataclass, field
 
 import numpy as np
 
+from .columns import LARGEST
+
 FIRST_DAY, LAST_DAY = "1677-09-22", "2262-04-11"  # the whole days datetime64[ns] holds
-# The largest magnitude of a price, volume or control the arithmetic carries: sums of squared volumes
-# (CV errors, intervals) and revenue = price × volume over millions of rows must stay far inside float64
-# (1e308); past about 1e154 a square is infinite and a series silently gets no model.  1e15 is also
-# below 2**53, so whole numbers up to it are exact; no real price or weekly volume comes near it.
-LARGEST = 1e15
 EMPTY_LINE = "empty line"  # the readers' reason for a line with nothing (or white space only) on it
 
 
@@ -234,16 +232,43 @@ def summary(reasons_of_rejected: list[str] | np.ndarray) -> str:
     counts = Counter(str(r) if not str(r).startswith("duplicate of line") else "duplicate series and date"
                      for r in reasons_of_rejected)
     total = sum(counts.values())
-    parts = " · ".join(f"{count:,} {reason}{'s' * (reason == EMPTY_LINE and count != 1)}"  # "3 empty lines"
-                       for reason, count in counts.most_common())  # (" · ": a reason may hold a comma)
+    parts = " · ".join(counted(reason, count)  # (" · ": a reason may hold a comma)
+                       for reason, count in counts.most_common())
     return f"{total:,} row{'s' if total != 1 else ''} rejected: {parts}"
 
 
-def misread(rejected: int, read: int, first: str = "") -> str:
+def counted(reason: str, count: int) -> str:
+    """``count`` rows of one reason as the rejects line counts them: '3 non-numeric price', '2 empty lines',
+    '1 line of 4 fields (5 expected)' (a reason that is a sentence made a noun)."""
+    fields = _FIELDS.fullmatch(reason)
+    if fields:
+        return f"{count:,} line{'s' * (count != 1)} of {fields[2]} fields ({fields[1]} expected)"
+    return f"{count:,} {reason}{'s' * (reason == EMPTY_LINE and count != 1)}"  # "3 empty lines"
+
+
+def one_reason(reason: str) -> str:
+    """A row's reason after "the first is": 'a line of 6 fields (5 expected)', the others as they are."""
+    fields = _FIELDS.fullmatch(reason)
+    return f"a line of {fields[2]} fields ({fields[1]} expected)" if fields else reason
+
+
+_FIELDS = re.compile(r"expected (\d+) fields, found (\d+)")  # the text readers' reason (``read_csv``)
+ISO_DATE = "an ISO date such as 2024-01-31"  # what a date cell is read as (``cells.dates``)
+
+
+def is_date_reason(reason: str) -> bool:
+    """Whether a row was rejected for its date (unparseable, or outside the range the date type holds)."""
+    return reason.startswith("unparseable ") or f" outside {FIRST_DAY} to " in reason
+
+
+def misread(reasons: list, read: int, first: str = "") -> str:
     """'; that is 9 of the 12 rows read: check the delimiter (--sep), the columns and the decimal mark' where
     more than half the rows read were rejected (a wrong delimiter, decimal commas), else ''; ``first``: where
-    the first rejected row is and why, said after the count."""
+    the first rejected row is and why, said after the count.  Mostly dates: their format is what to check."""
+    rejected = len(reasons)
     if 2 * rejected <= read:
         return ""
-    return (f"; that is {rejected:,} of the {read:,} rows read{first}: check the delimiter (--sep), the columns and "
-            "the decimal mark")
+    most = Counter(map(str, reasons)).most_common(1)[0][0]
+    check = ("the dates' format" if is_date_reason(most)
+             else "the delimiter (--sep), the columns and the decimal mark")
+    return f"; that is {rejected:,} of the {read:,} rows read{first}: check {check}"

@@ -106,15 +106,6 @@ def check_season(season: int, has_date: bool) -> None:
         raise SettingsError("--season needs the date column: add --date COLUMN (settings file: date in [columns])")
 
 
-def check_controls(columns) -> None:
-    """A control is a column of its own, not one the fit already reads for something else."""
-    for name in columns.controls:
-        for role, used in (("a key", columns.keys), ("the price", [columns.price]), ("the volume", [columns.volume]),
-                           ("the date", [columns.date]), ("the weight", [columns.weight])):
-            if name in used:
-                raise SettingsError(f"--control {name} is already {role} column; a control is another column")
-
-
 def is_binary(values: np.ndarray) -> bool:
     """A 0/1 control: every value 0 or 1."""
     return bool(np.all((values == 0) | (values == 1)))

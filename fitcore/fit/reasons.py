@@ -28,7 +28,7 @@ def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int,
     if code == NONE:
         return None
     if code == TOO_FEW_FOR_FOLDS:
-        return f"{n} observations cannot be split into {folds} folds"
+        return f"{n} observation{'s' * (n != 1)} cannot be split into {folds} folds"
     if code == FLAT_PRICE:
         return "every observation has the same price, so no curve in price can be estimated"
     if code == TOO_FEW_POINTS:

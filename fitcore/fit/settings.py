@@ -14,7 +14,7 @@ from dataclasses import asdict, dataclass, field, fields, make_dataclass
 from pathlib import Path
 from typing import Callable
 
-from ..data.columns import Columns
+from ..data.columns import LARGEST, Columns
 from ..errors import SettingsError
 
 MAX_DEGREE = 5
@@ -105,14 +105,18 @@ def _choice(options: tuple[str, ...]) -> Callable:
     return read
 
 
+SEEDS = 2 ** 64  # the shuffle's seed is 64 bits (``shuffle.row_draws``): a larger one would wrap round
+
+
 def _seed(value) -> int:
+    expected = f"a whole number from 0 to {SEEDS - 1} (2⁶⁴ − 1)"
     if isinstance(value, str):
         try:
             value = int(value)
         except ValueError:
-            raise Invalid("a whole number of at least 0") from None
-    if isinstance(value, bool) or not isinstance(value, int) or value < 0:
-        raise Invalid("a whole number of at least 0")
+            raise Invalid(expected) from None
+    if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value < SEEDS:
+        raise Invalid(expected)
     return value
 
 
@@ -142,6 +146,8 @@ def _price(value) -> float | None:
         price = math.nan
     if not (math.isfinite(price) and price > 0):
         raise Invalid("a number above zero")
+    if price > LARGEST:  # as a plan file's price is refused (``plan_checks``), in the same words
+        raise Invalid(f"a price of at most {LARGEST:.0e}".replace("e+", "e"))
     return price
 
 

@@ -76,11 +76,41 @@ def check_header(path: Path, document: dict, series_key: str | None) -> None:
     settings = _field(path, "", document, "settings", lambda v: isinstance(v, dict), "an object")
     _field(path, "settings", settings, "rule", lambda v: isinstance(v, str), "text")
     _field(path, "settings", settings, "level", lambda v: _number(v) and v is not None, "a number")
+    from ..fit.settings import OPTIONS
+    from ..review.thresholds import recorded_thresholds
+    for option in OPTIONS:  # as the options check them (a seed beyond 64 bits, written before that was checked)
+        if option.group == "fit" and option.name in settings:
+            option.value(settings[option.name], f"{path}: the recorded setting {option.name}")
+    recorded_thresholds(settings.get("thresholds"), path)  # JSON cannot carry an infinite one into the ledger
     source = _field(path, "", document, "input", lambda v: isinstance(v, dict), "an object")
     for name in ("path", "sha256"):  # absent when the data came from Python rather than a file
         _field(path, "input", source, name, lambda v: isinstance(v, str), "text", optional=True)
     if series_key is not None:
         _field(path, "", document, series_key, lambda v: isinstance(v, list), "a list of series")
+
+
+def check_key_columns(path: Path, header: dict, records: list[dict]) -> None:
+    """Every series keyed by the same columns: those the header names (product, then segments), or else the
+    first series'.  A key without one of them (or with another) was signed as a different series and
+    exported a row shifted by a column."""
+    columns = (header.get("settings") or {}).get("columns")
+    if isinstance(columns, dict) and isinstance(columns.get("product"), str):
+        segments = columns.get("segments") or []
+        names = [columns["product"], *(segments if isinstance(segments, list) else [])]
+    elif records:
+        names = list(records[0]["key"])
+    else:
+        return
+    expected = set(names)
+    for i, record in enumerate(records):
+        key = record["key"]
+        if set(key) == expected:
+            continue
+        missing = [name for name in names if name not in key]
+        problem = (f"its key has no {missing[0]!r} column" if missing else
+                   f"its key has the extra column {next(k for k in key if k not in expected)!r}")
+        shown = ", ".join(f"{k}={v}" for k, v in key.items())
+        raise _fail(path, f"series {i + 1} ({shown})", f"{problem} (the series are keyed by {', '.join(names)})")
 
 
 def check_unique_keys(path: Path, records: list[dict]) -> None:

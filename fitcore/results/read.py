@@ -16,7 +16,8 @@ from ..data.columns import is_parquet_name
 from ..data.textfile import regular_or_folder
 from ..errors import DataError, first_line
 from ..fit.results import SCHEMA
-from .checks import HEADER, PARQUET_COLUMNS, check_header, check_header_digest, check_series, check_unique_keys
+from .checks import (HEADER, PARQUET_COLUMNS, check_header, check_header_digest, check_key_columns, check_series,
+                     check_unique_keys)
 from .control_fields import record_fields
 
 RUN_SUMMARY = "_summary.json"
@@ -61,6 +62,7 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
         series = document.pop("series")
         for i, record in enumerate(series):
             check_series(path, i, record)
+        check_key_columns(path, document, series)
         check_unique_keys(path, series)
         return document, series
     if is_parquet_name(path):
@@ -145,6 +147,9 @@ CYCLE_COLUMNS = ("sigma2", "df", "cov_unscaled", "last_date")
 
 
 def check_schema(path: Path, document) -> None:
+    if document is None and is_parquet_name(path):  # no pricefold header in its metadata
+        raise DataError(f"this is not a results file (a data file?): no {SCHEMA!r} schema in it; 'pricefold fit' "
+                        "makes results from data", path=str(path))
     if not isinstance(document, dict) or document.get("schema") != SCHEMA:
         found = document.get("schema") if isinstance(document, dict) else type(document).__name__
         raise DataError(f"expected schema {SCHEMA!r}, found {found!r}", path=str(path))

@@ -14,7 +14,7 @@ import numpy as np
 from ..data.columns import Columns, file_sha256, is_parquet_name
 from ..errors import DataError
 from ..fit.settings import FitSettings, provenance, settings_from_dict
-from ..review.thresholds import Thresholds
+from ..review.thresholds import Thresholds, recorded_thresholds
 from .read import read_header, read_results
 
 
@@ -65,7 +65,7 @@ def source_from_results(path: Path, check_data: bool = True) -> Source:
     source = Source(data=data, columns=Columns.from_dict(extra["columns"]),
                     settings=replace(settings, extra={}),
                     plan_file=_beside(path, plan["file"]) if plan.get("file") else None, plan_price=plan.get("price"),
-                    thresholds=Thresholds(**extra.get("thresholds", {})),
+                    thresholds=recorded_thresholds(extra.get("thresholds"), path),
                     fitted_ledger=(head.get("ledger") or {}).get("path"))
     if not check_data:
         source.expected_sha256 = head["input"]["sha256"]

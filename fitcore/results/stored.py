@@ -25,7 +25,7 @@ from ..fit.folds import fold_scheme
 from ..fit.results import Results
 from ..fit.settings import settings_from_dict
 from ..review.flags import CODES, SEVERITY, Diagnosis
-from ..review.thresholds import Thresholds
+from ..review.thresholds import recorded_thresholds
 from .control_fields import CONTROL_COLUMNS, cov_known, stored_controls
 from .later import LaterColumns, Waiting
 from .read import CYCLE_COLUMNS, read_header, result_parts
@@ -245,7 +245,7 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
     if cycle:
         results = _with_cycle_fields(results, read_now, n_s, n_c, lineup.width, column if late is not None else None,
                                      cov_known(meta["settings"]))
-    thresholds = Thresholds(**settings.extra.get("thresholds", {}))
+    thresholds = recorded_thresholds(settings.extra.get("thresholds"), path)
     raised, flag_texts = raised_flags(table, n_s, n_c, path)
     return results, StoredDiagnosis(results, thresholds, raised, {}, flag_texts)
 

@@ -74,11 +74,12 @@ def _few_points(diag, s):
     n = int(diag.results.data.counts[s])
     wanted = diag.thresholds.min_points
     weightless = diag.results.reason[s, 0] in (R.NO_WEIGHT, R.WEIGHT_OVERFLOW) and diag.results.chosen[s] < 0
+    said = f"{n} observation{'s' * (n != 1)}"
     if weightless:
-        return f"{n} observations, but {diag.results.reason_text(s, 0)}."
+        return f"{said}, but {diag.results.reason_text(s, 0)}."
     if diag.results.chosen[s] < 0:
-        return f"Only {n} observations: too few to cross-validate any candidate (at least {wanted} wanted)."
-    return f"Only {n} observations; at least {wanted} are wanted to trust a cross-validated choice."
+        return f"Only {said}: too few to cross-validate any candidate (at least {wanted} wanted)."
+    return f"Only {said}; at least {wanted} are wanted to trust a cross-validated choice."
 
 
 def _no_model(diag, s):

@@ -1,9 +1,10 @@
 """Thresholds of the diagnostic flags: one frozen, validated object."""
 from __future__ import annotations
 
+import math
 from dataclasses import asdict, dataclass, fields
 
-from ..errors import SettingsError
+from ..errors import DataError, SettingsError
 
 
 @dataclass(frozen=True)
@@ -56,9 +57,11 @@ class Thresholds:
 
     def __post_init__(self) -> None:
         for name, (ok, expected) in RANGES.items():
-            if not ok(getattr(self, name)):
-                raise SettingsError(f"threshold {name} is out of range: expected {expected}, got "
-                                    f"{getattr(self, name)}")
+            value = getattr(self, name)
+            finite = isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
+            if not (finite and ok(value)):  # finite: a results file and the ledger's records are strict JSON
+                words = expected if finite or expected.startswith("a ") else f"a finite number {expected}"
+                raise SettingsError(f"threshold {name} is out of range: expected {words}, got {value!r}")
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -80,6 +83,24 @@ class Thresholds:
                 raise SettingsError(f"expected a {'whole ' if kind is int else ''}number for threshold {name}, "
                                     f"got {raw!r}") from None
         return Thresholds(**values)
+
+
+def recorded_thresholds(values, path) -> Thresholds:
+    """The thresholds a results file records (``settings`` → ``thresholds``), or ``DataError`` naming the file
+    when they are not thresholds pricefold accepts (one written before every threshold had to be finite)."""
+    if values is None:
+        return Thresholds()
+    if not isinstance(values, dict):
+        raise DataError(f"expected 'settings' → 'thresholds' to be a table of thresholds, found {values!r}",
+                        path=str(path))
+    unknown = sorted(set(values) - set(Thresholds.names()))
+    if unknown:
+        raise DataError(f"records an unknown threshold {unknown[0]!r}; expected one of "
+                        f"{', '.join(Thresholds.names())}", path=str(path))
+    try:
+        return Thresholds(**values)
+    except SettingsError as exc:
+        raise DataError(f"its recorded {exc}; fit the data again with thresholds in range", path=str(path)) from None
 
 
 def parse_threshold_options(items: list[str]) -> dict[str, str]:

@@ -271,12 +271,14 @@ def _fit_into(out: Path, pieces, path, columns, settings, thresholds, plan_file,
     order = np.argsort(lines, kind="stable")
     lines, reasons = [int(lines[i]) for i in order], [reasons[i] for i in order]
     if source["rows"] == source["rejected"] or strict and lines:
+        from ..data.loader import first_rejected, no_usable_rows, place
         from ..data.validation import summary
+        rejects = _rejects(path, columns, sep, lines, reasons)
         if source["rows"] == source["rejected"]:
-            from ..data.loader import no_usable_rows
-            raise no_usable_rows(_rejects(path, columns, sep, lines, reasons), columns)
-        raise DataError(f"{reasons[0]} ({summary(reasons)}; --strict, so nothing was written)", path=str(path),
-                        line=lines[0])
+            raise no_usable_rows(rejects, columns)
+        column, said = first_rejected(rejects, columns)
+        raise DataError(f"{said} ({summary(reasons)}; --strict, so nothing was written)", path=str(path),
+                        column=column, **place(rejects.kind, lines[0]))
     source.update(rejects_file=None, rejects_sha256=None)
     if lines:
         source.update(rejects_file=REJECTS, rejects_sha256=_write_rejects(out / REJECTS, path, columns, sep,

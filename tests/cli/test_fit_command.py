@@ -133,7 +133,8 @@ def test_non_numeric_cell_is_rejected_with_its_line_or_fails_when_strict(tmp_pat
     assert (tmp_path / "r.rejects.csv").read_text() == "product,price,volume,line,reason\na,2.0,lots,14,non-numeric volume\n"
     strict = run_cli("fit", str(bad), "-o", str(tmp_path / "s.json"), "--strict")
     assert strict.returncode == 2 and "Traceback" not in strict.stderr and strict.stderr.count("\n") == 1
-    assert "junk.csv, line 14: non-numeric volume" in strict.stderr and not (tmp_path / "s.json").exists()
+    assert ("junk.csv, line 14, column 'volume': non-numeric volume: 'lots'" in strict.stderr
+            and not (tmp_path / "s.json").exists())
 
 
 @pytest.mark.parametrize("args, message", [

@@ -81,6 +81,22 @@ def test_no_usable_row_names_the_first_cell(tmp_path, capsys, cell, hint):
     assert not (tmp_path / "r.parquet").exists()
 
 
+def test_a_run_that_rejects_most_rows_for_their_dates_says_to_check_the_dates(tmp_path, capsys):
+    """Before: "…: unparseable week: check the delimiter (--sep), the columns and the decimal mark", with
+    neither the cell nor the form a date is read in."""
+    rows = [row for row in sample_rows() if row["product"] == "apples 1 kg" and row["region"] == "North"][:30]
+    for row in rows[:20]:
+        year, month, day = row["week"].split("-")
+        row["week"] = f"{day}/{month}/{year}"
+    code, said = fit(capsys, write(tmp_path / "d.csv", rows), "-o", tmp_path / "r.parquet")
+    assert code == 0
+    (line,) = [text for text in said if "rejected" in text]
+    day, month, year = rows[0]["week"].split("/")
+    assert line.endswith(f"; that is 20 of the 30 rows read, the first at line 2, column 'week': unparseable week: "
+                         f"'{day}/{month}/{year}' (expected an ISO date such as 2024-01-31): check the dates' format "
+                         "(--strict fails such a run)"), line
+
+
 @pytest.mark.parametrize("bad, said_most", [(2, False), (20, True)])
 def test_a_run_that_rejects_most_rows_says_so(tmp_path, capsys, bad, said_most):
     rows = [row for row in sample_rows() if row["product"] == "apples 1 kg" and row["region"] == "North"][:30]

@@ -55,6 +55,15 @@ def test_few_points():
     assert relaxed == {}
 
 
+def test_one_observation_is_said_in_the_singular():
+    """Before: "Only 1 observations: …" and a reason "1 observations cannot be split into 5 folds"."""
+    results, flags = run([2.0], [100.0], 2.0)
+    assert flags["few-points"].startswith("Only 1 observation: too few to cross-validate")
+    assert results.reason_text(0, 0) == "1 observation cannot be split into 5 folds"
+    _, two = run([2.0, 3.0], [100.0, 90.0], 2.0)
+    assert two["few-points"].startswith("Only 2 observations:")
+
+
 def test_flat_price_two_distinct_prices():
     p = np.where(np.arange(40) % 2 == 0, 2.0, 3.0)
     _, flags = run(p, (1000 - 150 * p) * wiggle(40), 2.5)

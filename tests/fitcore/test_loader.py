@@ -233,12 +233,15 @@ def test_fuzzed_files_account_for_every_row(tmp_path, rows, sep):
 
 
 def test_the_rejects_summary_keeps_a_reason_holding_a_comma_in_one_piece():
-    """Reasons are joined by " · ": "expected 6 fields, found 7" holds a comma of its own."""
+    """Reasons are joined by " · ": "expected 6 fields, found 7" holds a comma of its own (and is counted as a
+    noun: "1 line of 7 fields (6 expected)", not "1 expected 6 fields, found 7")."""
     from fitcore.data.validation import summary
-    said = summary(["non-numeric volume", "expected 6 fields, found 7", "non-numeric volume"])
+    said = summary(["non-numeric volume", "expected 6 fields, found 7", "non-numeric volume",
+                    "expected 6 fields, found 7", "expected 6 fields, found 5"])
     head, parts = said.split(": ", 1)
-    assert head == "3 rows rejected"
-    assert parts.split(" · ") == ["2 non-numeric volume", "1 expected 6 fields, found 7"]
+    assert head == "5 rows rejected"
+    assert parts.split(" · ") == ["2 non-numeric volume", "2 lines of 7 fields (6 expected)",
+                                  "1 line of 5 fields (6 expected)"]
 
 
 def test_the_rejects_summary_counts_empty_lines_in_the_plural():

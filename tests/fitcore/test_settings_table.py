@@ -68,7 +68,9 @@ def test_the_command_line_wins_over_the_file_and_the_file_over_the_defaults(tmp_
 
 @pytest.mark.parametrize("flag, key, value, phrase", [
     ("--folds", "folds", "1", "a whole number of at least 2 or 'loo'"),
-    ("--seed", "seed", "-1", "a whole number of at least 0"),
+    ("--seed", "seed", "-1", "a whole number from 0 to 18446744073709551615"),
+    ("--seed", "seed", "18446744073709551616", "a whole number from 0 to 18446744073709551615"),  # wrapped to 0
+    ("--plan-price", "plan_price", "1e300", "a price of at most 1e15"),  # as a plan file's
     ("--degrees", "degrees", '"9"', "whole numbers from 0 to 5"),
     ("--plan-price", "plan_price", "inf", "a number above zero"),
     ("--sep", "sep", '";;"', "one character other than a quote or a line break"),

@@ -236,6 +236,8 @@ CASES = [
          2, "min_points"),
     Case("toml-threshold-inf", F + " --config s.toml", {"d.csv": "good", "s.toml": "toml_threshold_inf"}, 2,
          "weak_score"),
+    Case("toml-threshold-cook-floor-inf", F + " --config s.toml",
+         {"d.csv": "good", "s.toml": "toml_threshold_cook_inf"}, 2, "expected a finite number above 0, got inf"),
     Case("toml-not-toml", F + " --config s.toml", {"d.csv": "good", "s.toml": "toml_bad"}, 2, "not valid TOML"),
     Case("toml-not-utf8", F + " --config s.toml", {"d.csv": "good", "s.toml": "toml_latin1"}, 2, "s.toml"),
     Case("toml-table-is-a-value", F + " --config s.toml", {"d.csv": "good", "s.toml": "toml_table_value"}, 2, "fit"),
@@ -256,9 +258,34 @@ CASES = [
     Case("degrees-words", F + " --degrees a-b", D, 2, "--degrees"),
     Case("degrees-empty", F + " --degrees ''", D, 2, "--degrees"),
     Case("seed-negative", F + " --seed=-1", D, 2, "--seed"),
+    Case("seed-beyond-64-bits", F + " --seed 18446744073709551616", D, 2,
+         "expected --seed to be a whole number from 0 to 18446744073709551615"),  # wrapped round to 0
+    Case("seed-largest", F + " --seed 18446744073709551615", D, 0, None),
     Case("threshold-unknown", F + " --threshold nope=1", D, 2, "nope"),
     Case("threshold-not-a-number", F + " --threshold min_points=abc", D, 2, "min_points"),
     Case("threshold-no-equals", F + " --threshold min_points", D, 2, "NAME=VALUE"),
+    *[Case(f"threshold-{name.replace('_', '-')}-{value}", F + f" --threshold {name}={value}", D, 2,
+           f"threshold {name} is out of range: expected a finite number")  # an infinite one reached the writer
+      for name, value in [("cook_floor", "inf"), ("unsteady_ratio", "inf"), ("weak_score", "-1e309"),
+                          ("min_price_cv", "inf"), ("price_tied_vif", "inf"), ("shift_volume", "inf"),
+                          ("near_tie_change", "inf"), ("shift_error_ratio", "inf"), ("weak_score", "nan")]],
+    # two roles reading one column: price as volume fitted a straight line through volume against itself
+    *[Case(f"roles-{label}", F + " " + options, D, 2, says) for label, options, says in [
+        ("price-is-volume", "--price volume", "--price and --volume both name the column volume"),
+        ("volume-is-price", "--volume price", "--price and --volume both name the column price"),
+        ("segment-is-product", "--segment product", "--product and --segment both name the column product"),
+        ("segment-is-date", "--date week --segment week", "--segment and --date both name the column week"),
+        ("weight-is-volume", "--weight volume", "--volume and --weight both name the column volume"),
+        ("date-is-price", "--date price", "--price and --date both name the column price"),
+        ("segment-twice", "--segment week --segment week", "--segment week is given twice"),
+        ("control-is-date", "--date week --control week", "--control week is already the date column")]],
+    # a plan price a plan file refuses (beyond 1e15) was taken from the command line or the settings file
+    Case("plan-price-1e300", F + " --plan-price 1e300", D, 2, "expected --plan-price to be a price of at most 1e15, "
+         "got 1e300"),
+    Case("plan-price-just-above-1e15", F + " --plan-price 1.0000001e15", D, 2, "a price of at most 1e15"),
+    Case("plan-price-1e15", F + " --plan-price 1e15", D, 0, None),
+    Case("toml-plan-price-1e300", F + " --config s.toml", {"d.csv": "good", "s.toml": "toml_plan_price_huge"}, 2,
+         "s.toml: [fit] plan_price should be a price of at most 1e15, got 1e+300"),
     Case("time-folds-without-date", F + " --fold-order time", D, 2, "needs the date column"),
     Case("unknown-option", F + " --colour red", D, 2, "--colour"),
     Case("missing-output-option", "fit d.csv --quiet", D, 2, "-o"),
@@ -299,6 +326,16 @@ CASES = [
          "at least one observation"),
     Case("data-parquet-duplicate-columns", "fit d.parquet -o r.json --quiet", {"d.parquet": "parquet:dup_columns"},
          2, "appears twice"),
+    *[Case(f"data-parquet-{label}", f"fit d.parquet {options}-o r.json --quiet", {"d.parquet": f"parquet:{how}"}, 2,
+           f"d.parquet, column {column!r}: expected numbers, found a column of true/false (type {kind})")
+      for label, how, options, column, kind in [
+          ("bool-price", "bool_price", "", "price", "bool"), ("bool-volume", "bool_volume", "", "volume", "bool"),
+          ("bool-weight", "bool_flag", "--weight flag ", "flag", "bool"),
+          ("bool-control", "bool_flag", "--control flag ", "flag", "bool"),
+          ("bool-dictionary-control", "bool_dictionary_flag", "--control flag ", "flag", "bool")]],
+    Case("plan-parquet-bool-price", "fit d.csv --plan p.parquet -o r.json --quiet",
+         {"d.csv": "good", "p.parquet": "parquet:bool_plan"}, 2,
+         "p.parquet, column 'plan_price': expected numbers, found a column of true/false (type bool)"),
     Case("data-fifo", "fit d.csv -o r.json --quiet", {"d.csv": "fifo"}, 2, "not a regular file", how="subprocess"),
     Case("data-all-rejected", F, {"d.csv": "all_bad"}, 2, "no usable rows"),
     Case("data-header-only", F, {"d.csv": "header_only"}, 2, "only a header"),
@@ -321,6 +358,26 @@ CASES = [
     Case("commas-in-tsv", "fit d.tsv -o r.json --quiet", {"d.tsv": "good"}, 0, None),
     Case("tabs-in-txt", "fit d.txt -o r.json --quiet", {"d.txt": "tab"}, 0, None),
     Case("decimal-commas-rejected", F, {"d.csv": "decimal_comma"}, 2, "no usable rows"),
+    # a comma before exactly three digits: a thousands separator as likely as a decimal comma, 1000× apart
+    Case("thousands-separator-both-readings", F, {"d.csv": "thousands"}, 2,
+         "non-numeric volume: '5,710' (a thousands separator, 5710, or a decimal comma, 5.710? numbers are read "
+         "with a decimal point and no thousands separator)"),
+    Case("thousands-separators", F, {"d.csv": "thousands_twice"}, 2,
+         "non-numeric volume: '1,005,710' (thousands separators? numbers are read without them: 1005710)"),
+    Case("plan-thousands-separator", "fit d.csv --plan p.csv -o r.json --quiet", {"d.csv": "good", "p.csv":
+         "plan_thousands"}, 2, "found '1,250' (a thousands separator, 1250, or a decimal comma, 1.250?"),
+    # dates not ISO: the cell quoted and the form expected said, in the error and under --strict
+    Case("dates-day-first", "fit d.csv --date week -o r.json --quiet", {"d.csv": "dates_day_first"}, 2,
+         "d.csv, line 2, column 'week': no usable rows (32 rows rejected: 32 unparseable week); the first is "
+         "unparseable week: '01/01/2025' (expected an ISO date such as 2024-01-31)"),
+    Case("date-february-30-strict", "fit d.csv --date week -o r.json --quiet --strict", {"d.csv": "date_feb30"}, 2,
+         "d.csv, line 5, column 'week': unparseable week: '2025-02-30' (expected an ISO date such as 2024-01-31) "
+         "(1 row rejected: 1 unparseable week; --strict, so nothing was written)"),
+    Case("field-count-strict", "fit d.csv -o r.json --quiet --strict", {"d.csv": "short_line"}, 2,
+         "d.csv, line 5: a line of 3 fields (4 expected) (1 row rejected: 1 line of 3 fields (4 expected); --strict"),
+    # a results file given as data, data given as results: said as such
+    Case("fit-parquet-results-as-data", "fit r.parquet -o x.json --quiet", {"d.csv": "good", "r.parquet": "fit:d.csv"},
+         2, "r.parquet: this is a pricefold results file, not data"),
     Case("ten-megabyte-ignored-cell", F, {"d.csv": "wide_ignored"}, 0, None),
     Case("two-megabyte-key", F, {"d.csv": "wide_key"}, 0, None),
     Case("duplicate-header-names", F, {"d.csv": "dup_header"}, 2, "fields 2 and 4"),

@@ -26,12 +26,30 @@ READ_CASES = [
     # a file without any of them (an older pricefold's): shown, but nothing to sign with
     Case("accept-unflagged-no-interval-parts", "ledger accept-unflagged r.parquet --ledger L.jsonl",
          {"d.csv": "good", "r.parquet": "pdamaged:no_interval_parts"}, 2, "no interval parts"),
+    # results an earlier pricefold wrote with an infinite threshold: refused in a line, not a traceback
+    *[Case(f"{command.split()[-1]}-{name.replace('.', '-')}-threshold-inf", f"{command} {name}" + (
+        " --ledger L.jsonl" if command.endswith("accept-unflagged") else ""), {"d.csv": "good", name: f"{how}:threshold_inf"},
+        2, f"{name}: its recorded threshold cook_floor is out of range: expected a finite number above 0, got inf")
+      for command in ("show", "ledger accept-unflagged") for name, how in (("r.json", "damaged"),
+                                                                          ("r.parquet", "pdamaged"))],
+    # a series keyed by other columns than the file's: signed as another series, exported shifted by a column
+    *[Case(f"{label}-{how.replace('_', '-')}", command, RL | {"b.json": f"damaged:{how}"}, 2,
+           f"b.json: series {place}: its key has {problem} (the series are keyed by product)")
+      for label, command in (("show", "show b.json"), ("accept", "ledger accept-unflagged b.json --ledger L.jsonl"),
+                             ("export", "ledger export L.jsonl --results b.json -o out.csv"))
+      for how, place, problem in (("key_column_missing", "1 (region=North)", "no 'product' column"),
+                                  ("key_column_extra", "2 (product=item 1, region=North)",
+                                   "the extra column 'region'"))],
+    *[Case(f"{label}-seed-beyond-64-bits", command, RL | {"b.json": "damaged:seed_beyond_64_bits"}, 2,
+           "b.json: the recorded setting seed should be a whole number from 0 to 18446744073709551615")
+      for label, command in (("show", "show b.json"), ("accept", "ledger accept-unflagged b.json --ledger L.jsonl"))],
     Case("show-folder-named-json", "show x.json", {"x.json": "dir"}, 2, "is a folder"),
     Case("show-list-document", "show r.json", {"r.json": "results_text_list"}, 2, "schema"),
     Case("show-truncated-json", "show r.json", {"r.json": "results_truncated"}, 2, "r.json"),
     Case("show-empty-json", "show r.json", {"r.json": "empty"}, 2, "r.json"),
     Case("show-binary-json", "show r.json", {"r.json": "garbage"}, 2, "r.json"),
-    Case("show-data-as-results", "show d.parquet", {"d.parquet": "parquet:good"}, 2, "schema"),
+    Case("show-data-as-results", "show d.parquet", {"d.parquet": "parquet:good"}, 2,
+         "d.parquet: this is not a results file (a data file?): no 'pricefold-results/1' schema in it"),
     Case("show-csv-as-results", "show d.csv", D, 2, "expected a results file"),
     Case("show-missing", "show r.json", {}, 2, "file not found"),
     Case("show-fifo", "show r.json", {"r.json": "fifo"}, 2, "not a regular file", how="subprocess"),

@@ -135,6 +135,11 @@ TEXT: dict[str, bytes] = {
     "date_1677": _dates("1677-09-21").encode(),
     "date_edge_ok": _dates("2262-04-11").encode(),
     "date_feb30": _dates("2025-02-30").encode(),
+    "dates_day_first": "".join((line if i == 0 else ",".join(line.split(",")[:3] + [
+        "/".join(reversed(line.split(",")[3].split("-")))])) + "\n" for i, line in enumerate(GOOD.splitlines())).encode(),
+    "short_line": _with(GOOD, 5, "item 0,2.5,40\n").encode(),
+    "thousands": _numbers([f'"5,{710 + i}"' for i in range(32)], "volume").encode(),
+    "thousands_twice": _numbers([f'"1,005,{710 + i}"' for i in range(32)], "volume").encode(),
     "date_mixed_offsets": _mixed_offsets().encode(),
     "date_time": GOOD.replace("-01,", "-01T12:30:00,").encode(),
     "huge_price": _numbers(["1e308"] * 16).encode(),
@@ -161,6 +166,7 @@ TEXT: dict[str, bytes] = {
     "plan_no_price": b"product,price\nitem 0,2.0\n",
     "plan_bom": b"\xef\xbb\xbfproduct,plan_price\nitem 0,2.0\n",
     "plan_semicolon": b"product;plan_price\nitem 0;2.0\n",
+    "plan_thousands": b'product,plan_price\nitem 0,"1,250"\n',
     "plan_empty": b"",
     "plan_header_only": b"product,plan_price\n",
     "plan_blank_cells": b"product,plan_price\nitem 0,2.0\n,\n",
@@ -190,6 +196,8 @@ TEXT: dict[str, bytes] = {
     "toml_threshold_unknown": b"[thresholds]\nmin_pointz = 3\n",
     "toml_threshold_negative": b"[thresholds]\nmin_points = -1\n",
     "toml_threshold_inf": b"[thresholds]\nweak_score = inf\n",
+    "toml_threshold_cook_inf": b"[thresholds]\ncook_floor = inf\n",
+    "toml_plan_price_huge": b"[fit]\nplan_price = 1e300\n",
     "toml_bad": b"[fit\n",
     "toml_latin1": "[fit]\nrule = 'caf\xe9'\n".encode("latin-1"),
     "toml_table_value": b"fit = 3\n",
@@ -218,6 +226,13 @@ PARQUET = {
     "date_9999": lambda pa: _good_table(pa, date_at=(3, "9999-12-31")),
     "no_rows": lambda pa: pa.table({"product": pa.array([], pa.string()), "price": pa.array([], pa.float64()),
                                    "volume": pa.array([], pa.float64())}),
+    # true/false where numbers belong (pandas read every true as 1.0); "flag" for --weight / --control
+    "bool_price": lambda pa: _good_table(pa).set_column(1, "price", pa.array([i % 3 > 0 for i in range(32)])),
+    "bool_volume": lambda pa: _good_table(pa).set_column(2, "volume", pa.array([i % 3 > 0 for i in range(32)])),
+    "bool_flag": lambda pa: _good_table(pa).append_column("flag", pa.array([i % 3 > 0 for i in range(32)])),
+    "bool_dictionary_flag": lambda pa: _good_table(pa).append_column(
+        "flag", pa.array([i % 3 > 0 for i in range(32)]).dictionary_encode()),
+    "bool_plan": lambda pa: pa.table({"product": ["item 0", "item 1"], "plan_price": [True, True]}),
 }
 
 
@@ -269,7 +284,20 @@ DAMAGE = {
     "price_range_short": lambda d: _set(d, [1.0], "series", 0, "price_range"),
     "key_value_number": lambda d: _set(d, {"product": 7}, "series", 0, "key"),
     "coef_text": lambda d: _set(d, "x", "series", 0, "candidates", 1, "coef"),
+    "threshold_inf": lambda d: _set(d, float("inf"), "settings", "thresholds", "cook_floor"),  # an earlier fit's
+    "seed_beyond_64_bits": lambda d: _set(d, 2 ** 64, "settings", "seed"),  # fitted as seed 0
+    "key_column_missing": lambda d: _set(d, {"region": "North"}, "series", 0, "key"),  # keyed by product
+    "key_column_extra": lambda d: _set(d, "North", "series", 1, "key", "region"),
 }
+
+
+def _header_set(pa, t, value, *path):
+    """``t`` with its pricefold header changed (and the header's checksum made to match, as a writer would)."""
+    import hashlib
+    header = json.dumps(_set(json.loads(t.schema.metadata[b"pricefold"]), value, *path)).encode()
+    return t.replace_schema_metadata({**t.schema.metadata, b"pricefold": header,
+                                      b"pricefold_sha256": hashlib.sha256(header).hexdigest().encode()})
+
 
 PDAMAGE = {
     "no_flags": lambda pa, t: t.drop_columns(["flags"]),
@@ -283,6 +311,7 @@ PDAMAGE = {
     "no_candidate": lambda pa, t: t.drop_columns(["candidate"]),
     **{f"no_{name}": (lambda name: lambda pa, t: t.drop_columns([name]))(name)
        for name in ("window_coef", "sigma2", "df", "cov_unscaled", "last_date")},
+    "threshold_inf": lambda pa, t: _header_set(pa, t, float("inf"), "settings", "thresholds", "cook_floor"),
     "no_interval_parts": lambda pa, t: t.drop_columns(["window_coef", "sigma2", "df", "cov_unscaled", "last_date"]),
 }
 

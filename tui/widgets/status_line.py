@@ -90,7 +90,7 @@ def rejected_text(session) -> str | None:
     if rejects is None:
         return None
     from fitcore.data.validation import misread, summary
-    most = misread(len(rejects), session.results.data.source.get("rows") or 0)
+    most = misread(rejects.reasons, session.results.data.source.get("rows") or 0)
     rows = [f"\n    {'line' if rejects.kind != 'parquet' else 'row'} {int(line)}: {printable(str(why))}"
             for line, why in zip(rejects.lines[:HELP_LISTS].tolist(), rejects.reasons[:HELP_LISTS])]
     more = f"\n    … and {len(rejects) - HELP_LISTS:,} more" if len(rejects) > HELP_LISTS else ""
