@@ -10,6 +10,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from fitcore import ledger
+from fitcore.ledger.backtest import CHANGED_DUE_SHORT, changed_since_fit
 from fitcore.ledger.elsewhere import backtested_elsewhere
 from fitcore.collector import collector_paused
 from fitcore.ledger.replay import series_id
@@ -49,6 +50,15 @@ def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_
     if decided_on_newer(key, fingerprint, last_date, histories.get(series_id(key))):
         return NEWER_DUE_SHORT
     return why
+
+
+def moved_since(tested: dict | None, history, key: dict, fingerprint: str, last_date: str | None) -> str | None:
+    """Carry's reason for leaving a stale series the ledger moved on for since the fit (``tested``: the results'
+    backtest of it, or None; ``backtest.changed_since_fit``), as ``show --ledger`` and the screen say it: decided
+    on newer data first, else changed since the fit; None where it did not move (or it is held: ``held_left``)."""
+    if not changed_since_fit(tested, history) or history.current["action"] == "hold":
+        return None
+    return NEWER_DUE_SHORT if decided_on_newer(key, fingerprint, last_date, history) else CHANGED_DUE_SHORT
 
 
 def decided_since(history, fingerprint: str) -> bool:
@@ -105,10 +115,15 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
                           [r.get("last_date") for r in mine], histories))
     for record in records:
         bt, history = record.get("backtest"), histories.get(series_id(record["key"]))
-        if bt is None or decided_since(history, record["fingerprint"]):
+        if decided_since(history, record["fingerprint"]) or series_id(record["key"]) in held:  # held: counted above
             continue
         if carried_already(history, record["fingerprint"]):
             left[ALREADY] += 1
+            continue
+        moved = moved_since(bt, history, record["key"], record["fingerprint"], record.get("last_date"))
+        if moved is not None:  # (stale here: not decided since, not carried already)
+            left[moved] += 1
+        if moved is not None or bt is None:
             continue
         codes = [f["code"] for f in record["flags"]]
         near = near_best(record, bt["candidate"])
@@ -162,10 +177,13 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     held, lookup = held_keys(histories), SeriesKeys.of(data)
     at = lookup.indices_of(held) if held else np.zeros(0, np.int64)
     left = held_left(*series_of(at[at >= 0]), histories)
-    tested = tested[~_decided(histories, lookup, data.fingerprints)[tested]]
+    tested = tested[~_decided(histories, lookup, data.fingerprints)[tested] & ~np.isin(tested, at)]  # held: above
     carried = _carried(histories, lookup, data.fingerprints)[tested]
     left[ALREADY] += int(carried.sum())
     tested = tested[~carried]
+    moved = _moved(histories, lookup, data.fingerprints, status, bt.get("latest"), series_of)
+    left.update(moved.values())
+    tested = tested[~np.isin(tested, list(moved))]
     if not len(tested):
         return [], left
     shifted, stop = diagnosis.flagged("shifted")[tested], diagnosis.n_stop()[tested] > 0
@@ -224,6 +242,20 @@ def _decided(histories: dict, keys, fingerprints) -> np.ndarray:
     return _asked(mine, decided_since, keys, fingerprints)
 
 
+def _moved(histories: dict, keys, fingerprints, status, latest, series_of) -> dict:
+    """Series index → why carry leaves it, for each series of ``keys`` the ledger moved on for since the fit
+    (``moved_since``; ``status``, ``latest``: the stored backtest's columns; ``series_of``: index → keys,
+    fingerprints, last dates), asked of the ledger's series whose standing decision is on other data."""
+    mine = [h for h in histories.values() if h.current is not None and h.current["action"] != "hold"]
+    moved = {}  # index → (history, what the fit tested): the few asked their keys and words below
+    for history, s, fingerprint in _found(mine, keys, fingerprints):
+        tested = None if status[s] is None else {"latest": latest[s]}
+        if history.status(fingerprint) == "stale" and changed_since_fit(tested, history):
+            moved[s] = history, tested
+    return {s: moved_since(tested, history, key, fingerprint, last) for (s, (history, tested)), key, fingerprint, last
+            in zip(moved.items(), *series_of(list(moved)))}
+
+
 def _carried(histories: dict, keys, fingerprints) -> np.ndarray:
     """(S,) ``carried_already`` of each series of ``keys``, asked of the ledger's series standing carried."""
     mine = [h for h in histories.values() if h.current is not None and h.current["action"] == "carry"]
@@ -233,18 +265,24 @@ def _carried(histories: dict, keys, fingerprints) -> np.ndarray:
 def _asked(histories: list, ask, keys, fingerprints) -> np.ndarray:
     """(S,) ``ask(history, fingerprint)`` for the series of ``keys`` that ``histories`` name, False elsewhere."""
     import numpy as np
+    out = np.zeros(len(fingerprints), dtype=bool)
+    for history, s, fingerprint in _found(histories, keys, fingerprints):
+        out[s] = ask(history, fingerprint)
+    return out
+
+
+def _found(histories: list, keys, fingerprints) -> list[tuple]:
+    """(history, series index, fingerprint there) for each of ``histories`` whose series ``keys`` holds."""
+    import numpy as np
 
     from fitcore.arrays import integers, objects
-    out = np.zeros(len(fingerprints), dtype=bool)
     if not histories:
-        return out
+        return []
     at = keys.indices_of([h.latest["series"] for h in histories])
     found = np.flatnonzero(at >= 0)
     prints = objects(fingerprints.take(integers(at[found]))).tolist() if hasattr(fingerprints, "take") else \
         [fingerprints[i] for i in at[found].tolist()]
-    for i, fingerprint in zip(found.tolist(), prints):
-        out[at[i]] = ask(histories[i], fingerprint)
-    return out
+    return [(histories[i], s, fingerprint) for i, s, fingerprint in zip(found.tolist(), at[found].tolist(), prints)]
 
 
 def run_carry(args) -> int:
@@ -303,8 +341,8 @@ def _carry(args) -> int:
             history = book.histories.get(series_id(c.key))
             if carried_already(history, c.fingerprint):  # by a run at the same time
                 outcome[ALREADY] += 1
-            elif history is None or history.latest["digest"] != c.latest:
-                outcome["changed since the fit"] += 1
+            elif history is None or history.latest["digest"] != c.latest:  # moved on since (``moved_since``)
+                outcome[CHANGED_DUE_SHORT] += 1
             else:
                 entry = ledger.Entry(series=c.key, action="carry", fingerprint=c.fingerprint, results=digest,
                                      model=c.candidate, proposed=c.chosen,

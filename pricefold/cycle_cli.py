@@ -9,6 +9,7 @@ import sys
 from pathlib import Path
 
 from fitcore.data.keys import SEPARATOR
+from fitcore.ledger.backtest import CHANGED_DUE, CHANGED_DUE_SHORT, changed_since_fit
 from fitcore.ledger.elsewhere import backtested_elsewhere, without_backtest
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, what_stands
@@ -18,7 +19,7 @@ from .ledger_cli import key_mismatch, meets, open_ledger, say_missing
 from .show import key_parts
 
 
-def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | None]:
+def ledger_state(record: dict, book, short: bool = False, fitted: bool = False) -> tuple[str, str | None]:
     """(status in the ledger, what it needs) of a results record (``short``: for the list's column)."""
     from fitcore.ledger.backtest import carried_across, due, untested_due
     history = book.histories.get(series_id(record["key"]))
@@ -28,6 +29,11 @@ def ledger_state(record: dict, book, short: bool = False) -> tuple[str, str | No
     needs = None
     if status == "stale" and decided_on_newer(record["key"], record["fingerprint"], record.get("last_date"), history):
         needs = NEWER_DUE_SHORT if short else NEWER_DUE  # as the screen says: the ledger refuses decisions here
+    elif status == "stale" and history.current["action"] == "hold":  # whatever a backtest tested before it
+        needs = untested_due(history.current, short)
+    elif status == "stale" and fitted and changed_since_fit(record.get("backtest"), history):
+        # the ledger moved on since the fit read it (``fitted``: the results were fitted with --ledger on this one)
+        needs = CHANGED_DUE_SHORT if short else CHANGED_DUE  # as carry counts it and the screen says it
     elif status == "stale" and record.get("backtest"):
         bt = record["backtest"]
         stops = [f["code"] for f in record["flags"] if f["code"] in stop_codes()]
@@ -157,6 +163,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             print(f"pricefold show: {foreign}; its backtest and 'shifted' flags are left out (fit again with "
                   "--ledger on this ledger)", file=sys.stderr)
             records = [without_backtest(record) for record in records]
+    fitted = header is not None and bool(header.get("ledger")) and not foreign  # what the fit read: this ledger
     replaced = [superseded(record, book) for record in records]
     records = [without_backtest(record) if gone else record for record, gone in zip(records, replaced)]
     if flag is not None:  # listed by what is shown: a flag left out above picks nothing
@@ -170,7 +177,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         records, replaced = [records[i] for i in kept], [replaced[i] for i in kept]
     if len(records) == 1:
         record = records[0]
-        status, needs = ledger_state(record, book)
+        status, needs = ledger_state(record, book, fitted=fitted)
         shown = looks_shown([record], like) or {0: told_apart([key_parts(record["key"])], beside)[0]}
         label = SEPARATOR.join(shown[0])
         lines = [detail(record, binary, label), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
@@ -195,7 +202,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         return "\n".join(lines)
     ordered = in_attention_order(records, first)
     labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like), beside=beside)
-    states = [ledger_state(record, book, short=True) for record in ordered]
+    states = [ledger_state(record, book, short=True, fitted=fitted) for record in ordered]
     wide = max([21, *(len(needs) for _, needs in states if needs)])  # the longest due in full ("stop flag (a, b)")
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<{wide}} {'ratio':>5} {'cover':>5}  flags"]
     for record, label, (status, needs) in zip(ordered, labels, states):

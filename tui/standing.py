@@ -24,9 +24,17 @@ class Standing:
         """What a signed series whose data changed needs (backtest failed, shifted, no dates, …)."""
         if self.status[s] != "stale":
             return None
-        from fitcore.ledger.backtest import untested_due, within_one_se
+        from fitcore.ledger.backtest import CHANGED_DUE, StoredBacktest, changed_since_fit, untested_due, within_one_se
         if self.decided_on_newer(s):  # the ledger refuses decisions here
             return NEWER_DUE
+        held = untested_due(self.standing(s))  # a hold's own words, whatever a backtest tested before it
+        if held is not None:
+            return held
+        # the results file's backtest (a live one is made here, against this ledger): its fit read the ledger
+        # before the series' latest record, so it cannot say what is due — as show and carry say it
+        if isinstance(self.backtest, StoredBacktest) and changed_since_fit(self.backtest_of(s),
+                                                                            self.histories.get(self._id(s))):
+            return CHANGED_DUE
         found = None
         if self.backtest is not None and self.backtest_of(s) is not None:  # carry's own rule (``left_for_human``)
             results, record = self.results, self.backtest_of(s)
@@ -39,7 +47,7 @@ class Standing:
             kept = decision is not None and decision["action"] == "override" and bool(near)
             stops = [code for code in self.result_flags(s) if SEVERITY[code] == "stop"]
             found = self.backtest.due(s, stops, bool(results.chosen[s] >= 0), kept)
-        return found or untested_due(self.standing(s)) or "a new look (no backtest here)"
+        return found or "a new look (no backtest here)"
 
     def decided_on_newer(self, s: int) -> bool:
         """Whether the decision standing on series ``s`` was made on newer data than these results' rows: the

@@ -216,6 +216,22 @@ def untested_due(decision: dict | None, short: bool = False) -> str | None:
     return HELD_DUE_SHORT if short else HELD_DUE
 
 
+CHANGED_DUE = "changed since the fit: fit again with --ledger"
+CHANGED_DUE_SHORT = "changed since the fit"
+
+
+def changed_since_fit(tested: dict | None, history) -> bool:
+    """Whether the ledger moved on for a stale series since results fitted with ``--ledger`` on it read it:
+    the series' latest record now (``history``: its ``SeriesHistory``) is not the one their backtest of it read
+    (``tested``'s ``latest``: a revoke, a note or a decision since, which carry would not supersede), or they
+    tested nothing (``tested`` None: pending or held at the fit, decided since).  Those results cannot say what
+    is due: ``show --ledger`` and the screen say ``CHANGED_DUE``, carry counts it under ``CHANGED_DUE_SHORT``.
+    A hold and a decision on newer data keep their own words: callers ask those first."""
+    if history is None or history.current is None:
+        return False
+    return tested is None or tested.get("latest") != history.latest["digest"]
+
+
 def on_other_data(standing: Standing, keys: SeriesKeys, fingerprints) -> tuple[np.ndarray, Standing]:
     """(series indices, their standing decisions) for every series of ``keys`` whose standing decision
     was made on data other than ``fingerprints``."""
