@@ -1,6 +1,6 @@
 """``ledger carry``: carry a signed decision to new data where nothing moved (the backtest passed, the shape is
 still the proposal, no stop flag, no shift), by the rule ``show --ledger`` says as what is due
-(``fitcore.ledger.backtest.left_for_human``).
+(``fitcore.ledger.due.left_for_human``).
 """
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from fitcore import ledger
-from fitcore.ledger.backtest import CHANGED_DUE_SHORT, changed_since_fit
+from fitcore.ledger.due import CHANGED_DUE_SHORT, changed_since_fit
 from fitcore.ledger.elsewhere import backtested_elsewhere
 from fitcore.collector import collector_paused
 from fitcore.ledger.replay import series_id
@@ -36,7 +36,7 @@ class Carryable:
     near_best: bool  # the signed candidate is available and within one SE of the lowest CV error
     snapshot: dict | None = None
     revised: bool = False  # carried over a revised history (``--carry-revised``): said in the carry's note
-    across: tuple = ()  # what else it is carried across (``backtest.carried_across``): said in the note, counted
+    across: tuple = ()  # what else it is carried across (``due.carried_across``): said in the note, counted
 
 
 def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_date: str | None,
@@ -44,7 +44,7 @@ def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_
     """Carry's reason for leaving a tested series, asked as ``show --ledger`` and the screen ask it: a decision
     standing on newer data than these rows (``decided_on_newer``) first, then ``left_for_human``'s ``why``.
     Only an untested series can be one: a decision on newer data leaves no rows after its last date."""
-    from fitcore.ledger.backtest import FAILED, PASSED
+    from fitcore.ledger.due import FAILED, PASSED
     if status in (PASSED, FAILED):
         return why
     if decided_on_newer(key, fingerprint, last_date, histories.get(series_id(key))):
@@ -54,7 +54,7 @@ def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_
 
 def moved_since(tested: dict | None, history, key: dict, fingerprint: str, last_date: str | None) -> str | None:
     """Carry's reason for leaving a stale series the ledger moved on for since the fit (``tested``: the results'
-    backtest of it, or None; ``backtest.changed_since_fit``), as ``show --ledger`` and the screen say it: decided
+    backtest of it, or None; ``due.changed_since_fit``), as ``show --ledger`` and the screen say it: decided
     on newer data first, else changed since the fit; None where it did not move (or it is held: ``held_left``)."""
     if not changed_since_fit(tested, history) or history.current["action"] == "hold":
         return None
@@ -83,7 +83,7 @@ def held_left(keys: list[dict], fingerprints: list, last_dates: list, histories:
     """What ``show --ledger`` says each held series of these results is due (``keys``, ``fingerprints``,
     ``last_dates``: the series whose standing decision is a hold), in carry's count: a hold on other data is
     a new look (or, made on newer data, decided on newer data); a hold on these very data is due nothing."""
-    from fitcore.ledger.backtest import HELD_DUE_SHORT
+    from fitcore.ledger.due import HELD_DUE_SHORT
     left: Counter = Counter()
     for key, fingerprint, last_date in zip(keys, fingerprints, last_dates):
         history = histories.get(series_id(key))
@@ -105,7 +105,7 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
     """Which series may be carried, from results records (JSON; small runs), and why the others may not
     (``newer_first``, ``left_for_human``, ``held_left``; ``overrides``: the digests of the ledger's overrides;
     ``histories``: the ledger's; ``revised_ok``: ``--carry-revised``)."""
-    from fitcore.ledger.backtest import carried_across, left_for_human
+    from fitcore.ledger.due import carried_across, left_for_human
     from fitcore.ledger.snapshot import from_records
     histories, records = histories or {}, list(records)
     stops, keep, left = stop_codes(), [], Counter()
@@ -152,7 +152,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
 
     from fitcore.arrays import integers, objects
     from fitcore.data.keys import SeriesKeys
-    from fitcore.ledger.backtest import FAILED, PASSED, carried_across, left_for_human
+    from fitcore.ledger.due import FAILED, PASSED, carried_across, left_for_human
     from fitcore.ledger.snapshot import from_results
     from fitcore.results.stored import stored_results
     from fitcore.review.flags import CODES
@@ -377,7 +377,7 @@ REVISED_NOTE = "history revised since signing: carried with --carry-revised"
 def carry_note(note: str, revised: bool, across=()) -> str:
     """A carry's note: the analyst's, and where the rows it was signed on were revised, that it was carried over
     them on purpose — so the ledger, show and the report tell such a carry from a clean one; then what else it
-    was carried across (``backtest.carried_across``: the plan price it moved from, other CV settings)."""
+    was carried across (``due.carried_across``: the plan price it moved from, other CV settings)."""
     return "; ".join([part for part in (note, REVISED_NOTE if revised else "") if part] + list(across))
 
 
@@ -385,7 +385,7 @@ def across_words(across: Counter) -> str:
     """The summary's clause for what the carries written were carried across: "; 16 of them to a new plan price;
     79 fitted with other settings than signed: folds 5 → 10, rule one-se → lowest" (each change with its count
     where they differ)."""
-    from fitcore.ledger.backtest import NEW_PRICE, OTHER_SETTINGS
+    from fitcore.ledger.due import NEW_PRICE, OTHER_SETTINGS
     out = ""
     moved = sum(count for said, count in across.items() if said.startswith(NEW_PRICE))
     if moved:

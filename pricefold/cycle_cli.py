@@ -9,7 +9,7 @@ import sys
 from pathlib import Path
 
 from fitcore.data.keys import SEPARATOR
-from fitcore.ledger.backtest import CHANGED_DUE, CHANGED_DUE_SHORT, changed_since_fit
+from fitcore.ledger.due import CHANGED_DUE, CHANGED_DUE_SHORT, changed_since_fit
 from fitcore.ledger.elsewhere import backtested_elsewhere, without_backtest
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, what_stands
@@ -21,7 +21,7 @@ from .show import key_parts
 
 def ledger_state(record: dict, book, short: bool = False, fitted: bool = False) -> tuple[str, str | None]:
     """(status in the ledger, what it needs) of a results record (``short``: for the list's column)."""
-    from fitcore.ledger.backtest import carried_across, due, untested_due
+    from fitcore.ledger.due import carried_across, due, untested_due
     history = book.histories.get(series_id(record["key"]))
     status = history.status(record["fingerprint"]) if history else "pending"
     if status in ("accepted", "overridden") and history.current["action"] == "carry":

@@ -24,7 +24,8 @@ class Standing:
         """What a signed series whose data changed needs (backtest failed, shifted, no dates, …)."""
         if self.status[s] != "stale":
             return None
-        from fitcore.ledger.backtest import CHANGED_DUE, StoredBacktest, changed_since_fit, untested_due, within_one_se
+        from fitcore.ledger.backtest import StoredBacktest, within_one_se
+        from fitcore.ledger.due import CHANGED_DUE, changed_since_fit, untested_due
         if self.decided_on_newer(s):  # the ledger refuses decisions here
             return NEWER_DUE
         held = untested_due(self.standing(s))  # a hold's own words, whatever a backtest tested before it

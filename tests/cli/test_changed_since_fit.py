@@ -1,5 +1,5 @@
 """Series whose ledger records moved on after ``fit --ledger`` read the ledger: ``show --ledger``, ``ledger carry``
-and the screen judge them by one rule (``backtest.changed_since_fit``) and say it in the same words.
+and the screen judge them by one rule (``due.changed_since_fit``) and say it in the same words.
 
 A trial found them apart: a series pending at the fit and accepted on the older data after it was "no backtest in
 these results (fit with --ledger)" in show, though the results were fitted with --ledger, and in neither of

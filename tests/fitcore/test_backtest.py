@@ -15,7 +15,8 @@ import statsmodels.api as sm
 import fitcore
 from fitcore import ledger
 from fitcore.data.dataset import from_columns
-from fitcore.ledger.backtest import NO_DATES, PASSED, backtest
+from fitcore.ledger.backtest import backtest
+from fitcore.ledger.due import NO_DATES, PASSED
 from fitcore.ledger.snapshot import from_results
 from fitcore.review.thresholds import Thresholds
 from tests.conftest import random_dataset
@@ -149,7 +150,7 @@ def test_the_shift_sentence_gives_changes_as_changes():
 def test_a_passed_backtest_under_a_new_proposal_is_due_a_look():
     """The signed curve passed, but this cycle proposes another shape: carry leaves it ("shape changed"), so
     what it needs says that, not "backtest passed"."""
-    from fitcore.ledger.backtest import due
+    from fitcore.ledger.due import due
     assert due({"status": PASSED, "shifted": False, "shape_changed": True}) == "proposal changed"
     assert due({"status": PASSED, "shifted": False, "shape_changed": False}) == "backtest passed"
 
@@ -237,7 +238,7 @@ def test_a_restated_history_is_told_from_a_rolling_window(tmp_path):
     # a revision that fits is still not carried by default: rows re-dated past the signed date would pass for rows
     # since (a trial moved every old week by a day, and 8 failing backtests passed, diluted by an old week)
     assert found.due(at["rolling"]) == "history revised since signing"
-    from fitcore.ledger.backtest import left_for_human
+    from fitcore.ledger.due import left_for_human
     record = found.record(at["rolling"])
     assert record["signed_rows"] == weeks - 1 and record["history_rows"] == weeks - 2
     assert left_for_human(record["status"], False, (), True, False, revised=True, revised_ok=True) is None

@@ -1,5 +1,5 @@
 """The screen on a results file's own backtest (``fit --ledger``, its rows not loaded) says what is due of a series
-the ledger moved on for since that fit as ``show --ledger`` says it (``backtest.changed_since_fit``): it said
+the ledger moved on for since that fit as ``show --ledger`` says it (``due.changed_since_fit``): it said
 "a new look (no backtest here)" of a series pending at the fit and accepted since, and "backtest passed" of one
 noted since, which carry leaves as changed since the fit."""
 from __future__ import annotations
