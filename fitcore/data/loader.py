@@ -34,7 +34,9 @@ def file_kind(path: Path) -> tuple[str, str | None]:
         return "parquet", None
     if name.suffix.lower() in CSV_SUFFIXES:
         return "csv", CSV_SUFFIXES[name.suffix.lower()]
-    raise DataError(f"expected a .csv, .tsv, .txt (optionally .gz) or .parquet file, got {quoted(path.name)}",
+    results = ("; a .json file is a pricefold results file, not data (read it with 'pricefold show' or 'pricefold "
+               "triage')") if name.suffix.lower() == ".json" else ""
+    raise DataError(f"expected a .csv, .tsv, .txt (optionally .gz) or .parquet file, got {quoted(path.name)}{results}",
                     path=str(path))
 
 

@@ -107,8 +107,14 @@ def test_file_level_errors_are_one_clear_line(tmp_path, content, message):
 def test_unknown_extension(tmp_path):
     path = tmp_path / "d.xlsx"
     path.write_bytes(b"PK")
-    with pytest.raises(DataError, match=r"expected a \.csv, \.tsv, \.txt \(optionally \.gz\) or \.parquet file"):
+    with pytest.raises(DataError, match=r"expected a \.csv, \.tsv, \.txt \(optionally \.gz\) or \.parquet file, "
+                                        r"got 'd\.xlsx'$"):
         load(path)
+    results = tmp_path / "r.json"  # a results file given as data (a trial): said what it is
+    results.write_text('{"schema":"pricefold-results/1"}')
+    with pytest.raises(DataError, match=r"got 'r\.json'; a \.json file is a pricefold results file, not data \(read it "
+                                        r"with 'pricefold show' or 'pricefold triage'\)"):
+        load(results)
 
 
 def test_every_row_rejected_is_an_error(tmp_path):
