@@ -234,8 +234,9 @@ def run_show(args) -> int:
     book = open_ledger(args.ledger, must_exist=True)
     product = product_column(args.product_column)
     from fitcore.ledger.key_columns import key_sets
-    keys = [h.latest["series"] for h in book.histories.values()] if args.product else []
-    if keys and not any(product in key for key in keys):  # a filter that could match nothing: say why
+    # a filter that could match nothing, or a column named that no series has (it orders each key too): say why
+    keys = [h.latest["series"] for h in book.histories.values()] if args.product or args.product_column else []
+    if keys and not any(product in key for key in keys):
         sets = " or ".join(", ".join(map(clean, sorted(names))) for names in key_sets(keys))
         raise ledger.LedgerError(f"{args.ledger}: no series has a product column {clean(product)!r} (the key "
                                  f"columns: {sets}); name it with --product-column")

@@ -149,6 +149,10 @@ def test_show_lists_decisions(tmp_path, results):
     shown = done.stdout.strip().splitlines()
     assert done.returncode == 0 and 1 <= len(shown) <= 3
     assert all("apples 1 kg" in line and " ana " in line and "accept" in line for line in shown)
+    # a product column no series has, without --product, listed everything silently (a trial): said, as with it
+    done = run_cli("ledger", "show", str(ledger_path), "--product-column", "nosuch")
+    assert done.returncode == 2 and done.stdout == "" and done.stderr.strip().endswith(
+        "no series has a product column 'nosuch' (the key columns: product, region); name it with --product-column")
 
 
 def test_ledger_errors_are_one_line(tmp_path):
