@@ -140,12 +140,16 @@ class TriageSession(Deciding, Standing, ListState):
         fingerprint = fingerprint_reader(self.results.data, len(changed))  # the column read once for both
         set_statuses(self.status, self.status_code, changed, self.histories, fingerprint)
         self.mark_accepted_other(changed, fingerprint)
+        untested = bool(records) and self._untested(changed)  # decided on other data since the screen's backtest
         changed = set(changed)
         current = self.current
         if current is not None and records and self.shown is not None:  # not what was there before the screen opened
             theirs = [r for r in records if r.get("digest") not in self._written
                       and self._known.get(series_id(r["series"])) == current]  # others' records on it
             self.news = theirs[-1] if theirs else self.news
+        if untested:
+            self._with_backtest(self.results, self.base_diagnosis)
+            force = True
         if records or force:
             stale = self._code("stale")
             if force or not np.array_equal(stale, self.diagnosis.flagged("stale")):
@@ -153,6 +157,18 @@ class TriageSession(Deciding, Standing, ListState):
                 self._flagged = self.diagnosis.raised.any(axis=1)
             self.rebuild_view(pin=pin)
         return changed
+
+    def _untested(self, changed: dict[int, str]) -> bool:
+        """Whether a series ``changed`` (index → id) now stands stale on a decision the screen's live backtest (its
+        fit of the data, against this ledger) did not test: made on other data after it ran.  A results file's own
+        backtest is what it is (``due.changed_since_fit`` says so); it is not run again here."""
+        if self.backtest is None or not self.results.rows_loaded or not hasattr(self.backtest, "decision"):
+            return False
+        for s, sid in changed.items():
+            current = self.histories[sid].current
+            if self.status[s] == "stale" and current is not None and self.backtest.decision[s] != current["digest"]:
+                return True
+        return False
 
     def _note_missing(self, touched: dict[str, dict]) -> None:
         """Keep ``missing_signed`` as records come: the ledger's series keyed by the results' columns, not in these
