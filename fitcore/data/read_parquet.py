@@ -22,21 +22,48 @@ def parquet_schema(path: Path) -> pa.Schema:
     try:
         if path.is_file():
             return pq.read_schema(path)
-        dataset = pq.ParquetDataset(path)
+        try:
+            dataset = pq.ParquetDataset(path, partitioning=folder_partitioning(path))
+        except (pa.ArrowException, OSError):  # a file that is not a part (its name said), or parts that disagree
+            _check_parts(path, _part_files(path), None)
+            raise
         if not dataset.files:
             raise DataError("no Parquet files in this folder", path=str(path))
         _check_parts(path, dataset.files, dataset.schema)
         return dataset.schema
-    except (pa.ArrowInvalid, OSError) as exc:
+    except (pa.ArrowException, OSError) as exc:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
 
 
-def _check_parts(folder: Path, files: list[str], schema: pa.Schema) -> None:
+def folder_partitioning(folder: Path):
+    """A partitioned folder's columns (``store=007/…``) read as the text of the folder names: inferred, ``007``,
+    ``07`` and ``7`` were one number, 7 — three stores one series, two thirds of its rows rejected as duplicates
+    (a trial).  None where no folder is named so."""
+    import os
+
+    import pyarrow.dataset as ds
+    names = {}
+    for _, folders, _ in os.walk(folder):
+        for name in folders:
+            if "=" in name:
+                names.setdefault(name.split("=", 1)[0], None)
+    return ds.partitioning(pa.schema([(name, pa.string()) for name in names]), flavor="hive") if names else "hive"
+
+
+def _part_files(folder: Path) -> list[str]:
+    """The files of a data folder as a dataset reads them (not those named ``.…`` or ``_…``)."""
+    import os
+    return sorted(os.path.join(root, name) for root, folders, files in os.walk(folder) for name in files
+                  if not name.startswith((".", "_")) and not any(step.startswith((".", "_"))
+                                                                 for step in Path(root).relative_to(folder).parts))
+
+
+def _check_parts(folder: Path, files: list[str], schema: pa.Schema | None) -> None:
     """Every file of a data folder is one of its Parquet parts, with the folder's columns: a note left beside them
     (``readme.txt``) failed the whole read in pyarrow's words, naming no file; a part missing a column (the folder
     takes the first part's) had every row rejected as missing that value, exit 0."""
     import pyarrow.parquet as pq
-    names = schema.names
+    names = schema.names if schema is not None else []
     for name in files:
         part = Path(name)
         try:
@@ -45,6 +72,11 @@ def _check_parts(folder: Path, files: list[str], schema: pa.Schema) -> None:
             raise DataError(f"holds {part.relative_to(folder)}, which is not a readable Parquet file "
                             f"({first_line(exc)}); a data folder holds only its Parquet parts", path=str(folder)) from None
         hive = {step.split("=", 1)[0] for step in part.relative_to(folder).parent.parts if "=" in step}
+        both = sorted(hive & set(own.names))
+        if both:  # Arrow: "Unable to merge: Field region has incompatible types"
+            raise DataError(f"its part {part.relative_to(folder)} holds the column {both[0]!r} that its folder's name "
+                            f"gives too ({both[0]}=…): keep it in the folder names or in the parts, not both",
+                            path=str(folder))
         missing = [column for column in names if column not in own.names and column not in hive]  # (``region=East``:
         # a column held in the folder names of a partitioned data set)
         if missing:
@@ -68,8 +100,9 @@ def read_parquet_rows(path: Path, columns: Columns, schema=None):
             with pq.ParquetFile(path, read_dictionary=texts, page_checksum_verification=True) as file:
                 table = file.read(columns=columns.needed)
         else:
-            table = pq.read_table(path, columns=columns.needed, read_dictionary=texts, page_checksum_verification=True)
-    except (pa.ArrowInvalid, OSError) as exc:
+            table = pq.read_table(path, columns=columns.needed, read_dictionary=texts, page_checksum_verification=True,
+                                  partitioning=folder_partitioning(Path(path)))
+    except (pa.ArrowException, OSError) as exc:
         raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=str(path)) from None
     n_rows = table.num_rows
     parts, table = columns_of(table, columns), None  # each column freed once converted

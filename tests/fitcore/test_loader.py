@@ -182,6 +182,24 @@ def test_a_folders_parts_each_have_its_columns_and_nothing_else_lies_beside_them
         rows = table.filter(pa.compute.equal(table["product"], product)).drop_columns(["product"])
         pq.write_table(rows, hive / f"product={product}" / "part.parquet")
     assert as_frame(load(hive)) == expected_frame()
+    # folder names are text as written: 007, 07 and 7 are three stores (inferred as numbers they were one, 7)
+    stores = tmp_path / "stores"
+    for store in ("007", "07", "7"):
+        (stores / f"store={store}").mkdir(parents=True)
+        pq.write_table(table, stores / f"store={store}" / "part.parquet")
+    data = load(stores, Columns(segments=("store",)))
+    assert sorted(set(data.keys["store"])) == ["007", "07", "7"] and data.n_series == 6
+    # a part that also holds the folder names' column: one line (Arrow's merge error was a traceback)
+    (stores / "store=7" / "part.parquet").unlink()
+    pq.write_table(table.append_column("store", pa.array(["7"] * 3)), stores / "store=7" / "part.parquet")
+    with pytest.raises(DataError, match=r"stores: its part store=7/part.parquet holds the column 'store' that its "
+                                        r"folder's name gives too \(store=…\): keep it in the folder names or in the "
+                                        r"parts, not both"):
+        load(stores, Columns(segments=("store",)))
+    # a note beside the parts large enough for the dataset to try it as a part (it failed in Arrow's words)
+    (folder / "README.txt").write_text("x" * 5000)
+    with pytest.raises(DataError, match=r"parts: holds README.txt, which is not a readable Parquet file"):
+        load(folder)
 
 
 def test_interleaved_series_keep_their_own_order(tmp_path):
