@@ -65,6 +65,7 @@ class Ledger:
         self.histories: dict[str, SeriesHistory] = {}
         self.problems: list[Problem] = []
         self.notes: list[Problem] = []
+        self.unended = False  # the last line is a whole record without its line end (``_unended``)
         self.exists = False
         self._chain = ChainState()
         self._unverifiable: Problem | None = None
@@ -120,7 +121,7 @@ class Ledger:
         if status is None:
             if self.records:
                 self._vanished("the ledger file is gone")
-            self.exists, self.notes = False, []
+            self.exists, self.notes, self.unended = False, [], False
             return []
         seen = _status_key(status)
         settle = seen == self._seen and self._unsettled(status)
@@ -246,13 +247,19 @@ class Ledger:
                 blank = torn.count(b"\n") or 1
                 self.notes = self._tail_notes(unit, b"", lines_read) + [Problem(
                     lines_read + 1, f"{blank} blank line{'s' if blank > 1 else ''} at the end (an editor's save?) "
-                                    "ignored; the next append moves them to a side file")]
+                                    f"ignored; the next append moves {'them' if blank > 1 else 'it'} to a side file")]
                 return new
             if torn and not _could_be_record(torn):
                 self.problems.append(Problem(lines_read + 1, f"the last line ({len(torn)} bytes, no line end) is not "
                                                              "the start of a ledger record: not a pricefold ledger, "
                                                              "or edited"))
                 torn = b""
+            self.unended = bool(torn) and _unended(torn, unit[-1]["digest"] if unit else self._chain.prev)
+            if self.unended:
+                self.notes = [Problem(lines_read + 1, "the last record has no line end (saved by a tool that drops the "
+                                                      "final newline?): it and its batch are not counted until the "
+                                                      "next append ends its line")]
+                return new
             self.notes = self._tail_notes(unit, torn, lines_read)
         return new
 
@@ -311,7 +318,7 @@ class Ledger:
                 for line in lines:
                     self._prefix = zlib.crc32(line, self._prefix)
                 self._prefix_seen, self._prefix_settled = _status_key(status), False  # as written, just now
-                self.notes = []
+                self.notes, self.unended = [], False
                 self._seen = _status_key(status)
                 return records
         return self._read(fd, judge=True)
@@ -353,6 +360,18 @@ def opening(path: str | Path, key: bytes | None = None) -> Callable[[], Ledger]:
 # write cut short leaves a prefix of that.  Anything else after the last line end (a results file
 # given as the ledger, a hand edit) is not an interrupted write, and is never set aside as one.
 _RECORD_START = b'{"action":"'
+
+
+def _unended(torn: bytes, prev: str) -> bool:
+    """Whether the bytes after the last line end are a whole record linked to the one before (``prev``): a line
+    end lost, not a write cut short (an append ends its line before anything else; the locked read then verifies
+    it as any record)."""
+    import json
+    try:
+        record = json.loads(torn)
+    except ValueError:
+        return False
+    return isinstance(record, dict) and record.get("prev") == prev and isinstance(record.get("digest"), str)
 
 
 def _could_be_record(torn: bytes) -> bool:

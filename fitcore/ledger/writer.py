@@ -41,6 +41,9 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
     try:
         files.lock(fd, fcntl.LOCK_EX)
         book.read_locked(fd)
+        if book.unended and not book.problems:  # a whole last record without its line end: ended, then counted
+            files.write_all(fd, path, os.fstat(fd).st_size, [b"\n"])  # (moved aside as a torn line before, with
+            book.read_locked(fd)  # its batch: a team's last sign-off gone from the chain, re-decided by another)
         if book.state != "intact":
             refuse = "the chain is broken" if book.problems else "the records cannot be verified without the key"
             raise LedgerError(f"{path}: {book.problem}; nothing was recorded ({refuse})")

@@ -159,13 +159,38 @@ def test_blank_lines_at_the_end_are_a_tail_not_a_broken_chain(tmp_path, blank):
     assert book.state == "intact" and len(book.records) == 2
     count = blank.count(b"\n")
     assert [str(n) for n in book.notes] == [f"line 3: {count} blank line{'s' if count > 1 else ''} at the end (an "
-                                            "editor's save?) ignored; the next append moves them to a side file"]
+                                            "editor's save?) ignored; the next append moves "
+                                            f"{'them' if count > 1 else 'it'} to a side file"]
     ledger.append(path, [entry("c")], BO)
     assert ledger.verify(path) == [] and len(ledger.Ledger(path).records) == 3 and not ledger.Ledger(path).notes
     assert [p.name.startswith("ledger.jsonl.torn-") for p in tmp_path.iterdir() if p != path] == [True]
     middle = path.read_bytes().replace(b"\n", b"\n\n", 1)
     path.write_bytes(middle)
     assert ledger.Ledger(path).state == "broken"
+
+
+@pytest.mark.parametrize("batch", [1, 3])
+def test_a_last_record_without_its_line_end_is_ended_by_the_next_append_not_set_aside(tmp_path, batch):
+    """A trial's tool wrote the ledger back without its final newline: the last record (whole, its digest good)
+    read as a torn line and its batch as interrupted, and the next append moved the team's last sign-off to a side
+    file — another analyst then accepted the same series anew.  Now it is said, and the next append ends its line:
+    every record counts, nothing is set aside."""
+    path = tmp_path / "ledger.jsonl"
+    ledger.append(path, [entry("a")], ANA)
+    ledger.append(path, [entry(f"b{i}") for i in range(batch)], ANA)
+    whole = path.read_bytes()
+    path.write_bytes(whole[:-1])
+    book = ledger.Ledger(path)
+    assert book.state == "intact" and len(book.records) == 1 and book.unended
+    assert [str(n) for n in book.notes] == [f"line {1 + batch}: the last record has no line end (saved by a tool "
+                                            "that drops the final newline?): it and its batch are not counted until "
+                                            "the next append ends its line"]
+    ledger.append(path, [entry("c")], BO)
+    assert path.read_bytes().startswith(whole) and ledger.verify(path) == []
+    assert [r["series"]["product"] for r in ledger.Ledger(path).records] == ["a", *(f"b{i}" for i in range(batch)), "c"]
+    assert list(tmp_path.iterdir()) == [path]  # no side file
+    path.write_bytes(whole[:-1] + b'{"schema"')  # a torn line after it still reads as torn
+    assert not ledger.Ledger(path).unended
 
 
 @pytest.mark.parametrize("fault", ["disk full", "folder not writable"])
