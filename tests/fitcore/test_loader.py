@@ -110,6 +110,11 @@ def test_unknown_extension(tmp_path):
     with pytest.raises(DataError, match=r"expected a \.csv, \.tsv, \.txt \(optionally \.gz\) or \.parquet file, "
                                         r"got 'd\.xlsx'$"):
         load(path)
+    for name, packed in (("d.csv.bz2", "bzip2"), ("d.csv.xz", "xz"), ("d.zip", "zip")):  # named so: said too
+        (tmp_path / name).write_bytes(b"\x00")
+        with pytest.raises(DataError, match=rf"{re.escape(name)}'; {packed}-compressed: decompress it first \(only "
+                                            r"gzip is read\)"):
+            load(tmp_path / name)
     results = tmp_path / "r.json"  # a results file given as data (a trial): said what it is
     results.write_text('{"schema":"pricefold-results/1"}')
     with pytest.raises(DataError, match=r"got 'r\.json'; a \.json file is a pricefold results file, not data \(read it "
