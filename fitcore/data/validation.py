@@ -264,11 +264,13 @@ def is_date_reason(reason: str) -> bool:
 def misread(reasons: list, read: int, first: str = "") -> str:
     """'; that is 9 of the 12 rows read: check the delimiter (--sep), the columns and the decimal mark' where
     more than half the rows read were rejected (a wrong delimiter, decimal commas), else ''; ``first``: where
-    the first rejected row is and why, said after the count.  Mostly dates: their format is what to check."""
+    the first rejected row is and why, said after the count.  Mostly dates: their format is what to check; mostly
+    duplicates of a series and date: the key columns (a trial left out --segment and read "check the delimiter")."""
     rejected = len(reasons)
     if 2 * rejected <= read:
         return ""
     most = Counter(map(str, reasons)).most_common(1)[0][0]
-    check = ("the dates' format" if is_date_reason(most)
-             else "the delimiter (--sep), the columns and the decimal mark")
+    check = ("the dates' format" if is_date_reason(most) else
+             "the key columns (a --segment left out makes several series one, their dates repeated)"
+             if most.startswith("duplicate of line") else "the delimiter (--sep), the columns and the decimal mark")
     return f"; that is {rejected:,} of the {read:,} rows read{first}: check {check}"

@@ -132,3 +132,12 @@ def test_a_bad_plan_price_names_its_cell(tmp_path, capsys, cell, said_after):
     code, said = fit(capsys, SAMPLE / "wholesale.csv", "--plan", part, "-o", tmp_path / "r.parquet")
     assert code == 2
     assert said == [f"pricefold fit: {part}, line 4, column 'plan_price': expected a price above zero{said_after}"]
+
+
+def test_most_rows_duplicates_of_a_series_and_date_point_at_the_key_columns(tmp_path, capsys):
+    """The sample fitted without --segment region: three regions' weeks one series, two thirds of the rows
+    duplicates — the advice was "check the delimiter (--sep), the columns and the decimal mark"."""
+    code = main(["fit", str(SAMPLE / "wholesale.csv"), "--date", "week", "-o", str(tmp_path / "r.json"), "-q"])
+    (line,) = [text for text in capsys.readouterr().err.splitlines() if "rejected" in text]
+    assert code == 0 and line.endswith(": check the key columns (a --segment left out makes several series one, their "
+                                       "dates repeated) (--strict fails such a run)"), line
