@@ -223,7 +223,8 @@ class Ledger:
                     unit, before = [], (chain.copy(), self._line, self._unverifiable)
                 continue
             if record is None:
-                problems, unverifiable, well_formed = ["not a valid JSON record"], False, False
+                said = "a blank line between records" if not raw.strip() else "not a valid JSON record"
+                problems, unverifiable, well_formed = [said], False, False
             else:
                 problems, unverifiable, well_formed = check(self._chain, record, raw, self.key)
             if problems and not judge:

@@ -166,7 +166,8 @@ def test_blank_lines_at_the_end_are_a_tail_not_a_broken_chain(tmp_path, blank):
     assert [p.name.startswith("ledger.jsonl.torn-") for p in tmp_path.iterdir() if p != path] == [True]
     middle = path.read_bytes().replace(b"\n", b"\n\n", 1)
     path.write_bytes(middle)
-    assert ledger.Ledger(path).state == "broken"
+    assert ledger.Ledger(path).state == "broken" and str(ledger.Ledger(path).problem) == \
+        "line 2: a blank line between records"
 
 
 @pytest.mark.parametrize("batch", [1, 3])
