@@ -188,9 +188,17 @@ def _settings(header: dict, names: list[str], results_path: str = "") -> list[tu
             ("Data digest", f"<span class=\"digest\">SHA-256 {esc(data.get('sha256'))}</span>"),
             ("Rows", f"{num(rows)} read, {num(rejected or 0)} rejected{esc(rejects_state(header, results_path))}"
              if rows is not None else "n/a"),
-            ("Candidates", esc(cands)), ("Folds", fold_text), ("Rule", esc(settings.get("rule"))),
+            ("Candidates", esc(cands)), ("Weights", weights_text(settings)), ("Folds", fold_text),
+            ("Rule", esc(settings.get("rule"))),
             ("Interval", f"{float(settings.get('level', 0.95)) * 100:.0f}% prediction interval"),
             ("Plan price", plan_text)]
+
+
+def weights_text(settings: dict) -> str:
+    """'none (every row counts alike)', or the weight column: a weighted fit is another model (a trial's report of
+    one did not say it was weighted)."""
+    column = (settings.get("columns") or {}).get("weight")
+    return f"column <code>{esc(column)}</code>" if column else "none (every row counts alike)"
 
 
 def _ledger_facts(report: Report) -> list[tuple[str, str]]:

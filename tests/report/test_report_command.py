@@ -288,3 +288,22 @@ def test_a_killed_report_leaves_no_drawing_process_behind(signed, tmp_path):
     for pid in left:
         os.kill(pid, signal.SIGKILL)
     assert not left and not output.exists()
+
+
+def test_the_settings_say_whether_the_fit_was_weighted(tmp_path, page):
+    """A weighted fit is another model (a carry never crosses a change of weighting); a trial's report of one did
+    not say it was weighted."""
+    from pathlib import Path
+
+    from pricefold import cli
+    assert "<dt>Weights</dt><dd>none (every row counts alike)</dd>" in page[1]
+    data = tmp_path / "w.csv"
+    rows = (Path(__file__).parents[2] / "sample" / "wholesale.csv").read_text().splitlines()
+    data.write_text("\n".join([rows[0] + ",w"] + [row + ",2" for row in rows[1:]]) + "\n")
+    results = tmp_path / "w.json"
+    assert cli.main(["fit", str(data), "--segment", "region", "--date", "week", "--weight", "w", "-o", str(results),
+                     "-q"]) == 0
+    assert cli.main(["ledger", "accept-unflagged", str(results), "--ledger", str(tmp_path / "L.jsonl"), "-q"]) == 0
+    out = tmp_path / "w.html"
+    assert cli.main(["report", str(results), "--ledger", str(tmp_path / "L.jsonl"), "-o", str(out)]) == 0
+    assert "<dt>Weights</dt><dd>column <code>w</code></dd>" in out.read_text()
