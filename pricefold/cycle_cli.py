@@ -203,6 +203,10 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     ordered = in_attention_order(records, first)
     labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like), beside=beside)
     states = [ledger_state(record, book, short=True, fitted=fitted) for record in ordered]
+    newer = sum(needs == NEWER_DUE_SHORT for _, needs in states)
+    if newer:  # as export warns and the report alerts: these results are older than those decisions
+        print(f"pricefold show: {results}: note: {newer:,} of the series listed {'was' if newer == 1 else 'were'} "
+              "decided on newer data than these results; show the newer results for them", file=sys.stderr)
     wide = max([21, *(len(needs) for _, needs in states if needs)])  # the longest due in full ("stop flag (a, b)")
     lines = [f"{'series':<40} {'n':>5} {'model':<7} {'status':<20} {'due':<{wide}} {'ratio':>5} {'cover':>5}  flags"]
     for record, label, (status, needs) in zip(ordered, labels, states):

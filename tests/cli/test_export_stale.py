@@ -74,3 +74,7 @@ def test_an_export_of_last_cycles_results_warns_of_decisions_on_newer_data(tmp_p
                      "-o", str(tmp_path / f"{week}.csv.out.csv"), "-q"]) == 0
         err = capsys.readouterr().err
         assert (f"warning: {accepted} series were decided on newer data than these results" in err) is said, err
+        # show's list says it too (each row's due read "decided on newer data", the count nowhere: a trial)
+        assert main(["show", str(tmp_path / f"{week}{ending}"), "--ledger", str(book)]) == 0
+        err = capsys.readouterr().err
+        assert (f"note: {accepted:,} of the series listed were decided on newer data than these results" in err) is said
