@@ -238,7 +238,9 @@ def run_show(args) -> int:
     keys = [h.latest["series"] for h in book.histories.values()] if args.product or args.product_column else []
     if keys and not any(product in key for key in keys):
         sets = " or ".join(", ".join(map(clean, sorted(names))) for names in key_sets(keys))
-        raise ledger.LedgerError(f"{args.ledger}: no series has a product column {clean(product)!r} (the key "
+        where = "" if args.product_column or product == "product" else \
+            " — the settings file's [columns] product, in the current folder"  # a name the user never typed here
+        raise ledger.LedgerError(f"{args.ledger}: no series has a product column {clean(product)!r}{where} (the key "
                                  f"columns: {sets}); name it with --product-column")
     several = len(key_sets(h.latest["series"] for h in book.histories.values())) > 1  # name the columns then
     seqs = {r["digest"]: r["seq"] for r in book.records if r["action"] in ("accept", "override")}

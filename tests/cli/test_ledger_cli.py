@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import csv
 import json
+import os
 import subprocess
 import sys
 from pathlib import Path
@@ -153,6 +154,13 @@ def test_show_lists_decisions(tmp_path, results):
     done = run_cli("ledger", "show", str(ledger_path), "--product-column", "nosuch")
     assert done.returncode == 2 and done.stdout == "" and done.stderr.strip().endswith(
         "no series has a product column 'nosuch' (the key columns: product, region); name it with --product-column")
+    # a product column from a settings file in the folder: said where the name came from (a trial never typed it)
+    (tmp_path / "pricefold.toml").write_text('[columns]\nproduct = "item"\n')
+    done = subprocess.run([sys.executable, "-m", "pricefold", "ledger", "show", str(ledger_path), "--product", "x"],
+                          capture_output=True, text=True, cwd=tmp_path,
+                          env={**os.environ, "PYTHONPATH": str(Path(__file__).parents[2])})
+    assert "no series has a product column 'item' — the settings file's [columns] product, in the current folder" \
+        in done.stderr
 
 
 def test_ledger_errors_are_one_line(tmp_path):
