@@ -38,7 +38,7 @@ def parquet_schema(path: Path) -> pa.Schema:
 def folder_partitioning(folder: Path):
     """A partitioned folder's columns (``store=007/…``) read as the text of the folder names: inferred, ``007``,
     ``07`` and ``7`` were one number, 7 — three stores one series, two thirds of its rows rejected as duplicates
-    (a trial).  None where no folder is named so."""
+    (a trial).  Where no folder is named so, pyarrow's own "hive" (nothing to read from the names)."""
     import os
 
     import pyarrow.dataset as ds
