@@ -36,7 +36,7 @@ def parquet_schema(path: Path) -> pa.Schema:
 
 
 def folder_partitioning(folder: Path):
-    """A partitioned folder's columns (``store=007/…``) read as the text of the folder names: inferred, ``007``,
+    """A partitioned folder's columns (``store=007/…``) read as the text of the folder names, exactly: inferred, ``007``,
     ``07`` and ``7`` were one number, 7 — three stores one series, two thirds of its rows rejected as duplicates
     (a trial).  Where no folder is named so, pyarrow's own "hive" (nothing to read from the names)."""
     import os
@@ -47,7 +47,12 @@ def folder_partitioning(folder: Path):
         for name in folders:
             if "=" in name:
                 names.setdefault(name.split("=", 1)[0], None)
-    return ds.partitioning(pa.schema([(name, pa.string()) for name in names]), flavor="hive") if names else "hive"
+    if not names:
+        return "hive"
+    # as written, too: not URL-decoded (``North%20East`` and ``North East`` were one series) and no name read as
+    # null (``__HIVE_DEFAULT_PARTITION__`` was, and Arrow failed on it in a traceback)
+    return ds.HivePartitioning(pa.schema([(name, pa.string()) for name in names]), null_fallback="\x00",
+                               segment_encoding="none")
 
 
 def _part_files(folder: Path) -> list[str]:

@@ -192,8 +192,12 @@ def test_a_folders_parts_each_have_its_columns_and_nothing_else_lies_beside_them
     for store in ("007", "07", "7"):
         (stores / f"store={store}").mkdir(parents=True)
         pq.write_table(table, stores / f"store={store}" / "part.parquet")
+    for written in ("North East", "North%20East", "__HIVE_DEFAULT_PARTITION__"):  # not URL-decoded, never null
+        (stores / f"store={written}").mkdir(parents=True)
+        pq.write_table(table, stores / f"store={written}" / "part.parquet")
     data = load(stores, Columns(segments=("store",)))
-    assert sorted(set(data.keys["store"])) == ["007", "07", "7"] and data.n_series == 6
+    assert sorted(set(data.keys["store"])) == ["007", "07", "7", "North East", "North%20East",
+                                               "__HIVE_DEFAULT_PARTITION__"] and data.n_series == 12
     # a part that also holds the folder names' column: one line (Arrow's merge error was a traceback)
     (stores / "store=7" / "part.parquet").unlink()
     pq.write_table(table.append_column("store", pa.array(["7"] * 3)), stores / "store=7" / "part.parquet")
