@@ -174,7 +174,10 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     top_row, top_cook = results.top_row, results.top_cook
     cook_limit = np.maximum(4.0 / np.maximum(counts, 1), thresholds.cook_floor)
     numbers.update(top_row=top_row, top_cook=top_cook, cook_limit=cook_limit)
-    flag("influential-point", has & (top_cook > cook_limit))
+    # Cook's distance divides a residual by the residual variance: both rounding noise on an exact curve, the
+    # product name alone (its place in the fold deal) flagged 40 rows on a line or not (a trial)
+    exact = results.sigma2[np.arange(results.n_series), np.maximum(results.chosen, 0)] <= noise_floor(results)
+    flag("influential-point", has & (top_cook > cook_limit) & ~exact)
 
     if results.controls is not None:  # judged on the fit with the controls held at the plan's values
         vif = np.asarray(results.controls.vif)
@@ -405,12 +408,17 @@ def _fold_spread(results: Results):
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(median > 0, errors[np.arange(n_s), worst] / median, 0.0)
         # held-out errors at rounding level (rows on an exact line: 8e-28 vs 3e-29, "25.6×") say nothing of the
-        # folds: below 1e-20 of the series' largest CV error among its candidates, no ratio is judged
-        scale = np.where(np.isfinite(results.cv_mse), results.cv_mse, -np.inf).max(axis=1)  # -inf: none fitted
-        noise = errors[np.arange(n_s), worst] <= NOISE_SHARE * scale
+        # folds: no ratio is judged
+        noise = errors[np.arange(n_s), worst] <= noise_floor(results)
     return worst, np.where(noise, 0.0, np.nan_to_num(ratio))
 
 
-NOISE_SHARE = 1e-20  # of a series' largest CV error: its held-out errors that small are rounding noise
+NOISE_SHARE = 1e-20  # of a series' largest CV error: errors that small are rounding noise
+
+
+def noise_floor(results: Results) -> np.ndarray:
+    """(S,) ``NOISE_SHARE`` of each series' largest CV error among its candidates (-inf where none was fitted): a
+    chosen curve's errors below it are rounding noise (rows on an exact curve), and ratios of them mean nothing."""
+    return NOISE_SHARE * np.where(np.isfinite(results.cv_mse), results.cv_mse, -np.inf).max(axis=1)
 
 

@@ -273,3 +273,15 @@ def test_unsteady_folds_is_not_raised_on_rounding_noise():
     results, flags = run(price, 1200 - 73 * (price - 1), 3.0)
     errors = results.folds_of(0)[:, results.chosen[0]]
     assert errors.max() < 1e-20 and "unsteady-folds" not in flags
+
+
+def test_influential_point_is_not_raised_on_rounding_noise():
+    """Forty rows exactly on a line (volumes in millionths): Cook's distance divides a rounding-noise residual by a
+    rounding-noise variance, and a trial found such series flagged or not by their product name alone."""
+    price = np.round(np.linspace(2, 4.5, 40), 2)
+    data = fitcore.from_columns({"product": np.array(["line tiny"] * 40, dtype=object)}, price,
+                                (1000 - 150 * price) * 1e-6)  # its name deals the folds that flagged it
+    results = fitcore.fit_batch(data, plan_price=3.3)
+    flags = {f["code"] for f in diagnose(results).flags_of(0)}
+    assert results.top_cook[0] > 0.5  # what the old check judged: above max(4/n, cook_floor)
+    assert results.sigma2[0, results.chosen[0]] < 1e-30 and "influential-point" not in flags
