@@ -69,3 +69,23 @@ async def test_ctrl_c_in_a_note_dialog_leaves_and_a_typed_note_takes_a_second_pr
             await pilot.pause()
             assert app.return_code == 0
         assert not ledger_path.exists() or not ledger_path.read_bytes()
+
+
+async def test_a_ledger_without_its_final_line_end_is_said_so_and_the_next_decision_ends_it(ledger_path):
+    """A trial's screen said "last append was cut off … the next decision moves it to ….torn-<UTC time>" of a ledger
+    that only lacked its final newline — the decision ends the line and counts the batch, no side file."""
+    assert main(["ledger", "accept-unflagged", str(SAMPLE / "results.parquet"), "--ledger", str(ledger_path),
+                 "-q"]) == 0
+    accepted = len(ledger_path.read_text().splitlines())
+    os.truncate(ledger_path, ledger_path.stat().st_size - 1)
+    app = make_app(ledger_path)
+    async with app.run_test(size=(100, 30)) as pilot:
+        session = await started(app, pilot)
+        text = " ".join(screen_text(app).split())
+        assert "ledger.jsonl: line " in text and "the last record has no line end" in text
+        assert "cut off" not in text and "torn-" not in text
+        await pilot.press("h")
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        await pilot.press("enter")
+        await until(pilot, lambda: len(session.book.records) == accepted + 1)
+    assert not list(ledger_path.parent.glob("ledger.jsonl.torn-*"))
