@@ -34,8 +34,8 @@ def file_kind(path: Path) -> tuple[str, str | None]:
         return "parquet", None
     if name.suffix.lower() in CSV_SUFFIXES:
         return "csv", CSV_SUFFIXES[name.suffix.lower()]
-    results = ("; a .json file is a pricefold results file, not data (read it with 'pricefold show' or 'pricefold "
-               "triage')") if name.suffix.lower() == ".json" else ""
+    results = ("; .json is pricefold's results format, not a data format (a results file is read with 'pricefold "
+               "show' or 'pricefold triage')") if name.suffix.lower() == ".json" else ""
     packed = {".bz2": "bzip2", ".xz": "xz", ".zip": "zip", ".zst": "zstd"}.get(name.suffix.lower())
     if packed:  # the name says how it is compressed: only gzip is read (``textfile.OTHER_COMPRESSIONS``)
         results = f"; {packed}-compressed: decompress it first (only gzip is read)"

@@ -117,8 +117,8 @@ def test_unknown_extension(tmp_path):
             load(tmp_path / name)
     results = tmp_path / "r.json"  # a results file given as data (a trial): said what it is
     results.write_text('{"schema":"pricefold-results/1"}')
-    with pytest.raises(DataError, match=r"got 'r\.json'; a \.json file is a pricefold results file, not data \(read it "
-                                        r"with 'pricefold show' or 'pricefold triage'\)"):
+    with pytest.raises(DataError, match=r"got 'r\.json'; \.json is pricefold's results format, not a data format \(a "
+                                        r"results file is read with 'pricefold show' or 'pricefold triage'\)"):
         load(results)
 
 
