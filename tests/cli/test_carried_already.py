@@ -3,22 +3,17 @@ every later ``ledger carry``, never "left for a human" (trials found a plain car
 counting the revised series as left, while ``show --ledger`` said it stood accepted (carried))."""
 from __future__ import annotations
 
-import csv
 
 import pytest
 
 from pricefold.cli import main
-from tests.cli.test_cycle import MOVER, first_cycle_signed, histories, write_redated, write_weeks
+from tests.cli.test_cycle import MOVER, histories, signed_then_next_rows, write_redated
 
 
 @pytest.mark.parametrize("suffix", [".json", ".parquet"])
 def test_a_series_carried_over_a_revised_history_counts_as_carried_already(tmp_path, capsys, suffix):
     book = tmp_path / "ledger.jsonl"
-    first_cycle_signed(tmp_path, book)
-    signed = len(histories(book))
-    write_weeks(tmp_path / "c2.csv", 44)
-    with open(tmp_path / "c2.csv", newline="") as handle:
-        header, *rows = list(csv.reader(handle))
+    signed, header, rows = signed_then_next_rows(tmp_path, book)
     write_redated(tmp_path / "redated.csv", header, rows)
     results = tmp_path / f"r2{suffix}"
     assert main(["fit", str(tmp_path / "redated.csv"), "--date", "week", "--plan-price", "2.3", "--degrees", "0-1",

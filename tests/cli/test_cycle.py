@@ -58,6 +58,16 @@ def first_cycle_signed(tmp_path, book) -> dict:
     return first
 
 
+def signed_then_next_rows(tmp_path, book) -> tuple[int, list, list]:
+    """The first cycle signed into ``book`` (``first_cycle_signed``) and the second cycle's 44 weeks written to
+    ``c2.csv``: (the series the ledger holds, the header, the rows)."""
+    first_cycle_signed(tmp_path, book)
+    write_weeks(tmp_path / "c2.csv", 44)
+    with open(tmp_path / "c2.csv", newline="") as handle:
+        header, *rows = list(csv.reader(handle))
+    return len(histories(book)), header, rows
+
+
 def write_redated(path, header: list, rows: list) -> None:
     """``rows`` with the mover's signed weeks (to 2025-10-06) a day later: its history revised, still fitting."""
     for row in rows:
@@ -410,11 +420,7 @@ def test_a_revised_history_is_carried_only_on_request_and_a_reordered_file_is_no
     backtests into passes (carried); a file sorted by price held back every unchanged series as revised; and a
     carry over a revised history left no trace in the ledger."""
     book = tmp_path / "ledger.jsonl"
-    first_cycle_signed(tmp_path, book)
-    signed = len(histories(book))
-    write_weeks(tmp_path / "c2.csv", 44)
-    with open(tmp_path / "c2.csv", newline="") as handle:
-        header, *rows = list(csv.reader(handle))
+    signed, header, rows = signed_then_next_rows(tmp_path, book)
     with open(tmp_path / "sorted.csv", "w", newline="") as handle:  # the same rows, by price within each series
         csv.writer(handle).writerows([header, *sorted(rows, key=lambda row: (row[0], row[2]))])
     second = fit(tmp_path / "sorted.csv", tmp_path / "r2.json", book)
