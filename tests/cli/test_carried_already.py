@@ -3,7 +3,6 @@ every later ``ledger carry``, never "left for a human" (trials found a plain car
 counting the revised series as left, while ``show --ledger`` said it stood accepted (carried))."""
 from __future__ import annotations
 
-
 import pytest
 
 from pricefold.cli import main
