@@ -160,7 +160,7 @@ def cut_off_text(book) -> str:
     """'K.jsonl's last append was cut off: line 2: incomplete batch (…), not counted; the next decision moves it
     to K.jsonl.torn-<UTC time>' — the reader's own words (as every command prints them), for the screen."""
     name = clean(book.path.name)
-    if getattr(book, "unended", False):  # a whole last record without its line end: ended, not moved aside
+    if book.unended:  # a whole last record without its line end: ended, not moved aside
         return f"{name}: {printable(str(book.notes[0]))}"
     said = [printable(str(note)) for note in book.notes]
     if all("blank line" in note for note in said):  # an editor's save: the note says where they go
