@@ -162,7 +162,10 @@ class TriageSession(Deciding, Standing, ListState):
         """Whether a series ``changed`` (index → id) now stands stale on a decision the screen's live backtest (its
         fit of the data, against this ledger) did not test: made on other data after it ran.  A results file's own
         backtest is what it is (``due.changed_since_fit`` says so); it is not run again here."""
-        if self.backtest is None or not self.results.rows_loaded or not hasattr(self.backtest, "decision"):
+        if self.backtest is None or not self.results.rows_loaded:
+            return False
+        from fitcore.ledger.backtest import Backtest  # (loaded with the backtest itself)
+        if not isinstance(self.backtest, Backtest):  # a results file's own (``StoredBacktest``)
             return False
         for s, sid in changed.items():
             current = self.histories[sid].current
