@@ -48,6 +48,11 @@ def run_fit_dask(args, run) -> int:
         disconnect(client)
     if run.plan_file and total["plan_matched"] < _plan_rows(run.plan_file):
         print(f"warning: {run.plan_file} names series that are not in the data", file=sys.stderr)
+    from fitcore.data.loader import column_names, unread_columns, unread_columns_note
+    unread = unread_columns(column_names(args.data, run.sep, run.columns.needed), run.columns)
+    note = unread_columns_note(args.data, unread, run.columns)
+    if note:
+        print(note, file=sys.stderr)
     if run.plan_file:
         from fitcore.data.plan import unused_columns_note
         unused = unused_columns_note(run.plan_file, tuple(run.columns.keys), tuple(run.columns.controls),
@@ -65,7 +70,7 @@ def run_fit_dask(args, run) -> int:
     chosen = {c.name: total["chosen"].get(c.name, 0) for c in candidates_for(run.settings)} | {"none": total["none"]}
     flags = {code: total["flags"][code] for code in CODES if code in total["flags"]}
     print(summary_line(total["series"], total["rows"], chosen, flags, total["clean"],
-                       f"on {total['workers']} Dask workers in {time.perf_counter() - started:.2f} s",
+                       f"on {total['workers']} Dask worker{'s' * (total['workers'] != 1)} in {time.perf_counter() - started:.2f} s",
                        f"{args.output}/ ({total['partitions']} parts)"), file=sys.stderr)
     if missed:
         print(f"ledger: none of its series is in these results (head {book.head_text[:20]}…)", file=sys.stderr)

@@ -142,7 +142,7 @@ def _fit_invented() -> None:
 
 def _fit_locally(args, run, ahead) -> int:
     from fitcore import fit_batch
-    from fitcore.data.loader import load_with_rejects
+    from fitcore.data.loader import load_with_rejects, unread_columns_note
     from fitcore.data.plan import plan_keywords, unused_columns_note
     from fitcore.data.rejects import rejects_path, write_rejects
     from fitcore.outputs import Batch, remove_own
@@ -200,7 +200,7 @@ def _fit_locally(args, run, ahead) -> int:
         most = 2 * len(rejects) > read  # then where the first is and why (its cell read again from the file)
         print(rejects_line(rejects.reasons, target, read, first_words(rejects, run.columns) if most else ""),
               file=sys.stderr)
-    for warning in (free, unplanned, unused):  # warnings too
+    for warning in (unread_columns_note(rejects.path, rejects.unread, run.columns), free, unplanned, unused):  # warnings too
         if warning:
             print(warning, file=sys.stderr)
     if not args.quiet:

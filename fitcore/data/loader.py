@@ -67,7 +67,7 @@ def load_with_rejects(path: str | Path, columns: Columns = Columns(), *,
     why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date,
                           controls=columns.controls)
     bad = np.flatnonzero(~usable)
-    rejects = Rejects(path, kind, delimiter, rows.line[bad], why[bad].tolist())
+    rejects = Rejects(path, kind, delimiter, rows.line[bad], why[bad].tolist(), rows.unread)
     if len(bad) == rows.n_rows:
         raise no_usable_rows(rejects, columns)
     keep = np.flatnonzero(usable) if len(bad) else slice(None)  # a clean file is not copied
@@ -176,7 +176,7 @@ def read_rows(path: Path, columns: Columns, sep: str | None = None, rows_are: st
             raise DataError("this is a pricefold results file, not data: fit the data file it was fitted from, "
                             "or read it with 'pricefold show' or 'pricefold triage'", path=str(path))
         check_columns(path, schema.names, columns)
-        rows, delimiter, found = read_parquet_rows(path, columns, schema), None, "none"
+        rows, delimiter, found, names = read_parquet_rows(path, columns, schema), None, "none", schema.names
     else:
         from .read_csv import read_csv_rows
         check_text(path)
@@ -186,10 +186,39 @@ def read_rows(path: Path, columns: Columns, sep: str | None = None, rows_are: st
             raise DataError("expected a header line naming the columns, found an empty first line", path=str(path),
                             line=1)
         check_columns(path, header, columns)
-        rows, found = read_csv_rows(path, columns, delimiter, header), "only a header"
+        rows, found, names = read_csv_rows(path, columns, delimiter, header), "only a header", header
     if rows.n_rows == 0:
         raise DataError(f"expected at least one {rows_are}, found {found}", path=str(path))
+    rows.unread = unread_columns(names, columns)
     return rows, kind, delimiter
+
+
+def column_names(path: Path, sep: str | None = None, wanted: list[str] = ()) -> list[str]:
+    """The column names of a CSV/TSV or Parquet file or folder (``wanted``: names that tell its delimiter)."""
+    check_file(path)
+    kind, preferred = file_kind(path)
+    if kind == "parquet":
+        from .read_parquet import parquet_names
+        return parquet_names(path)
+    return split_header(header_line(path), sep or sniff_delimiter(path, list(wanted), preferred))
+
+
+def unread_columns(names, columns: Columns) -> tuple[str, ...]:
+    """The columns of ``names`` no role of ``columns`` reads (blank names left out: a trailing delimiter's)."""
+    return tuple(name for name in dict.fromkeys(names) if name.strip() and name not in columns.needed)
+
+
+def unread_columns_note(path: Path, unread: tuple[str, ...], columns: Columns, shown: int = 8) -> str:
+    """One line naming the data file's columns no role reads, or '' (every column read).  Without a segment,
+    the rows of a product are one series whatever another column says: a region column left out merges the
+    regions' rows into one curve, without a word otherwise (with a date, their rows would at least clash)."""
+    from ..text import clean
+    if not unread:
+        return ""
+    names = ", ".join(map(quoted, unread[:shown])) + (f" and {len(unread) - shown} more" if len(unread) > shown else "")
+    merged = "" if columns.segments else (f"; every row of a {columns.product} is one series whatever these say "
+                                          "(--segment COL splits them)")
+    return f"note: {clean(str(path))}: data column{'s' * (len(unread) > 1)} not used: {names}{merged}"
 
 
 def delimiter_of(path: Path, columns: Columns, sep: str | None = None) -> str:

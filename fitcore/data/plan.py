@@ -8,7 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from .dataset import Dataset
-from .loader import Columns, read_rows
+from .loader import Columns, column_names, read_rows
 from .plan_checks import checked_rows, repeated_series, unknown_key
 
 PLAN_DATE = "plan_date"
@@ -43,7 +43,7 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
     import pandas as pd  # imported here, not with the module: a fit reads its file while pandas loads
     path = Path(path)
     keys = list(data.key_names)
-    present = set(_header_names(path, sep, [*keys, "plan_price"])) if controls or season else set()
+    present = set(column_names(path, sep, [*keys, "plan_price"])) if controls or season else set()
     given = tuple(name for name in controls if name in present)
     dated = season and PLAN_DATE in present
     columns = Columns(product=keys[0], segments=tuple(keys[1:]), price="plan_price", volume="plan_price",
@@ -78,18 +78,6 @@ def read_plan(data: Dataset, path: str | Path, sep: str | None = None, *, partia
                 spread(rows.date[0], np.datetime64("NaT")) if dated else None)
 
 
-def _header_names(path: Path, sep: str | None, wanted: list[str]) -> list[str]:
-    """The column names of a plan file (which optional columns it has)."""
-    from .loader import file_kind
-    from .textfile import check_file, header_line, sniff_delimiter, split_header
-    check_file(path)
-    kind, preferred = file_kind(path)
-    if kind == "parquet":
-        from .read_parquet import parquet_names
-        return parquet_names(path)
-    return split_header(header_line(path), sep or sniff_delimiter(path, wanted, preferred))
-
-
 def unused_columns_note(path: str | Path, keys: tuple[str, ...], controls: tuple[str, ...] = (), season: bool = False,
                         sep: str | None = None) -> str:
     """One line naming the plan file's columns a fit with these ``keys``, ``controls`` and ``season`` does not read,
@@ -98,7 +86,7 @@ def unused_columns_note(path: str | Path, keys: tuple[str, ...], controls: tuple
     weeks is silently fitted as regular ones."""
     from ..text import clean, quoted
     path = Path(path)
-    names = _header_names(path, sep, [*keys, "plan_price"])
+    names = column_names(path, sep, [*keys, "plan_price"])
     read = {*keys, "plan_price", *controls, *([PLAN_DATE] if season else [])}
     why: dict[str, list[str]] = {}
     for name in dict.fromkeys(names):

@@ -24,13 +24,15 @@ from .textfile import open_text
 
 @dataclass(frozen=True)
 class Rejects:
-    """Rows that could not be used: their lines and reasons, and where they came from."""
+    """Rows that could not be used: their lines and reasons, and where they came from; and the file's columns
+    no role reads (``unread``)."""
 
     path: Path
     kind: str
     delimiter: str | None
     lines: np.ndarray
     reasons: list
+    unread: tuple = ()
 
     def __len__(self) -> int:
         return len(self.lines)

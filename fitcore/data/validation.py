@@ -37,6 +37,7 @@ class RawRows:
     date", (N,) bool "a date outside what datetime64[ns] holds") or None.
     ``broken``: row index → reason, for rows whose line could not be split into the header's fields
     (``EMPTY_LINE``: nothing, or white space only, on it).
+    ``unread``: the file's columns no role reads (``read_rows``' note of them).
     """
 
     line: np.ndarray
@@ -44,6 +45,7 @@ class RawRows:
     numbers: dict
     date: tuple | None = None
     broken: dict = field(default_factory=dict)
+    unread: tuple = ()
 
     @property
     def n_rows(self) -> int:

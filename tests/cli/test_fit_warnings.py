@@ -116,7 +116,7 @@ def test_the_first_rejected_line_is_written_as_an_editor_counts_it(tmp_path, cap
     for row in rows[1997:]:  # over half rejected, so the first is said
         row["price"] = "n/a"
     code, said = fit(capsys, write(tmp_path / "d.csv", rows), "-o", tmp_path / "r.parquet")
-    (line,) = [text for text in said if "rejected" in text]
+    (line,) = [text for text in said if "rows rejected" in text]
     assert code == 0 and "the first at line 1999, column 'price'" in line, line
 
 

@@ -89,6 +89,6 @@ def test_a_plan_column_the_fit_does_not_read_is_said_once(tmp_path, capsys, opti
     Before: nothing said."""
     plan = SAMPLE / "plan.csv"
     code, err = said(capsys, tmp_path, SAMPLE / "wholesale.csv", plan, *options)
-    notes = [line for line in err if line.startswith("note: ")]
+    notes = [line for line in err if line.startswith(f"note: {plan}")]
     assert code == 0 and notes == ([note.format(plan=plan)] if note else [])
     assert note is None or note.format(plan="sample/plan.csv") in README
