@@ -115,12 +115,31 @@ def row_scores(errors: np.ndarray, offsets: np.ndarray, w: np.ndarray | None, mo
     def per_series(values):
         return segment_sums(values.T.ravel(), bounds).reshape(n_c, -1).T
 
+    if w is not None:
+        return _weighted_row_scores(errors, counts, w, per_series, mom)
     n = np.maximum(counts, 1)[:, None].astype(float)
     with np.errstate(invalid="ignore", over="ignore"):  # unavailable cells may hold inf; they are masked later
         mean = per_series(errors) / n
         spread = per_series((errors - np.repeat(mean, counts, axis=0)) ** 2)
     se = np.sqrt(spread / np.maximum(n - 1, 1) / n)
-    press = per_series(errors if w is None else errors * w[:, None])
+    press = per_series(errors)
+    return Scores(errors, mean, se, press, mom.tss)
+
+
+def _weighted_row_scores(errors, counts, w, per_series, mom: Moments) -> Scores:
+    """Leave-one-out with weights: the weighted mean of the held-out squared errors, m = Σw·e²/Σw, and
+    its standard error √(n/(n − 1)·Σw²(e² − m)²)/Σw over the n rows of positive weight (with equal
+    weights, the unweighted mean and sd/√n); a row of weight 0 counts for nothing, whatever its error."""
+    weight = w[:, None]
+    counted = weight > 0
+    with np.errstate(invalid="ignore", over="ignore"):  # unavailable cells may hold inf; they are masked later
+        weighted = np.where(counted, weight * errors, 0.0)
+        total = per_series(np.broadcast_to(weight, errors.shape))
+        n = per_series(np.broadcast_to(counted, errors.shape).astype(float))
+        press = per_series(weighted)
+        mean = press / np.where(total > 0, total, 1.0)
+        apart = np.where(counted, weight * (errors - np.repeat(mean, counts, axis=0)), 0.0)
+        se = np.sqrt(per_series(apart ** 2) * n / np.maximum(n - 1, 1)) / np.where(total > 0, total, 1.0)
     return Scores(errors, mean, se, press, mom.tss)
 
 
