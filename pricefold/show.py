@@ -263,6 +263,12 @@ def control_lines(record: dict, binary=()) -> list[str]:
     return out
 
 
+def weighting(column: str) -> str:
+    """What a weighted fit's numbers mean, said beside them."""
+    return (f"weighted by column {clean(column)}: rows of weight 0 count for nothing; the interval is for a week "
+            "weighing as much as the series' average row of positive weight")
+
+
 def slope(plan: dict) -> str:
     """The elasticity at the plan price, where it means something: not at a volume at or below zero."""
     if plan["volume"] is not None and plan["volume"] <= 0:
@@ -270,11 +276,12 @@ def slope(plan: dict) -> str:
     return f"elasticity {number(plan['elasticity'], two_places)}"
 
 
-def detail(record: dict, binary=(), label: str | None = None) -> str:
+def detail(record: dict, binary=(), label: str | None = None, weight: str | None = None) -> str:
     """One series in full; ``binary``: the 0/1 controls of the results (the header's settings); ``label``: its key
-    as the caller shows it (else ``key_text``)."""
+    as the caller shows it (else ``key_text``); ``weight``: the weight column of a weighted fit."""
     lo, hi = record["price_range"]
     out = [f"{label or key_text(record['key'])} — {record['n']} observations, prices {money(lo)}–{money(hi)}",
+           *([weighting(weight)] if weight else []),
            f"chosen: {record['chosen'] or 'none'} ({record['rule']}): {why_chosen(record)}", "",
            f"  {'candidate':<10} {'CV MSE':>12} {'± SE':>10} {'Q²':>6} {'R²':>6}"]
     for c in record["candidates"]:

@@ -198,7 +198,9 @@ def weights_text(settings: dict) -> str:
     """'none (every row counts alike)', or the weight column: a weighted fit is another model (a trial's report of
     one did not say it was weighted)."""
     column = (settings.get("columns") or {}).get("weight")
-    return f"column <code>{esc(column)}</code>" if column else "none (every row counts alike)"
+    return (f"column <code>{esc(column)}</code> (rows of weight 0 count for nothing; intervals are for a week "
+            "weighing as much as its series' average row of positive weight)" if column else
+            "none (every row counts alike)")
 
 
 def _ledger_facts(report: Report) -> list[tuple[str, str]]:
