@@ -51,7 +51,7 @@ class Chunk:
                 return None
             return array[r0:r1] if order is None else array[r0:r1][order]
 
-        self.price, self.volume, self.weight = take(data.price), take(data.volume), take(raw_weight)
+        self.price, self.volume, self.weight = take(data.price), take(data.volume), take(data.weight)
         self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
         self.n_obs = weighed_counts(self.weight, self.offsets)
         self.w_unit = unit(self.weight, self.offsets)

@@ -211,3 +211,16 @@ def test_intervals_do_not_depend_on_the_unit_of_weight(controls):
         for s in range(base.n_series):
             for c in range(len(base.candidates)):
                 np.testing.assert_allclose(band(other, s, c, prices), band(base, s, c, prices), rtol=1e-9)
+
+
+@pytest.mark.parametrize("folds", [{"folds": 5}, {"folds": 4, "fold_order": "time"}, {"folds": "loo"}])
+def test_chunks_cut_anywhere_give_the_same_weighted_fit(monkeypatch, folds):
+    """A weighted fit with rows of weight 0 cut into many chunks is the fit in one chunk (an invariance)."""
+    from fitcore.fit import engine
+    data = trial_data()
+    settings = fitcore.FitSettings(**folds, **SETTINGS)
+    whole = fitcore.fit_batch(data, settings, plan_price=2.4, threads=1)
+    monkeypatch.setattr(engine, "CHUNK_ROWS", 150)  # a chunk a series or two
+    cut = fitcore.fit_batch(data, settings, plan_price=2.4, threads=1)
+    for name in ("chosen", "cv_mse", "cv_se", "fold_err", "plan_lo", "plan_hi", "sigma2", "top_cook", "top_row"):
+        np.testing.assert_array_equal(getattr(cut, name), getattr(whole, name), err_msg=name)
