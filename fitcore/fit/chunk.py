@@ -54,7 +54,7 @@ class Chunk:
         self.price, self.volume, self.weight = take(data.price), take(data.volume), take(data.weight)
         self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
         self.n_obs = weighed_counts(self.weight, self.offsets)
-        self.w_unit = unit(self.weight, self.offsets)
+        self.w_unit = unit(self.weight, self.offsets, self.n_obs)
         self.weight_reason = np.zeros(len(self.counts), np.int8)  # weights that leave nothing to fit
         with np.errstate(over="ignore", invalid="ignore"):
             w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)

@@ -33,15 +33,17 @@ def relative(weight: np.ndarray | None, offsets: np.ndarray) -> np.ndarray | Non
     return weight / np.repeat(unit(weight, offsets), np.diff(offsets))
 
 
-def unit(weight: np.ndarray | None, offsets: np.ndarray) -> np.ndarray:
-    """(S,) each series' mean weight over its rows of positive weight: the weight of the planned week.
+def unit(weight: np.ndarray | None, offsets: np.ndarray, counts: np.ndarray | None = None) -> np.ndarray:
+    """(S,) each series' mean weight over its rows of positive weight (``counts``: their number, if known):
+    the weight of the planned week.
 
     1 unweighted, and for a series whose weights are all 0 or whose sum overflows: it has no model
     (``reasons.NO_WEIGHT``, ``WEIGHT_OVERFLOW``)."""
     if weight is None:
         return np.ones(len(offsets) - 1)
+    counts = weighed_counts(weight, offsets) if counts is None else counts
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        mean = segment_sums(weight, _bounds(offsets))[:, 0] / weighed_counts(weight, offsets)
+        mean = segment_sums(weight, _bounds(offsets))[:, 0] / counts
     return np.where(np.isfinite(mean) & (mean > 0), mean, 1.0)
 
 
