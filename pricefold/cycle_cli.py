@@ -181,7 +181,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         shown = looks_shown([record], like) or {0: told_apart([key_parts(record["key"])], beside)[0]}
         label = SEPARATOR.join(shown[0])
         weight = ((header or {}).get("settings", {}).get("columns") or {}).get("weight")
-        lines = [detail(record, binary, label, weight), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
+        lines = [detail(record, binary, label, weight), "",
+                 f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
         alike = like.get(series_id(record["key"]))
         if alike is not None:
             lines.append("  " + alike_line(record["key"], alike, book, ledger_path))

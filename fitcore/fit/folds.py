@@ -317,8 +317,8 @@ def fold_ids(offsets: np.ndarray, settings, **rows) -> np.ndarray:
 
 def dataset_rows(data) -> dict:
     """A ``Dataset``'s weights, key hashes and rows as ``fold_ids`` and ``split_indices`` take them."""
-    return {"weight": data.weight, "key_hash": data.key_hash, "date": data.date, "price": data.price, "volume": data.volume,
-            "more": deal_columns(data)}
+    return {"weight": data.weight, "key_hash": data.key_hash, "date": data.date, "price": data.price,
+            "volume": data.volume, "more": deal_columns(data)}
 
 
 def deal_columns(data) -> list[np.ndarray]:

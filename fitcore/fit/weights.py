@@ -7,9 +7,9 @@ as much as the series' average row of positive weight (``unit``): σ² and
 (XᵀWX)⁻¹ are reported as those of the weights over that average (``relative``,
 which average 1), and every interval is σ²·(1 + xᵀ(XᵀWX)⁻¹x) of those: the
 same for weights in any unit.  The fits themselves take the weights as given
-(a curve does not depend on their unit).
-A row of weight 0 tells the fit nothing: it is no observation
-(``weighed_counts``), and no fold holds it out (``folds``).
+(a curve does not depend on their unit).  A row of weight 0 tells a fit
+nothing: it is no observation (``weighed_counts``), and no fold holds it out
+(``folds``).
 """
 from __future__ import annotations
 

@@ -1,7 +1,8 @@
 """A curve fitted with controls, away from its plan price: the interval signed, exported, backtested and drawn.
 
 Reference: statsmodels ``WLS`` on [1, the price terms, the controls] and
-``get_prediction(..., weights=the mean positive weight).summary_frame(alpha=0.05)`` ``obs_ci_lower``/``obs_ci_upper`` at the point
+``get_prediction(..., weights=the mean positive weight).summary_frame(alpha=0.05)``
+``obs_ci_lower``/``obs_ci_upper`` at the point
 [1, the price terms at p, the plan's control values] (the log families fitted to ln volume, the bounds
 exponentiated), at three prices a series: its lowest, the middle of its range and 10% above its highest.
 One control (a 0/1 promotion) alone, and with one season pair.
