@@ -54,7 +54,6 @@ class Chunk:
         self.price, self.volume, self.weight = take(data.price), take(data.volume), take(data.weight)
         self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
         self.n_obs = weighed_counts(self.weight, self.offsets)
-        self.w_unit = unit(self.weight, self.offsets, self.n_obs)
         self.weight_reason = np.zeros(len(self.counts), np.int8)  # weights that leave nothing to fit
         with np.errstate(over="ignore", invalid="ignore"):
             w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)
@@ -62,6 +61,7 @@ class Chunk:
                 big = self.sums(self.weight * self.volume * self.volume)
                 self.weight_reason[~np.isfinite(w_sum) | ~np.isfinite(big)] = reasons.WEIGHT_OVERFLOW
                 self.weight_reason[w_sum == 0] = reasons.NO_WEIGHT
+        self.w_unit = unit(self.weight, self.offsets, self.n_obs, w_sum)
         self.w_sum = np.where(w_sum > 0, w_sum, 1.0)
         self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
         self.window = window(self.lo, self.hi)

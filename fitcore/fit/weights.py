@@ -21,7 +21,7 @@ from .segments import segment_sums
 def weighed_counts(weight: np.ndarray | None, offsets: np.ndarray) -> np.ndarray:
     """(S,) int64 each series' rows of positive weight (all its rows when unweighted)."""
     counts = np.diff(offsets).astype(np.int64)
-    if weight is None:
+    if weight is None or not (weight == 0).any():  # the usual case: one comparison, no copy
         return counts
     return segment_sums((weight > 0).astype(np.float64), _bounds(offsets))[:, 0].astype(np.int64)
 
@@ -33,9 +33,10 @@ def relative(weight: np.ndarray | None, offsets: np.ndarray) -> np.ndarray | Non
     return weight / np.repeat(unit(weight, offsets), np.diff(offsets))
 
 
-def unit(weight: np.ndarray | None, offsets: np.ndarray, counts: np.ndarray | None = None) -> np.ndarray:
-    """(S,) each series' mean weight over its rows of positive weight (``counts``: their number, if known):
-    the weight of the planned week.
+def unit(weight: np.ndarray | None, offsets: np.ndarray, counts: np.ndarray | None = None,
+         sums: np.ndarray | None = None) -> np.ndarray:
+    """(S,) each series' mean weight over its rows of positive weight (``counts``: their number, ``sums``:
+    each series' total weight, where known): the weight of the planned week.
 
     1 unweighted, and for a series whose weights are all 0 or whose sum overflows: it has no model
     (``reasons.NO_WEIGHT``, ``WEIGHT_OVERFLOW``)."""
@@ -43,7 +44,7 @@ def unit(weight: np.ndarray | None, offsets: np.ndarray, counts: np.ndarray | No
         return np.ones(len(offsets) - 1)
     counts = weighed_counts(weight, offsets) if counts is None else counts
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        mean = segment_sums(weight, _bounds(offsets))[:, 0] / counts
+        mean = (segment_sums(weight, _bounds(offsets))[:, 0] if sums is None else sums) / counts
     return np.where(np.isfinite(mean) & (mean > 0), mean, 1.0)
 
 
