@@ -158,9 +158,9 @@ def _controlled_covariances(results: Results, block: np.ndarray):
 
 
 def _block_rows(data, block: np.ndarray):
-    """(price, weight or empty, offsets) of the rows of series ``block`` (the weights as the engine fits them,
-    ``weights.relative``), the offsets counted from the
-    first of them: a view where the block is a run of consecutive series (the usual case), else a copy."""
+    """(price, weight or empty, offsets) of the rows of series ``block``, the weights over each series' mean
+    positive weight (``weights.relative``), the offsets counted from the first of them: a view where the block
+    is a run of consecutive series (the usual case), else a copy."""
     weight = np.empty(0) if data.weight is None else data.weight
     if len(block) and block[-1] - block[0] + 1 == len(block) and np.all(np.diff(block) == 1):
         lo, hi = int(data.offsets[block[0]]), int(data.offsets[block[-1] + 1])
