@@ -26,7 +26,7 @@ def elasticity_words(elasticity, volume, price_varied: bool, flat: str | None = 
     if flat is not None:
         where = "" if tied is None else f"; the price effect may sit in {tied}'s fitted term" if tied else \
             "; the price effect may sit in the control price moved with (price-tied)"
-        return f"elasticity 0 by the model's choice, not measured (the chosen curve {flat} is flat{where})"
+        return f"elasticity 0: {flat} is flat (the model's choice, not a measurement){where}"
     if elasticity is None or not math.isfinite(elasticity):
         return "elasticity n/a"
     return f"elasticity {two_places(elasticity)}"

@@ -230,9 +230,10 @@ def share_reads(rival_volume, chosen_volume):
 AT_PLAN, AT_MID = "at the plan price {price}", "at mid-range price"
 WEAK_FIT = ("Cross-validated R² (Q²) is {score}, below {wanted}: price explains little of the volume's "
             "variation.")
-# the chosen curve is flat (no price term): Q² judges the average volume (and any controls), not price
-WEAK_FIT_FLAT = ("Cross-validated R² (Q²) is {score}, below {wanted}: the chosen curve is flat (no price term), "
-                 "so the average volume{controls} predicts held-out volumes poorly.")
+# price never varied: only a flat curve was fitted, and Q² judges the average volume (and any controls), not price
+WEAK_FIT_NO_PRICE = ("Cross-validated R² (Q²) is {score}, below {wanted}: price never varied in this series, so the "
+                     "flat curve (the average volume{controls}) is all there is, and it predicts held-out volumes "
+                     "poorly.")
 
 
 def _near_tie(diag, s):
@@ -265,8 +266,9 @@ def _weak_fit(diag, s):
     if not math.isfinite(score):  # the rows' values are not read: a writer may have freed them already
         return WEAK_FIT_CONSTANT.format(n=f"{int(diag.results.data.counts[s]):,}")
     bar = diag.thresholds.weak_score
-    if flat_chosen(diag.results)[s]:
-        return WEAK_FIT_FLAT.format(score=pct_beside(score, bar), wanted=pct(bar), controls=with_controls(diag.results))
+    if unvaried(diag.results)[s]:
+        return WEAK_FIT_NO_PRICE.format(score=pct_beside(score, bar), wanted=pct(bar),
+                                        controls=with_controls(diag.results))
     return WEAK_FIT.format(score=pct_beside(score, bar), wanted=pct(bar))
 
 
@@ -274,6 +276,11 @@ def flat_chosen(results) -> np.ndarray:
     """(S,) whether each series' chosen curve is flat: a candidate with no price term (one coefficient)."""
     chosen = np.asarray(results.chosen)
     return (chosen >= 0) & (np.asarray(results.lineup.complexity)[np.maximum(chosen, 0)] <= 1)
+
+
+def unvaried(results) -> np.ndarray:
+    """(S,) whether price never varied in each series (one price: nothing measures a response to it)."""
+    return np.asarray(results.price_hi) <= np.asarray(results.price_lo)
 
 
 def with_controls(results) -> str:
