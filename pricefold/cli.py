@@ -211,7 +211,8 @@ def _show(args, keys: dict) -> int:
         print(detail(picked[0], binary, one_label(every, picked[0]["key"])) if len(picked) == 1
               else table(picked, first))
     if len(picked) == 1 and picked[0].get("plan"):
-        print(f"\n{CAUTION}")
+        from fitcore.review.plan_words import caution_of
+        print(f"\n{caution_of(header.get('settings') or {})}")
     if args.product or typed:  # a look-alike is another series: said, not listed with it
         from .show import filter_look_alikes
         for note in filter_look_alikes(every, args.product, products, typed, str(args.results)):
