@@ -181,7 +181,11 @@ def read_rows(path: Path, columns: Columns, sep: str | None = None, rows_are: st
         from .read_csv import read_csv_rows
         check_text(path)
         delimiter = delimiter_of(path, columns, sep)
-        header = split_header(header_line(path), delimiter)
+        first = header_line(path)
+        if first.startswith('{"schema":"pricefold-results/'):
+            raise DataError("this is a pricefold results file (JSON), not data: fit the data file it was fitted from, "
+                            "or read it with 'pricefold show' or 'pricefold triage'", path=str(path))
+        header = split_header(first, delimiter)
         if not [name for name in header if name.strip()]:
             raise DataError("expected a header line naming the columns, found an empty first line", path=str(path),
                             line=1)
@@ -216,7 +220,7 @@ def unread_columns_note(path: Path, unread: tuple[str, ...], columns: Columns, s
     if not unread:
         return ""
     names = ", ".join(map(quoted, unread[:shown])) + (f" and {len(unread) - shown} more" if len(unread) > shown else "")
-    merged = "" if columns.segments else (f"; every row of a {columns.product} is one series whatever these say "
+    merged = "" if columns.segments else (f"; every row of a {clean(columns.product)} is one series whatever these say "
                                           "(--segment COL splits them)")
     return f"note: {clean(str(path))}: data column{'s' * (len(unread) > 1)} not used: {names}{merged}"
 
@@ -226,6 +230,13 @@ def delimiter_of(path: Path, columns: Columns, sep: str | None = None) -> str:
     return sep or sniff_delimiter(path, columns.needed, file_kind(path)[1])
 
 
+def header_names(found: list[str], shown: int = 12, width: int = 40) -> str:
+    """The header's names as an error quotes them: the first ``shown``, each cut at ``width`` characters, and a
+    count of the rest (a results JSON's one line of 1.4 MB was quoted whole)."""
+    names = [quoted(name if len(name) <= width else name[:width - 1] + "…") for name in found[:shown]]
+    return ", ".join(names) + (f" and {len(found) - shown} more" if len(found) > shown else "")
+
+
 def check_columns(path: Path, found: list[str], columns: Columns) -> None:
     """Every needed column present exactly once in the header ``found``, and no name (ignored columns
     too; blank names aside) given twice; else one line naming it."""
@@ -233,7 +244,7 @@ def check_columns(path: Path, found: list[str], columns: Columns) -> None:
         if name not in found:
             close = difflib.get_close_matches(name, found, n=1)
             hint = f"; did you mean {quoted(close[0])}?" if close else ""
-            raise DataError(f"expected a column {quoted(name)}, found {', '.join(map(quoted, found))}{hint}",
+            raise DataError(f"expected a column {quoted(name)}, found {header_names(found)}{hint}",
                             path=str(path), line=1, column=name)
     first: dict[str, int] = {}
     for i, name in enumerate(found):

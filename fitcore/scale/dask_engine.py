@@ -37,6 +37,7 @@ class Piece:
     path: str
     row_group: int | None
     first_line: int  # line (CSV, header = 1) or row number (Parquet, from 1) of the piece's first row
+    folder_keys: tuple = ()  # (column, text) pairs a partitioned folder's names give the file's rows (``region=East``)
 
 
 def pieces_of(path: Path, columns: Columns) -> list[Piece]:
@@ -50,16 +51,24 @@ def pieces_of(path: Path, columns: Columns) -> list[Piece]:
     if not path.is_dir() and file_kind(path)[0] == "csv":
         return [Piece(str(path), None, 2)]
     parquet_names(path)  # one clear error for a folder without Parquet files or an unreadable file
-    files = pq.ParquetDataset(path).files if path.is_dir() else [str(path)]
+    if path.is_dir():  # the files in the order the local loader reads them, each with its folder names' columns
+        import pyarrow.dataset as ds
+
+        from ..data.read_parquet import folder_partitioning
+        fragments = pq.ParquetDataset(path, partitioning=folder_partitioning(path)).fragments
+        files = [(fragment.path, tuple(ds.get_partition_keys(fragment.partition_expression).items()))
+                 for fragment in fragments]
+    else:
+        files = [(str(path), ())]
     out, line = [], 1
-    for name in files:
+    for name, folder_keys in files:
         try:
             meta = pq.ParquetFile(name).metadata
         except (OSError, ValueError) as exc:
             raise DataError(f"not a readable Parquet file ({first_line(exc)})", path=name) from None
-        check_columns(Path(name), meta.schema.to_arrow_schema().names, columns)
+        check_columns(Path(name), [*meta.schema.to_arrow_schema().names, *dict(folder_keys)], columns)
         for group in range(meta.num_row_groups):
-            out.append(Piece(name, group, line))
+            out.append(Piece(name, group, line, folder_keys))
             line += meta.row_group(group).num_rows
     if line == 1:
         raise DataError("expected at least one observation, found none", path=str(path))
@@ -78,7 +87,12 @@ def read_piece(piece: Piece, columns: Columns, n_parts: int, sep: str | None = N
     if piece.row_group is None:
         rows, _, _ = read_rows(Path(piece.path), columns, sep)
     else:
-        table = pq.ParquetFile(piece.path, page_checksum_verification=True).read_row_group(piece.row_group, columns=columns.needed)
+        given = dict(piece.folder_keys)
+        table = pq.ParquetFile(piece.path, page_checksum_verification=True).read_row_group(
+            piece.row_group, columns=[name for name in columns.needed if name not in given])
+        for name, text in given.items():  # the folder's name for every row, as the local loader reads it
+            table = table.append_column(name, pa.DictionaryArray.from_arrays(
+                pa.array(np.zeros(table.num_rows, dtype=np.int32)), pa.array([text], pa.string())))
         rows = raw_from_table(table, columns, piece.first_line + np.arange(table.num_rows, dtype=np.int64))
     why, usable = reasons(rows, columns.price, columns.volume, columns.weight, columns.date, duplicates=False,
                           controls=columns.controls)

@@ -102,6 +102,22 @@ def test_5000_series_in_7_shuffled_files_give_the_local_results(tmp_path, client
     assert len(list(out.glob("part-*.parquet"))) == 7
 
 
+def test_a_folder_partitioned_by_region_gives_the_local_results(tmp_path, client):
+    """The sample written as ``region=East/…`` folders: the region is in the folder names only.  Before, each
+    part was checked alone and the run stopped: "expected a column 'region'"."""
+    import pandas as pd
+    folder = tmp_path / "data"
+    pq.write_to_dataset(pa.Table.from_pandas(pd.read_csv(SAMPLE / "wholesale.csv"), preserve_index=False), folder,
+                        partition_cols=["region"])
+    common = ["--segment", "region", "--date", "week", "--plan", str(SAMPLE / "plan.csv"), "--quiet"]
+    local, out = tmp_path / "local.parquet", tmp_path / "dask.parquet"
+    assert main(["fit", str(folder), *common, "-o", str(local)]) == 0
+    assert main(["fit", str(folder), *common, "-o", str(out), "--engine", "dask",
+                 "--scheduler", client.scheduler.address, "--partitions", "3"]) == 0
+    assert pq.read_table(local).num_rows == 180 * 7
+    assert_same_results(local, out, ["product", "region"])
+
+
 def test_repeated_rows_across_files_are_rejected_as_locally(tmp_path, client):
     folder = tmp_path / "data"
     folder.mkdir()

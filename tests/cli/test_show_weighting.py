@@ -6,8 +6,8 @@ import sys
 from pathlib import Path
 
 TRIAL = Path(__file__).resolve().parents[1] / "reference" / "zero_weights.csv.gz"
-SAID = ("weighted by column w: rows of weight 0 count for nothing; the interval is for a week weighing as much "
-        "as the series' average row of positive weight")
+SAID = ("weighted by column w (weighted least squares: rows of weight 0 count for nothing; intervals are for a week "
+        "weighing as much as its series' average row of positive weight)")
 
 
 def run_cli(*args):

@@ -378,6 +378,12 @@ CASES = [
     # a results file given as data, data given as results: said as such
     Case("fit-parquet-results-as-data", "fit r.parquet -o x.json --quiet", {"d.csv": "good", "r.parquet": "fit:d.csv"},
          2, "r.parquet: this is a pricefold results file, not data"),
+    Case("fit-json-results-as-data", "fit r.csv -o x.json --quiet", R | {"r.csv": "hardlink:r.json"},
+         2, "r.csv: this is a pricefold results file (JSON), not data"),
+    # a header without the needed columns quoted in part: 12 names, each cut at 40 characters (was the whole line)
+    Case("long-header-quoted-in-part", F, {"d.csv": "long_header"}, 2,
+         "expected a column 'product', found 'item', 'measure 0 " + "m" * 29 + "…', "),
+    Case("long-header-counted", F, {"d.csv": "long_header"}, 2, "'measure 10 " + "m" * 28 + "…' and 89 more"),
     Case("ten-megabyte-ignored-cell", F, {"d.csv": "wide_ignored"}, 0, None),
     Case("two-megabyte-key", F, {"d.csv": "wide_key"}, 0, None),
     Case("duplicate-header-names", F, {"d.csv": "dup_header"}, 2, "fields 2 and 4"),

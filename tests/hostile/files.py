@@ -116,6 +116,8 @@ TEXT: dict[str, bytes] = {
     "no_final_newline": GOOD.rstrip("\n").encode(),
     "wide_ignored": _wide_cell(10 * 2 ** 20).encode(),
     "wide_key": _with(GOOD, 4, "k" * (2 * 2 ** 20) + ",1.5,100,2025-01-01\n").encode(),
+    "long_header": ("item," + ",".join(f"measure {i} " + "m" * 60 for i in range(100)) + "\n"
+                    + "a," + ",".join("1" * 100) + "\n").encode(),
     "dup_header": GOOD.replace("product,price,volume,week", "product,price,volume,price", 1).encode(),
     "dup_ignored": ("product,price,volume,week,x,x\n" + "".join(
         line + ",1,2\n" for line in GOOD.splitlines()[1:])).encode(),
