@@ -7,7 +7,7 @@ coordinate, evaluates the polynomial (``basis.horner``) and builds the
 interval; the family's hooks say what the polynomial means:
 
 - ``candidates(settings)``: its candidates (names, complexity), or none when switched off;
-- ``x(price)``: its regressor; ``serves(chunk)``: the series it can fit (``unserved_reason`` for the others);
+- ``x(price)``: its regressor, ``price_of(x)`` the inverse; ``serves(chunk)``: the series it can fit (``unserved_reason`` for the others);
 - ``fit(chunk, candidates)``: every candidate on every fold of a chunk's series (``Fitted``),
   through the compiled lanes; ``fold_errors`` / ``row_errors``: its held-out errors in volume
   units, per fold or per left-out row (the fold scheme picks one);
@@ -90,8 +90,13 @@ class Family:
         raise NotImplementedError
 
     def x(self, price):
-        """The family's regressor at ``price``."""
+        """The family's regressor at ``price``: increasing in it, as every volume is in its fitted value, so
+        a curve rises with price where its polynomial rises in t (``review.rising``)."""
         return price
+
+    def price_of(self, x):
+        """The price whose regressor is ``x`` (the inverse of ``x``)."""
+        return x
 
     def serves(self, chunk) -> np.ndarray | None:
         """(S,) the series of a chunk the family can fit; None: all."""
