@@ -314,7 +314,7 @@ def _shape(results: Results) -> dict:
             out["rising_share"][rows], out["rising_slope"][rows] = up.share, up.steepest
             out["rising_from"][rows], out["rising_to"][rows] = up.start, up.stop
             price = mid[:, None] + half[:, None] * grid
-            volume, _ = family.on_grid(*curves, price, np.broadcast_to(grid, price.shape))
+            volume = family.on_grid(*curves, price, np.broadcast_to(grid, price.shape))
             lowest, lowest_at = np.empty(len(rows)), np.empty(len(rows))
             lowest_scan(volume, price, lowest, lowest_at)
             out["lowest_volume"][rows], out["lowest_at"][rows] = lowest, lowest_at

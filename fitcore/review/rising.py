@@ -69,13 +69,33 @@ def real_roots(coef: np.ndarray) -> np.ndarray:
         if not len(rows):
             continue
         c = coef[rows, :d + 1]
-        companion = np.zeros((len(rows), d, d))
-        companion[:, np.arange(1, d), np.arange(d - 1)] = 1.0  # ones below the diagonal
-        companion[:, :, -1] = -c[:, :d] / c[:, d:]
-        roots = np.linalg.eigvals(companion)
-        real = np.where(np.abs(roots.imag) <= IMAGINARY, roots.real, np.nan)
+        real = _quadratic_roots(c) if d == 2 else _companion_roots(c)
         out[rows, :d] = np.where((real >= -1) & (real <= 1), real, np.nan)
     return np.sort(out, axis=1)  # NaN sorts last
+
+
+def _companion_roots(c: np.ndarray) -> np.ndarray:
+    """(m, d) the real roots (NaN for the others) of polynomials of degree d (``c`` (m, d + 1)), as the
+    eigenvalues of their companion matrices."""
+    m, d = c.shape[0], c.shape[1] - 1
+    companion = np.zeros((m, d, d))
+    companion[:, np.arange(1, d), np.arange(d - 1)] = 1.0  # ones below the diagonal
+    companion[:, :, -1] = -c[:, :d] / c[:, d:]
+    roots = np.linalg.eigvals(companion)
+    return np.where(np.abs(roots.imag) <= IMAGINARY, roots.real, np.nan)
+
+
+def _quadratic_roots(c: np.ndarray) -> np.ndarray:
+    """``_companion_roots`` of quadratics in closed form (100k quadratics: 2 ms CPU, 38 ms as 2 × 2 eigenvalues): the root of larger
+    size from −(b + sign(b)·√disc)/2a, the other from their product c/a, so neither suffers cancellation."""
+    c0, b, a = c[:, 0], c[:, 1], c[:, 2]
+    disc = b * b - 4 * a * c0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        q = -(b + np.copysign(np.sqrt(np.maximum(disc, 0.0)), b)) / 2
+        near = np.where(disc >= 0, q / a, -b / (2 * a))  # a complex pair: its real part, if near the line
+        far = np.where(disc >= 0, np.where(q != 0, c0 / q, 0.0), near)
+        real = (disc >= 0) | (np.sqrt(np.maximum(-disc, 0.0)) / (2 * np.abs(a)) <= IMAGINARY)
+    return np.where(real[:, None], np.stack([near, far], axis=1), np.nan)
 
 
 def rising_pieces(coef: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -100,18 +120,16 @@ def rising_pieces(coef: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         left = np.where(unclear[:, j], left, up[:, j])
         right = np.where(unclear[:, -1 - j], right, up[:, -1 - j])
     joined = up | (unclear & before & after)
-    first = joined & ~np.concatenate([np.zeros((n, 1), bool), joined[:, :-1]], axis=1)
-    which = np.cumsum(first, axis=1) - 1
+    edge = np.zeros((n, 1), bool)
+    rows, first = np.nonzero(joined & ~np.concatenate([edge, joined[:, :-1]], axis=1))  # each stretch's first piece
+    last = np.nonzero(joined & ~np.concatenate([joined[:, 1:], edge], axis=1))[1]  # and last, in the same order
+    lo, hi = lo[rows, first], hi[rows, last]
+    kept = hi - lo >= ROOT_ROUNDING  # shorter: a tangency from below
+    rows, lo, hi = rows[kept], lo[kept], hi[kept]
+    rank = np.arange(len(rows)) - np.searchsorted(rows, rows)  # the stretch's place in its series
     start, stop = np.full((n, MAX_STRETCHES), np.nan), np.full((n, MAX_STRETCHES), np.nan)
-    for k in range(MAX_STRETCHES):
-        mine = joined & (which == k)
-        start[:, k] = np.where(mine, lo, np.inf).min(axis=1)
-        stop[:, k] = np.where(mine, hi, -np.inf).max(axis=1)
-    real = stop - start >= ROOT_ROUNDING  # shorter: a tangency from below, or no stretch at all
-    order = np.argsort(~real, axis=1, kind="stable")  # the real ones first, in their order
-    keep = np.take_along_axis(real, order, axis=1)
-    return (np.where(keep, np.take_along_axis(start, order, axis=1), np.nan),
-            np.where(keep, np.take_along_axis(stop, order, axis=1), np.nan))
+    start[rows, rank], stop[rows, rank] = lo, hi
+    return start, stop
 
 
 def rising(family, coef, mid, half, smear, lo, hi) -> Rising:
@@ -130,8 +148,10 @@ def rising(family, coef, mid, half, smear, lo, hi) -> Rising:
         start = np.clip(family.price_of(mid[:, None] + half[:, None] * t_start), lo[:, None], hi[:, None])
         stop = np.clip(family.price_of(mid[:, None] + half[:, None] * t_stop), lo[:, None], hi[:, None])
         share = np.where(ranged, np.nansum(stop - start, axis=1) / np.where(ranged, hi - lo, 1.0), 0.0)
-    bends = real_roots(coef[:, 2:] * (np.arange(2, coef.shape[1]) * np.arange(1, coef.shape[1] - 1))) \
-        if coef.shape[1] > 2 else np.full((n, 0), np.nan)
+    bends = np.full((n, max(coef.shape[1] - 3, 0)), np.nan)  # where p″ = 0, on curves that rise somewhere
+    some = np.flatnonzero(np.isfinite(t_start[:, 0]))
+    if bends.shape[1] and len(some):
+        bends[some] = real_roots(coef[some, 2:] * (np.arange(2, coef.shape[1]) * np.arange(1, coef.shape[1] - 1)))
     inside = ((bends[:, :, None] >= t_start[:, None, :]) & (bends[:, :, None] <= t_stop[:, None, :])).any(axis=2)
     points = np.concatenate([t_start, t_stop, np.where(inside, bends, np.nan)], axis=1)
     where = np.isfinite(points)

@@ -62,6 +62,8 @@ def reference_stretches(curve: np.polynomial.Polynomial, lo: float, hi: float):
     ([-0.8, -0.2, 0.4, 0.9], -1.0, [(-0.8, -0.2), (0.4, 0.9)]),
     ([-1.5, 2.0], -1.0, [(-1.0, 1.0)]),  # roots outside the range: rising throughout
     ([0.3, 0.3, -2.0], -1.0, []),  # the slope touches 0 from below at 0.3: no stretch at all
+    ([0.3, 0.3], -1.0, []),  # the same on a cubic (its slope's roots in closed form)
+    ([0.3, 0.3], 1.0, [(-1.0, 1.0)]),
     ([0.3, 0.3, -2.0], 1.0, [(-1.0, 1.0)]),  # touches 0 from above: one stretch across the tangency
     ([0.3, 0.3, 0.3, 0.3], -1.0, []),  # a fourfold root (found only to ~1e-4): still no stretch
     ([-0.8, 0.4, 0.4, 0.9], -1.0, [(-0.8, 0.9)]),  # a tangency inside a stretch does not split it

@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..basis import mapped, polynomial, power_coefficients, values_and_slopes, window
+from ..basis import mapped, polynomial, power_coefficients, window
 
 
 @dataclass(frozen=True)
@@ -162,13 +162,11 @@ class Family:
             return volume, lo, hi, np.where(volume > 0, elasticity, np.nan)
 
     def on_grid(self, coef, mid, half, smear, price, t_price):
-        """Volume and dV/dprice (n, G) of curves ``coef`` (n, P) at prices (n, G) whose coordinate in
-        each series' price window is ``t_price``; ``mid``, ``half``, ``smear``: (n,)."""
+        """Volume (n, G) of curves ``coef`` (n, P) at prices (n, G) whose coordinate in each series' price
+        window is ``t_price``; ``mid``, ``half``, ``smear``: (n,)."""
         t = self.grid_coordinate(price, t_price, mid[:, None], half[:, None])
-        fitted, fitted_t = values_and_slopes(coef, t)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            volume = self.volume(fitted, smear[:, None])
-            return volume, self.slope(fitted_t, volume, half[:, None], price)
+            return self.volume(polynomial(coef, t), smear[:, None])
 
     def plain(self, coef, mid, half, powers=None):
         """Coefficients of powers of the regressor itself (``basis.power_coefficients``)."""
