@@ -114,9 +114,8 @@ def _flat_price(diag, s):
 
 def _rising(diag, s):
     n = diag.numbers
-    share = n["rising_share"][s]
-    return (f"Fitted volume rises with price over {pct_beside(share, diag.thresholds.rising_share)} of the observed "
-            f"range, {stretches(n['rising_from'][s], n['rising_to'][s])} (slope up to "
+    return (f"Fitted volume rises with price over {pct_beside(n['rising_share'][s], diag.thresholds.rising_share)} "
+            f"of the observed range, {stretches(n['rising_from'][s], n['rising_to'][s])} (slope up to "
             f"{signed(n['rising_slope'][s])} units per 1.00 of price); often promotions or stock-outs "
             f"moving with price.")
 
@@ -131,11 +130,10 @@ def stretches(starts: np.ndarray, stops: np.ndarray) -> str:
     found = [(lo, hi) for lo, hi in zip(starts.tolist(), stops.tolist()) if math.isfinite(lo)]
     if len(found) <= 1:
         return f"within {money(found[0][0])}–{money(found[0][1])}" if found else "nowhere"
-    named = sorted(sorted(found, key=lambda stretch: stretch[0] - stretch[1])[:2])  # the two longest, left to right
-    said = " and ".join(f"{money(lo)}–{money(hi)}" for lo, hi in named)
+    longest = sorted(sorted(found, key=lambda stretch: stretch[0] - stretch[1])[:2])  # the two, left to right
+    named = [f"{money(lo)}–{money(hi)}" for lo, hi in longest]
     more = len(found) - 2
-    if more:
-        said = said.replace(" and ", ", ") + f" (the two longest) and {more} more"
+    said = f"{named[0]}, {named[1]} (the two longest) and {more} more" if more else " and ".join(named)
     return f"in {NUMBER_WORDS.get(len(found), len(found))} stretches: {said}"
 
 
