@@ -2,8 +2,9 @@
 
 References: numpy's ``Polynomial.deriv().roots()`` of each curve, one series at a time (numpy mapping the
 price window onto [-1, 1] itself: ``domain``), and ``Polynomial.deriv()`` on a fine grid (2,000,001 points)
-for the steepest slope; curves made with the roots
-of their derivative chosen, so the stretches are known exactly; the bundled sample's rising series.
+for the steepest slope; curves made with the roots of their derivative chosen, so the stretches are known
+exactly; the bundled sample's rising series.  A test importing ``review.rising`` does so inside it, so the
+sample's tests also run (and fail) on the grid code before it.
 """
 from __future__ import annotations
 
@@ -36,7 +37,7 @@ def curves_with_slope_roots(roots, lead=1.0, mid=5.0, half=2.0):
 
 def one(family, coef, mid=5.0, half=2.0, lo=3.0, hi=7.0):
     """``rising`` of one curve in ``family``'s basis (window ``mid`` ± ``half``) over prices [lo, hi]."""
-    from fitcore.review.rising import rising  # here, not at the top: the sample's tests run on older code too
+    from fitcore.review.rising import rising
     return rising(family, coef, *(np.array([v], dtype=float) for v in (mid, half, 1.0, lo, hi)))
 
 
@@ -137,8 +138,8 @@ def test_the_sample_shares_are_numpys(sample):
         if c < 0 or results.candidates[c].family != "poly" or results.candidates[c].degree < 2:
             continue
         lo, hi = results.price_lo[s], results.price_hi[s]
-        window = [results.basis_mid[s, c] - results.basis_half[s, c], results.basis_mid[s, c] + results.basis_half[s, c]]
-        curve = Poly(results.coef[s, c, :results.candidates[c].complexity], domain=window)
+        mid, half = results.basis_mid[s, c], results.basis_half[s, c]
+        curve = Poly(results.coef[s, c, :results.candidates[c].complexity], domain=[mid - half, mid + half])
         stretches = reference_stretches(curve, lo, hi)
         share = sum(b - a for a, b in stretches) / (hi - lo)
         assert diagnosis.numbers["rising_share"][s] == pytest.approx(share, abs=1e-9)
@@ -171,8 +172,9 @@ def test_a_share_rounds_to_the_nearest_percent_never_to_the_bar():
     numbers = {"rising_share": np.array([0.1296]), "rising_from": np.array([[3.0, 5.0, 8.0]]),
                "rising_to": np.array([[4.0, 5.5, 8.1]]), "rising_slope": np.array([12.0])}
     diag = SimpleNamespace(numbers=numbers, thresholds=Thresholds())
-    assert sentence(diag, 0, "rising").startswith("Fitted volume rises with price over 13% of the observed range, "
-                                                  "in three stretches: 3.00–4.00, 5.00–5.50 (the two longest) and 1 more")
+    assert sentence(diag, 0, "rising").startswith(
+        "Fitted volume rises with price over 13% of the observed range, in three stretches: 3.00–4.00, 5.00–5.50 "
+        "(the two longest) and 1 more")
 
 
 def test_an_overridden_candidate_is_judged_as_diagnose_judges_the_chosen_one(sample):
