@@ -259,11 +259,23 @@ COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger, "triage": ru
             "report": run_report}
 
 
+def half_done(args) -> list[str]:
+    """A line for each step a killed fit left half done beside the results file a command reads (the files there may
+    not belong together; the next fit writing them finishes the step: ``fitcore.outputs.journal``)."""
+    path = getattr(args, "results", None) or (args.source if args.command == "triage" else None)
+    if not isinstance(path, Path):
+        return []
+    from fitcore.outputs import unfinished
+    return unfinished(path)
+
+
 def main(argv: list[str] | None = None) -> int:
     import warnings
 
     from fitcore.errors import PricefoldError
     args = build_parser().parse_args(argv)
+    for line in half_done(args):
+        print(f"pricefold {args.command}: warning: {line}", file=sys.stderr)
     try:
         with warnings.catch_warnings():
             # Floating-point trouble (1e308, 1e-320) is data: the engine masks non-finite values and marks

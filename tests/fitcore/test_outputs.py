@@ -125,12 +125,11 @@ def test_a_symlink_is_written_through_and_stays_a_link(tmp_path):
 
 
 def test_a_clean_run_removes_a_killed_writers_temporary_rejects_file_too(tmp_path):
-    from fitcore.outputs import remove_own
     target = tmp_path / "r.rejects.csv"
     dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
     leftover = tmp_path / f".r.rejects.csv.pricefold-{HOST}-{int(dead.stdout)}-0a1b2c3d.tmp"
     leftover.write_text("product,price,line,reason\n")
-    assert remove_own(target, "rejects") is False and not leftover.exists()
+    assert remove_leftovers(target) == [leftover] and not leftover.exists()
 
 
 def test_a_batch_lands_in_order_or_not_at_all(tmp_path):
@@ -234,6 +233,7 @@ _SIGNAL_MID_BATCH = """
 import os, signal, sys
 from pathlib import Path
 import fitcore.outputs.atomic as atomic
+import fitcore.outputs.batch as batch_module
 first, second, name = Path(sys.argv[1]), Path(sys.argv[2]), sys.argv[3]
 replace = os.replace
 def replace_then_signal(src, dst):
@@ -242,7 +242,7 @@ def replace_then_signal(src, dst):
         os.kill(os.getpid(), getattr(signal, name))
 atomic.os.replace = replace_then_signal
 try:
-    with atomic.Batch() as batch:
+    with batch_module.Batch() as batch:
         batch.add(first, lambda h: h.write(b"new rejects"))
         batch.add(second, lambda h: h.write(b"new results"))
 except KeyboardInterrupt as exc:
