@@ -121,21 +121,24 @@ def _finish(journal: Path, body: dict) -> str:
         for target in done:  # beside the earlier files it would mislead; the one it replaced cannot come back
             _drop(target)
         _drop(journal)
-        return (f"{gone[0]}: a fit killed while putting its files in place (pid {pid}) cannot be finished: the new "
-                f"copy of {', '.join(target.name for target in gone)} is gone; "
+        return (f"warning: {gone[0]}: a fit killed while putting its files in place (pid {pid}) cannot be finished: "
+                f"the new copy of {', '.join(target.name for target in gone)} is gone; "
                 + (f"removed the new {', '.join(target.name for target in done)} it had put in place (the earlier "
                    "one it replaced is lost)" if done else "the earlier files are as they were"))
     for temp, target, inode in renames:
-        if _inode(target) != inode:
+        try:
             os.replace(temp, target)
+        except FileNotFoundError:
+            if _inode(target) != inode:  # else done already (by the killed run, or another run finishing it)
+                raise
     removed = []
     for entry in body["removals"]:
         path = folder / entry["path"]
         if sha256_of(path) == entry["sha256"]:  # unchanged since the batch judged it
-            os.unlink(path)
+            _drop(path)
             removed.append(path.name)
     sync_folder(folder)
-    os.unlink(journal)
+    _drop(journal)
     return (f"note: put in place what a fit killed while doing so (pid {pid}) had written in full: "
             f"{', '.join(target.name for _, target, _ in renames)}"
             + (f"; removed {', '.join(removed)}" if removed else ""))

@@ -54,7 +54,8 @@ def fit(tree: Path, folder: Path, data: Path) -> tuple[float, float]:
 
 def batch(tree: Path, folder: Path) -> str:
     env = {**os.environ, "PYTHONPATH": str(tree)}
-    out = subprocess.run([sys.executable, "-c", BATCH, str(folder)], capture_output=True, text=True, check=True, env=env)
+    out = subprocess.run([sys.executable, "-c", BATCH, str(folder)], capture_output=True, text=True, check=True,
+                         env=env)
     median, low, high = map(float, out.stdout.split())
     return f"{median:.2f} ms (10–90%: {low:.2f}–{high:.2f})"
 
