@@ -211,7 +211,8 @@ def _show(args, keys: dict) -> int:
         print(detail(picked[0], binary, one_label(every, picked[0]["key"])) if len(picked) == 1
               else table(picked, first))
     if len(picked) == 1 and picked[0].get("plan"):
-        print(f"\n{CAUTION}")
+        from fitcore.review.plan_words import caution_of
+        print(f"\n{caution_of(header.get('settings') or {})}")
     if args.product or typed:  # a look-alike is another series: said, not listed with it
         from .show import filter_look_alikes
         for note in filter_look_alikes(every, args.product, products, typed, str(args.results)):
@@ -259,6 +260,20 @@ COMMANDS = {"fit": run_fit, "show": run_show, "ledger": run_ledger, "triage": ru
             "report": run_report}
 
 
+def _not_utf8(value) -> bool:
+    """An argument holding bytes that are not UTF-8 (Python keeps each as a lone surrogate, U+DC80–U+DCFF)."""
+    return isinstance(value, str) and any("\udc80" <= ch <= "\udcff" for ch in value)
+
+
+def one_line(message: str) -> str:
+    """A message as one line: a control character (a line break in a file's name) or a byte that is not UTF-8
+    in it shown as ``text.clean`` shows it (␊, ⟨U+DCFF⟩), the rest as it is (texts in it are cleaned already)."""
+    import re
+
+    from fitcore.text import clean
+    return re.sub("[\x00-\x1f\x7f\ud800-\udfff]", lambda found: clean(found.group()), message)
+
+
 def half_done(args) -> list[str]:
     """A line for each step a killed fit left half done beside the results file a command reads (the files there may
     not belong together; the next fit writing them finishes the step: ``fitcore.outputs.journal``)."""
@@ -274,8 +289,13 @@ def main(argv: list[str] | None = None) -> int:
 
     from fitcore.errors import PricefoldError
     args = build_parser().parse_args(argv)
+    undecodable = next((value for value in (sys.argv[1:] if argv is None else argv) if _not_utf8(value)), None)
+    if undecodable is not None:  # pyarrow and the results' JSON cannot hold it: a traceback, after some work was done
+        print(f"pricefold {args.command}: '{one_line(undecodable)}': holds bytes that are not UTF-8; pricefold "
+              "reads file names and texts as UTF-8 (rename the file, or set the terminal to UTF-8)", file=sys.stderr)
+        return 2
     for line in half_done(args):
-        print(f"pricefold {args.command}: warning: {line}", file=sys.stderr)
+        print(f"pricefold {args.command}: warning: {one_line(line)}", file=sys.stderr)
     try:
         with warnings.catch_warnings():
             # Floating-point trouble (1e308, 1e-320) is data: the engine masks non-finite values and marks
@@ -283,7 +303,7 @@ def main(argv: list[str] | None = None) -> int:
             warnings.filterwarnings("ignore", category=RuntimeWarning, module=r"(fitcore|numpy|pandas)(\.|$)")
             return COMMANDS[args.command](args)
     except PricefoldError as exc:
-        print(f"pricefold {args.command}: {exc}", file=sys.stderr)
+        print(f"pricefold {args.command}: {one_line(str(exc))}", file=sys.stderr)
         return 2
     except KeyboardInterrupt as exc:
         import signal

@@ -102,7 +102,7 @@ def stands_words(record: dict, stands: dict, carry: dict | None = None, signed: 
         interval = (f" ({number(at_plan['lo'])} to {number(at_plan['hi'])})"
                     if at_plan.get("lo") is not None and at_plan.get("hi") is not None else " (no interval)")
         said = (f"{said}; {whose} the plan price {number(plan['price'], money)}: volume "
-                f"{number(at_plan['volume'])}{interval}, " + slope(at_plan))
+                f"{number(at_plan['volume'])}{interval}, " + slope(at_plan, record, model))
     if verb == "overridden":
         return [said]
     proposal = record["chosen"] or "nothing"

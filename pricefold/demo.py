@@ -47,9 +47,18 @@ def run_demo(args, open_triage) -> int:
         folder.mkdir(parents=True, exist_ok=True)  # the demo's own folder, as documented
     except OSError as exc:
         raise DataError(f"cannot make the folder ({exc.strerror})", path=str(folder)) from None
+    written: list[str] = []  # what ``_demo`` has put in place
     try:
-        return _demo(args, open_triage, sample, shipped, ready, results_path, folder)
-    except BaseException:  # interrupted or failed: the folders it made go too, where nothing was written
+        return _demo(args, open_triage, sample, shipped, ready, results_path, folder, written)
+    except KeyboardInterrupt as exc:  # "nothing was written" would be untrue once the results are in place
+        remove_empty(made)
+        if written and not getattr(exc, "written", None):
+            import signal
+
+            from fitcore.outputs.atomic import InterruptedAfterWriting
+            raise InterruptedAfterWriting(written, getattr(exc, "signum", signal.SIGINT)) from None
+        raise
+    except BaseException:  # failed: the folders it made go too, where nothing was written
         remove_empty(made)
         raise
 
@@ -63,13 +72,15 @@ def remove_empty(folders: list[Path]) -> None:
             return
 
 
-def _demo(args, open_triage, sample, shipped: Path, ready: bool, results_path: Path, folder: Path) -> int:
+def _demo(args, open_triage, sample, shipped: Path, ready: bool, results_path: Path, folder: Path,
+          written: list[str]) -> int:
     from fitcore.data.config import load_config
 
     from .options import settings_file_keys
     sample.units = load_config(None, settings_file_keys()).get("units", {})
     if ready:
         sample.expected_sha256 = place_shipped(shipped, results_path, sample)
+        written.append(str(results_path))
         print(f"the invented sample's results → {results_path} (refitted behind the screen)", file=sys.stderr)
         _report_hint(results_path, folder)
         from fitcore.compiled import looks_compiled
@@ -83,6 +94,7 @@ def _demo(args, open_triage, sample, shipped: Path, ready: bool, results_path: P
           file=sys.stderr)
     results, diagnosis = fit_source(sample)
     write_results(results, results_path, diagnosis)
+    written.append(str(results_path))
     print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
     _report_hint(results_path, folder)
     source = source_from_results(results_path)

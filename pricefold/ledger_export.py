@@ -70,12 +70,13 @@ def run_export(args) -> int:
     own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi", "elasticity": "plan_elasticity"}
     level = (header.get("settings") or {}).get("level")
     rows: list[list] = []
+    unmeasured: list[int] = []  # rows of a series whose price never varied: no elasticity to write
     later: list[tuple] = []  # (row, key, snapshot, price, the results' numbers): signed curves at another price
     from fitcore.collector import collector_paused
     from fitcore.ledger.snapshot import signed_plan
     with collector_paused():  # a few small objects a series and no cycles among them
         series = _by_columns(ahead, book) if parts is None else _by_records(parts, book)
-        for key, fingerprint, chosen, plan, history, cand, last_date in series:
+        for key, fingerprint, chosen, plan, history, cand, last_date, seen in series:
             count += 1
             keys.append(key)
             status = history.status(fingerprint) if history else "pending"
@@ -90,9 +91,12 @@ def run_export(args) -> int:
             # Duan's smearing of a log family (absent or null for the others): only beside the coefficients it scales
             smearing = cand.get("smearing") if coef else None
             snapshot = (current.get("signed") or None) if current else None
+            varied = seen.varied
             if status == "stale":  # signed on other data: the signed model's numbers, never this fit's
                 family, coef, at_plan, smearing = signed_columns(current)
                 plan = {"price": at_plan.get("price")}
+                half = ((snapshot or {}).get("basis") or {}).get("half")
+                varied = half is None or half > 0  # the data it was signed on: a window of no width, one price
             elif snapshot:  # signed on these data: the curve as signed, once the results agree with it
                 said = disagreement(cand, plan.get("price"), at_plan, snapshot, level)
                 if said:
@@ -111,7 +115,10 @@ def run_export(args) -> int:
             rows.append([*map(str, key.values()), status, model or "", family, coef, _number(smearing),
                          current["analyst"] if current else "", current["at"] if current else "",
                          current.get("note", "") if current else "", _number(plan.get("price")),
-                         *plan_cells(at_plan), carried_from(history), *carried_decision(history), head])
+                         *plan_cells(at_plan), carried_from(history), *carried_decision(history), head,
+                         *seen.cells(plan.get("price") if status != "stale" else None)])
+            if not varied:
+                unmeasured.append(len(rows) - 1)
     said, found = meets(keys, book, args.ledger) if book.histories else (None, None)
     if said:  # a warning, not a refusal: a team ledger may hold other product ranges keyed alike
         tail = "every row is pending" if found.new == count else "their rows are pending, beside the ledger's own"
@@ -123,6 +130,9 @@ def run_export(args) -> int:
               file=sys.stderr)
     if later:
         _signed_at_price(args.results, rows, later, level)
+    at = len(keys[0]) + COLUMNS.index("plan_elasticity") if keys else 0
+    for row in unmeasured:  # 0 from a curve of one price measures nothing (README: "not estimable")
+        rows[row][at] = ""
     for row in rows:
         writer.writerow(made(row))
     write_text(args.output, buffer.getvalue())
@@ -131,10 +141,43 @@ def run_export(args) -> int:
     return 0
 
 
-# The export's own columns, after the key columns.
+# The export's own columns, after the key columns.  Format 2 added the last two (after ``ledger_head``, so a
+# reader of format 1 by position still finds every column where it was).
 COLUMNS = ("status", "model", "family", "coef", "smearing", "analyst", "at", "note", "plan_price", "plan_volume",
            "plan_lo", "plan_hi", "plan_elasticity", "carried_from", "carried_analyst", "carried_at", "carried_note",
-           "ledger_head")
+           "ledger_head", "inside_range", "flags")
+EXPORT_FORMAT = 2
+
+
+class Seen:
+    """What the results say of a series beside its numbers: its observed prices (``lo``, ``hi``: None where
+    unknown) and its flags' codes."""
+
+    __slots__ = ("lo", "hi", "codes")
+
+    def __init__(self, lo, hi, codes: list[str]):
+        self.lo, self.hi, self.codes = lo, hi, codes
+
+    @property
+    def varied(self) -> bool:
+        """Whether price varied in the series (else its elasticity measures nothing)."""
+        return self.lo is None or self.hi is None or self.hi > self.lo
+
+    def cells(self, price) -> list:
+        """``inside_range`` and ``flags``: ``true`` where the row's plan price lies within the series' observed
+        prices and no control's plan value lies outside the values the series has seen (no ``outside-range``),
+        ``false`` where either does (an extrapolation, or a control's effect missing: ``flags`` says which), empty
+        without a plan price here (a stale row's numbers are of other data); the flag codes, space-separated."""
+        if price is None or self.lo is None:
+            inside = ""
+        else:
+            inside = "true" if self.lo <= price <= self.hi and "outside-range" not in self.codes else "false"
+        return [inside, " ".join(self.codes)]
+
+
+def seen_in(record: dict) -> Seen:
+    lo, hi = record.get("price_range") or (None, None)
+    return Seen(lo, hi, [f["code"] for f in record.get("flags") or []])
 
 
 def key_headers(names: list[str]) -> dict[str, str]:
@@ -159,8 +202,8 @@ def model_of(history, chosen: str | None) -> str | None:
 
 
 # (key, fingerprint, chosen, plan: price, volume, lo, hi or {}, ledger history or None, the fields of the
-# candidate it exports or None)
-Exported = tuple[dict, str, str, dict, object, dict, "str | None"]  # … and the series' last date
+# candidate it exports or None, the series' last date, its ``Seen``)
+Exported = tuple[dict, str, str, dict, object, dict, "str | None", Seen]
 
 
 def _by_records(parts, book) -> Iterator[Exported]:
@@ -170,7 +213,7 @@ def _by_records(parts, book) -> Iterator[Exported]:
         model = model_of(history, record["chosen"])
         cand = next((c for c in record["candidates"] if c["name"] == model), None)
         yield (record["key"], record["fingerprint"], record["chosen"], record.get("plan") or {}, history, cand,
-               record.get("last_date"))
+               record.get("last_date"), seen_in(record))
 
 
 # The columns read for an export, and the Arrow type each must have for the column reader to vouch for
@@ -178,7 +221,8 @@ def _by_records(parts, book) -> Iterator[Exported]:
 # problem as it always did.
 EXPORTED = {"chosen": "text", "fingerprint": "text", "is_chosen": "bool", "plan_price": "number",
             "plan_volume": "number", "plan_lo": "number", "plan_hi": "number", "available": "bool",
-            "plan_elasticity": "number", "family": "text", "coef": "numbers", "smearing": "number"}
+            "plan_elasticity": "number", "family": "text", "coef": "numbers", "smearing": "number",
+            "price_lo": "number", "price_hi": "number", "flags": "text"}
 
 
 def _columns_ahead(path: Path) -> tuple[list[Path], object]:
@@ -210,6 +254,7 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
     column: per series its key, fingerprint and proposal, the plan numbers of its chosen row, and the cells
     of one candidate's row — the model it exports (the standing decision's, else the proposal)."""
     import numpy as np
+    import orjson
 
     from fitcore.arrays import numbers
     from fitcore.results.read import results_in_parts
@@ -256,7 +301,10 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
                             "elasticity": numbers_at["plan_elasticity"][j]}
         days = [None if day is None else day.isoformat() for day in columns.values("last_date", 0, every)] \
             if "last_date" in columns.table.column_names else [None] * len(keys)
-        yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands, days)
+        ranges = [columns.values(name, 0, every) for name in ("price_lo", "price_hi")]
+        seen = [Seen(lo, hi, [f["code"] for f in orjson.loads(flags or "[]")])
+                for lo, hi, flags in zip(*ranges, columns.values("flags", 0, every))]
+        yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands, days, seen)
 
 
 PLAN_FIELDS = ("plan_volume", "plan_lo", "plan_hi", "plan_elasticity")

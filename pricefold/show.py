@@ -10,8 +10,8 @@ from fitcore.data.keys import SEPARATOR
 from fitcore.review import choice
 from fitcore.review.attention import attention_order
 from fitcore.review.control_words import effect_words
-from fitcore.review.sentences import fmt, money, two_places
-from fitcore.review.time_of_year import day_month, plan_phase
+from fitcore.review.plan_words import elasticity_words, held_words, revenue_words
+from fitcore.review.sentences import fmt, money
 from fitcore.text import clean, told_apart
 from fitcore.widths import cells, distinct_keys
 
@@ -246,28 +246,47 @@ def control_lines(record: dict, binary=()) -> list[str]:
     values = record.get("control_values")
     if values is None:
         return []
-    held = ", ".join(f"{name} {fmt(v) if v is not None else '—'}" for name, v in values.items()
-                     if not name.startswith("season_"))
-    season = [v for name, v in values.items() if name.startswith("season_")]
-    if season:  # every term 0 only at the year's average: a date's sin and cos are never both 0
-        held += (", " if held else "") + ("the season's average over the year (no plan date given)"
-                                          if not any(season) else
-                                          f"the season at the plan date ({day_month(plan_phase(*season[:2]))})")
-    out = ["", f"controls held at the plan's values: {held}"]
+    out = ["", f"controls held at the plan's values: {held_words(values)}"]
     chosen = next((c for c in record["candidates"] if c["name"] == record["chosen"]), None)
     if chosen and chosen.get("controls"):
-        out.append(f"  {chosen['name']}: " + " · ".join(effect_words(chosen["controls"], binary,
-                                                                       "smearing" in chosen)))
+        words = effect_words(chosen["controls"], binary, "smearing" in chosen)
+        out.append(f"  with the fitted curve {chosen['name']}: " + " · ".join(words))
     for name, why in (record.get("controls_left_out") or {}).items():
         out.append(f"  left out: {clean(why)}")
     return out
 
 
-def slope(plan: dict) -> str:
-    """The elasticity at the plan price, where it means something: not at a volume at or below zero."""
-    if plan["volume"] is not None and plan["volume"] <= 0:
-        return "no elasticity (the volume is not above zero)"
-    return f"elasticity {number(plan['elasticity'], two_places)}"
+def slope(at_plan: dict, record: dict, model: str | None) -> str:
+    """The elasticity at the plan price (``at_plan``: its volume and elasticity) of candidate ``model`` of
+    ``record``, as it can be read (``fitcore.review.plan_words.elasticity_words``)."""
+    lo, hi = record["price_range"]
+    cand = next((c for c in record["candidates"] if c["name"] == model), None)
+    flat = model if cand is not None and cand.get("degree") == 0 else None
+    tied = next((tied_control(f["message"]) for f in record["flags"] if f["code"] == "price-tied"), None)
+    return elasticity_words(at_plan.get("elasticity"), at_plan.get("volume"), lo is None or hi is None or hi > lo,
+                            flat, tied)
+
+
+def tied_control(message: str) -> str:
+    """The control a price-tied flag's sentence names ('' where it cannot be read from it)."""
+    for opening, closing in (("Price moved so closely with ", " (variance inflation"),
+                             ("Price moved exactly with ", ", so")):
+        if message.startswith(opening) and closing in message:
+            return message[len(opening):message.index(closing)]
+    return ""
+
+
+def plan_line(record: dict) -> str:
+    """The plan price's line: volume, interval, elasticity, and whether it is an extrapolation — in price, or in a
+    control whose plan value the series has not seen (the outside-range flag says which)."""
+    plan = record["plan"]
+    codes = {f["code"] for f in record["flags"]}
+    where = (" — outside the observed prices: an extrapolation" if not plan["inside_range"] else
+             " — a control's plan value lies outside the values this series has seen (see outside-range)"
+             if "outside-range" in codes else "")
+    return (f"plan price {number(plan['price'], money)}: volume {number(plan['volume'])} "
+            f"({percent(plan['level'])} prediction interval {number(plan['lo'])} to {number(plan['hi'])}), "
+            f"{slope(plan, record, record['chosen'])}{where}")
 
 
 def detail(record: dict, binary=(), label: str | None = None) -> str:
@@ -292,12 +311,9 @@ def detail(record: dict, binary=(), label: str | None = None) -> str:
             out.append(f"  [{f['severity']}] {f['code']}: {f['message']}")
     else:
         out.append("flags: none")
-    plan = record.get("plan")
-    if plan:
-        where = "" if plan["inside_range"] else " — outside the observed prices: an extrapolation"
-        out.append(f"plan price {number(plan['price'], money)}: volume {number(plan['volume'])} "
-                   f"({percent(plan['level'])} prediction interval {number(plan['lo'])} to {number(plan['hi'])}), "
-                   f"{slope(plan)}{where}")
+    if record.get("plan"):
+        out.append(plan_line(record))
     if record.get("revenue_price") is not None:
-        out.append(f"revenue-maximising price within the observed range: {money(record['revenue_price'])}")
+        influential = any(f["code"] == "influential-point" for f in record["flags"])
+        out.append(revenue_words(money(record["revenue_price"]), influential))
     return "\n".join(out)

@@ -6,6 +6,7 @@ from rich.table import Table
 from rich.text import Text
 
 from fitcore.review.flags import FLAGS
+from fitcore.review.plan_words import caution
 
 from .listing import FILTER_TITLES, FILTERS
 from .text import clean, printable
@@ -27,15 +28,28 @@ KEYS = [
           "one flag (counts shown)"),
     ("s", "sort: attention, key, lowest score, fewest observations"),
     ("c", "with controls: the observations chart between raw volumes and volumes adjusted to the plan's "
-          "controls (what each week would have sold at its price with the controls as planned)"),
+          "controls (each week's volume moved by the fitted control terms to the plan's control values: what "
+          "the fitted curve gives, not what that week would have sold)"),
     ("?", "this help"),
     ("q, Ctrl+C", "quit (every decision is already in the ledger)"),
 ]
 
-CAUTIONS = ("Cautions. Curves fitted to observational sales data confound price with promotions, seasons, "
-            "stock-outs and competitors' moves: they describe what happened, not what a price change will "
-            "cause. A prediction at a price outside the prices a series has seen is an extrapolation. "
-            "pricefold proposes a curve; you decide, and the ledger records that you did.")
+YOU_DECIDE = "pricefold proposes a curve; you decide, and the ledger records that you did."
+
+
+def settings_text(results) -> str:
+    """How every number on the screen was made: the weighting, the controls and the values each series' plan
+    volume holds them at (its own: the evidence says each), and the caution naming what is not held fixed."""
+    from fitcore.review.plan_words import weight_column, weighting_words
+    said = f"Every fit {weighting_words(weight_column(results))}."
+    ctl = results.controls
+    columns = [] if ctl is None else list(ctl.names[:len(ctl.names) - 2 * ctl.season])
+    season = 0 if ctl is None else ctl.season
+    if columns or season:
+        held = ", ".join(columns) + (", " if columns and season else "") + ("the season" if season else "")
+        said += (f" Controls held fixed in every curve: {held}; each series' plan volume holds them at its plan "
+                 "values (the evidence says which).")
+    return f"{said}\n\nCautions. {caution(columns, season, YOU_DECIDE)}"
 
 
 def _grid(rows: list[tuple[str, str]]) -> Table:
@@ -65,9 +79,9 @@ def ledger_text(book, keys: str | None = None) -> Group:
     return Group(text, head)
 
 
-def help_text(book=None, keys: str | None = None, rejected: str | None = None) -> Group:
-    """Keys, flags, marks and cautions; then the data's rejected rows (``rejected``: ``rejected_text``'s words),
-    then the ledger (``ledger_text``)."""
+def help_text(book=None, keys: str | None = None, rejected: str | None = None, results=None) -> Group:
+    """Keys, flags, marks, the fit's settings (``results``: its weighting and controls) and cautions; then the
+    data's rejected rows (``rejected``: ``rejected_text``'s words), then the ledger (``ledger_text``)."""
     flags = [(f"{'!' if severity == 'stop' else '?'} {code}", f"{severity}: {meaning}")
              for code, severity, meaning in sorted(FLAGS, key=lambda flag: flag[1] != "stop")]
     return Group(
@@ -81,6 +95,8 @@ def help_text(book=None, keys: str | None = None, rejected: str | None = None) -
         Text("≈North in the flags column: the series is new to the ledger, and looks like a ledger series these "
              "results do not hold, spelled North there (case, Unicode form or spaces differ); a decision on it asks "
              "first, as it records a new series beside that one"),
-        Text("\n" + CAUTIONS, style="italic"),
+        Text("\nSettings", style="bold"),
+        Text(settings_text(results) if results is not None else "Cautions. " + caution(decides=YOU_DECIDE),
+             style="italic"),
         *([Text("\n" + rejected)] if rejected else []),
         *([ledger_text(book, keys)] if book is not None else []))

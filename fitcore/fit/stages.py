@@ -102,6 +102,11 @@ def unavailable(ch: Chunk, lineup: Lineup, cells: Cells, cv_mse: np.ndarray) -> 
     if ch.controls is not None:  # a price term lost to the controls, not to the prices
         tied = (ch.controls.vif > R.TIED_VIF)[:, None] & (n_coef > 1)[None, :]
         reason[tied & np.isin(reason, (R.RANK_ALL, R.RANK_FOLD))] = R.CONTROL_TIED
+        # Price exactly a line of the controls leaves a curve in ln price told from them only by the curvature
+        # of ln price (an elasticity of +0.97 from nothing else, a trial): what loses price's straight line loses
+        # every price term.
+        lost = (reason == R.CONTROL_TIED).any(axis=1)
+        reason[lost[:, None] & (reason == R.NONE) & (n_coef > 1)[None, :]] = R.CONTROL_TIED
     return reason
 
 

@@ -1,7 +1,9 @@
 """A candidate's control effects in words a planner reads: "promo: ×1.8 volume", "promo: +120 units".
 
 For a family fitted to ln volume a control multiplies volume (×exp(γ) for a 0/1
-control; per 1.00 more of any other); for a polynomial it adds units.  The
+control; per 1.00 more of any other); for a polynomial it adds units.  These are the
+fitted curve's terms, read from observational data, not what setting a control would
+do: every caller says so where it shows them ("with the fitted curve", "as fitted").  The
 season terms are read together: how far the season moves volume over the year
 (its lowest and highest point, on a grid of the year's days).
 """

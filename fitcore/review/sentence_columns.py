@@ -49,7 +49,8 @@ def _weak_fit(diag, series):
     score = diag.results.score[series]
     bar = diag.thresholds.weak_score
     out = fill(S.WEAK_FIT, score=texts([S.pct_beside(value, bar) for value in score.tolist()]), wanted=S.pct(bar))
-    undefined = ~np.isfinite(score)  # a volume that never varies: rare, its sentence series by series
+    # a volume that never varies, or a price that never did (nothing to explain volume by): rare, series by series
+    undefined = ~np.isfinite(score) | S.unvaried(diag.results)[series]
     if not undefined.any():
         return out
     said = texts([S.sentence(diag, s, "weak-fit") for s in series[undefined].tolist()])

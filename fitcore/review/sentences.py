@@ -46,6 +46,17 @@ def two_places(x: float) -> str:
     return "0.00" if text == "-0.00" else text
 
 
+def ratio(x: float) -> str:
+    """A ratio such as a variance inflation: one decimal below 1,000 ("203.6"), past it in powers of ten
+    ("3.0e8": "301345759.5" was a string of digits to count)."""
+    if x is None or not math.isfinite(x):
+        return "n/a"
+    if abs(x) < 1000:
+        return f"{x:.1f}"
+    mantissa, exponent = f"{x:.1e}".split("e")
+    return f"{mantissa}e{int(exponent)}"
+
+
 def signed(x: float) -> str:
     return ("+" if x > 0 else "−" if x < 0 else "") + fmt(abs(x))
 
@@ -144,13 +155,28 @@ def _outside_range(diag, s):
     def seen(j):
         low, high = n["control_lo"][s, j], n["control_hi"][s, j]
         return fmt(low) if low == high else f"{fmt(low)} to {fmt(high)}"
+    left_out = np.asarray(r.controls.left_out[s]) != 0 if len(terms) else np.zeros(0, bool)  # 0: KEPT
+    missing = []  # a control the series' fit left out: its plan value moves nothing, it is no extrapolation
     for j in terms[terms < first_season]:
-        parts.append(f"the plan's {names[j]} = {fmt(r.controls.plan[s, j])} lies outside the {names[j]} values this "
-                     f"series has seen ({seen(j)})")
+        said = (f"the plan's {names[j]} = {fmt(r.controls.plan[s, j])} lies outside the {names[j]} values this "
+                f"series has seen ({seen(j)})")
+        (missing if left_out[j] else parts).append(said)
     if len(terms[terms >= first_season]):  # one clause for the season, judged by the time of year
         parts.append(_season_outside(diag, s, first_season))
-    text = "; ".join(parts)
-    return f"{text[:1].upper()}{text[1:]}; the prediction there is an extrapolation."
+    text = "; ".join(parts) + ("; the prediction there is an extrapolation" if parts else "")
+    if missing:
+        which = [names[j] for j in terms[terms < first_season] if left_out[j]]
+        text += ("; " if parts else "") + "; ".join(missing) + (
+            f": {joined(which)} never varied in this series, so {'it was' if len(which) == 1 else 'they were'} "
+            f"left out of its fit and {'its' if len(which) == 1 else 'their'} effect is not in the number "
+            "(it is held at the values seen, whatever the plan says)")
+    return f"{text[:1].upper()}{text[1:]}."
+
+
+def joined(names) -> str:
+    """"a", "a and b", "a, b and c"."""
+    names = list(names)
+    return names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
 
 
 def _season_outside(diag, s, first):
@@ -204,6 +230,10 @@ def share_reads(rival_volume, chosen_volume):
 AT_PLAN, AT_MID = "at the plan price {price}", "at mid-range price"
 WEAK_FIT = ("Cross-validated R² (Q²) is {score}, below {wanted}: price explains little of the volume's "
             "variation.")
+# price never varied: only a flat curve was fitted, and Q² judges the average volume (and any controls), not price
+WEAK_FIT_NO_PRICE = ("Cross-validated R² (Q²) is {score}, below {wanted}: price never varied in this series, so the "
+                     "flat curve (the average volume{controls}) is all there is, and it predicts held-out volumes "
+                     "poorly.")
 
 
 def _near_tie(diag, s):
@@ -236,7 +266,26 @@ def _weak_fit(diag, s):
     if not math.isfinite(score):  # the rows' values are not read: a writer may have freed them already
         return WEAK_FIT_CONSTANT.format(n=f"{int(diag.results.data.counts[s]):,}")
     bar = diag.thresholds.weak_score
+    if unvaried(diag.results)[s]:
+        return WEAK_FIT_NO_PRICE.format(score=pct_beside(score, bar), wanted=pct(bar),
+                                        controls=with_controls(diag.results))
     return WEAK_FIT.format(score=pct_beside(score, bar), wanted=pct(bar))
+
+
+def flat_chosen(results) -> np.ndarray:
+    """(S,) whether each series' chosen curve is flat: a candidate with no price term (one coefficient)."""
+    chosen = np.asarray(results.chosen)
+    return (chosen >= 0) & (np.asarray(results.lineup.complexity)[np.maximum(chosen, 0)] <= 1)
+
+
+def unvaried(results) -> np.ndarray:
+    """(S,) whether price never varied in each series (one price: nothing measures a response to it)."""
+    return np.asarray(results.price_hi) <= np.asarray(results.price_lo)
+
+
+def with_controls(results) -> str:
+    """" with the controls" where the fit holds controls, else ''."""
+    return " with the controls" if results.controls is not None and len(results.controls.names) else ""
 
 
 def _influential(diag, s):
@@ -256,10 +305,20 @@ def _price_tied(diag, s):
     name = r.controls.names[int(n["tied"][s])]
     vif = n["price_vif"][s]
     if math.isfinite(vif):
-        how = (f"Price moved so closely with {name} (variance inflation of price {vif:.1f}, above "
+        how = (f"Price moved so closely with {name} (variance inflation of price {ratio(vif)}, above "
                f"{diag.thresholds.price_tied_vif:g}) that")
     else:
         how = f"Price moved exactly with {name}, so"
+    c = int(r.chosen[s])
+    if c >= 0 and flat_chosen(r)[s]:  # no slope to share: the curve chose none, and the control took it
+        j = int(n["tied"][s])
+        effect = ""
+        if j >= 0:  # a flat curve adds its terms in volume units (``control_words`` says them so too)
+            per = "" if r.controls.binary[j] else " per 1.00 more"
+            effect = f" ({name}: {signed(float(r.controls.coef[s, c, j]))} units{per} with the fitted curve)"
+        return (f"{how} the price effect cannot be told apart from {name}'s: the chosen curve ({r.names[c]}) is flat, "
+                f"so its elasticity 0 is the model's choice, not a measurement; the price effect may sit in "
+                f"{name}'s fitted term{effect}.")
     return f"{how} the price effect cannot be told apart from {name}'s: the curve's slope may belong to either."
 
 

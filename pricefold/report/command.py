@@ -280,7 +280,7 @@ def run(args) -> int:
     from ..ledger_cli import ledger_key
     from ..ledger_export import write_text
     from .exceptions import exceptions
-    from .page import CAUTION, Report, alerts, document, esc, summary
+    from .page import Report, alerts, caution_of, document, esc, summary
     from .tables import decisions, people
 
     if not args.results.exists():
@@ -316,7 +316,7 @@ def run(args) -> int:
             f"pricefold {esc(__version__)} from <code>{esc(args.results)}</code> and the ledger "
             f"<code>{esc(ledger_path)}</code>.</p></header>{alerts(report)}{summary(report)}{people(report)}"
             f"{decisions(report, detailed)}{exceptions(report, decided, flagged, more)}"
-            f"<footer class=\"caution\"><p>{esc(CAUTION)}</p></footer>")
+            f"<footer class=\"caution\"><p>{esc(caution_of(report.header))}</p></footer>")
     from fitcore.outputs.seal import seal
     page = seal(document(report, body))
     write_text(args.output, page)

@@ -10,7 +10,7 @@ import math
 
 from fitcore.ledger.signoff import STATUSES, Signoff
 
-from .page import Report, cell, elasticity, esc, interval, num, price, stale_parts, when
+from .page import Report, alike, cell, elasticity, esc, interval, num, price, stale_parts, when
 from .tables import at_plan, by_whom, label
 
 
@@ -27,14 +27,16 @@ def candidates(signoff: Signoff, s: int) -> str:
             missing.append(f"<li><code>{esc(name)}</code>: {esc(results.reason_text(s, c))}</li>")
             continue
         marks = [word for word, hit in ((stands, c == standing), ("proposal", c == proposal)) if hit]
-        volume = (f"{num(results.plan_volume[s, c])} <span class=\"muted\">"
-                  f"({interval(results.plan_lo[s, c], results.plan_hi[s, c])})</span>" if planned else "—")
+        at = (results.plan_volume[s, c], results.plan_lo[s, c], results.plan_hi[s, c])
+        volume = (f"{alike(*at)[0]} <span class=\"muted\">({interval(at[1], at[2], at[0])})</span>"
+                  if planned else "—")
         mark = f" <strong>({', '.join(marks)})</strong>" if marks else ""
         rows.append("<tr>" + cell("candidate", esc(name) + mark)
                     + cell("CV MSE ± SE", f"{num(results.cv_mse[s, c])} ± {num(results.cv_se[s, c])}", "num")
                     + cell("Q²", _share(results.q2[s, c]), "num") + cell("R²", _share(results.r2[s, c]), "num")
                     + cell("plan volume (95% PI)", volume, "num")
-                    + cell("elasticity", elasticity(results.plan_elasticity[s, c], results.plan_volume[s, c])
+                    + cell("elasticity", elasticity(results.plan_elasticity[s, c], results.plan_volume[s, c],
+                                                    results.price_hi[s] > results.price_lo[s])
                            if planned else "—", "num")
                     + "</tr>")
     table = ("<div class=\"wide\"><table class=\"cards-small\"><thead><tr><th>candidate</th>"
@@ -130,8 +132,8 @@ def section(report: Report, s: int) -> str:
         on = "newer" if signoff.newer[s] else "earlier"
         under = (f"under {name} as signed on {on} data" if numbers.signed else
                  f"under {name}, the proposal" if numbers.proposal else f"under {name}")
-        facts.append(f"at the plan price {price(plan)}: {num(numbers.volume)} "
-                     f"({interval(numbers.lo, numbers.hi)}) {under}")
+        facts.append(f"at the plan price {price(plan)}: {alike(numbers.volume, numbers.lo, numbers.hi)[0]} "
+                     f"({interval(numbers.lo, numbers.hi, numbers.volume)}) {under}")
         if not results.price_lo[s] <= plan <= results.price_hi[s]:
             facts.append("<span class=\"sev-stop\">outside the observed prices: an extrapolation</span>")
     figure = chart_figure(report.chart(s))

@@ -19,14 +19,17 @@ from typing import Callable
 from fitcore.ledger.signoff import LedgerView, Signoff, flag_table
 from fitcore.outputs.seal import blank_tag
 from fitcore.review.flags import FLAGS
-from fitcore.review.sentences import fmt, money, two_places
+from fitcore.review.plan_words import caution_of as plan_caution
+from fitcore.review.sentences import HUGE, fmt, money, two_places
 from fitcore.text import clean, printable
 
 GENERATOR = "pricefold report"
 MEANING = {code: meaning for code, _, meaning in FLAGS}
-CAUTION = ("Curves fitted to observational sales data confound price with promotions, seasons and stock-outs; "
-           "predictions outside the observed price range are extrapolations. pricefold proposes; the analyst "
-           "decides and signs.")
+
+
+def caution_of(header: dict) -> str:
+    """The page's caution, naming the controls and season the fit held fixed (as ``show`` closes with it)."""
+    return plan_caution(header.get("settings") or {}, "pricefold proposes; the analyst decides and signs.")
 
 
 @dataclass(frozen=True)
@@ -60,19 +63,34 @@ def num(x) -> str:
     return esc(fmt(None if x is None else float(x))).replace("-", "−")
 
 
-def interval(lo, hi) -> str:
-    """'877–1,205', or '−294 to −244' when a bound is negative (a dash between minus signs misleads)."""
+def interval(lo, hi, beside=None) -> str:
+    """'877–1,205', or '−294 to −244' when a bound is negative (a dash between minus signs misleads); in the
+    format of the volume ``beside`` it too (``alike``)."""
     joiner = " to " if (lo is not None and float(lo) < 0) or (hi is not None and float(hi) < 0) else "–"
-    return f"{num(lo)}{joiner}{num(hi)}"
+    low, high = alike(lo, hi, beside)[:2]
+    return f"{low}{joiner}{high}"
+
+
+def alike(*values) -> list[str]:
+    """``num`` of each of ``values`` in one format: where any is past ``fmt``'s grouped digits (1e9 and up), all in
+    three significant digits ("6.66e+08 (4.42e+07–1.29e+09)", not "666,152,270 (44,196,121–1.29e+09")."""
+    finite = [float(x) for x in values if x is not None and math.isfinite(float(x))]
+    if not any(abs(x) >= HUGE for x in finite):
+        return [num(x) for x in values]
+    return ["n/a" if x is None or not math.isfinite(float(x)) else esc(f"{float(x):.3g}").replace("-", "−")
+            for x in values]
 
 
 def price(x) -> str:
     return esc(money(None if x is None else float(x)))
 
 
-def elasticity(x, volume=None) -> str:
+def elasticity(x, volume=None, varied: bool = True) -> str:
     """The elasticity at the plan price; none at a ``volume`` at or below zero (a ratio of relative changes
-    means nothing there: the screen and ``show`` say the same)."""
+    means nothing there: the screen and ``show`` say the same), nor where price never ``varied`` in the series
+    (nothing measured it)."""
+    if not varied:
+        return '<span title="price never varied in this series: nothing measures an elasticity">not estimable</span>'
     if volume is not None and float(volume) <= 0:
         return '<span title="no elasticity: the volume is at or below zero">n/a</span>'
     if x is None or not math.isfinite(float(x)):
@@ -188,10 +206,28 @@ def _settings(header: dict, names: list[str], results_path: str = "") -> list[tu
             ("Data digest", f"<span class=\"digest\">SHA-256 {esc(data.get('sha256'))}</span>"),
             ("Rows", f"{num(rows)} read, {num(rejected or 0)} rejected{esc(rejects_state(header, results_path))}"
              if rows is not None else "n/a"),
-            ("Candidates", esc(cands)), ("Weights", weights_text(settings)), ("Folds", fold_text),
+            ("Candidates", esc(cands)), ("Weights", weights_text(settings)),
+            ("Controls", controls_text(settings)), ("Folds", fold_text),
             ("Rule", esc(settings.get("rule"))),
             ("Interval", f"{float(settings.get('level', 0.95)) * 100:.0f}% prediction interval"),
             ("Plan price", plan_text)]
+
+
+def controls_text(settings: dict) -> str:
+    """The columns held fixed while every curve is fitted, and the season's terms: 'none' without; the plan
+    volumes hold them at each series' plan values (the plan file's, else the defaults said here)."""
+    controls = settings.get("controls") or {}
+    season = int(controls.get("season") or 0)
+    columns = [name for name in controls.get("terms", []) if not name.startswith("season_")]
+    if not columns and not season:
+        return "none"
+    defaults = controls.get("plan_values") or {}
+    parts = [f"<code>{esc(name)}</code>" + (" (0/1)" if name in controls.get("binary", []) else "")
+             for name in columns]
+    if season:
+        parts.append(f"season: {season} sine/cosine pair{'s' * (season != 1)} of the day of the year")
+    held = "; ".join(f"{esc(name)} {esc(value)}" for name, value in defaults.items())
+    return ", ".join(parts) + "; plan volumes hold them at " + (held or "each series' plan values")
 
 
 def weights_text(settings: dict) -> str:
@@ -251,7 +287,7 @@ def summary(report: Report) -> str:
                  if flags else "<p>No series carries a flag.</p>")
     clean_count = int((~signoff.diagnosis.raised.any(axis=1)).sum())
     return (f"<section id=\"summary\"><h2>Summary</h2><ul class=\"cards\">{card_html}</ul>{apart}"
-            f"<p class=\"caution\">{esc(CAUTION)}</p>"
+            f"<p class=\"caution\">{esc(caution_of(report.header))}</p>"
             f"<div class=\"grid2\"><div><h3>Data and settings</h3>"
             f"{_facts(_settings(report.header, signoff.results.names, report.results_path))}</div>"
             f"<div><h3>Ledger</h3>{_facts(_ledger_facts(report))}</div></div>"

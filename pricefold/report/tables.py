@@ -15,7 +15,7 @@ from fitcore.ledger.signoff import STATUSES, Signoff
 from fitcore.review.flags import CODES, SEVERITY
 from fitcore.text import clean, reveal_unnormalised
 
-from .page import Report, cell, elasticity, esc, interval, num, price, when
+from .page import Report, alike, cell, elasticity, esc, interval, num, price, when
 
 ACTIONS = ("accept", "override", "hold", "note", "revoke", "carry")
 COLUMNS = (("Series", ""), ("Status", ""), ("Model", ""), ("Plan price", "num"), ("Volume (95% PI)", "num"),
@@ -70,7 +70,18 @@ def _flag_cell(signoff: Signoff, s: int) -> str:
     raised = signoff.diagnosis.raised[s]
     codes = [code for i, code in enumerate(CODES) if raised[i]]
     codes.sort(key=lambda code: SEVERITY[code] != "stop")
-    return " ".join(f"<span class=\"flag sev-{SEVERITY[c]}\">{c}</span>" for c in codes)
+    said = {f["code"]: f["message"] for f in signoff.diagnosis.flags_of(s)} if codes else {}
+    return " ".join(f"<span class=\"flag sev-{SEVERITY[c]}\" title=\"{esc(said.get(c, ''))}\">{c}</span>"
+                    + (f" <span class=\"muted\">({GLOSS[c]})</span>" if c in GLOSS else "") for c in codes)
+
+
+# What a stop flag cautions, beside its code where a reader of the table would otherwise see a code alone (the
+# sentence is the code's title)
+GLOSS = {"few-points": "too few observations", "no-model": "no curve proposed",
+         "flat-price": "price barely moved: little said of price response",
+         "rising": "fitted volume rises with price", "below-zero": "negative fitted volume",
+         "outside-range": "an extrapolation, or a control's effect not in the number",
+         "stale": "data changed since sign-off"}
 
 
 def _sort_value(x) -> str:
@@ -137,7 +148,7 @@ def row(signoff: Signoff, s: int, detailed: set, tell_apart=None) -> str:
     numbers = at_plan(signoff, s)
     plan, volume, lo, hi, e = numbers.price, numbers.volume, numbers.lo, numbers.hi, numbers.elasticity
     planned = volume is not None and math.isfinite(plan)
-    shown = (f"{num(volume)} <span class=\"muted\">({interval(lo, hi)})</span>"
+    shown = (f"{alike(volume, lo, hi)[0]} <span class=\"muted\">({interval(lo, hi, volume)})</span>"
              if planned and lo is not None and math.isfinite(lo) else num(volume) if planned else "—")
     if planned and numbers.signed:
         shown += " <span class=\"muted\">as signed</span>"
@@ -160,7 +171,8 @@ def row(signoff: Signoff, s: int, detailed: set, tell_apart=None) -> str:
             + cell("Status", status + carried, f"st-{status}") + cell("Model", model_cell(signoff, s))
             + cell("Plan price", price(plan) if math.isfinite(plan) else "—", "num", _sort_value(plan))
             + cell("Volume (95% PI)", shown, "num", _sort_value(volume))
-            + cell("Elasticity", elasticity(e, volume) if planned and e is not None else "—", "num",
+            + cell("Elasticity", elasticity(e, volume, bool(results.price_hi[s] > results.price_lo[s]))
+                   if planned and e is not None else "—", "num",
                    _sort_value(e if planned and e is not None and volume > 0 else None))
             + cell("Flags", _flag_cell(signoff, s)) + cell("Analyst", analyst)
             + cell("Time", time, "time", esc(latest.get("at", ""))) + cell("Note", note, "note")

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from importlib.metadata import version
+from pathlib import Path
 
 import pytest
 
@@ -48,3 +49,25 @@ def test_dasks_options_without_engine_dask_are_refused_in_one_line(tmp_path, cap
     assert err == (f"pricefold fit: {option[0]} is an option of --engine dask; add --engine dask, or leave it out "
                    "to fit on this machine\n")
     assert sorted(p.name for p in tmp_path.iterdir()) == ["d.csv"]
+
+
+SAMPLE = Path(__file__).resolve().parents[2] / "sample"
+
+
+@pytest.mark.parametrize("argv", [
+    ["fit", "bad\udcffdir/wholesale.csv", "-o", "{tmp}/r.json"],
+    ["fit", str(SAMPLE / "wholesale.csv"), "-o", "{tmp}/o\udcff.parquet"],
+    ["fit", str(SAMPLE / "wholesale.csv"), "-o", "{tmp}/r.json", "--ledger", "{tmp}/L\udcff.jsonl"]])
+def test_a_name_with_bytes_that_are_not_utf8_is_one_line(tmp_path, capsys, argv):
+    """A file name of Latin-1 bytes (``$'bad\\xffdir'``) reaches Python as a lone surrogate: pyarrow and the results'
+    JSON failed on it with a traceback.  Refused in one line, naming it, nothing written."""
+    argv = [part.replace("{tmp}", str(tmp_path)) for part in argv]
+    assert main(argv) == 2
+    [line] = capsys.readouterr().err.splitlines()
+    assert line.startswith("pricefold fit: '") and "⟨U+DCFF⟩" in line and "holds bytes that are not UTF-8" in line
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_a_line_break_in_a_file_name_stays_on_the_error_s_one_line(tmp_path, capsys):
+    assert main(["ledger", "verify", str(tmp_path / "L\nx.jsonl")]) == 2
+    assert capsys.readouterr().err == f"pricefold ledger: {tmp_path}/L␊x.jsonl: file not found\n"

@@ -56,3 +56,19 @@ def test_the_commands_the_demo_says_to_run_next_run_from_where_it_was_run(tmp_pa
     monkeypatch.setenv("PATH", f"{here.parent}:/usr/bin:/bin")  # activated: pricefold is on PATH
     demo._report_hint(tmp_path / "results.parquet", tmp_path)
     assert "back to it: pricefold triage " in capsys.readouterr().err
+
+
+def test_a_demo_interrupted_after_its_results_are_in_place_says_so(tmp_path, monkeypatch, capsys):
+    """Ctrl+C once the shipped results were placed, before the screen: it said "nothing was written" and left
+    ``results.parquet`` (an operations trial).  Now: "after writing …/results.parquet in full", exit 130."""
+    from pricefold import cli
+
+    def interrupted(*args, **kwargs):
+        raise KeyboardInterrupt
+    monkeypatch.setattr("pricefold.terminal.require_terminal", lambda what: None, raising=False)
+    monkeypatch.setattr("pricefold.triage_cli.open_triage", interrupted)
+    folder = tmp_path / "demo"
+    assert cli.main(["demo", "--dir", str(folder)]) == 130
+    assert (folder / "results.parquet").is_file()
+    assert capsys.readouterr().err.splitlines()[-1] == (
+        f"pricefold demo: interrupted; after writing {folder / 'results.parquet'} in full")

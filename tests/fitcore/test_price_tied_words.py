@@ -24,8 +24,13 @@ def test_a_control_moving_exactly_with_price_reads_as_one_sentence():
     rng = np.random.default_rng(1)
     price = np.linspace(2, 3, 24)
     message, _ = tied_sentence(2 * price + 1, price, 900 - 200 * price + rng.normal(0, 5, 24))
+    # no price term is left to choose (a curve in ln price too: told from coll only by its curvature), so the flat
+    # poly0 is chosen and coll's term takes the price effect: −200 a unit of price is −100 a unit of
+    # coll = 2·price + 1
     assert message == ("Price moved exactly with coll, so the price effect cannot be told apart from coll's: "
-                       "the curve's slope may belong to either.")
+                       "the chosen curve (poly0) is flat, so its elasticity 0 is the model's choice, not a "
+                       "measurement; the price effect may sit in coll's fitted term (coll: −100.1 units per "
+                       "1.00 more with the fitted curve).")
 
 
 def test_a_control_moving_nearly_with_price_quotes_its_variance_inflation():

@@ -23,8 +23,9 @@ from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 TOLD = {"accept": "Accepted", "override": "Overrode", "hold": "Held", "note": "Noted", "revoke": "Revoked"}
 
 
-# Beside every note that signs a curve: the observational data's caution and who decides (``help.CAUTIONS`` in full).
-SIGNING_CAUTION = ("Observational sales data: promotions, seasons and stock-outs that moved with price are in the "
+# Beside every note that signs a curve: the observational data's caution and who decides (the help's in full:
+# ``fitcore.review.plan_words.caution``).  Not "promotions and seasons": a fit may hold those fixed.
+SIGNING_CAUTION = ("Observational sales data: whatever moved with price and is not held fixed in the fit is in the "
                    "curve too. pricefold proposes; you decide.")
 
 
@@ -98,7 +99,8 @@ class DecisionFlow:
         else:
             where = "" if lo <= plan <= hi else f", outside the prices observed ({money(lo)}–{money(hi)})"
             said = (f"At the plan price {money(plan)}{where}, "
-                    + predicts(results, s, c, lambda v: f"{fmt(v)} {unit}" if unit else fmt(v)) + ".")
+                    + predicts(results, s, c, lambda v: f"{fmt(v)} {unit}" if unit else fmt(v),
+                             self.session.diagnosis) + ".")
         text = Text(said, style="#ff875f" if math.isfinite(plan) and results.plan_volume[s, c] <= 0 else "")
         if model is not None:
             from .override import candidate_rows

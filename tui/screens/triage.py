@@ -398,7 +398,8 @@ class TriageScreen(DecisionFlow, Screen):
     def action_help(self) -> None:
         said = "\n  ".join(filter(None, (keys_text(self.session.key_columns), spellings_text(self.session),
                                          missing_text(self.session))))
-        self.open_dialog(MessageDialog(help_text(self.session.book, said or None, rejected_text(self.session)),
+        self.open_dialog(MessageDialog(help_text(self.session.book, said or None, rejected_text(self.session),
+                                                 self.session.results),
                                        classes="help"))
 
     def action_quit(self) -> None:

@@ -23,7 +23,9 @@ from fitcore.ledger.rules import NEWER_DUE, what_stands
 from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
-from fitcore.review.sentences import fmt, money, two_places
+from fitcore.review.plan_words import (elasticity_of, elasticity_words, held_words, revenue_words, weight_column,
+                                       weighting_words)
+from fitcore.review.sentences import fmt, money
 from fitcore.text import told_apart
 
 from .. import engine
@@ -56,13 +58,13 @@ def gauge(plan: float, lo: float, hi: float, width: int = 24) -> str:
 OBSERVATIONAL = "Observational data: whatever else moved with price is in this curve too."  # one line at 80×24
 
 
-def predicts(results, s: int, c: int, volume_text=fmt) -> str:
+def predicts(results, s: int, c: int, volume_text=fmt, diagnosis=None) -> str:
     """'poly1 predicts volume -268.9 (95% PI -294.0 to -243.8), no elasticity (…)': candidate ``c`` at the
-    plan price, as the evidence says it and as an accept past a stop flag shows what is signed."""
+    plan price, as the evidence says it and as an accept past a stop flag shows what is signed; the elasticity
+    as it can be read (``fitcore.review.plan_words``; ``diagnosis``: the flags, for a price tied to a control)."""
     volume = float(results.plan_volume[s, c])
-    # an elasticity is a ratio of relative changes: at a volume at or below zero it means nothing
-    slope = f"elasticity {two_places(results.plan_elasticity[s, c])}" if volume > 0 else \
-        "no elasticity (the volume is not above zero)"
+    slope = elasticity_of(results, diagnosis, s, c) if diagnosis is not None else \
+        elasticity_words(float(results.plan_elasticity[s, c]), volume, bool(results.price_hi[s] > results.price_lo[s]))
     return (f"{results.names[c]} predicts volume {volume_text(volume)} ({results.settings.level:.0%} PI "
             f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}), {slope}")
 
@@ -325,17 +327,35 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         if c >= 0 and math.isfinite(plan):
             text.append(f"Plan price {self.price(plan)}, {plan_position(plan, lo, hi)}.\n")
             text.append(f"  {gauge(plan, lo, hi)}\n", style="dim")
-            text.append(predicts(results, s, c, self.volume) + ".")
+            diagnosis = self.session.diagnosis
+            text.append(predicts(results, s, c, self.volume, diagnosis) + ".")
             if not lo <= plan <= hi:
                 text.append(" An extrapolation.", style=SEVERITY_STYLE["stop"])
+            elif diagnosis.controls_outside(s):  # the flag's sentence says which, and whether its effect is missing
+                text.append(" A control's plan value lies outside what this series has seen (outside-range).",
+                            style=SEVERITY_STYLE["stop"])
             text.append("\n")
             text.append(f"  {OBSERVATIONAL}\n", style="dim")  # where the number a plan takes is read
         elif c >= 0:
             text.append("No plan price for this series.\n", style="dim")
+        if c >= 0 and (weight_column(results) or results.controls is not None):  # unweighted, none: said in ?
+            text.append(self.settings_text(s), style="dim")
         if c >= 0 and math.isfinite(results.revenue_price[s]):
-            text.append(f"Revenue-maximising price within the observed range (proposed curve): "
-                        f"{self.price(results.revenue_price[s])}.\n")
+            words = revenue_words(self.price(results.revenue_price[s]),
+                                  bool(self.session.diagnosis.flagged("influential-point")[s]))
+            text.append(f"{words[:1].upper()}{words[1:]} (proposed curve).\n")
         return text
+
+    def settings_text(self, s: int) -> str:
+        """How the numbers above were made: the weighting, and the values the controls are held at."""
+        results = self.session.results
+        weighting = weighting_words(weight_column(results))
+        said = f"  {weighting[:1].upper()}{weighting[1:]}"
+        ctl = results.controls
+        if ctl is not None and len(ctl.names):
+            values = {name: float(ctl.plan[s, j]) for j, name in enumerate(ctl.names)}
+            said += f"; controls held at the plan's values: {held_words(values)}"
+        return said + ".\n"
 
     def candidate_table(self, s: int) -> Group:
         """Available candidates as a table; the others below it, each with its reason."""
@@ -345,7 +365,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         table = Table(box=None, pad_edge=False, expand=False, show_edge=False, header_style="bold")
         controls = results.controls
         for name, justify in (("", "left"), ("candidate", "left"), ("CV MSE", "right"), ("± SE", "right"),
-                              ("Q²", "right"), ("R²", "right"), *([("controls", "left")] if controls else [])):
+                              ("Q²", "right"), ("R²", "right"),
+                              *([("controls, with the fitted curve", "left")] if controls else [])):
             table.add_column(name, justify=justify)
         # each reason wraps under itself, not under its candidate's name (a column of its own)
         missing = Table.grid(padding=(0, 1))
@@ -366,7 +387,7 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                      *([missing] if missing.row_count else []), Text(""))
 
     def control_effects(self, s: int, c: int) -> Text:
-        """Candidate ``c``'s control effects in words ("promo: ×1.8 volume", "+120 units")."""
+        """Candidate ``c``'s control terms in words ("promo: ×1.8 fitted volume", "+120 fitted units")."""
         ctl = self.session.results.controls
         kept = {name: (float(ctl.coef[s, c, j]) if ctl.left_out[s, j] == 0 else None)
                 for j, name in enumerate(ctl.names)}
