@@ -68,7 +68,7 @@ def finish_batches(path: str | Path) -> list[str]:
     """Finish every batch a dead writer on this host left half done that names ``path`` (as a target, or a file to
     remove); return one line for each, saying what was done."""
     said = []
-    for journal, body in _dead_journals(Path(path)):
+    for journal, body in _dead_journals(Path(path), drop_torn=True):
         try:
             said.append(_finish(journal, body))
         except OSError as exc:
@@ -81,12 +81,13 @@ def unfinished(path: str | Path) -> list[str]:
     """One line for each batch naming ``path`` that a dead writer left half done (nothing is changed)."""
     return [f"{path}: a fit was killed while putting its files in place ({_listed(journal, body)}); they may not "
             f"belong together until the next `pricefold fit` writing {Path(path).name} finishes that"
-            for journal, body in _dead_journals(Path(path))]
+            for journal, body in _dead_journals(Path(path), drop_torn=False)]
 
 
-def _dead_journals(path: Path):
+def _dead_journals(path: Path, drop_torn: bool):
     """(journal, its content) for each journal in ``path``'s folder of a process no longer running that names
-    ``path``; a journal cut short (its writer killed while writing it, before any rename) is removed."""
+    ``path``; a journal cut short (its writer stopped while writing it, so before any rename) is skipped, and with
+    ``drop_torn`` removed."""
     real = Path(os.path.realpath(path))
     try:
         entries = [entry.name for entry in os.scandir(real.parent)]
@@ -102,7 +103,8 @@ def _dead_journals(path: Path):
             if body.get("format") != FORMAT:
                 continue  # a later pricefold's: not ours to judge
         except (OSError, ValueError, AttributeError):
-            _drop(journal)  # written only in part: the batch had not begun
+            if drop_torn:  # written only in part: the batch had not begun
+                _drop(journal)
             continue
         named = [entry["target"] for entry in body["renames"]] + [entry["path"] for entry in body["removals"]]
         if any(os.path.realpath(real.parent / name) == str(real) for name in named):
