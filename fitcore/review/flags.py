@@ -205,7 +205,8 @@ def plan_gaps(results: Results) -> np.ndarray:
     apart = np.abs(data.price - np.repeat(np.where(inside, plan, 0.0), counts))
     filled = np.flatnonzero(counts > 0)  # reduceat needs each start once: series without rows left out
     nearest = np.minimum.reduceat(apart, data.offsets[filled].astype(np.int64))
-    out[filled] = np.where(inside[filled], nearest / (hi[filled] - lo[filled]), np.nan)
+    span = hi[filled] - lo[filled]  # 0 for a series of one price: never inside, so never divided by
+    out[filled] = np.where(inside[filled], nearest / np.where(inside[filled], span, 1.0), np.nan)
     return out
 
 
