@@ -84,11 +84,18 @@ SLOW = pytest.mark.slow  # each step ~5 s (four or five whole processes): one st
 
 @pytest.mark.parametrize("at", [pytest.param("before:replace:r.rejects.csv", marks=SLOW), "before:replace:r.json",
                                 pytest.param("before:unlink:*.journal", marks=SLOW)])
-def test_a_fit_killed_putting_a_new_pair_in_place_is_finished_by_the_next(folder, at):
+def test_a_fit_killed_putting_a_new_pair_in_place_is_finished_by_the_next(folder, at, monkeypatch):
     assert fit(folder, "a.csv", "r.json").returncode == 0
     killed(folder, at, "b.csv", "r.json")
     shown = pricefold(folder, "show", "r.json")  # a reader says so, and changes nothing
     assert "a fit was killed while putting its files in place" in shown.stderr
+    screen = {}  # the screen says it too: what is printed before it opens is hidden once it has
+    monkeypatch.setattr("pricefold.terminal.require_terminal", lambda what: None, raising=False)
+    monkeypatch.setattr("pricefold.triage_cli.open_triage", lambda source, *a, **kw: screen.update(w=source.warnings))
+    monkeypatch.chdir(folder)
+    from pricefold.cli import main
+    main(["triage", "r.json", "--ledger", "L.jsonl"])
+    assert any("a fit was killed while putting its files in place" in line for line in screen["w"]), screen
     refused = fit(folder, "a.csv", "r.json", "--strict")  # writes nothing of its own: what is left is the finish
     assert refused.returncode == 2 and "put in place what a fit killed" in refused.stderr, refused.stderr
     assert pair(folder, "r.json")[0] == "b.csv" and left_over(folder) == []  # the killed run's pair, whole
