@@ -275,6 +275,16 @@ def one_line(message: str) -> str:
     return re.sub("[\x00-\x1f\x7f\ud800-\udfff]", lambda found: clean(found.group()), message)
 
 
+def half_done(args) -> list[str]:
+    """A line for each step a killed fit left half done beside the results file a command reads (the files there may
+    not belong together; the next fit writing them finishes the step: ``fitcore.outputs.journal``)."""
+    path = getattr(args, "results", None) or (args.source if args.command == "triage" else None)
+    if not isinstance(path, Path):
+        return []
+    from fitcore.outputs import unfinished
+    return unfinished(path)
+
+
 def main(argv: list[str] | None = None) -> int:
     import warnings
 
@@ -285,6 +295,8 @@ def main(argv: list[str] | None = None) -> int:
         print(f"pricefold {args.command}: '{one_line(undecodable)}': holds bytes that are not UTF-8; pricefold "
               "reads file names and texts as UTF-8 (rename the file, or set the terminal to UTF-8)", file=sys.stderr)
         return 2
+    for line in half_done(args):
+        print(f"pricefold {args.command}: warning: {one_line(line)}", file=sys.stderr)
     try:
         with warnings.catch_warnings():
             # Floating-point trouble (1e308, 1e-320) is data: the engine masks non-finite values and marks

@@ -10,19 +10,21 @@ import stat
 from dataclasses import dataclass
 from pathlib import Path
 
+EMPTY = "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855"  # the SHA-256 of no bytes
 HEAD = 1 << 20  # a JSON results file's header (settings, input) comes before its series: within this, in practice
 
 
 @dataclass(frozen=True)
 class EarlierRejects:
     """What stands at a run's rejects path before it writes: ``exists`` (anything, a link too) and ``owned`` (an
-    empty file, or the very file the results at ``-o`` record as theirs), with ``why`` a clause for a refusal or
-    a note where it exists and is not owned."""
+    empty file, or the very file the results at ``-o`` record as theirs, ``sha256`` its digest), with ``why`` a
+    clause for a refusal or a note where it exists and is not owned."""
 
     path: Path
     exists: bool
     owned: bool
     why: str = ""
+    sha256: str | None = None
 
 
 def earlier_rejects(target: Path, results: Path) -> EarlierRejects:
@@ -34,7 +36,7 @@ def earlier_rejects(target: Path, results: Path) -> EarlierRejects:
     if not stat.S_ISREG(info.st_mode):
         return EarlierRejects(target, True, False, "it is not a plain file")
     if info.st_size == 0:
-        return EarlierRejects(target, True, True)
+        return EarlierRejects(target, True, True, sha256=EMPTY)
     recorded = recorded_rejects(results)
     if recorded is None:
         return EarlierRejects(target, True, False, f"no pricefold results at {results} record it as their rejects")
@@ -44,7 +46,8 @@ def earlier_rejects(target: Path, results: Path) -> EarlierRejects:
     except OSError as exc:
         return EarlierRejects(target, True, False, f"it cannot be read ({exc.strerror})")
     return EarlierRejects(target, True, same, "" if same else
-                          f"it is not the rejects file {results} records (changed since, or another run's)")
+                          f"it is not the rejects file {results} records (changed since, or another run's)",
+                          recorded if same else None)
 
 
 def recorded_rejects(results: Path) -> str | None:

@@ -5,8 +5,10 @@ Order of events, so that a failed or killed run leaves the earlier results and r
 they were: every output is checked against every input before anything is read; the rejects file is
 staged (written in full under a temporary name) right after loading, its digest recorded in the
 results' ``input``; the results are staged after the fit; then the rejects file and the results are
-put in place, in that order.  A clean run removes the replaced results' own rejects file last (the file whose
-digest they record: ``earlier_rejects``), and leaves any other, saying so.
+put in place, in that order, with (on a clean run) the replaced results' own rejects file removed in the same
+step (the file whose digest they record: ``earlier_rejects``; any other is left, saying so).  That step is one
+even under ``kill -9``: the next run writing these names first finishes a step a killed run left half done
+(``outputs.finish_batches``) and removes its temporary files.
 """
 from __future__ import annotations
 
@@ -36,7 +38,18 @@ def run_fit(args) -> int:
     if getattr(args, "ledger", None) is not None:
         inputs.append(("the ledger", args.ledger))
     check_outputs([(args.output, "results"), (rejects_path(args.output), "rejects")], inputs)
+    settle_earlier(args.output, rejects_path(args.output))
     return fit_locally(args, run)
+
+
+def settle_earlier(*paths: Path) -> None:
+    """Finish what a killed run left half in place at ``paths`` (saying so), then remove its temporary files."""
+    from fitcore.outputs import finish_batches, remove_leftovers
+    for path in paths:
+        for line in finish_batches(path):
+            print(line, file=sys.stderr)
+    for path in paths:
+        remove_leftovers(path)
 
 
 def _check_ending(output: Path) -> None:
@@ -145,7 +158,7 @@ def _fit_locally(args, run, ahead) -> int:
     from fitcore.data.loader import load_with_rejects, unread_columns_note
     from fitcore.data.plan import plan_keywords, unused_columns_note
     from fitcore.data.rejects import rejects_path, write_rejects
-    from fitcore.outputs import Batch, remove_own
+    from fitcore.outputs import Batch
     from fitcore.results.write import prepared_results
     from fitcore.review.flags import diagnose
 
@@ -166,6 +179,8 @@ def _fit_locally(args, run, ahead) -> int:
             data.source.update(rejects_file=target.name, rejects_sha256=staged.sha256)
         else:
             data.source.update(rejects_file=None, rejects_sha256=None)
+            if earlier.owned:  # the replaced results' own rejects would now mislead: removed with the step
+                batch.remove(target, earlier.sha256)
         # the plan's own delimiter; with controls, its control columns and plan dates
         plan = plan_keywords(data, run.plan_file, run.plan_price, season=run.settings.season)
         bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
@@ -190,11 +205,7 @@ def _fit_locally(args, run, ahead) -> int:
         batch.add(args.output, write, by_name=by_name)
         check()  # interrupted, though something swallowed it: the staged files are dropped
     in_place([str(target)] * bool(len(rejects)) + [str(args.output)])  # a signal now: said after them, at the end
-    if not len(rejects) and earlier.owned:
-        remove_own(target, "rejects")  # the replaced results' own rejects would now mislead
-    elif not len(rejects) and earlier.exists:
-        from fitcore.outputs.atomic import remove_leftovers
-        remove_leftovers(target)  # a killed writer's temporary copy of it: ours by its name
+    if not len(rejects) and earlier.exists and not earlier.owned:
         print(f"note: {target} left as it was: {earlier.why}; this run rejected no row", file=sys.stderr)
     if len(rejects):  # a warning, not progress: --quiet keeps it
         most = 2 * len(rejects) > read  # then where the first is and why (its cell read again from the file)

@@ -64,6 +64,8 @@ def _run_triage(args) -> int:
     check_not_input(ledger_path, inputs)
     source.units = units
     other_ledger(source, ledger_path)
+    from fitcore.outputs import unfinished
+    source.warnings.extend(unfinished(args.source))  # said before the screen too, where it is gone once it opens
     return open_triage(source, ledger_path, args.analyst)
 
 

@@ -2,7 +2,8 @@
 
 A reader never sees a half-written file, and a failed or killed run leaves the earlier file as it was.
 Temporary names carry the writer's host and process id (``.NAME.pricefold-HOST-PID-TOKEN.tmp``), so the
-next run writing the same name removes what a dead writer left behind (never a live writer's file).
+next run writing the same name removes what a dead writer left behind (never a live writer's file, nor one a
+dead writer's batch journal still names: ``journal``).
 A new file gets the mode the umask allows (as ``open`` would give it); a replaced file keeps its mode.
 """
 from __future__ import annotations
@@ -33,7 +34,16 @@ def temp_path(path: Path) -> Path:
     return path.parent / f".{path.name[:120]}.{_TAG}-{HOST}-{os.getpid()}-{secrets.token_hex(4)}.tmp"
 
 
-def _alive(pid: int) -> bool:
+def journal_path(path: Path) -> Path:
+    """A fresh name beside ``path`` for this process's batch journal (``journal``; never a ``.tmp``)."""
+    return path.parent / f".{path.name[:120]}.{_TAG}-{HOST}-{os.getpid()}-{secrets.token_hex(4)}.journal"
+
+
+JOURNAL = re.compile(re.escape(f".{_TAG}-{HOST}-") + r"(\d+)-[0-9a-f]+\.journal$")  # this host's journals
+
+
+def alive(pid: int) -> bool:
+    """Is process ``pid`` on this host still running (this one is)?"""
     if pid == os.getpid():
         return True
     try:
@@ -46,16 +56,18 @@ def _alive(pid: int) -> bool:
 
 
 def remove_leftovers(path: Path) -> list[Path]:
-    """Remove temporary files and folders that dead writers on this host left for ``path``; return them."""
+    """Remove temporary files and folders that dead writers on this host left for ``path``; return them.  A dead
+    writer's file that its batch journal names is kept: the batch is finished from it (``journal.finish_batches``)."""
     pattern = re.compile(re.escape(f".{path.name[:120]}.{_TAG}-{HOST}-") + r"(\d+)-[0-9a-f]+\.tmp$")
     removed = []
     try:
         entries = list(os.scandir(path.parent))
     except OSError:
         return removed
+    journaled = {found.group(1) for found in map(JOURNAL.search, (entry.name for entry in entries)) if found}
     for entry in entries:
         match = pattern.match(entry.name)
-        if match is None or _alive(int(match.group(1))):
+        if match is None or match.group(1) in journaled or alive(int(match.group(1))):
             continue
         leftover = Path(entry.path)
         try:
@@ -109,29 +121,54 @@ class _Hashing:
 
 @dataclass
 class Staged:
-    """A file written in full under a temporary name: ``commit`` puts it in place, ``discard`` drops it."""
+    """A file written in full under a temporary name: ``commit`` puts it in place, ``discard`` drops it.  The
+    folder is held open meanwhile (``folder``), so a folder moved under a run still has its temporary file removed."""
 
     path: Path
     temp: Path
     sha256: str | None  # None when written by name (``stage``)
+    folder: int = -1  # the target folder's descriptor, closed once the file is put in place or dropped
 
     def commit(self) -> None:
         self.put()
-        _sync_folder(self.path.parent)
+        sync_folder(self.path.parent)
 
     def put(self) -> None:
         """Rename into place; the folder is not synced yet (``commit`` does both)."""
         try:
             os.replace(self.temp, self.path)
         except OSError as exc:
+            moved = self.folder_moved()
             self.discard()
+            if moved:
+                raise moved from None
             raise _cannot(self.path, exc) from None
+        self._close()
+
+    def folder_moved(self) -> DataError | None:
+        """The error to raise if the target's folder is no longer the one the file was written in (renamed or
+        removed while the run went on): the file would land elsewhere, or nowhere."""
+        try:
+            same = self.folder < 0 or os.path.samestat(os.fstat(self.folder), os.stat(self.path.parent))
+        except OSError:
+            same = False
+        return None if same else DataError(f"its folder {self.path.parent} was moved or removed while it was "
+                                           "written; nothing was put there", path=str(self.path))
 
     def discard(self) -> None:
         try:
-            self.temp.unlink()
+            if self.folder >= 0:  # wherever the folder is now
+                os.unlink(self.temp.name, dir_fd=self.folder)
+            else:
+                os.unlink(self.temp)
         except OSError:
             pass
+        self._close()
+
+    def _close(self) -> None:
+        if self.folder >= 0:
+            os.close(self.folder)
+            self.folder = -1
 
 
 def stage(path: str | Path, write: Callable[[BinaryIO], object], *, by_name: bool = False) -> Staged:
@@ -174,7 +211,11 @@ def stage(path: str | Path, write: Callable[[BinaryIO], object], *, by_name: boo
         if isinstance(exc, OSError):
             raise _cannot(path, exc) from None
         raise
-    return Staged(path, temp, digest)
+    try:
+        folder = os.open(path.parent, os.O_RDONLY | getattr(os, "O_DIRECTORY", 0) | getattr(os, "O_CLOEXEC", 0))
+    except OSError:
+        folder = -1  # (a system without directory descriptors: removed by name, as before)
+    return Staged(path, temp, digest, folder)
 
 
 def atomic_write(path: str | Path, write: Callable[[BinaryIO], object], *, by_name: bool = False) -> str | None:
@@ -183,46 +224,6 @@ def atomic_write(path: str | Path, write: Callable[[BinaryIO], object], *, by_na
     staged = stage(path, write, by_name=by_name)
     staged.commit()
     return staged.sha256
-
-
-class Batch:
-    """Several files written as one step: each ``add`` stages a file; leaving the ``with`` block without an
-    error puts them in place in the order added; an error drops them all, leaving earlier files as they were."""
-
-    def __init__(self) -> None:
-        self.staged: list[Staged] = []
-
-    def add(self, path: str | Path, write: Callable[[BinaryIO], object], *, by_name: bool = False) -> Staged:
-        staged = stage(path, write, by_name=by_name)
-        self.staged.append(staged)
-        return staged
-
-    def __enter__(self) -> "Batch":
-        return self
-
-    def __exit__(self, kind, value, tb) -> None:
-        if kind is not None:
-            for staged in self.staged:
-                staged.discard()
-            return
-        done = False
-        try:
-            with _signals_after():  # Ctrl+C, a kill or a closed SSH session lands after the last rename
-                for i, staged in enumerate(self.staged):
-                    try:
-                        staged.put()
-                    except BaseException:
-                        for rest in self.staged[i + 1:]:
-                            rest.discard()
-                        raise
-                for folder in dict.fromkeys(staged.path.parent for staged in self.staged):
-                    _sync_folder(folder)
-                done = True
-        except KeyboardInterrupt as exc:
-            if done:  # said as such: "nothing was written" would be untrue
-                raise InterruptedAfterWriting([str(staged.path) for staged in self.staged],
-                                              getattr(exc, "signum", signal.SIGINT)) from None
-            raise
 
 
 class InterruptedAfterWriting(KeyboardInterrupt):
@@ -239,7 +240,7 @@ _DEFERRED = ("SIGINT", "SIGTERM", "SIGHUP")
 
 
 @contextlib.contextmanager
-def _signals_after():
+def signals_after():
     """SIGINT, SIGTERM and SIGHUP that come inside the block, acted on at its end as they would have been
     (their handler called, or the default action: the process ends), so a batch's files are renamed all or
     none.  Only the main thread can set handlers; elsewhere the block runs as it is."""
@@ -277,7 +278,7 @@ def staging_folder(path: Path) -> Path:
     return folder
 
 
-def _sync_folder(folder: Path) -> None:
+def sync_folder(folder: Path) -> None:
     try:
         fd = os.open(folder, os.O_RDONLY)
     except OSError:

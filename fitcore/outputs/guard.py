@@ -29,7 +29,6 @@ from pathlib import Path
 from typing import Iterable
 
 from ..errors import DataError
-from .atomic import remove_leftovers
 
 KIND_NAMES = {"results": "a pricefold results file", "results-folder": "a pricefold results folder",
               "rejects": "a rejects file pricefold wrote", "export": "a pricefold export unchanged since written",
@@ -136,19 +135,6 @@ def _export_shaped(path: Path) -> bool:
             return len(heads) <= 1
     except (OSError, UnicodeDecodeError, csv.Error):
         return False
-
-
-def remove_own(path: "str | Path", kind: str) -> bool:
-    """Remove ``path`` if it is an earlier output of ``kind`` (a clean run's stale rejects file); True if removed."""
-    path = Path(path)
-    remove_leftovers(path)  # a killed writer's temporary copy of it goes too
-    if path.is_symlink() or not is_own(path, kind):
-        return False
-    try:
-        path.unlink()
-    except OSError as exc:
-        raise DataError(f"cannot remove an earlier run's file ({exc.strerror})", path=str(path)) from None
-    return True
 
 
 def _check_folder(path: Path) -> None:

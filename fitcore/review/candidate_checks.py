@@ -2,8 +2,8 @@
 
 ``diagnose`` checks the chosen curve of every series at once; an analyst about to
 override wants the same checks for the curve they are about to pick.  This evaluates
-one candidate through ``evidence.curve`` (whatever its family) on a grid over the
-observed prices, with the thresholds and the grid ``diagnose`` uses.
+one candidate as ``diagnose`` does: where it rises exactly (``rising``), its lowest volume
+through ``evidence.curve`` (whatever its family) on a fine grid over the observed prices.
 """
 from __future__ import annotations
 
@@ -13,8 +13,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..fit.results import Results
-from .evidence import curve
-from .flags import CODES, GRID, control_ranges
+from .evidence import basis_of, curve
+from .flags import CODES, control_ranges
+from .rising import rising
 from .thresholds import Thresholds
 
 FINE = 401  # points for the lowest volume (diagnose refines its grid minimum; a finer grid does the same job)
@@ -40,13 +41,9 @@ def candidate_checks(results: Results, s: int, c: int, thresholds: Thresholds = 
     if not results.available[s, c]:
         return CandidateChecks((), math.nan, math.nan, math.nan)
     mid, half = float(results.mid[s]), float(results.half[s])
-    prices = mid + half * np.linspace(-1.0, 1.0, GRID)
-    share = 0.0
-    if half > 0:
-        step = half * 1e-6  # slope by a central difference: its sign is what counts
-        slope = curve(results, s, c, prices + step) - curve(results, s, c, prices - step)
-        rising = slope > 0
-        share = float(np.count_nonzero(rising[1:] & rising[:-1])) / (GRID - 1)
+    family, coef, basis_mid, basis_half, smear = basis_of(results, s, c)
+    one = [np.array([float(v)]) for v in (basis_mid, basis_half, smear, results.price_lo[s], results.price_hi[s])]
+    share = float(rising(family, coef[None], *one).share[0])
     fine = mid + half * np.linspace(-1.0, 1.0, FINE)
     volume = curve(results, s, c, fine)
     low = int(np.nanargmin(volume)) if np.isfinite(volume).any() else 0

@@ -17,6 +17,7 @@ from ..fit.basis import polynomial
 from ..fit.results import Results
 from ..fit.weights import weighed_counts
 from .attention import attention_order
+from .rising import MAX_STRETCHES, rising
 from .thresholds import Thresholds
 
 # code, severity, meaning.  "stop": the proposed curve should not go into a plan
@@ -41,13 +42,14 @@ FLAGS = (
 )
 CODES = tuple(code for code, _, _ in FLAGS)
 SEVERITY = {code: severity for code, severity, _ in FLAGS}
-GRID = 41  # points over the observed price range for shape checks (the lowest point is refined)
+GRID = 41  # points over the observed price range for the lowest volume (its lowest point is refined)
 SHAPE_BLOCK = 4096  # series put on the grid at once (bounds the work arrays)
 
 
 @dataclass(frozen=True, eq=False)
 class Diagnosis:
-    """Flags of S series.  ``raised``: (S, len(CODES)) bool; ``numbers``: name → (S,) array."""
+    """Flags of S series.  ``raised``: (S, len(CODES)) bool; ``numbers``: name → (S,) array, or (S, k) where a
+    series has several (``rising_from``, ``rising_to``: each stretch where the chosen curve rises)."""
 
     results: Results
     thresholds: Thresholds
@@ -204,7 +206,8 @@ def plan_gaps(results: Results) -> np.ndarray:
     apart = np.abs(data.price - np.repeat(np.where(inside, plan, 0.0), counts))
     filled = np.flatnonzero(counts > 0)  # reduceat needs each start once: series without rows left out
     nearest = np.minimum.reduceat(apart, data.offsets[filled].astype(np.int64))
-    out[filled] = np.where(inside[filled], nearest / (hi[filled] - lo[filled]), np.nan)
+    span = hi[filled] - lo[filled]  # 0 for a series of one price: never inside, so never divided by
+    out[filled] = np.where(inside[filled], nearest / np.where(inside[filled], span, 1.0), np.nan)
     return out
 
 
@@ -292,9 +295,11 @@ def price_moments(price, offsets, lo, hi, inner, mean, var):
 
 
 def _shape(results: Results) -> dict:
-    """Where the chosen curve rises and how low it goes, on a grid over the observed prices."""
-    names = ("rising_share", "rising_from", "rising_to", "rising_slope", "lowest_volume", "lowest_at")
-    out = {name: np.full(results.n_series, np.nan) for name in names}
+    """Where the chosen curve rises (``rising``: exact stretches, up to ``MAX_STRETCHES`` a series) and how low it
+    goes (on a grid over the observed prices, its lowest point refined)."""
+    n_s = results.n_series
+    out = {name: np.full(n_s, np.nan) for name in ("rising_share", "rising_slope", "lowest_volume", "lowest_at")}
+    out.update(rising_from=np.full((n_s, MAX_STRETCHES), np.nan), rising_to=np.full((n_s, MAX_STRETCHES), np.nan))
     grid = np.linspace(-1.0, 1.0, GRID)
     chosen = results.chosen
     coef = np.asarray(results.coef)
@@ -305,43 +310,25 @@ def _shape(results: Results) -> dict:
             rows = series[start:start + SHAPE_BLOCK]
             c = chosen[rows]
             mid, half = results.mid[rows], results.half[rows]
+            curves = (coef[rows, c, :width], results.basis_mid[rows, c], results.basis_half[rows, c],
+                      results.smear[rows, c])
+            up = rising(family, *curves, results.price_lo[rows], results.price_hi[rows])
+            out["rising_share"][rows], out["rising_slope"][rows] = up.share, up.steepest
+            out["rising_from"][rows], out["rising_to"][rows] = up.start, up.stop
             price = mid[:, None] + half[:, None] * grid
-            volume, slope = family.on_grid(coef[rows, c, :width], results.basis_mid[rows, c],
-                                           results.basis_half[rows, c], results.smear[rows, c], price,
-                                           np.broadcast_to(grid, price.shape))
-            found = [np.empty(len(rows)) for _ in names]
-            shape_scan(volume, slope, price, half <= 0, *found)
-            for name, values in zip(names, found):
-                out[name][rows] = values
+            volume = family.on_grid(*curves, price, np.broadcast_to(grid, price.shape))
+            lowest, lowest_at = np.empty(len(rows)), np.empty(len(rows))
+            lowest_scan(volume, price, lowest, lowest_at)
+            out["lowest_volume"][rows], out["lowest_at"][rows] = lowest, lowest_at
     return out
 
 
 @compiled
-def shape_scan(volume, slope, price, flat, share, rising_from, rising_to, rising_slope, lowest_volume, lowest_at):
-    """Per series, its chosen curve's ``volume`` and ``slope`` (S, G) on a grid of ``price`` (S, G) over
-    its observed range: the share of the range where volume rises with price (grid intervals rising at
-    both ends; none for a ``flat`` price), the first and last rising price, the steepest rise, and the
-    lowest volume and its price (refined by a parabola through the grid minimum and its neighbours)."""
+def lowest_scan(volume, price, lowest_volume, lowest_at):
+    """Per series, its chosen curve's lowest ``volume`` (S, G) on a grid of ``price`` (S, G) over its observed
+    range, and that price: refined by a parabola through the grid minimum and its neighbours."""
     n_grid = volume.shape[1]
     for s in range(volume.shape[0]):
-        count = 0
-        first = -1
-        last = -1
-        steepest = -np.inf
-        before = False
-        for g in range(n_grid):
-            rising = slope[s, g] > 0 and not flat[s]
-            if rising:
-                if first < 0:
-                    first = g
-                last = g
-                steepest = max(steepest, slope[s, g])
-                count += before
-            before = rising
-        share[s] = count * (2.0 / (n_grid - 1)) / 2
-        rising_from[s] = price[s, max(first, 0)]
-        rising_to[s] = price[s, last if last >= 0 else n_grid - 1]
-        rising_slope[s] = steepest
         low = 0  # as numpy's argmin: the first NaN, else the first smallest
         for g in range(n_grid):
             if np.isnan(volume[s, g]):

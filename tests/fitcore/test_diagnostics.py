@@ -285,3 +285,19 @@ def test_influential_point_is_not_raised_on_rounding_noise():
     flags = {f["code"] for f in diagnose(results).flags_of(0)}
     assert results.top_cook[0] > 0.5  # what the old check judged: above max(4/n, cook_floor)
     assert results.sigma2[0, results.chosen[0]] < 1e-30 and "influential-point" not in flags
+
+
+def test_a_series_of_one_price_has_no_plan_gap_and_no_warning():
+    """A series whose price never varied (its range 0) at its own price: NaN, without numpy's divide-by-zero
+    warning (it reached the screen's test run)."""
+    import warnings
+
+    from fitcore.data.dataset import from_columns
+    from fitcore.review.flags import plan_gaps
+    data = from_columns({"product": np.array(["a"] * 5 + ["b"] * 5)}, np.r_[[2.0] * 5, 1.0, 2.0, 3.0, 4.0, 5.0],
+                        np.r_[10.0, 11.0, 9.0, 10.5, 9.5, 9.0, 8.0, 6.5, 5.0, 4.0])
+    results = fitcore.fit_batch(data, plan_price=np.array([2.0, 2.5]))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        found = plan_gaps(results)
+    assert np.isnan(found[0]) and found[1] == pytest.approx(0.5 / 4.0)

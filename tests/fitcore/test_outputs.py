@@ -125,12 +125,11 @@ def test_a_symlink_is_written_through_and_stays_a_link(tmp_path):
 
 
 def test_a_clean_run_removes_a_killed_writers_temporary_rejects_file_too(tmp_path):
-    from fitcore.outputs import remove_own
     target = tmp_path / "r.rejects.csv"
     dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
     leftover = tmp_path / f".r.rejects.csv.pricefold-{HOST}-{int(dead.stdout)}-0a1b2c3d.tmp"
     leftover.write_text("product,price,line,reason\n")
-    assert remove_own(target, "rejects") is False and not leftover.exists()
+    assert remove_leftovers(target) == [leftover] and not leftover.exists()
 
 
 def test_a_batch_lands_in_order_or_not_at_all(tmp_path):
@@ -234,6 +233,7 @@ _SIGNAL_MID_BATCH = """
 import os, signal, sys
 from pathlib import Path
 import fitcore.outputs.atomic as atomic
+import fitcore.outputs.batch as batch_module
 first, second, name = Path(sys.argv[1]), Path(sys.argv[2]), sys.argv[3]
 replace = os.replace
 def replace_then_signal(src, dst):
@@ -242,7 +242,7 @@ def replace_then_signal(src, dst):
         os.kill(os.getpid(), getattr(signal, name))
 atomic.os.replace = replace_then_signal
 try:
-    with atomic.Batch() as batch:
+    with batch_module.Batch() as batch:
         batch.add(first, lambda h: h.write(b"new rejects"))
         batch.add(second, lambda h: h.write(b"new results"))
 except KeyboardInterrupt as exc:
@@ -325,3 +325,41 @@ def test_an_edited_export_or_report_is_not_replaced(tmp_path, monkeypatch):
                      re.sub(r'(<meta name="pricefold-seal"[^>]*)>', r"\1 />", text)):
         page.write_text(unsealed)
         assert intact(page.read_bytes()) is None and not is_own(page, "report")
+
+
+# A process that wrote a batch's journal and put its first file in place, then died (as under kill -9).
+_DIED_MID_BATCH = """
+import os, sys
+from pathlib import Path
+from fitcore.outputs.atomic import stage
+from fitcore.outputs.journal import write_journal
+first, second = Path(sys.argv[1]), Path(sys.argv[2])
+staged = [stage(first, lambda h: h.write(b"new rejects")), stage(second, lambda h: h.write(b"new results"))]
+write_journal([(s.temp, s.path) for s in staged], [])
+staged[0].put()
+os._exit(0)
+"""
+
+
+def test_a_dead_writers_half_done_batch_is_kept_then_finished(tmp_path):
+    from fitcore.outputs import finish_batches, unfinished
+    first, second = tmp_path / "r.rejects.csv", tmp_path / "r.json"
+    first.write_text("old rejects")
+    second.write_text("old results")
+    subprocess.run([sys.executable, "-c", _DIED_MID_BATCH, str(first), str(second)], check=True, timeout=60)
+    assert first.read_text() == "new rejects" and second.read_text() == "old results"
+    assert remove_leftovers(second) == []  # its temporary copy is what the journal finishes from
+    assert len(unfinished(second)) == 1 and len(unfinished(first)) == 1
+    said = finish_batches(second)
+    assert len(said) == 1 and said[0].endswith("had written in full: r.rejects.csv, r.json")
+    assert first.read_text() == "new rejects" and second.read_text() == "new results"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["r.json", "r.rejects.csv"]
+    assert finish_batches(second) == [] and unfinished(second) == []
+
+
+def test_a_journal_cut_short_is_dropped_as_a_batch_never_begun(tmp_path):
+    from fitcore.outputs import finish_batches
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
+    torn = tmp_path / f".r.json.pricefold-{HOST}-{int(dead.stdout)}-0a1b2c3d.journal"
+    torn.write_text('{"format": "pricefold-batch/1", "renames": [{"temp"')
+    assert finish_batches(tmp_path / "r.json") == [] and not torn.exists()

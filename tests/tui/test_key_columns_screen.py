@@ -42,13 +42,13 @@ def series_of(path: Path) -> list[dict]:
 
 
 async def held_after_yes(app, pilot, ledger_path: Path) -> None:
-    """'h', "Yes" in the dialog, the hold (no note needed): the 156th record written."""
+    """'h', "Yes" in the dialog, the hold (no note needed): the 155th record written."""
     await pilot.press("h")
     await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
     await pilot.press("up", "enter")  # Yes
     await until(pilot, lambda: isinstance(app.screen, TextDialog))
     await pilot.press("enter")  # a hold needs no note
-    await until(pilot, lambda: len(series_of(ledger_path)) == 156)
+    await until(pilot, lambda: len(series_of(ledger_path)) == 155)
 
 
 async def test_other_key_columns_are_said_and_the_first_decision_asks_naming_both(ledger_path):
@@ -137,7 +137,7 @@ def test_a_new_key_set_appended_just_before_the_write_is_refused_under_the_lock(
 
 
 async def test_results_keyed_alike_that_share_no_series_are_said_and_the_first_decision_asks(ledger_path, tmp_path):
-    """The sample's region values lower-cased: keyed by the ledger's columns, yet not one of its 155 series is in
+    """The sample's region values lower-cased: keyed by the ledger's columns, yet not one of its 154 series is in
     these results.  Before, the header said nothing and 'h' went straight to the note box (a new set of series,
     silently); now the header says it and the first decision asks, as for other key columns."""
     import csv
@@ -153,7 +153,7 @@ async def test_results_keyed_alike_that_share_no_series_are_said_and_the_first_d
     async with app.run_test(size=(100, 30)) as pilot:
         session = await started(app, pilot)
         assert session.counts()["pending"] == session.results.n_series
-        unshared = ("No series shared: none of the 155 series in ledger.jsonl is in these results (the same key "
+        unshared = ("No series shared: none of the 154 series in ledger.jsonl is in these results (the same key "
                     "columns, other values); every series reads as pending")
         assert unshared in words(app)
         await pilot.press("h")

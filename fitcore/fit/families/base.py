@@ -7,7 +7,7 @@ coordinate, evaluates the polynomial (``basis.horner``) and builds the
 interval; the family's hooks say what the polynomial means:
 
 - ``candidates(settings)``: its candidates (names, complexity), or none when switched off;
-- ``x(price)``: its regressor; ``serves(chunk)``: the series it can fit (``unserved_reason`` for the others);
+- ``x(price)``: its regressor, ``price_of(x)`` the inverse; ``serves(chunk)``: the series it can fit (``unserved_reason`` for the others);
 - ``fit(chunk, candidates)``: every candidate on every fold of a chunk's series (``Fitted``),
   through the compiled lanes; ``fold_errors`` / ``row_errors``: its held-out errors in volume
   units, per fold or per left-out row (the fold scheme picks one);
@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..basis import mapped, polynomial, power_coefficients, values_and_slopes, window
+from ..basis import mapped, polynomial, power_coefficients, window
 
 
 @dataclass(frozen=True)
@@ -90,8 +90,13 @@ class Family:
         raise NotImplementedError
 
     def x(self, price):
-        """The family's regressor at ``price``."""
+        """The family's regressor at ``price``: increasing in it, as every volume is in its fitted value, so
+        a curve rises with price where its polynomial rises in t (``review.rising``)."""
         return price
+
+    def price_of(self, x):
+        """The price whose regressor is ``x`` (the inverse of ``x``)."""
+        return x
 
     def serves(self, chunk) -> np.ndarray | None:
         """(S,) the series of a chunk the family can fit; None: all."""
@@ -157,13 +162,11 @@ class Family:
             return volume, lo, hi, np.where(volume > 0, elasticity, np.nan)
 
     def on_grid(self, coef, mid, half, smear, price, t_price):
-        """Volume and dV/dprice (n, G) of curves ``coef`` (n, P) at prices (n, G) whose coordinate in
-        each series' price window is ``t_price``; ``mid``, ``half``, ``smear``: (n,)."""
+        """Volume (n, G) of curves ``coef`` (n, P) at prices (n, G) whose coordinate in each series' price
+        window is ``t_price``; ``mid``, ``half``, ``smear``: (n,)."""
         t = self.grid_coordinate(price, t_price, mid[:, None], half[:, None])
-        fitted, fitted_t = values_and_slopes(coef, t)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            volume = self.volume(fitted, smear[:, None])
-            return volume, self.slope(fitted_t, volume, half[:, None], price)
+            return self.volume(polynomial(coef, t), smear[:, None])
 
     def plain(self, coef, mid, half, powers=None):
         """Coefficients of powers of the regressor itself (``basis.power_coefficients``)."""

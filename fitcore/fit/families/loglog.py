@@ -20,6 +20,9 @@ class LogLog(LogVolume):
     def x(self, price):
         return np.log(price)
 
+    def price_of(self, x):
+        return np.exp(x)
+
     def serves(self, ch) -> np.ndarray:
         return (ch.v_low > 0) & (ch.lo > 0)
 
