@@ -197,6 +197,7 @@ def _show(args, keys: dict) -> int:
             show_missing(args.results, header, args.ledger, lambda key: within(key, header, products, keys))
         return 1
     binary = (header.get("settings", {}).get("controls") or {}).get("binary", [])
+    weight = (header.get("settings", {}).get("columns") or {}).get("weight")
     first = (lambda record: products.rank(next(iter(record["key"].values())))) if products else None  # as typed first
     if args.ledger is not None:
         from .cycle_cli import show_with_ledger
@@ -208,7 +209,7 @@ def _show(args, keys: dict) -> int:
             return 1
         print(shown)
     else:
-        print(detail(picked[0], binary, one_label(every, picked[0]["key"])) if len(picked) == 1
+        print(detail(picked[0], binary, one_label(every, picked[0]["key"]), weight) if len(picked) == 1
               else table(picked, first))
     if len(picked) == 1 and picked[0].get("plan"):
         from fitcore.review.plan_words import caution_of

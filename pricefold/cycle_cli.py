@@ -180,7 +180,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         status, needs = ledger_state(record, book, fitted=fitted)
         shown = looks_shown([record], like) or {0: told_apart([key_parts(record["key"])], beside)[0]}
         label = SEPARATOR.join(shown[0])
-        lines = [detail(record, binary, label), "", f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
+        weight = ((header or {}).get("settings", {}).get("columns") or {}).get("weight")
+        lines = [detail(record, binary, label, weight), "",
+                 f"ledger: {status}" + (f" — due: {needs}" if needs else "")]
         alike = like.get(series_id(record["key"]))
         if alike is not None:
             lines.append("  " + alike_line(record["key"], alike, book, ledger_path))

@@ -18,13 +18,15 @@ from .controls import ControlSpec, chunk_controls
 from .folds import FoldScheme, deal_columns
 from .scores import moments
 from .segments import segment_sums
+from .weights import unit, weighed_counts
 
 
 class Chunk:
     """Series ``s0 … s1 − 1`` of a dataset.  Row arrays (N,) in working order; per series (S,).
 
     ``t``: price mapped onto each series' window [``lo``, ``hi``] (``window``: mid, half);
-    ``y``: volume less its weighted mean ``ybar``; ``v_low``: the least volume; ``w_sum``:
+    ``y``: volume less its weighted mean ``ybar``; ``v_low``: the least volume; ``n_obs``: the rows
+    of positive weight; ``w_unit``: their mean weight, the planned week's (``weights.unit``); ``w_sum``:
     total weight; ``weight_reason``: ``reasons.NO_WEIGHT`` or ``WEIGHT_OVERFLOW`` for a series its
     weights leave nothing to fit, else 0; ``lay``: the fold layout; ``moments``: ``scores.Moments`` of ``y``;
     ``controls``: ``controls.ChunkControls`` (None without controls).
@@ -36,7 +38,8 @@ class Chunk:
         self.scheme = scheme
         self.offsets = data.offsets[s0:s1 + 1] - r0
         self.counts = np.diff(self.offsets)
-        rows = {"date": None if data.date is None else data.date[r0:r1]}
+        raw_weight = None if data.weight is None else data.weight[r0:r1]
+        rows = {"date": None if data.date is None else data.date[r0:r1], "weight": raw_weight}
         if scheme.keyed:
             rows.update(key_hash=data.key_hash[s0:s1], price=data.price[r0:r1], volume=data.volume[r0:r1],
                         more=[] if data.date is not None else [values[r0:r1] for values in deal_columns(data)])
@@ -50,6 +53,7 @@ class Chunk:
 
         self.price, self.volume, self.weight = take(data.price), take(data.volume), take(data.weight)
         self.whole = np.stack([self.offsets[:-1], self.offsets[1:]], axis=1)
+        self.n_obs = weighed_counts(self.weight, self.offsets)
         self.weight_reason = np.zeros(len(self.counts), np.int8)  # weights that leave nothing to fit
         with np.errstate(over="ignore", invalid="ignore"):
             w_sum = self.counts.astype(float) if self.weight is None else self.sums(self.weight)
@@ -57,6 +61,7 @@ class Chunk:
                 big = self.sums(self.weight * self.volume * self.volume)
                 self.weight_reason[~np.isfinite(w_sum) | ~np.isfinite(big)] = reasons.WEIGHT_OVERFLOW
                 self.weight_reason[w_sum == 0] = reasons.NO_WEIGHT
+        self.w_unit = unit(self.weight, self.offsets, self.n_obs, w_sum)
         self.w_sum = np.where(w_sum > 0, w_sum, 1.0)
         self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
         self.window = window(self.lo, self.hi)

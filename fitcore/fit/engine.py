@@ -84,7 +84,8 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, lineup: L
     cv_mse, cv_se = np.where(available, scores.cv_mse, nan), np.where(available, scores.cv_se, nan)
     chosen = choose(settings.rule, cv_mse, cv_se, available, lineup.complexity, ch.moments.tss / ch.w_sum)
     plan_volume, plan_lo, plan_hi, plan_elasticity = stages.at_plan(
-        lineup, fits, cells, available, plan, settings.level, None if ch.controls is None else ch.controls.offset)
+        lineup, fits, cells, available, plan, settings.level, ch.w_unit,
+        None if ch.controls is None else ch.controls.offset)
     top_cook, top_row = stages.influence(ch, lineup, fits, cells, chosen)
     keep = scheme.keep(available, ch.counts)
     held = {} if ch.controls is None else dict(
@@ -95,8 +96,8 @@ def _fit_chunk(data: Dataset, s0: int, s1: int, settings: FitSettings, lineup: L
         fold_err=np.where(keep, scores.fold_err, nan).reshape(-1, len(lineup.candidates)),
         n_folds=scheme.error_counts(ch.counts), price_lo=ch.lo, price_hi=ch.hi, mid=ch.window[0],
         half=ch.window[1], basis_mid=cells.mid, basis_half=cells.half, coef=cells.coef, smear=cells.smear,
-        sigma2=cells.sigma2, df=cells.df, chosen=chosen, plan_volume=plan_volume, plan_lo=plan_lo,
-        plan_hi=plan_hi, plan_elasticity=plan_elasticity, revenue_price=stages.revenue(ch, lineup, cells, chosen),
+        sigma2=cells.sigma2 / ch.w_unit[:, None], df=cells.df, chosen=chosen, plan_volume=plan_volume,
+        plan_lo=plan_lo, plan_hi=plan_hi, plan_elasticity=plan_elasticity, revenue_price=stages.revenue(ch, lineup, cells, chosen),
         top_cook=top_cook, top_row=np.where(top_row >= 0, top_row + int(data.offsets[s0]), -1),
     )
 

@@ -20,13 +20,19 @@ on the blocks held out:
   once; each row's held-out error comes exactly from the hat matrix
   (PRESS), not from n refits.
 
+With weights, a row of weight 0 tells a fit nothing, so no fold may hold
+out such rows alone (a fold of no weight has no error to average): each
+scheme deals a series' rows of positive weight as if they were all its rows,
+and its rows of weight 0 sit in a block of their own that no fold holds out
+(``FoldScheme.layout``, ``weighed_layout``).
+
 A scheme also says which of a family's two ways of computing held-out
 errors applies (``held_out``), how those errors are summarised (``scores``),
 and what a failed fold means (``fold_failure``).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -34,6 +40,7 @@ from ..errors import SettingsError
 from . import reasons
 from .scores import Moments, Scores, fold_scores, row_scores
 from .shuffle import row_values, shuffle_order
+from .weights import weighed_counts
 
 ORDERS = ("shuffled", "given", "time")
 
@@ -49,7 +56,7 @@ class FoldLayout:
     - ``held_out``: (K,) the block each fold holds out (none for leave-one-out).
     - ``cumulative``: False → fold f trains on every block but its own;
       True → on the blocks before the one it holds out.
-    - ``usable``: (S,) bool, the series has enough rows for the scheme.
+    - ``usable``: (S,) bool, the series has enough rows (of positive weight) for the scheme.
     """
 
     order: np.ndarray | None
@@ -71,11 +78,24 @@ class FoldScheme:
     comparable_folds: bool  # whether its held-out errors are per fold, so folds can be compared
     keyed = False  # whether its layout depends on the series' key hashes and the rows' values
 
-    def layout(self, offsets: np.ndarray, *, key_hash: np.ndarray | None = None, date: np.ndarray | None = None,
-               price: np.ndarray | None = None, volume: np.ndarray | None = None, more=()) -> FoldLayout:
+    def layout(self, offsets: np.ndarray, *, weight: np.ndarray | None = None, key_hash: np.ndarray | None = None,
+               date: np.ndarray | None = None, price: np.ndarray | None = None, volume: np.ndarray | None = None,
+               more=()) -> FoldLayout:
         """The rows' layout; ``key_hash`` (S,), ``date``, ``price``, ``volume`` and ``more`` (N,) each (the
         weight and control columns) where the scheme uses them (``keyed``: the key hashes and the rows' values;
-        ``TimeFolds``: the dates)."""
+        ``TimeFolds``: the dates).
+
+        ``weight`` (N,): rows of weight 0 tell a fit nothing, so the scheme's blocks are made of each
+        series' rows of positive weight alone; its rows of weight 0 go first, in a block of their own that
+        every fold trains on (where it adds nothing) and none holds out (``weighed_layout``)."""
+        rows = dict(key_hash=key_hash, date=date, price=price, volume=volume, more=more)
+        if weight is None or not (weight == 0).any():
+            return self.blocks(offsets, **rows)
+        return weighed_layout(self, offsets, weight > 0, rows)
+
+    def blocks(self, offsets: np.ndarray, *, key_hash=None, date=None, price=None, volume=None,
+               more=()) -> FoldLayout:
+        """The scheme's own layout of every row (``layout``'s arguments but the weight)."""
         raise NotImplementedError
 
     def error_counts(self, counts: np.ndarray) -> np.ndarray:
@@ -127,7 +147,7 @@ class KFold(FoldScheme):
     def order(self, offsets: np.ndarray, key_hash, date, price, volume, more) -> np.ndarray | None:
         return None
 
-    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None, more=()) -> FoldLayout:
+    def blocks(self, offsets, *, key_hash=None, date=None, price=None, volume=None, more=()) -> FoldLayout:
         counts = np.diff(offsets)
         inner = kfold_bounds(counts, self.k)
         return FoldLayout(self.order(offsets, key_hash, date, price, volume, more), inner + offsets[:-1, None],
@@ -171,7 +191,7 @@ def check_time_order(fold_order: str, has_date: bool) -> None:
 class TimeFolds(KFold):
     """Rolling origin over the rows sorted by date (scikit-learn ``TimeSeriesSplit`` block sizes)."""
 
-    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None, more=()) -> FoldLayout:
+    def blocks(self, offsets, *, key_hash=None, date=None, price=None, volume=None, more=()) -> FoldLayout:
         check_time_order("time", date is not None)
         counts = np.diff(offsets)
         series = np.repeat(np.arange(len(counts)), counts)
@@ -194,7 +214,16 @@ class LeaveOneOut(FoldScheme):
     fold_failure = reasons.LEVERAGE_ONE
     comparable_folds = False
 
-    def layout(self, offsets, *, key_hash=None, date=None, price=None, volume=None, more=()) -> FoldLayout:
+    def layout(self, offsets, *, weight=None, **rows) -> FoldLayout:
+        """One block of every row, in dataset order: a row of weight 0 is left out of the fit by its weight
+        and of the scores by their weighted sums (``scores.row_scores``); a series needs two rows of
+        positive weight."""
+        lay = self.blocks(offsets)
+        if weight is None:
+            return lay
+        return replace(lay, usable=weighed_counts(weight, offsets) >= 2)
+
+    def blocks(self, offsets, *, key_hash=None, date=None, price=None, volume=None, more=()) -> FoldLayout:
         counts = np.diff(offsets)
         return FoldLayout(None, np.stack([offsets[:-1], offsets[1:]], axis=1), np.zeros(0, np.int64), False,
                           counts >= 2)
@@ -220,6 +249,31 @@ class LeaveOneOut(FoldScheme):
         rows = np.arange(int(offsets[series]), int(offsets[series + 1]))
         for i in range(len(rows)):
             yield np.delete(rows, i), rows[i:i + 1]
+
+
+def weighed_layout(scheme: FoldScheme, offsets: np.ndarray, positive: np.ndarray, rows: dict) -> FoldLayout:
+    """``scheme``'s blocks over the rows ``positive`` (N,) of each series, after a first block of the others.
+
+    The scheme lays out the rows of positive weight as if they were all there is (the same blocks, shuffle
+    and time order as a file of those rows alone); each series' rows of weight 0 come first, in dataset
+    order, as block 0, which no fold holds out (``held_out`` moves up by one) and every fold trains on."""
+    offsets = np.asarray(offsets, dtype=np.int64)
+    counts = np.diff(offsets)
+    keep = np.flatnonzero(positive)
+    n_pos = weighed_counts(positive, offsets)  # a count a series: a cumulative sum of every row costs 5× more
+    sub_offsets = np.concatenate(([0], np.cumsum(n_pos))).astype(np.int64)
+    zeros = counts - n_pos
+    picked = {name: None if value is None else value if name == "key_hash" else value[keep]
+              for name, value in rows.items() if name != "more"}
+    sub = scheme.blocks(sub_offsets, more=[values[keep] for values in rows.get("more", ())], **picked)
+    shift = offsets[:-1] + zeros - sub_offsets[:-1]  # a series' positive rows start after its rows of weight 0
+    order = np.empty(int(offsets[-1]), dtype=np.int64)
+    order[np.arange(len(keep)) + np.repeat(shift, n_pos)] = keep if sub.order is None else keep[sub.order]
+    zero_rows = np.flatnonzero(~positive)  # grouped by series, as the rows are
+    zero_first = np.concatenate(([0], np.cumsum(zeros)))[:-1]
+    order[np.arange(len(zero_rows)) + np.repeat(offsets[:-1] - zero_first, zeros)] = zero_rows
+    bounds = np.concatenate((offsets[:-1, None], sub.bounds + shift[:, None]), axis=1)
+    return FoldLayout(order, bounds, sub.held_out + 1, sub.cumulative, sub.usable)
 
 
 def scheme_of(folds: int | str, fold_order: str, seed: int) -> FoldScheme:
@@ -262,9 +316,9 @@ def fold_ids(offsets: np.ndarray, settings, **rows) -> np.ndarray:
 
 
 def dataset_rows(data) -> dict:
-    """A ``Dataset``'s key hashes and rows as ``fold_ids`` and ``split_indices`` take them."""
-    return {"key_hash": data.key_hash, "date": data.date, "price": data.price, "volume": data.volume,
-            "more": deal_columns(data)}
+    """A ``Dataset``'s weights, key hashes and rows as ``fold_ids`` and ``split_indices`` take them."""
+    return {"weight": data.weight, "key_hash": data.key_hash, "date": data.date, "price": data.price,
+            "volume": data.volume, "more": deal_columns(data)}
 
 
 def deal_columns(data) -> list[np.ndarray]:

@@ -21,23 +21,26 @@ HELD_OUT_OVERFLOW = 11  # a held-out error beyond floating point (a price or vol
 TIED_VIF = 1e4
 
 
-def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int, unserved: str | None = None
-             ) -> str | None:
+def sentence(code: int, *, n: int, folds: int, coefficients: int, distinct: int, unserved: str | None = None,
+             weighed: bool = False) -> str | None:
     """The plain-language reason for ``code``, with the series' numbers.  ``folds``: the fewest folds the
-    scheme splits a series into; ``unserved``: the family's own reason for ``NOT_SERVED``."""
+    scheme splits a series into; ``unserved``: the family's own reason for ``NOT_SERVED``; ``weighed``: the
+    series has rows of weight 0, which ``n`` and ``distinct`` leave out (and the sentence says so)."""
     if code == NONE:
         return None
+    positive = " of positive weight" if weighed else ""
     if code == TOO_FEW_FOR_FOLDS:
-        return f"{n} observation{'s' * (n != 1)} cannot be split into {folds} folds"
+        return f"{n} observation{'s' * (n != 1)}{positive} cannot be split into {folds} folds"
     if code == FLAT_PRICE:
         return "every observation has the same price, so no curve in price can be estimated"
     if code == TOO_FEW_POINTS:
-        return f"{coefficients} coefficients need more than {coefficients} observations; the series has {n}"
+        return f"{coefficients} coefficients need more than {coefficients} observations; the series has {n}{positive}"
     if code == RANK_ALL:
-        return f"{distinct} distinct prices cannot pin down {coefficients} coefficients (too few, or too close together)"
+        return (f"{distinct} distinct prices{positive} cannot pin down {coefficients} coefficients (too few, or too "
+                "close together)")
     if code == RANK_FOLD:
         return (f"the training rows of some fold cannot pin down {coefficients} coefficients "
-                f"(too few distinct prices, or too close together; {distinct} in all)")
+                f"(too few distinct prices, or too close together; {distinct} in all{positive})")
     if code == LEVERAGE_ONE:
         return "an observation alone determines a coefficient, so leaving it out leaves the curve undefined"
     if code == NOT_SERVED:

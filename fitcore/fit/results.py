@@ -172,10 +172,14 @@ class Results:
             return None
         rows = slice(self.data.offsets[s], self.data.offsets[s + 1])
         kept = 0 if self.controls is None else int(self.controls.kept[s])
-        return reasons.sentence(code, n=int(self.data.counts[s]), folds=self.scheme.fewest_folds,
+        price, weight = self.data.price[rows], self.data.weight
+        weighed = weight is not None and bool((weight[rows] == 0).any())  # rows of weight 0 are no observations
+        if weighed:
+            price = price[weight[rows] > 0]
+        return reasons.sentence(code, n=len(price), folds=self.scheme.fewest_folds,
                                 coefficients=self.candidates[c].complexity + kept,
-                                distinct=reasons.distinct_count(self.data.price[rows]),
-                                unserved=self.family_of(c).unserved_reason)
+                                distinct=reasons.distinct_count(price),
+                                unserved=self.family_of(c).unserved_reason, weighed=weighed)
 
 
 def _empty(n_c: int, p: int, m: int = 0) -> dict:

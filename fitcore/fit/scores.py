@@ -115,12 +115,35 @@ def row_scores(errors: np.ndarray, offsets: np.ndarray, w: np.ndarray | None, mo
     def per_series(values):
         return segment_sums(values.T.ravel(), bounds).reshape(n_c, -1).T
 
+    if w is not None:
+        return _weighted_row_scores(errors, offsets, w, per_series, mom)
     n = np.maximum(counts, 1)[:, None].astype(float)
     with np.errstate(invalid="ignore", over="ignore"):  # unavailable cells may hold inf; they are masked later
         mean = per_series(errors) / n
         spread = per_series((errors - np.repeat(mean, counts, axis=0)) ** 2)
     se = np.sqrt(spread / np.maximum(n - 1, 1) / n)
-    press = per_series(errors if w is None else errors * w[:, None])
+    press = per_series(errors)
+    return Scores(errors, mean, se, press, mom.tss)
+
+
+def _weighted_row_scores(errors, offsets, w, per_series, mom: Moments) -> Scores:
+    """Leave-one-out with weights: the weighted mean of the held-out squared errors, m = Σw·e²/Σw, and
+    its standard error √(n/(n − 1)·Σw²(e² − m)²)/Σw over the n rows of positive weight (with equal
+    weights, the unweighted mean and sd/√n); a row of weight 0 counts for nothing, whatever its error."""
+    whole = np.stack([offsets[:-1], offsets[1:]], axis=1)
+    total = segment_sums(w, whole)
+    n = segment_sums((w > 0).astype(np.float64), whole)
+    total = np.where(total > 0, total, 1.0)
+    zero = np.flatnonzero(w == 0)
+    weight = w[:, None]
+    with np.errstate(invalid="ignore", over="ignore"):  # unavailable cells may hold inf; they are masked later
+        weighted = weight * errors
+        weighted[zero] = 0.0  # 0·inf would be NaN
+        press = per_series(weighted)
+        mean = press / total
+        apart = weight * (errors - np.repeat(mean, np.diff(offsets), axis=0))
+        apart[zero] = 0.0
+        se = np.sqrt(per_series(apart * apart) * n / np.maximum(n - 1, 1)) / total
     return Scores(errors, mean, se, press, mom.tss)
 
 

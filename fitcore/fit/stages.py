@@ -63,7 +63,7 @@ def gather(ch: Chunk, lineup: Lineup, fits: list[Fitted]) -> Cells:
         fit_ok[:, cols], held_ok[:, cols], held_out[..., cols] = fit.fit_ok, fit.held_ok, fit.held_out
         sse[:, cols], fit_sse[:, cols], smear[:, cols] = fit.sse, fit.fit_sse, fit.smear
         unserved[:, cols] = False if fit.unserved is None else fit.unserved[:, None]
-    df = ch.counts[:, None] - lineup.complexity[None, :]
+    df = ch.n_obs[:, None] - lineup.complexity[None, :]  # a row of weight 0 is no observation
     gamma = None
     if ch.controls is not None:
         gamma = np.concatenate([fit.gamma for fit in fits], axis=1)
@@ -91,7 +91,7 @@ def unavailable(ch: Chunk, lineup: Lineup, cells: Cells, cv_mse: np.ndarray) -> 
         (cells.unserved, R.NOT_SERVED),
         (~ch.lay.usable[:, None], R.TOO_FEW_FOR_FOLDS),
         ((ch.window[1] <= 0)[:, None] & (n_coef > 1)[None, :], R.FLAT_PRICE),
-        (ch.counts[:, None] <= every_coef, R.TOO_FEW_POINTS),
+        (ch.n_obs[:, None] <= every_coef, R.TOO_FEW_POINTS),
         (~cells.fit_ok, R.RANK_ALL),
         (~cells.held_ok, ch.scheme.fold_failure),
         (~np.isfinite(cv_mse), R.HELD_OUT_OVERFLOW),
@@ -111,9 +111,11 @@ def unavailable(ch: Chunk, lineup: Lineup, cells: Cells, cv_mse: np.ndarray) -> 
 
 
 def at_plan(lineup: Lineup, fits: list[Fitted], cells: Cells, available: np.ndarray, plan: np.ndarray,
-            level: float, offset: np.ndarray | None = None) -> list[np.ndarray]:
+            level: float, w_unit: np.ndarray, offset: np.ndarray | None = None) -> list[np.ndarray]:
     """(S, C) volume, interval bounds and elasticity of every available candidate at the plan price
-    (``offset`` (S, m): the plan's centred control values, with controls)."""
+    (``offset`` (S, m): the plan's centred control values, with controls).  The planned week weighs
+    ``w_unit`` (S,), the series' average row of positive weight: σ²/w_unit + σ²·xᵀ(XᵀWX)⁻¹x is
+    σ²/w_unit·(1 + w_unit·xᵀ(XᵀWX)⁻¹x) (``weights``)."""
     out = [np.full(available.shape, np.nan) for _ in range(4)]
     at = np.flatnonzero(np.isfinite(plan))
     if not len(at):
@@ -128,8 +130,9 @@ def at_plan(lineup: Lineup, fits: list[Fitted], cells: Cells, available: np.ndar
             lev, shift = design_leverages(t, offset[at].T, fit.lower[at], fit.scale[at]), offset.shape[1]
         for c in range(cols.start, cols.stop):
             size = int(lineup.complexity[c])
-            values = family.at(cells.coef[at, c, :size], mid, half, cells.smear[at, c], lev[shift + size - 1],
-                               cells.sigma2[at, c], cells.df[at, c], price, level)
+            values = family.at(cells.coef[at, c, :size], mid, half, cells.smear[at, c],
+                               lev[shift + size - 1] * w_unit[at], cells.sigma2[at, c] / w_unit[at], cells.df[at, c],
+                               price, level)
             for column, value in zip(out, values):
                 column[at, c] = np.where(available[at, c], value, np.nan)
     return out

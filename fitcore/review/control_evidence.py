@@ -16,6 +16,7 @@ from ..fit.controlled_rows import design_leverages
 from ..fit.controls import KEPT, season_terms
 from ..fit.gram_lanes import factor_gram, tri
 from ..fit.results import Results
+from ..fit.weights import relative
 
 
 def control_rows(results: Results, s: int) -> np.ndarray:
@@ -40,7 +41,8 @@ def centred(results: Results, s: int) -> tuple[np.ndarray, np.ndarray]:
     """(M, n) the series' control rows centred on their (weighted) mean, 0 where left out; (M,) the means."""
     raw = control_rows(results, s)
     data = results.data
-    weight = None if data.weight is None else data.weight[data.offsets[s]:data.offsets[s + 1]]
+    weight = None if data.weight is None else relative(data.weight[data.offsets[s]:data.offsets[s + 1]],
+                                                       np.array([0, int(data.counts[s])]))
     mean = np.average(raw, axis=1, weights=weight) if raw.shape[1] else np.zeros(len(raw))
     kept = np.asarray(results.controls.left_out[s]) == KEPT
     return np.where(kept[:, None], raw - mean[:, None], 0.0), mean

@@ -12,13 +12,16 @@ import numpy as np
 
 from ..fit.basis import leverages, series_factor
 from ..fit.results import Results
+from ..fit.weights import relative
 from . import control_evidence
 
 
 def series_rows(results: Results, s: int) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    """Series ``s``'s prices, volumes and weights as the engine fits them (``weights.relative``)."""
     data = results.data
     rows = slice(data.offsets[s], data.offsets[s + 1])
-    return data.price[rows], data.volume[rows], None if data.weight is None else data.weight[rows]
+    weight = None if data.weight is None else relative(data.weight[rows], np.array([0, rows.stop - rows.start]))
+    return data.price[rows], data.volume[rows], weight
 
 
 def basis_of(results: Results, s: int, c: int):

@@ -15,6 +15,7 @@ from ..compiled import compiled, readonly
 from ..fit import reasons as R
 from ..fit.basis import polynomial
 from ..fit.results import Results
+from ..fit.weights import weighed_counts
 from .attention import attention_order
 from .rising import MAX_STRETCHES, rising
 from .thresholds import Thresholds
@@ -123,7 +124,7 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
     """Raise every flag that applies to every series of ``results``."""
     data = results.data
     n_s = results.n_series
-    counts = data.counts.astype(float)
+    counts = weighed_counts(data.weight, data.offsets).astype(float)  # a row of weight 0 is no observation
     chosen = results.chosen
     has = chosen >= 0
     pick = np.maximum(chosen, 0)

@@ -18,6 +18,7 @@ import numpy as np
 
 from ..compiled import compiled, readonly
 from ..fit.results import Results
+from ..fit.weights import relative
 
 BLOCK = 4096  # series factored at once (bounds the lanes' work arrays)
 
@@ -157,16 +158,17 @@ def _controlled_covariances(results: Results, block: np.ndarray):
 
 
 def _block_rows(data, block: np.ndarray):
-    """(price, weight or empty, offsets) of the rows of series ``block``, the offsets counted from the
-    first of them: a view where the block is a run of consecutive series (the usual case), else a copy."""
+    """(price, weight or empty, offsets) of the rows of series ``block``, the weights over each series' mean
+    positive weight (``weights.relative``), the offsets counted from the first of them: a view where the block
+    is a run of consecutive series (the usual case), else a copy."""
     weight = np.empty(0) if data.weight is None else data.weight
     if len(block) and block[-1] - block[0] + 1 == len(block) and np.all(np.diff(block) == 1):
         lo, hi = int(data.offsets[block[0]]), int(data.offsets[block[-1] + 1])
         local = np.ascontiguousarray(data.offsets[block[0]:block[-1] + 2] - lo)
-        return data.price[lo:hi], weight[lo:hi] if len(weight) else weight, local
+        return data.price[lo:hi], relative(weight[lo:hi], local) if len(weight) else weight, local
     rows = rows_of(data.offsets, block)
     local = np.concatenate(([0], np.cumsum(data.counts[block]))).astype(np.int64)
-    return data.price[rows], np.ascontiguousarray(weight[rows]) if len(weight) else weight, local
+    return data.price[rows], relative(weight[rows], local) if len(weight) else weight, local
 
 
 def rows_of(offsets: np.ndarray, series: np.ndarray) -> np.ndarray:

@@ -68,9 +68,15 @@ def caution_of(settings: dict, decides: str = DECIDES) -> str:
     return caution(columns, int(controls.get("season") or 0), decides)
 
 
+WEIGHTED = ("rows of weight 0 count for nothing; intervals are for a week weighing as much as its series' average "
+            "row of positive weight")
+
+
 def weighting_words(column: str | None) -> str:
-    """How the rows count in every fit: "weighted by column w (weighted least squares)", or "unweighted"."""
-    return f"weighted by column {column} (weighted least squares)" if column else "unweighted (every row counts alike)"
+    """How the rows count in every fit, and what a weighted interval is for (``fitcore.fit.weights``):
+    "weighted by column w (weighted least squares: …)", or "unweighted"."""
+    return (f"weighted by column {column} (weighted least squares: {WEIGHTED})" if column else
+            "unweighted (every row counts alike)")
 
 
 def weight_column(results) -> str | None:

@@ -87,10 +87,14 @@ def sentence(diag, s: int, code: str) -> str:
 
 
 def _few_points(diag, s):
-    n = int(diag.results.data.counts[s])
+    data = diag.results.data
+    n = int(data.counts[s])
     wanted = diag.thresholds.min_points
     weightless = diag.results.reason[s, 0] in (R.NO_WEIGHT, R.WEIGHT_OVERFLOW) and diag.results.chosen[s] < 0
     said = f"{n} observation{'s' * (n != 1)}"
+    weighed = n if data.weight is None else int((data.weight[data.offsets[s]:data.offsets[s + 1]] > 0).sum())
+    if not weightless and weighed < n:  # rows of weight 0 are no observations
+        said = f"{weighed} observation{'s' * (weighed != 1)} of positive weight"
     if weightless:
         return f"{said}, but {diag.results.reason_text(s, 0)}."
     if diag.results.chosen[s] < 0:

@@ -19,6 +19,7 @@ from typing import Callable
 from fitcore.ledger.signoff import LedgerView, Signoff, flag_table
 from fitcore.outputs.seal import blank_tag
 from fitcore.review.flags import FLAGS
+from fitcore.review.plan_words import WEIGHTED
 from fitcore.review.plan_words import caution_of as plan_caution
 from fitcore.review.sentences import HUGE, fmt, money, two_places
 from fitcore.text import clean, printable
@@ -234,7 +235,7 @@ def weights_text(settings: dict) -> str:
     """'none (every row counts alike)', or the weight column: a weighted fit is another model (a trial's report of
     one did not say it was weighted)."""
     column = (settings.get("columns") or {}).get("weight")
-    return f"column <code>{esc(column)}</code>" if column else "none (every row counts alike)"
+    return f"column <code>{esc(column)}</code> ({WEIGHTED})" if column else "none (every row counts alike)"
 
 
 def _ledger_facts(report: Report) -> list[tuple[str, str]]:

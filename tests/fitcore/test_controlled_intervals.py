@@ -1,7 +1,8 @@
 """A curve fitted with controls, away from its plan price: the interval signed, exported, backtested and drawn.
 
 Reference: statsmodels ``WLS`` on [1, the price terms, the controls] and
-``get_prediction(...).summary_frame(alpha=0.05)`` ``obs_ci_lower``/``obs_ci_upper`` at the point
+``get_prediction(..., weights=the mean positive weight).summary_frame(alpha=0.05)``
+``obs_ci_lower``/``obs_ci_upper`` at the point
 [1, the price terms at p, the plan's control values] (the log families fitted to ln volume, the bounds
 exponentiated), at three prices a series: its lowest, the middle of its range and 10% above its highest.
 One control (a 0/1 promotion) alone, and with one season pair.
@@ -60,7 +61,9 @@ def reference(data, s, cand, season, held, prices):
                                   control_rows(data, s, season)]), weights=w).fit()
     points = np.column_stack([np.ones(len(prices)), price_terms(prices, cand.family, cand.degree),
                               np.tile(held, (len(prices), 1))])
-    frame = fit.get_prediction(points).summary_frame(alpha=0.05)
+    # the planned week weighs as the series' average row of positive weight (statsmodels: the new rows'
+    # ``weights``, "used for the variance of the predicted residual")
+    frame = fit.get_prediction(points, weights=np.mean(w[w > 0])).summary_frame(alpha=0.05)
     bounds = frame[["obs_ci_lower", "obs_ci_upper"]].to_numpy().T
     return np.exp(bounds) if logged else bounds
 

@@ -66,12 +66,13 @@ def test_every_family_matches_statsmodels_at_the_plan_controls(weighted):
                          np.column_stack([np.ones(len(price)), terms, controls]), weights=w).fit()
             at = plan["plan_price"][s]
             point = np.concatenate(([1.0], price_terms(np.array([at]), cand.family, cand.degree)[0], held))
-            frame = fit.get_prediction(point[None]).summary_frame(alpha=0.05)
+            unit = np.mean(w[w > 0])  # the planned week weighs as the average row of positive weight
+            frame = fit.get_prediction(point[None], weights=unit).summary_frame(alpha=0.05)
             size = cand.complexity
             np.testing.assert_allclose(results.power_coef(s, c), fit.params[:size], rtol=1e-7,
                                        atol=1e-9 * np.abs(fit.params[:size]).max())
             np.testing.assert_allclose(ctl.coef[s, c], fit.params[size:], rtol=1e-7, atol=1e-10)
-            np.testing.assert_allclose(results.sigma2[s, c], fit.scale, rtol=1e-8)
+            np.testing.assert_allclose(results.sigma2[s, c], fit.scale / unit, rtol=1e-8)
             if logged:
                 smear = np.average(np.exp(fit.resid), weights=w)  # Duan's smearing estimate
                 np.testing.assert_allclose(results.smear[s, c], smear, rtol=1e-10)

@@ -39,8 +39,11 @@ def test_covariance_in_the_basis_matches_statsmodels():
         for c in np.flatnonzero(results.available[s]):
             family, coef, mid, half, _ = basis_of(results, s, c)
             design = np.vander(family.coordinate(data.price[rows], mid, half), len(coef), increasing=True)
-            fit = sm.WLS(family.response(data.volume[rows]), design, weights=data.weight[rows]).fit()
-            np.testing.assert_allclose(covariance(results, s, c), fit.normalized_cov_params, rtol=1e-7, atol=1e-12)
+            w = data.weight[rows]
+            fit = sm.WLS(family.response(data.volume[rows]), design, weights=w).fit()
+            # (XᵀWX)⁻¹ of the weights over their mean, the planned week's weight (``fitcore.fit.weights``)
+            np.testing.assert_allclose(covariance(results, s, c), fit.normalized_cov_params * np.mean(w[w > 0]),
+                                       rtol=1e-7, atol=1e-12)
             np.testing.assert_allclose(coef, fit.params, rtol=1e-7, atol=1e-9 * np.abs(fit.params).max())
             checked += 1
     assert checked > 80

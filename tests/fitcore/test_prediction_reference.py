@@ -14,10 +14,14 @@ from tests.conftest import random_dataset, series_arrays
 
 
 def reference_interval(x, y, degree, at, w=None):
+    """statsmodels' interval for a new observation; weighted, one weighing as the series' average row of
+    positive weight (``get_prediction(weights=…)``: "Weights interpreted as in WLS, used for the variance of
+    the predicted residual", statsmodels/regression/_prediction.py, ``var_resid /= weights``)."""
     mid, half = (x.min() + x.max()) / 2, (x.max() - x.min()) / 2
     design = lambda v: np.vander((np.atleast_1d(v) - mid) / half, degree + 1, increasing=True)  # noqa: E731
     model = sm.OLS(y, design(x)) if w is None else sm.WLS(y, design(x), weights=w)
-    frame = model.fit().get_prediction(design(at)).summary_frame(alpha=0.05)
+    new_weight = None if w is None else np.mean(w[w > 0])
+    frame = model.fit().get_prediction(design(at), weights=new_weight).summary_frame(alpha=0.05)
     return frame["mean"].iloc[0], frame["obs_ci_lower"].iloc[0], frame["obs_ci_upper"].iloc[0]
 
 

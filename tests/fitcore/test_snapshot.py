@@ -33,10 +33,11 @@ def test_covariances_of_every_candidate_match_statsmodels():
             k = results.candidates[c].complexity
             family = results.family_of(c)
             t = family.coordinate(data.price[rows], results.basis_mid[s, c], results.basis_half[s, c])
-            fit = sm.WLS(family.response(data.volume[rows]), np.vander(t, k, increasing=True),
-                         weights=data.weight[rows]).fit()
-            np.testing.assert_allclose(cov[s, c, :k, :k], fit.normalized_cov_params, rtol=1e-7, atol=1e-12)
-            np.testing.assert_allclose(results.sigma2[s, c], fit.scale, rtol=1e-7)
+            w = data.weight[rows]
+            fit = sm.WLS(family.response(data.volume[rows]), np.vander(t, k, increasing=True), weights=w).fit()
+            unit = np.mean(w[w > 0])  # the planned week's weight: σ² and (XᵀWX)⁻¹ of the weights over it
+            np.testing.assert_allclose(cov[s, c, :k, :k], fit.normalized_cov_params * unit, rtol=1e-7, atol=1e-12)
+            np.testing.assert_allclose(results.sigma2[s, c], fit.scale / unit, rtol=1e-7)
             assert results.df[s, c] == fit.df_resid
             checked += 1
         assert np.isnan(cov[s, ~results.available[s]]).all()

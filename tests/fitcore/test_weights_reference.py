@@ -26,7 +26,8 @@ def test_weighted_coefficients_match_statsmodels_wls():
                 mid, half = (x.min() + x.max()) / 2, (x.max() - x.min()) / 2
                 fit = sm.WLS(y, np.vander((x - mid) / half, cand.degree + 1, increasing=True), weights=w).fit()
                 np.testing.assert_allclose(results.coef[s, c, :cand.degree + 1], fit.params, rtol=1e-8, atol=1e-8 * np.abs(y).max())
-                np.testing.assert_allclose(results.sigma2[s, c], fit.scale, rtol=1e-8)
+                # σ² of a row of the series' average weight (the planned week's: ``fit.weights``)
+                np.testing.assert_allclose(results.sigma2[s, c], fit.scale / np.mean(w[w > 0]), rtol=1e-8)
             else:
                 fit = sm.WLS(np.log(y), sm.add_constant(np.log(x)), weights=w).fit()
                 np.testing.assert_allclose(results.power_coef(s, c), fit.params, rtol=1e-8)

@@ -307,4 +307,5 @@ def test_the_settings_say_whether_the_fit_was_weighted(tmp_path, page):
     assert cli.main(["ledger", "accept-unflagged", str(results), "--ledger", str(tmp_path / "L.jsonl"), "-q"]) == 0
     out = tmp_path / "w.html"
     assert cli.main(["report", str(results), "--ledger", str(tmp_path / "L.jsonl"), "-o", str(out)]) == 0
-    assert "<dt>Weights</dt><dd>column <code>w</code></dd>" in out.read_text()
+    assert ("<dt>Weights</dt><dd>column <code>w</code> (rows of weight 0 count for nothing; intervals are for a week "
+            "weighing as much as its series' average row of positive weight)</dd>") in out.read_text()

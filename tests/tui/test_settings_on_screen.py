@@ -49,7 +49,9 @@ async def test_a_weighted_fit_says_so_and_a_flat_price_has_no_elasticity(ledger_
         await started(app, pilot)
         results = app.session.results
         s = next(i for i in range(results.n_series) if results.price_hi[i] == results.price_lo[i])
-        assert "Weighted by column w (weighted least squares)." in app.screen.evidence.settings_text(s)
+        assert ("Weighted by column w (weighted least squares: rows of weight 0 count for nothing; intervals are for "
+                "a week weighing as much as its series' average row of positive weight).") \
+            in app.screen.evidence.settings_text(s)
         said = predicts(results, s, int(results.chosen[s]), diagnosis=app.session.diagnosis)
         assert said.endswith("elasticity not estimable (price never varied in this series)")
         assert "Every fit weighted by column w" in rendered(help_text(results=results))
