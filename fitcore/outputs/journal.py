@@ -2,8 +2,9 @@
 ``kill -9`` (or the power goes) between two renames.
 
 Before its first rename a batch writes, beside its first target, a small fsynced journal
-(``.NAME.pricefold-HOST-PID-TOKEN.journal``): each temporary file, the name it goes to and its inode (a rename keeps
-it: that is how a rename already done is known), then each file to remove with the SHA-256 it must still have.
+(``.NAME.pricefold-HOST-PID-TOKEN.journal``): each temporary file, the name it goes to, its inode (a rename keeps
+it: that is how a rename already done is known) and its size and modification time (a copy of the folder keeps
+those), then each file to remove with the SHA-256 it must still have.
 Then the renames, the removals, and the journal removed.  A journal whose process is gone (this host, by its pid,
 as ``atomic.remove_leftovers`` judges) is a batch cut short after it was decided: the next writer of one of its
 names finishes it (``finish_batches``: the temporary files are whole and synced, so the renames are redone), or,
@@ -33,8 +34,8 @@ def write_journal(renames: list[tuple[Path, Path]], removals: list[tuple[Path, s
     journal = journal_path(first)
     folder = journal.parent
     body = {"format": FORMAT,
-            "renames": [{"temp": _relative(temp, folder), "target": _relative(target, folder),
-                         "inode": os.stat(temp).st_ino} for temp, target in renames],
+            "renames": [{"temp": _relative(temp, folder), "target": _relative(target, folder), **_identity(temp)}
+                        for temp, target in renames],
             "removals": [{"path": _relative(path, folder), "sha256": digest} for path, digest in removals]}
     fd = os.open(journal, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_CLOEXEC", 0), 0o600)
     try:
@@ -113,11 +114,11 @@ def _dead_journals(path: Path, drop_torn: bool):
 
 def _finish(journal: Path, body: dict) -> str:
     folder = journal.parent
-    renames = [(folder / entry["temp"], folder / entry["target"], entry["inode"]) for entry in body["renames"]]
-    gone = [target for temp, target, inode in renames if not os.path.lexists(temp) and _inode(target) != inode]
+    renames = [(folder / entry["temp"], folder / entry["target"], entry) for entry in body["renames"]]
+    gone = [target for temp, target, entry in renames if not os.path.lexists(temp) and not _is_new(target, entry)]
     pid = JOURNAL.search(journal.name).group(1)
     if gone:  # its new copy removed by someone: the step cannot be whole, so it is undone as far as it can be
-        done = [target for temp, target, inode in renames if _inode(target) == inode]
+        done = [target for temp, target, entry in renames if _is_new(target, entry)]
         for temp, target, _ in renames:
             _drop(temp)
         for target in done:  # beside the earlier files it would mislead; the one it replaced cannot come back
@@ -126,12 +127,12 @@ def _finish(journal: Path, body: dict) -> str:
         return (f"warning: {gone[0]}: a fit killed while putting its files in place (pid {pid}) cannot be finished: "
                 f"the new copy of {', '.join(target.name for target in gone)} is gone; "
                 + (f"removed the new {', '.join(target.name for target in done)} it had put in place (the earlier "
-                   "one it replaced is lost)" if done else "the earlier files are as they were"))
-    for temp, target, inode in renames:
+                   "one it replaced is lost)" if done else "the files there are left as they are"))
+    for temp, target, entry in renames:
         try:
             os.replace(temp, target)
         except FileNotFoundError:
-            if _inode(target) != inode:  # else done already (by the killed run, or another run finishing it)
+            if not _is_new(target, entry):  # else done already (by the killed run, or another run finishing it)
                 raise
     removed = []
     for entry in body["removals"]:
@@ -150,11 +151,21 @@ def _listed(journal: Path, body: dict) -> str:
     return ", ".join([entry["target"] for entry in body["renames"]] + [entry["path"] for entry in body["removals"]])
 
 
-def _inode(path: Path) -> int | None:
+def _identity(temp: Path) -> dict:
+    """What tells a temporary file once renamed: its inode (a rename keeps it), and its size and modification time
+    (a copy of the folder — ``cp -a``, a restore — keeps those, not the inode)."""
+    info = os.stat(temp)
+    return {"inode": info.st_ino, "size": info.st_size, "mtime_ns": info.st_mtime_ns}
+
+
+def _is_new(target: Path, entry: dict) -> bool:
+    """Whether ``target`` is the temporary file ``entry`` names, renamed (here, or in a copy of the folder)."""
     try:
-        return os.lstat(path).st_ino
+        info = os.lstat(target)
     except OSError:
-        return None
+        return False
+    return info.st_ino == entry["inode"] or (
+        (info.st_size, info.st_mtime_ns) == (entry.get("size"), entry.get("mtime_ns")) and stat.S_ISREG(info.st_mode))
 
 
 def _drop(path: Path) -> None:

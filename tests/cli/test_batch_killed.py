@@ -152,3 +152,16 @@ def test_a_folder_moved_during_the_fit_keeps_no_temporary_file(folder):
     assert run.wait(60) == 2
     assert "its folder out was moved or removed while it was written; nothing was put there" in run.stderr.read()
     assert list((folder / "moved").iterdir()) == []
+
+
+def test_a_copy_of_the_folder_made_after_the_kill_is_finished_as_the_folder_would_be(folder, tmp_path_factory):
+    """``cp -a`` of the folder (a backup restored, a move to another disk) between the kill and the next run: every
+    inode changes.  Before, the rejects file already renamed read as "gone", the killed run's whole results were
+    deleted and the line said "the earlier files are as they were" beside the new rejects file."""
+    assert fit(folder, "a.csv", "r.json").returncode == 0
+    killed(folder, "before:replace:r.json", "b.csv", "r.json")  # its rejects file in place, its results not yet
+    copy = tmp_path_factory.mktemp("restored") / "copy"
+    subprocess.run(["cp", "-a", str(folder), str(copy)], check=True)
+    finished = fit(copy, "a.csv", "r.json", "--strict")  # writes nothing of its own: what is left is the finish
+    assert "put in place what a fit killed" in finished.stderr, finished.stderr
+    assert pair(copy, "r.json")[0] == "b.csv" and left_over(copy) == []  # the killed run's pair, whole
