@@ -81,7 +81,7 @@ def _demo(args, open_triage, sample, shipped: Path, ready: bool, results_path: P
     if ready:
         sample.expected_sha256 = place_shipped(shipped, results_path, sample)
         written.append(str(results_path))
-        print(f"the invented sample's results → {results_path} (refitted behind the screen)", file=sys.stderr)
+        print(f"the invented sample's results → {results_path} (refitted behind the screen once it opens)", file=sys.stderr)
         _report_hint(results_path, folder)
         from fitcore.compiled import looks_compiled
         if not looks_compiled():

@@ -219,7 +219,7 @@ def unread_columns_note(path: Path, unread: tuple[str, ...], columns: Columns, s
     from ..text import clean
     if not unread:
         return ""
-    names = ", ".join(map(quoted, unread[:shown])) + (f" and {len(unread) - shown} more" if len(unread) > shown else "")
+    names = header_names(list(unread), shown)
     merged = "" if columns.segments else (f"; every row of a {clean(columns.product)} is one series whatever these say "
                                           "(--segment COL splits them)")
     return f"note: {clean(str(path))}: data column{'s' * (len(unread) > 1)} not used: {names}{merged}"

@@ -53,3 +53,10 @@ def test_many_unread_columns_are_counted_past_eight(tmp_path, capsys):
     [line] = notes(capsys, data, tmp_path / "r.json")
     assert line.startswith(f"note: {data}: data columns not used: 'c0', 'c1', ")
     assert "'c7' and 3 more; every row" in line and "''" not in line  # the trailing delimiter's blank name left out
+
+
+def test_a_long_unread_name_is_cut_as_the_header_s_error_cuts_it():
+    from fitcore.data.columns import Columns
+    from fitcore.data.loader import unread_columns_note
+    note = unread_columns_note(Path("d.csv"), ("notes " + "x" * 60, "week"), Columns(segments=("region",)))
+    assert note == "note: d.csv: data columns not used: 'notes " + "x" * 33 + "…', 'week'"
