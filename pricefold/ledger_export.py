@@ -70,7 +70,7 @@ def run_export(args) -> int:
     own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi", "elasticity": "plan_elasticity"}
     level = (header.get("settings") or {}).get("level")
     rows: list[list] = []
-    unmeasured: list[int] = []  # rows of a series whose price never varied: no elasticity to write
+    unmeasured: list[int] = []  # rows whose elasticity nothing measured (price never varied, or tied to a control)
     later: list[tuple] = []  # (row, key, snapshot, price, the results' numbers): signed curves at another price
     from fitcore.collector import collector_paused
     from fitcore.ledger.snapshot import signed_plan
@@ -117,7 +117,10 @@ def run_export(args) -> int:
                          current.get("note", "") if current else "", _number(plan.get("price")),
                          *plan_cells(at_plan), carried_from(history), *carried_decision(history), head,
                          *seen.cells(plan.get("price") if status != "stale" else None)])
-            if not varied:
+            # a flat curve chosen where price moved with a control: its 0 is the model's choice, and the price
+            # effect may sit in the control's term — no more a measurement than a curve of one price
+            tied_flat = status != "stale" and model == "poly0" and "price-tied" in seen.codes
+            if not varied or tied_flat:
                 unmeasured.append(len(rows) - 1)
     said, found = meets(keys, book, args.ledger) if book.histories else (None, None)
     if said:  # a warning, not a refusal: a team ledger may hold other product ranges keyed alike
@@ -131,7 +134,7 @@ def run_export(args) -> int:
     if later:
         _signed_at_price(args.results, rows, later, level)
     at = len(keys[0]) + COLUMNS.index("plan_elasticity") if keys else 0
-    for row in unmeasured:  # 0 from a curve of one price measures nothing (README: "not estimable")
+    for row in unmeasured:  # a 0 that measures nothing (README: "not estimable")
         rows[row][at] = ""
     for row in rows:
         writer.writerow(made(row))

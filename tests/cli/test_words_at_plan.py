@@ -154,3 +154,30 @@ def test_the_report_writes_a_volume_and_its_interval_in_one_format():
     assert alike(666152270.0, 44196121.0, 1.29e9) == ["6.66e+08", "4.42e+07", "1.29e+09"]
     assert interval(44196121.0, 1.29e9, 666152270.0) == "4.42e+07–1.29e+09"
     assert alike(541.9, -63.75, 1147.6) == ["541.9", "−63.75", "1,148"]
+
+
+def test_the_export_leaves_empty_the_elasticity_of_a_flat_curve_chosen_where_price_moved_with_a_control(tmp_path):
+    """rival = 1.1 × price exactly: every curve with a price term is unavailable, poly0 is chosen, price-tied
+    raised.  Before: the export wrote plan_elasticity 0.0, read downstream as measured (a new user's trial)."""
+    rng = np.random.default_rng(5)
+    rows = ["product,week,price,volume,rival"]
+    for name, tied in (("tied", True), ("free", False), ("held", False)):
+        price = rng.uniform(1.5, 3.5, 50)
+        rival = 1.1 * price if tied else rng.uniform(2, 4, 50)
+        volume = 1400 - 150 * price - 180 * rival + rng.normal(0, 15, 50)
+        for i, (p, v, r) in enumerate(zip(price, volume, rival)):
+            rows.append(f"{name},{np.datetime64('2024-01-01') + np.timedelta64(7 * i, 'D')},{p:.4f},{v:.4f},{float(r)!r}")
+    data, results, out = tmp_path / "d.csv", tmp_path / "r.json", tmp_path / "e.csv"
+    data.write_text("\n".join(rows) + "\n")
+    assert main(["fit", str(data), "--date", "week", "--control", "rival", "--plan-price", "2.5", "-o", str(results),
+                 "-q"]) == 0
+    document = json.loads(results.read_text())
+    held = [ledger.Entry(series=r["key"], action="hold", fingerprint=r["fingerprint"],
+                         results=ledger.results_digest(document), note="look again")
+            for r in document["series"] if r["key"]["product"] == "held"]  # (an export needs a ledger)
+    ledger.append(tmp_path / "L.jsonl", held, ledger.Identity("ana", "ana", "h"))
+    assert main(["ledger", "export", str(tmp_path / "L.jsonl"), "--results", str(results), "-o", str(out), "-q"]) == 0
+    _, said = read(out)
+    assert said["tied"]["model"] == "poly0" and "price-tied" in said["tied"]["flags"].split()
+    assert said["tied"]["plan_elasticity"] == "" and said["tied"]["plan_volume"] != ""
+    assert said["free"]["plan_elasticity"] not in ("", "0.0")
