@@ -20,6 +20,7 @@ HELD = ("SIGINT", "SIGTERM", "SIGHUP")
 
 @contextmanager
 def uninterrupted():
+    """SIGINT, SIGTERM and SIGHUP held for the block, each then acted on once as on arrival (see above)."""
     if threading.current_thread() is not threading.main_thread():
         yield
         return

@@ -45,20 +45,19 @@ def identity(analyst: str | None) -> ledger.Identity:
 
 
 def record(book: ledger.Ledger, entries, who: ledger.Identity) -> list[dict]:
-    """``book.append``, for a command: a signal recorded meanwhile (``interrupts``) stops it before anything is
-    written, and one that comes once the write has begun is acted on when the records are whole and synced,
-    the command's last line saying so (``recorded_words``) — never "nothing was written" over records that
-    are in."""
+    """``book.append``, for a command: a signal recorded meanwhile (``interrupts``: while another thread ran) stops
+    it before anything is written, and one that comes once the write has begun is acted on when the records are
+    whole and synced, the command's last line saying so (``recorded_words``) — never "nothing was written" over
+    records that are in."""
     from . import interrupts
     interrupts.check()
-    return book.append(entries, who, recorded=lambda written: interrupts.recorded(recorded_words(book.path, written)))
+    return book.append(entries, who, before=interrupts.check,
+                       recorded=lambda written: interrupts.recorded(recorded_words(book.path, written)))
 
 
 def recorded_words(path: Path, records: list[dict]) -> str:
     """'139 records in L.jsonl in full (#156–#294)': what an append wrote, numbered as ``ledger show`` and
     ``ledger revoke --record``/``--batch`` take them."""
-    if not records:
-        return f"nothing in {path}"
     first, last = records[0]["seq"], records[-1]["seq"]
     numbers = f"#{first}" if first == last else f"#{first}–#{last}"
     return f"{len(records):,} record{'s' * (len(records) != 1)} in {path} in full ({numbers})"

@@ -42,8 +42,7 @@ def without_backtest(record: dict) -> dict:
 
 
 # What ``show`` and ``report`` add: they read on, the statuses from the ledger as it is now.
-HEAD_GONE_TAIL = ("the decisions recorded after it are not in it now (see 'pricefold ledger verify --head'), and "
-                  "the results' backtest read them: fit again with --ledger")
+HEAD_GONE_TAIL = "the records after it, which the results' backtest read, are not in it now (fit again with --ledger)"
 
 
 def head_gone(results: Path, header: dict, records: list[dict], ledger_path: Path) -> str | None:

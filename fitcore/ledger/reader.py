@@ -290,12 +290,12 @@ class Ledger:
 
     # -- appending ----------------------------------------------------------------------------
     def append(self, entries: Iterable[Entry] | Callable[[list[dict]], Iterable[Entry]], who: Identity, *,
-               now: Callable[[], datetime] | None = None,
+               now: Callable[[], datetime] | None = None, before: Callable[[], None] | None = None,
                recorded: Callable[[list[dict]], None] | None = None) -> list[dict]:
         """Record ``entries`` (or what a function of the records read under the lock returns) as one
         append: checked against the rules, whole or not at all.  See ``writer.append``."""
         from .writer import append
-        return append(self, entries, who, now=now, recorded=recorded)
+        return append(self, entries, who, now=now, before=before, recorded=recorded)
 
     def read_locked(self, fd: int) -> None:
         """Catch up under the writer's exclusive lock (on the writer's own descriptor)."""

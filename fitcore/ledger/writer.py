@@ -3,7 +3,7 @@ interrupted tail aside, write every record of the append in one go, fsync.
 
 A multi-record append carries ``batch`` markers (one id, index 1..N, size N) on every record, so
 a writer killed half-way leaves an incomplete batch that readers leave out and the next append
-moves, whole, to a side file beside the real file (``files.side_name``; as it does a torn line).  A
+moves, whole, to a side file beside the real file (``files.side_stem``; as it does a torn line).  A
 failed write is cut back off, so nothing recorded earlier is ever touched.  Ctrl+C, a ``kill`` or a closed
 SSH session that comes once the write has begun is acted on when the records are whole and synced
 (``fitcore.uninterrupted``): only a ``kill -9`` or a power cut leaves such a tail.
@@ -27,16 +27,17 @@ if TYPE_CHECKING:
 
 
 def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Iterable[Entry]], who: Identity, *,
-           now: Callable[[], datetime] | None = None,
+           now: Callable[[], datetime] | None = None, before: Callable[[], None] | None = None,
            recorded: Callable[[list[dict]], None] | None = None) -> list[dict]:
     """Append to ``book``'s file; returns the records written (and ``book`` has read them).
 
     ``entries`` may be a function of the ledger's records (``book.histories`` is current when it
     is called): it runs under the lock, so a decision that depends on what is recorded (accept
     everything not yet decided) is made atomically.  Raises ``LedgerError`` — and writes nothing —
-    when the chain is broken or unverifiable or an entry breaks a rule.  ``recorded(records)`` is called
-    once they are written and synced, before a signal held back meanwhile is acted on (a command says
-    what stands).
+    when the chain is broken or unverifiable or an entry breaks a rule.  ``before()`` is called under the
+    lock once the records are made, before any is written: what it raises (a command's Ctrl+C, recorded
+    meanwhile) writes nothing.  ``recorded(records)`` is called once they are written and synced, before a
+    signal held back meanwhile is acted on (a command says what stands).
     """
     clock = now or (lambda: datetime.now(timezone.utc))
     path = book.path
@@ -70,6 +71,8 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
             prev = record["digest"]
             lines.append(line)
             records.append(record)
+        if before is not None:
+            before()
         with uninterrupted():  # a signal from here on is acted on once the records are whole and synced
             if os.fstat(fd).st_size > book.tail_start:
                 files.set_aside(fd, path, book.tail_start, clock())

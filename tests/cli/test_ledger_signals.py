@@ -70,14 +70,23 @@ def test_a_kill_or_a_closed_terminal_during_an_append_is_one_line_and_128_plus_n
     assert verified.state == ledger.INTACT and verified.notes == []
 
 
-def test_a_kill_before_anything_is_written_says_nothing_was(results, tmp_path, monkeypatch, capsys):
-    book = tmp_path / "L.jsonl"
+@pytest.mark.parametrize("threads", [1, 2])
+def test_a_kill_before_anything_is_written_says_nothing_was(results, tmp_path, monkeypatch, capsys, threads):
+    """Alone, the main thread raises it at once; beside another thread it is only recorded, and the append checks
+    for it under the lock before writing a record (else it wrote them all, then said so)."""
+    import threading
+    book, done = tmp_path / "L.jsonl", threading.Event()
+    if threads == 2:
+        threading.Thread(target=done.wait, daemon=True).start()
 
     def killed(*args, **kwargs):  # SIGTERM while the ledger is being read, before any record is made
         signal.raise_signal(signal.SIGTERM)
 
     monkeypatch.setattr("fitcore.ledger.reader.Ledger.read_locked", killed)
-    assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(book)]) == 143
+    try:
+        assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(book)]) == 143
+    finally:
+        done.set()
     assert capsys.readouterr().err.splitlines()[-1] == "pricefold ledger: stopped by SIGTERM; nothing was written"
     assert not book.exists() or book.read_bytes() == b""
 

@@ -198,15 +198,14 @@ class DecisionFlow:
         after = f"{describe(before)} stands again" if before is not None else "the series is pending again"
         about = Text(f"Withdraws {describe(record)}; {after}. The ledger keeps both, and the revoke with its note.")
         self.ask(f"Revoke your {what} on {self.session.label(s)}? Why (optional)",
-                 "Enter revokes (a note is optional) · Esc keeps the decision", False,
+                 "why? (optional) · Esc keeps the decision", False,
                  lambda note: self.revoked(shown, s, what, note), about)
 
     def revoked(self, shown: Shown, s: int, what: str, note: str) -> None:
         try:
             self.session.decide(shown, "revoke", note=note)
-        except PricefoldError as exc:
-            self.open_dialog(MessageDialog(Text(f"Not revoked: {printable(str(exc))}", style="bold")))
-            self.refresh_all()
+        except PricefoldError as exc:  # replaced by someone else meanwhile, say: the note kept, as for a decision
+            self.not_recorded(shown, exc, note)
             return
         self.notify(f"Revoked your {what} on {self.session.label(s)}", markup=False, timeout=5)
         self.session.bring(s)
