@@ -468,12 +468,11 @@ def write_text(path: Path, text: str) -> None:
     """Write through the project's one atomic writer (a new file gets 0666 less the umask; an existing
     one keeps its mode; a failed run leaves an earlier file whole), sealed before it is put in place
     (``fitcore.outputs.seal``: a later export replaces it only unchanged)."""
-    from fitcore.outputs.atomic import stage
-    from fitcore.uninterrupted import uninterrupted
+    from fitcore.outputs.atomic import signals_after, stage
 
     from .interrupts import check, in_place
     check()  # a signal recorded while a thread read: nothing is put in place after it
     staged = stage(path, lambda handle: handle.write(text.encode("utf-8")))  # sealed as it is staged
-    with uninterrupted():  # a signal from the rename on: said after it ("after writing … in full")
+    with signals_after():  # a signal from the rename on: said after it ("after writing … in full")
         staged.commit()
         in_place([str(path)])

@@ -6,7 +6,8 @@ a writer killed half-way leaves an incomplete batch that readers leave out and t
 moves, whole, to a side file beside the real file (``files.side_stem``; as it does a torn line).  A
 failed write is cut back off, so nothing recorded earlier is ever touched.  Ctrl+C, a ``kill`` or a closed
 SSH session that comes once the write has begun is acted on when the records are whole and synced
-(``fitcore.uninterrupted``): only a ``kill -9`` or a power cut leaves such a tail.
+(``fitcore.outputs.atomic.signals_after``, as a batch's renames): only a ``kill -9`` or a power cut leaves
+such a tail.
 """
 from __future__ import annotations
 
@@ -17,7 +18,7 @@ from collections.abc import Callable, Iterable
 from datetime import datetime, timezone
 from typing import TYPE_CHECKING
 
-from ..uninterrupted import uninterrupted
+from ..outputs.atomic import signals_after
 from . import files
 from .records import Entry, Identity, LedgerError, new_record
 from .rules import check_against, check_alone
@@ -73,7 +74,7 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
             records.append(record)
         if before is not None:
             before()
-        with uninterrupted():  # a signal from here on is acted on once the records are whole and synced
+        with signals_after():  # a signal from here on is acted on once the records are whole and synced
             if os.fstat(fd).st_size > book.tail_start:
                 files.set_aside(fd, path, book.tail_start, clock())
             files.write_all(fd, path, book.tail_start, lines)
