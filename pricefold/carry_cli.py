@@ -11,15 +11,14 @@ from pathlib import Path
 
 from fitcore import ledger
 from fitcore.ledger.due import CHANGED_DUE_SHORT, changed_since_fit
-from fitcore.ledger.elsewhere import backtested_elsewhere
+from fitcore.ledger.elsewhere import backtested_elsewhere, head_gone
 from fitcore.collector import collector_paused
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE_SHORT, decided_on_newer, newer_standing
-from fitcore.text import clean
 
 from .cycle_cli import near_best, stop_codes
 from .fit_ledger import must_exist
-from .ledger_cli import identity, meets, open_ledger, parse_head, refuse_key_mismatch, say_missing
+from .ledger_cli import identity, meets, open_ledger, record, refuse_key_mismatch, say_missing
 
 
 @dataclass
@@ -325,13 +324,9 @@ def _carry(args) -> int:
         plan, left = plan_from_records(read_results(args.results)[1], settings.get("level", 0.95),
                                        header_terms(settings), overrides, book.histories, args.carry_revised,
                                        cov_known(settings), fit_terms(settings))
-    read = str(source.get("head", ""))
-    witness = parse_head(read)
-    if witness is None or not book.holds(*witness):
-        said = f"{witness[0]}:{witness[1][:12]}" if witness else clean(read[:20])
-        raise ledger.LedgerError(f"{args.ledger}: no longer holds record {said}…, the head 'fit --ledger' "
-                                 f"read (it now ends at {book.head_text[:20]}…: records were removed or the file "
-                                 "replaced); nothing was carried")
+    gone = head_gone(args.results, header, book.records, args.ledger)
+    if gone:  # its backtest read records that are gone: carrying on it would supersede what it never read
+        raise ledger.LedgerError(f"{gone}; nothing was carried")
     outcome: Counter = Counter()
     across: Counter = Counter()  # what the carries written were carried across, as their notes say it
 
@@ -354,7 +349,7 @@ def _carry(args) -> int:
                     across.update(c.across)
                     yield entry
 
-    written = book.append(decide, identity(args.analyst))
+    written = record(book, decide, identity(args.analyst))
     left.update(outcome)  # held series (a hold signs no curve: no backtest names it) are counted in ``left``
     if not args.quiet:
         already = left.pop(ALREADY, 0)  # done by an earlier run: nothing left for anyone

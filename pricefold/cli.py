@@ -133,6 +133,20 @@ def add_session_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
 
 
+def stopping_cleanly(command):
+    """``command`` with Ctrl+C, a ``kill`` (SIGTERM) and a closed SSH session (SIGHUP) each ending it in one line
+    and exit 128 + the signal's number, saying what stands (``interrupts``): before, SIGTERM and SIGHUP ended
+    the ledger commands and the report at once and in silence.  A signal after the command's records or file
+    were in place is said once it has ended."""
+    def run(args) -> int:
+        from .interrupts import check, noticed
+        with noticed():
+            code = command(args)
+            check()
+            return code
+    return run
+
+
 def run_fit(args) -> int:
     from .fit_run import run_fit as fit
     dask_only = [flag for flag in ("--scheduler", "--workers", "--partitions")
@@ -147,6 +161,7 @@ def run_fit(args) -> int:
         return fit(args)
 
 
+@stopping_cleanly
 def run_show(args) -> int:
     from fitcore.errors import SettingsError
     keys = {}
@@ -241,6 +256,7 @@ def run_demo(args) -> int:
         return demo(args, open_triage)
 
 
+@stopping_cleanly
 def run_ledger(args) -> int:
     if args.ledger_command == "carry":
         from .carry_cli import run_carry
@@ -252,6 +268,7 @@ def run_ledger(args) -> int:
     return run(args)
 
 
+@stopping_cleanly
 def run_report(args) -> int:
     from .report.command import run
     return run(args)
@@ -297,6 +314,8 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     for line in half_done(args):
         print(f"pricefold {args.command}: warning: {one_line(line)}", file=sys.stderr)
+    from . import interrupts
+    interrupts.named(f"pricefold {args.command}")
     try:
         with warnings.catch_warnings():
             # Floating-point trouble (1e308, 1e-320) is data: the engine masks non-finite values and marks
@@ -308,12 +327,11 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     except KeyboardInterrupt as exc:
         import signal
-        written = getattr(exc, "written", None)  # came as the files were put in place, acted on after
-        said = f"after writing {', '.join(written)} in full" if written else "nothing was written"
+
+        from .interrupts import stopped_line
         signum = getattr(exc, "signum", signal.SIGINT)  # a kill or a closed terminal, as Ctrl+C (``interrupts``)
-        how = "interrupted" if signum == signal.SIGINT else f"stopped by {signal.Signals(signum).name}"
-        try:
-            print(f"pricefold {args.command}: {how}; {said}", file=sys.stderr)
+        try:  # what came in place before it: files written in full, ledger records (``interrupts.Stopped``)
+            print(stopped_line(signum, getattr(exc, "written", None), getattr(exc, "recorded", None)), file=sys.stderr)
         except OSError:  # the terminal that sent SIGHUP is gone
             pass
         return 128 + signum
@@ -339,9 +357,10 @@ def entry() -> None:
         print("pricefold: interrupted; nothing was written", file=sys.stderr)
         code = 130
     came = interrupts.late()
-    if came is not None and code == 0:  # a kill after a fit's files were in place: its exit status, and why
-        import signal
-        print(f"pricefold: stopped by {signal.Signals(came[0]).name}; after writing {', '.join(came[1])} in full",
-              file=sys.stderr)
+    if came is not None and code == 0:  # a signal after the files or records were in place: its exit status, and why
+        try:
+            print(interrupts.stopped_line(*came), file=sys.stderr)
+        except OSError:  # the terminal that sent SIGHUP is gone
+            pass
         code = 128 + came[0]
     end_process(code)

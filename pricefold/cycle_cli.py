@@ -10,7 +10,7 @@ from pathlib import Path
 
 from fitcore.data.keys import SEPARATOR
 from fitcore.ledger.due import CHANGED_DUE, CHANGED_DUE_SHORT, changed_since_fit
-from fitcore.ledger.elsewhere import backtested_elsewhere, without_backtest
+from fitcore.ledger.elsewhere import HEAD_GONE_TAIL, backtested_elsewhere, head_gone, without_backtest
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, what_stands
 from fitcore.text import clean, told_apart
@@ -139,6 +139,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     beside: list[tuple[str, ...]] = []  # the missing signed series' keys as shown: told apart from the list's
     foreign = None  # "RESULTS: backtested against L, not THIS": their backtest left out
     if header is not None:
+        gone = head_gone(results, header, book.records, ledger_path)
+        if gone:  # said first: what follows reads the ledger as it is now, the results' backtest as it was
+            print(f"pricefold show: warning: {gone}; {HEAD_GONE_TAIL}", file=sys.stderr)
         said, tail = key_mismatch(header, book, ledger_path), "every series reads as pending"
         # the look-alikes and the missing are judged against every series of the results, not the filter's
         keys = [record["key"] for record in records] if whole else list(results_keys(results))

@@ -1,4 +1,5 @@
-"""Ctrl+C during ``pricefold fit``, seen once and never lost, and never raised where it can wedge a thread.
+"""Ctrl+C during ``pricefold fit`` (and the ledger commands, ``report``, ``show``), seen once and never lost, and
+never raised where it can wedge a thread.
 A ``kill`` (SIGTERM) or a closed SSH session (SIGHUP) the same way: before, either ended the process at once,
 silently, its staged files left behind until a later run; now the run stops at the next safe point, drops what
 it staged and says so (``Stopped``: exit 128 + the signal's number).
@@ -20,23 +21,47 @@ from contextlib import contextmanager
 
 _seen = 0  # the signal recorded inside ``noticed`` (0: none)
 _written: list[str] = []  # the files a run has put in place (``in_place``): a signal after them only recorded
+_recorded: list[str] = []  # the ledger appends it made (``recorded``), "139 records in L.jsonl in full (#156–#294)"
 NOTICED = ("SIGINT", "SIGTERM", "SIGHUP")
+_prog = ["pricefold"]  # who says it: "pricefold ledger" once ``main`` knows the command (``named``)
 
 
 class Stopped(KeyboardInterrupt):
     """The run stopped by ``signum`` (SIGINT: Ctrl+C; SIGTERM: ``kill``; SIGHUP: the terminal went away), after
-    putting ``written`` in place (none: nothing was written)."""
+    putting ``written`` in place and making the ledger appends ``recorded`` (none: nothing was written)."""
 
-    def __init__(self, signum: int = signal.SIGINT, written: list[str] | None = None) -> None:
+    def __init__(self, signum: int = signal.SIGINT, written: list[str] | None = None,
+                 recorded: list[str] | None = None) -> None:
         super().__init__()
         self.signum = signum
         self.written = written or None
+        self.recorded = recorded or None
+
+
+def named(prog: str) -> None:
+    """The command a signal line names (``pricefold fit``), however late it comes."""
+    _prog[0] = prog
+
+
+def stopped_line(signum: int, written=None, recorded=None) -> str:
+    """The one line every command ends on when a signal stops it: how, and what stands — "pricefold ledger:
+    interrupted; after recording 139 records in L.jsonl in full (#156–#294)", "pricefold fit: stopped by SIGTERM;
+    after writing r.json in full", "…; nothing was written"."""
+    how = "interrupted" if signum == signal.SIGINT else f"stopped by {signal.Signals(signum).name}"
+    said = [f"after recording {', '.join(recorded)}"] if recorded else []
+    if written:
+        said.append(f"after writing {', '.join(written)} in full")
+    return f"{_prog[0]}: {how}; {'; '.join(said) or 'nothing was written'}"
+
+
+def _in_place() -> bool:
+    return bool(_written or _recorded)
 
 
 def _on_interrupt(signum, frame) -> None:
     global _seen
     _seen = _seen or signum
-    if threading.active_count() == 1 and not _written:  # no other thread could wait on a lock this one leaves
+    if threading.active_count() == 1 and not _in_place():  # no other thread could wait on a lock this one leaves
         raise Stopped(signum)
 
 
@@ -52,14 +77,14 @@ def until_exit() -> None:
     _until_exit = True
 
 
-def late() -> tuple[int, list[str]] | None:
-    """(signum, files in place) of a signal recorded after the block, or None."""
+def late() -> tuple[int, list[str], list[str]] | None:
+    """(signum, files in place, ledger appends made) of a signal recorded after the block, or None."""
     return _late[0] if _late else None
 
 
 def _after(signum, frame) -> None:
     if not _late:
-        _late.append((signum, list(_written)))
+        _late.append((signum, list(_written), list(_recorded)))
         return
     import os  # a second one: the process was asked twice, so it ends as it would have (nothing left staged)
     signal.signal(signum, signal.default_int_handler if signum == signal.SIGINT else signal.SIG_DFL)
@@ -72,6 +97,12 @@ def in_place(paths: list[str]) -> None:
     after them (before: one in the moment between the files and the process's end killed it, exit 143, no line,
     the new results complete)."""
     _written[:] = paths
+
+
+def recorded(what: str) -> None:
+    """A ledger append is whole and synced (``what``: its records, where, in words): as ``in_place``, a signal
+    from here on is recorded, and the command's line says it came after them."""
+    _recorded.append(what)
 
 
 @contextmanager
@@ -91,28 +122,28 @@ def noticed():
     if not numbers:
         yield
         return
-    _seen, _written[:] = 0, []
+    _seen, _written[:], _recorded[:] = 0, [], []
     previous = {number: signal.signal(number, _on_interrupt) for number in numbers}
     try:
         yield
     except BaseException as exc:
         if _seen and not isinstance(exc, KeyboardInterrupt):
-            raise Stopped(_seen, list(_written)) from None
+            raise Stopped(_seen, list(_written), list(_recorded)) from None
         raise
     finally:
-        keep = _until_exit and bool(_written) and not _seen  # done, files in place: recorded until the end
+        keep = _until_exit and _in_place() and not _seen  # done, files in place: recorded until the end
         for number, handler in previous.items():
             signal.signal(number, _after if keep else handler)
         _seen = 0
-        if not keep:  # (kept: the files ``late`` names)
-            _written[:] = []
+        if not keep:  # (kept: the files and appends ``late`` names)
+            _written[:], _recorded[:] = [], []
 
 
 def check() -> None:
     """Raise ``Stopped`` if a signal came inside ``noticed``, even one something swallowed (with the files in place
     by then, if any)."""
     if _seen:
-        raise Stopped(_seen, list(_written))
+        raise Stopped(_seen, list(_written), list(_recorded))
 
 
 def checked(progress):

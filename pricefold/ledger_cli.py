@@ -44,6 +44,25 @@ def identity(analyst: str | None) -> ledger.Identity:
     return ledger.Identity(analyst=analyst or os_user, os_user=os_user, host=socket.gethostname())
 
 
+def record(book: ledger.Ledger, entries, who: ledger.Identity) -> list[dict]:
+    """``book.append``, for a command: a signal recorded meanwhile (``interrupts``: while another thread ran) stops
+    it before anything is written, and one that comes once the write has begun is acted on when the records are
+    whole and synced, the command's last line saying so (``recorded_words``) — never "nothing was written" over
+    records that are in."""
+    from . import interrupts
+    interrupts.check()
+    return book.append(entries, who, before=interrupts.check,
+                       recorded=lambda written: interrupts.recorded(recorded_words(book.path, written)))
+
+
+def recorded_words(path: Path, records: list[dict]) -> str:
+    """'139 records in L.jsonl in full (#156–#294)': what an append wrote, numbered as ``ledger show`` and
+    ``ledger revoke --record``/``--batch`` take them."""
+    first, last = records[0]["seq"], records[-1]["seq"]
+    numbers = f"#{first}" if first == last else f"#{first}–#{last}"
+    return f"{len(records):,} record{'s' * (len(records) != 1)} in {path} in full ({numbers})"
+
+
 def run(args) -> int:
     from .ledger_export import run_export
     return {"verify": run_verify, "show": run_show, "export": run_export,
@@ -294,6 +313,9 @@ def run_accept_unflagged(args) -> int:
                                  "check --ledger (nothing was written)")
     digest = ledger.results_digest(header)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
+    if book.exists:  # one it may not write (a read-only mount) said first, not after "accepted as new series"
+        from fitcore.ledger.files import open_ledger as open_file
+        os.close(open_file(args.ledger, write=True))
     refuse_key_mismatch(args.results, header, book, args.ledger)
     from fitcore.ledger.elsewhere import backtested_elsewhere
     foreign = backtested_elsewhere(args.results, header, args.ledger)
@@ -332,7 +354,7 @@ def run_accept_unflagged(args) -> int:
             print(f"accepted 0 unflagged series: every series carries a flag or has no model, so no ledger was "
                   f"started at {args.ledger}", file=sys.stderr)
         return 0
-    written = book.append(decide, identity(args.analyst))
+    written = record(book, decide, identity(args.analyst))
     if not args.quiet:
         print(f"accepted {len(written):,} unflagged series without a decision → {args.ledger}"
               + new_words(counted.get("new", 0), counted.get("alike", 0)), file=sys.stderr)

@@ -50,6 +50,10 @@ def run_export(args) -> int:
         header, parts = results_in_parts(args.results)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN,), must_exist=True)
     refuse_key_mismatch(args.results, header, book, args.ledger)  # else every row "pending", matching nothing
+    from fitcore.ledger.elsewhere import head_gone
+    gone = head_gone(args.results, header, book.records, args.ledger)
+    if gone:  # an older copy restored, or its end cut: its rows would hand planning decisions that are gone
+        raise ledger.LedgerError(f"{gone}; nothing was written (fit again with --ledger to export from it as it is)")
     from fitcore.outputs import check_outputs
     from fitcore.results.read import results_inputs
     check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
@@ -467,5 +471,11 @@ def write_text(path: Path, text: str) -> None:
     """Write through the project's one atomic writer (a new file gets 0666 less the umask; an existing
     one keeps its mode; a failed run leaves an earlier file whole), sealed before it is put in place
     (``fitcore.outputs.seal``: a later export replaces it only unchanged)."""
-    from fitcore.outputs.atomic import stage
-    stage(path, lambda handle: handle.write(text.encode("utf-8"))).commit()  # sealed as it is staged
+    from fitcore.outputs.atomic import signals_after, stage
+
+    from .interrupts import check, in_place
+    check()  # a signal recorded while a thread read: nothing is put in place after it
+    staged = stage(path, lambda handle: handle.write(text.encode("utf-8")))  # sealed as it is staged
+    with signals_after():  # a signal from the rename on: said after it ("after writing … in full")
+        staged.commit()
+        in_place([str(path)])

@@ -16,7 +16,7 @@ from fitcore import ledger
 from fitcore.ledger.replay import own_standing, series_id
 from fitcore.ledger.rules import label, person, what_happened
 
-from .ledger_cli import identity, open_ledger
+from .ledger_cli import identity, open_ledger, record
 
 DECIDING = ("accept", "override", "hold", "carry")
 
@@ -52,7 +52,7 @@ def run_revoke(args) -> int:
                                      f"yours (the first: {left[0]}); nothing was withdrawn")
         return out
 
-    written = book.append(entries, who)
+    written = record(book, entries, who)
     if not args.quiet:
         kept = f"; {len(left):,} of the batch left as they are (no longer standing, or not yours)" if left else ""
         if args.batch is not None and not (by_seq(book.records)[args.batch].get("batch") or {}).get("id"):

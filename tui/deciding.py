@@ -67,6 +67,9 @@ class Deciding:
     @property
     def read_only_why(self) -> str:
         """Why nothing can be recorded, in words (the header and a refused key say the same)."""
+        if self.book.replaced:  # not "broken": read afresh, its chain may well verify ('ledger verify': intact)
+            return (f"the ledger changed under this screen: {self.book.problem.message}; open the screen again to "
+                    "decide on it as it is now")
         if self.book.state != ledger.INTACT:
             return f"the ledger is {self.book.state} ({self.book.problem})"
         path = Path(self.book.path)

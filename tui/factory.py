@@ -52,7 +52,7 @@ def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes
     """A session on the results as the file holds them: no refit, no observations yet; the columns the list
     does not need are still being read (``StoredResults.numbers_ready``, ``complete``).  A backtest the file
     holds against another ledger is left out (``fitcore.ledger.elsewhere``, as ``show --ledger`` leaves it out)."""
-    from fitcore.ledger.elsewhere import backtested_elsewhere
+    from fitcore.ledger.elsewhere import backtested_elsewhere, head_gone
     from fitcore.ledger.reader import opening
     book = opening(ledger_path, key)  # read and verified meanwhile: Arrow reads the results without the interpreter
     watched = ResultsWatch(Path(path))  # before reading: a fit putting new results in place meanwhile is caught
@@ -61,8 +61,12 @@ def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes
     book = book()
     if book.records:  # the list shows a decided series' model and score, a stale one's due: from every candidate's
         results.later.wait_soon()  # numbers (``stored.SOON``), a failure to read them said before the screen
+    # the file's backtest left out where it read another ledger, or records this one no longer holds (an older
+    # copy put back, its end cut: ``head_gone``), said on the header as show --ledger says it
+    elsewhere = backtested_elsewhere(path, head, Path(ledger_path)) or head_gone(path, head, book.records,
+                                                                                 Path(ledger_path))
     session = TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units, book=book,
-                            elsewhere=backtested_elsewhere(path, head, Path(ledger_path)))
+                            elsewhere=elsewhere)
     session.results_watch = watched
     return session
 

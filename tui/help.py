@@ -67,7 +67,8 @@ def ledger_text(book, keys: str | None = None) -> Group:
     status line's words when not), and its head (``SEQ:DIGEST`` of the last whole record)."""
     text = Text("\nLedger ", style="bold")
     text.append(clean(str(book.path)))
-    text.append(f"\n  {book.state}" + (f": {printable(str(book.problem))}" if book.problem else ""))
+    state = "changed under this screen" if book.replaced else book.state  # not "broken": it may verify afresh
+    text.append(f"\n  {state}" + (f": {printable(str(book.problem))}" if book.problem else ""))
     if book.notes:  # the chain verifies up to its last whole record; what follows it does not count
         text.append(" up to its last whole record, but " + cut_off_text(book), style="bold")
     if keys:

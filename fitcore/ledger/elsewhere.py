@@ -4,6 +4,12 @@
 head).  Read with another ledger (a copy, a colleague's), that backtest and its ``shifted`` flags speak of
 the other ledger's signers: ``ledger carry`` refuses such results, ``show --ledger`` and the triage screen
 leave both out.  ``backtested_elsewhere`` is the one rule the three ask.
+
+Read with the same ledger, the results still name the record the fit read last (``ledger.head``): when the
+ledger no longer holds it — records cut from its end, an older copy put in its place — what the results say
+of the ledger (their backtest, what changed since the fit) speaks of records that are gone, while the chain
+itself verifies.  ``head_gone`` says it, for ``carry`` and ``export`` to refuse and ``show`` and ``report``
+to put first.
 """
 from __future__ import annotations
 
@@ -33,3 +39,32 @@ def without_backtest(record: dict) -> dict:
     """A results record less its backtest and its ``shifted`` flag (both of another ledger's signed curves)."""
     flags = [flag for flag in record["flags"] if flag["code"] != "shifted"]
     return {**record, "backtest": None, "flags": flags}
+
+
+# What ``show`` and ``report`` add: they read on, the statuses from the ledger as it is now.
+HEAD_GONE_TAIL = "the records after it, which the results' backtest read, are not in it now (fit again with --ledger)"
+
+
+def head_gone(results: Path, header: dict, records: list[dict], ledger_path: Path) -> str | None:
+    """"L no longer holds record 294:1a2b3c4d5e6f…, the last one 'fit --ledger' read for RESULTS (it now ends
+    at 155:…: records were removed from its end, or an older copy put in its place)" when the results (``header``)
+    were fitted with ``--ledger`` on this ledger and its ``records`` (as read now, verified) no longer hold the
+    head that fit recorded; None otherwise (no ledger recorded, another ledger's: ``backtested_elsewhere``)."""
+    from .records import GENESIS
+    source = header.get("ledger")
+    if not source or not same_file(Path(source["path"]), ledger_path):
+        return None
+    read = str(source.get("head", ""))
+    seq, _, digest = read.partition(":")
+    if not seq.isdigit() or len(digest) != 64:
+        return f"{results} names no ledger head it read ({clean(read[:20])!r}), so it cannot be checked against {ledger_path}"
+    seq = int(seq)
+    held = digest == GENESIS if seq == 0 else (seq <= len(records) and records[seq - 1].get("seq") == seq
+                                               and records[seq - 1].get("digest") == digest)
+    if held:
+        return None
+    last = f"{records[-1]['seq']}:{records[-1]['digest'][:12]}…" if records else "0 (it is empty)"
+    why = ("records were removed from its end, or an older copy put in its place" if seq > len(records) else
+           f"record {seq} is now another one: the file was replaced")
+    return (f"{ledger_path} no longer holds record {seq}:{digest[:12]}…, the last one 'fit --ledger' read for "
+            f"{results} (it now ends at {last}: {why})")

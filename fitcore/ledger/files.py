@@ -97,14 +97,16 @@ def crc_of(fd: int, path: Path, end: int) -> int | None:
 
 def set_aside(fd: int, path: Path, keep: int, moment: datetime) -> Path:
     """Move the bytes after ``keep`` (a torn line, an incomplete batch) to ``<ledger>.torn-<UTC time>``
-    beside the real file, then cut them from the ledger.  The side file is written under a temporary
-    name and renamed once whole, so it always holds a whole tail; if it cannot be written (disk full,
-    folder not writable) nothing changes and nothing is left behind.  Called under the exclusive
-    lock, so a temporary side file found then is a killed writer's: it is removed."""
+    beside the real file (a ledger name too long for that: ``side_stem``), then cut them from the ledger.
+    The side file is written under a temporary name and renamed once whole, so it always holds a whole
+    tail; if it cannot be written (disk full, folder not writable) nothing changes and nothing is left
+    behind.  Called under the exclusive lock, so a temporary side file found then is a killed writer's:
+    it is removed."""
     real = Path(os.path.realpath(path))
-    name = f"{real.name}.torn-{moment.strftime('%Y%m%dT%H%M%S%fZ')}"
+    stem = side_stem(real)
+    name = f"{stem}.torn-{moment.strftime('%Y%m%dT%H%M%S%fZ')}"
     side, temp = real.with_name(name), real.with_name(f".{name}.{os.getpid()}.tmp")
-    for stale in real.parent.glob(f".{glob.escape(real.name)}.torn-*.tmp"):
+    for stale in real.parent.glob(f".{glob.escape(stem)}.torn-*.tmp"):
         _remove(stale)
     tail = read_from(fd, path, keep)
     made = None
@@ -129,6 +131,30 @@ def set_aside(fd: int, path: Path, keep: int, moment: datetime) -> Path:
         raise LedgerError(f"{path}: cannot set aside the interrupted tail ({len(tail)} bytes) beside it "
                           f"({reason}); nothing was recorded") from None
     return side
+
+
+# What a side file's name adds to the ledger's: ".torn-" and a UTC time to the microsecond, and for its temporary
+# copy a leading dot and ".PID.tmp" (a process id of up to 7 digits, Linux's largest).
+SIDE_EXTRA = len(".torn-20261205T084800123456Z") + len("..1234567.tmp")
+
+
+def side_stem(real: Path) -> str:
+    """The ledger's name as its side files begin: whole where it fits the folder's longest name (255 bytes on most
+    file systems) with what a side file adds; else cut on a character boundary and ``~`` plus the first 8 hex
+    digits of the whole name's SHA-256 added, so every side file of that ledger still starts with its first
+    characters (``ls`` finds it) and two long names alike at the start keep theirs apart."""
+    import hashlib
+    try:
+        longest = os.pathconf(real.parent, "PC_NAME_MAX")
+    except (OSError, ValueError):
+        longest = 255
+    raw = real.name.encode("utf-8", "surrogateescape")
+    room = longest - SIDE_EXTRA
+    if len(raw) <= room:
+        return real.name
+    mark = "~" + hashlib.sha256(raw).hexdigest()[:8]
+    cut = raw[:room - len(mark)].decode("utf-8", "ignore")  # a character cut in two is left out
+    return cut + mark
 
 
 def _remove(path: Path) -> None:

@@ -66,6 +66,9 @@ class Ledger:
         self.problems: list[Problem] = []
         self.notes: list[Problem] = []
         self.unended = False  # the last line is a whole record without its line end (``_unended``)
+        # records this reader verified earlier are gone (an older copy restored, its end cut, the file removed):
+        # refused as ``broken`` is, though the file read afresh may verify (``_vanished``)
+        self.replaced = False
         self.exists = False
         self._chain = ChainState()
         self._unverifiable: Problem | None = None
@@ -120,7 +123,7 @@ class Ledger:
         status = files.status_of(self.path)
         if status is None:
             if self.records:
-                self._vanished("the ledger file is gone")
+                self._vanished("the ledger file is gone (removed, or moved away)")
             self.exists, self.notes, self.unended = False, [], False
             return []
         seen = _status_key(status)
@@ -190,11 +193,13 @@ class Ledger:
         self.generation += 1
         new = self._read(fd, judge=True)
         if seq and not self.problems and not self.holds(seq, digest):
-            self._vanished(f"records read earlier are gone: seq {seq} ({digest[:12]}…) is no longer in it")
+            self._vanished(f"records read earlier are gone: seq {seq} ({digest[:12]}…) is no longer in it (records "
+                           "were removed from its end, or an older copy put in its place)")
         return new
 
     def _vanished(self, message: str) -> None:
-        self.problems.append(Problem(self._line + 1, f"{message} (records were removed or the file replaced)"))
+        self.replaced = True
+        self.problems.append(Problem(self._line + 1, message))
 
     def _consume(self, data: bytes, judge: bool) -> list[dict]:
         """Verify the whole lines of ``data`` (the file from ``_offset`` on) and take whole units: a
@@ -285,11 +290,12 @@ class Ledger:
 
     # -- appending ----------------------------------------------------------------------------
     def append(self, entries: Iterable[Entry] | Callable[[list[dict]], Iterable[Entry]], who: Identity, *,
-               now: Callable[[], datetime] | None = None) -> list[dict]:
+               now: Callable[[], datetime] | None = None, before: Callable[[], None] | None = None,
+               recorded: Callable[[list[dict]], None] | None = None) -> list[dict]:
         """Record ``entries`` (or what a function of the records read under the lock returns) as one
         append: checked against the rules, whole or not at all.  See ``writer.append``."""
         from .writer import append
-        return append(self, entries, who, now=now)
+        return append(self, entries, who, now=now, before=before, recorded=recorded)
 
     def read_locked(self, fd: int) -> None:
         """Catch up under the writer's exclusive lock (on the writer's own descriptor)."""

@@ -149,6 +149,10 @@ def _with_parent(parent: int) -> None:
         pass
     if os.getppid() != parent:  # the report ended before the line above
         os._exit(1)
+    # a signal is the report's to say (``interrupts``): here each as it always was, without a line of its own
+    signal.signal(signal.SIGINT, signal.default_int_handler)
+    for number in (signal.SIGTERM, signal.SIGHUP):
+        signal.signal(number, signal.SIG_DFL)
 
 
 class Charts:
@@ -186,6 +190,8 @@ class Charts:
                 for half, drawn in zip(halves, pool.map(_draw_some, halves)):
                     self._drawn.update(zip(half, drawn))
         except (BrokenProcessPool, OSError):  # no processes to be had here: draw them all in this one
+            from ..interrupts import check
+            check()  # unless Ctrl+C or a kill ended them (recorded only, beside the pool's threads): stop
             self._drawn = {s: self.draw(s) for s in self.series}
         finally:
             _CHARTS = None
@@ -295,6 +301,10 @@ def run(args) -> int:
     from fitcore.results.read import results_inputs
     check_not_input(args.output, results_inputs(book.header))  # the data and plan the results name
     view = read_ledger(ledger_path, ledger_key())
+    from fitcore.ledger.elsewhere import HEAD_GONE_TAIL, head_gone
+    gone = head_gone(args.results, book.header, list(view.records), ledger_path)
+    if gone:  # said first, as the page does
+        print(f"pricefold report: warning: {gone}; {HEAD_GONE_TAIL}", file=sys.stderr)
     from fitcore.ledger.replay import replay
     histories = replay(list(view.records))  # once, for the backtest and the sign-off tallies
     diagnosis, backtest = with_backtest(book, view, ledger_path, histories)
@@ -310,7 +320,7 @@ def run(args) -> int:
     title = args.title or f"Sign-off report: {args.results.name}"
     report = Report(title, made, str(args.results), book.header, signoff, view, book.data_note,
                     charts, __version__, backtest, apart, tell_apart,
-                    tuple(missing.listed(REPORT_LISTS)) if missing.said() else ())
+                    tuple(missing.listed(REPORT_LISTS)) if missing.said() else (), gone)
     detailed = {int(s) for s in decided} | {int(s) for s in flagged}
     body = (f"<header><h1>{esc(title)}</h1><p class=\"muted\">Made {made.strftime('%Y-%m-%d %H:%M UTC')} by "
             f"pricefold {esc(__version__)} from <code>{esc(args.results)}</code> and the ledger "

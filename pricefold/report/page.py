@@ -52,6 +52,7 @@ class Report:
     apart: tuple = ()
     tell_apart: Callable | None = None  # a key told apart from those signed series' (``told_apart_from``)
     missing: tuple = ()  # those signed series, each named (``Missing.listed``)
+    head_gone: str | None = None  # the ledger no longer holds the head the results' fit read (``elsewhere.head_gone``)
 
 
 def esc(text) -> str:
@@ -141,6 +142,13 @@ def document(report: Report, body: str) -> str:
 def alerts(report: Report) -> str:
     """What must be read first: a ledger that cannot be trusted, charts without their data."""
     view, out = report.ledger, []
+    if report.head_gone:  # the chain may verify: what is gone is what the results were made against
+        out.append(f"<div class=\"alert\" role=\"alert\"><strong>The ledger is not the one these results were "
+                   f"made against:</strong> {esc(report.head_gone)}. The decisions recorded after that point are not "
+                   "in it now, so the statuses below read the ledger as it is, and the results' backtest read "
+                   "records that are gone. Check it with <code>pricefold ledger verify "
+                   f"{esc(view.path)} --head …</code> against a head kept elsewhere, or fit again with "
+                   "<code>--ledger</code>.</div>")
     if view.state == "broken":
         out.append(f"<div class=\"alert\" role=\"alert\"><strong>The ledger's chain is broken:</strong> "
                    f"{esc(view.problem)}. Its records may have been edited, removed or reordered, so the decisions "

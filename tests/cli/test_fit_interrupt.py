@@ -168,7 +168,7 @@ def test_ctrl_c_at_any_moment_is_one_line_exit_130_and_nothing_written(signed):
             seen.append(said)
             if said[1].endswith(" in full\n"):  # came once the results were in place: said so, as they are
                 assert said[0] == 130 and said[1].splitlines()[-1] == (
-                    "pricefold: stopped by SIGINT; after writing p2.parquet in full"), share
+                    "pricefold fit: interrupted; after writing p2.parquet in full"), share
                 earlier = digest(signed / "p2.parquet")
                 continue
             assert said == (130, LINE), share
@@ -276,7 +276,7 @@ def test_after_the_run_a_signal_is_recorded_until_the_process_ends(monkeypatch):
         assert signal.getsignal(signal.SIGTERM) is interrupts._after
         os.kill(os.getpid(), signal.SIGTERM)
         time.sleep(0.05)
-        assert interrupts.late() == (signal.SIGTERM, ["r.rejects.csv", "r.json"])
+        assert interrupts.late() == (signal.SIGTERM, ["r.rejects.csv", "r.json"], [])
     finally:
         for name in interrupts.NOTICED:
             number = getattr(signal, name)

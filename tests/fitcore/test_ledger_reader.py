@@ -82,6 +82,22 @@ def test_an_incomplete_last_batch_is_left_out_then_set_aside_whole(tmp_path):
     assert not list(tmp_path.glob(".ledger.jsonl.torn-*"))  # no temporary left
 
 
+def test_a_long_ledger_names_its_side_file_within_the_longest_file_name(tmp_path):
+    """A trial's ledger of 244 characters: once it had a torn tail every append failed ("cannot set aside the
+    interrupted tail … (File name too long)"): ``<ledger>.torn-<UTC time>`` was longer than 255 bytes."""
+    path = tmp_path / ("l" * 238 + ".jsonl")  # 244 characters (the limit: 255 bytes)
+    ledger.append(path, [entry("a")], ANA)
+    tail = write_partial_batch(path, 2, 3)
+    [written] = ledger.Ledger(path).append([entry("c")], ANA)
+    assert written["seq"] == 2 and ledger.Ledger(path).notes == []
+    [side] = [p for p in tmp_path.iterdir() if ".torn-" in p.name]
+    assert side.read_bytes() == tail and len(side.name.encode()) <= 255
+    assert side.name.startswith("l" * 200)  # findable beside it: `ls lll…*torn-*`
+    assert side.name.split(".torn-")[0] == files.side_stem(path)
+    shorter = tmp_path / "ledger.jsonl"
+    assert files.side_stem(shorter) == "ledger.jsonl"  # a name that fits is kept whole
+
+
 def test_an_incomplete_batch_followed_by_other_records_is_a_broken_chain(tmp_path):
     path = tmp_path / "ledger.jsonl"
     ledger.append(path, [entry("a")], ANA)
@@ -110,7 +126,7 @@ def test_records_vanishing_under_an_open_reader_break_it(tmp_path):
     ledger.append(path, [entry("c")], BO)  # ... and the file grows again past where it was
     assert book.refresh() and book.state == "broken"
     assert "records read earlier are gone: seq 2" in book.problem.message
-    assert book.generation == 1
+    assert book.replaced and book.generation == 1  # told apart from a chain edited: the screen's words
 
 
 def test_non_regular_files_are_one_line_and_never_hang(tmp_path, alarm):

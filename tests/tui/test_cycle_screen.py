@@ -237,6 +237,23 @@ async def test_a_backtest_against_another_ledger_is_left_out_and_said_once(next_
         assert session.backtest is not None and session.diagnosis.flagged("shifted").any()
 
 
+async def test_results_fitted_against_records_the_ledger_no_longer_holds_are_said_on_the_header(next_cycle, tmp_path):
+    """The ledger's last record cut off after 'fit --ledger' read it (or an older copy put back): a trial's screen
+    said nothing of it, while 'ledger carry' refused the results.  Now the header says it in carry's words and the
+    file's backtest, which read records that are gone, is left out, as for a backtest against another ledger."""
+    from tui.app import TriageApp
+    from tui.factory import open_stored_session
+    copy, out = stored_next_cycle(next_cycle, tmp_path)
+    copy.write_bytes(b"".join(copy.read_bytes().splitlines(keepends=True)[:-1]))
+    app = TriageApp(lambda progress: open_stored_session(out, copy, ledger.Identity("cy", "cy", "h"), None, progress))
+    async with app.run_test(size=(100, 30)) as pilot:
+        session = await started(app, pilot)
+        said = " ".join(screen_text(app).split())
+        assert f"{copy} no longer holds record {signed(next_cycle[0])}:" in said
+        assert "its backtest and 'shifted' flags are left out" in said
+        assert session.backtest is None and not session.diagnosis.flagged("shifted").any()
+
+
 async def test_on_older_results_the_since_sign_off_block_does_not_call_their_proposal_this_cycles(next_cycle,
                                                                                                    tmp_path):
     """bo on last cycle's results after this cycle's carry: the backtest of the carried curve sets it beside the

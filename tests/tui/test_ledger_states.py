@@ -17,6 +17,30 @@ def one_record(ledger_path, key=None):
     return s
 
 
+async def test_an_older_copy_put_back_under_the_screen_is_not_called_broken(ledger_path):
+    """A trial restored an older copy of the ledger while a screen was open: the screen turned read-only (right:
+    records it had read were gone) but called the ledger "broken", where 'ledger verify' said "intact"."""
+    from tui.factory import open_session, sample_source
+    session = open_session(sample_source(), ledger_path, ANA, None)
+    s, t = int(session.view[0]), int(session.view[1])
+    session.decide(session.look(s), "hold")
+    older = ledger_path.read_bytes()
+    session.decide(session.look(t), "hold")
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await started(app, pilot)
+        ledger_path.write_bytes(older)  # the backup put back: a shorter chain that verifies
+        said = "READ-ONLY: the ledger changed under this screen: records read"  # the line cut at 80 columns
+        await until(pilot, lambda: said in screen_text(app))
+        assert "broken" not in screen_text(app)
+        await pilot.press("question_mark")
+        await pilot.pause()
+        await pilot.press("end")
+        await pilot.pause()
+        assert "changed under this screen: line 2" in " ".join(screen_text(app).split())
+    assert ledger.Ledger(ledger_path).state == ledger.INTACT
+
+
 async def test_a_broken_ledger_makes_the_screen_read_only(ledger_path):
     one_record(ledger_path)
     record = json.loads(ledger_path.read_text())

@@ -143,9 +143,17 @@ async def test_note_hold_and_revoke(ledger_path, size):
         assert session.current != s  # moved on
         assert "u revoke" in screen_text(app)
         await pilot.press("down", "down")
-        await pilot.press("u")  # wherever the cursor is, the latest decision of this screen
+        await pilot.press("u")  # wherever the cursor is, the latest decision of this screen: asked first
+        await pilot.pause()
+        assert session.current == s and f"Revoke your hold on {session.label(s)}?" in screen_text(app)
+        assert "the series is pending again" in screen_text(app)  # what stands after it
+        await pilot.press("escape")  # keeps the decision
+        await pilot.pause()
+        assert [r["action"] for r in records(ledger_path)] == ["note", "hold"] and session.status[s] == "held"
+        await pilot.press("u", *"asked too soon", "enter")
         await pilot.pause()
         assert [r["action"] for r in records(ledger_path)] == ["note", "hold", "revoke"]
+        assert records(ledger_path)[-1]["note"] == "asked too soon"
         assert session.status[s] == "pending" and session.current == s
         assert any(f"Revoked your hold on {session.label(s)}" in n.message for n in app._notifications)
         assert fledger.verify(ledger_path) == []

@@ -179,3 +179,30 @@ async def test_o_down_enter_typed_in_one_burst_shows_the_picked_models_numbers_i
         assert "At the plan price" in about and fmt(results.plan_volume[s, c]) in about
         assert f"{model}: no shape or range flag" in about or f"{model}'s own flags: " in about
         assert "pricefold proposes; you decide" in about
+
+
+async def test_a_note_typed_after_an_accept_that_asked_none_decides_nothing(ledger_path, monkeypatch):
+    """A trial pressed ``a`` on a series without flags (accepted at once, no box) and typed the note it meant to
+    give: the words reached the list as keys, and their ``u`` withdrew that accept (note '').  Now a decision key
+    typed amid keys that did nothing is not done (``TriageScreen.typing``), a ``u`` right after the accept is too
+    soon, and a revoke asks first: the sentence, Enter included, withdraws or signs nothing."""
+    import asyncio
+
+    import tui.screens.triage
+    monkeypatch.setattr(tui.screens.triage, "SETTLE_SECONDS", 0.4)
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24), notifications=True) as pilot:
+        first = await on_an_unflagged_series(app, pilot)
+        await pilot.pause(0.5)
+        type_ahead(app, "a")
+        await until(pilot, lambda: len(records(ledger_path)) == 1)
+        for key in [*"under review, also hold", "space", *"a", "space", *"note of how it was", "enter"]:
+            type_ahead(app, key)  # a typist: about 12 keys a second, each acted on before the next
+            await asyncio.sleep(0.08)
+            await pilot.pause()
+        await pilot.pause(0.3)
+        [record] = records(ledger_path)
+        assert record["action"] == "accept" and record["series"] == app.session.keys.key_of(first)
+        assert not isinstance(app.screen, TextDialog)  # no revoke box left holding the words either
+        said = [n.message for n in app._notifications if n.message.startswith("Not done: ")]
+        assert any("typing a note? no box is open" in message for message in said)

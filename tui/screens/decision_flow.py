@@ -184,17 +184,28 @@ class DecisionFlow:
                                             session.accepted_other(s) is not None), picked)
 
     def revoke(self, s: int, record: dict) -> None:
-        """Revoke ``record``, this screen's latest decision that still stands (on series ``s``); the cursor goes
-        there."""
+        """Ask first, then revoke ``record``, this screen's latest decision that still stands (on series ``s``;
+        the cursor goes there): the dialog says what it withdraws and what stands after it, takes an optional note,
+        and Esc keeps the decision.  Before, ``u`` withdrew at once with an empty note — a ``u`` in a note typed
+        after an accept that needed none withdrew that accept, unseen."""
+        from ..session import describe
         self.session.bring(s)
         self.refresh_all()
         shown = self.session.look(s)
         what = f"{record['action']} {record.get('model') or ''}".strip()
+        history = self.session.histories.get(shown.sid)
+        before = history.standing[-2] if history is not None and len(history.standing) > 1 else None
+        after = f"{describe(before)} stands again" if before is not None else "the series is pending again"
+        about = Text(f"Withdraws {describe(record)}; {after}. The ledger keeps both, and the revoke with its note.")
+        self.ask(f"Revoke your {what} on {self.session.label(s)}? Why (optional)",
+                 "why? (optional) · Esc keeps the decision", False,
+                 lambda note: self.revoked(shown, s, what, note), about)
+
+    def revoked(self, shown: Shown, s: int, what: str, note: str) -> None:
         try:
-            self.session.decide(shown, "revoke")
-        except PricefoldError as exc:
-            self.open_dialog(MessageDialog(Text(f"Not revoked: {printable(str(exc))}", style="bold")))
-            self.refresh_all()
+            self.session.decide(shown, "revoke", note=note)
+        except PricefoldError as exc:  # replaced by someone else meanwhile, say: the note kept, as for a decision
+            self.not_recorded(shown, exc, note)
             return
         self.notify(f"Revoked your {what} on {self.session.label(s)}", markup=False, timeout=5)
         self.session.bring(s)

@@ -34,7 +34,7 @@ from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
 from ..widgets.status_line import keys_text, missing_text, rejected_text, spellings_text, status_text
 from .decision_flow import DecisionFlow
-from .dialogs import ChoiceDialog, MessageDialog, TextDialog
+from .dialogs import LOST_WITHIN, ChoiceDialog, MessageDialog, TextDialog
 
 NARROW = 110  # below this many columns, show the list or the evidence, not both
 # Side by side, the evidence keeps EVIDENCE_LEAST cells (its title and charts whole) and the list takes up to
@@ -259,17 +259,31 @@ class TriageScreen(DecisionFlow, Screen):
                         f"({why}); press the key again.",
                         severity="warning", timeout=8, markup=False)
 
+    def typing(self, action: str) -> bool:
+        """Whether ``action``'s key came within ``LOST_WITHIN`` of a printable key that did nothing: a word being
+        typed where no box is open (a note begun after an accept that asked for none), not a decision — then the
+        key is not done, and the screen says so.  Keys typed that fast on the list are not read one by one."""
+        if SETTLE_SECONDS <= 0 or time.monotonic() - self.app.key_lost_at >= LOST_WITHIN:
+            return False
+        self.notify(f"Not done: {action}, pressed right after keys that did nothing here (typing a note? no box is "
+                    "open); look at the screen, then press the key again.", severity="warning", timeout=6,
+                    markup=False)
+        return True
+
     def too_soon(self, action: str) -> bool:
-        """Whether the series shown came up too recently for ``action`` to be meant for it (``SETTLE_SECONDS``):
-        then the key is not done, and the screen says so."""
+        """Whether the series shown came up too recently for ``action`` to be meant for it (``SETTLE_SECONDS``),
+        or the key came amid typing (``typing``): then the key is not done, and the screen says so."""
         shown = self.session.shown
         if shown is None or SETTLE_SECONDS <= 0:
             return False
         if shown.sid != self._came_up[0]:  # moved on (after a decision) and not drawn yet: it comes up now
             self._came_up = (shown.sid, time.monotonic())
-        elif time.monotonic() - self._came_up[1] >= SETTLE_SECONDS:
+        if self.typing(action):
+            return True
+        if time.monotonic() - self._came_up[1] >= SETTLE_SECONDS:
             return False
-        self.notify(f"Not done: {action} on {self.session.label(shown.series)}, which came up less than "
+        on = "" if action == "revoke" else f" on {self.session.label(shown.series)}"  # a revoke: this screen's latest
+        self.notify(f"Not done: {action}{on}, {'which' if on else 'the series shown'} came up less than "
                     f"{SETTLE_SECONDS:g} s ago (a key typed twice, or pressed as it came up?); look at it, then press "
                     "the key again.", severity="warning", timeout=5, markup=False)
         return True
@@ -309,12 +323,14 @@ class TriageScreen(DecisionFlow, Screen):
                     severity="warning", markup=False)
 
     def action_revoke(self) -> None:
-        """Revoke this screen's latest decision that still stands, wherever it is; the cursor goes there."""
+        """Revoke this screen's latest decision that still stands, wherever it is, once the dialog is answered
+        (``DecisionFlow.revoke``); the cursor goes there."""
         target = self.session.undo_target()
         if target is None:
             self.action_nothing_to_revoke()
             return
-        self.revoke(*target)
+        if not self.too_soon("revoke"):  # 'a u…', a note begun after an accept that asked none: not a revoke
+            self.revoke(*target)
 
     # -- moving around ---------------------------------------------------------------------
     def action_attention(self, step: int) -> None:

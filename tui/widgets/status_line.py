@@ -6,6 +6,9 @@ listed.  Every count (stale included) is always shown.
 """
 from __future__ import annotations
 
+import os
+from pathlib import Path
+
 from rich.cells import cell_len
 from rich.text import Text
 
@@ -166,7 +169,9 @@ def cut_off_text(book) -> str:
     if all("blank line" in note for note in said):  # an editor's save: the note says where they go
         return f"{name}: {'; '.join(said)}"
     notes = "; ".join(note.replace(SIDE_FILE, "").rstrip("; ") for note in said)
-    return f"{name}'s last append was cut off: {notes}; the next decision moves it to {name}.torn-<UTC time>"
+    from fitcore.ledger.files import side_stem
+    side = clean(side_stem(Path(os.path.realpath(book.path))))  # beside a linked ledger's target; a long name cut
+    return f"{name}'s last append was cut off: {notes}; the next decision moves it to {side}.torn-<UTC time>"
 
 
 def _counts_lines(session, width: int) -> Text:
