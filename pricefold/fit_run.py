@@ -211,7 +211,8 @@ def _fit_locally(args, run, ahead) -> int:
         most = 2 * len(rejects) > read  # then where the first is and why (its cell read again from the file)
         print(rejects_line(rejects.reasons, target, read, first_words(rejects, run.columns) if most else ""),
               file=sys.stderr)
-    for warning in (unread_columns_note(rejects.path, rejects.unread, run.columns), free, unplanned, unused):  # warnings too
+    unread = unread_columns_note(rejects.path, rejects.unread, run.columns)
+    for warning in (unread, free, unplanned, unused):  # warnings too
         if warning:
             print(warning, file=sys.stderr)
     if not args.quiet:

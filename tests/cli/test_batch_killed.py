@@ -46,8 +46,11 @@ def fit(folder: Path, data: str, out: str, *more: str) -> subprocess.CompletedPr
 
 def stopped(folder: Path, at: str, data: str, out: str) -> subprocess.Popen:
     """A fit stopped at ``at`` (``stop_at.py``), still alive."""
+    # Ctrl+C's usual handling, whatever this process was started with: a runner started in the background by a
+    # shell without job control ignores SIGINT, its children too, and pricefold then keeps ignoring it (README)
     run = subprocess.Popen([sys.executable, str(STOP_AT), at, "fit", data, "-o", out, "-q"], cwd=folder,
-                           stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+                           stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True,
+                           preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
     until = time.monotonic() + 120
     while time.monotonic() < until:
         state = Path(f"/proc/{run.pid}/stat").read_text().rsplit(")", 1)[1].split()[0]
