@@ -134,9 +134,9 @@ async def test_a_decision_key_typed_twice_decides_nothing_on_the_next_series(led
         await pilot.pause(0.2)
         assert [r["series"] for r in records(ledger_path)] == [app.session.keys.key_of(first)]
         said = next(n.message for n in app._notifications if n.message.startswith("Not done: accept on "))
-        assert "came up less than 0.4 s ago (a key typed twice, or pressed as it came up?)" in said
+        assert "came up less than 1.5 s after your last decision (a key typed twice, or a note begun" in said
         nxt = app.session.shown
-        await pilot.pause(0.5)
+        await pilot.pause(1.6)  # the next series has been on screen longer than a decision's settling time
         await pilot.press("a")
         await until(pilot, lambda: len(records(ledger_path)) == 2)
         assert records(ledger_path)[-1]["series"] == nxt.key
@@ -206,3 +206,30 @@ async def test_a_note_typed_after_an_accept_that_asked_none_decides_nothing(ledg
         assert not isinstance(app.screen, TextDialog)  # no revoke box left holding the words either
         said = [n.message for n in app._notifications if n.message.startswith("Not done: ")]
         assert any("typing a note? no box is open" in message for message in said)
+
+
+async def test_a_sentence_begun_a_moment_after_an_instant_accept_does_not_sign_the_next_series(ledger_path,
+                                                                                                 monkeypatch):
+    """``a`` on a series that needs no note signs at once and moves on; the analyst, expecting a note box, types
+    "all good" 0.6 s later: its ``a`` signed the next series, unseen (a trial).  A decision key within
+    ``AFTER_DECISION_SECONDS`` of a decision moving the cursor on is not done, and the screen says why."""
+    import asyncio
+
+    import tui.screens.triage
+    monkeypatch.setattr(tui.screens.triage, "SETTLE_SECONDS", 0.4)
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24), notifications=True) as pilot:
+        first = await on_an_unflagged_series(app, pilot)
+        await pilot.pause(0.5)
+        await pilot.press("a")
+        await until(pilot, lambda: len(records(ledger_path)) == 1)
+        await asyncio.sleep(0.6)
+        for key in [*"all", "space", *"good"]:
+            type_ahead(app, key)
+            await asyncio.sleep(0.15)
+            await pilot.pause()
+        await pilot.pause(0.3)
+        assert [r["series"] for r in records(ledger_path)] == [app.session.keys.key_of(first)]
+        said = [n.message for n in app._notifications if n.message.startswith("Not done: accept on ")]
+        assert any("after your last decision (a key typed twice, or a note begun where none was asked?)" in message
+                   for message in said), said

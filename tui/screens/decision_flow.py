@@ -8,6 +8,7 @@ and ``notify``, and ``_unsaid`` (series id → the note of a decision the ledger
 from __future__ import annotations
 
 import math
+import time
 
 from rich.text import Text
 
@@ -60,6 +61,7 @@ class DecisionFlow:
         self.notify(f"{TOLD[action]}{what}: {self.session.label(s)}", markup=False, timeout=3)
         if action in ("accept", "override", "hold"):
             self.session.after_decision(s)
+            self._moved_on_at = time.monotonic()  # the next series comes up now: ``too_soon`` waits longer for it
         else:
             self.session.bring(s)
         self.refresh_all()

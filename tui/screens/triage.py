@@ -45,6 +45,9 @@ POLL_SECONDS = 2.0
 # a decision key this soon after its series came up is not done: the evidence cannot have been read (a key typed
 # twice, or held down, accepted the next series too, 4 ms later); ``conftest`` sets 0 for the tests' pilots
 SETTLE_SECONDS = 0.4
+# longer for a series the cursor moved to because of a decision: an accept that asks for no note, then a sentence
+# typed as its note, signed the next series with the sentence's first letter 0.6 s later (a trial)
+AFTER_DECISION_SECONDS = 1.5
 
 
 class TriageScreen(DecisionFlow, Screen):
@@ -78,6 +81,7 @@ class TriageScreen(DecisionFlow, Screen):
         self._status_lines: int | None = None
         self._waiting_key: tuple | None = None  # (action, shown): a key pressed before the results were all read
         self._came_up: tuple[str | None, float] = (None, 0.0)  # the series shown and when it came up (``too_soon``)
+        self._moved_on_at = -1.0  # when a decision here last moved the cursor on (``DecisionFlow.decide``)
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
         self._keys_said: tuple = (None, None, None)  # the header's key columns, respellings and missing signed series
 
@@ -280,12 +284,16 @@ class TriageScreen(DecisionFlow, Screen):
             self._came_up = (shown.sid, time.monotonic())
         if self.typing(action):
             return True
-        if time.monotonic() - self._came_up[1] >= SETTLE_SECONDS:
+        moved = 0 <= self._came_up[1] - self._moved_on_at < 1.0  # it came up as a decision moved the cursor on
+        settle = AFTER_DECISION_SECONDS if moved else SETTLE_SECONDS
+        if time.monotonic() - self._came_up[1] >= settle:
             return False
         on = "" if action == "revoke" else f" on {self.session.label(shown.series)}"  # a revoke: this screen's latest
+        why = ("after your last decision (a key typed twice, or a note begun where none was asked?)" if moved else
+               "ago (a key typed twice, or pressed as it came up?)")
         self.notify(f"Not done: {action}{on}, {'which' if on else 'the series shown'} came up less than "
-                    f"{SETTLE_SECONDS:g} s ago (a key typed twice, or pressed as it came up?); look at it, then press "
-                    "the key again.", severity="warning", timeout=5, markup=False)
+                    f"{settle:g} s {why}; look at it, then press the key again.", severity="warning", timeout=5,
+                    markup=False)
         return True
 
     def action_accept(self) -> None:
