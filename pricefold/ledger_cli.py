@@ -317,7 +317,10 @@ def run_accept_unflagged(args) -> int:
         from fitcore.ledger.files import open_ledger as open_file
         os.close(open_file(args.ledger, write=True))
     refuse_key_mismatch(args.results, header, book, args.ledger)
-    from fitcore.ledger.elsewhere import backtested_elsewhere
+    from fitcore.ledger.elsewhere import backtested_elsewhere, head_gone
+    gone = head_gone(args.results, header, book.records, args.ledger)
+    if gone:  # as carry: its flags were judged against decisions that are no longer there (an older copy put back)
+        raise ledger.LedgerError(f"{gone}; nothing was accepted")
     foreign = backtested_elsewhere(args.results, header, args.ledger)
     if foreign:  # as show --ledger and the triage screen say it
         print(f"pricefold ledger: {foreign}; its 'shifted' flags are not counted (fit again with --ledger on "

@@ -60,3 +60,14 @@ def test_the_report_says_it_first(restored, tmp_path, capsys):
     page = (tmp_path / "r.html").read_text()
     first = page.index('role="alert"')
     assert "The ledger is not the one these results were made against" in page[first:first + 200]
+
+
+def test_accept_unflagged_refuses_them_as_carry_does(restored, capsys):
+    """Before: it accepted on top of the older copy, where the revoked accept stands again (a trial)."""
+    book, results = restored
+    before = book.read_bytes()
+    capsys.readouterr()
+    assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(book)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and GONE in err and "nothing was accepted" in err
+    assert book.read_bytes() == before
