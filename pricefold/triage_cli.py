@@ -116,6 +116,15 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     if app.return_code == 130:
         print("pricefold triage: interrupted before the list was shown; nothing was recorded", file=sys.stderr)
         return 130
+    if app.stopped_by is not None:  # a kill, or the terminal gone: one line where there is still somewhere to say it
+        import signal
+        try:
+            print(f"pricefold triage: stopped by {signal.Signals(app.stopped_by).name}; "
+                  + (f"decisions are in {ledger_path} (a note being typed was not recorded)" if ledger_path.exists()
+                     else "nothing was recorded"), file=sys.stderr)
+        except OSError:
+            pass
+        return 128 + app.stopped_by
     if ledger_path.exists():  # after a failure before any decision there is no ledger to point to
         print(f"decisions are in {ledger_path}", file=sys.stderr)
     return app.return_code or 0

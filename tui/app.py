@@ -118,6 +118,7 @@ class TriageApp(App):
         self.observer = observer
         self.session: TriageSession | None = None
         self.failure: str | None = None  # why the session could not be opened (the command line says it too)
+        self.stopped_by: int | None = None  # the signal (SIGTERM, SIGHUP) that ended the screen, if one did
         self._mounted = threading.Event()  # progress reaches the loading screen once there is one
         self.opening.report_to(self._progressed)
 
@@ -126,11 +127,29 @@ class TriageApp(App):
         Ctrl+C is (exit 130); once the list is up it is a quit like any other (each decision is already written)."""
         self.exit(return_code=130 if self.session is None and self.failure is None else 0)
 
+    def _stop_on_signals(self) -> None:
+        """SIGTERM (a kill) and SIGHUP (the SSH link dropped) end the screen as ``q`` does, the terminal given
+        back: by default they ended the process at once, the terminal left in the screen's mode and nothing said.
+        Every decision is in the ledger already; a note being typed is not recorded (``open_triage`` says so)."""
+        import asyncio
+        import signal
+        loop = asyncio.get_running_loop()
+        for number in (signal.SIGTERM, signal.SIGHUP):
+            try:
+                loop.add_signal_handler(number, self._stopped, number)
+            except (NotImplementedError, RuntimeError, ValueError):  # no such signal here, or not the main thread
+                pass
+
+    def _stopped(self, number: int) -> None:
+        self.stopped_by = number
+        self.exit(return_code=128 + number)
+
     def _progressed(self, done: int, total: int) -> None:
         if self._mounted.is_set():
             self.post_message(FitProgressed(done, total))
 
     def on_mount(self) -> None:
+        self._stop_on_signals()
         self.push_screen(LoadingScreen())
         self._mounted.set()
         self.open_session()
