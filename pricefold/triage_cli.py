@@ -120,8 +120,8 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
         import signal
         try:
             print(f"pricefold triage: stopped by {signal.Signals(app.stopped_by).name}; "
-                  + (f"decisions are in {ledger_path} (a note being typed was not recorded)" if ledger_path.exists()
-                     else "nothing was recorded"), file=sys.stderr)
+                  + (f"decisions are in {ledger_path}" if ledger_path.exists() else "nothing was recorded")
+                  + (" (the note being typed was not recorded)" if app.note_lost else ""), file=sys.stderr)
         except OSError:
             pass
         return 128 + app.stopped_by

@@ -119,6 +119,7 @@ class TriageApp(App):
         self.session: TriageSession | None = None
         self.failure: str | None = None  # why the session could not be opened (the command line says it too)
         self.stopped_by: int | None = None  # the signal (SIGTERM, SIGHUP) that ended the screen, if one did
+        self.note_lost = False  # a note box was open when it did
         self._mounted = threading.Event()  # progress reaches the loading screen once there is one
         self.opening.report_to(self._progressed)
 
@@ -141,7 +142,9 @@ class TriageApp(App):
                 pass
 
     def _stopped(self, number: int) -> None:
+        from .screens.dialogs import TextDialog
         self.stopped_by = number
+        self.note_lost = isinstance(self.screen, TextDialog)  # a note box open: what was typed in it is not recorded
         self.exit(return_code=128 + number)
 
     def _progressed(self, done: int, total: int) -> None:

@@ -30,7 +30,7 @@ async def test_a_kill_or_a_dropped_link_ends_the_screen_as_q_does(ledger_path, n
 
 def test_the_command_says_what_stands(ledger_path, monkeypatch, capsys):
     class Stopped:
-        failure, return_code, stopped_by = None, 143, signal.SIGTERM
+        failure, return_code, stopped_by, note_lost = None, 143, signal.SIGTERM, True
 
         def run(self):
             pass
@@ -38,5 +38,8 @@ def test_the_command_says_what_stands(ledger_path, monkeypatch, capsys):
     monkeypatch.setattr("pricefold.terminal.require_terminal", lambda what: None, raising=False)
     ledger_path.write_text("")
     assert triage_cli.open_triage(None, ledger_path, "ana") == 143
-    assert capsys.readouterr().err == (f"pricefold triage: stopped by SIGTERM; decisions are in {ledger_path} (a note "
-                                       "being typed was not recorded)\n")
+    assert capsys.readouterr().err == (f"pricefold triage: stopped by SIGTERM; decisions are in {ledger_path} (the "
+                                       "note being typed was not recorded)\n")
+    Stopped.note_lost = False  # no note box open: no word of a note
+    assert triage_cli.open_triage(None, ledger_path, "ana") == 143
+    assert capsys.readouterr().err == f"pricefold triage: stopped by SIGTERM; decisions are in {ledger_path}\n"

@@ -233,3 +233,29 @@ async def test_a_sentence_begun_a_moment_after_an_instant_accept_does_not_sign_t
         said = [n.message for n in app._notifications if n.message.startswith("Not done: accept on ")]
         assert any("after your last decision (a key typed twice, or a note begun where none was asked?)" in message
                    for message in said), said
+
+
+async def test_a_note_begun_with_q_after_an_instant_accept_does_not_leave_the_screen(ledger_path, monkeypatch):
+    """"quite good" typed 0.6 s after an accept that asked for no note: its ``q`` left the screen and the rest,
+    "ite good", ran in the shell as a command (a trial).  Now the ``q`` is not done; a later one leaves."""
+    import asyncio
+
+    import tui.screens.triage
+    monkeypatch.setattr(tui.screens.triage, "SETTLE_SECONDS", 0.4)
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24), notifications=True) as pilot:
+        await on_an_unflagged_series(app, pilot)
+        await pilot.pause(0.5)
+        await pilot.press("a")
+        await until(pilot, lambda: len(records(ledger_path)) == 1)
+        await asyncio.sleep(0.6)
+        for key in "quite":
+            type_ahead(app, key)
+            await asyncio.sleep(0.15)
+            await pilot.pause()
+        await pilot.pause(0.3)
+        assert app.is_running and app.return_code is None
+        assert any(n.message.startswith("Not done: quit") for n in app._notifications)
+        await asyncio.sleep(1.6)
+        await pilot.press("q")
+        await until(pilot, lambda: app.return_code is not None)

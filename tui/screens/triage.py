@@ -427,4 +427,12 @@ class TriageScreen(DecisionFlow, Screen):
                                        classes="help"))
 
     def action_quit(self) -> None:
-        self.app.exit()
+        """``q``, unless it begins a note typed where no box is open: right after a decision moved the cursor on,
+        or amid keys that did nothing (the rest of "quite good" went to the shell, run as a command)."""
+        if SETTLE_SECONDS > 0 and time.monotonic() - self._moved_on_at < AFTER_DECISION_SECONDS:
+            self.notify(f"Not done: quit, pressed less than {AFTER_DECISION_SECONDS:g} s after your last decision (a "
+                        "note begun where none was asked?); press q again to leave.", severity="warning", timeout=5,
+                        markup=False)
+            return
+        if not self.typing("quit"):
+            self.app.exit()
