@@ -274,6 +274,11 @@ class TriageScreen(DecisionFlow, Screen):
                     markup=False)
         return True
 
+    def just_decided(self) -> bool:
+        """Whether a decision here moved the cursor on less than ``AFTER_DECISION_SECONDS`` ago: a key now may be a
+        note begun where none was asked."""
+        return SETTLE_SECONDS > 0 and time.monotonic() - self._moved_on_at < AFTER_DECISION_SECONDS
+
     def too_soon(self, action: str) -> bool:
         """Whether the series shown came up too recently for ``action`` to be meant for it (``SETTLE_SECONDS``),
         or the key came amid typing (``typing``): then the key is not done, and the screen says so."""
@@ -284,9 +289,9 @@ class TriageScreen(DecisionFlow, Screen):
             self._came_up = (shown.sid, time.monotonic())
         if self.typing(action):
             return True
-        moved = 0 <= self._came_up[1] - self._moved_on_at < 1.0  # it came up as a decision moved the cursor on
+        moved = self.just_decided()
         settle = AFTER_DECISION_SECONDS if moved else SETTLE_SECONDS
-        if time.monotonic() - self._came_up[1] >= settle:
+        if not moved and time.monotonic() - self._came_up[1] >= settle:
             return False
         on = "" if action == "revoke" else f" on {self.session.label(shown.series)}"  # a revoke: this screen's latest
         why = ("after your last decision (a key typed twice, or a note begun where none was asked?)" if moved else
@@ -429,7 +434,7 @@ class TriageScreen(DecisionFlow, Screen):
     def action_quit(self) -> None:
         """``q``, unless it begins a note typed where no box is open: right after a decision moved the cursor on,
         or amid keys that did nothing (the rest of "quite good" went to the shell, run as a command)."""
-        if SETTLE_SECONDS > 0 and time.monotonic() - self._moved_on_at < AFTER_DECISION_SECONDS:
+        if self.just_decided():
             self.notify(f"Not done: quit, pressed less than {AFTER_DECISION_SECONDS:g} s after your last decision (a "
                         "note begun where none was asked?); press q again to leave.", severity="warning", timeout=5,
                         markup=False)
