@@ -3,6 +3,7 @@ import anywhere."""
 from __future__ import annotations
 
 import hashlib
+import re
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -85,6 +86,10 @@ def file_sha256(path: Path) -> str:
         for block in iter(lambda: handle.read(1 << 20), b""):
             digest.update(block)
     return digest.hexdigest()
+
+
+# how a JSON results file begins (white space allowed where JSON allows it): told from data and from other JSON
+RESULTS_JSON = re.compile(rb'\s*\{\s*"schema"\s*:\s*"pricefold-results/')
 
 
 def is_parquet_name(path: str | Path) -> bool:

@@ -14,7 +14,7 @@ import numpy as np
 
 from ..errors import DataError
 from ..text import quoted
-from .columns import Columns, file_sha256, is_parquet_name
+from .columns import RESULTS_JSON, Columns, file_sha256, is_parquet_name
 from .dataset import Dataset, from_columns
 from .rejects import Rejects
 from .textfile import check_file, check_text, header_line, sniff_delimiter, split_header
@@ -173,18 +173,16 @@ def read_rows(path: Path, columns: Columns, sep: str | None = None, rows_are: st
         from .read_parquet import parquet_schema, read_parquet_rows
         schema = parquet_schema(path)  # a folder's files found once, for the check and the read
         if b"pricefold" in (schema.metadata or {}) and not set(columns.needed) <= set(schema.names):
-            raise DataError("this is a pricefold results file, not data: fit the data file it was fitted from, "
-                            "or read it with 'pricefold show' or 'pricefold triage'", path=str(path))
+            raise results_not_data(path, "")
         check_columns(path, schema.names, columns)
         rows, delimiter, found, names = read_parquet_rows(path, columns, schema), None, "none", schema.names
     else:
         from .read_csv import read_csv_rows
         check_text(path)
-        delimiter = delimiter_of(path, columns, sep)
         first = header_line(path)
-        if first.startswith('{"schema":"pricefold-results/'):
-            raise DataError("this is a pricefold results file (JSON), not data: fit the data file it was fitted from, "
-                            "or read it with 'pricefold show' or 'pricefold triage'", path=str(path))
+        if RESULTS_JSON.match(first.encode("utf-8", "surrogateescape")):  # before its "delimiter" is looked for
+            raise results_not_data(path, " (JSON)")
+        delimiter = delimiter_of(path, columns, sep)
         header = split_header(first, delimiter)
         if not [name for name in header if name.strip()]:
             raise DataError("expected a header line naming the columns, found an empty first line", path=str(path),
@@ -195,6 +193,12 @@ def read_rows(path: Path, columns: Columns, sep: str | None = None, rows_are: st
         raise DataError(f"expected at least one {rows_are}, found {found}", path=str(path))
     rows.unread = unread_columns(names, columns)
     return rows, kind, delimiter
+
+
+def results_not_data(path: Path, form: str) -> DataError:
+    """A pricefold results file given where data belong (Parquet, or JSON under any name: ``form``)."""
+    return DataError(f"this is a pricefold results file{form}, not data: fit the data file it was fitted from, or "
+                     "read it with 'pricefold show' or 'pricefold triage'", path=str(path))
 
 
 def column_names(path: Path, sep: str | None = None, wanted: list[str] = ()) -> list[str]:

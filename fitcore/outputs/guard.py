@@ -23,18 +23,17 @@ from __future__ import annotations
 import csv
 import io
 import os
-import re
 import stat
 from pathlib import Path
 from typing import Iterable
 
+from ..data.columns import RESULTS_JSON
 from ..errors import DataError
 
 KIND_NAMES = {"results": "a pricefold results file", "results-folder": "a pricefold results folder",
               "rejects": "a rejects file pricefold wrote", "export": "a pricefold export unchanged since written",
               "report": "a page written by pricefold report and unchanged since"}
 _REPORT = b'<meta name="generator" content="pricefold report'  # pricefold/report/page.py writes it
-_RESULTS_JSON = re.compile(rb'\s*\{\s*"schema"\s*:\s*"pricefold-results/')
 
 Inputs = Iterable[tuple[str, "str | Path | None"]]
 
@@ -93,7 +92,7 @@ def is_own(path: "str | Path", kind: str) -> bool:
     except OSError:
         return False
     if kind == "results":
-        if _RESULTS_JSON.match(head):  # and sealed unchanged: JSON is edited by hand (where no seals: the marker)
+        if RESULTS_JSON.match(head):  # and sealed unchanged: JSON is edited by hand (where no seals: the marker)
             from .seal import file_sealed
             return file_sealed(path) is not False
         return _is_results_parquet(path, head)
@@ -196,7 +195,7 @@ def _why_not_own(path: Path, kind: str) -> str:
     except OSError:
         return ""
     if (kind == "export" and {"status", "model", "coef"} <= set(_first_row(head))) or (
-            kind == "results" and _RESULTS_JSON.match(head)):
+            kind == "results" and RESULTS_JSON.match(head)):
         from .seal import seal_state
         return {"absent": " (no seal: edited by a program that saved a new file, copied, or written before seals)",
                 "changed": " (changed since it was written)"}.get(seal_state(path), "")
