@@ -253,8 +253,11 @@ def _ledger_facts(report: Report) -> list[tuple[str, str]]:
              "unverifiable": "<strong class=\"sev-stop\">not verified</strong> (keyed, no key given)",
              "absent": "no ledger yet"}
     kind = {"hmac-sha256": "keyed HMAC-SHA-256", "sha256": "SHA-256"}.get(view.kind or "", "")
+    chain = words.get(view.state, esc(view.state)) + (f" ({kind})" if kind else "")
+    if report.head_gone and view.state == "intact":  # intact as far as it goes: a copy that ends earlier verifies too
+        chain += " — but it ends before records these results were made against (see the alert above)"
     pairs = [("Ledger file", f"<code>{esc(view.path)}</code>"),
-             ("Chain", words.get(view.state, esc(view.state)) + (f" ({kind})" if kind else "")),
+             ("Chain", chain),
              ("Head", f"<span class=\"digest\">{esc(view.head)}</span>" if view.head else "none"),
              ("Records", num(len(view.records)))]
     if report.signoff.unmatched:

@@ -60,6 +60,8 @@ def test_the_report_says_it_first(restored, tmp_path, capsys):
     page = (tmp_path / "r.html").read_text()
     first = page.index('role="alert"')
     assert "The ledger is not the one these results were made against" in page[first:first + 200]
+    # its facts too: the chain verifies, yet 'intact' alone read as all being well beside the alert (a trial)
+    assert "intact: every record's digest and link checked (SHA-256) — but it ends before records" in page
 
 
 def test_accept_unflagged_refuses_them_as_carry_does(restored, capsys):
