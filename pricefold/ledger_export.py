@@ -74,7 +74,7 @@ def run_export(args) -> int:
     own = {"volume": "plan_volume", "lo": "plan_lo", "hi": "plan_hi", "elasticity": "plan_elasticity"}
     level = (header.get("settings") or {}).get("level")
     rows: list[list] = []
-    unmeasured: list[int] = []  # rows whose elasticity nothing measured (price never varied, or tied to a control)
+    unmeasured: list[int] = []  # rows whose elasticity nothing measured (price never varied, or a flat curve)
     later: list[tuple] = []  # (row, key, snapshot, price, the results' numbers): signed curves at another price
     from fitcore.collector import collector_paused
     from fitcore.ledger.snapshot import signed_plan
@@ -121,10 +121,9 @@ def run_export(args) -> int:
                          current.get("note", "") if current else "", _number(plan.get("price")),
                          *plan_cells(at_plan), carried_from(history), *carried_decision(history), head,
                          *seen.cells(plan.get("price") if status != "stale" else None)])
-            # a flat curve chosen where price moved with a control: its 0 is the model's choice, and the price
-            # effect may sit in the control's term — no more a measurement than a curve of one price
-            tied_flat = status != "stale" and model == "poly0" and "price-tied" in seen.codes
-            if not varied or tied_flat:
+            # a flat curve's 0 is the model's choice (the folds found no price effect worth its coefficient), not
+            # a measurement: the screen says so beside it, and a bare 0 read downstream as "volume does not respond"
+            if not varied or model == "poly0":
                 unmeasured.append(len(rows) - 1)
     said, found = meets(keys, book, args.ledger) if book.histories else (None, None)
     if said:  # a warning, not a refusal: a team ledger may hold other product ranges keyed alike

@@ -12,6 +12,7 @@ import csv
 import hashlib
 import json
 import re
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -20,6 +21,8 @@ from fitcore import ledger
 from fitcore.outputs.guard import _export_shaped, is_own
 from fitcore.outputs.seal import seal_file
 from pricefold.cli import main
+
+ROOT = Path(__file__).resolve().parents[2]
 
 
 @pytest.fixture(scope="module")
@@ -181,3 +184,24 @@ def test_the_export_leaves_empty_the_elasticity_of_a_flat_curve_chosen_where_pri
     assert said["tied"]["model"] == "poly0" and "price-tied" in said["tied"]["flags"].split()
     assert said["tied"]["plan_elasticity"] == "" and said["tied"]["plan_volume"] != ""
     assert said["free"]["plan_elasticity"] not in ("", "0.0")
+
+
+def test_the_export_leaves_empty_the_elasticity_of_every_flat_curve(tmp_path):
+    """A flat curve's elasticity is 0 by its shape (the folds found no price effect worth a coefficient), not a
+    measurement; the screen and show say so beside it.  Before: 0.0 where price moved and no control was tied,
+    read downstream as "volume does not respond to price" (a trial: the sample's cherry tomatoes · South, whose
+    prices span 1.35–2.25).  The sample's shipped results (a plan price for every series), an empty ledger."""
+    import pyarrow.parquet as pq
+    results = ROOT / "sample" / "results.parquet"
+    chosen = pq.read_table(results, columns=["is_chosen", "candidate", "price_lo", "price_hi", "product", "region"])
+    flat = [(row["product"], row["region"]) for row in chosen.to_pylist()
+            if row["is_chosen"] and row["candidate"] == "poly0" and row["price_hi"] > row["price_lo"]]
+    assert len(flat) >= 3  # flat curves chosen where price did move
+    (tmp_path / "L.jsonl").write_bytes(b"")
+    out = tmp_path / "e.csv"
+    assert main(["ledger", "export", str(tmp_path / "L.jsonl"), "--results", str(results), "-o", str(out), "-q"]) == 0
+    with open(out, newline="", encoding="utf-8") as handle:
+        rows = {(row["product"], row["region"]): row for row in csv.DictReader(handle)}
+    assert all(rows[key]["model"] == "poly0" and rows[key]["plan_elasticity"] == "" and rows[key]["plan_volume"]
+               for key in flat)
+    assert sum(row["plan_elasticity"] not in ("", "0.0") for row in rows.values()) > 100  # the others measured
