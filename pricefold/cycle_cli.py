@@ -205,9 +205,11 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             lines.append("  the backtest in these results tested a decision that no longer stands: not shown (fit "
                          "again with --ledger to test what stands)")
         return "\n".join(lines)
-    ordered = in_attention_order(records, first)
+    state_of = {id(record): ledger_state(record, book, short=True, fitted=fitted) for record in records}
+    # a stale series ranks as the screen ranks it: its 'stale' one stop flag more
+    ordered = in_attention_order(records, first, stale=[state_of[id(record)][0] == "stale" for record in records])
     labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like), beside=beside)
-    states = [ledger_state(record, book, short=True, fitted=fitted) for record in ordered]
+    states = [state_of[id(record)] for record in ordered]
     newer = sum(needs == NEWER_DUE_SHORT for _, needs in states)
     if newer:  # as export warns and the report alerts: these results are older than those decisions
         print(f"pricefold show: {results}: note: {newer:,} of the series listed {'was' if newer == 1 else 'were'} "

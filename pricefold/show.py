@@ -138,9 +138,11 @@ def distinct(names: Iterable) -> list[str]:
     return list(dict.fromkeys(str(name) for name in names if name is not None))
 
 
-def in_attention_order(records: list[dict], first: Callable[[dict], int] | None = None) -> list[dict]:
+def in_attention_order(records: list[dict], first: Callable[[dict], int] | None = None,
+                       stale: list[bool] | None = None) -> list[dict]:
     """The records as ``fitcore.review.attention`` orders series; ``first``: a rank of each record ahead of that
-    order (``--product``'s: the product as typed before its other Unicode form)."""
+    order (``--product``'s: the product as typed before its other Unicode form); ``stale``: each record's data
+    changed since its sign-off (a ledger's word), one stop flag more, as the screen raises ``stale``."""
     counted: dict[int, tuple[int, int]] = {}  # by flag list: the Parquet list reader shares equal ones
 
     def stops_warns(flags: list) -> tuple[int, int]:
@@ -150,6 +152,8 @@ def in_attention_order(records: list[dict], first: Callable[[dict], int] | None 
             found = counted[id(flags)] = (stop, len(flags) - stop)
         return found
     pairs = [stops_warns(r["flags"]) for r in records]
+    if stale is not None:
+        pairs = [(stop + more, warn) for (stop, warn), more in zip(pairs, stale)]
     scores = [math.nan if r["score"] is None else r["score"] for r in records]
     order = attention_order([p[0] for p in pairs], [p[1] for p in pairs], scores)
     if first is not None:
