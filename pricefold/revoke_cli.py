@@ -15,10 +15,12 @@ import sys
 from fitcore import ledger
 from fitcore.ledger.replay import own_standing, series_id
 from fitcore.ledger.rules import label, person, what_happened
+from fitcore.text import clean
 
 from .ledger_cli import identity, open_ledger, record
 
 DECIDING = ("accept", "override", "hold", "carry")
+SAID = 5  # decisions withdrawn named one a line; a batch's others counted
 
 
 def run_revoke(args) -> int:
@@ -30,9 +32,11 @@ def run_revoke(args) -> int:
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN, ledger.UNVERIFIABLE))
     who = identity(args.analyst)
     left: list[str] = []
+    taken: list[dict] = []  # the decisions withdrawn, as the ledger held them under the lock
 
     def entries(records: list[dict]) -> list[ledger.Entry]:  # under the lock: the ledger as it stands now
         left.clear()
+        taken.clear()
         out = []
         for record in named(args, records):
             history = book.histories.get(series_id(record["series"]))
@@ -43,6 +47,7 @@ def run_revoke(args) -> int:
                                              "nothing was withdrawn")
                 left.append(why)
                 continue
+            taken.append(history.current)
             out.append(ledger.Entry(series=record["series"], action="revoke", fingerprint=record["fingerprint"],
                                     results=record["results"], model=record.get("model"),
                                     proposed=record.get("proposed"), note=args.note,
@@ -58,6 +63,15 @@ def run_revoke(args) -> int:
         if args.batch is not None and not (by_seq(book.records)[args.batch].get("batch") or {}).get("id"):
             kept += f" (#{args.batch} was appended alone, a batch of one: itself only)"
         print(f"withdrew {len(written):,} decision{'s' * (len(written) != 1)}{kept} → {args.ledger}", file=sys.stderr)
+        for decision in taken[:SAID]:
+            print(f"  #{decision['seq']} {label(decision['series'])}: {what_happened(decision)}", file=sys.stderr)
+        if len(taken) > SAID:
+            print(f"  … and {len(taken) - SAID:,} more (pricefold ledger show lists them)", file=sys.stderr)
+        others = sorted({clean(d["analyst"]) for d in taken if d["analyst"] != who.analyst})
+        if others:  # one OS user may record under several names: the ledger's rule is the OS user's, said here
+            print(f"note: withdrawn under the name {clean(who.analyst)!r}, recorded under {', '.join(map(repr, others))} "
+                  f"by the same OS user ({clean(who.os_user)}): the ledger lets an OS user withdraw its own decisions "
+                  "whatever name they were recorded under", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0
 

@@ -162,3 +162,23 @@ def test_a_record_number_as_shown_and_a_note_told_what_to_do(book, capsys):
 def test_a_batch_named_by_a_lone_record_says_so(book, capsys):
     assert revoke(book, "--batch", "6", "--note", "n") == 0
     assert "withdrew 1 decision (#6 was appended alone, a batch of one: itself only) → " in capsys.readouterr().err
+
+
+def test_it_names_what_it_withdrew_and_another_display_name_of_the_same_os_user(book, monkeypatch, capsys):
+    """Two analysts sharing an OS account: 'Ben' withdrew Ana's accept, and nothing said whose it was ('withdrew 1
+    decision'; a trial).  The decisions withdrawn are named, and the other display name said with the rule."""
+    monkeypatch.setattr(revoke_cli, "identity", lambda analyst: ledger.Identity("Ben", "ana", "host"))
+    assert revoke(book, "--record", "6", "--note", "needs a fresh look") == 0
+    err = capsys.readouterr().err.splitlines()
+    assert err[1].startswith("  #6 item 9 · North: ana accepted poly1 at ")
+    assert err[2].startswith("note: withdrawn under the name 'Ben', recorded under 'ana' by the same OS user (ana)")
+
+
+def test_a_batch_withdrawn_names_five_and_counts_the_rest(tmp_path, monkeypatch, capsys):
+    path = tmp_path / "decisions.jsonl"
+    ledger.Ledger(path).append([accept(i) for i in range(1, 9)], ANA)
+    monkeypatch.setattr(revoke_cli, "identity", lambda analyst: ANA)
+    assert revoke(path, "--batch", "1", "--note", "wrong file") == 0
+    err = capsys.readouterr().err.splitlines()
+    assert [line.split(":")[0] for line in err[1:6]] == [f"  #{i} item {i} · North" for i in range(1, 6)]
+    assert err[6] == "  … and 3 more (pricefold ledger show lists them)" and not err[7].startswith("note:")
