@@ -204,17 +204,25 @@ def _number_reasons(mark, name, values, not_number, missing, signed: bool = Fals
 
 def _duplicates(rows: RawRows, dates: np.ndarray, reject, open_rows: np.ndarray) -> None:
     """Rows repeating the series and date of an earlier usable row: ``reject(index, reason)``."""
-    usable = np.flatnonzero(open_rows)
-    if not len(usable):
-        return
-    repeated, earlier = duplicate_rows([values.codes[usable] for values in rows.keys.values()], dates[usable],
-                                       rows.line[usable])
+    if open_rows.all():  # the usual file: no row set aside yet, so no copy of every column to take them
+        keys = [values.codes for values in rows.keys.values()]
+        if none_repeated(keys, dates):
+            return
+        usable = np.arange(len(open_rows))
+    else:
+        usable = np.flatnonzero(open_rows)
+        if not len(usable):
+            return
+        keys, dates = [values.codes[usable] for values in rows.keys.values()], dates[usable]
+    repeated, earlier = duplicate_rows(keys, dates, rows.line[usable])
     for index, line in zip(usable[repeated], earlier):
         reject(index, duplicate_reason(line))
 
 
 def duplicate_rows(keys: list[np.ndarray], dates: np.ndarray, lines: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Rows (in line order) repeating the key and date of an earlier row: their indices, and that row's line."""
+    if none_repeated(keys, dates):
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
     import pandas as pd
     frame = pd.DataFrame({f"k{i}": values for i, values in enumerate(keys)})
     frame["_date"] = dates.view(np.int64)
@@ -223,6 +231,51 @@ def duplicate_rows(keys: list[np.ndarray], dates: np.ndarray, lines: np.ndarray)
         return np.zeros(0, np.int64), np.zeros(0, np.int64)
     first_line = pd.Series(lines).groupby([frame[c] for c in frame.columns], sort=False).transform("first")
     return np.flatnonzero(repeated), first_line.to_numpy()[repeated]
+
+
+SEEN_CELLS = 1 << 26  # at least: a (series, date) table of this many bytes is cheap beside the rows' columns
+_DAY = 86_400 * 10**9
+_CHUNK = 1 << 20  # rows numbered at a time: small scratch arrays, used again, not fresh memory for every step
+
+
+def none_repeated(keys: list[np.ndarray], dates: np.ndarray) -> bool:
+    """Whether no two rows share a key and a date, found without hashing each row where it can be: each row's
+    (series, date) numbered densely (the keys' codes in mixed radix, dates in whole days from the first) and marked
+    in a table of one byte a pair; the rows are all distinct when as many cells are marked as there are rows.
+    False where they repeat — or where the numbering does not fit (times within a day, a table over 16 bytes a
+    row): ``duplicate_rows``' general way then says which.  7M rows of 100,000 weekly series: 2.0 s and 690 MiB
+    at the peak by pandas' hashing → 0.1 s and 60 MiB."""
+    n = len(dates)
+    if n < 2:
+        return True
+    widths, size, room = [], 1, 16 * n + SEEN_CELLS
+    for codes in keys:
+        if codes.min(initial=0) < 0:
+            return False
+        widths.append(int(codes.max(initial=-1)) + 1)
+        size *= widths[-1]
+    day = dates.view(np.int64)
+    first = np.int64(day.min())
+    reach = int(day.max()) - int(first)
+    if reach >= 1 << 62:  # (each row's distance from the first would overflow int64: NaT, or centuries apart)
+        return False
+    span = reach // _DAY + 1
+    if size * span > room:
+        return False
+    seen = np.zeros(size * span, np.bool_)
+    for at in range(0, n, _CHUNK):
+        offset = day[at:at + _CHUNK] - first
+        if (offset % _DAY).any():  # a time within a day: not numbered by days
+            return False
+        offset //= _DAY
+        pair = np.zeros(len(offset), np.int64)
+        for codes, width in zip(keys, widths):
+            pair *= width
+            pair += codes[at:at + _CHUNK]
+        pair *= span
+        pair += offset
+        seen[pair] = True
+    return int(np.count_nonzero(seen)) == n
 
 
 def duplicate_reason(line: int) -> str:
