@@ -142,15 +142,16 @@ def readonly(array):
     return view
 
 
-def looks_compiled() -> bool:
-    """Whether numba's cache seems to hold the engine's largest loop, compiled since its source last
+def looks_compiled(module: str = "kernels", loop: str = "family_fit") -> bool:
+    """Whether numba's cache seems to hold the engine's largest loop (``loop`` of ``fitcore/fit/MODULE.py``:
+    ``controlled_fit`` of ``controlled`` for fits with controls or season terms), compiled since its source last
     changed (so a fit now loads compiled code instead of compiling for ~10 s).  A guess from the cache's
     files, made without importing numba; where numba keeps them: ``$NUMBA_CACHE_DIR`` if set, else
     ``__pycache__`` beside the source, else the user's cache folder."""
     import hashlib
     import os
     from pathlib import Path
-    source = Path(__file__).resolve().parent / "fit" / "kernels.py"
+    source = Path(__file__).resolve().parent / "fit" / f"{module}.py"
     folder = str(source.parent)
     mirrored = f"{source.parent.name}_{hashlib.sha1(folder.encode()).hexdigest()}"
     if os.environ.get("NUMBA_CACHE_DIR"):
@@ -161,6 +162,6 @@ def looks_compiled() -> bool:
     try:
         changed = source.stat().st_mtime
         return any(index.stat().st_mtime >= changed for place in places
-                   for index in place.glob(f"{source.stem}.family_fit-*.py{sys.version_info[0]}{sys.version_info[1]}.nbi"))
+                   for index in place.glob(f"{source.stem}.{loop}-*.py{sys.version_info[0]}{sys.version_info[1]}.nbi"))
     except OSError:
         return False

@@ -17,7 +17,7 @@ import sys
 from pathlib import Path
 
 SHIPPED = "results.parquet"  # in the sample folder, beside wholesale.csv and plan.csv
-COMPILING_NOTE = ("The engine is compiling behind the screen (once after an install, about 20–40 s): the "
+COMPILING_NOTE = ("The engine is compiling behind the screen (once after an install, about 10–20 s): the "
                   "observations and bands appear when it is done; everything else works now.")
 
 
@@ -90,7 +90,7 @@ def _demo(args, open_triage, sample, shipped: Path, ready: bool, results_path: P
                            prepare=compile_elsewhere)
     from fitcore.results.write import write_results
     from fitcore.results.source import fit_source, source_from_results
-    print("fitting the invented sample …\n(the first run after an install also compiles the engine: ~20–40 s, once)",
+    print("fitting the invented sample …\n(the first run after an install also compiles the engine: ~10–20 s, once)",
           file=sys.stderr)
     results, diagnosis = fit_source(sample)
     write_results(results, results_path, diagnosis)

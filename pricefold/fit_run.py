@@ -133,6 +133,17 @@ def warm_engine():
     return thread
 
 
+def compiling_note(controlled: bool) -> None:
+    """Say that the fit compiles the engine's loops first (once after an install: ~9 s here; a fit with controls
+    or season terms has loops of its own, ~7–9 s) where numba's cache does not hold them: the screen stayed blank
+    that long, the progress line only at its end, and the engine read as seven times slower than it is (a trial)."""
+    from fitcore.compiled import looks_compiled
+    if not (looks_compiled("controlled", "controlled_fit") if controlled else looks_compiled()):
+        print("note: compiling the engine's loops first (once after an install"
+              f"{' for fits with controls or season terms' if controlled else ''}: about 10 s; later runs load "
+              "them from numba's cache)", file=sys.stderr)
+
+
 def _fit_invented() -> None:
     import numpy as np
 
@@ -183,6 +194,8 @@ def _fit_locally(args, run, ahead) -> int:
                 batch.remove(target, earlier.sha256)
         # the plan's own delimiter; with controls, its control columns and plan dates
         plan = plan_keywords(data, run.plan_file, run.plan_price, season=run.settings.season)
+        if not args.quiet and sys.stderr.isatty():  # as the progress line: for the person waiting, not a log
+            compiling_note(bool(data.controls) or bool(run.settings.season))
         bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
         try:
             results = fit_batch(data, run.settings, **plan, progress=checked(bar))

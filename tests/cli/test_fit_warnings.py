@@ -141,3 +141,33 @@ def test_most_rows_duplicates_of_a_series_and_date_point_at_the_key_columns(tmp_
     (line,) = [text for text in capsys.readouterr().err.splitlines() if "rejected" in text]
     assert code == 0 and line.endswith(": check the key columns (a --segment left out makes several series one, their "
                                        "dates repeated) (--strict fails such a run)"), line
+
+
+@pytest.mark.parametrize("controlled", [False, True])
+def test_a_fit_that_will_compile_first_says_so_and_one_that_will_not_is_silent(tmp_path, capsys, monkeypatch,
+                                                                               controlled):
+    """The first fit after an install compiled for ~9 s with nothing on screen, its progress line only at the end
+    (a trial read the engine as seven times slower).  The cache is judged by the loop the fit will use: a fit with
+    controls has its own (``controlled_fit``), the plain one ``family_fit``; said to a terminal, as the progress
+    line is: -q, or stderr a file or pipe (a log, a test's capture), says nothing."""
+    import io
+
+    import fitcore.compiled
+
+    class Terminal(io.StringIO):
+        def isatty(self) -> bool:
+            return True
+    cold = {"controlled_fit" if controlled else "family_fit"}
+    monkeypatch.setattr(fitcore.compiled, "looks_compiled", lambda module="kernels", loop="family_fit": loop not in cold)
+    extra = ["--control", "promo"] if controlled else []
+    data = write(tmp_path / "d.csv", sample_rows()[:600])
+
+    def said(quiet: list, terminal: bool) -> bool:
+        err = Terminal() if terminal else io.StringIO()
+        monkeypatch.setattr("sys.stderr", err)
+        assert main(["fit", str(data), "--segment", "region", "--date", "week", *extra, "-o",
+                     str(tmp_path / "r.json"), *quiet]) == 0
+        return "note: compiling the engine's loops first (once after an install" in err.getvalue()
+    assert said([], True) and not said(["-q"], True) and not said([], False)
+    cold.clear()  # compiled now
+    assert not said([], True)
