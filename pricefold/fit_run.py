@@ -172,51 +172,60 @@ def _fit_locally(args, run, ahead) -> int:
     from fitcore.outputs import Batch
     from fitcore.results.write import prepared_results
     from fitcore.review.flags import diagnose
+    from fitcore.text import clean
 
     from .earlier_rejects import earlier_rejects
     from .progress import ProgressLine
 
     started = time.perf_counter()
-    data, rejects = load_with_rejects(args.data, run.columns, sep=run.sep)
-    check()  # an interrupt recorded while the warm-up ran
-    free, read = zero_price_line(data, args.data, run.columns.price), data.source["rows"]
-    target = rejects_path(args.output)
-    earlier = earlier_rejects(target, args.output)  # before the results it sits beside are replaced
-    if len(rejects):
-        strict_or_foreign(rejects, earlier, args.strict, run.columns)
-    with Batch() as batch:
+    line = ProgressLine("fitting", enabled=None if not args.quiet else False)  # what is being done, on a terminal
+    try:
+        line.say(f"reading {clean(args.data.name)} …")
+        data, rejects = load_with_rejects(args.data, run.columns, sep=run.sep)
+        check()  # an interrupt recorded while the warm-up ran
+        free, read = zero_price_line(data, args.data, run.columns.price), data.source["rows"]
+        target = rejects_path(args.output)
+        earlier = earlier_rejects(target, args.output)  # before the results it sits beside are replaced
         if len(rejects):
-            staged = batch.add(target, lambda handle: write_rejects(rejects, handle))
-            data.source.update(rejects_file=target.name, rejects_sha256=staged.sha256)
-        else:
-            data.source.update(rejects_file=None, rejects_sha256=None)
-            if earlier.owned:  # the replaced results' own rejects would now mislead: removed with the step
-                batch.remove(target, earlier.sha256)
-        # the plan's own delimiter; with controls, its control columns and plan dates
-        plan = plan_keywords(data, run.plan_file, run.plan_price, season=run.settings.season)
-        if not args.quiet and sys.stderr.isatty():  # as the progress line: for the person waiting, not a log
-            compiling_note(bool(data.controls) or bool(run.settings.season))
-        bar = ProgressLine("fitting", enabled=None if not args.quiet else False)
-        try:
-            results = fit_batch(data, run.settings, **plan, progress=checked(bar))
-        finally:
-            bar.close()
-        diagnosis = diagnose(results, run.thresholds)
-        backtest, missed = None, False
-        if ahead is not None:  # the signed curves against the rows since, and the shifted flag
-            from .fit_ledger import backtest_against
-            diagnosis, backtest, missed = backtest_against(ahead, results, diagnosis, run.thresholds)
-        told = summary(results, diagnosis)
-        unplanned = unplanned_line(results, run.plan_file) if run.plan_file is not None else ""
-        unused = "" if run.plan_file is None else unused_columns_note(
-            run.plan_file, tuple(data.key_names), tuple(data.controls), bool(run.settings.season))
-        fitted = time.perf_counter()  # read, fitted and diagnosed: the writing is timed apart
-        write, by_name = prepared_results(results, args.output, diagnosis, backtest)
-        # What the table takes per series is made; it keeps the fit and the rows it still needs (prices): the
-        # rest of the rows freed before it is built, slice by slice, as the file is written.
-        del data, plan, results, diagnosis  # (``backtest``: per-series arrays, kept for its closing line)
-        batch.add(args.output, write, by_name=by_name)
-        check()  # interrupted, though something swallowed it: the staged files are dropped
+            strict_or_foreign(rejects, earlier, args.strict, run.columns)
+        with Batch() as batch:
+            if len(rejects):
+                staged = batch.add(target, lambda handle: write_rejects(rejects, handle))
+                data.source.update(rejects_file=target.name, rejects_sha256=staged.sha256)
+            else:
+                data.source.update(rejects_file=None, rejects_sha256=None)
+                if earlier.owned:  # the replaced results' own rejects would now mislead: removed with the step
+                    batch.remove(target, earlier.sha256)
+            # the plan's own delimiter; with controls, its control columns and plan dates
+            plan = plan_keywords(data, run.plan_file, run.plan_price, season=run.settings.season)
+            line.close()
+            if line.enabled:  # for the person waiting, not a log
+                compiling_note(bool(data.controls) or bool(run.settings.season))
+            try:
+                results = fit_batch(data, run.settings, **plan, progress=checked(line))
+            finally:
+                line.close()
+            line.say("checking the curves …")
+            diagnosis = diagnose(results, run.thresholds)
+            line.close()  # (the ledger's backtest may say something: on a line of its own)
+            backtest, missed = None, False
+            if ahead is not None:  # the signed curves against the rows since, and the shifted flag
+                from .fit_ledger import backtest_against
+                diagnosis, backtest, missed = backtest_against(ahead, results, diagnosis, run.thresholds)
+            told = summary(results, diagnosis)
+            unplanned = unplanned_line(results, run.plan_file) if run.plan_file is not None else ""
+            unused = "" if run.plan_file is None else unused_columns_note(
+                run.plan_file, tuple(data.key_names), tuple(data.controls), bool(run.settings.season))
+            fitted = time.perf_counter()  # read, fitted and diagnosed: the writing is timed apart
+            line.say(f"writing {clean(args.output.name)} …")
+            write, by_name = prepared_results(results, args.output, diagnosis, backtest)
+            # What the table takes per series is made; it keeps the fit and the rows it still needs (prices): the
+            # rest of the rows freed before it is built, slice by slice, as the file is written.
+            del data, plan, results, diagnosis  # (``backtest``: per-series arrays, kept for its closing line)
+            batch.add(args.output, write, by_name=by_name)
+            check()  # interrupted, though something swallowed it: the staged files are dropped
+    finally:  # cleared before any line is said, an error's too
+        line.close()
     in_place([str(target)] * bool(len(rejects)) + [str(args.output)])  # a signal now: said after them, at the end
     if not len(rejects) and earlier.exists and not earlier.owned:
         print(f"note: {target} left as it was: {earlier.why}; this run rejected no row", file=sys.stderr)

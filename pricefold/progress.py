@@ -23,6 +23,13 @@ class ProgressLine:
         self.stream.write(f"\r{self.label} {bar:<30} {share:4.0%}  {done:,}/{total:,} series")
         self.stream.flush()
 
+    def say(self, text: str) -> None:
+        """``text`` on the line (what is being done between bars: reading, checking, writing)."""
+        if self.enabled:
+            self.last, self.drawn = 0.0, True
+            self.stream.write(f"\r{text}\033[K")
+            self.stream.flush()
+
     def close(self) -> None:
         if self.drawn:
             self.stream.write("\r\033[K")
