@@ -1,7 +1,9 @@
 """Plain-language sentences for flags, quoting the numbers behind them."""
 from __future__ import annotations
 
+import functools
 import math
+from pathlib import Path
 
 import numpy as np
 
@@ -318,12 +320,21 @@ def _influential(diag, s):
     r, n = diag.results, diag.numbers
     data = r.data
     row = int(n["top_row"][s])
-    where = f"line {int(data.line[row])}" if data.line is not None else f"row {row + 1}"
+    where = f"{_row_word((data.source or {}).get('path'))} {int(data.line[row])}" if data.line is not None \
+        else f"row {row + 1}"
     if data.date is not None:
         where += f", {np.datetime_as_string(data.date[row], unit='D')}"
     return (f"The observation on {where} (price {money(data.price[row])}, volume {fmt(data.volume[row])}) has "
             f"Cook's distance {n['top_cook'][s]:.2f}, above max(4/n, {diag.thresholds.cook_floor:g}) = "
             f"{n['cook_limit'][s]:.2f} (a common rule of thumb).")
+
+
+@functools.lru_cache(maxsize=8)
+def _row_word(path: str | None) -> str:
+    """How a data row is placed: a text file's ``line``, a Parquet file's (or folder's) ``row`` — as the loader's
+    errors place them ("on line 3930558" of a Parquet file read as a line of text; a trial)."""
+    from ..data.columns import is_parquet_name
+    return "row" if path and (is_parquet_name(path) or Path(path).is_dir()) else "line"
 
 
 def _price_tied(diag, s):

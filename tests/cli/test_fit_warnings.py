@@ -199,3 +199,26 @@ def test_a_terminal_sees_what_the_fit_is_doing_and_every_line_said_starts_clean(
         printed = [line.rsplit("\r", 1)[-1].replace("\x1b[K", "") for line in text.split("\n") if line]
         assert printed and not any("…" in line for line in printed), printed
     assert shown["bad"].rsplit("\r\x1b[K", 1)[-1].startswith(f"pricefold fit: {tmp_path / 'bad.csv'}, line 2, column")
+
+
+def test_an_influential_row_of_a_parquet_file_is_placed_by_row_not_line(tmp_path):
+    """Where the loader's errors place a Parquet file's rows ('row N'), the influential-point sentence said
+    'line N' of one (a trial).  The sample fitted from its CSV and from a Parquet copy: the same observations,
+    the CSV's line numbers one more than the Parquet's row numbers (the header line)."""
+    import json
+    import re
+
+    import pyarrow.csv as pv
+    import pyarrow.parquet as pq
+    copy = tmp_path / "wholesale.parquet"
+    pq.write_table(pv.read_csv(SAMPLE / "wholesale.csv"), copy)
+    said = {}
+    for name, data in (("csv", SAMPLE / "wholesale.csv"), ("parquet", copy)):
+        out = tmp_path / f"{name}.json"
+        assert main(["fit", str(data), "--segment", "region", "--date", "week", "-o", str(out), "-q"]) == 0
+        said[name] = [f["message"] for s in json.loads(out.read_text())["series"] for f in s["flags"]
+                      if f["code"] == "influential-point"]
+    assert said["csv"] and len(said["csv"]) == len(said["parquet"])
+    for text, parquet in zip(said["csv"], said["parquet"]):
+        line = int(re.search(r"on line (\d+),", text)[1])
+        assert f"on row {line - 1}," in parquet and "on line" not in parquet
