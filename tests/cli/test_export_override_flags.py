@@ -1,0 +1,210 @@
+"""``ledger export``: a row standing on another candidate than the proposal (an override) carries that curve's
+own flags, not the proposal's.
+
+Invented series (a falling line with a seeded bend and noise, one plan price) are fitted once as JSON and once
+as Parquet; a ledger overrides some of them.  Which curves rise and which go below zero is checked apart from
+pricefold, on the results' plain power-basis coefficients: numpy's ``Polynomial(coef).deriv()`` evaluated on a
+grid of 2,001 prices over the observed range (the share of the grid where the slope is above zero, against the
+``rising_share`` threshold), and ``Polynomial(coef)`` on the same grid for the lowest volume.  Only curves clearly
+on one side of each threshold are used, so the grid's resolution decides nothing.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import json
+
+import numpy as np
+import pytest
+from numpy.polynomial import Polynomial
+
+from fitcore import ledger
+from fitcore.review.candidate_checks import CHECKED, OF_THE_SERIES, PROPOSAL_ONLY, codes_for_another
+from fitcore.review.flags import CODES
+from fitcore.review.thresholds import Thresholds
+from pricefold.cli import main
+from pricefold.ledger_export import Seen, standing_checks
+from tests.fitcore.ledger_support import ANA
+
+PLAN_PRICE = 2.4
+LIMIT = Thresholds().rising_share
+MARGIN = 0.05  # a rising share this far above the threshold
+LOW = 5.0  # a lowest volume this far from 0 (volumes here are in the hundreds)
+
+
+def _shape(candidate: dict, lo: float, hi: float) -> tuple[float, float]:
+    """(share of [lo, hi] where the curve rises, its lowest volume there or at the plan price) from its plain
+    coefficients."""
+    grid = np.linspace(lo, hi, 2001)
+    curve = Polynomial(candidate["coef"])
+    return float((curve.deriv()(grid) > 0).mean()), float(min(curve(grid).min(), curve(PLAN_PRICE)))
+
+
+def _codes(record: dict) -> list[str]:
+    return [flag["code"] for flag in record["flags"]]
+
+
+def _pick(series: list[dict], wanted) -> tuple[dict, str]:
+    """The first series and available polynomial candidate (not the proposal) for which ``wanted(record,
+    proposal's shape, candidate's shape)`` holds."""
+    for record in series:
+        lo, hi = record["price_range"]
+        cands = {c["name"]: c for c in record["candidates"] if c["available"] and c["family"] == "poly"}
+        if record["chosen"] not in cands:
+            continue
+        mine = _shape(cands[record["chosen"]], lo, hi)
+        for name, cand in cands.items():
+            if name != record["chosen"] and wanted(record, mine, _shape(cand, lo, hi)):
+                return record, name
+    raise AssertionError("the invented series hold no such case: change the seed")
+
+
+def _rises(shape) -> bool:
+    return shape[0] > LIMIT + MARGIN
+
+
+def _flat_or_falling(shape) -> bool:
+    return shape[0] == 0.0
+
+
+@pytest.fixture(scope="module")
+def run(tmp_path_factory):
+    work = tmp_path_factory.mktemp("override_flags")
+    rng = np.random.default_rng(7)
+    rows, plan = ["product,price,volume"], ["product,plan_price"]
+    for i in range(30):
+        price = rng.uniform(1.0, 3.0, 24)
+        bend, noise = rng.uniform(-120, 160), rng.uniform(5, 80)
+        volume = 900 - 250 * price + bend * (price - 1.0) ** 2 + rng.normal(0, noise, price.size)
+        rows += [f"item {i:02d},{p:.2f},{v:.1f}" for p, v in zip(price, volume) if v > 0]  # no row rejected
+        plan.append(f"item {i:02d},{PLAN_PRICE}")
+    (work / "data.csv").write_text("\n".join(rows) + "\n")
+    (work / "plan.csv").write_text("\n".join(plan) + "\n")
+    results = {kind: work / f"results.{kind}" for kind in ("json", "parquet")}
+    for path in results.values():
+        assert main(["fit", str(work / "data.csv"), "--plan", str(work / "plan.csv"), "-o", str(path), "-q"]) == 0
+    document = json.loads(results["json"].read_text())
+    series = document["series"]
+    cases = {
+        # the proposal flat or falling but doubted for its own fit; the override rises
+        "rises, proposal near-tie": _pick(series, lambda r, mine, other: "near-tie" in _codes(r)
+                                          and _flat_or_falling(mine) and _rises(other)),
+        "rises, proposal weak-fit": _pick(series, lambda r, mine, other: "weak-fit" in _codes(r)
+                                          and _flat_or_falling(mine) and _rises(other)),
+        # the reverse: the proposal rises, the override does not
+        "proposal rises": _pick(series, lambda r, mine, other: "rising" in _codes(r) and _rises(mine)
+                                and _flat_or_falling(other)),
+        # the override goes below zero in range, the proposal does not
+        "below zero": _pick(series, lambda r, mine, other: mine[1] > LOW and other[1] < -LOW),
+    }
+    assert len({case[0]["key"]["product"] for case in cases.values()}) == len(cases)
+    entries = []
+    digest = ledger.results_digest(document)
+    for record, model in cases.values():
+        entries.append(ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
+                                    results=digest, model=model, proposed=record["chosen"], note="looked at",
+                                    flags=_codes(record)))
+    overridden = {case[0]["key"]["product"] for case in cases.values()}
+    for record in series:  # the others accepted, flagged or not: their rows keep the proposal's flags
+        if record["chosen"] and record["key"]["product"] not in overridden:
+            entries.append(ledger.Entry(series=record["key"], action="accept", fingerprint=record["fingerprint"],
+                                        results=digest, model=record["chosen"], proposed=record["chosen"],
+                                        note="fine", flags=_codes(record)))
+    book = work / "ledger.jsonl"
+    ledger.append(book, entries, ANA)
+    exported = {}
+    for kind, path in results.items():
+        out = work / f"export-{kind}.csv"
+        assert main(["ledger", "export", str(book), "--results", str(path), "-o", str(out), "-q"]) == 0
+        exported[kind] = out.read_bytes()
+    exported["parquet_path"] = results["parquet"]
+    return document, cases, exported
+
+
+def _rows(data: bytes) -> dict[str, dict]:
+    return {row["product"]: row for row in csv.DictReader(io.StringIO(data.decode("utf-8"), newline=""))}
+
+
+@pytest.mark.parametrize("kind", ["json", "parquet"])
+def test_an_override_carries_its_own_curves_flags(run, kind):
+    _, cases, exported = run
+    rows = _rows(exported[kind])
+    for name, (record, model) in cases.items():
+        row = rows[record["key"]["product"]]
+        assert row["status"] == "overridden" and row["model"] == model, name
+        flags = row["flags"].split()
+        assert not set(flags) & set(PROPOSAL_ONLY), (name, flags)  # the proposal's fit's, not this curve's
+        if name == "below zero":
+            continue  # its own test
+        if name.startswith("rises"):
+            assert "rising" in flags and "rising" not in _codes(record), (name, flags)
+            assert {"near-tie", "weak-fit"} & set(_codes(record)), name  # the case tests something
+        else:
+            assert "rising" not in flags and "rising" in _codes(record), (name, flags)
+
+
+@pytest.mark.parametrize("kind", ["json", "parquet"])
+def test_an_overrides_flags_say_below_zero_by_its_own_curve(run, kind):
+    """Every overridden row says ``below-zero`` exactly where its own curve goes below zero over the observed
+    prices or at the plan price (numpy's evaluation), whatever the proposal's curve does."""
+    _, cases, exported = run
+    rows = _rows(exported[kind])
+    for name, (record, model) in cases.items():
+        lowest = _shape(next(c for c in record["candidates"] if c["name"] == model), *record["price_range"])[1]
+        assert abs(lowest) > LOW, name  # clearly on one side
+        assert ("below-zero" in rows[record["key"]["product"]]["flags"].split()) == (lowest < 0), name
+    assert "below-zero" not in _codes(cases["below zero"][0])  # the proposal's flags would not say it
+
+
+def test_both_results_formats_give_the_same_cells(run):
+    _, _, exported = run
+    assert exported["json"] == exported["parquet"]
+
+
+def test_a_row_standing_on_the_proposal_keeps_the_results_flags(run):
+    """Not a change: every accepted row's flags and ``inside_range`` are the results' (as before)."""
+    document, cases, exported = run
+    rows = _rows(exported["json"])
+    overridden = {record["key"]["product"] for record, _ in cases.values()}
+    accepted = [r for r in document["series"] if r["chosen"] and r["key"]["product"] not in overridden]
+    assert any(_codes(r) for r in accepted)
+    for record in accepted:
+        row = rows[record["key"]["product"]]
+        assert row["status"] == "accepted" and row["flags"] == " ".join(_codes(record))
+        assert row["inside_range"] == ("false" if "outside-range" in _codes(record) else "true")
+
+
+def test_a_signed_curve_not_in_the_results_is_checked_as_the_candidate_would_be(run):
+    """A model the results do not hold (a lineup without it) is checked on the signed snapshot's curve, which
+    holds the same basis as the results' candidate: the same codes."""
+    document, cases, _ = run
+    for record, model in cases.values():
+        cand = next(c for c in record["candidates"] if c["name"] == model)
+        snapshot = {"family": cand["family"], "basis": cand["basis"], "smearing": cand.get("smearing")}
+        seen = Seen(*record["price_range"], _codes(record))
+        made = standing_checks(cand, None, PLAN_PRICE, seen, Thresholds())
+        assert standing_checks(None, snapshot, PLAN_PRICE, seen, Thresholds()) == made
+        assert standing_checks(None, None, PLAN_PRICE, seen, Thresholds()) is None
+
+
+def test_every_flag_is_of_the_series_of_the_proposal_or_checked_for_any_candidate():
+    groups = [set(CHECKED), set(PROPOSAL_ONLY), set(OF_THE_SERIES)]
+    assert sum(len(g) for g in groups) == len(CODES) and set().union(*groups) == set(CODES)
+    every = list(CODES)
+    assert codes_for_another(every, ("rising",)) == [c for c in CODES if c in OF_THE_SERIES or c == "rising"]
+    assert codes_for_another(["outside-range", "rising", "near-tie"], None) == ["outside-range"]
+
+
+def test_the_checked_codes_are_the_override_dialogs(run, tmp_path):
+    """The screen's override dialog (``candidate_rows``, on the Parquet results as the screen opens them) shows
+    each overridden candidate with the same ``rising``, ``below-zero`` and ``outside-range`` as its row."""
+    from fitcore.results.stored import stored_results
+    from tui.screens.override import candidate_rows
+    document, cases, exported = run
+    results, diagnosis = stored_results(exported["parquet_path"])
+    rows = _rows(exported["parquet"])
+    products = [record["key"]["product"] for record in document["series"]]
+    for name, (record, model) in cases.items():
+        s = products.index(record["key"]["product"])
+        shown = next(row.flags for row in candidate_rows(results, s, diagnosis) if row.name == model)
+        assert [c for c in rows[record["key"]["product"]]["flags"].split() if c in CHECKED] == list(shown), name
