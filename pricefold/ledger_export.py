@@ -153,8 +153,8 @@ def run_export(args) -> int:
               file=sys.stderr)
     if unchecked:
         print(f"pricefold ledger: {args.results}: warning: {unchecked:,} series stand on another model than the "
-              "proposal whose curve these results do not hold (written by an older pricefold): their flags leave "
-              "out rising and below-zero", file=sys.stderr)
+              "proposal whose curve neither these results (written by an older pricefold?) nor the decision hold: "
+              "their flags cannot say rising or below-zero", file=sys.stderr)
     if later:
         _signed_at_price(args.results, rows, later, level)
     at = len(keys[0]) + COLUMNS.index("plan_elasticity") if keys else 0

@@ -2,17 +2,17 @@
 
     python tests/bench/bench_export.py FOLDER [--series 100000] [--overrides 5] [--runs 3] [--python PY ...]
 
-Builds once in FOLDER (kept for later runs): invented data (Parquet), its results (``pricefold fit`` with a
-plan file, Parquet and JSON) and two ledgers — every unflagged series accepted (``accept-unflagged``), and
-the same with ``--overrides`` series then overridden to another available candidate.  Then times the export
-of the Parquet results against each ledger, ``--runs`` rounds, each round every ``--python`` in turn
-(interleaved: e.g. main's venv and this one's), as CPU time (user + system of the process and its threads)
-and wall time, with the load average beside each run.  Not a test: machines are noisy.
+Builds once in FOLDER (kept for later runs): invented data (Parquet), its Parquet results (``pricefold fit``
+with a plan file: each series' median price) and two ledgers — every unflagged series accepted
+(``accept-unflagged``), and the same with ``--overrides`` flagged series then overridden to another available
+candidate.  Then times the export of the results against each ledger, ``--runs`` rounds, each round every
+``--python`` in turn (interleaved: e.g. main's venv and this one's), as CPU time (user + system of the process
+and its threads) and wall time, with the load average beside each run.  Run it from outside a checkout: each
+``python -m pricefold`` would import the checkout in its working folder.  Not a test: machines are noisy.
 """
 from __future__ import annotations
 
 import argparse
-import json
 import os
 import resource
 import shutil
@@ -51,7 +51,6 @@ def build(folder: Path, n_series: int, overrides: int) -> dict[str, Path]:
                         str(accepted), "--analyst", "bench", "--quiet"], check=True)
     if not overridden.exists():
         shutil.copyfile(accepted, overridden)
-        import pyarrow.parquet as pq
         table = pq.read_table(results, columns=["product", "candidate", "available", "is_chosen", "fingerprint",
                                                 "flags"])
         rows = table.to_pylist()

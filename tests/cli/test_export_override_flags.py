@@ -13,6 +13,8 @@ from __future__ import annotations
 import csv
 import io
 import json
+from pathlib import Path
+from typing import NamedTuple
 
 import numpy as np
 import pytest
@@ -67,8 +69,16 @@ def _flat_or_falling(shape) -> bool:
     return shape[0] == 0.0
 
 
+class Run(NamedTuple):
+    document: dict  # the JSON results
+    cases: dict  # name → (record, the model overriding its proposal)
+    exported: dict  # "json", "parquet" → the export's bytes
+    parquet: Path  # the Parquet results
+    book: Path  # the ledger
+
+
 @pytest.fixture(scope="module")
-def run(tmp_path_factory):
+def run(tmp_path_factory) -> Run:
     work = tmp_path_factory.mktemp("override_flags")
     rng = np.random.default_rng(7)
     rows, plan = ["product,price,volume"], ["product,plan_price"]
@@ -117,8 +127,7 @@ def run(tmp_path_factory):
         out = work / f"export-{kind}.csv"
         assert main(["ledger", "export", str(book), "--results", str(path), "-o", str(out), "-q"]) == 0
         exported[kind] = out.read_bytes()
-    exported["parquet_path"] = results["parquet"]
-    return document, cases, exported
+    return Run(document, cases, exported, results["parquet"], book)
 
 
 def _rows(data: bytes) -> dict[str, dict]:
@@ -127,13 +136,15 @@ def _rows(data: bytes) -> dict[str, dict]:
 
 @pytest.mark.parametrize("kind", ["json", "parquet"])
 def test_an_override_carries_its_own_curves_flags(run, kind):
-    _, cases, exported = run
+    cases = run.cases
+    exported = run.exported
     rows = _rows(exported[kind])
     for name, (record, model) in cases.items():
         row = rows[record["key"]["product"]]
         assert row["status"] == "overridden" and row["model"] == model, name
         flags = row["flags"].split()
         assert not set(flags) & set(PROPOSAL_ONLY), (name, flags)  # the proposal's fit's, not this curve's
+        assert row["inside_range"] == ("false" if "outside-range" in flags else "true"), name
         if name == "below zero":
             continue  # its own test
         if name.startswith("rises"):
@@ -147,7 +158,8 @@ def test_an_override_carries_its_own_curves_flags(run, kind):
 def test_an_overrides_flags_say_below_zero_by_its_own_curve(run, kind):
     """Every overridden row says ``below-zero`` exactly where its own curve goes below zero over the observed
     prices or at the plan price (numpy's evaluation), whatever the proposal's curve does."""
-    _, cases, exported = run
+    cases = run.cases
+    exported = run.exported
     rows = _rows(exported[kind])
     for name, (record, model) in cases.items():
         lowest = _shape(next(c for c in record["candidates"] if c["name"] == model), *record["price_range"])[1]
@@ -157,13 +169,15 @@ def test_an_overrides_flags_say_below_zero_by_its_own_curve(run, kind):
 
 
 def test_both_results_formats_give_the_same_cells(run):
-    _, _, exported = run
+    exported = run.exported
     assert exported["json"] == exported["parquet"]
 
 
 def test_a_row_standing_on_the_proposal_keeps_the_results_flags(run):
     """Not a change: every accepted row's flags and ``inside_range`` are the results' (as before)."""
-    document, cases, exported = run
+    document = run.document
+    cases = run.cases
+    exported = run.exported
     rows = _rows(exported["json"])
     overridden = {record["key"]["product"] for record, _ in cases.values()}
     accepted = [r for r in document["series"] if r["chosen"] and r["key"]["product"] not in overridden]
@@ -177,14 +191,16 @@ def test_a_row_standing_on_the_proposal_keeps_the_results_flags(run):
 def test_a_signed_curve_not_in_the_results_is_checked_as_the_candidate_would_be(run):
     """A model the results do not hold (a lineup without it) is checked on the signed snapshot's curve, which
     holds the same basis as the results' candidate: the same codes."""
-    document, cases, _ = run
-    for record, model in cases.values():
+    said = set()
+    for record, model in run.cases.values():
         cand = next(c for c in record["candidates"] if c["name"] == model)
         snapshot = {"family": cand["family"], "basis": cand["basis"], "smearing": cand.get("smearing")}
         seen = Seen(*record["price_range"], _codes(record))
         made = standing_checks(cand, None, PLAN_PRICE, seen, Thresholds())
         assert standing_checks(None, snapshot, PLAN_PRICE, seen, Thresholds()) == made
         assert standing_checks(None, None, PLAN_PRICE, seen, Thresholds()) is None
+        said.update(made)
+    assert {"rising", "below-zero"} <= said  # the curves compared say something
 
 
 def test_every_flag_is_of_the_series_of_the_proposal_or_checked_for_any_candidate():
@@ -195,16 +211,36 @@ def test_every_flag_is_of_the_series_of_the_proposal_or_checked_for_any_candidat
     assert codes_for_another(["outside-range", "rising", "near-tie"], None) == ["outside-range"]
 
 
-def test_the_checked_codes_are_the_override_dialogs(run, tmp_path):
+def test_the_checked_codes_are_the_override_dialogs(run):
     """The screen's override dialog (``candidate_rows``, on the Parquet results as the screen opens them) shows
     each overridden candidate with the same ``rising``, ``below-zero`` and ``outside-range`` as its row."""
     from fitcore.results.stored import stored_results
     from tui.screens.override import candidate_rows
-    document, cases, exported = run
-    results, diagnosis = stored_results(exported["parquet_path"])
-    rows = _rows(exported["parquet"])
-    products = [record["key"]["product"] for record in document["series"]]
-    for name, (record, model) in cases.items():
+    results, diagnosis = stored_results(run.parquet)
+    rows = _rows(run.exported["parquet"])
+    products = [record["key"]["product"] for record in run.document["series"]]
+    for name, (record, model) in run.cases.items():
         s = products.index(record["key"]["product"])
         shown = next(row.flags for row in candidate_rows(results, s, diagnosis) if row.name == model)
         assert [c for c in rows[record["key"]["product"]]["flags"].split() if c in CHECKED] == list(shown), name
+
+
+def test_results_without_the_candidates_curves_say_what_the_row_cannot(run, tmp_path, capsys):
+    """JSON results written before candidates carried their ``basis`` and a decision without a signed curve:
+    the row keeps the series' codes and the plan's ``outside-range``, drops the proposal's, and a warning counts
+    the rows whose curve could not be checked."""
+    cases = run.cases
+    older = json.loads(json.dumps(run.document))
+    for record in older["series"]:
+        for cand in record["candidates"]:
+            for name in ("basis", "sigma2", "df", "cov_unscaled"):
+                cand.pop(name, None)
+    path = tmp_path / "older.json"
+    path.write_text(json.dumps(older))
+    out = tmp_path / "older.csv"
+    assert main(["ledger", "export", str(run.book), "--results", str(path), "-o", str(out), "-q"]) == 0
+    assert f"warning: {len(cases)} series stand on another model than the proposal" in capsys.readouterr().err
+    rows = _rows(out.read_bytes())
+    for name, (record, _) in cases.items():
+        flags = rows[record["key"]["product"]]["flags"].split()
+        assert flags == [c for c in _codes(record) if c in OF_THE_SERIES or c == "outside-range"], name
