@@ -244,3 +244,60 @@ def test_results_without_the_candidates_curves_say_what_the_row_cannot(run, tmp_
     for name, (record, _) in cases.items():
         flags = rows[record["key"]["product"]]["flags"].split()
         assert flags == [c for c in _codes(record) if c in OF_THE_SERIES or c == "outside-range"], name
+
+
+def test_parquet_results_replaced_while_read_are_refused(run, tmp_path, monkeypatch, capsys):
+    """The overridden candidates' curves are read apart from the other columns: a file whose plain ``coef``
+    there are no longer the ones read first (another fit put in its place meanwhile) stops the export in one
+    line, nothing written."""
+    from fitcore.results import series_columns
+    real = series_columns.cells_at
+
+    def replaced(path, rows, names):
+        import pyarrow as pa
+        cells = real(path, rows, names)
+        moved = [[v + 1.0 for v in coef] for coef in cells.column("coef").to_pylist()]
+        return cells.set_column(cells.schema.get_field_index("coef"), "coef", pa.array(moved))
+    monkeypatch.setattr(series_columns, "cells_at", replaced)
+    out = tmp_path / "out.csv"
+    code = main(["ledger", "export", str(run.book), "--results", str(run.parquet), "-o", str(out), "-q"])
+    err = capsys.readouterr().err
+    assert code == 2 and not out.exists() and len(err.strip().splitlines()) == 1
+    assert "changed while it was read" in err and str(run.parquet) in err
+
+
+def test_a_controls_plan_value_outside_is_every_candidates_on_stored_results(tmp_path):
+    """A control (an invented display share, seen between 0 and 0.3) planned at 0.6 with the plan price within
+    the series' prices: ``outside-range`` for the proposal, and for every candidate in the override dialog on
+    the results read back from Parquet (as on a fit of the data) and in an override's export row — the flag is
+    of the plan, not of a curve."""
+    from fitcore.results.read import read_header
+    from fitcore.results.stored import stored_results
+    from tui.screens.override import candidate_rows
+    rng = np.random.default_rng(11)
+    rows, plan = ["product,price,display,volume"], ["product,plan_price,display"]
+    for i in range(3):
+        price, display = rng.uniform(1.0, 3.0, 40), rng.uniform(0.0, 0.3, 40)
+        volume = 900 - 250 * price + 400 * display + rng.normal(0, 20, 40)
+        rows += [f"item {i},{p:.2f},{d:.3f},{v:.1f}" for p, d, v in zip(price, display, volume)]
+        plan.append(f"item {i},2.00,{0.6 if i == 0 else 0.15}")
+    (tmp_path / "data.csv").write_text("\n".join(rows) + "\n")
+    (tmp_path / "plan.csv").write_text("\n".join(plan) + "\n")
+    results_path = tmp_path / "controlled.parquet"
+    assert main(["fit", str(tmp_path / "data.csv"), "--control", "display", "--plan", str(tmp_path / "plan.csv"),
+                 "-o", str(results_path), "-q"]) == 0
+    results, diagnosis = stored_results(results_path)
+    s = [results.data.key_of(i)["product"] for i in range(results.n_series)].index("item 0")
+    assert diagnosis.raised[s, CODES.index("outside-range")] and results.price_lo[s] < 2.0 < results.price_hi[s]
+    shown = candidate_rows(results, s, diagnosis)
+    assert len(shown) > 1 and all("outside-range" in row.flags for row in shown)
+    other = next(row.name for row in shown if not row.proposed)
+    book = tmp_path / "ledger.jsonl"
+    header = {k: v for k, v in read_header(results_path).items() if k != "key_columns"}
+    ledger.append(book, [ledger.Entry(series={"product": "item 0"}, action="override",
+                                      fingerprint=results.data.fingerprint_of(s), results=ledger.results_digest(header),
+                                      model=other, proposed=results.names[results.chosen[s]], note="display")], ANA)
+    out = tmp_path / "out.csv"
+    assert main(["ledger", "export", str(book), "--results", str(results_path), "-o", str(out), "-q"]) == 0
+    row = _rows(out.read_bytes())["item 0"]
+    assert row["model"] == other and "outside-range" in row["flags"].split() and row["inside_range"] == "false"
