@@ -9,6 +9,12 @@ A row whose standing decision carries a ``signed`` snapshot writes what was sign
 (``stale``), the snapshot's numbers; signed on these data, the snapshot's curve once the results' candidate
 agrees with it (``disagreement``; else the whole export is refused in one line, ``refusal``), at this
 results' plan price (``_signed_at_price`` where it is another price).  Other rows take the results' numbers.
+
+``flags`` holds the results' codes, which judge the proposal; a row standing on another candidate (not
+``stale``) has that candidate's own shape and range checks instead, as the override dialog shows them
+(``standing_checks``: the screen's ``curve_checks``), and none of the codes of the proposal's fit alone
+(``candidate_checks.codes_for_another``).  Parquet results give those few candidates' curves from the row
+groups holding them (``_with_basis``), so an export with no override reads nothing more.
 """
 from __future__ import annotations
 
@@ -18,6 +24,7 @@ import json
 import math
 import sys
 from collections.abc import Iterator
+from functools import lru_cache
 from pathlib import Path
 
 from fitcore import ledger
@@ -78,6 +85,11 @@ def run_export(args) -> int:
     later: list[tuple] = []  # (row, key, snapshot, price, the results' numbers): signed curves at another price
     from fitcore.collector import collector_paused
     from fitcore.ledger.snapshot import signed_plan
+    from fitcore.review.candidate_checks import codes_for_another
+    from fitcore.review.thresholds import recorded_thresholds
+    thresholds = lru_cache(lambda: recorded_thresholds((header.get("settings") or {}).get("thresholds"),
+                                                       args.results))  # the fit's, as the screen judges by
+    unchecked = 0  # rows of another candidate than the proposal whose curve the results do not hold
     with collector_paused():  # a few small objects a series and no cycles among them
         series = _by_columns(ahead, book) if parts is None else _by_records(parts, book)
         for key, fingerprint, chosen, plan, history, cand, last_date, seen in series:
@@ -116,6 +128,10 @@ def run_export(args) -> int:
                     if (snapshot.get("basis") or {}).get("coef"):
                         later.append((len(rows), key, snapshot, plan["price"], at_plan))
                     at_plan = {}
+            if status != "stale" and model and model != chosen:  # another candidate stands: its own flags
+                checks = standing_checks(cand, snapshot, plan.get("price"), seen, thresholds())
+                unchecked += checks is None
+                seen = Seen(seen.lo, seen.hi, codes_for_another(seen.codes, checks))
             rows.append([*map(str, key.values()), status, model or "", family, coef, _number(smearing),
                          current["analyst"] if current else "", current["at"] if current else "",
                          current.get("note", "") if current else "", _number(plan.get("price")),
@@ -134,6 +150,10 @@ def run_export(args) -> int:
         print(f"pricefold ledger: {args.results}: warning: {newer:,} series were decided on newer data than these "
               "results: their rows say 'stale' and hold the signed numbers; export from the newer results",
               file=sys.stderr)
+    if unchecked:
+        print(f"pricefold ledger: {args.results}: warning: {unchecked:,} series stand on another model than the "
+              "proposal whose curve neither these results (written by an older pricefold?) nor the decision hold: "
+              "their flags cannot say rising or below-zero", file=sys.stderr)
     if later:
         _signed_at_price(args.results, rows, later, level)
     at = len(keys[0]) + COLUMNS.index("plan_elasticity") if keys else 0
@@ -179,6 +199,36 @@ class Seen:
         else:
             inside = "true" if self.lo <= price <= self.hi and "outside-range" not in self.codes else "false"
         return [inside, " ".join(self.codes)]
+
+
+def standing_checks(cand: dict | None, snapshot: dict | None, price, seen: Seen, thresholds) -> tuple[str, ...] | None:
+    """The codes ``candidate_checks`` gives (the screen's override dialog) for the curve a row stands on where it
+    is another candidate than the proposal: the results' candidate in its basis (``basis``, as a JSON results
+    file holds it; ``_with_basis`` for Parquet), else the signed snapshot's curve (a model these results do not
+    hold), at the row's plan ``price``, by the fit's ``thresholds``; None where neither holds a curve.  Whether a
+    control's plan value lies outside the series' is the same for every candidate: the proposal's
+    ``outside-range`` where the plan price is not."""
+    import numpy as np
+
+    from fitcore.fit.families import BY_NAME
+    from fitcore.review.candidate_checks import curve_checks
+    if cand and cand.get("basis"):
+        family, basis, smearing, volume = cand["family"], cand["basis"], cand.get("smearing"), cand.get("plan_volume")
+    elif snapshot and (snapshot.get("basis") or {}).get("coef"):
+        family, basis, smearing, volume = snapshot["family"], snapshot["basis"], snapshot.get("smearing"), None
+    else:
+        return None
+    kind = BY_NAME[family]
+    coef = np.asarray(basis["coef"], dtype=float)
+    smear = (1.0 if smearing is None else float(smearing)) if kind.smeared else math.nan  # as ``stored`` reads it
+    planned = price is not None
+    if planned and volume is None:  # the signed curve at this plan price
+        volume = float(kind.curve(coef, basis["mid"], basis["half"], smear, np.array([float(price)]))[0])
+    lo, hi = (math.nan if seen.lo is None else seen.lo), (math.nan if seen.hi is None else seen.hi)
+    price_outside = planned and not lo <= price <= hi
+    return curve_checks(kind, coef, basis["mid"], basis["half"], smear, lo, hi, float(price) if planned else math.nan,
+                        math.nan if volume is None else float(volume), thresholds,
+                        "outside-range" in seen.codes and not price_outside).codes
 
 
 def seen_in(record: dict) -> Seen:
@@ -292,6 +342,10 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
                 priced = cells["plan_price"][j] is not None and cells["available"][j]  # as the record reader
                 cands[s] = {"family": cells["family"][j], "coef": cells["coef"][j], "smearing": cells["smearing"][j],
                             **({name: cells[name][j] for name in PLAN_FIELDS} if priced else {})}
+        ranges = [columns.values(name, 0, every) for name in ("price_lo", "price_hi")]
+        another = [s for s in found.tolist() if models[s] != chosen[s] and cands[s]["coef"]]
+        if another:  # their curves checked as the screen checks them (``standing_checks``): in their basis
+            _with_basis(part, columns, another, at, cands, ranges)
         # the plan: from the last row of a series marked chosen that has a plan price (as the record reader)
         marked = (numbers(columns.table.column("is_chosen").combine_chunks()) == 1) & \
             _valid(columns.table.column("plan_price"))
@@ -307,13 +361,31 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
                             "elasticity": numbers_at["plan_elasticity"][j]}
         days = [None if day is None else day.isoformat() for day in columns.values("last_date", 0, every)] \
             if "last_date" in columns.table.column_names else [None] * len(keys)
-        ranges = [columns.values(name, 0, every) for name in ("price_lo", "price_hi")]
         seen = [Seen(lo, hi, [f["code"] for f in orjson.loads(flags or "[]")])
                 for lo, hi, flags in zip(*ranges, columns.values("flags", 0, every))]
         yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands, days, seen)
 
 
 PLAN_FIELDS = ("plan_volume", "plan_lo", "plan_hi", "plan_elasticity")
+
+
+def _with_basis(part: Path, columns, series: list[int], at, cands: list, ranges: list) -> None:
+    """Give the exported candidate of each of ``series`` (indices into the part) its curve in its basis, as a
+    JSON results file holds it (``basis``): its window coefficients read from the row groups that hold them (a
+    few series: per-override work, not a column of every series).  Read apart from the other columns: a file
+    put in its place meanwhile (its plain ``coef`` no longer the ones read) is refused in one line."""
+    import numpy as np
+
+    from fitcore.results.read import row_basis
+    from fitcore.results.series_columns import cells_at
+    rows = columns.rows(at[series], series)
+    cells = cells_at(part, rows, ("coef", "window_coef"))
+    for s, plain, coef in zip(series, cells.column("coef").to_pylist(), cells.column("window_coef").to_pylist()):
+        cand = cands[s]
+        if not np.array_equal(np.array(plain, float), np.array(cand["coef"], float), equal_nan=True):
+            raise DataError("changed while it was read (another fit writing it?); nothing was written, export "
+                            "again", path=str(part))
+        cand["basis"] = row_basis(cand["family"], ranges[0][s], ranges[1][s], coef[:len(plain)])
 
 
 def _typed(kind, expected: str) -> bool:

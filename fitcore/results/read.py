@@ -240,15 +240,21 @@ def candidate_cycle_fields(row: dict) -> dict:
         return {}
     if not row["available"]:
         return {"basis": None, "sigma2": None, "df": None, "cov_unscaled": None}
-    from ..fit.families import BY_NAME
-    family = BY_NAME[row["family"]]
     size = len(row["coef"])
-    mid, half = family.window_of(np.float64(row["price_lo"]), np.float64(row["price_hi"]), True)
     cov = row["cov_unscaled"]
-    return {"basis": {"x": family.regressor, "mid": float(mid), "half": float(half),
-                      "coef": row["window_coef"][:size]},
+    return {"basis": row_basis(row["family"], row["price_lo"], row["price_hi"], row["window_coef"][:size]),
             "sigma2": row["sigma2"], "df": row["df"],
             "cov_unscaled": [cov[i * size:(i + 1) * size] for i in range(size)] if cov else None}
+
+
+def row_basis(family: str, lo, hi, window_coef: list) -> dict:
+    """A candidate's curve in its basis as the JSON layout holds it (``basis``), from a Parquet row: its family's
+    window over the series' observed prices [``lo``, ``hi``] (the window the fit used) and its ``window_coef``
+    (only the candidate's own: the column pads them to the widest candidate's)."""
+    from ..fit.families import BY_NAME
+    kind = BY_NAME[family]
+    mid, half = kind.window_of(np.float64(lo), np.float64(hi), True)
+    return {"x": kind.regressor, "mid": float(mid), "half": float(half), "coef": window_coef}
 
 
 def series_cycle_fields(row: dict) -> dict:

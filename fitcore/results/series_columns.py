@@ -142,21 +142,45 @@ class SeriesColumns:
 def series_columns(path: Path, header: dict, names) -> SeriesColumns:
     """The columns ``names`` (besides the key columns and ``candidate``) of the results file ``path``,
     whose header (``read.read_header``, ``key_columns`` included) is ``header``."""
-    import pyarrow.parquet as pq
     key_names = tuple(header["key_columns"])
     wanted = list(dict.fromkeys([*key_names, "candidate", *names]))
+    table = _read(path, lambda reader: reader.read(columns=wanted))
+    candidates = candidate_names(header)
+    check_candidate_rows(path, table.column("candidate"), candidates)
+    return SeriesColumns(Path(path), key_names, candidates, table)
+
+
+def cells_at(path: Path, rows: np.ndarray, names) -> object:
+    """The columns ``names`` of the Parquet file ``path`` at its rows ``rows`` (from 0, ascending), as a
+    pyarrow.Table in that order: only the row groups holding them read (a few series' cells of a large file)."""
+    rows = np.asarray(rows, dtype=np.int64)
+
+    def read(reader):
+        meta = reader.metadata
+        starts = np.cumsum([0, *(meta.row_group(g).num_rows for g in range(meta.num_row_groups))])
+        group = np.searchsorted(starts, rows, side="right") - 1
+        groups = np.unique(group)
+        table = reader.read_row_groups(groups.tolist(), columns=list(names))
+        before = np.cumsum([0, *(starts[groups + 1] - starts[groups])[:-1]])  # the read groups' first rows
+        return table.take(integers(rows - starts[group] + before[np.searchsorted(groups, group)]))
+    return _read(path, read)
+
+
+def _read(path: Path, read):
+    """``read(reader)`` of the Parquet file ``path`` (``pq.ParquetFile``, every page's checksum checked); a file
+    that cannot be read is one line naming it."""
+    import pyarrow.parquet as pq
     try:
-        # not read_table: that imports pyarrow.dataset and pandas; every page's checksum checked
+        # not read_table: that imports pyarrow.dataset and pandas
         reader = pq.ParquetFile(path, page_checksum_verification=True)
-        table = reader.read(columns=wanted)
-        reader.close()
+        try:
+            return read(reader)
+        finally:
+            reader.close()
     except OSError as exc:
         raise DataError(f"cannot read it ({exc.strerror or first_line(exc)})", path=str(path)) from None
     except Exception as exc:  # pyarrow raises several unrelated types for a bad file
         raise DataError(f"expected a pricefold results file ({first_line(exc)})", path=str(path)) from None
-    candidates = candidate_names(header)
-    check_candidate_rows(path, table.column("candidate"), candidates)
-    return SeriesColumns(Path(path), key_names, candidates, table)
 
 
 # -- a list of series (``pricefold show``) ------------------------------------------------------------

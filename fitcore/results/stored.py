@@ -112,6 +112,15 @@ class StoredDiagnosis(Diagnosis):
 
     texts: np.ndarray = None  # (S,) str or None: each series' flags as the file holds them (JSON), parsed on demand
 
+    def controls_outside(self, s: int) -> bool:
+        """As the file recorded it: ``outside-range`` is the plan price's or a control's, so a control's where the
+        plan price lies within the observed prices (the control columns' rows, which would tell, are not in a
+        results file: asked of them, every candidate of a series flagged so had said "inside")."""
+        results = self.results
+        price = float(results.plan_price[s])
+        by_price = np.isfinite(price) and not results.price_lo[s] <= price <= results.price_hi[s]
+        return bool(self.raised[s, CODES.index("outside-range")]) and not by_price
+
     def flags_of(self, s: int) -> list[dict]:
         from ..review.sentences import sentence
         recorded = {e["code"]: e["message"] for e in json.loads(self.texts[s] or "[]")}

@@ -3,7 +3,9 @@
 ``diagnose`` checks the chosen curve of every series at once; an analyst about to
 override wants the same checks for the curve they are about to pick.  This evaluates
 one candidate as ``diagnose`` does: where it rises exactly (``rising``), its lowest volume
-through ``evidence.curve`` (whatever its family) on a fine grid over the observed prices.
+through its family's curve on a fine grid over the observed prices.  ``curve_checks`` does it for a
+curve given by its numbers (``ledger export``, from a results file), ``candidate_checks`` for a
+candidate of ``Results`` (the override dialog): one computation for both.
 """
 from __future__ import annotations
 
@@ -12,8 +14,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..fit.basis import window
 from ..fit.results import Results
-from .evidence import basis_of, curve
+from .evidence import basis_of
 from .flags import CODES, control_ranges
 from .rising import rising
 from .thresholds import Thresholds
@@ -40,23 +43,54 @@ def candidate_checks(results: Results, s: int, c: int, thresholds: Thresholds = 
     every candidate, so given once by the caller (``Diagnosis.controls_outside``); else found here."""
     if not results.available[s, c]:
         return CandidateChecks((), math.nan, math.nan, math.nan)
-    mid, half = float(results.mid[s]), float(results.half[s])
-    family, coef, basis_mid, basis_half, smear = basis_of(results, s, c)
-    one = [np.array([float(v)]) for v in (basis_mid, basis_half, smear, results.price_lo[s], results.price_hi[s])]
+    if controls_outside is None:
+        controls_outside = bool(control_ranges(results, np.array([s]), thresholds.season_days)[2].any())
+    return curve_checks(*basis_of(results, s, c), float(results.price_lo[s]), float(results.price_hi[s]),
+                        float(results.plan_price[s]), float(results.plan_volume[s, c]), thresholds, controls_outside)
+
+
+def curve_checks(family, coef: np.ndarray, basis_mid: float, basis_half: float, smear: float, price_lo: float,
+                 price_hi: float, plan_price: float, plan_volume: float, thresholds: Thresholds,
+                 controls_outside: bool) -> CandidateChecks:
+    """``candidate_checks`` of one curve given by its numbers, as a results file holds them (``ledger export``
+    reads them from its columns or records): its ``family`` (a ``Family``), ``coef`` (size,) in the family's
+    basis over the window ``basis_mid``, ``basis_half``, Duan's ``smear`` (log families); the series' observed
+    prices [``price_lo``, ``price_hi``]; the plan price (NaN: none) and the curve's volume there."""
+    coef = np.asarray(coef, dtype=float)
+    mid, half = window(price_lo, price_hi)
+    one = [np.array([float(v)]) for v in (basis_mid, basis_half, smear, price_lo, price_hi)]
     share = float(rising(family, coef[None], *one).share[0])
     fine = mid + half * np.linspace(-1.0, 1.0, FINE)
-    volume = curve(results, s, c, fine)
+    volume = family.curve(coef, basis_mid, basis_half, smear, fine)
     low = int(np.nanargmin(volume)) if np.isfinite(volume).any() else 0
     lowest, lowest_at = float(volume[low]), float(fine[low])
-    plan = float(results.plan_price[s])
-    planned = math.isfinite(plan)
-    if planned and results.plan_volume[s, c] < min(lowest, 0.0):
-        lowest, lowest_at = float(results.plan_volume[s, c]), plan
+    planned = math.isfinite(plan_price)
+    if planned and plan_volume < min(lowest, 0.0):
+        lowest, lowest_at = float(plan_volume), plan_price
     raised = {
         "rising": share > thresholds.rising_share,
         "below-zero": lowest < 0,
-        "outside-range": (planned and not results.price_lo[s] <= plan <= results.price_hi[s])
-                         or (bool(control_ranges(results, np.array([s]), thresholds.season_days)[2].any())
-                             if controls_outside is None else controls_outside),
+        "outside-range": (planned and not price_lo <= plan_price <= price_hi) or controls_outside,
     }
     return CandidateChecks(tuple(code for code in CODES if raised.get(code)), share, lowest, lowest_at)
+
+
+# The flags of a series where another candidate than the proposal stands (an override): ``CHECKED`` are this
+# module's, made for that candidate; ``PROPOSAL_ONLY`` were computed for the proposal's fit alone (its rival
+# within one SE, its held-out errors across folds, its Q², its most influential row) and say nothing of
+# another curve; ``OF_THE_SERIES`` are of the series' data and plan, or of the signed curve's backtest
+# (``shifted``), and hold whichever model stands.  Every code is in exactly one of them.
+CHECKED = ("rising", "below-zero", "outside-range")
+PROPOSAL_ONLY = ("near-tie", "unsteady-folds", "weak-fit", "influential-point")
+OF_THE_SERIES = ("few-points", "no-model", "flat-price", "price-gap", "price-tied", "shifted", "stale")
+
+
+def codes_for_another(codes, checked: tuple[str, ...] | None) -> list[str]:
+    """A series' flag ``codes`` (the proposal's) as they read where another candidate stands: the series' own
+    kept, that candidate's ``checked`` codes (``CandidateChecks.codes``) in place of the proposal's, the
+    proposal's own dropped — in the order of ``flags.CODES``.  ``checked`` None: no curve to check (the
+    results hold none of that model): ``rising`` and ``below-zero`` cannot be said, ``outside-range`` (of the
+    plan, not of the curve) stays as recorded."""
+    kept = set(codes) & set(OF_THE_SERIES)
+    kept |= set(checked) if checked is not None else set(codes) & {"outside-range"}
+    return [code for code in CODES if code in kept]
