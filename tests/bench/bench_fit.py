@@ -1,6 +1,6 @@
 """The whole ``pricefold fit`` process against the bare read it cannot avoid, measured side by side.
 
-    python tests/bench/bench_fit.py [--rounds 3] [--sizes 2,7] [--before /path/to/other/bin/pricefold]
+    python tests/bench/bench_fit.py [--rounds 3] [--sizes 2,7] [--before /path/to/other/bin/pricefold] [--dated]
 
 Writes invented CSVs of 2M and 7M rows (30k and 100k series × 70 weeks) and a Parquet copy of the 7M
 one, then runs, interleaved round after round, each as its own process:
@@ -57,13 +57,16 @@ def child(command: list[str]) -> tuple[float, float, float]:
     return float(wall), float(cpu), float(peak)
 
 
-def write_inputs(folder: Path, millions: int) -> tuple[Path, Path]:
+def write_inputs(folder: Path, millions: int, dated: bool = False) -> tuple[Path, Path]:
     import numpy as np
     import pandas as pd
     import pyarrow as pa
     import pyarrow.parquet as pq
     product, price, volume = invented_arrays(SERIES[millions], ROWS)
     frame = pd.DataFrame({"product": np.char.add("item-", product.astype(str)), "price": price, "volume": volume})
+    if dated:  # a week column, ISO text, as the README's examples have (its checks cost what no plain file shows)
+        weeks = (np.datetime64("2024-01-01") + 7 * np.arange(ROWS)).astype(str)
+        frame["week"] = weeks[np.arange(len(frame)) % ROWS]
     csv, parquet = folder / f"rows{millions}m.csv", folder / f"rows{millions}m.parquet"
     frame.to_csv(csv, index=False)
     pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), parquet)
@@ -75,27 +78,30 @@ def main() -> None:
     parser.add_argument("--rounds", type=int, default=3)
     parser.add_argument("--sizes", default="2,7", help="millions of rows, from 2 and 7 (default: both)")
     parser.add_argument("--before", default=None, metavar="PRICEFOLD", help="another installation's pricefold")
+    parser.add_argument("--dated", action="store_true", help="a week column in the data, fitted with --date week")
     args = parser.parse_args()
+    dated = ["--date", "week"] if args.dated else []
     sizes = [int(size) for size in args.sizes.split(",")]
     ours = str(Path(sys.executable).parent / "pricefold")
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
-        inputs = {size: write_inputs(folder, size) for size in sizes}
+        inputs = {size: write_inputs(folder, size, args.dated) for size in sizes}
         small = inputs[min(sizes)][0]
         out = str(folder / "r.parquet")
         runs: dict[str, list] = {}
         plans = []
         for size, (csv, parquet) in inputs.items():
             plans += [(f"{size}M csv: read_csv", [sys.executable, "-c", f"import pandas; pandas.read_csv({str(csv)!r})"]),
-                      (f"{size}M csv: fit", [ours, "fit", str(csv), "-o", out, "--quiet"])]
+                      (f"{size}M csv: fit", [ours, "fit", str(csv), *dated, "-o", out, "--quiet"])]
             if args.before:
-                plans.append((f"{size}M csv: fit before", [args.before, "fit", str(csv), "-o", out, "--quiet"]))
+                plans.append((f"{size}M csv: fit before", [args.before, "fit", str(csv), *dated, "-o", out, "--quiet"]))
             if size == max(sizes):
                 plans += [(f"{size}M parquet: read_table",
                            [sys.executable, "-c", f"import pyarrow.parquet as pq; pq.read_table({str(parquet)!r})"]),
-                          (f"{size}M parquet: fit", [ours, "fit", str(parquet), "-o", out, "--quiet"])]
+                          (f"{size}M parquet: fit", [ours, "fit", str(parquet), *dated, "-o", out, "--quiet"])]
                 if args.before:
-                    plans.append((f"{size}M parquet: fit before", [args.before, "fit", str(parquet), "-o", out, "--quiet"]))
+                    plans.append((f"{size}M parquet: fit before", [args.before, "fit", str(parquet), *dated, "-o", out,
+                                                                   "--quiet"]))
         for name, command in plans:  # once, untimed: compiled loops cached, files in the page cache
             if "fit" in name:
                 child(command)
