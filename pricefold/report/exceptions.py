@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 
 from fitcore.ledger.signoff import STATUSES, Signoff
+from fitcore.review.plan_words import weighed_zero
 
 from .page import Report, alike, cell, elasticity, esc, interval, num, price, stale_parts, when
 from .tables import at_plan, by_whom, label
@@ -120,7 +121,9 @@ def section(report: Report, s: int) -> str:
     numbers = at_plan(signoff, s)
     plan, c = numbers.price, numbers.model
     current = signoff.standing(s) or {}
-    facts = [f"status <strong class=\"st-{status}\">{status}</strong>", f"{num(results.data.counts[s])} observations",
+    zero = weighed_zero(None if results.weight_0 is None else results.weight_0[s])
+    facts = [f"status <strong class=\"st-{status}\">{status}</strong>",
+             f"{num(results.data.counts[s])} observations{zero}",
              f"prices {price(results.price_lo[s])}–{price(results.price_hi[s])}"]
     if current.get("action") == "hold":  # a hold signs no curve
         facts.append(f"held by {by_whom(current)} UTC: no curve signed")
