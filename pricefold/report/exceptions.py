@@ -106,7 +106,8 @@ def chart_figure(drawn) -> str:
     keys = [(kind, text) for kind, text in (
         ("standing", drawn.standing), ("proposal", drawn.proposal),
         ("band", "95% prediction band" if drawn.band else ""),
-        ("plan", f"plan price {drawn.plan}" if drawn.plan else ""), ("points", "observed" if drawn.points else ""))
+        ("plan", f"plan price {drawn.plan}" if drawn.plan else ""), ("points", "observed" if drawn.points else ""),
+        ("zero", "rows of weight 0 (not observations)" if drawn.weight_0 else ""))
         if text]
     key = " ".join(f"<span class=\"legend-item\"><span class=\"swatch {kind}\"></span>{esc(text)}</span>"
                    for kind, text in keys)
