@@ -107,3 +107,5 @@ def test_the_export_and_the_report_say_outside_the_range(made):
         html = page.read_text()
         assert f"{n} observations ({zero} of weight 0) · prices {lo:.2f}–{hi:.2f}" in html
         assert "outside the observed prices: an extrapolation" in html
+        if kind == "json":  # its data refitted: the chart draws the rows of weight 0 apart, and keys them
+            assert "<span class=\"swatch zero\"></span>rows of weight 0 (not observations)" in html

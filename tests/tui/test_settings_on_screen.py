@@ -68,10 +68,11 @@ async def test_the_title_says_the_rows_of_weight_0_and_the_range_of_the_others(l
                                          for p, w in zip(price, weight)]
     (tmp_path / "weighted.csv").write_text("\n".join(rows) + "\n")
     app = make_app(ledger_path, Source(data=tmp_path / "weighted.csv", columns=Columns(weight="w"), plan_price=3.4))
-    async with app.run_test(size=(120, 40)) as pilot:
+    async with app.run_test(size=(120, 70)) as pilot:
         await started(app, pilot)
         lo, hi = np.min(price[weight > 0]), np.max(price[weight > 0])
         said = f"44 obs (4 of weight 0), prices {lo:.2f}–{hi:.2f}"
         assert said in app.screen.evidence.title_text(0).plain
         await until(pilot, lambda: said in screen_text(app))
         assert "outside-range" in screen_text(app)
+        await until(pilot, lambda: "○ weight 0" in screen_text(app))  # the chart's key: drawn apart
