@@ -217,12 +217,13 @@ def plan_gaps(results: Results) -> np.ndarray:
 def control_ranges(results: Results, series: np.ndarray | None = None, season_days: int = Thresholds.season_days):
     """(S, M) each control term's lowest and highest value in each series' rows of positive weight
     (``weights.observed``) — the columns, then the season terms of its rows' dates — and (S, M) bool: the
-    plan's value lies outside them (a curve held there is an extrapolation in that control).  The season is judged as a whole, every season term alike: a plan
-    date more than ``season_days`` from the time of year of every row (``time_of_year``); without one, the
-    year's average (every term 0), which averages every time of year, when some day of the year is more than
-    ``season_days`` from every row (the series not seen all year round).  M = 0 without
-    controls or rows.  ``series`` (indices): those series only, S = len(series) (one candidate's checks;
-    ``diagnose`` keeps every series' answer: ``Diagnosis.controls_outside``)."""
+    plan's value lies outside them (a curve held there is an extrapolation in that control).  The season is
+    judged as a whole, every season term alike: a plan date more than ``season_days`` from the time of year
+    of every row (``time_of_year``); without one, the year's average (every term 0), which averages every
+    time of year, when some day of the year is more than ``season_days`` from every row (the series not seen
+    all year round).  M = 0 without controls or rows.  ``series`` (indices): those series only,
+    S = len(series) (one candidate's checks; ``diagnose`` keeps every series' answer:
+    ``Diagnosis.controls_outside``)."""
     from ..fit.controls import day_phase, season_terms
     from .intervals import rows_of
     from .time_of_year import days_apart, plan_phase, widest_gaps
