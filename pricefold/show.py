@@ -10,7 +10,7 @@ from fitcore.data.keys import SEPARATOR
 from fitcore.review import choice
 from fitcore.review.attention import attention_order
 from fitcore.review.control_words import effect_words
-from fitcore.review.plan_words import elasticity_words, held_words, revenue_words, weighting_words
+from fitcore.review.plan_words import elasticity_words, held_words, revenue_words, weighed_zero, weighting_words
 from fitcore.review.sentences import fmt, money
 from fitcore.text import clean, told_apart
 from fitcore.widths import cells, distinct_keys
@@ -297,7 +297,8 @@ def detail(record: dict, binary=(), label: str | None = None, weight: str | None
     """One series in full; ``binary``: the 0/1 controls of the results (the header's settings); ``label``: its key
     as the caller shows it (else ``key_text``); ``weight``: the weight column of a weighted fit."""
     lo, hi = record["price_range"]
-    out = [f"{label or key_text(record['key'])} — {record['n']} observations, prices {money(lo)}–{money(hi)}",
+    zero = weighed_zero(record.get("n_weight_0"))  # a weighted fit's rows of weight 0: in n, not in the range
+    out = [f"{label or key_text(record['key'])} — {record['n']} observations{zero}, prices {money(lo)}–{money(hi)}",
            *([weighting_words(clean(weight))] if weight else []),
            f"chosen: {record['chosen'] or 'none'} ({record['rule']}): {why_chosen(record)}", "",
            f"  {'candidate':<10} {'CV MSE':>12} {'± SE':>10} {'Q²':>6} {'R²':>6}"]

@@ -60,10 +60,11 @@ def neg_powers(mid: np.ndarray, p: int) -> list:
 
 
 @compiled
-def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low):
-    """Per series: price window [lo, hi], x mapped onto [-1, 1] (0 for a single price), y less its
-    weighted ``mean``, and the smallest y.  Series with ``use[s]`` False (when ``use`` is not
-    empty) get zeros throughout."""
+def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low, x_low):
+    """Per series: price window [lo, hi] over its rows of positive weight (every row unweighted, or where
+    none weighs more than 0: that series has no model), x mapped onto it (0 for a single price; a row of
+    weight 0 may fall outside [-1, 1]), y less its weighted ``mean``, the smallest y and the smallest x
+    over every row.  Series with ``use[s]`` False (when ``use`` is not empty) get zeros throughout."""
     weighted = len(w) > 0
     restricted = len(use) > 0
     for s in range(len(offsets) - 1):
@@ -72,20 +73,28 @@ def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low):
             for i in range(start, stop):
                 t[i] = 0.0
                 centred[i] = 0.0
-            lo[s] = hi[s] = mean[s] = y_low[s] = 0.0
+            lo[s] = hi[s] = mean[s] = y_low[s] = x_low[s] = 0.0
             continue
         small = np.inf
         large = -np.inf
+        every_small = np.inf
+        every_large = -np.inf
         least = np.inf
         total_w = 0.0
         total_wy = 0.0
         for i in range(start, stop):
             wi = w[i] if weighted else 1.0
-            small = min(small, x[i])
-            large = max(large, x[i])
+            every_small = min(every_small, x[i])
+            every_large = max(every_large, x[i])
+            if wi > 0:  # a row of weight 0 is no observation: the window is the observed prices'
+                small = min(small, x[i])
+                large = max(large, x[i])
             least = min(least, y[i])
             total_w += wi
             total_wy += wi * y[i]
+        if not small <= large:  # no row of positive weight (or a NaN weight): every row's
+            small = every_small
+            large = every_large
         mid = (small + large) / 2
         half = (large - small) / 2
         average = total_wy / (total_w if total_w > 0 else 1.0)
@@ -96,6 +105,7 @@ def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low):
         hi[s] = large
         mean[s] = average
         y_low[s] = least
+        x_low[s] = every_small
 
 
 @compiled(inline=True)

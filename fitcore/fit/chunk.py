@@ -24,8 +24,10 @@ from .weights import unit, weighed_counts
 class Chunk:
     """Series ``s0 … s1 − 1`` of a dataset.  Row arrays (N,) in working order; per series (S,).
 
-    ``t``: price mapped onto each series' window [``lo``, ``hi``] (``window``: mid, half);
-    ``y``: volume less its weighted mean ``ybar``; ``v_low``: the least volume; ``n_obs``: the rows
+    ``t``: price mapped onto each series' window [``lo``, ``hi``], the prices of its rows of positive
+    weight (``window``: mid, half); ``y``: volume less its weighted mean ``ybar``; ``v_low``, ``p_low``:
+    the least volume and price of every row (a row of weight 0 too: the log families take logs of every
+    row); ``n_obs``: the rows
     of positive weight; ``w_unit``: their mean weight, the planned week's (``weights.unit``); ``w_sum``:
     total weight; ``weight_reason``: ``reasons.NO_WEIGHT`` or ``WEIGHT_OVERFLOW`` for a series its
     weights leave nothing to fit, else 0; ``lay``: the fold layout; ``moments``: ``scores.Moments`` of ``y``;
@@ -63,21 +65,21 @@ class Chunk:
                 self.weight_reason[w_sum == 0] = reasons.NO_WEIGHT
         self.w_unit = unit(self.weight, self.offsets, self.n_obs, w_sum)
         self.w_sum = np.where(w_sum > 0, w_sum, 1.0)
-        self.t, self.y, self.lo, self.hi, self.ybar, self.v_low = self.windowed(self.price, self.volume)
+        self.t, self.y, self.lo, self.hi, self.ybar, self.v_low, self.p_low = self.windowed(self.price, self.volume)
         self.window = window(self.lo, self.hi)
         self.moments = moments(self.y, self.weight, self.lay.bounds, self.lay.held_out)
         self.controls = None if spec is None else chunk_controls(spec.raw(data, r0, r1, order), self.weight,
                                                                  self.offsets, plan)
 
     def windowed(self, x: np.ndarray, y: np.ndarray, use: np.ndarray | None = None):
-        """(x mapped onto each series' window, y less its weighted mean, lo, hi, mean y, least y);
+        """(x mapped onto each series' window, y less its weighted mean, lo, hi, mean y, least y, least x);
         series outside ``use`` get zeros throughout (``basis.window_rows``)."""
         t, centred = np.empty(len(x)), np.empty(len(x))
-        lo, hi, mean, least = (np.empty(len(self.counts)) for _ in range(4))
+        lo, hi, mean, least, x_least = (np.empty(len(self.counts)) for _ in range(5))
         window_rows(readonly(x), readonly(y), readonly(np.empty(0) if self.weight is None else self.weight),
                     readonly(self.offsets), readonly(np.empty(0, bool) if use is None else use), t, centred, lo, hi,
-                    mean, least)
-        return t, centred, lo, hi, mean, least
+                    mean, least, x_least)
+        return t, centred, lo, hi, mean, least, x_least
 
     def sums(self, values: np.ndarray) -> np.ndarray:
         return segment_sums(values, self.whole)[:, 0]

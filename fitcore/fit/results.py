@@ -11,6 +11,7 @@ from . import reasons
 from .families import Candidate, Family, Lineup
 from .folds import FoldScheme, fold_scheme
 from .settings import FitSettings
+from .weights import weighed_counts
 
 SCHEMA = "pricefold-results/1"
 
@@ -143,6 +144,17 @@ class Results:
 
     def family_of(self, c: int) -> Family:
         return self.lineup.family_of(c)
+
+    @cached_property
+    def weight_0(self) -> np.ndarray | None:
+        """(S,) int64 how many of each series' ``n`` rows weigh 0; None for an unweighted fit (or results read
+        back from a file that does not say: ``stored_weight_0``)."""
+        weight = self.data.weight
+        if not self.rows_loaded or weight is None or len(weight) != self.data.offsets[-1]:
+            return getattr(self, "stored_weight_0", None)
+        zero = self.data.counts - weighed_counts(weight, self.data.offsets)
+        zero.flags.writeable = False
+        return zero
 
     @cached_property
     def score(self) -> np.ndarray:

@@ -8,8 +8,8 @@ as much as the series' average row of positive weight (``unit``): σ² and
 which average 1), and every interval is σ²·(1 + xᵀ(XᵀWX)⁻¹x) of those: the
 same for weights in any unit.  The fits themselves take the weights as given
 (a curve does not depend on their unit).  A row of weight 0 tells a fit
-nothing: it is no observation (``weighed_counts``), and no fold holds it out
-(``folds``).
+nothing: it is no observation (``weighed_counts``), no fold holds it out
+(``folds``), and it is not among the prices (or control values) observed (``observed``).
 """
 from __future__ import annotations
 
@@ -24,6 +24,15 @@ def weighed_counts(weight: np.ndarray | None, offsets: np.ndarray) -> np.ndarray
     if weight is None or not (weight == 0).any():  # the usual case: one comparison, no copy
         return counts
     return segment_sums((weight > 0).astype(np.float64), _bounds(offsets))[:, 0].astype(np.int64)
+
+
+def observed(weight: np.ndarray | None, offsets: np.ndarray) -> np.ndarray | None:
+    """(N,) bool the rows a series' observed range of prices and controls is judged over: its rows of positive
+    weight, or every row of a series none of whose rows weighs more than 0 (it has no model); None where that
+    is every row (unweighted, or no row weighs 0: the usual case, no copy)."""
+    if weight is None or not len(weight) or not (weight == 0).any():
+        return None
+    return (weight > 0) | np.repeat(weighed_counts(weight, offsets) == 0, np.diff(offsets))
 
 
 def relative(weight: np.ndarray | None, offsets: np.ndarray) -> np.ndarray | None:

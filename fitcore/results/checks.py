@@ -133,6 +133,8 @@ def check_series(path: Path, index: int, record) -> None:
         isinstance(k, str) and isinstance(x, str) for k, x in v.items()), "an object of key columns and their text")
     _field(path, where, record, "n", lambda v: isinstance(v, int) and not isinstance(v, bool) and v >= 0,
            "a whole number")
+    _field(path, where, record, "n_weight_0", lambda v: isinstance(v, int) and not isinstance(v, bool) and v >= 0,
+           "a whole number", optional=True)
     _field(path, where, record, "price_range", lambda v: isinstance(v, list) and len(v) == 2 and all(map(_number, v)),
            "two numbers")
     candidates = _field(path, where, record, "candidates", lambda v: isinstance(v, list), "a list")

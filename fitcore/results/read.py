@@ -183,6 +183,8 @@ def _read_parquet(path: Path, filters=None, rows: tuple[int, int] | None = None,
                        "candidates": [], "chosen": row["chosen"], "rule": meta["settings"]["rule"],
                        "score": row["score"], "flags": flags, "revenue_price": row["revenue_price"],
                        "plan": None, "fingerprint": row["fingerprint"]}
+            if row.get("n_weight_0") is not None:  # a weighted fit's
+                current = {"key": key, "n": row["n"], "n_weight_0": row["n_weight_0"]} | current
             current.update(series_cycle_fields(row))
             series.append(current)
         cand = {name: row[name] for name in ("candidate", "family", "degree", "available", "reason", "cv_mse", "cv_se",

@@ -43,6 +43,7 @@ SOON = ("cv_mse", "cv_se", "r2", "q2", "smearing", "revenue_price", "plan_price"
         "plan_lo", "plan_hi", "plan_elasticity")
 LATER = ("window_coef", "fold_mse", "reason")
 NEEDED = (*LISTED, *SOON, *LATER)
+SAID = ("n_weight_0",)  # read where a part holds it (a weighted fit's), else nothing is said of it
 
 
 @dataclass(frozen=True, eq=False)
@@ -74,6 +75,7 @@ class StoredResults(Results):
     stored_score: np.ndarray = None  # (S × C,) Arrow lists: each cell's per-fold errors, read per series on demand
     stored_cov: object = None  # ``StoredCovariances`` where the file holds them (``review.intervals``)
     stored_last_date: np.ndarray = None  # (S,) datetime64[D] where the file holds each series' last date
+    stored_weight_0: np.ndarray = None  # (S,) int64 a weighted fit's rows of weight 0 where the file holds them
     stored_backtest: dict = None  # name → (S,) the backtest columns of results from ``fit --ledger`` (else None)
     later: LaterColumns = None  # the columns still being read (``stored_results(later=True)``), else None
 
@@ -184,7 +186,8 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         missing = [name for name in wanted if name not in names]
         if missing:
             raise DataError(f"written by an older pricefold (no {', '.join(missing)} column)", path=str(part))
-        tables.append(_read(reader, part, [n for n in wanted if not (later and n in (*SOON, *LATER))]))
+        said = [name for name in SAID if name in names]  # written only by fits that have them
+        tables.append(_read(reader, part, [n for n in wanted if not (later and n in (*SOON, *LATER))] + said))
     table = pa.concat_tables(tables, promote_options="permissive") if len(tables) > 1 else tables[0]
     cycle = _has_cycle(readers)
     read_now = _optional(readers, parts, CYCLE_LATER if later else ()) if cycle else None
@@ -250,7 +253,9 @@ def _stored(path: Path, meta: dict, settings, wanted: list[str], parts: list, fi
         revenue_price=soon(lambda: series_values("revenue_price").astype(float)),
         top_cook=np.full(n_s, -1.0), top_row=np.full(n_s, -1, np.int64), reasons=column("reason"),
         fold_lists=column("fold_mse"), stored_score=series_values("score").astype(float, copy=False),
-        controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late)
+        controls=stored_controls(table, meta["settings"], n_s, n_c, numbers), later=late,
+        stored_weight_0=np.nan_to_num(series_values("n_weight_0").astype(float)).astype(np.int64)
+        if "n_weight_0" in table.column_names else None)
     if cycle:
         results = _with_cycle_fields(results, read_now, n_s, n_c, lineup.width, column if late is not None else None,
                                      cov_known(meta["settings"]))

@@ -108,7 +108,9 @@ class ResultsTable:
         sole = len(results.data.key_names) == 1  # a sole key column: a different key each series
         keys = {name: repeat_text(self.texts[name], sole) for name in results.data.key_names}  # the keys' texts
         columns = dict(
-            n=repeat(results.data.counts), price_lo=repeat(results.price_lo), price_hi=repeat(results.price_hi),
+            n=repeat(results.data.counts),
+            **({} if results.weight_0 is None else {"n_weight_0": repeat(results.weight_0)}),  # weighted fits
+            price_lo=repeat(results.price_lo), price_hi=repeat(results.price_hi),
             candidate=pa.DictionaryArray.from_arrays(from_numpy(which), self.names),
             family=pa.DictionaryArray.from_arrays(from_numpy(tile(numbers(self.families.indices))),
                                                   self.families.dictionary),

@@ -46,6 +46,7 @@ def series_records(results: Results, diagnosis=None, backtest=None) -> list[dict
     fingerprints = data.fingerprints
     score = results.score
     flags = _flag_lists(results, diagnosis)
+    zero = results.weight_0
     smeared = [results.family_of(c).smeared for c in range(len(results.candidates))]
     cand_extras, series_extras = cycle.json_candidate_extras(results), cycle.json_series_extras(results, backtest)
     records = []
@@ -76,6 +77,7 @@ def series_records(results: Results, diagnosis=None, backtest=None) -> list[dict
         chosen = int(results.chosen[s])
         records.append({
             "key": data.key_of(s), "n": int(data.counts[s]),
+            **({} if zero is None else {"n_weight_0": int(zero[s])}),  # a weighted fit: its rows of weight 0
             "price_range": [_num(results.price_lo[s]), _num(results.price_hi[s])],
             "candidates": candidates,
             "chosen": names[chosen] if chosen >= 0 else None,

@@ -15,7 +15,7 @@ from ..compiled import compiled, readonly
 from ..fit import reasons as R
 from ..fit.basis import polynomial
 from ..fit.results import Results
-from ..fit.weights import weighed_counts
+from ..fit.weights import observed, weighed_counts
 from .attention import attention_order
 from .rising import MAX_STRETCHES, rising
 from .thresholds import Thresholds
@@ -192,9 +192,9 @@ def diagnose(results: Results, thresholds: Thresholds = Thresholds()) -> Diagnos
 
 
 def plan_gaps(results: Results) -> np.ndarray:
-    """(S,) the distance from each series' plan price to its nearest observed price, as a share of its observed
-    price range; NaN without a plan price, rows, or a range, or with the plan price outside it (that is
-    ``outside-range``)."""
+    """(S,) the distance from each series' plan price to its nearest observed price (of a row of positive
+    weight, ``weights.observed``), as a share of its observed price range; NaN without a plan price, rows,
+    or a range, or with the plan price outside it (that is ``outside-range``)."""
     data = results.data
     plan, lo, hi = results.plan_price, results.price_lo, results.price_hi
     out = np.full(results.n_series, np.nan)
@@ -204,6 +204,9 @@ def plan_gaps(results: Results) -> np.ndarray:
     if data.price is None or len(data.price) != data.offsets[-1] or not inside.any():
         return out
     apart = np.abs(data.price - np.repeat(np.where(inside, plan, 0.0), counts))
+    seen = observed(data.weight, data.offsets)
+    if seen is not None:  # a row of weight 0 is no observation near the plan price
+        apart[~seen] = np.inf
     filled = np.flatnonzero(counts > 0)  # reduceat needs each start once: series without rows left out
     nearest = np.minimum.reduceat(apart, data.offsets[filled].astype(np.int64))
     span = hi[filled] - lo[filled]  # 0 for a series of one price: never inside, so never divided by
@@ -212,14 +215,15 @@ def plan_gaps(results: Results) -> np.ndarray:
 
 
 def control_ranges(results: Results, series: np.ndarray | None = None, season_days: int = Thresholds.season_days):
-    """(S, M) each control term's lowest and highest value in each series — the columns, then the season
-    terms of its rows' dates — and (S, M) bool: the plan's value lies outside them (a curve held there is
-    an extrapolation in that control).  The season is judged as a whole, every season term alike: a plan
-    date more than ``season_days`` from the time of year of every row (``time_of_year``); without one, the
-    year's average (every term 0), which averages every time of year, when some day of the year is more than
-    ``season_days`` from every row (the series not seen all year round).  M = 0 without
-    controls or rows.  ``series`` (indices): those series only, S = len(series) (one candidate's checks;
-    ``diagnose`` keeps every series' answer: ``Diagnosis.controls_outside``)."""
+    """(S, M) each control term's lowest and highest value in each series' rows of positive weight
+    (``weights.observed``) — the columns, then the season terms of its rows' dates — and (S, M) bool: the
+    plan's value lies outside them (a curve held there is an extrapolation in that control).  The season is
+    judged as a whole, every season term alike: a plan date more than ``season_days`` from the time of year
+    of every row (``time_of_year``); without one, the year's average (every term 0), which averages every
+    time of year, when some day of the year is more than ``season_days`` from every row (the series not seen
+    all year round).  M = 0 without controls or rows.  ``series`` (indices): those series only,
+    S = len(series) (one candidate's checks; ``diagnose`` keeps every series' answer:
+    ``Diagnosis.controls_outside``)."""
     from ..fit.controls import day_phase, season_terms
     from .intervals import rows_of
     from .time_of_year import days_apart, plan_phase, widest_gaps
@@ -239,6 +243,13 @@ def control_ranges(results: Results, series: np.ndarray | None = None, season_da
     nearest = np.full(len(series), np.nan)  # days from the plan date (or the farthest day) to the nearest row's
     if len(starts):
         rows = slice(None) if whole else rows_of(offsets, series)
+        seen = observed(data.weight, offsets)
+        if seen is not None:  # a row of weight 0 is no observation: the values seen are those of the others
+            seen = seen[rows]
+            rows = np.flatnonzero(seen) if whole else rows[seen]
+            counts = np.zeros_like(counts)
+            counts[filled] = np.add.reduceat(seen.astype(np.int64), starts)  # each above 0 (``observed``)
+            starts = (np.cumsum(counts) - counts)[filled]
         terms = [np.asarray(data.controls[name], dtype=float) for name in columns]
         terms = [values[rows] if len(values) == offsets[-1] else None for values in terms]  # None: not these rows
         terms.extend(season_terms(data.date[rows], season) if season else ())
@@ -261,11 +272,14 @@ def control_ranges(results: Results, series: np.ndarray | None = None, season_da
 
 
 def _price_spread(results: Results):
-    """(S,) distinct prices, capped at 3 (1, 2 or "3 or more"), and the price coefficient of variation."""
+    """(S,) distinct prices, capped at 3 (1, 2 or "3 or more"), and the price coefficient of variation, of the
+    rows of positive weight (``weights.observed``)."""
     data = results.data
     n_s = results.n_series
     inner, mean, var = np.zeros(n_s, np.int64), np.zeros(n_s), np.zeros(n_s)
-    price_moments(readonly(data.price), readonly(data.offsets.astype(np.int64)), readonly(results.price_lo),
+    seen = observed(data.weight, data.offsets)
+    price_moments(readonly(data.price), readonly(data.offsets.astype(np.int64)),
+                  readonly(np.empty(0, bool) if seen is None else seen), readonly(results.price_lo),
                   readonly(results.price_hi), inner, mean, var)
     distinct = np.where(results.price_hi > results.price_lo, np.where(inner > 0, 3, 2), 1)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -274,24 +288,30 @@ def _price_spread(results: Results):
 
 
 @compiled
-def price_moments(price, offsets, lo, hi, inner, mean, var):
-    """Per series: how many prices lie strictly inside (lo, hi), their mean and (population) variance."""
+def price_moments(price, offsets, seen, lo, hi, inner, mean, var):
+    """Per series: how many prices lie strictly inside (lo, hi), their mean and (population) variance, over
+    the rows ``seen`` (every row when ``seen`` is empty)."""
+    every = len(seen) == 0
     for s in range(len(offsets) - 1):
         start, stop = offsets[s], offsets[s + 1]
-        if stop == start:
-            continue
         count = 0
+        rows = 0
         total = 0.0
         for i in range(start, stop):
-            count += lo[s] < price[i] < hi[s]
-            total += price[i]
-        average = total / (stop - start)
+            if every or seen[i]:
+                count += lo[s] < price[i] < hi[s]
+                total += price[i]
+                rows += 1
+        if rows == 0:
+            continue
+        average = total / rows
         spread = 0.0
         for i in range(start, stop):
-            spread += (price[i] - average) ** 2
+            if every or seen[i]:
+                spread += (price[i] - average) ** 2
         inner[s] = count
         mean[s] = average
-        var[s] = spread / (stop - start)
+        var[s] = spread / rows
 
 
 def _shape(results: Results) -> dict:

@@ -79,6 +79,12 @@ def weighting_words(column: str | None) -> str:
             "unweighted (every row counts alike)")
 
 
+def weighed_zero(n_zero) -> str:
+    """What to say after a series' row count of its rows of weight 0, which count in ``n`` but in no fit and
+    in no observed range: " (4 of weight 0)", or nothing where none weighs 0 (or the results do not say)."""
+    return f" ({int(n_zero):,} of weight 0)" if n_zero else ""
+
+
 def weight_column(results) -> str | None:
     """The weight column a fit names (None: unweighted)."""
     return (results.settings.as_dict().get("columns") or {}).get("weight")

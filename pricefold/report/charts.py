@@ -53,6 +53,7 @@ class Drawn:
     plan: str = ""
     points: bool = False
     note: str = ""
+    weight_0: bool = False  # rows of weight 0 drawn (hollow): not observations
 
 
 class ChartMaker:
@@ -72,6 +73,7 @@ class ChartMaker:
             self.standing, = ax.plot([], [], color=STANDING, linewidth=2.0)
             self.plan = ax.axvline(0.0, color=PLAN, linestyle=(0, (1, 2)), linewidth=1.6)
             self.points = ax.scatter([], [], s=9, color=POINTS, zorder=3, linewidths=0)
+            self.zero = ax.scatter([], [], s=9, facecolors="none", edgecolors=POINTS, zorder=3, linewidths=0.7)
             self.band = None
             ax.set_xlabel("price")
             ax.set_ylabel("volume")
@@ -98,7 +100,7 @@ class ChartMaker:
         return Drawn(inline_svg(buffer.getvalue(), label), f"{standing} ({chart.words})" if standing else "",
                      f"{names[chart.proposal]} (proposal)" if _proposal_drawn(chart) else "",
                      chart.rows and _banded(chart) >= 0, f"{plan:,.2f}" if np.isfinite(plan) else "",
-                     chart.rows, note)
+                     chart.rows, note, bool(self.zero.get_visible()))
 
     def _draw(self, chart: ChartInput) -> None:
         results, s, ax = chart.fit, chart.at, self.axes
@@ -125,10 +127,15 @@ class ChartMaker:
         if np.isfinite(plan):
             self.plan.set_xdata([plan, plan])
         self.points.set_visible(chart.rows)
+        self.zero.set_visible(False)
         if chart.rows:
             from fitcore.review.evidence import series_rows
-            price, volume, _ = series_rows(results, s)
-            self.points.set_offsets(np.column_stack((price, volume)))
+            price, volume, weight = series_rows(results, s)
+            zero = np.zeros(len(price), bool) if weight is None else weight == 0  # no observations: apart
+            self.points.set_offsets(np.column_stack((price[~zero], volume[~zero])))
+            if zero.any():
+                self.zero.set_offsets(np.column_stack((price[zero], volume[zero])))
+                self.zero.set_visible(True)
             ys.append(volume)
         values = np.concatenate([np.asarray(y, dtype=float).ravel() for y in ys]) if ys else np.zeros(1)
         values = values[np.isfinite(values)]

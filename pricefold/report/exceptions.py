@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 
 from fitcore.ledger.signoff import STATUSES, Signoff
+from fitcore.review.plan_words import weighed_zero
 
 from .page import Report, alike, cell, elasticity, esc, interval, num, price, stale_parts, when
 from .tables import at_plan, by_whom, label
@@ -105,7 +106,8 @@ def chart_figure(drawn) -> str:
     keys = [(kind, text) for kind, text in (
         ("standing", drawn.standing), ("proposal", drawn.proposal),
         ("band", "95% prediction band" if drawn.band else ""),
-        ("plan", f"plan price {drawn.plan}" if drawn.plan else ""), ("points", "observed" if drawn.points else ""))
+        ("plan", f"plan price {drawn.plan}" if drawn.plan else ""), ("points", "observed" if drawn.points else ""),
+        ("zero", "rows of weight 0 (not observations)" if drawn.weight_0 else ""))
         if text]
     key = " ".join(f"<span class=\"legend-item\"><span class=\"swatch {kind}\"></span>{esc(text)}</span>"
                    for kind, text in keys)
@@ -120,7 +122,9 @@ def section(report: Report, s: int) -> str:
     numbers = at_plan(signoff, s)
     plan, c = numbers.price, numbers.model
     current = signoff.standing(s) or {}
-    facts = [f"status <strong class=\"st-{status}\">{status}</strong>", f"{num(results.data.counts[s])} observations",
+    zero = weighed_zero(None if results.weight_0 is None else results.weight_0[s])
+    facts = [f"status <strong class=\"st-{status}\">{status}</strong>",
+             f"{num(results.data.counts[s])} observations{zero}",
              f"prices {price(results.price_lo[s])}–{price(results.price_hi[s])}"]
     if current.get("action") == "hold":  # a hold signs no curve
         facts.append(f"held by {by_whom(current)} UTC: no curve signed")

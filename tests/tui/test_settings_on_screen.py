@@ -55,3 +55,24 @@ async def test_a_weighted_fit_says_so_and_a_flat_price_has_no_elasticity(ledger_
         said = predicts(results, s, int(results.chosen[s]), diagnosis=app.session.diagnosis)
         assert said.endswith("elasticity not estimable (price never varied in this series)")
         assert "Every fit weighted by column w" in rendered(help_text(results=results))
+
+
+async def test_the_title_says_the_rows_of_weight_0_and_the_range_of_the_others(ledger_path, tmp_path):
+    """Rows of weight 0 count in n, said beside it, and not in the prices observed (numpy's min and max of the
+    rows of positive weight): "44 obs (4 of weight 0), prices 2.00–3.00", not 1.50–3.60."""
+    import numpy as np
+    rng = np.random.default_rng(5)
+    price = np.concatenate([np.round(rng.uniform(2.0, 3.0, 40), 2), [1.5, 3.2, 3.4, 3.6]])
+    weight = np.concatenate([np.round(rng.uniform(0.5, 2.0, 40), 2), np.zeros(4)])
+    rows = ["product,price,volume,w"] + [f"zeroed,{p},{1000 - 200 * p + rng.normal(0, 10):.1f},{w}"
+                                         for p, w in zip(price, weight)]
+    (tmp_path / "weighted.csv").write_text("\n".join(rows) + "\n")
+    app = make_app(ledger_path, Source(data=tmp_path / "weighted.csv", columns=Columns(weight="w"), plan_price=3.4))
+    async with app.run_test(size=(120, 70)) as pilot:
+        await started(app, pilot)
+        lo, hi = np.min(price[weight > 0]), np.max(price[weight > 0])
+        said = f"44 obs (4 of weight 0), prices {lo:.2f}–{hi:.2f}"
+        assert said in app.screen.evidence.title_text(0).plain
+        await until(pilot, lambda: said in screen_text(app))
+        assert "outside-range" in screen_text(app)
+        await until(pilot, lambda: "○ weight 0" in screen_text(app))  # the chart's key: drawn apart

@@ -174,7 +174,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     said where they would be drawn (else, without rows, that they are being read)."""
     # with the first chart, not with the screen: the list's first frame does not wait for it
     from fitcore.review.evidence import adjusted_volumes, band, curve, runner_up, series_rows
-    price, volume, _ = series_rows(results, s)
+    price, volume, weight = series_rows(results, s)
+    zero = np.zeros(len(price), dtype=bool) if weight is None else weight == 0  # no observations: drawn apart
     new = np.zeros(len(price), dtype=bool)
     if signed is not None and signed.get("last_date") and results.data.date is not None and len(price):
         rows = slice(results.data.offsets[s], results.data.offsets[s + 1])
@@ -209,9 +210,11 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
     if shown_plan:
         plt.vline(plan, PLAN)
     if len(price):  # observations last, so that curves through them do not hide them
-        plt.scatter(*_finite(price[~new], volume[~new]), marker="•", color=OBSERVED)
-        if new.any():
-            plt.scatter(*_finite(price[new], volume[new]), marker="×", color=NEW)
+        if zero.any():
+            plt.scatter(*_finite(price[zero], volume[zero]), marker="○", color=OBSERVED)
+        plt.scatter(*_finite(price[~new & ~zero], volume[~new & ~zero]), marker="•", color=OBSERVED)
+        if (new & ~zero).any():
+            plt.scatter(*_finite(price[new & ~zero], volume[new & ~zero]), marker="×", color=NEW)
     if _plottable(grid).all():
         plt.xlim(float(grid[0]), float(grid[-1]))
     _even_y_axis([volume, *(ys for ys, _, _ in lines)], height, window)
@@ -225,6 +228,8 @@ def curve_chart(results: Results, s: int, width: int, height: int, model: int, u
         ", raw (c: adjust them to the plan's controls)" if results.controls is not None else "")
     if results.rows_loaded:
         legend.append(seen, _colour(OBSERVED))
+        if zero.any():
+            legend.append("   ○ weight 0", _colour(OBSERVED))
     elif unobserved:
         legend.append(unobserved, UNOBSERVED)
     else:

@@ -24,7 +24,7 @@ from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
 from fitcore.review.plan_words import (elasticity_of, elasticity_words, held_words, revenue_words, weight_column,
-                                       weighting_words)
+                                       weighed_zero, weighting_words)
 from fitcore.review.sentences import fmt, money
 from fitcore.text import told_apart
 
@@ -193,7 +193,8 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         """Three lines at most, each cut to the width: which series, its status, news from another analyst."""
         results, session = self.session.results, self.session
         width = max(self.scrollable_content_region.width, 20)
-        about = (f"  {results.data.counts[s]} obs, prices {self.price(results.price_lo[s])}–"
+        zero = weighed_zero(None if results.weight_0 is None else results.weight_0[s])
+        about = (f"  {results.data.counts[s]} obs{zero}, prices {self.price(results.price_lo[s])}–"
                  f"{self.price(results.price_hi[s])}")
         # a long product name gives way to its segments and to what is said about the series (a key of one
         # part keeps the width: the name is all that tells the series apart)

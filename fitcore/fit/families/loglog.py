@@ -24,7 +24,7 @@ class LogLog(LogVolume):
         return np.exp(x)
 
     def serves(self, ch) -> np.ndarray:
-        return (ch.v_low > 0) & (ch.lo > 0)
+        return (ch.v_low > 0) & (ch.p_low > 0)
 
     def slope(self, fitted_t, volume, half, price):
         return fitted_t / width(half) * volume / price

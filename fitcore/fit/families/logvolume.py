@@ -36,7 +36,7 @@ class LogVolume(Family):
     def fit(self, ch, candidates) -> Fitted:
         served = self.serves(ch)
         with np.errstate(divide="ignore", invalid="ignore"):  # rows of series not served: skipped
-            u, z, lo, hi, zbar, _ = ch.windowed(self.x(ch.price), np.log(ch.volume), served)
+            u, z, lo, hi, zbar, _, _ = ch.windowed(self.x(ch.price), np.log(ch.volume), served)
         log = fit_family(u, z, ch.weight, ch.lay, (1,), fold_coefficients=True,
                          controls=None if ch.controls is None else ch.controls.z)
         held_out, held_ok, smear, sse = ch.scheme.held_out(self, (ch, u, z, log))
