@@ -63,8 +63,8 @@ def neg_powers(mid: np.ndarray, p: int) -> list:
 def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low, x_low):
     """Per series: price window [lo, hi] over its rows of positive weight (every row unweighted, or where
     none weighs more than 0: that series has no model), x mapped onto it (0 for a single price; a row of
-    weight 0 may fall outside [-1, 1]), y less its weighted ``mean``, the smallest y and the smallest x
-    over every row.  Series with ``use[s]`` False (when ``use`` is not empty) get zeros throughout."""
+    weight 0 priced outside it held at its edge, −1 or 1: it counts in no sum), y less its weighted ``mean``,
+    the smallest y and the smallest x over every row.  Series with ``use[s]`` False (when ``use`` is not empty) get zeros throughout."""
     weighted = len(w) > 0
     restricted = len(use) > 0
     for s in range(len(offsets) - 1):
@@ -99,7 +99,10 @@ def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low, x_low):
         half = (large - small) / 2
         average = total_wy / (total_w if total_w > 0 else 1.0)
         for i in range(start, stop):
-            t[i] = (x[i] - mid) / half if half > 0 else 0.0
+            at = (x[i] - mid) / half if half > 0 else 0.0
+            if weighted and not w[i] > 0:  # weighs nothing in any sum, but its powers, exp(residual) and the like
+                at = min(max(at, -1.0), 1.0)  # must stay finite (0·inf is NaN): a price far off, a window narrow
+            t[i] = at
             centred[i] = y[i] - average
         lo[s] = small
         hi[s] = large

@@ -158,3 +158,26 @@ def test_the_fit_does_not_move_and_a_series_of_weight_zero_alone_has_no_model():
     assert ours.reason_text(s, 0) == "every observation of this series weighs zero, so there is nothing to fit"
     assert [f["code"] for f in diagnose(ours).flags_of(s)] == ["few-points"]
     assert ours.weight_0[s] == 16 and ours.weight_0[names.index("beyond")] == 4
+
+
+def test_a_row_of_weight_0_far_beyond_a_narrow_window_leaves_every_candidate_finite():
+    """Prices of positive weight 1.0 and 1.000000001 (a window 1e-9 wide) and a row of weight 0 at 1e14: mapped
+    onto the window it lay 2e23 half-widths out, and its exp(log residual) overflowed: 0·inf made the log
+    families' held-out errors NaN ("its held-out errors overflow: … a mistyped one?") though the row weighs
+    nothing.  Each candidate now equals its fit without that row; the loglog slope is checked against
+    statsmodels WLS of ln volume on ln price over the rows of positive weight."""
+    import statsmodels.api as sm
+    rng = np.random.default_rng(5)
+    price = np.where(np.arange(30) % 2, 1.000000001, 1.0)
+    volume = 100 + rng.uniform(0, 5, 30)
+    with_far = fitcore.from_columns({"product": np.full(31, "a", dtype=object)}, np.append(price, 1e14),
+                                    np.append(volume, 50.0), weight=np.append(np.ones(30), 0.0))
+    alone = fitcore.from_columns({"product": np.full(30, "a", dtype=object)}, price, volume, weight=np.ones(30))
+    settings = fitcore.FitSettings(degrees=(0, 1), folds=5)
+    far, near = fitcore.fit_batch(with_far, settings), fitcore.fit_batch(alone, settings)
+    assert far.available[0].all() and np.isfinite(far.cv_mse[0]).all()
+    np.testing.assert_allclose(far.cv_mse[0], near.cv_mse[0], rtol=1e-9)
+    loglog = far.names.index("loglog")
+    ols = sm.WLS(np.log(volume), sm.add_constant(np.log(price)), weights=np.ones(30)).fit()
+    slope = fitcore.fit_batch(with_far, settings, plan_price=np.array([1.0000000005])).plan_elasticity[0, loglog]
+    np.testing.assert_allclose(slope, ols.params[1], rtol=1e-4)  # (a slope over a 1e-9 wide range: ill-conditioned)
