@@ -37,7 +37,8 @@ def candidates(signoff: Signoff, s: int) -> str:
                     + cell("Q²", _share(results.q2[s, c]), "num") + cell("R²", _share(results.r2[s, c]), "num")
                     + cell("plan volume (95% PI)", volume, "num")
                     + cell("elasticity", elasticity(results.plan_elasticity[s, c], results.plan_volume[s, c],
-                                                    results.price_hi[s] > results.price_lo[s])
+                                                    results.price_hi[s] > results.price_lo[s],
+                                                    results.candidates[c].degree == 0)
                            if planned else "—", "num")
                     + "</tr>")
     table = ("<div class=\"wide\"><table class=\"cards-small\"><thead><tr><th>candidate</th>"

@@ -87,14 +87,18 @@ def price(x) -> str:
     return esc(money(None if x is None else float(x)))
 
 
-def elasticity(x, volume=None, varied: bool = True) -> str:
+def elasticity(x, volume=None, varied: bool = True, flat: bool = False) -> str:
     """The elasticity at the plan price; none at a ``volume`` at or below zero (a ratio of relative changes
     means nothing there: the screen and ``show`` say the same), nor where price never ``varied`` in the series
-    (nothing measured it)."""
+    (nothing measured it); a ``flat`` curve's 0 said to be the model's choice, not a measurement (as ``show`` and
+    the screen say it; the export leaves it empty)."""
     if not varied:
         return '<span title="price never varied in this series: nothing measures an elasticity">not estimable</span>'
     if volume is not None and float(volume) <= 0:
         return '<span title="no elasticity: the volume is at or below zero">n/a</span>'
+    if flat:
+        return ('<span title="a flat curve: its 0 is the model\'s choice (no price term), not a measurement">'
+                "0 (flat: not measured)</span>")
     if x is None or not math.isfinite(float(x)):
         return "n/a"
     return two_places(float(x)).replace("-", "−")

@@ -171,7 +171,8 @@ def row(signoff: Signoff, s: int, detailed: set, tell_apart=None) -> str:
             + cell("Status", status + carried, f"st-{status}") + cell("Model", model_cell(signoff, s))
             + cell("Plan price", price(plan) if math.isfinite(plan) else "—", "num", _sort_value(plan))
             + cell("Volume (95% PI)", shown, "num", _sort_value(volume))
-            + cell("Elasticity", elasticity(e, volume, bool(results.price_hi[s] > results.price_lo[s]))
+            + cell("Elasticity", elasticity(e, volume, bool(results.price_hi[s] > results.price_lo[s]),
+                                            results.candidates[numbers.model].degree == 0)
                    if planned and e is not None else "—", "num",
                    _sort_value(e if planned and e is not None and volume > 0 else None))
             + cell("Flags", _flag_cell(signoff, s)) + cell("Analyst", analyst)

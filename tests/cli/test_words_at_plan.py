@@ -205,3 +205,18 @@ def test_the_export_leaves_empty_the_elasticity_of_every_flat_curve(tmp_path):
     assert all(rows[key]["model"] == "poly0" and rows[key]["plan_elasticity"] == "" and rows[key]["plan_volume"]
                for key in flat)
     assert sum(row["plan_elasticity"] not in ("", "0.0") for row in rows.values()) > 100  # the others measured
+
+
+def test_the_report_says_a_flat_curves_elasticity_is_not_measured(tmp_path):
+    """The report printed 0.00 for a chosen poly0 where price moved (the sample's cherry tomatoes · South; a
+    trial), where show and the screen say "the model's choice, not a measurement" and the export leaves it empty."""
+    pytest.importorskip("matplotlib")
+    (tmp_path / "L.jsonl").write_bytes(b"")
+    page = tmp_path / "r.html"
+    assert main(["report", str(ROOT / "sample" / "results.parquet"), "--ledger", str(tmp_path / "L.jsonl"), "-o",
+                 str(page)]) == 0
+    text = page.read_text()
+    cells = re.findall(r'data-label="Elasticity">(.*?)</td>', text)  # the decisions table's rows shown
+    cells += re.findall(r'<td class="num" data-label="elasticity">(.*?)</td>', text)  # each candidate in the cards
+    flat = [cell for cell in cells if "flat: not measured" in cell]
+    assert len(flat) >= 3 and not any(re.fullmatch(r"[−-]?0\.00", cell) for cell in cells)
