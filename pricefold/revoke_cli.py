@@ -67,12 +67,12 @@ def run_revoke(args) -> int:
             print(f"  #{decision['seq']} {label(decision['series'])}: {what_happened(decision)}", file=sys.stderr)
         if len(taken) > SAID:
             print(f"  … and {len(taken) - SAID:,} more (pricefold ledger show lists them)", file=sys.stderr)
-        others = sorted({clean(d["analyst"]) for d in taken if d["analyst"] != who.analyst})
-        if others:  # one OS user may record under several names: the ledger's rule is the OS user's, said here
-            print(f"note: withdrawn under the name {clean(who.analyst)!r}, recorded under {', '.join(map(repr, others))} "
-                  f"by the same OS user ({clean(who.os_user)}): the ledger lets an OS user withdraw its own decisions "
-                  "whatever name they were recorded under", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
+    others = sorted({clean(d["analyst"]) for d in taken if d["analyst"] != who.analyst})
+    if others:  # one OS user may record under several names: the rule is the OS user's (said even with -q)
+        print(f"note: withdrawn under the name {clean(who.analyst)!r}, recorded under {', '.join(map(repr, others))} "
+              f"by the same OS user ({clean(who.os_user)}): the ledger lets an OS user withdraw its own decisions "
+              "whatever name they were recorded under", file=sys.stderr)
     return 0
 
 

@@ -171,7 +171,9 @@ def test_it_names_what_it_withdrew_and_another_display_name_of_the_same_os_user(
     assert revoke(book, "--record", "6", "--note", "needs a fresh look") == 0
     err = capsys.readouterr().err.splitlines()
     assert err[1].startswith("  #6 item 9 · North: ana accepted poly1 at ")
-    assert err[2].startswith("note: withdrawn under the name 'Ben', recorded under 'ana' by the same OS user (ana)")
+    assert err[3].startswith("note: withdrawn under the name 'Ben', recorded under 'ana' by the same OS user (ana)")
+    assert revoke(book, "--record", "3", "--note", "again", "-q") == 0  # not a summary: said with -q too (a trial)
+    assert capsys.readouterr().err.startswith("note: withdrawn under the name 'Ben', recorded under 'ana'")
 
 
 def test_a_batch_withdrawn_names_five_and_counts_the_rest(tmp_path, monkeypatch, capsys):
@@ -181,4 +183,5 @@ def test_a_batch_withdrawn_names_five_and_counts_the_rest(tmp_path, monkeypatch,
     assert revoke(path, "--batch", "1", "--note", "wrong file") == 0
     err = capsys.readouterr().err.splitlines()
     assert [line.split(":")[0] for line in err[1:6]] == [f"  #{i} item {i} · North" for i in range(1, 6)]
-    assert err[6] == "  … and 3 more (pricefold ledger show lists them)" and not err[7].startswith("note:")
+    assert err[6] == "  … and 3 more (pricefold ledger show lists them)" and err[7].startswith("ledger head ")
+    assert len(err) == 8  # no note: every one was recorded under this name
