@@ -222,3 +222,29 @@ def test_an_influential_row_of_a_parquet_file_is_placed_by_row_not_line(tmp_path
     for text, parquet in zip(said["csv"], said["parquet"]):
         line = int(re.search(r"on line (\d+),", text)[1])
         assert f"on row {line - 1}," in parquet and "on line" not in parquet
+
+
+def test_the_status_line_fits_the_terminal_and_a_dumb_terminal_gets_none(tmp_path, monkeypatch):
+    """A status longer than the terminal wrapped, and the carriage return redrew its last row only: a long file
+    name left 'reading weekly_sales_extract_…' on screen above the summary (a trial, 80 columns).  TERM=dumb
+    showed the clearing escape as text."""
+    import io
+
+    from fitcore.widths import cells
+
+    class Terminal(io.StringIO):
+        def isatty(self) -> bool:
+            return True
+    data = write(tmp_path / f"weekly_sales_extract_for_the_planning_cycle_{'x' * 60}.csv", sample_rows()[:600])
+    monkeypatch.setenv("COLUMNS", "40")
+    err = Terminal()
+    monkeypatch.setattr("sys.stderr", err)
+    assert main(["fit", str(data), "--segment", "region", "-o", str(tmp_path / "r.json")]) == 0
+    drawn = [part.split("\x1b[K")[0] for part in err.getvalue().split("\r")[1:]]
+    assert any(part.startswith("reading weekly_sa") and part.endswith(".csv …") and "…" in part[:-2] for part in drawn)
+    assert all(cells(part) <= 39 for part in drawn if "\n" not in part)
+    monkeypatch.setenv("TERM", "dumb")
+    err = Terminal()
+    monkeypatch.setattr("sys.stderr", err)
+    assert main(["fit", str(data), "--segment", "region", "-o", str(tmp_path / "r.json")]) == 0
+    assert "\x1b" not in err.getvalue() and "\r" not in err.getvalue() and "fitted 6 series" in err.getvalue()
