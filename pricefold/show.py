@@ -298,7 +298,8 @@ def detail(record: dict, binary=(), label: str | None = None, weight: str | None
     as the caller shows it (else ``key_text``); ``weight``: the weight column of a weighted fit."""
     lo, hi = record["price_range"]
     zero = weighed_zero(record.get("n_weight_0"))  # a weighted fit's rows of weight 0: in n, not in the range
-    out = [f"{label or key_text(record['key'])} — {record['n']} observation{'s' * (record['n'] != 1)}{zero}, prices {money(lo)}–{money(hi)}",
+    seen = f"{record['n']} observation{'s' * int(record['n'] != 1)}{zero}"
+    out = [f"{label or key_text(record['key'])} — {seen}, prices {money(lo)}–{money(hi)}",
            *([weighting_words(clean(weight))] if weight else []),
            f"chosen: {record['chosen'] or 'none'} ({record['rule']}): {why_chosen(record)}", "",
            f"  {'candidate':<10} {'CV MSE':>12} {'± SE':>10} {'Q²':>6} {'R²':>6}"]

@@ -9,7 +9,7 @@ def summary_line(n_series: int, n_rows: int, chosen: dict, flags: dict, clean: i
     parts = " · ".join(f"{name} {count:,}" for name, count in chosen.items() if count)
     flagged = " · ".join(f"{code} {count:,}" for code, count in flags.items()) or "none"
     share = clean / n_series if n_series else 1.0
-    return (f"fitted {n_series:,} series ({n_rows:,} row{'s' * (n_rows != 1)}) {how}; chosen: {parts}\n"
+    return (f"fitted {n_series:,} series ({n_rows:,} row{'s' * int(n_rows != 1)}) {how}; chosen: {parts}\n"
             f"flags: {flagged}; {clean:,} series ({share:.0%}) carry none → {where}")
 
 

@@ -64,7 +64,8 @@ def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low, x_low):
     """Per series: price window [lo, hi] over its rows of positive weight (every row unweighted, or where
     none weighs more than 0: that series has no model), x mapped onto it (0 for a single price; a row of
     weight 0 priced outside it held at its edge, −1 or 1: it counts in no sum), y less its weighted ``mean``,
-    the smallest y and the smallest x over every row.  Series with ``use[s]`` False (when ``use`` is not empty) get zeros throughout."""
+    the smallest y and the smallest x over every row.  Series with ``use[s]`` False (when ``use`` is not empty)
+    get zeros throughout."""
     weighted = len(w) > 0
     restricted = len(use) > 0
     for s in range(len(offsets) - 1):

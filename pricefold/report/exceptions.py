@@ -125,7 +125,7 @@ def section(report: Report, s: int) -> str:
     current = signoff.standing(s) or {}
     zero = weighed_zero(None if results.weight_0 is None else results.weight_0[s])
     facts = [f"status <strong class=\"st-{status}\">{status}</strong>",
-             f"{num(results.data.counts[s])} observation{'s' * (results.data.counts[s] != 1)}{zero}",
+             f"{num(results.data.counts[s])} observation{'s' * int(results.data.counts[s] != 1)}{zero}",
              f"prices {price(results.price_lo[s])}–{price(results.price_hi[s])}"]
     if current.get("action") == "hold":  # a hold signs no curve
         facts.append(f"held by {by_whom(current)} UTC: no curve signed")

@@ -158,7 +158,8 @@ def test_a_fit_that_will_compile_first_says_so_and_one_that_will_not_is_silent(t
         def isatty(self) -> bool:
             return True
     cold = {"controlled_fit" if controlled else "family_fit"}
-    monkeypatch.setattr(fitcore.compiled, "looks_compiled", lambda module="kernels", loop="family_fit": loop not in cold)
+    monkeypatch.setattr(fitcore.compiled, "looks_compiled",
+                        lambda module="kernels", loop="family_fit": loop not in cold)
     extra = ["--control", "promo"] if controlled else []
     data = write(tmp_path / "d.csv", sample_rows()[:600])
 
@@ -241,7 +242,8 @@ def test_the_status_line_fits_the_terminal_and_a_dumb_terminal_gets_none(tmp_pat
     monkeypatch.setattr("sys.stderr", err)
     assert main(["fit", str(data), "--segment", "region", "-o", str(tmp_path / "r.json")]) == 0
     drawn = [part.split("\x1b[K")[0] for part in err.getvalue().split("\r")[1:]]
-    assert any(part.startswith("reading weekly_sa") and part.endswith(".csv …") and "…" in part[:-2] for part in drawn)
+    assert any(part.startswith("reading weekly_sa") and part.endswith(".csv …") and "…" in part[:-2]
+               for part in drawn)
     assert all(cells(part) <= 39 for part in drawn if "\n" not in part)
     monkeypatch.setenv("TERM", "dumb")
     err = Terminal()
