@@ -12,6 +12,7 @@ from functools import lru_cache
 from typing import NamedTuple
 
 from fitcore.ledger.signoff import STATUSES, Signoff
+from fitcore.review.candidate_checks import OF_THE_SERIES
 from fitcore.review.flags import CODES, SEVERITY
 from fitcore.text import clean, reveal_unnormalised
 
@@ -69,10 +70,36 @@ def bulk(signoff: Signoff, ledger_path: str, results_path: str) -> str:
 def _flag_cell(signoff: Signoff, s: int) -> str:
     raised = signoff.diagnosis.raised[s]
     codes = [code for i, code in enumerate(CODES) if raised[i]]
-    codes.sort(key=lambda code: SEVERITY[code] != "stop")
     said = {f["code"]: f["message"] for f in signoff.diagnosis.flags_of(s)} if codes else {}
+    own = standing_codes_of(signoff, s, codes)
+    if own is not None:  # an override: its curve's flags (its checks have no sentence of the proposal's)
+        model = str((signoff.standing(s) or {}).get("model"))
+        said = {code: said[code] if code in OF_THE_SERIES else f"of {model}'s own curve" for code in own}
+        codes = own
+    codes.sort(key=lambda code: SEVERITY[code] != "stop")
     return " ".join(f"<span class=\"flag sev-{SEVERITY[c]}\" title=\"{esc(said.get(c, ''))}\">{c}</span>"
                     + (f" <span class=\"muted\">({GLOSS[c]})</span>" if c in GLOSS else "") for c in codes)
+
+
+def standing_codes_of(signoff: Signoff, s: int, codes: list[str]) -> list[str] | None:
+    """The flag codes of series ``s`` where an override stands on its data (not stale): its own curve's
+    (``candidate_checks.standing_codes``, as ``ledger export`` writes them) in place of the proposal's
+    ``codes``; None where no override stands (the proposal's codes are the row's)."""
+    from fitcore.review.candidate_checks import candidate_checks, codes_for_another, standing_codes
+    current = signoff.standing(s) or {}
+    if STATUSES[signoff.status[s]] != "overridden" or not current.get("model"):
+        return None
+    results, diagnosis = signoff.results, signoff.diagnosis
+    proposal = results.names[results.chosen[s]] if results.chosen[s] >= 0 else None
+    if current["model"] == proposal:
+        return None
+    if current["model"] in results.names:  # the results' candidate, as the override dialog checks it
+        checks = candidate_checks(results, s, results.names.index(current["model"]), diagnosis.thresholds,
+                                  diagnosis.controls_outside(s))
+        return codes_for_another(codes, checks.codes)
+    price = float(results.plan_price[s])  # a model these results did not fit: the signed curve
+    return standing_codes(codes, None, current.get("signed") or None, price if math.isfinite(price) else None,
+                          float(results.price_lo[s]), float(results.price_hi[s]), diagnosis.thresholds)[0]
 
 
 # What a stop flag cautions, beside its code where a reader of the table would otherwise see a code alone (the
