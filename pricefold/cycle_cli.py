@@ -139,6 +139,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
 
     from .show import detail, in_attention_order, key_cells
     book = open_ledger(ledger_path, must_exist=True)
+    # whether the results' flags (before any is left out below) name ``flag``: else the filter matches nothing
+    raised = flag is not None and any(f["code"] == flag for record in records for f in record["flags"])
     like: dict[str, dict] = {}  # series id → the ledger series it looks like
     beside: list[tuple[str, ...]] = []  # the missing signed series' keys as shown: told apart from the list's
     foreign = None  # "RESULTS: backtested against L, not THIS": their backtest left out
@@ -172,7 +174,6 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             records = [without_backtest(record) for record in records]
     fitted = header is not None and bool(header.get("ledger")) and not foreign  # what the fit read: this ledger
     replaced = [superseded(record, book) for record in records]
-    raised = [record for record in records if flag is not None and any(f["code"] == flag for f in record["flags"])]
     records = [without_backtest(record) if gone else record for record, gone in zip(records, replaced)]
     thresholds = lru_cache(lambda: recorded_thresholds(((header or {}).get("settings") or {}).get("thresholds"),
                                                        results))  # the fit's, as the export judges by
