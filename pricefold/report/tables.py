@@ -216,7 +216,7 @@ def decisions(report: Report, detailed: set) -> str:
     lead = (f"<p>{num(len(rows))} series: every series a person decided one by one, and every series with a "
             f"stop flag, most in need of attention first. Volumes are at the plan price under the model that "
             f"stands (the proposal while pending or held: a hold signs no curve; a stale series' as signed, on "
-            f"its earlier data), with its 95% prediction interval.</p>")
+            f"its earlier data), with its 95% prediction interval; an override's flags are its own curve's.</p>")
     controls = ("<div class=\"controls\" id=\"decisions-controls\" hidden><label>Find <input type=\"search\" "
                 "placeholder=\"series, analyst, note…\"></label><label>Status <select><option value=\"\">all"
                 f"</option>{options}</select></label><output></output></div>")
