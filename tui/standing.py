@@ -2,7 +2,8 @@
 signed series whose data changed is due (no widget).
 
 A mixin of ``TriageSession``, which gives it ``results``, ``keys``, ``status``, ``status_code``, ``histories``,
-``backtest``, ``_id``, ``result_flags``, ``last_date`` and ``accepted_other_mask`` (kept by ``mark_accepted_other``).
+``backtest``, ``_id``, ``result_flags``, ``flag_codes``, ``diagnosis``, ``last_date`` and ``accepted_other_mask``
+(kept by ``mark_accepted_other``).
 """
 from __future__ import annotations
 
@@ -164,3 +165,26 @@ class Standing:
         # the score of the model that stands: an override's own Q², not the proposal's
         score = results.q2[s, model] if 0 <= model != results.chosen[s] else results.score[s]
         return name, float(score)
+
+    def listed_flags(self, s: int) -> list[str]:
+        """The list's flags of series ``s``, stop flags first: where an override stands on its data (not stale), its
+        own curve's — the override dialog's checks (``candidate_checks``) read for that candidate, as ``ledger
+        export`` and ``show --ledger`` give them; else the results' (``flag_codes``: a pending series', an accept's,
+        and beside ``proposes`` an accept of another fit's proposal)."""
+        codes = self.flag_codes(s)
+        if self.status[s] != "overridden":
+            return codes
+        from fitcore.review.candidate_checks import candidate_checks, codes_for_another, standing_codes
+        model, proposal, results = self.model_of(s), int(self.results.chosen[s]), self.results
+        if model != proposal:
+            checks = candidate_checks(results, s, model, self.diagnosis.thresholds,
+                                      self.diagnosis.controls_outside(s)).codes
+            own = codes_for_another(codes, checks)
+        elif self.standing_absent(s) is not None:  # a model these results did not fit: the signed curve
+            price = float(results.plan_price[s])
+            own = standing_codes(codes, None, (self.standing(s) or {}).get("signed") or None,
+                                 price if math.isfinite(price) else None, float(results.price_lo[s]),
+                                 float(results.price_hi[s]), self.diagnosis.thresholds)[0]
+        else:
+            return codes
+        return sorted(own, key=lambda code: SEVERITY[code] != "stop")
