@@ -221,10 +221,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             lines += ["  " + line for line in
                       stands_words(record, stands, current if current["action"] == "carry" else None,
                                    current.get("signed"))]
-        if standing[0] is not None:  # an override: its curve's flags, beside the proposal's above
-            codes = " ".join(f["code"] for f in standing[0][0]) or "none"
-            lines.append(f"  flags of {clean(str(history.current['model']))} (the flags above are the proposal's): "
-                         f"{codes}")
+            if standing[0] is not None:  # an override: its curve's flags, beside the proposal's above
+                codes = " ".join(f["code"] for f in standing[0][0]) or "none"
+                lines.append(f"  flags of {clean(str(current['model']))} (the flags above are the proposal's): {codes}")
         elif history is not None and history.current is not None and history.current["action"] == "carry":
             lines.append(f"  {what_stands(history.current, history.carried)}")  # who carried, whose accept
         if record.get("backtest"):

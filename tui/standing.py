@@ -172,19 +172,11 @@ class Standing:
         export`` and ``show --ledger`` give them; else the results' (``flag_codes``: a pending series', an accept's,
         and beside ``proposes`` an accept of another fit's proposal)."""
         codes = self.flag_codes(s)
-        if self.status[s] != "overridden":
+        name = self._standing_name(s) if self.status[s] == "overridden" else None
+        chosen = int(self.results.chosen[s])
+        if name is None or (chosen >= 0 and name == self.results.names[chosen]):
             return codes
-        from fitcore.review.candidate_checks import candidate_checks, codes_for_another, standing_codes
-        model, proposal, results = self.model_of(s), int(self.results.chosen[s]), self.results
-        if model != proposal:
-            checks = candidate_checks(results, s, model, self.diagnosis.thresholds,
-                                      self.diagnosis.controls_outside(s)).codes
-            own = codes_for_another(codes, checks)
-        elif self.standing_absent(s) is not None:  # a model these results did not fit: the signed curve
-            price = float(results.plan_price[s])
-            own = standing_codes(codes, None, (self.standing(s) or {}).get("signed") or None,
-                                 price if math.isfinite(price) else None, float(results.price_lo[s]),
-                                 float(results.price_hi[s]), self.diagnosis.thresholds)[0]
-        else:
-            return codes
+        from fitcore.review.candidate_checks import standing_codes_in
+        own = standing_codes_in(self.results, s, name, codes, (self.standing(s) or {}).get("signed") or None,
+                                self.diagnosis.thresholds, self.diagnosis.controls_outside(s))
         return sorted(own, key=lambda code: SEVERITY[code] != "stop")

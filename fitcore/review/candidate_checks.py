@@ -135,3 +135,16 @@ def standing_codes(codes, cand: dict | None, snapshot: dict | None, price, lo, h
     says whether another candidate stands (not where the decision is stale: signed on other data)."""
     checks = record_checks(cand, snapshot, price, lo, hi, codes, thresholds)
     return codes_for_another(codes, None if checks is None else checks.codes), checks is not None
+
+
+def standing_codes_in(results: Results, s: int, model: str, codes, snapshot: dict | None, thresholds: Thresholds,
+                      controls_outside: bool) -> list[str]:
+    """``standing_codes`` of series ``s`` of ``Results`` where ``model`` (not the proposal) stands: the results'
+    candidate of that name as the override dialog checks it (``candidate_checks``), else (a model these results
+    did not fit) the decision's ``signed`` ``snapshot``'s curve; ``codes``: the proposal's, in any order."""
+    if model in results.names:
+        checks = candidate_checks(results, s, results.names.index(model), thresholds, controls_outside)
+        return codes_for_another(codes, checks.codes)
+    price = float(results.plan_price[s])
+    return standing_codes(codes, None, snapshot, price if math.isfinite(price) else None, float(results.price_lo[s]),
+                          float(results.price_hi[s]), thresholds)[0]

@@ -83,23 +83,16 @@ def _flag_cell(signoff: Signoff, s: int) -> str:
 
 def standing_codes_of(signoff: Signoff, s: int, codes: list[str]) -> list[str] | None:
     """The flag codes of series ``s`` where an override stands on its data (not stale): its own curve's
-    (``candidate_checks.standing_codes``, as ``ledger export`` writes them) in place of the proposal's
+    (``candidate_checks.standing_codes_in``, as ``ledger export`` writes them) in place of the proposal's
     ``codes``; None where no override stands (the proposal's codes are the row's)."""
-    from fitcore.review.candidate_checks import candidate_checks, codes_for_another, standing_codes
+    from fitcore.review.candidate_checks import standing_codes_in
     current = signoff.standing(s) or {}
-    if STATUSES[signoff.status[s]] != "overridden" or not current.get("model"):
-        return None
     results, diagnosis = signoff.results, signoff.diagnosis
     proposal = results.names[results.chosen[s]] if results.chosen[s] >= 0 else None
-    if current["model"] == proposal:
+    if STATUSES[signoff.status[s]] != "overridden" or current.get("model") in (None, proposal):
         return None
-    if current["model"] in results.names:  # the results' candidate, as the override dialog checks it
-        checks = candidate_checks(results, s, results.names.index(current["model"]), diagnosis.thresholds,
-                                  diagnosis.controls_outside(s))
-        return codes_for_another(codes, checks.codes)
-    price = float(results.plan_price[s])  # a model these results did not fit: the signed curve
-    return standing_codes(codes, None, current.get("signed") or None, price if math.isfinite(price) else None,
-                          float(results.price_lo[s]), float(results.price_hi[s]), diagnosis.thresholds)[0]
+    return standing_codes_in(results, s, current["model"], codes, current.get("signed") or None,
+                             diagnosis.thresholds, diagnosis.controls_outside(s))
 
 
 # What a stop flag cautions, beside its code where a reader of the table would otherwise see a code alone (the
