@@ -232,6 +232,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         elif replaced[0]:  # the fit tested a decision that no longer stands: its numbers and shifted flag left out
             lines.append("  the backtest in these results tested a decision that no longer stands: not shown (fit "
                          "again with --ledger to test what stands)")
+        if record.get("plan"):  # one series in full, as without --ledger (whether --flag or a filter picked it)
+            from fitcore.review.plan_words import caution_of
+            lines += ["", caution_of((header or {}).get("settings") or {})]
         return "\n".join(lines)
     state_of = {id(record): ledger_state(record, book, short=True, fitted=fitted) for record in shown}
     # a stale series ranks as the screen ranks it: its 'stale' one stop flag more
@@ -268,8 +271,6 @@ def standing_flags(record: dict, book, thresholds, full=None) -> tuple[list[dict
     sentence; ``checked`` false where no curve could be checked.  ``thresholds()``: the fit's; ``full()``: the
     whole record where ``record`` holds no candidates.  None where no override stands (accepted, pending, held,
     or stale: signed on other data, the results' flags are of this cycle's proposal)."""
-    from fitcore.review.candidate_checks import standing_codes
-    from fitcore.review.flags import SEVERITY
     history = book.histories.get(series_id(record["key"]))
     if history is None or history.status(record["fingerprint"]) != "overridden":
         return None
@@ -277,6 +278,8 @@ def standing_flags(record: dict, book, thresholds, full=None) -> tuple[list[dict
     model = current.get("model")
     if not model or model == record["chosen"]:
         return None
+    from fitcore.review.candidate_checks import standing_codes  # its curves' loops: with the first override
+    from fitcore.review.flags import SEVERITY
     whole = record if "candidates" in record or full is None else full()
     cand = next((c for c in whole.get("candidates") or () if c["name"] == model), None)
     lo, hi = whole.get("price_range") or (None, None)
