@@ -25,6 +25,7 @@ def _listed(capsys, results, book, *more) -> dict[str, list[str]]:
     lines = capsys.readouterr().out.splitlines()
     if not lines[0].startswith("series "):
         own = next(line for line in lines if line.startswith("  flags of "))
+        assert "the analyst decides" in lines[-1]  # the caution of one series in full, however it was picked
         return {lines[0].split(" — ")[0]: own.split(": ", 1)[1].split()}
     out = {}
     for line in lines[1:]:
