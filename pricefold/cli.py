@@ -189,13 +189,17 @@ def _show(args, keys: dict) -> int:
     products = EitherForm(args.product)  # either Unicode form, or as shown, as ledger show and the screen's search
     typed, keys = keys, {name: EitherForm([value]) for name, value in keys.items()}
     every = cache(lambda: list(results_keys(args.results)))  # every series' key, read once if a hint or note needs it
+    # with --ledger, --flag picks by the flags shown: an override's are its own curve's (``show_with_ledger``)
+    flag = None if args.ledger is not None else args.flag
+    full = None
     if is_columnar(args.results):  # column by column, a record only for one series shown in full
-        header, listed = listed_series(args.results, products, keys, args.flag)
+        header, listed = listed_series(args.results, products, keys, flag)
         picked = [listed.record(0)] if len(listed) == 1 else listed.records
+        full = listed.record  # an override's candidates, for its own flags
     else:
         from fitcore.results.read import results_in_parts
         header, parts = results_in_parts(args.results, products, keys)  # filtered as read
-        picked = [record for series in parts for record in select(series, products, keys, args.flag)]
+        picked = [record for series in parts for record in select(series, products, keys, flag)]
     if not picked:
         columns = header.get("settings", {}).get("columns") or {}
         names = [columns["product"], *columns.get("segments", [])] if columns.get("product") else []
@@ -219,14 +223,14 @@ def _show(args, keys: dict) -> int:
         shown = show_with_ledger(picked, args.ledger, binary, header, args.results,
                                  whole=not (args.product or keys or args.flag),
                                  within=None if args.flag else lambda key: within(key, header, products, keys),
-                                 first=first, flag=args.flag)
+                                 first=first, flag=args.flag, full=full)
         if shown is None:  # the flag picked only series whose flag is left out: said why
             return 1
         print(shown)
     else:
         print(detail(picked[0], binary, one_label(every, picked[0]["key"]), weight) if len(picked) == 1
               else table(picked, first))
-    if len(picked) == 1 and picked[0].get("plan"):
+    if args.ledger is None and len(picked) == 1 and picked[0].get("plan"):  # with --ledger: ``show_with_ledger``'s
         from fitcore.review.plan_words import caution_of
         print(f"\n{caution_of(header.get('settings') or {})}")
     if args.product or typed:  # a look-alike is another series: said, not listed with it

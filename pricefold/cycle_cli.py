@@ -6,6 +6,7 @@ The numbers come from ``fitcore.ledger.backtest``; the ledger is read through th
 from __future__ import annotations
 
 import sys
+from functools import lru_cache
 from pathlib import Path
 
 from fitcore.data.keys import SEPARATOR
@@ -13,6 +14,7 @@ from fitcore.ledger.due import CHANGED_DUE, CHANGED_DUE_SHORT, changed_since_fit
 from fitcore.ledger.elsewhere import HEAD_GONE_TAIL, backtested_elsewhere, head_gone, without_backtest
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, what_stands
+from fitcore.review.thresholds import recorded_thresholds
 from fitcore.text import clean, told_apart
 
 from .ledger_cli import key_mismatch, meets, open_ledger, say_missing
@@ -116,7 +118,7 @@ def _minute(record: dict) -> str:
 
 def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: dict | None = None,
                      results: Path | None = None, whole: bool = True, within=None, first=None,
-                     flag: str | None = None) -> str | None:
+                     flag: str | None = None, full=None) -> str | None:
     """``pricefold show --ledger``: one series in full with its ledger state and backtest, or a list.  Results
     (``header``, from the file ``results``) keyed by other columns than the ledger's series, or (``whole``:
     ``records`` are every series of the results, no filter) sharing none of them: a warning line on
@@ -126,15 +128,19 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     ``whole``, counts none).  Series that look like the ledger's under another spelling are marked
     (``≈North`` where the flags begin; a series in full says which it looks like) and their keys told apart from
     the ledger's spelling (``East⟨U+0020⟩``), filtered or not, as on the screen.  ``first``: a record's rank
-    ahead of the attention order (``show.in_attention_order``).  ``flag``: ``--flag``'s code, the records
-    having been picked by the flags the results hold: those still shown keep a record (a ``shifted`` left out
-    does not); None, said why on stderr, when none does."""
+    ahead of the attention order (``show.in_attention_order``).  A series an override stands on (not stale) is
+    listed, ranked and picked by its own curve's flags (``standing_flags``), not its proposal's; ``full(i)``:
+    the whole record of ``records[i]`` where they hold no candidates (a Parquet list).  ``flag``: ``--flag``'s
+    code, kept by the flags shown (the records not picked by it beforehand); None, said why on stderr, when
+    none is kept."""
     from fitcore.ledger.missing import missing_from
     from fitcore.results.series_columns import results_keys
     from fitcore.review.sentences import shift_sentence
 
     from .show import detail, in_attention_order, key_cells
     book = open_ledger(ledger_path, must_exist=True)
+    # whether the results' flags (before any is left out below) name ``flag``: else the filter matches nothing
+    raised = flag is not None and any(f["code"] == flag for record in records for f in record["flags"])
     like: dict[str, dict] = {}  # series id → the ledger series it looks like
     beside: list[tuple[str, ...]] = []  # the missing signed series' keys as shown: told apart from the list's
     foreign = None  # "RESULTS: backtested against L, not THIS": their backtest left out
@@ -169,17 +175,36 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     fitted = header is not None and bool(header.get("ledger")) and not foreign  # what the fit read: this ledger
     replaced = [superseded(record, book) for record in records]
     records = [without_backtest(record) if gone else record for record, gone in zip(records, replaced)]
-    if flag is not None:  # listed by what is shown: a flag left out above picks nothing
-        kept = [i for i, record in enumerate(records) if any(f["code"] == flag for f in record["flags"])]
+    thresholds = lru_cache(lambda: recorded_thresholds(((header or {}).get("settings") or {}).get("thresholds"),
+                                                       results))  # the fit's, as the export judges by
+    standing = [standing_flags(record, book, thresholds, (lambda i=i: full(i)) if full else None)
+                for i, record in enumerate(records)]
+    unchecked = sum(not checked for _, checked in filter(None, standing))
+    if unchecked:  # as the export warns
+        print(f"pricefold show: {results}: warning: {unchecked:,} series stand on another model than the proposal "
+              "whose curve neither these results nor the decision hold: their flags cannot say rising or below-zero",
+              file=sys.stderr)
+    shown = [record if mine is None else {**record, "flags": mine[0]} for record, mine in zip(records, standing)]
+    if flag is not None:  # listed by what is shown: a flag left out above, or a proposal's, picks nothing
+        kept = [i for i, record in enumerate(shown) if any(f["code"] == flag for f in record["flags"])]
         if not kept:
-            why = ("speak of another ledger's signed curves" if foreign else
-                   "tested decisions that no longer stand")
-            print(f"pricefold show: no series listed: the '{flag}' flags of {results} {why}, and are left out "
-                  f"(fit again with --ledger {ledger_path})", file=sys.stderr)
+            if not raised:
+                print(f"pricefold show: no series in {results} matches", file=sys.stderr)
+            elif any(f["code"] == flag for record in records for f in record["flags"]):
+                print(f"pricefold show: no series listed: the '{flag}' flags of {results} are of proposals that an "
+                      "override replaced with a curve not carrying it", file=sys.stderr)
+            else:
+                why = ("speak of another ledger's signed curves" if foreign else
+                       "tested decisions that no longer stand")
+                print(f"pricefold show: no series listed: the '{flag}' flags of {results} {why}, and are left out "
+                      f"(fit again with --ledger {ledger_path})", file=sys.stderr)
             return None
         records, replaced = [records[i] for i in kept], [replaced[i] for i in kept]
+        shown, standing = [shown[i] for i in kept], [standing[i] for i in kept]
+        if len(kept) == 1 and full is not None and "candidates" not in records[0]:  # in full: its whole record
+            records = [without_backtest(full(kept[0])) if replaced[0] or foreign else full(kept[0])]
     if len(records) == 1:
-        record = records[0]
+        record = records[0]  # in full: the results' proposal, the override's own flags said apart below
         status, needs = ledger_state(record, book, fitted=fitted)
         shown = looks_shown([record], like) or {0: told_apart([key_parts(record["key"])], beside)[0]}
         label = SEPARATOR.join(shown[0])
@@ -196,6 +221,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             lines += ["  " + line for line in
                       stands_words(record, stands, current if current["action"] == "carry" else None,
                                    current.get("signed"))]
+            if standing[0] is not None:  # an override: its curve's flags, beside the proposal's above
+                codes = " ".join(f["code"] for f in standing[0][0]) or "none"
+                lines.append(f"  flags of {clean(str(current['model']))} (the flags above are the proposal's): {codes}")
         elif history is not None and history.current is not None and history.current["action"] == "carry":
             lines.append(f"  {what_stands(history.current, history.carried)}")  # who carried, whose accept
         if record.get("backtest"):
@@ -204,10 +232,13 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         elif replaced[0]:  # the fit tested a decision that no longer stands: its numbers and shifted flag left out
             lines.append("  the backtest in these results tested a decision that no longer stands: not shown (fit "
                          "again with --ledger to test what stands)")
+        if record.get("plan"):  # one series in full, as without --ledger (whether --flag or a filter picked it)
+            from fitcore.review.plan_words import caution_of
+            lines += ["", caution_of((header or {}).get("settings") or {})]
         return "\n".join(lines)
-    state_of = {id(record): ledger_state(record, book, short=True, fitted=fitted) for record in records}
+    state_of = {id(record): ledger_state(record, book, short=True, fitted=fitted) for record in shown}
     # a stale series ranks as the screen ranks it: its 'stale' one stop flag more
-    ordered = in_attention_order(records, first, stale=[state_of[id(record)][0] == "stale" for record in records])
+    ordered = in_attention_order(shown, first, stale=[state_of[id(record)][0] == "stale" for record in shown])
     labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like), beside=beside)
     states = [state_of[id(record)] for record in ordered]
     newer = sum(needs == NEWER_DUE_SHORT for _, needs in states)
@@ -231,6 +262,31 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         lines.append(f"{label} {record['n']:>5} {model:<7} "
                      f"{status:<20} {needs or '—':<{wide}} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)
+
+
+def standing_flags(record: dict, book, thresholds, full=None) -> tuple[list[dict], bool] | None:
+    """``(flags, checked)`` of a series where an override stands on its data (overridden, carried or not): the
+    flags its own curve carries, as ``ledger export`` writes them (``candidate_checks.standing_codes``) — the
+    series' own and the proposal's kept with their sentences, the curve's checks added with its severity and no
+    sentence; ``checked`` false where no curve could be checked.  ``thresholds()``: the fit's; ``full()``: the
+    whole record where ``record`` holds no candidates.  None where no override stands (accepted, pending, held,
+    or stale: signed on other data, the results' flags are of this cycle's proposal)."""
+    history = book.histories.get(series_id(record["key"]))
+    if history is None or history.status(record["fingerprint"]) != "overridden":
+        return None
+    current = history.current
+    model = current.get("model")
+    if not model or model == record["chosen"]:
+        return None
+    from fitcore.review.candidate_checks import standing_codes  # its curves' loops: with the first override
+    from fitcore.review.flags import SEVERITY
+    whole = record if "candidates" in record or full is None else full()
+    cand = next((c for c in whole.get("candidates") or () if c["name"] == model), None)
+    lo, hi = whole.get("price_range") or (None, None)
+    had = {f["code"]: f for f in record["flags"]}
+    codes, checked = standing_codes(list(had), cand, current.get("signed") or None,
+                                    (whole.get("plan") or {}).get("price"), lo, hi, thresholds())
+    return [had.get(code) or {"code": code, "severity": SEVERITY[code], "message": ""} for code in codes], checked
 
 
 def show_missing(results: Path, header: dict, ledger_path: Path, within) -> None:

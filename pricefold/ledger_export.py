@@ -12,8 +12,8 @@ results' plan price (``_signed_at_price`` where it is another price).  Other row
 
 ``flags`` holds the results' codes, which judge the proposal; a row standing on another candidate (not
 ``stale``) has that candidate's own shape and range checks instead, as the override dialog shows them
-(``standing_checks``: the screen's ``curve_checks``), and none of the codes of the proposal's fit alone
-(``candidate_checks.codes_for_another``).  Parquet results give those few candidates' curves from the row
+(``candidate_checks.standing_codes``, as ``show --ledger`` and the report: the screen's ``curve_checks``), and
+none of the codes of the proposal's fit alone.  Parquet results give those few candidates' curves from the row
 groups holding them (``_with_basis``), so an export with no override reads nothing more.
 """
 from __future__ import annotations
@@ -85,7 +85,7 @@ def run_export(args) -> int:
     later: list[tuple] = []  # (row, key, snapshot, price, the results' numbers): signed curves at another price
     from fitcore.collector import collector_paused
     from fitcore.ledger.snapshot import signed_plan
-    from fitcore.review.candidate_checks import codes_for_another
+    from fitcore.review.candidate_checks import standing_codes
     from fitcore.review.thresholds import recorded_thresholds
     thresholds = lru_cache(lambda: recorded_thresholds((header.get("settings") or {}).get("thresholds"),
                                                        args.results))  # the fit's, as the screen judges by
@@ -129,9 +129,10 @@ def run_export(args) -> int:
                         later.append((len(rows), key, snapshot, plan["price"], at_plan))
                     at_plan = {}
             if status != "stale" and model and model != chosen:  # another candidate stands: its own flags
-                checks = standing_checks(cand, snapshot, plan.get("price"), seen, thresholds())
-                unchecked += checks is None
-                seen = Seen(seen.lo, seen.hi, codes_for_another(seen.codes, checks))
+                codes, checked = standing_codes(seen.codes, cand, snapshot, plan.get("price"), seen.lo, seen.hi,
+                                                thresholds())
+                unchecked += not checked
+                seen = Seen(seen.lo, seen.hi, codes)
             rows.append([*map(str, key.values()), status, model or "", family, coef, _number(smearing),
                          current["analyst"] if current else "", current["at"] if current else "",
                          current.get("note", "") if current else "", _number(plan.get("price")),
@@ -199,36 +200,6 @@ class Seen:
         else:
             inside = "true" if self.lo <= price <= self.hi and "outside-range" not in self.codes else "false"
         return [inside, " ".join(self.codes)]
-
-
-def standing_checks(cand: dict | None, snapshot: dict | None, price, seen: Seen, thresholds) -> tuple[str, ...] | None:
-    """The codes ``candidate_checks`` gives (the screen's override dialog) for the curve a row stands on where it
-    is another candidate than the proposal: the results' candidate in its basis (``basis``, as a JSON results
-    file holds it; ``_with_basis`` for Parquet), else the signed snapshot's curve (a model these results do not
-    hold), at the row's plan ``price``, by the fit's ``thresholds``; None where neither holds a curve.  Whether a
-    control's plan value lies outside the series' is the same for every candidate: the proposal's
-    ``outside-range`` where the plan price is not."""
-    import numpy as np
-
-    from fitcore.fit.families import BY_NAME
-    from fitcore.review.candidate_checks import curve_checks
-    if cand and cand.get("basis"):
-        family, basis, smearing, volume = cand["family"], cand["basis"], cand.get("smearing"), cand.get("plan_volume")
-    elif snapshot and (snapshot.get("basis") or {}).get("coef"):
-        family, basis, smearing, volume = snapshot["family"], snapshot["basis"], snapshot.get("smearing"), None
-    else:
-        return None
-    kind = BY_NAME[family]
-    coef = np.asarray(basis["coef"], dtype=float)
-    smear = (1.0 if smearing is None else float(smearing)) if kind.smeared else math.nan  # as ``stored`` reads it
-    planned = price is not None
-    if planned and volume is None:  # the signed curve at this plan price
-        volume = float(kind.curve(coef, basis["mid"], basis["half"], smear, np.array([float(price)]))[0])
-    lo, hi = (math.nan if seen.lo is None else seen.lo), (math.nan if seen.hi is None else seen.hi)
-    price_outside = planned and not lo <= price <= hi
-    return curve_checks(kind, coef, basis["mid"], basis["half"], smear, lo, hi, float(price) if planned else math.nan,
-                        math.nan if volume is None else float(volume), thresholds,
-                        "outside-range" in seen.codes and not price_outside).codes
 
 
 def seen_in(record: dict) -> Seen:
@@ -344,7 +315,7 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
                             **({name: cells[name][j] for name in PLAN_FIELDS} if priced else {})}
         ranges = [columns.values(name, 0, every) for name in ("price_lo", "price_hi")]
         another = [s for s in found.tolist() if models[s] != chosen[s] and cands[s]["coef"]]
-        if another:  # their curves checked as the screen checks them (``standing_checks``): in their basis
+        if another:  # their curves checked as the screen checks them (``standing_codes``): in their basis
             _with_basis(part, columns, another, at, cands, ranges)
         # the plan: from the last row of a series marked chosen that has a plan price (as the record reader)
         marked = (numbers(columns.table.column("is_chosen").combine_chunks()) == 1) & \

@@ -394,8 +394,9 @@ class TriageSession(Deciding, Standing, ListState):
         codes = [code for i, code in enumerate(CODES) if self.diagnosis.raised[s, i]]
         return sorted(codes, key=lambda code: SEVERITY[code] != "stop")
 
-    def severity(self, s: int) -> str | None:
-        codes = self.flag_codes(s)
+    def severity(self, s: int, codes: list[str] | None = None) -> str | None:
+        """The worst of series ``s``'s flags (``codes``, stop first: else the results' ``flag_codes``)."""
+        codes = self.flag_codes(s) if codes is None else codes
         return None if not codes else "stop" if SEVERITY[codes[0]] == "stop" else "warn"
 
     def counts(self) -> dict[str, int]:

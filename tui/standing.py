@@ -2,7 +2,8 @@
 signed series whose data changed is due (no widget).
 
 A mixin of ``TriageSession``, which gives it ``results``, ``keys``, ``status``, ``status_code``, ``histories``,
-``backtest``, ``_id``, ``result_flags``, ``last_date`` and ``accepted_other_mask`` (kept by ``mark_accepted_other``).
+``backtest``, ``_id``, ``result_flags``, ``flag_codes``, ``diagnosis``, ``last_date`` and ``accepted_other_mask``
+(kept by ``mark_accepted_other``).
 """
 from __future__ import annotations
 
@@ -164,3 +165,18 @@ class Standing:
         # the score of the model that stands: an override's own Q², not the proposal's
         score = results.q2[s, model] if 0 <= model != results.chosen[s] else results.score[s]
         return name, float(score)
+
+    def listed_flags(self, s: int) -> list[str]:
+        """The list's flags of series ``s``, stop flags first: where an override stands on its data (not stale), its
+        own curve's — the override dialog's checks (``candidate_checks``) read for that candidate, as ``ledger
+        export`` and ``show --ledger`` give them; else the results' (``flag_codes``: a pending series', an accept's,
+        and beside ``proposes`` an accept of another fit's proposal)."""
+        codes = self.flag_codes(s)
+        name = self._standing_name(s) if self.status[s] == "overridden" else None
+        chosen = int(self.results.chosen[s])
+        if name is None or (chosen >= 0 and name == self.results.names[chosen]):
+            return codes
+        from fitcore.review.candidate_checks import standing_codes_in
+        own = standing_codes_in(self.results, s, name, codes, (self.standing(s) or {}).get("signed") or None,
+                                self.diagnosis.thresholds, self.diagnosis.controls_outside(s))
+        return sorted(own, key=lambda code: SEVERITY[code] != "stop")

@@ -4,8 +4,10 @@
 override wants the same checks for the curve they are about to pick.  This evaluates
 one candidate as ``diagnose`` does: where it rises exactly (``rising``), its lowest volume
 through its family's curve on a fine grid over the observed prices.  ``curve_checks`` does it for a
-curve given by its numbers (``ledger export``, from a results file), ``candidate_checks`` for a
-candidate of ``Results`` (the override dialog): one computation for both.
+curve given by its numbers, ``candidate_checks`` for a candidate of ``Results`` (the override dialog): one
+computation for both.  ``standing_codes`` gives the flags of a series where another candidate than the proposal
+stands (an override), from a results record's candidate or the decision's signed curve: what ``ledger export``,
+``show --ledger`` and the report say of it.
 """
 from __future__ import annotations
 
@@ -94,3 +96,55 @@ def codes_for_another(codes, checked: tuple[str, ...] | None) -> list[str]:
     kept = set(codes) & set(OF_THE_SERIES)
     kept |= set(checked) if checked is not None else set(codes) & {"outside-range"}
     return [code for code in CODES if code in kept]
+
+
+def record_checks(cand: dict | None, snapshot: dict | None, price, lo, hi, codes, thresholds: Thresholds
+                  ) -> CandidateChecks | None:
+    """``curve_checks`` of the curve a series stands on where it is another candidate than the proposal: the
+    results record's candidate ``cand`` in its basis (``basis``, as a JSON results file holds it), else the
+    decision's ``signed`` snapshot's curve (a model these results do not hold), at the plan ``price`` (None:
+    none) over the observed prices [``lo``, ``hi``] (None: unknown), by the fit's ``thresholds``; None where
+    neither holds a curve.  Whether a control's plan value lies outside the series' is the same for every
+    candidate: the proposal's ``outside-range`` (in its ``codes``) where the plan price is not outside."""
+    from ..fit.families import BY_NAME
+    if cand and cand.get("basis"):
+        family, basis, smearing, volume = cand["family"], cand["basis"], cand.get("smearing"), cand.get("plan_volume")
+    elif snapshot and (snapshot.get("basis") or {}).get("coef"):
+        family, basis, smearing, volume = snapshot["family"], snapshot["basis"], snapshot.get("smearing"), None
+    else:
+        return None
+    kind = BY_NAME[family]
+    coef = np.asarray(basis["coef"], dtype=float)
+    smear = (1.0 if smearing is None else float(smearing)) if kind.smeared else math.nan  # as ``stored`` reads it
+    planned = price is not None
+    if planned and volume is None:  # the signed curve at this plan price
+        volume = float(kind.curve(coef, basis["mid"], basis["half"], smear, np.array([float(price)]))[0])
+    lo, hi = (math.nan if lo is None else lo), (math.nan if hi is None else hi)
+    price_outside = planned and not lo <= price <= hi
+    return curve_checks(kind, coef, basis["mid"], basis["half"], smear, lo, hi, float(price) if planned else math.nan,
+                        math.nan if volume is None else float(volume), thresholds,
+                        "outside-range" in codes and not price_outside)
+
+
+def standing_codes(codes, cand: dict | None, snapshot: dict | None, price, lo, hi, thresholds: Thresholds
+                   ) -> tuple[list[str], bool]:
+    """``(codes, checked)``: the flag codes a series carries where another candidate than its proposal stands —
+    the proposal's ``codes`` read for that candidate (``codes_for_another``) with its curve's own checks
+    (``record_checks``, whose arguments these are); ``checked`` false where no curve could be checked (the
+    results hold none of it, nor does the decision: ``rising`` and ``below-zero`` cannot be said).  The caller
+    says whether another candidate stands (not where the decision is stale: signed on other data)."""
+    checks = record_checks(cand, snapshot, price, lo, hi, codes, thresholds)
+    return codes_for_another(codes, None if checks is None else checks.codes), checks is not None
+
+
+def standing_codes_in(results: Results, s: int, model: str, codes, snapshot: dict | None, thresholds: Thresholds,
+                      controls_outside: bool) -> list[str]:
+    """``standing_codes`` of series ``s`` of ``Results`` where ``model`` (not the proposal) stands: the results'
+    candidate of that name as the override dialog checks it (``candidate_checks``), else (a model these results
+    did not fit) the decision's ``signed`` ``snapshot``'s curve; ``codes``: the proposal's, in any order."""
+    if model in results.names:
+        checks = candidate_checks(results, s, results.names.index(model), thresholds, controls_outside)
+        return codes_for_another(codes, checks.codes)
+    price = float(results.plan_price[s])
+    return standing_codes(codes, None, snapshot, price if math.isfinite(price) else None, float(results.price_lo[s]),
+                          float(results.price_hi[s]), thresholds)[0]

@@ -21,11 +21,10 @@ import pytest
 from numpy.polynomial import Polynomial
 
 from fitcore import ledger
-from fitcore.review.candidate_checks import CHECKED, OF_THE_SERIES, PROPOSAL_ONLY, codes_for_another
+from fitcore.review.candidate_checks import CHECKED, OF_THE_SERIES, PROPOSAL_ONLY, codes_for_another, record_checks
 from fitcore.review.flags import CODES
 from fitcore.review.thresholds import Thresholds
 from pricefold.cli import main
-from pricefold.ledger_export import Seen, standing_checks
 from tests.fitcore.ledger_support import ANA
 
 PLAN_PRICE = 2.4
@@ -195,10 +194,10 @@ def test_a_signed_curve_not_in_the_results_is_checked_as_the_candidate_would_be(
     for record, model in run.cases.values():
         cand = next(c for c in record["candidates"] if c["name"] == model)
         snapshot = {"family": cand["family"], "basis": cand["basis"], "smearing": cand.get("smearing")}
-        seen = Seen(*record["price_range"], _codes(record))
-        made = standing_checks(cand, None, PLAN_PRICE, seen, Thresholds())
-        assert standing_checks(None, snapshot, PLAN_PRICE, seen, Thresholds()) == made
-        assert standing_checks(None, None, PLAN_PRICE, seen, Thresholds()) is None
+        seen = (*record["price_range"], _codes(record))
+        made = record_checks(cand, None, PLAN_PRICE, *seen, Thresholds()).codes
+        assert record_checks(None, snapshot, PLAN_PRICE, *seen, Thresholds()).codes == made
+        assert record_checks(None, None, PLAN_PRICE, *seen, Thresholds()) is None
         said.update(made)
     assert {"rising", "below-zero"} <= said  # the curves compared say something
 

@@ -203,7 +203,8 @@ class SeriesList(ScrollView, can_focus=True):
         status = session.status[s]
         name, score = session.listed_model(s)  # the model that stands (a stale series': the one signed)
         score_text = percent(score)
-        severity = session.severity(s)
+        flags = session.listed_flags(s)  # an override's: its own curve's
+        severity = session.severity(s, flags)
         mark_style = DONE if status in ("accepted", "overridden") else STOP if status == "stale" else DIM
         segments = [
             Segment(f"{STATUS_MARK[status]} ", mark_style),
@@ -220,7 +221,7 @@ class SeriesList(ScrollView, can_focus=True):
             spelled = session.spellings.differing(s)  # like a ledger series spelled so (``spellings``)
             lead = cut(f"≈{spelled} ", flags_w) if spelled is not None else lead
             rest = flags_w - cell_len(lead)
-            segments += [Segment(lead, WARN), Segment(pad(short_flags(session.flag_codes(s), rest)
+            segments += [Segment(lead, WARN), Segment(pad(short_flags(flags, rest)
                                                           or ("" if lead else "—"), rest), flag_style)]
         return Strip(segments).crop(0, width).extend_cell_length(width)
 
