@@ -87,6 +87,10 @@ async def test_the_override_dialog_shows_every_candidate_as_pricefold_show_does(
         for cand in record["candidates"]:
             if cand["available"]:
                 assert rows[cand["name"]].volume == fmt(cand["plan_volume"])
+        # a flat curve's elasticity is its shape's, not a measurement: said so, not 0.00 beside measured ones
+        flat = next(cand for cand in record["candidates"] if cand["name"] == "poly0")
+        assert flat["available"] and flat["plan_volume"] > 0 and rows["poly0"].elasticity == "flat"
+        assert all(row.elasticity != "flat" for name, row in rows.items() if name != "poly0")
         # each candidate's own flags: the proposal's are the series' shape and range flags
         assert set(proposed.flags) == {f["code"] for f in record["flags"]} & {"rising", "below-zero", "outside-range"}
         assert options.get_option_at_index(options.highlighted).id == runner  # as moved to by override_lemons

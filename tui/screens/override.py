@@ -63,9 +63,15 @@ def candidate_rows(results: Results, s: int, diagnosis: Diagnosis) -> list[Candi
             q2=percent(results.q2[s, c]),
             volume=fmt(results.plan_volume[s, c]) if planned else "—",
             interval=f"{fmt(results.plan_lo[s, c])} to {fmt(results.plan_hi[s, c])}" if planned else "—",
-            elasticity=two_places(results.plan_elasticity[s, c]) if planned and results.plan_volume[s, c] > 0 else "—",
+            elasticity=_elasticity(results, s, c) if planned and results.plan_volume[s, c] > 0 else "—",
             flags=candidate_checks(results, s, c, thresholds, outside).codes, proposed=c == results.chosen[s]))
     return rows
+
+
+def _elasticity(results: Results, s: int, c: int) -> str:
+    """A candidate's elasticity at the plan price; a flat curve's 'flat': its 0 is the model's choice, not a
+    measurement (the dialog showed 0.00 beside measured ones; the evidence pane, show and the report say so)."""
+    return "flat" if results.candidates[c].degree == 0 else two_places(results.plan_elasticity[s, c])
 
 
 def _cells(row: CandidateRow) -> tuple[str, ...]:
