@@ -98,7 +98,7 @@ def elasticity(x, volume=None, varied: bool = True, flat: bool = False) -> str:
         return '<span title="no elasticity: the volume is at or below zero">n/a</span>'
     if flat:
         return ('<span title="a flat curve: its 0 is the model\'s choice (no price term), not a measurement">'
-                "0 (flat: not measured)</span>")
+                "flat</span>")
     if x is None or not math.isfinite(float(x)):
         return "n/a"
     return two_places(float(x)).replace("-", "−")
