@@ -265,9 +265,10 @@ def strict_or_foreign(rejects, earlier, strict: bool, columns) -> None:
 def zero_price_line(data, path: Path, column: str) -> str:
     """A warning when some kept rows have a price of 0 (a price is checked for being a number and not
     negative: a polynomial can use 0, and exact reference data sets put x = 0 through the command), as a
-    missing price written as 0 would be: how many rows in how many series, and what it does to the fit."""
+    missing price written as 0 would be: how many rows in how many series, and what it does to the fit.  Rows
+    of weight 0 are not counted: they are no observation, and no curve is made unavailable by them."""
     import numpy as np
-    zero = np.flatnonzero(data.price == 0)
+    zero = np.flatnonzero((data.price == 0) & (True if data.weight is None else data.weight > 0))
     if not len(zero):
         return ""
     series = len(np.unique(np.searchsorted(data.offsets, zero, side="right")))

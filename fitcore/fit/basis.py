@@ -64,8 +64,8 @@ def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low, x_low):
     """Per series: price window [lo, hi] over its rows of positive weight (every row unweighted, or where
     none weighs more than 0: that series has no model), x mapped onto it (0 for a single price; a row of
     weight 0 priced outside it held at its edge, −1 or 1: it counts in no sum), y less its weighted ``mean``,
-    the smallest y and the smallest x over every row.  Series with ``use[s]`` False (when ``use`` is not empty)
-    get zeros throughout."""
+    the smallest y and the smallest x of those rows (every row's where none weighs more than 0).  Series with
+    ``use[s]`` False (when ``use`` is not empty) get zeros throughout."""
     weighted = len(w) > 0
     restricted = len(use) > 0
     for s in range(len(offsets) - 1):
@@ -81,21 +81,24 @@ def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low, x_low):
         every_small = np.inf
         every_large = -np.inf
         least = np.inf
+        every_least = np.inf
         total_w = 0.0
         total_wy = 0.0
         for i in range(start, stop):
             wi = w[i] if weighted else 1.0
             every_small = min(every_small, x[i])
             every_large = max(every_large, x[i])
+            every_least = min(every_least, y[i])
             if wi > 0:  # a row of weight 0 is no observation: the window is the observed prices'
                 small = min(small, x[i])
                 large = max(large, x[i])
-            least = min(least, y[i])
-            total_w += wi
-            total_wy += wi * y[i]
+                least = min(least, y[i])
+                total_w += wi
+                total_wy += wi * y[i]
         if not small <= large:  # no row of positive weight (or a NaN weight): every row's
             small = every_small
             large = every_large
+            least = every_least
         mid = (small + large) / 2
         half = (large - small) / 2
         average = total_wy / (total_w if total_w > 0 else 1.0)
@@ -109,7 +112,7 @@ def window_rows(x, y, w, offsets, use, t, centred, lo, hi, mean, y_low, x_low):
         hi[s] = large
         mean[s] = average
         y_low[s] = least
-        x_low[s] = every_small
+        x_low[s] = small
 
 
 @compiled(inline=True)

@@ -35,6 +35,16 @@ def observed(weight: np.ndarray | None, offsets: np.ndarray) -> np.ndarray | Non
     return (weight > 0) | np.repeat(weighed_counts(weight, offsets) == 0, np.diff(offsets))
 
 
+def idle_positive(values: np.ndarray, weight: np.ndarray | None) -> np.ndarray:
+    """``values`` (prices or volumes) with those of rows of weight 0 that are not above 0 taken as 1: such a row
+    weighs nothing, but its logarithm enters every sum a log family makes (as 0 × −inf = NaN); a price or volume
+    of 0 there made loglog and semilog unavailable for the whole series (a trial).  The same array where none."""
+    if weight is None or not len(values):
+        return values
+    idle = ~(weight > 0) & ~(values > 0)
+    return np.where(idle, 1.0, values) if idle.any() else values
+
+
 def relative(weight: np.ndarray | None, offsets: np.ndarray) -> np.ndarray | None:
     """(N,) ``weight`` over its series' ``unit`` (None stays None)."""
     if weight is None:

@@ -45,6 +45,13 @@ def test_prices_of_zero_are_counted_with_their_first_line(tmp_path, capsys):
                            f"(the first at line {min(zero)})")
     code, said = fit(capsys, SAMPLE / "wholesale.csv", "-o", tmp_path / "clean.parquet")
     assert code == 0 and not any("price of 0" in text for text in said)
+    # weighted: a row of weight 0 is no observation, and makes no curve unavailable: not counted (it was)
+    for i, row in enumerate(rows):
+        row["w"] = "0" if i == 1400 else "1"
+    data = write(tmp_path / "weighted.csv", rows)
+    code, said = fit(capsys, data, "--weight", "w", "-o", tmp_path / "w.parquet")
+    (line,) = [text for text in said if "price of 0" in text]
+    assert code == 0 and line.startswith(f"{data}, column 'price': {len(zero) - 1} rows in ")
 
 
 def test_a_plan_file_pricing_some_series_is_said(tmp_path, capsys):

@@ -181,3 +181,29 @@ def test_a_row_of_weight_0_far_beyond_a_narrow_window_leaves_every_candidate_fin
     ols = sm.WLS(np.log(volume), sm.add_constant(np.log(price)), weights=np.ones(30)).fit()
     slope = fitcore.fit_batch(with_far, settings, plan_price=np.array([1.0000000005])).plan_elasticity[0, loglog]
     np.testing.assert_allclose(slope, ols.params[1], rtol=1e-4)  # (a slope over a 1e-9 wide range: ill-conditioned)
+
+
+def test_a_row_of_weight_0_at_a_price_or_volume_of_0_leaves_the_log_families_as_they_were():
+    """A weight-0 row of volume 0 (or price 0) made loglog and semilog unavailable ("needs every price and volume
+    above zero") for the whole series, so the proposal, its plan volume and its flags changed for a row that
+    weighs nothing (a trial: loglog 156.5 → poly1 115.6 at the plan price).  Each candidate now equals its fit
+    without the row; the loglog slope against statsmodels WLS of ln volume on ln price over the weighed rows."""
+    import statsmodels.api as sm
+    rng = np.random.default_rng(41)
+    price = 2 + np.arange(40) / 40
+    volume = 800 * price ** -1.3 * rng.lognormal(0, 0.08, 40)
+    settings = fitcore.FitSettings(semilog=True, folds=5)
+
+    def fitted(extra_price, extra_volume):
+        p, v = np.append(price, extra_price), np.append(volume, extra_volume)
+        data = fitcore.from_columns({"product": np.full(len(p), "oak tea", dtype=object)}, p, v,
+                                    weight=np.append(np.ones(40), np.zeros(len(p) - 40)))
+        return fitcore.fit_batch(data, settings, plan_price=np.array([2.5]))
+    alone = fitted([], [])
+    for extra in (([120.0], [0.0]), ([0.0], [50.0]), ([0.0, 3.0], [0.0, 0.0])):
+        with_idle = fitted(*extra)
+        assert with_idle.available[0].all(), extra
+        np.testing.assert_allclose(with_idle.cv_mse[0], alone.cv_mse[0], rtol=1e-12)
+        np.testing.assert_allclose(with_idle.plan_volume[0], alone.plan_volume[0], rtol=1e-12)
+    ols = sm.WLS(np.log(volume), sm.add_constant(np.log(price)), weights=np.ones(40)).fit()
+    np.testing.assert_allclose(alone.plan_elasticity[0, alone.names.index("loglog")], ols.params[1], rtol=1e-9)

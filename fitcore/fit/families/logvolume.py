@@ -21,6 +21,7 @@ from ..loo import lone_effect, loo_residuals
 from ..polyfit import fit_family
 from ..scores import along_folds
 from ..segments import segment_sums
+from ..weights import idle_positive
 from .base import Candidate, Family, Fitted
 
 
@@ -35,8 +36,9 @@ class LogVolume(Family):
 
     def fit(self, ch, candidates) -> Fitted:
         served = self.serves(ch)
+        price, volume = idle_positive(ch.price, ch.weight), idle_positive(ch.volume, ch.weight)
         with np.errstate(divide="ignore", invalid="ignore"):  # rows of series not served: skipped
-            u, z, lo, hi, zbar, _, _ = ch.windowed(self.x(ch.price), np.log(ch.volume), served)
+            u, z, lo, hi, zbar, _, _ = ch.windowed(self.x(price), np.log(volume), served)
         log = fit_family(u, z, ch.weight, ch.lay, (1,), fold_coefficients=True,
                          controls=None if ch.controls is None else ch.controls.z)
         held_out, held_ok, smear, sse = ch.scheme.held_out(self, (ch, u, z, log))
