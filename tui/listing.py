@@ -102,7 +102,7 @@ class ListState:
 
     def _mask(self, name: str, flag: str | None) -> np.ndarray:
         mask = self.status_mask(name)
-        return mask & self.diagnosis.flagged(flag) if flag else mask
+        return mask & self.listed_raised()[:, CODES.index(flag)] if flag else mask
 
     def empty_words(self) -> list[str]:
         """What the list says where it lists nothing: why, and where the series are (the evidence panel, beside
@@ -121,8 +121,9 @@ class ListState:
         out = {name: int(self._mask(name, self.flag_filter).sum()) for name in FILTERS}
         status = self.status_mask(self.filter)
         out["flag:"] = int(status.sum())
+        raised = self.listed_raised()  # (the flags the rows show)
         for i, code in enumerate(CODES):
-            out[f"flag:{code}"] = int(np.count_nonzero(status & self.diagnosis.raised[:, i]))
+            out[f"flag:{code}"] = int(np.count_nonzero(status & raised[:, i]))
         return out
 
     def rebuild_view(self, keep: int | None = None, pin: str | None = None) -> None:

@@ -12,7 +12,7 @@ import math
 import numpy as np
 
 from fitcore.ledger.rules import NEWER_DUE, decided_on_newer
-from fitcore.review.flags import SEVERITY
+from fitcore.review.flags import CODES, SEVERITY
 
 from .ledger_series import CODE, fingerprint_reader
 from .text import clean
@@ -176,7 +176,25 @@ class Standing:
         chosen = int(self.results.chosen[s])
         if name is None or (chosen >= 0 and name == self.results.names[chosen]):
             return codes
-        from fitcore.review.candidate_checks import standing_codes_in
-        own = standing_codes_in(self.results, s, name, codes, (self.standing(s) or {}).get("signed") or None,
-                                self.diagnosis.thresholds, self.diagnosis.controls_outside(s))
-        return sorted(own, key=lambda code: SEVERITY[code] != "stop")
+        known = self.__dict__.setdefault("_own_flags", {})  # each override's checks made once for what it stands on
+        key = (id(self.results), s, name, tuple(codes))
+        if key not in known:
+            from fitcore.review.candidate_checks import standing_codes_in
+            own = standing_codes_in(self.results, s, name, codes, (self.standing(s) or {}).get("signed") or None,
+                                    self.diagnosis.thresholds, self.diagnosis.controls_outside(s))
+            known[key] = sorted(own, key=lambda code: SEVERITY[code] != "stop")
+        return list(known[key])
+
+    def listed_raised(self) -> np.ndarray:
+        """(S, len(CODES)) bool: the flags the list shows of each series (``listed_flags``): the results' flags,
+        an override's rows its own curve's — what the flag filter and its counts go by, so that '⚑ rising' lists
+        the rows that say rising (it picked by the proposal's flags and listed a flat override; a trial)."""
+        raised = self.diagnosis.raised
+        overridden = np.flatnonzero(self.status_code == CODE["overridden"])
+        if not len(overridden):
+            return raised
+        raised = raised.copy()
+        for s in overridden.tolist():
+            shown = set(self.listed_flags(s))
+            raised[s] = [code in shown for code in CODES]
+        return raised

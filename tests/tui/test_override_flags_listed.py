@@ -45,3 +45,26 @@ async def test_an_overrides_row_lists_its_own_curves_flags(run, tmp_path, kind):
                         {c[0]["key"]["product"] for c in run.cases.values()} and _codes(r))
         s = int(session.keys.indices_of([accepted["key"]])[0])
         assert session.listed_flags(s) == session.flag_codes(s)  # not an override: the results' flags
+
+
+async def test_the_flag_filter_and_its_counts_go_by_the_flags_the_rows_show(run, tmp_path):
+    """'⚑ rising' listed an override to a flat curve (its row showing no flag) by the proposal's rising, and left
+    out an override whose own curve goes below zero from '⚑ below-zero' (a trial); show --ledger --flag went by
+    the rows' flags.  The filter and its menu's counts now go by what the rows show."""
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(run.book.read_bytes())
+    app = make_app(copy, source_from_results(run.parquet))
+    exported = _rows(run.exported["parquet"])
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        for code in ("rising", "below-zero"):
+            session.set_filter("all", code)
+            listed = {session.results.data.key_of(s)["product"] for s in session.view.tolist()}
+            expected = {product for product, row in exported.items() if code in row["flags"].split()}
+            assert listed == expected, code
+            assert session.filter_counts()[f"flag:{code}"] == len(expected)
+        overrides = {record["key"]["product"] for record, _ in run.cases.values()}
+        assert any(code in _codes(record) and record["key"]["product"] not in
+                   {p for p, row in exported.items() if code in row["flags"].split()}
+                   for record, _ in run.cases.values() for code in ("rising", "below-zero"))  # a case that differs
+        assert overrides
