@@ -9,10 +9,11 @@ from __future__ import annotations
 import math
 
 from fitcore.ledger.signoff import STATUSES, Signoff
+from fitcore.review.flags import SEVERITY
 from fitcore.review.plan_words import weighed_zero
 
 from .page import Report, alike, cell, elasticity, esc, interval, num, price, stale_parts, when
-from .tables import at_plan, by_whom, label
+from .tables import at_plan, by_whom, label, standing_codes_of
 
 
 def candidates(signoff: Signoff, s: int) -> str:
@@ -59,15 +60,26 @@ NEWER_STALE = "The last sign-off was made on newer data than these results: read
 
 
 def flags(signoff: Signoff, s: int) -> str:
+    """The flags with their sentences; where an override stands, its own curve's codes first (as the decisions
+    table and the export give them), the sentences then said to be the proposal's (they read as the standing
+    curve's: an override going below zero showed none, one that did not showed the proposal's; a trial)."""
     listed = signoff.diagnosis.flags_of(int(s))
+    own = standing_codes_of(signoff, s, [f["code"] for f in listed])
+    lead = ""
+    if own is not None:
+        model = esc((signoff.standing(s) or {}).get("model"))
+        proposal = esc(signoff.results.names[int(signoff.results.chosen[s])])
+        codes = ", ".join(f"<span class=\"sev-{SEVERITY[code]}\">{esc(code)}</span>" for code in own) or "none"
+        lead = (f"<p><strong>{model}, which stands:</strong> {codes}."
+                + (f" The sentences below are of the proposal, {proposal}:</p>" if listed else "</p>"))
     if not listed:
-        return "<p>No flags.</p>"
+        return lead or "<p>No flags.</p>"
     listed.sort(key=lambda f: f["severity"] != "stop")
     if signoff.newer[s]:  # not "the data behind the last sign-off have changed": these results are the older
         listed = [{**f, "message": NEWER_STALE} if f["code"] == "stale" else f for f in listed]
     items = "".join(f"<li><span class=\"sev-{f['severity']}\">{f['severity']} · {esc(f['code'])}</span>: "
                     f"{esc(f['message'])}</li>" for f in listed)
-    return f"<ul class=\"flags\">{items}</ul>"
+    return f"{lead}<ul class=\"flags\">{items}</ul>"
 
 
 def since(report: Report, s: int) -> str:

@@ -110,3 +110,13 @@ def test_the_reports_decision_row_of_an_override_has_the_export_rows_codes(run, 
         cell = re.search(r"data-label=\"Flags\">(.*?)</td>", row).group(1)
         codes = re.findall(r"<span class=\"flag [^\"]*\"[^>]*>([a-z-]+)</span>", cell)
         assert sorted(codes) == sorted(exported[product]["flags"].split()), name
+    # each override's section in full: its own curve's codes first, the sentences said to be the proposal's (they
+    # read as the standing curve's: an override going below zero showed no below-zero; a trial)
+    for name, (record, model) in run.cases.items():
+        product = record["key"]["product"]
+        article = re.search(rf"<article class=\"exception\" id=\"s\d+\"><h3>{product}</h3>.*?</article>", page, re.S)
+        flags = article.group(0).split("<h4>Flags</h4>", 1)[1]
+        lead = re.match(rf"<p><strong>{model}, which stands:</strong> (.*?)\.", flags)
+        assert lead, (name, flags[:200])
+        shown = re.findall(r"<span class=\"sev-[a-z]+\">([a-z-]+)</span>", lead.group(1))
+        assert sorted(shown) == sorted(exported[product]["flags"].split()), name
