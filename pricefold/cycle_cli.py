@@ -105,6 +105,9 @@ def stands_words(record: dict, stands: dict, carry: dict | None = None, signed: 
                     if at_plan.get("lo") is not None and at_plan.get("hi") is not None else " (no interval)")
         said = (f"{said}; {whose} the plan price {number(plan['price'], money)}: volume "
                 f"{number(at_plan['volume'])}{interval}, " + slope(at_plan, record, model))
+        lo, hi = record["price_range"]
+        if lo is not None and hi is not None and not lo <= plan["price"] <= hi:  # as the plan line and the screen
+            said += " — an extrapolation (outside the prices observed)"
     if verb == "overridden":
         return [said]
     proposal = record["chosen"] or "nothing"

@@ -8,6 +8,7 @@ coefficients with numpy's ``Polynomial`` (``_shape``), and checked again here wh
 from __future__ import annotations
 
 import re
+from pathlib import Path
 
 import pytest
 
@@ -120,3 +121,28 @@ def test_the_reports_decision_row_of_an_override_has_the_export_rows_codes(run, 
         assert lead, (name, flags[:200])
         shown = re.findall(r"<span class=\"sev-[a-z]+\">([a-z-]+)</span>", lead.group(1))
         assert sorted(shown) == sorted(exported[product]["flags"].split()), name
+
+
+def test_the_stands_line_of_an_override_at_a_plan_price_outside_the_range_says_extrapolation(tmp_path, capsys):
+    """The screen said "an extrapolation" beside an override's number at a plan price outside the prices observed;
+    show's 'stands:' line gave the number alone (a trial: the sample's lemons · East overridden to poly4, 2,520 at
+    the plan price 3.96).  The shipped sample results; each series overridden to poly4 in a ledger."""
+    import pyarrow.parquet as pq
+
+    from fitcore.results.read import read_header
+    results = Path(__file__).resolve().parents[2] / "sample" / "results.parquet"
+    rows = [r for r in pq.read_table(results).to_pylist() if r["is_chosen"] and r["chosen"] != "poly4"]
+    inside = next(r for r in rows if r["price_lo"] <= r["plan_price"] <= r["price_hi"])
+    outside = next(r for r in rows if not r["price_lo"] <= r["plan_price"] <= r["price_hi"])
+    book = tmp_path / "L.jsonl"
+    digest = ledger.results_digest(read_header(results))
+    for row in (inside, outside):
+        ledger.append(book, [ledger.Entry(series={"product": row["product"], "region": row["region"]},
+                                          action="override", fingerprint=row["fingerprint"], results=digest,
+                                          model="poly4", proposed=row["chosen"], note="a look")], ANA)
+    for row, far in ((inside, False), (outside, True)):
+        capsys.readouterr()
+        assert main(["show", str(results), "--ledger", str(book), "--product", row["product"], "--key",
+                     f"region={row['region']}"]) == 0
+        line = next(text for text in capsys.readouterr().out.splitlines() if "stands: poly4" in text)
+        assert ("an extrapolation (outside the prices observed)" in line) == far, line
