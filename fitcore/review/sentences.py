@@ -123,8 +123,11 @@ def _flat_price(diag, s):
         return (f"Only {distinct} distinct prices ({money(r.price_lo[s])} and {money(r.price_hi[s])}): "
                 f"a curve's shape between them is a guess.")
     cv, wanted = diag.numbers["price_cv"][s], diag.thresholds.min_price_cv
-    # as many decimals as it takes not to read as enough ("2% (2% wanted)"): 1.96%
-    said = next(f"{cv * 100:.{d}f}%" for d in (0, 1, 2, 3, 4) if f"{cv * 100:.{d}f}" != f"{wanted * 100:.{d}f}" or d == 4)
+    # as many decimals as it takes not to read as enough ("2% (2% wanted)": 1.96%) nor as none at all ("0%" for a
+    # price that did move: 0.1%; a trial)
+    said = next(f"{cv * 100:.{d}f}%" for d in (0, 1, 2, 3, 4)
+                if (f"{cv * 100:.{d}f}" != f"{wanted * 100:.{d}f}" and (cv <= 0 or float(f"{cv * 100:.{d}f}") > 0))
+                or d == 4)
     return (f"Price varied by only {said} (coefficient of variation; "
             f"{pct(wanted)} wanted), between {money(r.price_lo[s])} and {money(r.price_hi[s])}.")
 
