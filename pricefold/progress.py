@@ -45,11 +45,5 @@ def fitted(text: str, width: int) -> str:
     """``text`` within ``width`` cells, its middle left out (…): a line longer than the terminal wraps, and the
     carriage return that redraws it reaches back to its last row only (a long file name left its first 80
     characters behind; a trial)."""
-    from fitcore.widths import cells
-    if cells(text) <= width or width < 8:
-        return text
-    keep = width - 1
-    head, tail = text[:keep // 2], text[-(keep - keep // 2):]
-    while cells(head) + cells(tail) > keep and (head or tail):
-        head, tail = (head[:-1], tail) if cells(head) >= cells(tail) else (head, tail[1:])
-    return f"{head}…{tail}"
+    from fitcore.widths import cells, cut_middle
+    return cut_middle(text, width, cells)
