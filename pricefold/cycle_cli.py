@@ -17,7 +17,7 @@ from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, w
 from fitcore.review.thresholds import recorded_thresholds
 from fitcore.text import clean, told_apart
 
-from .ledger_cli import key_mismatch, meets, open_ledger, say_missing
+from .ledger_cli import key_mismatch, meets, open_ledger, say_missing, say_unchecked
 from .show import key_parts
 
 
@@ -182,14 +182,10 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
                                                        results))  # the fit's, as the export judges by
     standing = [standing_flags(record, book, thresholds, (lambda i=i: full(i)) if full else None)
                 for i, record in enumerate(records)]
-    unchecked = sum(not checked for _, checked in filter(None, standing))
-    if unchecked:  # as the export warns
-        print(f"pricefold show: {results}: warning: {unchecked:,} series stand on another model than the proposal "
-              "whose curve neither these results nor the decision hold: their flags cannot say rising or below-zero",
-              file=sys.stderr)
-    shown = [record if mine is None else {**record, "flags": mine[0]} for record, mine in zip(records, standing)]
+    say_unchecked("pricefold show", results, sum(not checked for _, checked in filter(None, standing)))
+    listed = [record if mine is None else {**record, "flags": mine[0]} for record, mine in zip(records, standing)]
     if flag is not None:  # listed by what is shown: a flag left out above, or a proposal's, picks nothing
-        kept = [i for i, record in enumerate(shown) if any(f["code"] == flag for f in record["flags"])]
+        kept = [i for i, record in enumerate(listed) if any(f["code"] == flag for f in record["flags"])]
         if not kept:
             if not raised:
                 print(f"pricefold show: no series in {results} matches", file=sys.stderr)
@@ -203,7 +199,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
                       f"(fit again with --ledger {ledger_path})", file=sys.stderr)
             return None
         records, replaced = [records[i] for i in kept], [replaced[i] for i in kept]
-        shown, standing = [shown[i] for i in kept], [standing[i] for i in kept]
+        listed, standing = [listed[i] for i in kept], [standing[i] for i in kept]
         if len(kept) == 1 and full is not None and "candidates" not in records[0]:  # in full: its whole record
             records = [without_backtest(full(kept[0])) if replaced[0] or foreign else full(kept[0])]
     if len(records) == 1:
@@ -239,9 +235,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             from fitcore.review.plan_words import caution_of
             lines += ["", caution_of((header or {}).get("settings") or {})]
         return "\n".join(lines)
-    state_of = {id(record): ledger_state(record, book, short=True, fitted=fitted) for record in shown}
+    state_of = {id(record): ledger_state(record, book, short=True, fitted=fitted) for record in listed}
     # a stale series ranks as the screen ranks it: its 'stale' one stop flag more
-    ordered = in_attention_order(shown, first, stale=[state_of[id(record)][0] == "stale" for record in shown])
+    ordered = in_attention_order(listed, first, stale=[state_of[id(record)][0] == "stale" for record in listed])
     labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like), beside=beside)
     states = [state_of[id(record)] for record in ordered]
     newer = sum(needs == NEWER_DUE_SHORT for _, needs in states)

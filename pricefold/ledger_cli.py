@@ -152,6 +152,16 @@ def meets(results_keys: list[dict], book: ledger.Ledger, ledger_path: Path, what
     return "; ".join(part for part in said if part) or None, found
 
 
+def say_unchecked(prog: str, results: Path, count: int) -> None:
+    """Warn of ``count`` series standing on another model than the proposal whose curve neither the results nor
+    the decision hold (``candidate_checks.standing_codes``' unchecked): their flags cannot say rising or
+    below-zero.  ``export`` and ``show --ledger`` say it alike."""
+    if count:
+        print(f"{prog}: {results}: warning: {count:,} series stand on another model than the proposal whose curve "
+              "neither these results (written by an older pricefold?) nor the decision hold: their flags cannot "
+              "say rising or below-zero", file=sys.stderr)
+
+
 def say_missing(prog: str, results: Path | None, results_keys: list[dict], book: ledger.Ledger, ledger_path: Path,
                 within=None):
     """A note on stderr where signed series of ``book`` keyed by the results' columns are not among

@@ -33,7 +33,7 @@ from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import decided_on_newer
 from fitcore.text import clean
 
-from .ledger_cli import meets, open_ledger, refuse_key_mismatch, say_missing
+from .ledger_cli import meets, open_ledger, refuse_key_mismatch, say_missing, say_unchecked
 
 RISKY = ("=", "+", "-", "@", "\t", "\r")
 RISKY_FIRST = frozenset(RISKY)  # one character each: ``text[:1] in RISKY_FIRST`` is ``text.startswith(RISKY)``
@@ -151,10 +151,7 @@ def run_export(args) -> int:
         print(f"pricefold ledger: {args.results}: warning: {newer:,} series were decided on newer data than these "
               "results: their rows say 'stale' and hold the signed numbers; export from the newer results",
               file=sys.stderr)
-    if unchecked:
-        print(f"pricefold ledger: {args.results}: warning: {unchecked:,} series stand on another model than the "
-              "proposal whose curve neither these results (written by an older pricefold?) nor the decision hold: "
-              "their flags cannot say rising or below-zero", file=sys.stderr)
+    say_unchecked("pricefold ledger", args.results, unchecked)
     if later:
         _signed_at_price(args.results, rows, later, level)
     at = len(keys[0]) + COLUMNS.index("plan_elasticity") if keys else 0
