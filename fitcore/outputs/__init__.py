@@ -8,6 +8,7 @@ stops a command before it could write over one of its inputs, a ledger, or a fil
              (``finish_batches``), or said by a reader (``unfinished``)
     guard    ``check_outputs``: every output against every input (same file, inside a folder), the
              folder it goes to, and what an existing output holds
+    direct   ``direct_file``: a large new file written around the page cache (Linux ``O_DIRECT``)
 
 May import: the shared ``errors`` only.
 """

@@ -232,10 +232,13 @@ def test_flags_made_run_by_run_are_each_series_flags_as_json_dumps_writes_them(m
 
 
 def test_each_row_group_is_handed_to_the_disk_as_written_and_the_handle_closed(tmp_path, monkeypatch):
-    """The results' write starts the disk's write of every row group as soon as it is written
+    """Where the file system cannot be written around the page cache (``outputs.direct``: no O_DIRECT), the
+    results' write starts the disk's write of every row group as soon as it is written
     (``write.early_writeback``), so the fsync at the end finds little left: called once a row group (the
     file's own count, read back by pyarrow), its file handle closed once at the end."""
+    import fitcore.outputs.direct as direct
     import fitcore.results.write as write
+    monkeypatch.setattr(direct, "direct_file", lambda name: None)
     seen = {"calls": 0, "closed": 0, "sizes": []}
     original = write.early_writeback
 
