@@ -51,8 +51,12 @@ def record(book: ledger.Ledger, entries, who: ledger.Identity) -> list[dict]:
     records that are in."""
     from . import interrupts
     interrupts.check()
-    return book.append(entries, who, before=interrupts.check,
-                       recorded=lambda written: interrupts.recorded(recorded_words(book.path, written)))
+    written = book.append(entries, who, before=interrupts.check,
+                          recorded=lambda written: interrupts.recorded(recorded_words(book.path, written)))
+    if book.tail_moved_to is not None:  # said where it went: "the next append moves it to a side file" said only that
+        print(f"pricefold ledger: {book.path}: note: the interrupted tail after its last whole record was moved to "
+              f"{book.tail_moved_to.name} beside it", file=sys.stderr)
+    return written
 
 
 def recorded_words(path: Path, records: list[dict]) -> str:
