@@ -57,10 +57,14 @@ def run_export(args) -> int:
         header, parts = results_in_parts(args.results)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN,), must_exist=True)
     refuse_key_mismatch(args.results, header, book, args.ledger)  # else every row "pending", matching nothing
-    from fitcore.ledger.elsewhere import head_gone
+    from fitcore.ledger.elsewhere import backtested_elsewhere, head_gone
     gone = head_gone(args.results, header, book.records, args.ledger)
     if gone:  # an older copy restored, or its end cut: its rows would hand planning decisions that are gone
         raise ledger.LedgerError(f"{gone}; nothing was written (fit again with --ledger to export from it as it is)")
+    foreign = backtested_elsewhere(args.results, header, args.ledger)
+    if foreign:  # as show --ledger, carry and the screen: its shifted flags speak of another ledger's signers
+        print(f"pricefold ledger: {foreign}; its 'shifted' flags are left out of the export (fit again with --ledger "
+              "on this ledger)", file=sys.stderr)
     from fitcore.outputs import check_outputs
     from fitcore.results.read import results_inputs
     check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
@@ -96,6 +100,8 @@ def run_export(args) -> int:
             count += 1
             keys.append(key)
             status = history.status(fingerprint) if history else "pending"
+            if foreign and "shifted" in seen.codes:
+                seen = Seen(seen.lo, seen.hi, [code for code in seen.codes if code != "shifted"])
             if status == "stale" and decided_on_newer(key, fingerprint, last_date, history):
                 newer += 1
             current = history.current if history else None
