@@ -67,8 +67,10 @@ def run_export(args) -> int:
               "on this ledger)", file=sys.stderr)
     from fitcore.outputs import check_outputs
     from fitcore.results.read import results_inputs
-    check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
-                                              *results_inputs(header)])
+    to_stdout = str(args.output) == "-"  # for a pipe (``| head``): no file (it wrote one named '-'; a trial)
+    if not to_stdout:
+        check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
+                                                  *results_inputs(header)])
     buffer = io.StringIO()
     # RFC 4180 line ends: with "\r\n" as the terminator the writer also quotes a cell holding a lone
     # carriage return (with "\n" alone, Python 3.11 wrote it bare and the row split in two).
@@ -165,9 +167,14 @@ def run_export(args) -> int:
         rows[row][at] = ""
     for row in rows:
         writer.writerow(made(row))
-    write_text(args.output, buffer.getvalue())
+    if to_stdout:
+        sys.stdout.write(buffer.getvalue())
+        sys.stdout.flush()
+    else:
+        write_text(args.output, buffer.getvalue())
     if not args.quiet:
-        print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
+        print(f"{count:,} series written to {'standard output' if to_stdout else args.output} (ledger head {head})",
+              file=sys.stderr)
     return 0
 
 
