@@ -274,6 +274,10 @@ def version() -> str:
 
 
 def run(args) -> int:
+    import logging
+    # matplotlib's own "mkdir -p failed … created a temporary cache directory" where HOME is not writable (a trial):
+    # it then works in a temporary folder, as the report needs nothing cached
+    logging.getLogger("matplotlib").setLevel(logging.ERROR)
     try:
         import matplotlib  # noqa: F401 - only to say at once what is missing
     except ImportError:

@@ -162,6 +162,18 @@ def test_without_matplotlib_it_says_how_to_get_it(signed, tmp_path):
                            "the checkout, pip install -e '.[report]')\n")
 
 
+def test_no_cache_folder_for_matplotlib_is_not_said(signed, tmp_path):
+    """A trial with HOME not writable: matplotlib's "mkdir -p failed …" and "created a temporary cache directory …"
+    on stderr around the report's one line (it works in a temporary folder: the report caches nothing)."""
+    import os
+    out = tmp_path / "r.html"
+    done = subprocess.run([sys.executable, "-m", "pricefold", "report", str(signed["results"]), "--ledger",
+                           str(signed["ledger"]), "-o", str(out)], capture_output=True, text=True,
+                          env={**os.environ, "MPLCONFIGDIR": str(signed["results"]) + "/mpl"})  # under a file
+    assert done.returncode == 0 and out.exists()
+    assert done.stderr.count("\n") == 1 and done.stderr.startswith("report of "), done.stderr
+
+
 def test_the_demo_prints_the_command_that_makes_its_report(tmp_path, monkeypatch, capsys):
     from pricefold import cli, demo, triage_cli
     monkeypatch.setattr(triage_cli, "open_triage", lambda *args, **kwargs: 0)
