@@ -288,11 +288,10 @@ class _SignedCurves:
             return self.family.price_of(self.mid - self.half), self.family.price_of(self.mid + self.half)
 
     def outside(self, price: np.ndarray, which: np.ndarray) -> np.ndarray:
-        """Whether ``price[i]`` lies outside the prices curve ``which[i]`` was fitted over (to a part in 1e9:
-        the window's ends are those prices through a logarithm and back, for loglog)."""
+        """Whether ``price[i]`` lies outside the prices curve ``which[i]`` was fitted over."""
+        from ..review.sentences import outside_prices
         lo, hi = self.prices()
-        lo, hi = lo[which], hi[which]
-        return (price < lo - 1e-9 * np.abs(lo)) | (price > hi + 1e-9 * np.abs(hi))
+        return outside_prices(price, lo[which], hi[which])
 
     def at(self, price: np.ndarray, which: np.ndarray | None = None):
         """(volume, lo, hi, elasticity) of curve ``which[i]`` (default: i) at ``price[i]``."""

@@ -396,7 +396,8 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
     fitted_over = (f"{money(number('signed_price_lo'))}–{money(number('signed_price_hi'))}"
                    if bt.get("signed_price_lo") is not None and bt.get("signed_price_hi") is not None else None)
     beyond = (f", an extrapolation beyond the prices {fitted_over} it was signed on"
-              if fitted_over and _outside(number("price"), number("signed_price_lo"), number("signed_price_hi")) else "")
+              if fitted_over and outside_prices(number("price"), number("signed_price_lo"), number("signed_price_hi"))
+              else "")
     if bt.get("signed_volume") is None:
         parts = [head + "."]
     elif not math.isfinite(signed_at) or math.isclose(signed_at, number("price"), rel_tol=1e-12, abs_tol=0.0):
@@ -436,9 +437,10 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
     return " ".join(parts)
 
 
-def _outside(price: float, lo: float, hi: float) -> bool:
-    """``price`` lies outside [lo, hi] (to a part in 1e9, as ``ledger.backtest`` counts the rows since)."""
-    return price < lo - 1e-9 * abs(lo) or price > hi + 1e-9 * abs(hi)
+def outside_prices(price, lo, hi):
+    """Whether ``price`` lies outside [lo, hi] (numbers or arrays), to a part in 1e9: a signed curve's prices are
+    its window's ends, through a logarithm and back for loglog (``ledger.backtest`` counts the rows since so)."""
+    return (price < lo - 1e-9 * abs(lo)) | (price > hi + 1e-9 * abs(hi))
 
 
 def signed_by(bt: dict) -> str:
