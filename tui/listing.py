@@ -156,6 +156,10 @@ class ListState:
         """(S,) the score each series' row shows (a session: ``Standing.listed_scores``)."""
         return np.asarray(self.results.score, dtype=float)
 
+    def listed_attention(self) -> np.ndarray:
+        """Series in attention order by the flags the rows show (a session: ``Standing.listed_attention``)."""
+        return self.diagnosis.attention_order()
+
     def _order(self) -> np.ndarray:
         if self.sort == "key":
             return self.keys.sorted_order()
@@ -164,7 +168,7 @@ class ListState:
             return np.argsort(np.where(np.isnan(score), -np.inf, score), kind="stable")
         if self.sort == "n":
             return np.argsort(self.results.data.counts, kind="stable")
-        return self.diagnosis.attention_order()
+        return self.listed_attention()
 
     def set_filter(self, name: str = KEEP, flag: str | None = KEEP) -> None:
         """Change the status filter, the flag filter (None: any), or both; ``KEEP`` leaves one as it is."""

@@ -1,0 +1,70 @@
+"""The triage list's attention order goes by the flags its rows show: an override's own curve's (as ``ledger
+export`` writes them and the report orders by), not its proposal's — an override of a rising proposal to a flat
+curve no longer heads the list by the proposal's stop flag; one whose own curve rises moves up.
+
+The series, their fits and the ledger are ``tests/cli/test_export_override_flags.py``'s (``run``), where which
+curves rise or go below zero is checked apart from pricefold with numpy's ``Polynomial``; the order expected is
+the attention rule as ``tests/report/test_report_shown_flags.py`` writes it out.
+"""
+from __future__ import annotations
+
+import re
+
+from fitcore import ledger
+from fitcore.results.source import source_from_results
+from pricefold.cli import main
+from tests.cli.test_export_override_flags import _codes, _rows, run  # noqa: F401 (a fixture)
+from tests.fitcore.ledger_support import ANA
+from tests.report.test_report_shown_flags import attention, shown_flags
+from tests.tui.conftest import make_app, screen_text, started, until
+from tests.tui.test_two_analysts import BO
+
+
+def products(session) -> list[str]:
+    return [session.results.data.key_of(s)["product"] for s in session.view.tolist()]
+
+
+async def test_the_lists_attention_order_goes_by_an_overrides_own_flags(run, tmp_path):
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(run.book.read_bytes())
+    app = make_app(copy, source_from_results(run.parquet))
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        session.set_filter("all", None)
+        app.screen.refresh_all()
+        await pilot.pause(0.3)
+        expected = attention(run, shown_flags(run))
+        assert session.sort == "attention" and products(session) == expected
+        on_screen = re.findall(r"\bitem \d\d\b", screen_text(app))
+        assert on_screen and on_screen == expected[:len(on_screen)]  # the rows as drawn, top down
+
+
+async def test_anothers_override_reorders_the_screen_and_the_report_agrees(run, tmp_path):
+    """bo's screen lists every series pending; ana overrides the rising proposal with a flat curve (from her own
+    screen: appended to the one ledger); bo's list moves it down by the flags its row now shows, and a report made
+    after gives its row the same flags."""
+    book = tmp_path / "ledger.jsonl"
+    record, model = run.cases["proposal rises"]
+    product = record["key"]["product"]
+    bo = make_app(book, source_from_results(run.parquet), who=BO)
+    async with bo.run_test(size=(80, 24)) as pilot:
+        session = await started(bo, pilot)
+        session.set_filter("all", None)
+        proposals = {r["key"]["product"]: _codes(r) for r in run.document["series"]}
+        assert products(session) == attention(run, proposals)
+        ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
+                                          results=ledger.results_digest(run.document), model=model,
+                                          proposed=record["chosen"], note="flat here", flags=_codes(record))], ANA)
+        s = int(session.keys.indices_of([record["key"]])[0])
+        await until(pilot, lambda: session.status[s] == "overridden")  # bo's screen looks every 2 s
+        await pilot.pause()
+        own = _rows(run.exported["json"])[product]["flags"].split()  # the same override in the export's run
+        assert "rising" in proposals[product] and "rising" not in own
+        assert sorted(session.listed_flags(s)) == sorted(own)
+        assert products(session) == attention(run, {**proposals, product: own})
+        assert products(session).index(product) > attention(run, proposals).index(product)
+    out = tmp_path / "report.html"
+    assert main(["report", str(run.parquet), "--ledger", str(book), "-o", str(out)]) == 0
+    row = re.search(rf"<tr data-status=\"overridden\"><td[^>]*>(?:<a[^>]*>)?{product}<.*?</tr>", out.read_text())
+    cell = re.search(r"data-label=\"Flags\">(.*?)</td>", row.group(0)).group(1)
+    assert sorted(re.findall(r"<span class=\"flag [^\"]*\"[^>]*>([a-z-]+)</span>", cell)) == sorted(own)
