@@ -12,7 +12,7 @@ import math
 import numpy as np
 
 from fitcore.ledger.rules import NEWER_DUE, decided_on_newer
-from fitcore.review.flags import CODES, SEVERITY, attention_of
+from fitcore.review.flags import SEVERITY
 
 from .ledger_series import CODE, fingerprint_reader
 from .text import clean
@@ -194,18 +194,18 @@ class Standing:
             memo = self.__dict__["_own_flags"] = (self.results, {})
         return memo[1]
 
-    def _listed(self) -> tuple[np.ndarray, np.ndarray | None]:
-        """``(raised, order)``: ``listed_raised`` and the attention order by it (None: the diagnosis's own, no
-        override standing), made again only where the diagnosis or an override changed."""
+    def _listed(self) -> tuple[np.ndarray, np.ndarray]:
+        """``(raised, order)``: ``listed_raised`` and ``listed_attention``, made again only where the diagnosis or an
+        override changed."""
         overridden = np.flatnonzero(self.status_code == CODE["overridden"]).tolist()
         overrides = {s: found for s in overridden if (found := self._override_of(s)) is not None}
         names = tuple((s, name) for s, (name, _) in overrides.items())
         made = self.__dict__.get("_listed_made")
         if made is None or made[0] is not self.diagnosis or made[1] != names:
-            from fitcore.review.shown_flags import shown_raised
+            from fitcore.review.shown_flags import shown_order, shown_raised
             raised = shown_raised(self.diagnosis, overrides, self._checked())
-            order = attention_of(raised, self.results.score) if overrides else None
-            made = self.__dict__["_listed_made"] = (self.diagnosis, names, raised, order)
+            made = self.__dict__["_listed_made"] = (self.diagnosis, names, raised,
+                                                    shown_order(self.diagnosis, raised, overrides))
         return made[2], made[3]
 
     def listed_raised(self) -> np.ndarray:
@@ -216,8 +216,7 @@ class Standing:
         return self._listed()[0]
 
     def listed_attention(self) -> np.ndarray:
-        """Series indices in the list's attention order: by the flags the rows show (``listed_raised``), the
-        proposal's score breaking ties (as the report and ``show --ledger`` order) — an override to a clean curve
-        no longer ranks by its proposal's stop flag."""
-        order = self._listed()[1]
-        return self.diagnosis.attention_order() if order is None else order
+        """Series indices in the list's attention order (``shown_flags.shown_order``, as the report orders): by the
+        flags the rows show (``listed_raised``), then the score — an override's its own curve's Q², as its row
+        shows it: an override to a clean curve no longer ranks by its proposal's stop flag or score."""
+        return self._listed()[1]

@@ -16,7 +16,7 @@ import numpy as np
 
 from ..data.keys import SeriesKeys
 from ..fit.results import Results
-from ..review.flags import CODES, SEVERITY, STOP, Diagnosis, attention_of, mark_stale
+from ..review.flags import CODES, SEVERITY, STOP, Diagnosis, mark_stale
 from .replay import SeriesHistory, replay
 
 STATUSES = ("accepted", "overridden", "held", "pending", "stale")
@@ -164,7 +164,8 @@ class Signoff:
 
     @cached_property
     def _attention(self) -> np.ndarray:
-        return attention_of(self.raised, self.results.score) if self.overrides else self.diagnosis.attention_order()
+        from ..review.shown_flags import shown_order
+        return shown_order(self.diagnosis, self.raised, self.overrides)
 
     def flag_counts(self) -> dict[str, int]:
         """Series per flag, by the flags the rows show (``raised``); flags no series shows left out."""
@@ -176,7 +177,8 @@ class Signoff:
         return self.raised[:, STOP].any(axis=1)
 
     def attention_order(self) -> np.ndarray:
-        """Series indices, most in need of a human first, by the flags the rows show (``flags.attention_of``)."""
+        """Series indices, most in need of a human first, by the flags the rows show and an override's own score
+        (``shown_flags.shown_order``)."""
         return self._attention
 
     def table_rows(self) -> np.ndarray:

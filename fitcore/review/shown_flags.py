@@ -2,9 +2,10 @@
 
 A ``Diagnosis`` holds the flags of each series' proposal.  Where an override stands on the series' data, its
 row shows that curve's own flags instead (``candidate_checks.standing_codes_in``: the override dialog's checks,
-the series' data flags kept, the proposal's fit flags dropped).  ``shown_raised`` gives that matrix (``flags.attention_of`` orders by it): one
-source for what the report counts, lists and orders and what the triage list filters, counts and sorts, so a
-page or a screen never ranks a row by flags it does not show.
+the series' data flags kept, the proposal's fit flags dropped), and its row's score is that curve's Q².  ``shown_raised`` gives that matrix
+and ``shown_order`` the attention order by it and those scores: one source for what the report counts, lists and
+orders and what the triage list filters, counts and sorts, so a page or a screen never ranks a row by flags (or a
+score) it does not show.
 """
 from __future__ import annotations
 
@@ -12,7 +13,8 @@ from typing import Mapping
 
 import numpy as np
 
-from .flags import CODES, Diagnosis
+from ..fit.results import Results
+from .flags import CODES, Diagnosis, attention_of
 
 
 def shown_raised(diagnosis: Diagnosis, overrides: Mapping[int, tuple[str, dict | None]],
@@ -47,3 +49,22 @@ def override_codes(diagnosis: Diagnosis, s: int, model: str, snapshot: dict | No
         if known is not None:
             known[key] = own
     return own
+
+
+def shown_scores(results: Results, overrides: Mapping[int, tuple[str, dict | None]]) -> np.ndarray:
+    """(S,) the score each series' row shows: the proposal's Q² (``results.score``), an override's its own curve's
+    (NaN, the lowest, where these results did not fit that model or could not)."""
+    score = np.array(results.score, dtype=float)
+    for s, (model, _) in overrides.items():
+        c = results.names.index(model) if model in results.names else -1
+        score[s] = float(results.q2[s, c]) if c >= 0 and results.available[s, c] else np.nan
+    return score
+
+
+def shown_order(diagnosis: Diagnosis, raised: np.ndarray, overrides: Mapping[int, tuple[str, dict | None]]
+                ) -> np.ndarray:
+    """Series in attention order as their rows read: by the flags ``raised`` (``shown_raised`` of these
+    ``overrides``) and the scores shown (``shown_scores``); the diagnosis's own order where no override stands."""
+    if not overrides:
+        return diagnosis.attention_order()
+    return attention_of(raised, shown_scores(diagnosis.results, overrides))

@@ -6,8 +6,9 @@ order, and the order of the sections in full.
 The series, their fits and the ledger are ``tests/cli/test_export_override_flags.py``'s (``run``): every
 decision there is one batch (bulk), four of them overrides whose curves rise or go below zero where their
 proposals do not, or the reverse — checked there apart from pricefold with numpy's ``Polynomial``.  The order
-expected is the attention rule written out here (more stop flags, then more warn flags, then the lower score,
-then the results' order), apart from ``fitcore.review.attention``.
+expected is the attention rule written out here (more stop flags, then more warn flags, then the lower of
+the score each row shows — an override's own curve's Q² —, then the results' order), apart from
+``fitcore.review.attention``.
 """
 from __future__ import annotations
 
@@ -28,13 +29,20 @@ def shown_flags(run) -> dict[str, list[str]]:
             else _codes(r) for r in run.document["series"]}
 
 
-def attention(run, flags: dict[str, list[str]]) -> list[str]:
-    """Every product in attention order by ``flags``: stop flags, warn flags, the proposal's score (none lowest)."""
+def attention(run, flags: dict[str, list[str]], models: dict[str, str] | None = None) -> list[str]:
+    """Every product in attention order by ``flags``: stop flags, warn flags, then the score its row shows (none
+    lowest) — the proposal's, or where ``models`` names the model an override made stand (product → model; every
+    case of ``run`` when None), that candidate's Q²."""
+    models = {r["key"]["product"]: model for r, model in run.cases.values()} if models is None else models
+
     def rank(item):
         i, record = item
-        codes = flags[record["key"]["product"]]
+        product = record["key"]["product"]
+        codes = flags[product]
         stop = sum(SEVERITY[code] == "stop" for code in codes)
-        score = record["score"] if record["score"] is not None and math.isfinite(record["score"]) else -math.inf
+        score = (record["score"] if product not in models else
+                 next(c["q2"] for c in record["candidates"] if c["name"] == models[product]))
+        score = score if score is not None and math.isfinite(score) else -math.inf
         return -stop, -(len(codes) - stop), score, i
     return [r["key"]["product"] for _, r in sorted(enumerate(run.document["series"]), key=rank)]
 
@@ -55,7 +63,7 @@ def test_the_cases_show_other_stop_flags_than_their_proposals(run):
     assert "rising" in flags[cases["rises, proposal near-tie"]]
     assert "below-zero" in flags[cases["below zero"]]
     proposals = {r["key"]["product"]: _codes(r) for r in run.document["series"]}
-    assert attention(run, flags) != attention(run, proposals)
+    assert attention(run, flags) != attention(run, proposals, {})
 
 
 def test_the_summary_counts_each_flag_and_the_clean_series_as_the_rows_show_them(run, page):

@@ -1,6 +1,7 @@
 """The triage list's attention order goes by the flags its rows show: an override's own curve's (as ``ledger
 export`` writes them and the report orders by), not its proposal's — an override of a rising proposal to a flat
-curve no longer heads the list by the proposal's stop flag; one whose own curve rises moves up.
+curve no longer heads the list by the proposal's stop flag, nor ranks by the proposal's score beside the override's
+own that its row shows; one whose own curve rises moves up.
 
 The series, their fits and the ledger are ``tests/cli/test_export_override_flags.py``'s (``run``), where which
 curves rise or go below zero is checked apart from pricefold with numpy's ``Polynomial``; the order expected is
@@ -51,7 +52,7 @@ async def test_anothers_override_reorders_the_screen_and_the_report_agrees(run, 
         session = await started(bo, pilot)
         session.set_filter("all", None)
         proposals = {r["key"]["product"]: _codes(r) for r in run.document["series"]}
-        assert products(session) == attention(run, proposals)
+        assert products(session) == attention(run, proposals, {})
         ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
                                           results=ledger.results_digest(run.document), model=model,
                                           proposed=record["chosen"], note="flat here", flags=_codes(record))], ANA)
@@ -61,8 +62,8 @@ async def test_anothers_override_reorders_the_screen_and_the_report_agrees(run, 
         own = _rows(run.exported["json"])[product]["flags"].split()  # the same override in the export's run
         assert "rising" in proposals[product] and "rising" not in own
         assert sorted(session.listed_flags(s)) == sorted(own)
-        assert products(session) == attention(run, {**proposals, product: own})
-        assert products(session).index(product) > attention(run, proposals).index(product)
+        assert products(session) == attention(run, {**proposals, product: own}, {product: model})
+        assert products(session).index(product) > attention(run, proposals, {}).index(product)
     out = tmp_path / "report.html"
     assert main(["report", str(run.parquet), "--ledger", str(book), "-o", str(out)]) == 0
     row = re.search(rf"<tr data-status=\"overridden\"><td[^>]*>(?:<a[^>]*>)?{product}<.*?</tr>", out.read_text())
