@@ -69,3 +69,32 @@ async def test_anothers_override_reorders_the_screen_and_the_report_agrees(run, 
     row = re.search(rf"<tr data-status=\"overridden\"><td[^>]*>(?:<a[^>]*>)?{product}<.*?</tr>", out.read_text())
     cell = re.search(r"data-label=\"Flags\">(.*?)</td>", row.group(0)).group(1)
     assert sorted(re.findall(r"<span class=\"flag [^\"]*\"[^>]*>([a-z-]+)</span>", cell)) == sorted(own)
+
+
+async def test_after_an_override_moves_the_row_the_cursor_goes_to_the_row_below_it_before(run, tmp_path):
+    """Working down "all series" by attention, an override re-sorts the list (its row's own flags and score): the
+    cursor goes on to the series that was below it, not to the row below where the override landed (a tmux trial:
+    it jumped to the clean rows far down)."""
+    record, model = run.cases["proposal rises"]
+    app = make_app(tmp_path / "ledger.jsonl", source_from_results(run.parquet))
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        session.set_filter("all", None)
+        s = int(session.keys.indices_of([record["key"]])[0])
+        at = int((session.view == s).nonzero()[0][0])
+        below = int(session.view[at + 1])
+        session.cursor = at
+        app.screen.refresh_all()
+        await pilot.pause()
+        await pilot.press("o")
+        await pilot.pause()
+        options = app.screen.query_one("#dialog-options")
+        options.highlighted = [row.name for row in app.screen.rows].index(model)
+        await pilot.pause()
+        await pilot.press("enter")
+        await pilot.pause()
+        await pilot.press(*"flat here", "enter")
+        await until(pilot, lambda: session.status[s] == "overridden")
+        await pilot.pause()
+        assert int((session.view == s).nonzero()[0][0]) != at  # it moved: its own flags are not its proposal's
+        assert session.current == below
