@@ -2,10 +2,10 @@
 
 A ``Diagnosis`` holds the flags of each series' proposal.  Where an override stands on the series' data, its
 row shows that curve's own flags instead (``candidate_checks.standing_codes_in``: the override dialog's checks,
-the series' data flags kept, the proposal's fit flags dropped), and its row's score is that curve's Q².  ``shown_raised`` gives that matrix
-and ``shown_order`` the attention order by it and those scores: one source for what the report counts, lists and
-orders and what the triage list filters, counts and sorts, so a page or a screen never ranks a row by flags (or a
-score) it does not show.
+the series' data flags kept, the proposal's fit flags dropped), and its row's score is that curve's Q².
+``shown_raised`` gives that matrix and ``shown_order`` the attention order by it and those scores: one source for
+what the report counts, lists and orders and what the triage list filters, counts and sorts, so a page or a
+screen never ranks a row by flags (or a score) it does not show.
 """
 from __future__ import annotations
 
