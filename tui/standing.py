@@ -171,14 +171,14 @@ class Standing:
         own curve's — the override dialog's checks (``candidate_checks``) read for that candidate, as ``ledger
         export`` and ``show --ledger`` give them; else the results' (``flag_codes``: a pending series', an accept's,
         and beside ``proposes`` an accept of another fit's proposal)."""
-        override = self._override_of(s)
+        override = self.override_of(s)
         if override is None:
             return self.flag_codes(s)
         from fitcore.review.shown_flags import override_codes
         own = override_codes(self.diagnosis, s, *override, self._checked())
         return sorted(own, key=lambda code: SEVERITY[code] != "stop")
 
-    def _override_of(self, s: int) -> tuple[str, dict | None] | None:
+    def override_of(self, s: int) -> tuple[str, dict | None] | None:
         """Where an override stands on series ``s``'s data making another model stand than the proposal: that model
         and the decision's ``signed`` snapshot (``shown_flags.override_codes``); else None."""
         name = self._standing_name(s) if self.status_code[s] == CODE["overridden"] else None
@@ -198,7 +198,7 @@ class Standing:
         """``(raised, order)``: ``listed_raised`` and ``listed_attention``, made again only where the diagnosis or an
         override changed."""
         overridden = np.flatnonzero(self.status_code == CODE["overridden"]).tolist()
-        overrides = {s: found for s in overridden if (found := self._override_of(s)) is not None}
+        overrides = {s: found for s in overridden if (found := self.override_of(s)) is not None}
         names = tuple((s, name) for s, (name, _) in overrides.items())
         made = self.__dict__.get("_listed_made")
         if made is None or made[0] is not self.diagnosis or made[1] != names:

@@ -12,6 +12,7 @@ from __future__ import annotations
 import re
 
 from fitcore import ledger
+from fitcore.review.flags import SEVERITY
 from fitcore.results.source import source_from_results
 from pricefold.cli import main
 from tests.cli.test_export_override_flags import _codes, _rows, run  # noqa: F401 (a fixture)
@@ -98,3 +99,24 @@ async def test_after_an_override_moves_the_row_the_cursor_goes_to_the_row_below_
         await pilot.pause()
         assert int((session.view == s).nonzero()[0][0]) != at  # it moved: its own flags are not its proposal's
         assert session.current == below
+
+
+async def test_the_evidence_of_an_override_says_its_own_flags_before_the_proposals_sentences(run, tmp_path):
+    """The list's row of an override to a flat curve showed no flag while the evidence beside it read '! [stop]
+    rising: the chosen curve has volume rising…' — the proposal's, unlabelled (a trial).  It now opens with the
+    override's own codes, as its row shows them, and says the sentences are the proposal's."""
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(run.book.read_bytes())
+    app = make_app(copy, source_from_results(run.parquet))
+    exported = _rows(run.exported["json"])
+    async with app.run_test(size=(160, 50)) as pilot:
+        session = await started(app, pilot)
+        for name in ("proposal rises", "below zero"):
+            record, model = run.cases[name]
+            session.bring(int(session.keys.indices_of([record["key"]])[0]))
+            app.screen.refresh_all()
+            own = exported[record["key"]["product"]]["flags"].split()
+            said = " · ".join(sorted(own, key=lambda code: SEVERITY[code] != "stop")) or "no flag"
+            lead = f"{model}, which stands: {said}. The flags below are the proposal's, {record['chosen']}'s:"
+            await until(pilot, lambda: lead in " ".join(screen_text(app).split()))
+            assert "rising" in _codes(record) if name == "proposal rises" else "below-zero" in own, name
