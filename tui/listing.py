@@ -156,6 +156,10 @@ class ListState:
         """(S,) the score each series' row shows (a session: ``Standing.listed_scores``)."""
         return np.asarray(self.results.score, dtype=float)
 
+    def listed_attention(self) -> np.ndarray:
+        """Series in attention order by the flags the rows show (a session: ``Standing.listed_attention``)."""
+        return self.diagnosis.attention_order()
+
     def _order(self) -> np.ndarray:
         if self.sort == "key":
             return self.keys.sorted_order()
@@ -164,7 +168,7 @@ class ListState:
             return np.argsort(np.where(np.isnan(score), -np.inf, score), kind="stable")
         if self.sort == "n":
             return np.argsort(self.results.data.counts, kind="stable")
-        return self.diagnosis.attention_order()
+        return self.listed_attention()
 
     def set_filter(self, name: str = KEEP, flag: str | None = KEEP) -> None:
         """Change the status filter, the flag filter (None: any), or both; ``KEEP`` leaves one as it is."""
@@ -211,15 +215,17 @@ class ListState:
         self._go(int(later[0] if len(later) else positions[0] if step > 0 else positions[-1]))
         return True
 
-    def after_decision(self, s: int) -> None:
+    def after_decision(self, s: int, before: np.ndarray | None = None) -> None:
         """Rebuild the list and put the cursor on the next row after ``s``: in the attention view, the next
         series needing attention; in any other (all series, pending, …) simply the next row, as a user
-        working down that list expects."""
-        position = self.cursor
+        working down that list expects.  ``before``: the view the decision was made in (the decision's own
+        reload re-sorts the list: an override moves by its own curve's flags and score)."""
+        view = self.view if before is None else before
+        at = np.flatnonzero(view == s)
+        position = int(at[0]) if before is not None and len(at) else self.cursor
         # the series that came after ``s`` before the list was re-sorted (its status changed, so it may move);
         # where ``s`` has left the view already, the one that took its row
-        at = np.flatnonzero(self.view == s)
-        after = [int(x) for x in self.view[(int(at[0]) + 1 if len(at) else position):] if x != s]
+        after = [int(x) for x in view[(int(at[0]) + 1 if len(at) else position):] if x != s]
         self.rebuild_view(keep=-1)
         listed = np.flatnonzero(self.view == after[0]) if after else []
         self._go(int(listed[0]) if len(listed) else min(position, max(len(self.view) - 1, 0)))

@@ -12,7 +12,7 @@ import math
 import numpy as np
 
 from fitcore.ledger.rules import NEWER_DUE, decided_on_newer
-from fitcore.review.flags import CODES, SEVERITY
+from fitcore.review.flags import SEVERITY
 
 from .ledger_series import CODE, fingerprint_reader
 from .text import clean
@@ -171,30 +171,52 @@ class Standing:
         own curve's — the override dialog's checks (``candidate_checks``) read for that candidate, as ``ledger
         export`` and ``show --ledger`` give them; else the results' (``flag_codes``: a pending series', an accept's,
         and beside ``proposes`` an accept of another fit's proposal)."""
-        codes = self.flag_codes(s)
-        name = self._standing_name(s) if self.status[s] == "overridden" else None
+        override = self.override_of(s)
+        if override is None:
+            return self.flag_codes(s)
+        from fitcore.review.shown_flags import override_codes
+        own = override_codes(self.diagnosis, s, *override, self._checked())
+        return sorted(own, key=lambda code: SEVERITY[code] != "stop")
+
+    def override_of(self, s: int) -> tuple[str, dict | None] | None:
+        """Where an override stands on series ``s``'s data making another model stand than the proposal: that model
+        and the decision's ``signed`` snapshot (``shown_flags.override_codes``); else None."""
+        name = self._standing_name(s) if self.status_code[s] == CODE["overridden"] else None
         chosen = int(self.results.chosen[s])
         if name is None or (chosen >= 0 and name == self.results.names[chosen]):
-            return codes
-        known = self.__dict__.setdefault("_own_flags", {})  # each override's checks made once for what it stands on
-        key = (id(self.results), s, name, tuple(codes))
-        if key not in known:
-            from fitcore.review.candidate_checks import standing_codes_in
-            own = standing_codes_in(self.results, s, name, codes, (self.standing(s) or {}).get("signed") or None,
-                                    self.diagnosis.thresholds, self.diagnosis.controls_outside(s))
-            known[key] = sorted(own, key=lambda code: SEVERITY[code] != "stop")
-        return list(known[key])
+            return None
+        return name, (self.standing(s) or {}).get("signed") or None
+
+    def _checked(self) -> dict:
+        """Each override's codes as checked (``shown_flags.override_codes``' memo): made once for these results."""
+        memo = self.__dict__.get("_own_flags")
+        if memo is None or memo[0] is not self.results:
+            memo = self.__dict__["_own_flags"] = (self.results, {})
+        return memo[1]
+
+    def _listed(self) -> tuple[np.ndarray, np.ndarray]:
+        """``(raised, order)``: ``listed_raised`` and ``listed_attention``, made again only where the diagnosis or an
+        override changed."""
+        overridden = np.flatnonzero(self.status_code == CODE["overridden"]).tolist()
+        overrides = {s: found for s in overridden if (found := self.override_of(s)) is not None}
+        names = tuple((s, name) for s, (name, _) in overrides.items())
+        made = self.__dict__.get("_listed_made")
+        if made is None or made[0] is not self.diagnosis or made[1] != names:
+            from fitcore.review.shown_flags import shown_order, shown_raised
+            raised = shown_raised(self.diagnosis, overrides, self._checked())
+            made = self.__dict__["_listed_made"] = (self.diagnosis, names, raised,
+                                                    shown_order(self.diagnosis, raised, overrides))
+        return made[2], made[3]
 
     def listed_raised(self) -> np.ndarray:
-        """(S, len(CODES)) bool: the flags the list shows of each series (``listed_flags``): the results' flags,
-        an override's rows its own curve's — what the flag filter and its counts go by, so that '⚑ rising' lists
-        the rows that say rising (it picked by the proposal's flags and listed a flat override; a trial)."""
-        raised = self.diagnosis.raised
-        overridden = np.flatnonzero(self.status_code == CODE["overridden"])
-        if not len(overridden):
-            return raised
-        raised = raised.copy()
-        for s in overridden.tolist():
-            shown = set(self.listed_flags(s))
-            raised[s] = [code in shown for code in CODES]
-        return raised
+        """(S, len(CODES)) bool: the flags the list shows of each series (``listed_flags``; ``shown_flags.
+        shown_raised``, as the report counts them): the results' flags, an override's rows its own curve's — what
+        the flag filter, its counts and the attention order go by, so that '⚑ rising' lists the rows that say
+        rising (it picked by the proposal's flags and listed a flat override; a trial)."""
+        return self._listed()[0]
+
+    def listed_attention(self) -> np.ndarray:
+        """Series indices in the list's attention order (``shown_flags.shown_order``, as the report orders): by the
+        flags the rows show (``listed_raised``), then the score — an override's its own curve's Q², as its row
+        shows it: an override to a clean curve no longer ranks by its proposal's stop flag or score."""
+        return self._listed()[1]

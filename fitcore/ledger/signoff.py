@@ -16,7 +16,7 @@ import numpy as np
 
 from ..data.keys import SeriesKeys
 from ..fit.results import Results
-from ..review.flags import CODES, SEVERITY, Diagnosis, mark_stale
+from ..review.flags import CODES, SEVERITY, STOP, Diagnosis, mark_stale
 from .replay import SeriesHistory, replay
 
 STATUSES = ("accepted", "overridden", "held", "pending", "stale")
@@ -75,7 +75,9 @@ class Signoff:
     ``individual``: (S,) a person decided the series one by one (any record that is not part of a
     bulk command); ``noted``: (S,) the series has a ``note`` record; ``histories``: series index →
     its ledger history (only series the ledger names); ``diagnosis``: flags with ``stale`` raised
-    from the ledger; ``unmatched``: records naming series these results do not hold.
+    from the ledger (the proposals' flags; ``raised``: the flags the rows show, an override's its own curve's, which
+    the counts, the table's rows and the detailed set go by); ``unmatched``: records naming series these results do
+    not hold.
     """
 
     results: Results
@@ -135,23 +137,60 @@ class Signoff:
             out[s] = decision["action"] if decision is not None else None
         return out
 
+    @cached_property
+    def overrides(self) -> dict[int, tuple[str, dict | None]]:
+        """Series an override stands on, on their data (not stale), making another model stand than the
+        proposal: series → that model and the decision's ``signed`` snapshot (``shown_flags.shown_raised``)."""
+        out = {}
+        names, chosen = self.results.names, self.results.chosen
+        for s in np.flatnonzero(self.status == STATUSES.index("overridden")).tolist():
+            current = self.standing(s) or {}
+            model = current.get("model")
+            if model not in (None, names[chosen[s]] if chosen[s] >= 0 else None):
+                out[s] = (str(model), current.get("signed") or None)
+        return out
+
+    @cached_property
+    def raised(self) -> np.ndarray:
+        """(S, len(CODES)) bool: the flags each series' row shows — the diagnosis's (``stale`` raised from the
+        ledger), an override's its own curve's (``shown_flags.shown_raised``): what the summary counts, the
+        decisions table and the sections in full list and order by."""
+        from ..review.shown_flags import shown_raised
+        return shown_raised(self.diagnosis, self.overrides)
+
+    def codes(self, s: int) -> list[str]:
+        """The flag codes series ``s``'s row shows (``raised``), in the order of ``flags.CODES``."""
+        return [code for code, hit in zip(CODES, self.raised[s]) if hit]
+
+    @cached_property
+    def _attention(self) -> np.ndarray:
+        from ..review.shown_flags import shown_order
+        return shown_order(self.diagnosis, self.raised, self.overrides)
+
     def flag_counts(self) -> dict[str, int]:
-        return self.diagnosis.counts()
+        """Series per flag, by the flags the rows show (``raised``); flags no series shows left out."""
+        totals = self.raised.sum(axis=0)
+        return {code: int(totals[i]) for i, code in enumerate(CODES) if totals[i]}
 
     def stop_flagged(self) -> np.ndarray:
-        """(S,) bool: at least one stop flag (``stale`` included)."""
-        return self.diagnosis.n_stop() > 0
+        """(S,) bool: the row shows at least one stop flag (``stale`` included)."""
+        return self.raised[:, STOP].any(axis=1)
+
+    def attention_order(self) -> np.ndarray:
+        """Series indices, most in need of a human first, by the flags the rows show and an override's own score
+        (``shown_flags.shown_order``)."""
+        return self._attention
 
     def table_rows(self) -> np.ndarray:
         """Series for the decisions table, in attention order: decided one by one, or stop-flagged."""
-        order = self.diagnosis.attention_order()
+        order = self.attention_order()
         return order[(self.individual | self.stop_flagged())[order]]
 
     def detailed(self, limit: int = DETAIL_LIMIT) -> tuple[np.ndarray, np.ndarray, int]:
         """``(decided, flagged, more)``: every overridden, held or noted series (an override or hold standing
         on older data too: stale); then at most ``limit`` further stop-flagged series (attention order); and how
         many stop-flagged series are left out."""
-        order = self.diagnosis.attention_order()
+        order = self.attention_order()
         decided = (self.status == STATUSES.index("overridden")) | (self.status == STATUSES.index("held")) | self.noted
         decided |= np.isin(self.stale_action, ["override", "hold"])
         flagged = self.stop_flagged() & ~decided

@@ -42,6 +42,7 @@ FLAGS = (
 )
 CODES = tuple(code for code, _, _ in FLAGS)
 SEVERITY = {code: severity for code, severity, _ in FLAGS}
+STOP = np.array([SEVERITY[code] == "stop" for code in CODES])  # (len(CODES),) the stop flags' columns
 GRID = 41  # points over the observed price range for the lowest volume (its lowest point is refined)
 SHAPE_BLOCK = 4096  # series put on the grid at once (bounds the work arrays)
 
@@ -64,16 +65,14 @@ class Diagnosis:
         return {code: int(totals[i]) for i, code in enumerate(CODES) if totals[i]}
 
     def n_stop(self) -> np.ndarray:
-        return self.raised[:, [SEVERITY[c] == "stop" for c in CODES]].sum(axis=1)
+        return self.raised[:, STOP].sum(axis=1)
 
     def n_warn(self) -> np.ndarray:
-        return self.raised[:, [SEVERITY[c] == "warn" for c in CODES]].sum(axis=1)
+        return self.raised[:, ~STOP].sum(axis=1)
 
     @cached_property
     def _attention(self) -> np.ndarray:
-        order = attention_order(self.n_stop(), self.n_warn(), self.results.score)
-        order.flags.writeable = False
-        return order
+        return attention_of(self.raised, self.results.score)
 
     def attention_order(self) -> np.ndarray:
         """Series indices, most in need of a human first (``attention``: stop flags, warn flags, low score)."""
@@ -92,6 +91,15 @@ class Diagnosis:
         from .sentences import sentence
         return [{"code": code, "severity": SEVERITY[code], "message": sentence(self, s, code)}
                 for i, code in enumerate(CODES) if self.raised[s, i]]
+
+
+def attention_of(raised: np.ndarray, score) -> np.ndarray:
+    """Series indices in attention order (``attention.attention_order``), read-only, by the flags ``raised``
+    (S, len(CODES)) and ``score`` (S,): a diagnosis's own, or the flags its rows show
+    (``shown_flags.shown_raised``)."""
+    order = attention_order(raised[:, STOP].sum(axis=1), raised[:, ~STOP].sum(axis=1), score)
+    order.flags.writeable = False
+    return order
 
 
 def mark_stale(diagnosis: Diagnosis, stale: np.ndarray) -> Diagnosis:

@@ -13,7 +13,7 @@ from fitcore.review.flags import SEVERITY
 from fitcore.review.plan_words import weighed_zero
 
 from .page import Report, alike, cell, elasticity, esc, interval, num, price, stale_parts, when
-from .tables import at_plan, by_whom, label, standing_codes_of
+from .tables import at_plan, by_whom, label
 
 
 def candidates(signoff: Signoff, s: int) -> str:
@@ -64,10 +64,9 @@ def flags(signoff: Signoff, s: int) -> str:
     table and the export give them), the sentences then said to be the proposal's (they read as the standing
     curve's: an override going below zero showed none, one that did not showed the proposal's; a trial)."""
     listed = signoff.diagnosis.flags_of(int(s))
-    own = standing_codes_of(signoff, s, [f["code"] for f in listed])
     lead = ""
-    if own is not None:
-        model = esc((signoff.standing(s) or {}).get("model"))
+    if s in signoff.overrides:
+        own, model = signoff.codes(s), esc(signoff.overrides[s][0])
         proposal = esc(signoff.results.names[int(signoff.results.chosen[s])])
         codes = ", ".join(f"<span class=\"sev-{SEVERITY[code]}\">{esc(code)}</span>" for code in own) or "none"
         lead = (f"<p><strong>{model}, which stands:</strong> {codes}."

@@ -301,7 +301,7 @@ def summary(report: Report) -> str:
     flag_html = ("<div class=\"wide\"><table><thead><tr><th>flag</th><th>severity</th><th class=\"num\">series</th>"
                  f"<th>meaning</th></tr></thead><tbody>{flag_rows}</tbody></table></div>"
                  if flags else "<p>No series carries a flag.</p>")
-    clean_count = int((~signoff.diagnosis.raised.any(axis=1)).sum())
+    clean_count = int((~signoff.raised.any(axis=1)).sum())  # by the flags the rows show: an override's its own
     return (f"<section id=\"summary\"><h2>Summary</h2><ul class=\"cards\">{card_html}</ul>{apart}"
             f"<p class=\"caution\">{esc(caution_of(report.header))}</p>"
             f"<div class=\"grid2\"><div><h3>Data and settings</h3>"

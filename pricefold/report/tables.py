@@ -13,7 +13,7 @@ from typing import NamedTuple
 
 from fitcore.ledger.signoff import STATUSES, Signoff
 from fitcore.review.candidate_checks import OF_THE_SERIES
-from fitcore.review.flags import CODES, SEVERITY
+from fitcore.review.flags import SEVERITY
 from fitcore.text import clean, reveal_unnormalised
 
 from .page import Report, alike, cell, elasticity, esc, interval, num, price, when
@@ -68,31 +68,14 @@ def bulk(signoff: Signoff, ledger_path: str, results_path: str) -> str:
 
 
 def _flag_cell(signoff: Signoff, s: int) -> str:
-    raised = signoff.diagnosis.raised[s]
-    codes = [code for i, code in enumerate(CODES) if raised[i]]
-    said = {f["code"]: f["message"] for f in signoff.diagnosis.flags_of(s)} if codes else {}
-    own = standing_codes_of(signoff, s, codes)
-    if own is not None:  # an override: its curve's flags (its checks have no sentence of the proposal's)
-        model = str((signoff.standing(s) or {}).get("model"))
-        said = {code: said[code] if code in OF_THE_SERIES else f"of {model}'s own curve" for code in own}
-        codes = own
+    codes = signoff.codes(s)  # an override's: its own curve's
+    said = {f["code"]: f["message"] for f in signoff.diagnosis.flags_of(s)} if signoff.diagnosis.raised[s].any() else {}
+    if s in signoff.overrides:  # its curve's checks have no sentence of the proposal's
+        model = signoff.overrides[s][0]
+        said = {code: said[code] if code in OF_THE_SERIES else f"of {model}'s own curve" for code in codes}
     codes.sort(key=lambda code: SEVERITY[code] != "stop")
     return " ".join(f"<span class=\"flag sev-{SEVERITY[c]}\" title=\"{esc(said.get(c, ''))}\">{c}</span>"
                     + (f" <span class=\"muted\">({GLOSS[c]})</span>" if c in GLOSS else "") for c in codes)
-
-
-def standing_codes_of(signoff: Signoff, s: int, codes: list[str]) -> list[str] | None:
-    """The flag codes of series ``s`` where an override stands on its data (not stale): its own curve's
-    (``candidate_checks.standing_codes_in``, as ``ledger export`` writes them) in place of the proposal's
-    ``codes``; None where no override stands (the proposal's codes are the row's)."""
-    from fitcore.review.candidate_checks import standing_codes_in
-    current = signoff.standing(s) or {}
-    results, diagnosis = signoff.results, signoff.diagnosis
-    proposal = results.names[results.chosen[s]] if results.chosen[s] >= 0 else None
-    if STATUSES[signoff.status[s]] != "overridden" or current.get("model") in (None, proposal):
-        return None
-    return standing_codes_in(results, s, current["model"], codes, current.get("signed") or None,
-                             diagnosis.thresholds, diagnosis.controls_outside(s))
 
 
 # What a stop flag cautions, beside its code where a reader of the table would otherwise see a code alone (the

@@ -50,6 +50,7 @@ class DecisionFlow:
 
     def decide(self, shown: Shown, action: str, model: str | None = None, note: str = "") -> None:
         """Record ``action`` on the series ``shown`` showed; say what happened, and move on after a decision."""
+        before = self.session.view  # (a rebuild makes a new array): the list the analyst was working down
         try:
             self.session.decide(shown, action, model=model, note=note)
         except PricefoldError as exc:  # refused by the screen or by the ledger's rules, or not written
@@ -60,7 +61,7 @@ class DecisionFlow:
         what = f" {model}" if action == "override" else ""
         self.notify(f"{TOLD[action]}{what}: {self.session.label(s)}", markup=False, timeout=3)
         if action in ("accept", "override", "hold"):
-            self.session.after_decision(s)
+            self.session.after_decision(s, before)
             self._moved_on_at = time.monotonic()  # the next series comes up now: ``too_soon`` waits longer for it
         else:
             self.session.bring(s)

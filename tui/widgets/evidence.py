@@ -242,8 +242,20 @@ class EvidencePanel(VerticalScroll, can_focus=True):
         return text
 
     def flags_text(self, s: int) -> Text:
+        """The flags with their sentences; where an override stands, its own curve's codes first (as its row in the
+        list shows them), the sentences then said to be the proposal's (they read as the standing curve's: an
+        override to a flat curve showed the proposal's '! rising' under the list's row of no flag; a trial)."""
         flags = sorted(self.session.diagnosis.flags_of(s), key=lambda f: SEVERITY[f["code"]] != "stop")
-        text = Text("No flags." if not flags else "", style="dim" if not flags else "")
+        override = self.session.override_of(s)
+        if override is None:
+            text = Text("No flags." if not flags else "", style="dim" if not flags else "")
+        else:
+            own = self.session.listed_flags(s)
+            text = Text(f"{clean(override[0])}, which stands: ", style="bold")
+            text.append(" · ".join(own) if own else "no flag",
+                        style=SEVERITY_STYLE[SEVERITY[own[0]]] if own else "dim")
+            proposal = self.session.results.names[int(self.session.results.chosen[s])]
+            text.append(f". The flags below are the proposal's, {proposal}'s:\n" if flags else ".\n")
         for f in flags:
             text.append(f"{'!' if f['severity'] == 'stop' else '?'} [{f['severity']}] {f['code']}: ",
                         style=SEVERITY_STYLE[f["severity"]])
@@ -312,11 +324,13 @@ class EvidencePanel(VerticalScroll, can_focus=True):
                 text.append(f"Overridden to {results.names[model]}", style="bold")
                 text.append(f" ({describe(standing)}): {clean(standing.get('note') or '')}\n")
             text.append(score_meaning(float(results.q2[s, model]), session.diagnosis.thresholds.weak_score) + ".\n")
-            diagnosis = session.diagnosis
-            from fitcore.review.candidate_checks import candidate_checks  # its curves: with the first override
-            checks = candidate_checks(results, s, model, diagnosis.thresholds, diagnosis.controls_outside(s)).codes
-            said = ", ".join(checks) if checks else "none raised"
-            text.append(f"Checks on {results.names[model]}: {said}.\n", style=SEVERITY_STYLE["stop"] if checks else "")
+            if other is not None:  # an override's own flags open the flags above (``flags_text``)
+                diagnosis = session.diagnosis
+                from fitcore.review.candidate_checks import candidate_checks  # its curves: with the first such
+                checks = candidate_checks(results, s, model, diagnosis.thresholds, diagnosis.controls_outside(s)).codes
+                said = ", ".join(checks) if checks else "none raised"
+                text.append(f"Checks on {results.names[model]}: {said}.\n",
+                            style=SEVERITY_STYLE["stop"] if checks else "")
         return text
 
     def plan_text(self, s: int) -> Text:
