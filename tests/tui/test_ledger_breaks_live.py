@@ -118,6 +118,34 @@ async def test_an_identical_copy_put_in_place_is_not_news_and_keeps_the_look_ali
         assert what_is_listed(session) == before and "≈" in text
 
 
+async def test_the_title_counts_the_rows_listed_once_a_series_another_decided_is_let_go(ledger_path):
+    """bo held the series under ana's cursor: it stays listed (``left list``) until she moves; then the title's
+    count is the rows listed, as the attention count is (a trial read '294 listed' beside 'attention 293')."""
+    from tui.factory import open_session, sample_source
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24), notifications=True) as pilot:
+        session = await started(app, pilot)
+        s, listed = session.current, len(session.view)
+        bo = open_session(sample_source(), ledger_path, BO)
+        bo.decide(bo.look(s), "hold", note="asking")
+        app.screen.poll_ledger()
+        await until(pilot, lambda: "left list: bo held" in screen_text(app))
+        assert f"{listed:,} listed" in screen_text(app)  # the pinned row is still one of them
+        await pilot.press("down")
+        await pilot.pause()
+        assert len(session.view) == listed - 1 == session.counts()["attention"]
+        assert f"{listed - 1:,} listed" in screen_text(app).splitlines()[0]
+        t = session.current  # again, left by ] (the next series needing attention)
+        bo.reload_ledger()
+        bo.decide(bo.look(t), "hold", note="asking too")
+        app.screen.poll_ledger()
+        await until(pilot, lambda: "left list: bo held" in screen_text(app))
+        await pilot.press("right_square_bracket")
+        await pilot.pause()
+        assert session.current != t and len(session.view) == listed - 2 == session.counts()["attention"]
+        assert f"{listed - 2:,} listed" in screen_text(app).splitlines()[0]
+
+
 async def test_a_line_that_is_no_record_appended_turns_the_header_and_keys_read_only_at_once(ledger_path):
     """No record comes with it, so nothing redrew the list: the header and the key line must still say it."""
     bo_decided(ledger_path)
