@@ -7,6 +7,7 @@ just made (a notification, the row marked ``← bo``), and its count dropped by 
 from __future__ import annotations
 
 import json
+import os
 
 from fitcore import ledger
 from fitcore.ledger import Identity
@@ -56,7 +57,7 @@ async def test_an_edit_in_place_under_the_screen_announces_nothing_and_keeps_the
 
 
 async def test_a_forged_record_appended_under_the_screen_is_not_news(ledger_path):
-    """A whole line appended that the chain refuses (a copy of bo's revoke, its time changed) breaks the ledger
+    """A whole line appended that the chain refuses (bo's revoke copied as an accept) breaks the ledger
     without a re-read: the record is not applied, and the screen says read-only at once."""
     bo_decided(ledger_path)
     app = make_app(ledger_path)
@@ -100,7 +101,6 @@ async def test_another_analysts_record_before_a_forged_one_is_news_and_the_forge
 async def test_an_identical_copy_put_in_place_is_not_news_and_keeps_the_look_alikes(ledger_path):
     """The same records under a new inode (a copy moved into place): read again from the start, intact; nothing
     is new, and the series spelled like a ledger series stays marked."""
-    import os
     bo_decided(ledger_path)
     app = make_app(ledger_path)
     async with app.run_test(size=(80, 24), notifications=True) as pilot:
