@@ -19,6 +19,7 @@ from fitcore.data.keys import SeriesKeys
 from fitcore.fit.results import Results
 from fitcore.collector import collector_paused
 from fitcore.ledger.replay import SeriesHistory, series_id
+from fitcore.ledger.replay import apply as replayed
 from fitcore.ledger.rules import what_happened
 from fitcore.review.flags import CODES, SEVERITY, Diagnosis, mark_stale, without_shifted
 
@@ -81,6 +82,10 @@ class TriageSession(Deciding, Standing, ListState):
         # verified in full here (or by the caller: ``book``, that ledger opened), then only its new tail
         self.book = book if book is not None else ledger.Ledger(self.ledger_path, key)
         self._applied, self._generation = 0, self.book.generation
+        # (generation, records, histories) of the book when last applied intact; once it turns broken under the
+        # screen, ``_kept``: the records and histories the screen goes on showing (``_keep_intact``)
+        self._intact: tuple | None = None
+        self._kept: tuple[list[dict], dict[str, SeriesHistory]] | None = None
         if self.book.state != ledger.INTACT:
             self.warnings.append(f"{self.ledger_path.name}: {self.book.state} ({self.book.problem}); "
                                  "decisions cannot be recorded")
@@ -101,7 +106,11 @@ class TriageSession(Deciding, Standing, ListState):
     # -- the ledger ------------------------------------------------------------------------
     @property
     def histories(self) -> dict[str, SeriesHistory]:
-        return self.book.histories
+        return self.book.histories if self._kept is None else self._kept[1]
+
+    @property
+    def _records(self) -> list[dict]:
+        return self.book.records if self._kept is None else self._kept[0]
 
     def reload_ledger(self, force: bool = False, pin: str | None = "waits") -> set[int]:
         """Read decisions recorded since the last look (by anyone); the series they touched.
@@ -116,16 +125,21 @@ class TriageSession(Deciding, Standing, ListState):
 
     def _catch_up(self, force: bool = False, pin: str | None = "waits") -> set[int]:
         """Statuses for the records the ledger holds that this session has not applied yet."""
-        if self.book.generation != self._generation:  # the file was read again from the start
+        if self._kept is None and self.book.problems and self._intact is not None:
+            self._kept = self._keep_intact(*self._intact)
+        seen = self._applied  # records shown before: history, never news (the same ones when read again intact)
+        if self._kept is None and self.book.generation != self._generation:  # read again from the start, intact
             self._applied, self._generation, force = 0, self.book.generation, True
             self.status[:], self.status_code[:], self.accepted_other_mask[:] = "pending", 0, False
             self.key_columns.reset()
             self.spellings.reset()
+            self._known.clear()  # every series looked up again, as on opening: the spellings learn the missing ones
             self.missing_signed.clear()
             self.missing_changes += 1
         everything = not self._applied  # every record: the replay has named their series already
-        records = self.book.records[self._applied:]
-        self._applied = len(self.book.records)
+        every = self._records
+        records, fresh = every[self._applied:], every[seen:]
+        self._applied = len(every)
         touched = ({sid: history.records[-1]["series"] for sid, history in self.histories.items()} if everything
                    else {series_id(r["series"]): r["series"] for r in records})
         self.key_columns.see(touched.values())
@@ -143,8 +157,8 @@ class TriageSession(Deciding, Standing, ListState):
         untested = bool(records) and self._untested(changed)  # decided on other data since the screen's backtest
         changed = set(changed)
         current = self.current
-        if current is not None and records and self.shown is not None:  # not what was there before the screen opened
-            theirs = [r for r in records if r.get("digest") not in self._written
+        if current is not None and fresh and self.shown is not None:  # not what was there before the screen opened
+            theirs = [r for r in fresh if r.get("digest") not in self._written
                       and self._known.get(series_id(r["series"])) == current]  # others' records on it
             self.news = theirs[-1] if theirs else self.news
         if untested:
@@ -156,7 +170,30 @@ class TriageSession(Deciding, Standing, ListState):
                 self.diagnosis = mark_stale(self.base_diagnosis, stale)
                 self._flagged = self.diagnosis.raised.any(axis=1)
             self.rebuild_view(pin=pin)
+        if not self.book.problems:
+            self._intact = (self.book.generation, self.book.records, self.book.histories)
         return changed
+
+    def _keep_intact(self, generation: int, records: list[dict],
+                     histories: dict[str, SeriesHistory]) -> tuple[list[dict], dict[str, SeriesHistory]]:
+        """The records and histories the screen goes on with once the ledger turned broken under it (or an older
+        copy was put back): those it last read intact (``generation``, ``records``, ``histories``), and of a tail
+        read since, the records before the first problem.  Nothing the chain refuses is applied, or told as news;
+        the screen is read-only (``writable``) and says why."""
+        if self.book.generation != generation:  # read again from the start: what it had stays as it was
+            return records, histories
+        intact = min(len(records), self.book.problem.line - 1)  # every line before the first problem is a record
+        refused = records[intact:]
+        if not refused:
+            return records, histories
+        histories, gone = dict(histories), {id(record) for record in refused}
+        for sid in {series_id(record["series"]) for record in refused}:
+            kept = [record for record in histories[sid].records if id(record) not in gone]
+            if kept:
+                histories[sid] = replayed({}, kept)[sid]
+            else:
+                del histories[sid]
+        return records[:intact], histories
 
     def _untested(self, changed: dict[int, str]) -> bool:
         """Whether a series ``changed`` (index → id) now stands stale on a decision the screen's live backtest (its
@@ -293,7 +330,7 @@ class TriageSession(Deciding, Standing, ListState):
         elif results.rows_loaded or getattr(results, "stored_backtest", None) is not None:
             from fitcore.ledger.backtest import cycle_of
             source = {"path": str(self.ledger_path), "head": self.book.head_text, "state": self.book.state}
-            self.base_diagnosis, self.backtest = cycle_of(results, diagnosis, self.book.histories, source)
+            self.base_diagnosis, self.backtest = cycle_of(results, diagnosis, self.histories, source)
         self.diagnosis = self.base_diagnosis
         self._flagged = self.diagnosis.raised.any(axis=1)
 

@@ -83,7 +83,8 @@ class TriageScreen(DecisionFlow, Screen):
         self._came_up: tuple[str | None, float] = (None, 0.0)  # the series shown and when it came up (``too_soon``)
         self._moved_on_at = -1.0  # when a decision here last moved the cursor on (``DecisionFlow.decide``)
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
-        self._keys_said: tuple = (None, None, None)  # the header's key columns, respellings and missing signed series
+        self._keys_said: tuple = (None, None, None, True)  # what the header says of the ledger (``ledger_said``)
+        self._listed = -1  # the rows the header counts as listed
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -142,6 +143,8 @@ class TriageScreen(DecisionFlow, Screen):
         if shown is not None and shown.sid != self._came_up[0]:
             self._came_up = (shown.sid, time.monotonic())
         self.evidence.show(s, now=self.evidence.series is None)
+        if len(self.session.view) != self._listed:  # a series another analyst decided let go as the cursor left it
+            self.update_status()
         self.refresh_footer()
 
     def refresh_footer(self) -> None:
@@ -158,12 +161,13 @@ class TriageScreen(DecisionFlow, Screen):
         text = status_text(self.session, max(self.size.width - 2, 20))
         lines = text.plain.count("\n")
         line.update(text, layout=lines != self._status_lines)
-        self._status_lines, self._keys_said = lines, self.ledger_said()
+        self._status_lines, self._keys_said, self._listed = lines, self.ledger_said(), len(self.session.view)
 
     def ledger_said(self) -> tuple:
-        """What the header says of the ledger beside these results (when it changes, the header is redrawn)."""
+        """What the header says of the ledger beside these results (when it changes, the header is redrawn),
+        and whether decisions can be recorded (a ledger turned broken brings no record to redraw the list by)."""
         session = self.session
-        return session.key_columns.said, session.spellings.said, session.missing.short()
+        return session.key_columns.said, session.spellings.said, session.missing.short(), session.writable
 
     def refresh_all(self) -> None:
         self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow
@@ -179,8 +183,9 @@ class TriageScreen(DecisionFlow, Screen):
             return
         said, before = self.session.key_columns.said, self._keys_said
         if self.ledger_said() != before:  # another analyst's records started (or joined) a set of key columns,
-            # brought a series spelled like these results' otherwise, or signed one they do not hold
+            # brought a series spelled like these results' otherwise, or signed one they do not hold; or it broke
             self.update_status()
+            self.refresh_footer()
             if said is not None and said != before[0]:
                 self.notify(f"The ledger changed: {said}. Your next decision asks first.", severity="warning",
                             timeout=10, markup=False)
