@@ -12,7 +12,7 @@ from pathlib import Path
 from rich.cells import cell_len
 from rich.text import Text
 
-from ..cells import cut
+from ..cells import cut, wrapped
 from ..listing import FILTER_TITLES, SORT_TITLES
 from ..text import clean, printable
 
@@ -49,9 +49,10 @@ def status_text(session, width: int) -> Text:
     watch = session.results_watch
     if watch is not None and watch.said:  # the results replaced on disk (a refit): one line, cut
         text.append("\n" + cut(printable(watch.said), width), style="bold")
-    for said in (keys_text(session.key_columns), spellings_text(session), elsewhere_text(session)):  # whole, while true
+    for said, capped in ((keys_text(session.key_columns), False), (spellings_text(session), True),
+                         (elsewhere_text(session), False)):  # while true; whole, but a look-alike's quoted name
         if said:
-            text.append("\n" + said, style="bold")
+            text.append("\n" + ("\n".join(notice_lines(said, width)) if capped else said), style="bold")
     said = rejected_short(session)
     if said:  # rows not fitted: one line, cut, each row under ?
         text.append("\n" + cut(said, width), style="bold")
@@ -59,6 +60,20 @@ def status_text(session, width: int) -> Text:
     if said:  # a note, not a warning (a team ledger may hold other ranges): one line, cut, in full under ?
         text.append("\n" + cut(f"Not in these results: {said}", width))
     return text
+
+
+NOTICE_LINES = 2  # the look-alikes' lines in the header at most: a long name took 10 of 24 lines at 80×24 (a trial)
+IN_FULL = " (? in full)"
+
+
+def notice_lines(said: str, width: int) -> list[str]:
+    """A notice the header shows while it holds, in ``NOTICE_LINES`` lines of ``width`` cells at most, broken
+    between words; where it is cut, its last line says that ``?`` shows it whole."""
+    out = wrapped(said, width, NOTICE_LINES)
+    if out[-1].endswith("…") and not said.endswith("…"):  # cut: room made for where to read the rest
+        body = cut(out[-1][:-1], width - cell_len(IN_FULL))
+        out[-1] = cut((body if body.endswith("…") else body + "…") + IN_FULL, width)
+    return out
 
 
 def missing_text(session) -> str | None:
