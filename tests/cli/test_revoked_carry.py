@@ -42,14 +42,18 @@ def fit_again(folder, name: str, book, weeks: str = "c2.csv"):
     return results
 
 
-def carry_revoked(folder, suffix: str):
-    """The trial's sequence: the second cycle carried, ``REVOKED``'s carry revoked with a note, the same data
-    fitted again with ``--ledger`` (so the fit read the revoke): ``(ledger, those results)``."""
+def carry_revoked(folder, suffix: str, capsys=None):
+    """The trial's sequence: the second cycle carried, ``REVOKED``'s carry revoked with a note (what the revoke
+    says checked, given ``capsys``), the same data fitted again with ``--ledger`` (so the fit read the revoke):
+    ``(ledger, those results)``."""
     book, results = first_cycle_then_second(folder, suffix)
     assert main(["ledger", "carry", str(results), "--ledger", str(book), "-q"]) == 0
     assert histories(book)[REVOKED].current["action"] == "carry"
     assert main(["ledger", "revoke", str(book), "--record", str(record_number(book, REVOKED)), "--note", WHY,
-                 "--analyst", "bo", "-q"]) == 0
+                 "--analyst", "bo"] + ["-q"] * (capsys is None)) == 0
+    if capsys is not None:
+        assert ("an earlier decision stands again: 'ledger carry' will not carry it to new data until someone "
+                "accepts, overrides or holds the series\n") in capsys.readouterr().err
     return book, fit_again(folder, f"r2b{suffix}", book)
 
 
@@ -66,7 +70,7 @@ def hand_accept(book, record: dict, who: ledger.Identity) -> dict:
 
 @pytest.mark.parametrize("suffix", [".json", ".parquet"])
 def test_a_revoked_carry_waits_for_a_person_then_a_later_cycle_carries_it(tmp_path, capsys, suffix):
-    book, results = carry_revoked(tmp_path, suffix)
+    book, results = carry_revoked(tmp_path, suffix, capsys)
     dues = show_dues(results, book, capsys)
     assert dues == {"revoked": 1}, dues  # the other seven stand carried to these data: due nothing
     assert carry_counts(results, book, capsys) == dues  # each stale series in exactly one of carry's counts
