@@ -47,8 +47,8 @@ def add_ledger_parser(commands):
                            "where some look like its own under another spelling (north for North)")
     bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
     revoke = sub.add_parser("revoke", help="withdraw your own standing decisions (named records, or a whole batch) "
-                                           "with a note saying why; what stood before stands again (not carried to new data "
-                                           "until someone decides the series)")
+                                           "with a note saying why; what stood before stands again (not carried "
+                                           "to new data until someone decides the series)")
     revoke.add_argument("ledger", type=Path, metavar="LEDGER")
     which = revoke.add_mutually_exclusive_group(required=True)
     which.add_argument("--record", type=record_number, nargs="+", metavar="N",

@@ -13,7 +13,7 @@ from __future__ import annotations
 import sys
 
 from fitcore import ledger
-from fitcore.ledger.replay import SeriesHistory, own_standing, series_id
+from fitcore.ledger.replay import own_standing, series_id
 from fitcore.ledger.rules import label, person, what_happened
 from fitcore.text import clean
 
@@ -67,7 +67,7 @@ def run_revoke(args) -> int:
             print(f"  #{decision['seq']} {label(decision['series'])}: {what_happened(decision)}", file=sys.stderr)
         if len(taken) > SAID:
             print(f"  … and {len(taken) - SAID:,} more (pricefold ledger show lists them)", file=sys.stderr)
-        again = sum(1 for r in written if (book.histories.get(series_id(r["series"])) or SeriesHistory()).revoked)
+        again = sum(1 for r in written if book.histories[series_id(r["series"])].revoked)  # (written: replayed)
         if again:  # ``SeriesHistory.revoked``: carry leaves them (due ``revoked``) until a person decides them
             said = ("an earlier decision stands again: 'ledger carry' will not carry it" if len(written) == 1 else
                     f"an earlier decision stands again on {again:,} of them: 'ledger carry' will not carry those")

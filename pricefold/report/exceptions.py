@@ -160,7 +160,8 @@ def section(report: Report, s: int) -> str:
     figure = chart_figure(report.chart(s))
     return (f"<article class=\"exception\" id=\"s{s}\"><h3>{label(results, s, report.tell_apart)}</h3>"
             f"<p class=\"meta\">{' · '.join(facts)}</p>{figure}<h4>Candidates</h4>{candidates(signoff, s)}"
-            f"<h4>Flags</h4>{flags(signoff, s, report.revoked(s))}{since(report, s)}<h4>Ledger</h4>{history(signoff, s)}</article>")
+            f"<h4>Flags</h4>{flags(signoff, s, report.revoked(s))}{since(report, s)}"
+            f"<h4>Ledger</h4>{history(signoff, s)}</article>")
 
 
 def exceptions(report: Report, decided, flagged, more: int) -> str:
