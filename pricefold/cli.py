@@ -344,7 +344,8 @@ def main(argv: list[str] | None = None) -> int:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 0
     except OSError as exc:  # the system refused a write pricefold did not foresee (a full disk under stdout)
-        where = f": {exc.filename}" if exc.filename else " writing the output"
+        where = (f": {exc.filename}" if exc.filename else "" if getattr(sys.stdout, "closed_by_shell", False)
+                 else " writing the output")
         print(f"pricefold {args.command}: {exc.strerror or exc}{where}", file=sys.stderr)
         return IO_FAILED
 
@@ -352,8 +353,9 @@ def main(argv: list[str] | None = None) -> int:
 def entry() -> None:
     """The installed ``pricefold`` command (and ``python -m pricefold``): ``main``, then the process ends
     without Python's teardown (``process_end``)."""
-    from . import interrupts
+    from . import interrupts, streams
     from .process_end import end_process
+    streams.set_up()
     interrupts.until_exit()
     try:
         code = main()

@@ -57,14 +57,20 @@ def run_export(args) -> int:
         header, parts = results_in_parts(args.results)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN,), must_exist=True)
     refuse_key_mismatch(args.results, header, book, args.ledger)  # else every row "pending", matching nothing
-    from fitcore.ledger.elsewhere import head_gone
+    from fitcore.ledger.elsewhere import backtested_elsewhere, head_gone
     gone = head_gone(args.results, header, book.records, args.ledger)
     if gone:  # an older copy restored, or its end cut: its rows would hand planning decisions that are gone
         raise ledger.LedgerError(f"{gone}; nothing was written (fit again with --ledger to export from it as it is)")
+    foreign = backtested_elsewhere(args.results, header, args.ledger)
+    if foreign:  # as show --ledger, carry and the screen: its shifted flags speak of another ledger's signers
+        print(f"pricefold ledger: {foreign}; its 'shifted' flags are left out of the export (fit again with --ledger "
+              "on this ledger)", file=sys.stderr)
     from fitcore.outputs import check_outputs
     from fitcore.results.read import results_inputs
-    check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
-                                              *results_inputs(header)])
+    to_stdout = str(args.output) == "-"  # for a pipe (``| head``): no file (it wrote one named '-'; a trial)
+    if not to_stdout:
+        check_outputs([(args.output, "export")], [("the ledger", args.ledger), ("the results", args.results),
+                                                  *results_inputs(header)])
     buffer = io.StringIO()
     # RFC 4180 line ends: with "\r\n" as the terminator the writer also quotes a cell holding a lone
     # carriage return (with "\n" alone, Python 3.11 wrote it bare and the row split in two).
@@ -96,6 +102,8 @@ def run_export(args) -> int:
             count += 1
             keys.append(key)
             status = history.status(fingerprint) if history else "pending"
+            if foreign and "shifted" in seen.codes:
+                seen = Seen(seen.lo, seen.hi, [code for code in seen.codes if code != "shifted"])
             if status == "stale" and decided_on_newer(key, fingerprint, last_date, history):
                 newer += 1
             current = history.current if history else None
@@ -159,9 +167,14 @@ def run_export(args) -> int:
         rows[row][at] = ""
     for row in rows:
         writer.writerow(made(row))
-    write_text(args.output, buffer.getvalue())
+    if to_stdout:
+        sys.stdout.write(buffer.getvalue())
+        sys.stdout.flush()
+    else:
+        write_text(args.output, buffer.getvalue())
     if not args.quiet:
-        print(f"{count:,} series written to {args.output} (ledger head {head})", file=sys.stderr)
+        print(f"{count:,} series written to {'standard output' if to_stdout else args.output} (ledger head {head})",
+              file=sys.stderr)
     return 0
 
 

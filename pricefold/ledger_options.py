@@ -30,7 +30,8 @@ def add_ledger_parser(commands):
     export = sub.add_parser("export", help="the current decision per series, as CSV for planning systems")
     export.add_argument("ledger", type=Path, metavar="LEDGER")
     export.add_argument("--results", type=Path, required=True, metavar="RESULTS")
-    export.add_argument("-o", "--output", action=OneFile, required=True, metavar="CSV")
+    export.add_argument("-o", "--output", action=OneFile, required=True, metavar="CSV",
+                        help="the CSV file to write (- : standard output, for a pipe)")
     export.add_argument("--raw", action="store_true",
                         help="write text cells as they are (by default a text cell starting with = + - @, "
                              "a tab or a carriage return gets a leading ' so spreadsheets do not run it)")

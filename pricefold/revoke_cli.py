@@ -15,7 +15,7 @@ import sys
 from fitcore import ledger
 from fitcore.ledger.replay import own_standing, series_id
 from fitcore.ledger.rules import label, person, what_happened
-from fitcore.text import clean
+from fitcore.text import clean, revealed
 
 from .ledger_cli import identity, open_ledger, record
 
@@ -63,8 +63,9 @@ def run_revoke(args) -> int:
         if args.batch is not None and not (by_seq(book.records)[args.batch].get("batch") or {}).get("id"):
             kept += f" (#{args.batch} was appended alone, a batch of one: itself only)"
         print(f"withdrew {len(written):,} decision{'s' * (len(written) != 1)}{kept} → {args.ledger}", file=sys.stderr)
-        for decision in taken[:SAID]:
-            print(f"  #{decision['seq']} {label(decision['series'])}: {what_happened(decision)}", file=sys.stderr)
+        for decision in taken[:SAID]:  # a space at a value's end shown (it read as a double space before " · ")
+            shown = " · ".join(revealed(clean(str(value))) for value in decision["series"].values())
+            print(f"  #{decision['seq']} {shown}: {what_happened(decision)}", file=sys.stderr)
         if len(taken) > SAID:
             print(f"  … and {len(taken) - SAID:,} more (pricefold ledger show lists them)", file=sys.stderr)
         again = sum(1 for r in written if book.histories[series_id(r["series"])].revoked)  # (written: replayed)

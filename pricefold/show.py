@@ -41,6 +41,11 @@ def filter_near_miss(every: Callable[[], list[dict]], typed_products: list[str],
     kept = kept_by(every(), products) if keys else []
     for name, value in keys.items():
         hint = hint or near_miss([value], (key.get(name) for key in kept), f"{name}=")
+    if not hint and typed_products and keys:  # the product is there elsewhere, and respelled where the keys point
+        from fitcore.text import EitherForm, original
+        wanted = {name: EitherForm([original(value)]) for name, value in keys.items()}
+        hint = near_miss(typed_products, first_values([key for key in every()
+                                                       if all(key.get(name) in form for name, form in wanted.items())]))
     return hint
 
 

@@ -107,10 +107,11 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
 
     from .ledger_cli import refuse_not_a_ledger
     refuse_not_a_ledger(ledger_path)  # after the inputs' checks: a ledger that is an input is said as such
-    from .terminal import require_terminal
+    from .terminal import drawn_on_the_terminal, require_terminal
     require_terminal("the triage screen")
     app = triage_app(source, ledger_path, analyst, stored, prepare)
-    app.run()
+    with drawn_on_the_terminal():
+        app.run()
     if app.failure is not None:
         raise PricefoldError(app.failure)
     if app.return_code == 130:

@@ -54,8 +54,8 @@ def checked_rows(rows: RawRows, path: Path, kind: str, delimiter: str | None, *,
         every = f" (every cell of this {'row' if kind == 'parquet' else 'line'} is empty)"
         fault(name, (mask & ~cells, said), (mask & cells, said + every), cell=False)
     price, not_number, _ = rows.numbers[PRICE]
-    fault(PRICE, (not_number | ~np.isfinite(price) | (price <= 0), "expected a price above zero"),
-          (np.isfinite(price) & (price > LARGEST), "expected a price of at most 1e15"))
+    fault(PRICE, (not_number | np.isnan(price) | (price <= 0), "expected a price above zero"),
+          (~not_number & (price > LARGEST), "expected a price of at most 1e15"))  # inf too
     for name in controls:
         values, not_number, missing = rows.numbers[name]
         fault(name, (not_number | (~np.isfinite(values) & ~missing), "expected a number (or an empty cell for the "

@@ -54,7 +54,7 @@ def check_file(path: Path) -> None:
     except (OSError, EOFError, zlib.error) as exc:
         raise DataError(f"cannot read the file ({compressed_trouble(exc)})", path=str(path)) from None
     if not head:
-        raise DataError("the file is empty; expected a header line and observations", path=str(path))
+        raise DataError("the file is empty; expected a header line and rows below it", path=str(path))
 
 
 # Compressions other than gzip, by their first bytes (each format's published magic number): their bytes read as

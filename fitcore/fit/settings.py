@@ -144,9 +144,9 @@ def _price(value) -> float | None:
         price = float(value) if not isinstance(value, bool) else math.nan
     except (TypeError, ValueError):
         price = math.nan
-    if not (math.isfinite(price) and price > 0):
+    if not price > 0:  # NaN too
         raise Invalid("a number above zero")
-    if price > LARGEST:  # as a plan file's price is refused (``plan_checks``), in the same words
+    if price > LARGEST:  # inf too: "above zero" was all it said of 1e400  # as a plan file's price is refused (``plan_checks``), in the same words
         raise Invalid(f"a price of at most {LARGEST:.0e}".replace("e+", "e"))
     return price
 

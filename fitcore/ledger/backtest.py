@@ -110,13 +110,16 @@ class Backtest:
     carried_at: np.ndarray
     planned: np.ndarray
     chosen: np.ndarray
+    signed_price_lo: np.ndarray  # the prices the signed curve was fitted over (its window)
+    signed_price_hi: np.ndarray
+    rows_outside: np.ndarray  # of the rows since, how many are priced outside them (-1: none tested)
 
     STORED = ("status", "decision", "latest", "carries", "analyst", "signed_at", "candidate", "last_date",
               "new_rows", "error_ratio", "coverage", "outside", "price", "planned", "signed_volume", "signed_lo",
               "signed_hi", "signed_price", "signed_plan_volume", "signed_plan_lo", "signed_plan_hi", "proposed_volume",
               "volume_change", "elasticity_change", "shape_changed", "shifted", "signed_near_best", "revised",
               "history_rows", "signed_rows", "history_ratio", "weighting", "settings_changed", "carried_action",
-              "carried_analyst", "carried_at")
+              "carried_analyst", "carried_at", "signed_price_lo", "signed_price_hi", "rows_outside")
 
     def columns(self) -> dict:
         return {name: getattr(self, name) for name in self.STORED}
@@ -176,7 +179,8 @@ def backtest(results: Results, standing, thresholds, source: dict) -> Backtest:
                elasticity_change=number(), shape_changed=np.zeros(n_s, bool), signed_near_best=np.zeros(n_s, bool),
                revised=np.zeros(n_s, bool), history_rows=np.full(n_s, -1, np.int64),
                signed_rows=np.full(n_s, -1, np.int64), history_ratio=number(), weighting=text(),
-               settings_changed=text(), carried_action=text(), carried_analyst=text(), carried_at=text())
+               settings_changed=text(), carried_action=text(), carried_analyst=text(), carried_at=text(),
+               signed_price_lo=number(), signed_price_hi=number(), rows_outside=np.full(n_s, -1, np.int64))
     series, mine = on_other_data(standing, SeriesKeys.of(results.data), results.data.fingerprints)
     reweighted = np.zeros(0, np.int64)
     if len(series):
@@ -252,6 +256,7 @@ def _fill(out: dict, results: Results, series: np.ndarray, st: Standing) -> None
             curve = _SignedCurves(st.take(members), BY_NAME[family_name], int(k))
             at = series[members]
             volume, lo, hi, elasticity = curve.at(price[members])
+            out["signed_price_lo"][at], out["signed_price_hi"][at] = curve.prices()
             out["signed_volume"][at], out["signed_lo"][at], out["signed_hi"][at] = volume, lo, hi
             with np.errstate(divide="ignore", invalid="ignore"):
                 out["volume_change"][at] = (proposed[members] - volume) / np.abs(volume)
@@ -276,6 +281,18 @@ class _SignedCurves:
         self.level = np.where(np.isfinite(st.level), st.level, 0.95)
         self.cv_mse = st.cv_mse
         self.n = st.n
+
+    def prices(self) -> tuple[np.ndarray, np.ndarray]:
+        """The lowest and highest price each curve was fitted over (its window's ends, in prices)."""
+        with np.errstate(over="ignore", invalid="ignore"):
+            return self.family.price_of(self.mid - self.half), self.family.price_of(self.mid + self.half)
+
+    def outside(self, price: np.ndarray, which: np.ndarray) -> np.ndarray:
+        """Whether ``price[i]`` lies outside the prices curve ``which[i]`` was fitted over (to a part in 1e9:
+        the window's ends are those prices through a logarithm and back, for loglog)."""
+        lo, hi = self.prices()
+        lo, hi = lo[which], hi[which]
+        return (price < lo - 1e-9 * np.abs(lo)) | (price > hi + 1e-9 * np.abs(hi))
 
     def at(self, price: np.ndarray, which: np.ndarray | None = None):
         """(volume, lo, hi, elasticity) of curve ``which[i]`` (default: i) at ``price[i]``."""
@@ -323,6 +340,8 @@ def _test_rows(out: dict, results: Results, series: np.ndarray, last: np.ndarray
         out["error_ratio"][at] = (rmse / np.sqrt(curve.cv_mse))[tested]
         out["coverage"][at] = np.where(banded, inside / np.maximum(count, 1), np.nan)[tested]
         out["outside"][at] = np.where(banded, count - inside, -1)[tested]
+    out["rows_outside"][series] = np.where(tested, np.bincount(owner, curve.outside(data.price[rows], owner),
+                                                               minlength=len(series)), -1)
 
 
 def _near_best(results: Results, series: np.ndarray, candidate: np.ndarray) -> np.ndarray:
@@ -368,7 +387,7 @@ class StoredBacktest:
             value = values[s]
             if isinstance(value, (float, np.floating)):
                 value = float(value) if np.isfinite(value) else None
-                if value is not None and name in ("new_rows", "outside"):
+                if value is not None and name in ("new_rows", "outside", "rows_outside"):
                     value = int(value)
             elif isinstance(value, np.bool_):
                 value = bool(value)

@@ -70,6 +70,7 @@ class Ledger:
         # refused as ``broken`` is, though the file read afresh may verify (``_vanished``)
         self.replaced = False
         self.exists = False
+        self.tail_moved_to: Path | None = None  # the side file this reader's last append moved a torn tail to
         self._chain = ChainState()
         self._unverifiable: Problem | None = None
         self._offset = self._line = 0

@@ -279,8 +279,19 @@ def bulk_groups(records: list[dict]) -> tuple[list[BulkGroup], set]:
         seqs.update(r.get("seq") for r in run)
         groups.append(BulkGroup(str(run[0].get("analyst", "")), "accept-unflagged" if run[0]["action"] == "accept"
                                 else str(run[0]["action"]), len(run), str(run[0].get("at", "")),
-                                str(run[-1].get("at", "")), str(run[0].get("note") or "")))
+                                str(run[-1].get("at", "")), run_note(run)))
     return groups, seqs
+
+
+def run_note(run: list[dict]) -> str:
+    """A bulk command's note: the one every record of it carries, or, where they differ (a carry says each
+    series' own plan price move), how many carry one and the first — not the first as if it were every one's
+    (a trial's report gave 194 carried series "to a new plan price: 1.46 → 1.65")."""
+    notes = [str(record.get("note") or "") for record in run]
+    if len(set(notes)) == 1:
+        return notes[0]
+    said = [note for note in notes if note]
+    return f"a note of its own on {len(said):,} of the {len(run):,} series, e.g. {said[0]}"
 
 
 def tallies(records: list[dict]) -> list[AnalystTally]:

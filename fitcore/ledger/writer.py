@@ -75,8 +75,9 @@ def append(book: Ledger, entries: Iterable[Entry] | Callable[[list[dict]], Itera
         if before is not None:
             before()
         with signals_after():  # a signal from here on is acted on once the records are whole and synced
+            book.tail_moved_to = None
             if os.fstat(fd).st_size > book.tail_start:
-                files.set_aside(fd, path, book.tail_start, clock())
+                book.tail_moved_to = files.set_aside(fd, path, book.tail_start, clock())
             files.write_all(fd, path, book.tail_start, lines)
             written = book.take_written(fd, records, lines)
             if recorded is not None:

@@ -393,17 +393,22 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
     band = f" ({span(number('signed_lo'), number('signed_hi'))})" if bt.get("signed_lo") is not None else ""
     signed_at = number("signed_price")  # the plan price it was signed at (unknown in results made before)
     head = f"{signed_by(bt)}: {clean(str(bt['candidate']))}"
+    fitted_over = (f"{money(number('signed_price_lo'))}–{money(number('signed_price_hi'))}"
+                   if bt.get("signed_price_lo") is not None and bt.get("signed_price_hi") is not None else None)
+    beyond = (f", an extrapolation beyond the prices {fitted_over} it was signed on"
+              if fitted_over and _outside(number("price"), number("signed_price_lo"), number("signed_price_hi")) else "")
     if bt.get("signed_volume") is None:
         parts = [head + "."]
     elif not math.isfinite(signed_at) or math.isclose(signed_at, number("price"), rel_tol=1e-12, abs_tol=0.0):
-        parts = [f"{head}, {fmt(number('signed_volume'))}{band} at {where}."]
+        parts = [f"{head}, {fmt(number('signed_volume'))}{band} at {where}{beyond}."]
     else:  # signed at another price: what was signed there, then the signed curve where this cycle looks
         signed_band = (f" ({span(number('signed_plan_lo'), number('signed_plan_hi'))})"
                        if bt.get("signed_plan_lo") is not None else "")
         said = (f", {fmt(number('signed_plan_volume'))}{signed_band} at {money(signed_at)}"
                 if bt.get("signed_plan_volume") is not None else f" at {money(signed_at)}")
         now = "this plan's price " if bt.get("planned") else ""
-        parts = [f"{head}{said}; at {now}{where} the signed curve gives {fmt(number('signed_volume'))}{band}."]
+        parts = [f"{head}{said}; at {now}{where} the signed curve gives {fmt(number('signed_volume'))}{band}"
+                 f"{beyond}."]
     n = bt.get("new_rows") or 0
     gone = bt["status"] == "history-changed"
     if bt.get("revised"):
@@ -412,7 +417,11 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
         tail = (f"{bt['outside']} of {n} fell outside its band" if bt.get("outside") is not None
                 else "its band was not recorded")
         whose = "the carried refit's error" if bt.get("carried_analyst") else "its error"
-        parts.append(f"On the {n} {'observation' if n == 1 else 'observations'} since, {whose} is "
+        away = bt.get("rows_outside") or 0
+        which = "" if n == 1 else "all " if away == n else f"{away} of them "
+        aside = f" ({which}priced outside the {fitted_over} it was signed on, where its band is wide)" \
+            if away and fitted_over else ""
+        parts.append(f"On the {n} {'observation' if n == 1 else 'observations'} since{aside}, {whose} is "
                      f"{number('error_ratio'):.1f}× its CV error and {tail}.")
     elif not gone:
         how = f" ({clean(str(bt['weighting']))})" if bt.get("weighting") else ""
@@ -425,6 +434,11 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
         whose = "The proposal of these older results" if older else "This cycle's proposal"
         parts.append(f"{whose}, {proposal}{again}, predicts {fmt(proposed)} ({beside}).")
     return " ".join(parts)
+
+
+def _outside(price: float, lo: float, hi: float) -> bool:
+    """``price`` lies outside [lo, hi] (to a part in 1e9, as ``ledger.backtest`` counts the rows since)."""
+    return price < lo - 1e-9 * abs(lo) or price > hi + 1e-9 * abs(hi)
 
 
 def signed_by(bt: dict) -> str:

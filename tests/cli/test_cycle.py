@@ -443,3 +443,48 @@ def test_a_revised_history_is_carried_only_on_request_and_a_reordered_file_is_no
     assert carried["action"] == "carry" and carried["note"] == (
         "weekly dates moved to Tuesdays; history revised since signing: carried with --carry-revised")
     assert sum(h.current["action"] == "carry" for h in histories(copy).values()) <= signed
+
+
+def test_a_signed_curve_tested_and_priced_outside_the_prices_it_was_signed_on_says_it_is_an_extrapolation(
+        tmp_path, capsys):
+    """A trial: the signed curve saw prices 1.21–1.77; the new plan price 2.23 and all 8 new rows lay outside,
+    and the sentence said only "0 of 8 fell outside its band" — true because the band is enormous out there.
+    Now the backtest keeps the prices the curve was signed on (its window's ends) and how many rows since lie
+    outside them, and the sentence says so; a series tested inside them says nothing of it."""
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    common = ["--date", "week", "--degrees", "0-1", "--no-loglog", "--quiet"]
+    assert main(["fit", str(tmp_path / "c1.csv"), "--plan-price", "2.3", "-o", str(tmp_path / "r1.json"), *common]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    rows = list(csv.reader(open(tmp_path / "c1.csv")))
+    moved = "item 2"  # its price raised to 3.00–3.25 for six weeks; the others' six new weeks inside the old prices
+    for w in range(40, 46):
+        for i in range(N_SERIES):
+            price = 3.0 + 0.05 * (w - 40) if f"item {i}" == moved else 2.1 + 0.05 * (w - 40)
+            rows.append([f"item {i}", (date(2025, 1, 6) + timedelta(weeks=w)).isoformat(), f"{price:.2f}",
+                         f"{1000 - 200 * price:.1f}"])
+    with open(tmp_path / "c2.csv", "w", newline="") as handle:
+        csv.writer(handle).writerows(rows)
+    (tmp_path / "plan.csv").write_text("product,plan_price\n" + "".join(
+        f"item {i},{3.1 if f'item {i}' == moved else 2.3}\n" for i in range(N_SERIES)))
+    for out in ("r2.json", "r2.parquet"):
+        assert main(["fit", str(tmp_path / "c2.csv"), "--plan", str(tmp_path / "plan.csv"), "-o", str(tmp_path / out),
+                     "--ledger", str(book), *common]) == 0
+    by_key = {r["key"]["product"]: r for r in json.loads((tmp_path / "r2.json").read_text())["series"]}
+    signed_prices = [float(r[2]) for r in rows[1:41 * N_SERIES] if r[0] == moved and r[1] < "2025-10-13"]
+    bt = by_key[moved]["backtest"]
+    assert len(signed_prices) == 40 and bt["new_rows"] == 6 and bt["rows_outside"] == 6
+    assert (bt["signed_price_lo"], bt["signed_price_hi"]) == pytest.approx((min(signed_prices), max(signed_prices)),
+                                                                            rel=1e-12)  # the CSV's own prices
+    inside = by_key["item 5"]["backtest"]
+    assert inside["new_rows"] == 6 and inside["rows_outside"] == 0
+    fitted_over = f"{min(signed_prices):.2f}–{max(signed_prices):.2f}"
+    for results in ("r2.json", "r2.parquet"):
+        capsys.readouterr()
+        assert main(["show", str(tmp_path / results), "--ledger", str(book), "--product", moved]) == 0
+        said = " ".join(capsys.readouterr().out.split())
+        assert "the signed curve gives" in said and f", an extrapolation beyond the prices {fitted_over} it was signed on." in said
+        assert f"On the 6 observations since (all priced outside the {fitted_over} it was signed on, where its band is wide)," in said
+        assert main(["show", str(tmp_path / results), "--ledger", str(book), "--product", "item 5"]) == 0
+        said = " ".join(capsys.readouterr().out.split())
+        assert "On the 6 observations since, its error" in said and "it was signed on" not in said

@@ -142,7 +142,8 @@ def test_non_numeric_cell_is_rejected_with_its_line_or_fails_when_strict(tmp_pat
     (["--degrees", "2-9"], "expected --degrees to be whole numbers from 0 to 5"),
     (["--fold-order", "time"], "needs the date column"),
     (["--plan-price", "-3"], "expected --plan-price to be a number above zero, got -3"),
-    (["--plan-price", "inf"], "expected --plan-price to be a number above zero, got inf"),
+    (["--plan-price", "inf"], "expected --plan-price to be a price of at most 1e15, got inf"),
+    (["--plan-price", "nan"], "expected --plan-price to be a number above zero, got nan"),
 ])
 def test_bad_settings_are_one_line(tmp_path, args, message):
     done = run_cli("fit", str(SAMPLE / "wholesale.csv"), "-o", str(tmp_path / "r.json"), *args)

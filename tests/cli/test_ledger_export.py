@@ -4,6 +4,7 @@ from __future__ import annotations
 import csv
 import json
 import hashlib
+import io
 import os
 
 import numpy as np
@@ -138,3 +139,16 @@ def test_a_renamed_key_header_clashes_with_no_other():
     assert key_headers(["product", "region"]) == {"product": "product", "region": "region"}
     headers = list(key_headers(["family", "key_family", "key_key_family"]).values()) + list(COLUMNS)
     assert len(set(headers)) == len(headers)
+
+
+def test_dash_writes_the_csv_to_standard_output_and_no_file(tmp_path, signed, capsys, monkeypatch):
+    """A trial: ``-o -`` wrote a file named '-' ('46 series written to -'), and ``-o /dev/stdout`` is refused (not
+    a regular file), so the export could not be piped.  ``-o -`` is the CSV on standard output, as the file holds it."""
+    results, path = signed
+    file_rows = export(results, path, tmp_path / "out.csv")
+    monkeypatch.chdir(tmp_path)
+    capsys.readouterr()
+    assert main(["ledger", "export", str(path), "--results", str(results), "-o", "-"]) == 0
+    said = capsys.readouterr()
+    assert list(csv.reader(io.StringIO(said.out, newline=""))) == file_rows and not (tmp_path / "-").exists()
+    assert f"{len(NAMES)} series written to standard output (ledger head " in said.err

@@ -13,7 +13,7 @@ from collections import Counter
 from fitcore import ledger
 from pricefold.cli import main
 
-from .test_cycle import first_cycle_signed, fit, write_weeks
+from .test_cycle import MOVER, first_cycle_signed, fit, write_weeks
 
 
 def with_segment(source, out, name: str, values=("North", "East")) -> None:
@@ -243,7 +243,6 @@ def test_accept_unflagged_into_another_ledger_says_so_and_counts_not_its_shifted
     """Results fitted with ``--ledger L`` accepted into another ledger: one warning line (the screen's and
     ``show --ledger``'s words), and ``shifted`` (L's signed curve failing) does not keep a series from an
     accept in a ledger where nothing stands on it (before: silent, and the series left out)."""
-    from .test_cycle import MOVER
     book, other = tmp_path / "L.jsonl", tmp_path / "other.jsonl"
     first = first_cycle_signed(tmp_path, book)
     held = first["item 0"]  # the other ledger: one hold, on another series than the mover
@@ -276,7 +275,6 @@ def test_a_second_carry_counts_from_the_ledger_as_it_is_now(tmp_path, capsys):
     ``show --ledger`` lists it due nothing (before: the results' reasons, as at the fit, counted again)."""
     from fitcore.ledger.replay import series_id
 
-    from .test_cycle import MOVER
     book = tmp_path / "L.jsonl"
     first_cycle_signed(tmp_path, book)
     write_weeks(tmp_path / "c2.csv", 44, drop_from=40)  # the mover's new weeks 40% lower: its backtest fails
@@ -329,3 +327,29 @@ def test_dask_fit_says_results_sharing_no_series_with_the_ledger(tmp_path, capsy
     err = capsys.readouterr().err
     assert f"none of the {len(ledger.Ledger(book).histories)} series in {book} is in these results" in err
     assert "ledger: none of its series is in these results" in err
+
+
+def test_export_leaves_out_the_shifted_flags_of_a_backtest_against_another_ledger(tmp_path, capsys):
+    """A trial: export read with another ledger than the results' fit said nothing, and its flags column carried
+    'shifted' judged against the other ledger's signers (show, carry and the screen leave it out, and say so)."""
+    book = tmp_path / "L.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    other = tmp_path / "other.jsonl"
+    other.write_bytes(book.read_bytes())
+    write_weeks(tmp_path / "c2.csv", 46, drop_from=40, seed=9)  # one series' demand drops: shifted
+    fit(tmp_path / "c2.csv", tmp_path / "r2.json", book)
+    flags = {}
+    for name, ledger_path in (("own", book), ("other", other)):
+        capsys.readouterr()
+        out = tmp_path / f"{name}.csv"
+        assert main(["ledger", "export", str(ledger_path), "--results", str(tmp_path / "r2.json"), "-o", str(out),
+                     "-q"]) == 0
+        flags[name] = {row["product"]: row["flags"] for row in csv.DictReader(open(out, newline=""))}
+        flags[name + " said"] = capsys.readouterr().err
+    assert "shifted" in flags["own"][MOVER] and "backtested against" not in flags["own said"]
+    assert not any("shifted" in codes for codes in flags["other"].values())
+    assert flags["other"][MOVER] == " ".join(c for c in flags["own"][MOVER].split() if c != "shifted")
+    assert (f"{tmp_path / 'r2.json'}: backtested against {book}, not {other}; its 'shifted' flags are left out of the "
+            "export") in flags["other said"]

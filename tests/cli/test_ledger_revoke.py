@@ -185,3 +185,13 @@ def test_a_batch_withdrawn_names_five_and_counts_the_rest(tmp_path, monkeypatch,
     assert [line.split(":")[0] for line in err[1:6]] == [f"  #{i} item {i} · North" for i in range(1, 6)]
     assert err[6] == "  … and 3 more (pricefold ledger show lists them)" and err[7].startswith("ledger head ")
     assert len(err) == 8  # no note: every one was recorded under this name
+
+
+def test_a_space_at_the_end_of_a_key_value_is_shown_in_the_summary(tmp_path, monkeypatch, capsys):
+    """A trial: 'drunim crisps 140 g  · Oskar Flats' — a product's trailing space read as a double space."""
+    path = tmp_path / "decisions.jsonl"
+    ledger.Ledger(path).append([ledger.Entry(series={"product": "item 1 ", "region": "North"}, action="accept",
+                                             fingerprint=FP, results=RESULTS, model="poly1", proposed="poly1")], ANA)
+    monkeypatch.setattr(revoke_cli, "identity", lambda analyst: ANA)
+    assert revoke(path, "--record", "1", "--note", "a fresh look") == 0
+    assert capsys.readouterr().err.splitlines()[1].startswith("  #1 item 1⟨U+0020⟩ · North: ana accepted poly1 at ")

@@ -233,3 +233,15 @@ def test_a_series_shown_alone_reads_apart_from_its_twin(cycle, capsys):
     assert code == 0 and out.startswith("lemons 500 g · North⟨U+0020⟩ — ")
     code, out, _ = run(capsys, "show", results, "--product", "pears 1 kg", "--key", "region=North")
     assert code == 0 and out.startswith("pears 1 kg · North — ")  # a plain key: as it is, no key read
+
+
+def test_a_product_respelled_only_where_the_keys_point_is_hinted():
+    """A trial: ``--product "zormav jam 100 g" --key region=Wexmoor`` said only "no series matches" — the product is
+    there in other regions, and respelled in that one ('Zormav Jam 100 g'), which ``--product`` alone hinted at."""
+    from fitcore.text import EitherForm
+    from pricefold.show import filter_near_miss
+    keys = [{"product": "lemons 500 g", "region": "North"}, {"product": "Lemons 500 g", "region": "East"},
+            {"product": "limes 500 g", "region": "East"}]
+    hint = filter_near_miss(lambda: keys, ["lemons 500 g"], EitherForm(["lemons 500 g"]), {"region": "East"})
+    assert hint == "; did you mean 'Lemons 500 g'?"
+    assert filter_near_miss(lambda: keys, ["lemons 500 g"], EitherForm(["lemons 500 g"]), {"region": "West"}) == ""

@@ -121,8 +121,11 @@ def test_accept_unflagged_refuses_respellings_until_new_series_says_they_are_new
     capsys.readouterr()
     assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(book)]) == 2
     err = capsys.readouterr().err
-    assert err == (f"pricefold ledger: {results}: {count} series in these results look like series in {book} under another "
-                   f"spelling ({EXAMPLE}); nothing was written (new series all the same? then add --new-series)\n")
+    kept = (f"; the ledger's series they look like keep {count} decisions under their own spelling, which these results "
+            f"do not carry on ({count} accepts; e.g. the accept of ")  # what the accept would leave behind (a trial)
+    assert err.startswith(f"pricefold ledger: {results}: {count} series in these results look like series in {book} "
+                          f"under another spelling ({EXAMPLE}){kept}")
+    assert err.endswith("; nothing was written (new series all the same? then add --new-series)\n")
     assert book.read_bytes() == before
     assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(book), "--new-series"]) == 0
     err = capsys.readouterr().err.splitlines()
@@ -131,7 +134,7 @@ def test_accept_unflagged_refuses_respellings_until_new_series_says_they_are_new
     keys = [(r["series"]["product"], r["series"]["region"]) for r in records]
     alike = [k for k in keys if k not in prior and (k[0], k[1].strip().title()) in prior]
     new = [k for k in keys if k not in prior and k not in alike]  # the new product, and respellings of unsigned series
-    assert len(err) == 4 and err[0].endswith("accepted as new series (--new-series)")
+    assert len(err) == 4 and "accepted as new series (--new-series)" + kept in err[0]
     assert f"note: {count} signed series in {book} are not in these results (" in err[1]
     assert err[2] == (f"accepted {len(records)} unflagged series without a decision → {book}; {len(new)} of them new to "
                       f"the ledger, spelled like none of its series; {len(alike)} spelled like its own otherwise, "
@@ -250,3 +253,32 @@ def test_a_look_alike_alone_in_its_list_is_told_apart_from_the_ledgers_spelling(
     assert main(["show", str(tmp_path / "next.json"), "--ledger", str(book), "--product", "South "]) == 0
     out = capsys.readouterr().out
     assert out.startswith("South⟨U+0020⟩ — ") and "  looks like South in " in out
+
+
+def test_a_bulk_accept_of_a_respelled_series_names_the_override_it_leaves_behind(tmp_path, capsys):
+    """A trial: ana's override of a series, then the data spelled its product with a trailing space; the bulk accept
+    with --new-series said only that it looked like a ledger series — not that an override stood there, which the
+    accept now leaves behind (the export then read the proposal)."""
+    from fitcore.ledger.snapshot import from_records
+    from fitcore.results.read import read_results
+    book = tmp_path / "ledger.jsonl"
+    assert main(["fit", str(SAMPLE / "wholesale.csv"), "--segment", "region", "-o", str(tmp_path / "r1.json"), "-q"]) == 0
+    record = next(r for r in read_results(tmp_path / "r1.json")[1]
+                  if r["key"] == {"product": TRAILING, "region": "South"})
+    other = next(c["name"] for c in record["candidates"] if c["available"] and c["name"] != record["chosen"])
+    ledger.append(book, [ledger.Entry(series=record["key"], action="override", fingerprint=record["fingerprint"],
+                                      results="ab" * 32, model=other, proposed=record["chosen"], note="the buyer's view",
+                                      signed=from_records([(record, other)], 0.95)[0])],
+                  ledger.Identity("ana", "ana", "host"))
+    with open(SAMPLE / "wholesale.csv", newline="") as src, open(tmp_path / "next.csv", "w", newline="") as out:
+        rows = csv.DictReader(src)
+        write = csv.DictWriter(out, rows.fieldnames)
+        write.writeheader()
+        write.writerows(respelled(row) if row["product"] == TRAILING else row for row in rows)
+    assert main(["fit", str(tmp_path / "next.csv"), "--segment", "region", "-o", str(tmp_path / "r2.json"), "-q"]) == 0
+    kept = ("; the ledger's series it looks like keeps its decision under its own spelling, which these results do not "
+            f"carry on (an override of {TRAILING} · South: {other} by ana)")
+    capsys.readouterr()
+    for extra, code in (([], 2), (["--new-series"], 0)):
+        assert main(["ledger", "accept-unflagged", str(tmp_path / "r2.json"), "--ledger", str(book), *extra]) == code
+        assert kept in capsys.readouterr().err, extra

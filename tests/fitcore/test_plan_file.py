@@ -292,9 +292,10 @@ def test_a_parquet_control_that_is_not_finite_or_too_large_is_refused(tmp_path, 
 
 def test_a_plan_price_beyond_what_the_fit_carries_is_refused(tmp_path, data):
     path = tmp_path / "plan.csv"
-    path.write_text(HEADER + "apples,North,1e16,0\n", encoding="utf-8")
-    error = refused(data, path)
-    assert error.column == "plan_price" and str(error).endswith("expected a price of at most 1e15, found '1e16'")
+    for cell in ("1e16", "inf", "1e400"):  # infinite ones too, not "expected a price above zero" (a trial)
+        path.write_text(HEADER + f"apples,North,{cell},0\n", encoding="utf-8")
+        error = refused(data, path)
+        assert error.column == "plan_price" and str(error).endswith(f"expected a price of at most 1e15, found '{cell}'")
 
 
 @pytest.mark.parametrize("kind", ["csv", "parquet"])

@@ -72,7 +72,8 @@ def test_the_command_line_wins_over_the_file_and_the_file_over_the_defaults(tmp_
     ("--seed", "seed", "18446744073709551616", "a whole number from 0 to 18446744073709551615"),  # wrapped to 0
     ("--plan-price", "plan_price", "1e300", "a price of at most 1e15"),  # as a plan file's
     ("--degrees", "degrees", '"9"', "whole numbers from 0 to 5"),
-    ("--plan-price", "plan_price", "inf", "a number above zero"),
+    ("--plan-price", "plan_price", "nan", "a number above zero"),
+    ("--plan-price", "plan_price", "inf", "a price of at most 1e15"),  # not "above zero" (a trial)
     ("--sep", "sep", '";;"', "one character other than a quote or a line break"),
 ])
 def test_a_value_is_refused_by_the_same_check_from_either_place(tmp_path, flag, key, value, phrase):

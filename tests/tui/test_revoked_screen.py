@@ -22,6 +22,12 @@ from tui.factory import Source, open_session, open_stored_session
 KEY = {"product": REVOKED}
 
 
+def dialog_text(app) -> str:
+    """The words inside the open dialog's box, its wrapped lines joined."""
+    inside = [line.split("│")[1].strip() for line in screen_text(app).splitlines() if line.count("│") >= 2]
+    return " ".join(part for part in inside if part)
+
+
 def shown_due(results, book, product: str = REVOKED) -> str:
     """What ``show --ledger`` says ``product`` is due, from the results file's record."""
     record = next(r for r in read_results(results)[1] if r["key"]["product"] == product)
@@ -45,8 +51,8 @@ async def test_a_revoke_on_the_screen_leaves_the_older_decision_due_a_person(tmp
         await until(pilot, lambda: session.status[s] == "accepted")
         await pilot.press("u")  # ... and taken back: last cycle's accept stands again
         await until(pilot, lambda: "Revoke your accept" in screen_text(app))
-        assert "(on other data than these:" in screen_text(app)  # (the dialog wraps its lines)
-        assert "ledger carry will not carry it until someone decides the" in screen_text(app)
+        assert ("made on other data than these: the series reads stale, and ledger carry will not carry it until "
+                "someone decides the series.") in dialog_text(app)
         await pilot.press(*"want a fresh look", "enter")
         await until(pilot, lambda: session.status[s] == "stale")
         said = session.due(s)

@@ -441,3 +441,26 @@ async def test_in_the_all_series_view_an_accept_moves_to_the_next_row(ledger_pat
         await pilot.press("a")
         await until(pilot, lambda: session.current == following)
         assert session.filter == "all" and session.cursor in (row, row + 1)
+
+
+async def test_the_revoke_dialog_says_when_what_stands_again_was_made_on_other_data(ledger_path):
+    """A trial: 'bo accepted poly2 at 13:53:07 UTC stands again' — an accept on last cycle's data, so the series
+    reads stale after the revoke, which the dialog did not say."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(100, 30), notifications=True) as pilot:
+        session = await started(app, pilot)
+        s = session.current
+        key = session.results.data.key_of(s)
+        fledger.append(ledger_path, [fledger.Entry(series=key, action="accept", fingerprint="0" * 64,
+                                                   results="ab" * 32, model="poly1", proposed="poly1")],
+                       fledger.Identity("bo", "bo", "host"))  # last cycle's decision, by another analyst
+        await until(pilot, lambda: session.status[s] == "stale")  # the screen shows it (decisions bind to that)
+        session.bring(s)
+        await pilot.press("h", "enter")  # held on these data
+        await pilot.pause()
+        assert session.status[s] == "held"
+        await pilot.press("u")
+        await pilot.pause()
+        said = " ".join(screen_text(app).split())
+        assert "stands again, made on other data than these: the" in said and "series reads stale," in said, said
+        await pilot.press("escape")

@@ -20,6 +20,7 @@ WARN = Style(color="#d7af5f")
 DONE = Style(color="#87af87")
 NEWS = Style(color="#5fafff", italic=True)
 DIM = Style(dim=True)
+PLAIN = Style()  # never a segment without a style: Textual's NO_COLOR filter reads every segment's (None crashed it)
 CURSOR = Style(reverse=True)
 KEY_MOST = 40  # cells the key column takes at most
 FLAGS_KEEP = 14  # cells the flags column keeps before a long key takes more than three fifths ("!outside-range")
@@ -160,13 +161,13 @@ class SeriesList(ScrollView, can_focus=True):
                          if len(h) <= flags_w or h == "flags")
             n_w = self.count_width()
             head = f"  {pad('series', key_w)} {'n':>{n_w}} {'model':<7} {'score':>5}  {pad(flags, flags_w)}"
-            return Strip([Segment(head, Style(bold=True, underline=True))]).crop(0, width).extend_cell_length(width)
+            return Strip([Segment(head, Style(bold=True, underline=True))]).crop(0, width).extend_cell_length(width, PLAIN)
         row = y - 1 + int(self.scroll_y)
         session = self.session
         if not len(session.view):
             said = session.empty_words()
             text = f"  {said[row]}" if row < len(said) else ""
-            return Strip([Segment(text, Style(dim=True))]).crop(0, width).extend_cell_length(width)
+            return Strip([Segment(text, Style(dim=True))]).crop(0, width).extend_cell_length(width, PLAIN)
         if row >= len(session.view):
             return Strip.blank(width)
         s = int(session.view[row])
@@ -209,7 +210,7 @@ class SeriesList(ScrollView, can_focus=True):
         segments = [
             Segment(f"{STATUS_MARK[status]} ", mark_style),
             Segment(f"{label} {results.data.counts[s]:>{self.count_width()}} "
-                    f"{name:<7} {score_text:>5}  "),
+                    f"{name:<7} {score_text:>5}  ", PLAIN),
         ]
         if news is not None:  # someone else just decided it: say who
             lead = "left list: " if session.waiting else "← "
@@ -223,7 +224,7 @@ class SeriesList(ScrollView, can_focus=True):
             rest = flags_w - cell_len(lead)
             segments += [Segment(lead, WARN), Segment(pad(short_flags(flags, rest)
                                                           or ("" if lead else "—"), rest), flag_style)]
-        return Strip(segments).crop(0, width).extend_cell_length(width)
+        return Strip(segments).crop(0, width).extend_cell_length(width, PLAIN)
 
     def on_focus(self) -> None:
         self.refresh()
