@@ -1,6 +1,6 @@
 """``ledger carry``: carry a signed decision to new data where nothing moved (the backtest passed, the shape is
-still the proposal, no stop flag, no shift), by the rule ``show --ledger`` says as what is due
-(``fitcore.ledger.due.left_for_human``).
+still the proposal, no stop flag, no shift; no revoke left it standing), by the rule ``show --ledger`` says as
+what is due (``fitcore.ledger.due.left_for_human``, after ``moved_since``).
 """
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from fitcore import ledger
-from fitcore.ledger.due import CHANGED_DUE_SHORT, changed_since_fit
+from fitcore.ledger.due import CHANGED_DUE_SHORT, changed_since_fit, recorded_due
 from fitcore.ledger.elsewhere import backtested_elsewhere, head_gone
 from fitcore.collector import collector_paused
 from fitcore.ledger.replay import series_id
@@ -52,12 +52,16 @@ def newer_first(why: str | None, status: str, key: dict, fingerprint: str, last_
 
 
 def moved_since(tested: dict | None, history, key: dict, fingerprint: str, last_date: str | None) -> str | None:
-    """Carry's reason for leaving a stale series the ledger moved on for since the fit (``tested``: the results'
-    backtest of it, or None; ``due.changed_since_fit``), as ``show --ledger`` and the screen say it: decided
-    on newer data first, else changed since the fit; None where it did not move (or it is held: ``held_left``)."""
-    if not changed_since_fit(tested, history) or history.current["action"] == "hold":
+    """Carry's reason for leaving a stale series by what its ledger records say, whatever its backtest: the ledger
+    moved on for it since the fit (``tested``: the results' backtest of it, or None; ``due.changed_since_fit``), or
+    what stands on it is what a revoke left, nobody having decided it since (``SeriesHistory.revoked``) — as
+    ``show --ledger`` and the screen say it: decided on newer data first, then changed since the fit, then
+    revoked; None where neither holds (or it is held: ``held_left``)."""
+    if history is None or history.current is None or history.current["action"] == "hold":
         return None
-    return NEWER_DUE_SHORT if decided_on_newer(key, fingerprint, last_date, history) else CHANGED_DUE_SHORT
+    if not changed_since_fit(tested, history) and history.revoked is None:
+        return None
+    return recorded_due(history, lambda: decided_on_newer(key, fingerprint, last_date, history), tested, True, True)
 
 
 def decided_since(history, fingerprint: str) -> bool:
@@ -242,14 +246,15 @@ def _decided(histories: dict, keys, fingerprints) -> np.ndarray:
 
 
 def _moved(histories: dict, keys, fingerprints, status, latest, series_of) -> dict:
-    """Series index → why carry leaves it, for each series of ``keys`` the ledger moved on for since the fit
-    (``moved_since``; ``status``, ``latest``: the stored backtest's columns; ``series_of``: index → keys,
-    fingerprints, last dates), asked of the ledger's series whose standing decision is on other data."""
+    """Series index → why carry leaves it, for each series of ``keys`` the ledger moved on for since the fit or
+    whose standing decision a revoke left (``moved_since``; ``status``, ``latest``: the stored backtest's columns;
+    ``series_of``: index → keys, fingerprints, last dates), asked of the ledger's series whose standing decision
+    is on other data."""
     mine = [h for h in histories.values() if h.current is not None and h.current["action"] != "hold"]
     moved = {}  # index → (history, what the fit tested): the few asked their keys and words below
     for history, s, fingerprint in _found(mine, keys, fingerprints):
         tested = None if status[s] is None else {"latest": latest[s]}
-        if history.status(fingerprint) == "stale" and changed_since_fit(tested, history):
+        if history.status(fingerprint) == "stale" and (changed_since_fit(tested, history) or history.revoked):
             moved[s] = history, tested
     return {s: moved_since(tested, history, key, fingerprint, last) for (s, (history, tested)), key, fingerprint, last
             in zip(moved.items(), *series_of(list(moved)))}

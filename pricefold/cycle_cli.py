@@ -10,7 +10,6 @@ from functools import lru_cache
 from pathlib import Path
 
 from fitcore.data.keys import SEPARATOR
-from fitcore.ledger.due import CHANGED_DUE, CHANGED_DUE_SHORT, changed_since_fit
 from fitcore.ledger.elsewhere import HEAD_GONE_TAIL, backtested_elsewhere, head_gone, without_backtest
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, what_stands
@@ -22,21 +21,21 @@ from .show import key_parts
 
 
 def ledger_state(record: dict, book, short: bool = False, fitted: bool = False) -> tuple[str, str | None]:
-    """(status in the ledger, what it needs) of a results record (``short``: for the list's column)."""
-    from fitcore.ledger.due import carried_across, due, untested_due
+    """(status in the ledger, what it needs) of a results record (``short``: for the list's column; ``fitted``: the
+    results were fitted with --ledger on this ledger).  What the ledger's records say first (``recorded_due``:
+    decided on newer data, held, changed since the fit, revoked), as carry counts it and the screen says it;
+    else the results' backtest."""
+    from fitcore.ledger.due import carried_across, due, recorded_due
     history = book.histories.get(series_id(record["key"]))
     status = history.status(record["fingerprint"]) if history else "pending"
     if status in ("accepted", "overridden") and history.current["action"] == "carry":
         status = f"{status} (carried)"
-    needs = None
-    if status == "stale" and decided_on_newer(record["key"], record["fingerprint"], record.get("last_date"), history):
-        needs = NEWER_DUE_SHORT if short else NEWER_DUE  # as the screen says: the ledger refuses decisions here
-    elif status == "stale" and history.current["action"] == "hold":  # whatever a backtest tested before it
-        needs = untested_due(history.current, short)
-    elif status == "stale" and fitted and changed_since_fit(record.get("backtest"), history):
-        # the ledger moved on since the fit read it (``fitted``: the results were fitted with --ledger on this one)
-        needs = CHANGED_DUE_SHORT if short else CHANGED_DUE  # as carry counts it and the screen says it
-    elif status == "stale" and record.get("backtest"):
+    if status != "stale":
+        return status, None
+    needs = recorded_due(history, lambda: decided_on_newer(record["key"], record["fingerprint"],
+                                                           record.get("last_date"), history),
+                         record.get("backtest"), fitted, short)
+    if needs is None and record.get("backtest"):
         bt = record["backtest"]
         stops = [f["code"] for f in record["flags"] if f["code"] in stop_codes()]
         near = bt["signed_near_best"] if "signed_near_best" in bt else (  # results made before it was kept
@@ -45,9 +44,8 @@ def ledger_state(record: dict, book, short: bool = False, fitted: bool = False) 
         needs = due(bt, stops, record["chosen"] is not None, kept)
         if not short:  # what a carry would carry it across besides new rows, said in its note too
             needs = "; ".join([needs, *carried_across(bt)])
-    if status == "stale" and needs is None:  # a hold signs no curve; anything else: these results hold none
-        needs = untested_due(history.current, short) or (
-            "not backtested" if short else "no backtest in these results (fit with --ledger)")
+    if needs is None:  # these results hold no backtest of it
+        needs = "not backtested" if short else "no backtest in these results (fit with --ledger)"
     return status, needs
 
 

@@ -48,7 +48,8 @@ def add_ledger_parser(commands):
                            "where some look like its own under another spelling (north for North)")
     bulk.add_argument("-q", "--quiet", action="store_true", help="no summary and no head on success (warnings still go to stderr)")
     revoke = sub.add_parser("revoke", help="withdraw your own standing decisions (named records, or a whole batch) "
-                                           "with a note saying why; what stood before stands again")
+                                           "with a note saying why; what stood before stands again (not carried "
+                                           "to new data until someone decides the series)")
     revoke.add_argument("ledger", type=Path, metavar="LEDGER")
     which = revoke.add_mutually_exclusive_group(required=True)
     which.add_argument("--record", type=record_number, nargs="+", metavar="N",
@@ -95,8 +96,9 @@ def add_carry_parser(sub) -> None:
                            description="Record a carry for every series whose standing decision was made on "
                                        "older data, whose signed shape is still the proposal (an override: still "
                                        "available and within one standard error of the lowest CV error), whose "
-                                       "backtest passed, with no stop flag and no 'shifted' flag. RESULTS must "
-                                       "come from 'pricefold fit --ledger' on the same ledger.")
+                                       "backtest passed, with no stop flag and no 'shifted' flag, and which no revoke "
+                                       "left standing (a series revoked waits for a person's decision). RESULTS "
+                                       "must come from 'pricefold fit --ledger' on the same ledger.")
     carry.add_argument("results", type=Path, metavar="RESULTS")
     carry.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
     carry.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")

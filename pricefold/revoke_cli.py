@@ -68,6 +68,11 @@ def run_revoke(args) -> int:
             print(f"  #{decision['seq']} {shown}: {what_happened(decision)}", file=sys.stderr)
         if len(taken) > SAID:
             print(f"  … and {len(taken) - SAID:,} more (pricefold ledger show lists them)", file=sys.stderr)
+        again = sum(1 for r in written if book.histories[series_id(r["series"])].revoked)  # (written: replayed)
+        if again:  # ``SeriesHistory.revoked``: carry leaves them (due ``revoked``) until a person decides them
+            said = ("an earlier decision stands again: 'ledger carry' will not carry it" if len(written) == 1 else
+                    f"an earlier decision stands again on {again:,} of them: 'ledger carry' will not carry those")
+            print(f"{said} to new data until someone accepts, overrides or holds the series", file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     others = sorted({clean(d["analyst"]) for d in taken if d["analyst"] != who.analyst})
     if others:  # one OS user may record under several names: the rule is the OS user's (said even with -q)

@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-from fitcore.ledger.rules import NEWER_DUE, decided_on_newer
+from fitcore.ledger.rules import decided_on_newer
 from fitcore.review.flags import SEVERITY
 
 from .ledger_series import CODE, fingerprint_reader
@@ -22,22 +22,19 @@ class Standing:
     """The decisions standing on the session's series, and the models they made stand."""
 
     def due(self, s: int) -> str | None:
-        """What a signed series whose data changed needs (backtest failed, shifted, no dates, …)."""
+        """What a signed series whose data changed needs (backtest failed, shifted, no dates, …): what the ledger's
+        records say first (``recorded_due``: decided on newer data — the ledger refuses decisions here —, held,
+        changed since the fit of a results file's own backtest, revoked), as ``show --ledger`` and carry say it;
+        else the backtest's word (a live one, made here against this ledger, once the rows are fitted)."""
         if self.status[s] != "stale":
             return None
         from fitcore.ledger.backtest import StoredBacktest, within_one_se
-        from fitcore.ledger.due import CHANGED_DUE, changed_since_fit, untested_due
-        if self.decided_on_newer(s):  # the ledger refuses decisions here
-            return NEWER_DUE
-        held = untested_due(self.standing(s))  # a hold's own words, whatever a backtest tested before it
-        if held is not None:
-            return held
-        # the results file's backtest (a live one is made here, against this ledger): its fit read the ledger
-        # before the series' latest record, so it cannot say what is due — as show and carry say it
-        if isinstance(self.backtest, StoredBacktest) and changed_since_fit(self.backtest_of(s),
-                                                                            self.histories.get(self._id(s))):
-            return CHANGED_DUE
-        found = None
+        from fitcore.ledger.due import recorded_due
+        stored = isinstance(self.backtest, StoredBacktest)  # its fit read the ledger at its own time
+        found = recorded_due(self.histories.get(self._id(s)), lambda: self.decided_on_newer(s),
+                             self.backtest_of(s) if stored else None, stored)
+        if found is not None:
+            return found
         if self.backtest is not None and self.backtest_of(s) is not None:  # carry's own rule (``left_for_human``)
             results, record = self.results, self.backtest_of(s)
             names = results.names

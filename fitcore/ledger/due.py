@@ -1,7 +1,8 @@
 """What a series signed on other data is due, from its backtest: the statuses a backtest ends in, the one rule by
 which ``ledger carry`` carries or leaves a series (``left_for_human``) and the words ``show --ledger``, the screen
-and carry's counts say it in (``due``, ``untested_due``, ``changed_since_fit``), and what a carry is carried
-across besides new rows (``carried_across``).  The backtest itself, over every series at once: ``backtest``.
+and carry's counts say it in (``due``, ``untested_due``, ``changed_since_fit``, ``revoked_due``), and what a carry
+is carried across besides new rows (``carried_across``).  The backtest itself, over every series at once:
+``backtest``.
 """
 from __future__ import annotations
 
@@ -94,6 +95,46 @@ def changed_since_fit(tested: dict | None, history) -> bool:
     if history is None or history.current is None:
         return False
     return tested is None or tested.get("latest") != history.latest["digest"]
+
+
+REVOKED_DUE_SHORT = "revoked"
+
+
+def recorded_due(history, newer, tested: dict | None = None, fitted: bool = False, short: bool = False) -> str | None:
+    """What a stale series is due by its ledger records alone, whatever a backtest finds — the first that holds:
+    the decision standing on it was made on newer data than the rows shown (``newer()``, asked only here:
+    ``rules.decided_on_newer``), it is a hold (``untested_due``), the ledger moved on for it since results fitted
+    with ``--ledger`` on this ledger read it (``fitted``; ``tested``: their backtest of the series, or None;
+    ``changed_since_fit``), or what stands is what a revoke left (``revoked_due``).  None: its backtest says
+    (``due``).  ``show --ledger``, the screen, the report and carry's counts ask it in this order (``short``:
+    a list's column, carry's count)."""
+    from .rules import NEWER_DUE, NEWER_DUE_SHORT
+    if newer():
+        return NEWER_DUE_SHORT if short else NEWER_DUE
+    held = untested_due(history.current, short)
+    if held is not None:
+        return held
+    if fitted and changed_since_fit(tested, history):
+        return CHANGED_DUE_SHORT if short else CHANGED_DUE
+    return revoked_due(history, short)
+
+
+def revoked_due(history, short: bool = False) -> str | None:
+    """What a stale series is due where a decision on it was revoked and no decision has been recorded since
+    (``history``: its ``SeriesHistory``; ``SeriesHistory.revoked``): a person withdrew what stood, so what stands
+    again is a fallback, not a sign-off to carry — 'revoked by bo (root) at 2026-12-05 14:02 UTC: "want a fresh
+    look"' (``short``: ``REVOKED_DUE_SHORT``, a list's column and carry's count).  Asked after
+    ``changed_since_fit`` (a revoke the fit never read is that); None where no such revoke stands."""
+    revoke = history.revoked if history is not None else None
+    if revoke is None:
+        return None
+    if short:
+        return REVOKED_DUE_SHORT
+    from ..text import clean
+    from .rules import person
+    note = clean(str(revoke.get("note") or "")).strip()
+    said = f"{REVOKED_DUE_SHORT} by {person(revoke)} at {clean(str(revoke['at'])[:16].replace('T', ' '))} UTC"
+    return said + (f': "{note}"' if note else "")
 
 
 def carried_across(bt: dict) -> list[str]:

@@ -67,6 +67,20 @@ class SeriesHistory:
         """The analyst's decision that stands: the standing record, or what a standing carry carries."""
         return self.carried or self.current
 
+    @property
+    def revoked(self) -> dict | None:
+        """The revoke after which no decision has been recorded on the series while one still stands: its latest
+        record but notes (a note decides nothing), where that is a revoke.  What stands then is what was left
+        when a person withdrew a decision, not a sign-off made afresh: ``ledger carry`` leaves the series for a
+        person (``due.revoked_due``) and the rules refuse to carry it.  None: no revoke since the latest
+        decision, or nothing stands (pending)."""
+        if not self.standing:
+            return None
+        for record in reversed(self.records):
+            if record["action"] != "note":
+                return record if record["action"] == "revoke" else None
+        return None
+
     def standing_model(self, fingerprint: str) -> str | None:
         """The candidate that stands on the data ``fingerprint`` names by an analyst's decision: the model of
         the accept or override standing on these very data (made on them, or carried to them); None where none

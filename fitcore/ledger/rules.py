@@ -10,8 +10,10 @@ then (so no path — screen, command, script — can skip them).  Pure: historie
 - ``revoke`` withdraws one's own standing decision — a /2 decision only by the OS user who made
   it, a /1 decision by its display name — and is refused when there is none;
 - ``supersedes`` must still be the series' latest record (else ``LedgerConflict``);
-- at most one standing ``carry`` per series and data fingerprint (one withdrawn may be carried again), and it
-  must name an accept or override of that series;
+- at most one standing ``carry`` per series and data fingerprint, and it must name an accept or override of that
+  series;
+- no ``carry`` on a series whose latest record but notes is a revoke (``SeriesHistory.revoked``): what a revoke
+  leaves standing is a fallback, which waits for a person's accept, override or hold before it is carried;
 - one append holds at most one record per series (a second could not name the first's digest);
 - an accept, override, hold or carry on data older than those the standing decision was made on is
   refused (``newer_standing``): an analyst on last cycle's results cannot replace this cycle's sign-off.
@@ -89,6 +91,10 @@ def _check_action(entry: Entry, history: SeriesHistory | None, who: Identity) ->
         done = next((r for r in standing if r["action"] == "carry" and r["fingerprint"] == entry.fingerprint), None)
         if done is not None:
             raise LedgerError(f"{label(entry.series)}: already carried to this data ({what_happened(done)})")
+        revoke = history.revoked if history else None
+        if revoke is not None:
+            raise LedgerError(f"{label(entry.series)}: {what_happened(revoke)} and nobody has decided it since: what "
+                              "stands again is for a person to accept, override or hold, not to carry")
         if not any(r["digest"] == entry.carries and r["action"] in ("accept", "override") for r in records):
             raise LedgerError(f"{label(entry.series)}: a carry must name an accept or override of this series; "
                               f"{entry.carries[:12]}… is not one")

@@ -59,10 +59,12 @@ def _share(x) -> str:
 NEWER_STALE = "The last sign-off was made on newer data than these results: read the report of the newer results."
 
 
-def flags(signoff: Signoff, s: int) -> str:
+def flags(signoff: Signoff, s: int, revoked: str | None = None) -> str:
     """The flags with their sentences; where an override stands, its own curve's codes first (as the decisions
     table and the export give them), the sentences then said to be the proposal's (they read as the standing
-    curve's: an override going below zero showed none, one that did not showed the proposal's; a trial)."""
+    curve's: an override going below zero showed none, one that did not showed the proposal's; a trial).
+    ``revoked``: what a stale series whose decision a revoke left is due (``Report.revoked``), after ``stale``'s
+    sentence."""
     listed = signoff.diagnosis.flags_of(int(s))
     lead = ""
     if s in signoff.overrides:
@@ -76,6 +78,8 @@ def flags(signoff: Signoff, s: int) -> str:
     listed.sort(key=lambda f: f["severity"] != "stop")
     if signoff.newer[s]:  # not "the data behind the last sign-off have changed": these results are the older
         listed = [{**f, "message": NEWER_STALE} if f["code"] == "stale" else f for f in listed]
+    if revoked is not None:  # as show --ledger and the screen say it: carry leaves it for a person
+        listed = [{**f, "message": f"{f['message']} Due: {revoked}."} if f["code"] == "stale" else f for f in listed]
     items = "".join(f"<li><span class=\"sev-{f['severity']}\">{f['severity']} · {esc(f['code'])}</span>: "
                     f"{esc(f['message'])}</li>" for f in listed)
     return f"{lead}<ul class=\"flags\">{items}</ul>"
@@ -155,7 +159,8 @@ def section(report: Report, s: int) -> str:
     figure = chart_figure(report.chart(s))
     return (f"<article class=\"exception\" id=\"s{s}\"><h3>{label(results, s, report.tell_apart)}</h3>"
             f"<p class=\"meta\">{' · '.join(facts)}</p>{figure}<h4>Candidates</h4>{candidates(signoff, s)}"
-            f"<h4>Flags</h4>{flags(signoff, s)}{since(report, s)}<h4>Ledger</h4>{history(signoff, s)}</article>")
+            f"<h4>Flags</h4>{flags(signoff, s, report.revoked(s))}{since(report, s)}"
+            f"<h4>Ledger</h4>{history(signoff, s)}</article>")
 
 
 def exceptions(report: Report, decided, flagged, more: int) -> str:

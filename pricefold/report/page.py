@@ -54,6 +54,23 @@ class Report:
     missing: tuple = ()  # those signed series, each named (``Missing.listed``)
     head_gone: str | None = None  # the ledger no longer holds the head the results' fit read (``elsewhere.head_gone``)
 
+    def revoked(self, s: int) -> str | None:
+        """What stale series ``s`` is due where a revoke left its standing decision and nobody has decided it since,
+        in full ('revoked by bo (root) at 2026-12-05 14:07 UTC: "want a fresh look"'), by the rule the screen, ``show
+        --ledger`` and carry go by (``due.recorded_due``: decided on newer data, held, changed since the fit of the
+        results' own backtest come first); None where it is due anything else."""
+        from fitcore.ledger.backtest import StoredBacktest
+        from fitcore.ledger.due import recorded_due, revoked_due
+        from fitcore.ledger.signoff import STATUSES
+        signoff = self.signoff
+        history = signoff.histories.get(int(s))
+        if STATUSES[signoff.status[s]] != "stale" or history is None or history.revoked is None:
+            return None
+        stored = isinstance(self.backtest, StoredBacktest)
+        said = recorded_due(history, lambda: bool(signoff.newer[s]), self.backtest.record(s) if stored else None,
+                            stored)
+        return said if said == revoked_due(history) else None
+
 
 def esc(text) -> str:
     """Users' text made safe for HTML: control characters replaced, markup characters escaped."""

@@ -67,15 +67,18 @@ def bulk(signoff: Signoff, ledger_path: str, results_path: str) -> str:
             f"-o decisions.csv</code>.</p>")
 
 
-def _flag_cell(signoff: Signoff, s: int) -> str:
+def _flag_cell(signoff: Signoff, s: int, revoked: str | None = None) -> str:
+    """The row's flags, stop flags first, each with its sentence as its title; ``revoked``: what a stale series
+    whose decision a revoke left is due (``Report.revoked``), said beside ``stale`` in place of its gloss."""
     codes = signoff.codes(s)  # an override's: its own curve's
     said = {f["code"]: f["message"] for f in signoff.diagnosis.flags_of(s)} if signoff.diagnosis.raised[s].any() else {}
+    gloss = GLOSS if revoked is None else {**GLOSS, "stale": f"{GLOSS['stale']}; due: {esc(revoked)}"}
     if s in signoff.overrides:  # its curve's checks have no sentence of the proposal's
         model = signoff.overrides[s][0]
         said = {code: said[code] if code in OF_THE_SERIES else f"of {model}'s own curve" for code in codes}
     codes.sort(key=lambda code: SEVERITY[code] != "stop")
     return " ".join(f"<span class=\"flag sev-{SEVERITY[c]}\" title=\"{esc(said.get(c, ''))}\">{c}</span>"
-                    + (f" <span class=\"muted\">({GLOSS[c]})</span>" if c in GLOSS else "") for c in codes)
+                    + (f" <span class=\"muted\">({gloss[c]})</span>" if c in gloss else "") for c in codes)
 
 
 # What a stop flag cautions, beside its code where a reader of the table would otherwise see a code alone (the
@@ -145,7 +148,7 @@ def model_cell(signoff: Signoff, s: int) -> str:
     return model
 
 
-def row(signoff: Signoff, s: int, detailed: set, tell_apart=None) -> str:
+def row(signoff: Signoff, s: int, detailed: set, tell_apart=None, revoked: str | None = None) -> str:
     results = signoff.results
     status = STATUSES[signoff.status[s]]
     numbers = at_plan(signoff, s)
@@ -178,7 +181,7 @@ def row(signoff: Signoff, s: int, detailed: set, tell_apart=None) -> str:
                                             results.candidates[numbers.model].degree == 0)
                    if planned and e is not None else "—", "num",
                    _sort_value(e if planned and e is not None and volume > 0 else None))
-            + cell("Flags", _flag_cell(signoff, s)) + cell("Analyst", analyst)
+            + cell("Flags", _flag_cell(signoff, s, revoked)) + cell("Analyst", analyst)
             + cell("Time", time, "time", esc(latest.get("at", ""))) + cell("Note", note, "note")
             + "</tr>")
 
@@ -189,7 +192,7 @@ def decisions(report: Report, detailed: set) -> str:
     counts = signoff.counts()
     options = "".join(f"<option value=\"{s}\">{s}</option>" for s in STATUSES if counts[s])
     head = "".join(f"<th class=\"{cls}\">{name}</th>" if cls else f"<th>{name}</th>" for name, cls in COLUMNS)
-    body = "".join(row(signoff, int(s), detailed, report.tell_apart) for s in rows)
+    body = "".join(row(signoff, int(s), detailed, report.tell_apart, report.revoked(int(s))) for s in rows)
     lead = (f"<p>{num(len(rows))} series: every series a person decided one by one, and every series with a "
             f"stop flag, most in need of attention first. Volumes are at the plan price under the model that "
             f"stands (the proposal while pending or held: a hold signs no curve; a stale series' as signed, on "

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import math
 import multiprocessing
+import re
 from datetime import datetime, timezone
 
 import pytest
@@ -155,11 +156,19 @@ def test_one_carry_per_series_and_data(tmp_path):
     wrong = entry("b", "carry", fingerprint="f2", carries=accept["digest"])
     assert "a carry must name an accept or override of this series" in str(unchanged(path, lambda: book.append(
         [wrong], ANA)))
-    # withdrawn (a carry run taken back with ``ledger revoke --batch``), it may be carried again
+    # withdrawn (a carry run taken back with ``ledger revoke --batch``), it is not carried again by anyone (a
+    # note decides nothing) until a person decides the series; then that decision is carried as any other
     book.append([entry("a", "revoke", fingerprint="f2", supersedes=carried["digest"])], BO)
     assert book.histories[series_id({"product": "a"})].status("f2") == "stale"
-    [again_done] = book.append([entry("a", "carry", fingerprint="f2", carries=accept["digest"],
-                                      supersedes=after(book, "a"))], ANA)
+    book.append([entry("a", "note", note="asked the buyer", fingerprint="f2", supersedes=after(book, "a"))], ANA)
+    for who in (ANA, BO):
+        said = str(unchanged(path, lambda: book.append([entry("a", "carry", fingerprint="f2", carries=accept["digest"],
+                                                              supersedes=after(book, "a"))], who)))
+        assert re.fullmatch(r"a: bo withdrew a decision at \d\d:\d\d:\d\d UTC and nobody has decided it since: what "
+                            "stands again is for a person to accept, override or hold, not to carry", said), said
+    [accept_again] = book.append([entry("a", fingerprint="f2", signed=signed, supersedes=after(book, "a"))], ANA)
+    [again_done] = book.append([entry("a", "carry", fingerprint="f3", carries=accept_again["digest"],
+                                      supersedes=accept_again["digest"])], BO)
     assert book.histories[series_id({"product": "a"})].current["digest"] == again_done["digest"]
 
 

@@ -462,5 +462,5 @@ async def test_the_revoke_dialog_says_when_what_stands_again_was_made_on_other_d
         await pilot.press("u")
         await pilot.pause()
         said = " ".join(screen_text(app).split())
-        assert "stands again, made on other data than these: the" in said and "series reads stale." in said, said
+        assert "stands again, made on other data than these: the" in said and "series reads stale," in said, said
         await pilot.press("escape")

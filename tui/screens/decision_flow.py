@@ -200,7 +200,9 @@ class DecisionFlow:
         before = history.standing[-2] if history is not None and len(history.standing) > 1 else None
         after = f"{describe(before)} stands again" if before is not None else "the series is pending again"
         if before is not None and before.get("fingerprint") != shown.fingerprint:  # last cycle's, say (a trial)
-            after += ", made on other data than these: the series reads stale"
+            # and not carried (``due.revoked_due``): what a revoke leaves standing waits for a person
+            after += (", made on other data than these: the series reads stale, and ledger carry will not carry it "
+                      "until someone decides the series")
         about = Text(f"Withdraws {describe(record)}; {after}. The ledger keeps both, and the revoke with its note.")
         self.ask(f"Revoke your {what} on {self.session.label(s)}? Why (optional)",
                  "why? (optional) · Esc keeps the decision", False,
