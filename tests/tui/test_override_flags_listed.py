@@ -13,6 +13,13 @@ from tests.cli.test_export_override_flags import _codes, _rows, run  # noqa: F40
 from tests.tui.conftest import make_app, screen_text, started
 
 
+def on_a_copy(run, tmp_path):
+    """The screen on the run's Parquet results and a copy of its ledger (decisions made here stay here)."""
+    copy = tmp_path / "ledger.jsonl"
+    copy.write_bytes(run.book.read_bytes())
+    return make_app(copy, source_from_results(run.parquet))
+
+
 @pytest.mark.parametrize("kind", ["parquet", "json"])
 async def test_an_overrides_row_lists_its_own_curves_flags(run, tmp_path, kind):
     copy = tmp_path / "ledger.jsonl"
@@ -51,9 +58,7 @@ async def test_the_flag_filter_and_its_counts_go_by_the_flags_the_rows_show(run,
     """'⚑ rising' listed an override to a flat curve (its row showing no flag) by the proposal's rising, and left
     out an override whose own curve goes below zero from '⚑ below-zero' (a trial); show --ledger --flag went by
     the rows' flags.  The filter and its menu's counts now go by what the rows show."""
-    copy = tmp_path / "ledger.jsonl"
-    copy.write_bytes(run.book.read_bytes())
-    app = make_app(copy, source_from_results(run.parquet))
+    app = on_a_copy(run, tmp_path)
     exported = _rows(run.exported["parquet"])
     async with app.run_test(size=(160, 50)) as pilot:
         session = await started(app, pilot)

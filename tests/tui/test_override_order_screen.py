@@ -19,6 +19,7 @@ from tests.cli.test_export_override_flags import _codes, _rows, run  # noqa: F40
 from tests.fitcore.ledger_support import ANA
 from tests.report.test_report_shown_flags import attention, shown_flags
 from tests.tui.conftest import make_app, screen_text, started, until
+from tests.tui.test_override_flags_listed import on_a_copy
 from tests.tui.test_two_analysts import BO
 
 
@@ -27,9 +28,7 @@ def products(session) -> list[str]:
 
 
 async def test_the_lists_attention_order_goes_by_an_overrides_own_flags(run, tmp_path):
-    copy = tmp_path / "ledger.jsonl"
-    copy.write_bytes(run.book.read_bytes())
-    app = make_app(copy, source_from_results(run.parquet))
+    app = on_a_copy(run, tmp_path)
     async with app.run_test(size=(80, 24)) as pilot:
         session = await started(app, pilot)
         session.set_filter("all", None)
@@ -105,9 +104,7 @@ async def test_the_evidence_of_an_override_says_its_own_flags_before_the_proposa
     """The list's row of an override to a flat curve showed no flag while the evidence beside it read '! [stop]
     rising: the chosen curve has volume rising…' — the proposal's, unlabelled (a trial).  It now opens with the
     override's own codes, as its row shows them, and says the sentences are the proposal's."""
-    copy = tmp_path / "ledger.jsonl"
-    copy.write_bytes(run.book.read_bytes())
-    app = make_app(copy, source_from_results(run.parquet))
+    app = on_a_copy(run, tmp_path)
     exported = _rows(run.exported["json"])
     async with app.run_test(size=(160, 50)) as pilot:
         session = await started(app, pilot)
