@@ -74,8 +74,8 @@ async def test_respelled_series_are_said_marked_and_asked_before_their_first_dec
         target = next(k for k in alike if k["region"] == "North")
         s = await on_series(app, pilot, {"product": target["product"], "region": "north"})
         session = app.session
-        clause = (f"Spelled otherwise: {count} series in these results look like series in ledger.jsonl under another "
-                  'spelling (region "north" for "North", …); marked ≈ in the list; a decision on one asks first')
+        clause = (f"Spelled otherwise (≈ in the list): {count} series in these results look like series in ledger.jsonl "
+                  'under another spelling (region "north" for "North", …); a decision on one asks first')
         assert clause in words(app)
         label = f"{target['product']} · north"
         row = next(line for line in screen_text(app).splitlines() if line.find(label) in (2, 3))  # the list's row
@@ -106,7 +106,7 @@ async def test_respelled_series_are_said_marked_and_asked_before_their_first_dec
         await pilot.press("enter")  # a hold needs no note
         await until(pilot, lambda: records(ledger_path) == records_before(before) + 1)  # the hold
         assert json.loads(ledger_path.read_text().splitlines()[-1])["series"]["region"] == "north"
-        await until(pilot, lambda: f"Spelled otherwise: {count - 1} series" in words(app))
+        await until(pilot, lambda: f"Spelled otherwise (≈ in the list): {count - 1} series" in words(app))
         assert session.spellings.like(s) is None  # in the ledger now: no longer new
         # the new product looks like nothing: its first decision goes straight to the note box
         new = await on_series(app, pilot, {"product": NEW_PRODUCT, "region": "East"})

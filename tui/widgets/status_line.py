@@ -133,12 +133,13 @@ def keys_lead(key_columns) -> str:
 
 
 def spellings_text(session) -> str | None:
-    """'Spelled otherwise: 54 series in these results look like series in L.jsonl under another spelling (region
-    "north" for "North", …); …' (``fitcore.ledger.respelling``, every command's words), for the screen."""
+    """'Spelled otherwise (≈ in the list): 54 series in these results look like series in L.jsonl under another
+    spelling (region "north" for "North", …); …' (``fitcore.ledger.respelling``, every command's words), for the
+    screen."""
     said = session.spellings.said
     if said is None:
         return None
-    return f"Spelled otherwise: {said}; marked ≈ in the list; a decision on one asks first"
+    return f"Spelled otherwise (≈ in the list): {said}; a decision on one asks first"  # the mark first: the header cuts
 
 
 ALIKE_DECIDES = ("A decision here records it as a new series beside that one, whose decisions stay where they are "
