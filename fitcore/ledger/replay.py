@@ -69,16 +69,20 @@ class SeriesHistory:
 
     @property
     def revoked(self) -> dict | None:
-        """The revoke after which no decision has been recorded on the series while one still stands: its latest
-        record but notes (a note decides nothing), where that is a revoke.  What stands then is what was left
-        when a person withdrew a decision, not a sign-off made afresh: ``ledger carry`` leaves the series for a
-        person (``due.revoked_due``) and the rules refuse to carry it.  None: no revoke since the latest
-        decision, or nothing stands (pending)."""
+        """The revoke after which no decision has been recorded on the series while one still stands on other
+        data than the decision it withdrew: its latest record but notes (a note decides nothing), where that is
+        a revoke and what stands again was made on other data than the revoke's (the withdrawn decision's).
+        What stands then is a fallback left when a person withdrew a decision, not a sign-off made on those
+        data: ``ledger carry`` leaves the series for a person (``due.revoked_due``) and the rules refuse to
+        carry it.  An override withdrawn back to the carry it replaced on the same data is no such fallback
+        (the carry stood on those data, seen; a trial read "revoked" beside it).  None otherwise, or pending."""
         if not self.standing:
             return None
         for record in reversed(self.records):
             if record["action"] != "note":
-                return record if record["action"] == "revoke" else None
+                if record["action"] != "revoke" or record.get("fingerprint") == self.standing[-1].get("fingerprint"):
+                    return None
+                return record
         return None
 
     def standing_model(self, fingerprint: str) -> str | None:

@@ -114,3 +114,27 @@ def test_a_revoked_hand_decision_leaves_the_older_one_for_a_person(tmp_path, cap
     dues = show_dues(results, book, capsys)
     assert dues == {"changed since the fit": 1}, dues  # (the other seven carried to these data just above)
     assert carry_counts(results, book, capsys) == dues
+
+
+def test_an_override_withdrawn_back_to_the_carry_on_the_same_data_is_carried_next_cycle(tmp_path, capsys):
+    """A trial: bo overrode a carried series on this cycle's data, then took the override back ('changed my mind'):
+    the carry on these same data stands again, seen — no fallback.  The next cycle read 'due: revoked by bo …'
+    beside 'bo carried loglog forward' and left it for a person; it is carried as any other."""
+    book, results = first_cycle_then_second(tmp_path)
+    assert main(["ledger", "carry", str(results), "--ledger", str(book), "-q"]) == 0
+    record = next(r for r in json.loads(results.read_text())["series"] if r["key"]["product"] == REVOKED)
+    other = next(c["name"] for c in record["candidates"] if c["available"] and c["name"] != record["chosen"])
+    [override] = ledger.append(book, [ledger.Entry(
+        series=record["key"], action="override", fingerprint=record["fingerprint"], results="ab" * 32, model=other,
+        proposed=record["chosen"], note="a second look", supersedes=histories(book)[REVOKED].latest["digest"],
+        signed=from_records([(record, other)], 0.95)[0])], BO)
+    ledger.append(book, [ledger.Entry(series=record["key"], action="revoke", fingerprint=record["fingerprint"],
+                                      results="ab" * 32, note="changed my mind", supersedes=override["digest"])], BO)
+    history = histories(book)[REVOKED]
+    assert history.current["action"] == "carry" and history.current["fingerprint"] == record["fingerprint"]
+    assert history.revoked is None
+    write_weeks(tmp_path / "c3.csv", 48, seed=9)
+    third = fit_again(tmp_path, "r3.json", book, "c3.csv")
+    dues = show_dues(third, book, capsys)
+    assert dues == {"backtest passed": 8}, dues
+    assert carry_counts(third, book, capsys) == dues
