@@ -22,6 +22,7 @@ import csv
 import io
 import json
 import math
+import os
 import sys
 from collections.abc import Iterator
 from functools import lru_cache
@@ -168,8 +169,23 @@ def run_export(args) -> int:
     for row in rows:
         writer.writerow(made(row))
     if to_stdout:
-        sys.stdout.write(buffer.getvalue())
-        sys.stdout.flush()
+        payload = buffer.getvalue().encode("utf-8")
+        try:
+            sys.stdout.flush()
+            try:
+                fd = sys.stdout.fileno()
+            except (AttributeError, OSError, ValueError):  # (io.UnsupportedOperation: a stream with no descriptor)
+                sys.stdout.write(payload.decode("utf-8"))
+            else:
+                left = memoryview(payload)
+                while left:  # each short write seen (through Python's buffered file a reader gone mid-write was not)
+                    left = left[os.write(fd, left[:1 << 20]):]
+        except BrokenPipeError:  # the reader went away: a planning system got part of the file, if any (a trial)
+            from .cli import IO_FAILED
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())  # nothing more to flush there at exit
+            print(f"pricefold ledger: the reader of standard output went away before the export was whole "
+                  f"({len(payload):,} bytes, {count:,} series): not every row reached it", file=sys.stderr)
+            return IO_FAILED
     else:
         write_text(args.output, buffer.getvalue())
     if not args.quiet:

@@ -152,3 +152,28 @@ def test_dash_writes_the_csv_to_standard_output_and_no_file(tmp_path, signed, ca
     said = capsys.readouterr()
     assert list(csv.reader(io.StringIO(said.out, newline=""))) == file_rows and not (tmp_path / "-").exists()
     assert f"{len(NAMES)} series written to standard output (ledger head " in said.err
+
+
+def test_a_reader_that_goes_away_early_is_said_and_not_a_success(tmp_path):
+    """A trial: ``export -o - | head -c 1000`` said '3,000 series written to standard output' and exited 0 when the
+    pipe took 64 KiB of 851 KB; a consumer dying mid-stream could not be told apart.  Now one line, exit 74."""
+    import fcntl
+    import subprocess
+    import sys
+    from pathlib import Path
+    results = Path(__file__).resolve().parents[2] / "sample" / "results.parquet"
+    path = tmp_path / "L.jsonl"
+    assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(path), "-q"]) == 0
+    whole = export(results, path, tmp_path / "whole.csv")
+    read, write = os.pipe()
+    fcntl.fcntl(write, 1031, 4096)  # F_SETPIPE_SZ: a pipe far smaller than the export (≈ 54 KB)
+    done = subprocess.Popen([sys.executable, "-m", "pricefold", "ledger", "export", str(path), "--results",
+                             str(results), "-o", "-"], stdout=write, stderr=subprocess.PIPE, text=True)
+    os.close(write)
+    assert os.read(read, 100).startswith(b"product,")
+    os.close(read)  # the reader goes away
+    _, err = done.communicate(timeout=120)
+    assert done.returncode == 74, err
+    size = (tmp_path / "whole.csv").stat().st_size
+    assert err.strip() == ("pricefold ledger: the reader of standard output went away before the export was whole "
+                           f"({size:,} bytes, {len(whole) - 1} series): not every row reached it"), err
