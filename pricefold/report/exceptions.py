@@ -152,9 +152,14 @@ def section(report: Report, s: int) -> str:
         on = "newer" if signoff.newer[s] else "earlier"
         under = (f"under {name} as signed on {on} data" if numbers.signed else
                  f"under {name}, the proposal" if numbers.proposal else f"under {name}")
-        facts.append(f"at the plan price {price(plan)}: {alike(numbers.volume, numbers.lo, numbers.hi)[0]} "
+        now = float(results.plan_price[s])
+        moved = numbers.signed and math.isfinite(now) and not math.isclose(now, plan, rel_tol=1e-12, abs_tol=0.0)
+        facts.append(f"at the {'signed ' if moved else ''}plan price {price(plan)}: "
+                     f"{alike(numbers.volume, numbers.lo, numbers.hi)[0]} "
                      f"({interval(numbers.lo, numbers.hi, numbers.volume)}) {under}")
-        if not results.price_lo[s] <= plan <= results.price_hi[s]:
+        if moved:  # this plan prices it otherwise: the signed curve there is in "Since sign-off" (a trial)
+            facts.append(f"<strong>this plan prices it at {price(now)}</strong> (the signed curve there: since sign-off)")
+        elif not numbers.signed and not results.price_lo[s] <= plan <= results.price_hi[s]:
             facts.append("<span class=\"sev-stop\">outside the observed prices: an extrapolation</span>")
     figure = chart_figure(report.chart(s))
     return (f"<article class=\"exception\" id=\"s{s}\"><h3>{label(results, s, report.tell_apart)}</h3>"

@@ -130,6 +130,16 @@ def at_plan(signoff: Signoff, s: int) -> AtPlan:
                   proposal=c < 0 or (not current and shown == proposal))
 
 
+def plan_price_text(plan: float, now: float, signed: bool) -> str:
+    """The price a row's volume is at; a stale row's signed one told from this plan's where they differ ("2.20
+    signed; this plan 3.30"): a trial read last cycle's price and volume as this plan's."""
+    if not math.isfinite(plan):
+        return "—"
+    if signed and math.isfinite(now) and not math.isclose(now, plan, rel_tol=1e-12, abs_tol=0.0):
+        return f"{price(plan)} <span class=\"muted\">signed; this plan {price(now)}</span>"
+    return price(plan)
+
+
 def by_whom(record: dict) -> str:
     """'ana, 2026-12-03 18:57': who recorded ``record`` and when (UTC)."""
     return f"{esc(record.get('analyst', ''))}, {when(record['at'], zone=False) if record.get('at') else '?'}"
@@ -175,7 +185,8 @@ def row(signoff: Signoff, s: int, detailed: set, tell_apart=None, revoked: str |
         note = esc(noted["note"]) if noted.get("seq") == latest.get("seq") else f"{by_whom(noted)}: {esc(noted['note'])}"
     return (f"<tr data-status=\"{status}\">" + cell("Series", key, "key")
             + cell("Status", status + carried, f"st-{status}") + cell("Model", model_cell(signoff, s))
-            + cell("Plan price", price(plan) if math.isfinite(plan) else "—", "num", _sort_value(plan))
+            + cell("Plan price", plan_price_text(plan, float(results.plan_price[s]), numbers.signed), "num",
+                   _sort_value(plan))
             + cell("Volume (95% PI)", shown, "num", _sort_value(volume))
             + cell("Elasticity", elasticity(e, volume, bool(results.price_hi[s] > results.price_lo[s]),
                                             results.candidates[numbers.model].degree == 0)

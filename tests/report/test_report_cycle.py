@@ -60,3 +60,24 @@ def test_a_report_of_last_cycles_results_says_the_decisions_are_on_newer_data(tm
         if newer:
             assert f"{accepted} decided on newer data)" in text and "on older data" not in text
             assert "as signed on earlier data" not in text and "signed on newer data" in text
+
+
+def test_a_stale_series_planned_at_another_price_says_both_prices(tmp_path):
+    """A trial: the decisions table read 'apples 1 kg · North stale poly1 2.20 1,041 (876.8–1,205) as signed' where
+    this plan prices it at 3.30, and the section 'at the plan price 2.20' beside a chart of 3.30.  The price the
+    signed numbers are at is said as the signed one, with this plan's beside it."""
+    book = tmp_path / "ledger.jsonl"
+    write_weeks(tmp_path / "c1.csv", 40, seed=9)
+    fit(tmp_path / "c1.csv", tmp_path / "r1.json")  # plan price 2.30
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    write_weeks(tmp_path / "c2.csv", 44, seed=9)
+    assert main(["fit", str(tmp_path / "c2.csv"), "--date", "week", "--plan-price", "2.1", "--degrees", "0-1",
+                 "--no-loglog", "-o", str(tmp_path / "r2.json"), "--quiet", "--ledger", str(book)]) == 0
+    page = tmp_path / "report.html"
+    assert main(["report", str(tmp_path / "r2.json"), "--ledger", str(book), "-o", str(page)]) == 0
+    text = page.read_text()
+    rows = re.findall(r"<tr data-status=\"stale\">.*?</tr>", text, re.S)
+    assert rows and all("2.30 <span class=\"muted\">signed; this plan 2.10</span>" in row for row in rows)
+    articles = re.findall(r"<article class=\"exception\".*?</article>", text, re.S)
+    stale = [a for a in articles if "st-stale" in a]
+    assert stale and all("at the signed plan price 2.30:" in a and "this plan prices it at 2.10" in a for a in stale)
