@@ -108,7 +108,7 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
     """Which series may be carried, from results records (JSON; small runs), and why the others may not
     (``newer_first``, ``left_for_human``, ``held_left``; ``overrides``: the digests of the ledger's overrides;
     ``histories``: the ledger's; ``revised_ok``: ``--carry-revised``)."""
-    from fitcore.ledger.due import carried_across, left_for_human
+    from fitcore.ledger.due import beyond_signed, carried_across, left_for_human
     from fitcore.ledger.snapshot import from_records
     histories, records = histories or {}, list(records)
     stops, keep, left = stop_codes(), [], Counter()
@@ -132,7 +132,9 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
         near = near_best(record, bt["candidate"])
         why = left_for_human(bt["status"], "shifted" in codes, bool(set(codes) & stops), record["chosen"] is not None,
                              bt["candidate"] != record["chosen"], bt["carries"] in overrides and near,
-                             bool(bt.get("revised")), revised_ok)
+                             bool(bt.get("revised")), revised_ok,
+                             beyond_signed(bt.get("price"), bt.get("planned"), bt.get("signed_price_lo"),
+                                           bt.get("signed_price_hi")))
         why = newer_first(why, bt["status"], record["key"], record["fingerprint"], record.get("last_date"), histories)
         if why is not None:
             left[why] += 1
@@ -155,7 +157,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
 
     from fitcore.arrays import integers, objects
     from fitcore.data.keys import SeriesKeys
-    from fitcore.ledger.due import FAILED, PASSED, carried_across, left_for_human
+    from fitcore.ledger.due import FAILED, PASSED, beyond_signed, carried_across, left_for_human
     from fitcore.ledger.snapshot import from_results
     from fitcore.results.stored import stored_results
     from fitcore.review.flags import CODES
@@ -204,9 +206,13 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     has_model = chosen[tested] >= 0
     changed = np.array([None if c < 0 else names[c] for c in chosen[tested].tolist()], dtype=object) != candidate
     revised = bt["revised"][tested].astype(bool) if "revised" in bt else np.zeros(len(tested), bool)  # (older results: none)
-    why = [left_for_human(*args, revised_ok=revised_ok)
+    beyond = [beyond_signed(*args) for args in zip(*(bt[name][tested].tolist() if name in bt else [None] * len(tested)
+                                                     for name in ("price", "planned", "signed_price_lo",
+                                                                  "signed_price_hi")))]  # (older results: not judged)
+    why = [left_for_human(*args)
            for args in zip(status[tested].tolist(), shifted.tolist(), stop.tolist(), has_model.tolist(),
-                           changed.tolist(), (override & near).tolist(), revised.tolist())]
+                           changed.tolist(), (override & near).tolist(), revised.tolist(), [revised_ok] * len(tested),
+                           beyond)]
     untested = np.flatnonzero(~np.isin(status[tested].astype(str), [PASSED, FAILED]))
     for i, key, fingerprint, last in zip(untested.tolist(), *series_of(tested[untested])):
         why[i] = newer_first(why[i], status[tested[i]], key, fingerprint, last, histories)

@@ -28,18 +28,33 @@ UNTESTED = {FAILED: "backtest failed", CONTROLS_CHANGED: "controls changed since
 
 
 REVISED_DUE = "history revised since signing"
+BEYOND_DUE = "plan beyond signed prices"
+
+
+def beyond_signed(price, planned, lo, hi) -> bool:
+    """Whether this plan's ``price`` lies outside the prices a signed curve was fitted over (``lo``, ``hi``: the
+    backtest's ``signed_price_lo``/``hi``; None or NaN in results written before them: not judged).  Carrying
+    the decision there would sign a price no one saw the curve at (a trial: a plan moved 2.20 → 3.30 past
+    signed prices 1.61–2.73 was carried, said only in the backtest's sentence)."""
+    if not planned or lo is None or hi is None:
+        return False
+    from ..review.sentences import outside_prices
+    price, lo, hi = float(price), float(lo), float(hi)
+    return bool(math.isfinite(lo) and math.isfinite(hi) and outside_prices(price, lo, hi))
 
 
 def left_for_human(status: str, shifted: bool, stops, has_model: bool, shape_changed: bool,
-                   kept_override: bool = False, revised: bool = False, revised_ok: bool = False) -> str | None:
+                   kept_override: bool = False, revised: bool = False, revised_ok: bool = False,
+                   beyond: bool = False) -> str | None:
     """Why a series whose standing decision was made on other data is not carried to them (None: ``ledger
     carry`` carries it), the first that holds: its backtest did not pass, the rows it was signed on were
     ``revised`` (unless ``revised_ok``: ``ledger carry --carry-revised``, for a rolling window — rows restated
     or re-dated could pass for rows since), ``shifted``, a stop flag (``stops``: its stop flags' codes, or a
-    bool), no curve proposed (``has_model``), or the signed shape is not this cycle's proposal
-    (``shape_changed``) — unless the decision carried is an override whose curve is still available and within
-    one SE of the lowest CV error (``kept_override``).  The one rule: carry counts by it, ``show --ledger`` and
-    the screen say it as what is due (``due``)."""
+    bool), this plan's price beyond the prices the curve was signed on (``beyond``: ``beyond_signed``), no
+    curve proposed (``has_model``), or the signed shape is not this cycle's proposal (``shape_changed``) —
+    unless the decision carried is an override whose curve is still available and within one SE of the lowest
+    CV error (``kept_override``).  The one rule: carry counts by it, ``show --ledger`` and the screen say it as
+    what is due (``due``)."""
     if status != PASSED:
         return UNTESTED.get(status, status)
     if revised and not revised_ok:
@@ -48,6 +63,8 @@ def left_for_human(status: str, shifted: bool, stops, has_model: bool, shape_cha
         return "shifted"
     if stops:
         return "stop flag"
+    if beyond:
+        return BEYOND_DUE
     if not has_model:
         return "no candidate"
     if shape_changed and not kept_override:
@@ -62,7 +79,9 @@ def due(record: dict | None, stops=(), has_model: bool = True, kept_override: bo
     if record is None:
         return None
     why = left_for_human(record["status"], bool(record.get("shifted")), stops, has_model,
-                         bool(record.get("shape_changed")), kept_override, bool(record.get("revised")))
+                         bool(record.get("shape_changed")), kept_override, bool(record.get("revised")),
+                         beyond=beyond_signed(record.get("price"), record.get("planned"),
+                                              record.get("signed_price_lo"), record.get("signed_price_hi")))
     if why == "stop flag" and not isinstance(stops, bool):
         why = f"stop flag ({', '.join(stops)})"
     return why or "backtest passed"

@@ -488,3 +488,43 @@ def test_a_signed_curve_tested_and_priced_outside_the_prices_it_was_signed_on_sa
         assert main(["show", str(tmp_path / results), "--ledger", str(book), "--product", "item 5"]) == 0
         said = " ".join(capsys.readouterr().out.split())
         assert "On the 6 observations since, its error" in said and "it was signed on" not in said
+
+
+def test_a_plan_beyond_the_prices_a_curve_was_signed_on_is_left_for_a_person(tmp_path, capsys):
+    """A trial: a plan moved 2.20 → 3.30, past the prices 1.61–2.73 the curve was signed on; the new rows went there
+    too, the backtest passed, and carry carried it — said only in the backtest's sentence.  No person had seen the
+    curve at that price: carry leaves it ('plan beyond signed prices'), and show --ledger says the same."""
+    rng = np.random.default_rng(4)
+    rows = [["product", "week", "price", "volume"]]
+    for w in range(48):
+        for name in ("moved", "kept"):
+            price = 2.0 + 0.6 * rng.random() if w < 40 or name == "kept" else 2.7 + 0.07 * (w - 40)
+            rows.append([name, (date(2025, 1, 6) + timedelta(weeks=w)).isoformat(), f"{price:.2f}",
+                         f"{1000 - 200 * price + rng.normal(0, 5):.1f}"])
+    with open(tmp_path / "c1.csv", "w", newline="") as handle:
+        csv.writer(handle).writerows(rows[:1 + 80])
+    with open(tmp_path / "c2.csv", "w", newline="") as handle:
+        csv.writer(handle).writerows(rows)
+    common = ["--date", "week", "--degrees", "0-1", "--no-loglog", "--quiet"]
+    book = tmp_path / "ledger.jsonl"
+    assert main(["fit", str(tmp_path / "c1.csv"), "--plan-price", "2.3", "-o", str(tmp_path / "r1.json"), *common]) == 0
+    assert main(["ledger", "accept-unflagged", str(tmp_path / "r1.json"), "--ledger", str(book), "-q"]) == 0
+    (tmp_path / "plan.csv").write_text("product,plan_price\nmoved,3.1\nkept,2.3\n")
+    assert main(["fit", str(tmp_path / "c2.csv"), "--plan", str(tmp_path / "plan.csv"), "-o", str(tmp_path / "r2.json"),
+                 "--ledger", str(book), *common]) == 0
+    tested = {r["key"]["product"]: r["backtest"] for r in json.loads((tmp_path / "r2.json").read_text())["series"]}
+    assert tested["moved"]["status"] == "passed" and not tested["moved"]["shifted"]  # nothing else holds it back
+    assert tested["moved"]["signed_price_hi"] < 2.7 < 3.1
+    capsys.readouterr()
+    assert main(["show", str(tmp_path / "r2.json"), "--ledger", str(book), "--product", "moved"]) == 0
+    assert "due: plan beyond signed prices" in capsys.readouterr().out
+    copy = tmp_path / "copy.jsonl"
+    copy.write_bytes(book.read_bytes())
+    assert main(["fit", str(tmp_path / "c2.csv"), "--plan", str(tmp_path / "plan.csv"), "-o",
+                 str(tmp_path / "r2.parquet"), "--ledger", str(copy), *common]) == 0
+    for results, ledger_path in (("r2.json", book), ("r2.parquet", copy)):  # carry's two readings of results
+        capsys.readouterr()
+        assert main(["ledger", "carry", str(tmp_path / results), "--ledger", str(ledger_path)]) == 0
+        assert "left for a human: 1 (plan beyond signed prices 1)" in capsys.readouterr().err, results
+        now = histories(ledger_path)
+        assert now["kept"].current["action"] == "carry" and now["moved"].current["action"] == "accept"
