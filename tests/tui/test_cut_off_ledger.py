@@ -31,7 +31,7 @@ async def test_a_cut_off_ledger_is_said_before_any_decision_and_the_next_one_set
     """Before: nothing on screen, '?' said 'intact', and the first hold moved every record to a side file."""
     cut_off(ledger_path)
     app = make_app(ledger_path)
-    async with app.run_test(size=(80, 24)) as pilot:
+    async with app.run_test(size=(80, 24), notifications=True) as pilot:
         session = await started(app, pilot)
         text = " ".join(screen_text(app).split())
         assert "ledger.jsonl's last append was cut off: line 1: incomplete batch (" in text
@@ -47,8 +47,11 @@ async def test_a_cut_off_ledger_is_said_before_any_decision_and_the_next_one_set
         await pilot.press("enter")
         await until(pilot, lambda: session.book.records)
         await pilot.pause()
-        assert len(list(ledger_path.parent.glob("ledger.jsonl.torn-*"))) == 1
+        [side] = list(ledger_path.parent.glob("ledger.jsonl.torn-*"))
         assert "cut off" not in " ".join(screen_text(app).split())
+        # where it went, said (a trial: the header had said where it would go, then nothing)
+        assert any(f"tail after the ledger's last whole record was moved to {side.name} beside it" in n.message
+                   for n in app._notifications)
 
 
 async def test_ctrl_c_in_a_note_dialog_leaves_and_a_typed_note_takes_a_second_press(ledger_path):

@@ -60,6 +60,10 @@ class DecisionFlow:
         s = self.session.index_of(shown)
         what = f" {model}" if action == "override" else ""
         self.notify(f"{TOLD[action]}{what}: {self.session.label(s)}", markup=False, timeout=3)
+        moved = self.session.book.tail_moved_to
+        if moved is not None:  # the header had said "the next decision moves it to …"; now where it went (a trial)
+            self.notify(f"The interrupted tail after the ledger's last whole record was moved to {clean(moved.name)} "
+                        "beside it", markup=False, timeout=10)
         if action in ("accept", "override", "hold"):
             self.session.after_decision(s, before)
             self._moved_on_at = time.monotonic()  # the next series comes up now: ``too_soon`` waits longer for it
