@@ -431,7 +431,9 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
     if proposal is not None and bt.get("proposed_volume") is not None:
         again = "" if bt.get("shape_changed") else " again"
         proposed = number("proposed_volume")
-        beside = _beside_signed(proposed, number("signed_volume"), number("volume_change"), number("elasticity_change"))
+        flat = "poly0" in (str(bt.get("candidate")), str(proposal))  # a flat curve's 0 measures nothing (a trial)
+        beside = _beside_signed(proposed, number("signed_volume"), number("volume_change"),
+                                math.nan if flat else number("elasticity_change"))
         whose = "The proposal of these older results" if older else "This cycle's proposal"
         parts.append(f"{whose}, {proposal}{again}, predicts {fmt(proposed)} ({beside}).")
     return " ".join(parts)
