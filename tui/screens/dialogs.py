@@ -47,7 +47,44 @@ class NoteField(Input):
         await super()._on_key(event)
 
 
-class TextDialog(Dialog):
+class Question(VerticalScroll, can_focus=False):
+    """What a dialog asks, above its answer (a note box, a choice) and the keys' hint."""
+
+
+class Asking(Dialog):
+    """A dialog that asks (``Question``) and takes an answer below it.  A question too long for the screen (a
+    look-alike's at 60×20, one naming a 200-character product at 80×24) had pushed the answer under the dialog's
+    edge — the choice list gone while ↑ and Enter still picked an unseen "Yes".  Where the whole does not fit,
+    the dialog takes its greatest height and the larger part gives way: a long question scrolls in the room the
+    answer leaves (``long``: PgUp/PgDn, as the border says), a long choice list under a short question scrolls
+    itself (``many``); the hint stays whole."""
+
+    BINDINGS = [Binding("pageup", "read(-1)", show=False, priority=True),
+                Binding("pagedown", "read(1)", show=False, priority=True)]  # never the choice list's
+
+    def action_read(self, way: int) -> None:
+        question = self.query_one(Question)
+        question.scroll_to(y=question.scroll_y + way * max(question.size.height - 1, 1), animate=False)
+
+    def on_mount(self) -> None:
+        self.call_after_refresh(self._fit)
+
+    def on_resize(self) -> None:
+        self.remove_class("long", "many")  # measured again at their own heights: the screen may have grown
+        self.call_after_refresh(self._fit)
+
+    def _fit(self) -> None:
+        if not self.is_attached or not self.query(Question):
+            return  # answered and closing
+        dialog, hint = self.query_one(".dialog"), self.query_one("#dialog-hint")
+        if not self.has_class("long", "many") and hint.region.bottom > dialog.content_region.bottom:
+            choices = self.query(OptionList)
+            many = bool(choices) and choices.first().virtual_size.height > self.query_one(Question).virtual_size.height
+            self.add_class("many" if many else "long")
+        dialog.border_subtitle = "PgDn/PgUp: the whole question" if self.has_class("long") else ""
+
+
+class TextDialog(Asking):
     """One line of text; Enter returns it, Escape cancels.  ``required`` refuses an empty answer."""
 
     # Ctrl+C leaves pricefold from here too (the text field would take it as copy and do nothing); with a note
@@ -63,10 +100,11 @@ class TextDialog(Dialog):
         self.about = about  # what the note is about (an accept past a stop flag: the numbers being signed)
 
     def compose(self) -> ComposeResult:
-        with Vertical(classes="dialog"):
-            yield Static(literal(self.title_text, "bold"), markup=False)
-            if self.about is not None:
-                yield Static(self.about, markup=False, id="dialog-about")
+        with Vertical(classes="dialog asking"):
+            with Question():
+                yield Static(literal(self.title_text, "bold"), markup=False)
+                if self.about is not None:
+                    yield Static(self.about, markup=False, id="dialog-about")
             yield NoteField(value=self.value, placeholder=self.placeholder, id="dialog-input")
             yield Static(Text("Enter to confirm · Esc to cancel", style="dim"), id="dialog-hint", markup=False)
 
@@ -105,7 +143,7 @@ class TextDialog(Dialog):
         self.app.action_interrupt()
 
 
-class ChoiceDialog(Dialog):
+class ChoiceDialog(Asking):
     """Pick one option by arrow keys and Enter; returns its id."""
 
     BINDINGS = [Binding("escape", "cancel", "cancel")]
@@ -115,10 +153,12 @@ class ChoiceDialog(Dialog):
         self.title_text, self.options, self.current = title, options, current
 
     def compose(self) -> ComposeResult:
-        with Vertical(classes="dialog"):
-            yield Static(literal(self.title_text, "bold"), markup=False)
+        with Vertical(classes="dialog asking"):
+            with Question():
+                yield Static(literal(self.title_text, "bold"), markup=False)
             yield OptionList(*[Option(Text(label), id=key) for key, label in self.options], id="dialog-options")
-            yield Static(Text("↑↓ to move · Enter to choose · Esc to cancel", style="dim"), markup=False)
+            yield Static(Text("↑↓ to move · Enter to choose · Esc to cancel", style="dim"), markup=False,
+                         id="dialog-hint")
 
     def on_mount(self) -> None:
         options = self.query_one(OptionList)
