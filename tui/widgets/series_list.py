@@ -49,6 +49,13 @@ def short_flags(codes: list[str], width: int) -> str:
     return " ".join(shown)
 
 
+def stop_room(codes: list[str]) -> int:
+    """Cells ``short_flags`` needs to show every stop flag of ``codes`` (and count the others)."""
+    stops = [SEVERITY_MARK["stop"] + code for code in codes if SEVERITY[code] == "stop"]
+    others = len(codes) - len(stops)
+    return cell_len(" ".join([*stops, *([f"+{others}"] if others else [])])) if stops else 0
+
+
 class SeriesList(ScrollView, can_focus=True):
     """Virtualised list of the session's view; posts ``Highlighted`` when the cursor moves."""
 
@@ -218,9 +225,11 @@ class SeriesList(ScrollView, can_focus=True):
         else:
             flag_style = STOP if severity == "stop" else WARN if severity else DIM
             other = session.accepted_other(s)  # an accept of another model: the flags are this proposal's
-            lead = cut(f"proposes {other} ", flags_w) if other is not None else ""
             spelled = session.spellings.differing(s)  # like a ledger series spelled so (``spellings``)
-            lead = cut(f"≈{spelled} ", flags_w) if spelled is not None else lead
+            lead = (f"≈{spelled}" if spelled is not None else f"proposes {other}" if other is not None else "")
+            if lead:  # cut before any stop flag is: "≈flat line thing …" had pushed "!flat-price" out
+                room = flags_w - stop_room(flags) - 1  # a space between it and the flags
+                lead = cut(lead, room) + " " if room >= 2 else "≈ " if spelled is not None else ""
             rest = flags_w - cell_len(lead)
             segments += [Segment(lead, WARN), Segment(pad(short_flags(flags, rest)
                                                           or ("" if lead else "—"), rest), flag_style)]
