@@ -56,6 +56,16 @@ def stop_room(codes: list[str]) -> int:
     return cell_len(" ".join([*stops, *([f"+{others}"] if others else [])])) if stops else 0
 
 
+def stale_proposal(session: TriageSession, s: int, listed: str) -> str | None:
+    """This cycle's proposal for series ``s`` where it reads stale and the model ``listed`` (signed on other data)
+    is another: the flags beside it are the proposal's ("loglog 47% !rising" read as the signed loglog's)."""
+    chosen = int(session.results.chosen[s])
+    if session.status[s] != "stale" or chosen < 0:
+        return None
+    proposal = session.results.names[chosen]
+    return proposal if proposal != listed.rstrip("↺") else None
+
+
 class SeriesList(ScrollView, can_focus=True):
     """Virtualised list of the session's view; posts ``Highlighted`` when the cursor moves."""
 
@@ -224,7 +234,7 @@ class SeriesList(ScrollView, can_focus=True):
             segments.append(Segment(pad(lead + describe(news, when=False), flags_w), NEWS))
         else:
             flag_style = STOP if severity == "stop" else WARN if severity else DIM
-            other = session.accepted_other(s)  # an accept of another model: the flags are this proposal's
+            other = session.accepted_other(s) or stale_proposal(session, s, name)  # the flags are this proposal's
             spelled = session.spellings.differing(s)  # like a ledger series spelled so (``spellings``)
             lead = (f"≈{spelled}" if spelled is not None else f"proposes {other}" if other is not None else "")
             if lead:  # cut before any stop flag is: "≈flat line thing …" had pushed "!flat-price" out
