@@ -1,12 +1,15 @@
-"""The list's flags column says what it must at 80 columns: a look-alike's '≈' mark gives way before any stop
-flag does, and a stale series' flags, this cycle's proposal's, are said to be of that proposal where the model
-listed is the one signed on other data."""
+"""The list at 80 columns says what it must: a look-alike's '≈' mark gives way before any stop flag does, a stale
+series' flags, this cycle's proposal's, are said to be of that proposal where the model listed is the one signed
+on other data, and ']' says when it goes round to the first series needing attention."""
 from __future__ import annotations
 
 import csv
 import random
 from datetime import date, timedelta
 from pathlib import Path
+
+import numpy as np
+import pytest
 
 from fitcore import ledger
 from fitcore.data.columns import Columns
@@ -105,3 +108,22 @@ def test_show_ledger_says_the_same_of_a_stale_rows_flags(ledger_path, tmp_path, 
     for row in leads:
         at = row.index("proposes")
         assert row[at + 1].rstrip(":") != row[row.index("stale") - 1].rstrip("↺")  # the proposal is another model
+
+
+@pytest.mark.parametrize("key, start, said", [("right_square_bracket", -1, "Back to the first series needing attention"),
+                                              ("left_square_bracket", 0, "Back to the last series needing attention")])
+async def test_the_attention_jump_says_when_it_goes_round(ledger_path, key, start, said):
+    """']' on the last series needing attention went to the first without a word."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24), notifications=True) as pilot:
+        session = await started(app, pilot)
+        positions = np.flatnonzero(session.needs_attention()[session.view])
+        session.cursor = int(positions[start])
+        app.screen.refresh_all()
+        await pilot.pause()
+        await pilot.press(key)
+        await until(pilot, lambda: said in screen_text(app))
+        assert session.cursor == int(positions[-1 - start])
+        await pilot.press(key)  # an ordinary step says nothing more
+        await pilot.pause()
+        assert session.cursor == int(positions[1 if start == -1 else -2])

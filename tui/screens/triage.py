@@ -347,8 +347,16 @@ class TriageScreen(DecisionFlow, Screen):
 
     # -- moving around ---------------------------------------------------------------------
     def action_attention(self, step: int) -> None:
-        if self.session.jump_attention(step):
-            self.series_list.reload()
+        was = self.session.cursor
+        if not self.session.jump_attention(step):
+            return
+        self.series_list.reload()
+        now = self.session.cursor
+        if now == was:
+            self.notify("This is the only series listed that needs attention.", markup=False, timeout=3)
+        elif (now < was) == (step > 0):  # went round the end of the list: said, not a silent jump to its far end
+            self.notify("Back to the first series needing attention (none after this one)." if step > 0 else
+                        "Back to the last series needing attention (none before this one).", markup=False, timeout=3)
 
     def action_search(self) -> None:
         def found(text: str | None) -> None:
