@@ -127,3 +127,16 @@ async def test_the_attention_jump_says_when_it_goes_round(ledger_path, key, star
         await pilot.press(key)  # an ordinary step says nothing more
         await pilot.pause()
         assert session.cursor == int(positions[1 if start == -1 else -2])
+
+
+async def test_the_key_line_keeps_help_and_quit_at_60_columns(ledger_path):
+    """At 60 columns the key line lost '? help  q quit' once 'u revoke' came in after a decision."""
+    app = make_app(ledger_path)
+    async with app.run_test(size=(60, 20)) as pilot:
+        await started(app, pilot)
+        await pilot.press("h")
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        await pilot.press("enter")
+        await until(pilot, lambda: "u revoke" in screen_text(app).splitlines()[-1])
+        keys = screen_text(app).splitlines()[-1]
+        assert "? help" in keys and "q quit" in keys and keys.startswith(" a accept"), keys
