@@ -84,6 +84,7 @@ class TriageScreen(DecisionFlow, Screen):
         self._moved_on_at = -1.0  # when a decision here last moved the cursor on (``DecisionFlow.decide``)
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
         self._keys_said: tuple = (None, None, None)  # the header's key columns, respellings and missing signed series
+        self.leaving = False  # q taken: no key acts any more (``action_quit``)
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -199,6 +200,8 @@ class TriageScreen(DecisionFlow, Screen):
 
     # -- which keys can act now ------------------------------------------------------------
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if self.leaving:
+            return None
         if self.answers_due and self.app.screen is self:  # a dialog closed, its answer not yet acted on
             return None  # a key typed ahead of the next dialog does nothing (``open_dialog``)
         session = self.session
@@ -448,4 +451,7 @@ class TriageScreen(DecisionFlow, Screen):
                         markup=False)
             return
         if not self.typing("quit"):
+            # keys right behind q (one read over SSH: "qs") open no dialog as the app closes: the sort dialog's
+            # list was gone before it mounted (a traceback, exit 1, after a plain quit)
+            self.leaving = True
             self.app.exit()
