@@ -68,9 +68,8 @@ async def test_a_look_alikes_confirmation_shows_its_choices_and_hint(ledger_path
         await pilot.pause()
         await pilot.press("a")
         await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
-        await pilot.pause()
+        await until(pilot, lambda: "PgDn/PgUp: the whole question" in screen_text(app))  # cut: as the test means
         answer_on_screen(app, "Yes: ", "No: record nothing (Esc)", "Enter to choose · Esc to cancel")
-        assert "PgDn/PgUp: the whole question" in screen_text(app)  # cut: the test asks what it means to
         for _ in range(10):
             await pilot.press("pagedown")
         await pilot.pause()
@@ -102,6 +101,8 @@ async def test_a_note_box_keeps_its_field_and_hint_at_60x20(ledger_path, flow):
     app = make_app(ledger_path)
     async with app.run_test(size=(60, 20)) as pilot:
         await note_box(app, pilot, flow)
+        for _ in range(5):  # a layout a step while it does not fit (``Asking._fit``)
+            await pilot.pause()
         answer_on_screen(app, "Enter to confirm · Esc to cancel")
         field = app.screen.query_one("#dialog-input").region
         assert field.height == 3 and field.bottom <= app.screen.query_one(".dialog").content_region.bottom

@@ -55,9 +55,9 @@ class Asking(Dialog):
     """A dialog that asks (``Question``) and takes an answer below it.  A question too long for the screen (a
     look-alike's at 60×20, one naming a 200-character product at 80×24) had pushed the answer under the dialog's
     edge — the choice list gone while ↑ and Enter still picked an unseen "Yes".  Where the whole does not fit,
-    the dialog takes its greatest height and the larger part gives way: a long question scrolls in the room the
-    answer leaves (``long``: PgUp/PgDn, as the border says), a long choice list under a short question scrolls
-    itself (``many``); the hint stays whole."""
+    its padding goes, then the dialog takes its greatest height and the larger part gives way: a long question
+    scrolls in the room the answer leaves (``long``: PgUp/PgDn, as the border says when it is cut), a long
+    choice list under a short question scrolls itself (``many``); the hint stays whole."""
 
     BINDINGS = [Binding("pageup", "read(-1)", show=False, priority=True),
                 Binding("pagedown", "read(1)", show=False, priority=True)]  # never the choice list's
@@ -70,17 +70,28 @@ class Asking(Dialog):
         self.call_after_refresh(self._fit)
 
     def on_resize(self) -> None:
-        self.remove_class("long", "many")  # measured again at their own heights: the screen may have grown
+        if self.app.size == getattr(self, "_fitted_to", None):
+            return  # a layout of its own (a class set by ``_fit``), not the terminal's: fitted already
+        self._fitted_to = self.app.size
+        self.remove_class("tight", "long", "many")  # measured again as they are: the terminal may have grown
         self.call_after_refresh(self._fit)
 
     def _fit(self) -> None:
+        """One step a layout while the whole does not fit: first the padding goes (``tight``), then the larger
+        part gives way (``long`` or ``many``)."""
         if not self.is_attached or not self.query(Question):
             return  # answered and closing
-        dialog, hint = self.query_one(".dialog"), self.query_one("#dialog-hint")
-        if not self.has_class("long", "many") and hint.region.bottom > dialog.content_region.bottom:
-            choices = self.query(OptionList)
-            many = bool(choices) and choices.first().virtual_size.height > self.query_one(Question).virtual_size.height
-            self.add_class("many" if many else "long")
+        dialog, hint, question = self.query_one(".dialog"), self.query_one("#dialog-hint"), self.query_one(Question)
+        given_way = self.has_class("long") or self.has_class("many")  # (has_class of two asks for both)
+        if not given_way and hint.region.bottom > dialog.content_region.bottom:
+            if not self.has_class("tight"):
+                self.add_class("tight")
+            else:
+                choices = self.query(OptionList)
+                many = bool(choices) and choices.first().virtual_size.height > question.virtual_size.height
+                self.add_class("many" if many else "long")
+            self.call_after_refresh(self._fit)
+        # long only where the question did not fit the dialog's greatest height with its padding gone: it is cut
         dialog.border_subtitle = "PgDn/PgUp: the whole question" if self.has_class("long") else ""
 
 
