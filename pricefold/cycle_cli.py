@@ -250,12 +250,14 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         cover = f"{bt['coverage'] * 100:.0f}%" if bt.get("coverage") is not None else "—"
         flags = " ".join(f["code"] for f in record["flags"]) or "—"
         stands = standing_decision(record, book)
-        if stands is not None and stands["action"] == "accept":  # the flags are these results' proposal's
+        model = standing_model(record, book)
+        # the flags are these results' proposal's: beside an accept of another, or a model signed on other data
+        stale_other = status == "stale" and record["chosen"] and model.rstrip("↺") != record["chosen"]
+        if (stands is not None and stands["action"] == "accept") or stale_other:
             flags = f"proposes {record['chosen'] or 'nothing'}: {flags if record['flags'] else 'no flags'}"
         alike = like.get(series_id(record["key"]))
         if alike is not None:  # as the screen marks it: the ledger's spelling where the flags begin
             flags = f"≈{differing(record['key'], alike)}" + (f" {flags}" if record["flags"] else "")
-        model = standing_model(record, book)
         lines.append(f"{label} {record['n']:>5} {model:<7} "
                      f"{status:<20} {needs or '—':<{wide}} {ratio:>5} {cover:>5}  {flags}")
     return "\n".join(lines)

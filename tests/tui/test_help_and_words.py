@@ -55,6 +55,39 @@ async def test_the_help_shows_the_ledger_head_whole_beside_the_scrollbar(ledger_
         assert after.strip() == "", line  # nothing drawn after it: the scrollbar has a column of its own
 
 
+@pytest.mark.parametrize("size", [(80, 24), (60, 20)])
+async def test_the_help_shows_a_four_digit_head_whole_at_80_columns(ledger_path, size):
+    """At 80 columns a head of sequence number 2150 ran one character past the text's width: the digest's last
+    character alone on the next line, beside the scrollbar's thumb — read or copied from there, a wrong head.
+    Whole on one line at 80 columns; folded where the screen is narrower, its parts adding up to the head."""
+    import csv
+    from tests.tui.test_key_columns_screen import SAMPLE
+    with open(SAMPLE / "wholesale.csv", newline="") as handle:
+        keys = sorted({(row["product"], row["region"]) for row in csv.DictReader(handle)})
+    latest = {}
+    for round_ in range(6):  # one note a series an append: 6 × 180 records
+        written = ledger.append(ledger_path, [ledger.Entry(
+            series={"product": p, "region": r}, action="note", fingerprint="f" * 64, results="ab" * 32,
+            note=f"look {round_}", supersedes=latest.get((p, r))) for p, r in keys], ledger.Identity("bo", "bo", "h"))
+        latest = {(record["series"]["product"], record["series"]["region"]): record["digest"] for record in written}
+    app = make_app(ledger_path)
+    async with app.run_test(size=size) as pilot:
+        await started(app, pilot)
+        await pilot.press("question_mark")
+        await pilot.pause()
+        await pilot.press("end")
+        await pilot.pause()
+        head = ledger.Ledger(ledger_path).head_text
+        assert head.startswith("1080:")
+        dialog = app.screen.query_one(".dialog").region
+        lines = [line[dialog.x:dialog.right].strip(" │▁▂▃▄▅▆▇█") for line in screen_text(app).splitlines()]
+        at = next(i for i, line in enumerate(lines) if line.startswith(head[:20]))
+        if size[0] >= 80:
+            assert lines[at] == head, lines[at:at + 2]
+        else:
+            assert "".join(lines[at:at + 2]) == head, lines[at:at + 2]
+
+
 async def test_the_help_names_every_filter_and_the_prompt_says_what_a_flag_does(ledger_path):
     app = make_app(ledger_path)
     async with app.run_test(size=(160, 50)) as pilot:

@@ -51,6 +51,7 @@ class DecisionFlow:
     def decide(self, shown: Shown, action: str, model: str | None = None, note: str = "") -> None:
         """Record ``action`` on the series ``shown`` showed; say what happened, and move on after a decision."""
         before = self.session.view  # (a rebuild makes a new array): the list the analyst was working down
+        replaced = self.replaced_text(shown) if action in ("accept", "override") else None  # stale until recorded
         try:
             self.session.decide(shown, action, model=model, note=note)
         except PricefoldError as exc:  # refused by the screen or by the ledger's rules, or not written
@@ -59,7 +60,8 @@ class DecisionFlow:
         self._unsaid.pop(shown.sid, None)
         s = self.session.index_of(shown)
         what = f" {model}" if action == "override" else ""
-        self.notify(f"{TOLD[action]}{what}: {self.session.label(s)}", markup=False, timeout=3)
+        instead = f", in place of {replaced}" if replaced else ""
+        self.notify(f"{TOLD[action]}{what}: {self.session.label(s)}{instead}", markup=False, timeout=5 if replaced else 3)
         moved = self.session.book.tail_moved_to
         if moved is not None:  # the header had said "the next decision moves it to …"; now where it went (a trial)
             self.notify(f"The interrupted tail after the ledger's last whole record was moved to {clean(moved.name)} "
@@ -108,7 +110,11 @@ class DecisionFlow:
             said = (f"At the plan price {money(plan)}{where}, "
                     + predicts(results, s, c, lambda v: f"{fmt(v)} {unit}" if unit else fmt(v),
                              self.session.diagnosis) + ".")
-        text = Text(said, style="#ff875f" if math.isfinite(plan) and results.plan_volume[s, c] <= 0 else "")
+        text = Text()
+        replaced = self.replaced_text(shown)
+        if replaced:
+            text.append(f"This replaces what stands: {replaced}.\n", style="bold")
+        text.append(said, style="#ff875f" if math.isfinite(plan) and results.plan_volume[s, c] <= 0 else "")
         if model is not None:
             from .override import candidate_rows
             flags = next(row.flags for row in candidate_rows(results, s, self.session.diagnosis) if row.name == model)
@@ -116,6 +122,16 @@ class DecisionFlow:
                         style="#ff875f" if flags else "dim")
         text.append("\n" + SIGNING_CAUTION, style="dim italic")
         return text
+
+    def replaced_text(self, shown: Shown) -> str | None:
+        """Where the series reads stale, the decision a sign-off replaces, made on other data than these, in words
+        (an accept of poly5 asked only "despite rising?" and replaced the signed loglog unsaid); else None."""
+        from ..session import describe
+        s = self.session.index_of(shown)
+        decision = self.session.decision(s) if self.session.status[s] == "stale" else None
+        if decision is None:
+            return None
+        return f"{describe(decision)}, on other data than these (the series reads stale)"
 
     def new_key_set(self, action: str, then) -> None:
         """``then()`` — at once, or after a dialog where a decision on the series shown would start something new

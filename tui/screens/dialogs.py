@@ -47,7 +47,55 @@ class NoteField(Input):
         await super()._on_key(event)
 
 
-class TextDialog(Dialog):
+class Question(VerticalScroll, can_focus=False):
+    """What a dialog asks, above its answer (a note box, a choice) and the keys' hint."""
+
+
+class Asking(Dialog):
+    """A dialog that asks (``Question``) and takes an answer below it.  A question too long for the screen (a
+    look-alike's at 60×20, one naming a 200-character product at 80×24) had pushed the answer under the dialog's
+    edge — the choice list gone while ↑ and Enter still picked an unseen "Yes".  Where the whole does not fit,
+    its padding goes, then the dialog takes its greatest height and the larger part gives way: a long question
+    scrolls in the room the answer leaves (``long``: PgUp/PgDn, as the border says when it is cut), a long
+    choice list under a short question scrolls itself (``many``); the hint stays whole."""
+
+    BINDINGS = [Binding("pageup", "read(-1)", show=False, priority=True),
+                Binding("pagedown", "read(1)", show=False, priority=True)]  # never the choice list's
+
+    def action_read(self, way: int) -> None:
+        question = self.query_one(Question)
+        question.scroll_to(y=question.scroll_y + way * max(question.size.height - 1, 1), animate=False)
+
+    def on_mount(self) -> None:
+        self.call_after_refresh(self._fit)
+
+    def on_resize(self) -> None:
+        if self.app.size == getattr(self, "_fitted_to", None):
+            return  # a layout of its own (a class set by ``_fit``), not the terminal's: fitted already
+        self._fitted_to = self.app.size
+        self.remove_class("tight", "long", "many")  # measured again as they are: the terminal may have grown
+        self.call_after_refresh(self._fit)
+
+    def _fit(self) -> None:
+        """One step a layout while the whole does not fit: first the padding goes (``tight``), then the larger
+        part gives way (``long`` or ``many``)."""
+        if not self.is_attached or not self.query(Question):
+            return  # answered and closing
+        dialog, hint, question = self.query_one(".dialog"), self.query_one("#dialog-hint"), self.query_one(Question)
+        given_way = self.has_class("long") or self.has_class("many")  # (has_class of two asks for both)
+        if not given_way and hint.region.bottom > dialog.content_region.bottom:
+            if not self.has_class("tight"):
+                self.add_class("tight")
+            else:
+                choices = self.query(OptionList)
+                many = bool(choices) and choices.first().virtual_size.height > question.virtual_size.height
+                self.add_class("many" if many else "long")
+            self.call_after_refresh(self._fit)
+        # long only where the question did not fit the dialog's greatest height with its padding gone: it is cut
+        dialog.border_subtitle = "PgDn/PgUp: the whole question" if self.has_class("long") else ""
+
+
+class TextDialog(Asking):
     """One line of text; Enter returns it, Escape cancels.  ``required`` refuses an empty answer."""
 
     # Ctrl+C leaves pricefold from here too (the text field would take it as copy and do nothing); with a note
@@ -63,10 +111,11 @@ class TextDialog(Dialog):
         self.about = about  # what the note is about (an accept past a stop flag: the numbers being signed)
 
     def compose(self) -> ComposeResult:
-        with Vertical(classes="dialog"):
-            yield Static(literal(self.title_text, "bold"), markup=False)
-            if self.about is not None:
-                yield Static(self.about, markup=False, id="dialog-about")
+        with Vertical(classes="dialog asking"):
+            with Question():
+                yield Static(literal(self.title_text, "bold"), markup=False)
+                if self.about is not None:
+                    yield Static(self.about, markup=False, id="dialog-about")
             yield NoteField(value=self.value, placeholder=self.placeholder, id="dialog-input")
             yield Static(Text("Enter to confirm · Esc to cancel", style="dim"), id="dialog-hint", markup=False)
 
@@ -105,7 +154,7 @@ class TextDialog(Dialog):
         self.app.action_interrupt()
 
 
-class ChoiceDialog(Dialog):
+class ChoiceDialog(Asking):
     """Pick one option by arrow keys and Enter; returns its id."""
 
     BINDINGS = [Binding("escape", "cancel", "cancel")]
@@ -115,10 +164,12 @@ class ChoiceDialog(Dialog):
         self.title_text, self.options, self.current = title, options, current
 
     def compose(self) -> ComposeResult:
-        with Vertical(classes="dialog"):
-            yield Static(literal(self.title_text, "bold"), markup=False)
+        with Vertical(classes="dialog asking"):
+            with Question():
+                yield Static(literal(self.title_text, "bold"), markup=False)
             yield OptionList(*[Option(Text(label), id=key) for key, label in self.options], id="dialog-options")
-            yield Static(Text("↑↓ to move · Enter to choose · Esc to cancel", style="dim"), markup=False)
+            yield Static(Text("↑↓ to move · Enter to choose · Esc to cancel", style="dim"), markup=False,
+                         id="dialog-hint")
 
     def on_mount(self) -> None:
         options = self.query_one(OptionList)

@@ -85,6 +85,7 @@ class TriageScreen(DecisionFlow, Screen):
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
         self._keys_said: tuple = (None, None, None, True)  # what the header says of the ledger (``ledger_said``)
         self._listed = -1  # the rows the header counts as listed
+        self.leaving = False  # q taken: no key acts any more (``action_quit``)
 
     def compose(self) -> ComposeResult:
         yield Static(id="status-line", markup=False)
@@ -204,6 +205,8 @@ class TriageScreen(DecisionFlow, Screen):
 
     # -- which keys can act now ------------------------------------------------------------
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if self.leaving:
+            return None
         if self.answers_due and self.app.screen is self:  # a dialog closed, its answer not yet acted on
             return None  # a key typed ahead of the next dialog does nothing (``open_dialog``)
         session = self.session
@@ -352,8 +355,16 @@ class TriageScreen(DecisionFlow, Screen):
 
     # -- moving around ---------------------------------------------------------------------
     def action_attention(self, step: int) -> None:
-        if self.session.jump_attention(step):
-            self.series_list.reload()
+        was = self.session.cursor
+        if not self.session.jump_attention(step):
+            return
+        self.series_list.reload()
+        now = self.session.cursor
+        if now == was:
+            self.notify("This is the only series listed that needs attention.", markup=False, timeout=3)
+        elif (now < was) == (step > 0):  # went round the end of the list: said, not a silent jump to its far end
+            self.notify("Back to the first series needing attention (none after this one)." if step > 0 else
+                        "Back to the last series needing attention (none before this one).", markup=False, timeout=3)
 
     def action_search(self) -> None:
         def found(text: str | None) -> None:
@@ -445,4 +456,7 @@ class TriageScreen(DecisionFlow, Screen):
                         markup=False)
             return
         if not self.typing("quit"):
+            # keys right behind q (one read over SSH: "qs") open no dialog as the app closes: the sort dialog's
+            # list was gone before it mounted (a traceback, exit 1, after a plain quit)
+            self.leaving = True
             self.app.exit()

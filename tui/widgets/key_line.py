@@ -13,6 +13,7 @@ from textual.widgets import Static
 
 KEY = Style(bold=True)
 OFF = Style(dim=True)
+KEPT = ("help", "quit")  # the keys the line keeps whatever else it drops for room
 
 
 class KeyLine(Static):
@@ -47,18 +48,25 @@ class KeyLine(Static):
         self.bindings_changed(self.screen)
 
     def keys_text(self, width: int) -> Text:
-        """The keys two cells apart, or one apart when that is what makes them all fit ``width``."""
-        items: list[tuple[str, str, Style]] = []
+        """The keys two cells apart, or one apart when that is what makes them all fit ``width``; where not even
+        that fits, the rightmost keys go but help and quit (at 60 columns ``u revoke`` had pushed them off)."""
+        items: list[tuple[str, str, Style, bool]] = []
         seen: set[str] = set()
         for node, binding, enabled, _ in self.screen.active_bindings.values():
             if not binding.show or binding.action in seen:
                 continue
             seen.add(binding.action)
             click = Style.from_meta({"@click": f"{'screen' if node is self.screen else 'app'}.{binding.action}"})
-            items.append((self.app.get_key_display(binding), binding.description, click + (Style() if enabled else OFF)))
-        wide = sum(len(key) + len(description) + 3 for key, description, _ in items) <= width
+            items.append((self.app.get_key_display(binding), binding.description, click + (Style() if enabled else OFF),
+                          binding.action in KEPT))
+        wide = sum(len(key) + len(description) + 3 for key, description, _, _ in items) <= width
+        while not wide and 1 + sum(len(key) + len(description) + 2 for key, description, _, _ in items) > width:
+            dropped = next((i for i in range(len(items) - 1, -1, -1) if not items[i][3]), None)
+            if dropped is None:
+                break
+            del items[dropped]
         text = Text(no_wrap=True, overflow="crop")
-        for key, description, style in items:
+        for key, description, style, _ in items:
             text.append(" " if wide or not text else "", style)
             text.append(key, style + KEY)
             text.append(f" {description} ", style)

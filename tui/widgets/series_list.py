@@ -49,6 +49,23 @@ def short_flags(codes: list[str], width: int) -> str:
     return " ".join(shown)
 
 
+def stop_room(codes: list[str]) -> int:
+    """Cells ``short_flags`` needs to show every stop flag of ``codes`` (and count the others)."""
+    stops = [SEVERITY_MARK["stop"] + code for code in codes if SEVERITY[code] == "stop"]
+    others = len(codes) - len(stops)
+    return cell_len(" ".join([*stops, *([f"+{others}"] if others else [])])) if stops else 0
+
+
+def stale_proposal(session: TriageSession, s: int, listed: str) -> str | None:
+    """This cycle's proposal for series ``s`` where it reads stale and the model ``listed`` (signed on other data)
+    is another: the flags beside it are the proposal's ("loglog 47% !rising" read as the signed loglog's)."""
+    chosen = int(session.results.chosen[s])
+    if session.status[s] != "stale" or chosen < 0:
+        return None
+    proposal = session.results.names[chosen]
+    return proposal if proposal != listed.rstrip("↺") else None
+
+
 class SeriesList(ScrollView, can_focus=True):
     """Virtualised list of the session's view; posts ``Highlighted`` when the cursor moves."""
 
@@ -217,10 +234,12 @@ class SeriesList(ScrollView, can_focus=True):
             segments.append(Segment(pad(lead + describe(news, when=False), flags_w), NEWS))
         else:
             flag_style = STOP if severity == "stop" else WARN if severity else DIM
-            other = session.accepted_other(s)  # an accept of another model: the flags are this proposal's
-            lead = cut(f"proposes {other} ", flags_w) if other is not None else ""
+            other = session.accepted_other(s) or stale_proposal(session, s, name)  # the flags are this proposal's
             spelled = session.spellings.differing(s)  # like a ledger series spelled so (``spellings``)
-            lead = cut(f"≈{spelled} ", flags_w) if spelled is not None else lead
+            lead = (f"≈{spelled}" if spelled is not None else f"proposes {other}" if other is not None else "")
+            if lead:  # cut before any stop flag is: "≈flat line thing …" had pushed "!flat-price" out
+                room = flags_w - stop_room(flags) - 1  # a space between it and the flags
+                lead = cut(lead, room) + " " if room >= 2 else "≈ " if spelled is not None else ""
             rest = flags_w - cell_len(lead)
             segments += [Segment(lead, WARN), Segment(pad(short_flags(flags, rest)
                                                           or ("" if lead else "—"), rest), flag_style)]
