@@ -37,6 +37,14 @@ async def test_no_minus_zero_on_screen(ledger_path):
         assert "-0%" not in screen_text(app)
 
 
+async def help_at_its_end(pilot) -> None:
+    """The help opened and scrolled to its end, where the ledger's head is."""
+    await pilot.press("question_mark")
+    await pilot.pause()
+    await pilot.press("end")
+    await pilot.pause()
+
+
 @pytest.mark.parametrize("size", [(80, 24), (120, 40)])
 async def test_the_help_shows_the_ledger_head_whole_beside_the_scrollbar(ledger_path, size):
     app = make_app(ledger_path)
@@ -44,10 +52,7 @@ async def test_the_help_shows_the_ledger_head_whole_beside_the_scrollbar(ledger_
         session = await started(app, pilot)
         for s in session.view[:12]:  # a head of two digits: 69 characters with its indent
             session.decide(session.look(int(s)), "note", note="seen")
-        await pilot.press("question_mark")
-        await pilot.pause()
-        await pilot.press("end")
-        await pilot.pause()
+        await help_at_its_end(pilot)
         head = ledger.Ledger(ledger_path).head_text
         assert head.startswith("12:")
         [line] = [line for line in screen_text(app).splitlines() if head in line]
@@ -73,10 +78,7 @@ async def test_the_help_shows_a_four_digit_head_whole_at_80_columns(ledger_path,
     app = make_app(ledger_path)
     async with app.run_test(size=size) as pilot:
         await started(app, pilot)
-        await pilot.press("question_mark")
-        await pilot.pause()
-        await pilot.press("end")
-        await pilot.pause()
+        await help_at_its_end(pilot)
         head = ledger.Ledger(ledger_path).head_text
         assert head.startswith("1080:")
         dialog = app.screen.query_one(".dialog").region
