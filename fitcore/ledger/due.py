@@ -36,7 +36,7 @@ def beyond_signed(price, planned, lo, hi) -> bool:
     backtest's ``signed_price_lo``/``hi``; None or NaN in results written before them: not judged).  Carrying
     the decision there would sign a price no one saw the curve at (a trial: a plan moved 2.20 → 3.30 past
     signed prices 1.61–2.73 was carried, said only in the backtest's sentence)."""
-    if not planned or lo is None or hi is None:
+    if not planned or price is None or lo is None or hi is None:
         return False
     from ..review.sentences import outside_prices
     price, lo, hi = float(price), float(lo), float(hi)
