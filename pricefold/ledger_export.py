@@ -181,11 +181,10 @@ def run_export(args) -> int:
                 while left:  # each short write seen (through Python's buffered file a reader gone mid-write was not)
                     left = left[os.write(fd, left[:1 << 20]):]
         except BrokenPipeError:  # the reader went away: a planning system got part of the file, if any (a trial)
-            from .cli import IO_FAILED
             os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())  # nothing more to flush there at exit
             print(f"pricefold ledger: the reader of standard output went away before the export was whole "
                   f"({len(payload):,} bytes, {count:,} series): not every row reached it", file=sys.stderr)
-            return IO_FAILED
+            return os.EX_IOERR  # 74, as cli.IO_FAILED (not imported: the command line imports this module)
     else:
         write_text(args.output, buffer.getvalue())
     if not args.quiet:
