@@ -170,7 +170,7 @@ async def test_o_down_enter_typed_in_one_burst_shows_the_picked_models_numbers_i
     async with app.run_test(size=(120, 34)) as pilot:
         s = await on_an_unflagged_series(app, pilot)
         type_ahead(app, "o", "down", "enter")
-        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        await until(pilot, lambda: isinstance(app.screen, TextDialog) and app.screen.query("#dialog-about"))
         title = app.screen.title_text
         model = title.split()[1]  # "Why MODEL instead of …"
         results = app.session.results
