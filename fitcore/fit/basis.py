@@ -23,6 +23,13 @@ def window(lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return (lo + hi) / 2, (hi - lo) / 2
 
 
+def outside_prices(price, lo, hi):
+    """Whether ``price`` lies outside [lo, hi] (numbers or arrays), to a part in 1e9: a signed curve's prices are
+    its window's ends, through a logarithm and back for loglog (the backtest's count of rows since, carry's plan
+    check and the shifted sentence all judge by this)."""
+    return (price < lo - 1e-9 * abs(lo)) | (price > hi + 1e-9 * abs(hi))
+
+
 def width(half: np.ndarray) -> np.ndarray:
     """The half-width to divide by: 1 where the window has no width (a single price)."""
     return np.where(half > 0, half, 1.0)

@@ -289,7 +289,7 @@ class _SignedCurves:
 
     def outside(self, price: np.ndarray, which: np.ndarray) -> np.ndarray:
         """Whether ``price[i]`` lies outside the prices curve ``which[i]`` was fitted over."""
-        from ..review.sentences import outside_prices
+        from ..fit.basis import outside_prices
         lo, hi = self.prices()
         return outside_prices(price, lo[which], hi[which])
 

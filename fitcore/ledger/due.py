@@ -38,7 +38,7 @@ def beyond_signed(price, planned, lo, hi) -> bool:
     signed prices 1.61–2.73 was carried, said only in the backtest's sentence)."""
     if not planned or price is None or lo is None or hi is None:
         return False
-    from ..review.sentences import outside_prices
+    from ..fit.basis import outside_prices
     price, lo, hi = float(price), float(lo), float(hi)
     return bool(math.isfinite(lo) and math.isfinite(hi) and outside_prices(price, lo, hi))
 

@@ -8,6 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from ..fit import reasons as R
+from ..fit.basis import outside_prices
 
 
 HUGE = 1e9
@@ -437,12 +438,6 @@ def shift_sentence(bt: dict, proposal: str | None, older: bool = False) -> str:
         whose = "The proposal of these older results" if older else "This cycle's proposal"
         parts.append(f"{whose}, {proposal}{again}, predicts {fmt(proposed)} ({beside}).")
     return " ".join(parts)
-
-
-def outside_prices(price, lo, hi):
-    """Whether ``price`` lies outside [lo, hi] (numbers or arrays), to a part in 1e9: a signed curve's prices are
-    its window's ends, through a logarithm and back for loglog (``ledger.backtest`` counts the rows since so)."""
-    return (price < lo - 1e-9 * abs(lo)) | (price > hi + 1e-9 * abs(hi))
 
 
 def signed_by(bt: dict) -> str:
