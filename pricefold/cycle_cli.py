@@ -130,7 +130,7 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     (``≈North`` where the flags begin; a series in full says which it looks like) and their keys told apart from
     the ledger's spelling (``East⟨U+0020⟩``), filtered or not, as on the screen.  ``first``: a record's rank
     ahead of the attention order (``show.in_attention_order``).  A series an override stands on (not stale) is
-    listed, ranked and picked by its own curve's flags (``standing_flags``), not its proposal's; ``full(i)``:
+    listed, ranked and picked by its own curve's flags and Q² (``standing_flags``), not its proposal's; ``full(i)``:
     the whole record of ``records[i]`` where they hold no candidates (a Parquet list).  ``flag``: ``--flag``'s
     code, kept by the flags shown (the records not picked by it beforehand); None, said why on stderr, when
     none is kept."""
@@ -180,8 +180,9 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
                                                        results))  # the fit's, as the export judges by
     standing = [standing_flags(record, book, thresholds, (lambda i=i: full(i)) if full else None)
                 for i, record in enumerate(records)]
-    say_unchecked("pricefold show", results, sum(not checked for _, checked in filter(None, standing)))
-    listed = [record if mine is None else {**record, "flags": mine[0]} for record, mine in zip(records, standing)]
+    say_unchecked("pricefold show", results, sum(not checked for _, checked, _ in filter(None, standing)))
+    listed = [record if mine is None else {**record, "flags": mine[0], "score": mine[2]}
+              for record, mine in zip(records, standing)]
     if flag is not None:  # listed by what is shown: a flag left out above, or a proposal's, picks nothing
         kept = [i for i, record in enumerate(listed) if any(f["code"] == flag for f in record["flags"])]
         if not kept:
@@ -263,11 +264,12 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     return "\n".join(lines)
 
 
-def standing_flags(record: dict, book, thresholds, full=None) -> tuple[list[dict], bool] | None:
-    """``(flags, checked)`` of a series where an override stands on its data (overridden, carried or not): the
-    flags its own curve carries, as ``ledger export`` writes them (``candidate_checks.standing_codes``) — the
+def standing_flags(record: dict, book, thresholds, full=None) -> tuple[list[dict], bool, float | None] | None:
+    """``(flags, checked, score)`` of a series where an override stands on its data (overridden, carried or not):
+    the flags its own curve carries, as ``ledger export`` writes them (``candidate_checks.standing_codes``) — the
     series' own and the proposal's kept with their sentences, the curve's checks added with its severity and no
-    sentence; ``checked`` false where no curve could be checked.  ``thresholds()``: the fit's; ``full()``: the
+    sentence; ``checked`` false where no curve could be checked; ``score``: that curve's Q² (None where these
+    results did not fit it), the score its row ranks by on the screen and in the report.  ``thresholds()``: the fit's; ``full()``: the
     whole record where ``record`` holds no candidates.  None where no override stands (accepted, pending, held,
     or stale: signed on other data, the results' flags are of this cycle's proposal)."""
     history = book.histories.get(series_id(record["key"]))
@@ -285,7 +287,8 @@ def standing_flags(record: dict, book, thresholds, full=None) -> tuple[list[dict
     had = {f["code"]: f for f in record["flags"]}
     codes, checked = standing_codes(list(had), cand, current.get("signed") or None,
                                     (whole.get("plan") or {}).get("price"), lo, hi, thresholds())
-    return [had.get(code) or {"code": code, "severity": SEVERITY[code], "message": ""} for code in codes], checked
+    return ([had.get(code) or {"code": code, "severity": SEVERITY[code], "message": ""} for code in codes], checked,
+            None if cand is None else cand["q2"])
 
 
 def show_missing(results: Path, header: dict, ledger_path: Path, within) -> None:

@@ -146,3 +146,13 @@ def test_the_stands_line_of_an_override_at_a_plan_price_outside_the_range_says_e
                      f"region={row['region']}"]) == 0
         line = next(text for text in capsys.readouterr().out.splitlines() if "stands: poly4" in text)
         assert ("an extrapolation (outside the prices observed)" in line) == far, line
+
+
+@pytest.mark.parametrize("kind", ["json", "parquet"])
+def test_the_list_orders_as_the_report_and_the_screen(run, capsys, tmp_path_factory, kind):
+    """``show --ledger`` lists in the order the report and the screen give (``test_report_shown_flags.attention``,
+    the rule written out apart from pricefold): by the flags each row shows, then the score it shows — an
+    override's own curve's Q², not its proposal's."""
+    from tests.report.test_report_shown_flags import attention, shown_flags
+    listed = list(_listed(capsys, _results(run, tmp_path_factory, kind), run.book))
+    assert listed == attention(run, shown_flags(run))
