@@ -226,3 +226,16 @@ def test_the_screen_says_what_show_and_carry_say(cycles):
         due = {name: session.due(int(session.keys.indices_of([{"product": product}])[0]))
                for name, (product, _) in cycles.cases.items()}
         assert due == {"override flat": "backtest passed", "override rises": "stop flag (rising)"}
+
+
+def test_the_series_data_flags_still_hold_an_override_back(cycles):
+    """Flags of the series' data and plan hold whichever curve stands: the flat override's record given
+    ``few-points`` and ``flat-price`` is due those two stop flags — its proposal's ``rising`` dropped, not they."""
+    from pricefold.cycle_cli import ledger_state
+    from pricefold.ledger_cli import open_ledger
+    product, _ = cycles.cases["override flat"]
+    record = cycles.second[product]
+    data = [{"code": code, "severity": SEVERITY[code], "message": ""} for code in ("few-points", "flat-price")]
+    doctored = {**record, "flags": data + record["flags"]}
+    status, due = ledger_state(doctored, open_ledger(cycles.folder / ledger_of(SCREEN)))
+    assert (status, due) == ("stale", "stop flag (few-points, flat-price)")
