@@ -50,8 +50,9 @@ def left_for_human(status: str, shifted: bool, stops, has_model: bool, shape_cha
     carry`` carries it), the first that holds: its backtest did not pass, the rows it was signed on were
     ``revised`` (unless ``revised_ok``: ``ledger carry --carry-revised``, for a rolling window — rows restated
     or re-dated could pass for rows since), ``shifted``, a stop flag (``stops``: its stop flags' codes, or a
-    bool), this plan's price beyond the prices the curve was signed on (``beyond``: ``beyond_signed``), no
-    curve proposed (``has_model``), or the signed shape is not this cycle's proposal (``shape_changed``) —
+    bool — of the curve a carry would make stand, an override's own: ``candidate_checks.carried_codes``), this
+    plan's price beyond the prices the curve was signed on (``beyond``: ``beyond_signed``), no curve proposed
+    (``has_model``), or the signed shape is not this cycle's proposal (``shape_changed``) —
     unless the decision carried is an override whose curve is still available and within one SE of the lowest
     CV error (``kept_override``).  The one rule: carry counts by it, ``show --ledger`` and the screen say it as
     what is due (``due``)."""
