@@ -137,7 +137,7 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
                  else [f["code"] for f in record["flags"]])
         near = near_best(record, bt["candidate"])
         why = left_for_human(bt["status"], "shifted" in codes, bool(set(codes) & stops), record["chosen"] is not None,
-                             bt["candidate"] != record["chosen"], bt["carries"] in overrides and near,
+                             bt["candidate"] != record["chosen"], near if bt["carries"] in overrides else None,
                              bool(bt.get("revised")), revised_ok,
                              beyond_signed(bt.get("price"), bt.get("planned"), bt.get("signed_price_lo"),
                                            bt.get("signed_price_hi")))
@@ -220,7 +220,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
                                                                   "signed_price_hi")))]  # (older results: not judged)
     why = [left_for_human(*args)
            for args in zip(status[tested].tolist(), shifted.tolist(), stop.tolist(), has_model.tolist(),
-                           changed.tolist(), (override & near).tolist(), revised.tolist(), [revised_ok] * len(tested),
+                           changed.tolist(), np.where(override, near, None).tolist(), revised.tolist(), [revised_ok] * len(tested),
                            beyond)]
     untested = np.flatnonzero(~np.isin(status[tested].astype(str), [PASSED, FAILED]))
     for i, key, fingerprint, last in zip(untested.tolist(), *series_of(tested[untested])):

@@ -44,7 +44,7 @@ def ledger_state(record: dict, book, short: bool = False, fitted: bool = False, 
                  if code in stop_codes()]
         near = bt["signed_near_best"] if "signed_near_best" in bt else (  # results made before it was kept
             "candidates" in record and near_best(record, bt.get("candidate")))
-        kept = override and bool(near)
+        kept = bool(near) if override else None
         needs = due(bt, stops, record["chosen"] is not None, kept)
         if not short:  # what a carry would carry it across besides new rows, said in its note too
             needs = "; ".join([needs, *carried_across(bt)])

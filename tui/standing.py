@@ -44,7 +44,7 @@ class Standing:
                 c >= 0 and within_one_se(np.asarray(results.cv_mse[s], dtype=float),
                                          np.asarray(results.cv_se[s], dtype=float), np.asarray(results.available[s]), c))
             override = decision is not None and decision["action"] == "override"
-            kept = override and bool(near)
+            kept = bool(near) if override else None
             stops = [code for code in self.due_codes(s, record["candidate"] if override else None)
                      if SEVERITY[code] == "stop"]
             found = self.backtest.due(s, stops, bool(results.chosen[s] >= 0), kept)

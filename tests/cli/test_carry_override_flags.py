@@ -239,3 +239,23 @@ def test_the_series_data_flags_still_hold_an_override_back(cycles):
     doctored = {**record, "flags": data + record["flags"]}
     status, due = ledger_state(doctored, open_ledger(cycles.folder / ledger_of(SCREEN)))
     assert (status, due) == ("stale", "stop flag (few-points, flat-price)")
+
+
+def test_an_override_beyond_one_se_is_left_as_such_not_as_proposal_changed(cycles):
+    """An override whose curve is no longer within one SE of the lowest CV error is left for a human, and show and
+    carry say why in those words: its shape was never the proposal, so "proposal changed" (a trial's reading of
+    an override of loglog over poly3 whose proposal had become poly4) told nothing.  The flat override's record
+    given its model a CV error far above the others' (and the fit's kept answer to the same question)."""
+    from pricefold.carry_cli import plan_from_records
+    from pricefold.cycle_cli import ledger_state
+    from pricefold.ledger_cli import open_ledger
+    product, model = cycles.cases["override flat"]
+    record = cycles.second[product]
+    candidates = [{**c, "cv_mse": 1e9} if c["name"] == model else c for c in record["candidates"]]
+    doctored = {**record, "candidates": candidates, "backtest": {**record["backtest"], "signed_near_best": False}}
+    book = open_ledger(cycles.folder / ledger_of(SCREEN))
+    assert ledger_state(doctored, book) == ("stale", "override not within one SE")
+    assert ledger_state(record, book) == ("stale", "backtest passed")
+    _, left = plan_from_records([doctored], 0.95, overrides=frozenset({record["backtest"]["carries"]}),
+                                histories=book.histories)
+    assert left == {"override not within one SE": 1}
