@@ -256,6 +256,13 @@ def test_an_override_beyond_one_se_is_left_as_such_not_as_proposal_changed(cycle
     book = open_ledger(cycles.folder / ledger_of(SCREEN))
     assert ledger_state(doctored, book) == ("stale", "override not within one SE")
     assert ledger_state(record, book) == ("stale", "backtest passed")
-    _, left = plan_from_records([doctored], 0.95, overrides=frozenset({record["backtest"]["carries"]}),
+    # an accept whose proposal changed: that is what it is due (neither word for the other's case)
+    accepted = next(r for r in cycles.second.values() if r["key"]["product"] not in dict(cycles.cases.values())
+                    and r["backtest"] and r["backtest"]["status"] == "passed" and not r["backtest"]["shifted"]
+                    and not stops(r) and r["chosen"] == r["backtest"]["candidate"])
+    other = next(c["name"] for c in accepted["candidates"] if c["available"] and c["name"] != accepted["chosen"])
+    moved = {**accepted, "chosen": other, "backtest": {**accepted["backtest"], "shape_changed": True}}
+    assert ledger_state(moved, book) == ("stale", "proposal changed")
+    _, left = plan_from_records([doctored, moved], 0.95, overrides=frozenset({record["backtest"]["carries"]}),
                                 histories=book.histories)
-    assert left == {"override not within one SE": 1}
+    assert left == {"override not within one SE": 1, "proposal changed": 1}
