@@ -50,7 +50,7 @@ def status_text(session, width: int) -> Text:
     if watch is not None and watch.said:  # the results replaced on disk (a refit): one line, cut
         text.append("\n" + cut(printable(watch.said), width), style="bold")
     for said, capped in ((keys_text(session.key_columns), False), (spellings_text(session), True),
-                         (elsewhere_text(session), False)):  # while true; whole, but a look-alike's quoted name
+                         (elsewhere_text(session), True)):  # while true; whole, but a look-alike's or a path
         if said:
             text.append("\n" + ("\n".join(notice_lines(said, width)) if capped else said), style="bold")
     said = rejected_short(session)
@@ -163,8 +163,18 @@ def alike_words(session, s: int) -> str:
 
 
 def elsewhere_text(session) -> str | None:
-    """'R.parquet: backtested against L, not THIS; …' (``fitcore.ledger.elsewhere``, ``show --ledger``'s words):
-    the file's backtest left out; once the data are fitted here, the screen's own against this ledger."""
+    """'Recording into X.jsonl, not L, the ledger these results were fitted against: …' — both ledgers named for as
+    long as the screen is open, on JSON and Parquet results alike (``TriageSession.fitted_elsewhere``): a stored
+    file's backtest left out, once the data are fitted here the screen's own against this ledger.  Else, results
+    fitted against this ledger that it no longer holds the head of, in ``show --ledger``'s words (``elsewhere``)."""
+    fitted = session.fitted_elsewhere
+    if fitted is not None:
+        empty = " (no decisions yet)" if not session.book.records else ""
+        said = (f"Recording into {clean(str(session.ledger_path))}{empty}, not {clean(fitted)}, the ledger these "
+                "results were fitted against")
+        if session.elsewhere is not None and not session.results.rows_loaded:
+            return f"{said}: their backtest and 'shifted' flags are left out"
+        return f"{said} (backtested again here, against {clean(session.ledger_path.name)})"
     if session.elsewhere is None:
         return None
     if session.results.rows_loaded:
