@@ -33,7 +33,7 @@ from ..widgets.evidence import EvidencePanel
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
 from ..widgets.status_line import (
-    elsewhere_text,
+    fitted_text,
     keys_text,
     missing_text,
     rejected_text,
@@ -448,7 +448,7 @@ class TriageScreen(DecisionFlow, Screen):
                     markup=False, timeout=2)
 
     def action_help(self) -> None:
-        said = "\n  ".join(filter(None, (elsewhere_text(self.session), keys_text(self.session.key_columns),
+        said = "\n  ".join(filter(None, (fitted_text(self.session), keys_text(self.session.key_columns),
                                          spellings_text(self.session), missing_text(self.session))))
         self.open_dialog(MessageDialog(help_text(self.session.book, said or None, rejected_text(self.session),
                                                  self.session.results),
