@@ -41,7 +41,7 @@ async def test_the_header_names_the_ledger_recorded_into_and_the_one_fitted_agai
     async with app.run_test(size=size) as pilot:
         session = await started(app, pilot)
         said = header(app)
-        assert f"Recording into other.jsonl (no decisions yet), not {book}, the ledger" in said, said
+        assert f"Recording into other.jsonl (no decisions yet), not {book}" in said, said
         session.set_filter("all", None)  # every series unflagged: none listed as needing a decision
         app.screen.refresh_all()
         await pilot.pause()
@@ -52,7 +52,7 @@ async def test_the_header_names_the_ledger_recorded_into_and_the_one_fitted_agai
         app.screen.refresh_all()
         await pilot.pause()
         said = header(app)  # still there after the decision, which went to the ledger given
-        assert f"Recording into other.jsonl, not {book}, the ledger" in said, said
+        assert f"Recording into other.jsonl, not {book}" in said, said
         assert [r["action"] for r in ledger.Ledger(other).records] == ["hold"] and book.read_bytes() == before
         await pilot.press("question_mark")
         await pilot.pause()
