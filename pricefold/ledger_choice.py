@@ -19,14 +19,20 @@ from fitcore.results.source import default_ledger
 from fitcore.text import clean
 
 
-def default_for(results: Path, fitted: str | None) -> Path:
-    """The ledger beside ``results`` that triage records into without ``--ledger``; ``SettingsError`` (one line,
-    exit 2) where the results were fitted against another ledger (``fitted``: their header's, None without)."""
+def default_for(results: Path, fitted: str | None, reads: bool = False) -> Path:
+    """The ledger beside ``results`` that triage records into without ``--ledger`` (``reads``: that the report
+    reads); ``SettingsError`` (one line, exit 2) where the results were fitted against another ledger
+    (``fitted``: their header's, None without) — a report of that default would call every series pending."""
     default = default_ledger(results)
     other = fitted_elsewhere(fitted, default)
     if other is None:
         return default
-    new = "" if default.exists() else ", a new ledger"
+    new = "" if default.exists() else (", none there" if reads else ", a new ledger")
+    if reads:  # (a ledger that is not there is nothing a report can read on purpose)
+        way = f"give --ledger {_option(other)} to report on that one" + (
+            f", or --ledger {_option(str(default))} to read the default on purpose" if default.exists() else "")
+        raise SettingsError(f"{results}: fitted against the ledger {clean(other)}, not {default} (the default "
+                            f"beside it{new}): {way}; nothing was written")
     raise SettingsError(f"{results}: fitted against the ledger {clean(other)}, not {default} (the default beside "
                         f"it{new}): give --ledger {_option(other)} to decide in that one, or --ledger "
                         f"{_option(str(default))} to record in the default on purpose; nothing was opened")

@@ -110,3 +110,20 @@ def test_a_ledger_given_or_a_data_file_is_not_refused(cycle, opened, tmp_path):
     assert main(["triage", str(folder / "r2.json"), "--ledger", str(other), "--analyst", "ana"]) == 0
     assert main(["triage", str(folder / "c2.csv"), "--date", "week", "--analyst", "ana"]) == 0
     assert opened == [other, folder / "c2.ledger.jsonl"]
+
+
+@pytest.mark.parametrize("suffix", [".json", ".parquet"])
+def test_report_without_ledger_refuses_the_default_beside_results_fitted_against_another(cycle, capsys, suffix):
+    """The same trap in a report: the default beside a later cycle's results is no ledger (or not theirs), and the
+    page called every series pending.  One line naming the fitted ledger, no page; given it, the page is made;
+    results fitted against their own default need no --ledger."""
+    pytest.importorskip("matplotlib")
+    folder, book = cycle
+    page = folder / f"page{suffix}.html"
+    capsys.readouterr()
+    assert main(["report", str(folder / f"r2{suffix}"), "-o", str(page)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and f"--ledger {book}" in err and "nothing was written" in err, err
+    assert not page.exists() and not (folder / "r2.ledger.jsonl").exists()
+    assert main(["report", str(folder / f"r2{suffix}"), "--ledger", str(book), "-o", str(page)]) == 0
+    assert main(["report", str(folder / f"r3{suffix}"), "-o", str(folder / f"own{suffix}.html")]) == 0
