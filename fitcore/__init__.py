@@ -9,7 +9,7 @@ rooms before it, and the shared modules ``errors``, ``text``, ``compiled``,
     data     columns, readers, row validation, the Dataset, plan prices, the settings file, series keys
     fit      fit settings, fold schemes, curve families (one module each), the compiled
              least-squares loops, scores, selection, the engine (``fit_batch``) and its ``Results``
-    review   flag thresholds, flags and their sentences, influence, evidence for charts
+    review   flag thresholds, flags and their sentences, the shared number formats, influence, evidence for charts
     results  results files: writers, readers, stored (Arrow-backed) results
     ledger   the chained sign-off ledger and its replay into statuses
     scale    the batch engine on a Dask cluster

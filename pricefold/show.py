@@ -10,8 +10,8 @@ from fitcore.data.keys import SEPARATOR
 from fitcore.review import choice
 from fitcore.review.attention import attention_order
 from fitcore.review.control_words import effect_words
+from fitcore.review.formats import fmt, money
 from fitcore.review.plan_words import elasticity_words, held_words, revenue_words, weighed_zero, weighting_words
-from fitcore.review.sentences import fmt, money
 from fitcore.text import clean, told_apart
 from fitcore.widths import cells, distinct_keys
 

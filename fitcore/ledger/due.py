@@ -166,7 +166,7 @@ def carried_across(bt: dict) -> list[str]:
     """What a signed curve is carried across besides new rows, from its stored backtest: another plan price than
     signed ("to a new plan price: 2.28 → 2.05"), other CV settings ("fitted with other settings than signed:
     folds 5 → 10, rule one-se → lowest").  Said by carry (its summary and each carry's note) and ``show``."""
-    from ..review.sentences import money
+    from ..review.formats import money
     out = []
     signed, price = (math.nan if bt.get(name) is None else float(bt[name]) for name in ("signed_price", "price"))
     if bt.get("planned") and math.isfinite(signed) and math.isfinite(price) and not math.isclose(signed, price,

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from .sentences import fmt, money
+from .formats import fmt, money
 
 
 def why_chosen(scored: list[tuple[str, float, float]], chosen: str | None, rule: str) -> str:

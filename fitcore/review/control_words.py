@@ -13,7 +13,7 @@ import math
 
 import numpy as np
 
-from .sentences import fmt
+from .formats import fmt, signed
 
 SEASON_GRID = 366
 
@@ -30,7 +30,7 @@ def effect_words(controls: dict, binary, logged: bool) -> list[str]:
             out.append(f"{name}: left out")
             continue
         per = "" if name in binary else " per 1.00 more"
-        out.append(f"{name}: {_times(value) + ' volume' if logged else _signed(value) + ' units'}{per}")
+        out.append(f"{name}: {_times(value) + ' volume' if logged else signed(value) + ' units'}{per}")
     if season:
         out.append(season_words(season, logged))
     return out
@@ -48,14 +48,10 @@ def season_words(terms: dict, logged: bool) -> str:
     low, high = float(effect.min()), float(effect.max())
     if logged:
         return f"season: {_times(low)} to {_times(high)} volume over the year"
-    return f"season: {_signed(low)} to {_signed(high)} units over the year"
+    return f"season: {signed(low)} to {signed(high)} units over the year"
 
 
 def _times(value: float) -> str:
     """×exp(value): two decimals near 1, else one (three significant digits past 10)."""
     factor = math.exp(value)
     return f"×{factor:.2f}" if abs(factor - 1) < 0.1 else f"×{factor:.1f}" if factor < 10 else f"×{fmt(factor)}"
-
-
-def _signed(value: float) -> str:
-    return ("+" if value > 0 else "−" if value < 0 else "") + fmt(abs(value))

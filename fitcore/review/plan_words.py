@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 
-from .sentences import joined, two_places
+from .formats import fmt, joined, two_places
 
 CONFOUNDERS = ("promotions", "seasons", "stock-outs", "competitors' prices")
 
@@ -93,7 +93,6 @@ def weight_column(results) -> str | None:
 def held_words(values: dict) -> str:
     """The values every curve holds the controls at, as a plan reads them: "promo 1, rival 3.10, the season at
     the plan date (15 Mar)" (``values`` {term: value or None}, the season's terms read together)."""
-    from .sentences import fmt
     from .time_of_year import day_month, plan_phase
     held = ", ".join(f"{name} {fmt(v) if v is not None else '—'}" for name, v in values.items()
                      if not name.startswith("season_"))

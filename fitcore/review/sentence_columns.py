@@ -3,7 +3,7 @@ series, character for character, without a sentence made per series where the se
 (the common ones: a near tie, a weak fit; at 100k series they are 95% of all flags).  The other
 flags are rare and go through ``sentence`` one series at a time.
 
-The numbers are formatted by ``sentences.fmt``, ``money`` and ``pct`` themselves, number by number (an
+The numbers are formatted by ``formats.fmt``, ``money`` and ``pct`` themselves, number by number (an
 f-string a number: 2–4× faster than ``numpy.char.mod`` and Arrow's regular expressions putting in the
 thousands separators, which this did before), the templates filled piece by piece in Arrow
 (``string.Formatter`` splits them).
@@ -16,6 +16,7 @@ import numpy as np
 
 from ..arrays import from_numpy, text, texts
 from . import sentences as S
+from .formats import fmt, money, pct, pct_beside
 
 
 def flag_sentences(diag, series: np.ndarray, code: str):
@@ -48,7 +49,7 @@ def _weak_fit(diag, series):
     import pyarrow.compute as pc
     score = diag.results.score[series]
     bar = diag.thresholds.weak_score
-    out = fill(S.WEAK_FIT, score=texts([S.pct_beside(value, bar) for value in score.tolist()]), wanted=S.pct(bar))
+    out = fill(S.WEAK_FIT, score=texts([pct_beside(value, bar) for value in score.tolist()]), wanted=pct(bar))
     # a volume that never varies, or a price that never did (nothing to explain volume by): rare, series by series
     undefined = ~np.isfinite(score) | S.unvaried(diag.results)[series]
     if not undefined.any():
@@ -80,14 +81,14 @@ def fill(template: str, **fields):
 
 def pcts(share: np.ndarray):
     """``pct`` of each share (Arrow text)."""
-    return texts([S.pct(value) for value in np.asarray(share, dtype=float).tolist()])
+    return texts([pct(value) for value in np.asarray(share, dtype=float).tolist()])
 
 
 def fmts(x: np.ndarray) -> list[str]:
     """``fmt`` of each number."""
-    return [S.fmt(value) for value in np.asarray(x, dtype=float).tolist()]
+    return [fmt(value) for value in np.asarray(x, dtype=float).tolist()]
 
 
 def moneys(x: np.ndarray) -> list[str]:
     """``money`` of each price."""
-    return [S.money(value) for value in np.asarray(x, dtype=float).tolist()]
+    return [money(value) for value in np.asarray(x, dtype=float).tolist()]

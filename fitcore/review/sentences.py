@@ -9,80 +9,7 @@ import numpy as np
 
 from ..fit import reasons as R
 from ..fit.basis import outside_prices
-
-
-HUGE = 1e9
-
-
-def fmt(x: float) -> str:
-    """A quantity as an analyst reads it: 3,912 · 41.5 · 4.38 · 0.0372 · 0 · 6.47e+11 (from HUGE up, three
-    significant digits as below 1: thirty-digit volumes ran into the next column and read as noise)."""
-    if x is None or not math.isfinite(x):
-        return "n/a"
-    if abs(x) >= HUGE:
-        return f"{x:.3g}"
-    if x == int(x) or abs(x) >= 1000:
-        return f"{x:,.0f}"
-    if abs(x) >= 100:
-        return f"{x:,.1f}"
-    if abs(x) >= 1:
-        return f"{x:.2f}"
-    return f"{x:.3g}"
-
-
-def money(x: float) -> str:
-    """A price: two decimals (three significant digits below 0.10)."""
-    if x is None or not math.isfinite(x):
-        return "n/a"
-    return f"{x:,.2f}" if abs(x) >= 0.1 else f"{x:.3g}"
-
-
-def span(lo: float, hi: float) -> str:
-    """An interval: "877–1,205", or "-6,752 to 16,270" where a bound is below zero (a dash beside a minus sign
-    read as garbled)."""
-    return f"{fmt(lo)}{' to ' if lo < 0 or hi < 0 else '–'}{fmt(hi)}"
-
-
-def two_places(x: float) -> str:
-    """An elasticity: two decimals, no "-0.00" for one that rounds to nothing."""
-    text = f"{x:.2f}"
-    return "0.00" if text == "-0.00" else text
-
-
-def ratio(x: float) -> str:
-    """A ratio such as a variance inflation: one decimal below 1,000 ("203.6"), past it in powers of ten
-    ("3.0e8": "301345759.5" was a string of digits to count)."""
-    if x is None or not math.isfinite(x):
-        return "n/a"
-    if abs(x) < 1000:
-        return f"{x:.1f}"
-    mantissa, exponent = f"{x:.1e}".split("e")
-    return f"{mantissa}e{int(exponent)}"
-
-
-def signed(x: float) -> str:
-    return ("+" if x > 0 else "−" if x < 0 else "") + fmt(abs(x))
-
-
-def pct(share: float) -> str:
-    """A share in whole percent, grouped (1,226%); no "-0%" for a share that rounds to nothing."""
-    text = f"{share * 100:,.0f}%"
-    return "0%" if text == "-0%" else text
-
-
-def pct_beside(share: float, bar: float) -> str:
-    """``pct``, with as many decimals as it takes (up to three) not to read as the ``bar`` it is judged against:
-    "29.96%" below a 30% bar, not "30%, below 30%"; closer than that, rounded away from the bar at the third
-    decimal ("10.001%" for 10.0004% above a 10% bar), so it never reads as the bar or on its other side."""
-    for digits in range(4):
-        text, said = f"{share * 100:,.{digits}f}%", f"{bar * 100:,.{digits}f}%"
-        if text != said:
-            break
-    else:
-        if share != bar:
-            away = math.ceil if share > bar else math.floor
-            text = f"{away(share * 100_000) / 1000:,.3f}%"
-    return "0%" if text == "-0%" else text
+from .formats import fmt, fmt_ratio, joined, money, pct, pct_beside, ratio, signed, span, two_places
 
 
 def sentence(diag, s: int, code: str) -> str:
@@ -203,12 +130,6 @@ def _outside_range(diag, s):
             f"left out of its fit and {'its' if len(which) == 1 else 'their'} effect is not in the number "
             "(it is held at the values seen, whatever the plan says)")
     return f"{text[:1].upper()}{text[1:]}."
-
-
-def joined(names) -> str:
-    """"a", "a and b", "a, b and c"."""
-    names = list(names)
-    return names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
 
 
 def _season_outside(diag, s, first):
@@ -470,10 +391,6 @@ def history_sentence(bt: dict) -> str:
                 "has changed, so the rows since cannot vouch for it; look again.")
     return (f"{what}; it still fits them: its error there is {fmt_ratio(ratio)}× its CV error (carried only by "
             "ledger carry --carry-revised, as for a rolling window's oldest weeks dropped).")
-
-
-def fmt_ratio(value) -> str:
-    return "n/a" if value is None or not math.isfinite(value) else f"{value:.1f}"
 
 
 def _beside_signed(proposed: float, signed_volume: float, change: float, tilt: float) -> str:

@@ -19,9 +19,9 @@ from typing import Callable
 from fitcore.ledger.signoff import LedgerView, Signoff, flag_table
 from fitcore.outputs.seal import blank_tag
 from fitcore.review.flags import FLAGS
+from fitcore.review.formats import HUGE, fmt, money, two_places
 from fitcore.review.plan_words import WEIGHTED
 from fitcore.review.plan_words import caution_of as plan_caution
-from fitcore.review.sentences import HUGE, fmt, money, two_places
 from fitcore.text import clean, printable
 
 GENERATOR = "pricefold report"

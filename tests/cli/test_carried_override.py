@@ -285,7 +285,7 @@ def test_a_carried_override_at_a_new_plan_price_says_which_number_is_which(tmp_p
     import pandas as pd
     from fitcore.ledger.snapshot import from_records
     from fitcore.results.read import read_results
-    from fitcore.review.sentences import fmt
+    from fitcore.review.formats import fmt
     from pricefold.show import number
     book = tmp_path / "ledger.jsonl"
     options = ["--date", "week", "--degrees", "1-2", "--no-loglog", "--quiet"]

@@ -405,7 +405,7 @@ def test_a_curve_signed_at_another_plan_price_says_what_was_signed_then_the_curv
     assert (bt["signed_price"], bt["signed_plan_volume"], bt["signed_plan_lo"], bt["signed_plan_hi"]) == (
         2.3, signed["plan"]["volume"], signed["plan"]["lo"], signed["plan"]["hi"])
     assert bt["signed_volume"] == pytest.approx(np.polyval(signed["coef"][::-1], 2.1), rel=1e-9)  # numpy's polyval
-    from fitcore.review.sentences import fmt
+    from fitcore.review.formats import fmt
     said = (f"Signed {bt['signed_at']} by {bt['analyst']}: {bt['candidate']}, {fmt(signed['plan']['volume'])} "
             f"({fmt(signed['plan']['lo'])}–{fmt(signed['plan']['hi'])}) at 2.30; at this plan's price 2.10 the signed "
             f"curve gives {fmt(bt['signed_volume'])} ({fmt(bt['signed_lo'])}–{fmt(bt['signed_hi'])}).")

@@ -10,7 +10,7 @@ import numpy as np
 
 import fitcore
 from fitcore.review.flags import diagnose
-from fitcore.review.sentences import fmt
+from fitcore.review.formats import fmt
 
 
 def test_plan_controls_outside_each_series_range_raise_outside_range_with_the_numbers():

@@ -235,7 +235,7 @@ def test_near_tie_gives_both_volumes_where_one_is_not_above_zero():
     where poly1 predicted −269), and one of many times the volume reads badly ("83025% more volume" beside a
     volume of 59): there the sentence gives both volumes; elsewhere (up to twice or half) the share.
     Common practice: a relative change needs a positive base."""
-    from fitcore.review.sentences import fmt
+    from fitcore.review.formats import fmt
     from tests.reference.fixed_fits import dataset
     data = dataset("sample")
     results = fitcore.fit_batch(data, fitcore.FitSettings(folds=3, fold_order="given", degrees=(1, 2, 3),

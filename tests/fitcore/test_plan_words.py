@@ -12,8 +12,8 @@ import numpy as np
 import fitcore
 from fitcore.fit import reasons as R
 from fitcore.review.flags import diagnose
+from fitcore.review.formats import ratio
 from fitcore.review.plan_words import caution, elasticity_of, held_words, revenue_words
-from fitcore.review.sentences import ratio
 
 
 def one_series(price, volume, **controls):

@@ -18,7 +18,8 @@ import fitcore
 from fitcore.fit.families import BY_NAME
 from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.flags import diagnose
-from fitcore.review.sentences import pct_beside, sentence
+from fitcore.review.formats import pct_beside
+from fitcore.review.sentences import sentence
 from fitcore.review.thresholds import Thresholds
 
 Poly = np.polynomial.Polynomial

@@ -1,6 +1,6 @@
 """Flag sentences for many series at once (``fitcore.review.sentence_columns``) say what the sentence of
 each series says, character for character; the numbers in them are formatted as Python's own
-``format`` formats them (``sentences.fmt``, ``money``, ``pct`` are f-strings), thousands separators
+``format`` formats them (``formats.fmt``, ``money``, ``pct`` are f-strings), thousands separators
 included."""
 from __future__ import annotations
 
@@ -9,6 +9,7 @@ import pytest
 
 import fitcore
 from fitcore.fit.settings import FitSettings
+from fitcore.review import formats as F
 from fitcore.review import sentences as S
 from fitcore.review.flags import CODES, diagnose
 from fitcore.review.sentence_columns import fill, flag_sentences, fmts, moneys, pcts
@@ -27,10 +28,10 @@ def numbers() -> np.ndarray:
 
 def test_numbers_are_formatted_as_pythons_format_formats_them():
     x = numbers()
-    assert list(fmts(x)) == [S.fmt(v) for v in x]
-    assert list(moneys(x)) == [S.money(v) for v in x]
+    assert list(fmts(x)) == [F.fmt(v) for v in x]
+    assert list(moneys(x)) == [F.money(v) for v in x]
     shares = np.concatenate([np.random.default_rng(1).normal(size=2000), [0.005, 0.015, 0.025, -0.005, np.nan]])
-    assert pcts(shares).to_pylist() == [S.pct(v) for v in shares]
+    assert pcts(shares).to_pylist() == [F.pct(v) for v in shares]
     assert "1,234,567" in list(fmts(np.array([1234567.0]))) and moneys(np.array([-1234.5]))[0] == "-1,234.50"
 
 
@@ -60,9 +61,9 @@ def test_huge_numbers_and_shares_read_as_numbers():
     """A thirty-digit volume ran into the next column and "-0%" read as a sign of something: from 1e9 up a
     number has three significant digits, as below 1; a share is grouped and never negative zero (common
     practice in printed tables)."""
-    assert [S.fmt(v) for v in (646_903_142_798.0, -2.5e9, 8.9e47, 999_999_999.0)] == \
+    assert [F.fmt(v) for v in (646_903_142_798.0, -2.5e9, 8.9e47, 999_999_999.0)] == \
         ["6.47e+11", "-2.5e+09", "8.9e+47", "999,999,999"]
-    assert [S.pct(v) for v in (-0.004, 0.004, 189.0, -12.26)] == ["0%", "0%", "18,900%", "-1,226%"]
+    assert [F.pct(v) for v in (-0.004, 0.004, 189.0, -12.26)] == ["0%", "0%", "18,900%", "-1,226%"]
     assert pcts(np.array([-0.004, 189.0])).to_pylist() == ["0%", "18,900%"]
-    assert [S.two_places(v) for v in (-0.001, -1.466, 0.004)] == ["0.00", "-1.47", "0.00"]
-    assert (S.span(877.0, 1205.0), S.span(-6752.0, 16270.0)) == ("877–1,205", "-6,752 to 16,270")
+    assert [F.two_places(v) for v in (-0.001, -1.466, 0.004)] == ["0.00", "-1.47", "0.00"]
+    assert (F.span(877.0, 1205.0), F.span(-6752.0, 16270.0)) == ("877–1,205", "-6,752 to 16,270")

@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 
 from fitcore.review.evidence import runner_up
-from fitcore.review.sentences import fmt
+from fitcore.review.formats import fmt
 from pricefold.cli import main
 from tests.tui.conftest import ANA, screen_text, started, until
 from tui.app import TriageApp

@@ -165,7 +165,7 @@ async def test_o_down_enter_typed_in_one_burst_shows_the_picked_models_numbers_i
     """A trial typed ``o ↓ Enter`` at once: a model was picked from a list never drawn, and the note box asked only
     "Why poly5 instead of poly4 …?".  The box now says what the override signs — the picked model at the plan price,
     its own flags — and the caution every sign-off carries, so nothing is signed unseen."""
-    from fitcore.review.sentences import fmt
+    from fitcore.review.formats import fmt
     app = make_app(ledger_path)
     async with app.run_test(size=(120, 34)) as pilot:
         s = await on_an_unflagged_series(app, pilot)

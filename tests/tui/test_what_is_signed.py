@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from fitcore.review.sentences import fmt
+from fitcore.review.formats import fmt
 from tests.tui.conftest import all_listed, make_app, on_series, screen_text
 from tui.screens.dialogs import TextDialog
 

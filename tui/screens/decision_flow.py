@@ -13,7 +13,7 @@ import time
 from rich.text import Text
 
 from fitcore.errors import PricefoldError
-from fitcore.review.sentences import fmt, money
+from fitcore.review.formats import fmt, money
 
 from ..session import Shown
 from ..text import clean, printable

@@ -22,7 +22,7 @@ from textual.widgets.option_list import Option
 from fitcore.fit.results import Results
 from fitcore.review.candidate_checks import candidate_checks
 from fitcore.review.flags import Diagnosis
-from fitcore.review.sentences import fmt, money, two_places
+from fitcore.review.formats import fmt, money, two_places
 
 from ..cells import percent
 from ..text import literal

@@ -23,9 +23,9 @@ from fitcore.ledger.rules import NEWER_DUE, what_stands
 from fitcore.review.choice import plan_position, score_meaning, why_chosen
 from fitcore.review.control_words import effect_words
 from fitcore.review.flags import SEVERITY
+from fitcore.review.formats import fmt, money
 from fitcore.review.plan_words import (elasticity_of, elasticity_words, held_words, revenue_words, weight_column,
                                        weighed_zero, weighting_words)
-from fitcore.review.sentences import fmt, money
 from fitcore.text import told_apart
 
 from .. import engine
