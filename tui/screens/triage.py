@@ -32,7 +32,14 @@ from ..text import clean, printable
 from ..widgets.evidence import EvidencePanel
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import keys_text, missing_text, rejected_text, spellings_text, status_text
+from ..widgets.status_line import (
+    keys_text,
+    missing_text,
+    rejected_text,
+    spellings_text,
+    status_text,
+    tail_text,
+)
 from .decision_flow import DecisionFlow
 from .dialogs import LOST_WITHIN, ChoiceDialog, MessageDialog, TextDialog
 
@@ -83,7 +90,7 @@ class TriageScreen(DecisionFlow, Screen):
         self._came_up: tuple[str | None, float] = (None, 0.0)  # the series shown and when it came up (``too_soon``)
         self._moved_on_at = -1.0  # when a decision here last moved the cursor on (``DecisionFlow.decide``)
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
-        self._keys_said: tuple = (None, None, None, True)  # what the header says of the ledger (``ledger_said``)
+        self._keys_said: tuple = (None, None, None, True, None)  # what the header says of the ledger (``ledger_said``)
         self._listed = -1  # the rows the header counts as listed
         self.leaving = False  # q taken: no key acts any more (``action_quit``)
 
@@ -168,7 +175,8 @@ class TriageScreen(DecisionFlow, Screen):
         """What the header says of the ledger beside these results (when it changes, the header is redrawn),
         and whether decisions can be recorded (a ledger turned broken brings no record to redraw the list by)."""
         session = self.session
-        return session.key_columns.said, session.spellings.said, session.missing.short(), session.writable
+        return (session.key_columns.said, session.spellings.said, session.missing.short(), session.writable,
+                tail_text(session))  # a torn tail appended while the screen is open adds no record either
 
     def refresh_all(self) -> None:
         self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow
