@@ -122,3 +122,15 @@ async def test_a_tail_torn_while_the_screen_is_open_is_said_on_the_header_and_wh
         assert "cut off" not in text
         assert f"ledger.jsonl: the interrupted tail after its last whole record was moved to {side.name} beside " \
                "it" in text
+        header, asked = app.screen.query_one("#status-line"), []
+        update = header.update
+        header.update = lambda text, layout=True: asked.append(layout) or update(text, layout=layout)
+        with open(ledger_path, "ab") as handle:  # torn again: the header's notice grows from two lines to three
+            handle.write(b'{"action":"note","analy')
+        await until(pilot, lambda: session.book.notes)  # the screen's own look
+        await pilot.pause()
+        text = " ".join(screen_text(app).split())
+        assert "torn last line (23 bytes" in text and "the next decision moves it to ledger.jsonl.torn-<UTC time>" in text
+        # laid out again, though its count of lines is the same: in tmux the third line was cut (or covered the list's
+        # heading) until something else laid the screen out
+        assert asked and asked[-1] is True and "series n model score flags" in text

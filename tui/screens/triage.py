@@ -164,12 +164,14 @@ class TriageScreen(DecisionFlow, Screen):
             self.refresh_bindings()
 
     def update_status(self) -> None:
-        """The header; a layout pass only when its number of lines changes (one costs more than a repaint)."""
+        """The header; a layout pass only when its number of lines may change (one costs more than a repaint): its
+        lines, or what it says of the ledger, whose notices wrap (a cut-off tail's three lines took the one row of
+        the side file's line before it, at 120 columns)."""
         line = self.query_one("#status-line", Static)
         text = status_text(self.session, max(self.size.width - 2, 20))
-        lines = text.plain.count("\n")
-        line.update(text, layout=lines != self._status_lines)
-        self._status_lines, self._keys_said, self._listed = lines, self.ledger_said(), len(self.session.view)
+        lines, said = text.plain.count("\n"), self.ledger_said()
+        line.update(text, layout=lines != self._status_lines or said != self._keys_said)
+        self._status_lines, self._keys_said, self._listed = lines, said, len(self.session.view)
 
     def ledger_said(self) -> tuple:
         """What the header says of the ledger beside these results (when it changes, the header is redrawn),
