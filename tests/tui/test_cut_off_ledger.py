@@ -130,7 +130,8 @@ async def test_a_tail_torn_while_the_screen_is_open_is_said_on_the_header_and_wh
         await until(pilot, lambda: session.book.notes)  # the screen's own look
         await pilot.pause()
         text = " ".join(screen_text(app).split())
-        assert "torn last line (23 bytes" in text and "the next decision moves it to ledger.jsonl.torn-<UTC time>" in text
+        assert "torn last line (23 bytes" in text
+        assert "the next decision moves it to ledger.jsonl.torn-<UTC time>" in text
         # laid out again, though its count of lines is the same: in tmux the third line was cut (or covered the list's
         # heading) until something else laid the screen out
         assert asked and asked[-1] is True and "series n model score flags" in text

@@ -32,14 +32,7 @@ from ..text import clean, printable
 from ..widgets.evidence import EvidencePanel
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import (
-    keys_text,
-    missing_text,
-    rejected_text,
-    spellings_text,
-    status_text,
-    tail_text,
-)
+from ..widgets.status_line import keys_text, missing_text, rejected_text, spellings_text, status_text, tail_text
 from .decision_flow import DecisionFlow
 from .dialogs import LOST_WITHIN, ChoiceDialog, MessageDialog, TextDialog
 
@@ -165,8 +158,8 @@ class TriageScreen(DecisionFlow, Screen):
 
     def update_status(self) -> None:
         """The header; a layout pass only when its number of lines may change (one costs more than a repaint): its
-        lines, or what it says of the ledger, whose notices wrap (a cut-off tail's three lines took the one row of
-        the side file's line before it, at 120 columns)."""
+        lines, or what it says of the ledger, whose notices wrap (a cut-off tail's three lines were cut to the two
+        rows the side file's line had taken)."""
         line = self.query_one("#status-line", Static)
         text = status_text(self.session, max(self.size.width - 2, 20))
         lines, said = text.plain.count("\n"), self.ledger_said()
