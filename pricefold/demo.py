@@ -82,7 +82,7 @@ def _demo(args, open_triage, sample, shipped: Path, ready: bool, results_path: P
         sample.expected_sha256 = place_shipped(shipped, results_path, sample)
         written.append(str(results_path))
         print(f"the invented sample's results → {results_path} (refitted behind the screen once it opens)", file=sys.stderr)
-        _report_hint(results_path, folder)
+        _report_hint(results_path, folder, args.analyst)
         from fitcore.compiled import looks_compiled
         if not looks_compiled():
             sample.warnings.append(COMPILING_NOTE)
@@ -96,23 +96,26 @@ def _demo(args, open_triage, sample, shipped: Path, ready: bool, results_path: P
     write_results(results, results_path, diagnosis)
     written.append(str(results_path))
     print(f"fitted the invented sample: {results.n_series} series → {results_path}", file=sys.stderr)
-    _report_hint(results_path, folder)
+    _report_hint(results_path, folder, args.analyst)
     source = source_from_results(results_path)
     source.units = sample.units
     return open_triage(source, folder / "ledger.jsonl", args.analyst)
 
 
-def _report_hint(results_path: Path, folder: Path) -> None:
-    """How to come back to the demo's decisions (its ledger is not the one triage would take by default)
-    and make their report (whose charts need matplotlib, an extra)."""
+def _report_hint(results_path: Path, folder: Path, analyst: str | None = None) -> None:
+    """How to come back to the demo's decisions (its ledger is not the one triage would take by default), as the
+    analyst ``--analyst`` named (left out, triage records under the OS user), and make their report (whose charts
+    need matplotlib, an extra); quoted for the shell."""
     import importlib.util
+    from shlex import quote
 
     from .report.command import INSTALL_HINT  # the report's own words for the extra
-    ledger, pricefold = folder / "ledger.jsonl", typed_command()
-    print(f"back to it: {pricefold} triage {results_path} --ledger {ledger}", file=sys.stderr)
+    results, ledger, pricefold = quote(str(results_path)), quote(str(folder / "ledger.jsonl")), typed_command()
+    who = f" --analyst {quote(analyst)}" if analyst else ""
+    print(f"back to it: {pricefold} triage {results} --ledger {ledger}{who}", file=sys.stderr)
     charts = "" if importlib.util.find_spec("matplotlib") else f"; {INSTALL_HINT}"
-    print(f"report, once a decision is in the ledger: {pricefold} report {results_path} --ledger {ledger} "
-          f"-o {folder}/report.html{charts}", file=sys.stderr)
+    print(f"report, once a decision is in the ledger: {pricefold} report {results} --ledger {ledger} "
+          f"-o {quote(str(folder / 'report.html'))}{charts}", file=sys.stderr)
 
 
 def typed_command() -> str:

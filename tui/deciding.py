@@ -83,6 +83,7 @@ class Deciding:
                 else "you may not write to the ledger file (permissions)")
 
     _permitted: bool | None = None
+    tail_set_aside: Path | None = None  # where a decision here last moved an interrupted tail (the header says)
 
     @property
     def permitted(self) -> bool:
@@ -132,6 +133,8 @@ class Deciding:
         except PricefoldError:
             self._catch_up(pin="waits")  # a refused decision may still have read other analysts' records
             raise
+        if self.book.tail_moved_to is not None:  # said on the header from now on (``status_line.tail_text``)
+            self.tail_set_aside = self.book.tail_moved_to
         self._written.add(written["digest"])
         if action in DECISIONS:
             self._mine.append((shown.sid, written["digest"]))

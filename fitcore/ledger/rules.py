@@ -152,18 +152,20 @@ def decided_on_newer(series: dict, fingerprint: str, last_date: str | None,
     return newer_standing(probe, history)
 
 
-def what_happened(record: dict) -> str:
-    """One clause for a record: "ana accepted poly1 at 14:02:11 UTC"."""
+def what_happened(record: dict, dated: bool = False) -> str:
+    """One clause for a record: "ana accepted poly1 at 14:02:11 UTC" (``dated``: "… at 14:02:11 UTC on 2026-12-05",
+    for a record that may be days old)."""
     done = DONE.get(record["action"], record["action"]).format(model=clean(str(record.get("model"))))
     at = record["at"][11:19] if len(record["at"]) >= 19 else record["at"]
-    return f"{person(record)} {done} at {clean(at)} UTC"
+    day = f" on {clean(record['at'][:10])}" if dated and len(record["at"]) >= 19 else ""
+    return f"{person(record)} {done} at {clean(at)} UTC{day}"
 
 
-def what_stands(standing: dict, decision: dict | None) -> str:
+def what_stands(standing: dict, decision: dict | None, dated: bool = False) -> str:
     """``what_happened`` of a standing record; for a carry, also the accept or override it carries (``decision``),
     as the report says it: "bo carried poly1 forward at 06:26:07 UTC (carries accept by ana, 2026-12-03 18:54
     UTC)" — the carry is who refitted it, the decision who chose the curve."""
-    said = what_happened(standing)
+    said = what_happened(standing, dated)
     if standing["action"] != "carry" or decision is None or decision is standing:
         return said
     at = clean(decision["at"][:16].replace("T", " "))

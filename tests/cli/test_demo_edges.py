@@ -72,3 +72,24 @@ def test_a_demo_interrupted_after_its_results_are_in_place_says_so(tmp_path, mon
     assert (folder / "results.parquet").is_file()
     assert capsys.readouterr().err.splitlines()[-1] == (
         f"pricefold demo: interrupted; after writing {folder / 'results.parquet'} in full")
+
+
+@pytest.mark.parametrize("analyst", [None, "ana", "ana o'neil; rm -rf ~"])
+def test_the_way_back_to_the_demo_names_the_analyst_it_was_given(tmp_path, monkeypatch, capsys, analyst):
+    """A trial: `pricefold demo --analyst ana` said `back to it: pricefold triage … --ledger …`, and following it
+    recorded under the OS user.  The line, split as a shell splits it, now runs triage as the demo's analyst; without
+    `--analyst` it names none (the OS user, as the demo was)."""
+    import shlex
+
+    from pricefold import cli, triage_cli
+    opened = []
+    monkeypatch.setattr(triage_cli, "open_triage", lambda source, ledger, who, **kwargs: opened.append(who) or 0)
+    monkeypatch.setattr("pricefold.terminal.require_terminal", lambda what: None)  # its screen is stubbed
+    folder = tmp_path / "my demo"  # a space: the paths quoted too
+    named = ["--analyst", analyst] if analyst is not None else []
+    assert cli.main(["demo", "--dir", str(folder), *named]) == 0
+    line = next(line for line in capsys.readouterr().err.splitlines() if line.startswith("back to it: "))
+    again = cli.build_parser().parse_args(shlex.split(line.split(": ", 1)[1])[1:])
+    assert again.command == "triage" and again.ledger == folder / "ledger.jsonl"
+    assert str(again.source) == str(folder / "results.parquet")
+    assert again.analyst == analyst == opened[0]

@@ -25,6 +25,12 @@ def screen_text(app) -> str:
     return "\n".join(strip.text for strip in app.screen._compositor.render_strips())
 
 
+def box_words(app) -> str:
+    """The words of the dialog box on screen, line after line without the list beside it (its border's rows)."""
+    inside = [line.split("│")[1] for line in screen_text(app).splitlines() if line.count("│") == 2]
+    return " ".join(" ".join(inside).split())
+
+
 def make_app(ledger_path: Path, source: Source | None = None, who: Identity = ANA) -> TriageApp:
     source = source or sample_source()
     return TriageApp(lambda progress: open_session(source, ledger_path, who, None, progress))

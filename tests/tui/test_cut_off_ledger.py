@@ -92,3 +92,46 @@ async def test_a_ledger_without_its_final_line_end_is_said_so_and_the_next_decis
         await pilot.press("enter")
         await until(pilot, lambda: len(session.book.records) == accepted + 1)
     assert not list(ledger_path.parent.glob("ledger.jsonl.torn-*"))
+
+
+async def test_a_tail_torn_while_the_screen_is_open_is_said_on_the_header_and_where_it_went(ledger_path):
+    """A trial: with the screen open, a torn line appended to the ledger reached only ``?``; the header, which says
+    it when the screen opens on such a file, stayed as it was.  Now the next look says it there, and once a decision
+    has moved it aside the header names the side file (as the command line and the notification do)."""
+    assert main(["ledger", "accept-unflagged", str(SAMPLE / "results.parquet"), "--ledger", str(ledger_path),
+                 "-q"]) == 0
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        session = await started(app, pilot)
+        assert "cut off" not in " ".join(screen_text(app).split())
+        with open(ledger_path, "ab") as handle:  # as `printf '{"action":"hold","analyst":"ghost"' >> L.jsonl`
+            handle.write(b'{"action":"hold","analyst":"ghost"')
+        app.screen.poll_ledger()  # the screen's look, every 2 s
+        await pilot.pause()
+        text = " ".join(screen_text(app).split())
+        assert "ledger.jsonl's last append was cut off: line " in text and "torn last line (34 bytes" in text
+        assert "the next decision moves it to ledger.jsonl.torn-<UTC time>" in text
+        await pilot.press("h")
+        await until(pilot, lambda: isinstance(app.screen, TextDialog))
+        await pilot.press("enter")
+        await until(pilot, lambda: session.book.tail_moved_to is not None)
+        await pilot.pause()
+        [side] = list(ledger_path.parent.glob("ledger.jsonl.torn-*"))
+        assert side.read_bytes() == b'{"action":"hold","analyst":"ghost"'
+        text = " ".join(screen_text(app).split())
+        assert "cut off" not in text
+        assert f"ledger.jsonl: the interrupted tail after its last whole record was moved to {side.name} beside " \
+               "it" in text
+        header, asked = app.screen.query_one("#status-line"), []
+        update = header.update
+        header.update = lambda text, layout=True: asked.append(layout) or update(text, layout=layout)
+        with open(ledger_path, "ab") as handle:  # torn again: the header's notice grows from two lines to three
+            handle.write(b'{"action":"note","analy')
+        await until(pilot, lambda: session.book.notes)  # the screen's own look
+        await pilot.pause()
+        text = " ".join(screen_text(app).split())
+        assert "torn last line (23 bytes" in text
+        assert "the next decision moves it to ledger.jsonl.torn-<UTC time>" in text
+        # laid out again, though its count of lines is the same: in tmux the third line was cut (or covered the list's
+        # heading) until something else laid the screen out
+        assert asked and asked[-1] is True and "series n model score flags" in text

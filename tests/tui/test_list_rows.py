@@ -16,7 +16,7 @@ from fitcore.data.columns import Columns
 from tui.factory import Source
 from tui.screens.dialogs import TextDialog
 
-from .conftest import make_app, screen_text, started, until
+from .conftest import box_words, make_app, screen_text, started, until
 from .test_dialog_answers_shown import renamed
 from .test_key_columns_screen import SAMPLE, signed_by_region
 
@@ -83,7 +83,7 @@ async def test_a_stale_rows_flags_are_said_to_be_the_proposals_and_its_accept_sa
         assert session.listed_model(same)[0] == names[int(session.results.chosen[same])]
         await pilot.press("a")
         await until(pilot, lambda: isinstance(app.screen, TextDialog))
-        words = " ".join(screen_text(app).split())
+        words = box_words(app)
         who = session.decision(s)["analyst"]  # accept-unflagged's: the OS user's
         assert f"This replaces what stands: {who} accepted {signed} at" in words, words
         assert "on other data than these (the series reads stale)" in words, words

@@ -6,7 +6,7 @@ import json
 import pytest
 
 from fitcore.ledger import Identity
-from tests.tui.conftest import make_app, screen_text, started, until
+from tests.tui.conftest import box_words, make_app, screen_text, started, until
 
 BO = Identity("bo", "bo", "other-host")
 
@@ -197,3 +197,47 @@ async def test_a_note_the_ledger_refused_fills_the_next_note_box_on_that_series(
         await pb.pause()
         assert [(r["analyst"], r["action"], r.get("note")) for r in records(ledger_path)] == \
             [("ana", "note", "asked"), ("bo", "hold", "buyer says the plan moves")]
+
+
+@pytest.mark.parametrize("size", [(80, 24), (60, 20)])
+async def test_every_decision_box_on_a_series_another_analyst_decided_says_what_stands(ledger_path, size):
+    """A trial: ana's accept box on a series bo had held ('Accept poly0 for table salt 1 kg · South despite …') did
+    not say it replaced bo's hold; the evidence saying so was behind the box.  Now the accept's, the override's and
+    the hold's boxes say what they replace (who, what, when), and a note's that it leaves that standing — with the
+    keys' line in view, at 80×24 and at 60×20; the message after the decision says it too."""
+    from tui.factory import open_session, sample_source
+    from tui.screens.dialogs import TextDialog
+    from tui.screens.override import OverrideDialog
+    from .conftest import on_series
+    app = make_app(ledger_path)
+    async with app.run_test(size=size, notifications=True) as pilot:
+        salt = {"product": "table salt 1 kg", "region": "South"}
+        s = await on_series(app, pilot, salt)
+        session = app.session
+        bo = open_session(sample_source(), ledger_path, BO)  # bo's screen, while ana's is open
+        held = bo.decide(bo.look(s), "hold", note="asked the buyer")
+        app.screen.poll_ledger()  # ana's screen looks, as every 2 s
+        await until(pilot, lambda: session.status[s] == "held")
+        said = f"bo held at {held['at'][11:19]} UTC on {held['at'][:10]}"
+
+        async def box(*keys: str) -> str:
+            await pilot.press(*keys)
+            await until(pilot, lambda: isinstance(app.screen, TextDialog))
+            await pilot.pause()
+            words = box_words(app)
+            assert "Enter to confirm · Esc to cancel" in words, words  # the keys' line is not pushed off
+            return words
+        assert f"This replaces what stands: {said}." in await box("a"), said
+        await pilot.press("escape")
+        assert f"This replaces what stands: {said}." in await box("h")
+        await pilot.press("escape")
+        assert f"A note leaves what stands as it is: {said}." in await box("n")
+        await pilot.press("escape")
+        await pilot.press("o")
+        await until(pilot, lambda: isinstance(app.screen, OverrideDialog))
+        assert f"This replaces what stands: {said}." in await box("down", "enter")
+        await pilot.press(*"seen", "enter")
+        await until(pilot, lambda: len(records(ledger_path)) == 2)
+        assert any(f"in place of {said}" in n.message for n in app._notifications)
+        session.look(s)
+        assert app.screen.replaced_text(session.shown) is None  # ana's own override now: nothing more to say

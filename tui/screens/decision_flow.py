@@ -21,6 +21,7 @@ from ..widgets.evidence import predicts
 from ..widgets.status_line import ALIKE_DECIDES, alike_words, keys_lead
 from .dialogs import ChoiceDialog, MessageDialog, TextDialog
 
+REPLACING = ("accept", "override", "hold")  # the decisions that replace what stands (a note stands beside it)
 TOLD = {"accept": "Accepted", "override": "Overrode", "hold": "Held", "note": "Noted", "revoke": "Revoked"}
 
 
@@ -51,7 +52,7 @@ class DecisionFlow:
     def decide(self, shown: Shown, action: str, model: str | None = None, note: str = "") -> None:
         """Record ``action`` on the series ``shown`` showed; say what happened, and move on after a decision."""
         before = self.session.view  # (a rebuild makes a new array): the list the analyst was working down
-        replaced = self.replaced_text(shown) if action in ("accept", "override") else None  # stale until recorded
+        replaced = self.replaced_text(shown) if action in REPLACING else None  # as it stood until recorded
         try:
             self.session.decide(shown, action, model=model, note=note)
         except PricefoldError as exc:  # refused by the screen or by the ledger's rules, or not written
@@ -111,9 +112,9 @@ class DecisionFlow:
                     + predicts(results, s, c, lambda v: f"{fmt(v)} {unit}" if unit else fmt(v),
                              self.session.diagnosis) + ".")
         text = Text()
-        replaced = self.replaced_text(shown)
-        if replaced:
-            text.append(f"This replaces what stands: {replaced}.\n", style="bold")
+        replaced = self.replacing(shown, "accept")
+        if replaced is not None:
+            text.append_text(replaced).append("\n")
         text.append(said, style="#ff875f" if math.isfinite(plan) and results.plan_volume[s, c] <= 0 else "")
         if model is not None:
             from .override import candidate_rows
@@ -124,14 +125,30 @@ class DecisionFlow:
         return text
 
     def replaced_text(self, shown: Shown) -> str | None:
-        """Where the series reads stale, the decision a sign-off replaces, made on other data than these, in words
-        (an accept of poly5 asked only "despite rising?" and replaced the signed loglog unsaid); else None."""
-        from ..session import describe
-        s = self.session.index_of(shown)
-        decision = self.session.decision(s) if self.session.status[s] == "stale" else None
-        if decision is None:
+        """What a decision on the series ``shown`` showed replaces, in words (who, what, when), where the analyst
+        may not have it in mind: a decision made on other data than these (the series reads stale: an accept of
+        poly5 asked only "despite rising?" and replaced the signed loglog unsaid), or one another analyst made (an
+        accept's note box on a series bo held did not say it replaced bo's hold, and the evidence saying so was
+        behind the dialog); else None."""
+        from fitcore.ledger.rules import what_happened, what_stands
+        session = self.session
+        s = session.index_of(shown)
+        standing, decision = session.standing(s), session.decision(s)
+        if decision is not None and session.status[s] == "stale":
+            return f"{what_happened(decision, dated=True)}, on other data than these (the series reads stale)"
+        if standing is None or {r["analyst"] for r in (standing, decision) if r} <= {session.who.analyst}:
             return None
-        return f"{describe(decision)}, on other data than these (the series reads stale)"
+        return what_stands(standing, decision, dated=True)
+
+    def replacing(self, shown: Shown, action: str) -> Text | None:
+        """What a decision's box says of what stands (``replaced_text``) first, above the note box (an accept's and
+        an override's above the numbers they sign, ``signing_text``); a note's that it leaves it as it is."""
+        replaced = self.replaced_text(shown)
+        if replaced is None:
+            return None
+        if action == "note":
+            return Text(f"A note leaves what stands as it is: {replaced}.", style="bold")
+        return Text(f"This replaces what stands: {replaced}.", style="bold")
 
     def new_key_set(self, action: str, then) -> None:
         """``then()`` — at once, or after a dialog where a decision on the series shown would start something new
@@ -185,11 +202,11 @@ class DecisionFlow:
 
     def hold(self, shown: Shown) -> None:
         self.ask(f"Hold {self.session.label(shown.series)}: why? (optional)", "Enter alone holds without a note",
-                 False, lambda note: self.decide(shown, "hold", note=note))
+                 False, lambda note: self.decide(shown, "hold", note=note), self.replacing(shown, "hold"))
 
     def note(self, shown: Shown) -> None:
         self.ask(f"Note on {self.session.label(shown.series)}", "what should the next reader know?", True,
-                 lambda note: self.decide(shown, "note", note=note))
+                 lambda note: self.decide(shown, "note", note=note), self.replacing(shown, "note"))
 
     def override(self, shown: Shown, s: int) -> None:
         """The override dialog on series ``s`` (where ``shown`` is as it opens), opening on the model

@@ -39,6 +39,7 @@ from ..widgets.status_line import (
     rejected_text,
     spellings_text,
     status_text,
+    tail_text,
 )
 from .decision_flow import DecisionFlow
 from .dialogs import LOST_WITHIN, ChoiceDialog, MessageDialog, TextDialog
@@ -90,7 +91,7 @@ class TriageScreen(DecisionFlow, Screen):
         self._came_up: tuple[str | None, float] = (None, 0.0)  # the series shown and when it came up (``too_soon``)
         self._moved_on_at = -1.0  # when a decision here last moved the cursor on (``DecisionFlow.decide``)
         self._unsaid: dict[str, str] = {}  # series id → the note of a decision the ledger refused, offered again
-        self._keys_said: tuple = (None, None, None, True)  # what the header says of the ledger (``ledger_said``)
+        self._keys_said: tuple = (None, None, None, True, None)  # what the header says of the ledger (``ledger_said``)
         self._listed = -1  # the rows the header counts as listed
         self.leaving = False  # q taken: no key acts any more (``action_quit``)
 
@@ -164,18 +165,21 @@ class TriageScreen(DecisionFlow, Screen):
             self.refresh_bindings()
 
     def update_status(self) -> None:
-        """The header; a layout pass only when its number of lines changes (one costs more than a repaint)."""
+        """The header; a layout pass only when its number of lines may change (one costs more than a repaint): its
+        lines, or what it says of the ledger, whose notices wrap (a cut-off tail's three lines were cut to the two
+        rows the side file's line had taken)."""
         line = self.query_one("#status-line", Static)
         text = status_text(self.session, max(self.size.width - 2, 20))
-        lines = text.plain.count("\n")
-        line.update(text, layout=lines != self._status_lines)
-        self._status_lines, self._keys_said, self._listed = lines, self.ledger_said(), len(self.session.view)
+        lines, said = text.plain.count("\n"), self.ledger_said()
+        line.update(text, layout=lines != self._status_lines or said != self._keys_said)
+        self._status_lines, self._keys_said, self._listed = lines, said, len(self.session.view)
 
     def ledger_said(self) -> tuple:
         """What the header says of the ledger beside these results (when it changes, the header is redrawn),
         and whether decisions can be recorded (a ledger turned broken brings no record to redraw the list by)."""
         session = self.session
-        return session.key_columns.said, session.spellings.said, session.missing.short(), session.writable
+        return (session.key_columns.said, session.spellings.said, session.missing.short(), session.writable,
+                tail_text(session))  # a torn tail appended while the screen is open adds no record either
 
     def refresh_all(self) -> None:
         self.series_list.reload()  # posts Highlighted: the evidence and ``shown`` follow

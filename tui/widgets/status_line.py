@@ -44,8 +44,10 @@ def status_text(session, width: int) -> Text:
     if not session.writable:
         said = f"READ-ONLY: {printable(session.read_only_why)}; nothing can be recorded"
         text.append("\n" + cut(said, width), style="bold reverse")
-    elif session.book.notes:  # an interrupted append: said before any decision, whole (wrapped), until moved
-        text.append("\n" + cut_off_text(session.book), style="bold")
+    else:
+        said = tail_text(session)
+        if said:  # an interrupted append (bold): whole (wrapped), until moved; then where it went
+            text.append("\n" + said, style="bold" if session.book.notes else "")
     watch = session.results_watch
     if watch is not None and watch.said:  # the results replaced on disk (a refit): one line, cut
         text.append("\n" + cut(printable(watch.said), width), style="bold")
@@ -191,6 +193,23 @@ def elsewhere_text(session) -> str | None:
 
 
 SIDE_FILE = "the next append moves it to a side file"  # how the reader's notes end (fitcore.ledger.reader)
+
+
+def tail_text(session) -> str | None:
+    """What the header says of the ledger's end: an interrupted append (``cut_off_text``), from the look that finds
+    it — on opening or while the screen is open — until a decision moves it aside; then the side file this screen's
+    decision moved it to (``moved_text``), the command line's words."""
+    book = session.book
+    if book.notes:
+        return cut_off_text(book)
+    return moved_text(book, session.tail_set_aside) if session.tail_set_aside is not None else None
+
+
+def moved_text(book, side: Path) -> str:
+    """'K.jsonl: the interrupted tail after its last whole record was moved to K.jsonl.torn-<UTC time> beside it' —
+    as ``ledger_cli.record`` says it of a command's append."""
+    return (f"{clean(book.path.name)}: the interrupted tail after its last whole record was moved to "
+            f"{clean(side.name)} beside it")
 
 
 def cut_off_text(book) -> str:
