@@ -231,7 +231,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         elif replaced[0]:  # the fit tested a decision that no longer stands: its numbers and shifted flag left out
             lines.append("  the backtest in these results tested a decision that no longer stands: not shown (fit "
                          "again with --ledger to test what stands)")
-        if record.get("plan"):  # one series in full, as without --ledger (whether --flag or a filter picked it)
+        if record.get("plan") and record["chosen"]:  # one series in full, as without --ledger (whether --flag or a
+            # filter picked it): a prediction's caution
             from fitcore.review.plan_words import caution_of
             lines += ["", caution_of((header or {}).get("settings") or {})]
         return "\n".join(lines)

@@ -349,10 +349,12 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
         another = [s for s in found.tolist() if models[s] != chosen[s] and cands[s]["coef"]]
         if another:  # their curves checked as the screen checks them (``standing_codes``): in their basis
             _with_basis(part, columns, another, at, cands, ranges)
-        # the plan: from the last row of a series marked chosen that has a plan price (as the record reader)
-        marked = (numbers(columns.table.column("is_chosen").combine_chunks()) == 1) & \
-            _valid(columns.table.column("plan_price"))
-        marked = marked.reshape(columns.n_series, len(columns.candidates))
+        # the plan: from the last row of a series marked chosen that has a plan price (as the record reader);
+        # a series with no model, its plan price alone (every row holds it)
+        shape = (columns.n_series, len(columns.candidates))
+        chosen_rows = (numbers(columns.table.column("is_chosen").combine_chunks()) == 1).reshape(shape)
+        priced = _valid(columns.table.column("plan_price")).reshape(shape)
+        marked = chosen_rows & priced
         last = marked.shape[1] - 1 - np.argmax(marked[:, ::-1], axis=1)
         planned = np.flatnonzero(marked.any(axis=1))
         plans: list[dict] = [{}] * len(keys)
@@ -362,6 +364,9 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
                 plans[s] = {"price": numbers_at["plan_price"][j], "volume": numbers_at["plan_volume"][j],
                             "lo": numbers_at["plan_lo"][j], "hi": numbers_at["plan_hi"][j],
                             "elasticity": numbers_at["plan_elasticity"][j]}
+        alone = np.flatnonzero(~chosen_rows.any(axis=1) & priced[:, 0])
+        for s, price in zip(alone.tolist(), columns.values("plan_price", 0, alone) if alone.size else ()):
+            plans[s] = {"price": price}
         days = [None if day is None else day.isoformat() for day in columns.values("last_date", 0, every)] \
             if "last_date" in columns.table.column_names else [None] * len(keys)
         seen = [Seen(lo, hi, [f["code"] for f in orjson.loads(flags or "[]")])
