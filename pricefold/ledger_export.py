@@ -304,7 +304,7 @@ def _export_columns(part: Path):
     from fitcore.results.series_columns import series_columns
     names = pq.read_schema(part).names
     dated = ["last_date"] if "last_date" in names else []  # results made before it: none
-    tested = [name for name in ("backtest_decision", "backtest_carries") if name in names]  # fitted with --ledger
+    tested = [f"backtest_{name}" for name in ("shifted", "decision", "carries") if f"backtest_{name}" in names]
     return series_columns(part, read_header(part), [*EXPORTED, *dated, *tested])
 
 
@@ -371,10 +371,11 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
             if "last_date" in columns.table.column_names else [None] * len(keys)
         seen = [Seen(lo, hi, [f["code"] for f in orjson.loads(flags or "[]")])
                 for lo, hi, flags in zip(*ranges, columns.values("flags", 0, every))]
-        shifted = [s for s, said in enumerate(seen) if "shifted" in said.codes]
-        if shifted and "backtest_decision" in columns.table.column_names:  # what their backtest tested
+        if "backtest_shifted" in columns.table.column_names:  # fitted with --ledger: what their backtest tested
+            raised = np.flatnonzero(numbers(columns.column("backtest_shifted")) == 1)  # (no pass over every series)
+            shifted = [s for s in raised.tolist() if "shifted" in seen[s].codes]
             tested = [columns.values(f"backtest_{name}", 0, shifted) if f"backtest_{name}" in columns.table.column_names
-                      else [None] * len(shifted) for name in ("decision", "carries")]
+                      else [None] * len(shifted) for name in ("decision", "carries")] if shifted else []
             for s, decision, carries in zip(shifted, *tested):
                 seen[s].tested = (decision, carries)
         yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands, days, seen)
