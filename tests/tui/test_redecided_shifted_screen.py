@@ -82,3 +82,21 @@ async def test_another_analysts_decision_takes_shifted_off_the_row(tmp_path, suf
         assert "shifted" not in row(app, theirs)
         assert not session.diagnosis.flagged("shifted")[o] and session.backtest_of(o) is None
         assert "shifted" in row(app, kept) and session.diagnosis.flagged("shifted")[k]
+
+
+@pytest.mark.parametrize("suffix", [".json", ".parquet"])
+def test_a_revoke_of_the_decision_made_since_brings_the_backtest_back_as_show_has_it(tmp_path, suffix, capsys):
+    from pricefold.cli import main
+    from tui.factory import open_session
+    book = second_cycle_shifted(tmp_path)
+    results = tmp_path / f"r2{suffix}"
+    session = (open_session(source_from_results(results), book, ANA) if suffix == ".json"
+               else open_stored_session(results, book, ANA))
+    s = int(session.keys.indices_of([{"product": ACCEPTED}])[0])
+    session.decide(session.look(s), "accept", note="checked")
+    assert "shifted" not in session.flag_codes(s)
+    session.decide(session.look(s), "revoke", note="asked again")  # the decision tested stands again
+    assert session.status[s] == "stale" and "shifted" in session.flag_codes(s) and session.backtest_of(s)
+    capsys.readouterr()
+    assert main(["show", str(results), "--ledger", str(book), "--product", ACCEPTED]) == 0
+    assert "] shifted:" in capsys.readouterr().out
