@@ -129,7 +129,8 @@ def version() -> str:
 
 def add_session_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--ledger", type=Path, default=None, metavar="FILE",
-                        help="the sign-off ledger (default: <results or data name>.ledger.jsonl beside it)")
+                        help="the sign-off ledger (default: <results or data name>.ledger.jsonl beside it; not "
+                             "for results fitted against another ledger: give that one, or name the default)")
     parser.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
 
 

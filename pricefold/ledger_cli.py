@@ -96,7 +96,7 @@ def refuse_not_a_ledger(path: Path) -> None:
         return
     try:
         said = json.loads(first) if first.strip() else {"digest": None}
-    except ValueError:
+    except (ValueError, RecursionError):
         said = None
     if isinstance(said, dict) and "digest" in said:
         return
@@ -317,11 +317,15 @@ def run_show(args) -> int:
 
 
 def run_accept_unflagged(args) -> int:
+    from fitcore.ledger.elsewhere import fitted_ledger
     from fitcore.ledger.proposals import unflagged
+    if args.ledger is None:  # no default: the ledger the results were fitted against named as the way on
+        from .ledger_choice import required_for
+        raise required_for(args.results, fitted_ledger(results_header(args.results)))
     # What the results propose and the models as they stand, read before taking the lock (a results
     # folder can be large).
     header, proposals = unflagged(args.results, args.ledger)  # another ledger's 'shifted' flags not counted
-    fitted = (header.get("ledger") or {}).get("path")
+    fitted = fitted_ledger(header)
     if fitted and Path(fitted).exists() and not args.ledger.exists():  # a mistyped --ledger: no new ledger
         raise ledger.LedgerError(f"{args.ledger}: no such ledger, and {args.results} was fitted against {fitted}; "
                                  "check --ledger (nothing was written)")
@@ -377,6 +381,13 @@ def run_accept_unflagged(args) -> int:
               + new_words(counted.get("new", 0), counted.get("alike", 0)), file=sys.stderr)
         print(f"ledger head {book.head_text}", file=sys.stderr)
     return 0
+
+
+def results_header(path: Path) -> dict:
+    """The header of a results file or folder: a Parquet one's metadata alone, a JSON file read whole."""
+    from fitcore.data.columns import is_parquet_name
+    from fitcore.results.read import read_header, read_results, result_parts
+    return read_header(path) if result_parts(path) is not None or is_parquet_name(path) else read_results(path)[0]
 
 
 def new_words(new: int, alike: int) -> str:

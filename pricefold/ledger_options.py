@@ -37,9 +37,13 @@ def add_ledger_parser(commands):
                              "a tab or a carriage return gets a leading ' so spreadsheets do not run it)")
     export.add_argument("-q", "--quiet", action="store_true",
                         help="no \"N series written\" line on success (warnings and errors still go to stderr)")
-    bulk = sub.add_parser("accept-unflagged", help="accept the proposal for every series with no flag and no decision")
+    bulk = sub.add_parser("accept-unflagged", help="accept the proposal for every series with no flag and no decision",
+                          usage="%(prog)s [-h] --ledger LEDGER [--analyst NAME] [--note TEXT] [--new-series] [-q] "
+                                "RESULTS")
     bulk.add_argument("results", type=Path, metavar="RESULTS")
-    bulk.add_argument("--ledger", type=Path, required=True, metavar="LEDGER")
+    # required, and checked by the command: left out, it names the ledger the results were fitted against
+    bulk.add_argument("--ledger", type=Path, default=None, metavar="LEDGER",
+                      help="the ledger to record into (required: there is no default)")
     bulk.add_argument("--analyst", default=None, metavar="NAME", help="display name (default: the OS user)")
     bulk.add_argument("--note", action=Once, default="", metavar="TEXT")
     bulk.add_argument("--new-series", action="store_true",

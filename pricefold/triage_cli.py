@@ -1,6 +1,6 @@
 """``pricefold triage``: the screen opened on a data file, a results file or stored Parquet results, and the
-checks before it opens (the ledger is none of its inputs, a ledger fitted against another is said); ``open_triage``
-also serves the demo."""
+checks before it opens (the ledger is none of its inputs; without --ledger, the default beside results fitted
+against another ledger is refused: ``ledger_choice``); ``open_triage`` also serves the demo."""
 from __future__ import annotations
 
 import sys
@@ -37,20 +37,23 @@ def _run_triage(args) -> int:
     from fitcore.outputs import check_not_input
     from fitcore.results.source import Source, default_ledger, is_stored, source_from_results
 
+    from .ledger_choice import default_for
     from .options import resolve, settings_file_keys
-    ledger_path = args.ledger or default_ledger(args.source)
     units = load_config(args.config, settings_file_keys()).get("units", {})
     if is_stored(args.source):  # Parquet results: open them as they are, read the observations behind the screen
         source = source_from_results(args.source, check_data=False)
+        ledger_path = args.ledger or default_for(args.source, source.fitted_ledger)
         check_not_input(ledger_path, [("the results", args.source), *_source_inputs(source)])
-        source.units, source.sep = units, _separator(args)  # another ledger's backtest: the header says it
+        source.units, source.sep = units, _separator(args)  # fitted against another ledger: the header says it
         return open_triage(source, ledger_path, args.analyst, stored=args.source)
     if is_results(args.source):
         source = source_from_results(args.source)
+        ledger_path = args.ledger or default_for(args.source, source.fitted_ledger)
         source.sep = _separator(args)
         inputs = [("the results", args.source), *_source_inputs(source)]
     else:
         run = resolve(args)
+        ledger_path = args.ledger or default_ledger(args.source)
         if not args.source.exists():
             from fitcore.errors import DataError
             raise DataError("file not found", path=str(args.source))
@@ -62,23 +65,10 @@ def _run_triage(args) -> int:
                         plan_file=run.plan_file, plan_price=run.plan_price, thresholds=run.thresholds, sep=run.sep)
         inputs = [*_source_inputs(source), *run.inputs]
     check_not_input(ledger_path, inputs)
-    source.units = units
-    other_ledger(source, ledger_path)
+    source.units = units  # fitted against another ledger than --ledger: the header says it (``tui.factory``)
     from fitcore.outputs import unfinished
     source.warnings.extend(unfinished(args.source))  # said before the screen too, where it is gone once it opens
     return open_triage(source, ledger_path, args.analyst)
-
-
-def other_ledger(source, ledger_path: Path) -> None:
-    """A warning on the screen when the results were fitted against another ledger than the one the screen
-    records into (a mistyped --ledger opens a new, empty ledger: every series pending); on stored results the
-    header says it instead, with their backtest left out (``TriageSession.elsewhere``)."""
-    from fitcore.ledger.elsewhere import same_file
-    fitted = source.fitted_ledger
-    if fitted and not same_file(Path(fitted), ledger_path):
-        new = "" if ledger_path.exists() else ", a new one (no decisions yet)"
-        source.warnings.append(f"These results were fitted against the ledger {fitted}; this screen records into "
-                               f"{ledger_path}{new}. Check --ledger.")
 
 
 def _separator(args) -> str | None:

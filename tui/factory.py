@@ -13,6 +13,7 @@ from fitcore.data.columns import Columns
 from fitcore.errors import DataError
 from fitcore.fit.settings import FitSettings
 from fitcore.ledger import Identity, results_digest
+from fitcore.ledger.elsewhere import fitted_elsewhere, fitted_ledger
 from fitcore.results.read import read_header
 from fitcore.results.source import (
     Source,
@@ -42,6 +43,7 @@ def open_session(source: Source, ledger_path: Path, who: Identity, key: bytes | 
     session = TriageSession(results, diagnosis, ledger_path, who, results_digest(header(results, diagnosis)), key,
                             units=source.units)
     session.warnings.extend(source.warnings)
+    session.fitted_elsewhere = fitted_elsewhere(source.fitted_ledger, Path(ledger_path))
     if len(reading.rejects):  # said on the header and listed under ?: no rejects file is written here
         session.rejects = reading.rejects
     return session
@@ -68,6 +70,7 @@ def open_stored_session(path: Path, ledger_path: Path, who: Identity, key: bytes
     session = TriageSession(results, diagnosis, ledger_path, who, results_digest(head), key, units=units, book=book,
                             elsewhere=elsewhere)
     session.results_watch = watched
+    session.fitted_elsewhere = fitted_elsewhere(fitted_ledger(head), Path(ledger_path))
     return session
 
 

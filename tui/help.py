@@ -32,6 +32,7 @@ KEYS = [
           "the fitted curve gives, not what that week would have sold)"),
     ("?", "this help"),
     ("q, Ctrl+C", "quit (every decision is already in the ledger)"),
+    ("Ctrl+Z", "to the shell (fg brings the screen back)"),
 ]
 
 YOU_DECIDE = "pricefold proposes a curve; you decide, and the ledger records that you did."
@@ -63,8 +64,9 @@ def _grid(rows: list[tuple[str, str]]) -> Table:
 
 
 def ledger_text(book, keys: str | None = None) -> Group:
-    """Which ledger, whether its chain verifies, whether it keys its series as the results do (``keys``: the
-    status line's words when not), and its head (``SEQ:DIGEST`` of the last whole record)."""
+    """Which ledger, whether its chain verifies, what the header says of it and the results in full (``keys``:
+    another ledger the results were fitted against, key columns that differ, look-alikes, missing series), and its
+    head (``SEQ:DIGEST`` of the last whole record)."""
     text = Text("\nLedger ", style="bold")
     text.append(clean(str(book.path)))
     state = "changed under this screen" if book.replaced else book.state  # not "broken": it may verify afresh

@@ -66,6 +66,9 @@ class TriageSession(Deciding, Standing, ListState):
         self.unobserved: str | None = None  # why no observations will come (data file gone, changed, too large)
         self.rejects = None  # the data's rows this session's fit rejected (``Rejects``): the header and ? say them
         self.results_watch = None  # the results file opened (``ResultsWatch``): a fit replacing it is said
+        # the ledger these results were fitted against (``fit --ledger``) when it is not the one this screen records
+        # into (``fitcore.ledger.elsewhere.fitted_elsewhere``): the header names both while the screen is open
+        self.fitted_elsewhere: str | None = None
         data = results.data
         self.keys = SeriesKeys.of(data)  # Arrow columns: no Python object per series
         self._labels: dict[int, tuple[str, ...]] = {}

@@ -34,13 +34,25 @@ def same_file(a: Path, b: Path) -> bool:
         return False
 
 
+def fitted_elsewhere(fitted: str | None, ledger_path: Path) -> str | None:
+    """The ledger results were fitted against (``fitted``: their header's ``ledger`` path, None without one) when
+    it is another file than ``ledger_path``; None otherwise.  The one comparison behind every command's words for
+    it: the screen's header line, triage's refusal of a default ledger, and ``backtested_elsewhere``."""
+    return None if not fitted or same_file(Path(fitted), ledger_path) else str(fitted)
+
+
+def fitted_ledger(header: dict) -> str | None:
+    """The path of the ledger a results ``header`` says ``fit --ledger`` read; None: fitted without one."""
+    return (header.get("ledger") or {}).get("path")
+
+
 def backtested_elsewhere(results: Path, header: dict, ledger_path: Path) -> str | None:
     """"RESULTS: backtested against L, not OTHER" when the results (``header``, from the file ``results``) were
     fitted with ``--ledger`` on another ledger than ``ledger_path``; None: on this one, or without a ledger."""
-    source = header.get("ledger")
-    if not source or same_file(Path(source["path"]), ledger_path):
+    fitted = fitted_elsewhere(fitted_ledger(header), ledger_path)
+    if fitted is None:
         return None
-    return f"{results}: backtested against {clean(str(source['path']))}, not {ledger_path}"
+    return f"{results}: backtested against {clean(fitted)}, not {ledger_path}"
 
 
 def without_backtest(record: dict) -> dict:

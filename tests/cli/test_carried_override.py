@@ -202,24 +202,15 @@ def test_carry_counts_a_held_series_among_those_left(carried, capsys):
     assert " new look (held) " in row
 
 
-def test_signing_into_a_mistyped_ledger_is_refused_or_warned(carried, tmp_path, capsys):
+def test_signing_into_a_mistyped_ledger_is_refused(carried, tmp_path, capsys):
     """Results fitted against a ledger name it: accept-unflagged will not start a new ledger elsewhere (a
-    mistyped --ledger), and the triage screen warns when it records into another one."""
-    from fitcore.results.source import source_from_results
-    from pricefold.triage_cli import other_ledger
+    mistyped --ledger).  The triage screen names both ledgers on its header (``tests/tui/test_fitted_ledger.py``)."""
     book, _, _, results = carried
     missing = tmp_path / "ledgr.jsonl"
     capsys.readouterr()
     assert main(["ledger", "accept-unflagged", str(results), "--ledger", str(missing), "--analyst", "cy"]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "no such ledger" in err and str(book) in err and not missing.exists()
-    source = source_from_results(results)
-    other_ledger(source, missing)
-    assert source.warnings == [f"These results were fitted against the ledger {book}; this screen records into "
-                               f"{missing}, a new one (no decisions yet). Check --ledger."]
-    same = source_from_results(results)
-    other_ledger(same, book)
-    assert same.warnings == []
 
 
 def test_show_lists_the_model_the_export_gives(carried, tmp_path, capsys):

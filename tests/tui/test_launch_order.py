@@ -228,12 +228,13 @@ def test_the_first_list_reads_its_own_columns_only_and_the_evidence_fills_in_aft
 
 
 def test_the_command_line_reads_no_cycle_module_for_results_fitted_without_a_ledger(tmp_path):
-    """``triage RESULTS`` warns when the results were fitted against another ledger; results fitted without
-    one need nothing of the cycle commands (their module imports the ledger's readers and ``show``)."""
-    code = ("import sys; from pathlib import Path; from pricefold.triage_cli import other_ledger; "
+    """``triage RESULTS`` without --ledger refuses the default ledger where the results were fitted against
+    another; results fitted without one need nothing of the cycle commands (their module imports the ledger's
+    readers and ``show``)."""
+    code = ("import sys; from pathlib import Path; from pricefold.ledger_choice import default_for; "
             "from fitcore.results.source import source_from_results; "
             f"source = source_from_results(Path({str(SAMPLE / 'results.parquet')!r}), check_data=False); "
-            f"other_ledger(source, Path({str(tmp_path / 'ledger.jsonl')!r})); "
-            "print(source.warnings, 'pricefold.cycle_cli' in sys.modules)")
+            f"print(default_for(Path({str(SAMPLE / 'results.parquet')!r}), source.fitted_ledger).name, "
+            "'pricefold.cycle_cli' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, check=True)
-    assert out.stdout.strip() == "[] False"
+    assert out.stdout.strip() == "results.ledger.jsonl False"

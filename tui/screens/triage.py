@@ -32,7 +32,14 @@ from ..text import clean, printable
 from ..widgets.evidence import EvidencePanel
 from ..widgets.key_line import KeyLine
 from ..widgets.series_list import SeriesList
-from ..widgets.status_line import keys_text, missing_text, rejected_text, spellings_text, status_text
+from ..widgets.status_line import (
+    fitted_text,
+    keys_text,
+    missing_text,
+    rejected_text,
+    spellings_text,
+    status_text,
+)
 from .decision_flow import DecisionFlow
 from .dialogs import LOST_WITHIN, ChoiceDialog, MessageDialog, TextDialog
 
@@ -441,8 +448,8 @@ class TriageScreen(DecisionFlow, Screen):
                     markup=False, timeout=2)
 
     def action_help(self) -> None:
-        said = "\n  ".join(filter(None, (keys_text(self.session.key_columns), spellings_text(self.session),
-                                         missing_text(self.session))))
+        said = "\n  ".join(filter(None, (fitted_text(self.session), keys_text(self.session.key_columns),
+                                         spellings_text(self.session), missing_text(self.session))))
         self.open_dialog(MessageDialog(help_text(self.session.book, said or None, rejected_text(self.session),
                                                  self.session.results),
                                        classes="help"))

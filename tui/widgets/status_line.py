@@ -49,8 +49,9 @@ def status_text(session, width: int) -> Text:
     watch = session.results_watch
     if watch is not None and watch.said:  # the results replaced on disk (a refit): one line, cut
         text.append("\n" + cut(printable(watch.said), width), style="bold")
-    for said, capped in ((keys_text(session.key_columns), False), (spellings_text(session), True),
-                         (elsewhere_text(session), False)):  # while true; whole, but a look-alike's quoted name
+    for said, capped in ((fitted_text(session), True), (keys_text(session.key_columns), False),
+                         (spellings_text(session), True), (elsewhere_text(session), False)):
+        # while true; whole, but those naming a look-alike or a ledger's path (two lines, whole under ?)
         if said:
             text.append("\n" + ("\n".join(notice_lines(said, width)) if capped else said), style="bold")
     said = rejected_short(session)
@@ -162,10 +163,27 @@ def alike_words(session, s: int) -> str:
     return f"{session.label(s)} looks like {said}."
 
 
+def fitted_text(session) -> str | None:
+    """'Recording into X.jsonl, not L, the ledger these results were fitted against: …' — both ledgers named for as
+    long as the screen is open, on JSON and Parquet results alike (``TriageSession.fitted_elsewhere``): a stored
+    file's backtest left out (``elsewhere``), once the data are fitted here the screen's own against this ledger."""
+    fitted = session.fitted_elsewhere
+    if fitted is None:
+        return None
+    empty = " (no decisions yet)" if not session.book.records else ""
+    said = (f"Recording into {clean(str(session.ledger_path))}{empty}, not {clean(fitted)}, the ledger these "
+            "results were fitted against")
+    if session.elsewhere is not None and not session.results.rows_loaded:
+        return f"{said}: their backtest and 'shifted' flags are left out"
+    return f"{said} (backtested again here, against {clean(session.ledger_path.name)})"
+
+
 def elsewhere_text(session) -> str | None:
-    """'R.parquet: backtested against L, not THIS; …' (``fitcore.ledger.elsewhere``, ``show --ledger``'s words):
-    the file's backtest left out; once the data are fitted here, the screen's own against this ledger."""
-    if session.elsewhere is None:
+    """'L.jsonl no longer holds record 294:…, the last one 'fit --ledger' read for R.parquet (…); …' (``fitcore.
+    ledger.elsewhere.head_gone``, ``show --ledger``'s words): results fitted against this ledger, whose stored
+    backtest read records it no longer holds, left out; once the data are fitted here, the screen's own.  (Results
+    fitted against another ledger: ``fitted_text``.)"""
+    if session.elsewhere is None or session.fitted_elsewhere is not None:
         return None
     if session.results.rows_loaded:
         return f"{printable(session.elsewhere)}; backtested again here, against {clean(session.ledger_path.name)}"
