@@ -231,7 +231,8 @@ def _show(args, keys: dict) -> int:
     else:
         print(detail(picked[0], binary, one_label(every, picked[0]["key"]), weight) if len(picked) == 1
               else table(picked, first))
-    if args.ledger is None and len(picked) == 1 and picked[0].get("plan"):  # with --ledger: ``show_with_ledger``'s
+    if args.ledger is None and len(picked) == 1 and picked[0].get("plan") and picked[0].get("chosen"):  # a prediction's
+        # caution (with --ledger: ``show_with_ledger``'s)
         from fitcore.review.plan_words import caution_of
         print(f"\n{caution_of(header.get('settings') or {})}")
     if args.product or typed:  # a look-alike is another series: said, not listed with it

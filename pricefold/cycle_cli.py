@@ -10,7 +10,7 @@ from functools import lru_cache
 from pathlib import Path
 
 from fitcore.data.keys import SEPARATOR
-from fitcore.ledger.elsewhere import HEAD_GONE_TAIL, backtested_elsewhere, head_gone, without_backtest
+from fitcore.ledger.elsewhere import HEAD_GONE_TAIL, StandingNow, backtested_elsewhere, head_gone, without_backtest
 from fitcore.ledger.replay import series_id
 from fitcore.ledger.rules import NEWER_DUE, NEWER_DUE_SHORT, decided_on_newer, what_stands
 from fitcore.review.thresholds import recorded_thresholds
@@ -192,7 +192,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
                   "--ledger on this ledger)", file=sys.stderr)
             records = [without_backtest(record) for record in records]
     fitted = header is not None and bool(header.get("ledger")) and not foreign  # what the fit read: this ledger
-    replaced = [superseded(record, book) for record in records]
+    standing_now = StandingNow(history.current for history in book.histories.values())
+    replaced = [superseded(record, standing_now) for record in records]
     records = [without_backtest(record) if gone else record for record, gone in zip(records, replaced)]
     thresholds = lru_cache(lambda: recorded_thresholds(((header or {}).get("settings") or {}).get("thresholds"),
                                                        results))  # the fit's, as the export judges by
@@ -248,7 +249,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
         elif replaced[0]:  # the fit tested a decision that no longer stands: its numbers and shifted flag left out
             lines.append("  the backtest in these results tested a decision that no longer stands: not shown (fit "
                          "again with --ledger to test what stands)")
-        if record.get("plan"):  # one series in full, as without --ledger (whether --flag or a filter picked it)
+        if record.get("plan") and record["chosen"]:  # one series in full, as without --ledger (whether --flag or a
+            # filter picked it): a prediction's caution
             from fitcore.review.plan_words import caution_of
             lines += ["", caution_of((header or {}).get("settings") or {})]
         return "\n".join(lines)
@@ -367,20 +369,13 @@ def near_best(record: dict, name: str) -> bool:
     return mine["cv_mse"] <= best["cv_mse"] + (best["cv_se"] or 0.0)
 
 
-def superseded(record: dict, book) -> bool:
+def superseded(record: dict, standing: StandingNow) -> bool:
     """The results' backtest of a series tested a decision that no longer stands (a hold, a revoke or another
-    decision recorded since the fit; a carry of the decision tested is that decision, standing on): its numbers
-    and ``shifted`` flag are not the standing decision's."""
-    bt = record.get("backtest")
-    if not bt or not bt.get("decision"):
-        return False
-    history = book.histories.get(series_id(record["key"]))
-    current = history.current if history is not None else None
-    if current is None:
-        return True
-    if current["action"] == "carry" and current.get("carries") == (bt.get("carries") or bt["decision"]):
-        return False  # carried to these data since the fit: the decision tested, standing on
-    return current["digest"] != bt["decision"]
+    decision recorded since the fit; a carry of the decision tested is that decision, standing on: ``StandingNow``,
+    the rule the export, the report and the screen ask too): its numbers and ``shifted`` flag are not the
+    standing decision's."""
+    bt = record.get("backtest") or {}
+    return standing.superseded(bt.get("decision"), bt.get("carries"))
 
 
 def _carried_action(history, digest: str | None) -> str | None:

@@ -58,7 +58,7 @@ def run_export(args) -> int:
         header, parts = results_in_parts(args.results)
     book = open_ledger(args.ledger, refuse=(ledger.BROKEN,), must_exist=True)
     refuse_key_mismatch(args.results, header, book, args.ledger)  # else every row "pending", matching nothing
-    from fitcore.ledger.elsewhere import backtested_elsewhere, head_gone
+    from fitcore.ledger.elsewhere import StandingNow, backtested_elsewhere, head_gone
     gone = head_gone(args.results, header, book.records, args.ledger)
     if gone:  # an older copy restored, or its end cut: its rows would hand planning decisions that are gone
         raise ledger.LedgerError(f"{gone}; nothing was written (fit again with --ledger to export from it as it is)")
@@ -103,11 +103,13 @@ def run_export(args) -> int:
             count += 1
             keys.append(key)
             status = history.status(fingerprint) if history else "pending"
-            if foreign and "shifted" in seen.codes:
+            current = history.current if history else None
+            # its backtest speaks of another ledger's signers, or of a decision that no longer stands (decided
+            # since the fit): its shifted flag left out, as show --ledger, the report and the screen leave it out
+            if "shifted" in seen.codes and (foreign or StandingNow([current]).superseded(*(seen.tested or (None,)))):
                 seen = Seen(seen.lo, seen.hi, [code for code in seen.codes if code != "shifted"])
             if status == "stale" and decided_on_newer(key, fingerprint, last_date, history):
                 newer += 1
-            current = history.current if history else None
             model = current["model"] if current else chosen
             # The standing model's plan numbers: the proposal's from the plan; another candidate's from its own
             # fields where the results hold them (its interval only where they do).
@@ -205,12 +207,13 @@ EXPORT_FORMAT = 2
 
 class Seen:
     """What the results say of a series beside its numbers: its observed prices (``lo``, ``hi``: None where
-    unknown) and its flags' codes."""
+    unknown), its flags' codes and, where they raise ``shifted``, the decision their backtest tested
+    (``tested``: its digest and what it carries, for ``elsewhere.StandingNow``; else None)."""
 
-    __slots__ = ("lo", "hi", "codes")
+    __slots__ = ("lo", "hi", "codes", "tested")
 
-    def __init__(self, lo, hi, codes: list[str]):
-        self.lo, self.hi, self.codes = lo, hi, codes
+    def __init__(self, lo, hi, codes: list[str], tested: tuple | None = None):
+        self.lo, self.hi, self.codes, self.tested = lo, hi, codes, tested
 
     @property
     def varied(self) -> bool:
@@ -231,7 +234,9 @@ class Seen:
 
 def seen_in(record: dict) -> Seen:
     lo, hi = record.get("price_range") or (None, None)
-    return Seen(lo, hi, [f["code"] for f in record.get("flags") or []])
+    codes = [f["code"] for f in record.get("flags") or []]
+    tested = record.get("backtest") or {}
+    return Seen(lo, hi, codes, (tested.get("decision"), tested.get("carries")) if "shifted" in codes else None)
 
 
 def key_headers(names: list[str]) -> dict[str, str]:
@@ -299,8 +304,10 @@ def _export_columns(part: Path):
 
     from fitcore.results.read import read_header
     from fitcore.results.series_columns import series_columns
-    dated = ["last_date"] if "last_date" in pq.read_schema(part).names else []  # results made before it: none
-    return series_columns(part, read_header(part), [*EXPORTED, *dated])
+    names = pq.read_schema(part).names
+    dated = ["last_date"] if "last_date" in names else []  # results made before it: none
+    tested = [f"backtest_{name}" for name in ("shifted", "decision", "carries") if f"backtest_{name}" in names]
+    return series_columns(part, read_header(part), [*EXPORTED, *dated, *tested])
 
 
 def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
@@ -344,10 +351,12 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
         another = [s for s in found.tolist() if models[s] != chosen[s] and cands[s]["coef"]]
         if another:  # their curves checked as the screen checks them (``standing_codes``): in their basis
             _with_basis(part, columns, another, at, cands, ranges)
-        # the plan: from the last row of a series marked chosen that has a plan price (as the record reader)
-        marked = (numbers(columns.table.column("is_chosen").combine_chunks()) == 1) & \
-            _valid(columns.table.column("plan_price"))
-        marked = marked.reshape(columns.n_series, len(columns.candidates))
+        # the plan: from the last row of a series marked chosen that has a plan price (as the record reader);
+        # a series with no model, its plan price alone (every row holds it)
+        shape = (columns.n_series, len(columns.candidates))
+        chosen_rows = (numbers(columns.table.column("is_chosen").combine_chunks()) == 1).reshape(shape)
+        priced = _valid(columns.table.column("plan_price")).reshape(shape)
+        marked = chosen_rows & priced
         last = marked.shape[1] - 1 - np.argmax(marked[:, ::-1], axis=1)
         planned = np.flatnonzero(marked.any(axis=1))
         plans: list[dict] = [{}] * len(keys)
@@ -357,10 +366,20 @@ def _by_columns(ahead: tuple[list[Path], object], book) -> Iterator[Exported]:
                 plans[s] = {"price": numbers_at["plan_price"][j], "volume": numbers_at["plan_volume"][j],
                             "lo": numbers_at["plan_lo"][j], "hi": numbers_at["plan_hi"][j],
                             "elasticity": numbers_at["plan_elasticity"][j]}
+        alone = np.flatnonzero(~chosen_rows.any(axis=1) & priced[:, 0])
+        for s, price in zip(alone.tolist(), columns.values("plan_price", 0, alone) if alone.size else ()):
+            plans[s] = {"price": price}
         days = [None if day is None else day.isoformat() for day in columns.values("last_date", 0, every)] \
             if "last_date" in columns.table.column_names else [None] * len(keys)
         seen = [Seen(lo, hi, [f["code"] for f in orjson.loads(flags or "[]")])
                 for lo, hi, flags in zip(*ranges, columns.values("flags", 0, every))]
+        if "backtest_shifted" in columns.table.column_names:  # fitted with --ledger: what their backtest tested
+            raised = np.flatnonzero(numbers(columns.column("backtest_shifted")) == 1)  # (no pass over every series)
+            shifted = [s for s in raised.tolist() if "shifted" in seen[s].codes]
+            tested = [columns.values(f"backtest_{name}", 0, shifted) if f"backtest_{name}" in columns.table.column_names
+                      else [None] * len(shifted) for name in ("decision", "carries")] if shifted else []
+            for s, decision, carries in zip(shifted, *tested):
+                seen[s].tested = (decision, carries)
         yield from zip(keys, fields["fingerprint"], chosen, plans, histories, cands, days, seen)
 
 

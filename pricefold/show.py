@@ -287,12 +287,15 @@ def tied_control(message: str) -> str:
 
 def plan_line(record: dict) -> str:
     """The plan price's line: volume, interval, elasticity, and whether it is an extrapolation — in price, or in a
-    control whose plan value the series has not seen (the outside-range flag says which)."""
+    control whose plan value the series has not seen (the outside-range flag says which); without a model, the
+    plan price alone."""
     plan = record["plan"]
     codes = {f["code"] for f in record["flags"]}
     where = (" — outside the observed prices: an extrapolation" if not plan["inside_range"] else
              " — a control's plan value lies outside the values this series has seen (see outside-range)"
              if "outside-range" in codes else "")
+    if record["chosen"] is None:  # the plan file's price all the same, as the export and the report give it
+        return f"plan price {number(plan['price'], money)}: no model, so no volume predicted there{where}"
     return (f"plan price {number(plan['price'], money)}: volume {number(plan['volume'])} "
             f"({percent(plan['level'])} prediction interval {number(plan['lo'])} to {number(plan['hi'])}), "
             f"{slope(plan, record, record['chosen'])}{where}")

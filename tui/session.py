@@ -158,7 +158,7 @@ class TriageSession(Deciding, Standing, ListState):
         set_statuses(self.status, self.status_code, changed, self.histories, fingerprint)
         self.mark_accepted_other(changed, fingerprint)
         untested = bool(records) and self._untested(changed)  # decided on other data since the screen's backtest
-        changed = set(changed)
+        ids, changed = changed, set(changed)
         current = self.current
         if current is not None and fresh and self.shown is not None:  # not what was there before the screen opened
             theirs = [r for r in fresh if r.get("digest") not in self._written
@@ -166,6 +166,8 @@ class TriageSession(Deciding, Standing, ListState):
             self.news = theirs[-1] if theirs else self.news
         if untested:
             self._with_backtest(self.results, self.base_diagnosis)
+            force = True
+        if self._leave_out(ids):  # what a backtest tested of a decision replaced since
             force = True
         if records or force:
             stale = self._code("stale")
@@ -324,8 +326,9 @@ class TriageSession(Deciding, Standing, ListState):
         """Signed curves against the rows since sign-off (``fitcore.ledger.backtest``): the ``shifted``
         flag joins the results' flags, and ``backtest`` holds the numbers (None: nothing to test).  A results
         file's own backtest made against another ledger (``elsewhere``) is left out with its ``shifted`` flags,
-        as ``show --ledger`` leaves it out; a fit of the data is backtested here, against this ledger."""
-        self.base_diagnosis, self.backtest = diagnosis, None
+        as ``show --ledger`` leaves it out; a fit of the data is backtested here, against this ledger.  What it
+        tested of a decision that no longer stands is left out as the ledger is read (``_leave_out``)."""
+        self.base_diagnosis, self.backtest, self._tested = diagnosis, None, None
         if self.elsewhere is not None and not results.rows_loaded:
             self.base_diagnosis = without_shifted(diagnosis)
         # a results file holds the backtest it was fitted with, or none: then its module is not imported (not
@@ -334,8 +337,33 @@ class TriageSession(Deciding, Standing, ListState):
             from fitcore.ledger.backtest import cycle_of
             source = {"path": str(self.ledger_path), "head": self.book.head_text, "state": self.book.state}
             self.base_diagnosis, self.backtest = cycle_of(results, diagnosis, self.histories, source)
+            if self.backtest is not None:  # as tested, and the series left out of it (none yet)
+                self._tested = (self.base_diagnosis, self.backtest, np.zeros(results.n_series, dtype=bool))
         self.diagnosis = self.base_diagnosis
         self._flagged = self.diagnosis.raised.any(axis=1)
+
+    def _leave_out(self, changed: dict[int, str]) -> bool:
+        """Leave out the backtest — its numbers and ``shifted`` flag — of each series ``changed`` (index → id)
+        whose tested decision no longer stands (decided here or by another analyst since), and take it back where
+        that decision stands again (a revoke of what replaced it), as a screen opened now, ``show --ledger`` and
+        the report do (``backtest.superseded_in``).  Only series that were tested are asked.  Whether any changed."""
+        if self._tested is None or not changed:
+            return False
+        diagnosis, found, left_out = self._tested
+        at = np.fromiter(changed, dtype=np.int64, count=len(changed))
+        at = at[np.not_equal(found.decision[at], None)]
+        if not at.size:
+            return False
+        from fitcore.ledger.backtest import superseded_in
+        histories = self.histories
+        currents = [history.current if (history := histories.get(changed[s])) is not None else None
+                    for s in at.tolist()]
+        gone = superseded_in(found, currents, at)
+        if np.array_equal(gone, left_out[at]):
+            return False
+        left_out[at] = gone
+        self.base_diagnosis, self.backtest = without_shifted(diagnosis, left_out), found.without(left_out)
+        return True
 
     def backtest_of(self, s: int) -> dict | None:
         """Series ``s``'s backtest (``Backtest.record``): None when nothing was tested."""

@@ -32,7 +32,7 @@ series at once, grouped by the signed curve's family and size.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -142,6 +142,11 @@ class Backtest:
 
     def due(self, s: int, stops=(), has_model: bool = True, kept_override: bool | None = None) -> str | None:
         return due(self.record(s), stops, has_model, kept_override)
+
+    def without(self, where: np.ndarray) -> "Backtest":
+        """A copy that tested nothing where ``where`` ((S,) bool): a decision that no longer stands
+        (``elsewhere.StandingNow``), whose numbers speak of nothing standing."""
+        return replace(self, status=_untested(self.status, where), shifted=self.shifted & ~where)
 
     def counts(self) -> dict[str, int]:
         values, counts = np.unique(np.array([v for v in self.status if v is not None], dtype=object).astype(str),
@@ -378,6 +383,18 @@ class StoredBacktest:
     def __init__(self, columns: dict) -> None:
         self.columns = columns
 
+    @property
+    def decision(self) -> np.ndarray:
+        return self.columns["decision"]
+
+    @property
+    def carries(self) -> np.ndarray | None:  # (results made before it was kept: None)
+        return self.columns.get("carries")
+
+    def without(self, where: np.ndarray) -> "StoredBacktest":
+        """A copy that tested nothing where ``where`` ((S,) bool), as ``Backtest.without``."""
+        return StoredBacktest({**self.columns, "status": _untested(self.columns["status"], where)})
+
     def record(self, s: int) -> dict | None:
         if self.columns["status"][s] is None:
             return None
@@ -397,6 +414,13 @@ class StoredBacktest:
         return due(self.record(s), stops, has_model, kept_override)
 
 
+def _untested(status: np.ndarray, where: np.ndarray) -> np.ndarray:
+    """A backtest's ``status`` column with nothing tested (None) where ``where``."""
+    status = np.array(status, dtype=object)
+    status[np.asarray(where, dtype=bool)] = None
+    return status
+
+
 def within_one_se(cv_mse: np.ndarray, cv_se: np.ndarray, available: np.ndarray, c: int) -> bool:
     """Candidate ``c`` of one series (its candidates' CV errors, SEs, availability) is available and within one
     SE of the lowest CV error: an override that stays so is carried under another proposal."""
@@ -414,3 +438,25 @@ def cycle_of(results: Results, diagnosis, histories: dict, source: dict):
         return mark_shifted(diagnosis, found), found
     stored = getattr(results, "stored_backtest", None)
     return diagnosis, (StoredBacktest(stored) if stored else None)
+
+
+def superseded_in(found, currents, at: np.ndarray | None = None) -> np.ndarray:
+    """Whether each series' backtest (``found``: a ``Backtest`` or ``StoredBacktest``; ``at``: some series'
+    indices, else every series) tested a decision that no longer stands, given the current records of the
+    ledger's series (or of those series): ``elsewhere.StandingNow``, the rule ``show --ledger`` asks too."""
+    from .elsewhere import StandingNow
+    decision, carries = found.decision, found.carries
+    if at is not None:
+        decision, carries = decision[at], None if carries is None else carries[at]
+    return StandingNow(currents).superseded_of(decision, carries)
+
+
+def standing_cycle_of(results: Results, diagnosis, histories: dict, source: dict):
+    """``cycle_of`` less what the backtest tested of decisions that no longer stand (recorded since the fit: its
+    numbers and ``shifted`` flag speak of nothing standing), as ``show --ledger`` leaves them out."""
+    from ..review.flags import without_shifted
+    diagnosis, found = cycle_of(results, diagnosis, histories, source)
+    if found is None:
+        return diagnosis, None
+    gone = superseded_in(found, (history.current for history in histories.values()))
+    return (without_shifted(diagnosis, gone), found.without(gone)) if gone.any() else (diagnosis, found)

@@ -10,10 +10,18 @@ ledger no longer holds it — records cut from its end, an older copy put in its
 of the ledger (their backtest, what changed since the fit) speaks of records that are gone, while the chain
 itself verifies.  ``head_gone`` says it, for ``carry`` and ``export`` to refuse and ``show`` and ``report``
 to put first.
+
+Read with the same ledger, one series' backtest may still test a decision that no longer stands: a hold, a
+revoke, an accept or override recorded since the fit (in an open screen, by another analyst).  Its numbers and
+its ``shifted`` flag then speak of a decision nobody stands by: ``StandingNow`` is the one rule by which ``show
+--ledger``, ``ledger export``, the report and the screen (on opening, and as records arrive) leave them out.
 """
 from __future__ import annotations
 
+from collections.abc import Iterable
 from pathlib import Path
+
+import numpy as np
 
 from ..text import clean
 
@@ -48,9 +56,42 @@ def backtested_elsewhere(results: Path, header: dict, ledger_path: Path) -> str 
 
 
 def without_backtest(record: dict) -> dict:
-    """A results record less its backtest and its ``shifted`` flag (both of another ledger's signed curves)."""
+    """A results record less its backtest and its ``shifted`` flag (of another ledger's signed curves, or of a
+    decision that no longer stands: ``StandingNow``)."""
     flags = [flag for flag in record["flags"] if flag["code"] != "shifted"]
     return {**record, "backtest": None, "flags": flags}
+
+
+class StandingNow:
+    """The decisions standing now, for asking whether a backtest's tested decision is among them.
+
+    A backtest names the decision it tested by digest (``decision``) and the accept or override that decision
+    stands for (``carries``: itself, or what a carry carries; None in results made before it was kept).  That
+    decision still stands where it is a series' current record, or where the current record is a carry of what it
+    stands for (carried to newer data since the fit: the decision tested, standing on).  A digest names one
+    record of one series, so no series key is needed: ``currents`` are the current records (None: nothing
+    stands) of the ledger's series, or at least of those asked about."""
+
+    __slots__ = ("digests", "carried")
+
+    def __init__(self, currents: Iterable[dict | None]) -> None:
+        currents = [current for current in currents if current is not None]
+        self.digests = {current["digest"] for current in currents}
+        self.carried = {current.get("carries") for current in currents if current["action"] == "carry"}
+
+    def superseded(self, decision: str | None, carries: str | None = None) -> bool:
+        """Whether the backtest of ``decision`` (a digest; None: nothing tested) tested a decision that no
+        longer stands."""
+        if not decision:
+            return False
+        return decision not in self.digests and (carries or decision) not in self.carried
+
+    def superseded_of(self, decision, carries=None) -> np.ndarray:
+        """``superseded`` of each backtest: (n,) bool from its ``decision`` and ``carries`` (each n values; None
+        where nothing was tested, or not kept)."""
+        carries = [None] * len(decision) if carries is None else carries
+        return np.fromiter((self.superseded(d, c) for d, c in zip(decision, carries)), dtype=bool,
+                           count=len(decision))
 
 
 # What ``show`` and ``report`` add: they read on, the statuses from the ledger as it is now.

@@ -201,10 +201,13 @@ def _read_parquet(path: Path, filters=None, rows: tuple[int, int] | None = None,
         record_fields(row, cand, current)  # with controls: their fields, as the JSON layout has them
         cand.update(candidate_cycle_fields(row))
         current["candidates"].append(cand)
-        if row["is_chosen"] and row["plan_price"] is not None:
-            current["plan"] = {"price": row["plan_price"], "volume": row["plan_volume"], "lo": row["plan_lo"],
-                               "hi": row["plan_hi"], "level": meta["settings"]["level"],
-                               "elasticity": row["plan_elasticity"],
+        alone = current["chosen"] is None and len(current["candidates"]) == 1  # no model: its first row
+        if row["plan_price"] is not None and (row["is_chosen"] or alone):
+            # the chosen candidate's numbers; without one the price alone, as the JSON layout has it
+            at = row if row["is_chosen"] else dict.fromkeys(("plan_volume", "plan_lo", "plan_hi", "plan_elasticity"))
+            current["plan"] = {"price": row["plan_price"], "volume": at["plan_volume"], "lo": at["plan_lo"],
+                               "hi": at["plan_hi"], "level": meta["settings"]["level"],
+                               "elasticity": at["plan_elasticity"],
                                "inside_range": _inside(row["price_lo"], row["plan_price"], row["price_hi"])}
     for i, record in enumerate(series, start=first):
         check_series(path, i, record)

@@ -94,12 +94,14 @@ def series_records(results: Results, diagnosis=None, backtest=None) -> list[dict
 
 
 def _plan_record(results: Results, s: int, chosen: int) -> dict | None:
+    """The plan price and the chosen candidate's numbers there; without a chosen candidate the price alone
+    (its numbers null), as the Parquet rows hold it and the report shows it."""
     price = results.plan_price[s]
-    if not math.isfinite(price) or chosen < 0:
+    if not math.isfinite(price):
         return None
-    return {"price": _num(price), "volume": _num(results.plan_volume[s, chosen]),
-            "lo": _num(results.plan_lo[s, chosen]), "hi": _num(results.plan_hi[s, chosen]),
-            "level": results.settings.level, "elasticity": _num(results.plan_elasticity[s, chosen]),
+    at = (lambda values: _num(values[s, chosen])) if chosen >= 0 else (lambda values: None)  # noqa: E731
+    return {"price": _num(price), "volume": at(results.plan_volume), "lo": at(results.plan_lo),
+            "hi": at(results.plan_hi), "level": results.settings.level, "elasticity": at(results.plan_elasticity),
             "inside_range": bool(results.price_lo[s] <= price <= results.price_hi[s])}
 
 

@@ -119,11 +119,12 @@ def mark_shifted(diagnosis: Diagnosis, backtest) -> Diagnosis:
     return replace(diagnosis, raised=raised, numbers={**diagnosis.numbers, "backtest": backtest})
 
 
-def without_shifted(diagnosis: Diagnosis) -> Diagnosis:
-    """A copy of ``diagnosis`` with no ``shifted`` flag: a results file's backtest made against another ledger
-    (``fitcore.ledger.elsewhere``) says nothing of the signers of the ledger it is read with."""
+def without_shifted(diagnosis: Diagnosis, where: np.ndarray | None = None) -> Diagnosis:
+    """A copy of ``diagnosis`` with no ``shifted`` flag (``where``: (S,) bool, only there): a results file's
+    backtest made against another ledger (``fitcore.ledger.elsewhere``) says nothing of the signers of the ledger
+    it is read with, and one of a decision that no longer stands (``elsewhere.StandingNow``) nothing of what stands."""
     raised = diagnosis.raised.copy()
-    raised[:, CODES.index("shifted")] = False
+    raised[:, CODES.index("shifted")] = False if where is None else raised[:, CODES.index("shifted")] & ~where
     raised.flags.writeable = False
     return replace(diagnosis, raised=raised)
 

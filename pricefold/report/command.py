@@ -114,11 +114,12 @@ def open_book(path: Path) -> Book:
 
 def with_backtest(book: Book, view, ledger_path: Path, histories: dict):
     """``(diagnosis, backtest)``: the signed curves against the rows since sign-off, as the triage screen
-    shows them (``fitcore.ledger.backtest.cycle_of``): ``shifted`` joins the flags, and ``backtest``
-    (None: nothing tested) gives each stale series' numbers.  ``histories``: the ledger's replay."""
-    from fitcore.ledger.backtest import cycle_of
+    shows them (``fitcore.ledger.backtest.standing_cycle_of``): ``shifted`` joins the flags, and ``backtest``
+    (None: nothing tested) gives each stale series' numbers — neither where the decision tested no longer
+    stands.  ``histories``: the ledger's replay."""
+    from fitcore.ledger.backtest import standing_cycle_of
     source = {"path": str(ledger_path), "head": view.head, "state": view.state}
-    return cycle_of(book.results, book.diagnosis, histories, source)
+    return standing_cycle_of(book.results, book.diagnosis, histories, source)
 
 
 def guard_output(output: Path, inputs: list[tuple[str, Path | None]]) -> None:
