@@ -114,18 +114,19 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
         app.run()
     if app.failure is not None:
         raise PricefoldError(app.failure)
-    if app.return_code == 130:
+    if app.return_code == 130 and not app.note_lost:
         print("pricefold triage: interrupted before the list was shown; nothing was recorded", file=sys.stderr)
         return 130
-    if app.stopped_by is not None:  # a kill, or the terminal gone: one line where there is still somewhere to say it
-        import signal
+    if app.stopped_by is not None or app.note_lost:  # a kill, the terminal gone, or Ctrl+C dropping a typed note:
+        import signal  # one line where there is still somewhere to say it
+        how = f"stopped by {signal.Signals(app.stopped_by).name}" if app.stopped_by is not None else "interrupted"
         try:
-            print(f"pricefold triage: stopped by {signal.Signals(app.stopped_by).name}; "
+            print(f"pricefold triage: {how}; "
                   + (f"decisions are in {ledger_path}" if ledger_path.exists() else "nothing was recorded")
                   + (" (the note being typed was not recorded)" if app.note_lost else ""), file=sys.stderr)
         except OSError:
             pass
-        return 128 + app.stopped_by
+        return 128 + app.stopped_by if app.stopped_by is not None else 130
     if ledger_path.exists():  # after a failure before any decision there is no ledger to point to
         print(f"decisions are in {ledger_path}", file=sys.stderr)
     return app.return_code or 0
