@@ -132,6 +132,21 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
     return app.return_code or 0
 
 
+def accept_command(results: Path | None, data: Path, ledger_path: Path) -> str:
+    """The command that accepts the unflagged series of the screen's results into its ledger, as typed in this
+    shell (the screen says it where its list empties with such series pending); on a data file, which names no
+    results file, the fit that writes one first."""
+    import shlex
+
+    from .demo import typed_command
+    pricefold = typed_command()
+    accept = f"{pricefold} ledger accept-unflagged {{}} --ledger {shlex.quote(str(ledger_path))}"
+    if results is not None:
+        return accept.format(shlex.quote(str(results)))
+    return (f"{pricefold} fit {shlex.quote(str(data))} (with this screen's options) -o RESULTS, then "
+            + accept.format("RESULTS"))
+
+
 def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | None = None, prepare=None):
     """The app ``open_triage`` runs.  On stored results whose data file is gone (or too large to read here),
     the session opens from the stored numbers alone and says why there are no observations."""
@@ -142,9 +157,15 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
 
     from .ledger_cli import identity, ledger_key
     who, key = identity(analyst), ledger_key()
+    command = accept_command(stored or source.results, source.data, ledger_path)
     if stored is None:
         from tui.app import TriageApp
-        return TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
+
+        def fitted(progress):
+            session = open_session(source, ledger_path, who, key, progress)
+            session.accept_command = command
+            return session
+        return TriageApp(fitted)
     rows = read_header(stored).get("input", {}).get("rows") or 0
     unobserved = None
     if not source.found:
@@ -159,6 +180,7 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
 
     def opener(progress):
         session = open_stored_session(stored, ledger_path, who, key, progress, units=source.units)
+        session.accept_command = command
         session.warnings.extend(source.warnings)
         if unobserved is not None:
             session.unobserved = unobserved
