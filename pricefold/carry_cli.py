@@ -104,12 +104,17 @@ def held_keys(histories: dict) -> list[dict]:
 
 def plan_from_records(records, level: float, controls: list[str] | None = None,
                       overrides: frozenset = frozenset(), histories: dict | None = None, revised_ok: bool = False,
-                      cov_known: bool = True, fitted: dict | None = None) -> tuple[list[Carryable], Counter]:
+                      cov_known: bool = True, fitted: dict | None = None,
+                      thresholds=None) -> tuple[list[Carryable], Counter]:
     """Which series may be carried, from results records (JSON; small runs), and why the others may not
     (``newer_first``, ``left_for_human``, ``held_left``; ``overrides``: the digests of the ledger's overrides;
-    ``histories``: the ledger's; ``revised_ok``: ``--carry-revised``)."""
+    ``histories``: the ledger's; ``revised_ok``: ``--carry-revised``).  An override is judged by the flags of the
+    curve it makes stand (``carried_codes``, by the fit's ``thresholds``), and carried with them."""
     from fitcore.ledger.due import beyond_signed, carried_across, left_for_human
     from fitcore.ledger.snapshot import from_records
+    from fitcore.review.candidate_checks import carried_codes
+    from fitcore.review.thresholds import Thresholds
+    thresholds = thresholds or Thresholds()
     histories, records = histories or {}, list(records)
     stops, keep, left = stop_codes(), [], Counter()
     held = {series_id(key) for key in held_keys(histories)}
@@ -128,10 +133,11 @@ def plan_from_records(records, level: float, controls: list[str] | None = None,
             left[moved] += 1
         if moved is not None or bt is None:
             continue
-        codes = [f["code"] for f in record["flags"]]
+        codes = (carried_codes(record, bt["candidate"], thresholds) if bt["carries"] in overrides
+                 else [f["code"] for f in record["flags"]])
         near = near_best(record, bt["candidate"])
         why = left_for_human(bt["status"], "shifted" in codes, bool(set(codes) & stops), record["chosen"] is not None,
-                             bt["candidate"] != record["chosen"], bt["carries"] in overrides and near,
+                             bt["candidate"] != record["chosen"], near if bt["carries"] in overrides else None,
                              bool(bt.get("revised")), revised_ok,
                              beyond_signed(bt.get("price"), bt.get("planned"), bt.get("signed_price_lo"),
                                            bt.get("signed_price_hi")))
@@ -160,7 +166,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     from fitcore.ledger.due import FAILED, PASSED, beyond_signed, carried_across, left_for_human
     from fitcore.ledger.snapshot import from_results
     from fitcore.results.stored import stored_results
-    from fitcore.review.flags import CODES
+    from fitcore.review.flags import CODES, SEVERITY
     from fitcore.review.intervals import last_dates
     histories = histories or {}
     results, diagnosis = stored_results(path)
@@ -203,6 +209,9 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     with np.errstate(invalid="ignore"):
         near = (signed >= 0) & available[rows, at] & (cv_mse[rows, at] <= errors[rows, best] + cv_se[rows, best])
     override = np.array([d in overrides for d in bt["carries"][tested].tolist()], dtype=bool)
+    own = _overrides_own(results, diagnosis, tested, override, candidate)
+    for i, codes in own.items():  # an override is judged by the curve it makes stand
+        stop[i] = any(SEVERITY[code] == "stop" for code in codes)
     has_model = chosen[tested] >= 0
     changed = np.array([None if c < 0 else names[c] for c in chosen[tested].tolist()], dtype=object) != candidate
     revised = bt["revised"][tested].astype(bool) if "revised" in bt else np.zeros(len(tested), bool)  # (older results: none)
@@ -211,7 +220,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
                                                                   "signed_price_hi")))]  # (older results: not judged)
     why = [left_for_human(*args)
            for args in zip(status[tested].tolist(), shifted.tolist(), stop.tolist(), has_model.tolist(),
-                           changed.tolist(), (override & near).tolist(), revised.tolist(), [revised_ok] * len(tested),
+                           changed.tolist(), np.where(override, near, None).tolist(), revised.tolist(), [revised_ok] * len(tested),
                            beyond)]
     untested = np.flatnonzero(~np.isin(status[tested].astype(str), [PASSED, FAILED]))
     for i, key, fingerprint, last in zip(untested.tolist(), *series_of(tested[untested])):
@@ -219,6 +228,7 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     left.update(w for w in why if w is not None)
     mask = np.array([w is None for w in why], dtype=bool) & (signed >= 0)
     ok, signed, near, revised = tested[mask], signed[mask], near[mask], revised[mask]
+    own = {j: own[i] for j, i in enumerate(np.flatnonzero(mask).tolist()) if i in own}  # by place in ``ok``
     if not len(ok):
         return [], left
     snapshots: list = [None] * len(ok)
@@ -235,13 +245,29 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
     across_columns = [name for name in ("signed_price", "price", "planned", "settings_changed") if name in bt]
     across = [tuple(carried_across(dict(zip(across_columns, values))))
               for values in zip(*(bt[name][ok].tolist() for name in across_columns))] or [()] * len(ok)
-    plan = [Carryable(key, fingerprint, chosen_name, list(codes[w]), latest, candidate, carries, close, snapshot, moved,
-                      over)
-            for key, fingerprint, chosen_name, w, latest, candidate, carries, close, snapshot, moved, over in
-            zip(keys, fingerprints, chosen_names, which.reshape(-1).tolist(), bt["latest"][ok].tolist(),
-                bt["candidate"][ok].tolist(), bt["carries"][ok].tolist(), near.tolist(), snapshots, revised.tolist(),
-                across)]
+    plan = [Carryable(key, fingerprint, chosen_name, list(own.get(i, codes[w])), latest, candidate, carries, close,
+                      snapshot, moved, over)
+            for i, (key, fingerprint, chosen_name, w, latest, candidate, carries, close, snapshot, moved, over) in
+            enumerate(zip(keys, fingerprints, chosen_names, which.reshape(-1).tolist(), bt["latest"][ok].tolist(),
+                          bt["candidate"][ok].tolist(), bt["carries"][ok].tolist(), near.tolist(), snapshots,
+                          revised.tolist(), across))]
     return plan, left
+
+
+def _overrides_own(results, diagnosis, tested, override, candidate) -> dict:
+    """Place in ``tested`` → the flag codes of the curve an override would make stand there (``carried_codes_in``:
+    its own where it is another candidate than the proposal), for each series of ``tested`` whose signed decision
+    is an ``override`` (a few: asked one by one); the proposal's flags stand for every other series."""
+    import numpy as np
+
+    from fitcore.review.candidate_checks import carried_codes_in
+    from fitcore.review.flags import CODES
+    out = {}
+    for i in np.flatnonzero(override).tolist():
+        s = int(tested[i])
+        codes = [code for code, hit in zip(CODES, diagnosis.raised[s]) if hit]
+        out[i] = carried_codes_in(results, s, candidate[i], codes, diagnosis.thresholds, diagnosis.controls_outside(s))
+    return out
 
 
 def _decided(histories: dict, keys, fingerprints) -> np.ndarray:
@@ -331,10 +357,12 @@ def _carry(args) -> int:
     else:
         from fitcore.ledger.snapshot import fit_terms, header_terms  # numpy and the families: not for every --help
         from fitcore.results.control_fields import cov_known
+        from fitcore.review.thresholds import recorded_thresholds
         settings = header["settings"]
         plan, left = plan_from_records(read_results(args.results)[1], settings.get("level", 0.95),
                                        header_terms(settings), overrides, book.histories, args.carry_revised,
-                                       cov_known(settings), fit_terms(settings))
+                                       cov_known(settings), fit_terms(settings),
+                                       recorded_thresholds(settings.get("thresholds"), args.results))
     gone = head_gone(args.results, header, book.records, args.ledger)
     if gone:  # its backtest read records that are gone: carrying on it would supersede what it never read
         raise ledger.LedgerError(f"{gone}; nothing was carried")

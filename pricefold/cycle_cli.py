@@ -20,11 +20,13 @@ from .ledger_cli import key_mismatch, meets, open_ledger, say_missing, say_unche
 from .show import key_parts
 
 
-def ledger_state(record: dict, book, short: bool = False, fitted: bool = False) -> tuple[str, str | None]:
+def ledger_state(record: dict, book, short: bool = False, fitted: bool = False, thresholds=None,
+                 full=None) -> tuple[str, str | None]:
     """(status in the ledger, what it needs) of a results record (``short``: for the list's column; ``fitted``: the
     results were fitted with --ledger on this ledger).  What the ledger's records say first (``recorded_due``:
     decided on newer data, held, changed since the fit, revoked), as carry counts it and the screen says it;
-    else the results' backtest."""
+    else the results' backtest, an override's stop flags those of the curve it makes stand (``due_codes``;
+    ``thresholds()``: the fit's, ``full()``: the whole record where ``record`` holds no candidates)."""
     from fitcore.ledger.due import carried_across, due, recorded_due
     history = book.histories.get(series_id(record["key"]))
     status = history.status(record["fingerprint"]) if history else "pending"
@@ -37,16 +39,32 @@ def ledger_state(record: dict, book, short: bool = False, fitted: bool = False) 
                          record.get("backtest"), fitted, short)
     if needs is None and record.get("backtest"):
         bt = record["backtest"]
-        stops = [f["code"] for f in record["flags"] if f["code"] in stop_codes()]
+        override = _carried_action(history, bt.get("carries")) == "override"
+        stops = [code for code in due_codes(record, bt.get("candidate"), override, thresholds, full)
+                 if code in stop_codes()]
         near = bt["signed_near_best"] if "signed_near_best" in bt else (  # results made before it was kept
             "candidates" in record and near_best(record, bt.get("candidate")))
-        kept = _carried_action(history, bt.get("carries")) == "override" and bool(near)
+        kept = bool(near) if override else None
         needs = due(bt, stops, record["chosen"] is not None, kept)
         if not short:  # what a carry would carry it across besides new rows, said in its note too
             needs = "; ".join([needs, *carried_across(bt)])
     if needs is None:  # these results hold no backtest of it
         needs = "not backtested" if short else "no backtest in these results (fit with --ledger)"
     return status, needs
+
+
+def due_codes(record: dict, model: str | None, override: bool, thresholds=None, full=None) -> list[str]:
+    """The flag codes whose stop flags a stale series is due by (``due.left_for_human``): where the decision its
+    backtest tested is an ``override`` (of ``model``), those of the curve a carry would make stand on these data
+    (``candidate_checks.carried_codes``, as ``ledger carry`` judges and records them); else the results' (its
+    proposal's).  ``thresholds()``: the fit's (None: pricefold's defaults); ``full()``: the whole record where
+    ``record`` holds no candidates (a Parquet list)."""
+    if not override:
+        return [f["code"] for f in record["flags"]]
+    from fitcore.review.candidate_checks import carried_codes
+    from fitcore.review.thresholds import Thresholds
+    whole = record if "candidates" in record or full is None else full()
+    return carried_codes(whole, model, thresholds() if thresholds else Thresholds())
 
 
 def standing_decision(record: dict, book) -> dict | None:
@@ -178,8 +196,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
     records = [without_backtest(record) if gone else record for record, gone in zip(records, replaced)]
     thresholds = lru_cache(lambda: recorded_thresholds(((header or {}).get("settings") or {}).get("thresholds"),
                                                        results))  # the fit's, as the export judges by
-    standing = [standing_flags(record, book, thresholds, (lambda i=i: full(i)) if full else None)
-                for i, record in enumerate(records)]
+    wholes = [(lambda i=i: full(i)) if full else None for i in range(len(records))]  # an override's candidates
+    standing = [standing_flags(record, book, thresholds, whole) for record, whole in zip(records, wholes)]
     say_unchecked("pricefold show", results, sum(not checked for _, checked, _ in filter(None, standing)))
     listed = [record if mine is None else {**record, "flags": mine[0], "score": mine[2]}
               for record, mine in zip(records, standing)]
@@ -198,12 +216,12 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
                       f"(fit again with --ledger {ledger_path})", file=sys.stderr)
             return None
         records, replaced = [records[i] for i in kept], [replaced[i] for i in kept]
-        listed, standing = [listed[i] for i in kept], [standing[i] for i in kept]
+        listed, standing, wholes = [listed[i] for i in kept], [standing[i] for i in kept], [wholes[i] for i in kept]
         if len(kept) == 1 and full is not None and "candidates" not in records[0]:  # in full: its whole record
             records = [without_backtest(full(kept[0])) if replaced[0] or foreign else full(kept[0])]
     if len(records) == 1:
         record = records[0]  # in full: the results' proposal, the override's own flags said apart below
-        status, needs = ledger_state(record, book, fitted=fitted)
+        status, needs = ledger_state(record, book, fitted=fitted, thresholds=thresholds, full=wholes[0])
         shown = looks_shown([record], like) or {0: told_apart([key_parts(record["key"])], beside)[0]}
         label = SEPARATOR.join(shown[0])
         weight = ((header or {}).get("settings", {}).get("columns") or {}).get("weight")
@@ -234,7 +252,8 @@ def show_with_ledger(records: list[dict], ledger_path: Path, binary=(), header: 
             from fitcore.review.plan_words import caution_of
             lines += ["", caution_of((header or {}).get("settings") or {})]
         return "\n".join(lines)
-    state_of = {id(record): ledger_state(record, book, short=True, fitted=fitted) for record in listed}
+    state_of = {id(record): ledger_state(record, book, short=True, fitted=fitted, thresholds=thresholds, full=whole)
+                for record, whole in zip(listed, wholes)}
     # a stale series ranks as the screen ranks it: its 'stale' one stop flag more
     ordered = in_attention_order(listed, first, stale=[state_of[id(record)][0] == "stale" for record in listed])
     labels = key_cells([record["key"] for record in ordered], shown=looks_shown(ordered, like), beside=beside)

@@ -96,7 +96,7 @@ def refuse_not_a_ledger(path: Path) -> None:
         return
     try:
         said = json.loads(first) if first.strip() else {"digest": None}
-    except ValueError:
+    except (ValueError, RecursionError):
         said = None
     if isinstance(said, dict) and "digest" in said:
         return

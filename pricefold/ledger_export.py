@@ -172,9 +172,11 @@ def run_export(args) -> int:
         payload = buffer.getvalue().encode("utf-8")
         try:
             sys.stdout.flush()
-            try:
-                fd = sys.stdout.fileno()
+            try:  # closed by the shell (``>&-``): its descriptor is the null device, its writes fail (exit 74)
+                fd = -1 if getattr(sys.stdout, "closed_by_shell", False) else sys.stdout.fileno()
             except (AttributeError, OSError, ValueError):  # (io.UnsupportedOperation: a stream with no descriptor)
+                fd = -1
+            if fd < 0:
                 sys.stdout.write(payload.decode("utf-8"))
             else:
                 left = memoryview(payload)

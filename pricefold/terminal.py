@@ -9,11 +9,16 @@ import sys
 def require_terminal(command: str) -> None:
     """``SettingsError`` in one line unless standard input and output are a terminal: a screen drawn into a
     pipe would wait for a key nobody can press.  ``command``: what needs it, as the line says it."""
+    import os
+    from fitcore.errors import SettingsError
     if not all(stream is not None and stream.isatty() for stream in (sys.stdin, sys.stdout)):
-        from fitcore.errors import SettingsError
         raise SettingsError(f"{command} needs a terminal (standard input and output); in scripts, "
                             "'pricefold fit', 'pricefold show' and 'pricefold ledger' read and write results and "
                             "decisions")
+    if os.environ.get("TERM") == "dumb":  # (an editor's shell buffer, a CI log): it would get escapes as text
+        raise SettingsError(f"{command} needs a terminal that can draw a screen, and TERM is 'dumb' here; set TERM "
+                            "to the terminal's type (e.g. TERM=xterm-256color) or read the results with "
+                            "'pricefold show'")
 
 
 @contextlib.contextmanager

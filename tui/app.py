@@ -87,7 +87,9 @@ class TriageApp(App):
     # Ctrl+C ends the app, as it ends any command in a terminal (Textual's own binding only says to press
     # ctrl+q, a key the footer never shows), also while the data are read and fitted; a text field that
     # takes Ctrl+C itself (copy) keeps it.
-    BINDINGS = [Binding("ctrl+c", "interrupt", "quit", show=False)]
+    # Ctrl+Z puts the screen in the background as it does any command (``fg`` brings it back; Textual binds none).
+    BINDINGS = [Binding("ctrl+c", "interrupt", "quit", show=False),
+                Binding("ctrl+z", "suspend_process", "background", show=False)]
     key_lost_at = -1.0  # when a printable key was last taken by nothing (``on_key``)
 
     def on_key(self, event) -> None:
@@ -122,6 +124,25 @@ class TriageApp(App):
         self.note_lost = False  # a note box was open when a signal ended it (held text when Ctrl+C did)
         self._mounted = threading.Event()  # progress reaches the loading screen once there is one
         self.opening.report_to(self._progressed)
+
+    def action_suspend_process(self) -> None:
+        """Ctrl+Z: the terminal's own stop, sent as the terminal sends it — to the whole foreground job.  Textual's
+        stops this process alone: under a wrapper (``bash -c``, a script) the screen went and the shell never came
+        back, its job still running.  The driver's handler leaves the screen, then stops the process."""
+        import os
+        import signal
+        driver = self._driver
+        if os.name != "posix" or driver is None or not driver.can_suspend:
+            return
+        self.app_suspend_signal.publish(self)
+        # the screen left while this job still owns the terminal (stopped first, the shell takes the terminal
+        # back and the screen's last writes would stop it mid-way); then the job stopped as the terminal would
+        driver.suspend_application_mode()
+        handler = signal.signal(signal.SIGTSTP, signal.SIG_DFL)
+        try:
+            os.killpg(os.getpgrp(), signal.SIGTSTP)
+        finally:  # continued (fg): the driver's SIGCONT handler has put the screen back
+            signal.signal(signal.SIGTSTP, handler)
 
     def action_interrupt(self) -> None:
         """Ctrl+C: while the session still opens (reading, fitting) the command was interrupted, as a fit's

@@ -32,6 +32,7 @@ KEYS = [
           "the fitted curve gives, not what that week would have sold)"),
     ("?", "this help"),
     ("q, Ctrl+C", "quit (every decision is already in the ledger)"),
+    ("Ctrl+Z", "to the shell (fg brings the screen back)"),
 ]
 
 YOU_DECIDE = "pricefold proposes a curve; you decide, and the ledger records that you did."

@@ -2,8 +2,8 @@
 signed series whose data changed is due (no widget).
 
 A mixin of ``TriageSession``, which gives it ``results``, ``keys``, ``status``, ``status_code``, ``histories``,
-``backtest``, ``_id``, ``result_flags``, ``flag_codes``, ``diagnosis``, ``last_date`` and ``accepted_other_mask``
-(kept by ``mark_accepted_other``).
+``backtest``, ``_id``, ``result_flags``, ``flag_codes``, ``diagnosis``, ``base_diagnosis``, ``last_date`` and
+``accepted_other_mask`` (kept by ``mark_accepted_other``).
 """
 from __future__ import annotations
 
@@ -43,10 +43,25 @@ class Standing:
             near = record["signed_near_best"] if "signed_near_best" in record else (  # results made before it
                 c >= 0 and within_one_se(np.asarray(results.cv_mse[s], dtype=float),
                                          np.asarray(results.cv_se[s], dtype=float), np.asarray(results.available[s]), c))
-            kept = decision is not None and decision["action"] == "override" and bool(near)
-            stops = [code for code in self.result_flags(s) if SEVERITY[code] == "stop"]
+            override = decision is not None and decision["action"] == "override"
+            kept = bool(near) if override else None
+            stops = [code for code in self.due_codes(s, record["candidate"] if override else None)
+                     if SEVERITY[code] == "stop"]
             found = self.backtest.due(s, stops, bool(results.chosen[s] >= 0), kept)
         return found or "a new look (no backtest here)"
+
+    def due_codes(self, s: int, override: str | None) -> list[str]:
+        """The flag codes whose stop flags stale series ``s`` is due by: where the decision its backtest tested is an
+        override (of the model ``override``), those of the curve a carry would make stand on these data
+        (``candidate_checks.carried_codes_in``, as ``ledger carry`` judges them and ``show --ledger`` says them);
+        else the results' (``result_flags``: its proposal's)."""
+        codes = list(self.result_flags(s))
+        if override is None:
+            return codes
+        from fitcore.review.candidate_checks import carried_codes_in
+        diagnosis = self.base_diagnosis
+        return carried_codes_in(diagnosis.results, s, override, codes, diagnosis.thresholds,
+                                diagnosis.controls_outside(s))
 
     def decided_on_newer(self, s: int) -> bool:
         """Whether the decision standing on series ``s`` was made on newer data than these results' rows: the

@@ -248,6 +248,8 @@ def check_columns(path: Path, found: list[str], columns: Columns) -> None:
         if name not in found:
             close = difflib.get_close_matches(name, found, n=1)
             hint = f"; did you mean {quoted(close[0])}?" if close else ""
+            if "plan_price" in found and columns.volume not in found:  # the plan given as the data
+                hint = "; it reads like a plan file (a 'plan_price' column, no volume): give it with --plan"
             raise DataError(f"expected a column {quoted(name)}, found {header_names(found)}{hint}",
                             path=str(path), line=1, column=name)
     first: dict[str, int] = {}

@@ -102,6 +102,9 @@ class FoldScheme:
         """(S,) how many held-out errors each series gets (one per fold, or one per row)."""
         raise NotImplementedError
 
+    def check_rows(self, counts: np.ndarray) -> None:
+        """``SettingsError`` where the scheme asks more of the series' row counts than any has (none here)."""
+
     def held_out(self, family, work):
         """The family's held-out errors for this scheme (``family.fold_errors`` or ``family.row_errors``)."""
         raise NotImplementedError
@@ -155,6 +158,15 @@ class KFold(FoldScheme):
 
     def error_counts(self, counts):
         return np.full(len(counts), self.k, dtype=np.int64)
+
+    def check_rows(self, counts: np.ndarray) -> None:
+        """``SettingsError`` where no series has the rows for this many folds: every one would be left without
+        a model, and the held-out errors' table (K a series) alone can take more memory than the machine has
+        (``--folds 1000000000`` on 624 rows asked numpy for 44.7 GiB; 100000 ran 10 minutes: a trial)."""
+        longest = int(counts.max()) if len(counts) else 0
+        if len(counts) and self.k > longest:
+            raise SettingsError(f"--folds {self.k:,} is more folds than the longest series has rows ({longest:,}); "
+                                f"give at most {longest:,}, or 'loo' (leave-one-out)")
 
     def held_out(self, family, work):
         return family.fold_errors(work)

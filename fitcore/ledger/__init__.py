@@ -61,7 +61,7 @@ def parse(data: bytes) -> tuple[list[dict], list[Problem]]:
             record = json.loads(line)
             if not isinstance(record, dict):
                 raise ValueError
-        except ValueError:
+        except (ValueError, RecursionError):  # (nested past the parser's depth)
             problems.append(Problem(number, "not a valid JSON record"))
             continue
         records.append(record)

@@ -140,7 +140,7 @@ class Backtest:
             out[name] = value
         return out
 
-    def due(self, s: int, stops=(), has_model: bool = True, kept_override: bool = False) -> str | None:
+    def due(self, s: int, stops=(), has_model: bool = True, kept_override: bool | None = None) -> str | None:
         return due(self.record(s), stops, has_model, kept_override)
 
     def counts(self) -> dict[str, int]:
@@ -393,7 +393,7 @@ class StoredBacktest:
             out[name] = value
         return out
 
-    def due(self, s: int, stops=(), has_model: bool = True, kept_override: bool = False) -> str | None:
+    def due(self, s: int, stops=(), has_model: bool = True, kept_override: bool | None = None) -> str | None:
         return due(self.record(s), stops, has_model, kept_override)
 
 

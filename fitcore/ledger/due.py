@@ -43,17 +43,23 @@ def beyond_signed(price, planned, lo, hi) -> bool:
     return bool(math.isfinite(lo) and math.isfinite(hi) and outside_prices(price, lo, hi))
 
 
+# an override's curve no longer fitted here, or beyond one SE of the lowest CV error: not carried
+OVERRIDE_FAR = "override not within one SE"
+
+
 def left_for_human(status: str, shifted: bool, stops, has_model: bool, shape_changed: bool,
-                   kept_override: bool = False, revised: bool = False, revised_ok: bool = False,
+                   kept_override: bool | None = None, revised: bool = False, revised_ok: bool = False,
                    beyond: bool = False) -> str | None:
     """Why a series whose standing decision was made on other data is not carried to them (None: ``ledger
     carry`` carries it), the first that holds: its backtest did not pass, the rows it was signed on were
     ``revised`` (unless ``revised_ok``: ``ledger carry --carry-revised``, for a rolling window — rows restated
     or re-dated could pass for rows since), ``shifted``, a stop flag (``stops``: its stop flags' codes, or a
-    bool), this plan's price beyond the prices the curve was signed on (``beyond``: ``beyond_signed``), no
-    curve proposed (``has_model``), or the signed shape is not this cycle's proposal (``shape_changed``) —
+    bool — of the curve a carry would make stand, an override's own: ``candidate_checks.carried_codes``), this
+    plan's price beyond the prices the curve was signed on (``beyond``: ``beyond_signed``), no curve proposed
+    (``has_model``), or the signed shape is not this cycle's proposal (``shape_changed``) —
     unless the decision carried is an override whose curve is still available and within one SE of the lowest
-    CV error (``kept_override``).  The one rule: carry counts by it, ``show --ledger`` and the screen say it as
+    CV error (``kept_override``: True; False for an override that is not, said as such — its shape was never the
+    proposal —; None where the decision carried is no override).  The one rule: carry counts by it, ``show --ledger`` and the screen say it as
     what is due (``due``)."""
     if status != PASSED:
         return UNTESTED.get(status, status)
@@ -68,11 +74,11 @@ def left_for_human(status: str, shifted: bool, stops, has_model: bool, shape_cha
     if not has_model:
         return "no candidate"
     if shape_changed and not kept_override:
-        return "proposal changed"
+        return "proposal changed" if kept_override is None else OVERRIDE_FAR
     return None
 
 
-def due(record: dict | None, stops=(), has_model: bool = True, kept_override: bool = False) -> str | None:
+def due(record: dict | None, stops=(), has_model: bool = True, kept_override: bool | None = None) -> str | None:
     """What a signed series whose data changed needs, in a few words, from its stored backtest (None:
     nothing was tested: no decision, or one on this very data): why carry leaves it (``left_for_human``,
     a stop flag with its codes), else "backtest passed"."""

@@ -90,6 +90,6 @@ def parse_lines(lines: list[bytes], chunk: bytes | None = None) -> list[dict | N
 def _parse_one(line: bytes) -> dict | None:
     try:
         value = json.loads(line)
-    except ValueError:
+    except (ValueError, RecursionError):  # nested past the parser's depth (a hostile line): not a record
         return None
     return value if type(value) is dict else None

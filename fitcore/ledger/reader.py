@@ -377,7 +377,7 @@ def _unended(torn: bytes, prev: str) -> bool:
     import json
     try:
         record = json.loads(torn)
-    except ValueError:
+    except (ValueError, RecursionError):
         return False
     return isinstance(record, dict) and record.get("prev") == prev and isinstance(record.get("digest"), str)
 

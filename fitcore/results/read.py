@@ -57,6 +57,9 @@ def read_results(path: str | Path) -> tuple[dict, list[dict]]:
         except (UnicodeDecodeError, json.JSONDecodeError) as exc:
             raise DataError(f"expected a pricefold results file, could not read it as JSON ({exc})",
                             path=str(path)) from None
+        except RecursionError:  # (a hostile file: arrays nested past the parser's depth)
+            raise DataError("expected a pricefold results file, could not read it as JSON (nested too deeply)",
+                            path=str(path)) from None
         check_schema(path, document)
         check_header(path, document, "series")
         series = document.pop("series")

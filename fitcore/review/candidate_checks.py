@@ -7,7 +7,8 @@ through its family's curve on a fine grid over the observed prices.  ``curve_che
 curve given by its numbers, ``candidate_checks`` for a candidate of ``Results`` (the override dialog): one
 computation for both.  ``standing_codes`` gives the flags of a series where another candidate than the proposal
 stands (an override), from a results record's candidate or the decision's signed curve: what ``ledger export``,
-``show --ledger`` and the report say of it.
+``show --ledger`` and the report say of it; ``carried_codes`` those of the curve a carry of a decision signed on
+other data would make stand on new data, by which ``ledger carry``, ``show --ledger`` and the screen judge it.
 """
 from __future__ import annotations
 
@@ -148,3 +149,30 @@ def standing_codes_in(results: Results, s: int, model: str, codes, snapshot: dic
     price = float(results.plan_price[s])
     return standing_codes(codes, None, snapshot, price if math.isfinite(price) else None, float(results.price_lo[s]),
                           float(results.price_hi[s]), thresholds)[0]
+
+
+def carried_codes(record: dict, model: str | None, thresholds: Thresholds) -> list[str]:
+    """The flag codes by which a decision signed on other data that makes ``model`` stand is carried to the data of a
+    results ``record`` (the JSON layout; ``thresholds``: its fit's) or left for a person: those of the curve a carry
+    would make stand, as it shows them once carried — the record's own (its proposal's) where ``model`` is the
+    proposal, else that candidate's (``standing_codes``: the series' data flags kept, its own curve checked).
+    Where the record holds no fitted curve of ``model`` (not fitted, not available, no ``basis``: written before
+    it), nothing a carry could make stand: the proposal's.  ``ledger carry`` judges its stop flags by them and
+    records them, ``show --ledger`` says them as due (``due.left_for_human``); ``carried_codes_in`` for ``Results``."""
+    codes = [flag["code"] for flag in record["flags"]]
+    cand = next((c for c in record.get("candidates") or () if c["name"] == model), None)
+    if model == record["chosen"] or cand is None or not cand["available"] or not cand.get("basis"):
+        return codes
+    lo, hi = record.get("price_range") or (None, None)
+    return standing_codes(codes, cand, None, (record.get("plan") or {}).get("price"), lo, hi, thresholds)[0]
+
+
+def carried_codes_in(results: Results, s: int, model: str | None, codes, thresholds: Thresholds,
+                     controls_outside: bool) -> list[str]:
+    """``carried_codes`` of series ``s`` of ``Results`` (``codes``: its proposal's, in the order of ``flags.CODES``):
+    the override dialog's checks of candidate ``model`` (``standing_codes_in``) where these results fitted it and it
+    is not the proposal; else ``codes``.  The screen's due and ``ledger carry`` on Parquet results go by it."""
+    c = results.names.index(model) if model in results.names else -1
+    if c < 0 or c == int(results.chosen[s]) or not results.available[s, c]:
+        return list(codes)
+    return standing_codes_in(results, s, model, codes, None, thresholds, controls_outside)

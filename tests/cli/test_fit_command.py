@@ -144,10 +144,14 @@ def test_non_numeric_cell_is_rejected_with_its_line_or_fails_when_strict(tmp_pat
     (["--plan-price", "-3"], "expected --plan-price to be a number above zero, got -3"),
     (["--plan-price", "inf"], "expected --plan-price to be a price of at most 1e15, got inf"),
     (["--plan-price", "nan"], "expected --plan-price to be a number above zero, got nan"),
+    # the longest series of the sample by product has 312 rows (3 regions × 104 weeks); a billion folds asked numpy for 44.7 GiB (a trial)
+    (["--folds", "313"], "--folds 313 is more folds than the longest series has rows (312)"),
+    (["--folds", "1000000000"], "--folds 1,000,000,000 is more folds than the longest series has rows (312)"),
 ])
 def test_bad_settings_are_one_line(tmp_path, args, message):
     done = run_cli("fit", str(SAMPLE / "wholesale.csv"), "-o", str(tmp_path / "r.json"), *args)
     assert done.returncode == 2 and message in done.stderr and "Traceback" not in done.stderr
+    assert done.stderr.count("\n") == 1 and not (tmp_path / "r.json").exists()
 
 
 def test_missing_file_and_unknown_extension(tmp_path):

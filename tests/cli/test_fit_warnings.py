@@ -257,3 +257,22 @@ def test_the_status_line_fits_the_terminal_and_a_dumb_terminal_gets_none(tmp_pat
     monkeypatch.setattr("sys.stderr", err)
     assert main(["fit", str(data), "--segment", "region", "-o", str(tmp_path / "r.json")]) == 0
     assert "\x1b" not in err.getvalue() and "\r" not in err.getvalue() and "fitted 6 series" in err.getvalue()
+
+
+def test_a_large_json_write_says_parquet_is_faster(tmp_path, monkeypatch):
+    """800k rows written as JSON took 11–12 s after a 2 s fit with only 'writing big.json …' on screen (a trial):
+    past ``JSON_SERIES`` series the line says JSON is slow; a Parquet output, or fewer series, not."""
+    import io
+
+    class Terminal(io.StringIO):
+        def isatty(self) -> bool:
+            return True
+    data = write(tmp_path / "d.csv", sample_rows()[:600])
+    said = {}
+    for limit, out in ((1, "r.json"), (1, "r.parquet"), (10_000, "s.json")):
+        monkeypatch.setattr("pricefold.fit_run.JSON_SERIES", limit)
+        err = Terminal()
+        monkeypatch.setattr("sys.stderr", err)
+        assert main(["fit", str(data), "--segment", "region", "-o", str(tmp_path / out)]) == 0
+        said[out] = "Parquet is faster" in err.getvalue()
+    assert said == {"r.json": True, "r.parquet": False, "s.json": False}

@@ -155,6 +155,17 @@ def test_a_passed_backtest_under_a_new_proposal_is_due_a_look():
     assert due({"status": PASSED, "shifted": False, "shape_changed": False}) == "backtest passed"
 
 
+def test_an_override_beyond_one_se_is_said_so_not_proposal_changed():
+    """An override's shape was never the proposal: where its curve is no longer within one SE of the lowest CV
+    error, that is why carry leaves it (a trial read "proposal changed" under an override of loglog over poly3
+    whose proposal had become poly4); within one SE it is carried."""
+    from fitcore.ledger.due import OVERRIDE_FAR, due
+    passed = {"status": PASSED, "shifted": False, "shape_changed": True}
+    assert due(passed, kept_override=False) == OVERRIDE_FAR == "override not within one SE"
+    assert due(passed, kept_override=True) == "backtest passed"
+    assert due(passed, kept_override=None) == "proposal changed"
+
+
 @pytest.mark.parametrize("change, tilt, proposed, signed_volume, said", [
     (-0.004, 0.0831, 1037.0, 1041.0, "(0% on the signed curve; its elasticity differs by +0.08)"),
     (-0.004, -0.0051, 1037.0, 1041.0, "(0% on the signed curve; its elasticity differs by −0.01)"),

@@ -86,6 +86,7 @@ def zipped(content: bytes) -> bytes:
     (b"", "the file is empty"),
     (b"product,price,volume\n", "expected at least one observation, found only a header"),
     (b"product,prcie,volume\na,1,2\n", "expected a column 'price', found 'product', 'prcie', 'volume'; did you mean 'prcie'?"),
+    (b"product,plan_price\na,1\n", "it reads like a plan file (a 'plan_price' column, no volume): give it with --plan"),
     (b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR", "binary file"),
     ("product,price,volume\na,1,2\n".encode("utf-16"), "this is UTF-16 text (its byte-order mark says so): save it as UTF-8"),
     (b"product,price,volume\na,1,2\na,1\x00,2\n", "line 3 holds a NUL byte (0x00)"),

@@ -85,6 +85,12 @@ CASES = [
     Case("dask-output-folder-missing-parent", "fit d.csv -o no/such/out --engine dask --quiet", D, 2,
          "no such folder"),
     Case("dask-workers-zero", "fit d.csv -o out --engine dask --workers 0 --quiet", D, 2, "at least 1"),
+    # -- JSON nested past the parser's depth: one line, as any line that is not a record (a hostile trial) --
+    Case("accept-deeply-nested-line", "ledger accept-unflagged r.json --ledger L.jsonl",
+         {"d.csv": "good", "r.json": "fit:d.csv", "L.jsonl": "deepledger:r.json"}, 2, "line 2: not a valid JSON record"),
+    Case("export-deeply-nested-line", "ledger export L.jsonl --results r.json -o out.csv",
+         {"d.csv": "good", "r.json": "fit:d.csv", "L.jsonl": "deepledger:r.json"}, 2, "line 2: not a valid JSON record"),
+    Case("show-deeply-nested-results", "show r.json", {"r.json": "deep_json"}, 2, "nested too deeply"),
     Case("export-over-its-ledger", "ledger export L.jsonl --results r.json -o L.jsonl", RL, 2, "is also an input"),
     Case("export-over-results", "ledger export L.jsonl --results r.json -o r.json", RL, 2, "is also an input"),
     Case("export-over-data", "ledger export L.jsonl --results r.json -o d.csv", RL, 2, "is also an input"),

@@ -10,6 +10,8 @@ A case names each file it needs and how to make it (``make(folder, name, how)``)
     damaged:HOW       results of ``fit d.csv`` as JSON, then ``DAMAGE[HOW]`` applied to the document
     pdamaged:HOW      results of ``fit d.csv`` as Parquet, then ``PDAMAGE[HOW]`` applied to the table
     ledger:RESULTS    a ledger holding ``accept-unflagged RESULTS``
+    deepledger:RESULTS  the same with a line of arrays nested 1,100 deep after its first (a RecursionError in
+                      the standard library's parser, where orjson gives up at 1,024)
     gz:KEY            TEXT[KEY] gzipped                  cut:KEY           TEXT[KEY] gzipped, then cut short
 """
 from __future__ import annotations
@@ -206,6 +208,7 @@ TEXT: dict[str, bytes] = {
     "toml_unknown_table": b"[colums]\nprice = 'p'\n",
     "toml_good_as_json_name": b"[fit]\nseed = 1\n",
     "notes_json": b'{"mine": 1}\n',
+    "deep_json": b"[" * 1100 + b"]" * 1100 + b"\n",
     "notes_csv": b"who,what\nme,my notes\n",
     "ledger_text": b'{"schema":"pricefold-ledger/1","seq":1}\n',
     "results_text_list": b"[]",
@@ -373,5 +376,9 @@ def make(folder: Path, name: str, how: str, run) -> None:
         pq.write_table(PDAMAGE[arg](pa, table), path)
     elif kind == "ledger":
         assert run(["ledger", "accept-unflagged", arg, "--ledger", name]) == 0
+    elif kind == "deepledger":  # a ledger whose second line is arrays nested past the JSON parser's depth
+        assert run(["ledger", "accept-unflagged", arg, "--ledger", name]) == 0
+        first, rest = path.read_bytes().split(b"\n", 1)
+        path.write_bytes(first + b"\n" + TEXT["deep_json"] + rest)
     else:
         raise ValueError(f"unknown file kind {how!r} for {name}")

@@ -127,3 +127,18 @@ def test_a_cut_parquet_file_is_one_line_before_any_screen(tmp_path, monkeypatch,
     err = capsys.readouterr().err
     assert err.startswith(f"pricefold triage: {cut}: not a readable Parquet file (") and err.count("\n") == 1
     assert not (tmp_path / "l.jsonl").exists()
+
+
+def test_a_dumb_terminal_gets_one_line_and_no_screen(tmp_path, monkeypatch, capsys):
+    """``TERM=dumb`` (an editor's shell buffer) cannot draw a screen: the screen's escapes would arrive as text (a
+    trial: the alternate screen, mouse tracking and 24-bit colours written to it)."""
+    import sys
+    data = tmp_path / "semi.csv"
+    semicolon_file(data)
+    monkeypatch.setenv("TERM", "dumb")
+    for stream in ("stdin", "stdout"):
+        monkeypatch.setattr(getattr(sys, stream), "isatty", lambda: True, raising=False)
+    monkeypatch.setattr(triage_cli, "triage_app", lambda *a, **k: pytest.fail("the screen was started"))
+    assert cli.main(["triage", str(data), "--sep", ";", "--ledger", str(tmp_path / "l.jsonl")]) == 2
+    err = capsys.readouterr().err
+    assert "TERM is 'dumb'" in err and err.count("\n") == 1 and not (tmp_path / "l.jsonl").exists()
