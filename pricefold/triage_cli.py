@@ -104,21 +104,37 @@ def open_triage(source, ledger_path: Path, analyst: str | None, stored: Path | N
         app.run()
     if app.failure is not None:
         raise PricefoldError(app.failure)
-    if app.return_code == 130:
+    if app.return_code == 130 and not app.note_lost:
         print("pricefold triage: interrupted before the list was shown; nothing was recorded", file=sys.stderr)
         return 130
-    if app.stopped_by is not None:  # a kill, or the terminal gone: one line where there is still somewhere to say it
-        import signal
+    if app.stopped_by is not None or app.note_lost:  # a kill, the terminal gone, or Ctrl+C dropping a typed note:
+        import signal  # one line where there is still somewhere to say it
+        how = f"stopped by {signal.Signals(app.stopped_by).name}" if app.stopped_by is not None else "interrupted"
         try:
-            print(f"pricefold triage: stopped by {signal.Signals(app.stopped_by).name}; "
+            print(f"pricefold triage: {how}; "
                   + (f"decisions are in {ledger_path}" if ledger_path.exists() else "nothing was recorded")
                   + (" (the note being typed was not recorded)" if app.note_lost else ""), file=sys.stderr)
         except OSError:
             pass
-        return 128 + app.stopped_by
+        return 128 + app.stopped_by if app.stopped_by is not None else 130
     if ledger_path.exists():  # after a failure before any decision there is no ledger to point to
         print(f"decisions are in {ledger_path}", file=sys.stderr)
     return app.return_code or 0
+
+
+def accept_command(results: Path | None, data: Path, ledger_path: Path) -> str:
+    """The command that accepts the unflagged series of the screen's results into its ledger, as typed in this
+    shell (the screen says it where its list empties with such series pending); on a data file, which names no
+    results file, the fit that writes one first."""
+    import shlex
+
+    from .demo import typed_command
+    pricefold = typed_command()
+    accept = f"{pricefold} ledger accept-unflagged {{}} --ledger {shlex.quote(str(ledger_path))}"
+    if results is not None:
+        return accept.format(shlex.quote(str(results)))
+    return (f"{pricefold} fit {shlex.quote(str(data))} (with this screen's options) -o RESULTS, then "
+            + accept.format("RESULTS"))
 
 
 def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | None = None, prepare=None):
@@ -131,9 +147,15 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
 
     from .ledger_cli import identity, ledger_key
     who, key = identity(analyst), ledger_key()
+    command = accept_command(stored or source.results, source.data, ledger_path)
     if stored is None:
         from tui.app import TriageApp
-        return TriageApp(lambda progress: open_session(source, ledger_path, who, key, progress))
+
+        def fitted(progress):
+            session = open_session(source, ledger_path, who, key, progress)
+            session.accept_command = command
+            return session
+        return TriageApp(fitted)
     rows = read_header(stored).get("input", {}).get("rows") or 0
     unobserved = None
     if not source.found:
@@ -148,6 +170,7 @@ def triage_app(source, ledger_path: Path, analyst: str | None, stored: Path | No
 
     def opener(progress):
         session = open_stored_session(stored, ledger_path, who, key, progress, units=source.units)
+        session.accept_command = command
         session.warnings.extend(source.warnings)
         if unobserved is not None:
             session.unobserved = unobserved

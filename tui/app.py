@@ -121,7 +121,7 @@ class TriageApp(App):
         self.session: TriageSession | None = None
         self.failure: str | None = None  # why the session could not be opened (the command line says it too)
         self.stopped_by: int | None = None  # the signal (SIGTERM, SIGHUP) that ended the screen, if one did
-        self.note_lost = False  # a note box was open when it did
+        self.note_lost = False  # a note box was open when a signal ended it (held text when Ctrl+C did)
         self._mounted = threading.Event()  # progress reaches the loading screen once there is one
         self.opening.report_to(self._progressed)
 
@@ -146,8 +146,14 @@ class TriageApp(App):
 
     def action_interrupt(self) -> None:
         """Ctrl+C: while the session still opens (reading, fitting) the command was interrupted, as a fit's
-        Ctrl+C is (exit 130); once the list is up it is a quit like any other (each decision is already written)."""
-        self.exit(return_code=130 if self.session is None and self.failure is None else 0)
+        Ctrl+C is (exit 130); once the list is up it is a quit like any other (each decision is already written) —
+        but where it drops a note typed in a box (its second press there, ``TextDialog.action_leave``), the
+        command was interrupted with work lost, as a kill's (exit 143) is: exit 130, and its line says so."""
+        if self.session is None and self.failure is None:
+            self.exit(return_code=130)
+            return
+        self.note_lost = isinstance(self.screen, TextDialog) and self.screen.holds_text()
+        self.exit(return_code=130 if self.note_lost else 0)
 
     def _stop_on_signals(self) -> None:
         """SIGTERM (a kill) and SIGHUP (the SSH link dropped) end the screen as ``q`` does, the terminal given

@@ -98,6 +98,8 @@ def help_text(book=None, keys: str | None = None, rejected: str | None = None, r
         Text("≈North in the flags column: the series is new to the ledger, and looks like a ledger series these "
              "results do not hold, spelled North there (case, Unicode form or spaces differ); a decision on it asks "
              "first, as it records a new series beside that one"),
+        Text("proposes poly5 (→poly5 where short of room) in the flags column: the flags after it are this "
+             "proposal's, not those of the model listed (signed on other data, or accepted from another fit)"),
         Text("\nSettings", style="bold"),
         Text(settings_text(results) if results is not None else "Cautions. " + caution(decides=YOU_DECIDE),
              style="italic"),

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fitcore.review.flags import CODES
-from fitcore.text import original
+from fitcore.text import original, printable
 
 FILTERS = ("attention", "all", "pending", "held", "decided", "changed", "shifted", "spelled")
 # "undecided": no decision stands on the current data, i.e. the statuses pending and stale together (the
@@ -47,8 +47,8 @@ class SearchHit:
 
 class ListState:
     """The list part of a triage session.  Uses the session's ``results``, ``diagnosis``, ``keys``,
-    ``status_code``, ``_flagged``, ``accepted_other_mask`` and ``spellings``; ``_init_list`` must run before the
-    first ``rebuild_view``."""
+    ``status_code``, ``_flagged``, ``accepted_other_mask``, ``spellings`` and ``accept_command``; ``_init_list``
+    must run before the first ``rebuild_view``."""
 
     def _init_list(self, n_series: int) -> None:
         self.filter, self.sort, self.flag_filter = "attention", "attention", None
@@ -105,15 +105,23 @@ class ListState:
         return mask & self.listed_raised()[:, CODES.index(flag)] if flag else mask
 
     def empty_words(self) -> list[str]:
-        """What the list says where it lists nothing: why, and where the series are (the evidence panel, beside
-        it, is off screen in a narrow terminal)."""
-        said = ["Nothing listed here: f for another view, / to search."]
-        if self.filter == "attention" and self.flag_filter is None:
-            undecided = int(np.count_nonzero(self.undecided))
-            if undecided:
-                said = [f"Nothing needs a decision: {undecided:,} undecided series carry no flag.",
-                        f"f: all {self.results.n_series:,} series; or accept the unflagged together",
-                        "with 'pricefold ledger accept-unflagged'."]
+        """What the list says where it lists nothing, a sentence an item: why, and where the series are (the
+        evidence panel, beside it, is off screen in a narrow terminal); where series no decision stands on carry no
+        flag, the command that accepts them together, with this screen's results and ledger (``accept_command``):
+        a trial's two cycles ended on "Nothing listed" with 27, then 4, of them pending, and nothing said how."""
+        # what accept-unflagged accepts: no flag, no decision standing (a stale series' stands), no look-alike left
+        unflagged = int(np.count_nonzero(self._code("pending") & ~self._flagged & ~self.spellings.marked))
+        undecided = int(np.count_nonzero(self.undecided))
+        if self.filter == "attention" and self.flag_filter is None and undecided:
+            said = [f"Nothing needs a decision: {undecided:,} undecided series carry no flag.",
+                    f"f: all {self.results.n_series:,} series."]
+        else:
+            said = ["Nothing listed here: f for another view, / to search."]
+            if unflagged:
+                said.append(f"{unflagged:,} pending series carr{'ies' if unflagged == 1 else 'y'} no flag.")
+        if unflagged:
+            said.append(("To accept its proposal" if unflagged == 1 else "To accept them together, each its proposal, "
+                         "in one batch") + f": {printable(self.accept_command)}")
         return said
 
     def filter_counts(self) -> dict[str, int]:

@@ -9,6 +9,7 @@ without a terminal.
 """
 from __future__ import annotations
 
+import shlex
 from pathlib import Path
 
 import numpy as np
@@ -101,6 +102,9 @@ class TriageSession(Deciding, Standing, ListState):
         self._written: set[str] = set()  # digests this screen appended
         self._mine: list[tuple[str, str]] = []  # (series id, digest) of this screen's decisions, oldest first
         self.first_fit: Results | None = None  # the series on screen, fitted before the whole data (``observe_first``)
+        # how the analyst accepts the unflagged series from the shell, said where the list empties (the command line
+        # gives it with the path it was run by and the results file; a session on a data file has none to name)
+        self.accept_command = f"pricefold ledger accept-unflagged RESULTS --ledger {shlex.quote(str(ledger_path))}"
         self._first_rows: dict[int, int] = {}  # series → its row in ``first_fit``
         self._init_list(data.n_series)
         self.reload_ledger(force=True, pin=None)

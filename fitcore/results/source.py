@@ -33,6 +33,7 @@ class Source:
     units: dict = field(default_factory=dict)  # labels from the settings file's [units] table: price, volume
     sep: str | None = None  # the data's field separator (None: found from the header), as ``fit --sep``
     fitted_ledger: str | None = None  # the ledger results were fitted against (``fit --ledger``), as recorded
+    results: Path | None = None  # the results file this source was read from (``source_from_results``), as given
 
     @property
     def found(self) -> bool:
@@ -66,7 +67,7 @@ def source_from_results(path: Path, check_data: bool = True) -> Source:
                     settings=replace(settings, extra={}),
                     plan_file=_beside(path, plan["file"]) if plan.get("file") else None, plan_price=plan.get("price"),
                     thresholds=recorded_thresholds(extra.get("thresholds"), path),
-                    fitted_ledger=(head.get("ledger") or {}).get("path"))
+                    fitted_ledger=(head.get("ledger") or {}).get("path"), results=Path(path))
     if not check_data:
         source.expected_sha256 = head["input"]["sha256"]
     elif file_sha256(data) != head["input"]["sha256"]:

@@ -70,7 +70,7 @@ async def test_ctrl_c_in_a_note_dialog_leaves_and_a_typed_note_takes_a_second_pr
                 assert "Ctrl+C again leaves pricefold without recording this note" in screen_text(app)
             await pilot.press("ctrl+c")
             await pilot.pause()
-            assert app.return_code == 0
+            assert app.return_code == (130 if typed else 0)  # a note dropped: an interrupt (test_new_user_traps)
         assert not ledger_path.exists() or not ledger_path.read_bytes()
 
 

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import csv
 import re
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -295,18 +296,22 @@ async def test_a_notification_under_a_dialog_is_drawn_once(ledger_path, size):
         assert shown.count("zebra") == 1 and shown.count("okapi") == 1, shown
 
 
-def clean_source(tmp_path) -> Source:
-    """Three straight-line series that raise no flag: the default view lists nothing."""
-    path = tmp_path / "clean.csv"
+def straight_lines(path: Path, low: float, step: float, level: float, slope: float, noise: float) -> Path:
+    """Three invented straight-line series of 40 rows, prices from ``low`` by ``step``, written to ``path``."""
     rng = np.random.default_rng(1)
     with open(path, "w", newline="") as handle:
         writer = csv.writer(handle)
         writer.writerow(["product", "price", "volume"])
         for p in range(3):
             for k in range(40):
-                price = 2 + 0.02 * ((k * 7) % 40)
-                writer.writerow([f"item {p}", f"{price:.2f}", f"{1000 - 150 * price + rng.normal(0, 5):.1f}"])
-    return Source(data=path, columns=Columns())
+                price = low + step * ((k * 7) % 40)
+                writer.writerow([f"item {p}", f"{price:.2f}", f"{level - slope * price + rng.normal(0, noise):.1f}"])
+    return path
+
+
+def clean_source(tmp_path) -> Source:
+    """Three straight-line series that raise no flag: the default view lists nothing."""
+    return Source(data=straight_lines(tmp_path / "clean.csv", 2, 0.02, 1000, 150, 5), columns=Columns())
 
 
 async def test_an_empty_view_says_why_in_the_list_at_80_columns(tmp_path, ledger_path):

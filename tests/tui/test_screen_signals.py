@@ -43,3 +43,9 @@ def test_the_command_says_what_stands(ledger_path, monkeypatch, capsys):
     Stopped.note_lost = False  # no note box open: no word of a note
     assert triage_cli.open_triage(None, ledger_path, "ana") == 143
     assert capsys.readouterr().err == f"pricefold triage: stopped by SIGTERM; decisions are in {ledger_path}\n"
+    # Ctrl+C leaving a typed note unrecorded (its second press in the box): said as SIGTERM's is, exit 128 + SIGINT's 2
+    # (a trial: exit 0 and only "decisions are in L.jsonl")
+    Stopped.return_code, Stopped.stopped_by, Stopped.note_lost = 130, None, True
+    assert triage_cli.open_triage(None, ledger_path, "ana") == 130
+    assert capsys.readouterr().err == (f"pricefold triage: interrupted; decisions are in {ledger_path} (the note "
+                                       "being typed was not recorded)\n")

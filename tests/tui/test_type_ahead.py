@@ -28,11 +28,13 @@ def type_ahead(app, *keys: str) -> None:
 
 
 async def on_an_unflagged_series(app, pilot) -> int:
-    """The cursor on a series without flags that has a model to override with (``a`` records it at once)."""
+    """The cursor on a series without flags that has a model to override with (``a`` records it at once), below
+    its proposal in the override dialog: ↓ reaches it (the list stops at its last row)."""
     session = await all_listed(app, pilot)
     results = session.results
     s = next(int(i) for i in session.view
-             if not session.diagnosis.raised[int(i)].any() and results.available[int(i)].sum() >= 2)
+             if not session.diagnosis.raised[int(i)].any() and results.available[int(i)].sum() >= 2
+             and results.available[int(i), int(results.chosen[int(i)]) + 1:].any())
     session.cursor = int((session.view == s).nonzero()[0][0])
     app.screen.refresh_all()
     await pilot.pause()

@@ -8,7 +8,9 @@ from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
+from textual.message import Message
 from textual.screen import ModalScreen
+from textual.scrollbar import ScrollBarRender
 from textual.widgets import Input, OptionList, Static
 from textual.widgets.option_list import Option
 
@@ -32,6 +34,22 @@ class Dialog(ModalScreen):
         return super().dismiss(result)
 
 
+class DialogBox(Vertical):
+    """A dialog's box.  It says when its size changes, the terminal's or not: a notification's band at the foot of
+    the screen takes rows from it (``base.tcss``), and its dialog fits itself to what is left."""
+
+    class Resized(Message):
+        """The box took another size."""
+
+    def on_resize(self) -> None:
+        self.post_message(self.Resized())
+
+
+def band_height(screen) -> int:
+    """Rows the notifications take at the foot of ``screen`` (0 without one; their rack measures nothing)."""
+    return sum(toast.outer_size.height for toast in screen.query("Toast"))  # Textual's own widget, by name
+
+
 class NoteField(Input):
     """The text field of a note.  Esc with a key right behind it (typed fast, or bunched together over SSH) reaches
     a terminal program as one key, alt+that key: the field typed it into the note, and the box stayed open (a
@@ -45,6 +63,29 @@ class NoteField(Input):
             self.screen.action_cancel()
             return
         await super()._on_key(event)
+
+
+class PickList(OptionList):
+    """A dialog's list of things to pick: ↑ at the first row and ↓ at the last stay there.  Textual's own list went
+    round to the other end: a trial's ↑ pressed once more than the top needed picked the bottom model, unseen
+    (poly5 signed for poly0)."""
+
+    def action_cursor_up(self) -> None:
+        self._step(-1)
+
+    def action_cursor_down(self) -> None:
+        self._step(1)
+
+    def _step(self, way: int) -> None:
+        at = self.highlighted
+        if at is None:
+            if way > 0:
+                self.action_first()
+            else:
+                self.action_last()
+            return
+        ahead = range(at + way, len(self.options) if way > 0 else -1, way)
+        self.highlighted = next((i for i in ahead if not self.get_option_at_index(i).disabled), at)
 
 
 class Question(VerticalScroll, can_focus=False):
@@ -144,8 +185,12 @@ class TextDialog(Asking):
     def action_cancel(self) -> None:
         self.dismiss(None)
 
+    def holds_text(self) -> bool:
+        """Something is typed in the box (what leaving now would not record)."""
+        return bool(self.query_one("#dialog-input", Input).value.strip())
+
     def action_leave(self) -> None:
-        if self.query_one("#dialog-input", Input).value.strip() and not self._warned:
+        if self.holds_text() and not self._warned:
             self._warned = True
             self.query_one("#dialog-hint", Static).update(Text(
                 "Ctrl+C again leaves pricefold without recording this note · Enter to confirm · Esc to cancel",
@@ -167,7 +212,7 @@ class ChoiceDialog(Asking):
         with Vertical(classes="dialog asking"):
             with Question():
                 yield Static(literal(self.title_text, "bold"), markup=False)
-            yield OptionList(*[Option(Text(label), id=key) for key, label in self.options], id="dialog-options")
+            yield PickList(*[Option(Text(label), id=key) for key, label in self.options], id="dialog-options")
             yield Static(Text("↑↓ to move · Enter to choose · Esc to cancel", style="dim"), markup=False,
                          id="dialog-hint")
 
@@ -182,6 +227,14 @@ class ChoiceDialog(Asking):
 
     def action_cancel(self) -> None:
         self.dismiss(None)
+
+
+class WholeCells(ScrollBarRender):
+    """A scrollbar whose thumb fills whole cells.  Textual ends a thumb in eighth-cell glyphs (▆ at its top, ▂ at its
+    bottom) drawn on the track's colour: on the help's dim track a trial read them as two stray marks, one glued to
+    the text ('outside the▆')."""
+
+    VERTICAL_BARS = [" "] * 8  # (a blank end is left to the track: the thumb is its whole cells)
 
 
 class MessageDialog(Dialog):
@@ -199,7 +252,9 @@ class MessageDialog(Dialog):
             yield Static(Text("↑↓ to scroll · Esc or Enter to close", style="dim"), markup=False)
 
     def on_mount(self) -> None:
-        self.query_one("#message-scroll").focus()
+        scroll = self.query_one("#message-scroll")
+        scroll.vertical_scrollbar.renderer = WholeCells
+        scroll.focus()
 
     def action_close(self) -> None:
         self.dismiss(None)

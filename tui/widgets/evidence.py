@@ -151,8 +151,10 @@ class EvidencePanel(VerticalScroll, can_focus=True):
             return
         s = self.series
         if s is None:
-            self._part("title").update(Text("Nothing listed: change the filter (f) or the search (/).", style="dim"))
-            for name in PARTS[1:]:
+            said = self.session.empty_words()  # as the list says it: the title, then the rest below it
+            self._part("title").update(Text(said[0], style="dim"))
+            self._part("flags").update(Text(" ".join(said[1:]), style="dim"))
+            for name in PARTS[2:]:
                 self._part(name).update("")
             return
         self._part("title").update(self.title_text(s), layout=False)

@@ -1,6 +1,8 @@
 """The series list: one line per series, drawn only for the rows on screen (Line API)."""
 from __future__ import annotations
 
+import textwrap
+
 from rich.cells import cell_len
 from rich.segment import Segment
 from rich.style import Style
@@ -64,6 +66,15 @@ def stale_proposal(session: TriageSession, s: int, listed: str) -> str | None:
         return None
     proposal = session.results.names[chosen]
     return proposal if proposal != listed.rstrip("↺") else None
+
+
+def proposal_lead(proposal: str, codes: list[str], width: int) -> str:
+    """What a row's flags column begins with where its flags are ``proposal``'s, not the listed model's, in
+    ``width`` cells: ``proposes poly5 `` (``→poly5 `` where short of room), the name never cut — the flags after it
+    give way, counted (``!rising +1``): "proposes pol… !rising !stale" did not say which model was proposed."""
+    least = cell_len(f" +{len(codes)}") if codes else 0  # the flags counted, where none of them fits
+    return next((lead + " " for lead in (f"proposes {proposal}", f"→{proposal}")
+                 if cell_len(lead) + least <= width), "")
 
 
 class SeriesList(ScrollView, can_focus=True):
@@ -181,8 +192,9 @@ class SeriesList(ScrollView, can_focus=True):
             return Strip([Segment(head, Style(bold=True, underline=True))]).crop(0, width).extend_cell_length(width, PLAIN)
         row = y - 1 + int(self.scroll_y)
         session = self.session
-        if not len(session.view):
-            said = session.empty_words()
+        if not len(session.view):  # each sentence wrapped to the list's width (a command holds two paths)
+            said = [line for sentence in session.empty_words()
+                    for line in textwrap.wrap(sentence, max(width - 2, 20), break_on_hyphens=False)]
             text = f"  {said[row]}" if row < len(said) else ""
             return Strip([Segment(text, Style(dim=True))]).crop(0, width).extend_cell_length(width, PLAIN)
         if row >= len(session.view):
@@ -236,10 +248,11 @@ class SeriesList(ScrollView, can_focus=True):
             flag_style = STOP if severity == "stop" else WARN if severity else DIM
             other = session.accepted_other(s) or stale_proposal(session, s, name)  # the flags are this proposal's
             spelled = session.spellings.differing(s)  # like a ledger series spelled so (``spellings``)
-            lead = (f"≈{spelled}" if spelled is not None else f"proposes {other}" if other is not None else "")
-            if lead:  # cut before any stop flag is: "≈flat line thing …" had pushed "!flat-price" out
+            if spelled is not None:  # cut before any stop flag is: "≈flat line thing …" had pushed "!flat-price" out
                 room = flags_w - stop_room(flags) - 1  # a space between it and the flags
-                lead = cut(lead, room) + " " if room >= 2 else "≈ " if spelled is not None else ""
+                lead = cut(f"≈{spelled}", room) + " " if room >= 2 else "≈ "
+            else:
+                lead = proposal_lead(other, flags, flags_w) if other is not None else ""
             rest = flags_w - cell_len(lead)
             segments += [Segment(lead, WARN), Segment(pad(short_flags(flags, rest)
                                                           or ("" if lead else "—"), rest), flag_style)]
