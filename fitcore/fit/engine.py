@@ -47,7 +47,7 @@ def fit_batch(data: Dataset, settings: FitSettings = FitSettings(), *, plan_pric
     plan = np.full(n_series, np.nan) if plan_price is None else np.broadcast_to(
         np.asarray(plan_price, dtype=np.float64), (n_series,)).copy()
     lineup, scheme = lineup_for(settings), fold_scheme(settings)
-    scheme.check_rows(data.counts)
+    scheme.check_rows(data.counts, FitSettings.folds)
     spec = ControlSpec.of(data, settings)
     at_controls = None if spec is None else spec.plan_values(n_series, plan_controls, plan_date)
     merged = None

@@ -102,7 +102,7 @@ class FoldScheme:
         """(S,) how many held-out errors each series gets (one per fold, or one per row)."""
         raise NotImplementedError
 
-    def check_rows(self, counts: np.ndarray) -> None:
+    def check_rows(self, counts: np.ndarray, default: int) -> None:
         """``SettingsError`` where the scheme asks more of the series' row counts than any has (none here)."""
 
     def held_out(self, family, work):
@@ -159,14 +159,13 @@ class KFold(FoldScheme):
     def error_counts(self, counts):
         return np.full(len(counts), self.k, dtype=np.int64)
 
-    def check_rows(self, counts: np.ndarray) -> None:
-        """``SettingsError`` where K is above the default and no series has the rows for it: every one would be
+    def check_rows(self, counts: np.ndarray, default: int) -> None:
+        """``SettingsError`` where K is above the ``default`` and no series has the rows for it: every one would be
         left without a model, and the held-out errors' table (K a series) alone can take more memory than the
         machine has (``--folds 1000000000`` on 624 rows asked numpy for 44.7 GiB; 100000 ran 10 minutes: a
         trial).  At the default or below, short series are each said as such (``few-points``), as ever."""
-        from .settings import FitSettings
         longest = int(counts.max()) if len(counts) else 0
-        if len(counts) and self.k > max(longest, FitSettings.folds):
+        if len(counts) and self.k > max(longest, default):
             raise SettingsError(f"--folds {self.k:,} is more folds than the longest series has rows ({longest:,}); "
                                 f"give at most {longest:,}, or 'loo' (leave-one-out)")
 
