@@ -59,8 +59,8 @@ def left_for_human(status: str, shifted: bool, stops, has_model: bool, shape_cha
     (``has_model``), or the signed shape is not this cycle's proposal (``shape_changed``) —
     unless the decision carried is an override whose curve is still available and within one SE of the lowest
     CV error (``kept_override``: True; False for an override that is not, said as such — its shape was never the
-    proposal —; None where the decision carried is no override).  The one rule: carry counts by it, ``show --ledger`` and the screen say it as
-    what is due (``due``)."""
+    proposal —; None where the decision carried is no override).  The one rule: carry counts by it, ``show
+    --ledger`` and the screen say it as what is due (``due``)."""
     if status != PASSED:
         return UNTESTED.get(status, status)
     if revised and not revised_ok:
