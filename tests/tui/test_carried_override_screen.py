@@ -52,9 +52,13 @@ async def test_a_carried_override_shows_its_own_curve(carried, tmp_path):
         table = _plain(app.screen.query_one(EvidencePanel).candidate_table(s))  # below the charts: off screen
         assert re.search(r"✓\s+poly1", table) and re.search(r"↺\s+poly2", table)  # proposal; the model that stands
 
-        # Another analyst replaces the carried override with the proposal: recorded, and the screen follows.
+        # Another analyst replaces the carried override with the proposal: asked first (one key replaced a
+        # colleague's decision unasked: a trial), then recorded, and the screen follows.
         assert session.current == s
         await pilot.press("a")
+        await pilot.pause(0.3)
+        assert "This replaces what stands" in screen_text(app) and ledger.Ledger(copy).records[-1]["action"] != "accept"
+        await pilot.press("up", "enter")
         await pilot.pause(0.3)
         written = ledger.Ledger(copy).records[-1]
         assert written["action"] == "accept" and written["model"] == "poly1" and written["series"] == key

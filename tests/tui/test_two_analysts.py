@@ -241,3 +241,35 @@ async def test_every_decision_box_on_a_series_another_analyst_decided_says_what_
         assert any(f"in place of {said}" in n.message for n in app._notifications)
         session.look(s)
         assert app.screen.replaced_text(session.shown) is None  # ana's own override now: nothing more to say
+
+
+async def test_an_accept_needing_no_note_asks_first_on_a_series_another_analyst_decided(ledger_path):
+    """A trial: bo's `a` on a series ana had just held, with no stop flag, opened no box and recorded at once —
+    one key replacing a colleague's hold, told only afterwards.  Now it asks, naming what stands; No (the default)
+    or Esc records nothing, Yes accepts.  On a series nobody else decided `a` still records at once."""
+    from tui.factory import open_session, sample_source
+    from tui.screens.dialogs import ChoiceDialog
+    from .conftest import on_series
+    app = make_app(ledger_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        figs = {"product": "fresh figs 500 g", "region": "North"}  # warn flags only: no note asked
+        s = await on_series(app, pilot, figs)
+        session = app.session
+        assert not session.needs_reason(session.shown, "accept")
+        bo = open_session(sample_source(), ledger_path, BO)  # bo's screen, while ana's is open
+        held = bo.decide(bo.look(s), "hold", note="asked the buyer")
+        app.screen.poll_ledger()
+        await until(pilot, lambda: session.status[s] == "held")
+        for no in (("enter",), ("escape",)):
+            await pilot.press("a")
+            await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
+            await pilot.pause()
+            assert f"This replaces what stands: bo held at {held['at'][11:19]} UTC" in box_words(app)
+            await pilot.press(*no)
+            await until(pilot, lambda: not isinstance(app.screen, ChoiceDialog))
+            assert len(records(ledger_path)) == 1 and session.status[s] == "held"
+        await pilot.press("a")
+        await until(pilot, lambda: isinstance(app.screen, ChoiceDialog))
+        await pilot.press("up", "enter")
+        await until(pilot, lambda: session.status[s] == "accepted")
+        assert [(r["analyst"], r["action"]) for r in records(ledger_path)] == [("bo", "hold"), ("ana", "accept")]

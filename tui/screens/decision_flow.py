@@ -197,8 +197,31 @@ class DecisionFlow:
             self.ask(f"Accept {shown.proposed} for {self.session.label(shown.series)} despite "
                      f"{', '.join(shown.to_explain)}? Say why", "a note is required",
                      True, lambda note: self.decide(shown, "accept", note=note), self.signing_text(shown))
+        elif self.anothers(shown):  # one key must not replace a colleague's hold or decision unasked (a trial)
+            def answered(choice: str | None) -> None:
+                if choice == "accept":
+                    try:  # the dialog may have stood a while: the ledger's refusal now
+                        self.session.check_shown(shown, "accept")
+                    except PricefoldError as exc:
+                        self.not_recorded(shown, exc)
+                        return
+                    self.decide(shown, "accept")
+            self.open_dialog(ChoiceDialog(f"Accept {shown.proposed} for {self.session.label(shown.series)}? This "
+                                          f"replaces what stands: {self.replaced_text(shown)}.",
+                                          [("accept", f"Yes: accept {shown.proposed}"),
+                                           ("cancel", "No: record nothing (Esc)")], "cancel"), answered)
         else:
             self.decide(shown, "accept")
+
+    def anothers(self, shown: Shown) -> bool:
+        """Whether another analyst's decision on these data stands on the series ``shown`` (or is the latest
+        there).  One made on other data (the series reads stale) is last cycle's, which a new cycle's decisions
+        replace as a matter of course: its box, where one opens, says so (``replaced_text``)."""
+        session = self.session
+        s = session.index_of(shown)
+        if session.status[s] == "stale":
+            return False
+        return bool({r["analyst"] for r in (session.standing(s), session.decision(s)) if r} - {session.who.analyst})
 
     def hold(self, shown: Shown) -> None:
         self.ask(f"Hold {self.session.label(shown.series)}: why? (optional)", "Enter alone holds without a note",
