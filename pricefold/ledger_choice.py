@@ -44,7 +44,8 @@ def required_for(results: Path, fitted: str | None) -> SettingsError:
     if fitted:
         return SettingsError(f"{results}: fitted against the ledger {clean(fitted)}, and accept-unflagged records "
                              f"only into the ledger --ledger names: give --ledger {_option(fitted)} to accept into "
-                             "that one, or --ledger OTHER to record into another on purpose; nothing was written")
+                             "that one, or --ledger OTHER to record into another existing ledger on purpose; nothing "
+                             "was written")
     return SettingsError("accept-unflagged records only into the ledger --ledger names: give --ledger LEDGER "
                          "(see pricefold ledger accept-unflagged --help)")
 
