@@ -250,6 +250,9 @@ def check_columns(path: Path, found: list[str], columns: Columns) -> None:
             hint = f"; did you mean {quoted(close[0])}?" if close else ""
             if "plan_price" in found and columns.volume not in found:  # the plan given as the data
                 hint = "; it reads like a plan file (a 'plan_price' column, no volume): give it with --plan"
+            elif name == "plan_price" and not (close and close[0].lower().startswith("plan")):  # data as the plan
+                hint = ("; a plan file holds the series' keys and a 'plan_price' column: is this the data file? "
+                        "(the data go first, the plan after --plan)")
             raise DataError(f"expected a column {quoted(name)}, found {header_names(found)}{hint}",
                             path=str(path), line=1, column=name)
     first: dict[str, int] = {}

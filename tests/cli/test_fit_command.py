@@ -145,6 +145,9 @@ def test_non_numeric_cell_is_rejected_with_its_line_or_fails_when_strict(tmp_pat
     (["--plan-price", "inf"], "expected --plan-price to be a price of at most 1e15, got inf"),
     (["--plan-price", "nan"], "expected --plan-price to be a number above zero, got nan"),
     # the longest series of the sample by product has 312 rows (3 regions × 104 weeks); a billion folds asked numpy for 44.7 GiB (a trial)
+    # the data file given as the plan too: said as such, not "did you mean 'price'?" (a trial)
+    (["--plan", str(SAMPLE / "wholesale.csv")], "a plan file holds the series' keys and a 'plan_price' column: is "
+                                                "this the data file?"),
     (["--folds", "313"], "--folds 313 is more folds than the longest series has rows (312)"),
     (["--folds", "1000000000"], "--folds 1,000,000,000 is more folds than the longest series has rows (312)"),
 ])
