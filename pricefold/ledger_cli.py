@@ -54,8 +54,8 @@ def record(book: ledger.Ledger, entries, who: ledger.Identity) -> list[dict]:
     written = book.append(entries, who, before=interrupts.check,
                           recorded=lambda written: interrupts.recorded(recorded_words(book.path, written)))
     if book.tail_moved_to is not None:  # said where it went: "the next append moves it to a side file" said only that
-        print(f"pricefold ledger: {book.path}: note: the interrupted tail after its last whole record was moved to "
-              f"{book.tail_moved_to.name} beside it", file=sys.stderr)
+        from fitcore.ledger.files import tail_moved_words
+        print(f"pricefold ledger: {book.path}: note: {tail_moved_words(book.tail_moved_to)}", file=sys.stderr)
     return written
 
 

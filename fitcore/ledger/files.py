@@ -95,6 +95,12 @@ def crc_of(fd: int, path: Path, end: int) -> int | None:
     return crc
 
 
+def tail_moved_words(side: Path) -> str:
+    """What is said of an interrupted tail an append moved to the side file ``side`` (``set_aside``): the command
+    line's note and the triage screen's header, in the same words."""
+    return f"the interrupted tail after its last whole record was moved to {side.name} beside it"
+
+
 def set_aside(fd: int, path: Path, keep: int, moment: datetime) -> Path:
     """Move the bytes after ``keep`` (a torn line, an incomplete batch) to ``<ledger>.torn-<UTC time>``
     beside the real file (a ledger name too long for that: ``side_stem``), then cut them from the ledger.

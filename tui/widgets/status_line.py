@@ -208,8 +208,8 @@ def tail_text(session) -> str | None:
 def moved_text(book, side: Path) -> str:
     """'K.jsonl: the interrupted tail after its last whole record was moved to K.jsonl.torn-<UTC time> beside it' —
     as ``ledger_cli.record`` says it of a command's append."""
-    return (f"{clean(book.path.name)}: the interrupted tail after its last whole record was moved to "
-            f"{clean(side.name)} beside it")
+    from fitcore.ledger.files import tail_moved_words
+    return clean(f"{book.path.name}: {tail_moved_words(side)}")
 
 
 def cut_off_text(book) -> str:
