@@ -220,8 +220,8 @@ def plan_from_stored(path: Path, overrides: frozenset = frozenset(), histories: 
                                                                   "signed_price_hi")))]  # (older results: not judged)
     why = [left_for_human(*args)
            for args in zip(status[tested].tolist(), shifted.tolist(), stop.tolist(), has_model.tolist(),
-                           changed.tolist(), np.where(override, near, None).tolist(), revised.tolist(), [revised_ok] * len(tested),
-                           beyond)]
+                           changed.tolist(), np.where(override, near, None).tolist(), revised.tolist(),
+                           [revised_ok] * len(tested), beyond)]
     untested = np.flatnonzero(~np.isin(status[tested].astype(str), [PASSED, FAILED]))
     for i, key, fingerprint, last in zip(untested.tolist(), *series_of(tested[untested])):
         why[i] = newer_first(why[i], status[tested[i]], key, fingerprint, last, histories)

@@ -290,8 +290,8 @@ def standing_flags(record: dict, book, thresholds, full=None) -> tuple[list[dict
     the flags its own curve carries, as ``ledger export`` writes them (``candidate_checks.standing_codes``) — the
     series' own and the proposal's kept with their sentences, the curve's checks added with its severity and no
     sentence; ``checked`` false where no curve could be checked; ``score``: that curve's Q² (None where these
-    results did not fit it), the score its row ranks by on the screen and in the report.  ``thresholds()``: the fit's; ``full()``: the
-    whole record where ``record`` holds no candidates.  None where no override stands (accepted, pending, held,
+    results did not fit it), the score its row ranks by on the screen and in the report.  ``thresholds()``: the
+    fit's; ``full()``: the whole record where ``record`` holds no candidates.  None where no override stands (accepted, pending, held,
     or stale: signed on other data, the results' flags are of this cycle's proposal)."""
     history = book.histories.get(series_id(record["key"]))
     if history is None or history.status(record["fingerprint"]) != "overridden":

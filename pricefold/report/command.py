@@ -303,8 +303,10 @@ def run(args) -> int:
     guard_output(args.output, [("the results", args.results), ("the ledger", ledger_path)])
     book = open_book(args.results)
     if args.ledger is None:  # a later cycle's results: the default beside them is not their ledger
+        from fitcore.ledger.elsewhere import fitted_ledger
+
         from ..ledger_choice import default_for
-        default_for(args.results, ((book.header or {}).get("ledger") or {}).get("path"), reads=True)
+        default_for(args.results, fitted_ledger(book.header or {}), reads=True)
     from fitcore.outputs import check_not_input
     from fitcore.results.read import results_inputs
     check_not_input(args.output, results_inputs(book.header))  # the data and plan the results name
